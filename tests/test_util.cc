@@ -1,0 +1,53 @@
+#include "test_util.h"
+
+#include <cmath>
+#include <filesystem>
+#include <fstream>
+#include <sstream>
+
+namespace paritas::testing {
+
+::testing::AssertionResult IsClose(double actual, double expected, double rel_tol) {
+  if (std::isnan(actual) && std::isnan(expected)) return ::testing::AssertionSuccess();
+  if (std::isinf(actual) || std::isinf(expected)) {
+    if (actual == expected) return ::testing::AssertionSuccess();
+  } else if (std::abs(actual - expected) <= rel_tol * std::max(1.0, std::abs(expected))) {
+    return ::testing::AssertionSuccess();
+  }
+  std::ostringstream s;
+  s.precision(17);
+  s << actual << " differs from " << expected << " by more than " << rel_tol;
+  return ::testing::AssertionFailure() << s.str();
+}
+
+std::string TestDataPath(const std::string& relative) {
+  return std::string(PARITAS_TEST_DATA_DIR) + "/" + relative;
+}
+
+std::string SourcePath(const std::string& relative) {
+  return std::string(PARITAS_SOURCE_DIR) + "/" + relative;
+}
+
+std::string MakeTempDir(const std::string& name) {
+  namespace fs = std::filesystem;
+  fs::path dir = fs::temp_directory_path() / ("paritas_test_" + name);
+  fs::remove_all(dir);
+  fs::create_directories(dir);
+  return dir.string();
+}
+
+void WriteTextFile(const std::string& path, const std::string& contents) {
+  std::filesystem::path p(path);
+  if (p.has_parent_path()) std::filesystem::create_directories(p.parent_path());
+  std::ofstream out(path, std::ios::binary);
+  out << contents;
+}
+
+std::string ReadTextFile(const std::string& path) {
+  std::ifstream in(path, std::ios::binary);
+  std::ostringstream s;
+  s << in.rdbuf();
+  return s.str();
+}
+
+}  // namespace paritas::testing
