@@ -1,1 +1,124 @@
-// placeholder
+// All-pairs bilateral indices from a few masked matrix products.
+//
+// Each pairwise sum over matched columns, sum_h m_ah m_bh x_ah y_bh, is
+// ((M∘X)(M∘Y)ᵀ)_ab, so a region x region matrix of sums costs one GEMM. Log
+// prices are centred per column first: the indices depend only on log price
+// differences within a column, and centring keeps the differences of large
+// products (Törnqvist, Jevons) from losing digits to the price level.
+#include "paritas/bilateral_matrix.h"
+
+#include <cassert>
+#include <cmath>
+#include <limits>
+
+namespace paritas {
+namespace {
+
+constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
+
+// Subtracts from each column of `log_price` the mean over its masked
+// entries; masked-out entries stay 0.
+void CentreColumns(const Eigen::MatrixXd& mask, Eigen::MatrixXd* log_price) {
+  for (Eigen::Index h = 0; h < log_price->cols(); ++h) {
+    const double num_present = mask.col(h).sum();
+    if (num_present == 0.0) continue;
+    const double mean = log_price->col(h).sum() / num_present;
+    log_price->col(h) -= mean * mask.col(h);
+  }
+}
+
+// Sets entries of pairs without a matched column to NaN and the diagonal of
+// regions with any column to exactly 1 (rounding would otherwise leave
+// 1 ± 1e-16 where the identity test requires 1).
+void FixEmptyPairsAndDiagonal(const Eigen::MatrixXd& count, Eigen::MatrixXd* index) {
+  *index = (count.array() > 0.0).select(*index, kNaN);
+  for (Eigen::Index a = 0; a < index->rows(); ++a) {
+    if (count(a, a) > 0.0) (*index)(a, a) = 1.0;
+  }
+}
+
+Eigen::MatrixXi ToCounts(const Eigen::MatrixXd& count) {
+  // Sums of 0/1 products are exact in double; rounding only guards the cast.
+  return count.array().round().cast<int>().matrix();
+}
+
+}  // namespace
+
+BilateralMatrices AllPairsWeighted(const Eigen::MatrixXd& price,
+                                   const Eigen::MatrixXd& expenditure) {
+  assert(price.rows() == expenditure.rows() && price.cols() == expenditure.cols());
+  const Eigen::Index num_regions = price.rows();
+  const Eigen::Index num_headings = price.cols();
+
+  // Masked arrays hold exact zeros where the entry does not count, so NaN or
+  // infinite inputs never reach a product (NaN * 0 would be NaN).
+  Eigen::MatrixXd mask = Eigen::MatrixXd::Zero(num_regions, num_headings);
+  Eigen::MatrixXd masked_price = mask;
+  Eigen::MatrixXd masked_expenditure = mask;
+  Eigen::MatrixXd masked_quantity = mask;
+  Eigen::MatrixXd masked_log_price = mask;
+  for (Eigen::Index h = 0; h < num_headings; ++h) {
+    for (Eigen::Index r = 0; r < num_regions; ++r) {
+      const double p = price(r, h);
+      const double e = expenditure(r, h);
+      if (!(std::isfinite(p) && std::isfinite(e) && p > 0.0 && e > 0.0)) continue;
+      mask(r, h) = 1.0;
+      masked_price(r, h) = p;
+      masked_expenditure(r, h) = e;
+      masked_quantity(r, h) = e / p;
+      masked_log_price(r, h) = std::log(p);
+    }
+  }
+  CentreColumns(mask, &masked_log_price);
+
+  const Eigen::MatrixXd count = mask * mask.transpose();
+  // (a, b): sum over matched headings of p_b q_a, and of e_a = p_a q_a.
+  const Eigen::MatrixXd value_b_basket_a = masked_quantity * masked_price.transpose();
+  const Eigen::MatrixXd value_a = masked_expenditure * mask.transpose();
+
+  BilateralMatrices result;
+  result.laspeyres = value_b_basket_a.cwiseQuotient(value_a);
+  // Paasche(a, b) = sum e_b / sum p_a q_b: the same two sums for (b, a).
+  result.paasche = value_a.transpose().cwiseQuotient(value_b_basket_a.transpose());
+  result.fisher = result.laspeyres.cwiseProduct(result.paasche).cwiseSqrt();
+
+  // With shares renormalised over the pair's matched set, the half of
+  // ln T_ab weighted by region a's shares is
+  //   X_ab = sum_h m_ah m_bh e_ah (y_bh - y_ah) / value_a(a, b),
+  // and the half weighted by region b's shares is -X_ba, so
+  // ln T = ½ (X - Xᵀ), antisymmetric by construction.
+  const Eigen::MatrixXd weighted_log_b = masked_expenditure * masked_log_price.transpose();
+  const Eigen::MatrixXd weighted_log_a =
+      masked_expenditure.cwiseProduct(masked_log_price) * mask.transpose();
+  const Eigen::MatrixXd half_log = (weighted_log_b - weighted_log_a).cwiseQuotient(value_a);
+  result.tornqvist = (0.5 * (half_log - half_log.transpose())).array().exp().matrix();
+
+  FixEmptyPairsAndDiagonal(count, &result.laspeyres);
+  FixEmptyPairsAndDiagonal(count, &result.paasche);
+  FixEmptyPairsAndDiagonal(count, &result.fisher);
+  FixEmptyPairsAndDiagonal(count, &result.tornqvist);
+  result.num_matched = ToCounts(count);
+  return result;
+}
+
+Eigen::MatrixXd AllPairsJevons(const Eigen::MatrixXd& log_price, const Eigen::MatrixXd& present,
+                               Eigen::MatrixXi* num_matched) {
+  assert(log_price.rows() == present.rows() && log_price.cols() == present.cols());
+  // Zero the log price wherever the item is absent: callers may leave any
+  // value there, and the products below assume y = 0 outside the mask.
+  const Eigen::MatrixXd mask =
+      (present.array() != 0.0 && log_price.array().isFinite()).cast<double>().matrix();
+  Eigen::MatrixXd masked_log_price = (mask.array() > 0.0).select(log_price, 0.0);
+  CentreColumns(mask, &masked_log_price);
+
+  const Eigen::MatrixXd count = mask * mask.transpose();
+  // sum_i m_ai m_bi y_bi at (a, b); its transpose holds sum_i m_ai m_bi y_ai.
+  const Eigen::MatrixXd sum_log_b = mask * masked_log_price.transpose();
+  Eigen::MatrixXd jevons =
+      (sum_log_b - sum_log_b.transpose()).cwiseQuotient(count).array().exp().matrix();
+  FixEmptyPairsAndDiagonal(count, &jevons);
+  if (num_matched != nullptr) *num_matched = ToCounts(count);
+  return jevons;
+}
+
+}  // namespace paritas

@@ -2,7 +2,9 @@
 //
 // A node of the classification (or a basic heading) gives region x column
 // arrays with a presence mask; every pairwise sum over matched columns is a
-// product of masked arrays, so no loop runs over pairs and columns together.
+// product of masked arrays (e.g. sum_h m_ah m_bh x_ah y_bh = ((M∘X) (M∘Y)ᵀ)_ab),
+// so no loop runs over pairs and columns together and the cost is a handful
+// of regions x columns x regions products.
 #ifndef PARITAS_BILATERAL_MATRIX_H_
 #define PARITAS_BILATERAL_MATRIX_H_
 
@@ -11,28 +13,45 @@
 namespace paritas {
 
 // Region x region matrices of bilateral indices. Entry (a, b) compares b with
-// a; NaN where the pair has no matched column.
+// a ("the cost in b of what costs 1 in a"), as the scalar functions of
+// index_formulas.h do with region a as the first argument. Entries are NaN
+// where the pair has no matched column; the diagonal is exactly 1 for every
+// region with at least one valid column (NaN otherwise).
 struct BilateralMatrices {
+  // Laspeyres, quantities of region a: sum p_b q_a / sum p_a q_a.
   Eigen::MatrixXd laspeyres;
+  // Paasche, quantities of region b: sum p_b q_b / sum p_a q_b. Equals
+  // 1 / laspeyres transposed.
   Eigen::MatrixXd paasche;
+  // Fisher, sqrt(laspeyres * paasche) elementwise; fisher(a,b) fisher(b,a) = 1.
   Eigen::MatrixXd fisher;
+  // Törnqvist with both regions' expenditure shares renormalised over the
+  // pair's matched columns; ln tornqvist is antisymmetric.
   Eigen::MatrixXd tornqvist;
-  // Number of matched columns per pair (symmetric; diagonal = own count).
+  // Number of matched columns per pair (symmetric; diagonal = the region's
+  // own number of valid columns).
   Eigen::MatrixXi num_matched;
 };
 
 // Computes Laspeyres, Paasche, Fisher and Törnqvist between every pair of
-// regions. `price` and `expenditure` are regions x headings; a heading counts
-// for a pair when both regions have price > 0 and expenditure > 0 there
-// (entries that fail this are ignored whatever their value). Quantities are
-// expenditure / price; shares are renormalised over the matched headings.
+// regions. `price` and `expenditure` are regions x headings, of equal shape
+// (asserted). A heading counts for a pair when both regions have a finite
+// price > 0 and a finite expenditure > 0 there; entries that fail this are
+// ignored whatever their value (NaN included). Quantities are
+// expenditure / price. Each entry equals the scalar formula of
+// index_formulas.h over the pair's matched headings. Cost O(R² H) in a few
+// matrix products for R regions and H headings.
 BilateralMatrices AllPairsWeighted(const Eigen::MatrixXd& price,
                                    const Eigen::MatrixXd& expenditure);
 
 // Computes the Jevons index between every pair of regions: entry (a, b) is
-// exp(mean over matched items of ln p_b - ln p_a). `log_price` is
-// regions x items, `present` the mask (1 where priced). Fills `num_matched`
-// when non-null. NaN where no item is matched.
+// exp(mean over matched items of ln p_b - ln p_a), exactly 1 on the diagonal
+// of a region with any priced item. `log_price` is regions x items and
+// `present` the mask of the same shape (asserted): an item counts for a
+// region where `present` is non-zero and the log price is finite; the log
+// price elsewhere is ignored whatever its value. Resizes and fills
+// `num_matched` (matched items per pair, symmetric) when non-null. NaN where
+// no item is matched.
 Eigen::MatrixXd AllPairsJevons(const Eigen::MatrixXd& log_price, const Eigen::MatrixXd& present,
                                Eigen::MatrixXi* num_matched);
 
