@@ -1,1 +1,90 @@
-// placeholder
+// Thin wrappers: read the configuration, apply overrides, run the job, print.
+#include "cli/commands.h"
+
+#include <cstdio>
+#include <iostream>
+
+#include "paritas/config.h"
+#include "paritas/jobs.h"
+#include "paritas/text.h"
+
+namespace paritas::cli {
+namespace {
+
+// Loads the configuration and applies command-line overrides. Returns false
+// after printing the problem.
+bool LoadConfig(const std::string& path, const Overrides& overrides, RunConfig* config) {
+  std::string error;
+  if (!LoadRunConfig(path, config, &error)) {
+    PrintError(error);
+    return false;
+  }
+  if (overrides.output) config->output = *overrides.output;
+  if (overrides.reference) config->reference = Reference::FromString(*overrides.reference);
+  if (overrides.elementary && !FromString(*overrides.elementary, &config->elementary)) {
+    PrintError("--elementary '" + *overrides.elementary + "' is not one of: " +
+               JoinNames(ElementaryMethodNames()));
+    return false;
+  }
+  if (overrides.aggregation && !FromString(*overrides.aggregation, &config->aggregation)) {
+    PrintError("--aggregation '" + *overrides.aggregation + "' is not one of: " +
+               JoinNames(AggregationMethodNames()));
+    return false;
+  }
+  if (overrides.invalid_rows && !FromString(*overrides.invalid_rows, &config->invalid_rows)) {
+    PrintError("--invalid-rows '" + *overrides.invalid_rows + "' is not one of: " +
+               JoinNames(InvalidRowPolicyNames()));
+    return false;
+  }
+  if (overrides.threads) config->threads = *overrides.threads;
+  if (!overrides.matrices.empty()) config->matrices = overrides.matrices;
+  if (overrides.no_report) config->report = false;
+  if (!config->IsValid(&error)) {
+    PrintError(error);
+    return false;
+  }
+  return true;
+}
+
+void PrintLoadFailure(const LoadSummary& load) {
+  if (!load.rejected_rows.empty()) std::cerr << DescribeRejectedRows(load);
+  PrintError(load.message);
+}
+
+}  // namespace
+
+void PrintError(const std::string& message) { std::cerr << "paritas: error: " << message << "\n"; }
+
+int RunCheckCommand(const std::string& config_path, const Overrides& overrides) {
+  RunConfig config;
+  if (!LoadConfig(config_path, overrides, &config)) return kExitInvalidInput;
+  CheckSummary summary;
+  const int code = RunCheck(config, &summary);
+  if (summary.load.outcome != LoadOutcome::kOk) {
+    std::cout << summary.FullReport();
+    PrintLoadFailure(summary.load);
+    return code;
+  }
+  std::cout << summary.FullReport();
+  return code;
+}
+
+int RunComputeCommand(const std::string& config_path, const Overrides& overrides) {
+  RunConfig config;
+  if (!LoadConfig(config_path, overrides, &config)) return kExitInvalidInput;
+  ComputeJobSummary summary;
+  const int code = RunCompute(config, &summary);
+  if (code != kExitOk) {
+    if (summary.load.outcome != LoadOutcome::kOk) {
+      PrintLoadFailure(summary.load);
+    } else {
+      PrintError(summary.message);
+    }
+    return code;
+  }
+  std::cout << summary.FullReport();
+  std::cout << "\nwrote " << summary.outputs.size() << " files to " << config.output << "\n";
+  return code;
+}
+
+}  // namespace paritas::cli
