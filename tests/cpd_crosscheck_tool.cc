@@ -1,1 +1,91 @@
-int main() { return 0; }
+// Reads CPD cells from a CSV and prints the fit, for the statsmodels
+// cross-check in tests/python/cpd_statsmodels_check.py. Kept to plain text in
+// and out so the Python side needs nothing but the standard library to talk
+// to it.
+//
+// Usage: cpd_crosscheck_tool CELLS.csv
+//   CELLS.csv has the header region,item,log_price,weight (0-based indices;
+//   an empty weight means 1). Prints region,log_parity,log_se,log_se_robust,
+//   one line per region, parities normalised to region 0 = 0.
+#include <algorithm>
+#include <cstdio>
+#include <fstream>
+#include <sstream>
+#include <string>
+#include <vector>
+
+#include "paritas/cpd.h"
+#include "paritas/text.h"
+
+namespace {
+
+int Fail(const std::string& message) {
+  std::fprintf(stderr, "cpd_crosscheck_tool: %s\n", message.c_str());
+  return 1;
+}
+
+}  // namespace
+
+int main(int argc, char** argv) {
+  if (argc != 2) return Fail("usage: cpd_crosscheck_tool CELLS.csv");
+  std::ifstream in(argv[1]);
+  if (!in) return Fail(std::string("cannot open ") + argv[1]);
+  std::string line;
+  std::getline(in, line);
+  if (!line.empty() && line.back() == '\r') line.pop_back();
+  if (paritas::Trim(line) != "region,item,log_price,weight") {
+    return Fail("expected the header region,item,log_price,weight");
+  }
+  std::vector<int> region;
+  std::vector<int> item;
+  std::vector<double> log_price;
+  std::vector<double> weight;
+  int line_number = 1;
+  while (std::getline(in, line)) {
+    ++line_number;
+    if (!line.empty() && line.back() == '\r') line.pop_back();
+    if (paritas::Trim(line).empty()) continue;
+    std::stringstream fields(line);
+    std::string text[4];
+    for (std::string& t : text) std::getline(fields, t, ',');
+    double value[4] = {0.0, 0.0, 0.0, 1.0};
+    for (int f = 0; f < 4; ++f) {
+      if (f == 3 && paritas::Trim(text[f]).empty()) continue;
+      if (paritas::ParseNumber(text[f], &value[f]) != paritas::NumberStatus::kOk) {
+        return Fail(std::string(argv[1]) + ":" + std::to_string(line_number) + ": bad field '" +
+                    text[f] + "'");
+      }
+    }
+    region.push_back(static_cast<int>(value[0]));
+    item.push_back(static_cast<int>(value[1]));
+    log_price.push_back(value[2]);
+    weight.push_back(value[3]);
+  }
+  int num_regions = 0;
+  int num_items = 0;
+  for (size_t k = 0; k < region.size(); ++k) {
+    num_regions = std::max(num_regions, region[k] + 1);
+    num_items = std::max(num_items, item[k] + 1);
+  }
+
+  paritas::CpdData data;
+  data.num_regions = num_regions;
+  data.num_items = num_items;
+  data.region = region;
+  data.item = item;
+  data.log_price = log_price;
+  data.weight = weight;
+  paritas::CpdOptions options;
+  options.reference_weights.assign(num_regions, 0.0);
+  if (num_regions > 0) options.reference_weights[0] = 1.0;
+  options.compute_robust_standard_errors = true;
+  const paritas::CpdResult result = paritas::FitCpd(data, options);
+  if (!result.identified) return Fail("fit failed: " + result.message);
+
+  std::printf("region,log_parity,log_se,log_se_robust\n");
+  for (int r = 0; r < num_regions; ++r) {
+    std::printf("%d,%.17g,%.17g,%.17g\n", r, result.log_parity[r], result.log_se[r],
+                result.log_se_robust[r]);
+  }
+  return 0;
+}
