@@ -67,7 +67,7 @@ std::vector<std::string> NamesOf(const EnumName<Enum> (&names)[N]) {
 const std::vector<std::string> kTopKeys = {
     "survey",    "classification",        "reference",         "elementary",
     "aggregation", "invalid_rows",        "output",            "matrices",
-    "representative_weight", "outlier_threshold", "report",    "threads"};
+    "representative_weight", "outlier_threshold", "robust_standard_errors", "report", "threads"};
 const std::vector<std::string> kSurveyKeys = {"prices", "expenditure", "regions", "items"};
 
 class ConfigParser {
@@ -251,6 +251,14 @@ class ConfigParser {
       if (!Number(node, "outlier_threshold", &config_->outlier_threshold, error)) return false;
       if (!(config_->outlier_threshold > 0)) {
         *error = Where(node) + "outlier_threshold must be positive, found '" + node.Scalar() + "'";
+        return false;
+      }
+    }
+    if (const YAML::Node node = root["robust_standard_errors"]) {
+      std::string text;
+      if (!Scalar(node, "robust_standard_errors", &text, error)) return false;
+      if (!ParseFlag(text, &config_->robust_standard_errors)) {
+        *error = Where(node) + "robust_standard_errors must be true or false, found '" + text + "'";
         return false;
       }
     }

@@ -152,6 +152,18 @@ int RunCheck(const RunConfig& config, CheckSummary* summary) {
     if (check.groups.size() > 1) ++summary->num_unlinked_headings;
     summary->headings.push_back(std::move(check));
   }
+  if (summary->num_unlinked_headings == 0) {
+    // Outlier screening needs the parities; they are cheap next to reading.
+    ParityResult result;
+    ComputeSummary compute;
+    if (ComputeParities(survey, ComputeOptions::FromConfig(config), &result, &compute)) {
+      OutlierOptions outlier_options;
+      outlier_options.threshold = config.outlier_threshold;
+      summary->outlier_threshold = config.outlier_threshold;
+      const OutlierReport report = FindOutliers(survey, result, outlier_options);
+      for (HeadingCheck& check : summary->headings) check.num_flagged_cells = report.num_flagged_cells[check.heading];
+    }
+  }
   summary->usable = summary->num_unlinked_headings == 0;
   summary->exit_code = summary->usable ? kExitOk : kExitInvalidInput;
   summary->message = summary->usable
@@ -173,7 +185,7 @@ std::string CheckSummary::FullReport() const {
   size_t width = 7;
   for (const std::string& code : survey.heading_codes) width = std::max(width, code.size());
   out += "headings:\n  " + Pad("heading", width) + "  " + Pad("regions", 9, true) + "  " +
-         Pad("items", 7, true) + "  " + Pad("filled", 7, true) + "  " + Pad("quotes", 9, true) + "  linked\n";
+         Pad("items", 7, true) + "  " + Pad("filled", 7, true) + "  " + Pad("quotes", 9, true) + "  " + Pad("flagged", 7, true) + "  linked\n";
   for (const HeadingCheck& h : headings) {
     const std::string linked = h.num_cells == 0 ? "no prices"
                                : h.groups.size() == 1 ? "yes"
@@ -182,7 +194,9 @@ std::string CheckSummary::FullReport() const {
            Pad(std::to_string(h.num_regions_priced) + "/" + std::to_string(survey.num_regions()), 9, true) +
            "  " + Pad(std::to_string(h.num_items_priced), 7, true) + "  " +
            Pad(FormatFixed(100.0 * h.fill_share, 1) + " %", 7, true) + "  " +
-           Pad(Thousands(h.num_quotes), 9, true) + "  " + linked + "\n";
+           Pad(Thousands(h.num_quotes), 9, true) + "  " +
+           Pad(h.num_flagged_cells < 0 ? "-" : std::to_string(h.num_flagged_cells), 7, true) + "  " +
+           linked + "\n";
   }
   bool any = false;
   for (const HeadingCheck& h : headings) {
@@ -213,6 +227,10 @@ std::string CheckSummary::FullReport() const {
     if (h.num_cells == 0) empty += (empty.empty() ? "" : ", ") + survey.heading_codes[h.heading];
   }
   if (!empty.empty()) out += "headings with no prices (left out of every aggregate): " + empty + "\n";
+  int flagged = 0;
+  for (const HeadingCheck& h : headings) flagged += std::max(h.num_flagged_cells, 0);
+  out += "outliers: " + Thousands(flagged) + " cells flagged (|standardised residual| > " +
+         FormatFixed(outlier_threshold, 1) + "; listed in outliers.csv by compute)\n";
   out += "rejected rows: " + Thousands(load.num_rows_rejected) + "\n";
   if (load.num_rows_rejected > 0) out += DescribeRejectedRows(load);
   out += std::string(usable ? "usable: " : "not usable: ") + message + "\n";
@@ -276,6 +294,11 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
       files.push_back({"bilateral/" + name, AggregateBilateralCsv(survey, n, result.bilaterals[node])});
     }
   }
+  OutlierOptions outlier_options;
+  outlier_options.threshold = config.outlier_threshold;
+  summary->outliers = FindOutliers(survey, result, outlier_options);
+  files.push_back({"outliers.csv", OutliersCsv(survey, summary->outliers)});
+  files.push_back({"dispersion.csv", DispersionCsv(survey, summary->outliers)});
   if (config.invalid_rows == InvalidRowPolicy::kSkip) {
     files.push_back({"rejected.csv", RejectedRowsCsv(summary->load.rejected_rows)});
   }

@@ -25,6 +25,7 @@ Json ConfigJson(const RunConfig& config) {
               {"matrices", config.matrices},
               {"representative_weight", config.representative_weight},
               {"outlier_threshold", config.outlier_threshold},
+              {"robust_standard_errors", config.robust_standard_errors},
               {"report", config.report},
               {"threads", config.threads}};
   return out;

@@ -5,6 +5,11 @@
 #include <fstream>
 #include <sstream>
 
+#include <sys/wait.h>
+#include <unistd.h>
+
+#include <cstdlib>
+
 namespace paritas::testing {
 
 ::testing::AssertionResult IsClose(double actual, double expected, double rel_tol) {
@@ -48,6 +53,20 @@ std::string ReadTextFile(const std::string& path) {
   std::ostringstream s;
   s << in.rdbuf();
   return s.str();
+}
+
+int RunCli(const std::string& arguments, std::string* out, std::string* err) {
+  static int counter = 0;
+  const std::string base = std::filesystem::temp_directory_path().string() + "/paritas_cli_" +
+                           std::to_string(::getpid()) + "_" + std::to_string(counter++);
+  const std::string command = std::string(PARITAS_CLI_PATH) + " " + arguments + " </dev/null >" +
+                              base + ".out 2>" + base + ".err";
+  const int status = std::system(command.c_str());
+  if (out != nullptr) *out = ReadTextFile(base + ".out");
+  if (err != nullptr) *err = ReadTextFile(base + ".err");
+  std::filesystem::remove(base + ".out");
+  std::filesystem::remove(base + ".err");
+  return WIFEXITED(status) ? WEXITSTATUS(status) : -1;
 }
 
 }  // namespace paritas::testing

@@ -25,6 +25,10 @@ void WriteTextFile(const std::string& path, const std::string& contents);
 // Reads a whole file; empty when missing.
 std::string ReadTextFile(const std::string& path);
 
+// Runs the paritas command line with `arguments` (shell words), no standard
+// input; captures stdout and stderr. Returns the exit code.
+int RunCli(const std::string& arguments, std::string* out, std::string* err);
+
 }  // namespace paritas::testing
 
 #endif  // PARITAS_TESTS_TEST_UTIL_H_

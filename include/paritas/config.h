@@ -95,6 +95,10 @@ struct RunConfig {
   // 2,000 cells, yet catches the gross errors (wrong unit, misplaced decimal)
   // seen in practice.
   double outlier_threshold = 3.5;
+  // Also computes heteroskedasticity-robust (HC0 sandwich) standard errors of
+  // CPD parities, column log_se_robust (default false: costs about 10x the
+  // fit at 1,000 regions).
+  bool robust_standard_errors = false;
   // Writes report.html (default true).
   bool report = true;
   // Worker threads; 0 = all cores.

@@ -25,7 +25,7 @@ struct ElementaryOptions {
   double robust_scale = 0.0;
   // Standard errors of CPD parities (classic, and HC0 sandwich).
   bool compute_standard_errors = true;
-  bool compute_robust_standard_errors = true;
+  bool compute_robust_standard_errors = false;
 
   bool IsValid(std::string* error) const;
 };

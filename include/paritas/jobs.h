@@ -9,6 +9,7 @@
 
 #include "paritas/compute.h"
 #include "paritas/config.h"
+#include "paritas/outliers.h"
 #include "paritas/run_record.h"
 #include "paritas/survey.h"
 #include "paritas/survey_loader.h"
@@ -32,6 +33,9 @@ struct HeadingCheck {
   std::vector<std::vector<int>> groups;  // linked groups; one when linked
   std::vector<int> regions_without_prices;
   std::vector<int> regions_without_expenditure;  // among regions with prices
+  // Cells flagged as outliers against the heading's CPD fit; -1 when the
+  // parities could not be computed.
+  int num_flagged_cells = -1;
 };
 
 struct CheckSummary {
@@ -41,6 +45,7 @@ struct CheckSummary {
   Survey survey;
   std::vector<HeadingCheck> headings;
   int num_unlinked_headings = 0;
+  double outlier_threshold = 3.5;
   bool usable = false;
 
   // The readable summary printed by `paritas check`.
@@ -57,6 +62,7 @@ struct ComputeJobSummary {
   ComputeSummary compute;
   Survey survey;
   ParityResult result;
+  OutlierReport outliers;
   // Files written, relative to the output folder.
   std::vector<std::string> outputs;
   std::vector<StageTiming> stages;
