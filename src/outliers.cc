@@ -130,8 +130,7 @@ OutlierReport FindOutliers(const Survey& survey, const ParityResult& result,
       if (flag(OutlierKind::kCell, survey.cells.log_price[c])) {
         ++d.num_flagged;
         ++report.num_flagged_cells[h];
-      }
-      if (survey.cells.num_quotes[c] > 1) {
+      } else if (survey.cells.num_quotes[c] > 1) {
         // A bad quote among good ones may leave the cell mean unflagged; the
         // extremes of the cell's quotes show it.
         flag(OutlierKind::kLowestQuote, survey.cells.log_min[c]);

@@ -495,6 +495,17 @@ def main():
             for _ in range(num_quotes):
                 price = math.exp(log_mean + rng.gauss(0.0, sd))
                 price_rows.append((region[0], code, round_price(price, kind), flag))
+    # Two recording errors are planted on purpose, for the outlier screen to
+    # find (see README.md): in 'net' the box of ten eggs was priced per egg
+    # (every quote of the cell a tenth of what it should be), and in 'vel' one
+    # quote of whole milk was keyed with the decimal point one place off.
+    # They change no random draw, so every other number stays as it was.
+    for k, (region, code, price, flag) in enumerate(price_rows):
+        if (region, code) == ("net", "eggs"):
+            price_rows[k] = (region, code, "%.3f" % (float(price) / 10.0), flag)
+    milk = [k for k, row in enumerate(price_rows) if row[:2] == ("vel", "whole_milk")]
+    region, code, price, flag = price_rows[milk[2]]
+    price_rows[milk[2]] = (region, code, "%.2f" % (float(price) * 10.0), flag)
     write_csv(os.path.join(out, "prices.csv"), ["region", "item", "price", "representative"],
               price_rows)
 
