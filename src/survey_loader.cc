@@ -17,6 +17,7 @@
 #include <map>
 #include <numeric>
 #include <unordered_map>
+#include <unordered_set>
 
 #include "cell_prices.h"
 #include "flat_map.h"
@@ -117,15 +118,26 @@ bool ReadHeader(CsvReader* reader, const std::string& path, const std::vector<st
       }
     }
     if (required[i] && columns->index[i] < 0) {
+      // A header of garbage can hold a million names: list the first few.
+      constexpr size_t kMaxListed = 20;
+      const std::vector<std::string>& all = names.names();
+      std::string found;
+      if (all.size() <= kMaxListed) {
+        found = JoinNames(all);
+      } else {
+        found = JoinNames(std::vector<std::string>(all.begin(), all.begin() + kMaxListed)) + ", ... (" +
+                std::to_string(all.size()) + " columns)";
+      }
       *error = path + ":" + std::to_string(header.line) + ": missing column '" + wanted[i] +
-               "' (found: " + JoinNames(names.names()) + ")";
+               "' (found: " + found + ")";
       return false;
     }
   }
+  // A set, so that a header with a million columns is read in linear time.
+  std::unordered_set<std::string_view> ignored;
+  ignored.reserve(names.names().size());
   for (const std::string& name : names.names()) {
-    if (std::find(wanted.begin(), wanted.end(), name) == wanted.end() &&
-        std::find(file->ignored_columns.begin(), file->ignored_columns.end(), name) ==
-            file->ignored_columns.end()) {
+    if (std::find(wanted.begin(), wanted.end(), name) == wanted.end() && ignored.insert(name).second) {
       file->ignored_columns.push_back(name);
     }
   }
@@ -369,6 +381,9 @@ struct ChunkResult {
   int64_t num_rejected_not_kept = 0;
   int64_t rows_read = 0;
   int64_t rows_used = 0;
+  // Local items rejected for an empty heading before this chunk stated one;
+  // an earlier chunk may have stated it, which only a pass in order sees.
+  std::vector<int> items_without_heading;
   std::string fatal;  // malformed CSV
 };
 
@@ -379,7 +394,9 @@ void ParsePriceChunk(std::string_view data, int64_t first_line, const PriceColum
   CsvReader reader(data, first_line, /*skip_bom=*/false);
   CsvRecord record;
   FlatMap64 cell_index;
-  std::string_view last_region, last_item;
+  // Copies, not views: a field unescaped into record.scratch is overwritten
+  // (or freed) by the next record.
+  std::string last_region, last_item;
   int region_local = -1, item_local = -1;
   uint32_t last_cell = FlatMap64::kAbsent;
   const bool has_heading = columns.heading >= 0;
@@ -438,6 +455,9 @@ void ParsePriceChunk(std::string_view data, int64_t first_line, const PriceColum
       last_cell = FlatMap64::kAbsent;
     }
     LocalItem& info = out->item_info[item_local];
+    // A heading first stated by this row counts only once the row is used,
+    // so a rejected row never files an item.
+    int new_heading = -1;
     if (info.global < 0 || has_heading) {
       const std::string_view heading = has_heading ? Trim(fields[columns.heading]) : std::string_view();
       const std::string_view item_code = out->items.Code(item_local);
@@ -460,6 +480,7 @@ void ParsePriceChunk(std::string_view data, int64_t first_line, const PriceColum
           } else {
             what = "heading is empty";
           }
+          if (has_heading) out->items_without_heading.push_back(item_local);
           reject(has_heading ? columns.heading + 1 : columns.item + 1, what);
           continue;
         }
@@ -473,8 +494,7 @@ void ParsePriceChunk(std::string_view data, int64_t first_line, const PriceColum
           continue;
         }
         if (info.local_heading < 0) {
-          info.local_heading = out->headings.Intern(heading);
-          info.line = record.line;
+          new_heading = out->headings.Intern(heading);
         } else if (out->headings.Code(info.local_heading) != heading) {
           reject(columns.heading + 1, "item " + Quoted(item_code) + " is filed under heading " +
                                           Quoted(heading) + " but under " +
@@ -504,6 +524,10 @@ void ParsePriceChunk(std::string_view data, int64_t first_line, const PriceColum
                                                " is not one of 1/0, yes/no, true/false");
         continue;
       }
+    }
+    if (new_heading >= 0) {
+      info.local_heading = new_heading;
+      info.line = record.line;
     }
     // Cell.
     if (last_cell == FlatMap64::kAbsent) {
@@ -586,7 +610,11 @@ class PriceReader {
 
  private:
   bool ReadBlocks(std::FILE* stream, std::string* buffer, std::string* error) {
-    const size_t block = static_cast<size_t>(std::max<int64_t>(options_.block_bytes, 1 << 16));
+    size_t block = static_cast<size_t>(std::max<int64_t>(options_.block_bytes, 1 << 16));
+    // A block larger than the file would only cost zero-filling the buffer.
+    std::error_code size_error;
+    const uintmax_t file_bytes = std::filesystem::file_size(path_, size_error);
+    if (!size_error && file_bytes + 1 < block) block = std::max<size_t>(file_bytes + 1, 1 << 16);
     size_t carried = 0;  // bytes of an incomplete record kept from the last block
     int64_t line = 1;
     bool header_done = false;
@@ -669,8 +697,9 @@ class PriceReader {
                       keep_all, max_rejected, &results[c]);
     }
     if (HasCrossChunkConflict(results)) {
-      // Two chunks state different headings for a new item: only a pass in
-      // file order can tell which statement comes first.
+      // Two chunks state different headings for a new item, or a chunk
+      // lacks a heading an earlier chunk stated: only a pass in file order
+      // can tell which statement comes first.
       results.assign(1, ChunkResult());
       ParsePriceChunk(data, first_line, columns_, path_, *state_, keep_all, max_rejected, &results[0]);
     }
@@ -693,6 +722,9 @@ class PriceReader {
     if (results.size() < 2) return false;
     std::unordered_map<std::string_view, std::string_view> stated;
     for (const ChunkResult& result : results) {
+      for (int i : result.items_without_heading) {
+        if (stated.count(result.items.Code(i)) > 0) return true;
+      }
       for (int i = 0; i < result.items.size(); ++i) {
         const LocalItem& info = result.item_info[i];
         if (info.global >= 0 || info.local_heading < 0) continue;

@@ -35,7 +35,9 @@ std::string SourcePath(const std::string& relative) {
 
 std::string MakeTempDir(const std::string& name) {
   namespace fs = std::filesystem;
-  fs::path dir = fs::temp_directory_path() / ("paritas_test_" + name);
+  // The process id keeps tests that ctest runs in parallel out of each
+  // other's folders.
+  fs::path dir = fs::temp_directory_path() / ("paritas_test_" + std::to_string(::getpid()) + "_" + name);
   fs::remove_all(dir);
   fs::create_directories(dir);
   return dir.string();
