@@ -121,4 +121,24 @@ Eigen::MatrixXd AllPairsJevons(const Eigen::MatrixXd& log_price, const Eigen::Ma
   return jevons;
 }
 
+Eigen::MatrixXd AllPairsJevonsWeighted(const Eigen::MatrixXd& log_price,
+                                       const Eigen::MatrixXd& present,
+                                       const Eigen::VectorXd& item_weight) {
+  assert(log_price.rows() == present.rows() && log_price.cols() == present.cols());
+  assert(item_weight.size() == log_price.cols());
+  const Eigen::MatrixXd mask =
+      (present.array() != 0.0 && log_price.array().isFinite()).cast<double>().matrix() *
+      (item_weight.array() > 0.0).cast<double>().matrix().asDiagonal();
+  Eigen::MatrixXd masked_log_price = (mask.array() > 0.0).select(log_price, 0.0);
+  CentreColumns(mask, &masked_log_price);
+  // The weight goes on one factor of each product only: sum_i w_i m_ai m_bi.
+  const Eigen::MatrixXd weighted_mask = mask * item_weight.asDiagonal();
+  const Eigen::MatrixXd weight_sum = weighted_mask * mask.transpose();
+  const Eigen::MatrixXd sum_log_b = weighted_mask * masked_log_price.transpose();
+  Eigen::MatrixXd jevons =
+      (sum_log_b - sum_log_b.transpose()).cwiseQuotient(weight_sum).array().exp().matrix();
+  FixEmptyPairsAndDiagonal(weight_sum, &jevons);
+  return jevons;
+}
+
 }  // namespace paritas

@@ -228,20 +228,21 @@ std::string CheckData(const CpdData& data, const CpdOptions& options) {
            std::to_string(data.weight.size()) + " (0 allowed)";
   }
   for (size_t k = 0; k < n; ++k) {
-    const std::string cell = "cell " + std::to_string(k) + ": ";
+    // Built only on failure: formatting it for every cell cost more than the fit.
+    auto cell = [k]() { return "cell " + std::to_string(k) + ": "; };
     if (data.region[k] < 0 || data.region[k] >= data.num_regions) {
-      return cell + "region index " + std::to_string(data.region[k]) + " is outside 0.." +
+      return cell() + "region index " + std::to_string(data.region[k]) + " is outside 0.." +
              std::to_string(data.num_regions - 1);
     }
     if (data.item[k] < 0 || data.item[k] >= data.num_items) {
-      return cell + "item index " + std::to_string(data.item[k]) + " is outside 0.." +
+      return cell() + "item index " + std::to_string(data.item[k]) + " is outside 0.." +
              std::to_string(data.num_items - 1);
     }
     if (!std::isfinite(data.log_price[k])) {
-      return cell + "log price " + Number(data.log_price[k]) + " is not finite";
+      return cell() + "log price " + Number(data.log_price[k]) + " is not finite";
     }
     if (!data.weight.empty() && !(std::isfinite(data.weight[k]) && data.weight[k] > 0.0)) {
-      return cell + "weight " + Number(data.weight[k]) + " is not a positive number";
+      return cell() + "weight " + Number(data.weight[k]) + " is not a positive number";
     }
   }
   if (!options.reference_weights.empty() &&

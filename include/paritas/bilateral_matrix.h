@@ -55,6 +55,17 @@ BilateralMatrices AllPairsWeighted(const Eigen::MatrixXd& price,
 Eigen::MatrixXd AllPairsJevons(const Eigen::MatrixXd& log_price, const Eigen::MatrixXd& present,
                                Eigen::MatrixXi* num_matched);
 
+// Computes the weighted Jevons index between every pair of regions: entry
+// (a, b) is exp(sum_i w_i (ln p_bi - ln p_ai) / sum_i w_i) over the items i
+// matched by a and b, w_i = `item_weight`(i) (one per column, finite,
+// >= 0). A whole-number weight k is the same as the item appearing k times,
+// so item bootstraps reuse the heading's arrays. Items of weight 0 count as
+// absent (a region with only such items gets NaN on its diagonal). Otherwise
+// as AllPairsJevons, which it equals for unit weights.
+Eigen::MatrixXd AllPairsJevonsWeighted(const Eigen::MatrixXd& log_price,
+                                       const Eigen::MatrixXd& present,
+                                       const Eigen::VectorXd& item_weight);
+
 }  // namespace paritas
 
 #endif  // PARITAS_BILATERAL_MATRIX_H_

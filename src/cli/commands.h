@@ -7,6 +7,7 @@
 #include <string>
 #include <vector>
 
+namespace paritas { struct DeflateOptions; }
 namespace paritas::cli {
 
 // Settings given on the command line that override the configuration.
@@ -23,6 +24,21 @@ struct Overrides {
 
 int RunCheckCommand(const std::string& config_path, const Overrides& overrides);
 int RunComputeCommand(const std::string& config_path, const Overrides& overrides);
+int RunDeflateCommand(const DeflateOptions& options, const Overrides& overrides);
+int RunPairCommand(const std::string& config_path, const Overrides& overrides, const std::string& from,
+                   const std::string& to, const std::string& node, const std::string& csv_path);
+
+// Values of the `sensitivity` options as typed; the command parses and checks them.
+struct SensitivityArguments {
+  std::optional<std::string> replicates;
+  std::optional<std::string> seed;
+  std::optional<std::string> level;
+  std::optional<std::string> coverage;
+  std::optional<std::string> repetitions;
+  std::optional<std::string> parts;
+};
+int RunSensitivityCommand(const std::string& config_path, const Overrides& overrides,
+                          const SensitivityArguments& arguments);
 
 // Prints "paritas: error: <message>" on stderr.
 void PrintError(const std::string& message);

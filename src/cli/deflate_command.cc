@@ -1,0 +1,40 @@
+// `paritas deflate`: the options come parsed into DeflateOptions; this file
+// applies the row policy, runs the library and reports.
+#include <iostream>
+
+#include "cli/commands.h"
+#include "paritas/deflation.h"
+#include "paritas/jobs.h"
+#include "paritas/text.h"
+
+namespace paritas::cli {
+
+int RunDeflateCommand(const DeflateOptions& given, const Overrides& overrides) {
+  DeflateOptions options = given;
+  if (overrides.invalid_rows && !FromString(*overrides.invalid_rows, &options.invalid_rows)) {
+    PrintError("--invalid-rows '" + *overrides.invalid_rows +
+               "' is not one of: " + JoinNames(InvalidRowPolicyNames()));
+    return kExitInvalidInput;
+  }
+  DeflateSummary summary;
+  if (!Deflate(options, &summary)) {
+    for (const RejectedRow& row : summary.rejected_rows) std::cerr << row.reason << "\n";
+    PrintError(summary.message);
+    return kExitInvalidInput;
+  }
+  std::cout << summary.BriefReport() << "\n";
+  if (!summary.rejected_rows.empty()) {
+    std::cout << "rejected rows (listed in " << summary.rejected_path << "):\n";
+    for (const RejectedRow& row : summary.rejected_rows) std::cout << "  " << row.reason << "\n";
+    if (summary.num_rows_rejected > static_cast<int64_t>(summary.rejected_rows.size())) {
+      std::cout << "  ... "
+                << summary.num_rows_rejected - static_cast<int64_t>(summary.rejected_rows.size())
+                << " more\n";
+    }
+  }
+  std::cout << "wrote " << options.output_path
+            << " (added columns: " << JoinNames(summary.columns_added) << ")\n";
+  return kExitOk;
+}
+
+}  // namespace paritas::cli

@@ -1,0 +1,68 @@
+// `paritas pair`: loads the survey and computes parities as `compute` does
+// (without writing its outputs), then compares the two regions.
+#include <iostream>
+
+#include "cli/commands.h"
+#include "paritas/compute.h"
+#include "paritas/config.h"
+#include "paritas/csv.h"
+#include "paritas/jobs.h"
+#include "paritas/pair_comparison.h"
+#include "paritas/survey_loader.h"
+#include "paritas/text.h"
+
+namespace paritas::cli {
+
+int RunPairCommand(const std::string& config_path, const Overrides& overrides,
+                   const std::string& from, const std::string& to, const std::string& node,
+                   const std::string& csv_path) {
+  RunConfig config;
+  std::string error;
+  if (!LoadRunConfig(config_path, &config, &error)) {
+    PrintError(error);
+    return kExitInvalidInput;
+  }
+  if (overrides.invalid_rows && !FromString(*overrides.invalid_rows, &config.invalid_rows)) {
+    PrintError("--invalid-rows '" + *overrides.invalid_rows +
+               "' is not one of: " + JoinNames(InvalidRowPolicyNames()));
+    return kExitInvalidInput;
+  }
+  if (overrides.threads) config.threads = *overrides.threads;
+  if (!config.IsValid(&error)) {
+    PrintError(error);
+    return kExitInvalidInput;
+  }
+  LoadOptions load_options;
+  load_options.invalid_rows = config.invalid_rows;
+  load_options.num_threads = config.threads;
+  Survey survey;
+  LoadSummary load;
+  if (!LoadSurvey(config, load_options, &survey, &load)) {
+    if (!load.rejected_rows.empty()) std::cerr << DescribeRejectedRows(load);
+    PrintError(load.message);
+    return kExitInvalidInput;
+  }
+  ParityResult result;
+  ComputeSummary compute;
+  if (!ComputeParities(survey, ComputeOptions::FromConfig(config), &result, &compute)) {
+    PrintError(compute.message);
+    return compute.outcome == ComputeOutcome::kComputationFailed ? kExitComputationFailed
+                                                                 : kExitInvalidInput;
+  }
+  PairComparison comparison;
+  if (!ComparePair(survey, result, from, to, node, &comparison, &error)) {
+    PrintError(error);
+    return kExitInvalidInput;
+  }
+  std::cout << PairTable(comparison);
+  if (!csv_path.empty()) {
+    if (!WriteFileAtomically(csv_path, PairCsv(comparison), &error)) {
+      PrintError(error);
+      return kExitInvalidInput;
+    }
+    std::cout << "\nwrote " << csv_path << "\n";
+  }
+  return kExitOk;
+}
+
+}  // namespace paritas::cli

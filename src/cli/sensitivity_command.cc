@@ -1,0 +1,182 @@
+// `paritas sensitivity`: option values arrive as text and are parsed here, so
+// every bad value gets a message naming the option, the value and the rule;
+// the library job does the rest. The progress bar is drawn only on a
+// terminal, and only once a run has lasted a second.
+#include <unistd.h>
+
+#include <chrono>
+#include <cmath>
+#include <iostream>
+#include <string>
+
+#include "cli/commands.h"
+#include "paritas/config.h"
+#include "paritas/jobs.h"
+#include "paritas/sensitivity.h"
+#include "paritas/text.h"
+
+namespace paritas::cli {
+namespace {
+
+bool ParseWhole(const std::string& option, const std::string& text, double min, double max, double* value) {
+  double parsed = 0.0;
+  if (ParseNumber(text, &parsed) != NumberStatus::kOk || parsed != std::floor(parsed) || parsed < min ||
+      parsed > max) {
+    PrintError(option + " must be a whole number from " + FormatFixed(min, 0) + " to " + FormatFixed(max, 0) +
+               ", found '" + text + "'");
+    return false;
+  }
+  *value = parsed;
+  return true;
+}
+
+// Splits "90,75,50" on commas, trimming spaces.
+std::vector<std::string> SplitList(const std::string& text) {
+  std::vector<std::string> parts;
+  size_t start = 0;
+  while (true) {
+    const size_t comma = text.find(',', start);
+    parts.emplace_back(Trim(text.substr(start, comma == std::string::npos ? std::string::npos : comma - start)));
+    if (comma == std::string::npos) break;
+    start = comma + 1;
+  }
+  return parts;
+}
+
+bool ParseArguments(const SensitivityArguments& arguments, SensitivityOptions* options) {
+  double value = 0.0;
+  if (arguments.replicates) {
+    if (!ParseWhole("--replicates", *arguments.replicates, 2, 100000, &value)) return false;
+    options->replicates = static_cast<int>(value);
+  }
+  if (arguments.seed) {
+    // Seeds up to 2^53 read exactly through a double.
+    if (!ParseWhole("--seed", *arguments.seed, 0, 9007199254740992.0, &value)) return false;
+    options->seed = static_cast<uint64_t>(value);
+  }
+  if (arguments.level) {
+    // 95 and 0.95 both mean a 95 % interval.
+    if (ParseNumber(*arguments.level, &value) != NumberStatus::kOk || !(value > 0.0 && value < 100.0) ||
+        value == 1.0) {
+      PrintError("--level must be a percentage above 0 and below 100 (e.g. 95) or a share below 1 (e.g. "
+                 "0.95), found '" + *arguments.level + "'");
+      return false;
+    }
+    options->level = value > 1.0 ? value / 100.0 : value;
+  }
+  if (arguments.coverage) {
+    options->coverage_levels.clear();
+    for (const std::string& part : SplitList(*arguments.coverage)) {
+      if (ParseNumber(part, &value) != NumberStatus::kOk || !(value > 0.0 && value <= 100.0)) {
+        PrintError("--coverage must list percentages of items kept, each above 0 and at most 100 (e.g. "
+                   "90,75,50,25), found '" + part + "'");
+        return false;
+      }
+      options->coverage_levels.push_back(value / 100.0);
+    }
+  }
+  if (arguments.repetitions) {
+    if (!ParseWhole("--repetitions", *arguments.repetitions, 2, 10000, &value)) return false;
+    options->coverage_repetitions = static_cast<int>(value);
+  }
+  if (arguments.parts) {
+    std::string error;
+    if (!SetSensitivityParts(SplitList(*arguments.parts), options, &error)) {
+      PrintError("--parts: " + error);
+      return false;
+    }
+  }
+  std::string error;
+  if (!options->IsValid(&error)) {
+    PrintError(error);
+    return false;
+  }
+  return true;
+}
+
+// Draws "part [#####     ]  40 %" on stderr, at most ten times a second.
+class ProgressBar {
+ public:
+  ProgressBar() : enabled_(::isatty(2) == 1), start_(std::chrono::steady_clock::now()) {}
+  ~ProgressBar() { Clear(); }
+
+  void Update(const std::string& part, int64_t done, int64_t total) {
+    if (!enabled_ || total <= 0) return;
+    const auto now = std::chrono::steady_clock::now();
+    if (now - start_ < std::chrono::seconds(1)) return;
+    if (done < total && now - last_ < std::chrono::milliseconds(100)) return;
+    last_ = now;
+    constexpr int kWidth = 30;
+    const int filled = static_cast<int>(kWidth * done / total);
+    std::string line = "\r" + part + std::string(part.size() < 14 ? 14 - part.size() : 0, ' ') + "[" +
+                       std::string(filled, '#') + std::string(kWidth - filled, ' ') + "] " +
+                       std::to_string(100 * done / total) + " %   ";
+    std::cerr << line << std::flush;
+    drawn_ = true;
+  }
+
+  void Clear() {
+    if (drawn_) std::cerr << "\r" << std::string(60, ' ') << "\r" << std::flush;
+    drawn_ = false;
+  }
+
+ private:
+  bool enabled_;
+  bool drawn_ = false;
+  std::chrono::steady_clock::time_point start_;
+  std::chrono::steady_clock::time_point last_{};
+};
+
+}  // namespace
+
+int RunSensitivityCommand(const std::string& config_path, const Overrides& overrides,
+                          const SensitivityArguments& arguments) {
+  RunConfig config;
+  std::string error;
+  if (!LoadRunConfig(config_path, &config, &error)) {
+    PrintError(error);
+    return kExitInvalidInput;
+  }
+  if (overrides.output) config.output = *overrides.output;
+  if (overrides.reference) config.reference = Reference::FromString(*overrides.reference);
+  if (overrides.elementary && !FromString(*overrides.elementary, &config.elementary)) {
+    PrintError("--elementary '" + *overrides.elementary + "' is not one of: " + JoinNames(ElementaryMethodNames()));
+    return kExitInvalidInput;
+  }
+  if (overrides.aggregation && !FromString(*overrides.aggregation, &config.aggregation)) {
+    PrintError("--aggregation '" + *overrides.aggregation + "' is not one of: " +
+               JoinNames(AggregationMethodNames()));
+    return kExitInvalidInput;
+  }
+  if (overrides.invalid_rows && !FromString(*overrides.invalid_rows, &config.invalid_rows)) {
+    PrintError("--invalid-rows '" + *overrides.invalid_rows + "' is not one of: " +
+               JoinNames(InvalidRowPolicyNames()));
+    return kExitInvalidInput;
+  }
+  if (overrides.threads) config.threads = *overrides.threads;
+  if (!config.IsValid(&error)) {
+    PrintError(error);
+    return kExitInvalidInput;
+  }
+  SensitivityOptions options;
+  options.num_threads = config.threads;
+  if (!ParseArguments(arguments, &options)) return kExitInvalidInput;
+  ProgressBar bar;
+  options.progress = [&bar](const std::string& part, int64_t done, int64_t total) { bar.Update(part, done, total); };
+
+  SensitivityJobSummary summary;
+  const int code = RunSensitivityJob(config, options, &summary);
+  bar.Clear();
+  if (code != kExitOk) {
+    if (summary.load.outcome != LoadOutcome::kOk && !summary.load.rejected_rows.empty()) {
+      std::cerr << DescribeRejectedRows(summary.load);
+    }
+    PrintError(summary.message);
+    return code;
+  }
+  std::cout << summary.FullReport(options);
+  std::cout << "\nwrote " << summary.outputs.size() << " files to " << config.output << "/sensitivity\n";
+  return kExitOk;
+}
+
+}  // namespace paritas::cli

@@ -1,0 +1,184 @@
+// End-to-end runs of `paritas deflate` and `paritas pair` through the real
+// executable: exit codes, exact messages for bad options and bad rows.
+#include <gtest/gtest.h>
+
+#include <filesystem>
+#include <string>
+
+#include "test_util.h"
+
+namespace paritas {
+namespace {
+
+using testing::MakeTempDir;
+using testing::ReadTextFile;
+using testing::RunCli;
+using testing::SourcePath;
+using testing::WriteTextFile;
+
+// A parities folder with the BEA technical note's two regions (parities 120
+// and 90) and an input file of `rows`.
+std::string MakeCase(const std::string& name, const std::string& rows) {
+  const std::string dir = MakeTempDir(name);
+  WriteTextFile(dir + "/p/parities.csv",
+                "node,kind,region,parity\nall,aggregate,a,120.000000\nall,aggregate,b,90.000000\n");
+  WriteTextFile(dir + "/in.csv", "id,region,income\n" + rows);
+  return dir;
+}
+
+std::string DeflateArgs(const std::string& dir) {
+  return "deflate --parities " + dir + "/p --input " + dir + "/in.csv --output " + dir +
+         "/out.csv --value-column income";
+}
+
+TEST(DeflateCommand, DeflatesTheBeaExampleToEqualRealIncomes) {
+  const std::string dir = MakeCase("cli_deflate_bea", "1,a,12000\n2,b,9000\n");
+  std::string out, err;
+  EXPECT_EQ(RunCli(DeflateArgs(dir) + " --with-parity", &out, &err), 0) << err;
+  EXPECT_EQ(
+      ReadTextFile(dir + "/out.csv"),
+      "id,region,income,income_real,parity\n1,a,12000,10000.0000,120\n2,b,9000,10000.0000,90\n");
+  EXPECT_NE(out.find(": 2 written, 0 rejected"), std::string::npos) << out;
+  EXPECT_EQ(err, "");
+}
+
+TEST(DeflateCommand, StopsOnABadRowWithItsMessage) {
+  const std::string dir = MakeCase("cli_deflate_stop", "1,a,12000\n2,b,12 000\n");
+  std::string out, err;
+  EXPECT_EQ(RunCli(DeflateArgs(dir), &out, &err), 1);
+  const std::string in = dir + "/in.csv";
+  EXPECT_EQ(
+      err, in +
+               ":3:3: income '12 000' is not a number\n"
+               "paritas: error: 1 invalid row in " +
+               in + "; nothing written; fix them, or pass --invalid-rows skip to leave them out\n");
+  EXPECT_FALSE(std::filesystem::exists(dir + "/out.csv"));
+}
+
+TEST(DeflateCommand, SkipsBadRowsAndReportsThem) {
+  const std::string dir = MakeCase("cli_deflate_skip", "1,a,12000\n2,q,1\n3,b,-4\n4,b,9000\n");
+  std::string out, err;
+  EXPECT_EQ(RunCli(DeflateArgs(dir) + " --invalid-rows skip", &out, &err), 0) << err;
+  EXPECT_NE(out.find(": 2 written, 2 rejected"), std::string::npos) << out;
+  EXPECT_NE(out.find("rejected rows (listed in " + dir + "/out_rejected.csv):\n"),
+            std::string::npos)
+      << out;
+  const std::string rejected = ReadTextFile(dir + "/out_rejected.csv");
+  EXPECT_EQ(rejected.substr(0, rejected.find('\n')), "file,line,reason,raw");
+  EXPECT_EQ(std::count(rejected.begin(), rejected.end(), '\n'), 3);
+  EXPECT_EQ(ReadTextFile(dir + "/out.csv"),
+            "id,region,income,income_real\n1,a,12000,10000.0000\n4,b,9000,10000.0000\n");
+}
+
+TEST(DeflateCommand, RefusesBadOptionsWithExitCodeOne) {
+  const std::string dir = MakeCase("cli_deflate_options", "1,a,1\n");
+  const std::string base =
+      "deflate --parities " + dir + "/p --input " + dir + "/in.csv --output " + dir + "/o.csv";
+  struct Case {
+    std::string arguments;
+    std::string message;
+  };
+  const Case cases[] = {
+      {base, "paritas: error: --value-column is required\nrun 'paritas --help' for usage\n"},
+      {base + " --value-column income --node all --node-column id",
+       "paritas: error: --node excludes --node-column\nrun 'paritas --help' for usage\n"},
+      {base + " --value-column income --invalid-rows maybe",
+       "paritas: error: --invalid-rows 'maybe' is not one of: stop, skip\n"},
+      {base + " --value-column income --node food",
+       "paritas: error: node 'food' is not in " + dir + "/p/parities.csv\n"},
+      {base + " --value-column wage",
+       "paritas: error: " + dir + "/in.csv:1: missing column 'wage' (found: id, region, income)\n"},
+      {base + " --value-column income --interval",
+       "paritas: error: no parity intervals: " + dir +
+           "/p/sensitivity/bootstrap.csv does not exist (compute writes it when sensitivity "
+           "analysis is on)\n"},
+      {"deflate --parities " + dir + "/nowhere --input " + dir + "/in.csv --output " + dir +
+           "/o.csv --value-column income",
+       "paritas: error: " + dir +
+           "/nowhere/parities.csv: cannot open file: No such file or directory\n"},
+  };
+  for (const Case& c : cases) {
+    std::string out, err;
+    EXPECT_EQ(RunCli(c.arguments, &out, &err), 1) << c.arguments;
+    EXPECT_EQ(err, c.message) << c.arguments;
+  }
+}
+
+// The demo's wage records, both money columns, by the root parities.
+TEST(DeflateCommand, DeflatesTheDemoWages) {
+  const std::string dir = MakeTempDir("cli_deflate_demo");
+  std::string out, err;
+  ASSERT_EQ(
+      RunCli("compute " + SourcePath("config/demo.yaml") + " --output " + dir + "/out --no-report",
+             &out, &err),
+      0)
+      << err;
+  ASSERT_EQ(RunCli("deflate --parities " + dir + "/out --input " +
+                       SourcePath("data/demo/wages.csv") + " --output " + dir +
+                       "/wages_real.csv --value-column hourly_wage --value-column annual_earnings",
+                   &out, &err),
+            0)
+      << err;
+  const std::string input = ReadTextFile(SourcePath("data/demo/wages.csv"));
+  const std::string output = ReadTextFile(dir + "/wages_real.csv");
+  EXPECT_EQ(std::count(output.begin(), output.end(), '\n'),
+            std::count(input.begin(), input.end(), '\n'));
+  EXPECT_EQ(output.substr(0, output.find('\n')),
+            "record_id,region,occupation,hourly_wage,annual_earnings,hourly_wage_real,annual_"
+            "earnings_real");
+  EXPECT_NE(out.find("3,000 written, 0 rejected"), std::string::npos) << out;
+}
+
+// The six-commodity data of the CPI Manual 2004 (ch. 19) as a survey of two
+// regions with one item per heading: Laspeyres of situation 2 against 1 is
+// the published 1.4200 and Fisher 1.4011 (1.401050 exact).
+std::string WriteTwoSituationSurvey() {
+  const std::string dir = MakeTempDir("cli_pair");
+  const double price[2][6] = {{1.0, 1.0, 1.0, 1.0, 1.0, 1.0}, {1.2, 3.0, 1.3, 0.7, 1.4, 0.8}};
+  const double quantity[2][6] = {{1.0, 1.0, 2.0, 1.0, 4.5, 0.5}, {0.8, 0.9, 1.9, 1.3, 4.7, 0.6}};
+  std::string prices = "region,item,price,heading\n", spending = "region,heading,expenditure\n";
+  for (int r = 0; r < 2; ++r) {
+    for (int c = 0; c < 6; ++c) {
+      const std::string region = "s" + std::to_string(r + 1), heading = "c" + std::to_string(c + 1);
+      prices += region + ",i" + heading + "," + std::to_string(price[r][c]) + "," + heading + "\n";
+      spending +=
+          region + "," + heading + "," + std::to_string(price[r][c] * quantity[r][c]) + "\n";
+    }
+  }
+  WriteTextFile(dir + "/prices.csv", prices);
+  WriteTextFile(dir + "/expenditure.csv", spending);
+  WriteTextFile(dir + "/run.yaml",
+                "survey:\n  prices: prices.csv\n  expenditure: expenditure.csv\n"
+                "classification:\n  all: [c1, c2, c3, c4, c5, c6]\n");
+  return dir;
+}
+
+TEST(PairCommand, PrintsAndWritesEveryFormula) {
+  const std::string dir = WriteTwoSituationSurvey();
+  std::string out, err;
+  EXPECT_EQ(
+      RunCli("pair " + dir + "/run.yaml --from s1 --to s2 --csv " + dir + "/pair.csv", &out, &err),
+      0)
+      << err;
+  EXPECT_NE(out.find("  Laspeyres                       1.420000"), std::string::npos) << out;
+  const std::string csv = ReadTextFile(dir + "/pair.csv");
+  EXPECT_NE(csv.find("\nlaspeyres,1.420000\npaasche,1.382353\nfisher,1.401050\n"),
+            std::string::npos)
+      << csv;
+  // With two regions the transitive parity is the bilateral Fisher: no gap.
+  EXPECT_NE(csv.find("\ntransitive,1.401050\nlog_gap,0.000000\n"), std::string::npos) << csv;
+}
+
+TEST(PairCommand, RefusesUnknownRegionsAndMissingOptions) {
+  const std::string dir = WriteTwoSituationSurvey();
+  std::string out, err;
+  EXPECT_EQ(RunCli("pair " + dir + "/run.yaml --from s1 --to s3", &out, &err), 1);
+  EXPECT_EQ(err, "paritas: error: to region 's3' is not in the survey; did you mean 's1'?\n");
+  EXPECT_EQ(RunCli("pair " + dir + "/run.yaml --from s1 --to s2 --node c9", &out, &err), 1);
+  EXPECT_EQ(err, "paritas: error: node 'c9' is not in the classification; did you mean 'c1'?\n");
+  EXPECT_EQ(RunCli("pair " + dir + "/run.yaml --from s1", &out, &err), 1);
+  EXPECT_EQ(err, "paritas: error: --to is required\nrun 'paritas --help' for usage\n");
+}
+
+}  // namespace
+}  // namespace paritas
