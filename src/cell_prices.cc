@@ -1,7 +1,8 @@
-// Cells are sorted by counting sort on dense indices: linear in the number of
-// cells, and a stable order that is the same on every run.
+// Cells are built by counting sort of the quotes on dense indices: linear in
+// the number of quotes, and a stable order that is the same on every run.
 #include "cell_prices.h"
 
+#include <algorithm>
 #include <cmath>
 #include <numeric>
 
@@ -10,45 +11,112 @@
 namespace paritas::internal {
 namespace {
 
-std::vector<int64_t> CountingOrder(const std::vector<int32_t>& key, int num_keys,
-                                   const std::vector<int64_t>& input_order) {
-  std::vector<int64_t> start(num_keys + 1, 0);
-  for (int64_t i : input_order) ++start[key[i] + 1];
-  std::partial_sum(start.begin(), start.end(), start.begin());
-  std::vector<int64_t> output(input_order.size());
-  for (int64_t i : input_order) output[start[key[i]]++] = i;
-  return output;
+// Appends one cell to the arrays.
+void AppendCell(int32_t region, int32_t item, const CellMoments& moments, CellPrices* cells) {
+  cells->region.push_back(region);
+  cells->item.push_back(item);
+  cells->log_price.push_back(moments.mean);
+  cells->log_sd.push_back(moments.num_quotes > 1 ? std::sqrt(moments.m2 / (moments.num_quotes - 1)) : 0.0);
+  cells->log_min.push_back(moments.min);
+  cells->log_max.push_back(moments.max);
+  cells->num_quotes.push_back(moments.num_quotes);
+  cells->representative.push_back(moments.representative);
+}
+
+void ReserveCells(size_t n, CellPrices* cells) {
+  cells->region.reserve(n);
+  cells->item.reserve(n);
+  cells->log_price.reserve(n);
+  cells->log_sd.reserve(n);
+  cells->log_min.reserve(n);
+  cells->log_max.reserve(n);
+  cells->num_quotes.reserve(n);
+  cells->representative.reserve(n);
+}
+
+// One counting sort on the dense cell key item x R + region: the quotes'
+// values are scattered straight into key order, so the cells are then read
+// off sequentially. Used when the key range is small enough to count.
+void CellsByDenseKey(const QuoteArrays& quotes, int num_regions, int num_items, CellPrices* cells) {
+  const int64_t n = static_cast<int64_t>(quotes.size());
+  const int64_t num_keys = static_cast<int64_t>(num_regions) * num_items;
+  std::vector<uint32_t> start(num_keys + 1, 0);
+  for (int64_t q = 0; q < n; ++q) ++start[static_cast<int64_t>(quotes.item[q]) * num_regions + quotes.region[q] + 1];
+  size_t num_cells = 0;
+  for (int64_t k = 1; k <= num_keys; ++k) {
+    num_cells += start[k] > 0;
+    start[k] += start[k - 1];
+  }
+  const bool flagged = !quotes.representative.empty();
+  std::vector<double> value(n);
+  std::vector<uint8_t> flag(flagged ? n : 0);
+  {
+    std::vector<uint32_t> next(start.begin(), start.end() - 1);
+    for (int64_t q = 0; q < n; ++q) {
+      const uint32_t at = next[static_cast<int64_t>(quotes.item[q]) * num_regions + quotes.region[q]]++;
+      value[at] = quotes.log_price[q];
+      if (flagged) flag[at] = quotes.representative[q];
+    }
+  }
+  ReserveCells(num_cells, cells);
+  for (int64_t k = 0; k < num_keys; ++k) {
+    if (start[k + 1] == start[k]) continue;
+    CellMoments moments;
+    for (uint32_t at = start[k]; at < start[k + 1]; ++at) moments.Add(value[at], flagged && flag[at] != 0);
+    AppendCell(static_cast<int32_t>(k % num_regions), static_cast<int32_t>(k / num_regions), moments, cells);
+  }
+}
+
+// Two stable counting sorts (by region, then by item) of quote positions,
+// for key ranges too large to count densely.
+void CellsBySortedPositions(const QuoteArrays& quotes, int num_regions, int num_items, CellPrices* cells) {
+  const int64_t n = static_cast<int64_t>(quotes.size());
+  std::vector<uint32_t> by_region(n), order(n);
+  {
+    std::vector<int64_t> start(num_regions + 1, 0);
+    for (int64_t q = 0; q < n; ++q) ++start[quotes.region[q] + 1];
+    std::partial_sum(start.begin(), start.end(), start.begin());
+    for (int64_t q = 0; q < n; ++q) by_region[start[quotes.region[q]]++] = static_cast<uint32_t>(q);
+  }
+  {
+    std::vector<int64_t> start(num_items + 1, 0);
+    for (int64_t q = 0; q < n; ++q) ++start[quotes.item[q] + 1];
+    std::partial_sum(start.begin(), start.end(), start.begin());
+    for (uint32_t q : by_region) order[start[quotes.item[q]]++] = q;
+  }
+  by_region = {};
+  size_t num_cells = 0;
+  for (int64_t k = 0; k < n; ++k) {
+    const uint32_t q = order[k], p = k > 0 ? order[k - 1] : 0;
+    num_cells += k == 0 || quotes.region[q] != quotes.region[p] || quotes.item[q] != quotes.item[p];
+  }
+  ReserveCells(num_cells, cells);
+  const bool flagged = !quotes.representative.empty();
+  CellMoments moments;
+  int32_t region = -1, item = -1;
+  for (uint32_t q : order) {
+    if (quotes.region[q] != region || quotes.item[q] != item) {
+      if (moments.num_quotes > 0) AppendCell(region, item, moments, cells);
+      moments = CellMoments();
+      region = quotes.region[q];
+      item = quotes.item[q];
+    }
+    moments.Add(quotes.log_price[q], flagged && quotes.representative[q] != 0);
+  }
+  if (moments.num_quotes > 0) AppendCell(region, item, moments, cells);
 }
 
 }  // namespace
 
-void SortCells(const std::vector<int32_t>& region, const std::vector<int32_t>& item,
-               const std::vector<CellMoments>& moments, int num_regions, int num_items,
-               CellPrices* cells) {
-  std::vector<int64_t> order(region.size());
-  std::iota(order.begin(), order.end(), 0);
-  order = CountingOrder(region, num_regions, order);
-  order = CountingOrder(item, num_items, order);
-  const size_t n = order.size();
-  cells->region.resize(n);
-  cells->item.resize(n);
-  cells->log_price.resize(n);
-  cells->log_sd.resize(n);
-  cells->log_min.resize(n);
-  cells->log_max.resize(n);
-  cells->num_quotes.resize(n);
-  cells->representative.resize(n);
-  for (size_t k = 0; k < n; ++k) {
-    const int64_t i = order[k];
-    const CellMoments& m = moments[i];
-    cells->region[k] = region[i];
-    cells->item[k] = item[i];
-    cells->log_price[k] = m.mean;
-    cells->log_sd[k] = m.num_quotes > 1 ? std::sqrt(m.m2 / (m.num_quotes - 1)) : 0.0;
-    cells->log_min[k] = m.min;
-    cells->log_max[k] = m.max;
-    cells->num_quotes[k] = m.num_quotes;
-    cells->representative[k] = m.representative;
+void CellsFromQuotes(const QuoteArrays& quotes, int num_regions, int num_items, CellPrices* cells) {
+  *cells = CellPrices();
+  // A dense count array costs 4 bytes per possible cell: worth it up to a
+  // few times the number of quotes.
+  const int64_t num_keys = static_cast<int64_t>(num_regions) * num_items;
+  if (num_keys <= std::max<int64_t>(4 * static_cast<int64_t>(quotes.size()), 1 << 20)) {
+    CellsByDenseKey(quotes, num_regions, num_items, cells);
+  } else {
+    CellsBySortedPositions(quotes, num_regions, num_items, cells);
   }
 }
 

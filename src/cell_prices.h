@@ -9,9 +9,8 @@
 
 namespace paritas::internal {
 
-// Running moments of the log quotes of one cell (Welford's update; chunks are
-// combined with Chan, Golub and LeVeque's formula, so the result does not
-// depend on how the file was split).
+// Running moments of the log quotes of one cell (Welford's update, applied
+// in file order).
 struct CellMoments {
   int32_t num_quotes = 0;
   double mean = 0.0;
@@ -29,29 +28,25 @@ struct CellMoments {
     if (num_quotes == 1 || log_price > max) max = log_price;
     representative |= static_cast<uint8_t>(is_representative);
   }
-  void Combine(const CellMoments& other) {
-    if (other.num_quotes == 0) return;
-    if (num_quotes == 0) {
-      *this = other;
-      return;
-    }
-    const double n = num_quotes + other.num_quotes;
-    const double delta = other.mean - mean;
-    mean += delta * other.num_quotes / n;
-    m2 += other.m2 + delta * delta * num_quotes * other.num_quotes / n;
-    min = other.min < min ? other.min : min;
-    max = other.max > max ? other.max : max;
-    num_quotes += other.num_quotes;
-    representative |= other.representative;
-  }
 };
 
-// Builds the survey's sorted cell arrays from unsorted cells: `region` and
-// `item` are final indices; items must already be ordered by heading. Uses
-// two stable counting sorts (by region, then by item), linear in the cells.
-void SortCells(const std::vector<int32_t>& region, const std::vector<int32_t>& item,
-               const std::vector<CellMoments>& moments, int num_regions, int num_items,
-               CellPrices* cells);
+// Quotes as read, in file order (region and item indices of the table being
+// built: chunk-local while parsing, final survey indices for CellsFromQuotes).
+struct QuoteArrays {
+  std::vector<int32_t> region;
+  std::vector<int32_t> item;
+  std::vector<double> log_price;
+  std::vector<uint8_t> representative;  // empty when prices.csv has no flag column
+
+  size_t size() const { return region.size(); }
+};
+
+// Builds the survey's cell arrays from the quotes: a stable counting sort on
+// the cell key (item, region) puts the quotes of each cell together in file
+// order, and each cell's moments are accumulated in that order, so cells do
+// not depend on how the file was split for parsing. Items must already be
+// ordered by heading. Linear in the number of quotes.
+void CellsFromQuotes(const QuoteArrays& quotes, int num_regions, int num_items, CellPrices* cells);
 
 // Fills survey->heading_range from the sorted cells and item_heading.
 void FillHeadingRanges(Survey* survey);

@@ -20,7 +20,6 @@
 #include <unordered_set>
 
 #include "cell_prices.h"
-#include "flat_map.h"
 #include "sha256.h"
 #include "paritas/csv.h"
 #include "paritas/text.h"
@@ -28,8 +27,7 @@
 namespace paritas {
 namespace {
 
-using internal::CellMoments;
-using internal::FlatMap64;
+using internal::QuoteArrays;
 
 constexpr size_t kMaxCodeLength = 200;
 // Chunk size for parallel parsing: boundaries depend on the data only.
@@ -192,10 +190,8 @@ struct LoadState {
   std::vector<std::string> item_origin;  // "items.csv:12" or "line 40"
   std::vector<std::string> item_description, item_unit;
   bool has_catalog = false;
-  // Cells: (region, item) -> cell.
-  FlatMap64 cell_index;
-  std::vector<int32_t> cell_region, cell_item;
-  std::vector<CellMoments> cell_moments;
+  // Quotes used, in file order, with state indices of region and item.
+  QuoteArrays quotes;
   int64_t num_quotes = 0;
   // Expenditure rows.
   struct Spending {
@@ -364,18 +360,32 @@ struct LocalItem {
   int64_t line = 0;        // line of that first statement
 };
 
-struct LocalCell {
-  uint32_t region;
-  uint32_t item;
-  CellMoments moments;
-};
 
 struct ChunkResult {
   CodeTable regions;
   CodeTable items;
   CodeTable headings;
   std::vector<LocalItem> item_info;
-  std::vector<LocalCell> cells;
+  // Quotes used, with chunk-local region and item indices.
+  QuoteArrays quotes;
+
+  // Empties the result, keeping the capacity of its arrays.
+  void Reset() {
+    regions = CodeTable();
+    items = CodeTable();
+    headings = CodeTable();
+    item_info.clear();
+    quotes.region.clear();
+    quotes.item.clear();
+    quotes.log_price.clear();
+    quotes.representative.clear();
+    rejected.clear();
+    num_rejected_not_kept = 0;
+    rows_read = 0;
+    rows_used = 0;
+    items_without_heading.clear();
+    fatal.clear();
+  }
   std::vector<RejectedRow> rejected;
   // Rejected rows beyond the ones kept for the message (under kStop).
   int64_t num_rejected_not_kept = 0;
@@ -393,12 +403,16 @@ void ParsePriceChunk(std::string_view data, int64_t first_line, const PriceColum
                      size_t max_rejected, ChunkResult* out) {
   CsvReader reader(data, first_line, /*skip_bom=*/false);
   CsvRecord record;
-  FlatMap64 cell_index;
+  // A quote row takes at least about a dozen bytes.
+  const size_t expected_rows = data.size() / 12 + 16;
+  out->quotes.region.reserve(expected_rows);
+  out->quotes.item.reserve(expected_rows);
+  out->quotes.log_price.reserve(expected_rows);
+  if (columns.representative >= 0) out->quotes.representative.reserve(expected_rows);
   // Copies, not views: a field unescaped into record.scratch is overwritten
   // (or freed) by the next record.
   std::string last_region, last_item;
   int region_local = -1, item_local = -1;
-  uint32_t last_cell = FlatMap64::kAbsent;
   const bool has_heading = columns.heading >= 0;
   const bool has_flag = columns.representative >= 0;
 
@@ -432,7 +446,6 @@ void ParsePriceChunk(std::string_view data, int64_t first_line, const PriceColum
       }
       region_local = out->regions.Intern(code);
       last_region = region;
-      last_cell = FlatMap64::kAbsent;
     }
     // Item and its heading.
     std::string_view item = fields[columns.item];
@@ -452,7 +465,6 @@ void ParsePriceChunk(std::string_view data, int64_t first_line, const PriceColum
       }
       item_local = index;
       last_item = item;
-      last_cell = FlatMap64::kAbsent;
     }
     LocalItem& info = out->item_info[item_local];
     // A heading first stated by this row counts only once the row is used,
@@ -529,17 +541,10 @@ void ParsePriceChunk(std::string_view data, int64_t first_line, const PriceColum
       info.local_heading = new_heading;
       info.line = record.line;
     }
-    // Cell.
-    if (last_cell == FlatMap64::kAbsent) {
-      const uint64_t key = (static_cast<uint64_t>(region_local) << 32) | static_cast<uint32_t>(item_local);
-      const uint32_t new_index = static_cast<uint32_t>(out->cells.size());
-      last_cell = cell_index.FindOrInsert(key, new_index);
-      if (last_cell == FlatMap64::kAbsent) {
-        out->cells.push_back({static_cast<uint32_t>(region_local), static_cast<uint32_t>(item_local), {}});
-        last_cell = new_index;
-      }
-    }
-    out->cells[last_cell].moments.Add(std::log(price), representative);
+    out->quotes.region.push_back(region_local);
+    out->quotes.item.push_back(item_local);
+    out->quotes.log_price.push_back(std::log(price));
+    if (has_flag) out->quotes.representative.push_back(representative ? 1 : 0);
     ++out->rows_used;
   }
   if (!reader.error().empty()) out->fatal = path + ":" + reader.error();
@@ -620,7 +625,9 @@ class PriceReader {
     bool header_done = false;
     bool at_eof = false;
     while (!at_eof) {
-      buffer->resize(carried + block);
+      // The buffer only grows (a record longer than a block), so it is
+      // zero-filled once rather than for every block.
+      if (buffer->size() < carried + block) buffer->resize(carried + block);
       const size_t got = std::fread(buffer->data() + carried, 1, block, stream);
       if (std::ferror(stream)) {
         *error = path_ + ": cannot read file: " + std::strerror(errno);
@@ -628,15 +635,17 @@ class PriceReader {
       }
       at_eof = got < block;
       file_->size_bytes += static_cast<int64_t>(got);
-      digest_.Update(buffer->data() + carried, got);
-      buffer->resize(carried + got);
-      std::string_view data(*buffer);
+      // The new bytes are hashed alongside the parse of their block.
+      std::string_view fresh(buffer->data() + carried, got);
+      std::string_view data(buffer->data(), carried + got);
+      bytes_seen_ += got;
       size_t start = 0;
       if (!header_done) {
         // The header must lie in the first block; a longer header line is
         // read block by block until it ends.
         const size_t end = at_eof ? data.size() : LastRecordEnd(data);
         if (end == 0 && !at_eof) {
+          digest_.Update(fresh.data(), fresh.size());
           carried = data.size();
           continue;
         }
@@ -647,7 +656,7 @@ class PriceReader {
         header_done = true;
       }
       const size_t end = at_eof ? data.size() : start + LastRecordEnd(data.substr(start));
-      if (!ParseBlock(data.substr(start, end - start), line, error)) return false;
+      if (!ParseBlock(data.substr(start, end - start), line, fresh, error)) return false;
       line += std::count(data.begin() + start, data.begin() + end, '\n');
       // Keep the incomplete tail for the next block.
       std::memmove(buffer->data(), buffer->data() + end, data.size() - end);
@@ -679,19 +688,32 @@ class PriceReader {
     return true;
   }
 
-  bool ParseBlock(std::string_view data, int64_t first_line, std::string* error) {
-    if (data.empty()) return true;
+  bool ParseBlock(std::string_view data, int64_t first_line, std::string_view to_hash, std::string* error) {
+    if (data.empty()) {
+      digest_.Update(to_hash.data(), to_hash.size());
+      return true;
+    }
     std::vector<size_t> starts = ChunkStarts(data);
     std::vector<int64_t> lines(starts.size(), first_line);
     for (size_t c = 1; c < starts.size(); ++c) {
       lines[c] = lines[c - 1] + std::count(data.begin() + starts[c - 1], data.begin() + starts[c], '\n');
     }
-    std::vector<ChunkResult> results(starts.size());
+    // Chunk results are kept between blocks so their arrays keep their
+    // capacity instead of being allocated (and page-faulted) again.
+    std::vector<ChunkResult>& results = results_;
+    results.resize(starts.size());
+    for (ChunkResult& result : results) result.Reset();
     const bool keep_all = options_.invalid_rows == InvalidRowPolicy::kSkip;
     const size_t max_rejected = static_cast<size_t>(std::max(options_.max_reported_rows, 0));
     const int num_chunks = static_cast<int>(starts.size());
-#pragma omp parallel for schedule(dynamic, 1) num_threads(NumThreads(num_chunks))
-    for (int c = 0; c < num_chunks; ++c) {
+    // One more task than chunks: it hashes the block's new bytes while the
+    // chunks are parsed (blocks are hashed in order: one block at a time).
+#pragma omp parallel for schedule(dynamic, 1) num_threads(NumThreads(num_chunks + 1))
+    for (int c = 0; c <= num_chunks; ++c) {
+      if (c == num_chunks) {
+        digest_.Update(to_hash.data(), to_hash.size());
+        continue;
+      }
       const size_t end = c + 1 < num_chunks ? starts[c + 1] : data.size();
       ParsePriceChunk(data.substr(starts[c], end - starts[c]), lines[c], columns_, path_, *state_,
                       keep_all, max_rejected, &results[c]);
@@ -700,7 +722,8 @@ class PriceReader {
       // Two chunks state different headings for a new item, or a chunk
       // lacks a heading an earlier chunk stated: only a pass in file order
       // can tell which statement comes first.
-      results.assign(1, ChunkResult());
+      results.resize(1);
+      results[0].Reset();
       ParsePriceChunk(data, first_line, columns_, path_, *state_, keep_all, max_rejected, &results[0]);
     }
     for (ChunkResult& result : results) {
@@ -710,7 +733,25 @@ class PriceReader {
       }
       Merge(&result);
     }
+    ReserveQuotes();
     return true;
+  }
+
+  // After the first block, sizes the survey's quote arrays for the whole file
+  // from the bytes per row seen so far, so they are not copied as they grow.
+  void ReserveQuotes() {
+    if (reserved_ || file_->rows_read == 0) return;
+    reserved_ = true;
+    std::error_code ec;
+    const double file_bytes = static_cast<double>(std::filesystem::file_size(path_, ec));
+    if (ec || bytes_seen_ == 0) return;
+    const double rows = 1.05 * file_->rows_used * file_bytes / static_cast<double>(bytes_seen_);
+    const size_t n = static_cast<size_t>(std::min(rows, 4e9));
+    QuoteArrays& quotes = state_->quotes;
+    quotes.region.reserve(n);
+    quotes.item.reserve(n);
+    quotes.log_price.reserve(n);
+    if (columns_.representative >= 0) quotes.representative.reserve(n);
   }
 
   int NumThreads(int num_chunks) const {
@@ -764,21 +805,15 @@ class PriceReader {
       }
     }
     state_->num_quotes += result->rows_used;
-    for (const LocalCell& cell : result->cells) {
-      if (cell.moments.num_quotes == 0) continue;
-      const int region = region_map[cell.region];
-      const int item = item_map[cell.item];
-      const uint64_t key = (static_cast<uint64_t>(region) << 32) | static_cast<uint32_t>(item);
-      const uint32_t index = state_->cell_index.FindOrInsert(
-          key, static_cast<uint32_t>(state_->cell_moments.size()));
-      if (index == FlatMap64::kAbsent) {
-        state_->cell_region.push_back(region);
-        state_->cell_item.push_back(item);
-        state_->cell_moments.push_back(cell.moments);
-      } else {
-        state_->cell_moments[index].Combine(cell.moments);
-      }
+    const QuoteArrays& local = result->quotes;
+    QuoteArrays& global = state_->quotes;
+    for (size_t q = 0; q < local.size(); ++q) {
+      global.region.push_back(region_map[local.region[q]]);
+      global.item.push_back(item_map[local.item[q]]);
     }
+    global.log_price.insert(global.log_price.end(), local.log_price.begin(), local.log_price.end());
+    global.representative.insert(global.representative.end(), local.representative.begin(),
+                                 local.representative.end());
   }
 
  private:
@@ -789,6 +824,9 @@ class PriceReader {
   InputFileSummary* file_;
   PriceColumns columns_;
   internal::Sha256 digest_;
+  std::vector<ChunkResult> results_;
+  int64_t bytes_seen_ = 0;
+  bool reserved_ = false;
 };
 
 // ---------------------------------------------------------------------------
@@ -942,14 +980,10 @@ void BuildSurvey(LoadState* state, Survey* survey) {
   survey->items = CodeTable::FromCodes(item_codes);
 
   // Cells in survey order.
-  for (auto& r : state->cell_region) r = region_new[r];
-  for (auto& i : state->cell_item) i = item_new[i];
-  state->cell_index.Clear();
-  internal::SortCells(state->cell_region, state->cell_item, state->cell_moments,
-                      survey->num_regions(), survey->num_items(), &survey->cells);
-  state->cell_region = {};
-  state->cell_item = {};
-  state->cell_moments = {};
+  for (auto& r : state->quotes.region) r = region_new[r];
+  for (auto& i : state->quotes.item) i = item_new[i];
+  internal::CellsFromQuotes(state->quotes, survey->num_regions(), survey->num_items(), &survey->cells);
+  state->quotes = QuoteArrays();
   internal::FillHeadingRanges(survey);
   survey->num_quotes = state->num_quotes;
 
