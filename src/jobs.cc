@@ -302,19 +302,7 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
   if (config.invalid_rows == InvalidRowPolicy::kSkip) {
     files.push_back({"rejected.csv", RejectedRowsCsv(summary->load.rejected_rows)});
   }
-  std::vector<ReportOutlier> report_outliers;
-  for (const Outlier& o : summary->outliers.outliers) {
-    ReportOutlier row;
-    row.heading = survey.heading_codes[o.heading];
-    row.region = std::string(survey.regions.Code(o.region));
-    row.item = std::string(survey.items.Code(o.item));
-    if (o.kind != OutlierKind::kCell) row.item += o.kind == OutlierKind::kLowestQuote ? " (lowest quote)" : " (highest quote)";
-    row.observed = o.observed;
-    row.predicted = o.predicted;
-    row.standardised_residual = o.standardised_residual;
-    row.num_quotes = o.num_quotes;
-    report_outliers.push_back(std::move(row));
-  }
+  const std::vector<ReportOutlier> report_outliers = ToReportOutliers(survey, summary->outliers);
   if (config.report) {
     ReportInputs report;
     report.outliers = &report_outliers;

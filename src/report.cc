@@ -1050,13 +1050,13 @@ std::string CoverageCurveChart(const std::vector<ReportSensitivity::CoveragePoin
   out += "<path class=\"line\" d=\"" + path + "\"/>";
   for (const auto& q : p) {
     out += "<circle class=\"dot\" cx=\"" + C(x(q.coverage_share)) + "\" cy=\"" + C(y(q.median_spread_pct)) +
-           "\" r=\"3.5\"><title>" + Percent(q.coverage_share, 0) + " of cells: " + Num(q.median_spread_pct, 2) +
+           "\" r=\"3.5\"><title>" + Percent(q.coverage_share, 0) + " of items: " + Num(q.median_spread_pct, 2) +
            " %</title></circle>";
   }
   out += "<line class=\"axis\" x1=\"" + C(left) + "\" x2=\"" + C(left + plot_w) + "\" y1=\"" + C(top + plot_h) +
          "\" y2=\"" + C(top + plot_h) + "\"/>";
   out += "<text class=\"axis-title\" x=\"" + C(left + plot_w / 2) + "\" y=\"" + C(height - 6) +
-         "\" text-anchor=\"middle\">share of cells kept, %</text>";
+         "\" text-anchor=\"middle\">share of each heading's items kept, %</text>";
   out += "<text class=\"axis-title\" transform=\"translate(14 " + C(top + plot_h / 2) +
          ") rotate(-90)\" text-anchor=\"middle\">median change, %</text></svg>\n";
   return out;
@@ -1169,7 +1169,7 @@ std::string SensitivitySection(const Context& ctx, const ReportSensitivity& s) {
   bool any = false;
   if (!s.coverage_curve.empty()) {
     any = true;
-    out += "<h3>Coverage curve</h3><p>The survey thinned to a share of its cells, and the median change of the "
+    out += "<h3>Coverage curve</h3><p>The survey thinned to a share of each heading's items, and the median change of the "
            "regions' price levels for <b>" + HtmlEscape(ctx.root_code) +
            "</b> that follows. A curve that rises early means the parities lean on few prices.</p>\n" +
            CoverageCurveChart(s.coverage_curve);
@@ -1375,6 +1375,24 @@ constexpr const char* kScript = R"js(
 )js";
 
 }  // namespace
+
+std::vector<ReportOutlier> ToReportOutliers(const Survey& survey, const OutlierReport& report) {
+  std::vector<ReportOutlier> rows;
+  for (const Outlier& o : report.outliers) {
+    ReportOutlier row;
+    row.heading = survey.heading_codes[o.heading];
+    row.region = std::string(survey.regions.Code(o.region));
+    row.item = std::string(survey.items.Code(o.item));
+    if (o.kind == OutlierKind::kLowestQuote) row.item += " (lowest quote)";
+    if (o.kind == OutlierKind::kHighestQuote) row.item += " (highest quote)";
+    row.observed = o.observed;
+    row.predicted = o.predicted;
+    row.standardised_residual = o.standardised_residual;
+    row.num_quotes = o.num_quotes;
+    rows.push_back(std::move(row));
+  }
+  return rows;
+}
 
 std::string HtmlEscape(std::string_view text) {
   std::string out;

@@ -25,7 +25,9 @@
 #include "paritas/csv.h"
 #include "paritas/elementary.h"
 #include "paritas/geks.h"
+#include "paritas/outliers.h"
 #include "paritas/output_writers.h"
+#include "paritas/report.h"
 #include "paritas/run_record.h"
 #include "paritas/text.h"
 
@@ -1233,6 +1235,36 @@ std::string SensitivityJobSummary::FullReport(const SensitivityOptions& options)
   return out;
 }
 
+ReportSensitivity ToReportSensitivity(const SensitivityResult& result, const SensitivityOptions& options) {
+  ReportSensitivity out;
+  if (result.boot_lower.rows() > 0) {
+    for (Eigen::Index r = 0; r < result.boot_lower.cols(); ++r) {
+      out.parity_lower.push_back(result.boot_lower(0, r));
+      out.parity_upper.push_back(result.boot_upper(0, r));
+    }
+    out.interval_label = FormatFixed(100.0 * options.level, 0) + " % interval over item resamples";
+  }
+  for (const CoverageLevel& level : result.coverage) {
+    std::vector<double> changes;
+    for (Eigen::Index r = 0; r < level.median_abs_log_change.cols(); ++r) {
+      if (std::isfinite(level.median_abs_log_change(0, r))) changes.push_back(level.median_abs_log_change(0, r));
+    }
+    if (changes.empty()) continue;
+    std::sort(changes.begin(), changes.end());
+    ReportSensitivity::CoveragePoint point;
+    point.coverage_share = level.coverage;
+    point.median_spread_pct = 100.0 * PercentileType7(changes, 0.5);
+    out.coverage_curve.push_back(point);
+  }
+  for (const MethodRun& run : result.methods) {
+    if (run.parity.rows() == 0) continue;
+    out.method_names.push_back(run.name);
+    out.method_parity.emplace_back();
+    for (Eigen::Index r = 0; r < run.parity.cols(); ++r) out.method_parity.back().push_back(run.parity(0, r));
+  }
+  return out;
+}
+
 int RunSensitivityJob(const RunConfig& config, const SensitivityOptions& options, SensitivityJobSummary* summary) {
   *summary = SensitivityJobSummary();
   auto fail = [&](int code, const std::string& message) {
@@ -1286,6 +1318,29 @@ int RunSensitivityJob(const RunConfig& config, const SensitivityOptions& options
   }
   if (run_options.run_methods) {
     files.push_back({"sensitivity/method_spread.csv", MethodSpreadCsv(survey, summary->result)});
+  }
+  if (config.report) {
+    // The report of compute, redrawn with the intervals, the coverage curve
+    // and the method spread.
+    ParityResult full;
+    ComputeSummary full_summary;
+    if (ComputeParities(survey, compute, &full, &full_summary)) {
+      OutlierOptions outlier_options;
+      outlier_options.threshold = config.outlier_threshold;
+      const std::vector<ReportOutlier> outliers =
+          ToReportOutliers(survey, FindOutliers(survey, full, outlier_options));
+      const ReportSensitivity sensitivity = ToReportSensitivity(summary->result, run_options);
+      ReportInputs report;
+      report.config = &config;
+      report.survey = &survey;
+      report.load = &summary->load;
+      report.result = &full;
+      report.compute = &full_summary;
+      report.warnings = summary->warnings;
+      report.outliers = &outliers;
+      report.sensitivity = &sensitivity;
+      files.push_back({"report.html", ReportHtml(report)});
+    }
   }
   for (const OutputFile& file : files) summary->outputs.push_back(file.relative_path);
   summary->outputs.push_back("sensitivity/run.json");

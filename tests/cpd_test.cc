@@ -225,7 +225,11 @@ TEST_P(CpdShape, MatchesDenseWeightedLeastSquaresOnTheDummyMatrix) {
 // and a tie.
 INSTANTIATE_TEST_SUITE_P(BothEliminationOrders, CpdShape,
                          ::testing::Values(std::make_pair(6, 11), std::make_pair(11, 6),
-                                           std::make_pair(7, 7), std::make_pair(30, 2)));
+                                           std::make_pair(7, 7), std::make_pair(30, 2)),
+                         [](const ::testing::TestParamInfo<std::pair<int, int>>& param_info) {
+                           return std::to_string(param_info.param.first) + "Regions" + std::to_string(param_info.param.second) +
+                                  "Items";
+                         });
 
 TEST(Cpd, ResultDoesNotDependOnWhichBlockIsEliminated) {
   // The model is symmetric in regions and items, so the transposed heading
@@ -442,7 +446,8 @@ TEST_P(RobustCpd, GivenScaleIsUsedAndWorksWhenRegionsAreEliminated) {
 }
 
 INSTANTIATE_TEST_SUITE_P(HuberAndCauchy, RobustCpd,
-                         ::testing::Values(CpdLoss::kHuber, CpdLoss::kCauchy));
+                         ::testing::Values(CpdLoss::kHuber, CpdLoss::kCauchy),
+                         [](const ::testing::TestParamInfo<CpdLoss>& param_info) { return ToString(param_info.param); });
 
 }  // namespace
 }  // namespace paritas

@@ -193,7 +193,12 @@ TEST_P(LeaveOneOut, DroppingAnItemEqualsRecomputingWithoutIt) {
 
 INSTANTIATE_TEST_SUITE_P(Methods, LeaveOneOut,
                          ::testing::Values(ElementaryMethod::kCpd, ElementaryMethod::kJevonsGeks,
-                                           ElementaryMethod::kRobustCpd));
+                                           ElementaryMethod::kRobustCpd),
+                         [](const ::testing::TestParamInfo<ElementaryMethod>& param_info) {
+                           std::string name = ToString(param_info.param);
+                           name.erase(std::remove(name.begin(), name.end(), '-'), name.end());
+                           return name;
+                         });
 
 TEST(LeaveOneOut, LargestChangeIsTheLargestOverItemsDroppedOneByOne) {
   const Survey survey = LoadSynthetic(SmallOptions(5), "loo-largest");
@@ -468,7 +473,11 @@ TEST(SensitivityCommand, RunsAndPrintsTheRootTable) {
             0)
       << err;
   EXPECT_NE(out.find("90 % interval"), std::string::npos) << out;
-  EXPECT_NE(out.find("wrote 5 files"), std::string::npos) << out;
+  // Four tables, the run record and the report redrawn with the intervals.
+  EXPECT_NE(out.find("wrote 6 files"), std::string::npos) << out;
+  const std::string report = ReadTextFile(folder + "/out/report.html");
+  EXPECT_NE(report.find("id=\"sensitivity\""), std::string::npos);
+  EXPECT_NE(report.find("id=\"coverage-curve\""), std::string::npos);
   EXPECT_EQ(err, "");  // no progress bar when stderr is not a terminal
   const std::string curve = ReadTextFile(folder + "/out/sensitivity/coverage_curve.csv");
   EXPECT_NE(curve.find(",80.00,3,"), std::string::npos);

@@ -11,6 +11,7 @@
 
 #include "paritas/compute.h"
 #include "paritas/config.h"
+#include "paritas/outliers.h"
 #include "paritas/survey.h"
 #include "paritas/survey_loader.h"
 
@@ -43,10 +44,10 @@ struct ReportSensitivity {
   // resamples". Default "uncertainty interval".
   std::string interval_label = "uncertainty interval";
 
-  // One point of the coverage curve: the survey thinned to a share of its
-  // cells, and the typical change of the root's parities that follows.
+  // One point of the coverage curve: the survey thinned to a share of each heading's
+  // items, and the typical change of the root's parities that follows.
   struct CoveragePoint {
-    double coverage_share = 1.0;  // share of cells kept, in (0, 1]
+    double coverage_share = 1.0;  // share of each heading's items kept, in (0, 1]
     // Median over regions of |ln(parity thinned / parity full)|, x 100
     // (percent, about).
     double median_spread_pct = 0.0;
@@ -83,6 +84,10 @@ inline constexpr int kReportMaxGridRegions = 60;
 // Regions drawn as labelled horizontal bars; above this the price-level chart
 // becomes a compact column per region.
 inline constexpr int kReportMaxLabelledBars = 80;
+
+// The outlier listing as the report shows it (quotes are marked in the item
+// column, e.g. "milk (highest quote)").
+std::vector<ReportOutlier> ToReportOutliers(const Survey& survey, const OutlierReport& report);
 
 // Returns the whole page. Never fails: missing inputs leave sections out.
 std::string ReportHtml(const ReportInputs& inputs);

@@ -16,6 +16,7 @@
 
 #include "paritas/compute.h"
 #include "paritas/config.h"
+#include "paritas/report.h"
 #include "paritas/survey.h"
 #include "paritas/survey_loader.h"
 
@@ -249,6 +250,10 @@ struct SensitivityJobSummary {
 
 // Returns the exit code (0 ok, 1 invalid input or options, 2 computation
 // failed).
+// The root node's intervals, coverage curve and method runs as the report
+// draws them.
+ReportSensitivity ToReportSensitivity(const SensitivityResult& result, const SensitivityOptions& options);
+
 int RunSensitivityJob(const RunConfig& config, const SensitivityOptions& options,
                       SensitivityJobSummary* summary);
 

@@ -175,7 +175,8 @@ int RunSensitivityCommand(const std::string& config_path, const Overrides& overr
     return code;
   }
   std::cout << summary.FullReport(options);
-  std::cout << "\nwrote " << summary.outputs.size() << " files to " << config.output << "/sensitivity\n";
+  std::cout << "\nwrote " << summary.outputs.size() << " files to " << config.output
+            << " (sensitivity/ and report.html)\n";
   return kExitOk;
 }
 
