@@ -39,26 +39,6 @@ std::string ErrnoText(int error_number) {
   return std::error_code(error_number, std::generic_category()).message();
 }
 
-std::string Quoted(std::string_view text) {
-  // Long or multi-line values are cut so that a message stays one line.
-  std::string shown(text.substr(0, 60));
-  for (char& c : shown) {
-    if (c == '\n' || c == '\r') c = ' ';
-  }
-  if (text.size() > 60) shown += "...";
-  return "'" + shown + "'";
-}
-
-std::string Thousands(int64_t value) {
-  std::string digits = std::to_string(value < 0 ? -value : value);
-  std::string out;
-  for (size_t i = 0; i < digits.size(); ++i) {
-    if (i > 0 && (digits.size() - i) % 3 == 0) out += ',';
-    out += digits[i];
-  }
-  return value < 0 ? "-" + out : out;
-}
-
 std::string RowMessage(const std::string& path, int64_t line, int column, const std::string& what) {
   std::string out = path + ":" + std::to_string(line);
   if (column > 0) out += ":" + std::to_string(column);
@@ -70,9 +50,9 @@ std::string NumberProblem(NumberStatus status, const std::string& what, std::str
     case NumberStatus::kEmpty:
       return what + " is empty";
     case NumberStatus::kInvalid:
-      return what + " " + Quoted(text) + " is not a number";
+      return what + " " + QuoteValue(text) + " is not a number";
     case NumberStatus::kNonFinite:
-      return what + " " + Quoted(text) + " is not a finite number";
+      return what + " " + QuoteValue(text) + " is not a finite number";
     case NumberStatus::kOk:
       break;
   }
@@ -187,7 +167,7 @@ bool ParseParity(const std::string& path, int64_t line, int column, const char* 
   }
   if (!(parsed > 0)) {
     *error =
-        RowMessage(path, line, column, std::string(what) + " " + Quoted(text) + " is not positive");
+        RowMessage(path, line, column, std::string(what) + " " + QuoteValue(text) + " is not positive");
     return false;
   }
   *value = parsed;
@@ -515,7 +495,7 @@ class Deflater {
     if (node < 0) {
       Reject(record, node_column_ + 1,
              code.empty() ? options_.node_column + " is empty"
-                          : options_.node_column + " " + Quoted(code) + " is not a node in " +
+                          : options_.node_column + " " + QuoteValue(code) + " is not a node in " +
                                 table_.path + DidYouMean(code, table_.nodes.Codes()));
       return -1;
     }
@@ -533,7 +513,7 @@ class Deflater {
     if (region < 0) {
       Reject(record, region_column_ + 1,
              code.empty() ? options_.region_column + " is empty"
-                          : options_.region_column + " " + Quoted(code) + " is not a region of " +
+                          : options_.region_column + " " + QuoteValue(code) + " is not a region of " +
                                 table_.path + DidYouMean(code, table_.regions.Codes()));
       return -1;
     }
@@ -564,8 +544,8 @@ class Deflater {
       const double parity = table_.parity[cell];
       if (std::isnan(parity)) {
         Reject(record, region_column_ + 1,
-               options_.region_column + " " + Quoted(table_.regions.Code(region)) +
-                   " has no parity for node " + Quoted(table_.nodes.Code(node)) + " in " +
+               options_.region_column + " " + QuoteValue(table_.regions.Code(region)) +
+                   " has no parity for node " + QuoteValue(table_.nodes.Code(node)) + " in " +
                    table_.path);
         continue;
       }
@@ -579,7 +559,7 @@ class Deflater {
           valid = false;
         } else if (values_[k] < 0 && !options_.allow_negative) {
           Reject(record, value_columns_[k] + 1,
-                 options_.value_columns[k] + " " + Quoted(Trim(text)) +
+                 options_.value_columns[k] + " " + QuoteValue(Trim(text)) +
                      " is negative (negative values need --allow-negative)");
           valid = false;
         }
@@ -704,10 +684,10 @@ std::string DeflateOptions::RejectedPathUsed() const {
 }
 
 std::string DeflateSummary::BriefReport() const {
-  std::string out = "deflated " + Thousands(num_rows_read) + " row" +
+  std::string out = "deflated " + FormatCount(num_rows_read) + " row" +
                     (num_rows_read == 1 ? "" : "s") + " of " + input_path;
   out += node_used.empty() ? " by the node of each row" : " by node '" + node_used + "'";
-  out += ": " + Thousands(num_rows_written) + " written, " + Thousands(num_rows_rejected) +
+  out += ": " + FormatCount(num_rows_written) + " written, " + FormatCount(num_rows_rejected) +
          " rejected (" + FormatFixed(total_seconds, 2) + " s)";
   return out;
 }
@@ -755,7 +735,7 @@ bool Deflate(const DeflateOptions& options, DeflateSummary* summary) {
   if (summary->num_rows_rejected > 0 && options.invalid_rows == InvalidRowPolicy::kStop) {
     summary->num_rows_written = 0;
     const int64_t shown = static_cast<int64_t>(summary->rejected_rows.size());
-    std::string message = Thousands(summary->num_rows_rejected) + " invalid row" +
+    std::string message = FormatCount(summary->num_rows_rejected) + " invalid row" +
                           (summary->num_rows_rejected == 1 ? "" : "s") + " in " +
                           options.input_path;
     if (shown < summary->num_rows_rejected)

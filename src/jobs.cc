@@ -27,16 +27,6 @@ LoadOptions LoadOptionsFor(const RunConfig& config) {
   return options;
 }
 
-std::string Thousands(int64_t value) {
-  std::string digits = std::to_string(value < 0 ? -value : value);
-  std::string out;
-  for (size_t i = 0; i < digits.size(); ++i) {
-    if (i > 0 && (digits.size() - i) % 3 == 0) out += ',';
-    out += digits[i];
-  }
-  return value < 0 ? "-" + out : out;
-}
-
 std::string Codes(const Survey& survey, const std::vector<int>& regions, size_t limit = 8) {
   std::vector<std::string> codes;
   for (size_t k = 0; k < regions.size() && k < limit; ++k) codes.emplace_back(survey.regions.Code(regions[k]));
@@ -54,8 +44,8 @@ std::string FilesReport(const LoadSummary& load) {
   std::string out = "files:\n";
   for (const InputFileSummary& file : load.files) {
     if (!file.given) continue;
-    out += "  " + Pad(file.role, 12) + file.path + ": " + Thousands(file.rows_read) + " rows read, " +
-           Thousands(file.rows_used) + " used, " + Thousands(file.rows_rejected) + " rejected\n";
+    out += "  " + Pad(file.role, 12) + file.path + ": " + FormatCount(file.rows_read) + " rows read, " +
+           FormatCount(file.rows_used) + " used, " + FormatCount(file.rows_rejected) + " rejected\n";
     if (!file.ignored_columns.empty()) {
       out += "  " + Pad("", 12) + "ignored columns: " + JoinNames(file.ignored_columns) + "\n";
     }
@@ -66,10 +56,10 @@ std::string FilesReport(const LoadSummary& load) {
 std::string SurveyCounts(const Survey& survey) {
   int aggregates = 0;
   for (const auto& node : survey.classification.nodes()) aggregates += node.is_leaf ? 0 : 1;
-  return "survey: " + Thousands(survey.num_regions()) + " regions, " + Thousands(survey.num_items()) +
-         " items, " + Thousands(survey.num_headings()) + " basic headings in " +
-         Thousands(aggregates) + " aggregate" + (aggregates == 1 ? "" : "s") + ", " +
-         Thousands(survey.num_quotes) + " quotes in " + Thousands(static_cast<int64_t>(survey.cells.size())) +
+  return "survey: " + FormatCount(survey.num_regions()) + " regions, " + FormatCount(survey.num_items()) +
+         " items, " + FormatCount(survey.num_headings()) + " basic headings in " +
+         FormatCount(aggregates) + " aggregate" + (aggregates == 1 ? "" : "s") + ", " +
+         FormatCount(survey.num_quotes) + " quotes in " + FormatCount(static_cast<int64_t>(survey.cells.size())) +
          " cells\n";
 }
 
@@ -81,7 +71,7 @@ std::string DescribeRejectedRows(const LoadSummary& load, size_t limit) {
     out += load.rejected_rows[k].reason + "\n";
   }
   if (load.num_rows_rejected > static_cast<int64_t>(std::min(limit, load.rejected_rows.size()))) {
-    out += "... " + Thousands(load.num_rows_rejected - static_cast<int64_t>(std::min(limit, load.rejected_rows.size()))) +
+    out += "... " + FormatCount(load.num_rows_rejected - static_cast<int64_t>(std::min(limit, load.rejected_rows.size()))) +
            " more\n";
   }
   return out;
@@ -194,7 +184,7 @@ std::string CheckSummary::FullReport() const {
            Pad(std::to_string(h.num_regions_priced) + "/" + std::to_string(survey.num_regions()), 9, true) +
            "  " + Pad(std::to_string(h.num_items_priced), 7, true) + "  " +
            Pad(FormatFixed(100.0 * h.fill_share, 1) + " %", 7, true) + "  " +
-           Pad(Thousands(h.num_quotes), 9, true) + "  " +
+           Pad(FormatCount(h.num_quotes), 9, true) + "  " +
            Pad(h.num_flagged_cells < 0 ? "-" : std::to_string(h.num_flagged_cells), 7, true) + "  " +
            linked + "\n";
   }
@@ -229,9 +219,9 @@ std::string CheckSummary::FullReport() const {
   if (!empty.empty()) out += "headings with no prices (left out of every aggregate): " + empty + "\n";
   int flagged = 0;
   for (const HeadingCheck& h : headings) flagged += std::max(h.num_flagged_cells, 0);
-  out += "outliers: " + Thousands(flagged) + " cells flagged (|standardised residual| > " +
+  out += "outliers: " + FormatCount(flagged) + " cells flagged (|standardised residual| > " +
          FormatFixed(outlier_threshold, 1) + "; listed in outliers.csv by compute)\n";
-  out += "rejected rows: " + Thousands(load.num_rows_rejected) + "\n";
+  out += "rejected rows: " + FormatCount(load.num_rows_rejected) + "\n";
   if (load.num_rows_rejected > 0) out += DescribeRejectedRows(load);
   out += std::string(usable ? "usable: " : "not usable: ") + message + "\n";
   return out;
@@ -271,7 +261,7 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
   summary->warnings = summary->compute.warnings;
   if (summary->load.num_rows_rejected > 0) {
     summary->warnings.insert(summary->warnings.begin(),
-                             Thousands(summary->load.num_rows_rejected) +
+                             FormatCount(summary->load.num_rows_rejected) +
                                  " invalid rows left out (listed in rejected.csv)");
   }
 

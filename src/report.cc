@@ -41,17 +41,6 @@ std::string Num(double value, int decimals) {
   return FormatFixed(value, decimals);
 }
 
-// Returns a count with thousands separated by commas.
-std::string Count(int64_t value) {
-  std::string digits = std::to_string(value < 0 ? -value : value);
-  std::string out;
-  for (size_t i = 0; i < digits.size(); ++i) {
-    if (i > 0 && (digits.size() - i) % 3 == 0) out += ',';
-    out += digits[i];
-  }
-  return value < 0 ? "-" + out : out;
-}
-
 // Returns a share in [0, 1] as a percentage, e.g. "12.3 %".
 std::string Percent(double share, int decimals) {
   if (!std::isfinite(share)) return "\xE2\x80\x93";
@@ -298,8 +287,8 @@ std::vector<int> EveryKth(const std::vector<int>& order, int max_count) {
 
 std::string ThinningNote(const Context& ctx, size_t shown, const std::string& where) {
   if (shown >= ctx.order.size()) return "";
-  return "<p class=\"note\">" + Count(static_cast<int64_t>(shown)) + " of " +
-         Count(static_cast<int64_t>(ctx.order.size())) +
+  return "<p class=\"note\">" + FormatCount(static_cast<int64_t>(shown)) + " of " +
+         FormatCount(static_cast<int64_t>(ctx.order.size())) +
          " regions shown: every k-th by price level, from the dearest to the cheapest. " + where + "</p>\n";
 }
 
@@ -323,18 +312,18 @@ std::string Overview(const Context& ctx) {
   const double possible = static_cast<double>(s.num_regions()) * s.num_items();
   const double coverage = possible > 0 ? static_cast<double>(s.cells.size()) / possible : kNaN;
   out += "<div class=\"cards\">";
-  out += Card(Count(s.num_regions()), "regions");
-  out += Card(Count(s.num_headings()), "basic headings");
-  out += Card(Count(num_aggregates), "aggregates");
-  out += Card(Count(s.num_items()), "items");
-  out += Card(Count(s.num_quotes), "price quotes");
-  out += Card(Count(static_cast<int64_t>(s.cells.size())), "priced cells");
+  out += Card(FormatCount(s.num_regions()), "regions");
+  out += Card(FormatCount(s.num_headings()), "basic headings");
+  out += Card(FormatCount(num_aggregates), "aggregates");
+  out += Card(FormatCount(s.num_items()), "items");
+  out += Card(FormatCount(s.num_quotes), "price quotes");
+  out += Card(FormatCount(static_cast<int64_t>(s.cells.size())), "priced cells");
   out += Card(Percent(coverage, 1), "region \xC3\x97 item coverage");
   out += "</div>\n";
 
   if (!ctx.order.empty()) {
     const int dear = ctx.order.front(), cheap = ctx.order.back();
-    out += "<p class=\"lead\">Across the " + Count(static_cast<int64_t>(ctx.order.size())) +
+    out += "<p class=\"lead\">Across the " + FormatCount(static_cast<int64_t>(ctx.order.size())) +
            " regions with a price level for <b>" + HtmlEscape(ctx.root_code) + "</b>, the dearest is <b>" +
            HtmlEscape(ctx.Label(dear)) + "</b> at " + Num(ctx.root.parity(dear), kChartParityDecimals) +
            " and the cheapest <b>" + HtmlEscape(ctx.Label(cheap)) + "</b> at " +
@@ -364,14 +353,14 @@ std::string Overview(const Context& ctx) {
     fact("Reference", HtmlEscape(ctx.root.reference_used) + " = 100");
   }
   if (ctx.in.compute != nullptr) {
-    fact("Headings with parities", Count(ctx.in.compute->num_headings_used) + " of " +
-                                       Count(ctx.in.compute->num_headings_given));
+    fact("Headings with parities", FormatCount(ctx.in.compute->num_headings_used) + " of " +
+                                       FormatCount(ctx.in.compute->num_headings_given));
   }
   if (!ctx.missing.empty()) {
     std::string codes;
     for (size_t i = 0; i < ctx.missing.size() && i < 20; ++i) codes += (i ? ", " : "") + HtmlEscape(ctx.Code(ctx.missing[i]));
     if (ctx.missing.size() > 20) codes += ", \xE2\x80\xA6";
-    fact("Regions without a price level", Count(static_cast<int64_t>(ctx.missing.size())) + ": " + codes);
+    fact("Regions without a price level", FormatCount(static_cast<int64_t>(ctx.missing.size())) + ": " + codes);
   }
   out += "</tbody></table>\n";
 
@@ -381,8 +370,8 @@ std::string Overview(const Context& ctx) {
     for (const InputFileSummary& f : ctx.in.load->files) {
       if (!f.given) continue;
       out += "<tr><td>" + HtmlEscape(f.role) + "</td><td><code>" + HtmlEscape(f.path) + "</code></td><td class=\"num\">" +
-             Count(f.rows_read) + "</td><td class=\"num\">" + Count(f.rows_used) + "</td><td class=\"num\">" +
-             Count(f.rows_rejected) + "</td><td><code title=\"" + HtmlEscape(f.sha256) + "\">" +
+             FormatCount(f.rows_read) + "</td><td class=\"num\">" + FormatCount(f.rows_used) + "</td><td class=\"num\">" +
+             FormatCount(f.rows_rejected) + "</td><td><code title=\"" + HtmlEscape(f.sha256) + "\">" +
              HtmlEscape(f.sha256.substr(0, 12)) + "\xE2\x80\xA6</code></td></tr>";
     }
     out += "</tbody></table>\n";
@@ -403,7 +392,7 @@ std::string Overview(const Context& ctx) {
     out += "<ul class=\"warnings\">";
     for (size_t i = 0; i < warnings.size() && i < kMaxWarnings; ++i) out += "<li>" + HtmlEscape(warnings[i]) + "</li>";
     if (warnings.size() > kMaxWarnings) {
-      out += "<li>and " + Count(static_cast<int64_t>(warnings.size() - kMaxWarnings)) + " more (see run.json)</li>";
+      out += "<li>and " + FormatCount(static_cast<int64_t>(warnings.size() - kMaxWarnings)) + " more (see run.json)</li>";
     }
     out += "</ul>\n";
   }
@@ -744,7 +733,7 @@ std::string AggregateSection(const Context& ctx) {
          HtmlEscape(ctx.root.reference_used) +
          " = 100). Read along a row to see which categories make a region dear or cheap.</p>\n";
   if (ctx.survey.classification.nodes().front().children.size() + 1 > columns.size()) {
-    out += "<p class=\"note\">The " + Count(static_cast<int64_t>(columns.size() - 1)) +
+    out += "<p class=\"note\">The " + FormatCount(static_cast<int64_t>(columns.size() - 1)) +
            " aggregates with the largest expenditure are shown; every node is in <code>parities.csv</code>.</p>";
   }
   out += Grid(g);
@@ -836,8 +825,8 @@ std::string CoverageSection(const Context& ctx) {
   for (int h = 0; h < s.num_headings(); ++h) {
     const int num_items = s.heading_range[h].num_items();
     g.row_labels.push_back(s.heading_codes[h]);
-    g.row_tips.push_back(s.heading_codes[h] + ": " + Count(num_items) + " items, " +
-                         Count(s.heading_range[h].num_cells()) + " cells");
+    g.row_tips.push_back(s.heading_codes[h] + ": " + FormatCount(num_items) + " items, " +
+                         FormatCount(s.heading_range[h].num_cells()) + " cells");
     std::vector<double> line;
     int64_t heading_priced = 0;
     for (const std::vector<int>& bin : bins) {
@@ -870,7 +859,7 @@ std::string CoverageSection(const Context& ctx) {
          " of heading items were priced. Thin coverage makes a heading's parity rest on few items.</p>\n";
   out += Grid(g);
   if (binned) {
-    out += "<p class=\"note\">" + Count(n) + " regions in " + Count(num_bins) +
+    out += "<p class=\"note\">" + FormatCount(n) + " regions in " + FormatCount(num_bins) +
            " columns of consecutive price-level ranks (1 = dearest; regions without a price level last); a column "
            "shows the mean share of its regions.</p>\n";
   }
@@ -906,7 +895,7 @@ std::string SpreadSection(const Context& ctx, const BilateralMatrices& b) {
   const double median = sorted.size() % 2 ? sorted[sorted.size() / 2]
                                           : 0.5 * (sorted[sorted.size() / 2 - 1] + sorted[sorted.size() / 2]);
   const double p90 = sorted[static_cast<size_t>(0.9 * (sorted.size() - 1))];
-  out += "<div class=\"cards\">" + Card(Count(static_cast<int64_t>(pairs.size())), "pairs of regions") +
+  out += "<div class=\"cards\">" + Card(FormatCount(static_cast<int64_t>(pairs.size())), "pairs of regions") +
          Card(Num(median, 2) + "\xC2\xA0%", "median spread") + Card(Num(p90, 2) + "\xC2\xA0%", "90th percentile") +
          Card(Num(sorted.back(), 2) + "\xC2\xA0%", "largest spread") + "</div>\n";
 
@@ -925,17 +914,17 @@ std::string SpreadSection(const Context& ctx, const BilateralMatrices& b) {
     const double y = plot_top + plot_h - t / max_count * plot_h;
     out += "<line class=\"grid\" x1=\"" + C(left) + "\" x2=\"" + C(kChartWidth - right) + "\" y1=\"" + C(y) +
            "\" y2=\"" + C(y) + "\"/><text class=\"tick\" x=\"" + C(left - 6) + "\" y=\"" + C(y + 4) +
-           "\" text-anchor=\"end\">" + Count(std::llround(t)) + "</text>";
+           "\" text-anchor=\"end\">" + FormatCount(std::llround(t)) + "</text>";
   }
   for (int i = 0; i < num_bins; ++i) {
     const double h = static_cast<double>(counts[i]) / max_count * plot_h;
     const double lo = top * i / num_bins, hi = top * (i + 1) / num_bins;
     out += "<rect class=\"hist-bar\" x=\"" + C(left + bar_w * i + 1) + "\" y=\"" + C(plot_top + plot_h - h) +
            "\" width=\"" + C(bar_w - 2) + "\" height=\"" + C(h) + "\"><title>" + Num(lo, 2) + "\xE2\x80\x93" +
-           Num(hi, 2) + " %: " + Count(counts[i]) + " pairs</title></rect>";
+           Num(hi, 2) + " %: " + FormatCount(counts[i]) + " pairs</title></rect>";
     if (counts[i] > 0) {
       out += "<text class=\"tick\" x=\"" + C(left + bar_w * (i + 0.5)) + "\" y=\"" + C(plot_top + plot_h - h - 4) +
-             "\" text-anchor=\"middle\">" + Count(counts[i]) + "</text>";
+             "\" text-anchor=\"middle\">" + FormatCount(counts[i]) + "</text>";
     }
   }
   const std::vector<double> x_ticks = NiceTicks(0, top, 8);
@@ -968,7 +957,7 @@ std::string SpreadSection(const Context& ctx, const BilateralMatrices& b) {
            Num(100.0 * b.fisher(p.a, p.b), kTableParityDecimals) + "</td><td class=\"num\">" +
            Num(100.0 * b.tornqvist(p.a, p.b), kTableParityDecimals) + "</td><td class=\"num\">" +
            Num(100.0 * p.spread, 2) + "</td><td class=\"num\">" +
-           (b.num_matched.size() > 0 ? Count(b.num_matched(p.a, p.b)) : std::string("\xE2\x80\x93")) + "</td></tr>";
+           (b.num_matched.size() > 0 ? FormatCount(b.num_matched(p.a, p.b)) : std::string("\xE2\x80\x93")) + "</td></tr>";
   }
   out += "</tbody></table>\n<p class=\"note\">Indices compare region b with region a (a = 100). Every ordered pair "
          "is in <code>bilateral/</code>.</p>\n";
@@ -992,12 +981,12 @@ std::string OutlierSection(const Context& ctx, const std::vector<ReportOutlier>&
   for (const ReportOutlier& o : outliers) ++per_heading[o.heading];
   std::vector<std::pair<std::string, int>> headings(per_heading.begin(), per_heading.end());
   std::stable_sort(headings.begin(), headings.end(), [](const auto& a, const auto& b) { return a.second > b.second; });
-  out += "<p>" + Count(static_cast<int64_t>(outliers.size())) +
+  out += "<p>" + FormatCount(static_cast<int64_t>(outliers.size())) +
          " cells (region \xC3\x97 item) have a standardised residual beyond \xC2\xB1" + threshold +
          ": their price is far from what the region's level and the item's price predict. Check units, package "
          "sizes and decimal points before trusting them. Most flagged headings: ";
   for (size_t i = 0; i < headings.size() && i < 5; ++i) {
-    out += (i ? ", " : "") + HtmlEscape(headings[i].first) + " (" + Count(headings[i].second) + ")";
+    out += (i ? ", " : "") + HtmlEscape(headings[i].first) + " (" + FormatCount(headings[i].second) + ")";
   }
   out += ".</p>\n";
   constexpr size_t kMaxRows = 50;
@@ -1013,12 +1002,12 @@ std::string OutlierSection(const Context& ctx, const std::vector<ReportOutlier>&
            "</td><td class=\"num\" data-v=\"" + (std::isfinite(ratio) ? FormatFixed(ratio, 6) : "") + "\">" +
            Num(ratio, 2) + "</td><td class=\"num\" data-v=\"" + FormatFixed(o.standardised_residual, 6) + "\">" +
            Num(o.standardised_residual, 2) + "</td><td class=\"num\" data-v=\"" + std::to_string(o.num_quotes) +
-           "\">" + Count(o.num_quotes) + "</td></tr>";
+           "\">" + FormatCount(o.num_quotes) + "</td></tr>";
   }
   out += "</tbody></table></div>\n";
   if (sorted.size() > kMaxRows) {
-    out += "<p class=\"note\">The " + Count(static_cast<int64_t>(kMaxRows)) + " largest of " +
-           Count(static_cast<int64_t>(sorted.size())) + " are shown.</p>\n";
+    out += "<p class=\"note\">The " + FormatCount(static_cast<int64_t>(kMaxRows)) + " largest of " +
+           FormatCount(static_cast<int64_t>(sorted.size())) + " are shown.</p>\n";
   }
   return out + "</section>\n";
 }
@@ -1158,7 +1147,7 @@ std::string MethodSpreadChart(const Context& ctx, const ReportSensitivity& s) {
   }
   out += "</div>\n";
   if (cut) {
-    out += "<p class=\"note\">The " + Count(static_cast<int64_t>(max_rows)) +
+    out += "<p class=\"note\">The " + FormatCount(static_cast<int64_t>(max_rows)) +
            " regions where the methods disagree most are shown, in price-level order.</p>\n";
   }
   return out;
@@ -1422,7 +1411,7 @@ std::string ReportHtml(const ReportInputs& inputs) {
                     "</style></head><body>\n";
   std::string subtitle = "paritas " PARITAS_VERSION;
   if (usable) {
-    subtitle = Count(inputs.survey->num_regions()) + " regions \xC2\xB7 " + Count(inputs.survey->num_headings()) +
+    subtitle = FormatCount(inputs.survey->num_regions()) + " regions \xC2\xB7 " + FormatCount(inputs.survey->num_headings()) +
                " basic headings \xC2\xB7 reference " + HtmlEscape(inputs.result->nodes.front().reference_used) +
                " = 100 \xC2\xB7 " + subtitle;
   }

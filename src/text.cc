@@ -83,6 +83,25 @@ std::string FormatFixed(double value, int decimals) {
   return out;
 }
 
+std::string FormatCount(int64_t value) {
+  const std::string digits = std::to_string(value < 0 ? -value : value);
+  std::string out;
+  for (size_t i = 0; i < digits.size(); ++i) {
+    if (i > 0 && (digits.size() - i) % 3 == 0) out += ',';
+    out += digits[i];
+  }
+  return value < 0 ? "-" + out : out;
+}
+
+std::string QuoteValue(std::string_view text) {
+  std::string shown(text.substr(0, 60));
+  for (char& c : shown) {
+    if (c == '\n' || c == '\r') c = ' ';
+  }
+  if (text.size() > 60) shown += "...";
+  return "'" + shown + "'";
+}
+
 int EditDistance(std::string_view a, std::string_view b) {
   std::vector<int> row(b.size() + 1);
   for (size_t j = 0; j <= b.size(); ++j) row[j] = static_cast<int>(j);

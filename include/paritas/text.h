@@ -4,6 +4,7 @@
 #ifndef PARITAS_TEXT_H_
 #define PARITAS_TEXT_H_
 
+#include <cstdint>
 #include <string>
 #include <string_view>
 #include <vector>
@@ -35,6 +36,13 @@ void AppendFixed(double value, int decimals, std::string* out);
 void AppendShortest(double value, std::string* out);
 // Returns AppendFixed as a string.
 std::string FormatFixed(double value, int decimals);
+
+// Returns a whole number with thousands separated by commas: "12,345".
+std::string FormatCount(int64_t value);
+
+// Returns a value quoted for a message, 'like this': cut after 60 bytes
+// ("...") and with line breaks shown as spaces, so a message stays one line.
+std::string QuoteValue(std::string_view text);
 
 // Levenshtein distance between two strings.
 int EditDistance(std::string_view a, std::string_view b);

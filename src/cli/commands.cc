@@ -11,9 +11,15 @@
 namespace paritas::cli {
 namespace {
 
-// Loads the configuration and applies command-line overrides. Returns false
-// after printing the problem.
-bool LoadConfig(const std::string& path, const Overrides& overrides, RunConfig* config) {
+
+void PrintLoadFailure(const LoadSummary& load) {
+  if (!load.rejected_rows.empty()) std::cerr << DescribeRejectedRows(load);
+  PrintError(load.message);
+}
+
+}  // namespace
+
+bool LoadConfigWithOverrides(const std::string& path, const Overrides& overrides, RunConfig* config) {
   std::string error;
   if (!LoadRunConfig(path, config, &error)) {
     PrintError(error);
@@ -46,18 +52,11 @@ bool LoadConfig(const std::string& path, const Overrides& overrides, RunConfig* 
   return true;
 }
 
-void PrintLoadFailure(const LoadSummary& load) {
-  if (!load.rejected_rows.empty()) std::cerr << DescribeRejectedRows(load);
-  PrintError(load.message);
-}
-
-}  // namespace
-
 void PrintError(const std::string& message) { std::cerr << "paritas: error: " << message << "\n"; }
 
 int RunCheckCommand(const std::string& config_path, const Overrides& overrides) {
   RunConfig config;
-  if (!LoadConfig(config_path, overrides, &config)) return kExitInvalidInput;
+  if (!LoadConfigWithOverrides(config_path, overrides, &config)) return kExitInvalidInput;
   CheckSummary summary;
   const int code = RunCheck(config, &summary);
   if (summary.load.outcome != LoadOutcome::kOk) {
@@ -71,7 +70,7 @@ int RunCheckCommand(const std::string& config_path, const Overrides& overrides) 
 
 int RunComputeCommand(const std::string& config_path, const Overrides& overrides) {
   RunConfig config;
-  if (!LoadConfig(config_path, overrides, &config)) return kExitInvalidInput;
+  if (!LoadConfigWithOverrides(config_path, overrides, &config)) return kExitInvalidInput;
   ComputeJobSummary summary;
   const int code = RunCompute(config, &summary);
   if (code != kExitOk) {

@@ -8,6 +8,10 @@
 #include <vector>
 
 namespace paritas { struct DeflateOptions; }
+namespace paritas {
+struct RunConfig;
+}
+
 namespace paritas::cli {
 
 // Settings given on the command line that override the configuration.
@@ -39,6 +43,10 @@ struct SensitivityArguments {
 };
 int RunSensitivityCommand(const std::string& config_path, const Overrides& overrides,
                           const SensitivityArguments& arguments);
+
+// Loads the configuration and applies the command-line overrides. Returns
+// false after printing the problem.
+bool LoadConfigWithOverrides(const std::string& path, const Overrides& overrides, RunConfig* config);
 
 // Prints "paritas: error: <message>" on stderr.
 void PrintError(const std::string& message);

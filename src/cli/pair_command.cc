@@ -17,21 +17,8 @@ int RunPairCommand(const std::string& config_path, const Overrides& overrides,
                    const std::string& from, const std::string& to, const std::string& node,
                    const std::string& csv_path) {
   RunConfig config;
+  if (!LoadConfigWithOverrides(config_path, overrides, &config)) return kExitInvalidInput;
   std::string error;
-  if (!LoadRunConfig(config_path, &config, &error)) {
-    PrintError(error);
-    return kExitInvalidInput;
-  }
-  if (overrides.invalid_rows && !FromString(*overrides.invalid_rows, &config.invalid_rows)) {
-    PrintError("--invalid-rows '" + *overrides.invalid_rows +
-               "' is not one of: " + JoinNames(InvalidRowPolicyNames()));
-    return kExitInvalidInput;
-  }
-  if (overrides.threads) config.threads = *overrides.threads;
-  if (!config.IsValid(&error)) {
-    PrintError(error);
-    return kExitInvalidInput;
-  }
   LoadOptions load_options;
   load_options.invalid_rows = config.invalid_rows;
   load_options.num_threads = config.threads;

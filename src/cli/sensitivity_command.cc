@@ -132,32 +132,7 @@ class ProgressBar {
 int RunSensitivityCommand(const std::string& config_path, const Overrides& overrides,
                           const SensitivityArguments& arguments) {
   RunConfig config;
-  std::string error;
-  if (!LoadRunConfig(config_path, &config, &error)) {
-    PrintError(error);
-    return kExitInvalidInput;
-  }
-  if (overrides.output) config.output = *overrides.output;
-  if (overrides.reference) config.reference = Reference::FromString(*overrides.reference);
-  if (overrides.elementary && !FromString(*overrides.elementary, &config.elementary)) {
-    PrintError("--elementary '" + *overrides.elementary + "' is not one of: " + JoinNames(ElementaryMethodNames()));
-    return kExitInvalidInput;
-  }
-  if (overrides.aggregation && !FromString(*overrides.aggregation, &config.aggregation)) {
-    PrintError("--aggregation '" + *overrides.aggregation + "' is not one of: " +
-               JoinNames(AggregationMethodNames()));
-    return kExitInvalidInput;
-  }
-  if (overrides.invalid_rows && !FromString(*overrides.invalid_rows, &config.invalid_rows)) {
-    PrintError("--invalid-rows '" + *overrides.invalid_rows + "' is not one of: " +
-               JoinNames(InvalidRowPolicyNames()));
-    return kExitInvalidInput;
-  }
-  if (overrides.threads) config.threads = *overrides.threads;
-  if (!config.IsValid(&error)) {
-    PrintError(error);
-    return kExitInvalidInput;
-  }
+  if (!LoadConfigWithOverrides(config_path, overrides, &config)) return kExitInvalidInput;
   SensitivityOptions options;
   options.num_threads = config.threads;
   if (!ParseArguments(arguments, &options)) return kExitInvalidInput;
