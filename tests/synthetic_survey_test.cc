@@ -74,7 +74,7 @@ int NumLinkedComponents(const SyntheticSurvey& survey, int h) {
 
 TEST(RandomStream, SplitMix64MatchesTheReferenceOutputsForSeedZero) {
   // First outputs of Vigna's splitmix64.c from state 0 (value from memory;
-  // they agree with an independent Python transcription of the algorithm).
+  // they agree with an independent Python implementation of the algorithm).
   uint64_t state = 0;
   EXPECT_EQ(RandomStream::SplitMix64(&state), 0xe220a8397b1dcdafULL);
   EXPECT_EQ(RandomStream::SplitMix64(&state), 0x6e789e6aa1b965f4ULL);
