@@ -37,33 +37,90 @@ void ReserveCells(size_t n, CellPrices* cells) {
 // One counting sort on the dense cell key item x R + region: the quotes'
 // values are scattered straight into key order, so the cells are then read
 // off sequentially. Used when the key range is small enough to count.
-void CellsByDenseKey(const QuoteArrays& quotes, int num_regions, int num_items, CellPrices* cells) {
+// Each thread owns a range of keys and scans all quotes for its own, so every
+// cell still sees its quotes in file order whatever the number of threads.
+void CellsByDenseKey(const QuoteArrays& quotes, int num_regions, int num_items, int num_threads,
+                     CellPrices* cells) {
   const int64_t n = static_cast<int64_t>(quotes.size());
   const int64_t num_keys = static_cast<int64_t>(num_regions) * num_items;
+  const int32_t* quote_region = quotes.region.data();
+  const int32_t* quote_item = quotes.item.data();
+  auto key_of = [&](int64_t q) {
+    return static_cast<int64_t>(quote_item[q]) * num_regions + quote_region[q];
+  };
+  // Scanning all quotes costs a thread more than its share of the random
+  // updates saves on a small survey.
+  const int threads = n < (int64_t{1} << 20) ? 1 : std::max(1, num_threads);
+  // Key ranges split evenly for counting, then by quotes for the rest.
+  std::vector<int64_t> key_begin(threads + 1);
+  for (int t = 0; t <= threads; ++t) key_begin[t] = num_keys * t / threads;
   std::vector<uint32_t> start(num_keys + 1, 0);
-  for (int64_t q = 0; q < n; ++q) ++start[static_cast<int64_t>(quotes.item[q]) * num_regions + quotes.region[q] + 1];
-  size_t num_cells = 0;
-  for (int64_t k = 1; k <= num_keys; ++k) {
-    num_cells += start[k] > 0;
-    start[k] += start[k - 1];
+#pragma omp parallel for schedule(static, 1) num_threads(threads)
+  for (int t = 0; t < threads; ++t) {
+    const int64_t lo = key_begin[t], hi = key_begin[t + 1];
+    uint32_t* count = start.data() + 1;
+    for (int64_t q = 0; q < n; ++q) {
+      const int64_t key = key_of(q);
+      if (key >= lo && key < hi) ++count[key];
+    }
+  }
+  for (int64_t k = 1; k <= num_keys; ++k) start[k] += start[k - 1];
+  if (threads > 1) {
+    for (int t = 1; t < threads; ++t) {
+      const uint32_t target = static_cast<uint32_t>(static_cast<uint64_t>(n) * t / threads);
+      key_begin[t] = std::lower_bound(start.begin(), start.end() - 1, target) - start.begin();
+      key_begin[t] = std::max(key_begin[t], key_begin[t - 1]);
+    }
   }
   const bool flagged = !quotes.representative.empty();
   std::vector<double> value(n);
   std::vector<uint8_t> flag(flagged ? n : 0);
-  {
-    std::vector<uint32_t> next(start.begin(), start.end() - 1);
+  // Cells per key range, to know where each thread writes.
+  std::vector<int64_t> cell_begin(threads + 1, 0);
+#pragma omp parallel for schedule(static, 1) num_threads(threads)
+  for (int t = 0; t < threads; ++t) {
+    const int64_t lo = key_begin[t], hi = key_begin[t + 1];
+    int64_t num_cells = 0;
+    for (int64_t k = lo; k < hi; ++k) num_cells += start[k + 1] > start[k];
+    cell_begin[t + 1] = num_cells;
+    if (lo == hi) continue;
+    // next[key - lo]: where the key's next quote goes.
+    std::vector<uint32_t> next(start.begin() + lo, start.begin() + hi);
     for (int64_t q = 0; q < n; ++q) {
-      const uint32_t at = next[static_cast<int64_t>(quotes.item[q]) * num_regions + quotes.region[q]]++;
+      const int64_t key = key_of(q);
+      if (key < lo || key >= hi) continue;
+      const uint32_t at = next[key - lo]++;
       value[at] = quotes.log_price[q];
       if (flagged) flag[at] = quotes.representative[q];
     }
   }
-  ReserveCells(num_cells, cells);
-  for (int64_t k = 0; k < num_keys; ++k) {
-    if (start[k + 1] == start[k]) continue;
-    CellMoments moments;
-    for (uint32_t at = start[k]; at < start[k + 1]; ++at) moments.Add(value[at], flagged && flag[at] != 0);
-    AppendCell(static_cast<int32_t>(k % num_regions), static_cast<int32_t>(k / num_regions), moments, cells);
+  for (int t = 0; t < threads; ++t) cell_begin[t + 1] += cell_begin[t];
+  const size_t num_cells = static_cast<size_t>(cell_begin[threads]);
+  cells->region.resize(num_cells);
+  cells->item.resize(num_cells);
+  cells->log_price.resize(num_cells);
+  cells->log_sd.resize(num_cells);
+  cells->log_min.resize(num_cells);
+  cells->log_max.resize(num_cells);
+  cells->num_quotes.resize(num_cells);
+  cells->representative.resize(num_cells);
+#pragma omp parallel for schedule(static, 1) num_threads(threads)
+  for (int t = 0; t < threads; ++t) {
+    int64_t c = cell_begin[t];
+    for (int64_t k = key_begin[t]; k < key_begin[t + 1]; ++k) {
+      if (start[k + 1] == start[k]) continue;
+      CellMoments moments;
+      for (uint32_t at = start[k]; at < start[k + 1]; ++at) moments.Add(value[at], flagged && flag[at] != 0);
+      cells->region[c] = static_cast<int32_t>(k % num_regions);
+      cells->item[c] = static_cast<int32_t>(k / num_regions);
+      cells->log_price[c] = moments.mean;
+      cells->log_sd[c] = moments.num_quotes > 1 ? std::sqrt(moments.m2 / (moments.num_quotes - 1)) : 0.0;
+      cells->log_min[c] = moments.min;
+      cells->log_max[c] = moments.max;
+      cells->num_quotes[c] = moments.num_quotes;
+      cells->representative[c] = moments.representative;
+      ++c;
+    }
   }
 }
 
@@ -108,13 +165,14 @@ void CellsBySortedPositions(const QuoteArrays& quotes, int num_regions, int num_
 
 }  // namespace
 
-void CellsFromQuotes(const QuoteArrays& quotes, int num_regions, int num_items, CellPrices* cells) {
+void CellsFromQuotes(const QuoteArrays& quotes, int num_regions, int num_items, int num_threads,
+                     CellPrices* cells) {
   *cells = CellPrices();
   // A dense count array costs 4 bytes per possible cell: worth it up to a
   // few times the number of quotes.
   const int64_t num_keys = static_cast<int64_t>(num_regions) * num_items;
   if (num_keys <= std::max<int64_t>(4 * static_cast<int64_t>(quotes.size()), 1 << 20)) {
-    CellsByDenseKey(quotes, num_regions, num_items, cells);
+    CellsByDenseKey(quotes, num_regions, num_items, num_threads, cells);
   } else {
     CellsBySortedPositions(quotes, num_regions, num_items, cells);
   }

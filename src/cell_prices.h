@@ -45,8 +45,10 @@ struct QuoteArrays {
 // the cell key (item, region) puts the quotes of each cell together in file
 // order, and each cell's moments are accumulated in that order, so cells do
 // not depend on how the file was split for parsing. Items must already be
-// ordered by heading. Linear in the number of quotes.
-void CellsFromQuotes(const QuoteArrays& quotes, int num_regions, int num_items, CellPrices* cells);
+// ordered by heading. Linear in the number of quotes; `num_threads` (>= 1)
+// threads share the work without changing the result.
+void CellsFromQuotes(const QuoteArrays& quotes, int num_regions, int num_items, int num_threads,
+                     CellPrices* cells);
 
 // Fills survey->heading_range from the sorted cells and item_heading.
 void FillHeadingRanges(Survey* survey);

@@ -3,6 +3,8 @@
 
 #include <cstring>
 
+#include "equal_bytes.h"
+
 namespace paritas {
 
 uint64_t CodeTable::Hash(std::string_view code) {
@@ -31,7 +33,7 @@ int CodeTable::Find(std::string_view code) const {
   for (size_t slot = Hash(code) & mask;; slot = (slot + 1) & mask) {
     const uint32_t entry = slots_[slot];
     if (entry == 0) return -1;
-    if (Code(static_cast<int>(entry - 1)) == code) return static_cast<int>(entry - 1);
+    if (internal::EqualBytes(Code(static_cast<int>(entry - 1)), code)) return static_cast<int>(entry - 1);
   }
 }
 
@@ -42,7 +44,7 @@ int CodeTable::Intern(std::string_view code) {
   for (;; slot = (slot + 1) & mask) {
     const uint32_t entry = slots_[slot];
     if (entry == 0) break;
-    if (Code(static_cast<int>(entry - 1)) == code) return static_cast<int>(entry - 1);
+    if (internal::EqualBytes(Code(static_cast<int>(entry - 1)), code)) return static_cast<int>(entry - 1);
   }
   const int index = size();
   arena_.append(code);
