@@ -7,8 +7,13 @@
 
 namespace paritas {
 
-BilateralMatrices NodeBilaterals(const NodeArrays& arrays) {
-  return AllPairsWeighted(arrays.price, arrays.expenditure);
+BilateralMatrices NodeBilaterals(const NodeArrays& arrays, const BilateralOptions& options) {
+  return AllPairsWeighted(arrays.price, arrays.expenditure, options);
+}
+
+BilateralOptions ChosenIndexOnly(AggregationMethod method) {
+  return method == AggregationMethod::kGeksFisher ? BilateralOptions::OnlyFisher()
+                                                  : BilateralOptions::OnlyTornqvist();
 }
 
 AggregateParities AggregateFromBilaterals(const NodeArrays& arrays,

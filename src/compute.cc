@@ -280,6 +280,31 @@ bool ComputeParities(const Survey& survey, const ComputeOptions& options, Parity
   for (int node : options.keep_bilaterals) {
     if (node >= 0 && node < static_cast<int>(keep.size())) keep[node] = true;
   }
+  // Aggregates first, in parallel over nodes: each is one GEMM-sized job and
+  // an aggregate's elementwise passes are serial, so one node per thread
+  // keeps both cores busy where Eigen's own threading would leave the
+  // elementwise work on one. Inside the region Eigen runs single-threaded
+  // (nested parallelism is off), and no entry depends on the thread count.
+  // Nodes whose bilaterals are not kept compute only the chosen index.
+  std::vector<int> aggregates;
+  for (int index = 0; index < static_cast<int>(tree.nodes().size()); ++index) {
+    if (!tree.nodes()[index].is_leaf) aggregates.push_back(index);
+  }
+  // Largest first, so the root does not start last and run alone.
+  std::stable_sort(aggregates.begin(), aggregates.end(), [&](int a, int b) {
+    return tree.nodes()[a].headings.size() > tree.nodes()[b].headings.size();
+  });
+  std::vector<AggregateParities> aggregate_of(tree.nodes().size());
+  const int num_aggregates = static_cast<int>(aggregates.size());
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads) if (num_aggregates > 1)
+  for (int k = 0; k < num_aggregates; ++k) {
+    const int index = aggregates[k];
+    const NodeArrays arrays = NodeInputArrays(survey, *result, index);
+    BilateralMatrices bilaterals =
+        NodeBilaterals(arrays, keep[index] ? BilateralOptions() : ChosenIndexOnly(options.aggregation));
+    aggregate_of[index] = AggregateFromBilaterals(arrays, bilaterals, options.aggregation);
+    if (keep[index]) result->bilaterals[index] = std::move(bilaterals);
+  }
   for (int index = 0; index < static_cast<int>(tree.nodes().size()); ++index) {
     const ClassificationNode& n = tree.nodes()[index];
     NodeResult& node = result->nodes[index];
@@ -304,10 +329,7 @@ bool ComputeParities(const Survey& survey, const ComputeOptions& options, Parity
       for (int r = 0; r < num_regions; ++r) node.num_headings(r) = heading.num_items(r) > 0 ? 1 : 0;
     } else {
       ++summary->num_aggregates;
-      const NodeArrays arrays = NodeInputArrays(survey, *result, index);
-      BilateralMatrices bilaterals = NodeBilaterals(arrays);
-      const AggregateParities aggregate = AggregateFromBilaterals(arrays, bilaterals, options.aggregation);
-      if (keep[index]) result->bilaterals[index] = std::move(bilaterals);
+      const AggregateParities& aggregate = aggregate_of[index];
       node.num_headings = aggregate.num_headings;
       node.identified = aggregate.identified;
       node.groups = aggregate.groups;

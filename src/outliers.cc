@@ -81,8 +81,14 @@ OutlierReport FindOutliers(const Survey& survey, const ParityResult& result,
   const int num_headings = survey.num_headings();
   report.num_flagged_cells.assign(num_headings, 0);
   report.residual_scale.assign(num_headings, std::nan(""));
-  for (int h = 0; h < num_headings; ++h) {
-    if (h >= static_cast<int>(result.headings.size())) break;
+  // Headings are independent: each fills its own lists, joined in heading
+  // order afterwards, so the report is the same for any number of threads.
+  const int num_scanned = std::min(num_headings, static_cast<int>(result.headings.size()));
+  std::vector<std::vector<Outlier>> outliers_of(num_scanned);
+  std::vector<std::vector<Dispersion>> dispersion_of(num_scanned);
+#pragma omp parallel for schedule(dynamic, 1)
+  for (int h = 0; h < num_scanned; ++h) {
+    std::vector<Outlier>& heading_outliers = outliers_of[h];
     const HeadingParities& heading = result.headings[h];
     const HeadingRange& range = survey.heading_range[h];
     if (range.num_cells() == 0 || !heading.identified) continue;
@@ -124,7 +130,7 @@ OutlierReport FindOutliers(const Survey& survey, const ParityResult& result,
         o.predicted = std::exp(fitted(k));
         o.standardised_residual = z;
         o.num_quotes = survey.cells.num_quotes[c];
-        report.outliers.push_back(o);
+        heading_outliers.push_back(o);
         return true;
       };
       if (flag(OutlierKind::kCell, survey.cells.log_price[c])) {
@@ -143,8 +149,12 @@ OutlierReport FindOutliers(const Survey& survey, const ParityResult& result,
       d.heading = h;
       d.region = r;
       d.rms_log_residual = std::sqrt(d.rms_log_residual / d.num_items);
-      report.dispersion.push_back(d);
+      dispersion_of[h].push_back(d);
     }
+  }
+  for (int h = 0; h < num_scanned; ++h) {
+    report.outliers.insert(report.outliers.end(), outliers_of[h].begin(), outliers_of[h].end());
+    report.dispersion.insert(report.dispersion.end(), dispersion_of[h].begin(), dispersion_of[h].end());
   }
   std::stable_sort(report.outliers.begin(), report.outliers.end(), [](const Outlier& a, const Outlier& b) {
     return std::abs(a.standardised_residual) > std::abs(b.standardised_residual);

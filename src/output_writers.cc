@@ -8,6 +8,7 @@
 #include <unistd.h>
 
 #include <algorithm>
+#include <charconv>
 #include <cmath>
 #include <cstdio>
 #include <filesystem>
@@ -21,17 +22,20 @@ namespace {
 
 namespace fs = std::filesystem;
 
-// Formats rows [0, num_rows) with `format_row(row, out)` in parallel blocks.
+// Formats rows [0, num_rows) with `format_row(row, out)` in parallel blocks
+// of `rows_per_block` rows; each block reserves `bytes_per_row_hint` bytes a
+// row up front so that it rarely grows (a hint only: the text is the same).
 template <typename FormatRow>
-std::string FormatRows(int64_t num_rows, const FormatRow& format_row, std::string header) {
-  constexpr int64_t kBlock = 4096;
-  const int64_t num_blocks = (num_rows + kBlock - 1) / kBlock;
+std::string FormatRows(int64_t num_rows, int64_t rows_per_block, size_t bytes_per_row_hint,
+                       const FormatRow& format_row, std::string header) {
+  const int64_t num_blocks = (num_rows + rows_per_block - 1) / rows_per_block;
   std::vector<std::string> blocks(num_blocks);
 #pragma omp parallel for schedule(dynamic, 4) if (num_blocks > 4)
   for (int64_t b = 0; b < num_blocks; ++b) {
     std::string& text = blocks[b];
-    const int64_t end = std::min(num_rows, (b + 1) * kBlock);
-    for (int64_t row = b * kBlock; row < end; ++row) format_row(row, &text);
+    const int64_t end = std::min(num_rows, (b + 1) * rows_per_block);
+    text.reserve(static_cast<size_t>(end - b * rows_per_block) * bytes_per_row_hint);
+    for (int64_t row = b * rows_per_block; row < end; ++row) format_row(row, &text);
   }
   size_t total = header.size();
   for (const auto& block : blocks) total += block.size();
@@ -39,6 +43,8 @@ std::string FormatRows(int64_t num_rows, const FormatRow& format_row, std::strin
   for (const auto& block : blocks) header += block;
   return header;
 }
+
+constexpr int64_t kRowsPerBlock = 4096;
 
 std::vector<int> RegionsWithParity(const NodeResult& node) {
   std::vector<int> regions;
@@ -50,7 +56,19 @@ std::vector<int> RegionsWithParity(const NodeResult& node) {
 
 void AppendCode(std::string_view code, std::string* out) { AppendCsvField(code, out); }
 
-void AppendInt(int64_t value, std::string* out) { *out += std::to_string(value); }
+// As std::to_string, without its temporary string.
+void AppendInt(int64_t value, std::string* out) {
+  char buffer[24];
+  const auto result = std::to_chars(buffer, buffer + sizeof(buffer), value);
+  out->append(buffer, result.ptr - buffer);
+}
+
+// CSV fields of the region codes, escaped once rather than once per row.
+std::vector<std::string> RegionFields(const Survey& survey) {
+  std::vector<std::string> fields(survey.num_regions());
+  for (int r = 0; r < survey.num_regions(); ++r) AppendCode(survey.regions.Code(r), &fields[r]);
+  return fields;
+}
 
 }  // namespace
 
@@ -79,14 +97,15 @@ std::string ParitiesCsv(const Survey& survey, const ParityResult& result) {
   const int num_regions = survey.num_regions();
   const int64_t num_rows = static_cast<int64_t>(result.nodes.size()) * num_regions;
   const auto& tree = survey.classification.nodes();
+  const std::vector<std::string> region_fields = RegionFields(survey);
   return FormatRows(
-      num_rows,
+      num_rows, kRowsPerBlock, 128,
       [&](int64_t row, std::string* out) {
         const NodeResult& node = result.nodes[row / num_regions];
         const int r = static_cast<int>(row % num_regions);
         AppendCode(tree[node.node].code, out);
         *out += node.is_heading ? ",heading," : ",aggregate,";
-        AppendCode(survey.regions.Code(r), out);
+        *out += region_fields[r];
         *out += ',';
         AppendFixed(node.parity(r), kIndexDecimals, out);
         *out += ',';
@@ -121,11 +140,14 @@ std::string ParityMatrixCsv(const Survey& survey, const NodeResult& node) {
     AppendCode(survey.regions.Code(r), &header);
   }
   header += '\n';
+  const std::vector<std::string> region_fields = RegionFields(survey);
+  // Rows are long (one cell per region), so blocks are a few rows each.
+  constexpr int64_t kMatrixRowsPerBlock = 8;
   return FormatRows(
-      static_cast<int64_t>(regions.size()),
+      static_cast<int64_t>(regions.size()), kMatrixRowsPerBlock, 12 * (regions.size() + 1),
       [&](int64_t row, std::string* out) {
         const int a = regions[row];
-        AppendCode(survey.regions.Code(a), out);
+        *out += region_fields[a];
         for (int b : regions) {
           *out += ',';
           AppendFixed(100.0 * node.parity(b) / node.parity(a), kIndexDecimals, out);
@@ -139,14 +161,15 @@ std::string AggregateBilateralCsv(const Survey& survey, const NodeResult& node,
                                   const BilateralMatrices& bilaterals) {
   const std::vector<int> regions = RegionsWithParity(node);
   const int64_t n = static_cast<int64_t>(regions.size());
+  const std::vector<std::string> region_fields = RegionFields(survey);
   return FormatRows(
-      n * n,
+      n * n, kRowsPerBlock, 80,
       [&](int64_t row, std::string* out) {
         const int a = regions[row / n], b = regions[row % n];
         if (a == b) return;
-        AppendCode(survey.regions.Code(a), out);
+        *out += region_fields[a];
         *out += ',';
-        AppendCode(survey.regions.Code(b), out);
+        *out += region_fields[b];
         const double laspeyres = bilaterals.laspeyres(a, b), paasche = bilaterals.paasche(a, b);
         for (double value : {laspeyres, paasche, bilaterals.fisher(a, b), bilaterals.tornqvist(a, b),
                              std::abs(std::log(laspeyres / paasche))}) {
@@ -164,14 +187,15 @@ std::string HeadingBilateralCsv(const Survey& survey, const NodeResult& node,
                                 const Eigen::MatrixXd& jevons, const Eigen::MatrixXi& num_items) {
   const std::vector<int> regions = RegionsWithParity(node);
   const int64_t n = static_cast<int64_t>(regions.size());
+  const std::vector<std::string> region_fields = RegionFields(survey);
   return FormatRows(
-      n * n,
+      n * n, kRowsPerBlock, 40,
       [&](int64_t row, std::string* out) {
         const int a = regions[row / n], b = regions[row % n];
         if (a == b) return;
-        AppendCode(survey.regions.Code(a), out);
+        *out += region_fields[a];
         *out += ',';
-        AppendCode(survey.regions.Code(b), out);
+        *out += region_fields[b];
         *out += ',';
         AppendFixed(jevons(a, b), kIndexDecimals, out);
         *out += ',';

@@ -294,51 +294,6 @@ Eigen::MatrixXd NodeExpenditures(const Survey& survey) {
   return total;
 }
 
-// ln of the node's bilateral Fisher or Törnqvist matrix, the same entries as
-// AllPairsWeighted gives but from only the two or three products the chosen
-// formula needs (the aggregates are a third of a replicate's cost). A pair
-// is matched where sum_h m_ah m_bh e_ah > 0, i.e. where it shares a heading,
-// since expenditure is positive wherever the mask is set.
-Eigen::MatrixXd LogBilaterals(const Eigen::MatrixXd& price, const Eigen::MatrixXd& expenditure,
-                              AggregationMethod method) {
-  const Eigen::Index num_regions = price.rows(), num_headings = price.cols();
-  Eigen::MatrixXd mask = Eigen::MatrixXd::Zero(num_regions, num_headings);
-  Eigen::MatrixXd masked_price = mask, masked_expenditure = mask, masked_quantity = mask, masked_log = mask;
-  for (Eigen::Index h = 0; h < num_headings; ++h) {
-    double sum_log = 0.0, num_present = 0.0;
-    for (Eigen::Index r = 0; r < num_regions; ++r) {
-      const double p = price(r, h), e = expenditure(r, h);
-      if (!(std::isfinite(p) && std::isfinite(e) && p > 0.0 && e > 0.0)) continue;
-      mask(r, h) = 1.0;
-      masked_price(r, h) = p;
-      masked_expenditure(r, h) = e;
-      masked_quantity(r, h) = e / p;
-      masked_log(r, h) = std::log(p);
-      sum_log += masked_log(r, h);
-      num_present += 1.0;
-    }
-    // Centred per heading, as AllPairsWeighted does, to keep digits.
-    if (num_present > 0.0) masked_log.col(h) -= (sum_log / num_present) * mask.col(h);
-  }
-  const Eigen::MatrixXd value_a = masked_expenditure * mask.transpose();
-  Eigen::MatrixXd log_index;
-  if (method == AggregationMethod::kGeksFisher) {
-    const Eigen::MatrixXd log_value = (masked_quantity * masked_price.transpose()).array().log().matrix();
-    const Eigen::MatrixXd log_laspeyres = log_value - value_a.array().log().matrix();
-    log_index = 0.5 * (log_laspeyres - log_laspeyres.transpose());
-  } else {
-    const Eigen::MatrixXd weighted_log_b = masked_expenditure * masked_log.transpose();
-    const Eigen::MatrixXd weighted_log_a = masked_expenditure.cwiseProduct(masked_log) * mask.transpose();
-    const Eigen::MatrixXd half_log = (weighted_log_b - weighted_log_a).cwiseQuotient(value_a);
-    log_index = 0.5 * (half_log - half_log.transpose());
-  }
-  log_index = (value_a.array() > 0.0).select(log_index, kNaN);
-  for (Eigen::Index a = 0; a < num_regions; ++a) {
-    if (value_a(a, a) > 0.0) log_index(a, a) = 0.0;
-  }
-  return log_index;
-}
-
 // Runs the node stage from heading ln parities (regions x headings, NaN
 // where none) into rows of `node_log_parity`. Only nodes with
 // `recompute[n]` set are touched (all when `recompute` is empty). Returns
@@ -365,8 +320,12 @@ int ComputeNodes(const Chain& chain, const Eigen::MatrixXd& node_expenditure,
         arrays.price.col(k) = heading_log_parity.col(h).array().exp();
         arrays.expenditure.col(k) = survey.expenditure.col(h);
       }
-      const GeksResult geks =
-          Geks(LogBilaterals(arrays.price, arrays.expenditure, chain.options.aggregation));
+      // Only the chosen index, with the same entries the compute stage gives.
+      const AggregationMethod method = chain.options.aggregation;
+      const BilateralMatrices bilaterals = NodeBilaterals(arrays, ChosenIndexOnly(method));
+      const Eigen::MatrixXd& chosen =
+          method == AggregationMethod::kGeksFisher ? bilaterals.fisher : bilaterals.tornqvist;
+      const GeksResult geks = Geks(chosen.array().log().matrix());
       log_parity = geks.log_parity;
       if (!geks.identified && !geks.groups.empty()) {
         KeepLargestGroup(geks.groups, &log_parity);

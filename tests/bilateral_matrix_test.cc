@@ -256,6 +256,26 @@ TEST(AllPairsWeighted, NoRegionsGiveEmptyMatrices) {
   EXPECT_EQ(m.num_matched.size(), 0);
 }
 
+TEST(AllPairsWeighted, OnlyTheChosenIndexIsFilledWithTheSameBits) {
+  // 70 regions span more than one elementwise tile; a subset must equal the
+  // full computation exactly, since compute and sensitivity rely on it.
+  Eigen::MatrixXd price, expenditure;
+  MakeIncompleteData(70, 9, 99, &price, &expenditure);
+  const BilateralMatrices all = AllPairsWeighted(price, expenditure);
+  const BilateralMatrices fisher = AllPairsWeighted(price, expenditure, BilateralOptions::OnlyFisher());
+  const BilateralMatrices tornqvist =
+      AllPairsWeighted(price, expenditure, BilateralOptions::OnlyTornqvist());
+  EXPECT_EQ(fisher.laspeyres.size() + fisher.tornqvist.size() + fisher.num_matched.size(), 0);
+  EXPECT_EQ(tornqvist.fisher.size() + tornqvist.paasche.size(), 0);
+  auto same_bits = [](const Eigen::MatrixXd& x, const Eigen::MatrixXd& y) {
+    return x.rows() == y.rows() && x.cols() == y.cols() &&
+           ((x.array() == y.array()) || (x.array().isNaN() && y.array().isNaN())).all();
+  };
+  EXPECT_TRUE(same_bits(fisher.fisher, all.fisher));
+  EXPECT_TRUE(same_bits(tornqvist.tornqvist, all.tornqvist));
+  EXPECT_GT(all.fisher.array().isNaN().count(), 0);  // empty pairs are present
+}
+
 TEST(AllPairsJevons, EveryEntryEqualsScalarJevonsOverMatchedItems) {
   // Absent entries carry junk log prices (huge, NaN) that must be ignored.
   const int num_regions = 13;

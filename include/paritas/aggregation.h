@@ -35,10 +35,18 @@ struct AggregateParities {
   double rms_log_residual = 0.0;
 };
 
-// Computes the bilateral matrices of a node.
-BilateralMatrices NodeBilaterals(const NodeArrays& arrays);
+// Computes the bilateral matrices of a node: all of them by default, or
+// those `options` asks for (AggregateFromBilaterals needs only the one of
+// ChosenIndexOnly).
+BilateralMatrices NodeBilaterals(const NodeArrays& arrays,
+                                 const BilateralOptions& options = BilateralOptions());
 
-// Computes GEKS parities of a node from its bilateral matrices.
+// Returns the options that fill only the matrix `method` runs GEKS on
+// (fisher for kGeksFisher, tornqvist for kGeksTornqvist).
+BilateralOptions ChosenIndexOnly(AggregationMethod method);
+
+// Computes GEKS parities of a node from its bilateral matrices; only the
+// matrix of `method` is read, so it alone need be filled.
 AggregateParities AggregateFromBilaterals(const NodeArrays& arrays,
                                           const BilateralMatrices& bilaterals,
                                           AggregationMethod method);

@@ -8,6 +8,8 @@
 #ifndef PARITAS_BILATERAL_MATRIX_H_
 #define PARITAS_BILATERAL_MATRIX_H_
 
+#include <string>
+
 #include <Eigen/Core>
 
 namespace paritas {
@@ -33,8 +35,30 @@ struct BilateralMatrices {
   Eigen::MatrixXi num_matched;
 };
 
+// Which matrices AllPairsWeighted fills; the others are left empty (0 x 0).
+// A node whose bilaterals are not written needs only the index its GEKS
+// runs on, which saves a product or two and most elementwise passes.
+struct BilateralOptions {
+  // Fills laspeyres and paasche. Default true.
+  bool laspeyres_paasche = true;
+  // Fills fisher. Default true.
+  bool fisher = true;
+  // Fills tornqvist. Default true.
+  bool tornqvist = true;
+  // Fills num_matched (costs one more product). Default true.
+  bool num_matched = true;
+
+  // Returns the options that fill only `fisher` (chosen = Fisher) or only
+  // `tornqvist`.
+  static BilateralOptions OnlyFisher();
+  static BilateralOptions OnlyTornqvist();
+  // Returns true; every combination is allowed (all false computes nothing).
+  bool IsValid(std::string* error) const;
+};
+
 // Computes Laspeyres, Paasche, Fisher and Törnqvist between every pair of
-// regions. `price` and `expenditure` are regions x headings, of equal shape
+// regions (those `options` asks for; every matrix by default). A filled
+// matrix has the same entries whichever others are asked for. `price` and `expenditure` are regions x headings, of equal shape
 // (asserted). A heading counts for a pair when both regions have a finite
 // price > 0 and a finite expenditure > 0 there; entries that fail this are
 // ignored whatever their value (NaN included). Quantities are
@@ -42,7 +66,8 @@ struct BilateralMatrices {
 // index_formulas.h over the pair's matched headings. Cost O(R² H) in a few
 // matrix products for R regions and H headings.
 BilateralMatrices AllPairsWeighted(const Eigen::MatrixXd& price,
-                                   const Eigen::MatrixXd& expenditure);
+                                   const Eigen::MatrixXd& expenditure,
+                                   const BilateralOptions& options = BilateralOptions());
 
 // Computes the Jevons index between every pair of regions: entry (a, b) is
 // exp(mean over matched items of ln p_b - ln p_a), exactly 1 on the diagonal
