@@ -215,6 +215,21 @@ bool CsvReader::Next(CsvRecord* record) {
   return true;
 }
 
+size_t LastRecordEnd(std::string_view data) {
+  if (std::memchr(data.data(), '"', data.size()) == nullptr) {
+    const size_t newline = data.rfind('\n');
+    return newline == std::string_view::npos ? 0 : newline + 1;
+  }
+  bool quoted = false;
+  size_t end = 0;
+  for (size_t i = 0; i < data.size(); ++i) {
+    const char c = data[i];
+    if (c == '"') quoted = !quoted;
+    if (c == '\n' && !quoted) end = i + 1;
+  }
+  return end;
+}
+
 std::vector<size_t> SplitAtRecordBoundaries(std::string_view data, int num_chunks,
                                             int64_t first_line, std::vector<int64_t>* first_lines) {
   num_chunks = std::max(num_chunks, 1);

@@ -39,46 +39,9 @@ std::string ErrnoText(int error_number) {
   return std::error_code(error_number, std::generic_category()).message();
 }
 
-std::string RowMessage(const std::string& path, int64_t line, int column, const std::string& what) {
-  std::string out = path + ":" + std::to_string(line);
-  if (column > 0) out += ":" + std::to_string(column);
-  return out + ": " + what;
-}
-
-std::string NumberProblem(NumberStatus status, const std::string& what, std::string_view text) {
-  switch (status) {
-    case NumberStatus::kEmpty:
-      return what + " is empty";
-    case NumberStatus::kInvalid:
-      return what + " " + QuoteValue(text) + " is not a number";
-    case NumberStatus::kNonFinite:
-      return what + " " + QuoteValue(text) + " is not a finite number";
-    case NumberStatus::kOk:
-      break;
-  }
-  return "";
-}
-
 std::string DidYouMean(std::string_view word, const std::vector<std::string>& candidates) {
   const std::string nearest = NearestName(word, candidates);
   return nearest.empty() ? "" : "; did you mean '" + nearest + "'?";
-}
-
-// The end of the last complete record in `data` (which starts at a record
-// boundary): the position after the last LF outside quotes, 0 when none.
-size_t LastRecordEnd(std::string_view data) {
-  if (std::memchr(data.data(), '"', data.size()) == nullptr) {
-    const size_t newline = data.rfind('\n');
-    return newline == std::string_view::npos ? 0 : newline + 1;
-  }
-  bool quoted = false;
-  size_t end = 0;
-  for (size_t i = 0; i < data.size(); ++i) {
-    const char c = data[i];
-    if (c == '"') quoted = !quoted;
-    if (c == '\n' && !quoted) end = i + 1;
-  }
-  return end;
 }
 
 // Parities (and optional intervals) by node x region, reference = 100.
@@ -125,7 +88,7 @@ bool ReadTable(const std::string& path, const std::vector<std::string>& wanted,
   }
   while (reader.Next(&record)) {
     if (record.fields.size() != num_fields) {
-      *error = RowMessage(path, record.line, 0,
+      *error = LocatedMessage(path, record.line, 0,
                           "row has " + std::to_string(record.fields.size()) +
                               " fields, the header has " + std::to_string(num_fields));
       return false;
@@ -140,7 +103,7 @@ bool ReadTable(const std::string& path, const std::vector<std::string>& wanted,
     for (std::string_view field : row) {
       if (!field.empty() && (field.data() < contents->data() ||
                              field.data() >= contents->data() + contents->size())) {
-        *error = RowMessage(path, record.line, 0, "unexpected quote character in a code or number");
+        *error = LocatedMessage(path, record.line, 0, "unexpected quote character in a code or number");
         return false;
       }
     }
@@ -162,12 +125,12 @@ bool ParseParity(const std::string& path, int64_t line, int column, const char* 
   double parsed = 0.0;
   const NumberStatus status = ParseNumber(text, &parsed);
   if (status != NumberStatus::kOk) {
-    *error = RowMessage(path, line, column, NumberProblem(status, what, text));
+    *error = LocatedMessage(path, line, column, NumberProblem(status, what, text));
     return false;
   }
   if (!(parsed > 0)) {
     *error =
-        RowMessage(path, line, column, std::string(what) + " " + QuoteValue(text) + " is not positive");
+        LocatedMessage(path, line, column, std::string(what) + " " + QuoteValue(text) + " is not positive");
     return false;
   }
   *value = parsed;
@@ -468,7 +431,7 @@ class Deflater {
     RejectedRow row;
     row.file = options_.input_path;
     row.line = record.line;
-    row.reason = RowMessage(options_.input_path, record.line, column, what);
+    row.reason = LocatedMessage(options_.input_path, record.line, column, what);
     if (keep_all_) {
       AppendCsvField(row.file, &rejected_text_);
       rejected_text_ += ',';

@@ -38,16 +38,6 @@ double SecondsSince(std::chrono::steady_clock::time_point start) {
   return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
 }
 
-std::string Quoted(std::string_view text) {
-  // Long or multi-line values are cut so that a message stays one line.
-  std::string shown(text.substr(0, 60));
-  for (char& c : shown) {
-    if (c == '\n' || c == '\r') c = ' ';
-  }
-  if (text.size() > 60) shown += "...";
-  return "'" + shown + "'";
-}
-
 // Collects rejected rows under the chosen policy.
 class Rejections {
  public:
@@ -73,12 +63,6 @@ class Rejections {
   const LoadOptions& options_;
   LoadSummary* summary_;
 };
-
-std::string RowMessage(const std::string& path, int64_t line, int column, const std::string& what) {
-  std::string out = path + ":" + std::to_string(line);
-  if (column > 0) out += ":" + std::to_string(column);
-  return out + ": " + what;
-}
 
 // Column positions of one table, found by name.
 struct Columns {
@@ -147,22 +131,8 @@ bool ReadHeader(CsvReader* reader, const std::string& path, const std::vector<st
 std::string CheckCode(std::string_view code, const char* what) {
   if (code.empty()) return std::string(what) + " is empty";
   if (code.size() > kMaxCodeLength) {
-    return std::string(what) + " " + Quoted(code) + " is longer than " +
+    return std::string(what) + " " + QuoteValue(code) + " is longer than " +
            std::to_string(kMaxCodeLength) + " characters";
-  }
-  return "";
-}
-
-std::string NumberProblem(NumberStatus status, const char* what, std::string_view text) {
-  switch (status) {
-    case NumberStatus::kEmpty:
-      return std::string(what) + " is empty";
-    case NumberStatus::kInvalid:
-      return std::string(what) + " " + Quoted(text) + " is not a number";
-    case NumberStatus::kNonFinite:
-      return std::string(what) + " " + Quoted(text) + " is not a finite number";
-    case NumberStatus::kOk:
-      break;
   }
   return "";
 }
@@ -223,7 +193,7 @@ bool ReadRegions(const std::string& path, LoadState* state, Rejections* rejectio
   while (reader.Next(&record)) {
     ++file->rows_read;
     auto reject = [&](int column, const std::string& what) {
-      rejections->Add({path, record.line, RowMessage(path, record.line, column, what),
+      rejections->Add({path, record.line, LocatedMessage(path, record.line, column, what),
                        std::string(record.raw)},
                       file);
     };
@@ -246,13 +216,13 @@ bool ReadRegions(const std::string& path, LoadState* state, Rejections* rejectio
       }
       if (status == NumberStatus::kEmpty) population = std::nan("");
       if (population < 0) {
-        reject(kPopulation + 1, "population " + Quoted(value) + " is negative");
+        reject(kPopulation + 1, "population " + QuoteValue(value) + " is negative");
         continue;
       }
     }
     auto [it, inserted] = first_line.emplace(std::string(code), record.line);
     if (!inserted) {
-      reject(kRegion + 1, "region " + Quoted(code) + " is listed twice (first at line " +
+      reject(kRegion + 1, "region " + QuoteValue(code) + " is listed twice (first at line " +
                               std::to_string(it->second) + ")");
       continue;
     }
@@ -287,7 +257,7 @@ bool ReadItems(const std::string& path, LoadState* state, Rejections* rejections
   while (reader.Next(&record)) {
     ++file->rows_read;
     auto reject = [&](int column, const std::string& what) {
-      rejections->Add({path, record.line, RowMessage(path, record.line, column, what),
+      rejections->Add({path, record.line, LocatedMessage(path, record.line, column, what),
                        std::string(record.raw)},
                       file);
     };
@@ -308,7 +278,7 @@ bool ReadItems(const std::string& path, LoadState* state, Rejections* rejections
     int heading_index = state->headings.Find(heading);
     if (heading_index < 0) {
       if (state->headings_fixed) {
-        reject(kHeading + 1, "heading " + Quoted(heading) + " is not in the classification");
+        reject(kHeading + 1, "heading " + QuoteValue(heading) + " is not in the classification");
         continue;
       }
       heading_index = state->headings.Intern(heading);
@@ -317,11 +287,11 @@ bool ReadItems(const std::string& path, LoadState* state, Rejections* rejections
     if (existing >= 0) {
       const std::string& origin = state->item_origin[existing];
       if (state->item_heading[existing] == heading_index) {
-        reject(kItem + 1, "item " + Quoted(item) + " is listed twice (first at " + origin + ")");
+        reject(kItem + 1, "item " + QuoteValue(item) + " is listed twice (first at " + origin + ")");
       } else {
-        reject(kHeading + 1, "item " + Quoted(item) + " is filed under heading " + Quoted(heading) +
+        reject(kHeading + 1, "item " + QuoteValue(item) + " is filed under heading " + QuoteValue(heading) +
                                  " but under " +
-                                 Quoted(state->headings.Code(state->item_heading[existing])) +
+                                 QuoteValue(state->headings.Code(state->item_heading[existing])) +
                                  " at " + origin);
       }
       continue;
@@ -423,7 +393,7 @@ void ParsePriceChunk(std::string_view data, int64_t first_line, const PriceColum
     ++out->rows_read;
     auto reject = [&](int column, const std::string& what) {
       if (keep_all_rejected || out->rejected.size() < max_rejected) {
-        out->rejected.push_back({path, record.line, RowMessage(path, record.line, column, what),
+        out->rejected.push_back({path, record.line, LocatedMessage(path, record.line, column, what),
                                  std::string(record.raw)});
       } else {
         ++out->num_rejected_not_kept;
@@ -443,7 +413,7 @@ void ParsePriceChunk(std::string_view data, int64_t first_line, const PriceColum
         continue;
       }
       if (state.regions_fixed && state.regions.Find(code) < 0) {
-        reject(columns.region + 1, "region " + Quoted(code) + " is not in " +
+        reject(columns.region + 1, "region " + QuoteValue(code) + " is not in " +
                                        state.config->survey.regions);
         continue;
       }
@@ -491,8 +461,8 @@ void ParsePriceChunk(std::string_view data, int64_t first_line, const PriceColum
       if (info.global >= 0) {
         const std::string_view known = state.headings.Code(state.item_heading[info.global]);
         if (!heading.empty() && heading != known) {
-          reject(columns.heading + 1, "item " + Quoted(item_code) + " is filed under heading " +
-                                          Quoted(heading) + " but under " + Quoted(known) +
+          reject(columns.heading + 1, "item " + QuoteValue(item_code) + " is filed under heading " +
+                                          QuoteValue(heading) + " but under " + QuoteValue(known) +
                                           " at " + state.item_origin[info.global]);
           continue;
         }
@@ -500,9 +470,9 @@ void ParsePriceChunk(std::string_view data, int64_t first_line, const PriceColum
         if (info.local_heading < 0) {
           std::string what;
           if (!has_heading) {
-            what = "item " + Quoted(item_code) + " is not in " + state.config->survey.items;
+            what = "item " + QuoteValue(item_code) + " is not in " + state.config->survey.items;
           } else if (state.has_catalog) {
-            what = "heading is empty and item " + Quoted(item_code) + " is not in " +
+            what = "heading is empty and item " + QuoteValue(item_code) + " is not in " +
                    state.config->survey.items;
           } else {
             what = "heading is empty";
@@ -517,15 +487,15 @@ void ParsePriceChunk(std::string_view data, int64_t first_line, const PriceColum
           continue;
         }
         if (state.headings_fixed && state.headings.Find(heading) < 0) {
-          reject(columns.heading + 1, "heading " + Quoted(heading) + " is not in the classification");
+          reject(columns.heading + 1, "heading " + QuoteValue(heading) + " is not in the classification");
           continue;
         }
         if (info.local_heading < 0) {
           new_heading = out->headings.Intern(heading);
         } else if (out->headings.Code(info.local_heading) != heading) {
-          reject(columns.heading + 1, "item " + Quoted(item_code) + " is filed under heading " +
-                                          Quoted(heading) + " but under " +
-                                          Quoted(out->headings.Code(info.local_heading)) +
+          reject(columns.heading + 1, "item " + QuoteValue(item_code) + " is filed under heading " +
+                                          QuoteValue(heading) + " but under " +
+                                          QuoteValue(out->headings.Code(info.local_heading)) +
                                           " at line " + std::to_string(info.line));
           continue;
         }
@@ -540,14 +510,14 @@ void ParsePriceChunk(std::string_view data, int64_t first_line, const PriceColum
       continue;
     }
     if (!(price > 0)) {
-      reject(columns.price + 1, "price " + Quoted(price_text) + " is not a positive number");
+      reject(columns.price + 1, "price " + QuoteValue(price_text) + " is not a positive number");
       continue;
     }
     bool representative = false;
     if (has_flag) {
       const std::string_view flag = Trim(fields[columns.representative]);
       if (!flag.empty() && !ParseFlag(flag, &representative)) {
-        reject(columns.representative + 1, "representative " + Quoted(flag) +
+        reject(columns.representative + 1, "representative " + QuoteValue(flag) +
                                                " is not one of 1/0, yes/no, true/false");
         continue;
       }
@@ -580,23 +550,6 @@ int64_t CountNewlines(std::string_view data) {
     left -= n;
   }
   return total;
-}
-
-// Finds the end of the last complete record in `data` (which starts at a
-// record boundary): the position after the last newline outside quotes.
-size_t LastRecordEnd(std::string_view data) {
-  if (std::memchr(data.data(), '"', data.size()) == nullptr) {
-    const size_t newline = data.rfind('\n');
-    return newline == std::string_view::npos ? 0 : newline + 1;
-  }
-  bool quoted = false;
-  size_t end = 0;
-  for (size_t i = 0; i < data.size(); ++i) {
-    const char c = data[i];
-    if (c == '"') quoted = !quoted;
-    if (c == '\n' && !quoted) end = i + 1;
-  }
-  return end;
 }
 
 // Chunk start offsets at record boundaries, about kChunkBytes apart.
@@ -902,7 +855,7 @@ bool ReadExpenditure(const std::string& path, LoadState* state, Rejections* reje
   while (reader.Next(&record)) {
     ++file->rows_read;
     auto reject = [&](int column, const std::string& what) {
-      rejections->Add({path, record.line, RowMessage(path, record.line, column, what),
+      rejections->Add({path, record.line, LocatedMessage(path, record.line, column, what),
                        std::string(record.raw)},
                       file);
     };
@@ -918,7 +871,7 @@ bool ReadExpenditure(const std::string& path, LoadState* state, Rejections* reje
       continue;
     }
     if (state->regions_fixed && state->regions.Find(region) < 0) {
-      reject(kRegion + 1, "region " + Quoted(region) + " is not in " + state->config->survey.regions);
+      reject(kRegion + 1, "region " + QuoteValue(region) + " is not in " + state->config->survey.regions);
       continue;
     }
     if (std::string problem = CheckCode(heading, "heading"); !problem.empty()) {
@@ -926,7 +879,7 @@ bool ReadExpenditure(const std::string& path, LoadState* state, Rejections* reje
       continue;
     }
     if (state->headings_fixed && state->headings.Find(heading) < 0) {
-      reject(kHeading + 1, "heading " + Quoted(heading) + " is not in the classification");
+      reject(kHeading + 1, "heading " + QuoteValue(heading) + " is not in the classification");
       continue;
     }
     double value = 0.0;
@@ -936,7 +889,7 @@ bool ReadExpenditure(const std::string& path, LoadState* state, Rejections* reje
       continue;
     }
     if (value < 0) {
-      reject(kValue + 1, "expenditure " + Quoted(value_text) + " is negative");
+      reject(kValue + 1, "expenditure " + QuoteValue(value_text) + " is negative");
       continue;
     }
     const int region_index = state->regions.Intern(region);
@@ -944,7 +897,7 @@ bool ReadExpenditure(const std::string& path, LoadState* state, Rejections* reje
     const uint64_t key = (static_cast<uint64_t>(region_index) << 32) | static_cast<uint32_t>(heading_index);
     auto [it, inserted] = first_line.emplace(key, record.line);
     if (!inserted) {
-      reject(0, "duplicate row for region " + Quoted(region) + " and heading " + Quoted(heading) +
+      reject(0, "duplicate row for region " + QuoteValue(region) + " and heading " + QuoteValue(heading) +
                     " (first at line " + std::to_string(it->second) + ")");
       continue;
     }

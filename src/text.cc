@@ -102,6 +102,26 @@ std::string QuoteValue(std::string_view text) {
   return "'" + shown + "'";
 }
 
+std::string LocatedMessage(const std::string& path, int64_t line, int column, const std::string& what) {
+  std::string out = path + ":" + std::to_string(line);
+  if (column > 0) out += ":" + std::to_string(column);
+  return out + ": " + what;
+}
+
+std::string NumberProblem(NumberStatus status, std::string_view what, std::string_view text) {
+  switch (status) {
+    case NumberStatus::kEmpty:
+      return std::string(what) + " is empty";
+    case NumberStatus::kInvalid:
+      return std::string(what) + " " + QuoteValue(text) + " is not a number";
+    case NumberStatus::kNonFinite:
+      return std::string(what) + " " + QuoteValue(text) + " is not a finite number";
+    case NumberStatus::kOk:
+      break;
+  }
+  return "";
+}
+
 int EditDistance(std::string_view a, std::string_view b) {
   std::vector<int> row(b.size() + 1);
   for (size_t j = 0; j <= b.size(); ++j) row[j] = static_cast<int>(j);

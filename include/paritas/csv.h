@@ -91,6 +91,11 @@ class CsvReader {
 std::vector<size_t> SplitAtRecordBoundaries(std::string_view data, int num_chunks,
                                             int64_t first_line, std::vector<int64_t>* first_lines);
 
+// Returns the end of the last complete record in `data`, which must start at
+// a record boundary: the position after the last LF outside quotes, 0 when
+// there is none. For reading a file block by block.
+size_t LastRecordEnd(std::string_view data);
+
 // Maps header names to column indices. Names (and the names looked up) are
 // matched exactly, case included, after trimming ASCII spaces at both ends;
 // the first occurrence of a duplicated name is kept and the duplicate

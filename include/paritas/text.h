@@ -44,6 +44,14 @@ std::string FormatCount(int64_t value);
 // ("...") and with line breaks shown as spaces, so a message stays one line.
 std::string QuoteValue(std::string_view text);
 
+// Returns "path:line:column: what" (": what" after the line when column is 0),
+// the form of every message about a data row.
+std::string LocatedMessage(const std::string& path, int64_t line, int column, const std::string& what);
+
+// Describes why `text` is not a usable number, e.g. "price 'abc' is not a
+// number"; empty for kOk.
+std::string NumberProblem(NumberStatus status, std::string_view what, std::string_view text);
+
 // Levenshtein distance between two strings.
 int EditDistance(std::string_view a, std::string_view b);
 
