@@ -14,6 +14,7 @@
 #include <cstdio>
 #include <cstring>
 #include <filesystem>
+#include <functional>
 #include <map>
 #include <numeric>
 #include <unordered_map>
@@ -21,9 +22,9 @@
 
 #include "cell_prices.h"
 #include "equal_bytes.h"
-#include "sha256.h"
 #include "paritas/csv.h"
 #include "paritas/text.h"
+#include "sha256.h"
 
 namespace paritas {
 namespace {
@@ -84,7 +85,8 @@ bool ReadHeader(CsvReader* reader, const std::string& path, const std::vector<st
       for (size_t i = 0; i < wanted.size(); ++i) {
         if (required[i]) names.push_back(wanted[i]);
       }
-      *error = path + ": file is empty (expected a header row with columns " + JoinNames(names) + ")";
+      *error =
+          path + ": file is empty (expected a header row with columns " + JoinNames(names) + ")";
     }
     return false;
   }
@@ -108,8 +110,8 @@ bool ReadHeader(CsvReader* reader, const std::string& path, const std::vector<st
       if (all.size() <= kMaxListed) {
         found = JoinNames(all);
       } else {
-        found = JoinNames(std::vector<std::string>(all.begin(), all.begin() + kMaxListed)) + ", ... (" +
-                std::to_string(all.size()) + " columns)";
+        found = JoinNames(std::vector<std::string>(all.begin(), all.begin() + kMaxListed)) +
+                ", ... (" + std::to_string(all.size()) + " columns)";
       }
       *error = path + ":" + std::to_string(header.line) + ": missing column '" + wanted[i] +
                "' (found: " + found + ")";
@@ -120,7 +122,8 @@ bool ReadHeader(CsvReader* reader, const std::string& path, const std::vector<st
   std::unordered_set<std::string_view> ignored;
   ignored.reserve(names.names().size());
   for (const std::string& name : names.names()) {
-    if (std::find(wanted.begin(), wanted.end(), name) == wanted.end() && ignored.insert(name).second) {
+    if (std::find(wanted.begin(), wanted.end(), name) == wanted.end() &&
+        ignored.insert(name).second) {
       file->ignored_columns.push_back(name);
     }
   }
@@ -172,114 +175,111 @@ struct LoadState {
   std::vector<Spending> spending;
 };
 
-// ---------------------------------------------------------------------------
-// regions.csv and items.csv
+// What became of a data row: used (empty reason), or rejected for `reason`
+// at `column` (1-based; 0 = the row as a whole).
+struct RowVerdict {
+  int column = 0;
+  std::string reason;
+};
 
-bool ReadRegions(const std::string& path, LoadState* state, Rejections* rejections,
-                 InputFileSummary* file, std::string* error) {
+// Reads a small table whole: checks its header, then hands every data row
+// with the header's number of fields to `handle`, counting rows read, used
+// and rejected.
+bool ReadSmallTable(const std::string& path, const std::vector<std::string>& wanted,
+                    const std::vector<bool>& required, Rejections* rejections,
+                    InputFileSummary* file,
+                    const std::function<RowVerdict(const CsvRecord&, const Columns&)>& handle,
+                    std::string* error) {
   std::string text;
   if (!ReadWholeFile(path, &text, error)) return false;
   file->size_bytes = static_cast<int64_t>(text.size());
   file->sha256 = internal::Sha256Hex(text);
   CsvReader reader(text);
   Columns columns;
-  if (!ReadHeader(&reader, path, {"region", "name", "population"}, {true, false, false}, &columns,
-                  file, error)) {
-    return false;
-  }
-  const int kRegion = columns.index[0], kName = columns.index[1], kPopulation = columns.index[2];
-  std::unordered_map<std::string, int64_t> first_line;
+  if (!ReadHeader(&reader, path, wanted, required, &columns, file, error)) return false;
   CsvRecord record;
   while (reader.Next(&record)) {
     ++file->rows_read;
-    auto reject = [&](int column, const std::string& what) {
-      rejections->Add({path, record.line, LocatedMessage(path, record.line, column, what),
-                       std::string(record.raw)},
-                      file);
-    };
+    RowVerdict verdict;
     if (static_cast<int>(record.fields.size()) != columns.num_fields) {
-      reject(0, FieldCountProblem(record.fields.size(), columns.num_fields));
+      verdict.reason = FieldCountProblem(record.fields.size(), columns.num_fields);
+    } else {
+      verdict = handle(record, columns);
+    }
+    if (verdict.reason.empty()) {
+      ++file->rows_used;
       continue;
     }
+    rejections->Add(
+        {path, record.line, LocatedMessage(path, record.line, verdict.column, verdict.reason),
+         std::string(record.raw)},
+        file);
+  }
+  if (!reader.error().empty()) {
+    *error = path + ":" + reader.error();
+    return false;
+  }
+  return true;
+}
+
+// ---------------------------------------------------------------------------
+// regions.csv and items.csv
+
+bool ReadRegions(const std::string& path, LoadState* state, Rejections* rejections,
+                 InputFileSummary* file, std::string* error) {
+  std::unordered_map<std::string, int64_t> first_line;
+  auto handle = [&](const CsvRecord& record, const Columns& columns) -> RowVerdict {
+    const int kRegion = columns.index[0], kName = columns.index[1], kPopulation = columns.index[2];
     const std::string_view code = Trim(record.fields[kRegion]);
     if (std::string problem = CheckCode(code, "region"); !problem.empty()) {
-      reject(kRegion + 1, problem);
-      continue;
+      return {kRegion + 1, problem};
     }
     double population = std::nan("");
     if (kPopulation >= 0) {
       const std::string_view value = record.fields[kPopulation];
       const NumberStatus status = ParseNumber(value, &population);
       if (status != NumberStatus::kOk && status != NumberStatus::kEmpty) {
-        reject(kPopulation + 1, NumberProblem(status, "population", value));
-        continue;
+        return {kPopulation + 1, NumberProblem(status, "population", value)};
       }
       if (status == NumberStatus::kEmpty) population = std::nan("");
       if (population < 0) {
-        reject(kPopulation + 1, "population " + QuoteValue(value) + " is negative");
-        continue;
+        return {kPopulation + 1, "population " + QuoteValue(value) + " is negative"};
       }
     }
     auto [it, inserted] = first_line.emplace(std::string(code), record.line);
     if (!inserted) {
-      reject(kRegion + 1, "region " + QuoteValue(code) + " is listed twice (first at line " +
-                              std::to_string(it->second) + ")");
-      continue;
+      return {kRegion + 1, "region " + QuoteValue(code) + " is listed twice (first at line " +
+                               std::to_string(it->second) + ")"};
     }
     state->regions.Intern(code);
     state->region_name.emplace_back(kName >= 0 ? Trim(record.fields[kName]) : std::string_view());
     state->region_population.push_back(population);
-    ++file->rows_used;
-  }
-  if (!reader.error().empty()) {
-    *error = path + ":" + reader.error();
+    return {};
+  };
+  if (!ReadSmallTable(path, {"region", "name", "population"}, {true, false, false}, rejections,
+                      file, handle, error))
     return false;
-  }
   state->regions_fixed = true;
   return true;
 }
 
 bool ReadItems(const std::string& path, LoadState* state, Rejections* rejections,
                InputFileSummary* file, std::string* error) {
-  std::string text;
-  if (!ReadWholeFile(path, &text, error)) return false;
-  file->size_bytes = static_cast<int64_t>(text.size());
-  file->sha256 = internal::Sha256Hex(text);
-  CsvReader reader(text);
-  Columns columns;
-  if (!ReadHeader(&reader, path, {"item", "heading", "description", "unit"},
-                  {true, true, false, false}, &columns, file, error)) {
-    return false;
-  }
-  const int kItem = columns.index[0], kHeading = columns.index[1];
-  const int kDescription = columns.index[2], kUnit = columns.index[3];
-  CsvRecord record;
-  while (reader.Next(&record)) {
-    ++file->rows_read;
-    auto reject = [&](int column, const std::string& what) {
-      rejections->Add({path, record.line, LocatedMessage(path, record.line, column, what),
-                       std::string(record.raw)},
-                      file);
-    };
-    if (static_cast<int>(record.fields.size()) != columns.num_fields) {
-      reject(0, FieldCountProblem(record.fields.size(), columns.num_fields));
-      continue;
-    }
+  auto handle = [&](const CsvRecord& record, const Columns& columns) -> RowVerdict {
+    const int kItem = columns.index[0], kHeading = columns.index[1];
+    const int kDescription = columns.index[2], kUnit = columns.index[3];
     const std::string_view item = Trim(record.fields[kItem]);
     const std::string_view heading = Trim(record.fields[kHeading]);
     if (std::string problem = CheckCode(item, "item"); !problem.empty()) {
-      reject(kItem + 1, problem);
-      continue;
+      return {kItem + 1, problem};
     }
     if (std::string problem = CheckCode(heading, "heading"); !problem.empty()) {
-      reject(kHeading + 1, problem);
-      continue;
+      return {kHeading + 1, problem};
     }
     int heading_index = state->headings.Find(heading);
     if (heading_index < 0) {
       if (state->headings_fixed) {
-        reject(kHeading + 1, "heading " + QuoteValue(heading) + " is not in the classification");
-        continue;
+        return {kHeading + 1, "heading " + QuoteValue(heading) + " is not in the classification"};
       }
       heading_index = state->headings.Intern(heading);
     }
@@ -287,14 +287,13 @@ bool ReadItems(const std::string& path, LoadState* state, Rejections* rejections
     if (existing >= 0) {
       const std::string& origin = state->item_origin[existing];
       if (state->item_heading[existing] == heading_index) {
-        reject(kItem + 1, "item " + QuoteValue(item) + " is listed twice (first at " + origin + ")");
-      } else {
-        reject(kHeading + 1, "item " + QuoteValue(item) + " is filed under heading " + QuoteValue(heading) +
-                                 " but under " +
-                                 QuoteValue(state->headings.Code(state->item_heading[existing])) +
-                                 " at " + origin);
+        return {kItem + 1,
+                "item " + QuoteValue(item) + " is listed twice (first at " + origin + ")"};
       }
-      continue;
+      return {kHeading + 1, "item " + QuoteValue(item) + " is filed under heading " +
+                                QuoteValue(heading) + " but under " +
+                                QuoteValue(state->headings.Code(state->item_heading[existing])) +
+                                " at " + origin};
     }
     state->items.Intern(item);
     state->item_heading.push_back(heading_index);
@@ -302,12 +301,11 @@ bool ReadItems(const std::string& path, LoadState* state, Rejections* rejections
     state->item_description.emplace_back(kDescription >= 0 ? Trim(record.fields[kDescription])
                                                            : std::string_view());
     state->item_unit.emplace_back(kUnit >= 0 ? Trim(record.fields[kUnit]) : std::string_view());
-    ++file->rows_used;
-  }
-  if (!reader.error().empty()) {
-    *error = path + ":" + reader.error();
+    return {};
+  };
+  if (!ReadSmallTable(path, {"item", "heading", "description", "unit"}, {true, true, false, false},
+                      rejections, file, handle, error))
     return false;
-  }
   // Later messages about these items name the file.
   for (std::string& origin : state->item_origin) {
     origin = path + ":" + origin.substr(5);
@@ -330,7 +328,6 @@ struct LocalItem {
   int local_heading = -1;  // local heading index when first stated in this chunk
   int64_t line = 0;        // line of that first statement
 };
-
 
 struct ChunkResult {
   CodeTable regions;
@@ -413,8 +410,8 @@ void ParsePriceChunk(std::string_view data, int64_t first_line, const PriceColum
         continue;
       }
       if (state.regions_fixed && state.regions.Find(code) < 0) {
-        reject(columns.region + 1, "region " + QuoteValue(code) + " is not in " +
-                                       state.config->survey.regions);
+        reject(columns.region + 1,
+               "region " + QuoteValue(code) + " is not in " + state.config->survey.regions);
         continue;
       }
       region_local = out->regions.Intern(code);
@@ -456,7 +453,8 @@ void ParsePriceChunk(std::string_view data, int64_t first_line, const PriceColum
     // so a rejected row never files an item.
     int new_heading = -1;
     if (info.global < 0 || has_heading) {
-      const std::string_view heading = has_heading ? Trim(fields[columns.heading]) : std::string_view();
+      const std::string_view heading =
+          has_heading ? Trim(fields[columns.heading]) : std::string_view();
       const std::string_view item_code = out->items.Code(item_local);
       if (info.global >= 0) {
         const std::string_view known = state.headings.Code(state.item_heading[info.global]);
@@ -487,7 +485,8 @@ void ParsePriceChunk(std::string_view data, int64_t first_line, const PriceColum
           continue;
         }
         if (state.headings_fixed && state.headings.Find(heading) < 0) {
-          reject(columns.heading + 1, "heading " + QuoteValue(heading) + " is not in the classification");
+          reject(columns.heading + 1,
+                 "heading " + QuoteValue(heading) + " is not in the classification");
           continue;
         }
         if (info.local_heading < 0) {
@@ -517,8 +516,8 @@ void ParsePriceChunk(std::string_view data, int64_t first_line, const PriceColum
     if (has_flag) {
       const std::string_view flag = Trim(fields[columns.representative]);
       if (!flag.empty() && !ParseFlag(flag, &representative)) {
-        reject(columns.representative + 1, "representative " + QuoteValue(flag) +
-                                               " is not one of 1/0, yes/no, true/false");
+        reject(columns.representative + 1,
+               "representative " + QuoteValue(flag) + " is not one of 1/0, yes/no, true/false");
         continue;
       }
     }
@@ -642,7 +641,8 @@ class PriceReader {
       }
       const size_t end = at_eof ? data.size() : start + LastRecordEnd(data.substr(start));
       int64_t num_newlines = 0;
-      if (!ParseBlock(data.substr(start, end - start), line, fresh, &num_newlines, error)) return false;
+      if (!ParseBlock(data.substr(start, end - start), line, fresh, &num_newlines, error))
+        return false;
       line += num_newlines;
       // Keep the incomplete tail for the next block.
       std::memmove(buffer->data(), buffer->data() + end, data.size() - end);
@@ -668,7 +668,9 @@ class PriceReader {
     columns_.representative = found.index[4];
     columns_.num_fields = found.num_fields;
     if (columns_.heading < 0 && !state_->has_catalog) {
-      *error = path_ + ":1: no column 'heading' and no items file (survey.items) to give each item's heading";
+      *error =
+          path_ +
+          ":1: no column 'heading' and no items file (survey.items) to give each item's heading";
       return false;
     }
     return true;
@@ -721,7 +723,8 @@ class PriceReader {
       // can tell which statement comes first.
       results.resize(1);
       results[0].Reset();
-      ParsePriceChunk(data, first_line, columns_, path_, *state_, keep_all, max_rejected, &results[0]);
+      ParsePriceChunk(data, first_line, columns_, path_, *state_, keep_all, max_rejected,
+                      &results[0]);
     }
     // Sized before the first block is merged, so the first block's quotes
     // are not copied (and their pages touched) twice.
@@ -774,7 +777,8 @@ class PriceReader {
       for (int i = 0; i < result.items.size(); ++i) {
         const LocalItem& info = result.item_info[i];
         if (info.global >= 0 || info.local_heading < 0) continue;
-        auto [it, inserted] = stated.emplace(result.items.Code(i), result.headings.Code(info.local_heading));
+        auto [it, inserted] =
+            stated.emplace(result.items.Code(i), result.headings.Code(info.local_heading));
         if (!inserted && it->second != result.headings.Code(info.local_heading)) return true;
       }
     }
@@ -805,7 +809,8 @@ class PriceReader {
       }
       if (state_->item_heading[global] < 0 && info.local_heading >= 0) {
         // First statement of this item's heading (no items.csv entry).
-        state_->item_heading[global] = state_->headings.Intern(result->headings.Code(info.local_heading));
+        state_->item_heading[global] =
+            state_->headings.Intern(result->headings.Code(info.local_heading));
         state_->item_origin[global] = "line " + std::to_string(info.line);
       }
     }
@@ -839,75 +844,48 @@ class PriceReader {
 
 bool ReadExpenditure(const std::string& path, LoadState* state, Rejections* rejections,
                      InputFileSummary* file, std::string* error) {
-  std::string text;
-  if (!ReadWholeFile(path, &text, error)) return false;
-  file->size_bytes = static_cast<int64_t>(text.size());
-  file->sha256 = internal::Sha256Hex(text);
-  CsvReader reader(text);
-  Columns columns;
-  if (!ReadHeader(&reader, path, {"region", "heading", "expenditure"}, {true, true, true}, &columns,
-                  file, error)) {
-    return false;
-  }
-  const int kRegion = columns.index[0], kHeading = columns.index[1], kValue = columns.index[2];
   std::unordered_map<uint64_t, int64_t> first_line;
-  CsvRecord record;
-  while (reader.Next(&record)) {
-    ++file->rows_read;
-    auto reject = [&](int column, const std::string& what) {
-      rejections->Add({path, record.line, LocatedMessage(path, record.line, column, what),
-                       std::string(record.raw)},
-                      file);
-    };
-    if (static_cast<int>(record.fields.size()) != columns.num_fields) {
-      reject(0, FieldCountProblem(record.fields.size(), columns.num_fields));
-      continue;
-    }
+  auto handle = [&](const CsvRecord& record, const Columns& columns) -> RowVerdict {
+    const int kRegion = columns.index[0], kHeading = columns.index[1], kValue = columns.index[2];
     const std::string_view region = Trim(record.fields[kRegion]);
     const std::string_view heading = Trim(record.fields[kHeading]);
     const std::string_view value_text = record.fields[kValue];
     if (std::string problem = CheckCode(region, "region"); !problem.empty()) {
-      reject(kRegion + 1, problem);
-      continue;
+      return {kRegion + 1, problem};
     }
     if (state->regions_fixed && state->regions.Find(region) < 0) {
-      reject(kRegion + 1, "region " + QuoteValue(region) + " is not in " + state->config->survey.regions);
-      continue;
+      return {kRegion + 1,
+              "region " + QuoteValue(region) + " is not in " + state->config->survey.regions};
     }
     if (std::string problem = CheckCode(heading, "heading"); !problem.empty()) {
-      reject(kHeading + 1, problem);
-      continue;
+      return {kHeading + 1, problem};
     }
     if (state->headings_fixed && state->headings.Find(heading) < 0) {
-      reject(kHeading + 1, "heading " + QuoteValue(heading) + " is not in the classification");
-      continue;
+      return {kHeading + 1, "heading " + QuoteValue(heading) + " is not in the classification"};
     }
     double value = 0.0;
     const NumberStatus status = ParseNumber(value_text, &value);
     if (status != NumberStatus::kOk) {
-      reject(kValue + 1, NumberProblem(status, "expenditure", value_text));
-      continue;
+      return {kValue + 1, NumberProblem(status, "expenditure", value_text)};
     }
     if (value < 0) {
-      reject(kValue + 1, "expenditure " + QuoteValue(value_text) + " is negative");
-      continue;
+      return {kValue + 1, "expenditure " + QuoteValue(value_text) + " is negative"};
     }
     const int region_index = state->regions.Intern(region);
     const int heading_index = state->headings.Intern(heading);
-    const uint64_t key = (static_cast<uint64_t>(region_index) << 32) | static_cast<uint32_t>(heading_index);
+    const uint64_t key =
+        (static_cast<uint64_t>(region_index) << 32) | static_cast<uint32_t>(heading_index);
     auto [it, inserted] = first_line.emplace(key, record.line);
     if (!inserted) {
-      reject(0, "duplicate row for region " + QuoteValue(region) + " and heading " + QuoteValue(heading) +
-                    " (first at line " + std::to_string(it->second) + ")");
-      continue;
+      return {0, "duplicate row for region " + QuoteValue(region) + " and heading " +
+                     QuoteValue(heading) + " (first at line " + std::to_string(it->second) + ")"};
     }
     state->spending.push_back({region_index, heading_index, value + 0.0});
-    ++file->rows_used;
-  }
-  if (!reader.error().empty()) {
-    *error = path + ":" + reader.error();
+    return {};
+  };
+  if (!ReadSmallTable(path, {"region", "heading", "expenditure"}, {true, true, true}, rejections,
+                      file, handle, error))
     return false;
-  }
   return true;
 }
 
@@ -917,7 +895,8 @@ bool ReadExpenditure(const std::string& path, LoadState* state, Rejections* reje
 std::vector<int> SortedOrder(const CodeTable& table) {
   std::vector<int> order(table.size());
   std::iota(order.begin(), order.end(), 0);
-  std::sort(order.begin(), order.end(), [&](int a, int b) { return table.Code(a) < table.Code(b); });
+  std::sort(order.begin(), order.end(),
+            [&](int a, int b) { return table.Code(a) < table.Code(b); });
   return order;
 }
 
@@ -999,8 +978,8 @@ void BuildSurvey(LoadState* state, int num_threads, Survey* survey) {
   internal::FillHeadingRanges(survey);
   survey->num_quotes = state->num_quotes;
 
-  survey->expenditure = Eigen::MatrixXd::Constant(survey->num_regions(), survey->num_headings(),
-                                                  std::nan(""));
+  survey->expenditure =
+      Eigen::MatrixXd::Constant(survey->num_regions(), survey->num_headings(), std::nan(""));
   for (const auto& s : state->spending) {
     survey->expenditure(region_new[s.region], heading_new[s.heading]) = s.value;
   }
@@ -1050,7 +1029,8 @@ bool LoadSurvey(const RunConfig& config, const LoadOptions& options, Survey* sur
   LoadState state;
   state.config = &config;
   if (config.has_classification) {
-    for (const std::string& code : config.classification.HeadingCodes()) state.headings.Intern(code);
+    for (const std::string& code : config.classification.HeadingCodes())
+      state.headings.Intern(code);
     state.headings_fixed = true;
   }
   Rejections rejections(options, summary);
@@ -1070,7 +1050,8 @@ bool LoadSurvey(const RunConfig& config, const LoadOptions& options, Survey* sur
   InputFileSummary& prices_file = summary->files[2];
   InputFileSummary& expenditure_file = summary->files[3];
 
-  if (regions_file.given && !ReadRegions(regions_file.path, &state, &rejections, &regions_file, &error)) {
+  if (regions_file.given &&
+      !ReadRegions(regions_file.path, &state, &rejections, &regions_file, &error)) {
     return fail(error);
   }
   if (items_file.given && !ReadItems(items_file.path, &state, &rejections, &items_file, &error)) {
@@ -1091,7 +1072,8 @@ bool LoadSurvey(const RunConfig& config, const LoadOptions& options, Survey* sur
     const int64_t shown = static_cast<int64_t>(summary->rejected_rows.size());
     std::string message = std::to_string(summary->num_rows_rejected) + " invalid row" +
                           (summary->num_rows_rejected == 1 ? "" : "s");
-    if (shown < summary->num_rows_rejected) message += " (the first " + std::to_string(shown) + " shown)";
+    if (shown < summary->num_rows_rejected)
+      message += " (the first " + std::to_string(shown) + " shown)";
     message += "; fix them, or set invalid_rows: skip to leave them out";
     return fail(message);
   }
@@ -1101,7 +1083,8 @@ bool LoadSurvey(const RunConfig& config, const LoadOptions& options, Survey* sur
   }
 
   const auto cells_start = std::chrono::steady_clock::now();
-  BuildSurvey(&state, options.num_threads > 0 ? options.num_threads : omp_get_max_threads(), survey);
+  BuildSurvey(&state, options.num_threads > 0 ? options.num_threads : omp_get_max_threads(),
+              survey);
   summary->cells_seconds = SecondsSince(cells_start);
   summary->outcome = LoadOutcome::kOk;
   summary->message = "ok";
