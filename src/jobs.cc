@@ -337,6 +337,16 @@ std::string ComputeJobSummary::FullReport() const {
   out += "(P-L spread: largest |ln(Laspeyres / Paasche)| of the region against any other, "
          "with that partner; large spreads mean the price and spending patterns differ and the "
          "choice of formula matters.)\n";
+  if (!outliers.outliers.empty()) {
+    int64_t cells = 0;
+    for (const Outlier& o : outliers.outliers) cells += o.kind == OutlierKind::kCell ? 1 : 0;
+    const Outlier& worst = outliers.outliers.front();
+    out += "\noutliers: " + FormatCount(cells) + " cells and " +
+           FormatCount(static_cast<int64_t>(outliers.outliers.size()) - cells) +
+           " quotes far from the fit (listed in outliers.csv); the worst: " + survey.heading_codes[worst.heading] +
+           ", " + std::string(survey.regions.Code(worst.region)) + ", " + std::string(survey.items.Code(worst.item)) +
+           " at " + FormatFixed(worst.observed / worst.predicted, 3) + " times the predicted price\n";
+  }
   if (!warnings.empty()) {
     out += "\nwarnings:\n";
     for (const std::string& warning : warnings) out += "  " + warning + "\n";
