@@ -47,7 +47,12 @@ std::string FilesReport(const LoadSummary& load) {
     out += "  " + Pad(file.role, 12) + file.path + ": " + FormatCount(file.rows_read) + " rows read, " +
            FormatCount(file.rows_used) + " used, " + FormatCount(file.rows_rejected) + " rejected\n";
     if (!file.ignored_columns.empty()) {
-      out += "  " + Pad("", 12) + "ignored columns: " + JoinNames(file.ignored_columns) + "\n";
+      // A header of garbage can hold a million names: list the first few.
+      constexpr size_t kMaxListed = 20;
+      const std::vector<std::string>& names = file.ignored_columns;
+      std::string listed = JoinNames(std::vector<std::string>(names.begin(), names.begin() + std::min(names.size(), kMaxListed)));
+      if (names.size() > kMaxListed) listed += ", ... (" + FormatCount(static_cast<int64_t>(names.size())) + " in all)";
+      out += "  " + Pad("", 12) + "ignored columns: " + listed + "\n";
     }
   }
   return out;
