@@ -20,64 +20,6 @@ double SecondsSince(std::chrono::steady_clock::time_point start) {
   return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
 }
 
-// Normalisation weights of a node: one per region (0 = does not count).
-// Returns the label of the reference used.
-std::string ReferenceWeights(const Survey& survey, const Reference& reference,
-                             const Eigen::VectorXd& log_parity, const Eigen::VectorXd& expenditure,
-                             std::vector<double>* weights) {
-  const int n = survey.num_regions();
-  weights->assign(n, 0.0);
-  double total = 0.0;
-  switch (reference.kind) {
-    case ReferenceKind::kRegion: {
-      const int r = survey.regions.Find(reference.region);
-      if (r >= 0 && std::isfinite(log_parity(r))) {
-        (*weights)[r] = 1.0;
-        return reference.region;
-      }
-      for (int k = 0; k < n; ++k) (*weights)[k] = std::isfinite(log_parity(k)) ? 1.0 : 0.0;
-      return "mean (reference region absent)";
-    }
-    case ReferenceKind::kWeightedMean:
-      for (int k = 0; k < n; ++k) {
-        const double e = expenditure(k);
-        if (std::isfinite(log_parity(k)) && std::isfinite(e) && e > 0) {
-          (*weights)[k] = e;
-          total += e;
-        }
-      }
-      if (total > 0) return "weighted-mean";
-      for (int k = 0; k < n; ++k) (*weights)[k] = std::isfinite(log_parity(k)) ? 1.0 : 0.0;
-      return "mean (no expenditure to weight by)";
-    case ReferenceKind::kMean:
-      break;
-  }
-  for (int k = 0; k < n; ++k) (*weights)[k] = std::isfinite(log_parity(k)) ? 1.0 : 0.0;
-  return "mean";
-}
-
-void Normalise(const std::vector<double>& weights, Eigen::VectorXd* log_parity) {
-  double sum = 0.0, total = 0.0;
-  for (int r = 0; r < log_parity->size(); ++r) {
-    if (!std::isfinite((*log_parity)(r)) || weights[r] <= 0) continue;
-    sum += weights[r] * (*log_parity)(r);
-    total += weights[r];
-  }
-  if (total > 0) *log_parity = log_parity->array() - sum / total;
-}
-
-Eigen::VectorXd NodeExpenditure(const Survey& survey, const ClassificationNode& node) {
-  Eigen::VectorXd total = Eigen::VectorXd::Constant(survey.num_regions(), std::nan(""));
-  for (int h : node.headings) {
-    for (int r = 0; r < survey.num_regions(); ++r) {
-      const double e = survey.expenditure(r, h);
-      if (std::isnan(e)) continue;
-      total(r) = std::isnan(total(r)) ? e : total(r) + e;
-    }
-  }
-  return total;
-}
-
 // Parity, real expenditure, per-capita index and rank from a normalised log parity.
 void FinishNode(const Survey& survey, const Eigen::VectorXd& log_parity, NodeResult* node) {
   const int n = survey.num_regions();
@@ -161,6 +103,62 @@ std::string ComputeSummary::BriefReport() const {
          std::to_string(num_headings_given) + " basic headings and " + std::to_string(num_aggregates) +
          " aggregates; " + std::to_string(warnings.size()) + " warning" +
          (warnings.size() == 1 ? "" : "s");
+}
+
+std::string ReferenceWeights(const Reference& reference, int reference_region,
+                             const Eigen::VectorXd& log_parity, const Eigen::VectorXd& expenditure,
+                             std::vector<double>* weights) {
+  const int n = static_cast<int>(log_parity.size());
+  weights->assign(n, 0.0);
+  double total = 0.0;
+  switch (reference.kind) {
+    case ReferenceKind::kRegion: {
+      const int r = reference_region;
+      if (r >= 0 && std::isfinite(log_parity(r))) {
+        (*weights)[r] = 1.0;
+        return reference.region;
+      }
+      for (int k = 0; k < n; ++k) (*weights)[k] = std::isfinite(log_parity(k)) ? 1.0 : 0.0;
+      return "mean (reference region absent)";
+    }
+    case ReferenceKind::kWeightedMean:
+      for (int k = 0; k < n; ++k) {
+        const double e = expenditure(k);
+        if (std::isfinite(log_parity(k)) && std::isfinite(e) && e > 0) {
+          (*weights)[k] = e;
+          total += e;
+        }
+      }
+      if (total > 0) return "weighted-mean";
+      for (int k = 0; k < n; ++k) (*weights)[k] = std::isfinite(log_parity(k)) ? 1.0 : 0.0;
+      return "mean (no expenditure to weight by)";
+    case ReferenceKind::kMean:
+      break;
+  }
+  for (int k = 0; k < n; ++k) (*weights)[k] = std::isfinite(log_parity(k)) ? 1.0 : 0.0;
+  return "mean";
+}
+
+void NormaliseLogParities(const std::vector<double>& weights, Eigen::VectorXd* log_parity) {
+  double sum = 0.0, total = 0.0;
+  for (int r = 0; r < log_parity->size(); ++r) {
+    if (!std::isfinite((*log_parity)(r)) || weights[r] <= 0) continue;
+    sum += weights[r] * (*log_parity)(r);
+    total += weights[r];
+  }
+  if (total > 0) *log_parity = log_parity->array() - sum / total;
+}
+
+Eigen::VectorXd NodeExpenditure(const Survey& survey, int node) {
+  Eigen::VectorXd total = Eigen::VectorXd::Constant(survey.num_regions(), std::nan(""));
+  for (int h : survey.classification.nodes()[node].headings) {
+    for (int r = 0; r < survey.num_regions(); ++r) {
+      const double e = survey.expenditure(r, h);
+      if (std::isnan(e)) continue;
+      total(r) = std::isnan(total(r)) ? e : total(r) + e;
+    }
+  }
+  return total;
 }
 
 std::string DescribeGroups(const Survey& survey, const std::vector<std::vector<int>>& groups) {
@@ -310,7 +308,7 @@ bool ComputeParities(const Survey& survey, const ComputeOptions& options, Parity
     NodeResult& node = result->nodes[index];
     node.node = index;
     node.is_heading = n.is_leaf;
-    node.expenditure = NodeExpenditure(survey, n);
+    node.expenditure = NodeExpenditure(survey, index);
     node.log_se = Eigen::VectorXd::Constant(num_regions, std::nan(""));
     node.log_se_robust = node.log_se;
     node.num_items = Eigen::VectorXi::Zero(num_regions);
@@ -349,12 +347,13 @@ bool ComputeParities(const Survey& survey, const ComputeOptions& options, Parity
       }
     }
     std::vector<double> weights;
-    node.reference_used = ReferenceWeights(survey, options.reference, log_parity, node.expenditure, &weights);
+    node.reference_used = ReferenceWeights(options.reference, survey.regions.Find(options.reference.region),
+                                           log_parity, node.expenditure, &weights);
     if (node.reference_used.rfind("mean (", 0) == 0 && options.reference.kind != ReferenceKind::kMean &&
         log_parity.array().isFinite().any()) {
       summary->warnings.push_back("node '" + n.code + "': normalised to the " + node.reference_used);
     }
-    Normalise(weights, &log_parity);
+    NormaliseLogParities(weights, &log_parity);
     FinishNode(survey, log_parity, &node);
   }
   summary->aggregation_seconds = SecondsSince(start);

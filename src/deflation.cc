@@ -448,41 +448,43 @@ class Deflater {
     }
   }
 
+  // The last code looked up in one column, so that runs of equal codes cost
+  // one comparison.
+  struct LastCode {
+    int index = -1;
+    std::string text;
+  };
+
+  // Returns the index of the code in `column` in `table`, or -1 after
+  // rejecting the record; `what` names the table in the message.
+  int LookUp(const CsvRecord& record, int column, const std::string& column_name, const CodeTable& table,
+             const char* what, LastCode* last) {
+    const std::string_view text = record.fields[column];
+    if (last->index >= 0 && text == last->text) return last->index;
+    const std::string_view code = Trim(text);
+    const int index = table.Find(code);
+    if (index < 0) {
+      Reject(record, column + 1,
+             code.empty() ? column_name + " is empty"
+                          : column_name + " " + QuoteValue(code) + " is " + what + " " + table_.path +
+                                DidYouMean(code, table.Codes()));
+      return -1;
+    }
+    last->index = index;
+    last->text.assign(text);
+    return index;
+  }
+
   // Returns the node index of the record, or -1 after rejecting it.
   int RowNode(const CsvRecord& record) {
     if (node_column_ < 0) return fixed_node_;
-    const std::string_view text = record.fields[node_column_];
-    if (last_node_ >= 0 && text == last_node_text_) return last_node_;
-    const std::string_view code = Trim(text);
-    const int node = table_.nodes.Find(code);
-    if (node < 0) {
-      Reject(record, node_column_ + 1,
-             code.empty() ? options_.node_column + " is empty"
-                          : options_.node_column + " " + QuoteValue(code) + " is not a node in " +
-                                table_.path + DidYouMean(code, table_.nodes.Codes()));
-      return -1;
-    }
-    last_node_ = node;
-    last_node_text_.assign(text);
-    return node;
+    return LookUp(record, node_column_, options_.node_column, table_.nodes, "not a node in", &last_node_);
   }
 
   // Returns the region index of the record, or -1 after rejecting it.
   int RowRegion(const CsvRecord& record) {
-    const std::string_view text = record.fields[region_column_];
-    if (last_region_ >= 0 && text == last_region_text_) return last_region_;
-    const std::string_view code = Trim(text);
-    const int region = table_.regions.Find(code);
-    if (region < 0) {
-      Reject(record, region_column_ + 1,
-             code.empty() ? options_.region_column + " is empty"
-                          : options_.region_column + " " + QuoteValue(code) + " is not a region of " +
-                                table_.path + DidYouMean(code, table_.regions.Codes()));
-      return -1;
-    }
-    last_region_ = region;
-    last_region_text_.assign(text);
-    return region;
+    return LookUp(record, region_column_, options_.region_column, table_.regions, "not a region of",
+                  &last_region_);
   }
 
   bool ProcessBlock(std::string_view data, int64_t* line, std::string* error) {
@@ -591,10 +593,8 @@ class Deflater {
   int node_column_ = -1;
   std::vector<int> value_columns_;
   std::vector<double> values_;
-  int last_region_ = -1;
-  std::string last_region_text_;
-  int last_node_ = -1;
-  std::string last_node_text_;
+  LastCode last_region_;
+  LastCode last_node_;
 };
 
 }  // namespace

@@ -5,6 +5,7 @@
 #include <cmath>
 
 #include "paritas/bilateral_matrix.h"
+#include "paritas/compute.h"
 #include "paritas/geks.h"
 
 namespace paritas {
@@ -33,21 +34,6 @@ void HeadingPriceArrays(const Survey& survey, int heading, Eigen::MatrixXd* log_
     (*present)(r, i) = 1.0;
   }
 }
-
-namespace {
-
-void Normalise(const std::vector<double>& reference_weights, Eigen::VectorXd* log_parity) {
-  double sum = 0.0, weight = 0.0;
-  for (int r = 0; r < log_parity->size(); ++r) {
-    if (std::isnan((*log_parity)(r))) continue;
-    const double w = reference_weights.empty() ? 1.0 : reference_weights[r];
-    sum += w * (*log_parity)(r);
-    weight += w;
-  }
-  if (weight > 0) *log_parity = log_parity->array() - sum / weight;
-}
-
-}  // namespace
 
 HeadingParities ComputeHeadingParities(const Survey& survey, int heading,
                                        const ElementaryOptions& options,
@@ -91,7 +77,9 @@ HeadingParities ComputeHeadingParities(const Survey& survey, int heading,
     out.groups = geks.groups;
     if (geks.identified) {
       out.log_parity = geks.log_parity;
-      Normalise(reference_weights, &out.log_parity);
+      std::vector<double> weights = reference_weights;
+      if (weights.empty()) weights.assign(num_regions, 1.0);
+      NormaliseLogParities(weights, &out.log_parity);
     }
     return out;
   }

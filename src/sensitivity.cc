@@ -238,59 +238,22 @@ Eigen::VectorXd HeadingLogParity(const Chain& chain, int h, const std::vector<do
   return log_parity;
 }
 
-// Normalisation weights of a node, as the compute stage chooses them: the
-// reference region when it has a parity, the expenditure-weighted or plain
-// mean otherwise.
+// Normalises a node as the compute stage does.
 void NormaliseNode(const Chain& chain, const Eigen::VectorXd& expenditure, Eigen::VectorXd* log_parity) {
-  const int n = chain.num_regions;
-  std::vector<double> weights(n, 0.0);
-  bool chosen = false;
-  if (chain.options.reference.kind == ReferenceKind::kRegion) {
-    const int r = chain.reference_region;
-    if (r >= 0 && std::isfinite((*log_parity)(r))) {
-      weights[r] = 1.0;
-      chosen = true;
-    }
-  } else if (chain.options.reference.kind == ReferenceKind::kWeightedMean) {
-    double total = 0.0;
-    for (int k = 0; k < n; ++k) {
-      const double e = expenditure(k);
-      if (std::isfinite((*log_parity)(k)) && std::isfinite(e) && e > 0) {
-        weights[k] = e;
-        total += e;
-      }
-    }
-    chosen = total > 0;
-  }
-  if (!chosen) {
-    for (int k = 0; k < n; ++k) weights[k] = std::isfinite((*log_parity)(k)) ? 1.0 : 0.0;
-  }
-  double sum = 0.0, total = 0.0;
-  for (int r = 0; r < n; ++r) {
-    if (!std::isfinite((*log_parity)(r)) || weights[r] <= 0) continue;
-    sum += weights[r] * (*log_parity)(r);
-    total += weights[r];
-  }
-  if (total > 0) *log_parity = log_parity->array() - sum / total;
-  for (int r = 0; r < n; ++r) {
+  std::vector<double> weights;
+  ReferenceWeights(chain.options.reference, chain.reference_region, *log_parity, expenditure, &weights);
+  NormaliseLogParities(weights, log_parity);
+  for (int r = 0; r < log_parity->size(); ++r) {
     if (!std::isfinite((*log_parity)(r))) (*log_parity)(r) = kNaN;
   }
 }
 
-// Expenditure of every node per region (NaN where no row), as compute.cc
-// sums it; used only by the weighted-mean reference.
+// Expenditure of every node per region (NaN where no row); used only by the
+// weighted-mean reference.
 Eigen::MatrixXd NodeExpenditures(const Survey& survey) {
-  const auto& nodes = survey.classification.nodes();
-  Eigen::MatrixXd total = Eigen::MatrixXd::Constant(nodes.size(), survey.num_regions(), kNaN);
-  for (size_t n = 0; n < nodes.size(); ++n) {
-    for (int h : nodes[n].headings) {
-      for (int r = 0; r < survey.num_regions(); ++r) {
-        const double e = survey.expenditure(r, h);
-        if (std::isnan(e)) continue;
-        total(n, r) = std::isnan(total(n, r)) ? e : total(n, r) + e;
-      }
-    }
-  }
+  const int num_nodes = static_cast<int>(survey.classification.nodes().size());
+  Eigen::MatrixXd total(num_nodes, survey.num_regions());
+  for (int n = 0; n < num_nodes; ++n) total.row(n) = NodeExpenditure(survey, n).transpose();
   return total;
 }
 

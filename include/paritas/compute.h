@@ -105,6 +105,23 @@ bool ComputeParities(const Survey& survey, const ComputeOptions& options, Parity
 // ratio scale and expenditure, regions x the node's headings).
 NodeArrays NodeInputArrays(const Survey& survey, const ParityResult& result, int node);
 
+// Chooses the normalisation weights of a node, one per region (0 = does not
+// count): the reference region (survey index `reference_region`) when it has
+// a parity, else the expenditure-weighted or plain mean over the regions with
+// a parity. Returns the label of the reference used ("mean", "weighted-mean",
+// the region code, or "mean (...)" for a fallback).
+std::string ReferenceWeights(const Reference& reference, int reference_region,
+                             const Eigen::VectorXd& log_parity, const Eigen::VectorXd& expenditure,
+                             std::vector<double>* weights);
+
+// Shifts ln parities so that their weighted mean over the regions with a
+// parity and a positive weight is 0.
+void NormaliseLogParities(const std::vector<double>& weights, Eigen::VectorXd* log_parity);
+
+// Nominal expenditure of each region on the node's headings (sum of its
+// expenditure rows; NaN where it has none).
+Eigen::VectorXd NodeExpenditure(const Survey& survey, int node);
+
 // Describes groups of regions by code: "{a, b} and {c}".
 std::string DescribeGroups(const Survey& survey, const std::vector<std::vector<int>>& groups);
 
