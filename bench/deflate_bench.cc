@@ -12,7 +12,7 @@
 #include <random>
 #include <string>
 
-#include "paritas/deflation.h"
+#include "paritas/use/deflation.h"
 
 int main(int argc, char** argv) {
   const long long num_rows = argc > 1 ? std::atoll(argv[1]) : 5000000;

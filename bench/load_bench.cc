@@ -9,8 +9,8 @@
 #include <cstdlib>
 #include <string>
 
-#include "paritas/config.h"
-#include "paritas/survey_loader.h"
+#include "paritas/survey/config.h"
+#include "paritas/survey/survey_loader.h"
 
 int main(int argc, char** argv) {
   if (argc < 2) {

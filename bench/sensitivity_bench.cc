@@ -10,9 +10,9 @@
 #include <unistd.h>
 #include <string>
 
-#include "paritas/config.h"
-#include "paritas/sensitivity.h"
-#include "paritas/survey_loader.h"
+#include "paritas/survey/config.h"
+#include "paritas/uncertainty/sensitivity.h"
+#include "paritas/survey/survey_loader.h"
 #include "synthetic_survey.h"
 
 int main(int argc, char** argv) {

@@ -14,8 +14,8 @@
 #include <string>
 #include <vector>
 
-#include "paritas/cpd.h"
-#include "paritas/text.h"
+#include "paritas/elementary/cpd.h"
+#include "paritas/base/text.h"
 
 namespace {
 

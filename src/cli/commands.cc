@@ -4,9 +4,9 @@
 #include <cstdio>
 #include <iostream>
 
-#include "paritas/config.h"
-#include "paritas/jobs.h"
-#include "paritas/text.h"
+#include "paritas/survey/config.h"
+#include "paritas/jobs/jobs.h"
+#include "paritas/base/text.h"
 
 namespace paritas::cli {
 namespace {

@@ -3,9 +3,9 @@
 #include <iostream>
 
 #include "cli/commands.h"
-#include "paritas/deflation.h"
-#include "paritas/jobs.h"
-#include "paritas/text.h"
+#include "paritas/use/deflation.h"
+#include "paritas/jobs/jobs.h"
+#include "paritas/base/text.h"
 
 namespace paritas::cli {
 

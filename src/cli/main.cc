@@ -7,10 +7,10 @@
 #include <CLI/CLI.hpp>
 
 #include "cli/commands.h"
-#include "paritas/config.h"
-#include "paritas/deflation.h"
-#include "paritas/jobs.h"
-#include "paritas/text.h"
+#include "paritas/survey/config.h"
+#include "paritas/use/deflation.h"
+#include "paritas/jobs/jobs.h"
+#include "paritas/base/text.h"
 
 namespace {
 

@@ -3,13 +3,13 @@
 #include <iostream>
 
 #include "cli/commands.h"
-#include "paritas/compute.h"
-#include "paritas/config.h"
-#include "paritas/csv.h"
-#include "paritas/jobs.h"
-#include "paritas/pair_comparison.h"
-#include "paritas/survey_loader.h"
-#include "paritas/text.h"
+#include "paritas/compute/compute.h"
+#include "paritas/survey/config.h"
+#include "paritas/base/csv.h"
+#include "paritas/jobs/jobs.h"
+#include "paritas/use/pair_comparison.h"
+#include "paritas/survey/survey_loader.h"
+#include "paritas/base/text.h"
 
 namespace paritas::cli {
 

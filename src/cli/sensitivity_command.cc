@@ -10,10 +10,10 @@
 #include <string>
 
 #include "cli/commands.h"
-#include "paritas/config.h"
-#include "paritas/jobs.h"
-#include "paritas/sensitivity.h"
-#include "paritas/text.h"
+#include "paritas/survey/config.h"
+#include "paritas/jobs/jobs.h"
+#include "paritas/uncertainty/sensitivity.h"
+#include "paritas/base/text.h"
 
 namespace paritas::cli {
 namespace {

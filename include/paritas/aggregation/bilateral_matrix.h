@@ -1,0 +1,96 @@
+// All-pairs bilateral indices as matrix products.
+//
+// A node of the classification (or a basic heading) gives region x column
+// arrays with a presence mask; every pairwise sum over matched columns is a
+// product of masked arrays (e.g. sum_h m_ah m_bh x_ah y_bh = ((M∘X) (M∘Y)ᵀ)_ab),
+// so no loop runs over pairs and columns together and the cost is a handful
+// of regions x columns x regions products.
+#ifndef PARITAS_AGGREGATION_BILATERAL_MATRIX_H_
+#define PARITAS_AGGREGATION_BILATERAL_MATRIX_H_
+
+#include <string>
+
+#include <Eigen/Core>
+
+namespace paritas {
+
+// Region x region matrices of bilateral indices. Entry (a, b) compares b with
+// a ("the cost in b of what costs 1 in a"), as the scalar functions of
+// index_formulas.h do with region a as the first argument. Entries are NaN
+// where the pair has no matched column; the diagonal is exactly 1 for every
+// region with at least one valid column (NaN otherwise).
+struct BilateralMatrices {
+  // Laspeyres, quantities of region a: sum p_b q_a / sum p_a q_a.
+  Eigen::MatrixXd laspeyres;
+  // Paasche, quantities of region b: sum p_b q_b / sum p_a q_b. Equals
+  // 1 / laspeyres transposed.
+  Eigen::MatrixXd paasche;
+  // Fisher, sqrt(laspeyres * paasche) elementwise; fisher(a,b) fisher(b,a) = 1.
+  Eigen::MatrixXd fisher;
+  // Törnqvist with both regions' expenditure shares renormalised over the
+  // pair's matched columns; ln tornqvist is antisymmetric.
+  Eigen::MatrixXd tornqvist;
+  // Number of matched columns per pair (symmetric; diagonal = the region's
+  // own number of valid columns).
+  Eigen::MatrixXi num_matched;
+};
+
+// Which matrices AllPairsWeighted fills; the others are left empty (0 x 0).
+// A node whose bilaterals are not written needs only the index its GEKS
+// runs on, which saves a product or two and most elementwise passes.
+struct BilateralOptions {
+  // Fills laspeyres and paasche. Default true.
+  bool laspeyres_paasche = true;
+  // Fills fisher. Default true.
+  bool fisher = true;
+  // Fills tornqvist. Default true.
+  bool tornqvist = true;
+  // Fills num_matched (costs one more product). Default true.
+  bool num_matched = true;
+
+  // Returns the options that fill only `fisher` (chosen = Fisher) or only
+  // `tornqvist`.
+  static BilateralOptions OnlyFisher();
+  static BilateralOptions OnlyTornqvist();
+  // Returns true; every combination is allowed (all false computes nothing).
+  bool IsValid(std::string* error) const;
+};
+
+// Computes Laspeyres, Paasche, Fisher and Törnqvist between every pair of
+// regions (those `options` asks for; every matrix by default). A filled
+// matrix has the same entries whichever others are asked for. `price` and `expenditure` are regions x headings, of equal shape
+// (asserted). A heading counts for a pair when both regions have a finite
+// price > 0 and a finite expenditure > 0 there; entries that fail this are
+// ignored whatever their value (NaN included). Quantities are
+// expenditure / price. Each entry equals the scalar formula of
+// index_formulas.h over the pair's matched headings. Cost O(R² H) in a few
+// matrix products for R regions and H headings.
+BilateralMatrices AllPairsWeighted(const Eigen::MatrixXd& price,
+                                   const Eigen::MatrixXd& expenditure,
+                                   const BilateralOptions& options = BilateralOptions());
+
+// Computes the Jevons index between every pair of regions: entry (a, b) is
+// exp(mean over matched items of ln p_b - ln p_a), exactly 1 on the diagonal
+// of a region with any priced item. `log_price` is regions x items and
+// `present` the mask of the same shape (asserted): an item counts for a
+// region where `present` is non-zero and the log price is finite; the log
+// price elsewhere is ignored whatever its value. Resizes and fills
+// `num_matched` (matched items per pair, symmetric) when non-null. NaN where
+// no item is matched.
+Eigen::MatrixXd AllPairsJevons(const Eigen::MatrixXd& log_price, const Eigen::MatrixXd& present,
+                               Eigen::MatrixXi* num_matched);
+
+// Computes the weighted Jevons index between every pair of regions: entry
+// (a, b) is exp(sum_i w_i (ln p_bi - ln p_ai) / sum_i w_i) over the items i
+// matched by a and b, w_i = `item_weight`(i) (one per column, finite,
+// >= 0). A whole-number weight k is the same as the item appearing k times,
+// so item bootstraps reuse the heading's arrays. Items of weight 0 count as
+// absent (a region with only such items gets NaN on its diagonal). Otherwise
+// as AllPairsJevons, which it equals for unit weights.
+Eigen::MatrixXd AllPairsJevonsWeighted(const Eigen::MatrixXd& log_price,
+                                       const Eigen::MatrixXd& present,
+                                       const Eigen::VectorXd& item_weight);
+
+}  // namespace paritas
+
+#endif  // PARITAS_AGGREGATION_BILATERAL_MATRIX_H_

@@ -1,0 +1,67 @@
+// Small text utilities shared by the readers and writers: locale-free number
+// parsing and formatting (std::from_chars / std::to_chars, so output is
+// byte-identical everywhere), case-insensitive names and "did you mean".
+#ifndef PARITAS_BASE_TEXT_H_
+#define PARITAS_BASE_TEXT_H_
+
+#include <cstdint>
+#include <string>
+#include <string_view>
+#include <vector>
+
+namespace paritas {
+
+// Outcome of parsing a number.
+enum class NumberStatus { kOk, kEmpty, kInvalid, kNonFinite };
+
+// Parses a decimal number (leading and trailing ASCII spaces allowed, a
+// leading '+' allowed). Rejects empty text, trailing garbage, and inf/nan.
+NumberStatus ParseNumber(std::string_view text, double* value);
+
+// Parses a 1/0, yes/no, true/false flag (case-insensitive, spaces trimmed).
+// Returns false when the text is none of these.
+bool ParseFlag(std::string_view text, bool* value);
+
+// Removes leading and trailing ASCII spaces and tabs.
+std::string_view Trim(std::string_view text);
+
+// Lower-cases ASCII letters.
+std::string ToLower(std::string_view text);
+
+// Appends `value` with `decimals` digits after the point ("-0" printed as
+// "0"); NaN appends nothing (an empty CSV cell).
+void AppendFixed(double value, int decimals, std::string* out);
+// Appends the shortest text that reads back as exactly `value`; NaN appends
+// nothing.
+void AppendShortest(double value, std::string* out);
+// Returns AppendFixed as a string.
+std::string FormatFixed(double value, int decimals);
+
+// Returns a whole number with thousands separated by commas: "12,345".
+std::string FormatCount(int64_t value);
+
+// Returns a value quoted for a message, 'like this': cut after 60 bytes
+// ("...") and with line breaks shown as spaces, so a message stays one line.
+std::string QuoteValue(std::string_view text);
+
+// Returns "path:line:column: what" (": what" after the line when column is 0),
+// the form of every message about a data row.
+std::string LocatedMessage(const std::string& path, int64_t line, int column, const std::string& what);
+
+// Describes why `text` is not a usable number, e.g. "price 'abc' is not a
+// number"; empty for kOk.
+std::string NumberProblem(NumberStatus status, std::string_view what, std::string_view text);
+
+// Levenshtein distance between two strings.
+int EditDistance(std::string_view a, std::string_view b);
+
+// Returns the candidate closest to `word` by edit distance when it is close
+// enough to be a plausible typo (distance <= max(2, |word| / 3)), else "".
+std::string NearestName(std::string_view word, const std::vector<std::string>& candidates);
+
+// Joins names with ", ".
+std::string JoinNames(const std::vector<std::string>& names, std::string_view separator = ", ");
+
+}  // namespace paritas
+
+#endif  // PARITAS_BASE_TEXT_H_

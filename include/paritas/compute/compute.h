@@ -1,0 +1,130 @@
+// The main job: from a loaded survey to normalised parities for every basic
+// heading and every aggregate of the classification, with real expenditure.
+#ifndef PARITAS_COMPUTE_COMPUTE_H_
+#define PARITAS_COMPUTE_COMPUTE_H_
+
+#include <string>
+#include <vector>
+
+#include <Eigen/Core>
+
+#include "paritas/aggregation/aggregation.h"
+#include "paritas/survey/config.h"
+#include "paritas/elementary/elementary.h"
+#include "paritas/survey/survey.h"
+
+namespace paritas {
+
+struct ComputeOptions {
+  ElementaryOptions elementary;
+  AggregationMethod aggregation = AggregationMethod::kGeksFisher;
+  Reference reference;
+  // Worker threads for headings; 0 = all cores.
+  int num_threads = 0;
+  // Aggregate nodes whose bilateral matrices are kept in the result (for
+  // bilateral tables and spreads); the root's are always kept.
+  std::vector<int> keep_bilaterals;
+
+  bool IsValid(std::string* error) const;
+  // The options a run configuration asks for.
+  static ComputeOptions FromConfig(const RunConfig& config);
+};
+
+// Parities of one node (basic heading or aggregate) for every region.
+struct NodeResult {
+  int node = -1;          // classification node index
+  bool is_heading = false;
+  int heading = -1;       // heading index when is_heading
+  // Parity (price level index), reference = 100; NaN where the region has none.
+  Eigen::VectorXd parity;
+  // Standard error of ln parity relative to the reference (CPD headings).
+  Eigen::VectorXd log_se;
+  Eigen::VectorXd log_se_robust;
+  // Nominal expenditure on the node's headings (currency units); NaN where
+  // the region has no expenditure row for any of them.
+  Eigen::VectorXd expenditure;
+  // expenditure / (parity / 100): spending in the reference's prices.
+  Eigen::VectorXd real_expenditure;
+  // Real expenditure per head as an index, whole country = 100 (total real
+  // expenditure / total population over the regions with all three values);
+  // NaN without populations.
+  Eigen::VectorXd real_per_capita_index;
+  // 1 = dearest region of the node; 0 where no parity.
+  Eigen::VectorXi rank;
+  // Headings: items priced and quotes per region. Aggregates: headings used.
+  Eigen::VectorXi num_items;
+  Eigen::VectorXi num_quotes;
+  Eigen::VectorXi num_headings;
+  int num_regions_with_parity = 0;
+  bool identified = true;
+  std::vector<std::vector<int>> groups;
+  // How the node was normalised ("mean", "weighted-mean", a region code, or
+  // "mean (reference region absent)").
+  std::string reference_used;
+  // Aggregates: RMS log distance between bilaterals and GEKS parities.
+  double rms_log_residual = 0.0;
+};
+
+struct ParityResult {
+  // One per classification node, in node order.
+  std::vector<NodeResult> nodes;
+  // Elementary detail (residuals, fits) per basic heading.
+  std::vector<HeadingParities> headings;
+  // Bilateral matrices per node: filled for the root and the nodes in
+  // ComputeOptions::keep_bilaterals that are aggregates, empty otherwise.
+  std::vector<BilateralMatrices> bilaterals;
+};
+
+enum class ComputeOutcome {
+  kNotRun,
+  kOk,
+  kInvalidOptions,     // options or reference region invalid (exit 1)
+  kComputationFailed,  // e.g. unlinked regions in a heading (exit 2)
+};
+
+struct ComputeSummary {
+  ComputeOutcome outcome = ComputeOutcome::kNotRun;
+  std::string message = "not run";
+  // Things the user must know: regions without parities, headings dropped.
+  std::vector<std::string> warnings;
+  int num_headings_given = 0;
+  int num_headings_used = 0;  // headings with parities
+  int num_aggregates = 0;
+  double elementary_seconds = 0.0;
+  double aggregation_seconds = 0.0;
+
+  std::string BriefReport() const;
+};
+
+// Computes every node's parities. Returns true on success; never aborts on
+// data.
+bool ComputeParities(const Survey& survey, const ComputeOptions& options, ParityResult* result,
+                     ComputeSummary* summary);
+
+// The arrays an aggregate node is computed from (heading parities on the
+// ratio scale and expenditure, regions x the node's headings).
+NodeArrays NodeInputArrays(const Survey& survey, const ParityResult& result, int node);
+
+// Chooses the normalisation weights of a node, one per region (0 = does not
+// count): the reference region (survey index `reference_region`) when it has
+// a parity, else the expenditure-weighted or plain mean over the regions with
+// a parity. Returns the label of the reference used ("mean", "weighted-mean",
+// the region code, or "mean (...)" for a fallback).
+std::string ReferenceWeights(const Reference& reference, int reference_region,
+                             const Eigen::VectorXd& log_parity, const Eigen::VectorXd& expenditure,
+                             std::vector<double>* weights);
+
+// Shifts ln parities so that their weighted mean over the regions with a
+// parity and a positive weight is 0.
+void NormaliseLogParities(const std::vector<double>& weights, Eigen::VectorXd* log_parity);
+
+// Nominal expenditure of each region on the node's headings (sum of its
+// expenditure rows; NaN where it has none).
+Eigen::VectorXd NodeExpenditure(const Survey& survey, int node);
+
+// Describes groups of regions by code: "{a, b} and {c}".
+std::string DescribeGroups(const Survey& survey, const std::vector<std::vector<int>>& groups);
+
+}  // namespace paritas
+
+#endif  // PARITAS_COMPUTE_COMPUTE_H_

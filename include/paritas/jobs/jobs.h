@@ -1,0 +1,88 @@
+// The jobs the command line runs, as library entry points: each resets its
+// summary, validates, runs the stages, writes its outputs and returns an exit
+// code (0 ok, 1 invalid input or configuration, 2 computation failed).
+#ifndef PARITAS_JOBS_JOBS_H_
+#define PARITAS_JOBS_JOBS_H_
+
+#include <string>
+#include <vector>
+
+#include "paritas/compute/compute.h"
+#include "paritas/survey/config.h"
+#include "paritas/uncertainty/outliers.h"
+#include "paritas/output/run_record.h"
+#include "paritas/survey/survey.h"
+#include "paritas/survey/survey_loader.h"
+
+namespace paritas {
+
+inline constexpr int kExitOk = 0;
+inline constexpr int kExitInvalidInput = 1;
+inline constexpr int kExitComputationFailed = 2;
+
+// Structure of one basic heading, as `check` reports it.
+struct HeadingCheck {
+  int heading = -1;
+  int num_regions_priced = 0;
+  int num_items_priced = 0;
+  int num_items_listed = 0;
+  int64_t num_cells = 0;
+  int64_t num_quotes = 0;
+  // Cells priced / (regions priced x items priced).
+  double fill_share = 0.0;
+  std::vector<std::vector<int>> groups;  // linked groups; one when linked
+  std::vector<int> regions_without_prices;
+  std::vector<int> regions_without_expenditure;  // among regions with prices
+  // Cells flagged as outliers against the heading's CPD fit; -1 when the
+  // parities could not be computed.
+  int num_flagged_cells = -1;
+};
+
+struct CheckSummary {
+  int exit_code = kExitInvalidInput;
+  std::string message = "not run";
+  LoadSummary load;
+  Survey survey;
+  std::vector<HeadingCheck> headings;
+  int num_unlinked_headings = 0;
+  double outlier_threshold = 3.5;
+  bool usable = false;
+
+  // The readable summary printed by `paritas check`.
+  std::string FullReport() const;
+};
+
+// Validates a survey and describes its structure.
+int RunCheck(const RunConfig& config, CheckSummary* summary);
+
+struct ComputeJobSummary {
+  int exit_code = kExitInvalidInput;
+  std::string message = "not run";
+  LoadSummary load;
+  ComputeSummary compute;
+  Survey survey;
+  ParityResult result;
+  OutlierReport outliers;
+  // Files written, relative to the output folder.
+  std::vector<std::string> outputs;
+  std::vector<StageTiming> stages;
+  std::vector<std::string> warnings;
+
+  // What `paritas compute` prints: counts, the root table, warnings.
+  std::string FullReport() const;
+};
+
+// Loads, computes and writes every output of `paritas compute`.
+int RunCompute(const RunConfig& config, ComputeJobSummary* summary);
+
+// Resolves the `matrices` setting to node indices ({} = root only; "all" =
+// every node). Returns false with a message for an unknown node code.
+bool ResolveMatrixNodes(const Classification& tree, const std::vector<std::string>& codes,
+                        std::vector<int>* nodes, std::string* error);
+
+// Lists up to `limit` rejected rows, one message per line.
+std::string DescribeRejectedRows(const LoadSummary& load, size_t limit = 20);
+
+}  // namespace paritas
+
+#endif  // PARITAS_JOBS_JOBS_H_

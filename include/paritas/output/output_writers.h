@@ -1,0 +1,78 @@
+// Output files of `paritas compute`: the parity table, parity matrices,
+// bilateral tables and the terminal summary. Writers build text in memory
+// (tests read it directly); WriteOutputFiles puts a set of files in place
+// whole or not at all.
+#ifndef PARITAS_OUTPUT_OUTPUT_WRITERS_H_
+#define PARITAS_OUTPUT_OUTPUT_WRITERS_H_
+
+#include <string>
+#include <vector>
+
+#include <Eigen/Core>
+
+#include "paritas/aggregation/bilateral_matrix.h"
+#include "paritas/compute/compute.h"
+#include "paritas/survey/survey.h"
+
+namespace paritas {
+
+// Decimals written for parities, indices and bilateral indices.
+inline constexpr int kIndexDecimals = 6;
+// Decimals written for money amounts (expenditure, real expenditure).
+inline constexpr int kMoneyDecimals = 4;
+// Decimals written for standard errors of ln parities.
+inline constexpr int kLogDecimals = 8;
+
+// A safe file name for a node code: letters, digits, '-', '_' and '.' are
+// kept, any other byte becomes '_'; a name that had to change, starts with
+// '.', or is empty gets '-' and 8 hex digits of the code's hash appended so
+// distinct codes never share a file. At most 100 bytes before the suffix.
+std::string NodeFileName(const std::string& code);
+
+// parities.csv: one row per node x region, nodes in classification order,
+// regions in survey order. Columns: node, kind, region, parity, expenditure,
+// real_expenditure, real_per_capita_index, log_se, log_se_robust, rank,
+// num_items, num_quotes, num_headings.
+std::string ParitiesCsv(const Survey& survey, const ParityResult& result);
+
+// matrix/<node>.csv: header `region,` then the region codes (regions with a
+// parity); cell (a, b) = 100 x parity(b) / parity(a).
+std::string ParityMatrixCsv(const Survey& survey, const NodeResult& node);
+
+// bilateral/<aggregate>.csv: from,to,laspeyres,paasche,fisher,tornqvist,
+// spread,num_headings for every ordered pair of distinct regions with a
+// parity; spread = |ln(Laspeyres / Paasche)|.
+std::string AggregateBilateralCsv(const Survey& survey, const NodeResult& node,
+                                  const BilateralMatrices& bilaterals);
+
+// bilateral/<heading>.csv: from,to,jevons,num_items.
+std::string HeadingBilateralCsv(const Survey& survey, const NodeResult& node,
+                                const Eigen::MatrixXd& jevons, const Eigen::MatrixXi& num_items);
+
+// Paasche-Laspeyres spread statistics of one region against all others.
+struct RegionSpread {
+  double median = 0.0;
+  double max = 0.0;
+  int worst_partner = -1;
+};
+std::vector<RegionSpread> RegionSpreads(const BilateralMatrices& bilaterals);
+
+// The terminal table of the root node: regions sorted dearest first, with
+// parity, rank, real expenditure per head and Paasche-Laspeyres spread.
+std::string RootTable(const Survey& survey, const ParityResult& result,
+                      const std::vector<RegionSpread>& spreads);
+
+// A file to write, relative to the output folder.
+struct OutputFile {
+  std::string relative_path;
+  std::string contents;
+};
+
+// Writes every file into a staging folder beside `folder`, then moves them
+// into place; on any failure nothing in `folder` changes and `error` says why.
+bool WriteOutputFiles(const std::string& folder, const std::vector<OutputFile>& files,
+                      std::string* error);
+
+}  // namespace paritas
+
+#endif  // PARITAS_OUTPUT_OUTPUT_WRITERS_H_

@@ -1,0 +1,100 @@
+// The HTML report: one self-contained page (inline SVG and CSS, one small
+// script that only sorts tables) for people who review parities by looking.
+// Everything is drawn on the server side from the result, so the page opens
+// offline, prints, and carries no data inside script.
+#ifndef PARITAS_OUTPUT_REPORT_H_
+#define PARITAS_OUTPUT_REPORT_H_
+
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "paritas/compute/compute.h"
+#include "paritas/survey/config.h"
+#include "paritas/uncertainty/outliers.h"
+#include "paritas/survey/survey.h"
+#include "paritas/survey/survey_loader.h"
+
+namespace paritas {
+
+// One flagged cell (region x item of a basic heading), as the outlier
+// listing gives it.
+struct ReportOutlier {
+  std::string heading;  // basic heading code
+  std::string region;   // region code
+  std::string item;     // item code
+  // Cell price observed (geometric mean of the quotes) and the price the
+  // model predicts, in currency units.
+  double observed = 0.0;
+  double predicted = 0.0;
+  // Residual of ln price divided by its standard error; the sign says
+  // whether the observed price is above (+) or below (-) the prediction.
+  double standardised_residual = 0.0;
+  int num_quotes = 0;  // quotes behind the cell
+};
+
+// Sensitivity of the root's parities, when a sensitivity run was made.
+// Every vector may be empty; the report draws only what is filled.
+struct ReportSensitivity {
+  // Interval of the root parity of each region (survey order, reference =
+  // 100); NaN where none. Both empty or both of size num_regions.
+  std::vector<double> parity_lower;
+  std::vector<double> parity_upper;
+  // What the interval is, for the legend, e.g. "90 % interval over item
+  // resamples". Default "uncertainty interval".
+  std::string interval_label = "uncertainty interval";
+
+  // One point of the coverage curve: the survey thinned to a share of each heading's
+  // items, and the typical change of the root's parities that follows.
+  struct CoveragePoint {
+    double coverage_share = 1.0;  // share of each heading's items kept, in (0, 1]
+    // Median over regions of |ln(parity thinned / parity full)|, x 100
+    // (percent, about).
+    double median_spread_pct = 0.0;
+  };
+  std::vector<CoveragePoint> coverage_curve;
+
+  // Root parity of each region (survey order, reference = 100) under each
+  // alternative method; method_parity[m] has num_regions entries, NaN where
+  // the method gives none. method_names[m] names method m.
+  std::vector<std::string> method_names;
+  std::vector<std::vector<double>> method_parity;
+};
+
+// Everything the report shows. Pointers may be null where a part was not
+// computed; the report leaves that section out.
+struct ReportInputs {
+  const RunConfig* config = nullptr;
+  const Survey* survey = nullptr;
+  const LoadSummary* load = nullptr;
+  const ParityResult* result = nullptr;
+  const ComputeSummary* compute = nullptr;
+  std::vector<std::string> warnings;
+  // Flagged outliers; null = outliers were not looked for (section left
+  // out), empty = none beyond the threshold.
+  const std::vector<ReportOutlier>* outliers = nullptr;
+  // Sensitivity of the root; null = not run (section and intervals left out).
+  const ReportSensitivity* sensitivity = nullptr;
+};
+
+// Regions and cells shown individually in the grids (region x aggregate,
+// parity matrix, coverage) before they are thinned (every k-th region by
+// price level) or binned; the full data are in the CSV outputs.
+inline constexpr int kReportMaxGridRegions = 60;
+// Regions drawn as labelled horizontal bars; above this the price-level chart
+// becomes a compact column per region.
+inline constexpr int kReportMaxLabelledBars = 80;
+
+// The outlier listing as the report shows it (quotes are marked in the item
+// column, e.g. "milk (highest quote)").
+std::vector<ReportOutlier> ToReportOutliers(const Survey& survey, const OutlierReport& report);
+
+// Returns the whole page. Never fails: missing inputs leave sections out.
+std::string ReportHtml(const ReportInputs& inputs);
+
+// Escapes text for HTML element content and attribute values (& < > " ').
+std::string HtmlEscape(std::string_view text);
+
+}  // namespace paritas
+
+#endif  // PARITAS_OUTPUT_REPORT_H_

@@ -1,0 +1,46 @@
+// The machine-readable run record (run.json): what was read, how it was
+// computed, what came out, and how long each stage took.
+#ifndef PARITAS_OUTPUT_RUN_RECORD_H_
+#define PARITAS_OUTPUT_RUN_RECORD_H_
+
+#include <string>
+#include <utility>
+#include <vector>
+
+#include "paritas/compute/compute.h"
+#include "paritas/survey/config.h"
+#include "paritas/survey/survey.h"
+#include "paritas/survey/survey_loader.h"
+
+namespace paritas {
+
+// Bumped whenever a field changes meaning or is removed.
+inline constexpr int kRunRecordSchemaVersion = 1;
+
+struct StageTiming {
+  std::string stage;  // "read", "cells", "elementary", "aggregation", "write", ...
+  double seconds = 0.0;
+};
+
+struct RunRecord {
+  std::string command;  // "check", "compute", "sensitivity"
+  const RunConfig* config = nullptr;
+  const LoadSummary* load = nullptr;
+  const Survey* survey = nullptr;        // may be null when loading failed
+  const ComputeSummary* compute = nullptr;  // may be null
+  std::string outcome;  // "ok", "invalid input", "computation failed"
+  std::string message;
+  int exit_code = 0;
+  std::vector<std::string> warnings;
+  std::vector<std::string> outputs;  // files written, relative to the output folder
+  std::vector<StageTiming> stages;
+  // Further top-level sections as (key, JSON text), e.g. sensitivity settings.
+  std::vector<std::pair<std::string, std::string>> sections;
+};
+
+// Returns the record as pretty-printed JSON with keys in a fixed order.
+std::string RunRecordJson(const RunRecord& record);
+
+}  // namespace paritas
+
+#endif  // PARITAS_OUTPUT_RUN_RECORD_H_

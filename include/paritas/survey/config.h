@@ -1,0 +1,120 @@
+// The run configuration: which survey files to read, how to compute, where to
+// write. Read from YAML (our own keys, documented in the README); every enum
+// has ToString and a case-insensitive FromString shared with the command line.
+#ifndef PARITAS_SURVEY_CONFIG_H_
+#define PARITAS_SURVEY_CONFIG_H_
+
+#include <string>
+#include <vector>
+
+#include "paritas/survey/classification.h"
+
+namespace paritas {
+
+// How parities are normalised at every node.
+enum class ReferenceKind {
+  kMean,          // geometric mean of the regions present = 100 (default)
+  kWeightedMean,  // expenditure-weighted geometric mean = 100
+  kRegion,        // one region = 100
+};
+
+struct Reference {
+  ReferenceKind kind = ReferenceKind::kMean;
+  // Region code when kind == kRegion.
+  std::string region;
+
+  // "mean", "weighted-mean", or the region code.
+  std::string ToString() const;
+  // Any text that is not "mean" or "weighted-mean" (case-insensitive) is a
+  // region code, checked against the survey later.
+  static Reference FromString(const std::string& text);
+};
+
+// Method for parities within a basic heading.
+enum class ElementaryMethod {
+  kCpd,         // Country-Product-Dummy least squares (default)
+  kJevonsGeks,  // GEKS over bilateral Jevons indices
+  kRobustCpd,   // CPD with a robust loss (Huber by default), solved by Ceres
+};
+// Method for parities of aggregates.
+enum class AggregationMethod {
+  kGeksFisher,     // GEKS over bilateral Fisher indices (default)
+  kGeksTornqvist,  // GEKS over bilateral Törnqvist indices
+};
+// What to do with an invalid data row.
+enum class InvalidRowPolicy {
+  kStop,  // report up to 20 bad rows and stop with exit code 1 (default)
+  kSkip,  // leave them out, list them in rejected.csv, and go on
+};
+
+std::string ToString(ElementaryMethod method);
+std::string ToString(AggregationMethod method);
+std::string ToString(InvalidRowPolicy policy);
+// Case-insensitive; returns false for unknown names.
+bool FromString(const std::string& text, ElementaryMethod* method);
+bool FromString(const std::string& text, AggregationMethod* method);
+bool FromString(const std::string& text, InvalidRowPolicy* policy);
+// The allowed names, for --help and messages.
+std::vector<std::string> ElementaryMethodNames();
+std::vector<std::string> AggregationMethodNames();
+std::vector<std::string> InvalidRowPolicyNames();
+
+// Paths of the survey files (absolute, or relative to the working folder
+// after resolution against the configuration's folder). Empty = not given.
+struct SurveyFiles {
+  std::string prices;       // required
+  std::string expenditure;  // required
+  std::string regions;      // optional
+  std::string items;        // optional
+};
+
+struct RunConfig {
+  // The configuration file read; empty when built in code.
+  std::string config_path;
+  SurveyFiles survey;
+  // True when the configuration gives a classification; otherwise a root
+  // `all` holding every heading is used.
+  bool has_classification = false;
+  Classification classification;
+  // Where the classification came from (a file path, or "<config>:classification").
+  std::string classification_source;
+  Reference reference;
+  ElementaryMethod elementary = ElementaryMethod::kCpd;
+  AggregationMethod aggregation = AggregationMethod::kGeksFisher;
+  InvalidRowPolicy invalid_rows = InvalidRowPolicy::kStop;
+  // Output folder; default "out" beside the configuration.
+  std::string output = "out";
+  // Nodes whose matrices and bilateral tables are written: empty = the root
+  // only; {"all"} = every node.
+  std::vector<std::string> matrices;
+  // CPD weight of a representative cell relative to 1 for the others. 1 =
+  // unweighted (default); 3 is common practice in international comparisons.
+  double representative_weight = 1.0;
+  // Cells whose |standardised residual| exceeds this are listed as outliers.
+  // 3.5 (default): beyond what normal errors give more than about once in
+  // 2,000 cells, yet catches the gross errors (wrong unit, misplaced decimal)
+  // seen in practice.
+  double outlier_threshold = 3.5;
+  // Also computes heteroskedasticity-robust (HC0 sandwich) standard errors of
+  // CPD parities, column log_se_robust (default false: costs about 10x the
+  // fit at 1,000 regions).
+  bool robust_standard_errors = false;
+  // Writes report.html (default true).
+  bool report = true;
+  // Worker threads; 0 = all cores.
+  int threads = 0;
+
+  bool IsValid(std::string* error) const;
+};
+
+// Reads a run configuration. Paths inside are resolved against the folder of
+// `path`. Returns false with a message naming file, line and key on any
+// problem; an unknown key suggests the nearest valid one.
+bool LoadRunConfig(const std::string& path, RunConfig* config, std::string* error);
+// Same from text; `path` names the file and sets the base folder.
+bool ParseRunConfig(const std::string& yaml_text, const std::string& path, RunConfig* config,
+                    std::string* error);
+
+}  // namespace paritas
+
+#endif  // PARITAS_SURVEY_CONFIG_H_

@@ -1,0 +1,262 @@
+// Sensitivity of parities to the sample of items and to the method: a
+// bootstrap over items, leave-one-out runs, coverage curves and a method
+// spread. Every run recomputes the whole chain (elementary -> aggregates ->
+// normalisation). Resampling items is expressed as an integer weight per item
+// (its multiplicity, 0 = dropped) applied to the survey's cells as loaded, so
+// no replicate copies the survey.
+#ifndef PARITAS_UNCERTAINTY_SENSITIVITY_H_
+#define PARITAS_UNCERTAINTY_SENSITIVITY_H_
+
+#include <cstdint>
+#include <functional>
+#include <string>
+#include <vector>
+
+#include <Eigen/Core>
+
+#include "paritas/compute/compute.h"
+#include "paritas/survey/config.h"
+#include "paritas/output/report.h"
+#include "paritas/survey/survey.h"
+#include "paritas/survey/survey_loader.h"
+
+namespace paritas {
+
+struct SensitivityOptions {
+  // Bootstrap replicates B, a whole number from 2 to 100,000 (default 500).
+  int replicates = 500;
+  // Seed of the resampling; any value (default 1). Replicate b draws from
+  // its own stream derived from (seed, b), so output does not depend on the
+  // number of threads.
+  uint64_t seed = 1;
+  // Level of the percentile intervals, in (0, 1) exclusive (default 0.95).
+  double level = 0.95;
+  // Shares of each heading's items kept in the coverage curve, each in
+  // (0, 1], no repeats (default 90, 75, 50 and 25 %).
+  std::vector<double> coverage_levels = {0.9, 0.75, 0.5, 0.25};
+  // Random subsamples per coverage level, 2 to 10,000 (default 20).
+  int coverage_repetitions = 20;
+  // Parts to run (all by default); at least one must be on.
+  bool run_bootstrap = true;
+  bool run_leave_one_out = true;
+  bool run_coverage = true;
+  bool run_methods = true;
+  // Worker threads over replicates; 0 = all cores (default). Each replicate
+  // runs the chain on one thread.
+  int num_threads = 0;
+  // Called now and then from one thread with the part running ("bootstrap",
+  // "leave-one-out", "coverage", "methods"), units done and units in the
+  // part; may be empty. For progress display only.
+  std::function<void(const std::string& part, int64_t done, int64_t total)> progress;
+
+  // Returns false and sets `error` for a field out of range, e.g.
+  // "replicates must be a whole number from 2 to 100000, found 0".
+  bool IsValid(std::string* error) const;
+};
+
+// Names of the parts, as --parts takes them: "bootstrap", "leave-one-out",
+// "coverage", "methods".
+std::vector<std::string> SensitivityPartNames();
+// Sets the run_* flags of `options` from a list of part names
+// (case-insensitive); returns false with a message naming an unknown part.
+bool SetSensitivityParts(const std::vector<std::string>& parts, SensitivityOptions* options,
+                         std::string* error);
+
+// The spread of parities when a random share of the items is kept, one per
+// coverage level. Matrices are nodes x regions (classification node order,
+// survey region order).
+struct CoverageLevel {
+  double coverage = 0.0;  // share of each heading's items kept, (0, 1]
+  int num_repetitions = 0;
+  // Standard deviation over repetitions of ln parity (divisor n - 1), in log
+  // points; NaN with fewer than two repetitions giving the region a parity.
+  Eigen::MatrixXd log_sd;
+  // Median and largest |ln(parity of the subsample / full-sample parity)|
+  // over the repetitions, in log points; NaN when no repetition gave one.
+  Eigen::MatrixXd median_abs_log_change;
+  Eigen::MatrixXd max_abs_log_change;
+  // Repetitions in which the region had no parity (it lost all its items).
+  Eigen::MatrixXi num_missing;
+};
+
+// Parities of one combination of elementary and aggregation method.
+struct MethodRun {
+  ElementaryMethod elementary = ElementaryMethod::kCpd;
+  AggregationMethod aggregation = AggregationMethod::kGeksFisher;
+  // "<elementary>/<aggregation>", e.g. "cpd/geks-fisher".
+  std::string name;
+  // Parity (reference = 100), nodes x regions; NaN where none or the run
+  // failed.
+  Eigen::MatrixXd parity;
+  // Empty when the run succeeded, else why it failed.
+  std::string message;
+};
+
+// Results per node x region: every matrix has one row per classification
+// node (node order) and one column per region (survey order). Parts not run
+// leave their matrices empty.
+struct SensitivityResult {
+  // Full-sample parity (reference = 100) and rank (1 = dearest, 0 = none).
+  Eigen::MatrixXd parity;
+  Eigen::MatrixXi rank;
+
+  // Bootstrap: median and percentile interval of the replicates' parities
+  // (type-7 quantiles, see PercentileType7), standard deviation of their ln
+  // parities (divisor B - 1; Efron and Tibshirani 1993, eq. 6.6), the rank
+  // interval (type-7 quantiles of the ranks, rounded outwards to whole
+  // ranks: rank_low is the dearest end) and the replicates in which the
+  // region had a parity.
+  Eigen::MatrixXd boot_median;
+  Eigen::MatrixXd boot_lower;
+  Eigen::MatrixXd boot_upper;
+  Eigen::MatrixXd boot_log_se;
+  Eigen::MatrixXi boot_rank_low;
+  Eigen::MatrixXi boot_rank_high;
+  Eigen::MatrixXi boot_num_replicates;
+
+  // Leave one out. Jackknife standard error of ln parity, stratified by
+  // heading: var = sum over the node's headings h of (n_h - 1) / n_h x
+  // sum over items i of h of (theta_(i) - mean_h theta)^2, with theta_(i)
+  // the ln parity without item i and n_h the items of h whose removal left
+  // the region a parity (Quenouille 1956, Tukey 1958; stratified form as in
+  // Wolter 2007, ch. 4). For a heading it is the plain delete-one jackknife.
+  Eigen::MatrixXd jackknife_log_se;
+  // Largest |ln(parity without / parity with)| over the items of the node,
+  // signed (ln(without / with)), and the item (survey item index, -1 when
+  // none). Dropping an item that leaves the region no parity is counted in
+  // loo_num_items_lost instead.
+  Eigen::MatrixXd loo_item_log_change;
+  Eigen::MatrixXi loo_item;
+  Eigen::MatrixXi loo_num_items_lost;
+  // The same over the node's headings (aggregates with two or more
+  // headings only; NaN and -1 elsewhere): heading index whose removal moved
+  // the region most.
+  Eigen::MatrixXd loo_heading_log_change;
+  Eigen::MatrixXi loo_heading;
+
+  // Coverage curve, one entry per coverage level in the order given.
+  std::vector<CoverageLevel> coverage;
+
+  // Method spread: one run per combination of elementary {cpd, jevons-geks,
+  // robust-cpd} x aggregation {geks-fisher, geks-tornqvist}, and
+  // |ln(max parity / min parity)| over the combinations that gave the region
+  // a parity, in log points.
+  std::vector<MethodRun> methods;
+  Eigen::MatrixXd method_log_spread;
+};
+
+enum class SensitivityOutcome {
+  kNotRun,
+  kOk,
+  kInvalidOptions,     // options invalid (exit 1)
+  kComputationFailed,  // the full-sample computation failed (exit 2)
+};
+
+struct SensitivitySummary {
+  SensitivityOutcome outcome = SensitivityOutcome::kNotRun;
+  std::string message = "not run";
+  // The full-sample computation (its warnings apply to every part).
+  ComputeSummary full_sample;
+  // Replicates run, and those in which some heading's resampled items left
+  // its regions unlinked (only the largest linked group kept a parity there)
+  // or some region priced nothing in a heading.
+  int num_replicates = 0;
+  int num_replicates_unlinked = 0;
+  int num_replicates_region_lost = 0;
+  // Items and headings dropped in turn by leave-one-out.
+  int num_items_dropped = 0;
+  int num_headings_dropped = 0;
+  // Subsamples computed for the coverage curve; method runs that failed.
+  int num_coverage_runs = 0;
+  int num_method_runs = 0;
+  int num_method_runs_failed = 0;
+  double full_sample_seconds = 0.0;
+  double bootstrap_seconds = 0.0;
+  double leave_one_out_seconds = 0.0;
+  double coverage_seconds = 0.0;
+  double methods_seconds = 0.0;
+
+  // One line, e.g. "500 bootstrap replicates, 200 items and 29 headings
+  // left out, 80 coverage runs, 6 method runs in 12.3 s".
+  std::string BriefReport() const;
+};
+
+// Runs the parts asked for. `compute` gives the methods and reference of the
+// full-sample run (its standard errors are not recomputed in replicates).
+// Never aborts on data; returns false with the summary's message set when
+// options are invalid or the full-sample computation fails.
+bool RunSensitivity(const Survey& survey, const ComputeOptions& compute,
+                    const SensitivityOptions& options, SensitivityResult* result,
+                    SensitivitySummary* summary);
+
+// Recomputes the chain with weight `item_multiplicity[i]` (a whole number
+// >= 0, one per survey item; 0 drops the item) on every cell of item i, as
+// if the item had been priced that many times over. Fills
+// `node_log_parity` (nodes x regions, normalised like ComputeParities, NaN
+// where a region has no parity). A heading whose weighted items leave its
+// regions unlinked keeps only the largest linked group (ties: the group with
+// the smallest region index); `num_unlinked_headings` counts them when
+// non-null. Returns false with `error` when the options are invalid.
+bool ReplicateParities(const Survey& survey, const ComputeOptions& compute,
+                       const std::vector<double>& item_multiplicity,
+                       Eigen::MatrixXd* node_log_parity, int* num_unlinked_headings,
+                       std::string* error);
+
+// Returns the p-quantile (0 <= p <= 1) of `values` (sorted ascending, not
+// empty) by linear interpolation between order statistics, Hyndman and Fan
+// (1996) type 7: h = (n - 1) p, x[floor h] + (h - floor h)(x[floor h + 1] -
+// x[floor h]). The default of numpy.percentile and R's quantile (common
+// practice).
+double PercentileType7(const std::vector<double>& sorted_values, double p);
+
+// sensitivity/bootstrap.csv: node,region,parity,median,lower,upper,log_se,
+// rank_low,rank_high,num_replicates.
+std::string BootstrapCsv(const Survey& survey, const SensitivityResult& result);
+// sensitivity/leave_one_out.csv: node,region,parity,jackknife_log_se,
+// item_log_change,item,num_items_lost,heading_log_change,heading.
+std::string LeaveOneOutCsv(const Survey& survey, const SensitivityResult& result);
+// sensitivity/coverage_curve.csv: node,coverage,repetitions,region,log_sd,
+// median_abs_log_change,max_abs_log_change,num_missing.
+std::string CoverageCurveCsv(const Survey& survey, const SensitivityResult& result);
+// sensitivity/method_spread.csv: node,region, one parity column per method
+// run (named as MethodRun::name), spread.
+std::string MethodSpreadCsv(const Survey& survey, const SensitivityResult& result);
+// The terminal table: the root node per region, dearest first, with the
+// parts that were run.
+std::string SensitivityTable(const Survey& survey, const SensitivityResult& result,
+                             const SensitivityOptions& options);
+// The `sensitivity` section of run.json (JSON text): settings, counts,
+// seconds per part and, per coverage level, the median over regions of the
+// root's log_sd.
+std::string SensitivityRecordSection(const SensitivityOptions& options,
+                                     const SensitivitySummary& summary,
+                                     const SensitivityResult& result);
+
+// The `paritas sensitivity` job: load, run, write the files under
+// `<output>/sensitivity/` whole or not at all.
+struct SensitivityJobSummary {
+  int exit_code = 1;
+  std::string message = "not run";
+  LoadSummary load;
+  Survey survey;
+  SensitivitySummary sensitivity;
+  SensitivityResult result;
+  std::vector<std::string> outputs;  // relative to the output folder
+  std::vector<std::string> warnings;
+
+  // What the command prints: counts, the root table, notes.
+  std::string FullReport(const SensitivityOptions& options) const;
+};
+
+// Returns the exit code (0 ok, 1 invalid input or options, 2 computation
+// failed).
+// The root node's intervals, coverage curve and method runs as the report
+// draws them.
+ReportSensitivity ToReportSensitivity(const SensitivityResult& result, const SensitivityOptions& options);
+
+int RunSensitivityJob(const RunConfig& config, const SensitivityOptions& options,
+                      SensitivityJobSummary* summary);
+
+}  // namespace paritas
+
+#endif  // PARITAS_UNCERTAINTY_SENSITIVITY_H_

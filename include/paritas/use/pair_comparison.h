@@ -1,0 +1,109 @@
+// A bilateral comparison of two regions with every index formula side by
+// side, beside the transitive (multilateral) parity, so the effect of the
+// formula and of transitivity can be seen, and the headings that drive the
+// gap are listed first.
+//
+// At an aggregate the "prices" are the basic-heading parities (ratio scale)
+// and the "quantities" expenditure / parity, over the headings with a parity
+// and positive expenditure in both regions; at a basic heading the prices
+// are the cell prices (geometric mean of the quotes) of the items both
+// regions priced. The formulas are those of index_formulas.h.
+#ifndef PARITAS_USE_PAIR_COMPARISON_H_
+#define PARITAS_USE_PAIR_COMPARISON_H_
+
+#include <string>
+#include <vector>
+
+#include "paritas/compute/compute.h"
+#include "paritas/survey/survey.h"
+
+namespace paritas {
+
+// What one basic heading (at an aggregate) or item (at a heading)
+// contributes to the comparison of region b ("to") with region a ("from").
+struct PairContribution {
+  std::string code;  // heading code (aggregate) or item code (heading)
+  // Expenditure shares over the matched headings; NaN at a heading.
+  double share_from = 0.0;
+  double share_to = 0.0;
+  // p_b / p_a of the heading or item.
+  double price_relative = 0.0;
+  // Aggregate: additive contribution to ln Törnqvist, ½ (s_a + s_b) ln r.
+  // Heading: contribution to ln Jevons, ln r / n. These sum to the log
+  // index exactly (up to rounding).
+  double log_contribution = 0.0;
+  // Aggregate: contribution to Fisher - 1 in the additive decomposition of
+  // Reinsdorf, Diewert and Ehemann (2002) (see FisherContributions); they
+  // sum to Fisher - 1. NaN at a heading.
+  double fisher_contribution = 0.0;
+};
+
+struct PairComparison {
+  std::string node;  // node code
+  bool is_heading = false;
+  std::string from;  // region a
+  std::string to;    // region b
+  // Headings (aggregate) or items (heading) matched in both regions.
+  int num_matched = 0;
+
+  // Basic heading: unweighted formulas over the matched items (NaN at an
+  // aggregate).
+  double jevons = 0.0;
+  double dutot = 0.0;  // ratio of average prices
+  double carli = 0.0;  // average of price relatives
+
+  // Aggregate: price indices of b relative to a (NaN at a heading).
+  double laspeyres = 0.0;
+  double paasche = 0.0;
+  double fisher = 0.0;
+  double tornqvist = 0.0;
+  double walsh = 0.0;
+  // Expenditure of b / expenditure of a over the matched headings.
+  double value_ratio = 0.0;
+  // Quantity (volume) indices implied by each price index: value_ratio /
+  // price index. implied_quantity_laspeyres is the Paasche quantity index
+  // and vice versa.
+  double implied_quantity_laspeyres = 0.0;
+  double implied_quantity_paasche = 0.0;
+  double implied_quantity_fisher = 0.0;
+  double implied_quantity_tornqvist = 0.0;
+  double implied_quantity_walsh = 0.0;
+  // The Fisher quantity index computed directly (Fisher with prices and
+  // quantities swapped); fisher * fisher_quantity = value_ratio (the
+  // product test).
+  double fisher_quantity = 0.0;
+  // |ln(Laspeyres / Paasche)|: large when price and spending patterns differ.
+  double log_spread = 0.0;
+
+  // Transitive parity of b relative to a from compute: parity(b) /
+  // parity(a) at the node (ratio scale); NaN where either has none.
+  double transitive = 0.0;
+  // ln(bilateral / transitive), the bilateral being Fisher at an aggregate
+  // and Jevons at a heading: what transitivity costs this pair.
+  double log_gap = 0.0;
+
+  // Sorted by |log_contribution|, largest first (ties by code).
+  std::vector<PairContribution> contributions;
+};
+
+// Compares region `to` with region `from` at `node` (a classification code;
+// empty = the root). Returns false with a message (unknown region or node,
+// nothing matched) in `error`; never aborts on data.
+bool ComparePair(const Survey& survey, const ParityResult& result, const std::string& from,
+                 const std::string& to, const std::string& node, PairComparison* comparison,
+                 std::string* error);
+
+// CSV with columns measure,value: rows `from`, `to` and `node` (codes), then
+// one row per formula or quantity (e.g. `fisher,1.401050`, 6 decimals;
+// counts as integers, an absent value as an empty cell), then the
+// contributions: at an aggregate `tornqvist_log_contribution:<heading>` rows
+// sorted by size, then `fisher_contribution:<heading>` rows sorted by
+// theirs; at a heading `jevons_log_contribution:<item>` rows.
+std::string PairCsv(const PairComparison& comparison);
+
+// The terminal table: formulas side by side, then the contributions.
+std::string PairTable(const PairComparison& comparison);
+
+}  // namespace paritas
+
+#endif  // PARITAS_USE_PAIR_COMPARISON_H_

@@ -1,0 +1,227 @@
+// All-pairs bilateral indices from a few masked matrix products.
+//
+// Each pairwise sum over matched columns, sum_h m_ah m_bh x_ah y_bh, is
+// ((M∘X)(M∘Y)ᵀ)_ab, so a region x region matrix of sums costs one GEMM. Log
+// prices are centred per column first: the indices depend only on log price
+// differences within a column, and centring keeps the differences of large
+// products (Törnqvist, Jevons) from losing digits to the price level.
+#include "paritas/aggregation/bilateral_matrix.h"
+
+#include <algorithm>
+#include <cassert>
+#include <cmath>
+#include <limits>
+
+namespace paritas {
+namespace {
+
+constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
+
+// Subtracts from each column of `log_price` the mean over its masked
+// entries; masked-out entries stay 0.
+void CentreColumns(const Eigen::MatrixXd& mask, Eigen::MatrixXd* log_price) {
+  for (Eigen::Index h = 0; h < log_price->cols(); ++h) {
+    const double num_present = mask.col(h).sum();
+    if (num_present == 0.0) continue;
+    const double mean = log_price->col(h).sum() / num_present;
+    log_price->col(h) -= mean * mask.col(h);
+  }
+}
+
+// Sets entries of pairs without a matched column to NaN and the diagonal of
+// regions with any column to exactly 1 (rounding would otherwise leave
+// 1 ± 1e-16 where the identity test requires 1).
+void FixEmptyPairsAndDiagonal(const Eigen::MatrixXd& count, Eigen::MatrixXd* index) {
+  *index = (count.array() > 0.0).select(*index, kNaN);
+  for (Eigen::Index a = 0; a < index->rows(); ++a) {
+    if (count(a, a) > 0.0) (*index)(a, a) = 1.0;
+  }
+}
+
+Eigen::MatrixXi ToCounts(const Eigen::MatrixXd& count) {
+  // Sums of 0/1 products are exact in double; rounding only guards the cast.
+  return count.array().round().cast<int>().matrix();
+}
+
+}  // namespace
+
+BilateralOptions BilateralOptions::OnlyFisher() {
+  BilateralOptions options;
+  options.laspeyres_paasche = false;
+  options.tornqvist = false;
+  options.num_matched = false;
+  return options;
+}
+
+BilateralOptions BilateralOptions::OnlyTornqvist() {
+  BilateralOptions options;
+  options.laspeyres_paasche = false;
+  options.fisher = false;
+  options.num_matched = false;
+  return options;
+}
+
+bool BilateralOptions::IsValid(std::string* error) const {
+  if (error != nullptr) error->clear();
+  return true;
+}
+
+BilateralMatrices AllPairsWeighted(const Eigen::MatrixXd& price, const Eigen::MatrixXd& expenditure,
+                                   const BilateralOptions& options) {
+  assert(price.rows() == expenditure.rows() && price.cols() == expenditure.cols());
+  const Eigen::Index num_regions = price.rows();
+  const Eigen::Index num_headings = price.cols();
+  const bool need_value = options.laspeyres_paasche || options.fisher;
+
+  // Masked arrays hold exact zeros where the entry does not count, so NaN or
+  // infinite inputs never reach a product (NaN * 0 would be NaN). Only the
+  // arrays the requested matrices use are filled.
+  Eigen::MatrixXd mask = Eigen::MatrixXd::Zero(num_regions, num_headings);
+  Eigen::MatrixXd masked_expenditure = mask;
+  Eigen::MatrixXd masked_price, masked_quantity, masked_log_price;
+  if (need_value) masked_price = masked_quantity = mask;
+  if (options.tornqvist) masked_log_price = mask;
+  for (Eigen::Index h = 0; h < num_headings; ++h) {
+    for (Eigen::Index r = 0; r < num_regions; ++r) {
+      const double p = price(r, h);
+      const double e = expenditure(r, h);
+      if (!(std::isfinite(p) && std::isfinite(e) && p > 0.0 && e > 0.0)) continue;
+      mask(r, h) = 1.0;
+      masked_expenditure(r, h) = e;
+      if (need_value) {
+        masked_price(r, h) = p;
+        masked_quantity(r, h) = e / p;
+      }
+      if (options.tornqvist) masked_log_price(r, h) = std::log(p);
+    }
+  }
+
+  BilateralMatrices result;
+  // (a, b): sum over matched headings of e_a = p_a q_a. It is > 0 exactly
+  // where the pair matches a heading (a sum of positive terms), so it stands
+  // in for the count when marking empty pairs.
+  Eigen::MatrixXd value_a(num_regions, num_regions);
+  value_a.noalias() = masked_expenditure * mask.transpose();
+  if (options.num_matched) {
+    Eigen::MatrixXd count(num_regions, num_regions);
+    count.noalias() = mask * mask.transpose();
+    result.num_matched = ToCounts(count);
+  }
+
+  // Elementwise work in square tiles: each entry needs its transposed
+  // partner, and tiles keep both in cache.
+  constexpr Eigen::Index kTile = 64;
+  auto for_each_pair = [&](const auto& visit) {
+    for (Eigen::Index b0 = 0; b0 < num_regions; b0 += kTile) {
+      const Eigen::Index b1 = std::min(num_regions, b0 + kTile);
+      for (Eigen::Index a0 = 0; a0 < num_regions; a0 += kTile) {
+        const Eigen::Index a1 = std::min(num_regions, a0 + kTile);
+        for (Eigen::Index b = b0; b < b1; ++b) {
+          for (Eigen::Index a = a0; a < a1; ++a) visit(a, b);
+        }
+      }
+    }
+  };
+  // Pairs without a matched heading are NaN; the diagonal of a region with
+  // any heading is exactly 1 (rounding would otherwise leave 1 ± 1e-16
+  // where the identity test requires 1).
+  auto matched = [&](Eigen::Index a, Eigen::Index b) { return value_a(a, b) > 0.0; };
+  auto on_diagonal_one = [&](Eigen::Index a, Eigen::Index b) {
+    return a == b && value_a(a, a) > 0.0;
+  };
+
+  if (need_value) {
+    // (a, b): sum over matched headings of p_b q_a.
+    Eigen::MatrixXd value_b_basket_a(num_regions, num_regions);
+    value_b_basket_a.noalias() = masked_quantity * masked_price.transpose();
+    if (options.laspeyres_paasche) {
+      result.laspeyres.resize(num_regions, num_regions);
+      result.paasche.resize(num_regions, num_regions);
+    }
+    if (options.fisher) result.fisher.resize(num_regions, num_regions);
+    for_each_pair([&](Eigen::Index a, Eigen::Index b) {
+      double laspeyres = kNaN, paasche = kNaN, fisher = kNaN;
+      if (on_diagonal_one(a, b)) {
+        laspeyres = paasche = fisher = 1.0;
+      } else if (matched(a, b)) {
+        laspeyres = value_b_basket_a(a, b) / value_a(a, b);
+        // Paasche(a, b) = sum e_b / sum p_a q_b: the same two sums for (b, a).
+        paasche = value_a(b, a) / value_b_basket_a(b, a);
+        fisher = std::sqrt(laspeyres * paasche);
+      }
+      if (options.laspeyres_paasche) {
+        result.laspeyres(a, b) = laspeyres;
+        result.paasche(a, b) = paasche;
+      }
+      if (options.fisher) result.fisher(a, b) = fisher;
+    });
+  }
+
+  if (options.tornqvist) {
+    CentreColumns(mask, &masked_log_price);
+    // With shares renormalised over the pair's matched set, the half of
+    // ln T_ab weighted by region a's shares is
+    //   X_ab = sum_h m_ah m_bh e_ah (y_bh - y_ah) / value_a(a, b),
+    // and the half weighted by region b's shares is -X_ba, so
+    // ln T = ½ (X - Xᵀ), antisymmetric by construction.
+    Eigen::MatrixXd half_log(num_regions, num_regions);
+    half_log.noalias() = masked_expenditure * masked_log_price.transpose();
+    Eigen::MatrixXd weighted_log_a(num_regions, num_regions);
+    masked_log_price.array() *= masked_expenditure.array();
+    weighted_log_a.noalias() = masked_log_price * mask.transpose();
+    half_log = (half_log - weighted_log_a).cwiseQuotient(value_a);
+    // The exponential stays one whole-matrix expression so that every entry
+    // goes through the same exp as before the stages were fused.
+    result.tornqvist = (0.5 * (half_log - half_log.transpose())).array().exp().matrix();
+    for_each_pair([&](Eigen::Index a, Eigen::Index b) {
+      if (on_diagonal_one(a, b)) {
+        result.tornqvist(a, b) = 1.0;
+      } else if (!matched(a, b)) {
+        result.tornqvist(a, b) = kNaN;
+      }
+    });
+  }
+  return result;
+}
+
+Eigen::MatrixXd AllPairsJevons(const Eigen::MatrixXd& log_price, const Eigen::MatrixXd& present,
+                               Eigen::MatrixXi* num_matched) {
+  assert(log_price.rows() == present.rows() && log_price.cols() == present.cols());
+  // Zero the log price wherever the item is absent: callers may leave any
+  // value there, and the products below assume y = 0 outside the mask.
+  const Eigen::MatrixXd mask =
+      (present.array() != 0.0 && log_price.array().isFinite()).cast<double>().matrix();
+  Eigen::MatrixXd masked_log_price = (mask.array() > 0.0).select(log_price, 0.0);
+  CentreColumns(mask, &masked_log_price);
+
+  const Eigen::MatrixXd count = mask * mask.transpose();
+  // sum_i m_ai m_bi y_bi at (a, b); its transpose holds sum_i m_ai m_bi y_ai.
+  const Eigen::MatrixXd sum_log_b = mask * masked_log_price.transpose();
+  Eigen::MatrixXd jevons =
+      (sum_log_b - sum_log_b.transpose()).cwiseQuotient(count).array().exp().matrix();
+  FixEmptyPairsAndDiagonal(count, &jevons);
+  if (num_matched != nullptr) *num_matched = ToCounts(count);
+  return jevons;
+}
+
+Eigen::MatrixXd AllPairsJevonsWeighted(const Eigen::MatrixXd& log_price,
+                                       const Eigen::MatrixXd& present,
+                                       const Eigen::VectorXd& item_weight) {
+  assert(log_price.rows() == present.rows() && log_price.cols() == present.cols());
+  assert(item_weight.size() == log_price.cols());
+  const Eigen::MatrixXd mask =
+      (present.array() != 0.0 && log_price.array().isFinite()).cast<double>().matrix() *
+      (item_weight.array() > 0.0).cast<double>().matrix().asDiagonal();
+  Eigen::MatrixXd masked_log_price = (mask.array() > 0.0).select(log_price, 0.0);
+  CentreColumns(mask, &masked_log_price);
+  // The weight goes on one factor of each product only: sum_i w_i m_ai m_bi.
+  const Eigen::MatrixXd weighted_mask = mask * item_weight.asDiagonal();
+  const Eigen::MatrixXd weight_sum = weighted_mask * mask.transpose();
+  const Eigen::MatrixXd sum_log_b = weighted_mask * masked_log_price.transpose();
+  Eigen::MatrixXd jevons =
+      (sum_log_b - sum_log_b.transpose()).cwiseQuotient(weight_sum).array().exp().matrix();
+  FixEmptyPairsAndDiagonal(weight_sum, &jevons);
+  return jevons;
+}
+
+}  // namespace paritas

@@ -1,0 +1,383 @@
+// The pipeline: elementary parities per heading (in parallel), then every
+// aggregate from its headings, then normalisation and real expenditure per
+// node. Each stage reads the survey's arrays as loaded; nothing is copied per
+// pair of regions.
+#include "paritas/compute/compute.h"
+
+#include <omp.h>
+
+#include <algorithm>
+#include <chrono>
+#include <cmath>
+#include <numeric>
+
+#include "paritas/base/text.h"
+
+namespace paritas {
+namespace {
+
+double SecondsSince(std::chrono::steady_clock::time_point start) {
+  return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+}
+
+// Parity, real expenditure, per-capita index and rank from a normalised log parity.
+void FinishNode(const Survey& survey, const Eigen::VectorXd& log_parity, NodeResult* node) {
+  const int n = survey.num_regions();
+  const double nan = std::nan("");
+  node->parity = (100.0 * log_parity.array().exp()).matrix();
+  node->real_expenditure = Eigen::VectorXd::Constant(n, nan);
+  node->real_per_capita_index = Eigen::VectorXd::Constant(n, nan);
+  node->rank = Eigen::VectorXi::Zero(n);
+  node->num_regions_with_parity = 0;
+  double total_real = 0.0, total_population = 0.0;
+  for (int r = 0; r < n; ++r) {
+    if (!std::isfinite(node->parity(r))) {
+      node->parity(r) = nan;
+      continue;
+    }
+    ++node->num_regions_with_parity;
+    const double e = node->expenditure(r);
+    if (std::isfinite(e)) node->real_expenditure(r) = e / (node->parity(r) / 100.0);
+    const double population = survey.region_population[r];
+    if (std::isfinite(node->real_expenditure(r)) && std::isfinite(population) && population > 0) {
+      total_real += node->real_expenditure(r);
+      total_population += population;
+    }
+  }
+  if (total_population > 0 && total_real > 0) {
+    const double country = total_real / total_population;
+    for (int r = 0; r < n; ++r) {
+      const double population = survey.region_population[r];
+      if (std::isfinite(node->real_expenditure(r)) && std::isfinite(population) && population > 0) {
+        node->real_per_capita_index(r) = 100.0 * node->real_expenditure(r) / population / country;
+      }
+    }
+  }
+  std::vector<int> order;
+  for (int r = 0; r < n; ++r) {
+    if (std::isfinite(node->parity(r))) order.push_back(r);
+  }
+  std::stable_sort(order.begin(), order.end(),
+                   [&](int a, int b) { return node->parity(a) > node->parity(b); });
+  for (size_t k = 0; k < order.size(); ++k) node->rank(order[k]) = static_cast<int>(k) + 1;
+}
+
+std::string RegionList(const Survey& survey, const std::vector<int>& regions, size_t limit = 10) {
+  std::vector<std::string> codes;
+  for (size_t k = 0; k < regions.size() && k < limit; ++k) {
+    codes.emplace_back(survey.regions.Code(regions[k]));
+  }
+  std::string text = JoinNames(codes);
+  if (regions.size() > limit) text += ", ... (" + std::to_string(regions.size()) + " in all)";
+  return text;
+}
+
+}  // namespace
+
+bool ComputeOptions::IsValid(std::string* error) const {
+  if (!elementary.IsValid(error)) return false;
+  if (reference.kind == ReferenceKind::kRegion && reference.region.empty()) {
+    *error = "reference must be mean, weighted-mean or a region code";
+    return false;
+  }
+  if (num_threads < 0) {
+    *error = "num_threads must be 0 (all cores) or more";
+    return false;
+  }
+  return true;
+}
+
+ComputeOptions ComputeOptions::FromConfig(const RunConfig& config) {
+  ComputeOptions options;
+  options.elementary.method = config.elementary;
+  options.elementary.representative_weight = config.representative_weight;
+  options.elementary.compute_robust_standard_errors = config.robust_standard_errors;
+  options.aggregation = config.aggregation;
+  options.reference = config.reference;
+  options.num_threads = config.threads;
+  return options;
+}
+
+std::string ComputeSummary::BriefReport() const {
+  return "parities for " + std::to_string(num_headings_used) + " of " +
+         std::to_string(num_headings_given) + " basic headings and " + std::to_string(num_aggregates) +
+         " aggregates; " + std::to_string(warnings.size()) + " warning" +
+         (warnings.size() == 1 ? "" : "s");
+}
+
+std::string ReferenceWeights(const Reference& reference, int reference_region,
+                             const Eigen::VectorXd& log_parity, const Eigen::VectorXd& expenditure,
+                             std::vector<double>* weights) {
+  const int n = static_cast<int>(log_parity.size());
+  weights->assign(n, 0.0);
+  double total = 0.0;
+  switch (reference.kind) {
+    case ReferenceKind::kRegion: {
+      const int r = reference_region;
+      if (r >= 0 && std::isfinite(log_parity(r))) {
+        (*weights)[r] = 1.0;
+        return reference.region;
+      }
+      for (int k = 0; k < n; ++k) (*weights)[k] = std::isfinite(log_parity(k)) ? 1.0 : 0.0;
+      return "mean (reference region absent)";
+    }
+    case ReferenceKind::kWeightedMean:
+      for (int k = 0; k < n; ++k) {
+        const double e = expenditure(k);
+        if (std::isfinite(log_parity(k)) && std::isfinite(e) && e > 0) {
+          (*weights)[k] = e;
+          total += e;
+        }
+      }
+      if (total > 0) return "weighted-mean";
+      for (int k = 0; k < n; ++k) (*weights)[k] = std::isfinite(log_parity(k)) ? 1.0 : 0.0;
+      return "mean (no expenditure to weight by)";
+    case ReferenceKind::kMean:
+      break;
+  }
+  for (int k = 0; k < n; ++k) (*weights)[k] = std::isfinite(log_parity(k)) ? 1.0 : 0.0;
+  return "mean";
+}
+
+void NormaliseLogParities(const std::vector<double>& weights, Eigen::VectorXd* log_parity) {
+  double sum = 0.0, total = 0.0;
+  for (int r = 0; r < log_parity->size(); ++r) {
+    if (!std::isfinite((*log_parity)(r)) || weights[r] <= 0) continue;
+    sum += weights[r] * (*log_parity)(r);
+    total += weights[r];
+  }
+  if (total > 0) *log_parity = log_parity->array() - sum / total;
+}
+
+Eigen::VectorXd NodeExpenditure(const Survey& survey, int node) {
+  Eigen::VectorXd total = Eigen::VectorXd::Constant(survey.num_regions(), std::nan(""));
+  for (int h : survey.classification.nodes()[node].headings) {
+    for (int r = 0; r < survey.num_regions(); ++r) {
+      const double e = survey.expenditure(r, h);
+      if (std::isnan(e)) continue;
+      total(r) = std::isnan(total(r)) ? e : total(r) + e;
+    }
+  }
+  return total;
+}
+
+std::string DescribeGroups(const Survey& survey, const std::vector<std::vector<int>>& groups) {
+  std::string text;
+  for (size_t g = 0; g < groups.size(); ++g) {
+    if (g > 0) text += g + 1 == groups.size() ? " and " : ", ";
+    text += "{" + RegionList(survey, groups[g]) + "}";
+  }
+  return text;
+}
+
+NodeArrays NodeInputArrays(const Survey& survey, const ParityResult& result, int node) {
+  const ClassificationNode& n = survey.classification.nodes()[node];
+  NodeArrays arrays;
+  const int num_regions = survey.num_regions();
+  const int num_headings = static_cast<int>(n.headings.size());
+  arrays.price.resize(num_regions, num_headings);
+  arrays.expenditure.resize(num_regions, num_headings);
+  for (int k = 0; k < num_headings; ++k) {
+    const int h = n.headings[k];
+    arrays.price.col(k) = result.headings[h].log_parity.array().exp();
+    arrays.expenditure.col(k) = survey.expenditure.col(h);
+  }
+  return arrays;
+}
+
+bool ComputeParities(const Survey& survey, const ComputeOptions& options, ParityResult* result,
+                     ComputeSummary* summary) {
+  *summary = ComputeSummary();
+  *result = ParityResult();
+  std::string error;
+  if (!options.IsValid(&error)) {
+    summary->outcome = ComputeOutcome::kInvalidOptions;
+    summary->message = error;
+    return false;
+  }
+  if (options.reference.kind == ReferenceKind::kRegion &&
+      survey.regions.Find(options.reference.region) < 0) {
+    summary->outcome = ComputeOutcome::kInvalidOptions;
+    summary->message = "reference region '" + options.reference.region + "' is not in the survey";
+    const std::string nearest = NearestName(options.reference.region, survey.regions.Codes());
+    if (!nearest.empty()) summary->message += "; did you mean '" + nearest + "'?";
+    return false;
+  }
+  const Classification& tree = survey.classification;
+  const int num_headings = survey.num_headings();
+  const int num_regions = survey.num_regions();
+  summary->num_headings_given = num_headings;
+
+  // Stage 1: elementary parities, headings in parallel.
+  auto start = std::chrono::steady_clock::now();
+  result->headings.resize(num_headings);
+  const int threads = options.num_threads > 0 ? options.num_threads : omp_get_max_threads();
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
+  for (int h = 0; h < num_headings; ++h) {
+    // The heading is normalised with the weights the node stage uses below,
+    // so CPD standard errors are relative to the final reference.
+    std::vector<double> weights;
+    const Eigen::VectorXd expenditure = survey.expenditure.col(h);
+    if (options.reference.kind == ReferenceKind::kRegion) {
+      const int r = survey.regions.Find(options.reference.region);
+      weights.assign(num_regions, 0.0);
+      bool present = false;
+      for (int64_t k = survey.heading_range[h].cell_begin; k < survey.heading_range[h].cell_end; ++k) {
+        present = present || survey.cells.region[k] == r;
+      }
+      if (present) {
+        weights[r] = 1.0;
+      } else {
+        weights.clear();
+      }
+    } else if (options.reference.kind == ReferenceKind::kWeightedMean) {
+      weights.assign(num_regions, 0.0);
+      double total = 0.0;
+      for (int r = 0; r < num_regions; ++r) {
+        if (std::isfinite(expenditure(r)) && expenditure(r) > 0) {
+          weights[r] = expenditure(r);
+          total += expenditure(r);
+        }
+      }
+      if (total <= 0) weights.clear();
+    }
+    result->headings[h] = ComputeHeadingParities(survey, h, options.elementary, weights);
+  }
+  summary->elementary_seconds = SecondsSince(start);
+
+  std::vector<std::string> failures;
+  for (int h = 0; h < num_headings; ++h) {
+    const HeadingParities& heading = result->headings[h];
+    if (heading.num_cells == 0) {
+      summary->warnings.push_back("heading '" + survey.heading_codes[h] +
+                                  "' has no price quotes: left out of every aggregate");
+      continue;
+    }
+    if (!heading.identified) {
+      failures.push_back("heading '" + survey.heading_codes[h] + "' is not linked: its regions fall into " +
+                         std::to_string(heading.groups.size()) + " groups that share no item: " +
+                         DescribeGroups(survey, heading.groups));
+      continue;
+    }
+    ++summary->num_headings_used;
+  }
+  if (!failures.empty()) {
+    summary->outcome = ComputeOutcome::kComputationFailed;
+    summary->message = JoinNames(failures, "\n") +
+                       "\nparities between unlinked groups are not identified; price an item common "
+                       "to the groups, or leave the isolated regions out of the heading";
+    return false;
+  }
+
+  // Stage 2: every node.
+  start = std::chrono::steady_clock::now();
+  result->nodes.resize(tree.nodes().size());
+  result->bilaterals.resize(tree.nodes().size());
+  std::vector<bool> keep(tree.nodes().size(), false);
+  keep[0] = true;
+  for (int node : options.keep_bilaterals) {
+    if (node >= 0 && node < static_cast<int>(keep.size())) keep[node] = true;
+  }
+  // Aggregates first, in parallel over nodes: each is one GEMM-sized job and
+  // an aggregate's elementwise passes are serial, so one node per thread
+  // keeps both cores busy where Eigen's own threading would leave the
+  // elementwise work on one. Inside the region Eigen runs single-threaded
+  // (nested parallelism is off), and no entry depends on the thread count.
+  // Nodes whose bilaterals are not kept compute only the chosen index.
+  std::vector<int> aggregates;
+  for (int index = 0; index < static_cast<int>(tree.nodes().size()); ++index) {
+    if (!tree.nodes()[index].is_leaf) aggregates.push_back(index);
+  }
+  // Largest first, so the root does not start last and run alone.
+  std::stable_sort(aggregates.begin(), aggregates.end(), [&](int a, int b) {
+    return tree.nodes()[a].headings.size() > tree.nodes()[b].headings.size();
+  });
+  std::vector<AggregateParities> aggregate_of(tree.nodes().size());
+  const int num_aggregates = static_cast<int>(aggregates.size());
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads) if (num_aggregates > 1)
+  for (int k = 0; k < num_aggregates; ++k) {
+    const int index = aggregates[k];
+    const NodeArrays arrays = NodeInputArrays(survey, *result, index);
+    BilateralMatrices bilaterals =
+        NodeBilaterals(arrays, keep[index] ? BilateralOptions() : ChosenIndexOnly(options.aggregation));
+    aggregate_of[index] = AggregateFromBilaterals(arrays, bilaterals, options.aggregation);
+    if (keep[index]) result->bilaterals[index] = std::move(bilaterals);
+  }
+  for (int index = 0; index < static_cast<int>(tree.nodes().size()); ++index) {
+    const ClassificationNode& n = tree.nodes()[index];
+    NodeResult& node = result->nodes[index];
+    node.node = index;
+    node.is_heading = n.is_leaf;
+    node.expenditure = NodeExpenditure(survey, index);
+    node.log_se = Eigen::VectorXd::Constant(num_regions, std::nan(""));
+    node.log_se_robust = node.log_se;
+    node.num_items = Eigen::VectorXi::Zero(num_regions);
+    node.num_quotes = Eigen::VectorXi::Zero(num_regions);
+    node.num_headings = Eigen::VectorXi::Zero(num_regions);
+    Eigen::VectorXd log_parity;
+    if (n.is_leaf) {
+      const int h = n.headings.front();
+      const HeadingParities& heading = result->headings[h];
+      node.heading = h;
+      log_parity = heading.log_parity;
+      node.log_se = heading.log_se;
+      node.log_se_robust = heading.log_se_robust;
+      node.num_items = heading.num_items;
+      node.num_quotes = heading.num_quotes;
+      for (int r = 0; r < num_regions; ++r) node.num_headings(r) = heading.num_items(r) > 0 ? 1 : 0;
+    } else {
+      ++summary->num_aggregates;
+      const AggregateParities& aggregate = aggregate_of[index];
+      node.num_headings = aggregate.num_headings;
+      node.identified = aggregate.identified;
+      node.groups = aggregate.groups;
+      node.rms_log_residual = aggregate.rms_log_residual;
+      if (!aggregate.identified) {
+        failures.push_back("aggregate '" + n.code + "' is not linked: its regions fall into " +
+                           std::to_string(aggregate.groups.size()) +
+                           " groups with no heading in common: " + DescribeGroups(survey, aggregate.groups));
+        continue;
+      }
+      log_parity = aggregate.log_parity;
+      for (int k = 0; k < static_cast<int>(n.headings.size()); ++k) {
+        for (int r = 0; r < num_regions; ++r) {
+          node.num_items(r) += result->headings[n.headings[k]].num_items(r);
+          node.num_quotes(r) += result->headings[n.headings[k]].num_quotes(r);
+        }
+      }
+    }
+    std::vector<double> weights;
+    node.reference_used = ReferenceWeights(options.reference, survey.regions.Find(options.reference.region),
+                                           log_parity, node.expenditure, &weights);
+    if (node.reference_used.rfind("mean (", 0) == 0 && options.reference.kind != ReferenceKind::kMean &&
+        log_parity.array().isFinite().any()) {
+      summary->warnings.push_back("node '" + n.code + "': normalised to the " + node.reference_used);
+    }
+    NormaliseLogParities(weights, &log_parity);
+    FinishNode(survey, log_parity, &node);
+  }
+  summary->aggregation_seconds = SecondsSince(start);
+  if (!failures.empty()) {
+    summary->outcome = ComputeOutcome::kComputationFailed;
+    summary->message = JoinNames(failures, "\n");
+    return false;
+  }
+
+  // Regions the root gives no parity.
+  const NodeResult& root = result->nodes.front();
+  std::vector<int> missing;
+  for (int r = 0; r < num_regions; ++r) {
+    if (!std::isfinite(root.parity(r))) missing.push_back(r);
+  }
+  if (!missing.empty()) {
+    summary->warnings.push_back(std::to_string(missing.size()) + " region" +
+                                (missing.size() == 1 ? " has" : "s have") + " no parity for '" +
+                                tree.nodes().front().code + "' (no heading with both prices and positive "
+                                "expenditure): " + RegionList(survey, missing));
+  }
+  summary->outcome = ComputeOutcome::kOk;
+  summary->message = "ok";
+  return true;
+}
+
+}  // namespace paritas

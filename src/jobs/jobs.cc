@@ -1,0 +1,365 @@
+// The check and compute jobs. They only sequence library stages and collect
+// what the user must see; every number comes from the stages themselves.
+#include "paritas/jobs/jobs.h"
+
+#include <algorithm>
+#include <chrono>
+#include <cmath>
+#include <filesystem>
+
+#include "paritas/aggregation/bilateral_matrix.h"
+#include "paritas/elementary/elementary.h"
+#include "paritas/output/output_writers.h"
+#include "paritas/output/report.h"
+#include "paritas/base/text.h"
+
+namespace paritas {
+namespace {
+
+double SecondsSince(std::chrono::steady_clock::time_point start) {
+  return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+}
+
+LoadOptions LoadOptionsFor(const RunConfig& config) {
+  LoadOptions options;
+  options.invalid_rows = config.invalid_rows;
+  options.num_threads = config.threads;
+  return options;
+}
+
+std::string Codes(const Survey& survey, const std::vector<int>& regions, size_t limit = 8) {
+  std::vector<std::string> codes;
+  for (size_t k = 0; k < regions.size() && k < limit; ++k) codes.emplace_back(survey.regions.Code(regions[k]));
+  std::string text = JoinNames(codes);
+  if (regions.size() > limit) text += ", ... (" + std::to_string(regions.size()) + ")";
+  return text;
+}
+
+std::string Pad(const std::string& text, size_t width, bool right = false) {
+  if (text.size() >= width) return text;
+  return right ? std::string(width - text.size(), ' ') + text : text + std::string(width - text.size(), ' ');
+}
+
+std::string FilesReport(const LoadSummary& load) {
+  std::string out = "files:\n";
+  for (const InputFileSummary& file : load.files) {
+    if (!file.given) continue;
+    out += "  " + Pad(file.role, 12) + file.path + ": " + FormatCount(file.rows_read) + " rows read, " +
+           FormatCount(file.rows_used) + " used, " + FormatCount(file.rows_rejected) + " rejected\n";
+    if (!file.ignored_columns.empty()) {
+      // A header of garbage can hold a million names: list the first few.
+      constexpr size_t kMaxListed = 20;
+      const std::vector<std::string>& names = file.ignored_columns;
+      std::string listed = JoinNames(std::vector<std::string>(names.begin(), names.begin() + std::min(names.size(), kMaxListed)));
+      if (names.size() > kMaxListed) listed += ", ... (" + FormatCount(static_cast<int64_t>(names.size())) + " in all)";
+      out += "  " + Pad("", 12) + "ignored columns: " + listed + "\n";
+    }
+  }
+  return out;
+}
+
+std::string SurveyCounts(const Survey& survey) {
+  int aggregates = 0;
+  for (const auto& node : survey.classification.nodes()) aggregates += node.is_leaf ? 0 : 1;
+  return "survey: " + FormatCount(survey.num_regions()) + " regions, " + FormatCount(survey.num_items()) +
+         " items, " + FormatCount(survey.num_headings()) + " basic headings in " +
+         FormatCount(aggregates) + " aggregate" + (aggregates == 1 ? "" : "s") + ", " +
+         FormatCount(survey.num_quotes) + " quotes in " + FormatCount(static_cast<int64_t>(survey.cells.size())) +
+         " cells\n";
+}
+
+}  // namespace
+
+std::string DescribeRejectedRows(const LoadSummary& load, size_t limit) {
+  std::string out;
+  for (size_t k = 0; k < load.rejected_rows.size() && k < limit; ++k) {
+    out += load.rejected_rows[k].reason + "\n";
+  }
+  if (load.num_rows_rejected > static_cast<int64_t>(std::min(limit, load.rejected_rows.size()))) {
+    out += "... " + FormatCount(load.num_rows_rejected - static_cast<int64_t>(std::min(limit, load.rejected_rows.size()))) +
+           " more\n";
+  }
+  return out;
+}
+
+bool ResolveMatrixNodes(const Classification& tree, const std::vector<std::string>& codes,
+                        std::vector<int>* nodes, std::string* error) {
+  nodes->clear();
+  if (codes.empty()) {
+    nodes->push_back(0);
+    return true;
+  }
+  for (const std::string& code : codes) {
+    if (ToLower(code) == "all") {
+      nodes->clear();
+      for (int n = 0; n < static_cast<int>(tree.nodes().size()); ++n) nodes->push_back(n);
+      return true;
+    }
+    const int node = tree.FindNode(code);
+    if (node < 0) {
+      *error = "matrices: node '" + code + "' is not in the classification";
+      const std::string nearest = NearestName(code, tree.NodeCodes());
+      if (!nearest.empty()) *error += "; did you mean '" + nearest + "'?";
+      return false;
+    }
+    if (std::find(nodes->begin(), nodes->end(), node) == nodes->end()) nodes->push_back(node);
+  }
+  return true;
+}
+
+// ---------------------------------------------------------------------------
+// check
+
+int RunCheck(const RunConfig& config, CheckSummary* summary) {
+  *summary = CheckSummary();
+  if (!LoadSurvey(config, LoadOptionsFor(config), &summary->survey, &summary->load)) {
+    summary->message = summary->load.message;
+    summary->exit_code = kExitInvalidInput;
+    return summary->exit_code;
+  }
+  const Survey& survey = summary->survey;
+  for (int h = 0; h < survey.num_headings(); ++h) {
+    HeadingCheck check;
+    check.heading = h;
+    const HeadingRange& range = survey.heading_range[h];
+    check.num_items_listed = range.num_items();
+    check.num_cells = range.num_cells();
+    std::vector<int> items_seen(range.num_items(), 0);
+    std::vector<int> region_cells(survey.num_regions(), 0);
+    for (int64_t k = range.cell_begin; k < range.cell_end; ++k) {
+      region_cells[survey.cells.region[k]] += 1;
+      items_seen[survey.cells.item[k] - range.item_begin] = 1;
+      check.num_quotes += survey.cells.num_quotes[k];
+    }
+    for (int seen : items_seen) check.num_items_priced += seen;
+    for (int r = 0; r < survey.num_regions(); ++r) {
+      if (region_cells[r] > 0) {
+        ++check.num_regions_priced;
+        const double e = survey.expenditure(r, h);
+        if (std::isnan(e)) check.regions_without_expenditure.push_back(r);
+      } else {
+        check.regions_without_prices.push_back(r);
+      }
+    }
+    const double possible = static_cast<double>(check.num_regions_priced) * check.num_items_priced;
+    check.fill_share = possible > 0 ? check.num_cells / possible : 0.0;
+    if (check.num_cells > 0) check.groups = HeadingRegionGroups(survey, h);
+    if (check.groups.size() > 1) ++summary->num_unlinked_headings;
+    summary->headings.push_back(std::move(check));
+  }
+  if (summary->num_unlinked_headings == 0) {
+    // Outlier screening needs the parities; they are cheap next to reading.
+    ParityResult result;
+    ComputeSummary compute;
+    if (ComputeParities(survey, ComputeOptions::FromConfig(config), &result, &compute)) {
+      OutlierOptions outlier_options;
+      outlier_options.threshold = config.outlier_threshold;
+      summary->outlier_threshold = config.outlier_threshold;
+      const OutlierReport report = FindOutliers(survey, result, outlier_options);
+      for (HeadingCheck& check : summary->headings) check.num_flagged_cells = report.num_flagged_cells[check.heading];
+    }
+  }
+  summary->usable = summary->num_unlinked_headings == 0;
+  summary->exit_code = summary->usable ? kExitOk : kExitInvalidInput;
+  summary->message = summary->usable
+                         ? "the survey is usable"
+                         : std::to_string(summary->num_unlinked_headings) +
+                               " heading(s) have unlinked regions: parities are not identified there";
+  return summary->exit_code;
+}
+
+std::string CheckSummary::FullReport() const {
+  std::string out;
+  if (load.outcome != LoadOutcome::kOk) {
+    out += FilesReport(load);
+    if (!load.rejected_rows.empty()) out += "rejected rows:\n" + DescribeRejectedRows(load);
+    return out;
+  }
+  out += SurveyCounts(survey);
+  out += FilesReport(load);
+  size_t width = 7;
+  for (const std::string& code : survey.heading_codes) width = std::max(width, code.size());
+  out += "headings:\n  " + Pad("heading", width) + "  " + Pad("regions", 9, true) + "  " +
+         Pad("items", 7, true) + "  " + Pad("filled", 7, true) + "  " + Pad("quotes", 9, true) + "  " + Pad("flagged", 7, true) + "  linked\n";
+  for (const HeadingCheck& h : headings) {
+    const std::string linked = h.num_cells == 0 ? "no prices"
+                               : h.groups.size() == 1 ? "yes"
+                                                      : "NO: " + std::to_string(h.groups.size()) + " groups";
+    out += "  " + Pad(survey.heading_codes[h.heading], width) + "  " +
+           Pad(std::to_string(h.num_regions_priced) + "/" + std::to_string(survey.num_regions()), 9, true) +
+           "  " + Pad(std::to_string(h.num_items_priced), 7, true) + "  " +
+           Pad(FormatFixed(100.0 * h.fill_share, 1) + " %", 7, true) + "  " +
+           Pad(FormatCount(h.num_quotes), 9, true) + "  " +
+           Pad(h.num_flagged_cells < 0 ? "-" : std::to_string(h.num_flagged_cells), 7, true) + "  " +
+           linked + "\n";
+  }
+  bool any = false;
+  for (const HeadingCheck& h : headings) {
+    if (h.groups.size() <= 1) continue;
+    if (!any) out += "unlinked regions (parities not identified):\n";
+    any = true;
+    std::string groups;
+    for (size_t g = 0; g < h.groups.size(); ++g) {
+      groups += (g ? (g + 1 == h.groups.size() ? " and " : ", ") : "") + std::string("{") +
+                Codes(survey, h.groups[g]) + "}";
+    }
+    out += "  " + survey.heading_codes[h.heading] + ": " + groups + "\n";
+  }
+  std::string no_prices, no_spending;
+  for (const HeadingCheck& h : headings) {
+    if (!h.regions_without_prices.empty() && h.num_cells > 0) {
+      no_prices += "  " + survey.heading_codes[h.heading] + ": " + Codes(survey, h.regions_without_prices) + "\n";
+    }
+    if (!h.regions_without_expenditure.empty()) {
+      no_spending += "  " + survey.heading_codes[h.heading] + ": " +
+                     Codes(survey, h.regions_without_expenditure) + "\n";
+    }
+  }
+  if (!no_prices.empty()) out += "regions with no prices in a heading:\n" + no_prices;
+  if (!no_spending.empty()) out += "regions with prices but no expenditure row in a heading:\n" + no_spending;
+  std::string empty;
+  for (const HeadingCheck& h : headings) {
+    if (h.num_cells == 0) empty += (empty.empty() ? "" : ", ") + survey.heading_codes[h.heading];
+  }
+  if (!empty.empty()) out += "headings with no prices (left out of every aggregate): " + empty + "\n";
+  int flagged = 0;
+  for (const HeadingCheck& h : headings) flagged += std::max(h.num_flagged_cells, 0);
+  out += "outliers: " + FormatCount(flagged) + " cells flagged (|standardised residual| > " +
+         FormatFixed(outlier_threshold, 1) + "; listed in outliers.csv by compute)\n";
+  out += "rejected rows: " + FormatCount(load.num_rows_rejected) + "\n";
+  if (load.num_rows_rejected > 0) out += DescribeRejectedRows(load);
+  out += std::string(usable ? "usable: " : "not usable: ") + message + "\n";
+  return out;
+}
+
+// ---------------------------------------------------------------------------
+// compute
+
+int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
+  *summary = ComputeJobSummary();
+  auto fail = [&](int code, const std::string& message) {
+    summary->exit_code = code;
+    summary->message = message;
+    return code;
+  };
+  if (!LoadSurvey(config, LoadOptionsFor(config), &summary->survey, &summary->load)) {
+    return fail(kExitInvalidInput, summary->load.message);
+  }
+  summary->stages.push_back({"read", summary->load.read_seconds});
+  summary->stages.push_back({"cells", summary->load.cells_seconds});
+  const Survey& survey = summary->survey;
+
+  std::vector<int> matrix_nodes;
+  std::string error;
+  if (!ResolveMatrixNodes(survey.classification, config.matrices, &matrix_nodes, &error)) {
+    return fail(kExitInvalidInput, error);
+  }
+  ComputeOptions options = ComputeOptions::FromConfig(config);
+  options.keep_bilaterals = matrix_nodes;
+  if (!ComputeParities(survey, options, &summary->result, &summary->compute)) {
+    const int code = summary->compute.outcome == ComputeOutcome::kComputationFailed ? kExitComputationFailed
+                                                                                    : kExitInvalidInput;
+    return fail(code, summary->compute.message);
+  }
+  summary->stages.push_back({"elementary", summary->compute.elementary_seconds});
+  summary->stages.push_back({"aggregation", summary->compute.aggregation_seconds});
+  summary->warnings = summary->compute.warnings;
+  if (summary->load.num_rows_rejected > 0) {
+    summary->warnings.insert(summary->warnings.begin(),
+                             FormatCount(summary->load.num_rows_rejected) +
+                                 " invalid rows left out (listed in rejected.csv)");
+  }
+
+  // Outputs, written whole or not at all.
+  const auto write_start = std::chrono::steady_clock::now();
+  const ParityResult& result = summary->result;
+  std::vector<OutputFile> files;
+  files.push_back({"parities.csv", ParitiesCsv(survey, result)});
+  for (int node : matrix_nodes) {
+    const NodeResult& n = result.nodes[node];
+    const std::string name = NodeFileName(survey.classification.nodes()[node].code) + ".csv";
+    files.push_back({"matrix/" + name, ParityMatrixCsv(survey, n)});
+    if (n.is_heading) {
+      Eigen::MatrixXd log_price, present;
+      HeadingPriceArrays(survey, n.heading, &log_price, &present);
+      Eigen::MatrixXi num_items;
+      const Eigen::MatrixXd jevons = AllPairsJevons(log_price, present, &num_items);
+      files.push_back({"bilateral/" + name, HeadingBilateralCsv(survey, n, jevons, num_items)});
+    } else {
+      files.push_back({"bilateral/" + name, AggregateBilateralCsv(survey, n, result.bilaterals[node])});
+    }
+  }
+  OutlierOptions outlier_options;
+  outlier_options.threshold = config.outlier_threshold;
+  summary->outliers = FindOutliers(survey, result, outlier_options);
+  files.push_back({"outliers.csv", OutliersCsv(survey, summary->outliers)});
+  files.push_back({"dispersion.csv", DispersionCsv(survey, summary->outliers)});
+  if (config.invalid_rows == InvalidRowPolicy::kSkip) {
+    files.push_back({"rejected.csv", RejectedRowsCsv(summary->load.rejected_rows)});
+  }
+  const std::vector<ReportOutlier> report_outliers = ToReportOutliers(survey, summary->outliers);
+  if (config.report) {
+    ReportInputs report;
+    report.outliers = &report_outliers;
+    report.config = &config;
+    report.survey = &survey;
+    report.load = &summary->load;
+    report.result = &result;
+    report.compute = &summary->compute;
+    report.warnings = summary->warnings;
+    files.push_back({"report.html", ReportHtml(report)});
+  }
+  for (const OutputFile& file : files) summary->outputs.push_back(file.relative_path);
+  summary->outputs.push_back("run.json");
+  summary->stages.push_back({"write", SecondsSince(write_start)});
+
+  RunRecord record;
+  record.command = "compute";
+  record.config = &config;
+  record.load = &summary->load;
+  record.survey = &survey;
+  record.compute = &summary->compute;
+  record.outcome = "ok";
+  record.message = summary->compute.BriefReport();
+  record.exit_code = kExitOk;
+  record.warnings = summary->warnings;
+  record.outputs = summary->outputs;
+  record.stages = summary->stages;
+  files.push_back({"run.json", RunRecordJson(record)});
+  if (!WriteOutputFiles(config.output, files, &error)) return fail(kExitInvalidInput, error);
+  summary->exit_code = kExitOk;
+  summary->message = "ok";
+  return kExitOk;
+}
+
+std::string ComputeJobSummary::FullReport() const {
+  std::string out = SurveyCounts(survey);
+  out += compute.BriefReport() + "\n";
+  if (result.nodes.empty()) return out;
+  const std::string& root = survey.classification.nodes().front().code;
+  out += "\nparities for '" + root + "' (" + result.nodes.front().reference_used + " = 100), dearest first:\n";
+  out += RootTable(survey, result, RegionSpreads(result.bilaterals.front()));
+  out += "(P-L spread: largest |ln(Laspeyres / Paasche)| of the region against any other, "
+         "with that partner; large spreads mean the price and spending patterns differ and the "
+         "choice of formula matters.)\n";
+  if (!outliers.outliers.empty()) {
+    int64_t cells = 0;
+    for (const Outlier& o : outliers.outliers) cells += o.kind == OutlierKind::kCell ? 1 : 0;
+    const Outlier& worst = outliers.outliers.front();
+    out += "\noutliers: " + FormatCount(cells) + " cells and " +
+           FormatCount(static_cast<int64_t>(outliers.outliers.size()) - cells) +
+           " quotes far from the fit (listed in outliers.csv); the worst: " + survey.heading_codes[worst.heading] +
+           ", " + std::string(survey.regions.Code(worst.region)) + ", " + std::string(survey.items.Code(worst.item)) +
+           " at " + FormatFixed(worst.observed / worst.predicted, 3) + " times the predicted price\n";
+  }
+  if (!warnings.empty()) {
+    out += "\nwarnings:\n";
+    for (const std::string& warning : warnings) out += "  " + warning + "\n";
+  }
+  out += "\nParities are survey estimates: they carry sampling error, depend on how comparable the "
+         "items priced are across regions and on the index formula. Official figures come from the "
+         "statistical authority.\n";
+  return out;
+}
+
+}  // namespace paritas

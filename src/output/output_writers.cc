@@ -1,0 +1,319 @@
+// Large tables (a million bilateral pairs at 1,000 regions) are formatted in
+// row blocks in parallel and joined in order, so the text is the same for any
+// number of threads. Numbers go through std::to_chars: locale-free and
+// byte-identical across runs.
+#include "paritas/output/output_writers.h"
+
+#include <omp.h>
+#include <unistd.h>
+
+#include <algorithm>
+#include <charconv>
+#include <cmath>
+#include <cstdio>
+#include <filesystem>
+#include <fstream>
+
+#include "paritas/base/csv.h"
+#include "paritas/base/text.h"
+
+namespace paritas {
+namespace {
+
+namespace fs = std::filesystem;
+
+// Formats rows [0, num_rows) with `format_row(row, out)` in parallel blocks
+// of `rows_per_block` rows; each block reserves `bytes_per_row_hint` bytes a
+// row up front so that it rarely grows (a hint only: the text is the same).
+template <typename FormatRow>
+std::string FormatRows(int64_t num_rows, int64_t rows_per_block, size_t bytes_per_row_hint,
+                       const FormatRow& format_row, std::string header) {
+  const int64_t num_blocks = (num_rows + rows_per_block - 1) / rows_per_block;
+  std::vector<std::string> blocks(num_blocks);
+#pragma omp parallel for schedule(dynamic, 4) if (num_blocks > 4)
+  for (int64_t b = 0; b < num_blocks; ++b) {
+    std::string& text = blocks[b];
+    const int64_t end = std::min(num_rows, (b + 1) * rows_per_block);
+    text.reserve(static_cast<size_t>(end - b * rows_per_block) * bytes_per_row_hint);
+    for (int64_t row = b * rows_per_block; row < end; ++row) format_row(row, &text);
+  }
+  size_t total = header.size();
+  for (const auto& block : blocks) total += block.size();
+  header.reserve(total);
+  for (const auto& block : blocks) header += block;
+  return header;
+}
+
+constexpr int64_t kRowsPerBlock = 4096;
+
+std::vector<int> RegionsWithParity(const NodeResult& node) {
+  std::vector<int> regions;
+  for (int r = 0; r < node.parity.size(); ++r) {
+    if (std::isfinite(node.parity(r))) regions.push_back(r);
+  }
+  return regions;
+}
+
+void AppendCode(std::string_view code, std::string* out) { AppendCsvField(code, out); }
+
+// As std::to_string, without its temporary string.
+void AppendInt(int64_t value, std::string* out) {
+  char buffer[24];
+  const auto result = std::to_chars(buffer, buffer + sizeof(buffer), value);
+  out->append(buffer, result.ptr - buffer);
+}
+
+// CSV fields of the region codes, escaped once rather than once per row.
+std::vector<std::string> RegionFields(const Survey& survey) {
+  std::vector<std::string> fields(survey.num_regions());
+  for (int r = 0; r < survey.num_regions(); ++r) AppendCode(survey.regions.Code(r), &fields[r]);
+  return fields;
+}
+
+}  // namespace
+
+std::string NodeFileName(const std::string& code) {
+  std::string name;
+  bool changed = code.empty() || code.front() == '.' || code.size() > 100;
+  for (size_t i = 0; i < code.size() && i < 100; ++i) {
+    const unsigned char c = static_cast<unsigned char>(code[i]);
+    if (std::isalnum(c) || c == '-' || c == '_' || c == '.') {
+      name += static_cast<char>(c);
+    } else {
+      name += '_';
+      changed = true;
+    }
+  }
+  if (changed) {
+    char suffix[16];
+    std::snprintf(suffix, sizeof(suffix), "-%08x",
+                  static_cast<unsigned>(CodeTable::Hash(code) & 0xffffffffu));
+    name += suffix;
+  }
+  return name;
+}
+
+std::string ParitiesCsv(const Survey& survey, const ParityResult& result) {
+  const int num_regions = survey.num_regions();
+  const int64_t num_rows = static_cast<int64_t>(result.nodes.size()) * num_regions;
+  const auto& tree = survey.classification.nodes();
+  const std::vector<std::string> region_fields = RegionFields(survey);
+  return FormatRows(
+      num_rows, kRowsPerBlock, 128,
+      [&](int64_t row, std::string* out) {
+        const NodeResult& node = result.nodes[row / num_regions];
+        const int r = static_cast<int>(row % num_regions);
+        AppendCode(tree[node.node].code, out);
+        *out += node.is_heading ? ",heading," : ",aggregate,";
+        *out += region_fields[r];
+        *out += ',';
+        AppendFixed(node.parity(r), kIndexDecimals, out);
+        *out += ',';
+        AppendFixed(node.expenditure(r), kMoneyDecimals, out);
+        *out += ',';
+        AppendFixed(node.real_expenditure(r), kMoneyDecimals, out);
+        *out += ',';
+        AppendFixed(node.real_per_capita_index(r), kIndexDecimals, out);
+        *out += ',';
+        AppendFixed(node.log_se(r), kLogDecimals, out);
+        *out += ',';
+        AppendFixed(node.log_se_robust(r), kLogDecimals, out);
+        *out += ',';
+        if (node.rank(r) > 0) AppendInt(node.rank(r), out);
+        *out += ',';
+        AppendInt(node.num_items(r), out);
+        *out += ',';
+        AppendInt(node.num_quotes(r), out);
+        *out += ',';
+        AppendInt(node.num_headings(r), out);
+        *out += '\n';
+      },
+      "node,kind,region,parity,expenditure,real_expenditure,real_per_capita_index,log_se,"
+      "log_se_robust,rank,num_items,num_quotes,num_headings\n");
+}
+
+std::string ParityMatrixCsv(const Survey& survey, const NodeResult& node) {
+  const std::vector<int> regions = RegionsWithParity(node);
+  std::string header = "region";
+  for (int r : regions) {
+    header += ',';
+    AppendCode(survey.regions.Code(r), &header);
+  }
+  header += '\n';
+  const std::vector<std::string> region_fields = RegionFields(survey);
+  // Rows are long (one cell per region), so blocks are a few rows each.
+  constexpr int64_t kMatrixRowsPerBlock = 8;
+  return FormatRows(
+      static_cast<int64_t>(regions.size()), kMatrixRowsPerBlock, 12 * (regions.size() + 1),
+      [&](int64_t row, std::string* out) {
+        const int a = regions[row];
+        *out += region_fields[a];
+        for (int b : regions) {
+          *out += ',';
+          AppendFixed(100.0 * node.parity(b) / node.parity(a), kIndexDecimals, out);
+        }
+        *out += '\n';
+      },
+      header);
+}
+
+std::string AggregateBilateralCsv(const Survey& survey, const NodeResult& node,
+                                  const BilateralMatrices& bilaterals) {
+  const std::vector<int> regions = RegionsWithParity(node);
+  const int64_t n = static_cast<int64_t>(regions.size());
+  const std::vector<std::string> region_fields = RegionFields(survey);
+  return FormatRows(
+      n * n, kRowsPerBlock, 80,
+      [&](int64_t row, std::string* out) {
+        const int a = regions[row / n], b = regions[row % n];
+        if (a == b) return;
+        *out += region_fields[a];
+        *out += ',';
+        *out += region_fields[b];
+        const double laspeyres = bilaterals.laspeyres(a, b), paasche = bilaterals.paasche(a, b);
+        for (double value : {laspeyres, paasche, bilaterals.fisher(a, b), bilaterals.tornqvist(a, b),
+                             std::abs(std::log(laspeyres / paasche))}) {
+          *out += ',';
+          AppendFixed(value, kIndexDecimals, out);
+        }
+        *out += ',';
+        AppendInt(bilaterals.num_matched(a, b), out);
+        *out += '\n';
+      },
+      "from,to,laspeyres,paasche,fisher,tornqvist,spread,num_headings\n");
+}
+
+std::string HeadingBilateralCsv(const Survey& survey, const NodeResult& node,
+                                const Eigen::MatrixXd& jevons, const Eigen::MatrixXi& num_items) {
+  const std::vector<int> regions = RegionsWithParity(node);
+  const int64_t n = static_cast<int64_t>(regions.size());
+  const std::vector<std::string> region_fields = RegionFields(survey);
+  return FormatRows(
+      n * n, kRowsPerBlock, 40,
+      [&](int64_t row, std::string* out) {
+        const int a = regions[row / n], b = regions[row % n];
+        if (a == b) return;
+        *out += region_fields[a];
+        *out += ',';
+        *out += region_fields[b];
+        *out += ',';
+        AppendFixed(jevons(a, b), kIndexDecimals, out);
+        *out += ',';
+        AppendInt(num_items(a, b), out);
+        *out += '\n';
+      },
+      "from,to,jevons,num_items\n");
+}
+
+std::vector<RegionSpread> RegionSpreads(const BilateralMatrices& bilaterals) {
+  const int n = static_cast<int>(bilaterals.laspeyres.rows());
+  const Eigen::MatrixXd spread =
+      (bilaterals.laspeyres.array() / bilaterals.paasche.array()).log().abs().matrix();
+  std::vector<RegionSpread> out(n);
+  std::vector<double> values;
+  for (int a = 0; a < n; ++a) {
+    values.clear();
+    for (int b = 0; b < n; ++b) {
+      if (a == b || !std::isfinite(spread(a, b))) continue;
+      values.push_back(spread(a, b));
+      if (spread(a, b) > out[a].max || out[a].worst_partner < 0) {
+        out[a].max = spread(a, b);
+        out[a].worst_partner = b;
+      }
+    }
+    if (values.empty()) {
+      out[a].median = std::nan("");
+      out[a].max = std::nan("");
+      continue;
+    }
+    const size_t mid = values.size() / 2;
+    std::nth_element(values.begin(), values.begin() + mid, values.end());
+    double median = values[mid];
+    if (values.size() % 2 == 0) {
+      median = 0.5 * (median + *std::max_element(values.begin(), values.begin() + mid));
+    }
+    out[a].median = median;
+  }
+  return out;
+}
+
+std::string RootTable(const Survey& survey, const ParityResult& result,
+                      const std::vector<RegionSpread>& spreads) {
+  const NodeResult& root = result.nodes.front();
+  std::vector<int> order = RegionsWithParity(root);
+  std::stable_sort(order.begin(), order.end(),
+                   [&](int a, int b) { return root.parity(a) > root.parity(b); });
+  size_t width = 6;
+  for (int r : order) width = std::max(width, survey.regions.Code(r).size());
+  width = std::min<size_t>(width, 24);
+  const bool per_capita = root.real_per_capita_index.array().isFinite().any();
+  auto pad = [](std::string text, size_t w, bool right) {
+    if (text.size() >= w) return text;
+    return right ? std::string(w - text.size(), ' ') + text : text + std::string(w - text.size(), ' ');
+  };
+  std::string out = pad("region", width, false) + "  " + pad("rank", 4, true) + "  " +
+                    pad("parity", 9, true);
+  if (per_capita) out += "  " + pad("real/head", 9, true);
+  out += "  " + pad("P-L spread", 10, true) + "  " + pad("worst pair", 10, false) + "\n";
+  for (int r : order) {
+    std::string code(survey.regions.Code(r).substr(0, width));
+    out += pad(code, width, false) + "  " + pad(std::to_string(root.rank(r)), 4, true) + "  " +
+           pad(FormatFixed(root.parity(r), 2), 9, true);
+    if (per_capita) out += "  " + pad(FormatFixed(root.real_per_capita_index(r), 1), 9, true);
+    std::string spread = "", partner = "";
+    if (r < static_cast<int>(spreads.size()) && std::isfinite(spreads[r].max)) {
+      spread = FormatFixed(spreads[r].max, 4);
+      partner = std::string(survey.regions.Code(spreads[r].worst_partner));
+    }
+    out += "  " + pad(spread, 10, true) + "  " + partner + "\n";
+  }
+  return out;
+}
+
+bool WriteOutputFiles(const std::string& folder, const std::vector<OutputFile>& files,
+                      std::string* error) {
+  std::error_code ec;
+  const fs::path target(folder);
+  fs::create_directories(target, ec);
+  if (ec) {
+    *error = folder + ": cannot create folder: " + ec.message();
+    return false;
+  }
+  const fs::path staging =
+      target / (".paritas-staging-" + std::to_string(static_cast<long long>(::getpid())));
+  fs::remove_all(staging, ec);
+  auto cleanup = [&]() {
+    std::error_code ignored;
+    fs::remove_all(staging, ignored);
+  };
+  for (const OutputFile& file : files) {
+    const fs::path path = staging / file.relative_path;
+    fs::create_directories(path.parent_path(), ec);
+    std::FILE* stream = ec ? nullptr : std::fopen(path.c_str(), "wb");
+    bool ok = stream != nullptr;
+    if (ok) {
+      ok = std::fwrite(file.contents.data(), 1, file.contents.size(), stream) == file.contents.size();
+      ok = (std::fclose(stream) == 0) && ok;
+    }
+    if (!ok) {
+      *error = (target / file.relative_path).string() + ": cannot write file: " +
+               (ec ? ec.message() : std::string(std::strerror(errno)));
+      cleanup();
+      return false;
+    }
+  }
+  for (const OutputFile& file : files) {
+    const fs::path destination = target / file.relative_path;
+    fs::create_directories(destination.parent_path(), ec);
+    fs::rename(staging / file.relative_path, destination, ec);
+    if (ec) {
+      *error = destination.string() + ": cannot move into place: " + ec.message();
+      cleanup();
+      return false;
+    }
+  }
+  cleanup();
+  return true;
+}
+
+}  // namespace paritas

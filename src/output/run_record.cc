@@ -1,0 +1,92 @@
+// Built with nlohmann::ordered_json so keys keep the order written here and
+// the record diffs cleanly between runs.
+#include "paritas/output/run_record.h"
+
+#include <nlohmann/json.hpp>
+
+namespace paritas {
+namespace {
+
+using Json = nlohmann::ordered_json;
+
+Json ConfigJson(const RunConfig& config) {
+  Json survey = {{"prices", config.survey.prices},
+                 {"expenditure", config.survey.expenditure},
+                 {"regions", config.survey.regions},
+                 {"items", config.survey.items}};
+  Json out = {{"config_path", config.config_path},
+              {"survey", survey},
+              {"classification", config.has_classification ? config.classification_source : "(all headings under 'all')"},
+              {"reference", config.reference.ToString()},
+              {"elementary", ToString(config.elementary)},
+              {"aggregation", ToString(config.aggregation)},
+              {"invalid_rows", ToString(config.invalid_rows)},
+              {"output", config.output},
+              {"matrices", config.matrices},
+              {"representative_weight", config.representative_weight},
+              {"outlier_threshold", config.outlier_threshold},
+              {"robust_standard_errors", config.robust_standard_errors},
+              {"report", config.report},
+              {"threads", config.threads}};
+  return out;
+}
+
+}  // namespace
+
+std::string RunRecordJson(const RunRecord& record) {
+  Json out;
+  out["schema_version"] = kRunRecordSchemaVersion;
+  out["tool"] = {{"name", "paritas"}, {"version", PARITAS_VERSION}};
+  out["command"] = record.command;
+  out["outcome"] = record.outcome;
+  out["message"] = record.message;
+  out["exit_code"] = record.exit_code;
+  if (record.config != nullptr) out["configuration"] = ConfigJson(*record.config);
+  if (record.load != nullptr) {
+    Json inputs = Json::array();
+    for (const InputFileSummary& file : record.load->files) {
+      if (!file.given) continue;
+      inputs.push_back({{"role", file.role},
+                        {"path", file.path},
+                        {"size_bytes", file.size_bytes},
+                        {"sha256", file.sha256},
+                        {"rows_read", file.rows_read},
+                        {"rows_used", file.rows_used},
+                        {"rows_rejected", file.rows_rejected},
+                        {"ignored_columns", file.ignored_columns}});
+    }
+    out["inputs"] = inputs;
+    out["rows_rejected"] = record.load->num_rows_rejected;
+  }
+  if (record.survey != nullptr) {
+    const Survey& s = *record.survey;
+    out["survey"] = {{"num_regions", s.num_regions()},
+                     {"num_items", s.num_items()},
+                     {"num_headings", s.num_headings()},
+                     {"num_nodes", s.classification.nodes().size()},
+                     {"num_quotes", s.num_quotes},
+                     {"num_cells", s.cells.size()}};
+  }
+  if (record.config != nullptr) {
+    out["methods"] = {{"cell_price", "geometric mean of the quotes"},
+                      {"elementary", ToString(record.config->elementary)},
+                      {"aggregation", ToString(record.config->aggregation)},
+                      {"reference", record.config->reference.ToString()}};
+  }
+  if (record.compute != nullptr) {
+    out["computation"] = {{"num_headings_given", record.compute->num_headings_given},
+                          {"num_headings_used", record.compute->num_headings_used},
+                          {"num_aggregates", record.compute->num_aggregates}};
+  }
+  out["warnings"] = record.warnings;
+  out["outputs"] = record.outputs;
+  Json stages = Json::object();
+  for (const StageTiming& stage : record.stages) stages[stage.stage] = stage.seconds;
+  out["seconds"] = stages;
+  for (const auto& [key, text] : record.sections) {
+    out[key] = Json::parse(text, nullptr, /*allow_exceptions=*/false);
+  }
+  return out.dump(2) + "\n";
+}
+
+}  // namespace paritas

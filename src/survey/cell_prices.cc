@@ -1,0 +1,223 @@
+// Cells are built by counting sort of the quotes on dense indices: linear in
+// the number of quotes, and a stable order that is the same on every run.
+#include "survey/cell_prices.h"
+
+#include <algorithm>
+#include <cmath>
+#include <numeric>
+
+#include "paritas/elementary/cpd.h"
+
+namespace paritas::internal {
+namespace {
+
+// Appends one cell to the arrays.
+void AppendCell(int32_t region, int32_t item, const CellMoments& moments, CellPrices* cells) {
+  cells->region.push_back(region);
+  cells->item.push_back(item);
+  cells->log_price.push_back(moments.mean);
+  cells->log_sd.push_back(moments.num_quotes > 1 ? std::sqrt(moments.m2 / (moments.num_quotes - 1)) : 0.0);
+  cells->log_min.push_back(moments.min);
+  cells->log_max.push_back(moments.max);
+  cells->num_quotes.push_back(moments.num_quotes);
+  cells->representative.push_back(moments.representative);
+}
+
+void ReserveCells(size_t n, CellPrices* cells) {
+  cells->region.reserve(n);
+  cells->item.reserve(n);
+  cells->log_price.reserve(n);
+  cells->log_sd.reserve(n);
+  cells->log_min.reserve(n);
+  cells->log_max.reserve(n);
+  cells->num_quotes.reserve(n);
+  cells->representative.reserve(n);
+}
+
+// One counting sort on the dense cell key item x R + region: the quotes'
+// values are scattered straight into key order, so the cells are then read
+// off sequentially. Used when the key range is small enough to count.
+// Each thread owns a range of keys and scans all quotes for its own, so every
+// cell still sees its quotes in file order whatever the number of threads.
+void CellsByDenseKey(const QuoteArrays& quotes, int num_regions, int num_items, int num_threads,
+                     CellPrices* cells) {
+  const int64_t n = static_cast<int64_t>(quotes.size());
+  const int64_t num_keys = static_cast<int64_t>(num_regions) * num_items;
+  const int32_t* quote_region = quotes.region.data();
+  const int32_t* quote_item = quotes.item.data();
+  auto key_of = [&](int64_t q) {
+    return static_cast<int64_t>(quote_item[q]) * num_regions + quote_region[q];
+  };
+  // Scanning all quotes costs a thread more than its share of the random
+  // updates saves on a small survey.
+  const int threads = n < (int64_t{1} << 20) ? 1 : std::max(1, num_threads);
+  // Key ranges split evenly for counting, then by quotes for the rest.
+  std::vector<int64_t> key_begin(threads + 1);
+  for (int t = 0; t <= threads; ++t) key_begin[t] = num_keys * t / threads;
+  std::vector<uint32_t> start(num_keys + 1, 0);
+#pragma omp parallel for schedule(static, 1) num_threads(threads)
+  for (int t = 0; t < threads; ++t) {
+    const int64_t lo = key_begin[t], hi = key_begin[t + 1];
+    uint32_t* count = start.data() + 1;
+    for (int64_t q = 0; q < n; ++q) {
+      const int64_t key = key_of(q);
+      if (key >= lo && key < hi) ++count[key];
+    }
+  }
+  for (int64_t k = 1; k <= num_keys; ++k) start[k] += start[k - 1];
+  if (threads > 1) {
+    for (int t = 1; t < threads; ++t) {
+      const uint32_t target = static_cast<uint32_t>(static_cast<uint64_t>(n) * t / threads);
+      key_begin[t] = std::lower_bound(start.begin(), start.end() - 1, target) - start.begin();
+      key_begin[t] = std::max(key_begin[t], key_begin[t - 1]);
+    }
+  }
+  const bool flagged = !quotes.representative.empty();
+  std::vector<double> value(n);
+  std::vector<uint8_t> flag(flagged ? n : 0);
+  // Cells per key range, to know where each thread writes.
+  std::vector<int64_t> cell_begin(threads + 1, 0);
+#pragma omp parallel for schedule(static, 1) num_threads(threads)
+  for (int t = 0; t < threads; ++t) {
+    const int64_t lo = key_begin[t], hi = key_begin[t + 1];
+    int64_t num_cells = 0;
+    for (int64_t k = lo; k < hi; ++k) num_cells += start[k + 1] > start[k];
+    cell_begin[t + 1] = num_cells;
+    if (lo == hi) continue;
+    // next[key - lo]: where the key's next quote goes.
+    std::vector<uint32_t> next(start.begin() + lo, start.begin() + hi);
+    for (int64_t q = 0; q < n; ++q) {
+      const int64_t key = key_of(q);
+      if (key < lo || key >= hi) continue;
+      const uint32_t at = next[key - lo]++;
+      value[at] = quotes.log_price[q];
+      if (flagged) flag[at] = quotes.representative[q];
+    }
+  }
+  for (int t = 0; t < threads; ++t) cell_begin[t + 1] += cell_begin[t];
+  const size_t num_cells = static_cast<size_t>(cell_begin[threads]);
+  cells->region.resize(num_cells);
+  cells->item.resize(num_cells);
+  cells->log_price.resize(num_cells);
+  cells->log_sd.resize(num_cells);
+  cells->log_min.resize(num_cells);
+  cells->log_max.resize(num_cells);
+  cells->num_quotes.resize(num_cells);
+  cells->representative.resize(num_cells);
+#pragma omp parallel for schedule(static, 1) num_threads(threads)
+  for (int t = 0; t < threads; ++t) {
+    int64_t c = cell_begin[t];
+    for (int64_t k = key_begin[t]; k < key_begin[t + 1]; ++k) {
+      if (start[k + 1] == start[k]) continue;
+      CellMoments moments;
+      for (uint32_t at = start[k]; at < start[k + 1]; ++at) moments.Add(value[at], flagged && flag[at] != 0);
+      cells->region[c] = static_cast<int32_t>(k % num_regions);
+      cells->item[c] = static_cast<int32_t>(k / num_regions);
+      cells->log_price[c] = moments.mean;
+      cells->log_sd[c] = moments.num_quotes > 1 ? std::sqrt(moments.m2 / (moments.num_quotes - 1)) : 0.0;
+      cells->log_min[c] = moments.min;
+      cells->log_max[c] = moments.max;
+      cells->num_quotes[c] = moments.num_quotes;
+      cells->representative[c] = moments.representative;
+      ++c;
+    }
+  }
+}
+
+// Two stable counting sorts (by region, then by item) of quote positions,
+// for key ranges too large to count densely.
+void CellsBySortedPositions(const QuoteArrays& quotes, int num_regions, int num_items, CellPrices* cells) {
+  const int64_t n = static_cast<int64_t>(quotes.size());
+  std::vector<uint32_t> by_region(n), order(n);
+  {
+    std::vector<int64_t> start(num_regions + 1, 0);
+    for (int64_t q = 0; q < n; ++q) ++start[quotes.region[q] + 1];
+    std::partial_sum(start.begin(), start.end(), start.begin());
+    for (int64_t q = 0; q < n; ++q) by_region[start[quotes.region[q]]++] = static_cast<uint32_t>(q);
+  }
+  {
+    std::vector<int64_t> start(num_items + 1, 0);
+    for (int64_t q = 0; q < n; ++q) ++start[quotes.item[q] + 1];
+    std::partial_sum(start.begin(), start.end(), start.begin());
+    for (uint32_t q : by_region) order[start[quotes.item[q]]++] = q;
+  }
+  by_region = {};
+  size_t num_cells = 0;
+  for (int64_t k = 0; k < n; ++k) {
+    const uint32_t q = order[k], p = k > 0 ? order[k - 1] : 0;
+    num_cells += k == 0 || quotes.region[q] != quotes.region[p] || quotes.item[q] != quotes.item[p];
+  }
+  ReserveCells(num_cells, cells);
+  const bool flagged = !quotes.representative.empty();
+  CellMoments moments;
+  int32_t region = -1, item = -1;
+  for (uint32_t q : order) {
+    if (quotes.region[q] != region || quotes.item[q] != item) {
+      if (moments.num_quotes > 0) AppendCell(region, item, moments, cells);
+      moments = CellMoments();
+      region = quotes.region[q];
+      item = quotes.item[q];
+    }
+    moments.Add(quotes.log_price[q], flagged && quotes.representative[q] != 0);
+  }
+  if (moments.num_quotes > 0) AppendCell(region, item, moments, cells);
+}
+
+}  // namespace
+
+void CellsFromQuotes(const QuoteArrays& quotes, int num_regions, int num_items, int num_threads,
+                     CellPrices* cells) {
+  *cells = CellPrices();
+  // A dense count array costs 4 bytes per possible cell: worth it up to a
+  // few times the number of quotes.
+  const int64_t num_keys = static_cast<int64_t>(num_regions) * num_items;
+  if (num_keys <= std::max<int64_t>(4 * static_cast<int64_t>(quotes.size()), 1 << 20)) {
+    CellsByDenseKey(quotes, num_regions, num_items, num_threads, cells);
+  } else {
+    CellsBySortedPositions(quotes, num_regions, num_items, cells);
+  }
+}
+
+void FillHeadingRanges(Survey* survey) {
+  const int num_headings = survey->num_headings();
+  survey->heading_range.assign(num_headings, HeadingRange());
+  // Items are grouped by heading, so each heading is one item range.
+  std::vector<int> first_item(num_headings, -1), end_item(num_headings, -1);
+  for (int i = 0; i < survey->num_items(); ++i) {
+    const int h = survey->item_heading[i];
+    if (first_item[h] < 0) first_item[h] = i;
+    end_item[h] = i + 1;
+  }
+  int next_item = 0;
+  for (int h = 0; h < num_headings; ++h) {
+    HeadingRange& range = survey->heading_range[h];
+    range.item_begin = first_item[h] < 0 ? next_item : first_item[h];
+    range.item_end = first_item[h] < 0 ? next_item : end_item[h];
+    next_item = range.item_end;
+  }
+  const CellPrices& cells = survey->cells;
+  int64_t k = 0;
+  for (int h = 0; h < num_headings; ++h) {
+    HeadingRange& range = survey->heading_range[h];
+    range.cell_begin = k;
+    while (k < static_cast<int64_t>(cells.size()) && cells.item[k] < range.item_end) ++k;
+    range.cell_end = k;
+  }
+}
+
+}  // namespace paritas::internal
+
+namespace paritas {
+
+std::vector<std::vector<int>> HeadingRegionGroups(const Survey& survey, int heading) {
+  const HeadingRange& range = survey.heading_range[heading];
+  std::vector<int> region(survey.cells.region.begin() + range.cell_begin,
+                          survey.cells.region.begin() + range.cell_end);
+  std::vector<int> item(range.num_cells());
+  for (int64_t k = 0; k < range.num_cells(); ++k) {
+    item[k] = survey.cells.item[range.cell_begin + k] - range.item_begin;
+  }
+  return LinkedRegionGroups(survey.num_regions(), range.num_items(), region, item);
+}
+
+}  // namespace paritas

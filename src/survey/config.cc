@@ -1,0 +1,402 @@
+// The configuration is checked key by key against a fixed list, so a typo is
+// an error with a suggestion rather than a silently ignored setting.
+#include "paritas/survey/config.h"
+
+#include <cmath>
+#include <filesystem>
+#include <map>
+
+#include <yaml-cpp/yaml.h>
+
+#include "survey/classification_yaml.h"
+#include "paritas/base/csv.h"
+#include "paritas/base/text.h"
+
+namespace paritas {
+namespace {
+
+namespace fs = std::filesystem;
+
+template <typename Enum>
+struct EnumName {
+  Enum value;
+  const char* name;
+};
+
+constexpr EnumName<ElementaryMethod> kElementaryNames[] = {
+    {ElementaryMethod::kCpd, "cpd"},
+    {ElementaryMethod::kJevonsGeks, "jevons-geks"},
+    {ElementaryMethod::kRobustCpd, "robust-cpd"},
+};
+constexpr EnumName<AggregationMethod> kAggregationNames[] = {
+    {AggregationMethod::kGeksFisher, "geks-fisher"},
+    {AggregationMethod::kGeksTornqvist, "geks-tornqvist"},
+};
+constexpr EnumName<InvalidRowPolicy> kPolicyNames[] = {
+    {InvalidRowPolicy::kStop, "stop"},
+    {InvalidRowPolicy::kSkip, "skip"},
+};
+
+template <typename Enum, size_t N>
+std::string NameOf(const EnumName<Enum> (&names)[N], Enum value) {
+  for (const auto& entry : names) {
+    if (entry.value == value) return entry.name;
+  }
+  return "?";
+}
+
+template <typename Enum, size_t N>
+bool ValueOf(const EnumName<Enum> (&names)[N], const std::string& text, Enum* value) {
+  const std::string lower = ToLower(Trim(text));
+  for (const auto& entry : names) {
+    if (lower == entry.name) {
+      *value = entry.value;
+      return true;
+    }
+  }
+  return false;
+}
+
+template <typename Enum, size_t N>
+std::vector<std::string> NamesOf(const EnumName<Enum> (&names)[N]) {
+  std::vector<std::string> out;
+  for (const auto& entry : names) out.push_back(entry.name);
+  return out;
+}
+
+const std::vector<std::string> kTopKeys = {
+    "survey",    "classification",        "reference",         "elementary",
+    "aggregation", "invalid_rows",        "output",            "matrices",
+    "representative_weight", "outlier_threshold", "robust_standard_errors", "report", "threads"};
+const std::vector<std::string> kSurveyKeys = {"prices", "expenditure", "regions", "items"};
+
+class ConfigParser {
+ public:
+  ConfigParser(const std::string& path, RunConfig* config) : path_(path), config_(config) {
+    base_ = fs::path(path).parent_path();
+  }
+
+  bool Parse(const std::string& text, std::string* error) {
+    YAML::Node root;
+    try {
+      root = YAML::Load(text);
+    } catch (const YAML::Exception& e) {
+      *error = Where(e.mark) + "invalid YAML: " + e.msg;
+      return false;
+    }
+    try {
+      return ParseRoot(root, error);
+    } catch (const YAML::Exception& e) {
+      *error = Where(e.mark) + e.msg;
+      return false;
+    }
+  }
+
+ private:
+  std::string Where(const YAML::Mark& mark) const {
+    if (mark.line < 0) return path_ + ": ";
+    return path_ + ":" + std::to_string(mark.line + 1) + ":" + std::to_string(mark.column + 1) + ": ";
+  }
+  std::string Where(const YAML::Node& node) const { return Where(node.Mark()); }
+
+  bool CheckKeys(const YAML::Node& map, const std::vector<std::string>& allowed,
+                 const std::string& section, std::string* error) {
+    for (const auto& kv : map) {
+      const std::string key = kv.first.Scalar();
+      bool known = false;
+      for (const auto& a : allowed) known = known || a == key;
+      if (known) continue;
+      *error = Where(kv.first) + "unknown key '" + (section.empty() ? "" : section + ".") + key + "'";
+      const std::string nearest = NearestName(key, allowed);
+      if (!nearest.empty()) {
+        *error += "; did you mean '" + (section.empty() ? "" : section + ".") + nearest + "'?";
+      } else {
+        *error += "; valid keys are: " + JoinNames(allowed);
+      }
+      return false;
+    }
+    return true;
+  }
+
+  bool Scalar(const YAML::Node& node, const std::string& key, std::string* value,
+              std::string* error) {
+    if (!node.IsScalar()) {
+      *error = Where(node) + "'" + key + "' must be a single value";
+      return false;
+    }
+    *value = node.Scalar();
+    return true;
+  }
+
+  bool Path(const YAML::Node& node, const std::string& key, std::string* value,
+            std::string* error) {
+    std::string text;
+    if (!Scalar(node, key, &text, error)) return false;
+    if (text.empty()) {
+      *error = Where(node) + "'" + key + "' must be a file path";
+      return false;
+    }
+    *value = Resolve(text);
+    return true;
+  }
+
+  std::string Resolve(const std::string& text) const {
+    fs::path p(text);
+    if (p.is_absolute() || base_.empty()) return p.lexically_normal().string();
+    return (base_ / p).lexically_normal().string();
+  }
+
+  bool Number(const YAML::Node& node, const std::string& key, double* value, std::string* error) {
+    std::string text;
+    if (!Scalar(node, key, &text, error)) return false;
+    if (ParseNumber(text, value) != NumberStatus::kOk) {
+      *error = Where(node) + "'" + key + "' must be a number, found '" + text + "'";
+      return false;
+    }
+    return true;
+  }
+
+  template <typename Enum>
+  bool EnumValue(const YAML::Node& node, const std::string& key, Enum* value,
+                 const std::vector<std::string>& names, std::string* error) {
+    std::string text;
+    if (!Scalar(node, key, &text, error)) return false;
+    if (!FromString(text, value)) {
+      *error = Where(node) + key + " '" + text + "' is not one of: " + JoinNames(names);
+      return false;
+    }
+    return true;
+  }
+
+  bool ParseRoot(const YAML::Node& root, std::string* error) {
+    if (!root.IsMap()) {
+      *error = path_ + ": the configuration must be a mapping of keys (survey, classification, ...)";
+      return false;
+    }
+    if (!CheckKeys(root, kTopKeys, "", error)) return false;
+    const YAML::Node survey = root["survey"];
+    if (!survey) {
+      *error = path_ + ": missing key 'survey' (with at least 'prices' and 'expenditure')";
+      return false;
+    }
+    if (!survey.IsMap()) {
+      *error = Where(survey) + "'survey' must be a mapping with keys " + JoinNames(kSurveyKeys);
+      return false;
+    }
+    if (!CheckKeys(survey, kSurveyKeys, "survey", error)) return false;
+    SurveyFiles& files = config_->survey;
+    if (survey["prices"] && !Path(survey["prices"], "survey.prices", &files.prices, error)) return false;
+    if (survey["expenditure"] &&
+        !Path(survey["expenditure"], "survey.expenditure", &files.expenditure, error)) return false;
+    if (survey["regions"] && !Path(survey["regions"], "survey.regions", &files.regions, error)) return false;
+    if (survey["items"] && !Path(survey["items"], "survey.items", &files.items, error)) return false;
+    for (const char* required : {"prices", "expenditure"}) {
+      if (!survey[required]) {
+        *error = Where(survey) + "missing key 'survey." + required + "'";
+        return false;
+      }
+    }
+
+    if (const YAML::Node node = root["classification"]) {
+      if (!ParseClassification(node, error)) return false;
+    }
+    if (const YAML::Node node = root["reference"]) {
+      std::string text;
+      if (!Scalar(node, "reference", &text, error)) return false;
+      if (Trim(text).empty()) {
+        *error = Where(node) + "reference must be mean, weighted-mean or a region code";
+        return false;
+      }
+      config_->reference = Reference::FromString(text);
+    }
+    if (const YAML::Node node = root["elementary"]) {
+      if (!EnumValue(node, "elementary", &config_->elementary, ElementaryMethodNames(), error)) return false;
+    }
+    if (const YAML::Node node = root["aggregation"]) {
+      if (!EnumValue(node, "aggregation", &config_->aggregation, AggregationMethodNames(), error))
+        return false;
+    }
+    if (const YAML::Node node = root["invalid_rows"]) {
+      if (!EnumValue(node, "invalid_rows", &config_->invalid_rows, InvalidRowPolicyNames(), error))
+        return false;
+    }
+    if (const YAML::Node node = root["output"]) {
+      if (!Path(node, "output", &config_->output, error)) return false;
+    } else {
+      config_->output = Resolve("out");
+    }
+    if (const YAML::Node node = root["matrices"]) {
+      config_->matrices.clear();
+      if (node.IsScalar()) {
+        config_->matrices.push_back(node.Scalar());
+      } else if (node.IsSequence()) {
+        for (const auto& entry : node) {
+          std::string code;
+          if (!Scalar(entry, "matrices", &code, error)) return false;
+          config_->matrices.push_back(code);
+        }
+      } else {
+        *error = Where(node) + "'matrices' must be 'all', a node code, or a list of node codes";
+        return false;
+      }
+    }
+    if (const YAML::Node node = root["representative_weight"]) {
+      if (!Number(node, "representative_weight", &config_->representative_weight, error)) return false;
+      if (!(config_->representative_weight > 0)) {
+        *error = Where(node) + "representative_weight must be positive, found '" + node.Scalar() + "'";
+        return false;
+      }
+    }
+    if (const YAML::Node node = root["outlier_threshold"]) {
+      if (!Number(node, "outlier_threshold", &config_->outlier_threshold, error)) return false;
+      if (!(config_->outlier_threshold > 0)) {
+        *error = Where(node) + "outlier_threshold must be positive, found '" + node.Scalar() + "'";
+        return false;
+      }
+    }
+    if (const YAML::Node node = root["robust_standard_errors"]) {
+      std::string text;
+      if (!Scalar(node, "robust_standard_errors", &text, error)) return false;
+      if (!ParseFlag(text, &config_->robust_standard_errors)) {
+        *error = Where(node) + "robust_standard_errors must be true or false, found '" + text + "'";
+        return false;
+      }
+    }
+    if (const YAML::Node node = root["report"]) {
+      std::string text;
+      if (!Scalar(node, "report", &text, error)) return false;
+      if (!ParseFlag(text, &config_->report)) {
+        *error = Where(node) + "report must be true or false, found '" + text + "'";
+        return false;
+      }
+    }
+    if (const YAML::Node node = root["threads"]) {
+      double threads = 0;
+      if (!Number(node, "threads", &threads, error)) return false;
+      if (threads < 0 || threads != std::floor(threads) || threads > 1024) {
+        *error = Where(node) + "threads must be a whole number from 0 (all cores) to 1024, found '" +
+                 node.Scalar() + "'";
+        return false;
+      }
+      config_->threads = static_cast<int>(threads);
+    }
+    return true;
+  }
+
+  bool ParseClassification(const YAML::Node& node, std::string* error) {
+    if (node.IsScalar()) {
+      const std::string file = Resolve(node.Scalar());
+      std::string text;
+      if (!ReadWholeFile(file, &text, error)) return false;
+      config_->classification_source = file;
+      if (!Classification::FromYaml(text, file, &config_->classification, error)) return false;
+    } else {
+      config_->classification_source = path_;
+      if (!internal::ClassificationFromNode(node, path_, &config_->classification, error)) return false;
+    }
+    config_->has_classification = true;
+    return true;
+  }
+
+  std::string path_;
+  fs::path base_;
+  RunConfig* config_;
+};
+
+}  // namespace
+
+std::string Reference::ToString() const {
+  switch (kind) {
+    case ReferenceKind::kMean:
+      return "mean";
+    case ReferenceKind::kWeightedMean:
+      return "weighted-mean";
+    case ReferenceKind::kRegion:
+      return region;
+  }
+  return "?";
+}
+
+Reference Reference::FromString(const std::string& text) {
+  Reference reference;
+  const std::string lower = ToLower(Trim(text));
+  if (lower == "mean") {
+    reference.kind = ReferenceKind::kMean;
+  } else if (lower == "weighted-mean") {
+    reference.kind = ReferenceKind::kWeightedMean;
+  } else {
+    reference.kind = ReferenceKind::kRegion;
+    reference.region = std::string(Trim(text));
+  }
+  return reference;
+}
+
+std::string ToString(ElementaryMethod method) { return NameOf(kElementaryNames, method); }
+std::string ToString(AggregationMethod method) { return NameOf(kAggregationNames, method); }
+std::string ToString(InvalidRowPolicy policy) { return NameOf(kPolicyNames, policy); }
+bool FromString(const std::string& text, ElementaryMethod* method) {
+  return ValueOf(kElementaryNames, text, method);
+}
+bool FromString(const std::string& text, AggregationMethod* method) {
+  return ValueOf(kAggregationNames, text, method);
+}
+bool FromString(const std::string& text, InvalidRowPolicy* policy) {
+  return ValueOf(kPolicyNames, text, policy);
+}
+std::vector<std::string> ElementaryMethodNames() { return NamesOf(kElementaryNames); }
+std::vector<std::string> AggregationMethodNames() { return NamesOf(kAggregationNames); }
+std::vector<std::string> InvalidRowPolicyNames() { return NamesOf(kPolicyNames); }
+
+bool RunConfig::IsValid(std::string* error) const {
+  if (survey.prices.empty()) {
+    *error = "no prices file given (survey.prices)";
+    return false;
+  }
+  if (survey.expenditure.empty()) {
+    *error = "no expenditure file given (survey.expenditure)";
+    return false;
+  }
+  if (reference.kind == ReferenceKind::kRegion && reference.region.empty()) {
+    *error = "reference must be mean, weighted-mean or a region code";
+    return false;
+  }
+  if (!(representative_weight > 0) || !std::isfinite(representative_weight)) {
+    *error = "representative_weight must be a positive number";
+    return false;
+  }
+  if (!(outlier_threshold > 0) || !std::isfinite(outlier_threshold)) {
+    *error = "outlier_threshold must be a positive number";
+    return false;
+  }
+  if (threads < 0) {
+    *error = "threads must be 0 (all cores) or more";
+    return false;
+  }
+  if (output.empty()) {
+    *error = "no output folder given (output)";
+    return false;
+  }
+  return true;
+}
+
+bool LoadRunConfig(const std::string& path, RunConfig* config, std::string* error) {
+  std::string text;
+  if (!ReadWholeFile(path, &text, error)) return false;
+  return ParseRunConfig(text, path, config, error);
+}
+
+bool ParseRunConfig(const std::string& yaml_text, const std::string& path, RunConfig* config,
+                    std::string* error) {
+  RunConfig result;
+  result.config_path = path;
+  ConfigParser parser(path, &result);
+  if (!parser.Parse(yaml_text, error)) return false;
+  if (!result.IsValid(error)) {
+    *error = path + ": " + *error;
+    return false;
+  }
+  *config = std::move(result);
+  return true;
+}
+
+}  // namespace paritas

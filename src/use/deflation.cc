@@ -1,0 +1,715 @@
+// Deflation streams: one rolling buffer holds a block of the input plus the
+// incomplete record carried from the block before, so memory is bounded by
+// the block size. Each record's raw text is copied verbatim and the new
+// fields appended before its own line terminator; parities are looked up in
+// a dense node x region table through interned codes, with the last region
+// and node remembered because micro-data usually come sorted by region.
+#include "paritas/use/deflation.h"
+
+#include <unistd.h>
+
+#include <algorithm>
+#include <cerrno>
+#include <chrono>
+#include <cmath>
+#include <cstdio>
+#include <cstring>
+#include <filesystem>
+#include <limits>
+#include <set>
+#include <system_error>
+
+#include "paritas/base/code_table.h"
+#include "paritas/base/csv.h"
+#include "paritas/base/text.h"
+
+namespace paritas {
+namespace {
+
+constexpr std::string_view kUtf8Bom = "\xEF\xBB\xBF";
+constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
+// Output and rejected text is handed to the file once this much has built up.
+constexpr size_t kFlushBytes = 1 << 20;
+
+double SecondsSince(std::chrono::steady_clock::time_point start) {
+  return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+}
+
+std::string ErrnoText(int error_number) {
+  return std::error_code(error_number, std::generic_category()).message();
+}
+
+std::string DidYouMean(std::string_view word, const std::vector<std::string>& candidates) {
+  const std::string nearest = NearestName(word, candidates);
+  return nearest.empty() ? "" : "; did you mean '" + nearest + "'?";
+}
+
+// Parities (and optional intervals) by node x region, reference = 100.
+struct ParityTable {
+  CodeTable nodes;
+  CodeTable regions;
+  // Indexed [node * num_regions + region]; NaN = no parity. Grown as codes
+  // appear, so a node or region is only known after the file is read.
+  std::vector<double> parity;
+  std::vector<double> lower;  // bounds of the parity's interval
+  std::vector<double> upper;
+  std::string path;
+  std::string interval_path;
+
+  size_t Index(int node, int region) const {
+    return static_cast<size_t>(node) * regions.size() + region;
+  }
+};
+
+// Reads a small CSV table into `rows` of the wanted columns (-1 = absent in
+// `index`). Returns false with a message naming the file.
+bool ReadTable(const std::string& path, const std::vector<std::string>& wanted,
+               const std::vector<bool>& required, std::vector<int>* index, std::string* contents,
+               std::vector<std::vector<std::string_view>>* rows, std::vector<int64_t>* lines,
+               std::string* error) {
+  if (!ReadWholeFile(path, contents, error)) return false;
+  CsvReader reader(*contents);
+  CsvRecord record;
+  if (!reader.Next(&record)) {
+    *error = reader.error().empty() ? path + ": file is empty (expected a header row)"
+                                    : path + ":" + reader.error();
+    return false;
+  }
+  CsvHeader header(record.fields);
+  const size_t num_fields = record.fields.size();
+  index->assign(wanted.size(), -1);
+  for (size_t k = 0; k < wanted.size(); ++k) {
+    (*index)[k] = header.Find(wanted[k]);
+    if (required[k] && (*index)[k] < 0) {
+      *error = path + ":" + std::to_string(record.line) + ": missing column '" + wanted[k] +
+               "' (found: " + JoinNames(header.names()) + ")";
+      return false;
+    }
+  }
+  while (reader.Next(&record)) {
+    if (record.fields.size() != num_fields) {
+      *error = LocatedMessage(path, record.line, 0,
+                          "row has " + std::to_string(record.fields.size()) +
+                              " fields, the header has " + std::to_string(num_fields));
+      return false;
+    }
+    std::vector<std::string_view> row(wanted.size());
+    for (size_t k = 0; k < wanted.size(); ++k) {
+      if ((*index)[k] >= 0) row[k] = Trim(record.fields[(*index)[k]]);
+    }
+    // Quoted fields with doubled quotes point into the record's scratch,
+    // which the next record reuses; codes and numbers never hold quotes, so
+    // such a row is refused rather than copied.
+    for (std::string_view field : row) {
+      if (!field.empty() && (field.data() < contents->data() ||
+                             field.data() >= contents->data() + contents->size())) {
+        *error = LocatedMessage(path, record.line, 0, "unexpected quote character in a code or number");
+        return false;
+      }
+    }
+    rows->push_back(std::move(row));
+    lines->push_back(record.line);
+  }
+  if (!reader.error().empty()) {
+    *error = path + ":" + reader.error();
+    return false;
+  }
+  return true;
+}
+
+// Parses an optional positive number of a parities table: empty = NaN.
+bool ParseParity(const std::string& path, int64_t line, int column, const char* what,
+                 std::string_view text, double* value, std::string* error) {
+  *value = kNaN;
+  if (text.empty()) return true;
+  double parsed = 0.0;
+  const NumberStatus status = ParseNumber(text, &parsed);
+  if (status != NumberStatus::kOk) {
+    *error = LocatedMessage(path, line, column, NumberProblem(status, what, text));
+    return false;
+  }
+  if (!(parsed > 0)) {
+    *error =
+        LocatedMessage(path, line, column, std::string(what) + " " + QuoteValue(text) + " is not positive");
+    return false;
+  }
+  *value = parsed;
+  return true;
+}
+
+bool ReadParities(const DeflateOptions& options, ParityTable* table, std::string* error) {
+  namespace fs = std::filesystem;
+  table->path = (fs::path(options.parities_dir) / "parities.csv").string();
+  std::string contents;
+  std::vector<int> index;
+  std::vector<std::vector<std::string_view>> rows;
+  std::vector<int64_t> lines;
+  if (!ReadTable(table->path, {"node", "region", "parity"}, {true, true, true}, &index, &contents,
+                 &rows, &lines, error)) {
+    return false;
+  }
+  if (rows.empty()) {
+    *error = table->path + ": no data rows (only a header)";
+    return false;
+  }
+  for (const auto& row : rows) {
+    table->nodes.Intern(row[0]);
+    table->regions.Intern(row[1]);
+  }
+  const size_t size = static_cast<size_t>(table->nodes.size()) * table->regions.size();
+  table->parity.assign(size, kNaN);
+  for (size_t k = 0; k < rows.size(); ++k) {
+    double value = kNaN;
+    if (!ParseParity(table->path, lines[k], index[2] + 1, "parity", rows[k][2], &value, error))
+      return false;
+    table->parity[table->Index(table->nodes.Find(rows[k][0]), table->regions.Find(rows[k][1]))] =
+        value;
+  }
+  if (!options.include_interval) return true;
+
+  table->interval_path =
+      (fs::path(options.parities_dir) / "sensitivity" / "bootstrap.csv").string();
+  std::error_code ec;
+  if (!fs::exists(table->interval_path, ec)) {
+    *error = "no parity intervals: " + table->interval_path +
+             " does not exist (compute writes it when sensitivity analysis is on)";
+    return false;
+  }
+  contents.clear();
+  rows.clear();
+  lines.clear();
+  if (!ReadTable(table->interval_path, {"node", "region", "lower", "upper"},
+                 {true, true, true, true}, &index, &contents, &rows, &lines, error)) {
+    return false;
+  }
+  table->lower.assign(size, kNaN);
+  table->upper.assign(size, kNaN);
+  for (size_t k = 0; k < rows.size(); ++k) {
+    const int node = table->nodes.Find(rows[k][0]);
+    const int region = table->regions.Find(rows[k][1]);
+    double lower = kNaN, upper = kNaN;
+    if (!ParseParity(table->interval_path, lines[k], index[2] + 1, "lower", rows[k][2], &lower,
+                     error) ||
+        !ParseParity(table->interval_path, lines[k], index[3] + 1, "upper", rows[k][3], &upper,
+                     error)) {
+      return false;
+    }
+    // Intervals of nodes or regions without parities cannot be used.
+    if (node < 0 || region < 0) continue;
+    table->lower[table->Index(node, region)] = lower;
+    table->upper[table->Index(node, region)] = upper;
+  }
+  return true;
+}
+
+// A file written under a temporary name and renamed into place by Commit.
+class AtomicFile {
+ public:
+  ~AtomicFile() { Abandon(); }
+
+  bool Open(const std::string& path, std::string* error) {
+    path_ = path;
+    temp_path_ = path + ".tmp." + std::to_string(::getpid());
+    std::error_code ec;
+    const std::filesystem::path parent = std::filesystem::path(path).parent_path();
+    if (!parent.empty()) std::filesystem::create_directories(parent, ec);
+    stream_ = std::fopen(temp_path_.c_str(), "wb");
+    if (stream_ == nullptr) {
+      *error = path + ": cannot create temporary file '" + temp_path_ + "': " + ErrnoText(errno);
+      return false;
+    }
+    return true;
+  }
+
+  // Writes and clears `text`.
+  bool Write(std::string* text, std::string* error) {
+    if (!text->empty() && std::fwrite(text->data(), 1, text->size(), stream_) != text->size()) {
+      *error = path_ + ": cannot write temporary file '" + temp_path_ + "': " + ErrnoText(errno);
+      return false;
+    }
+    text->clear();
+    return true;
+  }
+
+  // Flushes to disk before the rename, so a crash leaves the old file or the
+  // whole new one, never a partial file under the final name.
+  bool Commit(std::string* error) {
+    if (std::fflush(stream_) != 0 || ::fsync(::fileno(stream_)) != 0) {
+      *error = path_ + ": cannot write temporary file '" + temp_path_ + "': " + ErrnoText(errno);
+      return false;
+    }
+    const int close_result = std::fclose(stream_);
+    stream_ = nullptr;
+    if (close_result != 0) {
+      *error = path_ + ": cannot write temporary file '" + temp_path_ + "': " + ErrnoText(errno);
+      return false;
+    }
+    if (std::rename(temp_path_.c_str(), path_.c_str()) != 0) {
+      *error = path_ + ": cannot rename temporary file '" + temp_path_ +
+               "' into place: " + ErrnoText(errno);
+      return false;
+    }
+    temp_path_.clear();
+    return true;
+  }
+
+  void Abandon() {
+    if (stream_ != nullptr) {
+      std::fclose(stream_);
+      stream_ = nullptr;
+    }
+    if (!temp_path_.empty()) {
+      std::remove(temp_path_.c_str());
+      temp_path_.clear();
+    }
+  }
+
+ private:
+  std::string path_;
+  std::string temp_path_;
+  std::FILE* stream_ = nullptr;
+};
+
+class Deflater {
+ public:
+  // `fixed_node` is the node of every row, or -1 when a column names it.
+  Deflater(const DeflateOptions& options, const ParityTable& table, int fixed_node,
+           DeflateSummary* summary)
+      : options_(options),
+        table_(table),
+        summary_(summary),
+        keep_all_(options.invalid_rows == InvalidRowPolicy::kSkip),
+        fixed_node_(fixed_node) {}
+
+  bool Run(std::string* error) {
+    std::FILE* stream = std::fopen(options_.input_path.c_str(), "rb");
+    if (stream == nullptr) {
+      *error = options_.input_path + ": cannot open file: " + ErrnoText(errno);
+      return false;
+    }
+    if (!output_.Open(options_.output_path, error)) {
+      std::fclose(stream);
+      return false;
+    }
+    if (keep_all_ && !rejected_file_.Open(summary_->rejected_path, error)) {
+      std::fclose(stream);
+      return false;
+    }
+    rejected_text_ = "file,line,reason,raw\n";
+    const bool ok = ReadBlocks(stream, error);
+    std::fclose(stream);
+    if (!ok) return false;
+    if (summary_->num_rows_rejected > 0 && !keep_all_)
+      return true;  // Caller reports; nothing written.
+    if (!output_.Write(&out_, error) || !output_.Commit(error)) return false;
+    if (keep_all_ &&
+        (!rejected_file_.Write(&rejected_text_, error) || !rejected_file_.Commit(error))) {
+      return false;
+    }
+    return true;
+  }
+
+ private:
+  bool ReadBlocks(std::FILE* stream, std::string* error) {
+    const size_t block = static_cast<size_t>(std::max<int64_t>(options_.block_bytes, 1 << 10));
+    std::string buffer;
+    size_t carried = 0;  // bytes of an incomplete record kept from the last block
+    int64_t line = 1;
+    bool header_done = false;
+    bool at_eof = false;
+    while (!at_eof) {
+      buffer.resize(carried + block);
+      const size_t got = std::fread(buffer.data() + carried, 1, block, stream);
+      if (std::ferror(stream)) {
+        *error = options_.input_path + ": cannot read file: " + ErrnoText(errno);
+        return false;
+      }
+      at_eof = got < block;
+      summary_->num_bytes_read += static_cast<int64_t>(got);
+      buffer.resize(carried + got);
+      const std::string_view data(buffer);
+      size_t start = 0;
+      if (!header_done) {
+        // A header longer than a block is read block by block until it ends.
+        const size_t end = at_eof ? data.size() : LastRecordEnd(data);
+        if (end == 0 && !at_eof) {
+          carried = data.size();
+          continue;
+        }
+        CsvReader reader(data.substr(0, end), 1, /*skip_bom=*/true);
+        if (!ReadHeader(data.substr(0, end), &reader, error)) return false;
+        start = reader.position();
+        line = reader.line();
+        header_done = true;
+      }
+      const size_t end = at_eof ? data.size() : start + LastRecordEnd(data.substr(start));
+      if (!ProcessBlock(data.substr(start, end - start), &line, error)) return false;
+      // Keep the incomplete tail for the next block.
+      std::memmove(buffer.data(), buffer.data() + end, data.size() - end);
+      carried = data.size() - end;
+    }
+    if (!header_done) {
+      *error = options_.input_path + ": file is empty (expected a header row)";
+      return false;
+    }
+    return true;
+  }
+
+  // Finds the columns and writes the extended header.
+  bool ReadHeader(std::string_view data, CsvReader* reader, std::string* error) {
+    CsvRecord header;
+    if (!reader->Next(&header)) {
+      *error = reader->error().empty()
+                   ? options_.input_path + ": file is empty (expected a header row with columns " +
+                         options_.region_column + ", " + JoinNames(options_.value_columns) + ")"
+                   : options_.input_path + ":" + reader->error();
+      return false;
+    }
+    const CsvHeader names(header.fields);
+    num_fields_ = header.fields.size();
+    const std::string where = options_.input_path + ":" + std::to_string(header.line) + ": ";
+    auto find = [&](const std::string& name, int* column) {
+      *column = names.Find(name);
+      if (*column < 0) {
+        *error = where + "missing column '" + name + "' (found: " + JoinNames(names.names()) + ")" +
+                 DidYouMean(name, names.names());
+        return false;
+      }
+      for (const std::string& duplicate : names.duplicates()) {
+        if (duplicate == Trim(name)) {
+          *error = where + "column '" + name + "' appears more than once";
+          return false;
+        }
+      }
+      return true;
+    };
+    if (!find(options_.region_column, &region_column_)) return false;
+    if (!options_.node_column.empty() && !find(options_.node_column, &node_column_)) return false;
+    value_columns_.resize(options_.value_columns.size());
+    for (size_t k = 0; k < value_columns_.size(); ++k) {
+      if (!find(options_.value_columns[k], &value_columns_[k])) return false;
+    }
+    std::vector<std::string>& added = summary_->columns_added;
+    for (const std::string& name : options_.value_columns)
+      added.push_back(std::string(Trim(name)) + "_real");
+    if (options_.include_parity) added.push_back("parity");
+    if (options_.include_interval) {
+      for (const std::string& name : options_.value_columns) {
+        added.push_back(std::string(Trim(name)) + "_real_lower");
+        added.push_back(std::string(Trim(name)) + "_real_upper");
+      }
+    }
+    for (const std::string& name : added) {
+      if (names.Find(name) >= 0) {
+        *error =
+            where + "column '" + name + "' already exists; rename it or choose other value columns";
+        return false;
+      }
+    }
+    // The record's own line end is kept; a last record without one gets the
+    // header's, so the output ends with a line end.
+    const size_t raw_end = header.offset + header.raw.size();
+    default_terminator_ = std::string(data.substr(raw_end, reader->position() - raw_end));
+    if (default_terminator_.empty() || default_terminator_ == "\r") default_terminator_ = "\n";
+    if (data.substr(0, kUtf8Bom.size()) == kUtf8Bom) out_.append(kUtf8Bom);
+    out_.append(header.raw);
+    for (const std::string& name : added) {
+      out_ += ',';
+      AppendCsvField(name, &out_);
+    }
+    out_.append(data.substr(raw_end, reader->position() - raw_end));
+    if (reader->position() == raw_end) out_ += default_terminator_;
+    return true;
+  }
+
+  void Reject(const CsvRecord& record, int column, const std::string& what) {
+    ++summary_->num_rows_rejected;
+    if (!keep_all_) {
+      writing_ = false;
+      out_.clear();
+    }
+    RejectedRow row;
+    row.file = options_.input_path;
+    row.line = record.line;
+    row.reason = LocatedMessage(options_.input_path, record.line, column, what);
+    if (keep_all_) {
+      AppendCsvField(row.file, &rejected_text_);
+      rejected_text_ += ',';
+      rejected_text_ += std::to_string(row.line);
+      rejected_text_ += ',';
+      AppendCsvField(row.reason, &rejected_text_);
+      rejected_text_ += ',';
+      AppendCsvField(record.raw, &rejected_text_);
+      rejected_text_ += '\n';
+    }
+    if (static_cast<int>(summary_->rejected_rows.size()) < options_.max_reported_rows) {
+      row.raw = std::string(record.raw);
+      summary_->rejected_rows.push_back(std::move(row));
+    }
+  }
+
+  // The last code looked up in one column, so that runs of equal codes cost
+  // one comparison.
+  struct LastCode {
+    int index = -1;
+    std::string text;
+  };
+
+  // Returns the index of the code in `column` in `table`, or -1 after
+  // rejecting the record; `what` names the table in the message.
+  int LookUp(const CsvRecord& record, int column, const std::string& column_name, const CodeTable& table,
+             const char* what, LastCode* last) {
+    const std::string_view text = record.fields[column];
+    if (last->index >= 0 && text == last->text) return last->index;
+    const std::string_view code = Trim(text);
+    const int index = table.Find(code);
+    if (index < 0) {
+      Reject(record, column + 1,
+             code.empty() ? column_name + " is empty"
+                          : column_name + " " + QuoteValue(code) + " is " + what + " " + table_.path +
+                                DidYouMean(code, table.Codes()));
+      return -1;
+    }
+    last->index = index;
+    last->text.assign(text);
+    return index;
+  }
+
+  // Returns the node index of the record, or -1 after rejecting it.
+  int RowNode(const CsvRecord& record) {
+    if (node_column_ < 0) return fixed_node_;
+    return LookUp(record, node_column_, options_.node_column, table_.nodes, "not a node in", &last_node_);
+  }
+
+  // Returns the region index of the record, or -1 after rejecting it.
+  int RowRegion(const CsvRecord& record) {
+    return LookUp(record, region_column_, options_.region_column, table_.regions, "not a region of",
+                  &last_region_);
+  }
+
+  bool ProcessBlock(std::string_view data, int64_t* line, std::string* error) {
+    CsvReader reader(data, *line, /*skip_bom=*/false);
+    CsvRecord record;
+    const size_t num_values = value_columns_.size();
+    values_.resize(num_values);
+    while (reader.Next(&record)) {
+      ++summary_->num_rows_read;
+      if (record.fields.size() != num_fields_) {
+        const size_t found = record.fields.size();
+        Reject(record, 0,
+               "row has " + std::to_string(found) + " field" + (found == 1 ? "" : "s") +
+                   ", the header has " + std::to_string(num_fields_));
+        continue;
+      }
+      const int node = RowNode(record);
+      if (node < 0) continue;
+      const int region = RowRegion(record);
+      if (region < 0) continue;
+      const size_t cell = table_.Index(node, region);
+      const double parity = table_.parity[cell];
+      if (std::isnan(parity)) {
+        Reject(record, region_column_ + 1,
+               options_.region_column + " " + QuoteValue(table_.regions.Code(region)) +
+                   " has no parity for node " + QuoteValue(table_.nodes.Code(node)) + " in " +
+                   table_.path);
+        continue;
+      }
+      bool valid = true;
+      for (size_t k = 0; k < num_values && valid; ++k) {
+        const std::string_view text = record.fields[value_columns_[k]];
+        const NumberStatus status = ParseNumber(text, &values_[k]);
+        if (status != NumberStatus::kOk) {
+          Reject(record, value_columns_[k] + 1,
+                 NumberProblem(status, options_.value_columns[k], text));
+          valid = false;
+        } else if (values_[k] < 0 && !options_.allow_negative) {
+          Reject(record, value_columns_[k] + 1,
+                 options_.value_columns[k] + " " + QuoteValue(Trim(text)) +
+                     " is negative (negative values need --allow-negative)");
+          valid = false;
+        }
+      }
+      if (!valid || !writing_) continue;
+
+      out_.append(record.raw);
+      for (size_t k = 0; k < num_values; ++k) {
+        out_ += ',';
+        AppendFixed(values_[k] / (parity / 100.0), options_.decimals, &out_);
+      }
+      if (options_.include_parity) {
+        out_ += ',';
+        AppendShortest(parity, &out_);
+      }
+      if (options_.include_interval) {
+        const double lower = table_.lower[cell];
+        const double upper = table_.upper[cell];
+        for (size_t k = 0; k < num_values; ++k) {
+          // A dearer bound gives the smaller real value; for a negative value
+          // the order flips.
+          const double a = values_[k] / (upper / 100.0), b = values_[k] / (lower / 100.0);
+          out_ += ',';
+          AppendFixed(std::min(a, b), options_.decimals, &out_);
+          out_ += ',';
+          AppendFixed(std::max(a, b), options_.decimals, &out_);
+        }
+      }
+      const size_t raw_end = record.offset + record.raw.size();
+      const std::string_view terminator = data.substr(raw_end, reader.position() - raw_end);
+      if (terminator.empty()) {
+        out_ += default_terminator_;
+      } else {
+        out_.append(terminator);
+      }
+      ++summary_->num_rows_written;
+      if (out_.size() >= kFlushBytes && !output_.Write(&out_, error)) return false;
+      if (rejected_text_.size() >= kFlushBytes && !rejected_file_.Write(&rejected_text_, error))
+        return false;
+    }
+    if (!reader.error().empty()) {
+      *error = options_.input_path + ":" + reader.error();
+      return false;
+    }
+    *line = reader.line();
+    if (!writing_) out_.clear();
+    if (!output_.Write(&out_, error)) return false;
+    if (keep_all_ && !rejected_file_.Write(&rejected_text_, error)) return false;
+    return true;
+  }
+
+  const DeflateOptions& options_;
+  const ParityTable& table_;
+  DeflateSummary* summary_;
+  // False once a row is rejected under kStop: the rest is only checked.
+  bool writing_ = true;
+  const bool keep_all_;
+  const int fixed_node_;
+  AtomicFile output_;
+  AtomicFile rejected_file_;
+  std::string out_;
+  std::string rejected_text_;
+  std::string default_terminator_ = "\n";
+  size_t num_fields_ = 0;
+  int region_column_ = -1;
+  int node_column_ = -1;
+  std::vector<int> value_columns_;
+  std::vector<double> values_;
+  LastCode last_region_;
+  LastCode last_node_;
+};
+
+}  // namespace
+
+bool DeflateOptions::IsValid(std::string* error) const {
+  auto fail = [&](const std::string& message) {
+    *error = message;
+    return false;
+  };
+  if (parities_dir.empty()) return fail("no parities folder given (the output folder of compute)");
+  if (input_path.empty()) return fail("no input file given");
+  if (output_path.empty()) return fail("no output file given");
+  if (Trim(region_column).empty()) return fail("the region column name is empty");
+  if (value_columns.empty()) return fail("no value column given (the money columns to deflate)");
+  std::set<std::string_view> seen = {Trim(region_column)};
+  if (!node_column.empty()) {
+    if (!node.empty()) return fail("give either a node for all rows or a node column, not both");
+    if (!seen.insert(Trim(node_column)).second) {
+      return fail("the node column '" + node_column + "' is also the region column");
+    }
+  }
+  for (const std::string& name : value_columns) {
+    if (Trim(name).empty()) return fail("a value column name is empty");
+    if (!seen.insert(Trim(name)).second) {
+      return fail("value column '" + name +
+                  "' is given twice or is also the region or node column");
+    }
+  }
+  if (max_reported_rows < 0) return fail("max_reported_rows is negative");
+  if (decimals < 0 || decimals > 17) return fail("decimals must be between 0 and 17");
+  if (block_bytes < (1 << 10)) return fail("block_bytes must be at least 1024");
+  std::error_code ec;
+  if (input_path == output_path || std::filesystem::equivalent(input_path, output_path, ec)) {
+    return fail("the output file '" + output_path + "' is the input file; choose another name");
+  }
+  if (invalid_rows == InvalidRowPolicy::kSkip &&
+      (RejectedPathUsed() == output_path || RejectedPathUsed() == input_path)) {
+    return fail("the rejected-rows file '" + RejectedPathUsed() + "' is the input or output file");
+  }
+  return true;
+}
+
+std::string DeflateOptions::RejectedPathUsed() const {
+  if (!rejected_path.empty()) return rejected_path;
+  std::string stem = output_path;
+  if (stem.size() >= 4 && ToLower(std::string_view(stem).substr(stem.size() - 4)) == ".csv") {
+    stem.resize(stem.size() - 4);
+  }
+  return stem + "_rejected.csv";
+}
+
+std::string DeflateSummary::BriefReport() const {
+  std::string out = "deflated " + FormatCount(num_rows_read) + " row" +
+                    (num_rows_read == 1 ? "" : "s") + " of " + input_path;
+  out += node_used.empty() ? " by the node of each row" : " by node '" + node_used + "'";
+  out += ": " + FormatCount(num_rows_written) + " written, " + FormatCount(num_rows_rejected) +
+         " rejected (" + FormatFixed(total_seconds, 2) + " s)";
+  return out;
+}
+
+bool Deflate(const DeflateOptions& options, DeflateSummary* summary) {
+  *summary = DeflateSummary();
+  summary->input_path = options.input_path;
+  const auto start = std::chrono::steady_clock::now();
+  auto fail = [&](const std::string& message) {
+    summary->outcome = DeflateOutcome::kInvalidInput;
+    summary->message = message;
+    summary->total_seconds = SecondsSince(start);
+    return false;
+  };
+  std::string error;
+  if (!options.IsValid(&error)) return fail(error);
+
+  ParityTable table;
+  if (!ReadParities(options, &table, &error)) return fail(error);
+  int fixed_node = -1;
+  if (options.node_column.empty()) {
+    if (options.node.empty()) {
+      fixed_node = 0;  // parities.csv lists the root first
+    } else {
+      fixed_node = table.nodes.Find(Trim(options.node));
+      if (fixed_node < 0) {
+        return fail("node '" + options.node + "' is not in " + table.path +
+                    DidYouMean(options.node, table.nodes.Codes()));
+      }
+    }
+    summary->node_used = std::string(table.nodes.Code(fixed_node));
+  }
+  summary->parities_seconds = SecondsSince(start);
+
+  if (options.invalid_rows == InvalidRowPolicy::kSkip)
+    summary->rejected_path = options.RejectedPathUsed();
+  const auto stream_start = std::chrono::steady_clock::now();
+  Deflater deflater(options, table, fixed_node, summary);
+  const bool ok = deflater.Run(&error);
+  summary->deflate_seconds = SecondsSince(stream_start);
+  if (!ok) {
+    summary->num_rows_written = 0;
+    return fail(error);
+  }
+  if (summary->num_rows_rejected > 0 && options.invalid_rows == InvalidRowPolicy::kStop) {
+    summary->num_rows_written = 0;
+    const int64_t shown = static_cast<int64_t>(summary->rejected_rows.size());
+    std::string message = FormatCount(summary->num_rows_rejected) + " invalid row" +
+                          (summary->num_rows_rejected == 1 ? "" : "s") + " in " +
+                          options.input_path;
+    if (shown < summary->num_rows_rejected)
+      message += " (the first " + std::to_string(shown) + " shown)";
+    message += "; nothing written; fix them, or pass --invalid-rows skip to leave them out";
+    return fail(message);
+  }
+  summary->outcome = DeflateOutcome::kOk;
+  summary->message = "ok";
+  summary->total_seconds = SecondsSince(start);
+  return true;
+}
+
+}  // namespace paritas

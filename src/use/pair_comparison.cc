@@ -1,0 +1,324 @@
+// One pair, every formula: the matched entries are gathered once into
+// plain arrays and handed to the scalar formulas of index_formulas.h, so the
+// figures here are by construction the ones the library documents and tests.
+#include "paritas/use/pair_comparison.h"
+
+#include <algorithm>
+#include <cmath>
+#include <limits>
+
+#include "paritas/base/csv.h"
+#include "paritas/aggregation/index_formulas.h"
+#include "paritas/base/text.h"
+
+namespace paritas {
+namespace {
+
+constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
+constexpr int kDecimals = 6;
+
+bool Positive(double x) { return std::isfinite(x) && x > 0; }
+
+bool FindRegion(const Survey& survey, const std::string& code, const char* role, int* region,
+                std::string* error) {
+  *region = survey.regions.Find(Trim(code));
+  if (*region >= 0) return true;
+  *error = std::string(role) + " region '" + code + "' is not in the survey";
+  const std::string nearest = NearestName(code, survey.regions.Codes());
+  if (!nearest.empty()) *error += "; did you mean '" + nearest + "'?";
+  return false;
+}
+
+void SortContributions(std::vector<PairContribution>* contributions) {
+  std::stable_sort(contributions->begin(), contributions->end(),
+                   [](const PairContribution& x, const PairContribution& y) {
+                     const double ax = std::abs(x.log_contribution),
+                                  ay = std::abs(y.log_contribution);
+                     if (ax != ay) return ax > ay;
+                     return x.code < y.code;
+                   });
+}
+
+void CompareAggregate(const Survey& survey, const ParityResult& result, int node, int a, int b,
+                      PairComparison* out) {
+  const NodeArrays arrays = NodeInputArrays(survey, result, node);
+  const std::vector<int>& headings = survey.classification.nodes()[node].headings;
+  std::vector<double> pa, pb, qa, qb, ea, eb;
+  std::vector<int> matched;
+  for (int k = 0; k < static_cast<int>(headings.size()); ++k) {
+    const double price_a = arrays.price(a, k), price_b = arrays.price(b, k);
+    const double spend_a = arrays.expenditure(a, k), spend_b = arrays.expenditure(b, k);
+    if (!Positive(price_a) || !Positive(price_b) || !Positive(spend_a) || !Positive(spend_b))
+      continue;
+    matched.push_back(headings[k]);
+    pa.push_back(price_a);
+    pb.push_back(price_b);
+    ea.push_back(spend_a);
+    eb.push_back(spend_b);
+    qa.push_back(spend_a / price_a);
+    qb.push_back(spend_b / price_b);
+  }
+  out->num_matched = static_cast<int>(matched.size());
+  if (matched.empty()) return;
+  out->laspeyres = Laspeyres(pa, pb, qa);
+  out->paasche = Paasche(pa, pb, qb);
+  out->fisher = Fisher(pa, pb, qa, qb);
+  out->tornqvist = Tornqvist(pa, pb, qa, qb);
+  out->walsh = Walsh(pa, pb, qa, qb);
+  double total_a = 0.0, total_b = 0.0;
+  for (size_t k = 0; k < matched.size(); ++k) {
+    total_a += ea[k];
+    total_b += eb[k];
+  }
+  out->value_ratio = total_b / total_a;
+  out->implied_quantity_laspeyres = out->value_ratio / out->laspeyres;
+  out->implied_quantity_paasche = out->value_ratio / out->paasche;
+  out->implied_quantity_fisher = out->value_ratio / out->fisher;
+  out->implied_quantity_tornqvist = out->value_ratio / out->tornqvist;
+  out->implied_quantity_walsh = out->value_ratio / out->walsh;
+  out->fisher_quantity = Fisher(qa, qb, pa, pb);
+  out->log_spread = std::abs(std::log(out->laspeyres / out->paasche));
+
+  std::vector<double> log_part(matched.size()), fisher_part(matched.size());
+  TornqvistLogContributions(pa, pb, qa, qb, log_part);
+  FisherContributions(pa, pb, qa, qb, fisher_part);
+  for (size_t k = 0; k < matched.size(); ++k) {
+    PairContribution c;
+    c.code = survey.heading_codes[matched[k]];
+    c.share_from = ea[k] / total_a;
+    c.share_to = eb[k] / total_b;
+    c.price_relative = pb[k] / pa[k];
+    c.log_contribution = log_part[k];
+    c.fisher_contribution = fisher_part[k];
+    out->contributions.push_back(std::move(c));
+  }
+}
+
+void CompareHeading(const Survey& survey, int heading, int a, int b, PairComparison* out) {
+  const HeadingRange& range = survey.heading_range[heading];
+  const CellPrices& cells = survey.cells;
+  // Cells are sorted by item, then region: one pass pairs each item's cells.
+  std::vector<double> pa, pb;
+  std::vector<int> items;
+  int64_t k = range.cell_begin;
+  while (k < range.cell_end) {
+    const int item = cells.item[k];
+    double price_a = kNaN, price_b = kNaN;
+    for (; k < range.cell_end && cells.item[k] == item; ++k) {
+      if (cells.region[k] == a) price_a = std::exp(cells.log_price[k]);
+      if (cells.region[k] == b) price_b = std::exp(cells.log_price[k]);
+    }
+    if (!Positive(price_a) || !Positive(price_b)) continue;
+    items.push_back(item);
+    pa.push_back(price_a);
+    pb.push_back(price_b);
+  }
+  out->num_matched = static_cast<int>(items.size());
+  if (items.empty()) return;
+  out->jevons = Jevons(pa, pb);
+  out->dutot = Dutot(pa, pb);
+  out->carli = Carli(pa, pb);
+  const double n = static_cast<double>(items.size());
+  for (size_t i = 0; i < items.size(); ++i) {
+    PairContribution c;
+    c.code = std::string(survey.items.Code(items[i]));
+    c.share_from = kNaN;
+    c.share_to = kNaN;
+    c.price_relative = pb[i] / pa[i];
+    c.log_contribution = std::log(c.price_relative) / n;
+    c.fisher_contribution = kNaN;
+    out->contributions.push_back(std::move(c));
+  }
+}
+
+void AddRow(const std::string& measure, double value, std::string* out) {
+  AppendCsvField(measure, out);
+  *out += ',';
+  AppendFixed(value, kDecimals, out);
+  *out += '\n';
+}
+
+void AddTextRow(const std::string& measure, const std::string& value, std::string* out) {
+  AppendCsvField(measure, out);
+  *out += ',';
+  AppendCsvField(value, out);
+  *out += '\n';
+}
+
+std::string Pad(const std::string& text, size_t width, bool right = false) {
+  if (text.size() >= width) return text;
+  const std::string fill(width - text.size(), ' ');
+  return right ? fill + text : text + fill;
+}
+
+std::string Number(double value) {
+  return std::isnan(value) ? std::string("-") : FormatFixed(value, kDecimals);
+}
+
+}  // namespace
+
+bool ComparePair(const Survey& survey, const ParityResult& result, const std::string& from,
+                 const std::string& to, const std::string& node, PairComparison* comparison,
+                 std::string* error) {
+  *comparison = PairComparison();
+  const Classification& tree = survey.classification;
+  if (tree.empty() || result.nodes.size() != tree.nodes().size()) {
+    *error = "no parities computed for this survey";
+    return false;
+  }
+  int a = -1, b = -1;
+  if (!FindRegion(survey, from, "from", &a, error) || !FindRegion(survey, to, "to", &b, error))
+    return false;
+  const int index = node.empty() ? 0 : tree.FindNode(std::string(Trim(node)));
+  if (index < 0) {
+    *error = "node '" + node + "' is not in the classification";
+    const std::string nearest = NearestName(node, tree.NodeCodes());
+    if (!nearest.empty()) *error += "; did you mean '" + nearest + "'?";
+    return false;
+  }
+  PairComparison& out = *comparison;
+  const NodeResult& node_result = result.nodes[index];
+  out.node = tree.nodes()[index].code;
+  out.is_heading = node_result.is_heading;
+  out.from = std::string(survey.regions.Code(a));
+  out.to = std::string(survey.regions.Code(b));
+  out.jevons = out.dutot = out.carli = kNaN;
+  out.laspeyres = out.paasche = out.fisher = out.tornqvist = out.walsh = out.value_ratio = kNaN;
+  out.implied_quantity_laspeyres = out.implied_quantity_paasche = out.implied_quantity_fisher =
+      kNaN;
+  out.implied_quantity_tornqvist = out.implied_quantity_walsh = out.fisher_quantity =
+      out.log_spread = kNaN;
+  if (out.is_heading) {
+    CompareHeading(survey, node_result.heading, a, b, &out);
+  } else {
+    CompareAggregate(survey, result, index, a, b, &out);
+  }
+  if (out.num_matched == 0) {
+    *error = out.is_heading
+                 ? "regions '" + out.from + "' and '" + out.to + "' priced no item of heading '" +
+                       out.node + "' in common"
+                 : "regions '" + out.from + "' and '" + out.to + "' have no basic heading of '" +
+                       out.node + "' with a parity and positive expenditure in both";
+    return false;
+  }
+  out.transitive = node_result.parity(b) / node_result.parity(a);
+  out.log_gap = std::log((out.is_heading ? out.jevons : out.fisher) / out.transitive);
+  SortContributions(&out.contributions);
+  return true;
+}
+
+std::string PairCsv(const PairComparison& c) {
+  std::string out = "measure,value\n";
+  AddTextRow("from", c.from, &out);
+  AddTextRow("to", c.to, &out);
+  AddTextRow("node", c.node, &out);
+  if (c.is_heading) {
+    AddTextRow("num_items", std::to_string(c.num_matched), &out);
+    AddRow("jevons", c.jevons, &out);
+    AddRow("dutot", c.dutot, &out);
+    AddRow("carli", c.carli, &out);
+  } else {
+    AddTextRow("num_headings", std::to_string(c.num_matched), &out);
+    AddRow("laspeyres", c.laspeyres, &out);
+    AddRow("paasche", c.paasche, &out);
+    AddRow("fisher", c.fisher, &out);
+    AddRow("tornqvist", c.tornqvist, &out);
+    AddRow("walsh", c.walsh, &out);
+    AddRow("value_ratio", c.value_ratio, &out);
+    AddRow("implied_quantity_laspeyres", c.implied_quantity_laspeyres, &out);
+    AddRow("implied_quantity_paasche", c.implied_quantity_paasche, &out);
+    AddRow("implied_quantity_fisher", c.implied_quantity_fisher, &out);
+    AddRow("implied_quantity_tornqvist", c.implied_quantity_tornqvist, &out);
+    AddRow("implied_quantity_walsh", c.implied_quantity_walsh, &out);
+    AddRow("fisher_quantity", c.fisher_quantity, &out);
+    AddRow("log_spread", c.log_spread, &out);
+  }
+  AddRow("transitive", c.transitive, &out);
+  AddRow("log_gap", c.log_gap, &out);
+  const std::string log_name =
+      c.is_heading ? "jevons_log_contribution:" : "tornqvist_log_contribution:";
+  for (const PairContribution& part : c.contributions)
+    AddRow(log_name + part.code, part.log_contribution, &out);
+  if (!c.is_heading) {
+    std::vector<PairContribution> by_fisher = c.contributions;
+    std::stable_sort(by_fisher.begin(), by_fisher.end(),
+                     [](const PairContribution& x, const PairContribution& y) {
+                       const double ax = std::abs(x.fisher_contribution),
+                                    ay = std::abs(y.fisher_contribution);
+                       if (ax != ay) return ax > ay;
+                       return x.code < y.code;
+                     });
+    for (const PairContribution& part : by_fisher) {
+      AddRow("fisher_contribution:" + part.code, part.fisher_contribution, &out);
+    }
+  }
+  return out;
+}
+
+std::string PairTable(const PairComparison& c) {
+  std::string out = "'" + c.to + "' relative to '" + c.from + "' at '" + c.node + "' (" +
+                    (c.is_heading ? "basic heading, " + std::to_string(c.num_matched) + " items"
+                                  : "aggregate, " + std::to_string(c.num_matched) + " headings") +
+                    " priced in both)\n\n";
+  auto row = [&](const std::string& name, double value, const std::string& note) {
+    out += "  " + Pad(name, 28) + Pad(Number(value), 12, true);
+    if (!note.empty()) out += "  " + note;
+    out += "\n";
+  };
+  if (c.is_heading) {
+    out += "  " + Pad("formula", 28) + Pad("price index", 12, true) + "\n";
+    row("Jevons", c.jevons, "geometric mean of price relatives");
+    row("Dutot", c.dutot, "ratio of average prices");
+    row("Carli", c.carli, "average of price relatives");
+    row("transitive (compute)", c.transitive, "parity(" + c.to + ") / parity(" + c.from + ")");
+    row("gap ln(Jevons / transitive)", c.log_gap, "");
+  } else {
+    out +=
+        "  " + Pad("formula", 28) + Pad("price index", 12, true) + Pad("quantity", 12, true) + "\n";
+    auto pair_row = [&](const std::string& name, double price, double quantity) {
+      out += "  " + Pad(name, 28) + Pad(Number(price), 12, true) + Pad(Number(quantity), 12, true) +
+             "\n";
+    };
+    pair_row("Laspeyres", c.laspeyres, c.implied_quantity_laspeyres);
+    pair_row("Paasche", c.paasche, c.implied_quantity_paasche);
+    pair_row("Fisher", c.fisher, c.implied_quantity_fisher);
+    pair_row("Tornqvist", c.tornqvist, c.implied_quantity_tornqvist);
+    pair_row("Walsh", c.walsh, c.implied_quantity_walsh);
+    out += "  (quantity = value ratio / price index: the volume of '" + c.to + "' relative to '" +
+           c.from + "')\n";
+    row("value ratio", c.value_ratio, "expenditure of " + c.to + " / expenditure of " + c.from);
+    row("P-L spread |ln(L / P)|", c.log_spread, "");
+    row("transitive (compute)", c.transitive, "parity(" + c.to + ") / parity(" + c.from + ")");
+    row("gap ln(Fisher / transitive)", c.log_gap, "");
+  }
+  if (c.contributions.empty()) return out;
+  out += "\nwhat drives the comparison, largest first:\n";
+  const std::string what = c.is_heading ? "item" : "heading";
+  size_t width = what.size();
+  for (const PairContribution& part : c.contributions) width = std::max(width, part.code.size());
+  width = std::min<size_t>(width, 40) + 2;
+  if (c.is_heading) {
+    out += "  " + Pad(what, width) + Pad("relative", 12, true) + Pad("ln-Jevons", 12, true) + "\n";
+    for (const PairContribution& part : c.contributions) {
+      out += "  " + Pad(part.code, width) + Pad(Number(part.price_relative), 12, true) +
+             Pad(Number(part.log_contribution), 12, true) + "\n";
+    }
+    out += "  (ln-Jevons: ln(relative) / items; they add up to ln Jevons)\n";
+    return out;
+  }
+  out += "  " + Pad(what, width) + Pad("share " + c.from, 12, true) +
+         Pad("share " + c.to, 12, true) + Pad("relative", 12, true) +
+         Pad("ln-Tornqvist", 14, true) + Pad("Fisher", 12, true) + "\n";
+  for (const PairContribution& part : c.contributions) {
+    out += "  " + Pad(part.code, width) + Pad(Number(part.share_from), 12, true) +
+           Pad(Number(part.share_to), 12, true) + Pad(Number(part.price_relative), 12, true) +
+           Pad(Number(part.log_contribution), 14, true) +
+           Pad(Number(part.fisher_contribution), 12, true) + "\n";
+  }
+  out +=
+      "  (ln-Tornqvist contributions add up to ln Tornqvist; Fisher contributions, the additive\n"
+      "   decomposition of Reinsdorf, Diewert and Ehemann (2002), add up to Fisher - 1)\n";
+  return out;
+}
+
+}  // namespace paritas

@@ -1,0 +1,331 @@
+// All-pairs matrices against the published six-commodity example and,
+// entry by entry, against the scalar formulas on incomplete random data.
+#include "paritas/aggregation/bilateral_matrix.h"
+
+#include <cmath>
+#include <cstdint>
+#include <fstream>
+#include <limits>
+#include <map>
+#include <random>
+#include <sstream>
+#include <string>
+#include <vector>
+
+#include <gtest/gtest.h>
+
+#include "paritas/aggregation/index_formulas.h"
+#include "test_util.h"
+
+namespace paritas {
+namespace {
+
+using ::paritas::testing::TestDataPath;
+
+constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
+constexpr double kInf = std::numeric_limits<double>::infinity();
+
+// The CPI Manual 2004 ch. 19 six-commodity data (tables 19.1-19.2) as five
+// regions x six headings, one item per heading.
+struct SixCommodity {
+  Eigen::MatrixXd price = Eigen::MatrixXd::Zero(5, 6);
+  Eigen::MatrixXd quantity = Eigen::MatrixXd::Zero(5, 6);
+};
+
+SixCommodity ReadSixCommodity() {
+  SixCommodity data;
+  std::ifstream in(TestDataPath("published/six_commodity_prices_quantities.csv"));
+  std::string line;
+  std::getline(in, line);  // Header.
+  int num_rows = 0;
+  while (std::getline(in, line)) {
+    if (line.empty()) continue;
+    std::stringstream fields(line);
+    std::string situation, commodity, price, quantity;
+    std::getline(fields, situation, ',');
+    std::getline(fields, commodity, ',');
+    std::getline(fields, price, ',');
+    std::getline(fields, quantity, ',');
+    const int r = std::stoi(situation) - 1;
+    const int h = std::stoi(commodity.substr(1)) - 1;  // "c1" .. "c6".
+    data.price(r, h) = std::stod(price);
+    data.quantity(r, h) = std::stod(quantity);
+    ++num_rows;
+  }
+  EXPECT_EQ(num_rows, 30);
+  return data;
+}
+
+// Columns of six_commodity_indices.csv: laspeyres, paasche, fisher,
+// tornqvist of situations 1..5 against situation 1.
+Eigen::MatrixXd ReadSixCommodityIndices() {
+  Eigen::MatrixXd indices = Eigen::MatrixXd::Constant(5, 4, kNaN);
+  std::ifstream in(TestDataPath("published/six_commodity_indices.csv"));
+  std::string line;
+  std::getline(in, line);
+  EXPECT_EQ(line, "situation,laspeyres,paasche,fisher,tornqvist");
+  while (std::getline(in, line)) {
+    if (line.empty()) continue;
+    std::stringstream fields(line);
+    std::string value;
+    std::getline(fields, value, ',');
+    const int r = std::stoi(value) - 1;
+    for (int c = 0; c < 4; ++c) {
+      std::getline(fields, value, ',');
+      indices(r, c) = std::stod(value);
+    }
+  }
+  return indices;
+}
+
+// Uniform in [low, high) from raw 53-bit draws: same values on every
+// standard library.
+class RandomData {
+ public:
+  explicit RandomData(std::uint64_t seed) : engine_(seed) {}
+  double Uniform(double low, double high) {
+    return low + (high - low) * static_cast<double>(engine_() >> 11) * 0x1.0p-53;
+  }
+
+ private:
+  std::mt19937_64 engine_;
+};
+
+TEST(AllPairsWeighted, ReproducesCpiManualSixCommodityIndices) {
+  // CPI Manual 2004 ch. 19: row 0 of each matrix is the published
+  // fixed-base index against situation 1.
+  const SixCommodity data = ReadSixCommodity();
+  const Eigen::MatrixXd published = ReadSixCommodityIndices();
+  const BilateralMatrices m =
+      AllPairsWeighted(data.price, data.price.cwiseProduct(data.quantity));
+  for (int b = 0; b < 5; ++b) {
+    SCOPED_TRACE("region " + std::to_string(b + 1));
+    PARITAS_EXPECT_CLOSE(m.laspeyres(0, b), published(b, 0), 1e-6);
+    PARITAS_EXPECT_CLOSE(m.paasche(0, b), published(b, 1), 1e-6);
+    PARITAS_EXPECT_CLOSE(m.fisher(0, b), published(b, 2), 1e-6);
+    PARITAS_EXPECT_CLOSE(m.tornqvist(0, b), published(b, 3), 1e-6);
+    EXPECT_EQ(m.num_matched(0, b), 6);
+  }
+}
+
+TEST(AllPairsWeighted, ChainedFisherReproducesPublishedValues) {
+  // Chained Fisher of the CPI Manual 2004 ch. 19 example (exact values in
+  // tests/data/published/README.md): products of adjacent bilaterals.
+  const SixCommodity data = ReadSixCommodity();
+  const BilateralMatrices m =
+      AllPairsWeighted(data.price, data.price.cwiseProduct(data.quantity));
+  const double expected[] = {1.401050, 1.318509, 1.268915, 1.222610};
+  double chained = 1.0;
+  for (int t = 1; t < 5; ++t) {
+    chained *= m.fisher(t - 1, t);
+    PARITAS_EXPECT_CLOSE(chained, expected[t - 1], 1e-6);
+  }
+}
+
+TEST(AllPairsJevons, ReproducesSixCommodityJevons) {
+  // Exact Jevons of the ch. 19 prices against situation 1 (README.md).
+  const SixCommodity data = ReadSixCommodity();
+  Eigen::MatrixXi num_matched;
+  const Eigen::MatrixXd jevons = AllPairsJevons(data.price.array().log().matrix(),
+                                                Eigen::MatrixXd::Ones(5, 6), &num_matched);
+  const double expected[] = {1.0, 1.241920, 0.956335, 0.725581, 0.632456};
+  for (int b = 0; b < 5; ++b) PARITAS_EXPECT_CLOSE(jevons(0, b), expected[b], 1e-6);
+  EXPECT_TRUE((num_matched.array() == 6).all());
+}
+
+// Random regions x headings data with holes of every kind: missing (NaN)
+// prices, zero and negative prices, zero and NaN expenditures, infinities.
+// Regions 0 and 1 price disjoint headings so that pair has no match.
+void MakeIncompleteData(int num_regions, int num_headings, std::uint64_t seed,
+                        Eigen::MatrixXd* price, Eigen::MatrixXd* expenditure) {
+  RandomData random(seed);
+  price->resize(num_regions, num_headings);
+  expenditure->resize(num_regions, num_headings);
+  for (int r = 0; r < num_regions; ++r) {
+    for (int h = 0; h < num_headings; ++h) {
+      (*price)(r, h) = random.Uniform(0.05, 200.0);
+      (*expenditure)(r, h) = random.Uniform(0.0, 1000.0);
+      const double hole = random.Uniform(0.0, 1.0);
+      if (hole < 0.10) (*price)(r, h) = kNaN;
+      else if (hole < 0.13) (*price)(r, h) = 0.0;
+      else if (hole < 0.15) (*price)(r, h) = -3.0;
+      else if (hole < 0.18) (*expenditure)(r, h) = 0.0;
+      else if (hole < 0.20) (*expenditure)(r, h) = kNaN;
+      else if (hole < 0.21) (*price)(r, h) = kInf;
+      else if (hole < 0.22) (*expenditure)(r, h) = kInf;
+    }
+  }
+  for (int h = 0; h < num_headings; ++h) {
+    (*price)(0, h) = h % 2 == 0 ? random.Uniform(1.0, 5.0) : kNaN;
+    (*price)(1, h) = h % 2 == 1 ? random.Uniform(1.0, 5.0) : kNaN;
+  }
+}
+
+bool Valid(double p, double e) {
+  return std::isfinite(p) && std::isfinite(e) && p > 0.0 && e > 0.0;
+}
+
+TEST(AllPairsWeighted, EveryEntryEqualsScalarFormulasOverMatchedHeadings) {
+  const int num_regions = 14;
+  const int num_headings = 11;
+  Eigen::MatrixXd price, expenditure;
+  MakeIncompleteData(num_regions, num_headings, 4242, &price, &expenditure);
+  const BilateralMatrices m = AllPairsWeighted(price, expenditure);
+  int num_pairs_checked = 0;
+  for (int a = 0; a < num_regions; ++a) {
+    for (int b = 0; b < num_regions; ++b) {
+      std::vector<double> pa, pb, qa, qb;
+      for (int h = 0; h < num_headings; ++h) {
+        if (!Valid(price(a, h), expenditure(a, h)) || !Valid(price(b, h), expenditure(b, h))) {
+          continue;
+        }
+        pa.push_back(price(a, h));
+        pb.push_back(price(b, h));
+        qa.push_back(expenditure(a, h) / price(a, h));
+        qb.push_back(expenditure(b, h) / price(b, h));
+      }
+      SCOPED_TRACE("pair " + std::to_string(a) + "," + std::to_string(b));
+      EXPECT_EQ(m.num_matched(a, b), static_cast<int>(pa.size()));
+      if (pa.empty()) {
+        EXPECT_TRUE(std::isnan(m.laspeyres(a, b)) && std::isnan(m.paasche(a, b)) &&
+                    std::isnan(m.fisher(a, b)) && std::isnan(m.tornqvist(a, b)));
+        continue;
+      }
+      PARITAS_EXPECT_CLOSE(m.laspeyres(a, b), Laspeyres(pa, pb, qa), 1e-12);
+      PARITAS_EXPECT_CLOSE(m.paasche(a, b), Paasche(pa, pb, qb), 1e-12);
+      PARITAS_EXPECT_CLOSE(m.fisher(a, b), Fisher(pa, pb, qa, qb), 1e-12);
+      PARITAS_EXPECT_CLOSE(m.tornqvist(a, b), Tornqvist(pa, pb, qa, qb), 1e-12);
+      ++num_pairs_checked;
+    }
+  }
+  // The disjoint pair is empty; most other pairs are not.
+  EXPECT_EQ(m.num_matched(0, 1), 0);
+  EXPECT_TRUE(std::isnan(m.fisher(1, 0)));
+  EXPECT_GT(num_pairs_checked, num_regions * num_regions / 2);
+}
+
+TEST(AllPairsWeighted, ReversalAndDualityHoldForEveryPair) {
+  // Fisher and Törnqvist pass the reversal test and Paasche(a,b) =
+  // 1 / Laspeyres(b,a) (CPI Manual 2004 ch. 15-16), pair by pair.
+  Eigen::MatrixXd price, expenditure;
+  MakeIncompleteData(9, 7, 17, &price, &expenditure);
+  const BilateralMatrices m = AllPairsWeighted(price, expenditure);
+  for (int a = 0; a < 9; ++a) {
+    for (int b = 0; b < 9; ++b) {
+      if (m.num_matched(a, b) == 0) continue;
+      PARITAS_EXPECT_CLOSE(m.fisher(a, b) * m.fisher(b, a), 1.0, 1e-14);
+      PARITAS_EXPECT_CLOSE(m.tornqvist(a, b) * m.tornqvist(b, a), 1.0, 1e-14);
+      PARITAS_EXPECT_CLOSE(m.paasche(a, b) * m.laspeyres(b, a), 1.0, 1e-14);
+    }
+  }
+  EXPECT_EQ(m.num_matched, m.num_matched.transpose());
+}
+
+TEST(AllPairsWeighted, PricesDoublingGiveTwoEverywhere) {
+  // Two regions, two headings, region 1 twice as dear on both: every index
+  // is 2 from region 0 and ½ back.
+  Eigen::MatrixXd price(2, 2), expenditure(2, 2);
+  price << 1.0, 3.0, 2.0, 6.0;
+  expenditure << 10.0, 5.0, 4.0, 30.0;
+  const BilateralMatrices m = AllPairsWeighted(price, expenditure);
+  for (const Eigen::MatrixXd* index : {&m.laspeyres, &m.paasche, &m.fisher, &m.tornqvist}) {
+    PARITAS_EXPECT_CLOSE((*index)(0, 1), 2.0, 1e-15);
+    PARITAS_EXPECT_CLOSE((*index)(1, 0), 0.5, 1e-15);
+    EXPECT_EQ((*index)(0, 0), 1.0);
+    EXPECT_EQ((*index)(1, 1), 1.0);
+  }
+}
+
+TEST(AllPairsWeighted, RegionWithoutValidHeadingIsNaNAndCountsZero) {
+  Eigen::MatrixXd price(3, 2), expenditure(3, 2);
+  price << 1.0, 2.0, kNaN, 0.0, 2.0, 3.0;
+  expenditure << 1.0, 1.0, 5.0, 5.0, 1.0, 2.0;
+  const BilateralMatrices m = AllPairsWeighted(price, expenditure);
+  EXPECT_EQ(m.num_matched.row(1).sum(), 0);
+  EXPECT_EQ(m.num_matched.col(1).sum(), 0);
+  EXPECT_TRUE(std::isnan(m.fisher(1, 1)));
+  EXPECT_TRUE(std::isnan(m.tornqvist(0, 1)));
+  EXPECT_TRUE(std::isnan(m.laspeyres(2, 1)));
+  EXPECT_EQ(m.num_matched(0, 2), 2);
+  EXPECT_EQ(m.fisher(2, 2), 1.0);
+}
+
+TEST(AllPairsWeighted, NoRegionsGiveEmptyMatrices) {
+  const BilateralMatrices m = AllPairsWeighted(Eigen::MatrixXd(0, 4), Eigen::MatrixXd(0, 4));
+  EXPECT_EQ(m.fisher.rows(), 0);
+  EXPECT_EQ(m.num_matched.size(), 0);
+}
+
+TEST(AllPairsWeighted, OnlyTheChosenIndexIsFilledWithTheSameBits) {
+  // 70 regions span more than one elementwise tile; a subset must equal the
+  // full computation exactly, since compute and sensitivity rely on it.
+  Eigen::MatrixXd price, expenditure;
+  MakeIncompleteData(70, 9, 99, &price, &expenditure);
+  const BilateralMatrices all = AllPairsWeighted(price, expenditure);
+  const BilateralMatrices fisher = AllPairsWeighted(price, expenditure, BilateralOptions::OnlyFisher());
+  const BilateralMatrices tornqvist =
+      AllPairsWeighted(price, expenditure, BilateralOptions::OnlyTornqvist());
+  EXPECT_EQ(fisher.laspeyres.size() + fisher.tornqvist.size() + fisher.num_matched.size(), 0);
+  EXPECT_EQ(tornqvist.fisher.size() + tornqvist.paasche.size(), 0);
+  auto same_bits = [](const Eigen::MatrixXd& x, const Eigen::MatrixXd& y) {
+    return x.rows() == y.rows() && x.cols() == y.cols() &&
+           ((x.array() == y.array()) || (x.array().isNaN() && y.array().isNaN())).all();
+  };
+  EXPECT_TRUE(same_bits(fisher.fisher, all.fisher));
+  EXPECT_TRUE(same_bits(tornqvist.tornqvist, all.tornqvist));
+  EXPECT_GT(all.fisher.array().isNaN().count(), 0);  // empty pairs are present
+}
+
+TEST(AllPairsJevons, EveryEntryEqualsScalarJevonsOverMatchedItems) {
+  // Absent entries carry junk log prices (huge, NaN) that must be ignored.
+  const int num_regions = 13;
+  const int num_items = 17;
+  RandomData random(777);
+  Eigen::MatrixXd log_price(num_regions, num_items), present(num_regions, num_items);
+  for (int r = 0; r < num_regions; ++r) {
+    for (int i = 0; i < num_items; ++i) {
+      log_price(r, i) = random.Uniform(-2.0, 6.0);
+      const double hole = random.Uniform(0.0, 1.0);
+      present(r, i) = hole < 0.25 ? 0.0 : 1.0;
+      if (hole < 0.10) log_price(r, i) = 1e300;
+      else if (hole < 0.20) log_price(r, i) = kNaN;
+    }
+  }
+  for (int i = 0; i < num_items; ++i) {
+    present(0, i) = i % 2 == 0 ? 1.0 : 0.0;
+    present(1, i) = i % 2 == 1 ? 1.0 : 0.0;
+    log_price(0, i) = log_price(1, i) = 0.5 + 0.01 * i;
+  }
+  Eigen::MatrixXi num_matched;
+  const Eigen::MatrixXd jevons = AllPairsJevons(log_price, present, &num_matched);
+  for (int a = 0; a < num_regions; ++a) {
+    for (int b = 0; b < num_regions; ++b) {
+      std::vector<double> pa, pb;
+      for (int i = 0; i < num_items; ++i) {
+        if (present(a, i) == 0.0 || present(b, i) == 0.0) continue;
+        pa.push_back(std::exp(log_price(a, i)));
+        pb.push_back(std::exp(log_price(b, i)));
+      }
+      SCOPED_TRACE("pair " + std::to_string(a) + "," + std::to_string(b));
+      EXPECT_EQ(num_matched(a, b), static_cast<int>(pa.size()));
+      if (pa.empty()) {
+        EXPECT_TRUE(std::isnan(jevons(a, b)));
+      } else {
+        PARITAS_EXPECT_CLOSE(jevons(a, b), Jevons(pa, pb), 1e-12);
+        PARITAS_EXPECT_CLOSE(jevons(a, b) * jevons(b, a), 1.0, 1e-14);
+      }
+    }
+  }
+  EXPECT_EQ(num_matched(0, 1), 0);
+}
+
+TEST(AllPairsJevons, PresentButNonFiniteLogPriceCountsAsAbsent) {
+  Eigen::MatrixXd log_price(2, 3), present = Eigen::MatrixXd::Ones(2, 3);
+  log_price << 0.0, 0.0, kNaN, std::log(2.0), std::log(8.0), 1.0;
+  const Eigen::MatrixXd jevons = AllPairsJevons(log_price, present, nullptr);
+  PARITAS_EXPECT_CLOSE(jevons(0, 1), 4.0, 1e-15);  // sqrt(2 * 8).
+  EXPECT_EQ(jevons(1, 1), 1.0);
+}
+
+}  // namespace
+}  // namespace paritas

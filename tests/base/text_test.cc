@@ -1,0 +1,147 @@
+// Tests of the text helpers: number parsing edge cases, flags, fixed and
+// shortest formatting, edit distance and "did you mean".
+#include "paritas/base/text.h"
+
+#include <cmath>
+#include <limits>
+
+#include "test_util.h"
+
+namespace paritas {
+namespace {
+
+TEST(ParseNumber, AcceptsDecimalsWithSpacesAndLeadingPlus) {
+  double value = 0.0;
+  EXPECT_EQ(ParseNumber(" 4.10 ", &value), NumberStatus::kOk);
+  EXPECT_EQ(value, 4.10);
+  EXPECT_EQ(ParseNumber("+2.5", &value), NumberStatus::kOk);
+  EXPECT_EQ(value, 2.5);
+  EXPECT_EQ(ParseNumber("-4.10", &value), NumberStatus::kOk);
+  EXPECT_EQ(value, -4.10);
+  EXPECT_EQ(ParseNumber("1e3", &value), NumberStatus::kOk);
+  EXPECT_EQ(value, 1000.0);
+  EXPECT_EQ(ParseNumber("\t7\t", &value), NumberStatus::kOk);
+  EXPECT_EQ(value, 7.0);
+}
+
+TEST(ParseNumber, ReportsEmptyTextAsEmpty) {
+  double value = 0.0;
+  EXPECT_EQ(ParseNumber("", &value), NumberStatus::kEmpty);
+  EXPECT_EQ(ParseNumber("   ", &value), NumberStatus::kEmpty);
+}
+
+TEST(ParseNumber, RejectsGarbageAndLeavesValueUntouched) {
+  double value = 42.0;
+  for (const char* text : {"abc", "1.2.3", "4,10", "12kg", "+", "+-1", "++1", "0x10", ".", "1 2"}) {
+    EXPECT_EQ(ParseNumber(text, &value), NumberStatus::kInvalid) << text;
+  }
+  EXPECT_EQ(value, 42.0);
+}
+
+TEST(ParseNumber, ReportsInfinityNanAndOverflowAsNonFinite) {
+  double value = 42.0;
+  for (const char* text : {"inf", "-inf", "nan", "NaN", "infinity", "1e999", "-1e400"}) {
+    EXPECT_EQ(ParseNumber(text, &value), NumberStatus::kNonFinite) << text;
+  }
+  EXPECT_EQ(value, 42.0);
+}
+
+TEST(ParseNumber, ReadsTheLargestDoubleExactly) {
+  double value = 0.0;
+  ASSERT_EQ(ParseNumber("1.7976931348623157e308", &value), NumberStatus::kOk);
+  EXPECT_EQ(value, std::numeric_limits<double>::max());
+}
+
+TEST(ParseFlag, AcceptsOneZeroYesNoTrueFalseInAnyCase) {
+  bool value = false;
+  for (const char* text : {"1", "yes", "YES", " True ", "true"}) {
+    value = false;
+    EXPECT_TRUE(ParseFlag(text, &value)) << text;
+    EXPECT_TRUE(value) << text;
+  }
+  for (const char* text : {"0", "no", "No", "FALSE"}) {
+    value = true;
+    EXPECT_TRUE(ParseFlag(text, &value)) << text;
+    EXPECT_FALSE(value) << text;
+  }
+  EXPECT_FALSE(ParseFlag("2", &value));
+  EXPECT_FALSE(ParseFlag("y", &value));
+  EXPECT_FALSE(ParseFlag("", &value));
+}
+
+TEST(Trim, RemovesSpacesAndTabsAtBothEndsOnly) {
+  EXPECT_EQ(Trim("  a b\t"), "a b");
+  EXPECT_EQ(Trim("\t \t"), "");
+  EXPECT_EQ(Trim(""), "");
+  EXPECT_EQ(Trim("x\n"), "x\n");
+}
+
+TEST(ToLower, LowersAsciiLettersOnly) {
+  EXPECT_EQ(ToLower("GeKS-Fisher_1"), "geks-fisher_1");
+  EXPECT_EQ(ToLower("\xC3\x84"), "\xC3\x84");  // UTF-8 bytes pass through.
+}
+
+TEST(FormatFixed, RoundsToTheGivenDecimals) {
+  EXPECT_EQ(FormatFixed(2.345678, 3), "2.346");
+  EXPECT_EQ(FormatFixed(100.0, 1), "100.0");
+  EXPECT_EQ(FormatFixed(-1.25, 1), "-1.2");  // Round half to even on the binary value 1.25.
+  EXPECT_EQ(FormatFixed(7.0, 0), "7");
+}
+
+TEST(FormatFixed, PrintsNegativeZeroAndTinyNegativesWithoutSign) {
+  EXPECT_EQ(FormatFixed(-0.0, 2), "0.00");
+  EXPECT_EQ(FormatFixed(-0.0004, 3), "0.000");
+  EXPECT_EQ(FormatFixed(-0.0006, 3), "-0.001");
+}
+
+TEST(FormatFixed, PrintsNanAsNothing) {
+  EXPECT_EQ(FormatFixed(std::nan(""), 2), "");
+  std::string out = "x";
+  AppendShortest(std::nan(""), &out);
+  EXPECT_EQ(out, "x");
+}
+
+TEST(AppendShortest, ReadsBackAsTheSameDouble) {
+  for (double value : {0.1, 1.0 / 3.0, 123456.789, 1e-300, -2.5, 1e21}) {
+    std::string text;
+    AppendShortest(value, &text);
+    double back = 0.0;
+    ASSERT_EQ(ParseNumber(text, &back), NumberStatus::kOk) << text;
+    EXPECT_EQ(back, value) << text;
+  }
+  std::string text;
+  AppendShortest(0.1, &text);
+  EXPECT_EQ(text, "0.1");
+}
+
+TEST(EditDistance, CountsInsertionsDeletionsAndSubstitutions) {
+  // Classic textbook pair: kitten -> sitting needs 3 edits.
+  EXPECT_EQ(EditDistance("kitten", "sitting"), 3);
+  EXPECT_EQ(EditDistance("", "abc"), 3);
+  EXPECT_EQ(EditDistance("abc", ""), 3);
+  EXPECT_EQ(EditDistance("same", "same"), 0);
+  EXPECT_EQ(EditDistance("refrence", "reference"), 1);
+  EXPECT_EQ(EditDistance("flaw", "lawn"), 2);
+}
+
+TEST(NearestName, SuggestsTheClosestPlausibleTypo) {
+  const std::vector<std::string> keys = {"survey", "reference", "elementary", "aggregation"};
+  EXPECT_EQ(NearestName("refrence", keys), "reference");
+  EXPECT_EQ(NearestName("ELEMENTRY", keys), "elementary");
+  EXPECT_EQ(NearestName("survy", keys), "survey");
+}
+
+TEST(NearestName, ReturnsNothingWhenNoCandidateIsClose) {
+  const std::vector<std::string> keys = {"survey", "reference", "elementary"};
+  EXPECT_EQ(NearestName("colour", keys), "");
+  EXPECT_EQ(NearestName("x", {}), "");
+}
+
+TEST(JoinNames, SeparatesWithCommaSpaceByDefault) {
+  EXPECT_EQ(JoinNames({"a", "b", "c"}), "a, b, c");
+  EXPECT_EQ(JoinNames({"a", "b"}, " | "), "a | b");
+  EXPECT_EQ(JoinNames({}), "");
+}
+
+}  // namespace
+}  // namespace paritas

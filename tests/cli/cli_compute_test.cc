@@ -1,0 +1,202 @@
+// End-to-end runs of `paritas compute` through the real executable.
+#include <cmath>
+#include <filesystem>
+#include <map>
+#include <regex>
+
+#include <nlohmann/json.hpp>
+
+#include "paritas/base/csv.h"
+#include "test_util.h"
+
+namespace paritas {
+namespace {
+
+using testing::MakeTempDir;
+using testing::ReadTextFile;
+using testing::RunCli;
+using testing::SourcePath;
+using testing::WriteTextFile;
+
+namespace fs = std::filesystem;
+
+std::vector<std::vector<std::string>> ReadRows(const std::string& text) {
+  std::vector<std::vector<std::string>> rows;
+  CsvReader reader(text);
+  CsvRecord record;
+  while (reader.Next(&record)) rows.emplace_back(record.fields.begin(), record.fields.end());
+  EXPECT_TRUE(reader.error().empty()) << reader.error();
+  return rows;
+}
+
+std::string Demo() { return SourcePath("config/demo.yaml"); }
+
+// Runs compute on the demo survey once per test binary.
+const std::string& DemoOutput() {
+  static const std::string folder = [] {
+    const std::string dir = MakeTempDir("cli_demo");
+    std::string out, err;
+    EXPECT_EQ(RunCli("compute " + Demo() + " --output " + dir + " --matrices all", &out, &err), 0) << err;
+    return dir;
+  }();
+  return folder;
+}
+
+TEST(ComputeCommand, WritesEveryDocumentedOutputOfTheDemo) {
+  const std::string& dir = DemoOutput();
+  for (const char* file : {"parities.csv", "matrix/all.csv", "bilateral/all.csv", "matrix/food.csv",
+                           "bilateral/bread_cereals.csv", "outliers.csv", "dispersion.csv", "report.html",
+                           "run.json"}) {
+    EXPECT_TRUE(fs::exists(dir + "/" + file)) << file;
+  }
+  const auto rows = ReadRows(ReadTextFile(dir + "/parities.csv"));
+  ASSERT_GT(rows.size(), 1u);
+  const std::vector<std::string> first(rows[0].begin(), rows[0].begin() + 7);
+  EXPECT_EQ(first, (std::vector<std::string>{"node", "kind", "region", "parity", "expenditure",
+                                             "real_expenditure", "real_per_capita_index"}));
+  // 16 regions x (29 headings + 11 aggregates).
+  EXPECT_EQ(rows.size(), 1u + 16u * 40u);
+}
+
+TEST(ComputeCommand, MatricesAgreeWithTheParityTable) {
+  const std::string& dir = DemoOutput();
+  std::map<std::string, double> root;
+  for (const auto& row : ReadRows(ReadTextFile(dir + "/parities.csv"))) {
+    if (row[0] == "all") root[row[2]] = std::stod(row[3]);
+  }
+  const auto matrix = ReadRows(ReadTextFile(dir + "/matrix/all.csv"));
+  ASSERT_EQ(matrix.size(), 17u);
+  for (size_t a = 1; a < matrix.size(); ++a) {
+    for (size_t b = 1; b < matrix[0].size(); ++b) {
+      const double expected = 100.0 * root[matrix[0][b]] / root[matrix[a][0]];
+      EXPECT_NEAR(std::stod(matrix[a][b]), expected, 1e-5 * expected) << matrix[a][0] << " " << matrix[0][b];
+    }
+  }
+}
+
+TEST(ComputeCommand, BilateralTableHasEveryOrderedPairAndReversalHolds) {
+  const auto rows = ReadRows(ReadTextFile(DemoOutput() + "/bilateral/all.csv"));
+  ASSERT_EQ(rows[0], (std::vector<std::string>{"from", "to", "laspeyres", "paasche", "fisher", "tornqvist",
+                                               "spread", "num_headings"}));
+  EXPECT_EQ(rows.size(), 1u + 16u * 15u);
+  std::map<std::pair<std::string, std::string>, std::vector<double>> pairs;
+  for (size_t k = 1; k < rows.size(); ++k) {
+    pairs[{rows[k][0], rows[k][1]}] = {std::stod(rows[k][2]), std::stod(rows[k][3]), std::stod(rows[k][4]),
+                                       std::stod(rows[k][5])};
+  }
+  for (const auto& [key, value] : pairs) {
+    const auto& back = pairs.at({key.second, key.first});
+    // CPI Manual (2004) ch. 15-16: F(a,b) F(b,a) = 1, P(a,b) = 1 / L(b,a).
+    EXPECT_NEAR(value[2] * back[2], 1.0, 1e-5);
+    EXPECT_NEAR(value[1] * back[0], 1.0, 1e-5);
+  }
+}
+
+TEST(ComputeCommand, RunRecordReconcilesRowsAndNamesEveryInput) {
+  const nlohmann::json record = nlohmann::json::parse(ReadTextFile(DemoOutput() + "/run.json"));
+  EXPECT_EQ(record["schema_version"], 1);
+  EXPECT_EQ(record["command"], "compute");
+  EXPECT_EQ(record["outcome"], "ok");
+  ASSERT_EQ(record["inputs"].size(), 4u);
+  for (const auto& input : record["inputs"]) {
+    EXPECT_EQ(input["rows_read"].get<int64_t>(),
+              input["rows_used"].get<int64_t>() + input["rows_rejected"].get<int64_t>());
+    EXPECT_EQ(input["sha256"].get<std::string>().size(), 64u);
+  }
+  for (const char* stage : {"read", "cells", "elementary", "aggregation", "write"}) {
+    EXPECT_TRUE(record["seconds"].contains(stage)) << stage;
+  }
+}
+
+TEST(ComputeCommand, ASecondRunIsByteIdenticalExceptForTimings) {
+  const std::string again = MakeTempDir("cli_demo_again");
+  std::string out, err;
+  ASSERT_EQ(RunCli("compute " + Demo() + " --output " + again + " --matrices all --threads 1", &out, &err), 0)
+      << err;
+  int compared = 0;
+  for (const auto& entry : fs::recursive_directory_iterator(again)) {
+    if (!entry.is_regular_file()) continue;
+    const std::string relative = fs::relative(entry.path(), again).string();
+    std::string first = ReadTextFile(DemoOutput() + "/" + relative);
+    std::string second = ReadTextFile(entry.path().string());
+    if (relative == "run.json") {
+      // Seconds, the output folder and the thread count legitimately differ.
+      const std::regex varying("\"(read|cells|elementary|aggregation|write|output|threads)\": [^,\\n]*");
+      first = std::regex_replace(first, varying, "");
+      second = std::regex_replace(second, varying, "");
+    }
+    EXPECT_EQ(first, second) << relative;
+    ++compared;
+  }
+  EXPECT_GE(compared, 9);
+}
+
+TEST(ComputeCommand, CommandLineOverridesTheReference) {
+  const std::string dir = MakeTempDir("cli_reference");
+  std::string out, err;
+  ASSERT_EQ(RunCli("compute " + Demo() + " --output " + dir + " --reference cap", &out, &err), 0) << err;
+  for (const auto& row : ReadRows(ReadTextFile(dir + "/parities.csv"))) {
+    if (row[2] == "cap" && row[1] != "kind") {
+      EXPECT_EQ(row[3], "100.000000") << row[0];
+    }
+  }
+  EXPECT_NE(out.find("parities for 'all' (cap = 100)"), std::string::npos) << out;
+}
+
+TEST(ComputeCommand, PrintsTheRootTableAndTheCautions) {
+  const std::string dir = MakeTempDir("cli_table");
+  std::string out, err;
+  ASSERT_EQ(RunCli("compute " + Demo() + " --output " + dir, &out, &err), 0) << err;
+  EXPECT_NE(out.find("region  rank     parity"), std::string::npos) << out;
+  EXPECT_NE(out.find("Official figures come from the statistical authority."), std::string::npos);
+  // The capital is the dearest region of the demo.
+  EXPECT_NE(out.find("\ncap        1"), std::string::npos) << out;
+}
+
+TEST(ComputeCommand, UnlinkedHeadingExitsWithTwoAndNamesTheRegions) {
+  const std::string dir = MakeTempDir("cli_unlinked");
+  WriteTextFile(dir + "/prices.csv",
+                "region,item,price,heading\nnorth,a,1,bread\nsouth,a,2,bread\neast,b,3,bread\nwest,b,4,bread\n");
+  WriteTextFile(dir + "/expenditure.csv",
+                "region,heading,expenditure\nnorth,bread,1\nsouth,bread,1\neast,bread,1\nwest,bread,1\n");
+  WriteTextFile(dir + "/config.yaml", "survey:\n  prices: prices.csv\n  expenditure: expenditure.csv\n");
+  std::string out, err;
+  EXPECT_EQ(RunCli("compute " + dir + "/config.yaml --output " + dir + "/out", &out, &err), 2);
+  EXPECT_EQ(err.substr(0, err.find('\n')),
+            "paritas: error: heading 'bread' is not linked: its regions fall into 2 groups that share no "
+            "item: {east, west} and {north, south}");
+  EXPECT_FALSE(fs::exists(dir + "/out/parities.csv"));
+}
+
+TEST(ComputeCommand, BadMethodNameListsTheAllowedOnes) {
+  std::string out, err;
+  EXPECT_EQ(RunCli("compute " + Demo() + " --elementary cdp --output " + MakeTempDir("cli_bad"), &out, &err), 1);
+  EXPECT_EQ(err, "paritas: error: --elementary 'cdp' is not one of: cpd, jevons-geks, robust-cpd\n");
+}
+
+TEST(ComputeCommand, UnknownMatrixNodeSuggestsTheNearest) {
+  std::string out, err;
+  EXPECT_EQ(RunCli("compute " + Demo() + " --matrices fod --output " + MakeTempDir("cli_matrix"), &out, &err), 1);
+  EXPECT_EQ(err, "paritas: error: matrices: node 'fod' is not in the classification; did you mean 'food'?\n");
+}
+
+TEST(ComputeCommand, SkipWritesRejectedRowsAndReconciles) {
+  const std::string dir = MakeTempDir("cli_skip");
+  WriteTextFile(dir + "/prices.csv",
+                "region,item,price,heading\nnorth,a,1,bread\nsouth,a,-2,bread\nsouth,a,2,bread\n");
+  WriteTextFile(dir + "/expenditure.csv", "region,heading,expenditure\nnorth,bread,1\nsouth,bread,1\n");
+  WriteTextFile(dir + "/config.yaml",
+                "survey:\n  prices: prices.csv\n  expenditure: expenditure.csv\ninvalid_rows: skip\n");
+  std::string out, err;
+  ASSERT_EQ(RunCli("compute " + dir + "/config.yaml --output " + dir + "/out", &out, &err), 0) << err;
+  const auto rejected = ReadRows(ReadTextFile(dir + "/out/rejected.csv"));
+  ASSERT_EQ(rejected.size(), 2u);
+  EXPECT_EQ(rejected[0], (std::vector<std::string>{"file", "line", "reason", "raw"}));
+  EXPECT_EQ(rejected[1][1], "3");
+  EXPECT_EQ(rejected[1][2], dir + "/prices.csv:3:3: price '-2' is not a positive number");
+  EXPECT_EQ(rejected[1][3], "south,a,-2,bread");
+  EXPECT_NE(out.find("1 invalid rows left out (listed in rejected.csv)"), std::string::npos) << out;
+}
+
+}  // namespace
+}  // namespace paritas

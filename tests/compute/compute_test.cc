@@ -1,0 +1,343 @@
+// Tests of the whole computation (survey -> heading and aggregate parities):
+// a published data set, published theorems as properties, and recovery of a
+// known truth from synthetic surveys.
+#include "paritas/compute/compute.h"
+
+#include <cmath>
+#include <fstream>
+#include <map>
+#include <sstream>
+
+#include "paritas/survey/config.h"
+#include "paritas/base/csv.h"
+#include "paritas/output/output_writers.h"
+#include "paritas/survey/survey_loader.h"
+#include "synthetic_survey.h"
+#include "test_util.h"
+
+namespace paritas {
+namespace {
+
+using testing::IsClose;
+using testing::MakeTempDir;
+using testing::TestDataPath;
+using testing::WriteTextFile;
+
+// Reads a small CSV into rows of fields (header included).
+std::vector<std::vector<std::string>> ReadRows(const std::string& text) {
+  std::vector<std::vector<std::string>> rows;
+  CsvReader reader(text);
+  CsvRecord record;
+  while (reader.Next(&record)) rows.emplace_back(record.fields.begin(), record.fields.end());
+  return rows;
+}
+
+// Loads a survey from a config text written into `folder`.
+Survey LoadFrom(const std::string& folder, const std::string& config_text) {
+  WriteTextFile(folder + "/config.yaml", config_text);
+  RunConfig config;
+  std::string error;
+  EXPECT_TRUE(LoadRunConfig(folder + "/config.yaml", &config, &error)) << error;
+  Survey survey;
+  LoadSummary summary;
+  EXPECT_TRUE(LoadSurvey(config, LoadOptions(), &survey, &summary)) << summary.message;
+  return survey;
+}
+
+// The six-commodity, five-situation data set of the CPI Manual (2004, ch. 19,
+// tables 19.1-19.2) read as five regions s1..s5, one item per heading,
+// expenditure = price x quantity.
+Survey SixCommoditySurvey(const std::string& name, const std::vector<std::string>& regions = {}) {
+  const std::string folder = MakeTempDir(name);
+  const auto rows = ReadRows(testing::ReadTextFile(TestDataPath("published/six_commodity_prices_quantities.csv")));
+  std::string prices = "region,item,price,heading\n", spending = "region,heading,expenditure\n";
+  for (size_t k = 1; k < rows.size(); ++k) {
+    const std::string region = "s" + rows[k][0];
+    if (!regions.empty() && std::find(regions.begin(), regions.end(), region) == regions.end()) continue;
+    const double price = std::stod(rows[k][2]), quantity = std::stod(rows[k][3]);
+    prices += region + "," + rows[k][1] + "_item," + rows[k][2] + "," + rows[k][1] + "\n";
+    std::ostringstream value;
+    value.precision(17);
+    value << price * quantity;
+    spending += region + "," + rows[k][1] + "," + value.str() + "\n";
+  }
+  WriteTextFile(folder + "/prices.csv", prices);
+  WriteTextFile(folder + "/expenditure.csv", spending);
+  return LoadFrom(folder,
+                  "survey:\n  prices: prices.csv\n  expenditure: expenditure.csv\n"
+                  "classification:\n  all: [c1, c2, c3, c4, c5, c6]\n");
+}
+
+ParityResult Compute(const Survey& survey, ComputeOptions options = ComputeOptions()) {
+  ParityResult result;
+  ComputeSummary summary;
+  EXPECT_TRUE(ComputeParities(survey, options, &result, &summary)) << summary.message;
+  return result;
+}
+
+double Ratio(const NodeResult& node, int a, int b) { return node.parity(b) / node.parity(a); }
+
+TEST(ComputeParities, ReproducesTheCpiManualBilateralIndicesOfTheSixCommodityData) {
+  // Source: ILO/IMF/OECD/UNECE/Eurostat/World Bank, Consumer Price Index
+  // Manual (2004), ch. 19, tables 19.1-19.2; values against situation 1.
+  const Survey survey = SixCommoditySurvey("six_bilateral");
+  const ParityResult result = Compute(survey);
+  const BilateralMatrices& b = result.bilaterals.front();
+  const auto published = ReadRows(testing::ReadTextFile(TestDataPath("published/six_commodity_indices.csv")));
+  ASSERT_EQ(published.size(), 6u);
+  for (int s = 1; s < 5; ++s) {
+    EXPECT_TRUE(IsClose(b.laspeyres(0, s), std::stod(published[s + 1][1]), 1e-6)) << s;
+    EXPECT_TRUE(IsClose(b.paasche(0, s), std::stod(published[s + 1][2]), 1e-6)) << s;
+    EXPECT_TRUE(IsClose(b.fisher(0, s), std::stod(published[s + 1][3]), 1e-6)) << s;
+    EXPECT_TRUE(IsClose(b.tornqvist(0, s), std::stod(published[s + 1][4]), 1e-6)) << s;
+  }
+}
+
+TEST(ComputeParities, GeksOverTwoRegionsEqualsTheirFisherIndex) {
+  // GEKS definition (Gini 1931; Eltetö and Köves 1964; Szulc 1964): with two
+  // regions the transitive parity ratio is the bilateral Fisher index; CPI
+  // Manual (2004) ch. 19 gives Fisher(1, 2) = 1.4011 (printed, 4 decimals).
+  const Survey survey = SixCommoditySurvey("six_two", {"s1", "s2"});
+  const ParityResult result = Compute(survey);
+  EXPECT_TRUE(IsClose(Ratio(result.nodes.front(), 0, 1), 1.401050, 1e-6));
+}
+
+TEST(ComputeParities, GeksTornqvistOverTwoRegionsEqualsTheirTornqvistIndex) {
+  const Survey survey = SixCommoditySurvey("six_two_t", {"s1", "s3"});
+  ComputeOptions options;
+  options.aggregation = AggregationMethod::kGeksTornqvist;
+  const ParityResult result = Compute(survey, options);
+  // Törnqvist of situation 3 against 1, from six_commodity_indices.csv.
+  EXPECT_TRUE(IsClose(Ratio(result.nodes.front(), 0, 1), 1.289013, 1e-6));
+}
+
+TEST(ComputeParities, AggregateIsTheGeksMeanOfFisherIndicesOverAllBases) {
+  // Classic GEKS formula with every pair present: P_b / P_a =
+  // prod_c (F_ac F_cb)^(1/n) (Diewert 1999).
+  const Survey survey = SixCommoditySurvey("six_geks");
+  const ParityResult result = Compute(survey);
+  const Eigen::MatrixXd& f = result.bilaterals.front().fisher;
+  for (int a = 0; a < 5; ++a) {
+    for (int b = 0; b < 5; ++b) {
+      double log_geks = 0.0;
+      for (int c = 0; c < 5; ++c) log_geks += (std::log(f(a, c)) + std::log(f(c, b))) / 5.0;
+      EXPECT_TRUE(IsClose(Ratio(result.nodes.front(), a, b), std::exp(log_geks), 1e-12));
+    }
+  }
+}
+
+synthetic::SyntheticSurvey MakeSynthetic(double coverage, double noise_sd, uint64_t seed,
+                                         int regions = 12, int headings = 6, int items = 8) {
+  synthetic::SyntheticOptions options;
+  options.num_regions = regions;
+  options.num_headings = headings;
+  options.items_per_heading = items;
+  options.coverage = coverage;
+  options.noise_sd = noise_sd;
+  options.num_groups = 2;
+  options.quotes_per_cell = 2;
+  options.seed = seed;
+  return synthetic::Generate(options);
+}
+
+Survey LoadSynthetic(const synthetic::SyntheticSurvey& truth, const std::string& name) {
+  const std::string folder = MakeTempDir(name);
+  std::string error;
+  EXPECT_TRUE(synthetic::WriteSurvey(truth, folder, &error)) << error;
+  RunConfig config;
+  EXPECT_TRUE(LoadRunConfig(folder + "/config.yaml", &config, &error)) << error;
+  Survey survey;
+  LoadSummary summary;
+  EXPECT_TRUE(LoadSurvey(config, LoadOptions(), &survey, &summary)) << summary.message;
+  return survey;
+}
+
+TEST(ComputeParities, ChangingTheReferenceChangesNoRatioBetweenRegions) {
+  // Base invariance of GEKS and CPD (Diewert 1999): normalisation is a
+  // common factor per node.
+  const Survey survey = LoadSynthetic(MakeSynthetic(0.7, 0.05, 3), "reference");
+  ComputeOptions mean, weighted, region;
+  weighted.reference.kind = ReferenceKind::kWeightedMean;
+  region.reference = Reference::FromString(std::string(survey.regions.Code(4)));
+  const ParityResult a = Compute(survey, mean), b = Compute(survey, weighted), c = Compute(survey, region);
+  for (size_t n = 0; n < a.nodes.size(); ++n) {
+    for (int r = 1; r < survey.num_regions(); ++r) {
+      EXPECT_TRUE(IsClose(Ratio(a.nodes[n], 0, r), Ratio(b.nodes[n], 0, r), 1e-12));
+      EXPECT_TRUE(IsClose(Ratio(a.nodes[n], 0, r), Ratio(c.nodes[n], 0, r), 1e-12));
+    }
+    EXPECT_TRUE(IsClose(c.nodes[n].parity(4), 100.0, 1e-12));
+  }
+  // Geometric mean of the parities is 100 under the default reference.
+  const NodeResult& root = a.nodes.front();
+  EXPECT_TRUE(IsClose(root.parity.array().log().mean(), std::log(100.0), 1e-12));
+}
+
+TEST(ComputeParities, WeightedMeanReferenceMakesTheExpenditureWeightedGeometricMean100) {
+  const Survey survey = LoadSynthetic(MakeSynthetic(0.7, 0.05, 5), "weighted");
+  ComputeOptions options;
+  options.reference.kind = ReferenceKind::kWeightedMean;
+  const ParityResult result = Compute(survey, options);
+  const NodeResult& root = result.nodes.front();
+  const double weighted_log =
+      (root.expenditure.array() * root.parity.array().log()).sum() / root.expenditure.sum();
+  EXPECT_TRUE(IsClose(weighted_log, std::log(100.0), 1e-12));
+}
+
+TEST(ComputeParities, CpdOnACompleteTableEqualsGeksJevons) {
+  // Summers (1973): unweighted CPD on a complete table gives ratios of
+  // geometric mean prices, which is also GEKS over Jevons bilaterals.
+  const Survey survey = LoadSynthetic(MakeSynthetic(1.0, 0.05, 11), "complete");
+  ComputeOptions jevons;
+  jevons.elementary.method = ElementaryMethod::kJevonsGeks;
+  const ParityResult cpd = Compute(survey), geks = Compute(survey, jevons);
+  for (const NodeResult& node : cpd.nodes) {
+    for (int r = 0; r < survey.num_regions(); ++r) {
+      EXPECT_TRUE(IsClose(node.parity(r), geks.nodes[node.node].parity(r), 1e-10));
+    }
+  }
+}
+
+TEST(ComputeParities, CpdAndGeksJevonsDifferOnAnIncompleteTable) {
+  // Summers (1973): with missing prices the two no longer coincide.
+  const Survey survey = LoadSynthetic(MakeSynthetic(0.6, 0.05, 12), "incomplete");
+  ComputeOptions jevons;
+  jevons.elementary.method = ElementaryMethod::kJevonsGeks;
+  const ParityResult cpd = Compute(survey), geks = Compute(survey, jevons);
+  double largest = 0.0;
+  for (int r = 0; r < survey.num_regions(); ++r) {
+    largest = std::max(largest, std::abs(std::log(cpd.nodes[1].parity(r) / geks.nodes[1].parity(r))));
+  }
+  EXPECT_GT(largest, 1e-4);
+}
+
+TEST(ComputeParities, HeadingParitiesRecoverTheTrueRegionalPriceLevels) {
+  const synthetic::SyntheticSurvey truth = MakeSynthetic(0.7, 0.01, 21, 20, 6, 12);
+  const Survey survey = LoadSynthetic(truth, "recovery");
+  const ParityResult result = Compute(survey);
+  const int num_headings = static_cast<int>(truth.headings.size());
+  for (int h = 0; h < num_headings; ++h) {
+    const int heading = survey.classification.FindHeading(truth.headings[h]);
+    ASSERT_GE(heading, 0);
+    const int node = survey.classification.headings()[heading];
+    // The truth normalised like the parities: geometric mean 100.
+    double mean = 0.0;
+    for (size_t r = 0; r < truth.regions.size(); ++r) mean += truth.true_log_level[r * num_headings + h];
+    mean /= truth.regions.size();
+    for (size_t r = 0; r < truth.regions.size(); ++r) {
+      const int region = survey.regions.Find(truth.regions[r]);
+      const double expected = 100.0 * std::exp(truth.true_log_level[r * num_headings + h] - mean);
+      // Noise sd 0.01 per quote and about 8 items per region: errors of a
+      // few tenths of a percent; 1.5 % leaves room without hiding bias.
+      EXPECT_NEAR(result.nodes[node].parity(region) / expected, 1.0, 0.015)
+          << truth.headings[h] << " " << truth.regions[r];
+    }
+  }
+}
+
+TEST(ComputeParities, RealExpenditureIsNominalOverParityAndPerCapitaIndexAveragesToTheCountry) {
+  const Survey survey = LoadSynthetic(MakeSynthetic(0.7, 0.05, 31), "real");
+  const ParityResult result = Compute(survey);
+  const NodeResult& root = result.nodes.front();
+  double total_real = 0.0, total_population = 0.0;
+  for (int r = 0; r < survey.num_regions(); ++r) {
+    EXPECT_TRUE(IsClose(root.real_expenditure(r), root.expenditure(r) / (root.parity(r) / 100.0), 1e-12));
+    total_real += root.real_expenditure(r);
+    total_population += survey.region_population[r];
+  }
+  // Population-weighted mean of the per-capita index is 100 by construction.
+  double weighted = 0.0;
+  for (int r = 0; r < survey.num_regions(); ++r) {
+    weighted += root.real_per_capita_index(r) * survey.region_population[r] / total_population;
+  }
+  EXPECT_TRUE(IsClose(weighted, 100.0, 1e-10));
+  EXPECT_GT(total_real, 0.0);
+}
+
+TEST(ComputeParities, RankOneIsTheDearestRegion) {
+  const Survey survey = LoadSynthetic(MakeSynthetic(0.7, 0.05, 41), "rank");
+  const ParityResult result = Compute(survey);
+  const NodeResult& root = result.nodes.front();
+  int dearest = 0;
+  for (int r = 1; r < survey.num_regions(); ++r) {
+    if (root.parity(r) > root.parity(dearest)) dearest = r;
+  }
+  EXPECT_EQ(root.rank(dearest), 1);
+}
+
+TEST(ComputeParities, UnlinkedHeadingFailsAndNamesTheGroups) {
+  const std::string folder = MakeTempDir("unlinked");
+  WriteTextFile(folder + "/prices.csv",
+                "region,item,price,heading\n"
+                "north,a,1,bread\nsouth,a,2,bread\n"
+                "east,b,3,bread\nwest,b,4,bread\n");
+  WriteTextFile(folder + "/expenditure.csv",
+                "region,heading,expenditure\nnorth,bread,1\nsouth,bread,1\neast,bread,1\nwest,bread,1\n");
+  const Survey survey = LoadFrom(folder, "survey:\n  prices: prices.csv\n  expenditure: expenditure.csv\n");
+  ParityResult result;
+  ComputeSummary summary;
+  EXPECT_FALSE(ComputeParities(survey, ComputeOptions(), &result, &summary));
+  EXPECT_EQ(summary.outcome, ComputeOutcome::kComputationFailed);
+  EXPECT_EQ(summary.message.substr(0, summary.message.find('\n')),
+            "heading 'bread' is not linked: its regions fall into 2 groups that share no item: "
+            "{east, west} and {north, south}");
+}
+
+TEST(ComputeParities, UnknownReferenceRegionIsRejectedWithASuggestion) {
+  const Survey survey = SixCommoditySurvey("six_reference");
+  ComputeOptions options;
+  options.reference = Reference::FromString("s7");
+  ParityResult result;
+  ComputeSummary summary;
+  EXPECT_FALSE(ComputeParities(survey, options, &result, &summary));
+  EXPECT_EQ(summary.outcome, ComputeOutcome::kInvalidOptions);
+  EXPECT_EQ(summary.message, "reference region 's7' is not in the survey; did you mean 's1'?");
+}
+
+TEST(ComputeParities, RegionWithoutPricesInAHeadingHasNoParityThereButOneOverall) {
+  const std::string folder = MakeTempDir("missing_region");
+  WriteTextFile(folder + "/prices.csv",
+                "region,item,price,heading\n"
+                "north,a,1,bread\nsouth,a,2,bread\n"
+                "north,b,3,rent\nsouth,b,4,rent\neast,b,5,rent\n");
+  WriteTextFile(folder + "/expenditure.csv",
+                "region,heading,expenditure\nnorth,bread,1\nsouth,bread,1\neast,bread,1\n"
+                "north,rent,2\nsouth,rent,2\neast,rent,2\n");
+  const Survey survey = LoadFrom(folder, "survey:\n  prices: prices.csv\n  expenditure: expenditure.csv\n");
+  const ParityResult result = Compute(survey);
+  const int east = survey.regions.Find("east");
+  const int bread = survey.classification.FindNode("bread");
+  EXPECT_TRUE(std::isnan(result.nodes[bread].parity(east)));
+  EXPECT_TRUE(std::isfinite(result.nodes.front().parity(east)));
+  EXPECT_EQ(result.nodes.front().num_headings(east), 1);
+}
+
+TEST(ParityMatrixCsv, EveryMatrixIsTransitive) {
+  // Transitivity: m(a, c) = m(a, b) m(b, c) / 100 for every triple.
+  const Survey survey = LoadSynthetic(MakeSynthetic(0.7, 0.05, 51), "transitive");
+  const ParityResult result = Compute(survey);
+  for (const NodeResult& node : result.nodes) {
+    const auto rows = ReadRows(ParityMatrixCsv(survey, node));
+    const size_t n = rows.size() - 1;
+    ASSERT_EQ(n, static_cast<size_t>(survey.num_regions()));
+    for (size_t a = 1; a <= n; ++a) {
+      for (size_t b = 1; b <= n; ++b) {
+        for (size_t c = 1; c <= n; c += 3) {
+          const double direct = std::stod(rows[a][c]);
+          const double via = std::stod(rows[a][b]) * std::stod(rows[b][c]) / 100.0;
+          EXPECT_NEAR(direct, via, 1e-5 * std::max(1.0, direct));
+        }
+      }
+    }
+  }
+}
+
+TEST(NodeFileName, KeepsSafeCodesAndSuffixesChangedOnes) {
+  EXPECT_EQ(NodeFileName("food_2"), "food_2");
+  EXPECT_EQ(NodeFileName("a/b").substr(0, 4), "a_b-");
+  EXPECT_EQ(NodeFileName("a/b").size(), 12u);
+  EXPECT_NE(NodeFileName("a/b"), NodeFileName("a?b"));
+  EXPECT_EQ(NodeFileName("..").substr(0, 3), "..-");
+}
+
+}  // namespace
+}  // namespace paritas

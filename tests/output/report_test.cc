@@ -1,0 +1,218 @@
+// Tests of the HTML report: escaping, sections, self-containment, optional
+// parts and size at 1,000 regions. The report is built from real runs of the
+// compute job (demo survey, synthetic surveys) so every section sees data of
+// the shape it gets in use.
+#include "paritas/output/report.h"
+
+#include <cmath>
+#include <regex>
+#include <string>
+
+#include <gtest/gtest.h>
+
+#include "paritas/survey/config.h"
+#include "paritas/jobs/jobs.h"
+#include "paritas/base/text.h"
+#include "synthetic_survey.h"
+#include "test_util.h"
+
+namespace paritas {
+namespace {
+
+using ::paritas::testing::MakeTempDir;
+using ::paritas::testing::SourcePath;
+
+size_t CountOf(const std::string& text, const std::string& needle) {
+  size_t n = 0;
+  for (size_t at = text.find(needle); at != std::string::npos; at = text.find(needle, at + needle.size())) ++n;
+  return n;
+}
+
+// The text of the element that opens with id="<id>", up to its </svg>.
+std::string SvgById(const std::string& html, const std::string& id) {
+  const size_t begin = html.find("id=\"" + id + "\"");
+  if (begin == std::string::npos) return "";
+  return html.substr(begin, html.find("</svg>", begin) - begin);
+}
+
+// Runs the compute job on a configuration, without writing the report, and
+// returns the job summary for building reports in the test.
+ComputeJobSummary RunJob(const std::string& config_path, const std::string& output) {
+  RunConfig config;
+  std::string error;
+  EXPECT_TRUE(LoadRunConfig(config_path, &config, &error)) << error;
+  config.output = output;
+  config.report = false;
+  ComputeJobSummary summary;
+  EXPECT_EQ(RunCompute(config, &summary), kExitOk) << summary.message;
+  return summary;
+}
+
+ReportInputs InputsFor(const ComputeJobSummary& job, const RunConfig* config) {
+  ReportInputs in;
+  in.config = config;
+  in.survey = &job.survey;
+  in.load = &job.load;
+  in.result = &job.result;
+  in.compute = &job.compute;
+  in.warnings = job.warnings;
+  return in;
+}
+
+// The demo survey, computed once for all tests.
+struct Demo {
+  RunConfig config;
+  ComputeJobSummary job;
+  Demo() {
+    std::string error;
+    EXPECT_TRUE(LoadRunConfig(SourcePath("config/demo.yaml"), &config, &error)) << error;
+    job = RunJob(SourcePath("config/demo.yaml"), MakeTempDir("report_demo"));
+  }
+};
+const Demo& TheDemo() {
+  static const Demo* demo = new Demo();
+  return *demo;
+}
+
+TEST(HtmlEscape, EscapesTheFiveMarkupCharacters) {
+  EXPECT_EQ(HtmlEscape("<script>alert('x') & \"y\"</script>"),
+            "&lt;script&gt;alert(&#39;x&#39;) &amp; &quot;y&quot;&lt;/script&gt;");
+  EXPECT_EQ(HtmlEscape("Ålvik – plain"), "Ålvik – plain");  // UTF-8 passes through
+}
+
+TEST(ReportHtml, HasEverySectionAndOneBarPerRegionForTheDemo) {
+  const Demo& demo = TheDemo();
+  const std::string html = ReportHtml(InputsFor(demo.job, &demo.config));
+  for (const char* id : {"overview", "warnings", "price-levels", "price-level-chart", "price-level-table",
+                         "aggregates", "aggregate-grid", "matrix", "matrix-grid", "coverage", "coverage-grid",
+                         "spread", "spread-histogram", "worst-pairs", "methods", "cautions"}) {
+    EXPECT_NE(html.find("id=\"" + std::string(id) + "\""), std::string::npos) << id;
+  }
+  EXPECT_EQ(CountOf(html, "class=\"pl-bar\""), 16u);  // the demo has 16 regions, all with parities
+  // The matrix grid shows all 16 x 16 cells; the coverage grid 29 headings x (16 regions + all).
+  EXPECT_EQ(CountOf(SvgById(html, "matrix-grid"), "<rect class=\"cell\""), 256u);
+  EXPECT_EQ(CountOf(SvgById(html, "coverage-grid"), "<rect class=\"cell"), 29u * 17u);
+  // Dearest and cheapest regions of the demo (parities.csv of the demo run).
+  EXPECT_NE(html.find("the dearest is <b>Aurelmont Capital Region</b> at 128.3"), std::string::npos);
+  EXPECT_NE(html.find("official regional price levels come from the statistical authority"), std::string::npos);
+}
+
+TEST(ReportHtml, FormatsParitiesWithOneDecimalInChartsAndTwoInTables) {
+  const Demo& demo = TheDemo();
+  const std::string html = ReportHtml(InputsFor(demo.job, &demo.config));
+  const NodeResult& root = demo.job.result.nodes.front();
+  const int cap = demo.job.survey.regions.Find("cap");
+  ASSERT_GE(cap, 0);
+  EXPECT_NE(html.find(">" + FormatFixed(root.parity(cap), 1) + "</text>"), std::string::npos);
+  EXPECT_NE(html.find(">" + FormatFixed(root.parity(cap), 2) + "</td>"), std::string::npos);
+}
+
+TEST(ReportHtml, RefersToNothingOutsideThePage) {
+  const Demo& demo = TheDemo();
+  const std::string html = ReportHtml(InputsFor(demo.job, &demo.config));
+  for (const char* needle : {"http://", "https://", "src=", "<link", "@import", "url(http", "<img", "<iframe"}) {
+    EXPECT_EQ(html.find(needle), std::string::npos) << needle;
+  }
+  EXPECT_EQ(CountOf(html, "<script"), 1u);  // the one small sorting script
+  EXPECT_EQ(CountOf(html, "<style"), 1u);
+}
+
+TEST(ReportHtml, LeavesOptionalSectionsOutWhenTheirInputsAreNull) {
+  const Demo& demo = TheDemo();
+  const std::string html = ReportHtml(InputsFor(demo.job, &demo.config));
+  EXPECT_EQ(html.find("id=\"outliers\""), std::string::npos);
+  EXPECT_EQ(html.find("id=\"sensitivity\""), std::string::npos);
+  EXPECT_EQ(html.find("class=\"whisker\""), std::string::npos);
+}
+
+TEST(ReportHtml, ShowsOutliersAndSensitivityWhenGiven) {
+  const Demo& demo = TheDemo();
+  ReportInputs in = InputsFor(demo.job, &demo.config);
+  const std::vector<ReportOutlier> outliers = {{"meat", "cap", "<b>beef</b>", 30.0, 10.0, 5.2, 3},
+                                               {"fruit", "fen", "apples", 1.0, 2.5, -4.1, 2}};
+  const int num_regions = demo.job.survey.num_regions();
+  ReportSensitivity sensitivity;
+  const NodeResult& root = demo.job.result.nodes.front();
+  std::vector<double> alternative(num_regions);
+  for (int r = 0; r < num_regions; ++r) {
+    sensitivity.parity_lower.push_back(root.parity(r) * 0.98);
+    sensitivity.parity_upper.push_back(root.parity(r) * 1.02);
+    alternative[r] = root.parity(r) * (r % 2 ? 1.01 : 0.99);
+  }
+  sensitivity.coverage_curve = {{1.0, 0.0}, {0.8, 0.4}, {0.5, 1.1}};
+  sensitivity.method_names = {"geks-tornqvist"};
+  sensitivity.method_parity = {alternative};
+  in.outliers = &outliers;
+  in.sensitivity = &sensitivity;
+  const std::string html = ReportHtml(in);
+  EXPECT_NE(html.find("id=\"outliers\""), std::string::npos);
+  EXPECT_NE(html.find("&lt;b&gt;beef&lt;/b&gt;"), std::string::npos);
+  EXPECT_EQ(html.find("<b>beef"), std::string::npos);
+  EXPECT_NE(html.find("id=\"sensitivity\""), std::string::npos);
+  EXPECT_NE(html.find("id=\"coverage-curve\""), std::string::npos);
+  EXPECT_NE(html.find("id=\"method-spread\""), std::string::npos);
+  EXPECT_EQ(CountOf(html, "class=\"whisker\" d="), static_cast<size_t>(num_regions));  // one interval per bar
+  // Largest |standardised residual| first in the table.
+  EXPECT_LT(html.find("&lt;b&gt;beef"), html.find(">apples<"));
+}
+
+TEST(ReportHtml, ShowsAnEmptyOutlierListAsNone) {
+  const Demo& demo = TheDemo();
+  ReportInputs in = InputsFor(demo.job, &demo.config);
+  const std::vector<ReportOutlier> none;
+  in.outliers = &none;
+  const std::string html = ReportHtml(in);
+  EXPECT_NE(html.find("No cell's standardised residual exceeds 3.5"), std::string::npos);
+}
+
+TEST(ReportHtml, ShowsHostileRegionAndHeadingNamesAsText) {
+  // The demo survey with its first region and first heading renamed: codes
+  // are only interned text, so any bytes may reach the report.
+  const Demo& demo = TheDemo();
+  ComputeJobSummary job = demo.job;
+  std::vector<std::string> codes = job.survey.regions.Codes();
+  codes[0] = "<script>alert(1)</script>";
+  job.survey.regions = CodeTable::FromCodes(codes);
+  job.survey.region_name[0] = "<img src=x onerror=alert(2)>";
+  job.survey.heading_codes[0] = "\"><svg onload=alert(3)>";
+  job.warnings.push_back("region <script>alert(4)</script> has no rents");
+  const std::string html = ReportHtml(InputsFor(job, &demo.config));
+  EXPECT_EQ(CountOf(html, "<script"), 1u);
+  EXPECT_EQ(html.find("<img"), std::string::npos);
+  EXPECT_EQ(html.find("<svg onload"), std::string::npos);
+  EXPECT_NE(html.find("&lt;script&gt;alert(1)&lt;/script&gt;"), std::string::npos);
+  EXPECT_NE(html.find("&lt;img src=x onerror=alert(2)&gt;"), std::string::npos);
+  EXPECT_NE(html.find("&lt;script&gt;alert(4)&lt;/script&gt;"), std::string::npos);
+}
+
+TEST(ReportHtml, GivesAShortPageWithoutResults) {
+  const std::string html = ReportHtml(ReportInputs());
+  EXPECT_NE(html.find("No parities were computed"), std::string::npos);
+  EXPECT_NE(html.find("</html>"), std::string::npos);
+}
+
+TEST(ReportHtml, StaysSmallAndThinsItsGridsAtAThousandRegions) {
+  synthetic::SyntheticOptions options;
+  options.num_regions = 1000;
+  options.num_headings = 12;
+  options.items_per_heading = 5;
+  options.num_groups = 3;
+  const std::string folder = MakeTempDir("report_thousand");
+  std::string error;
+  ASSERT_TRUE(synthetic::WriteSurvey(synthetic::Generate(options), folder, &error)) << error;
+  RunConfig config;
+  ASSERT_TRUE(LoadRunConfig(folder + "/config.yaml", &config, &error)) << error;
+  const ComputeJobSummary job = RunJob(folder + "/config.yaml", folder + "/out");
+  const std::string html = ReportHtml(InputsFor(job, &config));
+  EXPECT_LT(html.size(), 5u << 20);                        // < 5 MB (the design limit)
+  EXPECT_EQ(CountOf(html, "class=\"pl-bar compact\""), 1000u);  // still one bar per region
+  EXPECT_EQ(CountOf(SvgById(html, "matrix-grid"), "<rect class=\"cell\""),
+            static_cast<size_t>(kReportMaxGridRegions * kReportMaxGridRegions));
+  EXPECT_EQ(CountOf(SvgById(html, "coverage-grid"), "<rect class=\"cell"), 12u * (kReportMaxGridRegions + 1));
+  EXPECT_EQ(CountOf(SvgById(html, "aggregate-grid"), "<rect class=\"cell"),
+            static_cast<size_t>(kReportMaxGridRegions) * 4);  // root + 3 groups
+  EXPECT_NE(html.find("60 of 1,000 regions shown"), std::string::npos);
+}
+
+}  // namespace
+}  // namespace paritas

@@ -1,0 +1,243 @@
+// Tests of the run configuration: defaults, path resolution against the
+// configuration's folder, enum names, classification given inline or by path,
+// and the exact message for each mistake (unknown keys suggest the nearest).
+#include "paritas/survey/config.h"
+
+#include <filesystem>
+
+#include "test_util.h"
+
+namespace paritas {
+namespace {
+
+using ::paritas::testing::MakeTempDir;
+using ::paritas::testing::ReadTextFile;
+using ::paritas::testing::SourcePath;
+using ::paritas::testing::WriteTextFile;
+
+const char kSurvey[] = "survey:\n  prices: p.csv\n  expenditure: e.csv\n";
+
+RunConfig Parse(const std::string& yaml, const std::string& path = "/cfg/run.yaml") {
+  RunConfig config;
+  std::string error;
+  EXPECT_TRUE(ParseRunConfig(yaml, path, &config, &error)) << error;
+  return config;
+}
+
+std::string ParseError(const std::string& yaml, const std::string& path = "/cfg/run.yaml") {
+  RunConfig config;
+  std::string error;
+  EXPECT_FALSE(ParseRunConfig(yaml, path, &config, &error));
+  return error;
+}
+
+TEST(RunConfig, DefaultsAreValidOnceFilesAreGiven) {
+  RunConfig config;
+  std::string error;
+  EXPECT_FALSE(config.IsValid(&error));
+  EXPECT_EQ(error, "no prices file given (survey.prices)");
+  config.survey.prices = "p.csv";
+  config.survey.expenditure = "e.csv";
+  EXPECT_TRUE(config.IsValid(&error)) << error;
+  EXPECT_EQ(config.elementary, ElementaryMethod::kCpd);
+  EXPECT_EQ(config.aggregation, AggregationMethod::kGeksFisher);
+  EXPECT_EQ(config.invalid_rows, InvalidRowPolicy::kStop);
+  EXPECT_EQ(config.reference.kind, ReferenceKind::kMean);
+}
+
+TEST(RunConfig, ResolvesPathsAgainstTheConfigurationFolder) {
+  const RunConfig config = Parse(
+      "survey:\n  prices: data/p.csv\n  expenditure: ../e.csv\n  regions: /abs/r.csv\n"
+      "  items: ./i.csv\noutput: results\n");
+  EXPECT_EQ(config.survey.prices, "/cfg/data/p.csv");
+  EXPECT_EQ(config.survey.expenditure, "/e.csv");
+  EXPECT_EQ(config.survey.regions, "/abs/r.csv");
+  EXPECT_EQ(config.survey.items, "/cfg/i.csv");
+  EXPECT_EQ(config.output, "/cfg/results");
+  EXPECT_EQ(config.config_path, "/cfg/run.yaml");
+}
+
+TEST(RunConfig, PutsTheDefaultOutputBesideTheConfiguration) {
+  EXPECT_EQ(Parse(kSurvey).output, "/cfg/out");
+  EXPECT_EQ(Parse(kSurvey, "run.yaml").output, "out");
+  EXPECT_EQ(Parse(kSurvey, "run.yaml").survey.prices, "p.csv");
+}
+
+TEST(RunConfig, ReadsEverySetting) {
+  const RunConfig config = Parse(std::string(kSurvey) +
+                                 "reference: north\nelementary: Jevons-GEKS\naggregation: geks-tornqvist\n"
+                                 "invalid_rows: skip\nmatrices: [all]\nrepresentative_weight: 3\n"
+                                 "outlier_threshold: 4.5\nreport: false\nthreads: 2\n");
+  EXPECT_EQ(config.reference.kind, ReferenceKind::kRegion);
+  EXPECT_EQ(config.reference.region, "north");
+  EXPECT_EQ(config.elementary, ElementaryMethod::kJevonsGeks);
+  EXPECT_EQ(config.aggregation, AggregationMethod::kGeksTornqvist);
+  EXPECT_EQ(config.invalid_rows, InvalidRowPolicy::kSkip);
+  EXPECT_EQ(config.matrices, std::vector<std::string>{"all"});
+  EXPECT_EQ(config.representative_weight, 3.0);
+  EXPECT_EQ(config.outlier_threshold, 4.5);
+  EXPECT_FALSE(config.report);
+  EXPECT_EQ(config.threads, 2);
+  EXPECT_FALSE(config.has_classification);
+}
+
+TEST(RunConfig, ReadsWeightedMeanReferenceInAnyCase) {
+  EXPECT_EQ(Parse(std::string(kSurvey) + "reference: Weighted-Mean\n").reference.kind,
+            ReferenceKind::kWeightedMean);
+  EXPECT_EQ(Reference::FromString(" mean ").kind, ReferenceKind::kMean);
+  EXPECT_EQ(Reference::FromString("cap").ToString(), "cap");
+}
+
+TEST(RunConfig, SuggestsTheNearestTopLevelKeyForATypo) {
+  EXPECT_EQ(ParseError(std::string(kSurvey) + "refrence: mean\n"),
+            "/cfg/run.yaml:4:1: unknown key 'refrence'; did you mean 'reference'?");
+}
+
+TEST(RunConfig, SuggestsTheNearestSurveyKeyForATypo) {
+  EXPECT_EQ(ParseError("survey:\n  pricess: p.csv\n  expenditure: e.csv\n"),
+            "/cfg/run.yaml:2:3: unknown key 'survey.pricess'; did you mean 'survey.prices'?");
+}
+
+TEST(RunConfig, ListsTheValidKeysWhenNoneIsClose) {
+  // The list grows with new settings, so only its stable start is pinned.
+  const std::string error = ParseError(std::string(kSurvey) + "colour: blue\n");
+  const std::string start =
+      "/cfg/run.yaml:4:1: unknown key 'colour'; valid keys are: survey, classification, reference, "
+      "elementary, aggregation, invalid_rows, output, matrices, ";
+  EXPECT_EQ(error.substr(0, start.size()), start);
+  EXPECT_NE(error.find(", threads"), std::string::npos) << error;
+}
+
+TEST(RunConfig, ListsTheAllowedNamesForABadElementaryMethod) {
+  EXPECT_EQ(ParseError(std::string(kSurvey) + "elementary: jevons\n"),
+            "/cfg/run.yaml:4:13: elementary 'jevons' is not one of: cpd, jevons-geks, robust-cpd");
+}
+
+TEST(RunConfig, ListsTheAllowedNamesForABadAggregationMethod) {
+  EXPECT_EQ(ParseError(std::string(kSurvey) + "aggregation: fisher\n"),
+            "/cfg/run.yaml:4:14: aggregation 'fisher' is not one of: geks-fisher, geks-tornqvist");
+}
+
+TEST(RunConfig, ListsTheAllowedNamesForABadInvalidRowPolicy) {
+  EXPECT_EQ(ParseError(std::string(kSurvey) + "invalid_rows: ignore\n"),
+            "/cfg/run.yaml:4:15: invalid_rows 'ignore' is not one of: stop, skip");
+}
+
+TEST(EnumNames, RoundTripThroughToStringAndFromString) {
+  for (const std::string& name : ElementaryMethodNames()) {
+    ElementaryMethod method;
+    ASSERT_TRUE(FromString(name, &method)) << name;
+    EXPECT_EQ(ToString(method), name);
+  }
+  for (const std::string& name : AggregationMethodNames()) {
+    AggregationMethod method;
+    ASSERT_TRUE(FromString(name, &method)) << name;
+    EXPECT_EQ(ToString(method), name);
+  }
+  for (const std::string& name : InvalidRowPolicyNames()) {
+    InvalidRowPolicy policy;
+    ASSERT_TRUE(FromString(name, &policy)) << name;
+    EXPECT_EQ(ToString(policy), name);
+  }
+  InvalidRowPolicy policy = InvalidRowPolicy::kStop;
+  EXPECT_TRUE(FromString("SKIP", &policy));
+  EXPECT_EQ(policy, InvalidRowPolicy::kSkip);
+  EXPECT_FALSE(FromString("skipping", &policy));
+}
+
+TEST(RunConfig, RequiresPricesAndExpenditure) {
+  EXPECT_EQ(ParseError("reference: mean\n"),
+            "/cfg/run.yaml: missing key 'survey' (with at least 'prices' and 'expenditure')");
+  EXPECT_EQ(ParseError("survey:\n  prices: p.csv\n"), "/cfg/run.yaml:2:3: missing key 'survey.expenditure'");
+  EXPECT_EQ(ParseError("survey: p.csv\n"),
+            "/cfg/run.yaml:1:9: 'survey' must be a mapping with keys prices, expenditure, regions, items");
+}
+
+TEST(RunConfig, RejectsAConfigurationThatIsNotAMapping) {
+  EXPECT_EQ(ParseError("- a\n- b\n"),
+            "/cfg/run.yaml: the configuration must be a mapping of keys (survey, classification, ...)");
+}
+
+TEST(RunConfig, RejectsBadNumbersAndFlags) {
+  EXPECT_EQ(ParseError(std::string(kSurvey) + "representative_weight: heavy\n"),
+            "/cfg/run.yaml:4:24: 'representative_weight' must be a number, found 'heavy'");
+  EXPECT_EQ(ParseError(std::string(kSurvey) + "representative_weight: -1\n"),
+            "/cfg/run.yaml:4:24: representative_weight must be positive, found '-1'");
+  EXPECT_EQ(ParseError(std::string(kSurvey) + "outlier_threshold: 0\n"),
+            "/cfg/run.yaml:4:20: outlier_threshold must be positive, found '0'");
+  EXPECT_EQ(ParseError(std::string(kSurvey) + "report: maybe\n"),
+            "/cfg/run.yaml:4:9: report must be true or false, found 'maybe'");
+  EXPECT_EQ(ParseError(std::string(kSurvey) + "threads: 1.5\n"),
+            "/cfg/run.yaml:4:10: threads must be a whole number from 0 (all cores) to 1024, found '1.5'");
+  EXPECT_EQ(ParseError(std::string(kSurvey) + "reference: [a, b]\n"),
+            "/cfg/run.yaml:4:12: 'reference' must be a single value");
+}
+
+TEST(RunConfig, ReadsAnInlineClassification) {
+  const RunConfig config = Parse(std::string(kSurvey) +
+                                 "classification:\n  all:\n    food: [bread, meat]\n    housing: [rents]\n");
+  EXPECT_TRUE(config.has_classification);
+  EXPECT_EQ(config.classification_source, "/cfg/run.yaml");
+  EXPECT_EQ(config.classification.HeadingCodes(), (std::vector<std::string>{"bread", "meat", "rents"}));
+}
+
+TEST(RunConfig, ReportsInlineClassificationErrorsAtTheConfigurationLine) {
+  EXPECT_EQ(ParseError(std::string(kSurvey) + "classification:\n  all:\n    food: []\n"),
+            "/cfg/run.yaml:6:5: aggregate 'food' has no headings");
+  EXPECT_EQ(ParseError(std::string(kSurvey) + "classification:\n  food: [a]\n  housing: [b]\n"),
+            "/cfg/run.yaml:5:3: the classification must have exactly one root (a mapping with one key), "
+            "found 2 roots: food, housing");
+}
+
+TEST(RunConfig, ReadsAClassificationFileRelativeToTheConfiguration) {
+  const std::string dir = MakeTempDir("config_classification_path");
+  WriteTextFile(dir + "/trees/tree.yaml", "total:\n  - a\n  - group: [b, c]\n");
+  WriteTextFile(dir + "/run.yaml", std::string(kSurvey) + "classification: trees/tree.yaml\n");
+  RunConfig config;
+  std::string error;
+  ASSERT_TRUE(LoadRunConfig(dir + "/run.yaml", &config, &error)) << error;
+  EXPECT_TRUE(config.has_classification);
+  EXPECT_EQ(config.classification_source, dir + "/trees/tree.yaml");
+  EXPECT_EQ(config.classification.HeadingCodes(), (std::vector<std::string>{"a", "b", "c"}));
+  EXPECT_EQ(config.survey.prices, dir + "/p.csv");
+}
+
+TEST(RunConfig, ReportsClassificationFileErrorsInThatFile) {
+  const std::string dir = MakeTempDir("config_classification_bad");
+  WriteTextFile(dir + "/tree.yaml", "all:\n  - a\n  - a\n");
+  WriteTextFile(dir + "/run.yaml", std::string(kSurvey) + "classification: tree.yaml\n");
+  RunConfig config;
+  std::string error;
+  EXPECT_FALSE(LoadRunConfig(dir + "/run.yaml", &config, &error));
+  EXPECT_EQ(error, dir + "/tree.yaml:3:5: 'a' is listed twice in the classification (first at line 2)");
+  WriteTextFile(dir + "/run.yaml", std::string(kSurvey) + "classification: missing.yaml\n");
+  EXPECT_FALSE(LoadRunConfig(dir + "/run.yaml", &config, &error));
+  EXPECT_EQ(error, dir + "/missing.yaml: cannot open file: No such file or directory");
+}
+
+TEST(RunConfig, ReportsAMissingConfigurationFile) {
+  RunConfig config;
+  std::string error;
+  const std::string dir = MakeTempDir("config_missing");
+  EXPECT_FALSE(LoadRunConfig(dir + "/none.yaml", &config, &error));
+  EXPECT_EQ(error, dir + "/none.yaml: cannot open file: No such file or directory");
+}
+
+TEST(RunConfig, ReportsInvalidYamlWithLineAndColumn) {
+  const std::string error = ParseError("survey:\n  prices: [p.csv\n");
+  EXPECT_EQ(error.rfind("/cfg/run.yaml:", 0), 0u) << error;
+  EXPECT_NE(error.find("invalid YAML: "), std::string::npos) << error;
+}
+
+TEST(RunConfig, ReadsTheDemoConfiguration) {
+  RunConfig config;
+  std::string error;
+  ASSERT_TRUE(LoadRunConfig(SourcePath("config/demo.yaml"), &config, &error)) << error;
+  EXPECT_TRUE(config.has_classification);
+  EXPECT_EQ(config.classification.headings().size(), 29u);
+  EXPECT_TRUE(std::filesystem::exists(config.survey.prices)) << config.survey.prices;
+  EXPECT_TRUE(std::filesystem::exists(config.survey.regions)) << config.survey.regions;
+}
+
+}  // namespace
+}  // namespace paritas

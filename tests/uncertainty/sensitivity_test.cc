@@ -1,0 +1,487 @@
+// Sensitivity runs: options and messages, the percentile definition, the
+// weighted Jevons matrix, leave-one-out against a recomputation without the
+// item, the jackknife of a mean, bootstrap determinism and interval coverage
+// on synthetic surveys with a known truth, the coverage curve, method spread
+// and the command line.
+#include "paritas/uncertainty/sensitivity.h"
+
+#include <cmath>
+#include <cstdio>
+#include <filesystem>
+#include <sstream>
+
+#include <gtest/gtest.h>
+
+#include "paritas/aggregation/bilateral_matrix.h"
+#include "paritas/compute/compute.h"
+#include "paritas/survey/config.h"
+#include "paritas/survey/survey_loader.h"
+#include "synthetic_survey.h"
+#include "test_util.h"
+
+namespace paritas {
+namespace {
+
+using testing::IsClose;
+using testing::MakeTempDir;
+using testing::ReadTextFile;
+using testing::RunCli;
+using testing::WriteTextFile;
+
+synthetic::SyntheticOptions SmallOptions(uint64_t seed) {
+  synthetic::SyntheticOptions options;
+  options.num_regions = 10;
+  options.num_headings = 4;
+  options.items_per_heading = 6;
+  options.coverage = 0.8;
+  options.quotes_per_cell = 2;
+  options.noise_sd = 0.08;
+  options.num_groups = 2;
+  options.seed = seed;
+  return options;
+}
+
+// Writes the survey, returns the folder holding config.yaml.
+std::string WriteSynthetic(const synthetic::SyntheticSurvey& truth, const std::string& name) {
+  const std::string folder = MakeTempDir(name);
+  std::string error;
+  EXPECT_TRUE(synthetic::WriteSurvey(truth, folder, &error)) << error;
+  return folder;
+}
+
+Survey LoadFolder(const std::string& folder) {
+  RunConfig config;
+  std::string error;
+  EXPECT_TRUE(LoadRunConfig(folder + "/config.yaml", &config, &error)) << error;
+  Survey survey;
+  LoadSummary summary;
+  EXPECT_TRUE(LoadSurvey(config, LoadOptions(), &survey, &summary)) << summary.message;
+  return survey;
+}
+
+Survey LoadSynthetic(const synthetic::SyntheticOptions& options, const std::string& name) {
+  return LoadFolder(WriteSynthetic(synthetic::Generate(options), name));
+}
+
+SensitivityOptions OnlyParts(bool bootstrap, bool leave_one_out, bool coverage, bool methods) {
+  SensitivityOptions options;
+  options.run_bootstrap = bootstrap;
+  options.run_leave_one_out = leave_one_out;
+  options.run_coverage = coverage;
+  options.run_methods = methods;
+  return options;
+}
+
+TEST(SensitivityOptions, DefaultsAreValid) {
+  std::string error;
+  EXPECT_TRUE(SensitivityOptions().IsValid(&error)) << error;
+}
+
+TEST(SensitivityOptions, BadValuesGetClearMessages) {
+  auto message = [](auto change) {
+    SensitivityOptions options;
+    change(&options);
+    std::string error;
+    EXPECT_FALSE(options.IsValid(&error));
+    return error;
+  };
+  EXPECT_EQ(message([](SensitivityOptions* o) { o->replicates = 0; }),
+            "replicates must be a whole number from 2 to 100000, found 0");
+  EXPECT_EQ(message([](SensitivityOptions* o) { o->level = 1.0; }),
+            "level must be a share between 0 and 1 (exclusive), e.g. 0.95, found 1.000000");
+  EXPECT_EQ(message([](SensitivityOptions* o) { o->coverage_levels = {0.5, 1.5}; }),
+            "coverage levels must be shares of items in (0, 1], i.e. percentages above 0 and up to 100, "
+            "found 150.0000 %");
+  EXPECT_EQ(message([](SensitivityOptions* o) { o->coverage_levels = {0.5, 0.5}; }),
+            "coverage level 50.0000 % is given twice");
+  EXPECT_EQ(message([](SensitivityOptions* o) { o->coverage_repetitions = 1; }),
+            "repetitions must be a whole number from 2 to 10000, found 1");
+  EXPECT_EQ(message([](SensitivityOptions* o) { o->num_threads = -1; }),
+            "threads must be 0 (all cores) or more, found -1");
+  EXPECT_EQ(message([](SensitivityOptions* o) {
+              o->run_bootstrap = o->run_leave_one_out = o->run_coverage = o->run_methods = false;
+            }),
+            "no part to run; parts must name at least one of: bootstrap, leave-one-out, coverage, methods");
+}
+
+TEST(SensitivityOptions, UnknownPartIsNamedWithASuggestion) {
+  SensitivityOptions options;
+  std::string error;
+  EXPECT_FALSE(SetSensitivityParts({"bootstrp"}, &options, &error));
+  EXPECT_EQ(error, "part 'bootstrp' is not one of: bootstrap, leave-one-out, coverage, methods; did you mean "
+                   "'bootstrap'?");
+  EXPECT_TRUE(SetSensitivityParts({"Coverage", "methods"}, &options, &error));
+  EXPECT_FALSE(options.run_bootstrap);
+  EXPECT_TRUE(options.run_coverage);
+  EXPECT_TRUE(options.run_methods);
+}
+
+TEST(PercentileType7, MatchesNumpyPercentile) {
+  // Values from numpy.percentile (linear, its default), run with Debian's
+  // numpy 1.24: [1,2,3,4] at 25 -> 1.75; 1..10 at 95 -> 9.55;
+  // [3,1,7.5,2,10] at 2.5, 50, 97.5 -> 1.1, 3, 9.75.
+  EXPECT_DOUBLE_EQ(PercentileType7({1, 2, 3, 4}, 0.25), 1.75);
+  EXPECT_DOUBLE_EQ(PercentileType7({1, 2, 3, 4, 5, 6, 7, 8, 9, 10}, 0.95), 9.55);
+  const std::vector<double> sorted = {1.0, 2.0, 3.0, 7.5, 10.0};
+  EXPECT_DOUBLE_EQ(PercentileType7(sorted, 0.025), 1.1);
+  EXPECT_DOUBLE_EQ(PercentileType7(sorted, 0.5), 3.0);
+  EXPECT_DOUBLE_EQ(PercentileType7(sorted, 0.975), 9.75);
+  EXPECT_DOUBLE_EQ(PercentileType7(sorted, 1.0), 10.0);
+  EXPECT_DOUBLE_EQ(PercentileType7(sorted, 0.0), 1.0);
+}
+
+TEST(AllPairsJevonsWeighted, WholeWeightsEqualRepeatedColumnsAndZeroDropsOne) {
+  // A weight of k is the item priced k times: compare with the unweighted
+  // matrix on arrays where the column is repeated (or removed).
+  Eigen::MatrixXd log_price(3, 3), present(3, 3);
+  log_price << 0.1, 0.5, 2.0, 0.3, 0.2, 2.4, 0.0, 0.9, 1.7;
+  present << 1, 1, 1, 1, 0, 1, 1, 1, 0;
+  Eigen::VectorXd weight(3);
+  weight << 2, 1, 0;
+  Eigen::MatrixXd repeated_price(3, 3), repeated_present(3, 3);
+  repeated_price << log_price.col(0), log_price.col(0), log_price.col(1);
+  repeated_present << present.col(0), present.col(0), present.col(1);
+  const Eigen::MatrixXd weighted = AllPairsJevonsWeighted(log_price, present, weight);
+  const Eigen::MatrixXd expected = AllPairsJevons(repeated_price, repeated_present, nullptr);
+  for (int a = 0; a < 3; ++a) {
+    for (int b = 0; b < 3; ++b) PARITAS_EXPECT_CLOSE(weighted(a, b), expected(a, b), 1e-14);
+  }
+  const Eigen::MatrixXd unit = AllPairsJevonsWeighted(log_price, present, Eigen::VectorXd::Ones(3));
+  const Eigen::MatrixXd plain = AllPairsJevons(log_price, present, nullptr);
+  for (int a = 0; a < 3; ++a) {
+    for (int b = 0; b < 3; ++b) PARITAS_EXPECT_CLOSE(unit(a, b), plain(a, b), 1e-14);
+  }
+}
+
+class LeaveOneOut : public ::testing::TestWithParam<ElementaryMethod> {};
+
+TEST_P(LeaveOneOut, DroppingAnItemEqualsRecomputingWithoutIt) {
+  // The weight-0 route must give what a survey without the item's rows gives.
+  const synthetic::SyntheticSurvey truth = synthetic::Generate(SmallOptions(3));
+  const std::string folder = WriteSynthetic(truth, "loo-full");
+  const Survey survey = LoadFolder(folder);
+  const std::string dropped = truth.items[8];  // heading 1, not its anchor
+  std::istringstream prices(ReadTextFile(folder + "/prices.csv"));
+  std::string line, kept;
+  while (std::getline(prices, line)) {
+    if (line.find("," + dropped + ",") == std::string::npos) kept += line + "\n";
+  }
+  WriteTextFile(folder + "/prices.csv", kept);
+  const Survey reduced = LoadFolder(folder);
+
+  for (AggregationMethod aggregation : {AggregationMethod::kGeksFisher, AggregationMethod::kGeksTornqvist}) {
+    ComputeOptions options;
+    options.elementary.method = GetParam();
+    options.aggregation = aggregation;
+    options.reference.kind = ReferenceKind::kWeightedMean;
+    ParityResult expected;
+    ComputeSummary summary;
+    ASSERT_TRUE(ComputeParities(reduced, options, &expected, &summary)) << summary.message;
+    std::vector<double> weight(survey.num_items(), 1.0);
+    weight[survey.items.Find(dropped)] = 0.0;
+    Eigen::MatrixXd log_parity;
+    std::string error;
+    ASSERT_TRUE(ReplicateParities(survey, options, weight, &log_parity, nullptr, &error)) << error;
+    ASSERT_EQ(log_parity.rows(), static_cast<Eigen::Index>(expected.nodes.size()));
+    for (size_t n = 0; n < expected.nodes.size(); ++n) {
+      for (int r = 0; r < survey.num_regions(); ++r) {
+        PARITAS_EXPECT_CLOSE(100.0 * std::exp(log_parity(n, r)), expected.nodes[n].parity(r), 1e-10);
+      }
+    }
+  }
+}
+
+INSTANTIATE_TEST_SUITE_P(Methods, LeaveOneOut,
+                         ::testing::Values(ElementaryMethod::kCpd, ElementaryMethod::kJevonsGeks,
+                                           ElementaryMethod::kRobustCpd),
+                         [](const ::testing::TestParamInfo<ElementaryMethod>& param_info) {
+                           std::string name = ToString(param_info.param);
+                           name.erase(std::remove(name.begin(), name.end(), '-'), name.end());
+                           return name;
+                         });
+
+TEST(LeaveOneOut, LargestChangeIsTheLargestOverItemsDroppedOneByOne) {
+  const Survey survey = LoadSynthetic(SmallOptions(5), "loo-largest");
+  const ComputeOptions compute;
+  SensitivityResult result;
+  SensitivitySummary summary;
+  ASSERT_TRUE(RunSensitivity(survey, compute, OnlyParts(false, true, false, false), &result, &summary))
+      << summary.message;
+  std::vector<double> ones(survey.num_items(), 1.0);
+  Eigen::MatrixXd base, without;
+  std::string error;
+  ASSERT_TRUE(ReplicateParities(survey, compute, ones, &base, nullptr, &error));
+  Eigen::VectorXd largest = Eigen::VectorXd::Zero(survey.num_regions());
+  for (int i = 0; i < survey.num_items(); ++i) {
+    ones[i] = 0.0;
+    ASSERT_TRUE(ReplicateParities(survey, compute, ones, &without, nullptr, &error));
+    ones[i] = 1.0;
+    for (int r = 0; r < survey.num_regions(); ++r) {
+      const double change = without(0, r) - base(0, r);
+      if (std::abs(change) > std::abs(largest(r))) largest(r) = change;
+    }
+  }
+  for (int r = 0; r < survey.num_regions(); ++r) {
+    PARITAS_EXPECT_CLOSE(result.loo_item_log_change(0, r), largest(r), 1e-9);
+    EXPECT_GE(result.loo_item(0, r), 0);
+  }
+  EXPECT_EQ(summary.num_items_dropped, survey.num_items());
+  EXPECT_EQ(summary.num_headings_dropped, survey.num_headings());
+}
+
+TEST(LeaveOneOut, JackknifeOfACompleteHeadingIsTheStandardErrorOfAMean) {
+  // On a complete table CPD gives a_r = mean_i (y_ri - mean_s y_si), a mean
+  // over items; the delete-one jackknife of a mean equals s / sqrt(n)
+  // exactly (Efron and Tibshirani 1993, section 11.2).
+  synthetic::SyntheticOptions options = SmallOptions(7);
+  options.coverage = 1.0;
+  const Survey survey = LoadSynthetic(options, "jackknife");
+  SensitivityResult result;
+  SensitivitySummary summary;
+  ASSERT_TRUE(RunSensitivity(survey, ComputeOptions(), OnlyParts(false, true, false, false), &result, &summary));
+  const int node = survey.classification.FindNode(survey.heading_codes[2]);
+  const HeadingRange& range = survey.heading_range[2];
+  const int n = range.num_items();
+  Eigen::MatrixXd y(survey.num_regions(), n);
+  for (int64_t k = range.cell_begin; k < range.cell_end; ++k) {
+    y(survey.cells.region[k], survey.cells.item[k] - range.item_begin) = survey.cells.log_price[k];
+  }
+  const Eigen::RowVectorXd item_mean = y.colwise().mean();
+  for (int r = 0; r < survey.num_regions(); ++r) {
+    const Eigen::RowVectorXd d = y.row(r) - item_mean;
+    const double sd = std::sqrt((d.array() - d.mean()).square().sum() / (n - 1));
+    PARITAS_EXPECT_CLOSE(result.jackknife_log_se(node, r), sd / std::sqrt(n), 1e-9);
+  }
+}
+
+TEST(Bootstrap, SameSeedGivesIdenticalOutputWhateverTheThreads) {
+  const Survey survey = LoadSynthetic(SmallOptions(11), "boot-seed");
+  SensitivityOptions options = OnlyParts(true, false, false, false);
+  options.replicates = 40;
+  SensitivityResult a, b, c;
+  SensitivitySummary summary;
+  options.num_threads = 1;
+  ASSERT_TRUE(RunSensitivity(survey, ComputeOptions(), options, &a, &summary));
+  options.num_threads = 2;
+  ASSERT_TRUE(RunSensitivity(survey, ComputeOptions(), options, &b, &summary));
+  options.seed = 2;
+  ASSERT_TRUE(RunSensitivity(survey, ComputeOptions(), options, &c, &summary));
+  EXPECT_EQ(BootstrapCsv(survey, a), BootstrapCsv(survey, b));
+  EXPECT_NE(BootstrapCsv(survey, a), BootstrapCsv(survey, c));
+  const std::string csv = BootstrapCsv(survey, a);
+  EXPECT_EQ(csv.substr(0, csv.find('\n')),
+            "node,region,parity,median,lower,upper,log_se,rank_low,rank_high,num_replicates");
+  for (int r = 0; r < survey.num_regions(); ++r) {
+    EXPECT_LE(a.boot_lower(0, r), a.boot_median(0, r));
+    EXPECT_LE(a.boot_median(0, r), a.boot_upper(0, r));
+    EXPECT_LE(a.boot_rank_low(0, r), a.rank(0, r));
+    EXPECT_GE(a.boot_rank_high(0, r), a.rank(0, r));
+    EXPECT_EQ(a.boot_num_replicates(0, r), 40);
+  }
+}
+
+TEST(Bootstrap, IntervalsContainTheTrueHeadingParityInAbout95PercentOfRegions) {
+  // Truth: the synthetic heading level ln P_r(h) normalised to mean 0 over
+  // regions, as the estimates are. Item effects are fixed in the model, so
+  // the estimate's error is the quote noise averaged over items, which
+  // resampling items reproduces. 40 regions x 8 headings = 320 checks; the
+  // percentile interval of a mean of 30 items undercovers by a little
+  // (about sqrt(29/30) in width), so 88-99 % is accepted.
+  synthetic::SyntheticOptions options;
+  options.num_regions = 40;
+  options.num_headings = 8;
+  options.items_per_heading = 30;
+  options.coverage = 1.0;
+  options.quotes_per_cell = 1;
+  options.noise_sd = 0.1;
+  options.num_groups = 2;
+  options.seed = 17;
+  const synthetic::SyntheticSurvey truth = synthetic::Generate(options);
+  const Survey survey = LoadFolder(WriteSynthetic(truth, "boot-truth"));
+  SensitivityOptions sensitivity = OnlyParts(true, false, false, false);
+  sensitivity.replicates = 300;
+  SensitivityResult result;
+  SensitivitySummary summary;
+  ASSERT_TRUE(RunSensitivity(survey, ComputeOptions(), sensitivity, &result, &summary));
+  int inside = 0, total = 0;
+  for (int h = 0; h < options.num_headings; ++h) {
+    const int node = survey.classification.FindNode(truth.headings[h]);
+    const int sh = static_cast<int>(std::find(survey.heading_codes.begin(), survey.heading_codes.end(),
+                                              truth.headings[h]) - survey.heading_codes.begin());
+    ASSERT_LT(sh, survey.num_headings());
+    double mean = 0.0;
+    for (int r = 0; r < options.num_regions; ++r) mean += truth.true_log_level[r * options.num_headings + h];
+    mean /= options.num_regions;
+    for (int r = 0; r < options.num_regions; ++r) {
+      const int sr = survey.regions.Find(truth.regions[r]);
+      const double parity = 100.0 * std::exp(truth.true_log_level[r * options.num_headings + h] - mean);
+      inside += result.boot_lower(node, sr) <= parity && parity <= result.boot_upper(node, sr);
+      ++total;
+    }
+  }
+  const double share = static_cast<double>(inside) / total;
+  EXPECT_GE(share, 0.88) << inside << " of " << total;
+  EXPECT_LE(share, 0.99) << inside << " of " << total;
+}
+
+TEST(Bootstrap, IntervalsWidenWhenFewerItemsArePriced) {
+  // The same model with 32 and with 8 items per heading: the standard error
+  // of a mean over items grows about as 1 / sqrt(items), so the median
+  // interval width should roughly double.
+  auto median_width = [](int items, const std::string& name) {
+    synthetic::SyntheticOptions options = SmallOptions(21);
+    options.items_per_heading = items;
+    const Survey survey = LoadSynthetic(options, name);
+    SensitivityOptions sensitivity = OnlyParts(true, false, false, false);
+    sensitivity.replicates = 100;
+    SensitivityResult result;
+    SensitivitySummary summary;
+    EXPECT_TRUE(RunSensitivity(survey, ComputeOptions(), sensitivity, &result, &summary));
+    std::vector<double> widths;
+    for (int r = 0; r < survey.num_regions(); ++r) {
+      widths.push_back(std::log(result.boot_upper(0, r) / result.boot_lower(0, r)));
+    }
+    std::sort(widths.begin(), widths.end());
+    return PercentileType7(widths, 0.5);
+  };
+  const double many = median_width(32, "boot-many"), few = median_width(8, "boot-few");
+  EXPECT_GT(few, 1.5 * many);
+}
+
+TEST(Bootstrap, ReplicatesThatUnlinkAHeadingAreCountedAndKeepTheLargestGroup) {
+  // Three items per heading at 40 % coverage: a resample without the anchor
+  // often leaves regions with no item in common.
+  synthetic::SyntheticOptions options = SmallOptions(9);
+  options.items_per_heading = 3;
+  options.coverage = 0.4;
+  const Survey survey = LoadSynthetic(options, "boot-unlinked");
+  SensitivityOptions sensitivity = OnlyParts(true, false, false, false);
+  sensitivity.replicates = 60;
+  SensitivityResult result;
+  SensitivitySummary summary;
+  ASSERT_TRUE(RunSensitivity(survey, ComputeOptions(), sensitivity, &result, &summary)) << summary.message;
+  EXPECT_GT(summary.num_replicates_unlinked, 0);
+  EXPECT_GT(summary.num_replicates_region_lost, 0);
+  int fewer = 0;
+  for (int n = 0; n < result.boot_num_replicates.rows(); ++n) {
+    for (int r = 0; r < survey.num_regions(); ++r) fewer += result.boot_num_replicates(n, r) < 60;
+  }
+  EXPECT_GT(fewer, 0);
+  EXPECT_TRUE(result.boot_median.row(0).array().isFinite().all());
+}
+
+TEST(CoverageCurve, SpreadGrowsAsCoverageFalls) {
+  synthetic::SyntheticOptions options = SmallOptions(13);
+  options.items_per_heading = 20;
+  const Survey survey = LoadSynthetic(options, "coverage");
+  SensitivityOptions sensitivity = OnlyParts(false, false, true, false);
+  sensitivity.coverage_repetitions = 30;
+  SensitivityResult result;
+  SensitivitySummary summary;
+  ASSERT_TRUE(RunSensitivity(survey, ComputeOptions(), sensitivity, &result, &summary));
+  ASSERT_EQ(result.coverage.size(), 4u);
+  EXPECT_EQ(summary.num_coverage_runs, 120);
+  double previous = 0.0;
+  for (const CoverageLevel& level : result.coverage) {
+    std::vector<double> sd;
+    for (int r = 0; r < survey.num_regions(); ++r) sd.push_back(level.log_sd(0, r));
+    std::sort(sd.begin(), sd.end());
+    const double median = PercentileType7(sd, 0.5);
+    EXPECT_GT(median, previous) << "coverage " << level.coverage;
+    previous = median;
+  }
+}
+
+TEST(MethodSpread, RunsEveryCombinationAndMeasuresLogMaxOverMin) {
+  const Survey survey = LoadSynthetic(SmallOptions(15), "methods");
+  SensitivityResult result;
+  SensitivitySummary summary;
+  ASSERT_TRUE(RunSensitivity(survey, ComputeOptions(), OnlyParts(false, false, false, true), &result, &summary));
+  ASSERT_EQ(result.methods.size(), 6u);
+  EXPECT_EQ(result.methods[0].name, "cpd/geks-fisher");
+  const std::string csv = MethodSpreadCsv(survey, result);
+  EXPECT_EQ(csv.substr(0, csv.find('\n')),
+            "node,region,cpd/geks-fisher,cpd/geks-tornqvist,jevons-geks/geks-fisher,jevons-geks/geks-tornqvist,"
+            "robust-cpd/geks-fisher,robust-cpd/geks-tornqvist,spread");
+  for (int r = 0; r < survey.num_regions(); ++r) {
+    PARITAS_EXPECT_CLOSE(result.methods[0].parity(0, r), result.parity(0, r), 1e-12);
+    double lo = 1e300, hi = 0.0;
+    for (const MethodRun& run : result.methods) {
+      lo = std::min(lo, run.parity(0, r));
+      hi = std::max(hi, run.parity(0, r));
+    }
+    PARITAS_EXPECT_CLOSE(result.method_log_spread(0, r), std::log(hi / lo), 1e-12);
+  }
+}
+
+TEST(SensitivityJob, WritesEveryFileAndARunRecordSection) {
+  const std::string folder = WriteSynthetic(synthetic::Generate(SmallOptions(19)), "job");
+  RunConfig config;
+  std::string error;
+  ASSERT_TRUE(LoadRunConfig(folder + "/config.yaml", &config, &error)) << error;
+  config.output = folder + "/out";
+  SensitivityOptions options;
+  options.replicates = 20;
+  options.coverage_repetitions = 3;
+  SensitivityJobSummary summary;
+  ASSERT_EQ(RunSensitivityJob(config, options, &summary), 0) << summary.message;
+  for (const char* name : {"bootstrap.csv", "leave_one_out.csv", "coverage_curve.csv", "method_spread.csv"}) {
+    EXPECT_TRUE(std::filesystem::exists(folder + "/out/sensitivity/" + name)) << name;
+  }
+  const std::string record = ReadTextFile(folder + "/out/sensitivity/run.json");
+  EXPECT_NE(record.find("\"command\": \"sensitivity\""), std::string::npos);
+  EXPECT_NE(record.find("\"num_replicates\": 20"), std::string::npos);
+  EXPECT_NE(record.find("\"coverage_curve\""), std::string::npos);
+  const std::string report = summary.FullReport(options);
+  EXPECT_NE(report.find("95 % interval"), std::string::npos);
+  EXPECT_NE(report.find("coverage curve"), std::string::npos);
+}
+
+TEST(SensitivityCommand, BadOptionValuesExitWithOneAndAClearMessage) {
+  const std::string folder = WriteSynthetic(synthetic::Generate(SmallOptions(23)), "cli");
+  const std::string config = folder + "/config.yaml --output " + folder + "/out";
+  const std::pair<std::string, std::string> cases[] = {
+      {"--replicates 0", "paritas: error: --replicates must be a whole number from 2 to 100000, found '0'\n"},
+      {"--replicates 2.5", "paritas: error: --replicates must be a whole number from 2 to 100000, found '2.5'\n"},
+      {"--seed -1", "paritas: error: --seed must be a whole number from 0 to 9007199254740992, found '-1'\n"},
+      {"--level 100",
+       "paritas: error: --level must be a percentage above 0 and below 100 (e.g. 95) or a share below 1 (e.g. "
+       "0.95), found '100'\n"},
+      {"--coverage 90,abc",
+       "paritas: error: --coverage must list percentages of items kept, each above 0 and at most 100 (e.g. "
+       "90,75,50,25), found 'abc'\n"},
+      {"--coverage 50,50", "paritas: error: coverage level 50.0000 % is given twice\n"},
+      {"--repetitions 1", "paritas: error: --repetitions must be a whole number from 2 to 10000, found '1'\n"},
+      {"--parts boot",
+       "paritas: error: --parts: part 'boot' is not one of: bootstrap, leave-one-out, coverage, methods\n"},
+      {"--elementary cdp",
+       "paritas: error: --elementary 'cdp' is not one of: cpd, jevons-geks, robust-cpd\n"},
+  };
+  for (const auto& [arguments, message] : cases) {
+    std::string out, err;
+    EXPECT_EQ(RunCli("sensitivity " + config + " " + arguments, &out, &err), 1) << arguments;
+    EXPECT_EQ(err, message) << arguments;
+  }
+}
+
+TEST(SensitivityCommand, RunsAndPrintsTheRootTable) {
+  const std::string folder = WriteSynthetic(synthetic::Generate(SmallOptions(29)), "cli-ok");
+  std::string out, err;
+  ASSERT_EQ(RunCli("sensitivity " + folder + "/config.yaml --output " + folder +
+                       "/out --replicates 20 --repetitions 3 --level 90 --coverage 80,40 --seed 4",
+                   &out, &err),
+            0)
+      << err;
+  EXPECT_NE(out.find("90 % interval"), std::string::npos) << out;
+  // Four tables, the run record and the report redrawn with the intervals.
+  EXPECT_NE(out.find("wrote 6 files"), std::string::npos) << out;
+  const std::string report = ReadTextFile(folder + "/out/report.html");
+  EXPECT_NE(report.find("id=\"sensitivity\""), std::string::npos);
+  EXPECT_NE(report.find("id=\"coverage-curve\""), std::string::npos);
+  EXPECT_EQ(err, "");  // no progress bar when stderr is not a terminal
+  const std::string curve = ReadTextFile(folder + "/out/sensitivity/coverage_curve.csv");
+  EXPECT_NE(curve.find(",80.00,3,"), std::string::npos);
+}
+
+}  // namespace
+}  // namespace paritas
