@@ -42,7 +42,8 @@ int main(int argc, char** argv) {
   std::filesystem::remove_all(folder);
 
   paritas::ComputeOptions compute = paritas::ComputeOptions::FromConfig(config);
-  if (!paritas::FromString(elementary, &compute.elementary.method)) {
+  compute.elementary.method = elementary;
+  if (paritas::FindElementaryMethod(elementary) == nullptr) {
     std::fprintf(stderr, "unknown elementary method '%s'\n", elementary.c_str());
     return 1;
   }

@@ -1,6 +1,6 @@
 // Aggregates are computed from the basic headings directly rather than from
-// child aggregates, so every node's parities are GEKS results of their own
-// and do not depend on how the tree is nested above the headings.
+// child aggregates, so every node's parities are results of their own and do
+// not depend on how the tree is nested above the headings.
 #include "paritas/aggregation/aggregation.h"
 
 #include <cmath>
@@ -11,15 +11,21 @@ BilateralMatrices NodeBilaterals(const NodeArrays& arrays, const BilateralOption
   return AllPairsWeighted(arrays.price, arrays.expenditure, options);
 }
 
-BilateralOptions ChosenIndexOnly(AggregationMethod method) {
-  return method == AggregationMethod::kGeksFisher ? BilateralOptions::OnlyFisher()
-                                                  : BilateralOptions::OnlyTornqvist();
+AggregateParities GeksOverIndex(const Eigen::MatrixXd& index) {
+  AggregateParities out;
+  const GeksResult geks = Geks(index.array().log().matrix());
+  out.log_parity = geks.log_parity;
+  out.identified = geks.identified;
+  out.groups = geks.groups;
+  out.complete = geks.complete;
+  out.rms_log_residual = geks.rms_log_residual;
+  return out;
 }
 
 AggregateParities AggregateFromBilaterals(const NodeArrays& arrays,
                                           const BilateralMatrices& bilaterals,
-                                          AggregationMethod method) {
-  AggregateParities out;
+                                          const AggregationMethod& method) {
+  AggregateParities out = method.Aggregate(arrays, bilaterals);
   const int num_regions = static_cast<int>(arrays.price.rows());
   out.num_headings = Eigen::VectorXi::Zero(num_regions);
   for (int r = 0; r < num_regions; ++r) {
@@ -28,14 +34,6 @@ AggregateParities AggregateFromBilaterals(const NodeArrays& arrays,
       if (std::isfinite(p) && p > 0 && std::isfinite(e) && e > 0) ++out.num_headings(r);
     }
   }
-  const Eigen::MatrixXd& chosen =
-      method == AggregationMethod::kGeksFisher ? bilaterals.fisher : bilaterals.tornqvist;
-  const GeksResult geks = Geks(chosen.array().log().matrix());
-  out.log_parity = geks.log_parity;
-  out.identified = geks.identified;
-  out.groups = geks.groups;
-  out.complete = geks.complete;
-  out.rms_log_residual = geks.rms_log_residual;
   return out;
 }
 

@@ -27,15 +27,23 @@ bool LoadConfigWithOverrides(const std::string& path, const Overrides& overrides
   }
   if (overrides.output) config->output = *overrides.output;
   if (overrides.reference) config->reference = Reference::FromString(*overrides.reference);
-  if (overrides.elementary && !FromString(*overrides.elementary, &config->elementary)) {
-    PrintError("--elementary '" + *overrides.elementary + "' is not one of: " +
-               JoinNames(ElementaryMethodNames()));
-    return false;
+  if (overrides.elementary) {
+    const ElementaryMethod* method = FindElementaryMethod(*overrides.elementary);
+    if (method == nullptr) {
+      PrintError("--elementary '" + *overrides.elementary + "' is not one of: " +
+                 JoinNames(ElementaryMethodNames()));
+      return false;
+    }
+    config->elementary = method->Name();
   }
-  if (overrides.aggregation && !FromString(*overrides.aggregation, &config->aggregation)) {
-    PrintError("--aggregation '" + *overrides.aggregation + "' is not one of: " +
-               JoinNames(AggregationMethodNames()));
-    return false;
+  if (overrides.aggregation) {
+    const AggregationMethod* method = FindAggregationMethod(*overrides.aggregation);
+    if (method == nullptr) {
+      PrintError("--aggregation '" + *overrides.aggregation + "' is not one of: " +
+                 JoinNames(AggregationMethodNames()));
+      return false;
+    }
+    config->aggregation = method->Name();
   }
   if (overrides.invalid_rows && !FromString(*overrides.invalid_rows, &config->invalid_rows)) {
     PrintError("--invalid-rows '" + *overrides.invalid_rows + "' is not one of: " +

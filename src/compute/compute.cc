@@ -76,6 +76,10 @@ std::string RegionList(const Survey& survey, const std::vector<int>& regions, si
 
 bool ComputeOptions::IsValid(std::string* error) const {
   if (!elementary.IsValid(error)) return false;
+  if (FindAggregationMethod(aggregation) == nullptr) {
+    *error = "aggregation method '" + aggregation + "' is not one of: " + JoinNames(AggregationMethodNames());
+    return false;
+  }
   if (reference.kind == ReferenceKind::kRegion && reference.region.empty()) {
     *error = "reference must be mean, weighted-mean or a region code";
     return false;
@@ -103,50 +107,6 @@ std::string ComputeSummary::BriefReport() const {
          std::to_string(num_headings_given) + " basic headings and " + std::to_string(num_aggregates) +
          " aggregates; " + std::to_string(warnings.size()) + " warning" +
          (warnings.size() == 1 ? "" : "s");
-}
-
-std::string ReferenceWeights(const Reference& reference, int reference_region,
-                             const Eigen::VectorXd& log_parity, const Eigen::VectorXd& expenditure,
-                             std::vector<double>* weights) {
-  const int n = static_cast<int>(log_parity.size());
-  weights->assign(n, 0.0);
-  double total = 0.0;
-  switch (reference.kind) {
-    case ReferenceKind::kRegion: {
-      const int r = reference_region;
-      if (r >= 0 && std::isfinite(log_parity(r))) {
-        (*weights)[r] = 1.0;
-        return reference.region;
-      }
-      for (int k = 0; k < n; ++k) (*weights)[k] = std::isfinite(log_parity(k)) ? 1.0 : 0.0;
-      return "mean (reference region absent)";
-    }
-    case ReferenceKind::kWeightedMean:
-      for (int k = 0; k < n; ++k) {
-        const double e = expenditure(k);
-        if (std::isfinite(log_parity(k)) && std::isfinite(e) && e > 0) {
-          (*weights)[k] = e;
-          total += e;
-        }
-      }
-      if (total > 0) return "weighted-mean";
-      for (int k = 0; k < n; ++k) (*weights)[k] = std::isfinite(log_parity(k)) ? 1.0 : 0.0;
-      return "mean (no expenditure to weight by)";
-    case ReferenceKind::kMean:
-      break;
-  }
-  for (int k = 0; k < n; ++k) (*weights)[k] = std::isfinite(log_parity(k)) ? 1.0 : 0.0;
-  return "mean";
-}
-
-void NormaliseLogParities(const std::vector<double>& weights, Eigen::VectorXd* log_parity) {
-  double sum = 0.0, total = 0.0;
-  for (int r = 0; r < log_parity->size(); ++r) {
-    if (!std::isfinite((*log_parity)(r)) || weights[r] <= 0) continue;
-    sum += weights[r] * (*log_parity)(r);
-    total += weights[r];
-  }
-  if (total > 0) *log_parity = log_parity->array() - sum / total;
 }
 
 Eigen::VectorXd NodeExpenditure(const Survey& survey, int node) {
@@ -293,14 +253,15 @@ bool ComputeParities(const Survey& survey, const ComputeOptions& options, Parity
     return tree.nodes()[a].headings.size() > tree.nodes()[b].headings.size();
   });
   std::vector<AggregateParities> aggregate_of(tree.nodes().size());
+  const AggregationMethod& method = *FindAggregationMethod(options.aggregation);
   const int num_aggregates = static_cast<int>(aggregates.size());
 #pragma omp parallel for schedule(dynamic, 1) num_threads(threads) if (num_aggregates > 1)
   for (int k = 0; k < num_aggregates; ++k) {
     const int index = aggregates[k];
     const NodeArrays arrays = NodeInputArrays(survey, *result, index);
     BilateralMatrices bilaterals =
-        NodeBilaterals(arrays, keep[index] ? BilateralOptions() : ChosenIndexOnly(options.aggregation));
-    aggregate_of[index] = AggregateFromBilaterals(arrays, bilaterals, options.aggregation);
+        NodeBilaterals(arrays, keep[index] ? BilateralOptions() : method.BilateralsNeeded());
+    aggregate_of[index] = AggregateFromBilaterals(arrays, bilaterals, method);
     if (keep[index]) result->bilaterals[index] = std::move(bilaterals);
   }
   for (int index = 0; index < static_cast<int>(tree.nodes().size()); ++index) {

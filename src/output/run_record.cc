@@ -18,8 +18,8 @@ Json ConfigJson(const RunConfig& config) {
               {"survey", survey},
               {"classification", config.has_classification ? config.classification_source : "(all headings under 'all')"},
               {"reference", config.reference.ToString()},
-              {"elementary", ToString(config.elementary)},
-              {"aggregation", ToString(config.aggregation)},
+              {"elementary", config.elementary},
+              {"aggregation", config.aggregation},
               {"invalid_rows", ToString(config.invalid_rows)},
               {"output", config.output},
               {"matrices", config.matrices},
@@ -69,8 +69,8 @@ std::string RunRecordJson(const RunRecord& record) {
   }
   if (record.config != nullptr) {
     out["methods"] = {{"cell_price", "geometric mean of the quotes"},
-                      {"elementary", ToString(record.config->elementary)},
-                      {"aggregation", ToString(record.config->aggregation)},
+                      {"elementary", record.config->elementary},
+                      {"aggregation", record.config->aggregation},
                       {"reference", record.config->reference.ToString()}};
   }
   if (record.compute != nullptr) {

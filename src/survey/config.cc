@@ -11,6 +11,8 @@
 #include "survey/classification_yaml.h"
 #include "paritas/base/csv.h"
 #include "paritas/base/text.h"
+#include "paritas/aggregation/aggregation_method.h"
+#include "paritas/elementary/elementary_method.h"
 
 namespace paritas {
 namespace {
@@ -23,15 +25,6 @@ struct EnumName {
   const char* name;
 };
 
-constexpr EnumName<ElementaryMethod> kElementaryNames[] = {
-    {ElementaryMethod::kCpd, "cpd"},
-    {ElementaryMethod::kJevonsGeks, "jevons-geks"},
-    {ElementaryMethod::kRobustCpd, "robust-cpd"},
-};
-constexpr EnumName<AggregationMethod> kAggregationNames[] = {
-    {AggregationMethod::kGeksFisher, "geks-fisher"},
-    {AggregationMethod::kGeksTornqvist, "geks-tornqvist"},
-};
 constexpr EnumName<InvalidRowPolicy> kPolicyNames[] = {
     {InvalidRowPolicy::kStop, "stop"},
     {InvalidRowPolicy::kSkip, "skip"},
@@ -168,6 +161,21 @@ class ConfigParser {
     return true;
   }
 
+  // A method name, checked against its registry and stored as the registry spells it.
+  template <typename Find>
+  bool MethodValue(const YAML::Node& node, const std::string& key, std::string* value, Find find,
+                   const std::vector<std::string>& names, std::string* error) {
+    std::string text;
+    if (!Scalar(node, key, &text, error)) return false;
+    const auto* method = find(text);
+    if (method == nullptr) {
+      *error = Where(node) + key + " '" + text + "' is not one of: " + JoinNames(names);
+      return false;
+    }
+    *value = std::string(method->Name());
+    return true;
+  }
+
   bool ParseRoot(const YAML::Node& root, std::string* error) {
     if (!root.IsMap()) {
       *error = path_ + ": the configuration must be a mapping of keys (survey, classification, ...)";
@@ -210,10 +218,13 @@ class ConfigParser {
       config_->reference = Reference::FromString(text);
     }
     if (const YAML::Node node = root["elementary"]) {
-      if (!EnumValue(node, "elementary", &config_->elementary, ElementaryMethodNames(), error)) return false;
+      if (!MethodValue(node, "elementary", &config_->elementary, FindElementaryMethod, ElementaryMethodNames(),
+                       error))
+        return false;
     }
     if (const YAML::Node node = root["aggregation"]) {
-      if (!EnumValue(node, "aggregation", &config_->aggregation, AggregationMethodNames(), error))
+      if (!MethodValue(node, "aggregation", &config_->aggregation, FindAggregationMethod,
+                       AggregationMethodNames(), error))
         return false;
     }
     if (const YAML::Node node = root["invalid_rows"]) {
@@ -331,20 +342,10 @@ Reference Reference::FromString(const std::string& text) {
   return reference;
 }
 
-std::string ToString(ElementaryMethod method) { return NameOf(kElementaryNames, method); }
-std::string ToString(AggregationMethod method) { return NameOf(kAggregationNames, method); }
 std::string ToString(InvalidRowPolicy policy) { return NameOf(kPolicyNames, policy); }
-bool FromString(const std::string& text, ElementaryMethod* method) {
-  return ValueOf(kElementaryNames, text, method);
-}
-bool FromString(const std::string& text, AggregationMethod* method) {
-  return ValueOf(kAggregationNames, text, method);
-}
 bool FromString(const std::string& text, InvalidRowPolicy* policy) {
   return ValueOf(kPolicyNames, text, policy);
 }
-std::vector<std::string> ElementaryMethodNames() { return NamesOf(kElementaryNames); }
-std::vector<std::string> AggregationMethodNames() { return NamesOf(kAggregationNames); }
 std::vector<std::string> InvalidRowPolicyNames() { return NamesOf(kPolicyNames); }
 
 bool RunConfig::IsValid(std::string* error) const {
@@ -358,6 +359,14 @@ bool RunConfig::IsValid(std::string* error) const {
   }
   if (reference.kind == ReferenceKind::kRegion && reference.region.empty()) {
     *error = "reference must be mean, weighted-mean or a region code";
+    return false;
+  }
+  if (FindElementaryMethod(elementary) == nullptr) {
+    *error = "elementary '" + elementary + "' is not one of: " + JoinNames(ElementaryMethodNames());
+    return false;
+  }
+  if (FindAggregationMethod(aggregation) == nullptr) {
+    *error = "aggregation '" + aggregation + "' is not one of: " + JoinNames(AggregationMethodNames());
     return false;
   }
   if (!(representative_weight > 0) || !std::isfinite(representative_weight)) {

@@ -84,15 +84,10 @@ struct Chain {
   int num_nodes = 0;
   int num_regions = 0;
   int num_headings = 0;
-  bool robust = false;
-  bool jevons = false;
   // Items with at least one cell, per heading (survey item indices).
   std::vector<std::vector<int>> heading_items;
   // Aggregate nodes and the nodes (leaf included) that contain each heading.
   std::vector<std::vector<int>> heading_nodes;
-  // jevons-geks: the heading's dense regions x items arrays.
-  std::vector<Eigen::MatrixXd> log_price;
-  std::vector<Eigen::MatrixXd> present;
   int reference_region = -1;
 };
 
@@ -105,8 +100,6 @@ Chain MakeChain(const Survey& survey, const ComputeOptions& options) {
   chain.num_nodes = static_cast<int>(survey.classification.nodes().size());
   chain.num_regions = survey.num_regions();
   chain.num_headings = survey.num_headings();
-  chain.robust = options.elementary.method == ElementaryMethod::kRobustCpd;
-  chain.jevons = options.elementary.method == ElementaryMethod::kJevonsGeks;
   chain.heading_items.resize(chain.num_headings);
   chain.heading_nodes.resize(chain.num_headings);
   for (int h = 0; h < chain.num_headings; ++h) {
@@ -121,26 +114,11 @@ Chain MakeChain(const Survey& survey, const ComputeOptions& options) {
   for (int n = 0; n < chain.num_nodes; ++n) {
     for (int h : nodes[n].headings) chain.heading_nodes[h].push_back(n);
   }
-  if (chain.jevons) {
-    chain.log_price.resize(chain.num_headings);
-    chain.present.resize(chain.num_headings);
-    for (int h = 0; h < chain.num_headings; ++h) {
-      HeadingPriceArrays(survey, h, &chain.log_price[h], &chain.present[h]);
-    }
-  }
   if (options.reference.kind == ReferenceKind::kRegion) {
     chain.reference_region = survey.regions.Find(options.reference.region);
   }
   return chain;
 }
-
-// Per-thread buffers of a heading fit, reused across headings.
-struct Scratch {
-  std::vector<int> region;
-  std::vector<int> item;
-  std::vector<double> log_price;
-  std::vector<double> weight;
-};
 
 // Keeps, among `groups` (largest first), only the first group's regions.
 void KeepLargestGroup(const std::vector<std::vector<int>>& groups, Eigen::VectorXd* log_parity) {
@@ -152,90 +130,21 @@ void KeepLargestGroup(const std::vector<std::vector<int>>& groups, Eigen::Vector
 }
 
 // ln parity of every region in heading `h` with item weights
-// `item_weight` (survey item index -> multiplicity), mean 0 over the regions
-// present (the node stage normalises again). Sets *unlinked when only the
-// largest linked group could be kept.
+// `item_weight` (survey item index -> multiplicity), as the elementary method
+// gives it (the node stage normalises). Sets *unlinked when only the largest
+// linked group could be kept.
 Eigen::VectorXd HeadingLogParity(const Chain& chain, int h, const std::vector<double>& item_weight,
-                                 Scratch* scratch, bool* unlinked) {
-  const Survey& survey = *chain.survey;
-  const HeadingRange& range = survey.heading_range[h];
-  Eigen::VectorXd log_parity = Eigen::VectorXd::Constant(chain.num_regions, kNaN);
-  *unlinked = false;
-  if (range.num_cells() == 0) return log_parity;
-
-  if (chain.jevons) {
-    Eigen::VectorXd weight(range.num_items());
-    for (int i = 0; i < range.num_items(); ++i) weight(i) = item_weight[range.item_begin + i];
-    const Eigen::MatrixXd jevons =
-        AllPairsJevonsWeighted(chain.log_price[h], chain.present[h], weight);
-    const GeksResult geks = Geks(jevons.array().log().matrix());
-    if (geks.groups.empty()) return log_parity;
-    log_parity = geks.log_parity;
-    if (!geks.identified) {
-      KeepLargestGroup(geks.groups, &log_parity);
-      *unlinked = true;
-    }
-    return log_parity;
-  }
-
-  // CPD: a multiplicity m is a cell weight m for least squares (exactly the
-  // same normal equations as m copies); a robust loss needs the copies
-  // themselves, since rho(m e^2) differs from m rho(e^2).
-  const double representative_weight = chain.options.elementary.representative_weight;
-  scratch->region.clear();
-  scratch->item.clear();
-  scratch->log_price.clear();
-  scratch->weight.clear();
-  for (int64_t k = range.cell_begin; k < range.cell_end; ++k) {
-    const double m = item_weight[survey.cells.item[k]];
-    if (!(m > 0.0)) continue;
-    const double base = survey.cells.representative[k] ? representative_weight : 1.0;
-    const int copies = chain.robust ? static_cast<int>(std::lround(m)) : 1;
-    for (int c = 0; c < copies; ++c) {
-      scratch->region.push_back(survey.cells.region[k]);
-      scratch->item.push_back(survey.cells.item[k] - range.item_begin);
-      scratch->log_price.push_back(survey.cells.log_price[k]);
-      scratch->weight.push_back(chain.robust ? base : base * m);
-    }
-  }
-  if (scratch->region.empty()) return log_parity;
-  CpdOptions cpd;
-  cpd.loss = chain.robust ? chain.options.elementary.robust_loss : CpdLoss::kLeastSquares;
-  cpd.robust_scale = chain.options.elementary.robust_scale;
-  cpd.compute_standard_errors = false;
-  cpd.compute_robust_standard_errors = false;
-  auto fit = [&]() {
-    CpdData data;
-    data.num_regions = chain.num_regions;
-    data.num_items = range.num_items();
-    data.region = scratch->region;
-    data.item = scratch->item;
-    data.log_price = scratch->log_price;
-    data.weight = scratch->weight;
-    return FitCpd(data, cpd);
-  };
-  CpdResult result = fit();
-  if (!result.identified && result.groups.size() > 1) {
-    *unlinked = true;
-    std::vector<uint8_t> keep(chain.num_regions, 0);
-    for (int r : result.groups.front()) keep[r] = 1;
-    size_t kept = 0;
-    for (size_t k = 0; k < scratch->region.size(); ++k) {
-      if (!keep[scratch->region[k]]) continue;
-      scratch->region[kept] = scratch->region[k];
-      scratch->item[kept] = scratch->item[k];
-      scratch->log_price[kept] = scratch->log_price[k];
-      scratch->weight[kept] = scratch->weight[k];
-      ++kept;
-    }
-    scratch->region.resize(kept);
-    scratch->item.resize(kept);
-    scratch->log_price.resize(kept);
-    scratch->weight.resize(kept);
-    result = fit();
-  }
-  if (result.identified) log_parity = result.log_parity;
-  return log_parity;
+                                 bool* unlinked) {
+  HeadingInput input;
+  input.survey = chain.survey;
+  input.heading = h;
+  input.options = &chain.options.elementary;
+  input.item_weight = item_weight;
+  input.keep_largest_group = true;
+  input.normalise = false;
+  const HeadingParities heading = ComputeHeadingParities(input);
+  *unlinked = heading.kept_largest_group;
+  return heading.log_parity;
 }
 
 // Normalises a node as the compute stage does.
@@ -284,14 +193,12 @@ int ComputeNodes(const Chain& chain, const Eigen::MatrixXd& node_expenditure,
         arrays.expenditure.col(k) = survey.expenditure.col(h);
       }
       // Only the chosen index, with the same entries the compute stage gives.
-      const AggregationMethod method = chain.options.aggregation;
-      const BilateralMatrices bilaterals = NodeBilaterals(arrays, ChosenIndexOnly(method));
-      const Eigen::MatrixXd& chosen =
-          method == AggregationMethod::kGeksFisher ? bilaterals.fisher : bilaterals.tornqvist;
-      const GeksResult geks = Geks(chosen.array().log().matrix());
-      log_parity = geks.log_parity;
-      if (!geks.identified && !geks.groups.empty()) {
-        KeepLargestGroup(geks.groups, &log_parity);
+      const AggregationMethod& method = *FindAggregationMethod(chain.options.aggregation);
+      const AggregateParities aggregate =
+          AggregateFromBilaterals(arrays, NodeBilaterals(arrays, method.BilateralsNeeded()), method);
+      log_parity = aggregate.log_parity;
+      if (!aggregate.identified && !aggregate.groups.empty()) {
+        KeepLargestGroup(aggregate.groups, &log_parity);
         ++num_unlinked;
       }
     }
@@ -307,14 +214,14 @@ struct ReplicateOutcome {
 };
 
 ReplicateOutcome RunChain(const Chain& chain, const Eigen::MatrixXd& node_expenditure,
-                          const std::vector<double>& item_weight, Scratch* scratch,
+                          const std::vector<double>& item_weight,
                           Eigen::MatrixXd* heading_log_parity, Eigen::MatrixXd* node_log_parity) {
   ReplicateOutcome outcome;
   heading_log_parity->resize(chain.num_regions, chain.num_headings);
   node_log_parity->resize(chain.num_nodes, chain.num_regions);
   for (int h = 0; h < chain.num_headings; ++h) {
     bool unlinked = false;
-    heading_log_parity->col(h) = HeadingLogParity(chain, h, item_weight, scratch, &unlinked);
+    heading_log_parity->col(h) = HeadingLogParity(chain, h, item_weight, &unlinked);
     outcome.num_unlinked += unlinked ? 1 : 0;
   }
   outcome.num_unlinked += ComputeNodes(chain, node_expenditure, *heading_log_parity, {}, node_log_parity);
@@ -481,10 +388,9 @@ bool ReplicateParities(const Survey& survey, const ComputeOptions& compute,
   }
   const Chain chain = MakeChain(survey, compute);
   const Eigen::MatrixXd node_expenditure = NodeExpenditures(survey);
-  Scratch scratch;
   Eigen::MatrixXd heading_log_parity;
   const ReplicateOutcome outcome =
-      RunChain(chain, node_expenditure, item_multiplicity, &scratch, &heading_log_parity, node_log_parity);
+      RunChain(chain, node_expenditure, item_multiplicity, &heading_log_parity, node_log_parity);
   if (num_unlinked_headings != nullptr) *num_unlinked_headings = outcome.num_unlinked;
   return true;
 }
@@ -529,8 +435,7 @@ bool RunSensitivity(const Survey& survey, const ComputeOptions& compute,
   const std::vector<double> ones(num_items, 1.0);
   Eigen::MatrixXd base_heading, base_node;
   {
-    Scratch scratch;
-    RunChain(chain, node_expenditure, ones, &scratch, &base_heading, &base_node);
+    RunChain(chain, node_expenditure, ones, &base_heading, &base_node);
   }
   summary->full_sample_seconds = SecondsSince(start);
   const int threads = ThreadsFor(options.num_threads);
@@ -546,7 +451,6 @@ bool RunSensitivity(const Survey& survey, const ComputeOptions& compute,
     Progress progress{&options, "bootstrap", num_b};
 #pragma omp parallel num_threads(threads)
     {
-      Scratch scratch;
       std::vector<double> weight(num_items);
       Eigen::MatrixXd heading_lp, node_lp;
       Eigen::MatrixXi rank;
@@ -559,7 +463,7 @@ bool RunSensitivity(const Survey& survey, const ComputeOptions& compute,
           const int n = static_cast<int>(items.size());
           for (int k = 0; k < n; ++k) weight[items[stream.Below(n)]] += 1.0;
         }
-        const ReplicateOutcome outcome = RunChain(chain, node_expenditure, weight, &scratch, &heading_lp, &node_lp);
+        const ReplicateOutcome outcome = RunChain(chain, node_expenditure, weight, &heading_lp, &node_lp);
         RankRows(node_lp, &rank);
         unlinked[b] = outcome.num_unlinked > 0;
         for (int n = 0; n < num_nodes; ++n) {
@@ -639,7 +543,6 @@ bool RunSensitivity(const Survey& survey, const ComputeOptions& compute,
     Progress progress{&options, "leave-one-out", num_drop_items + num_drop_headings};
 #pragma omp parallel num_threads(threads)
     {
-      Scratch scratch;
       std::vector<double> weight(num_items, 1.0);
       Eigen::MatrixXd heading_lp = base_heading;
       Eigen::MatrixXd node_lp = base_node;
@@ -650,7 +553,7 @@ bool RunSensitivity(const Survey& survey, const ComputeOptions& compute,
         const int h = survey.item_heading[i];
         weight[i] = 0.0;
         bool unlinked = false;
-        heading_lp.col(h) = HeadingLogParity(chain, h, weight, &scratch, &unlinked);
+        heading_lp.col(h) = HeadingLogParity(chain, h, weight, &unlinked);
         weight[i] = 1.0;
         for (int n : chain.heading_nodes[h]) recompute[n] = 1;
         ComputeNodes(chain, node_expenditure, heading_lp, recompute, &node_lp);
@@ -770,7 +673,6 @@ bool RunSensitivity(const Survey& survey, const ComputeOptions& compute,
     Progress progress{&options, "coverage", num_runs};
 #pragma omp parallel num_threads(threads)
     {
-      Scratch scratch;
       std::vector<double> weight(num_items);
       std::vector<int> pool;
       Eigen::MatrixXd heading_lp;
@@ -790,7 +692,7 @@ bool RunSensitivity(const Survey& survey, const ComputeOptions& compute,
             weight[pool[k]] = 1.0;
           }
         }
-        RunChain(chain, node_expenditure, weight, &scratch, &heading_lp, &runs[run]);
+        RunChain(chain, node_expenditure, weight, &heading_lp, &runs[run]);
         progress.Step();
       }
     }
@@ -838,16 +740,15 @@ bool RunSensitivity(const Survey& survey, const ComputeOptions& compute,
   // Method spread: every elementary x aggregation combination.
   if (options.run_methods) {
     start = std::chrono::steady_clock::now();
-    const ElementaryMethod elementary[] = {ElementaryMethod::kCpd, ElementaryMethod::kJevonsGeks,
-                                           ElementaryMethod::kRobustCpd};
-    const AggregationMethod aggregation[] = {AggregationMethod::kGeksFisher, AggregationMethod::kGeksTornqvist};
-    Progress progress{&options, "methods", 6};
-    for (ElementaryMethod e : elementary) {
-      for (AggregationMethod a : aggregation) {
+    Progress progress{&options, "methods",
+                      static_cast<int>(ElementaryMethods().size() * AggregationMethods().size())};
+    for (const ElementaryMethod* elementary : ElementaryMethods()) {
+      for (const AggregationMethod* aggregation : AggregationMethods()) {
+        const std::string e(elementary->Name()), a(aggregation->Name());
         MethodRun run;
         run.elementary = e;
         run.aggregation = a;
-        run.name = ToString(e) + "/" + ToString(a);
+        run.name = e + "/" + a;
         run.parity = Eigen::MatrixXd::Constant(num_nodes, num_regions, kNaN);
         ComputeOptions method_options = full_options;
         method_options.elementary.method = e;

@@ -153,7 +153,7 @@ TEST(AllPairsJevonsWeighted, WholeWeightsEqualRepeatedColumnsAndZeroDropsOne) {
   }
 }
 
-class LeaveOneOut : public ::testing::TestWithParam<ElementaryMethod> {};
+class LeaveOneOut : public ::testing::TestWithParam<std::string> {};
 
 TEST_P(LeaveOneOut, DroppingAnItemEqualsRecomputingWithoutIt) {
   // The weight-0 route must give what a survey without the item's rows gives.
@@ -169,7 +169,7 @@ TEST_P(LeaveOneOut, DroppingAnItemEqualsRecomputingWithoutIt) {
   WriteTextFile(folder + "/prices.csv", kept);
   const Survey reduced = LoadFolder(folder);
 
-  for (AggregationMethod aggregation : {AggregationMethod::kGeksFisher, AggregationMethod::kGeksTornqvist}) {
+  for (const char* aggregation : {"geks-fisher", "geks-tornqvist"}) {
     ComputeOptions options;
     options.elementary.method = GetParam();
     options.aggregation = aggregation;
@@ -192,10 +192,10 @@ TEST_P(LeaveOneOut, DroppingAnItemEqualsRecomputingWithoutIt) {
 }
 
 INSTANTIATE_TEST_SUITE_P(Methods, LeaveOneOut,
-                         ::testing::Values(ElementaryMethod::kCpd, ElementaryMethod::kJevonsGeks,
-                                           ElementaryMethod::kRobustCpd),
-                         [](const ::testing::TestParamInfo<ElementaryMethod>& param_info) {
-                           std::string name = ToString(param_info.param);
+                         ::testing::Values("cpd", "jevons-geks",
+                                           "robust-cpd"),
+                         [](const ::testing::TestParamInfo<std::string>& param_info) {
+                           std::string name = param_info.param;
                            name.erase(std::remove(name.begin(), name.end(), '-'), name.end());
                            return name;
                          });

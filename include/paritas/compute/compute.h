@@ -9,6 +9,7 @@
 #include <Eigen/Core>
 
 #include "paritas/aggregation/aggregation.h"
+#include "paritas/aggregation/normalisation.h"
 #include "paritas/survey/config.h"
 #include "paritas/elementary/elementary.h"
 #include "paritas/survey/survey.h"
@@ -17,7 +18,8 @@ namespace paritas {
 
 struct ComputeOptions {
   ElementaryOptions elementary;
-  AggregationMethod aggregation = AggregationMethod::kGeksFisher;
+  // Registry name of the aggregation method (aggregation_method.h).
+  std::string aggregation = "geks-fisher";
   Reference reference;
   // Worker threads for headings; 0 = all cores.
   int num_threads = 0;
@@ -104,19 +106,6 @@ bool ComputeParities(const Survey& survey, const ComputeOptions& options, Parity
 // The arrays an aggregate node is computed from (heading parities on the
 // ratio scale and expenditure, regions x the node's headings).
 NodeArrays NodeInputArrays(const Survey& survey, const ParityResult& result, int node);
-
-// Chooses the normalisation weights of a node, one per region (0 = does not
-// count): the reference region (survey index `reference_region`) when it has
-// a parity, else the expenditure-weighted or plain mean over the regions with
-// a parity. Returns the label of the reference used ("mean", "weighted-mean",
-// the region code, or "mean (...)" for a fallback).
-std::string ReferenceWeights(const Reference& reference, int reference_region,
-                             const Eigen::VectorXd& log_parity, const Eigen::VectorXd& expenditure,
-                             std::vector<double>* weights);
-
-// Shifts ln parities so that their weighted mean over the regions with a
-// parity and a positive weight is 0.
-void NormaliseLogParities(const std::vector<double>& weights, Eigen::VectorXd* log_parity);
 
 // Nominal expenditure of each region on the node's headings (sum of its
 // expenditure rows; NaN where it has none).

@@ -30,33 +30,16 @@ struct Reference {
   static Reference FromString(const std::string& text);
 };
 
-// Method for parities within a basic heading.
-enum class ElementaryMethod {
-  kCpd,         // Country-Product-Dummy least squares (default)
-  kJevonsGeks,  // GEKS over bilateral Jevons indices
-  kRobustCpd,   // CPD with a robust loss (Huber by default), solved by Ceres
-};
-// Method for parities of aggregates.
-enum class AggregationMethod {
-  kGeksFisher,     // GEKS over bilateral Fisher indices (default)
-  kGeksTornqvist,  // GEKS over bilateral Törnqvist indices
-};
 // What to do with an invalid data row.
 enum class InvalidRowPolicy {
   kStop,  // report up to 20 bad rows and stop with exit code 1 (default)
   kSkip,  // leave them out, list them in rejected.csv, and go on
 };
 
-std::string ToString(ElementaryMethod method);
-std::string ToString(AggregationMethod method);
 std::string ToString(InvalidRowPolicy policy);
 // Case-insensitive; returns false for unknown names.
-bool FromString(const std::string& text, ElementaryMethod* method);
-bool FromString(const std::string& text, AggregationMethod* method);
 bool FromString(const std::string& text, InvalidRowPolicy* policy);
 // The allowed names, for --help and messages.
-std::vector<std::string> ElementaryMethodNames();
-std::vector<std::string> AggregationMethodNames();
 std::vector<std::string> InvalidRowPolicyNames();
 
 // Paths of the survey files (absolute, or relative to the working folder
@@ -79,8 +62,10 @@ struct RunConfig {
   // Where the classification came from (a file path, or "<config>:classification").
   std::string classification_source;
   Reference reference;
-  ElementaryMethod elementary = ElementaryMethod::kCpd;
-  AggregationMethod aggregation = AggregationMethod::kGeksFisher;
+  // Registry names of the methods (elementary_method.h,
+  // aggregation_method.h), as the registry spells them.
+  std::string elementary = "cpd";
+  std::string aggregation = "geks-fisher";
   InvalidRowPolicy invalid_rows = InvalidRowPolicy::kStop;
   // Output folder; default "out" beside the configuration.
   std::string output = "out";

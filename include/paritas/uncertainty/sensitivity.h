@@ -81,8 +81,9 @@ struct CoverageLevel {
 
 // Parities of one combination of elementary and aggregation method.
 struct MethodRun {
-  ElementaryMethod elementary = ElementaryMethod::kCpd;
-  AggregationMethod aggregation = AggregationMethod::kGeksFisher;
+  // Registry names of the two methods.
+  std::string elementary;
+  std::string aggregation;
   // "<elementary>/<aggregation>", e.g. "cpd/geks-fisher".
   std::string name;
   // Parity (reference = 100), nodes x regions; NaN where none or the run

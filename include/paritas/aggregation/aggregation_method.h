@@ -1,0 +1,81 @@
+// The interface every aggregation method implements, and the registry that
+// lists them. An aggregation method combines the basic-heading parities of a
+// node (an aggregate of the classification) with each region's expenditure
+// into one ln parity per region. The registry is the only list of methods:
+// the configuration, the command line's help and messages, the method spread
+// of `sensitivity` and the report all read it. Adding a method: DEVELOPERS.md.
+#ifndef PARITAS_AGGREGATION_AGGREGATION_METHOD_H_
+#define PARITAS_AGGREGATION_AGGREGATION_METHOD_H_
+
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include <Eigen/Core>
+
+#include "paritas/aggregation/bilateral_matrix.h"
+
+namespace paritas {
+
+// The node's inputs, regions x the node's headings: heading parities (ratio
+// scale, NaN where missing) and nominal expenditure (currency units, NaN
+// where missing).
+struct NodeArrays {
+  Eigen::MatrixXd price;
+  Eigen::MatrixXd expenditure;
+};
+
+struct AggregateParities {
+  // ln parity of every region, mean 0 over the regions present; NaN where a
+  // region has no heading with a parity and positive expenditure.
+  Eigen::VectorXd log_parity;
+  // Headings used per region (parity and positive expenditure).
+  Eigen::VectorXi num_headings;
+  bool identified = true;
+  std::vector<std::vector<int>> groups;
+  // True when every pair of regions had a bilateral index.
+  bool complete = false;
+  // RMS of the log distance between the bilaterals and the result (GEKS).
+  double rms_log_residual = 0.0;
+};
+
+// What a method is and reads, for the report, messages and checks.
+struct AggregationProperties {
+  // Real expenditure at the method's prices adds up over the headings.
+  bool additive = false;
+  // Parities are transitive by construction (every multilateral method here).
+  bool transitive_by_construction = true;
+  // Reads expenditure (all weighted methods).
+  bool uses_expenditure = true;
+};
+
+class AggregationMethod {
+ public:
+  virtual ~AggregationMethod() = default;
+  // Registry name, lower case, as written in the configuration ("geks-fisher").
+  virtual std::string_view Name() const = 0;
+  // One line for --help and listings.
+  virtual std::string_view Description() const = 0;
+  // Title and HTML description with the published source, for the report.
+  virtual std::string_view ReportTitle() const = 0;
+  virtual std::string_view ReportHtml() const = 0;
+  virtual AggregationProperties Properties() const = 0;
+  // The bilateral matrices Aggregate reads; the caller computes at least these.
+  virtual BilateralOptions BilateralsNeeded() const = 0;
+  // Computes the node's ln parities (log_parity, identified, groups, and
+  // the diagnostics it has); num_headings is filled by the caller.
+  virtual AggregateParities Aggregate(const NodeArrays& arrays,
+                                      const BilateralMatrices& bilaterals) const = 0;
+};
+
+// Every aggregation method, in the order of --help and the method spread.
+const std::vector<const AggregationMethod*>& AggregationMethods();
+// The method named `name` (case-insensitive, surrounding blanks ignored);
+// nullptr when there is none.
+const AggregationMethod* FindAggregationMethod(std::string_view name);
+// The registry names, for --help and messages.
+std::vector<std::string> AggregationMethodNames();
+
+}  // namespace paritas
+
+#endif  // PARITAS_AGGREGATION_AGGREGATION_METHOD_H_

@@ -1,0 +1,29 @@
+// geks-tornqvist: GEKS over bilateral Törnqvist indices (Caves, Christensen
+// and Diewert 1982 for the multilateral Törnqvist form).
+#include "aggregation/methods/geks_text.h"
+#include "paritas/aggregation/aggregation.h"
+
+namespace paritas::internal {
+namespace {
+
+class GeksTornqvist final : public AggregationMethod {
+ public:
+  std::string_view Name() const override { return "geks-tornqvist"; }
+  std::string_view Description() const override { return "GEKS over bilateral T\xC3\xB6rnqvist indices"; }
+  std::string_view ReportTitle() const override { return "GEKS over T\xC3\xB6rnqvist indices"; }
+  std::string_view ReportHtml() const override { return kGeksReportHtml; }
+  AggregationProperties Properties() const override { return {}; }
+  BilateralOptions BilateralsNeeded() const override { return BilateralOptions::OnlyTornqvist(); }
+  AggregateParities Aggregate(const NodeArrays&, const BilateralMatrices& bilaterals) const override {
+    return GeksOverIndex(bilaterals.tornqvist);
+  }
+};
+
+}  // namespace
+
+const AggregationMethod& GeksTornqvistMethod() {
+  static const GeksTornqvist method;
+  return method;
+}
+
+}  // namespace paritas::internal

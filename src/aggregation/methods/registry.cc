@@ -1,0 +1,36 @@
+// The registry of aggregation methods: the only list of them. A method is a
+// file in this folder defining `const AggregationMethod& <Name>Method()`;
+// registering it is its line below. The list is explicit rather than filled
+// by static initialisers, which a static library's linker may drop.
+#include "paritas/aggregation/aggregation_method.h"
+#include "paritas/base/text.h"
+
+namespace paritas {
+namespace internal {
+const AggregationMethod& GeksFisherMethod();
+const AggregationMethod& GeksTornqvistMethod();
+}  // namespace internal
+
+const std::vector<const AggregationMethod*>& AggregationMethods() {
+  static const std::vector<const AggregationMethod*> methods = {
+      &internal::GeksFisherMethod(),
+      &internal::GeksTornqvistMethod(),
+  };
+  return methods;
+}
+
+const AggregationMethod* FindAggregationMethod(std::string_view name) {
+  const std::string wanted = ToLower(Trim(name));
+  for (const AggregationMethod* method : AggregationMethods()) {
+    if (method->Name() == wanted) return method;
+  }
+  return nullptr;
+}
+
+std::vector<std::string> AggregationMethodNames() {
+  std::vector<std::string> names;
+  for (const AggregationMethod* method : AggregationMethods()) names.emplace_back(method->Name());
+  return names;
+}
+
+}  // namespace paritas

@@ -1,0 +1,119 @@
+#include "elementary/methods/cpd_heading.h"
+
+#include <cmath>
+#include <vector>
+
+namespace paritas::internal {
+namespace {
+
+// A heading's cells as FitCpd reads them; reused by each thread.
+struct CellBuffers {
+  std::vector<int> region;
+  std::vector<int> item;
+  std::vector<double> log_price;
+  std::vector<double> weight;
+
+  void Clear() {
+    region.clear();
+    item.clear();
+    log_price.clear();
+    weight.clear();
+  }
+  // Keeps only the cells of the regions in `group`.
+  void KeepRegions(const std::vector<int>& group, int num_regions) {
+    std::vector<uint8_t> keep(num_regions, 0);
+    for (int r : group) keep[r] = 1;
+    size_t kept = 0;
+    for (size_t k = 0; k < region.size(); ++k) {
+      if (!keep[region[k]]) continue;
+      region[kept] = region[k];
+      item[kept] = item[k];
+      log_price[kept] = log_price[k];
+      if (!weight.empty()) weight[kept] = weight[k];
+      ++kept;
+    }
+    region.resize(kept);
+    item.resize(kept);
+    log_price.resize(kept);
+    if (!weight.empty()) weight.resize(kept);
+  }
+};
+
+// Copies the heading's cells; weights only where they differ from 1
+// somewhere (representativity weight, or item multiplicities).
+void CollectCells(const HeadingInput& input, bool copies_for_multiplicity, CellBuffers* cells) {
+  const Survey& survey = *input.survey;
+  const HeadingRange& range = survey.heading_range[input.heading];
+  const double representative_weight = input.options->representative_weight;
+  const bool weighted = !input.item_weight.empty() || representative_weight != 1.0;
+  cells->Clear();
+  for (int64_t k = range.cell_begin; k < range.cell_end; ++k) {
+    const double m = input.item_weight.empty() ? 1.0 : input.item_weight[survey.cells.item[k]];
+    if (!(m > 0.0)) continue;
+    const double base = survey.cells.representative[k] ? representative_weight : 1.0;
+    const int copies = copies_for_multiplicity ? static_cast<int>(std::lround(m)) : 1;
+    for (int c = 0; c < copies; ++c) {
+      cells->region.push_back(survey.cells.region[k]);
+      cells->item.push_back(survey.cells.item[k] - range.item_begin);
+      cells->log_price.push_back(survey.cells.log_price[k]);
+      if (weighted) cells->weight.push_back(copies_for_multiplicity ? base : base * m);
+    }
+  }
+}
+
+CpdResult Fit(const HeadingInput& input, const CellBuffers& cells, CpdLoss loss) {
+  const HeadingRange& range = input.survey->heading_range[input.heading];
+  CpdData data;
+  data.num_regions = input.survey->num_regions();
+  data.num_items = range.num_items();
+  data.region = cells.region;
+  data.item = cells.item;
+  data.log_price = cells.log_price;
+  data.weight = cells.weight;
+  CpdOptions cpd;
+  cpd.loss = loss;
+  cpd.robust_scale = input.options->robust_scale;
+  if (input.normalise) cpd.reference_weights.assign(input.reference_weights.begin(), input.reference_weights.end());
+  cpd.compute_standard_errors = input.options->compute_standard_errors;
+  cpd.compute_robust_standard_errors = input.options->compute_robust_standard_errors;
+  return FitCpd(data, cpd);
+}
+
+}  // namespace
+
+void FitHeadingCpd(const HeadingInput& input, CpdLoss loss, HeadingParities* out) {
+  thread_local CellBuffers cells;
+  const bool copies = loss != CpdLoss::kLeastSquares && !input.item_weight.empty();
+  CollectCells(input, copies, &cells);
+  if (cells.region.empty()) {
+    out->identified = false;
+    out->message = "no price quotes with positive weight";
+    return;
+  }
+  CpdResult fit = Fit(input, cells, loss);
+  out->identified = fit.identified;
+  out->groups = fit.groups;
+  out->message = fit.message;
+  if (!fit.identified && input.keep_largest_group && fit.groups.size() > 1) {
+    cells.KeepRegions(fit.groups.front(), input.survey->num_regions());
+    out->kept_largest_group = true;
+    fit = Fit(input, cells, loss);
+  } else if (!fit.identified) {
+    return;
+  }
+  if (!fit.identified) return;
+  out->log_parity = fit.log_parity;
+  out->log_se = fit.log_se;
+  out->log_se_robust = fit.log_se_robust;
+  out->sigma2 = fit.sigma2;
+  out->degrees_of_freedom = fit.degrees_of_freedom;
+  out->robust_scale_used = fit.robust_scale_used;
+  // Residuals line up with the survey's cells only when every cell was fitted once.
+  const bool every_cell_once = input.item_weight.empty() && !out->kept_largest_group;
+  if (every_cell_once) {
+    out->cell_fitted = fit.fitted;
+    out->cell_residual = fit.residual;
+  }
+}
+
+}  // namespace paritas::internal
