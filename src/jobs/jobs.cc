@@ -235,6 +235,47 @@ std::string CheckSummary::FullReport() const {
 // ---------------------------------------------------------------------------
 // compute
 
+namespace {
+
+// The parity matrix and bilateral table of each node asked for.
+void AddMatrixFiles(const Survey& survey, const ParityResult& result,
+                    const std::vector<int>& matrix_nodes, std::vector<OutputFile>* files) {
+  for (int node : matrix_nodes) {
+    const NodeResult& n = result.nodes[node];
+    const std::string name = NodeFileName(survey.classification.nodes()[node].code) + ".csv";
+    files->push_back({"matrix/" + name, ParityMatrixCsv(survey, n)});
+    if (n.is_heading) {
+      Eigen::MatrixXd log_price, present;
+      HeadingPriceArrays(survey, n.heading, &log_price, &present);
+      Eigen::MatrixXi num_items;
+      const Eigen::MatrixXd jevons = AllPairsJevons(log_price, present, &num_items);
+      files->push_back({"bilateral/" + name, HeadingBilateralCsv(survey, n, jevons, num_items)});
+    } else {
+      files->push_back(
+          {"bilateral/" + name, AggregateBilateralCsv(survey, n, result.bilaterals[node])});
+    }
+  }
+}
+
+// The run record of a successful compute.
+std::string ComputeRunJson(const RunConfig& config, const ComputeJobSummary& summary) {
+  RunRecord record;
+  record.command = "compute";
+  record.config = &config;
+  record.load = &summary.load;
+  record.survey = &summary.survey;
+  record.compute = &summary.compute;
+  record.outcome = "ok";
+  record.message = summary.compute.BriefReport();
+  record.exit_code = kExitOk;
+  record.warnings = summary.warnings;
+  record.outputs = summary.outputs;
+  record.stages = summary.stages;
+  return RunRecordJson(record);
+}
+
+}  // namespace
+
 int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
   *summary = ComputeJobSummary();
   auto fail = [&](int code, const std::string& message) {
@@ -275,20 +316,7 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
   const ParityResult& result = summary->result;
   std::vector<OutputFile> files;
   files.push_back({"parities.csv", ParitiesCsv(survey, result)});
-  for (int node : matrix_nodes) {
-    const NodeResult& n = result.nodes[node];
-    const std::string name = NodeFileName(survey.classification.nodes()[node].code) + ".csv";
-    files.push_back({"matrix/" + name, ParityMatrixCsv(survey, n)});
-    if (n.is_heading) {
-      Eigen::MatrixXd log_price, present;
-      HeadingPriceArrays(survey, n.heading, &log_price, &present);
-      Eigen::MatrixXi num_items;
-      const Eigen::MatrixXd jevons = AllPairsJevons(log_price, present, &num_items);
-      files.push_back({"bilateral/" + name, HeadingBilateralCsv(survey, n, jevons, num_items)});
-    } else {
-      files.push_back({"bilateral/" + name, AggregateBilateralCsv(survey, n, result.bilaterals[node])});
-    }
-  }
+  AddMatrixFiles(survey, result, matrix_nodes, &files);
   OutlierOptions outlier_options;
   outlier_options.threshold = config.outlier_threshold;
   summary->outliers = FindOutliers(survey, result, outlier_options);
@@ -313,19 +341,7 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
   summary->outputs.push_back("run.json");
   summary->stages.push_back({"write", SecondsSince(write_start)});
 
-  RunRecord record;
-  record.command = "compute";
-  record.config = &config;
-  record.load = &summary->load;
-  record.survey = &survey;
-  record.compute = &summary->compute;
-  record.outcome = "ok";
-  record.message = summary->compute.BriefReport();
-  record.exit_code = kExitOk;
-  record.warnings = summary->warnings;
-  record.outputs = summary->outputs;
-  record.stages = summary->stages;
-  files.push_back({"run.json", RunRecordJson(record)});
+  files.push_back({"run.json", ComputeRunJson(config, *summary)});
   if (!WriteOutputFiles(config.output, files, &error)) return fail(kExitInvalidInput, error);
   summary->exit_code = kExitOk;
   summary->message = "ok";
