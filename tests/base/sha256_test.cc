@@ -1,6 +1,6 @@
-// SHA-256 is checked three ways: published example digests, agreement of the
-// portable and SHA-extension paths on random input cut at random places, and
-// Python's hashlib (a reference library) on generated files.
+// SHA-256 is checked three ways: the example digests NIST publishes for
+// FIPS 180-4, streaming in pieces against hashing at once, and Python's
+// hashlib (a reference library) on generated files.
 #include "base/sha256.h"
 
 #include <algorithm>
@@ -10,6 +10,8 @@
 #include <random>
 #include <sstream>
 #include <string>
+#include <string_view>
+#include <utility>
 #include <vector>
 
 #include <gtest/gtest.h>
@@ -18,13 +20,6 @@
 
 namespace paritas::internal {
 namespace {
-
-// Restores automatic path selection when a test ends, even on failure.
-class ScopedForcePortable {
- public:
-  explicit ScopedForcePortable(bool force) { Sha256ForcePortable(force); }
-  ~ScopedForcePortable() { Sha256ForcePortable(false); }
-};
 
 std::string RandomBytes(size_t size, uint64_t seed) {
   std::mt19937_64 rng(seed);
@@ -65,51 +60,29 @@ std::string RunCommand(const std::string& command) {
   return output;
 }
 
-struct PublishedVector {
-  std::string message;
-  std::string hex_digest;
-};
-
-// FIPS 180-2 Appendix B.1 ("abc") and B.2 (the 448-bit two-block message);
-// the same examples appear in NIST's FIPS 180-4 example document. The empty
-// message digest is the widely published SHA-256("") (NIST SHAVS short-message
-// vector Len = 0). Digests written from memory, verified with
-// /usr/bin/python3 hashlib.
-std::vector<PublishedVector> PublishedVectors() {
-  return {
-      {"abc", "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad"},
-      {"abcdbcdecdefdefgefghfghighijhijkijkljklmklmnlmnomnopnopq",
-       "248d6a61d20638b8e5c026930c3e6039a33ce45964ff2167f6ecedd419db06c1"},
-      {"", "e3b0c44298fc1c149afbf4c8996fb92427ae41e4649b934ca495991b7852b855"},
-  };
-}
-
-// FIPS 180-2 Appendix B.3: one million repetitions of 'a'. From memory,
-// verified with /usr/bin/python3 hashlib.
+// Source of the three example digests below: FIPS 180-4 / NIST Cryptographic
+// Standards and Guidelines, example values for SHA-256 (SHA256.pdf): the
+// one-block message "abc", the two-block 448-bit message, and one million 'a'.
+constexpr char kAbcHexDigest[] =
+    "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad";
+constexpr char kTwoBlockMessage[] = "abcdbcdecdefdefgefghfghighijhijkijkljklmklmnlmnomnopnopq";
+constexpr char kTwoBlockHexDigest[] =
+    "248d6a61d20638b8e5c026930c3e6039a33ce45964ff2167f6ecedd419db06c1";
 constexpr char kMillionAHexDigest[] =
     "cdc76e5c9914fb9281a1c7e284d73e67f1809a48a497200e046d39ccc7112cd0";
 
-class Sha256PathTest : public ::testing::TestWithParam<bool> {
- protected:
-  void SetUp() override {
-    if (!GetParam() && !Sha256CpuHasShaExtensions()) {
-      GTEST_SKIP() << "CPU lacks the SHA extensions";
-    }
-  }
-  ScopedForcePortable force_portable_{GetParam()};
-};
-
-TEST_P(Sha256PathTest, UsesTheRequestedPath) {
-  EXPECT_EQ(Sha256().uses_sha_extensions(), !GetParam());
+TEST(Sha256, MatchesNistExampleForOneBlockMessageAbc) {
+  EXPECT_EQ(Sha256Hex("abc"), kAbcHexDigest);
 }
 
-TEST_P(Sha256PathTest, MatchesPublishedExampleDigests) {
-  for (const PublishedVector& vector : PublishedVectors()) {
-    EXPECT_EQ(Sha256Hex(vector.message), vector.hex_digest) << "message '" << vector.message << "'";
-  }
+TEST(Sha256, MatchesNistExampleForTwoBlockMessage) {
+  // 56 bytes = 448 bits: the length no longer fits after the padding bit, so
+  // the padding spills into a second block.
+  ASSERT_EQ(std::string_view(kTwoBlockMessage).size(), 56u);
+  EXPECT_EQ(Sha256Hex(kTwoBlockMessage), kTwoBlockHexDigest);
 }
 
-TEST_P(Sha256PathTest, MatchesPublishedMillionADigestWhetherWholeOrInPieces) {
+TEST(Sha256, MatchesNistExampleForOneMillionAWhetherWholeOrInPieces) {
   const std::string message(1000000, 'a');
   EXPECT_EQ(Sha256Hex(message), kMillionAHexDigest);
   // 1000 pieces of 1000 bytes: 1000 is not a multiple of 64, so blocks straddle pieces.
@@ -118,46 +91,57 @@ TEST_P(Sha256PathTest, MatchesPublishedMillionADigestWhetherWholeOrInPieces) {
   EXPECT_EQ(hasher.HexDigest(), kMillionAHexDigest);
 }
 
-INSTANTIATE_TEST_SUITE_P(Paths, Sha256PathTest, ::testing::Values(false, true),
-                         [](const ::testing::TestParamInfo<bool>& param_info) {
-                           return param_info.param ? "Portable" : "ShaExtensions";
-                         });
+TEST(Sha256, DigestsTheNistExamplesFedOneByteAtATime) {
+  for (const std::string& message : {std::string("abc"), std::string(kTwoBlockMessage)}) {
+    Sha256 hasher;
+    for (char c : message) hasher.Update(&c, 1);
+    EXPECT_EQ(hasher.HexDigest(), Sha256Hex(message)) << "message '" << message << "'";
+  }
+  Sha256 abc;
+  abc.Update("ab", 2);
+  abc.Update("", 0);  // Empty pieces change nothing.
+  abc.Update("c", 1);
+  EXPECT_EQ(abc.HexDigest(), kAbcHexDigest);
+}
 
-TEST(Sha256, PathsAgreeOnRandomBuffersOfEveryLengthUpTo300Bytes) {
-  if (!Sha256CpuHasShaExtensions()) GTEST_SKIP() << "CPU lacks the SHA extensions";
+TEST(Sha256, StreamingInPiecesEqualsOneShotForEveryLengthUpTo300Bytes) {
   // 0..300 crosses the 55/56 and 119/120 byte padding boundaries and several
   // whole blocks.
   for (size_t size = 0; size <= 300; ++size) {
     const std::string data = RandomBytes(size, 1000 + size);
-    std::string portable;
-    {
-      ScopedForcePortable force(true);
-      portable = HashInPieces(data, 70, size);
-    }
-    EXPECT_EQ(HashInPieces(data, 70, size + 1), portable) << "size " << size;
-    EXPECT_EQ(Sha256Hex(data), portable) << "size " << size;
+    const std::string one_shot = Sha256Hex(data);
+    EXPECT_EQ(HashInPieces(data, 70, size), one_shot) << "size " << size;
+    EXPECT_EQ(HashInPieces(data, 1, size), one_shot) << "size " << size;
   }
 }
 
-TEST(Sha256, PathsAgreeOnMultiMegabyteBuffersFedInRandomPieces) {
-  if (!Sha256CpuHasShaExtensions()) GTEST_SKIP() << "CPU lacks the SHA extensions";
+TEST(Sha256, StreamingInPiecesEqualsOneShotForMultiMegabyteBuffers) {
   for (size_t size : {size_t{1} << 20, (size_t{3} << 20) + 37, (size_t{5} << 20) - 1}) {
     const std::string data = RandomBytes(size, size);
-    std::string portable;
-    {
-      ScopedForcePortable force(true);
-      portable = HashInPieces(data, 100000, 7);
-    }
-    EXPECT_EQ(HashInPieces(data, 100000, 8), portable) << "size " << size;
-    EXPECT_EQ(HashInPieces(data, 63, 9), portable) << "size " << size;
-    EXPECT_EQ(Sha256Hex(data), portable) << "size " << size;
+    const std::string one_shot = Sha256Hex(data);
+    EXPECT_EQ(HashInPieces(data, 100000, 8), one_shot) << "size " << size;
+    EXPECT_EQ(HashInPieces(data, 63, 9), one_shot) << "size " << size;
   }
+}
+
+TEST(Sha256, DifferentMessagesGiveDifferentDigests) {
+  // Guards against a hasher that ignores its input.
+  EXPECT_NE(Sha256Hex("abc"), Sha256Hex("abd"));
+  EXPECT_NE(Sha256Hex(""), Sha256Hex(std::string(1, '\0')));
 }
 
 TEST(Sha256, HexDigestIsSixtyFourLowercaseHexCharacters) {
   const std::string hex = Sha256Hex("paritas");
   ASSERT_EQ(hex.size(), 64u);
   EXPECT_EQ(hex.find_first_not_of("0123456789abcdef"), std::string::npos);
+}
+
+TEST(Sha256, MovedHasherContinuesTheSameMessage) {
+  Sha256 first;
+  first.Update("a", 1);
+  Sha256 second = std::move(first);
+  second.Update("bc", 2);
+  EXPECT_EQ(second.HexDigest(), kAbcHexDigest);
 }
 
 TEST(Sha256File, MatchesPythonHashlibOnAFileLargerThanOneReadBlock) {
@@ -175,7 +159,7 @@ TEST(Sha256File, MatchesPythonHashlibOnAFileLargerThanOneReadBlock) {
   EXPECT_EQ(digest + "\n", expected);
 }
 
-TEST(Sha256, BothPathsMatchPythonHashlibOnEveryPrefixUpTo300Bytes) {
+TEST(Sha256, MatchesPythonHashlibOnEveryPrefixUpTo300Bytes) {
   const std::string dir = testing::MakeTempDir("sha256_prefixes");
   const std::string path = dir + "/random.bin";
   const std::string data = RandomBytes(300, 2024);
@@ -190,12 +174,8 @@ TEST(Sha256, BothPathsMatchPythonHashlibOnEveryPrefixUpTo300Bytes) {
   std::vector<std::string> expected;
   for (std::string line; std::getline(lines, line);) expected.push_back(line);
   ASSERT_EQ(expected.size(), 301u);
-  for (bool portable : {false, true}) {
-    ScopedForcePortable force(portable);
-    for (size_t size = 0; size <= 300; ++size) {
-      EXPECT_EQ(Sha256Hex(std::string_view(data).substr(0, size)), expected[size])
-          << "size " << size << (portable ? " portable" : " default");
-    }
+  for (size_t size = 0; size <= 300; ++size) {
+    EXPECT_EQ(Sha256Hex(std::string_view(data).substr(0, size)), expected[size]) << "size " << size;
   }
 }
 
