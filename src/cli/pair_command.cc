@@ -25,7 +25,7 @@ int RunPairCommand(const std::string& config_path, const Overrides& overrides,
   Survey survey;
   LoadSummary load;
   if (!LoadSurvey(config, load_options, &survey, &load)) {
-    if (!load.rejected_rows.empty()) std::cerr << DescribeRejectedRows(load);
+    if (!load.rejected_rows.empty()) PrintErr(DescribeRejectedRows(load));
     PrintError(load.message);
     return kExitInvalidInput;
   }
@@ -41,13 +41,13 @@ int RunPairCommand(const std::string& config_path, const Overrides& overrides,
     PrintError(error);
     return kExitInvalidInput;
   }
-  std::cout << PairTable(comparison);
+  PrintOut(PairTable(comparison));
   if (!csv_path.empty()) {
     if (!WriteFileAtomically(csv_path, PairCsv(comparison), &error)) {
       PrintError(error);
       return kExitInvalidInput;
     }
-    std::cout << "\nwrote " << csv_path << "\n";
+    PrintOut("\nwrote " + csv_path + "\n");
   }
   return kExitOk;
 }

@@ -315,6 +315,7 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
 
   RunRecord record;
   record.command = "compute";
+  record.run_id = NewRunId();
   record.config = &config;
   record.load = &summary->load;
   record.survey = &survey;
@@ -325,8 +326,10 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
   record.warnings = summary->warnings;
   record.outputs = summary->outputs;
   record.stages = summary->stages;
+  record.output_digests = DigestOutputs(files);
   files.push_back({"run.json", RunRecordJson(record)});
-  if (!WriteOutputFiles(config.output, files, &error)) return fail(kExitInvalidInput, error);
+  RunFolderSummary written;
+  if (!WriteRunFolder(config.output, files, &written, &error)) return fail(kExitInvalidInput, error);
   summary->exit_code = kExitOk;
   summary->message = "ok";
   return kExitOk;

@@ -4,6 +4,8 @@
 
 #include <nlohmann/json.hpp>
 
+#include "base/sha256.h"
+
 namespace paritas {
 namespace {
 
@@ -33,10 +35,21 @@ Json ConfigJson(const RunConfig& config) {
 
 }  // namespace
 
+std::vector<OutputDigest> DigestOutputs(const std::vector<OutputFile>& files) {
+  std::vector<OutputDigest> digests(files.size());
+#pragma omp parallel for schedule(dynamic, 1) if (files.size() > 1)
+  for (size_t k = 0; k < files.size(); ++k) {
+    digests[k] = {files[k].relative_path, static_cast<int64_t>(files[k].contents.size()),
+                  internal::Sha256Hex(files[k].contents)};
+  }
+  return digests;
+}
+
 std::string RunRecordJson(const RunRecord& record) {
   Json out;
   out["schema_version"] = kRunRecordSchemaVersion;
   out["tool"] = {{"name", "paritas"}, {"version", PARITAS_VERSION}};
+  if (!record.run_id.empty()) out["run_id"] = record.run_id;
   out["command"] = record.command;
   out["outcome"] = record.outcome;
   out["message"] = record.message;
@@ -79,7 +92,16 @@ std::string RunRecordJson(const RunRecord& record) {
                           {"num_aggregates", record.compute->num_aggregates}};
   }
   out["warnings"] = record.warnings;
-  out["outputs"] = record.outputs;
+  if (record.output_digests.empty()) {
+    out["outputs"] = record.outputs;
+  } else {
+    Json outputs = Json::array();
+    for (const OutputDigest& d : record.output_digests) {
+      outputs.push_back({{"path", d.path}, {"bytes", d.bytes}, {"sha256", d.sha256}});
+    }
+    outputs.push_back({{"path", "run.json"}});
+    out["outputs"] = outputs;
+  }
   Json stages = Json::object();
   for (const StageTiming& stage : record.stages) stages[stage.stage] = stage.seconds;
   out["seconds"] = stages;

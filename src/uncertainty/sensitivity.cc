@@ -15,6 +15,7 @@
 #include <cassert>
 #include <chrono>
 #include <cmath>
+#include <filesystem>
 #include <limits>
 #include <numeric>
 
@@ -28,6 +29,7 @@
 #include "paritas/uncertainty/outliers.h"
 #include "paritas/output/output_writers.h"
 #include "paritas/output/report.h"
+#include "paritas/output/run_folder.h"
 #include "paritas/output/run_record.h"
 #include "paritas/base/text.h"
 
@@ -1088,6 +1090,10 @@ ReportSensitivity ToReportSensitivity(const SensitivityResult& result, const Sen
   return out;
 }
 
+std::string SensitivityFolder(const RunConfig& config) {
+  return (std::filesystem::path(config.output) / "sensitivity").string();
+}
+
 int RunSensitivityJob(const RunConfig& config, const SensitivityOptions& options, SensitivityJobSummary* summary) {
   *summary = SensitivityJobSummary();
   auto fail = [&](int code, const std::string& message) {
@@ -1132,15 +1138,15 @@ int RunSensitivityJob(const RunConfig& config, const SensitivityOptions& options
   }
 
   std::vector<OutputFile> files;
-  if (run_options.run_bootstrap) files.push_back({"sensitivity/bootstrap.csv", BootstrapCsv(survey, summary->result)});
+  if (run_options.run_bootstrap) files.push_back({"bootstrap.csv", BootstrapCsv(survey, summary->result)});
   if (run_options.run_leave_one_out) {
-    files.push_back({"sensitivity/leave_one_out.csv", LeaveOneOutCsv(survey, summary->result)});
+    files.push_back({"leave_one_out.csv", LeaveOneOutCsv(survey, summary->result)});
   }
   if (run_options.run_coverage) {
-    files.push_back({"sensitivity/coverage_curve.csv", CoverageCurveCsv(survey, summary->result)});
+    files.push_back({"coverage_curve.csv", CoverageCurveCsv(survey, summary->result)});
   }
   if (run_options.run_methods) {
-    files.push_back({"sensitivity/method_spread.csv", MethodSpreadCsv(survey, summary->result)});
+    files.push_back({"method_spread.csv", MethodSpreadCsv(survey, summary->result)});
   }
   if (config.report) {
     // The report of compute, redrawn with the intervals, the coverage curve
@@ -1166,10 +1172,11 @@ int RunSensitivityJob(const RunConfig& config, const SensitivityOptions& options
     }
   }
   for (const OutputFile& file : files) summary->outputs.push_back(file.relative_path);
-  summary->outputs.push_back("sensitivity/run.json");
+  summary->outputs.push_back("run.json");
 
   RunRecord record;
   record.command = "sensitivity";
+  record.run_id = NewRunId();
   record.config = &config;
   record.load = &summary->load;
   record.survey = &survey;
@@ -1187,8 +1194,10 @@ int RunSensitivityJob(const RunConfig& config, const SensitivityOptions& options
                    {"coverage", s.coverage_seconds},
                    {"methods", s.methods_seconds}};
   record.sections.push_back({"sensitivity", SensitivityRecordSection(run_options, s, summary->result)});
-  files.push_back({"sensitivity/run.json", RunRecordJson(record)});
-  if (!WriteOutputFiles(config.output, files, &error)) return fail(1, error);
+  record.output_digests = DigestOutputs(files);
+  files.push_back({"run.json", RunRecordJson(record)});
+  RunFolderSummary written;
+  if (!WriteRunFolder(SensitivityFolder(config), files, &written, &error)) return fail(1, error);
   summary->exit_code = 0;
   summary->message = "ok";
   return 0;
