@@ -6,6 +6,7 @@
 #include "paritas/compute/compute.h"
 #include "paritas/survey/config.h"
 #include "paritas/base/csv.h"
+#include "paritas/jobs/guards.h"
 #include "paritas/jobs/jobs.h"
 #include "paritas/use/pair_comparison.h"
 #include "paritas/survey/survey_loader.h"
@@ -19,6 +20,14 @@ int RunPairCommand(const std::string& config_path, const Overrides& overrides,
   RunConfig config;
   if (!LoadConfigWithOverrides(config_path, overrides, &config)) return kExitInvalidInput;
   std::string error;
+  if (!csv_path.empty()) {
+    PathGuard guard = GuardInputsOf(config);
+    guard.AddOutputFile(csv_path, "--csv");
+    if (!guard.Check(&error)) {
+      PrintError(error);
+      return kExitInvalidInput;
+    }
+  }
   LoadOptions load_options;
   load_options.invalid_rows = config.invalid_rows;
   load_options.num_threads = config.threads;
@@ -28,6 +37,11 @@ int RunPairCommand(const std::string& config_path, const Overrides& overrides,
     if (!load.rejected_rows.empty()) PrintErr(DescribeRejectedRows(load));
     PrintError(load.message);
     return kExitInvalidInput;
+  }
+  if (load.num_rows_rejected > 0) {
+    // Under skip the comparison rests on fewer rows than the files hold: say so.
+    PrintErr("paritas: warning: " + FormatCount(load.num_rows_rejected) +
+             " invalid rows left out of the comparison:\n" + DescribeRejectedRows(load));
   }
   ParityResult result;
   ComputeSummary compute;
