@@ -43,6 +43,124 @@ Eigen::MatrixXi ToCounts(const Eigen::MatrixXd& count) {
   return count.array().round().cast<int>().matrix();
 }
 
+// The inputs of AllPairsWeighted as masked arrays, which hold exact zeros
+// where an entry does not count, so NaN or infinite inputs never reach a
+// product (NaN * 0 would be NaN). Only the arrays the requested matrices use
+// are filled; the others stay empty.
+struct MaskedArrays {
+  Eigen::MatrixXd mask;
+  Eigen::MatrixXd expenditure;
+  Eigen::MatrixXd price;      // when Laspeyres, Paasche or Fisher are asked for
+  Eigen::MatrixXd quantity;   // e / p, likewise
+  Eigen::MatrixXd log_price;  // when Törnqvist is asked for
+};
+
+MaskedArrays MaskInputs(const Eigen::MatrixXd& price, const Eigen::MatrixXd& expenditure,
+                        bool need_value, bool need_log_price) {
+  const Eigen::Index num_regions = price.rows();
+  const Eigen::Index num_headings = price.cols();
+  MaskedArrays m;
+  m.mask = Eigen::MatrixXd::Zero(num_regions, num_headings);
+  m.expenditure = m.mask;
+  if (need_value) m.price = m.quantity = m.mask;
+  if (need_log_price) m.log_price = m.mask;
+  for (Eigen::Index h = 0; h < num_headings; ++h) {
+    for (Eigen::Index r = 0; r < num_regions; ++r) {
+      const double p = price(r, h);
+      const double e = expenditure(r, h);
+      if (!(std::isfinite(p) && std::isfinite(e) && p > 0.0 && e > 0.0)) continue;
+      m.mask(r, h) = 1.0;
+      m.expenditure(r, h) = e;
+      if (need_value) {
+        m.price(r, h) = p;
+        m.quantity(r, h) = e / p;
+      }
+      if (need_log_price) m.log_price(r, h) = std::log(p);
+    }
+  }
+  return m;
+}
+
+// Calls visit(a, b) for every pair, in square tiles: each entry needs its
+// transposed partner, and tiles keep both in cache.
+template <typename Visit>
+void ForEachPairInTiles(Eigen::Index num_regions, const Visit& visit) {
+  constexpr Eigen::Index kTile = 64;
+  for (Eigen::Index b0 = 0; b0 < num_regions; b0 += kTile) {
+    const Eigen::Index b1 = std::min(num_regions, b0 + kTile);
+    for (Eigen::Index a0 = 0; a0 < num_regions; a0 += kTile) {
+      const Eigen::Index a1 = std::min(num_regions, a0 + kTile);
+      for (Eigen::Index b = b0; b < b1; ++b) {
+        for (Eigen::Index a = a0; a < a1; ++a) visit(a, b);
+      }
+    }
+  }
+}
+
+// Fills Laspeyres and Paasche and/or Fisher from the masked arrays and
+// value_a(a, b), the sum over the pair's matched headings of e_a = p_a q_a.
+// Pairs without a matched heading are NaN; the diagonal of a region with any
+// heading is exactly 1 (rounding would otherwise leave 1 ± 1e-16 where the
+// identity test requires 1).
+void FillValueIndices(const MaskedArrays& m, const Eigen::MatrixXd& value_a,
+                      const BilateralOptions& options, BilateralMatrices* result) {
+  const Eigen::Index num_regions = value_a.rows();
+  // (a, b): sum over matched headings of p_b q_a.
+  Eigen::MatrixXd value_b_basket_a(num_regions, num_regions);
+  value_b_basket_a.noalias() = m.quantity * m.price.transpose();
+  if (options.laspeyres_paasche) {
+    result->laspeyres.resize(num_regions, num_regions);
+    result->paasche.resize(num_regions, num_regions);
+  }
+  if (options.fisher) result->fisher.resize(num_regions, num_regions);
+  ForEachPairInTiles(num_regions, [&](Eigen::Index a, Eigen::Index b) {
+    double laspeyres = kNaN, paasche = kNaN, fisher = kNaN;
+    if (a == b && value_a(a, a) > 0.0) {
+      laspeyres = paasche = fisher = 1.0;
+    } else if (value_a(a, b) > 0.0) {
+      laspeyres = value_b_basket_a(a, b) / value_a(a, b);
+      // Paasche(a, b) = sum e_b / sum p_a q_b: the same two sums for (b, a).
+      paasche = value_a(b, a) / value_b_basket_a(b, a);
+      fisher = std::sqrt(laspeyres * paasche);
+    }
+    if (options.laspeyres_paasche) {
+      result->laspeyres(a, b) = laspeyres;
+      result->paasche(a, b) = paasche;
+    }
+    if (options.fisher) result->fisher(a, b) = fisher;
+  });
+}
+
+// Returns Törnqvist from the masked arrays (whose log prices it centres and
+// then weights in place) and value_a, with empty pairs and the diagonal set
+// as in FillValueIndices.
+Eigen::MatrixXd Tornqvist(const Eigen::MatrixXd& value_a, MaskedArrays* m) {
+  const Eigen::Index num_regions = value_a.rows();
+  CentreColumns(m->mask, &m->log_price);
+  // With shares renormalised over the pair's matched set, the half of
+  // ln T_ab weighted by region a's shares is
+  //   X_ab = sum_h m_ah m_bh e_ah (y_bh - y_ah) / value_a(a, b),
+  // and the half weighted by region b's shares is -X_ba, so
+  // ln T = ½ (X - Xᵀ), antisymmetric by construction.
+  Eigen::MatrixXd half_log(num_regions, num_regions);
+  half_log.noalias() = m->expenditure * m->log_price.transpose();
+  Eigen::MatrixXd weighted_log_a(num_regions, num_regions);
+  m->log_price.array() *= m->expenditure.array();
+  weighted_log_a.noalias() = m->log_price * m->mask.transpose();
+  half_log = (half_log - weighted_log_a).cwiseQuotient(value_a);
+  // The exponential stays one whole-matrix expression so that every entry
+  // goes through the same exp as before the stages were fused.
+  Eigen::MatrixXd tornqvist = (0.5 * (half_log - half_log.transpose())).array().exp().matrix();
+  ForEachPairInTiles(num_regions, [&](Eigen::Index a, Eigen::Index b) {
+    if (a == b && value_a(a, a) > 0.0) {
+      tornqvist(a, b) = 1.0;
+    } else if (!(value_a(a, b) > 0.0)) {
+      tornqvist(a, b) = kNaN;
+    }
+  });
+  return tornqvist;
+}
+
 }  // namespace
 
 BilateralOptions BilateralOptions::OnlyFisher() {
@@ -70,117 +188,22 @@ BilateralMatrices AllPairsWeighted(const Eigen::MatrixXd& price, const Eigen::Ma
                                    const BilateralOptions& options) {
   assert(price.rows() == expenditure.rows() && price.cols() == expenditure.cols());
   const Eigen::Index num_regions = price.rows();
-  const Eigen::Index num_headings = price.cols();
   const bool need_value = options.laspeyres_paasche || options.fisher;
-
-  // Masked arrays hold exact zeros where the entry does not count, so NaN or
-  // infinite inputs never reach a product (NaN * 0 would be NaN). Only the
-  // arrays the requested matrices use are filled.
-  Eigen::MatrixXd mask = Eigen::MatrixXd::Zero(num_regions, num_headings);
-  Eigen::MatrixXd masked_expenditure = mask;
-  Eigen::MatrixXd masked_price, masked_quantity, masked_log_price;
-  if (need_value) masked_price = masked_quantity = mask;
-  if (options.tornqvist) masked_log_price = mask;
-  for (Eigen::Index h = 0; h < num_headings; ++h) {
-    for (Eigen::Index r = 0; r < num_regions; ++r) {
-      const double p = price(r, h);
-      const double e = expenditure(r, h);
-      if (!(std::isfinite(p) && std::isfinite(e) && p > 0.0 && e > 0.0)) continue;
-      mask(r, h) = 1.0;
-      masked_expenditure(r, h) = e;
-      if (need_value) {
-        masked_price(r, h) = p;
-        masked_quantity(r, h) = e / p;
-      }
-      if (options.tornqvist) masked_log_price(r, h) = std::log(p);
-    }
-  }
+  MaskedArrays m = MaskInputs(price, expenditure, need_value, options.tornqvist);
 
   BilateralMatrices result;
   // (a, b): sum over matched headings of e_a = p_a q_a. It is > 0 exactly
   // where the pair matches a heading (a sum of positive terms), so it stands
   // in for the count when marking empty pairs.
   Eigen::MatrixXd value_a(num_regions, num_regions);
-  value_a.noalias() = masked_expenditure * mask.transpose();
+  value_a.noalias() = m.expenditure * m.mask.transpose();
   if (options.num_matched) {
     Eigen::MatrixXd count(num_regions, num_regions);
-    count.noalias() = mask * mask.transpose();
+    count.noalias() = m.mask * m.mask.transpose();
     result.num_matched = ToCounts(count);
   }
-
-  // Elementwise work in square tiles: each entry needs its transposed
-  // partner, and tiles keep both in cache.
-  constexpr Eigen::Index kTile = 64;
-  auto for_each_pair = [&](const auto& visit) {
-    for (Eigen::Index b0 = 0; b0 < num_regions; b0 += kTile) {
-      const Eigen::Index b1 = std::min(num_regions, b0 + kTile);
-      for (Eigen::Index a0 = 0; a0 < num_regions; a0 += kTile) {
-        const Eigen::Index a1 = std::min(num_regions, a0 + kTile);
-        for (Eigen::Index b = b0; b < b1; ++b) {
-          for (Eigen::Index a = a0; a < a1; ++a) visit(a, b);
-        }
-      }
-    }
-  };
-  // Pairs without a matched heading are NaN; the diagonal of a region with
-  // any heading is exactly 1 (rounding would otherwise leave 1 ± 1e-16
-  // where the identity test requires 1).
-  auto matched = [&](Eigen::Index a, Eigen::Index b) { return value_a(a, b) > 0.0; };
-  auto on_diagonal_one = [&](Eigen::Index a, Eigen::Index b) {
-    return a == b && value_a(a, a) > 0.0;
-  };
-
-  if (need_value) {
-    // (a, b): sum over matched headings of p_b q_a.
-    Eigen::MatrixXd value_b_basket_a(num_regions, num_regions);
-    value_b_basket_a.noalias() = masked_quantity * masked_price.transpose();
-    if (options.laspeyres_paasche) {
-      result.laspeyres.resize(num_regions, num_regions);
-      result.paasche.resize(num_regions, num_regions);
-    }
-    if (options.fisher) result.fisher.resize(num_regions, num_regions);
-    for_each_pair([&](Eigen::Index a, Eigen::Index b) {
-      double laspeyres = kNaN, paasche = kNaN, fisher = kNaN;
-      if (on_diagonal_one(a, b)) {
-        laspeyres = paasche = fisher = 1.0;
-      } else if (matched(a, b)) {
-        laspeyres = value_b_basket_a(a, b) / value_a(a, b);
-        // Paasche(a, b) = sum e_b / sum p_a q_b: the same two sums for (b, a).
-        paasche = value_a(b, a) / value_b_basket_a(b, a);
-        fisher = std::sqrt(laspeyres * paasche);
-      }
-      if (options.laspeyres_paasche) {
-        result.laspeyres(a, b) = laspeyres;
-        result.paasche(a, b) = paasche;
-      }
-      if (options.fisher) result.fisher(a, b) = fisher;
-    });
-  }
-
-  if (options.tornqvist) {
-    CentreColumns(mask, &masked_log_price);
-    // With shares renormalised over the pair's matched set, the half of
-    // ln T_ab weighted by region a's shares is
-    //   X_ab = sum_h m_ah m_bh e_ah (y_bh - y_ah) / value_a(a, b),
-    // and the half weighted by region b's shares is -X_ba, so
-    // ln T = ½ (X - Xᵀ), antisymmetric by construction.
-    Eigen::MatrixXd half_log(num_regions, num_regions);
-    half_log.noalias() = masked_expenditure * masked_log_price.transpose();
-    Eigen::MatrixXd weighted_log_a(num_regions, num_regions);
-    masked_log_price.array() *= masked_expenditure.array();
-    weighted_log_a.noalias() = masked_log_price * mask.transpose();
-    half_log = (half_log - weighted_log_a).cwiseQuotient(value_a);
-    // The exponential stays one whole-matrix expression so that every entry
-    // goes through the same exp as before the stages were fused.
-    result.tornqvist = (0.5 * (half_log - half_log.transpose())).array().exp().matrix();
-    for_each_pair([&](Eigen::Index a, Eigen::Index b) {
-      if (on_diagonal_one(a, b)) {
-        result.tornqvist(a, b) = 1.0;
-      } else if (!matched(a, b)) {
-        result.tornqvist(a, b) = kNaN;
-      }
-    });
-  }
+  if (need_value) FillValueIndices(m, value_a, options, &result);
+  if (options.tornqvist) result.tornqvist = Tornqvist(value_a, &m);
   return result;
 }
 

@@ -61,6 +61,41 @@ inline const char* FindSpecial(const char* p, const char* end) {
   return p;
 }
 
+// Returns the first byte in [p, end) that is not part of a blank line (an
+// LF, or a CR that ends a line: before LF or at the end), counting the LFs
+// passed in *line.
+inline const char* SkipBlankLines(const char* p, const char* end, int64_t* line) {
+  while (p < end) {
+    if (*p == '\n') {
+      ++*line;
+    } else if (*p != '\r' || (p + 1 < end && p[1] != '\n')) {
+      break;
+    }
+    ++p;
+  }
+  return p;
+}
+
+// Returns the closing quote of the quoted field whose text starts at
+// `content` (doubled quotes are text), or nullptr when the data end first.
+// Counts the LFs passed in *line and notes doubled quotes.
+inline const char* FindClosingQuote(const char* content, const char* end, int64_t* line,
+                                    bool* has_doubled_quotes) {
+  const char* from = content;
+  for (;;) {
+    const void* found = from < end ? std::memchr(from, '"', end - from) : nullptr;
+    if (found == nullptr) return nullptr;
+    const char* const quote = static_cast<const char*>(found);
+    *line += std::count(from, quote, '\n');
+    if (quote + 1 < end && quote[1] == '"') {
+      *has_doubled_quotes = true;
+      from = quote + 2;
+      continue;
+    }
+    return quote;
+  }
+}
+
 // Rewrites the fields that hold doubled quotes (only quoted fields can) into
 // record->scratch with each "" collapsed to ".
 void CollapseDoubledQuotes(CsvRecord* record) {
@@ -121,17 +156,7 @@ bool CsvReader::Next(CsvRecord* record) {
   if (!error_.empty()) return false;
   const char* const begin = data_.data();
   const char* const end = begin + data_.size();
-  const char* p = begin + pos_;
-
-  // Blank lines: an LF, or a CR that ends a line (before LF or at the end).
-  while (p < end) {
-    if (*p == '\n') {
-      ++line_;
-    } else if (*p != '\r' || (p + 1 < end && p[1] != '\n')) {
-      break;
-    }
-    ++p;
-  }
+  const char* p = SkipBlankLines(begin + pos_, end, &line_);
   if (p == end) {
     pos_ = data_.size();
     return false;
@@ -152,23 +177,12 @@ bool CsvReader::Next(CsvRecord* record) {
     } else {
       const int64_t open_line = line_;
       const char* const content = p + 1;
-      const char* from = content;
-      for (;;) {
-        const void* found = from < end ? std::memchr(from, '"', end - from) : nullptr;
-        if (found == nullptr) {
-          return Fail(open_line, field_number, "unterminated quoted field (opened here)", record);
-        }
-        const char* const quote = static_cast<const char*>(found);
-        line_ += std::count(from, quote, '\n');
-        if (quote + 1 < end && quote[1] == '"') {
-          has_doubled_quotes = true;
-          from = quote + 2;
-          continue;
-        }
-        record->fields.emplace_back(content, quote - content);
-        p = quote + 1;
-        break;
+      const char* const quote = FindClosingQuote(content, end, &line_, &has_doubled_quotes);
+      if (quote == nullptr) {
+        return Fail(open_line, field_number, "unterminated quoted field (opened here)", record);
       }
+      record->fields.emplace_back(content, quote - content);
+      p = quote + 1;
       if (p < end && *p != ',' && *p != '\n' && *p != '\r') {
         return Fail(line_, field_number, "unexpected text after closing quote", record);
       }

@@ -77,7 +77,8 @@ std::string RegionList(const Survey& survey, const std::vector<int>& regions, si
 bool ComputeOptions::IsValid(std::string* error) const {
   if (!elementary.IsValid(error)) return false;
   if (FindAggregationMethod(aggregation) == nullptr) {
-    *error = "aggregation method '" + aggregation + "' is not one of: " + JoinNames(AggregationMethodNames());
+    *error = "aggregation method '" + aggregation +
+             "' is not one of: " + JoinNames(AggregationMethodNames());
     return false;
   }
   if (reference.kind == ReferenceKind::kRegion && reference.region.empty()) {
@@ -104,9 +105,9 @@ ComputeOptions ComputeOptions::FromConfig(const RunConfig& config) {
 
 std::string ComputeSummary::BriefReport() const {
   return "parities for " + std::to_string(num_headings_used) + " of " +
-         std::to_string(num_headings_given) + " basic headings and " + std::to_string(num_aggregates) +
-         " aggregates; " + std::to_string(warnings.size()) + " warning" +
-         (warnings.size() == 1 ? "" : "s");
+         std::to_string(num_headings_given) + " basic headings and " +
+         std::to_string(num_aggregates) + " aggregates; " + std::to_string(warnings.size()) +
+         " warning" + (warnings.size() == 1 ? "" : "s");
 }
 
 Eigen::VectorXd NodeExpenditure(const Survey& survey, int node) {
@@ -145,10 +146,11 @@ NodeArrays NodeInputArrays(const Survey& survey, const ParityResult& result, int
   return arrays;
 }
 
-bool ComputeParities(const Survey& survey, const ComputeOptions& options, ParityResult* result,
-                     ComputeSummary* summary) {
-  *summary = ComputeSummary();
-  *result = ParityResult();
+namespace {
+
+// Returns false with the summary set when the options are invalid or the
+// reference region is not in the survey.
+bool CheckInputs(const Survey& survey, const ComputeOptions& options, ComputeSummary* summary) {
   std::string error;
   if (!options.IsValid(&error)) {
     summary->outcome = ComputeOutcome::kInvalidOptions;
@@ -163,96 +165,113 @@ bool ComputeParities(const Survey& survey, const ComputeOptions& options, Parity
     if (!nearest.empty()) summary->message += "; did you mean '" + nearest + "'?";
     return false;
   }
-  const Classification& tree = survey.classification;
-  const int num_headings = survey.num_headings();
-  const int num_regions = survey.num_regions();
-  summary->num_headings_given = num_headings;
+  return true;
+}
 
-  // Stage 1: elementary parities, headings in parallel.
-  auto start = std::chrono::steady_clock::now();
+// The weights heading `h` is normalised with: those the node stage uses, so
+// CPD standard errors are relative to the final reference. Empty for the
+// plain mean, or when the reference region has no cell or no region has
+// positive expenditure in the heading.
+std::vector<double> HeadingReferenceWeights(const Survey& survey, const Reference& reference,
+                                            int h) {
+  const int num_regions = survey.num_regions();
+  std::vector<double> weights;
+  const Eigen::VectorXd expenditure = survey.expenditure.col(h);
+  if (reference.kind == ReferenceKind::kRegion) {
+    const int r = survey.regions.Find(reference.region);
+    weights.assign(num_regions, 0.0);
+    bool present = false;
+    for (int64_t k = survey.heading_range[h].cell_begin; k < survey.heading_range[h].cell_end;
+         ++k) {
+      present = present || survey.cells.region[k] == r;
+    }
+    if (present) {
+      weights[r] = 1.0;
+    } else {
+      weights.clear();
+    }
+  } else if (reference.kind == ReferenceKind::kWeightedMean) {
+    weights.assign(num_regions, 0.0);
+    double total = 0.0;
+    for (int r = 0; r < num_regions; ++r) {
+      if (std::isfinite(expenditure(r)) && expenditure(r) > 0) {
+        weights[r] = expenditure(r);
+        total += expenditure(r);
+      }
+    }
+    if (total <= 0) weights.clear();
+  }
+  return weights;
+}
+
+// Stage 1: elementary parities, headings in parallel.
+void ElementaryStage(const Survey& survey, const ComputeOptions& options, int threads,
+                     ParityResult* result) {
+  const int num_headings = survey.num_headings();
   result->headings.resize(num_headings);
-  const int threads = options.num_threads > 0 ? options.num_threads : omp_get_max_threads();
 #pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
   for (int h = 0; h < num_headings; ++h) {
-    // The heading is normalised with the weights the node stage uses below,
-    // so CPD standard errors are relative to the final reference.
-    std::vector<double> weights;
-    const Eigen::VectorXd expenditure = survey.expenditure.col(h);
-    if (options.reference.kind == ReferenceKind::kRegion) {
-      const int r = survey.regions.Find(options.reference.region);
-      weights.assign(num_regions, 0.0);
-      bool present = false;
-      for (int64_t k = survey.heading_range[h].cell_begin; k < survey.heading_range[h].cell_end; ++k) {
-        present = present || survey.cells.region[k] == r;
-      }
-      if (present) {
-        weights[r] = 1.0;
-      } else {
-        weights.clear();
-      }
-    } else if (options.reference.kind == ReferenceKind::kWeightedMean) {
-      weights.assign(num_regions, 0.0);
-      double total = 0.0;
-      for (int r = 0; r < num_regions; ++r) {
-        if (std::isfinite(expenditure(r)) && expenditure(r) > 0) {
-          weights[r] = expenditure(r);
-          total += expenditure(r);
-        }
-      }
-      if (total <= 0) weights.clear();
-    }
+    const std::vector<double> weights = HeadingReferenceWeights(survey, options.reference, h);
     result->headings[h] = ComputeHeadingParities(survey, h, options.elementary, weights);
   }
-  summary->elementary_seconds = SecondsSince(start);
+}
 
+// Warns of headings without quotes, counts the headings used; returns false
+// with the summary set when some heading's regions are not linked.
+bool CheckHeadings(const Survey& survey, const ParityResult& result, ComputeSummary* summary) {
   std::vector<std::string> failures;
-  for (int h = 0; h < num_headings; ++h) {
-    const HeadingParities& heading = result->headings[h];
+  for (int h = 0; h < survey.num_headings(); ++h) {
+    const HeadingParities& heading = result.headings[h];
     if (heading.num_cells == 0) {
       summary->warnings.push_back("heading '" + survey.heading_codes[h] +
                                   "' has no price quotes: left out of every aggregate");
       continue;
     }
     if (!heading.identified) {
-      failures.push_back("heading '" + survey.heading_codes[h] + "' is not linked: its regions fall into " +
-                         std::to_string(heading.groups.size()) + " groups that share no item: " +
-                         DescribeGroups(survey, heading.groups));
+      failures.push_back("heading '" + survey.heading_codes[h] +
+                         "' is not linked: its regions fall into " +
+                         std::to_string(heading.groups.size()) +
+                         " groups that share no item: " + DescribeGroups(survey, heading.groups));
       continue;
     }
     ++summary->num_headings_used;
   }
-  if (!failures.empty()) {
-    summary->outcome = ComputeOutcome::kComputationFailed;
-    summary->message = JoinNames(failures, "\n") +
-                       "\nparities between unlinked groups are not identified; price an item common "
-                       "to the groups, or leave the isolated regions out of the heading";
-    return false;
-  }
+  if (failures.empty()) return true;
+  summary->outcome = ComputeOutcome::kComputationFailed;
+  summary->message = JoinNames(failures, "\n") +
+                     "\nparities between unlinked groups are not identified; price an item "
+                     "common to the groups, or leave the isolated regions out of the heading";
+  return false;
+}
 
-  // Stage 2: every node.
-  start = std::chrono::steady_clock::now();
-  result->nodes.resize(tree.nodes().size());
-  result->bilaterals.resize(tree.nodes().size());
-  std::vector<bool> keep(tree.nodes().size(), false);
+// Stage 2a: every aggregate from its headings' parities (indexed by node,
+// empty for leaves); keeps the bilateral matrices of the root and of
+// `options.keep_bilaterals` in `result`.
+std::vector<AggregateParities> AggregateStage(const Survey& survey, const ComputeOptions& options,
+                                              int threads, ParityResult* result) {
+  const Classification& tree = survey.classification;
+  const int num_nodes = static_cast<int>(tree.nodes().size());
+  result->bilaterals.resize(num_nodes);
+  std::vector<bool> keep(num_nodes, false);
   keep[0] = true;
   for (int node : options.keep_bilaterals) {
-    if (node >= 0 && node < static_cast<int>(keep.size())) keep[node] = true;
+    if (node >= 0 && node < num_nodes) keep[node] = true;
   }
-  // Aggregates first, in parallel over nodes: each is one GEMM-sized job and
-  // an aggregate's elementwise passes are serial, so one node per thread
-  // keeps both cores busy where Eigen's own threading would leave the
-  // elementwise work on one. Inside the region Eigen runs single-threaded
-  // (nested parallelism is off), and no entry depends on the thread count.
-  // Nodes whose bilaterals are not kept compute only the chosen index.
+  // Aggregates in parallel over nodes: each is one GEMM-sized job and an
+  // aggregate's elementwise passes are serial, so one node per thread keeps
+  // both cores busy where Eigen's own threading would leave the elementwise
+  // work on one. Inside the region Eigen runs single-threaded (nested
+  // parallelism is off), and no entry depends on the thread count. Nodes
+  // whose bilaterals are not kept compute only the chosen index.
   std::vector<int> aggregates;
-  for (int index = 0; index < static_cast<int>(tree.nodes().size()); ++index) {
+  for (int index = 0; index < num_nodes; ++index) {
     if (!tree.nodes()[index].is_leaf) aggregates.push_back(index);
   }
   // Largest first, so the root does not start last and run alone.
   std::stable_sort(aggregates.begin(), aggregates.end(), [&](int a, int b) {
     return tree.nodes()[a].headings.size() > tree.nodes()[b].headings.size();
   });
-  std::vector<AggregateParities> aggregate_of(tree.nodes().size());
+  std::vector<AggregateParities> aggregate_of(num_nodes);
   const AggregationMethod& method = *FindAggregationMethod(options.aggregation);
   const int num_aggregates = static_cast<int>(aggregates.size());
 #pragma omp parallel for schedule(dynamic, 1) num_threads(threads) if (num_aggregates > 1)
@@ -264,6 +283,65 @@ bool ComputeParities(const Survey& survey, const ComputeOptions& options, Parity
     aggregate_of[index] = AggregateFromBilaterals(arrays, bilaterals, method);
     if (keep[index]) result->bilaterals[index] = std::move(bilaterals);
   }
+  return aggregate_of;
+}
+
+// A basic heading's node: its parities and counts as the elementary stage gave them.
+Eigen::VectorXd FillLeafNode(const HeadingParities& heading, int h, NodeResult* node) {
+  node->heading = h;
+  node->log_se = heading.log_se;
+  node->log_se_robust = heading.log_se_robust;
+  node->num_items = heading.num_items;
+  node->num_quotes = heading.num_quotes;
+  for (int r = 0; r < node->num_headings.size(); ++r) {
+    node->num_headings(r) = heading.num_items(r) > 0 ? 1 : 0;
+  }
+  return heading.log_parity;
+}
+
+// An aggregate's node: its linking and, when linked, its items and quotes
+// summed over its headings.
+void FillAggregateNode(const ClassificationNode& n, const AggregateParities& aggregate,
+                       const ParityResult& result, NodeResult* node) {
+  node->num_headings = aggregate.num_headings;
+  node->identified = aggregate.identified;
+  node->groups = aggregate.groups;
+  node->rms_log_residual = aggregate.rms_log_residual;
+  if (!aggregate.identified) return;
+  for (int k = 0; k < static_cast<int>(n.headings.size()); ++k) {
+    for (int r = 0; r < node->num_items.size(); ++r) {
+      node->num_items(r) += result.headings[n.headings[k]].num_items(r);
+      node->num_quotes(r) += result.headings[n.headings[k]].num_quotes(r);
+    }
+  }
+}
+
+// Normalises a node to the reference (warning when it falls back to the
+// plain mean) and derives parity, real expenditure and rank.
+void NormaliseAndFinish(const Survey& survey, const ComputeOptions& options,
+                        const std::string& code, Eigen::VectorXd log_parity, NodeResult* node,
+                        ComputeSummary* summary) {
+  std::vector<double> weights;
+  node->reference_used =
+      ReferenceWeights(options.reference, survey.regions.Find(options.reference.region), log_parity,
+                       node->expenditure, &weights);
+  if (node->reference_used.rfind("mean (", 0) == 0 &&
+      options.reference.kind != ReferenceKind::kMean && log_parity.array().isFinite().any()) {
+    summary->warnings.push_back("node '" + code + "': normalised to the " + node->reference_used);
+  }
+  NormaliseLogParities(weights, &log_parity);
+  FinishNode(survey, log_parity, node);
+}
+
+// Stage 2b: every node in classification order; returns false with the
+// summary set when some aggregate's regions are not linked.
+bool FinishNodes(const Survey& survey, const ComputeOptions& options,
+                 const std::vector<AggregateParities>& aggregate_of, ParityResult* result,
+                 ComputeSummary* summary) {
+  const Classification& tree = survey.classification;
+  const int num_regions = survey.num_regions();
+  result->nodes.resize(tree.nodes().size());
+  std::vector<std::string> failures;
   for (int index = 0; index < static_cast<int>(tree.nodes().size()); ++index) {
     const ClassificationNode& n = tree.nodes()[index];
     NodeResult& node = result->nodes[index];
@@ -275,67 +353,69 @@ bool ComputeParities(const Survey& survey, const ComputeOptions& options, Parity
     node.num_items = Eigen::VectorXi::Zero(num_regions);
     node.num_quotes = Eigen::VectorXi::Zero(num_regions);
     node.num_headings = Eigen::VectorXi::Zero(num_regions);
-    Eigen::VectorXd log_parity;
     if (n.is_leaf) {
       const int h = n.headings.front();
-      const HeadingParities& heading = result->headings[h];
-      node.heading = h;
-      log_parity = heading.log_parity;
-      node.log_se = heading.log_se;
-      node.log_se_robust = heading.log_se_robust;
-      node.num_items = heading.num_items;
-      node.num_quotes = heading.num_quotes;
-      for (int r = 0; r < num_regions; ++r) node.num_headings(r) = heading.num_items(r) > 0 ? 1 : 0;
-    } else {
-      ++summary->num_aggregates;
-      const AggregateParities& aggregate = aggregate_of[index];
-      node.num_headings = aggregate.num_headings;
-      node.identified = aggregate.identified;
-      node.groups = aggregate.groups;
-      node.rms_log_residual = aggregate.rms_log_residual;
-      if (!aggregate.identified) {
-        failures.push_back("aggregate '" + n.code + "' is not linked: its regions fall into " +
-                           std::to_string(aggregate.groups.size()) +
-                           " groups with no heading in common: " + DescribeGroups(survey, aggregate.groups));
-        continue;
-      }
-      log_parity = aggregate.log_parity;
-      for (int k = 0; k < static_cast<int>(n.headings.size()); ++k) {
-        for (int r = 0; r < num_regions; ++r) {
-          node.num_items(r) += result->headings[n.headings[k]].num_items(r);
-          node.num_quotes(r) += result->headings[n.headings[k]].num_quotes(r);
-        }
-      }
+      NormaliseAndFinish(survey, options, n.code, FillLeafNode(result->headings[h], h, &node),
+                         &node, summary);
+      continue;
     }
-    std::vector<double> weights;
-    node.reference_used = ReferenceWeights(options.reference, survey.regions.Find(options.reference.region),
-                                           log_parity, node.expenditure, &weights);
-    if (node.reference_used.rfind("mean (", 0) == 0 && options.reference.kind != ReferenceKind::kMean &&
-        log_parity.array().isFinite().any()) {
-      summary->warnings.push_back("node '" + n.code + "': normalised to the " + node.reference_used);
+    ++summary->num_aggregates;
+    const AggregateParities& aggregate = aggregate_of[index];
+    FillAggregateNode(n, aggregate, *result, &node);
+    if (!aggregate.identified) {
+      failures.push_back(
+          "aggregate '" + n.code + "' is not linked: its regions fall into " +
+          std::to_string(aggregate.groups.size()) +
+          " groups with no heading in common: " + DescribeGroups(survey, aggregate.groups));
+      continue;
     }
-    NormaliseLogParities(weights, &log_parity);
-    FinishNode(survey, log_parity, &node);
+    NormaliseAndFinish(survey, options, n.code, aggregate.log_parity, &node, summary);
   }
-  summary->aggregation_seconds = SecondsSince(start);
-  if (!failures.empty()) {
-    summary->outcome = ComputeOutcome::kComputationFailed;
-    summary->message = JoinNames(failures, "\n");
-    return false;
-  }
+  if (failures.empty()) return true;
+  summary->outcome = ComputeOutcome::kComputationFailed;
+  summary->message = JoinNames(failures, "\n");
+  return false;
+}
 
-  // Regions the root gives no parity.
-  const NodeResult& root = result->nodes.front();
+// Warns of the regions the root gives no parity.
+void WarnMissingRegions(const Survey& survey, const ParityResult& result, ComputeSummary* summary) {
+  const NodeResult& root = result.nodes.front();
   std::vector<int> missing;
-  for (int r = 0; r < num_regions; ++r) {
+  for (int r = 0; r < survey.num_regions(); ++r) {
     if (!std::isfinite(root.parity(r))) missing.push_back(r);
   }
-  if (!missing.empty()) {
-    summary->warnings.push_back(std::to_string(missing.size()) + " region" +
-                                (missing.size() == 1 ? " has" : "s have") + " no parity for '" +
-                                tree.nodes().front().code + "' (no heading with both prices and positive "
-                                "expenditure): " + RegionList(survey, missing));
-  }
+  if (missing.empty()) return;
+  summary->warnings.push_back(std::to_string(missing.size()) + " region" +
+                              (missing.size() == 1 ? " has" : "s have") + " no parity for '" +
+                              survey.classification.nodes().front().code +
+                              "' (no heading with both prices and positive "
+                              "expenditure): " +
+                              RegionList(survey, missing));
+}
+
+}  // namespace
+
+bool ComputeParities(const Survey& survey, const ComputeOptions& options, ParityResult* result,
+                     ComputeSummary* summary) {
+  *summary = ComputeSummary();
+  *result = ParityResult();
+  if (!CheckInputs(survey, options, summary)) return false;
+  summary->num_headings_given = survey.num_headings();
+  const int threads = options.num_threads > 0 ? options.num_threads : omp_get_max_threads();
+
+  auto start = std::chrono::steady_clock::now();
+  ElementaryStage(survey, options, threads, result);
+  summary->elementary_seconds = SecondsSince(start);
+  if (!CheckHeadings(survey, *result, summary)) return false;
+
+  start = std::chrono::steady_clock::now();
+  const std::vector<AggregateParities> aggregate_of =
+      AggregateStage(survey, options, threads, result);
+  const bool linked = FinishNodes(survey, options, aggregate_of, result, summary);
+  summary->aggregation_seconds = SecondsSince(start);
+  if (!linked) return false;
+
+  WarnMissingRegions(survey, *result, summary);
   summary->outcome = ComputeOutcome::kOk;
   summary->message = "ok";
   return true;

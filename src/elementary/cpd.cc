@@ -259,6 +259,220 @@ void AppendNote(const std::string& note, std::string* message) {
   *message += note;
 }
 
+// A result with every array sized and NaN, as returned when the fit fails.
+CpdResult EmptyResult(const CpdData& data) {
+  CpdResult result;
+  const int num_cells = static_cast<int>(data.region.size());
+  result.num_cells = num_cells;
+  result.sigma2 = kNaN;
+  const int num_regions = std::max(data.num_regions, 0);
+  const int num_items = std::max(data.num_items, 0);
+  result.log_parity.setConstant(num_regions, kNaN);
+  result.item_effect.setConstant(num_items, kNaN);
+  result.log_se.setConstant(num_regions, kNaN);
+  result.log_se_robust.setConstant(num_regions, kNaN);
+  result.fitted.setConstant(num_cells, kNaN);
+  result.residual.setConstant(num_cells, kNaN);
+  return result;
+}
+
+// The regions and items that have cells, numbered in their order.
+struct Renumbering {
+  std::vector<int> region_index;  // original -> compressed (-1 when absent)
+  std::vector<int> item_index;
+  std::vector<int> region_of;  // compressed -> original
+  std::vector<int> item_of;
+};
+
+Renumbering RenumberPresent(const CpdData& data, int num_regions, int num_items) {
+  const int num_cells = static_cast<int>(data.region.size());
+  Renumbering n;
+  n.region_index.assign(num_regions, -1);
+  n.item_index.assign(num_items, -1);
+  for (int k = 0; k < num_cells; ++k) {
+    n.region_index[data.region[k]] = 0;
+    n.item_index[data.item[k]] = 0;
+  }
+  for (int r = 0; r < num_regions; ++r) {
+    if (n.region_index[r] == 0) {
+      n.region_index[r] = static_cast<int>(n.region_of.size());
+      n.region_of.push_back(r);
+    }
+  }
+  for (int i = 0; i < num_items; ++i) {
+    if (n.item_index[i] == 0) {
+      n.item_index[i] = static_cast<int>(n.item_of.size());
+      n.item_of.push_back(i);
+    }
+  }
+  return n;
+}
+
+// Says why parities are not identified when the regions form several groups.
+std::string GroupsMessage(const std::vector<std::vector<int>>& groups) {
+  std::string sizes;
+  for (const auto& g : groups) {
+    if (!sizes.empty()) sizes += ", ";
+    sizes += std::to_string(g.size());
+  }
+  return "the regions form " + std::to_string(groups.size()) +
+         " groups that share no item (sizes " + sizes +
+         "); parities are defined only within a group";
+}
+
+// The cells in the compressed numbering, with their weights (1 when the data
+// give none); CompressedCells views these arrays.
+struct CellArrays {
+  std::vector<int> region;
+  std::vector<int> item;
+  std::vector<double> weight;
+};
+
+CellArrays CompressCells(const CpdData& data, const Renumbering& n) {
+  const int num_cells = static_cast<int>(data.region.size());
+  CellArrays c;
+  c.region.resize(num_cells);
+  c.item.resize(num_cells);
+  c.weight.assign(num_cells, 1.0);
+  for (int k = 0; k < num_cells; ++k) {
+    c.region[k] = n.region_index[data.region[k]];
+    c.item[k] = n.item_index[data.item[k]];
+    if (!data.weight.empty()) c.weight[k] = data.weight[k];
+  }
+  return c;
+}
+
+// Solves the weighted least-squares fit for the region effects a and the
+// item effects b (region 0 or item 0 held at 0, as `normal` fixes it).
+void SolveLeastSquares(const NormalEquations& normal, const internal::CompressedCells& cells,
+                       Eigen::VectorXd* a, Eigen::VectorXd* b) {
+  const int num_cells = static_cast<int>(cells.region.size());
+  Eigen::MatrixXd g = Eigen::MatrixXd::Zero(cells.num_regions, 1);
+  Eigen::MatrixXd h = Eigen::MatrixXd::Zero(cells.num_items, 1);
+  for (int k = 0; k < num_cells; ++k) {
+    g(cells.region[k], 0) += cells.weight[k] * cells.log_price[k];
+    h(cells.item[k], 0) += cells.weight[k] * cells.log_price[k];
+  }
+  Eigen::MatrixXd a_solution;
+  Eigen::MatrixXd b_solution;
+  normal.Solve(g, h, &a_solution, &b_solution);
+  *a = a_solution.col(0);
+  *b = b_solution.col(0);
+}
+
+// Returns ln p - a_r - b_i of every cell.
+Eigen::VectorXd Residuals(const internal::CompressedCells& cells, const Eigen::VectorXd& a,
+                          const Eigen::VectorXd& b) {
+  const int num_cells = static_cast<int>(cells.region.size());
+  Eigen::VectorXd e(num_cells);
+  for (int k = 0; k < num_cells; ++k) {
+    e[k] = cells.log_price[k] - a[cells.region[k]] - b[cells.item[k]];
+  }
+  return e;
+}
+
+// The scale of the robust loss: as given, or the tuning constant times the
+// normalised median absolute deviation of the weighted residuals `e`.
+double RobustScale(const CpdOptions& options, const internal::CompressedCells& cells,
+                   const Eigen::VectorXd& e) {
+  if (options.robust_scale > 0.0) return options.robust_scale;
+  const int num_cells = static_cast<int>(cells.region.size());
+  std::vector<double> scaled(num_cells);
+  for (int k = 0; k < num_cells; ++k) scaled[k] = std::sqrt(cells.weight[k]) * e[k];
+  const double median = Median(scaled);
+  for (double& v : scaled) v = std::abs(v - median);
+  double sigma = kMadToSigma * Median(scaled);
+  if (!(sigma > 0.0)) {
+    // More than half the residuals vanish; fall back to their root mean square.
+    double sum = 0.0;
+    for (int k = 0; k < num_cells; ++k) sum += cells.weight[k] * e[k] * e[k];
+    sigma = std::sqrt(sum / num_cells);
+  }
+  return sigma * (options.loss == CpdLoss::kHuber ? kHuberTuning : kCauchyTuning);
+}
+
+// Refits a, b and the residuals e with the robust loss, starting from the
+// least-squares fit, and sets the reweighted cell weights `se_weight` and
+// their normal equations, which the standard errors use. Returns false with
+// result->message set when the fit fails.
+bool RefitRobust(const CpdOptions& options, const internal::CompressedCells& cells,
+                 Eigen::VectorXd* a, Eigen::VectorXd* b, Eigen::VectorXd* e,
+                 std::vector<double>* se_weight, std::optional<NormalEquations>* robust_normal,
+                 CpdResult* result) {
+  const double scale = RobustScale(options, cells, *e);
+  if (!(scale > 0.0)) {
+    AppendNote("the least-squares fit is exact, so the robust loss changes nothing",
+               &result->message);
+    return true;
+  }
+  std::string note;
+  if (!internal::SolveRobustCpd(cells, options.loss, scale, a, b, &note)) {
+    result->message = note;
+    return false;
+  }
+  AppendNote(note, &result->message);
+  result->robust_scale_used = scale;
+  *e = Residuals(cells, *a, *b);
+  const int num_cells = static_cast<int>(cells.region.size());
+  for (int k = 0; k < num_cells; ++k) {
+    const double w = cells.weight[k];
+    (*se_weight)[k] = w * internal::RobustWeightFactor(options.loss, scale, w * (*e)[k] * (*e)[k]);
+  }
+  robust_normal->emplace(cells, *se_weight);
+  if (!(*robust_normal)->Factorize()) {
+    result->message = "the reweighted CPD normal equations are numerically singular";
+    return false;
+  }
+  return true;
+}
+
+// Returns sum w e^2 / degrees of freedom, or NaN without degrees of freedom.
+double ResidualVariance(const std::vector<double>& weight, const Eigen::VectorXd& e,
+                        int degrees_of_freedom) {
+  if (degrees_of_freedom <= 0) return kNaN;
+  double sum = 0.0;
+  for (size_t k = 0; k < weight.size(); ++k) sum += weight[k] * e[k] * e[k];
+  return sum / degrees_of_freedom;
+}
+
+// The reference: the given weights over the regions present, renormalised;
+// the plain mean when none is given or none of them is positive (noted).
+Eigen::VectorXd ReferenceWeights(const CpdOptions& options, const std::vector<int>& region_of,
+                                 std::string* message) {
+  const int num_r = static_cast<int>(region_of.size());
+  Eigen::VectorXd reference = Eigen::VectorXd::Constant(num_r, 1.0 / num_r);
+  if (options.reference_weights.empty()) return reference;
+  Eigen::VectorXd given(num_r);
+  for (int r = 0; r < num_r; ++r) given[r] = options.reference_weights[region_of[r]];
+  if (given.sum() > 0.0) {
+    reference = given / given.sum();
+  } else {
+    AppendNote(
+        "no region with a positive reference weight has cells; parities are relative to "
+        "the plain mean of the regions present",
+        message);
+  }
+  return reference;
+}
+
+// Writes the effects, standard errors, fitted values and residuals back in
+// the original numbering.
+void StoreFit(const CpdData& data, const Renumbering& n, const internal::CompressedCells& cells,
+              const Eigen::VectorXd& a, const Eigen::VectorXd& b, const Eigen::VectorXd& se,
+              const Eigen::VectorXd& se_robust, CpdResult* result) {
+  for (int r = 0; r < cells.num_regions; ++r) {
+    result->log_parity[n.region_of[r]] = a[r];
+    result->log_se[n.region_of[r]] = se[r];
+    result->log_se_robust[n.region_of[r]] = se_robust[r];
+  }
+  for (int i = 0; i < cells.num_items; ++i) result->item_effect[n.item_of[i]] = b[i];
+  const int num_cells = static_cast<int>(cells.region.size());
+  for (int k = 0; k < num_cells; ++k) {
+    result->fitted[k] = a[cells.region[k]] + b[cells.item[k]];
+    result->residual[k] = data.log_price[k] - result->fitted[k];
+  }
+}
+
 }  // namespace
 
 std::string ToString(CpdLoss loss) {
@@ -361,19 +575,8 @@ std::vector<std::vector<int>> LinkedRegionGroups(int num_regions, int num_items,
 }
 
 CpdResult FitCpd(const CpdData& data, const CpdOptions& options) {
-  CpdResult result;
-  const int num_cells = static_cast<int>(data.region.size());
-  result.num_cells = num_cells;
-  result.sigma2 = kNaN;
-  const int num_regions = std::max(data.num_regions, 0);
-  const int num_items = std::max(data.num_items, 0);
-  result.log_parity.setConstant(num_regions, kNaN);
-  result.item_effect.setConstant(num_items, kNaN);
-  result.log_se.setConstant(num_regions, kNaN);
-  result.log_se_robust.setConstant(num_regions, kNaN);
-  result.fitted.setConstant(num_cells, kNaN);
-  result.residual.setConstant(num_cells, kNaN);
-
+  CpdResult result = EmptyResult(data);
+  const int num_cells = result.num_cells;
   std::string error;
   if (!options.IsValid(&error)) {
     result.message = "invalid CPD options: " + error;
@@ -389,146 +592,46 @@ CpdResult FitCpd(const CpdData& data, const CpdOptions& options) {
     return result;
   }
 
-  // Renumber the regions and items present, keeping their order.
-  std::vector<int> region_index(num_regions, -1);
-  std::vector<int> item_index(num_items, -1);
-  for (int k = 0; k < num_cells; ++k) {
-    region_index[data.region[k]] = 0;
-    item_index[data.item[k]] = 0;
-  }
-  std::vector<int> region_of;  // compressed -> original
-  std::vector<int> item_of;
-  for (int r = 0; r < num_regions; ++r) {
-    if (region_index[r] == 0) {
-      region_index[r] = static_cast<int>(region_of.size());
-      region_of.push_back(r);
-    }
-  }
-  for (int i = 0; i < num_items; ++i) {
-    if (item_index[i] == 0) {
-      item_index[i] = static_cast<int>(item_of.size());
-      item_of.push_back(i);
-    }
-  }
-  const int num_r = static_cast<int>(region_of.size());
-  const int num_i = static_cast<int>(item_of.size());
+  const int num_regions = std::max(data.num_regions, 0);
+  const int num_items = std::max(data.num_items, 0);
+  const Renumbering present = RenumberPresent(data, num_regions, num_items);
+  const int num_r = static_cast<int>(present.region_of.size());
+  const int num_i = static_cast<int>(present.item_of.size());
   result.num_regions_present = num_r;
   result.num_items_present = num_i;
   result.degrees_of_freedom = num_cells - num_r - num_i + 1;
-
   result.groups = LinkedRegionGroups(num_regions, num_items, data.region, data.item);
   if (result.groups.size() > 1) {
-    std::string sizes;
-    for (const auto& g : result.groups) {
-      if (!sizes.empty()) sizes += ", ";
-      sizes += std::to_string(g.size());
-    }
-    result.message = "the regions form " + std::to_string(result.groups.size()) +
-                     " groups that share no item (sizes " + sizes +
-                     "); parities are defined only within a group";
+    result.message = GroupsMessage(result.groups);
     return result;
   }
 
-  std::vector<int> region_c(num_cells);
-  std::vector<int> item_c(num_cells);
-  std::vector<double> weight(num_cells, 1.0);
-  for (int k = 0; k < num_cells; ++k) {
-    region_c[k] = region_index[data.region[k]];
-    item_c[k] = item_index[data.item[k]];
-    if (!data.weight.empty()) weight[k] = data.weight[k];
-  }
-  internal::CompressedCells cells{num_r, num_i, region_c, item_c, data.log_price, weight};
-
-  NormalEquations normal(cells, weight);
+  const CellArrays arrays = CompressCells(data, present);
+  const internal::CompressedCells cells{num_r,       num_i,          arrays.region,
+                                        arrays.item, data.log_price, arrays.weight};
+  NormalEquations normal(cells, arrays.weight);
   if (!normal.Factorize()) {
     result.message =
         "the CPD normal equations are numerically singular; check for weights spanning "
         "many orders of magnitude";
     return result;
   }
-  Eigen::MatrixXd g = Eigen::MatrixXd::Zero(num_r, 1);
-  Eigen::MatrixXd h = Eigen::MatrixXd::Zero(num_i, 1);
-  for (int k = 0; k < num_cells; ++k) {
-    g(region_c[k], 0) += weight[k] * data.log_price[k];
-    h(item_c[k], 0) += weight[k] * data.log_price[k];
-  }
-  Eigen::MatrixXd a_solution;
-  Eigen::MatrixXd b_solution;
-  normal.Solve(g, h, &a_solution, &b_solution);
-  Eigen::VectorXd a = a_solution.col(0);
-  Eigen::VectorXd b = b_solution.col(0);
-
-  auto residuals = [&](const Eigen::VectorXd& ra, const Eigen::VectorXd& rb) {
-    Eigen::VectorXd e(num_cells);
-    for (int k = 0; k < num_cells; ++k) e[k] = data.log_price[k] - ra[region_c[k]] - rb[item_c[k]];
-    return e;
-  };
-  Eigen::VectorXd e = residuals(a, b);
+  Eigen::VectorXd a;
+  Eigen::VectorXd b;
+  SolveLeastSquares(normal, cells, &a, &b);
+  Eigen::VectorXd e = Residuals(cells, a, b);
 
   // Weights behind the standard errors: the cell weights, or for a robust
   // loss the reweighted ones at convergence.
-  std::vector<double> se_weight = weight;
+  std::vector<double> se_weight = arrays.weight;
   std::optional<NormalEquations> robust_normal;
-  if (options.loss != CpdLoss::kLeastSquares) {
-    double scale = options.robust_scale;
-    if (scale <= 0.0) {
-      std::vector<double> scaled(num_cells);
-      for (int k = 0; k < num_cells; ++k) scaled[k] = std::sqrt(weight[k]) * e[k];
-      const double median = Median(scaled);
-      for (double& v : scaled) v = std::abs(v - median);
-      double sigma = kMadToSigma * Median(scaled);
-      if (!(sigma > 0.0)) {
-        // More than half the residuals vanish; fall back to their root mean square.
-        double sum = 0.0;
-        for (int k = 0; k < num_cells; ++k) sum += weight[k] * e[k] * e[k];
-        sigma = std::sqrt(sum / num_cells);
-      }
-      scale = sigma * (options.loss == CpdLoss::kHuber ? kHuberTuning : kCauchyTuning);
-    }
-    if (scale > 0.0) {
-      std::string note;
-      if (!internal::SolveRobustCpd(cells, options.loss, scale, &a, &b, &note)) {
-        result.message = note;
-        return result;
-      }
-      AppendNote(note, &result.message);
-      result.robust_scale_used = scale;
-      e = residuals(a, b);
-      for (int k = 0; k < num_cells; ++k) {
-        se_weight[k] =
-            weight[k] * internal::RobustWeightFactor(options.loss, scale, weight[k] * e[k] * e[k]);
-      }
-      robust_normal.emplace(cells, se_weight);
-      if (!robust_normal->Factorize()) {
-        result.message = "the reweighted CPD normal equations are numerically singular";
-        return result;
-      }
-    } else {
-      AppendNote("the least-squares fit is exact, so the robust loss changes nothing",
-                 &result.message);
-    }
+  if (options.loss != CpdLoss::kLeastSquares &&
+      !RefitRobust(options, cells, &a, &b, &e, &se_weight, &robust_normal, &result)) {
+    return result;
   }
+  result.sigma2 = ResidualVariance(se_weight, e, result.degrees_of_freedom);
 
-  if (result.degrees_of_freedom > 0) {
-    double sum = 0.0;
-    for (int k = 0; k < num_cells; ++k) sum += se_weight[k] * e[k] * e[k];
-    result.sigma2 = sum / result.degrees_of_freedom;
-  }
-
-  // Reference: weights over the regions present, renormalised.
-  Eigen::VectorXd reference = Eigen::VectorXd::Constant(num_r, 1.0 / num_r);
-  if (!options.reference_weights.empty()) {
-    Eigen::VectorXd given(num_r);
-    for (int r = 0; r < num_r; ++r) given[r] = options.reference_weights[region_of[r]];
-    if (given.sum() > 0.0) {
-      reference = given / given.sum();
-    } else {
-      AppendNote(
-          "no region with a positive reference weight has cells; parities are relative to "
-          "the plain mean of the regions present",
-          &result.message);
-    }
-  }
+  const Eigen::VectorXd reference = ReferenceWeights(options, present.region_of, &result.message);
   const double shift = reference.dot(a);
   a.array() -= shift;
   b.array() += shift;
@@ -538,17 +641,7 @@ CpdResult FitCpd(const CpdData& data, const CpdOptions& options) {
   StandardErrors(robust_normal ? *robust_normal : normal, cells, se_weight, e, reference,
                  result.sigma2, options.compute_standard_errors,
                  options.compute_robust_standard_errors, &se, &se_robust);
-
-  for (int r = 0; r < num_r; ++r) {
-    result.log_parity[region_of[r]] = a[r];
-    result.log_se[region_of[r]] = se[r];
-    result.log_se_robust[region_of[r]] = se_robust[r];
-  }
-  for (int i = 0; i < num_i; ++i) result.item_effect[item_of[i]] = b[i];
-  for (int k = 0; k < num_cells; ++k) {
-    result.fitted[k] = a[region_c[k]] + b[item_c[k]];
-    result.residual[k] = data.log_price[k] - result.fitted[k];
-  }
+  StoreFit(data, present, cells, a, b, se, se_robust, &result);
   result.identified = true;
   return result;
 }

@@ -2,6 +2,8 @@
 // what the user must see; every number comes from the stages themselves.
 #include "paritas/jobs/jobs.h"
 
+#include "paritas/jobs/guards.h"
+
 #include <algorithm>
 #include <chrono>
 #include <cmath>
@@ -235,6 +237,51 @@ std::string CheckSummary::FullReport() const {
 // ---------------------------------------------------------------------------
 // compute
 
+namespace {
+
+// The parity matrix and bilateral table of each node asked for.
+void AddMatrixFiles(const Survey& survey, const ParityResult& result,
+                    const std::vector<int>& matrix_nodes, std::vector<OutputFile>* files) {
+  for (int node : matrix_nodes) {
+    const NodeResult& n = result.nodes[node];
+    const std::string name = NodeFileName(survey.classification.nodes()[node].code) + ".csv";
+    files->push_back({"matrix/" + name, ParityMatrixCsv(survey, n)});
+    if (n.is_heading) {
+      Eigen::MatrixXd log_price, present;
+      HeadingPriceArrays(survey, n.heading, &log_price, &present);
+      Eigen::MatrixXi num_items;
+      const Eigen::MatrixXd jevons = AllPairsJevons(log_price, present, &num_items);
+      files->push_back({"bilateral/" + name, HeadingBilateralCsv(survey, n, jevons, num_items)});
+    } else {
+      files->push_back(
+          {"bilateral/" + name, AggregateBilateralCsv(survey, n, result.bilaterals[node])});
+    }
+  }
+}
+
+// The run record of a successful compute.
+// The run record, with the digest of every file written before it.
+std::string ComputeRunJson(const RunConfig& config, const ComputeJobSummary& summary,
+                           const std::vector<OutputFile>& files) {
+  RunRecord record;
+  record.command = "compute";
+  record.run_id = summary.run_id;
+  record.output_digests = DigestOutputs(files);
+  record.config = &config;
+  record.load = &summary.load;
+  record.survey = &summary.survey;
+  record.compute = &summary.compute;
+  record.outcome = "ok";
+  record.message = summary.compute.BriefReport();
+  record.exit_code = kExitOk;
+  record.warnings = summary.warnings;
+  record.outputs = summary.outputs;
+  record.stages = summary.stages;
+  return RunRecordJson(record);
+}
+
+}  // namespace
+
 int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
   *summary = ComputeJobSummary();
   auto fail = [&](int code, const std::string& message) {
@@ -242,6 +289,10 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
     summary->message = message;
     return code;
   };
+  std::string error;
+  PathGuard guard = GuardInputsOf(config);
+  guard.AddOutputFolder(config.output, "output folder");
+  if (!guard.Check(&error)) return fail(kExitInvalidInput, error);
   if (!LoadSurvey(config, LoadOptionsFor(config), &summary->survey, &summary->load)) {
     return fail(kExitInvalidInput, summary->load.message);
   }
@@ -250,7 +301,6 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
   const Survey& survey = summary->survey;
 
   std::vector<int> matrix_nodes;
-  std::string error;
   if (!ResolveMatrixNodes(survey.classification, config.matrices, &matrix_nodes, &error)) {
     return fail(kExitInvalidInput, error);
   }
@@ -275,20 +325,7 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
   const ParityResult& result = summary->result;
   std::vector<OutputFile> files;
   files.push_back({"parities.csv", ParitiesCsv(survey, result)});
-  for (int node : matrix_nodes) {
-    const NodeResult& n = result.nodes[node];
-    const std::string name = NodeFileName(survey.classification.nodes()[node].code) + ".csv";
-    files.push_back({"matrix/" + name, ParityMatrixCsv(survey, n)});
-    if (n.is_heading) {
-      Eigen::MatrixXd log_price, present;
-      HeadingPriceArrays(survey, n.heading, &log_price, &present);
-      Eigen::MatrixXi num_items;
-      const Eigen::MatrixXd jevons = AllPairsJevons(log_price, present, &num_items);
-      files.push_back({"bilateral/" + name, HeadingBilateralCsv(survey, n, jevons, num_items)});
-    } else {
-      files.push_back({"bilateral/" + name, AggregateBilateralCsv(survey, n, result.bilaterals[node])});
-    }
-  }
+  AddMatrixFiles(survey, result, matrix_nodes, &files);
   OutlierOptions outlier_options;
   outlier_options.threshold = config.outlier_threshold;
   summary->outliers = FindOutliers(survey, result, outlier_options);
@@ -313,21 +350,8 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
   summary->outputs.push_back("run.json");
   summary->stages.push_back({"write", SecondsSince(write_start)});
 
-  RunRecord record;
-  record.command = "compute";
-  record.run_id = NewRunId();
-  record.config = &config;
-  record.load = &summary->load;
-  record.survey = &survey;
-  record.compute = &summary->compute;
-  record.outcome = "ok";
-  record.message = summary->compute.BriefReport();
-  record.exit_code = kExitOk;
-  record.warnings = summary->warnings;
-  record.outputs = summary->outputs;
-  record.stages = summary->stages;
-  record.output_digests = DigestOutputs(files);
-  files.push_back({"run.json", RunRecordJson(record)});
+  summary->run_id = NewRunId();
+  files.push_back({"run.json", ComputeRunJson(config, *summary, files)});
   RunFolderSummary written;
   if (!WriteRunFolder(config.output, files, &written, &error)) return fail(kExitInvalidInput, error);
   summary->exit_code = kExitOk;

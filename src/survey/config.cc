@@ -8,11 +8,11 @@
 
 #include <yaml-cpp/yaml.h>
 
-#include "survey/classification_yaml.h"
+#include "paritas/aggregation/aggregation_method.h"
 #include "paritas/base/csv.h"
 #include "paritas/base/text.h"
-#include "paritas/aggregation/aggregation_method.h"
 #include "paritas/elementary/elementary_method.h"
+#include "survey/classification_yaml.h"
 
 namespace paritas {
 namespace {
@@ -57,10 +57,19 @@ std::vector<std::string> NamesOf(const EnumName<Enum> (&names)[N]) {
   return out;
 }
 
-const std::vector<std::string> kTopKeys = {
-    "survey",    "classification",        "reference",         "elementary",
-    "aggregation", "invalid_rows",        "output",            "matrices",
-    "representative_weight", "outlier_threshold", "robust_standard_errors", "report", "threads"};
+const std::vector<std::string> kTopKeys = {"survey",
+                                           "classification",
+                                           "reference",
+                                           "elementary",
+                                           "aggregation",
+                                           "invalid_rows",
+                                           "output",
+                                           "matrices",
+                                           "representative_weight",
+                                           "outlier_threshold",
+                                           "robust_standard_errors",
+                                           "report",
+                                           "threads"};
 const std::vector<std::string> kSurveyKeys = {"prices", "expenditure", "regions", "items"};
 
 class ConfigParser {
@@ -88,7 +97,8 @@ class ConfigParser {
  private:
   std::string Where(const YAML::Mark& mark) const {
     if (mark.line < 0) return path_ + ": ";
-    return path_ + ":" + std::to_string(mark.line + 1) + ":" + std::to_string(mark.column + 1) + ": ";
+    return path_ + ":" + std::to_string(mark.line + 1) + ":" + std::to_string(mark.column + 1) +
+           ": ";
   }
   std::string Where(const YAML::Node& node) const { return Where(node.Mark()); }
 
@@ -99,7 +109,8 @@ class ConfigParser {
       bool known = false;
       for (const auto& a : allowed) known = known || a == key;
       if (known) continue;
-      *error = Where(kv.first) + "unknown key '" + (section.empty() ? "" : section + ".") + key + "'";
+      *error =
+          Where(kv.first) + "unknown key '" + (section.empty() ? "" : section + ".") + key + "'";
       const std::string nearest = NearestName(key, allowed);
       if (!nearest.empty()) {
         *error += "; did you mean '" + (section.empty() ? "" : section + ".") + nearest + "'?";
@@ -176,13 +187,44 @@ class ConfigParser {
     return true;
   }
 
+  // A number above zero.
+  bool Positive(const YAML::Node& node, const std::string& key, double* value, std::string* error) {
+    if (!Number(node, key, value, error)) return false;
+    if (!(*value > 0)) {
+      *error = Where(node) + key + " must be positive, found '" + node.Scalar() + "'";
+      return false;
+    }
+    return true;
+  }
+
+  // true or false (see ParseFlag for the spellings taken).
+  bool Flag(const YAML::Node& node, const std::string& key, bool* value, std::string* error) {
+    std::string text;
+    if (!Scalar(node, key, &text, error)) return false;
+    if (!ParseFlag(text, value)) {
+      *error = Where(node) + key + " must be true or false, found '" + text + "'";
+      return false;
+    }
+    return true;
+  }
+
+  // Keys are read in a fixed order, so the first error reported does not
+  // depend on the order they are written in.
   bool ParseRoot(const YAML::Node& root, std::string* error) {
     if (!root.IsMap()) {
-      *error = path_ + ": the configuration must be a mapping of keys (survey, classification, ...)";
+      *error =
+          path_ + ": the configuration must be a mapping of keys (survey, classification, ...)";
       return false;
     }
     if (!CheckKeys(root, kTopKeys, "", error)) return false;
-    const YAML::Node survey = root["survey"];
+    if (!ParseSurvey(root["survey"], error)) return false;
+    if (const YAML::Node node = root["classification"]) {
+      if (!ParseClassification(node, error)) return false;
+    }
+    return ParseMethods(root, error) && ParseOutput(root, error) && ParseSettings(root, error);
+  }
+
+  bool ParseSurvey(const YAML::Node& survey, std::string* error) {
     if (!survey) {
       *error = path_ + ": missing key 'survey' (with at least 'prices' and 'expenditure')";
       return false;
@@ -193,21 +235,30 @@ class ConfigParser {
     }
     if (!CheckKeys(survey, kSurveyKeys, "survey", error)) return false;
     SurveyFiles& files = config_->survey;
-    if (survey["prices"] && !Path(survey["prices"], "survey.prices", &files.prices, error)) return false;
+    if (survey["prices"] && !Path(survey["prices"], "survey.prices", &files.prices, error)) {
+      return false;
+    }
     if (survey["expenditure"] &&
-        !Path(survey["expenditure"], "survey.expenditure", &files.expenditure, error)) return false;
-    if (survey["regions"] && !Path(survey["regions"], "survey.regions", &files.regions, error)) return false;
-    if (survey["items"] && !Path(survey["items"], "survey.items", &files.items, error)) return false;
+        !Path(survey["expenditure"], "survey.expenditure", &files.expenditure, error)) {
+      return false;
+    }
+    if (survey["regions"] && !Path(survey["regions"], "survey.regions", &files.regions, error)) {
+      return false;
+    }
+    if (survey["items"] && !Path(survey["items"], "survey.items", &files.items, error)) {
+      return false;
+    }
     for (const char* required : {"prices", "expenditure"}) {
       if (!survey[required]) {
         *error = Where(survey) + "missing key 'survey." + required + "'";
         return false;
       }
     }
+    return true;
+  }
 
-    if (const YAML::Node node = root["classification"]) {
-      if (!ParseClassification(node, error)) return false;
-    }
+  // reference, elementary, aggregation.
+  bool ParseMethods(const YAML::Node& root, std::string* error) {
     if (const YAML::Node node = root["reference"]) {
       std::string text;
       if (!Scalar(node, "reference", &text, error)) return false;
@@ -218,74 +269,79 @@ class ConfigParser {
       config_->reference = Reference::FromString(text);
     }
     if (const YAML::Node node = root["elementary"]) {
-      if (!MethodValue(node, "elementary", &config_->elementary, FindElementaryMethod, ElementaryMethodNames(),
-                       error))
+      if (!MethodValue(node, "elementary", &config_->elementary, FindElementaryMethod,
+                       ElementaryMethodNames(), error)) {
         return false;
+      }
     }
     if (const YAML::Node node = root["aggregation"]) {
       if (!MethodValue(node, "aggregation", &config_->aggregation, FindAggregationMethod,
-                       AggregationMethodNames(), error))
+                       AggregationMethodNames(), error)) {
         return false;
+      }
     }
+    return true;
+  }
+
+  // invalid_rows, output, matrices.
+  bool ParseOutput(const YAML::Node& root, std::string* error) {
     if (const YAML::Node node = root["invalid_rows"]) {
-      if (!EnumValue(node, "invalid_rows", &config_->invalid_rows, InvalidRowPolicyNames(), error))
+      if (!EnumValue(node, "invalid_rows", &config_->invalid_rows, InvalidRowPolicyNames(),
+                     error)) {
         return false;
+      }
     }
     if (const YAML::Node node = root["output"]) {
       if (!Path(node, "output", &config_->output, error)) return false;
     } else {
       config_->output = Resolve("out");
     }
-    if (const YAML::Node node = root["matrices"]) {
-      config_->matrices.clear();
-      if (node.IsScalar()) {
-        config_->matrices.push_back(node.Scalar());
-      } else if (node.IsSequence()) {
-        for (const auto& entry : node) {
-          std::string code;
-          if (!Scalar(entry, "matrices", &code, error)) return false;
-          config_->matrices.push_back(code);
-        }
-      } else {
-        *error = Where(node) + "'matrices' must be 'all', a node code, or a list of node codes";
-        return false;
+    if (const YAML::Node node = root["matrices"]) return ParseMatrices(node, error);
+    return true;
+  }
+
+  bool ParseMatrices(const YAML::Node& node, std::string* error) {
+    config_->matrices.clear();
+    if (node.IsScalar()) {
+      config_->matrices.push_back(node.Scalar());
+    } else if (node.IsSequence()) {
+      for (const auto& entry : node) {
+        std::string code;
+        if (!Scalar(entry, "matrices", &code, error)) return false;
+        config_->matrices.push_back(code);
       }
+    } else {
+      *error = Where(node) + "'matrices' must be 'all', a node code, or a list of node codes";
+      return false;
     }
+    return true;
+  }
+
+  // representative_weight, outlier_threshold, robust_standard_errors,
+  // report, threads.
+  bool ParseSettings(const YAML::Node& root, std::string* error) {
     if (const YAML::Node node = root["representative_weight"]) {
-      if (!Number(node, "representative_weight", &config_->representative_weight, error)) return false;
-      if (!(config_->representative_weight > 0)) {
-        *error = Where(node) + "representative_weight must be positive, found '" + node.Scalar() + "'";
+      if (!Positive(node, "representative_weight", &config_->representative_weight, error)) {
         return false;
       }
     }
     if (const YAML::Node node = root["outlier_threshold"]) {
-      if (!Number(node, "outlier_threshold", &config_->outlier_threshold, error)) return false;
-      if (!(config_->outlier_threshold > 0)) {
-        *error = Where(node) + "outlier_threshold must be positive, found '" + node.Scalar() + "'";
-        return false;
-      }
+      if (!Positive(node, "outlier_threshold", &config_->outlier_threshold, error)) return false;
     }
     if (const YAML::Node node = root["robust_standard_errors"]) {
-      std::string text;
-      if (!Scalar(node, "robust_standard_errors", &text, error)) return false;
-      if (!ParseFlag(text, &config_->robust_standard_errors)) {
-        *error = Where(node) + "robust_standard_errors must be true or false, found '" + text + "'";
+      if (!Flag(node, "robust_standard_errors", &config_->robust_standard_errors, error)) {
         return false;
       }
     }
     if (const YAML::Node node = root["report"]) {
-      std::string text;
-      if (!Scalar(node, "report", &text, error)) return false;
-      if (!ParseFlag(text, &config_->report)) {
-        *error = Where(node) + "report must be true or false, found '" + text + "'";
-        return false;
-      }
+      if (!Flag(node, "report", &config_->report, error)) return false;
     }
     if (const YAML::Node node = root["threads"]) {
       double threads = 0;
       if (!Number(node, "threads", &threads, error)) return false;
       if (threads < 0 || threads != std::floor(threads) || threads > 1024) {
-        *error = Where(node) + "threads must be a whole number from 0 (all cores) to 1024, found '" +
+        *error = Where(node) +
+                 "threads must be a whole number from 0 (all cores) to 1024, found '" +
                  node.Scalar() + "'";
         return false;
       }
@@ -303,7 +359,8 @@ class ConfigParser {
       if (!Classification::FromYaml(text, file, &config_->classification, error)) return false;
     } else {
       config_->classification_source = path_;
-      if (!internal::ClassificationFromNode(node, path_, &config_->classification, error)) return false;
+      if (!internal::ClassificationFromNode(node, path_, &config_->classification, error))
+        return false;
     }
     config_->has_classification = true;
     return true;
@@ -366,7 +423,8 @@ bool RunConfig::IsValid(std::string* error) const {
     return false;
   }
   if (FindAggregationMethod(aggregation) == nullptr) {
-    *error = "aggregation '" + aggregation + "' is not one of: " + JoinNames(AggregationMethodNames());
+    *error =
+        "aggregation '" + aggregation + "' is not one of: " + JoinNames(AggregationMethodNames());
     return false;
   }
   if (!(representative_weight > 0) || !std::isfinite(representative_weight)) {

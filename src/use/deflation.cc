@@ -137,7 +137,8 @@ bool ParseParity(const std::string& path, int64_t line, int column, const char* 
   return true;
 }
 
-bool ReadParities(const DeflateOptions& options, ParityTable* table, std::string* error) {
+// Reads parities.csv of the parities folder into `table`.
+bool ReadParityValues(const DeflateOptions& options, ParityTable* table, std::string* error) {
   namespace fs = std::filesystem;
   table->path = (fs::path(options.parities_dir) / "parities.csv").string();
   std::string contents;
@@ -165,8 +166,13 @@ bool ReadParities(const DeflateOptions& options, ParityTable* table, std::string
     table->parity[table->Index(table->nodes.Find(rows[k][0]), table->regions.Find(rows[k][1]))] =
         value;
   }
-  if (!options.include_interval) return true;
+  return true;
+}
 
+// Reads the intervals of the sensitivity run (sensitivity/bootstrap.csv)
+// into `table`, whose parities are already read.
+bool ReadIntervals(const DeflateOptions& options, ParityTable* table, std::string* error) {
+  namespace fs = std::filesystem;
   table->interval_path =
       (fs::path(options.parities_dir) / "sensitivity" / "bootstrap.csv").string();
   std::error_code ec;
@@ -175,13 +181,15 @@ bool ReadParities(const DeflateOptions& options, ParityTable* table, std::string
              " does not exist (compute writes it when sensitivity analysis is on)";
     return false;
   }
-  contents.clear();
-  rows.clear();
-  lines.clear();
+  std::string contents;
+  std::vector<int> index;
+  std::vector<std::vector<std::string_view>> rows;
+  std::vector<int64_t> lines;
   if (!ReadTable(table->interval_path, {"node", "region", "lower", "upper"},
                  {true, true, true, true}, &index, &contents, &rows, &lines, error)) {
     return false;
   }
+  const size_t size = table->parity.size();
   table->lower.assign(size, kNaN);
   table->upper.assign(size, kNaN);
   for (size_t k = 0; k < rows.size(); ++k) {
@@ -200,6 +208,11 @@ bool ReadParities(const DeflateOptions& options, ParityTable* table, std::string
     table->upper[table->Index(node, region)] = upper;
   }
   return true;
+}
+
+bool ReadParities(const DeflateOptions& options, ParityTable* table, std::string* error) {
+  if (!ReadParityValues(options, table, error)) return false;
+  return !options.include_interval || ReadIntervals(options, table, error);
 }
 
 // A file written under a temporary name and renamed into place by Commit.
@@ -368,6 +381,13 @@ class Deflater {
     const CsvHeader names(header.fields);
     num_fields_ = header.fields.size();
     const std::string where = options_.input_path + ":" + std::to_string(header.line) + ": ";
+    if (!FindColumns(names, where, error) || !AddColumns(names, where, error)) return false;
+    WriteHeader(data, header, reader->position());
+    return true;
+  }
+
+  // Finds the region, node and value columns.
+  bool FindColumns(const CsvHeader& names, const std::string& where, std::string* error) {
     auto find = [&](const std::string& name, int* column) {
       *column = names.Find(name);
       if (*column < 0) {
@@ -389,6 +409,11 @@ class Deflater {
     for (size_t k = 0; k < value_columns_.size(); ++k) {
       if (!find(options_.value_columns[k], &value_columns_[k])) return false;
     }
+    return true;
+  }
+
+  // Names the columns to add in summary_->columns_added; none may exist.
+  bool AddColumns(const CsvHeader& names, const std::string& where, std::string* error) {
     std::vector<std::string>& added = summary_->columns_added;
     for (const std::string& name : options_.value_columns)
       added.push_back(std::string(Trim(name)) + "_real");
@@ -406,20 +431,25 @@ class Deflater {
         return false;
       }
     }
+    return true;
+  }
+
+  // Writes the header with the added columns; `end` is where the header's
+  // line terminator ends in `data`.
+  void WriteHeader(std::string_view data, const CsvRecord& header, size_t end) {
     // The record's own line end is kept; a last record without one gets the
     // header's, so the output ends with a line end.
     const size_t raw_end = header.offset + header.raw.size();
-    default_terminator_ = std::string(data.substr(raw_end, reader->position() - raw_end));
+    default_terminator_ = std::string(data.substr(raw_end, end - raw_end));
     if (default_terminator_.empty() || default_terminator_ == "\r") default_terminator_ = "\n";
     if (data.substr(0, kUtf8Bom.size()) == kUtf8Bom) out_.append(kUtf8Bom);
     out_.append(header.raw);
-    for (const std::string& name : added) {
+    for (const std::string& name : summary_->columns_added) {
       out_ += ',';
       AppendCsvField(name, &out_);
     }
-    out_.append(data.substr(raw_end, reader->position() - raw_end));
-    if (reader->position() == raw_end) out_ += default_terminator_;
-    return true;
+    out_.append(data.substr(raw_end, end - raw_end));
+    if (end == raw_end) out_ += default_terminator_;
   }
 
   void Reject(const CsvRecord& record, int column, const std::string& what) {
@@ -487,11 +517,83 @@ class Deflater {
                   &last_region_);
   }
 
+  // Looks up the record's parity: sets *cell and *parity, or returns false
+  // after rejecting the record.
+  bool RowParity(const CsvRecord& record, size_t* cell, double* parity) {
+    const int node = RowNode(record);
+    if (node < 0) return false;
+    const int region = RowRegion(record);
+    if (region < 0) return false;
+    *cell = table_.Index(node, region);
+    *parity = table_.parity[*cell];
+    if (std::isnan(*parity)) {
+      Reject(record, region_column_ + 1,
+             options_.region_column + " " + QuoteValue(table_.regions.Code(region)) +
+                 " has no parity for node " + QuoteValue(table_.nodes.Code(node)) + " in " +
+                 table_.path);
+      return false;
+    }
+    return true;
+  }
+
+  // Parses the record's values into values_; returns false after rejecting
+  // the record.
+  bool ParseValues(const CsvRecord& record) {
+    for (size_t k = 0; k < value_columns_.size(); ++k) {
+      const std::string_view text = record.fields[value_columns_[k]];
+      const NumberStatus status = ParseNumber(text, &values_[k]);
+      if (status != NumberStatus::kOk) {
+        Reject(record, value_columns_[k] + 1,
+               NumberProblem(status, options_.value_columns[k], text));
+        return false;
+      }
+      if (values_[k] < 0 && !options_.allow_negative) {
+        Reject(record, value_columns_[k] + 1,
+               options_.value_columns[k] + " " + QuoteValue(Trim(text)) +
+                   " is negative (negative values need --allow-negative)");
+        return false;
+      }
+    }
+    return true;
+  }
+
+  // Appends the record with its real values (and parity and interval) and
+  // `terminator`, or the default one when the record has none.
+  void AppendRow(const CsvRecord& record, size_t cell, double parity, std::string_view terminator) {
+    const size_t num_values = value_columns_.size();
+    out_.append(record.raw);
+    for (size_t k = 0; k < num_values; ++k) {
+      out_ += ',';
+      AppendFixed(values_[k] / (parity / 100.0), options_.decimals, &out_);
+    }
+    if (options_.include_parity) {
+      out_ += ',';
+      AppendShortest(parity, &out_);
+    }
+    if (options_.include_interval) {
+      const double lower = table_.lower[cell];
+      const double upper = table_.upper[cell];
+      for (size_t k = 0; k < num_values; ++k) {
+        // A dearer bound gives the smaller real value; for a negative value
+        // the order flips.
+        const double a = values_[k] / (upper / 100.0), b = values_[k] / (lower / 100.0);
+        out_ += ',';
+        AppendFixed(std::min(a, b), options_.decimals, &out_);
+        out_ += ',';
+        AppendFixed(std::max(a, b), options_.decimals, &out_);
+      }
+    }
+    if (terminator.empty()) {
+      out_ += default_terminator_;
+    } else {
+      out_.append(terminator);
+    }
+  }
+
   bool ProcessBlock(std::string_view data, int64_t* line, std::string* error) {
     CsvReader reader(data, *line, /*skip_bom=*/false);
     CsvRecord record;
-    const size_t num_values = value_columns_.size();
-    values_.resize(num_values);
+    values_.resize(value_columns_.size());
     while (reader.Next(&record)) {
       ++summary_->num_rows_read;
       if (record.fields.size() != num_fields_) {
@@ -501,65 +603,12 @@ class Deflater {
                    ", the header has " + std::to_string(num_fields_));
         continue;
       }
-      const int node = RowNode(record);
-      if (node < 0) continue;
-      const int region = RowRegion(record);
-      if (region < 0) continue;
-      const size_t cell = table_.Index(node, region);
-      const double parity = table_.parity[cell];
-      if (std::isnan(parity)) {
-        Reject(record, region_column_ + 1,
-               options_.region_column + " " + QuoteValue(table_.regions.Code(region)) +
-                   " has no parity for node " + QuoteValue(table_.nodes.Code(node)) + " in " +
-                   table_.path);
-        continue;
-      }
-      bool valid = true;
-      for (size_t k = 0; k < num_values && valid; ++k) {
-        const std::string_view text = record.fields[value_columns_[k]];
-        const NumberStatus status = ParseNumber(text, &values_[k]);
-        if (status != NumberStatus::kOk) {
-          Reject(record, value_columns_[k] + 1,
-                 NumberProblem(status, options_.value_columns[k], text));
-          valid = false;
-        } else if (values_[k] < 0 && !options_.allow_negative) {
-          Reject(record, value_columns_[k] + 1,
-                 options_.value_columns[k] + " " + QuoteValue(Trim(text)) +
-                     " is negative (negative values need --allow-negative)");
-          valid = false;
-        }
-      }
-      if (!valid || !writing_) continue;
-
-      out_.append(record.raw);
-      for (size_t k = 0; k < num_values; ++k) {
-        out_ += ',';
-        AppendFixed(values_[k] / (parity / 100.0), options_.decimals, &out_);
-      }
-      if (options_.include_parity) {
-        out_ += ',';
-        AppendShortest(parity, &out_);
-      }
-      if (options_.include_interval) {
-        const double lower = table_.lower[cell];
-        const double upper = table_.upper[cell];
-        for (size_t k = 0; k < num_values; ++k) {
-          // A dearer bound gives the smaller real value; for a negative value
-          // the order flips.
-          const double a = values_[k] / (upper / 100.0), b = values_[k] / (lower / 100.0);
-          out_ += ',';
-          AppendFixed(std::min(a, b), options_.decimals, &out_);
-          out_ += ',';
-          AppendFixed(std::max(a, b), options_.decimals, &out_);
-        }
-      }
+      size_t cell = 0;
+      double parity = kNaN;
+      if (!RowParity(record, &cell, &parity)) continue;
+      if (!ParseValues(record) || !writing_) continue;
       const size_t raw_end = record.offset + record.raw.size();
-      const std::string_view terminator = data.substr(raw_end, reader.position() - raw_end);
-      if (terminator.empty()) {
-        out_ += default_terminator_;
-      } else {
-        out_.append(terminator);
-      }
+      AppendRow(record, cell, parity, data.substr(raw_end, reader.position() - raw_end));
       ++summary_->num_rows_written;
       if (out_.size() >= kFlushBytes && !output_.Write(&out_, error)) return false;
       if (rejected_text_.size() >= kFlushBytes && !rejected_file_.Write(&rejected_text_, error))

@@ -59,6 +59,19 @@ struct RunRecord {
 // Returns the record as pretty-printed JSON with keys in a fixed order.
 std::string RunRecordJson(const RunRecord& record);
 
+// Reads the run record of an output folder: its run id and the JSON text.
+// False with a message naming the file when it is missing or not a run
+// record of ours.
+bool ReadRunRecord(const std::string& folder, std::string* run_id, std::string* json,
+                   std::string* error);
+
+// What makes the results of two run records incomparable: different input
+// files (by SHA-256, per role) or different settings that change parities
+// (reference, elementary, aggregation, invalid_rows, representative_weight).
+// Each difference as one line, e.g. "reference: mean in this run, cap in the
+// other"; empty when the two rest on the same inputs and settings.
+std::vector<std::string> RunDifferences(const std::string& this_json, const std::string& other_json);
+
 }  // namespace paritas
 
 #endif  // PARITAS_OUTPUT_RUN_RECORD_H_

@@ -247,6 +247,8 @@ struct SensitivityJobSummary {
   Survey survey;
   SensitivitySummary sensitivity;
   SensitivityResult result;
+  // Identifies the run in its run.json (NewRunId()).
+  std::string run_id;
   std::vector<std::string> outputs;  // relative to SensitivityFolder(config)
   std::vector<std::string> warnings;
 
@@ -254,12 +256,12 @@ struct SensitivityJobSummary {
   std::string FullReport(const SensitivityOptions& options) const;
 };
 
-// Returns the exit code (0 ok, 1 invalid input or options, 2 computation
-// failed).
 // The root node's intervals, coverage curve and method runs as the report
 // draws them.
 ReportSensitivity ToReportSensitivity(const SensitivityResult& result, const SensitivityOptions& options);
 
+// Returns the exit code (0 ok, 1 invalid input or options, 2 computation
+// failed).
 int RunSensitivityJob(const RunConfig& config, const SensitivityOptions& options,
                       SensitivityJobSummary* summary);
 

@@ -1,0 +1,319 @@
+// The region grids: price levels by aggregate, the parity matrix and the
+// survey's coverage. Rows past kReportMaxGridRegions are thinned (every k-th
+// region by price level) or binned, so the page stays small at any size.
+#include <algorithm>
+#include <cmath>
+#include <string>
+#include <vector>
+
+#include "output/report_parts.h"
+#include "paritas/base/text.h"
+
+namespace paritas::internal::report {
+namespace {
+
+// The nodes shown against regions: the root, then its children (by
+// expenditure when there are too many to show).
+std::vector<int> AggregateColumns(const Context& ctx) {
+  constexpr size_t kMaxColumns = 24;
+  const ClassificationNode& root = ctx.survey.classification.nodes().front();
+  std::vector<int> children = root.children;
+  if (children.size() > kMaxColumns) {
+    std::vector<double> total(ctx.result.nodes.size(), 0.0);
+    for (int c : children) {
+      const Eigen::VectorXd& e = ctx.result.nodes[c].expenditure;
+      for (int r = 0; r < e.size(); ++r) total[c] += std::isfinite(e(r)) ? e(r) : 0.0;
+    }
+    std::stable_sort(children.begin(), children.end(),
+                     [&](int a, int b) { return total[a] > total[b]; });
+    children.resize(kMaxColumns);
+    std::sort(children.begin(), children.end());
+  }
+  std::vector<int> columns = {0};
+  columns.insert(columns.end(), children.begin(), children.end());
+  return columns;
+}
+
+}  // namespace
+
+std::string Grid(const GridSpec& g) {
+  const int rows = static_cast<int>(g.values.size());
+  const int cols = static_cast<int>(g.column_labels.size());
+  size_t max_chars = 4;
+  for (const std::string& l : g.row_labels) max_chars = std::max(max_chars, CodePoints(l));
+  max_chars = std::min<size_t>(max_chars, 28);
+  const double label_w = 14.0 + 6.4 * static_cast<double>(max_chars);
+  const double gap = 8.0 * static_cast<double>(g.gap_before.size());
+  const double cell_w =
+      std::clamp((kChartWidth - label_w - 16.0 - gap) / std::max(1, cols), 6.0, g.max_cell_w);
+  const double cell_h = rows <= 30 ? std::min(22.0, std::max(cell_w * 0.62, 14.0))
+                                   : std::max(8.0, std::min(16.0, cell_w));
+  size_t max_col_chars = 3;
+  for (const std::string& l : g.column_labels)
+    max_col_chars = std::max(max_col_chars, CodePoints(l));
+  max_col_chars = std::min<size_t>(max_col_chars, 22);
+  const bool rotate = cell_w < 6.6 * static_cast<double>(max_col_chars) + 6.0;
+  const double header_h = rotate ? 12.0 + 4.6 * static_cast<double>(max_col_chars) : 22.0;
+  // Rotated labels lean right past the last column: room for them.
+  const double lean = rotate ? 4.6 * static_cast<double>(max_col_chars) * 0.64 + 6.0 : 8.0;
+  const double width = label_w + 8.0 + gap + cell_w * cols + lean;
+  const double height = header_h + cell_h * rows + 6.0;
+  const bool labels = cell_w >= 34.0 && cell_h >= 13.0;
+  auto col_x = [&](int c) {
+    double extra = 0.0;
+    for (int b : g.gap_before) extra += c >= b ? 8.0 : 0.0;
+    return label_w + 8.0 + extra + cell_w * c;
+  };
+  std::string out = "<svg class=\"chart grid-chart\" id=\"" + g.id + "\" viewBox=\"0 0 " +
+                    C(width) + " " + C(height) + "\" style=\"max-width:" + C(width) +
+                    "px\" role=\"img\" aria-label=\"" + HtmlEscape(g.aria) + "\">";
+  for (int c = 0; c < cols; ++c) {
+    const double cx = col_x(c) + cell_w / 2;
+    const std::string label = HtmlEscape(Truncate(g.column_labels[c], max_col_chars));
+    const std::string cls = g.column_bold[c] ? "col-label strong" : "col-label";
+    if (rotate) {
+      out += "<text class=\"" + cls + "\" transform=\"translate(" + C(cx + 3) + " " +
+             C(header_h - 4) + ") rotate(-50)\">" + label + "</text>";
+    } else {
+      out += "<text class=\"" + cls + "\" x=\"" + C(cx) + "\" y=\"" + C(header_h - 7) +
+             "\" text-anchor=\"middle\">" + label + "</text>";
+    }
+  }
+  for (int r = 0; r < rows; ++r) {
+    const double y = header_h + cell_h * r;
+    out += "<text class=\"row-label\" x=\"" + C(label_w) + "\" y=\"" + C(y + cell_h / 2 + 4) +
+           "\" text-anchor=\"end\">";
+    if (!g.row_tips.empty()) out += "<title>" + HtmlEscape(g.row_tips[r]) + "</title>";
+    out += HtmlEscape(Truncate(g.row_labels[r], max_chars)) + "</text>";
+    for (int c = 0; c < cols; ++c) {
+      const double v = g.values[r][c];
+      const double x = col_x(c);
+      const std::string tip = "<title>" + HtmlEscape(g.tip(r, c, v)) + "</title>";
+      if (!std::isfinite(v)) {
+        out += "<rect class=\"cell none\" x=\"" + C(x) + "\" y=\"" + C(y) + "\" width=\"" +
+               C(cell_w) + "\" height=\"" + C(cell_h) + "\">" + tip + "</rect>";
+        continue;
+      }
+      const Rgb colour = g.colour(v);
+      out += "<rect class=\"cell\" x=\"" + C(x) + "\" y=\"" + C(y) + "\" width=\"" + C(cell_w) +
+             "\" height=\"" + C(cell_h) + "\" fill=\"" + Hex(colour) + "\">" + tip + "</rect>";
+      if (labels) {
+        out += "<text class=\"cell-value" + std::string(WantsDarkText(colour) ? "" : " on-dark") +
+               "\" x=\"" + C(x + cell_w / 2) + "\" y=\"" + C(y + cell_h / 2 + 3.5) +
+               "\" text-anchor=\"middle\">" + g.format(v) + "</text>";
+      }
+    }
+  }
+  return out + "</svg>\n";
+}
+
+std::string AggregateSection(const Context& ctx) {
+  const std::vector<int> columns = AggregateColumns(ctx);
+  const std::vector<int> rows = EveryKth(ctx.order, kReportMaxGridRegions);
+  GridSpec g;
+  g.id = "aggregate-grid";
+  g.aria = "price level of each region in each aggregate";
+  for (int node : columns) {
+    g.column_labels.push_back(ctx.survey.classification.nodes()[node].code);
+    g.column_bold.push_back(node == 0);
+  }
+  for (int r : rows) {
+    g.row_labels.push_back(ctx.Label(r));
+    g.row_tips.push_back(ctx.Label(r) + " (" + ctx.Code(r) + ")");
+    std::vector<double> line;
+    for (int node : columns) {
+      const double p = ctx.result.nodes[node].parity(r);
+      line.push_back(p);
+    }
+    g.values.push_back(line);
+  }
+  const DivergingScale scale = GridScale(g.values);
+  g.colour = [scale](double v) { return scale.Colour(v); };
+  g.format = [](double v) { return Num(v, kChartParityDecimals); };
+  g.tip = [&ctx, &rows, &columns](int r, int c, double v) {
+    return ctx.Label(rows[r]) + " \xC2\xB7 " + ctx.survey.classification.nodes()[columns[c]].code +
+           ": " + Num(v, kTableParityDecimals);
+  };
+  g.gap_before = {1};
+  std::string out = OpenSection("aggregates", "Price levels by aggregate");
+  out += "<p>Price level of each region in <b>" + HtmlEscape(ctx.root_code) +
+         "</b> (first column) and in each of its aggregates, each normalised on its own (" +
+         HtmlEscape(ctx.root.reference_used) +
+         " = 100). Read along a row to see which categories make a region dear or cheap.</p>\n";
+  if (ctx.survey.classification.nodes().front().children.size() + 1 > columns.size()) {
+    out += "<p class=\"note\">The " + FormatCount(static_cast<int64_t>(columns.size() - 1)) +
+           " aggregates with the largest expenditure are shown; every node is in "
+           "<code>parities.csv</code>.</p>";
+  }
+  out += Grid(g);
+  out += ThinningNote(ctx, rows.size(), "Every region and node is in <code>parities.csv</code>.");
+  out += "<div class=\"legend-row\">" + DivergingLegend(scale, "legend-aggregates") +
+         "<span class=\"key\"><svg width=\"16\" height=\"12\"><rect class=\"cell none\" "
+         "width=\"16\" height=\"12\"/></svg> no price level</span></div>\n";
+  return out + "</section>\n";
+}
+
+std::string MatrixSection(const Context& ctx) {
+  const std::vector<int> regions = EveryKth(ctx.order, kReportMaxGridRegions);
+  GridSpec g;
+  g.id = "matrix-grid";
+  g.aria =
+      "parity matrix of the root: cost in the column region of what costs 100 in the row region";
+  for (int b : regions) {
+    g.column_labels.push_back(ctx.Code(b));
+    g.column_bold.push_back(false);
+  }
+  for (int a : regions) {
+    g.row_labels.push_back(ctx.Code(a));
+    g.row_tips.push_back(ctx.Label(a));
+    std::vector<double> line;
+    for (int b : regions) {
+      const double v = 100.0 * ctx.root.parity(b) / ctx.root.parity(a);
+      line.push_back(v);
+    }
+    g.values.push_back(line);
+  }
+  const DivergingScale scale = GridScale(g.values);
+  g.colour = [scale](double v) { return scale.Colour(v); };
+  g.format = [](double v) { return Num(v, kChartParityDecimals); };
+  g.tip = [&ctx, &regions](int r, int c, double v) {
+    return "what costs 100 in " + ctx.Code(regions[r]) + " costs " + Num(v, kTableParityDecimals) +
+           " in " + ctx.Code(regions[c]);
+  };
+  g.max_cell_w = 54.0;
+  std::string out = OpenSection("matrix", "Parity matrix");
+  out +=
+      "<p>Cell (row <i>a</i>, column <i>b</i>) is 100 \xC3\x97 P<sub>b</sub> / P<sub>a</sub> for "
+      "<b>" +
+      HtmlEscape(ctx.root_code) +
+      "</b>: what costs 100 in the row region costs this much in the column region. Regions are in "
+      "price-level order, dearest first; the matrix is transitive, so each row is the price-level "
+      "chart seen from one region.</p>\n";
+  out += Grid(g);
+  out += ThinningNote(ctx, regions.size(), "The full matrix is in <code>matrix/</code>.");
+  out += "<div class=\"legend-row\">" + DivergingLegend(scale, "legend-matrix") + "</div>\n";
+  return out + "</section>\n";
+}
+
+namespace {
+
+// Columns of the coverage grid: regions in price-level order (regions
+// without a parity at the end), binned into at most kReportMaxGridRegions
+// groups of consecutive ranks.
+std::vector<std::vector<int>> RankBins(const Context& ctx) {
+  std::vector<int> regions = ctx.order;
+  regions.insert(regions.end(), ctx.missing.begin(), ctx.missing.end());
+  const int n = static_cast<int>(regions.size());
+  const int num_bins = std::min(n, kReportMaxGridRegions);
+  std::vector<std::vector<int>> bins(num_bins);
+  for (int i = 0; i < n; ++i) {
+    bins[static_cast<size_t>(static_cast<int64_t>(i) * num_bins / n)].push_back(regions[i]);
+  }
+  return bins;
+}
+
+// Names the columns: the region, or the ranks a bin holds; then "all regions".
+void CoverageColumns(const Context& ctx, const std::vector<std::vector<int>>& bins, bool binned,
+                     GridSpec* g) {
+  for (const std::vector<int>& bin : bins) {
+    if (!binned) {
+      g->column_labels.push_back(ctx.Code(bin.front()));
+    } else {
+      int begin = 1;
+      for (const std::vector<int>* b = bins.data(); b != &bin; ++b) {
+        begin += static_cast<int>(b->size());
+      }
+      const int end = begin + static_cast<int>(bin.size()) - 1;
+      g->column_labels.push_back(begin == end ? std::to_string(begin)
+                                              : std::to_string(begin) + "\xE2\x80\x93" +
+                                                    std::to_string(end));
+    }
+    g->column_bold.push_back(false);
+  }
+  g->column_labels.push_back("all regions");
+  g->column_bold.push_back(true);
+  g->gap_before = {static_cast<int>(bins.size())};
+}
+
+// One row per heading: the share of its items priced in each bin and in all
+// `num_regions`. Returns the share over every heading.
+double CoverageRows(const Survey& s, const std::vector<std::vector<int>>& bins, int num_regions,
+                    GridSpec* g) {
+  // Items priced per region x heading, from the cell table.
+  std::vector<std::vector<int>> priced(s.num_headings(), std::vector<int>(s.num_regions(), 0));
+  for (int h = 0; h < s.num_headings(); ++h) {
+    const HeadingRange& range = s.heading_range[h];
+    for (int64_t c = range.cell_begin; c < range.cell_end; ++c) ++priced[h][s.cells.region[c]];
+  }
+  const int n = num_regions;
+  int64_t total_priced = 0, total_possible = 0;
+  for (int h = 0; h < s.num_headings(); ++h) {
+    const int num_items = s.heading_range[h].num_items();
+    g->row_labels.push_back(s.heading_codes[h]);
+    g->row_tips.push_back(s.heading_codes[h] + ": " + FormatCount(num_items) + " items, " +
+                          FormatCount(s.heading_range[h].num_cells()) + " cells");
+    std::vector<double> line;
+    int64_t heading_priced = 0;
+    for (const std::vector<int>& bin : bins) {
+      int64_t sum = 0;
+      for (int r : bin) sum += priced[h][r];
+      line.push_back(num_items > 0
+                         ? static_cast<double>(sum) / (static_cast<double>(num_items) * bin.size())
+                         : kNaN);
+      heading_priced += sum;
+    }
+    line.push_back(num_items > 0
+                       ? static_cast<double>(heading_priced) / (static_cast<double>(num_items) * n)
+                       : kNaN);
+    total_priced += heading_priced;
+    total_possible += static_cast<int64_t>(num_items) * n;
+    g->values.push_back(line);
+  }
+  return total_possible > 0 ? static_cast<double>(total_priced) / total_possible : kNaN;
+}
+
+}  // namespace
+
+std::string CoverageSection(const Context& ctx) {
+  const std::vector<std::vector<int>> bins = RankBins(ctx);
+  const int n = static_cast<int>(ctx.order.size() + ctx.missing.size());
+  const int num_bins = static_cast<int>(bins.size());
+  const bool binned = num_bins < n;
+  GridSpec g;
+  g.id = "coverage-grid";
+  g.aria = "share of each heading's items priced in each region";
+  CoverageColumns(ctx, bins, binned, &g);
+  const double overall = CoverageRows(ctx.survey, bins, n, &g);
+  g.colour = [](double v) { return Interpolate(kSequentialStops, v); };
+  g.format = [](double v) { return FormatFixed(100.0 * v, 0); };
+  g.tip = [&g, &bins, &ctx, binned](int r, int c, double v) {
+    std::string where = "all regions";
+    if (c < static_cast<int>(bins.size())) {
+      where = binned ? "ranks " + g.column_labels[c] + ", " + ctx.Code(bins[c].front()) + " to " +
+                           ctx.Code(bins[c].back()) + " (" + std::to_string(bins[c].size()) +
+                           " regions)"
+                     : ctx.Code(bins[c].front());
+    }
+    return g.row_labels[r] + " \xC2\xB7 " + where + ": " + Percent(v, 1) + " of items priced";
+  };
+  g.max_cell_w = 44.0;
+  std::string out = OpenSection("coverage", "Coverage of the survey");
+  out +=
+      "<p>Share of each basic heading's items that were priced in each region (percent; regions "
+      "in price-level order, dearest first). Overall " +
+      Percent(overall, 1) +
+      " of heading items were priced. Thin coverage makes a heading's parity rest on few "
+      "items.</p>\n";
+  out += Grid(g);
+  if (binned) {
+    out += "<p class=\"note\">" + FormatCount(n) + " regions in " + FormatCount(num_bins) +
+           " columns of consecutive price-level ranks (1 = dearest; regions without a price level "
+           "last); a column shows the mean share of its regions.</p>\n";
+  }
+  out += "<div class=\"legend-row\">" + SequentialLegend("legend-coverage") +
+         "<span class=\"key\"><svg width=\"16\" height=\"12\"><rect class=\"cell none\" "
+         "width=\"16\" height=\"12\"/></svg> heading lists no items</span></div>\n";
+  return out + "</section>\n";
+}
+
+}  // namespace paritas::internal::report

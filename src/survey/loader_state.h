@@ -1,0 +1,117 @@
+// What the phases of the survey loader share: the state being built, the
+// collection of rejected rows and the checks every table applies. The small
+// tables (small_tables.cc) and prices.csv (price_reader.cc) fill a LoadState;
+// survey_build.cc turns it into the Survey; survey_loader.cc runs the phases.
+#ifndef PARITAS_INTERNAL_SURVEY_LOADER_STATE_H_
+#define PARITAS_INTERNAL_SURVEY_LOADER_STATE_H_
+
+#include <cstddef>
+#include <cstdint>
+#include <string>
+#include <string_view>
+#include <utility>
+#include <vector>
+
+#include "paritas/base/code_table.h"
+#include "paritas/base/csv.h"
+#include "paritas/survey/config.h"
+#include "paritas/survey/survey.h"
+#include "paritas/survey/survey_loader.h"
+#include "survey/cell_prices.h"
+
+namespace paritas::internal {
+
+// Collects rejected rows under the chosen policy.
+class Rejections {
+ public:
+  Rejections(const LoadOptions& options, LoadSummary* summary)
+      : options_(options), summary_(summary) {}
+
+  // Counts rejected rows whose text is not kept.
+  void Count(int64_t num_rows, InputFileSummary* file) {
+    file->rows_rejected += num_rows;
+    summary_->num_rows_rejected += num_rows;
+  }
+
+  void Add(RejectedRow row, InputFileSummary* file) {
+    ++file->rows_rejected;
+    ++summary_->num_rows_rejected;
+    if (options_.invalid_rows == InvalidRowPolicy::kSkip ||
+        static_cast<int>(summary_->rejected_rows.size()) < options_.max_reported_rows) {
+      summary_->rejected_rows.push_back(std::move(row));
+    }
+  }
+
+ private:
+  const LoadOptions& options_;
+  LoadSummary* summary_;
+};
+
+// Column positions of one table, found by name.
+struct Columns {
+  std::vector<int> index;  // per wanted column, -1 when absent
+  int num_fields = 0;
+};
+
+// Reads the header row, checks required and duplicated columns, and records
+// the ignored ones in `file`.
+bool ReadHeader(CsvReader* reader, const std::string& path, const std::vector<std::string>& wanted,
+                const std::vector<bool>& required, Columns* columns, InputFileSummary* file,
+                std::string* error);
+
+// Checks a code field; returns an empty string when valid, else the reason.
+std::string CheckCode(std::string_view code, const char* what);
+
+// The reason for rejecting a row of `found` fields under a header of `expected`.
+std::string FieldCountProblem(size_t found, int expected);
+
+// ---------------------------------------------------------------------------
+// Shared state while loading.
+
+struct LoadState {
+  const RunConfig* config = nullptr;
+  // Regions: fixed by regions.csv when given; otherwise grows.
+  bool regions_fixed = false;
+  CodeTable regions;
+  std::vector<std::string> region_name;
+  std::vector<double> region_population;
+  // Headings: fixed by the classification when given; otherwise grows.
+  bool headings_fixed = false;
+  CodeTable headings;
+  // Items with their heading and where that was first stated.
+  CodeTable items;
+  std::vector<int> item_heading;
+  std::vector<std::string> item_origin;  // "items.csv:12" or "line 40"
+  std::vector<std::string> item_description, item_unit;
+  bool has_catalog = false;
+  // Quotes used, in file order, with state indices of region and item.
+  QuoteArrays quotes;
+  int64_t num_quotes = 0;
+  // Expenditure rows.
+  struct Spending {
+    int region, heading;
+    double value;
+  };
+  std::vector<Spending> spending;
+};
+
+// What became of a data row: used (empty reason), or rejected for `reason`
+
+// The phases, in the order LoadSurvey runs them. Each returns false with a
+// message in *error when the file cannot be read at all; rows it cannot use
+// go to `rejections`.
+bool ReadRegions(const std::string& path, LoadState* state, Rejections* rejections,
+                 InputFileSummary* file, std::string* error);
+bool ReadItems(const std::string& path, LoadState* state, Rejections* rejections,
+               InputFileSummary* file, std::string* error);
+bool ReadPrices(const std::string& path, const LoadOptions& options, LoadState* state,
+                Rejections* rejections, InputFileSummary* file, std::string* error);
+bool ReadExpenditure(const std::string& path, LoadState* state, Rejections* rejections,
+                     InputFileSummary* file, std::string* error);
+// Orders regions, headings and items, builds the cells from the quotes
+// (which it empties) and fills the expenditure table.
+void BuildSurvey(LoadState* state, int num_threads, Survey* survey);
+
+}  // namespace paritas::internal
+
+#endif  // PARITAS_INTERNAL_SURVEY_LOADER_STATE_H_

@@ -1,0 +1,614 @@
+// Reads prices.csv, which can hold tens of millions of quotes, in blocks
+// that are split at record boundaries into fixed-size chunks parsed in
+// parallel. Each chunk interns codes and keeps its quotes locally; chunks
+// are merged in file order, so the result does not depend on the number of
+// threads, and the text of at most one block is held at once.
+#include <omp.h>
+
+#include <algorithm>
+#include <cerrno>
+#include <cmath>
+#include <cstdio>
+#include <cstring>
+#include <filesystem>
+#include <string>
+#include <unordered_map>
+#include <vector>
+
+#include "base/equal_bytes.h"
+#include "base/sha256.h"
+#include "paritas/base/csv.h"
+#include "paritas/base/text.h"
+#include "survey/loader_state.h"
+
+namespace paritas::internal {
+namespace {
+
+// Chunk size for parallel parsing: boundaries depend on the data only.
+constexpr size_t kChunkBytes = 1 << 21;
+
+struct PriceColumns {
+  int region = -1, item = -1, price = -1, heading = -1, representative = -1;
+  int num_fields = 0;
+};
+
+// What a chunk knows about an item it has seen.
+struct LocalItem {
+  int global = -1;         // index in LoadState::items when known before the block
+  int local_heading = -1;  // local heading index when first stated in this chunk
+  int64_t line = 0;        // line of that first statement
+};
+
+struct ChunkResult {
+  CodeTable regions;
+  CodeTable items;
+  CodeTable headings;
+  std::vector<LocalItem> item_info;
+  // Quotes used, with chunk-local region and item indices.
+  QuoteArrays quotes;
+
+  // Empties the result, keeping the capacity of its arrays.
+  void Reset() {
+    regions = CodeTable();
+    items = CodeTable();
+    headings = CodeTable();
+    item_info.clear();
+    quotes.region.clear();
+    quotes.item.clear();
+    quotes.log_price.clear();
+    quotes.representative.clear();
+    rejected.clear();
+    num_rejected_not_kept = 0;
+    rows_read = 0;
+    rows_used = 0;
+    items_without_heading.clear();
+    fatal.clear();
+  }
+  std::vector<RejectedRow> rejected;
+  // Rejected rows beyond the ones kept for the message (under kStop).
+  int64_t num_rejected_not_kept = 0;
+  int64_t rows_read = 0;
+  int64_t rows_used = 0;
+  // Local items rejected for an empty heading before this chunk stated one;
+  // an earlier chunk may have stated it, which only a pass in order sees.
+  std::vector<int> items_without_heading;
+  std::string fatal;  // malformed CSV
+};
+
+// Parses one chunk of prices.csv against the state as it was before the
+// block. The row is read field by field; each step returns false once it has
+// rejected the row.
+class ChunkParser {
+ public:
+  ChunkParser(std::string_view data, int64_t first_line, const PriceColumns& columns,
+              const std::string& path, const LoadState& state, bool keep_all_rejected,
+              size_t max_rejected, ChunkResult* out)
+      : reader_(data, first_line, /*skip_bom=*/false),
+        columns_(columns),
+        path_(path),
+        state_(state),
+        keep_all_rejected_(keep_all_rejected),
+        max_rejected_(max_rejected),
+        out_(out),
+        has_heading_(columns.heading >= 0),
+        has_flag_(columns.representative >= 0) {
+    // A quote row takes at least about a dozen bytes.
+    const size_t expected_rows = data.size() / 12 + 16;
+    out->quotes.region.reserve(expected_rows);
+    out->quotes.item.reserve(expected_rows);
+    out->quotes.log_price.reserve(expected_rows);
+    if (has_flag_) out->quotes.representative.reserve(expected_rows);
+  }
+
+  void Run() {
+    while (reader_.Next(&record_)) {
+      ++out_->rows_read;
+      if (static_cast<int>(record_.fields.size()) != columns_.num_fields) {
+        Reject(0, FieldCountProblem(record_.fields.size(), columns_.num_fields));
+        continue;
+      }
+      if (!ReadRegion() || !ReadItem()) continue;
+      LocalItem& info = out_->item_info[item_local_];
+      // A heading first stated by this row counts only once the row is used,
+      // so a rejected row never files an item.
+      int new_heading = -1;
+      if ((info.global < 0 || has_heading_) && !ReadHeading(info, &new_heading)) continue;
+      double price = 0.0;
+      bool representative = false;
+      if (!ReadPrice(&price) || !ReadFlag(&representative)) continue;
+      if (new_heading >= 0) {
+        info.local_heading = new_heading;
+        info.line = record_.line;
+      }
+      out_->quotes.region.push_back(region_local_);
+      out_->quotes.item.push_back(item_local_);
+      out_->quotes.log_price.push_back(std::log(price));
+      if (has_flag_) out_->quotes.representative.push_back(representative ? 1 : 0);
+      ++out_->rows_used;
+    }
+    if (!reader_.error().empty()) out_->fatal = path_ + ":" + reader_.error();
+  }
+
+ private:
+  void Reject(int column, const std::string& what) {
+    if (keep_all_rejected_ || out_->rejected.size() < max_rejected_) {
+      out_->rejected.push_back({path_, record_.line,
+                                LocatedMessage(path_, record_.line, column, what),
+                                std::string(record_.raw)});
+    } else {
+      ++out_->num_rejected_not_kept;
+    }
+  }
+
+  bool ReadRegion() {
+    const std::string_view region = record_.fields[columns_.region];
+    if (region_local_ >= 0 && EqualBytes(region, last_region_)) return true;
+    const std::string_view code = Trim(region);
+    if (std::string problem = CheckCode(code, "region"); !problem.empty()) {
+      Reject(columns_.region + 1, problem);
+      return false;
+    }
+    if (state_.regions_fixed && state_.regions.Find(code) < 0) {
+      Reject(columns_.region + 1,
+             "region " + QuoteValue(code) + " is not in " + state_.config->survey.regions);
+      return false;
+    }
+    region_local_ = out_->regions.Intern(code);
+    last_region_ = region;
+    return true;
+  }
+
+  bool ReadItem() {
+    const std::string_view item = record_.fields[columns_.item];
+    if (item_local_ >= 0 && EqualBytes(item, last_item_)) return true;
+    // Rows run through the items in much the same order in every region,
+    // so the item that followed this one last time is tried before the
+    // table: a byte comparison instead of a hash and a probe. A code in
+    // the table is trimmed and valid, so a match needs no further check.
+    const int previous = item_local_;
+    const int guess = previous >= 0 ? successor_[previous] : -1;
+    if (guess >= 0 && EqualBytes(out_->items.Code(guess), item)) {
+      item_local_ = guess;
+    } else {
+      const std::string_view code = Trim(item);
+      if (std::string problem = CheckCode(code, "item"); !problem.empty()) {
+        Reject(columns_.item + 1, problem);
+        item_local_ = -1;
+        return false;
+      }
+      const int index = out_->items.Intern(code);
+      if (index == static_cast<int>(out_->item_info.size())) {
+        // An item known before this block counts only once its heading is known.
+        int global = state_.items.Find(code);
+        if (global >= 0 && state_.item_heading[global] < 0) global = -1;
+        out_->item_info.push_back({global, -1, 0});
+        successor_.push_back(-1);
+      }
+      if (previous >= 0) successor_[previous] = index;
+      item_local_ = index;
+    }
+    last_item_ = item;
+    return true;
+  }
+
+  // Checks the row's heading against what is known of the item; sets
+  // *new_heading when this row is the first to state it.
+  bool ReadHeading(const LocalItem& info, int* new_heading) {
+    const std::string_view heading =
+        has_heading_ ? Trim(record_.fields[columns_.heading]) : std::string_view();
+    const std::string_view item_code = out_->items.Code(item_local_);
+    if (info.global >= 0) {
+      const std::string_view known = state_.headings.Code(state_.item_heading[info.global]);
+      if (!heading.empty() && heading != known) {
+        Reject(columns_.heading + 1, "item " + QuoteValue(item_code) + " is filed under heading " +
+                                         QuoteValue(heading) + " but under " + QuoteValue(known) +
+                                         " at " + state_.item_origin[info.global]);
+        return false;
+      }
+      return true;
+    }
+    if (heading.empty()) {
+      if (info.local_heading >= 0) return true;
+      RejectMissingHeading(item_code);
+      return false;
+    }
+    if (std::string problem = CheckCode(heading, "heading"); !problem.empty()) {
+      Reject(columns_.heading + 1, problem);
+      return false;
+    }
+    if (state_.headings_fixed && state_.headings.Find(heading) < 0) {
+      Reject(columns_.heading + 1,
+             "heading " + QuoteValue(heading) + " is not in the classification");
+      return false;
+    }
+    if (info.local_heading < 0) {
+      *new_heading = out_->headings.Intern(heading);
+    } else if (out_->headings.Code(info.local_heading) != heading) {
+      Reject(columns_.heading + 1, "item " + QuoteValue(item_code) + " is filed under heading " +
+                                       QuoteValue(heading) + " but under " +
+                                       QuoteValue(out_->headings.Code(info.local_heading)) +
+                                       " at line " + std::to_string(info.line));
+      return false;
+    }
+    return true;
+  }
+
+  // Rejects a row whose item has no heading yet: none in the row, and the
+  // item neither in items.csv nor stated earlier in this chunk.
+  void RejectMissingHeading(std::string_view item_code) {
+    std::string what;
+    if (!has_heading_) {
+      what = "item " + QuoteValue(item_code) + " is not in " + state_.config->survey.items;
+    } else if (state_.has_catalog) {
+      what = "heading is empty and item " + QuoteValue(item_code) + " is not in " +
+             state_.config->survey.items;
+    } else {
+      what = "heading is empty";
+    }
+    if (has_heading_) out_->items_without_heading.push_back(item_local_);
+    Reject(has_heading_ ? columns_.heading + 1 : columns_.item + 1, what);
+  }
+
+  bool ReadPrice(double* price) {
+    const std::string_view price_text = record_.fields[columns_.price];
+    const NumberStatus status = ParseNumber(price_text, price);
+    if (status != NumberStatus::kOk) {
+      Reject(columns_.price + 1, NumberProblem(status, "price", price_text));
+      return false;
+    }
+    if (!(*price > 0)) {
+      Reject(columns_.price + 1, "price " + QuoteValue(price_text) + " is not a positive number");
+      return false;
+    }
+    return true;
+  }
+
+  bool ReadFlag(bool* representative) {
+    if (!has_flag_) return true;
+    const std::string_view flag = Trim(record_.fields[columns_.representative]);
+    if (!flag.empty() && !ParseFlag(flag, representative)) {
+      Reject(columns_.representative + 1,
+             "representative " + QuoteValue(flag) + " is not one of 1/0, yes/no, true/false");
+      return false;
+    }
+    return true;
+  }
+
+  CsvReader reader_;
+  CsvRecord record_;
+  const PriceColumns& columns_;
+  const std::string& path_;
+  const LoadState& state_;
+  const bool keep_all_rejected_;
+  const size_t max_rejected_;
+  ChunkResult* out_;
+  const bool has_heading_;
+  const bool has_flag_;
+  // Copies, not views: a field unescaped into record.scratch is overwritten
+  // (or freed) by the next record.
+  std::string last_region_, last_item_;
+  int region_local_ = -1, item_local_ = -1;
+  // Per local item, the local item that followed it last (-1: none yet).
+  std::vector<int> successor_;
+};
+
+void ParsePriceChunk(std::string_view data, int64_t first_line, const PriceColumns& columns,
+                     const std::string& path, const LoadState& state, bool keep_all_rejected,
+                     size_t max_rejected, ChunkResult* out) {
+  ChunkParser(data, first_line, columns, path, state, keep_all_rejected, max_rejected, out).Run();
+}
+
+// Counts '\n' in `data`. Per 4 KiB a 32-bit count, which the compiler keeps
+// in vector lanes, is several times faster than std::count's 64-bit one.
+int64_t CountNewlines(std::string_view data) {
+  const char* p = data.data();
+  size_t left = data.size();
+  int64_t total = 0;
+  while (left > 0) {
+    const size_t n = std::min<size_t>(left, 4096);
+    uint32_t count = 0;
+    for (size_t i = 0; i < n; ++i) count += p[i] == '\n';
+    total += count;
+    p += n;
+    left -= n;
+  }
+  return total;
+}
+
+// Chunk start offsets at record boundaries, about kChunkBytes apart.
+std::vector<size_t> ChunkStarts(std::string_view data) {
+  std::vector<size_t> starts = {0};
+  const bool has_quotes = std::memchr(data.data(), '"', data.size()) != nullptr;
+  if (!has_quotes) {
+    size_t next = kChunkBytes;
+    while (next < data.size()) {
+      const size_t newline = data.find('\n', next);
+      if (newline == std::string_view::npos || newline + 1 >= data.size()) break;
+      starts.push_back(newline + 1);
+      next = newline + 1 + kChunkBytes;
+    }
+    return starts;
+  }
+  bool quoted = false;
+  size_t next = kChunkBytes;
+  for (size_t i = 0; i + 1 < data.size(); ++i) {
+    const char c = data[i];
+    if (c == '"') quoted = !quoted;
+    if (c == '\n' && !quoted && i + 1 >= next) {
+      starts.push_back(i + 1);
+      next = i + 1 + kChunkBytes;
+    }
+  }
+  return starts;
+}
+
+class PriceReader {
+ public:
+  PriceReader(const std::string& path, const LoadOptions& options, LoadState* state,
+              Rejections* rejections, InputFileSummary* file)
+      : path_(path), options_(options), state_(state), rejections_(rejections), file_(file) {}
+
+  bool Read(std::string* error) {
+    std::FILE* stream = std::fopen(path_.c_str(), "rb");
+    if (stream == nullptr) {
+      *error = path_ + ": cannot open file: " + std::strerror(errno);
+      return false;
+    }
+    std::string buffer;
+    bool ok = ReadBlocks(stream, &buffer, error);
+    std::fclose(stream);
+    file_->sha256 = digest_.HexDigest();
+    return ok;
+  }
+
+ private:
+  bool ReadBlocks(std::FILE* stream, std::string* buffer, std::string* error) {
+    size_t block = static_cast<size_t>(std::max<int64_t>(options_.block_bytes, 1 << 16));
+    // A block larger than the file would only cost zero-filling the buffer.
+    std::error_code size_error;
+    const uintmax_t file_bytes = std::filesystem::file_size(path_, size_error);
+    if (!size_error && file_bytes + 1 < block) block = std::max<size_t>(file_bytes + 1, 1 << 16);
+    size_t carried = 0;  // bytes of an incomplete record kept from the last block
+    int64_t line = 1;
+    bool header_done = false;
+    bool at_eof = false;
+    while (!at_eof) {
+      // The buffer only grows (a record longer than a block), so it is
+      // zero-filled once rather than for every block.
+      if (buffer->size() < carried + block) buffer->resize(carried + block);
+      const size_t got = std::fread(buffer->data() + carried, 1, block, stream);
+      if (std::ferror(stream)) {
+        *error = path_ + ": cannot read file: " + std::strerror(errno);
+        return false;
+      }
+      at_eof = got < block;
+      file_->size_bytes += static_cast<int64_t>(got);
+      // The new bytes are hashed alongside the parse of their block.
+      std::string_view fresh(buffer->data() + carried, got);
+      std::string_view data(buffer->data(), carried + got);
+      bytes_seen_ += got;
+      size_t start = 0;
+      if (!header_done) {
+        // The header must lie in the first block; a longer header line is
+        // read block by block until it ends.
+        const size_t end = at_eof ? data.size() : LastRecordEnd(data);
+        if (end == 0 && !at_eof) {
+          digest_.Update(fresh.data(), fresh.size());
+          carried = data.size();
+          continue;
+        }
+        CsvReader reader(data.substr(0, end), 1, /*skip_bom=*/true);
+        if (!ReadPriceHeader(&reader, error)) return false;
+        start = reader.position();
+        line = reader.line();
+        header_done = true;
+      }
+      const size_t end = at_eof ? data.size() : start + LastRecordEnd(data.substr(start));
+      int64_t num_newlines = 0;
+      if (!ParseBlock(data.substr(start, end - start), line, fresh, &num_newlines, error))
+        return false;
+      line += num_newlines;
+      // Keep the incomplete tail for the next block.
+      std::memmove(buffer->data(), buffer->data() + end, data.size() - end);
+      carried = data.size() - end;
+    }
+    if (!header_done) {
+      *error = path_ + ": file is empty (expected a header row with columns region, item, price)";
+      return false;
+    }
+    return true;
+  }
+
+  bool ReadPriceHeader(CsvReader* reader, std::string* error) {
+    Columns found;
+    if (!ReadHeader(reader, path_, {"region", "item", "price", "heading", "representative"},
+                    {true, true, true, false, false}, &found, file_, error)) {
+      return false;
+    }
+    columns_.region = found.index[0];
+    columns_.item = found.index[1];
+    columns_.price = found.index[2];
+    columns_.heading = found.index[3];
+    columns_.representative = found.index[4];
+    columns_.num_fields = found.num_fields;
+    if (columns_.heading < 0 && !state_->has_catalog) {
+      *error =
+          path_ +
+          ":1: no column 'heading' and no items file (survey.items) to give each item's heading";
+      return false;
+    }
+    return true;
+  }
+
+  // Parses one block of whole records starting at line `first_line`, and
+  // sets *num_newlines to the newlines it holds.
+  bool ParseBlock(std::string_view data, int64_t first_line, std::string_view to_hash,
+                  int64_t* num_newlines, std::string* error) {
+    *num_newlines = 0;
+    if (data.empty()) {
+      digest_.Update(to_hash.data(), to_hash.size());
+      return true;
+    }
+    std::vector<size_t> starts = ChunkStarts(data);
+    // Newlines per chunk, counted in parallel, give each chunk's first line.
+    const int num_starts = static_cast<int>(starts.size());
+    std::vector<int64_t> lines(starts.size() + 1, 0);
+#pragma omp parallel for schedule(static) num_threads(NumThreads(num_starts))
+    for (int c = 0; c < num_starts; ++c) {
+      const size_t end = c + 1 < num_starts ? starts[c + 1] : data.size();
+      lines[c + 1] = CountNewlines(data.substr(starts[c], end - starts[c]));
+    }
+    lines[0] = first_line;
+    for (size_t c = 1; c < lines.size(); ++c) lines[c] += lines[c - 1];
+    *num_newlines = lines.back() - first_line;
+    // Chunk results are kept between blocks so their arrays keep their
+    // capacity instead of being allocated (and page-faulted) again.
+    std::vector<ChunkResult>& results = results_;
+    results.resize(starts.size());
+    for (ChunkResult& result : results) result.Reset();
+    const bool keep_all = options_.invalid_rows == InvalidRowPolicy::kSkip;
+    const size_t max_rejected = static_cast<size_t>(std::max(options_.max_reported_rows, 0));
+    const int num_chunks = static_cast<int>(starts.size());
+    // One more task than chunks: it hashes the block's new bytes while the
+    // chunks are parsed (blocks are hashed in order: one block at a time).
+#pragma omp parallel for schedule(dynamic, 1) num_threads(NumThreads(num_chunks + 1))
+    for (int c = 0; c <= num_chunks; ++c) {
+      if (c == num_chunks) {
+        digest_.Update(to_hash.data(), to_hash.size());
+        continue;
+      }
+      const size_t end = c + 1 < num_chunks ? starts[c + 1] : data.size();
+      ParsePriceChunk(data.substr(starts[c], end - starts[c]), lines[c], columns_, path_, *state_,
+                      keep_all, max_rejected, &results[c]);
+    }
+    if (HasCrossChunkConflict(results)) {
+      // Two chunks state different headings for a new item, or a chunk
+      // lacks a heading an earlier chunk stated: only a pass in file order
+      // can tell which statement comes first.
+      results.resize(1);
+      results[0].Reset();
+      ParsePriceChunk(data, first_line, columns_, path_, *state_, keep_all, max_rejected,
+                      &results[0]);
+    }
+    // Sized before the first block is merged, so the first block's quotes
+    // are not copied (and their pages touched) twice.
+    int64_t block_rows_read = 0, block_rows_used = 0;
+    for (const ChunkResult& result : results) {
+      block_rows_read += result.rows_read;
+      block_rows_used += result.rows_used;
+    }
+    ReserveQuotes(block_rows_read, block_rows_used);
+    for (ChunkResult& result : results) {
+      if (!result.fatal.empty()) {
+        *error = result.fatal;
+        return false;
+      }
+      Merge(&result);
+    }
+    return true;
+  }
+
+  // At the first block, sizes the survey's quote arrays for the whole file
+  // from the bytes per row seen so far, so they are not copied as they grow.
+  void ReserveQuotes(int64_t block_rows_read, int64_t block_rows_used) {
+    if (reserved_ || file_->rows_read + block_rows_read == 0) return;
+    reserved_ = true;
+    std::error_code ec;
+    const double file_bytes = static_cast<double>(std::filesystem::file_size(path_, ec));
+    if (ec || bytes_seen_ == 0) return;
+    const double rows_used = static_cast<double>(file_->rows_used + block_rows_used);
+    const double rows = 1.05 * rows_used * file_bytes / static_cast<double>(bytes_seen_);
+    const size_t n = static_cast<size_t>(std::min(rows, 4e9));
+    QuoteArrays& quotes = state_->quotes;
+    quotes.region.reserve(n);
+    quotes.item.reserve(n);
+    quotes.log_price.reserve(n);
+    if (columns_.representative >= 0) quotes.representative.reserve(n);
+  }
+
+  int NumThreads(int num_chunks) const {
+    const int available = options_.num_threads > 0 ? options_.num_threads : omp_get_max_threads();
+    return std::max(1, std::min(available, num_chunks));
+  }
+
+  bool HasCrossChunkConflict(const std::vector<ChunkResult>& results) const {
+    if (results.size() < 2) return false;
+    std::unordered_map<std::string_view, std::string_view> stated;
+    for (const ChunkResult& result : results) {
+      for (int i : result.items_without_heading) {
+        if (stated.count(result.items.Code(i)) > 0) return true;
+      }
+      for (int i = 0; i < result.items.size(); ++i) {
+        const LocalItem& info = result.item_info[i];
+        if (info.global >= 0 || info.local_heading < 0) continue;
+        auto [it, inserted] =
+            stated.emplace(result.items.Code(i), result.headings.Code(info.local_heading));
+        if (!inserted && it->second != result.headings.Code(info.local_heading)) return true;
+      }
+    }
+    return false;
+  }
+
+  void Merge(ChunkResult* result) {
+    file_->rows_read += result->rows_read;
+    file_->rows_used += result->rows_used;
+    for (RejectedRow& row : result->rejected) rejections_->Add(std::move(row), file_);
+    rejections_->Count(result->num_rejected_not_kept, file_);
+    std::vector<int> region_map(result->regions.size());
+    for (int r = 0; r < result->regions.size(); ++r) {
+      region_map[r] = state_->regions.Intern(result->regions.Code(r));
+    }
+    std::vector<int> item_map(result->items.size());
+    for (int i = 0; i < result->items.size(); ++i) {
+      const LocalItem& info = result->item_info[i];
+      const std::string_view code = result->items.Code(i);
+      const int before = state_->items.size();
+      const int global = state_->items.Intern(code);
+      item_map[i] = global;
+      if (global == before) {
+        state_->item_heading.push_back(-1);
+        state_->item_origin.emplace_back();
+        state_->item_description.emplace_back();
+        state_->item_unit.emplace_back();
+      }
+      if (state_->item_heading[global] < 0 && info.local_heading >= 0) {
+        // First statement of this item's heading (no items.csv entry).
+        state_->item_heading[global] =
+            state_->headings.Intern(result->headings.Code(info.local_heading));
+        state_->item_origin[global] = "line " + std::to_string(info.line);
+      }
+    }
+    state_->num_quotes += result->rows_used;
+    const QuoteArrays& local = result->quotes;
+    QuoteArrays& global = state_->quotes;
+    for (size_t q = 0; q < local.size(); ++q) {
+      global.region.push_back(region_map[local.region[q]]);
+      global.item.push_back(item_map[local.item[q]]);
+    }
+    global.log_price.insert(global.log_price.end(), local.log_price.begin(), local.log_price.end());
+    global.representative.insert(global.representative.end(), local.representative.begin(),
+                                 local.representative.end());
+  }
+
+ private:
+  std::string path_;
+  const LoadOptions& options_;
+  LoadState* state_;
+  Rejections* rejections_;
+  InputFileSummary* file_;
+  PriceColumns columns_;
+  Sha256 digest_;
+  std::vector<ChunkResult> results_;
+  int64_t bytes_seen_ = 0;
+  bool reserved_ = false;
+};
+
+}  // namespace
+
+bool ReadPrices(const std::string& path, const LoadOptions& options, LoadState* state,
+                Rejections* rejections, InputFileSummary* file, std::string* error) {
+  PriceReader prices(path, options, state, rejections, file);
+  return prices.Read(error);
+}
+
+}  // namespace paritas::internal

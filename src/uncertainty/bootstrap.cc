@@ -1,0 +1,140 @@
+// Bootstrap over items, stratified by heading: replicate b draws each
+// heading's items with replacement from its own random stream (seed, b) and
+// writes only its own slots, so results do not depend on the number of
+// threads or on scheduling.
+#include <algorithm>
+#include <cmath>
+#include <numeric>
+#include <vector>
+
+#include "uncertainty/sensitivity_parts.h"
+
+namespace paritas::internal {
+namespace {
+
+// Every replicate's ln parities and ranks, [node][region][replicate], so each
+// statistic reads a contiguous run.
+struct Replicates {
+  int num_replicates = 0;
+  std::vector<double> log_parity;
+  std::vector<int32_t> rank;
+  std::vector<uint8_t> unlinked;  // per replicate: some heading or aggregate unlinked
+  std::vector<uint8_t> lost;      // per replicate: some region lost a full-sample parity
+};
+
+// Multiplicities of one resample: as many draws per heading as it has items.
+void DrawItemWeights(const Chain& chain, Stream* stream, std::vector<double>* weight) {
+  std::fill(weight->begin(), weight->end(), 0.0);
+  for (int h = 0; h < chain.num_headings; ++h) {
+    const std::vector<int>& items = chain.heading_items[h];
+    const int n = static_cast<int>(items.size());
+    for (int k = 0; k < n; ++k) (*weight)[items[stream->Below(n)]] += 1.0;
+  }
+}
+
+Replicates RunReplicates(const FullSample& full, const SensitivityOptions& options) {
+  const Chain& chain = full.chain;
+  const int num_nodes = chain.num_nodes, num_regions = chain.num_regions;
+  const int num_b = options.replicates;
+  Replicates out;
+  out.num_replicates = num_b;
+  out.log_parity.assign(static_cast<size_t>(num_nodes) * num_regions * num_b, kNaN);
+  out.rank.assign(out.log_parity.size(), 0);
+  out.unlinked.assign(num_b, 0);
+  out.lost.assign(num_b, 0);
+  Progress progress{&options, "bootstrap", num_b};
+#pragma omp parallel num_threads(full.num_threads)
+  {
+    std::vector<double> weight(full.survey->num_items());
+    Eigen::MatrixXd heading_lp, node_lp;
+    Eigen::MatrixXi rank;
+#pragma omp for schedule(dynamic, 1)
+    for (int b = 0; b < num_b; ++b) {
+      Stream stream(options.seed, kBootstrapStream | static_cast<uint64_t>(b));
+      DrawItemWeights(chain, &stream, &weight);
+      const ReplicateOutcome outcome =
+          RunChain(chain, full.node_expenditure, weight, &heading_lp, &node_lp);
+      RankRows(node_lp, &rank);
+      out.unlinked[b] = outcome.num_unlinked > 0;
+      for (int n = 0; n < num_nodes; ++n) {
+        for (int r = 0; r < num_regions; ++r) {
+          const size_t slot = (static_cast<size_t>(n) * num_regions + r) * num_b + b;
+          out.log_parity[slot] = node_lp(n, r);
+          out.rank[slot] = rank(n, r);
+          if (std::isfinite(full.node_log_parity(n, r)) && !std::isfinite(node_lp(n, r))) {
+            out.lost[b] = 1;
+          }
+        }
+      }
+      progress.Step();
+    }
+  }
+  progress.Finish();
+  return out;
+}
+
+// The statistics of one node and region from the replicates that gave it a
+// parity (`values`: ln parities, `ranks`: their ranks, both in replicate order).
+void CellStatistics(int n, int r, double alpha, std::vector<double>* values,
+                    std::vector<double>* ranks, SensitivityResult* result) {
+  result->boot_num_replicates(n, r) = static_cast<int>(values->size());
+  if (values->size() < 2) return;
+  const double mean = std::accumulate(values->begin(), values->end(), 0.0) / values->size();
+  double ss = 0.0;
+  for (double v : *values) ss += (v - mean) * (v - mean);
+  result->boot_log_se(n, r) = std::sqrt(ss / (values->size() - 1.0));
+  std::sort(values->begin(), values->end());
+  std::sort(ranks->begin(), ranks->end());
+  result->boot_median(n, r) = 100.0 * std::exp(PercentileType7(*values, 0.5));
+  result->boot_lower(n, r) = 100.0 * std::exp(PercentileType7(*values, alpha / 2));
+  result->boot_upper(n, r) = 100.0 * std::exp(PercentileType7(*values, 1.0 - alpha / 2));
+  // Whole ranks, rounded outwards so the interval never narrows; the
+  // small tolerance keeps an exact rank from rounding past itself.
+  result->boot_rank_low(n, r) =
+      static_cast<int>(std::floor(PercentileType7(*ranks, alpha / 2) + 1e-9));
+  result->boot_rank_high(n, r) =
+      static_cast<int>(std::ceil(PercentileType7(*ranks, 1.0 - alpha / 2) - 1e-9));
+}
+
+void Summarise(const Replicates& replicates, double level, int num_threads, int num_nodes,
+               int num_regions, SensitivityResult* result) {
+  const int num_b = replicates.num_replicates;
+  result->boot_median = Eigen::MatrixXd::Constant(num_nodes, num_regions, kNaN);
+  result->boot_lower = result->boot_median;
+  result->boot_upper = result->boot_median;
+  result->boot_log_se = result->boot_median;
+  result->boot_rank_low = Eigen::MatrixXi::Zero(num_nodes, num_regions);
+  result->boot_rank_high = result->boot_rank_low;
+  result->boot_num_replicates = result->boot_rank_low;
+  const double alpha = 1.0 - level;
+#pragma omp parallel for schedule(dynamic, 16) num_threads(num_threads)
+  for (int64_t cell = 0; cell < static_cast<int64_t>(num_nodes) * num_regions; ++cell) {
+    const int n = static_cast<int>(cell / num_regions), r = static_cast<int>(cell % num_regions);
+    std::vector<double> values, ranks;
+    for (int b = 0; b < num_b; ++b) {
+      const size_t slot = static_cast<size_t>(cell) * num_b + b;
+      if (!std::isfinite(replicates.log_parity[slot])) continue;
+      values.push_back(replicates.log_parity[slot]);
+      ranks.push_back(replicates.rank[slot]);
+    }
+    CellStatistics(n, r, alpha, &values, &ranks, result);
+  }
+}
+
+}  // namespace
+
+void RunBootstrap(const FullSample& full, const SensitivityOptions& options,
+                  SensitivityResult* result, SensitivitySummary* summary) {
+  const auto start = std::chrono::steady_clock::now();
+  const Replicates replicates = RunReplicates(full, options);
+  summary->num_replicates = replicates.num_replicates;
+  for (int b = 0; b < replicates.num_replicates; ++b) {
+    summary->num_replicates_unlinked += replicates.unlinked[b];
+    summary->num_replicates_region_lost += replicates.lost[b];
+  }
+  Summarise(replicates, options.level, full.num_threads, full.chain.num_nodes,
+            full.chain.num_regions, result);
+  summary->bootstrap_seconds = SecondsSince(start);
+}
+
+}  // namespace paritas::internal

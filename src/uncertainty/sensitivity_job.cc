@@ -1,0 +1,357 @@
+// The `paritas sensitivity` job: load, run, then write the part tables, the
+// report redrawn with the intervals and run.json, whole or not at all. Also
+// what the command prints and what the report and run.json take from a run.
+#include <algorithm>
+#include <cmath>
+#include <filesystem>
+#include <string>
+#include <vector>
+
+#include <nlohmann/json.hpp>
+
+#include "paritas/base/text.h"
+#include "paritas/jobs/guards.h"
+#include "paritas/jobs/jobs.h"
+#include "paritas/output/output_writers.h"
+#include "paritas/output/run_folder.h"
+#include "paritas/output/report.h"
+#include "paritas/output/run_record.h"
+#include "paritas/uncertainty/outliers.h"
+#include "paritas/uncertainty/sensitivity.h"
+
+namespace paritas {
+namespace {
+
+// The finite entries of the root's row (row 0), sorted ascending.
+std::vector<double> SortedFiniteRoot(const Eigen::MatrixXd& matrix) {
+  std::vector<double> values;
+  for (Eigen::Index r = 0; r < matrix.cols(); ++r) {
+    if (std::isfinite(matrix(0, r))) values.push_back(matrix(0, r));
+  }
+  std::sort(values.begin(), values.end());
+  return values;
+}
+
+nlohmann::ordered_json RecordSettings(const SensitivityOptions& options) {
+  nlohmann::ordered_json settings;
+  std::vector<std::string> parts;
+  if (options.run_bootstrap) parts.push_back("bootstrap");
+  if (options.run_leave_one_out) parts.push_back("leave-one-out");
+  if (options.run_coverage) parts.push_back("coverage");
+  if (options.run_methods) parts.push_back("methods");
+  settings["parts"] = parts;
+  settings["replicates"] = options.replicates;
+  settings["seed"] = options.seed;
+  settings["level"] = options.level;
+  settings["coverage_levels"] = options.coverage_levels;
+  settings["coverage_repetitions"] = options.coverage_repetitions;
+  settings["threads"] = options.num_threads;
+  return settings;
+}
+
+nlohmann::ordered_json RecordCounts(const SensitivitySummary& summary) {
+  nlohmann::ordered_json counts;
+  counts["num_replicates"] = summary.num_replicates;
+  counts["num_replicates_unlinked"] = summary.num_replicates_unlinked;
+  counts["num_replicates_region_lost"] = summary.num_replicates_region_lost;
+  counts["num_items_dropped"] = summary.num_items_dropped;
+  counts["num_headings_dropped"] = summary.num_headings_dropped;
+  counts["num_coverage_runs"] = summary.num_coverage_runs;
+  counts["num_method_runs"] = summary.num_method_runs;
+  counts["num_method_runs_failed"] = summary.num_method_runs_failed;
+  return counts;
+}
+
+nlohmann::ordered_json RecordSeconds(const SensitivitySummary& summary) {
+  nlohmann::ordered_json seconds;
+  seconds["full_sample"] = summary.full_sample_seconds;
+  seconds["bootstrap"] = summary.bootstrap_seconds;
+  seconds["leave_one_out"] = summary.leave_one_out_seconds;
+  seconds["coverage"] = summary.coverage_seconds;
+  seconds["methods"] = summary.methods_seconds;
+  return seconds;
+}
+
+// What the terminal says under the table about each part that was run.
+std::string Notes(const SensitivityJobSummary& job) {
+  const SensitivityResult& result = job.result;
+  std::string notes;
+  if (result.boot_median.size() > 0) {
+    notes += "(interval: bootstrap percentile interval of the parity over " +
+             std::to_string(job.sensitivity.num_replicates) +
+             " resamples of the items of every heading; ranks: the same interval for the rank, "
+             "1 = dearest; boot se and jk se: bootstrap and jackknife standard errors of ln "
+             "parity.)\n";
+  }
+  if (result.jackknife_log_se.size() > 0) {
+    notes +=
+        "(largest change: the largest move of the parity when one item or one basic heading "
+        "is left out.)\n";
+  }
+  if (result.method_log_spread.size() > 0) {
+    notes += "(method spread: ln(largest / smallest parity) over the " +
+             std::to_string(result.methods.size()) +
+             " combinations of elementary and aggregation method.)\n";
+  }
+  if (!result.coverage.empty()) {
+    const std::string& root = job.survey.classification.nodes().front().code;
+    notes += "\ncoverage curve for '" + root + "' (median over regions of the sd of ln parity):\n";
+    for (const CoverageLevel& level : result.coverage) {
+      const std::vector<double> sd = SortedFiniteRoot(level.log_sd);
+      notes += "  " + FormatFixed(100.0 * level.coverage, 0) + " % of items: " +
+               (sd.empty() ? std::string("-") : FormatFixed(PercentileType7(sd, 0.5), 4)) + "\n";
+    }
+  }
+  return notes;
+}
+
+// The job's warnings: the full sample's, rows left out, and what the parts
+// met.
+std::vector<std::string> JobWarnings(const SensitivityJobSummary& job) {
+  std::vector<std::string> warnings = job.sensitivity.full_sample.warnings;
+  if (job.load.num_rows_rejected > 0) {
+    warnings.insert(warnings.begin(),
+                    std::to_string(job.load.num_rows_rejected) + " invalid rows left out");
+  }
+  const SensitivitySummary& s = job.sensitivity;
+  if (s.num_replicates_unlinked > 0) {
+    warnings.push_back(std::to_string(s.num_replicates_unlinked) + " of " +
+                       std::to_string(s.num_replicates) +
+                       " bootstrap replicates left some heading's regions unlinked; only the "
+                       "largest linked group had parities there");
+  }
+  if (s.num_replicates_region_lost > 0) {
+    warnings.push_back("in " + std::to_string(s.num_replicates_region_lost) + " of " +
+                       std::to_string(s.num_replicates) +
+                       " bootstrap replicates some region priced none of the items drawn in "
+                       "some heading and had no parity there; column num_replicates of "
+                       "bootstrap.csv says how many replicates each interval rests on");
+  }
+  for (const MethodRun& run : job.result.methods) {
+    if (!run.message.empty()) warnings.push_back("method " + run.name + " failed: " + run.message);
+  }
+  return warnings;
+}
+
+// One table per part that was run.
+std::vector<OutputFile> PartFiles(const SensitivityOptions& options,
+                                  const SensitivityJobSummary& job) {
+  std::vector<OutputFile> files;
+  if (options.run_bootstrap) {
+    files.push_back({"bootstrap.csv", BootstrapCsv(job.survey, job.result)});
+  }
+  if (options.run_leave_one_out) {
+    files.push_back({"leave_one_out.csv", LeaveOneOutCsv(job.survey, job.result)});
+  }
+  if (options.run_coverage) {
+    files.push_back({"coverage_curve.csv", CoverageCurveCsv(job.survey, job.result)});
+  }
+  if (options.run_methods) {
+    files.push_back({"method_spread.csv", MethodSpreadCsv(job.survey, job.result)});
+  }
+  return files;
+}
+
+// The sensitivity run's own report: the parities of its full sample with
+// the intervals, the coverage curve and the method spread (the compute
+// report beside it is never redrawn); nothing when the full computation
+// fails.
+void AddReport(const RunConfig& config, const ComputeOptions& compute,
+               const SensitivityOptions& options, const SensitivityJobSummary& job,
+               std::vector<OutputFile>* files) {
+  ParityResult full;
+  ComputeSummary full_summary;
+  if (!ComputeParities(job.survey, compute, &full, &full_summary)) return;
+  OutlierOptions outlier_options;
+  outlier_options.threshold = config.outlier_threshold;
+  const std::vector<ReportOutlier> outliers =
+      ToReportOutliers(job.survey, FindOutliers(job.survey, full, outlier_options));
+  const ReportSensitivity sensitivity = ToReportSensitivity(job.result, options);
+  ReportInputs report;
+  report.config = &config;
+  report.survey = &job.survey;
+  report.load = &job.load;
+  report.result = &full;
+  report.compute = &full_summary;
+  report.warnings = job.warnings;
+  report.outliers = &outliers;
+  report.sensitivity = &sensitivity;
+  files->push_back({"report.html", ReportHtml(report)});
+}
+
+std::string RunJson(const RunConfig& config, const SensitivityOptions& options,
+                    const SensitivityJobSummary& job, const std::vector<OutputFile>& files,
+                    const std::string& compute_run_section) {
+  const SensitivitySummary& s = job.sensitivity;
+  RunRecord record;
+  record.command = "sensitivity";
+  record.run_id = job.run_id;
+  record.output_digests = DigestOutputs(files);
+  record.config = &config;
+  record.load = &job.load;
+  record.survey = &job.survey;
+  record.compute = &s.full_sample;
+  record.outcome = "ok";
+  record.message = s.BriefReport();
+  record.exit_code = 0;
+  record.warnings = job.warnings;
+  record.outputs = job.outputs;
+  record.stages = {{"read", job.load.read_seconds},
+                   {"cells", job.load.cells_seconds},
+                   {"full sample", s.full_sample_seconds},
+                   {"bootstrap", s.bootstrap_seconds},
+                   {"leave-one-out", s.leave_one_out_seconds},
+                   {"coverage", s.coverage_seconds},
+                   {"methods", s.methods_seconds}};
+  record.sections.push_back({"sensitivity", SensitivityRecordSection(options, s, job.result)});
+  if (!compute_run_section.empty()) record.sections.push_back({"compute_run", compute_run_section});
+  return RunRecordJson(record);
+}
+
+// Links this run to the compute run in the output folder, if any: its id, and
+// whether it rests on the same inputs and settings. A mismatch is a warning
+// (and deflate --interval refuses the pair).
+std::string LinkComputeRun(const RunConfig& config, const std::string& this_json,
+                           SensitivityJobSummary* job) {
+  std::string id, json, error;
+  if (!ReadRunRecord(config.output, &id, &json, &error)) return "";
+  const std::vector<std::string> differences = RunDifferences(this_json, json);
+  nlohmann::ordered_json link = {{"run_id", id}, {"same_inputs_and_settings", differences.empty()},
+                                 {"differences", differences}};
+  if (!differences.empty()) {
+    job->warnings.push_back("the compute run in " + config.output + " (run " + id +
+                            ") rests on other inputs or settings, so its parities and these intervals "
+                            "do not belong together: " + JoinNames(differences, "; "));
+  }
+  return link.dump();
+}
+
+}  // namespace
+
+std::string SensitivityRecordSection(const SensitivityOptions& options,
+                                     const SensitivitySummary& summary,
+                                     const SensitivityResult& result) {
+  nlohmann::ordered_json j;
+  j["settings"] = RecordSettings(options);
+  j["counts"] = RecordCounts(summary);
+  j["seconds"] = RecordSeconds(summary);
+  // The curve in one line per level: median over regions of the root's spread.
+  nlohmann::ordered_json curve = nlohmann::ordered_json::array();
+  for (const CoverageLevel& level : result.coverage) {
+    const std::vector<double> sd = SortedFiniteRoot(level.log_sd);
+    nlohmann::ordered_json row;
+    row["coverage"] = level.coverage;
+    row["root_median_log_sd"] = sd.empty() ? nlohmann::ordered_json(nullptr)
+                                           : nlohmann::ordered_json(PercentileType7(sd, 0.5));
+    curve.push_back(row);
+  }
+  j["coverage_curve"] = curve;
+  nlohmann::ordered_json failed = nlohmann::ordered_json::array();
+  for (const MethodRun& run : result.methods) {
+    if (!run.message.empty()) failed.push_back({{"method", run.name}, {"message", run.message}});
+  }
+  j["failed_method_runs"] = failed;
+  return j.dump(2);
+}
+
+std::string SensitivityJobSummary::FullReport(const SensitivityOptions& options) const {
+  std::string out = "survey: " + std::to_string(survey.num_regions()) + " regions, " +
+                    std::to_string(survey.num_items()) + " items, " +
+                    std::to_string(survey.num_headings()) + " basic headings\n";
+  out += sensitivity.BriefReport() + "\n";
+  if (result.parity.rows() == 0) return out;
+  const std::string& root = survey.classification.nodes().front().code;
+  out += "\nsensitivity of '" + root + "', dearest first:\n";
+  out += SensitivityTable(survey, result, options);
+  out += Notes(*this);
+  if (!warnings.empty()) {
+    out += "\nwarnings:\n";
+    for (const std::string& warning : warnings) out += "  " + warning + "\n";
+  }
+  out +=
+      "\nThe bootstrap and leave-one-out runs show how much the parities depend on which items "
+      "were priced; they do not measure errors shared by all items (unit or quality "
+      "mismatches).\n";
+  return out;
+}
+
+ReportSensitivity ToReportSensitivity(const SensitivityResult& result,
+                                      const SensitivityOptions& options) {
+  ReportSensitivity out;
+  if (result.boot_lower.rows() > 0) {
+    for (Eigen::Index r = 0; r < result.boot_lower.cols(); ++r) {
+      out.parity_lower.push_back(result.boot_lower(0, r));
+      out.parity_upper.push_back(result.boot_upper(0, r));
+    }
+    out.interval_label = FormatFixed(100.0 * options.level, 0) + " % interval over item resamples";
+  }
+  for (const CoverageLevel& level : result.coverage) {
+    const std::vector<double> changes = SortedFiniteRoot(level.median_abs_log_change);
+    if (changes.empty()) continue;
+    ReportSensitivity::CoveragePoint point;
+    point.coverage_share = level.coverage;
+    point.median_spread_pct = 100.0 * PercentileType7(changes, 0.5);
+    out.coverage_curve.push_back(point);
+  }
+  for (const MethodRun& run : result.methods) {
+    if (run.parity.rows() == 0) continue;
+    out.method_names.push_back(run.name);
+    out.method_parity.emplace_back();
+    for (Eigen::Index r = 0; r < run.parity.cols(); ++r) {
+      out.method_parity.back().push_back(run.parity(0, r));
+    }
+  }
+  return out;
+}
+
+std::string SensitivityFolder(const RunConfig& config) {
+  return (std::filesystem::path(config.output) / "sensitivity").string();
+}
+
+int RunSensitivityJob(const RunConfig& config, const SensitivityOptions& options,
+                      SensitivityJobSummary* summary) {
+  *summary = SensitivityJobSummary();
+  auto fail = [&](int code, const std::string& message) {
+    summary->exit_code = code;
+    summary->message = message;
+    return code;
+  };
+  std::string error;
+  if (!options.IsValid(&error)) return fail(1, error);
+  PathGuard guard = GuardInputsOf(config);
+  guard.AddOutputFolder(SensitivityFolder(config), "sensitivity folder");
+  if (!guard.Check(&error)) return fail(1, error);
+  LoadOptions load_options;
+  load_options.invalid_rows = config.invalid_rows;
+  load_options.num_threads = config.threads;
+  if (!LoadSurvey(config, load_options, &summary->survey, &summary->load)) {
+    return fail(1, summary->load.message);
+  }
+  const ComputeOptions compute = ComputeOptions::FromConfig(config);
+  SensitivityOptions run_options = options;
+  if (run_options.num_threads == 0) run_options.num_threads = config.threads;
+  if (!RunSensitivity(summary->survey, compute, run_options, &summary->result,
+                      &summary->sensitivity)) {
+    return fail(summary->sensitivity.outcome == SensitivityOutcome::kComputationFailed ? 2 : 1,
+                summary->sensitivity.message);
+  }
+  summary->warnings = JobWarnings(*summary);
+  summary->run_id = NewRunId();
+  const std::string link =
+      LinkComputeRun(config, RunJson(config, run_options, *summary, {}, ""), summary);
+  std::vector<OutputFile> files = PartFiles(run_options, *summary);
+  if (config.invalid_rows == InvalidRowPolicy::kSkip) {
+    files.push_back({"rejected.csv", RejectedRowsCsv(summary->load.rejected_rows)});
+  }
+  if (config.report) AddReport(config, compute, run_options, *summary, &files);
+  for (const OutputFile& file : files) summary->outputs.push_back(file.relative_path);
+  summary->outputs.push_back("run.json");
+  files.push_back({"run.json", RunJson(config, run_options, *summary, files, link)});
+  RunFolderSummary written;
+  if (!WriteRunFolder(SensitivityFolder(config), files, &written, &error)) return fail(1, error);
+  summary->exit_code = 0;
+  summary->message = "ok";
+  return 0;
+}
+
+}  // namespace paritas

@@ -1,0 +1,76 @@
+// The parts of a sensitivity run, one file each (bootstrap.cc,
+// leave_one_out.cc, coverage_curve.cc, method_spread.cc). Each starts from the
+// full sample and fills only its own matrices of the result and its own counts
+// and seconds of the summary.
+#ifndef PARITAS_INTERNAL_UNCERTAINTY_SENSITIVITY_PARTS_H_
+#define PARITAS_INTERNAL_UNCERTAINTY_SENSITIVITY_PARTS_H_
+
+#include <omp.h>
+
+#include <atomic>
+#include <chrono>
+#include <cstdint>
+#include <string>
+
+#include <Eigen/Core>
+
+#include "paritas/compute/compute.h"
+#include "paritas/uncertainty/sensitivity.h"
+#include "uncertainty/replicate_chain.h"
+
+namespace paritas::internal {
+
+inline double SecondsSince(std::chrono::steady_clock::time_point start) {
+  return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+}
+
+inline int ThreadsFor(int requested) { return requested > 0 ? requested : omp_get_max_threads(); }
+
+// Reports progress from thread 0 only, so the callback never runs twice at once.
+struct Progress {
+  const SensitivityOptions* options;
+  std::string part;
+  int64_t total;
+  std::atomic<int64_t> done{0};
+  void Step() {
+    const int64_t now = ++done;
+    if (options->progress && omp_get_thread_num() == 0) options->progress(part, now, total);
+  }
+  void Finish() {
+    if (options->progress) options->progress(part, total, total);
+  }
+};
+
+// The full-sample run every part starts from and is compared with.
+struct FullSample {
+  const Survey* survey = nullptr;
+  // The options of the full-sample ComputeParities run (threads as asked for).
+  ComputeOptions compute;
+  Chain chain;
+  Eigen::MatrixXd node_expenditure;  // nodes x regions
+  // The chain's own full-sample run: changes are measured against it so an
+  // unchanged region shows exactly 0 rather than rounding noise.
+  Eigen::MatrixXd heading_log_parity;  // regions x headings
+  Eigen::MatrixXd node_log_parity;     // nodes x regions
+  int num_threads = 1;                 // worker threads over replicates
+};
+
+// Bootstrap over items, stratified by heading.
+void RunBootstrap(const FullSample& full, const SensitivityOptions& options,
+                  SensitivityResult* result, SensitivitySummary* summary);
+
+// Leave one out: each item, then each heading.
+void RunLeaveOneOut(const FullSample& full, const SensitivityOptions& options,
+                    SensitivityResult* result, SensitivitySummary* summary);
+
+// Coverage curve: keep a random share of every heading's items.
+void RunCoverageCurve(const FullSample& full, const SensitivityOptions& options,
+                      SensitivityResult* result, SensitivitySummary* summary);
+
+// Method spread: every elementary x aggregation combination.
+void RunMethodSpread(const FullSample& full, const SensitivityOptions& options,
+                     SensitivityResult* result, SensitivitySummary* summary);
+
+}  // namespace paritas::internal
+
+#endif  // PARITAS_INTERNAL_UNCERTAINTY_SENSITIVITY_PARTS_H_
