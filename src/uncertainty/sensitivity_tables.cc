@@ -89,7 +89,9 @@ std::string CoverageCurveCsv(const Survey& survey, const SensitivityResult& resu
     for (const CoverageLevel& level : result.coverage) {
       for (int r = 0; r < survey.num_regions(); ++r) {
         AppendCsvField(survey.classification.nodes()[n].code, &out);
-        AppendValue(100.0 * level.coverage, 2, &out);
+        // The coverage is a setting (a percentage label), not a result.
+        out += ',';
+        AppendFixed(100.0 * level.coverage, 2, &out);
         AppendCount(level.num_repetitions, &out);
         out += ',';
         AppendCsvField(survey.regions.Code(r), &out);
