@@ -202,3 +202,21 @@ TEST(ComputeCommand, SkipWritesRejectedRowsAndReconciles) {
 
 }  // namespace
 }  // namespace paritas
+
+namespace paritas {
+namespace {
+
+TEST(ComputeCommand, PrintsControlCharactersOfDataAsVisibleEscapes) {
+  // An escape sequence in a code must reach the terminal as text, never raw.
+  std::string out, err;
+  const std::string config = testing::SourcePath("config/demo.yaml");
+  EXPECT_EQ(testing::RunCli("compute " + config + " --output " + testing::MakeTempDir("cli_escape") +
+                                " --reference \"$(printf 'X\\033[2J\\342\\200\\256Y')\"",
+                            &out, &err),
+            1);
+  EXPECT_EQ(err.find('\x1b'), std::string::npos) << err;
+  EXPECT_NE(err.find("reference region 'X\\x1b[2J\\u202eY' is not in the survey"), std::string::npos) << err;
+}
+
+}  // namespace
+}  // namespace paritas
