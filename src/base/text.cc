@@ -5,6 +5,7 @@
 #include <algorithm>
 #include <charconv>
 #include <cmath>
+#include <cstdio>
 
 namespace paritas {
 
@@ -72,6 +73,9 @@ void AppendFixed(double value, int decimals, std::string* out) {
 void AppendShortest(double value, std::string* out) {
   if (std::isnan(value)) return;
   char buffer[64];
+  // -0 reads back equal to 0; printing it as "0" keeps the text independent
+  // of the sign of a zero.
+  if (value == 0.0) value = 0.0;
   auto [end, ec] = std::to_chars(buffer, buffer + sizeof(buffer), value);
   if (ec != std::errc()) return;
   out->append(buffer, end - buffer);
@@ -156,6 +160,76 @@ std::string JoinNames(const std::vector<std::string>& names, std::string_view se
   for (size_t i = 0; i < names.size(); ++i) {
     if (i > 0) out.append(separator);
     out.append(names[i]);
+  }
+  return out;
+}
+
+namespace {
+
+// Length of the valid UTF-8 sequence starting at text[i] and its code point;
+// 0 when the bytes there are not valid UTF-8 (overlong forms, surrogates and
+// values above U+10FFFF included).
+int Utf8Sequence(std::string_view text, size_t i, uint32_t* code_point) {
+  const unsigned char c = static_cast<unsigned char>(text[i]);
+  int length = 0;
+  uint32_t cp = 0, min = 0;
+  if (c < 0x80) {
+    *code_point = c;
+    return 1;
+  } else if ((c & 0xE0) == 0xC0) {
+    length = 2, cp = c & 0x1F, min = 0x80;
+  } else if ((c & 0xF0) == 0xE0) {
+    length = 3, cp = c & 0x0F, min = 0x800;
+  } else if ((c & 0xF8) == 0xF0) {
+    length = 4, cp = c & 0x07, min = 0x10000;
+  } else {
+    return 0;
+  }
+  if (i + length > text.size()) return 0;
+  for (int k = 1; k < length; ++k) {
+    const unsigned char next = static_cast<unsigned char>(text[i + k]);
+    if ((next & 0xC0) != 0x80) return 0;
+    cp = (cp << 6) | (next & 0x3F);
+  }
+  if (cp < min || cp > 0x10FFFF || (cp >= 0xD800 && cp <= 0xDFFF)) return 0;
+  *code_point = cp;
+  return length;
+}
+
+bool IsBidiControl(uint32_t cp) {
+  return cp == 0x061C || cp == 0x200E || cp == 0x200F || (cp >= 0x202A && cp <= 0x202E) ||
+         (cp >= 0x2066 && cp <= 0x2069);
+}
+
+}  // namespace
+
+std::string VisibleText(std::string_view text) {
+  static const char* kHex = "0123456789abcdef";
+  std::string out;
+  out.reserve(text.size());
+  for (size_t i = 0; i < text.size();) {
+    uint32_t cp = 0;
+    const int length = Utf8Sequence(text, i, &cp);
+    if (length == 0) {
+      const unsigned char c = static_cast<unsigned char>(text[i]);
+      out += "\\x";
+      out += kHex[c >> 4];
+      out += kHex[c & 15];
+      ++i;
+      continue;
+    }
+    if ((cp < 0x20 && cp != '\n' && cp != '\t') || cp == 0x7F) {
+      out += "\\x";
+      out += kHex[cp >> 4];
+      out += kHex[cp & 15];
+    } else if ((cp >= 0x80 && cp <= 0x9F) || IsBidiControl(cp)) {
+      char buffer[8];
+      std::snprintf(buffer, sizeof(buffer), "\\u%04x", static_cast<unsigned>(cp));
+      out += buffer;
+    } else {
+      out.append(text.substr(i, length));
+    }
+    i += length;
   }
   return out;
 }

@@ -13,7 +13,7 @@ namespace {
 
 
 void PrintLoadFailure(const LoadSummary& load) {
-  if (!load.rejected_rows.empty()) std::cerr << DescribeRejectedRows(load);
+  if (!load.rejected_rows.empty()) PrintErr(DescribeRejectedRows(load));
   PrintError(load.message);
 }
 
@@ -60,7 +60,10 @@ bool LoadConfigWithOverrides(const std::string& path, const Overrides& overrides
   return true;
 }
 
-void PrintError(const std::string& message) { std::cerr << "paritas: error: " << message << "\n"; }
+void PrintError(const std::string& message) { PrintErr("paritas: error: " + message + "\n"); }
+
+void PrintOut(const std::string& text) { std::cout << VisibleText(text); }
+void PrintErr(const std::string& text) { std::cerr << VisibleText(text); }
 
 int RunCheckCommand(const std::string& config_path, const Overrides& overrides) {
   RunConfig config;
@@ -68,11 +71,11 @@ int RunCheckCommand(const std::string& config_path, const Overrides& overrides) 
   CheckSummary summary;
   const int code = RunCheck(config, &summary);
   if (summary.load.outcome != LoadOutcome::kOk) {
-    std::cout << summary.FullReport();
+    PrintOut(summary.FullReport());
     PrintLoadFailure(summary.load);
     return code;
   }
-  std::cout << summary.FullReport();
+  PrintOut(summary.FullReport());
   return code;
 }
 
@@ -89,8 +92,8 @@ int RunComputeCommand(const std::string& config_path, const Overrides& overrides
     }
     return code;
   }
-  std::cout << summary.FullReport();
-  std::cout << "\nwrote " << summary.outputs.size() << " files to " << config.output << "\n";
+  PrintOut(summary.FullReport());
+  PrintOut("\nwrote " + std::to_string(summary.outputs.size()) + " files to " + config.output + "\n");
   return code;
 }
 

@@ -4,6 +4,7 @@
 #define PARITAS_CLI_COMMANDS_H_
 
 #include <optional>
+#include <sstream>
 #include <string>
 #include <vector>
 
@@ -50,6 +51,13 @@ bool LoadConfigWithOverrides(const std::string& path, const Overrides& overrides
 
 // Prints "paritas: error: <message>" on stderr.
 void PrintError(const std::string& message);
+
+// Write text to standard output / standard error with control and
+// bidirectional formatting characters shown as escapes (VisibleText): codes
+// and values from data files can neither drive the terminal nor reorder
+// what is displayed. Every line the commands print goes through these.
+void PrintOut(const std::string& text);
+void PrintErr(const std::string& text);
 
 }  // namespace paritas::cli
 

@@ -18,22 +18,21 @@ int RunDeflateCommand(const DeflateOptions& given, const Overrides& overrides) {
   }
   DeflateSummary summary;
   if (!Deflate(options, &summary)) {
-    for (const RejectedRow& row : summary.rejected_rows) std::cerr << row.reason << "\n";
+    for (const RejectedRow& row : summary.rejected_rows) PrintErr(row.reason + "\n");
     PrintError(summary.message);
     return kExitInvalidInput;
   }
-  std::cout << summary.BriefReport() << "\n";
+  PrintOut(summary.BriefReport() + "\n");
   if (!summary.rejected_rows.empty()) {
-    std::cout << "rejected rows (listed in " << summary.rejected_path << "):\n";
-    for (const RejectedRow& row : summary.rejected_rows) std::cout << "  " << row.reason << "\n";
+    PrintOut("rejected rows (listed in " + summary.rejected_path + "):\n");
+    for (const RejectedRow& row : summary.rejected_rows) PrintOut("  " + row.reason + "\n");
     if (summary.num_rows_rejected > static_cast<int64_t>(summary.rejected_rows.size())) {
-      std::cout << "  ... "
-                << summary.num_rows_rejected - static_cast<int64_t>(summary.rejected_rows.size())
-                << " more\n";
+      PrintOut("  ... " +
+               std::to_string(summary.num_rows_rejected - static_cast<int64_t>(summary.rejected_rows.size())) +
+               " more\n");
     }
   }
-  std::cout << "wrote " << options.output_path
-            << " (added columns: " << JoinNames(summary.columns_added) << ")\n";
+  PrintOut("wrote " + options.output_path + " (added columns: " + JoinNames(summary.columns_added) + ")\n");
   return kExitOk;
 }
 

@@ -52,7 +52,9 @@ void AddDeflateOptions(CLI::App* command, paritas::DeflateOptions* options,
   command->add_flag("--interval", options->include_interval,
                     "add <column>_real_lower/_upper from sensitivity/bootstrap.csv");
   command->add_flag("--allow-negative", options->allow_negative, "accept negative values (e.g. net incomes)");
-  command->add_option("--decimals", options->decimals, "digits after the point (default 4)")
+  command->add_option("--decimals", options->decimals,
+                      "round real values to this many digits (default: exact, the shortest text "
+                      "that reads back to the same number)")
       ->check(CLI::Range(0, 17));
 }
 

@@ -6,6 +6,7 @@
 #include "paritas/compute/compute.h"
 #include "paritas/survey/config.h"
 #include "paritas/base/csv.h"
+#include "paritas/jobs/guards.h"
 #include "paritas/jobs/jobs.h"
 #include "paritas/use/pair_comparison.h"
 #include "paritas/survey/survey_loader.h"
@@ -19,15 +20,28 @@ int RunPairCommand(const std::string& config_path, const Overrides& overrides,
   RunConfig config;
   if (!LoadConfigWithOverrides(config_path, overrides, &config)) return kExitInvalidInput;
   std::string error;
+  if (!csv_path.empty()) {
+    PathGuard guard = GuardInputsOf(config);
+    guard.AddOutputFile(csv_path, "--csv");
+    if (!guard.Check(&error)) {
+      PrintError(error);
+      return kExitInvalidInput;
+    }
+  }
   LoadOptions load_options;
   load_options.invalid_rows = config.invalid_rows;
   load_options.num_threads = config.threads;
   Survey survey;
   LoadSummary load;
   if (!LoadSurvey(config, load_options, &survey, &load)) {
-    if (!load.rejected_rows.empty()) std::cerr << DescribeRejectedRows(load);
+    if (!load.rejected_rows.empty()) PrintErr(DescribeRejectedRows(load));
     PrintError(load.message);
     return kExitInvalidInput;
+  }
+  if (load.num_rows_rejected > 0) {
+    // Under skip the comparison rests on fewer rows than the files hold: say so.
+    PrintErr("paritas: warning: " + FormatCount(load.num_rows_rejected) +
+             " invalid rows left out of the comparison:\n" + DescribeRejectedRows(load));
   }
   ParityResult result;
   ComputeSummary compute;
@@ -41,13 +55,13 @@ int RunPairCommand(const std::string& config_path, const Overrides& overrides,
     PrintError(error);
     return kExitInvalidInput;
   }
-  std::cout << PairTable(comparison);
+  PrintOut(PairTable(comparison));
   if (!csv_path.empty()) {
     if (!WriteFileAtomically(csv_path, PairCsv(comparison), &error)) {
       PrintError(error);
       return kExitInvalidInput;
     }
-    std::cout << "\nwrote " << csv_path << "\n";
+    PrintOut("\nwrote " + csv_path + "\n");
   }
   return kExitOk;
 }

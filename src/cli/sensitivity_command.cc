@@ -144,14 +144,14 @@ int RunSensitivityCommand(const std::string& config_path, const Overrides& overr
   bar.Clear();
   if (code != kExitOk) {
     if (summary.load.outcome != LoadOutcome::kOk && !summary.load.rejected_rows.empty()) {
-      std::cerr << DescribeRejectedRows(summary.load);
+      PrintErr(DescribeRejectedRows(summary.load));
     }
     PrintError(summary.message);
     return code;
   }
-  std::cout << summary.FullReport(options);
-  std::cout << "\nwrote " << summary.outputs.size() << " files to " << config.output
-            << " (sensitivity/ and report.html)\n";
+  PrintOut(summary.FullReport(options));
+  PrintOut("\nwrote " + std::to_string(summary.outputs.size()) + " files to " + config.output +
+           " (sensitivity/ and report.html)\n");
   return kExitOk;
 }
 

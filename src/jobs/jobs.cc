@@ -2,6 +2,8 @@
 // what the user must see; every number comes from the stages themselves.
 #include "paritas/jobs/jobs.h"
 
+#include "paritas/jobs/guards.h"
+
 #include <algorithm>
 #include <chrono>
 #include <cmath>
@@ -258,9 +260,13 @@ void AddMatrixFiles(const Survey& survey, const ParityResult& result,
 }
 
 // The run record of a successful compute.
-std::string ComputeRunJson(const RunConfig& config, const ComputeJobSummary& summary) {
+// The run record, with the digest of every file written before it.
+std::string ComputeRunJson(const RunConfig& config, const ComputeJobSummary& summary,
+                           const std::vector<OutputFile>& files) {
   RunRecord record;
   record.command = "compute";
+  record.run_id = summary.run_id;
+  record.output_digests = DigestOutputs(files);
   record.config = &config;
   record.load = &summary.load;
   record.survey = &summary.survey;
@@ -283,6 +289,10 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
     summary->message = message;
     return code;
   };
+  std::string error;
+  PathGuard guard = GuardInputsOf(config);
+  guard.AddOutputFolder(config.output, "output folder");
+  if (!guard.Check(&error)) return fail(kExitInvalidInput, error);
   if (!LoadSurvey(config, LoadOptionsFor(config), &summary->survey, &summary->load)) {
     return fail(kExitInvalidInput, summary->load.message);
   }
@@ -291,7 +301,6 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
   const Survey& survey = summary->survey;
 
   std::vector<int> matrix_nodes;
-  std::string error;
   if (!ResolveMatrixNodes(survey.classification, config.matrices, &matrix_nodes, &error)) {
     return fail(kExitInvalidInput, error);
   }
@@ -341,8 +350,10 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
   summary->outputs.push_back("run.json");
   summary->stages.push_back({"write", SecondsSince(write_start)});
 
-  files.push_back({"run.json", ComputeRunJson(config, *summary)});
-  if (!WriteOutputFiles(config.output, files, &error)) return fail(kExitInvalidInput, error);
+  summary->run_id = NewRunId();
+  files.push_back({"run.json", ComputeRunJson(config, *summary, files)});
+  RunFolderSummary written;
+  if (!WriteRunFolder(config.output, files, &written, &error)) return fail(kExitInvalidInput, error);
   summary->exit_code = kExitOk;
   summary->message = "ok";
   return kExitOk;

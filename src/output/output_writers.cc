@@ -16,6 +16,7 @@
 
 #include "paritas/base/csv.h"
 #include "paritas/base/text.h"
+#include "base/sha256.h"
 
 namespace paritas {
 namespace {
@@ -73,24 +74,24 @@ std::vector<std::string> RegionFields(const Survey& survey) {
 }  // namespace
 
 std::string NodeFileName(const std::string& code) {
+  static const char* kHex = "0123456789ABCDEF";
   std::string name;
-  bool changed = code.empty() || code.front() == '.' || code.size() > 100;
-  for (size_t i = 0; i < code.size() && i < 100; ++i) {
+  for (size_t i = 0; i < code.size(); ++i) {
     const unsigned char c = static_cast<unsigned char>(code[i]);
-    if (std::isalnum(c) || c == '-' || c == '_' || c == '.') {
+    const bool keep = std::isalnum(c) || c == '-' || c == '_' || (c == '.' && i > 0);
+    if (keep) {
       name += static_cast<char>(c);
     } else {
-      name += '_';
-      changed = true;
+      name += '%';
+      name += kHex[c >> 4];
+      name += kHex[c & 15];
     }
   }
-  if (changed) {
-    char suffix[16];
-    std::snprintf(suffix, sizeof(suffix), "-%08x",
-                  static_cast<unsigned>(CodeTable::Hash(code) & 0xffffffffu));
-    name += suffix;
-  }
-  return name;
+  if (name.empty()) return "%";
+  if (name.size() <= kMaxNodeFileNameBytes) return name;
+  // Too long for a file name: a prefix and the code's SHA-256. "%~" is never
+  // produced above ('~' is escaped), so these names meet no other.
+  return name.substr(0, kMaxNodeFileNameBytes - 66) + "%~" + internal::Sha256Hex(code);
 }
 
 std::string ParitiesCsv(const Survey& survey, const ParityResult& result) {
@@ -107,17 +108,17 @@ std::string ParitiesCsv(const Survey& survey, const ParityResult& result) {
         *out += node.is_heading ? ",heading," : ",aggregate,";
         *out += region_fields[r];
         *out += ',';
-        AppendFixed(node.parity(r), kIndexDecimals, out);
+        AppendShortest(node.parity(r), out);
         *out += ',';
-        AppendFixed(node.expenditure(r), kMoneyDecimals, out);
+        AppendShortest(node.expenditure(r), out);
         *out += ',';
-        AppendFixed(node.real_expenditure(r), kMoneyDecimals, out);
+        AppendShortest(node.real_expenditure(r), out);
         *out += ',';
-        AppendFixed(node.real_per_capita_index(r), kIndexDecimals, out);
+        AppendShortest(node.real_per_capita_index(r), out);
         *out += ',';
-        AppendFixed(node.log_se(r), kLogDecimals, out);
+        AppendShortest(node.log_se(r), out);
         *out += ',';
-        AppendFixed(node.log_se_robust(r), kLogDecimals, out);
+        AppendShortest(node.log_se_robust(r), out);
         *out += ',';
         if (node.rank(r) > 0) AppendInt(node.rank(r), out);
         *out += ',';
@@ -150,7 +151,7 @@ std::string ParityMatrixCsv(const Survey& survey, const NodeResult& node) {
         *out += region_fields[a];
         for (int b : regions) {
           *out += ',';
-          AppendFixed(100.0 * node.parity(b) / node.parity(a), kIndexDecimals, out);
+          AppendShortest(100.0 * node.parity(b) / node.parity(a), out);
         }
         *out += '\n';
       },
@@ -174,7 +175,7 @@ std::string AggregateBilateralCsv(const Survey& survey, const NodeResult& node,
         for (double value : {laspeyres, paasche, bilaterals.fisher(a, b), bilaterals.tornqvist(a, b),
                              std::abs(std::log(laspeyres / paasche))}) {
           *out += ',';
-          AppendFixed(value, kIndexDecimals, out);
+          AppendShortest(value, out);
         }
         *out += ',';
         AppendInt(bilaterals.num_matched(a, b), out);
@@ -197,7 +198,7 @@ std::string HeadingBilateralCsv(const Survey& survey, const NodeResult& node,
         *out += ',';
         *out += region_fields[b];
         *out += ',';
-        AppendFixed(jevons(a, b), kIndexDecimals, out);
+        AppendShortest(jevons(a, b), out);
         *out += ',';
         AppendInt(num_items(a, b), out);
         *out += '\n';
@@ -268,52 +269,6 @@ std::string RootTable(const Survey& survey, const ParityResult& result,
     out += "  " + pad(spread, 10, true) + "  " + partner + "\n";
   }
   return out;
-}
-
-bool WriteOutputFiles(const std::string& folder, const std::vector<OutputFile>& files,
-                      std::string* error) {
-  std::error_code ec;
-  const fs::path target(folder);
-  fs::create_directories(target, ec);
-  if (ec) {
-    *error = folder + ": cannot create folder: " + ec.message();
-    return false;
-  }
-  const fs::path staging =
-      target / (".paritas-staging-" + std::to_string(static_cast<long long>(::getpid())));
-  fs::remove_all(staging, ec);
-  auto cleanup = [&]() {
-    std::error_code ignored;
-    fs::remove_all(staging, ignored);
-  };
-  for (const OutputFile& file : files) {
-    const fs::path path = staging / file.relative_path;
-    fs::create_directories(path.parent_path(), ec);
-    std::FILE* stream = ec ? nullptr : std::fopen(path.c_str(), "wb");
-    bool ok = stream != nullptr;
-    if (ok) {
-      ok = std::fwrite(file.contents.data(), 1, file.contents.size(), stream) == file.contents.size();
-      ok = (std::fclose(stream) == 0) && ok;
-    }
-    if (!ok) {
-      *error = (target / file.relative_path).string() + ": cannot write file: " +
-               (ec ? ec.message() : std::string(std::strerror(errno)));
-      cleanup();
-      return false;
-    }
-  }
-  for (const OutputFile& file : files) {
-    const fs::path destination = target / file.relative_path;
-    fs::create_directories(destination.parent_path(), ec);
-    fs::rename(staging / file.relative_path, destination, ec);
-    if (ec) {
-      *error = destination.string() + ": cannot move into place: " + ec.message();
-      cleanup();
-      return false;
-    }
-  }
-  cleanup();
-  return true;
 }
 
 }  // namespace paritas

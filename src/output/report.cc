@@ -122,7 +122,10 @@ std::vector<ReportOutlier> ToReportOutliers(const Survey& survey, const OutlierR
   return rows;
 }
 
-std::string HtmlEscape(std::string_view text) {
+std::string HtmlEscape(std::string_view raw) {
+  // Control and bidirectional-override characters are shown as visible
+  // escapes first, so data can neither break the page nor reorder its text.
+  const std::string text = VisibleText(raw);
   std::string out;
   out.reserve(text.size());
   for (char c : text) {

@@ -171,13 +171,13 @@ std::string OutliersCsv(const Survey& survey, const OutlierReport& report) {
     out += ',';
     AppendCsvField(survey.items.Code(o.item), &out);
     out += ',' + ToString(o.kind) + ',';
-    AppendFixed(o.observed, kMoneyDecimals, &out);
+    AppendShortest(o.observed, &out);
     out += ',';
-    AppendFixed(o.predicted, kMoneyDecimals, &out);
+    AppendShortest(o.predicted, &out);
     out += ',';
-    AppendFixed(o.observed / o.predicted, kIndexDecimals, &out);
+    AppendShortest(o.observed / o.predicted, &out);
     out += ',';
-    AppendFixed(o.standardised_residual, 3, &out);
+    AppendShortest(o.standardised_residual, &out);
     out += ',' + std::to_string(o.num_quotes) + '\n';
   }
   return out;
@@ -190,9 +190,9 @@ std::string DispersionCsv(const Survey& survey, const OutlierReport& report) {
     out += ',';
     AppendCsvField(survey.regions.Code(d.region), &out);
     out += ',' + std::to_string(d.num_items) + ',';
-    AppendFixed(d.rms_log_residual, kLogDecimals, &out);
+    AppendShortest(d.rms_log_residual, &out);
     out += ',';
-    AppendFixed(d.max_abs_log_residual, kLogDecimals, &out);
+    AppendShortest(d.max_abs_log_residual, &out);
     out += ',' + std::to_string(d.num_flagged) + '\n';
   }
   return out;

@@ -3,13 +3,17 @@
 // what the command prints and what the report and run.json take from a run.
 #include <algorithm>
 #include <cmath>
+#include <filesystem>
 #include <string>
 #include <vector>
 
 #include <nlohmann/json.hpp>
 
 #include "paritas/base/text.h"
+#include "paritas/jobs/guards.h"
+#include "paritas/jobs/jobs.h"
 #include "paritas/output/output_writers.h"
+#include "paritas/output/run_folder.h"
 #include "paritas/output/report.h"
 #include "paritas/output/run_record.h"
 #include "paritas/uncertainty/outliers.h"
@@ -134,22 +138,24 @@ std::vector<OutputFile> PartFiles(const SensitivityOptions& options,
                                   const SensitivityJobSummary& job) {
   std::vector<OutputFile> files;
   if (options.run_bootstrap) {
-    files.push_back({"sensitivity/bootstrap.csv", BootstrapCsv(job.survey, job.result)});
+    files.push_back({"bootstrap.csv", BootstrapCsv(job.survey, job.result)});
   }
   if (options.run_leave_one_out) {
-    files.push_back({"sensitivity/leave_one_out.csv", LeaveOneOutCsv(job.survey, job.result)});
+    files.push_back({"leave_one_out.csv", LeaveOneOutCsv(job.survey, job.result)});
   }
   if (options.run_coverage) {
-    files.push_back({"sensitivity/coverage_curve.csv", CoverageCurveCsv(job.survey, job.result)});
+    files.push_back({"coverage_curve.csv", CoverageCurveCsv(job.survey, job.result)});
   }
   if (options.run_methods) {
-    files.push_back({"sensitivity/method_spread.csv", MethodSpreadCsv(job.survey, job.result)});
+    files.push_back({"method_spread.csv", MethodSpreadCsv(job.survey, job.result)});
   }
   return files;
 }
 
-// The report of compute, redrawn with the intervals, the coverage curve and
-// the method spread; nothing when the full computation fails.
+// The sensitivity run's own report: the parities of its full sample with
+// the intervals, the coverage curve and the method spread (the compute
+// report beside it is never redrawn); nothing when the full computation
+// fails.
 void AddReport(const RunConfig& config, const ComputeOptions& compute,
                const SensitivityOptions& options, const SensitivityJobSummary& job,
                std::vector<OutputFile>* files) {
@@ -174,10 +180,13 @@ void AddReport(const RunConfig& config, const ComputeOptions& compute,
 }
 
 std::string RunJson(const RunConfig& config, const SensitivityOptions& options,
-                    const SensitivityJobSummary& job) {
+                    const SensitivityJobSummary& job, const std::vector<OutputFile>& files,
+                    const std::string& compute_run_section) {
   const SensitivitySummary& s = job.sensitivity;
   RunRecord record;
   record.command = "sensitivity";
+  record.run_id = job.run_id;
+  record.output_digests = DigestOutputs(files);
   record.config = &config;
   record.load = &job.load;
   record.survey = &job.survey;
@@ -195,7 +204,26 @@ std::string RunJson(const RunConfig& config, const SensitivityOptions& options,
                    {"coverage", s.coverage_seconds},
                    {"methods", s.methods_seconds}};
   record.sections.push_back({"sensitivity", SensitivityRecordSection(options, s, job.result)});
+  if (!compute_run_section.empty()) record.sections.push_back({"compute_run", compute_run_section});
   return RunRecordJson(record);
+}
+
+// Links this run to the compute run in the output folder, if any: its id, and
+// whether it rests on the same inputs and settings. A mismatch is a warning
+// (and deflate --interval refuses the pair).
+std::string LinkComputeRun(const RunConfig& config, const std::string& this_json,
+                           SensitivityJobSummary* job) {
+  std::string id, json, error;
+  if (!ReadRunRecord(config.output, &id, &json, &error)) return "";
+  const std::vector<std::string> differences = RunDifferences(this_json, json);
+  nlohmann::ordered_json link = {{"run_id", id}, {"same_inputs_and_settings", differences.empty()},
+                                 {"differences", differences}};
+  if (!differences.empty()) {
+    job->warnings.push_back("the compute run in " + config.output + " (run " + id +
+                            ") rests on other inputs or settings, so its parities and these intervals "
+                            "do not belong together: " + JoinNames(differences, "; "));
+  }
+  return link.dump();
 }
 
 }  // namespace
@@ -276,6 +304,10 @@ ReportSensitivity ToReportSensitivity(const SensitivityResult& result,
   return out;
 }
 
+std::string SensitivityFolder(const RunConfig& config) {
+  return (std::filesystem::path(config.output) / "sensitivity").string();
+}
+
 int RunSensitivityJob(const RunConfig& config, const SensitivityOptions& options,
                       SensitivityJobSummary* summary) {
   *summary = SensitivityJobSummary();
@@ -286,6 +318,9 @@ int RunSensitivityJob(const RunConfig& config, const SensitivityOptions& options
   };
   std::string error;
   if (!options.IsValid(&error)) return fail(1, error);
+  PathGuard guard = GuardInputsOf(config);
+  guard.AddOutputFolder(SensitivityFolder(config), "sensitivity folder");
+  if (!guard.Check(&error)) return fail(1, error);
   LoadOptions load_options;
   load_options.invalid_rows = config.invalid_rows;
   load_options.num_threads = config.threads;
@@ -301,12 +336,19 @@ int RunSensitivityJob(const RunConfig& config, const SensitivityOptions& options
                 summary->sensitivity.message);
   }
   summary->warnings = JobWarnings(*summary);
+  summary->run_id = NewRunId();
+  const std::string link =
+      LinkComputeRun(config, RunJson(config, run_options, *summary, {}, ""), summary);
   std::vector<OutputFile> files = PartFiles(run_options, *summary);
+  if (config.invalid_rows == InvalidRowPolicy::kSkip) {
+    files.push_back({"rejected.csv", RejectedRowsCsv(summary->load.rejected_rows)});
+  }
   if (config.report) AddReport(config, compute, run_options, *summary, &files);
   for (const OutputFile& file : files) summary->outputs.push_back(file.relative_path);
-  summary->outputs.push_back("sensitivity/run.json");
-  files.push_back({"sensitivity/run.json", RunJson(config, run_options, *summary)});
-  if (!WriteOutputFiles(config.output, files, &error)) return fail(1, error);
+  summary->outputs.push_back("run.json");
+  files.push_back({"run.json", RunJson(config, run_options, *summary, files, link)});
+  RunFolderSummary written;
+  if (!WriteRunFolder(SensitivityFolder(config), files, &written, &error)) return fail(1, error);
   summary->exit_code = 0;
   summary->message = "ok";
   return 0;

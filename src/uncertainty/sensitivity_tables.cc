@@ -20,9 +20,10 @@ void AppendNodeRegion(const Survey& survey, int n, int r, std::string* out) {
   AppendCsvField(survey.regions.Code(r), out);
 }
 
-void AppendValue(double value, int decimals, std::string* out) {
+// Every number in the shortest form that reads back to the same double.
+void AppendValue(double value, std::string* out) {
   *out += ',';
-  AppendFixed(value, decimals, out);
+  AppendShortest(value, out);
 }
 
 void AppendCount(int64_t value, std::string* out) {
@@ -39,11 +40,11 @@ std::string BootstrapCsv(const Survey& survey, const SensitivityResult& result) 
   for (Eigen::Index n = 0; n < result.parity.rows(); ++n) {
     for (int r = 0; r < survey.num_regions(); ++r) {
       AppendNodeRegion(survey, static_cast<int>(n), r, &out);
-      AppendValue(result.parity(n, r), kIndexDecimals, &out);
-      AppendValue(result.boot_median(n, r), kIndexDecimals, &out);
-      AppendValue(result.boot_lower(n, r), kIndexDecimals, &out);
-      AppendValue(result.boot_upper(n, r), kIndexDecimals, &out);
-      AppendValue(result.boot_log_se(n, r), kLogDecimals, &out);
+      AppendValue(result.parity(n, r), &out);
+      AppendValue(result.boot_median(n, r), &out);
+      AppendValue(result.boot_lower(n, r), &out);
+      AppendValue(result.boot_upper(n, r), &out);
+      AppendValue(result.boot_log_se(n, r), &out);
       out += ',';
       if (result.boot_rank_low(n, r) > 0) out += std::to_string(result.boot_rank_low(n, r));
       out += ',';
@@ -63,14 +64,14 @@ std::string LeaveOneOutCsv(const Survey& survey, const SensitivityResult& result
   for (Eigen::Index n = 0; n < result.parity.rows(); ++n) {
     for (int r = 0; r < survey.num_regions(); ++r) {
       AppendNodeRegion(survey, static_cast<int>(n), r, &out);
-      AppendValue(result.parity(n, r), kIndexDecimals, &out);
-      AppendValue(result.jackknife_log_se(n, r), kLogDecimals, &out);
-      AppendValue(result.loo_item_log_change(n, r), kLogDecimals, &out);
+      AppendValue(result.parity(n, r), &out);
+      AppendValue(result.jackknife_log_se(n, r), &out);
+      AppendValue(result.loo_item_log_change(n, r), &out);
       out += ',';
       if (result.loo_item(n, r) >= 0)
         AppendCsvField(survey.items.Code(result.loo_item(n, r)), &out);
       AppendCount(result.loo_num_items_lost(n, r), &out);
-      AppendValue(result.loo_heading_log_change(n, r), kLogDecimals, &out);
+      AppendValue(result.loo_heading_log_change(n, r), &out);
       out += ',';
       if (result.loo_heading(n, r) >= 0)
         AppendCsvField(survey.heading_codes[result.loo_heading(n, r)], &out);
@@ -88,13 +89,15 @@ std::string CoverageCurveCsv(const Survey& survey, const SensitivityResult& resu
     for (const CoverageLevel& level : result.coverage) {
       for (int r = 0; r < survey.num_regions(); ++r) {
         AppendCsvField(survey.classification.nodes()[n].code, &out);
-        AppendValue(100.0 * level.coverage, 2, &out);
+        // The coverage is a setting (a percentage label), not a result.
+        out += ',';
+        AppendFixed(100.0 * level.coverage, 2, &out);
         AppendCount(level.num_repetitions, &out);
         out += ',';
         AppendCsvField(survey.regions.Code(r), &out);
-        AppendValue(level.log_sd(n, r), kLogDecimals, &out);
-        AppendValue(level.median_abs_log_change(n, r), kLogDecimals, &out);
-        AppendValue(level.max_abs_log_change(n, r), kLogDecimals, &out);
+        AppendValue(level.log_sd(n, r), &out);
+        AppendValue(level.median_abs_log_change(n, r), &out);
+        AppendValue(level.max_abs_log_change(n, r), &out);
         AppendCount(level.num_missing(n, r), &out);
         out += '\n';
       }
@@ -115,8 +118,8 @@ std::string MethodSpreadCsv(const Survey& survey, const SensitivityResult& resul
     for (int r = 0; r < survey.num_regions(); ++r) {
       AppendNodeRegion(survey, static_cast<int>(n), r, &out);
       for (const MethodRun& run : result.methods)
-        AppendValue(run.parity(n, r), kIndexDecimals, &out);
-      AppendValue(result.method_log_spread(n, r), kLogDecimals, &out);
+        AppendValue(run.parity(n, r), &out);
+      AppendValue(result.method_log_spread(n, r), &out);
       out += '\n';
     }
   }

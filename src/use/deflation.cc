@@ -9,6 +9,7 @@
 #include <unistd.h>
 
 #include <algorithm>
+#include <atomic>
 #include <cerrno>
 #include <chrono>
 #include <cmath>
@@ -22,6 +23,8 @@
 #include "paritas/base/code_table.h"
 #include "paritas/base/csv.h"
 #include "paritas/base/text.h"
+#include "paritas/output/run_folder.h"
+#include "paritas/output/run_record.h"
 
 namespace paritas {
 namespace {
@@ -30,6 +33,16 @@ constexpr std::string_view kUtf8Bom = "\xEF\xBB\xBF";
 constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 // Output and rejected text is handed to the file once this much has built up.
 constexpr size_t kFlushBytes = 1 << 20;
+
+// A money amount: the shortest text that reads back exactly, or rounded to
+// `decimals` digits when the user asks for that.
+void AppendAmount(double value, int decimals, std::string* out) {
+  if (decimals < 0) {
+    AppendShortest(value, out);
+  } else {
+    AppendFixed(value, decimals, out);
+  }
+}
 
 double SecondsSince(std::chrono::steady_clock::time_point start) {
   return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
@@ -169,6 +182,25 @@ bool ReadParityValues(const DeflateOptions& options, ParityTable* table, std::st
   return true;
 }
 
+// The intervals must come from a sensitivity run on the same inputs and
+// settings as the parities beside them (run.json of each); otherwise a real
+// value would be bracketed by the interval of another comparison.
+bool SameRunSettings(const std::string& parities_dir, std::string* error) {
+  const std::string sensitivity_dir = (std::filesystem::path(parities_dir) / "sensitivity").string();
+  std::string compute_id, compute_json, sensitivity_id, sensitivity_json;
+  if (!ReadRunRecord(parities_dir, &compute_id, &compute_json, error) ||
+      !ReadRunRecord(sensitivity_dir, &sensitivity_id, &sensitivity_json, error)) {
+    *error = "cannot tell whether the intervals belong to these parities: " + *error;
+    return false;
+  }
+  const std::vector<std::string> differences = RunDifferences(compute_json, sensitivity_json);
+  if (differences.empty()) return true;
+  *error = "the intervals in " + sensitivity_dir + " come from a sensitivity run on other inputs or settings " +
+           "than the parities in " + parities_dir + " (\"this run\" = the parities): " +
+           JoinNames(differences, "; ") + "; run 'paritas sensitivity' with the same configuration";
+  return false;
+}
+
 // Reads the intervals of the sensitivity run (sensitivity/bootstrap.csv)
 // into `table`, whose parities are already read.
 bool ReadIntervals(const DeflateOptions& options, ParityTable* table, std::string* error) {
@@ -178,9 +210,10 @@ bool ReadIntervals(const DeflateOptions& options, ParityTable* table, std::strin
   std::error_code ec;
   if (!fs::exists(table->interval_path, ec)) {
     *error = "no parity intervals: " + table->interval_path +
-             " does not exist (compute writes it when sensitivity analysis is on)";
+             " does not exist (run 'paritas sensitivity' with the configuration of this compute run)";
     return false;
   }
+  if (!SameRunSettings(options.parities_dir, error)) return false;
   std::string contents;
   std::vector<int> index;
   std::vector<std::vector<std::string_view>> rows;
@@ -222,7 +255,9 @@ class AtomicFile {
 
   bool Open(const std::string& path, std::string* error) {
     path_ = path;
-    temp_path_ = path + ".tmp." + std::to_string(::getpid());
+    // Unique per file, so two outputs of one run never share a temporary name.
+    static std::atomic<int> counter{0};
+    temp_path_ = path + ".tmp." + std::to_string(::getpid()) + "." + std::to_string(counter++);
     std::error_code ec;
     const std::filesystem::path parent = std::filesystem::path(path).parent_path();
     if (!parent.empty()) std::filesystem::create_directories(parent, ec);
@@ -564,7 +599,7 @@ class Deflater {
     out_.append(record.raw);
     for (size_t k = 0; k < num_values; ++k) {
       out_ += ',';
-      AppendFixed(values_[k] / (parity / 100.0), options_.decimals, &out_);
+      AppendAmount(values_[k] / (parity / 100.0), options_.decimals, &out_);
     }
     if (options_.include_parity) {
       out_ += ',';
@@ -578,9 +613,9 @@ class Deflater {
         // the order flips.
         const double a = values_[k] / (upper / 100.0), b = values_[k] / (lower / 100.0);
         out_ += ',';
-        AppendFixed(std::min(a, b), options_.decimals, &out_);
+        AppendAmount(std::min(a, b), options_.decimals, &out_);
         out_ += ',';
-        AppendFixed(std::max(a, b), options_.decimals, &out_);
+        AppendAmount(std::max(a, b), options_.decimals, &out_);
       }
     }
     if (terminator.empty()) {
@@ -673,17 +708,21 @@ bool DeflateOptions::IsValid(std::string* error) const {
     }
   }
   if (max_reported_rows < 0) return fail("max_reported_rows is negative");
-  if (decimals < 0 || decimals > 17) return fail("decimals must be between 0 and 17");
+  if (decimals < -1 || decimals > 17) return fail("decimals must be -1 (exact) or between 0 and 17");
   if (block_bytes < (1 << 10)) return fail("block_bytes must be at least 1024");
-  std::error_code ec;
-  if (input_path == output_path || std::filesystem::equivalent(input_path, output_path, ec)) {
-    return fail("the output file '" + output_path + "' is the input file; choose another name");
+  // Every output against every input and the other output, as files.
+  namespace fs = std::filesystem;
+  PathGuard guard;
+  guard.AddInput(input_path, "input file");
+  guard.AddInput((fs::path(parities_dir) / "parities.csv").string(), "parities file");
+  guard.AddInput((fs::path(parities_dir) / "run.json").string(), "run record");
+  if (include_interval) {
+    guard.AddInput((fs::path(parities_dir) / "sensitivity" / "bootstrap.csv").string(), "interval file");
+    guard.AddInput((fs::path(parities_dir) / "sensitivity" / "run.json").string(), "sensitivity run record");
   }
-  if (invalid_rows == InvalidRowPolicy::kSkip &&
-      (RejectedPathUsed() == output_path || RejectedPathUsed() == input_path)) {
-    return fail("the rejected-rows file '" + RejectedPathUsed() + "' is the input or output file");
-  }
-  return true;
+  guard.AddOutputFile(output_path, "output file");
+  if (invalid_rows == InvalidRowPolicy::kSkip) guard.AddOutputFile(RejectedPathUsed(), "rejected-rows file");
+  return guard.Check(error);
 }
 
 std::string DeflateOptions::RejectedPathUsed() const {

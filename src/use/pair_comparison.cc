@@ -134,7 +134,7 @@ void CompareHeading(const Survey& survey, int heading, int a, int b, PairCompari
 void AddRow(const std::string& measure, double value, std::string* out) {
   AppendCsvField(measure, out);
   *out += ',';
-  AppendFixed(value, kDecimals, out);
+  AppendShortest(value, out);
   *out += '\n';
 }
 

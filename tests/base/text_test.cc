@@ -145,3 +145,40 @@ TEST(JoinNames, SeparatesWithCommaSpaceByDefault) {
 
 }  // namespace
 }  // namespace paritas
+
+namespace paritas {
+namespace {
+
+TEST(VisibleText, ShowsControlAndBidiCharactersAsEscapes) {
+  EXPECT_EQ(VisibleText("R1\x1b[31m"), "R1\\x1b[31m");
+  EXPECT_EQ(VisibleText("a\rb\x7f"), "a\\x0db\\x7f");
+  EXPECT_EQ(VisibleText("line\n\tnext"), "line\n\tnext");
+  // U+202E RIGHT-TO-LEFT OVERRIDE and U+2066 LEFT-TO-RIGHT ISOLATE.
+  EXPECT_EQ(VisibleText("abc\xE2\x80\xAE" "fed"), "abc\\u202efed");
+  EXPECT_EQ(VisibleText("\xE2\x81\xA6x"), "\\u2066x");
+  // U+0085 NEXT LINE (C1) and bytes that are not UTF-8.
+  EXPECT_EQ(VisibleText("a\xC2\x85" "b"), "a\\u0085b");
+  EXPECT_EQ(VisibleText("caf\xE9"), "caf\\xe9");
+  EXPECT_EQ(VisibleText("\xC0\xAF"), "\\xc0\\xaf");  // overlong '/'
+}
+
+TEST(VisibleText, KeepsOrdinaryTextOfAnyScript) {
+  const std::string text = "Sk\xC3\xA5ne, \xD0\x9C\xD0\xBE\xD1\x81\xD0\xBA\xD0\xB2\xD0\xB0, \xE6\x9D\xB1\xE4\xBA\xAC";
+  EXPECT_EQ(VisibleText(text), text);
+}
+
+TEST(AppendShortest, ReadsBackToTheSameDouble) {
+  for (double value : {0.1, 1.0 / 3.0, 123.70000000000002, 1e-300, 9.87654321e15, 100.0, -2.5e-8}) {
+    std::string text;
+    AppendShortest(value, &text);
+    double back = 0.0;
+    ASSERT_EQ(ParseNumber(text, &back), NumberStatus::kOk) << text;
+    EXPECT_EQ(back, value) << text;
+  }
+  std::string zero;
+  AppendShortest(-0.0, &zero);
+  EXPECT_EQ(zero, "0");
+}
+
+}  // namespace
+}  // namespace paritas

@@ -94,7 +94,8 @@ TEST(ComputeCommand, BilateralTableHasEveryOrderedPairAndReversalHolds) {
 
 TEST(ComputeCommand, RunRecordReconcilesRowsAndNamesEveryInput) {
   const nlohmann::json record = nlohmann::json::parse(ReadTextFile(DemoOutput() + "/run.json"));
-  EXPECT_EQ(record["schema_version"], 1);
+  EXPECT_EQ(record["schema_version"], 2);
+  EXPECT_EQ(record["run_id"].get<std::string>().size(), 32u);
   EXPECT_EQ(record["command"], "compute");
   EXPECT_EQ(record["outcome"], "ok");
   ASSERT_EQ(record["inputs"].size(), 4u);
@@ -120,8 +121,9 @@ TEST(ComputeCommand, ASecondRunIsByteIdenticalExceptForTimings) {
     std::string first = ReadTextFile(DemoOutput() + "/" + relative);
     std::string second = ReadTextFile(entry.path().string());
     if (relative == "run.json") {
-      // Seconds, the output folder and the thread count legitimately differ.
-      const std::regex varying("\"(read|cells|elementary|aggregation|write|output|threads)\": [^,\\n]*");
+      // Seconds, the output folder, the thread count and the run id legitimately differ.
+      const std::regex varying(
+          "\"(read|cells|elementary|aggregation|write|output|threads|run_id)\": [^,\\n]*");
       first = std::regex_replace(first, varying, "");
       second = std::regex_replace(second, varying, "");
     }
@@ -137,7 +139,7 @@ TEST(ComputeCommand, CommandLineOverridesTheReference) {
   ASSERT_EQ(RunCli("compute " + Demo() + " --output " + dir + " --reference cap", &out, &err), 0) << err;
   for (const auto& row : ReadRows(ReadTextFile(dir + "/parities.csv"))) {
     if (row[2] == "cap" && row[1] != "kind") {
-      EXPECT_EQ(row[3], "100.000000") << row[0];
+      EXPECT_EQ(row[3], "100") << row[0];
     }
   }
   EXPECT_NE(out.find("parities for 'all' (cap = 100)"), std::string::npos) << out;
@@ -196,6 +198,24 @@ TEST(ComputeCommand, SkipWritesRejectedRowsAndReconciles) {
   EXPECT_EQ(rejected[1][2], dir + "/prices.csv:3:3: price '-2' is not a positive number");
   EXPECT_EQ(rejected[1][3], "south,a,-2,bread");
   EXPECT_NE(out.find("1 invalid rows left out (listed in rejected.csv)"), std::string::npos) << out;
+}
+
+}  // namespace
+}  // namespace paritas
+
+namespace paritas {
+namespace {
+
+TEST(ComputeCommand, PrintsControlCharactersOfDataAsVisibleEscapes) {
+  // An escape sequence in a code must reach the terminal as text, never raw.
+  std::string out, err;
+  const std::string config = testing::SourcePath("config/demo.yaml");
+  EXPECT_EQ(testing::RunCli("compute " + config + " --output " + testing::MakeTempDir("cli_escape") +
+                                " --reference \"$(printf 'X\\033[2J\\342\\200\\256Y')\"",
+                            &out, &err),
+            1);
+  EXPECT_EQ(err.find('\x1b'), std::string::npos) << err;
+  EXPECT_NE(err.find("reference region 'X\\x1b[2J\\u202eY' is not in the survey"), std::string::npos) << err;
 }
 
 }  // namespace

@@ -331,13 +331,5 @@ TEST(ParityMatrixCsv, EveryMatrixIsTransitive) {
   }
 }
 
-TEST(NodeFileName, KeepsSafeCodesAndSuffixesChangedOnes) {
-  EXPECT_EQ(NodeFileName("food_2"), "food_2");
-  EXPECT_EQ(NodeFileName("a/b").substr(0, 4), "a_b-");
-  EXPECT_EQ(NodeFileName("a/b").size(), 12u);
-  EXPECT_NE(NodeFileName("a/b"), NodeFileName("a?b"));
-  EXPECT_EQ(NodeFileName("..").substr(0, 3), "..-");
-}
-
 }  // namespace
 }  // namespace paritas

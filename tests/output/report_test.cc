@@ -74,6 +74,12 @@ const Demo& TheDemo() {
   return *demo;
 }
 
+TEST(HtmlEscape, ShowsControlAndBidiOverrideCharactersVisibly) {
+  // U+202E RIGHT-TO-LEFT OVERRIDE would display "cba" for "abc" after it.
+  EXPECT_EQ(HtmlEscape("R1\xE2\x80\xAE" "abc"), "R1\\u202eabc");
+  EXPECT_EQ(HtmlEscape("x\x1b[2Jy"), "x\\x1b[2Jy");
+}
+
 TEST(HtmlEscape, EscapesTheFiveMarkupCharacters) {
   EXPECT_EQ(HtmlEscape("<script>alert('x') & \"y\"</script>"),
             "&lt;script&gt;alert(&#39;x&#39;) &amp; &quot;y&quot;&lt;/script&gt;");

@@ -473,9 +473,10 @@ TEST(SensitivityCommand, RunsAndPrintsTheRootTable) {
             0)
       << err;
   EXPECT_NE(out.find("90 % interval"), std::string::npos) << out;
-  // Four tables, the run record and the report redrawn with the intervals.
+  // Four tables, the run record and its own report with the intervals, all
+  // in sensitivity/; the compute report is never redrawn.
   EXPECT_NE(out.find("wrote 6 files"), std::string::npos) << out;
-  const std::string report = ReadTextFile(folder + "/out/report.html");
+  const std::string report = ReadTextFile(folder + "/out/sensitivity/report.html");
   EXPECT_NE(report.find("id=\"sensitivity\""), std::string::npos);
   EXPECT_NE(report.find("id=\"coverage-curve\""), std::string::npos);
   EXPECT_EQ(err, "");  // no progress bar when stderr is not a terminal

@@ -63,7 +63,8 @@ TEST(DeflateOptions, FilledInDefaultsAreValid) {
   options.value_columns = {"wage"};
   options.output_path = "in.csv";
   EXPECT_FALSE(options.IsValid(&error));
-  EXPECT_EQ(error, "the output file 'in.csv' is the input file; choose another name");
+  EXPECT_EQ(error,
+            "output file 'in.csv' is the input file 'in.csv': an input is never overwritten; choose another file");
 }
 
 // US Bureau of Economic Analysis, "Regional Price Parities" technical note:
@@ -75,7 +76,7 @@ TEST(Deflate, ReproducesTheBeaWorkedExample) {
   DeflateSummary summary;
   ASSERT_TRUE(Deflate(options, &summary)) << summary.message;
   EXPECT_EQ(ReadTextFile(options.output_path),
-            "person,region,income,income_real\n1,a,12000,10000.0000\n2,b,9000,10000.0000\n");
+            "person,region,income,income_real\n1,a,12000,10000\n2,b,9000,10000\n");
   EXPECT_EQ(summary.num_rows_read, 2);
   EXPECT_EQ(summary.num_rows_written, 2);
   EXPECT_EQ(summary.num_rows_rejected, 0);
@@ -102,9 +103,9 @@ TEST(Deflate, KeepsEveryByteOfTheOriginalColumns) {
   EXPECT_EQ(ReadTextFile(options.output_path),
             "\xEF\xBB\xBF"
             "id,\"note, free\",region,income,income_real,parity\r\n"
-            "1,\"says \"\"hi\"\", twice\", a ,12000,10000.0000,120\r\n"
-            "2,\"two\nlines\",b,\"9000\",10000.0000,90\r\n"
-            "3,plain,c,50,50.0000,100\r\n");
+            "1,\"says \"\"hi\"\", twice\", a ,12000,10000,120\r\n"
+            "2,\"two\nlines\",b,\"9000\",10000,90\r\n"
+            "3,plain,c,50,50,100\r\n");
   EXPECT_EQ(summary.num_rows_written, 3);
 }
 
@@ -152,7 +153,7 @@ TEST(Deflate, SkipsBadRowsAndListsThemInRejectedCsv) {
   EXPECT_EQ(summary.num_rows_rejected, 6);
   EXPECT_EQ(summary.num_rows_read, summary.num_rows_written + summary.num_rows_rejected);
   EXPECT_EQ(ReadTextFile(options.output_path),
-            "id,region,income,income_real\n1,a,12000,10000.0000\n8,b,9000,10000.0000\n");
+            "id,region,income,income_real\n1,a,12000,10000\n8,b,9000,10000\n");
   const std::string in = options.input_path;
   const std::string parities = options.parities_dir + "/parities.csv";
   EXPECT_EQ(summary.rejected_path, dir + "/out_rejected.csv");
@@ -220,8 +221,8 @@ TEST(Deflate, TakesTheNodeOfEachRowFromANodeColumn) {
   DeflateSummary summary;
   ASSERT_TRUE(Deflate(options, &summary)) << summary.message;
   EXPECT_EQ(ReadTextFile(options.output_path),
-            "region,income,basket,income_real\na,110,food,100.0000\na,120,all,100.0000\nb,8,food,"
-            "10.0000\n");
+            "region,income,basket,income_real\na,110,food,99.99999999999999\na,120,all,100\nb,8,food,"
+            "10\n");
   EXPECT_EQ(summary.node_used, "");
   ASSERT_EQ(summary.rejected_rows.size(), 1u);
   EXPECT_EQ(summary.rejected_rows[0].reason, options.input_path + ":5:3: basket is empty");
@@ -247,12 +248,31 @@ TEST(Deflate, AddsRealValuesAtTheBoundsOfTheParityInterval) {
   EXPECT_FALSE(Deflate(options, &summary));
   EXPECT_EQ(summary.message,
             "no parity intervals: " + options.parities_dir +
-                "/sensitivity/bootstrap.csv does not exist (compute writes it when "
-                "sensitivity analysis is on)");
+                "/sensitivity/bootstrap.csv does not exist (run 'paritas sensitivity' with the "
+                "configuration of this compute run)");
   WriteTextFile(options.parities_dir + "/sensitivity/bootstrap.csv",
                 "node,region,parity,median,lower,upper\n"
                 "all,a,120,120,100,150\n"
                 "all,b,90,90,,\n");
+  // Without run records nobody can tell whether the two runs belong together.
+  EXPECT_FALSE(Deflate(options, &summary));
+  EXPECT_EQ(summary.message, "cannot tell whether the intervals belong to these parities: " +
+                                 options.parities_dir + "/run.json: cannot open file: No such file or directory");
+  // Records of another reference: refused, naming the difference.
+  const std::string record = R"({"tool": {"name": "paritas"}, "configuration": {"reference": "mean"},
+                                 "inputs": [{"role": "prices", "sha256": "ab"}]})";
+  WriteTextFile(options.parities_dir + "/run.json", record);
+  std::string other = record;
+  other.replace(other.find("mean"), 4, "cap");
+  WriteTextFile(options.parities_dir + "/sensitivity/run.json", other);
+  EXPECT_FALSE(Deflate(options, &summary));
+  EXPECT_EQ(summary.message, "the intervals in " + options.parities_dir +
+                                 "/sensitivity come from a sensitivity run on other inputs or settings than "
+                                 "the parities in " + options.parities_dir +
+                                 " (\"this run\" = the parities): reference: mean in this run, cap in the "
+                                 "other; run 'paritas sensitivity' with the same configuration");
+  WriteTextFile(options.parities_dir + "/sensitivity/run.json", record);
+  options.decimals = 4;
   ASSERT_TRUE(Deflate(options, &summary)) << summary.message;
   // real_lower = value / (upper / 100), real_upper = value / (lower / 100);
   // for a negative value the bounds swap so that lower <= upper.

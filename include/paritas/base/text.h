@@ -59,6 +59,14 @@ int EditDistance(std::string_view a, std::string_view b);
 // enough to be a plausible typo (distance <= max(2, |word| / 3)), else "".
 std::string NearestName(std::string_view word, const std::vector<std::string>& candidates);
 
+// Returns `text` safe to show on a terminal or in a report: line feeds and
+// tabs are kept; other control characters (C0, DEL, C1), the Unicode
+// bidirectional formatting characters (U+061C, U+200E-U+200F, U+202A-U+202E,
+// U+2066-U+2069) and bytes that are not valid UTF-8 are shown as visible
+// escapes ("\x1b", "\u202e", "\xff"), so data can neither drive the
+// terminal nor reorder what is displayed.
+std::string VisibleText(std::string_view text);
+
 // Joins names with ", ".
 std::string JoinNames(const std::vector<std::string>& names, std::string_view separator = ", ");
 

@@ -63,6 +63,8 @@ struct ComputeJobSummary {
   Survey survey;
   ParityResult result;
   OutlierReport outliers;
+  // Identifies the run in run.json (NewRunId()).
+  std::string run_id;
   // Files written, relative to the output folder.
   std::vector<std::string> outputs;
   std::vector<StageTiming> stages;

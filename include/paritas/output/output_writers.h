@@ -12,6 +12,7 @@
 
 #include "paritas/aggregation/bilateral_matrix.h"
 #include "paritas/compute/compute.h"
+#include "paritas/output/run_folder.h"
 #include "paritas/survey/survey.h"
 
 namespace paritas {
@@ -23,10 +24,15 @@ inline constexpr int kMoneyDecimals = 4;
 // Decimals written for standard errors of ln parities.
 inline constexpr int kLogDecimals = 8;
 
-// A safe file name for a node code: letters, digits, '-', '_' and '.' are
-// kept, any other byte becomes '_'; a name that had to change, starts with
-// '.', or is empty gets '-' and 8 hex digits of the code's hash appended so
-// distinct codes never share a file. At most 100 bytes before the suffix.
+// Longest file name NodeFileName returns, in bytes (well under the 255 of
+// common filesystems, leaving room for ".csv").
+inline constexpr size_t kMaxNodeFileNameBytes = 200;
+
+// A file name for a node code, one to one: ASCII letters, digits, '-', '_'
+// and '.' (not leading) are kept, every other byte is written %XX (two
+// upper-case hex digits), so "h 1" is "h%201" and distinct codes never share
+// a file; an empty code is "%". A name longer than kMaxNodeFileNameBytes is
+// cut and ends in "%~" and the code's SHA-256.
 std::string NodeFileName(const std::string& code);
 
 // parities.csv: one row per node x region, nodes in classification order,
@@ -61,17 +67,6 @@ std::vector<RegionSpread> RegionSpreads(const BilateralMatrices& bilaterals);
 // parity, rank, real expenditure per head and Paasche-Laspeyres spread.
 std::string RootTable(const Survey& survey, const ParityResult& result,
                       const std::vector<RegionSpread>& spreads);
-
-// A file to write, relative to the output folder.
-struct OutputFile {
-  std::string relative_path;
-  std::string contents;
-};
-
-// Writes every file into a staging folder beside `folder`, then moves them
-// into place; on any failure nothing in `folder` changes and `error` says why.
-bool WriteOutputFiles(const std::string& folder, const std::vector<OutputFile>& files,
-                      std::string* error);
 
 }  // namespace paritas
 

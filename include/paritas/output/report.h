@@ -92,7 +92,9 @@ std::vector<ReportOutlier> ToReportOutliers(const Survey& survey, const OutlierR
 // Returns the whole page. Never fails: missing inputs leave sections out.
 std::string ReportHtml(const ReportInputs& inputs);
 
-// Escapes text for HTML element content and attribute values (& < > " ').
+// Escapes text for HTML element content and attribute values (& < > " '),
+// after showing control and bidirectional-override characters and invalid
+// UTF-8 as visible escapes (VisibleText in text.h).
 std::string HtmlEscape(std::string_view text);
 
 }  // namespace paritas

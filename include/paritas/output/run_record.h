@@ -3,11 +3,13 @@
 #ifndef PARITAS_OUTPUT_RUN_RECORD_H_
 #define PARITAS_OUTPUT_RUN_RECORD_H_
 
+#include <cstdint>
 #include <string>
 #include <utility>
 #include <vector>
 
 #include "paritas/compute/compute.h"
+#include "paritas/output/run_folder.h"
 #include "paritas/survey/config.h"
 #include "paritas/survey/survey.h"
 #include "paritas/survey/survey_loader.h"
@@ -15,15 +17,28 @@
 namespace paritas {
 
 // Bumped whenever a field changes meaning or is removed.
-inline constexpr int kRunRecordSchemaVersion = 1;
+// 2: run_id; outputs as objects with bytes and SHA-256.
+inline constexpr int kRunRecordSchemaVersion = 2;
 
 struct StageTiming {
   std::string stage;  // "read", "cells", "elementary", "aggregation", "write", ...
   double seconds = 0.0;
 };
 
+// A file written by the run, so that every file can be traced to it.
+struct OutputDigest {
+  std::string path;  // relative to the output folder
+  int64_t bytes = 0;
+  std::string sha256;  // 64 lowercase hex digits
+};
+
+// Digests of the files of a run, in the order given.
+std::vector<OutputDigest> DigestOutputs(const std::vector<OutputFile>& files);
+
 struct RunRecord {
   std::string command;  // "check", "compute", "sensitivity"
+  // Identifies this run (NewRunId()); empty for commands that write no folder.
+  std::string run_id;
   const RunConfig* config = nullptr;
   const LoadSummary* load = nullptr;
   const Survey* survey = nullptr;        // may be null when loading failed
@@ -33,6 +48,9 @@ struct RunRecord {
   int exit_code = 0;
   std::vector<std::string> warnings;
   std::vector<std::string> outputs;  // files written, relative to the output folder
+  // When given, "outputs" lists these (path, bytes, sha256) instead of names;
+  // run.json itself is listed by name last.
+  std::vector<OutputDigest> output_digests;
   std::vector<StageTiming> stages;
   // Further top-level sections as (key, JSON text), e.g. sensitivity settings.
   std::vector<std::pair<std::string, std::string>> sections;
@@ -40,6 +58,19 @@ struct RunRecord {
 
 // Returns the record as pretty-printed JSON with keys in a fixed order.
 std::string RunRecordJson(const RunRecord& record);
+
+// Reads the run record of an output folder: its run id and the JSON text.
+// False with a message naming the file when it is missing or not a run
+// record of ours.
+bool ReadRunRecord(const std::string& folder, std::string* run_id, std::string* json,
+                   std::string* error);
+
+// What makes the results of two run records incomparable: different input
+// files (by SHA-256, per role) or different settings that change parities
+// (reference, elementary, aggregation, invalid_rows, representative_weight).
+// Each difference as one line, e.g. "reference: mean in this run, cap in the
+// other"; empty when the two rest on the same inputs and settings.
+std::vector<std::string> RunDifferences(const std::string& this_json, const std::string& other_json);
 
 }  // namespace paritas
 

@@ -233,8 +233,13 @@ std::string SensitivityRecordSection(const SensitivityOptions& options,
                                      const SensitivitySummary& summary,
                                      const SensitivityResult& result);
 
-// The `paritas sensitivity` job: load, run, write the files under
-// `<output>/sensitivity/` whole or not at all.
+// The folder a sensitivity run writes: `<output>/sensitivity`, a run folder
+// of its own (run_folder.h) holding its tables, its report (parities with
+// intervals) and its run.json; the compute run beside it is never touched.
+std::string SensitivityFolder(const RunConfig& config);
+
+// The `paritas sensitivity` job: load, run, write SensitivityFolder(config)
+// whole or not at all.
 struct SensitivityJobSummary {
   int exit_code = 1;
   std::string message = "not run";
@@ -242,7 +247,9 @@ struct SensitivityJobSummary {
   Survey survey;
   SensitivitySummary sensitivity;
   SensitivityResult result;
-  std::vector<std::string> outputs;  // relative to the output folder
+  // Identifies the run in its run.json (NewRunId()).
+  std::string run_id;
+  std::vector<std::string> outputs;  // relative to SensitivityFolder(config)
   std::vector<std::string> warnings;
 
   // What the command prints: counts, the root table, notes.

@@ -57,9 +57,12 @@ struct DeflateOptions {
   // column, from the parity interval in <parities_dir>/sensitivity/bootstrap.csv
   // (columns node, region, lower, upper): real_lower = value / (upper / 100),
   // real_upper = value / (lower / 100). Empty where the interval is missing.
+  // The sensitivity run must rest on the same inputs and settings as the
+  // parities (their run.json files are compared); otherwise Deflate refuses.
   bool include_interval = false;
-  // Digits after the point of the real values (money). Default 4; 0 to 17.
-  int decimals = 4;
+  // Digits after the point of the real values (money): -1 (default) writes
+  // the shortest text that reads back to the same double; 0 to 17 round.
+  int decimals = -1;
   // Where rejected rows are listed under kSkip (header file,line,reason,raw,
   // as the survey's rejected.csv). Empty (default) = the output path with
   // its ".csv" suffix replaced by "_rejected.csv".
