@@ -499,11 +499,13 @@ class PriceReader {
     }
     ReserveQuotes(block_rows_read, block_rows_used);
     for (ChunkResult& result : results) {
+      // The rows before a malformed record count as read whatever the block
+      // size, so the summary of a failed load does not depend on it.
+      Merge(&result);
       if (!result.fatal.empty()) {
         *error = result.fatal;
         return false;
       }
-      Merge(&result);
     }
     return true;
   }
