@@ -45,14 +45,15 @@ std::string CheckConfig(std::string_view data, const std::string& work_dir);
 // + rows_rejected; every rejected row is listed; invalid_rows: stop rejects
 // the same rows; and prices.csv padded past the loader's 64 KiB minimum block
 // with blank lines gives the same survey and summary for a 64 KiB block as
-// for one block.
+// for one block (file sizes and hashes compared when the load succeeds: a
+// load stopped by a bad header has hashed only the blocks before).
 std::string CheckSurveyLoader(std::string_view data, const std::string& work_dir);
 
 // Deflate (paritas/use/deflation.h) of the input as a wage file against a
 // fixed parities folder made once in `work_dir`. Value columns are those of
 // wage, income and net in the header (wage when none), node column "node"
 // when present, negatives allowed when "net" is. Output and rejected rows are
-// identical for 1 KiB and 4 MiB blocks; rows read = written + rejected; each
+// identical for 1 KiB and 64 KiB blocks; rows read = written + rejected; each
 // row written is the input record with the new columns appended;
 // invalid_rows: stop rejects the same rows and writes nothing when it does.
 std::string CheckDeflate(std::string_view data, const std::string& work_dir);

@@ -2,14 +2,14 @@
 // (fuzz/corpus/<harness>/) and over the inputs its fuzzer once broke
 // (fuzz/regressions/<harness>/), so every ordinary build keeps them fixed.
 // One test per file, named after harness, folder and file.
+#include <gtest/gtest.h>
+
 #include <algorithm>
 #include <cctype>
 #include <filesystem>
 #include <ostream>
 #include <string>
 #include <vector>
-
-#include <gtest/gtest.h>
 
 #include "properties.h"
 #include "test_util.h"
@@ -48,8 +48,7 @@ std::vector<FuzzInput> AllInputs() {
       for (const std::string& path : InputFiles(kind, harness.name)) {
         // Test names allow letters, digits and '_'; the index keeps them unique.
         std::string name = std::string(harness.name) + "_" + kind + "_" +
-                           std::to_string(inputs.size()) + "_" +
-                           fs::path(path).filename().string();
+                           std::to_string(inputs.size()) + "_" + fs::path(path).filename().string();
         for (char& c : name) {
           if (!std::isalnum(static_cast<unsigned char>(c))) c = '_';
         }
