@@ -342,6 +342,15 @@ std::vector<size_t> ChunkStarts(std::string_view data) {
   return starts;
 }
 
+// True when `data` (a file's first bytes, ending at a record boundary) holds
+// a record or a malformed one; false when it holds only blank lines, so that
+// a header after them is looked for in the next block.
+bool HoldsRecord(std::string_view data) {
+  CsvReader reader(data, 1, /*skip_bom=*/true);
+  CsvRecord record;
+  return reader.Next(&record) || !reader.error().empty();
+}
+
 class PriceReader {
  public:
   PriceReader(const std::string& path, const LoadOptions& options, LoadState* state,
@@ -392,7 +401,7 @@ class PriceReader {
         // The header must lie in the first block; a longer header line is
         // read block by block until it ends.
         const size_t end = at_eof ? data.size() : LastRecordEnd(data);
-        if (end == 0 && !at_eof) {
+        if (!at_eof && !HoldsRecord(data.substr(0, end))) {  // blank lines so far
           digest_.Update(fresh.data(), fresh.size());
           carried = data.size();
           continue;
