@@ -53,7 +53,8 @@ std::string CheckSurveyLoader(std::string_view data, const std::string& work_dir
 // fixed parities folder made once in `work_dir`. Value columns are those of
 // wage, income and net in the header (wage when none), node column "node"
 // when present, negatives allowed when "net" is. Output and rejected rows are
-// identical for 1 KiB and 64 KiB blocks; rows read = written + rejected; each
+// identical for 1 KiB and 64 KiB blocks (bytes read compared when the run
+// succeeds: a failed one stops early); rows read = written + rejected; each
 // row written is the input record with the new columns appended;
 // invalid_rows: stop rejects the same rows and writes nothing when it does.
 std::string CheckDeflate(std::string_view data, const std::string& work_dir);
