@@ -200,9 +200,18 @@ class ChunkParser {
     if (info.global >= 0) {
       const std::string_view known = state_.headings.Code(state_.item_heading[info.global]);
       if (!heading.empty() && heading != known) {
-        Reject(columns_.heading + 1, "item " + QuoteValue(item_code) + " is filed under heading " +
-                                         QuoteValue(heading) + " but under " + QuoteValue(known) +
-                                         " at " + state_.item_origin[info.global]);
+        // An invalid heading is reported as such, as for an item first seen
+        // here, so the reason does not depend on where a block ends.
+        std::string problem = CheckCode(heading, "heading");
+        if (problem.empty() && state_.headings_fixed && state_.headings.Find(heading) < 0) {
+          problem = "heading " + QuoteValue(heading) + " is not in the classification";
+        }
+        if (problem.empty()) {
+          problem = "item " + QuoteValue(item_code) + " is filed under heading " +
+                    QuoteValue(heading) + " but under " + QuoteValue(known) + " at " +
+                    state_.item_origin[info.global];
+        }
+        Reject(columns_.heading + 1, problem);
         return false;
       }
       return true;
