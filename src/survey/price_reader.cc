@@ -200,9 +200,18 @@ class ChunkParser {
     if (info.global >= 0) {
       const std::string_view known = state_.headings.Code(state_.item_heading[info.global]);
       if (!heading.empty() && heading != known) {
-        Reject(columns_.heading + 1, "item " + QuoteValue(item_code) + " is filed under heading " +
-                                         QuoteValue(heading) + " but under " + QuoteValue(known) +
-                                         " at " + state_.item_origin[info.global]);
+        // An invalid heading is reported as such, as for an item first seen
+        // here, so the reason does not depend on where a block ends.
+        std::string problem = CheckCode(heading, "heading");
+        if (problem.empty() && state_.headings_fixed && state_.headings.Find(heading) < 0) {
+          problem = "heading " + QuoteValue(heading) + " is not in the classification";
+        }
+        if (problem.empty()) {
+          problem = "item " + QuoteValue(item_code) + " is filed under heading " +
+                    QuoteValue(heading) + " but under " + QuoteValue(known) + " at " +
+                    state_.item_origin[info.global];
+        }
+        Reject(columns_.heading + 1, problem);
         return false;
       }
       return true;
@@ -342,6 +351,15 @@ std::vector<size_t> ChunkStarts(std::string_view data) {
   return starts;
 }
 
+// True when `data` (a file's first bytes, ending at a record boundary) holds
+// a record or a malformed one; false when it holds only blank lines, so that
+// a header after them is looked for in the next block.
+bool HoldsRecord(std::string_view data) {
+  CsvReader reader(data, 1, /*skip_bom=*/true);
+  CsvRecord record;
+  return reader.Next(&record) || !reader.error().empty();
+}
+
 class PriceReader {
  public:
   PriceReader(const std::string& path, const LoadOptions& options, LoadState* state,
@@ -392,7 +410,7 @@ class PriceReader {
         // The header must lie in the first block; a longer header line is
         // read block by block until it ends.
         const size_t end = at_eof ? data.size() : LastRecordEnd(data);
-        if (end == 0 && !at_eof) {
+        if (!at_eof && !HoldsRecord(data.substr(0, end))) {  // blank lines so far
           digest_.Update(fresh.data(), fresh.size());
           carried = data.size();
           continue;
@@ -499,11 +517,13 @@ class PriceReader {
     }
     ReserveQuotes(block_rows_read, block_rows_used);
     for (ChunkResult& result : results) {
+      // The rows before a malformed record count as read whatever the block
+      // size, so the summary of a failed load does not depend on it.
+      Merge(&result);
       if (!result.fatal.empty()) {
         *error = result.fatal;
         return false;
       }
-      Merge(&result);
     }
     return true;
   }

@@ -248,6 +248,15 @@ bool ReadParities(const DeflateOptions& options, ParityTable* table, std::string
   return !options.include_interval || ReadIntervals(options, table, error);
 }
 
+// True when `data` (a file's first bytes, ending at a record boundary) holds
+// a record or a malformed one; false when it holds only blank lines, so that
+// a header after them is looked for in the next block.
+bool HoldsRecord(std::string_view data) {
+  CsvReader reader(data, 1, /*skip_bom=*/true);
+  CsvRecord record;
+  return reader.Next(&record) || !reader.error().empty();
+}
+
 // A file written under a temporary name and renamed into place by Commit.
 class AtomicFile {
  public:
@@ -380,7 +389,7 @@ class Deflater {
       if (!header_done) {
         // A header longer than a block is read block by block until it ends.
         const size_t end = at_eof ? data.size() : LastRecordEnd(data);
-        if (end == 0 && !at_eof) {
+        if (!at_eof && !HoldsRecord(data.substr(0, end))) {  // blank lines so far
           carried = data.size();
           continue;
         }

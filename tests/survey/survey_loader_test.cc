@@ -816,5 +816,13 @@ TEST(HeadingRegionGroups, SplitsRegionsThatShareNoItemLargestGroupFirst) {
   EXPECT_EQ(HeadingRegionGroups(survey, 1), (std::vector<std::vector<int>>{{0, 1}}));
 }
 
+TEST(LoadSurvey, ReportsAnInvalidHeadingAsSuchEvenForAnItemWhoseHeadingIsKnown) {
+  // milk's heading is known from items.csv, as it would be from an earlier block.
+  SurveyDir files = MakeSurvey("invalid_heading_known_item", std::string(kPrices) + "south,milk,1.4,toys\n",
+                               kExpenditure, "item,heading\nbread,food\nmilk,food\n");
+  UseClassification("all: [food]\n", &files.config);
+  EXPECT_EQ(FirstRejection(files), files.prices() + ":6:4: heading 'toys' is not in the classification");
+}
+
 }  // namespace
 }  // namespace paritas
