@@ -17,8 +17,8 @@ constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 // 1 / Phi^-1(3/4): makes the median absolute deviation a consistent estimate
 // of a normal standard deviation (Hampel 1974).
 constexpr double kMadToSigma = 1.4826;
-// Unweighted hat values closer to 1 than this carry no usable residual
-// (rounding only); exact 1s are found on the graph.
+// Hat values closer to 1 than this carry no usable residual (rounding only);
+// exact 1s are found on the graph.
 constexpr double kHatOne = 1e-9;
 
 double Median(std::vector<double> values) {
@@ -95,12 +95,12 @@ Eigen::VectorXd HuberWeights(const Eigen::VectorXd& residual, double cutoff) {
 
 }  // namespace
 
-double RobustScale(const Eigen::VectorXd& residual, const Eigen::VectorXd& hat_unweighted,
+double RobustScale(const Eigen::VectorXd& residual, const Eigen::VectorXd& hat,
                    const std::vector<CellLink>& link, int* num_cells) {
   std::vector<double> standardised;
   for (int64_t k = 0; k < residual.size(); ++k) {
-    if (link[k] != CellLink::kNone || !(hat_unweighted[k] < 1.0 - kHatOne)) continue;
-    standardised.push_back(std::abs(residual[k]) / std::sqrt(1.0 - hat_unweighted[k]));
+    if (link[k] != CellLink::kNone || !(hat[k] < 1.0 - kHatOne)) continue;
+    standardised.push_back(std::abs(residual[k]) / std::sqrt(1.0 - hat[k]));
   }
   *num_cells = static_cast<int>(standardised.size());
   if (*num_cells < kMinScaleCells) return kNaN;
@@ -261,16 +261,16 @@ ScreenFit FitScreen(const CpdData& data, const OutlierOptions& options) {
   }
   fit.item_num_cells.assign(data.num_items, 0);
   for (int k = 0; k < num_cells; ++k) ++fit.item_num_cells[data.item[k]];
-  fit.hat_unweighted = LeverageFactors(c.num_regions, c.num_items, c.region, c.item,
-                                       Eigen::VectorXd::Ones(num_cells));
   fit.weight = Eigen::VectorXd::Ones(num_cells);
+  fit.leverage = LeverageFactors(c.num_regions, c.num_items, c.region, c.item, fit.weight);
   fit.converged = options.fit == OutlierFit::kLeastSquares;
   std::vector<double> weight(num_cells, 1.0);
   CpdData weighted = data;
   while (!fit.converged && fit.num_iterations < options.max_iterations) {
     // The scale is re-estimated from the current residuals at every step,
     // so it is not fixed by a least-squares fit that the errors dragged.
-    const double scale = RobustScale(result.residual, fit.hat_unweighted, fit.link, &fit.num_scale_cells);
+    const double scale = RobustScale(result.residual, fit.weight.cwiseProduct(fit.leverage), fit.link,
+                                     &fit.num_scale_cells);
     if (!(scale > 0.0)) break;  // too few cells, or an exact fit: least squares it is
     const Eigen::VectorXd next = HuberWeights(result.residual, options.huber_constant * scale);
     const double change = (next - fit.weight).cwiseAbs().maxCoeff();
@@ -283,16 +283,17 @@ ScreenFit FitScreen(const CpdData& data, const OutlierOptions& options) {
     CpdResult refit = FitCpd(weighted, cpd);
     if (!refit.identified) break;  // cannot happen with positive weights; keep the last fit
     fit.weight = next;
+    fit.leverage = LeverageFactors(c.num_regions, c.num_items, c.region, c.item, fit.weight);
     result = std::move(refit);
     ++fit.num_iterations;
   }
   if (!fit.converged && fit.num_iterations == 0) fit.converged = true;  // nothing to reweight
   fit.identified = true;
+  fit.degrees_of_freedom = result.degrees_of_freedom;
   fit.log_parity = result.log_parity;
   fit.item_effect = result.item_effect;
   fit.residual = result.residual;
-  fit.scale = RobustScale(fit.residual, fit.hat_unweighted, fit.link, &fit.num_scale_cells);
-  fit.leverage = LeverageFactors(c.num_regions, c.num_items, c.region, c.item, fit.weight);
+  fit.scale = RobustScale(fit.residual, fit.weight.cwiseProduct(fit.leverage), fit.link, &fit.num_scale_cells);
   return fit;
 }
 

@@ -42,11 +42,10 @@ struct ScreenFit {
   Eigen::VectorXd item_effect;
   // Per cell, in the order given: residual ln p - a_r - b_i of the final
   // fit; Huber weight w (1 for least squares); q = x'(X'WX)^+ x with the
-  // final weights (the hat value is w q); hat value in the unweighted design.
+  // final weights (the hat value is w q).
   Eigen::VectorXd residual;
   Eigen::VectorXd weight;
   Eigen::VectorXd leverage;
-  Eigen::VectorXd hat_unweighted;
   std::vector<CellLink> link;
   // Number of cells of each item (index of the CpdData).
   std::vector<int> item_num_cells;
@@ -58,6 +57,8 @@ struct ScreenFit {
   // kMinScaleCells cells carry residual information.
   double scale = 0.0;
   int num_scale_cells = 0;
+  // Residual degrees of freedom of the CPD: cells - regions - items + 1.
+  int degrees_of_freedom = 0;
   int num_iterations = 0;  // reweighted fits after the least-squares start
   bool converged = false;
 };
@@ -69,12 +70,13 @@ inline constexpr int kMinScaleCells = 3;
 // every cell 1 before the Huber weights) with the fit `options` asks for.
 ScreenFit FitScreen(const CpdData& data, const OutlierOptions& options);
 
-// Returns 1.4826 x median over the cells with link kNone and unweighted hat
-// value h0 < 1 of |e| / sqrt(1 - h0) (each term has variance sigma^2 under
-// the model); the root mean square of those terms when the median is 0; NaN
+// Returns 1.4826 x median over the cells with link kNone and hat value
+// h = w q < 1 of |e| / sqrt(1 - h) (for a cell of weight 1 the term has
+// variance close to sigma^2 under the model, the usual standardised
+// residual); the root mean square of those terms when the median is 0; NaN
 // with fewer than kMinScaleCells such cells. Sets `num_cells` to their
 // number.
-double RobustScale(const Eigen::VectorXd& residual, const Eigen::VectorXd& hat_unweighted,
+double RobustScale(const Eigen::VectorXd& residual, const Eigen::VectorXd& hat,
                    const std::vector<CellLink>& link, int* num_cells);
 
 // Returns q_k = x_k' (X'WX)^+ x_k for every cell of a linked CPD design

@@ -28,9 +28,27 @@ constexpr double kMadToSigma = 1.4826;
 // deviation; it is reported as screened by leave-one-out (the statistic is
 // the same leave-one-out error either way, so nothing jumps at 0.5).
 constexpr double kLeaveOneOutHat = 0.5;
+// Gaussian efficiency of the median absolute deviation (Rousseeuw and Croux
+// 1993, "Alternatives to the median absolute deviation", JASA 88): a MAD
+// from n residuals is as variable as a standard deviation on 0.37 n degrees
+// of freedom.
+constexpr double kMadEfficiency = 0.37;
 // Regions needed to measure a heading's spread of regional levels against
 // the other headings; below it the survey's median spread is used.
 constexpr int kMinSpreadRegions = 3;
+
+// Returns the standard normal deviate with the tail probability of Student's
+// t = `t` on `dof` degrees of freedom (Wallace 1959, "Bounds on normal
+// approximations to Student's and the chi-square distributions", Ann. Math.
+// Statist. 30: z = (8 dof + 1) / (8 dof + 3) sqrt(dof ln(1 + t^2 / dof)),
+// within about 0.01 of the exact deviate from 5 degrees of freedom). A ratio
+// to an estimated scale is t-like; on the normal scale the threshold keeps
+// its nominal rate however few cells the scale came from.
+double NormalEquivalent(double t, double dof) {
+  if (!(dof > 0.0) || !std::isfinite(t)) return t;
+  const double z = (8.0 * dof + 1.0) / (8.0 * dof + 3.0) * std::sqrt(dof * std::log1p(t * t / dof));
+  return t < 0.0 ? -z : z;
+}
 
 double Median(std::vector<double> values) {
   if (values.empty()) return kNaN;
@@ -139,6 +157,10 @@ struct ScreenContext {
   std::vector<Eigen::VectorXd> level_deviation;
   std::vector<double> scale;
   std::vector<double> spread;
+  // Degrees of freedom of each (kMadEfficiency x the residual degrees of
+  // freedom of the fit, or of the regions behind the spread).
+  std::vector<double> scale_dof;
+  std::vector<double> spread_dof;
 };
 
 // The prediction a cell is measured against: ln predicted price, the
@@ -147,6 +169,9 @@ struct Prediction {
   ScreenedBy how = ScreenedBy::kNotScreenable;
   double log_predicted = kNaN;
   double sd = kNaN;
+  // Degrees of freedom of the estimate of `sd` (MAD efficiency x residual
+  // degrees of freedom; Welch-Satterthwaite when two scales combine).
+  double dof = kNaN;
   double leverage = kNaN;
   std::string note;
 };
@@ -178,9 +203,12 @@ Prediction PredictFromOtherHeadings(const Survey& survey, int h, int64_t k, cons
   // cells, and how far regions' levels in this heading stray from their
   // levels elsewhere (t, measured on the heading's regions).
   const int others = fit.item_num_cells[item] - 1;
+  const double own = s * s * (1.0 + 1.0 / others), levels = t * t;
   p.how = ScreenedBy::kLeaveOneOut;
   p.log_predicted = survey.cells.log_price[c] - d;
-  p.sd = std::sqrt(s * s * (1.0 + 1.0 / others) + t * t);
+  p.sd = std::sqrt(own + levels);
+  p.dof = (own + levels) * (own + levels) /
+          (own * own / context.scale_dof[h] + levels * levels / context.spread_dof[h]);
   p.note = alone ? "region's only linked cell in the heading"
                  : "cell alone links " + std::to_string(side->second.size()) + " regions to the heading";
   return p;
@@ -214,6 +242,7 @@ Prediction PredictCell(const Survey& survey, int h, int64_t k, const ScreenFit& 
   p.leverage = hat;
   p.log_predicted = survey.cells.log_price[survey.heading_range[h].cell_begin + k] - fit.residual[k] / (1.0 - hat);
   p.sd = s * std::sqrt((1.0 - hat + q) / (1.0 - hat));
+  p.dof = context.scale_dof[h];
   if (p.how == ScreenedBy::kLeaveOneOut) {
     p.note = fit.item_num_cells[item] == 2 ? "item priced in 2 regions" : "hat value " + FormatFixed(hat, 2);
   }
@@ -269,7 +298,7 @@ HeadingRows ScreenHeading(const Survey& survey, int h, const ScreenFit& fit, con
     row.predicted = std::exp(p.log_predicted);
     auto z_of = [&](double log_observed, double sd) {
       const double d = log_observed - p.log_predicted;
-      return sd > 0.0 ? d / sd : 0.0;
+      return sd > 0.0 ? NormalEquivalent(d / sd, p.dof) : 0.0;
     };
     row.standardised_residual = z_of(survey.cells.log_price[c], p.sd);
     if (std::abs(row.standardised_residual) > options.threshold) {
@@ -355,6 +384,8 @@ ScreenContext MakeContext(const std::vector<ScreenFit>& fits, const Eigen::Matri
   context.level_deviation.resize(num_headings);
   context.scale.assign(num_headings, kNaN);
   context.spread.assign(num_headings, kNaN);
+  context.scale_dof.assign(num_headings, kNaN);
+  context.spread_dof.assign(num_headings, kNaN);
 #pragma omp parallel for schedule(dynamic, 1)
   for (int h = 0; h < num_headings; ++h) {
     if (!fits[h].identified) continue;
@@ -363,13 +394,27 @@ ScreenContext MakeContext(const std::vector<ScreenFit>& fits, const Eigen::Matri
     for (double d : context.level_deviation[h]) {
       if (std::isfinite(d)) magnitude.push_back(std::abs(d));
     }
-    if (static_cast<int>(magnitude.size()) >= kMinSpreadRegions) context.spread[h] = kMadToSigma * Median(magnitude);
-    context.scale[h] = fits[h].scale;
+    if (static_cast<int>(magnitude.size()) >= kMinSpreadRegions) {
+      context.spread[h] = kMadToSigma * Median(magnitude);
+      context.spread_dof[h] = kMadEfficiency * (static_cast<double>(magnitude.size()) - 1.0);
+    }
+    if (std::isfinite(fits[h].scale)) {
+      context.scale[h] = fits[h].scale;
+      context.scale_dof[h] = kMadEfficiency * std::max(1, fits[h].degrees_of_freedom);
+    }
   }
-  const double pooled_scale = FiniteMedian(context.scale), pooled_spread = FiniteMedian(context.spread);
+  // A heading with too little of its own borrows the median heading's.
+  const double pooled[4] = {FiniteMedian(context.scale), FiniteMedian(context.scale_dof),
+                            FiniteMedian(context.spread), FiniteMedian(context.spread_dof)};
   for (int h = 0; h < num_headings; ++h) {
-    if (!std::isfinite(context.scale[h])) context.scale[h] = pooled_scale;
-    if (!std::isfinite(context.spread[h])) context.spread[h] = pooled_spread;
+    if (!std::isfinite(context.scale[h])) {
+      context.scale[h] = pooled[0];
+      context.scale_dof[h] = pooled[1];
+    }
+    if (!std::isfinite(context.spread[h])) {
+      context.spread[h] = pooled[2];
+      context.spread_dof[h] = pooled[3];
+    }
   }
   return context;
 }
