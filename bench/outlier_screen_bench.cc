@@ -7,7 +7,7 @@
 // region x heading pairs: whole cells of single-item pairs, whole cells of
 // pairs with several items, and one quote of a cell. The same surveys without
 // the planted errors give the clean false-flag rate.
-// Usage: outlier_screen_bench [trials=20] [seed=20260301]
+// Usage: outlier_screen_bench [trials=20] [seed=20260301] [noise_sd=0.05]
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
@@ -35,7 +35,7 @@ constexpr Where kWheres[] = {Where::kSingleItemCell, Where::kMultiItemCell, Wher
 const char* Name(Where where) {
   switch (where) {
     case Where::kSingleItemCell:
-      return "whole cell, region's only item in the heading";
+      return "whole cell, region's only item of the heading";
     case Where::kMultiItemCell:
       return "whole cell, region prices several items";
     case Where::kOneQuote:
@@ -43,8 +43,8 @@ const char* Name(Where where) {
   }
   return "?";
 }
-constexpr double kFactors[] = {100.0, 10.0, 3.0, 1.0 / 3.0, 0.1};
-constexpr int kErrorsPerKind = 10;  // per trial and kind of cell
+constexpr double kFactors[] = {100.0, 10.0, 3.0, 1.5, 1.0 / 1.5, 1.0 / 3.0, 0.1};
+constexpr int kErrorsPerKind = 14;  // per trial and kind of cell: 2 per factor
 
 struct PlantedError {
   Where where;
@@ -180,24 +180,34 @@ std::string PerThousand(int64_t count, int64_t total) {
   return text;
 }
 
+std::string FactorLabel(double factor) {
+  char label[32];
+  if (factor >= 1) {
+    std::snprintf(label, sizeof label, "x%g", factor);
+  } else {
+    std::snprintf(label, sizeof label, "x1/%g", std::round(10.0 / factor) / 10.0);
+  }
+  return label;
+}
+
 void Print(const Tally tallies[2], int trials, const paritas::synthetic::SyntheticOptions& synth) {
   std::printf("%d trials: %d regions x %d headings x %d items, coverage %.1f, %d quotes per cell, noise sd %.2f;\n",
               trials, synth.num_regions, synth.num_headings, synth.items_per_heading, synth.coverage,
               synth.quotes_per_cell, synth.noise_sd);
   std::printf("about 10 %% of region x heading pairs cut to one item; threshold 3.5.\n\n");
-  std::printf("| planted error | factor | found, robust (default) | found, least-squares |\n| --- | --- | --- | --- |\n");
+  std::printf("errors found, robust fit (least-squares fit in brackets):\n\n| factor |");
+  for (Where where : kWheres) std::printf(" %s |", Name(where));
+  std::printf("\n| --- | --- | --- | --- |\n");
   const int per_factor = trials * kErrorsPerKind / static_cast<int>(std::size(kFactors));
-  for (Where where : kWheres) {
-    for (size_t f = 0; f < std::size(kFactors); ++f) {
+  for (size_t f = 0; f < std::size(kFactors); ++f) {
+    std::printf("| %s |", FactorLabel(kFactors[f]).c_str());
+    for (Where where : kWheres) {
       const std::pair<int, int> key{static_cast<int>(where), static_cast<int>(f)};
-      const double factor = kFactors[f];
-      char label[32];
-      if (factor >= 1) std::snprintf(label, sizeof label, "x%g", factor);
-      else std::snprintf(label, sizeof label, "x1/%g", std::round(1.0 / factor));
-      std::printf("| %s | %s | %s | %s |\n", Name(where), label,
-                  Share(tallies[0].found.count(key) ? tallies[0].found.at(key) : 0, per_factor).c_str(),
-                  Share(tallies[1].found.count(key) ? tallies[1].found.at(key) : 0, per_factor).c_str());
+      const int robust = tallies[0].found.count(key) ? tallies[0].found.at(key) : 0;
+      const int plain = tallies[1].found.count(key) ? tallies[1].found.at(key) : 0;
+      std::printf(" %s (%d) |", Share(robust, per_factor).c_str(), plain);
     }
+    std::printf("\n");
   }
   std::printf("\n| false flags per 1,000 clean cells | robust (default) | least-squares |\n| --- | --- | --- |\n");
   std::printf("| cells, surveys with planted errors | %s | %s |\n",
@@ -227,11 +237,13 @@ void Print(const Tally tallies[2], int trials, const paritas::synthetic::Synthet
 int main(int argc, char** argv) {
   const int trials = argc > 1 ? std::atoi(argv[1]) : 20;
   const uint64_t seed = argc > 2 ? std::strtoull(argv[2], nullptr, 10) : 20260301;
+  const double noise_sd = argc > 3 ? std::atof(argv[3]) : 0.05;
   paritas::synthetic::SyntheticOptions synth;
   synth.num_regions = 30;
   synth.num_headings = 12;
   synth.items_per_heading = 10;
   synth.num_groups = 3;
+  synth.noise_sd = noise_sd;
   const std::string folder =
       (std::filesystem::temp_directory_path() / ("paritas-outlier-bench-" + std::to_string(::getpid()))).string();
   Tally tallies[2];

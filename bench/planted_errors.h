@@ -6,6 +6,7 @@
 #ifndef PARITAS_BENCH_PLANTED_ERRORS_H_
 #define PARITAS_BENCH_PLANTED_ERRORS_H_
 
+#include <algorithm>
 #include <cstddef>
 #include <vector>
 
@@ -62,9 +63,11 @@ inline void KeepOnlyItem(int region, int heading, int keep_item, SyntheticSurvey
       survey);
 }
 
-// Drops every quote of `item` outside `region`, so only that region prices it.
-inline void KeepItemOnlyIn(int item, int region, SyntheticSurvey* survey) {
-  DropQuotes([&](int r, int i) { return i == item && r != region; }, survey);
+// Drops every quote of `item` outside `regions`, so only they price it.
+inline void KeepItemOnlyIn(int item, const std::vector<int>& regions, SyntheticSurvey* survey) {
+  DropQuotes(
+      [&](int r, int i) { return i == item && std::find(regions.begin(), regions.end(), r) == regions.end(); },
+      survey);
 }
 
 // Multiplies quotes of the cell (region, item) by `factor`: all of them when

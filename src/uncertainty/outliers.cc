@@ -258,12 +258,19 @@ struct HeadingRows {
   int64_t num_leave_one_out = 0;
 };
 
-// Median within-cell sd of ln quotes over the heading's cells with several
-// quotes: the typical scatter of one quote around its cell's mean.
+// The typical scatter of one quote around its cell's mean: the median over
+// the heading's cells with several quotes of sd_k / sqrt(m(n_k - 1) /
+// (n_k - 1)), m(k) the median of chi-square on k degrees of freedom, so each
+// term has median sigma (a plain median of sd_k would be 0.67 sigma for two
+// quotes). m(1) = 0.6745^2 exactly; otherwise k (1 - 2 / (9k))^3 (Wilson and
+// Hilferty 1931).
 double WithinCellSd(const Survey& survey, int h) {
   std::vector<double> within;
   for (int64_t c = survey.heading_range[h].cell_begin; c < survey.heading_range[h].cell_end; ++c) {
-    if (survey.cells.num_quotes[c] > 1) within.push_back(survey.cells.log_sd[c]);
+    const int dof = survey.cells.num_quotes[c] - 1;
+    if (dof < 1) continue;
+    const double median_chi2 = dof == 1 ? 0.454936 : dof * std::pow(1.0 - 2.0 / (9.0 * dof), 3);
+    within.push_back(survey.cells.log_sd[c] / std::sqrt(median_chi2 / dof));
   }
   return within.empty() ? 0.0 : Median(std::move(within));
 }

@@ -214,7 +214,7 @@ TEST(FindOutliers, ListsAnItemPricedInOneRegionAsNotScreenable) {
   const int item = 3;  // heading 0, not its anchor
   const int region = truth.quote_region[std::find(truth.quote_item.begin(), truth.quote_item.end(), item) -
                                         truth.quote_item.begin()];
-  synthetic::KeepItemOnlyIn(item, region, &truth);
+  synthetic::KeepItemOnlyIn(item, {region}, &truth);
   synthetic::ScaleQuotes(region, item, 10.0, -1, &truth);
   const Survey survey = LoadSynthetic(truth, "outlier_lonely_item");
   const OutlierReport report = FindOutliers(survey, ComputeWith(survey, "cpd"), OutlierOptions());
@@ -229,6 +229,33 @@ TEST(FindOutliers, ListsAnItemPricedInOneRegionAsNotScreenable) {
   const std::string csv = OutliersCsv(survey, report);
   EXPECT_NE(csv.find("," + truth.items[item] + ",cell,"), std::string::npos);
   EXPECT_NE(csv.find(",,,,2,not screenable,1.0000,item priced only in this region\n"), std::string::npos) << csv;
+}
+
+// An item priced in two regions: each cell's least-squares residual is half
+// the discrepancy, and nothing tells which of the two is wrong. Both are
+// listed, each with the full factor against the price the other predicts.
+TEST(FindOutliers, ListsBothCellsOfAnItemPricedInTwoRegionsWithTheWholeFactor) {
+  synthetic::SyntheticSurvey truth = synthetic::Generate(SmallOptions());
+  const int item = 14;  // heading 1, not its anchor
+  std::vector<int> regions;
+  for (size_t q = 0; q < truth.quote_price.size() && regions.size() < 2; ++q) {
+    if (truth.quote_item[q] == item && (regions.empty() || regions.back() != truth.quote_region[q])) {
+      regions.push_back(truth.quote_region[q]);
+    }
+  }
+  ASSERT_EQ(regions.size(), 2u);
+  synthetic::KeepItemOnlyIn(item, regions, &truth);
+  synthetic::ScaleQuotes(regions[0], item, 10.0, -1, &truth);
+  const Survey survey = LoadSynthetic(truth, "outlier_two_regions");
+  const OutlierReport report = FindOutliers(survey, ComputeWith(survey, "cpd"), OutlierOptions());
+  ASSERT_EQ(report.outliers.size(), 2u) << OutliersCsv(survey, report);
+  for (const Outlier& o : report.outliers) {
+    EXPECT_EQ(survey.items.Code(o.item), truth.items[item]);
+    EXPECT_EQ(o.how, ScreenedBy::kLeaveOneOut);
+    EXPECT_EQ(o.note, "item priced in 2 regions");
+    const bool wrong = survey.regions.Code(o.region) == truth.regions[regions[0]];
+    EXPECT_NEAR(std::log(o.observed / o.predicted), wrong ? std::log(10.0) : -std::log(10.0), 0.1);
+  }
 }
 
 // One quote ten times too dear among four good ones is listed as a quote; a
