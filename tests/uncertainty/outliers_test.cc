@@ -286,21 +286,35 @@ TEST(FindOutliers, ListsABadQuoteButNotTheQuotesOfACellWhollyWrong) {
   EXPECT_GT(std::abs(report.outliers[1].standardised_residual), 10.0);
 }
 
-// Normal noise only: the threshold 3.5 should flag ~0.5 cells per 1,000.
-TEST(FindOutliers, FlagsFewCellsOfACleanSurvey) {
+// Flagged cells per 1,000 screened on a clean survey of the given shape.
+double FalseFlagsPerThousand(int num_regions, int num_headings, int items_per_heading, const std::string& name) {
   synthetic::SyntheticOptions options;
-  options.num_regions = 40;
-  options.num_headings = 10;
-  options.items_per_heading = 15;
+  options.num_regions = num_regions;
+  options.num_headings = num_headings;
+  options.items_per_heading = items_per_heading;
+  options.num_groups = 1;
   options.seed = 20260311;
-  const Survey survey = LoadSynthetic(synthetic::Generate(options), "outlier_clean");
+  const Survey survey = LoadSynthetic(synthetic::Generate(options), name);
   const OutlierReport report = FindOutliers(survey, ComputeWith(survey, "cpd"), OutlierOptions());
   int64_t flagged_cells = 0;
   for (const Outlier& o : report.outliers) flagged_cells += o.kind == OutlierKind::kCell ? 1 : 0;
   const int64_t screened = report.num_cells_by_fit + report.num_cells_leave_one_out;
-  ASSERT_GT(screened, 3000);
+  EXPECT_GT(screened, 3000);
   EXPECT_EQ(screened + report.num_cells_not_screenable, static_cast<int64_t>(survey.cells.size()));
-  EXPECT_LE(1000.0 * flagged_cells / screened, 3.0) << flagged_cells << " of " << screened;
+  return 1000.0 * flagged_cells / screened;
+}
+
+// Normal noise only: the threshold 3.5 should flag ~0.5 cells per 1,000.
+TEST(FindOutliers, FlagsFewCellsOfACleanSurvey) {
+  EXPECT_LE(FalseFlagsPerThousand(40, 10, 15, "outlier_clean"), 3.0);
+}
+
+// Headings of ~25 cells: a MAD from so few residuals is itself uncertain
+// (like a standard deviation on ~6 degrees of freedom), so the plain ratio
+// exceeds 3.5 far more often than a normal deviate; read on the normal scale
+// through Student's t, 3.5 keeps its nominal rate (~0.5 per 1,000).
+TEST(FindOutliers, FlagsFewCellsOfACleanSurveyOfSmallHeadings) {
+  EXPECT_LE(FalseFlagsPerThousand(8, 150, 5, "outlier_clean_small"), 1.5);  // 3.8 if read as normal
 }
 
 std::vector<std::vector<std::string>> CsvRows(const std::string& text) {
