@@ -117,50 +117,35 @@ Eigen::VectorXd LeverageFactors(int num_regions, int num_items, std::span<const 
                                 std::span<const int> item, const Eigen::VectorXd& weight) {
   // Side A (the smaller) stays dense; side B is eliminated:
   // S = D_A - C D_B^-1 C', and for cell (a, b) with u = e_a - c_b / d_b,
-  // q = 1 / d_b + u' S^+ u. S + 11'/m is invertible on a linked design and
-  // equals S^+ on the vectors u (which sum to 0).
+  // q = 1 / d_b + u' S^+ u = 1 / d_b + G_aa - 2 (G C)_ab / d_b +
+  // (C' G C)_bb / d_b^2. G = (S + 11'/m)^-1 equals S^+ on the vectors u (they
+  // sum to 0; S + 11'/m is invertible on a linked design). Both products are
+  // dense matrix products, like FitCpd's Schur complement.
   const bool regions_dense = num_regions <= num_items;
   const int m = regions_dense ? num_regions : num_items;
   const int num_b = regions_dense ? num_items : num_regions;
   const std::span<const int> a_of = regions_dense ? region : item;
   const std::span<const int> b_of = regions_dense ? item : region;
-  const Groups by_b = GroupBy(b_of, num_b);
-  Eigen::VectorXd d_b = Eigen::VectorXd::Zero(num_b);
-  Eigen::MatrixXd s = Eigen::MatrixXd::Constant(m, m, 1.0 / m);
+  Eigen::MatrixXd c = Eigen::MatrixXd::Zero(m, num_b);
+  Eigen::VectorXd d_a = Eigen::VectorXd::Zero(m), d_b = Eigen::VectorXd::Zero(num_b);
   for (size_t k = 0; k < a_of.size(); ++k) {
+    c(a_of[k], b_of[k]) += weight[k];
+    d_a[a_of[k]] += weight[k];
     d_b[b_of[k]] += weight[k];
-    s(a_of[k], a_of[k]) += weight[k];
   }
-  for (int b = 0; b < num_b; ++b) {
-    for (int x = by_b.start[b]; x < by_b.start[b + 1]; ++x) {
-      const int k1 = by_b.order[x];
-      for (int y = by_b.start[b]; y < by_b.start[b + 1]; ++y) {
-        const int k2 = by_b.order[y];
-        s(a_of[k1], a_of[k2]) -= weight[k1] * weight[k2] / d_b[b];
-      }
-    }
-  }
+  const Eigen::VectorXd inverse_d_b = d_b.cwiseInverse();
+  Eigen::MatrixXd s = -(c * inverse_d_b.asDiagonal()) * c.transpose();
+  s.diagonal() += d_a;
+  s.array() += 1.0 / m;
   Eigen::VectorXd q = Eigen::VectorXd::Constant(static_cast<int64_t>(a_of.size()), kNaN);
   const Eigen::LLT<Eigen::MatrixXd> llt(s);
   if (llt.info() != Eigen::Success) return q;
   const Eigen::MatrixXd g = llt.solve(Eigen::MatrixXd::Identity(m, m));
-  Eigen::VectorXd gc(m);
-  for (int b = 0; b < num_b; ++b) {
-    gc.setZero();
-    for (int x = by_b.start[b]; x < by_b.start[b + 1]; ++x) {
-      const int k = by_b.order[x];
-      gc += weight[k] * g.col(a_of[k]);
-    }
-    double cgc = 0.0;
-    for (int x = by_b.start[b]; x < by_b.start[b + 1]; ++x) {
-      const int k = by_b.order[x];
-      cgc += weight[k] * gc[a_of[k]];
-    }
-    for (int x = by_b.start[b]; x < by_b.start[b + 1]; ++x) {
-      const int k = by_b.order[x];
-      const int a = a_of[k];
-      q[k] = 1.0 / d_b[b] + g(a, a) - 2.0 * gc[a] / d_b[b] + cgc / (d_b[b] * d_b[b]);
-    }
+  const Eigen::MatrixXd gc = g * c;
+  const Eigen::VectorXd cgc = (c.array() * gc.array()).colwise().sum().transpose();
+  for (size_t k = 0; k < a_of.size(); ++k) {
+    const int a = a_of[k], b = b_of[k];
+    q[k] = inverse_d_b[b] + g(a, a) - 2.0 * gc(a, b) * inverse_d_b[b] + cgc[b] * inverse_d_b[b] * inverse_d_b[b];
   }
   return q;
 }

@@ -275,6 +275,52 @@ double WithinCellSd(const Survey& survey, int h) {
   return within.empty() ? 0.0 : Median(std::move(within));
 }
 
+Outlier MakeRow(const Survey& survey, int h, int64_t c, const Prediction& p) {
+  Outlier row;
+  row.heading = h;
+  row.region = survey.cells.region[c];
+  row.item = survey.cells.item[c];
+  row.num_quotes = survey.cells.num_quotes[c];
+  row.how = p.how;
+  row.leverage = p.leverage;
+  row.note = p.note;
+  row.observed = std::exp(survey.cells.log_price[c]);
+  row.predicted = std::exp(p.log_predicted);  // NaN when not screenable
+  return row;
+}
+
+// Prediction error of ln price `log_observed` over `sd`, on the normal scale.
+double Standardised(double log_observed, double sd, const Prediction& p) {
+  const double d = log_observed - p.log_predicted;
+  return sd > 0.0 ? NormalEquivalent(d / sd, p.dof) : 0.0;
+}
+
+// Lists the lowest and highest quote of cell c when it is far from the
+// prediction and also from the mean of the cell's other quotes: one bad
+// quote among good ones, not a cell whose quotes all share one error (that
+// is the cell's row). The second test needs no model, so a prediction that
+// is off cannot make a cell's quotes look wrong.
+void ScreenQuotes(const Survey& survey, int h, int64_t c, const Prediction& p, double within_sd,
+                  double threshold, std::vector<Outlier>* flagged) {
+  const int n = survey.cells.num_quotes[c];
+  if (n < 2) return;
+  const double quote_sd = std::hypot(p.sd, within_sd);
+  const double mate_sd = within_sd * std::sqrt(1.0 + 1.0 / (n - 1));
+  for (OutlierKind kind : {OutlierKind::kLowestQuote, OutlierKind::kHighestQuote}) {
+    const double x = kind == OutlierKind::kLowestQuote ? survey.cells.log_min[c] : survey.cells.log_max[c];
+    const double mates = (n * survey.cells.log_price[c] - x) / (n - 1);
+    const double gap = std::abs(x - mates);
+    const bool apart = mate_sd > 0.0 ? gap / mate_sd > threshold : gap > 0.0;
+    const double z = Standardised(x, quote_sd, p);
+    if (!apart || !(std::abs(z) > threshold)) continue;
+    Outlier quote = MakeRow(survey, h, c, p);
+    quote.kind = kind;
+    quote.observed = std::exp(x);
+    quote.standardised_residual = z;
+    flagged->push_back(std::move(quote));
+  }
+}
+
 // Screens the cells of heading h and the extreme quotes of each.
 HeadingRows ScreenHeading(const Survey& survey, int h, const ScreenFit& fit, const ScreenContext& context,
                           const OutlierOptions& options) {
@@ -287,51 +333,19 @@ HeadingRows ScreenHeading(const Survey& survey, int h, const ScreenFit& fit, con
   for (int64_t k = 0; k < range.num_cells(); ++k) {
     const int64_t c = range.cell_begin + k;
     const Prediction p = PredictCell(survey, h, k, fit, context, num_regions_present);
-    Outlier row;
-    row.heading = h;
-    row.region = survey.cells.region[c];
-    row.item = survey.cells.item[c];
-    row.num_quotes = survey.cells.num_quotes[c];
-    row.how = p.how;
-    row.leverage = p.leverage;
-    row.note = p.note;
-    row.observed = std::exp(survey.cells.log_price[c]);
     if (p.how == ScreenedBy::kNotScreenable) {
-      row.predicted = row.standardised_residual = kNaN;
-      rows.not_screenable.push_back(std::move(row));
+      rows.not_screenable.push_back(MakeRow(survey, h, c, p));
+      rows.not_screenable.back().standardised_residual = kNaN;
       continue;
     }
     (p.how == ScreenedBy::kFit ? rows.num_by_fit : rows.num_leave_one_out) += 1;
-    row.predicted = std::exp(p.log_predicted);
-    auto z_of = [&](double log_observed, double sd) {
-      const double d = log_observed - p.log_predicted;
-      return sd > 0.0 ? NormalEquivalent(d / sd, p.dof) : 0.0;
-    };
-    row.standardised_residual = z_of(survey.cells.log_price[c], p.sd);
-    if (std::abs(row.standardised_residual) > options.threshold) {
-      rows.flagged.push_back(row);
-      ++rows.num_flagged_by_region[row.region];
+    const double z = Standardised(survey.cells.log_price[c], p.sd, p);
+    if (std::abs(z) > options.threshold) {
+      rows.flagged.push_back(MakeRow(survey, h, c, p));
+      rows.flagged.back().standardised_residual = z;
+      ++rows.num_flagged_by_region[survey.cells.region[c]];
     }
-    const int n = survey.cells.num_quotes[c];
-    if (n < 2) continue;
-    // A quote is listed when it is far from the prediction and also from the
-    // mean of its cell's other quotes: one bad quote among good ones, not a
-    // cell whose quotes all share one error (that is the cell's row).
-    const double quote_sd = std::hypot(p.sd, within_sd);
-    const double mate_sd = within_sd * std::sqrt(1.0 + 1.0 / (n - 1));
-    for (OutlierKind kind : {OutlierKind::kLowestQuote, OutlierKind::kHighestQuote}) {
-      const double x = kind == OutlierKind::kLowestQuote ? survey.cells.log_min[c] : survey.cells.log_max[c];
-      const double mates = (n * survey.cells.log_price[c] - x) / (n - 1);
-      const double gap = std::abs(x - mates);
-      const bool apart = mate_sd > 0.0 ? gap / mate_sd > options.threshold : gap > 0.0;
-      const double z = z_of(x, quote_sd);
-      if (!apart || !(std::abs(z) > options.threshold)) continue;
-      Outlier quote = row;
-      quote.kind = kind;
-      quote.observed = std::exp(x);
-      quote.standardised_residual = z;
-      rows.flagged.push_back(std::move(quote));
-    }
+    ScreenQuotes(survey, h, c, p, within_sd, options.threshold, &rows.flagged);
   }
   return rows;
 }
@@ -382,8 +396,23 @@ std::vector<Dispersion> HeadingDispersion(const Survey& survey, const HeadingPar
   return out;
 }
 
-// The survey-wide part: every heading's levels, level errors, scale and
-// spread (pooled over headings where a heading has too little of its own).
+// Spread t of heading h's regional levels against the other headings:
+// 1.4826 x median |LevelDeviations| over its regions (NaN with fewer than
+// kMinSpreadRegions), with its degrees of freedom.
+void MeasureSpread(const Eigen::MatrixXd& levels, int h, ScreenContext* context) {
+  context->level_deviation[h] = LevelDeviations(levels, h);
+  std::vector<double> magnitude;
+  for (double d : context->level_deviation[h]) {
+    if (std::isfinite(d)) magnitude.push_back(std::abs(d));
+  }
+  if (static_cast<int>(magnitude.size()) < kMinSpreadRegions) return;
+  context->spread[h] = kMadToSigma * Median(magnitude);
+  context->spread_dof[h] = kMadEfficiency * (static_cast<double>(magnitude.size()) - 1.0);
+}
+
+// The survey-wide part: every heading's scale, and for the headings with
+// cells that cut them (the only ones that need it) the level deviations and
+// spread; a heading with too little of its own borrows the median heading's.
 ScreenContext MakeContext(const std::vector<ScreenFit>& fits, const Eigen::MatrixXd& levels) {
   const int num_headings = static_cast<int>(fits.size());
   ScreenContext context;
@@ -393,24 +422,26 @@ ScreenContext MakeContext(const std::vector<ScreenFit>& fits, const Eigen::Matri
   context.spread.assign(num_headings, kNaN);
   context.scale_dof.assign(num_headings, kNaN);
   context.spread_dof.assign(num_headings, kNaN);
-#pragma omp parallel for schedule(dynamic, 1)
+  std::vector<uint8_t> needs_spread(num_headings, 0);
   for (int h = 0; h < num_headings; ++h) {
     if (!fits[h].identified) continue;
-    context.level_deviation[h] = LevelDeviations(levels, h);
-    std::vector<double> magnitude;
-    for (double d : context.level_deviation[h]) {
-      if (std::isfinite(d)) magnitude.push_back(std::abs(d));
-    }
-    if (static_cast<int>(magnitude.size()) >= kMinSpreadRegions) {
-      context.spread[h] = kMadToSigma * Median(magnitude);
-      context.spread_dof[h] = kMadEfficiency * (static_cast<double>(magnitude.size()) - 1.0);
-    }
+    needs_spread[h] = std::count(fits[h].link.begin(), fits[h].link.end(), CellLink::kCutsHeading) > 0;
     if (std::isfinite(fits[h].scale)) {
       context.scale[h] = fits[h].scale;
       context.scale_dof[h] = kMadEfficiency * std::max(1, fits[h].degrees_of_freedom);
     }
   }
-  // A heading with too little of its own borrows the median heading's.
+  for (int pass = 0; pass < 2; ++pass) {
+#pragma omp parallel for schedule(dynamic, 1)
+    for (int h = 0; h < num_headings; ++h) {
+      if (fits[h].identified && needs_spread[h] == (pass == 0 ? 1 : 0)) MeasureSpread(levels, h, &context);
+    }
+    // The second pass measures the other headings too, only when a heading
+    // must borrow and none of the first has a spread to lend.
+    bool must_borrow = false;
+    for (int h = 0; h < num_headings; ++h) must_borrow |= needs_spread[h] && !std::isfinite(context.spread[h]);
+    if (!must_borrow || std::isfinite(FiniteMedian(context.spread))) break;
+  }
   const double pooled[4] = {FiniteMedian(context.scale), FiniteMedian(context.scale_dof),
                             FiniteMedian(context.spread), FiniteMedian(context.spread_dof)};
   for (int h = 0; h < num_headings; ++h) {
