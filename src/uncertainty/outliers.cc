@@ -1,63 +1,496 @@
-// The residual scale is robust (median absolute residual) so that the gross
-// errors being looked for do not inflate the yardstick that measures them.
+// Every cell is judged by how well the rest of the survey predicts it, never
+// by a residual the cell itself could have shrunk: a robust fit keeps gross
+// errors from dragging the heading's fit, the leave-one-out error corrects
+// for what a cell's own weight pulls the fit, and a cell that alone fixes its
+// region's level in a heading is predicted from the region's level in the
+// other headings. The yardsticks are robust (median absolute residual) so the
+// errors being looked for do not inflate the scale that measures them.
 #include "paritas/uncertainty/outliers.h"
 
 #include <algorithm>
 #include <cmath>
+#include <limits>
 
 #include "paritas/base/csv.h"
-#include "paritas/output/output_writers.h"
 #include "paritas/base/text.h"
+#include "paritas/output/output_writers.h"
+#include "uncertainty/outlier_fit.h"
 
 namespace paritas {
 namespace {
 
-// Residual ln p - fitted of every cell of heading h, in cell order.
-Eigen::VectorXd HeadingResiduals(const Survey& survey, const HeadingParities& heading,
-                                 Eigen::VectorXd* fitted) {
+using internal::CellLink;
+using internal::ScreenFit;
+
+constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
+constexpr double kMadToSigma = 1.4826;
+// Above this hat value a cell's residual holds less than half of its
+// deviation; it is reported as screened by leave-one-out (the statistic is
+// the same leave-one-out error either way, so nothing jumps at 0.5).
+constexpr double kLeaveOneOutHat = 0.5;
+// Gaussian efficiency of the median absolute deviation (Rousseeuw and Croux
+// 1993, "Alternatives to the median absolute deviation", JASA 88): a MAD
+// from n residuals is as variable as a standard deviation on 0.37 n degrees
+// of freedom.
+constexpr double kMadEfficiency = 0.37;
+// Regions needed to measure a heading's spread of regional levels against
+// the other headings; below it the survey's median spread is used.
+constexpr int kMinSpreadRegions = 3;
+
+// Returns the standard normal deviate with the tail probability of Student's
+// t = `t` on `dof` degrees of freedom (Wallace 1959, "Bounds on normal
+// approximations to Student's and the chi-square distributions", Ann. Math.
+// Statist. 30: z = (8 dof + 1) / (8 dof + 3) sqrt(dof ln(1 + t^2 / dof)),
+// within about 0.01 of the exact deviate from 5 degrees of freedom). A ratio
+// to an estimated scale is t-like; on the normal scale the threshold keeps
+// its nominal rate however few cells the scale came from.
+double NormalEquivalent(double t, double dof) {
+  if (!(dof > 0.0) || !std::isfinite(t)) return t;
+  const double z = (8.0 * dof + 1.0) / (8.0 * dof + 3.0) * std::sqrt(dof * std::log1p(t * t / dof));
+  return t < 0.0 ? -z : z;
+}
+
+double Median(std::vector<double> values) {
+  if (values.empty()) return kNaN;
+  const size_t mid = values.size() / 2;
+  std::nth_element(values.begin(), values.begin() + mid, values.end());
+  double median = values[mid];
+  if (values.size() % 2 == 0) median = 0.5 * (median + *std::max_element(values.begin(), values.begin() + mid));
+  return median;
+}
+
+// Median of the finite values, NaN when there are none.
+double FiniteMedian(const std::vector<double>& values) {
+  std::vector<double> finite;
+  for (double v : values) {
+    if (std::isfinite(v)) finite.push_back(v);
+  }
+  return Median(std::move(finite));
+}
+
+ScreenFit FitHeading(const Survey& survey, int h, const OutlierOptions& options) {
+  const HeadingRange& range = survey.heading_range[h];
+  std::vector<int> region, item;
+  std::vector<double> log_price;
+  for (int64_t c = range.cell_begin; c < range.cell_end; ++c) {
+    region.push_back(survey.cells.region[c]);
+    item.push_back(survey.cells.item[c] - range.item_begin);
+    log_price.push_back(survey.cells.log_price[c]);
+  }
+  CpdData data;
+  data.num_regions = survey.num_regions();
+  data.num_items = range.num_items();
+  data.region = region;
+  data.item = item;
+  data.log_price = log_price;
+  return internal::FitScreen(data, options);
+}
+
+// Median of sorted `values` without the one at position `skip`.
+double MedianWithout(const std::vector<double>& values, size_t skip) {
+  const size_t n = values.size() - 1;
+  auto at = [&](size_t i) { return values[i < skip ? i : i + 1]; };
+  return n % 2 == 1 ? at(n / 2) : 0.5 * (at(n / 2 - 1) + at(n / 2));
+}
+
+// For every region s priced in heading h, how much dearer s is in h than its
+// price level in the other headings predicts: the median over the headings
+// g that price s and at least two regions of h of
+//   (a_sh - a_sg) - median over the other regions t of (a_th - a_tg).
+// Relative to the other regions priced in both headings, so no normalisation
+// enters; medians, so an error elsewhere in h (or in g) does not move it.
+// NaN where no such g. `levels` holds the screen's ln parities, regions x
+// headings (NaN where absent).
+Eigen::VectorXd LevelDeviations(const Eigen::MatrixXd& levels, int h) {
+  const int num_regions = static_cast<int>(levels.rows()), num_headings = static_cast<int>(levels.cols());
+  std::vector<std::vector<double>> per_region(num_regions);
+  std::vector<std::pair<double, int>> pairs;
+  std::vector<double> sorted;
+  for (int g = 0; g < num_headings; ++g) {
+    if (g == h) continue;
+    pairs.clear();
+    for (int t = 0; t < num_regions; ++t) {
+      if (std::isfinite(levels(t, h)) && std::isfinite(levels(t, g))) pairs.push_back({levels(t, h) - levels(t, g), t});
+    }
+    if (pairs.size() < 3) continue;  // s and at least two others
+    std::sort(pairs.begin(), pairs.end());
+    sorted.clear();
+    for (const auto& [difference, t] : pairs) sorted.push_back(difference);
+    for (size_t p = 0; p < pairs.size(); ++p) per_region[pairs[p].second].push_back(sorted[p] - MedianWithout(sorted, p));
+  }
+  Eigen::VectorXd deviation = Eigen::VectorXd::Constant(num_regions, kNaN);
+  for (int s = 0; s < num_regions; ++s) {
+    if (std::isfinite(levels(s, h))) deviation[s] = Median(std::move(per_region[s]));
+  }
+  return deviation;
+}
+
+// As LevelDeviations for a group of regions `side` against the heading's
+// other regions (a cell that alone links several regions to the rest):
+// median over g of the median of (a_th - a_tg) on the side less the median
+// over the others.
+double SideLevelDeviation(const Eigen::MatrixXd& levels, int h, const std::vector<int>& side) {
+  std::vector<uint8_t> on_side(levels.rows(), 0);
+  for (int r : side) on_side[r] = 1;
+  std::vector<double> values, differences[2];
+  for (int g = 0; g < levels.cols(); ++g) {
+    if (g == h) continue;
+    differences[0].clear();
+    differences[1].clear();
+    for (int t = 0; t < levels.rows(); ++t) {
+      if (std::isfinite(levels(t, h)) && std::isfinite(levels(t, g))) {
+        differences[on_side[t]].push_back(levels(t, h) - levels(t, g));
+      }
+    }
+    if (differences[0].empty() || differences[1].empty()) continue;
+    values.push_back(Median(differences[1]) - Median(differences[0]));
+  }
+  return Median(std::move(values));
+}
+
+// What the survey-wide context gives every heading's screen.
+struct ScreenContext {
+  const Eigen::MatrixXd* levels = nullptr;  // regions x headings
+  // Per heading: LevelDeviations, the robust scale s and the spread t of
+  // the regional levels against the other headings (both pooled where the
+  // heading has too few cells or regions of its own).
+  std::vector<Eigen::VectorXd> level_deviation;
+  std::vector<double> scale;
+  std::vector<double> spread;
+  // Degrees of freedom of each (kMadEfficiency x the residual degrees of
+  // freedom of the fit, or of the regions behind the spread).
+  std::vector<double> scale_dof;
+  std::vector<double> spread_dof;
+};
+
+// The prediction a cell is measured against: ln predicted price, the
+// standard deviation of the prediction error, and how it was formed.
+struct Prediction {
+  ScreenedBy how = ScreenedBy::kNotScreenable;
+  double log_predicted = kNaN;
+  double sd = kNaN;
+  // Degrees of freedom of the estimate of `sd` (MAD efficiency x residual
+  // degrees of freedom; Welch-Satterthwaite when two scales combine).
+  double dof = kNaN;
+  double leverage = kNaN;
+  std::string note;
+};
+
+// Predicts a cell whose hat value is 1 from its region's (or its side's)
+// price level in the other headings: d = how much dearer the region is here
+// than elsewhere, which for such a cell moves one for one with its price.
+Prediction PredictFromOtherHeadings(const Survey& survey, int h, int64_t k, const ScreenFit& fit,
+                                    const ScreenContext& context) {
+  const int64_t c = survey.heading_range[h].cell_begin + k;
+  const int region = survey.cells.region[c];
+  const int item = survey.cells.item[c] - survey.heading_range[h].item_begin;
+  Prediction p;
+  p.leverage = 1.0;
+  const auto side = fit.region_side.find(static_cast<int>(k));
+  const bool alone = side == fit.region_side.end();
+  const double d = alone ? context.level_deviation[h][region] : SideLevelDeviation(*context.levels, h, side->second);
+  if (!std::isfinite(d)) {
+    p.note = alone ? "region's only linked cell in the heading, and no other heading prices it with the others"
+                   : "links regions that no other heading prices with the rest";
+    return p;
+  }
+  const double s = context.scale[h], t = context.spread[h];
+  if (!std::isfinite(s) || !std::isfinite(t)) {
+    p.note = "too few cells in the survey to measure the scatter";
+    return p;
+  }
+  // Error variance: the cell's own noise, the item effect from its m other
+  // cells, and how far regions' levels in this heading stray from their
+  // levels elsewhere (t, measured on the heading's regions).
+  const int others = fit.item_num_cells[item] - 1;
+  const double own = s * s * (1.0 + 1.0 / others), levels = t * t;
+  p.how = ScreenedBy::kLeaveOneOut;
+  p.log_predicted = survey.cells.log_price[c] - d;
+  p.sd = std::sqrt(own + levels);
+  p.dof = (own + levels) * (own + levels) /
+          (own * own / context.scale_dof[h] + levels * levels / context.spread_dof[h]);
+  p.note = alone ? "region's only linked cell in the heading"
+                 : "cell alone links " + std::to_string(side->second.size()) + " regions to the heading";
+  return p;
+}
+
+Prediction PredictCell(const Survey& survey, int h, int64_t k, const ScreenFit& fit,
+                       const ScreenContext& context, int num_regions_present) {
+  Prediction p;
+  p.leverage = 1.0;  // until shown otherwise: the cases below all have hat value 1
+  if (num_regions_present < 2) {
+    p.note = "heading priced in one region";
+    return p;
+  }
+  if (fit.link[k] == CellLink::kItemOnlyHere) {
+    p.note = "item priced only in this region";
+    return p;
+  }
+  if (fit.link[k] == CellLink::kCutsHeading) return PredictFromOtherHeadings(survey, h, k, fit, context);
+  const double s = context.scale[h];
+  const double q = fit.leverage[k];
+  const double hat = std::min(1.0, fit.weight[k] * q);
+  if (!std::isfinite(s) || !std::isfinite(q) || !(hat < 1.0)) {
+    p.note = "too few cells in the survey to measure the scatter";
+    return p;
+  }
+  // Leave-one-out error of the weighted fit, d = e / (1 - h), and its
+  // standard deviation s sqrt(1 + q / (1 - h)) (the prediction's variance
+  // x'(X'WX - w x x')^-1 x s^2 by Sherman-Morrison).
+  const int item = survey.cells.item[survey.heading_range[h].cell_begin + k] - survey.heading_range[h].item_begin;
+  p.how = hat > kLeaveOneOutHat ? ScreenedBy::kLeaveOneOut : ScreenedBy::kFit;
+  p.leverage = hat;
+  p.log_predicted = survey.cells.log_price[survey.heading_range[h].cell_begin + k] - fit.residual[k] / (1.0 - hat);
+  p.sd = s * std::sqrt((1.0 - hat + q) / (1.0 - hat));
+  p.dof = context.scale_dof[h];
+  if (p.how == ScreenedBy::kLeaveOneOut) {
+    p.note = fit.item_num_cells[item] == 2 ? "item priced in 2 regions" : "hat value " + FormatFixed(hat, 2);
+  }
+  return p;
+}
+
+// Flags and counts of one heading.
+struct HeadingRows {
+  std::vector<Outlier> flagged;
+  std::vector<Outlier> not_screenable;
+  std::vector<int> num_flagged_by_region;
+  int64_t num_by_fit = 0;
+  int64_t num_leave_one_out = 0;
+};
+
+// The typical scatter of one quote around its cell's mean: the median over
+// the heading's cells with several quotes of sd_k / sqrt(m(n_k - 1) /
+// (n_k - 1)), m(k) the median of chi-square on k degrees of freedom, so each
+// term has median sigma (a plain median of sd_k would be 0.67 sigma for two
+// quotes). m(1) = 0.6745^2 exactly; otherwise k (1 - 2 / (9k))^3 (Wilson and
+// Hilferty 1931).
+double WithinCellSd(const Survey& survey, int h) {
+  std::vector<double> within;
+  for (int64_t c = survey.heading_range[h].cell_begin; c < survey.heading_range[h].cell_end; ++c) {
+    const int dof = survey.cells.num_quotes[c] - 1;
+    if (dof < 1) continue;
+    const double median_chi2 = dof == 1 ? 0.454936 : dof * std::pow(1.0 - 2.0 / (9.0 * dof), 3);
+    within.push_back(survey.cells.log_sd[c] / std::sqrt(median_chi2 / dof));
+  }
+  return within.empty() ? 0.0 : Median(std::move(within));
+}
+
+Outlier MakeRow(const Survey& survey, int h, int64_t c, const Prediction& p) {
+  Outlier row;
+  row.heading = h;
+  row.region = survey.cells.region[c];
+  row.item = survey.cells.item[c];
+  row.num_quotes = survey.cells.num_quotes[c];
+  row.how = p.how;
+  row.leverage = p.leverage;
+  row.note = p.note;
+  row.observed = std::exp(survey.cells.log_price[c]);
+  row.predicted = std::exp(p.log_predicted);  // NaN when not screenable
+  return row;
+}
+
+// Prediction error of ln price `log_observed` over `sd`, on the normal scale.
+double Standardised(double log_observed, double sd, const Prediction& p) {
+  const double d = log_observed - p.log_predicted;
+  return sd > 0.0 ? NormalEquivalent(d / sd, p.dof) : 0.0;
+}
+
+// Lists the lowest and highest quote of cell c when it is far from the
+// prediction and also from the mean of the cell's other quotes: one bad
+// quote among good ones, not a cell whose quotes all share one error (that
+// is the cell's row). The second test needs no model, so a prediction that
+// is off cannot make a cell's quotes look wrong.
+void ScreenQuotes(const Survey& survey, int h, int64_t c, const Prediction& p, double within_sd,
+                  double threshold, std::vector<Outlier>* flagged) {
+  const int n = survey.cells.num_quotes[c];
+  if (n < 2) return;
+  const double quote_sd = std::hypot(p.sd, within_sd);
+  const double mate_sd = within_sd * std::sqrt(1.0 + 1.0 / (n - 1));
+  for (OutlierKind kind : {OutlierKind::kLowestQuote, OutlierKind::kHighestQuote}) {
+    const double x = kind == OutlierKind::kLowestQuote ? survey.cells.log_min[c] : survey.cells.log_max[c];
+    const double mates = (n * survey.cells.log_price[c] - x) / (n - 1);
+    const double gap = std::abs(x - mates);
+    const bool apart = mate_sd > 0.0 ? gap / mate_sd > threshold : gap > 0.0;
+    const double z = Standardised(x, quote_sd, p);
+    if (!apart || !(std::abs(z) > threshold)) continue;
+    Outlier quote = MakeRow(survey, h, c, p);
+    quote.kind = kind;
+    quote.observed = std::exp(x);
+    quote.standardised_residual = z;
+    flagged->push_back(std::move(quote));
+  }
+}
+
+// Screens the cells of heading h and the extreme quotes of each.
+HeadingRows ScreenHeading(const Survey& survey, int h, const ScreenFit& fit, const ScreenContext& context,
+                          const OutlierOptions& options) {
+  HeadingRows rows;
+  rows.num_flagged_by_region.assign(survey.num_regions(), 0);
+  const HeadingRange& range = survey.heading_range[h];
+  int num_regions_present = 0;
+  for (int r = 0; r < survey.num_regions(); ++r) num_regions_present += std::isfinite(fit.log_parity[r]) ? 1 : 0;
+  const double within_sd = WithinCellSd(survey, h);
+  for (int64_t k = 0; k < range.num_cells(); ++k) {
+    const int64_t c = range.cell_begin + k;
+    const Prediction p = PredictCell(survey, h, k, fit, context, num_regions_present);
+    if (p.how == ScreenedBy::kNotScreenable) {
+      rows.not_screenable.push_back(MakeRow(survey, h, c, p));
+      rows.not_screenable.back().standardised_residual = kNaN;
+      continue;
+    }
+    (p.how == ScreenedBy::kFit ? rows.num_by_fit : rows.num_leave_one_out) += 1;
+    const double z = Standardised(survey.cells.log_price[c], p.sd, p);
+    if (std::abs(z) > options.threshold) {
+      rows.flagged.push_back(MakeRow(survey, h, c, p));
+      rows.flagged.back().standardised_residual = z;
+      ++rows.num_flagged_by_region[survey.cells.region[c]];
+    }
+    ScreenQuotes(survey, h, c, p, within_sd, options.threshold, &rows.flagged);
+  }
+  return rows;
+}
+
+// Residual ln p - fitted of every cell of heading h under the elementary
+// method, in cell order (for dispersion.csv).
+Eigen::VectorXd MethodResiduals(const Survey& survey, const HeadingParities& heading) {
   const HeadingRange& range = survey.heading_range[heading.heading];
   const int64_t n = range.num_cells();
-  if (heading.cell_residual.size() == n && heading.cell_fitted.size() == n) {
-    *fitted = heading.cell_fitted;
-    return heading.cell_residual;
-  }
+  if (heading.cell_residual.size() == n) return heading.cell_residual;
   Eigen::VectorXd item_sum = Eigen::VectorXd::Zero(range.num_items());
   Eigen::VectorXd item_count = Eigen::VectorXd::Zero(range.num_items());
-  for (int64_t k = 0; k < n; ++k) {
-    const int64_t c = range.cell_begin + k;
+  for (int64_t c = range.cell_begin; c < range.cell_end; ++c) {
     const int i = survey.cells.item[c] - range.item_begin;
     item_sum(i) += survey.cells.log_price[c] - heading.log_parity(survey.cells.region[c]);
     item_count(i) += 1.0;
   }
-  fitted->resize(n);
   Eigen::VectorXd residual(n);
   for (int64_t k = 0; k < n; ++k) {
     const int64_t c = range.cell_begin + k;
     const int i = survey.cells.item[c] - range.item_begin;
-    (*fitted)(k) = heading.log_parity(survey.cells.region[c]) + item_sum(i) / item_count(i);
-    residual(k) = survey.cells.log_price[c] - (*fitted)(k);
+    residual(k) = survey.cells.log_price[c] - heading.log_parity(survey.cells.region[c]) - item_sum(i) / item_count(i);
   }
   return residual;
 }
 
-double RobustScale(const Eigen::VectorXd& residual) {
-  std::vector<double> magnitude(residual.size());
-  for (int64_t k = 0; k < residual.size(); ++k) magnitude[k] = std::abs(residual(k));
-  if (magnitude.empty()) return 0.0;
-  const size_t mid = magnitude.size() / 2;
-  std::nth_element(magnitude.begin(), magnitude.begin() + mid, magnitude.end());
-  double median = magnitude[mid];
-  if (magnitude.size() % 2 == 0) {
-    median = 0.5 * (median + *std::max_element(magnitude.begin(), magnitude.begin() + mid));
+std::vector<Dispersion> HeadingDispersion(const Survey& survey, const HeadingParities& heading,
+                                          const std::vector<int>& num_flagged_by_region) {
+  const HeadingRange& range = survey.heading_range[heading.heading];
+  const Eigen::VectorXd residual = MethodResiduals(survey, heading);
+  std::vector<Dispersion> rows(survey.num_regions());
+  for (int64_t k = 0; k < range.num_cells(); ++k) {
+    Dispersion& d = rows[survey.cells.region[range.cell_begin + k]];
+    d.num_items += 1;
+    d.rms_log_residual += residual(k) * residual(k);
+    d.max_abs_log_residual = std::max(d.max_abs_log_residual, std::abs(residual(k)));
   }
-  return 1.4826 * median;
+  std::vector<Dispersion> out;
+  for (int r = 0; r < survey.num_regions(); ++r) {
+    Dispersion& d = rows[r];
+    if (d.num_items == 0) continue;
+    d.heading = heading.heading;
+    d.region = r;
+    d.rms_log_residual = std::sqrt(d.rms_log_residual / d.num_items);
+    d.num_flagged = num_flagged_by_region.empty() ? 0 : num_flagged_by_region[r];
+    out.push_back(d);
+  }
+  return out;
+}
+
+// Spread t of heading h's regional levels against the other headings:
+// 1.4826 x median |LevelDeviations| over its regions (NaN with fewer than
+// kMinSpreadRegions), with its degrees of freedom.
+void MeasureSpread(const Eigen::MatrixXd& levels, int h, ScreenContext* context) {
+  context->level_deviation[h] = LevelDeviations(levels, h);
+  std::vector<double> magnitude;
+  for (double d : context->level_deviation[h]) {
+    if (std::isfinite(d)) magnitude.push_back(std::abs(d));
+  }
+  if (static_cast<int>(magnitude.size()) < kMinSpreadRegions) return;
+  context->spread[h] = kMadToSigma * Median(magnitude);
+  context->spread_dof[h] = kMadEfficiency * (static_cast<double>(magnitude.size()) - 1.0);
+}
+
+// The survey-wide part: every heading's scale, and for the headings with
+// cells that cut them (the only ones that need it) the level deviations and
+// spread; a heading with too little of its own borrows the median heading's.
+ScreenContext MakeContext(const std::vector<ScreenFit>& fits, const Eigen::MatrixXd& levels) {
+  const int num_headings = static_cast<int>(fits.size());
+  ScreenContext context;
+  context.levels = &levels;
+  context.level_deviation.resize(num_headings);
+  context.scale.assign(num_headings, kNaN);
+  context.spread.assign(num_headings, kNaN);
+  context.scale_dof.assign(num_headings, kNaN);
+  context.spread_dof.assign(num_headings, kNaN);
+  std::vector<uint8_t> needs_spread(num_headings, 0);
+  for (int h = 0; h < num_headings; ++h) {
+    if (!fits[h].identified) continue;
+    needs_spread[h] = std::count(fits[h].link.begin(), fits[h].link.end(), CellLink::kCutsHeading) > 0;
+    if (std::isfinite(fits[h].scale)) {
+      context.scale[h] = fits[h].scale;
+      context.scale_dof[h] = kMadEfficiency * std::max(1, fits[h].degrees_of_freedom);
+    }
+  }
+  for (int pass = 0; pass < 2; ++pass) {
+#pragma omp parallel for schedule(dynamic, 1)
+    for (int h = 0; h < num_headings; ++h) {
+      if (fits[h].identified && needs_spread[h] == (pass == 0 ? 1 : 0)) MeasureSpread(levels, h, &context);
+    }
+    // The second pass measures the other headings too, only when a heading
+    // must borrow and none of the first has a spread to lend.
+    bool must_borrow = false;
+    for (int h = 0; h < num_headings; ++h) must_borrow |= needs_spread[h] && !std::isfinite(context.spread[h]);
+    if (!must_borrow || std::isfinite(FiniteMedian(context.spread))) break;
+  }
+  const double pooled[4] = {FiniteMedian(context.scale), FiniteMedian(context.scale_dof),
+                            FiniteMedian(context.spread), FiniteMedian(context.spread_dof)};
+  for (int h = 0; h < num_headings; ++h) {
+    if (!std::isfinite(context.scale[h])) {
+      context.scale[h] = pooled[0];
+      context.scale_dof[h] = pooled[1];
+    }
+    if (!std::isfinite(context.spread[h])) {
+      context.spread[h] = pooled[2];
+      context.spread_dof[h] = pooled[3];
+    }
+  }
+  return context;
 }
 
 }  // namespace
 
+std::string ToString(OutlierFit fit) { return fit == OutlierFit::kRobust ? "robust" : "least-squares"; }
+
+bool FromString(const std::string& text, OutlierFit* fit) {
+  const std::string lower = ToLower(Trim(text));
+  for (OutlierFit candidate : {OutlierFit::kRobust, OutlierFit::kLeastSquares}) {
+    if (lower == ToString(candidate)) {
+      *fit = candidate;
+      return true;
+    }
+  }
+  return false;
+}
+
 bool OutlierOptions::IsValid(std::string* error) const {
   if (!(threshold > 0) || !std::isfinite(threshold)) {
     *error = "outlier threshold must be a positive number";
+    return false;
+  }
+  if (fit != OutlierFit::kRobust && fit != OutlierFit::kLeastSquares) {
+    *error = "outlier fit must be robust or least-squares";
+    return false;
+  }
+  if (!(huber_constant > 0) || !std::isfinite(huber_constant)) {
+    *error = "outlier huber_constant must be a positive number";
+    return false;
+  }
+  if (max_iterations < 1 || max_iterations > 10000) {
+    *error = "outlier max_iterations is " + std::to_string(max_iterations) + "; it must be from 1 to 10,000";
+    return false;
+  }
+  if (!(weight_tolerance > 0 && weight_tolerance <= 0.5)) {
+    *error = "outlier weight_tolerance must be above 0 and at most 0.5";
     return false;
   }
   return true;
@@ -75,86 +508,66 @@ std::string ToString(OutlierKind kind) {
   return "?";
 }
 
+std::string ToString(ScreenedBy how, OutlierFit fit) {
+  switch (how) {
+    case ScreenedBy::kFit:
+      return fit == OutlierFit::kRobust ? "robust fit" : "least-squares fit";
+    case ScreenedBy::kLeaveOneOut:
+      return "leave-one-out";
+    case ScreenedBy::kNotScreenable:
+      return "not screenable";
+  }
+  return "?";
+}
+
 OutlierReport FindOutliers(const Survey& survey, const ParityResult& result,
                            const OutlierOptions& options) {
   OutlierReport report;
+  report.fit = options.fit;
   const int num_headings = survey.num_headings();
   report.num_flagged_cells.assign(num_headings, 0);
-  report.residual_scale.assign(num_headings, std::nan(""));
-  // Headings are independent: each fills its own lists, joined in heading
-  // order afterwards, so the report is the same for any number of threads.
-  const int num_scanned = std::min(num_headings, static_cast<int>(result.headings.size()));
-  std::vector<std::vector<Outlier>> outliers_of(num_scanned);
-  std::vector<std::vector<Dispersion>> dispersion_of(num_scanned);
+  report.residual_scale.assign(num_headings, kNaN);
+  report.num_iterations.assign(num_headings, 0);
+  report.converged.assign(num_headings, 0);
+  std::string error;
+  if (!options.IsValid(&error)) return report;
+  // Headings are independent in each pass: each fills its own slot, joined
+  // in heading order afterwards, so the report is the same for any number of
+  // threads.
+  std::vector<ScreenFit> fits(num_headings);
 #pragma omp parallel for schedule(dynamic, 1)
-  for (int h = 0; h < num_scanned; ++h) {
-    std::vector<Outlier>& heading_outliers = outliers_of[h];
-    const HeadingParities& heading = result.headings[h];
-    const HeadingRange& range = survey.heading_range[h];
-    if (range.num_cells() == 0 || !heading.identified) continue;
-    Eigen::VectorXd fitted;
-    const Eigen::VectorXd residual = HeadingResiduals(survey, heading, &fitted);
-    const double scale = RobustScale(residual);
-    report.residual_scale[h] = scale;
-    // A single quote also varies around its cell mean: its yardstick adds the
-    // typical within-cell spread (median sd of log quotes over cells with
-    // several quotes) to the cell scale.
-    std::vector<double> within;
-    for (int64_t c = range.cell_begin; c < range.cell_end; ++c) {
-      if (survey.cells.num_quotes[c] > 1) within.push_back(survey.cells.log_sd[c]);
-    }
-    double within_sd = 0.0;
-    if (!within.empty()) {
-      std::nth_element(within.begin(), within.begin() + within.size() / 2, within.end());
-      within_sd = within[within.size() / 2];
-    }
-    const double quote_scale = std::sqrt(scale * scale + within_sd * within_sd);
-    std::vector<Dispersion> rows(survey.num_regions());
-    for (int64_t k = 0; k < range.num_cells(); ++k) {
-      const int64_t c = range.cell_begin + k;
-      const int r = survey.cells.region[c];
-      Dispersion& d = rows[r];
-      d.num_items += 1;
-      d.rms_log_residual += residual(k) * residual(k);
-      d.max_abs_log_residual = std::max(d.max_abs_log_residual, std::abs(residual(k)));
-      if (!(scale > 0)) continue;
-      auto flag = [&](OutlierKind kind, double log_observed) {
-        const double z = (log_observed - fitted(k)) / (kind == OutlierKind::kCell ? scale : quote_scale);
-        if (!(std::abs(z) > options.threshold)) return false;
-        Outlier o;
-        o.kind = kind;
-        o.heading = h;
-        o.region = r;
-        o.item = survey.cells.item[c];
-        o.observed = std::exp(log_observed);
-        o.predicted = std::exp(fitted(k));
-        o.standardised_residual = z;
-        o.num_quotes = survey.cells.num_quotes[c];
-        heading_outliers.push_back(o);
-        return true;
-      };
-      if (flag(OutlierKind::kCell, survey.cells.log_price[c])) {
-        ++d.num_flagged;
-        ++report.num_flagged_cells[h];
-      } else if (survey.cells.num_quotes[c] > 1) {
-        // A bad quote among good ones may leave the cell mean unflagged; the
-        // extremes of the cell's quotes show it.
-        flag(OutlierKind::kLowestQuote, survey.cells.log_min[c]);
-        flag(OutlierKind::kHighestQuote, survey.cells.log_max[c]);
-      }
-    }
-    for (int r = 0; r < survey.num_regions(); ++r) {
-      Dispersion& d = rows[r];
-      if (d.num_items == 0) continue;
-      d.heading = h;
-      d.region = r;
-      d.rms_log_residual = std::sqrt(d.rms_log_residual / d.num_items);
-      dispersion_of[h].push_back(d);
-    }
+  for (int h = 0; h < num_headings; ++h) {
+    if (survey.heading_range[h].num_cells() > 0) fits[h] = FitHeading(survey, h, options);
   }
-  for (int h = 0; h < num_scanned; ++h) {
-    report.outliers.insert(report.outliers.end(), outliers_of[h].begin(), outliers_of[h].end());
-    report.dispersion.insert(report.dispersion.end(), dispersion_of[h].begin(), dispersion_of[h].end());
+  Eigen::MatrixXd levels = Eigen::MatrixXd::Constant(survey.num_regions(), num_headings, kNaN);
+  for (int h = 0; h < num_headings; ++h) {
+    if (fits[h].identified) levels.col(h) = fits[h].log_parity;
+  }
+  const ScreenContext context = MakeContext(fits, levels);
+  std::vector<HeadingRows> rows(num_headings);
+#pragma omp parallel for schedule(dynamic, 1)
+  for (int h = 0; h < num_headings; ++h) {
+    if (fits[h].identified) rows[h] = ScreenHeading(survey, h, fits[h], context, options);
+  }
+  const int num_with_result = std::min(num_headings, static_cast<int>(result.headings.size()));
+  for (int h = 0; h < num_headings; ++h) {
+    const HeadingRows& heading = rows[h];
+    if (fits[h].identified) {
+      report.residual_scale[h] = context.scale[h];
+      report.num_iterations[h] = fits[h].num_iterations;
+      report.converged[h] = fits[h].converged ? 1 : 0;
+    }
+    for (const Outlier& o : heading.flagged) report.num_flagged_cells[h] += o.kind == OutlierKind::kCell ? 1 : 0;
+    report.outliers.insert(report.outliers.end(), heading.flagged.begin(), heading.flagged.end());
+    report.not_screenable.insert(report.not_screenable.end(), heading.not_screenable.begin(),
+                                 heading.not_screenable.end());
+    report.num_cells_by_fit += heading.num_by_fit;
+    report.num_cells_leave_one_out += heading.num_leave_one_out;
+    report.num_cells_not_screenable += static_cast<int64_t>(heading.not_screenable.size());
+    if (h < num_with_result && result.headings[h].identified && survey.heading_range[h].num_cells() > 0) {
+      const std::vector<Dispersion> d = HeadingDispersion(survey, result.headings[h], heading.num_flagged_by_region);
+      report.dispersion.insert(report.dispersion.end(), d.begin(), d.end());
+    }
   }
   std::stable_sort(report.outliers.begin(), report.outliers.end(), [](const Outlier& a, const Outlier& b) {
     return std::abs(a.standardised_residual) > std::abs(b.standardised_residual);
@@ -163,22 +576,29 @@ OutlierReport FindOutliers(const Survey& survey, const ParityResult& result,
 }
 
 std::string OutliersCsv(const Survey& survey, const OutlierReport& report) {
-  std::string out = "heading,region,item,kind,observed,predicted,ratio,standardised_residual,num_quotes\n";
-  for (const Outlier& o : report.outliers) {
-    AppendCsvField(survey.heading_codes[o.heading], &out);
-    out += ',';
-    AppendCsvField(survey.regions.Code(o.region), &out);
-    out += ',';
-    AppendCsvField(survey.items.Code(o.item), &out);
-    out += ',' + ToString(o.kind) + ',';
-    AppendShortest(o.observed, &out);
-    out += ',';
-    AppendShortest(o.predicted, &out);
-    out += ',';
-    AppendShortest(o.observed / o.predicted, &out);
-    out += ',';
-    AppendShortest(o.standardised_residual, &out);
-    out += ',' + std::to_string(o.num_quotes) + '\n';
+  std::string out =
+      "heading,region,item,kind,observed,predicted,ratio,standardised_residual,num_quotes,how,leverage,note\n";
+  for (const std::vector<Outlier>* list : {&report.outliers, &report.not_screenable}) {
+    for (const Outlier& o : *list) {
+      AppendCsvField(survey.heading_codes[o.heading], &out);
+      out += ',';
+      AppendCsvField(survey.regions.Code(o.region), &out);
+      out += ',';
+      AppendCsvField(survey.items.Code(o.item), &out);
+      out += ',' + ToString(o.kind) + ',';
+      AppendShortest(o.observed, &out);
+      out += ',';
+      AppendShortest(o.predicted, &out);
+      out += ',';
+      AppendShortest(o.observed / o.predicted, &out);
+      out += ',';
+      AppendShortest(o.standardised_residual, &out);
+      out += ',' + std::to_string(o.num_quotes) + ',' + ToString(o.how, report.fit) + ',';
+      AppendShortest(o.leverage, &out);
+      out += ',';
+      AppendCsvField(o.note, &out);
+      out += '\n';
+    }
   }
   return out;
 }

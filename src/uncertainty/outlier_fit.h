@@ -1,0 +1,99 @@
+// The fit the outlier screen measures one heading's cells against: CPD by
+// iteratively reweighted least squares with Huber weights (each weighted
+// solve is FitCpd's), the hat value of every cell, and the cells whose hat
+// value is exactly 1, found on the region-item graph rather than by
+// comparing a computed hat value with 1, so no tolerance decides it.
+#ifndef PARITAS_UNCERTAINTY_OUTLIER_FIT_H_
+#define PARITAS_UNCERTAINTY_OUTLIER_FIT_H_
+
+#include <cstdint>
+#include <map>
+#include <span>
+#include <string>
+#include <vector>
+
+#include <Eigen/Core>
+
+#include "paritas/elementary/cpd.h"
+#include "paritas/uncertainty/outliers.h"
+
+namespace paritas::internal {
+
+// What a cell's own residual can say.
+enum class CellLink : uint8_t {
+  // The heading's other cells also fix the cell's region and item levels
+  // (hat value below 1): its residual carries information.
+  kNone,
+  // The cell is its item's only one: the item's level is the cell's price
+  // (hat value 1); nothing else in the survey prices the item.
+  kItemOnlyHere,
+  // The cell alone links its region (and possibly a few more regions and
+  // items) to the rest of the heading: removing it cuts the region-item
+  // graph in two, so the residual is 0 whatever the price (hat value 1).
+  kCutsHeading,
+};
+
+struct ScreenFit {
+  bool identified = false;  // false: regions not linked or no cells
+  std::string message;      // why not identified
+  // Per region of the CpdData (NaN where absent): ln parity, mean 0 over
+  // the regions present. Per item: item effect (NaN where absent).
+  Eigen::VectorXd log_parity;
+  Eigen::VectorXd item_effect;
+  // Per cell, in the order given: residual ln p - a_r - b_i of the final
+  // fit; Huber weight w (1 for least squares); q = x'(X'WX)^+ x with the
+  // final weights (the hat value is w q).
+  Eigen::VectorXd residual;
+  Eigen::VectorXd weight;
+  Eigen::VectorXd leverage;
+  std::vector<CellLink> link;
+  // Number of cells of each item (index of the CpdData).
+  std::vector<int> item_num_cells;
+  // For kCutsHeading cells: the regions (CpdData indices) on the cell's
+  // region side once it is removed, listed only when there are several
+  // (otherwise the side is the cell's own region).
+  std::map<int, std::vector<int>> region_side;
+  // Robust scale of the final residuals (RobustScale); NaN when fewer than
+  // kMinScaleCells cells carry residual information.
+  double scale = 0.0;
+  int num_scale_cells = 0;
+  // Residual degrees of freedom of the CPD: cells - regions - items + 1.
+  int degrees_of_freedom = 0;
+  int num_iterations = 0;  // reweighted fits after the least-squares start
+  bool converged = false;
+};
+
+// Cells needed to estimate a heading's scale; below it the caller pools.
+inline constexpr int kMinScaleCells = 3;
+
+// Fits the heading's cells (data.weight must be empty: the screen weighs
+// every cell 1 before the Huber weights) with the fit `options` asks for.
+ScreenFit FitScreen(const CpdData& data, const OutlierOptions& options);
+
+// Returns 1.4826 x median over the cells with link kNone and hat value
+// h = w q < 1 of |e| / sqrt(1 - h) (for a cell of weight 1 the term has
+// variance close to sigma^2 under the model, the usual standardised
+// residual); the root mean square of those terms when the median is 0; NaN
+// with fewer than kMinScaleCells such cells. Sets `num_cells` to their
+// number.
+double RobustScale(const Eigen::VectorXd& residual, const Eigen::VectorXd& hat,
+                   const std::vector<CellLink>& link, int* num_cells);
+
+// Returns q_k = x_k' (X'WX)^+ x_k for every cell of a linked CPD design
+// (regions 0..num_regions-1 and items 0..num_items-1 all present), with
+// x_k the indicator of the cell's region and item. Forms the Schur
+// complement of the smaller side, as FitCpd does: cost about
+// cells x min(R, I) + min(R, I)^3.
+Eigen::VectorXd LeverageFactors(int num_regions, int num_items, std::span<const int> region,
+                                std::span<const int> item, const Eigen::VectorXd& weight);
+
+// Classifies the cells of a linked design (indices as LeverageFactors) by
+// bridges of the bipartite region-item graph (Tarjan 1974, iterative), and
+// lists the regions on the region side of each bridge with several there.
+void FindCuttingCells(int num_regions, int num_items, std::span<const int> region,
+                      std::span<const int> item, std::vector<CellLink>* link,
+                      std::map<int, std::vector<int>>* region_side);
+
+}  // namespace paritas::internal
+
+#endif  // PARITAS_UNCERTAINTY_OUTLIER_FIT_H_
