@@ -342,6 +342,14 @@ std::vector<size_t> ChunkStarts(std::string_view data) {
   return starts;
 }
 
+// True when `data` holds a record or a malformed one, not only blank lines
+// (and a byte-order mark).
+bool HoldsARecord(std::string_view data) {
+  CsvReader reader(data);
+  CsvRecord record;
+  return reader.Next(&record) || !reader.error().empty();
+}
+
 class PriceReader {
  public:
   PriceReader(const std::string& path, const LoadOptions& options, LoadState* state,
@@ -392,7 +400,7 @@ class PriceReader {
         // The header must lie in the first block; a longer header line is
         // read block by block until it ends.
         const size_t end = at_eof ? data.size() : LastRecordEnd(data);
-        if (end == 0 && !at_eof) {
+        if (!at_eof && !HoldsARecord(data.substr(0, end))) {  // Blank lines so far.
           digest_.Update(fresh.data(), fresh.size());
           carried = data.size();
           continue;

@@ -44,6 +44,14 @@ std::string DidYouMean(std::string_view word, const std::vector<std::string>& ca
   return nearest.empty() ? "" : "; did you mean '" + nearest + "'?";
 }
 
+// True when `data` holds a record or a malformed one, not only blank lines
+// (and a byte-order mark).
+bool HoldsARecord(std::string_view data) {
+  CsvReader reader(data);
+  CsvRecord record;
+  return reader.Next(&record) || !reader.error().empty();
+}
+
 // Parities (and optional intervals) by node x region, reference = 100.
 struct ParityTable {
   CodeTable nodes;
@@ -345,7 +353,7 @@ class Deflater {
       if (!header_done) {
         // A header longer than a block is read block by block until it ends.
         const size_t end = at_eof ? data.size() : LastRecordEnd(data);
-        if (end == 0 && !at_eof) {
+        if (!at_eof && !HoldsARecord(data.substr(0, end))) {  // Blank lines so far.
           carried = data.size();
           continue;
         }

@@ -572,6 +572,23 @@ TEST(LoadSurvey, ReadsQuotedFieldsCrlfBomBlankLinesAndNoFinalNewline) {
   EXPECT_EQ(survey.expenditure(1, 0), 2.0);
 }
 
+// A blank first line used to end the header search early: the block then
+// held no whole record and the file was called empty.
+TEST(LoadSurvey, ReadsAHeaderLongerThanABlockAfterABlankLine) {
+  std::string header = "region,item,price,heading";
+  for (int c = 0; c < 10000; ++c) header += ",column" + std::to_string(c);
+  const std::string commas(10000, ',');
+  const SurveyDir files = MakeSurvey("blank_long_header", "\n" + header + "\nnorth,bread,2,food" +
+                                                              commas + "\nsouth,bread,3,food" + commas + "\n");
+  Survey survey;
+  LoadOptions options;
+  options.block_bytes = 1 << 16;  // The header is about 120 KiB.
+  const LoadSummary summary = Load(files.config, &survey, options);
+  ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
+  EXPECT_EQ(FileOf(summary, "prices").rows_used, 2);
+  EXPECT_EQ(FileOf(summary, "prices").ignored_columns.size(), 10000u);
+}
+
 TEST(LoadSurvey, NamesTheLineAfterAQuotedNewline) {
   const SurveyDir files = MakeSurvey("line_after_newline",
                                         "region,item,note,price,heading\n"

@@ -132,6 +132,21 @@ TEST(Deflate, GivesTheSameOutputWhateverTheBlockSize) {
   EXPECT_EQ(summary.num_bytes_read, static_cast<int64_t>(input.size()));
 }
 
+// A blank first line used to end the header search early: the block then
+// held no whole record and the file was called empty.
+TEST(Deflate, ReadsAHeaderLongerThanABlockAfterABlankLine) {
+  const std::string dir = MakeTempDir("deflate_blank_long_header");
+  std::string header = "region,income";
+  for (int c = 0; c < 200; ++c) header += ",column" + std::to_string(c);
+  const std::string commas(200, ',');
+  DeflateOptions options = Options(dir, "\n" + header + "\na,120" + commas + "\n");
+  options.block_bytes = 1024;  // The header is about 2.5 KiB.
+  DeflateSummary summary;
+  ASSERT_TRUE(Deflate(options, &summary)) << summary.message;
+  EXPECT_EQ(ReadTextFile(options.output_path),
+            header + ",income_real\na,120" + commas + ",100.0000\n");
+}
+
 TEST(Deflate, SkipsBadRowsAndListsThemInRejectedCsv) {
   const std::string dir = MakeTempDir("deflate_skip");
   DeflateOptions options = Options(dir,
