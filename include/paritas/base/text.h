@@ -5,6 +5,7 @@
 #define PARITAS_BASE_TEXT_H_
 
 #include <cstdint>
+#include <limits>
 #include <string>
 #include <string_view>
 #include <vector>
@@ -52,11 +53,16 @@ std::string LocatedMessage(const std::string& path, int64_t line, int column, co
 // number"; empty for kOk.
 std::string NumberProblem(NumberStatus status, std::string_view what, std::string_view text);
 
-// Levenshtein distance between two strings.
-int EditDistance(std::string_view a, std::string_view b);
+// Returns the Levenshtein distance between two strings, or max_distance + 1
+// when it is larger than max_distance. Costs O(|a| x min(max_distance, |b|))
+// steps: only a band around the diagonal is computed.
+int EditDistance(std::string_view a, std::string_view b,
+                 int max_distance = std::numeric_limits<int>::max());
 
-// Returns the candidate closest to `word` by edit distance when it is close
-// enough to be a plausible typo (distance <= max(2, |word| / 3)), else "".
+// Returns the candidate closest to `word` by edit distance (ASCII case
+// ignored) when it is close enough to be a plausible typo (distance <=
+// max(2, |word| / 3)), else "". A word longer than 256 bytes gets no
+// suggestion (codes are at most 200 bytes), so a huge word costs nothing.
 std::string NearestName(std::string_view word, const std::vector<std::string>& candidates);
 
 // Joins names with ", ".
