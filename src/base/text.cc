@@ -17,6 +17,34 @@ std::string_view Trim(std::string_view text) {
   return text.substr(begin, end - begin);
 }
 
+namespace {
+
+// For a decimal number that from_chars found out of range: true when its
+// magnitude is below 1 (underflow), false when above (overflow). Only the
+// position of the first significant digit and the exponent matter.
+bool IsBelowOne(std::string_view text) {
+  if (!text.empty() && (text.front() == '-' || text.front() == '+')) text.remove_prefix(1);
+  const size_t e = text.find_first_of("eE");
+  int64_t exponent = 0;
+  if (e != std::string_view::npos) {
+    std::string_view digits = text.substr(e + 1);
+    const bool negative = !digits.empty() && digits.front() == '-';
+    if (!digits.empty() && (digits.front() == '-' || digits.front() == '+')) digits.remove_prefix(1);
+    for (char c : digits) exponent = std::min<int64_t>(exponent * 10 + (c - '0'), int64_t{1} << 40);
+    if (negative) exponent = -exponent;
+  }
+  const std::string_view mantissa = text.substr(0, e);
+  const size_t point = std::min(mantissa.find('.'), mantissa.size());
+  const size_t first = mantissa.find_first_of("123456789");
+  if (first == std::string_view::npos) return true;
+  // Decimal exponent of the first significant digit.
+  const int64_t lead = first < point ? static_cast<int64_t>(point - first) - 1
+                                     : static_cast<int64_t>(point) - static_cast<int64_t>(first);
+  return lead + exponent < 0;
+}
+
+}  // namespace
+
 NumberStatus ParseNumber(std::string_view text, double* value) {
   text = Trim(text);
   if (text.empty()) return NumberStatus::kEmpty;
@@ -27,7 +55,9 @@ NumberStatus ParseNumber(std::string_view text, double* value) {
   double parsed = 0.0;
   auto [end, ec] = std::from_chars(text.data(), text.data() + text.size(), parsed);
   if (end != text.data() + text.size()) return NumberStatus::kInvalid;
-  if (ec == std::errc::result_out_of_range) return NumberStatus::kNonFinite;
+  if (ec == std::errc::result_out_of_range) {
+    return IsBelowOne(text) ? NumberStatus::kUnderflow : NumberStatus::kOverflow;
+  }
   if (ec != std::errc()) return NumberStatus::kInvalid;
   if (!std::isfinite(parsed)) return NumberStatus::kNonFinite;
   *value = parsed;
@@ -117,6 +147,12 @@ std::string NumberProblem(NumberStatus status, std::string_view what, std::strin
       return std::string(what) + " " + QuoteValue(text) + " is not a number";
     case NumberStatus::kNonFinite:
       return std::string(what) + " " + QuoteValue(text) + " is not a finite number";
+    case NumberStatus::kOverflow:
+      return std::string(what) + " " + QuoteValue(text) +
+             " is outside the range of numbers (overflow: beyond 1.8e308)";
+    case NumberStatus::kUnderflow:
+      return std::string(what) + " " + QuoteValue(text) +
+             " is outside the range of numbers (underflow: nearer to zero than 4.9e-324)";
     case NumberStatus::kOk:
       break;
   }

@@ -317,10 +317,24 @@ TEST(LoadSurvey, RejectsAnUnparsablePrice) {
 TEST(LoadSurvey, RejectsANonFinitePrice) {
   const SurveyDir files = MakeSurvey("inf_price", std::string(kPrices) + "south,eggs,inf,food\n");
   EXPECT_EQ(FirstRejection(files), files.prices() + ":6:3: price 'inf' is not a finite number");
-  const SurveyDir huge = MakeSurvey("huge_price", std::string(kPrices) + "south,eggs,1e999,food\n");
-  EXPECT_EQ(FirstRejection(huge), huge.prices() + ":6:3: price '1e999' is not a finite number");
   const SurveyDir nan = MakeSurvey("nan_price", std::string(kPrices) + "south,eggs,NaN,food\n");
   EXPECT_EQ(FirstRejection(nan), nan.prices() + ":6:3: price 'NaN' is not a finite number");
+}
+
+// 1e-400 is finite but beyond what a double holds: it used to be called
+// "not a finite number".
+TEST(LoadSurvey, RejectsANumberOutsideTheRangeOfNumbers) {
+  const SurveyDir tiny = MakeSurvey("tiny_price", std::string(kPrices) + "south,eggs,1e-400,food\n");
+  EXPECT_EQ(FirstRejection(tiny), tiny.prices() + ":6:3: price '1e-400' is outside the range of "
+                                                   "numbers (underflow: nearer to zero than 4.9e-324)");
+  const SurveyDir huge = MakeSurvey("huge_price", std::string(kPrices) + "south,eggs,1e999,food\n");
+  EXPECT_EQ(FirstRejection(huge), huge.prices() + ":6:3: price '1e999' is outside the range of "
+                                                   "numbers (overflow: beyond 1.8e308)");
+  const SurveyDir expenditure =
+      MakeSurvey("tiny_expenditure", kPrices, std::string(kExpenditure) + "east,food,-0.1e-999\n");
+  EXPECT_EQ(FirstRejection(expenditure),
+            expenditure.expenditure() + ":4:3: expenditure '-0.1e-999' is outside the range of "
+                                        "numbers (underflow: nearer to zero than 4.9e-324)");
 }
 
 TEST(LoadSurvey, RejectsABadRepresentativeFlag) {

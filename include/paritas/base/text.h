@@ -13,10 +13,18 @@
 namespace paritas {
 
 // Outcome of parsing a number.
-enum class NumberStatus { kOk, kEmpty, kInvalid, kNonFinite };
+enum class NumberStatus {
+  kOk,
+  kEmpty,
+  kInvalid,
+  kNonFinite,  // inf or nan
+  kOverflow,   // finite but larger in magnitude than the largest double (1.8e308)
+  kUnderflow,  // finite and not zero but so near zero it would read as 0 (below 4.9e-324)
+};
 
 // Parses a decimal number (leading and trailing ASCII spaces allowed, a
-// leading '+' allowed). Rejects empty text, trailing garbage, and inf/nan.
+// leading '+' allowed). Rejects empty text, trailing garbage, inf/nan, and
+// numbers beyond the range of a double (subnormal numbers are read).
 NumberStatus ParseNumber(std::string_view text, double* value);
 
 // Parses a 1/0, yes/no, true/false flag (case-insensitive, spaces trimmed).
