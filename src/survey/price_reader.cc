@@ -104,7 +104,8 @@ class ChunkParser {
     while (reader_.Next(&record_)) {
       ++out_->rows_read;
       if (static_cast<int>(record_.fields.size()) != columns_.num_fields) {
-        Reject(0, FieldCountProblem(record_.fields.size(), columns_.num_fields));
+        Reject(FieldCountColumn(record_.fields.size(), columns_.num_fields),
+               FieldCountProblem(record_.fields.size(), columns_.num_fields));
         continue;
       }
       if (!ReadRegion() || !ReadItem()) continue;

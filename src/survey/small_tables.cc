@@ -46,7 +46,8 @@ bool ReadSmallTable(const std::string& path, const std::vector<std::string>& wan
     ++file->rows_read;
     RowVerdict verdict;
     if (static_cast<int>(record.fields.size()) != columns.num_fields) {
-      verdict.reason = FieldCountProblem(record.fields.size(), columns.num_fields);
+      verdict = {FieldCountColumn(record.fields.size(), columns.num_fields),
+                 FieldCountProblem(record.fields.size(), columns.num_fields)};
     } else {
       verdict = handle(record, columns);
     }
@@ -135,6 +136,10 @@ std::string CheckCode(std::string_view code, const char* what) {
            std::to_string(kMaxCodeLength) + " characters";
   }
   return "";
+}
+
+int FieldCountColumn(size_t found, int expected) {
+  return found < static_cast<size_t>(expected) ? static_cast<int>(found) + 1 : expected + 1;
 }
 
 std::string FieldCountProblem(size_t found, int expected) {
@@ -272,7 +277,7 @@ bool ReadExpenditure(const std::string& path, LoadState* state, Rejections* reje
         (static_cast<uint64_t>(region_index) << 32) | static_cast<uint32_t>(heading_index);
     auto [it, inserted] = first_line.emplace(key, record.line);
     if (!inserted) {
-      return {0, "duplicate row for region " + QuoteValue(region) + " and heading " +
+      return {kRegion + 1, "duplicate row for region " + QuoteValue(region) + " and heading " +
                      QuoteValue(heading) + " (first at line " + std::to_string(it->second) + ")"};
     }
     state->spending.push_back({region_index, heading_index, value + 0.0});

@@ -606,7 +606,8 @@ class Deflater {
       ++summary_->num_rows_read;
       if (record.fields.size() != num_fields_) {
         const size_t found = record.fields.size();
-        Reject(record, 0,
+        // The column is the first field missing, or the first one too many.
+        Reject(record, static_cast<int>(std::min(found, num_fields_)) + 1,
                "row has " + std::to_string(found) + " field" + (found == 1 ? "" : "s") +
                    ", the header has " + std::to_string(num_fields_));
         continue;

@@ -368,9 +368,15 @@ TEST(LoadSurvey, RejectsATooLongCode) {
 
 TEST(LoadSurvey, RejectsARowWithTheWrongNumberOfFields) {
   const SurveyDir files = MakeSurvey("field_count", std::string(kPrices) + "south,eggs,1\n");
-  EXPECT_EQ(FirstRejection(files), files.prices() + ":6: row has 3 fields, the header has 4");
+  // The column is the first one missing, or the first one too many.
+  EXPECT_EQ(FirstRejection(files), files.prices() + ":6:4: row has 3 fields, the header has 4");
   const SurveyDir one = MakeSurvey("field_count_one", std::string(kPrices) + "south\n");
-  EXPECT_EQ(FirstRejection(one), one.prices() + ":6: row has 1 field, the header has 4");
+  EXPECT_EQ(FirstRejection(one), one.prices() + ":6:2: row has 1 field, the header has 4");
+  const SurveyDir many = MakeSurvey("field_count_many", std::string(kPrices) + "south,eggs,1,food,x,y\n");
+  EXPECT_EQ(FirstRejection(many), many.prices() + ":6:5: row has 6 fields, the header has 4");
+  const SurveyDir regions = MakeSurvey("field_count_regions", kPrices, kExpenditure, std::nullopt,
+                                       "region,name\nnorth,North,extra\nsouth,South\n");
+  EXPECT_EQ(FirstRejection(regions), regions.regions() + ":2:3: row has 3 fields, the header has 2");
 }
 
 TEST(LoadSurvey, RejectsANegativeOrBadExpenditure) {
@@ -394,7 +400,7 @@ TEST(LoadSurvey, RejectsDuplicatedExpenditureRows) {
   const SurveyDir files = MakeSurvey("duplicate_expenditure", kPrices,
                                         std::string(kExpenditure) + "north, food ,50\n");
   EXPECT_EQ(FirstRejection(files),
-            files.expenditure() + ":4: duplicate row for region 'north' and heading 'food' (first at line 2)");
+            files.expenditure() + ":4:1: duplicate row for region 'north' and heading 'food' (first at line 2)");
 }
 
 TEST(LoadSurvey, RejectsAnItemFiledUnderTwoHeadingsInItemsCsv) {
@@ -638,7 +644,7 @@ TEST(LoadSurvey, ReportsAFileCutMidQuote) {
 
 TEST(LoadSurvey, ReadsATruncatedLastRow) {
   const SurveyDir files = MakeSurvey("truncated_row", std::string(kPrices) + "south,eg");
-  EXPECT_EQ(FirstRejection(files), files.prices() + ":6: row has 2 fields, the header has 4");
+  EXPECT_EQ(FirstRejection(files), files.prices() + ":6:3: row has 2 fields, the header has 4");
 }
 
 TEST(LoadSurvey, ReportsRandomBytesCleanly) {
@@ -697,7 +703,7 @@ TEST(LoadSurvey, ReadsAHeaderWithAMillionColumns) {
   EXPECT_EQ(FileOf(summary, "prices").ignored_columns.size(), static_cast<size_t>(kNumColumns - 4));
   EXPECT_EQ(FileOf(summary, "prices").rows_used, 2);
   ASSERT_EQ(summary.rejected_rows.size(), 1u);
-  EXPECT_EQ(summary.rejected_rows[0].reason, files.prices() + ":4: row has 4 fields, the header has 1000000");
+  EXPECT_EQ(summary.rejected_rows[0].reason, files.prices() + ":4:5: row has 4 fields, the header has 1000000");
   std::filesystem::remove_all(files.dir);
 }
 

@@ -179,7 +179,7 @@ TEST(Deflate, SkipsBadRowsAndListsThemInRejectedCsv) {
           ":4:3: income is empty,\"3,b,\"\n" + in + ",5," + in +
           ":5:3: income 'abc' is not a number,\"4,b,abc\"\n" + in + ",6," + in +
           ":6:3: income '-5' is negative (negative values need --allow-negative),\"5,b,-5\"\n" +
-          in + ",7,\"" + in + ":7: row has 2 fields, the header has 3\",\"6,b\"\n" + in + ",8," +
+          in + ",7,\"" + in + ":7:3: row has 2 fields, the header has 3\",\"6,b\"\n" + in + ",8," +
           in + ":8:2: region is empty,\"7,,100\"\n");
   ASSERT_EQ(summary.rejected_rows.size(), 6u);
   EXPECT_EQ(summary.rejected_rows[0].raw, "2,zz,100");
