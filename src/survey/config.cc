@@ -354,7 +354,10 @@ class ConfigParser {
     if (node.IsScalar()) {
       const std::string file = Resolve(node.Scalar());
       std::string text;
-      if (!ReadWholeFile(file, &text, error)) return false;
+      if (!ReadWholeFile(file, ReadLimits().max_yaml_bytes, LimitAdvice("limits.max_yaml_bytes"),
+                         &text, error)) {
+        return false;
+      }
       config_->classification_source = file;
       if (!Classification::FromYaml(text, file, &config_->classification, error)) return false;
     } else {
@@ -448,7 +451,10 @@ bool RunConfig::IsValid(std::string* error) const {
 
 bool LoadRunConfig(const std::string& path, RunConfig* config, std::string* error) {
   std::string text;
-  if (!ReadWholeFile(path, &text, error)) return false;
+  if (!ReadWholeFile(path, ReadLimits().max_yaml_bytes, LimitAdvice("limits.max_yaml_bytes"), &text,
+                     error)) {
+    return false;
+  }
   return ParseRunConfig(text, path, config, error);
 }
 

@@ -35,7 +35,11 @@ bool ReadSmallTable(const std::string& path, const std::vector<std::string>& wan
                     const std::function<RowVerdict(const CsvRecord&, const Columns&)>& handle,
                     std::string* error) {
   std::string text;
-  if (!ReadWholeFile(path, &text, error)) return false;
+  const ReadLimits limits;
+  if (!ReadWholeFile(path, limits.max_file_bytes, LimitAdvice("limits.max_file_bytes"), &text,
+                     error)) {
+    return false;
+  }
   file->size_bytes = static_cast<int64_t>(text.size());
   file->sha256 = Sha256Hex(text);
   CsvReader reader(text);

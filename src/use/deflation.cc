@@ -75,7 +75,11 @@ bool ReadTable(const std::string& path, const std::vector<std::string>& wanted,
                const std::vector<bool>& required, std::vector<int>* index, std::string* contents,
                std::vector<std::vector<std::string_view>>* rows, std::vector<int64_t>* lines,
                std::string* error) {
-  if (!ReadWholeFile(path, contents, error)) return false;
+  const ReadLimits limits;
+  if (!ReadWholeFile(path, limits.max_file_bytes, LimitAdvice("limits.max_file_bytes"), contents,
+                     error)) {
+    return false;
+  }
   CsvReader reader(*contents);
   CsvRecord record;
   if (!reader.Next(&record)) {
