@@ -29,13 +29,12 @@ struct RowVerdict {
 // Reads a small table whole: checks its header, then hands every data row
 // with the header's number of fields to `handle`, counting rows read, used
 // and rejected.
-bool ReadSmallTable(const std::string& path, const std::vector<std::string>& wanted,
-                    const std::vector<bool>& required, Rejections* rejections,
-                    InputFileSummary* file,
+bool ReadSmallTable(const std::string& path, const ReadLimits& limits,
+                    const std::vector<std::string>& wanted, const std::vector<bool>& required,
+                    Rejections* rejections, InputFileSummary* file,
                     const std::function<RowVerdict(const CsvRecord&, const Columns&)>& handle,
                     std::string* error) {
   std::string text;
-  const ReadLimits limits;
   if (!ReadWholeFile(path, limits.max_file_bytes, LimitAdvice("limits.max_file_bytes"), &text,
                      error)) {
     return false;
@@ -43,6 +42,7 @@ bool ReadSmallTable(const std::string& path, const std::vector<std::string>& wan
   file->size_bytes = static_cast<int64_t>(text.size());
   file->sha256 = Sha256Hex(text);
   CsvReader reader(text);
+  reader.set_limits(limits);
   Columns columns;
   if (!ReadHeader(&reader, path, wanted, required, &columns, file, error)) return false;
   CsvRecord record;
@@ -185,8 +185,8 @@ bool ReadRegions(const std::string& path, LoadState* state, Rejections* rejectio
     state->region_population.push_back(population);
     return {};
   };
-  if (!ReadSmallTable(path, {"region", "name", "population"}, {true, false, false}, rejections,
-                      file, handle, error))
+  if (!ReadSmallTable(path, state->config->limits, {"region", "name", "population"},
+                      {true, false, false}, rejections, file, handle, error))
     return false;
   state->regions_fixed = true;
   return true;
@@ -232,8 +232,8 @@ bool ReadItems(const std::string& path, LoadState* state, Rejections* rejections
     state->item_unit.emplace_back(kUnit >= 0 ? Trim(record.fields[kUnit]) : std::string_view());
     return {};
   };
-  if (!ReadSmallTable(path, {"item", "heading", "description", "unit"}, {true, true, false, false},
-                      rejections, file, handle, error))
+  if (!ReadSmallTable(path, state->config->limits, {"item", "heading", "description", "unit"},
+                      {true, true, false, false}, rejections, file, handle, error))
     return false;
   // Later messages about these items name the file.
   for (std::string& origin : state->item_origin) {
@@ -287,8 +287,8 @@ bool ReadExpenditure(const std::string& path, LoadState* state, Rejections* reje
     state->spending.push_back({region_index, heading_index, value + 0.0});
     return {};
   };
-  if (!ReadSmallTable(path, {"region", "heading", "expenditure"}, {true, true, true}, rejections,
-                      file, handle, error))
+  if (!ReadSmallTable(path, state->config->limits, {"region", "heading", "expenditure"},
+                      {true, true, true}, rejections, file, handle, error))
     return false;
   return true;
 }

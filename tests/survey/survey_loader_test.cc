@@ -4,10 +4,14 @@
 // table does not depend on how prices.csv is cut into blocks and chunks.
 #include "paritas/survey/survey_loader.h"
 
+#include <sys/stat.h>
+
 #include <cmath>
+#include <cstdio>
 #include <filesystem>
 #include <optional>
 #include <random>
+#include <thread>
 
 #include "test_util.h"
 
@@ -675,13 +679,87 @@ TEST(LoadSurvey, ReadsBinaryBytesInsideFieldsAsCodes) {
   EXPECT_EQ(survey.items.Codes(), std::vector<std::string>{"\xFF\xFE"});
 }
 
-TEST(LoadSurvey, RejectsAFiftyMegabyteCodeField) {
+// Beyond limits.max_field_bytes the file stops; under a raised limit the
+// field is only a code too long for its row.
+TEST(LoadSurvey, RefusesAFiftyMegabyteFieldUnlessTheLimitIsRaised) {
   std::string prices = kPrices;
   prices += std::string(50 << 20, 'R') + ",bread,2,food\n";
-  const SurveyDir files = MakeSurvey("huge_field", prices);
+  SurveyDir files = MakeSurvey("huge_field", prices);
+  EXPECT_EQ(LoadMessage(files), files.prices() +
+                                    ":6:1: a field longer than 1 MiB "
+                                    "(limits.max_field_bytes); raise the limit if "
+                                    "the file is right");
+  files.config.limits.max_field_bytes = files.config.limits.max_record_bytes = int64_t{64} << 20;
   EXPECT_EQ(FirstRejection(files), files.prices() + ":6:1: region '" + std::string(60, 'R') +
                                        "...' is longer than 200 characters");
   std::filesystem::remove_all(files.dir);
+}
+
+// Devices and pipes report no size; reading stops at the limits.
+TEST(LoadSurvey, StopsAtTheLimitsOnDevZero) {
+  SurveyDir files = MakeSurvey("dev_zero", std::nullopt);
+  files.config.survey.prices = "/dev/zero";
+  EXPECT_EQ(LoadMessage(files),
+            "/dev/zero:1:1: a field longer than 1 MiB (limits.max_field_bytes); "
+            "raise the limit if the file is right");
+  files.config.limits.max_field_bytes = int64_t{32} << 20;  // The record limit comes first.
+  EXPECT_EQ(LoadMessage(files),
+            "/dev/zero:1: a record longer than 16 MiB "
+            "(limits.max_record_bytes); raise the limit if the file is right");
+  WriteTextFile(files.dir + "/prices.csv", kPrices);
+  files.config.survey.prices = files.dir + "/prices.csv";
+  files.config.survey.expenditure = "/dev/zero";
+  files.config.limits.max_file_bytes = 1 << 20;
+  EXPECT_EQ(LoadMessage(files),
+            "/dev/zero: file larger than 1 MiB (limits.max_file_bytes); raise "
+            "the limit if the file is right");
+}
+
+TEST(LoadSurvey, ReadsSmallTablesUnderTheConfiguredLimits) {
+  std::string regions = "region,name\n";
+  for (int r = 0; r < 100; ++r)
+    regions += "r" + std::to_string(r) + ",Region " + std::to_string(r) + "\n";
+  regions += "north,North\nsouth,South\n";
+  SurveyDir files = MakeSurvey("small_limits", kPrices, kExpenditure, std::nullopt, regions);
+  files.config.limits.max_file_bytes = 1000;
+  EXPECT_EQ(LoadMessage(files), files.regions() +
+                                    ": file larger than 1000 bytes "
+                                    "(limits.max_file_bytes); raise the limit if the "
+                                    "file is right");
+  files.config.limits.max_file_bytes = 4000;
+  files.config.limits.max_record_bytes = 12;
+  EXPECT_EQ(LoadMessage(files), files.regions() +
+                                    ":12: a record longer than 12 bytes "
+                                    "(limits.max_record_bytes); raise the limit if the "
+                                    "file is right");
+  files.config.limits.max_record_bytes = 100;
+  Survey survey;
+  EXPECT_EQ(Load(files.config, &survey).outcome, LoadOutcome::kOk);
+}
+
+// prices.csv through a FIFO, fed in small pieces by another thread.
+TEST(LoadSurvey, ReadsPricesFromAPipe) {
+  SurveyDir files = MakeSurvey("fifo", std::nullopt);
+  const std::string fifo = files.dir + "/prices.fifo";
+  ASSERT_EQ(::mkfifo(fifo.c_str(), 0600), 0);
+  files.config.survey.prices = fifo;
+  std::thread writer([&fifo] {
+    std::FILE* out = std::fopen(fifo.c_str(), "wb");
+    if (out == nullptr) return;
+    const std::string text = kPrices;
+    for (char c : text) {
+      std::fputc(c, out);
+      std::fflush(out);
+    }
+    std::fclose(out);
+  });
+  Survey survey;
+  const LoadSummary summary = Load(files.config, &survey);
+  writer.join();
+  ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
+  EXPECT_EQ(survey.num_quotes, 4);
+  EXPECT_EQ(FileOf(summary, "prices").size_bytes,
+            static_cast<int64_t>(std::string(kPrices).size()));
 }
 
 TEST(LoadSurvey, ReadsAHeaderWithAMillionColumns) {
