@@ -6,6 +6,7 @@
 #include <charconv>
 #include <cmath>
 #include <cstdio>
+#include <cstdlib>
 
 namespace paritas {
 
@@ -17,6 +18,34 @@ std::string_view Trim(std::string_view text) {
   return text.substr(begin, end - begin);
 }
 
+namespace {
+
+// For a decimal number that from_chars found out of range: true when its
+// magnitude is below 1 (underflow), false when above (overflow). Only the
+// position of the first significant digit and the exponent matter.
+bool IsBelowOne(std::string_view text) {
+  if (!text.empty() && (text.front() == '-' || text.front() == '+')) text.remove_prefix(1);
+  const size_t e = text.find_first_of("eE");
+  int64_t exponent = 0;
+  if (e != std::string_view::npos) {
+    std::string_view digits = text.substr(e + 1);
+    const bool negative = !digits.empty() && digits.front() == '-';
+    if (!digits.empty() && (digits.front() == '-' || digits.front() == '+')) digits.remove_prefix(1);
+    for (char c : digits) exponent = std::min<int64_t>(exponent * 10 + (c - '0'), int64_t{1} << 40);
+    if (negative) exponent = -exponent;
+  }
+  const std::string_view mantissa = text.substr(0, e);
+  const size_t point = std::min(mantissa.find('.'), mantissa.size());
+  const size_t first = mantissa.find_first_of("123456789");
+  if (first == std::string_view::npos) return true;
+  // Decimal exponent of the first significant digit.
+  const int64_t lead = first < point ? static_cast<int64_t>(point - first) - 1
+                                     : static_cast<int64_t>(point) - static_cast<int64_t>(first);
+  return lead + exponent < 0;
+}
+
+}  // namespace
+
 NumberStatus ParseNumber(std::string_view text, double* value) {
   text = Trim(text);
   if (text.empty()) return NumberStatus::kEmpty;
@@ -27,7 +56,9 @@ NumberStatus ParseNumber(std::string_view text, double* value) {
   double parsed = 0.0;
   auto [end, ec] = std::from_chars(text.data(), text.data() + text.size(), parsed);
   if (end != text.data() + text.size()) return NumberStatus::kInvalid;
-  if (ec == std::errc::result_out_of_range) return NumberStatus::kNonFinite;
+  if (ec == std::errc::result_out_of_range) {
+    return IsBelowOne(text) ? NumberStatus::kUnderflow : NumberStatus::kOverflow;
+  }
   if (ec != std::errc()) return NumberStatus::kInvalid;
   if (!std::isfinite(parsed)) return NumberStatus::kNonFinite;
   *value = parsed;
@@ -120,33 +151,60 @@ std::string NumberProblem(NumberStatus status, std::string_view what, std::strin
       return std::string(what) + " " + QuoteValue(text) + " is not a number";
     case NumberStatus::kNonFinite:
       return std::string(what) + " " + QuoteValue(text) + " is not a finite number";
+    case NumberStatus::kOverflow:
+      return std::string(what) + " " + QuoteValue(text) +
+             " is outside the range of numbers (overflow: beyond 1.8e308)";
+    case NumberStatus::kUnderflow:
+      return std::string(what) + " " + QuoteValue(text) +
+             " is outside the range of numbers (underflow: nearer to zero than 4.9e-324)";
     case NumberStatus::kOk:
       break;
   }
   return "";
 }
 
-int EditDistance(std::string_view a, std::string_view b) {
-  std::vector<int> row(b.size() + 1);
-  for (size_t j = 0; j <= b.size(); ++j) row[j] = static_cast<int>(j);
-  for (size_t i = 1; i <= a.size(); ++i) {
-    int diagonal = row[0];
-    row[0] = static_cast<int>(i);
-    for (size_t j = 1; j <= b.size(); ++j) {
-      const int substitution = diagonal + (a[i - 1] == b[j - 1] ? 0 : 1);
-      diagonal = row[j];
-      row[j] = std::min({row[j] + 1, row[j - 1] + 1, substitution});
+int EditDistance(std::string_view a, std::string_view b, int max_distance) {
+  const int n = static_cast<int>(a.size()), m = static_cast<int>(b.size());
+  // Only cells within `bound` of the diagonal can hold a distance up to
+  // `bound` (Ukkonen 1985); the others count as kFar. The distance never
+  // exceeds the longer length, so a larger bound is no bound.
+  const int bound = std::min(max_distance, std::max(n, m));
+  if (std::abs(n - m) > bound) return bound + 1;
+  const int kFar = bound + 1;
+  std::vector<int> previous(m + 1), current(m + 1);
+  for (int j = 0; j <= m; ++j) previous[j] = std::min(j, kFar);
+  for (int i = 1; i <= n; ++i) {
+    const int lo = std::max(1, i - bound), hi = std::min(m, i + bound);
+    current[0] = std::min(i, kFar);
+    current[lo - 1] = lo == 1 ? current[0] : kFar;
+    int row_min = current[lo - 1];
+    for (int j = lo; j <= hi; ++j) {
+      const int substitution = previous[j - 1] + (a[i - 1] == b[j - 1] ? 0 : 1);
+      current[j] = std::min({previous[j] + 1, current[j - 1] + 1, substitution, kFar});
+      row_min = std::min(row_min, current[j]);
     }
+    if (hi < m) current[hi + 1] = kFar;  // The next row's band reaches one further.
+    if (row_min >= kFar) return kFar;
+    std::swap(previous, current);
   }
-  return row[b.size()];
+  return previous[m];
 }
 
 std::string NearestName(std::string_view word, const std::vector<std::string>& candidates) {
+  // Codes are at most 200 bytes: a longer word is no typo of one, and each
+  // candidate would cost |word| x |candidate| steps.
+  constexpr size_t kMaxWordBytes = 256;
+  if (word.size() > kMaxWordBytes) return "";
+  const std::string lower_word = ToLower(word);
   const int limit = std::max(2, static_cast<int>(word.size()) / 3);
   std::string best;
   int best_distance = limit + 1;
   for (const std::string& candidate : candidates) {
-    const int distance = EditDistance(ToLower(word), ToLower(candidate));
+    // The distance is at least the difference in length.
+    const size_t length_gap = candidate.size() > word.size() ? candidate.size() - word.size()
+                                                             : word.size() - candidate.size();
+    if (length_gap >= static_cast<size_t>(best_distance)) continue;
+    const int distance = EditDistance(lower_word, ToLower(candidate), best_distance - 1);
     if (distance < best_distance) {
       best_distance = distance;
       best = candidate;

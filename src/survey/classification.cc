@@ -8,6 +8,7 @@
 #include <yaml-cpp/yaml.h>
 
 #include "survey/classification_yaml.h"
+#include "survey/yaml_load.h"
 
 namespace paritas {
 namespace internal {
@@ -129,13 +130,11 @@ bool ClassificationFromNode(const YAML::Node& root, const std::string& source,
 }  // namespace internal
 
 bool Classification::FromYaml(const std::string& yaml_text, const std::string& source,
-                              Classification* classification, std::string* error) {
+                              Classification* classification, std::string* error,
+                              int max_yaml_depth) {
   YAML::Node root;
-  try {
-    root = YAML::Load(yaml_text);
-  } catch (const YAML::Exception& e) {
-    *error = source + ":" + std::to_string(e.mark.line + 1) + ":" + std::to_string(e.mark.column + 1) +
-             ": invalid YAML: " + e.msg;
+  if (!internal::LoadYaml(yaml_text, source, max_yaml_depth, LimitAdvice("limits.max_yaml_depth"),
+                          &root, error)) {
     return false;
   }
   return internal::ClassificationFromNode(root, source, classification, error);

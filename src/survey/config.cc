@@ -5,6 +5,7 @@
 #include <cmath>
 #include <filesystem>
 #include <map>
+#include <string_view>
 
 #include <yaml-cpp/yaml.h>
 
@@ -13,6 +14,7 @@
 #include "paritas/base/text.h"
 #include "paritas/elementary/elementary_method.h"
 #include "survey/classification_yaml.h"
+#include "survey/yaml_load.h"
 
 namespace paritas {
 namespace {
@@ -69,8 +71,19 @@ const std::vector<std::string> kTopKeys = {"survey",
                                            "outlier_threshold",
                                            "robust_standard_errors",
                                            "report",
-                                           "threads"};
+                                           "threads",
+                                           "limits"};
 const std::vector<std::string> kSurveyKeys = {"prices", "expenditure", "regions", "items"};
+const std::vector<std::string> kLimitKeys = {"max_file_bytes", "max_yaml_bytes",
+                                             "max_record_bytes", "max_field_bytes",
+                                             "max_yaml_depth"};
+// The configuration file itself is read before its `limits:` are known.
+constexpr std::string_view kConfigFileAdvice =
+    "(limits.max_yaml_bytes; the configuration file itself is read under the default); move a "
+    "large classification into a file of its own";
+constexpr std::string_view kConfigDepthAdvice =
+    "(limits.max_yaml_depth; the configuration file itself is read under the default); move a "
+    "deep classification into a file of its own";
 
 class ConfigParser {
  public:
@@ -80,10 +93,8 @@ class ConfigParser {
 
   bool Parse(const std::string& text, std::string* error) {
     YAML::Node root;
-    try {
-      root = YAML::Load(text);
-    } catch (const YAML::Exception& e) {
-      *error = Where(e.mark) + "invalid YAML: " + e.msg;
+    if (!internal::LoadYaml(text, path_, ReadLimits().max_yaml_depth, kConfigDepthAdvice, &root,
+                            error)) {
       return false;
     }
     try {
@@ -95,11 +106,7 @@ class ConfigParser {
   }
 
  private:
-  std::string Where(const YAML::Mark& mark) const {
-    if (mark.line < 0) return path_ + ": ";
-    return path_ + ":" + std::to_string(mark.line + 1) + ":" + std::to_string(mark.column + 1) +
-           ": ";
-  }
+  std::string Where(const YAML::Mark& mark) const { return internal::YamlWhere(path_, mark); }
   std::string Where(const YAML::Node& node) const { return Where(node.Mark()); }
 
   bool CheckKeys(const YAML::Node& map, const std::vector<std::string>& allowed,
@@ -217,6 +224,10 @@ class ConfigParser {
       return false;
     }
     if (!CheckKeys(root, kTopKeys, "", error)) return false;
+    // Limits first: the classification file is read under them.
+    if (const YAML::Node node = root["limits"]) {
+      if (!ParseLimits(node, error)) return false;
+    }
     if (!ParseSurvey(root["survey"], error)) return false;
     if (const YAML::Node node = root["classification"]) {
       if (!ParseClassification(node, error)) return false;
@@ -350,13 +361,69 @@ class ConfigParser {
     return true;
   }
 
+  // max_file_bytes, max_yaml_bytes, max_record_bytes, max_field_bytes,
+  // max_yaml_depth.
+  bool ParseLimits(const YAML::Node& node, std::string* error) {
+    if (!node.IsMap()) {
+      *error = Where(node) + "'limits' must be a mapping with keys " + JoinNames(kLimitKeys);
+      return false;
+    }
+    if (!CheckKeys(node, kLimitKeys, "limits", error)) return false;
+    ReadLimits& limits = config_->limits;
+    int64_t* const byte_limits[] = {&limits.max_file_bytes, &limits.max_yaml_bytes,
+                                    &limits.max_record_bytes, &limits.max_field_bytes};
+    for (size_t k = 0; k < 4; ++k) {
+      const YAML::Node value = node[kLimitKeys[k]];
+      if (value && !ByteLimit(value, "limits." + kLimitKeys[k], byte_limits[k], error)) {
+        return false;
+      }
+    }
+    if (const YAML::Node value = node["max_yaml_depth"]) {
+      std::string text;
+      if (!Scalar(value, "limits.max_yaml_depth", &text, error)) return false;
+      double depth = 0;
+      if (ParseNumber(text, &depth) != NumberStatus::kOk || depth != std::floor(depth) ||
+          depth < 1 || depth > kMaxYamlDepthLimit) {
+        *error = Where(value) + "limits.max_yaml_depth must be a whole number from 1 to " +
+                 std::to_string(kMaxYamlDepthLimit) + ", found '" + text + "'";
+        return false;
+      }
+      limits.max_yaml_depth = static_cast<int>(depth);
+    }
+    return true;
+  }
+
+  // A byte count from 1 byte to 1 TiB, with an optional unit.
+  bool ByteLimit(const YAML::Node& node, const std::string& key, int64_t* value,
+                 std::string* error) {
+    std::string text;
+    if (!Scalar(node, key, &text, error)) return false;
+    int64_t bytes = 0;
+    if (!ParseByteSize(text, &bytes) || bytes < 1 || bytes > kMaxByteLimit) {
+      *error = Where(node) + key +
+               " must be a whole number of bytes from 1 to 1 TiB, optionally with a unit (KiB, "
+               "MiB, GiB, TiB), found '" +
+               text + "'";
+      return false;
+    }
+    *value = bytes;
+    return true;
+  }
+
   bool ParseClassification(const YAML::Node& node, std::string* error) {
     if (node.IsScalar()) {
       const std::string file = Resolve(node.Scalar());
       std::string text;
-      if (!ReadWholeFile(file, &text, error)) return false;
+      const ReadLimits& limits = config_->limits;
+      if (!ReadWholeFile(file, limits.max_yaml_bytes, LimitAdvice("limits.max_yaml_bytes"), &text,
+                         error)) {
+        return false;
+      }
       config_->classification_source = file;
-      if (!Classification::FromYaml(text, file, &config_->classification, error)) return false;
+      if (!Classification::FromYaml(text, file, &config_->classification, error,
+                                    limits.max_yaml_depth)) {
+        return false;
+      }
     } else {
       config_->classification_source = path_;
       if (!internal::ClassificationFromNode(node, path_, &config_->classification, error))
@@ -443,12 +510,14 @@ bool RunConfig::IsValid(std::string* error) const {
     *error = "no output folder given (output)";
     return false;
   }
-  return true;
+  return limits.IsValid(error);
 }
 
 bool LoadRunConfig(const std::string& path, RunConfig* config, std::string* error) {
   std::string text;
-  if (!ReadWholeFile(path, &text, error)) return false;
+  if (!ReadWholeFile(path, ReadLimits().max_yaml_bytes, kConfigFileAdvice, &text, error)) {
+    return false;
+  }
   return ParseRunConfig(text, path, config, error);
 }
 

@@ -64,6 +64,9 @@ std::string CheckCode(std::string_view code, const char* what);
 
 // The reason for rejecting a row of `found` fields under a header of `expected`.
 std::string FieldCountProblem(size_t found, int expected);
+// The column a field-count message points at: the first field missing, or
+// the first one too many.
+int FieldCountColumn(size_t found, int expected);
 
 // ---------------------------------------------------------------------------
 // Shared state while loading.

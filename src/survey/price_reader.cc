@@ -8,7 +8,6 @@
 #include <algorithm>
 #include <cerrno>
 #include <cmath>
-#include <cstdio>
 #include <cstring>
 #include <filesystem>
 #include <string>
@@ -92,6 +91,7 @@ class ChunkParser {
         out_(out),
         has_heading_(columns.heading >= 0),
         has_flag_(columns.representative >= 0) {
+    reader_.set_limits(state.config->limits);
     // A quote row takes at least about a dozen bytes.
     const size_t expected_rows = data.size() / 12 + 16;
     out->quotes.region.reserve(expected_rows);
@@ -104,7 +104,8 @@ class ChunkParser {
     while (reader_.Next(&record_)) {
       ++out_->rows_read;
       if (static_cast<int>(record_.fields.size()) != columns_.num_fields) {
-        Reject(0, FieldCountProblem(record_.fields.size(), columns_.num_fields));
+        Reject(FieldCountColumn(record_.fields.size(), columns_.num_fields),
+               FieldCountProblem(record_.fields.size(), columns_.num_fields));
         continue;
       }
       if (!ReadRegion() || !ReadItem()) continue;
@@ -307,23 +308,6 @@ void ParsePriceChunk(std::string_view data, int64_t first_line, const PriceColum
   ChunkParser(data, first_line, columns, path, state, keep_all_rejected, max_rejected, out).Run();
 }
 
-// Counts '\n' in `data`. Per 4 KiB a 32-bit count, which the compiler keeps
-// in vector lanes, is several times faster than std::count's 64-bit one.
-int64_t CountNewlines(std::string_view data) {
-  const char* p = data.data();
-  size_t left = data.size();
-  int64_t total = 0;
-  while (left > 0) {
-    const size_t n = std::min<size_t>(left, 4096);
-    uint32_t count = 0;
-    for (size_t i = 0; i < n; ++i) count += p[i] == '\n';
-    total += count;
-    p += n;
-    left -= n;
-  }
-  return total;
-}
-
 // Chunk start offsets at record boundaries, about kChunkBytes apart.
 std::vector<size_t> ChunkStarts(std::string_view data) {
   std::vector<size_t> starts = {0};
@@ -364,71 +348,47 @@ class PriceReader {
  public:
   PriceReader(const std::string& path, const LoadOptions& options, LoadState* state,
               Rejections* rejections, InputFileSummary* file)
-      : path_(path), options_(options), state_(state), rejections_(rejections), file_(file) {}
+      : path_(path),
+        options_(options),
+        limits_(state->config->limits),
+        state_(state),
+        rejections_(rejections),
+        file_(file) {}
 
   bool Read(std::string* error) {
-    std::FILE* stream = std::fopen(path_.c_str(), "rb");
-    if (stream == nullptr) {
-      *error = path_ + ": cannot open file: " + std::strerror(errno);
-      return false;
-    }
-    std::string buffer;
-    bool ok = ReadBlocks(stream, &buffer, error);
-    std::fclose(stream);
+    CsvBlockReader blocks(path_, std::max<int64_t>(options_.block_bytes, 1 << 16), limits_);
+    if (!blocks.Open(error)) return false;
+    const bool ok = ReadBlocks(&blocks, error);
+    file_->size_bytes = blocks.num_bytes_read();
     file_->sha256 = digest_.HexDigest();
     return ok;
   }
 
  private:
-  bool ReadBlocks(std::FILE* stream, std::string* buffer, std::string* error) {
-    size_t block = static_cast<size_t>(std::max<int64_t>(options_.block_bytes, 1 << 16));
-    // A block larger than the file would only cost zero-filling the buffer.
-    std::error_code size_error;
-    const uintmax_t file_bytes = std::filesystem::file_size(path_, size_error);
-    if (!size_error && file_bytes + 1 < block) block = std::max<size_t>(file_bytes + 1, 1 << 16);
-    size_t carried = 0;  // bytes of an incomplete record kept from the last block
-    int64_t line = 1;
+  // The blocks hold whole records, at most one block and one record of
+  // text at a time (CsvBlockReader); the first holds the header whole.
+  bool ReadBlocks(CsvBlockReader* blocks, std::string* error) {
     bool header_done = false;
-    bool at_eof = false;
-    while (!at_eof) {
-      // The buffer only grows (a record longer than a block), so it is
-      // zero-filled once rather than for every block.
-      if (buffer->size() < carried + block) buffer->resize(carried + block);
-      const size_t got = std::fread(buffer->data() + carried, 1, block, stream);
-      if (std::ferror(stream)) {
-        *error = path_ + ": cannot read file: " + std::strerror(errno);
-        return false;
-      }
-      at_eof = got < block;
-      file_->size_bytes += static_cast<int64_t>(got);
-      // The new bytes are hashed alongside the parse of their block.
-      std::string_view fresh(buffer->data() + carried, got);
-      std::string_view data(buffer->data(), carried + got);
-      bytes_seen_ += got;
-      size_t start = 0;
-      if (!header_done) {
-        // The header must lie in the first block; a longer header line is
-        // read block by block until it ends.
-        const size_t end = at_eof ? data.size() : LastRecordEnd(data);
-        if (!at_eof && !HoldsRecord(data.substr(0, end))) {  // blank lines so far
-          digest_.Update(fresh.data(), fresh.size());
-          carried = data.size();
-          continue;
-        }
-        CsvReader reader(data.substr(0, end), 1, /*skip_bom=*/true);
+    CsvBlock block;
+    std::string read_error;
+    while (blocks->Next(&block, &read_error)) {
+      bytes_seen_ = blocks->num_bytes_read();
+      std::string_view data = block.records;
+      int64_t line = block.first_line;
+      if (!header_done && !data.empty()) {
+        CsvReader reader(data, line, /*skip_bom=*/false);
+        reader.set_limits(limits_);
         if (!ReadPriceHeader(&reader, error)) return false;
-        start = reader.position();
+        data.remove_prefix(reader.position());
         line = reader.line();
         header_done = true;
       }
-      const size_t end = at_eof ? data.size() : start + LastRecordEnd(data.substr(start));
-      int64_t num_newlines = 0;
-      if (!ParseBlock(data.substr(start, end - start), line, fresh, &num_newlines, error))
-        return false;
-      line += num_newlines;
-      // Keep the incomplete tail for the next block.
-      std::memmove(buffer->data(), buffer->data() + end, data.size() - end);
-      carried = data.size() - end;
+      // The new bytes are hashed alongside the parse of their block.
+      if (!ParseBlock(data, line, block.fresh, error)) return false;
+    }
+    if (!read_error.empty()) {
+      *error = read_error;
+      return false;
     }
     if (!header_done) {
       *error = path_ + ": file is empty (expected a header row with columns region, item, price)";
@@ -458,11 +418,9 @@ class PriceReader {
     return true;
   }
 
-  // Parses one block of whole records starting at line `first_line`, and
-  // sets *num_newlines to the newlines it holds.
+  // Parses one block of whole records starting at line `first_line`.
   bool ParseBlock(std::string_view data, int64_t first_line, std::string_view to_hash,
-                  int64_t* num_newlines, std::string* error) {
-    *num_newlines = 0;
+                  std::string* error) {
     if (data.empty()) {
       digest_.Update(to_hash.data(), to_hash.size());
       return true;
@@ -474,11 +432,10 @@ class PriceReader {
 #pragma omp parallel for schedule(static) num_threads(NumThreads(num_starts))
     for (int c = 0; c < num_starts; ++c) {
       const size_t end = c + 1 < num_starts ? starts[c + 1] : data.size();
-      lines[c + 1] = CountNewlines(data.substr(starts[c], end - starts[c]));
+      lines[c + 1] = CountLineFeeds(data.substr(starts[c], end - starts[c]));
     }
     lines[0] = first_line;
     for (size_t c = 1; c < lines.size(); ++c) lines[c] += lines[c - 1];
-    *num_newlines = lines.back() - first_line;
     // Chunk results are kept between blocks so their arrays keep their
     // capacity instead of being allocated (and page-faulted) again.
     std::vector<ChunkResult>& results = results_;
@@ -538,7 +495,9 @@ class PriceReader {
     if (ec || bytes_seen_ == 0) return;
     const double rows_used = static_cast<double>(file_->rows_used + block_rows_used);
     const double rows = 1.05 * rows_used * file_bytes / static_cast<double>(bytes_seen_);
-    const size_t n = static_cast<size_t>(std::min(rows, 4e9));
+    // The size the system reports is a hint, not a promise (a file can be
+    // sparse or still growing): at most 16 times the rows read so far.
+    const size_t n = static_cast<size_t>(std::min({rows, 16.0 * rows_used + 1024.0, 4e9}));
     QuoteArrays& quotes = state_->quotes;
     quotes.region.reserve(n);
     quotes.item.reserve(n);
@@ -613,6 +572,7 @@ class PriceReader {
  private:
   std::string path_;
   const LoadOptions& options_;
+  const ReadLimits& limits_;
   LoadState* state_;
   Rejections* rejections_;
   InputFileSummary* file_;

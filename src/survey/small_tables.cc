@@ -29,16 +29,20 @@ struct RowVerdict {
 // Reads a small table whole: checks its header, then hands every data row
 // with the header's number of fields to `handle`, counting rows read, used
 // and rejected.
-bool ReadSmallTable(const std::string& path, const std::vector<std::string>& wanted,
-                    const std::vector<bool>& required, Rejections* rejections,
-                    InputFileSummary* file,
+bool ReadSmallTable(const std::string& path, const ReadLimits& limits,
+                    const std::vector<std::string>& wanted, const std::vector<bool>& required,
+                    Rejections* rejections, InputFileSummary* file,
                     const std::function<RowVerdict(const CsvRecord&, const Columns&)>& handle,
                     std::string* error) {
   std::string text;
-  if (!ReadWholeFile(path, &text, error)) return false;
+  if (!ReadWholeFile(path, limits.max_file_bytes, LimitAdvice("limits.max_file_bytes"), &text,
+                     error)) {
+    return false;
+  }
   file->size_bytes = static_cast<int64_t>(text.size());
   file->sha256 = Sha256Hex(text);
   CsvReader reader(text);
+  reader.set_limits(limits);
   Columns columns;
   if (!ReadHeader(&reader, path, wanted, required, &columns, file, error)) return false;
   CsvRecord record;
@@ -46,7 +50,8 @@ bool ReadSmallTable(const std::string& path, const std::vector<std::string>& wan
     ++file->rows_read;
     RowVerdict verdict;
     if (static_cast<int>(record.fields.size()) != columns.num_fields) {
-      verdict.reason = FieldCountProblem(record.fields.size(), columns.num_fields);
+      verdict = {FieldCountColumn(record.fields.size(), columns.num_fields),
+                 FieldCountProblem(record.fields.size(), columns.num_fields)};
     } else {
       verdict = handle(record, columns);
     }
@@ -137,6 +142,10 @@ std::string CheckCode(std::string_view code, const char* what) {
   return "";
 }
 
+int FieldCountColumn(size_t found, int expected) {
+  return found < static_cast<size_t>(expected) ? static_cast<int>(found) + 1 : expected + 1;
+}
+
 std::string FieldCountProblem(size_t found, int expected) {
   return "row has " + std::to_string(found) + " field" + (found == 1 ? "" : "s") +
          ", the header has " + std::to_string(expected);
@@ -176,8 +185,8 @@ bool ReadRegions(const std::string& path, LoadState* state, Rejections* rejectio
     state->region_population.push_back(population);
     return {};
   };
-  if (!ReadSmallTable(path, {"region", "name", "population"}, {true, false, false}, rejections,
-                      file, handle, error))
+  if (!ReadSmallTable(path, state->config->limits, {"region", "name", "population"},
+                      {true, false, false}, rejections, file, handle, error))
     return false;
   state->regions_fixed = true;
   return true;
@@ -223,8 +232,8 @@ bool ReadItems(const std::string& path, LoadState* state, Rejections* rejections
     state->item_unit.emplace_back(kUnit >= 0 ? Trim(record.fields[kUnit]) : std::string_view());
     return {};
   };
-  if (!ReadSmallTable(path, {"item", "heading", "description", "unit"}, {true, true, false, false},
-                      rejections, file, handle, error))
+  if (!ReadSmallTable(path, state->config->limits, {"item", "heading", "description", "unit"},
+                      {true, true, false, false}, rejections, file, handle, error))
     return false;
   // Later messages about these items name the file.
   for (std::string& origin : state->item_origin) {
@@ -272,14 +281,14 @@ bool ReadExpenditure(const std::string& path, LoadState* state, Rejections* reje
         (static_cast<uint64_t>(region_index) << 32) | static_cast<uint32_t>(heading_index);
     auto [it, inserted] = first_line.emplace(key, record.line);
     if (!inserted) {
-      return {0, "duplicate row for region " + QuoteValue(region) + " and heading " +
+      return {kRegion + 1, "duplicate row for region " + QuoteValue(region) + " and heading " +
                      QuoteValue(heading) + " (first at line " + std::to_string(it->second) + ")"};
     }
     state->spending.push_back({region_index, heading_index, value + 0.0});
     return {};
   };
-  if (!ReadSmallTable(path, {"region", "heading", "expenditure"}, {true, true, true}, rejections,
-                      file, handle, error))
+  if (!ReadSmallTable(path, state->config->limits, {"region", "heading", "expenditure"},
+                      {true, true, true}, rejections, file, handle, error))
     return false;
   return true;
 }

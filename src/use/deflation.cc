@@ -16,9 +16,11 @@
 #include <cstdio>
 #include <cstring>
 #include <filesystem>
+#include <functional>
 #include <limits>
 #include <set>
 #include <system_error>
+#include <unordered_map>
 
 #include "paritas/base/code_table.h"
 #include "paritas/base/csv.h"
@@ -57,71 +59,118 @@ std::string DidYouMean(std::string_view word, const std::vector<std::string>& ca
   return nearest.empty() ? "" : "; did you mean '" + nearest + "'?";
 }
 
-// Parities (and optional intervals) by node x region, reference = 100.
-struct ParityTable {
+// Parities (and optional intervals) by node and region, reference = 100.
+class ParityTable {
+ public:
   CodeTable nodes;
   CodeTable regions;
-  // Indexed [node * num_regions + region]; NaN = no parity. Grown as codes
-  // appear, so a node or region is only known after the file is read.
+  // Per cell (a node and region pair of parities.csv): NaN = no parity.
   std::vector<double> parity;
   std::vector<double> lower;  // bounds of the parity's interval
   std::vector<double> upper;
+  std::vector<int64_t> line;  // where parities.csv states the pair
   std::string path;
   std::string interval_path;
 
-  size_t Index(int node, int region) const {
-    return static_cast<size_t>(node) * regions.size() + region;
+  // Returns the cell of a pair, or -1.
+  int64_t Find(int node, int region) const {
+    if (!dense_.empty()) return dense_[static_cast<size_t>(node) * regions.size() + region];
+    const auto it = by_pair_.find(Key(node, region));
+    return it == by_pair_.end() ? -1 : it->second;
   }
+
+  // Adds a cell for a new pair; returns its index, or -1 when the pair
+  // already has one (*existing is then that cell).
+  int64_t Add(int node, int region, int64_t* existing) {
+    const int64_t cell = static_cast<int64_t>(parity.size());
+    const auto [it, inserted] = by_pair_.emplace(Key(node, region), cell);
+    if (!inserted) {
+      *existing = it->second;
+      return -1;
+    }
+    parity.push_back(kNaN);
+    return cell;
+  }
+
+  // Once every pair is known: a complete table (every node for every
+  // region, as compute writes) is looked up by position, which costs no
+  // hashing per row deflated; a sparse one stays hashed, since nodes x
+  // regions cells could be far more than memory holds.
+  void Finish() {
+    const uint64_t num_pairs = static_cast<uint64_t>(nodes.size()) * regions.size();
+    if (num_pairs > 4 * parity.size() + 4096) return;
+    dense_.assign(num_pairs, -1);
+    for (const auto& [key, cell] : by_pair_) {
+      dense_[static_cast<size_t>(key >> 32) * regions.size() + (key & 0xffffffffu)] = cell;
+    }
+    by_pair_ = {};
+  }
+
+ private:
+  static uint64_t Key(int node, int region) {
+    return (static_cast<uint64_t>(node) << 32) | static_cast<uint32_t>(region);
+  }
+
+  std::unordered_map<uint64_t, int64_t> by_pair_;
+  std::vector<int64_t> dense_;
 };
 
-// Reads a small CSV table into `rows` of the wanted columns (-1 = absent in
-// `index`). Returns false with a message naming the file.
-bool ReadTable(const std::string& path, const std::vector<std::string>& wanted,
-               const std::vector<bool>& required, std::vector<int>* index, std::string* contents,
-               std::vector<std::vector<std::string_view>>* rows, std::vector<int64_t>* lines,
+// A data row of a table read by ReadTable: the wanted fields, trimmed (empty
+// when the column is absent), and their 1-based columns.
+struct TableRow {
+  int64_t line = 0;
+  std::vector<std::string_view> fields;
+  std::vector<int> columns;
+};
+
+// Reads a CSV table whole, up to limits.max_file_bytes, and hands each data
+// row to `handle`, which returns false with a message to stop. Returns
+// false with a message naming the file.
+bool ReadTable(const std::string& path, const ReadLimits& limits,
+               const std::vector<std::string>& wanted, const std::vector<bool>& required,
+               const std::function<bool(const TableRow&, std::string*)>& handle,
                std::string* error) {
-  if (!ReadWholeFile(path, contents, error)) return false;
-  CsvReader reader(*contents);
+  std::string contents;
+  if (!ReadWholeFile(path, limits.max_file_bytes, LimitAdvice("limits.max_file_bytes"), &contents,
+                     error)) {
+    return false;
+  }
+  CsvReader reader(contents);
+  reader.set_limits(limits);
   CsvRecord record;
   if (!reader.Next(&record)) {
     *error = reader.error().empty() ? path + ": file is empty (expected a header row)"
                                     : path + ":" + reader.error();
     return false;
   }
-  CsvHeader header(record.fields);
+  const CsvHeader header(record.fields);
   const size_t num_fields = record.fields.size();
-  index->assign(wanted.size(), -1);
+  TableRow row;
+  row.columns.assign(wanted.size(), 0);
   for (size_t k = 0; k < wanted.size(); ++k) {
-    (*index)[k] = header.Find(wanted[k]);
-    if (required[k] && (*index)[k] < 0) {
+    row.columns[k] = header.Find(wanted[k]) + 1;
+    if (required[k] && row.columns[k] == 0) {
       *error = path + ":" + std::to_string(record.line) + ": missing column '" + wanted[k] +
                "' (found: " + JoinNames(header.names()) + ")";
       return false;
     }
   }
+  row.fields.resize(wanted.size());
   while (reader.Next(&record)) {
-    if (record.fields.size() != num_fields) {
-      *error = LocatedMessage(path, record.line, 0,
-                          "row has " + std::to_string(record.fields.size()) +
-                              " fields, the header has " + std::to_string(num_fields));
+    const size_t found = record.fields.size();
+    if (found != num_fields) {
+      // The column is the first field missing, or the first one too many.
+      *error =
+          LocatedMessage(path, record.line, static_cast<int>(std::min(found, num_fields)) + 1,
+                         "row has " + std::to_string(found) + " field" + (found == 1 ? "" : "s") +
+                             ", the header has " + std::to_string(num_fields));
       return false;
     }
-    std::vector<std::string_view> row(wanted.size());
+    row.line = record.line;
     for (size_t k = 0; k < wanted.size(); ++k) {
-      if ((*index)[k] >= 0) row[k] = Trim(record.fields[(*index)[k]]);
+      row.fields[k] = row.columns[k] > 0 ? Trim(record.fields[row.columns[k] - 1]) : "";
     }
-    // Quoted fields with doubled quotes point into the record's scratch,
-    // which the next record reuses; codes and numbers never hold quotes, so
-    // such a row is refused rather than copied.
-    for (std::string_view field : row) {
-      if (!field.empty() && (field.data() < contents->data() ||
-                             field.data() >= contents->data() + contents->size())) {
-        *error = LocatedMessage(path, record.line, 0, "unexpected quote character in a code or number");
-        return false;
-      }
-    }
-    rows->push_back(std::move(row));
-    lines->push_back(record.line);
+    if (!handle(row, error)) return false;
   }
   if (!reader.error().empty()) {
     *error = path + ":" + reader.error();
@@ -142,8 +191,8 @@ bool ParseParity(const std::string& path, int64_t line, int column, const char* 
     return false;
   }
   if (!(parsed > 0)) {
-    *error =
-        LocatedMessage(path, line, column, std::string(what) + " " + QuoteValue(text) + " is not positive");
+    *error = LocatedMessage(path, line, column,
+                            std::string(what) + " " + QuoteValue(text) + " is not positive");
     return false;
   }
   *value = parsed;
@@ -154,31 +203,31 @@ bool ParseParity(const std::string& path, int64_t line, int column, const char* 
 bool ReadParityValues(const DeflateOptions& options, ParityTable* table, std::string* error) {
   namespace fs = std::filesystem;
   table->path = (fs::path(options.parities_dir) / "parities.csv").string();
-  std::string contents;
-  std::vector<int> index;
-  std::vector<std::vector<std::string_view>> rows;
-  std::vector<int64_t> lines;
-  if (!ReadTable(table->path, {"node", "region", "parity"}, {true, true, true}, &index, &contents,
-                 &rows, &lines, error)) {
+  const auto handle = [table](const TableRow& row, std::string* message) {
+    const int node = table->nodes.Intern(row.fields[0]);
+    const int region = table->regions.Intern(row.fields[1]);
+    int64_t first = -1;
+    const int64_t cell = table->Add(node, region, &first);
+    if (cell < 0) {
+      *message = LocatedMessage(table->path, row.line, row.columns[0],
+                                "duplicate row for node " + QuoteValue(row.fields[0]) +
+                                    " and region " + QuoteValue(row.fields[1]) +
+                                    " (first at line " + std::to_string(table->line[first]) + ")");
+      return false;
+    }
+    table->line.push_back(row.line);
+    return ParseParity(table->path, row.line, row.columns[2], "parity", row.fields[2],
+                       &table->parity[cell], message);
+  };
+  if (!ReadTable(table->path, options.limits, {"node", "region", "parity"}, {true, true, true},
+                 handle, error)) {
     return false;
   }
-  if (rows.empty()) {
+  if (table->parity.empty()) {
     *error = table->path + ": no data rows (only a header)";
     return false;
   }
-  for (const auto& row : rows) {
-    table->nodes.Intern(row[0]);
-    table->regions.Intern(row[1]);
-  }
-  const size_t size = static_cast<size_t>(table->nodes.size()) * table->regions.size();
-  table->parity.assign(size, kNaN);
-  for (size_t k = 0; k < rows.size(); ++k) {
-    double value = kNaN;
-    if (!ParseParity(table->path, lines[k], index[2] + 1, "parity", rows[k][2], &value, error))
-      return false;
-    table->parity[table->Index(table->nodes.Find(rows[k][0]), table->regions.Find(rows[k][1]))] =
-        value;
-  }
+  table->Finish();
   return true;
 }
 
@@ -214,33 +263,28 @@ bool ReadIntervals(const DeflateOptions& options, ParityTable* table, std::strin
     return false;
   }
   if (!SameRunSettings(options.parities_dir, error)) return false;
-  std::string contents;
-  std::vector<int> index;
-  std::vector<std::vector<std::string_view>> rows;
-  std::vector<int64_t> lines;
-  if (!ReadTable(table->interval_path, {"node", "region", "lower", "upper"},
-                 {true, true, true, true}, &index, &contents, &rows, &lines, error)) {
-    return false;
-  }
-  const size_t size = table->parity.size();
-  table->lower.assign(size, kNaN);
-  table->upper.assign(size, kNaN);
-  for (size_t k = 0; k < rows.size(); ++k) {
-    const int node = table->nodes.Find(rows[k][0]);
-    const int region = table->regions.Find(rows[k][1]);
+  table->lower.assign(table->parity.size(), kNaN);
+  table->upper.assign(table->parity.size(), kNaN);
+  const auto handle = [table](const TableRow& row, std::string* message) {
     double lower = kNaN, upper = kNaN;
-    if (!ParseParity(table->interval_path, lines[k], index[2] + 1, "lower", rows[k][2], &lower,
-                     error) ||
-        !ParseParity(table->interval_path, lines[k], index[3] + 1, "upper", rows[k][3], &upper,
-                     error)) {
+    if (!ParseParity(table->interval_path, row.line, row.columns[2], "lower", row.fields[2], &lower,
+                     message) ||
+        !ParseParity(table->interval_path, row.line, row.columns[3], "upper", row.fields[3], &upper,
+                     message)) {
       return false;
     }
-    // Intervals of nodes or regions without parities cannot be used.
-    if (node < 0 || region < 0) continue;
-    table->lower[table->Index(node, region)] = lower;
-    table->upper[table->Index(node, region)] = upper;
-  }
-  return true;
+    // Intervals of pairs without parities cannot be used.
+    const int node = table->nodes.Find(row.fields[0]);
+    const int region = table->regions.Find(row.fields[1]);
+    const int64_t cell = node < 0 || region < 0 ? -1 : table->Find(node, region);
+    if (cell >= 0) {
+      table->lower[cell] = lower;
+      table->upper[cell] = upper;
+    }
+    return true;
+  };
+  return ReadTable(table->interval_path, options.limits, {"node", "region", "lower", "upper"},
+                   {true, true, true, true}, handle, error);
 }
 
 bool ReadParities(const DeflateOptions& options, ParityTable* table, std::string* error) {
@@ -339,22 +383,12 @@ class Deflater {
         fixed_node_(fixed_node) {}
 
   bool Run(std::string* error) {
-    std::FILE* stream = std::fopen(options_.input_path.c_str(), "rb");
-    if (stream == nullptr) {
-      *error = options_.input_path + ": cannot open file: " + ErrnoText(errno);
-      return false;
-    }
-    if (!output_.Open(options_.output_path, error)) {
-      std::fclose(stream);
-      return false;
-    }
-    if (keep_all_ && !rejected_file_.Open(summary_->rejected_path, error)) {
-      std::fclose(stream);
-      return false;
-    }
+    CsvBlockReader blocks(options_.input_path, options_.block_bytes, options_.limits);
+    if (!blocks.Open(error) || !output_.Open(options_.output_path, error)) return false;
+    if (keep_all_ && !rejected_file_.Open(summary_->rejected_path, error)) return false;
     rejected_text_ = "file,line,reason,raw\n";
-    const bool ok = ReadBlocks(stream, error);
-    std::fclose(stream);
+    const bool ok = ReadBlocks(&blocks, error);
+    summary_->num_bytes_read = blocks.num_bytes_read();
     if (!ok) return false;
     if (summary_->num_rows_rejected > 0 && !keep_all_)
       return true;  // Caller reports; nothing written.
@@ -367,66 +401,54 @@ class Deflater {
   }
 
  private:
-  bool ReadBlocks(std::FILE* stream, std::string* error) {
-    const size_t block = static_cast<size_t>(std::max<int64_t>(options_.block_bytes, 1 << 10));
-    std::string buffer;
-    size_t carried = 0;  // bytes of an incomplete record kept from the last block
-    int64_t line = 1;
+  // The blocks hold whole records, at most one block and one record of
+  // text at a time (CsvBlockReader); the first holds the header whole.
+  bool ReadBlocks(CsvBlockReader* blocks, std::string* error) {
     bool header_done = false;
-    bool at_eof = false;
-    while (!at_eof) {
-      buffer.resize(carried + block);
-      const size_t got = std::fread(buffer.data() + carried, 1, block, stream);
-      if (std::ferror(stream)) {
-        *error = options_.input_path + ": cannot read file: " + ErrnoText(errno);
-        return false;
-      }
-      at_eof = got < block;
-      summary_->num_bytes_read += static_cast<int64_t>(got);
-      buffer.resize(carried + got);
-      const std::string_view data(buffer);
-      size_t start = 0;
-      if (!header_done) {
-        // A header longer than a block is read block by block until it ends.
-        const size_t end = at_eof ? data.size() : LastRecordEnd(data);
-        if (!at_eof && !HoldsRecord(data.substr(0, end))) {  // blank lines so far
-          carried = data.size();
-          continue;
-        }
-        CsvReader reader(data.substr(0, end), 1, /*skip_bom=*/true);
-        if (!ReadHeader(data.substr(0, end), &reader, error)) return false;
-        start = reader.position();
+    CsvBlock block;
+    std::string read_error;
+    while (blocks->Next(&block, &read_error)) {
+      std::string_view data = block.records;
+      int64_t line = block.first_line;
+      if (!header_done && !data.empty()) {
+        CsvReader reader(data, line, /*skip_bom=*/false);
+        reader.set_limits(options_.limits);
+        if (!ReadHeader(data, &reader, blocks->has_bom(), error)) return false;
+        data.remove_prefix(reader.position());
         line = reader.line();
         header_done = true;
       }
-      const size_t end = at_eof ? data.size() : start + LastRecordEnd(data.substr(start));
-      if (!ProcessBlock(data.substr(start, end - start), &line, error)) return false;
-      // Keep the incomplete tail for the next block.
-      std::memmove(buffer.data(), buffer.data() + end, data.size() - end);
-      carried = data.size() - end;
+      if (!ProcessBlock(data, &line, error)) return false;
+    }
+    if (!read_error.empty()) {
+      *error = read_error;
+      return false;
     }
     if (!header_done) {
-      *error = options_.input_path + ": file is empty (expected a header row)";
+      *error = EmptyFileMessage();
       return false;
     }
     return true;
   }
 
+  std::string EmptyFileMessage() const {
+    return options_.input_path + ": file is empty (expected a header row with columns " +
+           options_.region_column + ", " + JoinNames(options_.value_columns) + ")";
+  }
+
   // Finds the columns and writes the extended header.
-  bool ReadHeader(std::string_view data, CsvReader* reader, std::string* error) {
+  bool ReadHeader(std::string_view data, CsvReader* reader, bool has_bom, std::string* error) {
     CsvRecord header;
     if (!reader->Next(&header)) {
-      *error = reader->error().empty()
-                   ? options_.input_path + ": file is empty (expected a header row with columns " +
-                         options_.region_column + ", " + JoinNames(options_.value_columns) + ")"
-                   : options_.input_path + ":" + reader->error();
+      *error = reader->error().empty() ? EmptyFileMessage()
+                                       : options_.input_path + ":" + reader->error();
       return false;
     }
     const CsvHeader names(header.fields);
     num_fields_ = header.fields.size();
     const std::string where = options_.input_path + ":" + std::to_string(header.line) + ": ";
     if (!FindColumns(names, where, error) || !AddColumns(names, where, error)) return false;
-    WriteHeader(data, header, reader->position());
+    WriteHeader(data, header, reader->position(), has_bom);
     return true;
   }
 
@@ -478,15 +500,15 @@ class Deflater {
     return true;
   }
 
-  // Writes the header with the added columns; `end` is where the header's
-  // line terminator ends in `data`.
-  void WriteHeader(std::string_view data, const CsvRecord& header, size_t end) {
+  // Writes the header with the added columns (after the input's byte-order
+  // mark, if any); `end` is where the header's line terminator ends in `data`.
+  void WriteHeader(std::string_view data, const CsvRecord& header, size_t end, bool has_bom) {
     // The record's own line end is kept; a last record without one gets the
     // header's, so the output ends with a line end.
     const size_t raw_end = header.offset + header.raw.size();
     default_terminator_ = std::string(data.substr(raw_end, end - raw_end));
     if (default_terminator_.empty() || default_terminator_ == "\r") default_terminator_ = "\n";
-    if (data.substr(0, kUtf8Bom.size()) == kUtf8Bom) out_.append(kUtf8Bom);
+    if (has_bom) out_.append(kUtf8Bom);
     out_.append(header.raw);
     for (const std::string& name : summary_->columns_added) {
       out_ += ',';
@@ -523,11 +545,28 @@ class Deflater {
   }
 
   // The last code looked up in one column, so that runs of equal codes cost
-  // one comparison.
+  // one comparison, and the "did you mean" of each unknown code, so that a
+  // column of bad codes costs one search per distinct code.
   struct LastCode {
     int index = -1;
     std::string text;
+    std::vector<std::string> candidates;  // the table's codes, once needed
+    std::unordered_map<std::string, std::string> suggestions;
   };
+
+  static const std::string& Suggestion(std::string_view code, const CodeTable& table,
+                                       LastCode* last) {
+    // NearestName suggests nothing for a word over 256 bytes; 100,000 of
+    // those remembered hold at most 25 MB.
+    static const std::string kNone;
+    if (code.size() > 256) return kNone;
+    if (last->candidates.empty()) last->candidates = table.Codes();
+    constexpr size_t kMaxRemembered = 100000;
+    if (last->suggestions.size() >= kMaxRemembered) last->suggestions.clear();
+    const auto [it, inserted] = last->suggestions.try_emplace(std::string(code));
+    if (inserted) it->second = DidYouMean(code, last->candidates);
+    return it->second;
+  }
 
   // Returns the index of the code in `column` in `table`, or -1 after
   // rejecting the record; `what` names the table in the message.
@@ -540,8 +579,8 @@ class Deflater {
     if (index < 0) {
       Reject(record, column + 1,
              code.empty() ? column_name + " is empty"
-                          : column_name + " " + QuoteValue(code) + " is " + what + " " + table_.path +
-                                DidYouMean(code, table.Codes()));
+                          : column_name + " " + QuoteValue(code) + " is " + what + " " +
+                                table_.path + Suggestion(code, table, last));
       return -1;
     }
     last->index = index;
@@ -568,8 +607,9 @@ class Deflater {
     if (node < 0) return false;
     const int region = RowRegion(record);
     if (region < 0) return false;
-    *cell = table_.Index(node, region);
-    *parity = table_.parity[*cell];
+    const int64_t found = table_.Find(node, region);
+    *cell = found < 0 ? 0 : static_cast<size_t>(found);
+    *parity = found < 0 ? kNaN : table_.parity[*cell];
     if (std::isnan(*parity)) {
       Reject(record, region_column_ + 1,
              options_.region_column + " " + QuoteValue(table_.regions.Code(region)) +
@@ -636,13 +676,15 @@ class Deflater {
 
   bool ProcessBlock(std::string_view data, int64_t* line, std::string* error) {
     CsvReader reader(data, *line, /*skip_bom=*/false);
+    reader.set_limits(options_.limits);
     CsvRecord record;
     values_.resize(value_columns_.size());
     while (reader.Next(&record)) {
       ++summary_->num_rows_read;
       if (record.fields.size() != num_fields_) {
         const size_t found = record.fields.size();
-        Reject(record, 0,
+        // The column is the first field missing, or the first one too many.
+        Reject(record, static_cast<int>(std::min(found, num_fields_)) + 1,
                "row has " + std::to_string(found) + " field" + (found == 1 ? "" : "s") +
                    ", the header has " + std::to_string(num_fields_));
         continue;
@@ -719,6 +761,7 @@ bool DeflateOptions::IsValid(std::string* error) const {
   if (max_reported_rows < 0) return fail("max_reported_rows is negative");
   if (decimals < -1 || decimals > 17) return fail("decimals must be -1 (exact) or between 0 and 17");
   if (block_bytes < (1 << 10)) return fail("block_bytes must be at least 1024");
+  if (!limits.IsValid(error)) return false;
   // Every output against every input and the other output, as files.
   namespace fs = std::filesystem;
   PathGuard guard;

@@ -5,6 +5,7 @@
 #include "paritas/base/csv.h"
 
 #include <gtest/gtest.h>
+#include <sys/stat.h>
 #include <unistd.h>
 
 #include <algorithm>
@@ -14,6 +15,7 @@
 #include <filesystem>
 #include <random>
 #include <string>
+#include <thread>
 #include <vector>
 
 #include "test_util.h"
@@ -44,9 +46,10 @@ struct ReadResult {
 // Reads all of `data`; `offset_base` is added to offsets so that chunks can be
 // compared with the whole buffer.
 ReadResult ReadAll(std::string_view data, int64_t first_line = 1, bool skip_bom = true,
-                   int64_t offset_base = 0) {
+                   int64_t offset_base = 0, const ReadLimits& limits = ReadLimits()) {
   ReadResult result;
   CsvReader reader(data, first_line, skip_bom);
+  reader.set_limits(limits);
   CsvRecord record;
   // Each record consumes at least one byte, so more iterations mean a hang.
   for (size_t guard = 0; guard <= data.size() + 1 && reader.Next(&record); ++guard) {
@@ -295,12 +298,14 @@ TEST(CsvReader, ReadsEveryPrefixOfAValidFileAsAPrefixOfItsRecords) {
 
 // ------------------------------------------------------------- robustness
 
-TEST(CsvReader, ReadsHundredMegabyteFields) {
+TEST(CsvReader, ReadsHundredMegabyteFieldsUnderRaisedLimits) {
   const size_t kNumBytes = size_t{100} << 20;
+  ReadLimits limits;
+  limits.max_field_bytes = limits.max_record_bytes = int64_t{1} << 30;
   {
     std::string data(kNumBytes, 'p');
     data += ",tail\nz\n";
-    const ReadResult result = ReadAll(data);
+    const ReadResult result = ReadAll(data, 1, true, 0, limits);
     ASSERT_EQ(result.error, "");
     ASSERT_EQ(result.records.size(), 2u);
     EXPECT_EQ(result.records[0].fields[0].size(), kNumBytes);
@@ -315,6 +320,7 @@ TEST(CsvReader, ReadsHundredMegabyteFields) {
     for (size_t i = 0; i < num_units; ++i) data += unit;
     data += "\",b\nend\n";
     CsvReader reader(data);
+    reader.set_limits(limits);
     CsvRecord record;
     ASSERT_TRUE(reader.Next(&record));
     ASSERT_EQ(record.fields.size(), 2u);
@@ -323,6 +329,84 @@ TEST(CsvReader, ReadsHundredMegabyteFields) {
     EXPECT_EQ(record.fields[1], "b");
     ASSERT_TRUE(reader.Next(&record));
     EXPECT_EQ(record.line, static_cast<int64_t>(num_units) + 2);
+  }
+}
+
+// ----------------------------------------------------------------- limits
+
+ReadLimits SmallLimits(int64_t max_field_bytes, int64_t max_record_bytes) {
+  ReadLimits limits;
+  limits.max_field_bytes = max_field_bytes;
+  limits.max_record_bytes = max_record_bytes;
+  return limits;
+}
+
+TEST(CsvReader, RefusesAFieldBeyondTheLimitNamingItsLineAndColumn) {
+  const ReadLimits limits = SmallLimits(4, 100);
+  EXPECT_EQ(ReadAll("ab,abcd\nab,cdefg\n", 1, true, 0, limits).error,
+            "2:2: a field longer than 4 bytes (limits.max_field_bytes); raise the limit if the "
+            "file is right");
+  // A quoted field is named where it opens; its quotes do not count.
+  EXPECT_EQ(ReadAll("x\n\"abcd\"\n\"ab\ncde\"\n", 1, true, 0, limits).error,
+            "3:1: a quoted field (opened here) longer than 4 bytes (limits.max_field_bytes); raise "
+            "the limit if the file is right");
+  EXPECT_EQ(ReadAll("a\n\"abcdef", 1, true, 0, limits).error,
+            "2:1: a quoted field (opened here) longer than 4 bytes (limits.max_field_bytes); raise "
+            "the limit if the file is right");
+  EXPECT_EQ(ReadAll("a\n\"abc", 1, true, 0, limits).error,
+            "2:1: unterminated quoted field (opened here)");
+}
+
+TEST(CsvReader, RefusesARecordBeyondTheLimitAtItsFirstLine) {
+  const ReadLimits limits = SmallLimits(100, 10);
+  const ReadResult exact = ReadAll("abcde,ghij\r\n", 1, true, 0, limits);  // 10 bytes, line end aside.
+  EXPECT_EQ(exact.error, "");
+  EXPECT_EQ(exact.records.size(), 1u);
+  EXPECT_EQ(ReadAll("a,b\nabcde,\"g\nhijk\"\n", 1, true, 0, limits).error,
+            "2: a record longer than 10 bytes (limits.max_record_bytes); raise the limit if the "
+            "file is right");
+  EXPECT_EQ(ReadAll("abcde,ghij,", 1, true, 0, limits).error,
+            "1: a record longer than 10 bytes (limits.max_record_bytes); raise the limit if the "
+            "file is right");
+}
+
+// The limit crossed at the earlier byte of the record is named, so a block
+// boundary inside the record cannot change the message.
+TEST(CsvReader, NamesTheLimitCrossedFirst) {
+  const ReadLimits limits = SmallLimits(5, 8);
+  // Field 2 starts at byte 4; its limit falls at byte 9, after the record's (8).
+  EXPECT_EQ(ReadAll("abc,defghij\n", 1, true, 0, limits).error,
+            "1: a record longer than 8 bytes (limits.max_record_bytes); raise the limit if the "
+            "file is right");
+  EXPECT_EQ(ReadAll("abcdefg,h\n", 1, true, 0, limits).error,
+            "1:1: a field longer than 5 bytes (limits.max_field_bytes); raise the limit if the "
+            "file is right");
+}
+
+TEST(ReadLimits, DefaultsAreValidAndFormatAsTheConfigWritesThem) {
+  std::string error;
+  EXPECT_TRUE(ReadLimits().IsValid(&error)) << error;
+  ReadLimits limits;
+  limits.max_record_bytes = 0;
+  EXPECT_FALSE(limits.IsValid(&error));
+  EXPECT_EQ(error, "limits.max_record_bytes must be from 1 byte to 1 TiB, found 0");
+  limits = ReadLimits();
+  limits.max_yaml_depth = 300;
+  EXPECT_FALSE(limits.IsValid(&error));
+  EXPECT_EQ(error, "limits.max_yaml_depth must be from 1 to 256, found 300");
+  EXPECT_EQ(FormatByteSize(16 << 20), "16 MiB");
+  EXPECT_EQ(FormatByteSize(1536), "1536 bytes");
+  EXPECT_EQ(FormatByteSize(int64_t{3} << 30), "3 GiB");
+  EXPECT_EQ(FormatByteSize(1), "1 byte");
+  int64_t bytes = 0;
+  ASSERT_TRUE(ParseByteSize("64 MiB", &bytes));
+  EXPECT_EQ(bytes, int64_t{64} << 20);
+  ASSERT_TRUE(ParseByteSize("2gb", &bytes));
+  EXPECT_EQ(bytes, int64_t{2} << 30);
+  ASSERT_TRUE(ParseByteSize(" 1000 ", &bytes));
+  EXPECT_EQ(bytes, 1000);
+  for (const char* bad : {"", "MiB", "-1", "1.5 MiB", "12 furlongs", "99999999999 TiB", "1e6"}) {
+    EXPECT_FALSE(ParseByteSize(bad, &bytes)) << bad;
   }
 }
 
@@ -586,7 +670,7 @@ TEST(ReadWholeFile, ReportsAMissingFileWithTheSystemReason) {
   const std::string path = MakeTempDir("csv_missing") + "/absent.csv";
   std::string contents = "stale";
   std::string error;
-  EXPECT_FALSE(ReadWholeFile(path, &contents, &error));
+  EXPECT_FALSE(ReadWholeFile(path, 1 << 20, "", &contents, &error));
   EXPECT_EQ(error, path + ": cannot open file: No such file or directory");
   EXPECT_EQ(contents, "");
 }
@@ -595,7 +679,7 @@ TEST(ReadWholeFile, ReportsAFolderAsUnreadable) {
   const std::string dir = MakeTempDir("csv_folder");
   std::string contents;
   std::string error;
-  EXPECT_FALSE(ReadWholeFile(dir, &contents, &error));
+  EXPECT_FALSE(ReadWholeFile(dir, 1 << 20, "", &contents, &error));
   EXPECT_EQ(error, dir + ": cannot read file: Is a directory");
 }
 
@@ -603,9 +687,194 @@ TEST(ReadWholeFile, ReadsFilesWhoseSizeTheSystemDoesNotReport) {
   // /proc files report size 0; their contents must still be read in full.
   std::string contents;
   std::string error;
-  ASSERT_TRUE(ReadWholeFile("/proc/self/status", &contents, &error)) << error;
+  ASSERT_TRUE(ReadWholeFile("/proc/self/status", 1 << 20, "", &contents, &error)) << error;
   EXPECT_EQ(contents.rfind("Name:", 0), 0u);
   EXPECT_NE(contents.find("\nPid:"), std::string::npos);
+}
+
+TEST(ReadWholeFile, StopsBeyondTheLimitWhateverTheFileIs) {
+  const std::string path = MakeTempDir("csv_whole_limit") + "/items.csv";
+  WriteTextFile(path, std::string(1024, 'x'));
+  std::string contents;
+  std::string error;
+  ASSERT_TRUE(ReadWholeFile(path, 1024, LimitAdvice("limits.max_file_bytes"), &contents, &error));
+  EXPECT_EQ(contents.size(), 1024u);
+  EXPECT_FALSE(ReadWholeFile(path, 1023, LimitAdvice("limits.max_file_bytes"), &contents, &error));
+  EXPECT_EQ(error, path + ": file larger than 1023 bytes (limits.max_file_bytes); raise the limit "
+                          "if the file is right");
+  // A device reports size 0 and never ends.
+  EXPECT_FALSE(ReadWholeFile("/dev/zero", 1 << 20, LimitAdvice("limits.max_file_bytes"), &contents,
+                             &error));
+  EXPECT_EQ(error, "/dev/zero: file larger than 1 MiB (limits.max_file_bytes); raise the limit if "
+                   "the file is right");
+  EXPECT_EQ(contents, "");
+}
+
+// A writer on another thread feeds a FIFO in small pieces.
+class FifoWriter {
+ public:
+  FifoWriter(const std::string& path, std::string data) {
+    EXPECT_EQ(::mkfifo(path.c_str(), 0600), 0);
+    thread_ = std::thread([path, data = std::move(data)] {
+      std::FILE* out = std::fopen(path.c_str(), "wb");
+      if (out == nullptr) return;
+      for (size_t at = 0; at < data.size(); at += 1000) {
+        std::fwrite(data.data() + at, 1, std::min<size_t>(1000, data.size() - at), out);
+        std::fflush(out);
+      }
+      std::fclose(out);
+    });
+  }
+  ~FifoWriter() { thread_.join(); }
+
+ private:
+  std::thread thread_;
+};
+
+TEST(ReadWholeFile, ReadsAFifo) {
+  const std::string path = MakeTempDir("csv_whole_fifo") + "/regions.csv";
+  const std::string data = "region\n" + std::string(100000, 'r') + "\n";
+  std::string contents;
+  std::string error;
+  {
+    FifoWriter writer(path, data);
+    ASSERT_TRUE(ReadWholeFile(path, 1 << 20, "", &contents, &error)) << error;
+  }
+  EXPECT_TRUE(contents == data);
+}
+
+// Reads `path` with a CsvBlockReader and returns the records as one reader
+// over the whole file sees them, the concatenated fresh bytes and the error.
+struct BlockRead {
+  ReadResult result;
+  std::string fresh;
+  std::string error;
+  bool has_bom = false;
+  int64_t num_bytes_read = 0;
+};
+BlockRead ReadInBlocks(const std::string& path, int64_t block_bytes,
+                       const ReadLimits& limits = ReadLimits()) {
+  BlockRead out;
+  CsvBlockReader blocks(path, block_bytes, limits);
+  if (!blocks.Open(&out.error)) return out;
+  CsvBlock block;
+  while (blocks.Next(&block, &out.error)) {
+    out.fresh.append(block.fresh);
+    const ReadResult part = ReadAll(block.records, block.first_line, false, 0, limits);
+    for (const OwnedRecord& record : part.records) {
+      OwnedRecord copy = record;
+      copy.offset = 0;  // Offsets are relative to each block.
+      out.result.records.push_back(std::move(copy));
+    }
+    if (!part.error.empty()) {
+      out.result.error = part.error;
+      break;
+    }
+  }
+  out.has_bom = blocks.has_bom();
+  out.num_bytes_read = blocks.num_bytes_read();
+  return out;
+}
+
+TEST(CsvBlockReader, YieldsTheRecordsOfOnePassWhateverTheBlockSize) {
+  // A byte-order mark, blank lines before the header, CRLF, quoted line
+  // breaks and a last record without a line end.
+  std::string data = "\xEF\xBB\xBF\n\r\n\nregion,note,value\r\n";
+  std::mt19937_64 rng(99);
+  for (int row = 0; row < 3000; ++row) {
+    data += "r" + std::to_string(rng() % 50) + ",";
+    data += row % 7 == 0 ? "\"a,\nb \"\"q\"\"\"" : "plain";
+    data += "," + std::to_string(rng() % 1000) + (row % 3 == 0 ? "\r\n" : "\n");
+    if (row % 500 == 0) data += "\n\n";
+  }
+  data += "last,x,1";
+  const std::string path = MakeTempDir("csv_blocks") + "/data.csv";
+  WriteTextFile(path, data);
+  ReadResult whole = ReadAll(data);
+  for (OwnedRecord& record : whole.records) record.offset = 0;
+  for (int64_t block_bytes : {64, 100, 4096, 1 << 20}) {
+    const BlockRead read = ReadInBlocks(path, block_bytes);
+    EXPECT_EQ(read.error, "") << block_bytes;
+    EXPECT_EQ(read.result.error, "") << block_bytes;
+    EXPECT_EQ(read.result.records, whole.records) << block_bytes;
+    EXPECT_TRUE(read.fresh == data) << block_bytes;
+    EXPECT_TRUE(read.has_bom);
+    EXPECT_EQ(read.num_bytes_read, static_cast<int64_t>(data.size()));
+  }
+}
+
+// Records beyond a limit are named by the limit crossed at the earlier
+// byte, so where a block ends never changes the message.
+TEST(CsvBlockReader, GivesTheSameLimitErrorWhateverTheBlockSize) {
+  const ReadLimits limits = SmallLimits(40, 100);
+  const std::string path = MakeTempDir("csv_blocks_limits") + "/data.csv";
+  std::mt19937_64 rng(7);
+  for (int trial = 0; trial < 300; ++trial) {
+    std::string data;
+    for (int row = 0; row < 40; ++row) {
+      const int num_fields = 1 + static_cast<int>(rng() % 6);
+      for (int f = 0; f < num_fields; ++f) {
+        if (f > 0) data += ',';
+        const size_t length = rng() % 100 < 97 ? rng() % 12 : rng() % 160;
+        const bool quoted = rng() % 4 == 0;
+        if (quoted) data += '"';
+        for (size_t k = 0; k < length; ++k) data += quoted && k % 9 == 4 ? '\n' : 'x';
+        if (quoted) data += '"';
+      }
+      data += '\n';
+    }
+    WriteTextFile(path, data);
+    const std::string expected = ReadAll(data, 1, true, 0, limits).error;
+    for (int64_t block_bytes : {64, 97, 256}) {
+      const BlockRead read = ReadInBlocks(path, block_bytes, limits);
+      const std::string found =
+          !read.error.empty() ? read.error.substr(path.size() + 1) : read.result.error;
+      ASSERT_EQ(found, expected) << "trial " << trial << ", block " << block_bytes;
+    }
+  }
+}
+
+TEST(CsvBlockReader, ReadsAFifoFedInSmallPieces) {
+  const std::string path = MakeTempDir("csv_blocks_fifo") + "/prices.csv";
+  std::string data = "region,price\n";
+  for (int row = 0; row < 20000; ++row) data += "r" + std::to_string(row % 13) + ",\"1\n2\"\n";
+  BlockRead read;
+  {
+    FifoWriter writer(path, data);
+    read = ReadInBlocks(path, 4096);
+  }
+  EXPECT_EQ(read.error, "");
+  ASSERT_EQ(read.result.records.size(), 20001u);
+  EXPECT_EQ(read.result.records.back().line, 40000);
+  EXPECT_TRUE(read.fresh == data);
+}
+
+// /dev/zero has no line end: reading stops at the limit instead of growing
+// the buffer, having read at most a block and the limit.
+TEST(CsvBlockReader, StopsAtTheLimitOnAFileWithoutLineEnds) {
+  const BlockRead zeros = ReadInBlocks("/dev/zero", 1 << 16);
+  EXPECT_EQ(zeros.error, "/dev/zero:1:1: a field longer than 1 MiB (limits.max_field_bytes); raise "
+                         "the limit if the file is right");
+  EXPECT_LE(zeros.num_bytes_read, (16 << 20) + 2 * (1 << 16));
+  const std::string path = MakeTempDir("csv_blocks_long") + "/prices.csv";
+  WriteTextFile(path, "region,price\n" + std::string(300, ',') + "\n");
+  const BlockRead commas = ReadInBlocks(path, 64, SmallLimits(10, 200));
+  EXPECT_EQ(commas.error, path + ":2: a record longer than 200 bytes (limits.max_record_bytes); "
+                                 "raise the limit if the file is right");
+  EXPECT_EQ(ReadInBlocks(path, 1 << 16, SmallLimits(10, 200)).result.error,
+            "2: a record longer than 200 bytes (limits.max_record_bytes); raise the limit if the "
+            "file is right");
+}
+
+TEST(CsvBlockReader, ReportsAMissingFileAndAnEmptyOne) {
+  const std::string dir = MakeTempDir("csv_blocks_missing");
+  EXPECT_EQ(ReadInBlocks(dir + "/absent.csv", 4096).error,
+            dir + "/absent.csv: cannot open file: No such file or directory");
+  WriteTextFile(dir + "/blank.csv", "\n\r\n\n");
+  const BlockRead blank = ReadInBlocks(dir + "/blank.csv", 64);
+  EXPECT_EQ(blank.error, "");
+  EXPECT_TRUE(blank.result.records.empty());
+  EXPECT_EQ(blank.fresh, "\n\r\n\n");
 }
 
 TEST(WriteFileAtomically, WritesBinaryContentsThatReadBackExactly) {
@@ -615,7 +884,7 @@ TEST(WriteFileAtomically, WritesBinaryContentsThatReadBackExactly) {
   std::string error;
   ASSERT_TRUE(WriteFileAtomically(path, contents, &error)) << error;
   std::string read_back;
-  ASSERT_TRUE(ReadWholeFile(path, &read_back, &error)) << error;
+  ASSERT_TRUE(ReadWholeFile(path, 8 << 20, "", &read_back, &error)) << error;
   EXPECT_TRUE(read_back == contents);
 }
 

@@ -2,6 +2,7 @@
 // shortest formatting, edit distance and "did you mean".
 #include "paritas/base/text.h"
 
+#include <algorithm>
 #include <cmath>
 #include <limits>
 
@@ -38,12 +39,33 @@ TEST(ParseNumber, RejectsGarbageAndLeavesValueUntouched) {
   EXPECT_EQ(value, 42.0);
 }
 
-TEST(ParseNumber, ReportsInfinityNanAndOverflowAsNonFinite) {
+TEST(ParseNumber, ReportsInfinityAndNanAsNonFinite) {
   double value = 42.0;
-  for (const char* text : {"inf", "-inf", "nan", "NaN", "infinity", "1e999", "-1e400"}) {
+  for (const char* text : {"inf", "-inf", "nan", "NaN", "infinity"}) {
     EXPECT_EQ(ParseNumber(text, &value), NumberStatus::kNonFinite) << text;
   }
   EXPECT_EQ(value, 42.0);
+}
+
+// Finite numbers beyond a double: too large, or so near zero that they
+// would round to zero (subnormal numbers are still read).
+TEST(ParseNumber, TellsOverflowFromUnderflow) {
+  double value = 42.0;
+  for (const char* text : {"1e999", "-1e400", "1.8e308", "123456789e305", " +1e99999999999999999999 "}) {
+    EXPECT_EQ(ParseNumber(text, &value), NumberStatus::kOverflow) << text;
+  }
+  for (const char* text : {"1e-400", "-1e-400", "2e-324", "0.00001e-320", "100e-327",
+                           "1e-99999999999999999999"}) {
+    EXPECT_EQ(ParseNumber(text, &value), NumberStatus::kUnderflow) << text;
+  }
+  EXPECT_EQ(value, 42.0);
+  EXPECT_EQ(ParseNumber("4e-324", &value), NumberStatus::kOk);
+  EXPECT_EQ(ParseNumber("0e-999", &value), NumberStatus::kOk);
+  EXPECT_EQ(value, 0.0);
+  EXPECT_EQ(NumberProblem(NumberStatus::kUnderflow, "price", "1e-400"),
+            "price '1e-400' is outside the range of numbers (underflow: nearer to zero than 4.9e-324)");
+  EXPECT_EQ(NumberProblem(NumberStatus::kOverflow, "price", "1e999"),
+            "price '1e999' is outside the range of numbers (overflow: beyond 1.8e308)");
 }
 
 TEST(ParseNumber, ReadsTheLargestDoubleExactly) {
@@ -135,6 +157,39 @@ TEST(NearestName, ReturnsNothingWhenNoCandidateIsClose) {
   const std::vector<std::string> keys = {"survey", "reference", "elementary"};
   EXPECT_EQ(NearestName("colour", keys), "");
   EXPECT_EQ(NearestName("x", {}), "");
+}
+
+// A 10 MB region code used to take about a second per lookup: every
+// candidate lowered a copy of the word and filled a full 10 MB x |candidate|
+// table. Codes are at most 200 bytes, so a word beyond 256 bytes is no typo
+// of one and gets no suggestion, even from a long candidate one edit away.
+TEST(NearestName, GivesNoSuggestionForAWordLongerThanAnyCode) {
+  const std::string long_code(300, 'r');
+  EXPECT_EQ(NearestName(long_code + "x", {"north", long_code}), "");
+  const std::string huge_word(10 << 20, 'r');
+  std::vector<std::string> regions;
+  for (int r = 0; r < 1000; ++r) regions.push_back("region" + std::to_string(r));
+  EXPECT_EQ(NearestName(huge_word, regions), "");
+}
+
+// The banded distance agrees with the full one up to the bound and says
+// "beyond" with bound + 1.
+TEST(EditDistance, StopsAtTheBoundGiven) {
+  EXPECT_EQ(EditDistance("kitten", "sitting", 3), 3);
+  EXPECT_EQ(EditDistance("kitten", "sitting", 2), 3);
+  EXPECT_EQ(EditDistance("kitten", "sitting", 0), 1);
+  EXPECT_EQ(EditDistance("abc", "", 1), 2);
+  EXPECT_EQ(EditDistance("same", "same", 0), 0);
+  const std::vector<std::string> words = {"", "a", "ab", "ba", "abc", "acb", "bread", "beard",
+                                          "reference", "refrence", "elementary", "ELEMENTRY"};
+  for (const std::string& a : words) {
+    for (const std::string& b : words) {
+      const int full = EditDistance(a, b);
+      for (int bound = 0; bound <= 12; ++bound) {
+        EXPECT_EQ(EditDistance(a, b, bound), std::min(full, bound + 1)) << a << " " << b << " " << bound;
+      }
+    }
+  }
 }
 
 TEST(JoinNames, SeparatesWithCommaSpaceByDefault) {

@@ -219,6 +219,93 @@ TEST(RunConfig, ReportsInvalidYamlWithLineAndColumn) {
   EXPECT_NE(error.find("invalid YAML: "), std::string::npos) << error;
 }
 
+// A classification of n aggregates each holding the next, the last one
+// heading: n + 1 levels of YAML nesting.
+std::string DeepTree(int n) {
+  std::string yaml;
+  for (int level = 0; level + 1 < n; ++level) {
+    yaml += std::string(2 * level, ' ') + "a" + std::to_string(level) + ":\n";
+  }
+  return yaml + std::string(2 * (n - 1), ' ') + "last: [heading]\n";
+}
+
+// yaml-cpp stops at 500 levels with "bad file"; nesting is now refused at
+// the limit, before yaml-cpp recurses that deep, with a message saying so.
+TEST(RunConfig, RefusesNestingDeeperThanTheLimit) {
+  const std::string message = ParseError(std::string(kSurvey) + "matrices: " + std::string(600, '[') +
+                                         std::string(600, ']') + "\n");
+  EXPECT_EQ(message,
+            "/cfg/run.yaml:4:74: nesting deeper than 64 levels (limits.max_yaml_depth; the "
+            "configuration file itself is read under the default); move a deep classification into "
+            "a file of its own");
+  const std::string dir = MakeTempDir("config_deep_tree");
+  WriteTextFile(dir + "/tree.yaml", DeepTree(70));
+  WriteTextFile(dir + "/run.yaml", std::string(kSurvey) + "classification: tree.yaml\n");
+  RunConfig config;
+  std::string error;
+  EXPECT_FALSE(LoadRunConfig(dir + "/run.yaml", &config, &error));
+  EXPECT_EQ(error, dir + "/tree.yaml:65:129: nesting deeper than 64 levels (limits.max_yaml_depth); "
+                         "raise the limit if the file is right");
+  WriteTextFile(dir + "/run.yaml", std::string(kSurvey) +
+                                       "classification: tree.yaml\nlimits:\n  max_yaml_depth: 100\n");
+  ASSERT_TRUE(LoadRunConfig(dir + "/run.yaml", &config, &error)) << error;
+  EXPECT_EQ(config.classification.headings().size(), 1u);
+  EXPECT_EQ(config.classification.nodes().back().depth, 70);
+}
+
+TEST(RunConfig, ReadsTheLimitsSection) {
+  const RunConfig defaults = Parse(kSurvey);
+  EXPECT_EQ(defaults.limits.max_record_bytes, ReadLimits().max_record_bytes);
+  const RunConfig config = Parse(std::string(kSurvey) +
+                                 "limits:\n  max_file_bytes: 1 GiB\n  max_yaml_bytes: 4MiB\n"
+                                 "  max_record_bytes: 65536\n  max_field_bytes: 4 KiB\n"
+                                 "  max_yaml_depth: 16\n");
+  EXPECT_EQ(config.limits.max_file_bytes, int64_t{1} << 30);
+  EXPECT_EQ(config.limits.max_yaml_bytes, int64_t{4} << 20);
+  EXPECT_EQ(config.limits.max_record_bytes, 65536);
+  EXPECT_EQ(config.limits.max_field_bytes, 4096);
+  EXPECT_EQ(config.limits.max_yaml_depth, 16);
+  EXPECT_EQ(ParseError(std::string(kSurvey) + "limits:\n  max_recrd_bytes: 1\n"),
+            "/cfg/run.yaml:5:3: unknown key 'limits.max_recrd_bytes'; did you mean "
+            "'limits.max_record_bytes'?");
+  EXPECT_EQ(ParseError(std::string(kSurvey) + "limits:\n  max_field_bytes: lots\n"),
+            "/cfg/run.yaml:5:20: limits.max_field_bytes must be a whole number of bytes from 1 to "
+            "1 TiB, optionally with a unit (KiB, MiB, GiB, TiB), found 'lots'");
+  EXPECT_EQ(ParseError(std::string(kSurvey) + "limits:\n  max_file_bytes: 0\n"),
+            "/cfg/run.yaml:5:19: limits.max_file_bytes must be a whole number of bytes from 1 to "
+            "1 TiB, optionally with a unit (KiB, MiB, GiB, TiB), found '0'");
+  EXPECT_EQ(ParseError(std::string(kSurvey) + "limits:\n  max_yaml_depth: 1000\n"),
+            "/cfg/run.yaml:5:19: limits.max_yaml_depth must be a whole number from 1 to 256, found "
+            "'1000'");
+  EXPECT_EQ(ParseError(std::string(kSurvey) + "limits: 5\n"),
+            "/cfg/run.yaml:4:9: 'limits' must be a mapping with keys max_file_bytes, max_yaml_bytes, "
+            "max_record_bytes, max_field_bytes, max_yaml_depth");
+}
+
+TEST(RunConfig, RefusesAClassificationFileBeyondTheYamlLimit) {
+  const std::string dir = MakeTempDir("config_big_tree");
+  std::string tree = "all:\n";
+  for (int h = 0; h < 100000; ++h) tree += "  - heading" + std::to_string(h) + "\n";
+  WriteTextFile(dir + "/tree.yaml", tree);  // About 1.8 MB.
+  WriteTextFile(dir + "/run.yaml", std::string(kSurvey) + "classification: tree.yaml\n");
+  RunConfig config;
+  std::string error;
+  EXPECT_FALSE(LoadRunConfig(dir + "/run.yaml", &config, &error));
+  EXPECT_EQ(error, dir + "/tree.yaml: file larger than 1 MiB (limits.max_yaml_bytes); raise the "
+                         "limit if the file is right");
+  WriteTextFile(dir + "/run.yaml", std::string(kSurvey) +
+                                       "limits:\n  max_yaml_bytes: 2 MiB\nclassification: tree.yaml\n");
+  ASSERT_TRUE(LoadRunConfig(dir + "/run.yaml", &config, &error)) << error;
+  EXPECT_EQ(config.classification.headings().size(), 100000u);
+  // The configuration file itself is read under the default.
+  WriteTextFile(dir + "/run.yaml", std::string(kSurvey) + "classification:\n  " +
+                                       std::string(20, ' ') + "\n" + std::string(2 << 20, '#') + "\n");
+  EXPECT_FALSE(LoadRunConfig(dir + "/run.yaml", &config, &error));
+  EXPECT_EQ(error, dir + "/run.yaml: file larger than 1 MiB (limits.max_yaml_bytes; the "
+                         "configuration file itself is read under the default); move a large "
+                         "classification into a file of its own");
+}
+
 TEST(RunConfig, ReadsTheDemoConfiguration) {
   RunConfig config;
   std::string error;

@@ -4,10 +4,14 @@
 // table does not depend on how prices.csv is cut into blocks and chunks.
 #include "paritas/survey/survey_loader.h"
 
+#include <sys/stat.h>
+
 #include <cmath>
+#include <cstdio>
 #include <filesystem>
 #include <optional>
 #include <random>
+#include <thread>
 
 #include "test_util.h"
 
@@ -317,10 +321,24 @@ TEST(LoadSurvey, RejectsAnUnparsablePrice) {
 TEST(LoadSurvey, RejectsANonFinitePrice) {
   const SurveyDir files = MakeSurvey("inf_price", std::string(kPrices) + "south,eggs,inf,food\n");
   EXPECT_EQ(FirstRejection(files), files.prices() + ":6:3: price 'inf' is not a finite number");
-  const SurveyDir huge = MakeSurvey("huge_price", std::string(kPrices) + "south,eggs,1e999,food\n");
-  EXPECT_EQ(FirstRejection(huge), huge.prices() + ":6:3: price '1e999' is not a finite number");
   const SurveyDir nan = MakeSurvey("nan_price", std::string(kPrices) + "south,eggs,NaN,food\n");
   EXPECT_EQ(FirstRejection(nan), nan.prices() + ":6:3: price 'NaN' is not a finite number");
+}
+
+// 1e-400 is finite but beyond what a double holds: it used to be called
+// "not a finite number".
+TEST(LoadSurvey, RejectsANumberOutsideTheRangeOfNumbers) {
+  const SurveyDir tiny = MakeSurvey("tiny_price", std::string(kPrices) + "south,eggs,1e-400,food\n");
+  EXPECT_EQ(FirstRejection(tiny), tiny.prices() + ":6:3: price '1e-400' is outside the range of "
+                                                   "numbers (underflow: nearer to zero than 4.9e-324)");
+  const SurveyDir huge = MakeSurvey("huge_price", std::string(kPrices) + "south,eggs,1e999,food\n");
+  EXPECT_EQ(FirstRejection(huge), huge.prices() + ":6:3: price '1e999' is outside the range of "
+                                                   "numbers (overflow: beyond 1.8e308)");
+  const SurveyDir expenditure =
+      MakeSurvey("tiny_expenditure", kPrices, std::string(kExpenditure) + "east,food,-0.1e-999\n");
+  EXPECT_EQ(FirstRejection(expenditure),
+            expenditure.expenditure() + ":4:3: expenditure '-0.1e-999' is outside the range of "
+                                        "numbers (underflow: nearer to zero than 4.9e-324)");
 }
 
 TEST(LoadSurvey, RejectsABadRepresentativeFlag) {
@@ -354,9 +372,15 @@ TEST(LoadSurvey, RejectsATooLongCode) {
 
 TEST(LoadSurvey, RejectsARowWithTheWrongNumberOfFields) {
   const SurveyDir files = MakeSurvey("field_count", std::string(kPrices) + "south,eggs,1\n");
-  EXPECT_EQ(FirstRejection(files), files.prices() + ":6: row has 3 fields, the header has 4");
+  // The column is the first one missing, or the first one too many.
+  EXPECT_EQ(FirstRejection(files), files.prices() + ":6:4: row has 3 fields, the header has 4");
   const SurveyDir one = MakeSurvey("field_count_one", std::string(kPrices) + "south\n");
-  EXPECT_EQ(FirstRejection(one), one.prices() + ":6: row has 1 field, the header has 4");
+  EXPECT_EQ(FirstRejection(one), one.prices() + ":6:2: row has 1 field, the header has 4");
+  const SurveyDir many = MakeSurvey("field_count_many", std::string(kPrices) + "south,eggs,1,food,x,y\n");
+  EXPECT_EQ(FirstRejection(many), many.prices() + ":6:5: row has 6 fields, the header has 4");
+  const SurveyDir regions = MakeSurvey("field_count_regions", kPrices, kExpenditure, std::nullopt,
+                                       "region,name\nnorth,North,extra\nsouth,South\n");
+  EXPECT_EQ(FirstRejection(regions), regions.regions() + ":2:3: row has 3 fields, the header has 2");
 }
 
 TEST(LoadSurvey, RejectsANegativeOrBadExpenditure) {
@@ -380,7 +404,7 @@ TEST(LoadSurvey, RejectsDuplicatedExpenditureRows) {
   const SurveyDir files = MakeSurvey("duplicate_expenditure", kPrices,
                                         std::string(kExpenditure) + "north, food ,50\n");
   EXPECT_EQ(FirstRejection(files),
-            files.expenditure() + ":4: duplicate row for region 'north' and heading 'food' (first at line 2)");
+            files.expenditure() + ":4:1: duplicate row for region 'north' and heading 'food' (first at line 2)");
 }
 
 TEST(LoadSurvey, RejectsAnItemFiledUnderTwoHeadingsInItemsCsv) {
@@ -572,6 +596,23 @@ TEST(LoadSurvey, ReadsQuotedFieldsCrlfBomBlankLinesAndNoFinalNewline) {
   EXPECT_EQ(survey.expenditure(1, 0), 2.0);
 }
 
+// A blank first line used to end the header search early: the block then
+// held no whole record and the file was called empty.
+TEST(LoadSurvey, ReadsAHeaderLongerThanABlockAfterABlankLine) {
+  std::string header = "region,item,price,heading";
+  for (int c = 0; c < 10000; ++c) header += ",column" + std::to_string(c);
+  const std::string commas(10000, ',');
+  const SurveyDir files = MakeSurvey("blank_long_header", "\n" + header + "\nnorth,bread,2,food" +
+                                                              commas + "\nsouth,bread,3,food" + commas + "\n");
+  Survey survey;
+  LoadOptions options;
+  options.block_bytes = 1 << 16;  // The header is about 120 KiB.
+  const LoadSummary summary = Load(files.config, &survey, options);
+  ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
+  EXPECT_EQ(FileOf(summary, "prices").rows_used, 2);
+  EXPECT_EQ(FileOf(summary, "prices").ignored_columns.size(), 10000u);
+}
+
 TEST(LoadSurvey, NamesTheLineAfterAQuotedNewline) {
   const SurveyDir files = MakeSurvey("line_after_newline",
                                         "region,item,note,price,heading\n"
@@ -607,7 +648,7 @@ TEST(LoadSurvey, ReportsAFileCutMidQuote) {
 
 TEST(LoadSurvey, ReadsATruncatedLastRow) {
   const SurveyDir files = MakeSurvey("truncated_row", std::string(kPrices) + "south,eg");
-  EXPECT_EQ(FirstRejection(files), files.prices() + ":6: row has 2 fields, the header has 4");
+  EXPECT_EQ(FirstRejection(files), files.prices() + ":6:3: row has 2 fields, the header has 4");
 }
 
 TEST(LoadSurvey, ReportsRandomBytesCleanly) {
@@ -638,13 +679,87 @@ TEST(LoadSurvey, ReadsBinaryBytesInsideFieldsAsCodes) {
   EXPECT_EQ(survey.items.Codes(), std::vector<std::string>{"\xFF\xFE"});
 }
 
-TEST(LoadSurvey, RejectsAFiftyMegabyteCodeField) {
+// Beyond limits.max_field_bytes the file stops; under a raised limit the
+// field is only a code too long for its row.
+TEST(LoadSurvey, RefusesAFiftyMegabyteFieldUnlessTheLimitIsRaised) {
   std::string prices = kPrices;
   prices += std::string(50 << 20, 'R') + ",bread,2,food\n";
-  const SurveyDir files = MakeSurvey("huge_field", prices);
+  SurveyDir files = MakeSurvey("huge_field", prices);
+  EXPECT_EQ(LoadMessage(files), files.prices() +
+                                    ":6:1: a field longer than 1 MiB "
+                                    "(limits.max_field_bytes); raise the limit if "
+                                    "the file is right");
+  files.config.limits.max_field_bytes = files.config.limits.max_record_bytes = int64_t{64} << 20;
   EXPECT_EQ(FirstRejection(files), files.prices() + ":6:1: region '" + std::string(60, 'R') +
                                        "...' is longer than 200 characters");
   std::filesystem::remove_all(files.dir);
+}
+
+// Devices and pipes report no size; reading stops at the limits.
+TEST(LoadSurvey, StopsAtTheLimitsOnDevZero) {
+  SurveyDir files = MakeSurvey("dev_zero", std::nullopt);
+  files.config.survey.prices = "/dev/zero";
+  EXPECT_EQ(LoadMessage(files),
+            "/dev/zero:1:1: a field longer than 1 MiB (limits.max_field_bytes); "
+            "raise the limit if the file is right");
+  files.config.limits.max_field_bytes = int64_t{32} << 20;  // The record limit comes first.
+  EXPECT_EQ(LoadMessage(files),
+            "/dev/zero:1: a record longer than 16 MiB "
+            "(limits.max_record_bytes); raise the limit if the file is right");
+  WriteTextFile(files.dir + "/prices.csv", kPrices);
+  files.config.survey.prices = files.dir + "/prices.csv";
+  files.config.survey.expenditure = "/dev/zero";
+  files.config.limits.max_file_bytes = 1 << 20;
+  EXPECT_EQ(LoadMessage(files),
+            "/dev/zero: file larger than 1 MiB (limits.max_file_bytes); raise "
+            "the limit if the file is right");
+}
+
+TEST(LoadSurvey, ReadsSmallTablesUnderTheConfiguredLimits) {
+  std::string regions = "region,name\n";
+  for (int r = 0; r < 100; ++r)
+    regions += "r" + std::to_string(r) + ",Region " + std::to_string(r) + "\n";
+  regions += "north,North\nsouth,South\n";
+  SurveyDir files = MakeSurvey("small_limits", kPrices, kExpenditure, std::nullopt, regions);
+  files.config.limits.max_file_bytes = 1000;
+  EXPECT_EQ(LoadMessage(files), files.regions() +
+                                    ": file larger than 1000 bytes "
+                                    "(limits.max_file_bytes); raise the limit if the "
+                                    "file is right");
+  files.config.limits.max_file_bytes = 4000;
+  files.config.limits.max_record_bytes = 12;
+  EXPECT_EQ(LoadMessage(files), files.regions() +
+                                    ":12: a record longer than 12 bytes "
+                                    "(limits.max_record_bytes); raise the limit if the "
+                                    "file is right");
+  files.config.limits.max_record_bytes = 100;
+  Survey survey;
+  EXPECT_EQ(Load(files.config, &survey).outcome, LoadOutcome::kOk);
+}
+
+// prices.csv through a FIFO, fed in small pieces by another thread.
+TEST(LoadSurvey, ReadsPricesFromAPipe) {
+  SurveyDir files = MakeSurvey("fifo", std::nullopt);
+  const std::string fifo = files.dir + "/prices.fifo";
+  ASSERT_EQ(::mkfifo(fifo.c_str(), 0600), 0);
+  files.config.survey.prices = fifo;
+  std::thread writer([&fifo] {
+    std::FILE* out = std::fopen(fifo.c_str(), "wb");
+    if (out == nullptr) return;
+    const std::string text = kPrices;
+    for (char c : text) {
+      std::fputc(c, out);
+      std::fflush(out);
+    }
+    std::fclose(out);
+  });
+  Survey survey;
+  const LoadSummary summary = Load(files.config, &survey);
+  writer.join();
+  ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
+  EXPECT_EQ(survey.num_quotes, 4);
+  EXPECT_EQ(FileOf(summary, "prices").size_bytes,
+            static_cast<int64_t>(std::string(kPrices).size()));
 }
 
 TEST(LoadSurvey, ReadsAHeaderWithAMillionColumns) {
@@ -666,7 +781,7 @@ TEST(LoadSurvey, ReadsAHeaderWithAMillionColumns) {
   EXPECT_EQ(FileOf(summary, "prices").ignored_columns.size(), static_cast<size_t>(kNumColumns - 4));
   EXPECT_EQ(FileOf(summary, "prices").rows_used, 2);
   ASSERT_EQ(summary.rejected_rows.size(), 1u);
-  EXPECT_EQ(summary.rejected_rows[0].reason, files.prices() + ":4: row has 4 fields, the header has 1000000");
+  EXPECT_EQ(summary.rejected_rows[0].reason, files.prices() + ":4:5: row has 4 fields, the header has 1000000");
   std::filesystem::remove_all(files.dir);
 }
 

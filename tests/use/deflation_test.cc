@@ -133,6 +133,21 @@ TEST(Deflate, GivesTheSameOutputWhateverTheBlockSize) {
   EXPECT_EQ(summary.num_bytes_read, static_cast<int64_t>(input.size()));
 }
 
+// A blank first line used to end the header search early: the block then
+// held no whole record and the file was called empty.
+TEST(Deflate, ReadsAHeaderLongerThanABlockAfterABlankLine) {
+  const std::string dir = MakeTempDir("deflate_blank_long_header");
+  std::string header = "region,income";
+  for (int c = 0; c < 200; ++c) header += ",column" + std::to_string(c);
+  const std::string commas(200, ',');
+  DeflateOptions options = Options(dir, "\n" + header + "\na,120" + commas + "\n");
+  options.block_bytes = 1024;  // The header is about 2.5 KiB.
+  DeflateSummary summary;
+  ASSERT_TRUE(Deflate(options, &summary)) << summary.message;
+  EXPECT_EQ(ReadTextFile(options.output_path),
+            header + ",income_real\na,120" + commas + ",100.0000\n");
+}
+
 TEST(Deflate, SkipsBadRowsAndListsThemInRejectedCsv) {
   const std::string dir = MakeTempDir("deflate_skip");
   DeflateOptions options = Options(dir,
@@ -165,7 +180,7 @@ TEST(Deflate, SkipsBadRowsAndListsThemInRejectedCsv) {
           ":4:3: income is empty,\"3,b,\"\n" + in + ",5," + in +
           ":5:3: income 'abc' is not a number,\"4,b,abc\"\n" + in + ",6," + in +
           ":6:3: income '-5' is negative (negative values need --allow-negative),\"5,b,-5\"\n" +
-          in + ",7,\"" + in + ":7: row has 2 fields, the header has 3\",\"6,b\"\n" + in + ",8," +
+          in + ",7,\"" + in + ":7:3: row has 2 fields, the header has 3\",\"6,b\"\n" + in + ",8," +
           in + ":8:2: region is empty,\"7,,100\"\n");
   ASSERT_EQ(summary.rejected_rows.size(), 6u);
   EXPECT_EQ(summary.rejected_rows[0].raw, "2,zz,100");
@@ -281,6 +296,84 @@ TEST(Deflate, AddsRealValuesAtTheBoundsOfTheParityInterval) {
             "other_real_lower,other_real_upper\n"
             "a,12000,3,10000.0000,2.5000,8000.0000,12000.0000,2.0000,3.0000\n"
             "b,9000,-1,10000.0000,-1.1111,,,,\n");
+}
+
+// 100,000 node/region pairs with distinct nodes and regions: a dense
+// node x region table needs 10^10 cells (80 GB) and aborted with bad_alloc.
+TEST(Deflate, ReadsAParitiesFileOfAHundredThousandDistinctPairs) {
+  const std::string dir = MakeTempDir("deflate_sparse_parities");
+  std::string parities = "node,kind,region,parity\n";
+  for (int i = 0; i < 100000; ++i) {
+    parities += "n" + std::to_string(i) + ",aggregate,r" + std::to_string(i) + "," +
+                std::to_string(50 + i % 100) + "\n";
+  }
+  DeflateOptions options = Options(dir, "node,region,income\nn7,r7,570\nn99999,r99999,1490\n");
+  WriteTextFile(options.parities_dir + "/parities.csv", parities);
+  options.node_column = "node";
+  DeflateSummary summary;
+  ASSERT_TRUE(Deflate(options, &summary)) << summary.message;
+  EXPECT_EQ(ReadTextFile(options.output_path),
+            "node,region,income,income_real\nn7,r7,570,1000.0000\nn99999,r99999,1490,1000.0000\n");
+  // A pair the file does not hold has no parity.
+  WriteTextFile(options.input_path, "node,region,income\nn7,r8,1\n");
+  EXPECT_FALSE(Deflate(options, &summary));
+  ASSERT_EQ(summary.rejected_rows.size(), 1u);
+  EXPECT_EQ(summary.rejected_rows[0].reason,
+            options.input_path + ":2:2: region 'r8' has no parity for node 'n7' in " +
+                options.parities_dir + "/parities.csv");
+}
+
+TEST(Deflate, RefusesDuplicatedAndMalformedRowsOfParitiesCsv) {
+  const std::string dir = MakeTempDir("deflate_bad_parities");
+  DeflateOptions options = Options(dir, "region,income\na,1\n");
+  const std::string parities = options.parities_dir + "/parities.csv";
+  WriteTextFile(parities, "node,kind,region,parity\nall,aggregate,a,100\nall,aggregate, a ,90\n");
+  DeflateSummary summary;
+  EXPECT_FALSE(Deflate(options, &summary));
+  EXPECT_EQ(summary.message,
+            parities + ":3:1: duplicate row for node 'all' and region 'a' (first at line 2)");
+  WriteTextFile(parities, "node,kind,region,parity\nall,aggregate,a\n");
+  EXPECT_FALSE(Deflate(options, &summary));
+  EXPECT_EQ(summary.message, parities + ":2:4: row has 3 fields, the header has 4");
+  // A code written with doubled quotes is read like any other.
+  WriteTextFile(parities, "node,kind,region,parity\n\"a\"\"ll\",aggregate,a,50\n");
+  WriteTextFile(options.input_path, "region,income\na,1\n");
+  ASSERT_TRUE(Deflate(options, &summary)) << summary.message;
+  EXPECT_EQ(summary.node_used, "a\"ll");
+}
+
+// Devices and pipes report no size: the input stops at the record limit,
+// parities.csv at the file limit.
+TEST(Deflate, ReadsInputAndParitiesUnderTheLimits) {
+  const std::string dir = MakeTempDir("deflate_limits");
+  DeflateOptions options = Options(dir, "region,income\na,1\n");
+  options.input_path = "/dev/zero";
+  DeflateSummary summary;
+  EXPECT_FALSE(Deflate(options, &summary));
+  EXPECT_EQ(summary.message,
+            "/dev/zero:1:1: a field longer than 1 MiB (limits.max_field_bytes); "
+            "raise the limit if the file is right");
+  EXPECT_LE(summary.num_bytes_read, (16 << 20) + (8 << 20));
+  options.input_path = dir + "/in.csv";
+  options.limits.max_file_bytes = 100;
+  EXPECT_FALSE(Deflate(options, &summary));
+  EXPECT_EQ(summary.message, options.parities_dir +
+                                 "/parities.csv: file larger than 100 bytes "
+                                 "(limits.max_file_bytes); raise the limit if "
+                                 "the file is right");
+  options.limits = ReadLimits();
+  options.limits.max_record_bytes = 40;  // parities.csv has rows of up to 35 bytes.
+  WriteTextFile(options.input_path,
+                "region,income,note\na,120,short\nb,90," + std::string(50, 'x') + "\n");
+  EXPECT_FALSE(Deflate(options, &summary));
+  EXPECT_EQ(summary.message, options.input_path +
+                                 ":3: a record longer than 40 bytes "
+                                 "(limits.max_record_bytes); raise the limit if "
+                                 "the file is right");
+  EXPECT_FALSE(std::filesystem::exists(options.output_path));
+  options.limits.max_record_bytes = 0;
+  EXPECT_FALSE(Deflate(options, &summary));
+  EXPECT_EQ(summary.message, "limits.max_record_bytes must be from 1 byte to 1 TiB, found 0");
 }
 
 TEST(Deflate, ExplainsHeaderProblems) {

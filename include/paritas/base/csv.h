@@ -13,6 +13,8 @@
 #include <unordered_map>
 #include <vector>
 
+#include "paritas/base/read_limits.h"
+
 namespace paritas {
 
 // One record (row) of a CSV file. Views point into the reader's buffer or
@@ -47,12 +49,25 @@ struct CsvRecord {
 //   "L:C: unexpected quote in unquoted field"
 //   "L:C: unexpected text after closing quote"
 //   "L:C: stray carriage return (line ends must be LF or CRLF)"
+//   "L:C: a field longer than 1 MiB (limits.max_field_bytes); raise the
+//    limit if the file is right" ("a quoted field (opened here) longer
+//    than ..." when quoted)
+//   "L: a record longer than 16 MiB (limits.max_record_bytes); raise the
+//    limit if the file is right" (L the record's first line)
+// A record is refused at the first byte beyond a limit: a field beyond
+// max_field_bytes whose limit falls within the record's first
+// max_record_bytes is named as a field, otherwise the record is, so the
+// message does not depend on where a block of a streamed file ends.
 class CsvReader {
  public:
   // `data` must outlive the reader. `first_line` is the line number of the
   // first byte of `data` (1 for a whole file); `skip_bom` strips a leading
-  // UTF-8 byte-order mark.
+  // UTF-8 byte-order mark. Records and fields are limited by the defaults
+  // of ReadLimits until set_limits says otherwise.
   CsvReader(std::string_view data, int64_t first_line = 1, bool skip_bom = true);
+
+  // Uses limits.max_record_bytes and limits.max_field_bytes.
+  void set_limits(const ReadLimits& limits);
 
   // Reads the next record. Returns false at the end of the data or on a
   // malformed record; in the latter case error() is non-empty and names the
@@ -68,12 +83,21 @@ class CsvReader {
   size_t position() const { return pos_; }
 
  private:
-  // Records "line:field: what" as the error, stops the reader and returns false.
-  bool Fail(int64_t line, int64_t field_number, const char* what, CsvRecord* record);
+  // Records "line:field: what" ("line: what" for field number 0) as the
+  // error, stops the reader and returns false.
+  bool Fail(int64_t line, int64_t field_number, const std::string& what, CsvRecord* record);
+  // Checks a field [field_begin, field_end) of the record starting at
+  // `record_begin` and running at least to `record_end`; fails and returns
+  // false when a limit is exceeded.
+  bool WithinLimits(const char* record_begin, const char* field_begin, const char* field_end,
+                    const char* record_end, int64_t field_line, int64_t field_number, bool quoted,
+                    CsvRecord* record);
 
   std::string_view data_;
   size_t pos_ = 0;
   int64_t line_ = 1;
+  size_t max_record_bytes_;
+  size_t max_field_bytes_;
   std::string error_;
 };
 
@@ -95,6 +119,79 @@ std::vector<size_t> SplitAtRecordBoundaries(std::string_view data, int num_chunk
 // a record boundary: the position after the last LF outside quotes, 0 when
 // there is none. For reading a file block by block.
 size_t LastRecordEnd(std::string_view data);
+
+// Returns the number of LF bytes in `data`.
+int64_t CountLineFeeds(std::string_view data);
+
+// A run of whole records handed out by CsvBlockReader. The views point into
+// the reader's buffer and stay valid until its next call of Next.
+struct CsvBlock {
+  // Whole records starting at a record boundary, to be read with
+  // CsvReader(records, first_line, /*skip_bom=*/false). The first block
+  // starts at the file's first record that is not blank (after a byte-order
+  // mark and blank lines) and holds that record whole; the last block ends
+  // at the end of the file, whose last record may lack its line end. A block
+  // may be empty.
+  std::string_view records;
+  // Line number of the first byte of `records`.
+  int64_t first_line = 1;
+  // The bytes read from the file during this call, in file order; the
+  // `fresh` views of all calls together are the whole file (for a digest).
+  std::string_view fresh;
+};
+
+// Reads a file of any kind -- a regular file, a pipe, a FIFO, a device such
+// as /dev/zero -- in blocks of whole records, holding at most one block plus
+// limits.max_record_bytes of text whatever the file is. The file's size as
+// reported by the system is only a hint for the first allocation. A record
+// that does not end within limits.max_record_bytes (a file without line
+// ends) stops the reading with an error naming the file and line, as
+// CsvReader words it, e.g. "prices.csv:1: a record longer than 16 MiB
+// (limits.max_record_bytes); raise the limit if the file is right".
+class CsvBlockReader {
+ public:
+  // Reads `block_bytes` per step (at least 64).
+  CsvBlockReader(std::string path, int64_t block_bytes, const ReadLimits& limits);
+  ~CsvBlockReader();
+  CsvBlockReader(const CsvBlockReader&) = delete;
+  CsvBlockReader& operator=(const CsvBlockReader&) = delete;
+
+  // Opens the file; returns false with "path: cannot open file: reason".
+  bool Open(std::string* error);
+  // Reads the next block. Returns false at the end of the file (error left
+  // empty) or on failure ("path: cannot read file: reason", or a record or
+  // field beyond the limits).
+  bool Next(CsvBlock* block, std::string* error);
+  // True when the file starts with a UTF-8 byte-order mark (known once Next
+  // has returned a block).
+  bool has_bom() const { return has_bom_; }
+  // Bytes read from the file so far.
+  int64_t num_bytes_read() const { return num_bytes_read_; }
+
+ private:
+  // Appends up to one block of the file to the buffer; sets at_eof_.
+  bool Fill(std::string* error);
+  // Where the first record starts in the buffer (which begins the file):
+  // after a byte-order mark and blank lines. Counts their LFs in *num_lines.
+  size_t SkipLeadingBlankLines(std::string_view data, int64_t* num_lines);
+  // The error for a record in `pending` (no record end in sight) that is
+  // already longer than the limit.
+  std::string BeyondLimitError(std::string_view pending) const;
+
+  std::string path_;
+  size_t block_bytes_;
+  ReadLimits limits_;
+  int fd_ = -1;
+  std::string buffer_;
+  size_t size_ = 0;      // bytes of buffer_ holding file data
+  size_t consumed_ = 0;  // bytes at the front handed out by the last call
+  int64_t line_ = 1;     // line number of buffer_[consumed_]
+  bool started_ = false;  // the first record has been found
+  bool at_eof_ = false;
+  bool done_ = false;
+  bool has_bom_ = false;
+  int64_t num_bytes_read_ = 0;
+};
 
 // Maps header names to column indices. Names (and the names looked up) are
 // matched exactly, case included, after trimming ASCII spaces at both ends;
@@ -130,10 +227,15 @@ void AppendCsvField(std::string_view field, std::string* out);
 // a record of no fields is a blank line, which reads back as no record.
 void AppendCsvRecord(const std::vector<std::string_view>& fields, std::string* out);
 
-// Reads a whole file into `contents`, byte for byte. Returns false and sets
-// `error` (e.g. "prices.csv: cannot open file: No such file or directory", the
-// reason being strerror's text) on failure.
-bool ReadWholeFile(const std::string& path, std::string* contents, std::string* error);
+// Reads a whole file of any kind (regular file, pipe, device) into
+// `contents`, byte for byte, in pieces, stopping once it holds more than
+// `max_bytes`: the size the system reports is not trusted (it is 0 for
+// pipes and devices). Returns false and sets `error` on failure, e.g.
+// "prices.csv: cannot open file: No such file or directory" (strerror's
+// text) or, beyond the limit, "items.csv: file larger than 256 MiB " +
+// `advice` (e.g. LimitAdvice("limits.max_file_bytes")).
+bool ReadWholeFile(const std::string& path, int64_t max_bytes, std::string_view advice,
+                   std::string* contents, std::string* error);
 
 // Writes `contents` to `path` through the temporary file "<path>.tmp.<pid>" in
 // the same folder, flushed to disk and renamed into place, so readers never

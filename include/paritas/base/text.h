@@ -5,6 +5,7 @@
 #define PARITAS_BASE_TEXT_H_
 
 #include <cstdint>
+#include <limits>
 #include <string>
 #include <string_view>
 #include <vector>
@@ -12,10 +13,18 @@
 namespace paritas {
 
 // Outcome of parsing a number.
-enum class NumberStatus { kOk, kEmpty, kInvalid, kNonFinite };
+enum class NumberStatus {
+  kOk,
+  kEmpty,
+  kInvalid,
+  kNonFinite,  // inf or nan
+  kOverflow,   // finite but larger in magnitude than the largest double (1.8e308)
+  kUnderflow,  // finite and not zero but so near zero it would read as 0 (below 4.9e-324)
+};
 
 // Parses a decimal number (leading and trailing ASCII spaces allowed, a
-// leading '+' allowed). Rejects empty text, trailing garbage, and inf/nan.
+// leading '+' allowed). Rejects empty text, trailing garbage, inf/nan, and
+// numbers beyond the range of a double (subnormal numbers are read).
 NumberStatus ParseNumber(std::string_view text, double* value);
 
 // Parses a 1/0, yes/no, true/false flag (case-insensitive, spaces trimmed).
@@ -52,11 +61,16 @@ std::string LocatedMessage(const std::string& path, int64_t line, int column, co
 // number"; empty for kOk.
 std::string NumberProblem(NumberStatus status, std::string_view what, std::string_view text);
 
-// Levenshtein distance between two strings.
-int EditDistance(std::string_view a, std::string_view b);
+// Returns the Levenshtein distance between two strings, or max_distance + 1
+// when it is larger than max_distance. Costs O(|a| x min(max_distance, |b|))
+// steps: only a band around the diagonal is computed.
+int EditDistance(std::string_view a, std::string_view b,
+                 int max_distance = std::numeric_limits<int>::max());
 
-// Returns the candidate closest to `word` by edit distance when it is close
-// enough to be a plausible typo (distance <= max(2, |word| / 3)), else "".
+// Returns the candidate closest to `word` by edit distance (ASCII case
+// ignored) when it is close enough to be a plausible typo (distance <=
+// max(2, |word| / 3)), else "". A word longer than 256 bytes gets no
+// suggestion (codes are at most 200 bytes), so a huge word costs nothing.
 std::string NearestName(std::string_view word, const std::vector<std::string>& candidates);
 
 // Returns `text` safe to show on a terminal or in a report: line feeds and

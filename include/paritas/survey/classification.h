@@ -6,6 +6,8 @@
 #include <string>
 #include <vector>
 
+#include "paritas/base/read_limits.h"
+
 namespace paritas {
 namespace internal {
 class ClassificationBuilder;
@@ -31,9 +33,11 @@ class Classification {
   // Parses the YAML tree. `source` names the file (or config key) for
   // messages. Returns false with a message naming the line on malformed
   // trees: not exactly one root, an empty aggregate, a code listed twice,
-  // a list entry that is neither a code nor a one-key mapping.
+  // a list entry that is neither a code nor a one-key mapping, or YAML
+  // nesting deeper than `max_yaml_depth` (ReadLimits::max_yaml_depth).
   static bool FromYaml(const std::string& yaml_text, const std::string& source,
-                       Classification* classification, std::string* error);
+                       Classification* classification, std::string* error,
+                       int max_yaml_depth = ReadLimits().max_yaml_depth);
   // Builds the default tree: a root `all` holding the given headings.
   static Classification Flat(const std::vector<std::string>& heading_codes,
                              const std::string& root_code = "all");

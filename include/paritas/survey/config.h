@@ -7,6 +7,7 @@
 #include <string>
 #include <vector>
 
+#include "paritas/base/read_limits.h"
 #include "paritas/survey/classification.h"
 
 namespace paritas {
@@ -88,13 +89,19 @@ struct RunConfig {
   bool report = true;
   // Worker threads; 0 = all cores.
   int threads = 0;
+  // Limits on the input files (the `limits:` section): every file named
+  // above, and the classification file, is read under them. The
+  // configuration file itself is read under the defaults.
+  ReadLimits limits;
 
   bool IsValid(std::string* error) const;
 };
 
 // Reads a run configuration. Paths inside are resolved against the folder of
 // `path`. Returns false with a message naming file, line and key on any
-// problem; an unknown key suggests the nearest valid one.
+// problem; an unknown key suggests the nearest valid one. The file is read
+// under the default limits.max_yaml_bytes and limits.max_yaml_depth, the
+// classification file it names under its own `limits:`.
 bool LoadRunConfig(const std::string& path, RunConfig* config, std::string* error);
 // Same from text; `path` names the file and sets the base folder.
 bool ParseRunConfig(const std::string& yaml_text, const std::string& path, RunConfig* config,

@@ -15,6 +15,7 @@
 #include <string>
 #include <vector>
 
+#include "paritas/base/read_limits.h"
 #include "paritas/survey/config.h"
 #include "paritas/survey/survey_loader.h"
 
@@ -69,8 +70,13 @@ struct DeflateOptions {
   std::string rejected_path;
   // Bytes read from the input per step; bounds the memory used for text.
   // Default 4 MiB; at least 1 KiB (a record longer than a block is carried
-  // over until it ends).
+  // over until it ends, or until limits.max_record_bytes).
   int64_t block_bytes = 4 << 20;
+  // Limits on what is read (see read_limits.h): parities.csv and
+  // sensitivity/bootstrap.csv are read whole up to limits.max_file_bytes;
+  // the input is streamed, so only its records and fields are limited.
+  // Defaults as in ReadLimits; the command line uses them.
+  ReadLimits limits;
 
   bool IsValid(std::string* error) const;
   // rejected_path, or the default derived from output_path.
