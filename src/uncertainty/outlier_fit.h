@@ -82,8 +82,9 @@ double RobustScale(const Eigen::VectorXd& residual, const Eigen::VectorXd& hat,
 // Returns q_k = x_k' (X'WX)^+ x_k for every cell of a linked CPD design
 // (regions 0..num_regions-1 and items 0..num_items-1 all present), with
 // x_k the indicator of the cell's region and item. Forms the Schur
-// complement of the smaller side, as FitCpd does: cost about
-// cells x min(R, I) + min(R, I)^3.
+// complement of the smaller side by dense products, as FitCpd does: cost
+// about min(R, I)^2 x max(R, I) + min(R, I)^3. NaN for every cell when the
+// complement is not positive definite.
 Eigen::VectorXd LeverageFactors(int num_regions, int num_items, std::span<const int> region,
                                 std::span<const int> item, const Eigen::VectorXd& weight);
 

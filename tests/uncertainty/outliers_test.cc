@@ -231,6 +231,22 @@ TEST(FindOutliers, ListsAnItemPricedInOneRegionAsNotScreenable) {
   EXPECT_NE(csv.find(",,,,2,not screenable,1.0000,item priced only in this region\n"), std::string::npos) << csv;
 }
 
+// A heading only one region priced has no relative price to check.
+TEST(FindOutliers, ListsEveryCellOfAHeadingPricedInOneRegionAsNotScreenable) {
+  synthetic::SyntheticSurvey truth = synthetic::Generate(SmallOptions());
+  const int heading = 2;
+  synthetic::DropQuotes([&](int r, int i) { return r != 0 && truth.item_heading[i] == heading; }, &truth);
+  const Survey survey = LoadSynthetic(truth, "outlier_one_region");
+  const OutlierReport report = FindOutliers(survey, ComputeWith(survey, "cpd"), OutlierOptions());
+  const int h = survey.item_heading[survey.items.Find(truth.items[heading * 10])];
+  ASSERT_EQ(report.not_screenable.size(), static_cast<size_t>(survey.heading_range[h].num_cells()));
+  for (const Outlier& o : report.not_screenable) {
+    EXPECT_EQ(o.heading, h);
+    EXPECT_EQ(o.note, "heading priced in one region");
+  }
+  for (const Outlier& o : report.outliers) EXPECT_NE(o.heading, h);
+}
+
 // An item priced in two regions: each cell's least-squares residual is half
 // the discrepancy, and nothing tells which of the two is wrong. Both are
 // listed, each with the full factor against the price the other predicts.

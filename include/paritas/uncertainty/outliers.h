@@ -51,7 +51,8 @@ struct OutlierOptions {
   // OutlierReport::converged says so.
   int max_iterations = 200;
   // The robust fit stops when no cell's weight changes by more than this
-  // between two iterations (default 1e-4; in (0, 0.5]).
+  // between two iterations (default 1e-4, far finer than anything that
+  // moves a flag; in (0, 0.5]).
   double weight_tolerance = 1e-4;
 
   // Returns false and sets `error` when a field is out of range, e.g.
@@ -93,16 +94,23 @@ struct Outlier {
   // currency units. NaN for a cell that is not screenable.
   double observed = 0.0;
   double predicted = 0.0;
-  // Prediction error over its standard deviation. Cells screened by the fit:
-  // e / (s sqrt((1 - h)(1 - h + q))), the leave-one-out prediction error
-  // d = e / (1 - h) of the weighted fit (e its residual, q = x'(X'WX)^+ x,
-  // h = w q the hat value) over its standard deviation s sqrt(1 + q / (1 - h));
-  // s = the heading's robust scale (OutlierReport::residual_scale). For
-  // h = 1 (leave-one-out across headings): d / sqrt(s^2 (1 + 1/m) + t^2), m
-  // the item's other cells, t the heading's spread of regional levels against
-  // the other headings. A quote: (ln quote - ln predicted) / sqrt(sd^2 + v^2),
-  // sd the cell's prediction standard deviation, v the heading's median
-  // within-cell sd of ln quotes. NaN when not screenable.
+  // Prediction error over its standard deviation, read on the normal scale:
+  // the ratio t is mapped to the normal deviate with the same tail
+  // probability under Student's t on 0.37 x the degrees of freedom behind
+  // the scale (the MAD's Gaussian efficiency, Rousseeuw and Croux 1993;
+  // Wallace 1959's approximation), so the threshold means the same in a
+  // small heading as in a large one. The ratio: for cells screened by the
+  // fit, e / (s sqrt((1 - h)(1 - h + q))), i.e. the leave-one-out error
+  // d = e / (1 - h) of the weighted fit (e the residual, q = x'(X'WX)^+ x,
+  // h = w q the hat value) over its standard deviation s sqrt(1 + q / (1 - h)),
+  // with s = OutlierReport::residual_scale. For h = 1 (leave-one-out across
+  // headings): d / sqrt(s^2 (1 + 1/m) + t^2), d how much dearer the region is
+  // in this heading than in the others (medians over headings and regions),
+  // m the item's other cells, t the heading's spread of such d over its
+  // regions (degrees of freedom by Welch-Satterthwaite). A quote:
+  // (ln quote - ln predicted) / sqrt(sd^2 + v^2), sd the cell's prediction
+  // standard deviation, v the heading's typical within-cell sd of ln quotes.
+  // NaN when not screenable.
   double standardised_residual = 0.0;
   int num_quotes = 0;
   ScreenedBy how = ScreenedBy::kFit;
@@ -135,10 +143,11 @@ struct OutlierReport {
   std::vector<Outlier> not_screenable;
   std::vector<Dispersion> dispersion;  // heading-major, regions in survey order
   // Per heading: flagged cells, and the robust residual scale s in log
-  // points: 1.4826 x median |e_k| / sqrt(1 - h0_k) over the cells with hat
-  // value h0 < 1 in the unweighted design (normalised MAD about 0, Hampel
-  // 1974; the leverage term makes each residual's variance sigma^2). NaN
-  // where the heading was not screened.
+  // points: 1.4826 x median |e_k| / sqrt(1 - h_k) over the cells with hat
+  // value h_k < 1 in the final fit (normalised MAD about 0, Hampel 1974;
+  // dividing by sqrt(1 - h) gives each term variance sigma^2); the median
+  // heading's where fewer than 3 cells have h < 1. NaN where the heading
+  // was not screened.
   std::vector<int> num_flagged_cells;
   std::vector<double> residual_scale;
   // Per heading: iterations of the robust fit, and whether its weights
@@ -153,7 +162,8 @@ struct OutlierReport {
 
 // Screens every heading whose regions are linked (the others have no
 // parities; `paritas check` reports them). Cells are screened whatever the
-// elementary method; `result` gives the dispersion (its residuals where the
+// elementary method, each weighing 1 before the Huber weights
+// (representativity weights shape parities, not the search for errors); `result` gives the dispersion (its residuals where the
 // method has them, otherwise ln p - ln P_r - b_i with b_i the mean over the
 // item's cells of ln p - ln P_r). Quotes: the lowest and highest quote of
 // every screened cell with several quotes are listed when they are beyond the
