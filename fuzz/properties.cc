@@ -60,7 +60,7 @@ bool WriteFile(const std::string& path, std::string_view contents, std::string* 
 
 std::string ReadFileOrEmpty(const std::string& path) {
   std::string contents, error;
-  if (!ReadWholeFile(path, &contents, &error)) return "";
+  if (!ReadWholeFile(path, ReadLimits().max_file_bytes, "", &contents, &error)) return "";
   return contents;
 }
 

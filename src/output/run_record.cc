@@ -9,6 +9,7 @@
 
 #include "base/sha256.h"
 #include "paritas/base/csv.h"
+#include "paritas/base/read_limits.h"
 
 namespace paritas {
 namespace {
@@ -118,7 +119,9 @@ std::string RunRecordJson(const RunRecord& record) {
 bool ReadRunRecord(const std::string& folder, std::string* run_id, std::string* json,
                    std::string* error) {
   const std::string path = (std::filesystem::path(folder) / "run.json").string();
-  if (!ReadWholeFile(path, json, error)) return false;
+  if (!ReadWholeFile(path, ReadLimits().max_file_bytes, LimitAdvice("limits.max_file_bytes"), json, error)) {
+    return false;
+  }
   const Json record = Json::parse(*json, nullptr, /*allow_exceptions=*/false);
   if (record.is_discarded() || !record.is_object() || !record.contains("tool")) {
     *error = path + ": not a run record of paritas";

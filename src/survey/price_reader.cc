@@ -335,15 +335,6 @@ std::vector<size_t> ChunkStarts(std::string_view data) {
   return starts;
 }
 
-// True when `data` (a file's first bytes, ending at a record boundary) holds
-// a record or a malformed one; false when it holds only blank lines, so that
-// a header after them is looked for in the next block.
-bool HoldsRecord(std::string_view data) {
-  CsvReader reader(data, 1, /*skip_bom=*/true);
-  CsvRecord record;
-  return reader.Next(&record) || !reader.error().empty();
-}
-
 class PriceReader {
  public:
   PriceReader(const std::string& path, const LoadOptions& options, LoadState* state,
