@@ -292,15 +292,6 @@ bool ReadParities(const DeflateOptions& options, ParityTable* table, std::string
   return !options.include_interval || ReadIntervals(options, table, error);
 }
 
-// True when `data` (a file's first bytes, ending at a record boundary) holds
-// a record or a malformed one; false when it holds only blank lines, so that
-// a header after them is looked for in the next block.
-bool HoldsRecord(std::string_view data) {
-  CsvReader reader(data, 1, /*skip_bom=*/true);
-  CsvRecord record;
-  return reader.Next(&record) || !reader.error().empty();
-}
-
 // A file written under a temporary name and renamed into place by Commit.
 class AtomicFile {
  public:
