@@ -537,7 +537,13 @@ std::string DeflateOutputProblem(std::string_view input, const std::string& outp
   }
   std::vector<std::string> header = in.records[0].fields;
   header.insert(header.end(), summary.columns_added.begin(), summary.columns_added.end());
-  if (out.records[0].fields != header) return "output header is " + ShowRecord(out.records[0]);
+  // Blank lines before the header are not copied, so a byte-order mark after
+  // them starts the output and is read as one there, not as part of a name.
+  std::vector<std::string> out_header = out.records[0].fields;
+  for (std::vector<std::string>* names : {&header, &out_header}) {
+    if ((*names)[0].rfind("\xEF\xBB\xBF", 0) == 0) (*names)[0].erase(0, 3);
+  }
+  if (out_header != header) return "output header is " + ShowRecord(out.records[0]);
   std::set<int64_t> rejected_lines;
   for (const RejectedRow& row : summary.rejected_rows) rejected_lines.insert(row.line);
   size_t next = 1;
