@@ -491,6 +491,8 @@ constexpr std::string_view kParities =
     "food,aggregate,r3,,1\n"
     "bread,heading,r1,0.5,1\n"
     "bread,heading,r2,1e3,1\n";
+constexpr std::string_view kRunRecord =
+    R"({"tool": {"name": "paritas"}, "configuration": {"reference": "mean"}, "inputs": []})";
 constexpr std::string_view kIntervals =
     "node,region,lower,upper\n"
     "all,r1,110,130\n"
@@ -825,10 +827,14 @@ std::string CheckDeflate(std::string_view data, const std::string& work_dir) {
   const std::string parities_dir = work_dir + "/parities";
   std::string error;
   std::error_code ec;
-  if (!fs::exists(parities_dir + "/sensitivity/bootstrap.csv", ec)) {
+  if (!fs::exists(parities_dir + "/sensitivity/run.json", ec)) {
     fs::create_directories(parities_dir + "/sensitivity", ec);
+    // The same run record beside parities and intervals, so Deflate takes
+    // them as one comparison.
     if (!WriteFile(parities_dir + "/parities.csv", kParities, &error) ||
-        !WriteFile(parities_dir + "/sensitivity/bootstrap.csv", kIntervals, &error)) {
+        !WriteFile(parities_dir + "/sensitivity/bootstrap.csv", kIntervals, &error) ||
+        !WriteFile(parities_dir + "/run.json", kRunRecord, &error) ||
+        !WriteFile(parities_dir + "/sensitivity/run.json", kRunRecord, &error)) {
       return "cannot write the parities folder: " + error;
     }
   }

@@ -77,6 +77,17 @@ std::string TestName(const ::testing::TestParamInfo<FuzzInput>& param_info) {
 
 INSTANTIATE_TEST_SUITE_P(Fuzz, FuzzRegression, ::testing::ValuesIn(AllInputs()), TestName);
 
+// A property that holds because every run fails early checks nothing: the
+// deflate seed must get through to the output.
+TEST(FuzzCorpus, DeflateSeedIsWrittenOut) {
+  const std::string dir = MakeWorkDir("deflate");
+  EXPECT_EQ(CheckDeflate(
+                testing::ReadTextFile(testing::SourcePath("fuzz/corpus/deflate/wages.csv")), dir),
+            "");
+  EXPECT_TRUE(fs::exists(dir + "/out_small.csv"));
+  RemoveWorkDir(dir);
+}
+
 TEST(FuzzCorpus, EveryHarnessHasSeeds) {
   for (const Harness& harness : Harnesses()) {
     EXPECT_FALSE(InputFiles("corpus", harness.name).empty()) << harness.name;
