@@ -21,6 +21,7 @@
 #include <system_error>
 
 #include "paritas/base/csv.h"
+#include "paritas/base/read_limits.h"
 #include "paritas/base/text.h"
 #include "paritas/survey/classification.h"
 #include "paritas/survey/config.h"
@@ -192,6 +193,37 @@ std::string CheckBlocks(std::string_view data, const Reading& whole) {
     }
     if (std::string difference = Difference(whole, blocked); !difference.empty()) {
       return "blocks of " + Str(block) + " bytes split by LastRecordEnd: " + difference;
+    }
+  }
+  return "";
+}
+
+// Reads the file through CsvBlockReader, as the survey loader and deflate
+// do, with blocks of 64 bytes (its smallest) and more. Blocks carry no byte
+// offsets, so records are compared without them.
+std::string CheckBlockReader(std::string_view data, const Reading& whole,
+                             const std::string& work_dir) {
+  const std::string path = work_dir + "/data.csv";
+  std::string error;
+  if (!WriteFileAtomically(path, data, &error)) return "cannot write the input: " + error;
+  Reading expected = whole;
+  for (Record& record : expected.records) record.offset = 0;
+  for (int64_t block_bytes : {64, 100, 4096}) {
+    CsvBlockReader reader(path, block_bytes, ReadLimits());
+    if (!reader.Open(&error)) return error;
+    Reading blocked;
+    CsvBlock block;
+    for (;;) {
+      error.clear();
+      if (!reader.Next(&block, &error)) {
+        blocked.error = error;
+        break;
+      }
+      if (!ReadInto(block.records, block.first_line, false, 0, &blocked)) break;
+    }
+    for (Record& record : blocked.records) record.offset = 0;
+    if (std::string difference = Difference(expected, blocked); !difference.empty()) {
+      return "CsvBlockReader with blocks of " + Str(block_bytes) + " bytes: " + difference;
     }
   }
   return "";
@@ -600,7 +632,7 @@ std::string RunDeflate(DeflateOptions options, const std::string& suffix, int64_
 
 }  // namespace
 
-std::string CheckCsvReader(std::string_view data, const std::string& /*work_dir*/) {
+std::string CheckCsvReader(std::string_view data, const std::string& work_dir) {
   Reading whole;
   ReadInto(data, 1, true, 0, &whole);
   for (const Record& record : whole.records) {
@@ -611,6 +643,9 @@ std::string CheckCsvReader(std::string_view data, const std::string& /*work_dir*
   }
   if (std::string problem = CheckSplit(data, whole); !problem.empty()) return problem;
   if (std::string problem = CheckBlocks(data, whole); !problem.empty()) return problem;
+  if (std::string problem = CheckBlockReader(data, whole, work_dir); !problem.empty()) {
+    return problem;
+  }
   if (std::string problem = CheckRoundTrip(whole); !problem.empty()) return problem;
   if (!whole.records.empty()) return CheckHeader(whole.records[0]);
   return "";

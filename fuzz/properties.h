@@ -20,7 +20,8 @@ namespace paritas::fuzz {
 // CSV reader (paritas/base/csv.h). The records and error of one CsvReader over
 // the whole buffer equal those read chunk by chunk after
 // SplitAtRecordBoundaries (several chunk counts) and those read block by block
-// with LastRecordEnd, as the streaming readers do (several block sizes);
+// with LastRecordEnd (several block sizes) and those CsvBlockReader hands out
+// from the file (blocks of 64 bytes and more);
 // writing the fields back with AppendCsvRecord and reading again gives the
 // same fields; CsvHeader finds each name at its first occurrence.
 std::string CheckCsvReader(std::string_view data, const std::string& work_dir);
