@@ -27,9 +27,9 @@ namespace paritas::fuzz {
 std::string CheckCsvReader(std::string_view data, const std::string& work_dir);
 
 // Number and flag parsing (paritas/base/text.h). A number that parses is
-// finite, reads back exactly from its shortest text and parses the same with
-// spaces around it; QuoteValue gives one line; EditDistance is symmetric and
-// at most the longer length.
+// finite, reads back as the same number from its shortest text (-0 is
+// written "0") and parses the same with spaces around it; QuoteValue gives
+// one line; EditDistance is symmetric and at most the longer length.
 std::string CheckText(std::string_view data, const std::string& work_dir);
 
 // Configuration (ParseRunConfig) and classification (Classification::FromYaml)
