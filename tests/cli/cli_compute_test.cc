@@ -180,6 +180,24 @@ TEST(ComputeCommand, UnknownMatrixNodeSuggestsTheNearest) {
   EXPECT_EQ(err, "paritas: error: matrices: node 'fod' is not in the classification; did you mean 'food'?\n");
 }
 
+// One list syntax everywhere: --matrices takes names separated by spaces
+// or commas, as --parts does.
+TEST(ComputeCommand, MatricesTakesACommaSeparatedList) {
+  const std::string dir = MakeTempDir("cli_matrix_list");
+  std::string out, err;
+  ASSERT_EQ(
+      RunCli("compute " + Demo() + " --no-report --matrices food,\" housing\" --output " + dir,
+             &out, &err),
+      0)
+      << err;
+  EXPECT_TRUE(fs::exists(dir + "/matrix/food.csv"));
+  EXPECT_TRUE(fs::exists(dir + "/matrix/housing.csv"));
+  EXPECT_FALSE(fs::exists(dir + "/matrix/clothing.csv"));
+  EXPECT_EQ(RunCli("compute " + Demo() + " --matrices food,,housing --output " + dir, &out, &err),
+            1);
+  EXPECT_EQ(err, "paritas: error: --matrices: an empty name in 'food,,housing'\n");
+}
+
 TEST(ComputeCommand, SkipWritesRejectedRowsAndReconciles) {
   const std::string dir = MakeTempDir("cli_skip");
   WriteTextFile(dir + "/prices.csv",

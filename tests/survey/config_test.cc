@@ -306,6 +306,36 @@ TEST(RunConfig, RefusesAClassificationFileBeyondTheYamlLimit) {
                          "classification into a file of its own");
 }
 
+TEST(RunConfig, ReadsMatricesAsACodeAListOrACommaSeparatedList) {
+  EXPECT_EQ(Parse(std::string(kSurvey) + "matrices: all\n").matrices,
+            std::vector<std::string>{"all"});
+  EXPECT_EQ(Parse(std::string(kSurvey) + "matrices: [food, all]\n").matrices,
+            (std::vector<std::string>{"food", "all"}));
+  EXPECT_EQ(Parse(std::string(kSurvey) + "matrices: food, housing\n").matrices,
+            (std::vector<std::string>{"food", "housing"}));
+  EXPECT_EQ(ParseError(std::string(kSurvey) + "matrices: food,,housing\n"),
+            "/cfg/run.yaml:4:11: matrices: an empty name in 'food,,housing'");
+}
+
+// "all" means every node only as the only value: the demo's root is also
+// called "all", and `--matrices all food` asks for those two nodes.
+TEST(MatricesMeanEveryNode, OnlyForALoneAll) {
+  EXPECT_TRUE(MatricesMeanEveryNode({"all"}));
+  EXPECT_TRUE(MatricesMeanEveryNode({"ALL"}));
+  EXPECT_FALSE(MatricesMeanEveryNode({"all", "food"}));
+  EXPECT_FALSE(MatricesMeanEveryNode({"food"}));
+  EXPECT_FALSE(MatricesMeanEveryNode({}));
+}
+
+TEST(SplitNameList, SplitsOnCommasTrimsAndRefusesEmptyNames) {
+  std::vector<std::string> names;
+  std::string error;
+  ASSERT_TRUE(SplitNameList({"food, housing", "all"}, &names, &error)) << error;
+  EXPECT_EQ(names, (std::vector<std::string>{"food", "housing", "all"}));
+  EXPECT_FALSE(SplitNameList({"food,"}, &names, &error));
+  EXPECT_EQ(error, "an empty name in 'food,'");
+}
+
 TEST(RunConfig, ReadsTheDemoConfiguration) {
   RunConfig config;
   std::string error;
