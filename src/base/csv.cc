@@ -170,7 +170,8 @@ bool CsvReader::WithinLimits(const char* record_begin, const char* field_begin,
   // Whichever limit is crossed at the earlier byte of the record is named.
   const size_t field_offset = static_cast<size_t>(field_begin - record_begin);
   if (field_bytes > max_field_bytes_ && field_offset + max_field_bytes_ <= max_record_bytes_) {
-    const std::string what = quoted ? "a quoted field (opened here) longer than " : "a field longer than ";
+    const std::string what =
+        quoted ? "a quoted field (opened here) longer than " : "a field longer than ";
     return Fail(field_line, field_number,
                 what + FormatByteSize(static_cast<int64_t>(max_field_bytes_)) + " " +
                     LimitAdvice("limits.max_field_bytes"),
@@ -403,8 +404,9 @@ void AppendCsvRecord(const std::vector<std::string_view>& fields, std::string* o
 
 namespace {
 
-// Reads into buffer[*size, *size + want) until it is full or the file ends;
-// sets *at_eof at the end. Returns the errno of a failed read, else 0.
+// Reads into buffer[0, want) until it is full or the file ends, setting
+// *num_read and, at the end, *at_eof. Returns the errno of a failed read,
+// else 0.
 int ReadFully(int fd, char* buffer, size_t want, size_t* num_read, bool* at_eof) {
   *num_read = 0;
   while (*num_read < want) {
@@ -459,8 +461,8 @@ bool ReadWholeFile(const std::string& path, int64_t max_bytes, std::string_view 
   }
   ::close(fd);
   if (num_bytes >= limit) {
-    SetError(error, path + ": file larger than " + FormatByteSize(max_bytes) + " " +
-                        std::string(advice));
+    SetError(error,
+             path + ": file larger than " + FormatByteSize(max_bytes) + " " + std::string(advice));
     return false;
   }
   buffer.resize(num_bytes);

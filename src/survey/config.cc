@@ -74,9 +74,8 @@ const std::vector<std::string> kTopKeys = {"survey",
                                            "threads",
                                            "limits"};
 const std::vector<std::string> kSurveyKeys = {"prices", "expenditure", "regions", "items"};
-const std::vector<std::string> kLimitKeys = {"max_file_bytes", "max_yaml_bytes",
-                                             "max_record_bytes", "max_field_bytes",
-                                             "max_yaml_depth"};
+const std::vector<std::string> kLimitKeys = {"max_file_bytes", "max_yaml_bytes", "max_record_bytes",
+                                             "max_field_bytes", "max_yaml_depth"};
 // The configuration file itself is read before its `limits:` are known.
 constexpr std::string_view kConfigFileAdvice =
     "(limits.max_yaml_bytes; the configuration file itself is read under the default); move a "

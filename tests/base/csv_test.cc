@@ -359,7 +359,8 @@ TEST(CsvReader, RefusesAFieldBeyondTheLimitNamingItsLineAndColumn) {
 
 TEST(CsvReader, RefusesARecordBeyondTheLimitAtItsFirstLine) {
   const ReadLimits limits = SmallLimits(100, 10);
-  const ReadResult exact = ReadAll("abcde,ghij\r\n", 1, true, 0, limits);  // 10 bytes, line end aside.
+  const ReadResult exact =
+      ReadAll("abcde,ghij\r\n", 1, true, 0, limits);  // 10 bytes, line end aside.
   EXPECT_EQ(exact.error, "");
   EXPECT_EQ(exact.records.size(), 1u);
   EXPECT_EQ(ReadAll("a,b\nabcde,\"g\nhijk\"\n", 1, true, 0, limits).error,
@@ -700,13 +701,15 @@ TEST(ReadWholeFile, StopsBeyondTheLimitWhateverTheFileIs) {
   ASSERT_TRUE(ReadWholeFile(path, 1024, LimitAdvice("limits.max_file_bytes"), &contents, &error));
   EXPECT_EQ(contents.size(), 1024u);
   EXPECT_FALSE(ReadWholeFile(path, 1023, LimitAdvice("limits.max_file_bytes"), &contents, &error));
-  EXPECT_EQ(error, path + ": file larger than 1023 bytes (limits.max_file_bytes); raise the limit "
-                          "if the file is right");
+  EXPECT_EQ(error, path +
+                       ": file larger than 1023 bytes (limits.max_file_bytes); raise the limit "
+                       "if the file is right");
   // A device reports size 0 and never ends.
-  EXPECT_FALSE(ReadWholeFile("/dev/zero", 1 << 20, LimitAdvice("limits.max_file_bytes"), &contents,
-                             &error));
-  EXPECT_EQ(error, "/dev/zero: file larger than 1 MiB (limits.max_file_bytes); raise the limit if "
-                   "the file is right");
+  EXPECT_FALSE(
+      ReadWholeFile("/dev/zero", 1 << 20, LimitAdvice("limits.max_file_bytes"), &contents, &error));
+  EXPECT_EQ(error,
+            "/dev/zero: file larger than 1 MiB (limits.max_file_bytes); raise the limit if "
+            "the file is right");
   EXPECT_EQ(contents, "");
 }
 
@@ -853,14 +856,16 @@ TEST(CsvBlockReader, ReadsAFifoFedInSmallPieces) {
 // the buffer, having read at most a block and the limit.
 TEST(CsvBlockReader, StopsAtTheLimitOnAFileWithoutLineEnds) {
   const BlockRead zeros = ReadInBlocks("/dev/zero", 1 << 16);
-  EXPECT_EQ(zeros.error, "/dev/zero:1:1: a field longer than 1 MiB (limits.max_field_bytes); raise "
-                         "the limit if the file is right");
+  EXPECT_EQ(zeros.error,
+            "/dev/zero:1:1: a field longer than 1 MiB (limits.max_field_bytes); raise "
+            "the limit if the file is right");
   EXPECT_LE(zeros.num_bytes_read, (16 << 20) + 2 * (1 << 16));
   const std::string path = MakeTempDir("csv_blocks_long") + "/prices.csv";
   WriteTextFile(path, "region,price\n" + std::string(300, ',') + "\n");
   const BlockRead commas = ReadInBlocks(path, 64, SmallLimits(10, 200));
-  EXPECT_EQ(commas.error, path + ":2: a record longer than 200 bytes (limits.max_record_bytes); "
-                                 "raise the limit if the file is right");
+  EXPECT_EQ(commas.error, path +
+                              ":2: a record longer than 200 bytes (limits.max_record_bytes); "
+                              "raise the limit if the file is right");
   EXPECT_EQ(ReadInBlocks(path, 1 << 16, SmallLimits(10, 200)).result.error,
             "2: a record longer than 200 bytes (limits.max_record_bytes); raise the limit if the "
             "file is right");

@@ -232,8 +232,8 @@ std::string DeepTree(int n) {
 // yaml-cpp stops at 500 levels with "bad file"; nesting is now refused at
 // the limit, before yaml-cpp recurses that deep, with a message saying so.
 TEST(RunConfig, RefusesNestingDeeperThanTheLimit) {
-  const std::string message = ParseError(std::string(kSurvey) + "matrices: " + std::string(600, '[') +
-                                         std::string(600, ']') + "\n");
+  const std::string message = ParseError(
+      std::string(kSurvey) + "matrices: " + std::string(600, '[') + std::string(600, ']') + "\n");
   EXPECT_EQ(message,
             "/cfg/run.yaml:4:74: nesting deeper than 64 levels (limits.max_yaml_depth; the "
             "configuration file itself is read under the default); move a deep classification into "
@@ -244,10 +244,12 @@ TEST(RunConfig, RefusesNestingDeeperThanTheLimit) {
   RunConfig config;
   std::string error;
   EXPECT_FALSE(LoadRunConfig(dir + "/run.yaml", &config, &error));
-  EXPECT_EQ(error, dir + "/tree.yaml:65:129: nesting deeper than 64 levels (limits.max_yaml_depth); "
-                         "raise the limit if the file is right");
-  WriteTextFile(dir + "/run.yaml", std::string(kSurvey) +
-                                       "classification: tree.yaml\nlimits:\n  max_yaml_depth: 100\n");
+  EXPECT_EQ(error, dir +
+                       "/tree.yaml:65:129: nesting deeper than 64 levels (limits.max_yaml_depth); "
+                       "raise the limit if the file is right");
+  WriteTextFile(
+      dir + "/run.yaml",
+      std::string(kSurvey) + "classification: tree.yaml\nlimits:\n  max_yaml_depth: 100\n");
   ASSERT_TRUE(LoadRunConfig(dir + "/run.yaml", &config, &error)) << error;
   EXPECT_EQ(config.classification.headings().size(), 1u);
   EXPECT_EQ(config.classification.nodes().back().depth, 70);
@@ -277,9 +279,10 @@ TEST(RunConfig, ReadsTheLimitsSection) {
   EXPECT_EQ(ParseError(std::string(kSurvey) + "limits:\n  max_yaml_depth: 1000\n"),
             "/cfg/run.yaml:5:19: limits.max_yaml_depth must be a whole number from 1 to 256, found "
             "'1000'");
-  EXPECT_EQ(ParseError(std::string(kSurvey) + "limits: 5\n"),
-            "/cfg/run.yaml:4:9: 'limits' must be a mapping with keys max_file_bytes, max_yaml_bytes, "
-            "max_record_bytes, max_field_bytes, max_yaml_depth");
+  EXPECT_EQ(
+      ParseError(std::string(kSurvey) + "limits: 5\n"),
+      "/cfg/run.yaml:4:9: 'limits' must be a mapping with keys max_file_bytes, max_yaml_bytes, "
+      "max_record_bytes, max_field_bytes, max_yaml_depth");
 }
 
 TEST(RunConfig, RefusesAClassificationFileBeyondTheYamlLimit) {
@@ -291,19 +294,23 @@ TEST(RunConfig, RefusesAClassificationFileBeyondTheYamlLimit) {
   RunConfig config;
   std::string error;
   EXPECT_FALSE(LoadRunConfig(dir + "/run.yaml", &config, &error));
-  EXPECT_EQ(error, dir + "/tree.yaml: file larger than 1 MiB (limits.max_yaml_bytes); raise the "
-                         "limit if the file is right");
-  WriteTextFile(dir + "/run.yaml", std::string(kSurvey) +
-                                       "limits:\n  max_yaml_bytes: 2 MiB\nclassification: tree.yaml\n");
+  EXPECT_EQ(error, dir +
+                       "/tree.yaml: file larger than 1 MiB (limits.max_yaml_bytes); raise the "
+                       "limit if the file is right");
+  WriteTextFile(
+      dir + "/run.yaml",
+      std::string(kSurvey) + "limits:\n  max_yaml_bytes: 2 MiB\nclassification: tree.yaml\n");
   ASSERT_TRUE(LoadRunConfig(dir + "/run.yaml", &config, &error)) << error;
   EXPECT_EQ(config.classification.headings().size(), 100000u);
   // The configuration file itself is read under the default.
   WriteTextFile(dir + "/run.yaml", std::string(kSurvey) + "classification:\n  " +
-                                       std::string(20, ' ') + "\n" + std::string(2 << 20, '#') + "\n");
+                                       std::string(20, ' ') + "\n" + std::string(2 << 20, '#') +
+                                       "\n");
   EXPECT_FALSE(LoadRunConfig(dir + "/run.yaml", &config, &error));
-  EXPECT_EQ(error, dir + "/run.yaml: file larger than 1 MiB (limits.max_yaml_bytes; the "
-                         "configuration file itself is read under the default); move a large "
-                         "classification into a file of its own");
+  EXPECT_EQ(error, dir +
+                       "/run.yaml: file larger than 1 MiB (limits.max_yaml_bytes; the "
+                       "configuration file itself is read under the default); move a large "
+                       "classification into a file of its own");
 }
 
 TEST(RunConfig, ReadsMatricesAsACodeAListOrACommaSeparatedList) {
