@@ -115,8 +115,8 @@ class ConfigParser {
       bool known = false;
       for (const auto& a : allowed) known = known || a == key;
       if (known) continue;
-      *error =
-          Where(kv.first) + "unknown key '" + (section.empty() ? "" : section + ".") + key + "'";
+      *error = Where(kv.first) + "unknown key " +
+               QuoteValue((section.empty() ? "" : section + ".") + key);
       const std::string nearest = NearestName(key, allowed);
       if (!nearest.empty()) {
         *error += "; did you mean '" + (section.empty() ? "" : section + ".") + nearest + "'?";

@@ -98,6 +98,15 @@ TEST(RunConfig, SuggestsTheNearestSurveyKeyForATypo) {
             "/cfg/run.yaml:2:3: unknown key 'survey.pricess'; did you mean 'survey.prices'?");
 }
 
+TEST(RunConfig, ShortensAHugeUnknownKey) {
+  // An explicit key ("? key"), since YAML's plain keys end at 1,024 bytes.
+  EXPECT_EQ(ParseError(std::string(kSurvey) + "? " + std::string(100000, 'k') + "\n: 1\n"),
+            "/cfg/run.yaml:4:3: unknown key '" + std::string(60, 'k') +
+                "...'; valid keys are: survey, classification, reference, elementary, aggregation, "
+                "invalid_rows, output, matrices, representative_weight, outlier_threshold, "
+                "robust_standard_errors, report, threads, limits");
+}
+
 TEST(RunConfig, ListsTheValidKeysWhenNoneIsClose) {
   // The list grows with new settings, so only its stable start is pinned.
   const std::string error = ParseError(std::string(kSurvey) + "colour: blue\n");
