@@ -13,6 +13,7 @@
 #include <random>
 #include <thread>
 
+#include "base/sha256.h"
 #include "test_util.h"
 
 namespace paritas {
@@ -768,6 +769,7 @@ TEST(LoadSurvey, ReadsPricesFromAPipe) {
   EXPECT_EQ(survey.num_quotes, 4);
   EXPECT_EQ(FileOf(summary, "prices").size_bytes,
             static_cast<int64_t>(std::string(kPrices).size()));
+  EXPECT_EQ(FileOf(summary, "prices").sha256, internal::Sha256Hex(kPrices));
 }
 
 TEST(LoadSurvey, ReadsAHeaderWithAMillionColumns) {
@@ -860,6 +862,7 @@ TEST(LoadSurvey, GivesTheSameCellsForSmallBlocksAsForOneBlock) {
   EXPECT_EQ(one_block.num_quotes, kNumLargeRows);
   ExpectSameCells(one_block, small_blocks);
   EXPECT_EQ(FileOf(whole, "prices").sha256, FileOf(blocked, "prices").sha256);
+  EXPECT_EQ(FileOf(whole, "prices").sha256, internal::Sha256Hex(LargePrices()));
   EXPECT_EQ(FileOf(whole, "prices").ignored_columns, std::vector<std::string>{"description"});
 }
 
