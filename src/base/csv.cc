@@ -15,6 +15,7 @@
 
 #include <algorithm>
 #include <array>
+#include <atomic>
 #include <cerrno>
 #include <cstdint>
 #include <cstring>
@@ -170,7 +171,8 @@ bool CsvReader::WithinLimits(const char* record_begin, const char* field_begin,
   // Whichever limit is crossed at the earlier byte of the record is named.
   const size_t field_offset = static_cast<size_t>(field_begin - record_begin);
   if (field_bytes > max_field_bytes_ && field_offset + max_field_bytes_ <= max_record_bytes_) {
-    const std::string what = quoted ? "a quoted field (opened here) longer than " : "a field longer than ";
+    const std::string what =
+        quoted ? "a quoted field (opened here) longer than " : "a field longer than ";
     return Fail(field_line, field_number,
                 what + FormatByteSize(static_cast<int64_t>(max_field_bytes_)) + " " +
                     LimitAdvice("limits.max_field_bytes"),
@@ -403,8 +405,9 @@ void AppendCsvRecord(const std::vector<std::string_view>& fields, std::string* o
 
 namespace {
 
-// Reads into buffer[*size, *size + want) until it is full or the file ends;
-// sets *at_eof at the end. Returns the errno of a failed read, else 0.
+// Reads into buffer[0, want) until it is full or the file ends, setting
+// *num_read and, at the end, *at_eof. Returns the errno of a failed read,
+// else 0.
 int ReadFully(int fd, char* buffer, size_t want, size_t* num_read, bool* at_eof) {
   *num_read = 0;
   while (*num_read < want) {
@@ -459,8 +462,8 @@ bool ReadWholeFile(const std::string& path, int64_t max_bytes, std::string_view 
   }
   ::close(fd);
   if (num_bytes >= limit) {
-    SetError(error, path + ": file larger than " + FormatByteSize(max_bytes) + " " +
-                        std::string(advice));
+    SetError(error,
+             path + ": file larger than " + FormatByteSize(max_bytes) + " " + std::string(advice));
     return false;
   }
   buffer.resize(num_bytes);
@@ -576,9 +579,28 @@ bool CsvBlockReader::Next(CsvBlock* block, std::string* error) {
   }
 }
 
+namespace {
+
+// Creates a temporary file beside `path` whose name no other write shares:
+// process id plus a per-process counter, created with O_EXCL so an existing
+// file of that name (another writer's, or a user's) is never truncated.
+int CreateUniqueTemporary(const std::string& path, std::string* temp_path) {
+  static std::atomic<uint64_t> counter{0};
+  for (int attempt = 0; attempt < 100; ++attempt) {
+    *temp_path = path + ".tmp." + std::to_string(::getpid()) + "." +
+                 std::to_string(counter.fetch_add(1, std::memory_order_relaxed));
+    const int fd = ::open(temp_path->c_str(), O_WRONLY | O_CREAT | O_EXCL | O_CLOEXEC, 0666);
+    if (fd >= 0 || errno != EEXIST) return fd;
+  }
+  errno = EEXIST;
+  return -1;
+}
+
+}  // namespace
+
 bool WriteFileAtomically(const std::string& path, std::string_view contents, std::string* error) {
-  const std::string temp_path = path + ".tmp." + std::to_string(::getpid());
-  const int fd = ::open(temp_path.c_str(), O_WRONLY | O_CREAT | O_TRUNC | O_CLOEXEC, 0666);
+  std::string temp_path;
+  const int fd = CreateUniqueTemporary(path, &temp_path);
   if (fd < 0) {
     SetError(error,
              path + ": cannot create temporary file '" + temp_path + "': " + ErrnoText(errno));

@@ -64,7 +64,7 @@ bool ParseByteSize(std::string_view text, int64_t* bytes) {
   if (!unit.empty()) {
     bool known = false;
     for (const Unit& candidate : kUnits) {
-      const std::string name = ToLower(candidate.name);  // "kib"
+      const std::string name = ToLower(candidate.name);        // "kib"
       const std::string short_name = name.substr(0, 1) + "b";  // "kb"
       if (unit == name || unit == short_name) {
         shift = candidate.shift;

@@ -30,7 +30,9 @@ bool IsBelowOne(std::string_view text) {
   if (e != std::string_view::npos) {
     std::string_view digits = text.substr(e + 1);
     const bool negative = !digits.empty() && digits.front() == '-';
-    if (!digits.empty() && (digits.front() == '-' || digits.front() == '+')) digits.remove_prefix(1);
+    if (!digits.empty() && (digits.front() == '-' || digits.front() == '+')) {
+      digits.remove_prefix(1);
+    }
     for (char c : digits) exponent = std::min<int64_t>(exponent * 10 + (c - '0'), int64_t{1} << 40);
     if (negative) exponent = -exponent;
   }

@@ -25,7 +25,9 @@ void AddComputeOverrides(CLI::App* command, paritas::cli::Overrides* overrides) 
   command->add_option("--aggregation", overrides->aggregation,
                       "aggregation method: " + JoinNames(paritas::AggregationMethodNames()));
   command->add_option("--matrices", overrides->matrices,
-                      "nodes whose matrices and bilateral tables are written, or 'all'");
+                      "nodes whose matrices and bilateral tables are written, separated by spaces "
+                      "or commas (food,housing); 'all' alone = every node, beside other names it "
+                      "is a node code");
   command->add_flag("--no-report", overrides->no_report, "do not write report.html");
 }
 
@@ -122,6 +124,13 @@ int main(int argc, char** argv) {
   } catch (const CLI::ParseError& e) {
     paritas::cli::PrintError(e.what());
     std::cerr << "run 'paritas --help' for usage\n";
+    return paritas::kExitInvalidInput;
+  }
+
+  // One list syntax everywhere: names separated by spaces or commas.
+  std::string list_error;
+  if (!paritas::SplitNameList(overrides.matrices, &overrides.matrices, &list_error)) {
+    paritas::cli::PrintError("--matrices: " + list_error);
     return paritas::kExitInvalidInput;
   }
 

@@ -91,12 +91,11 @@ bool ResolveMatrixNodes(const Classification& tree, const std::vector<std::strin
     nodes->push_back(0);
     return true;
   }
+  if (MatricesMeanEveryNode(codes)) {
+    for (int n = 0; n < static_cast<int>(tree.nodes().size()); ++n) nodes->push_back(n);
+    return true;
+  }
   for (const std::string& code : codes) {
-    if (ToLower(code) == "all") {
-      nodes->clear();
-      for (int n = 0; n < static_cast<int>(tree.nodes().size()); ++n) nodes->push_back(n);
-      return true;
-    }
     const int node = tree.FindNode(code);
     if (node < 0) {
       *error = "matrices: node '" + code + "' is not in the classification";

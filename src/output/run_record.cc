@@ -35,6 +35,11 @@ Json ConfigJson(const RunConfig& config) {
               {"robust_standard_errors", config.robust_standard_errors},
               {"report", config.report},
               {"threads", config.threads}};
+  out["limits"] = {{"max_file_bytes", config.limits.max_file_bytes},
+                   {"max_yaml_bytes", config.limits.max_yaml_bytes},
+                   {"max_record_bytes", config.limits.max_record_bytes},
+                   {"max_field_bytes", config.limits.max_field_bytes},
+                   {"max_yaml_depth", config.limits.max_yaml_depth}};
   return out;
 }
 

@@ -74,9 +74,8 @@ const std::vector<std::string> kTopKeys = {"survey",
                                            "threads",
                                            "limits"};
 const std::vector<std::string> kSurveyKeys = {"prices", "expenditure", "regions", "items"};
-const std::vector<std::string> kLimitKeys = {"max_file_bytes", "max_yaml_bytes",
-                                             "max_record_bytes", "max_field_bytes",
-                                             "max_yaml_depth"};
+const std::vector<std::string> kLimitKeys = {"max_file_bytes", "max_yaml_bytes", "max_record_bytes",
+                                             "max_field_bytes", "max_yaml_depth"};
 // The configuration file itself is read before its `limits:` are known.
 constexpr std::string_view kConfigFileAdvice =
     "(limits.max_yaml_bytes; the configuration file itself is read under the default); move a "
@@ -116,8 +115,8 @@ class ConfigParser {
       bool known = false;
       for (const auto& a : allowed) known = known || a == key;
       if (known) continue;
-      *error =
-          Where(kv.first) + "unknown key '" + (section.empty() ? "" : section + ".") + key + "'";
+      *error = Where(kv.first) + "unknown key " +
+               QuoteValue((section.empty() ? "" : section + ".") + key);
       const std::string nearest = NearestName(key, allowed);
       if (!nearest.empty()) {
         *error += "; did you mean '" + (section.empty() ? "" : section + ".") + nearest + "'?";
@@ -311,18 +310,23 @@ class ConfigParser {
     return true;
   }
 
+  // A code, codes separated by commas, or a YAML list of codes.
   bool ParseMatrices(const YAML::Node& node, std::string* error) {
-    config_->matrices.clear();
+    std::vector<std::string> values;
     if (node.IsScalar()) {
-      config_->matrices.push_back(node.Scalar());
+      values.push_back(node.Scalar());
     } else if (node.IsSequence()) {
       for (const auto& entry : node) {
         std::string code;
         if (!Scalar(entry, "matrices", &code, error)) return false;
-        config_->matrices.push_back(code);
+        values.push_back(code);
       }
     } else {
       *error = Where(node) + "'matrices' must be 'all', a node code, or a list of node codes";
+      return false;
+    }
+    if (!SplitNameList(values, &config_->matrices, error)) {
+      *error = Where(node) + "matrices: " + *error;
       return false;
     }
     return true;
@@ -471,6 +475,32 @@ bool FromString(const std::string& text, InvalidRowPolicy* policy) {
   return ValueOf(kPolicyNames, text, policy);
 }
 std::vector<std::string> InvalidRowPolicyNames() { return NamesOf(kPolicyNames); }
+
+bool MatricesMeanEveryNode(const std::vector<std::string>& matrices) {
+  return matrices.size() == 1 && ToLower(Trim(matrices[0])) == "all";
+}
+
+bool SplitNameList(const std::vector<std::string>& values, std::vector<std::string>* names,
+                   std::string* error) {
+  std::vector<std::string> result;
+  for (const std::string& value : values) {
+    size_t start = 0;
+    for (;;) {
+      const size_t comma = value.find(',', start);
+      const std::string_view name = Trim(std::string_view(value).substr(
+          start, comma == std::string::npos ? std::string::npos : comma - start));
+      if (name.empty()) {
+        *error = "an empty name in " + QuoteValue(value);
+        return false;
+      }
+      result.emplace_back(name);
+      if (comma == std::string::npos) break;
+      start = comma + 1;
+    }
+  }
+  *names = std::move(result);
+  return true;
+}
 
 bool RunConfig::IsValid(std::string* error) const {
   if (survey.prices.empty()) {

@@ -282,7 +282,8 @@ bool ReadExpenditure(const std::string& path, LoadState* state, Rejections* reje
     auto [it, inserted] = first_line.emplace(key, record.line);
     if (!inserted) {
       return {kRegion + 1, "duplicate row for region " + QuoteValue(region) + " and heading " +
-                     QuoteValue(heading) + " (first at line " + std::to_string(it->second) + ")"};
+                               QuoteValue(heading) + " (first at line " +
+                               std::to_string(it->second) + ")"};
     }
     state->spending.push_back({region_index, heading_index, value + 0.0});
     return {};

@@ -71,8 +71,8 @@ bool LoadYaml(const std::string& text, const std::string& source, int max_depth,
     *error = YamlWhere(source, e.mark) + "invalid YAML: " + e.msg;
     return false;
   } catch (const std::bad_alloc&) {
-    *error = source + ": out of memory while reading YAML (" + std::to_string(text.size()) +
-             " bytes)";
+    *error =
+        source + ": out of memory while reading YAML (" + std::to_string(text.size()) + " bytes)";
     return false;
   }
   return true;

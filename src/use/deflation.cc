@@ -54,6 +54,15 @@ std::string ErrnoText(int error_number) {
   return std::error_code(error_number, std::generic_category()).message();
 }
 
+// Lists header names for a message: a header of garbage can hold millions,
+// so only the first 20 are named.
+std::string ListedNames(const std::vector<std::string>& names) {
+  constexpr size_t kMaxListed = 20;
+  if (names.size() <= kMaxListed) return JoinNames(names);
+  return JoinNames(std::vector<std::string>(names.begin(), names.begin() + kMaxListed)) +
+         ", ... (" + std::to_string(names.size()) + " columns)";
+}
+
 std::string DidYouMean(std::string_view word, const std::vector<std::string>& candidates) {
   const std::string nearest = NearestName(word, candidates);
   return nearest.empty() ? "" : "; did you mean '" + nearest + "'?";
@@ -151,7 +160,7 @@ bool ReadTable(const std::string& path, const ReadLimits& limits,
     row.columns[k] = header.Find(wanted[k]) + 1;
     if (required[k] && row.columns[k] == 0) {
       *error = path + ":" + std::to_string(record.line) + ": missing column '" + wanted[k] +
-               "' (found: " + JoinNames(header.names()) + ")";
+               "' (found: " + ListedNames(header.names()) + ")";
       return false;
     }
   }
@@ -448,8 +457,8 @@ class Deflater {
     auto find = [&](const std::string& name, int* column) {
       *column = names.Find(name);
       if (*column < 0) {
-        *error = where + "missing column '" + name + "' (found: " + JoinNames(names.names()) + ")" +
-                 DidYouMean(name, names.names());
+        *error = where + "missing column '" + name + "' (found: " + ListedNames(names.names()) +
+                 ")" + DidYouMean(name, names.names());
         return false;
       }
       for (const std::string& duplicate : names.duplicates()) {

@@ -359,7 +359,8 @@ TEST(CsvReader, RefusesAFieldBeyondTheLimitNamingItsLineAndColumn) {
 
 TEST(CsvReader, RefusesARecordBeyondTheLimitAtItsFirstLine) {
   const ReadLimits limits = SmallLimits(100, 10);
-  const ReadResult exact = ReadAll("abcde,ghij\r\n", 1, true, 0, limits);  // 10 bytes, line end aside.
+  const ReadResult exact =
+      ReadAll("abcde,ghij\r\n", 1, true, 0, limits);  // 10 bytes, line end aside.
   EXPECT_EQ(exact.error, "");
   EXPECT_EQ(exact.records.size(), 1u);
   EXPECT_EQ(ReadAll("a,b\nabcde,\"g\nhijk\"\n", 1, true, 0, limits).error,
@@ -700,13 +701,15 @@ TEST(ReadWholeFile, StopsBeyondTheLimitWhateverTheFileIs) {
   ASSERT_TRUE(ReadWholeFile(path, 1024, LimitAdvice("limits.max_file_bytes"), &contents, &error));
   EXPECT_EQ(contents.size(), 1024u);
   EXPECT_FALSE(ReadWholeFile(path, 1023, LimitAdvice("limits.max_file_bytes"), &contents, &error));
-  EXPECT_EQ(error, path + ": file larger than 1023 bytes (limits.max_file_bytes); raise the limit "
-                          "if the file is right");
+  EXPECT_EQ(error, path +
+                       ": file larger than 1023 bytes (limits.max_file_bytes); raise the limit "
+                       "if the file is right");
   // A device reports size 0 and never ends.
-  EXPECT_FALSE(ReadWholeFile("/dev/zero", 1 << 20, LimitAdvice("limits.max_file_bytes"), &contents,
-                             &error));
-  EXPECT_EQ(error, "/dev/zero: file larger than 1 MiB (limits.max_file_bytes); raise the limit if "
-                   "the file is right");
+  EXPECT_FALSE(
+      ReadWholeFile("/dev/zero", 1 << 20, LimitAdvice("limits.max_file_bytes"), &contents, &error));
+  EXPECT_EQ(error,
+            "/dev/zero: file larger than 1 MiB (limits.max_file_bytes); raise the limit if "
+            "the file is right");
   EXPECT_EQ(contents, "");
 }
 
@@ -853,14 +856,16 @@ TEST(CsvBlockReader, ReadsAFifoFedInSmallPieces) {
 // the buffer, having read at most a block and the limit.
 TEST(CsvBlockReader, StopsAtTheLimitOnAFileWithoutLineEnds) {
   const BlockRead zeros = ReadInBlocks("/dev/zero", 1 << 16);
-  EXPECT_EQ(zeros.error, "/dev/zero:1:1: a field longer than 1 MiB (limits.max_field_bytes); raise "
-                         "the limit if the file is right");
+  EXPECT_EQ(zeros.error,
+            "/dev/zero:1:1: a field longer than 1 MiB (limits.max_field_bytes); raise "
+            "the limit if the file is right");
   EXPECT_LE(zeros.num_bytes_read, (16 << 20) + 2 * (1 << 16));
   const std::string path = MakeTempDir("csv_blocks_long") + "/prices.csv";
   WriteTextFile(path, "region,price\n" + std::string(300, ',') + "\n");
   const BlockRead commas = ReadInBlocks(path, 64, SmallLimits(10, 200));
-  EXPECT_EQ(commas.error, path + ":2: a record longer than 200 bytes (limits.max_record_bytes); "
-                                 "raise the limit if the file is right");
+  EXPECT_EQ(commas.error, path +
+                              ":2: a record longer than 200 bytes (limits.max_record_bytes); "
+                              "raise the limit if the file is right");
   EXPECT_EQ(ReadInBlocks(path, 1 << 16, SmallLimits(10, 200)).result.error,
             "2: a record longer than 200 bytes (limits.max_record_bytes); raise the limit if the "
             "file is right");
@@ -906,8 +911,23 @@ TEST(WriteFileAtomically, ReportsAMissingFolder) {
   const std::string path = MakeTempDir("csv_nofolder") + "/absent/out.csv";
   std::string error;
   EXPECT_FALSE(WriteFileAtomically(path, "x", &error));
-  EXPECT_EQ(error, path + ": cannot create temporary file '" + path + ".tmp." +
-                       std::to_string(::getpid()) + "': No such file or directory");
+  const std::string temp_prefix = path + ".tmp." + std::to_string(::getpid()) + ".";
+  ASSERT_EQ(error.rfind(path + ": cannot create temporary file '" + temp_prefix, 0), 0u) << error;
+  EXPECT_TRUE(error.ends_with("': No such file or directory")) << error;
+}
+
+// Two writes never share a temporary name, and a file already holding the
+// next name is not truncated: the name is created exclusively.
+TEST(WriteFileAtomically, TemporaryNamesAreUniqueAndNeverTruncateAFile) {
+  const std::string dir = MakeTempDir("csv_unique_temp");
+  const std::string path = dir + "/out.csv";
+  const std::string prefix = path + ".tmp." + std::to_string(::getpid()) + ".";
+  // Plant files under the next few names a counter could give.
+  for (int k = 0; k < 50; ++k) WriteTextFile(prefix + std::to_string(k), "keep");
+  std::string error;
+  ASSERT_TRUE(WriteFileAtomically(path, "new\n", &error)) << error;
+  EXPECT_EQ(ReadTextFile(path), "new\n");
+  for (int k = 0; k < 50; ++k) EXPECT_EQ(ReadTextFile(prefix + std::to_string(k)), "keep") << k;
 }
 
 TEST(WriteFileAtomically, RemovesTheTemporaryFileWhenTheRenameFails) {
@@ -917,10 +937,15 @@ TEST(WriteFileAtomically, RemovesTheTemporaryFileWhenTheRenameFails) {
   std::filesystem::create_directory(path);
   std::string error;
   EXPECT_FALSE(WriteFileAtomically(path, "x", &error));
-  const std::string temp_path = path + ".tmp." + std::to_string(::getpid());
-  EXPECT_EQ(error,
-            path + ": cannot rename temporary file '" + temp_path + "' into place: Is a directory");
-  EXPECT_FALSE(std::filesystem::exists(temp_path));
+  const std::string prefix = path + ": cannot rename temporary file '" + path + ".tmp." +
+                             std::to_string(::getpid()) + ".";
+  ASSERT_EQ(error.rfind(prefix, 0), 0u) << error;
+  ASSERT_TRUE(error.ends_with("' into place: Is a directory")) << error;
+  std::vector<std::string> entries;
+  for (const auto& entry : std::filesystem::directory_iterator(dir)) {
+    entries.push_back(entry.path().filename().string());
+  }
+  EXPECT_EQ(entries, (std::vector<std::string>{"taken"}));
   EXPECT_TRUE(std::filesystem::is_directory(path));
 }
 

@@ -51,19 +51,21 @@ TEST(ParseNumber, ReportsInfinityAndNanAsNonFinite) {
 // would round to zero (subnormal numbers are still read).
 TEST(ParseNumber, TellsOverflowFromUnderflow) {
   double value = 42.0;
-  for (const char* text : {"1e999", "-1e400", "1.8e308", "123456789e305", " +1e99999999999999999999 "}) {
+  for (const char* text :
+       {"1e999", "-1e400", "1.8e308", "123456789e305", " +1e99999999999999999999 "}) {
     EXPECT_EQ(ParseNumber(text, &value), NumberStatus::kOverflow) << text;
   }
-  for (const char* text : {"1e-400", "-1e-400", "2e-324", "0.00001e-320", "100e-327",
-                           "1e-99999999999999999999"}) {
+  for (const char* text :
+       {"1e-400", "-1e-400", "2e-324", "0.00001e-320", "100e-327", "1e-99999999999999999999"}) {
     EXPECT_EQ(ParseNumber(text, &value), NumberStatus::kUnderflow) << text;
   }
   EXPECT_EQ(value, 42.0);
   EXPECT_EQ(ParseNumber("4e-324", &value), NumberStatus::kOk);
   EXPECT_EQ(ParseNumber("0e-999", &value), NumberStatus::kOk);
   EXPECT_EQ(value, 0.0);
-  EXPECT_EQ(NumberProblem(NumberStatus::kUnderflow, "price", "1e-400"),
-            "price '1e-400' is outside the range of numbers (underflow: nearer to zero than 4.9e-324)");
+  EXPECT_EQ(
+      NumberProblem(NumberStatus::kUnderflow, "price", "1e-400"),
+      "price '1e-400' is outside the range of numbers (underflow: nearer to zero than 4.9e-324)");
   EXPECT_EQ(NumberProblem(NumberStatus::kOverflow, "price", "1e999"),
             "price '1e999' is outside the range of numbers (overflow: beyond 1.8e308)");
 }
@@ -180,13 +182,15 @@ TEST(EditDistance, StopsAtTheBoundGiven) {
   EXPECT_EQ(EditDistance("kitten", "sitting", 0), 1);
   EXPECT_EQ(EditDistance("abc", "", 1), 2);
   EXPECT_EQ(EditDistance("same", "same", 0), 0);
-  const std::vector<std::string> words = {"", "a", "ab", "ba", "abc", "acb", "bread", "beard",
+  const std::vector<std::string> words = {"",          "a",        "ab",         "ba",
+                                          "abc",       "acb",      "bread",      "beard",
                                           "reference", "refrence", "elementary", "ELEMENTRY"};
   for (const std::string& a : words) {
     for (const std::string& b : words) {
       const int full = EditDistance(a, b);
       for (int bound = 0; bound <= 12; ++bound) {
-        EXPECT_EQ(EditDistance(a, b, bound), std::min(full, bound + 1)) << a << " " << b << " " << bound;
+        EXPECT_EQ(EditDistance(a, b, bound), std::min(full, bound + 1))
+            << a << " " << b << " " << bound;
       }
     }
   }

@@ -107,6 +107,11 @@ TEST(ComputeCommand, RunRecordReconcilesRowsAndNamesEveryInput) {
   for (const char* stage : {"read", "cells", "elementary", "aggregation", "write"}) {
     EXPECT_TRUE(record["seconds"].contains(stage)) << stage;
   }
+  // The read limits in force are part of the run's settings.
+  const nlohmann::json& limits = record["configuration"]["limits"];
+  EXPECT_EQ(limits["max_file_bytes"].get<int64_t>(), int64_t{256} << 20);
+  EXPECT_EQ(limits["max_record_bytes"].get<int64_t>(), int64_t{16} << 20);
+  EXPECT_EQ(limits["max_yaml_depth"].get<int>(), 64);
 }
 
 TEST(ComputeCommand, ASecondRunIsByteIdenticalExceptForTimings) {
@@ -180,6 +185,39 @@ TEST(ComputeCommand, UnknownMatrixNodeSuggestsTheNearest) {
   std::string out, err;
   EXPECT_EQ(RunCli("compute " + Demo() + " --matrices fod --output " + MakeTempDir("cli_matrix"), &out, &err), 1);
   EXPECT_EQ(err, "paritas: error: matrices: node 'fod' is not in the classification; did you mean 'food'?\n");
+}
+
+// One list syntax everywhere: --matrices takes names separated by spaces
+// or commas, as --parts does.
+TEST(ComputeCommand, MatricesTakesACommaSeparatedList) {
+  const std::string dir = MakeTempDir("cli_matrix_list");
+  std::string out, err;
+  ASSERT_EQ(
+      RunCli("compute " + Demo() + " --no-report --matrices food,\" housing\" --output " + dir,
+             &out, &err),
+      0)
+      << err;
+  EXPECT_TRUE(fs::exists(dir + "/matrix/food.csv"));
+  EXPECT_TRUE(fs::exists(dir + "/matrix/housing.csv"));
+  EXPECT_FALSE(fs::exists(dir + "/matrix/clothing.csv"));
+  EXPECT_EQ(RunCli("compute " + Demo() + " --matrices food,,housing --output " + dir, &out, &err),
+            1);
+  EXPECT_EQ(err, "paritas: error: --matrices: an empty name in 'food,,housing'\n");
+}
+
+// 'all' is the keyword only as the only value; beside other names it is a
+// node code like any other (the demo's root is called 'all'), so only the
+// named nodes get matrices.
+TEST(ComputeCommand, MatricesAllBesideOtherNamesIsANodeCode) {
+  const std::string dir = MakeTempDir("cli_matrix_all");
+  std::string out, err;
+  ASSERT_EQ(RunCli("compute " + Demo() + " --no-report --matrices all,food --output " + dir, &out,
+                   &err),
+            0)
+      << err;
+  EXPECT_TRUE(fs::exists(dir + "/matrix/all.csv"));
+  EXPECT_TRUE(fs::exists(dir + "/matrix/food.csv"));
+  EXPECT_FALSE(fs::exists(dir + "/matrix/housing.csv"));
 }
 
 TEST(ComputeCommand, SkipWritesRejectedRowsAndReconciles) {

@@ -105,6 +105,19 @@ TEST(DeflateCommand, RefusesBadOptionsWithExitCodeOne) {
 }
 
 // The demo's wage records, both money columns, by the root parities.
+TEST(DeflateCommand, StopsAtTheRecordLimitOnDevZero) {
+  const std::string dir = MakeCase("cli_deflate_zero", "1,a,12000\n");
+  std::string out, err;
+  EXPECT_EQ(RunCli("deflate --parities " + dir + "/p --input /dev/zero --output " + dir +
+                       "/out.csv --value-column income",
+                   &out, &err),
+            1);
+  EXPECT_EQ(err,
+            "paritas: error: /dev/zero:1:1: a field longer than 1 MiB "
+            "(limits.max_field_bytes); raise the limit if the file is right\n");
+  EXPECT_FALSE(std::filesystem::exists(dir + "/out.csv"));
+}
+
 TEST(DeflateCommand, DeflatesTheDemoWages) {
   const std::string dir = MakeTempDir("cli_deflate_demo");
   std::string out, err;

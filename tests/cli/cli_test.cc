@@ -188,6 +188,35 @@ TEST(CliCheck, ReportsAFileCutMidQuote) {
             "paritas: error: " + dir + "/data/prices.csv:9:2: unterminated quoted field (opened here)\n");
 }
 
+// Devices and pipes as inputs: reading stops at the limits with exit code 1,
+// and the limits: section raises them.
+TEST(CliCheck, StopsAtTheLimitsOnDevicesAndPipes) {
+  const std::string dir = WriteSurvey("limits");
+  WriteTextFile(dir + "/zero.yaml",
+                "survey:\n  prices: /dev/zero\n  expenditure: data/expenditure.csv\n");
+  CliRun run = RunCli("check '" + dir + "/zero.yaml'", dir);
+  EXPECT_EQ(run.exit_code, 1);
+  EXPECT_EQ(run.err,
+            "paritas: error: /dev/zero:1:1: a field longer than 1 MiB (limits.max_field_bytes); "
+            "raise the limit if the file is right\n");
+  WriteTextFile(dir + "/small.yaml",
+                "survey:\n  prices: data/prices.csv\n  expenditure: data/expenditure.csv\n"
+                "limits:\n  max_record_bytes: 20\n");
+  run = RunCli("check '" + dir + "/small.yaml'", dir);
+  EXPECT_EQ(run.exit_code, 1);
+  EXPECT_EQ(run.err, "paritas: error: " + dir +
+                         "/data/prices.csv:1: a record longer than 20 bytes "
+                         "(limits.max_record_bytes); raise the limit if the file is right\n");
+  // prices.csv through a pipe (the shell's process substitution).
+  const std::string command =
+      "'" + std::string(PARITAS_CLI_PATH) + "' check '" + dir + "/pipe.yaml' >/dev/null 2>&1";
+  WriteTextFile(dir + "/pipe.yaml",
+                "survey:\n  prices: /dev/stdin\n  expenditure: data/expenditure.csv\n");
+  const std::string piped = "cat '" + dir + "/data/prices.csv' | " + command;
+  const int status = std::system(piped.c_str());
+  EXPECT_EQ(WIFEXITED(status) ? WEXITSTATUS(status) : -1, 0);
+}
+
 TEST(CliCompute, WritesRejectedCsvAndReconcilingRowCountsInRunJson) {
   const std::string dir = WriteSurvey("compute_skip", PricesWithBadRows(3), "invalid_rows: skip\n");
   const CliRun run = RunCli("compute '" + dir + "/run.yaml' --no-report --output '" + dir + "/out'", dir);

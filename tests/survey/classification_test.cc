@@ -137,13 +137,15 @@ TEST(Classification, ReportsInvalidYamlWithItsLine) {
 // refused at the limit instead, with the limit named.
 TEST(Classification, RefusesNestingDeeperThanTheLimit) {
   const std::string yaml = "all: " + std::string(600, '[') + std::string(600, ']') + "\n";
-  EXPECT_EQ(ParseError(yaml), "tree.yaml:1:69: nesting deeper than 64 levels "
-                              "(limits.max_yaml_depth); raise the limit if the file is right");
+  EXPECT_EQ(ParseError(yaml),
+            "tree.yaml:1:69: nesting deeper than 64 levels "
+            "(limits.max_yaml_depth); raise the limit if the file is right");
   Classification tree;
   std::string error;
   EXPECT_FALSE(Classification::FromYaml("all: [[[a]]]\n", "tree.yaml", &tree, &error, 3));
-  EXPECT_EQ(error, "tree.yaml:1:8: nesting deeper than 3 levels (limits.max_yaml_depth); raise the "
-                   "limit if the file is right");
+  EXPECT_EQ(error,
+            "tree.yaml:1:8: nesting deeper than 3 levels (limits.max_yaml_depth); raise the "
+            "limit if the file is right");
 }
 
 }  // namespace

@@ -98,6 +98,15 @@ TEST(RunConfig, SuggestsTheNearestSurveyKeyForATypo) {
             "/cfg/run.yaml:2:3: unknown key 'survey.pricess'; did you mean 'survey.prices'?");
 }
 
+TEST(RunConfig, ShortensAHugeUnknownKey) {
+  // An explicit key ("? key"), since YAML's plain keys end at 1,024 bytes.
+  EXPECT_EQ(ParseError(std::string(kSurvey) + "? " + std::string(100000, 'k') + "\n: 1\n"),
+            "/cfg/run.yaml:4:3: unknown key '" + std::string(60, 'k') +
+                "...'; valid keys are: survey, classification, reference, elementary, aggregation, "
+                "invalid_rows, output, matrices, representative_weight, outlier_threshold, "
+                "robust_standard_errors, report, threads, limits");
+}
+
 TEST(RunConfig, ListsTheValidKeysWhenNoneIsClose) {
   // The list grows with new settings, so only its stable start is pinned.
   const std::string error = ParseError(std::string(kSurvey) + "colour: blue\n");
@@ -232,8 +241,8 @@ std::string DeepTree(int n) {
 // yaml-cpp stops at 500 levels with "bad file"; nesting is now refused at
 // the limit, before yaml-cpp recurses that deep, with a message saying so.
 TEST(RunConfig, RefusesNestingDeeperThanTheLimit) {
-  const std::string message = ParseError(std::string(kSurvey) + "matrices: " + std::string(600, '[') +
-                                         std::string(600, ']') + "\n");
+  const std::string message = ParseError(
+      std::string(kSurvey) + "matrices: " + std::string(600, '[') + std::string(600, ']') + "\n");
   EXPECT_EQ(message,
             "/cfg/run.yaml:4:74: nesting deeper than 64 levels (limits.max_yaml_depth; the "
             "configuration file itself is read under the default); move a deep classification into "
@@ -244,10 +253,12 @@ TEST(RunConfig, RefusesNestingDeeperThanTheLimit) {
   RunConfig config;
   std::string error;
   EXPECT_FALSE(LoadRunConfig(dir + "/run.yaml", &config, &error));
-  EXPECT_EQ(error, dir + "/tree.yaml:65:129: nesting deeper than 64 levels (limits.max_yaml_depth); "
-                         "raise the limit if the file is right");
-  WriteTextFile(dir + "/run.yaml", std::string(kSurvey) +
-                                       "classification: tree.yaml\nlimits:\n  max_yaml_depth: 100\n");
+  EXPECT_EQ(error, dir +
+                       "/tree.yaml:65:129: nesting deeper than 64 levels (limits.max_yaml_depth); "
+                       "raise the limit if the file is right");
+  WriteTextFile(
+      dir + "/run.yaml",
+      std::string(kSurvey) + "classification: tree.yaml\nlimits:\n  max_yaml_depth: 100\n");
   ASSERT_TRUE(LoadRunConfig(dir + "/run.yaml", &config, &error)) << error;
   EXPECT_EQ(config.classification.headings().size(), 1u);
   EXPECT_EQ(config.classification.nodes().back().depth, 70);
@@ -277,9 +288,10 @@ TEST(RunConfig, ReadsTheLimitsSection) {
   EXPECT_EQ(ParseError(std::string(kSurvey) + "limits:\n  max_yaml_depth: 1000\n"),
             "/cfg/run.yaml:5:19: limits.max_yaml_depth must be a whole number from 1 to 256, found "
             "'1000'");
-  EXPECT_EQ(ParseError(std::string(kSurvey) + "limits: 5\n"),
-            "/cfg/run.yaml:4:9: 'limits' must be a mapping with keys max_file_bytes, max_yaml_bytes, "
-            "max_record_bytes, max_field_bytes, max_yaml_depth");
+  EXPECT_EQ(
+      ParseError(std::string(kSurvey) + "limits: 5\n"),
+      "/cfg/run.yaml:4:9: 'limits' must be a mapping with keys max_file_bytes, max_yaml_bytes, "
+      "max_record_bytes, max_field_bytes, max_yaml_depth");
 }
 
 TEST(RunConfig, RefusesAClassificationFileBeyondTheYamlLimit) {
@@ -291,19 +303,53 @@ TEST(RunConfig, RefusesAClassificationFileBeyondTheYamlLimit) {
   RunConfig config;
   std::string error;
   EXPECT_FALSE(LoadRunConfig(dir + "/run.yaml", &config, &error));
-  EXPECT_EQ(error, dir + "/tree.yaml: file larger than 1 MiB (limits.max_yaml_bytes); raise the "
-                         "limit if the file is right");
-  WriteTextFile(dir + "/run.yaml", std::string(kSurvey) +
-                                       "limits:\n  max_yaml_bytes: 2 MiB\nclassification: tree.yaml\n");
+  EXPECT_EQ(error, dir +
+                       "/tree.yaml: file larger than 1 MiB (limits.max_yaml_bytes); raise the "
+                       "limit if the file is right");
+  WriteTextFile(
+      dir + "/run.yaml",
+      std::string(kSurvey) + "limits:\n  max_yaml_bytes: 2 MiB\nclassification: tree.yaml\n");
   ASSERT_TRUE(LoadRunConfig(dir + "/run.yaml", &config, &error)) << error;
   EXPECT_EQ(config.classification.headings().size(), 100000u);
   // The configuration file itself is read under the default.
   WriteTextFile(dir + "/run.yaml", std::string(kSurvey) + "classification:\n  " +
-                                       std::string(20, ' ') + "\n" + std::string(2 << 20, '#') + "\n");
+                                       std::string(20, ' ') + "\n" + std::string(2 << 20, '#') +
+                                       "\n");
   EXPECT_FALSE(LoadRunConfig(dir + "/run.yaml", &config, &error));
-  EXPECT_EQ(error, dir + "/run.yaml: file larger than 1 MiB (limits.max_yaml_bytes; the "
-                         "configuration file itself is read under the default); move a large "
-                         "classification into a file of its own");
+  EXPECT_EQ(error, dir +
+                       "/run.yaml: file larger than 1 MiB (limits.max_yaml_bytes; the "
+                       "configuration file itself is read under the default); move a large "
+                       "classification into a file of its own");
+}
+
+TEST(RunConfig, ReadsMatricesAsACodeAListOrACommaSeparatedList) {
+  EXPECT_EQ(Parse(std::string(kSurvey) + "matrices: all\n").matrices,
+            std::vector<std::string>{"all"});
+  EXPECT_EQ(Parse(std::string(kSurvey) + "matrices: [food, all]\n").matrices,
+            (std::vector<std::string>{"food", "all"}));
+  EXPECT_EQ(Parse(std::string(kSurvey) + "matrices: food, housing\n").matrices,
+            (std::vector<std::string>{"food", "housing"}));
+  EXPECT_EQ(ParseError(std::string(kSurvey) + "matrices: food,,housing\n"),
+            "/cfg/run.yaml:4:11: matrices: an empty name in 'food,,housing'");
+}
+
+// "all" means every node only as the only value: the demo's root is also
+// called "all", and `--matrices all food` asks for those two nodes.
+TEST(MatricesMeanEveryNode, OnlyForALoneAll) {
+  EXPECT_TRUE(MatricesMeanEveryNode({"all"}));
+  EXPECT_TRUE(MatricesMeanEveryNode({"ALL"}));
+  EXPECT_FALSE(MatricesMeanEveryNode({"all", "food"}));
+  EXPECT_FALSE(MatricesMeanEveryNode({"food"}));
+  EXPECT_FALSE(MatricesMeanEveryNode({}));
+}
+
+TEST(SplitNameList, SplitsOnCommasTrimsAndRefusesEmptyNames) {
+  std::vector<std::string> names;
+  std::string error;
+  ASSERT_TRUE(SplitNameList({"food, housing", "all"}, &names, &error)) << error;
+  EXPECT_EQ(names, (std::vector<std::string>{"food", "housing", "all"}));
+  EXPECT_FALSE(SplitNameList({"food,"}, &names, &error));
+  EXPECT_EQ(error, "an empty name in 'food,'");
 }
 
 TEST(RunConfig, ReadsTheDemoConfiguration) {

@@ -13,6 +13,7 @@
 #include <random>
 #include <thread>
 
+#include "base/sha256.h"
 #include "test_util.h"
 
 namespace paritas {
@@ -328,17 +329,21 @@ TEST(LoadSurvey, RejectsANonFinitePrice) {
 // 1e-400 is finite but beyond what a double holds: it used to be called
 // "not a finite number".
 TEST(LoadSurvey, RejectsANumberOutsideTheRangeOfNumbers) {
-  const SurveyDir tiny = MakeSurvey("tiny_price", std::string(kPrices) + "south,eggs,1e-400,food\n");
-  EXPECT_EQ(FirstRejection(tiny), tiny.prices() + ":6:3: price '1e-400' is outside the range of "
-                                                   "numbers (underflow: nearer to zero than 4.9e-324)");
+  const SurveyDir tiny =
+      MakeSurvey("tiny_price", std::string(kPrices) + "south,eggs,1e-400,food\n");
+  EXPECT_EQ(FirstRejection(tiny), tiny.prices() +
+                                      ":6:3: price '1e-400' is outside the range of "
+                                      "numbers (underflow: nearer to zero than 4.9e-324)");
   const SurveyDir huge = MakeSurvey("huge_price", std::string(kPrices) + "south,eggs,1e999,food\n");
-  EXPECT_EQ(FirstRejection(huge), huge.prices() + ":6:3: price '1e999' is outside the range of "
-                                                   "numbers (overflow: beyond 1.8e308)");
+  EXPECT_EQ(FirstRejection(huge), huge.prices() +
+                                      ":6:3: price '1e999' is outside the range of "
+                                      "numbers (overflow: beyond 1.8e308)");
   const SurveyDir expenditure =
       MakeSurvey("tiny_expenditure", kPrices, std::string(kExpenditure) + "east,food,-0.1e-999\n");
   EXPECT_EQ(FirstRejection(expenditure),
-            expenditure.expenditure() + ":4:3: expenditure '-0.1e-999' is outside the range of "
-                                        "numbers (underflow: nearer to zero than 4.9e-324)");
+            expenditure.expenditure() +
+                ":4:3: expenditure '-0.1e-999' is outside the range of "
+                "numbers (underflow: nearer to zero than 4.9e-324)");
 }
 
 TEST(LoadSurvey, RejectsABadRepresentativeFlag) {
@@ -376,11 +381,13 @@ TEST(LoadSurvey, RejectsARowWithTheWrongNumberOfFields) {
   EXPECT_EQ(FirstRejection(files), files.prices() + ":6:4: row has 3 fields, the header has 4");
   const SurveyDir one = MakeSurvey("field_count_one", std::string(kPrices) + "south\n");
   EXPECT_EQ(FirstRejection(one), one.prices() + ":6:2: row has 1 field, the header has 4");
-  const SurveyDir many = MakeSurvey("field_count_many", std::string(kPrices) + "south,eggs,1,food,x,y\n");
+  const SurveyDir many =
+      MakeSurvey("field_count_many", std::string(kPrices) + "south,eggs,1,food,x,y\n");
   EXPECT_EQ(FirstRejection(many), many.prices() + ":6:5: row has 6 fields, the header has 4");
   const SurveyDir regions = MakeSurvey("field_count_regions", kPrices, kExpenditure, std::nullopt,
                                        "region,name\nnorth,North,extra\nsouth,South\n");
-  EXPECT_EQ(FirstRejection(regions), regions.regions() + ":2:3: row has 3 fields, the header has 2");
+  EXPECT_EQ(FirstRejection(regions),
+            regions.regions() + ":2:3: row has 3 fields, the header has 2");
 }
 
 TEST(LoadSurvey, RejectsANegativeOrBadExpenditure) {
@@ -404,7 +411,8 @@ TEST(LoadSurvey, RejectsDuplicatedExpenditureRows) {
   const SurveyDir files = MakeSurvey("duplicate_expenditure", kPrices,
                                         std::string(kExpenditure) + "north, food ,50\n");
   EXPECT_EQ(FirstRejection(files),
-            files.expenditure() + ":4:1: duplicate row for region 'north' and heading 'food' (first at line 2)");
+            files.expenditure() +
+                ":4:1: duplicate row for region 'north' and heading 'food' (first at line 2)");
 }
 
 TEST(LoadSurvey, RejectsAnItemFiledUnderTwoHeadingsInItemsCsv) {
@@ -602,8 +610,9 @@ TEST(LoadSurvey, ReadsAHeaderLongerThanABlockAfterABlankLine) {
   std::string header = "region,item,price,heading";
   for (int c = 0; c < 10000; ++c) header += ",column" + std::to_string(c);
   const std::string commas(10000, ',');
-  const SurveyDir files = MakeSurvey("blank_long_header", "\n" + header + "\nnorth,bread,2,food" +
-                                                              commas + "\nsouth,bread,3,food" + commas + "\n");
+  const SurveyDir files =
+      MakeSurvey("blank_long_header", "\n" + header + "\nnorth,bread,2,food" + commas +
+                                          "\nsouth,bread,3,food" + commas + "\n");
   Survey survey;
   LoadOptions options;
   options.block_bytes = 1 << 16;  // The header is about 120 KiB.
@@ -760,6 +769,7 @@ TEST(LoadSurvey, ReadsPricesFromAPipe) {
   EXPECT_EQ(survey.num_quotes, 4);
   EXPECT_EQ(FileOf(summary, "prices").size_bytes,
             static_cast<int64_t>(std::string(kPrices).size()));
+  EXPECT_EQ(FileOf(summary, "prices").sha256, internal::Sha256Hex(kPrices));
 }
 
 TEST(LoadSurvey, ReadsAHeaderWithAMillionColumns) {
@@ -781,7 +791,8 @@ TEST(LoadSurvey, ReadsAHeaderWithAMillionColumns) {
   EXPECT_EQ(FileOf(summary, "prices").ignored_columns.size(), static_cast<size_t>(kNumColumns - 4));
   EXPECT_EQ(FileOf(summary, "prices").rows_used, 2);
   ASSERT_EQ(summary.rejected_rows.size(), 1u);
-  EXPECT_EQ(summary.rejected_rows[0].reason, files.prices() + ":4:5: row has 4 fields, the header has 1000000");
+  EXPECT_EQ(summary.rejected_rows[0].reason,
+            files.prices() + ":4:5: row has 4 fields, the header has 1000000");
   std::filesystem::remove_all(files.dir);
 }
 
@@ -851,6 +862,7 @@ TEST(LoadSurvey, GivesTheSameCellsForSmallBlocksAsForOneBlock) {
   EXPECT_EQ(one_block.num_quotes, kNumLargeRows);
   ExpectSameCells(one_block, small_blocks);
   EXPECT_EQ(FileOf(whole, "prices").sha256, FileOf(blocked, "prices").sha256);
+  EXPECT_EQ(FileOf(whole, "prices").sha256, internal::Sha256Hex(LargePrices()));
   EXPECT_EQ(FileOf(whole, "prices").ignored_columns, std::vector<std::string>{"description"});
 }
 

@@ -390,6 +390,14 @@ TEST(Deflate, ExplainsHeaderProblems) {
             options.input_path +
                 ":1: column 'income_real' already exists; rename it or choose other value "
                 "columns");
+  std::string many = "region";
+  for (int c = 0; c < 100000; ++c) many += ",c" + std::to_string(c);
+  WriteTextFile(options.input_path, many + "\n");
+  EXPECT_FALSE(Deflate(options, &summary));
+  EXPECT_EQ(summary.message, options.input_path +
+                                 ":1: missing column 'income' (found: region, c0, c1, c2, c3, c4, "
+                                 "c5, c6, c7, c8, c9, c10, c11, c12, c13, c14, c15, c16, c17, c18, "
+                                 "... (100001 columns))");
   WriteTextFile(options.input_path, "");
   EXPECT_FALSE(Deflate(options, &summary));
   EXPECT_EQ(

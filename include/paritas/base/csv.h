@@ -183,9 +183,9 @@ class CsvBlockReader {
   ReadLimits limits_;
   int fd_ = -1;
   std::string buffer_;
-  size_t size_ = 0;      // bytes of buffer_ holding file data
-  size_t consumed_ = 0;  // bytes at the front handed out by the last call
-  int64_t line_ = 1;     // line number of buffer_[consumed_]
+  size_t size_ = 0;       // bytes of buffer_ holding file data
+  size_t consumed_ = 0;   // bytes at the front handed out by the last call
+  int64_t line_ = 1;      // line number of buffer_[consumed_]
   bool started_ = false;  // the first record has been found
   bool at_eof_ = false;
   bool done_ = false;

@@ -71,7 +71,8 @@ struct RunConfig {
   // Output folder; default "out" beside the configuration.
   std::string output = "out";
   // Nodes whose matrices and bilateral tables are written: empty = the root
-  // only; {"all"} = every node.
+  // only; {"all"} (the only value) = every node. With other names beside it,
+  // "all" is a node code like any other (the default root is called "all").
   std::vector<std::string> matrices;
   // CPD weight of a representative cell relative to 1 for the others. 1 =
   // unweighted (default); 3 is common practice in international comparisons.
@@ -96,6 +97,17 @@ struct RunConfig {
 
   bool IsValid(std::string* error) const;
 };
+
+// Returns true when a `matrices` setting asks for every node: the single
+// value "all" (any case). Beside other names "all" is a node code.
+bool MatricesMeanEveryNode(const std::vector<std::string>& matrices);
+
+// Splits each value on commas into `names`, trimming spaces: {"food,
+// housing", "all"} gives {"food", "housing", "all"}, the one list syntax of
+// the configuration and the command line. Returns false with "an empty name
+// in 'food,,housing'" when a name is empty.
+bool SplitNameList(const std::vector<std::string>& values, std::vector<std::string>* names,
+                   std::string* error);
 
 // Reads a run configuration. Paths inside are resolved against the folder of
 // `path`. Returns false with a message naming file, line and key on any
