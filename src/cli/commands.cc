@@ -53,6 +53,7 @@ bool LoadConfigWithOverrides(const std::string& path, const Overrides& overrides
   if (overrides.threads) config->threads = *overrides.threads;
   if (!overrides.matrices.empty()) config->matrices = overrides.matrices;
   if (overrides.no_report) config->report = false;
+  if (overrides.strict) config->strict = true;
   if (!config->IsValid(&error)) {
     PrintError(error);
     return false;
@@ -84,7 +85,7 @@ int RunComputeCommand(const std::string& config_path, const Overrides& overrides
   if (!LoadConfigWithOverrides(config_path, overrides, &config)) return kExitInvalidInput;
   ComputeJobSummary summary;
   const int code = RunCompute(config, &summary);
-  if (code != kExitOk) {
+  if (code != kExitOk && code != kExitStrictWarnings) {
     if (summary.load.outcome != LoadOutcome::kOk) {
       PrintLoadFailure(summary.load);
     } else {
@@ -94,6 +95,9 @@ int RunComputeCommand(const std::string& config_path, const Overrides& overrides
   }
   PrintOut(summary.FullReport());
   PrintOut("\nwrote " + std::to_string(summary.outputs.size()) + " files to " + config.output + "\n");
+  // Last, on standard error, where a pipeline's log keeps them apart.
+  PrintErr("\n" + WarningsText(summary.warnings));
+  if (code == kExitStrictWarnings) PrintError(summary.message);
   return code;
 }
 

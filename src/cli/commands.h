@@ -25,6 +25,7 @@ struct Overrides {
   std::optional<int> threads;
   std::vector<std::string> matrices;
   bool no_report = false;
+  bool strict = false;
 };
 
 int RunCheckCommand(const std::string& config_path, const Overrides& overrides);

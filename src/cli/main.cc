@@ -29,6 +29,9 @@ void AddComputeOverrides(CLI::App* command, paritas::cli::Overrides* overrides) 
                       "or commas (food,housing); 'all' alone = every node, beside other names it "
                       "is a node code");
   command->add_flag("--no-report", overrides->no_report, "do not write report.html");
+  command->add_flag("--strict", overrides->strict,
+                    "exit with code 3, after writing everything, when the run raised a warning "
+                    "(overrides 'strict')");
 }
 
 void AddDeflateOptions(CLI::App* command, paritas::DeflateOptions* options,
@@ -103,6 +106,9 @@ int main(int argc, char** argv) {
                           "elementary method: " + JoinNames(paritas::ElementaryMethodNames()));
   sensitivity->add_option("--aggregation", overrides.aggregation,
                           "aggregation method: " + JoinNames(paritas::AggregationMethodNames()));
+  sensitivity->add_flag("--strict", overrides.strict,
+                        "exit with code 3, after writing everything, when the run raised a "
+                        "warning (overrides 'strict')");
   sensitivity->add_option("--replicates", sensitivity_arguments.replicates, "bootstrap replicates (default 500)");
   sensitivity->add_option("--seed", sensitivity_arguments.seed, "seed of the resampling (default 1)");
   sensitivity->add_option("--level", sensitivity_arguments.level, "interval level in % (default 95)");

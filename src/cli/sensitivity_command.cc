@@ -142,7 +142,7 @@ int RunSensitivityCommand(const std::string& config_path, const Overrides& overr
   SensitivityJobSummary summary;
   const int code = RunSensitivityJob(config, options, &summary);
   bar.Clear();
-  if (code != kExitOk) {
+  if (code != kExitOk && code != kExitStrictWarnings) {
     if (summary.load.outcome != LoadOutcome::kOk && !summary.load.rejected_rows.empty()) {
       PrintErr(DescribeRejectedRows(summary.load));
     }
@@ -152,7 +152,9 @@ int RunSensitivityCommand(const std::string& config_path, const Overrides& overr
   PrintOut(summary.FullReport(options));
   PrintOut("\nwrote " + std::to_string(summary.outputs.size()) + " files to " + config.output +
            " (sensitivity/ and report.html)\n");
-  return kExitOk;
+  PrintErr("\n" + WarningsText(summary.warnings));
+  if (code == kExitStrictWarnings) PrintError(summary.message);
+  return code;
 }
 
 }  // namespace paritas::cli

@@ -106,8 +106,7 @@ ComputeOptions ComputeOptions::FromConfig(const RunConfig& config) {
 std::string ComputeSummary::BriefReport() const {
   return "parities for " + std::to_string(num_headings_used) + " of " +
          std::to_string(num_headings_given) + " basic headings and " +
-         std::to_string(num_aggregates) + " aggregates; " + std::to_string(warnings.size()) +
-         " warning" + (warnings.size() == 1 ? "" : "s");
+         std::to_string(num_aggregates) + " aggregates";
 }
 
 Eigen::VectorXd NodeExpenditure(const Survey& survey, int node) {

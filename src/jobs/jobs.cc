@@ -258,8 +258,8 @@ void AddMatrixFiles(const Survey& survey, const ParityResult& result,
   }
 }
 
-// The run record of a successful compute.
-// The run record, with the digest of every file written before it.
+// The run record of a successful compute, with the digest of every file
+// written before it.
 std::string ComputeRunJson(const RunConfig& config, const ComputeJobSummary& summary,
                            const std::vector<OutputFile>& files) {
   RunRecord record;
@@ -270,10 +270,11 @@ std::string ComputeRunJson(const RunConfig& config, const ComputeJobSummary& sum
   record.load = &summary.load;
   record.survey = &summary.survey;
   record.compute = &summary.compute;
-  record.outcome = "ok";
-  record.message = summary.compute.BriefReport();
-  record.exit_code = kExitOk;
-  record.warnings = summary.warnings;
+  record.outcome = summary.exit_code == kExitOk ? "ok" : "warnings under strict mode";
+  record.message = summary.exit_code == kExitOk ? summary.compute.BriefReport() : summary.message;
+  record.exit_code = summary.exit_code;
+  for (const RunWarning& w : summary.warnings) record.warnings.push_back(w.text);
+  record.warning_counts = CountWarnings(summary.warnings);
   record.outputs = summary.outputs;
   record.stages = summary.stages;
   return RunRecordJson(record);
@@ -312,22 +313,22 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
   }
   summary->stages.push_back({"elementary", summary->compute.elementary_seconds});
   summary->stages.push_back({"aggregation", summary->compute.aggregation_seconds});
-  summary->warnings = summary->compute.warnings;
-  if (summary->load.num_rows_rejected > 0) {
-    summary->warnings.insert(summary->warnings.begin(),
-                             FormatCount(summary->load.num_rows_rejected) +
-                                 " invalid rows left out (listed in rejected.csv)");
-  }
-
-  // Outputs, written whole or not at all.
-  const auto write_start = std::chrono::steady_clock::now();
   const ParityResult& result = summary->result;
-  std::vector<OutputFile> files;
-  files.push_back({"parities.csv", ParitiesCsv(survey, result)});
-  AddMatrixFiles(survey, result, matrix_nodes, &files);
   OutlierOptions outlier_options;
   outlier_options.threshold = config.outlier_threshold;
   summary->outliers = FindOutliers(survey, result, outlier_options);
+  summary->plausibility = CheckPlausibility(survey, result, config);
+  summary->num_gross_outliers =
+      AddGrossOutlierWarnings(survey, summary->outliers, config.checks, &summary->plausibility);
+  summary->warnings =
+      CollectWarnings(summary->load, summary->compute.warnings, summary->plausibility);
+
+  // Outputs, written whole or not at all.
+  const auto write_start = std::chrono::steady_clock::now();
+  std::vector<OutputFile> files;
+  files.push_back({"parities.csv", ParitiesCsv(survey, result, &summary->plausibility)});
+  files.push_back({"warnings.csv", WarningsCsv(summary->warnings)});
+  AddMatrixFiles(survey, result, matrix_nodes, &files);
   files.push_back({"outliers.csv", OutliersCsv(survey, summary->outliers)});
   files.push_back({"dispersion.csv", DispersionCsv(survey, summary->outliers)});
   if (config.invalid_rows == InvalidRowPolicy::kSkip) {
@@ -343,24 +344,31 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
     report.result = &result;
     report.compute = &summary->compute;
     report.warnings = summary->warnings;
+    report.plausibility = &summary->plausibility;
     files.push_back({"report.html", ReportHtml(report)});
   }
   for (const OutputFile& file : files) summary->outputs.push_back(file.relative_path);
   summary->outputs.push_back("run.json");
   summary->stages.push_back({"write", SecondsSince(write_start)});
 
+  // The exit code is settled before run.json, which records it.
+  const bool strict_fails =
+      config.strict && (!summary->warnings.empty() || summary->num_gross_outliers > 0);
+  summary->exit_code = strict_fails ? kExitStrictWarnings : kExitOk;
+  summary->message = strict_fails ? StrictModeMessage(summary->warnings) : "ok";
   summary->run_id = NewRunId();
   files.push_back({"run.json", ComputeRunJson(config, *summary, files)});
   RunFolderSummary written;
   if (!WriteRunFolder(config.output, files, &written, &error)) return fail(kExitInvalidInput, error);
-  summary->exit_code = kExitOk;
-  summary->message = "ok";
-  return kExitOk;
+  return summary->exit_code;
 }
 
 std::string ComputeJobSummary::FullReport() const {
   std::string out = SurveyCounts(survey);
-  out += compute.BriefReport() + "\n";
+  out += compute.BriefReport() + "; " + FormatCount(static_cast<int64_t>(warnings.size())) +
+         (warnings.size() == 1 ? " warning" : " warnings") +
+         (warnings.empty() ? "" : " (listed at the end, on standard error, and in warnings.csv)") +
+         "\n";
   if (result.nodes.empty()) return out;
   const std::string& root = survey.classification.nodes().front().code;
   out += "\nparities for '" + root + "' (" + result.nodes.front().reference_used + " = 100), dearest first:\n";
@@ -377,10 +385,6 @@ std::string ComputeJobSummary::FullReport() const {
            " quotes far from the fit (listed in outliers.csv); the worst: " + survey.heading_codes[worst.heading] +
            ", " + std::string(survey.regions.Code(worst.region)) + ", " + std::string(survey.items.Code(worst.item)) +
            " at " + FormatFixed(worst.observed / worst.predicted, 3) + " times the predicted price\n";
-  }
-  if (!warnings.empty()) {
-    out += "\nwarnings:\n";
-    for (const std::string& warning : warnings) out += "  " + warning + "\n";
   }
   out += "\nParities are survey estimates: they carry sampling error, depend on how comparable the "
          "items priced are across regions and on the index formula. Official figures come from the "

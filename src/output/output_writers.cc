@@ -94,7 +94,8 @@ std::string NodeFileName(const std::string& code) {
   return name.substr(0, kMaxNodeFileNameBytes - 66) + "%~" + internal::Sha256Hex(code);
 }
 
-std::string ParitiesCsv(const Survey& survey, const ParityResult& result) {
+std::string ParitiesCsv(const Survey& survey, const ParityResult& result,
+                        const PlausibilityResult* plausibility) {
   const int num_regions = survey.num_regions();
   const int64_t num_rows = static_cast<int64_t>(result.nodes.size()) * num_regions;
   const auto& tree = survey.classification.nodes();
@@ -127,10 +128,17 @@ std::string ParitiesCsv(const Survey& survey, const ParityResult& result) {
         AppendInt(node.num_quotes(r), out);
         *out += ',';
         AppendInt(node.num_headings(r), out);
+        if (plausibility != nullptr) {
+          *out += ',';
+          AppendShortest(plausibility->basket_share(node.node, r), out);
+          *out += ',';
+          AppendCsvField(plausibility->node_region_kinds[node.node][r], out);
+        }
         *out += '\n';
       },
-      "node,kind,region,parity,expenditure,real_expenditure,real_per_capita_index,log_se,"
-      "log_se_robust,rank,num_items,num_quotes,num_headings\n");
+      std::string("node,kind,region,parity,expenditure,real_expenditure,real_per_capita_index,"
+                  "log_se,log_se_robust,rank,num_items,num_quotes,num_headings") +
+          (plausibility != nullptr ? ",basket_share,warnings\n" : "\n"));
 }
 
 std::string ParityMatrixCsv(const Survey& survey, const NodeResult& node) {

@@ -184,6 +184,26 @@ std::vector<int> EveryKth(const std::vector<int>& order, int max_count) {
   return out;
 }
 
+std::string WarningKindsOf(const Context& ctx, int node, int region) {
+  const PlausibilityResult* p = ctx.in.plausibility;
+  if (p == nullptr || node >= static_cast<int>(p->node_region_kinds.size())) return "";
+  const std::string& kinds = p->node_region_kinds[node][region];
+  std::string labels;
+  for (size_t start = 0; start < kinds.size();) {
+    const size_t end = std::min(kinds.find(';', start), kinds.size());
+    labels += (labels.empty() ? "" : ", ") + WarningLabel(kinds.substr(start, end - start));
+    start = end + 1;
+  }
+  return labels;
+}
+
+std::string WarningMark(const Context& ctx, int node, int region) {
+  const std::string labels = WarningKindsOf(ctx, node, region);
+  if (labels.empty()) return "";
+  return " <a class=\"warn\" href=\"#warnings\" title=\"warnings: " + HtmlEscape(labels) +
+         "\">&#9888;</a>";
+}
+
 std::string ThinningNote(const Context& ctx, size_t shown, const std::string& where) {
   if (shown >= ctx.order.size()) return "";
   return "<p class=\"note\">" + FormatCount(static_cast<int64_t>(shown)) + " of " +

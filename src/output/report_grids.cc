@@ -131,8 +131,11 @@ std::string AggregateSection(const Context& ctx) {
   g.colour = [scale](double v) { return scale.Colour(v); };
   g.format = [](double v) { return Num(v, kChartParityDecimals); };
   g.tip = [&ctx, &rows, &columns](int r, int c, double v) {
-    return ctx.Label(rows[r]) + " \xC2\xB7 " + ctx.survey.classification.nodes()[columns[c]].code +
-           ": " + Num(v, kTableParityDecimals);
+    std::string tip = ctx.Label(rows[r]) + " \xC2\xB7 " +
+                      ctx.survey.classification.nodes()[columns[c]].code + ": " +
+                      Num(v, kTableParityDecimals);
+    const std::string kinds = WarningKindsOf(ctx, columns[c], rows[r]);
+    return kinds.empty() ? tip : tip + " \xE2\x9A\xA0 warnings: " + kinds;
   };
   g.gap_before = {1};
   std::string out = OpenSection("aggregates", "Price levels by aggregate");

@@ -107,24 +107,31 @@ std::string InputFiles(const Context& ctx) {
   return out;
 }
 
-// Warnings: the job's, then any of the loader's not already among them.
+// Warnings: counts per kind, then the sentences (the first 50; all are in
+// warnings.csv).
 std::string Warnings(const Context& ctx) {
-  std::vector<std::string> warnings = ctx.in.warnings;
-  if (ctx.in.load != nullptr) {
-    for (const std::string& w : ctx.in.load->warnings) {
-      if (std::find(warnings.begin(), warnings.end(), w) == warnings.end()) warnings.push_back(w);
-    }
-  }
+  const std::vector<RunWarning>& warnings = ctx.in.warnings;
   std::string out = "<h3 id=\"warnings\">Warnings</h3>";
   if (warnings.empty()) return out + "<p>None.</p>\n";
+  out += "<p>" + FormatCount(static_cast<int64_t>(warnings.size())) +
+         (warnings.size() == 1 ? " warning: " : " warnings: ");
+  bool first = true;
+  for (const auto& [kind, count] : CountWarnings(warnings)) {
+    out += std::string(first ? "" : ", ") + HtmlEscape(WarningLabel(kind)) + " " +
+           FormatCount(count);
+    first = false;
+  }
+  out += ". Regions with a warning on the total are marked &#9888; in the price level table; "
+         "the tooltips of the aggregate grid name the warnings of each cell.</p>\n";
   constexpr size_t kMaxWarnings = 50;
   out += "<ul class=\"warnings\">";
   for (size_t i = 0; i < warnings.size() && i < kMaxWarnings; ++i) {
-    out += "<li>" + HtmlEscape(warnings[i]) + "</li>";
+    out += "<li><b>" + HtmlEscape(WarningLabel(warnings[i].kind)) + "</b>: " +
+           HtmlEscape(warnings[i].text) + "</li>";
   }
   if (warnings.size() > kMaxWarnings) {
     out += "<li>and " + FormatCount(static_cast<int64_t>(warnings.size() - kMaxWarnings)) +
-           " more (see run.json)</li>";
+           " more (every one is in warnings.csv)</li>";
   }
   out += "</ul>\n";
   return out;

@@ -156,6 +156,12 @@ struct Context {
 // Returns at most `max_count` of `order`, evenly spaced and keeping both
 // ends, so a thinned grid still spans the dearest to the cheapest.
 std::vector<int> EveryKth(const std::vector<int>& order, int max_count);
+// Labels of the warnings about a node and region, ", "-joined ("" when none
+// or when the report has no plausibility result).
+std::string WarningKindsOf(const Context& ctx, int node, int region);
+// A visible mark (&#9888; with the labels as its tooltip) when there are
+// such warnings, else "".
+std::string WarningMark(const Context& ctx, int node, int region);
 // The note under a thinned grid ("" when every region is shown).
 std::string ThinningNote(const Context& ctx, size_t shown, const std::string& where);
 

@@ -271,7 +271,8 @@ std::string TableRow(const Context& ctx, const TableColumns& columns,
                      const std::vector<RegionSpread>& spreads, size_t i) {
   const int r = ctx.order[i];
   std::string out =
-      "<tr>" + NumCell(static_cast<double>(i + 1), 0) + "<td>" + HtmlEscape(ctx.Code(r)) + "</td>";
+      "<tr>" + NumCell(static_cast<double>(i + 1), 0) + "<td>" + HtmlEscape(ctx.Code(r)) +
+      WarningMark(ctx, 0, r) + "</td>";
   if (columns.names) {
     const bool named = r < static_cast<int>(ctx.survey.region_name.size());
     out += "<td>" + HtmlEscape(named ? ctx.survey.region_name[r] : "") + "</td>";

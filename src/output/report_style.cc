@@ -43,6 +43,7 @@ table.sortable thead th[aria-sort=descending]::after{content:" \25BC";font-size:
 .table-scroll{overflow:auto;max-width:100%}
 .table-scroll.tall{max-height:640px;border:1px solid var(--rule)}
 ul.warnings li{color:#7a3b00}
+a.warn{color:#b04a00;text-decoration:none}
 svg.chart{display:block;width:100%;height:auto;margin:8px 0}
 svg text{font-family:inherit;font-size:12px;fill:var(--ink)}
 svg .tick{font-size:11px;fill:var(--muted)}

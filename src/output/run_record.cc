@@ -101,7 +101,15 @@ std::string RunRecordJson(const RunRecord& record) {
                           {"num_headings_used", record.compute->num_headings_used},
                           {"num_aggregates", record.compute->num_aggregates}};
   }
-  out["warnings"] = record.warnings;
+  out["num_warnings"] = record.warnings.size();
+  if (!record.warning_counts.empty()) {
+    Json counts = Json::object();
+    for (const auto& [kind, count] : record.warning_counts) counts[kind] = count;
+    out["warning_counts"] = counts;
+  }
+  const size_t listed = std::min(record.warnings.size(), kMaxRecordedWarnings);
+  out["warnings"] = std::vector<std::string>(record.warnings.begin(),
+                                             record.warnings.begin() + listed);
   if (record.output_digests.empty()) {
     out["outputs"] = record.outputs;
   } else {

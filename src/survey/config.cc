@@ -32,6 +32,18 @@ constexpr EnumName<InvalidRowPolicy> kPolicyNames[] = {
     {InvalidRowPolicy::kSkip, "skip"},
 };
 
+std::string ShortestText(double value) {
+  std::string text;
+  AppendShortest(value, &text);
+  return text;
+}
+
+constexpr EnumName<DuplicateQuotePolicy> kDuplicateNames[] = {
+    {DuplicateQuotePolicy::kKeep, "keep"},
+    {DuplicateQuotePolicy::kDrop, "drop"},
+    {DuplicateQuotePolicy::kReject, "reject"},
+};
+
 template <typename Enum, size_t N>
 std::string NameOf(const EnumName<Enum> (&names)[N], Enum value) {
   for (const auto& entry : names) {
@@ -72,7 +84,13 @@ const std::vector<std::string> kTopKeys = {"survey",
                                            "robust_standard_errors",
                                            "report",
                                            "threads",
-                                           "limits"};
+                                           "limits",
+                                           "duplicate_quotes",
+                                           "strict",
+                                           "checks"};
+const std::vector<std::string> kCheckKeys = {"min_basket_share",   "min_items",
+                                             "min_quotes",         "max_level_ratio",
+                                             "max_spread_percent", "gross_outlier_ratio"};
 const std::vector<std::string> kSurveyKeys = {"prices", "expenditure", "regions", "items"};
 const std::vector<std::string> kLimitKeys = {"max_file_bytes", "max_yaml_bytes", "max_record_bytes",
                                              "max_field_bytes", "max_yaml_depth"};
@@ -231,6 +249,9 @@ class ConfigParser {
     if (const YAML::Node node = root["classification"]) {
       if (!ParseClassification(node, error)) return false;
     }
+    if (const YAML::Node node = root["checks"]) {
+      if (!ParseChecks(node, error)) return false;
+    }
     return ParseMethods(root, error) && ParseOutput(root, error) && ParseSettings(root, error);
   }
 
@@ -301,6 +322,15 @@ class ConfigParser {
         return false;
       }
     }
+    if (const YAML::Node node = root["duplicate_quotes"]) {
+      if (!EnumValue(node, "duplicate_quotes", &config_->duplicate_quotes,
+                     DuplicateQuotePolicyNames(), error)) {
+        return false;
+      }
+    }
+    if (const YAML::Node node = root["strict"]) {
+      if (!Flag(node, "strict", &config_->strict, error)) return false;
+    }
     if (const YAML::Node node = root["output"]) {
       if (!Path(node, "output", &config_->output, error)) return false;
     } else {
@@ -361,6 +391,45 @@ class ConfigParser {
         return false;
       }
       config_->threads = static_cast<int>(threads);
+    }
+    return true;
+  }
+
+  // The thresholds of the plausibility checks.
+  bool ParseChecks(const YAML::Node& node, std::string* error) {
+    if (!node.IsMap()) {
+      *error = Where(node) + "'checks' must be a mapping with keys " + JoinNames(kCheckKeys);
+      return false;
+    }
+    if (!CheckKeys(node, kCheckKeys, "checks", error)) return false;
+    CheckThresholds& checks = config_->checks;
+    double* const positives[] = {&checks.min_basket_share, &checks.max_level_ratio,
+                                 &checks.max_spread_percent, &checks.gross_outlier_ratio};
+    const char* const positive_keys[] = {"min_basket_share", "max_level_ratio",
+                                         "max_spread_percent", "gross_outlier_ratio"};
+    for (size_t k = 0; k < 4; ++k) {
+      const YAML::Node value = node[positive_keys[k]];
+      if (value && !Positive(value, std::string("checks.") + positive_keys[k], positives[k], error)) {
+        return false;
+      }
+    }
+    int* const counts[] = {&checks.min_items, &checks.min_quotes};
+    const char* const count_keys[] = {"min_items", "min_quotes"};
+    for (size_t k = 0; k < 2; ++k) {
+      const YAML::Node value = node[count_keys[k]];
+      if (!value) continue;
+      double number = 0;
+      if (!Number(value, std::string("checks.") + count_keys[k], &number, error)) return false;
+      if (number < 1 || number > 1000000 || number != std::floor(number)) {
+        *error = Where(value) + "checks." + count_keys[k] +
+                 " must be a whole number from 1 to 1000000, found '" + value.Scalar() + "'";
+        return false;
+      }
+      *counts[k] = static_cast<int>(number);
+    }
+    if (!checks.IsValid(error)) {
+      *error = Where(node) + *error;
+      return false;
     }
     return true;
   }
@@ -476,6 +545,40 @@ bool FromString(const std::string& text, InvalidRowPolicy* policy) {
 }
 std::vector<std::string> InvalidRowPolicyNames() { return NamesOf(kPolicyNames); }
 
+std::string ToString(DuplicateQuotePolicy policy) { return NameOf(kDuplicateNames, policy); }
+bool FromString(const std::string& text, DuplicateQuotePolicy* policy) {
+  return ValueOf(kDuplicateNames, text, policy);
+}
+std::vector<std::string> DuplicateQuotePolicyNames() { return NamesOf(kDuplicateNames); }
+
+bool CheckThresholds::IsValid(std::string* error) const {
+  if (!(min_basket_share > 0 && min_basket_share <= 1)) {
+    *error = "checks.min_basket_share must be a share above 0 and at most 1, found " +
+             ShortestText(min_basket_share);
+    return false;
+  }
+  if (min_items < 1 || min_quotes < 1) {
+    *error = "checks.min_items and checks.min_quotes must be at least 1";
+    return false;
+  }
+  if (!(max_level_ratio > 1) || !std::isfinite(max_level_ratio)) {
+    *error = "checks.max_level_ratio must be a factor above 1, found " +
+             ShortestText(max_level_ratio);
+    return false;
+  }
+  if (!(max_spread_percent > 0) || !std::isfinite(max_spread_percent)) {
+    *error = "checks.max_spread_percent must be a positive number, found " +
+             ShortestText(max_spread_percent);
+    return false;
+  }
+  if (!(gross_outlier_ratio > 1) || !std::isfinite(gross_outlier_ratio)) {
+    *error = "checks.gross_outlier_ratio must be a factor above 1, found " +
+             ShortestText(gross_outlier_ratio);
+    return false;
+  }
+  return true;
+}
+
 bool MatricesMeanEveryNode(const std::vector<std::string>& matrices) {
   return matrices.size() == 1 && ToLower(Trim(matrices[0])) == "all";
 }
@@ -540,7 +643,7 @@ bool RunConfig::IsValid(std::string* error) const {
     *error = "no output folder given (output)";
     return false;
   }
-  return limits.IsValid(error);
+  return checks.IsValid(error) && limits.IsValid(error);
 }
 
 bool LoadRunConfig(const std::string& path, RunConfig* config, std::string* error) {

@@ -105,32 +105,56 @@ std::string Notes(const SensitivityJobSummary& job) {
   return notes;
 }
 
-// The job's warnings: the full sample's, rows left out, and what the parts
-// met.
-std::vector<std::string> JobWarnings(const SensitivityJobSummary& job) {
-  std::vector<std::string> warnings = job.sensitivity.full_sample.warnings;
-  if (job.load.num_rows_rejected > 0) {
-    warnings.insert(warnings.begin(),
-                    std::to_string(job.load.num_rows_rejected) + " invalid rows left out");
-  }
+// The job's warnings: those compute raises on the full sample (rows left
+// out, computation, plausibility checks, gross outliers), then what the
+// parts met.
+std::vector<RunWarning> JobWarnings(const SensitivityJobSummary& job,
+                                    const PlausibilityResult& plausibility) {
+  std::vector<RunWarning> warnings =
+      CollectWarnings(job.load, job.sensitivity.full_sample.warnings, plausibility);
+  auto add = [&](std::string text) {
+    warnings.push_back({"sensitivity", "", "", std::move(text)});
+  };
   const SensitivitySummary& s = job.sensitivity;
   if (s.num_replicates_unlinked > 0) {
-    warnings.push_back(std::to_string(s.num_replicates_unlinked) + " of " +
-                       std::to_string(s.num_replicates) +
-                       " bootstrap replicates left some heading's regions unlinked; only the "
-                       "largest linked group had parities there");
+    add(std::to_string(s.num_replicates_unlinked) + " of " + std::to_string(s.num_replicates) +
+        " bootstrap replicates left some heading's regions unlinked; only the largest linked "
+        "group had parities there");
   }
   if (s.num_replicates_region_lost > 0) {
-    warnings.push_back("in " + std::to_string(s.num_replicates_region_lost) + " of " +
-                       std::to_string(s.num_replicates) +
-                       " bootstrap replicates some region priced none of the items drawn in "
-                       "some heading and had no parity there; column num_replicates of "
-                       "bootstrap.csv says how many replicates each interval rests on");
+    add("in " + std::to_string(s.num_replicates_region_lost) + " of " +
+        std::to_string(s.num_replicates) +
+        " bootstrap replicates some region priced none of the items drawn in some heading and "
+        "had no parity there; column num_replicates of bootstrap.csv says how many replicates "
+        "each interval rests on");
   }
   for (const MethodRun& run : job.result.methods) {
-    if (!run.message.empty()) warnings.push_back("method " + run.name + " failed: " + run.message);
+    if (!run.message.empty()) add("method " + run.name + " failed: " + run.message);
   }
   return warnings;
+}
+
+// The full-sample computation, its outliers and plausibility checks: what
+// compute would say about the same survey and settings.
+struct FullSample {
+  bool computed = false;
+  ParityResult result;
+  ComputeSummary summary;
+  OutlierReport outliers;
+  PlausibilityResult plausibility;
+  int64_t num_gross_outliers = 0;
+};
+
+void ComputeFullSample(const RunConfig& config, const Survey& survey, FullSample* full) {
+  ComputeOptions options = ComputeOptions::FromConfig(config);
+  full->computed = ComputeParities(survey, options, &full->result, &full->summary);
+  if (!full->computed) return;
+  OutlierOptions outlier_options;
+  outlier_options.threshold = config.outlier_threshold;
+  full->outliers = FindOutliers(survey, full->result, outlier_options);
+  full->plausibility = CheckPlausibility(survey, full->result, config);
+  full->num_gross_outliers =
+      AddGrossOutlierWarnings(survey, full->outliers, config.checks, &full->plausibility);
 }
 
 // One table per part that was run.
@@ -156,16 +180,12 @@ std::vector<OutputFile> PartFiles(const SensitivityOptions& options,
 // the intervals, the coverage curve and the method spread (the compute
 // report beside it is never redrawn); nothing when the full computation
 // fails.
-void AddReport(const RunConfig& config, const ComputeOptions& compute,
-               const SensitivityOptions& options, const SensitivityJobSummary& job,
+void AddReport(const RunConfig& config, const SensitivityOptions& options,
+               const SensitivityJobSummary& job, const FullSample& full_sample,
                std::vector<OutputFile>* files) {
-  ParityResult full;
-  ComputeSummary full_summary;
-  if (!ComputeParities(job.survey, compute, &full, &full_summary)) return;
-  OutlierOptions outlier_options;
-  outlier_options.threshold = config.outlier_threshold;
-  const std::vector<ReportOutlier> outliers =
-      ToReportOutliers(job.survey, FindOutliers(job.survey, full, outlier_options));
+  const ParityResult& full = full_sample.result;
+  const ComputeSummary& full_summary = full_sample.summary;
+  const std::vector<ReportOutlier> outliers = ToReportOutliers(job.survey, full_sample.outliers);
   const ReportSensitivity sensitivity = ToReportSensitivity(job.result, options);
   ReportInputs report;
   report.config = &config;
@@ -174,6 +194,7 @@ void AddReport(const RunConfig& config, const ComputeOptions& compute,
   report.result = &full;
   report.compute = &full_summary;
   report.warnings = job.warnings;
+  report.plausibility = &full_sample.plausibility;
   report.outliers = &outliers;
   report.sensitivity = &sensitivity;
   files->push_back({"report.html", ReportHtml(report)});
@@ -191,10 +212,11 @@ std::string RunJson(const RunConfig& config, const SensitivityOptions& options,
   record.load = &job.load;
   record.survey = &job.survey;
   record.compute = &s.full_sample;
-  record.outcome = "ok";
-  record.message = s.BriefReport();
-  record.exit_code = 0;
-  record.warnings = job.warnings;
+  record.outcome = job.exit_code == 0 ? "ok" : "warnings under strict mode";
+  record.message = job.exit_code == 0 ? s.BriefReport() : job.message;
+  record.exit_code = job.exit_code;
+  for (const RunWarning& w : job.warnings) record.warnings.push_back(w.text);
+  record.warning_counts = CountWarnings(job.warnings);
   record.outputs = job.outputs;
   record.stages = {{"read", job.load.read_seconds},
                    {"cells", job.load.cells_seconds},
@@ -219,9 +241,11 @@ std::string LinkComputeRun(const RunConfig& config, const std::string& this_json
   nlohmann::ordered_json link = {{"run_id", id}, {"same_inputs_and_settings", differences.empty()},
                                  {"differences", differences}};
   if (!differences.empty()) {
-    job->warnings.push_back("the compute run in " + config.output + " (run " + id +
-                            ") rests on other inputs or settings, so its parities and these intervals "
-                            "do not belong together: " + JoinNames(differences, "; "));
+    job->warnings.push_back({"sensitivity", "", "",
+                             "the compute run in " + config.output + " (run " + id +
+                                 ") rests on other inputs or settings, so its parities and these "
+                                 "intervals do not belong together: " +
+                                 JoinNames(differences, "; ")});
   }
   return link.dump();
 }
@@ -264,10 +288,6 @@ std::string SensitivityJobSummary::FullReport(const SensitivityOptions& options)
   out += "\nsensitivity of '" + root + "', dearest first:\n";
   out += SensitivityTable(survey, result, options);
   out += Notes(*this);
-  if (!warnings.empty()) {
-    out += "\nwarnings:\n";
-    for (const std::string& warning : warnings) out += "  " + warning + "\n";
-  }
   out +=
       "\nThe bootstrap and leave-one-out runs show how much the parities depend on which items "
       "were priced; they do not measure errors shared by all items (unit or quality "
@@ -335,7 +355,9 @@ int RunSensitivityJob(const RunConfig& config, const SensitivityOptions& options
     return fail(summary->sensitivity.outcome == SensitivityOutcome::kComputationFailed ? 2 : 1,
                 summary->sensitivity.message);
   }
-  summary->warnings = JobWarnings(*summary);
+  FullSample full_sample;
+  ComputeFullSample(config, summary->survey, &full_sample);
+  summary->warnings = JobWarnings(*summary, full_sample.plausibility);
   summary->run_id = NewRunId();
   const std::string link =
       LinkComputeRun(config, RunJson(config, run_options, *summary, {}, ""), summary);
@@ -343,15 +365,20 @@ int RunSensitivityJob(const RunConfig& config, const SensitivityOptions& options
   if (config.invalid_rows == InvalidRowPolicy::kSkip) {
     files.push_back({"rejected.csv", RejectedRowsCsv(summary->load.rejected_rows)});
   }
-  if (config.report) AddReport(config, compute, run_options, *summary, &files);
+  files.push_back({"warnings.csv", WarningsCsv(summary->warnings)});
+  if (config.report && full_sample.computed) {
+    AddReport(config, run_options, *summary, full_sample, &files);
+  }
   for (const OutputFile& file : files) summary->outputs.push_back(file.relative_path);
   summary->outputs.push_back("run.json");
+  // The exit code is settled before run.json, which records it.
+  const bool strict_fails = config.strict && !summary->warnings.empty();
+  summary->exit_code = strict_fails ? kExitStrictWarnings : kExitOk;
+  summary->message = strict_fails ? StrictModeMessage(summary->warnings) : "ok";
   files.push_back({"run.json", RunJson(config, run_options, *summary, files, link)});
   RunFolderSummary written;
   if (!WriteRunFolder(SensitivityFolder(config), files, &written, &error)) return fail(1, error);
-  summary->exit_code = 0;
-  summary->message = "ok";
-  return 0;
+  return summary->exit_code;
 }
 
 }  // namespace paritas

@@ -235,7 +235,14 @@ TEST(ComputeCommand, SkipWritesRejectedRowsAndReconciles) {
   EXPECT_EQ(rejected[1][1], "3");
   EXPECT_EQ(rejected[1][2], dir + "/prices.csv:3:3: price '-2' is not a positive number");
   EXPECT_EQ(rejected[1][3], "south,a,-2,bread");
-  EXPECT_NE(out.find("1 invalid rows left out (listed in rejected.csv)"), std::string::npos) << out;
+  // The warning goes to standard error, after the count on standard output.
+  EXPECT_NE(out.find(" warnings (listed at the end, on standard error, and in warnings.csv)"),
+            std::string::npos)
+      << out;
+  EXPECT_NE(err.find(" warnings (every one in warnings.csv):\n  invalid rows left out (1):\n"
+                     "    1 invalid rows left out (listed in rejected.csv)\n"),
+            std::string::npos)
+      << err;
 }
 
 }  // namespace

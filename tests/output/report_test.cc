@@ -181,7 +181,7 @@ TEST(ReportHtml, ShowsHostileRegionAndHeadingNamesAsText) {
   job.survey.regions = CodeTable::FromCodes(codes);
   job.survey.region_name[0] = "<img src=x onerror=alert(2)>";
   job.survey.heading_codes[0] = "\"><svg onload=alert(3)>";
-  job.warnings.push_back("region <script>alert(4)</script> has no rents");
+  job.warnings.push_back({"input", "", "", "region <script>alert(4)</script> has no rents"});
   const std::string html = ReportHtml(InputsFor(job, &demo.config));
   EXPECT_EQ(CountOf(html, "<script"), 1u);
   EXPECT_EQ(html.find("<img"), std::string::npos);

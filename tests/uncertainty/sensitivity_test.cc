@@ -473,13 +473,16 @@ TEST(SensitivityCommand, RunsAndPrintsTheRootTable) {
             0)
       << err;
   EXPECT_NE(out.find("90 % interval"), std::string::npos) << out;
-  // Four tables, the run record and its own report with the intervals, all
-  // in sensitivity/; the compute report is never redrawn.
-  EXPECT_NE(out.find("wrote 6 files"), std::string::npos) << out;
+  // Four tables, warnings.csv, the run record and its own report with the
+  // intervals, all in sensitivity/; the compute report is never redrawn.
+  EXPECT_NE(out.find("wrote 7 files"), std::string::npos) << out;
   const std::string report = ReadTextFile(folder + "/out/sensitivity/report.html");
   EXPECT_NE(report.find("id=\"sensitivity\""), std::string::npos);
   EXPECT_NE(report.find("id=\"coverage-curve\""), std::string::npos);
-  EXPECT_EQ(err, "");  // no progress bar when stderr is not a terminal
+  // No progress bar when stderr is not a terminal: only the warnings.
+  EXPECT_EQ(err.rfind("\n1 warning (every one in warnings.csv):\n  sensitivity (1):\n", 0), 0u)
+      << err;
+  EXPECT_EQ(err.find('\r'), std::string::npos);
   const std::string curve = ReadTextFile(folder + "/out/sensitivity/coverage_curve.csv");
   EXPECT_NE(curve.find(",80.00,3,"), std::string::npos);
 }

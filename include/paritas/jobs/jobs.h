@@ -1,6 +1,7 @@
 // The jobs the command line runs, as library entry points: each resets its
 // summary, validates, runs the stages, writes its outputs and returns an exit
-// code (0 ok, 1 invalid input or configuration, 2 computation failed).
+// code (0 ok, 1 invalid input or configuration, 2 computation failed, 3
+// warnings under strict mode, after writing everything).
 #ifndef PARITAS_JOBS_JOBS_H_
 #define PARITAS_JOBS_JOBS_H_
 
@@ -8,6 +9,7 @@
 #include <vector>
 
 #include "paritas/compute/compute.h"
+#include "paritas/compute/plausibility.h"
 #include "paritas/survey/config.h"
 #include "paritas/uncertainty/outliers.h"
 #include "paritas/output/run_record.h"
@@ -19,6 +21,9 @@ namespace paritas {
 inline constexpr int kExitOk = 0;
 inline constexpr int kExitInvalidInput = 1;
 inline constexpr int kExitComputationFailed = 2;
+// Everything was written, but the run raised warnings or found gross
+// outliers and strict mode (--strict, `strict: true`) was asked for.
+inline constexpr int kExitStrictWarnings = 3;
 
 // Structure of one basic heading, as `check` reports it.
 struct HeadingCheck {
@@ -68,9 +73,16 @@ struct ComputeJobSummary {
   // Files written, relative to the output folder.
   std::vector<std::string> outputs;
   std::vector<StageTiming> stages;
-  std::vector<std::string> warnings;
+  // Basket shares and per node/region warning kinds (parities.csv).
+  PlausibilityResult plausibility;
+  // Outliers at least checks.gross_outlier_ratio from their prediction.
+  int64_t num_gross_outliers = 0;
+  // Every warning of the run, in listing order (also in warnings.csv).
+  std::vector<RunWarning> warnings;
 
-  // What `paritas compute` prints: counts, the root table, warnings.
+  // What `paritas compute` prints on standard output: counts, the root
+  // table, the outliers, the cautions. The warnings go to standard error
+  // (WarningsText).
   std::string FullReport() const;
 };
 

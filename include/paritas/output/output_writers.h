@@ -12,6 +12,7 @@
 
 #include "paritas/aggregation/bilateral_matrix.h"
 #include "paritas/compute/compute.h"
+#include "paritas/compute/plausibility.h"
 #include "paritas/output/run_folder.h"
 #include "paritas/survey/survey.h"
 
@@ -39,7 +40,10 @@ std::string NodeFileName(const std::string& code);
 // regions in survey order. Columns: node, kind, region, parity, expenditure,
 // real_expenditure, real_per_capita_index, log_se, log_se_robust, rank,
 // num_items, num_quotes, num_headings.
-std::string ParitiesCsv(const Survey& survey, const ParityResult& result);
+// `plausibility` (may be null) adds the columns basket_share and warnings
+// (the kinds of the warnings about the node and region, ';'-joined).
+std::string ParitiesCsv(const Survey& survey, const ParityResult& result,
+                        const PlausibilityResult* plausibility = nullptr);
 
 // matrix/<node>.csv: header `region,` then the region codes (regions with a
 // parity); cell (a, b) = 100 x parity(b) / parity(a).

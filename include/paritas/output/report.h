@@ -10,6 +10,7 @@
 #include <vector>
 
 #include "paritas/compute/compute.h"
+#include "paritas/compute/plausibility.h"
 #include "paritas/survey/config.h"
 #include "paritas/uncertainty/outliers.h"
 #include "paritas/survey/survey.h"
@@ -69,7 +70,11 @@ struct ReportInputs {
   const LoadSummary* load = nullptr;
   const ParityResult* result = nullptr;
   const ComputeSummary* compute = nullptr;
-  std::vector<std::string> warnings;
+  // Every warning of the run, in listing order (CollectWarnings).
+  std::vector<RunWarning> warnings;
+  // Warning kinds per node and region: marks (&#9888;) in the price level
+  // table and the aggregate grid. May be null.
+  const PlausibilityResult* plausibility = nullptr;
   // Flagged outliers; null = outliers were not looked for (section left
   // out), empty = none beyond the threshold.
   const std::vector<ReportOutlier>* outliers = nullptr;

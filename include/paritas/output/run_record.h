@@ -46,7 +46,10 @@ struct RunRecord {
   std::string outcome;  // "ok", "invalid input", "computation failed"
   std::string message;
   int exit_code = 0;
+  // Warning sentences; run.json lists the first kMaxRecordedWarnings.
   std::vector<std::string> warnings;
+  // Warnings per kind (compute/plausibility.h); written when not empty.
+  std::vector<std::pair<std::string, int64_t>> warning_counts;
   std::vector<std::string> outputs;  // files written, relative to the output folder
   // When given, "outputs" lists these (path, bytes, sha256) instead of names;
   // run.json itself is listed by name last.
@@ -55,6 +58,9 @@ struct RunRecord {
   // Further top-level sections as (key, JSON text), e.g. sensitivity settings.
   std::vector<std::pair<std::string, std::string>> sections;
 };
+
+// Warning sentences listed in run.json at most (all are in warnings.csv).
+inline constexpr size_t kMaxRecordedWarnings = 1000;
 
 // Returns the record as pretty-printed JSON with keys in a fixed order.
 std::string RunRecordJson(const RunRecord& record);

@@ -43,6 +43,51 @@ bool FromString(const std::string& text, InvalidRowPolicy* policy);
 // The allowed names, for --help and messages.
 std::vector<std::string> InvalidRowPolicyNames();
 
+// What to do with quote rows of prices.csv that repeat an earlier row field
+// for field (same region, item, price and every other column).
+enum class DuplicateQuotePolicy {
+  kKeep,    // keep them as quotes, with a warning (default: results as given)
+  kDrop,    // leave the repeats out (counted as rejected), with a warning
+  kReject,  // treat the repeats as invalid rows (invalid_rows decides)
+};
+
+std::string ToString(DuplicateQuotePolicy policy);
+// Case-insensitive; returns false for unknown names.
+bool FromString(const std::string& text, DuplicateQuotePolicy* policy);
+std::vector<std::string> DuplicateQuotePolicyNames();
+
+// Thresholds of the plausibility checks run after compute (the `checks:`
+// section). Each check raises a warning (compute/plausibility.h).
+struct CheckThresholds {
+  // Warns when less than this share of a region's spending on an aggregate
+  // rests on headings where the region has a parity of its own (the rest is
+  // in effect imputed from its other headings). Default 0.9, our choice: a
+  // missing heading of 10 % of spending whose level differs by 30 % from the
+  // region's other headings moves the aggregate by about 3 %.
+  double min_basket_share = 0.9;
+  // Warns when a region's heading parity rests on fewer items than this, or
+  // on fewer quotes than min_quotes. Defaults 2 and 2, our choice (one item
+  // or one quote is no evidence on its spread).
+  int min_items = 2;
+  int min_quotes = 2;
+  // Warns when a region's heading parity is more than this factor above or
+  // below the region's level in the other headings of the same parent
+  // (expenditure-weighted geometric mean). Default 3, our choice: regional
+  // relative prices rarely differ threefold, keying errors of x10 do.
+  double max_level_ratio = 3.0;
+  // Warns when the Paasche-Laspeyres spread 100 |ln(L/P)| of a region
+  // against another exceeds this, in percent. Default 20, our choice: spreads
+  // within a country are typically a few percent; beyond 20 the formula
+  // choice moves the parity by about 10 %.
+  double max_spread_percent = 20.0;
+  // Outliers whose observed price is at least this factor away from the
+  // prediction are gross (a warning, and exit code 3 under strict). Default
+  // 3, our choice: the keying errors seen (x10, x100, x0.1) and wrong units.
+  double gross_outlier_ratio = 3.0;
+
+  bool IsValid(std::string* error) const;
+};
+
 // Paths of the survey files (absolute, or relative to the working folder
 // after resolution against the configuration's folder). Empty = not given.
 struct SurveyFiles {
@@ -90,6 +135,13 @@ struct RunConfig {
   bool report = true;
   // Worker threads; 0 = all cores.
   int threads = 0;
+  // Repeated quote rows: keep (default), drop or reject.
+  DuplicateQuotePolicy duplicate_quotes = DuplicateQuotePolicy::kKeep;
+  // Thresholds of the plausibility warnings (the `checks:` section).
+  CheckThresholds checks;
+  // Exit with code 3, after writing every output, when the run raised any
+  // warning or found a gross outlier (default false).
+  bool strict = false;
   // Limits on the input files (the `limits:` section): every file named
   // above, and the classification file, is read under them. The
   // configuration file itself is read under the defaults.

@@ -250,7 +250,9 @@ struct SensitivityJobSummary {
   // Identifies the run in its run.json (NewRunId()).
   std::string run_id;
   std::vector<std::string> outputs;  // relative to SensitivityFolder(config)
-  std::vector<std::string> warnings;
+  // Every warning: compute's on the full sample (plausibility checks and
+  // gross outliers included), then the parts' (kind "sensitivity").
+  std::vector<RunWarning> warnings;
 
   // What the command prints: counts, the root table, notes.
   std::string FullReport(const SensitivityOptions& options) const;

@@ -1,0 +1,400 @@
+// The checks read only the computed result and the survey, so they cost one
+// pass over nodes x regions (plus the cells for items per heading) and never
+// change a number: they add warnings and the basket_share column.
+#include "paritas/compute/plausibility.h"
+
+#include <algorithm>
+#include <cmath>
+#include <utility>
+
+#include "paritas/base/csv.h"
+#include "paritas/base/text.h"
+
+namespace paritas {
+namespace {
+
+struct KindLabel {
+  const char* kind;
+  const char* label;
+};
+
+constexpr KindLabel kKinds[] = {
+    {"rejected-rows", "invalid rows left out"},
+    {"duplicate-quotes", "duplicate quote rows"},
+    {"input", "input"},
+    {"computation", "computation"},
+    {"weights", "spending weights"},
+    {"partial-basket", "partial basket"},
+    {"single-item-heading", "single-item heading"},
+    {"thin-evidence", "thin evidence"},
+    {"implausible-level", "implausible level"},
+    {"large-spread", "large Paasche-Laspeyres spread"},
+    {"gross-outlier", "gross outlier"},
+    {"sensitivity", "sensitivity"},
+};
+
+int KindOrder(const std::string& kind) {
+  for (size_t k = 0; k < std::size(kKinds); ++k) {
+    if (kind == kKinds[k].kind) return static_cast<int>(k);
+  }
+  return static_cast<int>(std::size(kKinds));
+}
+
+std::string Fixed(double value, int decimals) { return FormatFixed(value, decimals); }
+std::string Percent(double share) { return FormatFixed(100.0 * share, 1) + " %"; }
+
+// Collects warnings and marks the node/region cells they concern.
+class Checker {
+ public:
+  Checker(const Survey& survey, const ParityResult& result, const RunConfig& config,
+          PlausibilityResult* out)
+      : survey_(survey), result_(result), checks_(config.checks), out_(out) {
+    const int num_nodes = static_cast<int>(survey.classification.nodes().size());
+    out_->basket_share.setConstant(num_nodes, survey.num_regions(), std::nan(""));
+    out_->node_region_kinds.assign(num_nodes, std::vector<std::string>(survey.num_regions()));
+    reference_region_ = config.reference.kind == ReferenceKind::kRegion
+                            ? survey.regions.Find(config.reference.region)
+                            : -1;
+  }
+
+  void Run() {
+    CheckWeights();
+    CheckBaskets();
+    CheckEvidence();
+    CheckLevels();
+    CheckSpreads();
+  }
+
+ private:
+  const std::string& NodeCode(int node) const { return survey_.classification.nodes()[node].code; }
+  std::string RegionCode(int r) const { return std::string(survey_.regions.Code(r)); }
+  int HeadingNode(int h) const { return survey_.classification.headings()[h]; }
+  double Spending(int r, int h) const {
+    const double e = survey_.expenditure(r, h);
+    return std::isfinite(e) && e > 0 ? e : 0.0;
+  }
+  double HeadingParity(int h, int r) const { return result_.nodes[HeadingNode(h)].parity(r); }
+
+  void Add(const std::string& kind, int node, int region, std::string text) {
+    out_->warnings.push_back({kind, node >= 0 ? NodeCode(node) : "",
+                              region >= 0 ? RegionCode(region) : "", std::move(text)});
+    if (node >= 0 && region >= 0) MarkKind(kind, node, region, out_);
+  }
+
+  // Headings with no spending anywhere count in no aggregate; without
+  // spending in the reference region they drop out of its comparisons.
+  void CheckWeights() {
+    for (int h = 0; h < survey_.num_headings(); ++h) {
+      bool any = false;
+      for (int r = 0; r < survey_.num_regions() && !any; ++r) any = Spending(r, h) > 0;
+      const std::string head = "heading '" + survey_.heading_codes[h] + "': ";
+      if (!any) {
+        Add("weights", HeadingNode(h), -1,
+            head + "no region has spending on it, so it counts in no aggregate");
+      } else if (reference_region_ >= 0 && Spending(reference_region_, h) <= 0) {
+        Add("weights", HeadingNode(h), -1,
+            head + "the reference region '" + RegionCode(reference_region_) +
+                " has no spending on it, so comparisons weighted by its spending leave it out");
+      }
+    }
+  }
+
+  void CheckBaskets() {
+    const auto& nodes = survey_.classification.nodes();
+    for (int n = 0; n < static_cast<int>(nodes.size()); ++n) {
+      for (int r = 0; r < survey_.num_regions(); ++r) BasketShare(n, r, nodes[n]);
+    }
+  }
+
+  void BasketShare(int n, int r, const ClassificationNode& node) {
+    double total = 0.0, covered = 0.0;
+    std::vector<std::pair<double, int>> missing;
+    for (int h : node.headings) {
+      const double e = Spending(r, h);
+      total += e;
+      if (std::isfinite(HeadingParity(h, r))) {
+        covered += e;
+      } else if (e > 0) {
+        missing.push_back({e, h});
+      }
+    }
+    if (node.is_leaf) {
+      const bool priced = std::isfinite(HeadingParity(node.headings.front(), r));
+      out_->basket_share(n, r) = priced ? 1.0 : (total > 0 ? 0.0 : std::nan(""));
+      return;
+    }
+    if (!(total > 0)) return;
+    const double share = covered / total;
+    out_->basket_share(n, r) = share;
+    if (share >= checks_.min_basket_share || !std::isfinite(result_.nodes[n].parity(r))) return;
+    std::sort(missing.begin(), missing.end(), [](const auto& a, const auto& b) {
+      return a.first != b.first ? a.first > b.first : a.second < b.second;
+    });
+    std::string without;
+    for (size_t k = 0; k < missing.size() && k < 3; ++k) {
+      without += (k > 0 ? ", " : "") + survey_.heading_codes[missing[k].second] + " " +
+                 Percent(missing[k].first / total);
+    }
+    if (missing.size() > 3) without += " and " + std::to_string(missing.size() - 3) + " more";
+    Add("partial-basket", n, r,
+        "aggregate '" + NodeCode(n) + "', region '" + RegionCode(r) + "': only " + Percent(share) +
+            " of its spending rests on headings it has parities for (checks.min_basket_share " +
+            Percent(checks_.min_basket_share) + "); without a parity: " + without +
+            "; its level there is in effect taken from its other headings");
+  }
+
+  // Items priced per heading, and per region the items and quotes behind
+  // the heading parity.
+  void CheckEvidence() {
+    for (int h = 0; h < survey_.num_headings(); ++h) {
+      const HeadingRange& range = survey_.heading_range[h];
+      std::vector<char> priced(range.num_items(), 0);
+      for (int64_t k = range.cell_begin; k < range.cell_end; ++k) {
+        priced[survey_.cells.item[k] - range.item_begin] = 1;
+      }
+      const int num_priced = static_cast<int>(std::count(priced.begin(), priced.end(), 1));
+      const bool single = num_priced == 1;
+      if (single) {
+        const int item = range.item_begin + static_cast<int>(std::find(priced.begin(), priced.end(), 1) -
+                                                             priced.begin());
+        Add("single-item-heading", HeadingNode(h), -1,
+            "heading '" + survey_.heading_codes[h] + "': one item priced ('" +
+                std::string(survey_.items.Code(item)) +
+                "'); its parities rest on that item alone");
+      }
+      const NodeResult& node = result_.nodes[HeadingNode(h)];
+      for (int r = 0; r < survey_.num_regions(); ++r) {
+        if (!std::isfinite(node.parity(r))) continue;
+        const int items = node.num_items(r), quotes = node.num_quotes(r);
+        const bool few_items = !single && items < checks_.min_items;
+        if (!few_items && quotes >= checks_.min_quotes) continue;
+        Add("thin-evidence", HeadingNode(h), r,
+            "heading '" + survey_.heading_codes[h] + "', region '" + RegionCode(r) +
+                "': parity rests on " + std::to_string(items) + (items == 1 ? " item" : " items") +
+                " and " + std::to_string(quotes) + (quotes == 1 ? " quote" : " quotes") +
+                " (checks.min_items " + std::to_string(checks_.min_items) + ", min_quotes " +
+                std::to_string(checks_.min_quotes) + ")");
+      }
+    }
+  }
+
+  void CheckLevels() {
+    const auto& nodes = survey_.classification.nodes();
+    for (int h = 0; h < survey_.num_headings(); ++h) {
+      const int parent = nodes[HeadingNode(h)].parent;
+      if (parent < 0 || nodes[parent].headings.size() < 2) continue;
+      for (int r = 0; r < survey_.num_regions(); ++r) CheckLevel(h, parent, r);
+    }
+  }
+
+  // The region's level in the parent's other headings: their parities'
+  // geometric mean weighted by its spending (plain when it has none).
+  void CheckLevel(int h, int parent, int r) {
+    const double parity = HeadingParity(h, r);
+    if (!std::isfinite(parity)) return;
+    double sum_w = 0.0, sum_wlog = 0.0, sum_log = 0.0;
+    int count = 0;
+    for (int other : survey_.classification.nodes()[parent].headings) {
+      const double p = HeadingParity(other, r);
+      if (other == h || !std::isfinite(p) || !(p > 0)) continue;
+      sum_w += Spending(r, other);
+      sum_wlog += Spending(r, other) * std::log(p);
+      sum_log += std::log(p);
+      ++count;
+    }
+    if (count == 0) return;
+    const double level = std::exp(sum_w > 0 ? sum_wlog / sum_w : sum_log / count);
+    const double ratio = parity / level;
+    if (ratio <= checks_.max_level_ratio && ratio >= 1.0 / checks_.max_level_ratio) return;
+    Add("implausible-level", HeadingNode(h), r,
+        "heading '" + survey_.heading_codes[h] + "', region '" + RegionCode(r) + "': parity " +
+            Fixed(parity, 1) + " is " + Fixed(ratio, 2) + " times its level in the other headings of '" +
+            NodeCode(parent) + "' (" + Fixed(level, 1) + "; checks.max_level_ratio " +
+            Fixed(checks_.max_level_ratio, 2) + "); check its prices and units");
+  }
+
+  // Per region of each node whose bilaterals were kept: its largest spread.
+  void CheckSpreads() {
+    for (size_t n = 0; n < result_.bilaterals.size(); ++n) {
+      const BilateralMatrices& b = result_.bilaterals[n];
+      const int size = static_cast<int>(b.laspeyres.rows());
+      if (size == 0 || b.paasche.rows() != size) continue;
+      for (int a = 0; a < size; ++a) {
+        double worst = 0.0;
+        int partner = -1;
+        for (int c = 0; c < size; ++c) {
+          const double spread = 100.0 * std::abs(std::log(b.laspeyres(a, c) / b.paasche(a, c)));
+          if (c != a && std::isfinite(spread) && spread > worst) worst = spread, partner = c;
+        }
+        if (partner < 0 || worst <= checks_.max_spread_percent) continue;
+        Add("large-spread", static_cast<int>(n), a,
+            "aggregate '" + NodeCode(static_cast<int>(n)) + "', region '" + RegionCode(a) +
+                "': Paasche-Laspeyres spread " + Fixed(worst, 1) + " % against '" +
+                RegionCode(partner) + "' (checks.max_spread_percent " +
+                Fixed(checks_.max_spread_percent, 1) +
+                "); its parity depends on the index formula");
+      }
+    }
+  }
+
+ public:
+  static void MarkKind(const std::string& kind, int node, int region, PlausibilityResult* out) {
+    std::string& kinds = out->node_region_kinds[node][region];
+    for (size_t start = 0; start <= kinds.size();) {
+      const size_t end = std::min(kinds.find(';', start), kinds.size());
+      if (kinds.compare(start, end - start, kind) == 0 && end - start == kind.size()) return;
+      start = end + 1;
+    }
+    if (!kinds.empty()) kinds += ';';
+    kinds += kind;
+  }
+
+ private:
+  const Survey& survey_;
+  const ParityResult& result_;
+  const CheckThresholds& checks_;
+  PlausibilityResult* out_;
+  int reference_region_ = -1;
+};
+
+}  // namespace
+
+std::vector<std::string> WarningKinds() {
+  std::vector<std::string> kinds;
+  for (const KindLabel& k : kKinds) kinds.push_back(k.kind);
+  return kinds;
+}
+
+std::string WarningLabel(const std::string& kind) {
+  for (const KindLabel& k : kKinds) {
+    if (kind == k.kind) return k.label;
+  }
+  return kind;
+}
+
+PlausibilityResult CheckPlausibility(const Survey& survey, const ParityResult& result,
+                                     const RunConfig& config) {
+  PlausibilityResult out;
+  Checker(survey, result, config, &out).Run();
+  return out;
+}
+
+int64_t AddGrossOutlierWarnings(const Survey& survey, const OutlierReport& outliers,
+                                const CheckThresholds& checks, PlausibilityResult* plausibility) {
+  auto gross = [&](const Outlier& o) {
+    const double ratio = o.observed / o.predicted;
+    return std::isfinite(ratio) && ratio > 0 &&
+           (ratio >= checks.gross_outlier_ratio || ratio <= 1.0 / checks.gross_outlier_ratio);
+  };
+  // One error, one warning: a quote of a cell that is itself gross is not
+  // named again.
+  std::vector<std::pair<int, int>> gross_cells;
+  for (const Outlier& o : outliers.outliers) {
+    if (o.kind == OutlierKind::kCell && gross(o)) gross_cells.push_back({o.region, o.item});
+  }
+  std::sort(gross_cells.begin(), gross_cells.end());
+  int64_t count = 0;
+  for (const Outlier& o : outliers.outliers) {
+    if (!gross(o)) continue;
+    if (o.kind != OutlierKind::kCell &&
+        std::binary_search(gross_cells.begin(), gross_cells.end(), std::pair(o.region, o.item))) {
+      continue;
+    }
+    const double ratio = o.observed / o.predicted;
+    const int node = survey.classification.headings()[o.heading];
+    const std::string region(survey.regions.Code(o.region));
+    const bool cell = o.kind == OutlierKind::kCell;
+    plausibility->warnings.push_back(
+        {"gross-outlier", survey.heading_codes[o.heading], region,
+         "heading '" + survey.heading_codes[o.heading] + "', region '" + region + "', item '" +
+             std::string(survey.items.Code(o.item)) + "': " + (cell ? "cell price " : "a quote of ") +
+             FormatFixed(o.observed, 2) + " is " + FormatFixed(ratio, 3) +
+             " times the predicted " + FormatFixed(o.predicted, 2) + " (checks.gross_outlier_ratio " +
+             FormatFixed(checks.gross_outlier_ratio, 2) + "); see outliers.csv"});
+    if (plausibility->node_region_kinds.size() > static_cast<size_t>(node)) {
+      Checker::MarkKind("gross-outlier", node, o.region, plausibility);
+    }
+    ++count;
+  }
+  return count;
+}
+
+std::vector<RunWarning> CollectWarnings(const LoadSummary& load,
+                                        const std::vector<std::string>& compute_warnings,
+                                        const PlausibilityResult& plausibility) {
+  std::vector<RunWarning> out;
+  if (load.num_rows_rejected > 0) {
+    out.push_back({"rejected-rows", "", "",
+                   FormatCount(load.num_rows_rejected) +
+                       " invalid rows left out (listed in rejected.csv)"});
+  }
+  for (const std::string& w : load.warnings) out.push_back({"input", "", "", w});
+  for (const std::string& w : compute_warnings) out.push_back({"computation", "", "", w});
+  std::vector<RunWarning> checks = plausibility.warnings;
+  std::stable_sort(checks.begin(), checks.end(), [](const RunWarning& a, const RunWarning& b) {
+    return KindOrder(a.kind) < KindOrder(b.kind);
+  });
+  out.insert(out.end(), checks.begin(), checks.end());
+  std::stable_sort(out.begin(), out.end(), [](const RunWarning& a, const RunWarning& b) {
+    return KindOrder(a.kind) < KindOrder(b.kind);
+  });
+  return out;
+}
+
+std::vector<std::pair<std::string, int64_t>> CountWarnings(const std::vector<RunWarning>& warnings) {
+  std::vector<int64_t> counts(std::size(kKinds) + 1, 0);
+  for (const RunWarning& w : warnings) ++counts[KindOrder(w.kind)];
+  std::vector<std::pair<std::string, int64_t>> out;
+  for (size_t k = 0; k < std::size(kKinds); ++k) {
+    if (counts[k] > 0) out.push_back({kKinds[k].kind, counts[k]});
+  }
+  if (counts.back() > 0) out.push_back({"other", counts.back()});
+  return out;
+}
+
+std::string WarningsText(const std::vector<RunWarning>& warnings, size_t per_kind) {
+  if (warnings.empty()) return "no warnings\n";
+  std::string out = FormatCount(static_cast<int64_t>(warnings.size())) +
+                    (warnings.size() == 1 ? " warning" : " warnings") +
+                    " (every one in warnings.csv):\n";
+  for (size_t k = 0; k < warnings.size();) {
+    size_t end = k;
+    while (end < warnings.size() && warnings[end].kind == warnings[k].kind) ++end;
+    out += "  " + WarningLabel(warnings[k].kind) + " (" + FormatCount(static_cast<int64_t>(end - k)) +
+           "):\n";
+    for (size_t j = k; j < end && j < k + per_kind; ++j) out += "    " + warnings[j].text + "\n";
+    if (end - k > per_kind) {
+      out += "    ... and " + FormatCount(static_cast<int64_t>(end - k - per_kind)) + " more\n";
+    }
+    k = end;
+  }
+  return out;
+}
+
+std::string StrictModeMessage(const std::vector<RunWarning>& warnings) {
+  std::string counts;
+  for (const auto& [kind, count] : CountWarnings(warnings)) {
+    counts += (counts.empty() ? "" : ", ") + WarningLabel(kind) + " " + FormatCount(count);
+  }
+  return "strict: every output was written, but the run raised " +
+         FormatCount(static_cast<int64_t>(warnings.size())) +
+         (warnings.size() == 1 ? " warning (" : " warnings (") + counts +
+         "); see warnings.csv before publishing";
+}
+
+std::string WarningsCsv(const std::vector<RunWarning>& warnings) {
+  std::string out = "kind,node,region,message\n";
+  for (const RunWarning& w : warnings) {
+    AppendCsvField(w.kind, &out);
+    out += ',';
+    AppendCsvField(w.node, &out);
+    out += ',';
+    AppendCsvField(w.region, &out);
+    out += ',';
+    AppendCsvField(w.text, &out);
+    out += '\n';
+  }
+  return out;
+}
+
+}  // namespace paritas
