@@ -328,6 +328,19 @@ std::vector<RunWarning> CollectWarnings(const LoadSummary& load,
                    FormatCount(load.num_rows_rejected) +
                        " invalid rows left out (listed in rejected.csv)"});
   }
+  if (load.num_duplicate_quotes > 0) {
+    const int64_t n = load.num_duplicate_quotes;
+    const char* fate =
+        load.duplicate_policy == DuplicateQuotePolicy::kKeep
+            ? "kept as quotes (duplicate_quotes: keep; set drop or reject to leave them out)"
+        : load.duplicate_policy == DuplicateQuotePolicy::kDrop
+            ? "left out (duplicate_quotes: drop)"
+            : "rejected as invalid rows (duplicate_quotes: reject)";
+    out.push_back({"duplicate-quotes", "", "",
+                   FormatCount(n) + (n == 1 ? " quote row repeats" : " quote rows repeat") +
+                       " an earlier row field for field (the first: " + load.duplicate_example +
+                       "); " + fate});
+  }
   for (const std::string& w : load.warnings) out.push_back({"input", "", "", w});
   for (const std::string& w : compute_warnings) out.push_back({"computation", "", "", w});
   std::vector<RunWarning> checks = plausibility.warnings;

@@ -37,6 +37,10 @@ struct QuoteArrays {
   std::vector<int32_t> item;
   std::vector<double> log_price;
   std::vector<uint8_t> representative;  // empty when prices.csv has no flag column
+  // Hash of the row's fields (all columns) and its line, for finding rows
+  // repeated field for field; emptied once duplicates are handled.
+  std::vector<uint64_t> row_hash;
+  std::vector<int64_t> line;
 
   size_t size() const { return region.size(); }
 };

@@ -111,6 +111,13 @@ bool ReadPrices(const std::string& path, const LoadOptions& options, LoadState* 
                 Rejections* rejections, InputFileSummary* file, std::string* error);
 bool ReadExpenditure(const std::string& path, LoadState* state, Rejections* rejections,
                      InputFileSummary* file, std::string* error);
+// Finds quote rows repeating an earlier row field for field and applies
+// `policy`: keep counts them; drop leaves the repeats out (counted as
+// rejected rows of the file, not as invalid rows); reject rejects each repeat
+// as an invalid row naming the line it repeats. Empties the row hashes and
+// lines of the quotes.
+void HandleDuplicateQuotes(const std::string& path, DuplicateQuotePolicy policy, LoadState* state,
+                           Rejections* rejections, InputFileSummary* file, LoadSummary* summary);
 // Orders regions, headings and items, builds the cells from the quotes
 // (which it empties) and fills the expenditure table.
 void BuildSurvey(LoadState* state, int num_threads, Survey* survey);

@@ -56,6 +56,8 @@ struct ChunkResult {
     quotes.item.clear();
     quotes.log_price.clear();
     quotes.representative.clear();
+    quotes.row_hash.clear();
+    quotes.line.clear();
     rejected.clear();
     num_rejected_not_kept = 0;
     rows_read = 0;
@@ -73,6 +75,18 @@ struct ChunkResult {
   std::vector<int> items_without_heading;
   std::string fatal;  // malformed CSV
 };
+
+// FNV-1a over every field with its length, so rows equal field for field
+// (and only those, up to a 2^-64 chance) hash alike.
+uint64_t HashFields(const CsvRecord& record) {
+  uint64_t h = 14695981039346656037ull;
+  auto mix = [&h](unsigned char byte) { h = (h ^ byte) * 1099511628211ull; };
+  for (std::string_view field : record.fields) {
+    for (size_t k = 0; k < sizeof(size_t); ++k) mix(static_cast<unsigned char>(field.size() >> (8 * k)));
+    for (char c : field) mix(static_cast<unsigned char>(c));
+  }
+  return h;
+}
 
 // Parses one chunk of prices.csv against the state as it was before the
 // block. The row is read field by field; each step returns false once it has
@@ -98,6 +112,8 @@ class ChunkParser {
     out->quotes.item.reserve(expected_rows);
     out->quotes.log_price.reserve(expected_rows);
     if (has_flag_) out->quotes.representative.reserve(expected_rows);
+    out->quotes.row_hash.reserve(expected_rows);
+    out->quotes.line.reserve(expected_rows);
   }
 
   void Run() {
@@ -125,6 +141,8 @@ class ChunkParser {
       out_->quotes.item.push_back(item_local_);
       out_->quotes.log_price.push_back(std::log(price));
       if (has_flag_) out_->quotes.representative.push_back(representative ? 1 : 0);
+      out_->quotes.row_hash.push_back(HashFields(record_));
+      out_->quotes.line.push_back(record_.line);
       ++out_->rows_used;
     }
     if (!reader_.error().empty()) out_->fatal = path_ + ":" + reader_.error();
@@ -494,6 +512,8 @@ class PriceReader {
     quotes.item.reserve(n);
     quotes.log_price.reserve(n);
     if (columns_.representative >= 0) quotes.representative.reserve(n);
+    quotes.row_hash.reserve(n);
+    quotes.line.reserve(n);
   }
 
   int NumThreads(int num_chunks) const {
@@ -558,6 +578,8 @@ class PriceReader {
     global.log_price.insert(global.log_price.end(), local.log_price.begin(), local.log_price.end());
     global.representative.insert(global.representative.end(), local.representative.begin(),
                                  local.representative.end());
+    global.row_hash.insert(global.row_hash.end(), local.row_hash.begin(), local.row_hash.end());
+    global.line.insert(global.line.end(), local.line.begin(), local.line.end());
   }
 
  private:

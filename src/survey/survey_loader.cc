@@ -100,6 +100,8 @@ bool LoadSurvey(const RunConfig& config, const LoadOptions& options, Survey* sur
     return fail(error);
   }
   if (prices_file.rows_read == 0) return fail(prices_file.path + ": no data rows (only a header)");
+  internal::HandleDuplicateQuotes(prices_file.path, config.duplicate_quotes, &state, &rejections,
+                                  &prices_file, summary);
   if (!internal::ReadExpenditure(expenditure_file.path, &state, &rejections, &expenditure_file,
                                  &error)) {
     return fail(error);

@@ -79,7 +79,8 @@ std::vector<RunWarning> OfKind(const ComputeJobSummary& s, const std::string& ki
 // The parities.csv row of a node and region, as a column name -> value map.
 std::map<std::string, std::string> ParityRow(const std::string& dir, const std::string& node,
                                              const std::string& region) {
-  CsvReader reader(ReadTextFile(dir + "/out/parities.csv"));
+  const std::string text = ReadTextFile(dir + "/out/parities.csv");  // outlives the reader's views
+  CsvReader reader(text);
   CsvRecord record;
   EXPECT_TRUE(reader.Next(&record));
   const std::vector<std::string> header(record.fields.begin(), record.fields.end());
@@ -253,6 +254,77 @@ TEST(CheckThresholds, DefaultsAreValidAndBadValuesAreRefused) {
   checks.max_level_ratio = 0.5;
   EXPECT_FALSE(checks.IsValid(&error));
   EXPECT_EQ(error, "checks.max_level_ratio must be a factor above 1, found 0.5");
+}
+
+}  // namespace
+}  // namespace paritas
+
+namespace paritas {
+namespace {
+
+// Writes a two-region survey whose prices.csv repeats line 3 at line 5.
+std::string SurveyWithARepeatedRow(const std::string& name, const std::string& policy) {
+  const std::string dir = testing::MakeTempDir(name);
+  testing::WriteTextFile(dir + "/prices.csv",
+                         "region,item,price,heading,outlet\n"
+                         "north,a,1.50,bread,o1\nsouth,a,1.80,bread,o2\n"
+                         "north,a,1.50,bread,o3\nsouth,a,1.80,bread,o2\n"
+                         "north,b,2.00,bread,o1\nsouth,b,2.20,bread,o2\n");
+  testing::WriteTextFile(dir + "/expenditure.csv",
+                         "region,heading,expenditure\nnorth,bread,1\nsouth,bread,1\n");
+  testing::WriteTextFile(dir + "/config.yaml",
+                         "survey:\n  prices: prices.csv\n  expenditure: expenditure.csv\n" +
+                             (policy.empty() ? "" : "duplicate_quotes: " + policy + "\n"));
+  return dir;
+}
+
+// Duplicated quote rows counted as extra quotes without a word; the same
+// price at another outlet (line 4) is not a repeat.
+TEST(DuplicateQuotes, KeptByDefaultAndNamedWithTheirLines) {
+  const std::string dir = SurveyWithARepeatedRow("dup_keep", "");
+  std::string out, err;
+  ASSERT_EQ(RunCli("compute " + dir + "/config.yaml --no-report --output " + dir + "/out", &out,
+                   &err),
+            0)
+      << err;
+  EXPECT_NE(err.find("  duplicate quote rows (1):\n    1 quote row repeats an earlier row field "
+                     "for field (the first: " +
+                     dir +
+                     "/prices.csv:5 repeats line 3); kept as quotes (duplicate_quotes: keep; set "
+                     "drop or reject to leave them out)\n"),
+            std::string::npos)
+      << err;
+  EXPECT_NE(out.find("6 quotes"), std::string::npos) << out;
+}
+
+TEST(DuplicateQuotes, DropLeavesTheRepeatOutAndTheCountsReconcile) {
+  const std::string dir = SurveyWithARepeatedRow("dup_drop", "drop");
+  std::string out, err;
+  ASSERT_EQ(RunCli("compute " + dir + "/config.yaml --no-report --output " + dir + "/out", &out,
+                   &err),
+            0)
+      << err;
+  EXPECT_NE(out.find("5 quotes"), std::string::npos) << out;
+  const nlohmann::json record = nlohmann::json::parse(ReadTextFile(dir + "/out/run.json"));
+  for (const auto& input : record["inputs"]) {
+    if (input["role"] != "prices") continue;
+    EXPECT_EQ(input["rows_read"], 6);
+    EXPECT_EQ(input["rows_used"], 5);
+    EXPECT_EQ(input["rows_rejected"], 1);
+  }
+  EXPECT_NE(err.find("left out (duplicate_quotes: drop)"), std::string::npos) << err;
+}
+
+TEST(DuplicateQuotes, RejectStopsUnderStopWithTheLines) {
+  const std::string dir = SurveyWithARepeatedRow("dup_reject", "reject");
+  std::string out, err;
+  EXPECT_EQ(RunCli("compute " + dir + "/config.yaml --no-report --output " + dir + "/out", &out,
+                   &err),
+            1);
+  EXPECT_NE(err.find(dir + "/prices.csv:5: the row repeats line 3 field for field "
+                           "(duplicate_quotes: reject)"),
+            std::string::npos)
+      << err;
 }
 
 }  // namespace

@@ -61,6 +61,12 @@ struct LoadSummary {
   // Under kSkip every rejected row; under kStop the first max_reported_rows.
   std::vector<RejectedRow> rejected_rows;
   int64_t num_rows_rejected = 0;
+  // Quote rows of prices.csv repeating an earlier row field for field (each
+  // repeat counted, the first row not), whatever duplicate_quotes did with
+  // them; and the first such pair, e.g. "prices.csv:57 repeats line 12".
+  int64_t num_duplicate_quotes = 0;
+  std::string duplicate_example;
+  DuplicateQuotePolicy duplicate_policy = DuplicateQuotePolicy::kKeep;
   std::vector<std::string> warnings;
   double read_seconds = 0.0;   // reading and validating all files
   double cells_seconds = 0.0;  // building the cell table
