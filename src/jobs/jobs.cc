@@ -46,8 +46,14 @@ std::string FilesReport(const LoadSummary& load) {
   std::string out = "files:\n";
   for (const InputFileSummary& file : load.files) {
     if (!file.given) continue;
-    out += "  " + Pad(file.role, 12) + file.path + ": " + FormatCount(file.rows_read) + " rows read, " +
-           FormatCount(file.rows_used) + " used, " + FormatCount(file.rows_rejected) + " rejected\n";
+    out += "  " + Pad(file.role, 12) + file.path + ": " + FormatCount(file.rows_read) +
+           " rows read, " + FormatCount(file.rows_used) + " used, " +
+           FormatCount(file.rows_rejected) + " rejected";
+    if (file.rows_rejected_by_cascade > 0) {
+      out += " (" + FormatCount(file.rows_rejected_by_cascade) +
+             " of them of rejected regions or items)";
+    }
+    out += "\n";
     if (!file.ignored_columns.empty()) {
       // A header of garbage can hold a million names: list the first few.
       constexpr size_t kMaxListed = 20;
@@ -73,15 +79,7 @@ std::string SurveyCounts(const Survey& survey) {
 }  // namespace
 
 std::string DescribeRejectedRows(const LoadSummary& load, size_t limit) {
-  std::string out;
-  for (size_t k = 0; k < load.rejected_rows.size() && k < limit; ++k) {
-    out += load.rejected_rows[k].reason + "\n";
-  }
-  if (load.num_rows_rejected > static_cast<int64_t>(std::min(limit, load.rejected_rows.size()))) {
-    out += "... " + FormatCount(load.num_rows_rejected - static_cast<int64_t>(std::min(limit, load.rejected_rows.size()))) +
-           " more\n";
-  }
-  return out;
+  return load.DescribeRejections(limit);
 }
 
 bool ResolveMatrixNodes(const Classification& tree, const std::vector<std::string>& codes,
@@ -314,9 +312,14 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
   summary->stages.push_back({"aggregation", summary->compute.aggregation_seconds});
   summary->warnings = summary->compute.warnings;
   if (summary->load.num_rows_rejected > 0) {
-    summary->warnings.insert(summary->warnings.begin(),
-                             FormatCount(summary->load.num_rows_rejected) +
-                                 " invalid rows left out (listed in rejected.csv)");
+    // Rejected codes and heading conflicts once each, not row by row.
+    std::vector<std::string> notes = {FormatCount(summary->load.num_rows_rejected) +
+                                      " invalid rows left out (listed in rejected.csv)"};
+    for (const HeadingConflict& conflict : summary->load.heading_conflicts) {
+      notes.push_back(conflict.Describe(config.survey.prices));
+    }
+    for (const RejectedCode& code : summary->load.rejected_codes) notes.push_back(code.Describe());
+    summary->warnings.insert(summary->warnings.begin(), notes.begin(), notes.end());
   }
 
   // Outputs, written whole or not at all.
