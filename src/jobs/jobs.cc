@@ -146,11 +146,19 @@ int RunCheck(const RunConfig& config, CheckSummary* summary) {
     if (check.groups.size() > 1) ++summary->num_unlinked_headings;
     summary->headings.push_back(std::move(check));
   }
+  // What compute would refuse, check refuses with the same message.
+  std::string compute_problem;
   if (summary->num_unlinked_headings == 0) {
     // Outlier screening needs the parities; they are cheap next to reading.
     ParityResult result;
     ComputeSummary compute;
-    if (ComputeParities(survey, ComputeOptions::FromConfig(config), &result, &compute)) {
+    std::vector<int> matrix_nodes;
+    const bool computed =
+        ResolveMatrixNodes(survey.classification, config.matrices, &matrix_nodes,
+                           &compute_problem) &&
+        ComputeParities(survey, ComputeOptions::FromConfig(config), &result, &compute);
+    if (!computed && compute_problem.empty()) compute_problem = compute.message;
+    if (computed) {
       OutlierOptions outlier_options;
       outlier_options.threshold = config.outlier_threshold;
       summary->outlier_threshold = config.outlier_threshold;
@@ -158,12 +166,14 @@ int RunCheck(const RunConfig& config, CheckSummary* summary) {
       for (HeadingCheck& check : summary->headings) check.num_flagged_cells = report.num_flagged_cells[check.heading];
     }
   }
-  summary->usable = summary->num_unlinked_headings == 0;
+  summary->usable = summary->num_unlinked_headings == 0 && compute_problem.empty();
   summary->exit_code = summary->usable ? kExitOk : kExitInvalidInput;
-  summary->message = summary->usable
-                         ? "the survey is usable"
-                         : std::to_string(summary->num_unlinked_headings) +
-                               " heading(s) have unlinked regions: parities are not identified there";
+  summary->message =
+      summary->usable ? "the survey is usable"
+      : !compute_problem.empty()
+          ? compute_problem
+          : std::to_string(summary->num_unlinked_headings) +
+                " heading(s) have unlinked regions: parities are not identified there";
   return summary->exit_code;
 }
 
