@@ -812,15 +812,20 @@ std::string CheckSurveyLoader(std::string_view data, const std::string& work_dir
            Str(skip_summary.num_rows_rejected) + " (" + stop_summary.message + " / " +
            skip_summary.message + ")";
   }
-  const size_t num_listed = std::min<size_t>(skip_summary.rejected_rows.size(),
-                                             static_cast<size_t>(stop_options.max_reported_rows));
+  // Stop does not list the rows of rejected regions and items: they are
+  // described once per code.
+  std::vector<const RejectedRow*> own_rows;
+  for (const RejectedRow& row : skip_summary.rejected_rows) {
+    if (row.cause != RejectionCause::kRejectedCode) own_rows.push_back(&row);
+  }
+  const size_t num_listed =
+      std::min<size_t>(own_rows.size(), static_cast<size_t>(stop_options.max_reported_rows));
   if (stop_summary.rejected_rows.size() != num_listed) {
     return "stop lists " + Str(stop_summary.rejected_rows.size()) + " rows, expected " +
            Str(num_listed);
   }
   for (size_t i = 0; i < num_listed; ++i) {
-    if (std::string d =
-            RejectedDifference(skip_summary.rejected_rows[i], stop_summary.rejected_rows[i]);
+    if (std::string d = RejectedDifference(*own_rows[i], stop_summary.rejected_rows[i]);
         !d.empty()) {
       return "stop: " + d;
     }

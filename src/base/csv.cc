@@ -23,6 +23,8 @@
 #include <unordered_set>
 #include <utility>
 
+#include "paritas/base/text.h"
+
 #if defined(__SSE2__)
 #include <emmintrin.h>
 #endif
@@ -32,21 +34,12 @@ namespace {
 
 constexpr std::string_view kUtf8Bom = "\xEF\xBB\xBF";
 
-constexpr std::array<bool, 256> MakeSpecialTable() {
-  std::array<bool, 256> table{};
-  table[static_cast<unsigned char>(',')] = true;
-  table[static_cast<unsigned char>('"')] = true;
-  table[static_cast<unsigned char>('\n')] = true;
-  table[static_cast<unsigned char>('\r')] = true;
-  return table;
-}
-constexpr std::array<bool, 256> kIsSpecial = MakeSpecialTable();
-
-// Returns the first byte in [p, end) that is ',', '"', LF or CR, or `end`.
-// Loads only whole 16-byte blocks inside the range, so it never reads past it.
-inline const char* FindSpecial(const char* p, const char* end) {
+// Returns the first byte in [p, end) that is the delimiter, '"', LF or CR,
+// or `end`. Loads only whole 16-byte blocks inside the range, so it never
+// reads past it.
+inline const char* FindSpecial(const char* p, const char* end, char delimiter) {
 #if defined(__SSE2__)
-  const __m128i comma = _mm_set1_epi8(',');
+  const __m128i comma = _mm_set1_epi8(delimiter);
   const __m128i quote = _mm_set1_epi8('"');
   const __m128i lf = _mm_set1_epi8('\n');
   const __m128i cr = _mm_set1_epi8('\r');
@@ -60,7 +53,7 @@ inline const char* FindSpecial(const char* p, const char* end) {
     p += 16;
   }
 #endif
-  while (p < end && !kIsSpecial[static_cast<unsigned char>(*p)]) ++p;
+  while (p < end && *p != delimiter && *p != '"' && *p != '\n' && *p != '\r') ++p;
   return p;
 }
 
@@ -205,7 +198,7 @@ bool CsvReader::Next(CsvRecord* record) {
   const char* next = end;        // First byte after it.
   for (;;) {
     if (*p != '"') {
-      const char* stop = FindSpecial(p, end);
+      const char* stop = FindSpecial(p, end, delimiter_);
       if (!WithinLimits(record_begin, p, stop, stop, line_, field_number, false, record)) {
         return false;
       }
@@ -228,7 +221,7 @@ bool CsvReader::Next(CsvRecord* record) {
       }
       record->fields.emplace_back(content, quote - content);
       p = quote + 1;
-      if (p < end && *p != ',' && *p != '\n' && *p != '\r') {
+      if (p < end && *p != delimiter_ && *p != '\n' && *p != '\r') {
         return Fail(line_, field_number, "unexpected text after closing quote", record);
       }
     }
@@ -236,10 +229,10 @@ bool CsvReader::Next(CsvRecord* record) {
     // Here p is at a separator, a line terminator, a quote or the end.
     if (p == end) break;
     const char c = *p;
-    if (c == ',') {
+    if (c == delimiter_) {
       ++p;
       ++field_number;
-      if (p == end) {  // A trailing comma at the end of the data: one more, empty field.
+      if (p == end) {  // A trailing delimiter at the end of the data: one more, empty field.
         if (!WithinLimits(record_begin, p, p, p, line_, field_number, false, record)) return false;
         record->fields.emplace_back(p, 0);
         break;
@@ -273,6 +266,48 @@ bool CsvReader::Next(CsvRecord* record) {
   pos_ = next - begin;
   if (has_doubled_quotes) CollapseDoubledQuotes(record);
   return true;
+}
+
+bool FindInvalidUtf8(const CsvRecord& record, char delimiter, int64_t* line, int* field) {
+  const size_t bad = FindInvalidUtf8(record.raw);
+  if (bad == std::string_view::npos) return false;
+  // The raw text up to the byte, read as the reader does: delimiters outside
+  // quotes end fields, LFs (inside quotes) end lines.
+  *line = record.line;
+  *field = 1;
+  bool quoted = false;
+  for (size_t i = 0; i < bad; ++i) {
+    const char c = record.raw[i];
+    if (c == '"') {
+      quoted = !quoted;
+    } else if (c == '\n') {
+      ++*line;
+    } else if (c == delimiter && !quoted) {
+      ++*field;
+    }
+  }
+  return true;
+}
+
+bool CsvFormat::IsValid(std::string* error) const {
+  if (delimiter != ',' && delimiter != ';' && delimiter != '\t') {
+    *error = "delimiter " + FormatCharName(delimiter) + " is not one of ',', ';', tab";
+    return false;
+  }
+  if (decimal != '.' && decimal != ',') {
+    *error = "decimal " + FormatCharName(decimal) + " is not one of '.', ','";
+    return false;
+  }
+  if (delimiter == ',' && decimal == ',') {
+    *error = "decimal ',' needs delimiter ';' or tab (a comma cannot separate both)";
+    return false;
+  }
+  return true;
+}
+
+std::string FormatCharName(char c) {
+  if (c == '\t') return "tab";
+  return "'" + std::string(1, c) + "'";
 }
 
 int64_t CountLineFeeds(std::string_view data) {
@@ -471,10 +506,12 @@ bool ReadWholeFile(const std::string& path, int64_t max_bytes, std::string_view 
   return true;
 }
 
-CsvBlockReader::CsvBlockReader(std::string path, int64_t block_bytes, const ReadLimits& limits)
+CsvBlockReader::CsvBlockReader(std::string path, int64_t block_bytes, const ReadLimits& limits,
+                               char delimiter)
     : path_(std::move(path)),
       block_bytes_(static_cast<size_t>(std::max<int64_t>(block_bytes, 64))),
-      limits_(limits) {}
+      limits_(limits),
+      delimiter_(delimiter) {}
 
 CsvBlockReader::~CsvBlockReader() {
   if (fd_ >= 0) ::close(fd_);
@@ -534,6 +571,7 @@ std::string CsvBlockReader::BeyondLimitError(std::string_view pending) const {
   // text held, and words it as it would for the whole record.
   CsvReader reader(pending, line_, /*skip_bom=*/false);
   reader.set_limits(limits_);
+  reader.set_delimiter(delimiter_);
   CsvRecord record;
   if (!reader.Next(&record) && !reader.error().empty()) return path_ + ":" + reader.error();
   return path_ + ":" + std::to_string(line_) + ": a record longer than " +

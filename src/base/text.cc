@@ -7,6 +7,7 @@
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
+#include <cstring>
 
 namespace paritas {
 
@@ -48,7 +49,15 @@ bool IsBelowOne(std::string_view text) {
 
 }  // namespace
 
-NumberStatus ParseNumber(std::string_view text, double* value) {
+NumberStatus ParseNumber(std::string_view text, double* value, char decimal) {
+  if (decimal == ',') {
+    // from_chars reads only '.': the comma becomes one, and a '.' (a
+    // thousands separator, or a decimal point in a comma file) is refused.
+    if (text.find('.') != std::string_view::npos) return NumberStatus::kInvalid;
+    std::string copy(text);
+    std::replace(copy.begin(), copy.end(), ',', '.');
+    return ParseNumber(copy, value, '.');
+  }
   text = Trim(text);
   if (text.empty()) return NumberStatus::kEmpty;
   if (text.front() == '+') {
@@ -131,11 +140,16 @@ std::string FormatCount(int64_t value) {
 }
 
 std::string QuoteValue(std::string_view text) {
-  std::string shown(text.substr(0, 60));
+  size_t cut = std::min<size_t>(text.size(), 60);
+  // Never inside a UTF-8 character: continuation bytes are 10xxxxxx.
+  while (cut < text.size() && cut > 0 && (static_cast<unsigned char>(text[cut]) & 0xC0) == 0x80) {
+    --cut;
+  }
+  std::string shown(text.substr(0, cut));
   for (char& c : shown) {
     if (c == '\n' || c == '\r') c = ' ';
   }
-  if (text.size() > 60) shown += "...";
+  if (text.size() > cut) shown += "...";
   return "'" + shown + "'";
 }
 
@@ -163,6 +177,94 @@ std::string NumberProblem(NumberStatus status, std::string_view what, std::strin
       break;
   }
   return "";
+}
+
+namespace {
+
+bool IsDigit(char c) { return c >= '0' && c <= '9'; }
+bool AllDigits(std::string_view text) {
+  return !text.empty() && std::all_of(text.begin(), text.end(), IsDigit);
+}
+
+// True when `digits` is a whole number grouped by `separator` in threes:
+// "1,200,000", "12,000".
+bool IsGroupedNumber(std::string_view digits, char separator) {
+  size_t at = digits.find(separator);
+  if (at == std::string_view::npos || at == 0 || at > 3 || !AllDigits(digits.substr(0, at))) {
+    return false;
+  }
+  while (at != std::string_view::npos) {
+    const size_t next = digits.find(separator, at + 1);
+    const std::string_view group = digits.substr(
+        at + 1, next == std::string_view::npos ? std::string_view::npos : next - at - 1);
+    if (group.size() != 3 || !AllDigits(group)) return false;
+    at = next;
+  }
+  return true;
+}
+
+std::string Without(std::string_view text, std::string_view removed) {
+  std::string out;
+  for (char c : text) {
+    if (removed.find(c) == std::string_view::npos) out += c;
+  }
+  return out;
+}
+
+}  // namespace
+
+std::string NumberHint(std::string_view text, char decimal, std::string_view setting) {
+  text = Trim(text);
+  std::string_view body = text;
+  if (!body.empty() && (body.front() == '-' || body.front() == '+')) body.remove_prefix(1);
+  const char other = decimal == ',' ? '.' : ',';
+  // The whole part (before the file's own decimal mark) and what follows.
+  const size_t mark = body.find(decimal);
+  const std::string_view whole = body.substr(0, mark);
+  const std::string_view fraction =
+      mark == std::string_view::npos ? std::string_view() : body.substr(mark + 1);
+  if (mark != std::string_view::npos && !AllDigits(fraction)) return "";
+  const std::string thousands = "thousands separators are not allowed (write " +
+                                Without(text, std::string(1, other) + " '") + ")";
+  if (whole.find_first_of(" '") != std::string_view::npos) {
+    // "1 200 000", "1'200'000": spaces or apostrophes between digit groups.
+    const bool grouped =
+        IsGroupedNumber(Without(whole, "'"), ' ') || IsGroupedNumber(Without(whole, " "), '\'');
+    return grouped && whole.find(other) == std::string_view::npos ? thousands : "";
+  }
+  const bool as_thousands = IsGroupedNumber(whole, other);
+  // One foreign mark, digits on both sides, and no mark of the file's own.
+  const size_t foreign = whole.find(other);
+  const bool as_decimal = mark == std::string_view::npos && foreign != std::string_view::npos &&
+                          whole.find(other, foreign + 1) == std::string_view::npos &&
+                          AllDigits(whole.substr(0, foreign)) &&
+                          AllDigits(whole.substr(foreign + 1));
+  std::string decimal_hint;
+  if (decimal == ',') {
+    decimal_hint = "this file's decimal mark is ','";
+    if (!setting.empty()) decimal_hint += " (" + std::string(setting) + ")";
+  } else if (setting.empty()) {
+    decimal_hint = "a decimal comma is not allowed here (write " +
+                   std::string(whole.substr(0, foreign)) + "." +
+                   std::string(whole.substr(foreign + 1)) + ")";
+  } else {
+    decimal_hint =
+        "a decimal comma needs decimal: ',' for this file (" + std::string(setting) + ")";
+  }
+  if (as_thousands && as_decimal) return thousands + ", and " + decimal_hint;
+  if (as_thousands) return thousands;
+  if (as_decimal) return decimal_hint;
+  return "";
+}
+
+std::string NumberProblem(NumberStatus status, std::string_view what, std::string_view text,
+                          char decimal, std::string_view setting) {
+  std::string problem = NumberProblem(status, what, text);
+  if (status == NumberStatus::kInvalid) {
+    const std::string hint = NumberHint(text, decimal, setting);
+    if (!hint.empty()) problem += "; " + hint;
+  }
+  return problem;
 }
 
 int EditDistance(std::string_view a, std::string_view b, int max_distance) {
@@ -263,6 +365,50 @@ bool IsBidiControl(uint32_t cp) {
 
 }  // namespace
 
+size_t FindInvalidUtf8(std::string_view text) {
+  size_t i = 0;
+  while (i < text.size()) {
+    // Runs of ASCII, eight bytes at a time.
+    while (i + 8 <= text.size()) {
+      uint64_t word;
+      std::memcpy(&word, text.data() + i, 8);
+      if ((word & 0x8080808080808080ull) != 0) break;
+      i += 8;
+    }
+    if (i >= text.size()) break;
+    uint32_t cp = 0;
+    const int length = Utf8Sequence(text, i, &cp);
+    if (length == 0) return i;
+    i += length;
+  }
+  return std::string_view::npos;
+}
+
+std::string ValidUtf8(std::string_view text) {
+  static const char* kHex = "0123456789abcdef";
+  if (FindInvalidUtf8(text) == std::string_view::npos) return std::string(text);
+  std::string out;
+  for (size_t i = 0; i < text.size();) {
+    uint32_t cp = 0;
+    const int length = Utf8Sequence(text, i, &cp);
+    if (length > 0) {
+      out.append(text.substr(i, length));
+      i += length;
+      continue;
+    }
+    const unsigned char c = static_cast<unsigned char>(text[i++]);
+    out += "\\x";
+    out += kHex[c >> 4];
+    out += kHex[c & 15];
+  }
+  return out;
+}
+
+std::string Utf8Problem(std::string_view what, std::string_view field) {
+  return std::string(what) + " " + QuoteValue(VisibleText(field)) + " is not valid UTF-8 (" +
+         std::string(kUtf8Advice) + ")";
+}
+
 std::string VisibleText(std::string_view text) {
   static const char* kHex = "0123456789abcdef";
   std::string out;
@@ -283,7 +429,7 @@ std::string VisibleText(std::string_view text) {
       out += kHex[cp >> 4];
       out += kHex[cp & 15];
     } else if ((cp >= 0x80 && cp <= 0x9F) || IsBidiControl(cp)) {
-      char buffer[8];
+      char buffer[16];  // Room for any 32-bit value, so no truncation warning.
       std::snprintf(buffer, sizeof(buffer), "\\u%04x", static_cast<unsigned>(cp));
       out += buffer;
     } else {

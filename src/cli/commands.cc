@@ -13,7 +13,7 @@ namespace {
 
 
 void PrintLoadFailure(const LoadSummary& load) {
-  if (!load.rejected_rows.empty()) PrintErr(DescribeRejectedRows(load));
+  if (load.num_rows_rejected > 0) PrintErr(DescribeRejectedRows(load));
   PrintError(load.message);
 }
 

@@ -332,6 +332,26 @@ void NormaliseAndFinish(const Survey& survey, const ComputeOptions& options,
   FinishNode(survey, log_parity, node);
 }
 
+// Says why an aggregate none of whose headings has price quotes has no
+// parities (empty when some heading has quotes); `check` reports the same.
+std::string UnpricedAggregate(const Survey& survey, const ParityResult& result,
+                              const ClassificationNode& n) {
+  std::vector<std::string> codes;
+  for (int h : n.headings) {
+    if (result.headings[h].num_cells > 0) return "";
+    if (codes.size() < 8) codes.push_back(survey.heading_codes[h]);
+  }
+  if (n.headings.size() > codes.size()) codes.back() = "...";
+  const std::string advice = ", or take the aggregate out of the classification";
+  if (n.headings.size() == 1) {
+    return "aggregate '" + n.code + "' has no parities: its only heading (" + codes.front() +
+           ") has no price quotes; price it" + advice;
+  }
+  return "aggregate '" + n.code + "' has no parities: none of its " +
+         std::to_string(n.headings.size()) + " headings (" + JoinNames(codes) +
+         ") has price quotes; price one of them" + advice;
+}
+
 // Stage 2b: every node in classification order; returns false with the
 // summary set when some aggregate's regions are not linked.
 bool FinishNodes(const Survey& survey, const ComputeOptions& options,
@@ -361,6 +381,10 @@ bool FinishNodes(const Survey& survey, const ComputeOptions& options,
     ++summary->num_aggregates;
     const AggregateParities& aggregate = aggregate_of[index];
     FillAggregateNode(n, aggregate, *result, &node);
+    if (std::string unpriced = UnpricedAggregate(survey, *result, n); !unpriced.empty()) {
+      failures.push_back(unpriced);
+      continue;
+    }
     if (!aggregate.identified) {
       failures.push_back(
           "aggregate '" + n.code + "' is not linked: its regions fall into " +

@@ -327,6 +327,17 @@ std::vector<RunWarning> CollectWarnings(const LoadSummary& load,
     out.push_back({"rejected-rows", "", "",
                    FormatCount(load.num_rows_rejected) +
                        " invalid rows left out (listed in rejected.csv)"});
+    // Rejected codes and heading conflicts once each, not row by row.
+    std::string prices_path;
+    for (const InputFileSummary& file : load.files) {
+      if (file.role == "prices") prices_path = file.path;
+    }
+    for (const HeadingConflict& conflict : load.heading_conflicts) {
+      out.push_back({"rejected-rows", "", "", conflict.Describe(prices_path)});
+    }
+    for (const RejectedCode& code : load.rejected_codes) {
+      out.push_back({"rejected-rows", "", "", code.Describe()});
+    }
   }
   if (load.num_duplicate_quotes > 0) {
     const int64_t n = load.num_duplicate_quotes;

@@ -46,8 +46,14 @@ std::string FilesReport(const LoadSummary& load) {
   std::string out = "files:\n";
   for (const InputFileSummary& file : load.files) {
     if (!file.given) continue;
-    out += "  " + Pad(file.role, 12) + file.path + ": " + FormatCount(file.rows_read) + " rows read, " +
-           FormatCount(file.rows_used) + " used, " + FormatCount(file.rows_rejected) + " rejected\n";
+    out += "  " + Pad(file.role, 12) + file.path + ": " + FormatCount(file.rows_read) +
+           " rows read, " + FormatCount(file.rows_used) + " used, " +
+           FormatCount(file.rows_rejected) + " rejected";
+    if (file.rows_rejected_by_cascade > 0) {
+      out += " (" + FormatCount(file.rows_rejected_by_cascade) +
+             " of them of rejected regions or items)";
+    }
+    out += "\n";
     if (!file.ignored_columns.empty()) {
       // A header of garbage can hold a million names: list the first few.
       constexpr size_t kMaxListed = 20;
@@ -73,15 +79,7 @@ std::string SurveyCounts(const Survey& survey) {
 }  // namespace
 
 std::string DescribeRejectedRows(const LoadSummary& load, size_t limit) {
-  std::string out;
-  for (size_t k = 0; k < load.rejected_rows.size() && k < limit; ++k) {
-    out += load.rejected_rows[k].reason + "\n";
-  }
-  if (load.num_rows_rejected > static_cast<int64_t>(std::min(limit, load.rejected_rows.size()))) {
-    out += "... " + FormatCount(load.num_rows_rejected - static_cast<int64_t>(std::min(limit, load.rejected_rows.size()))) +
-           " more\n";
-  }
-  return out;
+  return load.DescribeRejections(limit);
 }
 
 bool ResolveMatrixNodes(const Classification& tree, const std::vector<std::string>& codes,
@@ -148,11 +146,19 @@ int RunCheck(const RunConfig& config, CheckSummary* summary) {
     if (check.groups.size() > 1) ++summary->num_unlinked_headings;
     summary->headings.push_back(std::move(check));
   }
+  // What compute would refuse, check refuses with the same message.
+  std::string compute_problem;
   if (summary->num_unlinked_headings == 0) {
     // Outlier screening needs the parities; they are cheap next to reading.
     ParityResult result;
     ComputeSummary compute;
-    if (ComputeParities(survey, ComputeOptions::FromConfig(config), &result, &compute)) {
+    std::vector<int> matrix_nodes;
+    const bool computed =
+        ResolveMatrixNodes(survey.classification, config.matrices, &matrix_nodes,
+                           &compute_problem) &&
+        ComputeParities(survey, ComputeOptions::FromConfig(config), &result, &compute);
+    if (!computed && compute_problem.empty()) compute_problem = compute.message;
+    if (computed) {
       OutlierOptions outlier_options;
       outlier_options.threshold = config.outlier_threshold;
       summary->outlier_threshold = config.outlier_threshold;
@@ -160,12 +166,14 @@ int RunCheck(const RunConfig& config, CheckSummary* summary) {
       for (HeadingCheck& check : summary->headings) check.num_flagged_cells = report.num_flagged_cells[check.heading];
     }
   }
-  summary->usable = summary->num_unlinked_headings == 0;
+  summary->usable = summary->num_unlinked_headings == 0 && compute_problem.empty();
   summary->exit_code = summary->usable ? kExitOk : kExitInvalidInput;
-  summary->message = summary->usable
-                         ? "the survey is usable"
-                         : std::to_string(summary->num_unlinked_headings) +
-                               " heading(s) have unlinked regions: parities are not identified there";
+  summary->message =
+      summary->usable ? "the survey is usable"
+      : !compute_problem.empty()
+          ? compute_problem
+          : std::to_string(summary->num_unlinked_headings) +
+                " heading(s) have unlinked regions: parities are not identified there";
   return summary->exit_code;
 }
 

@@ -4,32 +4,43 @@
 
 #include <filesystem>
 #include <map>
-
 #include <nlohmann/json.hpp>
 
 #include "base/sha256.h"
 #include "paritas/base/csv.h"
 #include "paritas/base/read_limits.h"
+#include "paritas/base/text.h"
 
 namespace paritas {
 namespace {
 
 using Json = nlohmann::ordered_json;
 
+// Text from outside (paths given on the command line, messages quoting
+// data) may hold bytes that are not UTF-8, on which nlohmann::json throws:
+// those bytes are written as "\xNN".
+std::vector<std::string> ValidTexts(const std::vector<std::string>& texts) {
+  std::vector<std::string> out;
+  out.reserve(texts.size());
+  for (const std::string& text : texts) out.push_back(ValidUtf8(text));
+  return out;
+}
+
 Json ConfigJson(const RunConfig& config) {
-  Json survey = {{"prices", config.survey.prices},
-                 {"expenditure", config.survey.expenditure},
-                 {"regions", config.survey.regions},
-                 {"items", config.survey.items}};
-  Json out = {{"config_path", config.config_path},
+  Json survey = {{"prices", ValidUtf8(config.survey.prices)},
+                 {"expenditure", ValidUtf8(config.survey.expenditure)},
+                 {"regions", ValidUtf8(config.survey.regions)},
+                 {"items", ValidUtf8(config.survey.items)}};
+  Json out = {{"config_path", ValidUtf8(config.config_path)},
               {"survey", survey},
-              {"classification", config.has_classification ? config.classification_source : "(all headings under 'all')"},
+              {"classification", config.has_classification ? ValidUtf8(config.classification_source)
+                                                           : "(all headings under 'all')"},
               {"reference", config.reference.ToString()},
               {"elementary", config.elementary},
               {"aggregation", config.aggregation},
               {"invalid_rows", ToString(config.invalid_rows)},
-              {"output", config.output},
-              {"matrices", config.matrices},
+              {"output", ValidUtf8(config.output)},
+              {"matrices", ValidTexts(config.matrices)},
               {"representative_weight", config.representative_weight},
               {"outlier_threshold", config.outlier_threshold},
               {"robust_standard_errors", config.robust_standard_errors},
@@ -62,7 +73,7 @@ std::string RunRecordJson(const RunRecord& record) {
   if (!record.run_id.empty()) out["run_id"] = record.run_id;
   out["command"] = record.command;
   out["outcome"] = record.outcome;
-  out["message"] = record.message;
+  out["message"] = ValidUtf8(record.message);
   out["exit_code"] = record.exit_code;
   if (record.config != nullptr) out["configuration"] = ConfigJson(*record.config);
   if (record.load != nullptr) {
@@ -70,16 +81,31 @@ std::string RunRecordJson(const RunRecord& record) {
     for (const InputFileSummary& file : record.load->files) {
       if (!file.given) continue;
       inputs.push_back({{"role", file.role},
-                        {"path", file.path},
+                        {"path", ValidUtf8(file.path)},
+                        {"delimiter", std::string(1, file.format.delimiter)},
+                        {"decimal", std::string(1, file.format.decimal)},
                         {"size_bytes", file.size_bytes},
                         {"sha256", file.sha256},
                         {"rows_read", file.rows_read},
                         {"rows_used", file.rows_used},
                         {"rows_rejected", file.rows_rejected},
-                        {"ignored_columns", file.ignored_columns}});
+                        {"rows_rejected_by_cascade", file.rows_rejected_by_cascade},
+                        {"ignored_columns", ValidTexts(file.ignored_columns)}});
     }
     out["inputs"] = inputs;
     out["rows_rejected"] = record.load->num_rows_rejected;
+    out["rows_rejected_by_cascade"] = record.load->num_rows_rejected_by_cascade;
+    Json codes = Json::array();
+    for (const RejectedCode& code : record.load->rejected_codes) {
+      codes.push_back({{"kind", code.kind},
+                       {"code", ValidUtf8(code.code)},
+                       {"file", ValidUtf8(code.file)},
+                       {"line", code.line},
+                       {"reason", ValidUtf8(code.reason)},
+                       {"price_rows", code.num_price_rows},
+                       {"expenditure_rows", code.num_expenditure_rows}});
+    }
+    out["rejected_codes"] = codes;
   }
   if (record.survey != nullptr) {
     const Survey& s = *record.survey;
@@ -108,14 +134,14 @@ std::string RunRecordJson(const RunRecord& record) {
     out["warning_counts"] = counts;
   }
   const size_t listed = std::min(record.warnings.size(), kMaxRecordedWarnings);
-  out["warnings"] = std::vector<std::string>(record.warnings.begin(),
-                                             record.warnings.begin() + listed);
+  out["warnings"] = ValidTexts(std::vector<std::string>(
+      record.warnings.begin(), record.warnings.begin() + listed));
   if (record.output_digests.empty()) {
     out["outputs"] = record.outputs;
   } else {
     Json outputs = Json::array();
     for (const OutputDigest& d : record.output_digests) {
-      outputs.push_back({{"path", d.path}, {"bytes", d.bytes}, {"sha256", d.sha256}});
+      outputs.push_back({{"path", ValidUtf8(d.path)}, {"bytes", d.bytes}, {"sha256", d.sha256}});
     }
     outputs.push_back({{"path", "run.json"}});
     out["outputs"] = outputs;
@@ -126,7 +152,9 @@ std::string RunRecordJson(const RunRecord& record) {
   for (const auto& [key, text] : record.sections) {
     out[key] = Json::parse(text, nullptr, /*allow_exceptions=*/false);
   }
-  return out.dump(2) + "\n";
+  // Every string above is valid UTF-8; should one slip through, it is
+  // written with U+FFFD rather than abort the run (dump throws by default).
+  return out.dump(2, ' ', false, Json::error_handler_t::replace) + "\n";
 }
 
 bool ReadRunRecord(const std::string& folder, std::string* run_id, std::string* json,

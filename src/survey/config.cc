@@ -2,12 +2,13 @@
 // an error with a suggestion rather than a silently ignored setting.
 #include "paritas/survey/config.h"
 
+#include <yaml-cpp/yaml.h>
+
+#include <algorithm>
 #include <cmath>
 #include <filesystem>
 #include <map>
 #include <string_view>
-
-#include <yaml-cpp/yaml.h>
 
 #include "paritas/aggregation/aggregation_method.h"
 #include "paritas/base/csv.h"
@@ -92,6 +93,8 @@ const std::vector<std::string> kCheckKeys = {"min_basket_share",   "min_items",
                                              "min_quotes",         "max_level_ratio",
                                              "max_spread_percent", "gross_outlier_ratio"};
 const std::vector<std::string> kSurveyKeys = {"prices", "expenditure", "regions", "items"};
+// Keys of a survey file given as a mapping.
+const std::vector<std::string> kFileKeys = {"path", "delimiter", "decimal"};
 const std::vector<std::string> kLimitKeys = {"max_file_bytes", "max_yaml_bytes", "max_record_bytes",
                                              "max_field_bytes", "max_yaml_depth"};
 // The configuration file itself is read before its `limits:` are known.
@@ -266,18 +269,14 @@ class ConfigParser {
     }
     if (!CheckKeys(survey, kSurveyKeys, "survey", error)) return false;
     SurveyFiles& files = config_->survey;
-    if (survey["prices"] && !Path(survey["prices"], "survey.prices", &files.prices, error)) {
-      return false;
-    }
-    if (survey["expenditure"] &&
-        !Path(survey["expenditure"], "survey.expenditure", &files.expenditure, error)) {
-      return false;
-    }
-    if (survey["regions"] && !Path(survey["regions"], "survey.regions", &files.regions, error)) {
-      return false;
-    }
-    if (survey["items"] && !Path(survey["items"], "survey.items", &files.items, error)) {
-      return false;
+    std::string* const paths[] = {&files.prices, &files.expenditure, &files.regions, &files.items};
+    CsvFormat* const formats[] = {&files.prices_format, &files.expenditure_format,
+                                  &files.regions_format, &files.items_format};
+    for (size_t k = 0; k < kSurveyKeys.size(); ++k) {
+      const YAML::Node node = survey[kSurveyKeys[k]];
+      if (node && !SurveyFile(node, "survey." + kSurveyKeys[k], paths[k], formats[k], error)) {
+        return false;
+      }
     }
     for (const char* required : {"prices", "expenditure"}) {
       if (!survey[required]) {
@@ -285,6 +284,49 @@ class ConfigParser {
         return false;
       }
     }
+    return true;
+  }
+
+  // A file path, or a mapping {path, delimiter, decimal}.
+  bool SurveyFile(const YAML::Node& node, const std::string& key, std::string* path,
+                  CsvFormat* format, std::string* error) {
+    if (!node.IsMap()) return Path(node, key, path, error);
+    if (!CheckKeys(node, kFileKeys, key, error)) return false;
+    if (!node["path"]) {
+      *error = Where(node) + "missing key '" + key + ".path'";
+      return false;
+    }
+    if (!Path(node["path"], key + ".path", path, error)) return false;
+    if (const YAML::Node value = node["delimiter"]) {
+      if (!FormatChar(value, key + ".delimiter", {",", ";", "tab"}, &format->delimiter, error)) {
+        return false;
+      }
+    }
+    if (const YAML::Node value = node["decimal"]) {
+      if (!FormatChar(value, key + ".decimal", {".", ","}, &format->decimal, error)) return false;
+    }
+    if (!format->IsValid(error)) {
+      *error = Where(node) + key + ": " + *error;
+      return false;
+    }
+    return true;
+  }
+
+  // One of `allowed` ("tab" also as a tab character).
+  bool FormatChar(const YAML::Node& node, const std::string& key,
+                  const std::vector<std::string>& allowed, char* value, std::string* error) {
+    std::string text;
+    if (!Scalar(node, key, &text, error)) return false;
+    const std::string word = text == "\t" ? "tab" : ToLower(text);
+    if (std::find(allowed.begin(), allowed.end(), word) == allowed.end()) {
+      std::vector<std::string> quoted;
+      for (const std::string& name : allowed)
+        quoted.push_back(name == "tab" ? name : "'" + name + "'");
+      *error = Where(node) + key + " " + QuoteValue(VisibleText(text)) +
+               " is not one of: " + JoinNames(quoted);
+      return false;
+    }
+    *value = word == "tab" ? '\t' : word[0];
     return true;
   }
 
@@ -642,6 +684,15 @@ bool RunConfig::IsValid(std::string* error) const {
   if (output.empty()) {
     *error = "no output folder given (output)";
     return false;
+  }
+  const CsvFormat* const formats[] = {&survey.prices_format, &survey.expenditure_format,
+                                      &survey.regions_format, &survey.items_format};
+  const char* const keys[] = {"prices", "expenditure", "regions", "items"};
+  for (int k = 0; k < 4; ++k) {
+    if (!formats[k]->IsValid(error)) {
+      *error = "survey." + std::string(keys[k]) + ": " + *error;
+      return false;
+    }
   }
   return checks.IsValid(error) && limits.IsValid(error);
 }

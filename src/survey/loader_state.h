@@ -9,6 +9,7 @@
 #include <cstdint>
 #include <string>
 #include <string_view>
+#include <unordered_map>
 #include <utility>
 #include <vector>
 
@@ -28,18 +29,30 @@ class Rejections {
       : options_(options), summary_(summary) {}
 
   // Counts rejected rows whose text is not kept.
-  void Count(int64_t num_rows, InputFileSummary* file) {
+  void Count(int64_t num_rows, InputFileSummary* file,
+             RejectionCause cause = RejectionCause::kRow) {
     file->rows_rejected += num_rows;
     summary_->num_rows_rejected += num_rows;
+    if (cause == RejectionCause::kRejectedCode) {
+      file->rows_rejected_by_cascade += num_rows;
+      summary_->num_rows_rejected_by_cascade += num_rows;
+    }
   }
 
+  // Counts a rejected row and keeps it when the policy says so: every row
+  // under kSkip, under kStop the first rows that are not of rejected codes.
   void Add(RejectedRow row, InputFileSummary* file) {
-    ++file->rows_rejected;
-    ++summary_->num_rows_rejected;
-    if (options_.invalid_rows == InvalidRowPolicy::kSkip ||
-        static_cast<int>(summary_->rejected_rows.size()) < options_.max_reported_rows) {
+    Count(1, file, row.cause);
+    if (KeepsRow(row.cause, summary_->rejected_rows.size())) {
       summary_->rejected_rows.push_back(std::move(row));
     }
+  }
+
+  // True when a row of `cause` is kept with `num_kept` rows kept already.
+  bool KeepsRow(RejectionCause cause, size_t num_kept) const {
+    return options_.invalid_rows == InvalidRowPolicy::kSkip ||
+           (cause != RejectionCause::kRejectedCode &&
+            static_cast<int>(num_kept) < options_.max_reported_rows);
   }
 
  private:
@@ -51,13 +64,22 @@ class Rejections {
 struct Columns {
   std::vector<int> index;  // per wanted column, -1 when absent
   int num_fields = 0;
+  std::vector<std::string> names;  // the header's names, trimmed
 };
 
-// Reads the header row, checks required and duplicated columns, and records
-// the ignored ones in `file`.
-bool ReadHeader(CsvReader* reader, const std::string& path, const std::vector<std::string>& wanted,
-                const std::vector<bool>& required, Columns* columns, InputFileSummary* file,
-                std::string* error);
+// Reads the header row (fields separated by `delimiter`), checks that it is
+// UTF-8, its required and duplicated columns, and records the ignored ones
+// in `file`.
+bool ReadHeader(CsvReader* reader, const std::string& path, char delimiter,
+                const std::vector<std::string>& wanted, const std::vector<bool>& required,
+                Columns* columns, InputFileSummary* file, std::string* error);
+
+// When `record` holds text that is not UTF-8, sets *column (1-based) and
+// *problem, e.g. "region 'Z\xfcrich' is not valid UTF-8 (the file may be
+// Latin-1 ...)", the field named by its header column in `names`, and
+// returns true.
+bool RowUtf8Problem(const CsvRecord& record, char delimiter, const std::vector<std::string>& names,
+                    int64_t* line, int* column, std::string* problem);
 
 // Checks a code field; returns an empty string when valid, else the reason.
 std::string CheckCode(std::string_view code, const char* what);
@@ -96,7 +118,38 @@ struct LoadState {
     double value;
   };
   std::vector<Spending> spending;
+  // Regions and items rejected in regions.csv and items.csv (never
+  // accepted), with the rows of other files left out because of them; code
+  // -> index in rejected_codes.
+  std::vector<RejectedCode> rejected_codes;
+  std::unordered_map<std::string, int> rejected_region_index;
+  std::unordered_map<std::string, int> rejected_item_index;
+  // Items filed under a second heading; item code -> index in
+  // heading_conflicts.
+  std::vector<HeadingConflict> heading_conflicts;
+  std::unordered_map<std::string, int> heading_conflict_index;
 };
+
+// Remembers the first rejected row of each code of regions.csv or
+// items.csv; Finish keeps the codes that were never accepted.
+class RejectedCodeCollector {
+ public:
+  RejectedCodeCollector(const char* kind, const std::string& path) : kind_(kind), path_(path) {}
+  // A row with a valid `code` was rejected for `reason` at `line`.
+  void Note(std::string_view code, int64_t line, const std::string& reason);
+  // Adds the codes `accepted` does not hold to the state's rejected codes.
+  void Finish(const CodeTable& accepted, LoadState* state);
+
+ private:
+  const char* kind_;
+  const std::string& path_;
+  std::vector<RejectedCode> first_;
+  std::unordered_map<std::string, int> index_;
+};
+
+// The reason for a row left out because its region or item was rejected:
+// "region 'NRD' was rejected at regions.csv:5".
+std::string RejectedCodeReason(const RejectedCode& code);
 
 // What became of a data row: used (empty reason), or rejected for `reason`
 

@@ -29,6 +29,8 @@ constexpr size_t kChunkBytes = 1 << 21;
 struct PriceColumns {
   int region = -1, item = -1, price = -1, heading = -1, representative = -1;
   int num_fields = 0;
+  std::vector<std::string> names;  // the header's names
+  CsvFormat format;
 };
 
 // What a chunk knows about an item it has seen.
@@ -36,6 +38,15 @@ struct LocalItem {
   int global = -1;         // index in LoadState::items when known before the block
   int local_heading = -1;  // local heading index when first stated in this chunk
   int64_t line = 0;        // line of that first statement
+  int rejected = -1;       // index in LoadState::rejected_codes when items.csv rejected it
+};
+
+// Rows of a chunk that filed an item under a heading other than its first.
+struct ConflictCount {
+  std::string item;
+  std::string heading;
+  int64_t num_rows = 0;
+  int64_t first_line = 0;
 };
 
 struct ChunkResult {
@@ -64,6 +75,10 @@ struct ChunkResult {
     rows_used = 0;
     items_without_heading.clear();
     fatal.clear();
+    cascade_rows.clear();
+    num_cascade_not_kept = 0;
+    conflicts.clear();
+    conflict_index.clear();
   }
   std::vector<RejectedRow> rejected;
   // Rejected rows beyond the ones kept for the message (under kStop).
@@ -74,6 +89,13 @@ struct ChunkResult {
   // an earlier chunk may have stated it, which only a pass in order sees.
   std::vector<int> items_without_heading;
   std::string fatal;  // malformed CSV
+  // Rows left out per rejected code (index in LoadState::rejected_codes),
+  // and how many of them were not kept.
+  std::unordered_map<int, int64_t> cascade_rows;
+  int64_t num_cascade_not_kept = 0;
+  // Heading conflicts in order of first appearance; "item\0heading" -> index.
+  std::vector<ConflictCount> conflicts;
+  std::unordered_map<std::string, int> conflict_index;
 };
 
 // FNV-1a over every field with its length, so rows equal field for field
@@ -106,6 +128,7 @@ class ChunkParser {
         has_heading_(columns.heading >= 0),
         has_flag_(columns.representative >= 0) {
     reader_.set_limits(state.config->limits);
+    reader_.set_delimiter(columns.format.delimiter);
     // A quote row takes at least about a dozen bytes.
     const size_t expected_rows = data.size() / 12 + 16;
     out->quotes.region.reserve(expected_rows);
@@ -119,6 +142,14 @@ class ChunkParser {
   void Run() {
     while (reader_.Next(&record_)) {
       ++out_->rows_read;
+      int64_t line = 0;
+      int column = 0;
+      std::string problem;
+      if (RowUtf8Problem(record_, columns_.format.delimiter, columns_.names, &line, &column,
+                         &problem)) {
+        Reject(column, problem, line);
+        continue;
+      }
       if (static_cast<int>(record_.fields.size()) != columns_.num_fields) {
         Reject(FieldCountColumn(record_.fields.size(), columns_.num_fields),
                FieldCountProblem(record_.fields.size(), columns_.num_fields));
@@ -126,6 +157,10 @@ class ChunkParser {
       }
       if (!ReadRegion() || !ReadItem()) continue;
       LocalItem& info = out_->item_info[item_local_];
+      if (info.rejected >= 0) {
+        RejectCascade(columns_.item + 1, info.rejected);
+        continue;
+      }
       // A heading first stated by this row counts only once the row is used,
       // so a rejected row never files an item.
       int new_heading = -1;
@@ -149,14 +184,47 @@ class ChunkParser {
   }
 
  private:
-  void Reject(int column, const std::string& what) {
-    if (keep_all_rejected_ || out_->rejected.size() < max_rejected_) {
-      out_->rejected.push_back({path_, record_.line,
-                                LocatedMessage(path_, record_.line, column, what),
-                                std::string(record_.raw)});
+  // Rejects the row for `what` at `column` of `line` (0: the row's first line).
+  void Reject(int column, const std::string& what, int64_t line = 0,
+              RejectionCause cause = RejectionCause::kRow) {
+    // Under kStop rows of rejected codes are not kept (see
+    // Rejections::KeepsRow); they are described once per code.
+    if (keep_all_rejected_ ||
+        (cause != RejectionCause::kRejectedCode && out_->rejected.size() < max_rejected_)) {
+      RejectedRow row{path_, record_.line,
+                      LocatedMessage(path_, line > 0 ? line : record_.line, column, what),
+                      std::string(record_.raw)};
+      row.cause = cause;
+      out_->rejected.push_back(std::move(row));
+    } else if (cause == RejectionCause::kRejectedCode) {
+      ++out_->num_cascade_not_kept;
     } else {
       ++out_->num_rejected_not_kept;
     }
+  }
+
+  // Rejects the row because its region or item (rejected code `code`) was
+  // rejected in regions.csv or items.csv.
+  void RejectCascade(int column, int code) {
+    ++out_->cascade_rows[code];
+    Reject(column, RejectedCodeReason(state_.rejected_codes[code]), 0,
+           RejectionCause::kRejectedCode);
+  }
+
+  // Rejects the row for filing its item under `heading`, not `first` (stated at `origin`).
+  void RejectConflict(std::string_view item, std::string_view heading, std::string_view first,
+                      const std::string& origin) {
+    std::string key = std::string(item) + '\0' + std::string(heading);
+    const auto [it, inserted] =
+        out_->conflict_index.emplace(std::move(key), static_cast<int>(out_->conflicts.size()));
+    if (inserted) {
+      out_->conflicts.push_back({std::string(item), std::string(heading), 0, record_.line});
+    }
+    ++out_->conflicts[it->second].num_rows;
+    Reject(columns_.heading + 1,
+           "item " + QuoteValue(item) + " is filed under heading " + QuoteValue(heading) +
+               " but under " + QuoteValue(first) + " at " + origin,
+           0, RejectionCause::kHeadingConflict);
   }
 
   bool ReadRegion() {
@@ -168,8 +236,13 @@ class ChunkParser {
       return false;
     }
     if (state_.regions_fixed && state_.regions.Find(code) < 0) {
-      Reject(columns_.region + 1,
-             "region " + QuoteValue(code) + " is not in " + state_.config->survey.regions);
+      const auto rejected = state_.rejected_region_index.find(std::string(code));
+      if (rejected != state_.rejected_region_index.end()) {
+        RejectCascade(columns_.region + 1, rejected->second);
+      } else {
+        Reject(columns_.region + 1,
+               "region " + QuoteValue(code) + " is not in " + state_.config->survey.regions);
+      }
       return false;
     }
     region_local_ = out_->regions.Intern(code);
@@ -200,7 +273,12 @@ class ChunkParser {
         // An item known before this block counts only once its heading is known.
         int global = state_.items.Find(code);
         if (global >= 0 && state_.item_heading[global] < 0) global = -1;
-        out_->item_info.push_back({global, -1, 0});
+        int rejected = -1;
+        if (global < 0 && !state_.rejected_item_index.empty()) {
+          const auto found = state_.rejected_item_index.find(std::string(code));
+          if (found != state_.rejected_item_index.end()) rejected = found->second;
+        }
+        out_->item_info.push_back({global, -1, 0, rejected});
         successor_.push_back(-1);
       }
       if (previous >= 0) successor_[previous] = index;
@@ -226,11 +304,10 @@ class ChunkParser {
           problem = "heading " + QuoteValue(heading) + " is not in the classification";
         }
         if (problem.empty()) {
-          problem = "item " + QuoteValue(item_code) + " is filed under heading " +
-                    QuoteValue(heading) + " but under " + QuoteValue(known) + " at " +
-                    state_.item_origin[info.global];
+          RejectConflict(item_code, heading, known, state_.item_origin[info.global]);
+        } else {
+          Reject(columns_.heading + 1, problem);
         }
-        Reject(columns_.heading + 1, problem);
         return false;
       }
       return true;
@@ -252,10 +329,8 @@ class ChunkParser {
     if (info.local_heading < 0) {
       *new_heading = out_->headings.Intern(heading);
     } else if (out_->headings.Code(info.local_heading) != heading) {
-      Reject(columns_.heading + 1, "item " + QuoteValue(item_code) + " is filed under heading " +
-                                       QuoteValue(heading) + " but under " +
-                                       QuoteValue(out_->headings.Code(info.local_heading)) +
-                                       " at line " + std::to_string(info.line));
+      RejectConflict(item_code, heading, out_->headings.Code(info.local_heading),
+                     "line " + std::to_string(info.line));
       return false;
     }
     return true;
@@ -279,9 +354,10 @@ class ChunkParser {
 
   bool ReadPrice(double* price) {
     const std::string_view price_text = record_.fields[columns_.price];
-    const NumberStatus status = ParseNumber(price_text, price);
+    const NumberStatus status = ParseNumber(price_text, price, columns_.format.decimal);
     if (status != NumberStatus::kOk) {
-      Reject(columns_.price + 1, NumberProblem(status, "price", price_text));
+      Reject(columns_.price + 1,
+             NumberProblem(status, "price", price_text, columns_.format.decimal, "survey.prices"));
       return false;
     }
     if (!(*price > 0)) {
@@ -360,12 +436,14 @@ class PriceReader {
       : path_(path),
         options_(options),
         limits_(state->config->limits),
+        format_(state->config->survey.prices_format),
         state_(state),
         rejections_(rejections),
         file_(file) {}
 
   bool Read(std::string* error) {
-    CsvBlockReader blocks(path_, std::max<int64_t>(options_.block_bytes, 1 << 16), limits_);
+    CsvBlockReader blocks(path_, std::max<int64_t>(options_.block_bytes, 1 << 16), limits_,
+                          format_.delimiter);
     if (!blocks.Open(error)) return false;
     const bool ok = ReadBlocks(&blocks, error);
     file_->size_bytes = blocks.num_bytes_read();
@@ -387,6 +465,7 @@ class PriceReader {
       if (!header_done && !data.empty()) {
         CsvReader reader(data, line, /*skip_bom=*/false);
         reader.set_limits(limits_);
+        reader.set_delimiter(format_.delimiter);
         if (!ReadPriceHeader(&reader, error)) return false;
         data.remove_prefix(reader.position());
         line = reader.line();
@@ -408,10 +487,13 @@ class PriceReader {
 
   bool ReadPriceHeader(CsvReader* reader, std::string* error) {
     Columns found;
-    if (!ReadHeader(reader, path_, {"region", "item", "price", "heading", "representative"},
+    if (!ReadHeader(reader, path_, format_.delimiter,
+                    {"region", "item", "price", "heading", "representative"},
                     {true, true, true, false, false}, &found, file_, error)) {
       return false;
     }
+    columns_.names = std::move(found.names);
+    columns_.format = format_;
     columns_.region = found.index[0];
     columns_.item = found.index[1];
     columns_.price = found.index[2];
@@ -516,6 +598,25 @@ class PriceReader {
     quotes.line.reserve(n);
   }
 
+  // Adds a chunk's rows for one item and heading to the item's conflict.
+  void MergeConflict(const ConflictCount& conflict) {
+    const auto [it, inserted] = state_->heading_conflict_index.emplace(
+        conflict.item, static_cast<int>(state_->heading_conflicts.size()));
+    if (inserted) {
+      HeadingConflict entry;
+      entry.item = conflict.item;
+      state_->heading_conflicts.push_back(std::move(entry));
+    }
+    std::vector<HeadingConflict::Other>& others = state_->heading_conflicts[it->second].others;
+    for (HeadingConflict::Other& other : others) {
+      if (other.heading == conflict.heading) {
+        other.num_rows += conflict.num_rows;
+        return;
+      }
+    }
+    others.push_back({conflict.heading, conflict.num_rows, conflict.first_line});
+  }
+
   int NumThreads(int num_chunks) const {
     const int available = options_.num_threads > 0 ? options_.num_threads : omp_get_max_threads();
     return std::max(1, std::min(available, num_chunks));
@@ -544,6 +645,11 @@ class PriceReader {
     file_->rows_used += result->rows_used;
     for (RejectedRow& row : result->rejected) rejections_->Add(std::move(row), file_);
     rejections_->Count(result->num_rejected_not_kept, file_);
+    rejections_->Count(result->num_cascade_not_kept, file_, RejectionCause::kRejectedCode);
+    for (const auto& [code, num_rows] : result->cascade_rows) {
+      state_->rejected_codes[code].num_price_rows += num_rows;
+    }
+    for (const ConflictCount& conflict : result->conflicts) MergeConflict(conflict);
     std::vector<int> region_map(result->regions.size());
     for (int r = 0; r < result->regions.size(); ++r) {
       region_map[r] = state_->regions.Intern(result->regions.Code(r));
@@ -586,6 +692,7 @@ class PriceReader {
   std::string path_;
   const LoadOptions& options_;
   const ReadLimits& limits_;
+  const CsvFormat format_;
   LoadState* state_;
   Rejections* rejections_;
   InputFileSummary* file_;

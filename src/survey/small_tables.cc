@@ -24,16 +24,31 @@ constexpr size_t kMaxCodeLength = 200;
 struct RowVerdict {
   int column = 0;
   std::string reason;
+  RejectionCause cause = RejectionCause::kRow;
 };
+
+// Called with each rejected row and its problem (without the location).
+using RejectHook = std::function<void(const CsvRecord&, const Columns&, const std::string&)>;
+
+// The trimmed field of `column` (-1: absent) when the record has it and it
+// is a valid code in valid UTF-8, else empty.
+std::string_view ValidCodeField(const CsvRecord& record, int column) {
+  if (column < 0 || static_cast<size_t>(column) >= record.fields.size()) return {};
+  const std::string_view code = Trim(record.fields[column]);
+  if (!CheckCode(code, "code").empty() || FindInvalidUtf8(code) != std::string_view::npos) {
+    return {};
+  }
+  return code;
+}
 
 // Reads a small table whole: checks its header, then hands every data row
 // with the header's number of fields to `handle`, counting rows read, used
 // and rejected.
-bool ReadSmallTable(const std::string& path, const ReadLimits& limits,
+bool ReadSmallTable(const std::string& path, const ReadLimits& limits, const CsvFormat& format,
                     const std::vector<std::string>& wanted, const std::vector<bool>& required,
                     Rejections* rejections, InputFileSummary* file,
                     const std::function<RowVerdict(const CsvRecord&, const Columns&)>& handle,
-                    std::string* error) {
+                    const RejectHook& on_reject, std::string* error) {
   std::string text;
   if (!ReadWholeFile(path, limits.max_file_bytes, LimitAdvice("limits.max_file_bytes"), &text,
                      error)) {
@@ -43,13 +58,20 @@ bool ReadSmallTable(const std::string& path, const ReadLimits& limits,
   file->sha256 = Sha256Hex(text);
   CsvReader reader(text);
   reader.set_limits(limits);
+  reader.set_delimiter(format.delimiter);
   Columns columns;
-  if (!ReadHeader(&reader, path, wanted, required, &columns, file, error)) return false;
+  if (!ReadHeader(&reader, path, format.delimiter, wanted, required, &columns, file, error)) {
+    return false;
+  }
   CsvRecord record;
   while (reader.Next(&record)) {
     ++file->rows_read;
     RowVerdict verdict;
-    if (static_cast<int>(record.fields.size()) != columns.num_fields) {
+    int64_t line = record.line;
+    if (RowUtf8Problem(record, format.delimiter, columns.names, &line, &verdict.column,
+                       &verdict.reason)) {
+      // Checked first: text in another encoding can break any later rule.
+    } else if (static_cast<int>(record.fields.size()) != columns.num_fields) {
       verdict = {FieldCountColumn(record.fields.size(), columns.num_fields),
                  FieldCountProblem(record.fields.size(), columns.num_fields)};
     } else {
@@ -59,10 +81,11 @@ bool ReadSmallTable(const std::string& path, const ReadLimits& limits,
       ++file->rows_used;
       continue;
     }
-    rejections->Add(
-        {path, record.line, LocatedMessage(path, record.line, verdict.column, verdict.reason),
-         std::string(record.raw)},
-        file);
+    if (on_reject) on_reject(record, columns, verdict.reason);
+    RejectedRow row{path, record.line, LocatedMessage(path, line, verdict.column, verdict.reason),
+                    std::string(record.raw)};
+    row.cause = verdict.cause;
+    rejections->Add(std::move(row), file);
   }
   if (!reader.error().empty()) {
     *error = path + ":" + reader.error();
@@ -75,9 +98,9 @@ bool ReadSmallTable(const std::string& path, const ReadLimits& limits,
 
 // Reads the header row, checks required and duplicated columns, and records
 // the ignored ones.
-bool ReadHeader(CsvReader* reader, const std::string& path, const std::vector<std::string>& wanted,
-                const std::vector<bool>& required, Columns* columns, InputFileSummary* file,
-                std::string* error) {
+bool ReadHeader(CsvReader* reader, const std::string& path, char delimiter,
+                const std::vector<std::string>& wanted, const std::vector<bool>& required,
+                Columns* columns, InputFileSummary* file, std::string* error) {
   CsvRecord header;
   if (!reader->Next(&header)) {
     if (!reader->error().empty()) {
@@ -92,8 +115,16 @@ bool ReadHeader(CsvReader* reader, const std::string& path, const std::vector<st
     }
     return false;
   }
+  int64_t bad_line = 0;
+  int bad_field = 0;
+  if (FindInvalidUtf8(header, delimiter, &bad_line, &bad_field)) {
+    *error = LocatedMessage(path, bad_line, bad_field,
+                            Utf8Problem("column name", header.fields[bad_field - 1]));
+    return false;
+  }
   CsvHeader names(header.fields);
   columns->num_fields = static_cast<int>(header.fields.size());
+  columns->names = names.names();
   columns->index.assign(wanted.size(), -1);
   for (size_t i = 0; i < wanted.size(); ++i) {
     columns->index[i] = names.Find(wanted[i]);
@@ -132,6 +163,15 @@ bool ReadHeader(CsvReader* reader, const std::string& path, const std::vector<st
   return true;
 }
 
+bool RowUtf8Problem(const CsvRecord& record, char delimiter, const std::vector<std::string>& names,
+                    int64_t* line, int* column, std::string* problem) {
+  if (!FindInvalidUtf8(record, delimiter, line, column)) return false;
+  const size_t k = static_cast<size_t>(*column - 1);
+  const std::string_view field = k < record.fields.size() ? record.fields[k] : record.raw;
+  *problem = Utf8Problem(k < names.size() ? std::string_view(names[k]) : "field", field);
+  return true;
+}
+
 // Checks a code field; returns an empty string when valid, else the reason.
 std::string CheckCode(std::string_view code, const char* what) {
   if (code.empty()) return std::string(what) + " is empty";
@@ -151,6 +191,34 @@ std::string FieldCountProblem(size_t found, int expected) {
          ", the header has " + std::to_string(expected);
 }
 
+void RejectedCodeCollector::Note(std::string_view code, int64_t line, const std::string& reason) {
+  if (code.empty()) return;
+  const auto [it, inserted] = index_.emplace(code, static_cast<int>(first_.size()));
+  if (!inserted) return;
+  RejectedCode rejected;
+  rejected.kind = kind_;
+  rejected.code = std::string(code);
+  rejected.file = path_;
+  rejected.line = line;
+  rejected.reason = reason;
+  first_.push_back(std::move(rejected));
+}
+
+void RejectedCodeCollector::Finish(const CodeTable& accepted, LoadState* state) {
+  auto& index = std::string_view(kind_) == "region" ? state->rejected_region_index
+                                                    : state->rejected_item_index;
+  for (RejectedCode& code : first_) {
+    if (accepted.Find(code.code) >= 0) continue;  // a later row of the code was used
+    index.emplace(code.code, static_cast<int>(state->rejected_codes.size()));
+    state->rejected_codes.push_back(std::move(code));
+  }
+}
+
+std::string RejectedCodeReason(const RejectedCode& code) {
+  return code.kind + " " + QuoteValue(code.code) + " was rejected at " + code.file + ":" +
+         std::to_string(code.line);
+}
+
 // ---------------------------------------------------------------------------
 // regions.csv and items.csv
 
@@ -166,9 +234,11 @@ bool ReadRegions(const std::string& path, LoadState* state, Rejections* rejectio
     double population = std::nan("");
     if (kPopulation >= 0) {
       const std::string_view value = record.fields[kPopulation];
-      const NumberStatus status = ParseNumber(value, &population);
+      const char decimal = state->config->survey.regions_format.decimal;
+      const NumberStatus status = ParseNumber(value, &population, decimal);
       if (status != NumberStatus::kOk && status != NumberStatus::kEmpty) {
-        return {kPopulation + 1, NumberProblem(status, "population", value)};
+        return {kPopulation + 1,
+                NumberProblem(status, "population", value, decimal, "survey.regions")};
       }
       if (status == NumberStatus::kEmpty) population = std::nan("");
       if (population < 0) {
@@ -185,9 +255,16 @@ bool ReadRegions(const std::string& path, LoadState* state, Rejections* rejectio
     state->region_population.push_back(population);
     return {};
   };
-  if (!ReadSmallTable(path, state->config->limits, {"region", "name", "population"},
-                      {true, false, false}, rejections, file, handle, error))
+  RejectedCodeCollector rejected("region", path);
+  const auto on_reject = [&](const CsvRecord& record, const Columns& columns,
+                             const std::string& reason) {
+    rejected.Note(ValidCodeField(record, columns.index[0]), record.line, reason);
+  };
+  if (!ReadSmallTable(path, state->config->limits, state->config->survey.regions_format,
+                      {"region", "name", "population"}, {true, false, false}, rejections, file,
+                      handle, on_reject, error))
     return false;
+  rejected.Finish(state->regions, state);
   state->regions_fixed = true;
   return true;
 }
@@ -232,9 +309,16 @@ bool ReadItems(const std::string& path, LoadState* state, Rejections* rejections
     state->item_unit.emplace_back(kUnit >= 0 ? Trim(record.fields[kUnit]) : std::string_view());
     return {};
   };
-  if (!ReadSmallTable(path, state->config->limits, {"item", "heading", "description", "unit"},
-                      {true, true, false, false}, rejections, file, handle, error))
+  RejectedCodeCollector rejected("item", path);
+  const auto on_reject = [&](const CsvRecord& record, const Columns& columns,
+                             const std::string& reason) {
+    rejected.Note(ValidCodeField(record, columns.index[0]), record.line, reason);
+  };
+  if (!ReadSmallTable(path, state->config->limits, state->config->survey.items_format,
+                      {"item", "heading", "description", "unit"}, {true, true, false, false},
+                      rejections, file, handle, on_reject, error))
     return false;
+  rejected.Finish(state->items, state);
   // Later messages about these items name the file.
   for (std::string& origin : state->item_origin) {
     origin = path + ":" + origin.substr(5);
@@ -258,6 +342,12 @@ bool ReadExpenditure(const std::string& path, LoadState* state, Rejections* reje
       return {kRegion + 1, problem};
     }
     if (state->regions_fixed && state->regions.Find(region) < 0) {
+      const auto rejected = state->rejected_region_index.find(std::string(region));
+      if (rejected != state->rejected_region_index.end()) {
+        RejectedCode& code = state->rejected_codes[rejected->second];
+        ++code.num_expenditure_rows;
+        return {kRegion + 1, RejectedCodeReason(code), RejectionCause::kRejectedCode};
+      }
       return {kRegion + 1,
               "region " + QuoteValue(region) + " is not in " + state->config->survey.regions};
     }
@@ -268,9 +358,11 @@ bool ReadExpenditure(const std::string& path, LoadState* state, Rejections* reje
       return {kHeading + 1, "heading " + QuoteValue(heading) + " is not in the classification"};
     }
     double value = 0.0;
-    const NumberStatus status = ParseNumber(value_text, &value);
+    const char decimal = state->config->survey.expenditure_format.decimal;
+    const NumberStatus status = ParseNumber(value_text, &value, decimal);
     if (status != NumberStatus::kOk) {
-      return {kValue + 1, NumberProblem(status, "expenditure", value_text)};
+      return {kValue + 1,
+              NumberProblem(status, "expenditure", value_text, decimal, "survey.expenditure")};
     }
     if (value < 0) {
       return {kValue + 1, "expenditure " + QuoteValue(value_text) + " is negative"};
@@ -288,8 +380,9 @@ bool ReadExpenditure(const std::string& path, LoadState* state, Rejections* reje
     state->spending.push_back({region_index, heading_index, value + 0.0});
     return {};
   };
-  if (!ReadSmallTable(path, state->config->limits, {"region", "heading", "expenditure"},
-                      {true, true, true}, rejections, file, handle, error))
+  if (!ReadSmallTable(path, state->config->limits, state->config->survey.expenditure_format,
+                      {"region", "heading", "expenditure"}, {true, true, true}, rejections, file,
+                      handle, nullptr, error))
     return false;
   return true;
 }

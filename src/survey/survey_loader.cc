@@ -11,6 +11,7 @@
 #include <vector>
 
 #include "paritas/base/csv.h"
+#include "paritas/base/text.h"
 #include "survey/loader_state.h"
 
 namespace paritas {
@@ -23,7 +24,105 @@ double SecondsSince(std::chrono::steady_clock::time_point start) {
   return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
 }
 
+std::string Rows(int64_t n, const char* what) {
+  return FormatCount(n) + " " + what + " row" + (n == 1 ? "" : "s");
+}
+
+// Rows rejected because their item was filed under a second heading.
+int64_t ConflictRows(const std::vector<HeadingConflict>& conflicts) {
+  int64_t n = 0;
+  for (const HeadingConflict& conflict : conflicts) {
+    for (const HeadingConflict::Other& other : conflict.others) n += other.num_rows;
+  }
+  return n;
+}
+
+// Moves the rejected codes that left rows out, and the heading conflicts
+// with what was used, from the state to the summary.
+void SummariseRejections(const std::string& prices_path, LoadState* state, LoadSummary* summary) {
+  for (RejectedCode& code : state->rejected_codes) {
+    if (code.num_price_rows + code.num_expenditure_rows > 0) {
+      summary->rejected_codes.push_back(std::move(code));
+    }
+  }
+  if (state->heading_conflicts.empty()) return;
+  std::vector<int64_t> rows_per_item(state->items.size(), 0);
+  for (int32_t item : state->quotes.item) ++rows_per_item[item];
+  for (HeadingConflict& conflict : state->heading_conflicts) {
+    const int item = state->items.Find(conflict.item);
+    if (item < 0 || state->item_heading[item] < 0) continue;  // never stated: nothing used
+    conflict.heading_used = std::string(state->headings.Code(state->item_heading[item]));
+    const std::string& origin = state->item_origin[item];
+    conflict.origin_used =
+        origin.rfind("line ", 0) == 0 ? prices_path + ":" + origin.substr(5) : origin;
+    conflict.num_rows_used = rows_per_item[item];
+    summary->heading_conflicts.push_back(std::move(conflict));
+  }
+}
+
+// The message of a load stopped by rejected rows (invalid_rows: stop); the
+// rows of rejected regions and items are counted apart, as they are not
+// listed.
+std::string StopMessage(const LoadSummary& summary) {
+  const int64_t cascade = summary.num_rows_rejected_by_cascade;
+  const int64_t own = summary.num_rows_rejected - cascade;
+  const int64_t shown = static_cast<int64_t>(summary.rejected_rows.size());
+  std::string message = std::to_string(own) + " invalid row" + (own == 1 ? "" : "s");
+  if (shown < own) message += " (the first " + std::to_string(shown) + " shown)";
+  if (cascade > 0) message += ", " + FormatCount(cascade) + " rows of rejected regions or items";
+  return message + "; fix them, or set invalid_rows: skip to leave them out";
+}
+
 }  // namespace
+
+std::string RejectedCode::Describe() const {
+  std::vector<std::string> left_out;
+  if (num_price_rows > 0) left_out.push_back(Rows(num_price_rows, "price"));
+  if (num_expenditure_rows > 0) left_out.push_back(Rows(num_expenditure_rows, "expenditure"));
+  const bool one = num_price_rows + num_expenditure_rows == 1;
+  return kind + " " + QuoteValue(code) + " was rejected at " + file + ":" + std::to_string(line) +
+         " (" + reason + "), so its " + JoinNames(left_out, " and ") + (one ? " is" : " are") +
+         " left out";
+}
+
+std::string HeadingConflict::Describe(const std::string& prices_path) const {
+  int64_t rejected = 0;
+  std::vector<std::string> listed;
+  for (const Other& other : others) {
+    rejected += other.num_rows;
+    listed.push_back(QuoteValue(other.heading) + " in " + FormatCount(other.num_rows) +
+                     " (first at " + prices_path + ":" + std::to_string(other.first_line) + ")");
+  }
+  return "item " + QuoteValue(item) + " is filed under " + QuoteValue(heading_used) + " (" +
+         origin_used + "; " + Rows(num_rows_used, "price") +
+         " used) and under another heading in " + Rows(rejected, "price") +
+         ", rejected: " + JoinNames(listed);
+}
+
+std::string LoadSummary::DescribeRejections(size_t limit) const {
+  std::string out;
+  size_t num_shown = 0;
+  for (const RejectedRow& row : rejected_rows) {
+    if (row.cause != RejectionCause::kRow) continue;
+    if (num_shown == limit) break;
+    out += row.reason + "\n";
+    ++num_shown;
+  }
+  const int64_t own =
+      num_rows_rejected - num_rows_rejected_by_cascade - ConflictRows(heading_conflicts);
+  if (own > static_cast<int64_t>(num_shown)) {
+    out += "... " + FormatCount(own - static_cast<int64_t>(num_shown)) + " more\n";
+  }
+  std::string prices_path;
+  for (const InputFileSummary& file : files) {
+    if (file.role == "prices") prices_path = file.path;
+  }
+  for (const HeadingConflict& conflict : heading_conflicts) {
+    out += conflict.Describe(prices_path) + "\n";
+  }
+  for (const RejectedCode& code : rejected_codes) out += code.Describe() + "\n";
+  return out;
+}
 
 bool LoadOptions::IsValid(std::string* error) const {
   if (max_reported_rows < 0) {
@@ -72,17 +171,21 @@ bool LoadSurvey(const RunConfig& config, const LoadOptions& options, Survey* sur
     state.headings_fixed = true;
   }
   Rejections rejections(options, summary);
-  auto describe = [](const char* role, const std::string& path, bool given) {
+  auto describe = [](const char* role, const std::string& path, const CsvFormat& format,
+                     bool given) {
     InputFileSummary file;
     file.role = role;
     file.path = path;
+    file.format = format;
     file.given = given;
     return file;
   };
-  summary->files = {describe("regions", config.survey.regions, !config.survey.regions.empty()),
-                    describe("items", config.survey.items, !config.survey.items.empty()),
-                    describe("prices", config.survey.prices, true),
-                    describe("expenditure", config.survey.expenditure, true)};
+  const SurveyFiles& files = config.survey;
+  summary->files = {
+      describe("regions", files.regions, files.regions_format, !files.regions.empty()),
+      describe("items", files.items, files.items_format, !files.items.empty()),
+      describe("prices", files.prices, files.prices_format, true),
+      describe("expenditure", files.expenditure, files.expenditure_format, true)};
   InputFileSummary& regions_file = summary->files[0];
   InputFileSummary& items_file = summary->files[1];
   InputFileSummary& prices_file = summary->files[2];
@@ -110,15 +213,10 @@ bool LoadSurvey(const RunConfig& config, const LoadOptions& options, Survey* sur
     return fail(expenditure_file.path + ": no data rows (only a header)");
   }
   summary->read_seconds = SecondsSince(start);
+  SummariseRejections(prices_file.path, &state, summary);
 
   if (summary->num_rows_rejected > 0 && options.invalid_rows == InvalidRowPolicy::kStop) {
-    const int64_t shown = static_cast<int64_t>(summary->rejected_rows.size());
-    std::string message = std::to_string(summary->num_rows_rejected) + " invalid row" +
-                          (summary->num_rows_rejected == 1 ? "" : "s");
-    if (shown < summary->num_rows_rejected)
-      message += " (the first " + std::to_string(shown) + " shown)";
-    message += "; fix them, or set invalid_rows: skip to leave them out";
-    return fail(message);
+    return fail(StopMessage(*summary));
   }
   if (prices_file.rows_used == 0) {
     return fail(prices_file.path + ": no usable price quotes (all " +

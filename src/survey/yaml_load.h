@@ -16,9 +16,12 @@ namespace paritas::internal {
 std::string YamlWhere(const std::string& source, const YAML::Mark& mark);
 
 // Parses the first document of `text` into *root. Returns false with a
-// message naming `source`, line and column: "nesting deeper than 64 levels
-// " + `depth_advice` when collections nest deeper than `max_depth`, or
-// "invalid YAML: ..." for text yaml-cpp refuses.
+// message naming `source`, line and column (1-based): "line '...' is not
+// valid UTF-8 (the file may be Latin-1 ...)" at the first byte that is not,
+// "nesting deeper than 64 levels " + `depth_advice` when collections nest
+// deeper than `max_depth`, "key 'x' is given twice (first at line 3); remove
+// one of them" for a key repeated in one mapping, or "invalid YAML: ..." for
+// text yaml-cpp refuses.
 bool LoadYaml(const std::string& text, const std::string& source, int max_depth,
               std::string_view depth_advice, YAML::Node* root, std::string* error);
 

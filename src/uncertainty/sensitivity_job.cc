@@ -247,7 +247,7 @@ std::string LinkComputeRun(const RunConfig& config, const std::string& this_json
                                  "intervals do not belong together: " +
                                  JoinNames(differences, "; ")});
   }
-  return link.dump();
+  return link.dump(-1, ' ', false, nlohmann::ordered_json::error_handler_t::replace);
 }
 
 }  // namespace
@@ -275,7 +275,7 @@ std::string SensitivityRecordSection(const SensitivityOptions& options,
     if (!run.message.empty()) failed.push_back({{"method", run.name}, {"message", run.message}});
   }
   j["failed_method_runs"] = failed;
-  return j.dump(2);
+  return j.dump(2, ' ', false, nlohmann::ordered_json::error_handler_t::replace);
 }
 
 std::string SensitivityJobSummary::FullReport(const SensitivityOptions& options) const {

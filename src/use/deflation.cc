@@ -152,6 +152,13 @@ bool ReadTable(const std::string& path, const ReadLimits& limits,
                                     : path + ":" + reader.error();
     return false;
   }
+  int64_t bad_line = 0;
+  int bad_field = 0;
+  if (FindInvalidUtf8(record, ',', &bad_line, &bad_field)) {
+    *error = LocatedMessage(path, bad_line, bad_field,
+                            Utf8Problem("column name", record.fields[bad_field - 1]));
+    return false;
+  }
   const CsvHeader header(record.fields);
   const size_t num_fields = record.fields.size();
   TableRow row;
@@ -178,6 +185,11 @@ bool ReadTable(const std::string& path, const ReadLimits& limits,
     row.line = record.line;
     for (size_t k = 0; k < wanted.size(); ++k) {
       row.fields[k] = row.columns[k] > 0 ? Trim(record.fields[row.columns[k] - 1]) : "";
+      if (FindInvalidUtf8(row.fields[k]) != std::string_view::npos) {
+        *error = LocatedMessage(path, record.line, row.columns[k],
+                                Utf8Problem(wanted[k], row.fields[k]));
+        return false;
+      }
     }
     if (!handle(row, error)) return false;
   }
@@ -444,6 +456,13 @@ class Deflater {
                                        : options_.input_path + ":" + reader->error();
       return false;
     }
+    int64_t bad_line = 0;
+    int bad_field = 0;
+    if (FindInvalidUtf8(header, ',', &bad_line, &bad_field)) {
+      *error = LocatedMessage(options_.input_path, bad_line, bad_field,
+                              Utf8Problem("column name", header.fields[bad_field - 1]));
+      return false;
+    }
     const CsvHeader names(header.fields);
     num_fields_ = header.fields.size();
     const std::string where = options_.input_path + ":" + std::to_string(header.line) + ": ";
@@ -588,6 +607,24 @@ class Deflater {
     return index;
   }
 
+  // Checks the fields deflate reads (region, node, values); the others are
+  // copied through as they are. Returns false after rejecting the record.
+  bool ReadFieldsAreUtf8(const CsvRecord& record) {
+    auto check = [&](int column, const std::string& name) {
+      if (column < 0 || FindInvalidUtf8(record.fields[column]) == std::string_view::npos) {
+        return true;
+      }
+      Reject(record, column + 1, Utf8Problem(Trim(name), record.fields[column]));
+      return false;
+    };
+    if (!check(region_column_, options_.region_column)) return false;
+    if (!check(node_column_, options_.node_column)) return false;
+    for (size_t k = 0; k < value_columns_.size(); ++k) {
+      if (!check(value_columns_[k], options_.value_columns[k])) return false;
+    }
+    return true;
+  }
+
   // Returns the node index of the record, or -1 after rejecting it.
   int RowNode(const CsvRecord& record) {
     if (node_column_ < 0) return fixed_node_;
@@ -628,7 +665,7 @@ class Deflater {
       const NumberStatus status = ParseNumber(text, &values_[k]);
       if (status != NumberStatus::kOk) {
         Reject(record, value_columns_[k] + 1,
-               NumberProblem(status, options_.value_columns[k], text));
+               NumberProblem(status, options_.value_columns[k], text, '.', ""));
         return false;
       }
       if (values_[k] < 0 && !options_.allow_negative) {
@@ -689,6 +726,7 @@ class Deflater {
                    ", the header has " + std::to_string(num_fields_));
         continue;
       }
+      if (!ReadFieldsAreUtf8(record)) continue;
       size_t cell = 0;
       double parity = kNaN;
       if (!RowParity(record, &cell, &parity)) continue;

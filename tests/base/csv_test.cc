@@ -1010,5 +1010,57 @@ TEST(CsvReader, MeasuresThroughputOnATypicalPriceFile) {
               num_megabytes / std::max(wall_seconds, 1e-9));
 }
 
+TEST(CsvReader, SplitsOnASemicolonAndKeepsQuotedSemicolonsAndCommas) {
+  CsvReader reader("region;price;note\nAAR;11,77;\"a;b\"\n");
+  reader.set_delimiter(';');
+  CsvRecord record;
+  ASSERT_TRUE(reader.Next(&record));
+  ASSERT_TRUE(reader.Next(&record));
+  EXPECT_EQ(record.fields, (std::vector<std::string_view>{"AAR", "11,77", "a;b"}));
+  EXPECT_FALSE(reader.Next(&record));
+  EXPECT_EQ(reader.error(), "");
+}
+
+TEST(CsvReader, SplitsOnATab) {
+  CsvReader reader("a\tb,c\t\"d\te\"\n");
+  reader.set_delimiter('\t');
+  CsvRecord record;
+  ASSERT_TRUE(reader.Next(&record));
+  EXPECT_EQ(record.fields, (std::vector<std::string_view>{"a", "b,c", "d\te"}));
+}
+
+TEST(CsvReader, NamesTheFieldOfTextAfterAClosingQuoteBySemicolons) {
+  CsvReader reader("a;\"b\"x;c\n");
+  reader.set_delimiter(';');
+  CsvRecord record;
+  EXPECT_FALSE(reader.Next(&record));
+  EXPECT_EQ(reader.error(), "1:2: unexpected text after closing quote");
+}
+
+TEST(FindInvalidUtf8InRecord, NamesTheLineAndFieldOfTheByte) {
+  // The bad byte is in field 3, on the second line of a quoted field.
+  CsvReader reader("x;y;z\nAAR;\"a;b\";\"first\nsec\xe9nd\"\n");
+  reader.set_delimiter(';');
+  CsvRecord record;
+  int64_t line = 0;
+  int field = 0;
+  ASSERT_TRUE(reader.Next(&record));
+  EXPECT_FALSE(FindInvalidUtf8(record, ';', &line, &field));
+  ASSERT_TRUE(reader.Next(&record));
+  ASSERT_TRUE(FindInvalidUtf8(record, ';', &line, &field));
+  EXPECT_EQ(line, 3);
+  EXPECT_EQ(field, 3);
+}
+
+TEST(CsvFormat, RefusesADecimalCommaWithCommaDelimitersAndUnknownCharacters) {
+  std::string error;
+  EXPECT_TRUE(CsvFormat().IsValid(&error)) << error;
+  EXPECT_TRUE((CsvFormat{';', ','}.IsValid(&error))) << error;
+  EXPECT_FALSE((CsvFormat{',', ','}.IsValid(&error)));
+  EXPECT_EQ(error, "decimal ',' needs delimiter ';' or tab (a comma cannot separate both)");
+  EXPECT_FALSE((CsvFormat{'|', '.'}.IsValid(&error)));
+  EXPECT_EQ(error, "delimiter '|' is not one of ',', ';', tab");
+}
+
 }  // namespace
 }  // namespace paritas

@@ -239,5 +239,76 @@ TEST(AppendShortest, ReadsBackToTheSameDouble) {
   EXPECT_EQ(zero, "0");
 }
 
+TEST(ParseNumber, ReadsADecimalCommaOnlyWhenAsked) {
+  double value = 0.0;
+  EXPECT_EQ(ParseNumber(" 11,77 ", &value, ','), NumberStatus::kOk);
+  EXPECT_EQ(value, 11.77);
+  EXPECT_EQ(ParseNumber("-0,5", &value, ','), NumberStatus::kOk);
+  EXPECT_EQ(value, -0.5);
+  // Under ',' a point is neither a decimal point nor a thousands separator.
+  EXPECT_EQ(ParseNumber("1.200", &value, ','), NumberStatus::kInvalid);
+  EXPECT_EQ(ParseNumber("11,77", &value), NumberStatus::kInvalid);
+}
+
+TEST(NumberHint, NamesThousandsSeparatorsAndDecimalCommas) {
+  EXPECT_EQ(NumberHint("1,200,000", '.', "survey.regions"),
+            "thousands separators are not allowed (write 1200000)");
+  EXPECT_EQ(NumberHint("-1,200,000.50", '.', "survey.regions"),
+            "thousands separators are not allowed (write -1200000.50)");
+  EXPECT_EQ(NumberHint("1 200 000", '.', "survey.regions"),
+            "thousands separators are not allowed (write 1200000)");
+  EXPECT_EQ(NumberHint("1'200", '.', "survey.regions"),
+            "thousands separators are not allowed (write 1200)");
+  EXPECT_EQ(NumberHint("11,77", '.', "survey.prices"),
+            "a decimal comma needs decimal: ',' for this file (survey.prices)");
+  EXPECT_EQ(NumberHint("11,77", '.', ""), "a decimal comma is not allowed here (write 11.77)");
+  // Three digits after one comma: either reading is possible.
+  EXPECT_EQ(NumberHint("1,200", '.', "survey.prices"),
+            "thousands separators are not allowed (write 1200), and a decimal comma needs "
+            "decimal: ',' for this file (survey.prices)");
+  EXPECT_EQ(NumberHint("1.200.000,5", ',', "survey.prices"),
+            "thousands separators are not allowed (write 1200000,5)");
+  EXPECT_EQ(NumberHint("11.77", ',', "survey.prices"),
+            "this file's decimal mark is ',' (survey.prices)");
+  EXPECT_EQ(NumberHint("abc", '.', "survey.prices"), "");
+  EXPECT_EQ(NumberHint("1,2,3", '.', "survey.prices"), "");
+}
+
+TEST(NumberProblem, EndsWithTheHintForTextThatIsNotANumber) {
+  EXPECT_EQ(NumberProblem(NumberStatus::kInvalid, "population", "1,200,000", '.', "survey.regions"),
+            "population '1,200,000' is not a number; thousands separators are not allowed "
+            "(write 1200000)");
+  EXPECT_EQ(NumberProblem(NumberStatus::kInvalid, "price", "abc", '.', "survey.prices"),
+            "price 'abc' is not a number");
+}
+
+TEST(FindInvalidUtf8, FindsTheFirstByteThatIsNotUtf8) {
+  EXPECT_EQ(FindInvalidUtf8("plain ascii text, longer than eight bytes"), std::string_view::npos);
+  EXPECT_EQ(FindInvalidUtf8("Z\xc3\xbcrich"), std::string_view::npos);  // ü in UTF-8
+  EXPECT_EQ(FindInvalidUtf8("Z\xfcrich"), 1u);                          // ü in Latin-1
+  EXPECT_EQ(FindInvalidUtf8("twelve bytes\x80"), 12u);                  // after the fast path
+  EXPECT_EQ(FindInvalidUtf8("\xc0\xaf"), 0u);                           // overlong '/'
+  EXPECT_EQ(FindInvalidUtf8("\xed\xa0\x80"), 0u);                       // a surrogate
+  EXPECT_EQ(FindInvalidUtf8("ends inside \xe2\x82"), 12u);              // cut sequence
+}
+
+TEST(ValidUtf8, EscapesOnlyTheBytesThatAreNotUtf8) {
+  EXPECT_EQ(ValidUtf8("Z\xc3\xbcrich"), "Z\xc3\xbcrich");
+  EXPECT_EQ(ValidUtf8("/data/Z\xfcrich.csv"), "/data/Z\\xfcrich.csv");
+}
+
+TEST(Utf8Problem, ShowsTheBytesAsEscapesAndNamesTheLikelyEncoding) {
+  EXPECT_EQ(Utf8Problem("region", "Z\xfcrich"),
+            "region 'Z\\xfcrich' is not valid UTF-8 (the file may be Latin-1 or Windows-1252: "
+            "save it as UTF-8)");
+}
+
+TEST(QuoteValue, NeverCutsInsideAUtf8Character) {
+  // 59 ASCII bytes, then a two-byte character across the 60-byte cut.
+  const std::string text = std::string(59, 'a') + "\xc3\xbc" + "tail";
+  EXPECT_EQ(QuoteValue(text), "'" + std::string(59, 'a') + "...'");
+  EXPECT_EQ(FindInvalidUtf8(QuoteValue(text)), std::string_view::npos);
+}
+
 }  // namespace
 }  // namespace paritas

@@ -49,7 +49,8 @@ TEST(DeflateCommand, StopsOnABadRowWithItsMessage) {
   const std::string in = dir + "/in.csv";
   EXPECT_EQ(
       err, in +
-               ":3:3: income '12 000' is not a number\n"
+               ":3:3: income '12 000' is not a number; thousands separators are not allowed (write "
+               "12000)\n"
                "paritas: error: 1 invalid row in " +
                in + "; nothing written; fix them, or pass --invalid-rows skip to leave them out\n");
   EXPECT_FALSE(std::filesystem::exists(dir + "/out.csv"));

@@ -282,6 +282,27 @@ TEST(ComputeParities, UnlinkedHeadingFailsAndNamesTheGroups) {
             "{east, west} and {north, south}");
 }
 
+TEST(ComputeParities, AggregateWithoutPricedHeadingsFailsNamingItsHeadings) {
+  // Before, the message read "... fall into 0 groups with no heading in common: ".
+  const std::string folder = MakeTempDir("unpriced_aggregate");
+  WriteTextFile(folder + "/prices.csv",
+                "region,item,price,heading\nnorth,a,1,bread\nsouth,a,2,bread\n");
+  WriteTextFile(
+      folder + "/expenditure.csv",
+      "region,heading,expenditure\nnorth,bread,1\nsouth,bread,1\nnorth,fuel,1\nnorth,fares,2\n");
+  const Survey survey =
+      LoadFrom(folder,
+               "survey:\n  prices: prices.csv\n  expenditure: expenditure.csv\n"
+               "classification:\n  all:\n    food: [bread]\n    transport: [fuel, fares]\n");
+  ParityResult result;
+  ComputeSummary summary;
+  EXPECT_FALSE(ComputeParities(survey, ComputeOptions(), &result, &summary));
+  EXPECT_EQ(summary.outcome, ComputeOutcome::kComputationFailed);
+  EXPECT_EQ(summary.message,
+            "aggregate 'transport' has no parities: none of its 2 headings (fuel, fares) has price "
+            "quotes; price one of them, or take the aggregate out of the classification");
+}
+
 TEST(ComputeParities, UnknownReferenceRegionIsRejectedWithASuggestion) {
   const Survey survey = SixCommoditySurvey("six_reference");
   ComputeOptions options;

@@ -2,6 +2,7 @@
 // over; node file names are one to one.
 #include "paritas/output/run_folder.h"
 
+#include <gtest/gtest.h>
 #include <unistd.h>
 
 #include <filesystem>
@@ -9,9 +10,8 @@
 #include <set>
 #include <string>
 
-#include <gtest/gtest.h>
-
 #include "paritas/output/output_writers.h"
+#include "paritas/output/run_record.h"
 #include "test_util.h"
 
 namespace paritas {
@@ -161,6 +161,24 @@ TEST(NodeFileName, GivesDistinctCodesDistinctSafeNames) {
     EXPECT_EQ(name.find('/'), std::string::npos);
     for (unsigned char c : name) EXPECT_TRUE(c >= 0x21 && c < 0x7f) << name;
   }
+}
+
+TEST(RunRecordJson, WritesTextThatIsNotUtf8AsEscapesInsteadOfThrowing) {
+  // nlohmann::json throws on invalid UTF-8; a Latin-1 file name on the
+  // command line once aborted compute with exit code 134.
+  RunConfig config;
+  config.config_path = "/data/r\xe9gions/run.yaml";
+  config.survey.prices = "/data/r\xe9gions/prices.csv";
+  RunRecord record;
+  record.command = "check";
+  record.config = &config;
+  record.message = "ok";
+  record.warnings = {"a warning quoting caf\xe9"};
+  std::string json;
+  ASSERT_NO_THROW(json = RunRecordJson(record));
+  EXPECT_NE(json.find("\"config_path\": \"/data/r\\\\xe9gions/run.yaml\""), std::string::npos)
+      << json;
+  EXPECT_NE(json.find("\"a warning quoting caf\\\\xe9\""), std::string::npos) << json;
 }
 
 }  // namespace

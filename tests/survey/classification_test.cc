@@ -148,5 +148,17 @@ TEST(Classification, RefusesNestingDeeperThanTheLimit) {
             "limit if the file is right");
 }
 
+TEST(Classification, RefusesACodeGivenTwiceInOneMappingNamingBothLines) {
+  // yaml-cpp would keep one of the two 'food' keys without a word.
+  EXPECT_EQ(ParseError("all:\n  food: [bread]\n  housing: [rent]\n  food: [milk]\n"),
+            "tree.yaml:4:3: key 'food' is given twice (first at line 2); remove one of them");
+}
+
+TEST(Classification, RefusesTextThatIsNotUtf8) {
+  EXPECT_EQ(ParseError("all:\n  caf\xe9: [bread]\n"),
+            "tree.yaml:2:6: line '  caf\\xe9: [bread]' is not valid UTF-8 (the file may be "
+            "Latin-1 or Windows-1252: save it as UTF-8)");
+}
+
 }  // namespace
 }  // namespace paritas

@@ -362,5 +362,61 @@ TEST(RunConfig, ReadsTheDemoConfiguration) {
   EXPECT_TRUE(std::filesystem::exists(config.survey.regions)) << config.survey.regions;
 }
 
+TEST(RunConfig, ReadsADelimiterAndADecimalMarkPerFile) {
+  const RunConfig config = Parse(
+      "survey:\n"
+      "  prices: {path: p.csv, delimiter: ';', decimal: ','}\n"
+      "  expenditure:\n    path: e.csv\n    delimiter: tab\n"
+      "  regions: {path: r.csv, delimiter: \"\\t\"}\n"
+      "  items: i.csv\n");
+  EXPECT_EQ(config.survey.prices, "/cfg/p.csv");
+  EXPECT_EQ(config.survey.prices_format.delimiter, ';');
+  EXPECT_EQ(config.survey.prices_format.decimal, ',');
+  EXPECT_EQ(config.survey.expenditure, "/cfg/e.csv");
+  EXPECT_EQ(config.survey.expenditure_format.delimiter, '\t');
+  EXPECT_EQ(config.survey.expenditure_format.decimal, '.');
+  EXPECT_EQ(config.survey.regions_format.delimiter, '\t');
+  EXPECT_EQ(config.survey.items_format.delimiter, ',');
+  EXPECT_EQ(config.survey.items_format.decimal, '.');
+}
+
+TEST(RunConfig, RefusesBadDelimitersAndDecimalMarksNamingTheKey) {
+  EXPECT_EQ(ParseError("survey:\n  prices: {path: p.csv, delimiter: '|'}\n  expenditure: e.csv\n"),
+            "/cfg/run.yaml:2:36: survey.prices.delimiter '|' is not one of: ',', ';', tab");
+  EXPECT_EQ(ParseError("survey:\n  prices: {path: p.csv, decimal: ','}\n  expenditure: e.csv\n"),
+            "/cfg/run.yaml:2:11: survey.prices: decimal ',' needs delimiter ';' or tab (a comma "
+            "cannot separate both)");
+  EXPECT_EQ(ParseError("survey:\n  prices: {delimiter: ';'}\n  expenditure: e.csv\n"),
+            "/cfg/run.yaml:2:11: missing key 'survey.prices.path'");
+  EXPECT_EQ(ParseError("survey:\n  prices: {path: p.csv, delimeter: ';'}\n  expenditure: e.csv\n"),
+            "/cfg/run.yaml:2:25: unknown key 'survey.prices.delimeter'; did you mean "
+            "'survey.prices.delimiter'?");
+}
+
+TEST(RunConfig, RefusesAKeyGivenTwiceNamingBothLines) {
+  EXPECT_EQ(ParseError(std::string(kSurvey) + "reference: mean\nthreads: 2\nreference: AAR\n"),
+            "/cfg/run.yaml:6:1: key 'reference' is given twice (first at line 4); remove one of "
+            "them");
+  EXPECT_EQ(ParseError("survey:\n  prices: p.csv\n  expenditure: e.csv\n  prices: q.csv\n"),
+            "/cfg/run.yaml:4:3: key 'prices' is given twice (first at line 2); remove one of them");
+  // The same key in two different mappings is no repetition.
+  Parse(std::string(kSurvey) +
+        "limits: {max_yaml_depth: 10}\nclassification:\n  all:\n"
+        "    limits: [a]\n    b: [c]\n");
+}
+
+TEST(RunConfig, RefusesAnInlineClassificationKeyGivenTwice) {
+  EXPECT_EQ(ParseError(std::string(kSurvey) +
+                       "classification:\n  all:\n    food: [bread]\n    food: [milk]\n"),
+            "/cfg/run.yaml:7:5: key 'food' is given twice (first at line 6); remove one of them");
+}
+
+TEST(RunConfig, ReportsTextThatIsNotUtf8WithLineAndColumn) {
+  // A path written in Latin-1: column 18 counts characters, not bytes.
+  EXPECT_EQ(ParseError("survey:\n  prices: data/\xc3\xa9t\xe9.csv\n  expenditure: e.csv\n"),
+            "/cfg/run.yaml:2:18: line '  prices: data/\xc3\xa9t\\xe9.csv' is not valid UTF-8 (the "
+            "file may be Latin-1 or Windows-1252: save it as UTF-8)");
+}
+
 }  // namespace
 }  // namespace paritas

@@ -98,9 +98,15 @@ std::string FirstRejection(const SurveyDir& files) {
   const LoadSummary summary = Load(files.config, &survey);
   EXPECT_EQ(summary.outcome, LoadOutcome::kInvalidInput);
   if (summary.rejected_rows.empty()) return "no rejected row; message: " + summary.message;
-  EXPECT_EQ(summary.message, std::to_string(summary.num_rows_rejected) + " invalid row" +
-                                 (summary.num_rows_rejected == 1 ? "" : "s") +
-                                 "; fix them, or set invalid_rows: skip to leave them out");
+  // Rows of rejected regions and items are counted apart (see
+  // StopCountsRowsOfARejectedRegionApartInItsMessage).
+  const int64_t own = summary.num_rows_rejected - summary.num_rows_rejected_by_cascade;
+  std::string expected = std::to_string(own) + " invalid row" + (own == 1 ? "" : "s");
+  if (summary.num_rows_rejected_by_cascade > 0) {
+    expected += ", " + std::to_string(summary.num_rows_rejected_by_cascade) +
+                " rows of rejected regions or items";
+  }
+  EXPECT_EQ(summary.message, expected + "; fix them, or set invalid_rows: skip to leave them out");
   return summary.rejected_rows.front().reason;
 }
 
@@ -677,15 +683,17 @@ TEST(LoadSurvey, ReportsRandomBytesCleanly) {
   }
 }
 
-TEST(LoadSurvey, ReadsBinaryBytesInsideFieldsAsCodes) {
+TEST(LoadSurvey, ReadsControlBytesAndUtf8InsideFieldsAsCodes) {
+  // NUL is valid UTF-8 (U+0000); bytes that are not UTF-8 are rejected (above).
   const std::string nul("n\0rth", 5);
-  const SurveyDir files = MakeSurvey("binary_codes", "region,item,price,heading\n" + nul +
-                                                            ",\xFF\xFE,2,food\nsouth,\xFF\xFE,3,food\n");
+  const SurveyDir files =
+      MakeSurvey("binary_codes", "region,item,price,heading\n" + nul +
+                                     ",\xE2\x82\xAC,2,food\nsouth,\xE2\x82\xAC,3,food\n");
   Survey survey;
   const LoadSummary summary = Load(files.config, &survey);
   ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
   EXPECT_EQ(survey.regions.Find(nul), 0);
-  EXPECT_EQ(survey.items.Codes(), std::vector<std::string>{"\xFF\xFE"});
+  EXPECT_EQ(survey.items.Codes(), std::vector<std::string>{"\xE2\x82\xAC"});
 }
 
 // Beyond limits.max_field_bytes the file stops; under a raised limit the
@@ -949,6 +957,163 @@ TEST(LoadSurvey, ReportsAnInvalidHeadingAsSuchEvenForAnItemWhoseHeadingIsKnown) 
                                kExpenditure, "item,heading\nbread,food\nmilk,food\n");
   UseClassification("all: [food]\n", &files.config);
   EXPECT_EQ(FirstRejection(files), files.prices() + ":6:4: heading 'toys' is not in the classification");
+}
+
+// ---------------------------------------------------------------------------
+// Input realities: encodings, European CSV, rejections that cascade.
+
+const char kUtf8Advice[] = "(the file may be Latin-1 or Windows-1252: save it as UTF-8)";
+
+TEST(LoadSurvey, RejectsARowWithLatin1TextNamingLineAndColumn) {
+  const SurveyDir files = MakeSurvey("latin1_row",
+                                     "region,item,price,heading\n"
+                                     "north,bread,2.0,food\n"
+                                     "Z\xfcrich,bread,3.0,food\n");
+  EXPECT_EQ(FirstRejection(files),
+            files.prices() + ":3:1: region 'Z\\xfcrich' is not valid UTF-8 " + kUtf8Advice);
+}
+
+TEST(LoadSurvey, RejectsAHeaderThatIsNotUtf8) {
+  const SurveyDir files =
+      MakeSurvey("latin1_header", kPrices, "region,heading,d\xe9penses\nnorth,food,100\n");
+  EXPECT_EQ(LoadMessage(files), files.expenditure() + ":1:3: column name 'd\\xe9penses' is not " +
+                                    "valid UTF-8 " + kUtf8Advice);
+}
+
+TEST(LoadSurvey, CountsALatin1RowAsRejectedUnderSkip) {
+  const SurveyDir files =
+      MakeSurvey("latin1_skip", std::string(kPrices) + "south,m\xfcsli,4,food\n");
+  Survey survey;
+  LoadOptions options;
+  options.invalid_rows = InvalidRowPolicy::kSkip;
+  const LoadSummary summary = Load(files.config, &survey, options);
+  ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
+  EXPECT_EQ(FileOf(summary, "prices").rows_read, 5);
+  EXPECT_EQ(FileOf(summary, "prices").rows_rejected, 1);
+  ASSERT_EQ(summary.rejected_rows.size(), 1u);
+  EXPECT_EQ(summary.rejected_rows[0].reason,
+            files.prices() + ":6:2: item 'm\\xfcsli' is not valid UTF-8 " + kUtf8Advice);
+}
+
+TEST(LoadSurvey, ReadsSemicolonsAndDecimalCommasInEveryFile) {
+  SurveyDir files = MakeSurvey(
+      "european", "region;item;price;heading\nnorth;bread;2,5;food\nsouth;bread;\"3,75\";food\n",
+      "region\theading\texpenditure\nnorth\tfood\t100,5\nsouth\tfood\t120\n", std::nullopt,
+      "region;name;population\nnorth;North;1500,5\nsouth;\"South; coast\";2000\n");
+  files.config.survey.prices_format = {';', ','};
+  files.config.survey.expenditure_format = {'\t', ','};
+  files.config.survey.regions_format = {';', ','};
+  Survey survey;
+  const LoadSummary summary = Load(files.config, &survey);
+  ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
+  EXPECT_EQ(std::exp(survey.cells.log_price[0]), 2.5);
+  PARITAS_EXPECT_CLOSE(std::exp(survey.cells.log_price[1]), 3.75, 1e-15);
+  EXPECT_EQ(survey.expenditure(0, 0), 100.5);
+  EXPECT_EQ(survey.region_population[0], 1500.5);
+  EXPECT_EQ(survey.region_name[1], "South; coast");
+  EXPECT_EQ(FileOf(summary, "prices").format.delimiter, ';');
+}
+
+TEST(LoadSurvey, NamesThousandsSeparatorsAndDecimalCommasUnderTheDefaults) {
+  const SurveyDir regions = MakeSurvey("thousands", kPrices, kExpenditure, std::nullopt,
+                                       "region,population\nnorth,\"1,200,000\"\nsouth,5\n");
+  EXPECT_EQ(FirstRejection(regions), regions.regions() +
+                                         ":2:2: population '1,200,000' is not a number; thousands "
+                                         "separators are not allowed (write 1200000)");
+  const SurveyDir expenditure =
+      MakeSurvey("decimal_comma", kPrices, "region,heading,expenditure\nnorth,food,\"11,77\"\n");
+  EXPECT_EQ(FirstRejection(expenditure),
+            expenditure.expenditure() + ":2:3: expenditure '11,77' is not a number; a decimal " +
+                "comma needs decimal: ',' for this file (survey.expenditure)");
+}
+
+// regions.csv rejects 'south' (Latin-1 in its name); prices and expenditure name it.
+SurveyDir RejectedRegionSurvey(const std::string& name) {
+  return MakeSurvey(name, std::string(kPrices) + "east,bread,2.2,food\n",
+                    "region,heading,expenditure\nnorth,food,100\nsouth,food,120\nwest,food,9\n",
+                    std::nullopt,
+                    "region,name\nnorth,North\nsouth,S\xfc"
+                    "d\n");
+}
+
+TEST(LoadSurvey, CountsRowsOfARejectedRegionApartAndDescribesThemOnce) {
+  const SurveyDir files = RejectedRegionSurvey("cascade_region");
+  Survey survey;
+  LoadOptions options;
+  options.invalid_rows = InvalidRowPolicy::kSkip;
+  const LoadSummary summary = Load(files.config, &survey, options);
+  ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
+  // prices: 2 rows of south (cascade) and east (not in regions.csv).
+  EXPECT_EQ(FileOf(summary, "prices").rows_rejected, 3);
+  EXPECT_EQ(FileOf(summary, "prices").rows_rejected_by_cascade, 2);
+  EXPECT_EQ(FileOf(summary, "expenditure").rows_rejected, 2);
+  EXPECT_EQ(FileOf(summary, "expenditure").rows_rejected_by_cascade, 1);
+  EXPECT_EQ(summary.num_rows_rejected, 6);
+  EXPECT_EQ(summary.num_rows_rejected_by_cascade, 3);
+  ASSERT_EQ(summary.rejected_codes.size(), 1u);
+  const std::string rejected_region = "region 'south' was rejected at " + files.regions() +
+                                      ":3 (name 'S\\xfcd' is not valid " + "UTF-8 " + kUtf8Advice +
+                                      "), so its 2 price rows and 1 expenditure row are left out";
+  EXPECT_EQ(summary.rejected_codes[0].Describe(), rejected_region);
+  // Each row is still listed for rejected.csv, with a short reason.
+  EXPECT_EQ(summary.rejected_rows[1].reason,
+            files.prices() + ":4:1: region 'south' was rejected at " + files.regions() + ":3");
+  EXPECT_EQ(summary.rejected_rows[1].cause, RejectionCause::kRejectedCode);
+  // Shown: the rows rejected for their own fault, then the region once.
+  EXPECT_EQ(summary.DescribeRejections(20),
+            files.regions() + ":3:2: name 'S\\xfcd' is not valid UTF-8 " + kUtf8Advice + "\n" +
+                files.prices() + ":6:1: region 'east' is not in " + files.regions() + "\n" +
+                files.expenditure() + ":4:1: region 'west' is not in " + files.regions() + "\n" +
+                rejected_region + "\n");
+}
+
+TEST(LoadSurvey, StopCountsRowsOfARejectedRegionApartInItsMessage) {
+  const SurveyDir files = RejectedRegionSurvey("cascade_stop");
+  Survey survey;
+  const LoadSummary summary = Load(files.config, &survey);
+  EXPECT_EQ(summary.message,
+            "3 invalid rows, 3 rows of rejected regions or items; fix them, or set invalid_rows: "
+            "skip to leave them out");
+  EXPECT_EQ(summary.rejected_rows.size(), 3u);
+}
+
+TEST(LoadSurvey, LeavesOutThePriceRowsOfARejectedItem) {
+  SurveyDir files =
+      MakeSurvey("cascade_item", kPrices, kExpenditure, "item,heading\nbread,food\nmilk,dairy\n");
+  UseClassification("all: [food, drink]\n", &files.config);
+  Survey survey;
+  LoadOptions options;
+  options.invalid_rows = InvalidRowPolicy::kSkip;
+  const LoadSummary summary = Load(files.config, &survey, options);
+  ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
+  ASSERT_EQ(summary.rejected_codes.size(), 1u);
+  EXPECT_EQ(summary.rejected_codes[0].Describe(),
+            "item 'milk' was rejected at " + files.items() +
+                ":3 (heading 'dairy' is not in the classification), so its 2 price rows are "
+                "left out");
+  EXPECT_EQ(FileOf(summary, "prices").rows_rejected_by_cascade, 2);
+  EXPECT_EQ(survey.num_quotes, 2);
+}
+
+TEST(LoadSurvey, ReportsAnItemFiledUnderTwoHeadingsOnceWithTheRowsPerHeading) {
+  const SurveyDir files = MakeSurvey("heading_conflict",
+                                     "region,item,price,heading\n"
+                                     "north,bread,2.0,food\nsouth,bread,3.0,food\n"
+                                     "north,bread,2.1,bakery\nsouth,bread,3.1,bakery\n"
+                                     "north,bread,2.2,snacks\nsouth,bread,3.2,bakery\n");
+  Survey survey;
+  LoadOptions options;
+  options.invalid_rows = InvalidRowPolicy::kSkip;
+  const LoadSummary summary = Load(files.config, &survey, options);
+  ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
+  ASSERT_EQ(summary.heading_conflicts.size(), 1u);
+  const std::string conflict =
+      "item 'bread' is filed under 'food' (" + files.prices() + ":2; 2 price rows used) and " +
+      "under another heading in 4 price rows, rejected: 'bakery' in 3 (first at " + files.prices() +
+      ":4), 'snacks' in 1 (first at " + files.prices() + ":6)";
+  EXPECT_EQ(summary.heading_conflicts[0].Describe(files.prices()), conflict);
+  EXPECT_EQ(summary.DescribeRejections(20), conflict + "\n");
+  EXPECT_EQ(summary.rejected_rows.size(), 4u);
 }
 
 }  // namespace

@@ -409,5 +409,26 @@ TEST(Deflate, ExplainsHeaderProblems) {
   EXPECT_FALSE(std::filesystem::exists(options.output_path));
 }
 
+TEST(Deflate, RejectsLatin1CodesAndHeadersButCopiesOtherColumnsAsTheyAre) {
+  const std::string dir = MakeTempDir("deflate_latin1");
+  // Row 2's name is Latin-1 but deflate does not read it; row 3's region is.
+  DeflateOptions options = Options(dir, "name,region,income\nJos\xe9,a,12000\nAnn,\xe4,100\n");
+  options.invalid_rows = InvalidRowPolicy::kSkip;
+  DeflateSummary summary;
+  ASSERT_TRUE(Deflate(options, &summary)) << summary.message;
+  EXPECT_EQ(ReadTextFile(options.output_path),
+            "name,region,income,income_real\nJos\xe9,a,12000,10000\n");
+  ASSERT_EQ(summary.rejected_rows.size(), 1u);
+  EXPECT_EQ(summary.rejected_rows[0].reason,
+            options.input_path +
+                ":3:2: region '\\xe4' is not valid UTF-8 (the file may be "
+                "Latin-1 or Windows-1252: save it as UTF-8)");
+  WriteTextFile(options.input_path, "name,r\xe9gion,region,income\na,b,a,1\n");
+  EXPECT_FALSE(Deflate(options, &summary));
+  EXPECT_EQ(summary.message, options.input_path +
+                                 ":1:2: column name 'r\\xe9gion' is not valid UTF-8 (the file "
+                                 "may be Latin-1 or Windows-1252: save it as UTF-8)");
+}
+
 }  // namespace
 }  // namespace paritas

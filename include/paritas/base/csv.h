@@ -34,6 +34,25 @@ struct CsvRecord {
   std::string scratch;
 };
 
+// How a CSV input is written. The defaults are RFC 4180's comma and the
+// decimal point; files saved by spreadsheets in much of Europe use ';' and a
+// decimal comma.
+struct CsvFormat {
+  // Field delimiter: ',' (default), ';' or '\t'.
+  char delimiter = ',';
+  // Decimal mark of numbers: '.' (default) or ','. A decimal comma needs a
+  // delimiter other than ',' (else every number would need quotes).
+  char decimal = '.';
+
+  // Returns false with a message when a character is not one of those, or
+  // both are ','.
+  bool IsValid(std::string* error) const;
+};
+
+// Returns "','", "';'" or "tab", as a message or the configuration names a
+// delimiter or decimal mark.
+std::string FormatCharName(char c);
+
 // Reads records from a buffer holding a whole CSV file or a chunk of one that
 // starts at a record boundary. Accepts LF and CRLF line ends, a UTF-8
 // byte-order mark at the start of the file, and a missing final newline (a
@@ -68,6 +87,8 @@ class CsvReader {
 
   // Uses limits.max_record_bytes and limits.max_field_bytes.
   void set_limits(const ReadLimits& limits);
+  // Separates fields by `delimiter` (default ','; see CsvFormat) instead.
+  void set_delimiter(char delimiter) { delimiter_ = delimiter; }
 
   // Reads the next record. Returns false at the end of the data or on a
   // malformed record; in the latter case error() is non-empty and names the
@@ -98,8 +119,15 @@ class CsvReader {
   int64_t line_ = 1;
   size_t max_record_bytes_;
   size_t max_field_bytes_;
+  char delimiter_ = ',';
   std::string error_;
 };
+
+// Finds the first byte of `record` (read with `delimiter`) that is not valid
+// UTF-8. Returns false when the whole record is valid; otherwise sets *line
+// to the line of that byte and *field to the 1-based number of its field,
+// the place a CsvReader message would name.
+bool FindInvalidUtf8(const CsvRecord& record, char delimiter, int64_t* line, int* field);
 
 // Splits `data` (a whole file after its header row) into at most `num_chunks`
 // pieces that each start at a record boundary, by tracking the parity of
@@ -150,8 +178,10 @@ struct CsvBlock {
 // (limits.max_record_bytes); raise the limit if the file is right".
 class CsvBlockReader {
  public:
-  // Reads `block_bytes` per step (at least 64).
-  CsvBlockReader(std::string path, int64_t block_bytes, const ReadLimits& limits);
+  // Reads `block_bytes` per step (at least 64). `delimiter` only places the
+  // field named by a limit message (see CsvFormat).
+  CsvBlockReader(std::string path, int64_t block_bytes, const ReadLimits& limits,
+                 char delimiter = ',');
   ~CsvBlockReader();
   CsvBlockReader(const CsvBlockReader&) = delete;
   CsvBlockReader& operator=(const CsvBlockReader&) = delete;
@@ -181,6 +211,7 @@ class CsvBlockReader {
   std::string path_;
   size_t block_bytes_;
   ReadLimits limits_;
+  char delimiter_;
   int fd_ = -1;
   std::string buffer_;
   size_t size_ = 0;       // bytes of buffer_ holding file data

@@ -25,7 +25,9 @@ enum class NumberStatus {
 // Parses a decimal number (leading and trailing ASCII spaces allowed, a
 // leading '+' allowed). Rejects empty text, trailing garbage, inf/nan, and
 // numbers beyond the range of a double (subnormal numbers are read).
-NumberStatus ParseNumber(std::string_view text, double* value);
+// `decimal` is the decimal mark: '.' (default) or ','; under ',' a '.' is
+// refused, so "1.200" is never read as 1.2 or 1200.
+NumberStatus ParseNumber(std::string_view text, double* value, char decimal = '.');
 
 // Parses a 1/0, yes/no, true/false flag (case-insensitive, spaces trimmed).
 // Returns false when the text is none of these.
@@ -50,8 +52,19 @@ std::string FormatFixed(double value, int decimals);
 std::string FormatCount(int64_t value);
 
 // Returns a value quoted for a message, 'like this': cut after 60 bytes
-// ("...") and with line breaks shown as spaces, so a message stays one line.
+// ("...", never inside a UTF-8 character) and with line breaks shown as
+// spaces, so a message stays one line.
 std::string QuoteValue(std::string_view text);
+
+// Says what a number ParseNumber refused as kInvalid was likely meant to be,
+// for the end of its message; empty when nothing fits. Under decimal '.':
+// "thousands separators are not allowed (write 1200000)" for '1,200,000'
+// (also '1 200 000' and '1'200'000'), "a decimal comma needs decimal: ','
+// for this file (survey.prices)" for '11,77' (`setting` names the file's
+// configuration key; empty: "a decimal comma is not allowed here (write
+// 11.77)"), both for '1,200'. Under decimal ',' the same with the roles of
+// '.' and ',' swapped: "this file's decimal mark is ',' (survey.prices)".
+std::string NumberHint(std::string_view text, char decimal, std::string_view setting);
 
 // Returns "path:line:column: what" (": what" after the line when column is 0),
 // the form of every message about a data row.
@@ -60,6 +73,11 @@ std::string LocatedMessage(const std::string& path, int64_t line, int column, co
 // Describes why `text` is not a usable number, e.g. "price 'abc' is not a
 // number"; empty for kOk.
 std::string NumberProblem(NumberStatus status, std::string_view what, std::string_view text);
+// The same, with NumberHint after "; " for text that is not a number, e.g.
+// "population '1,200,000' is not a number; thousands separators are not
+// allowed (write 1200000)".
+std::string NumberProblem(NumberStatus status, std::string_view what, std::string_view text,
+                          char decimal, std::string_view setting);
 
 // Returns the Levenshtein distance between two strings, or max_distance + 1
 // when it is larger than max_distance. Costs O(|a| x min(max_distance, |b|))
@@ -80,6 +98,27 @@ std::string NearestName(std::string_view word, const std::vector<std::string>& c
 // escapes ("\x1b", "\u202e", "\xff"), so data can neither drive the
 // terminal nor reorder what is displayed.
 std::string VisibleText(std::string_view text);
+
+// Returns the offset of the first byte of `text` that is not part of a valid
+// UTF-8 sequence (overlong forms, surrogates and code points above U+10FFFF
+// are invalid), or std::string_view::npos when the whole text is valid.
+// ASCII text is checked eight bytes at a time.
+size_t FindInvalidUtf8(std::string_view text);
+
+// Returns `text` with each byte that is not valid UTF-8 written as "\xNN"
+// and everything else unchanged: for text from outside (a file name given
+// on the command line) that must be UTF-8 where it goes (JSON).
+std::string ValidUtf8(std::string_view text);
+
+// Ends every message about text that is not UTF-8: the likely cause and the
+// remedy.
+inline constexpr std::string_view kUtf8Advice =
+    "the file may be Latin-1 or Windows-1252: save it as UTF-8";
+
+// Returns the problem of `field` (of column `what`) that is not valid UTF-8:
+// "region 'Z\xfcrich' is not valid UTF-8 (" + kUtf8Advice + ")", the value
+// shown through VisibleText so that the message itself is valid UTF-8.
+std::string Utf8Problem(std::string_view what, std::string_view field);
 
 // Joins names with ", ".
 std::string JoinNames(const std::vector<std::string>& names, std::string_view separator = ", ");

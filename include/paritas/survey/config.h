@@ -7,6 +7,7 @@
 #include <string>
 #include <vector>
 
+#include "paritas/base/csv.h"
 #include "paritas/base/read_limits.h"
 #include "paritas/survey/classification.h"
 
@@ -95,6 +96,12 @@ struct SurveyFiles {
   std::string expenditure;  // required
   std::string regions;      // optional
   std::string items;        // optional
+  // How each file is written: a file given as a mapping {path, delimiter,
+  // decimal} in the configuration; default ',' and '.'.
+  CsvFormat prices_format;
+  CsvFormat expenditure_format;
+  CsvFormat regions_format;
+  CsvFormat items_format;
 };
 
 struct RunConfig {

@@ -13,18 +13,69 @@
 
 namespace paritas {
 
+// Why a data row is left out.
+enum class RejectionCause {
+  kRow,              // the row itself breaks a rule (default)
+  kRejectedCode,     // its region or item was rejected in regions.csv or items.csv
+  kHeadingConflict,  // its item is filed under another heading before it
+};
+
 // A data row left out of the survey.
 struct RejectedRow {
   std::string file;    // path as given in the configuration
   int64_t line = 0;    // 1-based line on which the row starts
   std::string reason;  // full message, e.g. "prices.csv:118:3: price '-4.10' is not a positive number"
   std::string raw;     // the row's text as read
+  // Rows of the last two causes are listed in rejected.csv one by one but
+  // described once per code (LoadSummary::rejected_codes, heading_conflicts)
+  // wherever rows are shown.
+  RejectionCause cause = RejectionCause::kRow;
+};
+
+// A region of regions.csv or an item of items.csv whose rows were all
+// rejected, and the rows of the other files left out because of it (they
+// would otherwise each be rejected as "not in regions.csv").
+struct RejectedCode {
+  std::string kind;  // "region" or "item"
+  std::string code;
+  std::string file;    // regions.csv or items.csv, as given
+  int64_t line = 0;    // the code's first rejected row
+  std::string reason;  // that row's problem, without its location
+  int64_t num_price_rows = 0;
+  int64_t num_expenditure_rows = 0;  // always 0 for an item
+
+  // "region 'NRD' was rejected at regions.csv:5 (population '1,200,000' is
+  // not a number; ...), so its 57 price rows and 8 expenditure rows are left
+  // out".
+  std::string Describe() const;
+};
+
+// An item filed under different headings by rows of prices.csv (or by
+// items.csv and prices.csv). The first statement wins; rows stating another
+// heading are rejected and counted here per heading.
+struct HeadingConflict {
+  std::string item;
+  std::string heading_used;
+  std::string origin_used;    // where it was first stated: "items.csv:4" or "prices.csv:2"
+  int64_t num_rows_used = 0;  // price rows of the item used
+  struct Other {
+    std::string heading;
+    int64_t num_rows = 0;  // rows rejected for stating it
+    int64_t first_line = 0;
+  };
+  std::vector<Other> others;  // in order of first appearance
+
+  // "item 'milk' is filed under 2 headings: 'dairy' (first at prices.csv:2;
+  // 120 rows used) and 'food' (3 rows from prices.csv:500, rejected)".
+  std::string Describe(const std::string& prices_path) const;
 };
 
 // Accounting for one input file. rows_read = rows_used + rows_rejected.
 struct InputFileSummary {
   std::string role;  // "regions", "items", "prices" or "expenditure"
   std::string path;
+  // Delimiter and decimal mark the file was read with.
+  CsvFormat format;
   bool given = false;
   int64_t size_bytes = 0;
   // SHA-256 of the file's bytes, 64 lowercase hex digits.
@@ -32,6 +83,9 @@ struct InputFileSummary {
   int64_t rows_read = 0;  // data rows, header excluded, blank lines not counted
   int64_t rows_used = 0;
   int64_t rows_rejected = 0;
+  // Of rows_rejected, those left out only because their region or item was
+  // rejected in regions.csv or items.csv (RejectionCause::kRejectedCode).
+  int64_t rows_rejected_by_cascade = 0;
   // Header columns that paritas does not use, in header order.
   std::vector<std::string> ignored_columns;
 };
@@ -58,7 +112,9 @@ struct LoadSummary {
   LoadOutcome outcome = LoadOutcome::kNotRun;
   std::string message = "not run";
   std::vector<InputFileSummary> files;
-  // Under kSkip every rejected row; under kStop the first max_reported_rows.
+  // Under kSkip every rejected row; under kStop the first max_reported_rows
+  // rejected for their own fault (the others are described by
+  // rejected_codes and heading_conflicts).
   std::vector<RejectedRow> rejected_rows;
   int64_t num_rows_rejected = 0;
   // Quote rows of prices.csv repeating an earlier row field for field (each
@@ -67,12 +123,22 @@ struct LoadSummary {
   int64_t num_duplicate_quotes = 0;
   std::string duplicate_example;
   DuplicateQuotePolicy duplicate_policy = DuplicateQuotePolicy::kKeep;
+  // Of num_rows_rejected, those of rejected regions and items.
+  int64_t num_rows_rejected_by_cascade = 0;
+  // Regions and items rejected with their rows elsewhere, in file order.
+  std::vector<RejectedCode> rejected_codes;
+  // Items filed under more than one heading, in order of the first conflict.
+  std::vector<HeadingConflict> heading_conflicts;
   std::vector<std::string> warnings;
   double read_seconds = 0.0;   // reading and validating all files
   double cells_seconds = 0.0;  // building the cell table
 
   // One line: "read 12,345 quotes for 16 regions, 200 items, 30 headings; 0 rows rejected".
   std::string BriefReport() const;
+  // The rejected rows to show, one line each: up to `limit` rejected for
+  // their own fault (then "... N more"), then one line per heading conflict
+  // and per rejected code.
+  std::string DescribeRejections(size_t limit) const;
 };
 
 // Reads the survey files named in `config`, using its classification (or a
