@@ -492,22 +492,27 @@ def main():
             num_quotes = rng.randint(3, 6) if region[0] == "cap" else rng.randint(2, 6)
             sd = QUOTE_SD.get(kind, DEFAULT_QUOTE_SD)
             flag = "1" if representative[region[0], code] else "0"
-            for _ in range(num_quotes):
+            for q in range(num_quotes):
                 price = math.exp(log_mean + rng.gauss(0.0, sd))
-                price_rows.append((region[0], code, round_price(price, kind), flag))
+                price_rows.append((region[0], code, round_price(price, kind), flag, "o%d" % (q + 1)))
     # Two recording errors are planted on purpose, for the outlier screen to
     # find (see README.md): in 'net' the box of ten eggs was priced per egg
     # (every quote of the cell a tenth of what it should be), and in 'vel' one
     # quote of whole milk was keyed with the decimal point one place off.
     # They change no random draw, so every other number stays as it was.
-    for k, (region, code, price, flag) in enumerate(price_rows):
+    for k, (region, code, price, flag, outlet) in enumerate(price_rows):
         if (region, code) == ("net", "eggs"):
-            price_rows[k] = (region, code, "%.3f" % (float(price) / 10.0), flag)
+            price_rows[k] = (region, code, "%.3f" % (float(price) / 10.0), flag, outlet)
     milk = [k for k, row in enumerate(price_rows) if row[:2] == ("vel", "whole_milk")]
-    region, code, price, flag = price_rows[milk[2]]
-    price_rows[milk[2]] = (region, code, "%.2f" % (float(price) * 10.0), flag)
-    write_csv(os.path.join(out, "prices.csv"), ["region", "item", "price", "representative"],
-              price_rows)
+    region, code, price, flag, outlet = price_rows[milk[2]]
+    price_rows[milk[2]] = (region, code, "%.2f" % (float(price) * 10.0), flag, outlet)
+    # The island group's rents were not surveyed (a partial basket, see
+    # README.md): its rent quotes are left out after every draw, so every
+    # other number stays as it was; its spending on rent stays in.
+    rent_items = {i[0] for i in items if i[1] == "actual_rents"}
+    price_rows = [row for row in price_rows if not (row[0] == "zel" and row[1] in rent_items)]
+    write_csv(os.path.join(out, "prices.csv"),
+              ["region", "item", "price", "representative", "outlet"], price_rows)
 
     # --- expenditure.csv: shares tilt towards housing where rents are high,
     # towards food where incomes are low (Engel), towards eating out and leisure

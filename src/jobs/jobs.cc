@@ -164,6 +164,11 @@ int RunCheck(const RunConfig& config, CheckSummary* summary) {
       summary->outlier_threshold = config.outlier_threshold;
       const OutlierReport report = FindOutliers(survey, result, outlier_options);
       for (HeadingCheck& check : summary->headings) check.num_flagged_cells = report.num_flagged_cells[check.heading];
+      // The warnings compute will raise on the same survey and settings.
+      PlausibilityResult plausibility = CheckPlausibility(survey, result, config);
+      AddGrossOutlierWarnings(survey, report, config.checks, &plausibility);
+      summary->compute_warnings = CollectWarnings(summary->load, compute.warnings, plausibility);
+      summary->compute_warnings_known = true;
     }
   }
   summary->usable = summary->num_unlinked_headings == 0 && compute_problem.empty();
@@ -237,6 +242,10 @@ std::string CheckSummary::FullReport() const {
          FormatFixed(outlier_threshold, 1) + "; listed in outliers.csv by compute)\n";
   out += "rejected rows: " + FormatCount(load.num_rows_rejected) + "\n";
   if (load.num_rows_rejected > 0) out += DescribeRejectedRows(load);
+  if (compute_warnings_known) {
+    out += compute_warnings.empty() ? "compute will raise no warnings\n"
+                                    : "compute will raise " + WarningsText(compute_warnings);
+  }
   out += std::string(usable ? "usable: " : "not usable: ") + message + "\n";
   return out;
 }

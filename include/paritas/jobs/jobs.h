@@ -52,6 +52,10 @@ struct CheckSummary {
   int num_unlinked_headings = 0;
   double outlier_threshold = 3.5;
   bool usable = false;
+  // The warnings `compute` will raise with the same configuration (known
+  // when the parities could be computed).
+  bool compute_warnings_known = false;
+  std::vector<RunWarning> compute_warnings;
 
   // The readable summary printed by `paritas check`.
   std::string FullReport() const;
