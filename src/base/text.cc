@@ -173,7 +173,9 @@ int EditDistance(std::string_view a, std::string_view b, int max_distance) {
   const int bound = std::min(max_distance, std::max(n, m));
   if (std::abs(n - m) > bound) return bound + 1;
   const int kFar = bound + 1;
-  std::vector<int> previous(m + 1), current(m + 1);
+  // Optimal string alignment: a swap of adjacent characters is one edit, so
+  // row i also reads row i - 2 (`before`), inside the band of row i - 2.
+  std::vector<int> before(m + 1, kFar), previous(m + 1), current(m + 1);
   for (int j = 0; j <= m; ++j) previous[j] = std::min(j, kFar);
   for (int i = 1; i <= n; ++i) {
     const int lo = std::max(1, i - bound), hi = std::min(m, i + bound);
@@ -182,11 +184,18 @@ int EditDistance(std::string_view a, std::string_view b, int max_distance) {
     int row_min = current[lo - 1];
     for (int j = lo; j <= hi; ++j) {
       const int substitution = previous[j - 1] + (a[i - 1] == b[j - 1] ? 0 : 1);
-      current[j] = std::min({previous[j] + 1, current[j - 1] + 1, substitution, kFar});
-      row_min = std::min(row_min, current[j]);
+      int best = std::min({previous[j] + 1, current[j - 1] + 1, substitution, kFar});
+      if (i > 1 && j > 1 && a[i - 1] == b[j - 2] && a[i - 2] == b[j - 1]) {
+        best = std::min(best, before[j - 2] + 1);
+      }
+      current[j] = best;
+      row_min = std::min(row_min, best);
     }
     if (hi < m) current[hi + 1] = kFar;  // The next row's band reaches one further.
+    // Distances never fall along a diagonal, swaps included, so a row beyond
+    // the bound leaves every later row beyond it.
     if (row_min >= kFar) return kFar;
+    std::swap(before, previous);
     std::swap(previous, current);
   }
   return previous[m];

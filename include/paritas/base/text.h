@@ -61,9 +61,12 @@ std::string LocatedMessage(const std::string& path, int64_t line, int column, co
 // number"; empty for kOk.
 std::string NumberProblem(NumberStatus status, std::string_view what, std::string_view text);
 
-// Returns the Levenshtein distance between two strings, or max_distance + 1
-// when it is larger than max_distance. Costs O(|a| x min(max_distance, |b|))
-// steps: only a band around the diagonal is computed.
+// Returns the optimal string alignment distance between two strings (edits:
+// insert, delete or substitute a character, or swap two adjacent ones, each
+// character edited at most once), or max_distance + 1 when it is larger than
+// max_distance. A swap counts as one edit because it is a common typo ("PTR"
+// for "PRT"). Costs O(|a| x min(max_distance, |b|)) steps: only a band
+// around the diagonal is computed.
 int EditDistance(std::string_view a, std::string_view b,
                  int max_distance = std::numeric_limits<int>::max());
 
