@@ -201,27 +201,45 @@ int EditDistance(std::string_view a, std::string_view b, int max_distance) {
   return previous[m];
 }
 
+std::string NameKey(std::string_view text) {
+  std::string key = ToLower(Trim(text));
+  for (char& c : key) {
+    if (c == '_' || c == ' ') c = '-';
+  }
+  return key;
+}
+
 std::string NearestName(std::string_view word, const std::vector<std::string>& candidates) {
   // Codes are at most 200 bytes: a longer word is no typo of one, and each
   // candidate would cost |word| x |candidate| steps.
   constexpr size_t kMaxWordBytes = 256;
   if (word.size() > kMaxWordBytes) return "";
-  const std::string lower_word = ToLower(word);
+  const std::string lower_word = NameKey(word);
   const int limit = std::max(2, static_cast<int>(word.size()) / 3);
   std::string best;
   int best_distance = limit + 1;
   for (const std::string& candidate : candidates) {
     // The distance is at least the difference in length.
-    const size_t length_gap = candidate.size() > word.size() ? candidate.size() - word.size()
-                                                             : word.size() - candidate.size();
+    const size_t length_gap = candidate.size() > lower_word.size()
+                                  ? candidate.size() - lower_word.size()
+                                  : lower_word.size() - candidate.size();
     if (length_gap >= static_cast<size_t>(best_distance)) continue;
-    const int distance = EditDistance(lower_word, ToLower(candidate), best_distance - 1);
+    const int distance = EditDistance(lower_word, NameKey(candidate), best_distance - 1);
     if (distance < best_distance) {
       best_distance = distance;
       best = candidate;
     }
   }
   return best;
+}
+
+std::string NotOneOf(std::string_view what, std::string_view value,
+                     const std::vector<std::string>& names) {
+  std::string out =
+      std::string(what) + " " + QuoteValue(value) + " is not one of: " + JoinNames(names);
+  const std::string nearest = NearestName(value, names);
+  if (!nearest.empty()) out += "; did you mean '" + nearest + "'?";
+  return out;
 }
 
 std::string JoinNames(const std::vector<std::string>& names, std::string_view separator) {

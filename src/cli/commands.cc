@@ -26,12 +26,15 @@ bool LoadConfigWithOverrides(const std::string& path, const Overrides& overrides
     return false;
   }
   if (overrides.output) config->output = *overrides.output;
-  if (overrides.reference) config->reference = Reference::FromString(*overrides.reference);
+  if (overrides.reference &&
+      !ParseReference("--reference", *overrides.reference, &config->reference, &error)) {
+    PrintError(error);
+    return false;
+  }
   if (overrides.elementary) {
     const ElementaryMethod* method = FindElementaryMethod(*overrides.elementary);
     if (method == nullptr) {
-      PrintError("--elementary '" + *overrides.elementary + "' is not one of: " +
-                 JoinNames(ElementaryMethodNames()));
+      PrintError(NotOneOf("--elementary", *overrides.elementary, ElementaryMethodNames()));
       return false;
     }
     config->elementary = method->Name();
@@ -39,15 +42,13 @@ bool LoadConfigWithOverrides(const std::string& path, const Overrides& overrides
   if (overrides.aggregation) {
     const AggregationMethod* method = FindAggregationMethod(*overrides.aggregation);
     if (method == nullptr) {
-      PrintError("--aggregation '" + *overrides.aggregation + "' is not one of: " +
-                 JoinNames(AggregationMethodNames()));
+      PrintError(NotOneOf("--aggregation", *overrides.aggregation, AggregationMethodNames()));
       return false;
     }
     config->aggregation = method->Name();
   }
   if (overrides.invalid_rows && !FromString(*overrides.invalid_rows, &config->invalid_rows)) {
-    PrintError("--invalid-rows '" + *overrides.invalid_rows + "' is not one of: " +
-               JoinNames(InvalidRowPolicyNames()));
+    PrintError(NotOneOf("--invalid-rows", *overrides.invalid_rows, InvalidRowPolicyNames()));
     return false;
   }
   if (overrides.threads) config->threads = *overrides.threads;

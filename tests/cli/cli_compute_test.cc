@@ -178,7 +178,36 @@ TEST(ComputeCommand, UnlinkedHeadingExitsWithTwoAndNamesTheRegions) {
 TEST(ComputeCommand, BadMethodNameListsTheAllowedOnes) {
   std::string out, err;
   EXPECT_EQ(RunCli("compute " + Demo() + " --elementary cdp --output " + MakeTempDir("cli_bad"), &out, &err), 1);
-  EXPECT_EQ(err, "paritas: error: --elementary 'cdp' is not one of: cpd, jevons-geks, robust-cpd\n");
+  EXPECT_EQ(err,
+            "paritas: error: --elementary 'cdp' is not one of: cpd, jevons-geks, robust-cpd; did "
+            "you mean 'cpd'?\n");
+}
+
+// Named values with '_' for '-' or misspelt get a suggestion on every option
+// that takes one (weighted_mean used to pass as a region code).
+TEST(ComputeCommand, SuggestsTheNameMeantForEveryNamedOption) {
+  const std::pair<std::string, std::string> cases[] = {
+      {"--reference weighted_mean",
+       "--reference 'weighted_mean' is not one of: mean, weighted-mean, or a region code; did you "
+       "mean 'weighted-mean'?"},
+      {"--elementary Jevons_GEKS",
+       "--elementary 'Jevons_GEKS' is not one of: cpd, jevons-geks, robust-cpd; did you mean "
+       "'jevons-geks'?"},
+      {"--aggregation geks_fisher",
+       "--aggregation 'geks_fisher' is not one of: geks-fisher, geks-tornqvist; did you mean "
+       "'geks-fisher'?"},
+      {"--invalid-rows Skipp",
+       "--invalid-rows 'Skipp' is not one of: stop, skip; did you mean 'skip'?"},
+  };
+  for (const auto& [arguments, message] : cases) {
+    std::string out, err;
+    EXPECT_EQ(
+        RunCli("compute " + Demo() + " " + arguments + " --output " + MakeTempDir("cli_named"),
+               &out, &err),
+        1)
+        << arguments;
+    EXPECT_EQ(err, "paritas: error: " + message + "\n") << arguments;
+  }
 }
 
 TEST(ComputeCommand, UnknownMatrixNodeSuggestsTheNearest) {

@@ -84,6 +84,8 @@ TEST(DeflateCommand, RefusesBadOptionsWithExitCodeOne) {
        "paritas: error: --node excludes --node-column\nrun 'paritas --help' for usage\n"},
       {base + " --value-column income --invalid-rows maybe",
        "paritas: error: --invalid-rows 'maybe' is not one of: stop, skip\n"},
+      {base + " --value-column income --invalid-rows STOP_",
+       "paritas: error: --invalid-rows 'STOP_' is not one of: stop, skip; did you mean 'stop'?\n"},
       {base + " --value-column income --node food",
        "paritas: error: node 'food' is not in " + dir + "/p/parities.csv\n"},
       {base + " --value-column wage",

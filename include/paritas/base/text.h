@@ -70,11 +70,22 @@ std::string NumberProblem(NumberStatus status, std::string_view what, std::strin
 int EditDistance(std::string_view a, std::string_view b,
                  int max_distance = std::numeric_limits<int>::max());
 
-// Returns the candidate closest to `word` by edit distance (ASCII case
-// ignored) when it is close enough to be a plausible typo (distance <=
-// max(2, |word| / 3)), else "". A word longer than 256 bytes gets no
-// suggestion (codes are at most 200 bytes), so a huge word costs nothing.
+// Returns `text` trimmed, lower-cased (ASCII) and with '_' and ' ' as '-':
+// the form in which "Weighted_Mean" and "weighted-mean" are one name.
+std::string NameKey(std::string_view text);
+
+// Returns the candidate closest to `word` by edit distance, compared as
+// NameKey (case ignored, '_' and ' ' taken as '-'), when it is close enough to
+// be a plausible typo (distance <= max(2, |word| / 3)), else "". A word
+// longer than 256 bytes gets no suggestion (codes are at most 200 bytes), so
+// a huge word costs nothing.
 std::string NearestName(std::string_view word, const std::vector<std::string>& candidates);
+
+// Returns "<what> '<value>' is not one of: a, b, c", followed by "; did you
+// mean 'b'?" when NearestName finds one: the message for every named value
+// of the configuration and the command line.
+std::string NotOneOf(std::string_view what, std::string_view value,
+                     const std::vector<std::string>& names);
 
 // Returns `text` safe to show on a terminal or in a report: line feeds and
 // tabs are kept; other control characters (C0, DEL, C1), the Unicode
