@@ -1,12 +1,13 @@
 // Thin wrappers: read the configuration, apply overrides, run the job, print.
 #include "cli/commands.h"
 
+#include <cmath>
 #include <cstdio>
 #include <iostream>
 
-#include "paritas/survey/config.h"
-#include "paritas/jobs/jobs.h"
 #include "paritas/base/text.h"
+#include "paritas/jobs/jobs.h"
+#include "paritas/survey/config.h"
 
 namespace paritas::cli {
 namespace {
@@ -51,13 +52,32 @@ bool LoadConfigWithOverrides(const std::string& path, const Overrides& overrides
     PrintError(NotOneOf("--invalid-rows", *overrides.invalid_rows, InvalidRowPolicyNames()));
     return false;
   }
-  if (overrides.threads) config->threads = *overrides.threads;
+  if (overrides.threads) {
+    double threads = 0;
+    if (!ParseWholeOption("--threads", *overrides.threads, 0, 1024, &threads, " (all cores)")) {
+      return false;
+    }
+    config->threads = static_cast<int>(threads);
+  }
   if (!overrides.matrices.empty()) config->matrices = overrides.matrices;
   if (overrides.no_report) config->report = false;
   if (!config->IsValid(&error)) {
     PrintError(error);
     return false;
   }
+  return true;
+}
+
+bool ParseWholeOption(const std::string& option, const std::string& text, double min, double max,
+                      double* value, const std::string& min_note) {
+  double parsed = 0.0;
+  if (ParseNumber(text, &parsed) != NumberStatus::kOk || parsed != std::floor(parsed) ||
+      parsed < min || parsed > max) {
+    PrintError(option + " must be a whole number from " + FormatFixed(min, 0) + min_note + " to " +
+               FormatFixed(max, 0) + ", found '" + text + "'");
+    return false;
+  }
+  *value = parsed;
   return true;
 }
 

@@ -1,16 +1,16 @@
 // The paritas command line: parses arguments with CLI11 and dispatches to a
 // subcommand. CLI11's own exit codes (100+) are mapped to ours: 0 ok,
 // 1 invalid input or arguments, 2 computation failed.
+#include <CLI/CLI.hpp>
 #include <iostream>
+#include <optional>
 #include <string>
 
-#include <CLI/CLI.hpp>
-
 #include "cli/commands.h"
+#include "paritas/base/text.h"
+#include "paritas/jobs/jobs.h"
 #include "paritas/survey/config.h"
 #include "paritas/use/deflation.h"
-#include "paritas/jobs/jobs.h"
-#include "paritas/base/text.h"
 
 namespace {
 
@@ -32,7 +32,7 @@ void AddComputeOverrides(CLI::App* command, paritas::cli::Overrides* overrides) 
 }
 
 void AddDeflateOptions(CLI::App* command, paritas::DeflateOptions* options,
-                       paritas::cli::Overrides* overrides) {
+                       paritas::cli::Overrides* overrides, std::optional<std::string>* decimals) {
   command->add_option("--parities", options->parities_dir, "output folder of 'paritas compute'")
       ->required();
   command->add_option("--input", options->input_path, "CSV file with a region and money columns")
@@ -54,10 +54,11 @@ void AddDeflateOptions(CLI::App* command, paritas::DeflateOptions* options,
   command->add_flag("--interval", options->include_interval,
                     "add <column>_real_lower/_upper from sensitivity/bootstrap.csv");
   command->add_flag("--allow-negative", options->allow_negative, "accept negative values (e.g. net incomes)");
-  command->add_option("--decimals", options->decimals,
-                      "round real values to this many digits (default: exact, the shortest text "
-                      "that reads back to the same number)")
-      ->check(CLI::Range(0, 17));
+  command
+      ->add_option("--decimals", *decimals,
+                   "round real values to this many digits (default: exact, the shortest text "
+                   "that reads back to the same number)")
+      ->type_name("INT");
 }
 
 }  // namespace
@@ -74,7 +75,7 @@ int main(int argc, char** argv) {
     command->add_option("--invalid-rows", overrides.invalid_rows,
                         "what to do with invalid rows: " + JoinNames(paritas::InvalidRowPolicyNames()));
     command->add_option("--threads", overrides.threads, "worker threads (0 = all cores)")
-        ->check(CLI::Range(0, 1024));
+        ->type_name("INT");
   };
 
   CLI::App* check = app.add_subcommand("check", "validate the survey and describe its structure");
@@ -84,7 +85,8 @@ int main(int argc, char** argv) {
   AddComputeOverrides(compute, &overrides);
   paritas::DeflateOptions deflate_options;
   CLI::App* deflate = app.add_subcommand("deflate", "express money values of a CSV file in reference prices");
-  AddDeflateOptions(deflate, &deflate_options, &overrides);
+  std::optional<std::string> deflate_decimals;
+  AddDeflateOptions(deflate, &deflate_options, &overrides, &deflate_decimals);
   std::string pair_from, pair_to, pair_node, pair_csv;
   CLI::App* pair = app.add_subcommand("pair", "compare two regions with every index formula");
   add_common(pair);
@@ -136,7 +138,15 @@ int main(int argc, char** argv) {
 
   if (check->parsed()) return paritas::cli::RunCheckCommand(config_path, overrides);
   if (compute->parsed()) return paritas::cli::RunComputeCommand(config_path, overrides);
-  if (deflate->parsed()) return paritas::cli::RunDeflateCommand(deflate_options, overrides);
+  if (deflate->parsed()) {
+    double decimals = 0;
+    if (deflate_decimals &&
+        !paritas::cli::ParseWholeOption("--decimals", *deflate_decimals, 0, 17, &decimals)) {
+      return paritas::kExitInvalidInput;
+    }
+    if (deflate_decimals) deflate_options.decimals = static_cast<int>(decimals);
+    return paritas::cli::RunDeflateCommand(deflate_options, overrides);
+  }
   if (sensitivity->parsed()) {
     return paritas::cli::RunSensitivityCommand(config_path, overrides, sensitivity_arguments);
   }

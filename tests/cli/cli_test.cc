@@ -131,6 +131,24 @@ TEST(CliCheck, ListsTheAllowedPoliciesForABadInvalidRowsOption) {
   EXPECT_EQ(run.err, "paritas: error: --invalid-rows 'maybe' is not one of: stop, skip\n");
 }
 
+// Numbers on the command line get our message (the option, the rule, the
+// value), not CLI11's "Value abc not in range 0 to 1024".
+TEST(CliCheck, RefusesAThreadCountThatIsNotAWholeNumberInRange) {
+  const std::string dir = WriteSurvey("bad_threads");
+  for (const char* value : {"abc", "2000", "-1", "1.5", "''"}) {
+    const CliRun run = RunCli("check '" + dir + "/run.yaml' --threads " + value, dir);
+    EXPECT_EQ(run.exit_code, 1) << value;
+    const std::string shown = std::string(value) == "''" ? "" : value;
+    EXPECT_EQ(run.err,
+              "paritas: error: --threads must be a whole number from 0 (all cores) to "
+              "1024, found '" +
+                  shown + "'\n")
+        << value;
+  }
+  const CliRun ok = RunCli("check '" + dir + "/run.yaml' --threads 2", dir);
+  EXPECT_EQ(ok.exit_code, 0) << ok.err;
+}
+
 TEST(CliCheck, ReportsAMissingArgumentWithTheErrorPrefix) {
   const std::string dir = MakeTempDir("cli_no_args");
   const CliRun run = RunCli("check", dir);

@@ -447,6 +447,11 @@ TEST(SensitivityCommand, BadOptionValuesExitWithOneAndAClearMessage) {
        "paritas: error: --replicates must be a whole number from 2 to 100000, found '2.5'\n"},
       {"--seed -1",
        "paritas: error: --seed must be a whole number from 0 to 9007199254740992, found '-1'\n"},
+      {"--seed x1",
+       "paritas: error: --seed must be a whole number from 0 to 9007199254740992, found 'x1'\n"},
+      {"--threads abc",
+       "paritas: error: --threads must be a whole number from 0 (all cores) to 1024, found "
+       "'abc'\n"},
       {"--level 100",
        "paritas: error: --level must be a percentage above 0 and below 100 (e.g. 95) or a share "
        "below 1 (e.g. "
