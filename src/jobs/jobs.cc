@@ -171,11 +171,9 @@ int RunCheck(const RunConfig& config, CheckSummary* summary) {
 
 std::string CheckSummary::FullReport() const {
   std::string out;
-  if (load.outcome != LoadOutcome::kOk) {
-    out += FilesReport(load);
-    if (!load.rejected_rows.empty()) out += "rejected rows:\n" + DescribeRejectedRows(load);
-    return out;
-  }
+  // A failed load's rejected rows go to standard error with its message (as
+  // for compute), so the report names only the files.
+  if (load.outcome != LoadOutcome::kOk) return FilesReport(load);
   out += SurveyCounts(survey);
   out += FilesReport(load);
   size_t width = 7;

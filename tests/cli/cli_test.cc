@@ -149,6 +149,36 @@ TEST(CliCheck, RefusesAThreadCountThatIsNotAWholeNumberInRange) {
   EXPECT_EQ(ok.exit_code, 0) << ok.err;
 }
 
+size_t CountOf(const std::string& text, const std::string& part) {
+  size_t count = 0;
+  for (size_t at = text.find(part); at != std::string::npos; at = text.find(part, at + 1)) ++count;
+  return count;
+}
+
+// check listed each rejected row on standard output and again on standard
+// error when the rows stopped the run.
+TEST(CliCheck, ListsEachRejectedRowOnce) {
+  std::string prices = kPrices;
+  prices.replace(prices.find("south,milk,1.5"), 14, "south,milk,abc");
+  const std::string row = "/data/prices.csv:5:3: price 'abc' is not a number\n";
+  for (const char* policy : {"stop", "skip"}) {
+    const std::string dir = WriteSurvey(std::string("rejected_once_") + policy, prices);
+    const CliRun run = RunCli("check '" + dir + "/run.yaml' --invalid-rows " + policy, dir);
+    EXPECT_EQ(CountOf(run.out + run.err, row), 1u) << policy << "\n" << run.out << run.err;
+    if (std::string(policy) == "stop") {
+      // With the message that stopped the run, as compute prints them.
+      EXPECT_EQ(run.exit_code, 1);
+      EXPECT_EQ(run.err, dir + row +
+                             "paritas: error: 1 invalid row; fix them, or set invalid_rows: skip "
+                             "to leave them out\n");
+    } else {
+      EXPECT_EQ(run.exit_code, 0) << run.err;
+      EXPECT_EQ(run.err, "");
+      EXPECT_TRUE(Contains(run.out, "rejected rows: 1\n" + dir + row)) << run.out;
+    }
+  }
+}
+
 TEST(CliCheck, ReportsAMissingArgumentWithTheErrorPrefix) {
   const std::string dir = MakeTempDir("cli_no_args");
   const CliRun run = RunCli("check", dir);

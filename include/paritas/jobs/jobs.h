@@ -48,7 +48,9 @@ struct CheckSummary {
   double outlier_threshold = 3.5;
   bool usable = false;
 
-  // The readable summary printed by `paritas check`.
+  // The readable summary printed by `paritas check`. When the load failed,
+  // only the files read: the rows that stopped it are printed with its
+  // message (DescribeRejectedRows), not twice.
   std::string FullReport() const;
 };
 
