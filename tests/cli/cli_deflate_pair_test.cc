@@ -96,8 +96,9 @@ TEST(DeflateCommand, RefusesBadOptionsWithExitCodeOne) {
        "paritas: error: " + dir + "/in.csv:1: missing column 'wage' (found: id, region, income)\n"},
       {base + " --value-column income --interval",
        "paritas: error: no parity intervals: " + dir +
-           "/p/sensitivity/bootstrap.csv does not exist (run 'paritas sensitivity' with the "
-           "configuration of this compute run)\n"},
+           "/p/sensitivity/bootstrap.csv does not exist; run 'paritas sensitivity CONFIG "
+           "--output " +
+           dir + "/p' with the configuration and options of the compute run\n"},
       {"deflate --parities " + dir + "/nowhere --input " + dir + "/in.csv --output " + dir +
            "/o.csv --value-column income",
        "paritas: error: " + dir +
@@ -146,6 +147,17 @@ TEST(DeflateCommand, DeflatesTheDemoWages) {
             "record_id,region,occupation,hourly_wage,annual_earnings,hourly_wage_real,annual_"
             "earnings_real");
   EXPECT_NE(out.find("3,000 written, 0 rejected"), std::string::npos) << out;
+  // --interval without a sensitivity run names the command that makes the
+  // intervals where deflate looks for them (it once named compute).
+  EXPECT_EQ(
+      RunCli("deflate --parities " + dir + "/out --input " + SourcePath("data/demo/wages.csv") +
+                 " --output " + dir + "/wages_real.csv --value-column hourly_wage --interval",
+             &out, &err),
+      1);
+  EXPECT_EQ(err, "paritas: error: no parity intervals: " + dir +
+                     "/out/sensitivity/bootstrap.csv does not exist; run 'paritas sensitivity " +
+                     SourcePath("config/demo.yaml") + " --output " + dir +
+                     "/out' with the configuration and options of the compute run\n");
 }
 
 // The six-commodity data of the CPI Manual 2004 (ch. 19) as a survey of two
