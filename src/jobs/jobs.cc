@@ -363,9 +363,10 @@ std::string ComputeJobSummary::FullReport() const {
   const std::string& root = survey.classification.nodes().front().code;
   out += "\nparities for '" + root + "' (" + result.nodes.front().reference_used + " = 100), dearest first:\n";
   out += RootTable(survey, result, RegionSpreads(result.bilaterals.front()));
-  out += "(P-L spread: largest |ln(Laspeyres / Paasche)| of the region against any other, "
-         "with that partner; large spreads mean the price and spending patterns differ and the "
-         "choice of formula matters.)\n";
+  out +=
+      "(P-L spread, %: 100 x |ln(Laspeyres / Paasche)|, the largest of the region against any "
+      "other, with that partner; large spreads mean the price and spending patterns differ and "
+      "the choice of formula matters.)\n";
   if (!outliers.outliers.empty()) {
     int64_t cells = 0;
     for (const Outlier& o : outliers.outliers) cells += o.kind == OutlierKind::kCell ? 1 : 0;
