@@ -179,6 +179,53 @@ TEST(CliCheck, ListsEachRejectedRowOnce) {
   }
 }
 
+// The help of every command shows each option's default, the exit codes
+// and one example command line.
+TEST(CliHelp, EveryCommandShowsDefaultsExitCodesAndAnExample) {
+  const std::string dir = MakeTempDir("cli_help");
+  const std::string exit_codes =
+      "\nexit codes:\n"
+      "  0  ok\n"
+      "  1  invalid input or configuration\n"
+      "  2  computation failed\n"
+      "  3  warnings or gross outliers under --strict (compute, sensitivity)\n";
+  for (const std::string command : {"", "check", "compute", "sensitivity", "deflate", "pair"}) {
+    const CliRun run = RunCli(command + " --help", dir);
+    EXPECT_EQ(run.exit_code, 0) << command;
+    EXPECT_EQ(run.err, "") << command;
+    const std::string& help = run.out;
+    EXPECT_EQ(help.find("Usage: paritas " + (command.empty() ? "" : command + " ")),
+              help.find('\n') + 1)
+        << help;
+    EXPECT_TRUE(Contains(help, exit_codes)) << help;
+    EXPECT_TRUE(
+        Contains(help, "\nexample:\n  paritas " + (command.empty() ? "compute" : command) + " "))
+        << help;
+    // Each option entry (wrapped lines joined) that takes a value and is not
+    // required names its default.
+    std::vector<std::string> entries;
+    size_t start = 0;
+    while (start < help.size()) {
+      const size_t end = help.find('\n', start);
+      const std::string line = help.substr(start, end - start);
+      start = end == std::string::npos ? help.size() : end + 1;
+      if (line.rfind("  -", 0) == 0) {
+        entries.push_back(line);
+      } else if (!entries.empty() && line.rfind("       ", 0) == 0) {
+        entries.back() += line;
+      }
+    }
+    EXPECT_FALSE(entries.empty()) << help;
+    for (const std::string& entry : entries) {
+      const bool takes_value =
+          std::regex_search(entry, std::regex("^  --[a-z-]+ (TEXT|INT|NUMBER)"));
+      if (takes_value && !Contains(entry, "REQUIRED")) {
+        EXPECT_TRUE(Contains(entry, "default")) << command << ": " << entry;
+      }
+    }
+  }
+}
+
 TEST(CliCheck, ReportsAMissingArgumentWithTheErrorPrefix) {
   const std::string dir = MakeTempDir("cli_no_args");
   const CliRun run = RunCli("check", dir);
