@@ -275,7 +275,9 @@ int EditDistance(std::string_view a, std::string_view b, int max_distance) {
   const int bound = std::min(max_distance, std::max(n, m));
   if (std::abs(n - m) > bound) return bound + 1;
   const int kFar = bound + 1;
-  std::vector<int> previous(m + 1), current(m + 1);
+  // Optimal string alignment: a swap of adjacent characters is one edit, so
+  // row i also reads row i - 2 (`before`), inside the band of row i - 2.
+  std::vector<int> before(m + 1, kFar), previous(m + 1), current(m + 1);
   for (int j = 0; j <= m; ++j) previous[j] = std::min(j, kFar);
   for (int i = 1; i <= n; ++i) {
     const int lo = std::max(1, i - bound), hi = std::min(m, i + bound);
@@ -284,14 +286,29 @@ int EditDistance(std::string_view a, std::string_view b, int max_distance) {
     int row_min = current[lo - 1];
     for (int j = lo; j <= hi; ++j) {
       const int substitution = previous[j - 1] + (a[i - 1] == b[j - 1] ? 0 : 1);
-      current[j] = std::min({previous[j] + 1, current[j - 1] + 1, substitution, kFar});
-      row_min = std::min(row_min, current[j]);
+      int best = std::min({previous[j] + 1, current[j - 1] + 1, substitution, kFar});
+      if (i > 1 && j > 1 && a[i - 1] == b[j - 2] && a[i - 2] == b[j - 1]) {
+        best = std::min(best, before[j - 2] + 1);
+      }
+      current[j] = best;
+      row_min = std::min(row_min, best);
     }
     if (hi < m) current[hi + 1] = kFar;  // The next row's band reaches one further.
+    // Distances never fall along a diagonal, swaps included, so a row beyond
+    // the bound leaves every later row beyond it.
     if (row_min >= kFar) return kFar;
+    std::swap(before, previous);
     std::swap(previous, current);
   }
   return previous[m];
+}
+
+std::string NameKey(std::string_view text) {
+  std::string key = ToLower(Trim(text));
+  for (char& c : key) {
+    if (c == '_' || c == ' ') c = '-';
+  }
+  return key;
 }
 
 std::string NearestName(std::string_view word, const std::vector<std::string>& candidates) {
@@ -299,22 +316,32 @@ std::string NearestName(std::string_view word, const std::vector<std::string>& c
   // candidate would cost |word| x |candidate| steps.
   constexpr size_t kMaxWordBytes = 256;
   if (word.size() > kMaxWordBytes) return "";
-  const std::string lower_word = ToLower(word);
+  const std::string lower_word = NameKey(word);
   const int limit = std::max(2, static_cast<int>(word.size()) / 3);
   std::string best;
   int best_distance = limit + 1;
   for (const std::string& candidate : candidates) {
     // The distance is at least the difference in length.
-    const size_t length_gap = candidate.size() > word.size() ? candidate.size() - word.size()
-                                                             : word.size() - candidate.size();
+    const size_t length_gap = candidate.size() > lower_word.size()
+                                  ? candidate.size() - lower_word.size()
+                                  : lower_word.size() - candidate.size();
     if (length_gap >= static_cast<size_t>(best_distance)) continue;
-    const int distance = EditDistance(lower_word, ToLower(candidate), best_distance - 1);
+    const int distance = EditDistance(lower_word, NameKey(candidate), best_distance - 1);
     if (distance < best_distance) {
       best_distance = distance;
       best = candidate;
     }
   }
   return best;
+}
+
+std::string NotOneOf(std::string_view what, std::string_view value,
+                     const std::vector<std::string>& names) {
+  std::string out =
+      std::string(what) + " " + QuoteValue(value) + " is not one of: " + JoinNames(names);
+  const std::string nearest = NearestName(value, names);
+  if (!nearest.empty()) out += "; did you mean '" + nearest + "'?";
+  return out;
 }
 
 std::string JoinNames(const std::vector<std::string>& names, std::string_view separator) {

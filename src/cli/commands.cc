@@ -1,12 +1,13 @@
 // Thin wrappers: read the configuration, apply overrides, run the job, print.
 #include "cli/commands.h"
 
+#include <cmath>
 #include <cstdio>
 #include <iostream>
 
-#include "paritas/survey/config.h"
-#include "paritas/jobs/jobs.h"
 #include "paritas/base/text.h"
+#include "paritas/jobs/jobs.h"
+#include "paritas/survey/config.h"
 
 namespace paritas::cli {
 namespace {
@@ -26,12 +27,15 @@ bool LoadConfigWithOverrides(const std::string& path, const Overrides& overrides
     return false;
   }
   if (overrides.output) config->output = *overrides.output;
-  if (overrides.reference) config->reference = Reference::FromString(*overrides.reference);
+  if (overrides.reference &&
+      !ParseReference("--reference", *overrides.reference, &config->reference, &error)) {
+    PrintError(error);
+    return false;
+  }
   if (overrides.elementary) {
     const ElementaryMethod* method = FindElementaryMethod(*overrides.elementary);
     if (method == nullptr) {
-      PrintError("--elementary '" + *overrides.elementary + "' is not one of: " +
-                 JoinNames(ElementaryMethodNames()));
+      PrintError(NotOneOf("--elementary", *overrides.elementary, ElementaryMethodNames()));
       return false;
     }
     config->elementary = method->Name();
@@ -39,18 +43,22 @@ bool LoadConfigWithOverrides(const std::string& path, const Overrides& overrides
   if (overrides.aggregation) {
     const AggregationMethod* method = FindAggregationMethod(*overrides.aggregation);
     if (method == nullptr) {
-      PrintError("--aggregation '" + *overrides.aggregation + "' is not one of: " +
-                 JoinNames(AggregationMethodNames()));
+      PrintError(NotOneOf("--aggregation", *overrides.aggregation, AggregationMethodNames()));
       return false;
     }
     config->aggregation = method->Name();
   }
   if (overrides.invalid_rows && !FromString(*overrides.invalid_rows, &config->invalid_rows)) {
-    PrintError("--invalid-rows '" + *overrides.invalid_rows + "' is not one of: " +
-               JoinNames(InvalidRowPolicyNames()));
+    PrintError(NotOneOf("--invalid-rows", *overrides.invalid_rows, InvalidRowPolicyNames()));
     return false;
   }
-  if (overrides.threads) config->threads = *overrides.threads;
+  if (overrides.threads) {
+    double threads = 0;
+    if (!ParseWholeOption("--threads", *overrides.threads, 0, 1024, &threads, " (all cores)")) {
+      return false;
+    }
+    config->threads = static_cast<int>(threads);
+  }
   if (!overrides.matrices.empty()) config->matrices = overrides.matrices;
   if (overrides.no_report) config->report = false;
   if (overrides.strict) config->strict = true;
@@ -58,6 +66,19 @@ bool LoadConfigWithOverrides(const std::string& path, const Overrides& overrides
     PrintError(error);
     return false;
   }
+  return true;
+}
+
+bool ParseWholeOption(const std::string& option, const std::string& text, double min, double max,
+                      double* value, const std::string& min_note) {
+  double parsed = 0.0;
+  if (ParseNumber(text, &parsed) != NumberStatus::kOk || parsed != std::floor(parsed) ||
+      parsed < min || parsed > max) {
+    PrintError(option + " must be a whole number from " + FormatFixed(min, 0) + min_note + " to " +
+               FormatFixed(max, 0) + ", found '" + text + "'");
+    return false;
+  }
+  *value = parsed;
   return true;
 }
 

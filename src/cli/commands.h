@@ -22,7 +22,7 @@ struct Overrides {
   std::optional<std::string> elementary;
   std::optional<std::string> aggregation;
   std::optional<std::string> invalid_rows;
-  std::optional<int> threads;
+  std::optional<std::string> threads;  // as typed; parsed by LoadConfigWithOverrides
   std::vector<std::string> matrices;
   bool no_report = false;
   bool strict = false;
@@ -49,6 +49,12 @@ int RunSensitivityCommand(const std::string& config_path, const Overrides& overr
 // Loads the configuration and applies the command-line overrides. Returns
 // false after printing the problem.
 bool LoadConfigWithOverrides(const std::string& path, const Overrides& overrides, RunConfig* config);
+
+// Reads a whole number option typed as text. Prints "<option> must be a
+// whole number from <min><min_note> to <max>, found '<text>'" and returns
+// false when it is not one in range (min_note e.g. " (all cores)").
+bool ParseWholeOption(const std::string& option, const std::string& text, double min, double max,
+                      double* value, const std::string& min_note = "");
 
 // Prints "paritas: error: <message>" on stderr.
 void PrintError(const std::string& message);

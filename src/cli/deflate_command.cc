@@ -12,8 +12,7 @@ namespace paritas::cli {
 int RunDeflateCommand(const DeflateOptions& given, const Overrides& overrides) {
   DeflateOptions options = given;
   if (overrides.invalid_rows && !FromString(*overrides.invalid_rows, &options.invalid_rows)) {
-    PrintError("--invalid-rows '" + *overrides.invalid_rows +
-               "' is not one of: " + JoinNames(InvalidRowPolicyNames()));
+    PrintError(NotOneOf("--invalid-rows", *overrides.invalid_rows, InvalidRowPolicyNames()));
     return kExitInvalidInput;
   }
   DeflateSummary summary;

@@ -1,41 +1,99 @@
 // The paritas command line: parses arguments with CLI11 and dispatches to a
 // subcommand. CLI11's own exit codes (100+) are mapped to ours: 0 ok,
-// 1 invalid input or arguments, 2 computation failed.
+// 1 invalid input or arguments, 2 computation failed, 3 warnings under
+// --strict. Every help page shows each option's default, the exit codes and
+// an example that runs on the demo.
+#include <CLI/CLI.hpp>
 #include <iostream>
+#include <optional>
 #include <string>
 
-#include <CLI/CLI.hpp>
-
 #include "cli/commands.h"
+#include "paritas/base/text.h"
+#include "paritas/jobs/jobs.h"
 #include "paritas/survey/config.h"
 #include "paritas/use/deflation.h"
-#include "paritas/jobs/jobs.h"
-#include "paritas/base/text.h"
 
 namespace {
 
 using paritas::JoinNames;
 
-void AddComputeOverrides(CLI::App* command, paritas::cli::Overrides* overrides) {
-  command->add_option("--output", overrides->output, "output folder (overrides 'output')");
+// The end of every help page.
+std::string HelpFooter(const std::string& example) {
+  return "exit codes:\n"
+         "  0  ok\n"
+         "  1  invalid input or configuration\n"
+         "  2  computation failed\n"
+         "  3  warnings or gross outliers under --strict (compute, sensitivity)\n"
+         "\nexample:\n  " +
+         example + "\n";
+}
+
+// The configuration, the row policy and threads: every command that reads a survey.
+void AddCommon(CLI::App* command, std::string* config_path, paritas::cli::Overrides* overrides) {
+  command->add_option("config", *config_path, "run configuration (YAML)")->required();
+  command->add_option(
+      "--invalid-rows", overrides->invalid_rows,
+      "what to do with invalid rows: " + JoinNames(paritas::InvalidRowPolicyNames()) +
+          " (default: invalid_rows of the configuration, else stop)");
+  command
+      ->add_option("--threads", overrides->threads,
+                   "worker threads, 0 = all cores (default: threads of the configuration, else "
+                   "0)")
+      ->type_name("INT");
+}
+
+// Settings of the computation, shared by compute and sensitivity.
+void AddMethodOverrides(CLI::App* command, paritas::cli::Overrides* overrides) {
+  command->add_option("--output", overrides->output,
+                      "output folder (default: output of the configuration, else out beside it)");
   command->add_option("--reference", overrides->reference,
-                      "mean, weighted-mean, or a region code (overrides 'reference')");
+                      "mean, weighted-mean, or a region code (default: reference of the "
+                      "configuration, else mean)");
   command->add_option("--elementary", overrides->elementary,
-                      "elementary method: " + JoinNames(paritas::ElementaryMethodNames()));
+                      "elementary method: " + JoinNames(paritas::ElementaryMethodNames()) +
+                          " (default: elementary of the configuration, else cpd)");
   command->add_option("--aggregation", overrides->aggregation,
-                      "aggregation method: " + JoinNames(paritas::AggregationMethodNames()));
+                      "aggregation method: " + JoinNames(paritas::AggregationMethodNames()) +
+                          " (default: aggregation of the configuration, else geks-fisher)");
+}
+
+void AddComputeOverrides(CLI::App* command, paritas::cli::Overrides* overrides) {
+  AddMethodOverrides(command, overrides);
   command->add_option("--matrices", overrides->matrices,
                       "nodes whose matrices and bilateral tables are written, separated by spaces "
                       "or commas (food,housing); 'all' alone = every node, beside other names it "
-                      "is a node code");
+                      "is a node code (default: matrices of the configuration, else the root)");
   command->add_flag("--no-report", overrides->no_report, "do not write report.html");
   command->add_flag("--strict", overrides->strict,
                     "exit with code 3, after writing everything, when the run raised a warning "
                     "(overrides 'strict')");
 }
 
+void AddSensitivityOptions(CLI::App* command, paritas::cli::Overrides* overrides,
+                           paritas::cli::SensitivityArguments* arguments) {
+  AddMethodOverrides(command, overrides);
+  command->add_option("--replicates", arguments->replicates, "bootstrap replicates (default 500)")
+      ->type_name("INT");
+  command->add_option("--seed", arguments->seed, "seed of the resampling (default 1)")
+      ->type_name("INT");
+  command->add_option("--level", arguments->level, "interval level in % (default 95)")
+      ->type_name("NUMBER");
+  command->add_option("--coverage", arguments->coverage,
+                      "percentages of items kept (default 90,75,50,25)");
+  command
+      ->add_option("--repetitions", arguments->repetitions,
+                   "subsamples per coverage level (default 20)")
+      ->type_name("INT");
+  command->add_option("--parts", arguments->parts,
+                      "parts to run: bootstrap,leave-one-out,coverage,methods (default all)");
+  command->add_flag("--strict", overrides->strict,
+                    "exit with code 3, after writing everything, when the run raised a warning "
+                    "(overrides 'strict')");
+}
+
 void AddDeflateOptions(CLI::App* command, paritas::DeflateOptions* options,
-                       paritas::cli::Overrides* overrides) {
+                       paritas::cli::Overrides* overrides, std::optional<std::string>* decimals) {
   command->add_option("--parities", options->parities_dir, "output folder of 'paritas compute'")
       ->required();
   command->add_option("--input", options->input_path, "CSV file with a region and money columns")
@@ -47,77 +105,68 @@ void AddDeflateOptions(CLI::App* command, paritas::DeflateOptions* options,
       ->required();
   CLI::Option* node =
       command->add_option("--node", options->node, "node deflating every row (default: the root)");
-  command->add_option("--node-column", options->node_column, "column naming the node of each row")
+  command
+      ->add_option("--node-column", options->node_column,
+                   "column naming the node of each row (default: none, --node)")
       ->excludes(node);
   command->add_option("--invalid-rows", overrides->invalid_rows,
-                      "what to do with invalid rows: " + JoinNames(paritas::InvalidRowPolicyNames()));
+                      "what to do with invalid rows: " +
+                          JoinNames(paritas::InvalidRowPolicyNames()) + " (default stop)");
   command->add_option("--rejected", options->rejected_path,
                       "rejected rows under skip (default <output>_rejected.csv)");
   command->add_flag("--with-parity", options->include_parity, "add the parity used as a column");
   command->add_flag("--interval", options->include_interval,
                     "add <column>_real_lower/_upper from sensitivity/bootstrap.csv");
   command->add_flag("--allow-negative", options->allow_negative, "accept negative values (e.g. net incomes)");
-  command->add_option("--decimals", options->decimals,
-                      "round real values to this many digits (default: exact, the shortest text "
-                      "that reads back to the same number)")
-      ->check(CLI::Range(0, 17));
+  command
+      ->add_option("--decimals", *decimals,
+                   "round real values to this many digits (default: exact, the shortest text "
+                   "that reads back to the same number)")
+      ->type_name("INT");
 }
 
 }  // namespace
 
 int main(int argc, char** argv) {
-  CLI::App app{"paritas: regional price parities (PPPs) from a regional price survey"};
+  CLI::App app{"paritas: regional price parities (PPPs) from a regional price survey", "paritas"};
   app.require_subcommand(1);
   app.set_version_flag("--version", std::string("paritas ") + PARITAS_VERSION);
+  app.footer(HelpFooter("paritas compute config/demo.yaml --output out/demo"));
 
   paritas::cli::Overrides overrides;
   std::string config_path;
-  auto add_common = [&](CLI::App* command) {
-    command->add_option("config", config_path, "run configuration (YAML)")->required();
-    command->add_option("--invalid-rows", overrides.invalid_rows,
-                        "what to do with invalid rows: " + JoinNames(paritas::InvalidRowPolicyNames()));
-    command->add_option("--threads", overrides.threads, "worker threads (0 = all cores)")
-        ->check(CLI::Range(0, 1024));
-  };
-
   CLI::App* check = app.add_subcommand("check", "validate the survey and describe its structure");
-  add_common(check);
+  AddCommon(check, &config_path, &overrides);
+  check->footer(HelpFooter("paritas check config/demo.yaml --invalid-rows skip"));
   CLI::App* compute = app.add_subcommand("compute", "compute parities, matrices and real expenditure");
-  add_common(compute);
+  AddCommon(compute, &config_path, &overrides);
   AddComputeOverrides(compute, &overrides);
+  compute->footer(
+      HelpFooter("paritas compute config/demo.yaml --output out/demo --matrices food,housing"));
   paritas::DeflateOptions deflate_options;
   CLI::App* deflate = app.add_subcommand("deflate", "express money values of a CSV file in reference prices");
-  AddDeflateOptions(deflate, &deflate_options, &overrides);
+  std::optional<std::string> deflate_decimals;
+  AddDeflateOptions(deflate, &deflate_options, &overrides, &deflate_decimals);
+  deflate->footer(
+      HelpFooter("paritas deflate --parities out/demo --input data/demo/wages.csv --output "
+                 "wages_real.csv --value-column hourly_wage"));
   std::string pair_from, pair_to, pair_node, pair_csv;
   CLI::App* pair = app.add_subcommand("pair", "compare two regions with every index formula");
-  add_common(pair);
+  AddCommon(pair, &config_path, &overrides);
   pair->add_option("--from", pair_from, "base region (a)")->required();
   pair->add_option("--to", pair_to, "region compared (b)")->required();
   pair->add_option("--node", pair_node, "classification node (default: the root)");
-  pair->add_option("--csv", pair_csv, "also write the comparison as CSV (measure,value)");
+  pair->add_option("--csv", pair_csv,
+                   "also write the comparison as CSV (measure,value) (default: terminal only)");
+  pair->footer(HelpFooter("paritas pair config/demo.yaml --from cap --to har --node food"));
   paritas::cli::SensitivityArguments sensitivity_arguments;
   CLI::App* sensitivity =
       app.add_subcommand("sensitivity", "bootstrap, leave-one-out, coverage curve and method spread");
-  add_common(sensitivity);
-  sensitivity->add_option("--output", overrides.output, "output folder (overrides 'output')");
-  sensitivity->add_option("--reference", overrides.reference,
-                          "mean, weighted-mean, or a region code (overrides 'reference')");
-  sensitivity->add_option("--elementary", overrides.elementary,
-                          "elementary method: " + JoinNames(paritas::ElementaryMethodNames()));
-  sensitivity->add_option("--aggregation", overrides.aggregation,
-                          "aggregation method: " + JoinNames(paritas::AggregationMethodNames()));
-  sensitivity->add_flag("--strict", overrides.strict,
-                        "exit with code 3, after writing everything, when the run raised a "
-                        "warning (overrides 'strict')");
-  sensitivity->add_option("--replicates", sensitivity_arguments.replicates, "bootstrap replicates (default 500)");
-  sensitivity->add_option("--seed", sensitivity_arguments.seed, "seed of the resampling (default 1)");
-  sensitivity->add_option("--level", sensitivity_arguments.level, "interval level in % (default 95)");
-  sensitivity->add_option("--coverage", sensitivity_arguments.coverage,
-                          "percentages of items kept (default 90,75,50,25)");
-  sensitivity->add_option("--repetitions", sensitivity_arguments.repetitions,
-                          "subsamples per coverage level (default 20)");
-  sensitivity->add_option("--parts", sensitivity_arguments.parts,
-                          "parts to run (default all): bootstrap,leave-one-out,coverage,methods");
+  AddCommon(sensitivity, &config_path, &overrides);
+  AddSensitivityOptions(sensitivity, &overrides, &sensitivity_arguments);
+  sensitivity->footer(
+      HelpFooter("paritas sensitivity config/demo.yaml --output out/demo --replicates 200 --parts "
+                 "bootstrap,coverage"));
 
   try {
     app.parse(argc, argv);
@@ -142,7 +191,15 @@ int main(int argc, char** argv) {
 
   if (check->parsed()) return paritas::cli::RunCheckCommand(config_path, overrides);
   if (compute->parsed()) return paritas::cli::RunComputeCommand(config_path, overrides);
-  if (deflate->parsed()) return paritas::cli::RunDeflateCommand(deflate_options, overrides);
+  if (deflate->parsed()) {
+    double decimals = 0;
+    if (deflate_decimals &&
+        !paritas::cli::ParseWholeOption("--decimals", *deflate_decimals, 0, 17, &decimals)) {
+      return paritas::kExitInvalidInput;
+    }
+    if (deflate_decimals) deflate_options.decimals = static_cast<int>(decimals);
+    return paritas::cli::RunDeflateCommand(deflate_options, overrides);
+  }
   if (sensitivity->parsed()) {
     return paritas::cli::RunSensitivityCommand(config_path, overrides, sensitivity_arguments);
   }

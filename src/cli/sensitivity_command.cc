@@ -18,18 +18,6 @@
 namespace paritas::cli {
 namespace {
 
-bool ParseWhole(const std::string& option, const std::string& text, double min, double max, double* value) {
-  double parsed = 0.0;
-  if (ParseNumber(text, &parsed) != NumberStatus::kOk || parsed != std::floor(parsed) || parsed < min ||
-      parsed > max) {
-    PrintError(option + " must be a whole number from " + FormatFixed(min, 0) + " to " + FormatFixed(max, 0) +
-               ", found '" + text + "'");
-    return false;
-  }
-  *value = parsed;
-  return true;
-}
-
 // Splits "90,75,50" on commas, trimming spaces.
 std::vector<std::string> SplitList(const std::string& text) {
   std::vector<std::string> parts;
@@ -46,12 +34,12 @@ std::vector<std::string> SplitList(const std::string& text) {
 bool ParseArguments(const SensitivityArguments& arguments, SensitivityOptions* options) {
   double value = 0.0;
   if (arguments.replicates) {
-    if (!ParseWhole("--replicates", *arguments.replicates, 2, 100000, &value)) return false;
+    if (!ParseWholeOption("--replicates", *arguments.replicates, 2, 100000, &value)) return false;
     options->replicates = static_cast<int>(value);
   }
   if (arguments.seed) {
     // Seeds up to 2^53 read exactly through a double.
-    if (!ParseWhole("--seed", *arguments.seed, 0, 9007199254740992.0, &value)) return false;
+    if (!ParseWholeOption("--seed", *arguments.seed, 0, 9007199254740992.0, &value)) return false;
     options->seed = static_cast<uint64_t>(value);
   }
   if (arguments.level) {
@@ -76,7 +64,7 @@ bool ParseArguments(const SensitivityArguments& arguments, SensitivityOptions* o
     }
   }
   if (arguments.repetitions) {
-    if (!ParseWhole("--repetitions", *arguments.repetitions, 2, 10000, &value)) return false;
+    if (!ParseWholeOption("--repetitions", *arguments.repetitions, 2, 10000, &value)) return false;
     options->coverage_repetitions = static_cast<int>(value);
   }
   if (arguments.parts) {

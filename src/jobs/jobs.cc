@@ -184,11 +184,9 @@ int RunCheck(const RunConfig& config, CheckSummary* summary) {
 
 std::string CheckSummary::FullReport() const {
   std::string out;
-  if (load.outcome != LoadOutcome::kOk) {
-    out += FilesReport(load);
-    if (!load.rejected_rows.empty()) out += "rejected rows:\n" + DescribeRejectedRows(load);
-    return out;
-  }
+  // A failed load's rejected rows go to standard error with its message (as
+  // for compute), so the report names only the files.
+  if (load.outcome != LoadOutcome::kOk) return FilesReport(load);
   out += SurveyCounts(survey);
   out += FilesReport(load);
   size_t width = 7;
@@ -390,9 +388,10 @@ std::string ComputeJobSummary::FullReport() const {
   const std::string& root = survey.classification.nodes().front().code;
   out += "\nparities for '" + root + "' (" + result.nodes.front().reference_used + " = 100), dearest first:\n";
   out += RootTable(survey, result, RegionSpreads(result.bilaterals.front()));
-  out += "(P-L spread: largest |ln(Laspeyres / Paasche)| of the region against any other, "
-         "with that partner; large spreads mean the price and spending patterns differ and the "
-         "choice of formula matters.)\n";
+  out +=
+      "(P-L spread, %: 100 x |ln(Laspeyres / Paasche)|, the largest of the region against any "
+      "other, with that partner; large spreads mean the price and spending patterns differ and "
+      "the choice of formula matters.)\n";
   if (!outliers.outliers.empty()) {
     int64_t cells = 0;
     for (const Outlier& o : outliers.outliers) cells += o.kind == OutlierKind::kCell ? 1 : 0;

@@ -263,7 +263,7 @@ std::string RootTable(const Survey& survey, const ParityResult& result,
   std::string out = pad("region", width, false) + "  " + pad("rank", 4, true) + "  " +
                     pad("parity", 9, true);
   if (per_capita) out += "  " + pad("real/head", 9, true);
-  out += "  " + pad("P-L spread", 10, true) + "  " + pad("worst pair", 10, false) + "\n";
+  out += "  " + pad("P-L spread, %", 13, true) + "  " + pad("worst pair", 10, false) + "\n";
   for (int r : order) {
     std::string code(survey.regions.Code(r).substr(0, width));
     out += pad(code, width, false) + "  " + pad(std::to_string(root.rank(r)), 4, true) + "  " +
@@ -271,10 +271,10 @@ std::string RootTable(const Survey& survey, const ParityResult& result,
     if (per_capita) out += "  " + pad(FormatFixed(root.real_per_capita_index(r), 1), 9, true);
     std::string spread = "", partner = "";
     if (r < static_cast<int>(spreads.size()) && std::isfinite(spreads[r].max)) {
-      spread = FormatFixed(spreads[r].max, 4);
+      spread = FormatFixed(100.0 * spreads[r].max, 2);  // the report's unit
       partner = std::string(survey.regions.Code(spreads[r].worst_partner));
     }
-    out += "  " + pad(spread, 10, true) + "  " + partner + "\n";
+    out += "  " + pad(spread, 13, true) + "  " + partner + "\n";
   }
   return out;
 }

@@ -110,7 +110,7 @@ std::string WorstPairsTable(const Context& ctx, const BilateralMatrices& b,
       "<h3>Pairs with the widest spread</h3><table class=\"data\" id=\"worst-pairs\"><thead><tr>"
       "<th>region a</th><th>region b</th><th class=\"num\">Laspeyres</th><th "
       "class=\"num\">Paasche</th><th class=\"num\">Fisher</th><th "
-      "class=\"num\">T\xC3\xB6rnqvist</th><th class=\"num\">spread, %</th><th "
+      "class=\"num\">T\xC3\xB6rnqvist</th><th class=\"num\">P\xE2\x80\x93L spread, %</th><th "
       "class=\"num\">headings matched</th></tr></thead><tbody>";
   for (size_t i = 0; i < k; ++i) {
     const SpreadPair& p = (*pairs)[i];

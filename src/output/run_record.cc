@@ -172,6 +172,13 @@ bool ReadRunRecord(const std::string& folder, std::string* run_id, std::string* 
   return true;
 }
 
+std::string RunConfigPath(const std::string& json) {
+  const Json record = Json::parse(json, nullptr, /*allow_exceptions=*/false);
+  if (!record.is_object()) return "";
+  const Json path = record.value("configuration", Json::object()).value("config_path", Json());
+  return path.is_string() ? path.get<std::string>() : "";
+}
+
 std::vector<std::string> RunDifferences(const std::string& this_json, const std::string& other_json) {
   const Json a = Json::parse(this_json, nullptr, false), b = Json::parse(other_json, nullptr, false);
   std::vector<std::string> out;

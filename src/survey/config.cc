@@ -193,7 +193,7 @@ class ConfigParser {
     std::string text;
     if (!Scalar(node, key, &text, error)) return false;
     if (!FromString(text, value)) {
-      *error = Where(node) + key + " '" + text + "' is not one of: " + JoinNames(names);
+      *error = Where(node) + NotOneOf(key, text, names);
       return false;
     }
     return true;
@@ -207,7 +207,7 @@ class ConfigParser {
     if (!Scalar(node, key, &text, error)) return false;
     const auto* method = find(text);
     if (method == nullptr) {
-      *error = Where(node) + key + " '" + text + "' is not one of: " + JoinNames(names);
+      *error = Where(node) + NotOneOf(key, text, names);
       return false;
     }
     *value = std::string(method->Name());
@@ -335,11 +335,10 @@ class ConfigParser {
     if (const YAML::Node node = root["reference"]) {
       std::string text;
       if (!Scalar(node, "reference", &text, error)) return false;
-      if (Trim(text).empty()) {
-        *error = Where(node) + "reference must be mean, weighted-mean or a region code";
+      if (!ParseReference("reference", text, &config_->reference, error)) {
+        *error = Where(node) + *error;
         return false;
       }
-      config_->reference = Reference::FromString(text);
     }
     if (const YAML::Node node = root["elementary"]) {
       if (!MethodValue(node, "elementary", &config_->elementary, FindElementaryMethod,
@@ -581,6 +580,26 @@ Reference Reference::FromString(const std::string& text) {
   return reference;
 }
 
+bool ParseReference(std::string_view what, const std::string& text, Reference* reference,
+                    std::string* error) {
+  if (Trim(text).empty()) {
+    *error = std::string(what) + " must be mean, weighted-mean or a region code";
+    return false;
+  }
+  const Reference parsed = Reference::FromString(text);
+  const std::vector<std::string> names = {"mean", "weighted-mean"};
+  const std::string key = NameKey(text);
+  for (const std::string& name : names) {
+    if (parsed.kind == ReferenceKind::kRegion && key == name) {
+      *error = std::string(what) + " " + QuoteValue(text) + " is not one of: " + JoinNames(names) +
+               ", or a region code; did you mean '" + name + "'?";
+      return false;
+    }
+  }
+  *reference = parsed;
+  return true;
+}
+
 std::string ToString(InvalidRowPolicy policy) { return NameOf(kPolicyNames, policy); }
 bool FromString(const std::string& text, InvalidRowPolicy* policy) {
   return ValueOf(kPolicyNames, text, policy);
@@ -661,12 +680,11 @@ bool RunConfig::IsValid(std::string* error) const {
     return false;
   }
   if (FindElementaryMethod(elementary) == nullptr) {
-    *error = "elementary '" + elementary + "' is not one of: " + JoinNames(ElementaryMethodNames());
+    *error = NotOneOf("elementary", elementary, ElementaryMethodNames());
     return false;
   }
   if (FindAggregationMethod(aggregation) == nullptr) {
-    *error =
-        "aggregation '" + aggregation + "' is not one of: " + JoinNames(AggregationMethodNames());
+    *error = NotOneOf("aggregation", aggregation, AggregationMethodNames());
     return false;
   }
   if (!(representative_weight > 0) || !std::isfinite(representative_weight)) {

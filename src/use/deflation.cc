@@ -252,6 +252,17 @@ bool ReadParityValues(const DeflateOptions& options, ParityTable* table, std::st
   return true;
 }
 
+// The command that writes the intervals deflate reads: sensitivity writes
+// under its --output, which need not be the configuration's `output`.
+std::string SensitivityAdvice(const std::string& parities_dir) {
+  std::string run_id, json, error, config = "CONFIG";
+  if (ReadRunRecord(parities_dir, &run_id, &json, &error) && !RunConfigPath(json).empty()) {
+    config = RunConfigPath(json);
+  }
+  return "run 'paritas sensitivity " + config + " --output " + parities_dir +
+         "' with the configuration and options of the compute run";
+}
+
 // The intervals must come from a sensitivity run on the same inputs and
 // settings as the parities beside them (run.json of each); otherwise a real
 // value would be bracketed by the interval of another comparison.
@@ -265,9 +276,10 @@ bool SameRunSettings(const std::string& parities_dir, std::string* error) {
   }
   const std::vector<std::string> differences = RunDifferences(compute_json, sensitivity_json);
   if (differences.empty()) return true;
-  *error = "the intervals in " + sensitivity_dir + " come from a sensitivity run on other inputs or settings " +
-           "than the parities in " + parities_dir + " (\"this run\" = the parities): " +
-           JoinNames(differences, "; ") + "; run 'paritas sensitivity' with the same configuration";
+  *error = "the intervals in " + sensitivity_dir +
+           " come from a sensitivity run on other inputs or settings " + "than the parities in " +
+           parities_dir + " (\"this run\" = the parities): " + JoinNames(differences, "; ") + "; " +
+           SensitivityAdvice(parities_dir);
   return false;
 }
 
@@ -279,8 +291,8 @@ bool ReadIntervals(const DeflateOptions& options, ParityTable* table, std::strin
       (fs::path(options.parities_dir) / "sensitivity" / "bootstrap.csv").string();
   std::error_code ec;
   if (!fs::exists(table->interval_path, ec)) {
-    *error = "no parity intervals: " + table->interval_path +
-             " does not exist (run 'paritas sensitivity' with the configuration of this compute run)";
+    *error = "no parity intervals: " + table->interval_path + " does not exist; " +
+             SensitivityAdvice(options.parities_dir);
     return false;
   }
   if (!SameRunSettings(options.parities_dir, error)) return false;

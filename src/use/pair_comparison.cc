@@ -287,7 +287,8 @@ std::string PairTable(const PairComparison& c) {
     out += "  (quantity = value ratio / price index: the volume of '" + c.to + "' relative to '" +
            c.from + "')\n";
     row("value ratio", c.value_ratio, "expenditure of " + c.to + " / expenditure of " + c.from);
-    row("P-L spread |ln(L / P)|", c.log_spread, "");
+    // Percent, the unit of compute's table and the report; the CSV keeps log_spread.
+    row("P-L spread, %", 100.0 * c.log_spread, "100 x |ln(Laspeyres / Paasche)|");
     row("transitive (compute)", c.transitive, "parity(" + c.to + ") / parity(" + c.from + ")");
     row("gap ln(Fisher / transitive)", c.log_gap, "");
   }

@@ -148,6 +148,61 @@ TEST(EditDistance, CountsInsertionsDeletionsAndSubstitutions) {
   EXPECT_EQ(EditDistance("flaw", "lawn"), 2);
 }
 
+// Two adjacent characters swapped is one slip of the fingers, so one edit
+// (optimal string alignment distance); Levenshtein would count two.
+TEST(EditDistance, CountsASwapOfAdjacentCharactersAsOneEdit) {
+  EXPECT_EQ(EditDistance("PTR", "PRT"), 1);
+  EXPECT_EQ(EditDistance("ab", "ba"), 1);
+  EXPECT_EQ(EditDistance("bread", "beard"), 2);
+  EXPECT_EQ(EditDistance("recieve", "receive"), 1);
+  // Each character moves at most once: "ca" -> "abc" is 3, not 2.
+  EXPECT_EQ(EditDistance("ca", "abc"), 3);
+  EXPECT_EQ(EditDistance("PTR", "PRT", 0), 1);
+  EXPECT_EQ(EditDistance("PTR", "PRT", 1), 1);
+}
+
+// The banded distance equals a full optimal-string-alignment table for every
+// pair of words of up to 4 letters over {a, b, c}, at every bound.
+TEST(EditDistance, AgreesWithTheFullTableOnAllShortWords) {
+  std::vector<std::string> words = {""};
+  for (size_t k = 0; k < words.size() && words[k].size() < 4; ++k) {
+    for (char c : {'a', 'b', 'c'}) words.push_back(words[k] + c);
+  }
+  auto full = [](const std::string& a, const std::string& b) {
+    std::vector<std::vector<int>> d(a.size() + 1, std::vector<int>(b.size() + 1));
+    for (size_t i = 0; i <= a.size(); ++i) {
+      for (size_t j = 0; j <= b.size(); ++j) {
+        if (i == 0 || j == 0) {
+          d[i][j] = static_cast<int>(i + j);
+          continue;
+        }
+        d[i][j] = std::min(
+            {d[i - 1][j] + 1, d[i][j - 1] + 1, d[i - 1][j - 1] + (a[i - 1] == b[j - 1] ? 0 : 1)});
+        if (i > 1 && j > 1 && a[i - 1] == b[j - 2] && a[i - 2] == b[j - 1]) {
+          d[i][j] = std::min(d[i][j], d[i - 2][j - 2] + 1);
+        }
+      }
+    }
+    return d[a.size()][b.size()];
+  };
+  for (const std::string& a : words) {
+    for (const std::string& b : words) {
+      const int expected = full(a, b);
+      for (int bound = 0; bound <= 5; ++bound) {
+        ASSERT_EQ(EditDistance(a, b, bound), std::min(expected, bound + 1))
+            << a << " " << b << " " << bound;
+      }
+    }
+  }
+}
+
+// A trial typed PTR for PRT and was offered ZAR: at two edits each, the first
+// candidate won.
+TEST(NearestName, PrefersTheCodeWithTwoCharactersSwapped) {
+  EXPECT_EQ(NearestName("PTR", {"AUT", "ZAR", "PRT", "RUS"}), "PRT");
+  EXPECT_EQ(NearestName("ptr", {"ZAR", "PRT"}), "PRT");
+}
+
 TEST(NearestName, SuggestsTheClosestPlausibleTypo) {
   const std::vector<std::string> keys = {"survey", "reference", "elementary", "aggregation"};
   EXPECT_EQ(NearestName("refrence", keys), "reference");

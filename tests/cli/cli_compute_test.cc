@@ -3,11 +3,11 @@
 #include <cmath>
 #include <filesystem>
 #include <map>
+#include <nlohmann/json.hpp>
 #include <regex>
 
-#include <nlohmann/json.hpp>
-
 #include "paritas/base/csv.h"
+#include "paritas/base/text.h"
 #include "test_util.h"
 
 namespace paritas {
@@ -114,6 +114,39 @@ TEST(ComputeCommand, BilateralTableHasEveryOrderedPairAndReversalHolds) {
   }
 }
 
+// Spreads were in log units on the terminal and x100 in the report; both
+// now show "P-L spread, %" = 100 |ln(Laspeyres / Paasche)| with 2 decimals.
+TEST(ComputeCommand, PrintsEachRegionsLargestSpreadInPercent) {
+  const std::string dir = MakeTempDir("cli_spread_unit");
+  std::string out, err;
+  ASSERT_EQ(RunCli("compute " + Demo() + " --no-report --output " + dir, &out, &err), 0) << err;
+  std::map<std::string, std::pair<double, std::string>> largest;  // region -> spread, partner
+  for (const auto& row : ReadRows(ReadTextFile(dir + "/bilateral/all.csv"))) {
+    if (row[0] == "from") continue;
+    auto& entry = largest[row[0]];
+    if (entry.second.empty() || std::stod(row[6]) > entry.first)
+      entry = {std::stod(row[6]), row[1]};
+  }
+  const size_t head = out.find("\nregion ");
+  ASSERT_NE(head, std::string::npos) << out;
+  const std::string header = out.substr(head + 1, out.find('\n', head + 1) - head - 1);
+  EXPECT_TRUE(std::regex_search(header, std::regex("  P-L spread, %  worst pair$"))) << header;
+  std::smatch m;
+  const std::regex row("\n(\\w+) +\\d+ +[\\d.]+ +[\\d.]+ +([\\d.]+)  (\\w+)(?=\n)");
+  int checked = 0;
+  for (auto it = std::sregex_iterator(out.begin(), out.end(), row); it != std::sregex_iterator();
+       ++it, ++checked) {
+    const auto& [spread, partner] = largest.at((*it)[1]);
+    EXPECT_EQ((*it)[2].str(), FormatFixed(100.0 * spread, 2)) << (*it)[0];
+    EXPECT_EQ((*it)[3].str(), partner) << (*it)[0];
+  }
+  EXPECT_EQ(checked, 16) << out;
+  EXPECT_NE(out.find("(P-L spread, %: 100 x |ln(Laspeyres / Paasche)|, the largest of the region "
+                     "against any other, with that partner;"),
+            std::string::npos)
+      << out;
+}
+
 TEST(ComputeCommand, RunRecordReconcilesRowsAndNamesEveryInput) {
   const nlohmann::json record = nlohmann::json::parse(ReadTextFile(DemoOutput() + "/run.json"));
   EXPECT_EQ(record["schema_version"], 2);
@@ -200,7 +233,36 @@ TEST(ComputeCommand, UnlinkedHeadingExitsWithTwoAndNamesTheRegions) {
 TEST(ComputeCommand, BadMethodNameListsTheAllowedOnes) {
   std::string out, err;
   EXPECT_EQ(RunCli("compute " + Demo() + " --elementary cdp --output " + MakeTempDir("cli_bad"), &out, &err), 1);
-  EXPECT_EQ(err, "paritas: error: --elementary 'cdp' is not one of: cpd, jevons-geks, robust-cpd\n");
+  EXPECT_EQ(err,
+            "paritas: error: --elementary 'cdp' is not one of: cpd, jevons-geks, robust-cpd; did "
+            "you mean 'cpd'?\n");
+}
+
+// Named values with '_' for '-' or misspelt get a suggestion on every option
+// that takes one (weighted_mean used to pass as a region code).
+TEST(ComputeCommand, SuggestsTheNameMeantForEveryNamedOption) {
+  const std::pair<std::string, std::string> cases[] = {
+      {"--reference weighted_mean",
+       "--reference 'weighted_mean' is not one of: mean, weighted-mean, or a region code; did you "
+       "mean 'weighted-mean'?"},
+      {"--elementary Jevons_GEKS",
+       "--elementary 'Jevons_GEKS' is not one of: cpd, jevons-geks, robust-cpd; did you mean "
+       "'jevons-geks'?"},
+      {"--aggregation geks_fisher",
+       "--aggregation 'geks_fisher' is not one of: geks-fisher, geks-tornqvist; did you mean "
+       "'geks-fisher'?"},
+      {"--invalid-rows Skipp",
+       "--invalid-rows 'Skipp' is not one of: stop, skip; did you mean 'skip'?"},
+  };
+  for (const auto& [arguments, message] : cases) {
+    std::string out, err;
+    EXPECT_EQ(
+        RunCli("compute " + Demo() + " " + arguments + " --output " + MakeTempDir("cli_named"),
+               &out, &err),
+        1)
+        << arguments;
+    EXPECT_EQ(err, "paritas: error: " + message + "\n") << arguments;
+  }
 }
 
 TEST(ComputeCommand, UnknownMatrixNodeSuggestsTheNearest) {

@@ -85,14 +85,21 @@ TEST(DeflateCommand, RefusesBadOptionsWithExitCodeOne) {
        "paritas: error: --node excludes --node-column\nrun 'paritas --help' for usage\n"},
       {base + " --value-column income --invalid-rows maybe",
        "paritas: error: --invalid-rows 'maybe' is not one of: stop, skip\n"},
+      {base + " --value-column income --decimals abc",
+       "paritas: error: --decimals must be a whole number from 0 to 17, found 'abc'\n"},
+      {base + " --value-column income --decimals 18",
+       "paritas: error: --decimals must be a whole number from 0 to 17, found '18'\n"},
+      {base + " --value-column income --invalid-rows STOP_",
+       "paritas: error: --invalid-rows 'STOP_' is not one of: stop, skip; did you mean 'stop'?\n"},
       {base + " --value-column income --node food",
        "paritas: error: node 'food' is not in " + dir + "/p/parities.csv\n"},
       {base + " --value-column wage",
        "paritas: error: " + dir + "/in.csv:1: missing column 'wage' (found: id, region, income)\n"},
       {base + " --value-column income --interval",
        "paritas: error: no parity intervals: " + dir +
-           "/p/sensitivity/bootstrap.csv does not exist (run 'paritas sensitivity' with the "
-           "configuration of this compute run)\n"},
+           "/p/sensitivity/bootstrap.csv does not exist; run 'paritas sensitivity CONFIG "
+           "--output " +
+           dir + "/p' with the configuration and options of the compute run\n"},
       {"deflate --parities " + dir + "/nowhere --input " + dir + "/in.csv --output " + dir +
            "/o.csv --value-column income",
        "paritas: error: " + dir +
@@ -141,6 +148,17 @@ TEST(DeflateCommand, DeflatesTheDemoWages) {
             "record_id,region,occupation,hourly_wage,annual_earnings,hourly_wage_real,annual_"
             "earnings_real");
   EXPECT_NE(out.find("3,000 written, 0 rejected"), std::string::npos) << out;
+  // --interval without a sensitivity run names the command that makes the
+  // intervals where deflate looks for them (it once named compute).
+  EXPECT_EQ(
+      RunCli("deflate --parities " + dir + "/out --input " + SourcePath("data/demo/wages.csv") +
+                 " --output " + dir + "/wages_real.csv --value-column hourly_wage --interval",
+             &out, &err),
+      1);
+  EXPECT_EQ(err, "paritas: error: no parity intervals: " + dir +
+                     "/out/sensitivity/bootstrap.csv does not exist; run 'paritas sensitivity " +
+                     SourcePath("config/demo.yaml") + " --output " + dir +
+                     "/out' with the configuration and options of the compute run\n");
 }
 
 // The six-commodity data of the CPI Manual 2004 (ch. 19) as a survey of two

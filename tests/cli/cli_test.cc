@@ -131,6 +131,101 @@ TEST(CliCheck, ListsTheAllowedPoliciesForABadInvalidRowsOption) {
   EXPECT_EQ(run.err, "paritas: error: --invalid-rows 'maybe' is not one of: stop, skip\n");
 }
 
+// Numbers on the command line get our message (the option, the rule, the
+// value), not CLI11's "Value abc not in range 0 to 1024".
+TEST(CliCheck, RefusesAThreadCountThatIsNotAWholeNumberInRange) {
+  const std::string dir = WriteSurvey("bad_threads");
+  for (const char* value : {"abc", "2000", "-1", "1.5", "''"}) {
+    const CliRun run = RunCli("check '" + dir + "/run.yaml' --threads " + value, dir);
+    EXPECT_EQ(run.exit_code, 1) << value;
+    const std::string shown = std::string(value) == "''" ? "" : value;
+    EXPECT_EQ(run.err,
+              "paritas: error: --threads must be a whole number from 0 (all cores) to "
+              "1024, found '" +
+                  shown + "'\n")
+        << value;
+  }
+  const CliRun ok = RunCli("check '" + dir + "/run.yaml' --threads 2", dir);
+  EXPECT_EQ(ok.exit_code, 0) << ok.err;
+}
+
+size_t CountOf(const std::string& text, const std::string& part) {
+  size_t count = 0;
+  for (size_t at = text.find(part); at != std::string::npos; at = text.find(part, at + 1)) ++count;
+  return count;
+}
+
+// check listed each rejected row on standard output and again on standard
+// error when the rows stopped the run.
+TEST(CliCheck, ListsEachRejectedRowOnce) {
+  std::string prices = kPrices;
+  prices.replace(prices.find("south,milk,1.5"), 14, "south,milk,abc");
+  const std::string row = "/data/prices.csv:5:3: price 'abc' is not a number\n";
+  for (const char* policy : {"stop", "skip"}) {
+    const std::string dir = WriteSurvey(std::string("rejected_once_") + policy, prices);
+    const CliRun run = RunCli("check '" + dir + "/run.yaml' --invalid-rows " + policy, dir);
+    EXPECT_EQ(CountOf(run.out + run.err, row), 1u) << policy << "\n" << run.out << run.err;
+    if (std::string(policy) == "stop") {
+      // With the message that stopped the run, as compute prints them.
+      EXPECT_EQ(run.exit_code, 1);
+      EXPECT_EQ(run.err, dir + row +
+                             "paritas: error: 1 invalid row; fix them, or set invalid_rows: skip "
+                             "to leave them out\n");
+    } else {
+      EXPECT_EQ(run.exit_code, 0) << run.err;
+      EXPECT_EQ(run.err, "");
+      EXPECT_TRUE(Contains(run.out, "rejected rows: 1\n" + dir + row)) << run.out;
+    }
+  }
+}
+
+// The help of every command shows each option's default, the exit codes
+// and one example command line.
+TEST(CliHelp, EveryCommandShowsDefaultsExitCodesAndAnExample) {
+  const std::string dir = MakeTempDir("cli_help");
+  const std::string exit_codes =
+      "\nexit codes:\n"
+      "  0  ok\n"
+      "  1  invalid input or configuration\n"
+      "  2  computation failed\n"
+      "  3  warnings or gross outliers under --strict (compute, sensitivity)\n";
+  for (const std::string command : {"", "check", "compute", "sensitivity", "deflate", "pair"}) {
+    const CliRun run = RunCli(command + " --help", dir);
+    EXPECT_EQ(run.exit_code, 0) << command;
+    EXPECT_EQ(run.err, "") << command;
+    const std::string& help = run.out;
+    EXPECT_EQ(help.find("Usage: paritas " + (command.empty() ? "" : command + " ")),
+              help.find('\n') + 1)
+        << help;
+    EXPECT_TRUE(Contains(help, exit_codes)) << help;
+    EXPECT_TRUE(
+        Contains(help, "\nexample:\n  paritas " + (command.empty() ? "compute" : command) + " "))
+        << help;
+    // Each option entry (wrapped lines joined) that takes a value and is not
+    // required names its default.
+    std::vector<std::string> entries;
+    size_t start = 0;
+    while (start < help.size()) {
+      const size_t end = help.find('\n', start);
+      const std::string line = help.substr(start, end - start);
+      start = end == std::string::npos ? help.size() : end + 1;
+      if (line.rfind("  -", 0) == 0) {
+        entries.push_back(line);
+      } else if (!entries.empty() && line.rfind("       ", 0) == 0) {
+        entries.back() += line;
+      }
+    }
+    EXPECT_FALSE(entries.empty()) << help;
+    for (const std::string& entry : entries) {
+      const bool takes_value =
+          std::regex_search(entry, std::regex("^  --[a-z-]+ (TEXT|INT|NUMBER)"));
+      if (takes_value && !Contains(entry, "REQUIRED")) {
+        EXPECT_TRUE(Contains(entry, "default")) << command << ": " << entry;
+      }
+    }
+  }
+}
+
 TEST(CliCheck, ReportsAMissingArgumentWithTheErrorPrefix) {
   const std::string dir = MakeTempDir("cli_no_args");
   const CliRun run = RunCli("check", dir);

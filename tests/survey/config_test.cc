@@ -132,6 +132,32 @@ TEST(RunConfig, ListsTheAllowedNamesForABadInvalidRowPolicy) {
             "/cfg/run.yaml:4:15: invalid_rows 'ignore' is not one of: stop, skip");
 }
 
+// Named values written with '_' for '-', or misspelt, get a suggestion: a
+// trial wrote weighted_mean and was told only that no region has that code.
+TEST(RunConfig, SuggestsTheNameMeantForAReferenceWithUnderscores) {
+  EXPECT_EQ(ParseError(std::string(kSurvey) + "reference: weighted_mean\n"),
+            "/cfg/run.yaml:4:12: reference 'weighted_mean' is not one of: mean, weighted-mean, or "
+            "a region code; did you mean 'weighted-mean'?");
+  EXPECT_EQ(ParseError(std::string(kSurvey) + "reference: WEIGHTED MEAN\n"),
+            "/cfg/run.yaml:4:12: reference 'WEIGHTED MEAN' is not one of: mean, weighted-mean, or "
+            "a region code; did you mean 'weighted-mean'?");
+  // Any other text is a region code, checked against the survey later.
+  EXPECT_EQ(Parse(std::string(kSurvey) + "reference: weighted_meat\n").reference.region,
+            "weighted_meat");
+}
+
+TEST(RunConfig, SuggestsTheNameMeantForEveryNamedValue) {
+  EXPECT_EQ(ParseError(std::string(kSurvey) + "elementary: robust_cpd\n"),
+            "/cfg/run.yaml:4:13: elementary 'robust_cpd' is not one of: cpd, jevons-geks, "
+            "robust-cpd; did you mean 'robust-cpd'?");
+  EXPECT_EQ(ParseError(std::string(kSurvey) + "aggregation: GEKS_Tornqvist\n"),
+            "/cfg/run.yaml:4:14: aggregation 'GEKS_Tornqvist' is not one of: geks-fisher, "
+            "geks-tornqvist; did you mean 'geks-tornqvist'?");
+  EXPECT_EQ(ParseError(std::string(kSurvey) + "invalid_rows: Skipp\n"),
+            "/cfg/run.yaml:4:15: invalid_rows 'Skipp' is not one of: stop, skip; did you mean "
+            "'skip'?");
+}
+
 TEST(EnumNames, RoundTripThroughToStringAndFromString) {
   for (const std::string& name : InvalidRowPolicyNames()) {
     InvalidRowPolicy policy;

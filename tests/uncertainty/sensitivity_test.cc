@@ -441,27 +441,64 @@ TEST(SensitivityCommand, BadOptionValuesExitWithOneAndAClearMessage) {
   const std::string folder = WriteSynthetic(synthetic::Generate(SmallOptions(23)), "cli");
   const std::string config = folder + "/config.yaml --output " + folder + "/out";
   const std::pair<std::string, std::string> cases[] = {
-      {"--replicates 0", "paritas: error: --replicates must be a whole number from 2 to 100000, found '0'\n"},
-      {"--replicates 2.5", "paritas: error: --replicates must be a whole number from 2 to 100000, found '2.5'\n"},
-      {"--seed -1", "paritas: error: --seed must be a whole number from 0 to 9007199254740992, found '-1'\n"},
+      {"--replicates 0",
+       "paritas: error: --replicates must be a whole number from 2 to 100000, found '0'\n"},
+      {"--replicates 2.5",
+       "paritas: error: --replicates must be a whole number from 2 to 100000, found '2.5'\n"},
+      {"--seed -1",
+       "paritas: error: --seed must be a whole number from 0 to 9007199254740992, found '-1'\n"},
+      {"--seed x1",
+       "paritas: error: --seed must be a whole number from 0 to 9007199254740992, found 'x1'\n"},
+      {"--threads abc",
+       "paritas: error: --threads must be a whole number from 0 (all cores) to 1024, found "
+       "'abc'\n"},
       {"--level 100",
-       "paritas: error: --level must be a percentage above 0 and below 100 (e.g. 95) or a share below 1 (e.g. "
+       "paritas: error: --level must be a percentage above 0 and below 100 (e.g. 95) or a share "
+       "below 1 (e.g. "
        "0.95), found '100'\n"},
       {"--coverage 90,abc",
-       "paritas: error: --coverage must list percentages of items kept, each above 0 and at most 100 (e.g. "
+       "paritas: error: --coverage must list percentages of items kept, each above 0 and at most "
+       "100 (e.g. "
        "90,75,50,25), found 'abc'\n"},
       {"--coverage 50,50", "paritas: error: coverage level 50.0000 % is given twice\n"},
-      {"--repetitions 1", "paritas: error: --repetitions must be a whole number from 2 to 10000, found '1'\n"},
+      {"--repetitions 1",
+       "paritas: error: --repetitions must be a whole number from 2 to 10000, found '1'\n"},
       {"--parts boot",
-       "paritas: error: --parts: part 'boot' is not one of: bootstrap, leave-one-out, coverage, methods\n"},
+       "paritas: error: --parts: part 'boot' is not one of: bootstrap, leave-one-out, coverage, "
+       "methods\n"},
       {"--elementary cdp",
-       "paritas: error: --elementary 'cdp' is not one of: cpd, jevons-geks, robust-cpd\n"},
+       "paritas: error: --elementary 'cdp' is not one of: cpd, jevons-geks, robust-cpd; did you "
+       "mean 'cpd'?\n"},
+      {"--parts bootstrap,leave_one_out",
+       "paritas: error: --parts: part 'leave_one_out' is not one of: bootstrap, leave-one-out, "
+       "coverage, methods; did you mean 'leave-one-out'?\n"},
+      {"--reference Weighted_Mean",
+       "paritas: error: --reference 'Weighted_Mean' is not one of: mean, weighted-mean, or a "
+       "region code; did you mean 'weighted-mean'?\n"},
   };
   for (const auto& [arguments, message] : cases) {
     std::string out, err;
     EXPECT_EQ(RunCli("sensitivity " + config + " " + arguments, &out, &err), 1) << arguments;
     EXPECT_EQ(err, message) << arguments;
   }
+}
+
+// Strict mode: the same run with a warning exits 3 after writing
+// everything, and its run record says so.
+TEST(SensitivityCommand, StrictModeExitsWithThreeOnAWarning) {
+  const std::string folder = WriteSynthetic(synthetic::Generate(SmallOptions(29)), "cli-strict");
+  std::string out, err;
+  EXPECT_EQ(RunCli("sensitivity " + folder + "/config.yaml --strict --output " + folder +
+                       "/out --replicates 20 --repetitions 3 --level 90 --coverage 80,40 --seed 4",
+                   &out, &err),
+            3)
+      << err;
+  const std::string record = ReadTextFile(folder + "/out/sensitivity/run.json");
+  EXPECT_NE(record.find("\"exit_code\": 3"), std::string::npos) << record;
+  EXPECT_TRUE(err.ends_with("paritas: error: strict: every output was written, but the run "
+                            "raised 1 warning (sensitivity 1); see warnings.csv before "
+                            "publishing\n"))
+      << err;
 }
 
 TEST(SensitivityCommand, RunsAndPrintsTheRootTable) {

@@ -261,10 +261,13 @@ TEST(Deflate, AddsRealValuesAtTheBoundsOfTheParityInterval) {
   options.allow_negative = true;
   DeflateSummary summary;
   EXPECT_FALSE(Deflate(options, &summary));
+  // The command named writes into the parities folder: sensitivity writes
+  // under its --output, which need not be the configuration's.
   EXPECT_EQ(summary.message,
             "no parity intervals: " + options.parities_dir +
-                "/sensitivity/bootstrap.csv does not exist (run 'paritas sensitivity' with the "
-                "configuration of this compute run)");
+                "/sensitivity/bootstrap.csv does not exist; run 'paritas sensitivity CONFIG "
+                "--output " +
+                options.parities_dir + "' with the configuration and options of the compute run");
   WriteTextFile(options.parities_dir + "/sensitivity/bootstrap.csv",
                 "node,region,parity,median,lower,upper\n"
                 "all,a,120,120,100,150\n"
@@ -274,18 +277,22 @@ TEST(Deflate, AddsRealValuesAtTheBoundsOfTheParityInterval) {
   EXPECT_EQ(summary.message, "cannot tell whether the intervals belong to these parities: " +
                                  options.parities_dir + "/run.json: cannot open file: No such file or directory");
   // Records of another reference: refused, naming the difference.
-  const std::string record = R"({"tool": {"name": "paritas"}, "configuration": {"reference": "mean"},
+  const std::string record = R"({"tool": {"name": "paritas"}, "configuration": {"reference": "mean",
+                                 "config_path": "/surveys/run.yaml"},
                                  "inputs": [{"role": "prices", "sha256": "ab"}]})";
   WriteTextFile(options.parities_dir + "/run.json", record);
   std::string other = record;
   other.replace(other.find("mean"), 4, "cap");
   WriteTextFile(options.parities_dir + "/sensitivity/run.json", other);
   EXPECT_FALSE(Deflate(options, &summary));
-  EXPECT_EQ(summary.message, "the intervals in " + options.parities_dir +
-                                 "/sensitivity come from a sensitivity run on other inputs or settings than "
-                                 "the parities in " + options.parities_dir +
-                                 " (\"this run\" = the parities): reference: mean in this run, cap in the "
-                                 "other; run 'paritas sensitivity' with the same configuration");
+  EXPECT_EQ(summary.message,
+            "the intervals in " + options.parities_dir +
+                "/sensitivity come from a sensitivity run on other inputs or settings than "
+                "the parities in " +
+                options.parities_dir +
+                " (\"this run\" = the parities): reference: mean in this run, cap in the "
+                "other; run 'paritas sensitivity /surveys/run.yaml --output " +
+                options.parities_dir + "' with the configuration and options of the compute run");
   WriteTextFile(options.parities_dir + "/sensitivity/run.json", record);
   options.decimals = 4;
   ASSERT_TRUE(Deflate(options, &summary)) << summary.message;

@@ -13,6 +13,7 @@
 #include <string>
 #include <vector>
 
+#include "paritas/base/text.h"
 #include "paritas/compute/compute.h"
 #include "paritas/survey/config.h"
 #include "paritas/survey/survey_loader.h"
@@ -202,6 +203,15 @@ TEST_F(SixCommodityPair, WritesMeasuresAsCsv) {
   EXPECT_NE(csv.find("\nfisher_contribution:c2,"), std::string::npos);
   EXPECT_NE(PairTable(Compare("s1", "s2")).find("  Fisher                          1.401050"),
             std::string::npos);
+  // The spread in percent, as compute's table and the report show it:
+  // 100 ln(1.42 / 1.382353) = 2.6869.
+  const PairComparison c = Compare("s1", "s2");
+  EXPECT_NE(
+      PairTable(c).find("  P-L spread, %                   " + FormatFixed(100 * c.log_spread, 6) +
+                        "  100 x |ln(Laspeyres / Paasche)|\n"),
+      std::string::npos)
+      << PairTable(c);
+  EXPECT_NEAR(100 * c.log_spread, 2.6869, 5e-4);
 }
 
 TEST_F(SixCommodityPair, ExplainsUnknownRegionsAndNodes) {

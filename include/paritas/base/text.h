@@ -79,17 +79,31 @@ std::string NumberProblem(NumberStatus status, std::string_view what, std::strin
 std::string NumberProblem(NumberStatus status, std::string_view what, std::string_view text,
                           char decimal, std::string_view setting);
 
-// Returns the Levenshtein distance between two strings, or max_distance + 1
-// when it is larger than max_distance. Costs O(|a| x min(max_distance, |b|))
-// steps: only a band around the diagonal is computed.
+// Returns the optimal string alignment distance between two strings (edits:
+// insert, delete or substitute a character, or swap two adjacent ones, each
+// character edited at most once), or max_distance + 1 when it is larger than
+// max_distance. A swap counts as one edit because it is a common typo ("PTR"
+// for "PRT"). Costs O(|a| x min(max_distance, |b|)) steps: only a band
+// around the diagonal is computed.
 int EditDistance(std::string_view a, std::string_view b,
                  int max_distance = std::numeric_limits<int>::max());
 
-// Returns the candidate closest to `word` by edit distance (ASCII case
-// ignored) when it is close enough to be a plausible typo (distance <=
-// max(2, |word| / 3)), else "". A word longer than 256 bytes gets no
-// suggestion (codes are at most 200 bytes), so a huge word costs nothing.
+// Returns `text` trimmed, lower-cased (ASCII) and with '_' and ' ' as '-':
+// the form in which "Weighted_Mean" and "weighted-mean" are one name.
+std::string NameKey(std::string_view text);
+
+// Returns the candidate closest to `word` by edit distance, compared as
+// NameKey (case ignored, '_' and ' ' taken as '-'), when it is close enough to
+// be a plausible typo (distance <= max(2, |word| / 3)), else "". A word
+// longer than 256 bytes gets no suggestion (codes are at most 200 bytes), so
+// a huge word costs nothing.
 std::string NearestName(std::string_view word, const std::vector<std::string>& candidates);
+
+// Returns "<what> '<value>' is not one of: a, b, c", followed by "; did you
+// mean 'b'?" when NearestName finds one: the message for every named value
+// of the configuration and the command line.
+std::string NotOneOf(std::string_view what, std::string_view value,
+                     const std::vector<std::string>& names);
 
 // Returns `text` safe to show on a terminal or in a report: line feeds and
 // tabs are kept; other control characters (C0, DEL, C1), the Unicode

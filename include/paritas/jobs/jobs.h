@@ -57,7 +57,9 @@ struct CheckSummary {
   bool compute_warnings_known = false;
   std::vector<RunWarning> compute_warnings;
 
-  // The readable summary printed by `paritas check`.
+  // The readable summary printed by `paritas check`. When the load failed,
+  // only the files read: the rows that stopped it are printed with its
+  // message (DescribeRejectedRows), not twice.
   std::string FullReport() const;
 };
 

@@ -59,7 +59,9 @@ std::string AggregateBilateralCsv(const Survey& survey, const NodeResult& node,
 std::string HeadingBilateralCsv(const Survey& survey, const NodeResult& node,
                                 const Eigen::MatrixXd& jevons, const Eigen::MatrixXi& num_items);
 
-// Paasche-Laspeyres spread statistics of one region against all others.
+// Paasche-Laspeyres spread statistics of one region against all others, as
+// |ln(Laspeyres / Paasche)| (shown x100 as "P-L spread, %" on the terminal
+// and in the report).
 struct RegionSpread {
   double median = 0.0;
   double max = 0.0;
@@ -68,7 +70,8 @@ struct RegionSpread {
 std::vector<RegionSpread> RegionSpreads(const BilateralMatrices& bilaterals);
 
 // The terminal table of the root node: regions sorted dearest first, with
-// parity, rank, real expenditure per head and Paasche-Laspeyres spread.
+// parity, rank, real expenditure per head and the largest Paasche-Laspeyres
+// spread in percent (100 |ln(L / P)|, 2 decimals) with its partner.
 std::string RootTable(const Survey& survey, const ParityResult& result,
                       const std::vector<RegionSpread>& spreads);
 

@@ -71,6 +71,10 @@ std::string RunRecordJson(const RunRecord& record);
 bool ReadRunRecord(const std::string& folder, std::string* run_id, std::string* json,
                    std::string* error);
 
+// Returns the configuration file named in a run record's JSON
+// (configuration.config_path), or "" when it names none.
+std::string RunConfigPath(const std::string& json);
+
 // What makes the results of two run records incomparable: different input
 // files (by SHA-256, per role) or different settings that change parities
 // (reference, elementary, aggregation, invalid_rows, representative_weight).

@@ -5,6 +5,7 @@
 #define PARITAS_SURVEY_CONFIG_H_
 
 #include <string>
+#include <string_view>
 #include <vector>
 
 #include "paritas/base/csv.h"
@@ -31,6 +32,15 @@ struct Reference {
   // region code, checked against the survey later.
   static Reference FromString(const std::string& text);
 };
+
+// Reads a reference as Reference::FromString does, but refuses empty text and
+// text spelt like mean or weighted-mean but for case, '_' or ' ' (no region
+// code may be, so "weighted_mean" is a slip, not a region): "reference
+// 'weighted_mean' is not one of: mean, weighted-mean, or a region code; did
+// you mean 'weighted-mean'?". `what` names the setting ("reference",
+// "--reference").
+bool ParseReference(std::string_view what, const std::string& text, Reference* reference,
+                    std::string* error);
 
 // What to do with an invalid data row.
 enum class InvalidRowPolicy {
