@@ -44,8 +44,8 @@ NodeArrays Generated(int num_regions, int num_headings, double coverage, unsigne
   for (int r = 0; r < num_regions; ++r) {
     const double size = std::exp(4.6 * uniform(random));
     for (int h = 0; h < num_headings; ++h) {
-      const bool priced = uniform(random) < coverage || h == r % num_headings ||
-                          h == (r + 1) % num_headings;
+      const bool priced =
+          uniform(random) < coverage || h == r % num_headings || h == (r + 1) % num_headings;
       arrays.price(r, h) = priced ? std::exp(normal(random) + 0.1 * h) : std::nan("");
       arrays.expenditure(r, h) = size * (0.2 + uniform(random));
     }
@@ -84,7 +84,8 @@ bool Used(const NodeArrays& a, int r, int h) {
 // here: Geary (1958), Khamis (1972) pi_h = sum_r (e_rh / PPP_r) / sum_r q_rh;
 // Balk (1996) 1 / pi_h = sum_r s_rh (PPP_r / p_rh) / sum_r s_rh.
 double EquationResidual(const NodeArrays& a, const Eigen::VectorXd& log_parity, bool geary_khamis) {
-  const int num_regions = static_cast<int>(a.price.rows()), num_headings = static_cast<int>(a.price.cols());
+  const int num_regions = static_cast<int>(a.price.rows()),
+            num_headings = static_cast<int>(a.price.cols());
   std::vector<double> total(num_regions, 0.0);
   for (int r = 0; r < num_regions; ++r) {
     for (int h = 0; h < num_headings; ++h) total[r] += Used(a, r, h) ? a.expenditure(r, h) : 0.0;
@@ -103,15 +104,38 @@ double EquationResidual(const NodeArrays& a, const Eigen::VectorXd& log_parity, 
   double worst = 0.0;
   for (int r = 0; r < num_regions; ++r) {
     double real = 0.0;
-    for (int h = 0; h < num_headings; ++h) real += Used(a, r, h) ? pi[h] * a.expenditure(r, h) / a.price(r, h) : 0.0;
+    for (int h = 0; h < num_headings; ++h)
+      real += Used(a, r, h) ? pi[h] * a.expenditure(r, h) / a.price(r, h) : 0.0;
     worst = std::max(worst, std::abs(total[r] / real / std::exp(log_parity(r)) - 1.0));
   }
   return worst;
 }
 
+// Two blocks of ten regions with no heading in common but one cell: region 0
+// spends `link` on a heading of the other block.
+NodeArrays WeaklyLinked(double link) {
+  NodeArrays arrays;
+  arrays.price = Eigen::MatrixXd::Constant(20, 10, std::nan(""));
+  arrays.expenditure = arrays.price;
+  for (int r = 0; r < 20; ++r) {
+    for (int h = r < 10 ? 0 : 5; h < (r < 10 ? 5 : 10); ++h) {
+      arrays.price(r, h) = std::exp(0.1 * ((7 * r + 3 * h) % 5) - 0.2);
+      arrays.expenditure(r, h) = 1.0 + 0.1 * ((r + 2 * h) % 7);
+    }
+  }
+  arrays.price(0, 5) = 3.0;
+  arrays.expenditure(0, 5) = link;
+  return arrays;
+}
+
+bool StartsWith(const std::string& text, const std::string& start) {
+  return text.rfind(start, 0) == 0;
+}
+
 class Additive : public ::testing::TestWithParam<std::string> {};
 
-INSTANTIATE_TEST_SUITE_P(Methods, Additive, ::testing::Values("geary-khamis", "ikle-dikhanov-balk"));
+INSTANTIATE_TEST_SUITE_P(Methods, Additive,
+                         ::testing::Values("geary-khamis", "ikle-dikhanov-balk"));
 
 TEST_P(Additive, IsRegisteredAsAdditiveAndNeedsNoBilaterals) {
   EXPECT_TRUE(Method(GetParam()).Properties().additive);
@@ -256,6 +280,46 @@ TEST_P(Additive, ReportsRegionsWithNoHeadingInCommonAsUnlinkedGroups) {
   EXPECT_NEAR(result.log_parity(0) + result.log_parity(1), 0.0, 1e-14);
   EXPECT_NEAR(result.log_parity(2) + result.log_parity(3), 0.0, 1e-14);
   EXPECT_TRUE(std::isnan(result.log_parity(4)));
+}
+
+// A link of 1 % of one region's spending is enough; the slow contraction
+// along it must not stop the loop early (computed here: with a step test
+// alone, a link of 1e-9 gave a ln parity 2e-3 off the fixed point).
+TEST_P(Additive, ConvergesWhenTwoBlocksShareOneSmallCell) {
+  const NodeArrays arrays = WeaklyLinked(0.01);
+  const AggregateParities result = Solve(arrays, GetParam());
+  ASSERT_TRUE(result.failure.empty()) << result.failure;
+  EXPECT_LT(EquationResidual(arrays, result.log_parity, GetParam() == "geary-khamis"), 1e-11);
+}
+
+// Linked through a billionth of one region's spending, the level of one
+// block against the other is not determined in double precision: the node
+// fails with a message and no number.
+TEST(GearyKhamis, FailsWhenTheRegionsAreLinkedThroughAlmostNoSpending) {
+  const AggregateParities result = Solve(WeaklyLinked(1e-9), "geary-khamis");
+  EXPECT_TRUE(StartsWith(result.failure,
+                         "geary-khamis: the parities are not well determined (the system's "
+                         "reciprocal condition number is "))
+      << result.failure;
+  EXPECT_TRUE(result.failure.find("); some regions are linked to the others through almost no "
+                                  "spending") != std::string::npos);
+  EXPECT_TRUE(result.log_parity.array().isNaN().all());
+}
+
+// The same at a millionth: Geary-Khamis is still determined, the
+// Ikle-Dikhanov-Balk iteration is not done in 20,000 steps and says so.
+TEST(IkleDikhanovBalk, SaysItDidNotConvergeRatherThanReturnANumber) {
+  EXPECT_TRUE(Solve(WeaklyLinked(1e-6), "geary-khamis").failure.empty());
+  const AggregateParities result = Solve(WeaklyLinked(1e-6), "ikle-dikhanov-balk");
+  EXPECT_TRUE(StartsWith(result.failure,
+                         "ikle-dikhanov-balk did not converge: the largest change of a ln parity "
+                         "was "))
+      << result.failure;
+  EXPECT_TRUE(result.failure.find(" after 20000 iterations (the test is 1e-12); regions linked "
+                                  "through few shared headings converge slowly") !=
+              std::string::npos)
+      << result.failure;
+  EXPECT_TRUE(result.log_parity.array().isNaN().all());
 }
 
 }  // namespace

@@ -8,9 +8,9 @@
 #ifndef PARITAS_INTERNAL_AGGREGATION_METHODS_ADDITIVE_H_
 #define PARITAS_INTERNAL_AGGREGATION_METHODS_ADDITIVE_H_
 
-#include <string_view>
-
 #include <Eigen/Core>
+#include <string>
+#include <string_view>
 
 #include "paritas/aggregation/aggregation_method.h"
 
@@ -36,15 +36,18 @@ using PriceEquation = Eigen::VectorXd (*)(const AdditiveCells& cells, const Eige
 struct AdditiveMethod {
   std::string_view name;
   PriceEquation prices;
-  // Starting international prices for the fixed-point iteration.
-  Eigen::VectorXd (*start)(const AdditiveCells& cells);
+  // Sets the starting international prices of the fixed-point loop (the
+  // method's own solution); returns false with `failure` set when it finds
+  // none.
+  bool (*start)(const AdditiveCells& cells, Eigen::VectorXd* pi, std::string* failure);
 };
 
-// The fixed-point iteration stops when max_r |ln PPP_r(k+1) - ln PPP_r(k)|
-// falls below kAdditiveTolerance (then it is at rounding level: the last
-// step is within the tolerance of the fixed point) and fails the node after
-// kAdditiveMaxIterations.
+// The fixed-point iteration stops when the step max_r |ln PPP_r(k+1) -
+// ln PPP_r(k)| is below kAdditiveTolerance and so is the distance to the
+// fixed point it implies at the observed rate of contraction (or the step is
+// at rounding level), and fails the node after kAdditiveMaxIterations.
 inline constexpr double kAdditiveTolerance = 1e-12;
+inline constexpr double kAdditiveRoundingLevel = 1e-15;
 inline constexpr int kAdditiveMaxIterations = 20000;
 
 // Solves the parity and price equations of `method` in each group of
@@ -58,11 +61,21 @@ AggregateParities SolveAdditive(const NodeArrays& arrays, const AdditiveMethod& 
 Eigen::VectorXd InternationalPricesAt(const NodeArrays& arrays, const Eigen::VectorXd& log_parity,
                                       PriceEquation prices);
 
+// Returns x with two significant digits, as 1e-12 or 5.4e-08.
+std::string ScientificText(double x);
+
 // Returns the Geary-Khamis international prices solved directly: the
 // stationary vector of a column-stochastic headings x headings matrix (see
 // geary_khamis.cc); falls back to the prices at PPP = 1 when the solve does
 // not give positive prices.
-Eigen::VectorXd GearyKhamisDirectPrices(const AdditiveCells& cells);
+// `reciprocal_condition` (may be null) receives the LU estimate of the
+// system's reciprocal condition number.
+Eigen::VectorXd GearyKhamisDirectPrices(const AdditiveCells& cells,
+                                        double* reciprocal_condition = nullptr);
+// Below this reciprocal condition number the direct solve's relative error
+// (up to about 1e-16 / rcond) could pass 1e-6, and the node fails.
+inline constexpr double kMinReciprocalCondition = 1e-10;
+bool GearyKhamisStart(const AdditiveCells& cells, Eigen::VectorXd* pi, std::string* failure);
 
 }  // namespace paritas::internal
 

@@ -40,7 +40,7 @@ class GearyKhamis final : public AggregationMethod {
     return none;
   }
   AggregateParities Aggregate(const NodeArrays& arrays, const BilateralMatrices&) const override {
-    return SolveAdditive(arrays, {Name(), &GearyKhamisPrices, &GearyKhamisDirectPrices});
+    return SolveAdditive(arrays, {Name(), &GearyKhamisPrices, &GearyKhamisStart});
   }
   Eigen::VectorXd InternationalPrices(const NodeArrays& arrays,
                                       const Eigen::VectorXd& log_parity) const override {
@@ -54,7 +54,7 @@ class GearyKhamis final : public AggregationMethod {
 // P_hk = sum_r s_rh q_rk / Q_k, whose columns sum to 1 (the shares of a
 // region sum to 1): y is P's stationary vector, unique when the regions are
 // linked. Solved as (I - P) y = 0 with one row replaced by sum_h y_h = 1.
-Eigen::VectorXd GearyKhamisDirectPrices(const AdditiveCells& cells) {
+Eigen::VectorXd GearyKhamisDirectPrices(const AdditiveCells& cells, double* reciprocal_condition) {
   const Eigen::VectorXd quantity = cells.quantity.colwise().sum().transpose();
   std::vector<int> used;
   for (Eigen::Index h = 0; h < quantity.size(); ++h) {
@@ -70,12 +70,29 @@ Eigen::VectorXd GearyKhamisDirectPrices(const AdditiveCells& cells) {
   system.row(m - 1).setOnes();
   Eigen::VectorXd rhs = Eigen::VectorXd::Zero(m);
   rhs(m - 1) = 1.0;
-  const Eigen::VectorXd y = system.fullPivLu().solve(rhs);
+  const Eigen::PartialPivLU<Eigen::MatrixXd> lu(system);
+  if (reciprocal_condition != nullptr) *reciprocal_condition = lu.rcond();
+  const Eigen::VectorXd y = lu.solve(rhs);
   if (!(y.array() > 0).all() || !y.allFinite()) {
     return GearyKhamisPrices(cells, (cells.total.array() > 0).cast<double>().matrix());
   }
   for (int k = 0; k < m; ++k) pi(used[k]) = y(k) / quantity(used[k]);
   return pi;
+}
+
+// An ill-conditioned system (a region or group linked to the rest through
+// almost no spending) still passes the fixed-point check, which moves slowly
+// along the weak direction, so the conditioning is tested here.
+bool GearyKhamisStart(const AdditiveCells& cells, Eigen::VectorXd* pi, std::string* failure) {
+  double reciprocal_condition = 1.0;
+  *pi = GearyKhamisDirectPrices(cells, &reciprocal_condition);
+  if (reciprocal_condition >= kMinReciprocalCondition) return true;
+  *failure =
+      "geary-khamis: the parities are not well determined (the system's reciprocal "
+      "condition number is " +
+      ScientificText(reciprocal_condition) +
+      "); some regions are linked to the others through almost no spending";
+  return false;
 }
 
 const AggregationMethod& GearyKhamisMethod() {

@@ -1,9 +1,19 @@
 // ikle-dikhanov-balk (Ikle 1972; Dikhanov 1994; Balk 1996): the additive
 // method whose international prices are share-weighted harmonic means, so
 // small regions weigh as much as large ones in the price structure. No
-// linear form exists, so it runs the shared fixed-point loop, started from
-// the Geary-Khamis prices (close to its own in practice).
+// linear form exists. The plain fixed point contracts at the rate of the
+// second eigenvalue of its Jacobian, which comes close to 1 when a group of
+// regions is linked to the rest through little spending, and then both
+// stalls and, worse, takes steps small enough to pass a step-size test far
+// from the solution; so the prices are found by Newton's method on the
+// headings' ln prices (from the Geary-Khamis prices) and the shared loop
+// only checks them.
+#include <Eigen/LU>
+#include <algorithm>
 #include <cmath>
+#include <limits>
+#include <string>
+#include <vector>
 
 #include "aggregation/methods/additive.h"
 #include "aggregation/methods/additive_text.h"
@@ -18,6 +28,113 @@ Eigen::VectorXd IkleDikhanovBalkPrices(const AdditiveCells& cells, const Eigen::
   const Eigen::VectorXd weight = cells.share.colwise().sum().transpose();
   const Eigen::VectorXd inverse = cells.share.cwiseProduct(cells.inverse_price).transpose() * ppp;
   return (weight.array() > 0).select(weight.cwiseQuotient(inverse), std::nan("")).matrix();
+}
+
+// One evaluation of the fixed-point map G on y = ln pi (the used headings):
+// F = G(y) - y, the centred ln PPP, and the Jacobian of G, J = V W with
+// W_rk = pi_k q_rk / sum_h pi_h q_rh and V_hr = s_rh PPP_r / p_rh / sum_r (same),
+// both row-stochastic, so J 1 = 1 (G commutes with a common shift of y).
+struct Evaluation {
+  Eigen::VectorXd residual, log_parity;
+  Eigen::MatrixXd jacobian;
+};
+
+Evaluation Evaluate(const Eigen::MatrixXd& quantity, const Eigen::MatrixXd& share_over_price,
+                    const Eigen::VectorXd& total, const Eigen::VectorXd& weight,
+                    const Eigen::VectorXd& y) {
+  const Eigen::Index num_regions = total.size();
+  const Eigen::VectorXd pi = y.array().exp().matrix();
+  Eigen::MatrixXd w = quantity * pi.asDiagonal();
+  const Eigen::VectorXd real = w.rowwise().sum();
+  Evaluation out;
+  out.log_parity = Eigen::VectorXd::Zero(num_regions);
+  Eigen::VectorXd ppp = Eigen::VectorXd::Zero(num_regions);
+  int count = 0;
+  for (Eigen::Index r = 0; r < num_regions; ++r) {
+    if (total(r) <= 0) continue;
+    out.log_parity(r) = std::log(total(r) / real(r));
+    ppp(r) = total(r) / real(r);
+    w.row(r) /= real(r);
+    ++count;
+  }
+  Eigen::MatrixXd v = (ppp.asDiagonal() * share_over_price).transpose();
+  const Eigen::VectorXd inverse = v.rowwise().sum();
+  v = inverse.cwiseInverse().asDiagonal() * v;
+  out.residual = (weight.array().log() - inverse.array().log()).matrix() - y;
+  out.jacobian = v * w;
+  const double mean = out.log_parity.sum() / std::max(count, 1);
+  for (Eigen::Index r = 0; r < num_regions; ++r) {
+    if (total(r) > 0) out.log_parity(r) -= mean;
+  }
+  return out;
+}
+
+// Newton's method for F(y) = 0 from the Geary-Khamis prices: (I - J) d = F
+// is singular along 1, so (I - J + 1 1'/m) d = F is solved instead (the
+// added term only shifts every ln price alike, which changes no parity; a
+// rank-revealing solve would drop the weak direction that matters here);
+// steps are halved while they do not reduce max |F|. Converged when the
+// Newton step itself is below the loop's tolerance (a short, halved step
+// proves nothing); a region linked to the others through almost no
+// spending makes I - J nearly singular, and then it may fail.
+bool Newton(const AdditiveCells& cells, Eigen::VectorXd* pi, std::string* failure) {
+  std::vector<int> used;
+  for (Eigen::Index h = 0; h < pi->size(); ++h) {
+    if (std::isfinite((*pi)(h)) && (*pi)(h) > 0) used.push_back(static_cast<int>(h));
+  }
+  if (used.empty()) return true;
+  const int m = static_cast<int>(used.size());
+  const Eigen::MatrixXd quantity = cells.quantity(Eigen::all, used);
+  const Eigen::MatrixXd share_over_price =
+      cells.share.cwiseProduct(cells.inverse_price)(Eigen::all, used);
+  const Eigen::VectorXd weight = cells.share(Eigen::all, used).colwise().sum().transpose();
+  Eigen::VectorXd y = (*pi)(used).array().log().matrix();
+  Evaluation current = Evaluate(quantity, share_over_price, cells.total, weight, y);
+  double newton_step = std::numeric_limits<double>::infinity();
+  constexpr int kMaxSteps = 200;
+  constexpr double kMaxLogStep = 0.5;
+  for (int step = 0; step < kMaxSteps; ++step) {
+    if (current.residual.lpNorm<Eigen::Infinity>() == 0.0) return true;
+    Eigen::MatrixXd system = Eigen::MatrixXd::Constant(m, m, 1.0 / m) - current.jacobian;
+    system.diagonal().array() += 1.0;
+    const Eigen::VectorXd direction = system.partialPivLu().solve(current.residual);
+    if (!direction.allFinite()) break;
+    // W is row-stochastic: no ln parity moves more than the step's largest entry.
+    newton_step = direction.lpNorm<Eigen::Infinity>();
+    if (newton_step < kAdditiveTolerance) {
+      (*pi)(used) = (y + direction).array().exp().matrix();
+      return true;
+    }
+    // A trust region: a step along the weak direction can be large and the
+    // map is far from linear over it.
+    double length = std::min(1.0, kMaxLogStep / newton_step);
+    Evaluation next;
+    for (int halving = 0; halving < 30; ++halving, length *= 0.5) {
+      next = Evaluate(quantity, share_over_price, cells.total, weight, y + length * direction);
+      if (next.residual.allFinite() &&
+          next.residual.lpNorm<Eigen::Infinity>() <= current.residual.lpNorm<Eigen::Infinity>()) {
+        break;
+      }
+    }
+    if (!next.residual.allFinite()) break;
+    y += length * direction;
+    (*pi)(used) = y.array().exp().matrix();
+    current = std::move(next);
+  }
+  *failure =
+      "Newton's last step would move a ln international price by " + ScientificText(newton_step);
+  return false;
+}
+
+// Newton from the Geary-Khamis prices; where it does not converge (along a
+// weak link its linear model can lead it away), the shared loop starts from
+// the Geary-Khamis prices and either converges by its own test or fails.
+bool NewtonStart(const AdditiveCells& cells, Eigen::VectorXd* pi, std::string*) {
+  *pi = GearyKhamisDirectPrices(cells);
+  const Eigen::VectorXd geary_khamis = *pi;
+  std::string newton_failure;
+  if (!Newton(cells, pi, &newton_failure)) *pi = geary_khamis;
+  return true;
 }
 
 class IkleDikhanovBalk final : public AggregationMethod {
@@ -43,7 +160,7 @@ class IkleDikhanovBalk final : public AggregationMethod {
     return none;
   }
   AggregateParities Aggregate(const NodeArrays& arrays, const BilateralMatrices&) const override {
-    return SolveAdditive(arrays, {Name(), &IkleDikhanovBalkPrices, &GearyKhamisDirectPrices});
+    return SolveAdditive(arrays, {Name(), &IkleDikhanovBalkPrices, &NewtonStart});
   }
   Eigen::VectorXd InternationalPrices(const NodeArrays& arrays,
                                       const Eigen::VectorXd& log_parity) const override {
