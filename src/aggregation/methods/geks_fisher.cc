@@ -14,8 +14,7 @@ class GeksFisher final : public AggregationMethod {
   std::string_view ReportHtml() const override { return kGeksReportHtml; }
   AggregationProperties Properties() const override { return {}; }
   BilateralOptions BilateralsNeeded() const override { return BilateralOptions::OnlyFisher(); }
-  AggregateParities Aggregate(const NodeArrays&,
-                              const BilateralMatrices& bilaterals) const override {
+  AggregateParities Aggregate(const NodeArrays&, const BilateralMatrices& bilaterals) const override {
     return GeksOverIndex(bilaterals.fisher);
   }
 };

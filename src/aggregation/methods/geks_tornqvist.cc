@@ -9,15 +9,12 @@ namespace {
 class GeksTornqvist final : public AggregationMethod {
  public:
   std::string_view Name() const override { return "geks-tornqvist"; }
-  std::string_view Description() const override {
-    return "GEKS over bilateral T\xC3\xB6rnqvist indices";
-  }
+  std::string_view Description() const override { return "GEKS over bilateral T\xC3\xB6rnqvist indices"; }
   std::string_view ReportTitle() const override { return "GEKS over T\xC3\xB6rnqvist indices"; }
   std::string_view ReportHtml() const override { return kGeksReportHtml; }
   AggregationProperties Properties() const override { return {}; }
   BilateralOptions BilateralsNeeded() const override { return BilateralOptions::OnlyTornqvist(); }
-  AggregateParities Aggregate(const NodeArrays&,
-                              const BilateralMatrices& bilaterals) const override {
+  AggregateParities Aggregate(const NodeArrays&, const BilateralMatrices& bilaterals) const override {
     return GeksOverIndex(bilaterals.tornqvist);
   }
 };
