@@ -282,7 +282,7 @@ TEST_P(Additive, ReportsRegionsWithNoHeadingInCommonAsUnlinkedGroups) {
   EXPECT_TRUE(std::isnan(result.log_parity(4)));
 }
 
-// A link of 1 % of one region's spending is enough; the slow contraction
+// A link of about 0.15 % of one region's spending is enough; the slow contraction
 // along it must not stop the loop early (computed here: with a step test
 // alone, a link of 1e-9 gave a ln parity 2e-3 off the fixed point).
 TEST_P(Additive, ConvergesWhenTwoBlocksShareOneSmallCell) {

@@ -31,41 +31,30 @@ Eigen::VectorXd IkleDikhanovBalkPrices(const AdditiveCells& cells, const Eigen::
 }
 
 // One evaluation of the fixed-point map G on y = ln pi (the used headings):
-// F = G(y) - y, the centred ln PPP, and the Jacobian of G, J = V W with
+// F = G(y) - y and, when asked, the Jacobian of G, J = V W with
 // W_rk = pi_k q_rk / sum_h pi_h q_rh and V_hr = s_rh PPP_r / p_rh / sum_r (same),
 // both row-stochastic, so J 1 = 1 (G commutes with a common shift of y).
 struct Evaluation {
-  Eigen::VectorXd residual, log_parity;
+  Eigen::VectorXd residual;
   Eigen::MatrixXd jacobian;
 };
 
 Evaluation Evaluate(const Eigen::MatrixXd& quantity, const Eigen::MatrixXd& share_over_price,
                     const Eigen::VectorXd& total, const Eigen::VectorXd& weight,
-                    const Eigen::VectorXd& y) {
-  const Eigen::Index num_regions = total.size();
+                    const Eigen::VectorXd& y, bool with_jacobian) {
   const Eigen::VectorXd pi = y.array().exp().matrix();
   Eigen::MatrixXd w = quantity * pi.asDiagonal();
   const Eigen::VectorXd real = w.rowwise().sum();
-  Evaluation out;
-  out.log_parity = Eigen::VectorXd::Zero(num_regions);
-  Eigen::VectorXd ppp = Eigen::VectorXd::Zero(num_regions);
-  int count = 0;
-  for (Eigen::Index r = 0; r < num_regions; ++r) {
-    if (total(r) <= 0) continue;
-    out.log_parity(r) = std::log(total(r) / real(r));
-    ppp(r) = total(r) / real(r);
-    w.row(r) /= real(r);
-    ++count;
-  }
+  const Eigen::VectorXd ppp = (total.array() > 0).select(total.cwiseQuotient(real), 0.0);
   Eigen::MatrixXd v = (ppp.asDiagonal() * share_over_price).transpose();
   const Eigen::VectorXd inverse = v.rowwise().sum();
-  v = inverse.cwiseInverse().asDiagonal() * v;
+  Evaluation out;
   out.residual = (weight.array().log() - inverse.array().log()).matrix() - y;
+  if (!with_jacobian) return out;
+  const Eigen::VectorXd inverse_real = (total.array() > 0).select(real.cwiseInverse(), 0.0);
+  w = inverse_real.asDiagonal() * w;
+  v = inverse.cwiseInverse().asDiagonal() * v;
   out.jacobian = v * w;
-  const double mean = out.log_parity.sum() / std::max(count, 1);
-  for (Eigen::Index r = 0; r < num_regions; ++r) {
-    if (total(r) > 0) out.log_parity(r) -= mean;
-  }
   return out;
 }
 
@@ -73,7 +62,8 @@ Evaluation Evaluate(const Eigen::MatrixXd& quantity, const Eigen::MatrixXd& shar
 // is singular along 1, so (I - J + 1 1'/m) d = F is solved instead (the
 // added term only shifts every ln price alike, which changes no parity; a
 // rank-revealing solve would drop the weak direction that matters here);
-// steps are halved while they do not reduce max |F|. Converged when the
+// steps are halved (up to 12 times) until they reduce max |F|, and Newton
+// gives up when none does. Converged when the
 // Newton step itself is below the loop's tolerance (a short, halved step
 // proves nothing); a region linked to the others through almost no
 // spending makes I - J nearly singular, and then it may fail.
@@ -89,9 +79,9 @@ bool Newton(const AdditiveCells& cells, Eigen::VectorXd* pi, std::string* failur
       cells.share.cwiseProduct(cells.inverse_price)(Eigen::all, used);
   const Eigen::VectorXd weight = cells.share(Eigen::all, used).colwise().sum().transpose();
   Eigen::VectorXd y = (*pi)(used).array().log().matrix();
-  Evaluation current = Evaluate(quantity, share_over_price, cells.total, weight, y);
+  Evaluation current = Evaluate(quantity, share_over_price, cells.total, weight, y, true);
   double newton_step = std::numeric_limits<double>::infinity();
-  constexpr int kMaxSteps = 200;
+  constexpr int kMaxSteps = 50;
   constexpr double kMaxLogStep = 0.5;
   for (int step = 0; step < kMaxSteps; ++step) {
     if (current.residual.lpNorm<Eigen::Infinity>() == 0.0) return true;
@@ -108,18 +98,17 @@ bool Newton(const AdditiveCells& cells, Eigen::VectorXd* pi, std::string* failur
     // A trust region: a step along the weak direction can be large and the
     // map is far from linear over it.
     double length = std::min(1.0, kMaxLogStep / newton_step);
-    Evaluation next;
-    for (int halving = 0; halving < 30; ++halving, length *= 0.5) {
-      next = Evaluate(quantity, share_over_price, cells.total, weight, y + length * direction);
-      if (next.residual.allFinite() &&
-          next.residual.lpNorm<Eigen::Infinity>() <= current.residual.lpNorm<Eigen::Infinity>()) {
-        break;
-      }
+    bool decreased = false;
+    for (int halving = 0; halving < 12 && !decreased; ++halving, length *= 0.5) {
+      const Evaluation trial =
+          Evaluate(quantity, share_over_price, cells.total, weight, y + length * direction, false);
+      decreased = trial.residual.allFinite() && trial.residual.lpNorm<Eigen::Infinity>() <
+                                                    current.residual.lpNorm<Eigen::Infinity>();
+      if (decreased) y += length * direction;
     }
-    if (!next.residual.allFinite()) break;
-    y += length * direction;
+    if (!decreased) break;  // stalled: leave it to the fixed-point loop
     (*pi)(used) = y.array().exp().matrix();
-    current = std::move(next);
+    current = Evaluate(quantity, share_over_price, cells.total, weight, y, true);
   }
   *failure =
       "Newton's last step would move a ln international price by " + ScientificText(newton_step);
