@@ -104,7 +104,8 @@ TEST(RunConfig, ShortensAHugeUnknownKey) {
             "/cfg/run.yaml:4:3: unknown key '" + std::string(60, 'k') +
                 "...'; valid keys are: survey, classification, reference, elementary, aggregation, "
                 "invalid_rows, output, matrices, representative_weight, outlier_threshold, "
-                "robust_standard_errors, report, threads, limits, duplicate_quotes, strict, checks");
+                "outlier_fit, robust_standard_errors, report, threads, limits, duplicate_quotes, "
+                "strict, checks");
 }
 
 TEST(RunConfig, ListsTheValidKeysWhenNoneIsClose) {
