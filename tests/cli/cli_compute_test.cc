@@ -249,8 +249,8 @@ TEST(ComputeCommand, SuggestsTheNameMeantForEveryNamedOption) {
        "--elementary 'Jevons_GEKS' is not one of: cpd, jevons-geks, robust-cpd; did you mean "
        "'jevons-geks'?"},
       {"--aggregation geks_fisher",
-       "--aggregation 'geks_fisher' is not one of: geks-fisher, geks-tornqvist; did you mean "
-       "'geks-fisher'?"},
+       "--aggregation 'geks_fisher' is not one of: geks-fisher, geks-tornqvist, weighted-cpd, "
+       "spanning-tree; did you mean 'geks-fisher'?"},
       {"--invalid-rows Skipp",
        "--invalid-rows 'Skipp' is not one of: stop, skip; did you mean 'skip'?"},
   };
