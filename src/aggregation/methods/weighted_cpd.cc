@@ -28,9 +28,10 @@ struct Cells {
 };
 
 // Fits the regions `members` (all of them when empty) and writes their ln
-// parities, mean 0 over those with cells, into `log_parity`.
-CpdResult FitCells(const Cells& all, int num_regions, int num_headings,
-                   const std::vector<int>& members, Eigen::VectorXd* log_parity) {
+// parities, mean 0 over those with cells, into `log_parity`; they stay NaN
+// if the linked group's normal equations fail numerically.
+void FitCells(const Cells& all, int num_regions, int num_headings, const std::vector<int>& members,
+              Eigen::VectorXd* log_parity) {
   std::vector<char> in(num_regions, members.empty() ? 1 : 0);
   for (int r : members) in[r] = 1;
   Cells cells;
@@ -45,13 +46,11 @@ CpdResult FitCells(const Cells& all, int num_regions, int num_headings,
                      cells.heading, cells.log_price, cells.weight};
   CpdOptions options;
   options.compute_standard_errors = false;
-  CpdResult fit = FitCpd(data, options);
-  if (fit.identified) {
-    for (int r = 0; r < num_regions; ++r) {
-      if (in[r] && std::isfinite(fit.log_parity(r))) (*log_parity)(r) = fit.log_parity(r);
-    }
+  const CpdResult fit = FitCpd(data, options);
+  if (!fit.identified) return;
+  for (int r = 0; r < num_regions; ++r) {
+    if (in[r] && std::isfinite(fit.log_parity(r))) (*log_parity)(r) = fit.log_parity(r);
   }
-  return fit;
 }
 
 }  // namespace
