@@ -342,6 +342,11 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
   files.push_back({"parities.csv", ParitiesCsv(survey, result, &summary->plausibility)});
   files.push_back({"warnings.csv", WarningsCsv(summary->warnings)});
   AddMatrixFiles(survey, result, matrix_nodes, &files);
+  for (const NodeResult& n : result.nodes) {  // spanning-tree: every aggregate's tree
+    if (n.tree.empty()) continue;
+    const std::string& code = survey.classification.nodes()[n.node].code;
+    files.push_back({"tree/" + NodeFileName(code) + ".csv", TreeCsv(survey, n)});
+  }
   files.push_back({"outliers.csv", OutliersCsv(survey, summary->outliers)});
   files.push_back({"dispersion.csv", DispersionCsv(survey, summary->outliers)});
   if (config.invalid_rows == InvalidRowPolicy::kSkip) {

@@ -9,12 +9,16 @@ namespace paritas {
 namespace internal {
 const AggregationMethod& GeksFisherMethod();
 const AggregationMethod& GeksTornqvistMethod();
+const AggregationMethod& WeightedCpdAggregationMethod();
+const AggregationMethod& SpanningTreeAggregationMethod();
 }  // namespace internal
 
 const std::vector<const AggregationMethod*>& AggregationMethods() {
   static const std::vector<const AggregationMethod*> methods = {
       &internal::GeksFisherMethod(),
       &internal::GeksTornqvistMethod(),
+      &internal::WeightedCpdAggregationMethod(),
+      &internal::SpanningTreeAggregationMethod(),
   };
   return methods;
 }
