@@ -306,6 +306,7 @@ void FillAggregateNode(const ClassificationNode& n, const AggregateParities& agg
   node->identified = aggregate.identified;
   node->groups = aggregate.groups;
   node->rms_log_residual = aggregate.rms_log_residual;
+  node->tree = aggregate.tree;
   if (!aggregate.identified) return;
   for (int k = 0; k < static_cast<int>(n.headings.size()); ++k) {
     for (int r = 0; r < node->num_items.size(); ++r) {

@@ -159,8 +159,7 @@ int RunCheck(const RunConfig& config, CheckSummary* summary) {
         ComputeParities(survey, ComputeOptions::FromConfig(config), &result, &compute);
     if (!computed && compute_problem.empty()) compute_problem = compute.message;
     if (computed) {
-      OutlierOptions outlier_options;
-      outlier_options.threshold = config.outlier_threshold;
+      const OutlierOptions outlier_options = OutlierOptions::FromConfig(config);
       summary->outlier_threshold = config.outlier_threshold;
       const OutlierReport report = FindOutliers(survey, result, outlier_options);
       for (HeadingCheck& check : summary->headings) check.num_flagged_cells = report.num_flagged_cells[check.heading];
@@ -329,8 +328,7 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
   summary->stages.push_back({"elementary", summary->compute.elementary_seconds});
   summary->stages.push_back({"aggregation", summary->compute.aggregation_seconds});
   const ParityResult& result = summary->result;
-  OutlierOptions outlier_options;
-  outlier_options.threshold = config.outlier_threshold;
+  const OutlierOptions outlier_options = OutlierOptions::FromConfig(config);
   summary->outliers = FindOutliers(survey, result, outlier_options);
   summary->plausibility = CheckPlausibility(survey, result, config);
   summary->num_gross_outliers =
@@ -348,6 +346,11 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
     files.push_back({"real_by_heading.csv", RealByHeadingCsv(survey, result, *method)});
   }
   AddMatrixFiles(survey, result, matrix_nodes, &files);
+  for (const NodeResult& n : result.nodes) {  // spanning-tree: every aggregate's tree
+    if (n.tree.empty()) continue;
+    const std::string& code = survey.classification.nodes()[n.node].code;
+    files.push_back({"tree/" + NodeFileName(code) + ".csv", TreeCsv(survey, n)});
+  }
   files.push_back({"outliers.csv", OutliersCsv(survey, summary->outliers)});
   files.push_back({"dispersion.csv", DispersionCsv(survey, summary->outliers)});
   if (config.invalid_rows == InvalidRowPolicy::kSkip) {
@@ -357,6 +360,7 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
   if (config.report) {
     ReportInputs report;
     report.outliers = &report_outliers;
+    report.num_cells_not_screenable = summary->outliers.num_cells_not_screenable;
     report.config = &config;
     report.survey = &survey;
     report.load = &summary->load;
@@ -405,6 +409,11 @@ std::string ComputeJobSummary::FullReport() const {
            " quotes far from the fit (listed in outliers.csv); the worst: " + survey.heading_codes[worst.heading] +
            ", " + std::string(survey.regions.Code(worst.region)) + ", " + std::string(survey.items.Code(worst.item)) +
            " at " + FormatFixed(worst.observed / worst.predicted, 3) + " times the predicted price\n";
+  }
+  if (outliers.num_cells_not_screenable > 0) {
+    out += "not screened: " + FormatCount(outliers.num_cells_not_screenable) +
+           " cells no prediction can be formed for (listed in outliers.csv); nothing checked "
+           "them\n";
   }
   out += "\nParities are survey estimates: they carry sampling error, depend on how comparable the "
          "items priced are across regions and on the index formula. Official figures come from the "

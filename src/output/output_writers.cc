@@ -193,6 +193,21 @@ std::string AggregateBilateralCsv(const Survey& survey, const NodeResult& node,
       "from,to,laspeyres,paasche,fisher,tornqvist,spread,num_headings\n");
 }
 
+std::string TreeCsv(const Survey& survey, const NodeResult& node) {
+  std::string out = "from,to,spread_percent,fisher\n";
+  for (const TreeEdge& edge : node.tree) {
+    AppendCode(survey.regions.Code(edge.from), &out);
+    out += ',';
+    AppendCode(survey.regions.Code(edge.to), &out);
+    out += ',';
+    AppendShortest(100.0 * edge.spread, &out);
+    out += ',';
+    AppendShortest(edge.fisher, &out);
+    out += '\n';
+  }
+  return out;
+}
+
 std::string HeadingBilateralCsv(const Survey& survey, const NodeResult& node,
                                 const Eigen::MatrixXd& jevons, const Eigen::MatrixXi& num_items) {
   const std::vector<int> regions = RegionsWithParity(node);

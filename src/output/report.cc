@@ -61,13 +61,15 @@ Context MakeContext(const ReportInputs& inputs, const std::string& root_code) {
 }
 
 // Links to the sections the page holds.
-std::string Navigation(bool has_bilaterals, bool has_outliers, bool has_sensitivity) {
+std::string Navigation(bool has_bilaterals, bool has_tree, bool has_outliers,
+                       bool has_sensitivity) {
   std::string out =
       "<nav class=\"toc\" aria-label=\"sections\"><div class=\"wrap\"><a "
       "href=\"#overview\">Overview</a>"
       "<a href=\"#price-levels\">Price levels</a><a href=\"#aggregates\">By aggregate</a>"
       "<a href=\"#matrix\">Parity matrix</a><a href=\"#coverage\">Coverage</a>";
   if (has_bilaterals) out += "<a href=\"#spread\">Bilateral spread</a>";
+  if (has_tree) out += "<a href=\"#tree\">Spanning tree</a>";
   if (has_outliers) out += "<a href=\"#outliers\">Outliers</a>";
   if (has_sensitivity) out += "<a href=\"#sensitivity\">Sensitivity</a>";
   out +=
@@ -83,8 +85,8 @@ std::string Sections(const Context& ctx) {
   const bool has_bilaterals =
       !result.bilaterals.empty() &&
       result.bilaterals.front().laspeyres.rows() == ctx.survey.num_regions();
-  std::string out =
-      Navigation(has_bilaterals, ctx.in.outliers != nullptr, ctx.in.sensitivity != nullptr);
+  std::string out = Navigation(has_bilaterals, !ctx.root.tree.empty(), ctx.in.outliers != nullptr,
+                               ctx.in.sensitivity != nullptr);
   out += report::Overview(ctx);
   std::vector<RegionSpread> spreads;
   if (has_bilaterals) spreads = RegionSpreads(result.bilaterals.front());
@@ -95,6 +97,7 @@ std::string Sections(const Context& ctx) {
   }
   out += report::CoverageSection(ctx);
   if (has_bilaterals) out += report::SpreadSection(ctx, result.bilaterals.front());
+  if (!ctx.root.tree.empty()) out += report::TreeSection(ctx);
   if (ctx.in.outliers != nullptr) out += report::OutlierSection(ctx, *ctx.in.outliers);
   if (ctx.in.sensitivity != nullptr) out += report::SensitivitySection(ctx, *ctx.in.sensitivity);
   out += report::MethodsSection(ctx);

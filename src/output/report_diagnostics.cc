@@ -155,6 +155,13 @@ std::string OutlierSection(const Context& ctx, const std::vector<ReportOutlier>&
   std::string out = OpenSection("outliers", "Flagged outliers");
   const std::string threshold = ctx.in.config != nullptr ? Num(ctx.in.config->outlier_threshold, 1)
                                                          : std::string("the threshold");
+  if (ctx.in.num_cells_not_screenable > 0) {
+    out += "<p class=\"note\">" + FormatCount(ctx.in.num_cells_not_screenable) +
+           " cells could not be screened (no prediction can be formed for them: an item priced "
+           "only in that region, a heading priced in one region, or a region priced in no other "
+           "heading); nothing checked them. They "
+           "are listed in <code>outliers.csv</code>.</p>\n";
+  }
   if (outliers.empty()) {
     return out + "<p>No cell's standardised residual exceeds " + threshold +
            " in absolute value.</p></section>\n";

@@ -206,6 +206,8 @@ std::string CoverageSection(const Context& ctx);
 std::string SpreadSection(const Context& ctx, const BilateralMatrices& b);
 std::string OutlierSection(const Context& ctx, const std::vector<ReportOutlier>& outliers);
 std::string SensitivitySection(const Context& ctx, const ReportSensitivity& s);
+// report_tree.cc: the root's spanning tree (spanning-tree method only).
+std::string TreeSection(const Context& ctx);
 // report_methods.cc
 std::string MethodsSection(const Context& ctx);
 std::string CautionsSection();

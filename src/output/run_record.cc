@@ -43,6 +43,7 @@ Json ConfigJson(const RunConfig& config) {
               {"matrices", ValidTexts(config.matrices)},
               {"representative_weight", config.representative_weight},
               {"outlier_threshold", config.outlier_threshold},
+              {"outlier_fit", config.outlier_fit},
               {"robust_standard_errors", config.robust_standard_errors},
               {"report", config.report},
               {"threads", config.threads}};

@@ -2,6 +2,8 @@
 // an error with a suggestion rather than a silently ignored setting.
 #include "paritas/survey/config.h"
 
+#include "paritas/uncertainty/outliers.h"
+
 #include <yaml-cpp/yaml.h>
 
 #include <algorithm>
@@ -82,6 +84,7 @@ const std::vector<std::string> kTopKeys = {"survey",
                                            "matrices",
                                            "representative_weight",
                                            "outlier_threshold",
+                                           "outlier_fit",
                                            "robust_standard_errors",
                                            "report",
                                            "threads",
@@ -414,6 +417,16 @@ class ConfigParser {
     if (const YAML::Node node = root["outlier_threshold"]) {
       if (!Positive(node, "outlier_threshold", &config_->outlier_threshold, error)) return false;
     }
+    if (const YAML::Node node = root["outlier_fit"]) {
+      std::string text;
+      OutlierFit fit;
+      if (!Scalar(node, "outlier_fit", &text, error)) return false;
+      if (!FromString(text, &fit)) {
+        *error = Where(node) + NotOneOf("outlier_fit", text, {"robust", "least-squares"});
+        return false;
+      }
+      config_->outlier_fit = ToString(fit);
+    }
     if (const YAML::Node node = root["robust_standard_errors"]) {
       if (!Flag(node, "robust_standard_errors", &config_->robust_standard_errors, error)) {
         return false;
@@ -693,6 +706,10 @@ bool RunConfig::IsValid(std::string* error) const {
   }
   if (!(outlier_threshold > 0) || !std::isfinite(outlier_threshold)) {
     *error = "outlier_threshold must be a positive number";
+    return false;
+  }
+  if (OutlierFit fit; !FromString(outlier_fit, &fit)) {
+    *error = NotOneOf("outlier_fit", outlier_fit, {"robust", "least-squares"});
     return false;
   }
   if (threads < 0) {

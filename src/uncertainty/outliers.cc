@@ -462,6 +462,13 @@ ScreenContext MakeContext(const std::vector<ScreenFit>& fits, const Eigen::Matri
 
 }  // namespace
 
+OutlierOptions OutlierOptions::FromConfig(const RunConfig& config) {
+  OutlierOptions options;
+  options.threshold = config.outlier_threshold;
+  FromString(config.outlier_fit, &options.fit);
+  return options;
+}
+
 std::string ToString(OutlierFit fit) { return fit == OutlierFit::kRobust ? "robust" : "least-squares"; }
 
 bool FromString(const std::string& text, OutlierFit* fit) {

@@ -149,8 +149,7 @@ void ComputeFullSample(const RunConfig& config, const Survey& survey, FullSample
   ComputeOptions options = ComputeOptions::FromConfig(config);
   full->computed = ComputeParities(survey, options, &full->result, &full->summary);
   if (!full->computed) return;
-  OutlierOptions outlier_options;
-  outlier_options.threshold = config.outlier_threshold;
+  const OutlierOptions outlier_options = OutlierOptions::FromConfig(config);
   full->outliers = FindOutliers(survey, full->result, outlier_options);
   full->plausibility = CheckPlausibility(survey, full->result, config);
   full->num_gross_outliers =
@@ -196,6 +195,7 @@ void AddReport(const RunConfig& config, const SensitivityOptions& options,
   report.warnings = job.warnings;
   report.plausibility = &full_sample.plausibility;
   report.outliers = &outliers;
+  report.num_cells_not_screenable = full_sample.outliers.num_cells_not_screenable;
   report.sensitivity = &sensitivity;
   files->push_back({"report.html", ReportHtml(report)});
 }

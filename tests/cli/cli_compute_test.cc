@@ -5,6 +5,7 @@
 #include <map>
 #include <nlohmann/json.hpp>
 #include <regex>
+#include <set>
 
 #include "paritas/base/csv.h"
 #include "paritas/base/text.h"
@@ -112,6 +113,38 @@ TEST(ComputeCommand, BilateralTableHasEveryOrderedPairAndReversalHolds) {
     EXPECT_NEAR(value[2] * back[2], 1.0, 1e-5);
     EXPECT_NEAR(value[1] * back[0], 1.0, 1e-5);
   }
+}
+
+// The tree file reproduces the root's parities: chaining its Fisher links
+// from any region gives the parity ratios of parities.csv (Hill 1999: the
+// parities are the Fisher indices multiplied along the tree).
+TEST(ComputeCommand, SpanningTreeWritesATreeThatChainsToTheParities) {
+  const std::string dir = MakeTempDir("cli_tree");
+  std::string out, err;
+  ASSERT_EQ(
+      RunCli("compute " + Demo() + " --aggregation spanning-tree --output " + dir, &out, &err), 0)
+      << err;
+  std::map<std::string, double> root;
+  for (const auto& row : ReadRows(ReadTextFile(dir + "/parities.csv"))) {
+    if (row[0] == "all") root[row[2]] = std::stod(row[3]);
+  }
+  const auto rows = ReadRows(ReadTextFile(dir + "/tree/all.csv"));
+  ASSERT_EQ(rows[0], (std::vector<std::string>{"from", "to", "spread_percent", "fisher"}));
+  ASSERT_EQ(rows.size(), 1u + 15u);  // 16 regions, 15 edges
+  std::set<std::string> joined = {rows[1][0]};
+  for (size_t k = 1; k < rows.size(); ++k) {
+    EXPECT_TRUE(joined.count(rows[k][0])) << "edge " << k << " starts outside the tree";
+    EXPECT_TRUE(joined.insert(rows[k][1]).second) << rows[k][1] << " joined twice";
+    EXPECT_GE(std::stod(rows[k][2]), 0.0);
+    const double ratio = root[rows[k][1]] / root[rows[k][0]];
+    EXPECT_NEAR(std::stod(rows[k][3]), ratio, 1e-9 * ratio);
+  }
+  EXPECT_TRUE(fs::exists(dir + "/tree/food.csv"));
+  const std::string html = ReadTextFile(dir + "/report.html");
+  EXPECT_NE(html.find("<svg class=\"chart\" id=\"spanning-tree\""), std::string::npos);
+  EXPECT_NE(html.find("<table class=\"data sortable\" id=\"tree-table\">"), std::string::npos);
+  // Other methods write no tree.
+  EXPECT_FALSE(fs::exists(DemoOutput() + "/tree"));
 }
 
 // Spreads were in log units on the terminal and x100 in the report; both
@@ -249,8 +282,8 @@ TEST(ComputeCommand, SuggestsTheNameMeantForEveryNamedOption) {
        "--elementary 'Jevons_GEKS' is not one of: cpd, jevons-geks, robust-cpd; did you mean "
        "'jevons-geks'?"},
       {"--aggregation geks_fisher",
-       "--aggregation 'geks_fisher' is not one of: geks-fisher, geks-tornqvist, geary-khamis, "
-       "ikle-dikhanov-balk; did you mean 'geks-fisher'?"},
+       "--aggregation 'geks_fisher' is not one of: geks-fisher, geks-tornqvist, weighted-cpd, "
+       "spanning-tree, geary-khamis, ikle-dikhanov-balk; did you mean 'geks-fisher'?"},
       {"--invalid-rows Skipp",
        "--invalid-rows 'Skipp' is not one of: stop, skip; did you mean 'skip'?"},
   };

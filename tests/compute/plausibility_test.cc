@@ -329,3 +329,44 @@ TEST(DuplicateQuotes, RejectStopsUnderStopWithTheLines) {
 
 }  // namespace
 }  // namespace paritas
+
+namespace paritas {
+namespace {
+
+// The least-squares screen stays selectable, and the compute summary says
+// how many cells nothing checked.
+TEST(OutlierFitSetting, LeastSquaresIsSelectableAndUnscreenedCellsAreCounted) {
+  const std::string dir = testing::MakeTempDir("fit_setting");
+  // Item c is priced in north only: no other region predicts that cell.
+  testing::WriteTextFile(dir + "/prices.csv",
+                         "region,item,price,heading\n"
+                         "north,a,1.5,bread\nsouth,a,1.8,bread\neast,a,1.6,bread\n"
+                         "north,b,2.0,bread\nsouth,b,2.3,bread\neast,b,2.1,bread\n"
+                         "north,c,4.0,bread\n");
+  testing::WriteTextFile(dir + "/expenditure.csv",
+                         "region,heading,expenditure\nnorth,bread,1\nsouth,bread,1\neast,bread,1\n");
+  testing::WriteTextFile(dir + "/config.yaml",
+                         "survey:\n  prices: prices.csv\n  expenditure: expenditure.csv\n"
+                         "outlier_fit: least-squares\n");
+  std::string out, err;
+  ASSERT_EQ(RunCli("compute " + dir + "/config.yaml --no-report --output " + dir + "/out", &out,
+                   &err),
+            0)
+      << err;
+  EXPECT_NE(out.find("not screened: 1 cells no prediction can be formed for (listed in "
+                     "outliers.csv); nothing checked them\n"),
+            std::string::npos)
+      << out;
+  const nlohmann::json record = nlohmann::json::parse(ReadTextFile(dir + "/out/run.json"));
+  EXPECT_EQ(record["configuration"]["outlier_fit"], "least-squares");
+  testing::WriteTextFile(dir + "/config.yaml",
+                         "survey:\n  prices: prices.csv\n  expenditure: expenditure.csv\n"
+                         "outlier_fit: least_squares\n");
+  EXPECT_EQ(RunCli("check " + dir + "/config.yaml", &out, &err), 1);
+  EXPECT_EQ(err, "paritas: error: " + dir +
+                     "/config.yaml:4:14: outlier_fit 'least_squares' is not one of: robust, "
+                     "least-squares; did you mean 'least-squares'?\n");
+}
+
+}  // namespace
+}  // namespace paritas

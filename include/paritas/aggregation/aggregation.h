@@ -32,6 +32,36 @@ AggregateParities AggregateFromBilaterals(const NodeArrays& arrays,
 // core of the geks-* methods.
 AggregateParities GeksOverIndex(const Eigen::MatrixXd& index);
 
+// Returns each region's expenditure share of each heading, s_rh = e_rh /
+// sum_h' e_rh' over the headings the region has (finite parity > 0 and
+// expenditure > 0); NaN elsewhere. Rows of shares sum to 1.
+Eigen::MatrixXd OwnExpenditureShares(const NodeArrays& arrays);
+
+// Computes the weighted CPD of a node (Rao 2005; Diewert 2005): the weighted
+// least squares fit of ln p_rh = ln PPP_r + ln pi_h + e_rh over the cells
+// with a parity > 0, expenditure > 0 and a finite weight w_rh > 0
+// (`weight` is regions x headings). With w = OwnExpenditureShares the
+// solution is the Rao (2005) system
+//   ln PPP_r = sum_h s_rh (ln p_rh - ln pi_h),
+//   ln pi_h  = sum_r s_rh (ln p_rh - ln PPP_r) / sum_r s_rh;
+// for two regions with w_rh = (s_1h + s_2h) / 2 it gives the Törnqvist index
+// (Diewert 2005, Review of Income and Wealth 51(4)). ln parities have mean 0
+// over the regions with cells; regions not linked through common headings
+// give identified = false, the groups, and parities fitted within each group
+// (mean 0 in each).
+AggregateParities WeightedCpd(const NodeArrays& arrays, const Eigen::MatrixXd& weight);
+
+// Computes parities by chaining bilateral Fisher indices along the minimum
+// spanning tree of the Paasche-Laspeyres spread PLS(a, b) = |ln(L_ab /
+// P_ab)| (Hill 1999, Review of Economics and Statistics 81(1), the PLS
+// measure): ln PPP_b = ln PPP_a + ln F_ab along each edge a -> b. Reads
+// `laspeyres`, `paasche` and `fisher`; pairs whose spread is not finite are
+// not edges. Ties are broken by (smaller region index, larger region index).
+// The tree is returned in `tree`; ln parities have mean 0 over the regions
+// with a finite Fisher diagonal. Disconnected regions give identified =
+// false, the groups and a spanning tree per group (mean 0 in each).
+AggregateParities SpanningTree(const BilateralMatrices& bilaterals);
+
 // Returns real expenditure by heading, regions x the node's headings, for an
 // additive `method` given the node's normalised ln parities (ln(parity/100)):
 // pi_h * q_rh with q_rh = e_rh / p_rh at the method's international prices

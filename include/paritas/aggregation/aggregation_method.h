@@ -25,6 +25,16 @@ struct NodeArrays {
   Eigen::MatrixXd expenditure;
 };
 
+// One edge of a spanning tree: region `to` joined the tree through `from`.
+struct TreeEdge {
+  int from = -1;
+  int to = -1;
+  // Paasche-Laspeyres spread |ln(L/P)| of the pair (log points, >= 0).
+  double spread = 0.0;
+  // Bilateral Fisher index of `to` against `from` (ratio scale).
+  double fisher = 0.0;
+};
+
 struct AggregateParities {
   // ln parity of every region, mean 0 over the regions present; NaN where a
   // region has no heading with a parity and positive expenditure.
@@ -37,6 +47,10 @@ struct AggregateParities {
   bool complete = false;
   // RMS of the log distance between the bilaterals and the result (GEKS).
   double rms_log_residual = 0.0;
+  // spanning-tree only: the edges of the minimum spanning tree (a forest
+  // when not identified), each group's edges in the order regions joined;
+  // empty for other methods.
+  std::vector<TreeEdge> tree;
   // Why the method gave no parities although the regions are linked (e.g.
   // an iteration that did not converge); empty when it gave them. The
   // caller fails the node with this message rather than use log_parity.

@@ -65,6 +65,8 @@ struct NodeResult {
   std::string reference_used;
   // Aggregates: RMS log distance between bilaterals and GEKS parities.
   double rms_log_residual = 0.0;
+  // Aggregates under spanning-tree: the tree's edges (AggregateParities::tree).
+  std::vector<TreeEdge> tree;
 };
 
 struct ParityResult {

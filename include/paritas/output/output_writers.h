@@ -56,6 +56,12 @@ std::string ParityMatrixCsv(const Survey& survey, const NodeResult& node);
 std::string AggregateBilateralCsv(const Survey& survey, const NodeResult& node,
                                   const BilateralMatrices& bilaterals);
 
+// tree/<aggregate>.csv (spanning-tree only): one row per edge of the node's
+// minimum spanning tree, from,to,spread_percent,fisher, in the order regions
+// joined the tree; `to` joined through `from`, spread_percent = 100 |ln(L /
+// P)| of the pair and fisher = the Fisher index of `to` against `from`.
+std::string TreeCsv(const Survey& survey, const NodeResult& node);
+
 // bilateral/<heading>.csv: from,to,jevons,num_items.
 std::string HeadingBilateralCsv(const Survey& survey, const NodeResult& node,
                                 const Eigen::MatrixXd& jevons, const Eigen::MatrixXi& num_items);

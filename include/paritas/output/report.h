@@ -78,6 +78,8 @@ struct ReportInputs {
   // Flagged outliers; null = outliers were not looked for (section left
   // out), empty = none beyond the threshold.
   const std::vector<ReportOutlier>* outliers = nullptr;
+  // Cells the screen could form no prediction for (nothing checked them).
+  int64_t num_cells_not_screenable = 0;
   // Sensitivity of the root; null = not run (section and intervals left out).
   const ReportSensitivity* sensitivity = nullptr;
 };

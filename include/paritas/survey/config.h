@@ -144,6 +144,11 @@ struct RunConfig {
   // 2,000 cells, yet catches the gross errors (wrong unit, misplaced decimal)
   // seen in practice.
   double outlier_threshold = 3.5;
+  // Fit the outlier screen compares cells with: "robust" (default; Huber
+  // weights with the scale re-estimated as the fit iterates, so an error
+  // cannot hide by moving its own fit) or "least-squares" (the classic
+  // residuals, for comparison with earlier runs).
+  std::string outlier_fit = "robust";
   // Also computes heteroskedasticity-robust (HC0 sandwich) standard errors of
   // CPD parities, column log_se_robust (default false: costs about 10x the
   // fit at 1,000 regions).

@@ -11,6 +11,7 @@
 #include <vector>
 
 #include "paritas/compute/compute.h"
+#include "paritas/survey/config.h"
 #include "paritas/survey/survey.h"
 
 namespace paritas {
@@ -58,6 +59,8 @@ struct OutlierOptions {
   // Returns false and sets `error` when a field is out of range, e.g.
   // "outlier threshold must be a positive number".
   bool IsValid(std::string* error) const;
+  // The options a run configuration asks for (outlier_threshold, outlier_fit).
+  static OutlierOptions FromConfig(const RunConfig& config);
 };
 
 enum class OutlierKind { kCell, kLowestQuote, kHighestQuote };

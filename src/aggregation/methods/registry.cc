@@ -9,6 +9,8 @@ namespace paritas {
 namespace internal {
 const AggregationMethod& GeksFisherMethod();
 const AggregationMethod& GeksTornqvistMethod();
+const AggregationMethod& WeightedCpdAggregationMethod();
+const AggregationMethod& SpanningTreeAggregationMethod();
 const AggregationMethod& GearyKhamisMethod();
 const AggregationMethod& IkleDikhanovBalkMethod();
 }  // namespace internal
@@ -17,6 +19,8 @@ const std::vector<const AggregationMethod*>& AggregationMethods() {
   static const std::vector<const AggregationMethod*> methods = {
       &internal::GeksFisherMethod(),
       &internal::GeksTornqvistMethod(),
+      &internal::WeightedCpdAggregationMethod(),
+      &internal::SpanningTreeAggregationMethod(),
       &internal::GearyKhamisMethod(),
       &internal::IkleDikhanovBalkMethod(),
   };
