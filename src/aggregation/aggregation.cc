@@ -37,4 +37,22 @@ AggregateParities AggregateFromBilaterals(const NodeArrays& arrays,
   return out;
 }
 
+Eigen::MatrixXd RealByHeading(const NodeArrays& arrays, const Eigen::VectorXd& log_parity,
+                              const AggregationMethod& method) {
+  const Eigen::VectorXd pi = method.InternationalPrices(arrays, log_parity);
+  if (pi.size() == 0) return {};
+  const Eigen::Index num_regions = arrays.price.rows(), num_headings = arrays.price.cols();
+  Eigen::MatrixXd real = Eigen::MatrixXd::Constant(num_regions, num_headings, std::nan(""));
+  for (Eigen::Index r = 0; r < num_regions; ++r) {
+    if (!std::isfinite(log_parity(r))) continue;
+    for (Eigen::Index h = 0; h < num_headings; ++h) {
+      const double p = arrays.price(r, h), e = arrays.expenditure(r, h);
+      if (!std::isfinite(e)) continue;
+      const bool priced = std::isfinite(p) && p > 0 && e > 0 && std::isfinite(pi(h));
+      real(r, h) = priced ? pi(h) * (e / p) : e / std::exp(log_parity(r));
+    }
+  }
+  return real;
+}
+
 }  // namespace paritas

@@ -386,6 +386,10 @@ bool FinishNodes(const Survey& survey, const ComputeOptions& options,
       failures.push_back(unpriced);
       continue;
     }
+    if (!aggregate.failure.empty()) {
+      failures.push_back("aggregate '" + n.code + "' has no parities: " + aggregate.failure);
+      continue;
+    }
     if (!aggregate.identified) {
       failures.push_back(
           "aggregate '" + n.code + "' is not linked: its regions fall into " +

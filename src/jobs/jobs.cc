@@ -341,6 +341,10 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
   std::vector<OutputFile> files;
   files.push_back({"parities.csv", ParitiesCsv(survey, result, &summary->plausibility)});
   files.push_back({"warnings.csv", WarningsCsv(summary->warnings)});
+  if (const AggregationMethod* method = FindAggregationMethod(config.aggregation);
+      method != nullptr && method->Properties().additive) {
+    files.push_back({"real_by_heading.csv", RealByHeadingCsv(survey, result, *method)});
+  }
   AddMatrixFiles(survey, result, matrix_nodes, &files);
   for (const NodeResult& n : result.nodes) {  // spanning-tree: every aggregate's tree
     if (n.tree.empty()) continue;

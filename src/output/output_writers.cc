@@ -14,6 +14,7 @@
 #include <filesystem>
 #include <fstream>
 
+#include "paritas/aggregation/aggregation.h"
 #include "paritas/base/csv.h"
 #include "paritas/base/text.h"
 #include "base/sha256.h"
@@ -227,6 +228,46 @@ std::string HeadingBilateralCsv(const Survey& survey, const NodeResult& node,
         *out += '\n';
       },
       "from,to,jevons,num_items\n");
+}
+
+std::string RealByHeadingCsv(const Survey& survey, const ParityResult& result,
+                             const AggregationMethod& method) {
+  struct Row {
+    int node, region, heading;
+    double real;
+    bool priced;
+  };
+  std::vector<Row> rows;
+  const auto& tree = survey.classification.nodes();
+  for (const NodeResult& node : result.nodes) {
+    if (node.is_heading || node.parity.size() == 0) continue;
+    const NodeArrays arrays = NodeInputArrays(survey, result, node.node);
+    const Eigen::MatrixXd real =
+        RealByHeading(arrays, (node.parity.array() / 100.0).log().matrix(), method);
+    for (Eigen::Index r = 0; r < real.rows(); ++r) {
+      for (Eigen::Index k = 0; k < real.cols(); ++k) {
+        if (!std::isfinite(real(r, k))) continue;
+        const double p = arrays.price(r, k), e = arrays.expenditure(r, k);
+        rows.push_back({node.node, static_cast<int>(r), tree[node.node].headings[k], real(r, k),
+                        std::isfinite(p) && p > 0 && e > 0});
+      }
+    }
+  }
+  const std::vector<std::string> region_fields = RegionFields(survey);
+  return FormatRows(
+      static_cast<int64_t>(rows.size()), kRowsPerBlock, 64,
+      [&](int64_t row, std::string* out) {
+        const Row& x = rows[row];
+        AppendCode(tree[x.node].code, out);
+        *out += ',';
+        *out += region_fields[x.region];
+        *out += ',';
+        AppendCode(survey.heading_codes[x.heading], out);
+        *out += ',';
+        AppendShortest(x.real, out);
+        *out += x.priced ? ",international_price\n" : ",node_parity\n";
+      },
+      "node,region,heading,real_expenditure,valued_at\n");
 }
 
 std::vector<RegionSpread> RegionSpreads(const BilateralMatrices& bilaterals) {

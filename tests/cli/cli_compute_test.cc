@@ -283,7 +283,7 @@ TEST(ComputeCommand, SuggestsTheNameMeantForEveryNamedOption) {
        "'jevons-geks'?"},
       {"--aggregation geks_fisher",
        "--aggregation 'geks_fisher' is not one of: geks-fisher, geks-tornqvist, weighted-cpd, "
-       "spanning-tree; did you mean 'geks-fisher'?"},
+       "spanning-tree, geary-khamis, ikle-dikhanov-balk; did you mean 'geks-fisher'?"},
       {"--invalid-rows Skipp",
        "--invalid-rows 'Skipp' is not one of: stop, skip; did you mean 'skip'?"},
   };

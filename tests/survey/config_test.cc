@@ -126,7 +126,7 @@ TEST(RunConfig, ListsTheAllowedNamesForABadElementaryMethod) {
 TEST(RunConfig, ListsTheAllowedNamesForABadAggregationMethod) {
   EXPECT_EQ(ParseError(std::string(kSurvey) + "aggregation: fisher\n"),
             "/cfg/run.yaml:4:14: aggregation 'fisher' is not one of: geks-fisher, geks-tornqvist, "
-            "weighted-cpd, spanning-tree");
+            "weighted-cpd, spanning-tree, geary-khamis, ikle-dikhanov-balk");
 }
 
 TEST(RunConfig, ListsTheAllowedNamesForABadInvalidRowPolicy) {
@@ -154,7 +154,8 @@ TEST(RunConfig, SuggestsTheNameMeantForEveryNamedValue) {
             "robust-cpd; did you mean 'robust-cpd'?");
   EXPECT_EQ(ParseError(std::string(kSurvey) + "aggregation: GEKS_Tornqvist\n"),
             "/cfg/run.yaml:4:14: aggregation 'GEKS_Tornqvist' is not one of: geks-fisher, "
-            "geks-tornqvist, weighted-cpd, spanning-tree; did you mean 'geks-tornqvist'?");
+            "geks-tornqvist, weighted-cpd, spanning-tree, geary-khamis, ikle-dikhanov-balk; did you "
+            "mean 'geks-tornqvist'?");
   EXPECT_EQ(ParseError(std::string(kSurvey) + "invalid_rows: Skipp\n"),
             "/cfg/run.yaml:4:15: invalid_rows 'Skipp' is not one of: stop, skip; did you mean "
             "'skip'?");

@@ -397,14 +397,16 @@ TEST(MethodSpread, RunsEveryCombinationAndMeasuresLogMaxOverMin) {
   SensitivityResult result;
   SensitivitySummary summary;
   ASSERT_TRUE(RunSensitivity(survey, ComputeOptions(), OnlyParts(false, false, false, true), &result, &summary));
-  ASSERT_EQ(result.methods.size(), 12u);
+  ASSERT_EQ(result.methods.size(), 18u);
   EXPECT_EQ(result.methods[0].name, "cpd/geks-fisher");
   const std::string csv = MethodSpreadCsv(survey, result);
   EXPECT_EQ(csv.substr(0, csv.find('\n')),
             "node,region,cpd/geks-fisher,cpd/geks-tornqvist,cpd/weighted-cpd,cpd/spanning-tree,"
-            "jevons-geks/geks-fisher,jevons-geks/geks-tornqvist,jevons-geks/weighted-cpd,"
-            "jevons-geks/spanning-tree,robust-cpd/geks-fisher,robust-cpd/geks-tornqvist,"
-            "robust-cpd/weighted-cpd,robust-cpd/spanning-tree,spread");
+            "cpd/geary-khamis,cpd/ikle-dikhanov-balk,jevons-geks/geks-fisher,"
+            "jevons-geks/geks-tornqvist,jevons-geks/weighted-cpd,jevons-geks/spanning-tree,"
+            "jevons-geks/geary-khamis,jevons-geks/ikle-dikhanov-balk,robust-cpd/geks-fisher,"
+            "robust-cpd/geks-tornqvist,robust-cpd/weighted-cpd,robust-cpd/spanning-tree,"
+            "robust-cpd/geary-khamis,robust-cpd/ikle-dikhanov-balk,spread");
   for (int r = 0; r < survey.num_regions(); ++r) {
     PARITAS_EXPECT_CLOSE(result.methods[0].parity(0, r), result.parity(0, r), 1e-12);
     double lo = 1e300, hi = 0.0;

@@ -62,6 +62,18 @@ AggregateParities WeightedCpd(const NodeArrays& arrays, const Eigen::MatrixXd& w
 // false, the groups and a spanning tree per group (mean 0 in each).
 AggregateParities SpanningTree(const BilateralMatrices& bilaterals);
 
+// Returns real expenditure by heading, regions x the node's headings, for an
+// additive `method` given the node's normalised ln parities (ln(parity/100)):
+// pi_h * q_rh with q_rh = e_rh / p_rh at the method's international prices
+// where the region has a heading parity and positive expenditure, and
+// e_rh / PPP_r (the node's parity) where it spends on a heading without a
+// parity, so each row sums to the node's real expenditure E_r / PPP_r
+// (Geary 1958; Khamis 1972: real expenditures at international prices add
+// up over headings). NaN where the region has no parity or no expenditure
+// on the heading. Empty (0 x 0) when the method is not additive.
+Eigen::MatrixXd RealByHeading(const NodeArrays& arrays, const Eigen::VectorXd& log_parity,
+                              const AggregationMethod& method);
+
 }  // namespace paritas
 
 #endif  // PARITAS_AGGREGATION_AGGREGATION_H_

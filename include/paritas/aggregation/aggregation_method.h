@@ -51,6 +51,10 @@ struct AggregateParities {
   // when not identified), each group's edges in the order regions joined;
   // empty for other methods.
   std::vector<TreeEdge> tree;
+  // Why the method gave no parities although the regions are linked (e.g.
+  // an iteration that did not converge); empty when it gave them. The
+  // caller fails the node with this message rather than use log_parity.
+  std::string failure;
 };
 
 // What a method is and reads, for the report, messages and checks.
@@ -80,6 +84,15 @@ class AggregationMethod {
   // the diagnostics it has); num_headings is filled by the caller.
   virtual AggregateParities Aggregate(const NodeArrays& arrays,
                                       const BilateralMatrices& bilaterals) const = 0;
+  // Returns the international price of each of the node's headings implied
+  // by the node's ln parities `log_parity` (any normalisation; the prices
+  // scale inversely with the parities), for additive methods: real
+  // expenditure on heading h is then pi_h * e_rh / p_rh. NaN for a heading
+  // no region prices. Empty for methods that are not additive.
+  virtual Eigen::VectorXd InternationalPrices(const NodeArrays& /*arrays*/,
+                                              const Eigen::VectorXd& /*log_parity*/) const {
+    return {};
+  }
 };
 
 // Every aggregation method, in the order of --help and the method spread.

@@ -10,6 +10,7 @@
 
 #include <Eigen/Core>
 
+#include "paritas/aggregation/aggregation_method.h"
 #include "paritas/aggregation/bilateral_matrix.h"
 #include "paritas/compute/compute.h"
 #include "paritas/compute/plausibility.h"
@@ -64,6 +65,17 @@ std::string TreeCsv(const Survey& survey, const NodeResult& node);
 // bilateral/<heading>.csv: from,to,jevons,num_items.
 std::string HeadingBilateralCsv(const Survey& survey, const NodeResult& node,
                                 const Eigen::MatrixXd& jevons, const Eigen::MatrixXi& num_items);
+
+// real_by_heading.csv, written by the additive aggregation methods: one row
+// per aggregate x region with a parity x heading of the aggregate on which
+// the region spends. Columns: node, region, heading, real_expenditure,
+// valued_at. real_expenditure is pi_h e_rh / p_rh at the method's
+// international prices (valued_at = international_price) or, on a heading
+// the region spends on without a parity, e_rh / (parity / 100)
+// (valued_at = node_parity); a node's rows for a region sum to its
+// real_expenditure in parities.csv (RealByHeading in aggregation.h).
+std::string RealByHeadingCsv(const Survey& survey, const ParityResult& result,
+                             const AggregationMethod& method);
 
 // Paasche-Laspeyres spread statistics of one region against all others, as
 // |ln(Laspeyres / Paasche)| (shown x100 as "P-L spread, %" on the terminal

@@ -11,6 +11,8 @@ const AggregationMethod& GeksFisherMethod();
 const AggregationMethod& GeksTornqvistMethod();
 const AggregationMethod& WeightedCpdAggregationMethod();
 const AggregationMethod& SpanningTreeAggregationMethod();
+const AggregationMethod& GearyKhamisMethod();
+const AggregationMethod& IkleDikhanovBalkMethod();
 }  // namespace internal
 
 const std::vector<const AggregationMethod*>& AggregationMethods() {
@@ -19,6 +21,8 @@ const std::vector<const AggregationMethod*>& AggregationMethods() {
       &internal::GeksTornqvistMethod(),
       &internal::WeightedCpdAggregationMethod(),
       &internal::SpanningTreeAggregationMethod(),
+      &internal::GearyKhamisMethod(),
+      &internal::IkleDikhanovBalkMethod(),
   };
   return methods;
 }
