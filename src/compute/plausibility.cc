@@ -33,15 +33,15 @@ constexpr KindLabel kKinds[] = {
     {"sensitivity", "sensitivity"},
 };
 
+std::string Fixed(double value, int decimals) { return FormatFixed(value, decimals); }
+std::string Percent(double share) { return FormatFixed(100.0 * share, 1) + " %"; }
+
 int KindOrder(const std::string& kind) {
   for (size_t k = 0; k < std::size(kKinds); ++k) {
     if (kind == kKinds[k].kind) return static_cast<int>(k);
   }
   return static_cast<int>(std::size(kKinds));
 }
-
-std::string Fixed(double value, int decimals) { return FormatFixed(value, decimals); }
-std::string Percent(double share) { return FormatFixed(100.0 * share, 1) + " %"; }
 
 // Collects warnings and marks the node/region cells they concern.
 class Checker {

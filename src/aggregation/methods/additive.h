@@ -77,6 +77,22 @@ Eigen::VectorXd GearyKhamisDirectPrices(const AdditiveCells& cells,
 inline constexpr double kMinReciprocalCondition = 1e-10;
 bool GearyKhamisStart(const AdditiveCells& cells, Eigen::VectorXd* pi, std::string* failure);
 
+// What the additive methods share as aggregation methods: they are
+// additive and read no bilateral matrices.
+class AdditiveAggregationMethod : public AggregationMethod {
+ public:
+  AggregationProperties Properties() const override {
+    AggregationProperties properties;
+    properties.additive = true;
+    return properties;
+  }
+  BilateralOptions BilateralsNeeded() const override {
+    BilateralOptions none;
+    none.laspeyres_paasche = none.fisher = none.tornqvist = none.num_matched = false;
+    return none;
+  }
+};
+
 }  // namespace paritas::internal
 
 #endif  // PARITAS_INTERNAL_AGGREGATION_METHODS_ADDITIVE_H_

@@ -21,7 +21,7 @@ Eigen::VectorXd GearyKhamisPrices(const AdditiveCells& cells, const Eigen::Vecto
   return (quantity.array() > 0).select(deflated.cwiseQuotient(quantity), std::nan("")).matrix();
 }
 
-class GearyKhamis final : public AggregationMethod {
+class GearyKhamis final : public AdditiveAggregationMethod {
  public:
   std::string_view Name() const override { return "geary-khamis"; }
   std::string_view Description() const override {
@@ -29,16 +29,6 @@ class GearyKhamis final : public AggregationMethod {
   }
   std::string_view ReportTitle() const override { return "Geary\xE2\x80\x93Khamis"; }
   std::string_view ReportHtml() const override { return kGearyKhamisReportHtml; }
-  AggregationProperties Properties() const override {
-    AggregationProperties properties;
-    properties.additive = true;
-    return properties;
-  }
-  BilateralOptions BilateralsNeeded() const override {
-    BilateralOptions none;
-    none.laspeyres_paasche = none.fisher = none.tornqvist = none.num_matched = false;
-    return none;
-  }
   AggregateParities Aggregate(const NodeArrays& arrays, const BilateralMatrices&) const override {
     return SolveAdditive(arrays, {Name(), &GearyKhamisPrices, &GearyKhamisStart});
   }

@@ -126,7 +126,7 @@ bool NewtonStart(const AdditiveCells& cells, Eigen::VectorXd* pi, std::string*) 
   return true;
 }
 
-class IkleDikhanovBalk final : public AggregationMethod {
+class IkleDikhanovBalk final : public AdditiveAggregationMethod {
  public:
   std::string_view Name() const override { return "ikle-dikhanov-balk"; }
   std::string_view Description() const override {
@@ -138,16 +138,6 @@ class IkleDikhanovBalk final : public AggregationMethod {
            "Balk";
   }
   std::string_view ReportHtml() const override { return kIkleDikhanovBalkReportHtml; }
-  AggregationProperties Properties() const override {
-    AggregationProperties properties;
-    properties.additive = true;
-    return properties;
-  }
-  BilateralOptions BilateralsNeeded() const override {
-    BilateralOptions none;
-    none.laspeyres_paasche = none.fisher = none.tornqvist = none.num_matched = false;
-    return none;
-  }
   AggregateParities Aggregate(const NodeArrays& arrays, const BilateralMatrices&) const override {
     return SolveAdditive(arrays, {Name(), &IkleDikhanovBalkPrices, &NewtonStart});
   }
