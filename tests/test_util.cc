@@ -71,4 +71,13 @@ int RunCli(const std::string& arguments, std::string* out, std::string* err) {
   return WIFEXITED(status) ? WEXITSTATUS(status) : -1;
 }
 
+size_t CountOf(const std::string& text, const std::string& needle) {
+  size_t count = 0;
+  for (size_t at = text.find(needle); at != std::string::npos;
+       at = text.find(needle, at + needle.size())) {
+    ++count;
+  }
+  return count;
+}
+
 }  // namespace paritas::testing

@@ -29,6 +29,9 @@ std::string ReadTextFile(const std::string& path);
 // input; captures stdout and stderr. Returns the exit code.
 int RunCli(const std::string& arguments, std::string* out, std::string* err);
 
+// Non-overlapping occurrences of `needle` in `text` (needle not empty).
+size_t CountOf(const std::string& text, const std::string& needle);
+
 }  // namespace paritas::testing
 
 #endif  // PARITAS_TESTS_TEST_UTIL_H_

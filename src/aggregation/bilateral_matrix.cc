@@ -247,4 +247,54 @@ Eigen::MatrixXd AllPairsJevonsWeighted(const Eigen::MatrixXd& log_price,
   return jevons;
 }
 
+Eigen::MatrixXd AllPairsJevonsRepresentative(const Eigen::MatrixXd& log_price,
+                                             const Eigen::MatrixXd& present,
+                                             const Eigen::MatrixXd& representative,
+                                             const Eigen::VectorXd& item_weight,
+                                             Eigen::MatrixXi* num_matched) {
+  assert(log_price.rows() == present.rows() && log_price.cols() == present.cols());
+  assert(representative.rows() == present.rows() && representative.cols() == present.cols());
+  const Eigen::Index num_items = log_price.cols();
+  const Eigen::VectorXd weight =
+      item_weight.size() == 0 ? Eigen::VectorXd::Ones(num_items) : item_weight;
+  assert(weight.size() == num_items);
+  const Eigen::MatrixXd mask =
+      (present.array() != 0.0 && log_price.array().isFinite()).cast<double>().matrix() *
+      (weight.array() > 0.0).cast<double>().matrix().asDiagonal();
+  const Eigen::MatrixXd rep =
+      mask.cwiseProduct((representative.array() != 0.0).cast<double>().matrix());
+  Eigen::MatrixXd y = (mask.array() > 0.0).select(log_price, 0.0);
+  CentreColumns(mask, &y);
+  const Eigen::MatrixXd weighted_rep = rep * weight.asDiagonal();
+  // (a, b): sum_i w_i r_ai m_bi, and the sums of ln p_bi and ln p_ai over them.
+  const Eigen::MatrixXd count = weighted_rep * mask.transpose();
+  const Eigen::MatrixXd sum_b = weighted_rep * y.transpose();
+  const Eigen::MatrixXd sum_a = (weighted_rep.cwiseProduct(y)) * mask.transpose();
+  const Eigen::MatrixXd log_a = (sum_b - sum_a).cwiseQuotient(count);  // ln J^(a)
+  const Eigen::Index n = log_price.rows();
+  Eigen::MatrixXd jevons(n, n);
+  for (Eigen::Index b = 0; b < n; ++b) {
+    for (Eigen::Index a = 0; a < n; ++a) {
+      const bool has_a = count(a, b) > 0.0, has_b = count(b, a) > 0.0;
+      // ln J^(b)_ab is -ln J^(a)_ba: b's representative items, seen from b.
+      double value = kNaN;
+      if (has_a && has_b) {
+        value = std::exp(0.5 * (log_a(a, b) - log_a(b, a)));
+      } else if (has_a) {
+        value = std::exp(log_a(a, b));
+      } else if (has_b) {
+        value = std::exp(-log_a(b, a));
+      }
+      jevons(a, b) = value;
+    }
+  }
+  for (Eigen::Index a = 0; a < n; ++a) {
+    jevons(a, a) = mask.row(a).sum() > 0.0 ? 1.0 : kNaN;
+  }
+  if (num_matched != nullptr) {
+    *num_matched = (rep * mask.transpose()).array().round().cast<int>().matrix();
+  }
+  return jevons;
+}
+
 }  // namespace paritas

@@ -31,8 +31,11 @@ struct Overrides {
 int RunCheckCommand(const std::string& config_path, const Overrides& overrides);
 int RunComputeCommand(const std::string& config_path, const Overrides& overrides);
 int RunDeflateCommand(const DeflateOptions& options, const Overrides& overrides);
+// every_method: also the pair's transitive parity under every method of the
+// node's family (pair --every-method).
 int RunPairCommand(const std::string& config_path, const Overrides& overrides, const std::string& from,
-                   const std::string& to, const std::string& node, const std::string& csv_path);
+                   const std::string& to, const std::string& node, const std::string& csv_path,
+                   bool every_method);
 
 // Values of the `sensitivity` options as typed; the command parses and checks them.
 struct SensitivityArguments {

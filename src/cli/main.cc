@@ -48,7 +48,7 @@ void AddMethodOverrides(CLI::App* command, paritas::cli::Overrides* overrides) {
   command->add_option("--output", overrides->output,
                       "output folder (default: output of the configuration, else out beside it)");
   command->add_option("--reference", overrides->reference,
-                      "mean, weighted-mean, or a region code (default: reference of the "
+                      "mean, weighted-mean, country, or a region code (default: reference of the "
                       "configuration, else mean)");
   command->add_option("--elementary", overrides->elementary,
                       "elementary method: " + JoinNames(paritas::ElementaryMethodNames()) +
@@ -151,6 +151,7 @@ int main(int argc, char** argv) {
       HelpFooter("paritas deflate --parities out/demo --input data/demo/wages.csv --output "
                  "wages_real.csv --value-column hourly_wage"));
   std::string pair_from, pair_to, pair_node, pair_csv;
+  bool pair_every_method = false;
   CLI::App* pair = app.add_subcommand("pair", "compare two regions with every index formula");
   AddCommon(pair, &config_path, &overrides);
   pair->add_option("--from", pair_from, "base region (a)")->required();
@@ -158,6 +159,9 @@ int main(int argc, char** argv) {
   pair->add_option("--node", pair_node, "classification node (default: the root)");
   pair->add_option("--csv", pair_csv,
                    "also write the comparison as CSV (measure,value) (default: terminal only)");
+  pair->add_flag("--every-method", pair_every_method,
+                  "also the transitive parity under every aggregation method (at an aggregate) "
+                  "or elementary method (at a basic heading); one compute per method");
   pair->footer(HelpFooter("paritas pair config/demo.yaml --from cap --to har --node food"));
   paritas::cli::SensitivityArguments sensitivity_arguments;
   CLI::App* sensitivity =
@@ -204,7 +208,8 @@ int main(int argc, char** argv) {
     return paritas::cli::RunSensitivityCommand(config_path, overrides, sensitivity_arguments);
   }
   if (pair->parsed()) {
-    return paritas::cli::RunPairCommand(config_path, overrides, pair_from, pair_to, pair_node, pair_csv);
+    return paritas::cli::RunPairCommand(config_path, overrides, pair_from, pair_to, pair_node, pair_csv,
+                                        pair_every_method);
   }
   return paritas::kExitInvalidInput;
 }

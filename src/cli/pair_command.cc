@@ -16,7 +16,7 @@ namespace paritas::cli {
 
 int RunPairCommand(const std::string& config_path, const Overrides& overrides,
                    const std::string& from, const std::string& to, const std::string& node,
-                   const std::string& csv_path) {
+                   const std::string& csv_path, bool every_method) {
   RunConfig config;
   if (!LoadConfigWithOverrides(config_path, overrides, &config)) return kExitInvalidInput;
   std::string error;
@@ -54,6 +54,9 @@ int RunPairCommand(const std::string& config_path, const Overrides& overrides,
   if (!ComparePair(survey, result, from, to, node, &comparison, &error)) {
     PrintError(error);
     return kExitInvalidInput;
+  }
+  if (every_method) {
+    TransitiveUnderEveryMethod(survey, ComputeOptions::FromConfig(config), &comparison);
   }
   PrintOut(PairTable(comparison));
   if (!csv_path.empty()) {

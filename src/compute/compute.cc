@@ -82,7 +82,7 @@ bool ComputeOptions::IsValid(std::string* error) const {
     return false;
   }
   if (reference.kind == ReferenceKind::kRegion && reference.region.empty()) {
-    *error = "reference must be mean, weighted-mean or a region code";
+    *error = "reference must be mean, weighted-mean, country or a region code";
     return false;
   }
   if (num_threads < 0) {
@@ -111,6 +111,7 @@ std::string ComputeSummary::BriefReport() const {
 
 Eigen::VectorXd NodeExpenditure(const Survey& survey, int node) {
   Eigen::VectorXd total = Eigen::VectorXd::Constant(survey.num_regions(), std::nan(""));
+  if (survey.national_weights) return total;
   for (int h : survey.classification.nodes()[node].headings) {
     for (int r = 0; r < survey.num_regions(); ++r) {
       const double e = survey.expenditure(r, h);
@@ -142,7 +143,29 @@ NodeArrays NodeInputArrays(const Survey& survey, const ParityResult& result, int
     arrays.price.col(k) = result.headings[h].log_parity.array().exp();
     arrays.expenditure.col(k) = survey.expenditure.col(h);
   }
+  if (survey.national_weights) ValueNationalBasket(&arrays);
   return arrays;
+}
+
+void ValueNationalBasket(NodeArrays* arrays) {
+  for (Eigen::Index k = 0; k < arrays->price.cols(); ++k) {
+    double sum = 0.0;
+    int count = 0;
+    for (Eigen::Index r = 0; r < arrays->price.rows(); ++r) {
+      const double p = arrays->price(r, k);
+      if (std::isfinite(p) && p > 0) {
+        sum += std::log(p);
+        ++count;
+      }
+    }
+    const double mean_price = count > 0 ? std::exp(sum / count) : std::nan("");
+    for (Eigen::Index r = 0; r < arrays->price.rows(); ++r) {
+      const double p = arrays->price(r, k);
+      arrays->expenditure(r, k) = std::isfinite(p) && p > 0
+                                      ? arrays->expenditure(r, k) * p / mean_price
+                                      : std::nan("");
+    }
+  }
 }
 
 namespace {
@@ -154,6 +177,14 @@ bool CheckInputs(const Survey& survey, const ComputeOptions& options, ComputeSum
   if (!options.IsValid(&error)) {
     summary->outcome = ComputeOutcome::kInvalidOptions;
     summary->message = error;
+    return false;
+  }
+  if (survey.national_weights && (options.reference.kind == ReferenceKind::kWeightedMean ||
+                                  options.reference.kind == ReferenceKind::kCountry)) {
+    summary->outcome = ComputeOutcome::kInvalidOptions;
+    summary->message = "reference '" + options.reference.ToString() +
+                       "' weighs regions by their expenditure, but the expenditure file gives "
+                       "national weights (no region column); use mean or a region code";
     return false;
   }
   if (options.reference.kind == ReferenceKind::kRegion &&
@@ -168,7 +199,8 @@ bool CheckInputs(const Survey& survey, const ComputeOptions& options, ComputeSum
 }
 
 // The weights heading `h` is normalised with: those the node stage uses, so
-// CPD standard errors are relative to the final reference. Empty for the
+// CPD standard errors are relative to the final reference (for the country
+// reference, to the expenditure-weighted mean). Empty for the
 // plain mean, or when the reference region has no cell or no region has
 // positive expenditure in the heading.
 std::vector<double> HeadingReferenceWeights(const Survey& survey, const Reference& reference,
@@ -189,7 +221,11 @@ std::vector<double> HeadingReferenceWeights(const Survey& survey, const Referenc
     } else {
       weights.clear();
     }
-  } else if (reference.kind == ReferenceKind::kWeightedMean) {
+  } else if (reference.kind == ReferenceKind::kWeightedMean ||
+             reference.kind == ReferenceKind::kCountry) {
+    // The country reference's shift depends on the parities; nominal shares
+    // are its first-order weights before they are known (the standard errors
+    // are relative to this expenditure-weighted mean).
     weights.assign(num_regions, 0.0);
     double total = 0.0;
     for (int r = 0; r < num_regions; ++r) {
@@ -321,15 +357,13 @@ void FillAggregateNode(const ClassificationNode& n, const AggregateParities& agg
 void NormaliseAndFinish(const Survey& survey, const ComputeOptions& options,
                         const std::string& code, Eigen::VectorXd log_parity, NodeResult* node,
                         ComputeSummary* summary) {
-  std::vector<double> weights;
   node->reference_used =
-      ReferenceWeights(options.reference, survey.regions.Find(options.reference.region), log_parity,
-                       node->expenditure, &weights);
+      NormaliseToReference(options.reference, survey.regions.Find(options.reference.region),
+                           node->expenditure, &log_parity);
   if (node->reference_used.rfind("mean (", 0) == 0 &&
       options.reference.kind != ReferenceKind::kMean && log_parity.array().isFinite().any()) {
     summary->warnings.push_back("node '" + code + "': normalised to the " + node->reference_used);
   }
-  NormaliseLogParities(weights, &log_parity);
   FinishNode(survey, log_parity, node);
 }
 

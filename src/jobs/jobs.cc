@@ -10,6 +10,7 @@
 #include <filesystem>
 
 #include "paritas/aggregation/bilateral_matrix.h"
+#include "paritas/aggregation/normalisation.h"
 #include "paritas/elementary/elementary.h"
 #include "paritas/output/output_writers.h"
 #include "paritas/output/report.h"
@@ -345,6 +346,10 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
       method != nullptr && method->Properties().additive) {
     files.push_back({"real_by_heading.csv", RealByHeadingCsv(survey, result, *method)});
   }
+  if (const ElementaryMethod* method = FindElementaryMethod(config.elementary);
+      method != nullptr && method->Properties().gives_representativity_effect) {
+    files.push_back({"representativity.csv", RepresentativityCsv(survey, result)});
+  }
   AddMatrixFiles(survey, result, matrix_nodes, &files);
   for (const NodeResult& n : result.nodes) {  // spanning-tree: every aggregate's tree
     if (n.tree.empty()) continue;
@@ -392,14 +397,22 @@ std::string ComputeJobSummary::FullReport() const {
          (warnings.size() == 1 ? " warning" : " warnings") +
          (warnings.empty() ? "" : " (listed at the end, on standard error, and in warnings.csv)") +
          "\n";
+  if (survey.national_weights) {
+    out +=
+        "weights: national (the expenditure file has no region column): every region is "
+        "compared on the national basket, valued at its own heading parities; regional "
+        "nominal and real expenditure are not computed\n";
+  }
   if (result.nodes.empty()) return out;
   const std::string& root = survey.classification.nodes().front().code;
-  out += "\nparities for '" + root + "' (" + result.nodes.front().reference_used + " = 100), dearest first:\n";
+  out += "\nparities for '" + root + "' (" + result.nodes.front().reference_used +
+         " = 100), dearest first:\n";
   out += RootTable(survey, result, RegionSpreads(result.bilaterals.front()));
   out +=
       "(P-L spread, %: 100 x |ln(Laspeyres / Paasche)|, the largest of the region against any "
       "other, with that partner; large spreads mean the price and spending patterns differ and "
-      "the choice of formula matters.)\n";
+      "the choice of formula matters.)\n(" +
+      ReferenceConvention(result.nodes.front().reference_used) + ".)\n";
   if (!outliers.outliers.empty()) {
     int64_t cells = 0;
     for (const Outlier& o : outliers.outliers) cells += o.kind == OutlierKind::kCell ? 1 : 0;

@@ -270,6 +270,24 @@ std::string RealByHeadingCsv(const Survey& survey, const ParityResult& result,
       "node,region,heading,real_expenditure,valued_at\n");
 }
 
+std::string RepresentativityCsv(const Survey& survey, const ParityResult& result) {
+  std::string out = "heading,effect,log_se,num_cells,num_cells_representative\n";
+  for (const HeadingParities& h : result.headings) {
+    if (h.num_cells == 0 || !h.identified) continue;
+    AppendCode(survey.heading_codes[h.heading], &out);
+    out += ',';
+    if (std::isfinite(h.representativity_effect)) AppendShortest(h.representativity_effect, &out);
+    out += ',';
+    if (std::isfinite(h.representativity_se)) AppendShortest(h.representativity_se, &out);
+    out += ',';
+    AppendInt(h.num_cells, &out);
+    out += ',';
+    AppendInt(h.num_cells_representative, &out);
+    out += '\n';
+  }
+  return out;
+}
+
 std::vector<RegionSpread> RegionSpreads(const BilateralMatrices& bilaterals) {
   const int n = static_cast<int>(bilaterals.laspeyres.rows());
   const Eigen::MatrixXd spread =

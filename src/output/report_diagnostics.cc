@@ -306,27 +306,71 @@ std::vector<MethodRow> MethodRows(const Context& ctx, const std::vector<size_t>&
   return rows;
 }
 
-// The mark of method k: shapes, not colours, tell the methods apart.
-std::string MethodMarker(size_t k, double cx, double cy) {
-  switch (k % 4) {
+// The mark of a method: its shape tells the elementary method, its colour
+// the aggregation method, so each combination has a mark of its own for up
+// to 8 x 8 methods (shapes 8-15 repeat 0-7 open). Colours: the Okabe-Ito
+// palette without its yellow, which is faint on white, and a brown (Okabe
+// and Ito 2008, "Color Universal Design").
+std::string MethodMarker(size_t shape, size_t colour, double cx, double cy) {
+  const size_t k = shape;
+  const std::string cls =
+      "marker m" + std::to_string(colour % 8) + (shape % 16 >= 8 ? " open" : "");
+  const std::string head = "<path class=\"" + cls + "\" d=\"M";
+  auto p = [&](double dx, double dy) { return C(cx + dx) + " " + C(cy + dy); };
+  switch (k % 8) {
     case 0:
-      return "<circle class=\"marker\" cx=\"" + C(cx) + "\" cy=\"" + C(cy) + "\" r=\"4\"/>";
-    case 1:
-      return "<rect class=\"marker\" x=\"" + C(cx - 3.5) + "\" y=\"" + C(cy - 3.5) +
-             "\" width=\"7\" height=\"7\"/>";
-    case 2:
-      return "<path class=\"marker\" d=\"M" + C(cx) + " " + C(cy - 5) + "L" + C(cx + 4.5) + " " +
-             C(cy + 3.5) + "H" + C(cx - 4.5) + "Z\"/>";
-    default:
-      return "<path class=\"marker open\" d=\"M" + C(cx) + " " + C(cy - 5) + "L" + C(cx + 5) + " " +
-             C(cy) + "L" + C(cx) + " " + C(cy + 5) + "L" + C(cx - 5) + " " + C(cy) + "Z\"/>";
+      return "<circle class=\"" + cls + "\" cx=\"" + C(cx) + "\" cy=\"" + C(cy) + "\" r=\"4\"/>";
+    case 1:  // square
+      return head + p(-3.5, -3.5) + "H" + C(cx + 3.5) + "V" + C(cy + 3.5) + "H" + C(cx - 3.5) + "Z\"/>";
+    case 2:  // triangle, point up
+      return head + p(0, -5) + "L" + p(4.5, 3.5) + "H" + C(cx - 4.5) + "Z\"/>";
+    case 3:  // diamond
+      return head + p(0, -5) + "L" + p(5, 0) + "L" + p(0, 5) + "L" + p(-5, 0) + "Z\"/>";
+    case 4:  // triangle, point down
+      return head + p(0, 5) + "L" + p(4.5, -3.5) + "H" + C(cx - 4.5) + "Z\"/>";
+    case 5:  // plus
+      return head + p(-1.6, -5) + "H" + C(cx + 1.6) + "V" + C(cy - 1.6) + "H" + C(cx + 5) + "V" +
+             C(cy + 1.6) + "H" + C(cx + 1.6) + "V" + C(cy + 5) + "H" + C(cx - 1.6) + "V" +
+             C(cy + 1.6) + "H" + C(cx - 5) + "V" + C(cy - 1.6) + "H" + C(cx - 1.6) + "Z\"/>";
+    case 6:  // triangle, point right
+      return head + p(5, 0) + "L" + p(-3.5, 4.5) + "V" + C(cy - 4.5) + "Z\"/>";
+    default:  // triangle, point left
+      return head + p(-5, 0) + "L" + p(3.5, 4.5) + "V" + C(cy - 4.5) + "Z\"/>";
   }
+}
+
+// The elementary (shape) and aggregation (colour) index of each method,
+// from its name "elementary/aggregation", numbered in order of appearance;
+// the names of each, for the legend.
+struct MethodKeys {
+  std::vector<size_t> shape, colour;
+  std::vector<std::string> shape_names, colour_names;
+};
+
+MethodKeys KeysOf(const ReportSensitivity& s, const std::vector<size_t>& methods) {
+  MethodKeys keys;
+  auto index = [](std::vector<std::string>* names, const std::string& name) {
+    const auto it = std::find(names->begin(), names->end(), name);
+    if (it != names->end()) return static_cast<size_t>(it - names->begin());
+    names->push_back(name);
+    return names->size() - 1;
+  };
+  for (size_t m : methods) {
+    const std::string& name = s.method_names[m];
+    const size_t slash = name.find('/');
+    const std::string elementary = slash == std::string::npos ? name : name.substr(0, slash);
+    const std::string aggregation = slash == std::string::npos ? name : name.substr(slash + 1);
+    keys.shape.push_back(index(&keys.shape_names, elementary));
+    keys.colour.push_back(index(&keys.colour_names, aggregation));
+  }
+  return keys;
 }
 
 // The chart: one row per region with the range of the methods and a mark
 // for each.
 std::string MethodSpreadSvg(const Context& ctx, const std::vector<size_t>& methods,
-                            const MethodDiffs& diff, const std::vector<MethodRow>& rows) {
+                            const MethodKeys& keys, const MethodDiffs& diff,
+                            const std::vector<MethodRow>& rows) {
   double extent = 0.5;
   for (const MethodRow& row : rows) extent = std::max({extent, -row.lo, row.hi});
   const double hi = extent * 1.1, lo = -hi;
@@ -359,7 +403,7 @@ std::string MethodSpreadSvg(const Context& ctx, const std::vector<size_t>& metho
            C(cy) + "\" y2=\"" + C(cy) + "\"/>";
     for (size_t k = 0; k < methods.size(); ++k) {
       const double v = diff(methods[k], row.region);
-      if (std::isfinite(v)) out += MethodMarker(k, x(v), cy);
+      if (std::isfinite(v)) out += MethodMarker(keys.shape[k], keys.colour[k], x(v), cy);
     }
     out += "<text class=\"value\" x=\"" + C(x1 + 10) + "\" y=\"" + C(cy + 4) + "\">" +
            Num(row.hi - row.lo, 2) + "</text>";
@@ -385,13 +429,20 @@ std::string MethodSpreadChart(const Context& ctx, const ReportSensitivity& s) {
   const MethodDiffs diff{ctx, s};
   bool cut = false;
   const std::vector<MethodRow> rows = MethodRows(ctx, methods, diff, &cut);
-  std::string out = MethodSpreadSvg(ctx, methods, diff, rows);
+  const MethodKeys keys = KeysOf(s, methods);
+  std::string out = MethodSpreadSvg(ctx, methods, keys, diff, rows);
   out +=
       "<div class=\"legend-row\"><span class=\"key\"><svg width=\"14\" height=\"16\"><line "
       "class=\"main-mark\" x1=\"7\" x2=\"7\" y1=\"1\" y2=\"15\"/></svg> main result (0)</span>";
-  for (size_t k = 0; k < methods.size(); ++k) {
-    out += "<span class=\"key\"><svg width=\"14\" height=\"14\">" + MethodMarker(k, 7, 7) +
-           "</svg> " + HtmlEscape(s.method_names[methods[k]]) + "</span>";
+  out += "<span class=\"key\">shape: elementary method</span>";
+  for (size_t k = 0; k < keys.shape_names.size(); ++k) {
+    out += "<span class=\"key\"><svg width=\"14\" height=\"14\">" +
+           MethodMarker(k, 6, 7, 7) + "</svg> " + HtmlEscape(keys.shape_names[k]) + "</span>";
+  }
+  out += "</div>\n<div class=\"legend-row\"><span class=\"key\">colour: aggregation method</span>";
+  for (size_t k = 0; k < keys.colour_names.size(); ++k) {
+    out += "<span class=\"key\"><svg width=\"14\" height=\"14\">" +
+           MethodMarker(0, k, 7, 7) + "</svg> " + HtmlEscape(keys.colour_names[k]) + "</span>";
   }
   out += "</div>\n";
   if (cut) {

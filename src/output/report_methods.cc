@@ -1,13 +1,39 @@
 // The methods with their published sources, and the cautions every reader
 // of regional price levels should see.
+#include <cmath>
 #include <string>
 
 #include "output/report_parts.h"
+#include "paritas/base/text.h"
 #include "paritas/aggregation/aggregation_method.h"
 #include "paritas/elementary/elementary_method.h"
 #include "paritas/survey/config.h"
 
 namespace paritas::internal::report {
+
+// cprd: the representativity effect of every heading, as a premium in %.
+std::string RepresentativityTable(const Context& ctx) {
+  std::string rows;
+  for (const HeadingParities& h : ctx.result.headings) {
+    if (h.num_cells == 0 || !h.identified) continue;
+    const bool has = std::isfinite(h.representativity_effect);
+    rows += "<tr><td>" + HtmlEscape(ctx.survey.heading_codes[h.heading]) + "</td><td class=\"num\">" +
+            (has ? Num(100.0 * std::expm1(h.representativity_effect), 1) : "\xE2\x80\x94") +
+            "</td><td class=\"num\">" +
+            (std::isfinite(h.representativity_se) ? Num(100.0 * h.representativity_se, 1)
+                                                  : "\xE2\x80\x94") +
+            "</td><td class=\"num\">" + FormatCount(h.num_cells_representative) + " of " +
+            FormatCount(h.num_cells) + "</td></tr>";
+  }
+  if (rows.empty()) return "";
+  return "<dd>Representativity effect by heading: how much dearer (+) or cheaper (\xE2\x88\x92) an item "
+         "flagged representative is than an unflagged one in the same region, in %; \xE2\x80\x94 where "
+         "the flags do not identify it (none, or the same for every region of each item). Also in "
+         "<code>representativity.csv</code>.<div class=\"table-scroll tall\"><table class=\"data\">"
+         "<thead><tr><th>Heading</th><th>Effect, %</th><th>Standard error, log points \xC3\x97 100"
+         "</th><th>Cells flagged</th></tr></thead><tbody>" +
+         rows + "</tbody></table></div></dd>";
+}
 
 std::string MethodsSection(const Context& ctx) {
   std::string out = OpenSection("methods", "Methods and sources");
@@ -21,6 +47,7 @@ std::string MethodsSection(const Context& ctx) {
   if (elementary != nullptr) {
     out += "<dt>Basic headings: " + std::string(elementary->ReportTitle()) + " (in use)</dt><dd>" +
            std::string(elementary->ReportHtml()) + "</dd>";
+    if (elementary->Properties().gives_representativity_effect) out += RepresentativityTable(ctx);
   }
   if (aggregation != nullptr) {
     out += "<dt>Aggregates: " + std::string(aggregation->ReportTitle()) + " (in use)</dt><dd>" +

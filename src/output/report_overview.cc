@@ -5,6 +5,7 @@
 #include <vector>
 
 #include "output/report_parts.h"
+#include "paritas/aggregation/normalisation.h"
 #include "paritas/base/text.h"
 
 namespace paritas::internal::report {
@@ -60,16 +61,24 @@ std::string Facts(const Context& ctx) {
     fact("Reference", HtmlEscape(c.reference.ToString()) + " = 100" +
                           (ctx.root.reference_used != c.reference.ToString()
                                ? " (used: " + HtmlEscape(ctx.root.reference_used) + ")"
-                               : std::string()));
+                               : std::string()) +
+                          "<br><small>" +
+                          HtmlEscape(ReferenceConvention(ctx.root.reference_used)) +
+                          "</small>");
     if (c.representative_weight != 1.0) {
       fact("Representative items", "weight " + Num(c.representative_weight, 2) + " in CPD");
     }
+    fact("Expenditure weights",
+         ctx.survey.national_weights
+             ? "national: one basket for every region, valued at each region's heading parities "
+               "(regional nominal and real expenditure are not computed)"
+             : "regional: each region's own spending");
     fact("Invalid rows", HtmlEscape(ToString(c.invalid_rows)));
     if (!c.config_path.empty()) {
       fact("Configuration", "<code>" + HtmlEscape(c.config_path) + "</code>");
     }
   } else {
-    fact("Reference", HtmlEscape(ctx.root.reference_used) + " = 100");
+    fact("Reference", HtmlEscape(ReferenceConvention(ctx.root.reference_used)));
   }
   if (ctx.in.compute != nullptr) {
     fact("Headings with parities", FormatCount(ctx.in.compute->num_headings_used) + " of " +

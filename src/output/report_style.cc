@@ -71,7 +71,14 @@ svg .dot{fill:#14406b}
 svg .range{stroke:#9aa5ae;stroke-width:3;stroke-linecap:round}
 svg .main-mark{stroke:#1d2329;stroke-width:2}
 svg .marker{fill:#14406b;stroke:#fff;stroke-width:.8}
-svg .marker.open{fill:#fff;stroke:#14406b;stroke-width:1.5}
+svg .marker.m0{fill:#0072b2}svg .marker.m1{fill:#d55e00}svg .marker.m2{fill:#009e73}
+svg .marker.m3{fill:#cc79a7}svg .marker.m4{fill:#e69f00}svg .marker.m5{fill:#56b4e9}
+svg .marker.m6{fill:#1d2329}svg .marker.m7{fill:#8c564b}
+svg .marker.open{fill:#fff;stroke-width:1.5}
+svg .marker.open.m0{stroke:#0072b2}svg .marker.open.m1{stroke:#d55e00}
+svg .marker.open.m2{stroke:#009e73}svg .marker.open.m3{stroke:#cc79a7}
+svg .marker.open.m4{stroke:#e69f00}svg .marker.open.m5{stroke:#56b4e9}
+svg .marker.open.m6{stroke:#1d2329}svg .marker.open.m7{stroke:#8c564b}
 svg.grid-chart{width:100%}
 .legend-row{display:flex;flex-wrap:wrap;align-items:center;gap:6px 22px;margin:4px 0 6px;font-size:.85rem;color:var(--muted)}
 .legend-row .key{display:inline-flex;align-items:center;gap:6px}

@@ -115,7 +115,8 @@ std::string RunRecordJson(const RunRecord& record) {
                      {"num_headings", s.num_headings()},
                      {"num_nodes", s.classification.nodes().size()},
                      {"num_quotes", s.num_quotes},
-                     {"num_cells", s.cells.size()}};
+                     {"num_cells", s.cells.size()},
+                     {"weights", s.national_weights ? "national" : "regional"}};
   }
   if (record.config != nullptr) {
     out["methods"] = {{"cell_price", "geometric mean of the quotes"},

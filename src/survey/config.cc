@@ -573,6 +573,8 @@ std::string Reference::ToString() const {
       return "mean";
     case ReferenceKind::kWeightedMean:
       return "weighted-mean";
+    case ReferenceKind::kCountry:
+      return "country";
     case ReferenceKind::kRegion:
       return region;
   }
@@ -586,6 +588,8 @@ Reference Reference::FromString(const std::string& text) {
     reference.kind = ReferenceKind::kMean;
   } else if (lower == "weighted-mean") {
     reference.kind = ReferenceKind::kWeightedMean;
+  } else if (lower == "country") {
+    reference.kind = ReferenceKind::kCountry;
   } else {
     reference.kind = ReferenceKind::kRegion;
     reference.region = std::string(Trim(text));
@@ -596,11 +600,11 @@ Reference Reference::FromString(const std::string& text) {
 bool ParseReference(std::string_view what, const std::string& text, Reference* reference,
                     std::string* error) {
   if (Trim(text).empty()) {
-    *error = std::string(what) + " must be mean, weighted-mean or a region code";
+    *error = std::string(what) + " must be mean, weighted-mean, country or a region code";
     return false;
   }
   const Reference parsed = Reference::FromString(text);
-  const std::vector<std::string> names = {"mean", "weighted-mean"};
+  const std::vector<std::string> names = {"mean", "weighted-mean", "country"};
   const std::string key = NameKey(text);
   for (const std::string& name : names) {
     if (parsed.kind == ReferenceKind::kRegion && key == name) {
@@ -689,7 +693,7 @@ bool RunConfig::IsValid(std::string* error) const {
     return false;
   }
   if (reference.kind == ReferenceKind::kRegion && reference.region.empty()) {
-    *error = "reference must be mean, weighted-mean or a region code";
+    *error = "reference must be mean, weighted-mean, country or a region code";
     return false;
   }
   if (FindElementaryMethod(elementary) == nullptr) {

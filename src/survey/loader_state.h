@@ -118,6 +118,9 @@ struct LoadState {
     double value;
   };
   std::vector<Spending> spending;
+  // expenditure.csv has no region column: its rows are the national
+  // basket (Spending::region is -1).
+  bool national_weights = false;
   // Regions and items rejected in regions.csv and items.csv (never
   // accepted), with the rows of other files left out because of them; code
   // -> index in rejected_codes.

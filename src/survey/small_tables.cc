@@ -335,10 +335,14 @@ bool ReadExpenditure(const std::string& path, LoadState* state, Rejections* reje
   std::unordered_map<uint64_t, int64_t> first_line;
   auto handle = [&](const CsvRecord& record, const Columns& columns) -> RowVerdict {
     const int kRegion = columns.index[0], kHeading = columns.index[1], kValue = columns.index[2];
-    const std::string_view region = Trim(record.fields[kRegion]);
+    // Without a region column the rows are one national basket.
+    state->national_weights = kRegion < 0;
+    const std::string_view region = kRegion < 0 ? std::string_view() : Trim(record.fields[kRegion]);
     const std::string_view heading = Trim(record.fields[kHeading]);
     const std::string_view value_text = record.fields[kValue];
-    if (std::string problem = CheckCode(region, "region"); !problem.empty()) {
+    if (kRegion < 0) {
+      // Column numbers of the national file's messages are those of its own header.
+    } else if (std::string problem = CheckCode(region, "region"); !problem.empty()) {
       return {kRegion + 1, problem};
     }
     if (state->regions_fixed && state->regions.Find(region) < 0) {
@@ -367,11 +371,15 @@ bool ReadExpenditure(const std::string& path, LoadState* state, Rejections* reje
     if (value < 0) {
       return {kValue + 1, "expenditure " + QuoteValue(value_text) + " is negative"};
     }
-    const int region_index = state->regions.Intern(region);
+    const int region_index = kRegion < 0 ? -1 : state->regions.Intern(region);
     const int heading_index = state->headings.Intern(heading);
-    const uint64_t key =
-        (static_cast<uint64_t>(region_index) << 32) | static_cast<uint32_t>(heading_index);
+    const uint64_t key = (static_cast<uint64_t>(static_cast<uint32_t>(region_index)) << 32) |
+                         static_cast<uint32_t>(heading_index);
     auto [it, inserted] = first_line.emplace(key, record.line);
+    if (!inserted && kRegion < 0) {
+      return {kHeading + 1, "duplicate row for heading " + QuoteValue(heading) +
+                                " (first at line " + std::to_string(it->second) + ")"};
+    }
     if (!inserted) {
       return {kRegion + 1, "duplicate row for region " + QuoteValue(region) + " and heading " +
                                QuoteValue(heading) + " (first at line " +
@@ -381,9 +389,19 @@ bool ReadExpenditure(const std::string& path, LoadState* state, Rejections* reje
     return {};
   };
   if (!ReadSmallTable(path, state->config->limits, state->config->survey.expenditure_format,
-                      {"region", "heading", "expenditure"}, {true, true, true}, rejections, file,
-                      handle, nullptr, error))
+                      {"region", "heading", "expenditure"}, {false, true, true}, rejections, file,
+                      handle, nullptr, error)) {
+    // The region column is optional only to allow national weights: say both forms.
+    const std::string only_required = "columns heading, expenditure)";
+    if (error->size() >= only_required.size() &&
+        error->compare(error->size() - only_required.size(), only_required.size(),
+                       only_required) == 0) {
+      error->replace(error->size() - only_required.size(), only_required.size(),
+                     "columns region, heading, expenditure; or heading, expenditure for national "
+                     "weights)");
+    }
     return false;
+  }
   return true;
 }
 

@@ -124,8 +124,13 @@ void BuildSurvey(LoadState* state, int num_threads, Survey* survey) {
   BuildCells(region_new, item_new, num_threads, state, survey);
   survey->expenditure =
       Eigen::MatrixXd::Constant(survey->num_regions(), survey->num_headings(), std::nan(""));
+  survey->national_weights = state->national_weights;
   for (const auto& s : state->spending) {
-    survey->expenditure(region_new[s.region], heading_new[s.heading]) = s.value;
+    if (s.region < 0) {
+      survey->expenditure.col(heading_new[s.heading]).setConstant(s.value);
+    } else {
+      survey->expenditure(region_new[s.region], heading_new[s.heading]) = s.value;
+    }
   }
 }
 

@@ -34,10 +34,7 @@ void KeepLargestGroup(const std::vector<std::vector<int>>& groups, Eigen::Vector
 // Normalises a node as the compute stage does.
 void NormaliseNode(const Chain& chain, const Eigen::VectorXd& expenditure,
                    Eigen::VectorXd* log_parity) {
-  std::vector<double> weights;
-  ReferenceWeights(chain.options.reference, chain.reference_region, *log_parity, expenditure,
-                   &weights);
-  NormaliseLogParities(weights, log_parity);
+  NormaliseToReference(chain.options.reference, chain.reference_region, expenditure, log_parity);
   for (int r = 0; r < log_parity->size(); ++r) {
     if (!std::isfinite((*log_parity)(r))) (*log_parity)(r) = kNaN;
   }
@@ -58,6 +55,7 @@ Eigen::VectorXd AggregateLogParity(const Chain& chain, const ClassificationNode&
     arrays.price.col(k) = heading_log_parity.col(h).array().exp();
     arrays.expenditure.col(k) = survey.expenditure.col(h);
   }
+  if (survey.national_weights) ValueNationalBasket(&arrays);
   const AggregationMethod& method = *FindAggregationMethod(chain.options.aggregation);
   const AggregateParities aggregate =
       AggregateFromBilaterals(arrays, NodeBilaterals(arrays, method.BilateralsNeeded()), method);

@@ -8,7 +8,9 @@
 #include <limits>
 
 #include "paritas/base/csv.h"
+#include "paritas/aggregation/aggregation_method.h"
 #include "paritas/aggregation/index_formulas.h"
+#include "paritas/elementary/elementary_method.h"
 #include "paritas/base/text.h"
 
 namespace paritas {
@@ -207,6 +209,35 @@ bool ComparePair(const Survey& survey, const ParityResult& result, const std::st
   return true;
 }
 
+void TransitiveUnderEveryMethod(const Survey& survey, const ComputeOptions& options,
+                                PairComparison* comparison) {
+  const int node = survey.classification.FindNode(comparison->node);
+  const int a = survey.regions.Find(comparison->from), b = survey.regions.Find(comparison->to);
+  std::vector<std::string> names =
+      comparison->is_heading ? ElementaryMethodNames() : AggregationMethodNames();
+  comparison->by_method.clear();
+  for (const std::string& name : names) {
+    ComputeOptions method_options = options;
+    if (comparison->is_heading) {
+      method_options.elementary.method = name;
+    } else {
+      method_options.aggregation = name;
+    }
+    method_options.elementary.compute_robust_standard_errors = false;
+    method_options.keep_bilaterals.clear();
+    ParityResult result;
+    ComputeSummary summary;
+    MethodTransitive entry{name, kNaN, ""};
+    if (ComputeParities(survey, method_options, &result, &summary)) {
+      const Eigen::VectorXd& parity = result.nodes[node].parity;
+      entry.transitive = parity(b) / parity(a);
+    } else {
+      entry.failure = summary.message;
+    }
+    comparison->by_method.push_back(std::move(entry));
+  }
+}
+
 std::string PairCsv(const PairComparison& c) {
   std::string out = "measure,value\n";
   AddTextRow("from", c.from, &out);
@@ -252,6 +283,9 @@ std::string PairCsv(const PairComparison& c) {
       AddRow("fisher_contribution:" + part.code, part.fisher_contribution, &out);
     }
   }
+  for (const MethodTransitive& m : c.by_method) {
+    AddRow("transitive_by_method:" + m.method, m.transitive, &out);
+  }
   return out;
 }
 
@@ -291,6 +325,14 @@ std::string PairTable(const PairComparison& c) {
     row("P-L spread, %", 100.0 * c.log_spread, "100 x |ln(Laspeyres / Paasche)|");
     row("transitive (compute)", c.transitive, "parity(" + c.to + ") / parity(" + c.from + ")");
     row("gap ln(Fisher / transitive)", c.log_gap, "");
+  }
+  if (!c.by_method.empty()) {
+    out += std::string("\ntransitive parity under every ") +
+           (c.is_heading ? "elementary" : "aggregation") + " method:\n";
+    for (const MethodTransitive& m : c.by_method) {
+      row(m.method, m.transitive,
+          m.failure.empty() ? "" : "failed: " + m.failure.substr(0, m.failure.find('\n')));
+    }
   }
   if (c.contributions.empty()) return out;
   out += "\nwhat drives the comparison, largest first:\n";

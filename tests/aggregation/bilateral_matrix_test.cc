@@ -165,6 +165,56 @@ bool Valid(double p, double e) {
   return std::isfinite(p) && std::isfinite(e) && p > 0.0 && e > 0.0;
 }
 
+// Three regions, three items; hand computation of the starred Jevons index
+// (the formula of the GEKS* form, Sergeev 2001, as stated in
+// bilateral_matrix.h). Prices: a = (1, 1, 1), b = (2, 3, 5), c = (-, -, 7).
+TEST(AllPairsJevonsRepresentative, AveragesTheJevonsOverEachSidesRepresentativeItems) {
+  const double nan = std::nan("");
+  Eigen::MatrixXd log_price(3, 3), present(3, 3), representative(3, 3);
+  log_price << 0, 0, 0, std::log(2.0), std::log(3.0), std::log(5.0), nan, nan, std::log(7.0);
+  present << 1, 1, 1, 1, 1, 1, 0, 0, 1;
+  representative << 1, 0, 0, 0, 1, 0, 0, 0, 1;  // a: item 1, b: item 2, c: item 3
+  Eigen::MatrixXi matched;
+  const Eigen::MatrixXd j =
+      AllPairsJevonsRepresentative(log_price, present, representative, Eigen::VectorXd(), &matched);
+  // (a, b): item 1 from a's side (2/1), item 2 from b's side (3/1): sqrt(6).
+  EXPECT_NEAR(j(0, 1), std::sqrt(6.0), 1e-14);
+  EXPECT_NEAR(j(1, 0), 1.0 / std::sqrt(6.0), 1e-14);
+  // (a, c): a's representative item 1 is not priced in c; c's item 3: 7/1.
+  EXPECT_NEAR(j(0, 2), 7.0, 1e-13);
+  // (b, c): only c's side again: 7/5.
+  EXPECT_NEAR(j(1, 2), 7.0 / 5.0, 1e-14);
+  for (int r = 0; r < 3; ++r) EXPECT_EQ(j(r, r), 1.0);
+  EXPECT_EQ(matched(0, 1), 1);  // item 1 representative in a, priced by b
+  EXPECT_EQ(matched(0, 2), 0);
+  EXPECT_EQ(matched(2, 0), 1);
+
+  // a flags items 1 and 3; item weights (1, 1, 3): ln J^(a)_ab =
+  // (ln 2 + 3 ln 5) / 4, ln J^(b)_ab = ln 3; (a, c) is 7 from either side.
+  representative(0, 2) = 1;
+  Eigen::VectorXd weight(3);
+  weight << 1, 1, 3;
+  const Eigen::MatrixXd w =
+      AllPairsJevonsRepresentative(log_price, present, representative, weight, nullptr);
+  EXPECT_NEAR(w(0, 1),
+              std::exp(0.5 * ((std::log(2.0) + 3 * std::log(5.0)) / 4 + std::log(3.0))), 1e-13);
+  EXPECT_NEAR(w(0, 2), 7.0, 1e-13);
+}
+
+TEST(AllPairsJevonsRepresentative, LeavesAPairWithoutRepresentativeMatchesEmpty) {
+  // Three regions price both items and only c flags one: a and b share no
+  // item representative in either of them, so (a, b) has no index although
+  // they share two items; each has one with c.
+  Eigen::MatrixXd log_price = Eigen::MatrixXd::Zero(3, 2), present = Eigen::MatrixXd::Ones(3, 2),
+                  representative = Eigen::MatrixXd::Zero(3, 2);
+  representative(2, 0) = 1;
+  const Eigen::MatrixXd j =
+      AllPairsJevonsRepresentative(log_price, present, representative, Eigen::VectorXd(), nullptr);
+  EXPECT_TRUE(std::isnan(j(0, 1)));
+  EXPECT_EQ(j(0, 2), 1.0);
+  EXPECT_EQ(j(0, 0), 1.0);
+}
+
 TEST(AllPairsWeighted, EveryEntryEqualsScalarFormulasOverMatchedHeadings) {
   const int num_regions = 14;
   const int num_headings = 11;

@@ -267,7 +267,7 @@ TEST(ComputeCommand, BadMethodNameListsTheAllowedOnes) {
   std::string out, err;
   EXPECT_EQ(RunCli("compute " + Demo() + " --elementary cdp --output " + MakeTempDir("cli_bad"), &out, &err), 1);
   EXPECT_EQ(err,
-            "paritas: error: --elementary 'cdp' is not one of: cpd, jevons-geks, robust-cpd; did "
+            "paritas: error: --elementary 'cdp' is not one of: cpd, cprd, jevons-geks, robust-cpd; did "
             "you mean 'cpd'?\n");
 }
 
@@ -276,10 +276,10 @@ TEST(ComputeCommand, BadMethodNameListsTheAllowedOnes) {
 TEST(ComputeCommand, SuggestsTheNameMeantForEveryNamedOption) {
   const std::pair<std::string, std::string> cases[] = {
       {"--reference weighted_mean",
-       "--reference 'weighted_mean' is not one of: mean, weighted-mean, or a region code; did you "
+       "--reference 'weighted_mean' is not one of: mean, weighted-mean, country, or a region code; did you "
        "mean 'weighted-mean'?"},
       {"--elementary Jevons_GEKS",
-       "--elementary 'Jevons_GEKS' is not one of: cpd, jevons-geks, robust-cpd; did you mean "
+       "--elementary 'Jevons_GEKS' is not one of: cpd, cprd, jevons-geks, robust-cpd; did you mean "
        "'jevons-geks'?"},
       {"--aggregation geks_fisher",
        "--aggregation 'geks_fisher' is not one of: geks-fisher, geks-tornqvist, weighted-cpd, "

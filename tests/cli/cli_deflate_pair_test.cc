@@ -2,14 +2,18 @@
 // executable: exit codes, exact messages for bad options and bad rows.
 #include <gtest/gtest.h>
 
+#include <cmath>
 #include <filesystem>
 #include <string>
 
+#include "paritas/aggregation/aggregation_method.h"
+#include "paritas/elementary/elementary_method.h"
 #include "test_util.h"
 
 namespace paritas {
 namespace {
 
+using testing::CountOf;
 using testing::MakeTempDir;
 using testing::ReadTextFile;
 using testing::RunCli;
@@ -210,6 +214,49 @@ TEST(PairCommand, PrintsAndWritesEveryFormula) {
   const size_t gap = csv.find("\nlog_gap,");
   ASSERT_NE(gap, std::string::npos);
   EXPECT_NEAR(std::stod(csv.substr(gap + 9)), 0.0, 1e-14);
+}
+
+// The value of `measure` in a pair CSV; NaN when absent or empty.
+double Measure(const std::string& csv, const std::string& measure) {
+  const size_t at = csv.find("\n" + measure + ",");
+  if (at == std::string::npos) return std::nan("");
+  const size_t value = at + measure.size() + 2;
+  if (csv[value] == '\n') return std::nan("");
+  return std::stod(csv.substr(value));
+}
+
+TEST(PairCommand, EveryMethodGivesEachAggregationMethodsTransitiveParity) {
+  // Over two regions GEKS-Fisher and the spanning tree (its one edge) are the
+  // bilateral Fisher index, GEKS-Törnqvist the Törnqvist index (Caves,
+  // Christensen and Diewert 1982: GEKS over two regions is the bilateral
+  // index); every other method gives a finite parity, one row each.
+  const std::string dir = WriteTwoSituationSurvey();
+  std::string out, err;
+  ASSERT_EQ(RunCli("pair " + dir + "/run.yaml --from s1 --to s2 --every-method --csv " + dir +
+                       "/pair.csv",
+                   &out, &err),
+            0)
+      << err;
+  EXPECT_NE(out.find("transitive parity under every aggregation method:"), std::string::npos)
+      << out;
+  const std::string csv = ReadTextFile(dir + "/pair.csv");
+  const double fisher = Measure(csv, "fisher"), tornqvist = Measure(csv, "tornqvist");
+  EXPECT_NEAR(fisher, 1.401050, 5e-7);  // CPI Manual 2004, ch. 19: Fisher 1.4011
+  EXPECT_NEAR(Measure(csv, "transitive_by_method:geks-fisher"), fisher, 1e-12);
+  EXPECT_NEAR(Measure(csv, "transitive_by_method:spanning-tree"), fisher, 1e-12);
+  EXPECT_NEAR(Measure(csv, "transitive_by_method:geks-tornqvist"), tornqvist, 1e-12);
+  for (const std::string& name : AggregationMethodNames()) {
+    EXPECT_EQ(CountOf(csv, "\ntransitive_by_method:" + name + ","), 1u) << name;
+    EXPECT_TRUE(std::isfinite(Measure(csv, "transitive_by_method:" + name))) << name;
+  }
+  // At a basic heading every elementary method is listed instead.
+  ASSERT_EQ(RunCli("pair " + dir + "/run.yaml --from s1 --to s2 --node c2 --every-method", &out,
+                   &err),
+            0)
+      << err;
+  for (const std::string& name : ElementaryMethodNames()) {
+    EXPECT_NE(out.find("  " + name + " "), std::string::npos) << name << "\n" << out;
+  }
 }
 
 TEST(PairCommand, RefusesUnknownRegionsAndMissingOptions) {

@@ -149,11 +149,7 @@ TEST(CliCheck, RefusesAThreadCountThatIsNotAWholeNumberInRange) {
   EXPECT_EQ(ok.exit_code, 0) << ok.err;
 }
 
-size_t CountOf(const std::string& text, const std::string& part) {
-  size_t count = 0;
-  for (size_t at = text.find(part); at != std::string::npos; at = text.find(part, at + 1)) ++count;
-  return count;
-}
+using ::paritas::testing::CountOf;
 
 // check listed each rejected row on standard output and again on standard
 // error when the rows stopped the run.

@@ -183,6 +183,105 @@ TEST(ComputeParities, WeightedMeanReferenceMakesTheExpenditureWeightedGeometricM
   EXPECT_TRUE(IsClose(weighted_log, std::log(100.0), 1e-12));
 }
 
+// Sum over regions of expenditure and of expenditure / (parity / 100) at a
+// node, over the regions with both.
+std::pair<double, double> NominalAndRealTotals(const NodeResult& node) {
+  double nominal = 0.0, real = 0.0;
+  for (int r = 0; r < node.parity.size(); ++r) {
+    if (!std::isfinite(node.parity(r)) || !std::isfinite(node.expenditure(r)) ||
+        node.expenditure(r) <= 0) {
+      continue;
+    }
+    nominal += node.expenditure(r);
+    real += node.expenditure(r) / (node.parity(r) / 100.0);
+  }
+  return {nominal, real};
+}
+
+TEST(ComputeParities, CountryReferenceMakesTotalRealExpenditureEqualTotalNominalAtEveryNode) {
+  // The defining property of the country reference (README, "reference"):
+  // sum_r e_r / PPP_r = sum_r e_r, at every node, headings included; the
+  // regions miss cells (coverage 0.7), so nodes have different regions.
+  const Survey survey = LoadSynthetic(MakeSynthetic(0.7, 0.05, 5), "country");
+  ComputeOptions options;
+  options.reference.kind = ReferenceKind::kCountry;
+  const ParityResult result = Compute(survey, options);
+  for (const NodeResult& node : result.nodes) {
+    const auto [nominal, real] = NominalAndRealTotals(node);
+    ASSERT_GT(nominal, 0.0);
+    EXPECT_NEAR(real / nominal, 1.0, 1e-12) << "node " << node.node;
+    EXPECT_EQ(node.reference_used, "country");
+  }
+}
+
+TEST(ComputeParities, WeightedMeanReferenceLeavesRealAndNominalTotalsApart) {
+  // The reason for the country reference: the expenditure-weighted geometric
+  // mean of the parities is 100, so sum real / sum nominal is the weighted
+  // arithmetic mean of 100 / parity, at least its weighted geometric mean 1
+  // (the inequality of arithmetic and geometric means), with equality only
+  // when all parities are equal.
+  const Survey survey = LoadSynthetic(MakeSynthetic(0.7, 0.05, 5), "weighted-apart");
+  ComputeOptions weighted, country;
+  weighted.reference.kind = ReferenceKind::kWeightedMean;
+  country.reference.kind = ReferenceKind::kCountry;
+  const ParityResult w = Compute(survey, weighted), c = Compute(survey, country);
+  const auto [nominal, real] = NominalAndRealTotals(w.nodes.front());
+  EXPECT_GT(real / nominal, 1.0 + 1e-6);
+  // Same ratios between regions: only the common factor differs.
+  for (int r = 1; r < survey.num_regions(); ++r) {
+    EXPECT_TRUE(IsClose(Ratio(w.nodes.front(), 0, r), Ratio(c.nodes.front(), 0, r), 1e-12));
+  }
+}
+
+// Three regions, two headings of one item each, and a national expenditure
+// file (no region column): food 60, rent 40.
+Survey NationalWeightsSurvey() {
+  const std::string folder = MakeTempDir("national");
+  WriteTextFile(folder + "/prices.csv",
+                "region,item,price,heading\n"
+                "r1,bread,1,food\nr2,bread,2,food\nr3,bread,4,food\n"
+                "r1,flat,3,rent\nr2,flat,3,rent\nr3,flat,3,rent\n");
+  WriteTextFile(folder + "/expenditure.csv", "heading,expenditure\nfood,60\nrent,40\n");
+  return LoadFrom(folder,
+                  "survey:\n  prices: prices.csv\n  expenditure: expenditure.csv\n"
+                  "classification:\n  all: [food, rent]\n");
+}
+
+TEST(ComputeParities, NationalWeightsCompareEveryRegionOnTheNationalBasket) {
+  // Hand computation of the Lowe index (CPI Manual 2004, ch. 15) with the
+  // national basket: food parities 0.5, 1, 2 (geometric mean 1), rent 1, 1,
+  // 1; quantities 60 and 40 at those mean prices; the basket costs 60 x 0.5
+  // + 40 = 70 in r1, 100 in r2 and 60 x 2 + 40 = 160 in r3. With one basket
+  // Laspeyres = Paasche, so GEKS-Fisher, the spanning tree and Geary-Khamis
+  // (quantities equal in every region) all give these ratios.
+  const Survey survey = NationalWeightsSurvey();
+  ASSERT_TRUE(survey.national_weights);
+  for (const std::string method :
+       {"geks-fisher", "spanning-tree", "geary-khamis", "ikle-dikhanov-balk"}) {
+    ComputeOptions options;
+    options.aggregation = method;
+    const ParityResult result = Compute(survey, options);
+    const NodeResult& root = result.nodes.front();
+    EXPECT_NEAR(Ratio(root, 0, 1), 100.0 / 70.0, 1e-12) << method;
+    EXPECT_NEAR(Ratio(root, 0, 2), 160.0 / 70.0, 1e-12) << method;
+    // Regional spending is unknown: no nominal or real expenditure.
+    EXPECT_TRUE(std::isnan(root.expenditure(0))) << method;
+    EXPECT_TRUE(std::isnan(root.real_expenditure(0))) << method;
+  }
+}
+
+TEST(ComputeParities, NationalWeightsRefuseAReferenceWeightedBySpending) {
+  const Survey survey = NationalWeightsSurvey();
+  ComputeOptions options;
+  options.reference.kind = ReferenceKind::kCountry;
+  ParityResult result;
+  ComputeSummary summary;
+  EXPECT_FALSE(ComputeParities(survey, options, &result, &summary));
+  EXPECT_EQ(summary.message,
+            "reference 'country' weighs regions by their expenditure, but the expenditure file "
+            "gives national weights (no region column); use mean or a region code");
+}
+
 TEST(ComputeParities, CpdOnACompleteTableEqualsGeksJevons) {
   // Summers (1973): unweighted CPD on a complete table gives ratios of
   // geometric mean prices, which is also GEKS over Jevons bilaterals.

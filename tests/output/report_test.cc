@@ -4,8 +4,10 @@
 // the shape it gets in use.
 #include "paritas/output/report.h"
 
+#include <cctype>
 #include <cmath>
 #include <regex>
+#include <set>
 #include <string>
 
 #include <gtest/gtest.h>
@@ -22,11 +24,7 @@ namespace {
 using ::paritas::testing::MakeTempDir;
 using ::paritas::testing::SourcePath;
 
-size_t CountOf(const std::string& text, const std::string& needle) {
-  size_t n = 0;
-  for (size_t at = text.find(needle); at != std::string::npos; at = text.find(needle, at + needle.size())) ++n;
-  return n;
-}
+using ::paritas::testing::CountOf;
 
 // The text of the element that opens with id="<id>", up to its </svg>.
 std::string SvgById(const std::string& html, const std::string& id) {
@@ -160,6 +158,62 @@ TEST(ReportHtml, ShowsOutliersAndSensitivityWhenGiven) {
   EXPECT_EQ(CountOf(html, "class=\"whisker\" d="), static_cast<size_t>(num_regions));  // one interval per bar
   // Largest |standardised residual| first in the table.
   EXPECT_LT(html.find("&lt;b&gt;beef"), html.find(">apples<"));
+}
+
+// The marks drawn in the method-spread chart's first row, in order: each
+// mark's element and class up to its first coordinate (shape and colour).
+std::vector<std::string> FirstRowMarks(const std::string& html) {
+  const size_t chart = html.find("id=\"method-spread\"");
+  const size_t row_end = html.find("class=\"value\"", chart);
+  std::vector<std::string> marks;
+  for (size_t at = html.find("class=\"marker", chart); at < row_end;
+       at = html.find("class=\"marker", at + 1)) {
+    const size_t tag = html.rfind('<', at);
+    const std::string cls = html.substr(at, html.find('"', at + 7) - at);
+    // The shape: the element and the path's command letters (coordinates dropped).
+    std::string commands;
+    const size_t d = html.find(" d=\"", at);
+    if (html.compare(tag, 5, "<path") == 0 && d < html.find('>', at)) {
+      for (size_t i = d + 4; html[i] != '"'; ++i) {
+        if (std::isalpha(static_cast<unsigned char>(html[i])) != 0) commands += html[i];
+      }
+    }
+    marks.push_back(html.substr(tag, html.find(' ', tag) - tag) + " " + cls + " " + commands);
+  }
+  return marks;
+}
+
+TEST(ReportHtml, GivesEveryMethodCombinationItsOwnMarkAndLegendEntry) {
+  // Shape = elementary method, colour = aggregation method: 3 x 6 names give
+  // 18 distinct marks, and each method name appears once in the legend.
+  const Demo& demo = TheDemo();
+  ReportInputs in = InputsFor(demo.job, &demo.config);
+  const int num_regions = demo.job.survey.num_regions();
+  const NodeResult& root = demo.job.result.nodes.front();
+  ReportSensitivity sensitivity;
+  const std::vector<std::string> elementary = {"cpd", "robust-cpd", "jevons-geks"};
+  const std::vector<std::string> aggregation = {"geks-fisher", "geks-tornqvist", "weighted-cpd",
+                                                "spanning-tree", "geary-khamis",
+                                                "ikle-dikhanov-balk"};
+  for (const std::string& e : elementary) {
+    for (const std::string& a : aggregation) {
+      sensitivity.method_names.push_back(e + "/" + a);
+      std::vector<double> parity(num_regions);
+      for (int r = 0; r < num_regions; ++r) parity[r] = root.parity(r) * 1.001;
+      sensitivity.method_parity.push_back(parity);
+    }
+  }
+  in.sensitivity = &sensitivity;
+  const std::string html = ReportHtml(in);
+  const std::vector<std::string> marks = FirstRowMarks(html);
+  ASSERT_EQ(marks.size(), 18u);
+  EXPECT_EQ(std::set<std::string>(marks.begin(), marks.end()).size(), 18u);
+  for (const std::string& name : elementary) {
+    EXPECT_EQ(CountOf(html, "</svg> " + name + "</span>"), 1u) << name;
+  }
+  for (const std::string& name : aggregation) {
+    EXPECT_EQ(CountOf(html, "</svg> " + name + "</span>"), 1u) << name;
+  }
 }
 
 TEST(ReportHtml, ShowsAnEmptyOutlierListAsNone) {

@@ -88,6 +88,13 @@ TEST(RunConfig, ReadsWeightedMeanReferenceInAnyCase) {
   EXPECT_EQ(Reference::FromString("cap").ToString(), "cap");
 }
 
+TEST(RunConfig, ReadsTheCountryReferenceInAnyCase) {
+  EXPECT_EQ(Parse(std::string(kSurvey) + "reference: Country\n").reference.kind,
+            ReferenceKind::kCountry);
+  EXPECT_EQ(Reference::FromString(" COUNTRY ").kind, ReferenceKind::kCountry);
+  EXPECT_EQ(Reference::FromString("country").ToString(), "country");
+}
+
 TEST(RunConfig, SuggestsTheNearestTopLevelKeyForATypo) {
   EXPECT_EQ(ParseError(std::string(kSurvey) + "refrence: mean\n"),
             "/cfg/run.yaml:4:1: unknown key 'refrence'; did you mean 'reference'?");
@@ -120,7 +127,7 @@ TEST(RunConfig, ListsTheValidKeysWhenNoneIsClose) {
 
 TEST(RunConfig, ListsTheAllowedNamesForABadElementaryMethod) {
   EXPECT_EQ(ParseError(std::string(kSurvey) + "elementary: jevons\n"),
-            "/cfg/run.yaml:4:13: elementary 'jevons' is not one of: cpd, jevons-geks, robust-cpd");
+            "/cfg/run.yaml:4:13: elementary 'jevons' is not one of: cpd, cprd, jevons-geks, robust-cpd");
 }
 
 TEST(RunConfig, ListsTheAllowedNamesForABadAggregationMethod) {
@@ -138,10 +145,10 @@ TEST(RunConfig, ListsTheAllowedNamesForABadInvalidRowPolicy) {
 // trial wrote weighted_mean and was told only that no region has that code.
 TEST(RunConfig, SuggestsTheNameMeantForAReferenceWithUnderscores) {
   EXPECT_EQ(ParseError(std::string(kSurvey) + "reference: weighted_mean\n"),
-            "/cfg/run.yaml:4:12: reference 'weighted_mean' is not one of: mean, weighted-mean, or "
+            "/cfg/run.yaml:4:12: reference 'weighted_mean' is not one of: mean, weighted-mean, country, or "
             "a region code; did you mean 'weighted-mean'?");
   EXPECT_EQ(ParseError(std::string(kSurvey) + "reference: WEIGHTED MEAN\n"),
-            "/cfg/run.yaml:4:12: reference 'WEIGHTED MEAN' is not one of: mean, weighted-mean, or "
+            "/cfg/run.yaml:4:12: reference 'WEIGHTED MEAN' is not one of: mean, weighted-mean, country, or "
             "a region code; did you mean 'weighted-mean'?");
   // Any other text is a region code, checked against the survey later.
   EXPECT_EQ(Parse(std::string(kSurvey) + "reference: weighted_meat\n").reference.region,
@@ -150,7 +157,7 @@ TEST(RunConfig, SuggestsTheNameMeantForAReferenceWithUnderscores) {
 
 TEST(RunConfig, SuggestsTheNameMeantForEveryNamedValue) {
   EXPECT_EQ(ParseError(std::string(kSurvey) + "elementary: robust_cpd\n"),
-            "/cfg/run.yaml:4:13: elementary 'robust_cpd' is not one of: cpd, jevons-geks, "
+            "/cfg/run.yaml:4:13: elementary 'robust_cpd' is not one of: cpd, cprd, jevons-geks, "
             "robust-cpd; did you mean 'robust-cpd'?");
   EXPECT_EQ(ParseError(std::string(kSurvey) + "aggregation: GEKS_Tornqvist\n"),
             "/cfg/run.yaml:4:14: aggregation 'GEKS_Tornqvist' is not one of: geks-fisher, "

@@ -281,7 +281,20 @@ TEST(LoadSurvey, ReportsAnExpenditureFileWithOnlyAHeaderOrNothing) {
   const SurveyDir empty = MakeSurvey("expenditure_empty", kPrices, "");
   EXPECT_EQ(LoadMessage(empty), empty.expenditure() +
                                     ": file is empty (expected a header row with columns region, heading, "
-                                    "expenditure)");
+                                    "expenditure; or heading, expenditure for national weights)");
+}
+
+TEST(LoadSurvey, ReadsAnExpenditureFileWithoutRegionsAsNationalWeights) {
+  const SurveyDir files = MakeSurvey("expenditure_national", kPrices,
+                                     "heading,expenditure\nfood,60\nfood,50\n");
+  EXPECT_EQ(FirstRejection(files),
+            files.expenditure() + ":3:1: duplicate row for heading 'food' (first at line 2)");
+  const SurveyDir good = MakeSurvey("expenditure_national_ok", kPrices,
+                                    "heading,expenditure\nfood,60\n");
+  Survey survey;
+  ASSERT_EQ(Load(good.config, &survey).outcome, LoadOutcome::kOk);
+  EXPECT_TRUE(survey.national_weights);
+  for (int r = 0; r < survey.num_regions(); ++r) EXPECT_EQ(survey.expenditure(r, 0), 60.0);
 }
 
 TEST(LoadSurvey, ReportsAMissingColumnListingTheColumnsFound) {

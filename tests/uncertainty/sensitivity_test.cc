@@ -397,12 +397,15 @@ TEST(MethodSpread, RunsEveryCombinationAndMeasuresLogMaxOverMin) {
   SensitivityResult result;
   SensitivitySummary summary;
   ASSERT_TRUE(RunSensitivity(survey, ComputeOptions(), OnlyParts(false, false, false, true), &result, &summary));
-  ASSERT_EQ(result.methods.size(), 18u);
+  // Every registered combination: 4 elementary x 6 aggregation methods.
+  ASSERT_EQ(result.methods.size(), 24u);
   EXPECT_EQ(result.methods[0].name, "cpd/geks-fisher");
   const std::string csv = MethodSpreadCsv(survey, result);
   EXPECT_EQ(csv.substr(0, csv.find('\n')),
             "node,region,cpd/geks-fisher,cpd/geks-tornqvist,cpd/weighted-cpd,cpd/spanning-tree,"
-            "cpd/geary-khamis,cpd/ikle-dikhanov-balk,jevons-geks/geks-fisher,"
+            "cpd/geary-khamis,cpd/ikle-dikhanov-balk,cprd/geks-fisher,cprd/geks-tornqvist,"
+            "cprd/weighted-cpd,cprd/spanning-tree,cprd/geary-khamis,cprd/ikle-dikhanov-balk,"
+            "jevons-geks/geks-fisher,"
             "jevons-geks/geks-tornqvist,jevons-geks/weighted-cpd,jevons-geks/spanning-tree,"
             "jevons-geks/geary-khamis,jevons-geks/ikle-dikhanov-balk,robust-cpd/geks-fisher,"
             "robust-cpd/geks-tornqvist,robust-cpd/weighted-cpd,robust-cpd/spanning-tree,"
@@ -471,13 +474,13 @@ TEST(SensitivityCommand, BadOptionValuesExitWithOneAndAClearMessage) {
        "paritas: error: --parts: part 'boot' is not one of: bootstrap, leave-one-out, coverage, "
        "methods\n"},
       {"--elementary cdp",
-       "paritas: error: --elementary 'cdp' is not one of: cpd, jevons-geks, robust-cpd; did you "
+       "paritas: error: --elementary 'cdp' is not one of: cpd, cprd, jevons-geks, robust-cpd; did you "
        "mean 'cpd'?\n"},
       {"--parts bootstrap,leave_one_out",
        "paritas: error: --parts: part 'leave_one_out' is not one of: bootstrap, leave-one-out, "
        "coverage, methods; did you mean 'leave-one-out'?\n"},
       {"--reference Weighted_Mean",
-       "paritas: error: --reference 'Weighted_Mean' is not one of: mean, weighted-mean, or a "
+       "paritas: error: --reference 'Weighted_Mean' is not one of: mean, weighted-mean, country, or a "
        "region code; did you mean 'weighted-mean'?\n"},
   };
   for (const auto& [arguments, message] : cases) {

@@ -91,6 +91,27 @@ Eigen::MatrixXd AllPairsJevonsWeighted(const Eigen::MatrixXd& log_price,
                                        const Eigen::MatrixXd& present,
                                        const Eigen::VectorXd& item_weight);
 
+// Computes the Jevons index with representative items between every pair
+// of regions (the "star" form of GEKS* for basic headings): entry (a, b) is
+// the geometric mean of two Jevons indices over the items both regions
+// priced, one over those representative in a, one over those representative
+// in b (Sergeev 2001; Eurostat-OECD Methodological Manual on PPPs, 2012
+// edition, GEKS* for basic headings; section not checked, from memory):
+//   ln J*_ab = 1/2 (ln J_ab^(a) + ln J_ab^(b)),
+//   ln J_ab^(a) = sum_i w_i r_ai m_bi (ln p_bi - ln p_ai) / sum_i w_i r_ai m_bi,
+// with m the presence mask, r the representative mask (counted only where
+// present) and w the item weights (empty = all 1). When only one of the two
+// has a matched item, J*_ab is that one; when neither has, the pair has no
+// index (NaN), however many unflagged items it shares. The diagonal is 1 for
+// a region with any representative item, NaN otherwise.
+// `num_matched` (when non-null) gets the representative matches per pair:
+// (a, b) = items representative in a and priced by b.
+Eigen::MatrixXd AllPairsJevonsRepresentative(const Eigen::MatrixXd& log_price,
+                                             const Eigen::MatrixXd& present,
+                                             const Eigen::MatrixXd& representative,
+                                             const Eigen::VectorXd& item_weight,
+                                             Eigen::MatrixXi* num_matched);
+
 }  // namespace paritas
 
 #endif  // PARITAS_AGGREGATION_BILATERAL_MATRIX_H_

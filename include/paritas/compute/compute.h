@@ -110,8 +110,21 @@ bool ComputeParities(const Survey& survey, const ComputeOptions& options, Parity
 NodeArrays NodeInputArrays(const Survey& survey, const ParityResult& result, int node);
 
 // Nominal expenditure of each region on the node's headings (sum of its
-// expenditure rows; NaN where it has none).
+// expenditure rows; NaN where it has none). NaN for every region under
+// national weights, where regional spending is unknown.
 Eigen::VectorXd NodeExpenditure(const Survey& survey, int node);
+
+// National weights (Survey::national_weights): replaces `arrays`'
+// expenditure, the national amounts e_h in every row, by the cost of the
+// national basket at each region's heading parities,
+//   e_rh = e_h p_rh / pbar_h,  pbar_h = geometric mean of p_rh over the
+// regions with a parity (NaN where the region has none),
+// so every region buys the same quantities e_h / pbar_h. Any index then
+// compares regions on one fixed basket (a Lowe index, CPI Manual 2004,
+// ch. 15): Laspeyres = Paasche = Fisher = sum_h p_bh q_h / sum_h p_ah q_h,
+// transitive by itself. pbar_h does not depend on the reference, so the
+// parities are base invariant.
+void ValueNationalBasket(NodeArrays* arrays);
 
 // Describes groups of regions by code: "{a, b} and {c}".
 std::string DescribeGroups(const Survey& survey, const std::vector<std::vector<int>>& groups);

@@ -7,6 +7,7 @@
 #ifndef PARITAS_ELEMENTARY_ELEMENTARY_METHOD_H_
 #define PARITAS_ELEMENTARY_ELEMENTARY_METHOD_H_
 
+#include <cmath>
 #include <cstdint>
 #include <span>
 #include <string>
@@ -68,6 +69,14 @@ struct HeadingParities {
   double sigma2 = 0.0;
   int degrees_of_freedom = 0;
   double robust_scale_used = 0.0;
+  // cprd: the representativity effect (the coefficient of the dummy, ln of
+  // the price of a representative item relative to an unrepresentative one
+  // in the same region) and its classic standard error; NaN for other
+  // methods and where the flags do not identify it.
+  double representativity_effect = std::nan("");
+  double representativity_se = std::nan("");
+  // cprd: cells flagged representative among the heading's cells fitted.
+  int64_t num_cells_representative = 0;
   std::string message;
 };
 
@@ -95,6 +104,8 @@ struct ElementaryProperties {
   bool gives_standard_errors = false;  // fills log_se (log_se_robust on request)
   bool gives_cell_residuals = false;   // fills cell_fitted and cell_residual
   bool transitive_by_construction = true;
+  // Fills representativity_effect and _se (representativity.csv is written).
+  bool gives_representativity_effect = false;
 };
 
 class ElementaryMethod {

@@ -66,6 +66,14 @@ std::string TreeCsv(const Survey& survey, const NodeResult& node);
 std::string HeadingBilateralCsv(const Survey& survey, const NodeResult& node,
                                 const Eigen::MatrixXd& jevons, const Eigen::MatrixXi& num_items);
 
+// representativity.csv, written under the cprd elementary method: one row
+// per heading with parities. Columns: heading, effect (the representativity
+// dummy's coefficient g in ln price; exp(g) - 1 is the premium of a
+// representative item), log_se (its classic standard error), num_cells,
+// num_cells_representative. effect and log_se are empty where the flags do
+// not identify the effect (none flagged, or constant within every item).
+std::string RepresentativityCsv(const Survey& survey, const ParityResult& result);
+
 // real_by_heading.csv, written by the additive aggregation methods: one row
 // per aggregate x region with a parity x heading of the aggregate on which
 // the region spends. Columns: node, region, heading, real_expenditure,

@@ -19,6 +19,12 @@ enum class ReferenceKind {
   kMean,          // geometric mean of the regions present = 100 (default)
   kWeightedMean,  // expenditure-weighted geometric mean = 100
   kRegion,        // one region = 100
+  // The country as a whole = 100: total real expenditure over the regions
+  // equals total nominal expenditure, sum_r e_r / (PPP_r / 100) = sum_r e_r,
+  // so deflated regional values add up to the national total. The parities
+  // are an expenditure-weighted harmonic mean of 100 (kWeightedMean's
+  // geometric mean leaves the sums 0.1-2 % apart).
+  kCountry,
 };
 
 struct Reference {
@@ -26,18 +32,18 @@ struct Reference {
   // Region code when kind == kRegion.
   std::string region;
 
-  // "mean", "weighted-mean", or the region code.
+  // "mean", "weighted-mean", "country", or the region code.
   std::string ToString() const;
-  // Any text that is not "mean" or "weighted-mean" (case-insensitive) is a
-  // region code, checked against the survey later.
+  // Any text that is not "mean", "weighted-mean" or "country"
+  // (case-insensitive) is a region code, checked against the survey later.
   static Reference FromString(const std::string& text);
 };
 
 // Reads a reference as Reference::FromString does, but refuses empty text and
-// text spelt like mean or weighted-mean but for case, '_' or ' ' (no region
-// code may be, so "weighted_mean" is a slip, not a region): "reference
-// 'weighted_mean' is not one of: mean, weighted-mean, or a region code; did
-// you mean 'weighted-mean'?". `what` names the setting ("reference",
+// text spelt like mean, weighted-mean or country but for case, '_' or ' ' (no
+// region code may be, so "weighted_mean" is a slip, not a region): "reference
+// 'weighted_mean' is not one of: mean, weighted-mean, country, or a region
+// code; did you mean 'weighted-mean'?". `what` names the setting ("reference",
 // "--reference").
 bool ParseReference(std::string_view what, const std::string& text, Reference* reference,
                     std::string* error);

@@ -63,8 +63,13 @@ struct Survey {
 
   CellPrices cells;
   // Nominal expenditure of region r on heading h (currency units, >= 0), or
-  // NaN where expenditure.csv has no row.
+  // NaN where expenditure.csv has no row. With national weights every
+  // region's row holds the national amounts.
   Eigen::MatrixXd expenditure;
+  // True when expenditure.csv has no region column: one national basket
+  // weighs every region (compute values it at each region's heading
+  // parities; regional nominal and real expenditure are unknown).
+  bool national_weights = false;
 
   int64_t num_quotes = 0;
   int num_regions() const { return regions.size(); }

@@ -38,6 +38,16 @@ struct PairContribution {
   double fisher_contribution = 0.0;
 };
 
+// The transitive parity of a pair under one method.
+struct MethodTransitive {
+  std::string method;  // registry name
+  // parity(b) / parity(a) under the method (ratio scale); NaN when the
+  // method gave either region no parity or failed.
+  double transitive = 0.0;
+  // Why the method gave no parities (its computation's message); else empty.
+  std::string failure;
+};
+
 struct PairComparison {
   std::string node;  // node code
   bool is_heading = false;
@@ -84,6 +94,9 @@ struct PairComparison {
 
   // Sorted by |log_contribution|, largest first (ties by code).
   std::vector<PairContribution> contributions;
+
+  // Filled by TransitiveUnderEveryMethod (pair --every-method), else empty.
+  std::vector<MethodTransitive> by_method;
 };
 
 // Compares region `to` with region `from` at `node` (a classification code;
@@ -93,12 +106,21 @@ bool ComparePair(const Survey& survey, const ParityResult& result, const std::st
                  const std::string& to, const std::string& node, PairComparison* comparison,
                  std::string* error);
 
+// Fills comparison->by_method with the pair's transitive parity at its node
+// under every registered method of the node's family: every aggregation
+// method (with the run's elementary method) at an aggregate, every
+// elementary method (with the run's aggregation method) at a basic heading.
+// Each method is a full compute, so this costs about one compute per method.
+void TransitiveUnderEveryMethod(const Survey& survey, const ComputeOptions& options,
+                                PairComparison* comparison);
+
 // CSV with columns measure,value: rows `from`, `to` and `node` (codes), then
 // one row per formula or quantity (e.g. `fisher,1.401050`, 6 decimals;
 // counts as integers, an absent value as an empty cell), then the
 // contributions: at an aggregate `tornqvist_log_contribution:<heading>` rows
 // sorted by size, then `fisher_contribution:<heading>` rows sorted by
-// theirs; at a heading `jevons_log_contribution:<item>` rows.
+// theirs; at a heading `jevons_log_contribution:<item>` rows; with
+// by_method, `transitive_by_method:<method>` rows last, in registry order.
 std::string PairCsv(const PairComparison& comparison);
 
 // The terminal table: formulas side by side, then the contributions.

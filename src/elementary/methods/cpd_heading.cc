@@ -4,43 +4,35 @@
 #include <vector>
 
 namespace paritas::internal {
-namespace {
 
-// A heading's cells as FitCpd reads them; reused by each thread.
-struct CellBuffers {
-  std::vector<int> region;
-  std::vector<int> item;
-  std::vector<double> log_price;
-  std::vector<double> weight;
+void CellBuffers::Clear() {
+  region.clear();
+  item.clear();
+  log_price.clear();
+  weight.clear();
+  representative.clear();
+}
 
-  void Clear() {
-    region.clear();
-    item.clear();
-    log_price.clear();
-    weight.clear();
+void CellBuffers::KeepRegions(const std::vector<int>& group, int num_regions) {
+  std::vector<uint8_t> keep(num_regions, 0);
+  for (int r : group) keep[r] = 1;
+  size_t kept = 0;
+  for (size_t k = 0; k < region.size(); ++k) {
+    if (!keep[region[k]]) continue;
+    region[kept] = region[k];
+    item[kept] = item[k];
+    log_price[kept] = log_price[k];
+    representative[kept] = representative[k];
+    if (!weight.empty()) weight[kept] = weight[k];
+    ++kept;
   }
-  // Keeps only the cells of the regions in `group`.
-  void KeepRegions(const std::vector<int>& group, int num_regions) {
-    std::vector<uint8_t> keep(num_regions, 0);
-    for (int r : group) keep[r] = 1;
-    size_t kept = 0;
-    for (size_t k = 0; k < region.size(); ++k) {
-      if (!keep[region[k]]) continue;
-      region[kept] = region[k];
-      item[kept] = item[k];
-      log_price[kept] = log_price[k];
-      if (!weight.empty()) weight[kept] = weight[k];
-      ++kept;
-    }
-    region.resize(kept);
-    item.resize(kept);
-    log_price.resize(kept);
-    if (!weight.empty()) weight.resize(kept);
-  }
-};
+  region.resize(kept);
+  item.resize(kept);
+  log_price.resize(kept);
+  representative.resize(kept);
+  if (!weight.empty()) weight.resize(kept);
+}
 
-// Copies the heading's cells; weights only where they differ from 1
-// somewhere (representativity weight, or item multiplicities).
 void CollectCells(const HeadingInput& input, bool copies_for_multiplicity, CellBuffers* cells) {
   const Survey& survey = *input.survey;
   const HeadingRange& range = survey.heading_range[input.heading];
@@ -56,12 +48,13 @@ void CollectCells(const HeadingInput& input, bool copies_for_multiplicity, CellB
       cells->region.push_back(survey.cells.region[k]);
       cells->item.push_back(survey.cells.item[k] - range.item_begin);
       cells->log_price.push_back(survey.cells.log_price[k]);
+      cells->representative.push_back(survey.cells.representative[k] ? 1.0 : 0.0);
       if (weighted) cells->weight.push_back(copies_for_multiplicity ? base : base * m);
     }
   }
 }
 
-CpdResult Fit(const HeadingInput& input, const CellBuffers& cells, CpdLoss loss) {
+CpdResult FitCells(const HeadingInput& input, const CellBuffers& cells, CpdLoss loss) {
   const HeadingRange& range = input.survey->heading_range[input.heading];
   CpdData data;
   data.num_regions = input.survey->num_regions();
@@ -79,8 +72,6 @@ CpdResult Fit(const HeadingInput& input, const CellBuffers& cells, CpdLoss loss)
   return FitCpd(data, cpd);
 }
 
-}  // namespace
-
 void FitHeadingCpd(const HeadingInput& input, CpdLoss loss, HeadingParities* out) {
   thread_local CellBuffers cells;
   const bool copies = loss != CpdLoss::kLeastSquares && !input.item_weight.empty();
@@ -90,14 +81,14 @@ void FitHeadingCpd(const HeadingInput& input, CpdLoss loss, HeadingParities* out
     out->message = "no price quotes with positive weight";
     return;
   }
-  CpdResult fit = Fit(input, cells, loss);
+  CpdResult fit = FitCells(input, cells, loss);
   out->identified = fit.identified;
   out->groups = fit.groups;
   out->message = fit.message;
   if (!fit.identified && input.keep_largest_group && fit.groups.size() > 1) {
     cells.KeepRegions(fit.groups.front(), input.survey->num_regions());
     out->kept_largest_group = true;
-    fit = Fit(input, cells, loss);
+    fit = FitCells(input, cells, loss);
   } else if (!fit.identified) {
     return;
   }

@@ -10,15 +10,38 @@
 namespace paritas::internal {
 namespace {
 
+// The heading's representative mask (regions x items), or an empty matrix
+// when no cell of the heading is flagged.
+Eigen::MatrixXd RepresentativeMask(const Survey& survey, int heading) {
+  const HeadingRange& range = survey.heading_range[heading];
+  Eigen::MatrixXd mask = Eigen::MatrixXd::Zero(survey.num_regions(), range.num_items());
+  bool any = false;
+  for (int64_t k = range.cell_begin; k < range.cell_end; ++k) {
+    if (survey.cells.representative[k] == 0) continue;
+    mask(survey.cells.region[k], survey.cells.item[k] - range.item_begin) = 1.0;
+    any = true;
+  }
+  return any ? mask : Eigen::MatrixXd();
+}
+
 // The all-pairs ln Jevons matrix of the heading, with item multiplicities
-// when resampling.
+// when resampling; the starred form when the heading flags representative
+// items.
 Eigen::MatrixXd LogJevons(const HeadingInput& input, const HeadingParities& counts) {
   const Survey& survey = *input.survey;
   const HeadingRange& range = survey.heading_range[input.heading];
   Eigen::MatrixXd log_price, present;
   HeadingPriceArrays(survey, input.heading, &log_price, &present);
+  Eigen::VectorXd weight;
+  if (!input.item_weight.empty()) {
+    weight.resize(range.num_items());
+    for (int i = 0; i < range.num_items(); ++i) weight(i) = input.item_weight[range.item_begin + i];
+  }
+  const Eigen::MatrixXd representative = RepresentativeMask(survey, input.heading);
   Eigen::MatrixXd jevons;
-  if (input.item_weight.empty()) {
+  if (representative.size() > 0) {
+    jevons = AllPairsJevonsRepresentative(log_price, present, representative, weight, nullptr);
+  } else if (input.item_weight.empty()) {
     jevons = AllPairsJevons(log_price, present, nullptr);
     // Regions that priced nothing have no bilaterals at all, not even with
     // themselves, so GEKS leaves them out.
@@ -26,8 +49,6 @@ Eigen::MatrixXd LogJevons(const HeadingInput& input, const HeadingParities& coun
       if (counts.num_items(r) == 0) jevons(r, r) = std::nan("");
     }
   } else {
-    Eigen::VectorXd weight(range.num_items());
-    for (int i = 0; i < range.num_items(); ++i) weight(i) = input.item_weight[range.item_begin + i];
     jevons = AllPairsJevonsWeighted(log_price, present, weight);
   }
   return jevons.array().log().matrix();
@@ -37,14 +58,19 @@ class JevonsGeks final : public ElementaryMethod {
  public:
   std::string_view Name() const override { return "jevons-geks"; }
   std::string_view Description() const override {
-    return "GEKS over bilateral Jevons indices of the items both regions priced";
+    return "GEKS over bilateral Jevons indices of the items both regions priced (GEKS* with "
+           "representative items where a heading flags them)";
   }
   std::string_view ReportTitle() const override { return "GEKS over Jevons indices"; }
   std::string_view ReportHtml() const override {
     return "Bilateral Jevons indices (geometric means of price relatives over the items both regions priced; "
-           "Jevons, W. S., 1865) made transitive by GEKS (below).";
+           "Jevons, W. S., 1865) made transitive by GEKS (below). Where a heading flags representative "
+           "items, each bilateral index is the geometric mean of two Jevons indices, one over the items "
+           "representative in each region of the pair (the GEKS* form: Sergeev, S., 2001, and the "
+           "Eurostat-OECD <i>Methodological Manual on Purchasing Power Parities</i>, 2012); a pair that "
+           "shares no representative item has no bilateral index.";
   }
-  ElementaryProperties Properties() const override { return {}; }
+  ElementaryProperties Properties() const override { return {.uses_representativity = true}; }
 
   void Compute(const HeadingInput& input, HeadingParities* out) const override {
     const GeksResult geks = Geks(LogJevons(input, *out));

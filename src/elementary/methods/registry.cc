@@ -8,6 +8,7 @@
 namespace paritas {
 namespace internal {
 const ElementaryMethod& CpdMethod();
+const ElementaryMethod& CprdMethod();
 const ElementaryMethod& JevonsGeksMethod();
 const ElementaryMethod& RobustCpdMethod();
 }  // namespace internal
@@ -15,6 +16,7 @@ const ElementaryMethod& RobustCpdMethod();
 const std::vector<const ElementaryMethod*>& ElementaryMethods() {
   static const std::vector<const ElementaryMethod*> methods = {
       &internal::CpdMethod(),
+      &internal::CprdMethod(),
       &internal::JevonsGeksMethod(),
       &internal::RobustCpdMethod(),
   };
