@@ -52,8 +52,9 @@ Replicates RunReplicates(const FullSample& full, const SensitivityOptions& optio
     for (int b = 0; b < num_b; ++b) {
       Stream stream(options.seed, kBootstrapStream | static_cast<uint64_t>(b));
       DrawItemWeights(chain, &stream, &weight);
+      Stream external_draw(options.seed, kExternalStream | static_cast<uint64_t>(b));
       const ReplicateOutcome outcome =
-          RunChain(chain, full.node_expenditure, weight, &heading_lp, &node_lp);
+          RunChain(chain, full.node_expenditure, weight, &heading_lp, &node_lp, &external_draw);
       RankRows(node_lp, &rank);
       out.unlinked[b] = outcome.num_unlinked > 0;
       for (int n = 0; n < num_nodes; ++n) {

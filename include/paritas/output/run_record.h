@@ -77,7 +77,8 @@ std::string RunConfigPath(const std::string& json);
 
 // What makes the results of two run records incomparable: different input
 // files (by SHA-256, per role) or different settings that change parities
-// (reference, elementary, aggregation, invalid_rows, representative_weight).
+// (reference, elementary, aggregation, invalid_rows, representative_weight,
+// missing_parities).
 // Each difference as one line, e.g. "reference: mean in this run, cap in the
 // other"; empty when the two rest on the same inputs and settings.
 std::vector<std::string> RunDifferences(const std::string& this_json, const std::string& other_json);
