@@ -166,7 +166,7 @@ class Checker {
     if (share >= checks_.min_basket_share || !std::isfinite(result_.nodes[n].parity(r))) return;
     std::string text = "aggregate '" + NodeCode(n) + "', region '" + RegionCode(r) + "': only " +
                        Percent(share) +
-                       " of its spending rests on headings it has parities of its own for "
+                       " of its spending rests on headings it has parities for "
                        "(checks.min_basket_share " +
                        Percent(checks_.min_basket_share) + ")" + ImputedPart(imputed, total);
     if (!missing.empty()) {

@@ -14,6 +14,7 @@
 #include "paritas/output/output_writers.h"
 #include "paritas/survey/config.h"
 #include "paritas/survey/survey_loader.h"
+#include "paritas/uncertainty/sensitivity.h"
 #include "test_util.h"
 
 namespace paritas {
@@ -334,6 +335,36 @@ TEST(ExternalParities, ExternalRuleKeepsQuotesAndFillsTheMissingRegion) {
   EXPECT_EQ(run.result.heading_source(0, 2), static_cast<int>(ParitySource::kPriced));
 }
 
+TEST(ExternalParities, BootstrapDrawsTheFileParitiesWithTheirStandardErrors) {
+  const std::string folder = MakeTempDir("external_bootstrap");
+  WriteSurvey(folder);
+  WriteTextFile(folder + "/rents.csv",
+                "heading,region,parity,log_se\nrent,A,1.0,0.05\nrent,B,1.25,0.05\n"
+                "rent,C,0.9,0.05\nrent,D,1.1,0.05\n");
+  Computed run;
+  LoadAndCompute(folder, "  external_parities: rents.csv\n" + std::string(kTree), &run);
+  SensitivityOptions options;
+  options.run_leave_one_out = options.run_coverage = options.run_methods = false;
+  options.replicates = 400;
+  SensitivityResult one, two;
+  SensitivitySummary summary;
+  options.num_threads = 1;
+  ASSERT_TRUE(RunSensitivity(run.survey, ComputeOptions::FromConfig(run.config), options, &one,
+                             &summary))
+      << summary.message;
+  options.num_threads = 2;
+  ASSERT_TRUE(RunSensitivity(run.survey, ComputeOptions::FromConfig(run.config), options, &two,
+                             &summary));
+  EXPECT_EQ(BootstrapCsv(run.survey, one), BootstrapCsv(run.survey, two));
+  // Four independent draws with sd 0.05, normalised to their mean: the
+  // sd of x_r - mean(x) is 0.05 sqrt(1 - 1/4) = 0.0433 (computed here);
+  // 400 replicates estimate it to about 3.5 % (sd / sqrt(2 B)).
+  const int rent = run.survey.classification.FindNode("rent");
+  for (int r = 0; r < 4; ++r) {
+    EXPECT_NEAR(one.boot_log_se(rent, r), 0.05 * std::sqrt(0.75), 0.15 * 0.0433) << r;
+  }
+}
+
 TEST(ExternalParities, BadRowsAreRejectedWithTheirPlace) {
   const std::string folder = MakeTempDir("external_bad");
   WriteSurvey(folder);
@@ -357,6 +388,30 @@ TEST(ExternalParities, BadRowsAreRejectedWithTheirPlace) {
                          file + ":8:1: duplicate row for heading 'rent' and region 'B' (first at "
                                 "line 7)",
                      }));
+}
+
+TEST(Imputation, PartialBasketWarningSaysHowMuchRestsOnImputedParities) {
+  const std::string folder = MakeTempDir("imputation_partial");
+  WriteSurvey(folder);
+  Computed run;
+  LoadAndCompute(folder, std::string(kTree) + "missing_parities: {default: parent}\n", &run);
+  const PlausibilityResult checks = CheckPlausibility(run.survey, run.result, run.config);
+  std::vector<std::string> texts;
+  for (const RunWarning& w : checks.warnings) {
+    if (w.kind == "partial-basket") texts.push_back(w.text);
+  }
+  // D spends 680 in all, 510 on housing, 300 of it on rent (imputed):
+  // 380/680 = 55.9 % and 210/510 = 41.2 % rest on its own parities.
+  ASSERT_EQ(texts.size(), 2u);
+  EXPECT_EQ(texts[0],
+            "aggregate 'all', region 'D': only 55.9 % of its spending rests on headings it has "
+            "parities for (checks.min_basket_share 90.0 %); 44.1 % rests on imputed parities: rent "
+            "44.1 %");
+  EXPECT_EQ(texts[1],
+            "aggregate 'housing', region 'D': only 41.2 % of its spending rests on headings it has "
+            "parities for (checks.min_basket_share 90.0 %); 58.8 % rests on imputed parities: rent "
+            "58.8 %");
+  EXPECT_DOUBLE_EQ(checks.basket_share(run.survey.classification.FindNode("rent"), 3), 0.0);
 }
 
 TEST(ExternalParities, SourceColumnsSayWhatEachAggregateRestsOn) {
