@@ -184,7 +184,13 @@ class Checker {
     for (int h = 0; h < survey_.num_headings(); ++h) {
       const std::string rule = result_.heading_rules[h].ToString();
       const std::string head = "heading '" + survey_.heading_codes[h] + "'";
-      for (int r : result_.missing_regions[h]) {
+      // A heading without a parity anywhere is named once by the computation
+      // ("has no price quotes"), not once per region.
+      bool any = false;
+      for (int r = 0; r < survey_.num_regions() && !any; ++r) {
+        any = std::isfinite(HeadingParity(h, r));
+      }
+      for (int r : any ? result_.missing_regions[h] : std::vector<int>()) {
         double total = 0.0;
         for (int g = 0; g < survey_.num_headings(); ++g) total += Spending(r, g);
         Add("missing-parity", HeadingNode(h), r,

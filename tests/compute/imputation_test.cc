@@ -42,13 +42,15 @@ const Row kRows[] = {
 const char* const kHeadings[] = {"bread", "milk", "rent", "energy", "water"};
 
 // Writes prices.csv and expenditure.csv into `folder`, leaving out the
-// headings in `skip`.
-void WriteSurvey(const std::string& folder, const std::vector<std::string>& skip = {}) {
+// headings in `skip` (their prices only when `keep_spending`).
+void WriteSurvey(const std::string& folder, const std::vector<std::string>& skip = {},
+                 bool keep_spending = false) {
   std::string prices = "region,item,price,heading\n", spending = "region,heading,expenditure\n";
   for (const Row& row : kRows) {
     for (int h = 0; h < 5; ++h) {
-      if (std::find(skip.begin(), skip.end(), kHeadings[h]) != skip.end()) continue;
-      if (std::isfinite(row.price[h])) {
+      const bool skipped = std::find(skip.begin(), skip.end(), kHeadings[h]) != skip.end();
+      if (skipped && !keep_spending) continue;
+      if (std::isfinite(row.price[h]) && !skipped) {
         prices += std::string(row.region) + "," + kHeadings[h] + "_item," +
                   std::to_string(row.price[h]) + "," + kHeadings[h] + "\n";
       }
@@ -113,6 +115,19 @@ TEST(Imputation, LeaveRuleKeepsTheParityMissingAndSaysSo) {
   EXPECT_EQ(texts[0],
             "heading 'rent', region 'D': 44.1 % of its 'all' spending but no parity (rule leave): "
             "the heading drops out of the region's comparisons pair by pair");
+}
+
+TEST(Imputation, HeadingWithoutPricesAnywhereIsNamedOnceNotPerRegion) {
+  const std::string folder = MakeTempDir("imputation_unpriced");
+  WriteSurvey(folder, {"rent"}, /*keep_spending=*/true);
+  Computed run;
+  LoadAndCompute(folder, kTree, &run);
+  EXPECT_EQ(run.summary.num_parities_missing, 4);
+  const PlausibilityResult checks = CheckPlausibility(run.survey, run.result, run.config);
+  for (const RunWarning& w : checks.warnings) EXPECT_NE(w.kind, "missing-parity") << w.text;
+  EXPECT_EQ(run.summary.warnings,
+            std::vector<std::string>{
+                "heading 'rent' has no price quotes: left out of every aggregate"});
 }
 
 TEST(Imputation, LikeRuleLinksTheRelatedHeadingOverThePricedRegions) {
