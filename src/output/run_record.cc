@@ -74,6 +74,25 @@ std::vector<OutputDigest> DigestOutputs(const std::vector<OutputFile>& files) {
   return digests;
 }
 
+std::string MissingParitiesRecordJson(const Survey& survey, const ParityResult& result) {
+  Json out = Json::array();
+  if (result.heading_rules.size() != static_cast<size_t>(survey.num_headings())) return out.dump();
+  auto codes = [&](const std::vector<int>& regions) {
+    Json list = Json::array();
+    for (int r : regions) list.push_back(ValidUtf8(std::string(survey.regions.Code(r))));
+    return list;
+  };
+  for (int h = 0; h < survey.num_headings(); ++h) {
+    Json entry = Json::object();
+    entry["heading"] = ValidUtf8(survey.heading_codes[h]);
+    entry["rule"] = ValidUtf8(result.heading_rules[h].ToString());
+    entry["regions_imputed"] = codes(result.imputed_regions[h]);
+    entry["regions_missing"] = codes(result.missing_regions[h]);
+    out.push_back(entry);
+  }
+  return out.dump();
+}
+
 std::string RunRecordJson(const RunRecord& record) {
   Json out;
   out["schema_version"] = kRunRecordSchemaVersion;

@@ -67,6 +67,10 @@ TEST(ImputationCli, ComputeWritesSourceColumnsAndTheRules) {
   EXPECT_EQ(run["configuration"]["missing_parities"]["default"], "leave");
   EXPECT_EQ(run["computation"]["num_parities_imputed"], 1);
   EXPECT_EQ(run["computation"]["num_parities_missing"], 0);
+  ASSERT_EQ(run["missing_parities"].size(), 4u);  // bakery, fuel, fares, rent
+  EXPECT_EQ(run["missing_parities"][1].dump(),
+            R"({"heading":"fuel","regions_imputed":["CIR"],"regions_missing":[],"rule":"like:fares"})");
+  EXPECT_EQ(run["missing_parities"][3]["rule"], "leave");
   const std::string report = ReadTextFile(dir + "/out/report.html");
   EXPECT_NE(report.find("<tr><td>fuel</td><td>like:fares</td><td>CIR</td><td></td></tr>"),
             std::string::npos);
