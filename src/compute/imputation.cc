@@ -182,6 +182,13 @@ bool ImputeMissingHeadingParities(const ImputationInput& input, const Classifica
   for (int h = 0; h < num_headings; ++h) {
     const HeadingRule& rule = input.rules[h];
     const std::string& code = tree.nodes()[tree.headings()[h]].code;
+    // Proxies (an aggregate per ancestor for `parent`) are built only for
+    // headings with a region to fill; a like: rule is checked regardless.
+    bool needed = false;
+    for (int r = 0; r < input.log_parity.rows() && !needed; ++r) {
+      needed = !std::isfinite(input.log_parity(r, h)) && Spends(input.expenditure(r, h));
+    }
+    if (!needed && rule.rule != ImputationRule::kLike) continue;
     std::vector<Eigen::VectorXd> proxies;
     ParitySource source = ParitySource::kImputed;
     switch (rule.rule) {
