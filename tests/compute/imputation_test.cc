@@ -380,6 +380,38 @@ TEST(ExternalParities, BootstrapDrawsTheFileParitiesWithTheirStandardErrors) {
   }
 }
 
+TEST(Imputation, BootstrapReplicateThatLosesAHeadingAppliesTheRule) {
+  // Rent gets a second item priced in A, B, C only; D prices the first. A
+  // replicate that draws the second item twice leaves D without rent
+  // (probability 1/4 each): the parent rule fills it and counts it.
+  const std::string folder = MakeTempDir("imputation_bootstrap");
+  WriteSurvey(folder);
+  WriteTextFile(folder + "/prices.csv", testing::ReadTextFile(folder + "/prices.csv") +
+                                            "A,rent2_item,480,rent\nB,rent2_item,590,rent\n"
+                                            "C,rent2_item,470,rent\nD,rent_item,520,rent\n");
+  SensitivityOptions options;
+  options.run_leave_one_out = options.run_coverage = options.run_methods = false;
+  options.replicates = 40;
+  for (const char* rule : {"leave", "parent"}) {
+    Computed run;
+    LoadAndCompute(folder, std::string(kTree) + "missing_parities: {default: " + rule + "}\n",
+                   &run);
+    SensitivityResult result;
+    SensitivitySummary summary;
+    ASSERT_TRUE(RunSensitivity(run.survey, ComputeOptions::FromConfig(run.config), options,
+                               &result, &summary))
+        << summary.message;
+    SCOPED_TRACE(rule);
+    if (std::string(rule) == "leave") {
+      EXPECT_GT(summary.num_replicates_region_lost, 0);
+      EXPECT_EQ(summary.num_replicates_imputed, 0);
+    } else {
+      EXPECT_EQ(summary.num_replicates_region_lost, 0);
+      EXPECT_GT(summary.num_replicates_imputed, 0);
+    }
+  }
+}
+
 TEST(ExternalParities, BadRowsAreRejectedWithTheirPlace) {
   const std::string folder = MakeTempDir("external_bad");
   WriteSurvey(folder);
