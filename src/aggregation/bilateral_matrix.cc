@@ -68,7 +68,9 @@ MaskedArrays MaskInputs(const Eigen::MatrixXd& price, const Eigen::MatrixXd& exp
     for (Eigen::Index r = 0; r < num_regions; ++r) {
       const double p = price(r, h);
       const double e = expenditure(r, h);
-      if (!(std::isfinite(p) && std::isfinite(e) && p > 0.0 && e > 0.0)) continue;
+      // Zero expenditure keeps the heading (weight 0 on that side, as the
+      // CPI Manual formulas give); no expenditure row (NaN) does not.
+      if (!(std::isfinite(p) && std::isfinite(e) && p > 0.0 && e >= 0.0)) continue;
       m.mask(r, h) = 1.0;
       m.expenditure(r, h) = e;
       if (need_value) {
@@ -99,7 +101,7 @@ void ForEachPairInTiles(Eigen::Index num_regions, const Visit& visit) {
 
 // Fills Laspeyres and Paasche and/or Fisher from the masked arrays and
 // value_a(a, b), the sum over the pair's matched headings of e_a = p_a q_a.
-// Pairs without a matched heading are NaN; the diagonal of a region with any
+// Pairs where either region spends nothing on the matched headings are NaN; the diagonal of a region with any
 // heading is exactly 1 (rounding would otherwise leave 1 ± 1e-16 where the
 // identity test requires 1).
 void FillValueIndices(const MaskedArrays& m, const Eigen::MatrixXd& value_a,
@@ -117,7 +119,7 @@ void FillValueIndices(const MaskedArrays& m, const Eigen::MatrixXd& value_a,
     double laspeyres = kNaN, paasche = kNaN, fisher = kNaN;
     if (a == b && value_a(a, a) > 0.0) {
       laspeyres = paasche = fisher = 1.0;
-    } else if (value_a(a, b) > 0.0) {
+    } else if (value_a(a, b) > 0.0 && value_a(b, a) > 0.0) {
       laspeyres = value_b_basket_a(a, b) / value_a(a, b);
       // Paasche(a, b) = sum e_b / sum p_a q_b: the same two sums for (b, a).
       paasche = value_a(b, a) / value_b_basket_a(b, a);
@@ -154,7 +156,7 @@ Eigen::MatrixXd Tornqvist(const Eigen::MatrixXd& value_a, MaskedArrays* m) {
   ForEachPairInTiles(num_regions, [&](Eigen::Index a, Eigen::Index b) {
     if (a == b && value_a(a, a) > 0.0) {
       tornqvist(a, b) = 1.0;
-    } else if (!(value_a(a, b) > 0.0)) {
+    } else if (!(value_a(a, b) > 0.0 && value_a(b, a) > 0.0)) {
       tornqvist(a, b) = kNaN;
     }
   });
@@ -192,9 +194,10 @@ BilateralMatrices AllPairsWeighted(const Eigen::MatrixXd& price, const Eigen::Ma
   MaskedArrays m = MaskInputs(price, expenditure, need_value, options.tornqvist);
 
   BilateralMatrices result;
-  // (a, b): sum over matched headings of e_a = p_a q_a. It is > 0 exactly
-  // where the pair matches a heading (a sum of positive terms), so it stands
-  // in for the count when marking empty pairs.
+  // (a, b): sum over matched headings of e_a = p_a q_a. A pair has indices
+  // exactly where both value_a(a, b) and value_a(b, a) are > 0 (each region
+  // spends on some matched heading), so these stand in for the count when
+  // marking empty pairs.
   Eigen::MatrixXd value_a(num_regions, num_regions);
   value_a.noalias() = m.expenditure * m.mask.transpose();
   if (options.num_matched) {

@@ -12,6 +12,7 @@
 #include <numeric>
 
 #include "paritas/base/text.h"
+#include "paritas/compute/imputation.h"
 
 namespace paritas {
 namespace {
@@ -89,6 +90,17 @@ bool ComputeOptions::IsValid(std::string* error) const {
     *error = "num_threads must be 0 (all cores) or more";
     return false;
   }
+  HeadingRule rule;
+  if (!HeadingRule::Parse(missing_parities.default_rule, &rule, error)) {
+    *error = "missing_parities.default: " + *error;
+    return false;
+  }
+  for (const auto& [heading, text] : missing_parities.headings) {
+    if (!HeadingRule::Parse(text, &rule, error)) {
+      *error = "missing_parities.headings." + heading + ": " + *error;
+      return false;
+    }
+  }
   return true;
 }
 
@@ -100,6 +112,7 @@ ComputeOptions ComputeOptions::FromConfig(const RunConfig& config) {
   options.aggregation = config.aggregation;
   options.reference = config.reference;
   options.num_threads = config.threads;
+  options.missing_parities = config.missing_parities;
   return options;
 }
 
@@ -251,6 +264,121 @@ void ElementaryStage(const Survey& survey, const ComputeOptions& options, int th
   }
 }
 
+// The rule of each heading: its own under missing_parities.headings, else
+// the default. Returns false with the summary set when a listed heading is
+// not a basic heading of the survey.
+bool ResolveRules(const Survey& survey, const MissingParitiesSettings& settings,
+                  std::vector<HeadingRule>* rules, ComputeSummary* summary) {
+  HeadingRule fallback;
+  std::string error;
+  HeadingRule::Parse(settings.default_rule, &fallback, &error);  // validated by IsValid
+  rules->assign(survey.num_headings(), fallback);
+  for (const auto& [code, text] : settings.headings) {
+    const int h = survey.classification.FindHeading(code);
+    if (h < 0) {
+      summary->outcome = ComputeOutcome::kInvalidOptions;
+      summary->message =
+          "missing_parities.headings: '" + code + "' is not a basic heading of the classification";
+      const std::string nearest = NearestName(code, survey.heading_codes);
+      if (!nearest.empty()) summary->message += "; did you mean '" + nearest + "'?";
+      return false;
+    }
+    HeadingRule::Parse(text, &(*rules)[h], &error);
+  }
+  return true;
+}
+
+// Stage 1b: a heading the external file gives takes the file's parities in
+// place of its quotes' (the quotes are ignored, with a warning), except
+// under rule `external`, where the quotes' parities stay and the file only
+// fills the regions without one (the imputation stage).
+void ExternalStage(const Survey& survey, const std::vector<HeadingRule>& rules,
+                   ParityResult* result, ComputeSummary* summary) {
+  if (survey.external_log_parity.cols() != survey.num_headings()) return;
+  const int num_regions = survey.num_regions();
+  for (int h = 0; h < survey.num_headings(); ++h) {
+    const Eigen::VectorXd file = survey.external_log_parity.col(h);
+    if (!file.array().isFinite().any() || rules[h].rule == ImputationRule::kExternal) continue;
+    HeadingParities& heading = result->headings[h];
+    if (heading.num_cells > 0) {
+      int regions = 0;
+      for (int r = 0; r < num_regions; ++r) regions += heading.num_quotes(r) > 0 ? 1 : 0;
+      summary->warnings.push_back(
+          "heading '" + survey.heading_codes[h] + "': parities taken from " + survey.external_path +
+          "; its " + std::to_string(heading.num_quotes.sum()) + " price quotes in " +
+          std::to_string(regions) + " region" + (regions == 1 ? "" : "s") +
+          " are ignored (give the heading rule 'external' to keep the quotes and fill only the "
+          "regions without a parity from the file)");
+    }
+    HeadingParities external;
+    external.heading = h;
+    external.log_parity = file;
+    external.log_se = survey.external_log_se.col(h);
+    external.log_se_robust = Eigen::VectorXd::Constant(num_regions, std::nan(""));
+    external.num_items = Eigen::VectorXi::Zero(num_regions);
+    external.num_quotes = Eigen::VectorXi::Zero(num_regions);
+    external.num_regions_priced = static_cast<int>(file.array().isFinite().count());
+    heading = std::move(external);
+  }
+}
+
+// Stage 1c: marks each heading parity's source and fills the missing ones
+// by rule (imputation.h). Returns false with the summary set on a bad rule.
+bool ImputationStage(const Survey& survey, const ComputeOptions& options, ParityResult* result,
+                     ComputeSummary* summary) {
+  const int num_regions = survey.num_regions();
+  const int num_headings = survey.num_headings();
+  if (!ResolveRules(survey, options.missing_parities, &result->heading_rules, summary)) {
+    return false;
+  }
+  ExternalStage(survey, result->heading_rules, result, summary);
+  ImputationInput input;
+  input.log_parity.resize(num_regions, num_headings);
+  input.source = Eigen::MatrixXi::Zero(num_regions, num_headings);
+  for (int h = 0; h < num_headings; ++h) {
+    const HeadingParities& heading = result->headings[h];
+    const bool from_file = heading.num_cells == 0 && heading.num_regions_priced > 0;
+    for (int r = 0; r < num_regions; ++r) {
+      const double value = heading.log_parity.size() == num_regions ? heading.log_parity(r)
+                                                                    : std::nan("");
+      input.log_parity(r, h) = std::isfinite(value) ? value : std::nan("");
+      if (std::isfinite(value)) {
+        input.source(r, h) =
+            static_cast<int>(from_file ? ParitySource::kExternal : ParitySource::kPriced);
+      }
+    }
+  }
+  input.expenditure = survey.expenditure;
+  input.external_log_parity = survey.external_log_parity;
+  input.rules = result->heading_rules;
+  ImputationResult imputed;
+  std::string error;
+  if (!ImputeMissingHeadingParities(input, survey.classification,
+                                    *FindAggregationMethod(options.aggregation), &imputed,
+                                    &error)) {
+    summary->outcome = ComputeOutcome::kInvalidOptions;
+    summary->message = error;
+    return false;
+  }
+  for (int h = 0; h < num_headings; ++h) {
+    HeadingParities& heading = result->headings[h];
+    heading.log_parity = imputed.log_parity.col(h);
+    if (heading.log_se.size() != num_regions) {
+      heading.log_se = Eigen::VectorXd::Constant(num_regions, std::nan(""));
+    }
+    if (heading.log_se_robust.size() != num_regions) heading.log_se_robust = heading.log_se;
+    for (int r : imputed.imputed[h]) heading.log_se(r) = heading.log_se_robust(r) = std::nan("");
+  }
+  summary->num_parities_imputed = imputed.num_imputed;
+  for (const std::vector<int>& regions : imputed.left_missing) {
+    summary->num_parities_missing += static_cast<int>(regions.size());
+  }
+  result->heading_source = std::move(imputed.source);
+  result->imputed_regions = std::move(imputed.imputed);
+  result->missing_regions = std::move(imputed.left_missing);
+  return true;
+}
+
 // Warns of headings without quotes, counts the headings used; returns false
 // with the summary set when some heading's regions are not linked.
 bool CheckHeadings(const Survey& survey, const ParityResult& result, ComputeSummary* summary) {
@@ -258,6 +386,10 @@ bool CheckHeadings(const Survey& survey, const ParityResult& result, ComputeSumm
   for (int h = 0; h < survey.num_headings(); ++h) {
     const HeadingParities& heading = result.headings[h];
     if (heading.num_cells == 0) {
+      if (heading.log_parity.array().isFinite().any()) {
+        ++summary->num_headings_used;  // external or imputed parities
+        continue;
+      }
       summary->warnings.push_back("heading '" + survey.heading_codes[h] +
                                   "' has no price quotes: left out of every aggregate");
       continue;
@@ -329,7 +461,7 @@ Eigen::VectorXd FillLeafNode(const HeadingParities& heading, int h, NodeResult* 
   node->num_items = heading.num_items;
   node->num_quotes = heading.num_quotes;
   for (int r = 0; r < node->num_headings.size(); ++r) {
-    node->num_headings(r) = heading.num_items(r) > 0 ? 1 : 0;
+    node->num_headings(r) = std::isfinite(heading.log_parity(r)) ? 1 : 0;
   }
   return heading.log_parity;
 }
@@ -373,7 +505,7 @@ std::string UnpricedAggregate(const Survey& survey, const ParityResult& result,
                               const ClassificationNode& n) {
   std::vector<std::string> codes;
   for (int h : n.headings) {
-    if (result.headings[h].num_cells > 0) return "";
+    if (result.headings[h].log_parity.array().isFinite().any()) return "";
     if (codes.size() < 8) codes.push_back(survey.heading_codes[h]);
   }
   if (n.headings.size() > codes.size()) codes.back() = "...";
@@ -467,6 +599,7 @@ bool ComputeParities(const Survey& survey, const ComputeOptions& options, Parity
 
   auto start = std::chrono::steady_clock::now();
   ElementaryStage(survey, options, threads, result);
+  if (!ImputationStage(survey, options, result, summary)) return false;
   summary->elementary_seconds = SecondsSince(start);
   if (!CheckHeadings(survey, *result, summary)) return false;
 

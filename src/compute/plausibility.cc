@@ -25,6 +25,7 @@ constexpr KindLabel kKinds[] = {
     {"computation", "computation"},
     {"weights", "spending weights"},
     {"partial-basket", "partial basket"},
+    {"missing-parity", "missing heading parity"},
     {"single-item-heading", "single-item heading"},
     {"thin-evidence", "thin evidence"},
     {"implausible-level", "implausible level"},
@@ -60,6 +61,7 @@ class Checker {
   void Run() {
     CheckWeights();
     CheckBaskets();
+    CheckMissingParities();
     CheckEvidence();
     CheckLevels();
     CheckSpreads();
@@ -106,20 +108,55 @@ class Checker {
     }
   }
 
+  // The heading parity's source (imputation.h); without a source matrix
+  // (results built by hand) every parity counts as priced.
+  ParitySource Source(int h, int r) const {
+    if (result_.heading_source.rows() == survey_.num_regions() &&
+        result_.heading_source.cols() == survey_.num_headings()) {
+      return static_cast<ParitySource>(result_.heading_source(r, h));
+    }
+    return std::isfinite(HeadingParity(h, r)) ? ParitySource::kPriced : ParitySource::kNone;
+  }
+
+  // "h1 5.0 %, h2 3.1 % and 2 more", largest first.
+  std::string ShareList(std::vector<std::pair<double, int>> list, double total) const {
+    std::sort(list.begin(), list.end(), [](const auto& a, const auto& b) {
+      return a.first != b.first ? a.first > b.first : a.second < b.second;
+    });
+    std::string text;
+    for (size_t k = 0; k < list.size() && k < 3; ++k) {
+      text += (k > 0 ? ", " : "") + survey_.heading_codes[list[k].second] + " " +
+              Percent(list[k].first / total);
+    }
+    if (list.size() > 3) text += " and " + std::to_string(list.size() - 3) + " more";
+    return text;
+  }
+
+  // A region's share of the node's spending on imputed parities: the
+  // partial-basket sentence's middle part (empty when none).
+  std::string ImputedPart(const std::vector<std::pair<double, int>>& imputed, double total) const {
+    if (imputed.empty()) return "";
+    double sum = 0.0;
+    for (const auto& entry : imputed) sum += entry.first;
+    return "; " + Percent(sum / total) + " rests on imputed parities: " + ShareList(imputed, total);
+  }
+
   void BasketShare(int n, int r, const ClassificationNode& node) {
     double total = 0.0, covered = 0.0;
-    std::vector<std::pair<double, int>> missing;
+    std::vector<std::pair<double, int>> missing, imputed;
     for (int h : node.headings) {
       const double e = Spending(r, h);
       total += e;
-      if (std::isfinite(HeadingParity(h, r))) {
+      const ParitySource source = Source(h, r);
+      if (source == ParitySource::kPriced || source == ParitySource::kExternal) {
         covered += e;
       } else if (e > 0) {
-        missing.push_back({e, h});
+        (source == ParitySource::kImputed ? imputed : missing).push_back({e, h});
       }
     }
     if (node.is_leaf) {
-      const bool priced = std::isfinite(HeadingParity(node.headings.front(), r));
+      const ParitySource source = Source(node.headings.front(), r);
+      const bool priced = source == ParitySource::kPriced || source == ParitySource::kExternal;
       out_->basket_share(n, r) = priced ? 1.0 : (total > 0 ? 0.0 : std::nan(""));
       return;
     }
@@ -127,20 +164,51 @@ class Checker {
     const double share = covered / total;
     out_->basket_share(n, r) = share;
     if (share >= checks_.min_basket_share || !std::isfinite(result_.nodes[n].parity(r))) return;
-    std::sort(missing.begin(), missing.end(), [](const auto& a, const auto& b) {
-      return a.first != b.first ? a.first > b.first : a.second < b.second;
-    });
-    std::string without;
-    for (size_t k = 0; k < missing.size() && k < 3; ++k) {
-      without += (k > 0 ? ", " : "") + survey_.heading_codes[missing[k].second] + " " +
-                 Percent(missing[k].first / total);
+    std::string text = "aggregate '" + NodeCode(n) + "', region '" + RegionCode(r) + "': only " +
+                       Percent(share) +
+                       " of its spending rests on headings it has parities for "
+                       "(checks.min_basket_share " +
+                       Percent(checks_.min_basket_share) + ")" + ImputedPart(imputed, total);
+    if (!missing.empty()) {
+      text += "; without a parity: " + ShareList(missing, total) +
+              "; its level there is in effect taken from its other headings";
     }
-    if (missing.size() > 3) without += " and " + std::to_string(missing.size() - 3) + " more";
-    Add("partial-basket", n, r,
-        "aggregate '" + NodeCode(n) + "', region '" + RegionCode(r) + "': only " + Percent(share) +
-            " of its spending rests on headings it has parities for (checks.min_basket_share " +
-            Percent(checks_.min_basket_share) + "); without a parity: " + without +
-            "; its level there is in effect taken from its other headings");
+    Add("partial-basket", n, r, std::move(text));
+  }
+
+  // One warning per heading and region that spends on the heading without
+  // a parity after its rule, and one per heading whose rule imputed some.
+  void CheckMissingParities() {
+    if (result_.missing_regions.size() != static_cast<size_t>(survey_.num_headings())) return;
+    const std::string& root = NodeCode(0);
+    for (int h = 0; h < survey_.num_headings(); ++h) {
+      const std::string rule = result_.heading_rules[h].ToString();
+      const std::string head = "heading '" + survey_.heading_codes[h] + "'";
+      // A heading without a parity anywhere is named once by the computation
+      // ("has no price quotes"), not once per region.
+      bool any = false;
+      for (int r = 0; r < survey_.num_regions() && !any; ++r) {
+        any = std::isfinite(HeadingParity(h, r));
+      }
+      for (int r : any ? result_.missing_regions[h] : std::vector<int>()) {
+        double total = 0.0;
+        for (int g = 0; g < survey_.num_headings(); ++g) total += Spending(r, g);
+        Add("missing-parity", HeadingNode(h), r,
+            head + ", region '" + RegionCode(r) + "': " + Percent(Spending(r, h) / total) +
+                " of its '" + root + "' spending but no parity (rule " + rule +
+                "): the heading drops out of the region's comparisons pair by pair");
+      }
+      const std::vector<int>& imputed = result_.imputed_regions[h];
+      if (imputed.empty()) continue;
+      std::vector<std::string> codes;
+      for (size_t k = 0; k < imputed.size() && k < 10; ++k) codes.push_back(RegionCode(imputed[k]));
+      if (imputed.size() > 10) codes.push_back("...");
+      Add("missing-parity", HeadingNode(h), -1,
+          head + ": parities of " + std::to_string(imputed.size()) + " region" +
+              (imputed.size() == 1 ? "" : "s") + " without one filled by rule " + rule + " (" +
+              JoinNames(codes) + ")");
+      for (int r : imputed) MarkKind("missing-parity", HeadingNode(h), r, out_);
+    }
   }
 
   // Items priced per heading, and per region the items and quotes behind

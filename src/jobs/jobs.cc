@@ -292,6 +292,8 @@ std::string ComputeRunJson(const RunConfig& config, const ComputeJobSummary& sum
   record.warning_counts = CountWarnings(summary.warnings);
   record.outputs = summary.outputs;
   record.stages = summary.stages;
+  record.sections.push_back(
+      {"missing_parities", MissingParitiesRecordJson(summary.survey, summary.result)});
   return RunRecordJson(record);
 }
 

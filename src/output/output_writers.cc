@@ -101,8 +101,21 @@ std::string ParitiesCsv(const Survey& survey, const ParityResult& result,
   const int64_t num_rows = static_cast<int64_t>(result.nodes.size()) * num_regions;
   const auto& tree = survey.classification.nodes();
   const std::vector<std::string> region_fields = RegionFields(survey);
+  // Results built without the imputation stage count every parity as priced.
+  Eigen::MatrixXi source = result.heading_source;
+  if (source.rows() != num_regions || source.cols() != survey.num_headings()) {
+    source = Eigen::MatrixXi::Zero(num_regions, survey.num_headings());
+    for (const NodeResult& node : result.nodes) {
+      if (!node.is_heading) continue;
+      for (int r = 0; r < num_regions; ++r) {
+        if (std::isfinite(node.parity(r))) {
+          source(r, node.heading) = static_cast<int>(ParitySource::kPriced);
+        }
+      }
+    }
+  }
   return FormatRows(
-      num_rows, kRowsPerBlock, 128,
+      num_rows, kRowsPerBlock, 160,
       [&](int64_t row, std::string* out) {
         const NodeResult& node = result.nodes[row / num_regions];
         const int r = static_cast<int>(row % num_regions);
@@ -129,6 +142,15 @@ std::string ParitiesCsv(const Survey& survey, const ParityResult& result,
         AppendInt(node.num_quotes(r), out);
         *out += ',';
         AppendInt(node.num_headings(r), out);
+        const Eigen::Vector4d shares =
+            SourceShares(survey.classification, node.node, r, survey.expenditure, source);
+        *out += ',';
+        *out += node.is_heading ? ToString(static_cast<ParitySource>(source(r, node.heading)))
+                                : SourceLabel(shares);
+        for (int k = 0; k < 3; ++k) {
+          *out += ',';
+          AppendShortest(shares(k), out);
+        }
         if (plausibility != nullptr) {
           *out += ',';
           AppendShortest(plausibility->basket_share(node.node, r), out);
@@ -138,7 +160,8 @@ std::string ParitiesCsv(const Survey& survey, const ParityResult& result,
         *out += '\n';
       },
       std::string("node,kind,region,parity,expenditure,real_expenditure,real_per_capita_index,"
-                  "log_se,log_se_robust,rank,num_items,num_quotes,num_headings") +
+                  "log_se,log_se_robust,rank,num_items,num_quotes,num_headings,source,"
+                  "share_priced,share_imputed,share_external") +
           (plausibility != nullptr ? ",basket_share,warnings\n" : "\n"));
 }
 

@@ -6,6 +6,7 @@
 #include "output/report_parts.h"
 #include "paritas/base/text.h"
 #include "paritas/aggregation/aggregation_method.h"
+#include "paritas/compute/compute.h"
 #include "paritas/elementary/elementary_method.h"
 #include "paritas/survey/config.h"
 
@@ -35,6 +36,42 @@ std::string RepresentativityTable(const Context& ctx) {
          rows + "</tbody></table></div></dd>";
 }
 
+// The missing_parities rules and what they did: one row per heading with a
+// rule other than leave, or with regions imputed or left without a parity.
+std::string MissingParitiesPart(const Context& ctx) {
+  const ParityResult& result = ctx.result;
+  const int num_headings = ctx.survey.num_headings();
+  if (result.heading_rules.size() != static_cast<size_t>(num_headings)) return "";
+  auto regions = [&](const std::vector<int>& list) {
+    std::string text;
+    for (size_t k = 0; k < list.size() && k < 10; ++k) text += (k > 0 ? ", " : "") + ctx.Code(list[k]);
+    if (list.size() > 10) text += ", ... (" + std::to_string(list.size()) + ")";
+    return HtmlEscape(text);
+  };
+  std::string rows;
+  for (int h = 0; h < num_headings; ++h) {
+    const HeadingRule& rule = result.heading_rules[h];
+    const std::vector<int>& imputed = result.imputed_regions[h];
+    const std::vector<int>& missing = result.missing_regions[h];
+    if (rule.rule == ImputationRule::kLeave && imputed.empty() && missing.empty()) continue;
+    rows += "<tr><td>" + HtmlEscape(ctx.survey.heading_codes[h]) + "</td><td>" + HtmlEscape(rule.ToString()) +
+            "</td><td>" + regions(imputed) + "</td><td>" + regions(missing) + "</td></tr>";
+  }
+  std::string out =
+      "<dt>Missing heading parities</dt><dd>A region that spends on a basic heading without a parity there gets "
+      "one by the heading's rule (<code>missing_parities</code>): <i>leave</i> (the heading drops out of its "
+      "comparisons pair by pair), <i>parent</i> (its parity of the parent aggregate without the heading), "
+      "<i>like:&lt;heading&gt;</i> (its parity of a related heading) or <i>external</i> (the external parities "
+      "file), each linked to the heading's scale over the regions priced in it; the reference parities of "
+      "international comparisons for basic headings without prices follow the same idea. The <code>source</code> "
+      "and <code>share_*</code> columns of parities.csv say how much of each aggregate rests on imputed "
+      "parities.";
+  if (rows.empty()) return out + " Every region that spends on a heading has a parity of its own.</dd>";
+  return out + "<table><thead><tr><th>heading</th><th>rule</th><th>regions imputed</th><th>regions still without "
+               "a parity</th></tr></thead><tbody>" +
+         rows + "</tbody></table></dd>";
+}
+
 std::string MethodsSection(const Context& ctx) {
   std::string out = OpenSection("methods", "Methods and sources");
   const RunConfig* c = ctx.in.config;
@@ -62,6 +99,7 @@ std::string MethodsSection(const Context& ctx) {
          "of the World Economy</i> (2013).</dd>";
   out += "<dt>Reference</dt><dd>Every node is normalised on its own: " + HtmlEscape(ctx.root.reference_used) +
          " = 100. Real expenditure is nominal expenditure divided by the parity / 100.</dd>";
+  out += MissingParitiesPart(ctx);
   out += "</dl>\n<p class=\"note\">Sources cited from memory of the published works.</p>\n";
   return out + "</section>\n";
 }

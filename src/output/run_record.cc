@@ -30,7 +30,8 @@ Json ConfigJson(const RunConfig& config) {
   Json survey = {{"prices", ValidUtf8(config.survey.prices)},
                  {"expenditure", ValidUtf8(config.survey.expenditure)},
                  {"regions", ValidUtf8(config.survey.regions)},
-                 {"items", ValidUtf8(config.survey.items)}};
+                 {"items", ValidUtf8(config.survey.items)},
+                 {"external_parities", ValidUtf8(config.survey.external_parities)}};
   Json out = {{"config_path", ValidUtf8(config.config_path)},
               {"survey", survey},
               {"classification", config.has_classification ? ValidUtf8(config.classification_source)
@@ -47,6 +48,12 @@ Json ConfigJson(const RunConfig& config) {
               {"robust_standard_errors", config.robust_standard_errors},
               {"report", config.report},
               {"threads", config.threads}};
+  Json rules = Json::object();
+  for (const auto& [heading, rule] : config.missing_parities.headings) {
+    rules[ValidUtf8(heading)] = ValidUtf8(rule);
+  }
+  out["missing_parities"] = {{"default", ValidUtf8(config.missing_parities.default_rule)},
+                             {"headings", rules}};
   out["limits"] = {{"max_file_bytes", config.limits.max_file_bytes},
                    {"max_yaml_bytes", config.limits.max_yaml_bytes},
                    {"max_record_bytes", config.limits.max_record_bytes},
@@ -65,6 +72,25 @@ std::vector<OutputDigest> DigestOutputs(const std::vector<OutputFile>& files) {
                   internal::Sha256Hex(files[k].contents)};
   }
   return digests;
+}
+
+std::string MissingParitiesRecordJson(const Survey& survey, const ParityResult& result) {
+  Json out = Json::array();
+  if (result.heading_rules.size() != static_cast<size_t>(survey.num_headings())) return out.dump();
+  auto codes = [&](const std::vector<int>& regions) {
+    Json list = Json::array();
+    for (int r : regions) list.push_back(ValidUtf8(std::string(survey.regions.Code(r))));
+    return list;
+  };
+  for (int h = 0; h < survey.num_headings(); ++h) {
+    Json entry = Json::object();
+    entry["heading"] = ValidUtf8(survey.heading_codes[h]);
+    entry["rule"] = ValidUtf8(result.heading_rules[h].ToString());
+    entry["regions_imputed"] = codes(result.imputed_regions[h]);
+    entry["regions_missing"] = codes(result.missing_regions[h]);
+    out.push_back(entry);
+  }
+  return out.dump();
 }
 
 std::string RunRecordJson(const RunRecord& record) {
@@ -127,7 +153,9 @@ std::string RunRecordJson(const RunRecord& record) {
   if (record.compute != nullptr) {
     out["computation"] = {{"num_headings_given", record.compute->num_headings_given},
                           {"num_headings_used", record.compute->num_headings_used},
-                          {"num_aggregates", record.compute->num_aggregates}};
+                          {"num_aggregates", record.compute->num_aggregates},
+                          {"num_parities_imputed", record.compute->num_parities_imputed},
+                          {"num_parities_missing", record.compute->num_parities_missing}};
   }
   out["num_warnings"] = record.warnings.size();
   if (!record.warning_counts.empty()) {
@@ -186,7 +214,8 @@ std::vector<std::string> RunDifferences(const std::string& this_json, const std:
   std::vector<std::string> out;
   if (a.is_discarded() || b.is_discarded()) return {"a run record is not valid JSON"};
   auto text = [](const Json& v) { return v.is_string() ? v.get<std::string>() : v.dump(); };
-  for (const char* key : {"reference", "elementary", "aggregation", "invalid_rows", "representative_weight"}) {
+  for (const char* key : {"reference", "elementary", "aggregation", "invalid_rows", "representative_weight",
+                          "missing_parities"}) {
     const Json x = a.value("configuration", Json::object()).value(key, Json());
     const Json y = b.value("configuration", Json::object()).value(key, Json());
     if (x != y) out.push_back(std::string(key) + ": " + text(x) + " in this run, " + text(y) + " in the other");

@@ -15,6 +15,7 @@
 #include "paritas/aggregation/aggregation_method.h"
 #include "paritas/base/csv.h"
 #include "paritas/base/text.h"
+#include "paritas/compute/imputation.h"
 #include "paritas/elementary/elementary_method.h"
 #include "survey/classification_yaml.h"
 #include "survey/yaml_load.h"
@@ -91,11 +92,15 @@ const std::vector<std::string> kTopKeys = {"survey",
                                            "limits",
                                            "duplicate_quotes",
                                            "strict",
-                                           "checks"};
+                                           "checks",
+                                           "missing_parities"};
 const std::vector<std::string> kCheckKeys = {"min_basket_share",   "min_items",
                                              "min_quotes",         "max_level_ratio",
                                              "max_spread_percent", "gross_outlier_ratio"};
 const std::vector<std::string> kSurveyKeys = {"prices", "expenditure", "regions", "items"};
+// Optional survey files read apart from the four above.
+const std::vector<std::string> kSurveyExtraKeys = {"external_parities"};
+const std::vector<std::string> kMissingParityKeys = {"default", "headings"};
 // Keys of a survey file given as a mapping.
 const std::vector<std::string> kFileKeys = {"path", "delimiter", "decimal"};
 const std::vector<std::string> kLimitKeys = {"max_file_bytes", "max_yaml_bytes", "max_record_bytes",
@@ -258,6 +263,9 @@ class ConfigParser {
     if (const YAML::Node node = root["checks"]) {
       if (!ParseChecks(node, error)) return false;
     }
+    if (const YAML::Node node = root["missing_parities"]) {
+      if (!ParseMissingParities(node, error)) return false;
+    }
     return ParseMethods(root, error) && ParseOutput(root, error) && ParseSettings(root, error);
   }
 
@@ -270,7 +278,15 @@ class ConfigParser {
       *error = Where(survey) + "'survey' must be a mapping with keys " + JoinNames(kSurveyKeys);
       return false;
     }
-    if (!CheckKeys(survey, kSurveyKeys, "survey", error)) return false;
+    std::vector<std::string> survey_keys = kSurveyKeys;
+    survey_keys.insert(survey_keys.end(), kSurveyExtraKeys.begin(), kSurveyExtraKeys.end());
+    if (!CheckKeys(survey, survey_keys, "survey", error)) return false;
+    if (const YAML::Node node = survey["external_parities"]) {
+      if (!SurveyFile(node, "survey.external_parities", &config_->survey.external_parities,
+                      &config_->survey.external_parities_format, error)) {
+        return false;
+      }
+    }
     SurveyFiles& files = config_->survey;
     std::string* const paths[] = {&files.prices, &files.expenditure, &files.regions, &files.items};
     CsvFormat* const formats[] = {&files.prices_format, &files.expenditure_format,
@@ -450,6 +466,44 @@ class ConfigParser {
   }
 
   // The thresholds of the plausibility checks.
+  // missing_parities: {default: <rule>, headings: {<heading>: <rule>, ...}}.
+  bool ParseMissingParities(const YAML::Node& node, std::string* error) {
+    if (!node.IsMap()) {
+      *error = Where(node) + "'missing_parities' must be a mapping with keys " +
+               JoinNames(kMissingParityKeys);
+      return false;
+    }
+    if (!CheckKeys(node, kMissingParityKeys, "missing_parities", error)) return false;
+    MissingParitiesSettings& settings = config_->missing_parities;
+    HeadingRule rule;
+    if (const YAML::Node value = node["default"]) {
+      if (!Scalar(value, "missing_parities.default", &settings.default_rule, error)) return false;
+      if (!HeadingRule::Parse(settings.default_rule, &rule, error)) {
+        *error = Where(value) + "missing_parities.default: " + *error;
+        return false;
+      }
+    }
+    const YAML::Node headings = node["headings"];
+    if (!headings) return true;
+    if (!headings.IsMap()) {
+      *error = Where(headings) +
+               "missing_parities.headings must be a mapping of heading codes to rules";
+      return false;
+    }
+    for (const auto& entry : headings) {
+      const std::string code = entry.first.as<std::string>();
+      const std::string key = "missing_parities.headings." + code;
+      std::string text;
+      if (!Scalar(entry.second, key, &text, error)) return false;
+      if (!HeadingRule::Parse(text, &rule, error)) {
+        *error = Where(entry.second) + key + ": " + *error;
+        return false;
+      }
+      settings.headings.emplace_back(code, text);
+    }
+    return true;
+  }
+
   bool ParseChecks(const YAML::Node& node, std::string* error) {
     if (!node.IsMap()) {
       *error = Where(node) + "'checks' must be a mapping with keys " + JoinNames(kCheckKeys);
@@ -732,6 +786,10 @@ bool RunConfig::IsValid(std::string* error) const {
       *error = "survey." + std::string(keys[k]) + ": " + *error;
       return false;
     }
+  }
+  if (!survey.external_parities_format.IsValid(error)) {
+    *error = "survey.external_parities: " + *error;
+    return false;
   }
   return checks.IsValid(error) && limits.IsValid(error);
 }

@@ -121,6 +121,13 @@ struct LoadState {
   // expenditure.csv has no region column: its rows are the national
   // basket (Spending::region is -1).
   bool national_weights = false;
+  // Rows of the external parities file (state indices; ln parity, log_se
+  // NaN when not given).
+  struct ExternalParity {
+    int region, heading;
+    double log_parity, log_se;
+  };
+  std::vector<ExternalParity> external;
   // Regions and items rejected in regions.csv and items.csv (never
   // accepted), with the rows of other files left out because of them; code
   // -> index in rejected_codes.
@@ -167,6 +174,10 @@ bool ReadPrices(const std::string& path, const LoadOptions& options, LoadState* 
                 Rejections* rejections, InputFileSummary* file, std::string* error);
 bool ReadExpenditure(const std::string& path, LoadState* state, Rejections* rejections,
                      InputFileSummary* file, std::string* error);
+// Reads survey.external_parities (heading,region,parity[,log_se]); its
+// regions and headings must be known from the files read before it.
+bool ReadExternalParities(const std::string& path, LoadState* state, Rejections* rejections,
+                          InputFileSummary* file, std::string* error);
 // Finds quote rows repeating an earlier row field for field and applies
 // `policy`: keep counts them; drop leaves the repeats out (counted as
 // rejected rows of the file, not as invalid rows); reject rejects each repeat

@@ -405,4 +405,66 @@ bool ReadExpenditure(const std::string& path, LoadState* state, Rejections* reje
   return true;
 }
 
+bool ReadExternalParities(const std::string& path, LoadState* state, Rejections* rejections,
+                          InputFileSummary* file, std::string* error) {
+  std::unordered_map<uint64_t, int64_t> first_line;
+  const char decimal = state->config->survey.external_parities_format.decimal;
+  const char* const setting = "survey.external_parities";
+  auto handle = [&](const CsvRecord& record, const Columns& columns) -> RowVerdict {
+    const int kHeading = columns.index[0], kRegion = columns.index[1], kParity = columns.index[2],
+              kLogSe = columns.index[3];
+    const std::string_view heading = Trim(record.fields[kHeading]);
+    const std::string_view region = Trim(record.fields[kRegion]);
+    if (std::string problem = CheckCode(heading, "heading"); !problem.empty()) {
+      return {kHeading + 1, problem};
+    }
+    const int heading_index = state->headings.Find(heading);
+    if (heading_index < 0) {
+      return {kHeading + 1, "heading " + QuoteValue(heading) +
+                                (state->headings_fixed ? " is not in the classification"
+                                                       : " has no price or expenditure row")};
+    }
+    if (std::string problem = CheckCode(region, "region"); !problem.empty()) {
+      return {kRegion + 1, problem};
+    }
+    const int region_index = state->regions.Find(region);
+    if (region_index < 0) {
+      return {kRegion + 1, "region " + QuoteValue(region) +
+                               (state->regions_fixed ? " is not in " + state->config->survey.regions
+                                                     : " has no price or expenditure row")};
+    }
+    double parity = 0.0;
+    const std::string_view parity_text = record.fields[kParity];
+    const NumberStatus status = ParseNumber(parity_text, &parity, decimal);
+    if (status != NumberStatus::kOk) {
+      return {kParity + 1, NumberProblem(status, "parity", parity_text, decimal, setting)};
+    }
+    if (!(parity > 0)) {
+      return {kParity + 1, "parity " + QuoteValue(parity_text) + " is not positive"};
+    }
+    double log_se = std::nan("");
+    if (kLogSe >= 0 && !Trim(record.fields[kLogSe]).empty()) {
+      const std::string_view se_text = record.fields[kLogSe];
+      const NumberStatus se_status = ParseNumber(se_text, &log_se, decimal);
+      if (se_status != NumberStatus::kOk) {
+        return {kLogSe + 1, NumberProblem(se_status, "log_se", se_text, decimal, setting)};
+      }
+      if (log_se < 0) return {kLogSe + 1, "log_se " + QuoteValue(se_text) + " is negative"};
+    }
+    const uint64_t key =
+        (static_cast<uint64_t>(region_index) << 32) | static_cast<uint32_t>(heading_index);
+    auto [it, inserted] = first_line.emplace(key, record.line);
+    if (!inserted) {
+      return {kHeading + 1, "duplicate row for heading " + QuoteValue(heading) + " and region " +
+                                QuoteValue(region) + " (first at line " +
+                                std::to_string(it->second) + ")"};
+    }
+    state->external.push_back({region_index, heading_index, std::log(parity), log_se});
+    return {};
+  };
+  return ReadSmallTable(path, state->config->limits, state->config->survey.external_parities_format,
+                        {"heading", "region", "parity", "log_se"}, {true, true, true, false},
+                        rejections, file, handle, nullptr, error);
+}
+
 }  // namespace paritas::internal

@@ -7,6 +7,7 @@
 #include <omp.h>
 
 #include <chrono>
+#include <cmath>
 #include <string>
 #include <vector>
 
@@ -149,6 +150,26 @@ std::string LoadSummary::BriefReport() const {
          " row" + (num_rows_rejected == 1 ? "" : "s") + " rejected";
 }
 
+namespace {
+
+// Moves the external parities read into the survey's region x heading
+// matrices (the state's indices mapped by code).
+void FillExternalParities(const internal::LoadState& state, Survey* survey) {
+  const double nan = std::nan("");
+  survey->external_log_parity.setConstant(survey->num_regions(), survey->num_headings(), nan);
+  survey->external_log_se = survey->external_log_parity;
+  survey->external_path = state.config->survey.external_parities;
+  for (const auto& row : state.external) {
+    const int r = survey->regions.Find(state.regions.Code(row.region));
+    const int h = survey->classification.FindHeading(std::string(state.headings.Code(row.heading)));
+    if (r < 0 || h < 0) continue;  // cannot happen: both were known when read
+    survey->external_log_parity(r, h) = row.log_parity;
+    survey->external_log_se(r, h) = row.log_se;
+  }
+}
+
+}  // namespace
+
 bool LoadSurvey(const RunConfig& config, const LoadOptions& options, Survey* survey,
                 LoadSummary* summary) {
   *summary = LoadSummary();
@@ -186,6 +207,8 @@ bool LoadSurvey(const RunConfig& config, const LoadOptions& options, Survey* sur
       describe("items", files.items, files.items_format, !files.items.empty()),
       describe("prices", files.prices, files.prices_format, true),
       describe("expenditure", files.expenditure, files.expenditure_format, true)};
+  // Room for the external parities file, so the references below stay valid.
+  summary->files.reserve(5);
   InputFileSummary& regions_file = summary->files[0];
   InputFileSummary& items_file = summary->files[1];
   InputFileSummary& prices_file = summary->files[2];
@@ -212,6 +235,14 @@ bool LoadSurvey(const RunConfig& config, const LoadOptions& options, Survey* sur
   if (expenditure_file.rows_read == 0) {
     return fail(expenditure_file.path + ": no data rows (only a header)");
   }
+  if (!files.external_parities.empty()) {
+    summary->files.push_back(describe("external_parities", files.external_parities,
+                                      files.external_parities_format, true));
+    if (!internal::ReadExternalParities(files.external_parities, &state, &rejections,
+                                        &summary->files.back(), &error)) {
+      return fail(error);
+    }
+  }
   summary->read_seconds = SecondsSince(start);
   SummariseRejections(prices_file.path, &state, summary);
 
@@ -227,6 +258,7 @@ bool LoadSurvey(const RunConfig& config, const LoadOptions& options, Survey* sur
   internal::BuildSurvey(
       &state, options.num_threads > 0 ? options.num_threads : omp_get_max_threads(), survey);
   summary->cells_seconds = SecondsSince(cells_start);
+  if (!files.external_parities.empty()) FillExternalParities(state, survey);
   summary->outcome = LoadOutcome::kOk;
   summary->message = "ok";
   return true;

@@ -19,6 +19,8 @@ struct Replicates {
   std::vector<double> log_parity;
   std::vector<int32_t> rank;
   std::vector<uint8_t> unlinked;  // per replicate: some heading or aggregate unlinked
+  // Per replicate: a rule filled more heading parities than in the full sample.
+  std::vector<uint8_t> imputed;
   std::vector<uint8_t> lost;      // per replicate: some region lost a full-sample parity
 };
 
@@ -41,6 +43,7 @@ Replicates RunReplicates(const FullSample& full, const SensitivityOptions& optio
   out.log_parity.assign(static_cast<size_t>(num_nodes) * num_regions * num_b, kNaN);
   out.rank.assign(out.log_parity.size(), 0);
   out.unlinked.assign(num_b, 0);
+  out.imputed.assign(num_b, 0);
   out.lost.assign(num_b, 0);
   Progress progress{&options, "bootstrap", num_b};
 #pragma omp parallel num_threads(full.num_threads)
@@ -52,10 +55,12 @@ Replicates RunReplicates(const FullSample& full, const SensitivityOptions& optio
     for (int b = 0; b < num_b; ++b) {
       Stream stream(options.seed, kBootstrapStream | static_cast<uint64_t>(b));
       DrawItemWeights(chain, &stream, &weight);
+      Stream external_draw(options.seed, kExternalStream | static_cast<uint64_t>(b));
       const ReplicateOutcome outcome =
-          RunChain(chain, full.node_expenditure, weight, &heading_lp, &node_lp);
+          RunChain(chain, full.node_expenditure, weight, &heading_lp, &node_lp, &external_draw);
       RankRows(node_lp, &rank);
       out.unlinked[b] = outcome.num_unlinked > 0;
+      out.imputed[b] = outcome.num_imputed > full.num_imputed;
       for (int n = 0; n < num_nodes; ++n) {
         for (int r = 0; r < num_regions; ++r) {
           const size_t slot = (static_cast<size_t>(n) * num_regions + r) * num_b + b;
@@ -130,6 +135,7 @@ void RunBootstrap(const FullSample& full, const SensitivityOptions& options,
   summary->num_replicates = replicates.num_replicates;
   for (int b = 0; b < replicates.num_replicates; ++b) {
     summary->num_replicates_unlinked += replicates.unlinked[b];
+    summary->num_replicates_imputed += replicates.imputed[b];
     summary->num_replicates_region_lost += replicates.lost[b];
   }
   Summarise(replicates, options.level, full.num_threads, full.chain.num_nodes,

@@ -65,10 +65,18 @@ std::vector<double> TakeChanges(const FullSample& full, int h, Scratch* s) {
 std::vector<double> DropItem(const FullSample& full, int i, Scratch* s) {
   const Chain& chain = full.chain;
   const int h = full.survey->item_heading[i];
+  // A heading whose parities come from the external file does not move
+  // when one of its (ignored) items is dropped.
+  if (HeadingFromFile(chain, h)) return TakeChanges(full, h, s);
   s->weight[i] = 0.0;
   bool unlinked = false;
   s->heading_lp.col(h) = HeadingLogParity(chain, h, s->weight, &unlinked);
   s->weight[i] = 1.0;
+  // Regions whose parity a missing_parities rule filled keep the full
+  // sample's value (the rule is not re-applied per dropped item).
+  for (int r = 0; r < chain.num_regions; ++r) {
+    if (!std::isfinite(s->heading_lp(r, h))) s->heading_lp(r, h) = full.heading_log_parity(r, h);
+  }
   for (int n : chain.heading_nodes[h]) s->recompute[n] = 1;
   ComputeNodes(chain, full.node_expenditure, s->heading_lp, s->recompute, &s->node_lp);
   return TakeChanges(full, h, s);

@@ -574,7 +574,10 @@ OutlierReport FindOutliers(const Survey& survey, const ParityResult& result,
     report.num_cells_by_fit += heading.num_by_fit;
     report.num_cells_leave_one_out += heading.num_leave_one_out;
     report.num_cells_not_screenable += static_cast<int64_t>(heading.not_screenable.size());
-    if (h < num_with_result && result.headings[h].identified && survey.heading_range[h].num_cells() > 0) {
+    // A heading whose parities came from the external file (num_cells 0 in
+    // the result) has no fit to measure its quotes' dispersion against.
+    if (h < num_with_result && result.headings[h].identified && result.headings[h].num_cells > 0 &&
+        survey.heading_range[h].num_cells() > 0) {
       const std::vector<Dispersion> d = HeadingDispersion(survey, result.headings[h], heading.num_flagged_by_region);
       report.dispersion.insert(report.dispersion.end(), d.begin(), d.end());
     }

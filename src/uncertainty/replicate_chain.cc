@@ -15,6 +15,7 @@
 #include "paritas/aggregation/bilateral_matrix.h"
 #include "paritas/aggregation/normalisation.h"
 #include "paritas/base/text.h"
+#include "paritas/compute/imputation.h"
 #include "paritas/elementary/elementary.h"
 #include "paritas/uncertainty/sensitivity.h"
 
@@ -97,7 +98,70 @@ Chain MakeChain(const Survey& survey, const ComputeOptions& options) {
   if (options.reference.kind == ReferenceKind::kRegion) {
     chain.reference_region = survey.regions.Find(options.reference.region);
   }
+  HeadingRule fallback;
+  std::string error;
+  if (HeadingRule::Parse(options.missing_parities.default_rule, &fallback, &error)) {
+    chain.rules.assign(chain.num_headings, fallback);
+    for (const auto& [code, text] : options.missing_parities.headings) {
+      const int h = survey.classification.FindHeading(code);
+      if (h < 0 || !HeadingRule::Parse(text, &chain.rules[h], &error)) {
+        chain.rules.clear();
+        break;
+      }
+    }
+  }
   return chain;
+}
+
+bool HeadingFromFile(const Chain& chain, int h) {
+  const Survey& survey = *chain.survey;
+  return survey.external_log_parity.cols() == chain.num_headings &&
+         static_cast<int>(chain.rules.size()) == chain.num_headings &&
+         chain.rules[h].rule != ImputationRule::kExternal &&
+         survey.external_log_parity.col(h).array().isFinite().any();
+}
+
+int CompleteHeadings(const Chain& chain, Stream* draw, Eigen::MatrixXd* heading_log_parity) {
+  const Survey& survey = *chain.survey;
+  if (static_cast<int>(chain.rules.size()) != chain.num_headings) return 0;
+  ImputationInput input;
+  input.log_parity = *heading_log_parity;
+  input.source = Eigen::MatrixXi::Zero(chain.num_regions, chain.num_headings);
+  const bool has_file = survey.external_log_parity.cols() == chain.num_headings;
+  for (int h = 0; h < chain.num_headings; ++h) {
+    ParitySource source = ParitySource::kPriced;
+    if (HeadingFromFile(chain, h)) {
+      // As the compute stage: the file's parities replace the quotes'.
+      source = ParitySource::kExternal;
+      for (int r = 0; r < chain.num_regions; ++r) {
+        double value = survey.external_log_parity(r, h);
+        const double se = survey.external_log_se(r, h);
+        if (draw != nullptr && std::isfinite(value) && std::isfinite(se) && se > 0) {
+          value += se * draw->Normal();
+        }
+        input.log_parity(r, h) = value;
+      }
+    }
+    for (int r = 0; r < chain.num_regions; ++r) {
+      if (std::isfinite(input.log_parity(r, h))) {
+        input.source(r, h) = static_cast<int>(source);
+      } else {
+        input.log_parity(r, h) = kNaN;
+      }
+    }
+  }
+  input.expenditure = survey.expenditure;
+  if (has_file) input.external_log_parity = survey.external_log_parity;
+  input.rules = chain.rules;
+  ImputationResult result;
+  std::string error;
+  if (!ImputeMissingHeadingParities(input, survey.classification,
+                                    *FindAggregationMethod(chain.options.aggregation), &result,
+                                    &error)) {
+    return 0;  // a bad like: rule; the compute stage reports it
+  }
+  *heading_log_parity = std::move(result.log_parity);
+  return result.num_imputed;
 }
 
 Eigen::VectorXd HeadingLogParity(const Chain& chain, int h, const std::vector<double>& item_weight,
@@ -143,7 +207,8 @@ int ComputeNodes(const Chain& chain, const Eigen::MatrixXd& node_expenditure,
 
 ReplicateOutcome RunChain(const Chain& chain, const Eigen::MatrixXd& node_expenditure,
                           const std::vector<double>& item_weight,
-                          Eigen::MatrixXd* heading_log_parity, Eigen::MatrixXd* node_log_parity) {
+                          Eigen::MatrixXd* heading_log_parity, Eigen::MatrixXd* node_log_parity,
+                          Stream* draw) {
   ReplicateOutcome outcome;
   heading_log_parity->resize(chain.num_regions, chain.num_headings);
   node_log_parity->resize(chain.num_nodes, chain.num_regions);
@@ -152,6 +217,7 @@ ReplicateOutcome RunChain(const Chain& chain, const Eigen::MatrixXd& node_expend
     heading_log_parity->col(h) = HeadingLogParity(chain, h, item_weight, &unlinked);
     outcome.num_unlinked += unlinked ? 1 : 0;
   }
+  outcome.num_imputed = CompleteHeadings(chain, draw, heading_log_parity);
   outcome.num_unlinked +=
       ComputeNodes(chain, node_expenditure, *heading_log_parity, {}, node_log_parity);
   return outcome;

@@ -4,6 +4,7 @@
 #ifndef PARITAS_INTERNAL_UNCERTAINTY_REPLICATE_CHAIN_H_
 #define PARITAS_INTERNAL_UNCERTAINTY_REPLICATE_CHAIN_H_
 
+#include <cmath>
 #include <cstdint>
 #include <limits>
 #include <vector>
@@ -21,6 +22,8 @@ inline constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 // number), so the coverage draws never repeat the bootstrap's.
 inline constexpr uint64_t kBootstrapStream = 1ull << 56;
 inline constexpr uint64_t kCoverageStream = 2ull << 56;
+// Draws of external heading parities with a standard error, per replicate.
+inline constexpr uint64_t kExternalStream = 3ull << 56;
 
 // splitmix64 (Steele, Lea and Flood 2014; Vigna's reference code): a small
 // generator with good statistical quality, enough for resampling indices.
@@ -47,6 +50,15 @@ class Stream {
     const uint64_t bits = SplitMix64(&state_) >> 32;
     return static_cast<int>((bits * static_cast<uint64_t>(n)) >> 32);
   }
+  // Uniform in (0, 1): the top 53 bits, offset by half a step so 0 never
+  // comes out.
+  double Uniform() { return ((SplitMix64(&state_) >> 11) + 0.5) * 0x1.0p-53; }
+  // Standard normal by Box and Muller (1958, Annals of Mathematical
+  // Statistics 29(2)), one of the pair used.
+  double Normal() {
+    const double u = Uniform(), v = Uniform();
+    return std::sqrt(-2.0 * std::log(u)) * std::cos(6.283185307179586 * v);
+  }
 
  private:
   uint64_t state_ = 0;
@@ -64,6 +76,9 @@ struct Chain {
   // Aggregate nodes and the nodes (leaf included) that contain each heading.
   std::vector<std::vector<int>> heading_nodes;
   int reference_region = -1;
+  // The missing_parities rule of each heading, resolved as compute does
+  // (empty when a listed heading is unknown: compute refuses such a run).
+  std::vector<HeadingRule> rules;
 };
 
 // Returns the chain of `survey` under `options`, without standard errors
@@ -92,14 +107,29 @@ int ComputeNodes(const Chain& chain, const Eigen::MatrixXd& node_expenditure,
 // The whole chain for one set of item weights.
 struct ReplicateOutcome {
   int num_unlinked = 0;  // headings and aggregates where only the largest group was kept
+  // Region x heading parities filled by a missing_parities rule.
+  int num_imputed = 0;
 };
+
+// True when heading h takes its parities from the external file in place of
+// its quotes (the file gives it and its rule is not `external`).
+bool HeadingFromFile(const Chain& chain, int h);
+
+// Completes a replicate's heading ln parities as the compute stage does:
+// headings the external file gives take its parities (each region's ln
+// parity drawn from Normal(ln p, log_se) when `draw` is given and the file
+// has a log_se), then the missing ones are filled by each heading's rule
+// (compute/imputation.h). Returns the number of entries imputed.
+int CompleteHeadings(const Chain& chain, Stream* draw, Eigen::MatrixXd* heading_log_parity);
 
 // Runs every heading and every node with `item_weight`; fills heading ln
 // parities (regions x headings) and normalised node ln parities (nodes x
 // regions).
+// `draw`, when given, draws the external parities (CompleteHeadings).
 ReplicateOutcome RunChain(const Chain& chain, const Eigen::MatrixXd& node_expenditure,
                           const std::vector<double>& item_weight,
-                          Eigen::MatrixXd* heading_log_parity, Eigen::MatrixXd* node_log_parity);
+                          Eigen::MatrixXd* heading_log_parity, Eigen::MatrixXd* node_log_parity,
+                          Stream* draw = nullptr);
 
 // Ranks (1 = dearest) within each node of a replicate; 0 where no parity.
 void RankRows(const Eigen::MatrixXd& node_log_parity, Eigen::MatrixXi* rank);

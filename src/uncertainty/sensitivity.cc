@@ -166,8 +166,9 @@ bool RunFullSample(const Survey& survey, const ComputeOptions& compute,
   full->chain = internal::MakeChain(survey, compute);
   full->node_expenditure = internal::NodeExpenditures(survey);
   const std::vector<double> ones(survey.num_items(), 1.0);
-  internal::RunChain(full->chain, full->node_expenditure, ones, &full->heading_log_parity,
-                     &full->node_log_parity);
+  full->num_imputed = internal::RunChain(full->chain, full->node_expenditure, ones,
+                                        &full->heading_log_parity, &full->node_log_parity)
+                          .num_imputed;
   full->num_threads = internal::ThreadsFor(options.num_threads);
   summary->full_sample_seconds = internal::SecondsSince(start);
   return true;

@@ -54,6 +54,7 @@ nlohmann::ordered_json RecordCounts(const SensitivitySummary& summary) {
   counts["num_replicates"] = summary.num_replicates;
   counts["num_replicates_unlinked"] = summary.num_replicates_unlinked;
   counts["num_replicates_region_lost"] = summary.num_replicates_region_lost;
+  counts["num_replicates_imputed"] = summary.num_replicates_imputed;
   counts["num_items_dropped"] = summary.num_items_dropped;
   counts["num_headings_dropped"] = summary.num_headings_dropped;
   counts["num_coverage_runs"] = summary.num_coverage_runs;
@@ -120,6 +121,12 @@ std::vector<RunWarning> JobWarnings(const SensitivityJobSummary& job,
     add(std::to_string(s.num_replicates_unlinked) + " of " + std::to_string(s.num_replicates) +
         " bootstrap replicates left some heading's regions unlinked; only the largest linked "
         "group had parities there");
+  }
+  if (s.num_replicates_imputed > 0) {
+    add("in " + std::to_string(s.num_replicates_imputed) + " of " +
+        std::to_string(s.num_replicates) +
+        " bootstrap replicates a region lost a heading's parity and the heading's "
+        "missing_parities rule filled it");
   }
   if (s.num_replicates_region_lost > 0) {
     add("in " + std::to_string(s.num_replicates_region_lost) + " of " +

@@ -51,6 +51,8 @@ struct FullSample {
   // The chain's own full-sample run: changes are measured against it so an
   // unchanged region shows exactly 0 rather than rounding noise.
   Eigen::MatrixXd heading_log_parity;  // regions x headings
+  // Heading parities the missing_parities rules filled in the full sample.
+  int num_imputed = 0;
   Eigen::MatrixXd node_log_parity;     // nodes x regions
   int num_threads = 1;                 // worker threads over replicates
 };

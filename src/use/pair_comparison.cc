@@ -6,6 +6,7 @@
 #include <algorithm>
 #include <cmath>
 #include <limits>
+#include <numeric>
 
 #include "paritas/base/csv.h"
 #include "paritas/aggregation/aggregation_method.h"
@@ -50,8 +51,11 @@ void CompareAggregate(const Survey& survey, const ParityResult& result, int node
   for (int k = 0; k < static_cast<int>(headings.size()); ++k) {
     const double price_a = arrays.price(a, k), price_b = arrays.price(b, k);
     const double spend_a = arrays.expenditure(a, k), spend_b = arrays.expenditure(b, k);
-    if (!Positive(price_a) || !Positive(price_b) || !Positive(spend_a) || !Positive(spend_b))
-      continue;
+    // Zero spending on one side keeps the heading with quantity 0, as the
+    // all-pairs matrices do (bilateral_matrix.h).
+    const bool spends_a = std::isfinite(spend_a) && spend_a >= 0.0;
+    const bool spends_b = std::isfinite(spend_b) && spend_b >= 0.0;
+    if (!Positive(price_a) || !Positive(price_b) || !spends_a || !spends_b) continue;
     matched.push_back(headings[k]);
     pa.push_back(price_a);
     pb.push_back(price_b);
@@ -59,6 +63,11 @@ void CompareAggregate(const Survey& survey, const ParityResult& result, int node
     eb.push_back(spend_b);
     qa.push_back(spend_a / price_a);
     qb.push_back(spend_b / price_b);
+  }
+  // A region spending nothing on every matched heading leaves no index.
+  if (!Positive(std::accumulate(ea.begin(), ea.end(), 0.0)) ||
+      !Positive(std::accumulate(eb.begin(), eb.end(), 0.0))) {
+    matched.clear();
   }
   out->num_matched = static_cast<int>(matched.size());
   if (matched.empty()) return;

@@ -161,8 +161,16 @@ void MakeIncompleteData(int num_regions, int num_headings, std::uint64_t seed,
   }
 }
 
+// Zero expenditure keeps the heading (quantity 0); see the hand computation
+// in ZeroExpenditureOnOneSideKeepsTheHeadingWithCpiManualWeights.
 bool Valid(double p, double e) {
-  return std::isfinite(p) && std::isfinite(e) && p > 0.0 && e > 0.0;
+  return std::isfinite(p) && std::isfinite(e) && p > 0.0 && e >= 0.0;
+}
+
+double Sum(const std::vector<double>& values) {
+  double sum = 0.0;
+  for (double v : values) sum += v;
+  return sum;
 }
 
 // Three regions, three items; hand computation of the starred Jevons index
@@ -236,7 +244,7 @@ TEST(AllPairsWeighted, EveryEntryEqualsScalarFormulasOverMatchedHeadings) {
       }
       SCOPED_TRACE("pair " + std::to_string(a) + "," + std::to_string(b));
       EXPECT_EQ(m.num_matched(a, b), static_cast<int>(pa.size()));
-      if (pa.empty()) {
+      if (pa.empty() || !(Sum(qa) > 0.0) || !(Sum(qb) > 0.0)) {
         EXPECT_TRUE(std::isnan(m.laspeyres(a, b)) && std::isnan(m.paasche(a, b)) &&
                     std::isnan(m.fisher(a, b)) && std::isnan(m.tornqvist(a, b)));
         continue;
@@ -298,6 +306,41 @@ TEST(AllPairsWeighted, RegionWithoutValidHeadingIsNaNAndCountsZero) {
   EXPECT_TRUE(std::isnan(m.laspeyres(2, 1)));
   EXPECT_EQ(m.num_matched(0, 2), 2);
   EXPECT_EQ(m.fisher(2, 2), 1.0);
+}
+
+TEST(AllPairsWeighted, ZeroExpenditureOnOneSideKeepsTheHeadingWithCpiManualWeights) {
+  // Region a spends nothing on heading 0, region b spends on both. Hand
+  // computation with the CPI Manual (ILO et al. 2004, ch. 15-17) formulas:
+  //   p_a = (1, 1), p_b = (2, 1.5), e_a = (0, 10), e_b = (6, 4)
+  //   q_a = (0, 10), q_b = (3, 8/3)
+  //   Laspeyres(a,b) = (2*0 + 1.5*10) / (1*0 + 1*10)        = 1.5
+  //   Paasche(a,b)   = (6 + 4) / (1*3 + 1*8/3) = 10 / (17/3) = 30/17
+  //   Fisher(a,b)    = sqrt(1.5 * 30/17)                     = sqrt(45/17)
+  //   ln Törnqvist   = ½(0 + 0.6) ln 2 + ½(1 + 0.4) ln 1.5   = 0.3 ln 2 + 0.7 ln 1.5
+  // Dropping heading 0 instead would give 1.5 for all four.
+  Eigen::MatrixXd price(2, 2), expenditure(2, 2);
+  price << 1.0, 1.0, 2.0, 1.5;
+  expenditure << 0.0, 10.0, 6.0, 4.0;
+  const BilateralMatrices m = AllPairsWeighted(price, expenditure);
+  PARITAS_EXPECT_CLOSE(m.laspeyres(0, 1), 1.5, 1e-15);
+  PARITAS_EXPECT_CLOSE(m.paasche(0, 1), 30.0 / 17.0, 1e-15);
+  PARITAS_EXPECT_CLOSE(m.fisher(0, 1), std::sqrt(45.0 / 17.0), 1e-15);
+  PARITAS_EXPECT_CLOSE(m.tornqvist(0, 1), std::exp(0.3 * std::log(2.0) + 0.7 * std::log(1.5)),
+                       1e-15);
+  PARITAS_EXPECT_CLOSE(m.fisher(1, 0) * m.fisher(0, 1), 1.0, 1e-15);
+  EXPECT_EQ(m.num_matched(0, 1), 2);
+}
+
+TEST(AllPairsWeighted, RegionSpendingNothingOnTheMatchedHeadingsHasNoIndex) {
+  // Region 0 spends only on heading 1, which region 1 does not price: on
+  // their one matched heading region 0 spends 0, so the pair has no index.
+  Eigen::MatrixXd price(2, 2), expenditure(2, 2);
+  price << 1.0, 1.0, 2.0, kNaN;
+  expenditure << 0.0, 10.0, 6.0, 4.0;
+  const BilateralMatrices m = AllPairsWeighted(price, expenditure);
+  EXPECT_EQ(m.num_matched(0, 1), 1);
+  EXPECT_TRUE(std::isnan(m.laspeyres(0, 1)) && std::isnan(m.paasche(0, 1)));
+  EXPECT_TRUE(std::isnan(m.fisher(1, 0)) && std::isnan(m.tornqvist(1, 0)));
 }
 
 TEST(AllPairsWeighted, NoRegionsGiveEmptyMatrices) {

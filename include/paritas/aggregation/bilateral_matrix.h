@@ -31,7 +31,8 @@ struct BilateralMatrices {
   // pair's matched columns; ln tornqvist is antisymmetric.
   Eigen::MatrixXd tornqvist;
   // Number of matched columns per pair (symmetric; diagonal = the region's
-  // own number of valid columns).
+  // own number of valid columns): price > 0 in both and expenditure >= 0 in
+  // both, so a heading one region spends nothing on counts.
   Eigen::MatrixXi num_matched;
 };
 
@@ -60,8 +61,14 @@ struct BilateralOptions {
 // regions (those `options` asks for; every matrix by default). A filled
 // matrix has the same entries whichever others are asked for. `price` and `expenditure` are regions x headings, of equal shape
 // (asserted). A heading counts for a pair when both regions have a finite
-// price > 0 and a finite expenditure > 0 there; entries that fail this are
-// ignored whatever their value (NaN included). Quantities are
+// price > 0 and a finite expenditure >= 0 there; entries that fail this are
+// ignored whatever their value (NaN included). Zero expenditure on one side
+// keeps the heading in the pair with the weights the CPI Manual formulas
+// give (ILO/IMF/OECD/UNECE/Eurostat/World Bank 2004, Consumer Price Index
+// Manual, ch. 15-17): quantity 0, so Laspeyres(a, b) gives it weight 0 when
+// a spends nothing, Paasche(a, b) the share of b, and Törnqvist half of the
+// other region's share. A pair where either region spends nothing on all
+// matched headings has NaN entries. Quantities are
 // expenditure / price. Each entry equals the scalar formula of
 // index_formulas.h over the pair's matched headings. Cost O(R² H) in a few
 // matrix products for R regions and H headings.

@@ -10,6 +10,7 @@
 
 #include "paritas/aggregation/aggregation.h"
 #include "paritas/aggregation/normalisation.h"
+#include "paritas/compute/imputation.h"
 #include "paritas/survey/config.h"
 #include "paritas/elementary/elementary.h"
 #include "paritas/survey/survey.h"
@@ -26,6 +27,9 @@ struct ComputeOptions {
   // Aggregate nodes whose bilateral matrices are kept in the result (for
   // bilateral tables and spreads); the root's are always kept.
   std::vector<int> keep_bilaterals;
+  // Rules for regions that spend on a heading without a parity there
+  // (compute/imputation.h); default: leave every one missing.
+  MissingParitiesSettings missing_parities;
 
   bool IsValid(std::string* error) const;
   // The options a run configuration asks for.
@@ -77,6 +81,15 @@ struct ParityResult {
   // Bilateral matrices per node: filled for the root and the nodes in
   // ComputeOptions::keep_bilaterals that are aggregates, empty otherwise.
   std::vector<BilateralMatrices> bilaterals;
+  // Where each heading parity came from, regions x headings (ParitySource
+  // as int): priced, external (file), imputed (rule) or none.
+  Eigen::MatrixXi heading_source;
+  // The rule applied to each heading (ComputeOptions::missing_parities).
+  std::vector<HeadingRule> heading_rules;
+  // Per heading: regions given a parity by its rule, and regions that spend
+  // on it (expenditure > 0) yet have no parity after the rule.
+  std::vector<std::vector<int>> imputed_regions;
+  std::vector<std::vector<int>> missing_regions;
 };
 
 enum class ComputeOutcome {
@@ -94,6 +107,10 @@ struct ComputeSummary {
   int num_headings_given = 0;
   int num_headings_used = 0;  // headings with parities
   int num_aggregates = 0;
+  // Region x heading parities filled by a missing_parities rule, and those
+  // still missing where the region spends on the heading.
+  int num_parities_imputed = 0;
+  int num_parities_missing = 0;
   double elementary_seconds = 0.0;
   double aggregation_seconds = 0.0;
 

@@ -38,6 +38,8 @@ struct RunWarning {
 //   computation         regions without parities, normalisation fallbacks
 //   weights             headings without spending everywhere or in the reference
 //   partial-basket      aggregates resting on part of a region's spending
+//   missing-parity      regions spending on a heading without a parity, and
+//                       parities filled by a missing_parities rule
 //   single-item-heading headings with one item priced
 //   thin-evidence       region parities on fewer than min_items items / min_quotes quotes
 //   implausible-level   heading parities far from the region's other headings
@@ -52,7 +54,7 @@ struct PlausibilityResult {
   std::vector<RunWarning> warnings;
   // Share of region r's spending on node n (classification order; rows =
   // nodes, columns = regions) that rests on headings where r has a parity
-  // of its own: sum of its spending on those headings over its spending on
+  // of its own (priced or external, not imputed): sum of its spending on those headings over its spending on
   // all the node's headings. 1 or 0 for a heading; NaN where the region
   // spends nothing on the node (or has no spending rows for it).
   Eigen::MatrixXd basket_share;

@@ -62,6 +62,13 @@ struct RunRecord {
 // Warning sentences listed in run.json at most (all are in warnings.csv).
 inline constexpr size_t kMaxRecordedWarnings = 1000;
 
+// Returns the run record's `missing_parities` section: one entry per basic
+// heading, {"heading", "rule", "regions_imputed": [codes], "regions_missing":
+// [codes]}, the rule applied and the regions it filled or could not fill
+// (ParityResult::heading_rules, imputed_regions, missing_regions). "[]" when
+// the result carries no rules.
+std::string MissingParitiesRecordJson(const Survey& survey, const ParityResult& result);
+
 // Returns the record as pretty-printed JSON with keys in a fixed order.
 std::string RunRecordJson(const RunRecord& record);
 
@@ -77,7 +84,8 @@ std::string RunConfigPath(const std::string& json);
 
 // What makes the results of two run records incomparable: different input
 // files (by SHA-256, per role) or different settings that change parities
-// (reference, elementary, aggregation, invalid_rows, representative_weight).
+// (reference, elementary, aggregation, invalid_rows, representative_weight,
+// missing_parities).
 // Each difference as one line, e.g. "reference: mean in this run, cap in the
 // other"; empty when the two rest on the same inputs and settings.
 std::vector<std::string> RunDifferences(const std::string& this_json, const std::string& other_json);

@@ -6,6 +6,7 @@
 
 #include <string>
 #include <string_view>
+#include <utility>
 #include <vector>
 
 #include "paritas/base/csv.h"
@@ -118,6 +119,20 @@ struct SurveyFiles {
   CsvFormat expenditure_format;
   CsvFormat regions_format;
   CsvFormat items_format;
+  // Optional file of heading parities made elsewhere
+  // (heading,region,parity[,log_se]; survey.external_parities).
+  std::string external_parities;
+  CsvFormat external_parities_format;
+};
+
+// The `missing_parities:` section: the rule for a region that spends on a
+// heading without a parity there (compute/imputation.h), as written.
+struct MissingParitiesSettings {
+  // Rule of every heading not listed: "leave" (default), "parent",
+  // "external" or "like:<heading>".
+  std::string default_rule = "leave";
+  // (heading code, rule), in the order written.
+  std::vector<std::pair<std::string, std::string>> headings;
 };
 
 struct RunConfig {
@@ -167,6 +182,8 @@ struct RunConfig {
   DuplicateQuotePolicy duplicate_quotes = DuplicateQuotePolicy::kKeep;
   // Thresholds of the plausibility warnings (the `checks:` section).
   CheckThresholds checks;
+  // Rules for missing heading parities.
+  MissingParitiesSettings missing_parities;
   // Exit with code 3, after writing every output, when the run raised any
   // warning or found a gross outlier (default false).
   bool strict = false;

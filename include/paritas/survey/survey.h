@@ -71,6 +71,14 @@ struct Survey {
   // parities; regional nominal and real expenditure are unknown).
   bool national_weights = false;
 
+  // Heading parities made elsewhere (survey.external_parities), regions x
+  // headings: ln parity and its standard error (NaN where the file gives
+  // none); both empty (0 x 0) when there is no file.
+  Eigen::MatrixXd external_log_parity;
+  Eigen::MatrixXd external_log_se;
+  // The external file's path as given; empty without one.
+  std::string external_path;
+
   int64_t num_quotes = 0;
   int num_regions() const { return regions.size(); }
   int num_items() const { return items.size(); }

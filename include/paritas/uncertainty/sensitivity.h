@@ -164,6 +164,10 @@ struct SensitivitySummary {
   int num_replicates = 0;
   int num_replicates_unlinked = 0;
   int num_replicates_region_lost = 0;
+  // Replicates in which a region lost a heading's parity and its
+  // missing_parities rule filled it (more imputed parities than the full
+  // sample has).
+  int num_replicates_imputed = 0;
   // Items and headings dropped in turn by leave-one-out.
   int num_items_dropped = 0;
   int num_headings_dropped = 0;
