@@ -74,6 +74,14 @@ TEST(GroupsCommand, ComputeWritesGroupsAndLabelsEverywhere) {
   EXPECT_TRUE(std::filesystem::exists(dir + "/out/matrix/all_but_housing.csv"));
   EXPECT_TRUE(std::filesystem::exists(dir + "/out/bilateral/all_but_housing.csv"));
 
+  // The run record keeps the definitions, so runs with other groups differ.
+  const std::string record = ReadTextFile(dir + "/out/run.json");
+  EXPECT_NE(record.find("\"code\": \"all_but_housing\""), std::string::npos);
+  EXPECT_NE(record.find("\"num_groups\": 3"), std::string::npos);
+  EXPECT_NE(record.find("\"rent\": \"Actual rents\""), std::string::npos);
+  ASSERT_EQ(RunCli("check " + dir + "/run.yaml", &out, &err), 0) << err;
+  EXPECT_NE(out.find("7 basic headings in 4 aggregates and 3 groups"), std::string::npos) << out;
+
   const std::string html = ReadTextFile(dir + "/out/report.html");
   EXPECT_NE(html.find("<a href=\"#groups\">Groups</a>"), std::string::npos);
   EXPECT_NE(html.find("<section id=\"groups\""), std::string::npos);
