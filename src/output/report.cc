@@ -119,6 +119,10 @@ std::vector<ReportOutlier> ToReportOutliers(const Survey& survey, const OutlierR
     row.heading = survey.heading_codes[o.heading];
     row.region = std::string(survey.regions.Code(o.region));
     row.item = std::string(survey.items.Code(o.item));
+    row.heading_label = survey.classification.nodes()[survey.classification.headings()[o.heading]].label;
+    if (o.item < static_cast<int>(survey.item_description.size())) {
+      row.item_label = survey.item_description[o.item];
+    }
     if (o.kind == OutlierKind::kLowestQuote) row.item += " (lowest quote)";
     if (o.kind == OutlierKind::kHighestQuote) row.item += " (highest quote)";
     row.observed = o.observed;
