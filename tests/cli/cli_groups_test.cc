@@ -122,8 +122,13 @@ TEST(GroupsCommand, DeflatePairAndSensitivityTakeAGroupByName) {
   EXPECT_NEAR(std::stod(row1.substr(row1.find(",1000,") + 6)), 1000.0 / (r1 / 100.0), 1e-9);
   EXPECT_NEAR(std::stod(row2.substr(row2.find(",1000,") + 6)), 1000.0 / (r4 / 100.0), 1e-9);
 
-  ASSERT_EQ(RunCli("pair " + dir + "/run.yaml --from r1 --to r4 --node energy", &out, &err), 0)
+  ASSERT_EQ(RunCli("pair " + dir + "/run.yaml --from r1 --to r4 --node energy --csv " + dir +
+                       "/pair.csv",
+                   &out, &err),
+            0)
       << err;
+  EXPECT_EQ(ReadTextFile(dir + "/pair.csv").substr(0, 73),
+            "measure,value\nfrom,r1\nto,r4\nnode,energy\nnode_label,Energy\nnum_headings,2\n");
   EXPECT_NE(out.find("'r4' relative to 'r1' at 'energy' (Energy) (group, 2 headings priced in "
                      "both)"),
             std::string::npos)
