@@ -731,7 +731,8 @@ std::string GroupsProblem(const RunConfig& config) {
   for (size_t i = tree.num_tree_nodes(); i < nodes.size(); ++i) {
     const ClassificationNode& g = nodes[i];
     const std::string where = "group " + Show(g.code) + ": ";
-    if (!g.is_group || g.is_leaf || g.parent != -1 || !g.children.empty()) return where + "not a group";
+    if (!g.is_group || g.is_leaf || g.parent != -1 || !g.children.empty())
+      return where + "not a group";
     if (g.headings.empty()) return where + "no headings";
     for (size_t k = 0; k < g.headings.size(); ++k) {
       if (g.headings[k] < 0 || g.headings[k] >= num_headings ||

@@ -72,9 +72,10 @@ std::string SurveyCounts(const Survey& survey) {
     groups += node.is_group ? 1 : 0;
     aggregates += node.is_leaf || node.is_group ? 0 : 1;
   }
-  return "survey: " + FormatCount(survey.num_regions()) + " regions, " + FormatCount(survey.num_items()) +
-         " items, " + FormatCount(survey.num_headings()) + " basic headings in " +
-         FormatCount(aggregates) + " aggregate" + (aggregates == 1 ? "" : "s") +
+  return "survey: " + FormatCount(survey.num_regions()) + " regions, " +
+         FormatCount(survey.num_items()) + " items, " + FormatCount(survey.num_headings()) +
+         " basic headings in " + FormatCount(aggregates) + " aggregate" +
+         (aggregates == 1 ? "" : "s") +
          (groups > 0 ? " and " + FormatCount(groups) + " group" + (groups == 1 ? "" : "s") : "") +
          ", " + FormatCount(survey.num_quotes) + " quotes in " +
          FormatCount(static_cast<int64_t>(survey.cells.size())) + " cells\n";

@@ -61,8 +61,8 @@ Context MakeContext(const ReportInputs& inputs, const std::string& root_code) {
 }
 
 // Links to the sections the page holds.
-std::string Navigation(bool has_bilaterals, bool has_tree, bool has_outliers,
-                       bool has_sensitivity, bool has_groups) {
+std::string Navigation(bool has_bilaterals, bool has_tree, bool has_outliers, bool has_sensitivity,
+                       bool has_groups) {
   std::string out =
       "<nav class=\"toc\" aria-label=\"sections\"><div class=\"wrap\"><a "
       "href=\"#overview\">Overview</a>"
@@ -86,9 +86,8 @@ std::string Sections(const Context& ctx) {
   const bool has_bilaterals =
       !result.bilaterals.empty() &&
       result.bilaterals.front().laspeyres.rows() == ctx.survey.num_regions();
-  const bool has_groups =
-      ctx.survey.classification.num_tree_nodes() <
-      static_cast<int>(ctx.survey.classification.nodes().size());
+  const bool has_groups = ctx.survey.classification.num_tree_nodes() <
+                          static_cast<int>(ctx.survey.classification.nodes().size());
   std::string out = Navigation(has_bilaterals, !ctx.root.tree.empty(), ctx.in.outliers != nullptr,
                                ctx.in.sensitivity != nullptr, has_groups);
   out += report::Overview(ctx);
@@ -119,7 +118,8 @@ std::vector<ReportOutlier> ToReportOutliers(const Survey& survey, const OutlierR
     row.heading = survey.heading_codes[o.heading];
     row.region = std::string(survey.regions.Code(o.region));
     row.item = std::string(survey.items.Code(o.item));
-    row.heading_label = survey.classification.nodes()[survey.classification.headings()[o.heading]].label;
+    row.heading_label =
+        survey.classification.nodes()[survey.classification.headings()[o.heading]].label;
     if (o.item < static_cast<int>(survey.item_description.size())) {
       row.item_label = survey.item_description[o.item];
     }

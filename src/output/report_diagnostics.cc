@@ -200,12 +200,11 @@ std::string OutlierSection(const Context& ctx, const std::vector<ReportOutlier>&
     auto labelled = [](const std::string& code, const std::string& label) {
       return HtmlEscape(code) + (label.empty() ? "" : " <small>" + HtmlEscape(label) + "</small>");
     };
-    out += "<tr><td>" + labelled(o.heading, o.heading_label) + "</td><td>" +
-           HtmlEscape(o.region) + "</td><td>" + labelled(o.item, o.item_label) +
-           "</td><td class=\"num\" data-v=\"" + FormatFixed(o.observed, 6) +
-           "\">" + Num(o.observed, 2) + "</td><td class=\"num\" data-v=\"" +
-           FormatFixed(o.predicted, 6) + "\">" + Num(o.predicted, 2) +
-           "</td><td class=\"num\" data-v=\"" +
+    out += "<tr><td>" + labelled(o.heading, o.heading_label) + "</td><td>" + HtmlEscape(o.region) +
+           "</td><td>" + labelled(o.item, o.item_label) + "</td><td class=\"num\" data-v=\"" +
+           FormatFixed(o.observed, 6) + "\">" + Num(o.observed, 2) +
+           "</td><td class=\"num\" data-v=\"" + FormatFixed(o.predicted, 6) + "\">" +
+           Num(o.predicted, 2) + "</td><td class=\"num\" data-v=\"" +
            (std::isfinite(ratio) ? FormatFixed(ratio, 6) : "") + "\">" + Num(ratio, 2) +
            "</td><td class=\"num\" data-v=\"" + FormatFixed(o.standardised_residual, 6) + "\">" +
            Num(o.standardised_residual, 2) + "</td><td class=\"num\" data-v=\"" +

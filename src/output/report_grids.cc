@@ -221,11 +221,11 @@ std::string GroupSection(const Context& ctx) {
       return r < 0 ? std::string("\xE2\x80\x93")
                    : HtmlEscape(ctx.Label(r)) + " " + Num(result.parity(r), kTableParityDecimals);
     };
-    out += "<tr><td><code>" + HtmlEscape(node.code) + "</code></td><td>" +
-           HtmlEscape(node.label) + "</td><td>" + GroupDefinitionHtml(ctx, n) + "</td><td>" +
+    out += "<tr><td><code>" + HtmlEscape(node.code) + "</code></td><td>" + HtmlEscape(node.label) +
+           "</td><td>" + GroupDefinitionHtml(ctx, n) + "</td><td>" +
            FormatCount(static_cast<int64_t>(headings.size())) + ": " +
-           HtmlEscape(JoinNames(headings)) + "</td><td>" + level(low) + "</td><td>" +
-           level(high) + "</td></tr>";
+           HtmlEscape(JoinNames(headings)) + "</td><td>" + level(low) + "</td><td>" + level(high) +
+           "</td></tr>";
   }
   return out + "</tbody></table></div>\n</section>\n";
 }
@@ -329,8 +329,8 @@ double CoverageRows(const Survey& s, const std::vector<std::vector<int>>& bins, 
     const ClassificationNode& node = s.classification.nodes()[s.classification.headings()[h]];
     g->row_labels.push_back(node.label.empty() ? node.code : node.label);
     g->row_tips.push_back((node.label.empty() ? "" : node.label + " (") + node.code +
-                          (node.label.empty() ? "" : ")") + ": " + FormatCount(num_items) + " items, " +
-                          FormatCount(s.heading_range[h].num_cells()) + " cells");
+                          (node.label.empty() ? "" : ")") + ": " + FormatCount(num_items) +
+                          " items, " + FormatCount(s.heading_range[h].num_cells()) + " cells");
     std::vector<double> line;
     int64_t heading_priced = 0;
     for (const std::vector<int>& bin : bins) {

@@ -203,8 +203,8 @@ std::vector<std::string> RunDifferences(const std::string& this_json, const std:
   std::vector<std::string> out;
   if (a.is_discarded() || b.is_discarded()) return {"a run record is not valid JSON"};
   auto text = [](const Json& v) { return v.is_string() ? v.get<std::string>() : v.dump(); };
-  for (const char* key : {"reference", "elementary", "aggregation", "invalid_rows", "representative_weight",
-                          "groups"}) {
+  for (const char* key : {"reference", "elementary", "aggregation", "invalid_rows",
+                          "representative_weight", "groups"}) {
     const Json x = a.value("configuration", Json::object()).value(key, Json());
     const Json y = b.value("configuration", Json::object()).value(key, Json());
     if (x != y) out.push_back(std::string(key) + ": " + text(x) + " in this run, " + text(y) + " in the other");

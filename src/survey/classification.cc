@@ -233,9 +233,9 @@ bool Classification::GroupHeadings(const GroupDefinition& group, const std::stri
       (*in)[h] = 0;
     }
     if (removed == 0) {
-      *error = Located(source, entry.place,
-                       prefix + "without " + QuoteValue(entry.code) +
-                           " takes out no heading of the group");
+      *error = Located(
+          source, entry.place,
+          prefix + "without " + QuoteValue(entry.code) + " takes out no heading of the group");
       return false;
     }
   }

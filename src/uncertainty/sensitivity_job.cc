@@ -285,7 +285,8 @@ std::string SensitivityJobSummary::FullReport(const SensitivityOptions& options)
                     std::to_string(survey.num_headings()) + " basic headings\n";
   out += sensitivity.BriefReport() + "\n";
   if (result.parity.rows() == 0) return out;
-  const int node = options.node.empty() ? 0 : std::max(0, survey.classification.FindNode(options.node));
+  const int node =
+      options.node.empty() ? 0 : std::max(0, survey.classification.FindNode(options.node));
   out += "\nsensitivity of " + NodeTitle(survey.classification, node) + ", dearest first:\n";
   out += SensitivityTable(survey, result, options);
   out += Notes(*this);

@@ -259,7 +259,9 @@ std::string PairCsv(const PairComparison& c) {
 }
 
 std::string PairTable(const PairComparison& c) {
-  const std::string kind = c.is_heading ? "basic heading, " : c.is_group ? "group, " : "aggregate, ";
+  const std::string kind = c.is_heading ? "basic heading, "
+                           : c.is_group ? "group, "
+                                        : "aggregate, ";
   std::string out = "'" + c.to + "' relative to '" + c.from + "' at '" + c.node + "'" +
                     (c.node_label.empty() ? "" : " (" + VisibleText(c.node_label) + ")") + " (" +
                     kind + std::to_string(c.num_matched) + (c.is_heading ? " items" : " headings") +

@@ -26,15 +26,16 @@ std::string WriteGroupsCase(const std::string& name) {
   for (const char* file : {"prices.csv", "expenditure.csv", "regions.csv", "classification.yaml"}) {
     WriteTextFile(dir + "/" + file, ReadTextFile(TestDataPath(std::string("groups/") + file)));
   }
-  WriteTextFile(dir + "/run.yaml",
-                "survey:\n  prices: prices.csv\n  expenditure: expenditure.csv\n"
-                "  regions: regions.csv\nclassification: classification.yaml\n"
-                "matrices: [all, all_but_housing]\n"
-                "labels:\n  all: All items\n  food: \"Food & <drink>\"\n  rent: Actual rents\n"
-                "groups:\n"
-                "  all_but_housing: {label: All items without housing, from: all, without: [housing]}\n"
-                "  energy: {label: Energy, of: [power, fuel]}\n"
-                "  mixed: {of: [food, power], without: milk}\n");
+  WriteTextFile(
+      dir + "/run.yaml",
+      "survey:\n  prices: prices.csv\n  expenditure: expenditure.csv\n"
+      "  regions: regions.csv\nclassification: classification.yaml\n"
+      "matrices: [all, all_but_housing]\n"
+      "labels:\n  all: All items\n  food: \"Food & <drink>\"\n  rent: Actual rents\n"
+      "groups:\n"
+      "  all_but_housing: {label: All items without housing, from: all, without: [housing]}\n"
+      "  energy: {label: Energy, of: [power, fuel]}\n"
+      "  mixed: {of: [food, power], without: milk}\n");
   WriteTextFile(dir + "/incomes.csv", "id,region,income\n1,r1,1000\n2,r4,1000\n");
   return dir;
 }
@@ -122,10 +123,10 @@ TEST(GroupsCommand, DeflatePairAndSensitivityTakeAGroupByName) {
   EXPECT_NEAR(std::stod(row1.substr(row1.find(",1000,") + 6)), 1000.0 / (r1 / 100.0), 1e-9);
   EXPECT_NEAR(std::stod(row2.substr(row2.find(",1000,") + 6)), 1000.0 / (r4 / 100.0), 1e-9);
 
-  ASSERT_EQ(RunCli("pair " + dir + "/run.yaml --from r1 --to r4 --node energy --csv " + dir +
-                       "/pair.csv",
-                   &out, &err),
-            0)
+  ASSERT_EQ(
+      RunCli("pair " + dir + "/run.yaml --from r1 --to r4 --node energy --csv " + dir + "/pair.csv",
+             &out, &err),
+      0)
       << err;
   EXPECT_EQ(ReadTextFile(dir + "/pair.csv").substr(0, 73),
             "measure,value\nfrom,r1\nto,r4\nnode,energy\nnode_label,Energy\nnum_headings,2\n");
@@ -150,11 +151,12 @@ TEST(GroupsCommand, DeflatePairAndSensitivityTakeAGroupByName) {
   EXPECT_NE(boot.find("\nall_but_housing,r1,"), std::string::npos) << boot.substr(0, 200);
   EXPECT_NE(boot.find("\nmixed,r6,"), std::string::npos);
   // The group's bootstrap interval brackets the real income deflate gives.
-  ASSERT_EQ(RunCli("deflate --parities " + dir + "/out --input " + dir + "/incomes.csv --output " +
-                       dir + "/real_interval.csv --value-column income --node all_but_housing "
-                       "--interval",
-                   &out, &err),
-            0)
+  ASSERT_EQ(
+      RunCli("deflate --parities " + dir + "/out --input " + dir + "/incomes.csv --output " + dir +
+                 "/real_interval.csv --value-column income --node all_but_housing "
+                 "--interval",
+             &out, &err),
+      0)
       << err;
   const std::string with_interval = ReadTextFile(dir + "/real_interval.csv");
   EXPECT_EQ(with_interval.substr(0, with_interval.find('\n')),

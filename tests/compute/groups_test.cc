@@ -44,9 +44,9 @@ std::string WriteCase(const std::string& name, const std::string& tree, const st
     out = line + "\n";
     while (std::getline(in, line)) {
       const std::string heading =
-          std::string(file) == "prices.csv" ? line.substr(line.rfind(',') + 1)
-                                            : line.substr(line.find(',') + 1,
-                                                          line.rfind(',') - line.find(',') - 1);
+          std::string(file) == "prices.csv"
+              ? line.substr(line.rfind(',') + 1)
+              : line.substr(line.find(',') + 1, line.rfind(',') - line.find(',') - 1);
       if (keep.empty() || keep.count(heading)) out += line + "\n";
     }
     WriteTextFile(dir + "/" + file, out);
@@ -104,14 +104,12 @@ class GroupEqualsItsOwnTree : public ::testing::TestWithParam<std::string> {};
 TEST_P(GroupEqualsItsOwnTree, ForAListOfNodes) {
   const Computed full =
       ComputeCase(WriteCase("groups_list_full_" + GetParam(), kTree, kGroups), GetParam());
-  const Computed energy = ComputeCase(
-      WriteCase("groups_list_energy_" + GetParam(), "  energy: [power, fuel]\n", "",
-                {"power", "fuel"}),
-      GetParam());
-  const Computed mixed = ComputeCase(
-      WriteCase("groups_list_mixed_" + GetParam(), "  mixed: [bread, power]\n", "",
-                {"bread", "power"}),
-      GetParam());
+  const Computed energy = ComputeCase(WriteCase("groups_list_energy_" + GetParam(),
+                                                "  energy: [power, fuel]\n", "", {"power", "fuel"}),
+                                      GetParam());
+  const Computed mixed = ComputeCase(WriteCase("groups_list_mixed_" + GetParam(),
+                                               "  mixed: [bread, power]\n", "", {"bread", "power"}),
+                                     GetParam());
   const Classification& tree = full.survey.classification;
   ASSERT_EQ(tree.FindNode("energy"), tree.num_tree_nodes() + 1);
   ExpectSameNode(full, tree.FindNode("energy"), energy, 0);
@@ -135,18 +133,19 @@ TEST_P(GroupEqualsItsOwnTree, ForANodeWithoutSomeChildren) {
 TEST_P(GroupEqualsItsOwnTree, LeavesTheTreeNodesUnchanged) {
   const Computed with =
       ComputeCase(WriteCase("groups_with_" + GetParam(), kTree, kGroups), GetParam());
-  const Computed without = ComputeCase(WriteCase("groups_none_" + GetParam(), kTree, ""), GetParam());
+  const Computed without =
+      ComputeCase(WriteCase("groups_none_" + GetParam(), kTree, ""), GetParam());
   ASSERT_EQ(with.survey.classification.num_tree_nodes(),
             static_cast<int>(without.survey.classification.nodes().size()));
-  EXPECT_EQ(with.survey.classification.nodes().size(), without.survey.classification.nodes().size() + 3);
+  EXPECT_EQ(with.survey.classification.nodes().size(),
+            without.survey.classification.nodes().size() + 3);
   for (int n = 0; n < without.survey.classification.num_tree_nodes(); ++n) {
     ExpectSameNode(with, n, without, n);
   }
 }
 
 INSTANTIATE_TEST_SUITE_P(EveryAggregationMethod, GroupEqualsItsOwnTree,
-                         ::testing::ValuesIn(AggregationMethodNames()),
-                         [](const auto& param_info) {
+                         ::testing::ValuesIn(AggregationMethodNames()), [](const auto& param_info) {
                            std::string name = param_info.param;
                            for (char& c : name) c = c == '-' ? '_' : c;
                            return name;
@@ -179,7 +178,8 @@ TEST(Groups, SitAfterTheTreeWithTheirHeadingsInTreeOrder) {
 
 TEST(Groups, AreWrittenToParitiesCsvAsKindGroupWithTheirLabels) {
   const std::string dir =
-      WriteCase("groups_csv", kTree, std::string(kGroups) + "labels:\n  all: All items\n  rent: Actual rents\n");
+      WriteCase("groups_csv", kTree,
+                std::string(kGroups) + "labels:\n  all: All items\n  rent: Actual rents\n");
   const Computed run = ComputeCase(dir, "geks-fisher");
   const std::string csv = ParitiesCsv(run.survey, run.result, nullptr);
   EXPECT_EQ(csv.substr(0, csv.find('\n')),
@@ -219,8 +219,9 @@ TEST(Groups, WorkUnderTheFlatTree) {
   Survey survey;
   LoadSummary load;
   EXPECT_FALSE(LoadSurvey(config, LoadOptions(), &survey, &load));
-  EXPECT_EQ(load.message, dir + "/run.yaml:6:15: group 'typo': of 'fule' is not a node of the "
-                                "classification; did you mean 'fuel'?");
+  EXPECT_EQ(load.message, dir +
+                              "/run.yaml:6:15: group 'typo': of 'fule' is not a node of the "
+                              "classification; did you mean 'fuel'?");
 }
 
 // ---------------------------------------------------------------------------

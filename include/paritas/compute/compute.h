@@ -93,8 +93,8 @@ struct ComputeSummary {
   std::vector<std::string> warnings;
   int num_headings_given = 0;
   int num_headings_used = 0;  // headings with parities
-  int num_aggregates = 0;  // aggregates of the tree
-  int num_groups = 0;      // analytic groups (classification.h)
+  int num_aggregates = 0;     // aggregates of the tree
+  int num_groups = 0;         // analytic groups (classification.h)
   double elementary_seconds = 0.0;
   double aggregation_seconds = 0.0;
 

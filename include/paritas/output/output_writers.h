@@ -93,8 +93,9 @@ struct RegionSpread {
 std::vector<RegionSpread> RegionSpreads(const BilateralMatrices& bilaterals);
 
 // The terminal table of the root node: regions sorted dearest first (with
-// their names from regions.csv when any region has one), with parity, rank, real expenditure per head and the largest Paasche-Laspeyres
-// spread in percent (100 |ln(L / P)|, 2 decimals) with its partner.
+// their names from regions.csv when any region has one), with parity, rank,
+// real expenditure per head and the largest Paasche-Laspeyres spread in
+// percent (100 |ln(L / P)|, 2 decimals) with its partner.
 std::string RootTable(const Survey& survey, const ParityResult& result,
                       const std::vector<RegionSpread>& spreads);
 
