@@ -711,6 +711,42 @@ std::string CheckText(std::string_view data, const std::string& /*work_dir*/) {
   return "";
 }
 
+namespace {
+
+// An accepted configuration's groups and labels apply to its tree (the
+// parser checked them) and give groups after the tree: no parent, no
+// children, a non-empty, increasing list of valid heading indices.
+std::string GroupsProblem(const RunConfig& config) {
+  Classification tree = config.classification;
+  std::string error;
+  if (!ApplyGroupsAndLabels(config, &tree, &error)) {
+    return "groups or labels accepted by the parser fail on its tree: " + error;
+  }
+  const std::vector<ClassificationNode>& nodes = tree.nodes();
+  if (tree.num_tree_nodes() != static_cast<int>(config.classification.nodes().size()) ||
+      nodes.size() != config.classification.nodes().size() + config.groups.size()) {
+    return "groups not appended after the tree";
+  }
+  const int num_headings = static_cast<int>(tree.headings().size());
+  for (size_t i = tree.num_tree_nodes(); i < nodes.size(); ++i) {
+    const ClassificationNode& g = nodes[i];
+    const std::string where = "group " + Show(g.code) + ": ";
+    if (!g.is_group || g.is_leaf || g.parent != -1 || !g.children.empty())
+      return where + "not a group";
+    if (g.headings.empty()) return where + "no headings";
+    for (size_t k = 0; k < g.headings.size(); ++k) {
+      if (g.headings[k] < 0 || g.headings[k] >= num_headings ||
+          (k > 0 && g.headings[k] <= g.headings[k - 1])) {
+        return where + "headings not increasing heading indices";
+      }
+    }
+    if (tree.FindNode(g.code) != static_cast<int>(i)) return where + "FindNode does not find it";
+  }
+  return "";
+}
+
+}  // namespace
+
 std::string CheckConfig(std::string_view data, const std::string& work_dir) {
   // Paths in the text are read (a classification file); never a device or kernel file.
   for (const char* special : {"dev/", "proc/", "sys/"}) {
@@ -729,6 +765,7 @@ std::string CheckConfig(std::string_view data, const std::string& work_dir) {
         if (std::string problem = TreeProblem(config.classification); !problem.empty()) {
           return "classification of the configuration: " + problem;
         }
+        if (std::string problem = GroupsProblem(config); !problem.empty()) return problem;
       }
     }
   } catch (const std::exception& e) {

@@ -36,7 +36,9 @@ std::string CheckText(std::string_view data, const std::string& work_dir);
 // from the same YAML text. Never throws; a failure has a non-empty message; a
 // configuration that parses is valid; a classification that parses is a tree
 // (one root first, parents before children, depths, children and heading
-// lists consistent, codes unique and found by FindNode / FindHeading).
+// lists consistent, codes unique and found by FindNode / FindHeading); the
+// groups and labels of a configuration that parses apply to its tree, each
+// group after the tree with increasing heading indices.
 std::string CheckConfig(std::string_view data, const std::string& work_dir);
 
 // Survey loader (LoadSurvey with invalid_rows: skip). The input is split at

@@ -45,6 +45,7 @@ struct SensitivityArguments {
   std::optional<std::string> coverage;
   std::optional<std::string> repetitions;
   std::optional<std::string> parts;
+  std::optional<std::string> node;
 };
 int RunSensitivityCommand(const std::string& config_path, const Overrides& overrides,
                           const SensitivityArguments& arguments);

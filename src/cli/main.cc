@@ -87,6 +87,9 @@ void AddSensitivityOptions(CLI::App* command, paritas::cli::Overrides* overrides
       ->type_name("INT");
   command->add_option("--parts", arguments->parts,
                       "parts to run: bootstrap,leave-one-out,coverage,methods (default all)");
+  command->add_option("--node", arguments->node,
+                      "node or group whose results the table shows; every node is in the files "
+                      "(default: the root)");
   command->add_flag("--strict", overrides->strict,
                     "exit with code 3, after writing everything, when the run raised a warning "
                     "(overrides 'strict')");

@@ -67,6 +67,7 @@ bool ParseArguments(const SensitivityArguments& arguments, SensitivityOptions* o
     if (!ParseWholeOption("--repetitions", *arguments.repetitions, 2, 10000, &value)) return false;
     options->coverage_repetitions = static_cast<int>(value);
   }
+  if (arguments.node) options->node = std::string(Trim(*arguments.node));
   if (arguments.parts) {
     std::string error;
     if (!SetSensitivityParts(SplitList(*arguments.parts), options, &error)) {

@@ -119,7 +119,8 @@ ComputeOptions ComputeOptions::FromConfig(const RunConfig& config) {
 std::string ComputeSummary::BriefReport() const {
   return "parities for " + std::to_string(num_headings_used) + " of " +
          std::to_string(num_headings_given) + " basic headings and " +
-         std::to_string(num_aggregates) + " aggregates";
+         std::to_string(num_aggregates) + " aggregates" +
+         (num_groups > 0 ? " and " + std::to_string(num_groups) + " groups" : "");
 }
 
 Eigen::VectorXd NodeExpenditure(const Survey& survey, int node) {
@@ -545,7 +546,7 @@ bool FinishNodes(const Survey& survey, const ComputeOptions& options,
                          &node, summary);
       continue;
     }
-    ++summary->num_aggregates;
+    ++(n.is_group ? summary->num_groups : summary->num_aggregates);
     const AggregateParities& aggregate = aggregate_of[index];
     FillAggregateNode(n, aggregate, *result, &node);
     if (std::string unpriced = UnpricedAggregate(survey, *result, n); !unpriced.empty()) {

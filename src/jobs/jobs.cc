@@ -68,13 +68,18 @@ std::string FilesReport(const LoadSummary& load) {
 }
 
 std::string SurveyCounts(const Survey& survey) {
-  int aggregates = 0;
-  for (const auto& node : survey.classification.nodes()) aggregates += node.is_leaf ? 0 : 1;
-  return "survey: " + FormatCount(survey.num_regions()) + " regions, " + FormatCount(survey.num_items()) +
-         " items, " + FormatCount(survey.num_headings()) + " basic headings in " +
-         FormatCount(aggregates) + " aggregate" + (aggregates == 1 ? "" : "s") + ", " +
-         FormatCount(survey.num_quotes) + " quotes in " + FormatCount(static_cast<int64_t>(survey.cells.size())) +
-         " cells\n";
+  int aggregates = 0, groups = 0;
+  for (const auto& node : survey.classification.nodes()) {
+    groups += node.is_group ? 1 : 0;
+    aggregates += node.is_leaf || node.is_group ? 0 : 1;
+  }
+  return "survey: " + FormatCount(survey.num_regions()) + " regions, " +
+         FormatCount(survey.num_items()) + " items, " + FormatCount(survey.num_headings()) +
+         " basic headings in " + FormatCount(aggregates) + " aggregate" +
+         (aggregates == 1 ? "" : "s") +
+         (groups > 0 ? " and " + FormatCount(groups) + " group" + (groups == 1 ? "" : "s") : "") +
+         ", " + FormatCount(survey.num_quotes) + " quotes in " +
+         FormatCount(static_cast<int64_t>(survey.cells.size())) + " cells\n";
 }
 
 }  // namespace
@@ -393,6 +398,37 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
   return summary->exit_code;
 }
 
+namespace {
+
+// One line per analytic group: its headings and the range of its parities.
+std::string GroupLines(const Survey& survey, const ParityResult& result) {
+  const Classification& tree = survey.classification;
+  const int num_nodes = static_cast<int>(tree.nodes().size());
+  if (tree.num_tree_nodes() >= num_nodes) return "";
+  std::string out = "\ngroups (each normalised on its own; every region in parities.csv):\n";
+  for (int n = tree.num_tree_nodes(); n < num_nodes; ++n) {
+    const NodeResult& node = result.nodes[n];
+    int low = -1, high = -1;
+    for (int r = 0; r < node.parity.size(); ++r) {
+      if (!std::isfinite(node.parity(r))) continue;
+      if (low < 0 || node.parity(r) < node.parity(low)) low = r;
+      if (high < 0 || node.parity(r) > node.parity(high)) high = r;
+    }
+    out += "  " + NodeTitle(tree, n) + ": " +
+           FormatCount(static_cast<int64_t>(tree.nodes()[n].headings.size())) + " of " +
+           FormatCount(survey.num_headings()) + " basic headings";
+    if (low >= 0) {
+      out += "; parity " + FormatFixed(node.parity(low), 2) + " (" +
+             std::string(survey.regions.Code(low)) + ") to " + FormatFixed(node.parity(high), 2) +
+             " (" + std::string(survey.regions.Code(high)) + ")";
+    }
+    out += "\n";
+  }
+  return out;
+}
+
+}  // namespace
+
 std::string ComputeJobSummary::FullReport() const {
   std::string out = SurveyCounts(survey);
   out += compute.BriefReport() + "; " + FormatCount(static_cast<int64_t>(warnings.size())) +
@@ -406,15 +442,15 @@ std::string ComputeJobSummary::FullReport() const {
         "nominal and real expenditure are not computed\n";
   }
   if (result.nodes.empty()) return out;
-  const std::string& root = survey.classification.nodes().front().code;
-  out += "\nparities for '" + root + "' (" + result.nodes.front().reference_used +
-         " = 100), dearest first:\n";
+  out += "\nparities for " + NodeTitle(survey.classification, 0) + " (" +
+         result.nodes.front().reference_used + " = 100), dearest first:\n";
   out += RootTable(survey, result, RegionSpreads(result.bilaterals.front()));
   out +=
       "(P-L spread, %: 100 x |ln(Laspeyres / Paasche)|, the largest of the region against any "
       "other, with that partner; large spreads mean the price and spending patterns differ and "
       "the choice of formula matters.)\n(" +
       ReferenceConvention(result.nodes.front().reference_used) + ".)\n";
+  out += GroupLines(survey, result);
   if (!outliers.outliers.empty()) {
     int64_t cells = 0;
     for (const Outlier& o : outliers.outliers) cells += o.kind == OutlierKind::kCell ? 1 : 0;

@@ -95,6 +95,13 @@ std::string NodeFileName(const std::string& code) {
   return name.substr(0, kMaxNodeFileNameBytes - 66) + "%~" + internal::Sha256Hex(code);
 }
 
+std::string NodeTitle(const Classification& classification, int node) {
+  const ClassificationNode& n = classification.nodes()[node];
+  std::string title = "'" + n.code + "'";
+  if (!n.label.empty()) title += " (" + VisibleText(n.label) + ")";
+  return title;
+}
+
 std::string ParitiesCsv(const Survey& survey, const ParityResult& result,
                         const PlausibilityResult* plausibility) {
   const int num_regions = survey.num_regions();
@@ -114,13 +121,21 @@ std::string ParitiesCsv(const Survey& survey, const ParityResult& result,
       }
     }
   }
+  // "node,kind," and ",label" of each node, escaped once. The label comes
+  // after the counts, so the columns before it keep their places.
+  std::vector<std::string> node_fields(tree.size()), label_fields(tree.size());
+  for (size_t n = 0; n < tree.size(); ++n) {
+    AppendCode(tree[n].code, &node_fields[n]);
+    node_fields[n] += tree[n].is_leaf ? ",heading," : tree[n].is_group ? ",group," : ",aggregate,";
+    label_fields[n] += ',';
+    AppendCsvField(tree[n].label, &label_fields[n]);
+  }
   return FormatRows(
       num_rows, kRowsPerBlock, 160,
       [&](int64_t row, std::string* out) {
         const NodeResult& node = result.nodes[row / num_regions];
         const int r = static_cast<int>(row % num_regions);
-        AppendCode(tree[node.node].code, out);
-        *out += node.is_heading ? ",heading," : ",aggregate,";
+        *out += node_fields[node.node];
         *out += region_fields[r];
         *out += ',';
         AppendShortest(node.parity(r), out);
@@ -151,6 +166,7 @@ std::string ParitiesCsv(const Survey& survey, const ParityResult& result,
           *out += ',';
           AppendShortest(shares(k), out);
         }
+        *out += label_fields[node.node];
         if (plausibility != nullptr) {
           *out += ',';
           AppendShortest(plausibility->basket_share(node.node, r), out);
@@ -161,7 +177,7 @@ std::string ParitiesCsv(const Survey& survey, const ParityResult& result,
       },
       std::string("node,kind,region,parity,expenditure,real_expenditure,real_per_capita_index,"
                   "log_se,log_se_robust,rank,num_items,num_quotes,num_headings,source,"
-                  "share_priced,share_imputed,share_external") +
+                  "share_priced,share_imputed,share_external,label") +
           (plausibility != nullptr ? ",basket_share,warnings\n" : "\n"));
 }
 
@@ -357,13 +373,35 @@ std::string RootTable(const Survey& survey, const ParityResult& result,
     if (text.size() >= w) return text;
     return right ? std::string(w - text.size(), ' ') + text : text + std::string(w - text.size(), ' ');
   };
-  std::string out = pad("region", width, false) + "  " + pad("rank", 4, true) + "  " +
-                    pad("parity", 9, true);
+  // Names are shown up to 24 characters, padded by code points.
+  size_t name_width = 0;
+  std::vector<std::string> names(survey.num_regions());
+  for (int r : order) {
+    if (r >= static_cast<int>(survey.region_name.size())) continue;
+    names[r] = VisibleText(survey.region_name[r]);
+    size_t chars = 0, cut = names[r].size();
+    for (size_t i = 0; i < names[r].size(); ++i) {
+      if ((static_cast<unsigned char>(names[r][i]) & 0xC0) == 0x80) continue;
+      if (chars == 24) cut = std::min(cut, i);
+      ++chars;
+    }
+    names[r].resize(cut);
+    name_width = std::max(name_width, std::min<size_t>(chars, 24));
+  }
+  auto pad_name = [&](const std::string& text) {
+    size_t chars = 0;
+    for (unsigned char c : text) chars += (c & 0xC0) != 0x80;
+    return text + std::string(name_width > chars ? name_width - chars : 0, ' ') + "  ";
+  };
+  if (name_width > 0) name_width = std::max<size_t>(name_width, 4);
+  std::string out = pad("region", width, false) + "  " + (name_width > 0 ? pad_name("name") : "") +
+                    pad("rank", 4, true) + "  " + pad("parity", 9, true);
   if (per_capita) out += "  " + pad("real/head", 9, true);
   out += "  " + pad("P-L spread, %", 13, true) + "  " + pad("worst pair", 10, false) + "\n";
   for (int r : order) {
     std::string code(survey.regions.Code(r).substr(0, width));
-    out += pad(code, width, false) + "  " + pad(std::to_string(root.rank(r)), 4, true) + "  " +
+    out += pad(code, width, false) + "  " + (name_width > 0 ? pad_name(names[r]) : "") +
+           pad(std::to_string(root.rank(r)), 4, true) + "  " +
            pad(FormatFixed(root.parity(r), 2), 9, true);
     if (per_capita) out += "  " + pad(FormatFixed(root.real_per_capita_index(r), 1), 9, true);
     std::string spread = "", partner = "";

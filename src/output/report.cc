@@ -61,13 +61,14 @@ Context MakeContext(const ReportInputs& inputs, const std::string& root_code) {
 }
 
 // Links to the sections the page holds.
-std::string Navigation(bool has_bilaterals, bool has_tree, bool has_outliers,
-                       bool has_sensitivity) {
+std::string Navigation(bool has_bilaterals, bool has_tree, bool has_outliers, bool has_sensitivity,
+                       bool has_groups) {
   std::string out =
       "<nav class=\"toc\" aria-label=\"sections\"><div class=\"wrap\"><a "
       "href=\"#overview\">Overview</a>"
-      "<a href=\"#price-levels\">Price levels</a><a href=\"#aggregates\">By aggregate</a>"
-      "<a href=\"#matrix\">Parity matrix</a><a href=\"#coverage\">Coverage</a>";
+      "<a href=\"#price-levels\">Price levels</a><a href=\"#aggregates\">By aggregate</a>";
+  if (has_groups) out += "<a href=\"#groups\">Groups</a>";
+  out += "<a href=\"#matrix\">Parity matrix</a><a href=\"#coverage\">Coverage</a>";
   if (has_bilaterals) out += "<a href=\"#spread\">Bilateral spread</a>";
   if (has_tree) out += "<a href=\"#tree\">Spanning tree</a>";
   if (has_outliers) out += "<a href=\"#outliers\">Outliers</a>";
@@ -85,14 +86,17 @@ std::string Sections(const Context& ctx) {
   const bool has_bilaterals =
       !result.bilaterals.empty() &&
       result.bilaterals.front().laspeyres.rows() == ctx.survey.num_regions();
+  const bool has_groups = ctx.survey.classification.num_tree_nodes() <
+                          static_cast<int>(ctx.survey.classification.nodes().size());
   std::string out = Navigation(has_bilaterals, !ctx.root.tree.empty(), ctx.in.outliers != nullptr,
-                               ctx.in.sensitivity != nullptr);
+                               ctx.in.sensitivity != nullptr, has_groups);
   out += report::Overview(ctx);
   std::vector<RegionSpread> spreads;
   if (has_bilaterals) spreads = RegionSpreads(result.bilaterals.front());
   if (!ctx.order.empty()) {
     out += report::PriceLevelSection(ctx, spreads);
     out += report::AggregateSection(ctx);
+    if (has_groups) out += report::GroupSection(ctx);
     out += report::MatrixSection(ctx);
   }
   out += report::CoverageSection(ctx);
@@ -114,6 +118,11 @@ std::vector<ReportOutlier> ToReportOutliers(const Survey& survey, const OutlierR
     row.heading = survey.heading_codes[o.heading];
     row.region = std::string(survey.regions.Code(o.region));
     row.item = std::string(survey.items.Code(o.item));
+    row.heading_label =
+        survey.classification.nodes()[survey.classification.headings()[o.heading]].label;
+    if (o.item < static_cast<int>(survey.item_description.size())) {
+      row.item_label = survey.item_description[o.item];
+    }
     if (o.kind == OutlierKind::kLowestQuote) row.item += " (lowest quote)";
     if (o.kind == OutlierKind::kHighestQuote) row.item += " (highest quote)";
     row.observed = o.observed;
@@ -158,8 +167,12 @@ std::string HtmlEscape(std::string_view raw) {
 std::string ReportHtml(const ReportInputs& inputs) {
   const bool usable = inputs.survey != nullptr && inputs.result != nullptr &&
                       !inputs.result->nodes.empty() && !inputs.survey->classification.empty();
-  const std::string root_code =
-      usable ? inputs.survey->classification.nodes().front().code : std::string();
+  // The root as the page names it: its label with the code, or the code.
+  std::string root_code;
+  if (usable) {
+    const ClassificationNode& root = inputs.survey->classification.nodes().front();
+    root_code = root.label.empty() ? root.code : root.label + " (" + root.code + ")";
+  }
   std::string out = PageTop(inputs, usable, root_code);
   if (!usable) {
     return out +

@@ -197,11 +197,14 @@ std::string OutlierSection(const Context& ctx, const std::vector<ReportOutlier>&
   for (size_t i = 0; i < sorted.size() && i < kMaxRows; ++i) {
     const ReportOutlier& o = *sorted[i];
     const double ratio = o.predicted > 0 ? o.observed / o.predicted : kNaN;
-    out += "<tr><td>" + HtmlEscape(o.heading) + "</td><td>" + HtmlEscape(o.region) + "</td><td>" +
-           HtmlEscape(o.item) + "</td><td class=\"num\" data-v=\"" + FormatFixed(o.observed, 6) +
-           "\">" + Num(o.observed, 2) + "</td><td class=\"num\" data-v=\"" +
-           FormatFixed(o.predicted, 6) + "\">" + Num(o.predicted, 2) +
-           "</td><td class=\"num\" data-v=\"" +
+    auto labelled = [](const std::string& code, const std::string& label) {
+      return HtmlEscape(code) + (label.empty() ? "" : " <small>" + HtmlEscape(label) + "</small>");
+    };
+    out += "<tr><td>" + labelled(o.heading, o.heading_label) + "</td><td>" + HtmlEscape(o.region) +
+           "</td><td>" + labelled(o.item, o.item_label) + "</td><td class=\"num\" data-v=\"" +
+           FormatFixed(o.observed, 6) + "\">" + Num(o.observed, 2) +
+           "</td><td class=\"num\" data-v=\"" + FormatFixed(o.predicted, 6) + "\">" +
+           Num(o.predicted, 2) + "</td><td class=\"num\" data-v=\"" +
            (std::isfinite(ratio) ? FormatFixed(ratio, 6) : "") + "\">" + Num(ratio, 2) +
            "</td><td class=\"num\" data-v=\"" + FormatFixed(o.standardised_residual, 6) + "\">" +
            Num(o.standardised_residual, 2) + "</td><td class=\"num\" data-v=\"" +

@@ -31,7 +31,38 @@ std::vector<int> AggregateColumns(const Context& ctx) {
   }
   std::vector<int> columns = {0};
   columns.insert(columns.end(), children.begin(), children.end());
+  // The groups after the tree's columns (at most kMaxColumns of them).
+  const Classification& tree = ctx.survey.classification;
+  const int num_nodes = static_cast<int>(tree.nodes().size());
+  for (int n = tree.num_tree_nodes(); n < num_nodes && n < tree.num_tree_nodes() + 24; ++n) {
+    columns.push_back(n);
+  }
   return columns;
+}
+
+// "food, housing" from codes, each by its node's name.
+std::string NodeNames(const Context& ctx, const std::vector<PlacedCode>& codes) {
+  std::vector<std::string> names;
+  for (const PlacedCode& c : codes) {
+    const int n = ctx.survey.classification.FindNode(c.code);
+    names.push_back(HtmlEscape(n >= 0 ? ctx.NodeTip(n) : c.code));
+  }
+  return JoinNames(names);
+}
+
+// The definition of group `node` as the configuration wrote it.
+std::string GroupDefinitionHtml(const Context& ctx, int node) {
+  if (ctx.in.config == nullptr) return "";
+  const std::string& code = ctx.survey.classification.nodes()[node].code;
+  for (const GroupDefinition& g : ctx.in.config->groups) {
+    if (g.code.code != code) continue;
+    std::string out;
+    if (!g.from.code.empty()) out += NodeNames(ctx, {g.from});
+    if (!g.of.empty()) out += std::string(out.empty() ? "" : " and ") + NodeNames(ctx, g.of);
+    if (!g.without.empty()) out += " without " + NodeNames(ctx, g.without);
+    return out;
+  }
+  return "";
 }
 
 }  // namespace
@@ -113,9 +144,14 @@ std::string AggregateSection(const Context& ctx) {
   GridSpec g;
   g.id = "aggregate-grid";
   g.aria = "price level of each region in each aggregate";
-  for (int node : columns) {
-    g.column_labels.push_back(ctx.survey.classification.nodes()[node].code);
-    g.column_bold.push_back(node == 0);
+  const int num_tree_nodes = ctx.survey.classification.num_tree_nodes();
+  g.gap_before = {1};
+  for (int c = 0; c < static_cast<int>(columns.size()); ++c) {
+    g.column_labels.push_back(ctx.NodeName(columns[c]));
+    g.column_bold.push_back(columns[c] == 0);
+    if (columns[c] >= num_tree_nodes && (c == 0 || columns[c - 1] < num_tree_nodes)) {
+      g.gap_before.insert(c);
+    }
   }
   for (int r : rows) {
     g.row_labels.push_back(ctx.Label(r));
@@ -131,19 +167,22 @@ std::string AggregateSection(const Context& ctx) {
   g.colour = [scale](double v) { return scale.Colour(v); };
   g.format = [](double v) { return Num(v, kChartParityDecimals); };
   g.tip = [&ctx, &rows, &columns](int r, int c, double v) {
-    std::string tip = ctx.Label(rows[r]) + " \xC2\xB7 " +
-                      ctx.survey.classification.nodes()[columns[c]].code + ": " +
-                      Num(v, kTableParityDecimals);
+    std::string tip = ctx.Label(rows[r]) + " \xC2\xB7 " + ctx.NodeTip(columns[c]) +
+                      (columns[c] >= ctx.survey.classification.num_tree_nodes() ? " (group)" : "") +
+                      ": " + Num(v, kTableParityDecimals);
     const std::string kinds = WarningKindsOf(ctx, columns[c], rows[r]);
     return kinds.empty() ? tip : tip + " \xE2\x9A\xA0 warnings: " + kinds;
   };
-  g.gap_before = {1};
   std::string out = OpenSection("aggregates", "Price levels by aggregate");
+  const bool has_groups = columns.back() >= num_tree_nodes;
   out += "<p>Price level of each region in <b>" + HtmlEscape(ctx.root_code) +
-         "</b> (first column) and in each of its aggregates, each normalised on its own (" +
-         HtmlEscape(ctx.root.reference_used) +
+         "</b> (first column) and in each of its aggregates" +
+         std::string(has_groups ? ", then in each group (after the second gap)" : "") +
+         ", each normalised on its own (" + HtmlEscape(ctx.root.reference_used) +
          " = 100). Read along a row to see which categories make a region dear or cheap.</p>\n";
-  if (ctx.survey.classification.nodes().front().children.size() + 1 > columns.size()) {
+  if (ctx.survey.classification.nodes().front().children.size() + 1 >
+      static_cast<size_t>(std::count_if(columns.begin(), columns.end(),
+                                        [&](int n) { return n < num_tree_nodes; }))) {
     out += "<p class=\"note\">The " + FormatCount(static_cast<int64_t>(columns.size() - 1)) +
            " aggregates with the largest expenditure are shown; every node is in "
            "<code>parities.csv</code>.</p>";
@@ -154,6 +193,41 @@ std::string AggregateSection(const Context& ctx) {
          "<span class=\"key\"><svg width=\"16\" height=\"12\"><rect class=\"cell none\" "
          "width=\"16\" height=\"12\"/></svg> no price level</span></div>\n";
   return out + "</section>\n";
+}
+
+std::string GroupSection(const Context& ctx) {
+  const Classification& tree = ctx.survey.classification;
+  std::string out = OpenSection("groups", "Groups");
+  out +=
+      "<p>Each group is an aggregate of the basic headings listed, computed from their parities "
+      "and expenditure with the run's aggregation method and normalised on its own, like every "
+      "aggregate of the classification. A group is not built from the aggregates' parities, so "
+      "under a method that is not additive it need not lie between them.</p>\n"
+      "<div class=\"table-scroll\"><table class=\"data\" id=\"group-table\"><thead><tr>"
+      "<th>group</th><th>label</th><th>definition</th><th>basic headings</th>"
+      "<th>cheapest</th><th>dearest</th></tr></thead><tbody>";
+  for (int n = tree.num_tree_nodes(); n < static_cast<int>(tree.nodes().size()); ++n) {
+    const ClassificationNode& node = tree.nodes()[n];
+    std::vector<std::string> headings;
+    for (int h : node.headings) headings.push_back(ctx.NodeTip(tree.headings()[h]));
+    const NodeResult& result = ctx.result.nodes[n];
+    int low = -1, high = -1;
+    for (int r = 0; r < result.parity.size(); ++r) {
+      if (!std::isfinite(result.parity(r))) continue;
+      if (low < 0 || result.parity(r) < result.parity(low)) low = r;
+      if (high < 0 || result.parity(r) > result.parity(high)) high = r;
+    }
+    auto level = [&](int r) {
+      return r < 0 ? std::string("\xE2\x80\x93")
+                   : HtmlEscape(ctx.Label(r)) + " " + Num(result.parity(r), kTableParityDecimals);
+    };
+    out += "<tr><td><code>" + HtmlEscape(node.code) + "</code></td><td>" + HtmlEscape(node.label) +
+           "</td><td>" + GroupDefinitionHtml(ctx, n) + "</td><td>" +
+           FormatCount(static_cast<int64_t>(headings.size())) + ": " +
+           HtmlEscape(JoinNames(headings)) + "</td><td>" + level(low) + "</td><td>" + level(high) +
+           "</td></tr>";
+  }
+  return out + "</tbody></table></div>\n</section>\n";
 }
 
 std::string MatrixSection(const Context& ctx) {
@@ -252,9 +326,11 @@ double CoverageRows(const Survey& s, const std::vector<std::vector<int>>& bins, 
   int64_t total_priced = 0, total_possible = 0;
   for (int h = 0; h < s.num_headings(); ++h) {
     const int num_items = s.heading_range[h].num_items();
-    g->row_labels.push_back(s.heading_codes[h]);
-    g->row_tips.push_back(s.heading_codes[h] + ": " + FormatCount(num_items) + " items, " +
-                          FormatCount(s.heading_range[h].num_cells()) + " cells");
+    const ClassificationNode& node = s.classification.nodes()[s.classification.headings()[h]];
+    g->row_labels.push_back(node.label.empty() ? node.code : node.label);
+    g->row_tips.push_back((node.label.empty() ? "" : node.label + " (") + node.code +
+                          (node.label.empty() ? "" : ")") + ": " + FormatCount(num_items) +
+                          " items, " + FormatCount(s.heading_range[h].num_cells()) + " cells");
     std::vector<double> line;
     int64_t heading_priced = 0;
     for (const std::vector<int>& bin : bins) {

@@ -15,9 +15,10 @@ namespace {
 // The survey in numbers, and the dearest region against the cheapest.
 std::string Headline(const Context& ctx) {
   const Survey& s = ctx.survey;
-  int num_aggregates = 0;
+  int num_aggregates = 0, num_groups = 0;
   for (const ClassificationNode& node : s.classification.nodes()) {
-    num_aggregates += node.is_leaf ? 0 : 1;
+    num_groups += node.is_group ? 1 : 0;
+    num_aggregates += node.is_leaf || node.is_group ? 0 : 1;
   }
   const double possible = static_cast<double>(s.num_regions()) * s.num_items();
   const double coverage = possible > 0 ? static_cast<double>(s.cells.size()) / possible : kNaN;
@@ -25,6 +26,7 @@ std::string Headline(const Context& ctx) {
   out += Card(FormatCount(s.num_regions()), "regions");
   out += Card(FormatCount(s.num_headings()), "basic headings");
   out += Card(FormatCount(num_aggregates), "aggregates");
+  if (num_groups > 0) out += Card(FormatCount(num_groups), "groups");
   out += Card(FormatCount(s.num_items()), "items");
   out += Card(FormatCount(s.num_quotes), "price quotes");
   out += Card(FormatCount(static_cast<int64_t>(s.cells.size())), "priced cells");

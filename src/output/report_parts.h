@@ -145,6 +145,13 @@ struct Context {
         r < static_cast<int>(survey.region_name.size()) ? survey.region_name[r] : "";
     return name.empty() ? Code(r) : name;
   }
+  // A node's label when given, else its code.
+  const std::string& NodeName(int node) const { return survey.classification.LabelOrCode(node); }
+  // "label (code)" when the node has a label, else the code.
+  std::string NodeTip(int node) const {
+    const ClassificationNode& n = survey.classification.nodes()[node];
+    return n.label.empty() ? n.code : n.label + " (" + n.code + ")";
+  }
   bool HasNames() const {
     for (const std::string& name : survey.region_name) {
       if (!name.empty()) return true;
@@ -200,6 +207,8 @@ std::string Overview(const Context& ctx);  // report_overview.cc
 std::string PriceLevelSection(const Context& ctx, const std::vector<RegionSpread>& spreads);
 // report_grids.cc
 std::string AggregateSection(const Context& ctx);
+// The analytic groups: their definitions and headings, and their price levels.
+std::string GroupSection(const Context& ctx);
 std::string MatrixSection(const Context& ctx);
 std::string CoverageSection(const Context& ctx);
 // report_diagnostics.cc

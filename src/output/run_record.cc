@@ -54,6 +54,23 @@ Json ConfigJson(const RunConfig& config) {
   }
   out["missing_parities"] = {{"default", ValidUtf8(config.missing_parities.default_rule)},
                              {"headings", rules}};
+  Json groups = Json::array();
+  auto codes = [](const std::vector<PlacedCode>& list) {
+    Json array = Json::array();
+    for (const PlacedCode& c : list) array.push_back(ValidUtf8(c.code));
+    return array;
+  };
+  for (const GroupDefinition& g : config.groups) {
+    groups.push_back({{"code", ValidUtf8(g.code.code)},
+                      {"label", ValidUtf8(g.label)},
+                      {"of", codes(g.of)},
+                      {"from", ValidUtf8(g.from.code)},
+                      {"without", codes(g.without)}});
+  }
+  out["groups"] = groups;
+  Json labels = Json::object();
+  for (const NodeLabel& l : config.labels) labels[ValidUtf8(l.code.code)] = ValidUtf8(l.label);
+  out["labels"] = labels;
   out["limits"] = {{"max_file_bytes", config.limits.max_file_bytes},
                    {"max_yaml_bytes", config.limits.max_yaml_bytes},
                    {"max_record_bytes", config.limits.max_record_bytes},
@@ -155,7 +172,8 @@ std::string RunRecordJson(const RunRecord& record) {
                           {"num_headings_used", record.compute->num_headings_used},
                           {"num_aggregates", record.compute->num_aggregates},
                           {"num_parities_imputed", record.compute->num_parities_imputed},
-                          {"num_parities_missing", record.compute->num_parities_missing}};
+                          {"num_parities_missing", record.compute->num_parities_missing},
+                          {"num_groups", record.compute->num_groups}};
   }
   out["num_warnings"] = record.warnings.size();
   if (!record.warning_counts.empty()) {
@@ -214,8 +232,8 @@ std::vector<std::string> RunDifferences(const std::string& this_json, const std:
   std::vector<std::string> out;
   if (a.is_discarded() || b.is_discarded()) return {"a run record is not valid JSON"};
   auto text = [](const Json& v) { return v.is_string() ? v.get<std::string>() : v.dump(); };
-  for (const char* key : {"reference", "elementary", "aggregation", "invalid_rows", "representative_weight",
-                          "missing_parities"}) {
+  for (const char* key : {"reference", "elementary", "aggregation", "invalid_rows",
+                          "representative_weight", "missing_parities", "groups"}) {
     const Json x = a.value("configuration", Json::object()).value(key, Json());
     const Json y = b.value("configuration", Json::object()).value(key, Json());
     if (x != y) out.push_back(std::string(key) + ": " + text(x) + " in this run, " + text(y) + " in the other");

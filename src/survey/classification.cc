@@ -2,11 +2,13 @@
 // so every later pass (aggregation, outputs) is a loop over indices.
 #include "paritas/survey/classification.h"
 
+#include <algorithm>
 #include <map>
 #include <unordered_map>
 
 #include <yaml-cpp/yaml.h>
 
+#include "paritas/base/text.h"
 #include "survey/classification_yaml.h"
 #include "survey/yaml_load.h"
 
@@ -160,6 +162,7 @@ Classification Classification::Flat(const std::vector<std::string>& heading_code
 }
 
 void Classification::Finish() {
+  num_tree_nodes_ = static_cast<int>(nodes_.size());
   heading_nodes_.clear();
   for (int i = 0; i < static_cast<int>(nodes_.size()); ++i) {
     if (nodes_[i].is_leaf) heading_nodes_.push_back(i);
@@ -168,6 +171,146 @@ void Classification::Finish() {
   for (int h = 0; h < static_cast<int>(heading_nodes_.size()); ++h) {
     for (int n = heading_nodes_[h]; n >= 0; n = nodes_[n].parent) nodes_[n].headings.push_back(h);
   }
+}
+
+namespace {
+
+std::string Located(const std::string& source, const ConfigPlace& place, const std::string& what) {
+  return LocatedMessage(source, place.line, place.column, what);
+}
+
+std::string DidYouMean(const std::string& word, const std::vector<std::string>& candidates) {
+  const std::string nearest = NearestName(word, candidates);
+  return nearest.empty() ? "" : "; did you mean '" + nearest + "'?";
+}
+
+int IndexOf(const std::vector<std::string>& codes, const std::string& code) {
+  const auto it = std::find(codes.begin(), codes.end(), code);
+  return it == codes.end() ? -1 : static_cast<int>(it - codes.begin());
+}
+
+}  // namespace
+
+// Marks the headings of one group's definition in `in` (by heading index);
+// returns false with the message.
+bool Classification::GroupHeadings(const GroupDefinition& group, const std::string& source,
+                                   const std::vector<std::string>& tree_codes,
+                                   const std::vector<GroupDefinition>& groups,
+                                   std::vector<char>* in, std::string* error) const {
+  const std::string prefix = "group " + QuoteValue(group.code.code) + ": ";
+  auto member = [&](const PlacedCode& entry, const char* key) {
+    const int n = IndexOf(tree_codes, entry.code);
+    if (n >= 0) return n;
+    const bool is_group = std::any_of(groups.begin(), groups.end(), [&](const GroupDefinition& g) {
+      return g.code.code == entry.code;
+    });
+    *error = Located(source, entry.place,
+                     prefix + key + " " + QuoteValue(entry.code) +
+                         (is_group ? " is a group; groups are made of nodes of the classification"
+                                   : " is not a node of the classification" +
+                                         DidYouMean(entry.code, tree_codes)));
+    return -1;
+  };
+  if (group.of.empty() && group.from.code.empty()) {
+    *error = Located(source, group.code.place,
+                     prefix + "needs 'of' (a list of nodes) or 'from' (a node)");
+    return false;
+  }
+  std::vector<std::pair<const PlacedCode*, const char*>> included;
+  for (const PlacedCode& entry : group.of) included.emplace_back(&entry, "of");
+  if (!group.from.code.empty()) included.emplace_back(&group.from, "from");
+  for (const auto& [entry, key] : included) {
+    const int n = member(*entry, key);
+    if (n < 0) return false;
+    for (int h : nodes_[n].headings) (*in)[h] = 1;
+  }
+  for (const PlacedCode& entry : group.without) {
+    const int n = member(entry, "without");
+    if (n < 0) return false;
+    int removed = 0;
+    for (int h : nodes_[n].headings) {
+      removed += (*in)[h];
+      (*in)[h] = 0;
+    }
+    if (removed == 0) {
+      *error = Located(
+          source, entry.place,
+          prefix + "without " + QuoteValue(entry.code) + " takes out no heading of the group");
+      return false;
+    }
+  }
+  return true;
+}
+
+bool Classification::SetGroups(const std::vector<GroupDefinition>& groups,
+                               const std::string& source, std::string* error) {
+  std::vector<std::string> tree_codes;
+  for (int n = 0; n < num_tree_nodes_; ++n) tree_codes.push_back(nodes_[n].code);
+  std::vector<ClassificationNode> added;
+  for (const GroupDefinition& group : groups) {
+    const std::string& code = group.code.code;
+    const std::string prefix = "group " + QuoteValue(code) + ": ";
+    if (code.empty()) {
+      *error = Located(source, group.code.place, "a group needs a non-empty code");
+      return false;
+    }
+    if (const int clash = IndexOf(tree_codes, code); clash >= 0) {
+      *error = Located(source, group.code.place,
+                       prefix + "the classification already has " +
+                           (nodes_[clash].is_leaf ? "a basic heading" : "an aggregate") +
+                           " with this code; give the group a code of its own");
+      return false;
+    }
+    for (const ClassificationNode& earlier : added) {
+      if (earlier.code == code) {
+        *error = Located(source, group.code.place, prefix + "defined twice");
+        return false;
+      }
+    }
+    std::vector<char> in(heading_nodes_.size(), 0);
+    if (!GroupHeadings(group, source, tree_codes, groups, &in, error)) return false;
+    ClassificationNode node;
+    node.code = code;
+    node.label = group.label;
+    node.is_group = true;
+    for (int h = 0; h < static_cast<int>(in.size()); ++h) {
+      if (in[h]) node.headings.push_back(h);
+    }
+    if (node.headings.empty()) {
+      *error = Located(source, group.code.place, prefix + "no basic heading is left");
+      return false;
+    }
+    added.push_back(std::move(node));
+  }
+  nodes_.resize(num_tree_nodes_);
+  nodes_.insert(nodes_.end(), added.begin(), added.end());
+  return true;
+}
+
+bool Classification::SetLabels(const std::vector<NodeLabel>& labels, const std::string& source,
+                               std::string* error) {
+  std::vector<std::string> tree_codes;
+  for (int n = 0; n < num_tree_nodes_; ++n) tree_codes.push_back(nodes_[n].code);
+  std::vector<std::pair<int, std::string>> found;
+  for (const NodeLabel& label : labels) {
+    const int n = FindNode(label.code.code);
+    if (n >= num_tree_nodes_) {
+      *error = Located(source, label.code.place,
+                       "labels: " + QuoteValue(label.code.code) +
+                           " is a group; give its label as groups." + label.code.code + ".label");
+      return false;
+    }
+    if (n < 0) {
+      *error = Located(source, label.code.place,
+                       "labels: " + QuoteValue(label.code.code) +
+                           " is not a node of the classification" +
+                           DidYouMean(label.code.code, tree_codes));
+      return false;
+    }
+    found.emplace_back(n, label.label);
+  }
+  for (auto& [n, text] : found) nodes_[n].label = std::move(text);
+  return true;
 }
 
 int Classification::FindNode(const std::string& code) const {

@@ -93,7 +93,10 @@ const std::vector<std::string> kTopKeys = {"survey",
                                            "duplicate_quotes",
                                            "strict",
                                            "checks",
-                                           "missing_parities"};
+                                           "missing_parities",
+                                           "groups",
+                                           "labels"};
+const std::vector<std::string> kGroupKeys = {"label", "of", "from", "without"};
 const std::vector<std::string> kCheckKeys = {"min_basket_share",   "min_items",
                                              "min_quotes",         "max_level_ratio",
                                              "max_spread_percent", "gross_outlier_ratio"};
@@ -266,7 +269,103 @@ class ConfigParser {
     if (const YAML::Node node = root["missing_parities"]) {
       if (!ParseMissingParities(node, error)) return false;
     }
+    if (const YAML::Node node = root["labels"]) {
+      if (!ParseLabels(node, error)) return false;
+    }
+    if (const YAML::Node node = root["groups"]) {
+      if (!ParseGroups(node, error)) return false;
+    }
+    // With a tree given, unknown codes are found now, before any data is
+    // read; under the flat tree the loader checks them against the headings.
+    if (config_->has_classification) {
+      Classification copy = config_->classification;
+      if (!ApplyGroupsAndLabels(*config_, &copy, error)) return false;
+    }
     return ParseMethods(root, error) && ParseOutput(root, error) && ParseSettings(root, error);
+  }
+
+  ConfigPlace Place(const YAML::Node& node) const {
+    const YAML::Mark mark = node.Mark();
+    if (mark.line < 0) return {};
+    return {mark.line + 1, mark.column + 1};
+  }
+
+  bool Code(const YAML::Node& node, const std::string& key, PlacedCode* code, std::string* error) {
+    if (!Scalar(node, key, &code->code, error)) return false;
+    if (code->code.empty()) {
+      *error = Where(node) + "'" + key + "' must be a node code, found an empty value";
+      return false;
+    }
+    code->place = Place(node);
+    return true;
+  }
+
+  // A mapping of node code -> label text.
+  bool ParseLabels(const YAML::Node& node, std::string* error) {
+    if (!node.IsMap()) {
+      *error = Where(node) + "'labels' must be a mapping of node codes to labels";
+      return false;
+    }
+    for (const auto& kv : node) {
+      NodeLabel label;
+      if (!Code(kv.first, "labels", &label.code, error) ||
+          !Scalar(kv.second, "labels." + kv.first.Scalar(), &label.label, error)) {
+        return false;
+      }
+      config_->labels.push_back(std::move(label));
+    }
+    return true;
+  }
+
+  // A node code, or a list of node codes.
+  bool CodeList(const YAML::Node& node, const std::string& key, std::vector<PlacedCode>* codes,
+                std::string* error) {
+    if (node.IsScalar()) {
+      codes->emplace_back();
+      return Code(node, key, &codes->back(), error);
+    }
+    if (!node.IsSequence() || node.size() == 0) {
+      *error = Where(node) + "'" + key + "' must be a node code or a list of node codes";
+      return false;
+    }
+    for (const auto& entry : node) {
+      codes->emplace_back();
+      if (!Code(entry, key, &codes->back(), error)) return false;
+    }
+    return true;
+  }
+
+  // A mapping of group code -> {label, of, from, without}.
+  bool ParseGroups(const YAML::Node& node, std::string* error) {
+    if (!node.IsMap()) {
+      *error = Where(node) + "'groups' must be a mapping of group codes to definitions";
+      return false;
+    }
+    for (const auto& kv : node) {
+      GroupDefinition group;
+      if (!Code(kv.first, "groups", &group.code, error)) return false;
+      const std::string key = "groups." + group.code.code;
+      const YAML::Node& body = kv.second;
+      if (!body.IsMap()) {
+        *error = Where(body) + "'" + key + "' must be a mapping with keys " + JoinNames(kGroupKeys);
+        return false;
+      }
+      if (!CheckKeys(body, kGroupKeys, key, error)) return false;
+      if (const YAML::Node value = body["label"]) {
+        if (!Scalar(value, key + ".label", &group.label, error)) return false;
+      }
+      if (const YAML::Node value = body["of"]) {
+        if (!CodeList(value, key + ".of", &group.of, error)) return false;
+      }
+      if (const YAML::Node value = body["from"]) {
+        if (!Code(value, key + ".from", &group.from, error)) return false;
+      }
+      if (const YAML::Node value = body["without"]) {
+        if (!CodeList(value, key + ".without", &group.without, error)) return false;
+      }
+      config_->groups.push_back(std::move(group));
+    }
+    return true;
   }
 
   bool ParseSurvey(const YAML::Node& survey, std::string* error) {
@@ -709,6 +808,13 @@ bool CheckThresholds::IsValid(std::string* error) const {
     return false;
   }
   return true;
+}
+
+bool ApplyGroupsAndLabels(const RunConfig& config, Classification* classification,
+                          std::string* error) {
+  const std::string& source = config.config_path.empty() ? "<config>" : config.config_path;
+  return classification->SetGroups(config.groups, source, error) &&
+         classification->SetLabels(config.labels, source, error);
 }
 
 bool MatricesMeanEveryNode(const std::vector<std::string>& matrices) {

@@ -259,6 +259,7 @@ bool LoadSurvey(const RunConfig& config, const LoadOptions& options, Survey* sur
       &state, options.num_threads > 0 ? options.num_threads : omp_get_max_threads(), survey);
   summary->cells_seconds = SecondsSince(cells_start);
   if (!files.external_parities.empty()) FillExternalParities(state, survey);
+  if (!ApplyGroupsAndLabels(config, &survey->classification, &error)) return fail(error);
   summary->outcome = LoadOutcome::kOk;
   summary->message = "ok";
   return true;

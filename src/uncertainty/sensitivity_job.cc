@@ -46,6 +46,7 @@ nlohmann::ordered_json RecordSettings(const SensitivityOptions& options) {
   settings["coverage_levels"] = options.coverage_levels;
   settings["coverage_repetitions"] = options.coverage_repetitions;
   settings["threads"] = options.num_threads;
+  settings["node"] = options.node;
   return settings;
 }
 
@@ -291,8 +292,9 @@ std::string SensitivityJobSummary::FullReport(const SensitivityOptions& options)
                     std::to_string(survey.num_headings()) + " basic headings\n";
   out += sensitivity.BriefReport() + "\n";
   if (result.parity.rows() == 0) return out;
-  const std::string& root = survey.classification.nodes().front().code;
-  out += "\nsensitivity of '" + root + "', dearest first:\n";
+  const int node =
+      options.node.empty() ? 0 : std::max(0, survey.classification.FindNode(options.node));
+  out += "\nsensitivity of " + NodeTitle(survey.classification, node) + ", dearest first:\n";
   out += SensitivityTable(survey, result, options);
   out += Notes(*this);
   out +=
@@ -353,6 +355,12 @@ int RunSensitivityJob(const RunConfig& config, const SensitivityOptions& options
   load_options.num_threads = config.threads;
   if (!LoadSurvey(config, load_options, &summary->survey, &summary->load)) {
     return fail(1, summary->load.message);
+  }
+  if (!options.node.empty() && summary->survey.classification.FindNode(options.node) < 0) {
+    const Classification& tree = summary->survey.classification;
+    const std::string nearest = NearestName(options.node, tree.NodeCodes());
+    return fail(1, "node '" + options.node + "' is not in the classification" +
+                       (nearest.empty() ? "" : "; did you mean '" + nearest + "'?"));
   }
   const ComputeOptions compute = ComputeOptions::FromConfig(config);
   SensitivityOptions run_options = options;

@@ -129,6 +129,8 @@ std::string MethodSpreadCsv(const Survey& survey, const SensitivityResult& resul
 std::string SensitivityTable(const Survey& survey, const SensitivityResult& result,
                              const SensitivityOptions& options) {
   if (result.parity.rows() == 0) return "";
+  const int n =
+      options.node.empty() ? 0 : std::max(0, survey.classification.FindNode(options.node));
   auto pad = [](const std::string& text, size_t width, bool right) {
     if (text.size() >= width) return text;
     return right ? std::string(width - text.size(), ' ') + text
@@ -149,42 +151,42 @@ std::string SensitivityTable(const Survey& survey, const SensitivityResult& resu
   out += "\n";
   std::vector<int> order;
   for (int r = 0; r < survey.num_regions(); ++r) {
-    if (std::isfinite(result.parity(0, r))) order.push_back(r);
+    if (std::isfinite(result.parity(n, r))) order.push_back(r);
   }
   std::stable_sort(order.begin(), order.end(),
-                   [&](int a, int b) { return result.parity(0, a) > result.parity(0, b); });
+                   [&](int a, int b) { return result.parity(n, a) > result.parity(n, b); });
   for (int r : order) {
     out += "  " + pad(std::string(survey.regions.Code(r)), width, false) +
-           pad(FormatFixed(result.parity(0, r), 2), 10, true);
+           pad(FormatFixed(result.parity(n, r), 2), 10, true);
     if (boot) {
-      const std::string interval = std::isfinite(result.boot_lower(0, r))
-                                       ? FormatFixed(result.boot_lower(0, r), 2) + " - " +
-                                             FormatFixed(result.boot_upper(0, r), 2)
+      const std::string interval = std::isfinite(result.boot_lower(n, r))
+                                       ? FormatFixed(result.boot_lower(n, r), 2) + " - " +
+                                             FormatFixed(result.boot_upper(n, r), 2)
                                        : "-";
-      const std::string ranks = result.boot_rank_low(0, r) > 0
-                                    ? std::to_string(result.boot_rank_low(0, r)) + "-" +
-                                          std::to_string(result.boot_rank_high(0, r))
+      const std::string ranks = result.boot_rank_low(n, r) > 0
+                                    ? std::to_string(result.boot_rank_low(n, r)) + "-" +
+                                          std::to_string(result.boot_rank_high(n, r))
                                     : "-";
       out += pad(interval, 20, true) + pad(ranks, 9, true) +
-             pad(FormatFixed(result.boot_log_se(0, r), 4), 9, true);
+             pad(FormatFixed(result.boot_log_se(n, r), 4), 9, true);
     }
     if (loo) {
-      const double item = result.loo_item_log_change(0, r),
-                   heading = result.loo_heading_log_change(0, r);
+      const double item = result.loo_item_log_change(n, r),
+                   heading = result.loo_heading_log_change(n, r);
       std::string change = "-", cause;
       const bool use_heading = std::isfinite(heading) && !(std::abs(item) >= std::abs(heading));
       if (use_heading) {
         change = FormatFixed(100.0 * heading, 2) + " %";
-        cause = "heading " + survey.heading_codes[result.loo_heading(0, r)];
+        cause = "heading " + survey.heading_codes[result.loo_heading(n, r)];
       } else if (std::isfinite(item)) {
         change = FormatFixed(100.0 * item, 2) + " %";
-        cause = "item " + std::string(survey.items.Code(result.loo_item(0, r)));
+        cause = "item " + std::string(survey.items.Code(result.loo_item(n, r)));
       }
-      out += pad(FormatFixed(result.jackknife_log_se(0, r), 4), 9, true) + pad(change, 16, true) +
+      out += pad(FormatFixed(result.jackknife_log_se(n, r), 4), 9, true) + pad(change, 16, true) +
              "  " + pad(cause, 18, false);
     }
     if (methods)
-      out += pad(FormatFixed(100.0 * result.method_log_spread(0, r), 2) + " %", 15, true);
+      out += pad(FormatFixed(100.0 * result.method_log_spread(n, r), 2) + " %", 15, true);
     out += "\n";
   }
   return out;

@@ -190,7 +190,9 @@ bool ComparePair(const Survey& survey, const ParityResult& result, const std::st
   PairComparison& out = *comparison;
   const NodeResult& node_result = result.nodes[index];
   out.node = tree.nodes()[index].code;
+  out.node_label = tree.nodes()[index].label;
   out.is_heading = node_result.is_heading;
+  out.is_group = tree.nodes()[index].is_group;
   out.from = std::string(survey.regions.Code(a));
   out.to = std::string(survey.regions.Code(b));
   out.jevons = out.dutot = out.carli = kNaN;
@@ -252,6 +254,7 @@ std::string PairCsv(const PairComparison& c) {
   AddTextRow("from", c.from, &out);
   AddTextRow("to", c.to, &out);
   AddTextRow("node", c.node, &out);
+  if (!c.node_label.empty()) AddTextRow("node_label", c.node_label, &out);
   if (c.is_heading) {
     AddTextRow("num_items", std::to_string(c.num_matched), &out);
     AddRow("jevons", c.jevons, &out);
@@ -299,9 +302,12 @@ std::string PairCsv(const PairComparison& c) {
 }
 
 std::string PairTable(const PairComparison& c) {
-  std::string out = "'" + c.to + "' relative to '" + c.from + "' at '" + c.node + "' (" +
-                    (c.is_heading ? "basic heading, " + std::to_string(c.num_matched) + " items"
-                                  : "aggregate, " + std::to_string(c.num_matched) + " headings") +
+  const std::string kind = c.is_heading ? "basic heading, "
+                           : c.is_group ? "group, "
+                                        : "aggregate, ";
+  std::string out = "'" + c.to + "' relative to '" + c.from + "' at '" + c.node + "'" +
+                    (c.node_label.empty() ? "" : " (" + VisibleText(c.node_label) + ")") + " (" +
+                    kind + std::to_string(c.num_matched) + (c.is_heading ? " items" : " headings") +
                     " priced in both)\n\n";
   auto row = [&](const std::string& name, double value, const std::string& note) {
     out += "  " + Pad(name, 28) + Pad(Number(value), 12, true);

@@ -165,7 +165,8 @@ TEST(ComputeCommand, PrintsEachRegionsLargestSpreadInPercent) {
   const std::string header = out.substr(head + 1, out.find('\n', head + 1) - head - 1);
   EXPECT_TRUE(std::regex_search(header, std::regex("  P-L spread, %  worst pair$"))) << header;
   std::smatch m;
-  const std::regex row("\n(\\w+) +\\d+ +[\\d.]+ +[\\d.]+ +([\\d.]+)  (\\w+)(?=\n)");
+  // Code, name (regions.csv), rank, parity, real/head, spread, partner.
+  const std::regex row("\n(\\w+) .*? +\\d+ +[\\d.]+ +[\\d.]+ +([\\d.]+)  (\\w+)(?=\n)");
   int checked = 0;
   for (auto it = std::sregex_iterator(out.begin(), out.end(), row); it != std::sregex_iterator();
        ++it, ++checked) {
@@ -242,10 +243,12 @@ TEST(ComputeCommand, PrintsTheRootTableAndTheCautions) {
   const std::string dir = MakeTempDir("cli_table");
   std::string out, err;
   ASSERT_EQ(RunCli("compute " + Demo() + " --output " + dir, &out, &err), 0) << err;
-  EXPECT_NE(out.find("region  rank     parity"), std::string::npos) << out;
+  // Region names from regions.csv stand beside the codes.
+  EXPECT_NE(out.find("region  name                      rank     parity"), std::string::npos)
+      << out;
   EXPECT_NE(out.find("Official figures come from the statistical authority."), std::string::npos);
   // The capital is the dearest region of the demo.
-  EXPECT_NE(out.find("\ncap        1"), std::string::npos) << out;
+  EXPECT_NE(out.find("\ncap     Aurelmont Capital Region     1"), std::string::npos) << out;
 }
 
 TEST(ComputeCommand, UnlinkedHeadingExitsWithTwoAndNamesTheRegions) {

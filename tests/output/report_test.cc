@@ -132,8 +132,9 @@ TEST(ReportHtml, LeavesOptionalSectionsOutWhenTheirInputsAreNull) {
 TEST(ReportHtml, ShowsOutliersAndSensitivityWhenGiven) {
   const Demo& demo = TheDemo();
   ReportInputs in = InputsFor(demo.job, &demo.config);
-  const std::vector<ReportOutlier> outliers = {{"meat", "cap", "<b>beef</b>", 30.0, 10.0, 5.2, 3},
-                                               {"fruit", "fen", "apples", 1.0, 2.5, -4.1, 2}};
+  const std::vector<ReportOutlier> outliers = {
+      {"meat", "cap", "<b>beef</b>", 30.0, 10.0, 5.2, 3, "Meat & fish", "Beef <1 kg>"},
+      {"fruit", "fen", "apples", 1.0, 2.5, -4.1, 2, "", ""}};
   const int num_regions = demo.job.survey.num_regions();
   ReportSensitivity sensitivity;
   const NodeResult& root = demo.job.result.nodes.front();
@@ -152,6 +153,10 @@ TEST(ReportHtml, ShowsOutliersAndSensitivityWhenGiven) {
   EXPECT_NE(html.find("id=\"outliers\""), std::string::npos);
   EXPECT_NE(html.find("&lt;b&gt;beef&lt;/b&gt;"), std::string::npos);
   EXPECT_EQ(html.find("<b>beef"), std::string::npos);
+  // Labels beside the codes, escaped; none beside codes without one.
+  EXPECT_NE(html.find("<td>meat <small>Meat &amp; fish</small></td>"), std::string::npos);
+  EXPECT_NE(html.find("&lt;/b&gt; <small>Beef &lt;1 kg&gt;</small></td>"), std::string::npos);
+  EXPECT_NE(html.find("<td>fruit</td>"), std::string::npos);
   EXPECT_NE(html.find("id=\"sensitivity\""), std::string::npos);
   EXPECT_NE(html.find("id=\"coverage-curve\""), std::string::npos);
   EXPECT_NE(html.find("id=\"method-spread\""), std::string::npos);

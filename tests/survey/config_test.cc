@@ -112,7 +112,7 @@ TEST(RunConfig, ShortensAHugeUnknownKey) {
                 "...'; valid keys are: survey, classification, reference, elementary, aggregation, "
                 "invalid_rows, output, matrices, representative_weight, outlier_threshold, "
                 "outlier_fit, robust_standard_errors, report, threads, limits, duplicate_quotes, "
-                "strict, checks, missing_parities");
+                "strict, checks, missing_parities, groups, labels");
 }
 
 TEST(RunConfig, ListsTheValidKeysWhenNoneIsClose) {

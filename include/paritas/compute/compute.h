@@ -106,7 +106,8 @@ struct ComputeSummary {
   std::vector<std::string> warnings;
   int num_headings_given = 0;
   int num_headings_used = 0;  // headings with parities
-  int num_aggregates = 0;
+  int num_aggregates = 0;     // aggregates of the tree
+  int num_groups = 0;         // analytic groups (classification.h)
   // Region x heading parities filled by a missing_parities rule, and those
   // still missing where the region spends on the heading.
   int num_parities_imputed = 0;

@@ -37,10 +37,15 @@ inline constexpr size_t kMaxNodeFileNameBytes = 200;
 // cut and ends in "%~" and the code's SHA-256.
 std::string NodeFileName(const std::string& code);
 
-// parities.csv: one row per node x region, nodes in classification order,
-// regions in survey order. Columns: node, kind, region, parity, expenditure,
+// Names a node for the terminal: "'all' (All items)", or "'all'" when it has
+// no label (the label through VisibleText).
+std::string NodeTitle(const Classification& classification, int node);
+
+// parities.csv: one row per node x region, nodes in classification order
+// (the tree's, then the groups), regions in survey order. Columns: node,
+// kind (heading, aggregate or group), region, parity, expenditure,
 // real_expenditure, real_per_capita_index, log_se, log_se_robust, rank,
-// num_items, num_quotes, num_headings.
+// num_items, num_quotes, num_headings, label (the node's, empty when none).
 // `plausibility` (may be null) adds the columns basket_share and warnings
 // (the kinds of the warnings about the node and region, ';'-joined).
 std::string ParitiesCsv(const Survey& survey, const ParityResult& result,
@@ -95,9 +100,10 @@ struct RegionSpread {
 };
 std::vector<RegionSpread> RegionSpreads(const BilateralMatrices& bilaterals);
 
-// The terminal table of the root node: regions sorted dearest first, with
-// parity, rank, real expenditure per head and the largest Paasche-Laspeyres
-// spread in percent (100 |ln(L / P)|, 2 decimals) with its partner.
+// The terminal table of the root node: regions sorted dearest first (with
+// their names from regions.csv when any region has one), with parity, rank,
+// real expenditure per head and the largest Paasche-Laspeyres spread in
+// percent (100 |ln(L / P)|, 2 decimals) with its partner.
 std::string RootTable(const Survey& survey, const ParityResult& result,
                       const std::vector<RegionSpread>& spreads);
 

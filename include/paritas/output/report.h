@@ -32,6 +32,10 @@ struct ReportOutlier {
   // whether the observed price is above (+) or below (-) the prediction.
   double standardised_residual = 0.0;
   int num_quotes = 0;  // quotes behind the cell
+  // Labels shown beside the codes: the heading's (`labels:`) and the item's
+  // description (items.csv); empty when none.
+  std::string heading_label;
+  std::string item_label;
 };
 
 // Sensitivity of the root's parities, when a sensitivity run was made.

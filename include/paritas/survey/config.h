@@ -145,6 +145,14 @@ struct RunConfig {
   Classification classification;
   // Where the classification came from (a file path, or "<config>:classification").
   std::string classification_source;
+  // Analytic groups (the `groups:` section), in the order written: named
+  // aggregates of headings outside the tree, computed like every aggregate
+  // and appended to the survey's classification after its tree nodes
+  // (Classification::SetGroups). Default none.
+  std::vector<GroupDefinition> groups;
+  // Labels of classification nodes (the `labels:` section: code -> text).
+  // Default none: a node is shown by its code.
+  std::vector<NodeLabel> labels;
   Reference reference;
   // Registry names of the methods (elementary_method.h,
   // aggregation_method.h), as the registry spells them.
@@ -215,6 +223,13 @@ bool LoadRunConfig(const std::string& path, RunConfig* config, std::string* erro
 // Same from text; `path` names the file and sets the base folder.
 bool ParseRunConfig(const std::string& yaml_text, const std::string& path, RunConfig* config,
                     std::string* error);
+
+// Sets the configuration's labels and groups on `classification` (the
+// survey's: the configuration's tree, or the flat one built from the
+// headings found). Returns false with a message naming the configuration
+// file, line and column on an unknown code or a group code that clashes.
+bool ApplyGroupsAndLabels(const RunConfig& config, Classification* classification,
+                          std::string* error);
 
 }  // namespace paritas
 

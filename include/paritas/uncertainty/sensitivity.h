@@ -48,6 +48,10 @@ struct SensitivityOptions {
   // "leave-one-out", "coverage", "methods"), units done and units in the
   // part; may be empty. For progress display only.
   std::function<void(const std::string& part, int64_t done, int64_t total)> progress;
+  // Node whose results the terminal table shows: a code of the
+  // classification or of a group (default empty = the root). Every node is
+  // in the CSV files whatever this says.
+  std::string node;
 
   // Returns false and sets `error` for a field out of range, e.g.
   // "replicates must be a whole number from 2 to 100000, found 0".

@@ -50,7 +50,11 @@ struct MethodTransitive {
 
 struct PairComparison {
   std::string node;  // node code
+  // The node's label (classification.h); empty when it has none.
+  std::string node_label;
   bool is_heading = false;
+  // True when the node is an analytic group (an aggregate outside the tree).
+  bool is_group = false;
   std::string from;  // region a
   std::string to;    // region b
   // Headings (aggregate) or items (heading) matched in both regions.
@@ -99,8 +103,8 @@ struct PairComparison {
   std::vector<MethodTransitive> by_method;
 };
 
-// Compares region `to` with region `from` at `node` (a classification code;
-// empty = the root). Returns false with a message (unknown region or node,
+// Compares region `to` with region `from` at `node` (a classification code or
+// a group's; empty = the root). Returns false with a message (unknown region or node,
 // nothing matched) in `error`; never aborts on data.
 bool ComparePair(const Survey& survey, const ParityResult& result, const std::string& from,
                  const std::string& to, const std::string& node, PairComparison* comparison,
@@ -114,7 +118,8 @@ bool ComparePair(const Survey& survey, const ParityResult& result, const std::st
 void TransitiveUnderEveryMethod(const Survey& survey, const ComputeOptions& options,
                                 PairComparison* comparison);
 
-// CSV with columns measure,value: rows `from`, `to` and `node` (codes), then
+// CSV with columns measure,value: rows `from`, `to` and `node` (codes), a row
+// `node_label` when the node has a label, then
 // one row per formula or quantity (e.g. `fisher,1.401050`, 6 decimals;
 // counts as integers, an absent value as an empty cell), then the
 // contributions: at an aggregate `tornqvist_log_contribution:<heading>` rows
