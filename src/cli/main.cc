@@ -87,6 +87,11 @@ void AddSensitivityOptions(CLI::App* command, paritas::cli::Overrides* overrides
       ->type_name("INT");
   command->add_option("--parts", arguments->parts,
                       "parts to run: bootstrap,leave-one-out,coverage,methods (default all)");
+  command->add_option("--bootstrap", arguments->bootstrap,
+                      "bootstrap draws: rescaled (n - 1 of n items; default) or plain (n of n)");
+  command->add_flag("--write-replicates", arguments->write_replicates,
+                    "also write every replicate's ln parities (sensitivity/replicates.bin and "
+                    "replicates_key.csv)");
   command->add_flag("--strict", overrides->strict,
                     "exit with code 3, after writing everything, when the run raised a warning "
                     "(overrides 'strict')");

@@ -41,6 +41,8 @@ nlohmann::ordered_json RecordSettings(const SensitivityOptions& options) {
   if (options.run_methods) parts.push_back("methods");
   settings["parts"] = parts;
   settings["replicates"] = options.replicates;
+  settings["bootstrap"] = ToString(options.bootstrap);
+  settings["write_replicates"] = options.write_replicates;
   settings["seed"] = options.seed;
   settings["level"] = options.level;
   settings["coverage_levels"] = options.coverage_levels;
@@ -162,6 +164,10 @@ std::vector<OutputFile> PartFiles(const SensitivityOptions& options,
   std::vector<OutputFile> files;
   if (options.run_bootstrap) {
     files.push_back({"bootstrap.csv", BootstrapCsv(job.survey, job.result)});
+    if (options.write_replicates) {
+      files.push_back({"replicates.bin", ReplicatesBinary(job.result)});
+      files.push_back({"replicates_key.csv", ReplicatesKeyCsv(job.survey)});
+    }
   }
   if (options.run_leave_one_out) {
     files.push_back({"leave_one_out.csv", LeaveOneOutCsv(job.survey, job.result)});

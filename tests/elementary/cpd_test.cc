@@ -7,6 +7,7 @@
 #include <gtest/gtest.h>
 
 #include <Eigen/Dense>
+#include <algorithm>
 #include <cmath>
 #include <fstream>
 #include <random>
@@ -194,6 +195,61 @@ TEST(Cpd, IncompleteTableDiffersFromRatiosOfGeometricMeans) {
   PARITAS_EXPECT_CLOSE(result.log_parity[1], mean_log[1] - mean_log[0], 1e-14);
 }
 
+TEST(RobustErrors, NamesReadBackCaseInsensitively) {
+  for (RobustErrors kind :
+       {RobustErrors::kOff, RobustErrors::kHc0, RobustErrors::kHc1, RobustErrors::kHc3}) {
+    RobustErrors parsed = RobustErrors::kOff;
+    EXPECT_TRUE(FromString(ToString(kind), &parsed));
+    EXPECT_EQ(parsed, kind);
+  }
+  RobustErrors parsed = RobustErrors::kOff;
+  EXPECT_TRUE(FromString(" HC3", &parsed));
+  EXPECT_EQ(parsed, RobustErrors::kHc3);
+  EXPECT_FALSE(FromString("hc2", &parsed));
+}
+
+// On a complete R x I heading every cell has hat value 1/R + 1/I - 1/(RI)
+// = p / n (p = R + I - 1, n = RI; computed here from the two-way layout), so
+// by the definitions of MacKinnon and White (1985) HC1 = HC0 x n/(n - p) and
+// HC3 = HC0 / (1 - p/n)^2 in variance: standard errors scale by
+// sqrt(n/(n - p)) and n/(n - p).
+TEST(CpdSandwich, OnACompleteHeadingHc1AndHc3AreHc0TimesTheHandFactors) {
+  const Synthetic s = MakeSynthetic(6, 9, 1.0, 0.05, false, 31);
+  ASSERT_EQ(s.heading.region.size(), 54u);
+  auto fit = [&s](RobustErrors kind) {
+    CpdOptions options;
+    options.robust_errors = kind;
+    return FitCpd(s.heading.Data(false), options);
+  };
+  const CpdResult hc0 = fit(RobustErrors::kHc0), hc1 = fit(RobustErrors::kHc1),
+                  hc3 = fit(RobustErrors::kHc3), off = fit(RobustErrors::kOff);
+  const double n = 54.0, df = 54.0 - 14.0;
+  for (int r = 0; r < 6; ++r) {
+    PARITAS_EXPECT_CLOSE(hc1.log_se_robust[r], hc0.log_se_robust[r] * std::sqrt(n / df), 1e-12);
+    PARITAS_EXPECT_CLOSE(hc3.log_se_robust[r], hc0.log_se_robust[r] * n / df, 1e-10);
+    EXPECT_TRUE(std::isnan(off.log_se_robust[r]));
+    EXPECT_EQ(hc3.log_se[r], off.log_se[r]);
+  }
+}
+
+// A cell that alone prices its item has hat value 1 and residual 0: HC3
+// gives it no weight rather than 0 / 0, so the errors are those of the
+// heading without it (its item effect absorbs it; nothing else changes).
+TEST(CpdSandwich, Hc3GivesCellsWithHatValueOneNoWeight) {
+  const Synthetic s = MakeSynthetic(5, 8, 1.0, 0.05, false, 33);
+  Heading with = s.heading;
+  with.num_items = 9;
+  with.Add(2, 8, 1.5);
+  CpdOptions options;
+  options.robust_errors = RobustErrors::kHc3;
+  const CpdResult result = FitCpd(with.Data(false), options);
+  const CpdResult without = FitCpd(s.heading.Data(false), options);
+  ASSERT_TRUE(result.identified && without.identified);
+  for (int r = 0; r < 5; ++r) {
+    PARITAS_EXPECT_CLOSE(result.log_se_robust[r], without.log_se_robust[r], 1e-10);
+  }
+}
+
 class CpdShape : public ::testing::TestWithParam<std::pair<int, int>> {};
 
 TEST_P(CpdShape, MatchesDenseWeightedLeastSquaresOnTheDummyMatrix) {
@@ -202,7 +258,7 @@ TEST_P(CpdShape, MatchesDenseWeightedLeastSquaresOnTheDummyMatrix) {
   Eigen::VectorXd reference = Eigen::VectorXd::LinSpaced(num_regions, 1.0, 2.0);
   CpdOptions options;
   options.reference_weights.assign(reference.data(), reference.data() + num_regions);
-  options.compute_robust_standard_errors = true;
+  options.robust_errors = paritas::RobustErrors::kHc0;
   reference /= reference.sum();
   const CpdResult result = FitCpd(s.heading.Data(), options);
   ASSERT_TRUE(result.identified) << result.message;
@@ -399,7 +455,7 @@ TEST_P(RobustCpd, PlantedGrossErrorMovesLeastSquaresButNotTheRobustFit) {
   const CpdResult plain = FitCpd(s.heading.Data(false), CpdOptions());
   CpdOptions options;
   options.loss = GetParam();
-  options.compute_robust_standard_errors = true;
+  options.robust_errors = paritas::RobustErrors::kHc0;
   const CpdResult robust = FitCpd(s.heading.Data(false), options);
   ASSERT_TRUE(plain.identified && robust.identified) << robust.message;
   EXPECT_GT(std::abs(plain.log_parity[3] - truth[3]), 0.08);
@@ -432,7 +488,7 @@ TEST_P(RobustCpd, SameInputGivesIdenticalOutput) {
 }
 
 TEST_P(RobustCpd, GivenScaleIsUsedAndWorksWhenRegionsAreEliminated) {
-  // More regions than items: Ceres eliminates the regions.
+  // More regions than items: the solver eliminates the regions.
   Synthetic s = MakeSynthetic(40, 6, 0.8, 0.02, false, 9);
   s.heading.log_price[10] += 3.0;
   CpdOptions options;
@@ -443,6 +499,27 @@ TEST_P(RobustCpd, GivenScaleIsUsedAndWorksWhenRegionsAreEliminated) {
   EXPECT_EQ(robust.robust_scale_used, 0.05);
   const Eigen::VectorXd truth = s.true_region.array() - s.true_region.mean();
   for (int r = 0; r < 40; ++r) EXPECT_NEAR(robust.log_parity[r], truth[r], 0.04) << "region " << r;
+}
+
+TEST_P(RobustCpd, EstimatedScaleIsTheMadOfTheFinalResiduals) {
+  // The fit stops at a fixed point: the threshold it used is c times
+  // median |e| / 0.6745 of its own final residuals (weights all 1).
+  Synthetic s = MakeSynthetic(10, 14, 0.8, 0.05, false, 12);
+  s.heading.log_price[5] += std::log(10.0);
+  s.heading.log_price[40] -= std::log(10.0);
+  CpdOptions options;
+  options.loss = GetParam();
+  const CpdResult robust = FitCpd(s.heading.Data(false), options);
+  ASSERT_TRUE(robust.identified) << robust.message;
+  EXPECT_TRUE(robust.message.empty()) << robust.message;
+  EXPECT_GT(robust.num_robust_iterations, 2);
+  std::vector<double> size(robust.residual.size());
+  for (Eigen::Index k = 0; k < robust.residual.size(); ++k) size[k] = std::abs(robust.residual[k]);
+  std::sort(size.begin(), size.end());
+  const size_t n = size.size();
+  const double median = n % 2 ? size[n / 2] : 0.5 * (size[n / 2 - 1] + size[n / 2]);
+  const double c = GetParam() == CpdLoss::kHuber ? 1.345 : 2.385;
+  PARITAS_EXPECT_CLOSE(robust.robust_scale_used, c * median / 0.6744897501960817, 1e-9);
 }
 
 INSTANTIATE_TEST_SUITE_P(HuberAndCauchy, RobustCpd,
