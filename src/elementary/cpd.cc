@@ -152,6 +152,67 @@ class NormalEquations {
     return quad;
   }
 
+  // Returns q_r'(meat)q_r with q_r = (X'WX)^- l_r for every contrast
+  // l_r = e_r - reference, where meat = sum_k s_k x_k x_k' is given by its
+  // blocks (region diagonal, item diagonal, region x item), as
+  // sum D_r q_a^2 + sum D_i q_b^2 + 2 q_a' C q_b. With items eliminated the
+  // q_r are solved in chunks (cost R^2 I, R the smaller side). With regions
+  // eliminated q_r = (v_r - u - M y_r, y_r) with M = D_r^-1 C, u = D_r^-1
+  // reference, v_r = e_r / d_r and y_r = -G (M(r, :)' - M' reference), so the
+  // forms reduce to I x I products: cost R I^2 instead of R^2 I.
+  Eigen::VectorXd SandwichQuadraticForms(const Eigen::VectorXd& reference,
+                                         const Eigen::VectorXd& meat_region,
+                                         const Eigen::VectorXd& meat_item,
+                                         const Eigen::MatrixXd& meat_cross) const {
+    Eigen::VectorXd quad(num_regions_);
+    if (eliminate_items_) {
+      const Eigen::MatrixXd no_item_rhs;
+      for (int first = 0; first < num_regions_; first += kContrastChunk) {
+        const int m = std::min(kContrastChunk, num_regions_ - first);
+        Eigen::MatrixXd contrast = -reference * Eigen::RowVectorXd::Ones(m);
+        for (int j = 0; j < m; ++j) contrast(first + j, j) += 1.0;
+        Eigen::MatrixXd a, b;
+        Solve(contrast, no_item_rhs, &a, &b);
+        const Eigen::MatrixXd cross = meat_cross * b;
+        quad.segment(first, m) = (meat_region.transpose() * a.cwiseAbs2() +
+                                  meat_item.transpose() * b.cwiseAbs2() +
+                                  2.0 * a.cwiseProduct(cross).colwise().sum())
+                                     .transpose();
+      }
+      return quad;
+    }
+    const int n = num_items_ - 1;
+    const Eigen::VectorXd inv_d = d_region_.cwiseInverse();
+    const Eigen::MatrixXd m_mat = inv_d.asDiagonal() * c_;  // R x I
+    const Eigen::VectorXd u = inv_d.cwiseProduct(reference);
+    const Eigen::VectorXd mu = m_mat.transpose() * reference;
+    // Y = -G (M' - mu 1'), I x R, G the gauge-fixed inverse (item 0 held).
+    Eigen::MatrixXd y = Eigen::MatrixXd::Zero(num_items_, num_regions_);
+    if (n > 0) {
+      const Eigen::MatrixXd rhs =
+          m_mat.rightCols(n).transpose() - mu.tail(n) * Eigen::RowVectorXd::Ones(num_regions_);
+      y.bottomRows(n) = -llt_.solve(rhs);
+    }
+    const Eigen::MatrixXd weighted_m = meat_region.asDiagonal() * m_mat;
+    const Eigen::MatrixXd p1 = m_mat.transpose() * weighted_m;  // M' D M
+    const Eigen::MatrixXd p2 = m_mat.transpose() * meat_cross;  // M' C
+    Eigen::MatrixXd p = p1 - 2.0 * p2;
+    p.diagonal() += meat_item;
+    const Eigen::VectorXd w = 2.0 * (weighted_m.transpose() * u - meat_cross.transpose() * u);
+    const double c0 = meat_region.dot(u.cwiseAbs2());
+    // Row r of M times y_r, and of the cross block times y_r.
+    const Eigen::VectorXd my = m_mat.cwiseProduct(y.transpose()).rowwise().sum();
+    const Eigen::VectorXd cy = meat_cross.cwiseProduct(y.transpose()).rowwise().sum();
+    const Eigen::VectorXd ypy = y.cwiseProduct(p * y).colwise().sum().transpose();
+    const Eigen::VectorXd wy = (w.transpose() * y).transpose();
+    for (int r = 0; r < num_regions_; ++r) {
+      const double dr = meat_region[r] * inv_d[r];
+      quad[r] = dr * inv_d[r] - 2.0 * dr * u[r] - 2.0 * dr * my[r] + 2.0 * inv_d[r] * cy[r] + c0 +
+                wy[r] + ypy[r];
+    }
+    return quad;
+  }
+
   // Returns q_k = x_k'(X'WX)^- x_k of every cell (the hat value is w_k q_k).
   // With A the kept (smaller) side and B the eliminated one, S the Schur
   // complement and G its gauge-fixed inverse, a cell (a, b) has
@@ -239,25 +300,19 @@ void StandardErrors(const NormalEquations& normal, const internal::CompressedCel
   for (Eigen::Index k = 0; k < residual.size(); ++k) {
     score_weight[k] *= weight[k] * weight[k] * residual[k] * residual[k];
   }
-  const Eigen::MatrixXd no_item_rhs;
-  for (int first = 0; first < num_regions; first += kContrastChunk) {
-    const int m = std::min(kContrastChunk, num_regions - first);
-    // Column j is the contrast e_{first+j} - reference.
-    Eigen::MatrixXd contrast = -reference * Eigen::RowVectorXd::Ones(m);
-    for (int j = 0; j < m; ++j) contrast(first + j, j) += 1.0;
-    Eigen::MatrixXd a;
-    Eigen::MatrixXd b;
-    normal.Solve(contrast, no_item_rhs, &a, &b);
-    // x_k' q_j = q_a(r_k, j) + q_b(i_k, j), read by rows.
-    const Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor> a_rows = a;
-    const Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor> b_rows = b;
-    Eigen::RowVectorXd sum = Eigen::RowVectorXd::Zero(m);
-    for (size_t k = 0; k < cells.region.size(); ++k) {
-      sum += score_weight[k] *
-             (a_rows.row(cells.region[k]) + b_rows.row(cells.item[k])).array().square().matrix();
-    }
-    for (int j = 0; j < m; ++j) (*se_robust)[first + j] = std::sqrt(std::max(0.0, sum[j]));
+  // The meat sum_k s_k x_k x_k' has the block structure of X'WX.
+  const int num_items = cells.num_items;
+  Eigen::VectorXd meat_region = Eigen::VectorXd::Zero(num_regions);
+  Eigen::VectorXd meat_item = Eigen::VectorXd::Zero(num_items);
+  Eigen::MatrixXd meat_cross = Eigen::MatrixXd::Zero(num_regions, num_items);
+  for (size_t k = 0; k < cells.region.size(); ++k) {
+    meat_region[cells.region[k]] += score_weight[k];
+    meat_item[cells.item[k]] += score_weight[k];
+    meat_cross(cells.region[k], cells.item[k]) += score_weight[k];
   }
+  const Eigen::VectorXd quad =
+      normal.SandwichQuadraticForms(reference, meat_region, meat_item, meat_cross);
+  for (int r = 0; r < num_regions; ++r) (*se_robust)[r] = std::sqrt(std::max(0.0, quad[r]));
 }
 
 // Huber's sandwich errors of a robust fit (CpdResult::log_se): `normal`

@@ -99,7 +99,7 @@ TEST(RunConfig, SuggestsTheNearestSurveyKeyForATypo) {
 }
 
 TEST(RunConfig, RobustErrorsReadsTheSandwichKind) {
-  EXPECT_EQ(Parse(kSurvey).robust_errors, "off");
+  EXPECT_EQ(Parse(kSurvey).robust_errors, "hc1");
   EXPECT_EQ(Parse(std::string(kSurvey) + "robust_errors: HC1\n").robust_errors, "hc1");
   EXPECT_EQ(ParseError(std::string(kSurvey) + "robust_errors: hc2\n"),
             "/cfg/run.yaml:4:16: robust_errors 'hc2' is not one of: off, hc0, hc1, hc3; did you "

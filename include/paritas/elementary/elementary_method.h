@@ -31,10 +31,10 @@ struct ElementaryOptions {
   CpdLoss robust_loss = CpdLoss::kHuber;
   double robust_scale = 0.0;
   // Standard errors of CPD parities (classic for cpd, Huber's sandwich for
-  // robust-cpd), and the sandwich errors of log_se_robust (default off; see
-  // RobustErrors in cpd.h).
+  // robust-cpd), and the sandwich errors of log_se_robust (default hc1, as
+  // RunConfig::robust_errors says why; see RobustErrors in cpd.h).
   bool compute_standard_errors = true;
-  RobustErrors robust_errors = RobustErrors::kOff;
+  RobustErrors robust_errors = RobustErrors::kHc1;
 
   // False, with a message, for an unknown method or a weight that is not a
   // positive number.
