@@ -75,13 +75,16 @@ nlohmann::ordered_json RecordSeconds(const SensitivitySummary& summary) {
 }
 
 // What the terminal says under the table about each part that was run.
-std::string Notes(const SensitivityJobSummary& job) {
+std::string Notes(const SensitivityJobSummary& job, const SensitivityOptions& options) {
   const SensitivityResult& result = job.result;
   std::string notes;
   if (result.boot_median.size() > 0) {
     notes += "(interval: bootstrap percentile interval of the parity over " +
              std::to_string(job.sensitivity.num_replicates) +
-             " resamples of the items of every heading; ranks: the same interval for the rank, "
+             (options.bootstrap == BootstrapKind::kRescaled
+                  ? " rescaled resamples (n - 1 of the n items of every heading)"
+                  : " plain resamples (n of the n items of every heading)") +
+             "; ranks: the same interval for the rank, "
              "1 = dearest; boot se and jk se: bootstrap and jackknife standard errors of ln "
              "parity.)\n";
   }
@@ -293,7 +296,7 @@ std::string SensitivityJobSummary::FullReport(const SensitivityOptions& options)
   const std::string& root = survey.classification.nodes().front().code;
   out += "\nsensitivity of '" + root + "', dearest first:\n";
   out += SensitivityTable(survey, result, options);
-  out += Notes(*this);
+  out += Notes(*this, options);
   out +=
       "\nThe bootstrap and leave-one-out runs show how much the parities depend on which items "
       "were priced; they do not measure errors shared by all items (unit or quality "
