@@ -156,8 +156,8 @@ struct RunConfig {
   // unbiased under equal variances (MacKinnon and White 1985), while HC0 is
   // biased low by (n - p) / n and HC3 high by n / (n - p). Measured on 10
   // regions x 8 items (issue 14): variance 0.72x (HC0), 1.01x (HC1), 1.38x
-  // (HC3) the true one. Cost: 0.11 s on 1,000 regions x 50 headings x 30
-  // items (elementary stage 0.23 s without). The old boolean
+  // (HC3) the true one. Cost: about doubles the elementary stage on 1,000
+  // regions x 100 headings x 50 items (README, "Methods"). The old boolean
   // robust_standard_errors is refused with a message saying how to write it.
   std::string robust_errors = "hc1";
   // Writes report.html (default true).
