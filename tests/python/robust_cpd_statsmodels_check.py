@@ -6,8 +6,8 @@ fit iterates) and by statsmodels RLM(HuberT()) on a constant plus region and
 item dummies (region 0 and item 0 dropped), so each region coefficient is
 a_r - a_0. Two statsmodels fits:
 - iterated to convergence (conv='coefs', tol=1e-13): the same fixed point as
-  paritas, so parities, the scale and the H1 standard errors (Huber 1981,
-  sec. 7.6; cov='H1') must agree to 1e-8;
+  paritas, so parities, the scale and the H1 standard errors (Huber 1973;
+  Huber 1981, ch. 7; cov='H1') must agree to 1e-8;
 - with its default settings (scale_est='mad', conv='dev', tol=1e-8,
   maxiter=50): parities within 1e-5 and standard errors within 1e-4
   relative, the distance its looser stopping rule leaves.

@@ -332,8 +332,8 @@ TEST(Bootstrap, IntervalsContainTheTrueHeadingParityInAbout95PercentOfRegions) {
 // On a complete heading CPD's ln parity is a mean over its n items, so the
 // ideal bootstrap variance is sum_i (d_i - mean d)^2 / (n m) with m draws:
 // s^2 / n (the jackknife's, exactly) for the rescaled bootstrap's m = n - 1,
-// and (n - 1)/n x s^2 / n for the plain one's m = n (Rao and Wu 1988,
-// sec. 3). With 8 items the plain/jackknife variance ratio is 7/8 = 0.875.
+// and (n - 1)/n x s^2 / n for the plain one's m = n (Rao and Wu 1988).
+// With 8 items the plain/jackknife variance ratio is 7/8 = 0.875.
 // 48 region x heading cells and 2,000 replicates keep the Monte Carlo error
 // of the mean ratio near 1 % (computed here: sqrt(2 / 2000) per cell).
 TEST(Bootstrap, RescaledMatchesTheJackknifeAndPlainIsLowByNMinusOneOverN) {

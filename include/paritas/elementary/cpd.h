@@ -108,8 +108,9 @@ struct CpdResult {
   // points; NaN when not computed or not estimable (no residual degrees of
   // freedom).
   // Least squares: classic, sqrt(sigma2 l'(X'WX)^- l).
-  // Robust loss: Huber's sandwich (Huber 1981, Robust Statistics, sec. 7.6,
-  // the first of his three estimates; statsmodels' RLM cov='H1'): with
+  // Robust loss: Huber's sandwich (Huber 1973, "Robust regression",
+  // Annals of Statistics 1, 799-821; Huber 1981, Robust Statistics, ch. 7:
+  // the first of his three estimates, statsmodels' RLM cov='H1'): with
   // z_k = sqrt(w_k) e_k / s, psi the loss's derivative, n cells and
   // p = regions + items - 1,
   //   var = K^2 [sum psi(z)^2 / (n - p)] s^2 / [mean psi'(z)]^2 l'(X'WX)^- l,

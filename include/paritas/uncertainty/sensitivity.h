@@ -25,10 +25,12 @@ namespace paritas {
 // How the bootstrap draws each heading's n items (n = items with prices).
 //   kRescaled (default): n - 1 draws with replacement, the rescaled
 //     bootstrap of Rao and Wu (1988, "Resampling inference with complex
-//     survey data", JASA 83, 231-241, sec. 3) with m_h = n_h - 1. Rao and
-//     Wu rescale a replicate's deviation from the full-sample estimate by
-//     sqrt(m_h / (n_h - 1)), which is 1 for m_h = n_h - 1 in every heading:
-//     the replicate's ln parities are used as computed,
+//     survey data", JASA 83, 231-241) with m_h = n_h - 1. Rao and Wu
+//     rescale each drawn value's deviation from its stratum mean by
+//     sqrt(m_h / (n_h - 1)) (for a linear statistic, the same as rescaling
+//     the replicate's deviation from the full-sample estimate); the factor
+//     is 1 for m_h = n_h - 1 in every heading, so the replicate's ln
+//     parities (headings and aggregates) are used as computed,
 //       ln p~*_b = ln p^ + sqrt((n - 1)/(n - 1)) (ln p*_b - ln p^) = ln p*_b.
 //     For a mean over items the replicate variance is then s^2 / n, which
 //     is unbiased (the jackknife's (n - 1)/n sum (theta_(i) - mean)^2 gives
