@@ -3,10 +3,13 @@
 // and out so the Python side needs nothing but the standard library to talk
 // to it.
 //
-// Usage: cpd_crosscheck_tool CELLS.csv
+// Usage: cpd_crosscheck_tool CELLS.csv [ERRORS [LOSS]]
 //   CELLS.csv has the header region,item,log_price,weight (0-based indices;
-//   an empty weight means 1). Prints region,log_parity,log_se,log_se_robust,
-//   one line per region, parities normalised to region 0 = 0.
+//   an empty weight means 1). ERRORS is the sandwich kind of log_se_robust
+//   (off, hc0, hc1, hc3; default hc0), LOSS the CPD loss (least-squares,
+//   huber, cauchy; default least-squares). Prints
+//   region,log_parity,log_se,log_se_robust, one line per region, parities
+//   normalised to region 0 = 0, then a line "# scale,<threshold>,<fits>".
 #include <algorithm>
 #include <cstdio>
 #include <fstream>
@@ -27,7 +30,15 @@ int Fail(const std::string& message) {
 }  // namespace
 
 int main(int argc, char** argv) {
-  if (argc != 2) return Fail("usage: cpd_crosscheck_tool CELLS.csv");
+  if (argc < 2 || argc > 4) return Fail("usage: cpd_crosscheck_tool CELLS.csv [ERRORS [LOSS]]");
+  paritas::RobustErrors errors = paritas::RobustErrors::kHc0;
+  if (argc >= 3 && !paritas::FromString(argv[2], &errors)) {
+    return Fail(std::string("unknown ERRORS '") + argv[2] + "'");
+  }
+  paritas::CpdLoss loss = paritas::CpdLoss::kLeastSquares;
+  if (argc >= 4 && !paritas::FromString(argv[3], &loss)) {
+    return Fail(std::string("unknown LOSS '") + argv[3] + "'");
+  }
   std::ifstream in(argv[1]);
   if (!in) return Fail(std::string("cannot open ") + argv[1]);
   std::string line;
@@ -78,7 +89,8 @@ int main(int argc, char** argv) {
   paritas::CpdOptions options;
   options.reference_weights.assign(num_regions, 0.0);
   if (num_regions > 0) options.reference_weights[0] = 1.0;
-  options.compute_robust_standard_errors = true;
+  options.robust_errors = errors;
+  options.loss = loss;
   const paritas::CpdResult result = paritas::FitCpd(data, options);
   if (!result.identified) return Fail("fit failed: " + result.message);
 
@@ -87,5 +99,6 @@ int main(int argc, char** argv) {
     std::printf("%d,%.17g,%.17g,%.17g\n", r, result.log_parity[r], result.log_se[r],
                 result.log_se_robust[r]);
   }
+  std::printf("# scale,%.17g,%d\n", result.robust_scale_used, result.num_robust_iterations);
   return 0;
 }

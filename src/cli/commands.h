@@ -46,6 +46,8 @@ struct SensitivityArguments {
   std::optional<std::string> repetitions;
   std::optional<std::string> parts;
   std::optional<std::string> node;
+  std::optional<std::string> bootstrap;
+  bool write_replicates = false;
 };
 int RunSensitivityCommand(const std::string& config_path, const Overrides& overrides,
                           const SensitivityArguments& arguments);

@@ -90,6 +90,11 @@ void AddSensitivityOptions(CLI::App* command, paritas::cli::Overrides* overrides
   command->add_option("--node", arguments->node,
                       "node or group whose results the table shows; every node is in the files "
                       "(default: the root)");
+  command->add_option("--bootstrap", arguments->bootstrap,
+                      "bootstrap draws: rescaled (n - 1 of n items; default) or plain (n of n)");
+  command->add_flag("--write-replicates", arguments->write_replicates,
+                    "also write every replicate's ln parities (sensitivity/replicates.bin and "
+                    "replicates_key.csv)");
   command->add_flag("--strict", overrides->strict,
                     "exit with code 3, after writing everything, when the run raised a warning "
                     "(overrides 'strict')");

@@ -75,6 +75,15 @@ bool ParseArguments(const SensitivityArguments& arguments, SensitivityOptions* o
       return false;
     }
   }
+  if (arguments.bootstrap && !FromString(*arguments.bootstrap, &options->bootstrap)) {
+    PrintError("--bootstrap must be one of: rescaled, plain; found '" + *arguments.bootstrap + "'");
+    return false;
+  }
+  options->write_replicates = arguments.write_replicates;
+  if (options->write_replicates && !options->run_bootstrap) {
+    PrintError("--write-replicates needs the bootstrap part (--parts without bootstrap)");
+    return false;
+  }
   std::string error;
   if (!options->IsValid(&error)) {
     PrintError(error);

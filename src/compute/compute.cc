@@ -108,7 +108,7 @@ ComputeOptions ComputeOptions::FromConfig(const RunConfig& config) {
   ComputeOptions options;
   options.elementary.method = config.elementary;
   options.elementary.representative_weight = config.representative_weight;
-  options.elementary.compute_robust_standard_errors = config.robust_standard_errors;
+  FromString(config.robust_errors, &options.elementary.robust_errors);  // validated by the config
   options.aggregation = config.aggregation;
   options.reference = config.reference;
   options.num_threads = config.threads;

@@ -25,14 +25,13 @@ constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 // Contrasts solved together when computing standard errors: bounds the
 // (R + I) x chunk workspace.
 constexpr int kContrastChunk = 256;
-// 1 / Phi^-1(3/4): makes the median absolute deviation a consistent
-// estimate of a normal standard deviation.
-constexpr double kMadToSigma = 1.4826;
-// Tuning constants for 95 % asymptotic efficiency under normal errors:
-// Huber 1.345 (Huber 1981), Cauchy 2.385 (Holland and Welsch 1977). Common
-// practice for M-estimation.
-constexpr double kHuberTuning = 1.345;
-constexpr double kCauchyTuning = 2.385;
+// Hat values above this count as 1 under HC3 (see RobustErrors).
+constexpr double kLeverageOne = 1.0 - 1e-9;
+// The reweighting stops when no effect and no fitted value moves by more
+// than this (log points) and the scale changes by less than this share, or
+// after kMaxRobustIterations fits.
+constexpr double kRobustTolerance = 1e-11;
+constexpr int kMaxRobustIterations = 500;
 
 std::string Number(double value) {
   if (std::isnan(value)) return "nan";
@@ -153,6 +152,91 @@ class NormalEquations {
     return quad;
   }
 
+  // Returns q_r'(meat)q_r with q_r = (X'WX)^- l_r for every contrast
+  // l_r = e_r - reference, where meat = sum_k s_k x_k x_k' is given by its
+  // blocks (region diagonal, item diagonal, region x item), as
+  // sum D_r q_a^2 + sum D_i q_b^2 + 2 q_a' C q_b. With items eliminated the
+  // q_r are solved in chunks (cost R^2 I, R the smaller side). With regions
+  // eliminated q_r = (v_r - u - M y_r, y_r) with M = D_r^-1 C, u = D_r^-1
+  // reference, v_r = e_r / d_r and y_r = -G (M(r, :)' - M' reference), so the
+  // forms reduce to I x I products: cost R I^2 instead of R^2 I.
+  Eigen::VectorXd SandwichQuadraticForms(const Eigen::VectorXd& reference,
+                                         const Eigen::VectorXd& meat_region,
+                                         const Eigen::VectorXd& meat_item,
+                                         const Eigen::MatrixXd& meat_cross) const {
+    Eigen::VectorXd quad(num_regions_);
+    if (eliminate_items_) {
+      const Eigen::MatrixXd no_item_rhs;
+      for (int first = 0; first < num_regions_; first += kContrastChunk) {
+        const int m = std::min(kContrastChunk, num_regions_ - first);
+        Eigen::MatrixXd contrast = -reference * Eigen::RowVectorXd::Ones(m);
+        for (int j = 0; j < m; ++j) contrast(first + j, j) += 1.0;
+        Eigen::MatrixXd a, b;
+        Solve(contrast, no_item_rhs, &a, &b);
+        const Eigen::MatrixXd cross = meat_cross * b;
+        quad.segment(first, m) = (meat_region.transpose() * a.cwiseAbs2() +
+                                  meat_item.transpose() * b.cwiseAbs2() +
+                                  2.0 * a.cwiseProduct(cross).colwise().sum())
+                                     .transpose();
+      }
+      return quad;
+    }
+    const int n = num_items_ - 1;
+    const Eigen::VectorXd inv_d = d_region_.cwiseInverse();
+    const Eigen::MatrixXd m_mat = inv_d.asDiagonal() * c_;  // R x I
+    const Eigen::VectorXd u = inv_d.cwiseProduct(reference);
+    const Eigen::VectorXd mu = m_mat.transpose() * reference;
+    // Y = -G (M' - mu 1'), I x R, G the gauge-fixed inverse (item 0 held).
+    Eigen::MatrixXd y = Eigen::MatrixXd::Zero(num_items_, num_regions_);
+    if (n > 0) {
+      const Eigen::MatrixXd rhs =
+          m_mat.rightCols(n).transpose() - mu.tail(n) * Eigen::RowVectorXd::Ones(num_regions_);
+      y.bottomRows(n) = -llt_.solve(rhs);
+    }
+    const Eigen::MatrixXd weighted_m = meat_region.asDiagonal() * m_mat;
+    const Eigen::MatrixXd p1 = m_mat.transpose() * weighted_m;  // M' D M
+    const Eigen::MatrixXd p2 = m_mat.transpose() * meat_cross;  // M' C
+    Eigen::MatrixXd p = p1 - 2.0 * p2;
+    p.diagonal() += meat_item;
+    const Eigen::VectorXd w = 2.0 * (weighted_m.transpose() * u - meat_cross.transpose() * u);
+    const double c0 = meat_region.dot(u.cwiseAbs2());
+    // Row r of M times y_r, and of the cross block times y_r.
+    const Eigen::VectorXd my = m_mat.cwiseProduct(y.transpose()).rowwise().sum();
+    const Eigen::VectorXd cy = meat_cross.cwiseProduct(y.transpose()).rowwise().sum();
+    const Eigen::VectorXd ypy = y.cwiseProduct(p * y).colwise().sum().transpose();
+    const Eigen::VectorXd wy = (w.transpose() * y).transpose();
+    for (int r = 0; r < num_regions_; ++r) {
+      const double dr = meat_region[r] * inv_d[r];
+      quad[r] = dr * inv_d[r] - 2.0 * dr * u[r] - 2.0 * dr * my[r] + 2.0 * inv_d[r] * cy[r] + c0 +
+                wy[r] + ypy[r];
+    }
+    return quad;
+  }
+
+  // Returns q_k = x_k'(X'WX)^- x_k of every cell (the hat value is w_k q_k).
+  // With A the kept (smaller) side and B the eliminated one, S the Schur
+  // complement and G its gauge-fixed inverse, a cell (a, b) has
+  // u = e_a - c_b / d_b and q = 1 / d_b + u'G u
+  //   = 1 / d_b + G_aa - 2 (G C)_ab / d_b + (C'G C)_bb / d_b^2
+  // (u sums to 0, so any generalised inverse gives the same q).
+  Eigen::VectorXd CellLeverage(const internal::CompressedCells& cells) const {
+    const int m = eliminate_items_ ? num_regions_ : num_items_;
+    const Eigen::MatrixXd c = eliminate_items_ ? c_ : Eigen::MatrixXd(c_.transpose());
+    const Eigen::VectorXd inverse_d_b = (eliminate_items_ ? d_item_ : d_region_).cwiseInverse();
+    Eigen::MatrixXd g = Eigen::MatrixXd::Zero(m, m);
+    if (m > 1) g.bottomRightCorner(m - 1, m - 1) = llt_.solve(Eigen::MatrixXd::Identity(m - 1, m - 1));
+    const Eigen::MatrixXd gc = g * c;
+    const Eigen::VectorXd cgc = (c.array() * gc.array()).colwise().sum().transpose();
+    Eigen::VectorXd q(static_cast<Eigen::Index>(cells.region.size()));
+    for (size_t k = 0; k < cells.region.size(); ++k) {
+      const int a = eliminate_items_ ? cells.region[k] : cells.item[k];
+      const int b = eliminate_items_ ? cells.item[k] : cells.region[k];
+      q[k] = inverse_d_b[b] + g(a, a) - 2.0 * gc(a, b) * inverse_d_b[b] +
+             cgc[b] * inverse_d_b[b] * inverse_d_b[b];
+    }
+    return q;
+  }
+
  private:
   int num_regions_;
   int num_items_;
@@ -163,54 +247,104 @@ class NormalEquations {
   Eigen::LLT<Eigen::MatrixXd> llt_;
 };
 
-// Median of a copy (upper median for an even count, which is deterministic
-// and enough for a scale).
-double Median(std::vector<double> values) {
-  const size_t mid = values.size() / 2;
-  std::nth_element(values.begin(), values.begin() + mid, values.end());
-  return values[mid];
+// Returns the factor u_k / e_k^2 of each cell's sandwich term (see
+// RobustErrors): 1 (HC0), n / (n - p) (HC1; NaN without degrees of freedom)
+// or 1 / (1 - h_k)^2 (HC3; 0 where h_k is 1).
+Eigen::VectorXd SandwichFactors(RobustErrors kind, const NormalEquations& normal,
+                                const internal::CompressedCells& cells,
+                                std::span<const double> weight, int degrees_of_freedom) {
+  const Eigen::Index num_cells = static_cast<Eigen::Index>(cells.region.size());
+  switch (kind) {
+    case RobustErrors::kHc1:
+      return Eigen::VectorXd::Constant(
+          num_cells, degrees_of_freedom > 0
+                         ? static_cast<double>(num_cells) / degrees_of_freedom
+                         : kNaN);
+    case RobustErrors::kHc3: {
+      Eigen::VectorXd factor = normal.CellLeverage(cells);
+      for (Eigen::Index k = 0; k < num_cells; ++k) {
+        const double h = weight[k] * factor[k];
+        factor[k] = h > kLeverageOne ? 0.0 : 1.0 / ((1.0 - h) * (1.0 - h));
+      }
+      return factor;
+    }
+    case RobustErrors::kHc0:
+    case RobustErrors::kOff:
+      break;
+  }
+  return Eigen::VectorXd::Ones(num_cells);
 }
 
 // Standard errors of a_r - sum_s w_s a_s for every compressed region, from
 // the normal equations with weights `weight` and residuals `residual`.
-// Classic: sigma2 l'(X'WX)^- l. HC0: l'A^- (sum_k w_k^2 e_k^2 x_k x_k') A^- l.
+// Classic: sigma2 l'(X'WX)^- l. Sandwich:
+// l'A^- (sum_k w_k^2 u_k x_k x_k') A^- l with u_k as `kind` says.
 void StandardErrors(const NormalEquations& normal, const internal::CompressedCells& cells,
                     std::span<const double> weight, const Eigen::VectorXd& residual,
-                    const Eigen::VectorXd& reference, double sigma2, bool classic, bool robust,
-                    Eigen::VectorXd* se, Eigen::VectorXd* se_robust) {
+                    const Eigen::VectorXd& reference, double sigma2, bool classic,
+                    RobustErrors kind, int degrees_of_freedom, Eigen::VectorXd* se,
+                    Eigen::VectorXd* se_robust) {
   const int num_regions = cells.num_regions;
   se->setConstant(num_regions, kNaN);
   se_robust->setConstant(num_regions, kNaN);
   const bool classic_defined = classic && std::isfinite(sigma2);
+  const bool robust = kind != RobustErrors::kOff;
   if (!classic_defined && !robust) return;
   if (classic_defined) {
     const Eigen::VectorXd quad = normal.ContrastQuadraticForms(reference);
     for (int r = 0; r < num_regions; ++r) (*se)[r] = std::sqrt(std::max(0.0, sigma2 * quad[r]));
   }
   if (!robust) return;
-  Eigen::VectorXd score_weight(residual.size());  // w_k^2 e_k^2
+  // w_k^2 u_k
+  Eigen::VectorXd score_weight = SandwichFactors(kind, normal, cells, weight, degrees_of_freedom);
   for (Eigen::Index k = 0; k < residual.size(); ++k) {
-    score_weight[k] = weight[k] * weight[k] * residual[k] * residual[k];
+    score_weight[k] *= weight[k] * weight[k] * residual[k] * residual[k];
   }
-  const Eigen::MatrixXd no_item_rhs;
-  for (int first = 0; first < num_regions; first += kContrastChunk) {
-    const int m = std::min(kContrastChunk, num_regions - first);
-    // Column j is the contrast e_{first+j} - reference.
-    Eigen::MatrixXd contrast = -reference * Eigen::RowVectorXd::Ones(m);
-    for (int j = 0; j < m; ++j) contrast(first + j, j) += 1.0;
-    Eigen::MatrixXd a;
-    Eigen::MatrixXd b;
-    normal.Solve(contrast, no_item_rhs, &a, &b);
-    // x_k' q_j = q_a(r_k, j) + q_b(i_k, j), read by rows.
-    const Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor> a_rows = a;
-    const Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor> b_rows = b;
-    Eigen::RowVectorXd sum = Eigen::RowVectorXd::Zero(m);
-    for (size_t k = 0; k < cells.region.size(); ++k) {
-      sum += score_weight[k] *
-             (a_rows.row(cells.region[k]) + b_rows.row(cells.item[k])).array().square().matrix();
-    }
-    for (int j = 0; j < m; ++j) (*se_robust)[first + j] = std::sqrt(std::max(0.0, sum[j]));
+  // The meat sum_k s_k x_k x_k' has the block structure of X'WX.
+  const int num_items = cells.num_items;
+  Eigen::VectorXd meat_region = Eigen::VectorXd::Zero(num_regions);
+  Eigen::VectorXd meat_item = Eigen::VectorXd::Zero(num_items);
+  Eigen::MatrixXd meat_cross = Eigen::MatrixXd::Zero(num_regions, num_items);
+  for (size_t k = 0; k < cells.region.size(); ++k) {
+    meat_region[cells.region[k]] += score_weight[k];
+    meat_item[cells.item[k]] += score_weight[k];
+    meat_cross(cells.region[k], cells.item[k]) += score_weight[k];
   }
+  const Eigen::VectorXd quad =
+      normal.SandwichQuadraticForms(reference, meat_region, meat_item, meat_cross);
+  for (int r = 0; r < num_regions; ++r) (*se_robust)[r] = std::sqrt(std::max(0.0, quad[r]));
+}
+
+// Huber's sandwich errors of a robust fit (CpdResult::log_se): `normal`
+// holds the cell weights, `residual` the final residuals, `sigma` the scale
+// s the residuals were standardised by.
+Eigen::VectorXd HuberSandwichErrors(const NormalEquations& normal,
+                                    const internal::CompressedCells& cells,
+                                    const Eigen::VectorXd& residual, const Eigen::VectorXd& reference,
+                                    CpdLoss loss, double sigma, int degrees_of_freedom) {
+  Eigen::VectorXd se = Eigen::VectorXd::Constant(cells.num_regions, kNaN);
+  const int n = static_cast<int>(cells.region.size());
+  if (degrees_of_freedom <= 0 || !(sigma > 0.0)) return se;
+  const double c = internal::TuningConstant(loss);
+  double sum_psi2 = 0.0, sum_d = 0.0, sum_d2 = 0.0;
+  for (int k = 0; k < n; ++k) {
+    const double z = std::sqrt(cells.weight[k]) * residual[k] / sigma;
+    const double psi = internal::Psi(loss, c, z);
+    const double d = internal::PsiDerivative(loss, c, z);
+    sum_psi2 += psi * psi;
+    sum_d += d;
+    sum_d2 += d * d;
+  }
+  const double mean_d = sum_d / n;
+  if (!(std::abs(mean_d) > 0.0)) return se;
+  const double var_d = std::max(0.0, sum_d2 / n - mean_d * mean_d);
+  const int p = n - degrees_of_freedom;
+  const double k_factor = 1.0 + static_cast<double>(p) / n * var_d / (mean_d * mean_d);
+  const double scale = k_factor * k_factor * (sum_psi2 / degrees_of_freedom) * sigma * sigma /
+                       (mean_d * mean_d);
+  const Eigen::VectorXd quad = normal.ContrastQuadraticForms(reference);
+  for (int r = 0; r < cells.num_regions; ++r) se[r] = std::sqrt(std::max(0.0, scale * quad[r]));
+  return se;
 }
 
 // Checks the cells; returns an empty string when they are usable.
@@ -371,52 +505,104 @@ Eigen::VectorXd Residuals(const internal::CompressedCells& cells, const Eigen::V
   return e;
 }
 
-// The scale of the robust loss: as given, or the tuning constant times the
-// normalised median absolute deviation of the weighted residuals `e`.
-double RobustScale(const CpdOptions& options, const internal::CompressedCells& cells,
-                   const Eigen::VectorXd& e) {
-  if (options.robust_scale > 0.0) return options.robust_scale;
+// Returns the scale s of the whitened residuals sqrt(w) e: the MAD about 0
+// (statsmodels' RLM default), or their root mean square when more than half
+// of them vanish (cells that alone fix an item have residual 0), so the
+// loss still has a scale.
+double ResidualScale(const internal::CompressedCells& cells, const Eigen::VectorXd& e) {
   const int num_cells = static_cast<int>(cells.region.size());
-  std::vector<double> scaled(num_cells);
-  for (int k = 0; k < num_cells; ++k) scaled[k] = std::sqrt(cells.weight[k]) * e[k];
-  const double median = Median(scaled);
-  for (double& v : scaled) v = std::abs(v - median);
-  double sigma = kMadToSigma * Median(scaled);
-  if (!(sigma > 0.0)) {
-    // More than half the residuals vanish; fall back to their root mean square.
-    double sum = 0.0;
-    for (int k = 0; k < num_cells; ++k) sum += cells.weight[k] * e[k] * e[k];
-    sigma = std::sqrt(sum / num_cells);
+  std::vector<double> whitened(num_cells);
+  double sum = 0.0;
+  for (int k = 0; k < num_cells; ++k) {
+    whitened[k] = std::sqrt(cells.weight[k]) * e[k];
+    sum += whitened[k] * whitened[k];
   }
-  return sigma * (options.loss == CpdLoss::kHuber ? kHuberTuning : kCauchyTuning);
+  const double mad = internal::MadAboutZero(whitened);
+  return mad > 0.0 ? mad : std::sqrt(sum / num_cells);
 }
 
-// Refits a, b and the residuals e with the robust loss, starting from the
-// least-squares fit, and sets the reweighted cell weights `se_weight` and
-// their normal equations, which the standard errors use. Returns false with
-// result->message set when the fit fails.
+// The state of the reweighting loop.
+struct RobustState {
+  double sigma = 0.0;  // scale s of the current residuals
+  int num_fits = 0;
+  bool settled = false;
+};
+
+// One reweighted fit: weights w psi(r)/r from the current residuals and
+// the loss threshold (c s), then the weighted least-squares solve; returns
+// false when its normal equations are singular.
+bool ReweightedFit(const CpdOptions& options, const internal::CompressedCells& cells,
+                   double threshold, Eigen::VectorXd* a, Eigen::VectorXd* b, Eigen::VectorXd* e,
+                   std::vector<double>* weight) {
+  const int num_cells = static_cast<int>(cells.region.size());
+  for (int k = 0; k < num_cells; ++k) {
+    const double w = cells.weight[k];
+    (*weight)[k] =
+        w * internal::RobustWeightFactor(options.loss, threshold, std::sqrt(w) * (*e)[k]);
+  }
+  internal::CompressedCells reweighted = cells;
+  reweighted.weight = *weight;
+  NormalEquations normal(reweighted, *weight);
+  if (!normal.Factorize()) return false;
+  SolveLeastSquares(normal, reweighted, a, b);
+  *e = Residuals(cells, *a, *b);
+  return true;
+}
+
+// Refits a, b and the residuals e with the robust loss by iteratively
+// reweighted least squares from the least-squares fit, re-estimating the
+// scale from the new residuals after every fit (the order of statsmodels'
+// RLM.fit) until effects and scale settle. Sets the final reweighted cell
+// weights `se_weight` and their normal equations, which the sandwich errors
+// use, and *sigma to the final scale. Returns false with result->message set
+// when a fit fails.
 bool RefitRobust(const CpdOptions& options, const internal::CompressedCells& cells,
                  Eigen::VectorXd* a, Eigen::VectorXd* b, Eigen::VectorXd* e,
                  std::vector<double>* se_weight, std::optional<NormalEquations>* robust_normal,
-                 CpdResult* result) {
-  const double scale = RobustScale(options, cells, *e);
-  if (!(scale > 0.0)) {
+                 double* sigma, CpdResult* result) {
+  const bool fixed = options.robust_scale > 0.0;
+  const double c = internal::TuningConstant(options.loss);
+  RobustState state;
+  state.sigma = fixed ? options.robust_scale / c : ResidualScale(cells, *e);
+  *sigma = 0.0;
+  if (!(state.sigma > 0.0)) {
     AppendNote("the least-squares fit is exact, so the robust loss changes nothing",
                &result->message);
     return true;
   }
-  std::string note;
-  if (!internal::SolveRobustCpd(cells, options.loss, scale, a, b, &note)) {
-    result->message = note;
-    return false;
+  std::vector<double> weight(cells.region.size());
+  while (state.num_fits < kMaxRobustIterations) {
+    const Eigen::VectorXd a_before = *a, b_before = *b;
+    const double threshold = fixed ? options.robust_scale : c * state.sigma;
+    if (!ReweightedFit(options, cells, threshold, a, b, e, &weight)) {
+      result->message = "the reweighted CPD normal equations are numerically singular";
+      return false;
+    }
+    ++state.num_fits;
+    const double next = fixed ? state.sigma : ResidualScale(cells, *e);
+    const double moved = std::max((*a - a_before).cwiseAbs().maxCoeff(),
+                                  (*b - b_before).cwiseAbs().maxCoeff());
+    const double scale_change = std::abs(next - state.sigma) / state.sigma;
+    state.sigma = next;
+    if (!(state.sigma > 0.0)) break;
+    if (moved <= kRobustTolerance && scale_change <= kRobustTolerance) {
+      state.settled = true;
+      break;
+    }
   }
-  AppendNote(note, &result->message);
-  result->robust_scale_used = scale;
-  *e = Residuals(cells, *a, *b);
+  if (!state.settled && state.sigma > 0.0) {
+    AppendNote("robust CPD: the reweighting did not settle within " +
+                   std::to_string(kMaxRobustIterations) + " fits; the last fit is used",
+               &result->message);
+  }
+  result->num_robust_iterations = state.num_fits;
+  *sigma = state.sigma;
+  result->robust_scale_used = fixed ? options.robust_scale : c * state.sigma;
   const int num_cells = static_cast<int>(cells.region.size());
   for (int k = 0; k < num_cells; ++k) {
     const double w = cells.weight[k];
-    (*se_weight)[k] = w * internal::RobustWeightFactor(options.loss, scale, w * (*e)[k] * (*e)[k]);
+    (*se_weight)[k] = w * internal::RobustWeightFactor(options.loss, result->robust_scale_used,
+                                                       std::sqrt(w) * (*e)[k]);
   }
   robust_normal->emplace(cells, *se_weight);
   if (!(*robust_normal)->Factorize()) {
@@ -498,10 +684,42 @@ bool FromString(const std::string& text, CpdLoss* loss) {
   return false;
 }
 
+std::string ToString(RobustErrors kind) {
+  switch (kind) {
+    case RobustErrors::kOff:
+      return "off";
+    case RobustErrors::kHc0:
+      return "hc0";
+    case RobustErrors::kHc1:
+      return "hc1";
+    case RobustErrors::kHc3:
+      return "hc3";
+  }
+  return "?";
+}
+
+bool FromString(const std::string& text, RobustErrors* kind) {
+  const std::string lower = ToLower(Trim(text));
+  for (RobustErrors candidate :
+       {RobustErrors::kOff, RobustErrors::kHc0, RobustErrors::kHc1, RobustErrors::kHc3}) {
+    if (lower == ToString(candidate)) {
+      *kind = candidate;
+      return true;
+    }
+  }
+  return false;
+}
+
 bool CpdOptions::IsValid(std::string* error) const {
   if (loss != CpdLoss::kLeastSquares && loss != CpdLoss::kHuber && loss != CpdLoss::kCauchy) {
     *error = "loss is " + std::to_string(static_cast<int>(loss)) +
              "; it must be least-squares, huber or cauchy";
+    return false;
+  }
+  if (robust_errors != RobustErrors::kOff && robust_errors != RobustErrors::kHc0 &&
+      robust_errors != RobustErrors::kHc1 && robust_errors != RobustErrors::kHc3) {
+    *error = "robust_errors is " + std::to_string(static_cast<int>(robust_errors)) +
+             "; it must be off, hc0, hc1 or hc3";
     return false;
   }
   if (!std::isfinite(robust_scale) || robust_scale < 0.0) {
@@ -625,8 +843,10 @@ CpdResult FitCpd(const CpdData& data, const CpdOptions& options) {
   // loss the reweighted ones at convergence.
   std::vector<double> se_weight = arrays.weight;
   std::optional<NormalEquations> robust_normal;
-  if (options.loss != CpdLoss::kLeastSquares &&
-      !RefitRobust(options, cells, &a, &b, &e, &se_weight, &robust_normal, &result)) {
+  double sigma = 0.0;
+  const bool robust = options.loss != CpdLoss::kLeastSquares;
+  if (robust &&
+      !RefitRobust(options, cells, &a, &b, &e, &se_weight, &robust_normal, &sigma, &result)) {
     return result;
   }
   result.sigma2 = ResidualVariance(se_weight, e, result.degrees_of_freedom);
@@ -638,9 +858,15 @@ CpdResult FitCpd(const CpdData& data, const CpdOptions& options) {
 
   Eigen::VectorXd se;
   Eigen::VectorXd se_robust;
+  // A robust fit that changed nothing (exact fit) keeps the classic errors.
+  const bool huber_errors = robust && robust_normal.has_value();
   StandardErrors(robust_normal ? *robust_normal : normal, cells, se_weight, e, reference,
-                 result.sigma2, options.compute_standard_errors,
-                 options.compute_robust_standard_errors, &se, &se_robust);
+                 result.sigma2, options.compute_standard_errors && !huber_errors,
+                 options.robust_errors, result.degrees_of_freedom, &se, &se_robust);
+  if (huber_errors && options.compute_standard_errors) {
+    se = HuberSandwichErrors(normal, cells, e, reference, options.loss, sigma,
+                             result.degrees_of_freedom);
+  }
   StoreFit(data, present, cells, a, b, se, se_robust, &result);
   result.identified = true;
   return result;

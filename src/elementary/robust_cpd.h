@@ -1,11 +1,11 @@
-// The robust CPD fit, kept apart so that Ceres Solver stays behind this
-// header: cpd.cc hands over compressed cells and a least-squares start.
+// The pieces of the robust CPD fit that do not need the normal equations:
+// the cells in compressed numbering, the loss functions' derivatives and the
+// scale estimate. cpd.cc runs the reweighting loop with its own solver.
 #ifndef PARITAS_INTERNAL_ELEMENTARY_ROBUST_CPD_H_
 #define PARITAS_INTERNAL_ELEMENTARY_ROBUST_CPD_H_
 
 #include <Eigen/Core>
 #include <span>
-#include <string>
 
 #include "paritas/elementary/cpd.h"
 
@@ -22,20 +22,29 @@ struct CompressedCells {
   std::span<const double> weight;  // one per cell, > 0
 };
 
-// Minimises sum_k rho(w_k (y_k - a_r - b_i)^2) with the Huber or Cauchy loss
-// of the given scale (log points) by Ceres Solver, starting from
-// (*region_effect, *item_effect) and holding one effect of the smaller block
-// at its start value to fix the level. Single-threaded with fixed options,
-// so the result is deterministic. Returns false and sets `message` when
-// Ceres gives no usable solution.
-bool SolveRobustCpd(const CompressedCells& cells, CpdLoss loss, double scale,
-                    Eigen::VectorXd* region_effect, Eigen::VectorXd* item_effect,
-                    std::string* message);
+// Tuning constants for 95 % asymptotic efficiency under normal errors:
+// Huber 1.345 (Huber 1981), Cauchy 2.385 (Holland and Welsch 1977).
+inline constexpr double kHuberTuning = 1.345;
+inline constexpr double kCauchyTuning = 2.385;
+// Returns the tuning constant of `loss` (1 for least squares).
+double TuningConstant(CpdLoss loss);
 
-// Returns rho'(s) of the loss at s = w e^2, the factor by which iteratively
-// reweighted least squares scales the cell's weight at convergence
-// (1 for least squares).
-double RobustWeightFactor(CpdLoss loss, double scale, double squared_residual);
+// Returns the reweighting factor psi(r)/r of the loss with threshold
+// `threshold` at the whitened residual r (1 for least squares). Huber:
+// min(1, t/|r|); Cauchy: 1 / (1 + (r/t)^2).
+double RobustWeightFactor(CpdLoss loss, double threshold, double residual);
+
+// psi(z) and psi'(z) of the loss at a standardised residual z with tuning
+// constant c. Huber: psi = max(-c, min(c, z)), psi' = 1 for |z| <= c else 0
+// (statsmodels' HuberT). Cauchy (rho = c^2/2 ln(1 + (z/c)^2)):
+// psi = z / (1 + (z/c)^2), psi' = (1 - (z/c)^2) / (1 + (z/c)^2)^2.
+double Psi(CpdLoss loss, double c, double z);
+double PsiDerivative(CpdLoss loss, double c, double z);
+
+// Returns median(|values|) / Phi^-1(3/4): the MAD about 0 (statsmodels'
+// scale.mad(resid, center=0), used by its RLM). The median of an even count
+// is the mean of the two middle values, as numpy's.
+double MadAboutZero(std::span<const double> values);
 
 }  // namespace paritas::internal
 

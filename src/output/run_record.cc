@@ -45,7 +45,7 @@ Json ConfigJson(const RunConfig& config) {
               {"representative_weight", config.representative_weight},
               {"outlier_threshold", config.outlier_threshold},
               {"outlier_fit", config.outlier_fit},
-              {"robust_standard_errors", config.robust_standard_errors},
+              {"robust_errors", config.robust_errors},
               {"report", config.report},
               {"threads", config.threads}};
   Json rules = Json::object();

@@ -86,7 +86,7 @@ const std::vector<std::string> kTopKeys = {"survey",
                                            "representative_weight",
                                            "outlier_threshold",
                                            "outlier_fit",
-                                           "robust_standard_errors",
+                                           "robust_errors",
                                            "report",
                                            "threads",
                                            "limits",
@@ -253,6 +253,18 @@ class ConfigParser {
       *error =
           path_ + ": the configuration must be a mapping of keys (survey, classification, ...)";
       return false;
+    }
+    // The boolean that gave HC0 errors is refused rather than mapped: HC0 is
+    // biased low on heading-sized samples, and silently changing what
+    // 'true' meant would change the numbers of an old configuration.
+    for (const auto& kv : root) {
+      if (kv.first.Scalar() == "robust_standard_errors") {
+        *error = Where(kv.first) +
+                 "robust_standard_errors was replaced by robust_errors (off, hc0, hc1, hc3); "
+                 "write 'robust_errors: hc0' for what 'true' gave, or 'robust_errors: hc1', "
+                 "which is not biased low on few items";
+        return false;
+      }
     }
     if (!CheckKeys(root, kTopKeys, "", error)) return false;
     // Limits first: the classification file is read under them.
@@ -521,7 +533,7 @@ class ConfigParser {
     return true;
   }
 
-  // representative_weight, outlier_threshold, robust_standard_errors,
+  // representative_weight, outlier_threshold, robust_errors,
   // report, threads.
   bool ParseSettings(const YAML::Node& root, std::string* error) {
     if (const YAML::Node node = root["representative_weight"]) {
@@ -542,10 +554,15 @@ class ConfigParser {
       }
       config_->outlier_fit = ToString(fit);
     }
-    if (const YAML::Node node = root["robust_standard_errors"]) {
-      if (!Flag(node, "robust_standard_errors", &config_->robust_standard_errors, error)) {
+    if (const YAML::Node node = root["robust_errors"]) {
+      std::string text;
+      RobustErrors kind;
+      if (!Scalar(node, "robust_errors", &text, error)) return false;
+      if (!FromString(text, &kind)) {
+        *error = Where(node) + NotOneOf("robust_errors", text, {"off", "hc0", "hc1", "hc3"});
         return false;
       }
+      config_->robust_errors = ToString(kind);
     }
     if (const YAML::Node node = root["report"]) {
       if (!Flag(node, "report", &config_->report, error)) return false;
@@ -870,6 +887,10 @@ bool RunConfig::IsValid(std::string* error) const {
   }
   if (!(outlier_threshold > 0) || !std::isfinite(outlier_threshold)) {
     *error = "outlier_threshold must be a positive number";
+    return false;
+  }
+  if (RobustErrors kind; !FromString(robust_errors, &kind)) {
+    *error = NotOneOf("robust_errors", robust_errors, {"off", "hc0", "hc1", "hc3"});
     return false;
   }
   if (OutlierFit fit; !FromString(outlier_fit, &fit)) {

@@ -1,7 +1,8 @@
 // Bootstrap over items, stratified by heading: replicate b draws each
-// heading's items with replacement from its own random stream (seed, b) and
-// writes only its own slots, so results do not depend on the number of
-// threads or on scheduling.
+// heading's items with replacement (n - 1 of n for the rescaled bootstrap,
+// n for the plain one; see BootstrapKind) from its own random stream
+// (seed, b) and writes only its own slots, so results do not depend on the
+// number of threads or on scheduling.
 #include <algorithm>
 #include <cmath>
 #include <numeric>
@@ -24,13 +25,16 @@ struct Replicates {
   std::vector<uint8_t> lost;      // per replicate: some region lost a full-sample parity
 };
 
-// Multiplicities of one resample: as many draws per heading as it has items.
-void DrawItemWeights(const Chain& chain, Stream* stream, std::vector<double>* weight) {
+// Multiplicities of one resample: per heading with n items, n - 1 draws
+// (rescaled; at least one) or n draws (plain).
+void DrawItemWeights(const Chain& chain, BootstrapKind kind, Stream* stream,
+                     std::vector<double>* weight) {
   std::fill(weight->begin(), weight->end(), 0.0);
   for (int h = 0; h < chain.num_headings; ++h) {
     const std::vector<int>& items = chain.heading_items[h];
     const int n = static_cast<int>(items.size());
-    for (int k = 0; k < n; ++k) (*weight)[items[stream->Below(n)]] += 1.0;
+    const int draws = kind == BootstrapKind::kRescaled ? std::max(n - 1, std::min(n, 1)) : n;
+    for (int k = 0; k < draws; ++k) (*weight)[items[stream->Below(n)]] += 1.0;
   }
 }
 
@@ -54,7 +58,7 @@ Replicates RunReplicates(const FullSample& full, const SensitivityOptions& optio
 #pragma omp for schedule(dynamic, 1)
     for (int b = 0; b < num_b; ++b) {
       Stream stream(options.seed, kBootstrapStream | static_cast<uint64_t>(b));
-      DrawItemWeights(chain, &stream, &weight);
+      DrawItemWeights(chain, options.bootstrap, &stream, &weight);
       Stream external_draw(options.seed, kExternalStream | static_cast<uint64_t>(b));
       const ReplicateOutcome outcome =
           RunChain(chain, full.node_expenditure, weight, &heading_lp, &node_lp, &external_draw);
@@ -131,7 +135,7 @@ void Summarise(const Replicates& replicates, double level, int num_threads, int 
 void RunBootstrap(const FullSample& full, const SensitivityOptions& options,
                   SensitivityResult* result, SensitivitySummary* summary) {
   const auto start = std::chrono::steady_clock::now();
-  const Replicates replicates = RunReplicates(full, options);
+  Replicates replicates = RunReplicates(full, options);
   summary->num_replicates = replicates.num_replicates;
   for (int b = 0; b < replicates.num_replicates; ++b) {
     summary->num_replicates_unlinked += replicates.unlinked[b];
@@ -140,6 +144,12 @@ void RunBootstrap(const FullSample& full, const SensitivityOptions& options,
   }
   Summarise(replicates, options.level, full.num_threads, full.chain.num_nodes,
             full.chain.num_regions, result);
+  result->boot_log_parity.clear();
+  result->boot_num_replicates_kept = 0;
+  if (options.write_replicates) {
+    result->boot_log_parity = std::move(replicates.log_parity);
+    result->boot_num_replicates_kept = replicates.num_replicates;
+  }
   summary->bootstrap_seconds = SecondsSince(start);
 }
 

@@ -25,7 +25,7 @@ bool RunCombination(const FullSample& full, const ElementaryMethod& elementary,
   ComputeOptions method_options = full.compute;
   method_options.elementary.method = e;
   method_options.elementary.compute_standard_errors = false;
-  method_options.elementary.compute_robust_standard_errors = false;
+  method_options.elementary.robust_errors = RobustErrors::kOff;
   method_options.aggregation = a;
   method_options.num_threads = full.num_threads;
   ParityResult parities;

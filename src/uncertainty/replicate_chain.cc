@@ -75,7 +75,7 @@ Chain MakeChain(const Survey& survey, const ComputeOptions& options) {
   chain.survey = &survey;
   chain.options = options;
   chain.options.elementary.compute_standard_errors = false;
-  chain.options.elementary.compute_robust_standard_errors = false;
+  chain.options.elementary.robust_errors = RobustErrors::kOff;
   chain.num_nodes = static_cast<int>(survey.classification.nodes().size());
   chain.num_regions = survey.num_regions();
   chain.num_headings = survey.num_headings();

@@ -24,6 +24,21 @@ std::string Plural(int64_t n, const std::string& word) {
 
 }  // namespace
 
+std::string ToString(BootstrapKind kind) {
+  return kind == BootstrapKind::kPlain ? "plain" : "rescaled";
+}
+
+bool FromString(const std::string& text, BootstrapKind* kind) {
+  const std::string lower = ToLower(Trim(text));
+  for (BootstrapKind candidate : {BootstrapKind::kRescaled, BootstrapKind::kPlain}) {
+    if (lower == ToString(candidate)) {
+      *kind = candidate;
+      return true;
+    }
+  }
+  return false;
+}
+
 double PercentileType7(const std::vector<double>& sorted_values, double p) {
   assert(!sorted_values.empty());
   const double h = (static_cast<double>(sorted_values.size()) - 1.0) * p;

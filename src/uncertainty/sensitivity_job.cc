@@ -41,6 +41,8 @@ nlohmann::ordered_json RecordSettings(const SensitivityOptions& options) {
   if (options.run_methods) parts.push_back("methods");
   settings["parts"] = parts;
   settings["replicates"] = options.replicates;
+  settings["bootstrap"] = ToString(options.bootstrap);
+  settings["write_replicates"] = options.write_replicates;
   settings["seed"] = options.seed;
   settings["level"] = options.level;
   settings["coverage_levels"] = options.coverage_levels;
@@ -75,13 +77,16 @@ nlohmann::ordered_json RecordSeconds(const SensitivitySummary& summary) {
 }
 
 // What the terminal says under the table about each part that was run.
-std::string Notes(const SensitivityJobSummary& job) {
+std::string Notes(const SensitivityJobSummary& job, const SensitivityOptions& options) {
   const SensitivityResult& result = job.result;
   std::string notes;
   if (result.boot_median.size() > 0) {
     notes += "(interval: bootstrap percentile interval of the parity over " +
              std::to_string(job.sensitivity.num_replicates) +
-             " resamples of the items of every heading; ranks: the same interval for the rank, "
+             (options.bootstrap == BootstrapKind::kRescaled
+                  ? " rescaled resamples (n - 1 of the n items of every heading)"
+                  : " plain resamples (n of the n items of every heading)") +
+             "; ranks: the same interval for the rank, "
              "1 = dearest; boot se and jk se: bootstrap and jackknife standard errors of ln "
              "parity.)\n";
   }
@@ -170,6 +175,10 @@ std::vector<OutputFile> PartFiles(const SensitivityOptions& options,
   std::vector<OutputFile> files;
   if (options.run_bootstrap) {
     files.push_back({"bootstrap.csv", BootstrapCsv(job.survey, job.result)});
+    if (options.write_replicates) {
+      files.push_back({"replicates.bin", ReplicatesBinary(job.result)});
+      files.push_back({"replicates_key.csv", ReplicatesKeyCsv(job.survey)});
+    }
   }
   if (options.run_leave_one_out) {
     files.push_back({"leave_one_out.csv", LeaveOneOutCsv(job.survey, job.result)});
@@ -296,7 +305,7 @@ std::string SensitivityJobSummary::FullReport(const SensitivityOptions& options)
       options.node.empty() ? 0 : std::max(0, survey.classification.FindNode(options.node));
   out += "\nsensitivity of " + NodeTitle(survey.classification, node) + ", dearest first:\n";
   out += SensitivityTable(survey, result, options);
-  out += Notes(*this);
+  out += Notes(*this, options);
   out +=
       "\nThe bootstrap and leave-one-out runs show how much the parities depend on which items "
       "were priced; they do not measure errors shared by all items (unit or quality "

@@ -2,7 +2,10 @@
 // and region, numbers through AppendFixed so the text is the same on every
 // platform and locale.
 #include <algorithm>
+#include <bit>
 #include <cmath>
+#include <cstdint>
+#include <limits>
 #include <string>
 #include <vector>
 
@@ -31,7 +34,46 @@ void AppendCount(int64_t value, std::string* out) {
   *out += std::to_string(value);
 }
 
+// Appends `value` as `bytes` little-endian bytes, whatever the host order.
+void AppendLittleEndian(uint64_t value, int bytes, std::string* out) {
+  for (int k = 0; k < bytes; ++k) out->push_back(static_cast<char>((value >> (8 * k)) & 0xFF));
+}
+
 }  // namespace
+
+std::string ReplicatesBinary(const SensitivityResult& result) {
+  const int64_t num_b = result.boot_num_replicates_kept;
+  if (num_b == 0 || result.boot_log_parity.empty()) return "";
+  const int64_t num_nodes = result.parity.rows(), num_regions = result.parity.cols();
+  std::string out = "PRTSREP1";
+  out.reserve(24 + 8 * result.boot_log_parity.size());
+  AppendLittleEndian(static_cast<uint64_t>(num_nodes), 4, &out);
+  AppendLittleEndian(static_cast<uint64_t>(num_regions), 4, &out);
+  AppendLittleEndian(static_cast<uint64_t>(num_b), 4, &out);
+  AppendLittleEndian(0, 4, &out);
+  for (double value : result.boot_log_parity) {
+    // One NaN pattern for "no parity", so equal runs give equal bytes.
+    const double written = std::isfinite(value) ? value : std::numeric_limits<double>::quiet_NaN();
+    AppendLittleEndian(std::bit_cast<uint64_t>(written), 8, &out);
+  }
+  return out;
+}
+
+std::string ReplicatesKeyCsv(const Survey& survey) {
+  std::string out = "kind,index,code\n";
+  const auto& nodes = survey.classification.nodes();
+  for (size_t n = 0; n < nodes.size(); ++n) {
+    out += "node," + std::to_string(n) + ',';
+    AppendCsvField(nodes[n].code, &out);
+    out += '\n';
+  }
+  for (int r = 0; r < survey.num_regions(); ++r) {
+    out += "region," + std::to_string(r) + ',';
+    AppendCsvField(survey.regions.Code(r), &out);
+    out += '\n';
+  }
+  return out;
+}
 
 std::string BootstrapCsv(const Survey& survey, const SensitivityResult& result) {
   std::string out =

@@ -234,7 +234,7 @@ void TransitiveUnderEveryMethod(const Survey& survey, const ComputeOptions& opti
     } else {
       method_options.aggregation = name;
     }
-    method_options.elementary.compute_robust_standard_errors = false;
+    method_options.elementary.robust_errors = RobustErrors::kOff;
     method_options.keep_bilaterals.clear();
     ParityResult result;
     ComputeSummary summary;

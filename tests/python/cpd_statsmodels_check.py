@@ -4,8 +4,11 @@ A seeded incomplete survey (numpy) is written to a CSV, fitted by the
 cpd_crosscheck_tool given on the command line, and fitted again by
 statsmodels with region and item dummies (region 0 dropped, no constant), so
 each region coefficient is a_r - a_0. Parities, classic standard errors and
-HC0 sandwich errors must agree to 1e-8. Runs a weighted and an unweighted
-case; exits non-zero with a message on any mismatch.
+the HC0, HC1 and HC3 sandwich errors (statsmodels get_robustcov_results,
+MacKinnon and White 1985) must agree to 1e-8. Runs a weighted and an
+unweighted case; exits non-zero with a message on any mismatch. Every item is
+priced by at least two regions and no cell has hat value 1, so statsmodels'
+HC3 is finite (paritas gives such cells no weight; statsmodels divides 0 by 0).
 
 Usage: /usr/bin/python3 cpd_statsmodels_check.py PATH_TO_cpd_crosscheck_tool
 """
@@ -44,14 +47,30 @@ def linked(region, item):
     return len({find(r) for r in range(NUM_REGIONS)}) == 1
 
 
+def dummies(region, item):
+    """Region dummies without region 0, then every item dummy."""
+    x = np.zeros((region.size, NUM_REGIONS - 1 + NUM_ITEMS))
+    for k, (r, i) in enumerate(zip(region, item)):
+        if r > 0:
+            x[k, r - 1] = 1.0
+        x[k, NUM_REGIONS - 1 + i] = 1.0
+    return x
+
+
+def max_hat(region, item):
+    """Largest hat value of the unweighted design."""
+    x = dummies(region, item)
+    return float(np.max(np.einsum("ij,ji->i", x, np.linalg.pinv(x))))
+
+
 def make_survey(seed, weighted):
     """Incomplete survey: every region and item kept, all regions linked."""
     rng = np.random.default_rng(seed)
     while True:
         mask = rng.random((NUM_REGIONS, NUM_ITEMS)) < COVERAGE
-        if mask.sum(axis=0).min() >= 1 and mask.sum(axis=1).min() >= 2:
+        if mask.sum(axis=0).min() >= 2 and mask.sum(axis=1).min() >= 2:
             region, item = np.nonzero(mask)
-            if linked(region, item):
+            if linked(region, item) and max_hat(region, item) < 1.0 - 1e-6:
                 break
     region_effect = rng.normal(0.0, 0.1, NUM_REGIONS)
     item_effect = rng.uniform(np.log(0.5), np.log(500.0), NUM_ITEMS)
@@ -62,33 +81,30 @@ def make_survey(seed, weighted):
     return region, item, log_price, weight
 
 
-def run_tool(tool, region, item, log_price, weight, weighted, folder):
+def run_tool(tool, region, item, log_price, weight, weighted, folder, errors):
     path = os.path.join(folder, "cells.csv")
     with open(path, "w", newline="") as out:
         writer = csv.writer(out, lineterminator="\n")
         writer.writerow(["region", "item", "log_price", "weight"])
         for r, i, y, w in zip(region, item, log_price, weight):
             writer.writerow([r, i, repr(float(y)), repr(float(w)) if weighted else ""])
-    completed = subprocess.run([tool, path], capture_output=True, text=True, check=False)
+    completed = subprocess.run([tool, path, errors], capture_output=True, text=True,
+                               check=False)
     if completed.returncode != 0:
         sys.exit("cpd_statsmodels_check: tool failed (exit %d): %s"
                  % (completed.returncode, completed.stderr.strip()))
-    rows = list(csv.DictReader(completed.stdout.splitlines()))
+    lines = [line for line in completed.stdout.splitlines() if not line.startswith("#")]
+    rows = list(csv.DictReader(lines))
     get = lambda key: np.array([float(row[key]) for row in rows])
     return get("log_parity"), get("log_se"), get("log_se_robust")
 
 
-def fit_statsmodels(region, item, log_price, weight):
-    x = np.zeros((region.size, NUM_REGIONS - 1 + NUM_ITEMS))
-    for k, (r, i) in enumerate(zip(region, item)):
-        if r > 0:
-            x[k, r - 1] = 1.0
-        x[k, NUM_REGIONS - 1 + i] = 1.0
-    fit = sm.WLS(log_price, x, weights=weight).fit()
-    hc0 = fit.get_robustcov_results(cov_type="HC0")
+def fit_statsmodels(region, item, log_price, weight, errors):
+    fit = sm.WLS(log_price, dummies(region, item), weights=weight).fit()
+    sandwich = fit.get_robustcov_results(cov_type=errors.upper())
     parity = np.concatenate([[0.0], fit.params[:NUM_REGIONS - 1]])
     se = np.concatenate([[0.0], fit.bse[:NUM_REGIONS - 1]])
-    se_robust = np.concatenate([[0.0], hc0.bse[:NUM_REGIONS - 1]])
+    se_robust = np.concatenate([[0.0], sandwich.bse[:NUM_REGIONS - 1]])
     return parity, se, se_robust
 
 
@@ -111,13 +127,15 @@ def main():
     with tempfile.TemporaryDirectory(prefix="paritas_cpd_check_") as folder:
         for case, seed, weighted in (("weighted", 20240601, True), ("unweighted", 7, False)):
             region, item, log_price, weight = make_survey(seed, weighted)
-            ours = run_tool(tool, region, item, log_price, weight, weighted, folder)
-            theirs = fit_statsmodels(region, item, log_price, weight)
-            for name, a, b in zip(("log parity", "log_se", "log_se_robust (HC0)"), ours, theirs):
-                worst = max(worst, compare(name, case, a, b))
+            for errors in ("hc0", "hc1", "hc3"):
+                ours = run_tool(tool, region, item, log_price, weight, weighted, folder, errors)
+                theirs = fit_statsmodels(region, item, log_price, weight, errors)
+                names = ("log parity", "log_se", "log_se_robust (%s)" % errors.upper())
+                for name, a, b in zip(names, ours, theirs):
+                    worst = max(worst, compare(name, case, a, b))
             num_cells.append(region.size)
     print("cpd_statsmodels_check: OK: %d regions x %d items, %s cells (weighted, unweighted); "
-          "parities, classic and HC0 errors agree with statsmodels %s to %.1e"
+          "parities, classic, HC0, HC1 and HC3 errors agree with statsmodels %s to %.1e"
           % (NUM_REGIONS, NUM_ITEMS, " and ".join(map(str, num_cells)), sm.__version__, worst))
 
 

@@ -105,13 +105,28 @@ TEST(RunConfig, SuggestsTheNearestSurveyKeyForATypo) {
             "/cfg/run.yaml:2:3: unknown key 'survey.pricess'; did you mean 'survey.prices'?");
 }
 
+TEST(RunConfig, RobustErrorsReadsTheSandwichKind) {
+  EXPECT_EQ(Parse(kSurvey).robust_errors, "hc1");
+  EXPECT_EQ(Parse(std::string(kSurvey) + "robust_errors: HC1\n").robust_errors, "hc1");
+  EXPECT_EQ(ParseError(std::string(kSurvey) + "robust_errors: hc2\n"),
+            "/cfg/run.yaml:4:16: robust_errors 'hc2' is not one of: off, hc0, hc1, hc3; did you "
+            "mean 'hc0'?");
+}
+
+TEST(RunConfig, OldRobustStandardErrorsBooleanIsRefusedWithItsReplacement) {
+  EXPECT_EQ(ParseError(std::string(kSurvey) + "robust_standard_errors: true\n"),
+            "/cfg/run.yaml:4:1: robust_standard_errors was replaced by robust_errors (off, hc0, "
+            "hc1, hc3); write 'robust_errors: hc0' for what 'true' gave, or 'robust_errors: "
+            "hc1', which is not biased low on few items");
+}
+
 TEST(RunConfig, ShortensAHugeUnknownKey) {
   // An explicit key ("? key"), since YAML's plain keys end at 1,024 bytes.
   EXPECT_EQ(ParseError(std::string(kSurvey) + "? " + std::string(100000, 'k') + "\n: 1\n"),
             "/cfg/run.yaml:4:3: unknown key '" + std::string(60, 'k') +
                 "...'; valid keys are: survey, classification, reference, elementary, aggregation, "
                 "invalid_rows, output, matrices, representative_weight, outlier_threshold, "
-                "outlier_fit, robust_standard_errors, report, threads, limits, duplicate_quotes, "
+                "outlier_fit, robust_errors, report, threads, limits, duplicate_quotes, "
                 "strict, checks, missing_parities, groups, labels");
 }
 

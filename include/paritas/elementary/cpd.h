@@ -38,16 +38,44 @@ std::string ToString(CpdLoss loss);
 // Case-insensitive; returns false for unknown names.
 bool FromString(const std::string& text, CpdLoss* loss);
 
+// Heteroskedasticity-consistent (sandwich) standard errors of CPD parities
+// (MacKinnon and White 1985, "Some heteroskedasticity-consistent covariance
+// matrix estimators with improved finite sample properties", Journal of
+// Econometrics 29, 305-325). With A = X'WX, cell k's regressor x_k (its
+// region and item indicators), weight w_k, residual e_k and hat value
+// h_k = w_k x_k'A^- x_k, the variance of a contrast l'theta is
+// l'A^- [sum_k w_k^2 u_k x_k x_k'] A^- l with
+//   HC0: u_k = e_k^2 (White 1980)
+//   HC1: u_k = e_k^2 n / (n - p), n cells, p = regions + items - 1
+//   HC3: u_k = e_k^2 / (1 - h_k)^2
+// A cell with h_k = 1 (to 1e-9: it alone fixes an item or a region, so its
+// residual is 0 whatever its price) adds nothing under HC3, where the
+// formula would be 0 / 0.
+enum class RobustErrors {
+  kOff,  // not computed (default of CpdOptions)
+  kHc0,
+  kHc1,
+  kHc3,
+};
+
+// "off", "hc0", "hc1", "hc3".
+std::string ToString(RobustErrors kind);
+// Case-insensitive; returns false for unknown names.
+bool FromString(const std::string& text, RobustErrors* kind);
+
 struct CpdOptions {
-  // Loss: least squares (default), or a robust loss solved with Ceres Solver
-  // from the least-squares start.
+  // Loss: least squares (default), or a robust loss fitted by iteratively
+  // reweighted least squares from the least-squares start.
   CpdLoss loss = CpdLoss::kLeastSquares;
-  // Scale of the robust loss in log points (applied to sqrt(w) x residual);
-  // 0 (default) means estimated: c x 1.4826 x MAD of the least-squares
-  // residuals, with c = 1.345 for Huber and 2.385 for Cauchy, the tuning
-  // constants giving 95 % efficiency under normal errors (Huber 1981;
-  // Holland and Welsch 1977; common practice). Must be >= 0 and finite.
-  // Ignored for least squares.
+  // Threshold of the robust loss in log points (applied to sqrt(w) x
+  // residual), held fixed through the fit; 0 (default) means c x s with s
+  // re-estimated at every iteration as the median of |sqrt(w) e| over
+  // Phi^-1(3/4) = 0.6745 (the MAD about 0 of the current residuals), and
+  // c = 1.345 for Huber, 2.385 for Cauchy, the tuning constants giving 95 %
+  // efficiency under normal errors (Huber 1981; Holland and Welsch 1977).
+  // For Huber this is the fixed point statsmodels' RLM(HuberT()).fit()
+  // reaches with its defaults (scale_est 'mad', update_scale). Must be >= 0
+  // and finite. Ignored for least squares.
   double robust_scale = 0.0;
   // Weights defining the reference: the log parities are normalised so that
   // sum_r w_r a_r = 0. Empty (default) means the plain mean over regions
@@ -56,12 +84,12 @@ struct CpdOptions {
   // renormalised to sum to 1; when they are all 0 the plain mean is used and
   // the result's message says so.
   std::vector<double> reference_weights;
-  // Computes the classic standard errors sqrt(sigma^2 c'(X'WX)^- c) of each
-  // a_r - sum w a (default true).
+  // Computes the standard errors of each a_r - sum w a (default true):
+  // least squares: classic sqrt(sigma^2 l'(X'WX)^- l); robust loss: Huber's
+  // sandwich (see CpdResult::log_se).
   bool compute_standard_errors = true;
-  // Also computes the heteroskedasticity-robust (sandwich, HC0) errors
-  // (default false).
-  bool compute_robust_standard_errors = false;
+  // Also computes sandwich errors of this kind (default off).
+  RobustErrors robust_errors = RobustErrors::kOff;
 
   // Returns false and sets `error` when a field is out of range, e.g.
   // "robust_scale is -1; it must be 0 (estimate it) or a positive number of
@@ -78,10 +106,21 @@ struct CpdResult {
   Eigen::VectorXd item_effect;
   // Standard error of each log parity relative to the reference, in log
   // points; NaN when not computed or not estimable (no residual degrees of
-  // freedom for log_se). For a robust loss both are those of the weighted
-  // least-squares fit with the final iteratively reweighted weights
-  // w x rho'(w e^2) (common practice).
+  // freedom).
+  // Least squares: classic, sqrt(sigma2 l'(X'WX)^- l).
+  // Robust loss: Huber's sandwich (Huber 1973, "Robust regression",
+  // Annals of Statistics 1, 799-821; Huber 1981, Robust Statistics, ch. 7:
+  // the first of his three estimates, statsmodels' RLM cov='H1'): with
+  // z_k = sqrt(w_k) e_k / s, psi the loss's derivative, n cells and
+  // p = regions + items - 1,
+  //   var = K^2 [sum psi(z)^2 / (n - p)] s^2 / [mean psi'(z)]^2 l'(X'WX)^- l,
+  //   K = 1 + (p / n) var(psi'(z)) / mean(psi'(z))^2,
+  // X'WX with the cell weights (not the reweighted ones); NaN when
+  // mean psi'(z) = 0.
   Eigen::VectorXd log_se;
+  // Sandwich errors of CpdOptions::robust_errors; for a robust loss those of
+  // the weighted least-squares fit with the final reweighted weights
+  // w x psi(z)/z (common practice).
   Eigen::VectorXd log_se_robust;
   // Fitted ln price and residual (ln p - fitted) of each cell, in the order
   // given; NaN when not identified.
@@ -91,8 +130,11 @@ struct CpdResult {
   // effective weights for a robust loss; NaN when degrees_of_freedom <= 0.
   double sigma2 = 0.0;
   int degrees_of_freedom = 0;
-  // Robust loss scale used (log points); 0 for least squares.
+  // Robust loss threshold c x s at the end of the fit (log points); 0 for
+  // least squares.
   double robust_scale_used = 0.0;
+  // Reweighted fits after the least-squares start (robust loss only).
+  int num_robust_iterations = 0;
   int num_cells = 0;
   int num_regions_present = 0;
   int num_items_present = 0;

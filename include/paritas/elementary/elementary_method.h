@@ -27,13 +27,15 @@ struct ElementaryOptions {
   std::string method = "cpd";
   // CPD weight of a representative cell (others weigh 1); 1 = unweighted.
   double representative_weight = 1.0;
-  // Loss of robust-cpd (Huber by default) and its scale in log points
-  // (<= 0: estimated robustly).
+  // Loss of robust-cpd (Huber by default) and its threshold in log points
+  // (0: c x a scale re-estimated as the fit iterates; see CpdOptions).
   CpdLoss robust_loss = CpdLoss::kHuber;
   double robust_scale = 0.0;
-  // Standard errors of CPD parities (classic, and HC0 sandwich).
+  // Standard errors of CPD parities (classic for cpd, Huber's sandwich for
+  // robust-cpd), and the sandwich errors of log_se_robust (default hc1, as
+  // RunConfig::robust_errors says why; see RobustErrors in cpd.h).
   bool compute_standard_errors = true;
-  bool compute_robust_standard_errors = false;
+  RobustErrors robust_errors = RobustErrors::kHc1;
 
   // False, with a message, for an unknown method or a weight that is not a
   // positive number.

@@ -22,6 +22,29 @@
 
 namespace paritas {
 
+// How the bootstrap draws each heading's n items (n = items with prices).
+//   kRescaled (default): n - 1 draws with replacement, the rescaled
+//     bootstrap of Rao and Wu (1988, "Resampling inference with complex
+//     survey data", JASA 83, 231-241) with m_h = n_h - 1. Rao and Wu
+//     rescale each drawn value's deviation from its stratum mean by
+//     sqrt(m_h / (n_h - 1)) (for a linear statistic, the same as rescaling
+//     the replicate's deviation from the full-sample estimate); the factor
+//     is 1 for m_h = n_h - 1 in every heading, so the replicate's ln
+//     parities (headings and aggregates) are used as computed,
+//       ln p~*_b = ln p^ + sqrt((n - 1)/(n - 1)) (ln p*_b - ln p^) = ln p*_b.
+//     For a mean over items the replicate variance is then s^2 / n, which
+//     is unbiased (the jackknife's (n - 1)/n sum (theta_(i) - mean)^2 gives
+//     the same); n draws give (n - 1)/n s^2 / n, biased low. A heading with
+//     one item keeps it (n - 1 = 0 draws would leave no parity); it adds no
+//     variance, as in the jackknife.
+//   kPlain: n draws with replacement (Efron 1979), biased low by a factor
+//     sqrt((n - 1)/n) in standard error for a mean over items.
+enum class BootstrapKind { kRescaled, kPlain };
+// "rescaled", "plain".
+std::string ToString(BootstrapKind kind);
+// Case-insensitive; returns false for unknown names.
+bool FromString(const std::string& text, BootstrapKind* kind);
+
 struct SensitivityOptions {
   // Bootstrap replicates B, a whole number from 2 to 100,000 (default 500).
   int replicates = 500;
@@ -29,6 +52,12 @@ struct SensitivityOptions {
   // its own stream derived from (seed, b), so output does not depend on the
   // number of threads.
   uint64_t seed = 1;
+  // Draws of the bootstrap (default rescaled; see BootstrapKind).
+  BootstrapKind bootstrap = BootstrapKind::kRescaled;
+  // Keeps every replicate's ln parities in SensitivityResult::boot_log_parity
+  // and writes them (replicates.bin, replicates_key.csv; see
+  // ReplicatesBinary). Default false.
+  bool write_replicates = false;
   // Level of the percentile intervals, in (0, 1) exclusive (default 0.95).
   double level = 0.95;
   // Shares of each heading's items kept in the coverage curve, each in
@@ -118,6 +147,11 @@ struct SensitivityResult {
   Eigen::MatrixXi boot_rank_low;
   Eigen::MatrixXi boot_rank_high;
   Eigen::MatrixXi boot_num_replicates;
+  // Every replicate's ln parity (normalised like the full sample; NaN where
+  // the region had none), index (node x num_regions + region) x B +
+  // replicate; empty unless SensitivityOptions::write_replicates.
+  std::vector<double> boot_log_parity;
+  int boot_num_replicates_kept = 0;  // B when boot_log_parity is filled
 
   // Leave one out. Jackknife standard error of ln parity, stratified by
   // heading: var = sum over the node's headings h of (n_h - 1) / n_h x
@@ -221,6 +255,19 @@ double PercentileType7(const std::vector<double>& sorted_values, double p);
 // sensitivity/bootstrap.csv: node,region,parity,median,lower,upper,log_se,
 // rank_low,rank_high,num_replicates.
 std::string BootstrapCsv(const Survey& survey, const SensitivityResult& result);
+// sensitivity/replicates.bin: every bootstrap replicate's ln parities,
+// little-endian. A 24-byte header: the 8 bytes "PRTSREP1", then four
+// uint32: num_nodes, num_regions, num_replicates, and 0 (reserved); then
+// num_nodes x num_regions x num_replicates IEEE-754 binary64 values, ln
+// parity of (node n, region r, replicate b) at index
+// (n x num_regions + r) x num_replicates + b, NaN where the region had no
+// parity. Nodes in classification order, regions in survey order, as
+// ReplicatesKeyCsv lists them. Empty when no replicates were kept.
+std::string ReplicatesBinary(const SensitivityResult& result);
+// sensitivity/replicates_key.csv: kind,index,code with one row per node
+// (kind "node") and per region (kind "region"), giving the codes of the
+// indices of replicates.bin.
+std::string ReplicatesKeyCsv(const Survey& survey);
 // sensitivity/leave_one_out.csv: node,region,parity,jackknife_log_se,
 // item_log_change,item,num_items_lost,heading_log_change,heading.
 std::string LeaveOneOutCsv(const Survey& survey, const SensitivityResult& result);

@@ -68,7 +68,7 @@ CpdResult FitCells(const HeadingInput& input, const CellBuffers& cells, CpdLoss 
   cpd.robust_scale = input.options->robust_scale;
   if (input.normalise) cpd.reference_weights.assign(input.reference_weights.begin(), input.reference_weights.end());
   cpd.compute_standard_errors = input.options->compute_standard_errors;
-  cpd.compute_robust_standard_errors = input.options->compute_robust_standard_errors;
+  cpd.robust_errors = input.options->robust_errors;
   return FitCpd(data, cpd);
 }
 

@@ -38,7 +38,7 @@ bool FitWithDummy(const HeadingInput& input, CellBuffers* cells, const CpdResult
   dummy.log_price = cells->representative;
   ElementaryOptions quiet = *input.options;
   quiet.compute_standard_errors = false;
-  quiet.compute_robust_standard_errors = false;
+  quiet.robust_errors = RobustErrors::kOff;
   HeadingInput dummy_input = input;
   dummy_input.options = &quiet;
   const CpdResult on_dummy = FitCells(dummy_input, dummy, CpdLoss::kLeastSquares);
@@ -105,7 +105,7 @@ void Cprd::Compute(const HeadingInput& input, HeadingParities* out) const {
   // resampling multiplicity).
   ElementaryOptions options = *input.options;
   options.representative_weight = 1.0;
-  options.compute_robust_standard_errors = false;
+  options.robust_errors = RobustErrors::kOff;
   HeadingInput own = input;
   own.options = &options;
   thread_local CellBuffers cells;
