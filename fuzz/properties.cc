@@ -756,14 +756,14 @@ std::string CheckSurveyLoader(std::string_view data, const std::string& work_dir
   const std::vector<std::string_view> sections = Sections(data);
   auto section = [&](size_t i) { return i < sections.size() ? sections[i] : std::string_view(); };
   RunConfig config;
-  config.survey.prices = work_dir + "/prices.csv";
+  config.survey.prices = {PriceSource{work_dir + "/prices.csv", CsvFormat(), {}}};
   config.survey.expenditure = work_dir + "/expenditure.csv";
   std::string error;
   auto write = [&](const std::string& path, std::string_view contents) {
     if (!WriteFile(path, contents, &error)) return false;
     return true;
   };
-  if (!write(config.survey.prices, section(0)) ||
+  if (!write(config.survey.prices[0].path, section(0)) ||
       !write(config.survey.expenditure, sections.size() > 1 && !section(1).empty()
                                             ? section(1)
                                             : "region,heading,expenditure\nr1,h1,1\n")) {
@@ -841,8 +841,8 @@ std::string CheckSurveyLoader(std::string_view data, const std::string& work_dir
   }
 
   // Block-size equivalence, on prices.csv padded past the smallest block.
-  config.survey.prices = work_dir + "/prices_padded.csv";
-  if (!write(config.survey.prices, PadPastFirstBlock(section(0)))) {
+  config.survey.prices = {PriceSource{work_dir + "/prices_padded.csv", CsvFormat(), {}}};
+  if (!write(config.survey.prices[0].path, PadPastFirstBlock(section(0)))) {
     return "cannot write prices_padded.csv: " + error;
   }
   Survey one_block, small_blocks;

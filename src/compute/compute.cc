@@ -96,6 +96,8 @@ ComputeOptions ComputeOptions::FromConfig(const RunConfig& config) {
   ComputeOptions options;
   options.elementary.method = config.elementary;
   options.elementary.representative_weight = config.representative_weight;
+  options.elementary.quote_weighted_cells =
+      config.cpd_cell_weights == CpdCellWeights::kQuoteWeights;
   options.elementary.compute_robust_standard_errors = config.robust_standard_errors;
   options.aggregation = config.aggregation;
   options.reference = config.reference;

@@ -6,6 +6,7 @@
 
 #include <cstdint>
 #include <string>
+#include <utility>
 #include <vector>
 
 #include "paritas/survey/config.h"
@@ -22,7 +23,7 @@ enum class RejectionCause {
 
 // A data row left out of the survey.
 struct RejectedRow {
-  std::string file;    // path as given in the configuration
+  std::string file;    // path as given in the configuration (the price file of the row)
   int64_t line = 0;    // 1-based line on which the row starts
   std::string reason;  // full message, e.g. "prices.csv:118:3: price '-4.10' is not a positive number"
   std::string raw;     // the row's text as read
@@ -62,6 +63,7 @@ struct HeadingConflict {
     std::string heading;
     int64_t num_rows = 0;  // rows rejected for stating it
     int64_t first_line = 0;
+    std::string file;  // the price file of first_line; empty = Describe's prices_path
   };
   std::vector<Other> others;  // in order of first appearance
 
@@ -88,6 +90,9 @@ struct InputFileSummary {
   int64_t rows_rejected_by_cascade = 0;
   // Header columns that paritas does not use, in header order.
   std::vector<std::string> ignored_columns;
+  // Price files: survey.prices' column mapping (our name -> the file's
+  // header), empty when the headers are ours.
+  std::vector<std::pair<std::string, std::string>> columns;
 };
 
 struct LoadOptions {
