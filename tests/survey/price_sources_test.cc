@@ -8,6 +8,7 @@
 #include <string>
 #include <vector>
 
+#include "paritas/base/text.h"
 #include "paritas/survey/survey_loader.h"
 #include "test_util.h"
 
@@ -415,6 +416,87 @@ TEST(Quantities, AnInvalidReferenceQuantityIsARowErrorOfItemsCsv) {
   ASSERT_FALSE(summary.rejected_rows.empty());
   EXPECT_EQ(summary.rejected_rows[0].reason,
             s.config.survey.items + ":2:3: reference_quantity '-1' is not a positive number");
+}
+
+// ---------------------------------------------------------------------------
+// The configuration.
+
+RunConfig ParseConfig(const std::string& yaml, std::string* error) {
+  RunConfig config;
+  *error = "";
+  ParseRunConfig(yaml, "/cfg/run.yaml", &config, error);
+  return config;
+}
+
+TEST(PriceSourcesConfig, ReadsAListOfPathsAndMappingsWithColumns) {
+  std::string error;
+  const RunConfig config = ParseConfig(
+      "survey:\n"
+      "  prices:\n"
+      "    - main.csv\n"
+      "    - {path: rent.csv, columns: {region: area_code, price: amount}}\n"
+      "    - path: tariffs.csv\n"
+      "      delimiter: ';'\n"
+      "      decimal: ','\n"
+      "  expenditure: e.csv\n"
+      "cpd_cell_weights: Quote-Weights\n",
+      &error);
+  ASSERT_EQ(error, "");
+  ASSERT_EQ(config.survey.prices.size(), 3u);
+  EXPECT_EQ(config.survey.prices[0].path, "/cfg/main.csv");
+  EXPECT_EQ(config.survey.prices[1].path, "/cfg/rent.csv");
+  EXPECT_EQ(config.survey.prices[1].HeaderOf("region"), "area_code");
+  EXPECT_EQ(config.survey.prices[1].HeaderOf("price"), "amount");
+  EXPECT_EQ(config.survey.prices[1].HeaderOf("item"), "item");
+  EXPECT_EQ(config.survey.prices[2].format.delimiter, ';');
+  EXPECT_EQ(config.survey.prices[2].format.decimal, ',');
+  EXPECT_EQ(config.cpd_cell_weights, CpdCellWeights::kQuoteWeights);
+  EXPECT_EQ(RunConfig().cpd_cell_weights, CpdCellWeights::kEqual);
+}
+
+TEST(PriceSourcesConfig, RefusesBadListsAndMappingsNamingTheKey) {
+  std::string error;
+  ParseConfig("survey:\n  prices: []\n  expenditure: e.csv\n", &error);
+  EXPECT_EQ(error, "/cfg/run.yaml:2:11: 'survey.prices' lists no files");
+  ParseConfig("survey:\n  prices: [a.csv, b.csv, a.csv]\n  expenditure: e.csv\n", &error);
+  EXPECT_EQ(error,
+            "/cfg/run.yaml:2:26: survey.prices[2] '/cfg/a.csv' is already listed as "
+            "survey.prices[0]");
+  ParseConfig("survey:\n  prices: [a.csv, {path: b.csv, columns: {prise: cost}}]\n"
+              "  expenditure: e.csv\n",
+              &error);
+  EXPECT_EQ(error,
+            "/cfg/run.yaml:2:43: unknown key 'survey.prices[1].columns.prise'; did you mean "
+            "'survey.prices[1].columns.price'?");
+  ParseConfig("survey:\n  prices: {path: b.csv, columns: {region: item}}\n  expenditure: e.csv\n",
+              &error);
+  EXPECT_EQ(error,
+            "/cfg/run.yaml:2:34: survey.prices.columns: columns 'region' and 'item' would both "
+            "read the file's column 'item'");
+  ParseConfig("survey:\n  prices: {path: b.csv, columns: [region]}\n  expenditure: e.csv\n",
+              &error);
+  EXPECT_EQ(error,
+            "/cfg/run.yaml:2:34: 'survey.prices.columns' must be a mapping of our column names "
+            "to the file's headers, e.g. {region: area_code, price: amount}");
+  ParseConfig("survey:\n  prices: [a.csv, {delimiter: ';'}]\n  expenditure: e.csv\n", &error);
+  EXPECT_EQ(error, "/cfg/run.yaml:2:19: missing key 'survey.prices[1].path'");
+  ParseConfig("survey:\n  prices: a.csv\n  expenditure: e.csv\ncpd_cell_weights: quantity\n",
+              &error);
+  EXPECT_EQ(error,
+            "/cfg/run.yaml:4:19: cpd_cell_weights 'quantity' is not one of: equal, "
+            "quote-weights");
+}
+
+TEST(PriceSourcesConfig, CpdCellWeightsNamesReadBackCaseInsensitively) {
+  for (const std::string& name : CpdCellWeightsNames()) {
+    CpdCellWeights value = CpdCellWeights::kEqual;
+    ASSERT_TRUE(FromString(ToLower(name) == name ? " " + name + " " : name, &value));
+    EXPECT_EQ(ToString(value), name);
+  }
+  CpdCellWeights value;
+  EXPECT_TRUE(FromString("EQUAL", &value));
+  EXPECT_EQ(value, CpdCellWeights::kEqual);
+  EXPECT_FALSE(FromString("sum", &value));
 }
 
 }  // namespace
