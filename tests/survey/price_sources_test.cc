@@ -9,6 +9,7 @@
 #include <vector>
 
 #include "paritas/base/text.h"
+#include "paritas/elementary/elementary.h"
 #include "paritas/survey/survey_loader.h"
 #include "test_util.h"
 
@@ -299,6 +300,32 @@ TEST(QuoteWeights, AQuoteOfAFileWithoutWeightsWeighsOne) {
   EXPECT_NEAR(survey.cells.log_price[k], 1.5 * std::log(2.0), 1e-15);
   EXPECT_EQ(survey.cells.weight[k], 4.0);
   EXPECT_EQ(survey.cells.weight[CellOf(survey, "south", "milk")], 1.0);
+}
+
+TEST(QuoteWeights, CpdWeighsCellsBySumsOfQuoteWeightsOnlyWhenAsked) {
+  // Two regions, two items. Minimising sum_i [w_ni (y_ni - a_n - b_i)^2 +
+  // w_si (y_si - a_s - b_i)^2] over b_i leaves h_i (d_i - (a_s - a_n))^2 with
+  // d_i = y_si - y_ni and h_i = w_ni w_si / (w_ni + w_si), so a_s - a_n =
+  // sum h_i d_i / sum h_i (derived here). Cell weights: bread 4 (north) and 2
+  // (south), h = 4/3; milk 1 and 1, h = 1/2. Unweighted: the mean of d.
+  const Sources s = MakeSources("cpd_cell_weights", {{"prices.csv",
+                                                      "region,item,price,heading,weight\n"
+                                                      "north,bread,2,food,1\n"
+                                                      "north,bread,8,food,3\n"
+                                                      "south,bread,3,food,2\n"
+                                                      "north,milk,1.0,food,1\n"
+                                                      "south,milk,1.5,food,1\n"}});
+  Survey survey;
+  ASSERT_EQ(Load(s.config, &survey).outcome, LoadOutcome::kOk);
+  const double d_bread = std::log(3.0) - 2.5 * std::log(2.0), d_milk = std::log(1.5);
+  const int north = survey.regions.Find("north"), south = survey.regions.Find("south");
+  ElementaryOptions options;
+  HeadingParities equal = ComputeHeadingParities(survey, 0, options, {});
+  EXPECT_NEAR(equal.log_parity[south] - equal.log_parity[north], (d_bread + d_milk) / 2, 1e-12);
+  options.quote_weighted_cells = true;
+  HeadingParities weighted = ComputeHeadingParities(survey, 0, options, {});
+  EXPECT_NEAR(weighted.log_parity[south] - weighted.log_parity[north],
+              (4.0 / 3 * d_bread + 0.5 * d_milk) / (4.0 / 3 + 0.5), 1e-12);
 }
 
 // A price file of one bad row 3 after a good one.
