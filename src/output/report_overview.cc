@@ -97,8 +97,14 @@ std::string InputFiles(const Context& ctx) {
       "class=\"num\">rejected</th><th>SHA-256</th></tr></thead><tbody>";
   for (const InputFileSummary& f : ctx.in.load->files) {
     if (!f.given) continue;
-    out += "<tr><td>" + HtmlEscape(f.role) + "</td><td><code>" + HtmlEscape(f.path) +
-           "</code></td><td class=\"num\">" + FormatCount(f.rows_read) + "</td><td class=\"num\">" +
+    std::string mapped;
+    for (const auto& [ours, header] : f.columns) {
+      mapped += (mapped.empty() ? "<br><small>columns: " : ", ") + HtmlEscape(ours) + " from <code>" +
+                HtmlEscape(header) + "</code>";
+    }
+    if (!mapped.empty()) mapped += "</small>";
+    out += "<tr><td>" + HtmlEscape(f.role) + "</td><td><code>" + HtmlEscape(f.path) + "</code>" +
+           mapped + "</td><td class=\"num\">" + FormatCount(f.rows_read) + "</td><td class=\"num\">" +
            FormatCount(f.rows_used) + "</td><td class=\"num\">" + FormatCount(f.rows_rejected) +
            "</td><td><code title=\"" + HtmlEscape(f.sha256) + "\">" +
            HtmlEscape(f.sha256.substr(0, 12)) + "\xE2\x80\xA6</code></td></tr>";

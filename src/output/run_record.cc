@@ -109,6 +109,12 @@ std::string RunRecordJson(const RunRecord& record) {
                         {"rows_rejected", file.rows_rejected},
                         {"rows_rejected_by_cascade", file.rows_rejected_by_cascade},
                         {"ignored_columns", ValidTexts(file.ignored_columns)}});
+      // Only for a price file read through a column mapping.
+      if (!file.columns.empty()) {
+        Json columns = Json::object();
+        for (const auto& [ours, header] : file.columns) columns[ours] = ValidUtf8(header);
+        inputs.back()["columns"] = columns;
+      }
     }
     out["inputs"] = inputs;
     out["rows_rejected"] = record.load->num_rows_rejected;
@@ -135,7 +141,9 @@ std::string RunRecordJson(const RunRecord& record) {
                      {"num_cells", s.cells.size()}};
   }
   if (record.config != nullptr) {
-    out["methods"] = {{"cell_price", "geometric mean of the quotes"},
+    const bool weighted = record.survey != nullptr && !record.survey->cells.weight.empty();
+    out["methods"] = {{"cell_price", weighted ? "geometric mean of the quotes weighted by their weight"
+                                              : "geometric mean of the quotes"},
                       {"elementary", record.config->elementary},
                       {"aggregation", record.config->aggregation},
                       {"reference", record.config->reference.ToString()}};
