@@ -475,9 +475,9 @@ std::string SurveyDifference(const Survey& a, const Survey& b) {
 
 // A survey that loaded holds as many quotes as prices.csv used.
 std::string SurveyProblem(const Survey& survey, const LoadSummary& summary) {
-  int64_t quotes_used = -1;
+  int64_t quotes_used = 0;
   for (const InputFileSummary& file : summary.files) {
-    if (file.role == "prices") quotes_used = file.rows_used;
+    if (file.role == "prices") quotes_used += file.rows_used;
   }
   if (survey.num_quotes != quotes_used) {
     return "survey holds " + Str(survey.num_quotes) + " quotes, prices.csv used " +
@@ -777,6 +777,11 @@ std::string CheckSurveyLoader(std::string_view data, const std::string& work_dir
     config.survey.items = work_dir + "/items.csv";
     if (!write(config.survey.items, section(3))) return "cannot write items.csv: " + error;
   }
+  // A sixth section is a second price file, read after the first.
+  if (!section(5).empty()) {
+    config.survey.prices.push_back(PriceSource{work_dir + "/prices_2.csv", CsvFormat(), {}});
+    if (!write(config.survey.prices[1].path, section(5))) return "cannot write prices_2.csv: " + error;
+  }
   if (!section(4).empty()) {
     try {
       config.has_classification = Classification::FromYaml(
@@ -841,7 +846,7 @@ std::string CheckSurveyLoader(std::string_view data, const std::string& work_dir
   }
 
   // Block-size equivalence, on prices.csv padded past the smallest block.
-  config.survey.prices = {PriceSource{work_dir + "/prices_padded.csv", CsvFormat(), {}}};
+  config.survey.prices[0] = PriceSource{work_dir + "/prices_padded.csv", CsvFormat(), {}};
   if (!write(config.survey.prices[0].path, PadPastFirstBlock(section(0)))) {
     return "cannot write prices_padded.csv: " + error;
   }
