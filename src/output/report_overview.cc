@@ -64,6 +64,13 @@ std::string Facts(const Context& ctx) {
     if (c.representative_weight != 1.0) {
       fact("Representative items", "weight " + Num(c.representative_weight, 2) + " in CPD");
     }
+    if (!ctx.survey.cells.weight.empty()) {
+      fact("Quote weights",
+           std::string("weighted geometric means in the cells; CPD cells ") +
+               (c.cpd_cell_weights == CpdCellWeights::kQuoteWeights
+                    ? "weighted by their sums of quote weights"
+                    : "weigh alike"));
+    }
     fact("Invalid rows", HtmlEscape(ToString(c.invalid_rows)));
     if (!c.config_path.empty()) {
       fact("Configuration", "<code>" + HtmlEscape(c.config_path) + "</code>");

@@ -11,7 +11,6 @@
 #include <cstring>
 #include <filesystem>
 #include <limits>
-#include <numeric>
 #include <string>
 #include <unordered_map>
 #include <vector>
@@ -451,20 +450,19 @@ class ChunkParser {
     if (!has_quantity_) return true;
     double quantity = 0.0;
     if (!ReadPositive(columns_.quantity, "quantity", &quantity)) return false;
-    double reference = info->reference_quantity;
-    if (std::isnan(reference)) {
-      reference = 1.0;
-      info->quantity_without_reference = true;
-      ++out_->num_rows_without_reference;
-    }
+    const bool without_reference = std::isnan(info->reference_quantity);
+    const double reference = without_reference ? 1.0 : info->reference_quantity;
     const double converted = *price * reference / quantity;
     if (!(converted > 0) || !std::isfinite(converted)) {
       Reject(columns_.quantity + 1,
              "price " + QuoteValue(Trim(record_.fields[columns_.price])) + " for quantity " +
                  QuoteValue(Trim(record_.fields[columns_.quantity])) +
                  " is out of range at the reference quantity (found " + Shortest(converted) + ")");
-      if (std::isnan(info->reference_quantity)) --out_->num_rows_without_reference;
       return false;
+    }
+    if (without_reference) {
+      info->quantity_without_reference = true;
+      ++out_->num_rows_without_reference;
     }
     *price = converted;
     return true;

@@ -133,5 +133,32 @@ TEST(SourcesCli, ABadRowInTheSecondFileStopsTheRunNamingItsFileAndLine) {
   EXPECT_NE(err.find(dir + "/rent.csv:8:3: price 'x' is not a number"), std::string::npos) << err;
 }
 
+TEST(SourcesCli, QuoteWeightsAreRecordedInRunJsonAndTheReport) {
+  const std::string dir = WriteRun(
+      "weights",
+      {{"scan.csv",
+        "region,item,price,heading,weight,quantity\n"
+        "AAR,rye,1.50,bakery,120,750\nBEL,rye,3.0,bakery,80,1000\nCIR,rye,2.5,bakery,95,1000\n"
+        "AAR,bun,1.0,bakery,40,1\nBEL,bun,1.5,bakery,60,1\nCIR,bun,1.1,bakery,10,1\n"},
+       {"main.csv", std::string("region,item,price,heading\n") + kRentRows}},
+      "\n    - scan.csv\n    - main.csv\n", "cpd_cell_weights: quote-weights\n");
+  std::string out, err;
+  ASSERT_EQ(RunCli("compute '" + dir + "/run.yaml'", &out, &err), 0) << err;
+  const auto record = nlohmann::json::parse(ReadTextFile(dir + "/out/run.json"));
+  EXPECT_EQ(record["configuration"]["cpd_cell_weights"], "quote-weights");
+  EXPECT_EQ(record["methods"]["cell_price"], "geometric mean of the quotes weighted by their weight");
+  // No items.csv, so no reference_quantity: priced per 1 unit, with a warning.
+  EXPECT_NE(ReadTextFile(dir + "/out/warnings.csv")
+                .find("input,,,\"prices of 2 items (rye, bun; 6 quotes) are per 1 unit of their "
+                      "quantity column: no items file (survey.items) gives a reference_quantity; "
+                      "parities do not depend on this unless some quotes of the item carry no "
+                      "quantity\""),
+            std::string::npos);
+  const std::string report = ReadTextFile(dir + "/out/report.html");
+  EXPECT_NE(report.find("<th scope=\"row\">Quote weights</th><td>weighted geometric means in the "
+                        "cells; CPD cells weighted by their sums of quote weights</td>"),
+            std::string::npos);
+}
+
 }  // namespace
 }  // namespace paritas
