@@ -780,7 +780,9 @@ std::string CheckSurveyLoader(std::string_view data, const std::string& work_dir
   // A sixth section is a second price file, read after the first.
   if (!section(5).empty()) {
     config.survey.prices.push_back(PriceSource{work_dir + "/prices_2.csv", CsvFormat(), {}});
-    if (!write(config.survey.prices[1].path, section(5))) return "cannot write prices_2.csv: " + error;
+    if (!write(config.survey.prices[1].path, section(5))) {
+      return "cannot write prices_2.csv: " + error;
+    }
   }
   if (!section(4).empty()) {
     try {

@@ -56,7 +56,9 @@ std::string FilesReport(const LoadSummary& load) {
     out += "\n";
     if (!file.columns.empty()) {
       std::vector<std::string> mapped;
-      for (const auto& [ours, header] : file.columns) mapped.push_back(ours + " from " + QuoteValue(header));
+      for (const auto& [ours, header] : file.columns) {
+        mapped.push_back(ours + " from " + QuoteValue(header));
+      }
       out += "  " + Pad("", 12) + "columns: " + JoinNames(mapped) + "\n";
     }
     if (!file.ignored_columns.empty()) {

@@ -106,12 +106,13 @@ std::string InputFiles(const Context& ctx) {
     if (!f.given) continue;
     std::string mapped;
     for (const auto& [ours, header] : f.columns) {
-      mapped += (mapped.empty() ? "<br><small>columns: " : ", ") + HtmlEscape(ours) + " from <code>" +
-                HtmlEscape(header) + "</code>";
+      mapped += (mapped.empty() ? "<br><small>columns: " : ", ") + HtmlEscape(ours) +
+                " from <code>" + HtmlEscape(header) + "</code>";
     }
     if (!mapped.empty()) mapped += "</small>";
     out += "<tr><td>" + HtmlEscape(f.role) + "</td><td><code>" + HtmlEscape(f.path) + "</code>" +
-           mapped + "</td><td class=\"num\">" + FormatCount(f.rows_read) + "</td><td class=\"num\">" +
+           mapped + "</td><td class=\"num\">" + FormatCount(f.rows_read) +
+           "</td><td class=\"num\">" +
            FormatCount(f.rows_used) + "</td><td class=\"num\">" + FormatCount(f.rows_rejected) +
            "</td><td><code title=\"" + HtmlEscape(f.sha256) + "\">" +
            HtmlEscape(f.sha256.substr(0, 12)) + "\xE2\x80\xA6</code></td></tr>";

@@ -142,8 +142,9 @@ std::string RunRecordJson(const RunRecord& record) {
   }
   if (record.config != nullptr) {
     const bool weighted = record.survey != nullptr && !record.survey->cells.weight.empty();
-    out["methods"] = {{"cell_price", weighted ? "geometric mean of the quotes weighted by their weight"
-                                              : "geometric mean of the quotes"},
+    out["methods"] = {{"cell_price", weighted
+                                         ? "geometric mean of the quotes weighted by their weight"
+                                         : "geometric mean of the quotes"},
                       {"elementary", record.config->elementary},
                       {"aggregation", record.config->aggregation},
                       {"reference", record.config->reference.ToString()}};
@@ -210,8 +211,8 @@ std::vector<std::string> RunDifferences(const std::string& this_json, const std:
   std::vector<std::string> out;
   if (a.is_discarded() || b.is_discarded()) return {"a run record is not valid JSON"};
   auto text = [](const Json& v) { return v.is_string() ? v.get<std::string>() : v.dump(); };
-  for (const char* key : {"reference", "elementary", "aggregation", "invalid_rows", "representative_weight",
-                          "cpd_cell_weights"}) {
+  for (const char* key : {"reference", "elementary", "aggregation", "invalid_rows",
+                          "representative_weight", "cpd_cell_weights"}) {
     const Json x = a.value("configuration", Json::object()).value(key, Json());
     const Json y = b.value("configuration", Json::object()).value(key, Json());
     if (x != y) out.push_back(std::string(key) + ": " + text(x) + " in this run, " + text(y) + " in the other");

@@ -1,8 +1,8 @@
 // End-to-end runs with several price files: the parities equal those of one
 // concatenated file byte for byte, and run.json, the report, rejected.csv and
 // `check` account for each file. Invented data, one folder per case.
-#include <nlohmann/json.hpp>
 #include <cstdio>
+#include <nlohmann/json.hpp>
 #include <string>
 #include <utility>
 #include <vector>
@@ -36,7 +36,8 @@ const char kRentRegister[] =
     "AAR;house;900;housing\nBEL;house;1100;housing\nCIR;house;700;housing\n";
 
 // Writes expenditure.csv, the files given and run.yaml; returns the folder.
-std::string WriteRun(const std::string& name, const std::vector<std::pair<std::string, std::string>>& files,
+std::string WriteRun(const std::string& name,
+                     const std::vector<std::pair<std::string, std::string>>& files,
                      const std::string& prices_yaml, const std::string& extra = "") {
   const std::string dir = MakeTempDir("cli_sources_" + name);
   WriteTextFile(dir + "/expenditure.csv", kExpenditure);
@@ -97,7 +98,8 @@ TEST(SourcesCli, RunRecordReportAndCheckListEachFile) {
   EXPECT_EQ(record["configuration"]["survey"]["prices"][1]["path"], dir + "/rent.csv");
   const std::string report = ReadTextFile(dir + "/out/report.html");
   EXPECT_NE(report.find("<code>" + dir + "/main.csv</code>"), std::string::npos);
-  EXPECT_NE(report.find("<code>" + dir + "/rent.csv</code><br><small>columns: region from "
+  EXPECT_NE(report.find("<code>" + dir +
+                        "/rent.csv</code><br><small>columns: region from "
                         "<code>area_code</code>, item from <code>dwelling</code>, price from "
                         "<code>rent_month</code></small>"),
             std::string::npos);
@@ -111,23 +113,24 @@ TEST(SourcesCli, RunRecordReportAndCheckListEachFile) {
 }
 
 TEST(SourcesCli, RejectedCsvNamesTheFileOfEachRow) {
-  const std::string dir = WriteRun(
-      "rejected",
-      {{"main.csv", std::string(kMain) + "CIR,bun,-1,bakery\n"},
-       {"rent.csv", std::string(kRentRegister) + "BEL;flat;;housing\n"}},
-      kTwoSources, "invalid_rows: skip\n");
+  const std::string dir =
+      WriteRun("rejected",
+               {{"main.csv", std::string(kMain) + "CIR,bun,-1,bakery\n"},
+                {"rent.csv", std::string(kRentRegister) + "BEL;flat;;housing\n"}},
+               kTwoSources, "invalid_rows: skip\n");
   std::string out, err;
   ASSERT_EQ(RunCli("compute '" + dir + "/run.yaml'", &out, &err), 0) << err;
   EXPECT_EQ(ReadTextFile(dir + "/out/rejected.csv"),
             "file,line,reason,raw\n" + dir + "/main.csv,8," + dir +
-                "/main.csv:8:3: price '-1' is not a positive number,\"CIR,bun,-1,bakery\"\n" +
-                dir + "/rent.csv,8," + dir + "/rent.csv:8:3: price is empty,BEL;flat;;housing\n");
+                "/main.csv:8:3: price '-1' is not a positive number,\"CIR,bun,-1,bakery\"\n" + dir +
+                "/rent.csv,8," + dir + "/rent.csv:8:3: price is empty,BEL;flat;;housing\n");
 }
 
 TEST(SourcesCli, ABadRowInTheSecondFileStopsTheRunNamingItsFileAndLine) {
-  const std::string dir =
-      WriteRun("stop", {{"main.csv", kMain}, {"rent.csv", std::string(kRentRegister) + "BEL;flat;x;housing\n"}},
-               kTwoSources);
+  const std::string dir = WriteRun(
+      "stop",
+      {{"main.csv", kMain}, {"rent.csv", std::string(kRentRegister) + "BEL;flat;x;housing\n"}},
+      kTwoSources);
   std::string out, err;
   EXPECT_EQ(RunCli("compute '" + dir + "/run.yaml'", &out, &err), 1);
   EXPECT_NE(err.find(dir + "/rent.csv:8:3: price 'x' is not a number"), std::string::npos) << err;
@@ -146,7 +149,8 @@ TEST(SourcesCli, QuoteWeightsAreRecordedInRunJsonAndTheReport) {
   ASSERT_EQ(RunCli("compute '" + dir + "/run.yaml'", &out, &err), 0) << err;
   const auto record = nlohmann::json::parse(ReadTextFile(dir + "/out/run.json"));
   EXPECT_EQ(record["configuration"]["cpd_cell_weights"], "quote-weights");
-  EXPECT_EQ(record["methods"]["cell_price"], "geometric mean of the quotes weighted by their weight");
+  EXPECT_EQ(record["methods"]["cell_price"],
+            "geometric mean of the quotes weighted by their weight");
   // No items.csv, so no reference_quantity: priced per 1 unit, with a warning.
   EXPECT_NE(ReadTextFile(dir + "/out/warnings.csv")
                 .find("input,,,\"prices of 2 items (rye, bun; 6 quotes) are per 1 unit of their "

@@ -387,7 +387,8 @@ TEST(RunConfig, ReadsTheDemoConfiguration) {
   ASSERT_TRUE(LoadRunConfig(SourcePath("config/demo.yaml"), &config, &error)) << error;
   EXPECT_TRUE(config.has_classification);
   EXPECT_EQ(config.classification.headings().size(), 29u);
-  EXPECT_TRUE(std::filesystem::exists(config.survey.prices[0].path)) << config.survey.prices[0].path;
+  EXPECT_TRUE(std::filesystem::exists(config.survey.prices[0].path))
+      << config.survey.prices[0].path;
   EXPECT_TRUE(std::filesystem::exists(config.survey.regions)) << config.survey.regions;
 }
 

@@ -101,24 +101,23 @@ TEST(PriceSources, SeveralFilesGiveExactlyTheCellsOfOneConcatenatedFile) {
   const Sources one = MakeSources("concatenated", {{"prices.csv", kWhole}});
   // The same rows in three files: the second with its own headers (mapped)
   // and column order, the third with semicolons and decimal commas.
-  Sources three = MakeSources(
-      "three", {{"main.csv",
-                 "region,item,price,heading\n"
-                 "north,bread,2.0,food\n"
-                 "north,milk,1.0,food\n"
-                 "south,bread,3.0,food\n"
-                 "south,milk,1.5,food\n"},
-                {"rent.csv",
-                 "amount,area_code,product,heading\n"
-                 "500,north,rent,food\n"
-                 "650,south,rent,food\n"
-                 "420,east,rent,food\n"},
-                {"tariffs.csv",
-                 "region;item;price;heading\n"
-                 "east;milk;1,25;food\n"
-                 "north;milk;1,1;food\n"}});
-  three.config.survey.prices[1].columns = {{"region", "area_code"}, {"item", "product"},
-                                           {"price", "amount"}};
+  Sources three = MakeSources("three", {{"main.csv",
+                                         "region,item,price,heading\n"
+                                         "north,bread,2.0,food\n"
+                                         "north,milk,1.0,food\n"
+                                         "south,bread,3.0,food\n"
+                                         "south,milk,1.5,food\n"},
+                                        {"rent.csv",
+                                         "amount,area_code,product,heading\n"
+                                         "500,north,rent,food\n"
+                                         "650,south,rent,food\n"
+                                         "420,east,rent,food\n"},
+                                        {"tariffs.csv",
+                                         "region;item;price;heading\n"
+                                         "east;milk;1,25;food\n"
+                                         "north;milk;1,1;food\n"}});
+  three.config.survey.prices[1].columns = {
+      {"region", "area_code"}, {"item", "product"}, {"price", "amount"}};
   three.config.survey.prices[2].format = {';', ','};
   Survey a, b;
   Load(one.config, &a);
@@ -212,9 +211,8 @@ TEST(PriceSources, ARowRepeatedInALaterFileIsADuplicateWhateverTheColumnOrder) {
   EXPECT_EQ(summary.num_duplicate_quotes, 1);
   EXPECT_EQ(summary.duplicate_example, s.path(1) + ":2 repeats " + s.path(0) + ":7");
   ASSERT_EQ(summary.rejected_rows.size(), 1u);
-  EXPECT_EQ(summary.rejected_rows[0].reason,
-            s.path(1) + ":2: the row repeats " + s.path(0) +
-                ":7 field for field (duplicate_quotes: reject)");
+  EXPECT_EQ(summary.rejected_rows[0].reason, s.path(1) + ":2: the row repeats " + s.path(0) +
+                                                 ":7 field for field (duplicate_quotes: reject)");
   EXPECT_EQ(summary.files[3].rows_rejected, 1);
   EXPECT_EQ(summary.files[2].rows_rejected, 0);
 }
@@ -231,8 +229,8 @@ TEST(PriceSources, ARowWithAnotherColumnIsNoDuplicate) {
 }
 
 TEST(PriceSources, AFileWithOnlyAHeaderStopsTheLoadNamingIt) {
-  const Sources s = MakeSources("empty_second", {{"main.csv", kWhole},
-                                                 {"rent.csv", "region,item,price,heading\n"}});
+  const Sources s = MakeSources(
+      "empty_second", {{"main.csv", kWhole}, {"rent.csv", "region,item,price,heading\n"}});
   Survey survey;
   EXPECT_EQ(Load(s.config, &survey).message, s.path(1) + ": no data rows (only a header)");
 }
@@ -361,12 +359,13 @@ const char kItems[] =
 TEST(Quantities, ConvertEachPriceToTheReferenceQuantity) {
   // 3.00 for 750 g at reference 1000 g: 3 x 1000 / 750 = 4.00; 2.00 for
   // 500 g: 4.00 too, so the cell is ln 4 with spread 0. Computed here by hand.
-  const Sources s = MakeSources("quantity", {{"prices.csv",
-                                              "region,item,price,heading,quantity\n"
-                                              "north,bread,3.00,food,750\n"
-                                              "north,bread,2.00,food,500\n"
-                                              "south,bread,5.00,food,1000\n"
-                                              "south,milk,1.20,food,1\n"}},
+  const Sources s = MakeSources("quantity",
+                                {{"prices.csv",
+                                  "region,item,price,heading,quantity\n"
+                                  "north,bread,3.00,food,750\n"
+                                  "north,bread,2.00,food,500\n"
+                                  "south,bread,5.00,food,1000\n"
+                                  "south,milk,1.20,food,1\n"}},
                                 kItems);
   Survey survey;
   const LoadSummary summary = Load(s.config, &survey);
@@ -381,11 +380,12 @@ TEST(Quantities, ConvertEachPriceToTheReferenceQuantity) {
 TEST(Quantities, DuplicatesAndOutliersSeeConvertedPrices) {
   // 3.00 for 750 and 4.00 for 1000 are the same price per kilogram but not
   // the same row: no duplicate. Both enter the cell at ln 4.
-  const Sources s = MakeSources("quantity_duplicates", {{"prices.csv",
-                                                         "region,item,price,heading,quantity\n"
-                                                         "north,bread,3.00,food,750\n"
-                                                         "north,bread,4.00,food,1000\n"
-                                                         "north,bread,3.00,food,750\n"}},
+  const Sources s = MakeSources("quantity_duplicates",
+                                {{"prices.csv",
+                                  "region,item,price,heading,quantity\n"
+                                  "north,bread,3.00,food,750\n"
+                                  "north,bread,4.00,food,1000\n"
+                                  "north,bread,3.00,food,750\n"}},
                                 kItems);
   Survey survey;
   const LoadSummary summary = Load(s.config, &survey);
@@ -403,8 +403,7 @@ TEST(Quantities, AMissingOrZeroQuantityIsARowError) {
   EXPECT_EQ(FirstRejection(empty), empty.path(0) + ":3:5: quantity is empty");
   const Sources text = BadRow("quantity_text", header, "south,bread,3,food,750g", kItems);
   EXPECT_EQ(FirstRejection(text), text.path(0) + ":3:5: quantity '750g' is not a number");
-  const Sources range =
-      BadRow("quantity_range", header, "south,bread,1e300,food,1e-300", kItems);
+  const Sources range = BadRow("quantity_range", header, "south,bread,1e300,food,1e-300", kItems);
   EXPECT_EQ(FirstRejection(range),
             range.path(0) +
                 ":3:5: price '1e300' for quantity '1e-300' is out of range at the reference "
@@ -413,11 +412,12 @@ TEST(Quantities, AMissingOrZeroQuantityIsARowError) {
 
 TEST(Quantities, AnItemWithoutReferenceQuantityIsPricedPerUnitWithAWarning) {
   // rye has no reference_quantity: 3.00 for 750 is 0.004 per gram.
-  const Sources s = MakeSources("no_reference", {{"prices.csv",
-                                                  "region,item,price,heading,quantity\n"
-                                                  "north,rye,3.00,food,750\n"
-                                                  "south,rye,2.00,food,400\n"
-                                                  "south,bread,5.00,food,1000\n"}},
+  const Sources s = MakeSources("no_reference",
+                                {{"prices.csv",
+                                  "region,item,price,heading,quantity\n"
+                                  "north,rye,3.00,food,750\n"
+                                  "south,rye,2.00,food,400\n"
+                                  "south,bread,5.00,food,1000\n"}},
                                 "item,heading,reference_quantity\n"
                                 "bread,food,1000\n"
                                 "rye,food,\n");
@@ -489,9 +489,10 @@ TEST(PriceSourcesConfig, RefusesBadListsAndMappingsNamingTheKey) {
   EXPECT_EQ(error,
             "/cfg/run.yaml:2:26: survey.prices[2] '/cfg/a.csv' is already listed as "
             "survey.prices[0]");
-  ParseConfig("survey:\n  prices: [a.csv, {path: b.csv, columns: {prise: cost}}]\n"
-              "  expenditure: e.csv\n",
-              &error);
+  ParseConfig(
+      "survey:\n  prices: [a.csv, {path: b.csv, columns: {prise: cost}}]\n"
+      "  expenditure: e.csv\n",
+      &error);
   EXPECT_EQ(error,
             "/cfg/run.yaml:2:43: unknown key 'survey.prices[1].columns.prise'; did you mean "
             "'survey.prices[1].columns.price'?");

@@ -74,7 +74,9 @@ struct HeadingConflict {
 
 // Accounting for one input file. rows_read = rows_used + rows_rejected.
 struct InputFileSummary {
-  std::string role;  // "regions", "items", "prices" or "expenditure"
+  // "regions", "items", "prices" or "expenditure"; one "prices" entry per
+  // price file, in the order of survey.prices.
+  std::string role;
   std::string path;
   // Delimiter and decimal mark the file was read with.
   CsvFormat format;
@@ -122,9 +124,10 @@ struct LoadSummary {
   // rejected_codes and heading_conflicts).
   std::vector<RejectedRow> rejected_rows;
   int64_t num_rows_rejected = 0;
-  // Quote rows of prices.csv repeating an earlier row field for field (each
-  // repeat counted, the first row not), whatever duplicate_quotes did with
-  // them; and the first such pair, e.g. "prices.csv:57 repeats line 12".
+  // Quote rows repeating an earlier row field for field, in their price file
+  // or an earlier one (each repeat counted, the first row not), whatever
+  // duplicate_quotes did with them; and the first such pair, e.g.
+  // "prices.csv:57 repeats line 12" or "rents.csv:3 repeats prices.csv:40".
   int64_t num_duplicate_quotes = 0;
   std::string duplicate_example;
   DuplicateQuotePolicy duplicate_policy = DuplicateQuotePolicy::kKeep;
@@ -134,6 +137,8 @@ struct LoadSummary {
   std::vector<RejectedCode> rejected_codes;
   // Items filed under more than one heading, in order of the first conflict.
   std::vector<HeadingConflict> heading_conflicts;
+  // Problems that do not reject rows, e.g. quantities of items without a
+  // reference_quantity (taken per 1 unit).
   std::vector<std::string> warnings;
   double read_seconds = 0.0;   // reading and validating all files
   double cells_seconds = 0.0;  // building the cell table
