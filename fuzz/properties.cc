@@ -475,9 +475,9 @@ std::string SurveyDifference(const Survey& a, const Survey& b) {
 
 // A survey that loaded holds as many quotes as prices.csv used.
 std::string SurveyProblem(const Survey& survey, const LoadSummary& summary) {
-  int64_t quotes_used = -1;
+  int64_t quotes_used = 0;
   for (const InputFileSummary& file : summary.files) {
-    if (file.role == "prices") quotes_used = file.rows_used;
+    if (file.role == "prices") quotes_used += file.rows_used;
   }
   if (survey.num_quotes != quotes_used) {
     return "survey holds " + Str(survey.num_quotes) + " quotes, prices.csv used " +
@@ -793,14 +793,14 @@ std::string CheckSurveyLoader(std::string_view data, const std::string& work_dir
   const std::vector<std::string_view> sections = Sections(data);
   auto section = [&](size_t i) { return i < sections.size() ? sections[i] : std::string_view(); };
   RunConfig config;
-  config.survey.prices = work_dir + "/prices.csv";
+  config.survey.prices = {PriceSource{work_dir + "/prices.csv", CsvFormat(), {}}};
   config.survey.expenditure = work_dir + "/expenditure.csv";
   std::string error;
   auto write = [&](const std::string& path, std::string_view contents) {
     if (!WriteFile(path, contents, &error)) return false;
     return true;
   };
-  if (!write(config.survey.prices, section(0)) ||
+  if (!write(config.survey.prices[0].path, section(0)) ||
       !write(config.survey.expenditure, sections.size() > 1 && !section(1).empty()
                                             ? section(1)
                                             : "region,heading,expenditure\nr1,h1,1\n")) {
@@ -813,6 +813,13 @@ std::string CheckSurveyLoader(std::string_view data, const std::string& work_dir
   if (!section(3).empty()) {
     config.survey.items = work_dir + "/items.csv";
     if (!write(config.survey.items, section(3))) return "cannot write items.csv: " + error;
+  }
+  // A sixth section is a second price file, read after the first.
+  if (!section(5).empty()) {
+    config.survey.prices.push_back(PriceSource{work_dir + "/prices_2.csv", CsvFormat(), {}});
+    if (!write(config.survey.prices[1].path, section(5))) {
+      return "cannot write prices_2.csv: " + error;
+    }
   }
   if (!section(4).empty()) {
     try {
@@ -878,8 +885,8 @@ std::string CheckSurveyLoader(std::string_view data, const std::string& work_dir
   }
 
   // Block-size equivalence, on prices.csv padded past the smallest block.
-  config.survey.prices = work_dir + "/prices_padded.csv";
-  if (!write(config.survey.prices, PadPastFirstBlock(section(0)))) {
+  config.survey.prices[0] = PriceSource{work_dir + "/prices_padded.csv", CsvFormat(), {}};
+  if (!write(config.survey.prices[0].path, PadPastFirstBlock(section(0)))) {
     return "cannot write prices_padded.csv: " + error;
   }
   Survey one_block, small_blocks;

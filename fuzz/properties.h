@@ -42,9 +42,9 @@ std::string CheckText(std::string_view data, const std::string& work_dir);
 std::string CheckConfig(std::string_view data, const std::string& work_dir);
 
 // Survey loader (LoadSurvey with invalid_rows: skip). The input is split at
-// lines "%%" into prices, expenditure, regions, items and an inline
-// classification (YAML); an absent or empty section leaves that file out
-// (expenditure gets a one-row default). For every file rows_read = rows_used
+// lines "%%" into prices, expenditure, regions, items, an inline
+// classification (YAML) and a second price file; an absent or empty section
+// leaves that file out (expenditure gets a one-row default). For every file rows_read = rows_used
 // + rows_rejected; every rejected row is listed; invalid_rows: stop rejects
 // the same rows; and prices.csv padded past the loader's 64 KiB minimum block
 // with blank lines gives the same survey and summary for a 64 KiB block as

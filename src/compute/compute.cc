@@ -109,6 +109,8 @@ ComputeOptions ComputeOptions::FromConfig(const RunConfig& config) {
   options.elementary.method = config.elementary;
   options.elementary.representative_weight = config.representative_weight;
   FromString(config.robust_errors, &options.elementary.robust_errors);  // validated by the config
+  options.elementary.quote_weighted_cells =
+      config.cpd_cell_weights == CpdCellWeights::kQuoteWeights;
   options.aggregation = config.aggregation;
   options.reference = config.reference;
   options.num_threads = config.threads;

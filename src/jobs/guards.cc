@@ -5,7 +5,7 @@ namespace paritas {
 PathGuard GuardInputsOf(const RunConfig& config) {
   PathGuard guard;
   guard.AddInput(config.config_path, "configuration");
-  guard.AddInput(config.survey.prices, "prices file");
+  for (const PriceSource& source : config.survey.prices) guard.AddInput(source.path, "prices file");
   guard.AddInput(config.survey.expenditure, "expenditure file");
   guard.AddInput(config.survey.regions, "regions file");
   guard.AddInput(config.survey.items, "items file");

@@ -55,6 +55,13 @@ std::string FilesReport(const LoadSummary& load) {
              " of them of rejected regions or items)";
     }
     out += "\n";
+    if (!file.columns.empty()) {
+      std::vector<std::string> mapped;
+      for (const auto& [ours, header] : file.columns) {
+        mapped.push_back(ours + " from " + QuoteValue(header));
+      }
+      out += "  " + Pad("", 12) + "columns: " + JoinNames(mapped) + "\n";
+    }
     if (!file.ignored_columns.empty()) {
       // A header of garbage can hold a million names: list the first few.
       constexpr size_t kMaxListed = 20;

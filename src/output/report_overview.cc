@@ -75,6 +75,13 @@ std::string Facts(const Context& ctx) {
              ? "national: one basket for every region, valued at each region's heading parities "
                "(regional nominal and real expenditure are not computed)"
              : "regional: each region's own spending");
+    if (!ctx.survey.cells.weight.empty()) {
+      fact("Quote weights",
+           std::string("weighted geometric means in the cells; CPD cells ") +
+               (c.cpd_cell_weights == CpdCellWeights::kQuoteWeights
+                    ? "weighted by their sums of quote weights"
+                    : "weigh alike"));
+    }
     fact("Invalid rows", HtmlEscape(ToString(c.invalid_rows)));
     if (!c.config_path.empty()) {
       fact("Configuration", "<code>" + HtmlEscape(c.config_path) + "</code>");
@@ -108,8 +115,15 @@ std::string InputFiles(const Context& ctx) {
       "class=\"num\">rejected</th><th>SHA-256</th></tr></thead><tbody>";
   for (const InputFileSummary& f : ctx.in.load->files) {
     if (!f.given) continue;
-    out += "<tr><td>" + HtmlEscape(f.role) + "</td><td><code>" + HtmlEscape(f.path) +
-           "</code></td><td class=\"num\">" + FormatCount(f.rows_read) + "</td><td class=\"num\">" +
+    std::string mapped;
+    for (const auto& [ours, header] : f.columns) {
+      mapped += (mapped.empty() ? "<br><small>columns: " : ", ") + HtmlEscape(ours) +
+                " from <code>" + HtmlEscape(header) + "</code>";
+    }
+    if (!mapped.empty()) mapped += "</small>";
+    out += "<tr><td>" + HtmlEscape(f.role) + "</td><td><code>" + HtmlEscape(f.path) + "</code>" +
+           mapped + "</td><td class=\"num\">" + FormatCount(f.rows_read) +
+           "</td><td class=\"num\">" +
            FormatCount(f.rows_used) + "</td><td class=\"num\">" + FormatCount(f.rows_rejected) +
            "</td><td><code title=\"" + HtmlEscape(f.sha256) + "\">" +
            HtmlEscape(f.sha256.substr(0, 12)) + "\xE2\x80\xA6</code></td></tr>";

@@ -26,8 +26,21 @@ std::vector<std::string> ValidTexts(const std::vector<std::string>& texts) {
   return out;
 }
 
+// One price file as its path; several, or one with a column mapping, as a
+// list of {path, columns}.
+Json PricesJson(const std::vector<PriceSource>& sources) {
+  if (sources.size() == 1 && sources[0].columns.empty()) return ValidUtf8(sources[0].path);
+  Json list = Json::array();
+  for (const PriceSource& source : sources) {
+    Json columns = Json::object();
+    for (const auto& [ours, header] : source.columns) columns[ours] = ValidUtf8(header);
+    list.push_back({{"path", ValidUtf8(source.path)}, {"columns", columns}});
+  }
+  return list;
+}
+
 Json ConfigJson(const RunConfig& config) {
-  Json survey = {{"prices", ValidUtf8(config.survey.prices)},
+  Json survey = {{"prices", PricesJson(config.survey.prices)},
                  {"expenditure", ValidUtf8(config.survey.expenditure)},
                  {"regions", ValidUtf8(config.survey.regions)},
                  {"items", ValidUtf8(config.survey.items)},
@@ -71,6 +84,10 @@ Json ConfigJson(const RunConfig& config) {
   Json labels = Json::object();
   for (const NodeLabel& l : config.labels) labels[ValidUtf8(l.code.code)] = ValidUtf8(l.label);
   out["labels"] = labels;
+  // Written only when set, so records of runs without quote weights keep their bytes.
+  if (config.cpd_cell_weights != CpdCellWeights::kEqual) {
+    out["cpd_cell_weights"] = ToString(config.cpd_cell_weights);
+  }
   out["limits"] = {{"max_file_bytes", config.limits.max_file_bytes},
                    {"max_yaml_bytes", config.limits.max_yaml_bytes},
                    {"max_record_bytes", config.limits.max_record_bytes},
@@ -135,6 +152,12 @@ std::string RunRecordJson(const RunRecord& record) {
                         {"rows_rejected", file.rows_rejected},
                         {"rows_rejected_by_cascade", file.rows_rejected_by_cascade},
                         {"ignored_columns", ValidTexts(file.ignored_columns)}});
+      // Only for a price file read through a column mapping.
+      if (!file.columns.empty()) {
+        Json columns = Json::object();
+        for (const auto& [ours, header] : file.columns) columns[ours] = ValidUtf8(header);
+        inputs.back()["columns"] = columns;
+      }
     }
     out["inputs"] = inputs;
     out["rows_rejected"] = record.load->num_rows_rejected;
@@ -162,7 +185,10 @@ std::string RunRecordJson(const RunRecord& record) {
                      {"weights", s.national_weights ? "national" : "regional"}};
   }
   if (record.config != nullptr) {
-    out["methods"] = {{"cell_price", "geometric mean of the quotes"},
+    const bool weighted = record.survey != nullptr && !record.survey->cells.weight.empty();
+    out["methods"] = {{"cell_price", weighted
+                                         ? "geometric mean of the quotes weighted by their weight"
+                                         : "geometric mean of the quotes"},
                       {"elementary", record.config->elementary},
                       {"aggregation", record.config->aggregation},
                       {"reference", record.config->reference.ToString()}};
@@ -233,15 +259,20 @@ std::vector<std::string> RunDifferences(const std::string& this_json, const std:
   if (a.is_discarded() || b.is_discarded()) return {"a run record is not valid JSON"};
   auto text = [](const Json& v) { return v.is_string() ? v.get<std::string>() : v.dump(); };
   for (const char* key : {"reference", "elementary", "aggregation", "invalid_rows",
-                          "representative_weight", "missing_parities", "groups"}) {
+                          "representative_weight", "cpd_cell_weights", "missing_parities",
+                          "groups"}) {
     const Json x = a.value("configuration", Json::object()).value(key, Json());
     const Json y = b.value("configuration", Json::object()).value(key, Json());
     if (x != y) out.push_back(std::string(key) + ": " + text(x) + " in this run, " + text(y) + " in the other");
   }
   auto digests = [](const Json& record) {
+    // Several price files: the second is "prices[1]", and so on.
     std::map<std::string, std::string> by_role;
+    std::map<std::string, int> seen;
     for (const Json& input : record.value("inputs", Json::array())) {
-      by_role[input.value("role", "")] = input.value("sha256", "");
+      const std::string role = input.value("role", "");
+      const int k = seen[role]++;
+      by_role[k == 0 ? role : role + "[" + std::to_string(k) + "]"] = input.value("sha256", "");
     }
     return by_role;
   };

@@ -12,15 +12,17 @@ namespace paritas::internal {
 namespace {
 
 // Appends one cell to the arrays.
-void AppendCell(int32_t region, int32_t item, const CellMoments& moments, CellPrices* cells) {
+void AppendCell(int32_t region, int32_t item, const CellMoments& moments, bool weighted,
+                CellPrices* cells) {
   cells->region.push_back(region);
   cells->item.push_back(item);
   cells->log_price.push_back(moments.mean);
-  cells->log_sd.push_back(moments.num_quotes > 1 ? std::sqrt(moments.m2 / (moments.num_quotes - 1)) : 0.0);
+  cells->log_sd.push_back(moments.LogSd(weighted));
   cells->log_min.push_back(moments.min);
   cells->log_max.push_back(moments.max);
   cells->num_quotes.push_back(moments.num_quotes);
   cells->representative.push_back(moments.representative);
+  if (weighted) cells->weight.push_back(moments.sum_weight);
 }
 
 void ReserveCells(size_t n, CellPrices* cells) {
@@ -32,6 +34,16 @@ void ReserveCells(size_t n, CellPrices* cells) {
   cells->log_max.reserve(n);
   cells->num_quotes.reserve(n);
   cells->representative.reserve(n);
+}
+
+// Adds quote q's values to `moments`.
+void AddQuote(const QuoteArrays& quotes, size_t q, CellMoments* moments) {
+  const bool flag = !quotes.representative.empty() && quotes.representative[q] != 0;
+  if (quotes.weight.empty()) {
+    moments->Add(quotes.log_price[q], flag);
+  } else {
+    moments->AddWeighted(quotes.log_price[q], flag, quotes.weight[q]);
+  }
 }
 
 // One counting sort on the dense cell key item x R + region: the quotes'
@@ -73,8 +85,10 @@ void CellsByDenseKey(const QuoteArrays& quotes, int num_regions, int num_items, 
     }
   }
   const bool flagged = !quotes.representative.empty();
+  const bool weighted = !quotes.weight.empty();
   std::vector<double> value(n);
   std::vector<uint8_t> flag(flagged ? n : 0);
+  std::vector<double> weight(weighted ? n : 0);
   // Cells per key range, to know where each thread writes.
   std::vector<int64_t> cell_begin(threads + 1, 0);
 #pragma omp parallel for schedule(static, 1) num_threads(threads)
@@ -92,6 +106,7 @@ void CellsByDenseKey(const QuoteArrays& quotes, int num_regions, int num_items, 
       const uint32_t at = next[key - lo]++;
       value[at] = quotes.log_price[q];
       if (flagged) flag[at] = quotes.representative[q];
+      if (weighted) weight[at] = quotes.weight[q];
     }
   }
   for (int t = 0; t < threads; ++t) cell_begin[t + 1] += cell_begin[t];
@@ -104,17 +119,25 @@ void CellsByDenseKey(const QuoteArrays& quotes, int num_regions, int num_items, 
   cells->log_max.resize(num_cells);
   cells->num_quotes.resize(num_cells);
   cells->representative.resize(num_cells);
+  if (weighted) cells->weight.resize(num_cells);
 #pragma omp parallel for schedule(static, 1) num_threads(threads)
   for (int t = 0; t < threads; ++t) {
     int64_t c = cell_begin[t];
     for (int64_t k = key_begin[t]; k < key_begin[t + 1]; ++k) {
       if (start[k + 1] == start[k]) continue;
       CellMoments moments;
-      for (uint32_t at = start[k]; at < start[k + 1]; ++at) moments.Add(value[at], flagged && flag[at] != 0);
+      for (uint32_t at = start[k]; at < start[k + 1]; ++at) {
+        if (weighted) {
+          moments.AddWeighted(value[at], flagged && flag[at] != 0, weight[at]);
+        } else {
+          moments.Add(value[at], flagged && flag[at] != 0);
+        }
+      }
       cells->region[c] = static_cast<int32_t>(k % num_regions);
       cells->item[c] = static_cast<int32_t>(k / num_regions);
       cells->log_price[c] = moments.mean;
-      cells->log_sd[c] = moments.num_quotes > 1 ? std::sqrt(moments.m2 / (moments.num_quotes - 1)) : 0.0;
+      cells->log_sd[c] = moments.LogSd(weighted);
+      if (weighted) cells->weight[c] = moments.sum_weight;
       cells->log_min[c] = moments.min;
       cells->log_max[c] = moments.max;
       cells->num_quotes[c] = moments.num_quotes;
@@ -148,19 +171,20 @@ void CellsBySortedPositions(const QuoteArrays& quotes, int num_regions, int num_
     num_cells += k == 0 || quotes.region[q] != quotes.region[p] || quotes.item[q] != quotes.item[p];
   }
   ReserveCells(num_cells, cells);
-  const bool flagged = !quotes.representative.empty();
+  const bool weighted = !quotes.weight.empty();
+  if (weighted) cells->weight.reserve(num_cells);
   CellMoments moments;
   int32_t region = -1, item = -1;
   for (uint32_t q : order) {
     if (quotes.region[q] != region || quotes.item[q] != item) {
-      if (moments.num_quotes > 0) AppendCell(region, item, moments, cells);
+      if (moments.num_quotes > 0) AppendCell(region, item, moments, weighted, cells);
       moments = CellMoments();
       region = quotes.region[q];
       item = quotes.item[q];
     }
-    moments.Add(quotes.log_price[q], flagged && quotes.representative[q] != 0);
+    AddQuote(quotes, q, &moments);
   }
-  if (moments.num_quotes > 0) AppendCell(region, item, moments, cells);
+  if (moments.num_quotes > 0) AppendCell(region, item, moments, weighted, cells);
 }
 
 }  // namespace

@@ -2,6 +2,8 @@
 #ifndef PARITAS_INTERNAL_SURVEY_CELL_PRICES_H_
 #define PARITAS_INTERNAL_SURVEY_CELL_PRICES_H_
 
+#include <algorithm>
+#include <cmath>
 #include <cstdint>
 #include <vector>
 
@@ -10,20 +12,51 @@
 namespace paritas::internal {
 
 // Running moments of the log quotes of one cell (Welford's update, applied
-// in file order).
+// in file order; with quote weights, West's weighted form: D. H. D. West,
+// 1979, "Updating mean and variance estimates: an improved method", Comm.
+// ACM 22(9), 532-535).
 struct CellMoments {
   int32_t num_quotes = 0;
   double mean = 0.0;
-  double m2 = 0.0;
+  double m2 = 0.0;  // sum of (weighted) squared deviations from the mean
   double min = 0.0;
   double max = 0.0;
   uint8_t representative = 0;
+  double sum_weight = 0.0;     // weighted only: sum of w
+  double sum_weight_sq = 0.0;  // weighted only: sum of w^2
 
   void Add(double log_price, bool is_representative) {
     ++num_quotes;
     const double delta = log_price - mean;
     mean += delta / num_quotes;
     m2 += delta * (log_price - mean);
+    Extremes(log_price, is_representative);
+  }
+
+  // Adds a quote of weight w > 0: mean = sum w x / sum w.
+  void AddWeighted(double log_price, bool is_representative, double w) {
+    ++num_quotes;
+    sum_weight += w;
+    sum_weight_sq += w * w;
+    const double delta = log_price - mean;
+    mean += delta * (w / sum_weight);
+    m2 += w * delta * (log_price - mean);
+    Extremes(log_price, is_representative);
+  }
+
+  // Standard deviation of the log quotes: sqrt(m2 / (n - 1)) unweighted;
+  // weighted, sqrt(m2 / (V1 - V2 / V1)) with V1 = sum w, V2 = sum w^2 (the
+  // unbiased form for reliability weights, numpy.cov's `aweights`; equal
+  // weights give the unweighted value). 0 for one quote.
+  double LogSd(bool weighted) const {
+    if (num_quotes < 2) return 0.0;
+    const double denominator =
+        weighted ? sum_weight - sum_weight_sq / sum_weight : static_cast<double>(num_quotes - 1);
+    return denominator > 0 ? std::sqrt(std::max(m2, 0.0) / denominator) : 0.0;
+  }
+
+ private:
+  void Extremes(double log_price, bool is_representative) {
     if (num_quotes == 1 || log_price < min) min = log_price;
     if (num_quotes == 1 || log_price > max) max = log_price;
     representative |= static_cast<uint8_t>(is_representative);
@@ -36,7 +69,10 @@ struct QuoteArrays {
   std::vector<int32_t> region;
   std::vector<int32_t> item;
   std::vector<double> log_price;
-  std::vector<uint8_t> representative;  // empty when prices.csv has no flag column
+  std::vector<uint8_t> representative;  // empty when no price file has a flag column
+  // Quote weights (> 0); empty when no price file has a weight column (a
+  // quote of a file without one weighs 1).
+  std::vector<double> weight;
   // Hash of the row's fields (all columns) and its line, for finding rows
   // repeated field for field; emptied once duplicates are handled.
   std::vector<uint64_t> row_hash;

@@ -48,6 +48,11 @@ constexpr EnumName<DuplicateQuotePolicy> kDuplicateNames[] = {
     {DuplicateQuotePolicy::kReject, "reject"},
 };
 
+constexpr EnumName<CpdCellWeights> kCellWeightNames[] = {
+    {CpdCellWeights::kEqual, "equal"},
+    {CpdCellWeights::kQuoteWeights, "quote-weights"},
+};
+
 template <typename Enum, size_t N>
 std::string NameOf(const EnumName<Enum> (&names)[N], Enum value) {
   for (const auto& entry : names) {
@@ -84,6 +89,7 @@ const std::vector<std::string> kTopKeys = {"survey",
                                            "output",
                                            "matrices",
                                            "representative_weight",
+                                           "cpd_cell_weights",
                                            "outlier_threshold",
                                            "outlier_fit",
                                            "robust_errors",
@@ -106,6 +112,8 @@ const std::vector<std::string> kSurveyExtraKeys = {"external_parities"};
 const std::vector<std::string> kMissingParityKeys = {"default", "headings"};
 // Keys of a survey file given as a mapping.
 const std::vector<std::string> kFileKeys = {"path", "delimiter", "decimal"};
+// Keys of a price file given as a mapping.
+const std::vector<std::string> kPriceFileKeys = {"path", "delimiter", "decimal", "columns"};
 const std::vector<std::string> kLimitKeys = {"max_file_bytes", "max_yaml_bytes", "max_record_bytes",
                                              "max_field_bytes", "max_yaml_depth"};
 // The configuration file itself is read before its `limits:` are known.
@@ -399,10 +407,13 @@ class ConfigParser {
       }
     }
     SurveyFiles& files = config_->survey;
-    std::string* const paths[] = {&files.prices, &files.expenditure, &files.regions, &files.items};
-    CsvFormat* const formats[] = {&files.prices_format, &files.expenditure_format,
-                                  &files.regions_format, &files.items_format};
-    for (size_t k = 0; k < kSurveyKeys.size(); ++k) {
+    if (const YAML::Node node = survey["prices"]) {
+      if (!ParsePriceSources(node, error)) return false;
+    }
+    std::string* const paths[] = {nullptr, &files.expenditure, &files.regions, &files.items};
+    CsvFormat* const formats[] = {nullptr, &files.expenditure_format, &files.regions_format,
+                                  &files.items_format};
+    for (size_t k = 1; k < kSurveyKeys.size(); ++k) {
       const YAML::Node node = survey[kSurveyKeys[k]];
       if (node && !SurveyFile(node, "survey." + kSurveyKeys[k], paths[k], formats[k], error)) {
         return false;
@@ -417,11 +428,93 @@ class ConfigParser {
     return true;
   }
 
-  // A file path, or a mapping {path, delimiter, decimal}.
+  // survey.prices: one file (a path or a mapping) or a list of them; each
+  // entry of a list is named survey.prices[k] (0-based, as YAML counts).
+  bool ParsePriceSources(const YAML::Node& node, std::string* error) {
+    std::vector<PriceSource>& sources = config_->survey.prices;
+    if (!node.IsSequence()) {
+      sources.resize(1);
+      return PriceFile(node, "survey.prices", &sources[0], error);
+    }
+    if (node.size() == 0) {
+      *error = Where(node) + "'survey.prices' lists no files";
+      return false;
+    }
+    sources.resize(node.size());
+    for (size_t k = 0; k < node.size(); ++k) {
+      const std::string key = "survey.prices[" + std::to_string(k) + "]";
+      if (!PriceFile(node[k], key, &sources[k], error)) return false;
+    }
+    for (size_t k = 1; k < sources.size(); ++k) {
+      for (size_t j = 0; j < k; ++j) {
+        if (sources[j].path == sources[k].path) {
+          *error = Where(node[k]) + "survey.prices[" + std::to_string(k) + "] " +
+                   QuoteValue(sources[k].path) + " is already listed as survey.prices[" +
+                   std::to_string(j) + "]";
+          return false;
+        }
+      }
+    }
+    return true;
+  }
+
+  // A price file: a path, or a mapping {path, delimiter, decimal, columns}.
+  bool PriceFile(const YAML::Node& node, const std::string& key, PriceSource* source,
+                 std::string* error) {
+    if (!node.IsMap()) return SurveyFile(node, key, &source->path, &source->format, error);
+    if (!CheckKeys(node, kPriceFileKeys, key, error)) return false;
+    if (!SurveyFile(node, key, &source->path, &source->format, error, /*keys_checked=*/true)) {
+      return false;
+    }
+    if (const YAML::Node columns = node["columns"]) {
+      return ColumnMap(columns, key + ".columns", &source->columns, error);
+    }
+    return true;
+  }
+
+  // columns: {our name: the file's header, ...}.
+  bool ColumnMap(const YAML::Node& node, const std::string& key,
+                 std::vector<std::pair<std::string, std::string>>* columns, std::string* error) {
+    if (!node.IsMap()) {
+      *error = Where(node) + "'" + key + "' must be a mapping of our column names to the file's "
+               "headers, e.g. {region: area_code, price: amount}";
+      return false;
+    }
+    if (!CheckKeys(node, PriceColumnNames(), key, error)) return false;
+    for (const auto& kv : node) {
+      const std::string name = kv.first.Scalar();
+      std::string header;
+      if (!Scalar(kv.second, key + "." + name, &header, error)) return false;
+      header = std::string(Trim(header));
+      if (header.empty()) {
+        *error = Where(kv.second) + "'" + key + "." + name + "' must name a column of the file";
+        return false;
+      }
+      columns->emplace_back(name, header);
+    }
+    // Two of our columns may not read the same header, mapped or not.
+    PriceSource probe;
+    probe.columns = *columns;
+    const std::vector<std::string>& names = PriceColumnNames();
+    for (size_t a = 0; a < names.size(); ++a) {
+      for (size_t b = a + 1; b < names.size(); ++b) {
+        if (probe.HeaderOf(names[a]) == probe.HeaderOf(names[b])) {
+          *error = Where(node) + key + ": columns " + QuoteValue(names[a]) + " and " +
+                   QuoteValue(names[b]) + " would both read the file's column " +
+                   QuoteValue(probe.HeaderOf(names[a]));
+          return false;
+        }
+      }
+    }
+    return true;
+  }
+
+  // A file path, or a mapping {path, delimiter, decimal}; a caller that
+  // takes more keys checks them itself (`keys_checked`).
   bool SurveyFile(const YAML::Node& node, const std::string& key, std::string* path,
-                  CsvFormat* format, std::string* error) {
+                  CsvFormat* format, std::string* error, bool keys_checked = false) {
     if (!node.IsMap()) return Path(node, key, path, error);
-    if (!CheckKeys(node, kFileKeys, key, error)) return false;
+    if (!keys_checked && !CheckKeys(node, kFileKeys, key, error)) return false;
     if (!node["path"]) {
       *error = Where(node) + "missing key '" + key + ".path'";
       return false;
@@ -538,6 +631,12 @@ class ConfigParser {
   bool ParseSettings(const YAML::Node& root, std::string* error) {
     if (const YAML::Node node = root["representative_weight"]) {
       if (!Positive(node, "representative_weight", &config_->representative_weight, error)) {
+        return false;
+      }
+    }
+    if (const YAML::Node node = root["cpd_cell_weights"]) {
+      if (!EnumValue(node, "cpd_cell_weights", &config_->cpd_cell_weights, CpdCellWeightsNames(),
+                     error)) {
         return false;
       }
     }
@@ -799,6 +898,27 @@ bool FromString(const std::string& text, DuplicateQuotePolicy* policy) {
 }
 std::vector<std::string> DuplicateQuotePolicyNames() { return NamesOf(kDuplicateNames); }
 
+std::string ToString(CpdCellWeights weights) { return NameOf(kCellWeightNames, weights); }
+
+bool FromString(const std::string& text, CpdCellWeights* weights) {
+  return ValueOf(kCellWeightNames, text, weights);
+}
+
+std::vector<std::string> CpdCellWeightsNames() { return NamesOf(kCellWeightNames); }
+
+const std::vector<std::string>& PriceColumnNames() {
+  static const std::vector<std::string> kNames = {"region",         "item",   "price",   "heading",
+                                                  "representative", "weight", "quantity"};
+  return kNames;
+}
+
+std::string PriceSource::HeaderOf(std::string_view name) const {
+  for (const auto& [ours, header] : columns) {
+    if (ours == name) return header;
+  }
+  return std::string(name);
+}
+
 bool CheckThresholds::IsValid(std::string* error) const {
   if (!(min_basket_share > 0 && min_basket_share <= 1)) {
     *error = "checks.min_basket_share must be a share above 0 and at most 1, found " +
@@ -865,6 +985,19 @@ bool RunConfig::IsValid(std::string* error) const {
     *error = "no prices file given (survey.prices)";
     return false;
   }
+  for (size_t k = 0; k < survey.prices.size(); ++k) {
+    const PriceSource& source = survey.prices[k];
+    const std::string key =
+        survey.prices.size() == 1 ? "survey.prices" : "survey.prices[" + std::to_string(k) + "]";
+    if (source.path.empty()) {
+      *error = "no path given for " + key;
+      return false;
+    }
+    if (!source.format.IsValid(error)) {
+      *error = key + ": " + *error;
+      return false;
+    }
+  }
   if (survey.expenditure.empty()) {
     *error = "no expenditure file given (survey.expenditure)";
     return false;
@@ -905,10 +1038,10 @@ bool RunConfig::IsValid(std::string* error) const {
     *error = "no output folder given (output)";
     return false;
   }
-  const CsvFormat* const formats[] = {&survey.prices_format, &survey.expenditure_format,
-                                      &survey.regions_format, &survey.items_format};
-  const char* const keys[] = {"prices", "expenditure", "regions", "items"};
-  for (int k = 0; k < 4; ++k) {
+  const CsvFormat* const formats[] = {&survey.expenditure_format, &survey.regions_format,
+                                      &survey.items_format};
+  const char* const keys[] = {"expenditure", "regions", "items"};
+  for (int k = 0; k < 3; ++k) {
     if (!formats[k]->IsValid(error)) {
       *error = "survey." + std::string(keys[k]) + ": " + *error;
       return false;

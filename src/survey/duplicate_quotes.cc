@@ -17,25 +17,34 @@ namespace {
 void CompactQuotes(const std::vector<char>& keep, QuoteArrays* quotes) {
   size_t out = 0;
   const bool flagged = !quotes->representative.empty();
+  const bool weighted = !quotes->weight.empty();
   for (size_t q = 0; q < keep.size(); ++q) {
     if (!keep[q]) continue;
     quotes->region[out] = quotes->region[q];
     quotes->item[out] = quotes->item[q];
     quotes->log_price[out] = quotes->log_price[q];
     if (flagged) quotes->representative[out] = quotes->representative[q];
+    if (weighted) quotes->weight[out] = quotes->weight[q];
     ++out;
   }
   quotes->region.resize(out);
   quotes->item.resize(out);
   quotes->log_price.resize(out);
   if (flagged) quotes->representative.resize(out);
+  if (weighted) quotes->weight.resize(out);
 }
 
 }  // namespace
 
-void HandleDuplicateQuotes(const std::string& path, DuplicateQuotePolicy policy, LoadState* state,
-                           Rejections* rejections, InputFileSummary* file, LoadSummary* summary) {
+void HandleDuplicateQuotes(DuplicateQuotePolicy policy, LoadState* state, Rejections* rejections,
+                           const std::vector<InputFileSummary*>& files, LoadSummary* summary) {
   QuoteArrays& quotes = state->quotes;
+  const std::vector<size_t>& begin = state->quote_file_begin;
+  // The price file of quote q (quotes are in the order read).
+  auto file_of = [&begin](size_t q) {
+    return static_cast<size_t>(std::upper_bound(begin.begin(), begin.end(), q) - begin.begin()) -
+           1;
+  };
   summary->duplicate_policy = policy;
   const size_t n = quotes.size();
   std::vector<std::pair<uint64_t, uint32_t>> order(n);
@@ -57,9 +66,14 @@ void HandleDuplicateQuotes(const std::string& path, DuplicateQuotePolicy policy,
   for (size_t q = 0; q < n; ++q) {
     if (repeats[q] < 0) continue;
     const int64_t line = quotes.line[q], original = quotes.line[repeats[q]];
+    const size_t k = file_of(q), first = file_of(static_cast<size_t>(repeats[q]));
+    InputFileSummary* file = files[k];
+    const std::string& path = file->path;
+    // "line 12" in the same file, "prices.csv:12" in an earlier one.
+    const std::string repeated = (k == first ? "line " : files[first]->path + ":") +
+                                 std::to_string(original);
     if (summary->num_duplicate_quotes == 0) {
-      summary->duplicate_example =
-          path + ":" + std::to_string(line) + " repeats line " + std::to_string(original);
+      summary->duplicate_example = path + ":" + std::to_string(line) + " repeats " + repeated;
     }
     ++summary->num_duplicate_quotes;
     if (policy == DuplicateQuotePolicy::kKeep) continue;
@@ -71,7 +85,7 @@ void HandleDuplicateQuotes(const std::string& path, DuplicateQuotePolicy policy,
     } else {
       rejections->Add({path, line,
                        LocatedMessage(path, line, 0,
-                                      "the row repeats line " + std::to_string(original) +
+                                      "the row repeats " + repeated +
                                           " field for field (duplicate_quotes: reject)"),
                        ""},
                       file);

@@ -8,6 +8,7 @@
 #include <cstddef>
 #include <cstdint>
 #include <string>
+#include <set>
 #include <string_view>
 #include <unordered_map>
 #include <utility>
@@ -106,12 +107,21 @@ struct LoadState {
   // Items with their heading and where that was first stated.
   CodeTable items;
   std::vector<int> item_heading;
-  std::vector<std::string> item_origin;  // "items.csv:12" or "line 40"
+  // "items.csv:12", "line 40" (one price file) or "rent.csv:40" (several).
+  std::vector<std::string> item_origin;
   std::vector<std::string> item_description, item_unit;
+  // reference_quantity of items.csv; NaN when not given.
+  std::vector<double> item_reference_quantity;
   bool has_catalog = false;
   // Quotes used, in file order, with state indices of region and item.
   QuoteArrays quotes;
   int64_t num_quotes = 0;
+  // Index of the first quote of each price file, in the order read.
+  std::vector<size_t> quote_file_begin;
+  // Items whose quotes gave a quantity without the item having a
+  // reference_quantity (taken as 1), and those quotes.
+  std::set<int> items_without_reference;
+  int64_t num_quotes_without_reference = 0;
   // Expenditure rows.
   struct Spending {
     int region, heading;
@@ -170,21 +180,26 @@ bool ReadRegions(const std::string& path, LoadState* state, Rejections* rejectio
                  InputFileSummary* file, std::string* error);
 bool ReadItems(const std::string& path, LoadState* state, Rejections* rejections,
                InputFileSummary* file, std::string* error);
-bool ReadPrices(const std::string& path, const LoadOptions& options, LoadState* state,
-                Rejections* rejections, InputFileSummary* file, std::string* error);
+// Reads one price file; `setting` names it in messages ("survey.prices" or
+// "survey.prices[1]"). Quotes are appended to the state's.
+bool ReadPrices(const PriceSource& source, const std::string& setting, const LoadOptions& options,
+                LoadState* state, Rejections* rejections, InputFileSummary* file,
+                std::string* error);
 bool ReadExpenditure(const std::string& path, LoadState* state, Rejections* rejections,
                      InputFileSummary* file, std::string* error);
 // Reads survey.external_parities (heading,region,parity[,log_se]); its
 // regions and headings must be known from the files read before it.
 bool ReadExternalParities(const std::string& path, LoadState* state, Rejections* rejections,
                           InputFileSummary* file, std::string* error);
-// Finds quote rows repeating an earlier row field for field and applies
+// Finds quote rows repeating an earlier row field for field, in the same
+// price file or an earlier one (columns matched by name), and applies
 // `policy`: keep counts them; drop leaves the repeats out (counted as
-// rejected rows of the file, not as invalid rows); reject rejects each repeat
-// as an invalid row naming the line it repeats. Empties the row hashes and
-// lines of the quotes.
-void HandleDuplicateQuotes(const std::string& path, DuplicateQuotePolicy policy, LoadState* state,
-                           Rejections* rejections, InputFileSummary* file, LoadSummary* summary);
+// rejected rows of their file, not as invalid rows); reject rejects each
+// repeat as an invalid row naming the line it repeats. `files` are the price
+// files' summaries in the order read (state->quote_file_begin). Empties the
+// row hashes and lines of the quotes.
+void HandleDuplicateQuotes(DuplicateQuotePolicy policy, LoadState* state, Rejections* rejections,
+                           const std::vector<InputFileSummary*>& files, LoadSummary* summary);
 // Orders regions, headings and items, builds the cells from the quotes
 // (which it empties) and fills the expenditure table.
 void BuildSurvey(LoadState* state, int num_threads, Survey* survey);

@@ -10,6 +10,7 @@
 #include <cmath>
 #include <cstring>
 #include <filesystem>
+#include <limits>
 #include <string>
 #include <unordered_map>
 #include <vector>
@@ -28,9 +29,19 @@ constexpr size_t kChunkBytes = 1 << 21;
 
 struct PriceColumns {
   int region = -1, item = -1, price = -1, heading = -1, representative = -1;
+  int weight = -1, quantity = -1;
   int num_fields = 0;
   std::vector<std::string> names;  // the header's names
   CsvFormat format;
+  // The key naming the file in messages on its decimal mark: "survey.prices",
+  // or "survey.prices[1]" when several files are read.
+  std::string setting;
+  // Fields in the order they are hashed for duplicates (our columns in
+  // PriceColumnNames() order, then the others by header name), each with a
+  // hash of its column's name, so rows of files whose columns are ordered
+  // or named differently compare by meaning.
+  std::vector<int> hash_order;
+  std::vector<uint64_t> hash_name;
 };
 
 // What a chunk knows about an item it has seen.
@@ -39,6 +50,10 @@ struct LocalItem {
   int local_heading = -1;  // local heading index when first stated in this chunk
   int64_t line = 0;        // line of that first statement
   int rejected = -1;       // index in LoadState::rejected_codes when items.csv rejected it
+  // reference_quantity of items.csv; NaN when not given.
+  double reference_quantity = std::numeric_limits<double>::quiet_NaN();
+  // True once a used row gave a quantity for the item without a reference.
+  bool quantity_without_reference = false;
 };
 
 // Rows of a chunk that filed an item under a heading other than its first.
@@ -67,12 +82,14 @@ struct ChunkResult {
     quotes.item.clear();
     quotes.log_price.clear();
     quotes.representative.clear();
+    quotes.weight.clear();
     quotes.row_hash.clear();
     quotes.line.clear();
     rejected.clear();
     num_rejected_not_kept = 0;
     rows_read = 0;
     rows_used = 0;
+    num_rows_without_reference = 0;
     items_without_heading.clear();
     fatal.clear();
     cascade_rows.clear();
@@ -85,6 +102,8 @@ struct ChunkResult {
   int64_t num_rejected_not_kept = 0;
   int64_t rows_read = 0;
   int64_t rows_used = 0;
+  // Rows used whose quantity was taken per 1 unit (no reference_quantity).
+  int64_t num_rows_without_reference = 0;
   // Local items rejected for an empty heading before this chunk stated one;
   // an earlier chunk may have stated it, which only a pass in order sees.
   std::vector<int> items_without_heading;
@@ -98,14 +117,33 @@ struct ChunkResult {
   std::unordered_map<std::string, int> conflict_index;
 };
 
-// FNV-1a over every field with its length, so rows equal field for field
-// (and only those, up to a 2^-64 chance) hash alike.
-uint64_t HashFields(const CsvRecord& record) {
+std::string Shortest(double value) {
+  std::string text;
+  AppendShortest(value, &text);
+  return text;
+}
+
+// FNV-1a over bytes.
+uint64_t Fnv1a(std::string_view text, uint64_t h = 14695981039346656037ull) {
+  for (char c : text) h = (h ^ static_cast<unsigned char>(c)) * 1099511628211ull;
+  return h;
+}
+
+// FNV-1a over every field with its column's name and its length, in the
+// columns' hash order, so rows equal field for field (and only those, up to
+// a 2^-64 chance) hash alike, in one file or across files.
+uint64_t HashFields(const CsvRecord& record, const PriceColumns& columns) {
   uint64_t h = 14695981039346656037ull;
-  auto mix = [&h](unsigned char byte) { h = (h ^ byte) * 1099511628211ull; };
-  for (std::string_view field : record.fields) {
-    for (size_t k = 0; k < sizeof(size_t); ++k) mix(static_cast<unsigned char>(field.size() >> (8 * k)));
-    for (char c : field) mix(static_cast<unsigned char>(c));
+  auto mix = [&h](uint64_t word) {
+    for (size_t k = 0; k < sizeof(word); ++k) {
+      h = (h ^ static_cast<unsigned char>(word >> (8 * k))) * 1099511628211ull;
+    }
+  };
+  for (size_t k = 0; k < columns.hash_order.size(); ++k) {
+    const std::string_view field = record.fields[columns.hash_order[k]];
+    mix(columns.hash_name[k]);
+    mix(field.size());
+    h = Fnv1a(field, h);
   }
   return h;
 }
@@ -126,7 +164,9 @@ class ChunkParser {
         max_rejected_(max_rejected),
         out_(out),
         has_heading_(columns.heading >= 0),
-        has_flag_(columns.representative >= 0) {
+        has_flag_(columns.representative >= 0),
+        has_weight_(columns.weight >= 0),
+        has_quantity_(columns.quantity >= 0) {
     reader_.set_limits(state.config->limits);
     reader_.set_delimiter(columns.format.delimiter);
     // A quote row takes at least about a dozen bytes.
@@ -135,6 +175,7 @@ class ChunkParser {
     out->quotes.item.reserve(expected_rows);
     out->quotes.log_price.reserve(expected_rows);
     if (has_flag_) out->quotes.representative.reserve(expected_rows);
+    if (has_weight_) out->quotes.weight.reserve(expected_rows);
     out->quotes.row_hash.reserve(expected_rows);
     out->quotes.line.reserve(expected_rows);
   }
@@ -165,9 +206,12 @@ class ChunkParser {
       // so a rejected row never files an item.
       int new_heading = -1;
       if ((info.global < 0 || has_heading_) && !ReadHeading(info, &new_heading)) continue;
-      double price = 0.0;
+      double price = 0.0, weight = 1.0;
       bool representative = false;
-      if (!ReadPrice(&price) || !ReadFlag(&representative)) continue;
+      if (!ReadPrice(&price) || !ReadFlag(&representative) ||
+          !ReadPositive(columns_.weight, "weight", &weight) || !ConvertPrice(&info, &price)) {
+        continue;
+      }
       if (new_heading >= 0) {
         info.local_heading = new_heading;
         info.line = record_.line;
@@ -176,7 +220,8 @@ class ChunkParser {
       out_->quotes.item.push_back(item_local_);
       out_->quotes.log_price.push_back(std::log(price));
       if (has_flag_) out_->quotes.representative.push_back(representative ? 1 : 0);
-      out_->quotes.row_hash.push_back(HashFields(record_));
+      if (has_weight_) out_->quotes.weight.push_back(weight);
+      out_->quotes.row_hash.push_back(HashFields(record_, columns_));
       out_->quotes.line.push_back(record_.line);
       ++out_->rows_used;
     }
@@ -278,7 +323,9 @@ class ChunkParser {
           const auto found = state_.rejected_item_index.find(std::string(code));
           if (found != state_.rejected_item_index.end()) rejected = found->second;
         }
-        out_->item_info.push_back({global, -1, 0, rejected});
+        LocalItem info{global, -1, 0, rejected};
+        if (global >= 0) info.reference_quantity = state_.item_reference_quantity[global];
+        out_->item_info.push_back(info);
         successor_.push_back(-1);
       }
       if (previous >= 0) successor_[previous] = index;
@@ -357,7 +404,7 @@ class ChunkParser {
     const NumberStatus status = ParseNumber(price_text, price, columns_.format.decimal);
     if (status != NumberStatus::kOk) {
       Reject(columns_.price + 1,
-             NumberProblem(status, "price", price_text, columns_.format.decimal, "survey.prices"));
+             NumberProblem(status, "price", price_text, columns_.format.decimal, columns_.setting));
       return false;
     }
     if (!(*price > 0)) {
@@ -378,6 +425,49 @@ class ChunkParser {
     return true;
   }
 
+  // Reads the optional number in `column` (-1: absent, *value unchanged),
+  // which must be positive and finite when the file has the column.
+  bool ReadPositive(int column, const char* what, double* value) {
+    if (column < 0) return true;
+    const std::string_view text = record_.fields[column];
+    const NumberStatus status = ParseNumber(text, value, columns_.format.decimal);
+    if (status != NumberStatus::kOk) {
+      Reject(column + 1, NumberProblem(status, what, text, columns_.format.decimal,
+                                       columns_.setting));
+      return false;
+    }
+    if (!(*value > 0)) {
+      Reject(column + 1, std::string(what) + " " + QuoteValue(text) + " is not a positive number");
+      return false;
+    }
+    return true;
+  }
+
+  // Converts *price, observed for the row's quantity, to the item's
+  // reference quantity: price x reference_quantity / quantity (1 when the
+  // item has none, noted for a warning).
+  bool ConvertPrice(LocalItem* info, double* price) {
+    if (!has_quantity_) return true;
+    double quantity = 0.0;
+    if (!ReadPositive(columns_.quantity, "quantity", &quantity)) return false;
+    const bool without_reference = std::isnan(info->reference_quantity);
+    const double reference = without_reference ? 1.0 : info->reference_quantity;
+    const double converted = *price * reference / quantity;
+    if (!(converted > 0) || !std::isfinite(converted)) {
+      Reject(columns_.quantity + 1,
+             "price " + QuoteValue(Trim(record_.fields[columns_.price])) + " for quantity " +
+                 QuoteValue(Trim(record_.fields[columns_.quantity])) +
+                 " is out of range at the reference quantity (found " + Shortest(converted) + ")");
+      return false;
+    }
+    if (without_reference) {
+      info->quantity_without_reference = true;
+      ++out_->num_rows_without_reference;
+    }
+    *price = converted;
+    return true;
+  }
+
   CsvReader reader_;
   CsvRecord record_;
   const PriceColumns& columns_;
@@ -388,6 +478,8 @@ class ChunkParser {
   ChunkResult* out_;
   const bool has_heading_;
   const bool has_flag_;
+  const bool has_weight_;
+  const bool has_quantity_;
   // Copies, not views: a field unescaped into record.scratch is overwritten
   // (or freed) by the next record.
   std::string last_region_, last_item_;
@@ -431,15 +523,18 @@ std::vector<size_t> ChunkStarts(std::string_view data) {
 
 class PriceReader {
  public:
-  PriceReader(const std::string& path, const LoadOptions& options, LoadState* state,
-              Rejections* rejections, InputFileSummary* file)
-      : path_(path),
+  PriceReader(const PriceSource& source, const std::string& setting, const LoadOptions& options,
+              LoadState* state, Rejections* rejections, InputFileSummary* file)
+      : path_(source.path),
+        source_(source),
         options_(options),
         limits_(state->config->limits),
-        format_(state->config->survey.prices_format),
+        format_(source.format),
         state_(state),
         rejections_(rejections),
-        file_(file) {}
+        file_(file) {
+    columns_.setting = setting;
+  }
 
   bool Read(std::string* error) {
     CsvBlockReader blocks(path_, std::max<int64_t>(options_.block_bytes, 1 << 16), limits_,
@@ -479,7 +574,10 @@ class PriceReader {
       return false;
     }
     if (!header_done) {
-      *error = path_ + ": file is empty (expected a header row with columns region, item, price)";
+      *error = path_ + ": file is empty (expected a header row with columns " +
+               JoinNames({source_.HeaderOf("region"), source_.HeaderOf("item"),
+                          source_.HeaderOf("price")}) +
+               ")";
       return false;
     }
     return true;
@@ -487,9 +585,11 @@ class PriceReader {
 
   bool ReadPriceHeader(CsvReader* reader, std::string* error) {
     Columns found;
-    if (!ReadHeader(reader, path_, format_.delimiter,
-                    {"region", "item", "price", "heading", "representative"},
-                    {true, true, true, false, false}, &found, file_, error)) {
+    const std::vector<std::string>& ours = PriceColumnNames();
+    std::vector<std::string> wanted;
+    for (const std::string& name : ours) wanted.push_back(source_.HeaderOf(name));
+    if (!ReadHeader(reader, path_, format_.delimiter, wanted,
+                    {true, true, true, false, false, false, false}, &found, file_, error)) {
       return false;
     }
     columns_.names = std::move(found.names);
@@ -499,14 +599,39 @@ class PriceReader {
     columns_.price = found.index[2];
     columns_.heading = found.index[3];
     columns_.representative = found.index[4];
+    columns_.weight = found.index[5];
+    columns_.quantity = found.index[6];
     columns_.num_fields = found.num_fields;
     if (columns_.heading < 0 && !state_->has_catalog) {
-      *error =
-          path_ +
-          ":1: no column 'heading' and no items file (survey.items) to give each item's heading";
+      *error = path_ + ":1: no column " + QuoteValue(wanted[3]) +
+               " and no items file (survey.items) to give each item's heading";
       return false;
     }
+    SetHashOrder(found.index);
     return true;
+  }
+
+  // Our columns first, in PriceColumnNames() order, then the file's other
+  // columns by name (in header order among equal names).
+  void SetHashOrder(const std::vector<int>& ours) {
+    const std::vector<std::string>& names = PriceColumnNames();
+    std::vector<char> taken(columns_.num_fields, 0);
+    for (size_t k = 0; k < ours.size(); ++k) {
+      if (ours[k] < 0) continue;
+      taken[ours[k]] = 1;
+      columns_.hash_order.push_back(ours[k]);
+      columns_.hash_name.push_back(Fnv1a(names[k]));
+    }
+    std::vector<int> others;
+    for (int c = 0; c < columns_.num_fields; ++c) {
+      if (!taken[c]) others.push_back(c);
+    }
+    std::stable_sort(others.begin(), others.end(),
+                     [&](int a, int b) { return columns_.names[a] < columns_.names[b]; });
+    for (int c : others) {
+      columns_.hash_order.push_back(c);
+      columns_.hash_name.push_back(Fnv1a(columns_.names[c]));
+    }
   }
 
   // Parses one block of whole records starting at line `first_line`.
@@ -589,13 +714,16 @@ class PriceReader {
     // The size the system reports is a hint, not a promise (a file can be
     // sparse or still growing): at most 16 times the rows read so far.
     const size_t n = static_cast<size_t>(std::min({rows, 16.0 * rows_used + 1024.0, 4e9}));
+    // Beyond the quotes of the files read before.
     QuoteArrays& quotes = state_->quotes;
-    quotes.region.reserve(n);
-    quotes.item.reserve(n);
-    quotes.log_price.reserve(n);
-    if (columns_.representative >= 0) quotes.representative.reserve(n);
-    quotes.row_hash.reserve(n);
-    quotes.line.reserve(n);
+    const size_t total = quotes.size() + n;
+    quotes.region.reserve(total);
+    quotes.item.reserve(total);
+    quotes.log_price.reserve(total);
+    if (columns_.representative >= 0) quotes.representative.reserve(total);
+    if (columns_.weight >= 0) quotes.weight.reserve(total);
+    quotes.row_hash.reserve(total);
+    quotes.line.reserve(total);
   }
 
   // Adds a chunk's rows for one item and heading to the item's conflict.
@@ -614,7 +742,21 @@ class PriceReader {
         return;
       }
     }
-    others.push_back({conflict.heading, conflict.num_rows, conflict.first_line});
+    others.push_back({conflict.heading, conflict.num_rows, conflict.first_line, path_});
+  }
+
+  // Appends `local` (or n times `fill` when empty) to `global`, which holds
+  // `before` values or none yet: an array stays empty until a file has it.
+  template <typename T>
+  static void AppendOrFill(const std::vector<T>& local, T fill, size_t n, std::vector<T>* global,
+                           size_t before) {
+    if (local.empty() && global->empty()) return;
+    if (global->empty()) global->assign(before, fill);
+    if (local.empty()) {
+      global->insert(global->end(), n, fill);
+    } else {
+      global->insert(global->end(), local.begin(), local.end());
+    }
   }
 
   int NumThreads(int num_chunks) const {
@@ -643,6 +785,7 @@ class PriceReader {
   void Merge(ChunkResult* result) {
     file_->rows_read += result->rows_read;
     file_->rows_used += result->rows_used;
+    state_->num_quotes_without_reference += result->num_rows_without_reference;
     for (RejectedRow& row : result->rejected) rejections_->Add(std::move(row), file_);
     rejections_->Count(result->num_rejected_not_kept, file_);
     rejections_->Count(result->num_cascade_not_kept, file_, RejectionCause::kRejectedCode);
@@ -666,12 +809,17 @@ class PriceReader {
         state_->item_origin.emplace_back();
         state_->item_description.emplace_back();
         state_->item_unit.emplace_back();
+        state_->item_reference_quantity.push_back(std::numeric_limits<double>::quiet_NaN());
       }
+      if (info.quantity_without_reference) state_->items_without_reference.insert(global);
       if (state_->item_heading[global] < 0 && info.local_heading >= 0) {
         // First statement of this item's heading (no items.csv entry).
         state_->item_heading[global] =
             state_->headings.Intern(result->headings.Code(info.local_heading));
-        state_->item_origin[global] = "line " + std::to_string(info.line);
+        // With several price files the origin names its file.
+        state_->item_origin[global] = state_->config->survey.prices.size() == 1
+                                          ? "line " + std::to_string(info.line)
+                                          : path_ + ":" + std::to_string(info.line);
       }
     }
     state_->num_quotes += result->rows_used;
@@ -682,14 +830,19 @@ class PriceReader {
       global.item.push_back(item_map[local.item[q]]);
     }
     global.log_price.insert(global.log_price.end(), local.log_price.begin(), local.log_price.end());
-    global.representative.insert(global.representative.end(), local.representative.begin(),
-                                 local.representative.end());
+    // A flag or weight column of some files only: the quotes of the others
+    // are not representative and weigh 1.
+    AppendOrFill(local.representative, uint8_t{0}, local.size(), &global.representative,
+                 global.item.size() - local.size());
+    AppendOrFill(local.weight, 1.0, local.size(), &global.weight,
+                 global.item.size() - local.size());
     global.row_hash.insert(global.row_hash.end(), local.row_hash.begin(), local.row_hash.end());
     global.line.insert(global.line.end(), local.line.begin(), local.line.end());
   }
 
  private:
   std::string path_;
+  const PriceSource& source_;
   const LoadOptions& options_;
   const ReadLimits& limits_;
   const CsvFormat format_;
@@ -705,9 +858,10 @@ class PriceReader {
 
 }  // namespace
 
-bool ReadPrices(const std::string& path, const LoadOptions& options, LoadState* state,
-                Rejections* rejections, InputFileSummary* file, std::string* error) {
-  PriceReader prices(path, options, state, rejections, file);
+bool ReadPrices(const PriceSource& source, const std::string& setting, const LoadOptions& options,
+                LoadState* state, Rejections* rejections, InputFileSummary* file,
+                std::string* error) {
+  PriceReader prices(source, setting, options, state, rejections, file);
   return prices.Read(error);
 }
 

@@ -4,6 +4,7 @@
 #include <algorithm>
 #include <cmath>
 #include <functional>
+#include <limits>
 #include <string>
 #include <unordered_map>
 #include <unordered_set>
@@ -274,6 +275,7 @@ bool ReadItems(const std::string& path, LoadState* state, Rejections* rejections
   auto handle = [&](const CsvRecord& record, const Columns& columns) -> RowVerdict {
     const int kItem = columns.index[0], kHeading = columns.index[1];
     const int kDescription = columns.index[2], kUnit = columns.index[3];
+    const int kReference = columns.index[4];
     const std::string_view item = Trim(record.fields[kItem]);
     const std::string_view heading = Trim(record.fields[kHeading]);
     if (std::string problem = CheckCode(item, "item"); !problem.empty()) {
@@ -288,6 +290,20 @@ bool ReadItems(const std::string& path, LoadState* state, Rejections* rejections
         return {kHeading + 1, "heading " + QuoteValue(heading) + " is not in the classification"};
       }
       heading_index = state->headings.Intern(heading);
+    }
+    double reference = std::numeric_limits<double>::quiet_NaN();
+    if (kReference >= 0 && !Trim(record.fields[kReference]).empty()) {
+      const std::string_view text = record.fields[kReference];
+      const char decimal = state->config->survey.items_format.decimal;
+      const NumberStatus status = ParseNumber(text, &reference, decimal);
+      if (status != NumberStatus::kOk) {
+        return {kReference + 1,
+                NumberProblem(status, "reference_quantity", text, decimal, "survey.items")};
+      }
+      if (!(reference > 0)) {
+        return {kReference + 1,
+                "reference_quantity " + QuoteValue(text) + " is not a positive number"};
+      }
     }
     const int existing = state->items.Find(item);
     if (existing >= 0) {
@@ -307,6 +323,7 @@ bool ReadItems(const std::string& path, LoadState* state, Rejections* rejections
     state->item_description.emplace_back(kDescription >= 0 ? Trim(record.fields[kDescription])
                                                            : std::string_view());
     state->item_unit.emplace_back(kUnit >= 0 ? Trim(record.fields[kUnit]) : std::string_view());
+    state->item_reference_quantity.push_back(reference);
     return {};
   };
   RejectedCodeCollector rejected("item", path);
@@ -315,7 +332,8 @@ bool ReadItems(const std::string& path, LoadState* state, Rejections* rejections
     rejected.Note(ValidCodeField(record, columns.index[0]), record.line, reason);
   };
   if (!ReadSmallTable(path, state->config->limits, state->config->survey.items_format,
-                      {"item", "heading", "description", "unit"}, {true, true, false, false},
+                      {"item", "heading", "description", "unit", "reference_quantity"},
+                      {true, true, false, false, false},
                       rejections, file, handle, on_reject, error))
     return false;
   rejected.Finish(state->items, state);

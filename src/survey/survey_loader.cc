@@ -74,6 +74,50 @@ std::string StopMessage(const LoadSummary& summary) {
   return message + "; fix them, or set invalid_rows: skip to leave them out";
 }
 
+// Reads the price files in the order given, each of which must hold a data row.
+bool ReadPriceFiles(const RunConfig& config, const LoadOptions& options, LoadState* state,
+                    Rejections* rejections, const std::vector<InputFileSummary*>& files,
+                    std::string* error) {
+  const std::vector<PriceSource>& sources = config.survey.prices;
+  for (size_t k = 0; k < sources.size(); ++k) {
+    const std::string setting =
+        sources.size() == 1 ? "survey.prices" : "survey.prices[" + std::to_string(k) + "]";
+    state->quote_file_begin.push_back(state->quotes.size());
+    if (!internal::ReadPrices(sources[k], setting, options, state, rejections, files[k], error)) {
+      return false;
+    }
+    if (files[k]->rows_read == 0) {
+      *error = files[k]->path + ": no data rows (only a header)";
+      return false;
+    }
+  }
+  return true;
+}
+
+// "quantities of 2 items (bread, flour: 40 quotes) were taken per 1 unit: the
+// items have no reference_quantity in items.csv".
+std::string WithoutReferenceWarning(const LoadState& state) {
+  constexpr size_t kMaxListed = 5;
+  std::vector<std::string> codes;
+  for (int item : state.items_without_reference) {
+    if (codes.size() == kMaxListed) {
+      codes.push_back("...");
+      break;
+    }
+    codes.emplace_back(state.items.Code(item));
+  }
+  const size_t n = state.items_without_reference.size();
+  const std::string where = state.config->survey.items.empty()
+                                ? "no items file (survey.items) gives a reference_quantity"
+                                : (n == 1 ? "the item has" : "the items have") +
+                                      std::string(" no reference_quantity in ") +
+                                      state.config->survey.items;
+  return "prices of " + FormatCount(static_cast<int64_t>(n)) + " item" + (n == 1 ? "" : "s") +
+         " (" + JoinNames(codes) + "; " + FormatCount(state.num_quotes_without_reference) +
+         " quotes) are per 1 unit of their quantity column: " + where +
+         "; parities do not depend on this unless some quotes of the item carry no quantity";
+}
+
 }  // namespace
 
 std::string RejectedCode::Describe() const {
@@ -92,7 +136,8 @@ std::string HeadingConflict::Describe(const std::string& prices_path) const {
   for (const Other& other : others) {
     rejected += other.num_rows;
     listed.push_back(QuoteValue(other.heading) + " in " + FormatCount(other.num_rows) +
-                     " (first at " + prices_path + ":" + std::to_string(other.first_line) + ")");
+                     " (first at " + (other.file.empty() ? prices_path : other.file) + ":" +
+                     std::to_string(other.first_line) + ")");
   }
   return "item " + QuoteValue(item) + " is filed under " + QuoteValue(heading_used) + " (" +
          origin_used + "; " + Rows(num_rows_used, "price") +
@@ -144,7 +189,7 @@ bool LoadOptions::IsValid(std::string* error) const {
 std::string LoadSummary::BriefReport() const {
   int64_t quotes = 0;
   for (const auto& file : files) {
-    if (file.role == "prices") quotes = file.rows_used;
+    if (file.role == "prices") quotes += file.rows_used;
   }
   return "read " + std::to_string(quotes) + " quotes; " + std::to_string(num_rows_rejected) +
          " row" + (num_rows_rejected == 1 ? "" : "s") + " rejected";
@@ -204,15 +249,21 @@ bool LoadSurvey(const RunConfig& config, const LoadOptions& options, Survey* sur
   const SurveyFiles& files = config.survey;
   summary->files = {
       describe("regions", files.regions, files.regions_format, !files.regions.empty()),
-      describe("items", files.items, files.items_format, !files.items.empty()),
-      describe("prices", files.prices, files.prices_format, true),
-      describe("expenditure", files.expenditure, files.expenditure_format, true)};
-  // Room for the external parities file, so the references below stay valid.
-  summary->files.reserve(5);
+      describe("items", files.items, files.items_format, !files.items.empty())};
+  // Room for every file, the external parities file last, so the references
+  // and pointers taken below stay valid.
+  summary->files.reserve(files.prices.size() + 4);
+  for (const PriceSource& source : files.prices) {
+    summary->files.push_back(describe("prices", source.path, source.format, true));
+    summary->files.back().columns = source.columns;
+  }
+  summary->files.push_back(
+      describe("expenditure", files.expenditure, files.expenditure_format, true));
   InputFileSummary& regions_file = summary->files[0];
   InputFileSummary& items_file = summary->files[1];
-  InputFileSummary& prices_file = summary->files[2];
-  InputFileSummary& expenditure_file = summary->files[3];
+  std::vector<InputFileSummary*> price_files;
+  for (size_t k = 0; k < files.prices.size(); ++k) price_files.push_back(&summary->files[2 + k]);
+  InputFileSummary& expenditure_file = summary->files.back();
 
   if (regions_file.given &&
       !internal::ReadRegions(regions_file.path, &state, &rejections, &regions_file, &error)) {
@@ -222,12 +273,11 @@ bool LoadSurvey(const RunConfig& config, const LoadOptions& options, Survey* sur
       !internal::ReadItems(items_file.path, &state, &rejections, &items_file, &error)) {
     return fail(error);
   }
-  if (!internal::ReadPrices(prices_file.path, options, &state, &rejections, &prices_file, &error)) {
+  if (!ReadPriceFiles(config, options, &state, &rejections, price_files, &error)) {
     return fail(error);
   }
-  if (prices_file.rows_read == 0) return fail(prices_file.path + ": no data rows (only a header)");
-  internal::HandleDuplicateQuotes(prices_file.path, config.duplicate_quotes, &state, &rejections,
-                                  &prices_file, summary);
+  internal::HandleDuplicateQuotes(config.duplicate_quotes, &state, &rejections, price_files,
+                                  summary);
   if (!internal::ReadExpenditure(expenditure_file.path, &state, &rejections, &expenditure_file,
                                  &error)) {
     return fail(error);
@@ -244,14 +294,24 @@ bool LoadSurvey(const RunConfig& config, const LoadOptions& options, Survey* sur
     }
   }
   summary->read_seconds = SecondsSince(start);
-  SummariseRejections(prices_file.path, &state, summary);
+  SummariseRejections(price_files[0]->path, &state, summary);
+  if (!state.items_without_reference.empty()) {
+    summary->warnings.push_back(WithoutReferenceWarning(state));
+  }
 
   if (summary->num_rows_rejected > 0 && options.invalid_rows == InvalidRowPolicy::kStop) {
     return fail(StopMessage(*summary));
   }
-  if (prices_file.rows_used == 0) {
-    return fail(prices_file.path + ": no usable price quotes (all " +
-                std::to_string(prices_file.rows_read) + " rows rejected)");
+  int64_t rows_read = 0, rows_used = 0;
+  for (const InputFileSummary* file : price_files) {
+    rows_read += file->rows_read;
+    rows_used += file->rows_used;
+  }
+  if (rows_used == 0) {
+    return fail((price_files.size() == 1 ? price_files[0]->path
+                                         : "survey.prices (" + std::to_string(price_files.size()) +
+                                               " files)") +
+                ": no usable price quotes (all " + std::to_string(rows_read) + " rows rejected)");
   }
 
   const auto cells_start = std::chrono::steady_clock::now();

@@ -168,7 +168,7 @@ TEST(RunRecordJson, WritesTextThatIsNotUtf8AsEscapesInsteadOfThrowing) {
   // command line once aborted compute with exit code 134.
   RunConfig config;
   config.config_path = "/data/r\xe9gions/run.yaml";
-  config.survey.prices = "/data/r\xe9gions/prices.csv";
+  config.survey.prices = {PriceSource{"/data/r\xe9gions/prices.csv", CsvFormat(), {}}};
   RunRecord record;
   record.command = "check";
   record.config = &config;

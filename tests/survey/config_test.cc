@@ -36,7 +36,7 @@ TEST(RunConfig, DefaultsAreValidOnceFilesAreGiven) {
   std::string error;
   EXPECT_FALSE(config.IsValid(&error));
   EXPECT_EQ(error, "no prices file given (survey.prices)");
-  config.survey.prices = "p.csv";
+  config.survey.prices = {PriceSource{"p.csv", CsvFormat(), {}}};
   config.survey.expenditure = "e.csv";
   EXPECT_TRUE(config.IsValid(&error)) << error;
   EXPECT_EQ(config.elementary, "cpd");
@@ -49,7 +49,7 @@ TEST(RunConfig, ResolvesPathsAgainstTheConfigurationFolder) {
   const RunConfig config = Parse(
       "survey:\n  prices: data/p.csv\n  expenditure: ../e.csv\n  regions: /abs/r.csv\n"
       "  items: ./i.csv\noutput: results\n");
-  EXPECT_EQ(config.survey.prices, "/cfg/data/p.csv");
+  EXPECT_EQ(config.survey.prices[0].path, "/cfg/data/p.csv");
   EXPECT_EQ(config.survey.expenditure, "/e.csv");
   EXPECT_EQ(config.survey.regions, "/abs/r.csv");
   EXPECT_EQ(config.survey.items, "/cfg/i.csv");
@@ -60,7 +60,7 @@ TEST(RunConfig, ResolvesPathsAgainstTheConfigurationFolder) {
 TEST(RunConfig, PutsTheDefaultOutputBesideTheConfiguration) {
   EXPECT_EQ(Parse(kSurvey).output, "/cfg/out");
   EXPECT_EQ(Parse(kSurvey, "run.yaml").output, "out");
-  EXPECT_EQ(Parse(kSurvey, "run.yaml").survey.prices, "p.csv");
+  EXPECT_EQ(Parse(kSurvey, "run.yaml").survey.prices[0].path, "p.csv");
 }
 
 TEST(RunConfig, ReadsEverySetting) {
@@ -125,9 +125,9 @@ TEST(RunConfig, ShortensAHugeUnknownKey) {
   EXPECT_EQ(ParseError(std::string(kSurvey) + "? " + std::string(100000, 'k') + "\n: 1\n"),
             "/cfg/run.yaml:4:3: unknown key '" + std::string(60, 'k') +
                 "...'; valid keys are: survey, classification, reference, elementary, aggregation, "
-                "invalid_rows, output, matrices, representative_weight, outlier_threshold, "
-                "outlier_fit, robust_errors, report, threads, limits, duplicate_quotes, "
-                "strict, checks, missing_parities, groups, labels");
+                "invalid_rows, output, matrices, representative_weight, cpd_cell_weights, "
+                "outlier_threshold, outlier_fit, robust_errors, report, threads, limits, "
+                "duplicate_quotes, strict, checks, missing_parities, groups, labels");
 }
 
 TEST(RunConfig, ListsTheValidKeysWhenNoneIsClose) {
@@ -249,7 +249,7 @@ TEST(RunConfig, ReadsAClassificationFileRelativeToTheConfiguration) {
   EXPECT_TRUE(config.has_classification);
   EXPECT_EQ(config.classification_source, dir + "/trees/tree.yaml");
   EXPECT_EQ(config.classification.HeadingCodes(), (std::vector<std::string>{"a", "b", "c"}));
-  EXPECT_EQ(config.survey.prices, dir + "/p.csv");
+  EXPECT_EQ(config.survey.prices[0].path, dir + "/p.csv");
 }
 
 TEST(RunConfig, ReportsClassificationFileErrorsInThatFile) {
@@ -409,7 +409,8 @@ TEST(RunConfig, ReadsTheDemoConfiguration) {
   ASSERT_TRUE(LoadRunConfig(SourcePath("config/demo.yaml"), &config, &error)) << error;
   EXPECT_TRUE(config.has_classification);
   EXPECT_EQ(config.classification.headings().size(), 29u);
-  EXPECT_TRUE(std::filesystem::exists(config.survey.prices)) << config.survey.prices;
+  EXPECT_TRUE(std::filesystem::exists(config.survey.prices[0].path))
+      << config.survey.prices[0].path;
   EXPECT_TRUE(std::filesystem::exists(config.survey.regions)) << config.survey.regions;
 }
 
@@ -420,9 +421,9 @@ TEST(RunConfig, ReadsADelimiterAndADecimalMarkPerFile) {
       "  expenditure:\n    path: e.csv\n    delimiter: tab\n"
       "  regions: {path: r.csv, delimiter: \"\\t\"}\n"
       "  items: i.csv\n");
-  EXPECT_EQ(config.survey.prices, "/cfg/p.csv");
-  EXPECT_EQ(config.survey.prices_format.delimiter, ';');
-  EXPECT_EQ(config.survey.prices_format.decimal, ',');
+  EXPECT_EQ(config.survey.prices[0].path, "/cfg/p.csv");
+  EXPECT_EQ(config.survey.prices[0].format.delimiter, ';');
+  EXPECT_EQ(config.survey.prices[0].format.decimal, ',');
   EXPECT_EQ(config.survey.expenditure, "/cfg/e.csv");
   EXPECT_EQ(config.survey.expenditure_format.delimiter, '\t');
   EXPECT_EQ(config.survey.expenditure_format.decimal, '.');

@@ -39,7 +39,7 @@ const char kExpenditure[] =
 struct SurveyDir {
   std::string dir;
   RunConfig config;
-  std::string prices() const { return config.survey.prices; }
+  std::string prices() const { return config.survey.prices[0].path; }
   std::string expenditure() const { return config.survey.expenditure; }
   std::string items() const { return dir + "/items.csv"; }
   std::string regions() const { return dir + "/regions.csv"; }
@@ -52,9 +52,9 @@ SurveyDir MakeSurvey(const std::string& name, const std::optional<std::string>& 
                         const std::optional<std::string>& regions = std::nullopt) {
   SurveyDir files;
   files.dir = MakeTempDir("loader_" + name);
-  files.config.survey.prices = files.dir + "/prices.csv";
+  files.config.survey.prices = {PriceSource{files.dir + "/prices.csv", CsvFormat(), {}}};
   files.config.survey.expenditure = files.dir + "/expenditure.csv";
-  if (prices) WriteTextFile(files.config.survey.prices, *prices);
+  if (prices) WriteTextFile(files.config.survey.prices[0].path, *prices);
   if (expenditure) WriteTextFile(files.config.survey.expenditure, *expenditure);
   if (items) {
     files.config.survey.items = files.items();
@@ -728,7 +728,7 @@ TEST(LoadSurvey, RefusesAFiftyMegabyteFieldUnlessTheLimitIsRaised) {
 // Devices and pipes report no size; reading stops at the limits.
 TEST(LoadSurvey, StopsAtTheLimitsOnDevZero) {
   SurveyDir files = MakeSurvey("dev_zero", std::nullopt);
-  files.config.survey.prices = "/dev/zero";
+  files.config.survey.prices = {PriceSource{"/dev/zero", CsvFormat(), {}}};
   EXPECT_EQ(LoadMessage(files),
             "/dev/zero:1:1: a field longer than 1 MiB (limits.max_field_bytes); "
             "raise the limit if the file is right");
@@ -737,7 +737,7 @@ TEST(LoadSurvey, StopsAtTheLimitsOnDevZero) {
             "/dev/zero:1: a record longer than 16 MiB "
             "(limits.max_record_bytes); raise the limit if the file is right");
   WriteTextFile(files.dir + "/prices.csv", kPrices);
-  files.config.survey.prices = files.dir + "/prices.csv";
+  files.config.survey.prices = {PriceSource{files.dir + "/prices.csv", CsvFormat(), {}}};
   files.config.survey.expenditure = "/dev/zero";
   files.config.limits.max_file_bytes = 1 << 20;
   EXPECT_EQ(LoadMessage(files),
@@ -772,7 +772,7 @@ TEST(LoadSurvey, ReadsPricesFromAPipe) {
   SurveyDir files = MakeSurvey("fifo", std::nullopt);
   const std::string fifo = files.dir + "/prices.fifo";
   ASSERT_EQ(::mkfifo(fifo.c_str(), 0600), 0);
-  files.config.survey.prices = fifo;
+  files.config.survey.prices = {PriceSource{fifo, CsvFormat(), {}}};
   std::thread writer([&fifo] {
     std::FILE* out = std::fopen(fifo.c_str(), "wb");
     if (out == nullptr) return;
@@ -1013,7 +1013,7 @@ TEST(LoadSurvey, ReadsSemicolonsAndDecimalCommasInEveryFile) {
       "european", "region;item;price;heading\nnorth;bread;2,5;food\nsouth;bread;\"3,75\";food\n",
       "region\theading\texpenditure\nnorth\tfood\t100,5\nsouth\tfood\t120\n", std::nullopt,
       "region;name;population\nnorth;North;1500,5\nsouth;\"South; coast\";2000\n");
-  files.config.survey.prices_format = {';', ','};
+  files.config.survey.prices[0].format = {';', ','};
   files.config.survey.expenditure_format = {'\t', ','};
   files.config.survey.regions_format = {';', ','};
   Survey survey;

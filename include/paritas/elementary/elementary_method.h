@@ -27,6 +27,10 @@ struct ElementaryOptions {
   std::string method = "cpd";
   // CPD weight of a representative cell (others weigh 1); 1 = unweighted.
   double representative_weight = 1.0;
+  // CPD methods: also weighs each cell by the sum of its quote weights
+  // (CellPrices::weight; no effect when the survey has none). Default false:
+  // cells weigh alike (config key cpd_cell_weights; README on the choice).
+  bool quote_weighted_cells = false;
   // Loss of robust-cpd (Huber by default) and its threshold in log points
   // (0: c x a scale re-estimated as the fit iterates; see CpdOptions).
   CpdLoss robust_loss = CpdLoss::kHuber;

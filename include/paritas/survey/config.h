@@ -74,6 +74,17 @@ std::string ToString(DuplicateQuotePolicy policy);
 bool FromString(const std::string& text, DuplicateQuotePolicy* policy);
 std::vector<std::string> DuplicateQuotePolicyNames();
 
+// How CPD weighs a cell (region x item) when prices.csv carries quote weights.
+enum class CpdCellWeights {
+  kEqual,         // every cell weighs 1 (times representative_weight); default
+  kQuoteWeights,  // a cell weighs the sum of its quote weights
+};
+
+std::string ToString(CpdCellWeights weights);
+// Case-insensitive ("equal", "quote-weights"); returns false for unknown names.
+bool FromString(const std::string& text, CpdCellWeights* weights);
+std::vector<std::string> CpdCellWeightsNames();
+
 // Thresholds of the plausibility checks run after compute (the `checks:`
 // section). Each check raises a warning (compute/plausibility.h).
 struct CheckThresholds {
@@ -106,16 +117,39 @@ struct CheckThresholds {
   bool IsValid(std::string* error) const;
 };
 
+// The columns of a price file paritas reads, in the order quotes are compared
+// for duplicates: region, item, price, heading, representative, weight,
+// quantity (see the README for what each holds).
+const std::vector<std::string>& PriceColumnNames();
+
+// One file of `survey.prices`: a path, or a mapping {path, delimiter,
+// decimal, columns}. Several files (a main survey, a rent file, a tariff
+// file) are read in the order given, as if one file.
+struct PriceSource {
+  std::string path;  // required
+  // Delimiter and decimal mark; default ',' and '.'.
+  CsvFormat format;
+  // Our column name -> the file's header, for the columns whose header
+  // differs (`columns: {region: area_code, price: amount}`); a column not
+  // listed is found under our name. Keys are among PriceColumnNames(), the
+  // headers distinct; in the order written.
+  std::vector<std::pair<std::string, std::string>> columns;
+
+  // Returns the file's header for our column `name` (`name` when not mapped).
+  std::string HeaderOf(std::string_view name) const;
+};
+
 // Paths of the survey files (absolute, or relative to the working folder
 // after resolution against the configuration's folder). Empty = not given.
 struct SurveyFiles {
-  std::string prices;       // required
+  // One or more price files (required); a single path reads exactly as a
+  // list of that one path.
+  std::vector<PriceSource> prices;
   std::string expenditure;  // required
   std::string regions;      // optional
   std::string items;        // optional
   // How each file is written: a file given as a mapping {path, delimiter,
   // decimal} in the configuration; default ',' and '.'.
-  CsvFormat prices_format;
   CsvFormat expenditure_format;
   CsvFormat regions_format;
   CsvFormat items_format;
@@ -168,6 +202,12 @@ struct RunConfig {
   // CPD weight of a representative cell relative to 1 for the others. 1 =
   // unweighted (default); 3 is common practice in international comparisons.
   double representative_weight = 1.0;
+  // CPD weight of a cell when the price files carry a `weight` column:
+  // equal (default; the quote weights enter the cell's geometric mean only)
+  // or quote-weights (also weigh each cell by the sum of its quote weights,
+  // times representative_weight). Why equal is the default: README, "Quote
+  // weights and quantities".
+  CpdCellWeights cpd_cell_weights = CpdCellWeights::kEqual;
   // Cells whose |standardised residual| exceeds this are listed as outliers.
   // 3.5 (default): beyond what normal errors give more than about once in
   // 2,000 cells, yet catches the gross errors (wrong unit, misplaced decimal)

@@ -17,17 +17,24 @@ namespace paritas {
 
 // Cell prices of all headings in structure-of-arrays form, sorted by heading,
 // then item, then region. A cell is one region x item with at least one
-// quote; its price is the geometric mean of the quotes.
+// quote; its price is the geometric mean of the quotes, weighted by the
+// quote weights when the price files carry them.
 struct CellPrices {
   std::vector<int32_t> region;      // region index
   std::vector<int32_t> item;        // item index (items are grouped by heading)
-  std::vector<double> log_price;    // mean of ln(quote)
-  std::vector<double> log_sd;       // standard deviation of ln(quote); 0 for one quote
+  // Mean of ln(quote): sum w ln p / sum w with quote weights w (1 without).
+  std::vector<double> log_price;
+  // Standard deviation of ln(quote); 0 for one quote. Weighted:
+  // sqrt(sum w (ln p - mean)^2 / (V1 - V2 / V1)), V1 = sum w, V2 = sum w^2.
+  std::vector<double> log_sd;
   std::vector<double> log_min;      // smallest ln(quote)
   std::vector<double> log_max;      // largest ln(quote)
   std::vector<int32_t> num_quotes;  // quotes behind the cell (>= 1)
   // 1 when at least one quote of the cell is flagged representative.
   std::vector<uint8_t> representative;
+  // Sum of the quote weights behind the cell; empty when no price file has
+  // a weight column.
+  std::vector<double> weight;
 
   size_t size() const { return region.size(); }
 };

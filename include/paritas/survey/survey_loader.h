@@ -6,6 +6,7 @@
 
 #include <cstdint>
 #include <string>
+#include <utility>
 #include <vector>
 
 #include "paritas/survey/config.h"
@@ -22,7 +23,7 @@ enum class RejectionCause {
 
 // A data row left out of the survey.
 struct RejectedRow {
-  std::string file;    // path as given in the configuration
+  std::string file;    // path as given in the configuration (the price file of the row)
   int64_t line = 0;    // 1-based line on which the row starts
   std::string reason;  // full message, e.g. "prices.csv:118:3: price '-4.10' is not a positive number"
   std::string raw;     // the row's text as read
@@ -62,6 +63,7 @@ struct HeadingConflict {
     std::string heading;
     int64_t num_rows = 0;  // rows rejected for stating it
     int64_t first_line = 0;
+    std::string file;  // the price file of first_line; empty = Describe's prices_path
   };
   std::vector<Other> others;  // in order of first appearance
 
@@ -72,7 +74,9 @@ struct HeadingConflict {
 
 // Accounting for one input file. rows_read = rows_used + rows_rejected.
 struct InputFileSummary {
-  std::string role;  // "regions", "items", "prices" or "expenditure"
+  // "regions", "items", "prices" or "expenditure"; one "prices" entry per
+  // price file, in the order of survey.prices.
+  std::string role;
   std::string path;
   // Delimiter and decimal mark the file was read with.
   CsvFormat format;
@@ -88,6 +92,9 @@ struct InputFileSummary {
   int64_t rows_rejected_by_cascade = 0;
   // Header columns that paritas does not use, in header order.
   std::vector<std::string> ignored_columns;
+  // Price files: survey.prices' column mapping (our name -> the file's
+  // header), empty when the headers are ours.
+  std::vector<std::pair<std::string, std::string>> columns;
 };
 
 struct LoadOptions {
@@ -117,9 +124,10 @@ struct LoadSummary {
   // rejected_codes and heading_conflicts).
   std::vector<RejectedRow> rejected_rows;
   int64_t num_rows_rejected = 0;
-  // Quote rows of prices.csv repeating an earlier row field for field (each
-  // repeat counted, the first row not), whatever duplicate_quotes did with
-  // them; and the first such pair, e.g. "prices.csv:57 repeats line 12".
+  // Quote rows repeating an earlier row field for field, in their price file
+  // or an earlier one (each repeat counted, the first row not), whatever
+  // duplicate_quotes did with them; and the first such pair, e.g.
+  // "prices.csv:57 repeats line 12" or "rents.csv:3 repeats prices.csv:40".
   int64_t num_duplicate_quotes = 0;
   std::string duplicate_example;
   DuplicateQuotePolicy duplicate_policy = DuplicateQuotePolicy::kKeep;
@@ -129,6 +137,8 @@ struct LoadSummary {
   std::vector<RejectedCode> rejected_codes;
   // Items filed under more than one heading, in order of the first conflict.
   std::vector<HeadingConflict> heading_conflicts;
+  // Problems that do not reject rows, e.g. quantities of items without a
+  // reference_quantity (taken per 1 unit).
   std::vector<std::string> warnings;
   double read_seconds = 0.0;   // reading and validating all files
   double cells_seconds = 0.0;  // building the cell table

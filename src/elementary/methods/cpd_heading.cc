@@ -37,12 +37,16 @@ void CollectCells(const HeadingInput& input, bool copies_for_multiplicity, CellB
   const Survey& survey = *input.survey;
   const HeadingRange& range = survey.heading_range[input.heading];
   const double representative_weight = input.options->representative_weight;
-  const bool weighted = !input.item_weight.empty() || representative_weight != 1.0;
+  const bool by_quote_weights =
+      input.options->quote_weighted_cells && !survey.cells.weight.empty();
+  const bool weighted =
+      !input.item_weight.empty() || representative_weight != 1.0 || by_quote_weights;
   cells->Clear();
   for (int64_t k = range.cell_begin; k < range.cell_end; ++k) {
     const double m = input.item_weight.empty() ? 1.0 : input.item_weight[survey.cells.item[k]];
     if (!(m > 0.0)) continue;
-    const double base = survey.cells.representative[k] ? representative_weight : 1.0;
+    const double base = (survey.cells.representative[k] ? representative_weight : 1.0) *
+                        (by_quote_weights ? survey.cells.weight[k] : 1.0);
     const int copies = copies_for_multiplicity ? static_cast<int>(std::lround(m)) : 1;
     for (int c = 0; c < copies; ++c) {
       cells->region.push_back(survey.cells.region[k]);
