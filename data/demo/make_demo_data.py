@@ -45,6 +45,7 @@ REGIONS = [
     ("quo", "Quorrin Forest", 175000, False, 0.75, 0.94, 0.90, 1.05, 0.95, 0.85),
 ]
 ISLAND_REGIONS = {"zel"}  # goods carry a shipping premium
+UTILITY_HEADINGS = {"water_supply", "electricity", "gas_heating"}  # priced in tariffs.csv
 
 
 def kind_level(kind, region):
@@ -404,9 +405,9 @@ def round_price(price, kind):
     return "%.2f" % price
 
 
-def write_csv(path, header, rows):
+def write_csv(path, header, rows, delimiter=","):
     with open(path, "w", newline="", encoding="utf-8") as f:
-        writer = csv.writer(f, lineterminator="\n")
+        writer = csv.writer(f, lineterminator="\n", delimiter=delimiter)
         writer.writerow(header)
         writer.writerows(rows)
 
@@ -511,8 +512,20 @@ def main():
     # other number stays as it was; its spending on rent stays in.
     rent_items = {i[0] for i in items if i[1] == "actual_rents"}
     price_rows = [row for row in price_rows if not (row[0] == "zel" and row[1] in rent_items)]
+    # Sources. Rents come from the housing register as hedonic parities with
+    # standard errors (rent_parities.csv, below), not as quotes, so the rent
+    # quotes drawn above are left out of the price files after every draw.
+    # Utility tariffs come from the regulator's tariff file (tariffs.csv) in
+    # its own layout: ';' between fields, decimal comma, its own headers.
+    price_rows = [row for row in price_rows if row[1] not in rent_items]
+    utility_items = {i[0] for i in items if i[1] in UTILITY_HEADINGS}
+    tariff_rows = [(row[0], row[1], row[2].replace(".", ","), row[4])
+                   for row in price_rows if row[1] in utility_items]
+    price_rows = [row for row in price_rows if row[1] not in utility_items]
     write_csv(os.path.join(out, "prices.csv"),
               ["region", "item", "price", "representative", "outlet"], price_rows)
+    write_csv(os.path.join(out, "tariffs.csv"), ["area", "tariff", "charge", "supplier"],
+              tariff_rows, delimiter=";")
 
     # --- expenditure.csv: shares tilt towards housing where rents are high,
     # towards food where incomes are low (Engel), towards eating out and leisure
@@ -573,12 +586,30 @@ def main():
     write_csv(os.path.join(out, "wages.csv"),
               ["record_id", "region", "occupation", "hourly_wage", "annual_earnings"], wage_rows)
 
+    # --- rent_parities.csv: the housing register's hedonic rent parities
+    # (national = 100) with their standard errors, drawn from their own random
+    # stream so every number above stays as it was. The island group is not
+    # in the register (its rent parity is imputed, see config/demo.yaml).
+    rent_rng = random.Random(SEED + 1)
+    rent_rows = []
+    for region in REGIONS:
+        code, _, population, _, rent = region[:5]
+        if code in ISLAND_REGIONS:
+            continue
+        log_se = 0.015 + 0.04 * math.sqrt(115000.0 / population)
+        level = rent * math.exp(heading_effect[code, "actual_rents"] + rent_rng.gauss(0.0, log_se))
+        rent_rows.append(("actual_rents", code, "%.2f" % (100.0 * level), "%.4f" % log_se))
+    write_csv(os.path.join(out, "rent_parities.csv"), ["heading", "region", "parity", "log_se"],
+              rent_rows)
+
     # --- classification.yaml
     with open(os.path.join(out, "classification.yaml"), "w", encoding="utf-8") as f:
         f.write(classification_yaml())
 
-    print("wrote %d regions, %d headings, %d items, %d quotes, %d wage records to %s"
-          % (len(REGIONS), len(HEADINGS), len(items), len(price_rows), len(wage_rows), out))
+    print("wrote %d regions, %d headings, %d items, %d quotes and %d tariffs, %d rent parities, "
+          "%d wage records to %s"
+          % (len(REGIONS), len(HEADINGS), len(items), len(price_rows), len(tariff_rows),
+             len(rent_rows), len(wage_rows), out))
 
 
 if __name__ == "__main__":

@@ -9,6 +9,7 @@
 
 #include "paritas/base/csv.h"
 #include "paritas/base/text.h"
+#include "paritas/compute/imputation.h"
 
 namespace paritas {
 namespace {
@@ -233,6 +234,9 @@ class Checker {
       const NodeResult& node = result_.nodes[HeadingNode(h)];
       for (int r = 0; r < survey_.num_regions(); ++r) {
         if (!std::isfinite(node.parity(r))) continue;
+        // External and imputed parities rest on no quotes here: their own
+        // warnings (and log_se) speak for them.
+        if (IsPricedElsewhere(h, r)) continue;
         const int items = node.num_items(r), quotes = node.num_quotes(r);
         const bool few_items = !single && items < checks_.min_items;
         if (!few_items && quotes >= checks_.min_quotes) continue;
@@ -244,6 +248,16 @@ class Checker {
                 std::to_string(checks_.min_quotes) + ")");
       }
     }
+  }
+
+  // True when region r's parity of heading h came from the external file or
+  // a missing_parities rule rather than from quotes.
+  bool IsPricedElsewhere(int h, int r) const {
+    const Eigen::MatrixXi& source = result_.heading_source;
+    if (r >= source.rows() || h >= source.cols()) return false;
+    const int s = source(r, h);
+    return s == static_cast<int>(ParitySource::kExternal) ||
+           s == static_cast<int>(ParitySource::kImputed);
   }
 
   void CheckLevels() {

@@ -56,8 +56,8 @@ TEST(ComputeCommand, WritesEveryDocumentedOutputOfTheDemo) {
   const std::vector<std::string> first(rows[0].begin(), rows[0].begin() + 7);
   EXPECT_EQ(first, (std::vector<std::string>{"node", "kind", "region", "parity", "expenditure",
                                              "real_expenditure", "real_per_capita_index"}));
-  // 16 regions x (29 headings + 11 aggregates).
-  EXPECT_EQ(rows.size(), 1u + 16u * 40u);
+  // 16 regions x (29 headings + 11 aggregates + 2 groups).
+  EXPECT_EQ(rows.size(), 1u + 16u * 42u);
 }
 
 // The demo shows what the warnings are for: its two planted recording errors
@@ -187,7 +187,8 @@ TEST(ComputeCommand, RunRecordReconcilesRowsAndNamesEveryInput) {
   EXPECT_EQ(record["run_id"].get<std::string>().size(), 32u);
   EXPECT_EQ(record["command"], "compute");
   EXPECT_EQ(record["outcome"], "ok");
-  ASSERT_EQ(record["inputs"].size(), 4u);
+  // regions, items, the two price files, expenditure and the external rent parities.
+  ASSERT_EQ(record["inputs"].size(), 6u);
   for (const auto& input : record["inputs"]) {
     EXPECT_EQ(input["rows_read"].get<int64_t>(),
               input["rows_used"].get<int64_t>() + input["rows_rejected"].get<int64_t>());
@@ -236,7 +237,7 @@ TEST(ComputeCommand, CommandLineOverridesTheReference) {
       EXPECT_EQ(row[3], "100") << row[0];
     }
   }
-  EXPECT_NE(out.find("parities for 'all' (cap = 100)"), std::string::npos) << out;
+  EXPECT_NE(out.find("parities for 'all' (All items) (cap = 100)"), std::string::npos) << out;
 }
 
 TEST(ComputeCommand, PrintsTheRootTableAndTheCautions) {

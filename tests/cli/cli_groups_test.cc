@@ -67,7 +67,7 @@ TEST(GroupsCommand, ComputeWritesGroupsAndLabelsEverywhere) {
   EXPECT_NE(out.find("Northmarch"), std::string::npos) << out;
 
   const std::string csv = ReadTextFile(dir + "/out/parities.csv");
-  EXPECT_NE(csv.find(",num_headings,label,basket_share,warnings\n"), std::string::npos);
+  EXPECT_NE(csv.find(",share_external,label,basket_share,warnings\n"), std::string::npos);
   EXPECT_NE(csv.find("\nall_but_housing,group,r1,"), std::string::npos);
   EXPECT_NE(csv.find(",All items without housing,"), std::string::npos);
   // A label with a comma-free special character is written as is.

@@ -184,7 +184,8 @@ TEST(Groups, AreWrittenToParitiesCsvAsKindGroupWithTheirLabels) {
   const std::string csv = ParitiesCsv(run.survey, run.result, nullptr);
   EXPECT_EQ(csv.substr(0, csv.find('\n')),
             "node,kind,region,parity,expenditure,real_expenditure,real_per_capita_index,"
-            "log_se,log_se_robust,rank,num_items,num_quotes,num_headings,label");
+            "log_se,log_se_robust,rank,num_items,num_quotes,num_headings,source,share_priced,"
+            "share_imputed,share_external,label");
   // Each node's row for r1 (and r6) ends with its label, empty when none.
   auto row = [&csv](const std::string& start) {
     const size_t at = csv.find("\n" + start);
@@ -195,7 +196,7 @@ TEST(Groups, AreWrittenToParitiesCsvAsKindGroupWithTheirLabels) {
   EXPECT_TRUE(row("rent,heading,r1,").ends_with(",Actual rents"));
   const std::string food = row("food,aggregate,r1,");
   EXPECT_TRUE(food.ends_with(",")) << food;
-  EXPECT_EQ(std::count(food.begin(), food.end(), ','), 13) << food;  // 14 columns
+  EXPECT_EQ(std::count(food.begin(), food.end(), ','), 17) << food;  // 18 columns
   EXPECT_TRUE(row("all_but_housing,group,r6,").ends_with(",All items without housing"));
   EXPECT_TRUE(row("mixed,group,r1,").ends_with(","));
   // 14 nodes x 6 regions and the header.

@@ -461,6 +461,35 @@ TEST(Imputation, PartialBasketWarningSaysHowMuchRestsOnImputedParities) {
   EXPECT_DOUBLE_EQ(checks.basket_share(run.survey.classification.FindNode("rent"), 3), 0.0);
 }
 
+TEST(ExternalParities, RaiseNoThinEvidenceWarningForParitiesWithoutQuotes) {
+  // Rent parities from the file rest on no quotes of this survey, nor does
+  // D's rent imputed by rule parent; the thin-evidence check is about quotes,
+  // so neither may raise it (both did, once per region, before the check knew
+  // the parity's source).
+  const std::string folder = MakeTempDir("external_thin");
+  WriteSurvey(folder);
+  WriteTextFile(folder + "/rents.csv",
+                "heading,region,parity\nrent,A,1.0\nrent,B,1.25\nrent,C,0.9\nrent,D,1.1\n");
+  Computed run;
+  LoadAndCompute(folder, "  external_parities: rents.csv\n" + std::string(kTree), &run);
+  const PlausibilityResult checks = CheckPlausibility(run.survey, run.result, run.config);
+  for (const RunWarning& w : checks.warnings) {
+    EXPECT_FALSE(w.kind == "thin-evidence" && w.node == "rent") << w.text;
+  }
+  // The same survey without the file, D's rent imputed: rent from one quote
+  // is thin in A, B and C, and D is not named.
+  Computed priced;
+  LoadAndCompute(folder, std::string(kTree) + "missing_parities: {default: parent}\n", &priced);
+  ASSERT_EQ(priced.result.heading_source(3, 2), static_cast<int>(ParitySource::kImputed));
+  const PlausibilityResult priced_checks =
+      CheckPlausibility(priced.survey, priced.result, priced.config);
+  std::vector<std::string> thin_regions;
+  for (const RunWarning& w : priced_checks.warnings) {
+    if (w.kind == "thin-evidence" && w.node == "rent") thin_regions.push_back(w.region);
+  }
+  EXPECT_EQ(thin_regions, (std::vector<std::string>{"A", "B", "C"}));
+}
+
 TEST(ExternalParities, SourceColumnsSayWhatEachAggregateRestsOn) {
   const std::string folder = MakeTempDir("imputation_columns");
   WriteSurvey(folder);
@@ -473,7 +502,8 @@ TEST(ExternalParities, SourceColumnsSayWhatEachAggregateRestsOn) {
   ASSERT_NE(housing, std::string::npos);
   const std::string line = csv.substr(housing + 1, csv.find('\n', housing + 1) - housing - 1);
   const std::string tail = line.substr(line.find(",mixed,"));
-  EXPECT_EQ(tail, ",mixed,0.4117647058823529,0.5882352941176471,0");
+  // The label column follows the shares (empty here).
+  EXPECT_EQ(tail, ",mixed,0.4117647058823529,0.5882352941176471,0,");
   EXPECT_NE(csv.find("num_headings,source,share_priced,share_imputed,share_external"),
             std::string::npos);
 }
