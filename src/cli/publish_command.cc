@@ -16,7 +16,8 @@ int RunPublishCommand(const PublishArguments& arguments) {
   options.intervals = !arguments.no_intervals;
   double number = 0.0;
   if (arguments.decimals) {
-    if (!ParseWholeOption("--decimals", *arguments.decimals, 0, 6, &number)) return kExitInvalidInput;
+    if (!ParseWholeOption("--decimals", *arguments.decimals, 0, 6, &number))
+      return kExitInvalidInput;
     options.decimals = static_cast<int>(number);
   }
   if (arguments.depth) {

@@ -75,7 +75,8 @@ bool ParseOptional(const std::string& path, const TableRow& row, int k, const ch
   if (row.fields[k].empty()) return true;
   const NumberStatus status = ParseNumber(row.fields[k], value);
   if (status == NumberStatus::kOk) return true;
-  *error = LocatedMessage(path, row.line, row.columns[k], NumberProblem(status, what, row.fields[k]));
+  *error =
+      LocatedMessage(path, row.line, row.columns[k], NumberProblem(status, what, row.fields[k]));
   return false;
 }
 
@@ -165,7 +166,8 @@ bool ReadRegionNames(const RunConfig& config, const Json& record, const ReadLimi
   if (now != then) {
     *error = path + ": the regions file is not the one the run read (SHA-256 " +
              (then.empty() ? std::string("not recorded") : then.substr(0, 12) + "...") +
-             " in run.json, " + now.substr(0, 12) + "... now); rerun compute or give the "
+             " in run.json, " + now.substr(0, 12) +
+             "... now); rerun compute or give the "
              "configuration of this run with --config";
     return false;
   }
@@ -179,7 +181,8 @@ bool ReadRegionNames(const RunConfig& config, const Json& record, const ReadLimi
   if (code_column < 0 || name_column < 0) return true;
   while (reader.Next(&row)) {
     if (static_cast<int>(row.fields.size()) <= std::max(code_column, name_column)) continue;
-    (*names)[std::string(Trim(row.fields[code_column]))] = std::string(Trim(row.fields[name_column]));
+    (*names)[std::string(Trim(row.fields[code_column]))] =
+        std::string(Trim(row.fields[name_column]));
   }
   return true;
 }
@@ -357,8 +360,7 @@ bool CheckPaths(const PublishOptions& options,
 }
 
 bool WriteFiles(const PublishOptions& options, PublishSummary* summary, std::string* error) {
-  const std::vector<std::string> notes =
-      summary->notes.Lines(options.decimals, options.order);
+  const std::vector<std::string> notes = summary->notes.Lines(options.decimals, options.order);
   if (!options.xlsx_path.empty()) {
     if (!WritePublicationWorkbook(options.xlsx_path, summary->tables, notes, options.decimals,
                                   error)) {
@@ -483,7 +485,11 @@ bool Publish(const PublishOptions& options, PublishSummary* summary) {
                 ": names no configuration; give it with --config");
   }
   RunConfig config;
-  if (!LoadRunConfig(config_path, &config, &error)) return fail("the run's configuration: " + error);
+  if (!LoadRunConfig(config_path, &config, &error))
+    {
+    return fail("the run's configuration: " + error +
+                "; give the configuration of this run with --config");
+  }
   std::map<std::string, std::string> names;
   if (!ReadRegionNames(config, record, options.limits, &names, &error)) return fail(error);
   RunFigures figures;
@@ -495,7 +501,8 @@ bool Publish(const PublishOptions& options, PublishSummary* summary) {
         std::vector<std::string>(figures.nodes.begin() + 1, figures.nodes.end()), figures.nodes[0]);
   }
   if (!CheckNodes(figures, config, &error)) return fail(error);
-  const std::string bootstrap = (fs::path(options.run_dir) / "sensitivity" / "bootstrap.csv").string();
+  const std::string bootstrap =
+      (fs::path(options.run_dir) / "sensitivity" / "bootstrap.csv").string();
   std::error_code ec;
   const bool intervals = options.intervals && fs::exists(bootstrap, ec);
   if (intervals && !ReadBootstrapCsv(options, bootstrap, &figures, &error)) return fail(error);
@@ -506,7 +513,8 @@ bool Publish(const PublishOptions& options, PublishSummary* summary) {
   if (!config.survey.regions.empty()) inputs.push_back({config.survey.regions, "regions file"});
   if (intervals) inputs.push_back({bootstrap, "intervals"});
   if (!CheckPaths(options, inputs, &error)) return fail(error);
-  const std::string reference = RecordText(record.value("configuration", Json::object()), "reference");
+  const std::string reference =
+      RecordText(record.value("configuration", Json::object()), "reference");
   BuildTables(options, config, figures, names, reference, summary);
   FillNotes(record, summary->run_id, options.run_dir, intervals, &summary->notes);
   if (!WriteFiles(options, summary, &error)) return fail(error);

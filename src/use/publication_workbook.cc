@@ -64,11 +64,14 @@ struct Formats {
 
 lxw_error WriteTable(lxw_worksheet* sheet, const PublicationTable& table, const Formats& formats) {
   lxw_error status = worksheet_write_string(sheet, 0, 0, table.title.c_str(), formats.bold);
-  const std::string note = "Rows: regions; columns: classification nodes. An empty cell: no figure.";
+  const std::string note =
+      "Rows: regions; columns: classification nodes. An empty cell: no figure.";
   if (status == LXW_NO_ERROR) status = worksheet_write_string(sheet, 1, 0, note.c_str(), nullptr);
   constexpr lxw_row_t kHeaderRow = 3;
-  if (status == LXW_NO_ERROR) status = worksheet_write_string(sheet, kHeaderRow, 0, "region", formats.bold);
-  if (status == LXW_NO_ERROR) status = worksheet_write_string(sheet, kHeaderRow, 1, "name", formats.bold);
+  if (status == LXW_NO_ERROR)
+    status = worksheet_write_string(sheet, kHeaderRow, 0, "region", formats.bold);
+  if (status == LXW_NO_ERROR)
+    status = worksheet_write_string(sheet, kHeaderRow, 1, "name", formats.bold);
   double name_width = 8.0;
   for (size_t c = 0; c < table.columns.size() && status == LXW_NO_ERROR; ++c) {
     status = worksheet_write_string(sheet, kHeaderRow, static_cast<lxw_col_t>(c + 2),
@@ -85,8 +88,8 @@ lxw_error WriteTable(lxw_worksheet* sheet, const PublicationTable& table, const 
       const double value = table.values[r][c];
       // An empty cell, not a zero: the region has no figure there.
       if (!std::isfinite(value)) continue;
-      status = worksheet_write_number(sheet, row, static_cast<lxw_col_t>(c + 2), value,
-                                      formats.number);
+      status =
+          worksheet_write_number(sheet, row, static_cast<lxw_col_t>(c + 2), value, formats.number);
     }
   }
   if (status != LXW_NO_ERROR) return status;
@@ -102,7 +105,8 @@ lxw_error WriteNotes(lxw_worksheet* sheet, const std::vector<std::string>& notes
   lxw_error status = worksheet_write_string(sheet, 0, 0, "Notes", formats.bold);
   for (size_t k = 0; k < notes.size() && status == LXW_NO_ERROR; ++k) {
     if (notes[k].empty()) continue;
-    status = worksheet_write_string(sheet, static_cast<lxw_row_t>(k + 2), 0, notes[k].c_str(), nullptr);
+    status =
+        worksheet_write_string(sheet, static_cast<lxw_row_t>(k + 2), 0, notes[k].c_str(), nullptr);
   }
   worksheet_set_column(sheet, 0, 0, 120.0, nullptr);
   return status;
@@ -145,12 +149,14 @@ bool WritePublicationWorkbook(const std::string& path, const std::vector<Publica
   lxw_error status = LXW_NO_ERROR;
   for (const PublicationTable& table : tables) {
     lxw_worksheet* sheet = workbook_add_worksheet(workbook, table.sheet.c_str());
-    status = sheet == nullptr ? LXW_ERROR_NULL_PARAMETER_IGNORED : WriteTable(sheet, table, formats);
+    status =
+        sheet == nullptr ? LXW_ERROR_NULL_PARAMETER_IGNORED : WriteTable(sheet, table, formats);
     if (status != LXW_NO_ERROR) break;
   }
   if (status == LXW_NO_ERROR) {
     lxw_worksheet* sheet = workbook_add_worksheet(workbook, "Notes");
-    status = sheet == nullptr ? LXW_ERROR_NULL_PARAMETER_IGNORED : WriteNotes(sheet, notes, formats);
+    status =
+        sheet == nullptr ? LXW_ERROR_NULL_PARAMETER_IGNORED : WriteNotes(sheet, notes, formats);
   }
   // workbook_close writes the file and frees the workbook whatever happened.
   const lxw_error closed = workbook_close(workbook);
@@ -160,7 +166,8 @@ bool WritePublicationWorkbook(const std::string& path, const std::vector<Publica
     return false;
   }
   std::string contents;
-  if (!ReadWholeFile(staged, kMaxWorkbookBytes, LimitAdvice("the workbook size"), &contents, error)) {
+  if (!ReadWholeFile(staged, kMaxWorkbookBytes, LimitAdvice("the workbook size"), &contents,
+                     error)) {
     *error = path + ": " + *error;
     return false;
   }
@@ -174,10 +181,11 @@ std::vector<std::string> PublicationNotes::Lines(int decimals, PublicationOrder 
       "= 100 (see Reference below). A level of 110 means prices 10 % above the reference.",
       "Real per head: real expenditure per head (expenditure divided by the price level, then "
       "by population) as an index, country = 100; present when the survey gives populations.",
-      "Figures are rounded to " + std::to_string(decimals) + " decimal" + (decimals == 1 ? "" : "s") +
-          "; regions are sorted by " +
-          (order == PublicationOrder::kCode ? std::string("code")
-                                            : std::string("price level at the root, dearest first")) +
+      "Figures are rounded to " + std::to_string(decimals) + " decimal" +
+          (decimals == 1 ? "" : "s") + "; regions are sorted by " +
+          (order == PublicationOrder::kCode
+               ? std::string("code")
+               : std::string("price level at the root, dearest first")) +
           ".",
       "",
       "Methods",

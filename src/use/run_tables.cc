@@ -24,7 +24,6 @@ std::string ListedNames(const std::vector<std::string>& names) {
          ", ... (" + std::to_string(names.size()) + " columns)";
 }
 
-
 // Reads a CSV table whole, up to limits.max_file_bytes, and hands each data
 // row to `handle`, which returns false with a message to stop. Returns
 // false with a message naming the file.
@@ -128,7 +127,8 @@ std::string SensitivityAdvice(const std::string& parities_dir) {
 // settings as the parities beside them (run.json of each); otherwise a real
 // value would be bracketed by the interval of another comparison.
 bool SameRunSettings(const std::string& parities_dir, std::string* error) {
-  const std::string sensitivity_dir = (std::filesystem::path(parities_dir) / "sensitivity").string();
+  const std::string sensitivity_dir =
+      (std::filesystem::path(parities_dir) / "sensitivity").string();
   std::string compute_id, compute_json, sensitivity_id, sensitivity_json;
   if (!ReadRunRecord(parities_dir, &compute_id, &compute_json, error) ||
       !ReadRunRecord(sensitivity_dir, &sensitivity_id, &sensitivity_json, error)) {

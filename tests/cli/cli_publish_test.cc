@@ -19,10 +19,10 @@ using testing::SourcePath;
 TEST(PublishCommand, PublishesTheDemoRunAsCsvTables) {
   const std::string dir = MakeTempDir("cli_publish_demo");
   std::string out, err;
-  ASSERT_EQ(RunCli("compute " + SourcePath("config/demo.yaml") + " --output " + dir +
-                       "/run --no-report",
-                   &out, &err),
-            0)
+  ASSERT_EQ(
+      RunCli("compute " + SourcePath("config/demo.yaml") + " --output " + dir + "/run --no-report",
+             &out, &err),
+      0)
       << err;
   ASSERT_EQ(RunCli("publish " + dir + "/run --csv " + dir + "/levels.csv --depth 1 --sort LEVEL",
                    &out, &err),
@@ -61,10 +61,12 @@ TEST(PublishCommand, RefusesBadArgumentsWithExitCodeOne) {
        "paritas: error: --depth must be a whole number from 0 to 1000, found '-1'\n"},
       {base + " --sort size", "paritas: error: --sort 'size' is not one of: code, level\n"},
       {base + " --xlsx " + dir + "/t.ods",
-       "paritas: error: --xlsx '" + dir + "/t.ods': a workbook's name must end in .xlsx, found "
-       "'.ods'\n"},
-      {base, "paritas: error: " + dir + "/run/run.json: cannot open file: No such file or "
-             "directory\n"},
+       "paritas: error: --xlsx '" + dir +
+           "/t.ods': a workbook's name must end in .xlsx, found "
+           "'.ods'\n"},
+      {base, "paritas: error: " + dir +
+                 "/run/run.json: cannot open file: No such file or "
+                 "directory\n"},
   };
   for (const Case& c : cases) {
     std::string out, err;

@@ -30,11 +30,17 @@ std::string Digest(const std::string& text) {
 std::string RunJson(const std::string& dir, const std::string& command,
                     const std::string& reference, const std::string& extra) {
   return "{\"schema_version\": 2, \"tool\": {\"name\": \"paritas\", \"version\": \"0.1.0\"},"
-         " \"run_id\": \"" + command + "-run\", \"command\": \"" + command + "\","
-         " \"configuration\": {\"config_path\": \"" + dir + "/run.yaml\", \"reference\": \"" +
-         reference + "\", \"elementary\": \"cpd\", \"aggregation\": \"geks-fisher\"},"
-         " \"inputs\": [{\"role\": \"regions\", \"path\": \"" + dir + "/regions.csv\","
-         " \"sha256\": \"" + Digest(kRegions) + "\"}]" + extra + "}";
+         " \"run_id\": \"" +
+         command + "-run\", \"command\": \"" + command +
+         "\","
+         " \"configuration\": {\"config_path\": \"" +
+         dir + "/run.yaml\", \"reference\": \"" + reference +
+         "\", \"elementary\": \"cpd\", \"aggregation\": \"geks-fisher\"},"
+         " \"inputs\": [{\"role\": \"regions\", \"path\": \"" +
+         dir +
+         "/regions.csv\","
+         " \"sha256\": \"" +
+         Digest(kRegions) + "\"}]" + extra + "}";
 }
 
 // A run of three regions over all -> {food -> {bread, meat}, rent}. The
@@ -49,14 +55,15 @@ std::string MakeRun(const std::string& name) {
                 "  regions: regions.csv\n"
                 "classification:\n  all: [{food: [bread, meat]}, rent]\n");
   WriteTextFile(dir + "/run/run.json", RunJson(dir, "compute", "mean", ""));
-  WriteTextFile(dir + "/run/parities.csv",
-                "node,kind,region,parity,real_per_capita_index\n"
-                "all,aggregate,nor,97.04,110.04\nall,aggregate,sou,104.26,95.55\n"
-                "all,aggregate,wes,99.95,101.449\n"
-                "food,aggregate,nor,98.25,1\nfood,aggregate,sou,101.45,2\nfood,aggregate,wes,100,3\n"
-                "bread,heading,nor,90,\nbread,heading,sou,111.111,\nbread,heading,wes,,\n"
-                "meat,heading,nor,100,\nmeat,heading,sou,100,\nmeat,heading,wes,100,\n"
-                "rent,heading,nor,80,\nrent,heading,sou,120,\nrent,heading,wes,104.9999,\n");
+  WriteTextFile(
+      dir + "/run/parities.csv",
+      "node,kind,region,parity,real_per_capita_index\n"
+      "all,aggregate,nor,97.04,110.04\nall,aggregate,sou,104.26,95.55\n"
+      "all,aggregate,wes,99.95,101.449\n"
+      "food,aggregate,nor,98.25,1\nfood,aggregate,sou,101.45,2\nfood,aggregate,wes,100,3\n"
+      "bread,heading,nor,90,\nbread,heading,sou,111.111,\nbread,heading,wes,,\n"
+      "meat,heading,nor,100,\nmeat,heading,sou,100,\nmeat,heading,wes,100,\n"
+      "rent,heading,nor,80,\nrent,heading,sou,120,\nrent,heading,wes,104.9999,\n");
   return dir;
 }
 
@@ -160,12 +167,14 @@ TEST(Publication, SortsByRootLevelDearestFirstAndCutsAtDepth) {
 
 TEST(Publication, AddsIntervalColumnsFromAMatchingSensitivityRun) {
   const std::string dir = MakeRun("publish_intervals");
-  WriteTextFile(dir + "/run/sensitivity/run.json",
-                RunJson(dir, "sensitivity", "mean",
-                        ", \"sensitivity\": {\"settings\": {\"level\": 0.9, \"replicates\": 200}}"));
-  WriteTextFile(dir + "/run/sensitivity/bootstrap.csv",
-                "node,region,lower,upper\nall,nor,95.04,99.06\nall,sou,101,107.5\nrent,wes,100,110\n"
-                "all,elsewhere,1,2\n");
+  WriteTextFile(
+      dir + "/run/sensitivity/run.json",
+      RunJson(dir, "sensitivity", "mean",
+              ", \"sensitivity\": {\"settings\": {\"level\": 0.9, \"replicates\": 200}}"));
+  WriteTextFile(
+      dir + "/run/sensitivity/bootstrap.csv",
+      "node,region,lower,upper\nall,nor,95.04,99.06\nall,sou,101,107.5\nrent,wes,100,110\n"
+      "all,elsewhere,1,2\n");
   PublishOptions options = OptionsFor(dir);
   options.max_depth = 0;
   PublishSummary summary;
@@ -190,12 +199,17 @@ TEST(Publication, RefusesIntervalsOfARunOnOtherSettings) {
   WriteTextFile(dir + "/run/sensitivity/bootstrap.csv", "node,region,lower,upper\n");
   PublishSummary summary;
   EXPECT_FALSE(Publish(OptionsFor(dir), &summary));
-  EXPECT_EQ(summary.message,
-            "the intervals in " + dir + "/run/sensitivity come from a sensitivity run on other "
-            "inputs or settings than the parities in " + dir + "/run (\"this run\" = the "
-            "parities): reference: mean in this run, nor in the other; run 'paritas sensitivity " +
-            dir + "/run.yaml --output " + dir + "/run' with the configuration and options of "
-            "the compute run; or publish without intervals (--no-intervals)");
+  EXPECT_EQ(
+      summary.message,
+      "the intervals in " + dir +
+          "/run/sensitivity come from a sensitivity run on other "
+          "inputs or settings than the parities in " +
+          dir +
+          "/run (\"this run\" = the "
+          "parities): reference: mean in this run, nor in the other; run 'paritas sensitivity " +
+          dir + "/run.yaml --output " + dir +
+          "/run' with the configuration and options of "
+          "the compute run; or publish without intervals (--no-intervals)");
   EXPECT_FALSE(std::filesystem::exists(dir + "/levels.csv"));
 }
 
@@ -205,9 +219,11 @@ TEST(Publication, RefusesARegionsFileChangedSinceTheRun) {
   PublishSummary summary;
   EXPECT_FALSE(Publish(OptionsFor(dir), &summary));
   const std::string then = Digest(kRegions), now = Digest("region,name\nnor,Elsewhere\n");
-  EXPECT_EQ(summary.message, dir + "/regions.csv: the regions file is not the one the run read "
-                             "(SHA-256 " + then.substr(0, 12) + "... in run.json, " +
-                                 now.substr(0, 12) + "... now); rerun compute or give the "
+  EXPECT_EQ(summary.message, dir +
+                                 "/regions.csv: the regions file is not the one the run read "
+                                 "(SHA-256 " +
+                                 then.substr(0, 12) + "... in run.json, " + now.substr(0, 12) +
+                                 "... now); rerun compute or give the "
                                  "configuration of this run with --config");
 }
 
@@ -229,7 +245,8 @@ TEST(Publication, RefusesOutputsInsideTheRunFolderOrOverAnInput) {
   PublishSummary summary;
   EXPECT_FALSE(Publish(options, &summary));
   EXPECT_EQ(summary.message, "--xlsx '" + dir + "/run/tables.xlsx' lies inside the run folder " +
-                                 dir + "/run, which compute replaces whole; write the tables "
+                                 dir +
+                                 "/run, which compute replaces whole; write the tables "
                                  "elsewhere");
   options = OptionsFor(dir);
   options.csv_path = dir + "/regions.csv";
@@ -240,13 +257,27 @@ TEST(Publication, RefusesOutputsInsideTheRunFolderOrOverAnInput) {
                                  "file");
 }
 
+TEST(Publication, RefusesAMissingConfigurationAndPointsToConfigOption) {
+  const std::string dir = MakeRun("publish_no_config");
+  std::filesystem::rename(dir + "/run.yaml", dir + "/moved.yaml");
+  PublishSummary summary;
+  EXPECT_FALSE(Publish(OptionsFor(dir), &summary));
+  EXPECT_EQ(summary.message, "the run's configuration: " + dir +
+                                 "/run.yaml: cannot open file: No such file or directory; give "
+                                 "the configuration of this run with --config");
+  PublishOptions options = OptionsFor(dir);
+  options.config_path = dir + "/moved.yaml";
+  EXPECT_TRUE(Publish(options, &summary)) << summary.message;
+}
+
 TEST(Publication, RefusesAFolderOfAnotherCommand) {
   const std::string dir = MakeRun("publish_not_compute");
   WriteTextFile(dir + "/run/run.json", RunJson(dir, "sensitivity", "mean", ""));
   PublishSummary summary;
   EXPECT_FALSE(Publish(OptionsFor(dir), &summary));
-  EXPECT_EQ(summary.message, dir + "/run/run.json: a record of 'sensitivity', not of compute; "
-                                   "give the output folder of 'paritas compute'");
+  EXPECT_EQ(summary.message, dir +
+                                 "/run/run.json: a record of 'sensitivity', not of compute; "
+                                 "give the output folder of 'paritas compute'");
 }
 
 TEST(Publication, WritesAWorkbookAsAZipArchive) {
