@@ -52,6 +52,19 @@ struct SensitivityArguments {
 int RunSensitivityCommand(const std::string& config_path, const Overrides& overrides,
                           const SensitivityArguments& arguments);
 
+// Values of the `publish` options as typed; the command parses and checks them.
+struct PublishArguments {
+  std::string run_dir;
+  std::string csv_path;
+  std::string xlsx_path;
+  std::string config_path;
+  std::optional<std::string> decimals;
+  std::optional<std::string> sort;
+  std::optional<std::string> depth;
+  bool no_intervals = false;
+};
+int RunPublishCommand(const PublishArguments& arguments);
+
 // Loads the configuration and applies the command-line overrides. Returns
 // false after printing the problem.
 bool LoadConfigWithOverrides(const std::string& path, const Overrides& overrides, RunConfig* config);

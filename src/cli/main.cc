@@ -13,6 +13,7 @@
 #include "paritas/jobs/jobs.h"
 #include "paritas/survey/config.h"
 #include "paritas/use/deflation.h"
+#include "paritas/use/publication.h"
 
 namespace {
 
@@ -133,6 +134,31 @@ void AddDeflateOptions(CLI::App* command, paritas::DeflateOptions* options,
       ->type_name("INT");
 }
 
+void AddPublishOptions(CLI::App* command, paritas::cli::PublishArguments* arguments) {
+  command->add_option("run_folder", arguments->run_dir, "output folder of 'paritas compute'")
+      ->required();
+  command->add_option("--csv", arguments->csv_path,
+                      "price level table as CSV; the real-per-head table goes beside it as "
+                      "<name>_real_per_head.csv when the survey has populations (default: none)");
+  command->add_option("--xlsx", arguments->xlsx_path,
+                      "workbook with one sheet per table and a notes sheet (default: none)");
+  command->add_option("--decimals", arguments->decimals,
+                      "digits after the point of every figure, 0 to 6 (default 1)")
+      ->type_name("INT");
+  command->add_option("--sort", arguments->sort,
+                      "order of the regions: " + JoinNames(paritas::PublicationOrderNames()) +
+                          " (level: dearest at the root first) (default code)");
+  command->add_option("--depth", arguments->depth,
+                      "nodes down to this depth below the root, 0 = the root only (default: every "
+                      "node)")
+      ->type_name("INT");
+  command->add_flag("--no-intervals", arguments->no_intervals,
+                    "leave out the interval columns even when sensitivity/bootstrap.csv exists");
+  command->add_option("--config", arguments->config_path,
+                      "configuration of the run, for region names and the tree (default: the one "
+                      "named in run.json)");
+}
+
 }  // namespace
 
 int main(int argc, char** argv) {
@@ -179,6 +205,12 @@ int main(int argc, char** argv) {
   sensitivity->footer(
       HelpFooter("paritas sensitivity config/demo.yaml --output out/demo --replicates 200 --parts "
                  "bootstrap,coverage"));
+  paritas::cli::PublishArguments publish_arguments;
+  CLI::App* publish = app.add_subcommand(
+      "publish", "publication tables of a compute run: CSV and a workbook (.xlsx) with notes");
+  AddPublishOptions(publish, &publish_arguments);
+  publish->footer(HelpFooter(
+      "paritas publish out/demo --xlsx demo_tables.xlsx --csv demo_levels.csv --sort level"));
 
   try {
     app.parse(argc, argv);
@@ -215,6 +247,7 @@ int main(int argc, char** argv) {
   if (sensitivity->parsed()) {
     return paritas::cli::RunSensitivityCommand(config_path, overrides, sensitivity_arguments);
   }
+  if (publish->parsed()) return paritas::cli::RunPublishCommand(publish_arguments);
   if (pair->parsed()) {
     return paritas::cli::RunPairCommand(config_path, overrides, pair_from, pair_to, pair_node, pair_csv,
                                         pair_every_method);

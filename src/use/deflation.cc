@@ -27,9 +27,17 @@
 #include "paritas/base/text.h"
 #include "paritas/output/run_folder.h"
 #include "paritas/output/run_record.h"
+#include "use/run_tables.h"
 
 namespace paritas {
 namespace {
+
+using internal::ListedNames;
+using internal::ParseParity;
+using internal::ReadTable;
+using internal::SameRunSettings;
+using internal::SensitivityAdvice;
+using internal::TableRow;
 
 constexpr std::string_view kUtf8Bom = "\xEF\xBB\xBF";
 constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
@@ -52,15 +60,6 @@ double SecondsSince(std::chrono::steady_clock::time_point start) {
 
 std::string ErrnoText(int error_number) {
   return std::error_code(error_number, std::generic_category()).message();
-}
-
-// Lists header names for a message: a header of garbage can hold millions,
-// so only the first 20 are named.
-std::string ListedNames(const std::vector<std::string>& names) {
-  constexpr size_t kMaxListed = 20;
-  if (names.size() <= kMaxListed) return JoinNames(names);
-  return JoinNames(std::vector<std::string>(names.begin(), names.begin() + kMaxListed)) +
-         ", ... (" + std::to_string(names.size()) + " columns)";
 }
 
 std::string DidYouMean(std::string_view word, const std::vector<std::string>& candidates) {
@@ -124,102 +123,6 @@ class ParityTable {
   std::vector<int64_t> dense_;
 };
 
-// A data row of a table read by ReadTable: the wanted fields, trimmed (empty
-// when the column is absent), and their 1-based columns.
-struct TableRow {
-  int64_t line = 0;
-  std::vector<std::string_view> fields;
-  std::vector<int> columns;
-};
-
-// Reads a CSV table whole, up to limits.max_file_bytes, and hands each data
-// row to `handle`, which returns false with a message to stop. Returns
-// false with a message naming the file.
-bool ReadTable(const std::string& path, const ReadLimits& limits,
-               const std::vector<std::string>& wanted, const std::vector<bool>& required,
-               const std::function<bool(const TableRow&, std::string*)>& handle,
-               std::string* error) {
-  std::string contents;
-  if (!ReadWholeFile(path, limits.max_file_bytes, LimitAdvice("limits.max_file_bytes"), &contents,
-                     error)) {
-    return false;
-  }
-  CsvReader reader(contents);
-  reader.set_limits(limits);
-  CsvRecord record;
-  if (!reader.Next(&record)) {
-    *error = reader.error().empty() ? path + ": file is empty (expected a header row)"
-                                    : path + ":" + reader.error();
-    return false;
-  }
-  int64_t bad_line = 0;
-  int bad_field = 0;
-  if (FindInvalidUtf8(record, ',', &bad_line, &bad_field)) {
-    *error = LocatedMessage(path, bad_line, bad_field,
-                            Utf8Problem("column name", record.fields[bad_field - 1]));
-    return false;
-  }
-  const CsvHeader header(record.fields);
-  const size_t num_fields = record.fields.size();
-  TableRow row;
-  row.columns.assign(wanted.size(), 0);
-  for (size_t k = 0; k < wanted.size(); ++k) {
-    row.columns[k] = header.Find(wanted[k]) + 1;
-    if (required[k] && row.columns[k] == 0) {
-      *error = path + ":" + std::to_string(record.line) + ": missing column '" + wanted[k] +
-               "' (found: " + ListedNames(header.names()) + ")";
-      return false;
-    }
-  }
-  row.fields.resize(wanted.size());
-  while (reader.Next(&record)) {
-    const size_t found = record.fields.size();
-    if (found != num_fields) {
-      // The column is the first field missing, or the first one too many.
-      *error =
-          LocatedMessage(path, record.line, static_cast<int>(std::min(found, num_fields)) + 1,
-                         "row has " + std::to_string(found) + " field" + (found == 1 ? "" : "s") +
-                             ", the header has " + std::to_string(num_fields));
-      return false;
-    }
-    row.line = record.line;
-    for (size_t k = 0; k < wanted.size(); ++k) {
-      row.fields[k] = row.columns[k] > 0 ? Trim(record.fields[row.columns[k] - 1]) : "";
-      if (FindInvalidUtf8(row.fields[k]) != std::string_view::npos) {
-        *error = LocatedMessage(path, record.line, row.columns[k],
-                                Utf8Problem(wanted[k], row.fields[k]));
-        return false;
-      }
-    }
-    if (!handle(row, error)) return false;
-  }
-  if (!reader.error().empty()) {
-    *error = path + ":" + reader.error();
-    return false;
-  }
-  return true;
-}
-
-// Parses an optional positive number of a parities table: empty = NaN.
-bool ParseParity(const std::string& path, int64_t line, int column, const char* what,
-                 std::string_view text, double* value, std::string* error) {
-  *value = kNaN;
-  if (text.empty()) return true;
-  double parsed = 0.0;
-  const NumberStatus status = ParseNumber(text, &parsed);
-  if (status != NumberStatus::kOk) {
-    *error = LocatedMessage(path, line, column, NumberProblem(status, what, text));
-    return false;
-  }
-  if (!(parsed > 0)) {
-    *error = LocatedMessage(path, line, column,
-                            std::string(what) + " " + QuoteValue(text) + " is not positive");
-    return false;
-  }
-  *value = parsed;
-  return true;
-}
-
 // Reads parities.csv of the parities folder into `table`.
 bool ReadParityValues(const DeflateOptions& options, ParityTable* table, std::string* error) {
   namespace fs = std::filesystem;
@@ -250,37 +153,6 @@ bool ReadParityValues(const DeflateOptions& options, ParityTable* table, std::st
   }
   table->Finish();
   return true;
-}
-
-// The command that writes the intervals deflate reads: sensitivity writes
-// under its --output, which need not be the configuration's `output`.
-std::string SensitivityAdvice(const std::string& parities_dir) {
-  std::string run_id, json, error, config = "CONFIG";
-  if (ReadRunRecord(parities_dir, &run_id, &json, &error) && !RunConfigPath(json).empty()) {
-    config = RunConfigPath(json);
-  }
-  return "run 'paritas sensitivity " + config + " --output " + parities_dir +
-         "' with the configuration and options of the compute run";
-}
-
-// The intervals must come from a sensitivity run on the same inputs and
-// settings as the parities beside them (run.json of each); otherwise a real
-// value would be bracketed by the interval of another comparison.
-bool SameRunSettings(const std::string& parities_dir, std::string* error) {
-  const std::string sensitivity_dir = (std::filesystem::path(parities_dir) / "sensitivity").string();
-  std::string compute_id, compute_json, sensitivity_id, sensitivity_json;
-  if (!ReadRunRecord(parities_dir, &compute_id, &compute_json, error) ||
-      !ReadRunRecord(sensitivity_dir, &sensitivity_id, &sensitivity_json, error)) {
-    *error = "cannot tell whether the intervals belong to these parities: " + *error;
-    return false;
-  }
-  const std::vector<std::string> differences = RunDifferences(compute_json, sensitivity_json);
-  if (differences.empty()) return true;
-  *error = "the intervals in " + sensitivity_dir +
-           " come from a sensitivity run on other inputs or settings " + "than the parities in " +
-           parities_dir + " (\"this run\" = the parities): " + JoinNames(differences, "; ") + "; " +
-           SensitivityAdvice(parities_dir);
-  return false;
 }
 
 // Reads the intervals of the sensitivity run (sensitivity/bootstrap.csv)

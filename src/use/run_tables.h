@@ -1,0 +1,56 @@
+// Reading the small tables of a run folder (parities.csv,
+// sensitivity/bootstrap.csv) whole, shared by the commands that use a
+// finished run: deflate and publish. Messages name the file, line and column.
+#ifndef PARITAS_INTERNAL_USE_RUN_TABLES_H_
+#define PARITAS_INTERNAL_USE_RUN_TABLES_H_
+
+#include <cstdint>
+#include <functional>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "paritas/base/read_limits.h"
+
+namespace paritas::internal {
+
+// Lists header names for a message: a header of garbage can hold millions,
+// so only the first 20 are named.
+std::string ListedNames(const std::vector<std::string>& names);
+
+// A data row of a table read by ReadTable: the wanted fields, trimmed (empty
+// when the column is absent), and their 1-based columns (0 when absent).
+struct TableRow {
+  int64_t line = 0;
+  std::vector<std::string_view> fields;
+  std::vector<int> columns;
+};
+
+// Reads a comma-separated table whole, up to limits.max_file_bytes, and
+// hands each data row to `handle`, which returns false with a message to
+// stop. A column of `wanted` whose `required` is true must be in the header.
+// Returns false with a message naming the file.
+bool ReadTable(const std::string& path, const ReadLimits& limits,
+               const std::vector<std::string>& wanted, const std::vector<bool>& required,
+               const std::function<bool(const TableRow&, std::string*)>& handle,
+               std::string* error);
+
+// Parses an optional positive number of a parities table: empty = NaN.
+// `what` names the column in the message ("parity", "lower").
+bool ParseParity(const std::string& path, int64_t line, int column, const char* what,
+                 std::string_view text, double* value, std::string* error);
+
+// The command that writes the intervals of a run folder: "run 'paritas
+// sensitivity CONFIG --output DIR' with the configuration and options of the
+// compute run" (CONFIG from run.json when it names one).
+std::string SensitivityAdvice(const std::string& parities_dir);
+
+// True when <parities_dir>/sensitivity/run.json rests on the same inputs and
+// settings as <parities_dir>/run.json (RunDifferences); otherwise false with
+// a message listing the differences, since an interval of another comparison
+// would bracket the wrong figure.
+bool SameRunSettings(const std::string& parities_dir, std::string* error);
+
+}  // namespace paritas::internal
+
+#endif  // PARITAS_INTERNAL_USE_RUN_TABLES_H_

@@ -1,0 +1,80 @@
+// End-to-end runs of `paritas publish` through the real executable: the demo
+// published as CSV, and the exact messages of bad arguments.
+#include <gtest/gtest.h>
+
+#include <filesystem>
+#include <string>
+
+#include "test_util.h"
+
+namespace paritas {
+namespace {
+
+using testing::CountOf;
+using testing::MakeTempDir;
+using testing::ReadTextFile;
+using testing::RunCli;
+using testing::SourcePath;
+
+TEST(PublishCommand, PublishesTheDemoRunAsCsvTables) {
+  const std::string dir = MakeTempDir("cli_publish_demo");
+  std::string out, err;
+  ASSERT_EQ(
+      RunCli("compute " + SourcePath("config/demo.yaml") + " --output " + dir + "/run --no-report",
+             &out, &err),
+      0)
+      << err;
+  ASSERT_EQ(RunCli("publish " + dir + "/run --csv " + dir + "/levels.csv --depth 1 --sort LEVEL",
+                   &out, &err),
+            0)
+      << err;
+  EXPECT_EQ(err, "");
+  // The demo: 16 regions; depth 1 keeps the root and its 9 groups.
+  EXPECT_NE(out.find("published 16 regions x 10 nodes of run "), std::string::npos) << out;
+  EXPECT_NE(out.find("wrote " + dir + "/levels.csv\nwrote " + dir + "/levels_real_per_head.csv\n"),
+            std::string::npos)
+      << out;
+  const std::string levels = ReadTextFile(dir + "/levels.csv");
+  EXPECT_EQ(levels.substr(0, levels.find('\n')),
+            "region,name,all,food,clothing,housing,utilities,health,transport,communication,"
+            "recreation,restaurants_hotels");
+  EXPECT_EQ(CountOf(levels, "\n"), 17u);
+}
+
+TEST(PublishCommand, RefusesBadArgumentsWithExitCodeOne) {
+  const std::string dir = MakeTempDir("cli_publish_arguments");
+  const std::string base = "publish " + dir + "/run --csv " + dir + "/t.csv";
+  struct Case {
+    std::string arguments;
+    std::string message;
+  };
+  const Case cases[] = {
+      {"publish --csv t.csv",
+       "paritas: error: run_folder is required\nrun 'paritas --help' for usage\n"},
+      {"publish " + dir + "/run",
+       "paritas: error: nothing to write: give --csv FILE, --xlsx FILE or both\n"},
+      {base + " --decimals 7",
+       "paritas: error: --decimals must be a whole number from 0 to 6, found '7'\n"},
+      {base + " --decimals 1.5",
+       "paritas: error: --decimals must be a whole number from 0 to 6, found '1.5'\n"},
+      {base + " --depth -1",
+       "paritas: error: --depth must be a whole number from 0 to 1000, found '-1'\n"},
+      {base + " --sort size", "paritas: error: --sort 'size' is not one of: code, level\n"},
+      {base + " --xlsx " + dir + "/t.ods",
+       "paritas: error: --xlsx '" + dir +
+           "/t.ods': a workbook's name must end in .xlsx, found "
+           "'.ods'\n"},
+      {base, "paritas: error: " + dir +
+                 "/run/run.json: cannot open file: No such file or "
+                 "directory\n"},
+  };
+  for (const Case& c : cases) {
+    std::string out, err;
+    EXPECT_EQ(RunCli(c.arguments, &out, &err), 1) << c.arguments;
+    EXPECT_EQ(err, c.message) << c.arguments;
+    EXPECT_FALSE(std::filesystem::exists(dir + "/t.csv")) << c.arguments;
+  }
+}
+
+}  // namespace
+}  // namespace paritas
