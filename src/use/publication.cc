@@ -497,8 +497,18 @@ bool Publish(const PublishOptions& options, PublishSummary* summary) {
   // Without a classification compute put every heading under one root, the
   // first node of parities.csv.
   if (!config.has_classification) {
-    config.classification = Classification::Flat(
-        std::vector<std::string>(figures.nodes.begin() + 1, figures.nodes.end()), figures.nodes[0]);
+    std::vector<std::string> headings;
+    for (size_t k = 1; k < figures.nodes.size(); ++k) {
+      const bool is_group =
+          std::any_of(config.groups.begin(), config.groups.end(),
+                      [&](const GroupDefinition& g) { return g.code.code == figures.nodes[k]; });
+      if (!is_group) headings.push_back(figures.nodes[k]);
+    }
+    config.classification = Classification::Flat(headings, figures.nodes[0]);
+  }
+  // The run's analytic groups and labels, as compute set them.
+  if (!ApplyGroupsAndLabels(config, &config.classification, &error)) {
+    return fail("the run's configuration: " + error);
   }
   if (!CheckNodes(figures, config, &error)) return fail(error);
   const std::string bootstrap =

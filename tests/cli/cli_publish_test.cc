@@ -29,15 +29,16 @@ TEST(PublishCommand, PublishesTheDemoRunAsCsvTables) {
             0)
       << err;
   EXPECT_EQ(err, "");
-  // The demo: 16 regions; depth 1 keeps the root and its 9 groups.
-  EXPECT_NE(out.find("published 16 regions x 10 nodes of run "), std::string::npos) << out;
+  // The demo: 16 regions; depth 1 keeps the root and its 9 children, then
+  // the two analytic groups of config/demo.yaml.
+  EXPECT_NE(out.find("published 16 regions x 12 nodes of run "), std::string::npos) << out;
   EXPECT_NE(out.find("wrote " + dir + "/levels.csv\nwrote " + dir + "/levels_real_per_head.csv\n"),
             std::string::npos)
       << out;
   const std::string levels = ReadTextFile(dir + "/levels.csv");
   EXPECT_EQ(levels.substr(0, levels.find('\n')),
             "region,name,all,food,clothing,housing,utilities,health,transport,communication,"
-            "recreation,restaurants_hotels");
+            "recreation,restaurants_hotels,all_but_housing,energy");
   EXPECT_EQ(CountOf(levels, "\n"), 17u);
 }
 
