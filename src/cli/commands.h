@@ -49,6 +49,17 @@ struct SensitivityArguments {
 int RunSensitivityCommand(const std::string& config_path, const Overrides& overrides,
                           const SensitivityArguments& arguments);
 
+// Arguments of `compare` as typed; numbers are parsed by the command.
+struct CompareArguments {
+  std::string old_dir;
+  std::string new_dir;
+  std::string output;
+  std::string node;
+  std::optional<std::string> top;
+  std::optional<std::string> z;
+};
+int RunCompareCommand(const CompareArguments& arguments);
+
 // Loads the configuration and applies the command-line overrides. Returns
 // false after printing the problem.
 bool LoadConfigWithOverrides(const std::string& path, const Overrides& overrides, RunConfig* config);

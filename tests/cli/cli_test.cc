@@ -185,7 +185,7 @@ TEST(CliHelp, EveryCommandShowsDefaultsExitCodesAndAnExample) {
       "  1  invalid input or configuration\n"
       "  2  computation failed\n"
       "  3  warnings or gross outliers under --strict (compute, sensitivity)\n";
-  for (const std::string command : {"", "check", "compute", "sensitivity", "deflate", "pair"}) {
+  for (const std::string command : {"", "check", "compute", "sensitivity", "deflate", "pair", "compare"}) {
     const CliRun run = RunCli(command + " --help", dir);
     EXPECT_EQ(run.exit_code, 0) << command;
     EXPECT_EQ(run.err, "") << command;

@@ -1,0 +1,213 @@
+// Contributions per node, from the same arrays the aggregation read
+// (NodeInputArrays), so the heading parities and expenditure split here are
+// the ones behind the node's parity. Against a mean the average over regions
+// s of ½ (s_rh + s_sh)(l_rh - l_sh) is formed from three means per heading
+// (of l, s and s l), so a node costs regions x headings, not regions².
+#include "paritas/use/heading_contributions.h"
+
+#include <cmath>
+#include <limits>
+
+#include "paritas/aggregation/aggregation_method.h"
+#include "paritas/base/csv.h"
+#include "paritas/base/text.h"
+
+namespace paritas {
+namespace {
+
+constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
+
+// A node's inputs as the split needs them: ln heading parities, and each
+// region's shares over the headings it can be compared on.
+struct NodeInputs {
+  Eigen::MatrixXd log_price;  // NaN where no usable parity
+  Eigen::MatrixXd share;      // 0 where not usable; rows sum to 1 (or are all 0)
+  std::vector<bool> usable;   // per region: a parity at the node and shares
+};
+
+// A heading is usable for a region with a positive parity and finite,
+// non-negative spending (zero spending keeps it with share 0, as the
+// bilateral matrices do); at a basic heading's own node spending is not
+// needed. Shares are renormalised over the usable headings.
+NodeInputs Inputs(const Survey& survey, const ParityResult& result, int node) {
+  const NodeResult& n = result.nodes[node];
+  const NodeArrays arrays = NodeInputArrays(survey, result, node);
+  const int num_regions = static_cast<int>(arrays.price.rows());
+  const int num_headings = static_cast<int>(arrays.price.cols());
+  NodeInputs in;
+  in.log_price = Eigen::MatrixXd::Constant(num_regions, num_headings, kNaN);
+  in.share = Eigen::MatrixXd::Zero(num_regions, num_headings);
+  in.usable.assign(num_regions, false);
+  for (int r = 0; r < num_regions; ++r) {
+    if (!(std::isfinite(n.parity(r)) && n.parity(r) > 0)) continue;
+    double total = 0.0;
+    for (int k = 0; k < num_headings; ++k) {
+      const double p = arrays.price(r, k);
+      const double e = n.is_heading ? 1.0 : arrays.expenditure(r, k);
+      if (!(std::isfinite(p) && p > 0 && std::isfinite(e) && e >= 0)) continue;
+      in.log_price(r, k) = std::log(p);
+      in.share(r, k) = e;
+      total += e;
+    }
+    if (!(total > 0)) continue;
+    in.share.row(r) /= total;
+    in.usable[r] = true;
+  }
+  return in;
+}
+
+// Spreads what the price parts leave of ln(parity / 100) over the headings
+// in proportion to their weights (equal weights when these sum to zero).
+void FinishRow(RegionContributions* row) {
+  double price_total = 0.0, weight_total = 0.0;
+  for (const HeadingContribution& c : row->headings) {
+    price_total += c.price_part;
+    weight_total += c.weight;
+  }
+  const double n = static_cast<double>(row->headings.size());
+  const double rest = row->log_parity - price_total;
+  for (HeadingContribution& c : row->headings) {
+    c.weight = weight_total > 0 ? c.weight / weight_total : 1.0 / n;
+    c.adjustment = c.weight * rest;
+    c.log_contribution = c.price_part + c.adjustment;
+  }
+}
+
+// Against region b: pair's Törnqvist terms, shares renormalised to the
+// headings both have.
+void AgainstRegion(const Survey& survey, const NodeInputs& in, const NodeResult& n, int node,
+                   int b, std::vector<RegionContributions>* rows) {
+  const std::vector<int>& headings = survey.classification.nodes()[node].headings;
+  for (int r = 0; r < static_cast<int>(in.usable.size()); ++r) {
+    if (!in.usable[r]) continue;
+    double total_r = 0.0, total_b = 0.0;
+    std::vector<int> matched;
+    for (int k = 0; k < static_cast<int>(headings.size()); ++k) {
+      if (std::isnan(in.log_price(r, k)) || std::isnan(in.log_price(b, k))) continue;
+      matched.push_back(k);
+      total_r += in.share(r, k);
+      total_b += in.share(b, k);
+    }
+    if (matched.empty()) continue;
+    RegionContributions row;
+    row.node = node;
+    row.region = r;
+    row.log_parity = std::log(n.parity(r) / 100.0);
+    const double m = static_cast<double>(matched.size());
+    for (int k : matched) {
+      HeadingContribution c;
+      c.heading = headings[k];
+      c.share = total_r > 0 ? in.share(r, k) / total_r : 1.0 / m;
+      const double share_b = total_b > 0 ? in.share(b, k) / total_b : 1.0 / m;
+      c.weight = 0.5 * (c.share + share_b);
+      c.price_part = c.weight * (in.log_price(r, k) - in.log_price(b, k));
+      row.headings.push_back(c);
+    }
+    FinishRow(&row);
+    rows->push_back(std::move(row));
+  }
+}
+
+// Against the average region: mean over the regions s priced in heading k
+// of ½ (s_rk + s_sk)(l_rk - l_sk) = ½ (s_rk (l_rk - lbar_k) + sbar_k l_rk -
+// mean_s s_sk l_sk).
+void AgainstAverage(const Survey& survey, const NodeInputs& in, const NodeResult& n, int node,
+                    std::vector<RegionContributions>* rows) {
+  const std::vector<int>& headings = survey.classification.nodes()[node].headings;
+  const int num_headings = static_cast<int>(headings.size());
+  std::vector<double> mean_l(num_headings, 0.0), mean_s(num_headings, 0.0),
+      mean_sl(num_headings, 0.0), count(num_headings, 0.0);
+  for (int s = 0; s < static_cast<int>(in.usable.size()); ++s) {
+    if (!in.usable[s]) continue;
+    for (int k = 0; k < num_headings; ++k) {
+      const double l = in.log_price(s, k);
+      if (std::isnan(l)) continue;
+      mean_l[k] += l;
+      mean_s[k] += in.share(s, k);
+      mean_sl[k] += in.share(s, k) * l;
+      count[k] += 1.0;
+    }
+  }
+  for (int k = 0; k < num_headings; ++k) {
+    if (count[k] == 0) continue;
+    mean_l[k] /= count[k];
+    mean_s[k] /= count[k];
+    mean_sl[k] /= count[k];
+  }
+  for (int r = 0; r < static_cast<int>(in.usable.size()); ++r) {
+    if (!in.usable[r]) continue;
+    RegionContributions row;
+    row.node = node;
+    row.region = r;
+    row.log_parity = std::log(n.parity(r) / 100.0);
+    for (int k = 0; k < num_headings; ++k) {
+      const double l = in.log_price(r, k);
+      if (std::isnan(l)) continue;
+      HeadingContribution c;
+      c.heading = headings[k];
+      c.share = in.share(r, k);
+      c.weight = 0.5 * (c.share + mean_s[k]);
+      c.price_part = 0.5 * (c.share * (l - mean_l[k]) + mean_s[k] * l - mean_sl[k]);
+      row.headings.push_back(c);
+    }
+    if (row.headings.empty()) continue;
+    FinishRow(&row);
+    rows->push_back(std::move(row));
+  }
+}
+
+}  // namespace
+
+ContributionTable HeadingContributions(const Survey& survey, const ParityResult& result,
+                                       const Reference& reference) {
+  ContributionTable table;
+  const int reference_region =
+      reference.kind == ReferenceKind::kRegion ? survey.regions.Find(reference.region) : -1;
+  table.against_region = reference_region >= 0;
+  table.base = table.against_region ? "region '" + reference.region + "'" : "the average region";
+  const int num_nodes = static_cast<int>(result.nodes.size());
+  for (int node = 0; node < num_nodes; ++node) {
+    const NodeResult& n = result.nodes[node];
+    const NodeInputs in = Inputs(survey, result, node);
+    // A node normalised to the mean because the reference region has no
+    // parity there is split against the average region too.
+    if (reference_region >= 0 && in.usable[reference_region]) {
+      AgainstRegion(survey, in, n, node, reference_region, &table.rows);
+    } else {
+      AgainstAverage(survey, in, n, node, &table.rows);
+    }
+  }
+  const std::vector<int>& heading_nodes = survey.classification.headings();
+  for (RegionContributions& row : table.rows) {
+    for (HeadingContribution& c : row.headings) {
+      c.heading_parity = result.nodes[heading_nodes[c.heading]].parity(row.region);
+    }
+  }
+  return table;
+}
+
+std::string ContributionsCsv(const Survey& survey, const ContributionTable& table) {
+  std::string out =
+      "node,region,heading,share,weight,heading_parity,price_part,adjustment,log_contribution\n";
+  const auto& nodes = survey.classification.nodes();
+  for (const RegionContributions& row : table.rows) {
+    std::string prefix;
+    AppendCsvField(nodes[row.node].code, &prefix);
+    prefix += ',';
+    AppendCsvField(survey.regions.Code(row.region), &prefix);
+    prefix += ',';
+    for (const HeadingContribution& c : row.headings) {
+      out += prefix;
+      AppendCsvField(survey.heading_codes[c.heading], &out);
+      for (double v : {c.share, c.weight, c.heading_parity, c.price_part, c.adjustment,
+                       c.log_contribution}) {
+        out += ',';
+        AppendShortest(v, &out);
+      }
+      out += '\n';
+    }
+  }
+  return out;
+}
+
+}  // namespace paritas
