@@ -30,9 +30,12 @@ constexpr const char* kFall = "#1f5f99";
 constexpr const char* kPartColour[3] = {"#1f5f99", "#c25400", "#8a949c"};
 constexpr const char* kPartName[3] = {"price part", "weight part", "method part"};
 
+// A signed figure; one that rounds to zero gets no sign.
 std::string Signed(double value, int decimals) {
   if (!std::isfinite(value)) return "\xE2\x80\x93";
-  return (value > 0 ? "+" : "") + FormatFixed(value, decimals);
+  const std::string text = FormatFixed(value, decimals);
+  const bool zero = text.find_first_not_of("-0.") == std::string::npos;
+  return zero ? FormatFixed(0.0, decimals) : (value > 0 ? "+" : "") + text;
 }
 
 std::vector<const ParityChange*> Movers(const RunComparison& cmp) {
@@ -118,7 +121,7 @@ std::string ChangeChart(const std::vector<const ParityChange*>& movers) {
            (c.beyond_uncertainty == 0 ? " fill-opacity=\"0.45\"" : "") +
            "/><text class=\"value\" x=\"" + C(x(v) + (v >= 0 ? 4 : -4)) + "\" y=\"" +
            C(y + row_h / 2 + 4) + "\" text-anchor=\"" + (v >= 0 ? "start" : "end") + "\">" +
-           Signed(v, 1) + (c.beyond_uncertainty == 1 ? " *" : "") + "</text></g>";
+           Signed(v, 2) + (c.beyond_uncertainty == 1 ? " *" : "") + "</text></g>";
   }
   out += "<line class=\"reference\" x1=\"" + C(x(0)) + "\" x2=\"" + C(x(0)) + "\" y1=\"" +
          C(top - 4) + "\" y2=\"" + C(top + row_h * n) + "\"/><text class=\"axis-title\" x=\"" +

@@ -24,9 +24,12 @@ constexpr size_t kMaxExplainedBars = 12;
 // Groups drawn in each small panel before the rest are summed.
 constexpr size_t kMaxPanelGroups = 8;
 
+// A signed figure; one that rounds to zero gets no sign.
 std::string Signed(double value, int decimals) {
   if (!std::isfinite(value)) return "\xE2\x80\x93";
-  return (value > 0 ? "+" : "") + FormatFixed(value, decimals);
+  const std::string text = FormatFixed(value, decimals);
+  const bool zero = text.find_first_not_of("-0.") == std::string::npos;
+  return zero ? FormatFixed(0.0, decimals) : (value > 0 ? "+" : "") + text;
 }
 
 struct Bar {
@@ -61,7 +64,7 @@ std::string Bars(const std::vector<Bar>& bars, const std::string& id, const std:
   const double top = 18, row_h = 22, height = top + row_h * bars.size() + 36;
   auto x = [&](double v) { return x0 + (v - lo) / (hi - lo) * (x1 - x0); };
   std::string out = "<svg class=\"chart\" id=\"" + id + "\" viewBox=\"0 0 " + C(kChartWidth) + " " +
-                    C(height) + "\" role=\"img\" aria-label=\"" + HtmlEscape(aria) + "\">";
+                    C(height) + "\" role=\"img\"><title>" + HtmlEscape(aria) + "</title>";
   const std::vector<double> ticks = NiceTicks(lo, hi, 8);
   for (double t : ticks) {
     out += "<line class=\"grid\" x1=\"" + C(x(t)) + "\" x2=\"" + C(x(t)) + "\" y1=\"" + C(top) +
@@ -139,9 +142,11 @@ std::string Panel(const Context& ctx, int r, const std::vector<double>& by_group
   const double w = 260, row_h = 15, top = 34, label_w = 96;
   const double h = top + row_h * groups.size() + 8;
   auto x = [&](double v) { return label_w + 8 + (v + span) / (2 * span) * (w - label_w - 16); };
+  // Data go into element text, never attributes: names are markup-proof
+  // either way, but a serialised DOM shows attribute text unescaped.
   std::string out = "<svg class=\"panel\" viewBox=\"0 0 " + C(w) + " " + C(h) +
-                    "\" role=\"img\" aria-label=\"" +
-                    HtmlEscape("contributions for " + ctx.Label(r)) + "\"><text class=\"strong\" x=\"4\" y=\"14\">" +
+                    "\" role=\"img\"><title>" + HtmlEscape("contributions for " + ctx.Label(r)) +
+                    "</title><text class=\"strong\" x=\"4\" y=\"14\">" +
                     HtmlEscape(Truncate(ctx.Label(r), 26)) + "</text><text class=\"value\" x=\"" +
                     C(w - 4) + "\" y=\"14\" text-anchor=\"end\">" +
                     Num(ctx.root.parity(r), kChartParityDecimals) + "</text>";
@@ -220,13 +225,16 @@ std::string ContributionSection(const Context& ctx, const ContributionTable& tab
          "counted by how much is spent on it. The bars below take one region's level apart: "
          "each heading's bar says how much that heading alone makes the region dearer (orange, "
          "to the right) or cheaper (blue, to the left) than " + against +
-         ", in about percent. The bars add up to the whole gap (the last bar).</p>\n";
+         ". The figures are log points (100 \xC3\x97 the natural log of the price ratio): close "
+         "to percent for small gaps, and unlike percent they add up, so the bars sum to the "
+         "whole gap (the last bar).</p>\n";
   if (it != rows.end()) {
     out += "<h3>" + HtmlEscape(ctx.Label(region)) + ": price level " +
-           Num(ctx.root.parity(region), kTableParityDecimals) + "</h3>\n";
+           Num(ctx.root.parity(region), kTableParityDecimals) + " (" +
+           Signed(100.0 * it->second->log_parity, 1) + " log points)</h3>\n";
     out += Bars(RegionBars(ctx, *it->second), "why-dear-chart",
                 "contribution of each heading to the price level of " + ctx.Label(region),
-                "adds to the price level, about % (log points \xC3\x97 100)");
+                "adds to the price level, log points (about %)");
   }
   out += "<h3>Every region at a glance</h3>\n<p>The same split for every region, dearest first, "
          "with the headings summed into the groups directly under " + HtmlEscape(ctx.root_code) +

@@ -1,8 +1,9 @@
 // Contributions per node, from the same arrays the aggregation read
 // (NodeInputArrays), so the heading parities and expenditure split here are
-// the ones behind the node's parity. Against a mean the average over regions
-// s of ½ (s_rh + s_sh)(l_rh - l_sh) is formed from three means per heading
-// (of l, s and s l), so a node costs regions x headings, not regions².
+// the ones behind the node's parity. Against a mean every pair of regions is
+// visited, as GEKS does, so a node costs regions² x headings (regions run in
+// parallel): with missing heading parities the shares of each pair are
+// renormalised to what the pair has, which no per-heading mean reproduces.
 #include "paritas/use/heading_contributions.h"
 
 #include <cmath>
@@ -108,51 +109,78 @@ void AgainstRegion(const Survey& survey, const NodeInputs& in, const NodeResult&
   }
 }
 
-// Against the average region: mean over the regions s priced in heading k
-// of ½ (s_rk + s_sk)(l_rk - l_sk) = ½ (s_rk (l_rk - lbar_k) + sbar_k l_rk -
-// mean_s s_sk l_sk).
-void AgainstAverage(const Survey& survey, const NodeInputs& in, const NodeResult& n, int node,
-                    std::vector<RegionContributions>* rows) {
+// The price parts of region r against the average region: pair's Törnqvist
+// terms against every region s with a parity at the node (r itself adds 0),
+// shares renormalised to the headings each pair has, averaged over those
+// regions; a pair with no heading in common adds nothing. This is heading
+// k's term in the GEKS-Törnqvist parity, ln P_r = mean_s ln T(s, r).
+RegionContributions AgainstAverageRow(const Survey& survey, const NodeInputs& in,
+                                      const NodeResult& n, int node, int r,
+                                      const std::vector<double>& mean_share) {
   const std::vector<int>& headings = survey.classification.nodes()[node].headings;
   const int num_headings = static_cast<int>(headings.size());
-  std::vector<double> mean_l(num_headings, 0.0), mean_s(num_headings, 0.0),
-      mean_sl(num_headings, 0.0), count(num_headings, 0.0);
+  std::vector<double> price(num_headings, 0.0);
+  std::vector<int> matched;
+  double num_regions = 0.0;
   for (int s = 0; s < static_cast<int>(in.usable.size()); ++s) {
     if (!in.usable[s]) continue;
+    num_regions += 1.0;
+    matched.clear();
+    double total_r = 0.0, total_s = 0.0;
     for (int k = 0; k < num_headings; ++k) {
-      const double l = in.log_price(s, k);
-      if (std::isnan(l)) continue;
-      mean_l[k] += l;
-      mean_s[k] += in.share(s, k);
-      mean_sl[k] += in.share(s, k) * l;
+      if (std::isnan(in.log_price(r, k)) || std::isnan(in.log_price(s, k))) continue;
+      matched.push_back(k);
+      total_r += in.share(r, k);
+      total_s += in.share(s, k);
+    }
+    if (s == r || !(total_r > 0) || !(total_s > 0)) continue;
+    for (int k : matched) {
+      price[k] += 0.5 * (in.share(r, k) / total_r + in.share(s, k) / total_s) *
+                  (in.log_price(r, k) - in.log_price(s, k));
+    }
+  }
+  RegionContributions row;
+  row.node = node;
+  row.region = r;
+  row.log_parity = std::log(n.parity(r) / 100.0);
+  for (int k = 0; k < num_headings; ++k) {
+    if (std::isnan(in.log_price(r, k))) continue;
+    HeadingContribution c;
+    c.heading = headings[k];
+    c.share = in.share(r, k);
+    c.weight = 0.5 * (c.share + mean_share[k]);
+    c.price_part = price[k] / num_regions;
+    row.headings.push_back(c);
+  }
+  if (!row.headings.empty()) FinishRow(&row);
+  return row;
+}
+
+// Against the average region, every region; regions in parallel (each
+// region's row is its own, so the result does not depend on the threads).
+void AgainstAverage(const Survey& survey, const NodeInputs& in, const NodeResult& n, int node,
+                    std::vector<RegionContributions>* rows) {
+  const int num_headings = static_cast<int>(in.share.cols());
+  const int num_regions = static_cast<int>(in.usable.size());
+  std::vector<double> mean_share(num_headings, 0.0), count(num_headings, 0.0);
+  for (int s = 0; s < num_regions; ++s) {
+    if (!in.usable[s]) continue;
+    for (int k = 0; k < num_headings; ++k) {
+      if (std::isnan(in.log_price(s, k))) continue;
+      mean_share[k] += in.share(s, k);
       count[k] += 1.0;
     }
   }
   for (int k = 0; k < num_headings; ++k) {
-    if (count[k] == 0) continue;
-    mean_l[k] /= count[k];
-    mean_s[k] /= count[k];
-    mean_sl[k] /= count[k];
+    if (count[k] > 0) mean_share[k] /= count[k];
   }
-  for (int r = 0; r < static_cast<int>(in.usable.size()); ++r) {
-    if (!in.usable[r]) continue;
-    RegionContributions row;
-    row.node = node;
-    row.region = r;
-    row.log_parity = std::log(n.parity(r) / 100.0);
-    for (int k = 0; k < num_headings; ++k) {
-      const double l = in.log_price(r, k);
-      if (std::isnan(l)) continue;
-      HeadingContribution c;
-      c.heading = headings[k];
-      c.share = in.share(r, k);
-      c.weight = 0.5 * (c.share + mean_s[k]);
-      c.price_part = 0.5 * (c.share * (l - mean_l[k]) + mean_s[k] * l - mean_sl[k]);
-      row.headings.push_back(c);
-    }
-    if (row.headings.empty()) continue;
-    FinishRow(&row);
-    rows->push_back(std::move(row));
+  std::vector<RegionContributions> by_region(num_regions);
+#pragma omp parallel for schedule(dynamic, 4) if (num_regions > 64)
+  for (int r = 0; r < num_regions; ++r) {
+    if (in.usable[r]) by_region[r] = AgainstAverageRow(survey, in, n, node, r, mean_share);
+  }
+  for (RegionContributions& row : by_region) {
+    if (!row.headings.empty()) rows->push_back(std::move(row));
   }
 }
 

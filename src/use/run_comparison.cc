@@ -652,9 +652,12 @@ std::string Pad(const std::string& text, size_t width, bool right = false) {
   return right ? fill + text : text + fill;
 }
 
+// A signed figure; one that rounds to zero gets no sign.
 std::string Signed(double value, int decimals) {
   if (!std::isfinite(value)) return "-";
-  return (value > 0 ? "+" : "") + FormatFixed(value, decimals);
+  const std::string text = FormatFixed(value, decimals);
+  const bool zero = text.find_first_not_of("-0.") == std::string::npos;
+  return zero ? FormatFixed(0.0, decimals) : (value > 0 ? "+" : "") + text;
 }
 
 std::string ListLine(const std::string& what, const std::vector<std::string>& names) {
@@ -673,7 +676,7 @@ std::string TopDrivers(const RunComparison& comparison, const ParityChange& c) {
     std::string text;
     for (size_t k = 0; k < r.headings.size() && k < 3; ++k) {
       const HeadingDriver& d = r.headings[k];
-      text += (k ? ", " : "") + d.heading + " " + Signed(100.0 * d.log_change, 2);
+      text += (k ? ", " : "") + d.heading + " " + Signed(100.0 * d.log_change, 3);
     }
     return text;
   }

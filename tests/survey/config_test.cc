@@ -111,7 +111,7 @@ TEST(RunConfig, ShortensAHugeUnknownKey) {
             "/cfg/run.yaml:4:3: unknown key '" + std::string(60, 'k') +
                 "...'; valid keys are: survey, classification, reference, elementary, aggregation, "
                 "invalid_rows, output, matrices, representative_weight, outlier_threshold, "
-                "outlier_fit, robust_standard_errors, report, threads, limits, duplicate_quotes, "
+                "outlier_fit, robust_standard_errors, report, report_region, threads, limits, duplicate_quotes, "
                 "strict, checks, missing_parities");
 }
 

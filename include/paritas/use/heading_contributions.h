@@ -13,7 +13,8 @@
 //   log price relatives (TornqvistLogContributions, index_formulas.h).
 //   Against a mean of the regions (reference mean,
 //   weighted-mean or country) it is the same term averaged over every region
-//   s priced in the heading,
+//   s with a parity at the node (r itself included, adding 0; shares
+//   renormalised to the headings each pair has),
 //     price_h = mean_s ½ (s_rh + s_sh) ln(p_rh / p_sh),
 //   the contribution of heading h to the GEKS-Törnqvist parity, which is the
 //   geometric mean of the bilateral Törnqvist indices against every region
@@ -26,9 +27,10 @@
 //   mean of the region's and the reference's shares, ½ (s_rh + s_bh), or
 //   ½ (s_rh + mean_s s_sh) against a mean), as if every heading's price
 //   were moved by the same factor. It is zero to rounding under
-//   geks-tornqvist with every region priced in every heading and reference
-//   mean; otherwise it holds what the aggregation method, the normalisation
-//   (weighted-mean, country) and missing heading parities add.
+//   geks-tornqvist with reference mean whenever every pair of regions shares
+//   a heading at the node (the GEKS closed form); otherwise it holds what the
+//   aggregation method, the normalisation (weighted-mean, country) and
+//   GEKS's least squares over missing pairs add.
 //
 // The contributions therefore sum to ln(parity / 100) of the region at the
 // node exactly (to rounding), whatever the aggregation method.
