@@ -346,12 +346,16 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
   summary->warnings =
       CollectWarnings(summary->load, summary->compute.warnings, summary->plausibility);
 
+  // Each heading's part in each region's ln parity (contributions.csv, report).
+  const auto contributions_start = std::chrono::steady_clock::now();
+  const ContributionTable contributions =
+      HeadingContributions(survey, result, options.reference);
+  summary->stages.push_back({"contributions", SecondsSince(contributions_start)});
+
   // Outputs, written whole or not at all.
   const auto write_start = std::chrono::steady_clock::now();
   std::vector<OutputFile> files;
   files.push_back({"parities.csv", ParitiesCsv(survey, result, &summary->plausibility)});
-  const ContributionTable contributions =
-      HeadingContributions(survey, result, options.reference);
   files.push_back({"contributions.csv", ContributionsCsv(survey, contributions)});
   files.push_back({"warnings.csv", WarningsCsv(summary->warnings)});
   if (const AggregationMethod* method = FindAggregationMethod(config.aggregation);

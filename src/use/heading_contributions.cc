@@ -1,11 +1,14 @@
 // Contributions per node, from the same arrays the aggregation read
 // (NodeInputArrays), so the heading parities and expenditure split here are
-// the ones behind the node's parity. Against a mean every pair of regions is
-// visited, as GEKS does, so a node costs regions² x headings (regions run in
-// parallel): with missing heading parities the shares of each pair are
-// renormalised to what the pair has, which no per-heading mean reproduces.
+// the ones behind the node's parity. Against a mean every pair of regions
+// counts, as in GEKS: with missing heading parities a pair's shares are
+// renormalised to what the pair has, so pairs involving a region without a
+// parity in some heading are visited one by one (regions² x headings at
+// worst), while pairs of regions with every heading take four sums per
+// heading (regions x headings when every region has every heading).
 #include "paritas/use/heading_contributions.h"
 
+#include <algorithm>
 #include <cmath>
 #include <limits>
 
@@ -109,34 +112,89 @@ void AgainstRegion(const Survey& survey, const NodeInputs& in, const NodeResult&
   }
 }
 
+// Sums over the regions with a parity in every heading of the node ("full"
+// regions): a pair of full regions needs no renormalisation, so its terms
+// summed over every full s take four sums per heading.
+struct FullSums {
+  std::vector<bool> full;
+  double count = 0.0;
+  double num_usable = 0.0;     // regions with a parity at the node
+  std::vector<int> not_full;   // usable regions missing some heading
+  std::vector<double> l, s, sl;  // per heading: sum of l_sk, s_sk, s_sk l_sk
+};
+
+FullSums SumsOverFullRegions(const NodeInputs& in) {
+  const int num_headings = static_cast<int>(in.share.cols());
+  FullSums sums;
+  sums.full.assign(in.usable.size(), false);
+  sums.l.assign(num_headings, 0.0);
+  sums.s.assign(num_headings, 0.0);
+  sums.sl.assign(num_headings, 0.0);
+  for (int r = 0; r < static_cast<int>(in.usable.size()); ++r) {
+    if (!in.usable[r]) continue;
+    sums.num_usable += 1.0;
+    if (in.log_price.row(r).array().isNaN().any()) {
+      sums.not_full.push_back(r);
+      continue;
+    }
+    sums.full[r] = true;
+    sums.count += 1.0;
+    for (int k = 0; k < num_headings; ++k) {
+      sums.l[k] += in.log_price(r, k);
+      sums.s[k] += in.share(r, k);
+      sums.sl[k] += in.share(r, k) * in.log_price(r, k);
+    }
+  }
+  return sums;
+}
+
+// Adds pair (r, s)'s Törnqvist terms, shares renormalised to the headings
+// the pair has; a pair with nothing in common (or no spending on it) adds
+// nothing.
+void AddPair(const NodeInputs& in, int r, int s, std::vector<int>* matched,
+             std::vector<double>* price) {
+  const int num_headings = static_cast<int>(in.share.cols());
+  matched->clear();
+  double total_r = 0.0, total_s = 0.0;
+  for (int k = 0; k < num_headings; ++k) {
+    if (std::isnan(in.log_price(r, k)) || std::isnan(in.log_price(s, k))) continue;
+    matched->push_back(k);
+    total_r += in.share(r, k);
+    total_s += in.share(s, k);
+  }
+  if (!(total_r > 0) || !(total_s > 0)) return;
+  for (int k : *matched) {
+    (*price)[k] += 0.5 * (in.share(r, k) / total_r + in.share(s, k) / total_s) *
+                   (in.log_price(r, k) - in.log_price(s, k));
+  }
+}
+
 // The price parts of region r against the average region: pair's Törnqvist
 // terms against every region s with a parity at the node (r itself adds 0),
 // shares renormalised to the headings each pair has, averaged over those
-// regions; a pair with no heading in common adds nothing. This is heading
-// k's term in the GEKS-Törnqvist parity, ln P_r = mean_s ln T(s, r).
+// regions. This is heading k's term in the GEKS-Törnqvist parity, ln P_r =
+// mean_s ln T(s, r). Pairs of full regions come from the sums.
 RegionContributions AgainstAverageRow(const Survey& survey, const NodeInputs& in,
                                       const NodeResult& n, int node, int r,
-                                      const std::vector<double>& mean_share) {
+                                      const std::vector<double>& mean_share,
+                                      const FullSums& sums) {
   const std::vector<int>& headings = survey.classification.nodes()[node].headings;
   const int num_headings = static_cast<int>(headings.size());
   std::vector<double> price(num_headings, 0.0);
   std::vector<int> matched;
-  double num_regions = 0.0;
-  for (int s = 0; s < static_cast<int>(in.usable.size()); ++s) {
-    if (!in.usable[s]) continue;
-    num_regions += 1.0;
-    matched.clear();
-    double total_r = 0.0, total_s = 0.0;
-    for (int k = 0; k < num_headings; ++k) {
-      if (std::isnan(in.log_price(r, k)) || std::isnan(in.log_price(s, k))) continue;
-      matched.push_back(k);
-      total_r += in.share(r, k);
-      total_s += in.share(s, k);
+  const double num_regions = sums.num_usable;
+  if (sums.full[r]) {
+    for (int s : sums.not_full) AddPair(in, r, s, &matched, &price);
+  } else {
+    for (int s = 0; s < static_cast<int>(in.usable.size()); ++s) {
+      if (in.usable[s] && s != r) AddPair(in, r, s, &matched, &price);
     }
-    if (s == r || !(total_r > 0) || !(total_s > 0)) continue;
-    for (int k : matched) {
-      price[k] += 0.5 * (in.share(r, k) / total_r + in.share(s, k) / total_s) *
-                  (in.log_price(r, k) - in.log_price(s, k));
+  }
+  if (sums.full[r]) {
+    // sum over full s of ½ (s_rk + s_sk)(l_rk - l_sk).
+    for (int k = 0; k < num_headings; ++k) {
+      const double l = in.log_price(r, k), sh = in.share(r, k);
+      price[k] += 0.5 * (sums.count * sh * l - sh * sums.l[k] + l * sums.s[k] - sums.sl[k]);
     }
   }
   RegionContributions row;
@@ -174,10 +232,16 @@ void AgainstAverage(const Survey& survey, const NodeInputs& in, const NodeResult
   for (int k = 0; k < num_headings; ++k) {
     if (count[k] > 0) mean_share[k] /= count[k];
   }
+  const FullSums sums = SumsOverFullRegions(in);
   std::vector<RegionContributions> by_region(num_regions);
-#pragma omp parallel for schedule(dynamic, 4) if (num_regions > 64)
+  // Threads only pay when pairs are visited one by one: a parallel region
+  // per node costs a scheduling round trip, which a loaded machine makes
+  // long.
+  const double pair_work =
+      static_cast<double>(sums.not_full.size()) * num_regions * std::max(num_headings, 1);
+#pragma omp parallel for schedule(dynamic, 4) if (pair_work > 4e6)
   for (int r = 0; r < num_regions; ++r) {
-    if (in.usable[r]) by_region[r] = AgainstAverageRow(survey, in, n, node, r, mean_share);
+    if (in.usable[r]) by_region[r] = AgainstAverageRow(survey, in, n, node, r, mean_share, sums);
   }
   for (RegionContributions& row : by_region) {
     if (!row.headings.empty()) rows->push_back(std::move(row));
@@ -215,26 +279,41 @@ ContributionTable HeadingContributions(const Survey& survey, const ParityResult&
 }
 
 std::string ContributionsCsv(const Survey& survey, const ContributionTable& table) {
-  std::string out =
-      "node,region,heading,share,weight,heading_parity,price_part,adjustment,log_contribution\n";
   const auto& nodes = survey.classification.nodes();
-  for (const RegionContributions& row : table.rows) {
-    std::string prefix;
-    AppendCsvField(nodes[row.node].code, &prefix);
-    prefix += ',';
-    AppendCsvField(survey.regions.Code(row.region), &prefix);
-    prefix += ',';
-    for (const HeadingContribution& c : row.headings) {
-      out += prefix;
-      AppendCsvField(survey.heading_codes[c.heading], &out);
-      for (double v : {c.share, c.weight, c.heading_parity, c.price_part, c.adjustment,
-                       c.log_contribution}) {
-        out += ',';
-        AppendShortest(v, &out);
+  const int64_t num_rows = static_cast<int64_t>(table.rows.size());
+  // Rows formatted in parallel blocks and joined in order: the text is the
+  // same for any number of threads.
+  constexpr int64_t kRowsPerBlock = 256;
+  const int64_t num_blocks = (num_rows + kRowsPerBlock - 1) / kRowsPerBlock;
+  std::vector<std::string> blocks(num_blocks);
+#pragma omp parallel for schedule(dynamic, 4) if (num_blocks > 4)
+  for (int64_t b = 0; b < num_blocks; ++b) {
+    std::string& out = blocks[b];
+    for (int64_t i = b * kRowsPerBlock; i < std::min(num_rows, (b + 1) * kRowsPerBlock); ++i) {
+      const RegionContributions& row = table.rows[i];
+      std::string prefix;
+      AppendCsvField(nodes[row.node].code, &prefix);
+      prefix += ',';
+      AppendCsvField(survey.regions.Code(row.region), &prefix);
+      prefix += ',';
+      for (const HeadingContribution& c : row.headings) {
+        out += prefix;
+        AppendCsvField(survey.heading_codes[c.heading], &out);
+        for (double v : {c.share, c.weight, c.heading_parity, c.price_part, c.adjustment,
+                         c.log_contribution}) {
+          out += ',';
+          AppendShortest(v, &out);
+        }
+        out += '\n';
       }
-      out += '\n';
     }
   }
+  std::string out =
+      "node,region,heading,share,weight,heading_parity,price_part,adjustment,log_contribution\n";
+  size_t total = out.size();
+  for (const std::string& block : blocks) total += block.size();
+  out.reserve(total);
+  for (const std::string& block : blocks) out += block;
   return out;
 }
 
