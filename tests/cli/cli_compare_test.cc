@@ -77,6 +77,46 @@ TEST(CompareCommand, ComparesTwoDemoRunsAndWritesTheFolder) {
   EXPECT_EQ(CountOf(ReadTextFile(dir + "/old/report.html"), "id=\"why-dear-chart\""), 1u);
 }
 
+TEST(CompareCommand, UsesTheStandardErrorsOfRealSensitivityRuns) {
+  // Each folder gets a bootstrap from a sensitivity run with its own
+  // settings, so the run records match and the test against them is made.
+  const std::string dir = MakeTempDir("cli_compare_sensitivity");
+  ComputeTwice(dir);
+  std::string out, err;
+  const std::string config = SourcePath("config/demo.yaml");
+  ASSERT_EQ(RunCli("sensitivity " + config + " --output " + dir +
+                       "/old --replicates 20 --parts bootstrap",
+                   &out, &err),
+            0)
+      << err;
+  ASSERT_EQ(RunCli("sensitivity " + config + " --output " + dir +
+                       "/new --replicates 20 --parts bootstrap --aggregation geks-tornqvist",
+                   &out, &err),
+            0)
+      << err;
+  ASSERT_EQ(RunCli("compare " + dir + "/old " + dir + "/new --output " + dir + "/cmp", &out, &err),
+            0)
+      << err;
+  EXPECT_NE(out.find("  region       old       new  change %      rank  beyond"), std::string::npos)
+      << out;
+  const std::string changes = ReadTextFile(dir + "/cmp/changes.csv");
+  CsvReader reader(changes);
+  CsvRecord record;
+  ASSERT_TRUE(reader.Next(&record));
+  int tested = 0;
+  while (reader.Next(&record)) {
+    if (record.fields[0] != "all") continue;
+    double se_old = 0, se_new = 0, threshold = 0;
+    ASSERT_EQ(ParseNumber(record.fields[11], &se_old), NumberStatus::kOk);
+    ASSERT_EQ(ParseNumber(record.fields[12], &se_new), NumberStatus::kOk);
+    ASSERT_EQ(ParseNumber(record.fields[13], &threshold), NumberStatus::kOk);
+    EXPECT_NEAR(threshold, 1.96 * std::sqrt(se_old * se_old + se_new * se_new), 1e-15);
+    EXPECT_TRUE(record.fields[14] == "yes" || record.fields[14] == "no");
+    ++tested;
+  }
+  EXPECT_EQ(tested, 16);
+}
+
 TEST(CompareCommand, RefusesAMissingFolderAndBadOptions) {
   const std::string dir = MakeTempDir("cli_compare_bad");
   std::string out, err;
