@@ -35,8 +35,9 @@ int RunCompareCommand(const CompareArguments& arguments) {
   }
   PrintOut(text);
   if (options.output_dir.empty()) {
-    PrintOut("\nno files written (--output FOLDER writes changes.csv, drivers.csv and "
-             "comparison.html)\n");
+    PrintOut(
+        "\nno files written (--output FOLDER writes changes.csv, drivers.csv and "
+        "comparison.html)\n");
   } else {
     PrintOut("\nwrote " + options.output_dir + ": " + JoinNames(summary.files_written) + "\n");
   }

@@ -3,14 +3,13 @@
 #include "paritas/jobs/compare_job.h"
 
 #include <filesystem>
-
 #include <nlohmann/json.hpp>
 
+#include "paritas/base/text.h"
 #include "paritas/jobs/jobs.h"
 #include "paritas/output/comparison_report.h"
 #include "paritas/output/run_folder.h"
 #include "paritas/output/run_record.h"
-#include "paritas/base/text.h"
 
 namespace paritas {
 namespace {
@@ -18,9 +17,11 @@ namespace {
 // The record's `compare` section: the runs read and what differs.
 std::string CompareSection(const RunComparison& c) {
   nlohmann::ordered_json out;
-  out["old"] = {{"folder", ValidUtf8(c.old_dir)}, {"run_id", ValidUtf8(c.old_run_id)},
+  out["old"] = {{"folder", ValidUtf8(c.old_dir)},
+                {"run_id", ValidUtf8(c.old_run_id)},
                 {"reference", ValidUtf8(c.old_reference)}};
-  out["new"] = {{"folder", ValidUtf8(c.new_dir)}, {"run_id", ValidUtf8(c.new_run_id)},
+  out["new"] = {{"folder", ValidUtf8(c.new_dir)},
+                {"run_id", ValidUtf8(c.new_run_id)},
                 {"reference", ValidUtf8(c.new_reference)}};
   out["rebased_to"] = ValidUtf8(c.rebased_to);
   out["z"] = c.z;

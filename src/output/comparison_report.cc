@@ -58,9 +58,8 @@ std::string Overview(const RunComparison& cmp, const std::vector<const ParityCha
          HtmlEscape(cmp.new_reference) + ")</td></tr></table>\n";
   int beyond = 0;
   for (const ParityChange* c : movers) beyond += c->beyond_uncertainty == 1 ? 1 : 0;
-  out += "<div class=\"cards\">" +
-         Card(FormatCount(static_cast<int64_t>(movers.size())),
-              "regions in both runs at " + HtmlEscape(cmp.summary_node));
+  out += "<div class=\"cards\">" + Card(FormatCount(static_cast<int64_t>(movers.size())),
+                                        "regions in both runs at " + HtmlEscape(cmp.summary_node));
   if (cmp.has_uncertainty) out += Card(FormatCount(beyond), "moved more than the uncertainty");
   if (!movers.empty()) {
     out += Card(Signed(movers.front()->percent_change, 1) + "\xC2\xA0%",
@@ -101,9 +100,8 @@ std::string ChangeChart(const std::vector<const ParityChange*>& movers) {
   const int decimals = internal::report::TickDecimals(ticks);
   for (double t : ticks) {
     out += "<line class=\"grid\" x1=\"" + C(x(t)) + "\" x2=\"" + C(x(t)) + "\" y1=\"" + C(top) +
-           "\" y2=\"" + C(top + row_h * n) + "\"/><text class=\"tick\" x=\"" + C(x(t)) +
-           "\" y=\"" + C(top + row_h * n + 16) + "\" text-anchor=\"middle\">" + Num(t, decimals) +
-           "</text>";
+           "\" y2=\"" + C(top + row_h * n) + "\"/><text class=\"tick\" x=\"" + C(x(t)) + "\" y=\"" +
+           C(top + row_h * n + 16) + "\" text-anchor=\"middle\">" + Num(t, decimals) + "</text>";
   }
   for (size_t i = 0; i < n; ++i) {
     const ParityChange& c = *movers[i];
@@ -113,8 +111,8 @@ std::string ChangeChart(const std::vector<const ParityChange*>& movers) {
                       Num(c.parity_new, 2) + " (" + Signed(v, 2) + " %)";
     if (c.beyond_uncertainty == 1) tip += ", beyond the runs' uncertainty";
     if (c.beyond_uncertainty == 0) tip += ", within the runs' uncertainty";
-    out += "<g><title>" + HtmlEscape(tip) + "</title><text class=\"row-label\" x=\"" +
-           C(label_w) + "\" y=\"" + C(y + row_h / 2 + 4) + "\" text-anchor=\"end\">" +
+    out += "<g><title>" + HtmlEscape(tip) + "</title><text class=\"row-label\" x=\"" + C(label_w) +
+           "\" y=\"" + C(y + row_h / 2 + 4) + "\" text-anchor=\"end\">" +
            HtmlEscape(Truncate(c.region, max_chars)) + "</text><rect x=\"" + C(bx) + "\" y=\"" +
            C(y + 4) + "\" width=\"" + C(bw) + "\" height=\"" + C(row_h - 8) + "\" fill=\"" +
            (v >= 0 ? kRise : kFall) + "\"" +
@@ -149,15 +147,20 @@ std::string ChangeTable(const RunComparison& cmp, const std::vector<const Parity
   if (cmp.has_uncertainty) out += "<th class=\"num\">threshold</th><th>beyond</th>";
   out += "</tr></thead><tbody>";
   for (const ParityChange* c : movers) {
-    out += "<tr><td>" + HtmlEscape(c->region) + "</td>" + NumCell(c->parity_old, Num(c->parity_old, 2)) +
+    out += "<tr><td>" + HtmlEscape(c->region) + "</td>" +
+           NumCell(c->parity_old, Num(c->parity_old, 2)) +
            NumCell(c->parity_new, Num(c->parity_new, 2)) +
            NumCell(c->percent_change, Signed(c->percent_change, 2)) +
            NumCell(c->log_change, Signed(c->log_change, 4)) +
-           NumCell(c->rank_old > 0 ? c->rank_old : internal::report::kNaN, c->rank_old > 0 ? std::to_string(c->rank_old) : "\xE2\x80\x93") +
-           NumCell(c->rank_new > 0 ? c->rank_new : internal::report::kNaN, c->rank_new > 0 ? std::to_string(c->rank_new) : "\xE2\x80\x93");
+           NumCell(c->rank_old > 0 ? c->rank_old : internal::report::kNaN,
+                   c->rank_old > 0 ? std::to_string(c->rank_old) : "\xE2\x80\x93") +
+           NumCell(c->rank_new > 0 ? c->rank_new : internal::report::kNaN,
+                   c->rank_new > 0 ? std::to_string(c->rank_new) : "\xE2\x80\x93");
     if (cmp.has_uncertainty) {
       out += NumCell(c->threshold, Num(c->threshold, 4)) + "<td>" +
-             (c->beyond_uncertainty == 1 ? "yes" : c->beyond_uncertainty == 0 ? "no" : "\xE2\x80\x93") +
+             (c->beyond_uncertainty == 1   ? "yes"
+              : c->beyond_uncertainty == 0 ? "no"
+                                           : "\xE2\x80\x93") +
              "</td>";
     }
     out += "</tr>";
@@ -166,12 +169,14 @@ std::string ChangeTable(const RunComparison& cmp, const std::vector<const Parity
   return out;
 }
 
-std::string ChangeSection(const RunComparison& cmp, const std::vector<const ParityChange*>& movers) {
+std::string ChangeSection(const RunComparison& cmp,
+                          const std::vector<const ParityChange*>& movers) {
   std::string out = OpenSection("changes", "Changes at " + HtmlEscape(cmp.summary_node));
-  out += "<p>How much each region's parity for <b>" + HtmlEscape(cmp.summary_node) +
-         "</b> moved from the old run to the new one, in percent" +
-         (cmp.rebased_to.empty() ? "" : ", both runs against region " + HtmlEscape(cmp.rebased_to)) +
-         ". Orange: dearer than before relative to the reference; blue: cheaper.";
+  out +=
+      "<p>How much each region's parity for <b>" + HtmlEscape(cmp.summary_node) +
+      "</b> moved from the old run to the new one, in percent" +
+      (cmp.rebased_to.empty() ? "" : ", both runs against region " + HtmlEscape(cmp.rebased_to)) +
+      ". Orange: dearer than before relative to the reference; blue: cheaper.";
   if (cmp.has_uncertainty) {
     out += " Marked * and drawn solid: the move is larger than " + FormatFixed(cmp.z, 2) +
            " times the combined standard error of the two runs, sqrt(se<sub>old</sub>\xC2\xB2 + "
@@ -221,9 +226,9 @@ std::string DriverChart(const RegionDrivers& d, int index) {
                     "\" role=\"img\" aria-label=\"parts of the change by heading\">";
   for (double t : internal::report::NiceTicks(lo, hi, 8)) {
     out += "<line class=\"grid\" x1=\"" + C(x(t)) + "\" x2=\"" + C(x(t)) + "\" y1=\"" + C(top) +
-           "\" y2=\"" + C(top + group_h * rows.size()) + "\"/><text class=\"tick\" x=\"" +
-           C(x(t)) + "\" y=\"" + C(top + group_h * rows.size() + 16) +
-           "\" text-anchor=\"middle\">" + Num(t, 2) + "</text>";
+           "\" y2=\"" + C(top + group_h * rows.size()) + "\"/><text class=\"tick\" x=\"" + C(x(t)) +
+           "\" y=\"" + C(top + group_h * rows.size() + 16) + "\" text-anchor=\"middle\">" +
+           Num(t, 2) + "</text>";
   }
   for (size_t i = 0; i < rows.size(); ++i) {
     const double y = top + group_h * i;
@@ -238,18 +243,21 @@ std::string DriverChart(const RegionDrivers& d, int index) {
              "</title></rect>";
     }
   }
-  out += "<line class=\"reference\" x1=\"" + C(x(0)) + "\" x2=\"" + C(x(0)) + "\" y1=\"" +
-         C(top) + "\" y2=\"" + C(top + group_h * rows.size()) +
-         "\"/><text class=\"axis-title\" x=\"" + C((x0 + x1) / 2) + "\" y=\"" + C(height - 4) +
+  out += "<line class=\"reference\" x1=\"" + C(x(0)) + "\" x2=\"" + C(x(0)) + "\" y1=\"" + C(top) +
+         "\" y2=\"" + C(top + group_h * rows.size()) + "\"/><text class=\"axis-title\" x=\"" +
+         C((x0 + x1) / 2) + "\" y=\"" + C(height - 4) +
          "\" text-anchor=\"middle\">part of the change, log points \xC3\x97 100 (about %)</text>"
          "</svg>\n";
   return out;
 }
 
-std::string DriverSection(const RunComparison& cmp, const std::vector<const ParityChange*>& movers) {
+std::string DriverSection(const RunComparison& cmp,
+                          const std::vector<const ParityChange*>& movers) {
   std::string out = OpenSection("drivers", "What drove the largest moves");
   if (cmp.drivers.empty()) {
-    return out + "<p>No breakdown by heading: see \xE2\x80\x9cWhat differs\xE2\x80\x9d above.</p></section>\n";
+    return out +
+           "<p>No breakdown by heading: see \xE2\x80\x9cWhat differs\xE2\x80\x9d "
+           "above.</p></section>\n";
   }
   out +=
       "<p>Each heading's part in a region's move, split three ways: the <b>price part</b> (the "
@@ -261,8 +269,10 @@ std::string DriverSection(const RunComparison& cmp, const std::vector<const Pari
       "log points \xC3\x97 100, about percent.</p>\n";
   out += "<div class=\"legend-row\">";
   for (int p = 0; p < 3; ++p) {
-    out += "<span class=\"key\"><svg width=\"14\" height=\"10\"><rect width=\"14\" height=\"10\" "
-           "fill=\"" + std::string(kPartColour[p]) + "\"/></svg> " + kPartName[p] + "</span>";
+    out +=
+        "<span class=\"key\"><svg width=\"14\" height=\"10\"><rect width=\"14\" height=\"10\" "
+        "fill=\"" +
+        std::string(kPartColour[p]) + "\"/></svg> " + kPartName[p] + "</span>";
   }
   out += "</div>\n";
   int drawn = 0;
@@ -275,7 +285,9 @@ std::string DriverSection(const RunComparison& cmp, const std::vector<const Pari
       out += DriverChart(d, drawn++);
     }
   }
-  out += "<p class=\"note\">Every region and aggregate is in <code>drivers.csv</code>.</p></section>\n";
+  out +=
+      "<p class=\"note\">Every region and aggregate is in "
+      "<code>drivers.csv</code>.</p></section>\n";
   return out;
 }
 
@@ -292,10 +304,12 @@ std::string OneRunSection(const RunComparison& cmp) {
                             OnlyList("nodes in the old run only", cmp.nodes_old_only) +
                             OnlyList("nodes in the new run only", cmp.nodes_new_only);
   std::string out = OpenSection("one-run", "In one run only");
-  out += items.empty() ? "<p>Both runs hold the same regions and nodes.</p>"
-                       : "<ul>" + items + "</ul><p class=\"note\">Their rows are in "
-                         "<code>changes.csv</code> with presence \xE2\x80\x9cold only\xE2\x80\x9d "
-                         "or \xE2\x80\x9cnew only\xE2\x80\x9d.</p>";
+  out += items.empty()
+             ? "<p>Both runs hold the same regions and nodes.</p>"
+             : "<ul>" + items +
+                   "</ul><p class=\"note\">Their rows are in "
+                   "<code>changes.csv</code> with presence \xE2\x80\x9cold only\xE2\x80\x9d "
+                   "or \xE2\x80\x9cnew only\xE2\x80\x9d.</p>";
   return out + "</section>\n";
 }
 
@@ -309,13 +323,15 @@ std::string ComparisonHtml(const RunComparison& cmp) {
       "<meta name=\"generator\" content=\"paritas " PARITAS_VERSION
       "\"><title>Comparison of two runs</title><style>";
   out += internal::report::kStyle;
-  out += "</style></head><body>\n<header class=\"top\"><div class=\"wrap\"><h1>Comparison of two "
-         "runs: " + HtmlEscape(cmp.summary_node) + "</h1><div class=\"sub\">" +
-         HtmlEscape(cmp.old_dir) + " \xE2\x86\x92 " + HtmlEscape(cmp.new_dir) +
-         "</div></div></header>\n<nav class=\"toc\" aria-label=\"sections\"><div class=\"wrap\">"
-         "<a href=\"#overview\">Overview</a><a href=\"#changes\">Changes</a><a "
-         "href=\"#drivers\">Drivers</a><a href=\"#one-run\">In one run only</a></div></nav>\n"
-         "<main class=\"wrap\">\n";
+  out +=
+      "</style></head><body>\n<header class=\"top\"><div class=\"wrap\"><h1>Comparison of two "
+      "runs: " +
+      HtmlEscape(cmp.summary_node) + "</h1><div class=\"sub\">" + HtmlEscape(cmp.old_dir) +
+      " \xE2\x86\x92 " + HtmlEscape(cmp.new_dir) +
+      "</div></div></header>\n<nav class=\"toc\" aria-label=\"sections\"><div class=\"wrap\">"
+      "<a href=\"#overview\">Overview</a><a href=\"#changes\">Changes</a><a "
+      "href=\"#drivers\">Drivers</a><a href=\"#one-run\">In one run only</a></div></nav>\n"
+      "<main class=\"wrap\">\n";
   out += Overview(cmp, movers) + ChangeSection(cmp, movers) + DriverSection(cmp, movers) +
          OneRunSection(cmp);
   out += "</main>\n<footer><div class=\"wrap\">Made by paritas " PARITAS_VERSION

@@ -80,8 +80,8 @@ std::string Bars(const std::vector<Bar>& bars, const std::string& id, const std:
            C(label_w) + "\" y=\"" + C(y + row_h / 2 + 4) + "\" text-anchor=\"end\">" +
            HtmlEscape(Truncate(bars[i].label, max_chars)) + "</text><rect x=\"" +
            C(std::min(x(0), x(v))) + "\" y=\"" + C(y + 4) + "\" width=\"" +
-           C(std::max(1.0, std::abs(x(v) - x(0)))) + "\" height=\"" + C(row_h - 8) +
-           "\" fill=\"" + (v >= 0 ? kDearer : kCheaper) + "\"" +
+           C(std::max(1.0, std::abs(x(v) - x(0)))) + "\" height=\"" + C(row_h - 8) + "\" fill=\"" +
+           (v >= 0 ? kDearer : kCheaper) + "\"" +
            (strong ? " stroke=\"#1d2329\" stroke-width=\"1.2\"" : "") +
            "/><text class=\"value\" x=\"" + C(x(v) + (v >= 0 ? 4 : -4)) + "\" y=\"" +
            C(y + row_h / 2 + 4) + "\" text-anchor=\"" + (v >= 0 ? "start" : "end") + "\">" +
@@ -106,8 +106,8 @@ std::vector<Bar> RegionBars(const Context& ctx, const RegionContributions& row) 
   double rest = 0.0;
   for (size_t k = 0; k < sorted.size(); ++k) {
     if (k < kMaxExplainedBars) {
-      bars.push_back({ctx.survey.heading_codes[sorted[k]->heading],
-                      100.0 * sorted[k]->log_contribution});
+      bars.push_back(
+          {ctx.survey.heading_codes[sorted[k]->heading], 100.0 * sorted[k]->log_contribution});
     } else {
       rest += 100.0 * sorted[k]->log_contribution;
     }
@@ -115,8 +115,8 @@ std::vector<Bar> RegionBars(const Context& ctx, const RegionContributions& row) 
   std::stable_sort(bars.begin(), bars.end(),
                    [](const Bar& a, const Bar& b) { return a.value > b.value; });
   if (sorted.size() > kMaxExplainedBars) {
-    bars.push_back({"other " + std::to_string(sorted.size() - kMaxExplainedBars) + " headings",
-                    rest});
+    bars.push_back(
+        {"other " + std::to_string(sorted.size() - kMaxExplainedBars) + " headings", rest});
   }
   bars.push_back({"all headings", 100.0 * row.log_parity});
   return bars;
@@ -154,11 +154,11 @@ std::string Panel(const Context& ctx, int r, const std::vector<double>& by_group
          C(top - 8) + "\" y2=\"" + C(h - 4) + "\"/>";
   for (size_t i = 0; i < groups.size(); ++i) {
     const double v = by_group[i], y = top + row_h * i;
-    const std::string& name = groups[i] < 0 ? std::string("other")
-                                            : ctx.survey.classification.nodes()[groups[i]].code;
+    const std::string& name =
+        groups[i] < 0 ? std::string("other") : ctx.survey.classification.nodes()[groups[i]].code;
     const double clamped = std::clamp(v, -span, span);
-    out += "<g><title>" + HtmlEscape(ctx.Label(r) + ", " + name + ": " + Signed(v, 2) +
-                                     " (about %)") +
+    out += "<g><title>" +
+           HtmlEscape(ctx.Label(r) + ", " + name + ": " + Signed(v, 2) + " (about %)") +
            "</title><text class=\"tick\" x=\"" + C(label_w) + "\" y=\"" + C(y + 10) +
            "\" text-anchor=\"end\">" + HtmlEscape(Truncate(name, 14)) + "</text><rect x=\"" +
            C(std::min(x(0), x(clamped))) + "\" y=\"" + C(y + 2) + "\" width=\"" +
@@ -218,16 +218,17 @@ std::string ContributionSection(const Context& ctx, const ContributionTable& tab
   if (!ctx.in.explain_region.empty()) region = ctx.survey.regions.Find(ctx.in.explain_region);
   const auto it = rows.find(region);
   const std::string against =
-      table.against_region ? "region " + HtmlEscape(ctx.root.reference_used)
-                           : "the average region";
+      table.against_region ? "region " + HtmlEscape(ctx.root.reference_used) : "the average region";
   std::string out = OpenSection("why-dear", "Why regions are dear");
-  out += "<p>A region's price level is built from the price levels of its basic headings, each "
-         "counted by how much is spent on it. The bars below take one region's level apart: "
-         "each heading's bar says how much that heading alone makes the region dearer (orange, "
-         "to the right) or cheaper (blue, to the left) than " + against +
-         ". The figures are log points (100 \xC3\x97 the natural log of the price ratio): close "
-         "to percent for small gaps, and unlike percent they add up, so the bars sum to the "
-         "whole gap (the last bar).</p>\n";
+  out +=
+      "<p>A region's price level is built from the price levels of its basic headings, each "
+      "counted by how much is spent on it. The bars below take one region's level apart: "
+      "each heading's bar says how much that heading alone makes the region dearer (orange, "
+      "to the right) or cheaper (blue, to the left) than " +
+      against +
+      ". The figures are log points (100 \xC3\x97 the natural log of the price ratio): close "
+      "to percent for small gaps, and unlike percent they add up, so the bars sum to the "
+      "whole gap (the last bar).</p>\n";
   if (it != rows.end()) {
     out += "<h3>" + HtmlEscape(ctx.Label(region)) + ": price level " +
            Num(ctx.root.parity(region), kTableParityDecimals) + " (" +
@@ -236,19 +237,25 @@ std::string ContributionSection(const Context& ctx, const ContributionTable& tab
                 "contribution of each heading to the price level of " + ctx.Label(region),
                 "adds to the price level, log points (about %)");
   }
-  out += "<h3>Every region at a glance</h3>\n<p>The same split for every region, dearest first, "
-         "with the headings summed into the groups directly under " + HtmlEscape(ctx.root_code) +
-         ". All panels share one scale; the number at the top right is the region's price "
-         "level.</p>\n";
+  out +=
+      "<h3>Every region at a glance</h3>\n<p>The same split for every region, dearest first, "
+      "with the headings summed into the groups directly under " +
+      HtmlEscape(ctx.root_code) +
+      ". All panels share one scale; the number at the top right is the region's price "
+      "level.</p>\n";
   out += Overview(ctx, rows);
-  out += "<p class=\"note\">How the split is made: each heading's part is its difference in "
-         "price from " + against + " (in logs), weighted by the average of the two spending "
-         "shares, the form of the Törnqvist index" +
-         std::string(table.against_region ? "" : ", averaged over every region as the GEKS "
-                                                 "method does") +
-         "; what the aggregation method and the normalisation add beyond that is spread over "
-         "the headings by the same weights. Every figure is in <code>contributions.csv</code>."
-         "</p></section>\n";
+  out +=
+      "<p class=\"note\">How the split is made: each heading's part is its difference in "
+      "price from " +
+      against +
+      " (in logs), weighted by the average of the two spending "
+      "shares, the form of the Törnqvist index" +
+      std::string(table.against_region ? ""
+                                       : ", averaged over every region as the GEKS "
+                                         "method does") +
+      "; what the aggregation method and the normalisation add beyond that is spread over "
+      "the headings by the same weights. Every figure is in <code>contributions.csv</code>."
+      "</p></section>\n";
   return out;
 }
 

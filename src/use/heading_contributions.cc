@@ -79,8 +79,8 @@ void FinishRow(RegionContributions* row) {
 
 // Against region b: pair's Törnqvist terms, shares renormalised to the
 // headings both have.
-void AgainstRegion(const Survey& survey, const NodeInputs& in, const NodeResult& n, int node,
-                   int b, std::vector<RegionContributions>* rows) {
+void AgainstRegion(const Survey& survey, const NodeInputs& in, const NodeResult& n, int node, int b,
+                   std::vector<RegionContributions>* rows) {
   const std::vector<int>& headings = survey.classification.nodes()[node].headings;
   for (int r = 0; r < static_cast<int>(in.usable.size()); ++r) {
     if (!in.usable[r]) continue;
@@ -118,8 +118,8 @@ void AgainstRegion(const Survey& survey, const NodeInputs& in, const NodeResult&
 struct FullSums {
   std::vector<bool> full;
   double count = 0.0;
-  double num_usable = 0.0;     // regions with a parity at the node
-  std::vector<int> not_full;   // usable regions missing some heading
+  double num_usable = 0.0;       // regions with a parity at the node
+  std::vector<int> not_full;     // usable regions missing some heading
   std::vector<double> l, s, sl;  // per heading: sum of l_sk, s_sk, s_sk l_sk
 };
 
@@ -176,8 +176,7 @@ void AddPair(const NodeInputs& in, int r, int s, std::vector<int>* matched,
 // mean_s ln T(s, r). Pairs of full regions come from the sums.
 RegionContributions AgainstAverageRow(const Survey& survey, const NodeInputs& in,
                                       const NodeResult& n, int node, int r,
-                                      const std::vector<double>& mean_share,
-                                      const FullSums& sums) {
+                                      const std::vector<double>& mean_share, const FullSums& sums) {
   const std::vector<int>& headings = survey.classification.nodes()[node].headings;
   const int num_headings = static_cast<int>(headings.size());
   std::vector<double> price(num_headings, 0.0);

@@ -10,10 +10,9 @@
 #include <functional>
 #include <limits>
 #include <map>
+#include <nlohmann/json.hpp>
 #include <set>
 #include <utility>
-
-#include <nlohmann/json.hpp>
 
 #include "paritas/base/csv.h"
 #include "paritas/base/read_limits.h"
@@ -102,10 +101,10 @@ bool ReadTable(const std::string& path, const std::vector<std::string>& wanted,
   while (reader.Next(&record)) {
     if (record.fields.size() != num_fields) {
       const size_t found = record.fields.size();
-      *error = LocatedMessage(path, record.line, static_cast<int>(std::min(found, num_fields)) + 1,
-                              "row has " + std::to_string(found) + " field" +
-                                  (found == 1 ? "" : "s") + ", the header has " +
-                                  std::to_string(num_fields));
+      *error =
+          LocatedMessage(path, record.line, static_cast<int>(std::min(found, num_fields)) + 1,
+                         "row has " + std::to_string(found) + " field" + (found == 1 ? "" : "s") +
+                             ", the header has " + std::to_string(num_fields));
       return false;
     }
     row.line = record.line;
@@ -280,8 +279,8 @@ bool ReadRun(const std::string& dir, const std::string& label, RunData* run,
   }
   const std::string command = CommandOf(run->json);
   if (command != "compute") {
-    *error = label + " run '" + dir + "': run.json records the command '" + command +
-             "', not 'compute'";
+    *error =
+        label + " run '" + dir + "': run.json records the command '" + command + "', not 'compute'";
     return false;
   }
   run->reference = ReferenceOf(run->json);
@@ -328,8 +327,8 @@ bool ChooseScale(const RunData& old_run, const RunData& new_run, RunComparison* 
       out->rebased_to = candidate;
       out->statements.push_back(
           "the runs have different references (" + old_run.reference + " in the old run, " +
-          new_run.reference + " in the new): both are re-expressed against region '" +
-          candidate + "' (each parity divided by that region's parity at the same node); " +
+          new_run.reference + " in the new): both are re-expressed against region '" + candidate +
+          "' (each parity divided by that region's parity at the same node); " +
           "standard errors and drivers are left out, since they belong to each run's own " +
           "reference");
       return true;
@@ -367,8 +366,7 @@ void Statements(const RunData& old_run, const RunData& new_run, RunComparison* o
 }
 
 // The union of two lists, first's order, then the second's new entries.
-std::vector<std::string> Union(const std::vector<std::string>& a,
-                               const std::vector<std::string>& b,
+std::vector<std::string> Union(const std::vector<std::string>& a, const std::vector<std::string>& b,
                                std::vector<std::string>* only_a, std::vector<std::string>* only_b) {
   const std::set<std::string> in_a(a.begin(), a.end()), in_b(b.begin(), b.end());
   std::vector<std::string> out = a;
@@ -458,8 +456,7 @@ RegionDrivers Drivers(const std::vector<ContributionRow>& old_rows,
     const double l_new = std::log(d.heading_parity_new / 100.0);
     const double lo = std::isnan(l_old) ? l_new : l_old, ln = std::isnan(l_new) ? l_old : l_new;
     d.price_part = 0.5 * (d.share_old + d.share_new) * (ln - lo);
-    d.weight_part =
-        (d.share_new - d.share_old) * (0.5 * (lo + ln) - 0.5 * (level_old + level_new));
+    d.weight_part = (d.share_new - d.share_old) * (0.5 * (lo + ln) - 0.5 * (level_old + level_new));
     explained += d.price_part + d.weight_part;
     weight_total += 0.5 * (d.share_old + d.share_new);
   }
@@ -520,8 +517,8 @@ bool CompareOptions::IsValid(std::string* error) const {
     return false;
   }
   if (num_movers < 1 || num_movers > 1000) {
-    *error = "--top must be a whole number from 1 to 1000, found '" + std::to_string(num_movers) +
-             "'";
+    *error =
+        "--top must be a whole number from 1 to 1000, found '" + std::to_string(num_movers) + "'";
     return false;
   }
   if (!(z > 0) || !std::isfinite(z)) {
@@ -701,26 +698,29 @@ std::string CompareTable(const RunComparison& comparison, int num_movers) {
     return std::abs(a->log_change) > std::abs(b->log_change);
   });
   const size_t shown = std::min(movers.size(), static_cast<size_t>(num_movers));
-  out += "\nlargest moves at '" + comparison.summary_node + "' (" + std::to_string(shown) +
-         " of " + std::to_string(movers.size()) + " regions in both runs)" +
+  out += "\nlargest moves at '" + comparison.summary_node + "' (" + std::to_string(shown) + " of " +
+         std::to_string(movers.size()) + " regions in both runs)" +
          (comparison.rebased_to.empty() ? "" : ", against region '" + comparison.rebased_to + "'") +
          ":\n";
   size_t width = 6;
   for (size_t k = 0; k < shown; ++k) width = std::max(width, movers[k]->region.size());
   out += "  " + Pad("region", width) + Pad("old", 10, true) + Pad("new", 10, true) +
          Pad("change %", 10, true) + Pad("rank", 10, true) +
-         (comparison.has_uncertainty ? Pad("beyond", 8, true) : "") + "  main headings (log points x100)\n";
+         (comparison.has_uncertainty ? Pad("beyond", 8, true) : "") +
+         "  main headings (log points x100)\n";
   for (size_t k = 0; k < shown; ++k) {
     const ParityChange& c = *movers[k];
     const std::string rank = c.rank_old > 0 && c.rank_new > 0
                                  ? std::to_string(c.rank_old) + "->" + std::to_string(c.rank_new)
                                  : "-";
     out += "  " + Pad(c.region, width) + Pad(FormatFixed(c.parity_old, 2), 10, true) +
-           Pad(FormatFixed(c.parity_new, 2), 10, true) + Pad(Signed(c.percent_change, 2), 10, true) +
-           Pad(rank, 10, true);
+           Pad(FormatFixed(c.parity_new, 2), 10, true) +
+           Pad(Signed(c.percent_change, 2), 10, true) + Pad(rank, 10, true);
     if (comparison.has_uncertainty) {
-      out += Pad(c.beyond_uncertainty == 1 ? "yes" : c.beyond_uncertainty == 0 ? "no" : "-", 8,
-                 true);
+      out += Pad(c.beyond_uncertainty == 1   ? "yes"
+                 : c.beyond_uncertainty == 0 ? "no"
+                                             : "-",
+                 8, true);
     }
     const std::string drivers = TopDrivers(comparison, c);
     out += drivers.empty() ? "\n" : "  " + drivers + "\n";
@@ -749,7 +749,8 @@ std::string CompareTable(const RunComparison& comparison, int num_movers) {
   }
   only += ListLine("aggregates in the old run only", aggregates_old) +
           ListLine("aggregates in the new run only", aggregates_new);
-  if (!only.empty()) out += "\nin one run only (listed in changes.csv with their presence):\n" + only;
+  if (!only.empty())
+    out += "\nin one run only (listed in changes.csv with their presence):\n" + only;
   return out;
 }
 

@@ -23,9 +23,9 @@ using testing::SourcePath;
 // Computes the demo twice (geks-fisher, then geks-tornqvist) under `dir`.
 void ComputeTwice(const std::string& dir) {
   std::string out, err;
-  ASSERT_EQ(RunCli("compute " + SourcePath("config/demo.yaml") + " --output " + dir + "/old",
-                   &out, &err),
-            0)
+  ASSERT_EQ(
+      RunCli("compute " + SourcePath("config/demo.yaml") + " --output " + dir + "/old", &out, &err),
+      0)
       << err;
   ASSERT_EQ(RunCli("compute " + SourcePath("config/demo.yaml") + " --no-report --output " + dir +
                        "/new --aggregation geks-tornqvist",
@@ -38,13 +38,14 @@ TEST(CompareCommand, ComparesTwoDemoRunsAndWritesTheFolder) {
   const std::string dir = MakeTempDir("cli_compare_demo");
   ComputeTwice(dir);
   std::string out, err;
-  ASSERT_EQ(RunCli("compare " + dir + "/old " + dir + "/new --output " + dir + "/cmp --top 3",
-                   &out, &err),
+  ASSERT_EQ(RunCli("compare " + dir + "/old " + dir + "/new --output " + dir + "/cmp --top 3", &out,
+                   &err),
             0)
       << err;
   EXPECT_EQ(err, "");
-  EXPECT_NE(out.find("  - aggregation: geks-tornqvist in the new run, geks-fisher in the old run\n"),
-            std::string::npos)
+  EXPECT_NE(
+      out.find("  - aggregation: geks-tornqvist in the new run, geks-fisher in the old run\n"),
+      std::string::npos)
       << out;
   EXPECT_NE(out.find("largest moves at 'all' (3 of 16 regions in both runs):"), std::string::npos)
       << out;
@@ -132,14 +133,15 @@ TEST(CompareCommand, RefusesAMissingFolderAndBadOptions) {
 TEST(CompareCommand, AnUnknownReportRegionIsRefusedByCompute) {
   const std::string dir = MakeTempDir("cli_compare_report_region");
   const std::string demo = SourcePath("data/demo/");
-  testing::WriteTextFile(dir + "/run.yaml",
-                         "survey:\n  prices: " + demo + "prices.csv\n  items: " + demo +
-                             "items.csv\n  expenditure: " + demo + "expenditure.csv\n  regions: " +
-                             demo + "regions.csv\nclassification: " + demo +
-                             "classification.yaml\nreport_region: harr\n");
+  testing::WriteTextFile(
+      dir + "/run.yaml",
+      "survey:\n  prices: " + demo + "prices.csv\n  items: " + demo +
+          "items.csv\n  expenditure: " + demo + "expenditure.csv\n  regions: " + demo +
+          "regions.csv\nclassification: " + demo + "classification.yaml\nreport_region: harr\n");
   std::string out, err;
   EXPECT_EQ(RunCli("compute " + dir + "/run.yaml --output " + dir + "/out", &out, &err), 1);
-  EXPECT_EQ(err, "paritas: error: report_region 'harr' is not in the survey; did you mean 'har'?\n");
+  EXPECT_EQ(err,
+            "paritas: error: report_region 'harr' is not in the survey; did you mean 'har'?\n");
 }
 
 }  // namespace

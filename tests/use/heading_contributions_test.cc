@@ -48,8 +48,8 @@ void LoadAndCompute(const std::string& config_path, const std::string& aggregati
   LoadSummary load;
   ASSERT_TRUE(LoadSurvey(out->config, LoadOptions(), &out->survey, &load)) << load.message;
   ComputeSummary compute;
-  ASSERT_TRUE(ComputeParities(out->survey, ComputeOptions::FromConfig(out->config), &out->result,
-                              &compute))
+  ASSERT_TRUE(
+      ComputeParities(out->survey, ComputeOptions::FromConfig(out->config), &out->result, &compute))
       << compute.message;
 }
 
@@ -123,8 +123,7 @@ INSTANTIATE_TEST_SUITE_P(
     ::testing::Combine(::testing::ValuesIn(AggregationMethodNames()),
                        ::testing::Values("mean", "cap", "country")),
     [](const ::testing::TestParamInfo<std::tuple<std::string, std::string>>& param_info) {
-      std::string name =
-          std::get<0>(param_info.param) + "_" + std::get<1>(param_info.param);
+      std::string name = std::get<0>(param_info.param) + "_" + std::get<1>(param_info.param);
       for (char& ch : name) ch = std::isalnum(static_cast<unsigned char>(ch)) ? ch : '_';
       return name;
     });
@@ -161,7 +160,8 @@ TEST(HeadingContributions, GeksFisherLeavesAnAdjustmentWhichTheSumStillAbsorbs) 
   ExpectSumsToLnParity(c, table);
   double largest = 0.0;
   for (const RegionContributions& row : table.rows) {
-    for (const HeadingContribution& h : row.headings) largest = std::max(largest, std::abs(h.adjustment));
+    for (const HeadingContribution& h : row.headings)
+      largest = std::max(largest, std::abs(h.adjustment));
   }
   EXPECT_GT(largest, 1e-6);
 }

@@ -25,12 +25,13 @@ using ::paritas::testing::MakeTempDir;
 using ::paritas::testing::ReadTextFile;
 using ::paritas::testing::WriteTextFile;
 
-std::string RunJson(const std::string& command, const std::string& id,
-                    const std::string& reference, const std::string& aggregation = "geks-fisher") {
+std::string RunJson(const std::string& command, const std::string& id, const std::string& reference,
+                    const std::string& aggregation = "geks-fisher") {
   return "{\"schema_version\": 2, \"tool\": {\"name\": \"paritas\", \"version\": \"0.1.0\"}, "
-         "\"run_id\": \"" + id + "\", \"command\": \"" + command +
-         "\", \"configuration\": {\"reference\": \"" + reference +
-         "\", \"elementary\": \"cpd\", \"aggregation\": \"" + aggregation + "\"}, \"inputs\": []}\n";
+         "\"run_id\": \"" +
+         id + "\", \"command\": \"" + command + "\", \"configuration\": {\"reference\": \"" +
+         reference + "\", \"elementary\": \"cpd\", \"aggregation\": \"" + aggregation +
+         "\"}, \"inputs\": []}\n";
 }
 
 // A heading row of contributions.csv; compare reads share and heading_parity.
@@ -74,7 +75,8 @@ void WriteHandPair(const std::string& dir, const std::string& old_reference = "m
   WriteTextFile(dir + "/new/run.json", RunJson("compute", "new-id", new_reference));
   WriteTextFile(dir + "/new/parities.csv",
                 std::string(kParitiesHeader) + "all,aggregate,a,110,2\nall,aggregate,b," +
-                    Number(b_new) + ",1\nall,aggregate,c,105,3\n"
+                    Number(b_new) +
+                    ",1\nall,aggregate,c,105,3\n"
                     "h1,heading,a,121,2\nh1,heading,b,144,1\nh1,heading,c,100,3\n"
                     "h2,heading,a,100,1\nh2,heading,b,100,2\nh2,heading,c,100,3\n");
   WriteTextFile(dir + "/new/contributions.csv",
@@ -189,9 +191,8 @@ TEST(CompareRuns, ARegionAddedAndOneRemovedAreListedNeverDropped) {
   // Old run also has d; new run also has e and a new heading h3 that a buys.
   WriteTextFile(dir + "/old/parities.csv",
                 ReadTextFile(dir + "/old/parities.csv") + "all,aggregate,d,90,4\n");
-  WriteTextFile(dir + "/new/parities.csv",
-                ReadTextFile(dir + "/new/parities.csv") +
-                    "all,aggregate,e,95,4\nh3,heading,a,80,1\n");
+  WriteTextFile(dir + "/new/parities.csv", ReadTextFile(dir + "/new/parities.csv") +
+                                               "all,aggregate,e,95,4\nh3,heading,a,80,1\n");
   WriteTextFile(dir + "/new/contributions.csv",
                 std::string(kContributionsHeader) + Contribution("a", "h1", 0.4, 121) +
                     Contribution("a", "h2", 0.4, 100) + Contribution("a", "h3", 0.2, 80) +
@@ -257,7 +258,8 @@ TEST(CompareRuns, StandardErrorsOfAnotherRunAreNotUsed) {
   for (const char* run : {"old", "new"}) {
     WriteTextFile(dir + "/" + run + "/sensitivity/run.json",
                   RunJson("sensitivity", "s", "mean", "geary-khamis"));
-    WriteTextFile(dir + "/" + run + "/sensitivity/bootstrap.csv", "node,region,log_se\nall,a,0.1\n");
+    WriteTextFile(dir + "/" + run + "/sensitivity/bootstrap.csv",
+                  "node,region,log_se\nall,a,0.1\n");
   }
   RunComparison c;
   CompareSummary summary;
@@ -278,7 +280,8 @@ TEST(CompareRuns, DifferentMethodsAreComparedWithAStatement) {
   CompareSummary summary;
   ASSERT_TRUE(CompareRuns(Options(dir), &c, &summary)) << summary.message;
   ASSERT_GE(c.statements.size(), 2u);
-  EXPECT_EQ(c.statements[0], "aggregation: geks-tornqvist in the new run, geks-fisher in the old run");
+  EXPECT_EQ(c.statements[0],
+            "aggregation: geks-tornqvist in the new run, geks-fisher in the old run");
   EXPECT_EQ(c.statements[1],
             "the runs were computed with different settings: part of each change comes from the "
             "settings, not from prices or weights");
@@ -309,8 +312,8 @@ TEST(CompareRuns, DifferentMeansAreRefused) {
   CompareSummary summary;
   EXPECT_FALSE(CompareRuns(Options(dir), &c, &summary));
   EXPECT_EQ(summary.message,
-            "the runs have different references (mean in " + dir + "/old, weighted-mean in " +
-                dir + "/new) and neither is a region with a parity in both runs, so their "
+            "the runs have different references (mean in " + dir + "/old, weighted-mean in " + dir +
+                "/new) and neither is a region with a parity in both runs, so their "
                 "parities have no common scale; compute one run again with the other's reference");
 }
 
@@ -335,8 +338,9 @@ TEST(CompareRuns, RefusesBadFoldersWithExactMessages) {
   WriteTextFile(dir + "/sens/run.json", RunJson("sensitivity", "x", "mean"));
   options.old_dir = dir + "/sens";
   EXPECT_FALSE(CompareRuns(options, &c, &summary));
-  EXPECT_EQ(summary.message,
-            "old run '" + dir + "/sens': run.json records the command 'sensitivity', not 'compute'");
+  EXPECT_EQ(
+      summary.message,
+      "old run '" + dir + "/sens': run.json records the command 'sensitivity', not 'compute'");
   options = Options(dir);
   WriteTextFile(dir + "/new/parities.csv",
                 std::string(kParitiesHeader) + "all,aggregate,a,110,1\nall,aggregate,b,abc,2\n");
@@ -367,14 +371,15 @@ TEST(RunCompare, WritesTheFolderWholeAndNeverOverAnInput) {
   CompareSummary summary;
   std::string text;
   ASSERT_EQ(RunCompare(options, &c, &summary, &text), 0) << summary.message;
-  EXPECT_EQ(summary.files_written,
-            (std::vector<std::string>{"changes.csv", "drivers.csv", "comparison.html", "run.json"}));
+  EXPECT_EQ(summary.files_written, (std::vector<std::string>{"changes.csv", "drivers.csv",
+                                                             "comparison.html", "run.json"}));
   EXPECT_EQ(ReadTextFile(dir + "/cmp/changes.csv"), ChangesCsv(c));
   EXPECT_EQ(ReadTextFile(dir + "/cmp/drivers.csv"), DriversCsv(c));
   const std::string html = ReadTextFile(dir + "/cmp/comparison.html");
   EXPECT_EQ(CountOf(html, "id=\"change-chart\""), 1u);
   EXPECT_EQ(CountOf(html, "class=\"chart driver-chart\""), 3u);
-  EXPECT_NE(ReadTextFile(dir + "/cmp/run.json").find("\"command\": \"compare\""), std::string::npos);
+  EXPECT_NE(ReadTextFile(dir + "/cmp/run.json").find("\"command\": \"compare\""),
+            std::string::npos);
   EXPECT_NE(text.find("largest moves at 'all' (3 of 3 regions in both runs):"), std::string::npos)
       << text;
   // The output may not be an input folder.

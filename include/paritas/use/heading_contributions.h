@@ -89,9 +89,9 @@ struct ContributionTable {
 // Computes the contributions for every node and every region with a parity
 // there. Against the average region a node costs regions x headings when
 // every region has every heading parity, and up to regions² x headings
-// when many miss one (their pairs are visited one by one). `reference` is the run's (ComputeOptions::reference); a node whose
-// reference region has no parity there (reference_used "mean (reference
-// region absent)") is split against the average region.
+// when many miss one (their pairs are visited one by one). `reference` is the run's
+// (ComputeOptions::reference); a node whose reference region has no parity there (reference_used
+// "mean (reference region absent)") is split against the average region.
 ContributionTable HeadingContributions(const Survey& survey, const ParityResult& result,
                                        const Reference& reference);
 

@@ -140,16 +140,15 @@ enum class CompareOutcome { kNotRun, kOk, kInvalidInput };
 struct CompareSummary {
   CompareOutcome outcome = CompareOutcome::kNotRun;
   std::string message = "not run";
-  int num_changes = 0;             // node x region rows
-  int num_beyond_uncertainty = 0;  // rows whose change exceeds the threshold
+  int num_changes = 0;                     // node x region rows
+  int num_beyond_uncertainty = 0;          // rows whose change exceeds the threshold
   std::vector<std::string> files_written;  // relative to output_dir
 };
 
 // Reads both folders and compares them. Returns false with a message naming
 // the file (and line and column for a bad row) when a folder cannot be
 // read, or when the runs have no common scale; never aborts on data.
-bool CompareRuns(const CompareOptions& options, RunComparison* comparison,
-                 CompareSummary* summary);
+bool CompareRuns(const CompareOptions& options, RunComparison* comparison, CompareSummary* summary);
 
 // changes.csv: node,kind,region,presence,parity_old,parity_new,
 // percent_change,log_change,rank_old,rank_new,rank_change,log_se_old,
