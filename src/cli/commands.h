@@ -64,6 +64,16 @@ struct PublishArguments {
   bool no_intervals = false;
 };
 int RunPublishCommand(const PublishArguments& arguments);
+// Arguments of `compare` as typed; numbers are parsed by the command.
+struct CompareArguments {
+  std::string old_dir;
+  std::string new_dir;
+  std::string output;
+  std::string node;
+  std::optional<std::string> top;
+  std::optional<std::string> z;
+};
+int RunCompareCommand(const CompareArguments& arguments);
 
 // Loads the configuration and applies the command-line overrides. Returns
 // false after printing the problem.

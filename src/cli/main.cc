@@ -212,6 +212,26 @@ int main(int argc, char** argv) {
   publish->footer(HelpFooter(
       "paritas publish out/demo --xlsx demo_tables.xlsx --csv demo_levels.csv --sort level"));
 
+  paritas::cli::CompareArguments compare_arguments;
+  CLI::App* compare = app.add_subcommand("compare", "compare two output folders of compute");
+  compare->add_option("old", compare_arguments.old_dir, "output folder of the earlier run")
+      ->required();
+  compare->add_option("new", compare_arguments.new_dir, "output folder of the later run")
+      ->required();
+  compare->add_option("--output", compare_arguments.output,
+                      "folder written: changes.csv, drivers.csv, comparison.html, run.json "
+                      "(default: none, the terminal summary only)");
+  compare->add_option("--node", compare_arguments.node,
+                      "node of the summary and the page's charts (default: the root)");
+  compare->add_option("--top", compare_arguments.top,
+                      "regions listed in the summary, largest moves first (default 10)")
+      ->type_name("INT");
+  compare->add_option("--z", compare_arguments.z,
+                      "a change counts as beyond the runs' uncertainty above z x sqrt(se_old^2 + "
+                      "se_new^2) (default 1.96)")
+      ->type_name("NUMBER");
+  compare->footer(HelpFooter("paritas compare out/last-year out/demo --output out/changes"));
+
   try {
     app.parse(argc, argv);
   } catch (const CLI::CallForHelp& e) {
@@ -248,6 +268,7 @@ int main(int argc, char** argv) {
     return paritas::cli::RunSensitivityCommand(config_path, overrides, sensitivity_arguments);
   }
   if (publish->parsed()) return paritas::cli::RunPublishCommand(publish_arguments);
+  if (compare->parsed()) return paritas::cli::RunCompareCommand(compare_arguments);
   if (pair->parsed()) {
     return paritas::cli::RunPairCommand(config_path, overrides, pair_from, pair_to, pair_node, pair_csv,
                                         pair_every_method);

@@ -14,6 +14,7 @@
 #include "paritas/elementary/elementary.h"
 #include "paritas/output/output_writers.h"
 #include "paritas/output/report.h"
+#include "paritas/use/heading_contributions.h"
 #include "paritas/base/text.h"
 
 namespace paritas {
@@ -333,6 +334,12 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
   if (!ResolveMatrixNodes(survey.classification, config.matrices, &matrix_nodes, &error)) {
     return fail(kExitInvalidInput, error);
   }
+  if (!config.report_region.empty() && survey.regions.Find(config.report_region) < 0) {
+    std::string message = "report_region '" + config.report_region + "' is not in the survey";
+    const std::string nearest = NearestName(config.report_region, survey.regions.Codes());
+    if (!nearest.empty()) message += "; did you mean '" + nearest + "'?";
+    return fail(kExitInvalidInput, message);
+  }
   ComputeOptions options = ComputeOptions::FromConfig(config);
   options.keep_bilaterals = matrix_nodes;
   if (!ComputeParities(survey, options, &summary->result, &summary->compute)) {
@@ -351,10 +358,17 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
   summary->warnings =
       CollectWarnings(summary->load, summary->compute.warnings, summary->plausibility);
 
+  // Each heading's part in each region's ln parity (contributions.csv, report).
+  const auto contributions_start = std::chrono::steady_clock::now();
+  const ContributionTable contributions =
+      HeadingContributions(survey, result, options.reference);
+  summary->stages.push_back({"contributions", SecondsSince(contributions_start)});
+
   // Outputs, written whole or not at all.
   const auto write_start = std::chrono::steady_clock::now();
   std::vector<OutputFile> files;
   files.push_back({"parities.csv", ParitiesCsv(survey, result, &summary->plausibility)});
+  files.push_back({"contributions.csv", ContributionsCsv(survey, contributions)});
   files.push_back({"warnings.csv", WarningsCsv(summary->warnings)});
   if (const AggregationMethod* method = FindAggregationMethod(config.aggregation);
       method != nullptr && method->Properties().additive) {
@@ -387,6 +401,8 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
     report.compute = &summary->compute;
     report.warnings = summary->warnings;
     report.plausibility = &summary->plausibility;
+    report.contributions = &contributions;
+    report.explain_region = config.report_region;
     files.push_back({"report.html", ReportHtml(report)});
   }
   for (const OutputFile& file : files) summary->outputs.push_back(file.relative_path);

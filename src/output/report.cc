@@ -62,11 +62,13 @@ Context MakeContext(const ReportInputs& inputs, const std::string& root_code) {
 
 // Links to the sections the page holds.
 std::string Navigation(bool has_bilaterals, bool has_tree, bool has_outliers, bool has_sensitivity,
-                       bool has_groups) {
+                       bool has_groups, bool has_contributions) {
   std::string out =
       "<nav class=\"toc\" aria-label=\"sections\"><div class=\"wrap\"><a "
       "href=\"#overview\">Overview</a>"
-      "<a href=\"#price-levels\">Price levels</a><a href=\"#aggregates\">By aggregate</a>";
+      "<a href=\"#price-levels\">Price levels</a>";
+  if (has_contributions) out += "<a href=\"#why-dear\">Why dear</a>";
+  out += "<a href=\"#aggregates\">By aggregate</a>";
   if (has_groups) out += "<a href=\"#groups\">Groups</a>";
   out += "<a href=\"#matrix\">Parity matrix</a><a href=\"#coverage\">Coverage</a>";
   if (has_bilaterals) out += "<a href=\"#spread\">Bilateral spread</a>";
@@ -88,13 +90,15 @@ std::string Sections(const Context& ctx) {
       result.bilaterals.front().laspeyres.rows() == ctx.survey.num_regions();
   const bool has_groups = ctx.survey.classification.num_tree_nodes() <
                           static_cast<int>(ctx.survey.classification.nodes().size());
+  const bool has_contributions = ctx.in.contributions != nullptr && !ctx.order.empty();
   std::string out = Navigation(has_bilaterals, !ctx.root.tree.empty(), ctx.in.outliers != nullptr,
-                               ctx.in.sensitivity != nullptr, has_groups);
+                               ctx.in.sensitivity != nullptr, has_groups, has_contributions);
   out += report::Overview(ctx);
   std::vector<RegionSpread> spreads;
   if (has_bilaterals) spreads = RegionSpreads(result.bilaterals.front());
   if (!ctx.order.empty()) {
     out += report::PriceLevelSection(ctx, spreads);
+    if (has_contributions) out += report::ContributionSection(ctx, *ctx.in.contributions);
     out += report::AggregateSection(ctx);
     if (has_groups) out += report::GroupSection(ctx);
     out += report::MatrixSection(ctx);

@@ -215,6 +215,8 @@ std::string CoverageSection(const Context& ctx);
 std::string SpreadSection(const Context& ctx, const BilateralMatrices& b);
 std::string OutlierSection(const Context& ctx, const std::vector<ReportOutlier>& outliers);
 std::string SensitivitySection(const Context& ctx, const ReportSensitivity& s);
+// report_contributions.cc: "Why regions are dear" (empty without root rows).
+std::string ContributionSection(const Context& ctx, const ContributionTable& table);
 // report_tree.cc: the root's spanning tree (spanning-tree method only).
 std::string TreeSection(const Context& ctx);
 // report_methods.cc

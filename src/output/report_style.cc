@@ -80,6 +80,8 @@ svg .marker.open.m2{stroke:#009e73}svg .marker.open.m3{stroke:#cc79a7}
 svg .marker.open.m4{stroke:#e69f00}svg .marker.open.m5{stroke:#56b4e9}
 svg .marker.open.m6{stroke:#1d2329}svg .marker.open.m7{stroke:#8c564b}
 svg.grid-chart{width:100%}
+.multiples{display:grid;grid-template-columns:repeat(auto-fill,minmax(230px,1fr));gap:8px 14px;margin:8px 0}
+svg.panel{display:block;width:100%;height:auto;border:1px solid var(--rule);border-radius:4px}
 .legend-row{display:flex;flex-wrap:wrap;align-items:center;gap:6px 22px;margin:4px 0 6px;font-size:.85rem;color:var(--muted)}
 .legend-row .key{display:inline-flex;align-items:center;gap:6px}
 svg.legend text{font-size:11px}

@@ -60,6 +60,7 @@ Json ConfigJson(const RunConfig& config) {
               {"outlier_fit", config.outlier_fit},
               {"robust_errors", config.robust_errors},
               {"report", config.report},
+              {"report_region", ValidUtf8(config.report_region)},
               {"threads", config.threads}};
   Json rules = Json::object();
   for (const auto& [heading, rule] : config.missing_parities.headings) {

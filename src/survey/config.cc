@@ -94,6 +94,7 @@ const std::vector<std::string> kTopKeys = {"survey",
                                            "outlier_fit",
                                            "robust_errors",
                                            "report",
+                                           "report_region",
                                            "threads",
                                            "limits",
                                            "duplicate_quotes",
@@ -665,6 +666,9 @@ class ConfigParser {
     }
     if (const YAML::Node node = root["report"]) {
       if (!Flag(node, "report", &config_->report, error)) return false;
+    }
+    if (const YAML::Node node = root["report_region"]) {
+      if (!Scalar(node, "report_region", &config_->report_region, error)) return false;
     }
     if (const YAML::Node node = root["threads"]) {
       double threads = 0;

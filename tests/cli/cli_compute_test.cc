@@ -194,7 +194,7 @@ TEST(ComputeCommand, RunRecordReconcilesRowsAndNamesEveryInput) {
               input["rows_used"].get<int64_t>() + input["rows_rejected"].get<int64_t>());
     EXPECT_EQ(input["sha256"].get<std::string>().size(), 64u);
   }
-  for (const char* stage : {"read", "cells", "elementary", "aggregation", "write"}) {
+  for (const char* stage : {"read", "cells", "elementary", "aggregation", "contributions", "write"}) {
     EXPECT_TRUE(record["seconds"].contains(stage)) << stage;
   }
   // The read limits in force are part of the run's settings.
@@ -218,7 +218,7 @@ TEST(ComputeCommand, ASecondRunIsByteIdenticalExceptForTimings) {
     if (relative == "run.json") {
       // Seconds, the output folder, the thread count and the run id legitimately differ.
       const std::regex varying(
-          "\"(read|cells|elementary|aggregation|write|output|threads|run_id)\": [^,\\n]*");
+          "\"(read|cells|elementary|aggregation|contributions|write|output|threads|run_id)\": [^,\\n]*");
       first = std::regex_replace(first, varying, "");
       second = std::regex_replace(second, varying, "");
     }

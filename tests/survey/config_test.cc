@@ -126,8 +126,8 @@ TEST(RunConfig, ShortensAHugeUnknownKey) {
             "/cfg/run.yaml:4:3: unknown key '" + std::string(60, 'k') +
                 "...'; valid keys are: survey, classification, reference, elementary, aggregation, "
                 "invalid_rows, output, matrices, representative_weight, cpd_cell_weights, "
-                "outlier_threshold, outlier_fit, robust_errors, report, threads, limits, "
-                "duplicate_quotes, strict, checks, missing_parities, groups, labels");
+                "outlier_threshold, outlier_fit, robust_errors, report, report_region, threads, "
+                "limits, duplicate_quotes, strict, checks, missing_parities, groups, labels");
 }
 
 TEST(RunConfig, ListsTheValidKeysWhenNoneIsClose) {

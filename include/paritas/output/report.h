@@ -18,6 +18,8 @@
 
 namespace paritas {
 
+struct ContributionTable;  // use/heading_contributions.h
+
 // One flagged cell (region x item of a basic heading), as the outlier
 // listing gives it.
 struct ReportOutlier {
@@ -86,6 +88,12 @@ struct ReportInputs {
   int64_t num_cells_not_screenable = 0;
   // Sensitivity of the root; null = not run (section and intervals left out).
   const ReportSensitivity* sensitivity = nullptr;
+  // Contributions of each heading to each region's ln parity
+  // (HeadingContributions); null = section "Why regions are dear" left out.
+  const ContributionTable* contributions = nullptr;
+  // Region explained heading by heading in that section (a code); empty =
+  // the dearest at the root.
+  std::string explain_region;
 };
 
 // Regions and cells shown individually in the grids (region x aggregate,

@@ -231,6 +231,10 @@ struct RunConfig {
   std::string robust_errors = "hc1";
   // Writes report.html (default true).
   bool report = true;
+  // Region whose root parity the report explains heading by heading ("Why
+  // regions are dear"); checked against the survey by compute. Empty
+  // (default) = the dearest region at the root.
+  std::string report_region;
   // Worker threads; 0 = all cores.
   int threads = 0;
   // Repeated quote rows: keep (default), drop or reject.

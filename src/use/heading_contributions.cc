@@ -1,0 +1,319 @@
+// Contributions per node, from the same arrays the aggregation read
+// (NodeInputArrays), so the heading parities and expenditure split here are
+// the ones behind the node's parity. Against a mean every pair of regions
+// counts, as in GEKS: with missing heading parities a pair's shares are
+// renormalised to what the pair has, so pairs involving a region without a
+// parity in some heading are visited one by one (regions² x headings at
+// worst), while pairs of regions with every heading take four sums per
+// heading (regions x headings when every region has every heading).
+#include "paritas/use/heading_contributions.h"
+
+#include <algorithm>
+#include <cmath>
+#include <limits>
+
+#include "paritas/aggregation/aggregation_method.h"
+#include "paritas/base/csv.h"
+#include "paritas/base/text.h"
+
+namespace paritas {
+namespace {
+
+constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
+
+// A node's inputs as the split needs them: ln heading parities, and each
+// region's shares over the headings it can be compared on.
+struct NodeInputs {
+  Eigen::MatrixXd log_price;  // NaN where no usable parity
+  Eigen::MatrixXd share;      // 0 where not usable; rows sum to 1 (or are all 0)
+  std::vector<bool> usable;   // per region: a parity at the node and shares
+};
+
+// A heading is usable for a region with a positive parity and finite,
+// non-negative spending (zero spending keeps it with share 0, as the
+// bilateral matrices do); at a basic heading's own node spending is not
+// needed. Shares are renormalised over the usable headings.
+NodeInputs Inputs(const Survey& survey, const ParityResult& result, int node) {
+  const NodeResult& n = result.nodes[node];
+  const NodeArrays arrays = NodeInputArrays(survey, result, node);
+  const int num_regions = static_cast<int>(arrays.price.rows());
+  const int num_headings = static_cast<int>(arrays.price.cols());
+  NodeInputs in;
+  in.log_price = Eigen::MatrixXd::Constant(num_regions, num_headings, kNaN);
+  in.share = Eigen::MatrixXd::Zero(num_regions, num_headings);
+  in.usable.assign(num_regions, false);
+  for (int r = 0; r < num_regions; ++r) {
+    if (!(std::isfinite(n.parity(r)) && n.parity(r) > 0)) continue;
+    double total = 0.0;
+    for (int k = 0; k < num_headings; ++k) {
+      const double p = arrays.price(r, k);
+      const double e = n.is_heading ? 1.0 : arrays.expenditure(r, k);
+      if (!(std::isfinite(p) && p > 0 && std::isfinite(e) && e >= 0)) continue;
+      in.log_price(r, k) = std::log(p);
+      in.share(r, k) = e;
+      total += e;
+    }
+    if (!(total > 0)) continue;
+    in.share.row(r) /= total;
+    in.usable[r] = true;
+  }
+  return in;
+}
+
+// Spreads what the price parts leave of ln(parity / 100) over the headings
+// in proportion to their weights (equal weights when these sum to zero).
+void FinishRow(RegionContributions* row) {
+  double price_total = 0.0, weight_total = 0.0;
+  for (const HeadingContribution& c : row->headings) {
+    price_total += c.price_part;
+    weight_total += c.weight;
+  }
+  const double n = static_cast<double>(row->headings.size());
+  const double rest = row->log_parity - price_total;
+  for (HeadingContribution& c : row->headings) {
+    c.weight = weight_total > 0 ? c.weight / weight_total : 1.0 / n;
+    c.adjustment = c.weight * rest;
+    c.log_contribution = c.price_part + c.adjustment;
+  }
+}
+
+// Against region b: pair's Törnqvist terms, shares renormalised to the
+// headings both have.
+void AgainstRegion(const Survey& survey, const NodeInputs& in, const NodeResult& n, int node, int b,
+                   std::vector<RegionContributions>* rows) {
+  const std::vector<int>& headings = survey.classification.nodes()[node].headings;
+  for (int r = 0; r < static_cast<int>(in.usable.size()); ++r) {
+    if (!in.usable[r]) continue;
+    double total_r = 0.0, total_b = 0.0;
+    std::vector<int> matched;
+    for (int k = 0; k < static_cast<int>(headings.size()); ++k) {
+      if (std::isnan(in.log_price(r, k)) || std::isnan(in.log_price(b, k))) continue;
+      matched.push_back(k);
+      total_r += in.share(r, k);
+      total_b += in.share(b, k);
+    }
+    if (matched.empty()) continue;
+    RegionContributions row;
+    row.node = node;
+    row.region = r;
+    row.log_parity = std::log(n.parity(r) / 100.0);
+    const double m = static_cast<double>(matched.size());
+    for (int k : matched) {
+      HeadingContribution c;
+      c.heading = headings[k];
+      c.share = total_r > 0 ? in.share(r, k) / total_r : 1.0 / m;
+      const double share_b = total_b > 0 ? in.share(b, k) / total_b : 1.0 / m;
+      c.weight = 0.5 * (c.share + share_b);
+      c.price_part = c.weight * (in.log_price(r, k) - in.log_price(b, k));
+      row.headings.push_back(c);
+    }
+    FinishRow(&row);
+    rows->push_back(std::move(row));
+  }
+}
+
+// Sums over the regions with a parity in every heading of the node ("full"
+// regions): a pair of full regions needs no renormalisation, so its terms
+// summed over every full s take four sums per heading.
+struct FullSums {
+  std::vector<bool> full;
+  double count = 0.0;
+  double num_usable = 0.0;       // regions with a parity at the node
+  std::vector<int> not_full;     // usable regions missing some heading
+  std::vector<double> l, s, sl;  // per heading: sum of l_sk, s_sk, s_sk l_sk
+};
+
+FullSums SumsOverFullRegions(const NodeInputs& in) {
+  const int num_headings = static_cast<int>(in.share.cols());
+  FullSums sums;
+  sums.full.assign(in.usable.size(), false);
+  sums.l.assign(num_headings, 0.0);
+  sums.s.assign(num_headings, 0.0);
+  sums.sl.assign(num_headings, 0.0);
+  for (int r = 0; r < static_cast<int>(in.usable.size()); ++r) {
+    if (!in.usable[r]) continue;
+    sums.num_usable += 1.0;
+    if (in.log_price.row(r).array().isNaN().any()) {
+      sums.not_full.push_back(r);
+      continue;
+    }
+    sums.full[r] = true;
+    sums.count += 1.0;
+    for (int k = 0; k < num_headings; ++k) {
+      sums.l[k] += in.log_price(r, k);
+      sums.s[k] += in.share(r, k);
+      sums.sl[k] += in.share(r, k) * in.log_price(r, k);
+    }
+  }
+  return sums;
+}
+
+// Adds pair (r, s)'s Törnqvist terms, shares renormalised to the headings
+// the pair has; a pair with nothing in common (or no spending on it) adds
+// nothing.
+void AddPair(const NodeInputs& in, int r, int s, std::vector<int>* matched,
+             std::vector<double>* price) {
+  const int num_headings = static_cast<int>(in.share.cols());
+  matched->clear();
+  double total_r = 0.0, total_s = 0.0;
+  for (int k = 0; k < num_headings; ++k) {
+    if (std::isnan(in.log_price(r, k)) || std::isnan(in.log_price(s, k))) continue;
+    matched->push_back(k);
+    total_r += in.share(r, k);
+    total_s += in.share(s, k);
+  }
+  if (!(total_r > 0) || !(total_s > 0)) return;
+  for (int k : *matched) {
+    (*price)[k] += 0.5 * (in.share(r, k) / total_r + in.share(s, k) / total_s) *
+                   (in.log_price(r, k) - in.log_price(s, k));
+  }
+}
+
+// The price parts of region r against the average region: pair's Törnqvist
+// terms against every region s with a parity at the node (r itself adds 0),
+// shares renormalised to the headings each pair has, averaged over those
+// regions. This is heading k's term in the GEKS-Törnqvist parity, ln P_r =
+// mean_s ln T(s, r). Pairs of full regions come from the sums.
+RegionContributions AgainstAverageRow(const Survey& survey, const NodeInputs& in,
+                                      const NodeResult& n, int node, int r,
+                                      const std::vector<double>& mean_share, const FullSums& sums) {
+  const std::vector<int>& headings = survey.classification.nodes()[node].headings;
+  const int num_headings = static_cast<int>(headings.size());
+  std::vector<double> price(num_headings, 0.0);
+  std::vector<int> matched;
+  const double num_regions = sums.num_usable;
+  if (sums.full[r]) {
+    for (int s : sums.not_full) AddPair(in, r, s, &matched, &price);
+  } else {
+    for (int s = 0; s < static_cast<int>(in.usable.size()); ++s) {
+      if (in.usable[s] && s != r) AddPair(in, r, s, &matched, &price);
+    }
+  }
+  if (sums.full[r]) {
+    // sum over full s of ½ (s_rk + s_sk)(l_rk - l_sk).
+    for (int k = 0; k < num_headings; ++k) {
+      const double l = in.log_price(r, k), sh = in.share(r, k);
+      price[k] += 0.5 * (sums.count * sh * l - sh * sums.l[k] + l * sums.s[k] - sums.sl[k]);
+    }
+  }
+  RegionContributions row;
+  row.node = node;
+  row.region = r;
+  row.log_parity = std::log(n.parity(r) / 100.0);
+  for (int k = 0; k < num_headings; ++k) {
+    if (std::isnan(in.log_price(r, k))) continue;
+    HeadingContribution c;
+    c.heading = headings[k];
+    c.share = in.share(r, k);
+    c.weight = 0.5 * (c.share + mean_share[k]);
+    c.price_part = price[k] / num_regions;
+    row.headings.push_back(c);
+  }
+  if (!row.headings.empty()) FinishRow(&row);
+  return row;
+}
+
+// Against the average region, every region; regions in parallel (each
+// region's row is its own, so the result does not depend on the threads).
+void AgainstAverage(const Survey& survey, const NodeInputs& in, const NodeResult& n, int node,
+                    std::vector<RegionContributions>* rows) {
+  const int num_headings = static_cast<int>(in.share.cols());
+  const int num_regions = static_cast<int>(in.usable.size());
+  std::vector<double> mean_share(num_headings, 0.0), count(num_headings, 0.0);
+  for (int s = 0; s < num_regions; ++s) {
+    if (!in.usable[s]) continue;
+    for (int k = 0; k < num_headings; ++k) {
+      if (std::isnan(in.log_price(s, k))) continue;
+      mean_share[k] += in.share(s, k);
+      count[k] += 1.0;
+    }
+  }
+  for (int k = 0; k < num_headings; ++k) {
+    if (count[k] > 0) mean_share[k] /= count[k];
+  }
+  const FullSums sums = SumsOverFullRegions(in);
+  std::vector<RegionContributions> by_region(num_regions);
+  // Threads only pay when pairs are visited one by one: a parallel region
+  // per node costs a scheduling round trip, which a loaded machine makes
+  // long.
+  const double pair_work =
+      static_cast<double>(sums.not_full.size()) * num_regions * std::max(num_headings, 1);
+#pragma omp parallel for schedule(dynamic, 4) if (pair_work > 4e6)
+  for (int r = 0; r < num_regions; ++r) {
+    if (in.usable[r]) by_region[r] = AgainstAverageRow(survey, in, n, node, r, mean_share, sums);
+  }
+  for (RegionContributions& row : by_region) {
+    if (!row.headings.empty()) rows->push_back(std::move(row));
+  }
+}
+
+}  // namespace
+
+ContributionTable HeadingContributions(const Survey& survey, const ParityResult& result,
+                                       const Reference& reference) {
+  ContributionTable table;
+  const int reference_region =
+      reference.kind == ReferenceKind::kRegion ? survey.regions.Find(reference.region) : -1;
+  table.against_region = reference_region >= 0;
+  table.base = table.against_region ? "region '" + reference.region + "'" : "the average region";
+  const int num_nodes = static_cast<int>(result.nodes.size());
+  for (int node = 0; node < num_nodes; ++node) {
+    const NodeResult& n = result.nodes[node];
+    const NodeInputs in = Inputs(survey, result, node);
+    // A node normalised to the mean because the reference region has no
+    // parity there is split against the average region too.
+    if (reference_region >= 0 && in.usable[reference_region]) {
+      AgainstRegion(survey, in, n, node, reference_region, &table.rows);
+    } else {
+      AgainstAverage(survey, in, n, node, &table.rows);
+    }
+  }
+  const std::vector<int>& heading_nodes = survey.classification.headings();
+  for (RegionContributions& row : table.rows) {
+    for (HeadingContribution& c : row.headings) {
+      c.heading_parity = result.nodes[heading_nodes[c.heading]].parity(row.region);
+    }
+  }
+  return table;
+}
+
+std::string ContributionsCsv(const Survey& survey, const ContributionTable& table) {
+  const auto& nodes = survey.classification.nodes();
+  const int64_t num_rows = static_cast<int64_t>(table.rows.size());
+  // Rows formatted in parallel blocks and joined in order: the text is the
+  // same for any number of threads.
+  constexpr int64_t kRowsPerBlock = 256;
+  const int64_t num_blocks = (num_rows + kRowsPerBlock - 1) / kRowsPerBlock;
+  std::vector<std::string> blocks(num_blocks);
+#pragma omp parallel for schedule(dynamic, 4) if (num_blocks > 4)
+  for (int64_t b = 0; b < num_blocks; ++b) {
+    std::string& out = blocks[b];
+    for (int64_t i = b * kRowsPerBlock; i < std::min(num_rows, (b + 1) * kRowsPerBlock); ++i) {
+      const RegionContributions& row = table.rows[i];
+      std::string prefix;
+      AppendCsvField(nodes[row.node].code, &prefix);
+      prefix += ',';
+      AppendCsvField(survey.regions.Code(row.region), &prefix);
+      prefix += ',';
+      for (const HeadingContribution& c : row.headings) {
+        out += prefix;
+        AppendCsvField(survey.heading_codes[c.heading], &out);
+        for (double v : {c.share, c.weight, c.heading_parity, c.price_part, c.adjustment,
+                         c.log_contribution}) {
+          out += ',';
+          AppendShortest(v, &out);
+        }
+        out += '\n';
+      }
+    }
+  }
+  std::string out =
+      "node,region,heading,share,weight,heading_parity,price_part,adjustment,log_contribution\n";
+  size_t total = out.size();
+  for (const std::string& block : blocks) total += block.size();
+  out.reserve(total);
+  for (const std::string& block : blocks) out += block;
+  return out;
+}
+
+}  // namespace paritas
