@@ -160,9 +160,10 @@ bool ReadParities(RunData* run, std::string* error) {
                                     std::to_string(it->second) + ")");
       return false;
     }
-    if (kind != "aggregate" && kind != "heading") {
+    if (kind != "aggregate" && kind != "heading" && kind != "group") {
       *message = LocatedMessage(path, row.line, row.columns[1],
-                                "kind " + QuoteValue(kind) + " is not one of: aggregate, heading");
+                                "kind " + QuoteValue(kind) +
+                                    " is not one of: aggregate, heading, group");
       return false;
     }
     Cell cell;
@@ -489,7 +490,7 @@ void AddDrivers(const RunData& old_run, const RunData& new_run, RunComparison* o
   }
   if (!out->rebased_to.empty()) return;  // said in the scale statement
   for (const ParityChange& c : out->changes) {
-    if (c.kind != "aggregate" || !std::isfinite(c.log_change)) continue;
+    if (c.kind == "heading" || !std::isfinite(c.log_change)) continue;
     const Key key{c.node, c.region};
     const auto o = old_run.contributions.find(key), n = new_run.contributions.find(key);
     if (o == old_run.contributions.end() || n == new_run.contributions.end()) continue;
