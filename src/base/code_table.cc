@@ -19,7 +19,8 @@ uint64_t CodeTable::Hash(std::string_view code) {
     h ^= h >> 29;
   }
   uint64_t tail = 0;
-  std::memcpy(&tail, code.data() + i, code.size() - i);
+  // An empty view may hold a null pointer, which memcpy must not get.
+  if (code.size() > i) std::memcpy(&tail, code.data() + i, code.size() - i);
   h = (h ^ tail) * 0x9e3779b97f4a7c15ULL;
   h ^= h >> 32;
   h *= 0xd6e8feb86659fd93ULL;

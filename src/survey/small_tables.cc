@@ -358,12 +358,13 @@ bool ReadExpenditure(const std::string& path, LoadState* state, Rejections* reje
     const std::string_view region = kRegion < 0 ? std::string_view() : Trim(record.fields[kRegion]);
     const std::string_view heading = Trim(record.fields[kHeading]);
     const std::string_view value_text = record.fields[kValue];
-    if (kRegion < 0) {
-      // Column numbers of the national file's messages are those of its own header.
-    } else if (std::string problem = CheckCode(region, "region"); !problem.empty()) {
-      return {kRegion + 1, problem};
+    if (kRegion >= 0) {
+      if (std::string problem = CheckCode(region, "region"); !problem.empty()) {
+        return {kRegion + 1, problem};
+      }
     }
-    if (state->regions_fixed && state->regions.Find(region) < 0) {
+    // A national row names no region: nothing to check against regions.csv.
+    if (kRegion >= 0 && state->regions_fixed && state->regions.Find(region) < 0) {
       const auto rejected = state->rejected_region_index.find(std::string(region));
       if (rejected != state->rejected_region_index.end()) {
         RejectedCode& code = state->rejected_codes[rejected->second];

@@ -242,8 +242,11 @@ Survey NationalWeightsSurvey() {
                 "r1,bread,1,food\nr2,bread,2,food\nr3,bread,4,food\n"
                 "r1,flat,3,rent\nr2,flat,3,rent\nr3,flat,3,rent\n");
   WriteTextFile(folder + "/expenditure.csv", "heading,expenditure\nfood,60\nrent,40\n");
+  // With regions.csv, so a national row (no region) is not checked against it.
+  WriteTextFile(folder + "/regions.csv", "region\nr1\nr2\nr3\n");
   return LoadFrom(folder,
                   "survey:\n  prices: prices.csv\n  expenditure: expenditure.csv\n"
+                  "  regions: regions.csv\n"
                   "classification:\n  all: [food, rent]\n");
 }
 
