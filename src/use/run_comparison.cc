@@ -19,9 +19,12 @@
 #include "paritas/base/text.h"
 #include "paritas/output/run_record.h"
 #include "paritas/survey/config.h"
+#include "use/run_tables.h"
 
 namespace paritas {
 namespace {
+
+using internal::TableRow;
 
 namespace fs = std::filesystem;
 constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
@@ -54,75 +57,13 @@ struct RunData {
   std::map<Key, std::vector<ContributionRow>> contributions;
 };
 
-struct TableRow {
-  int64_t line = 0;
-  std::vector<std::string_view> fields;
-  std::vector<int> columns;  // 1-based; 0 = absent
-};
-
-// Reads a CSV table whole and hands each data row's wanted fields to
-// `handle`, which returns false with a message to stop.
+// Reads a table of a run folder with every wanted column required
+// (run_tables.h, shared with deflate and publish).
 bool ReadTable(const std::string& path, const std::vector<std::string>& wanted,
                const std::function<bool(const TableRow&, std::string*)>& handle,
                std::string* error) {
-  const ReadLimits limits;
-  std::string contents;
-  if (!ReadWholeFile(path, limits.max_file_bytes, LimitAdvice("limits.max_file_bytes"), &contents,
-                     error)) {
-    return false;
-  }
-  CsvReader reader(contents);
-  reader.set_limits(limits);
-  CsvRecord record;
-  if (!reader.Next(&record)) {
-    *error = reader.error().empty() ? path + ": file is empty (expected a header row)"
-                                    : path + ":" + reader.error();
-    return false;
-  }
-  int64_t bad_line = 0;
-  int bad_field = 0;
-  if (FindInvalidUtf8(record, ',', &bad_line, &bad_field)) {
-    *error = LocatedMessage(path, bad_line, bad_field,
-                            Utf8Problem("column name", record.fields[bad_field - 1]));
-    return false;
-  }
-  const CsvHeader header(record.fields);
-  TableRow row;
-  for (const std::string& name : wanted) {
-    row.columns.push_back(header.Find(name) + 1);
-    if (row.columns.back() == 0) {
-      *error = path + ":" + std::to_string(record.line) + ": missing column '" + name +
-               "' (found: " + JoinNames(header.names()) + ")";
-      return false;
-    }
-  }
-  const size_t num_fields = record.fields.size();
-  row.fields.resize(wanted.size());
-  while (reader.Next(&record)) {
-    if (record.fields.size() != num_fields) {
-      const size_t found = record.fields.size();
-      *error =
-          LocatedMessage(path, record.line, static_cast<int>(std::min(found, num_fields)) + 1,
-                         "row has " + std::to_string(found) + " field" + (found == 1 ? "" : "s") +
-                             ", the header has " + std::to_string(num_fields));
-      return false;
-    }
-    row.line = record.line;
-    for (size_t k = 0; k < wanted.size(); ++k) {
-      row.fields[k] = Trim(record.fields[row.columns[k] - 1]);
-      if (FindInvalidUtf8(row.fields[k]) != std::string_view::npos) {
-        *error = LocatedMessage(path, record.line, row.columns[k],
-                                Utf8Problem(wanted[k], row.fields[k]));
-        return false;
-      }
-    }
-    if (!handle(row, error)) return false;
-  }
-  if (!reader.error().empty()) {
-    *error = path + ":" + reader.error();
-    return false;
-  }
-  return true;
+  return internal::ReadTable(path, ReadLimits(), wanted, std::vector<bool>(wanted.size(), true),
+                             handle, error);
 }
 
 // Parses field k of a row as a number: empty = NaN when `optional`; with
