@@ -33,6 +33,48 @@ std::string SourcePath(const std::string& relative) {
   return std::string(PARITAS_SOURCE_DIR) + "/" + relative;
 }
 
+std::vector<SixCommodityRow> ReadSixCommodityRows() {
+  std::ifstream in(TestDataPath("published/six_commodity_prices_quantities.csv"));
+  std::string line;
+  std::getline(in, line);  // Header.
+  std::vector<SixCommodityRow> rows;
+  while (std::getline(in, line)) {
+    if (line.empty()) continue;
+    std::stringstream fields(line);
+    std::string situation, quantity;
+    SixCommodityRow row;
+    std::getline(fields, situation, ',');
+    std::getline(fields, row.commodity, ',');
+    std::getline(fields, row.price_text, ',');
+    std::getline(fields, quantity, ',');
+    row.situation = std::stoi(situation);
+    row.price = std::stod(row.price_text);
+    row.quantity = std::stod(quantity);
+    rows.push_back(std::move(row));
+  }
+  return rows;
+}
+
+std::string WriteSixCommoditySurvey(const std::string& name, const std::string& classification) {
+  const std::string dir = MakeTempDir(name);
+  std::string prices = "region,item,price,heading\n";
+  std::string expenditure = "region,heading,expenditure\n";
+  for (const SixCommodityRow& row : ReadSixCommodityRows()) {
+    const std::string region = "s" + std::to_string(row.situation);
+    prices += region + ",i_" + row.commodity + "," + row.price_text + "," + row.commodity + "\n";
+    std::ostringstream value;
+    value.precision(17);
+    value << row.price * row.quantity;
+    expenditure += region + "," + row.commodity + "," + value.str() + "\n";
+  }
+  WriteTextFile(dir + "/prices.csv", prices);
+  WriteTextFile(dir + "/expenditure.csv", expenditure);
+  WriteTextFile(dir + "/run.yaml",
+                "survey:\n  prices: prices.csv\n  expenditure: expenditure.csv\nclassification:\n" +
+                    classification);
+  return dir + "/run.yaml";
+}
+
 std::string MakeTempDir(const std::string& name) {
   namespace fs = std::filesystem;
   // The process id keeps tests that ctest runs in parallel out of each

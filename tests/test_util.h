@@ -3,6 +3,7 @@
 #define PARITAS_TESTS_TEST_UTIL_H_
 
 #include <string>
+#include <vector>
 
 #include <gtest/gtest.h>
 
@@ -28,6 +29,25 @@ std::string ReadTextFile(const std::string& path);
 // Runs the paritas command line with `arguments` (shell words), no standard
 // input; captures stdout and stderr. Returns the exit code.
 int RunCli(const std::string& arguments, std::string* out, std::string* err);
+
+// One row of tests/data/published/six_commodity_prices_quantities.csv: the
+// six-commodity, five-situation data of the ILO et al. Consumer Price Index
+// Manual (2004, ch. 19, tables 19.1-19.2).
+struct SixCommodityRow {
+  int situation = 0;      // 1..5
+  std::string commodity;  // "c1".."c6"
+  std::string price_text;  // the price as the file writes it
+  double price = 0.0;
+  double quantity = 0.0;
+};
+// The file's 30 rows in file order.
+std::vector<SixCommodityRow> ReadSixCommodityRows();
+// Writes the rows as a survey in a fresh folder named after `name`: situation
+// k is region s<k>, commodity c is heading c with one item i_c priced once,
+// expenditure = price x quantity (17 digits). `classification` is the YAML
+// under "classification:\n" (e.g. "  all: [c1, c2, c3, c4, c5, c6]\n").
+// Returns the path of its run.yaml.
+std::string WriteSixCommoditySurvey(const std::string& name, const std::string& classification);
 
 // Non-overlapping occurrences of `needle` in `text` (needle not empty).
 size_t CountOf(const std::string& text, const std::string& needle);

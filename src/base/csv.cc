@@ -289,6 +289,22 @@ bool FindInvalidUtf8(const CsvRecord& record, char delimiter, int64_t* line, int
   return true;
 }
 
+bool FindMisplacedByteOrderMark(const CsvRecord& header, int* field) {
+  for (size_t i = 0; i < header.fields.size(); ++i) {
+    if (TrimSpaces(header.fields[i]).substr(0, kUtf8Bom.size()) == kUtf8Bom) {
+      *field = static_cast<int>(i) + 1;
+      return true;
+    }
+  }
+  return false;
+}
+
+std::string MisplacedByteOrderMarkProblem(std::string_view name) {
+  return "column name " + QuoteValue(VisibleText(name)) +
+         " starts with a byte-order mark (U+FEFF); a mark may only open the file, once (save "
+         "the file as UTF-8 with at most one mark)";
+}
+
 bool CsvFormat::IsValid(std::string* error) const {
   if (delimiter != ',' && delimiter != ';' && delimiter != '\t') {
     *error = "delimiter " + FormatCharName(delimiter) + " is not one of ',', ';', tab";

@@ -502,6 +502,11 @@ void NormaliseAndFinish(const Survey& survey, const ComputeOptions& options,
   FinishNode(survey, log_parity, node);
 }
 
+// "aggregate 'x'" or, for an analytic group, "group 'x'".
+std::string NodeNamed(const ClassificationNode& n) {
+  return std::string(n.is_group ? "group '" : "aggregate '") + n.code + "'";
+}
+
 // Says why an aggregate none of whose headings has price quotes has no
 // parities (empty when some heading has quotes); `check` reports the same.
 std::string UnpricedAggregate(const Survey& survey, const ParityResult& result,
@@ -512,12 +517,13 @@ std::string UnpricedAggregate(const Survey& survey, const ParityResult& result,
     if (codes.size() < 8) codes.push_back(survey.heading_codes[h]);
   }
   if (n.headings.size() > codes.size()) codes.back() = "...";
-  const std::string advice = ", or take the aggregate out of the classification";
+  const std::string advice = n.is_group ? ", or take it out of the group"
+                                         : ", or take the aggregate out of the classification";
   if (n.headings.size() == 1) {
-    return "aggregate '" + n.code + "' has no parities: its only heading (" + codes.front() +
+    return NodeNamed(n) + " has no parities: its only heading (" + codes.front() +
            ") has no price quotes; price it" + advice;
   }
-  return "aggregate '" + n.code + "' has no parities: none of its " +
+  return NodeNamed(n) + " has no parities: none of its " +
          std::to_string(n.headings.size()) + " headings (" + JoinNames(codes) +
          ") has price quotes; price one of them" + advice;
 }
@@ -556,12 +562,12 @@ bool FinishNodes(const Survey& survey, const ComputeOptions& options,
       continue;
     }
     if (!aggregate.failure.empty()) {
-      failures.push_back("aggregate '" + n.code + "' has no parities: " + aggregate.failure);
+      failures.push_back(NodeNamed(n) + " has no parities: " + aggregate.failure);
       continue;
     }
     if (!aggregate.identified) {
       failures.push_back(
-          "aggregate '" + n.code + "' is not linked: its regions fall into " +
+          NodeNamed(n) + " is not linked: its regions fall into " +
           std::to_string(aggregate.groups.size()) +
           " groups with no heading in common: " + DescribeGroups(survey, aggregate.groups));
       continue;

@@ -70,6 +70,11 @@ class Checker {
 
  private:
   const std::string& NodeCode(int node) const { return survey_.classification.nodes()[node].code; }
+  // "aggregate 'x'" or "group 'x'": a group is no node of the tree.
+  std::string NodeNamed(int node) const {
+    const ClassificationNode& n = survey_.classification.nodes()[node];
+    return std::string(n.is_group ? "group '" : "aggregate '") + n.code + "'";
+  }
   std::string RegionCode(int r) const { return std::string(survey_.regions.Code(r)); }
   int HeadingNode(int h) const { return survey_.classification.headings()[h]; }
   double Spending(int r, int h) const {
@@ -165,7 +170,7 @@ class Checker {
     const double share = covered / total;
     out_->basket_share(n, r) = share;
     if (share >= checks_.min_basket_share || !std::isfinite(result_.nodes[n].parity(r))) return;
-    std::string text = "aggregate '" + NodeCode(n) + "', region '" + RegionCode(r) + "': only " +
+    std::string text = NodeNamed(n) + ", region '" + RegionCode(r) + "': only " +
                        Percent(share) +
                        " of its spending rests on headings it has parities for "
                        "(checks.min_basket_share " +
@@ -310,7 +315,7 @@ class Checker {
         }
         if (partner < 0 || worst <= checks_.max_spread_percent) continue;
         Add("large-spread", static_cast<int>(n), a,
-            "aggregate '" + NodeCode(static_cast<int>(n)) + "', region '" + RegionCode(a) +
+            NodeNamed(static_cast<int>(n)) + ", region '" + RegionCode(a) +
                 "': Paasche-Laspeyres spread " + Fixed(worst, 1) + " % against '" +
                 RegionCode(partner) + "' (checks.max_spread_percent " +
                 Fixed(checks_.max_spread_percent, 1) +

@@ -123,6 +123,11 @@ bool ReadHeader(CsvReader* reader, const std::string& path, char delimiter,
                             Utf8Problem("column name", header.fields[bad_field - 1]));
     return false;
   }
+  if (FindMisplacedByteOrderMark(header, &bad_field)) {
+    *error = LocatedMessage(path, header.line, bad_field,
+                            MisplacedByteOrderMarkProblem(header.fields[bad_field - 1]));
+    return false;
+  }
   CsvHeader names(header.fields);
   columns->num_fields = static_cast<int>(header.fields.size());
   columns->names = names.names();

@@ -347,6 +347,11 @@ class Deflater {
                               Utf8Problem("column name", header.fields[bad_field - 1]));
       return false;
     }
+    if (FindMisplacedByteOrderMark(header, &bad_field)) {
+      *error = LocatedMessage(options_.input_path, header.line, bad_field,
+                              MisplacedByteOrderMarkProblem(header.fields[bad_field - 1]));
+      return false;
+    }
     const CsvHeader names(header.fields);
     num_fields_ = header.fields.size();
     const std::string where = options_.input_path + ":" + std::to_string(header.line) + ": ";

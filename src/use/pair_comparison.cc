@@ -9,6 +9,7 @@
 #include <numeric>
 
 #include "paritas/base/csv.h"
+#include "paritas/compute/imputation.h"
 #include "paritas/aggregation/aggregation_method.h"
 #include "paritas/aggregation/index_formulas.h"
 #include "paritas/elementary/elementary_method.h"
@@ -103,6 +104,22 @@ void CompareAggregate(const Survey& survey, const ParityResult& result, int node
     c.fisher_contribution = fisher_part[k];
     out->contributions.push_back(std::move(c));
   }
+}
+
+// Names the regions whose parity at `heading` is external or imputed.
+std::string SourceNote(const Survey& survey, const ParityResult& result, int heading, int a,
+                       int b) {
+  if (result.heading_source.cols() <= heading) return "";
+  std::string note;
+  for (int r : {a, b}) {
+    const auto source = static_cast<ParitySource>(result.heading_source(r, heading));
+    if (source == ParitySource::kPriced || (r == b && a == b)) continue;
+    note += (note.empty() ? "" : "; ") + std::string("the parity of '") +
+            std::string(survey.regions.Code(r)) + "' is " + ToString(source) +
+            (source == ParitySource::kExternal ? " (" + survey.external_path + ")" : "");
+  }
+  if (note.empty()) return "";
+  return note + ": the items compared below do not give the transitive parity";
 }
 
 void CompareHeading(const Survey& survey, int heading, int a, int b, PairComparison* out) {
@@ -206,7 +223,8 @@ bool ComparePair(const Survey& survey, const ParityResult& result, const std::st
   } else {
     CompareAggregate(survey, result, index, a, b, &out);
   }
-  if (out.num_matched == 0) {
+  if (out.is_heading) out.source_note = SourceNote(survey, result, node_result.heading, a, b);
+  if (out.num_matched == 0 && out.source_note.empty()) {
     *error = out.is_heading
                  ? "regions '" + out.from + "' and '" + out.to + "' priced no item of heading '" +
                        out.node + "' in common"
@@ -255,6 +273,7 @@ std::string PairCsv(const PairComparison& c) {
   AddTextRow("to", c.to, &out);
   AddTextRow("node", c.node, &out);
   if (!c.node_label.empty()) AddTextRow("node_label", c.node_label, &out);
+  if (!c.source_note.empty()) AddTextRow("source_note", c.source_note, &out);
   if (c.is_heading) {
     AddTextRow("num_items", std::to_string(c.num_matched), &out);
     AddRow("jevons", c.jevons, &out);
@@ -309,6 +328,7 @@ std::string PairTable(const PairComparison& c) {
                     (c.node_label.empty() ? "" : " (" + VisibleText(c.node_label) + ")") + " (" +
                     kind + std::to_string(c.num_matched) + (c.is_heading ? " items" : " headings") +
                     " priced in both)\n\n";
+  if (!c.source_note.empty()) out += "  note: " + c.source_note + "\n\n";
   auto row = [&](const std::string& name, double value, const std::string& note) {
     out += "  " + Pad(name, 28) + Pad(Number(value), 12, true);
     if (!note.empty()) out += "  " + note;

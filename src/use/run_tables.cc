@@ -51,6 +51,11 @@ bool ReadTable(const std::string& path, const ReadLimits& limits,
                             Utf8Problem("column name", record.fields[bad_field - 1]));
     return false;
   }
+  if (FindMisplacedByteOrderMark(record, &bad_field)) {
+    *error = LocatedMessage(path, record.line, bad_field,
+                            MisplacedByteOrderMarkProblem(record.fields[bad_field - 1]));
+    return false;
+  }
   const CsvHeader header(record.fields);
   const size_t num_fields = record.fields.size();
   TableRow row;

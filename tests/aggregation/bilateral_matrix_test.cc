@@ -34,22 +34,11 @@ struct SixCommodity {
 
 SixCommodity ReadSixCommodity() {
   SixCommodity data;
-  std::ifstream in(TestDataPath("published/six_commodity_prices_quantities.csv"));
-  std::string line;
-  std::getline(in, line);  // Header.
   int num_rows = 0;
-  while (std::getline(in, line)) {
-    if (line.empty()) continue;
-    std::stringstream fields(line);
-    std::string situation, commodity, price, quantity;
-    std::getline(fields, situation, ',');
-    std::getline(fields, commodity, ',');
-    std::getline(fields, price, ',');
-    std::getline(fields, quantity, ',');
-    const int r = std::stoi(situation) - 1;
-    const int h = std::stoi(commodity.substr(1)) - 1;  // "c1" .. "c6".
-    data.price(r, h) = std::stod(price);
-    data.quantity(r, h) = std::stod(quantity);
+  for (const testing::SixCommodityRow& row : testing::ReadSixCommodityRows()) {
+    const int h = std::stoi(row.commodity.substr(1)) - 1;  // "c1" .. "c6".
+    data.price(row.situation - 1, h) = row.price;
+    data.quantity(row.situation - 1, h) = row.quantity;
     ++num_rows;
   }
   EXPECT_EQ(num_rows, 30);

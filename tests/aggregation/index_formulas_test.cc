@@ -31,21 +31,11 @@ struct Situation {
 // Consumer Price Index Manual 2004, ch. 19, tables 19.1-19.2), one
 // situation per region, commodities in file order.
 std::vector<Situation> ReadSixCommodityData() {
-  std::ifstream in(TestDataPath("published/six_commodity_prices_quantities.csv"));
-  std::string line;
-  std::getline(in, line);  // Header.
   std::map<int, Situation> by_situation;
-  while (std::getline(in, line)) {
-    if (line.empty()) continue;
-    std::stringstream fields(line);
-    std::string situation, commodity, price, quantity;
-    std::getline(fields, situation, ',');
-    std::getline(fields, commodity, ',');
-    std::getline(fields, price, ',');
-    std::getline(fields, quantity, ',');
-    Situation& s = by_situation[std::stoi(situation)];
-    s.price.push_back(std::stod(price));
-    s.quantity.push_back(std::stod(quantity));
+  for (const testing::SixCommodityRow& row : testing::ReadSixCommodityRows()) {
+    Situation& s = by_situation[row.situation];
+    s.price.push_back(row.price);
+    s.quantity.push_back(row.quantity);
   }
   std::vector<Situation> result;
   for (auto& [unused, s] : by_situation) result.push_back(s);

@@ -76,6 +76,30 @@ TEST(ImputationCli, ComputeWritesSourceColumnsAndTheRules) {
             std::string::npos);
 }
 
+// CIR's fuel parity comes from fares (rule like), BEL's rent from the file:
+// pair says the items it compares do not give those parities, and still
+// prints the transitive one where no item is matched.
+TEST(ImputationCli, PairSaysWhenAHeadingParityIsNotFromItsItems) {
+  const std::string dir =
+      WriteSurvey("pair", "heading,region,parity\nrent,AAR,1.0\nrent,BEL,1.2\nrent,CIR,0.8\n",
+                  "missing_parities:\n  headings: {fuel: 'like:fares'}\n");
+  std::string out, err;
+  ASSERT_EQ(RunCli("pair '" + dir + "/run.yaml' --from AAR --to CIR --node fuel", &out, &err), 0)
+      << err;
+  EXPECT_NE(out.find("note: the parity of 'CIR' is imputed: the items compared below do not give "
+                     "the transitive parity"),
+            std::string::npos)
+      << out;
+  ASSERT_EQ(RunCli("pair '" + dir + "/run.yaml' --from AAR --to BEL --node rent", &out, &err), 0)
+      << err;
+  EXPECT_NE(out.find("note: the parity of 'AAR' is external (" + dir +
+                     "/rents.csv); the parity of 'BEL' is external (" + dir + "/rents.csv)"),
+            std::string::npos)
+      << out;
+  ASSERT_EQ(RunCli("pair '" + dir + "/run.yaml' --from AAR --to BEL --node fuel", &out, &err), 0);
+  EXPECT_EQ(out.find("note:"), std::string::npos) << out;
+}
+
 TEST(ImputationCli, BadExternalFileIsRefusedWithItsLine) {
   const std::string dir = WriteSurvey("bad", "heading,region,parity\nrent,AAR,1.0\nrent,BEL,0\n", "");
   std::string out, err;

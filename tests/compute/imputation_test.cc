@@ -461,6 +461,24 @@ TEST(Imputation, PartialBasketWarningSaysHowMuchRestsOnImputedParities) {
   EXPECT_DOUBLE_EQ(checks.basket_share(run.survey.classification.FindNode("rent"), 3), 0.0);
 }
 
+TEST(Imputation, PartialBasketWarningNamesAGroupAsAGroup) {
+  const std::string folder = MakeTempDir("imputation_partial_group");
+  WriteSurvey(folder);
+  Computed run;
+  LoadAndCompute(folder,
+                 std::string(kTree) +
+                     "groups:\n  dwelling: {of: [rent, water]}\nmissing_parities: {default: parent}\n",
+                 &run);
+  const PlausibilityResult checks = CheckPlausibility(run.survey, run.result, run.config);
+  std::vector<std::string> texts;
+  for (const RunWarning& w : checks.warnings) {
+    if (w.kind == "partial-basket" && w.text.find("dwelling") != std::string::npos)
+      texts.push_back(w.text);
+  }
+  ASSERT_EQ(texts.size(), 1u);
+  EXPECT_EQ(texts[0].substr(0, 34), "group 'dwelling', region 'D': only") << texts[0];
+}
+
 TEST(ExternalParities, RaiseNoThinEvidenceWarningForParitiesWithoutQuotes) {
   // Rent parities from the file rest on no quotes of this survey, nor does
   // D's rent imputed by rule parent; the thin-evidence check is about quotes,

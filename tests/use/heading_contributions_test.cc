@@ -53,35 +53,10 @@ void LoadAndCompute(const std::string& config_path, const std::string& aggregati
       << compute.message;
 }
 
-// The six-commodity data of the CPI Manual (2004, ch. 19, tables 19.1-19.2)
-// as a survey of five regions, one item per heading: complete data.
+// The six-commodity data (test_util.h) as five regions in two aggregates.
 std::string WriteSixCommoditySurvey() {
-  const std::string dir = MakeTempDir("contributions_six_commodity");
-  std::ifstream in(TestDataPath("published/six_commodity_prices_quantities.csv"));
-  std::string line;
-  std::getline(in, line);  // Header.
-  std::string prices = "region,item,price,heading\n";
-  std::string expenditure = "region,heading,expenditure\n";
-  while (std::getline(in, line)) {
-    if (line.empty()) continue;
-    std::stringstream fields(line);
-    std::string situation, commodity, price, quantity;
-    std::getline(fields, situation, ',');
-    std::getline(fields, commodity, ',');
-    std::getline(fields, price, ',');
-    std::getline(fields, quantity, ',');
-    prices += "s" + situation + ",i_" + commodity + "," + price + "," + commodity + "\n";
-    std::ostringstream value;
-    value.precision(17);
-    value << std::stod(price) * std::stod(quantity);
-    expenditure += "s" + situation + "," + commodity + "," + value.str() + "\n";
-  }
-  WriteTextFile(dir + "/prices.csv", prices);
-  WriteTextFile(dir + "/expenditure.csv", expenditure);
-  WriteTextFile(dir + "/run.yaml",
-                "survey:\n  prices: prices.csv\n  expenditure: expenditure.csv\n"
-                "classification:\n  all:\n    - g1: [c1, c2, c3]\n    - g2: [c4, c5, c6]\n");
-  return dir + "/run.yaml";
+  return testing::WriteSixCommoditySurvey("contributions_six_commodity",
+                                          "  all:\n    - g1: [c1, c2, c3]\n    - g2: [c4, c5, c6]\n");
 }
 
 // Every node and every region with a parity: the contributions sum to

@@ -44,37 +44,9 @@ void LoadAndCompute(const std::string& config_path, Computed* out) {
       << compute.message;
 }
 
-// Writes tests/data/published/six_commodity_prices_quantities.csv (ILO et al.,
-// Consumer Price Index Manual 2004, ch. 19, tables 19.1-19.2) as a survey:
-// situation k is region s<k>, commodity c is heading c with one item i_c
-// priced once, expenditure = price x quantity. Returns the config path.
+// The six-commodity data (test_util.h) as five regions under one root.
 std::string WriteSixCommoditySurvey() {
-  const std::string dir = MakeTempDir("pair_six_commodity");
-  std::ifstream in(TestDataPath("published/six_commodity_prices_quantities.csv"));
-  std::string line;
-  std::getline(in, line);  // Header.
-  std::string prices = "region,item,price,heading\n";
-  std::string expenditure = "region,heading,expenditure\n";
-  while (std::getline(in, line)) {
-    if (line.empty()) continue;
-    std::stringstream fields(line);
-    std::string situation, commodity, price, quantity;
-    std::getline(fields, situation, ',');
-    std::getline(fields, commodity, ',');
-    std::getline(fields, price, ',');
-    std::getline(fields, quantity, ',');
-    prices += "s" + situation + ",i_" + commodity + "," + price + "," + commodity + "\n";
-    std::ostringstream value;
-    value.precision(17);
-    value << std::stod(price) * std::stod(quantity);
-    expenditure += "s" + situation + "," + commodity + "," + value.str() + "\n";
-  }
-  WriteTextFile(dir + "/prices.csv", prices);
-  WriteTextFile(dir + "/expenditure.csv", expenditure);
-  WriteTextFile(dir + "/run.yaml",
-                "survey:\n  prices: prices.csv\n  expenditure: expenditure.csv\n"
-                "classification:\n  all: [c1, c2, c3, c4, c5, c6]\n");
-  return dir + "/run.yaml";
+  return testing::WriteSixCommoditySurvey("pair_six_commodity", "  all: [c1, c2, c3, c4, c5, c6]\n");
 }
 
 // Published indices of each situation against situation 1, by column name.

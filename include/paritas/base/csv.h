@@ -129,6 +129,17 @@ class CsvReader {
 // the place a CsvReader message would name.
 bool FindInvalidUtf8(const CsvRecord& record, char delimiter, int64_t* line, int* field);
 
+// Finds a header field that starts with a UTF-8 byte-order mark (U+FEFF)
+// the reader did not take as the file's own mark: a second mark, or one after
+// blank lines. Such a name matches no column and would not read back the same
+// once written at the start of another file. Returns false when there is none;
+// otherwise sets *field to the 1-based number of the first such field.
+bool FindMisplacedByteOrderMark(const CsvRecord& header, int* field);
+
+// The message for that field: "column name \"...\" starts with a byte-order
+// mark (U+FEFF) ...".
+std::string MisplacedByteOrderMarkProblem(std::string_view name);
+
 // Splits `data` (a whole file after its header row) into at most `num_chunks`
 // pieces that each start at a record boundary, by tracking the parity of
 // quote characters. Returns the start offsets, the first being 0, strictly

@@ -99,6 +99,11 @@ struct PairComparison {
   // Sorted by |log_contribution|, largest first (ties by code).
   std::vector<PairContribution> contributions;
 
+  // At a heading where either region's parity is not from its quotes
+  // (external file or a missing-parity rule): says so, since the items
+  // compared then do not give the transitive parity. Empty otherwise.
+  std::string source_note;
+
   // Filled by TransitiveUnderEveryMethod (pair --every-method), else empty.
   std::vector<MethodTransitive> by_method;
 };
