@@ -112,8 +112,7 @@ std::vector<Bar> RegionBars(const Context& ctx, const RegionContributions& row) 
     if (k < kMaxExplainedBars) {
       // Headings by name, as in the other charts; the code in the tooltip.
       const int node = ctx.survey.classification.headings()[sorted[k]->heading];
-      bars.push_back(
-          {ctx.NodeName(node), 100.0 * sorted[k]->log_contribution, ctx.NodeTip(node)});
+      bars.push_back({ctx.NodeName(node), 100.0 * sorted[k]->log_contribution, ctx.NodeTip(node)});
     } else {
       rest += 100.0 * sorted[k]->log_contribution;
     }

@@ -360,14 +360,16 @@ std::string MethodMarker(size_t shape, size_t colour, double cx, double cy,
   const std::string cls =
       "marker m" + std::to_string(colour % 8) + (shape % 16 >= 8 ? " open" : "");
   const std::string head = "<path class=\"" + cls + "\" d=\"M";
-  const std::string tail = title.empty() ? "\"/>" : "\"><title>" + HtmlEscape(title) + "</title></path>";
+  const std::string tail =
+      title.empty() ? "\"/>" : "\"><title>" + HtmlEscape(title) + "</title></path>";
   auto p = [&](double dx, double dy) { return C(cx + dx) + " " + C(cy + dy); };
   switch (k % 8) {
     case 0:
       return "<circle class=\"" + cls + "\" cx=\"" + C(cx) + "\" cy=\"" + C(cy) + "\" r=\"4\"" +
              (title.empty() ? "/>" : "><title>" + HtmlEscape(title) + "</title></circle>");
     case 1:  // square
-      return head + p(-3.5, -3.5) + "H" + C(cx + 3.5) + "V" + C(cy + 3.5) + "H" + C(cx - 3.5) + "Z" + tail;
+      return head + p(-3.5, -3.5) + "H" + C(cx + 3.5) + "V" + C(cy + 3.5) + "H" + C(cx - 3.5) +
+             "Z" + tail;
     case 2:  // triangle, point up
       return head + p(0, -5) + "L" + p(4.5, 3.5) + "H" + C(cx - 4.5) + "Z" + tail;
     case 3:  // diamond
@@ -513,9 +515,8 @@ std::string MethodSpreadSvg(const Context& ctx, const std::vector<size_t>& metho
   const std::vector<double> ticks = NiceTicks(lo, hi, 8);
   for (double t : ticks) {
     out += "<line class=\"grid\" x1=\"" + C(x(t)) + "\" x2=\"" + C(x(t)) + "\" y1=\"" + C(top) +
-           "\" y2=\"" + C(bottom) + "\"/><text class=\"tick\" x=\"" + C(x(t)) +
-           "\" y=\"" + C(bottom + 16) + "\" text-anchor=\"middle\">" +
-           Num(t, TickDecimals(ticks)) + "</text>";
+           "\" y2=\"" + C(bottom) + "\"/><text class=\"tick\" x=\"" + C(x(t)) + "\" y=\"" +
+           C(bottom + 16) + "\" text-anchor=\"middle\">" + Num(t, TickDecimals(ticks)) + "</text>";
   }
   for (size_t i = 0; i < rows.size(); ++i) {
     const MethodRow& row = rows[i];
@@ -528,16 +529,16 @@ std::string MethodSpreadSvg(const Context& ctx, const std::vector<size_t>& metho
     for (size_t k = 0; k < methods.size(); ++k) {
       const double v = diff(methods[k], row.region);
       if (!std::isfinite(v)) continue;
-      out += MethodMarker(keys.shape[k], keys.colour[k], x(v), cy + layout.lane_h * layout.lanes[i][k],
-                          keys.name[k] + ": " + (v >= 0 ? "+" : "") + Num(v, 2));
+      out +=
+          MethodMarker(keys.shape[k], keys.colour[k], x(v), cy + layout.lane_h * layout.lanes[i][k],
+                       keys.name[k] + ": " + (v >= 0 ? "+" : "") + Num(v, 2));
     }
     out += "<text class=\"value\" x=\"" + C(x1 + 10) + "\" y=\"" + C(cy + 4) + "\">" +
            Num(row.hi - row.lo, 2) + "</text>";
   }
   out += "<line class=\"main-mark\" x1=\"" + C(x(0)) + "\" x2=\"" + C(x(0)) + "\" y1=\"" +
          C(top - 4) + "\" y2=\"" + C(bottom) + "\"/>";
-  out += "<text class=\"tick\" x=\"" + C(x1 + 10) + "\" y=\"" + C(bottom + 16) +
-         "\">range</text>";
+  out += "<text class=\"tick\" x=\"" + C(x1 + 10) + "\" y=\"" + C(bottom + 16) + "\">range</text>";
   out += "<text class=\"axis-title\" x=\"" + C((x0 + x1) / 2) + "\" y=\"" + C(height - 4) +
          "\" text-anchor=\"middle\">difference from the main result, 100 \xC3\x97 ln(method / "
          "main), %</text></svg>\n";
@@ -559,7 +560,8 @@ std::string MethodSpreadChart(const Context& ctx, const ReportSensitivity& s) {
   std::string out = MethodSpreadSvg(ctx, methods, keys, diff, rows);
   out +=
       "<div class=\"legend-row\" id=\"method-shapes\"><span class=\"key\"><svg width=\"14\" "
-      "height=\"16\"><line class=\"main-mark\" x1=\"7\" x2=\"7\" y1=\"1\" y2=\"15\"/></svg> main result (0)</span>";
+      "height=\"16\"><line class=\"main-mark\" x1=\"7\" x2=\"7\" y1=\"1\" y2=\"15\"/></svg> main "
+      "result (0)</span>";
   out += "<span class=\"key\">shape: elementary method</span>";
   for (size_t k = 0; k < keys.shape_names.size(); ++k) {
     out += "<span class=\"key\"><svg width=\"14\" height=\"14\">" +

@@ -205,11 +205,13 @@ std::string AggregateSection(const Context& ctx) {
          ", each normalised on its own (" + HtmlEscape(ctx.root.reference_used) +
          " = 100). Read along a row to see which categories make a region dear or cheap.</p>\n";
   int num_aggregates = 0;
-  for (int n = 1; n < num_tree_nodes; ++n) num_aggregates += ctx.survey.classification.nodes()[n].is_leaf ? 0 : 1;
+  for (int n = 1; n < num_tree_nodes; ++n)
+    num_aggregates += ctx.survey.classification.nodes()[n].is_leaf ? 0 : 1;
   const int num_shown = static_cast<int>(std::count_if(
       columns.begin(), columns.end(), [&](int n) { return n > 0 && n < num_tree_nodes; }));
   if (num_shown < num_aggregates) {
-    out += "<p class=\"note\">The " + FormatCount(num_shown) + " of " + FormatCount(num_aggregates) +
+    out += "<p class=\"note\">The " + FormatCount(num_shown) + " of " +
+           FormatCount(num_aggregates) +
            " aggregates with the largest expenditure are shown; every node is in "
            "<code>parities.csv</code>.</p>";
   }
@@ -251,8 +253,8 @@ std::string GroupSection(const Context& ctx) {
            "</td><td><div class=\"long\">" + GroupDefinitionHtml(ctx, n) +
            "</div></td><td><div class=\"long\">" +
            FormatCount(static_cast<int64_t>(headings.size())) + ": " +
-           HtmlEscape(JoinNames(headings)) + "</div></td><td>" + level(low) + "</td><td>" + level(high) +
-           "</td></tr>";
+           HtmlEscape(JoinNames(headings)) + "</div></td><td>" + level(low) + "</td><td>" +
+           level(high) + "</td></tr>";
   }
   return out + "</tbody></table></div>\n</section>\n";
 }
@@ -283,8 +285,8 @@ std::string MatrixSection(const Context& ctx) {
   g.colour = [scale](double v) { return scale.Colour(v); };
   g.format = [](double v) { return Num(v, kChartParityDecimals); };
   g.tip = [&ctx, &regions](int r, int c, double v) {
-    return "what costs 100 in " + ctx.Label(regions[r]) + " costs " +
-           Num(v, kTableParityDecimals) + " in " + ctx.Label(regions[c]);
+    return "what costs 100 in " + ctx.Label(regions[r]) + " costs " + Num(v, kTableParityDecimals) +
+           " in " + ctx.Label(regions[c]);
   };
   g.max_cell_w = 54.0;
   std::string out = OpenSection("matrix", "Parity matrix");

@@ -78,15 +78,15 @@ bool WantsDarkText(Rgb c);
 // direction and its value). Blue against orange is the contrast that the
 // common forms of colour-vision deficiency keep. Stops hand-coded for this
 // report, with their CIE L* (D65) in the comments.
-inline constexpr std::array<Rgb, 9> kDivergingStops = {{{8, 48, 107},      // L* 21
-                                                        {33, 102, 172},    // L* 43
-                                                        {67, 147, 195},    // L* 58
-                                                        {146, 197, 222},   // L* 77
-                                                        {222, 222, 222},   // L* 88
-                                                        {253, 184, 99},    // L* 80
-                                                        {224, 130, 20},    // L* 63
-                                                        {160, 76, 8},      // L* 42
-                                                        {100, 42, 6}}};    // L* 25
+inline constexpr std::array<Rgb, 9> kDivergingStops = {{{8, 48, 107},     // L* 21
+                                                        {33, 102, 172},   // L* 43
+                                                        {67, 147, 195},   // L* 58
+                                                        {146, 197, 222},  // L* 77
+                                                        {222, 222, 222},  // L* 88
+                                                        {253, 184, 99},   // L* 80
+                                                        {224, 130, 20},   // L* 63
+                                                        {160, 76, 8},     // L* 42
+                                                        {100, 42, 6}}};   // L* 25
 // Coverage shares: pale yellow to dark green, one hue family, lightness
 // falling with the share, distinct from the price-level scale; stops
 // hand-coded for this report.

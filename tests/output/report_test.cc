@@ -109,8 +109,8 @@ TEST(ReportHtml, ShowsEveryAggregateAtAnyDepthInTheAggregateGrid) {
   EXPECT_EQ(CountOf(grid, "<rect class=\"cell"), 16u * (1 + 10 + 2));
   // The nested aggregate comes right after its parent, with its place in the tooltip.
   const size_t transport = grid.find(">Transport</text>");
-  const size_t nested =
-      grid.find("<title>Public transport (public_transport), in All items \xE2\x80\xBA Transport</title>");
+  const size_t nested = grid.find(
+      "<title>Public transport (public_transport), in All items \xE2\x80\xBA Transport</title>");
   ASSERT_NE(transport, std::string::npos);
   ASSERT_NE(nested, std::string::npos);
   EXPECT_LT(transport, nested);
@@ -145,8 +145,8 @@ TEST(ReportHtml, PutsTheHistogramLabelsOnBarEdges) {
   for (int j = 0; j <= 7; ++j) {
     const std::string x = FormatFixed(60.0 + 920.0 * 2 * j / 15, 1);
     const std::string label = FormatFixed(0.4 * j, 1);
-    EXPECT_NE(chart.find("class=\"tick x-tick\" x=\"" + x + "\" y=\"216.0\" text-anchor=\"middle\">" +
-                         label + "</text>"),
+    EXPECT_NE(chart.find("class=\"tick x-tick\" x=\"" + x +
+                         "\" y=\"216.0\" text-anchor=\"middle\">" + label + "</text>"),
               std::string::npos)
         << label;
   }
