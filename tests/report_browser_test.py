@@ -8,11 +8,21 @@ logged no console message, that the key sections and one bar per region are
 in the rendered DOM, that hostile names show as text and inject nothing, and
 that a screenshot of the page is a real, non-blank image.
 
+Then lays out the demo report and the report of a sensitivity run on the demo
+at 1,400 px and at phone width (390 px) and measures them from inside the page
+(report_layout_check.js): no two text labels of a chart overlap, histogram
+labels sit on bar edges, every kind of mark a chart draws is in its legend,
+every method of the method-spread chart has a look of its own and none hides
+another, nothing is wider than the window, and at 1,400 px no table needs to
+scroll sideways.
+
 Usage: report_browser_test.py PARITAS_CLI SOURCE_DIR
 Standard library only. The screenshot is kept at $PARITAS_REPORT_SCREENSHOT
 when that is set (for a person to look at), else in the temporary folder.
 """
 import csv
+import html
+import json
 import os
 import re
 import shutil
@@ -103,6 +113,61 @@ def render(report, work, name, screenshot=None):
     return dom
 
 
+LAYOUT_SCRIPT = os.path.join(os.path.dirname(os.path.abspath(__file__)), "report_layout_check.js")
+# Chromium's smallest window is 500 px wide: narrower layouts are measured in
+# a frame of that width.
+MIN_WINDOW_WIDTH = 500
+
+
+def layout_findings(report, work, name, width):
+    """The findings of report_layout_check.js on `report` laid out `width` px wide."""
+    with open(report, encoding="utf-8") as f:
+        page = f.read()
+    with open(LAYOUT_SCRIPT, encoding="utf-8") as f:
+        script = f.read()
+    at = page.rindex("</body>")
+    page = page[:at] + "<script>" + script + "</script>" + page[at:]
+    if width < MIN_WINDOW_WIDTH:
+        # srcdoc keeps the frame in the page's origin, so its script can
+        # write its findings on the outer page, which --dump-dom prints.
+        page = ('<!DOCTYPE html><html><body style="margin:0"><iframe style="width:%dpx;height:3000px;'
+                'border:0" srcdoc="%s"></iframe></body></html>' % (width, html.escape(page, quote=True)))
+    path = os.path.join(work, "%s_layout_%d.html" % (name, width))
+    with open(path, "w", encoding="utf-8") as f:
+        f.write(page)
+    dump = chromium(["--dump-dom", "--window-size=%d,2000" % max(width, MIN_WINDOW_WIDTH), "file://" + path],
+                    work)
+    found = re.search(r'<html[^>]*data-layout-check="([^"]*)"', dump.stdout)
+    if found is None:
+        check(False, "%s at %d px: the layout check did not run: %s" % (name, width, dump.stderr[-500:]))
+        return None
+    return json.loads(html.unescape(found.group(1)))
+
+
+def check_layout(report, work, name, has_method_spread):
+    for width in (1400, 390):
+        found = layout_findings(report, work, name, width)
+        if found is None:
+            continue
+        where = "%s at %d px" % (name, width)
+        check(found["width"] == width, "%s: laid out %d px wide" % (where, found["width"]))
+        check(found["texts"] > 300, "%s: only %d text labels measured" % (where, found["texts"]))
+        for kind in ("overlaps", "ticks", "marks", "legend", "overflow"):
+            check(not found[kind], "%s: %s: %s" % (where, kind, found[kind][:8]))
+        if width >= 1400:
+            check(not found["scrolls"], "%s: tables wider than the page: %s" % (where, found["scrolls"]))
+        if has_method_spread:
+            check(found["marks_checked"] > 0, "%s: no method-spread marks measured" % where)
+
+
+def run_sensitivity(cli, config, output):
+    proc = subprocess.run([cli, "sensitivity", config, "--output", output, "--replicates", "40",
+                           "--repetitions", "3", "--seed", "1"], capture_output=True, text=True, timeout=300)
+    if proc.returncode != 0:
+        raise SystemExit("paritas sensitivity %s failed (%d): %s" % (config, proc.returncode, proc.stderr))
+    return os.path.join(output, "sensitivity", "report.html")
+
+
 def regions_with_parity(output):
     # Root rows of parities.csv (the first node listed) that have a parity.
     with open(os.path.join(output, "parities.csv"), newline="", encoding="utf-8") as f:
@@ -162,6 +227,13 @@ def main():
         check(num_rows == expected, "demo: price-level table has %d rows for %d regions" % (num_rows, expected))
         check(len(re.findall(r"<script", dom)) == 1, "demo: expected exactly one script element")
         check(re.search(r'(src|href)="(https?:)?//', dom) is None, "demo: refers to an outside resource")
+        check_layout(report, work, "demo", has_method_spread=False)
+
+        # The report of a sensitivity run: intervals, coverage curve and the
+        # method-spread chart of every method pair.
+        sensitivity_report = run_sensitivity(cli, os.path.join(source, "config", "demo.yaml"), demo_out)
+        render(sensitivity_report, work, "sensitivity")
+        check_layout(sensitivity_report, work, "sensitivity", has_method_spread=True)
 
         # A survey whose region code, region name and heading are markup.
         hostile_dir = os.path.join(work, "hostile")

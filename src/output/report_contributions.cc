@@ -35,6 +35,9 @@ std::string Signed(double value, int decimals) {
 struct Bar {
   std::string label;
   double value = 0.0;  // log points x 100
+  // Shown in the tooltip before the value (e.g. "label (code)"); empty =
+  // the label.
+  std::string tip;
 };
 
 // The root's rows by region.
@@ -75,7 +78,8 @@ std::string Bars(const std::vector<Bar>& bars, const std::string& id, const std:
   for (size_t i = 0; i < bars.size(); ++i) {
     const double y = top + row_h * i, v = bars[i].value;
     const bool strong = i + 1 == bars.size() && bars[i].label.rfind("all ", 0) == 0;
-    out += "<g><title>" + HtmlEscape(bars[i].label + ": " + Signed(v, 2) + " (about %)") +
+    const std::string& tip = bars[i].tip.empty() ? bars[i].label : bars[i].tip;
+    out += "<g><title>" + HtmlEscape(tip + ": " + Signed(v, 2) + " (about %)") +
            "</title><text class=\"row-label" + std::string(strong ? " strong" : "") + "\" x=\"" +
            C(label_w) + "\" y=\"" + C(y + row_h / 2 + 4) + "\" text-anchor=\"end\">" +
            HtmlEscape(Truncate(bars[i].label, max_chars)) + "</text><rect x=\"" +
@@ -106,8 +110,9 @@ std::vector<Bar> RegionBars(const Context& ctx, const RegionContributions& row) 
   double rest = 0.0;
   for (size_t k = 0; k < sorted.size(); ++k) {
     if (k < kMaxExplainedBars) {
-      bars.push_back(
-          {ctx.survey.heading_codes[sorted[k]->heading], 100.0 * sorted[k]->log_contribution});
+      // Headings by name, as in the other charts; the code in the tooltip.
+      const int node = ctx.survey.classification.headings()[sorted[k]->heading];
+      bars.push_back({ctx.NodeName(node), 100.0 * sorted[k]->log_contribution, ctx.NodeTip(node)});
     } else {
       rest += 100.0 * sorted[k]->log_contribution;
     }
@@ -116,9 +121,9 @@ std::vector<Bar> RegionBars(const Context& ctx, const RegionContributions& row) 
                    [](const Bar& a, const Bar& b) { return a.value > b.value; });
   if (sorted.size() > kMaxExplainedBars) {
     bars.push_back(
-        {"other " + std::to_string(sorted.size() - kMaxExplainedBars) + " headings", rest});
+        {"other " + std::to_string(sorted.size() - kMaxExplainedBars) + " headings", rest, ""});
   }
-  bars.push_back({"all headings", 100.0 * row.log_parity});
+  bars.push_back({"all headings", 100.0 * row.log_parity, ""});
   return bars;
 }
 
@@ -139,7 +144,7 @@ std::vector<int> FirstLevelGroup(const Survey& survey) {
 // the scale shared by every panel.
 std::string Panel(const Context& ctx, int r, const std::vector<double>& by_group,
                   const std::vector<int>& groups, double span) {
-  const double w = 260, row_h = 15, top = 34, label_w = 96;
+  const double w = 260, row_h = 15, top = 34, label_w = 112;
   const double h = top + row_h * groups.size() + 8;
   auto x = [&](double v) { return label_w + 8 + (v + span) / (2 * span) * (w - label_w - 16); };
   // Data go into element text, never attributes: names are markup-proof
@@ -154,13 +159,13 @@ std::string Panel(const Context& ctx, int r, const std::vector<double>& by_group
          C(top - 8) + "\" y2=\"" + C(h - 4) + "\"/>";
   for (size_t i = 0; i < groups.size(); ++i) {
     const double v = by_group[i], y = top + row_h * i;
-    const std::string& name =
-        groups[i] < 0 ? std::string("other") : ctx.survey.classification.nodes()[groups[i]].code;
+    const std::string name = groups[i] < 0 ? std::string("other") : ctx.NodeName(groups[i]);
+    const std::string tip = groups[i] < 0 ? name : ctx.NodeTip(groups[i]);
     const double clamped = std::clamp(v, -span, span);
     out += "<g><title>" +
-           HtmlEscape(ctx.Label(r) + ", " + name + ": " + Signed(v, 2) + " (about %)") +
+           HtmlEscape(ctx.Label(r) + ", " + tip + ": " + Signed(v, 2) + " (about %)") +
            "</title><text class=\"tick\" x=\"" + C(label_w) + "\" y=\"" + C(y + 10) +
-           "\" text-anchor=\"end\">" + HtmlEscape(Truncate(name, 14)) + "</text><rect x=\"" +
+           "\" text-anchor=\"end\">" + HtmlEscape(Truncate(name, 17)) + "</text><rect x=\"" +
            C(std::min(x(0), x(clamped))) + "\" y=\"" + C(y + 2) + "\" width=\"" +
            C(std::max(0.8, std::abs(x(clamped) - x(0)))) + "\" height=\"" + C(row_h - 4) +
            "\" fill=\"" + (v >= 0 ? kDearer : kCheaper) + "\"/></g>";

@@ -46,12 +46,42 @@ std::string SpreadCards(size_t num_pairs, const std::vector<double>& sorted) {
          Card(Num(sorted.back(), 2) + "\xC2\xA0%", "largest spread") + "</div>\n";
 }
 
+// Bins of the spread histogram: a round width (1, 2 or 5 times a power of
+// ten) starting at 0, so every bar edge is a round number and the axis
+// labels can sit on edges rather than somewhere inside a bar.
+struct HistogramBins {
+  double width = 1.0;
+  int count = 1;
+  // Bars between two labelled edges.
+  int label_every = 1;
+};
+
+HistogramBins MakeHistogramBins(double largest) {
+  constexpr int kTargetBins = 24, kMaxLabels = 8;
+  HistogramBins bins;
+  const double raw = std::max(largest, 1e-6) / kTargetBins;
+  const double magnitude = std::pow(10.0, std::floor(std::log10(raw)));
+  for (double m : {1.0, 2.0, 5.0, 10.0}) {
+    bins.width = m * magnitude;
+    if (bins.width >= raw * (1 - 1e-9)) break;
+  }
+  // The largest value falls in the last bin, [width (count - 1), width count).
+  bins.count = static_cast<int>(std::floor(largest / bins.width)) + 1;
+  for (int k : {1, 2, 5, 10, 20, 50}) {
+    bins.label_every = k;
+    if (bins.count / k <= kMaxLabels) break;
+  }
+  return bins;
+}
+
 // Histogram of the spreads (`values` in percent, `largest` their maximum).
 std::string SpreadHistogram(const std::vector<double>& values, double largest) {
-  const int num_bins = 24;
-  const double top = std::max(largest, 1e-6) * 1.0001;
+  const HistogramBins bins = MakeHistogramBins(largest);
+  const int num_bins = bins.count;
   std::vector<int> counts(num_bins, 0);
-  for (double v : values) ++counts[std::min(num_bins - 1, static_cast<int>(v / top * num_bins))];
+  for (double v : values) {
+    ++counts[std::clamp(static_cast<int>(std::floor(v / bins.width)), 0, num_bins - 1)];
+  }
   const int max_count = *std::max_element(counts.begin(), counts.end());
   const double left = 60.0, right = 20.0, plot_top = 20.0, plot_h = 180.0;
   const double height = plot_top + plot_h + 44.0;
@@ -60,6 +90,7 @@ std::string SpreadHistogram(const std::vector<double>& values, double largest) {
                     " " + C(height) +
                     "\" role=\"img\" aria-label=\"histogram of Paasche-Laspeyres spreads\">";
   for (double t : NiceTicks(0, max_count, 4)) {
+    if (t != std::floor(t)) continue;  // counts are whole
     const double y = plot_top + plot_h - t / max_count * plot_h;
     out += "<line class=\"grid\" x1=\"" + C(left) + "\" x2=\"" + C(kChartWidth - right) +
            "\" y1=\"" + C(y) + "\" y2=\"" + C(y) + "\"/><text class=\"tick\" x=\"" + C(left - 6) +
@@ -68,7 +99,7 @@ std::string SpreadHistogram(const std::vector<double>& values, double largest) {
   }
   for (int i = 0; i < num_bins; ++i) {
     const double h = static_cast<double>(counts[i]) / max_count * plot_h;
-    const double lo = top * i / num_bins, hi = top * (i + 1) / num_bins;
+    const double lo = bins.width * i, hi = bins.width * (i + 1);
     out += "<rect class=\"hist-bar\" x=\"" + C(left + bar_w * i + 1) + "\" y=\"" +
            C(plot_top + plot_h - h) + "\" width=\"" + C(bar_w - 2) + "\" height=\"" + C(h) +
            "\"><title>" + Num(lo, 2) + "\xE2\x80\x93" + Num(hi, 2) +
@@ -79,12 +110,19 @@ std::string SpreadHistogram(const std::vector<double>& values, double largest) {
              "</text>";
     }
   }
-  const std::vector<double> x_ticks = NiceTicks(0, top, 8);
-  const int x_decimals = TickDecimals(x_ticks);
-  for (double t : x_ticks) {
-    const double x = left + t / top * (kChartWidth - left - right);
-    out += "<text class=\"tick\" x=\"" + C(x) + "\" y=\"" + C(plot_top + plot_h + 16) +
-           "\" text-anchor=\"middle\">" + Num(t, x_decimals) + "</text>";
+  // Labels on bar edges, each with a tick mark down from the axis.
+  const double step = bins.width * bins.label_every;
+  int x_decimals = 0;  // enough to show the step exactly (0.25 needs 2)
+  while (x_decimals < 4 && std::abs(step * std::pow(10.0, x_decimals) -
+                                    std::round(step * std::pow(10.0, x_decimals))) > 1e-6) {
+    ++x_decimals;
+  }
+  for (int i = 0; i <= num_bins; i += bins.label_every) {
+    const double x = left + bar_w * i;
+    out += "<line class=\"axis\" x1=\"" + C(x) + "\" x2=\"" + C(x) + "\" y1=\"" +
+           C(plot_top + plot_h) + "\" y2=\"" + C(plot_top + plot_h + 4) +
+           "\"/><text class=\"tick x-tick\" x=\"" + C(x) + "\" y=\"" + C(plot_top + plot_h + 16) +
+           "\" text-anchor=\"middle\">" + Num(bins.width * i, x_decimals) + "</text>";
   }
   out += "<line class=\"axis\" x1=\"" + C(left) + "\" x2=\"" + C(kChartWidth - right) + "\" y1=\"" +
          C(plot_top + plot_h) + "\" y2=\"" + C(plot_top + plot_h) + "\"/>";
@@ -107,7 +145,8 @@ std::string WorstPairsTable(const Context& ctx, const BilateralMatrices& b,
                              (x.spread == y.spread && (x.a < y.a || (x.a == y.a && x.b < y.b)));
                     });
   std::string out =
-      "<h3>Pairs with the widest spread</h3><table class=\"data\" id=\"worst-pairs\"><thead><tr>"
+      "<h3>Pairs with the widest spread</h3><div class=\"table-scroll\"><table class=\"data\" "
+      "id=\"worst-pairs\"><thead><tr>"
       "<th>region a</th><th>region b</th><th class=\"num\">Laspeyres</th><th "
       "class=\"num\">Paasche</th><th class=\"num\">Fisher</th><th "
       "class=\"num\">T\xC3\xB6rnqvist</th><th class=\"num\">P\xE2\x80\x93L spread, %</th><th "
@@ -125,7 +164,7 @@ std::string WorstPairsTable(const Context& ctx, const BilateralMatrices& b,
            "</td></tr>";
   }
   out +=
-      "</tbody></table>\n<p class=\"note\">Indices compare region b with region a (a = 100). "
+      "</tbody></table></div>\n<p class=\"note\">Indices compare region b with region a (a = 100). "
       "Every ordered pair is in <code>bilateral/</code>.</p>\n";
   return out;
 }
@@ -314,31 +353,37 @@ std::vector<MethodRow> MethodRows(const Context& ctx, const std::vector<size_t>&
 // to 8 x 8 methods (shapes 8-15 repeat 0-7 open). Colours: the Okabe-Ito
 // palette without its yellow, which is faint on white, and a brown (Okabe
 // and Ito 2008, "Color Universal Design").
-std::string MethodMarker(size_t shape, size_t colour, double cx, double cy) {
+// `title`, when given, is the mark's tooltip.
+std::string MethodMarker(size_t shape, size_t colour, double cx, double cy,
+                         const std::string& title = "") {
   const size_t k = shape;
   const std::string cls =
       "marker m" + std::to_string(colour % 8) + (shape % 16 >= 8 ? " open" : "");
   const std::string head = "<path class=\"" + cls + "\" d=\"M";
+  const std::string tail =
+      title.empty() ? "\"/>" : "\"><title>" + HtmlEscape(title) + "</title></path>";
   auto p = [&](double dx, double dy) { return C(cx + dx) + " " + C(cy + dy); };
   switch (k % 8) {
     case 0:
-      return "<circle class=\"" + cls + "\" cx=\"" + C(cx) + "\" cy=\"" + C(cy) + "\" r=\"4\"/>";
+      return "<circle class=\"" + cls + "\" cx=\"" + C(cx) + "\" cy=\"" + C(cy) + "\" r=\"4\"" +
+             (title.empty() ? "/>" : "><title>" + HtmlEscape(title) + "</title></circle>");
     case 1:  // square
-      return head + p(-3.5, -3.5) + "H" + C(cx + 3.5) + "V" + C(cy + 3.5) + "H" + C(cx - 3.5) + "Z\"/>";
+      return head + p(-3.5, -3.5) + "H" + C(cx + 3.5) + "V" + C(cy + 3.5) + "H" + C(cx - 3.5) +
+             "Z" + tail;
     case 2:  // triangle, point up
-      return head + p(0, -5) + "L" + p(4.5, 3.5) + "H" + C(cx - 4.5) + "Z\"/>";
+      return head + p(0, -5) + "L" + p(4.5, 3.5) + "H" + C(cx - 4.5) + "Z" + tail;
     case 3:  // diamond
-      return head + p(0, -5) + "L" + p(5, 0) + "L" + p(0, 5) + "L" + p(-5, 0) + "Z\"/>";
+      return head + p(0, -5) + "L" + p(5, 0) + "L" + p(0, 5) + "L" + p(-5, 0) + "Z" + tail;
     case 4:  // triangle, point down
-      return head + p(0, 5) + "L" + p(4.5, -3.5) + "H" + C(cx - 4.5) + "Z\"/>";
+      return head + p(0, 5) + "L" + p(4.5, -3.5) + "H" + C(cx - 4.5) + "Z" + tail;
     case 5:  // plus
       return head + p(-1.6, -5) + "H" + C(cx + 1.6) + "V" + C(cy - 1.6) + "H" + C(cx + 5) + "V" +
              C(cy + 1.6) + "H" + C(cx + 1.6) + "V" + C(cy + 5) + "H" + C(cx - 1.6) + "V" +
-             C(cy + 1.6) + "H" + C(cx - 5) + "V" + C(cy - 1.6) + "H" + C(cx - 1.6) + "Z\"/>";
+             C(cy + 1.6) + "H" + C(cx - 5) + "V" + C(cy - 1.6) + "H" + C(cx - 1.6) + "Z" + tail;
     case 6:  // triangle, point right
-      return head + p(5, 0) + "L" + p(-3.5, 4.5) + "V" + C(cy - 4.5) + "Z\"/>";
+      return head + p(5, 0) + "L" + p(-3.5, 4.5) + "V" + C(cy - 4.5) + "Z" + tail;
     default:  // triangle, point left
-      return head + p(-5, 0) + "L" + p(3.5, 4.5) + "V" + C(cy - 4.5) + "Z\"/>";
+      return head + p(-5, 0) + "L" + p(3.5, 4.5) + "V" + C(cy - 4.5) + "Z" + tail;
   }
 }
 
@@ -346,6 +391,8 @@ std::string MethodMarker(size_t shape, size_t colour, double cx, double cy) {
 // from its name "elementary/aggregation", numbered in order of appearance;
 // the names of each, for the legend.
 struct MethodKeys {
+  // The method's name, per method.
+  std::vector<std::string> name;
   std::vector<size_t> shape, colour;
   std::vector<std::string> shape_names, colour_names;
 };
@@ -363,10 +410,85 @@ MethodKeys KeysOf(const ReportSensitivity& s, const std::vector<size_t>& methods
     const size_t slash = name.find('/');
     const std::string elementary = slash == std::string::npos ? name : name.substr(0, slash);
     const std::string aggregation = slash == std::string::npos ? name : name.substr(slash + 1);
+    keys.name.push_back(name);
     keys.shape.push_back(index(&keys.shape_names, elementary));
     keys.colour.push_back(index(&keys.colour_names, aggregation));
   }
   return keys;
+}
+
+// Vertical lanes for the marks of one row (0 = on the line, then +1, -1,
+// +2, ...), so that marks closer than `min_gap` in x never hide one
+// another: each mark, taken from left to right, goes to the first lane
+// whose last mark is far enough to its left (a beeswarm). Past `max_lane`
+// the lane with the most room is taken.
+std::vector<int> DodgeLanes(const std::vector<double>& xs, double min_gap, int max_lane) {
+  std::vector<size_t> order(xs.size());
+  for (size_t k = 0; k < xs.size(); ++k) order[k] = k;
+  std::stable_sort(order.begin(), order.end(), [&](size_t a, size_t b) { return xs[a] < xs[b]; });
+  std::vector<int> candidates(1, 0);
+  for (int l = 1; l <= max_lane; ++l) {
+    candidates.push_back(l);
+    candidates.push_back(-l);
+  }
+  std::map<int, double> last;  // lane -> x of its rightmost mark
+  std::vector<int> lanes(xs.size(), 0);
+  for (size_t k : order) {
+    if (!std::isfinite(xs[k])) continue;
+    int best = 0;
+    double best_room = -1.0;
+    for (int l : candidates) {
+      const auto it = last.find(l);
+      const double room = it == last.end() ? min_gap * 2 : xs[k] - it->second;
+      if (room >= min_gap) {
+        best = l;
+        break;
+      }
+      if (room > best_room) {
+        best_room = room;
+        best = l;
+      }
+    }
+    lanes[k] = best;
+    last[best] = xs[k];
+  }
+  return lanes;
+}
+
+// Where the rows of the method-spread chart go. Marks (about 10 units
+// wide) closer than kMarkGap move to lanes above and below the row's line,
+// so none hides another; a row is as tall as its own lanes need.
+struct SpreadRowLayout {
+  static constexpr double lane_h = 8.0;
+  // lanes[row][method]: 0 on the line, -1 above, +1 below, ...
+  std::vector<std::vector<int>> lanes;
+  // The y of each row's line, and of the bottom of the last row.
+  std::vector<double> cy;
+  double bottom = 0.0;
+};
+
+template <typename XFn>
+SpreadRowLayout LayOutSpreadRows(const std::vector<size_t>& methods, const MethodDiffs& diff,
+                                 const std::vector<MethodRow>& rows, const XFn& x, double top) {
+  constexpr double kMarkGap = 7.0;
+  constexpr int kMaxLane = 3;
+  SpreadRowLayout layout;
+  double y = top;
+  for (const MethodRow& row : rows) {
+    std::vector<double> xs;
+    for (size_t m : methods) {
+      const double v = diff(m, row.region);
+      xs.push_back(std::isfinite(v) ? x(v) : kNaN);
+    }
+    layout.lanes.push_back(DodgeLanes(xs, kMarkGap, kMaxLane));
+    int max_lane = 0;
+    for (int l : layout.lanes.back()) max_lane = std::max(max_lane, std::abs(l));
+    const double row_h = std::max(20.0, (2 * max_lane + 1) * SpreadRowLayout::lane_h + 8.0);
+    layout.cy.push_back(y + row_h / 2);
+    y += row_h;
+  }
+  layout.bottom = y;
+  return layout;
 }
 
 // The chart: one row per region with the range of the methods and a mark
@@ -383,22 +505,22 @@ std::string MethodSpreadSvg(const Context& ctx, const std::vector<size_t>& metho
   }
   max_chars = std::min<size_t>(max_chars, 30);
   const double label_w = 18.0 + 6.6 * static_cast<double>(max_chars);
-  const double row_h = 20.0, top = 10.0, x0 = label_w + 16.0, x1 = kChartWidth - 110.0;
-  const double height = top + row_h * rows.size() + 40.0;
+  const double top = 10.0, x0 = label_w + 16.0, x1 = kChartWidth - 110.0;
   auto x = [&](double v) { return x0 + (v - lo) / (hi - lo) * (x1 - x0); };
+  const SpreadRowLayout layout = LayOutSpreadRows(methods, diff, rows, x, top);
+  const double bottom = layout.bottom, height = bottom + 40.0;
   std::string out = "<svg class=\"chart\" id=\"method-spread\" viewBox=\"0 0 " + C(kChartWidth) +
                     " " + C(height) +
                     "\" role=\"img\" aria-label=\"price level of each region under each method\">";
   const std::vector<double> ticks = NiceTicks(lo, hi, 8);
   for (double t : ticks) {
     out += "<line class=\"grid\" x1=\"" + C(x(t)) + "\" x2=\"" + C(x(t)) + "\" y1=\"" + C(top) +
-           "\" y2=\"" + C(top + row_h * rows.size()) + "\"/><text class=\"tick\" x=\"" + C(x(t)) +
-           "\" y=\"" + C(top + row_h * rows.size() + 16) + "\" text-anchor=\"middle\">" +
-           Num(t, TickDecimals(ticks)) + "</text>";
+           "\" y2=\"" + C(bottom) + "\"/><text class=\"tick\" x=\"" + C(x(t)) + "\" y=\"" +
+           C(bottom + 16) + "\" text-anchor=\"middle\">" + Num(t, TickDecimals(ticks)) + "</text>";
   }
   for (size_t i = 0; i < rows.size(); ++i) {
     const MethodRow& row = rows[i];
-    const double cy = top + row_h * (i + 0.5);
+    const double cy = layout.cy[i];
     out += "<text class=\"row-label\" x=\"" + C(label_w) + "\" y=\"" + C(cy + 4) +
            "\" text-anchor=\"end\">" + HtmlEscape(Truncate(ctx.Label(row.region), max_chars)) +
            "</text>";
@@ -406,15 +528,17 @@ std::string MethodSpreadSvg(const Context& ctx, const std::vector<size_t>& metho
            C(cy) + "\" y2=\"" + C(cy) + "\"/>";
     for (size_t k = 0; k < methods.size(); ++k) {
       const double v = diff(methods[k], row.region);
-      if (std::isfinite(v)) out += MethodMarker(keys.shape[k], keys.colour[k], x(v), cy);
+      if (!std::isfinite(v)) continue;
+      out +=
+          MethodMarker(keys.shape[k], keys.colour[k], x(v), cy + layout.lane_h * layout.lanes[i][k],
+                       keys.name[k] + ": " + (v >= 0 ? "+" : "") + Num(v, 2));
     }
     out += "<text class=\"value\" x=\"" + C(x1 + 10) + "\" y=\"" + C(cy + 4) + "\">" +
            Num(row.hi - row.lo, 2) + "</text>";
   }
   out += "<line class=\"main-mark\" x1=\"" + C(x(0)) + "\" x2=\"" + C(x(0)) + "\" y1=\"" +
-         C(top - 4) + "\" y2=\"" + C(top + row_h * rows.size()) + "\"/>";
-  out += "<text class=\"tick\" x=\"" + C(x1 + 10) + "\" y=\"" + C(top + row_h * rows.size() + 16) +
-         "\">range</text>";
+         C(top - 4) + "\" y2=\"" + C(bottom) + "\"/>";
+  out += "<text class=\"tick\" x=\"" + C(x1 + 10) + "\" y=\"" + C(bottom + 16) + "\">range</text>";
   out += "<text class=\"axis-title\" x=\"" + C((x0 + x1) / 2) + "\" y=\"" + C(height - 4) +
          "\" text-anchor=\"middle\">difference from the main result, 100 \xC3\x97 ln(method / "
          "main), %</text></svg>\n";
@@ -435,14 +559,17 @@ std::string MethodSpreadChart(const Context& ctx, const ReportSensitivity& s) {
   const MethodKeys keys = KeysOf(s, methods);
   std::string out = MethodSpreadSvg(ctx, methods, keys, diff, rows);
   out +=
-      "<div class=\"legend-row\"><span class=\"key\"><svg width=\"14\" height=\"16\"><line "
-      "class=\"main-mark\" x1=\"7\" x2=\"7\" y1=\"1\" y2=\"15\"/></svg> main result (0)</span>";
+      "<div class=\"legend-row\" id=\"method-shapes\"><span class=\"key\"><svg width=\"14\" "
+      "height=\"16\"><line class=\"main-mark\" x1=\"7\" x2=\"7\" y1=\"1\" y2=\"15\"/></svg> main "
+      "result (0)</span>";
   out += "<span class=\"key\">shape: elementary method</span>";
   for (size_t k = 0; k < keys.shape_names.size(); ++k) {
     out += "<span class=\"key\"><svg width=\"14\" height=\"14\">" +
            MethodMarker(k, 6, 7, 7) + "</svg> " + HtmlEscape(keys.shape_names[k]) + "</span>";
   }
-  out += "</div>\n<div class=\"legend-row\"><span class=\"key\">colour: aggregation method</span>";
+  out +=
+      "</div>\n<div class=\"legend-row\" id=\"method-colours\"><span class=\"key\">colour: "
+      "aggregation method</span>";
   for (size_t k = 0; k < keys.colour_names.size(); ++k) {
     out += "<span class=\"key\"><svg width=\"14\" height=\"14\">" +
            MethodMarker(0, k, 7, 7) + "</svg> " + HtmlEscape(keys.colour_names[k]) + "</span>";

@@ -12,32 +12,51 @@
 namespace paritas::internal::report {
 namespace {
 
-// The nodes shown against regions: the root, then its children (by
-// expenditure when there are too many to show).
+// The nodes shown against regions: the root, then every aggregate below it
+// at any depth (not only its children), in the classification's order so a
+// nested aggregate follows its parent, then the groups. Past kMaxColumns
+// aggregates, those with the largest expenditure are kept (still in
+// classification order).
 std::vector<int> AggregateColumns(const Context& ctx) {
-  constexpr size_t kMaxColumns = 24;
-  const ClassificationNode& root = ctx.survey.classification.nodes().front();
-  std::vector<int> children = root.children;
-  if (children.size() > kMaxColumns) {
+  constexpr size_t kMaxColumns = 40, kMaxGroups = 24;
+  const Classification& tree = ctx.survey.classification;
+  std::vector<int> aggregates;
+  for (int n = 1; n < tree.num_tree_nodes(); ++n) {
+    if (!tree.nodes()[n].is_leaf) aggregates.push_back(n);
+  }
+  if (aggregates.size() > kMaxColumns) {
     std::vector<double> total(ctx.result.nodes.size(), 0.0);
-    for (int c : children) {
+    for (int c : aggregates) {
       const Eigen::VectorXd& e = ctx.result.nodes[c].expenditure;
       for (int r = 0; r < e.size(); ++r) total[c] += std::isfinite(e(r)) ? e(r) : 0.0;
     }
-    std::stable_sort(children.begin(), children.end(),
+    std::stable_sort(aggregates.begin(), aggregates.end(),
                      [&](int a, int b) { return total[a] > total[b]; });
-    children.resize(kMaxColumns);
-    std::sort(children.begin(), children.end());
+    aggregates.resize(kMaxColumns);
+    std::sort(aggregates.begin(), aggregates.end());
   }
   std::vector<int> columns = {0};
-  columns.insert(columns.end(), children.begin(), children.end());
-  // The groups after the tree's columns (at most kMaxColumns of them).
-  const Classification& tree = ctx.survey.classification;
+  columns.insert(columns.end(), aggregates.begin(), aggregates.end());
   const int num_nodes = static_cast<int>(tree.nodes().size());
-  for (int n = tree.num_tree_nodes(); n < num_nodes && n < tree.num_tree_nodes() + 24; ++n) {
+  for (int n = tree.num_tree_nodes();
+       n < num_nodes && n < tree.num_tree_nodes() + static_cast<int>(kMaxGroups); ++n) {
     columns.push_back(n);
   }
   return columns;
+}
+
+// The column tooltip of a node: "label (code)", the aggregates it sits in,
+// or that it is a group.
+std::string ColumnTip(const Context& ctx, int node) {
+  const Classification& tree = ctx.survey.classification;
+  const ClassificationNode& n = tree.nodes()[node];
+  std::string tip = ctx.NodeTip(node);
+  if (n.is_group) return tip + ", analytic group";
+  std::string path;
+  for (int p = n.parent; p >= 0; p = tree.nodes()[p].parent) {
+    path = ctx.NodeName(p) + (path.empty() ? "" : " \xE2\x80\xBA " + path);
+  }
+  return path.empty() ? tip : tip + ", in " + path;
 }
 
 // "food, housing" from codes, each by its node's name.
@@ -100,7 +119,10 @@ std::string Grid(const GridSpec& g) {
                     "px\" role=\"img\" aria-label=\"" + HtmlEscape(g.aria) + "\">";
   for (int c = 0; c < cols; ++c) {
     const double cx = col_x(c) + cell_w / 2;
-    const std::string label = HtmlEscape(Truncate(g.column_labels[c], max_col_chars));
+    std::string label = HtmlEscape(Truncate(g.column_labels[c], max_col_chars));
+    if (c < static_cast<int>(g.column_tips.size()) && !g.column_tips[c].empty()) {
+      label = "<title>" + HtmlEscape(g.column_tips[c]) + "</title>" + label;
+    }
     const std::string cls = g.column_bold[c] ? "col-label strong" : "col-label";
     if (rotate) {
       out += "<text class=\"" + cls + "\" transform=\"translate(" + C(cx + 3) + " " +
@@ -148,6 +170,7 @@ std::string AggregateSection(const Context& ctx) {
   g.gap_before = {1};
   for (int c = 0; c < static_cast<int>(columns.size()); ++c) {
     g.column_labels.push_back(ctx.NodeName(columns[c]));
+    g.column_tips.push_back(ColumnTip(ctx, columns[c]));
     g.column_bold.push_back(columns[c] == 0);
     if (columns[c] >= num_tree_nodes && (c == 0 || columns[c - 1] < num_tree_nodes)) {
       g.gap_before.insert(c);
@@ -176,14 +199,19 @@ std::string AggregateSection(const Context& ctx) {
   std::string out = OpenSection("aggregates", "Price levels by aggregate");
   const bool has_groups = columns.back() >= num_tree_nodes;
   out += "<p>Price level of each region in <b>" + HtmlEscape(ctx.root_code) +
-         "</b> (first column) and in each of its aggregates" +
+         "</b> (first column) and in every aggregate below it, nested ones after their parent "
+         "(hover over a column title for its place in the classification)" +
          std::string(has_groups ? ", then in each group (after the second gap)" : "") +
          ", each normalised on its own (" + HtmlEscape(ctx.root.reference_used) +
          " = 100). Read along a row to see which categories make a region dear or cheap.</p>\n";
-  if (ctx.survey.classification.nodes().front().children.size() + 1 >
-      static_cast<size_t>(std::count_if(columns.begin(), columns.end(),
-                                        [&](int n) { return n < num_tree_nodes; }))) {
-    out += "<p class=\"note\">The " + FormatCount(static_cast<int64_t>(columns.size() - 1)) +
+  int num_aggregates = 0;
+  for (int n = 1; n < num_tree_nodes; ++n)
+    num_aggregates += ctx.survey.classification.nodes()[n].is_leaf ? 0 : 1;
+  const int num_shown = static_cast<int>(std::count_if(
+      columns.begin(), columns.end(), [&](int n) { return n > 0 && n < num_tree_nodes; }));
+  if (num_shown < num_aggregates) {
+    out += "<p class=\"note\">The " + FormatCount(num_shown) + " of " +
+           FormatCount(num_aggregates) +
            " aggregates with the largest expenditure are shown; every node is in "
            "<code>parities.csv</code>.</p>";
   }
@@ -203,7 +231,7 @@ std::string GroupSection(const Context& ctx) {
       "and expenditure with the run's aggregation method and normalised on its own, like every "
       "aggregate of the classification. A group is not built from the aggregates' parities, so "
       "under a method that is not additive it need not lie between them.</p>\n"
-      "<div class=\"table-scroll\"><table class=\"data\" id=\"group-table\"><thead><tr>"
+      "<div class=\"table-scroll\"><table class=\"data wrap\" id=\"group-table\"><thead><tr>"
       "<th>group</th><th>label</th><th>definition</th><th>basic headings</th>"
       "<th>cheapest</th><th>dearest</th></tr></thead><tbody>";
   for (int n = tree.num_tree_nodes(); n < static_cast<int>(tree.nodes().size()); ++n) {
@@ -222,10 +250,11 @@ std::string GroupSection(const Context& ctx) {
                    : HtmlEscape(ctx.Label(r)) + " " + Num(result.parity(r), kTableParityDecimals);
     };
     out += "<tr><td><code>" + HtmlEscape(node.code) + "</code></td><td>" + HtmlEscape(node.label) +
-           "</td><td>" + GroupDefinitionHtml(ctx, n) + "</td><td>" +
+           "</td><td><div class=\"long\">" + GroupDefinitionHtml(ctx, n) +
+           "</div></td><td><div class=\"long\">" +
            FormatCount(static_cast<int64_t>(headings.size())) + ": " +
-           HtmlEscape(JoinNames(headings)) + "</td><td>" + level(low) + "</td><td>" + level(high) +
-           "</td></tr>";
+           HtmlEscape(JoinNames(headings)) + "</div></td><td>" + level(low) + "</td><td>" +
+           level(high) + "</td></tr>";
   }
   return out + "</tbody></table></div>\n</section>\n";
 }
@@ -236,13 +265,15 @@ std::string MatrixSection(const Context& ctx) {
   g.id = "matrix-grid";
   g.aria =
       "parity matrix of the root: cost in the column region of what costs 100 in the row region";
+  // Regions by name, as in every other chart; the code is in the tooltips.
   for (int b : regions) {
-    g.column_labels.push_back(ctx.Code(b));
+    g.column_labels.push_back(ctx.Label(b));
+    g.column_tips.push_back(ctx.Label(b) + " (" + ctx.Code(b) + ")");
     g.column_bold.push_back(false);
   }
   for (int a : regions) {
-    g.row_labels.push_back(ctx.Code(a));
-    g.row_tips.push_back(ctx.Label(a));
+    g.row_labels.push_back(ctx.Label(a));
+    g.row_tips.push_back(ctx.Label(a) + " (" + ctx.Code(a) + ")");
     std::vector<double> line;
     for (int b : regions) {
       const double v = 100.0 * ctx.root.parity(b) / ctx.root.parity(a);
@@ -254,8 +285,8 @@ std::string MatrixSection(const Context& ctx) {
   g.colour = [scale](double v) { return scale.Colour(v); };
   g.format = [](double v) { return Num(v, kChartParityDecimals); };
   g.tip = [&ctx, &regions](int r, int c, double v) {
-    return "what costs 100 in " + ctx.Code(regions[r]) + " costs " + Num(v, kTableParityDecimals) +
-           " in " + ctx.Code(regions[c]);
+    return "what costs 100 in " + ctx.Label(regions[r]) + " costs " + Num(v, kTableParityDecimals) +
+           " in " + ctx.Label(regions[c]);
   };
   g.max_cell_w = 54.0;
   std::string out = OpenSection("matrix", "Parity matrix");
@@ -294,7 +325,8 @@ void CoverageColumns(const Context& ctx, const std::vector<std::vector<int>>& bi
                      GridSpec* g) {
   for (const std::vector<int>& bin : bins) {
     if (!binned) {
-      g->column_labels.push_back(ctx.Code(bin.front()));
+      g->column_labels.push_back(ctx.Label(bin.front()));
+      g->column_tips.push_back(ctx.Label(bin.front()) + " (" + ctx.Code(bin.front()) + ")");
     } else {
       int begin = 1;
       for (const std::vector<int>* b = bins.data(); b != &bin; ++b) {
@@ -304,10 +336,13 @@ void CoverageColumns(const Context& ctx, const std::vector<std::vector<int>>& bi
       g->column_labels.push_back(begin == end ? std::to_string(begin)
                                               : std::to_string(begin) + "\xE2\x80\x93" +
                                                     std::to_string(end));
+      g->column_tips.push_back("ranks " + g->column_labels.back() + ": " + ctx.Label(bin.front()) +
+                               " to " + ctx.Label(bin.back()));
     }
     g->column_bold.push_back(false);
   }
   g->column_labels.push_back("all regions");
+  g->column_tips.push_back("");
   g->column_bold.push_back(true);
   g->gap_before = {static_cast<int>(bins.size())};
 }
@@ -368,10 +403,10 @@ std::string CoverageSection(const Context& ctx) {
   g.tip = [&g, &bins, &ctx, binned](int r, int c, double v) {
     std::string where = "all regions";
     if (c < static_cast<int>(bins.size())) {
-      where = binned ? "ranks " + g.column_labels[c] + ", " + ctx.Code(bins[c].front()) + " to " +
-                           ctx.Code(bins[c].back()) + " (" + std::to_string(bins[c].size()) +
+      where = binned ? "ranks " + g.column_labels[c] + ", " + ctx.Label(bins[c].front()) + " to " +
+                           ctx.Label(bins[c].back()) + " (" + std::to_string(bins[c].size()) +
                            " regions)"
-                     : ctx.Code(bins[c].front());
+                     : ctx.Label(bins[c].front());
     }
     return g.row_labels[r] + " \xC2\xB7 " + where + ": " + Percent(v, 1) + " of items priced";
   };

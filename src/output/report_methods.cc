@@ -67,9 +67,9 @@ std::string MissingParitiesPart(const Context& ctx) {
       "and <code>share_*</code> columns of parities.csv say how much of each aggregate rests on imputed "
       "parities.";
   if (rows.empty()) return out + " Every region that spends on a heading has a parity of its own.</dd>";
-  return out + "<table><thead><tr><th>heading</th><th>rule</th><th>regions imputed</th><th>regions still without "
-               "a parity</th></tr></thead><tbody>" +
-         rows + "</tbody></table></dd>";
+  return out + "<div class=\"table-scroll\"><table class=\"data\"><thead><tr><th>heading</th><th>rule</th>"
+               "<th>regions imputed</th><th>regions still without a parity</th></tr></thead><tbody>" +
+         rows + "</tbody></table></div></dd>";
 }
 
 std::string MethodsSection(const Context& ctx) {
@@ -92,7 +92,8 @@ std::string MethodsSection(const Context& ctx) {
   }
   out += "<dt>Index formulas</dt><dd>Laspeyres (basket of the base region), Paasche (basket of the other), Fisher "
          "(their geometric mean; Fisher, I., 1922, <i>The Making of Index Numbers</i>) and T\xC3\xB6rnqvist "
-         "(T\xC3\xB6rnqvist, L., 1936, <i>Bank of Finland Monthly Bulletin</i> 10), as in the <i>Consumer Price Index "
+         "(T\xC3\xB6rnqvist, L., 1936, \xE2\x80\x9CThe Bank of Finland\xE2\x80\x99s consumption price "
+         "index\xE2\x80\x9D, <i>Bank of Finland Monthly Bulletin</i> 10), as in the <i>Consumer Price Index "
          "Manual</i> (ILO et al., 2004, ch. 15\xE2\x80\x93" "17).</dd>";
   out += "<dt>Regional comparisons</dt><dd>The same methods serve international comparisons: Eurostat and OECD, "
          "<i>Methodological Manual on Purchasing Power Parities</i> (2012); World Bank, <i>Measuring the Real Size "
@@ -100,7 +101,7 @@ std::string MethodsSection(const Context& ctx) {
   out += "<dt>Reference</dt><dd>Every node is normalised on its own: " + HtmlEscape(ctx.root.reference_used) +
          " = 100. Real expenditure is nominal expenditure divided by the parity / 100.</dd>";
   out += MissingParitiesPart(ctx);
-  out += "</dl>\n<p class=\"note\">Sources cited from memory of the published works.</p>\n";
+  out += "</dl>\n";
   return out + "</section>\n";
 }
 

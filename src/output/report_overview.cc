@@ -110,7 +110,8 @@ std::string Facts(const Context& ctx) {
 std::string InputFiles(const Context& ctx) {
   if (ctx.in.load == nullptr || ctx.in.load->files.empty()) return "";
   std::string out =
-      "<h3>Input files</h3><table class=\"data\"><thead><tr><th>file</th><th>path</th><th "
+      "<h3>Input files</h3><div class=\"table-scroll\"><table "
+      "class=\"data\"><thead><tr><th>file</th><th>path</th><th "
       "class=\"num\">rows read</th><th class=\"num\">used</th><th "
       "class=\"num\">rejected</th><th>SHA-256</th></tr></thead><tbody>";
   for (const InputFileSummary& f : ctx.in.load->files) {
@@ -128,7 +129,7 @@ std::string InputFiles(const Context& ctx) {
            "</td><td><code title=\"" + HtmlEscape(f.sha256) + "\">" +
            HtmlEscape(f.sha256.substr(0, 12)) + "\xE2\x80\xA6</code></td></tr>";
   }
-  out += "</tbody></table>\n";
+  out += "</tbody></table></div>\n";
   return out;
 }
 

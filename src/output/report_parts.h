@@ -48,8 +48,8 @@ std::string Truncate(std::string_view text, size_t max_chars);
 size_t CodePoints(std::string_view text);
 
 // ---------------------------------------------------------------------------
-// Colour scales. Both vary lightness monotonically from end to end, so they
-// read in greyscale, and avoid red-green contrasts.
+// Colour scales. Both avoid red-green contrasts; the coverage scale grows
+// darker with the share, the price-level scale with the distance from 100.
 
 struct Rgb {
   double r, g, b;
@@ -70,24 +70,26 @@ std::string Hex(Rgb c);
 // True when dark text is more legible than white on `c`.
 bool WantsDarkText(Rgb c);
 
-// Price levels: dark blue (cheaper) through a neutral grey-violet at 100 to
-// orange and pale yellow (dearer). Blue against orange is the contrast that
-// the common forms of colour-vision deficiency keep, and lightness rises
-// steadily from end to end (about L* 12 to 91), so the scale also reads in
-// greyscale; stops hand-coded for this report.
-inline constexpr std::array<Rgb, 9> kDivergingStops = {{{11, 29, 74},
-                                                        {28, 53, 111},
-                                                        {52, 81, 143},
-                                                        {91, 107, 158},
-                                                        {138, 135, 153},
-                                                        {184, 145, 106},
-                                                        {217, 162, 78},
-                                                        {239, 193, 96},
-                                                        {250, 229, 155}}};
-// Coverage shares: pale yellow to dark green, after ColorBrewer's YlGn
-// (Harrower and Brewer 2003, The Cartographic Journal 40(1); values
-// approximated from memory); one hue family, lightness falling with the
-// share, and distinct from the price-level scale.
+// Price levels: dark blue (cheaper) through light grey at 100 to dark
+// orange-brown (dearer). Both ends are dark (L* about 21 and 25) and
+// lightness rises evenly toward 100 (L* 88) on both sides, so the regions
+// furthest from 100 stand out most on a white page, and a greyscale print
+// still shows the distance from 100 (the side is told by the bar's
+// direction and its value). Blue against orange is the contrast that the
+// common forms of colour-vision deficiency keep. Stops hand-coded for this
+// report, with their CIE L* (D65) in the comments.
+inline constexpr std::array<Rgb, 9> kDivergingStops = {{{8, 48, 107},     // L* 21
+                                                        {33, 102, 172},   // L* 43
+                                                        {67, 147, 195},   // L* 58
+                                                        {146, 197, 222},  // L* 77
+                                                        {222, 222, 222},  // L* 88
+                                                        {253, 184, 99},   // L* 80
+                                                        {224, 130, 20},   // L* 63
+                                                        {160, 76, 8},     // L* 42
+                                                        {100, 42, 6}}};   // L* 25
+// Coverage shares: pale yellow to dark green, one hue family, lightness
+// falling with the share, distinct from the price-level scale; stops
+// hand-coded for this report.
 inline constexpr std::array<Rgb, 7> kSequentialStops = {{{255, 255, 229},
                                                          {217, 240, 163},
                                                          {173, 221, 142},
@@ -186,6 +188,8 @@ struct GridSpec {
   std::vector<std::string> row_labels;
   std::vector<std::string> row_tips;
   std::vector<std::string> column_labels;
+  // Tooltips of the column titles (empty = none), e.g. the code behind a name.
+  std::vector<std::string> column_tips;
   std::vector<bool> column_bold;
   // values[row][column], NaN = no value (hatched).
   std::vector<std::vector<double>> values;

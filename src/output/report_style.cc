@@ -35,8 +35,10 @@ table.facts th{text-align:left;font-weight:600;padding:3px 18px 3px 0;color:var(
 table.facts td{padding:3px 0}
 table.data{margin:6px 0;min-width:50%}
 table.data th,table.data td{padding:4px 10px;border-bottom:1px solid var(--rule);text-align:left;white-space:nowrap}
-table.data thead th{background:var(--panel);border-bottom:2px solid #b9c2ca;font-weight:600;position:sticky;top:0}
+table.data thead th{background:var(--panel);border-bottom:2px solid #b9c2ca;font-weight:600;position:sticky;top:0;white-space:normal;vertical-align:bottom;min-width:6ch}
 table.data .num{text-align:right}
+table.data.wrap td{white-space:normal;vertical-align:top}
+table.data .long{min-width:16ch;max-width:40ch}
 table.sortable thead th{cursor:pointer}
 table.sortable thead th[aria-sort=ascending]::after{content:" \25B2";font-size:.7em}
 table.sortable thead th[aria-sort=descending]::after{content:" \25BC";font-size:.7em}
@@ -89,6 +91,11 @@ dl.methods dt{font-weight:600;margin-top:10px}
 dl.methods dd{margin:2px 0 4px 0;max-width:84ch}
 ul.cautions li{margin:4px 0;max-width:84ch}
 footer{color:var(--muted);font-size:.82rem;padding:14px 0 30px}
+@media (max-width:720px){
+  .wrap{padding:0 12px}
+  section{overflow-x:auto}
+  svg.chart{min-width:680px}
+}
 @media print{
   html{font-size:12px}
   header.top{background:none;color:var(--ink);border-bottom:2px solid var(--ink);padding:0 0 8px}

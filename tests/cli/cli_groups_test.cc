@@ -87,7 +87,7 @@ TEST(GroupsCommand, ComputeWritesGroupsAndLabelsEverywhere) {
   EXPECT_NE(html.find("<a href=\"#groups\">Groups</a>"), std::string::npos);
   EXPECT_NE(html.find("<section id=\"groups\""), std::string::npos);
   EXPECT_NE(html.find("<td><code>all_but_housing</code></td><td>All items without housing</td>"
-                      "<td>All items (all) without housing</td>"),
+                      "<td><div class=\"long\">All items (all) without housing</div></td>"),
             std::string::npos);
   EXPECT_NE(html.find("Regional price levels: All items (all)"), std::string::npos);
   // Labels are escaped: the by-aggregate grid's column and the coverage rows.

@@ -101,6 +101,65 @@ TEST(ReportHtml, HasEverySectionAndOneBarPerRegionForTheDemo) {
   EXPECT_NE(html.find("official regional price levels come from the statistical authority"), std::string::npos);
 }
 
+TEST(ReportHtml, ShowsEveryAggregateAtAnyDepthInTheAggregateGrid) {
+  // data/demo/classification.yaml: the root, 9 aggregates under it and
+  // public_transport under transport, then the 2 groups of config/demo.yaml.
+  const Demo& demo = TheDemo();
+  const std::string grid = SvgById(ReportHtml(InputsFor(demo.job, &demo.config)), "aggregate-grid");
+  EXPECT_EQ(CountOf(grid, "<rect class=\"cell"), 16u * (1 + 10 + 2));
+  // The nested aggregate comes right after its parent, with its place in the tooltip.
+  const size_t transport = grid.find(">Transport</text>");
+  const size_t nested = grid.find(
+      "<title>Public transport (public_transport), in All items \xE2\x80\xBA Transport</title>");
+  ASSERT_NE(transport, std::string::npos);
+  ASSERT_NE(nested, std::string::npos);
+  EXPECT_LT(transport, nested);
+  EXPECT_LT(nested, grid.find(">Communication</text>"));
+}
+
+TEST(ReportHtml, NamesRegionsInTheMatrixAndCoverageGridsWithTheCodeInTooltips) {
+  const Demo& demo = TheDemo();
+  const std::string html = ReportHtml(InputsFor(demo.job, &demo.config));
+  for (const char* id : {"matrix-grid", "coverage-grid"}) {
+    const std::string grid = SvgById(html, id);
+    // The name (cut to fit a column title), the code in its tooltip.
+    EXPECT_NE(grid.find("<title>Aurelmont Capital Region (cap)</title>Aurelmont Capital Reg"),
+              std::string::npos)
+        << id;
+    EXPECT_EQ(grid.find(">cap</text>"), std::string::npos) << id;
+  }
+}
+
+TEST(ReportHtml, PutsTheHistogramLabelsOnBarEdges) {
+  // Worked by hand for the demo: the largest spread is 2.87 (the worst-pairs
+  // table), 2.87 / 24 bins = 0.12 rounds up to a bin width of 0.2, so 15 bins
+  // [0, 0.2) ... [2.8, 3.0); 15 edges to label are more than 8, so every
+  // 2nd: 0.0, 0.4, ..., 2.8. The plot is 920 units wide from x = 60, so bar
+  // i spans 60 + 920 i / 15 (+1 and -1 for the gap) and label j sits at
+  // 60 + 920 (2 j) / 15.
+  const Demo& demo = TheDemo();
+  const std::string html = ReportHtml(InputsFor(demo.job, &demo.config));
+  ASSERT_NE(SvgById(html, "worst-pairs").find(">2.87</td>"), std::string::npos);
+  const std::string chart = SvgById(html, "spread-histogram");
+  EXPECT_EQ(CountOf(chart, "class=\"hist-bar\""), 15u);
+  for (int j = 0; j <= 7; ++j) {
+    const std::string x = FormatFixed(60.0 + 920.0 * 2 * j / 15, 1);
+    const std::string label = FormatFixed(0.4 * j, 1);
+    EXPECT_NE(chart.find("class=\"tick x-tick\" x=\"" + x +
+                         "\" y=\"216.0\" text-anchor=\"middle\">" + label + "</text>"),
+              std::string::npos)
+        << label;
+  }
+  EXPECT_EQ(CountOf(chart, "x-tick"), 8u);
+}
+
+TEST(ReportHtml, CitesItsSourcesWithoutAClaimOfMemory) {
+  const Demo& demo = TheDemo();
+  const std::string html = ReportHtml(InputsFor(demo.job, &demo.config));
+  EXPECT_EQ(html.find("from memory"), std::string::npos);
+  EXPECT_NE(html.find("Summers, R. (1973)"), std::string::npos);
+}
+
 TEST(ReportHtml, FormatsParitiesWithOneDecimalInChartsAndTwoInTables) {
   const Demo& demo = TheDemo();
   const std::string html = ReportHtml(InputsFor(demo.job, &demo.config));

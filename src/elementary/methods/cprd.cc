@@ -88,8 +88,8 @@ class Cprd final : public ElementaryMethod {
     return "ln price = region effect + item effect + representativity effect \xC3\x97 (cell flagged "
            "representative) + error, by least squares: items a region flags as representative of its "
            "spending may be dearer or cheaper than others, and the dummy keeps that from the region "
-           "effects. The effect and its standard error are listed per heading. Sergeev, S. (2003), and the "
-           "Eurostat-OECD <i>Methodological Manual on Purchasing Power Parities</i> (2012).";
+           "effects. The effect and its standard error are listed per heading. Eurostat and OECD, "
+           "<i>Methodological Manual on Purchasing Power Parities</i> (2012).";
   }
   ElementaryProperties Properties() const override {
     return {.uses_representativity = true,

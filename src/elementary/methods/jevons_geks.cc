@@ -66,8 +66,8 @@ class JevonsGeks final : public ElementaryMethod {
     return "Bilateral Jevons indices (geometric means of price relatives over the items both regions priced; "
            "Jevons, W. S., 1865) made transitive by GEKS (below). Where a heading flags representative "
            "items, each bilateral index is the geometric mean of two Jevons indices, one over the items "
-           "representative in each region of the pair (the GEKS* form: Sergeev, S., 2001, and the "
-           "Eurostat-OECD <i>Methodological Manual on Purchasing Power Parities</i>, 2012); a pair that "
+           "representative in each region of the pair (the GEKS* form of Eurostat and OECD, "
+           "<i>Methodological Manual on Purchasing Power Parities</i>, 2012); a pair that "
            "shares no representative item has no bilateral index.";
   }
   ElementaryProperties Properties() const override { return {.uses_representativity = true}; }
