@@ -47,6 +47,7 @@ struct SensitivityArguments {
   std::optional<std::string> parts;
   std::optional<std::string> node;
   std::optional<std::string> bootstrap;
+  std::optional<std::string> target_se;
   bool write_replicates = false;
 };
 int RunSensitivityCommand(const std::string& config_path, const Overrides& overrides,

@@ -79,6 +79,15 @@ bool ParseArguments(const SensitivityArguments& arguments, SensitivityOptions* o
     PrintError("--bootstrap must be one of: rescaled, plain; found '" + *arguments.bootstrap + "'");
     return false;
   }
+  if (arguments.target_se) {
+    if (ParseNumber(*arguments.target_se, &value) != NumberStatus::kOk ||
+        !(value > 0.0 && value < 1.0)) {
+      PrintError("--target-se must be a standard error of ln parity above 0 and below 1 (e.g. "
+                 "0.01), found '" + *arguments.target_se + "'");
+      return false;
+    }
+    options->target_log_se = value;
+  }
   options->write_replicates = arguments.write_replicates;
   if (options->write_replicates && !options->run_bootstrap) {
     PrintError("--write-replicates needs the bootstrap part (--parts without bootstrap)");

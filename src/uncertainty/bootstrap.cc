@@ -52,6 +52,7 @@ Replicates RunReplicates(const FullSample& full, const SensitivityOptions& optio
   Progress progress{&options, "bootstrap", num_b};
 #pragma omp parallel num_threads(full.num_threads)
   {
+    KeepChainOnThisThread();
     std::vector<double> weight(full.survey->num_items());
     Eigen::MatrixXd heading_lp, node_lp;
     Eigen::MatrixXi rank;

@@ -38,6 +38,7 @@ std::vector<Eigen::MatrixXd> RunSubsamples(const FullSample& full,
   Progress progress{&options, "coverage", num_runs};
 #pragma omp parallel num_threads(full.num_threads)
   {
+    KeepChainOnThisThread();
     std::vector<double> weight(full.survey->num_items());
     std::vector<int> pool;
     Eigen::MatrixXd heading_lp;

@@ -108,6 +108,7 @@ Changes DropEachUnit(const FullSample& full, const Units& units,
   Progress progress{&options, "leave-one-out", num_drop_items + num_drop_headings};
 #pragma omp parallel num_threads(full.num_threads)
   {
+    KeepChainOnThisThread();
     Scratch scratch{std::vector<double>(full.survey->num_items(), 1.0), full.heading_log_parity,
                     full.node_log_parity, std::vector<uint8_t>(full.chain.num_nodes, 0)};
 #pragma omp for schedule(dynamic, 4)

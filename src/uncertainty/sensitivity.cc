@@ -89,6 +89,11 @@ bool SensitivityOptions::IsValid(std::string* error) const {
         "no part to run; parts must name at least one of: " + JoinNames(SensitivityPartNames());
     return false;
   }
+  if (!(target_log_se > 0.0 && target_log_se < 1.0)) {
+    *error = "target standard error must be above 0 and below 1 (log points, e.g. 0.01), found " +
+             FormatFixed(target_log_se, 6);
+    return false;
+  }
   if (num_threads < 0) {
     *error = "threads must be 0 (all cores) or more, found " + std::to_string(num_threads);
     return false;
@@ -185,6 +190,10 @@ bool RunFullSample(const Survey& survey, const ComputeOptions& compute,
                                         &full->heading_log_parity, &full->node_log_parity)
                           .num_imputed;
   full->num_threads = internal::ThreadsFor(options.num_threads);
+  for (int h = 0; h < full->chain.num_headings; ++h) {
+    result->heading_num_items.push_back(static_cast<int>(full->chain.heading_items[h].size()));
+    result->heading_external.push_back(internal::HeadingFromFile(full->chain, h) ? 1 : 0);
+  }
   summary->full_sample_seconds = internal::SecondsSince(start);
   return true;
 }

@@ -16,6 +16,7 @@
 #include "paritas/output/run_folder.h"
 #include "paritas/output/report.h"
 #include "paritas/output/run_record.h"
+#include "paritas/uncertainty/items_needed.h"
 #include "paritas/uncertainty/outliers.h"
 #include "paritas/uncertainty/sensitivity.h"
 
@@ -47,6 +48,7 @@ nlohmann::ordered_json RecordSettings(const SensitivityOptions& options) {
   settings["level"] = options.level;
   settings["coverage_levels"] = options.coverage_levels;
   settings["coverage_repetitions"] = options.coverage_repetitions;
+  settings["target_log_se"] = options.target_log_se;
   settings["threads"] = options.num_threads;
   settings["node"] = options.node;
   return settings;
@@ -175,6 +177,10 @@ std::vector<OutputFile> PartFiles(const SensitivityOptions& options,
   std::vector<OutputFile> files;
   if (options.run_bootstrap) {
     files.push_back({"bootstrap.csv", BootstrapCsv(job.survey, job.result)});
+    files.push_back({"items_needed.csv",
+                     ItemsNeededCsv(job.survey,
+                                    ItemsNeeded(job.survey, job.result, options.target_log_se),
+                                    options.target_log_se)});
     if (options.write_replicates) {
       files.push_back({"replicates.bin", ReplicatesBinary(job.result)});
       files.push_back({"replicates_key.csv", ReplicatesKeyCsv(job.survey)});
@@ -306,6 +312,11 @@ std::string SensitivityJobSummary::FullReport(const SensitivityOptions& options)
   out += "\nsensitivity of " + NodeTitle(survey.classification, node) + ", dearest first:\n";
   out += SensitivityTable(survey, result, options);
   out += Notes(*this, options);
+  if (options.run_bootstrap) {
+    const std::string items = ItemsNeededSummary(
+        survey, ItemsNeeded(survey, result, options.target_log_se), options.target_log_se);
+    if (!items.empty()) out += "\n" + items;
+  }
   out +=
       "\nThe bootstrap and leave-one-out runs show how much the parities depend on which items "
       "were priced; they do not measure errors shared by all items (unit or quality "

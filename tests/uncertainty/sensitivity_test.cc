@@ -489,7 +489,8 @@ TEST(SensitivityJob, WritesEveryFileAndARunRecordSection) {
   options.coverage_repetitions = 3;
   SensitivityJobSummary summary;
   ASSERT_EQ(RunSensitivityJob(config, options, &summary), 0) << summary.message;
-  for (const char* name : {"bootstrap.csv", "leave_one_out.csv", "coverage_curve.csv", "method_spread.csv"}) {
+  for (const char* name : {"bootstrap.csv", "items_needed.csv", "leave_one_out.csv",
+                           "coverage_curve.csv", "method_spread.csv"}) {
     EXPECT_TRUE(std::filesystem::exists(folder + "/out/sensitivity/" + name)) << name;
   }
   const std::string record = ReadTextFile(folder + "/out/sensitivity/run.json");
@@ -538,6 +539,12 @@ TEST(SensitivityCommand, BadOptionValuesExitWithOneAndAClearMessage) {
        "coverage, methods; did you mean 'leave-one-out'?\n"},
       {"--bootstrap wild",
        "paritas: error: --bootstrap must be one of: rescaled, plain; found 'wild'\n"},
+      {"--target-se 0",
+       "paritas: error: --target-se must be a standard error of ln parity above 0 and below 1 "
+       "(e.g. 0.01), found '0'\n"},
+      {"--target-se 1%",
+       "paritas: error: --target-se must be a standard error of ln parity above 0 and below 1 "
+       "(e.g. 0.01), found '1%'\n"},
       {"--parts leave-one-out --write-replicates",
        "paritas: error: --write-replicates needs the bootstrap part (--parts without bootstrap)\n"},
       {"--reference Weighted_Mean",
@@ -578,9 +585,13 @@ TEST(SensitivityCommand, RunsAndPrintsTheRootTable) {
             0)
       << err;
   EXPECT_NE(out.find("90 % interval"), std::string::npos) << out;
-  // Four tables, warnings.csv, the run record and its own report with the
-  // intervals, all in sensitivity/; the compute report is never redrawn.
-  EXPECT_NE(out.find("wrote 7 files"), std::string::npos) << out;
+  // Four tables and items_needed.csv, warnings.csv, the run record and its
+  // own report with the intervals, all in sensitivity/; the compute report
+  // is never redrawn.
+  EXPECT_NE(out.find("wrote 8 files"), std::string::npos) << out;
+  EXPECT_NE(out.find("items per heading for a standard error of ln parity of 0.0100"),
+            std::string::npos)
+      << out;
   const std::string report = ReadTextFile(folder + "/out/sensitivity/report.html");
   EXPECT_NE(report.find("id=\"sensitivity\""), std::string::npos);
   EXPECT_NE(report.find("id=\"coverage-curve\""), std::string::npos);

@@ -65,6 +65,10 @@ struct SensitivityOptions {
   std::vector<double> coverage_levels = {0.9, 0.75, 0.5, 0.25};
   // Random subsamples per coverage level, 2 to 10,000 (default 20).
   int coverage_repetitions = 20;
+  // Target standard error of ln parity for the items-needed table
+  // (items_needed.h), in log points (0.01 is about 1 %); above 0 and below 1
+  // (default 0.01). Used only when the bootstrap runs.
+  double target_log_se = 0.01;
   // Parts to run (all by default); at least one must be on.
   bool run_bootstrap = true;
   bool run_leave_one_out = true;
@@ -130,6 +134,11 @@ struct MethodRun {
 // node (node order) and one column per region (survey order). Parts not run
 // leave their matrices empty.
 struct SensitivityResult {
+  // Items with prices in each heading (the n the bootstrap draws from), and
+  // 1 for headings taken from the external parities file; per heading.
+  std::vector<int> heading_num_items;
+  std::vector<uint8_t> heading_external;
+
   // Full-sample parity (reference = 100) and rank (1 = dearest, 0 = none).
   Eigen::MatrixXd parity;
   Eigen::MatrixXi rank;
