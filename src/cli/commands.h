@@ -48,6 +48,7 @@ struct SensitivityArguments {
   std::optional<std::string> node;
   std::optional<std::string> bootstrap;
   bool write_replicates = false;
+  bool all_pairs = false;
 };
 int RunSensitivityCommand(const std::string& config_path, const Overrides& overrides,
                           const SensitivityArguments& arguments);

@@ -43,6 +43,7 @@ nlohmann::ordered_json RecordSettings(const SensitivityOptions& options) {
   settings["replicates"] = options.replicates;
   settings["bootstrap"] = ToString(options.bootstrap);
   settings["write_replicates"] = options.write_replicates;
+  settings["all_pairs"] = options.all_pairs;
   settings["seed"] = options.seed;
   settings["level"] = options.level;
   settings["coverage_levels"] = options.coverage_levels;
@@ -90,6 +91,7 @@ std::string Notes(const SensitivityJobSummary& job, const SensitivityOptions& op
              "1 = dearest; boot se and jk se: bootstrap and jackknife standard errors of ln "
              "parity.)\n";
   }
+  notes += PairRatiosNote(job.survey, result);
   if (result.jackknife_log_se.size() > 0) {
     notes +=
         "(largest change: the largest move of the parity when one item or one basic heading "
@@ -147,6 +149,49 @@ std::vector<RunWarning> JobWarnings(const SensitivityJobSummary& job,
   return warnings;
 }
 
+// The pair intervals as the report's charts: the verdict matrix in rank
+// order when every pair is known, and the verdicts of neighbours in rank.
+std::vector<ReportSensitivity::PairChart> ToReportPairCharts(const SensitivityResult& result) {
+  std::vector<ReportSensitivity::PairChart> charts;
+  const int num_regions = static_cast<int>(result.parity.cols());
+  for (const NodePairRatios& node : result.pair_ratios) {
+    ReportSensitivity::PairChart chart;
+    chart.node = node.node;
+    chart.order = node.order;
+    const size_t count = node.order.size();
+    std::vector<int> position(num_regions, -1);
+    for (size_t k = 0; k < count; ++k) position[node.order[k]] = static_cast<int>(k);
+    auto value = [](const PairRatio& pair) {
+      switch (pair.verdict) {
+        case PairVerdict::kDearer:
+          return 1.0;
+        case PairVerdict::kCheaper:
+          return -1.0;
+        case PairVerdict::kIndistinguishable:
+          return 0.0;
+        case PairVerdict::kNone:
+          break;
+      }
+      return std::nan("");
+    };
+    chart.neighbour_apart.assign(count > 0 ? count - 1 : 0, std::nan(""));
+    if (node.all_pairs) chart.verdict.assign(count * count, std::nan(""));
+    for (const PairRatio& pair : node.pairs) {
+      const int i = position[pair.region_a], j = position[pair.region_b];
+      const double v = value(pair);
+      if (node.all_pairs) {
+        chart.verdict[i * count + j] = v;
+        chart.verdict[j * count + i] = -v;
+      }
+      if (std::abs(i - j) == 1 && std::isfinite(v)) {
+        chart.neighbour_apart[std::min(i, j)] = v != 0.0 ? 1.0 : 0.0;
+      }
+    }
+    charts.push_back(std::move(chart));
+  }
+  return charts;
+}
+
 // The full-sample computation, its outliers and plausibility checks: what
 // compute would say about the same survey and settings.
 struct FullSample {
@@ -175,6 +220,7 @@ std::vector<OutputFile> PartFiles(const SensitivityOptions& options,
   std::vector<OutputFile> files;
   if (options.run_bootstrap) {
     files.push_back({"bootstrap.csv", BootstrapCsv(job.survey, job.result)});
+    files.push_back({"pair_ratios.csv", PairRatiosCsv(job.survey, job.result.pair_ratios)});
     if (options.write_replicates) {
       files.push_back({"replicates.bin", ReplicatesBinary(job.result)});
       files.push_back({"replicates_key.csv", ReplicatesKeyCsv(job.survey)});
@@ -323,6 +369,8 @@ ReportSensitivity ToReportSensitivity(const SensitivityResult& result,
     }
     out.interval_label = FormatFixed(100.0 * options.level, 0) + " % interval over item resamples";
   }
+  out.pair_charts = ToReportPairCharts(result);
+  out.pair_level_label = FormatFixed(100.0 * options.level, 0) + " %";
   for (const CoverageLevel& level : result.coverage) {
     const std::vector<double> changes = SortedFiniteRoot(level.median_abs_log_change);
     if (changes.empty()) continue;

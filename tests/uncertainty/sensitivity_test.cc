@@ -130,6 +130,55 @@ TEST(PercentileType7, MatchesNumpyPercentile) {
   EXPECT_DOUBLE_EQ(PercentileType7(sorted, 0.0), 1.0);
 }
 
+TEST(PairRatios, IntervalIsTheType7QuantilesOfTheLogDifference) {
+  // Hand computation: replicates where both regions have a parity give
+  // d = ln P_a - ln P_b = 0.1, 0.2, 0.3, 0.4, 0.5 (the third replicate, NaN for
+  // a, is left out). At level 0.5 the type-7 quantiles at 0.25 and 0.75 are
+  // h = 4 x 0.25 = 1 -> 0.2 and h = 3 -> 0.4, so the interval is
+  // (exp 0.2, exp 0.4), wholly above 1: a is dearer.
+  const double nan = std::nan("");
+  const std::vector<double> log_b = {0.0, 1.0, 0.0, -1.0, 2.0, 0.5};
+  const std::vector<double> log_a = {0.3, 1.1, nan, -0.5, 2.4, 0.7};
+  PairRatio pair = PairRatioFromReplicates(log_a.data(), log_b.data(), 6, 0.5, 1.25);
+  EXPECT_EQ(pair.num_replicates, 5);
+  EXPECT_DOUBLE_EQ(pair.ratio, 1.25);
+  EXPECT_NEAR(pair.lower, std::exp(0.2), 1e-15);
+  EXPECT_NEAR(pair.upper, std::exp(0.4), 1e-15);
+  EXPECT_EQ(pair.verdict, PairVerdict::kDearer);
+  EXPECT_TRUE(pair.ExcludesOne());
+  // The other way round: (1 / upper, 1 / lower), cheaper.
+  pair = PairRatioFromReplicates(log_b.data(), log_a.data(), 6, 0.5, 0.8);
+  EXPECT_NEAR(pair.lower, std::exp(-0.4), 1e-15);
+  EXPECT_NEAR(pair.upper, std::exp(-0.2), 1e-15);
+  EXPECT_EQ(pair.verdict, PairVerdict::kCheaper);
+  // d = 0, -0.2, 0, 0.2, 0.1, -0.1 (six replicates) at level 0.9: type-7
+  // quantiles at 0.05 (h = 0.25 -> -0.2 + 0.25 x 0.1 = -0.175) and 0.95
+  // (h = 4.75 -> 0.1 + 0.75 x 0.1 = 0.175): 1 lies inside.
+  const std::vector<double> shifted = {0.0, 0.8, 0.0, -0.8, 2.1, 0.4};
+  pair = PairRatioFromReplicates(shifted.data(), log_b.data(), 6, 0.9, 1.0);
+  EXPECT_NEAR(pair.lower, std::exp(-0.175), 1e-15);
+  EXPECT_NEAR(pair.upper, std::exp(0.175), 1e-15);
+  EXPECT_EQ(pair.verdict, PairVerdict::kIndistinguishable);
+  EXPECT_FALSE(pair.ExcludesOne());
+  // One replicate with both parities: no interval.
+  pair = PairRatioFromReplicates(log_a.data(), log_b.data(), 1, 0.95, 1.0);
+  EXPECT_EQ(pair.verdict, PairVerdict::kNone);
+  EXPECT_TRUE(std::isnan(pair.lower));
+}
+
+TEST(PairRatios, VerdictNamesReadBackCaseInsensitively) {
+  for (PairVerdict v : {PairVerdict::kNone, PairVerdict::kDearer, PairVerdict::kCheaper,
+                        PairVerdict::kIndistinguishable}) {
+    PairVerdict read = PairVerdict::kNone;
+    std::string upper = ToString(v);
+    for (char& ch : upper) ch = static_cast<char>(std::toupper(static_cast<unsigned char>(ch)));
+    ASSERT_TRUE(FromString(upper, &read)) << upper;
+    EXPECT_EQ(read, v);
+  }
+  PairVerdict read = PairVerdict::kNone;
+  EXPECT_FALSE(FromString("dearest", &read));
+}
+
 TEST(AllPairsJevonsWeighted, WholeWeightsEqualRepeatedColumnsAndZeroDropsOne) {
   // A weight of k is the item priced k times: compare with the unweighted
   // matrix on arrays where the column is repeated (or removed).
