@@ -91,7 +91,6 @@ std::string Notes(const SensitivityJobSummary& job, const SensitivityOptions& op
              "1 = dearest; boot se and jk se: bootstrap and jackknife standard errors of ln "
              "parity.)\n";
   }
-  notes += PairRatiosNote(job.survey, result);
   if (result.jackknife_log_se.size() > 0) {
     notes +=
         "(largest change: the largest move of the parity when one item or one basic heading "
@@ -102,6 +101,7 @@ std::string Notes(const SensitivityJobSummary& job, const SensitivityOptions& op
              std::to_string(result.methods.size()) +
              " combinations of elementary and aggregation method.)\n";
   }
+  notes += PairRatiosNote(job.survey, result);
   if (!result.coverage.empty()) {
     const std::string& root = job.survey.classification.nodes().front().code;
     notes += "\ncoverage curve for '" + root + "' (median over regions of the sd of ln parity):\n";

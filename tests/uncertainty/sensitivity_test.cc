@@ -22,6 +22,7 @@
 namespace paritas {
 namespace {
 
+using testing::CountOf;
 using testing::IsClose;
 using testing::MakeTempDir;
 using testing::ReadTextFile;
@@ -627,10 +628,16 @@ TEST(SensitivityCommand, RunsAndPrintsTheRootTable) {
             0)
       << err;
   EXPECT_NE(out.find("90 % interval"), std::string::npos) << out;
-  // Four tables, warnings.csv, the run record and its own report with the
-  // intervals, all in sensitivity/; the compute report is never redrawn.
-  EXPECT_NE(out.find("wrote 7 files"), std::string::npos) << out;
   const std::string report = ReadTextFile(folder + "/out/sensitivity/report.html");
+  // Four tables and the pair intervals, warnings.csv, the run record and its
+  // own report with the intervals, all in sensitivity/; the compute report is
+  // never redrawn.
+  EXPECT_NE(out.find("wrote 8 files"), std::string::npos) << out;
+  // 10 regions: every pair of the root and of its two aggregates, 45 each.
+  EXPECT_NE(out.find("\n  all: "), std::string::npos) << out;
+  EXPECT_NE(out.find(" of 45 pairs\n"), std::string::npos) << out;
+  EXPECT_EQ(CountOf(ReadTextFile(folder + "/out/sensitivity/pair_ratios.csv"), "\n"), 1u + 3 * 45);
+  EXPECT_NE(report.find("id=\"pairs-all\""), std::string::npos);
   EXPECT_NE(report.find("id=\"sensitivity\""), std::string::npos);
   EXPECT_NE(report.find("id=\"coverage-curve\""), std::string::npos);
   // No progress bar when stderr is not a terminal: only the warnings.
