@@ -280,8 +280,19 @@ TEST(PairCommand, PrintsTheRatioIntervalOfTheSameRunAndRefusesAnotherRuns) {
             0)
       << err;
   const std::string pair = "pair " + config + " --from s1 --to s2 --output ";
-  // Same run: the interval is shown, read from pair_ratios.csv (the root).
-  ASSERT_EQ(RunCli(pair + dir + "/one", &out, &err), 0) << err;
+  // Same run: the interval is shown, read from pair_ratios.csv (the root),
+  // and written to the CSV. Every heading of this survey has one item, which
+  // every resample keeps, so the interval is the transitive ratio itself,
+  // 1.40105 (> 1: excludes 1).
+  ASSERT_EQ(RunCli(pair + dir + "/one --csv " + dir + "/pair.csv", &out, &err), 0) << err;
+  const std::string csv = ReadTextFile(dir + "/pair.csv");
+  EXPECT_EQ(Measure(csv, "ratio_level"), 0.95);
+  EXPECT_NEAR(Measure(csv, "ratio_lower"), Measure(csv, "transitive"), 1e-12);
+  EXPECT_NEAR(Measure(csv, "ratio_upper"), Measure(csv, "transitive"), 1e-12);
+  EXPECT_EQ(CountOf(csv, "\nratio_excludes_one,yes\n"), 1u) << csv;
+  EXPECT_NE(csv.find("\nratio_run_id," + RunIdOf(dir + "/one/sensitivity") + "\n"),
+            std::string::npos)
+      << csv;
   EXPECT_NE(out.find("  95 % interval of the transitive ratio: "), std::string::npos) << out;
   EXPECT_NE(out.find("  excludes 1: "), std::string::npos) << out;
   EXPECT_NE(out.find("bootstrap replicates of sensitivity run " + RunIdOf(dir + "/one/sensitivity") +
