@@ -288,7 +288,7 @@ std::string RunJson(const RunConfig& config, const SensitivityOptions& options,
                    {"leave-one-out", s.leave_one_out_seconds},
                    {"coverage", s.coverage_seconds},
                    {"methods", s.methods_seconds}};
-  record.sections.push_back({"sensitivity", SensitivityRecordSection(options, s, job.result)});
+  record.sections.push_back({"sensitivity", SensitivityRecordSection(options, s, job.result, &job.survey)});
   if (!compute_run_section.empty()) record.sections.push_back({"compute_run", compute_run_section});
   return RunRecordJson(record);
 }
@@ -317,7 +317,7 @@ std::string LinkComputeRun(const RunConfig& config, const std::string& this_json
 
 std::string SensitivityRecordSection(const SensitivityOptions& options,
                                      const SensitivitySummary& summary,
-                                     const SensitivityResult& result) {
+                                     const SensitivityResult& result, const Survey* survey) {
   nlohmann::ordered_json j;
   j["settings"] = RecordSettings(options);
   j["counts"] = RecordCounts(summary);
@@ -333,6 +333,20 @@ std::string SensitivityRecordSection(const SensitivityOptions& options,
     curve.push_back(row);
   }
   j["coverage_curve"] = curve;
+  // Per node of pair_ratios.csv: pairs computed and pairs told apart.
+  nlohmann::ordered_json pairs = nlohmann::ordered_json::array();
+  for (const NodePairRatios& node : result.pair_ratios) {
+    int apart = 0;
+    for (const PairRatio& pair : node.pairs) apart += pair.ExcludesOne() ? 1 : 0;
+    const nlohmann::ordered_json code =
+        survey != nullptr ? nlohmann::ordered_json(survey->classification.nodes()[node.node].code)
+                          : nlohmann::ordered_json(node.node);
+    pairs.push_back({{"node", code},
+                     {"all_pairs", node.all_pairs},
+                     {"num_pairs", node.pairs.size()},
+                     {"num_told_apart", apart}});
+  }
+  j["pair_ratios"] = pairs;
   nlohmann::ordered_json failed = nlohmann::ordered_json::array();
   for (const MethodRun& run : result.methods) {
     if (!run.message.empty()) failed.push_back({{"method", run.name}, {"message", run.message}});

@@ -192,7 +192,9 @@ PairIntervalStatus LookUpPairInterval(const std::string& run_folder,
                                   survey.classification.FindNode(c->node)) != covered.end();
   c->ratio_note = "the sensitivity run " + id + " holds no interval for '" + c->to + "' and '" +
                   c->from + "' at '" + c->node + "': " +
-                  (in_table ? "above " + std::to_string(kAllPairsMaxRegions) +
+                  (in_table && !fs::exists(table)
+                       ? std::string("it wrote no pair_ratios.csv; run sensitivity again")
+                   : in_table ? "above " + std::to_string(kAllPairsMaxRegions) +
                                   " regions pair_ratios.csv holds only neighbours in rank; run "
                                   "sensitivity with --all-pairs"
                             : std::string("pair_ratios.csv covers the root and the top-level "

@@ -296,11 +296,13 @@ std::string MethodSpreadCsv(const Survey& survey, const SensitivityResult& resul
 std::string SensitivityTable(const Survey& survey, const SensitivityResult& result,
                              const SensitivityOptions& options);
 // The `sensitivity` section of run.json (JSON text): settings, counts,
-// seconds per part and, per coverage level, the median over regions of the
-// root's log_sd.
+// seconds per part, per coverage level the median over regions of the
+// root's log_sd, and per node of pair_ratios.csv the pairs computed and told
+// apart (node codes from `survey` when given, else node indices).
 std::string SensitivityRecordSection(const SensitivityOptions& options,
                                      const SensitivitySummary& summary,
-                                     const SensitivityResult& result);
+                                     const SensitivityResult& result,
+                                     const Survey* survey = nullptr);
 
 // The folder a sensitivity run writes: `<output>/sensitivity`, a run folder
 // of its own (run_folder.h) holding its tables, its report (parities with
