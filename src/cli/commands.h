@@ -49,6 +49,7 @@ struct SensitivityArguments {
   std::optional<std::string> bootstrap;
   std::optional<std::string> target_se;
   bool write_replicates = false;
+  bool all_pairs = false;
 };
 int RunSensitivityCommand(const std::string& config_path, const Overrides& overrides,
                           const SensitivityArguments& arguments);

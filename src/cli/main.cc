@@ -98,6 +98,10 @@ void AddSensitivityOptions(CLI::App* command, paritas::cli::Overrides* overrides
   command->add_flag("--write-replicates", arguments->write_replicates,
                     "also write every replicate's ln parities (sensitivity/replicates.bin and "
                     "replicates_key.csv)");
+  command->add_flag("--all-pairs", arguments->all_pairs,
+                    "write the ratio interval of every pair of regions (sensitivity/"
+                    "pair_ratios.csv) even above 60 regions, where only neighbours in rank are "
+                    "computed by default");
   command->add_flag("--strict", overrides->strict,
                     "exit with code 3, after writing everything, when the run raised a warning "
                     "(overrides 'strict')");
@@ -198,6 +202,9 @@ int main(int argc, char** argv) {
   pair->add_flag("--every-method", pair_every_method,
                   "also the transitive parity under every aggregation method (at an aggregate) "
                   "or elementary method (at a basic heading); one compute per method");
+  pair->add_option("--output", overrides.output,
+                   "run folder whose sensitivity results (OUTPUT/sensitivity) give the interval "
+                   "of the ratio (default: output of the configuration, else out beside it)");
   pair->footer(HelpFooter("paritas pair config/demo.yaml --from cap --to har --node food"));
   paritas::cli::SensitivityArguments sensitivity_arguments;
   CLI::App* sensitivity =

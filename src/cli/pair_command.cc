@@ -8,6 +8,7 @@
 #include "paritas/base/csv.h"
 #include "paritas/jobs/guards.h"
 #include "paritas/jobs/jobs.h"
+#include "paritas/output/run_record.h"
 #include "paritas/use/pair_comparison.h"
 #include "paritas/survey/survey_loader.h"
 #include "paritas/base/text.h"
@@ -57,6 +58,17 @@ int RunPairCommand(const std::string& config_path, const Overrides& overrides,
   }
   if (every_method) {
     TransitiveUnderEveryMethod(survey, ComputeOptions::FromConfig(config), &comparison);
+  }
+  RunRecord record;
+  record.command = "pair";
+  record.config = &config;
+  record.load = &load;
+  record.survey = &survey;
+  record.compute = &compute;
+  const PairIntervalStatus status =
+      LookUpPairInterval(config.output, RunRecordJson(record), survey, &comparison);
+  if (status == PairIntervalStatus::kOtherRun || status == PairIntervalStatus::kUnreadable) {
+    PrintErr("paritas: warning: " + comparison.ratio_note + "\n");
   }
   PrintOut(PairTable(comparison));
   if (!csv_path.empty()) {

@@ -89,6 +89,11 @@ bool ParseArguments(const SensitivityArguments& arguments, SensitivityOptions* o
     options->target_log_se = value;
   }
   options->write_replicates = arguments.write_replicates;
+  options->all_pairs = arguments.all_pairs;
+  if (options->all_pairs && !options->run_bootstrap) {
+    PrintError("--all-pairs needs the bootstrap part (--parts without bootstrap)");
+    return false;
+  }
   if (options->write_replicates && !options->run_bootstrap) {
     PrintError("--write-replicates needs the bootstrap part (--parts without bootstrap)");
     return false;

@@ -605,6 +605,11 @@ std::string SensitivitySection(const Context& ctx, const ReportSensitivity& s) {
         "the method chosen as much as on its prices.</p>\n" +
         methods;
   }
+  const std::string pairs = PairChartsHtml(ctx, s);
+  if (!pairs.empty()) {
+    any = true;
+    out += pairs;
+  }
   if (!s.parity_lower.empty()) {
     any = true;
     out += "<p>The intervals drawn in <a href=\"#price-levels\">Price levels</a> are: " +

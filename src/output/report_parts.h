@@ -203,6 +203,10 @@ struct GridSpec {
 
 std::string Grid(const GridSpec& g);
 
+// The pair-interval charts of the sensitivity section (report_pairs.cc);
+// "" when the run computed none.
+std::string PairChartsHtml(const Context& ctx, const ReportSensitivity& s);
+
 // ---------------------------------------------------------------------------
 // The sections, in page order; each returns a whole <section>.
 

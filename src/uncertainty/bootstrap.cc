@@ -145,6 +145,9 @@ void RunBootstrap(const FullSample& full, const SensitivityOptions& options,
   }
   Summarise(replicates, options.level, full.num_threads, full.chain.num_nodes,
             full.chain.num_regions, result);
+  ComputePairRatios(replicates.log_parity, full.chain.num_regions, replicates.num_replicates,
+                    result->parity, full.survey->classification, options.level,
+                    options.all_pairs, full.num_threads, &result->pair_ratios);
   result->boot_log_parity.clear();
   result->boot_num_replicates_kept = 0;
   if (options.write_replicates) {

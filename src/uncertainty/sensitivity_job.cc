@@ -44,6 +44,7 @@ nlohmann::ordered_json RecordSettings(const SensitivityOptions& options) {
   settings["replicates"] = options.replicates;
   settings["bootstrap"] = ToString(options.bootstrap);
   settings["write_replicates"] = options.write_replicates;
+  settings["all_pairs"] = options.all_pairs;
   settings["seed"] = options.seed;
   settings["level"] = options.level;
   settings["coverage_levels"] = options.coverage_levels;
@@ -102,6 +103,7 @@ std::string Notes(const SensitivityJobSummary& job, const SensitivityOptions& op
              std::to_string(result.methods.size()) +
              " combinations of elementary and aggregation method.)\n";
   }
+  notes += PairRatiosNote(job.survey, result);
   if (!result.coverage.empty()) {
     const std::string& root = job.survey.classification.nodes().front().code;
     notes += "\ncoverage curve for '" + root + "' (median over regions of the sd of ln parity):\n";
@@ -149,6 +151,49 @@ std::vector<RunWarning> JobWarnings(const SensitivityJobSummary& job,
   return warnings;
 }
 
+// The pair intervals as the report's charts: the verdict matrix in rank
+// order when every pair is known, and the verdicts of neighbours in rank.
+std::vector<ReportSensitivity::PairChart> ToReportPairCharts(const SensitivityResult& result) {
+  std::vector<ReportSensitivity::PairChart> charts;
+  const int num_regions = static_cast<int>(result.parity.cols());
+  for (const NodePairRatios& node : result.pair_ratios) {
+    ReportSensitivity::PairChart chart;
+    chart.node = node.node;
+    chart.order = node.order;
+    const size_t count = node.order.size();
+    std::vector<int> position(num_regions, -1);
+    for (size_t k = 0; k < count; ++k) position[node.order[k]] = static_cast<int>(k);
+    auto value = [](const PairRatio& pair) {
+      switch (pair.verdict) {
+        case PairVerdict::kDearer:
+          return 1.0;
+        case PairVerdict::kCheaper:
+          return -1.0;
+        case PairVerdict::kIndistinguishable:
+          return 0.0;
+        case PairVerdict::kNone:
+          break;
+      }
+      return std::nan("");
+    };
+    chart.neighbour_apart.assign(count > 0 ? count - 1 : 0, std::nan(""));
+    if (node.all_pairs) chart.verdict.assign(count * count, std::nan(""));
+    for (const PairRatio& pair : node.pairs) {
+      const int i = position[pair.region_a], j = position[pair.region_b];
+      const double v = value(pair);
+      if (node.all_pairs) {
+        chart.verdict[i * count + j] = v;
+        chart.verdict[j * count + i] = -v;
+      }
+      if (std::abs(i - j) == 1 && std::isfinite(v)) {
+        chart.neighbour_apart[std::min(i, j)] = v != 0.0 ? 1.0 : 0.0;
+      }
+    }
+    charts.push_back(std::move(chart));
+  }
+  return charts;
+}
+
 // The full-sample computation, its outliers and plausibility checks: what
 // compute would say about the same survey and settings.
 struct FullSample {
@@ -181,6 +226,7 @@ std::vector<OutputFile> PartFiles(const SensitivityOptions& options,
                      ItemsNeededCsv(job.survey,
                                     ItemsNeeded(job.survey, job.result, options.target_log_se),
                                     options.target_log_se)});
+    files.push_back({"pair_ratios.csv", PairRatiosCsv(job.survey, job.result.pair_ratios)});
     if (options.write_replicates) {
       files.push_back({"replicates.bin", ReplicatesBinary(job.result)});
       files.push_back({"replicates_key.csv", ReplicatesKeyCsv(job.survey)});
@@ -248,7 +294,7 @@ std::string RunJson(const RunConfig& config, const SensitivityOptions& options,
                    {"leave-one-out", s.leave_one_out_seconds},
                    {"coverage", s.coverage_seconds},
                    {"methods", s.methods_seconds}};
-  record.sections.push_back({"sensitivity", SensitivityRecordSection(options, s, job.result)});
+  record.sections.push_back({"sensitivity", SensitivityRecordSection(options, s, job.result, &job.survey)});
   if (!compute_run_section.empty()) record.sections.push_back({"compute_run", compute_run_section});
   return RunRecordJson(record);
 }
@@ -277,7 +323,7 @@ std::string LinkComputeRun(const RunConfig& config, const std::string& this_json
 
 std::string SensitivityRecordSection(const SensitivityOptions& options,
                                      const SensitivitySummary& summary,
-                                     const SensitivityResult& result) {
+                                     const SensitivityResult& result, const Survey* survey) {
   nlohmann::ordered_json j;
   j["settings"] = RecordSettings(options);
   j["counts"] = RecordCounts(summary);
@@ -293,6 +339,20 @@ std::string SensitivityRecordSection(const SensitivityOptions& options,
     curve.push_back(row);
   }
   j["coverage_curve"] = curve;
+  // Per node of pair_ratios.csv: pairs computed and pairs told apart.
+  nlohmann::ordered_json pairs = nlohmann::ordered_json::array();
+  for (const NodePairRatios& node : result.pair_ratios) {
+    int apart = 0;
+    for (const PairRatio& pair : node.pairs) apart += pair.ExcludesOne() ? 1 : 0;
+    const nlohmann::ordered_json code =
+        survey != nullptr ? nlohmann::ordered_json(survey->classification.nodes()[node.node].code)
+                          : nlohmann::ordered_json(node.node);
+    pairs.push_back({{"node", code},
+                     {"all_pairs", node.all_pairs},
+                     {"num_pairs", node.pairs.size()},
+                     {"num_told_apart", apart}});
+  }
+  j["pair_ratios"] = pairs;
   nlohmann::ordered_json failed = nlohmann::ordered_json::array();
   for (const MethodRun& run : result.methods) {
     if (!run.message.empty()) failed.push_back({{"method", run.name}, {"message", run.message}});
@@ -334,6 +394,8 @@ ReportSensitivity ToReportSensitivity(const SensitivityResult& result,
     }
     out.interval_label = FormatFixed(100.0 * options.level, 0) + " % interval over item resamples";
   }
+  out.pair_charts = ToReportPairCharts(result);
+  out.pair_level_label = FormatFixed(100.0 * options.level, 0) + " %";
   for (const CoverageLevel& level : result.coverage) {
     const std::vector<double> changes = SortedFiniteRoot(level.median_abs_log_change);
     if (changes.empty()) continue;

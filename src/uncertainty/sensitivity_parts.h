@@ -11,6 +11,7 @@
 #include <chrono>
 #include <cstdint>
 #include <string>
+#include <vector>
 
 #include <Eigen/Core>
 
@@ -80,6 +81,15 @@ void RunCoverageCurve(const FullSample& full, const SensitivityOptions& options,
 // Method spread: every elementary x aggregation combination.
 void RunMethodSpread(const FullSample& full, const SensitivityOptions& options,
                      SensitivityResult* result, SensitivitySummary* summary);
+
+// Pair intervals (pair_ratios.cc) from replicate ln parities laid out as
+// SensitivityResult::boot_log_parity, for PairRatioNodes: every pair when
+// `all_pairs` or the node has at most kAllPairsMaxRegions regions with a
+// parity, else neighbours in rank. `parity` is the full sample's.
+void ComputePairRatios(const std::vector<double>& log_parity, int num_regions, int num_b,
+                       const Eigen::MatrixXd& parity, const Classification& classification,
+                       double level, bool all_pairs, int num_threads,
+                       std::vector<NodePairRatios>* out);
 
 }  // namespace paritas::internal
 

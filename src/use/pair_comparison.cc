@@ -183,6 +183,25 @@ std::string Number(double value) {
   return std::isnan(value) ? std::string("-") : FormatFixed(value, kDecimals);
 }
 
+bool ExcludesOne(const PairComparison& c) { return c.ratio_lower > 1.0 || c.ratio_upper < 1.0; }
+
+// The interval of the transitive ratio from the sensitivity run, or why none
+// is shown.
+std::string RatioIntervalLines(const PairComparison& c) {
+  if (std::isfinite(c.ratio_lower)) {
+    const std::string verdict = c.ratio_lower > 1.0   ? "'" + c.to + "' is dearer than '" + c.from + "'"
+                                : c.ratio_upper < 1.0 ? "'" + c.to + "' is cheaper than '" + c.from + "'"
+                                                      : "the two cannot be told apart";
+    return "\n  " + FormatFixed(100.0 * c.ratio_level, 0) + " % interval of the transitive ratio: " +
+           Number(c.ratio_lower) + " - " + Number(c.ratio_upper) + "\n  excludes 1: " +
+           (ExcludesOne(c) ? "yes" : "no") + " (" + verdict + ")\n  (from the " +
+           std::to_string(c.ratio_num_replicates) + " bootstrap replicates of sensitivity run " +
+           c.ratio_run_id + ", " + c.ratio_source + ")\n";
+  }
+  if (c.ratio_note.empty()) return "";
+  return "\n  interval of the transitive ratio: not shown: " + c.ratio_note + "\n";
+}
+
 }  // namespace
 
 bool ComparePair(const Survey& survey, const ParityResult& result, const std::string& from,
@@ -297,6 +316,13 @@ std::string PairCsv(const PairComparison& c) {
   }
   AddRow("transitive", c.transitive, &out);
   AddRow("log_gap", c.log_gap, &out);
+  if (std::isfinite(c.ratio_lower)) {
+    AddRow("ratio_level", c.ratio_level, &out);
+    AddRow("ratio_lower", c.ratio_lower, &out);
+    AddRow("ratio_upper", c.ratio_upper, &out);
+    AddTextRow("ratio_excludes_one", ExcludesOne(c) ? "yes" : "no", &out);
+    AddTextRow("ratio_run_id", c.ratio_run_id, &out);
+  }
   const std::string log_name =
       c.is_heading ? "jevons_log_contribution:" : "tornqvist_log_contribution:";
   for (const PairContribution& part : c.contributions)
@@ -361,6 +387,7 @@ std::string PairTable(const PairComparison& c) {
     row("transitive (compute)", c.transitive, "parity(" + c.to + ") / parity(" + c.from + ")");
     row("gap ln(Fisher / transitive)", c.log_gap, "");
   }
+  out += RatioIntervalLines(c);
   if (!c.by_method.empty()) {
     out += std::string("\ntransitive parity under every ") +
            (c.is_heading ? "elementary" : "aggregation") + " method:\n";

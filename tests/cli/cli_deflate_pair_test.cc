@@ -259,6 +259,80 @@ TEST(PairCommand, EveryMethodGivesEachAggregationMethodsTransitiveParity) {
   }
 }
 
+// The run id of the run record in `folder`.
+std::string RunIdOf(const std::string& folder) {
+  const std::string json = ReadTextFile(folder + "/run.json");
+  const size_t at = json.find("\"run_id\": \"");
+  if (at == std::string::npos) return "";
+  const size_t begin = at + 11;
+  return json.substr(begin, json.find('"', begin) - begin);
+}
+
+TEST(PairCommand, PrintsTheRatioIntervalOfTheSameRunAndRefusesAnotherRuns) {
+  const std::string dir = WriteTwoSituationSurvey();
+  const std::string config = dir + "/run.yaml";
+  std::string out, err;
+  ASSERT_EQ(RunCli("compute " + config + " --output " + dir + "/one --no-report", &out, &err), 0)
+      << err;
+  ASSERT_EQ(RunCli("sensitivity " + config + " --output " + dir +
+                       "/one --parts bootstrap --replicates 40",
+                   &out, &err),
+            0)
+      << err;
+  const std::string pair = "pair " + config + " --from s1 --to s2 --output ";
+  // Same run: the interval is shown, read from pair_ratios.csv (the root),
+  // and written to the CSV. Every heading of this survey has one item, which
+  // every resample keeps, so the interval is the transitive ratio itself,
+  // 1.40105 (> 1: excludes 1).
+  ASSERT_EQ(RunCli(pair + dir + "/one --csv " + dir + "/pair.csv", &out, &err), 0) << err;
+  const std::string csv = ReadTextFile(dir + "/pair.csv");
+  EXPECT_EQ(Measure(csv, "ratio_level"), 0.95);
+  EXPECT_NEAR(Measure(csv, "ratio_lower"), Measure(csv, "transitive"), 1e-12);
+  EXPECT_NEAR(Measure(csv, "ratio_upper"), Measure(csv, "transitive"), 1e-12);
+  EXPECT_EQ(CountOf(csv, "\nratio_excludes_one,yes\n"), 1u) << csv;
+  EXPECT_NE(csv.find("\nratio_run_id," + RunIdOf(dir + "/one/sensitivity") + "\n"),
+            std::string::npos)
+      << csv;
+  EXPECT_NE(out.find("  95 % interval of the transitive ratio: "), std::string::npos) << out;
+  EXPECT_NE(out.find("  excludes 1: "), std::string::npos) << out;
+  EXPECT_NE(out.find("bootstrap replicates of sensitivity run " + RunIdOf(dir + "/one/sensitivity") +
+                     ", pair_ratios.csv)"),
+            std::string::npos)
+      << out;
+  EXPECT_EQ(err, "");
+  // Other settings than the sensitivity run's: refused, with the difference.
+  WriteTextFile(dir + "/tornqvist.yaml", ReadTextFile(config) + "aggregation: geks-tornqvist\n");
+  ASSERT_EQ(RunCli("pair " + dir + "/tornqvist.yaml --from s1 --to s2 --output " + dir + "/one",
+                   &out, &err),
+            0)
+      << err;
+  const std::string sensitivity_one = dir + "/one/sensitivity";
+  const std::string id_one = RunIdOf(sensitivity_one);
+  EXPECT_EQ(err, "paritas: warning: the sensitivity results in " + sensitivity_one + " (run " +
+                     id_one +
+                     ") rest on other inputs or settings than this comparison (\"this run\"): "
+                     "aggregation: geks-tornqvist in this run, geks-fisher in the other; its "
+                     "intervals are not used; run 'paritas sensitivity' again with this "
+                     "configuration\n");
+  EXPECT_EQ(out.find("95 % interval of the transitive ratio"), std::string::npos) << out;
+  EXPECT_NE(out.find("interval of the transitive ratio: not shown: the sensitivity results in"),
+            std::string::npos)
+      << out;
+  // Same inputs and settings, but the sensitivity folder was made beside
+  // another compute run: refused by run id.
+  ASSERT_EQ(RunCli("compute " + config + " --output " + dir + "/two --no-report", &out, &err), 0)
+      << err;
+  std::filesystem::copy(sensitivity_one, dir + "/two/sensitivity");
+  ASSERT_EQ(RunCli(pair + dir + "/two", &out, &err), 0) << err;
+  EXPECT_EQ(err, "paritas: warning: the sensitivity results in " + dir + "/two/sensitivity (run " +
+                     id_one + ") belong to another run than the parities in " + dir +
+                     "/two (run " + RunIdOf(dir + "/two") + "): they were made beside run " +
+                     RunIdOf(dir + "/one") +
+                     "; its intervals are not used; run 'paritas sensitivity' again with this "
+                     "configuration\n");
+  EXPECT_EQ(out.find("95 % interval of the transitive ratio"), std::string::npos) << out;
+}
+
 TEST(PairCommand, RefusesUnknownRegionsAndMissingOptions) {
   const std::string dir = WriteTwoSituationSurvey();
   std::string out, err;

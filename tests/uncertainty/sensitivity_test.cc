@@ -22,6 +22,7 @@
 namespace paritas {
 namespace {
 
+using testing::CountOf;
 using testing::IsClose;
 using testing::MakeTempDir;
 using testing::ReadTextFile;
@@ -128,6 +129,55 @@ TEST(PercentileType7, MatchesNumpyPercentile) {
   EXPECT_DOUBLE_EQ(PercentileType7(sorted, 0.975), 9.75);
   EXPECT_DOUBLE_EQ(PercentileType7(sorted, 1.0), 10.0);
   EXPECT_DOUBLE_EQ(PercentileType7(sorted, 0.0), 1.0);
+}
+
+TEST(PairRatios, IntervalIsTheType7QuantilesOfTheLogDifference) {
+  // Hand computation: replicates where both regions have a parity give
+  // d = ln P_a - ln P_b = 0.1, 0.2, 0.3, 0.4, 0.5 (the third replicate, NaN for
+  // a, is left out). At level 0.5 the type-7 quantiles at 0.25 and 0.75 are
+  // h = 4 x 0.25 = 1 -> 0.2 and h = 3 -> 0.4, so the interval is
+  // (exp 0.2, exp 0.4), wholly above 1: a is dearer.
+  const double nan = std::nan("");
+  const std::vector<double> log_b = {0.0, 1.0, 0.0, -1.0, 2.0, 0.5};
+  const std::vector<double> log_a = {0.3, 1.1, nan, -0.5, 2.4, 0.7};
+  PairRatio pair = PairRatioFromReplicates(log_a.data(), log_b.data(), 6, 0.5, 1.25);
+  EXPECT_EQ(pair.num_replicates, 5);
+  EXPECT_DOUBLE_EQ(pair.ratio, 1.25);
+  EXPECT_NEAR(pair.lower, std::exp(0.2), 1e-15);
+  EXPECT_NEAR(pair.upper, std::exp(0.4), 1e-15);
+  EXPECT_EQ(pair.verdict, PairVerdict::kDearer);
+  EXPECT_TRUE(pair.ExcludesOne());
+  // The other way round: (1 / upper, 1 / lower), cheaper.
+  pair = PairRatioFromReplicates(log_b.data(), log_a.data(), 6, 0.5, 0.8);
+  EXPECT_NEAR(pair.lower, std::exp(-0.4), 1e-15);
+  EXPECT_NEAR(pair.upper, std::exp(-0.2), 1e-15);
+  EXPECT_EQ(pair.verdict, PairVerdict::kCheaper);
+  // d = 0, -0.2, 0, 0.2, 0.1, -0.1 (six replicates) at level 0.9: type-7
+  // quantiles at 0.05 (h = 0.25 -> -0.2 + 0.25 x 0.1 = -0.175) and 0.95
+  // (h = 4.75 -> 0.1 + 0.75 x 0.1 = 0.175): 1 lies inside.
+  const std::vector<double> shifted = {0.0, 0.8, 0.0, -0.8, 2.1, 0.4};
+  pair = PairRatioFromReplicates(shifted.data(), log_b.data(), 6, 0.9, 1.0);
+  EXPECT_NEAR(pair.lower, std::exp(-0.175), 1e-15);
+  EXPECT_NEAR(pair.upper, std::exp(0.175), 1e-15);
+  EXPECT_EQ(pair.verdict, PairVerdict::kIndistinguishable);
+  EXPECT_FALSE(pair.ExcludesOne());
+  // One replicate with both parities: no interval.
+  pair = PairRatioFromReplicates(log_a.data(), log_b.data(), 1, 0.95, 1.0);
+  EXPECT_EQ(pair.verdict, PairVerdict::kNone);
+  EXPECT_TRUE(std::isnan(pair.lower));
+}
+
+TEST(PairRatios, VerdictNamesReadBackCaseInsensitively) {
+  for (PairVerdict v : {PairVerdict::kNone, PairVerdict::kDearer, PairVerdict::kCheaper,
+                        PairVerdict::kIndistinguishable}) {
+    PairVerdict read = PairVerdict::kNone;
+    std::string upper = ToString(v);
+    for (char& ch : upper) ch = static_cast<char>(std::toupper(static_cast<unsigned char>(ch)));
+    ASSERT_TRUE(FromString(upper, &read)) << upper;
+    EXPECT_EQ(read, v);
+  }
+  PairVerdict read = PairVerdict::kNone;
+  EXPECT_FALSE(FromString("dearest", &read));
 }
 
 TEST(AllPairsJevonsWeighted, WholeWeightsEqualRepeatedColumnsAndZeroDropsOne) {
@@ -585,14 +635,22 @@ TEST(SensitivityCommand, RunsAndPrintsTheRootTable) {
             0)
       << err;
   EXPECT_NE(out.find("90 % interval"), std::string::npos) << out;
-  // Four tables and items_needed.csv, warnings.csv, the run record and its
-  // own report with the intervals, all in sensitivity/; the compute report
-  // is never redrawn.
-  EXPECT_NE(out.find("wrote 8 files"), std::string::npos) << out;
   EXPECT_NE(out.find("items per heading for a standard error of ln parity of 0.0100"),
             std::string::npos)
       << out;
   const std::string report = ReadTextFile(folder + "/out/sensitivity/report.html");
+  // Four tables, items_needed.csv and the pair intervals, warnings.csv, the
+  // run record and its own report with the intervals, all in sensitivity/;
+  // the compute report is never redrawn.
+  EXPECT_NE(out.find("wrote 9 files"), std::string::npos) << out;
+  // 10 regions: every pair of the root and of its two aggregates, 45 each.
+  EXPECT_NE(out.find("\n  all: "), std::string::npos) << out;
+  EXPECT_NE(out.find(" of 45 pairs\n"), std::string::npos) << out;
+  EXPECT_EQ(CountOf(ReadTextFile(folder + "/out/sensitivity/pair_ratios.csv"), "\n"), 1u + 3 * 45);
+  EXPECT_NE(report.find("id=\"pairs-all\""), std::string::npos);
+  EXPECT_NE(ReadTextFile(folder + "/out/sensitivity/run.json")
+                .find("\"node\": \"all\",\n        \"all_pairs\": true,\n        \"num_pairs\": 45,"),
+            std::string::npos);
   EXPECT_NE(report.find("id=\"sensitivity\""), std::string::npos);
   EXPECT_NE(report.find("id=\"coverage-curve\""), std::string::npos);
   // No progress bar when stderr is not a terminal: only the warnings.

@@ -66,6 +66,26 @@ struct ReportSensitivity {
   // the method gives none. method_names[m] names method m.
   std::vector<std::string> method_names;
   std::vector<std::vector<double>> method_parity;
+
+  // Which regions' levels can be told apart at one node (the root and each
+  // top-level aggregate), from the intervals of their parity ratios
+  // (uncertainty/pair_ratios.h).
+  struct PairChart {
+    int node = 0;  // classification node index
+    // Regions with a parity at the node, dearest first.
+    std::vector<int> order;
+    // Every pair known: verdict[i * order.size() + j] of order[i] against
+    // order[j] is +1 (dearer), -1 (cheaper), 0 (cannot be told apart), NaN
+    // (no interval or i = j). Empty when only neighbours in rank were
+    // computed.
+    std::vector<double> verdict;
+    // neighbour_apart[k]: 1 when order[k] and order[k + 1] are told apart,
+    // 0 when not, NaN when no interval; order.size() - 1 entries.
+    std::vector<double> neighbour_apart;
+  };
+  std::vector<PairChart> pair_charts;
+  // The level of the pair intervals, e.g. "95 %".
+  std::string pair_level_label;
 };
 
 // Everything the report shows. Pointers may be null where a part was not

@@ -19,6 +19,7 @@
 #include "paritas/output/report.h"
 #include "paritas/survey/survey.h"
 #include "paritas/survey/survey_loader.h"
+#include "paritas/uncertainty/pair_ratios.h"
 
 namespace paritas {
 
@@ -58,6 +59,11 @@ struct SensitivityOptions {
   // and writes them (replicates.bin, replicates_key.csv; see
   // ReplicatesBinary). Default false.
   bool write_replicates = false;
+  // Writes the interval of every pair of regions in pair_ratios.csv (and
+  // draws the full pairwise chart) even above kAllPairsMaxRegions regions;
+  // there only neighbours in rank are computed by default, as R regions
+  // make R (R - 1) / 2 pairs per node. Default false.
+  bool all_pairs = false;
   // Level of the percentile intervals, in (0, 1) exclusive (default 0.95).
   double level = 0.95;
   // Shares of each heading's items kept in the coverage curve, each in
@@ -161,6 +167,10 @@ struct SensitivityResult {
   // replicate; empty unless SensitivityOptions::write_replicates.
   std::vector<double> boot_log_parity;
   int boot_num_replicates_kept = 0;  // B when boot_log_parity is filled
+  // Intervals of parity ratios of pairs of regions (pair_ratios.h) for the
+  // root and each top-level aggregate (PairRatioNodes), from the same
+  // replicates; empty unless the bootstrap ran.
+  std::vector<NodePairRatios> pair_ratios;
 
   // Leave one out. Jackknife standard error of ln parity, stratified by
   // heading: var = sum over the node's headings h of (n_h - 1) / n_h x
@@ -277,6 +287,10 @@ std::string ReplicatesBinary(const SensitivityResult& result);
 // (kind "node") and per region (kind "region"), giving the codes of the
 // indices of replicates.bin.
 std::string ReplicatesKeyCsv(const Survey& survey);
+// The terminal's lines on the pair intervals: per node, how many pairs
+// were computed and how many are told apart, and, when only neighbours in
+// rank were computed, that --all-pairs writes every pair.
+std::string PairRatiosNote(const Survey& survey, const SensitivityResult& result);
 // sensitivity/leave_one_out.csv: node,region,parity,jackknife_log_se,
 // item_log_change,item,num_items_lost,heading_log_change,heading.
 std::string LeaveOneOutCsv(const Survey& survey, const SensitivityResult& result);
@@ -291,11 +305,13 @@ std::string MethodSpreadCsv(const Survey& survey, const SensitivityResult& resul
 std::string SensitivityTable(const Survey& survey, const SensitivityResult& result,
                              const SensitivityOptions& options);
 // The `sensitivity` section of run.json (JSON text): settings, counts,
-// seconds per part and, per coverage level, the median over regions of the
-// root's log_sd.
+// seconds per part, per coverage level the median over regions of the
+// root's log_sd, and per node of pair_ratios.csv the pairs computed and told
+// apart (node codes from `survey` when given, else node indices).
 std::string SensitivityRecordSection(const SensitivityOptions& options,
                                      const SensitivitySummary& summary,
-                                     const SensitivityResult& result);
+                                     const SensitivityResult& result,
+                                     const Survey* survey = nullptr);
 
 // The folder a sensitivity run writes: `<output>/sensitivity`, a run folder
 // of its own (run_folder.h) holding its tables, its report (parities with

@@ -11,6 +11,7 @@
 #ifndef PARITAS_USE_PAIR_COMPARISON_H_
 #define PARITAS_USE_PAIR_COMPARISON_H_
 
+#include <limits>
 #include <string>
 #include <vector>
 
@@ -106,7 +107,42 @@ struct PairComparison {
 
   // Filled by TransitiveUnderEveryMethod (pair --every-method), else empty.
   std::vector<MethodTransitive> by_method;
+
+  // The interval of parity(to) / parity(from) from the sensitivity results
+  // of the same run (LookUpPairInterval); NaN and 0 when none is used.
+  double ratio_lower = std::numeric_limits<double>::quiet_NaN();
+  double ratio_upper = std::numeric_limits<double>::quiet_NaN();
+  int ratio_num_replicates = 0;
+  double ratio_level = 0.0;          // share, e.g. 0.95
+  std::string ratio_run_id;          // the sensitivity run's id
+  std::string ratio_source;          // file of the sensitivity folder read
+  // Why no interval is shown (no sensitivity results, another run's, not
+  // covered); empty when one is shown or none was looked for.
+  std::string ratio_note;
 };
+
+// What LookUpPairInterval found.
+enum class PairIntervalStatus {
+  kFound,       // the interval is in the comparison
+  kNoResults,   // no sensitivity run in the run folder (or without bootstrap)
+  kOtherRun,    // refused: the results belong to another run
+  kNotCovered,  // same run, but it holds no interval for this pair and node
+  kUnreadable,  // a file of the sensitivity folder could not be read
+};
+
+// Looks for the interval of the comparison's ratio parity(to) / parity(from)
+// in <run_folder>/sensitivity: first in pair_ratios.csv (root and top-level
+// aggregates), else from replicates.bin (any node, when written). The
+// results are used only when they are of the same run: the sensitivity run
+// must rest on the same inputs and settings as `this_run_json` (the run
+// record of the comparison; RunDifferences), and when <run_folder>/run.json
+// exists, the sensitivity run must have been made beside that compute run
+// (its compute_run.run_id equals the compute run's run_id). Otherwise the
+// interval is refused with a message saying why. Fills the ratio_* fields
+// of `comparison` (ratio_note when nothing is shown) and returns the status.
+PairIntervalStatus LookUpPairInterval(const std::string& run_folder,
+                                      const std::string& this_run_json, const Survey& survey,
+                                      PairComparison* comparison);
 
 // Compares region `to` with region `from` at `node` (a classification code or
 // a group's; empty = the root). Returns false with a message (unknown region or node,
