@@ -194,7 +194,8 @@ bool ReadRecord(const PublishOptions& options, Json* record, std::string* run_id
   if (!ReadRunRecord(options.run_dir, run_id, &json, error)) return false;
   *record = Json::parse(json, nullptr, /*allow_exceptions=*/false);
   const std::string command = record->value("command", "");
-  if (command != "compute") {
+  // A carried run (paritas carry) is a run folder of the same layout.
+  if (command != "compute" && command != "carry") {
     *error = (fs::path(options.run_dir) / "run.json").string() + ": a record of '" + command +
              "', not of compute; give the output folder of 'paritas compute'";
     return false;
