@@ -501,6 +501,17 @@ int RunCarry(const CarryOptions& options, CarrySummary* summary) {
   return kExitOk;
 }
 
+std::string CarriedRunNote(const std::string& run_dir) {
+  std::string run_id, json, error;
+  if (!ReadRunRecord(run_dir, &run_id, &json, &error)) return "";
+  const Json record = Json::parse(json, nullptr, /*allow_exceptions=*/false);
+  if (!record.is_object() || record.value("command", "") != "carry") return "";
+  const Json carry = record.value("carry", Json::object());
+  if (!carry.is_object()) return "";
+  return "the parities of " + run_dir + " are extrapolated to period '" +
+         carry.value("period", "") + "' (paritas carry): " + carry.value("caution", "");
+}
+
 std::string CarrySummary::FullReport() const {
   std::string out = "EXTRAPOLATED: " + ExtrapolationCaution(benchmark_run_id, period) + ".\n\n";
   int64_t carried_pairs = 0;

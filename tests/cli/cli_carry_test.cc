@@ -4,6 +4,7 @@
 // exact messages.
 #include <gtest/gtest.h>
 
+#include <algorithm>
 #include <cmath>
 #include <cstdio>
 #include <map>
@@ -11,6 +12,7 @@
 
 #include "paritas/base/csv.h"
 #include "paritas/base/text.h"
+#include "paritas/use/publication.h"
 #include "synthetic_survey.h"
 #include "test_util.h"
 
@@ -207,9 +209,32 @@ TEST(CarryCommand, EqualIndicesLeaveTheDemosParitiesUnchanged) {
     compared += std::isfinite(parity) ? 1 : 0;
   }
   EXPECT_GT(compared, 16 * 30);
-  // publish reads the carried folder like a compute run's.
-  ASSERT_EQ(RunCli("publish " + dir + "/carried --csv " + dir + "/levels.csv", &out, &err), 0)
+  // publish reads the carried folder like a compute run's and says it is
+  // extrapolated in every title and first among the cautions.
+  PublishOptions publish;
+  publish.run_dir = dir + "/carried";
+  publish.csv_path = dir + "/levels.csv";
+  PublishSummary published;
+  ASSERT_TRUE(Publish(publish, &published)) << published.message;
+  EXPECT_EQ(published.tables[0].title,
+            "Price level indices (geometric mean of the regions = 100), extrapolated to period "
+            "'2026' by price indices (not measured)");
+  const std::vector<std::string> notes = published.notes.Lines(1, PublicationOrder::kCode);
+  const auto cautions = std::find(notes.begin(), notes.end(), "Cautions");
+  ASSERT_NE(cautions, notes.end());
+  EXPECT_EQ((cautions + 1)->rfind("Extrapolated: every parity of this run is extrapolated", 0),
+            0u);
+  // deflate says so on the terminal.
+  ASSERT_EQ(RunCli("deflate --parities " + dir + "/carried --input " +
+                       SourcePath("data/demo/wages.csv") + " --value-column hourly_wage " +
+                       "--output " + dir + "/wages_real.csv",
+                   &out, &err),
+            0)
       << err;
+  EXPECT_NE(out.find("note: the parities of " + dir + "/carried are extrapolated to period "
+                     "'2026' (paritas carry): every parity"),
+            std::string::npos)
+      << out;
 }
 
 // Generated data: year 1 is year 0 with every quote of region r in heading h

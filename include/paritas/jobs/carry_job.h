@@ -82,6 +82,11 @@ struct CarrySummary {
 // The caution every carried run carries (terminal, report, run.json).
 std::string ExtrapolationCaution(const std::string& benchmark_run_id, const std::string& period);
 
+// For the commands that read a finished run folder (deflate): when `run_dir`
+// holds a carried run, "the parities of <dir> are extrapolated to period
+// '<P>' (paritas carry): <caution>"; "" for a compute run or no record.
+std::string CarriedRunNote(const std::string& run_dir);
+
 // Carries the benchmark to the period and writes the folder: parities.csv
 // (with the column extrapolated_to), contributions.csv, warnings.csv,
 // carried_headings.csv, matrix/ and bilateral/ of the root, report.html and
