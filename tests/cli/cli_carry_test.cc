@@ -170,7 +170,20 @@ TEST(CarryCommand, RefusesWhatItCannotCarryWithExactMessages) {
                    &out, &err),
             1);
   EXPECT_EQ(err, "paritas: error: --missing-index must be one of: stop, country; found 'guess'\n");
-  // A carried run is not a benchmark.
+  // The benchmark's survey files must be those it read.
+  const std::string prices = ReadTextFile(dir + "/prices.csv");
+  WriteTextFile(dir + "/prices.csv", prices + "b,i2,21\n");
+  EXPECT_EQ(RunCli("carry " + bench + " --indices " + dir + "/partial.csv --output " + dir + "/e",
+                   &out, &err),
+            1);
+  EXPECT_EQ(err.rfind("paritas: error: " + dir + "/prices.csv: not the prices file the benchmark "
+                      "run read (SHA-256 ",
+                      0),
+            0u)
+      << err;
+  EXPECT_NE(err.find("now); carry needs the benchmark's own survey\n"), std::string::npos) << err;
+  WriteTextFile(dir + "/prices.csv", prices);
+    // A carried run is not a benchmark.
   EXPECT_EQ(RunCli("carry " + dir + "/c --indices " + dir + "/partial.csv --output " + dir + "/d",
                    &out, &err),
             1);
