@@ -111,8 +111,9 @@ TEST(CarryCommand, CarriesATwoRegionSurveyAsComputedByHand) {
   const std::string record = ReadTextFile(dir + "/carried/run.json");
   EXPECT_NE(record.find("\"command\": \"carry\""), std::string::npos);
   EXPECT_NE(record.find("\"extrapolated\": true"), std::string::npos);
-  EXPECT_NE(ReadTextFile(dir + "/carried/report.html").find("<h2>Extrapolated parities</h2>"),
-            std::string::npos);
+  const std::string report = ReadTextFile(dir + "/carried/report.html");
+  EXPECT_NE(report.find("<h2>Extrapolated parities</h2>"), std::string::npos);
+  EXPECT_NE(report.find("<dt>Carried to a later period (in use)</dt>"), std::string::npos);
 }
 
 // The later period's expenditure: shares a (0.3, 0.7), b (0.8, 0.2).
