@@ -76,6 +76,19 @@ struct CompareArguments {
   std::optional<std::string> z;
 };
 int RunCompareCommand(const CompareArguments& arguments);
+// Arguments of `carry` as typed; the command parses and checks them.
+struct CarryArguments {
+  std::string benchmark_dir;
+  std::string indices;
+  std::string period;
+  std::string output;
+  std::string expenditure;
+  std::string config;
+  std::optional<std::string> missing_index;
+  std::optional<std::string> threads;
+  bool no_report = false;
+};
+int RunCarryCommand(const CarryArguments& arguments);
 
 // Loads the configuration and applies the command-line overrides. Returns
 // false after printing the problem.

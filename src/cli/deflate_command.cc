@@ -3,6 +3,7 @@
 #include <iostream>
 
 #include "cli/commands.h"
+#include "paritas/jobs/carry_job.h"
 #include "paritas/use/deflation.h"
 #include "paritas/jobs/jobs.h"
 #include "paritas/base/text.h"
@@ -22,6 +23,9 @@ int RunDeflateCommand(const DeflateOptions& given, const Overrides& overrides) {
     return kExitInvalidInput;
   }
   PrintOut(summary.BriefReport() + "\n");
+  if (const std::string note = CarriedRunNote(options.parities_dir); !note.empty()) {
+    PrintOut("note: " + note + "\n");
+  }
   if (!summary.rejected_rows.empty()) {
     PrintOut("rejected rows (listed in " + summary.rejected_path + "):\n");
     for (const RejectedRow& row : summary.rejected_rows) PrintOut("  " + row.reason + "\n");

@@ -241,6 +241,32 @@ int main(int argc, char** argv) {
       ->type_name("NUMBER");
   compare->footer(HelpFooter("paritas compare out/last-year out/demo --output out/changes"));
 
+  paritas::cli::CarryArguments carry_arguments;
+  CLI::App* carry = app.add_subcommand(
+      "carry", "carry a benchmark run's parities to a later period with regional price indices");
+  carry->add_option("benchmark", carry_arguments.benchmark_dir,
+                    "output folder of compute for the benchmark period")
+      ->required();
+  carry->add_option("--indices", carry_arguments.indices,
+                    "price index file: region,node,period,index (benchmark period = reference)")
+      ->required();
+  carry->add_option("--period", carry_arguments.period,
+                    "period of the index file to carry to (default: the file's only period)");
+  carry->add_option("--output", carry_arguments.output, "folder of the carried run")->required();
+  carry->add_option("--expenditure", carry_arguments.expenditure,
+                    "expenditure of the later period, region,heading,expenditure (default: "
+                    "aggregate with the benchmark's weights)");
+  carry->add_option("--missing-index", carry_arguments.missing_index,
+                    "a region and heading without an index: stop or country (moved as the "
+                    "country; default stop)");
+  carry->add_option("--config", carry_arguments.config,
+                    "configuration of the benchmark run (default: the one its run.json names)");
+  carry->add_option("--threads", carry_arguments.threads,
+                    "threads for reading the benchmark's survey, 0 = all cores (default 0)");
+  carry->add_flag("--no-report", carry_arguments.no_report, "do not write report.html");
+  carry->footer(HelpFooter(
+      "paritas carry out/demo --indices data/demo/price_indices.csv --output out/demo-2026"));
+
   try {
     app.parse(argc, argv);
   } catch (const CLI::CallForHelp& e) {
@@ -278,6 +304,7 @@ int main(int argc, char** argv) {
   }
   if (publish->parsed()) return paritas::cli::RunPublishCommand(publish_arguments);
   if (compare->parsed()) return paritas::cli::RunCompareCommand(compare_arguments);
+  if (carry->parsed()) return paritas::cli::RunCarryCommand(carry_arguments);
   if (pair->parsed()) {
     return paritas::cli::RunPairCommand(config_path, overrides, pair_from, pair_to, pair_node, pair_csv,
                                         pair_every_method);

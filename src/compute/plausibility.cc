@@ -33,6 +33,7 @@ constexpr KindLabel kKinds[] = {
     {"large-spread", "large Paasche-Laspeyres spread"},
     {"gross-outlier", "gross outlier"},
     {"sensitivity", "sensitivity"},
+    {"extrapolated", "extrapolated parities"},
 };
 
 std::string Fixed(double value, int decimals) { return FormatFixed(value, decimals); }

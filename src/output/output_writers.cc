@@ -103,7 +103,8 @@ std::string NodeTitle(const Classification& classification, int node) {
 }
 
 std::string ParitiesCsv(const Survey& survey, const ParityResult& result,
-                        const PlausibilityResult* plausibility) {
+                        const PlausibilityResult* plausibility,
+                        const std::string& extrapolated_to) {
   const int num_regions = survey.num_regions();
   const int64_t num_rows = static_cast<int64_t>(result.nodes.size()) * num_regions;
   const auto& tree = survey.classification.nodes();
@@ -130,6 +131,8 @@ std::string ParitiesCsv(const Survey& survey, const ParityResult& result,
     label_fields[n] += ',';
     AppendCsvField(tree[n].label, &label_fields[n]);
   }
+  std::string extrapolated_field;
+  AppendCsvField(extrapolated_to, &extrapolated_field);
   return FormatRows(
       num_rows, kRowsPerBlock, 160,
       [&](int64_t row, std::string* out) {
@@ -173,12 +176,17 @@ std::string ParitiesCsv(const Survey& survey, const ParityResult& result,
           *out += ',';
           AppendCsvField(plausibility->node_region_kinds[node.node][r], out);
         }
+        if (!extrapolated_to.empty()) {
+          *out += ',';
+          *out += extrapolated_field;
+        }
         *out += '\n';
       },
       std::string("node,kind,region,parity,expenditure,real_expenditure,real_per_capita_index,"
                   "log_se,log_se_robust,rank,num_items,num_quotes,num_headings,source,"
                   "share_priced,share_imputed,share_external,label") +
-          (plausibility != nullptr ? ",basket_share,warnings\n" : "\n"));
+          (plausibility != nullptr ? ",basket_share,warnings" : "") +
+          (extrapolated_to.empty() ? "\n" : ",extrapolated_to\n"));
 }
 
 std::string ParityMatrixCsv(const Survey& survey, const NodeResult& node) {

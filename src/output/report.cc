@@ -93,6 +93,10 @@ std::string Sections(const Context& ctx) {
   const bool has_contributions = ctx.in.contributions != nullptr && !ctx.order.empty();
   std::string out = Navigation(has_bilaterals, !ctx.root.tree.empty(), ctx.in.outliers != nullptr,
                                ctx.in.sensitivity != nullptr, has_groups, has_contributions);
+  if (!ctx.in.extrapolation_caution.empty()) {
+    out += "<section id=\"extrapolated\"><h2>Extrapolated parities</h2><ul class=\"cautions\"><li>" +
+           HtmlEscape(ctx.in.extrapolation_caution) + "</li></ul></section>\n";
+  }
   out += report::Overview(ctx);
   std::vector<RegionSpread> spreads;
   if (has_bilaterals) spreads = RegionSpreads(result.bilaterals.front());

@@ -78,6 +78,13 @@ std::string MethodsSection(const Context& ctx) {
   const ElementaryMethod* elementary = FindElementaryMethod(c != nullptr ? c->elementary : "cpd");
   const AggregationMethod* aggregation = FindAggregationMethod(c != nullptr ? c->aggregation : "geks-fisher");
   out += "<dl class=\"methods\">";
+  if (!ctx.in.extrapolation_caution.empty()) {
+    out += "<dt>Carried to a later period (in use)</dt><dd>The basic heading parities are the "
+           "benchmark run's, each moved by its region's price index relative to the country's "
+           "(<code>carried_headings.csv</code>), and aggregated below with the benchmark's "
+           "methods; the cell prices and the elementary method describe the benchmark, whose own "
+           "report shows its quotes.</dd>";
+  }
   out += "<dt>Cell prices</dt><dd>The quotes of one item in one region are averaged geometrically into a cell price; "
          "the geometric mean is the common practice for elementary price indices (ILO et al., <i>Consumer Price "
          "Index Manual</i>, 2004, ch. 20).</dd>";

@@ -194,7 +194,8 @@ bool ReadRecord(const PublishOptions& options, Json* record, std::string* run_id
   if (!ReadRunRecord(options.run_dir, run_id, &json, error)) return false;
   *record = Json::parse(json, nullptr, /*allow_exceptions=*/false);
   const std::string command = record->value("command", "");
-  if (command != "compute") {
+  // A carried run (paritas carry) is a run folder of the same layout.
+  if (command != "compute" && command != "carry") {
     *error = (fs::path(options.run_dir) / "run.json").string() + ": a record of '" + command +
              "', not of compute; give the output folder of 'paritas compute'";
     return false;
@@ -331,6 +332,11 @@ void FillNotes(const Json& record, const std::string& run_id, const std::string&
                              " (SHA-256 " + input.value("sha256", "") + ")");
   }
   if (intervals) notes->interval = IntervalNote(run_dir);
+  const Json carry = record.value("carry", Json::object());
+  if (carry.is_object()) {
+    notes->extrapolation = RecordText(carry, "caution");
+    notes->extrapolated_to = RecordText(carry, "period");
+  }
 }
 
 // Outputs may neither be inputs nor lie inside the run folder.
@@ -527,6 +533,12 @@ bool Publish(const PublishOptions& options, PublishSummary* summary) {
       RecordText(record.value("configuration", Json::object()), "reference");
   BuildTables(options, config, figures, names, reference, summary);
   FillNotes(record, summary->run_id, options.run_dir, intervals, &summary->notes);
+  if (!summary->notes.extrapolated_to.empty()) {
+    for (PublicationTable& table : summary->tables) {
+      table.title += ", extrapolated to period '" + summary->notes.extrapolated_to +
+                     "' by price indices (not measured)";
+    }
+  }
   if (!WriteFiles(options, summary, &error)) return fail(error);
   summary->outcome = PublishOutcome::kOk;
   summary->message = "ok";

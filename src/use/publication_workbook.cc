@@ -199,7 +199,7 @@ std::vector<std::string> PublicationNotes::Lines(int decimals, PublicationOrder 
                     "; they reflect the sampling of items only, not of outlets or of the "
                     "expenditure weights.");
   }
-  const std::vector<std::string> cautions = {
+  std::vector<std::string> cautions = {
       "",
       "Cautions",
       "Sampling error: the parities rest on a sample of items and outlets; differences of a few "
@@ -213,6 +213,9 @@ std::vector<std::string> PublicationNotes::Lines(int decimals, PublicationOrder 
       "",
       "Sources",
   };
+  if (!extrapolation.empty()) {
+    cautions.insert(cautions.begin() + 2, "Extrapolated: " + extrapolation + ".");
+  }
   lines.insert(lines.end(), cautions.begin(), cautions.end());
   for (const std::string& source : sources) lines.push_back(source);
   lines.push_back("");

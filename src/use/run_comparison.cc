@@ -205,6 +205,16 @@ std::string CommandOf(const std::string& json) {
   return value.is_string() ? value.get<std::string>() : "";
 }
 
+// The period a carried run (paritas carry) was extrapolated to, with its
+// benchmark run id; both empty for a run of compute.
+std::pair<std::string, std::string> CarriedTo(const std::string& json) {
+  const auto record = nlohmann::json::parse(json, nullptr, /*allow_exceptions=*/false);
+  if (!record.is_object()) return {};
+  const auto carry = record.value("carry", nlohmann::json::object());
+  if (!carry.is_object()) return {};
+  return {carry.value("period", ""), carry.value("benchmark_run_id", "")};
+}
+
 // Reads one folder; `label` ("old", "new") names it in messages.
 bool ReadRun(const std::string& dir, const std::string& label, RunData* run,
              std::vector<std::string>* statements, std::string* error) {
@@ -220,7 +230,8 @@ bool ReadRun(const std::string& dir, const std::string& label, RunData* run,
     return false;
   }
   const std::string command = CommandOf(run->json);
-  if (command != "compute") {
+  // A carried run (paritas carry) is a run folder of the same layout.
+  if (command != "compute" && command != "carry") {
     *error =
         label + " run '" + dir + "': run.json records the command '" + command + "', not 'compute'";
     return false;
@@ -305,6 +316,35 @@ void Statements(const RunData& old_run, const RunData& new_run, RunComparison* o
         "reference " + old_run.reference + " with regions in one run only: the mean the " +
         "parities are relative to moved with the regions, so every parity shifts with it");
   }
+}
+
+// When a run is carried (paritas carry), its changes against a benchmark are
+// the extrapolation's drift: said, with its size at the summary node.
+void AddDriftStatement(const RunData& old_run, const RunData& new_run, RunComparison* out) {
+  const auto [old_period, old_benchmark] = CarriedTo(old_run.json);
+  const auto [new_period, new_benchmark] = CarriedTo(new_run.json);
+  if (old_period.empty() && new_period.empty()) return;
+  if (!old_period.empty() && !new_period.empty()) {
+    out->statements.push_back("both runs are extrapolated (paritas carry): their changes compare "
+                              "two extrapolations, not an extrapolation with a benchmark");
+    return;
+  }
+  const bool old_carried = !old_period.empty();
+  const DriftSummary drift = SummariseDrift(*out, out->summary_node);
+  std::string text = std::string("the ") + (old_carried ? "old" : "new") +
+                     " run is extrapolated (paritas carry) from benchmark run " +
+                     (old_carried ? old_benchmark : new_benchmark) + " to period '" +
+                     (old_carried ? old_period : new_period) + "'; the " +
+                     (old_carried ? "new" : "old") +
+                     " run is taken as the benchmark it is checked against, so each change is " +
+                     "the drift of the extrapolation (ln(benchmark / extrapolated) per region in " +
+                     "changes.csv" + (old_carried ? "" : ", with the sign reversed") + ")";
+  if (drift.num_regions > 0) {
+    text += "; at '" + drift.node + "': rms " + FormatFixed(100.0 * drift.rms_log, 2) +
+            " log points x100 over " + std::to_string(drift.num_regions) + " regions, largest " +
+            FormatFixed(100.0 * drift.largest_log, 2) + " ('" + drift.largest_region + "')";
+  }
+  out->statements.push_back(text);
 }
 
 // The union of two lists, first's order, then the second's new entries.
@@ -529,10 +569,28 @@ bool CompareRuns(const CompareOptions& options, RunComparison* comparison,
     }
   }
   AddDrivers(old_run, new_run, &out);
+  AddDriftStatement(old_run, new_run, &out);
   summary->num_changes = static_cast<int>(out.changes.size());
   summary->outcome = CompareOutcome::kOk;
   summary->message = "ok";
   return true;
+}
+
+DriftSummary SummariseDrift(const RunComparison& comparison, const std::string& node) {
+  DriftSummary drift;
+  drift.node = node;
+  double sum_squares = 0.0;
+  for (const ParityChange& c : comparison.changes) {
+    if (c.node != node || !std::isfinite(c.log_change)) continue;
+    ++drift.num_regions;
+    sum_squares += c.log_change * c.log_change;
+    if (drift.largest_region.empty() || std::abs(c.log_change) > std::abs(drift.largest_log)) {
+      drift.largest_region = c.region;
+      drift.largest_log = c.log_change;
+    }
+  }
+  drift.rms_log = drift.num_regions > 0 ? std::sqrt(sum_squares / drift.num_regions) : kNaN;
+  return drift;
 }
 
 std::string ChangesCsv(const RunComparison& comparison) {

@@ -187,7 +187,7 @@ TEST(CliHelp, EveryCommandShowsDefaultsExitCodesAndAnExample) {
       "  2  computation failed\n"
       "  3  warnings or gross outliers under --strict (compute, sensitivity)\n";
   for (const std::string command :
-       {"", "check", "compute", "sensitivity", "deflate", "pair", "publish", "compare"}) {
+       {"", "check", "compute", "sensitivity", "deflate", "pair", "publish", "compare", "carry"}) {
     const CliRun run = RunCli(command + " --help", dir);
     EXPECT_EQ(run.exit_code, 0) << command;
     EXPECT_EQ(run.err, "") << command;

@@ -46,6 +46,8 @@ struct RunWarning {
 //   large-spread        large Paasche-Laspeyres spreads
 //   gross-outlier       cells or quotes far from the price the survey predicts
 //   sensitivity         what the sensitivity parts met (replicates, method runs)
+//   extrapolated        parities carried from a benchmark by price indices
+//                       (paritas carry), and regions moved as the country
 std::vector<std::string> WarningKinds();
 // The label of a kind for people ("partial basket"); the kind itself when unknown.
 std::string WarningLabel(const std::string& kind);

@@ -48,8 +48,12 @@ std::string NodeTitle(const Classification& classification, int node);
 // num_items, num_quotes, num_headings, label (the node's, empty when none).
 // `plausibility` (may be null) adds the columns basket_share and warnings
 // (the kinds of the warnings about the node and region, ';'-joined).
+// `extrapolated_to` not empty (runs of `paritas carry`) adds a last column
+// `extrapolated_to` holding it on every row: the period the benchmark's
+// parities were carried to, so no row can be read as a benchmark figure.
 std::string ParitiesCsv(const Survey& survey, const ParityResult& result,
-                        const PlausibilityResult* plausibility = nullptr);
+                        const PlausibilityResult* plausibility = nullptr,
+                        const std::string& extrapolated_to = "");
 
 // matrix/<node>.csv: header `region,` then the region codes (regions with a
 // parity); cell (a, b) = 100 x parity(b) / parity(a).

@@ -114,6 +114,10 @@ struct ReportInputs {
   // Region explained heading by heading in that section (a code); empty =
   // the dearest at the root.
   std::string explain_region;
+  // Runs of `paritas carry`: the caution shown first on the page, in a box
+  // of its own ("Extrapolated parities"), that every figure was carried
+  // from a benchmark by price indices. Empty (default) = a survey run.
+  std::string extrapolation_caution;
 };
 
 // Regions and cells shown individually in the grids (region x aggregate,

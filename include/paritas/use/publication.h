@@ -96,6 +96,11 @@ struct PublicationNotes {
   // Interval sentence when intervals are shown ("95 % bootstrap interval,
   // 500 replicates, sensitivity run <id>"), empty otherwise.
   std::string interval;
+  // A run of `paritas carry`: run.json's caution (the parities are carried
+  // from a benchmark by price indices), the first of the cautions; and the
+  // period, named in every table's title. Both empty for a compute run.
+  std::string extrapolation;
+  std::string extrapolated_to;
   // Every line of the notes sheet, in order (methods, reference, cautions,
   // sources, run id).
   std::vector<std::string> Lines(int decimals, PublicationOrder order) const;

@@ -150,6 +150,22 @@ struct CompareSummary {
 // read, or when the runs have no common scale; never aborts on data.
 bool CompareRuns(const CompareOptions& options, RunComparison* comparison, CompareSummary* summary);
 
+// The drift of parities carried from a benchmark (paritas carry) away from
+// a new benchmark: with the carried run as OLD and the new benchmark as NEW,
+// each region's change ln(new / old) at a node is its drift there
+// (changes.csv holds it for every node and region).
+struct DriftSummary {
+  std::string node;
+  int num_regions = 0;  // regions with a parity in both runs
+  // Root mean square of ln(new / old) over those regions; NaN when none.
+  double rms_log = 0.0;
+  // The region drifting most and its ln(new / old).
+  std::string largest_region;
+  double largest_log = 0.0;
+};
+// Summarises the drift at `node` from a comparison's changes.
+DriftSummary SummariseDrift(const RunComparison& comparison, const std::string& node);
+
 // changes.csv: node,kind,region,presence,parity_old,parity_new,
 // percent_change,log_change,rank_old,rank_new,rank_change,log_se_old,
 // log_se_new,threshold,beyond_uncertainty (rank_change = rank_old -
