@@ -106,3 +106,22 @@ def test_deflate_bad_value_row_names_the_frame_file(tmp_path, demo_cli_run):
     with pytest.raises(paritas.InvalidInput) as caught:
         paritas.deflate(frame, demo_cli_run, ["income"], name="incomes")
     assert caught.value.rejected_rows["reason"].tolist()[0].startswith("incomes.csv:3:1: ")
+
+
+def test_unlinked_heading_raises_computation_failed_with_the_command_line_text(tmp_path):
+    # Regions a, b price only x and c, d only y: the heading's two groups
+    # share no item, so their parities are not identified.
+    (tmp_path / "prices.csv").write_text(
+        "region,item,price\na,x,1.0\nb,x,2.0\nc,y,3.0\nd,y,4.0\n")
+    (tmp_path / "expenditure.csv").write_text(
+        "region,heading,expenditure\na,h,1\nb,h,1\nc,h,1\nd,h,1\n")
+    (tmp_path / "items.csv").write_text(ITEMS)
+    (tmp_path / "config.yaml").write_text(CONFIG)
+    code, _, err = run_cli("compute", "config.yaml", cwd=tmp_path)
+    with pytest.raises(paritas.ComputationFailed) as caught:
+        paritas.compute(tmp_path / "config.yaml")
+    assert code == 2
+    assert err == "paritas: error: " + str(caught.value) + "\n"
+    assert str(caught.value).startswith(
+        "heading 'h' is not linked: its regions fall into 2 groups that share no item: ")
+    assert caught.value.exit_code == 2

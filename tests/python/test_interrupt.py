@@ -9,8 +9,11 @@ import time
 
 from conftest import DEMO_CONFIG
 
+# Python's own Ctrl-C handler, as in an interactive session (a shell that
+# starts the tests in the background may have left SIGINT ignored).
 SCRIPT = f"""
-import sys, time, paritas
+import signal, sys, time, paritas
+signal.signal(signal.SIGINT, signal.default_int_handler)
 print("started", flush=True)
 start = time.monotonic()
 try:
