@@ -46,7 +46,7 @@ __all__ = [
 # that a code such as "01" or "NA" stays as written.
 _TEXT_COLUMNS = {
     "node", "kind", "region", "label", "warnings", "from", "to", "heading", "item",
-    "measure", "value", "file", "reason", "raw", "text", "source", "valued_at",
+    "measure", "file", "reason", "raw", "text", "source", "valued_at",
     "elementary", "aggregation", "method", "part", "name", "region_name",
 }
 
@@ -493,7 +493,7 @@ def deflate(frame: pd.DataFrame, parities: Union[str, os.PathLike, ComputeResult
             with open(os.path.join(parities_dir, "parities.csv"), "w", encoding="utf-8") as f:
                 f.write(parities.files["parities.csv"])
         else:
-            parities_dir = os.fspath(parities)
+            parities_dir = os.path.abspath(os.fspath(parities))  # the call runs in `folder`
         input_path = os.path.join(folder, name + ".csv")
         # repr-exact floats: pandas writes the shortest text that reads back.
         frame.to_csv(input_path, index=False)

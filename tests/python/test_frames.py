@@ -141,3 +141,11 @@ def test_sensitivity_tables_equal_command_line(tmp_path):
     for name in ["bootstrap.csv", "leave_one_out.csv", "warnings.csv"]:
         assert result.files[name].encode() == read_bytes(out / "sensitivity" / name), name
     assert "bootstrap.csv" in result.tables
+
+
+def test_deflate_takes_a_parities_folder_relative_to_the_working_folder(demo_cli_run, monkeypatch):
+    frame = pd.DataFrame({"region": ["cap"], "income": [1000.0]})
+    by_absolute = paritas.deflate(frame, demo_cli_run, ["income"])
+    monkeypatch.chdir(demo_cli_run.parent)
+    by_relative = paritas.deflate(frame, demo_cli_run.name, ["income"])
+    pdt.assert_frame_equal(by_relative, by_absolute, check_exact=True)
