@@ -39,7 +39,8 @@ __version__ = _paritas.__version__
 __all__ = [
     "ParitasError", "InvalidInput", "ComputationFailed", "RunWarning",
     "CheckResult", "ComputeResult", "PairResult", "SensitivityResult",
-    "check", "compute", "pair", "deflate", "sensitivity", "read_table",
+    "CompareResult", "check", "compute", "pair", "deflate", "sensitivity", "compare",
+    "read_table",
 ]
 
 # Columns that hold codes or text in the library's tables: read as strings so
@@ -567,3 +568,33 @@ def sensitivity(config: Union[str, os.PathLike, None] = None, *, prices: Union[p
     return SensitivityResult(tables=tables, warnings=_warnings(outcome),
                              record=json.loads(files["run.json"]), report=outcome["report"],
                              files=files)
+
+
+@dataclass
+class CompareResult:
+    """Two compute runs compared (`paritas compare`): changes.csv and
+    drivers.csv as DataFrames, and the summary the command prints."""
+
+    changes: pd.DataFrame
+    drivers: pd.DataFrame
+    table: str
+
+
+def compare(old: Union[str, os.PathLike], new: Union[str, os.PathLike], *, node: str = "",
+            top: int = 10, z: float = 1.96) -> CompareResult:
+    """Compares two output folders of compute (`paritas compare`); writes nothing.
+
+    Args:
+        old, new: output folders of the earlier and the later run
+            (compute(..., write=True) or the command line).
+        node: node of the printed summary (default "" = the root).
+        top: regions listed in the summary, 1 to 1000.
+        z: multiplier of the combined standard error beyond which a change
+            counts as larger than the runs' uncertainty (default 1.96).
+
+    Raises:
+        InvalidInput: a folder is not a run of compute, or an option is out of range.
+    """
+    outcome = _raise_unless_ok(_paritas.compare(os.fspath(old), os.fspath(new), node, top, z))
+    return CompareResult(changes=read_table(outcome["changes"]),
+                         drivers=read_table(outcome["drivers"]), table=outcome["table"])

@@ -195,3 +195,17 @@ def sensitivity(
     write: bool = ...,
     **options: Any,
 ) -> SensitivityResult: ...
+
+class CompareResult:
+    changes: pd.DataFrame
+    drivers: pd.DataFrame
+    table: str
+
+def compare(
+    old: _Path,
+    new: _Path,
+    *,
+    node: str = ...,
+    top: int = ...,
+    z: float = ...,
+) -> CompareResult: ...

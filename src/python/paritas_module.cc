@@ -21,6 +21,7 @@
 #include "paritas/compute/compute.h"
 #include "paritas/elementary/elementary_method.h"
 #include "paritas/aggregation/aggregation_method.h"
+#include "paritas/jobs/compare_job.h"
 #include "paritas/jobs/jobs.h"
 #include "paritas/survey/config.h"
 #include "paritas/survey/survey_loader.h"
@@ -435,6 +436,29 @@ py::dict Sensitivity(const std::string& config_path, const py::dict& options,
   return out;
 }
 
+py::dict Compare(const std::string& old_dir, const std::string& new_dir, const std::string& node,
+                 int top, double z) {
+  CompareOptions options;
+  options.old_dir = old_dir;
+  options.new_dir = new_dir;
+  options.node = node;
+  options.num_movers = top;
+  options.z = z;
+  RunComparison comparison;
+  CompareSummary summary;
+  std::string text;
+  int code = kExitInvalidInput;
+  RunInterruptibly([&] { code = RunCompare(options, &comparison, &summary, &text); }, nullptr);
+  if (code != kExitOk) return Failure(code, summary.message);
+  py::dict out;
+  out["ok"] = true;
+  out["exit_code"] = code;
+  out["table"] = text;
+  out["changes"] = ChangesCsv(comparison);
+  out["drivers"] = DriversCsv(comparison);
+  return out;
+}
+
 }  // namespace
 }  // namespace paritas::python
 
@@ -449,5 +473,7 @@ PYBIND11_MODULE(_paritas, m) {
   m.def("deflate", &DeflateFile, py::arg("options"));
   m.def("sensitivity", &Sensitivity, py::arg("config_path"), py::arg("options"),
         py::arg("sensitivity"), py::arg("write_files"));
+  m.def("compare", &Compare, py::arg("old_dir"), py::arg("new_dir"), py::arg("node"),
+        py::arg("top"), py::arg("z"));
   m.def("option_names", &OptionNames);
 }

@@ -149,3 +149,25 @@ def test_deflate_takes_a_parities_folder_relative_to_the_working_folder(demo_cli
     monkeypatch.chdir(demo_cli_run.parent)
     by_relative = paritas.deflate(frame, demo_cli_run.name, ["income"])
     pdt.assert_frame_equal(by_relative, by_absolute, check_exact=True)
+
+
+def test_compare_tables_equal_command_line_files(tmp_path, demo_cli_run):
+    # The demo against itself under another aggregation method.
+    other = tmp_path / "gk"
+    paritas.compute(DEMO_CONFIG, aggregation="geary-khamis", write=True, output=str(other))
+    out = tmp_path / "cmp"
+    code, _, err = run_cli("compare", str(demo_cli_run), str(other), "--output", str(out))
+    assert code == 0, err
+    result = paritas.compare(demo_cli_run, other)
+    for name, frame in [("changes.csv", result.changes), ("drivers.csv", result.drivers)]:
+        pdt.assert_frame_equal(frame, paritas.read_table((out / name).read_text()),
+                               check_exact=True)
+    assert len(result.changes) > 0
+
+
+def test_compare_of_a_folder_that_is_no_run_raises_invalid_input(tmp_path, demo_cli_run):
+    code, _, err = run_cli("compare", str(demo_cli_run), str(tmp_path))
+    with pytest.raises(paritas.InvalidInput) as caught:
+        paritas.compare(demo_cli_run, tmp_path)
+    assert code == 1
+    assert err == "paritas: error: " + str(caught.value) + "\n"

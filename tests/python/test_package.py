@@ -18,7 +18,7 @@ def stub_functions():
 
 def test_every_public_function_has_a_stub_with_its_parameters():
     stubs = stub_functions()
-    for name in ["check", "compute", "pair", "deflate", "sensitivity", "read_table"]:
+    for name in ["check", "compute", "pair", "deflate", "sensitivity", "compare", "read_table"]:
         stub = stubs[name]
         listed = {a.arg for a in stub.args.args + stub.args.kwonlyargs}
         real = inspect.signature(getattr(paritas, name)).parameters.values()
@@ -28,7 +28,7 @@ def test_every_public_function_has_a_stub_with_its_parameters():
 
 
 def test_every_public_function_has_a_docstring_with_its_arguments():
-    for name in ["check", "compute", "pair", "deflate", "sensitivity"]:
+    for name in ["check", "compute", "pair", "deflate", "sensitivity", "compare"]:
         doc = inspect.getdoc(getattr(paritas, name))
         assert doc and "Args:" in doc, name
 
