@@ -312,7 +312,8 @@ std::string ComputeRunJson(const RunConfig& config, const ComputeJobSummary& sum
 
 }  // namespace
 
-int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
+int RunCompute(const RunConfig& config, ComputeJobSummary* summary,
+               const JobOutputOptions& output) {
   *summary = ComputeJobSummary();
   auto fail = [&](int code, const std::string& message) {
     summary->exit_code = code;
@@ -321,7 +322,7 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
   };
   std::string error;
   PathGuard guard = GuardInputsOf(config);
-  guard.AddOutputFolder(config.output, "output folder");
+  if (output.write_files) guard.AddOutputFolder(config.output, "output folder");
   if (!guard.Check(&error)) return fail(kExitInvalidInput, error);
   if (!LoadSurvey(config, LoadOptionsFor(config), &summary->survey, &summary->load)) {
     return fail(kExitInvalidInput, summary->load.message);
@@ -417,7 +418,10 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
   summary->run_id = NewRunId();
   files.push_back({"run.json", ComputeRunJson(config, *summary, files)});
   RunFolderSummary written;
-  if (!WriteRunFolder(config.output, files, &written, &error)) return fail(kExitInvalidInput, error);
+  if (output.write_files && !WriteRunFolder(config.output, files, &written, &error)) {
+    return fail(kExitInvalidInput, error);
+  }
+  summary->files = std::move(files);
   return summary->exit_code;
 }
 

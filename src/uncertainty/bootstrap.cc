@@ -58,6 +58,8 @@ Replicates RunReplicates(const FullSample& full, const SensitivityOptions& optio
     Eigen::MatrixXi rank;
 #pragma omp for schedule(dynamic, 1)
     for (int b = 0; b < num_b; ++b) {
+      // A cancelled run's replicates stay NaN; RunSensitivity discards them.
+      if (Cancelled(options)) continue;
       Stream stream(options.seed, kBootstrapStream | static_cast<uint64_t>(b));
       DrawItemWeights(chain, options.bootstrap, &stream, &weight);
       Stream external_draw(options.seed, kExternalStream | static_cast<uint64_t>(b));

@@ -213,10 +213,20 @@ bool RunSensitivity(const Survey& survey, const ComputeOptions& compute,
   }
   internal::FullSample full;
   if (!RunFullSample(survey, compute, options, &full, result, summary)) return false;
+  auto cancelled = [&] {
+    if (!internal::Cancelled(options)) return false;
+    summary->outcome = SensitivityOutcome::kCancelled;
+    summary->message = "cancelled";
+    return true;
+  };
   if (options.run_bootstrap) internal::RunBootstrap(full, options, result, summary);
+  if (cancelled()) return false;
   if (options.run_leave_one_out) internal::RunLeaveOneOut(full, options, result, summary);
+  if (cancelled()) return false;
   if (options.run_coverage) internal::RunCoverageCurve(full, options, result, summary);
+  if (cancelled()) return false;
   if (options.run_methods) internal::RunMethodSpread(full, options, result, summary);
+  if (cancelled()) return false;
   summary->outcome = SensitivityOutcome::kOk;
   summary->message = summary->BriefReport();
   return true;

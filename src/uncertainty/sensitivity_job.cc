@@ -420,7 +420,7 @@ std::string SensitivityFolder(const RunConfig& config) {
 }
 
 int RunSensitivityJob(const RunConfig& config, const SensitivityOptions& options,
-                      SensitivityJobSummary* summary) {
+                      SensitivityJobSummary* summary, const JobOutputOptions& output) {
   *summary = SensitivityJobSummary();
   auto fail = [&](int code, const std::string& message) {
     summary->exit_code = code;
@@ -430,7 +430,7 @@ int RunSensitivityJob(const RunConfig& config, const SensitivityOptions& options
   std::string error;
   if (!options.IsValid(&error)) return fail(1, error);
   PathGuard guard = GuardInputsOf(config);
-  guard.AddOutputFolder(SensitivityFolder(config), "sensitivity folder");
+  if (output.write_files) guard.AddOutputFolder(SensitivityFolder(config), "sensitivity folder");
   if (!guard.Check(&error)) return fail(1, error);
   LoadOptions load_options;
   load_options.invalid_rows = config.invalid_rows;
@@ -449,7 +449,11 @@ int RunSensitivityJob(const RunConfig& config, const SensitivityOptions& options
   if (run_options.num_threads == 0) run_options.num_threads = config.threads;
   if (!RunSensitivity(summary->survey, compute, run_options, &summary->result,
                       &summary->sensitivity)) {
-    return fail(summary->sensitivity.outcome == SensitivityOutcome::kComputationFailed ? 2 : 1,
+    const SensitivityOutcome outcome = summary->sensitivity.outcome;
+    return fail(outcome == SensitivityOutcome::kComputationFailed ||
+                        outcome == SensitivityOutcome::kCancelled
+                    ? 2
+                    : 1,
                 summary->sensitivity.message);
   }
   FullSample full_sample;
@@ -474,7 +478,10 @@ int RunSensitivityJob(const RunConfig& config, const SensitivityOptions& options
   summary->message = strict_fails ? StrictModeMessage(summary->warnings) : "ok";
   files.push_back({"run.json", RunJson(config, run_options, *summary, files, link)});
   RunFolderSummary written;
-  if (!WriteRunFolder(SensitivityFolder(config), files, &written, &error)) return fail(1, error);
+  if (output.write_files && !WriteRunFolder(SensitivityFolder(config), files, &written, &error)) {
+    return fail(1, error);
+  }
+  summary->files = std::move(files);
   return summary->exit_code;
 }
 

@@ -50,6 +50,11 @@ struct Progress {
   }
 };
 
+// True once the caller asked to stop (SensitivityOptions::cancel).
+inline bool Cancelled(const SensitivityOptions& options) {
+  return options.cancel != nullptr && options.cancel->load(std::memory_order_relaxed);
+}
+
 // The full-sample run every part starts from and is compared with.
 struct FullSample {
   const Survey* survey = nullptr;

@@ -10,6 +10,7 @@
 #include <set>
 #include <string>
 
+#include "paritas/jobs/jobs.h"
 #include "paritas/output/output_writers.h"
 #include "paritas/output/run_record.h"
 #include "test_util.h"
@@ -179,6 +180,31 @@ TEST(RunRecordJson, WritesTextThatIsNotUtf8AsEscapesInsteadOfThrowing) {
   EXPECT_NE(json.find("\"config_path\": \"/data/r\\\\xe9gions/run.yaml\""), std::string::npos)
       << json;
   EXPECT_NE(json.find("\"a warning quoting caf\\\\xe9\""), std::string::npos) << json;
+}
+
+// The Python module's way of running compute: the files come back in the
+// summary, the same bytes the command line writes, and nothing is written.
+TEST(RunCompute, WithoutWritingHandsBackTheFilesItWouldWrite) {
+  RunConfig config;
+  std::string error;
+  ASSERT_TRUE(LoadRunConfig(std::string(PARITAS_SOURCE_DIR) + "/config/demo.yaml", &config, &error))
+      << error;
+  config.report = false;
+  config.output = MakeTempDir("compute_not_written") + "/out";
+  ComputeJobSummary kept;
+  JobOutputOptions output;
+  output.write_files = false;
+  ASSERT_EQ(RunCompute(config, &kept, output), kExitOk) << kept.message;
+  EXPECT_FALSE(fs::exists(config.output));
+  ComputeJobSummary written;
+  ASSERT_EQ(RunCompute(config, &written), kExitOk) << written.message;
+  ASSERT_EQ(kept.files.size(), written.files.size());
+  EXPECT_EQ(kept.files.back().relative_path, "run.json");
+  for (size_t i = 0; i + 1 < kept.files.size(); ++i) {  // run.json differs by its run id
+    EXPECT_EQ(kept.files[i].relative_path, written.files[i].relative_path);
+    EXPECT_EQ(kept.files[i].contents, ReadTextFile(config.output + "/" + kept.files[i].relative_path))
+        << kept.files[i].relative_path;
+  }
 }
 
 }  // namespace

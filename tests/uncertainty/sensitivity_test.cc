@@ -5,6 +5,7 @@
 // and the command line.
 #include "paritas/uncertainty/sensitivity.h"
 
+#include <atomic>
 #include <cmath>
 #include <cstdio>
 #include <filesystem>
@@ -550,6 +551,50 @@ TEST(SensitivityJob, WritesEveryFileAndARunRecordSection) {
   const std::string report = summary.FullReport(options);
   EXPECT_NE(report.find("95 % interval"), std::string::npos);
   EXPECT_NE(report.find("coverage curve"), std::string::npos);
+}
+
+// One thread runs the replicates in order and reports each, so a flag set
+// after the fifth leaves exactly five replicates behind every interval.
+TEST(Sensitivity, CancelStopsBeforeTheNextReplicateAndReportsCancelled) {
+  const Survey survey = LoadSynthetic(SmallOptions(23), "cancel");
+  SensitivityOptions options = OnlyParts(true, true, false, false);
+  options.replicates = 40;
+  options.num_threads = 1;
+  std::atomic<bool> cancel{false};
+  options.cancel = &cancel;
+  options.progress = [&cancel](const std::string&, int64_t done, int64_t) {
+    if (done >= 5) cancel = true;
+  };
+  SensitivityResult result;
+  SensitivitySummary summary;
+  EXPECT_FALSE(RunSensitivity(survey, ComputeOptions(), options, &result, &summary));
+  EXPECT_EQ(summary.outcome, SensitivityOutcome::kCancelled);
+  EXPECT_EQ(summary.message, "cancelled");
+  EXPECT_EQ(result.boot_num_replicates(0, 0), 5);
+  EXPECT_EQ(summary.leave_one_out_seconds, 0.0);  // the next part never started
+  cancel = false;
+  options.progress = nullptr;
+  EXPECT_TRUE(RunSensitivity(survey, ComputeOptions(), options, &result, &summary)) << summary.message;
+  EXPECT_EQ(result.boot_num_replicates(0, 0), 40);
+}
+
+TEST(SensitivityJob, WithoutWritingHandsBackTheFilesAndWritesNothing) {
+  const std::string folder = WriteSynthetic(synthetic::Generate(SmallOptions(29)), "job-kept");
+  RunConfig config;
+  std::string error;
+  ASSERT_TRUE(LoadRunConfig(folder + "/config.yaml", &config, &error)) << error;
+  config.output = folder + "/out";
+  SensitivityOptions options = OnlyParts(true, false, false, false);
+  options.replicates = 20;
+  SensitivityJobSummary summary;
+  JobOutputOptions output;
+  output.write_files = false;
+  ASSERT_EQ(RunSensitivityJob(config, options, &summary, output), 0) << summary.message;
+  EXPECT_FALSE(std::filesystem::exists(folder + "/out/sensitivity"));
+  ASSERT_FALSE(summary.files.empty());
+  EXPECT_EQ(summary.files.front().relative_path, "bootstrap.csv");
+  EXPECT_EQ(summary.files.back().relative_path, "run.json");
+  EXPECT_EQ(summary.files.front().contents, BootstrapCsv(summary.survey, summary.result));
 }
 
 TEST(SensitivityCommand, BadOptionValuesExitWithOneAndAClearMessage) {

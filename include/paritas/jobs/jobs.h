@@ -12,6 +12,7 @@
 #include "paritas/compute/plausibility.h"
 #include "paritas/survey/config.h"
 #include "paritas/uncertainty/outliers.h"
+#include "paritas/output/run_folder.h"
 #include "paritas/output/run_record.h"
 #include "paritas/survey/survey.h"
 #include "paritas/survey/survey_loader.h"
@@ -85,6 +86,9 @@ struct ComputeJobSummary {
   int64_t num_gross_outliers = 0;
   // Every warning of the run, in listing order (also in warnings.csv).
   std::vector<RunWarning> warnings;
+  // Every output file with its text, run.json last, whether written or not
+  // (JobOutputOptions::write_files); empty when the run failed.
+  std::vector<OutputFile> files;
 
   // What `paritas compute` prints on standard output: counts, the root
   // table, the outliers, the cautions. The warnings go to standard error
@@ -92,8 +96,10 @@ struct ComputeJobSummary {
   std::string FullReport() const;
 };
 
-// Loads, computes and writes every output of `paritas compute`.
-int RunCompute(const RunConfig& config, ComputeJobSummary* summary);
+// Loads, computes and writes every output of `paritas compute` (with
+// output.write_files false: builds them in summary->files only).
+int RunCompute(const RunConfig& config, ComputeJobSummary* summary,
+               const JobOutputOptions& output = {});
 
 // Resolves the `matrices` setting to node indices ({} = root only; "all" =
 // every node). Returns false with a message for an unknown node code.

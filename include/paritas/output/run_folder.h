@@ -22,6 +22,15 @@ struct OutputFile {
   std::string contents;
 };
 
+// How a job hands over its output files.
+struct JobOutputOptions {
+  // Writes the run folder (default true, as the command line does). False
+  // writes nothing and leaves the output folder unchecked: the files are
+  // handed back in the job's summary only (`files`), as the Python module
+  // takes them.
+  bool write_files = true;
+};
+
 // What a swap did, for the run record and the terminal.
 struct RunFolderSummary {
   int num_files = 0;

@@ -7,6 +7,7 @@
 #ifndef PARITAS_UNCERTAINTY_SENSITIVITY_H_
 #define PARITAS_UNCERTAINTY_SENSITIVITY_H_
 
+#include <atomic>
 #include <cstdint>
 #include <functional>
 #include <string>
@@ -17,6 +18,7 @@
 #include "paritas/compute/compute.h"
 #include "paritas/survey/config.h"
 #include "paritas/output/report.h"
+#include "paritas/output/run_folder.h"
 #include "paritas/survey/survey.h"
 #include "paritas/survey/survey_loader.h"
 #include "paritas/uncertainty/pair_ratios.h"
@@ -87,6 +89,11 @@ struct SensitivityOptions {
   // "leave-one-out", "coverage", "methods"), units done and units in the
   // part; may be empty. For progress display only.
   std::function<void(const std::string& part, int64_t done, int64_t total)> progress;
+  // Cancellation: when set and it becomes true, the bootstrap skips its
+  // remaining replicates, no later part starts, and RunSensitivity returns
+  // false with outcome kCancelled and message "cancelled" (the Python module
+  // sets it on Ctrl-C). Default none; read with relaxed ordering.
+  const std::atomic<bool>* cancel = nullptr;
   // Node whose results the terminal table shows: a code of the
   // classification or of a group (default empty = the root). Every node is
   // in the CSV files whatever this says.
@@ -208,6 +215,7 @@ enum class SensitivityOutcome {
   kOk,
   kInvalidOptions,     // options invalid (exit 1)
   kComputationFailed,  // the full-sample computation failed (exit 2)
+  kCancelled,          // SensitivityOptions::cancel became true (exit 2)
 };
 
 struct SensitivitySummary {
@@ -333,6 +341,9 @@ struct SensitivityJobSummary {
   // Every warning: compute's on the full sample (plausibility checks and
   // gross outliers included), then the parts' (kind "sensitivity").
   std::vector<RunWarning> warnings;
+  // Every output file with its text, run.json last, whether written or not
+  // (JobOutputOptions::write_files); empty when the run failed.
+  std::vector<OutputFile> files;
 
   // What the command prints: counts, the root table, notes.
   std::string FullReport(const SensitivityOptions& options) const;
@@ -343,9 +354,10 @@ struct SensitivityJobSummary {
 ReportSensitivity ToReportSensitivity(const SensitivityResult& result, const SensitivityOptions& options);
 
 // Returns the exit code (0 ok, 1 invalid input or options, 2 computation
-// failed).
+// failed or cancelled). With output.write_files false nothing is written:
+// the files are in summary->files only.
 int RunSensitivityJob(const RunConfig& config, const SensitivityOptions& options,
-                      SensitivityJobSummary* summary);
+                      SensitivityJobSummary* summary, const JobOutputOptions& output = {});
 
 }  // namespace paritas
 
