@@ -366,6 +366,7 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary) {
   const ParityResult& result = summary->result;
   const OutlierOptions outlier_options = OutlierOptions::FromConfig(config);
   summary->outliers = FindOutliers(survey, result, outlier_options);
+  summary->stages.push_back({"outliers", lap()});
   summary->plausibility = CheckPlausibility(survey, result, config);
   summary->num_gross_outliers =
       AddGrossOutlierWarnings(survey, summary->outliers, config.checks, &summary->plausibility);

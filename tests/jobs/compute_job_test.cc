@@ -55,8 +55,8 @@ TEST(ComputeJob, StagesCoverTheJobsWallTime) {
     EXPECT_GE(seconds.get<double>(), 0.0) << stage;
     sum += seconds.get<double>();
   }
-  EXPECT_EQ(names, (std::vector<std::string>{"read", "cells", "elementary", "aggregation", "checks",
-                                             "contributions", "write"}));
+  EXPECT_EQ(names, (std::vector<std::string>{"read", "cells", "elementary", "aggregation",
+                                             "outliers", "checks", "contributions", "write"}));
   EXPECT_LE(sum, wall);
   EXPECT_GE(sum, 0.8 * wall) << "stages " << sum << " s of a job of " << wall << " s";
 }

@@ -80,7 +80,7 @@ struct ComputeJobSummary {
   // Files written, relative to the output folder.
   std::vector<std::string> outputs;
   // Wall seconds per stage, back to back: read, cells, elementary,
-  // aggregation, checks (outliers, plausibility, warnings), contributions,
+  // aggregation, outliers (the screen), checks (plausibility, warnings), contributions,
   // write (formatting, digesting and staging every file but run.json, which
   // records these). Their sum is the job's wall time up to run.json.
   std::vector<StageTiming> stages;
