@@ -64,7 +64,8 @@ void AddComputeOverrides(CLI::App* command, paritas::cli::Overrides* overrides) 
   command->add_option("--matrices", overrides->matrices,
                       "nodes whose matrices and bilateral tables are written, separated by spaces "
                       "or commas (food,housing); 'all' alone = every node, beside other names it "
-                      "is a node code (default: matrices of the configuration, else the root)");
+                      "is a node code (default: matrices of the configuration, else the root when "
+                      "the survey has at most matrices_up_to_regions regions, 500 by default)");
   command->add_flag("--no-report", overrides->no_report, "do not write report.html");
   command->add_flag("--strict", overrides->strict,
                     "exit with code 3, after writing everything, when the run raised a warning "

@@ -600,26 +600,28 @@ void WarnMissingRegions(const Survey& survey, const ParityResult& result, Comput
 
 bool ComputeParities(const Survey& survey, const ComputeOptions& options, ParityResult* result,
                      ComputeSummary* summary) {
+  auto start = std::chrono::steady_clock::now();
   *summary = ComputeSummary();
   *result = ParityResult();
   if (!CheckInputs(survey, options, summary)) return false;
   summary->num_headings_given = survey.num_headings();
   const int threads = options.num_threads > 0 ? options.num_threads : omp_get_max_threads();
 
-  auto start = std::chrono::steady_clock::now();
+  // The two stage timers run back to back, so they cover the call whole.
   ElementaryStage(survey, options, threads, result);
   if (!ImputationStage(survey, options, result, summary)) return false;
+  const bool headings_ok = CheckHeadings(survey, *result, summary);
   summary->elementary_seconds = SecondsSince(start);
-  if (!CheckHeadings(survey, *result, summary)) return false;
+  if (!headings_ok) return false;
 
   start = std::chrono::steady_clock::now();
   const std::vector<AggregateParities> aggregate_of =
       AggregateStage(survey, options, threads, result);
   const bool linked = FinishNodes(survey, options, aggregate_of, result, summary);
+  if (linked) WarnMissingRegions(survey, *result, summary);
   summary->aggregation_seconds = SecondsSince(start);
   if (!linked) return false;
 
-  WarnMissingRegions(survey, *result, summary);
   summary->outcome = ComputeOutcome::kOk;
   summary->message = "ok";
   return true;

@@ -20,10 +20,6 @@
 namespace paritas {
 namespace {
 
-double SecondsSince(std::chrono::steady_clock::time_point start) {
-  return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
-}
-
 LoadOptions LoadOptionsFor(const RunConfig& config) {
   LoadOptions options;
   options.invalid_rows = config.invalid_rows;
@@ -289,11 +285,11 @@ void AddMatrixFiles(const Survey& survey, const ParityResult& result,
 // The run record of a successful compute, with the digest of every file
 // written before it.
 std::string ComputeRunJson(const RunConfig& config, const ComputeJobSummary& summary,
-                           const std::vector<OutputFile>& files) {
+                           const std::vector<OutputDigest>& digests) {
   RunRecord record;
   record.command = "compute";
   record.run_id = summary.run_id;
-  record.output_digests = DigestOutputs(files);
+  record.output_digests = digests;
   record.config = &config;
   record.load = &summary.load;
   record.survey = &summary.survey;
@@ -314,6 +310,15 @@ std::string ComputeRunJson(const RunConfig& config, const ComputeJobSummary& sum
 
 int RunCompute(const RunConfig& config, ComputeJobSummary* summary,
                const JobOutputOptions& output) {
+  // Each stage is timed from where the one before it stopped, so their sum
+  // is the wall time of the whole job up to run.json (README "Benchmarks").
+  auto mark = std::chrono::steady_clock::now();
+  auto lap = [&mark]() {
+    const auto now = std::chrono::steady_clock::now();
+    const double seconds = std::chrono::duration<double>(now - mark).count();
+    mark = now;
+    return seconds;
+  };
   *summary = ComputeJobSummary();
   auto fail = [&](int code, const std::string& message) {
     summary->exit_code = code;
@@ -327,13 +332,20 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary,
   if (!LoadSurvey(config, LoadOptionsFor(config), &summary->survey, &summary->load)) {
     return fail(kExitInvalidInput, summary->load.message);
   }
-  summary->stages.push_back({"read", summary->load.read_seconds});
+  // The path checks before the load count as reading.
+  const double load_seconds = lap();
+  summary->stages.push_back({"read", load_seconds - summary->load.cells_seconds});
   summary->stages.push_back({"cells", summary->load.cells_seconds});
   const Survey& survey = summary->survey;
 
   std::vector<int> matrix_nodes;
   if (!ResolveMatrixNodes(survey.classification, config.matrices, &matrix_nodes, &error)) {
     return fail(kExitInvalidInput, error);
+  }
+  if (config.matrices.empty() && survey.num_regions() > config.matrices_up_to_regions) {
+    matrix_nodes.clear();  // the root's bilaterals are still kept (plausibility, report)
+    summary->matrices_left_out = true;
+    summary->matrices_up_to_regions = config.matrices_up_to_regions;
   }
   if (!config.report_region.empty() && survey.regions.Find(config.report_region) < 0) {
     std::string message = "report_region '" + config.report_region + "' is not in the survey";
@@ -348,25 +360,32 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary,
                                                                                     : kExitInvalidInput;
     return fail(code, summary->compute.message);
   }
-  summary->stages.push_back({"elementary", summary->compute.elementary_seconds});
+  // The settings resolved before the parities count as elementary.
+  const double compute_seconds = lap();
+  summary->stages.push_back({"elementary", compute_seconds - summary->compute.aggregation_seconds});
   summary->stages.push_back({"aggregation", summary->compute.aggregation_seconds});
   const ParityResult& result = summary->result;
   const OutlierOptions outlier_options = OutlierOptions::FromConfig(config);
   summary->outliers = FindOutliers(survey, result, outlier_options);
+  summary->stages.push_back({"outliers", lap()});
   summary->plausibility = CheckPlausibility(survey, result, config);
   summary->num_gross_outliers =
       AddGrossOutlierWarnings(survey, summary->outliers, config.checks, &summary->plausibility);
   summary->warnings =
       CollectWarnings(summary->load, summary->compute.warnings, summary->plausibility);
+  summary->stages.push_back({"checks", lap()});
 
   // Each heading's part in each region's ln parity (contributions.csv, report).
-  const auto contributions_start = std::chrono::steady_clock::now();
   const ContributionTable contributions =
       HeadingContributions(survey, result, options.reference);
-  summary->stages.push_back({"contributions", SecondsSince(contributions_start)});
+  summary->stages.push_back({"contributions", lap()});
 
-  // Outputs, written whole or not at all.
-  const auto write_start = std::chrono::steady_clock::now();
+  // Outputs, written whole or not at all. The write stage runs from here to
+  // the moment run.json is formatted: every other file is then formatted,
+  // digested and in the staging folder.
+  if (!result.bilaterals.empty() && result.bilaterals.front().laspeyres.rows() > 0) {
+    summary->root_spreads = RegionSpreads(result.bilaterals.front());
+  }
   std::vector<OutputFile> files;
   files.push_back({"parities.csv", ParitiesCsv(survey, result, &summary->plausibility)});
   files.push_back({"contributions.csv", ContributionsCsv(survey, contributions)});
@@ -404,11 +423,12 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary,
     report.plausibility = &summary->plausibility;
     report.contributions = &contributions;
     report.explain_region = config.report_region;
+    report.root_spreads = &summary->root_spreads;
+    report.pair_tables_written = !summary->matrices_left_out;
     files.push_back({"report.html", ReportHtml(report)});
   }
   for (const OutputFile& file : files) summary->outputs.push_back(file.relative_path);
   summary->outputs.push_back("run.json");
-  summary->stages.push_back({"write", SecondsSince(write_start)});
 
   // The exit code is settled before run.json, which records it.
   const bool strict_fails =
@@ -416,11 +436,23 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary,
   summary->exit_code = strict_fails ? kExitStrictWarnings : kExitOk;
   summary->message = strict_fails ? StrictModeMessage(summary->warnings) : "ok";
   summary->run_id = NewRunId();
-  files.push_back({"run.json", ComputeRunJson(config, *summary, files)});
+  auto run_record = [&]() {
+    const std::vector<OutputDigest> digests = DigestOutputs(files);
+    summary->stages.push_back({"write", lap()});
+    return OutputFile{"run.json", ComputeRunJson(config, *summary, digests)};
+  };
   RunFolderSummary written;
-  if (output.write_files && !WriteRunFolder(config.output, files, &written, &error)) {
+  OutputFile record;
+  auto make_record = [&]() {
+    record = run_record();
+    return record;
+  };
+  if (!output.write_files) {
+    make_record();
+  } else if (!WriteRunFolder(config.output, files, make_record, &written, &error)) {
     return fail(kExitInvalidInput, error);
   }
+  files.push_back(std::move(record));
   summary->files = std::move(files);
   return summary->exit_code;
 }
@@ -471,12 +503,22 @@ std::string ComputeJobSummary::FullReport() const {
   if (result.nodes.empty()) return out;
   out += "\nparities for " + NodeTitle(survey.classification, 0) + " (" +
          result.nodes.front().reference_used + " = 100), dearest first:\n";
-  out += RootTable(survey, result, RegionSpreads(result.bilaterals.front()));
+  out += RootTable(survey, result,
+                   root_spreads.size() == static_cast<size_t>(survey.num_regions())
+                       ? root_spreads
+                       : RegionSpreads(result.bilaterals.front()));
   out +=
       "(P-L spread, %: 100 x |ln(Laspeyres / Paasche)|, the largest of the region against any "
       "other, with that partner; large spreads mean the price and spending patterns differ and "
       "the choice of formula matters.)\n(" +
       ReferenceConvention(result.nodes.front().reference_used) + ".)\n";
+  if (matrices_left_out) {
+    out += "\nmatrix/ and bilateral/ not written: " + FormatCount(survey.num_regions()) +
+           " regions are more than matrices_up_to_regions (" +
+           FormatCount(matrices_up_to_regions) +
+           ") and these tables grow as the square of the regions; ask for them with --matrices "
+           "NODE (or matrices: in the configuration), or raise matrices_up_to_regions\n";
+  }
   out += GroupLines(survey, result);
   if (!outliers.outliers.empty()) {
     int64_t cells = 0;

@@ -335,34 +335,48 @@ std::string RepresentativityCsv(const Survey& survey, const ParityResult& result
   return out;
 }
 
+namespace {
+
+// Region a's spreads against every other region (row a of `spread`);
+// `values` is a buffer.
+RegionSpread RowSpread(const Eigen::MatrixXd& spread, int a, std::vector<double>* values) {
+  RegionSpread out;
+  values->clear();
+  for (int b = 0; b < spread.cols(); ++b) {
+    if (a == b || !std::isfinite(spread(a, b))) continue;
+    values->push_back(spread(a, b));
+    if (spread(a, b) > out.max || out.worst_partner < 0) {
+      out.max = spread(a, b);
+      out.worst_partner = b;
+    }
+  }
+  if (values->empty()) {
+    out.median = std::nan("");
+    out.max = std::nan("");
+    return out;
+  }
+  const size_t mid = values->size() / 2;
+  std::nth_element(values->begin(), values->begin() + mid, values->end());
+  out.median = (*values)[mid];
+  if (values->size() % 2 == 0) {
+    out.median = 0.5 * (out.median + *std::max_element(values->begin(), values->begin() + mid));
+  }
+  return out;
+}
+
+}  // namespace
+
 std::vector<RegionSpread> RegionSpreads(const BilateralMatrices& bilaterals) {
   const int n = static_cast<int>(bilaterals.laspeyres.rows());
   const Eigen::MatrixXd spread =
       (bilaterals.laspeyres.array() / bilaterals.paasche.array()).log().abs().matrix();
   std::vector<RegionSpread> out(n);
-  std::vector<double> values;
-  for (int a = 0; a < n; ++a) {
-    values.clear();
-    for (int b = 0; b < n; ++b) {
-      if (a == b || !std::isfinite(spread(a, b))) continue;
-      values.push_back(spread(a, b));
-      if (spread(a, b) > out[a].max || out[a].worst_partner < 0) {
-        out[a].max = spread(a, b);
-        out[a].worst_partner = b;
-      }
-    }
-    if (values.empty()) {
-      out[a].median = std::nan("");
-      out[a].max = std::nan("");
-      continue;
-    }
-    const size_t mid = values.size() / 2;
-    std::nth_element(values.begin(), values.begin() + mid, values.end());
-    double median = values[mid];
-    if (values.size() % 2 == 0) {
-      median = 0.5 * (median + *std::max_element(values.begin(), values.begin() + mid));
-    }
-    out[a].median = median;
+  // Rows are independent; each thread has its own buffer.
+#pragma omp parallel if (n > 256)
+  {
+    std::vector<double> values;
+#pragma omp for schedule(static)
+    for (int a = 0; a < n; ++a) out[a] = RowSpread(spread, a, &values);
   }
   return out;
 }

@@ -99,7 +99,12 @@ std::string Sections(const Context& ctx) {
   }
   out += report::Overview(ctx);
   std::vector<RegionSpread> spreads;
-  if (has_bilaterals) spreads = RegionSpreads(result.bilaterals.front());
+  if (has_bilaterals) {
+    const std::vector<RegionSpread>* given = ctx.in.root_spreads;
+    spreads = given != nullptr && given->size() == static_cast<size_t>(ctx.survey.num_regions())
+                  ? *given
+                  : RegionSpreads(result.bilaterals.front());
+  }
   if (!ctx.order.empty()) {
     out += report::PriceLevelSection(ctx, spreads);
     if (has_contributions) out += report::ContributionSection(ctx, *ctx.in.contributions);
@@ -190,7 +195,10 @@ std::string ReportHtml(const ReportInputs& inputs) {
   out += Sections(MakeContext(inputs, root_code));
   out +=
       "</main>\n<footer><div class=\"wrap\">Made by paritas " PARITAS_VERSION
-      ". Full results: <code>parities.csv</code>, <code>matrix/</code>, <code>bilateral/</code>, "
+      ". Full results: <code>parities.csv</code>, " +
+      std::string(inputs.pair_tables_written
+                      ? "<code>matrix/</code>, <code>bilateral/</code>, "
+                      : "") +
       "<code>run.json</code>.</div></footer>\n<script>";
   out += internal::report::kScript;
   out += "</script>\n</body></html>\n";

@@ -298,7 +298,9 @@ std::string MatrixSection(const Context& ctx) {
       "price-level order, dearest first; the matrix is transitive, so each row is the price-level "
       "chart seen from one region.</p>\n";
   out += Grid(g);
-  out += ThinningNote(ctx, regions.size(), "The full matrix is in <code>matrix/</code>.");
+  out += ThinningNote(ctx, regions.size(),
+                      ctx.in.pair_tables_written ? "The full matrix is in <code>matrix/</code>."
+                                                 : kPairTablesLeftOut);
   out += "<div class=\"legend-row\">" + DivergingLegend(scale, "legend-matrix") + "</div>\n";
   return out + "</section>\n";
 }

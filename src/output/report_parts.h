@@ -34,6 +34,12 @@ inline constexpr double kChartWidth = 1000.0;
 // Parities in charts: 1 decimal; in tables: 2.
 inline constexpr int kChartParityDecimals = 1;
 inline constexpr int kTableParityDecimals = 2;
+// What the report says of the pair tables (matrix/, bilateral/): written,
+// or left out of a survey beyond matrices_up_to_regions.
+inline constexpr const char* kPairTablesWritten = "Every ordered pair is in <code>bilateral/</code>.";
+inline constexpr const char* kPairTablesLeftOut =
+    "The pair tables (<code>matrix/</code>, <code>bilateral/</code>) were not written for this "
+    "many regions; ask for them with <code>--matrices</code>.";
 
 // Returns `value` with `decimals` digits, or an en dash for NaN.
 std::string Num(double value, int decimals);

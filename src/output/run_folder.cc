@@ -230,6 +230,12 @@ std::string NewRunId() {
 
 bool WriteRunFolder(const std::string& folder, const std::vector<OutputFile>& files,
                     RunFolderSummary* summary, std::string* error) {
+  return WriteRunFolder(folder, files, nullptr, summary, error);
+}
+
+bool WriteRunFolder(const std::string& folder, const std::vector<OutputFile>& files,
+                    const std::function<OutputFile()>& make_last, RunFolderSummary* summary,
+                    std::string* error) {
   *summary = RunFolderSummary();
   if (!CheckFiles(files, error)) return false;
   const fs::path target = fs::absolute(fs::path(folder)).lexically_normal();
@@ -253,15 +259,29 @@ bool WriteRunFolder(const std::string& folder, const std::vector<OutputFile>& fi
     fs::remove_all(staging, ignored);
     return false;
   };
-  for (const OutputFile& file : files) {
-    std::string why;
-    if (!WriteOneFile(staging / file.relative_path, file.contents, &why)) {
-      return fail((target / file.relative_path).string() + ": cannot write file: " + why);
+  auto write = [&](const OutputFile& file, std::string* why) {
+    if (!WriteOneFile(staging / file.relative_path, file.contents, why)) {
+      *why = (target / file.relative_path).string() + ": cannot write file: " + *why;
+      return false;
     }
     ++summary->num_files;
     summary->num_bytes += static_cast<int64_t>(file.contents.size());
-  }
+    return true;
+  };
   std::string why;
+  for (const OutputFile& file : files) {
+    if (!write(file, &why)) return fail(why);
+  }
+  if (make_last) {
+    const OutputFile last = make_last();
+    if (!CheckFiles({OutputFile{last.relative_path, ""}}, &why)) return fail(why);
+    for (const OutputFile& file : files) {
+      if (file.relative_path == last.relative_path) {
+        return fail("two outputs of this run would share the file '" + last.relative_path + "'");
+      }
+    }
+    if (!write(last, &why)) return fail(why);
+  }
   if (!SwapIntoPlace(staging, target, summary, &why)) return fail(why);
   fs::remove_all(staging, ec);  // the old run, if there was one
   return true;

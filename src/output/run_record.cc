@@ -55,6 +55,7 @@ Json ConfigJson(const RunConfig& config) {
               {"invalid_rows", ToString(config.invalid_rows)},
               {"output", ValidUtf8(config.output)},
               {"matrices", ValidTexts(config.matrices)},
+              {"matrices_up_to_regions", config.matrices_up_to_regions},
               {"representative_weight", config.representative_weight},
               {"outlier_threshold", config.outlier_threshold},
               {"outlier_fit", config.outlier_fit},

@@ -49,8 +49,10 @@ void AddQuote(const QuoteArrays& quotes, size_t q, CellMoments* moments) {
 // One counting sort on the dense cell key item x R + region: the quotes'
 // values are scattered straight into key order, so the cells are then read
 // off sequentially. Used when the key range is small enough to count.
-// Each thread owns a range of keys and scans all quotes for its own, so every
-// cell still sees its quotes in file order whatever the number of threads.
+// Each thread counts and scatters its own contiguous range of quotes, with
+// its own offsets: within a key, thread t's quotes land after those of the
+// threads before it, so every cell sees its quotes in file order whatever
+// the number of threads, and no thread scans the quotes of another.
 void CellsByDenseKey(const QuoteArrays& quotes, int num_regions, int num_items, int num_threads,
                      CellPrices* cells) {
   const int64_t n = static_cast<int64_t>(quotes.size());
@@ -60,23 +62,50 @@ void CellsByDenseKey(const QuoteArrays& quotes, int num_regions, int num_items, 
   auto key_of = [&](int64_t q) {
     return static_cast<int64_t>(quote_item[q]) * num_regions + quote_region[q];
   };
-  // Scanning all quotes costs a thread more than its share of the random
-  // updates saves on a small survey.
+  // A thread's count array costs more to clear and combine than its share
+  // of the counting saves on a small survey.
   const int threads = n < (int64_t{1} << 20) ? 1 : std::max(1, num_threads);
-  // Key ranges split evenly for counting, then by quotes for the rest.
-  std::vector<int64_t> key_begin(threads + 1);
-  for (int t = 0; t <= threads; ++t) key_begin[t] = num_keys * t / threads;
-  std::vector<uint32_t> start(num_keys + 1, 0);
+  std::vector<int64_t> quote_begin(threads + 1), key_begin(threads + 1);
+  for (int t = 0; t <= threads; ++t) {
+    quote_begin[t] = n * t / threads;
+    key_begin[t] = num_keys * t / threads;
+  }
+  // offset[t][k]: quotes of key k in thread t's range, then where the next
+  // of them goes. Each array is first touched by the thread that fills it.
+  std::vector<std::vector<uint32_t>> offset(threads);
 #pragma omp parallel for schedule(static, 1) num_threads(threads)
   for (int t = 0; t < threads; ++t) {
-    const int64_t lo = key_begin[t], hi = key_begin[t + 1];
-    uint32_t* count = start.data() + 1;
-    for (int64_t q = 0; q < n; ++q) {
-      const int64_t key = key_of(q);
-      if (key >= lo && key < hi) ++count[key];
+    offset[t].assign(num_keys, 0);
+    uint32_t* count = offset[t].data();
+    for (int64_t q = quote_begin[t]; q < quote_begin[t + 1]; ++q) ++count[key_of(q)];
+  }
+  // Exclusive prefix sums in key-major, thread-minor order, in two passes
+  // over key ranges: the quotes of each range, then the offsets within it.
+  std::vector<uint32_t> start(num_keys + 1, 0);
+  std::vector<uint64_t> range_quotes(threads + 1, 0);
+#pragma omp parallel for schedule(static, 1) num_threads(threads)
+  for (int r = 0; r < threads; ++r) {
+    uint64_t total = 0;
+    for (int64_t k = key_begin[r]; k < key_begin[r + 1]; ++k) {
+      for (int t = 0; t < threads; ++t) total += offset[t][k];
+    }
+    range_quotes[r + 1] = total;
+  }
+  for (int r = 0; r < threads; ++r) range_quotes[r + 1] += range_quotes[r];
+#pragma omp parallel for schedule(static, 1) num_threads(threads)
+  for (int r = 0; r < threads; ++r) {
+    uint32_t running = static_cast<uint32_t>(range_quotes[r]);
+    for (int64_t k = key_begin[r]; k < key_begin[r + 1]; ++k) {
+      start[k] = running;
+      for (int t = 0; t < threads; ++t) {
+        const uint32_t count = offset[t][k];
+        offset[t][k] = running;
+        running += count;
+      }
     }
   }
-  for (int64_t k = 1; k <= num_keys; ++k) start[k] += start[k - 1];
+  start[num_keys] = static_cast<uint32_t>(n);
+  // Key ranges for the moments, split by quotes.
   if (threads > 1) {
     for (int t = 1; t < threads; ++t) {
       const uint32_t target = static_cast<uint32_t>(static_cast<uint64_t>(n) * t / threads);
@@ -89,25 +118,24 @@ void CellsByDenseKey(const QuoteArrays& quotes, int num_regions, int num_items, 
   std::vector<double> value(n);
   std::vector<uint8_t> flag(flagged ? n : 0);
   std::vector<double> weight(weighted ? n : 0);
-  // Cells per key range, to know where each thread writes.
-  std::vector<int64_t> cell_begin(threads + 1, 0);
 #pragma omp parallel for schedule(static, 1) num_threads(threads)
   for (int t = 0; t < threads; ++t) {
-    const int64_t lo = key_begin[t], hi = key_begin[t + 1];
-    int64_t num_cells = 0;
-    for (int64_t k = lo; k < hi; ++k) num_cells += start[k + 1] > start[k];
-    cell_begin[t + 1] = num_cells;
-    if (lo == hi) continue;
-    // next[key - lo]: where the key's next quote goes.
-    std::vector<uint32_t> next(start.begin() + lo, start.begin() + hi);
-    for (int64_t q = 0; q < n; ++q) {
-      const int64_t key = key_of(q);
-      if (key < lo || key >= hi) continue;
-      const uint32_t at = next[key - lo]++;
+    uint32_t* next = offset[t].data();
+    for (int64_t q = quote_begin[t]; q < quote_begin[t + 1]; ++q) {
+      const uint32_t at = next[key_of(q)]++;
       value[at] = quotes.log_price[q];
       if (flagged) flag[at] = quotes.representative[q];
       if (weighted) weight[at] = quotes.weight[q];
     }
+  }
+  offset = {};
+  // Cells per key range, to know where each thread writes.
+  std::vector<int64_t> cell_begin(threads + 1, 0);
+#pragma omp parallel for schedule(static, 1) num_threads(threads)
+  for (int t = 0; t < threads; ++t) {
+    int64_t num_cells = 0;
+    for (int64_t k = key_begin[t]; k < key_begin[t + 1]; ++k) num_cells += start[k + 1] > start[k];
+    cell_begin[t + 1] = num_cells;
   }
   for (int t = 0; t < threads; ++t) cell_begin[t + 1] += cell_begin[t];
   const size_t num_cells = static_cast<size_t>(cell_begin[threads]);

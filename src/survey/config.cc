@@ -88,6 +88,7 @@ const std::vector<std::string> kTopKeys = {"survey",
                                            "invalid_rows",
                                            "output",
                                            "matrices",
+                                           "matrices_up_to_regions",
                                            "representative_weight",
                                            "cpd_cell_weights",
                                            "outlier_threshold",
@@ -601,6 +602,17 @@ class ConfigParser {
     } else {
       config_->output = Resolve("out");
     }
+    if (const YAML::Node node = root["matrices_up_to_regions"]) {
+      double limit = 0;
+      if (!Number(node, "matrices_up_to_regions", &limit, error)) return false;
+      if (limit < 0 || limit != std::floor(limit) || limit > 1e9) {
+        *error = Where(node) +
+                 "matrices_up_to_regions must be a whole number from 0 to 1000000000, found '" +
+                 node.Scalar() + "'";
+        return false;
+      }
+      config_->matrices_up_to_regions = static_cast<int>(limit);
+    }
     if (const YAML::Node node = root["matrices"]) return ParseMatrices(node, error);
     return true;
   }
@@ -1032,6 +1044,10 @@ bool RunConfig::IsValid(std::string* error) const {
   }
   if (OutlierFit fit; !FromString(outlier_fit, &fit)) {
     *error = NotOneOf("outlier_fit", outlier_fit, {"robust", "least-squares"});
+    return false;
+  }
+  if (matrices_up_to_regions < 0) {
+    *error = "matrices_up_to_regions must be 0 or more";
     return false;
   }
   if (threads < 0) {

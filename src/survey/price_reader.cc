@@ -276,11 +276,21 @@ class ChunkParser {
     const std::string_view region = record_.fields[columns_.region];
     if (region_local_ >= 0 && EqualBytes(region, last_region_)) return true;
     const std::string_view code = Trim(region);
+    // With regions.csv every region is known before the first block, and the
+    // global table is only read while chunks are parsed: one lookup gives
+    // the survey's index (a code in the table is trimmed and valid).
+    if (state_.regions_fixed) {
+      if (const int global = state_.regions.Find(code); global >= 0) {
+        region_local_ = global;
+        last_region_ = region;
+        return true;
+      }
+    }
     if (std::string problem = CheckCode(code, "region"); !problem.empty()) {
       Reject(columns_.region + 1, problem);
       return false;
     }
-    if (state_.regions_fixed && state_.regions.Find(code) < 0) {
+    if (state_.regions_fixed) {
       const auto rejected = state_.rejected_region_index.find(std::string(code));
       if (rejected != state_.rejected_region_index.end()) {
         RejectCascade(columns_.region + 1, rejected->second);
@@ -793,8 +803,10 @@ class PriceReader {
       state_->rejected_codes[code].num_price_rows += num_rows;
     }
     for (const ConflictCount& conflict : result->conflicts) MergeConflict(conflict);
-    std::vector<int> region_map(result->regions.size());
-    for (int r = 0; r < result->regions.size(); ++r) {
+    // With regions.csv the chunks hold the survey's region indices already.
+    const bool regions_global = state_->regions_fixed;
+    std::vector<int> region_map(regions_global ? 0 : result->regions.size());
+    for (int r = 0; r < static_cast<int>(region_map.size()); ++r) {
       region_map[r] = state_->regions.Intern(result->regions.Code(r));
     }
     std::vector<int> item_map(result->items.size());
@@ -825,10 +837,12 @@ class PriceReader {
     state_->num_quotes += result->rows_used;
     const QuoteArrays& local = result->quotes;
     QuoteArrays& global = state_->quotes;
-    for (size_t q = 0; q < local.size(); ++q) {
-      global.region.push_back(region_map[local.region[q]]);
-      global.item.push_back(item_map[local.item[q]]);
+    if (regions_global) {
+      global.region.insert(global.region.end(), local.region.begin(), local.region.end());
+    } else {
+      for (size_t q = 0; q < local.size(); ++q) global.region.push_back(region_map[local.region[q]]);
     }
+    for (size_t q = 0; q < local.size(); ++q) global.item.push_back(item_map[local.item[q]]);
     global.log_price.insert(global.log_price.end(), local.log_price.begin(), local.log_price.end());
     // A flag or weight column of some files only: the quotes of the others
     // are not representative and weigh 1.

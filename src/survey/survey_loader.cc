@@ -314,12 +314,15 @@ bool LoadSurvey(const RunConfig& config, const LoadOptions& options, Survey* sur
                 ": no usable price quotes (all " + std::to_string(rows_read) + " rows rejected)");
   }
 
+  // The cells stage runs from here to the end of the load, so the two
+  // stages cover it whole.
   const auto cells_start = std::chrono::steady_clock::now();
   internal::BuildSurvey(
       &state, options.num_threads > 0 ? options.num_threads : omp_get_max_threads(), survey);
-  summary->cells_seconds = SecondsSince(cells_start);
   if (!files.external_parities.empty()) FillExternalParities(state, survey);
-  if (!ApplyGroupsAndLabels(config, &survey->classification, &error)) return fail(error);
+  const bool grouped = ApplyGroupsAndLabels(config, &survey->classification, &error);
+  summary->cells_seconds = SecondsSince(cells_start);
+  if (!grouped) return fail(error);
   summary->outcome = LoadOutcome::kOk;
   summary->message = "ok";
   return true;

@@ -125,9 +125,10 @@ TEST(RunConfig, ShortensAHugeUnknownKey) {
   EXPECT_EQ(ParseError(std::string(kSurvey) + "? " + std::string(100000, 'k') + "\n: 1\n"),
             "/cfg/run.yaml:4:3: unknown key '" + std::string(60, 'k') +
                 "...'; valid keys are: survey, classification, reference, elementary, aggregation, "
-                "invalid_rows, output, matrices, representative_weight, cpd_cell_weights, "
-                "outlier_threshold, outlier_fit, robust_errors, report, report_region, threads, "
-                "limits, duplicate_quotes, strict, checks, missing_parities, groups, labels");
+                "invalid_rows, output, matrices, matrices_up_to_regions, representative_weight, "
+                "cpd_cell_weights, outlier_threshold, outlier_fit, robust_errors, report, "
+                "report_region, threads, limits, duplicate_quotes, strict, checks, "
+                "missing_parities, groups, labels");
 }
 
 TEST(RunConfig, ListsTheValidKeysWhenNoneIsClose) {

@@ -112,6 +112,10 @@ struct ComputeSummary {
   // still missing where the region spends on the heading.
   int num_parities_imputed = 0;
   int num_parities_missing = 0;
+  // Wall seconds: from the start of ComputeParities to the end of the
+  // heading checks (elementary parities, external parities, imputation), and
+  // from there to its end (aggregates, normalisation): the two cover the
+  // call whole.
   double elementary_seconds = 0.0;
   double aggregation_seconds = 0.0;
 

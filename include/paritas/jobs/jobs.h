@@ -13,6 +13,7 @@
 #include "paritas/survey/config.h"
 #include "paritas/uncertainty/outliers.h"
 #include "paritas/output/run_folder.h"
+#include "paritas/output/output_writers.h"
 #include "paritas/output/run_record.h"
 #include "paritas/survey/survey.h"
 #include "paritas/survey/survey_loader.h"
@@ -79,7 +80,19 @@ struct ComputeJobSummary {
   std::string run_id;
   // Files written, relative to the output folder.
   std::vector<std::string> outputs;
+  // Wall seconds per stage, back to back: read, cells, elementary,
+  // aggregation, outliers (the screen), checks (plausibility, warnings), contributions,
+  // write (formatting, digesting and staging every file but run.json, which
+  // records these). Their sum is the job's wall time up to run.json.
   std::vector<StageTiming> stages;
+  // The root's spread per region (RegionSpreads), computed once for the
+  // terminal table and the report; empty when the root has no bilaterals.
+  std::vector<RegionSpread> root_spreads;
+  // True when matrix/ and bilateral/ were left out: `matrices` was not given
+  // and the survey has more regions than matrices_up_to_regions (copied
+  // here for the terminal).
+  bool matrices_left_out = false;
+  int matrices_up_to_regions = 0;
   // Basket shares and per node/region warning kinds (parities.csv).
   PlausibilityResult plausibility;
   // Outliers at least checks.gross_outlier_ratio from their prediction.

@@ -11,6 +11,7 @@
 
 #include "paritas/compute/compute.h"
 #include "paritas/compute/plausibility.h"
+#include "paritas/output/output_writers.h"
 #include "paritas/survey/config.h"
 #include "paritas/uncertainty/outliers.h"
 #include "paritas/survey/survey.h"
@@ -118,6 +119,12 @@ struct ReportInputs {
   // of its own ("Extrapolated parities"), that every figure was carried
   // from a benchmark by price indices. Empty (default) = a survey run.
   std::string extrapolation_caution;
+  // The root's spreads per region (RegionSpreads) when the caller has them;
+  // null or of another size = computed here from the root's bilaterals.
+  const std::vector<RegionSpread>* root_spreads = nullptr;
+  // False when the run wrote no matrix/ and bilateral/ tables (a survey
+  // beyond matrices_up_to_regions); the report then says how to ask for them.
+  bool pair_tables_written = true;
 };
 
 // Regions and cells shown individually in the grids (region x aggregate,

@@ -10,6 +10,7 @@
 #define PARITAS_OUTPUT_RUN_FOLDER_H_
 
 #include <cstdint>
+#include <functional>
 #include <string>
 #include <vector>
 
@@ -53,6 +54,13 @@ struct RunFolderSummary {
 // previous run, if any, is then untouched.
 bool WriteRunFolder(const std::string& folder, const std::vector<OutputFile>& files,
                     RunFolderSummary* summary, std::string* error);
+
+// As above, with one more file made by `make_last` once every file of
+// `files` is in the staging folder, so that it can record how long writing
+// them took (run.json). Its path must not be among `files`' paths.
+bool WriteRunFolder(const std::string& folder, const std::vector<OutputFile>& files,
+                    const std::function<OutputFile()>& make_last, RunFolderSummary* summary,
+                    std::string* error);
 
 // Removes staging folders of runs of `folder` whose process no longer runs.
 // Returns how many were removed.

@@ -199,6 +199,11 @@ struct RunConfig {
   // only; {"all"} (the only value) = every node. With other names beside it,
   // "all" is a node code like any other (the default root is called "all").
   std::vector<std::string> matrices;
+  // With `matrices` empty, the root's matrix/ and bilateral/ tables, whose
+  // rows grow as the square of the regions, are written only when the
+  // survey has at most this many regions; `matrices` asks for them at any
+  // size. Default 500 (250,000 pairs, a bilateral table of about 20 MB).
+  int matrices_up_to_regions = 500;
   // CPD weight of a representative cell relative to 1 for the others. 1 =
   // unweighted (default); 3 is common practice in international comparisons.
   double representative_weight = 1.0;

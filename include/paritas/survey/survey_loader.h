@@ -140,8 +140,11 @@ struct LoadSummary {
   // Problems that do not reject rows, e.g. quantities of items without a
   // reference_quantity (taken per 1 unit).
   std::vector<std::string> warnings;
-  double read_seconds = 0.0;   // reading and validating all files
-  double cells_seconds = 0.0;  // building the cell table
+  // Wall seconds from the start of the load to the end of reading and
+  // validating every file, and from there to the end of the load (the cell
+  // table, external parities, groups): the two cover the load whole.
+  double read_seconds = 0.0;
+  double cells_seconds = 0.0;
 
   // One line: "read 12,345 quotes for 16 regions, 200 items, 30 headings; 0 rows rejected".
   std::string BriefReport() const;
