@@ -19,6 +19,19 @@ constexpr size_t kMaxPairMatrixRegions = 40;
 // Codes listed per group; the rest are counted.
 constexpr size_t kMaxCodesPerGroup = 12;
 
+// The chart's three verdict colours and its blank cells, each with its name.
+std::string PairLegend() {
+  auto key = [](const char* fill, const char* name) {
+    return std::string("<span class=\"key\"><svg class=\"legend\" width=\"16\" height=\"12\">"
+                       "<rect width=\"16\" height=\"12\" fill=\"") +
+           fill + "\"/></svg> " + name + "</span>";
+  };
+  return "<div class=\"legend-row\">" + key("#d6604d", "row region dearer") +
+         key("#4393c3", "row region cheaper") + key("#e0e0e0", "not told apart") +
+         "<span class=\"key\"><svg width=\"16\" height=\"12\"><rect class=\"cell none\" "
+         "width=\"16\" height=\"12\"/></svg> no interval (a region against itself)</span></div>\n";
+}
+
 std::string PairMatrix(const Context& ctx, const ReportSensitivity::PairChart& chart) {
   const size_t count = chart.order.size();
   GridSpec g;
@@ -49,7 +62,7 @@ std::string PairMatrix(const Context& ctx, const ReportSensitivity::PairChart& c
            b;
   };
   g.max_cell_w = 30.0;
-  return Grid(g);
+  return Grid(g) + PairLegend();
 }
 
 // The regions dearest first, cut into groups where neighbours in rank are
