@@ -300,7 +300,14 @@ bool FindMisplacedByteOrderMark(const CsvRecord& header, int* field) {
 }
 
 std::string MisplacedByteOrderMarkProblem(std::string_view name) {
-  return "column name " + QuoteValue(VisibleText(name)) +
+  // The mark is invisible in a terminal: it is shown as <U+FEFF>.
+  std::string shown;
+  name = TrimSpaces(name);
+  while (name.substr(0, kUtf8Bom.size()) == kUtf8Bom) {
+    shown += "<U+FEFF>";
+    name.remove_prefix(kUtf8Bom.size());
+  }
+  return "column name " + QuoteValue(shown + VisibleText(name)) +
          " starts with a byte-order mark (U+FEFF); a mark may only open the file, once (save "
          "the file as UTF-8 with at most one mark)";
 }

@@ -437,5 +437,21 @@ TEST(Deflate, RejectsLatin1CodesAndHeadersButCopiesOtherColumnsAsTheyAre) {
                                  "may be Latin-1 or Windows-1252: save it as UTF-8)");
 }
 
+// A second byte-order mark (a file joined from two saved ones) would stay in
+// the first column's name, match no column and not read back the same once
+// the output opens with it: the header is refused where the mark is.
+TEST(Deflate, RefusesAColumnNameThatStartsWithASecondByteOrderMark) {
+  const std::string dir = MakeTempDir("deflate_two_marks");
+  DeflateOptions options =
+      Options(dir, "\xEF\xBB\xBF\xEF\xBB\xBFid,region,income\n1,a,12000\n");
+  DeflateSummary summary;
+  EXPECT_FALSE(Deflate(options, &summary));
+  EXPECT_EQ(summary.message,
+            options.input_path +
+                ":1:1: column name '<U+FEFF>id' starts with a byte-order mark (U+FEFF); a mark "
+                "may only open the file, once (save the file as UTF-8 with at most one mark)");
+  EXPECT_FALSE(std::filesystem::exists(options.output_path));
+}
+
 }  // namespace
 }  // namespace paritas

@@ -136,8 +136,8 @@ bool FindInvalidUtf8(const CsvRecord& record, char delimiter, int64_t* line, int
 // otherwise sets *field to the 1-based number of the first such field.
 bool FindMisplacedByteOrderMark(const CsvRecord& header, int* field);
 
-// The message for that field: "column name \"...\" starts with a byte-order
-// mark (U+FEFF) ...".
+// The message for that field, its marks shown as <U+FEFF> (invisible in a
+// terminal): "column name '<U+FEFF>id' starts with a byte-order mark ...".
 std::string MisplacedByteOrderMarkProblem(std::string_view name);
 
 // Splits `data` (a whole file after its header row) into at most `num_chunks`
