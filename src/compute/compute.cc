@@ -11,6 +11,7 @@
 #include <cmath>
 #include <numeric>
 
+#include "base/eigen_threads.h"
 #include "paritas/base/text.h"
 #include "paritas/compute/imputation.h"
 
@@ -262,6 +263,7 @@ void ElementaryStage(const Survey& survey, const ComputeOptions& options, int th
   result->headings.resize(num_headings);
 #pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
   for (int h = 0; h < num_headings; ++h) {
+    internal::KeepEigenOnThisThread();
     const std::vector<double> weights = HeadingReferenceWeights(survey, options.reference, h);
     result->headings[h] = ComputeHeadingParities(survey, h, options.elementary, weights);
   }
@@ -446,6 +448,7 @@ std::vector<AggregateParities> AggregateStage(const Survey& survey, const Comput
   const int num_aggregates = static_cast<int>(aggregates.size());
 #pragma omp parallel for schedule(dynamic, 1) num_threads(threads) if (num_aggregates > 1)
   for (int k = 0; k < num_aggregates; ++k) {
+    internal::KeepEigenOnThisThread();
     const int index = aggregates[k];
     const NodeArrays arrays = NodeInputArrays(survey, *result, index);
     BilateralMatrices bilaterals =

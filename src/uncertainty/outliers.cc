@@ -14,6 +14,7 @@
 #include <utility>
 #include <vector>
 
+#include "base/eigen_threads.h"
 #include "paritas/base/csv.h"
 #include "paritas/base/text.h"
 #include "paritas/output/output_writers.h"
@@ -416,7 +417,8 @@ void MeasureSpread(const Eigen::MatrixXd& levels, int h, ScreenContext* context)
 // The survey-wide part: every heading's scale, and for the headings with
 // cells that cut them (the only ones that need it) the level deviations and
 // spread; a heading with too little of its own borrows the median heading's.
-ScreenContext MakeContext(const std::vector<ScreenFit>& fits, const Eigen::MatrixXd& levels) {
+ScreenContext MakeContext(const std::vector<ScreenFit>& fits, const Eigen::MatrixXd& levels,
+                          int threads) {
   const int num_headings = static_cast<int>(fits.size());
   ScreenContext context;
   context.levels = &levels;
@@ -435,8 +437,9 @@ ScreenContext MakeContext(const std::vector<ScreenFit>& fits, const Eigen::Matri
     }
   }
   for (int pass = 0; pass < 2; ++pass) {
-#pragma omp parallel for schedule(dynamic, 1)
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
     for (int h = 0; h < num_headings; ++h) {
+      internal::KeepEigenOnThisThread();
       if (fits[h].identified && needs_spread[h] == (pass == 0 ? 1 : 0)) MeasureSpread(levels, h, &context);
     }
     // The second pass measures the other headings too, only when a heading
@@ -466,6 +469,7 @@ OutlierOptions OutlierOptions::FromConfig(const RunConfig& config) {
   OutlierOptions options;
   options.threshold = config.outlier_threshold;
   FromString(config.outlier_fit, &options.fit);
+  options.num_threads = config.threads;
   return options;
 }
 
@@ -501,6 +505,10 @@ bool OutlierOptions::IsValid(std::string* error) const {
   }
   if (!(weight_tolerance > 0 && weight_tolerance <= 0.5)) {
     *error = "outlier weight_tolerance must be above 0 and at most 0.5";
+    return false;
+  }
+  if (num_threads < 0) {
+    *error = "outlier num_threads is " + std::to_string(num_threads) + "; it must be 0 (all cores) or more";
     return false;
   }
   return true;
@@ -545,18 +553,21 @@ OutlierReport FindOutliers(const Survey& survey, const ParityResult& result,
   // in heading order afterwards, so the report is the same for any number of
   // threads.
   std::vector<ScreenFit> fits(num_headings);
-#pragma omp parallel for schedule(dynamic, 1)
+  const int threads = options.num_threads > 0 ? options.num_threads : omp_get_max_threads();
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
   for (int h = 0; h < num_headings; ++h) {
+    internal::KeepEigenOnThisThread();
     if (survey.heading_range[h].num_cells() > 0) fits[h] = FitHeading(survey, h, options);
   }
   Eigen::MatrixXd levels = Eigen::MatrixXd::Constant(survey.num_regions(), num_headings, kNaN);
   for (int h = 0; h < num_headings; ++h) {
     if (fits[h].identified) levels.col(h) = fits[h].log_parity;
   }
-  const ScreenContext context = MakeContext(fits, levels);
+  const ScreenContext context = MakeContext(fits, levels, threads);
   std::vector<HeadingRows> rows(num_headings);
-#pragma omp parallel for schedule(dynamic, 1)
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
   for (int h = 0; h < num_headings; ++h) {
+    internal::KeepEigenOnThisThread();
     if (fits[h].identified) rows[h] = ScreenHeading(survey, h, fits[h], context, options);
   }
   const int num_with_result = std::min(num_headings, static_cast<int>(result.headings.size()));

@@ -15,6 +15,7 @@
 
 #include <Eigen/Core>
 
+#include "base/eigen_threads.h"
 #include "paritas/compute/compute.h"
 #include "paritas/uncertainty/sensitivity.h"
 #include "uncertainty/replicate_chain.h"
@@ -28,12 +29,9 @@ inline double SecondsSince(std::chrono::steady_clock::time_point start) {
 inline int ThreadsFor(int requested) { return requested > 0 ? requested : omp_get_max_threads(); }
 
 // Called first in every replicate worker: the chain then runs on this thread
-// alone. Without it, a team of one thread (--threads 1) is not an active
-// parallel region, so Eigen's matrix products inside each replicate would
-// start a team of their own for every small product (five times slower in
-// the bootstrap benchmark, and more threads than asked for). Results do not
-// change: Eigen splits a product over columns, never inside a sum.
-inline void KeepChainOnThisThread() { omp_set_num_threads(1); }
+// alone (base/eigen_threads.h says why; five times faster in the bootstrap
+// benchmark with --threads 1, and byte-identical for any thread count).
+inline void KeepChainOnThisThread() { KeepEigenOnThisThread(); }
 
 // Reports progress from thread 0 only, so the callback never runs twice at once.
 struct Progress {

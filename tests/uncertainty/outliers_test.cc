@@ -470,6 +470,10 @@ TEST(OutlierOptions, DefaultsAreValidAndOutOfRangeFieldsAreNamed) {
   options.weight_tolerance = 0.0;
   EXPECT_FALSE(options.IsValid(&error));
   EXPECT_EQ(error, "outlier weight_tolerance must be above 0 and at most 0.5");
+  options = OutlierOptions();
+  options.num_threads = -1;
+  EXPECT_FALSE(options.IsValid(&error));
+  EXPECT_EQ(error, "outlier num_threads is -1; it must be 0 (all cores) or more");
 }
 
 TEST(OutlierFit, NamesReadBackCaseInsensitively) {

@@ -55,6 +55,9 @@ struct OutlierOptions {
   // between two iterations (default 1e-4, far finer than anything that
   // moves a flag; in (0, 0.5]).
   double weight_tolerance = 1e-4;
+  // Worker threads for the headings (default 0 = all cores; the run's
+  // `threads`). The flags do not depend on it.
+  int num_threads = 0;
 
   // Returns false and sets `error` when a field is out of range, e.g.
   // "outlier threshold must be a positive number".
