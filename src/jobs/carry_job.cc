@@ -309,11 +309,16 @@ std::vector<OutputFile> CarryFiles(const CarryOptions& options, const RunConfig&
   files.push_back({"contributions.csv", ContributionsCsv(survey, contributions)});
   files.push_back({"carried_headings.csv", CarriedHeadingsCsv(*summary, benchmark)});
   files.push_back({"warnings.csv", WarningsCsv(summary->warnings)});
+  // The root's region x region tables, within compute's size limit
+  // (matrices_up_to_regions): they grow with regions squared.
   const NodeResult& root = result.nodes.front();
   const std::string name = NodeFileName(survey.classification.nodes()[0].code) + ".csv";
-  files.push_back({"matrix/" + name, ParityMatrixCsv(survey, root)});
-  if (!root.is_heading) {
-    files.push_back({"bilateral/" + name, AggregateBilateralCsv(survey, root, result.bilaterals[0])});
+  if (survey.num_regions() <= config.matrices_up_to_regions) {
+    files.push_back({"matrix/" + name, ParityMatrixCsv(survey, root)});
+    if (!root.is_heading) {
+      files.push_back(
+          {"bilateral/" + name, AggregateBilateralCsv(survey, root, result.bilaterals[0])});
+    }
   }
   if (options.report) {
     ReportInputs report;

@@ -117,6 +117,26 @@ TEST(CarryCommand, CarriesATwoRegionSurveyAsComputedByHand) {
 }
 
 // The later period's expenditure: shares a (0.3, 0.7), b (0.8, 0.2).
+// The root's region x region tables grow with regions squared: a carried
+// run writes them, as compute does, only up to matrices_up_to_regions.
+TEST(CarryCommand, WritesTheRootsPairTablesOnlyUpToTheSizeLimit) {
+  const std::string dir = MakeTempDir("cli_carry_matrix_limit");
+  std::string bench = WriteHandSurvey(dir);
+  std::string out, err;
+  const std::string carry = "carry " + bench + " --indices " + dir + "/indices.csv --period 2026";
+  ASSERT_EQ(RunCli(carry + " --output " + dir + "/small", &out, &err), 0) << err;
+  EXPECT_NE(ReadTextFile(dir + "/small/matrix/all.csv"), "");
+  EXPECT_NE(ReadTextFile(dir + "/small/bilateral/all.csv"), "");
+  WriteTextFile(dir + "/config.yaml",
+                ReadTextFile(dir + "/config.yaml") + "matrices_up_to_regions: 1\n");
+  ASSERT_EQ(RunCli("compute " + dir + "/config.yaml --output " + dir + "/bench", &out, &err), 0)
+      << err;
+  ASSERT_EQ(RunCli(carry + " --output " + dir + "/large", &out, &err), 0) << err;
+  EXPECT_NE(ReadTextFile(dir + "/large/parities.csv"), "");
+  EXPECT_EQ(ReadTextFile(dir + "/large/matrix/all.csv"), "");
+  EXPECT_EQ(ReadTextFile(dir + "/large/bilateral/all.csv"), "");
+}
+
 TEST(CarryCommand, AggregatesWithTheLaterPeriodsWeightsWhenGiven) {
   const std::string dir = MakeTempDir("cli_carry_later");
   const std::string bench = WriteHandSurvey(dir);
