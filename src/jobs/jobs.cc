@@ -306,6 +306,57 @@ std::string ComputeRunJson(const RunConfig& config, const ComputeJobSummary& sum
   return RunRecordJson(record);
 }
 
+// Every file of a compute run but run.json, in the order they are listed.
+std::vector<OutputFile> ComputeOutputFiles(const RunConfig& config,
+                                           const std::vector<int>& matrix_nodes,
+                                           const ContributionTable& contributions,
+                                           ComputeJobSummary* summary) {
+  const Survey& survey = summary->survey;
+  const ParityResult& result = summary->result;
+  std::vector<OutputFile> files;
+  files.push_back({"parities.csv", ParitiesCsv(survey, result, &summary->plausibility)});
+  files.push_back({"contributions.csv", ContributionsCsv(survey, contributions)});
+  files.push_back({"warnings.csv", WarningsCsv(summary->warnings)});
+  if (const AggregationMethod* method = FindAggregationMethod(config.aggregation);
+      method != nullptr && method->Properties().additive) {
+    files.push_back({"real_by_heading.csv", RealByHeadingCsv(survey, result, *method)});
+  }
+  if (const ElementaryMethod* method = FindElementaryMethod(config.elementary);
+      method != nullptr && method->Properties().gives_representativity_effect) {
+    files.push_back({"representativity.csv", RepresentativityCsv(survey, result)});
+  }
+  AddMatrixFiles(survey, result, matrix_nodes, &files);
+  for (const NodeResult& n : result.nodes) {  // spanning-tree: every aggregate's tree
+    if (n.tree.empty()) continue;
+    const std::string& code = survey.classification.nodes()[n.node].code;
+    files.push_back({"tree/" + NodeFileName(code) + ".csv", TreeCsv(survey, n)});
+  }
+  files.push_back({"outliers.csv", OutliersCsv(survey, summary->outliers)});
+  files.push_back({"dispersion.csv", DispersionCsv(survey, summary->outliers)});
+  if (config.invalid_rows == InvalidRowPolicy::kSkip) {
+    files.push_back({"rejected.csv", RejectedRowsCsv(summary->load.rejected_rows)});
+  }
+  const std::vector<ReportOutlier> report_outliers = ToReportOutliers(survey, summary->outliers);
+  if (config.report) {
+    ReportInputs report;
+    report.outliers = &report_outliers;
+    report.num_cells_not_screenable = summary->outliers.num_cells_not_screenable;
+    report.config = &config;
+    report.survey = &survey;
+    report.load = &summary->load;
+    report.result = &result;
+    report.compute = &summary->compute;
+    report.warnings = summary->warnings;
+    report.plausibility = &summary->plausibility;
+    report.contributions = &contributions;
+    report.explain_region = config.report_region;
+    report.root_spreads = &summary->root_spreads;
+    report.pair_tables_written = !summary->matrices_left_out;
+    files.push_back({"report.html", ReportHtml(report)});
+  }
+  return files;
+}
+
 }  // namespace
 
 int RunCompute(const RunConfig& config, ComputeJobSummary* summary,
@@ -386,47 +437,7 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary,
   if (!result.bilaterals.empty() && result.bilaterals.front().laspeyres.rows() > 0) {
     summary->root_spreads = RegionSpreads(result.bilaterals.front());
   }
-  std::vector<OutputFile> files;
-  files.push_back({"parities.csv", ParitiesCsv(survey, result, &summary->plausibility)});
-  files.push_back({"contributions.csv", ContributionsCsv(survey, contributions)});
-  files.push_back({"warnings.csv", WarningsCsv(summary->warnings)});
-  if (const AggregationMethod* method = FindAggregationMethod(config.aggregation);
-      method != nullptr && method->Properties().additive) {
-    files.push_back({"real_by_heading.csv", RealByHeadingCsv(survey, result, *method)});
-  }
-  if (const ElementaryMethod* method = FindElementaryMethod(config.elementary);
-      method != nullptr && method->Properties().gives_representativity_effect) {
-    files.push_back({"representativity.csv", RepresentativityCsv(survey, result)});
-  }
-  AddMatrixFiles(survey, result, matrix_nodes, &files);
-  for (const NodeResult& n : result.nodes) {  // spanning-tree: every aggregate's tree
-    if (n.tree.empty()) continue;
-    const std::string& code = survey.classification.nodes()[n.node].code;
-    files.push_back({"tree/" + NodeFileName(code) + ".csv", TreeCsv(survey, n)});
-  }
-  files.push_back({"outliers.csv", OutliersCsv(survey, summary->outliers)});
-  files.push_back({"dispersion.csv", DispersionCsv(survey, summary->outliers)});
-  if (config.invalid_rows == InvalidRowPolicy::kSkip) {
-    files.push_back({"rejected.csv", RejectedRowsCsv(summary->load.rejected_rows)});
-  }
-  const std::vector<ReportOutlier> report_outliers = ToReportOutliers(survey, summary->outliers);
-  if (config.report) {
-    ReportInputs report;
-    report.outliers = &report_outliers;
-    report.num_cells_not_screenable = summary->outliers.num_cells_not_screenable;
-    report.config = &config;
-    report.survey = &survey;
-    report.load = &summary->load;
-    report.result = &result;
-    report.compute = &summary->compute;
-    report.warnings = summary->warnings;
-    report.plausibility = &summary->plausibility;
-    report.contributions = &contributions;
-    report.explain_region = config.report_region;
-    report.root_spreads = &summary->root_spreads;
-    report.pair_tables_written = !summary->matrices_left_out;
-    files.push_back({"report.html", ReportHtml(report)});
-  }
+  std::vector<OutputFile> files = ComputeOutputFiles(config, matrix_nodes, contributions, summary);
   for (const OutputFile& file : files) summary->outputs.push_back(file.relative_path);
   summary->outputs.push_back("run.json");
 
