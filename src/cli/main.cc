@@ -166,6 +166,50 @@ void AddPublishOptions(CLI::App* command, paritas::cli::PublishArguments* argume
                       "named in run.json)");
 }
 
+// compare OLD NEW's options.
+void AddCompareOptions(CLI::App* compare, paritas::cli::CompareArguments* arguments) {
+  compare->add_option("old", arguments->old_dir, "output folder of the earlier run")
+      ->required();
+  compare->add_option("new", arguments->new_dir, "output folder of the later run")
+      ->required();
+  compare->add_option("--output", arguments->output,
+                      "folder written: changes.csv, drivers.csv, comparison.html, run.json "
+                      "(default: none, the terminal summary only)");
+  compare->add_option("--node", arguments->node,
+                      "node of the summary and the page's charts (default: the root)");
+  compare->add_option("--top", arguments->top,
+                      "regions listed in the summary, largest moves first (default 10)")
+      ->type_name("INT");
+  compare->add_option("--z", arguments->z,
+                      "a change counts as beyond the runs' uncertainty above z x sqrt(se_old^2 + "
+                      "se_new^2) (default 1.96)")
+      ->type_name("NUMBER");
+}
+
+// carry BENCHMARK's options.
+void AddCarryOptions(CLI::App* carry, paritas::cli::CarryArguments* arguments) {
+  carry->add_option("benchmark", arguments->benchmark_dir,
+                    "output folder of compute for the benchmark period")
+      ->required();
+  carry->add_option("--indices", arguments->indices,
+                    "price index file: region,node,period,index (benchmark period = reference)")
+      ->required();
+  carry->add_option("--period", arguments->period,
+                    "period of the index file to carry to (default: the file's only period)");
+  carry->add_option("--output", arguments->output, "folder of the carried run")->required();
+  carry->add_option("--expenditure", arguments->expenditure,
+                    "expenditure of the later period, region,heading,expenditure (default: "
+                    "aggregate with the benchmark's weights)");
+  carry->add_option("--missing-index", arguments->missing_index,
+                    "a region and heading without an index: stop or country (moved as the "
+                    "country; default stop)");
+  carry->add_option("--config", arguments->config,
+                    "configuration of the benchmark run (default: the one its run.json names)");
+  carry->add_option("--threads", arguments->threads,
+                    "threads for reading the benchmark's survey, 0 = all cores (default 0)");
+  carry->add_flag("--no-report", arguments->no_report, "do not write report.html");
+}
+
 }  // namespace
 
 int main(int argc, char** argv) {
@@ -224,47 +268,13 @@ int main(int argc, char** argv) {
 
   paritas::cli::CompareArguments compare_arguments;
   CLI::App* compare = app.add_subcommand("compare", "compare two output folders of compute");
-  compare->add_option("old", compare_arguments.old_dir, "output folder of the earlier run")
-      ->required();
-  compare->add_option("new", compare_arguments.new_dir, "output folder of the later run")
-      ->required();
-  compare->add_option("--output", compare_arguments.output,
-                      "folder written: changes.csv, drivers.csv, comparison.html, run.json "
-                      "(default: none, the terminal summary only)");
-  compare->add_option("--node", compare_arguments.node,
-                      "node of the summary and the page's charts (default: the root)");
-  compare->add_option("--top", compare_arguments.top,
-                      "regions listed in the summary, largest moves first (default 10)")
-      ->type_name("INT");
-  compare->add_option("--z", compare_arguments.z,
-                      "a change counts as beyond the runs' uncertainty above z x sqrt(se_old^2 + "
-                      "se_new^2) (default 1.96)")
-      ->type_name("NUMBER");
+  AddCompareOptions(compare, &compare_arguments);
   compare->footer(HelpFooter("paritas compare out/last-year out/demo --output out/changes"));
 
   paritas::cli::CarryArguments carry_arguments;
   CLI::App* carry = app.add_subcommand(
       "carry", "carry a benchmark run's parities to a later period with regional price indices");
-  carry->add_option("benchmark", carry_arguments.benchmark_dir,
-                    "output folder of compute for the benchmark period")
-      ->required();
-  carry->add_option("--indices", carry_arguments.indices,
-                    "price index file: region,node,period,index (benchmark period = reference)")
-      ->required();
-  carry->add_option("--period", carry_arguments.period,
-                    "period of the index file to carry to (default: the file's only period)");
-  carry->add_option("--output", carry_arguments.output, "folder of the carried run")->required();
-  carry->add_option("--expenditure", carry_arguments.expenditure,
-                    "expenditure of the later period, region,heading,expenditure (default: "
-                    "aggregate with the benchmark's weights)");
-  carry->add_option("--missing-index", carry_arguments.missing_index,
-                    "a region and heading without an index: stop or country (moved as the "
-                    "country; default stop)");
-  carry->add_option("--config", carry_arguments.config,
-                    "configuration of the benchmark run (default: the one its run.json names)");
-  carry->add_option("--threads", carry_arguments.threads,
-                    "threads for reading the benchmark's survey, 0 = all cores (default 0)");
-  carry->add_flag("--no-report", carry_arguments.no_report, "do not write report.html");
+  AddCarryOptions(carry, &carry_arguments);
   carry->footer(HelpFooter(
       "paritas carry out/demo --indices data/demo/price_indices.csv --output out/demo-2026"));
 
