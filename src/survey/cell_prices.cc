@@ -46,6 +46,63 @@ void AddQuote(const QuoteArrays& quotes, size_t q, CellMoments* moments) {
   }
 }
 
+// The cells of quotes already grouped by key (item-major, then region):
+// key k holds value[start[k] .. start[k + 1]), thread t takes the keys
+// [key_begin[t], key_begin[t + 1]) and writes its cells after those of the
+// threads before it, so the order does not depend on the thread count. `flag`
+// and `weight` are empty when the quotes have none.
+void WriteCells(const std::vector<uint32_t>& start, const std::vector<int64_t>& key_begin,
+                int threads, int num_regions, const std::vector<double>& value,
+                const std::vector<uint8_t>& flag, const std::vector<double>& weight,
+                CellPrices* cells) {
+  const bool flagged = !flag.empty();
+  const bool weighted = !weight.empty();
+  // Cells per key range, to know where each thread writes.
+  std::vector<int64_t> cell_begin(threads + 1, 0);
+#pragma omp parallel for schedule(static, 1) num_threads(threads)
+  for (int t = 0; t < threads; ++t) {
+    int64_t num_cells = 0;
+    for (int64_t k = key_begin[t]; k < key_begin[t + 1]; ++k) num_cells += start[k + 1] > start[k];
+    cell_begin[t + 1] = num_cells;
+  }
+  for (int t = 0; t < threads; ++t) cell_begin[t + 1] += cell_begin[t];
+  const size_t num_cells = static_cast<size_t>(cell_begin[threads]);
+  cells->region.resize(num_cells);
+  cells->item.resize(num_cells);
+  cells->log_price.resize(num_cells);
+  cells->log_sd.resize(num_cells);
+  cells->log_min.resize(num_cells);
+  cells->log_max.resize(num_cells);
+  cells->num_quotes.resize(num_cells);
+  cells->representative.resize(num_cells);
+  if (weighted) cells->weight.resize(num_cells);
+#pragma omp parallel for schedule(static, 1) num_threads(threads)
+  for (int t = 0; t < threads; ++t) {
+    int64_t c = cell_begin[t];
+    for (int64_t k = key_begin[t]; k < key_begin[t + 1]; ++k) {
+      if (start[k + 1] == start[k]) continue;
+      CellMoments moments;
+      for (uint32_t at = start[k]; at < start[k + 1]; ++at) {
+        if (weighted) {
+          moments.AddWeighted(value[at], flagged && flag[at] != 0, weight[at]);
+        } else {
+          moments.Add(value[at], flagged && flag[at] != 0);
+        }
+      }
+      cells->region[c] = static_cast<int32_t>(k % num_regions);
+      cells->item[c] = static_cast<int32_t>(k / num_regions);
+      cells->log_price[c] = moments.mean;
+      cells->log_sd[c] = moments.LogSd(weighted);
+      if (weighted) cells->weight[c] = moments.sum_weight;
+      cells->log_min[c] = moments.min;
+      cells->log_max[c] = moments.max;
+      cells->num_quotes[c] = moments.num_quotes;
+      cells->representative[c] = moments.representative;
+      ++c;
+    }
+  }
+}
+
 // One counting sort on the dense cell key item x R + region: the quotes'
 // values are scattered straight into key order, so the cells are then read
 // off sequentially. Used when the key range is small enough to count.
@@ -129,50 +186,7 @@ void CellsByDenseKey(const QuoteArrays& quotes, int num_regions, int num_items, 
     }
   }
   offset = {};
-  // Cells per key range, to know where each thread writes.
-  std::vector<int64_t> cell_begin(threads + 1, 0);
-#pragma omp parallel for schedule(static, 1) num_threads(threads)
-  for (int t = 0; t < threads; ++t) {
-    int64_t num_cells = 0;
-    for (int64_t k = key_begin[t]; k < key_begin[t + 1]; ++k) num_cells += start[k + 1] > start[k];
-    cell_begin[t + 1] = num_cells;
-  }
-  for (int t = 0; t < threads; ++t) cell_begin[t + 1] += cell_begin[t];
-  const size_t num_cells = static_cast<size_t>(cell_begin[threads]);
-  cells->region.resize(num_cells);
-  cells->item.resize(num_cells);
-  cells->log_price.resize(num_cells);
-  cells->log_sd.resize(num_cells);
-  cells->log_min.resize(num_cells);
-  cells->log_max.resize(num_cells);
-  cells->num_quotes.resize(num_cells);
-  cells->representative.resize(num_cells);
-  if (weighted) cells->weight.resize(num_cells);
-#pragma omp parallel for schedule(static, 1) num_threads(threads)
-  for (int t = 0; t < threads; ++t) {
-    int64_t c = cell_begin[t];
-    for (int64_t k = key_begin[t]; k < key_begin[t + 1]; ++k) {
-      if (start[k + 1] == start[k]) continue;
-      CellMoments moments;
-      for (uint32_t at = start[k]; at < start[k + 1]; ++at) {
-        if (weighted) {
-          moments.AddWeighted(value[at], flagged && flag[at] != 0, weight[at]);
-        } else {
-          moments.Add(value[at], flagged && flag[at] != 0);
-        }
-      }
-      cells->region[c] = static_cast<int32_t>(k % num_regions);
-      cells->item[c] = static_cast<int32_t>(k / num_regions);
-      cells->log_price[c] = moments.mean;
-      cells->log_sd[c] = moments.LogSd(weighted);
-      if (weighted) cells->weight[c] = moments.sum_weight;
-      cells->log_min[c] = moments.min;
-      cells->log_max[c] = moments.max;
-      cells->num_quotes[c] = moments.num_quotes;
-      cells->representative[c] = moments.representative;
-      ++c;
-    }
-  }
+  WriteCells(start, key_begin, threads, num_regions, value, flag, weight, cells);
 }
 
 // Two stable counting sorts (by region, then by item) of quote positions,
