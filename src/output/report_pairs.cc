@@ -101,7 +101,9 @@ std::string PairChartsHtml(const Context& ctx, const ReportSensitivity& s) {
       "<span style=\"color:#4393c3\">cheaper</span> or not told apart (grey) from each column "
       "region, dearest first. The lists run dearest first and start a new group where a "
       "region is told apart from the one before it; a group's first and last regions may "
-      "still be told apart from each other. Every pair's interval is in "
+      "still be told apart from each other. Each pair is judged on its own, with no "
+      "correction for the number of comparisons: of the pairs whose levels are equal, some "
+      "are told apart by chance (about 5 in 100 at a 95 % level). Every pair's interval is in "
       "sensitivity/pair_ratios.csv.</p>\n";
   for (const ReportSensitivity::PairChart& chart : s.pair_charts) {
     out += "<h4>" + HtmlEscape(ctx.NodeName(chart.node)) + "</h4>\n";
