@@ -27,6 +27,7 @@
 #include "paritas/survey/config.h"
 #include "paritas/survey/survey.h"
 #include "paritas/survey/survey_loader.h"
+#include "paritas/use/carry_forward.h"
 #include "paritas/use/deflation.h"
 
 namespace paritas::fuzz {
@@ -1001,10 +1002,93 @@ std::string CheckDeflate(std::string_view data, const std::string& work_dir) {
   return "";
 }
 
+namespace {
+
+// What is wrong with a table ReadPriceIndices returned, or "".
+std::string PriceIndexTableProblem(const Classification& tree, int num_regions,
+                                   const PriceIndexTable& table) {
+  const int num_headings = static_cast<int>(tree.headings().size());
+  if (table.index.rows() != num_regions || table.index.cols() != num_headings ||
+      table.from_node.rows() != num_regions || table.from_node.cols() != num_headings) {
+    return "table is not regions x headings";
+  }
+  if (table.num_rows_used + table.num_rows_other_period != table.num_rows_read) {
+    return "rows do not add up: used " + std::to_string(table.num_rows_used) + " + other " +
+           std::to_string(table.num_rows_other_period) + " != read " +
+           std::to_string(table.num_rows_read);
+  }
+  if (std::find(table.periods.begin(), table.periods.end(), table.period) == table.periods.end()) {
+    return "chosen period is not among the file's periods";
+  }
+  for (int r = 0; r < num_regions; ++r) {
+    for (int h = 0; h < num_headings; ++h) {
+      const double value = table.index(r, h);
+      int node = table.from_node(r, h);
+      if (std::isnan(value) != (node < 0)) return "an entry and its source node disagree";
+      if (node < 0) continue;
+      if (!std::isfinite(value) || value <= 0) return "an index is not positive and finite";
+      // The source must be the heading itself or an aggregate above it.
+      int at = tree.headings()[h];
+      while (at >= 0 && at != node) at = tree.nodes()[at].parent;
+      if (at < 0) return "an entry comes from a node that does not hold its heading";
+    }
+  }
+  return "";
+}
+
+bool SameTable(const PriceIndexTable& a, const PriceIndexTable& b) {
+  return a.period == b.period && a.periods == b.periods && a.from_node == b.from_node &&
+         a.num_rows_read == b.num_rows_read && a.num_rows_used == b.num_rows_used &&
+         a.index.rows() == b.index.rows() && a.index.cols() == b.index.cols() &&
+         ((a.index.array() == b.index.array()) || (a.index.array().isNaN() && b.index.array().isNaN()))
+             .all();
+}
+
+}  // namespace
+
+std::string CheckPriceIndices(std::string_view data, const std::string& work_dir) {
+  static const Classification tree = [] {
+    Classification parsed;
+    std::string error;
+    Classification::FromYaml("all:\n  - food:\n      - bread\n      - milk\n  - rent\n", "tree",
+                             &parsed, &error);
+    return parsed;
+  }();
+  const std::vector<std::string> regions = {"north", "south", "east"};
+  const std::string path = work_dir + "/indices.csv";
+  std::string error;
+  if (!WriteFile(path, data, &error)) return "cannot write the input: " + error;
+  PriceIndexTable table, again;
+  std::string message, message_again;
+  const bool ok = ReadPriceIndices(path, ReadLimits(), tree, regions, "", &table, &message);
+  const bool ok_again = ReadPriceIndices(path, ReadLimits(), tree, regions, "", &again,
+                                         &message_again);
+  if (ok != ok_again || message != message_again || (ok && !SameTable(table, again))) {
+    return "two reads of the same file differ";
+  }
+  if (!ok) {
+    if (message.rfind(path, 0) != 0) return "message does not start with the path: " + message;
+    if (table.periods.size() < 2 || message.find(" periods (") == std::string::npos) return "";
+    // Refused for holding several periods: each must read on its own.
+    for (const std::string& period : std::vector<std::string>(table.periods)) {
+      PriceIndexTable one;
+      if (!ReadPriceIndices(path, ReadLimits(), tree, regions, period, &one, &message)) {
+        return "period " + QuoteValue(period) + " of a several-period file fails: " + message;
+      }
+      if (std::string p = PriceIndexTableProblem(tree, 3, one); !p.empty()) {
+        return "period " + QuoteValue(period) + ": " + p;
+      }
+    }
+    return "";
+  }
+  return PriceIndexTableProblem(tree, 3, table);
+}
+
 const std::vector<Harness>& Harnesses() {
   static const std::vector<Harness> harnesses = {
       {"csv_reader", CheckCsvReader},       {"text", CheckText},       {"config", CheckConfig},
       {"survey_loader", CheckSurveyLoader}, {"deflate", CheckDeflate},
+      {"price_indices", CheckPriceIndices},
   };
   return harnesses;
 }

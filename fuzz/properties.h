@@ -62,6 +62,17 @@ std::string CheckSurveyLoader(std::string_view data, const std::string& work_dir
 // invalid_rows: stop rejects the same rows and writes nothing when it does.
 std::string CheckDeflate(std::string_view data, const std::string& work_dir);
 
+// Price index file of `paritas carry` (ReadPriceIndices in
+// paritas/use/carry_forward.h) against a fixed tree (aggregate food of bread
+// and milk; heading rent) and regions north, south and east. A failure has a
+// message starting with the file's path; a read that succeeds gives a table of
+// regions x headings whose entries are NaN exactly where no row gave them and
+// positive and finite elsewhere, each from the heading's own row or an
+// aggregate above it, with rows used + rows of other periods = rows read; a
+// file refused for holding several periods reads with each of them; reading
+// twice gives the same table.
+std::string CheckPriceIndices(std::string_view data, const std::string& work_dir);
+
 // A check as the harnesses and the regression test call it.
 using Check = std::string (*)(std::string_view data, const std::string& work_dir);
 
