@@ -17,7 +17,9 @@ sensitivity run between replicates and raises KeyboardInterrupt.
 
 This package only converts: tables arrive as the text of the files the
 command line writes (the same writer, exact numbers) and are read into
-DataFrames here; every number comes from the library.
+DataFrames here; every number comes from the library. The numeric results
+also arrive as read-only numpy arrays over the library's own memory
+(run.arrays): no copy, kept alive by the arrays themselves.
 """
 
 from __future__ import annotations
@@ -30,6 +32,7 @@ import tempfile
 from dataclasses import dataclass, field
 from typing import Any, Dict, List, Optional, Sequence, Union
 
+import numpy as np
 import pandas as pd
 
 from . import _paritas
@@ -39,7 +42,7 @@ __version__ = _paritas.__version__
 __all__ = [
     "ParitasError", "InvalidInput", "ComputationFailed", "RunWarning",
     "CheckResult", "ComputeResult", "PairResult", "SensitivityResult",
-    "CompareResult", "check", "compute", "pair", "deflate", "sensitivity", "compare",
+    "CompareResult", "ComputeArrays", "SensitivityArrays", "check", "compute", "pair", "deflate", "sensitivity", "compare",
     "read_table",
 ]
 
@@ -63,10 +66,20 @@ class ParitasError(Exception):
         frame, row_label: for a survey given as DataFrames, the frame
             ("prices", "prices[1]", "expenditure", ...) and the index label of
             the first rejected row; None otherwise.
-        file, line, column: where the problem is (the first rejected row, or
-            the location the message starts with); None when not about a place.
-        key, value: the keyword option (or configuration key) and the value
-            found, for a bad option; None otherwise.
+        file, line, column: where the problem is. For a configuration
+            error, the library's own parts: the configuration's path and the
+            1-based line and column of the key or value at fault (line and
+            column None where the reader has no place, e.g. a file that
+            cannot be read). Otherwise the first rejected row, or the
+            location the message starts with; None when not about a place.
+        key, value: the setting at fault and the text found: a keyword
+            option, or a configuration key as a dotted path
+            ("survey.prices.delimiter", "checks.min_items"; an unknown key
+            as written, its value being what was written under it); None
+            when the problem is not about one setting. A survey given as
+            DataFrames runs from a generated "config.yaml" holding its
+            sections; file, line and column then point into that file, as
+            the message does.
         rejected_rows: DataFrame of the rejected rows (file, line, reason,
             raw), empty when the stop was not about rows.
         exit_code: the command line's exit code for the same failure.
@@ -88,10 +101,15 @@ class ParitasError(Exception):
         self.line: Optional[int] = None
         self.column: Optional[int] = None
         located = _LOCATION.match(rows[0]["reason"] if rows else self.message)
-        if located:
+        if outcome.get("line") is not None:  # the configuration reader's parts
+            self.file, self.line = outcome["file"], outcome["line"]
+            self.column = outcome["column"]
+        elif located:
             self.file = located["file"]
             self.line = int(located["line"])
             self.column = int(located["column"]) if located["column"] else None
+        elif outcome.get("file"):
+            self.file = outcome["file"]
         super().__init__(self.message)
 
 
@@ -164,19 +182,97 @@ class CheckResult:
 
 
 @dataclass
+class ComputeArrays:
+    """A compute run's numbers as read-only numpy arrays (float64, NaN where
+    a region has no parity), over memory the library filled: no copy is made
+    when they are handed out, every access returns the same arrays, and they
+    stay valid after the result is deleted (each array keeps that memory
+    alive). Writing to them raises ValueError: they are the run's numbers.
+
+    Attributes:
+        parity: nodes x regions, the parity column of parities.csv (reference
+            = 100). The library holds one vector per node; this matrix is
+            assembled from them once, in C++, when the run returns.
+        nodes: node codes, the rows of `parity` (classification order,
+            groups last).
+        regions: region codes, the columns of `parity` (survey order).
+        matrices: node code -> region x region array of matrix/<node>.csv
+            (cell (a, b) = 100 x parity(b) / parity(a)), computed by the
+            library for the nodes whose matrix file the run makes.
+        matrix_regions: node code -> the region codes of that matrix's rows
+            and columns (the regions with a parity at the node).
+    """
+
+    parity: np.ndarray
+    nodes: List[str]
+    regions: List[str]
+    matrices: Dict[str, np.ndarray]
+    matrix_regions: Dict[str, List[str]]
+
+
+@dataclass
+class SensitivityArrays:
+    """A sensitivity run's node x region results as read-only numpy arrays
+    over the library's result (no copy; valid after the result is deleted;
+    writing raises ValueError). None for a part that did not run.
+
+    Attributes:
+        nodes, regions: codes of the rows and columns.
+        parity: full-sample parity (reference = 100).
+        median, lower, upper: the bootstrap replicates' median parity and
+            interval ends (the columns of bootstrap.csv).
+        log_se: bootstrap standard error of ln parity.
+        replicates: node x region x replicate ln parities (replicates.bin's
+            values), with write_replicates=True; None otherwise.
+    """
+
+    nodes: List[str]
+    regions: List[str]
+    parity: Optional[np.ndarray]
+    median: Optional[np.ndarray]
+    lower: Optional[np.ndarray]
+    upper: Optional[np.ndarray]
+    log_se: Optional[np.ndarray]
+    replicates: Optional[np.ndarray]
+
+
+def _compute_arrays(given: Dict[str, Any]) -> ComputeArrays:
+    matrices = {node: view for node, (view, _) in given["matrices"].items()}
+    regions = {node: codes for node, (_, codes) in given["matrices"].items()}
+    return ComputeArrays(parity=given["parity"], nodes=given["nodes"], regions=given["regions"],
+                         matrices=matrices, matrix_regions=regions)
+
+
+def _matrix_frame(view: np.ndarray, regions: List[str]) -> pd.DataFrame:
+    """A region x region DataFrame over `view` itself: one float64 block,
+    which pandas keeps as the array given (copy=False), so no copy."""
+    return pd.DataFrame(view, index=pd.Index(regions, name="region", dtype=object),
+                        columns=pd.Index(regions, dtype=object), copy=False)
+
+
+@dataclass
 class ComputeResult:
-    """The outputs of a compute run as DataFrames.
+    """The outputs of a compute run as DataFrames and numpy arrays.
+
+    Which frames are views and which copies: `matrices` are views over the
+    read-only arrays of `arrays` (one float64 block each, which pandas keeps
+    without copying). The other frames mix text and number columns, so
+    pandas stores each kind in blocks of its own; they are read from the
+    files' exact text (a copy) rather than assembled from the library's
+    vectors column by column (also a copy).
 
     Attributes:
         parities: parities.csv (node x region rows, the same columns).
         contributions, outliers, dispersion: the files of the same names.
-        matrices: node code -> region x region DataFrame (matrix/<node>.csv),
-            for the nodes the `matrices` option names (default the root).
+        matrices: node code -> region x region DataFrame (matrix/<node>.csv's
+            numbers, bit for bit), for the nodes the `matrices` option names
+            (default the root); a view of arrays.matrices[node], read-only.
         bilaterals: node code -> DataFrame (bilateral/<node>.csv).
         warnings: every warning, in listing order.
         record: run.json as a dict.
         report: what the command line prints.
         files: every output file's name -> its text, exactly as written.
+        arrays: the numbers as read-only numpy arrays (ComputeArrays).
     """
 
     parities: pd.DataFrame
@@ -190,6 +286,7 @@ class ComputeResult:
     report: str
     files: Dict[str, str] = field(repr=False)
     exit_code: int = 0
+    arrays: Optional[ComputeArrays] = field(default=None, repr=False)
 
     def table(self, name: str) -> pd.DataFrame:
         """Returns any output table by file name, e.g. "real_by_heading.csv"."""
@@ -209,13 +306,16 @@ class PairResult:
 @dataclass
 class SensitivityResult:
     """A sensitivity run's tables: file name (relative to the sensitivity
-    folder) -> DataFrame, plus warnings, the run record and the report."""
+    folder) -> DataFrame (read from the files' text), plus warnings, the run
+    record, the report and the node x region results as read-only numpy
+    arrays over the library's memory (arrays, SensitivityArrays)."""
 
     tables: Dict[str, pd.DataFrame]
     warnings: List[RunWarning]
     record: Dict[str, Any]
     report: str
     files: Dict[str, str] = field(repr=False)
+    arrays: Optional[SensitivityArrays] = field(default=None, repr=False)
 
 
 def _path(config: Union[str, os.PathLike]) -> str:
@@ -407,13 +507,13 @@ def compute(config: Union[str, os.PathLike, None] = None, *, prices: Union[pd.Da
                  groups=groups, labels=labels, missing_parities=missing_parities,
                  checks=checks, limits=limits), options, write)
     files: Dict[str, str] = outcome["files"]
-    matrices = {}
+    arrays = _compute_arrays(outcome["arrays"])
+    matrices = {node: _matrix_frame(view, arrays.matrix_regions[node])
+                for node, view in arrays.matrices.items()}
     bilaterals = {}
     for name, text in files.items():
         folder, _, base = name.partition("/")
-        if folder == "matrix":
-            matrices[_node_of(base)] = read_table(text, index_col=0)
-        elif folder == "bilateral":
+        if folder == "bilateral":
             bilaterals[_node_of(base)] = read_table(text)
     return ComputeResult(
         parities=read_table(files["parities.csv"]),
@@ -422,7 +522,7 @@ def compute(config: Union[str, os.PathLike, None] = None, *, prices: Union[pd.Da
         dispersion=read_table(files["dispersion.csv"]),
         matrices=matrices, bilaterals=bilaterals, warnings=_warnings(outcome),
         record=json.loads(files["run.json"]), report=outcome["report"], files=files,
-        exit_code=outcome["exit_code"])
+        exit_code=outcome["exit_code"], arrays=arrays)
 
 
 def _node_of(file_name: str) -> str:
@@ -567,7 +667,7 @@ def sensitivity(config: Union[str, os.PathLike, None] = None, *, prices: Union[p
     tables = {name: read_table(text) for name, text in files.items() if name.endswith(".csv")}
     return SensitivityResult(tables=tables, warnings=_warnings(outcome),
                              record=json.loads(files["run.json"]), report=outcome["report"],
-                             files=files)
+                             files=files, arrays=SensitivityArrays(**outcome["arrays"]))
 
 
 @dataclass

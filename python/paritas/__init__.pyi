@@ -3,6 +3,7 @@
 import os
 from typing import Any, Dict, List, Optional, Sequence, Union
 
+import numpy as np
 import pandas as pd
 
 __version__: str
@@ -41,6 +42,23 @@ class CheckResult:
     warnings: List[RunWarning]
     rejected_rows: pd.DataFrame
 
+class ComputeArrays:
+    parity: np.ndarray
+    nodes: List[str]
+    regions: List[str]
+    matrices: Dict[str, np.ndarray]
+    matrix_regions: Dict[str, List[str]]
+
+class SensitivityArrays:
+    nodes: List[str]
+    regions: List[str]
+    parity: Optional[np.ndarray]
+    median: Optional[np.ndarray]
+    lower: Optional[np.ndarray]
+    upper: Optional[np.ndarray]
+    log_se: Optional[np.ndarray]
+    replicates: Optional[np.ndarray]
+
 class ComputeResult:
     parities: pd.DataFrame
     contributions: pd.DataFrame
@@ -53,6 +71,7 @@ class ComputeResult:
     report: str
     files: Dict[str, str]
     exit_code: int
+    arrays: ComputeArrays
     def table(self, name: str) -> pd.DataFrame: ...
 
 class PairResult:
@@ -66,6 +85,7 @@ class SensitivityResult:
     record: Dict[str, Any]
     report: str
     files: Dict[str, Union[str, bytes]]
+    arrays: SensitivityArrays
 
 def read_table(text: str, index_col: Optional[int] = ...) -> pd.DataFrame: ...
 

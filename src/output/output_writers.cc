@@ -214,6 +214,19 @@ std::string ParityMatrixCsv(const Survey& survey, const NodeResult& node) {
       header);
 }
 
+Eigen::MatrixXd ParityMatrix(const NodeResult& node, std::vector<int>* regions) {
+  *regions = RegionsWithParity(node);
+  const int n = static_cast<int>(regions->size());
+  Eigen::MatrixXd matrix(n, n);
+  for (int j = 0; j < n; ++j) {
+    for (int i = 0; i < n; ++i) {
+      // The expression ParityMatrixCsv writes, so the bits agree.
+      matrix(i, j) = 100.0 * node.parity((*regions)[j]) / node.parity((*regions)[i]);
+    }
+  }
+  return matrix;
+}
+
 std::string AggregateBilateralCsv(const Survey& survey, const NodeResult& node,
                                   const BilateralMatrices& bilaterals) {
   const std::vector<int> regions = RegionsWithParity(node);

@@ -1,10 +1,12 @@
 // The extension `paritas._paritas`: each function reads a configuration,
 // applies keyword options through the library's own parsers, runs one library
 // job with the GIL released and hands back plain Python values (the output
-// files' text, rejected rows, warnings). The package around it
+// files' text, rejected rows, warnings) and read-only numpy arrays over the
+// results' own memory, owned by a capsule (no copy). The package around it
 // (python/paritas/__init__.py) turns tables into DataFrames and outcomes into
 // exceptions; no computing happens in either layer.
 #include <pybind11/functional.h>
+#include <pybind11/numpy.h>
 #include <pybind11/pybind11.h>
 #include <pybind11/stl.h>
 
@@ -12,6 +14,8 @@
 #include <chrono>
 #include <condition_variable>
 #include <exception>
+#include <limits>
+#include <memory>
 #include <mutex>
 #include <string>
 #include <thread>
@@ -23,6 +27,7 @@
 #include "paritas/aggregation/aggregation_method.h"
 #include "paritas/jobs/compare_job.h"
 #include "paritas/jobs/jobs.h"
+#include "paritas/output/output_writers.h"
 #include "paritas/survey/config.h"
 #include "paritas/survey/survey_loader.h"
 #include "paritas/uncertainty/sensitivity.h"
@@ -43,6 +48,16 @@ py::dict Failure(int exit_code, const std::string& message, const std::string& k
   out["message"] = message;
   out["key"] = key;
   out["value"] = value;
+  return out;
+}
+
+// A configuration error with its parts (file, line, column; None where the
+// reader has none).
+py::dict ConfigFailure(const ConfigError& error) {
+  py::dict out = Failure(kExitInvalidInput, error.message, error.key, error.value);
+  out["file"] = error.file;
+  out["line"] = error.line > 0 ? py::object(py::int_(error.line)) : py::object(py::none());
+  out["column"] = error.column > 0 ? py::object(py::int_(error.column)) : py::object(py::none());
   return out;
 }
 
@@ -79,6 +94,125 @@ py::dict Files(const std::vector<OutputFile>& files) {
     const bool binary = f.relative_path.ends_with(".bin");
     out[py::str(f.relative_path)] =
         binary ? py::object(py::bytes(f.contents)) : py::object(py::str(f.contents));
+  }
+  return out;
+}
+
+// A Python object owning `object`: deleted when the last array over its
+// memory (each holds the capsule as its base) is garbage-collected.
+template <typename T>
+py::capsule Owner(std::unique_ptr<T> object) {
+  return py::capsule(object.release(), [](void* p) { delete static_cast<T*>(p); });
+}
+
+// A read-only float64 array over `data` (no copy), kept alive by `owner`.
+py::array ReadOnlyView(const double* data, std::vector<py::ssize_t> shape,
+                       std::vector<py::ssize_t> strides, const py::capsule& owner) {
+  py::array view(py::dtype::of<double>(), std::move(shape), std::move(strides), data, owner);
+  view.attr("flags").attr("writeable") = false;
+  return view;
+}
+
+// A view of an Eigen matrix (column-major) as rows x cols; None when empty
+// (a part that did not run).
+py::object MatrixView(const Eigen::MatrixXd& m, const py::capsule& owner) {
+  if (m.size() == 0) return py::none();
+  constexpr py::ssize_t kDouble = sizeof(double);
+  return ReadOnlyView(m.data(), {m.rows(), m.cols()}, {kDouble, kDouble * m.rows()}, owner);
+}
+
+py::list NodeCodes(const Survey& survey) {
+  py::list out;
+  for (const ClassificationNode& node : survey.classification.nodes()) out.append(node.code);
+  return out;
+}
+
+py::list RegionCodes(const Survey& survey, const std::vector<int>& regions) {
+  py::list out;
+  for (int r : regions) out.append(survey.regions.Code(r));
+  return out;
+}
+
+std::vector<int> EveryRegion(const Survey& survey) {
+  std::vector<int> regions(survey.num_regions());
+  for (int r = 0; r < survey.num_regions(); ++r) regions[r] = r;
+  return regions;
+}
+
+// What the arrays of a compute run point into: the parities as one nodes x
+// regions matrix (the library holds one vector per node, so this is the one
+// copy made, once) and the parity matrix of every node whose matrix/ file
+// the run made (ParityMatrix, the file's numbers).
+struct ComputeArrays {
+  Eigen::MatrixXd parity;
+  std::vector<Eigen::MatrixXd> matrices;
+};
+
+py::dict ComputeArrayViews(const ComputeJobSummary& summary) {
+  const Survey& survey = summary.survey;
+  const std::vector<NodeResult>& nodes = summary.result.nodes;
+  auto held = std::make_unique<ComputeArrays>();
+  held->parity.resize(static_cast<Eigen::Index>(nodes.size()), survey.num_regions());
+  held->parity.setConstant(std::numeric_limits<double>::quiet_NaN());
+  for (size_t n = 0; n < nodes.size(); ++n) {
+    if (nodes[n].parity.size() == held->parity.cols()) {
+      held->parity.row(static_cast<Eigen::Index>(n)) = nodes[n].parity.transpose();
+    }
+  }
+  std::vector<bool> has_file;
+  for (const NodeResult& node : nodes) {
+    const std::string name =
+        "matrix/" + NodeFileName(survey.classification.nodes()[node.node].code) + ".csv";
+    bool found = false;
+    for (const OutputFile& f : summary.files) found = found || f.relative_path == name;
+    has_file.push_back(found);
+  }
+  std::vector<std::vector<int>> matrix_regions;
+  std::vector<int> matrix_nodes;
+  for (size_t n = 0; n < nodes.size(); ++n) {
+    if (!has_file[n]) continue;
+    matrix_regions.emplace_back();
+    held->matrices.push_back(ParityMatrix(nodes[n], &matrix_regions.back()));
+    matrix_nodes.push_back(nodes[n].node);
+  }
+  const ComputeArrays& arrays = *held;
+  const py::capsule owner = Owner(std::move(held));
+  py::dict out;
+  out["parity"] = MatrixView(arrays.parity, owner);
+  out["nodes"] = NodeCodes(survey);
+  out["regions"] = RegionCodes(survey, EveryRegion(survey));
+  py::dict matrices;
+  for (size_t k = 0; k < matrix_nodes.size(); ++k) {
+    matrices[py::str(survey.classification.nodes()[matrix_nodes[k]].code)] = py::make_tuple(
+        MatrixView(arrays.matrices[k], owner), RegionCodes(survey, matrix_regions[k]));
+  }
+  out["matrices"] = matrices;
+  return out;
+}
+
+// Views of a sensitivity run's node x region matrices and, when kept, its
+// replicates (node x region x replicate), over the library's result moved
+// into the capsule: no copy.
+py::dict SensitivityArrayViews(SensitivityJobSummary* summary) {
+  auto held = std::make_unique<SensitivityResult>(std::move(summary->result));
+  const SensitivityResult& result = *held;
+  const py::capsule owner = Owner(std::move(held));
+  py::dict out;
+  out["nodes"] = NodeCodes(summary->survey);
+  out["regions"] = RegionCodes(summary->survey, EveryRegion(summary->survey));
+  out["parity"] = MatrixView(result.parity, owner);
+  out["median"] = MatrixView(result.boot_median, owner);
+  out["lower"] = MatrixView(result.boot_lower, owner);
+  out["upper"] = MatrixView(result.boot_upper, owner);
+  out["log_se"] = MatrixView(result.boot_log_se, owner);
+  out["replicates"] = py::none();
+  const py::ssize_t num_b = result.boot_num_replicates_kept;
+  if (num_b > 0 && !result.boot_log_parity.empty()) {
+    constexpr py::ssize_t kDouble = sizeof(double);
+    const py::ssize_t num_regions = result.parity.cols();
+    out["replicates"] =
+        ReadOnlyView(result.boot_log_parity.data(), {result.parity.rows(), num_regions, num_b},
+                     {kDouble * num_regions * num_b, kDouble * num_b, kDouble}, owner);
   }
   return out;
 }
@@ -165,11 +299,12 @@ bool ApplyOption(const std::string& key, const py::handle& value, RunConfig* con
 // Reads the configuration and applies `options`; on failure fills `failure`.
 bool LoadConfig(const std::string& path, const py::dict& options, RunConfig* config,
                 py::dict* failure) {
-  std::string error;
-  if (!LoadRunConfig(path, config, &error)) {
-    *failure = Failure(kExitInvalidInput, error);
+  ConfigError config_error;
+  if (!LoadRunConfig(path, config, &config_error)) {
+    *failure = ConfigFailure(config_error);
     return false;
   }
+  std::string error;
   for (const auto& [key, value] : options) {
     const std::string name = py::cast<std::string>(key);
     try {
@@ -292,6 +427,7 @@ py::dict Compute(const std::string& config_path, const py::dict& options, bool w
   out["warnings"] = Warnings(summary.warnings);
   out["rejected_rows"] = RejectedRows(summary.load.rejected_rows);
   out["output"] = config.output;
+  out["arrays"] = ComputeArrayViews(summary);
   return out;
 }
 
@@ -433,6 +569,7 @@ py::dict Sensitivity(const std::string& config_path, const py::dict& options,
   out["report"] = summary.FullReport(run);
   out["files"] = Files(summary.files);
   out["warnings"] = Warnings(summary.warnings);
+  out["arrays"] = SensitivityArrayViews(&summary);  // last: moves the result
   return out;
 }
 

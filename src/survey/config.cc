@@ -146,9 +146,26 @@ class ConfigParser {
     }
   }
 
+  // The error's parts as far as the parser knows them: where (the last
+  // place an error message was started with), the key and the value.
+  const ConfigError& failure() const { return failure_; }
+
  private:
-  std::string Where(const YAML::Mark& mark) const { return internal::YamlWhere(path_, mark); }
-  std::string Where(const YAML::Node& node) const { return Where(node.Mark()); }
+  // Returns the prefix "path:line:column: " of an error message at `mark`,
+  // and records the place (every message starts with it, and the first error
+  // ends the parse, so the last place recorded is the error's). When `mark`
+  // is that of the value last read by Scalar, the error is about that
+  // value: its key and text are recorded too.
+  std::string Where(const YAML::Mark& mark) {
+    failure_.line = mark.line < 0 ? 0 : mark.line + 1;
+    failure_.column = mark.line < 0 ? 0 : mark.column + 1;
+    const bool about_read_value = read_ && mark.pos == read_mark_.pos &&
+                                  mark.line == read_mark_.line && mark.column == read_mark_.column;
+    failure_.key = about_read_value ? read_key_ : "";
+    failure_.value = about_read_value ? read_value_ : "";
+    return internal::YamlWhere(path_, mark);
+  }
+  std::string Where(const YAML::Node& node) { return Where(node.Mark()); }
 
   bool CheckKeys(const YAML::Node& map, const std::vector<std::string>& allowed,
                  const std::string& section, std::string* error) {
@@ -159,6 +176,8 @@ class ConfigParser {
       if (known) continue;
       *error = Where(kv.first) + "unknown key " +
                QuoteValue((section.empty() ? "" : section + ".") + key);
+      failure_.key = (section.empty() ? "" : section + ".") + key;
+      failure_.value = kv.second.IsScalar() ? kv.second.Scalar() : "";
       const std::string nearest = NearestName(key, allowed);
       if (!nearest.empty()) {
         *error += "; did you mean '" + (section.empty() ? "" : section + ".") + nearest + "'?";
@@ -170,8 +189,13 @@ class ConfigParser {
     return true;
   }
 
+  // Reads a single value; an error about this node names `key` and the text.
   bool Scalar(const YAML::Node& node, const std::string& key, std::string* value,
               std::string* error) {
+    read_ = true;
+    read_mark_ = node.Mark();
+    read_key_ = key;
+    read_value_ = node.IsScalar() ? node.Scalar() : "";
     if (!node.IsScalar()) {
       *error = Where(node) + "'" + key + "' must be a single value";
       return false;
@@ -848,6 +872,12 @@ class ConfigParser {
   std::string path_;
   fs::path base_;
   RunConfig* config_;
+  // The value Scalar read last: its place, key and text.
+  bool read_ = false;
+  YAML::Mark read_mark_;
+  std::string read_key_;
+  std::string read_value_;
+  ConfigError failure_;
 };
 
 }  // namespace
@@ -1074,26 +1104,52 @@ bool RunConfig::IsValid(std::string* error) const {
   return checks.IsValid(error) && limits.IsValid(error);
 }
 
-bool LoadRunConfig(const std::string& path, RunConfig* config, std::string* error) {
+bool LoadRunConfig(const std::string& path, RunConfig* config, ConfigError* error) {
+  *error = ConfigError();
+  error->file = path;
   std::string text;
-  if (!ReadWholeFile(path, ReadLimits().max_yaml_bytes, kConfigFileAdvice, &text, error)) {
+  if (!ReadWholeFile(path, ReadLimits().max_yaml_bytes, kConfigFileAdvice, &text,
+                     &error->message)) {
     return false;
   }
   return ParseRunConfig(text, path, config, error);
 }
 
+bool LoadRunConfig(const std::string& path, RunConfig* config, std::string* error) {
+  ConfigError failure;
+  if (LoadRunConfig(path, config, &failure)) return true;
+  *error = std::move(failure.message);
+  return false;
+}
+
 bool ParseRunConfig(const std::string& yaml_text, const std::string& path, RunConfig* config,
-                    std::string* error) {
+                    ConfigError* error) {
+  *error = ConfigError();
+  error->file = path;
   RunConfig result;
   result.config_path = path;
   ConfigParser parser(path, &result);
-  if (!parser.Parse(yaml_text, error)) return false;
-  if (!result.IsValid(error)) {
-    *error = path + ": " + *error;
+  std::string message;
+  if (!parser.Parse(yaml_text, &message)) {
+    *error = parser.failure();
+    error->file = path;
+    error->message = std::move(message);
+    return false;
+  }
+  if (!result.IsValid(&error->message)) {
+    error->message = path + ": " + error->message;
     return false;
   }
   *config = std::move(result);
   return true;
+}
+
+bool ParseRunConfig(const std::string& yaml_text, const std::string& path, RunConfig* config,
+                    std::string* error) {
+  ConfigError failure;
+  if (ParseRunConfig(yaml_text, path, config, &failure)) return true;
+  *error = std::move(failure.message);
+  return false;
 }
 
 }  // namespace paritas

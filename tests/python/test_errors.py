@@ -125,3 +125,79 @@ def test_unlinked_heading_raises_computation_failed_with_the_command_line_text(t
     assert str(caught.value).startswith(
         "heading 'h' is not linked: its regions fall into 2 groups that share no item: ")
     assert caught.value.exit_code == 2
+
+
+# ---------------------------------------------------------------------------
+# Configuration errors carry the reader's parts: the configuration's path,
+# the 1-based line and column of the key or value at fault, the key as a
+# dotted path and the text found. Line and column are counted by hand below.
+
+SURVEY = "survey:\n  prices: prices.csv\n  expenditure: expenditure.csv\n  items: items.csv\n"
+
+
+def config_error(tmp_path, monkeypatch, text):
+    """Raises the error of config.yaml holding `text`; checks the command
+    line prints the same message."""
+    tiny_folder(tmp_path)
+    (tmp_path / "config.yaml").write_text(text)
+    code, _, err = run_cli("compute", "config.yaml", cwd=tmp_path)
+    monkeypatch.chdir(tmp_path)
+    with pytest.raises(paritas.InvalidInput) as caught:
+        paritas.compute("config.yaml")
+    e = caught.value
+    assert code == 1
+    assert err == "paritas: error: " + str(e) + "\n"
+    return e
+
+
+def fields(e):
+    return (e.file, e.line, e.column, e.key, e.value)
+
+
+def test_config_unknown_key_names_its_dotted_path_and_value(tmp_path, monkeypatch):
+    # Line 6 "  min_itemz: 3": the key starts in column 3.
+    e = config_error(tmp_path, monkeypatch, SURVEY + "checks:\n  min_itemz: 3\n")
+    assert str(e) == ("config.yaml:6:3: unknown key 'checks.min_itemz'; "
+                      "did you mean 'checks.min_items'?")
+    assert fields(e) == ("config.yaml", 6, 3, "checks.min_itemz", "3")
+
+
+def test_config_bad_enum_value_names_the_key_and_value(tmp_path, monkeypatch):
+    # "survey.prices[0].delimiter" on line 4: "      delimiter: '|'", the
+    # quoted value starts in column 18.
+    e = config_error(tmp_path, monkeypatch,
+                     "survey:\n  prices:\n    - path: prices.csv\n      delimiter: '|'\n"
+                     "  expenditure: expenditure.csv\n  items: items.csv\n")
+    assert str(e) == "config.yaml:4:18: survey.prices[0].delimiter '|' is not one of: ',', ';', tab"
+    assert fields(e) == ("config.yaml", 4, 18, "survey.prices[0].delimiter", "|")
+
+
+def test_config_bad_number_names_the_key_and_value(tmp_path, monkeypatch):
+    # Line 5 "outlier_threshold: 3,5": the value starts in column 20.
+    e = config_error(tmp_path, monkeypatch, SURVEY + "outlier_threshold: 3,5\n")
+    assert str(e) == "config.yaml:5:20: 'outlier_threshold' must be a number, found '3,5'"
+    assert fields(e) == ("config.yaml", 5, 20, "outlier_threshold", "3,5")
+
+
+def test_config_list_where_a_single_value_belongs_has_no_value_text(tmp_path, monkeypatch):
+    e = config_error(tmp_path, monkeypatch, SURVEY + "threads: [1, 2]\n")
+    assert str(e) == "config.yaml:5:10: 'threads' must be a single value"
+    assert fields(e) == ("config.yaml", 5, 10, "threads", None)
+
+
+def test_missing_config_file_names_the_path_only(tmp_path):
+    with pytest.raises(paritas.InvalidInput) as caught:
+        paritas.compute(tmp_path / "none.yaml")
+    path = str(tmp_path / "none.yaml")
+    assert str(caught.value) == path + ": cannot open file: No such file or directory"
+    assert fields(caught.value) == (path, None, None, None, None)
+
+
+def test_bad_value_in_a_section_given_beside_frames_names_the_key(tmp_path):
+    # The frames' generated config.yaml holds survey (prices, expenditure,
+    # items: lines 1-4) and then checks (line 5), min_items on line 6.
+    with pytest.raises(paritas.InvalidInput) as caught:
+        paritas.compute(**tiny_frames(), checks={"min_items": "many"})
+    e = caught.value
+    assert str(e) == "config.yaml:6:14: 'checks.min_items' must be a number, found 'many'"
+    assert fields(e) == ("config.yaml", 6, 14, "checks.min_items", "many")

@@ -2,8 +2,10 @@
 to the last bit: the same library, the same writers (exact number output),
 whether the survey comes as a configuration path or as DataFrames."""
 
+import gc
 import os
 
+import numpy as np
 import pandas as pd
 import pandas.testing as pdt
 import pytest
@@ -171,3 +173,106 @@ def test_compare_of_a_folder_that_is_no_run_raises_invalid_input(tmp_path, demo_
         paritas.compare(demo_cli_run, tmp_path)
     assert code == 1
     assert err == "paritas: error: " + str(caught.value) + "\n"
+
+
+# ---------------------------------------------------------------------------
+# Numeric results as numpy arrays over the library's memory.
+
+def exact_parities(demo_cli_run):
+    return paritas.read_table((demo_cli_run / "parities.csv").read_text())
+
+
+def test_parity_array_equals_parities_csv_bit_for_bit(demo_run, demo_cli_run):
+    arrays = demo_run.arrays
+    table = exact_parities(demo_cli_run)
+    assert arrays.parity.shape == (len(arrays.nodes), len(arrays.regions))
+    assert arrays.parity.dtype == np.float64
+    rows = [arrays.nodes.index(n) for n in table["node"]]
+    cols = [arrays.regions.index(r) for r in table["region"]]
+    # Every (node, region) row of the file, the array's value to the bit
+    # (the file writes the shortest text that reads back, read back exactly).
+    assert np.array_equal(arrays.parity[rows, cols], table["parity"].to_numpy(), equal_nan=True)
+    # Cells the file has no row for hold no parity.
+    listed = np.zeros(arrays.parity.shape, dtype=bool)
+    listed[rows, cols] = True
+    assert np.isnan(arrays.parity[~listed]).all()
+
+
+def test_matrix_arrays_and_frames_equal_matrix_csv_bit_for_bit(demo_run, demo_cli_run):
+    arrays = demo_run.arrays
+    files = sorted(f[:-4] for f in os.listdir(demo_cli_run / "matrix"))
+    assert sorted(arrays.matrices) == files  # the demo's codes need no escaping
+    for node, view in arrays.matrices.items():
+        exact = paritas.read_table((demo_cli_run / "matrix" / f"{node}.csv").read_text(),
+                                   index_col=0)
+        assert arrays.matrix_regions[node] == list(exact.index)
+        assert np.array_equal(view, exact.to_numpy())
+        pdt.assert_frame_equal(demo_run.matrices[node], exact, check_exact=True)
+
+
+def test_arrays_are_views_not_copies(demo_run):
+    arrays = demo_run.arrays
+    # Two accesses give the same memory; the matrix frame is a view of it.
+    assert demo_run.arrays.parity is arrays.parity
+    root = arrays.matrices["all"]
+    assert not root.flags.owndata and not arrays.parity.flags.owndata
+    frame = demo_run.matrices["all"]
+    assert np.shares_memory(frame.to_numpy(), root)
+    assert np.shares_memory(frame.values, demo_run.matrices["all"].values)
+    # The base of every array is the one capsule holding the library's result.
+    assert type(root.base).__name__ == "PyCapsule"
+    assert root.base is arrays.parity.base
+
+
+def test_arrays_are_read_only(demo_run):
+    arrays = demo_run.arrays
+    for view in [arrays.parity, arrays.matrices["all"]]:
+        assert not view.flags.writeable
+        with pytest.raises(ValueError, match="read-only"):
+            view[0, 0] = 1.0
+        with pytest.raises(ValueError):
+            view.flags.writeable = True
+    with pytest.raises(ValueError, match="read-only"):
+        demo_run.matrices["all"].iloc[0, 0] = 1.0
+
+
+def test_arrays_outlive_the_result(demo_cli_run):
+    run = paritas.compute(DEMO_CONFIG, matrices="all")
+    parity, food = run.arrays.parity, run.arrays.matrices["food"]
+    del run
+    gc.collect()
+    for _ in range(3):  # reuse the freed memory, were it freed
+        paritas.compute(DEMO_CONFIG, matrices="all", report=False)
+    table = exact_parities(demo_cli_run)
+    root = table[table["node"] == "all"]["parity"].to_numpy()
+    assert np.array_equal(parity[0][~np.isnan(parity[0])], root)
+    exact = paritas.read_table((demo_cli_run / "matrix" / "food.csv").read_text(), index_col=0)
+    assert np.array_equal(food, exact.to_numpy())
+
+
+def test_sensitivity_arrays_equal_its_files_bit_for_bit():
+    result = paritas.sensitivity(DEMO_CONFIG, replicates=20, parts=["bootstrap"],
+                                 write_replicates=True)
+    arrays = result.arrays
+    table = paritas.read_table(result.files["bootstrap.csv"])
+    rows = [arrays.nodes.index(n) for n in table["node"]]
+    cols = [arrays.regions.index(r) for r in table["region"]]
+    for name in ["parity", "median", "lower", "upper", "log_se"]:
+        view = getattr(arrays, name)
+        assert not view.flags.writeable and not view.flags.owndata, name
+        assert np.array_equal(view[rows, cols], table[name].to_numpy(), equal_nan=True), name
+    # replicates.bin: a 24-byte header (magic, nodes, regions, B, 0), then
+    # little-endian doubles in node, region, replicate order.
+    raw = result.files["replicates.bin"]
+    shape = tuple(int.from_bytes(raw[8 + 4 * k:12 + 4 * k], "little") for k in range(3))
+    assert arrays.replicates.shape == shape == (len(arrays.nodes), len(arrays.regions), 20)
+    from_file = np.frombuffer(raw[24:], dtype="<f8").reshape(shape)
+    assert np.array_equal(arrays.replicates, from_file, equal_nan=True)
+    assert np.shares_memory(arrays.replicates, result.arrays.replicates)
+    assert arrays.replicates.base is arrays.median.base
+
+
+def test_sensitivity_arrays_of_parts_not_run_are_none():
+    result = paritas.sensitivity(DEMO_CONFIG, replicates=2, parts=["leave-one-out"])
+    assert result.arrays.median is None and result.arrays.replicates is None
+    assert result.arrays.parity is not None

@@ -471,5 +471,66 @@ TEST(RunConfig, ReportsTextThatIsNotUtf8WithLineAndColumn) {
             "file may be Latin-1 or Windows-1252: save it as UTF-8)");
 }
 
+// The error's parts: the place and key/value recorded as the message is
+// built, for every kind of mistake (lines and columns counted by hand).
+ConfigError ParseFailure(const std::string& yaml) {
+  RunConfig config;
+  ConfigError error;
+  EXPECT_FALSE(ParseRunConfig(yaml, "/cfg/run.yaml", &config, &error));
+  std::string text;
+  EXPECT_FALSE(ParseRunConfig(yaml, "/cfg/run.yaml", &config, &text));
+  EXPECT_EQ(error.message, text);  // the parts never change the message
+  EXPECT_EQ(error.file, "/cfg/run.yaml");
+  return error;
+}
+
+TEST(ConfigError, UnknownKeyHasItsDottedPathAndValue) {
+  const ConfigError e = ParseFailure(std::string(kSurvey) + "checks:\n  max_spread_percnt: 5\n");
+  EXPECT_EQ(e.message,
+            "/cfg/run.yaml:5:3: unknown key 'checks.max_spread_percnt'; did you mean "
+            "'checks.max_spread_percent'?");
+  EXPECT_EQ(e.line, 5);
+  EXPECT_EQ(e.column, 3);
+  EXPECT_EQ(e.key, "checks.max_spread_percnt");
+  EXPECT_EQ(e.value, "5");
+}
+
+TEST(ConfigError, BadValueHasItsKeyAndTextAtTheValue) {
+  // "invalid_rows: halt" on line 4: the value starts in column 15.
+  const ConfigError e = ParseFailure(std::string(kSurvey) + "invalid_rows: halt\n");
+  EXPECT_EQ(e.message, "/cfg/run.yaml:4:15: invalid_rows 'halt' is not one of: stop, skip");
+  EXPECT_EQ(e.line, 4);
+  EXPECT_EQ(e.column, 15);
+  EXPECT_EQ(e.key, "invalid_rows");
+  EXPECT_EQ(e.value, "halt");
+}
+
+TEST(ConfigError, RangeErrorAfterAGoodReadKeepsTheKey) {
+  // A number read fine, then refused by its range: still about that value.
+  const ConfigError e = ParseFailure(std::string(kSurvey) + "threads: 2.5\n");
+  EXPECT_EQ(e.message,
+            "/cfg/run.yaml:4:10: threads must be a whole number from 0 (all cores) to 1024, "
+            "found '2.5'");
+  EXPECT_EQ(e.key, "threads");
+  EXPECT_EQ(e.value, "2.5");
+}
+
+TEST(ConfigError, MissingSectionHasNeitherPlaceNorKey) {
+  const ConfigError e = ParseFailure("reference: mean\n");
+  EXPECT_EQ(e.message,
+            "/cfg/run.yaml: missing key 'survey' (with at least 'prices' and 'expenditure')");
+  EXPECT_EQ(e.line, 0);
+  EXPECT_EQ(e.column, 0);
+  EXPECT_EQ(e.key, "");
+  EXPECT_EQ(e.value, "");
+}
+
+TEST(ConfigError, MappingWhereAValueBelongsHasTheKeyButNoText) {
+  const ConfigError e = ParseFailure(std::string(kSurvey) + "strict: {a: 1}\n");
+  EXPECT_EQ(e.message, "/cfg/run.yaml:4:9: 'strict' must be a single value");
+  EXPECT_EQ(e.key, "strict");
+  EXPECT_EQ(e.value, "");
+}
+
 }  // namespace
 }  // namespace paritas

@@ -59,6 +59,12 @@ std::string ParitiesCsv(const Survey& survey, const ParityResult& result,
 // parity); cell (a, b) = 100 x parity(b) / parity(a).
 std::string ParityMatrixCsv(const Survey& survey, const NodeResult& node);
 
+// Returns the numbers of matrix/<node>.csv as a matrix, rows and columns in
+// the order of `*regions` (filled with the regions that have a parity, survey
+// order): cell (a, b) = 100 x parity(b) / parity(a), bit for bit the CSV's
+// values (the Python module hands it out as an array).
+Eigen::MatrixXd ParityMatrix(const NodeResult& node, std::vector<int>* regions);
+
 // bilateral/<aggregate>.csv: from,to,laspeyres,paasche,fisher,tornqvist,
 // spread,num_headings for every ordered pair of distinct regions with a
 // parity; spread = |ln(Laspeyres / Paasche)|.

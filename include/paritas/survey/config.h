@@ -270,15 +270,43 @@ bool MatricesMeanEveryNode(const std::vector<std::string>& matrices);
 bool SplitNameList(const std::vector<std::string>& values, std::vector<std::string>* names,
                    std::string* error);
 
+// A configuration error in parts, beside its message: where it is and which
+// setting and value it is about, as far as the reader knows them (for
+// callers that show them apart, such as the Python module's exceptions).
+struct ConfigError {
+  // The message, exactly as the std::string overloads give it.
+  std::string message;
+  // The configuration file's path, as given.
+  std::string file;
+  // 1-based line and column of the key or value at fault in `file`; 0 when
+  // the reader has no place in the configuration for it (a file that cannot
+  // be read, a YAML syntax error, a problem in the classification file or
+  // between settings: the message then names its place itself, if any).
+  int line = 0;
+  int column = 0;
+  // The setting at fault as a dotted path, as the message names it
+  // ("survey.prices.delimiter", "checks.min_items", "aggregation"; for an
+  // unknown key the key as written, "survey.delimter"); empty when the
+  // problem is not about one setting.
+  std::string key;
+  // The text found under `key` as written (YAML scalar); empty when it is
+  // not a single value.
+  std::string value;
+};
+
 // Reads a run configuration. Paths inside are resolved against the folder of
 // `path`. Returns false with a message naming file, line and key on any
 // problem; an unknown key suggests the nearest valid one. The file is read
 // under the default limits.max_yaml_bytes and limits.max_yaml_depth, the
 // classification file it names under its own `limits:`.
 bool LoadRunConfig(const std::string& path, RunConfig* config, std::string* error);
+// Same, with the error's parts.
+bool LoadRunConfig(const std::string& path, RunConfig* config, ConfigError* error);
 // Same from text; `path` names the file and sets the base folder.
 bool ParseRunConfig(const std::string& yaml_text, const std::string& path, RunConfig* config,
                     std::string* error);
+bool ParseRunConfig(const std::string& yaml_text, const std::string& path, RunConfig* config,
+                    ConfigError* error);
 
 // Sets the configuration's labels and groups on `classification` (the
 // survey's: the configuration's tree, or the flat one built from the
