@@ -47,6 +47,7 @@ nlohmann::ordered_json RecordSettings(const SensitivityOptions& options) {
   settings["all_pairs"] = options.all_pairs;
   settings["seed"] = options.seed;
   settings["level"] = options.level;
+  settings["interval"] = ToString(options.interval);
   settings["coverage_levels"] = options.coverage_levels;
   settings["coverage_repetitions"] = options.coverage_repetitions;
   settings["target_log_se"] = options.target_log_se;
