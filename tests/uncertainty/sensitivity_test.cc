@@ -508,6 +508,75 @@ TEST(Bootstrap, RescaledMatchesTheJackknifeAndPlainIsLowByNMinusOneOverN) {
   EXPECT_NEAR(plain / rescaled, 0.875, 0.04);
 }
 
+// The expanded interval on a run: a heading's nu is n_h - 1 and its
+// interval the type-7 percentiles of its replicates at Phi(-t_(nu, 0.975))
+// and 1 minus it; an aggregate's nu is the Satterthwaite sum written out
+// here over its headings (w_h the region's expenditure share within the
+// node, v_h the heading's bootstrap variance); the plain bootstrap scales
+// by sqrt(n / (n - 1)); the percentile interval expands nothing.
+TEST(Bootstrap, ExpandedIntervalUsesTheHeadingItemsAndSatterthwaiteDegreesOfFreedom) {
+  const Survey survey = LoadSynthetic(SmallOptions(41), "boot-expanded");
+  SensitivityOptions options = OnlyParts(true, false, false, false);
+  options.replicates = 60;
+  options.write_replicates = true;
+  SensitivityResult result;
+  SensitivitySummary summary;
+  ASSERT_TRUE(RunSensitivity(survey, ComputeOptions(), options, &result, &summary));
+  const auto& nodes = survey.classification.nodes();
+  const int num_b = result.boot_num_replicates_kept, num_regions = survey.num_regions();
+  int aggregates_checked = 0;
+  for (int n = 0; n < static_cast<int>(nodes.size()); ++n) {
+    for (int r = 0; r < num_regions; ++r) {
+      double nu = std::nan("");
+      if (nodes[n].is_leaf) {
+        nu = result.heading_num_items[nodes[n].headings.front()] - 1.0;
+      } else {
+        double total = 0.0, sum = 0.0, denominator = 0.0;
+        for (int h : nodes[n].headings) total += survey.expenditure(r, h);
+        for (int h : nodes[n].headings) {
+          const double w = survey.expenditure(r, h) / total;
+          const int leaf = survey.classification.FindNode(survey.heading_codes[h]);
+          const double se = result.boot_log_se(leaf, r);
+          const double term = w * w * se * se;
+          sum += term;
+          denominator += term * term / (result.heading_num_items[h] - 1.0);
+        }
+        nu = sum * sum / denominator;
+        ++aggregates_checked;
+      }
+      ASSERT_TRUE(IsClose(result.boot_interval_df(n, r), nu, 1e-12)) << nodes[n].code << " " << r;
+      EXPECT_EQ(result.boot_interval_scale(n, r), 1.0);
+      std::vector<double> values;
+      for (int b = 0; b < num_b; ++b) {
+        const size_t slot = (static_cast<size_t>(n) * num_regions + r) * num_b + b;
+        const double v = result.boot_log_parity[slot];
+        if (std::isfinite(v)) values.push_back(v);
+      }
+      std::sort(values.begin(), values.end());
+      const double p = 0.5 * std::erfc(StudentTQuantile(0.975, nu) / std::sqrt(2.0));
+      EXPECT_DOUBLE_EQ(result.boot_lower(n, r), 100.0 * std::exp(PercentileType7(values, p)));
+      EXPECT_DOUBLE_EQ(result.boot_upper(n, r), 100.0 * std::exp(PercentileType7(values, 1 - p)));
+    }
+  }
+  EXPECT_GT(aggregates_checked, 10);
+  options.write_replicates = false;
+  options.bootstrap = BootstrapKind::kPlain;
+  SensitivityResult plain;
+  ASSERT_TRUE(RunSensitivity(survey, ComputeOptions(), options, &plain, &summary));
+  const int leaf = survey.classification.FindNode(survey.heading_codes[0]);
+  const double n_h = plain.heading_num_items[0];
+  EXPECT_DOUBLE_EQ(plain.boot_interval_scale(leaf, 0), std::sqrt(n_h / (n_h - 1)));
+  EXPECT_GT(plain.boot_interval_scale(0, 0), 1.0);
+  options.interval = IntervalKind::kPercentile;
+  SensitivityResult percentile;
+  ASSERT_TRUE(RunSensitivity(survey, ComputeOptions(), options, &percentile, &summary));
+  EXPECT_TRUE(percentile.boot_interval_df.array().isNaN().all());
+  EXPECT_TRUE((percentile.boot_interval_scale.array() == 1.0).all());
+  // Wider than the percentile interval of the same replicates.
+  EXPECT_LT(plain.boot_lower(leaf, 0), percentile.boot_lower(leaf, 0));
+  EXPECT_GT(plain.boot_upper(leaf, 0), percentile.boot_upper(leaf, 0));
+}
+
 TEST(BootstrapKind, NamesReadBackCaseInsensitively) {
   BootstrapKind kind = BootstrapKind::kPlain;
   EXPECT_TRUE(FromString(" Rescaled", &kind));
