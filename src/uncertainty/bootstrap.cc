@@ -150,9 +150,10 @@ void ExpansionOfCells(const Classification& classification, const Eigen::MatrixX
   };
   for (int n = 0; n < num_nodes; ++n) {
     for (int r = 0; r < num_regions; ++r) {
+      if (!std::isfinite(log_se(n, r))) continue;  // no interval to expand
       if (nodes[n].is_leaf) {
         const double nu = heading_df(nodes[n].headings.front());
-        if (!std::isfinite(nu) || nu < 1.0 || !std::isfinite(log_se(n, r))) continue;
+        if (!std::isfinite(nu) || nu < 1.0) continue;
         (*df)(n, r) = nu < kIntervalDfCap ? nu : kNaN;
         if (plain) (*scale)(n, r) = std::sqrt((nu + 1.0) / nu);
         continue;

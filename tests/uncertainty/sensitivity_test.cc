@@ -252,6 +252,32 @@ TEST(IntervalKind, NamesReadBackCaseInsensitively) {
   EXPECT_EQ(SensitivityOptions().interval, IntervalKind::kExpanded);
 }
 
+// A pair takes the smaller nu (none counting as infinite) and the larger k;
+// at level 0.5 with nu = 4 the levels are p = Phi(-t_(4, 0.75)) and 1 - p
+// (computed here with scipy 1.10.1: norm.cdf(-t.ppf(0.75, 4)) =
+// 0.2294385638765593), so on the sorted d = 0.1 ... 0.5 the type-7 lower end
+// is at h = 4 p < 1: 0.1 + 0.1 x 4 p, and the upper at h = 4 - 4 p:
+// 0.4 + 0.1 x (1 - 4 p) = 0.5 - 0.1 x 4 p.
+TEST(PairRatios, ExpansionTakesTheSmallerDegreesOfFreedomAndTheLargerScale) {
+  const double nan = std::nan("");
+  double df = 0.0, scale = 0.0;
+  PairExpansion(6.0, 1.0, 4.0, 1.1, &df, &scale);
+  EXPECT_EQ(df, 4.0);
+  EXPECT_EQ(scale, 1.1);
+  PairExpansion(nan, 1.0, 9.5, 1.0, &df, &scale);
+  EXPECT_EQ(df, 9.5);
+  PairExpansion(nan, 1.0, nan, 1.0, &df, &scale);
+  EXPECT_TRUE(std::isnan(df));
+  const std::vector<double> log_b = {0.0, 0.0, 0.0, 0.0, 0.0};
+  const std::vector<double> log_a = {0.3, 0.1, 0.5, 0.2, 0.4};
+  const double p = ExpandedLowerLevel(0.5, 4.0, 1.0);
+  EXPECT_NEAR(p, 0.2294385638765593, 1e-9);
+  const PairRatio pair = PairRatioFromReplicates(log_a.data(), log_b.data(), 5, 0.5, 1.0, 4.0);
+  EXPECT_NEAR(pair.lower, std::exp(0.1 + 0.1 * 4 * p), 1e-15);
+  EXPECT_NEAR(pair.upper, std::exp(0.5 - 0.1 * 4 * p), 1e-15);
+  EXPECT_EQ(pair.interval_df, 4.0);
+}
+
 TEST(PairRatios, VerdictNamesReadBackCaseInsensitively) {
   for (PairVerdict v : {PairVerdict::kNone, PairVerdict::kDearer, PairVerdict::kCheaper,
                         PairVerdict::kIndistinguishable}) {
