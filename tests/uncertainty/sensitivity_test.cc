@@ -1,5 +1,6 @@
 // Sensitivity runs: options and messages, the percentile definition, the
-// weighted Jevons matrix, leave-one-out against a recomputation without the
+// Student t quantile and the expanded interval's levels and degrees of
+// freedom, the weighted Jevons matrix, leave-one-out against a recomputation without the
 // item, the jackknife of a mean, bootstrap determinism and interval coverage
 // on synthetic surveys with a known truth, the coverage curve, method spread
 // and the command line.
