@@ -631,7 +631,8 @@ def sensitivity(config: Union[str, os.PathLike, None] = None, *, prices: Union[p
                 level: float = 95, coverage: Sequence[float] = (90, 75, 50, 25),
                 repetitions: int = 20, parts: Optional[Sequence[str]] = None,
                 bootstrap: str = "rescaled", node: str = "", write_replicates: bool = False,
-                write: bool = False, **options: Any) -> SensitivityResult:
+                write: bool = False, interval: str = "expanded",
+                **options: Any) -> SensitivityResult:
     """Runs the sensitivity analysis (`paritas sensitivity`).
 
     Releases the GIL and uses the library's threads; Ctrl-C stops the run
@@ -649,6 +650,8 @@ def sensitivity(config: Union[str, os.PathLike, None] = None, *, prices: Union[p
         parts: among "bootstrap", "leave-one-out", "coverage", "methods"
             (default all).
         bootstrap: "rescaled" or "plain".
+        interval: "expanded" (percentiles widened for the degrees of freedom
+            of the items, the default) or "percentile".
         node: node of the printed table (default the root).
         write_replicates: keep every replicate (replicates.bin).
         write: also write <output>/sensitivity as the command line does.
@@ -656,7 +659,7 @@ def sensitivity(config: Union[str, os.PathLike, None] = None, *, prices: Union[p
     """
     run = {"replicates": replicates, "seed": seed, "level": level,
            "coverage": list(coverage), "repetitions": repetitions, "bootstrap": bootstrap,
-           "node": node, "write_replicates": write_replicates}
+           "node": node, "write_replicates": write_replicates, "interval": interval}
     if parts is not None:
         run["parts"] = list(parts)
     outcome = _run(_paritas.sensitivity, config, dict(prices=prices, expenditure=expenditure, regions=regions, items=items,

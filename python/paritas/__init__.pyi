@@ -213,6 +213,7 @@ def sensitivity(
     node: str = ...,
     write_replicates: bool = ...,
     write: bool = ...,
+    interval: str = ...,
     **options: Any,
 ) -> SensitivityResult: ...
 

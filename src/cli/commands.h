@@ -47,6 +47,7 @@ struct SensitivityArguments {
   std::optional<std::string> parts;
   std::optional<std::string> node;
   std::optional<std::string> bootstrap;
+  std::optional<std::string> interval;
   std::optional<std::string> target_se;
   bool write_replicates = false;
   bool all_pairs = false;

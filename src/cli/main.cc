@@ -94,6 +94,9 @@ void AddSensitivityOptions(CLI::App* command, paritas::cli::Overrides* overrides
                       "(default: the root)");
   command->add_option("--bootstrap", arguments->bootstrap,
                       "bootstrap draws: rescaled (n - 1 of n items; default) or plain (n of n)");
+  command->add_option("--interval", arguments->interval,
+                      "bootstrap interval: expanded (percentiles widened for the items' degrees "
+                      "of freedom; default) or percentile");
   command->add_option("--target-se", arguments->target_se,
                       "standard error of ln parity that items_needed.csv plans for (default 0.01)");
   command->add_flag("--write-replicates", arguments->write_replicates,

@@ -79,6 +79,11 @@ bool ParseArguments(const SensitivityArguments& arguments, SensitivityOptions* o
     PrintError("--bootstrap must be one of: rescaled, plain; found '" + *arguments.bootstrap + "'");
     return false;
   }
+  if (arguments.interval && !FromString(*arguments.interval, &options->interval)) {
+    PrintError("--interval must be one of: expanded, percentile; found '" + *arguments.interval +
+               "'");
+    return false;
+  }
   if (arguments.target_se) {
     if (ParseNumber(*arguments.target_se, &value) != NumberStatus::kOk ||
         !(value > 0.0 && value < 1.0)) {

@@ -548,6 +548,13 @@ py::dict Sensitivity(const std::string& config_path, const py::dict& options,
         return Failure(kExitInvalidInput,
                        "bootstrap must be one of: rescaled, plain; found '" + text + "'", name, text);
       }
+    } else if (name == "interval") {
+      const std::string text = py::cast<std::string>(value);
+      if (!FromString(text, &run.interval)) {
+        return Failure(kExitInvalidInput,
+                       "interval must be one of: expanded, percentile; found '" + text + "'", name,
+                       text);
+      }
     } else {
       pybind11::pybind11_fail("sensitivity: unknown option " + name);
     }

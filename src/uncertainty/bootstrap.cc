@@ -5,6 +5,7 @@
 // number of threads or on scheduling.
 #include <algorithm>
 #include <cmath>
+#include <limits>
 #include <numeric>
 #include <vector>
 
@@ -86,20 +87,18 @@ Replicates RunReplicates(const FullSample& full, const SensitivityOptions& optio
 }
 
 // The statistics of one node and region from the replicates that gave it a
-// parity (`values`: ln parities, `ranks`: their ranks, both in replicate order).
-void CellStatistics(int n, int r, double alpha, std::vector<double>* values,
+// parity (`values`: ln parities, `ranks`: their ranks, both in replicate
+// order): the interval at quantile levels `p_lower` and 1 - p_lower, the
+// ranks at the percentile levels alpha / 2 and 1 - alpha / 2.
+void CellStatistics(int n, int r, double p_lower, double alpha, std::vector<double>* values,
                     std::vector<double>* ranks, SensitivityResult* result) {
   result->boot_num_replicates(n, r) = static_cast<int>(values->size());
   if (values->size() < 2) return;
-  const double mean = std::accumulate(values->begin(), values->end(), 0.0) / values->size();
-  double ss = 0.0;
-  for (double v : *values) ss += (v - mean) * (v - mean);
-  result->boot_log_se(n, r) = std::sqrt(ss / (values->size() - 1.0));
   std::sort(values->begin(), values->end());
   std::sort(ranks->begin(), ranks->end());
   result->boot_median(n, r) = 100.0 * std::exp(PercentileType7(*values, 0.5));
-  result->boot_lower(n, r) = 100.0 * std::exp(PercentileType7(*values, alpha / 2));
-  result->boot_upper(n, r) = 100.0 * std::exp(PercentileType7(*values, 1.0 - alpha / 2));
+  result->boot_lower(n, r) = 100.0 * std::exp(PercentileType7(*values, p_lower));
+  result->boot_upper(n, r) = 100.0 * std::exp(PercentileType7(*values, 1.0 - p_lower));
   // Whole ranks, rounded outwards so the interval never narrows; the
   // small tolerance keeps an exact rank from rounding past itself.
   result->boot_rank_low(n, r) =
@@ -108,9 +107,95 @@ void CellStatistics(int n, int r, double alpha, std::vector<double>* values,
       static_cast<int>(std::ceil(PercentileType7(*ranks, 1.0 - alpha / 2) - 1e-9));
 }
 
-void Summarise(const Replicates& replicates, double level, int num_threads, int num_nodes,
-               int num_regions, SensitivityResult* result) {
+// Standard deviation (divisor B - 1) of the finite values among `num_b`
+// replicate ln parities starting at `first`; NaN with fewer than two.
+double ReplicateLogSe(const double* first, int num_b) {
+  double sum = 0.0;
+  int count = 0;
+  for (int b = 0; b < num_b; ++b) {
+    if (std::isfinite(first[b])) sum += first[b], ++count;
+  }
+  if (count < 2) return kNaN;
+  const double mean = sum / count;
+  double ss = 0.0;
+  for (int b = 0; b < num_b; ++b) {
+    if (std::isfinite(first[b])) ss += (first[b] - mean) * (first[b] - mean);
+  }
+  return std::sqrt(ss / (count - 1.0));
+}
+
+}  // namespace
+
+void ExpansionOfCells(const Classification& classification, const Eigen::MatrixXd& expenditure,
+                      const std::vector<int>& heading_num_items,
+                      const std::vector<uint8_t>& heading_external, BootstrapKind bootstrap,
+                      const Eigen::MatrixXd& log_se, Eigen::MatrixXd* df, Eigen::MatrixXd* scale) {
+  const auto& nodes = classification.nodes();
+  const int num_nodes = static_cast<int>(nodes.size());
+  const int num_regions = static_cast<int>(log_se.cols());
+  const bool plain = bootstrap == BootstrapKind::kPlain;
+  *df = Eigen::MatrixXd::Constant(num_nodes, num_regions, kNaN);
+  *scale = Eigen::MatrixXd::Ones(num_nodes, num_regions);
+  std::vector<int> leaf_of(heading_num_items.size(), -1);
+  for (int n = 0; n < num_nodes; ++n) {
+    if (nodes[n].is_leaf) leaf_of[nodes[n].headings.front()] = n;
+  }
+  // Degrees of freedom of heading h's variance: none (0) for one item,
+  // infinite for a heading drawn from a normal.
+  auto heading_df = [&](int h) {
+    if (!heading_external.empty() && heading_external[h]) {
+      return std::numeric_limits<double>::infinity();
+    }
+    return heading_num_items[h] >= 2 ? heading_num_items[h] - 1.0 : 0.0;
+  };
+  for (int n = 0; n < num_nodes; ++n) {
+    for (int r = 0; r < num_regions; ++r) {
+      if (!std::isfinite(log_se(n, r))) continue;  // no interval to expand
+      if (nodes[n].is_leaf) {
+        const double nu = heading_df(nodes[n].headings.front());
+        if (!std::isfinite(nu) || nu < 1.0) continue;
+        (*df)(n, r) = nu < kIntervalDfCap ? nu : kNaN;
+        if (plain) (*scale)(n, r) = std::sqrt((nu + 1.0) / nu);
+        continue;
+      }
+      double total = 0.0;
+      for (int h : nodes[n].headings) {
+        if (std::isfinite(expenditure(r, h)) && expenditure(r, h) > 0) total += expenditure(r, h);
+      }
+      if (!(total > 0.0)) continue;
+      std::vector<double> terms, dfs;
+      double raw = 0.0;
+      for (int h : nodes[n].headings) {
+        const double nu = heading_df(h);
+        const double se = leaf_of[h] >= 0 ? log_se(leaf_of[h], r) : kNaN;
+        if (!std::isfinite(expenditure(r, h)) || !(expenditure(r, h) > 0) || !(nu > 0.0) ||
+            !std::isfinite(se) || !(se > 0.0)) {
+          continue;
+        }
+        const double w = expenditure(r, h) / total;
+        const double term = w * w * se * se;
+        raw += term;
+        terms.push_back(plain && std::isfinite(nu) ? term * (nu + 1.0) / nu : term);
+        dfs.push_back(nu);
+      }
+      const double nu = SatterthwaiteDf(terms, dfs);
+      if (nu > 0.0 && nu < kIntervalDfCap) (*df)(n, r) = nu;
+      if (plain && raw > 0.0) {
+        double corrected = 0.0;
+        for (double t : terms) corrected += t;
+        (*scale)(n, r) = std::sqrt(corrected / raw);
+      }
+    }
+  }
+}
+
+namespace {
+
+void Summarise(const Replicates& replicates, const FullSample& full,
+               const SensitivityOptions& options, SensitivityResult* result) {
   const int num_b = replicates.num_replicates;
+  const int num_nodes = full.chain.num_nodes, num_regions = full.chain.num_regions;
+  const int64_t num_cells = static_cast<int64_t>(num_nodes) * num_regions;
   result->boot_median = Eigen::MatrixXd::Constant(num_nodes, num_regions, kNaN);
   result->boot_lower = result->boot_median;
   result->boot_upper = result->boot_median;
@@ -118,9 +203,25 @@ void Summarise(const Replicates& replicates, double level, int num_threads, int 
   result->boot_rank_low = Eigen::MatrixXi::Zero(num_nodes, num_regions);
   result->boot_rank_high = result->boot_rank_low;
   result->boot_num_replicates = result->boot_rank_low;
-  const double alpha = 1.0 - level;
-#pragma omp parallel for schedule(dynamic, 16) num_threads(num_threads)
-  for (int64_t cell = 0; cell < static_cast<int64_t>(num_nodes) * num_regions; ++cell) {
+  // First the standard errors: an aggregate's degrees of freedom rest on
+  // its headings' bootstrap variances.
+#pragma omp parallel for schedule(dynamic, 16) num_threads(full.num_threads)
+  for (int64_t cell = 0; cell < num_cells; ++cell) {
+    result->boot_log_se(cell / num_regions, cell % num_regions) =
+        ReplicateLogSe(replicates.log_parity.data() + static_cast<size_t>(cell) * num_b, num_b);
+  }
+  if (options.interval == IntervalKind::kExpanded) {
+    ExpansionOfCells(full.survey->classification, full.survey->expenditure,
+                     result->heading_num_items, result->heading_external, options.bootstrap,
+                     result->boot_log_se, &result->boot_interval_df,
+                     &result->boot_interval_scale);
+  } else {
+    result->boot_interval_df = result->boot_median;
+    result->boot_interval_scale = Eigen::MatrixXd::Ones(num_nodes, num_regions);
+  }
+  const double alpha = 1.0 - options.level;
+#pragma omp parallel for schedule(dynamic, 16) num_threads(full.num_threads)
+  for (int64_t cell = 0; cell < num_cells; ++cell) {
     const int n = static_cast<int>(cell / num_regions), r = static_cast<int>(cell % num_regions);
     std::vector<double> values, ranks;
     for (int b = 0; b < num_b; ++b) {
@@ -129,7 +230,9 @@ void Summarise(const Replicates& replicates, double level, int num_threads, int 
       values.push_back(replicates.log_parity[slot]);
       ranks.push_back(replicates.rank[slot]);
     }
-    CellStatistics(n, r, alpha, &values, &ranks, result);
+    const double p_lower = ExpandedLowerLevel(options.level, result->boot_interval_df(n, r),
+                                              result->boot_interval_scale(n, r));
+    CellStatistics(n, r, p_lower, alpha, &values, &ranks, result);
   }
 }
 
@@ -145,11 +248,11 @@ void RunBootstrap(const FullSample& full, const SensitivityOptions& options,
     summary->num_replicates_imputed += replicates.imputed[b];
     summary->num_replicates_region_lost += replicates.lost[b];
   }
-  Summarise(replicates, options.level, full.num_threads, full.chain.num_nodes,
-            full.chain.num_regions, result);
+  Summarise(replicates, full, options, result);
   ComputePairRatios(replicates.log_parity, full.chain.num_regions, replicates.num_replicates,
                     result->parity, full.survey->classification, options.level,
-                    options.all_pairs, full.num_threads, &result->pair_ratios);
+                    result->boot_interval_df, result->boot_interval_scale, options.all_pairs,
+                    full.num_threads, &result->pair_ratios);
   result->boot_log_parity.clear();
   result->boot_num_replicates_kept = 0;
   if (options.write_replicates) {

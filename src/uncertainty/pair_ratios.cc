@@ -6,11 +6,13 @@
 
 #include <algorithm>
 #include <cmath>
+#include <limits>
 #include <string>
 #include <vector>
 
 #include "paritas/base/csv.h"
 #include "paritas/base/text.h"
+#include "paritas/uncertainty/expanded_interval.h"
 #include "paritas/uncertainty/sensitivity.h"
 #include "uncertainty/sensitivity_parts.h"
 
@@ -43,9 +45,12 @@ bool FromString(const std::string& text, PairVerdict* verdict) {
 }
 
 PairRatio PairRatioFromReplicates(const double* log_a, const double* log_b, int num_replicates,
-                                  double level, double full_ratio) {
+                                  double level, double full_ratio, double interval_df,
+                                  double interval_scale) {
   PairRatio out;
   out.ratio = full_ratio;
+  out.interval_df = interval_df;
+  out.interval_scale = interval_scale;
   std::vector<double> d;
   d.reserve(num_replicates);
   for (int b = 0; b < num_replicates; ++b) {
@@ -54,13 +59,21 @@ PairRatio PairRatioFromReplicates(const double* log_a, const double* log_b, int 
   out.num_replicates = static_cast<int>(d.size());
   if (d.size() < 2) return out;
   std::sort(d.begin(), d.end());
-  const double alpha = 1.0 - level;
-  out.lower = std::exp(PercentileType7(d, alpha / 2));
-  out.upper = std::exp(PercentileType7(d, 1.0 - alpha / 2));
+  const double p = ExpandedLowerLevel(level, interval_df, interval_scale);
+  out.lower = std::exp(PercentileType7(d, p));
+  out.upper = std::exp(PercentileType7(d, 1.0 - p));
   out.verdict = out.lower > 1.0   ? PairVerdict::kDearer
                 : out.upper < 1.0 ? PairVerdict::kCheaper
                                   : PairVerdict::kIndistinguishable;
   return out;
+}
+
+void PairExpansion(double df_a, double scale_a, double df_b, double scale_b, double* df,
+                   double* scale) {
+  const double inf = std::numeric_limits<double>::infinity();
+  const double nu = std::min(std::isnan(df_a) ? inf : df_a, std::isnan(df_b) ? inf : df_b);
+  *df = std::isinf(nu) ? std::numeric_limits<double>::quiet_NaN() : nu;
+  *scale = std::max(scale_a, scale_b);
 }
 
 std::vector<int> PairRatioNodes(const Classification& classification) {
@@ -75,7 +88,8 @@ std::vector<int> PairRatioNodes(const Classification& classification) {
 
 std::string PairRatiosCsv(const Survey& survey, const std::vector<NodePairRatios>& nodes) {
   std::string out =
-      "node,region_a,region_b,ratio,lower,upper,num_replicates,excludes_one,verdict\n";
+      "node,region_a,region_b,ratio,lower,upper,num_replicates,excludes_one,verdict,interval_df,"
+      "interval_scale\n";
   for (const NodePairRatios& node : nodes) {
     for (const PairRatio& pair : node.pairs) {
       AppendCsvField(survey.classification.nodes()[node.node].code, &out);
@@ -89,7 +103,11 @@ std::string PairRatiosCsv(const Survey& survey, const std::vector<NodePairRatios
       }
       out += ',' + std::to_string(pair.num_replicates);
       out += pair.ExcludesOne() ? ",yes," : ",no,";
-      out += ToString(pair.verdict) + '\n';
+      out += ToString(pair.verdict) + ',';
+      if (!std::isnan(pair.interval_df)) AppendShortest(pair.interval_df, &out);
+      out += ',';
+      AppendShortest(pair.interval_scale, &out);
+      out += '\n';
     }
   }
   return out;
@@ -99,7 +117,8 @@ namespace internal {
 
 void ComputePairRatios(const std::vector<double>& log_parity, int num_regions, int num_b,
                        const Eigen::MatrixXd& parity, const Classification& classification,
-                       double level, bool all_pairs, int num_threads,
+                       double level, const Eigen::MatrixXd& interval_df,
+                       const Eigen::MatrixXd& interval_scale, bool all_pairs, int num_threads,
                        std::vector<NodePairRatios>* out) {
   out->clear();
   for (int n : PairRatioNodes(classification)) {
@@ -127,9 +146,12 @@ void ComputePairRatios(const std::vector<double>& log_parity, int num_regions, i
 #pragma omp parallel for schedule(dynamic, 64) num_threads(num_threads)
     for (int64_t k = 0; k < static_cast<int64_t>(wanted.size()); ++k) {
       const auto [a, b] = wanted[k];
+      double df = kNaN, scale = 1.0;
+      PairExpansion(interval_df(n, a), interval_scale(n, a), interval_df(n, b),
+                    interval_scale(n, b), &df, &scale);
       PairRatio pair = PairRatioFromReplicates(base + static_cast<size_t>(a) * num_b,
                                                base + static_cast<size_t>(b) * num_b, num_b,
-                                               level, parity(n, a) / parity(n, b));
+                                               level, parity(n, a) / parity(n, b), df, scale);
       pair.region_a = a;
       pair.region_b = b;
       node.pairs[k] = pair;

@@ -151,7 +151,20 @@ int CompleteHeadings(const Chain& chain, Stream* draw, Eigen::MatrixXd* heading_
     }
   }
   input.expenditure = survey.expenditure;
-  if (has_file) input.external_log_parity = survey.external_log_parity;
+  if (has_file) {
+    input.external_log_parity = survey.external_log_parity;
+    // Parities that rule `external` fills are drawn too, like the file's own
+    // headings (after them, so their draws are unchanged).
+    for (int h = 0; draw != nullptr && h < chain.num_headings; ++h) {
+      if (chain.rules[h].rule != ImputationRule::kExternal) continue;
+      for (int r = 0; r < chain.num_regions; ++r) {
+        const double se = survey.external_log_se(r, h);
+        if (std::isfinite(input.external_log_parity(r, h)) && std::isfinite(se) && se > 0) {
+          input.external_log_parity(r, h) += se * draw->Normal();
+        }
+      }
+    }
+  }
   input.rules = chain.rules;
   ImputationResult result;
   std::string error;

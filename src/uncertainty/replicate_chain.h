@@ -119,7 +119,9 @@ bool HeadingFromFile(const Chain& chain, int h);
 // headings the external file gives take its parities (each region's ln
 // parity drawn from Normal(ln p, log_se) when `draw` is given and the file
 // has a log_se), then the missing ones are filled by each heading's rule
-// (compute/imputation.h). Returns the number of entries imputed.
+// (compute/imputation.h), the file's parities of headings with rule
+// `external` drawn likewise before they fill. Returns the number of entries
+// imputed.
 int CompleteHeadings(const Chain& chain, Stream* draw, Eigen::MatrixXd* heading_log_parity);
 
 // Runs every heading and every node with `item_weight`; fills heading ln

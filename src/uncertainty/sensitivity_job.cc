@@ -47,6 +47,7 @@ nlohmann::ordered_json RecordSettings(const SensitivityOptions& options) {
   settings["all_pairs"] = options.all_pairs;
   settings["seed"] = options.seed;
   settings["level"] = options.level;
+  settings["interval"] = ToString(options.interval);
   settings["coverage_levels"] = options.coverage_levels;
   settings["coverage_repetitions"] = options.coverage_repetitions;
   settings["target_log_se"] = options.target_log_se;
@@ -84,12 +85,16 @@ std::string Notes(const SensitivityJobSummary& job, const SensitivityOptions& op
   const SensitivityResult& result = job.result;
   std::string notes;
   if (result.boot_median.size() > 0) {
-    notes += "(interval: bootstrap percentile interval of the parity over " +
+    notes += std::string(options.interval == IntervalKind::kExpanded
+                             ? "(interval: bootstrap expanded percentile interval of the parity "
+                               "(percentiles widened for the degrees of freedom of the items "
+                               "behind it; interval_df in bootstrap.csv) over "
+                             : "(interval: bootstrap percentile interval of the parity over ") +
              std::to_string(job.sensitivity.num_replicates) +
              (options.bootstrap == BootstrapKind::kRescaled
                   ? " rescaled resamples (n - 1 of the n items of every heading)"
                   : " plain resamples (n of the n items of every heading)") +
-             "; ranks: the same interval for the rank, "
+             "; ranks: the percentile interval of the rank, "
              "1 = dearest; boot se and jk se: bootstrap and jackknife standard errors of ln "
              "parity.)\n";
   }

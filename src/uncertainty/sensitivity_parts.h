@@ -85,13 +85,25 @@ void RunCoverageCurve(const FullSample& full, const SensitivityOptions& options,
 void RunMethodSpread(const FullSample& full, const SensitivityOptions& options,
                      SensitivityResult* result, SensitivitySummary* summary);
 
+// Degrees of freedom and scale of the expanded interval of every node and
+// region (SensitivityResult::boot_interval_df and boot_interval_scale say
+// how), from the bootstrap standard errors `log_se` (nodes x regions), the
+// survey's expenditure (regions x headings) and the headings' items.
+void ExpansionOfCells(const Classification& classification, const Eigen::MatrixXd& expenditure,
+                      const std::vector<int>& heading_num_items,
+                      const std::vector<uint8_t>& heading_external, BootstrapKind bootstrap,
+                      const Eigen::MatrixXd& log_se, Eigen::MatrixXd* df, Eigen::MatrixXd* scale);
+
 // Pair intervals (pair_ratios.cc) from replicate ln parities laid out as
 // SensitivityResult::boot_log_parity, for PairRatioNodes: every pair when
 // `all_pairs` or the node has at most kAllPairsMaxRegions regions with a
-// parity, else neighbours in rank. `parity` is the full sample's.
+// parity, else neighbours in rank. `parity` is the full sample's. Each pair
+// is expanded with nu = min(nu_a, nu_b) and k = max(k_a, k_b) of the two
+// regions' cells in `interval_df` and `interval_scale` (PairExpansion).
 void ComputePairRatios(const std::vector<double>& log_parity, int num_regions, int num_b,
                        const Eigen::MatrixXd& parity, const Classification& classification,
-                       double level, bool all_pairs, int num_threads,
+                       double level, const Eigen::MatrixXd& interval_df,
+                       const Eigen::MatrixXd& interval_scale, bool all_pairs, int num_threads,
                        std::vector<NodePairRatios>* out);
 
 }  // namespace paritas::internal

@@ -77,7 +77,8 @@ std::string ReplicatesKeyCsv(const Survey& survey) {
 
 std::string BootstrapCsv(const Survey& survey, const SensitivityResult& result) {
   std::string out =
-      "node,region,parity,median,lower,upper,log_se,rank_low,rank_high,num_replicates\n";
+      "node,region,parity,median,lower,upper,log_se,rank_low,rank_high,num_replicates,interval_df,"
+      "interval_scale\n";
   if (result.boot_median.size() == 0) return out;
   for (Eigen::Index n = 0; n < result.parity.rows(); ++n) {
     for (int r = 0; r < survey.num_regions(); ++r) {
@@ -92,6 +93,8 @@ std::string BootstrapCsv(const Survey& survey, const SensitivityResult& result) 
       out += ',';
       if (result.boot_rank_high(n, r) > 0) out += std::to_string(result.boot_rank_high(n, r));
       AppendCount(result.boot_num_replicates(n, r), &out);
+      AppendValue(result.boot_interval_df(n, r), &out);
+      AppendValue(result.boot_interval_scale(n, r), &out);
       out += '\n';
     }
   }

@@ -78,7 +78,32 @@ uint32_t Uint32At(const unsigned char* p) {
   return p[0] | (p[1] << 8) | (p[2] << 16) | (static_cast<uint32_t>(p[3]) << 24);
 }
 
-// Computes the interval from replicates.bin, whose shape must match the survey.
+// The expansion of the pair's interval (PairExpansion) from the two regions'
+// interval_df and interval_scale at the node in bootstrap.csv; none (NaN, 1)
+// when the table lacks the columns (a run of the plain percentile interval
+// before they were written) or the rows.
+bool ExpansionFromTable(const std::string& path, const std::string& node, const std::string& a,
+                        const std::string& b, double* df, double* scale, std::string* error) {
+  double df_a = NAN, df_b = NAN, scale_a = 1.0, scale_b = 1.0;
+  auto handle = [&](const internal::TableRow& row, std::string*) {
+    if (row.fields[0] != node || (row.fields[1] != a && row.fields[1] != b)) return true;
+    double row_df = NAN, row_scale = 1.0;
+    if (!row.fields[2].empty()) ParseNumber(row.fields[2], &row_df);
+    if (!row.fields[3].empty()) ParseNumber(row.fields[3], &row_scale);
+    (row.fields[1] == a ? df_a : df_b) = row_df;
+    (row.fields[1] == a ? scale_a : scale_b) = row_scale;
+    return true;
+  };
+  if (!internal::ReadTable(path, ReadLimits(), {"node", "region", "interval_df", "interval_scale"},
+                           {true, true, false, false}, handle, error)) {
+    return false;
+  }
+  PairExpansion(df_a, scale_a, df_b, scale_b, df, scale);
+  return true;
+}
+
+// Computes the interval from replicates.bin, whose shape must match the
+// survey, expanded as bootstrap.csv beside it says.
 bool FromReplicates(const std::string& path, const Survey& survey, double level,
                     PairComparison* c, std::string* error) {
   std::ifstream in(path, std::ios::binary);
@@ -106,8 +131,14 @@ bool FromReplicates(const std::string& path, const Survey& survey, double level,
              c->node + "'";
     return false;
   }
-  const PairRatio pair =
-      PairRatioFromReplicates(log_a.data(), log_b.data(), num_b, level, c->transitive);
+  double df = NAN, scale = 1.0;
+  const std::string table = (fs::path(path).parent_path() / "bootstrap.csv").string();
+  if (fs::exists(table) &&
+      !ExpansionFromTable(table, c->node, c->to, c->from, &df, &scale, error)) {
+    return false;
+  }
+  const PairRatio pair = PairRatioFromReplicates(log_a.data(), log_b.data(), num_b, level,
+                                                 c->transitive, df, scale);
   c->ratio_lower = pair.lower;
   c->ratio_upper = pair.upper;
   c->ratio_num_replicates = pair.num_replicates;

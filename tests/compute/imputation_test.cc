@@ -380,6 +380,38 @@ TEST(ExternalParities, BootstrapDrawsTheFileParitiesWithTheirStandardErrors) {
   }
 }
 
+// Rule `external` fills D's rent from the file linked over C (rent_D =
+// rent_C x 1.1 / 0.9); each heading has one item, so the quotes add no
+// variance and all of it comes from drawing the file's ln parities of C and
+// D (sd 0.1 each): ln rent_D - ln rent_C varies with sd 0.1 sqrt 2, and after
+// normalising to the mean of the four regions D's ln parity moves by 3/4 of
+// that and A's by 1/4 (computed here: 0.1061 and 0.0354). Without the draw
+// both would be 0.
+TEST(ExternalParities, BootstrapDrawsTheParitiesThatRuleExternalFills) {
+  const std::string folder = MakeTempDir("external_rule_bootstrap");
+  WriteSurvey(folder);
+  WriteTextFile(folder + "/rents.csv",
+                "heading,region,parity,log_se\nrent,C,0.9,0.1\nrent,D,1.1,0.1\n");
+  Computed run;
+  LoadAndCompute(folder,
+                 "  external_parities: rents.csv\n" + std::string(kTree) +
+                     "missing_parities:\n  headings: {rent: external}\n",
+                 &run);
+  SensitivityOptions options;
+  options.run_leave_one_out = options.run_coverage = options.run_methods = false;
+  options.replicates = 400;
+  SensitivityResult result;
+  SensitivitySummary summary;
+  ASSERT_TRUE(RunSensitivity(run.survey, ComputeOptions::FromConfig(run.config), options, &result,
+                             &summary))
+      << summary.message;
+  const int rent = run.survey.classification.FindNode("rent");
+  const double sd = 0.1 * std::sqrt(2.0);
+  // 400 replicates estimate a standard deviation to about 3.5 % (sd / sqrt(2 B)).
+  EXPECT_NEAR(result.boot_log_se(rent, Region(run, "D")), 0.75 * sd, 0.15 * 0.75 * sd);
+  EXPECT_NEAR(result.boot_log_se(rent, Region(run, "A")), 0.25 * sd, 0.15 * 0.25 * sd);
+}
+
 TEST(Imputation, BootstrapReplicateThatLosesAHeadingAppliesTheRule) {
   // Rent gets a second item priced in A, B, C only; D prices the first. A
   // replicate that draws the second item twice leaves D without rent

@@ -145,6 +145,27 @@ def test_sensitivity_tables_equal_command_line(tmp_path):
     assert "bootstrap.csv" in result.tables
 
 
+def test_sensitivity_interval_keyword_equals_command_line_and_is_recorded(tmp_path):
+    out = tmp_path / "out"
+    code, _, err = run_cli("sensitivity", DEMO_CONFIG, "--output", str(out), "--replicates", "20",
+                           "--parts", "bootstrap", "--interval", "percentile")
+    assert code == 0, err
+    result = paritas.sensitivity(DEMO_CONFIG, replicates=20, parts=["bootstrap"],
+                                 interval="Percentile")
+    assert result.files["bootstrap.csv"].encode() == read_bytes(out / "sensitivity" /
+                                                                "bootstrap.csv")
+    assert result.record["sensitivity"]["settings"]["interval"] == "percentile"
+    assert result.tables["bootstrap.csv"]["interval_df"].isna().all()
+    default = paritas.sensitivity(DEMO_CONFIG, replicates=20, parts=["bootstrap"])
+    assert default.record["sensitivity"]["settings"]["interval"] == "expanded"
+    assert default.tables["bootstrap.csv"]["interval_df"].notna().any()
+    code, _, err = run_cli("sensitivity", DEMO_CONFIG, "--output", str(out), "--interval", "wide")
+    with pytest.raises(paritas.InvalidInput) as caught:
+        paritas.sensitivity(DEMO_CONFIG, replicates=20, interval="wide")
+    assert code == 1
+    assert str(caught.value) == "interval must be one of: expanded, percentile; found 'wide'"
+
+
 def test_deflate_takes_a_parities_folder_relative_to_the_working_folder(demo_cli_run, monkeypatch):
     frame = pd.DataFrame({"region": ["cap"], "income": [1000.0]})
     by_absolute = paritas.deflate(frame, demo_cli_run, ["income"])

@@ -3,8 +3,12 @@
 --write-replicates --level 90` on the demo survey, reads replicates.bin with
 numpy and recomputes every row of pair_ratios.csv independently:
 - num_replicates = replicates in which both regions have a finite ln parity;
-- lower, upper = exp(numpy.percentile of ln P_a - ln P_b over them at 5 and
-  95 %, method 'linear' = Hyndman and Fan type 7), 1e-12 relative;
+- lower, upper = exp(numpy.percentile of ln P_a - ln P_b over them at p and
+  1 - p, method 'linear' = Hyndman and Fan type 7), 1e-12 relative, with the
+  expanded interval's level p = scipy's norm.cdf(-k t^-1(0.95, nu)), nu the
+  smaller of the two regions' interval_df in bootstrap.csv (empty = none:
+  norm.ppf) and k the larger interval_scale; the row's interval_df and
+  interval_scale must be those;
 - ratio = P_a / P_b from bootstrap.csv's full-sample parities, 1e-12;
 - excludes_one and verdict from lower > 1 (dearer) or upper < 1 (cheaper).
 Checks the nodes covered (the root and the root's aggregate children) and
@@ -25,6 +29,7 @@ import tempfile
 
 import numpy as np
 import pandas as pd
+from scipy import optimize, stats
 
 TOL = 1e-12
 REPLICATES = 120
@@ -36,6 +41,31 @@ def fail(message):
 
 def close(a, b):
     return abs(a - b) <= TOL * max(1.0, abs(b))
+
+
+def t_quantile(q, df):
+    """Student's t quantile solved on scipy's t.cdf (its t.ppf is good to
+    about 1e-11 in p only, too coarse for a 1e-12 comparison)."""
+    return optimize.brentq(lambda x: stats.t.cdf(x, df) - q, 0.0, 1e4, xtol=1e-15, rtol=1e-15)
+
+
+def lower_level(df, scale, level=0.90):
+    """The expanded percentile interval's lower level (Hesterberg 2015)."""
+    q = (1.0 + level) / 2.0
+    t = stats.norm.ppf(q) if np.isnan(df) else t_quantile(q, df)
+    return float(stats.norm.cdf(-scale * t))
+
+
+def pair_expansion(expansion, node, a, b):
+    """nu = min of the two (NaN = none), k = max: bootstrap.csv's columns."""
+    df_a, k_a = expansion[(node, a)]
+    df_b, k_b = expansion[(node, b)]
+    dfs = [d for d in (df_a, df_b) if not np.isnan(d)]
+    return (min(dfs) if dfs else np.nan), max(k_a, k_b)
+
+
+def same(a, b):
+    return (np.isnan(a) and np.isnan(b)) or close(a, b)
 
 
 def main():
@@ -60,9 +90,14 @@ def main():
     boot = pd.read_csv(os.path.join(folder, "bootstrap.csv"), keep_default_na=False,
                        dtype={"node": str, "region": str})
     parity = {(n, r): float(p) for n, r, p in zip(boot.node, boot.region, boot.parity)}
+    expansion = {(n, r): (float(d) if d != "" else np.nan, float(k))
+                 for n, r, d, k in zip(boot.node, boot.region, boot.interval_df,
+                                       boot.interval_scale)}
+    if not any(not np.isnan(d) for d, _ in expansion.values()):
+        fail("bootstrap.csv expands no interval (every interval_df empty)")
     pairs = pd.read_csv(os.path.join(folder, "pair_ratios.csv"), keep_default_na=False,
                         dtype={"node": str, "region_a": str, "region_b": str,
-                               "excludes_one": str, "verdict": str})
+                               "excludes_one": str, "verdict": str, "interval_df": str})
     nodes = list(dict.fromkeys(pairs.node))
     want_nodes = ["all", "food", "clothing", "housing", "utilities", "health", "transport",
                   "communication", "recreation", "restaurants_hotels"]
@@ -79,7 +114,14 @@ def main():
         b = lp[node_index[row.node], region_index[row.region_b]]
         both = np.isfinite(a) & np.isfinite(b)
         d = a[both] - b[both]
-        lower, upper = np.exp(np.percentile(d, [5.0, 95.0], method="linear"))
+        df, scale = pair_expansion(expansion, row.node, row.region_a, row.region_b)
+        p = lower_level(df, scale)
+        lower, upper = np.exp(np.percentile(d, [100 * p, 100 * (1 - p)], method="linear"))
+        row_df = float(row.interval_df) if row.interval_df != "" else np.nan
+        if not same(row_df, df) or not close(float(row.interval_scale), scale):
+            fail("%s %s/%s: interval_df %s, interval_scale %s; bootstrap.csv gives %r, %r"
+                 % (row.node, row.region_a, row.region_b, row.interval_df, row.interval_scale,
+                    df, scale))
         ratio = parity[(row.node, row.region_a)] / parity[(row.node, row.region_b)]
         verdict = "dearer" if lower > 1 else "cheaper" if upper < 1 else "indistinguishable"
         excludes = "yes" if verdict != "indistinguishable" else "no"
@@ -104,7 +146,9 @@ def main():
         a = lp[node_index[node], region_index[to]]
         b = lp[node_index[node], region_index[frm]]
         both = np.isfinite(a) & np.isfinite(b)
-        lower, upper = np.exp(np.percentile(a[both] - b[both], [5.0, 95.0], method="linear"))
+        p = lower_level(*pair_expansion(expansion, node, to, frm))
+        lower, upper = np.exp(np.percentile(a[both] - b[both], [100 * p, 100 * (1 - p)],
+                                            method="linear"))
         if found.group(1) != "%.6f" % lower or found.group(2) != "%.6f" % upper:
             fail("pair %s %s->%s printed %s - %s, numpy %.6f - %.6f"
                  % (node, frm, to, found.group(1), found.group(2), lower, upper))

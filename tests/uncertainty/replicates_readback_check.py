@@ -6,8 +6,11 @@ with numpy and replicates_key.csv with pandas, and recomputes per node and
 region from the replicates alone:
 - num_replicates = replicates with a finite ln parity (exactly);
 - median, lower and upper = 100 exp(numpy.percentile of the ln parities at
-  50, 2.5 and 97.5 %, method 'linear' = Hyndman and Fan type 7), 1e-12
-  relative;
+  50 %, p and 1 - p, method 'linear' = Hyndman and Fan type 7), 1e-12
+  relative, where p is the expanded interval's lower level
+  norm.cdf(-k t^-1(0.975, nu))  (scipy, t^-1 by brentq on t.cdf) from the row's interval_df nu (empty:
+  norm.ppf) and interval_scale k; and, run again with --interval percentile,
+  p = 2.5 %;
 - log_se = their standard deviation with ddof 1, 1e-12 relative.
 Also checks the file's size against its header.
 
@@ -21,6 +24,7 @@ import tempfile
 
 import numpy as np
 import pandas as pd
+from scipy import optimize, stats
 
 TOL = 1e-12
 REPLICATES = 150
@@ -33,13 +37,27 @@ def rel_err(a, b):
     return float(np.nanmax(np.where(np.isnan(err), np.inf, err)))
 
 
-def main():
-    exe, source = sys.argv[1], sys.argv[2]
+def t_quantile(q, df):
+    """Student's t quantile solved on scipy's t.cdf (its t.ppf is good to
+    about 1e-11 in p only, too coarse for a 1e-12 comparison)."""
+    return optimize.brentq(lambda x: stats.t.cdf(x, df) - q, 0.0, 1e4, xtol=1e-15, rtol=1e-15)
+
+
+def lower_level(df, scale, interval, level=0.95):
+    """The interval's lower quantile level: expanded (Hesterberg 2015) or plain."""
+    if interval == "percentile":
+        return (1.0 - level) / 2.0
+    q = (1.0 + level) / 2.0
+    t = stats.norm.ppf(q) if np.isnan(df) else t_quantile(q, df)
+    return float(stats.norm.cdf(-scale * t))
+
+
+def check_run(exe, source, interval):
     out = os.path.join(tempfile.mkdtemp(prefix="paritas-replicates-"), "out")
     subprocess.run([exe, "sensitivity", os.path.join(source, "config", "demo.yaml"), "--output",
                     out, "--parts", "bootstrap", "--replicates", str(REPLICATES), "--seed", "5",
-                    "--write-replicates"], check=True, stdout=subprocess.DEVNULL,
-                   stderr=subprocess.DEVNULL, stdin=subprocess.DEVNULL)
+                    "--write-replicates", "--interval", interval], check=True,
+                   stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, stdin=subprocess.DEVNULL)
     folder = os.path.join(out, "sensitivity")
     with open(os.path.join(folder, "replicates.bin"), "rb") as f:
         data = f.read()
@@ -65,7 +83,7 @@ def main():
     node_index = {code: n for n, code in enumerate(nodes)}
     region_index = {code: r for r, code in enumerate(regions)}
     worst = 0.0
-    checked = 0
+    checked = expanded = 0
     for row in table.itertuples(index=False):
         lp = values[node_index[row.node], region_index[row.region]]
         lp = lp[np.isfinite(lp)]
@@ -74,7 +92,13 @@ def main():
                      % (row.node, row.region, lp.size, row.num_replicates))
         if lp.size < 2:
             continue
-        lower, median, upper = 100.0 * np.exp(np.percentile(lp, [2.5, 50.0, 97.5]))
+        df = float(row.interval_df)  # NaN when empty
+        if interval == "percentile" and (not np.isnan(df) or row.interval_scale != 1.0):
+            sys.exit("replicates_readback_check: %s/%s: the percentile interval has interval_df "
+                     "%r, interval_scale %r" % (row.node, row.region, df, row.interval_scale))
+        expanded += not np.isnan(df)
+        p = lower_level(df, row.interval_scale, interval)
+        lower, median, upper = 100.0 * np.exp(np.percentile(lp, [100 * p, 50.0, 100 * (1 - p)]))
         for name, ours, theirs in (("median", row.median, median), ("lower", row.lower, lower),
                                    ("upper", row.upper, upper),
                                    ("log_se", row.log_se, np.std(lp, ddof=1))):
@@ -86,8 +110,17 @@ def main():
         checked += 1
     if checked < 50:
         sys.exit("replicates_readback_check: only %d node x region rows checked" % checked)
-    print("replicates_readback_check: OK: %d nodes x %d regions x %d replicates; %d rows agree "
-          "to %.1e" % (num_nodes, num_regions, num_b, checked, worst))
+    if interval == "expanded" and expanded < checked // 2:
+        sys.exit("replicates_readback_check: only %d of %d rows expanded" % (expanded, checked))
+    print("replicates_readback_check: OK (%s): %d nodes x %d regions x %d replicates; %d rows "
+          "(%d expanded) agree to %.1e" % (interval, num_nodes, num_regions, num_b, checked,
+                                           expanded, worst))
+
+
+def main():
+    exe, source = sys.argv[1], sys.argv[2]
+    for interval in ("expanded", "percentile"):
+        check_run(exe, source, interval)
 
 
 if __name__ == "__main__":

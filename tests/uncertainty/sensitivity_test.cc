@@ -1,5 +1,6 @@
 // Sensitivity runs: options and messages, the percentile definition, the
-// weighted Jevons matrix, leave-one-out against a recomputation without the
+// Student t quantile and the expanded interval's levels and degrees of
+// freedom, the weighted Jevons matrix, leave-one-out against a recomputation without the
 // item, the jackknife of a mean, bootstrap determinism and interval coverage
 // on synthetic surveys with a known truth, the coverage curve, method spread
 // and the command line.
@@ -9,6 +10,7 @@
 #include <cmath>
 #include <cstdio>
 #include <filesystem>
+#include <limits>
 #include <sstream>
 
 #include <gtest/gtest.h>
@@ -166,6 +168,115 @@ TEST(PairRatios, IntervalIsTheType7QuantilesOfTheLogDifference) {
   pair = PairRatioFromReplicates(log_a.data(), log_b.data(), 1, 0.95, 1.0);
   EXPECT_EQ(pair.verdict, PairVerdict::kNone);
   EXPECT_TRUE(std::isnan(pair.lower));
+}
+
+// Student t quantiles against scipy 1.10.1 (stats.t.ppf, computed here with
+// Debian's python3-scipy). scipy's ppf is good to about 1e-11 in p only: at
+// df = 1 it gives 12.706204736432095 where the closed form tan(0.475 pi) is
+// 12.706204736174704, and at df = 3, p = 0.995 its 5.84090929975643 has
+// F(t) = 0.994999999976 by the closed form; so 1e-8 against scipy in t (1e-9
+// in p), and 1e-13 against the closed forms of df = 1 (Cauchy, t = tan(pi
+// (p - 1/2))), df = 2 (t = (2p - 1) / sqrt(2 p (1 - p))) and df = 3
+// (F(t) = 1/2 + (t / (sqrt 3 (1 + t^2 / 3)) + atan(t / sqrt 3)) / pi),
+// Student's CDF integrated by hand for those df.
+TEST(StudentT, QuantilesMatchScipy) {
+  const struct {
+    double p, df, t;
+  } cases[] = {{0.975, 1, 12.706204736432095},     {0.975, 2, 4.302652729911275},
+               {0.975, 5, 2.5705818366147395},     {0.975, 12.5, 2.1691859427099556},
+               {0.975, 30, 2.0422724563012373},    {0.995, 3, 5.84090929975643},
+               {0.95, 7, 1.894578605061305},       {0.975, 1000, 1.9623390808264074},
+               {0.975, 123456.0, 1.9599832002451865}, {0.6, 4, 0.2707222947059493},
+               {0.025, 9, -2.262157162740992}};
+  for (const auto& c : cases) {
+    EXPECT_TRUE(IsClose(StudentTQuantile(c.p, c.df), c.t, 1e-8)) << c.p << " " << c.df;
+    EXPECT_NEAR(StudentTCdf(c.t, c.df), c.p, 1e-9) << c.p << " " << c.df;
+  }
+  for (double p : {0.6, 0.9, 0.975, 0.995, 0.025}) {
+    EXPECT_TRUE(IsClose(StudentTQuantile(p, 1), std::tan(M_PI * (p - 0.5)), 1e-13)) << p;
+    EXPECT_TRUE(IsClose(StudentTQuantile(p, 2), (2 * p - 1) / std::sqrt(2 * p * (1 - p)), 1e-13))
+        << p;
+    const double t = StudentTQuantile(p, 1);
+    EXPECT_NEAR(StudentTCdf(t, 1), 0.5 + std::atan(t) / M_PI, 1e-15) << p;
+    const double t3 = StudentTQuantile(p, 3);
+    EXPECT_NEAR(0.5 + (t3 / (std::sqrt(3.0) * (1 + t3 * t3 / 3)) + std::atan(t3 / std::sqrt(3.0))) /
+                          M_PI,
+                p, 1e-14)
+        << p;
+  }
+  // df = +inf is the normal: scipy's stats.norm.ppf(0.975) = 1.959963984540054.
+  EXPECT_TRUE(IsClose(StudentTQuantile(0.975, std::numeric_limits<double>::infinity()),
+                      1.959963984540054, 1e-9));
+  EXPECT_TRUE(std::isnan(StudentTQuantile(1.0, 5)));
+  EXPECT_TRUE(std::isnan(StudentTQuantile(0.5, 0)));
+}
+
+// The expanded interval's lower level p = Phi(-k t_(nu, (1 + level) / 2)),
+// against scipy 1.10.1 (computed here: stats.norm.cdf(-k * stats.t.ppf(q, nu))).
+TEST(ExpandedInterval, LowerLevelsMatchScipyAndFallBackToThePercentileLevel) {
+  EXPECT_TRUE(IsClose(ExpandedLowerLevel(0.95, 5, 1.0), 0.0050763917887903165, 1e-9));
+  EXPECT_TRUE(IsClose(ExpandedLowerLevel(0.95, 12.5, 1.0), 0.015034284968462425, 1e-9));
+  // Plain bootstrap of 9 items at 90 %: k = sqrt(9 / 8), nu = 8.
+  EXPECT_TRUE(IsClose(ExpandedLowerLevel(0.90, 8, std::sqrt(9.0 / 8.0)), 0.02428491595757016,
+                      1e-9));
+  // No t expansion and k = 1: exactly the percentile level.
+  EXPECT_EQ(ExpandedLowerLevel(0.95, std::nan(""), 1.0), 0.5 * (1.0 - 0.95));
+  EXPECT_EQ(ExpandedLowerLevel(0.95, kIntervalDfCap, 1.0), 0.5 * (1.0 - 0.95));
+  EXPECT_EQ(ExpandedLowerLevel(0.90, 0.0, 1.0), 0.5 * (1.0 - 0.90));
+}
+
+// Satterthwaite (1946) by hand: terms 0.04 (df 4) and 0.01 (df 9) give
+// 0.05^2 / (0.04^2 / 4 + 0.01^2 / 9) = 0.0025 / 0.000411111... = 6.0810810...
+// (= 225 / 37); a third term 0.02 of infinite df adds to the numerator only:
+// 0.07^2 / 0.000411111... = 441 / 37.
+TEST(ExpandedInterval, SatterthwaiteDegreesOfFreedomByHand) {
+  const double inf = std::numeric_limits<double>::infinity();
+  EXPECT_TRUE(IsClose(SatterthwaiteDf({0.04, 0.01}, {4, 9}), 225.0 / 37.0, 1e-13));
+  EXPECT_TRUE(IsClose(SatterthwaiteDf({0.04, 0.01, 0.02}, {4, 9, inf}), 441.0 / 37.0, 1e-13));
+  // Zero and NaN terms add nothing.
+  EXPECT_TRUE(
+      IsClose(SatterthwaiteDf({0.04, 0.0, 0.01, std::nan("")}, {4, 3, 9, 2}), 225.0 / 37.0, 1e-13));
+  // One term: its own df.
+  EXPECT_DOUBLE_EQ(SatterthwaiteDf({0.3}, {6}), 6.0);
+  EXPECT_TRUE(std::isinf(SatterthwaiteDf({0.02}, {inf})));
+  EXPECT_TRUE(std::isnan(SatterthwaiteDf({0.0}, {5})));
+}
+
+TEST(IntervalKind, NamesReadBackCaseInsensitively) {
+  IntervalKind kind = IntervalKind::kPercentile;
+  EXPECT_TRUE(FromString(" Expanded", &kind));
+  EXPECT_EQ(kind, IntervalKind::kExpanded);
+  EXPECT_TRUE(FromString("PERCENTILE", &kind));
+  EXPECT_EQ(ToString(kind), "percentile");
+  EXPECT_EQ(ToString(IntervalKind::kExpanded), "expanded");
+  EXPECT_FALSE(FromString("wide", &kind));
+  EXPECT_EQ(SensitivityOptions().interval, IntervalKind::kExpanded);
+}
+
+// A pair takes the smaller nu (none counting as infinite) and the larger k;
+// at level 0.5 with nu = 4 the levels are p = Phi(-t_(4, 0.75)) and 1 - p
+// (computed here with scipy 1.10.1: norm.cdf(-t.ppf(0.75, 4)) =
+// 0.2294385638765593), so on the sorted d = 0.1 ... 0.5 the type-7 lower end
+// is at h = 4 p < 1: 0.1 + 0.1 x 4 p, and the upper at h = 4 - 4 p:
+// 0.4 + 0.1 x (1 - 4 p) = 0.5 - 0.1 x 4 p.
+TEST(PairRatios, ExpansionTakesTheSmallerDegreesOfFreedomAndTheLargerScale) {
+  const double nan = std::nan("");
+  double df = 0.0, scale = 0.0;
+  PairExpansion(6.0, 1.0, 4.0, 1.1, &df, &scale);
+  EXPECT_EQ(df, 4.0);
+  EXPECT_EQ(scale, 1.1);
+  PairExpansion(nan, 1.0, 9.5, 1.0, &df, &scale);
+  EXPECT_EQ(df, 9.5);
+  PairExpansion(nan, 1.0, nan, 1.0, &df, &scale);
+  EXPECT_TRUE(std::isnan(df));
+  const std::vector<double> log_b = {0.0, 0.0, 0.0, 0.0, 0.0};
+  const std::vector<double> log_a = {0.3, 0.1, 0.5, 0.2, 0.4};
+  const double p = ExpandedLowerLevel(0.5, 4.0, 1.0);
+  EXPECT_NEAR(p, 0.2294385638765593, 1e-9);
+  const PairRatio pair = PairRatioFromReplicates(log_a.data(), log_b.data(), 5, 0.5, 1.0, 4.0);
+  EXPECT_NEAR(pair.lower, std::exp(0.1 + 0.1 * 4 * p), 1e-15);
+  EXPECT_NEAR(pair.upper, std::exp(0.5 - 0.1 * 4 * p), 1e-15);
+  EXPECT_EQ(pair.interval_df, 4.0);
 }
 
 TEST(PairRatios, VerdictNamesReadBackCaseInsensitively) {
@@ -326,7 +437,8 @@ TEST(Bootstrap, SameSeedGivesIdenticalOutputWhateverTheThreads) {
   EXPECT_EQ(binary.substr(0, 8), "PRTSREP1");
   const std::string csv = BootstrapCsv(survey, a);
   EXPECT_EQ(csv.substr(0, csv.find('\n')),
-            "node,region,parity,median,lower,upper,log_se,rank_low,rank_high,num_replicates");
+            "node,region,parity,median,lower,upper,log_se,rank_low,rank_high,num_replicates,"
+            "interval_df,interval_scale");
   for (int r = 0; r < survey.num_regions(); ++r) {
     EXPECT_LE(a.boot_lower(0, r), a.boot_median(0, r));
     EXPECT_LE(a.boot_median(0, r), a.boot_upper(0, r));
@@ -421,6 +533,75 @@ TEST(Bootstrap, RescaledMatchesTheJackknifeAndPlainIsLowByNMinusOneOverN) {
   EXPECT_NEAR(rescaled, 1.0, 0.04);
   EXPECT_NEAR(plain, 0.875, 0.04);
   EXPECT_NEAR(plain / rescaled, 0.875, 0.04);
+}
+
+// The expanded interval on a run: a heading's nu is n_h - 1 and its
+// interval the type-7 percentiles of its replicates at Phi(-t_(nu, 0.975))
+// and 1 minus it; an aggregate's nu is the Satterthwaite sum written out
+// here over its headings (w_h the region's expenditure share within the
+// node, v_h the heading's bootstrap variance); the plain bootstrap scales
+// by sqrt(n / (n - 1)); the percentile interval expands nothing.
+TEST(Bootstrap, ExpandedIntervalUsesTheHeadingItemsAndSatterthwaiteDegreesOfFreedom) {
+  const Survey survey = LoadSynthetic(SmallOptions(41), "boot-expanded");
+  SensitivityOptions options = OnlyParts(true, false, false, false);
+  options.replicates = 60;
+  options.write_replicates = true;
+  SensitivityResult result;
+  SensitivitySummary summary;
+  ASSERT_TRUE(RunSensitivity(survey, ComputeOptions(), options, &result, &summary));
+  const auto& nodes = survey.classification.nodes();
+  const int num_b = result.boot_num_replicates_kept, num_regions = survey.num_regions();
+  int aggregates_checked = 0;
+  for (int n = 0; n < static_cast<int>(nodes.size()); ++n) {
+    for (int r = 0; r < num_regions; ++r) {
+      double nu = std::nan("");
+      if (nodes[n].is_leaf) {
+        nu = result.heading_num_items[nodes[n].headings.front()] - 1.0;
+      } else {
+        double total = 0.0, sum = 0.0, denominator = 0.0;
+        for (int h : nodes[n].headings) total += survey.expenditure(r, h);
+        for (int h : nodes[n].headings) {
+          const double w = survey.expenditure(r, h) / total;
+          const int leaf = survey.classification.FindNode(survey.heading_codes[h]);
+          const double se = result.boot_log_se(leaf, r);
+          const double term = w * w * se * se;
+          sum += term;
+          denominator += term * term / (result.heading_num_items[h] - 1.0);
+        }
+        nu = sum * sum / denominator;
+        ++aggregates_checked;
+      }
+      ASSERT_TRUE(IsClose(result.boot_interval_df(n, r), nu, 1e-12)) << nodes[n].code << " " << r;
+      EXPECT_EQ(result.boot_interval_scale(n, r), 1.0);
+      std::vector<double> values;
+      for (int b = 0; b < num_b; ++b) {
+        const size_t slot = (static_cast<size_t>(n) * num_regions + r) * num_b + b;
+        const double v = result.boot_log_parity[slot];
+        if (std::isfinite(v)) values.push_back(v);
+      }
+      std::sort(values.begin(), values.end());
+      const double p = 0.5 * std::erfc(StudentTQuantile(0.975, nu) / std::sqrt(2.0));
+      EXPECT_DOUBLE_EQ(result.boot_lower(n, r), 100.0 * std::exp(PercentileType7(values, p)));
+      EXPECT_DOUBLE_EQ(result.boot_upper(n, r), 100.0 * std::exp(PercentileType7(values, 1 - p)));
+    }
+  }
+  EXPECT_GT(aggregates_checked, 10);
+  options.write_replicates = false;
+  options.bootstrap = BootstrapKind::kPlain;
+  SensitivityResult plain;
+  ASSERT_TRUE(RunSensitivity(survey, ComputeOptions(), options, &plain, &summary));
+  const int leaf = survey.classification.FindNode(survey.heading_codes[0]);
+  const double n_h = plain.heading_num_items[0];
+  EXPECT_DOUBLE_EQ(plain.boot_interval_scale(leaf, 0), std::sqrt(n_h / (n_h - 1)));
+  EXPECT_GT(plain.boot_interval_scale(0, 0), 1.0);
+  options.interval = IntervalKind::kPercentile;
+  SensitivityResult percentile;
+  ASSERT_TRUE(RunSensitivity(survey, ComputeOptions(), options, &percentile, &summary));
+  EXPECT_TRUE(percentile.boot_interval_df.array().isNaN().all());
+  EXPECT_TRUE((percentile.boot_interval_scale.array() == 1.0).all());
+  // Wider than the percentile interval of the same replicates.
+  EXPECT_LT(plain.boot_lower(leaf, 0), percentile.boot_lower(leaf, 0));
+  EXPECT_GT(plain.boot_upper(leaf, 0), percentile.boot_upper(leaf, 0));
 }
 
 TEST(BootstrapKind, NamesReadBackCaseInsensitively) {
@@ -634,6 +815,8 @@ TEST(SensitivityCommand, BadOptionValuesExitWithOneAndAClearMessage) {
        "coverage, methods; did you mean 'leave-one-out'?\n"},
       {"--bootstrap wild",
        "paritas: error: --bootstrap must be one of: rescaled, plain; found 'wild'\n"},
+      {"--interval wide",
+       "paritas: error: --interval must be one of: expanded, percentile; found 'wide'\n"},
       {"--target-se 0",
        "paritas: error: --target-se must be a standard error of ln parity above 0 and below 1 "
        "(e.g. 0.01), found '0'\n"},

@@ -32,16 +32,22 @@ struct PairRatio {
   int region_b = -1;
   // Full-sample P_a / P_b (ratio scale, no unit); NaN when either has none.
   double ratio = std::numeric_limits<double>::quiet_NaN();
-  // Percentile interval of P_a / P_b at the run's level: exp of the type-7
-  // quantiles (PercentileType7) at (1 - level) / 2 and (1 + level) / 2 of
-  // d_b = ln P_a,b - ln P_b,b over the replicates b in which both regions
-  // have a parity (Efron and Tibshirani 1993, ch. 13, the percentile
-  // interval, applied to the statistic ln(P_a / P_b)). NaN with fewer than
-  // two such replicates. Swapping a and b gives (1 / upper, 1 / lower)
-  // exactly, as type-7 quantiles of -d are minus those of d.
+  // Interval of P_a / P_b at the run's level: exp of the type-7 quantiles
+  // (PercentileType7) at p and 1 - p of d_b = ln P_a,b - ln P_b,b over the
+  // replicates b in which both regions have a parity, with p =
+  // ExpandedLowerLevel(level, interval_df, interval_scale) (expanded_interval.h;
+  // the percentile interval of Efron and Tibshirani 1993, ch. 13, applied to
+  // the statistic ln(P_a / P_b), when there is no expansion: p = (1 - level)
+  // / 2). NaN with fewer than two such replicates. Swapping a and b gives
+  // (1 / upper, 1 / lower) exactly, as type-7 quantiles of -d are minus
+  // those of d.
   double lower = std::numeric_limits<double>::quiet_NaN();
   double upper = std::numeric_limits<double>::quiet_NaN();
   int num_replicates = 0;  // replicates in which both had a parity
+  // Degrees of freedom and scale of the expansion (PairExpansion); NaN and 1
+  // when there is none.
+  double interval_df = std::numeric_limits<double>::quiet_NaN();
+  double interval_scale = 1.0;
   PairVerdict verdict = PairVerdict::kNone;
 
   // True when the interval lies wholly above or wholly below 1.
@@ -52,9 +58,23 @@ struct PairRatio {
 
 // Returns the interval of P_a / P_b from `num_replicates` replicate ln
 // parities of each region (NaN = no parity in that replicate), at `level`
-// in (0, 1); `full_ratio` is copied into PairRatio::ratio.
+// in (0, 1), expanded with `interval_df` and `interval_scale` (NaN and 1:
+// the plain percentile interval); `full_ratio` is copied into
+// PairRatio::ratio.
 PairRatio PairRatioFromReplicates(const double* log_a, const double* log_b, int num_replicates,
-                                  double level, double full_ratio);
+                                  double level, double full_ratio,
+                                  double interval_df = std::numeric_limits<double>::quiet_NaN(),
+                                  double interval_scale = 1.0);
+
+// The expansion of a pair's interval from its two regions' (degrees of
+// freedom, scale) at the node (SensitivityResult::boot_interval_df and
+// boot_interval_scale): nu = min(nu_a, nu_b), NaN (no t expansion) counting
+// as infinite, and k = max(k_a, k_b). Conservative: the ratio's standard
+// error rests on both regions' items, so its degrees of freedom are at
+// least the smaller of the two (a Satterthwaite nu of the ratio would need
+// the covariance of the two parities, which the replicates share).
+void PairExpansion(double df_a, double scale_a, double df_b, double scale_b, double* df,
+                   double* scale);
 
 // The pair intervals of one node.
 struct NodePairRatios {
@@ -79,7 +99,8 @@ inline constexpr int kAllPairsMaxRegions = 60;
 std::vector<int> PairRatioNodes(const Classification& classification);
 
 // sensitivity/pair_ratios.csv: node,region_a,region_b,ratio,lower,upper,
-// num_replicates,excludes_one,verdict; ratio, lower and upper are of
+// num_replicates,excludes_one,verdict,interval_df,interval_scale (the
+// expansion, PairRatio::interval_df empty where none); ratio, lower and upper are of
 // P_a / P_b; excludes_one is "yes" or "no"; verdict as ToString(PairVerdict),
 // of a against b. Numbers in the shortest form that reads back exactly.
 std::string PairRatiosCsv(const Survey& survey, const std::vector<NodePairRatios>& nodes);

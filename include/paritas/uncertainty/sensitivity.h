@@ -21,6 +21,7 @@
 #include "paritas/output/run_folder.h"
 #include "paritas/survey/survey.h"
 #include "paritas/survey/survey_loader.h"
+#include "paritas/uncertainty/expanded_interval.h"
 #include "paritas/uncertainty/pair_ratios.h"
 
 namespace paritas {
@@ -68,6 +69,16 @@ struct SensitivityOptions {
   bool all_pairs = false;
   // Level of the percentile intervals, in (0, 1) exclusive (default 0.95).
   double level = 0.95;
+  // Which interval the bootstrap reports (default expanded; see
+  // IntervalKind). Expanded: percentiles at p = Phi(-k t_(nu, (1 + level) /
+  // 2)) and 1 - p (Hesterberg 2015), with nu the degrees of freedom of the
+  // parity's standard error: n_h - 1 for a heading of n_h items (none for
+  // an external heading or one item), the Welch-Satterthwaite nu of its
+  // headings for an aggregate or group (SensitivityResult::boot_interval_df);
+  // k = 1 for the rescaled bootstrap, sqrt(n / (n - 1)) for the plain one
+  // (SensitivityResult::boot_interval_scale). Percentile: (1 - level) / 2
+  // and (1 + level) / 2. Rank intervals stay at the percentile levels.
+  IntervalKind interval = IntervalKind::kExpanded;
   // Shares of each heading's items kept in the coverage curve, each in
   // (0, 1], no repeats (default 90, 75, 50 and 25 %).
   std::vector<double> coverage_levels = {0.9, 0.75, 0.5, 0.25};
@@ -169,6 +180,23 @@ struct SensitivityResult {
   Eigen::MatrixXi boot_rank_low;
   Eigen::MatrixXi boot_rank_high;
   Eigen::MatrixXi boot_num_replicates;
+  // Degrees of freedom nu and scale k of the expanded interval (see
+  // SensitivityOptions::interval); boot_lower and boot_upper are the type-7
+  // percentiles at ExpandedLowerLevel(level, nu, k) and 1 minus it. nu is NaN
+  // where there is no t expansion (percentile interval, external heading,
+  // one item, nu >= kIntervalDfCap); k is 1 unless the plain bootstrap's
+  // variance is corrected. For a heading h with n_h >= 2 items (not
+  // external): nu = n_h - 1, k = sqrt(n_h / (n_h - 1)) under the plain
+  // bootstrap. For an aggregate or group and region r, with w_h r's
+  // expenditure share of heading h within the node, v_h the bootstrap
+  // variance of h's ln parity for r (boot_log_se^2 of h's leaf) and c_h =
+  // n_h / (n_h - 1) under the plain bootstrap (else 1):
+  //   nu = (sum_h w_h^2 c_h v_h)^2 / sum_h (w_h^2 c_h v_h)^2 / (n_h - 1)
+  // (Satterthwaite 1946; SatterthwaiteDf), headings drawn from a normal
+  // (external with log_se) counting with infinite df, headings with v_h = 0
+  // or n_h = 1 adding nothing; k = sqrt(sum_h w_h^2 c_h v_h / sum_h w_h^2 v_h).
+  Eigen::MatrixXd boot_interval_df;
+  Eigen::MatrixXd boot_interval_scale;
   // Every replicate's ln parity (normalised like the full sample; NaN where
   // the region had none), index (node x num_regions + region) x B +
   // replicate; empty unless SensitivityOptions::write_replicates.
@@ -280,7 +308,9 @@ bool ReplicateParities(const Survey& survey, const ComputeOptions& compute,
 double PercentileType7(const std::vector<double>& sorted_values, double p);
 
 // sensitivity/bootstrap.csv: node,region,parity,median,lower,upper,log_se,
-// rank_low,rank_high,num_replicates.
+// rank_low,rank_high,num_replicates,interval_df,interval_scale (the last two
+// as SensitivityResult::boot_interval_df and boot_interval_scale; interval_df
+// empty where there is no t expansion).
 std::string BootstrapCsv(const Survey& survey, const SensitivityResult& result);
 // sensitivity/replicates.bin: every bootstrap replicate's ln parities,
 // little-endian. A 24-byte header: the 8 bytes "PRTSREP1", then four
