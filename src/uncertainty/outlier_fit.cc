@@ -8,6 +8,7 @@
 #include <algorithm>
 #include <cmath>
 #include <limits>
+#include <utility>
 #include <vector>
 
 namespace paritas::internal {
@@ -104,50 +105,99 @@ double RobustScale(const Eigen::VectorXd& residual, const Eigen::VectorXd& hat,
   }
   *num_cells = static_cast<int>(standardised.size());
   if (*num_cells < kMinScaleCells) return kNaN;
-  const double scale = kMadToSigma * Median(standardised);
+  double sum = 0.0;  // for the fallback below, before the median reorders
+  for (double v : standardised) sum += v * v;
+  const double scale = kMadToSigma * Median(std::move(standardised));
   if (scale > 0.0) return scale;
   // More than half the cells fit exactly (identical prices, e.g. a national
   // tariff): the root mean square still measures the few that do not.
-  double sum = 0.0;
-  for (double v : standardised) sum += v * v;
   return std::sqrt(sum / *num_cells);
 }
 
-Eigen::VectorXd LeverageFactors(int num_regions, int num_items, std::span<const int> region,
-                                std::span<const int> item, const Eigen::VectorXd& weight) {
-  // Side A (the smaller) stays dense; side B is eliminated:
-  // S = D_A - C D_B^-1 C', and for cell (a, b) with u = e_a - c_b / d_b,
-  // q = 1 / d_b + u' S^+ u = 1 / d_b + G_aa - 2 (G C)_ab / d_b +
-  // (C' G C)_bb / d_b^2. G = (S + 11'/m)^-1 equals S^+ on the vectors u (they
-  // sum to 0; S + 11'/m is invertible on a linked design). Both products are
-  // dense matrix products, like FitCpd's Schur complement.
+namespace {
+
+// One weighted solve of a heading's CPD normal equations X'WX [a; b] = X'Wy
+// by block elimination: side A (the smaller of regions and items) stays
+// dense, side B is eliminated, leaving the Schur complement
+// S = D_A - C D_B^-1 C' (C the A x B weight sums, D the weight sums of each
+// region and item). S 1 = 0, so S + 11'/m (m = |A|) is factorised instead:
+// it is invertible on a linked design, and its inverse G equals S^+ on the
+// vectors that sum to 0, which are all the solve and the leverage meet.
+//   Fit: a = G (r_A - C D_B^-1 r_B), b = D_B^-1 (r_B - C' a), r = X'Wy; the
+//   right-hand side sums to 0, so 1'a = 0 (any solution gives the same
+//   fitted values a_r + b_i; the caller fixes the level).
+//   Leverage: for cell (a, b) with u = e_a - c_b / d_b,
+//   q = x'(X'WX)^+ x = 1 / d_b + u'G u
+//     = 1 / d_b + G_aa - 2 (G C)_ab / d_b + (C'G C)_bb / d_b^2.
+// One factorisation serves both, so each iteration of the robust fit forms
+// one Schur complement and scatters the cells once.
+struct BlockSolve {
+  Eigen::VectorXd region_effect;  // per compressed region (1'a = 0 on side A)
+  Eigen::VectorXd item_effect;    // per compressed item
+  Eigen::VectorXd residual;       // per cell: y - a_r - b_i (empty without y)
+  Eigen::VectorXd leverage;       // per cell: q (NaN when S is singular)
+};
+
+// Returns false (leverage NaN) when S + 11'/m is not positive definite.
+// `log_price` may be empty: then only the leverage is formed.
+bool SolveBlocks(int num_regions, int num_items, std::span<const int> region, std::span<const int> item,
+                 std::span<const double> log_price, const Eigen::VectorXd& weight, BlockSolve* out) {
   const bool regions_dense = num_regions <= num_items;
   const int m = regions_dense ? num_regions : num_items;
   const int num_b = regions_dense ? num_items : num_regions;
   const std::span<const int> a_of = regions_dense ? region : item;
   const std::span<const int> b_of = regions_dense ? item : region;
+  const bool fit = !log_price.empty();
+  const int64_t num_cells = static_cast<int64_t>(a_of.size());
   Eigen::MatrixXd c = Eigen::MatrixXd::Zero(m, num_b);
   Eigen::VectorXd d_a = Eigen::VectorXd::Zero(m), d_b = Eigen::VectorXd::Zero(num_b);
-  for (size_t k = 0; k < a_of.size(); ++k) {
-    c(a_of[k], b_of[k]) += weight[k];
-    d_a[a_of[k]] += weight[k];
-    d_b[b_of[k]] += weight[k];
+  Eigen::VectorXd r_a = Eigen::VectorXd::Zero(m), r_b = Eigen::VectorXd::Zero(num_b);
+  for (int64_t k = 0; k < num_cells; ++k) {
+    const int a = a_of[k], b = b_of[k];
+    const double w = weight[k];
+    c(a, b) += w;
+    d_a[a] += w;
+    d_b[b] += w;
+    if (fit) {
+      r_a[a] += w * log_price[k];
+      r_b[b] += w * log_price[k];
+    }
   }
   const Eigen::VectorXd inverse_d_b = d_b.cwiseInverse();
-  Eigen::MatrixXd s = -(c * inverse_d_b.asDiagonal()) * c.transpose();
+  // Lower triangle of S + 11'/m, as one symmetric rank update.
+  const Eigen::MatrixXd scaled = c * inverse_d_b.cwiseSqrt().asDiagonal();
+  Eigen::MatrixXd s = Eigen::MatrixXd::Constant(m, m, 1.0 / m);
+  s.selfadjointView<Eigen::Lower>().rankUpdate(scaled, -1.0);
   s.diagonal() += d_a;
-  s.array() += 1.0 / m;
-  Eigen::VectorXd q = Eigen::VectorXd::Constant(static_cast<int64_t>(a_of.size()), kNaN);
+  out->leverage = Eigen::VectorXd::Constant(num_cells, kNaN);
   const Eigen::LLT<Eigen::MatrixXd> llt(s);
-  if (llt.info() != Eigen::Success) return q;
+  if (llt.info() != Eigen::Success) return false;
+  if (fit) {
+    const Eigen::VectorXd effect_a = llt.solve(r_a - c * inverse_d_b.cwiseProduct(r_b));
+    Eigen::VectorXd effect_b = r_b;
+    effect_b.noalias() -= c.transpose() * effect_a;
+    effect_b = effect_b.cwiseProduct(inverse_d_b);
+    out->region_effect = regions_dense ? effect_a : effect_b;
+    out->item_effect = regions_dense ? effect_b : effect_a;
+  }
   const Eigen::MatrixXd g = llt.solve(Eigen::MatrixXd::Identity(m, m));
   const Eigen::MatrixXd gc = g * c;
   const Eigen::VectorXd cgc = (c.array() * gc.array()).colwise().sum().transpose();
-  for (size_t k = 0; k < a_of.size(); ++k) {
+  for (int64_t k = 0; k < num_cells; ++k) {
     const int a = a_of[k], b = b_of[k];
-    q[k] = inverse_d_b[b] + g(a, a) - 2.0 * gc(a, b) * inverse_d_b[b] + cgc[b] * inverse_d_b[b] * inverse_d_b[b];
+    out->leverage[k] =
+        inverse_d_b[b] + g(a, a) - 2.0 * gc(a, b) * inverse_d_b[b] + cgc[b] * inverse_d_b[b] * inverse_d_b[b];
   }
-  return q;
+  return true;
+}
+
+}  // namespace
+
+Eigen::VectorXd LeverageFactors(int num_regions, int num_items, std::span<const int> region,
+                                std::span<const int> item, const Eigen::VectorXd& weight) {
+  BlockSolve solve;
+  SolveBlocks(num_regions, num_items, region, item, {}, weight, &solve);
+  return std::move(solve.leverage);
 }
 
 void FindCuttingCells(int num_regions, int num_items, std::span<const int> region,
@@ -233,6 +283,8 @@ ScreenFit FitScreen(const CpdData& data, const OutlierOptions& options) {
   ScreenFit fit;
   CpdOptions cpd;
   cpd.compute_standard_errors = false;
+  // The least-squares start: FitCpd also says whether the regions are
+  // linked and why not.
   CpdResult result = FitCpd(data, cpd);
   if (!result.identified) {
     fit.message = result.message;
@@ -249,35 +301,48 @@ ScreenFit FitScreen(const CpdData& data, const OutlierOptions& options) {
   fit.weight = Eigen::VectorXd::Ones(num_cells);
   fit.leverage = LeverageFactors(c.num_regions, c.num_items, c.region, c.item, fit.weight);
   fit.converged = options.fit == OutlierFit::kLeastSquares;
-  std::vector<double> weight(num_cells, 1.0);
-  CpdData weighted = data;
+  fit.residual = std::move(result.residual);
+  // Effects of the latest reweighted fit (compressed numbering); empty while
+  // the least-squares start stands.
+  BlockSolve latest;
   while (!fit.converged && fit.num_iterations < options.max_iterations) {
     // The scale is re-estimated from the current residuals at every step,
     // so it is not fixed by a least-squares fit that the errors dragged.
-    const double scale = RobustScale(result.residual, fit.weight.cwiseProduct(fit.leverage), fit.link,
+    const double scale = RobustScale(fit.residual, fit.weight.cwiseProduct(fit.leverage), fit.link,
                                      &fit.num_scale_cells);
     if (!(scale > 0.0)) break;  // too few cells, or an exact fit: least squares it is
-    const Eigen::VectorXd next = HuberWeights(result.residual, options.huber_constant * scale);
+    Eigen::VectorXd next = HuberWeights(fit.residual, options.huber_constant * scale);
     const double change = (next - fit.weight).cwiseAbs().maxCoeff();
     if (change <= options.weight_tolerance) {
       fit.converged = true;
       break;
     }
-    for (int k = 0; k < num_cells; ++k) weight[k] = next[k];
-    weighted.weight = weight;
-    CpdResult refit = FitCpd(weighted, cpd);
-    if (!refit.identified) break;  // cannot happen with positive weights; keep the last fit
-    fit.weight = next;
-    fit.leverage = LeverageFactors(c.num_regions, c.num_items, c.region, c.item, fit.weight);
-    result = std::move(refit);
+    BlockSolve refit;
+    if (!SolveBlocks(c.num_regions, c.num_items, c.region, c.item, data.log_price, next, &refit)) {
+      break;  // cannot happen with positive weights; keep the last fit
+    }
+    fit.weight = std::move(next);
+    fit.leverage = std::move(refit.leverage);
+    latest = std::move(refit);
     ++fit.num_iterations;
+    // Residuals at the level the parities are reported at (below).
+    const double shift = latest.region_effect.mean();
+    latest.region_effect.array() -= shift;
+    latest.item_effect.array() += shift;
+    for (int k = 0; k < num_cells; ++k) {
+      fit.residual[k] = data.log_price[k] - (latest.region_effect[c.region[k]] + latest.item_effect[c.item[k]]);
+    }
   }
   if (!fit.converged && fit.num_iterations == 0) fit.converged = true;  // nothing to reweight
   fit.identified = true;
   fit.degrees_of_freedom = result.degrees_of_freedom;
-  fit.log_parity = result.log_parity;
-  fit.item_effect = result.item_effect;
-  fit.residual = result.residual;
+  fit.log_parity = std::move(result.log_parity);
+  fit.item_effect = std::move(result.item_effect);
+  if (latest.region_effect.size() > 0) {
+    // ln parities with mean 0 over the regions present, as FitCpd gives them.
+    for (int r = 0; r < c.num_regions; ++r) fit.log_parity[c.region_of[r]] = latest.region_effect[r];
+    for (int i = 0; i < c.num_items; ++i) fit.item_effect[c.item_of[i]] = latest.item_effect[i];
+  }
   fit.scale = RobustScale(fit.residual, fit.weight.cwiseProduct(fit.leverage), fit.link, &fit.num_scale_cells);
   return fit;
 }
