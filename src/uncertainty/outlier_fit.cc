@@ -6,6 +6,7 @@
 
 #include <Eigen/Cholesky>
 #include <algorithm>
+#include <bit>
 #include <cmath>
 #include <limits>
 #include <utility>
@@ -22,12 +23,47 @@ constexpr double kMadToSigma = 1.4826;
 // exact 1s are found on the graph.
 constexpr double kHatOne = 1e-9;
 
-double Median(std::vector<double> values) {
-  const size_t mid = values.size() / 2;
-  std::nth_element(values.begin(), values.begin() + mid, values.end());
-  double median = values[mid];
-  if (values.size() % 2 == 0) median = 0.5 * (median + *std::max_element(values.begin(), values.begin() + mid));
-  return median;
+// Median of the non-negative finite numbers whose bit patterns are `bits`
+// (non-empty; `candidates` is workspace): the middle value, or the mean
+// of the two middle values for an even count, exactly as sorting gives it.
+// A non-negative double orders as its bit pattern, so the middle value is
+// found by radix selection, one byte at a time from the top: each pass
+// counts the candidates per byte value and keeps those in the byte bucket
+// holding the rank sought (no comparisons that depend on the data).
+double MedianOfNonNegative(const std::vector<uint64_t>& bits, std::vector<uint64_t>* candidates) {
+  const size_t n = bits.size();
+  const size_t mid = n / 2;
+  size_t rank = mid;  // rank sought among the candidates left
+  std::span<const uint64_t> left(bits);
+  for (int shift = 56; shift >= 0 && left.size() > 1; shift -= 8) {
+    size_t count[256] = {};
+    for (uint64_t x : left) ++count[(x >> shift) & 255];
+    int digit = 0;
+    while (rank >= count[digit]) rank -= count[digit++];
+    if (count[digit] == left.size()) continue;  // all share this byte
+    candidates->resize(left.size());  // never grows beyond n
+    uint64_t* out = candidates->data();
+    size_t kept = 0;
+    for (uint64_t x : left) {
+      out[kept] = x;
+      kept += ((x >> shift) & 255) == static_cast<uint64_t>(digit) ? 1 : 0;
+    }
+    left = std::span<const uint64_t>(out, kept);
+  }
+  const uint64_t middle = left[0];
+  const double upper = std::bit_cast<double>(middle);
+  if (n % 2 == 1) return upper;
+  // The value just below the middle in sorted order: the middle value
+  // itself when it also fills rank mid - 1, else the largest value below it.
+  size_t below = 0;
+  uint64_t largest_below = 0;
+  for (uint64_t x : bits) {
+    const bool less = x < middle;
+    below += less ? 1 : 0;
+    largest_below = less && x > largest_below ? x : largest_below;
+  }
+  const double lower = below < mid ? upper : std::bit_cast<double>(largest_below);
+  return 0.5 * (upper + lower);
 }
 
 // Cells grouped by one index (counting sort): cells of group g are
@@ -96,18 +132,23 @@ Eigen::VectorXd HuberWeights(const Eigen::VectorXd& residual, double cutoff) {
 
 }  // namespace
 
-double RobustScale(const Eigen::VectorXd& residual, const Eigen::VectorXd& hat,
-                   const std::vector<CellLink>& link, int* num_cells) {
-  std::vector<double> standardised;
+double RobustScale(const Eigen::VectorXd& residual, const Eigen::VectorXd& weight,
+                   const Eigen::VectorXd& leverage, const std::vector<CellLink>& link,
+                   ScaleScratch* scratch, int* num_cells) {
+  std::vector<uint64_t>& standardised = scratch->terms;
+  standardised.clear();
+  standardised.reserve(residual.size());
+  double sum = 0.0;  // for the fallback below, in cell order
   for (int64_t k = 0; k < residual.size(); ++k) {
-    if (link[k] != CellLink::kNone || !(hat[k] < 1.0 - kHatOne)) continue;
-    standardised.push_back(std::abs(residual[k]) / std::sqrt(1.0 - hat[k]));
+    const double hat = weight[k] * leverage[k];
+    if (link[k] != CellLink::kNone || !(hat < 1.0 - kHatOne)) continue;
+    const double v = std::abs(residual[k]) / std::sqrt(1.0 - hat);
+    standardised.push_back(std::bit_cast<uint64_t>(v));
+    sum += v * v;
   }
   *num_cells = static_cast<int>(standardised.size());
   if (*num_cells < kMinScaleCells) return kNaN;
-  double sum = 0.0;  // for the fallback below, before the median reorders
-  for (double v : standardised) sum += v * v;
-  const double scale = kMadToSigma * Median(std::move(standardised));
+  const double scale = kMadToSigma * MedianOfNonNegative(standardised, &scratch->candidates);
   if (scale > 0.0) return scale;
   // More than half the cells fit exactly (identical prices, e.g. a national
   // tariff): the root mean square still measures the few that do not.
@@ -138,10 +179,18 @@ struct BlockSolve {
   Eigen::VectorXd leverage;       // per cell: q (NaN when S is singular)
 };
 
+// Arrays of SolveBlocks kept between the iterations of a fit, so that the
+// large ones are allocated (and their pages first touched) once.
+struct BlockWorkspace {
+  Eigen::MatrixXd c, scaled, s, g, gc;
+  Eigen::VectorXd d_a, d_b, r_a, r_b, inverse_d_b, cgc;
+};
+
 // Returns false (leverage NaN) when S + 11'/m is not positive definite.
 // `log_price` may be empty: then only the leverage is formed.
 bool SolveBlocks(int num_regions, int num_items, std::span<const int> region, std::span<const int> item,
-                 std::span<const double> log_price, const Eigen::VectorXd& weight, BlockSolve* out) {
+                 std::span<const double> log_price, const Eigen::VectorXd& weight, BlockWorkspace* ws,
+                 BlockSolve* out) {
   const bool regions_dense = num_regions <= num_items;
   const int m = regions_dense ? num_regions : num_items;
   const int num_b = regions_dense ? num_items : num_regions;
@@ -149,40 +198,47 @@ bool SolveBlocks(int num_regions, int num_items, std::span<const int> region, st
   const std::span<const int> b_of = regions_dense ? item : region;
   const bool fit = !log_price.empty();
   const int64_t num_cells = static_cast<int64_t>(a_of.size());
-  Eigen::MatrixXd c = Eigen::MatrixXd::Zero(m, num_b);
-  Eigen::VectorXd d_a = Eigen::VectorXd::Zero(m), d_b = Eigen::VectorXd::Zero(num_b);
-  Eigen::VectorXd r_a = Eigen::VectorXd::Zero(m), r_b = Eigen::VectorXd::Zero(num_b);
+  Eigen::MatrixXd& c = ws->c;
+  c.setZero(m, num_b);
+  ws->d_a.setZero(m);
+  ws->d_b.setZero(num_b);
+  ws->r_a.setZero(m);
+  ws->r_b.setZero(num_b);
   for (int64_t k = 0; k < num_cells; ++k) {
     const int a = a_of[k], b = b_of[k];
     const double w = weight[k];
     c(a, b) += w;
-    d_a[a] += w;
-    d_b[b] += w;
+    ws->d_a[a] += w;
+    ws->d_b[b] += w;
     if (fit) {
-      r_a[a] += w * log_price[k];
-      r_b[b] += w * log_price[k];
+      ws->r_a[a] += w * log_price[k];
+      ws->r_b[b] += w * log_price[k];
     }
   }
-  const Eigen::VectorXd inverse_d_b = d_b.cwiseInverse();
+  const Eigen::VectorXd& inverse_d_b = ws->inverse_d_b = ws->d_b.cwiseInverse();
   // Lower triangle of S + 11'/m, as one symmetric rank update.
-  const Eigen::MatrixXd scaled = c * inverse_d_b.cwiseSqrt().asDiagonal();
-  Eigen::MatrixXd s = Eigen::MatrixXd::Constant(m, m, 1.0 / m);
-  s.selfadjointView<Eigen::Lower>().rankUpdate(scaled, -1.0);
-  s.diagonal() += d_a;
-  out->leverage = Eigen::VectorXd::Constant(num_cells, kNaN);
-  const Eigen::LLT<Eigen::MatrixXd> llt(s);
+  ws->scaled.noalias() = c * inverse_d_b.cwiseSqrt().asDiagonal();
+  ws->s.setConstant(m, m, 1.0 / m);
+  ws->s.selfadjointView<Eigen::Lower>().rankUpdate(ws->scaled, -1.0);
+  ws->s.diagonal() += ws->d_a;
+  out->leverage.setConstant(num_cells, kNaN);
+  const Eigen::LLT<Eigen::MatrixXd> llt(ws->s);
   if (llt.info() != Eigen::Success) return false;
   if (fit) {
-    const Eigen::VectorXd effect_a = llt.solve(r_a - c * inverse_d_b.cwiseProduct(r_b));
-    Eigen::VectorXd effect_b = r_b;
+    const Eigen::VectorXd effect_a = llt.solve(ws->r_a - c * inverse_d_b.cwiseProduct(ws->r_b));
+    Eigen::VectorXd effect_b = ws->r_b;
     effect_b.noalias() -= c.transpose() * effect_a;
     effect_b = effect_b.cwiseProduct(inverse_d_b);
     out->region_effect = regions_dense ? effect_a : effect_b;
     out->item_effect = regions_dense ? effect_b : effect_a;
   }
-  const Eigen::MatrixXd g = llt.solve(Eigen::MatrixXd::Identity(m, m));
-  const Eigen::MatrixXd gc = g * c;
-  const Eigen::VectorXd cgc = (c.array() * gc.array()).colwise().sum().transpose();
+  ws->g.setIdentity(m, m);
+  llt.solveInPlace(ws->g);
+  ws->gc.noalias() = ws->g * c;
+  ws->cgc = (c.array() * ws->gc.array()).colwise().sum().transpose();
+  const Eigen::MatrixXd& g = ws->g;
+  const Eigen::MatrixXd& gc = ws->gc;
+  const Eigen::VectorXd& cgc = ws->cgc;
   for (int64_t k = 0; k < num_cells; ++k) {
     const int a = a_of[k], b = b_of[k];
     out->leverage[k] =
@@ -196,7 +252,8 @@ bool SolveBlocks(int num_regions, int num_items, std::span<const int> region, st
 Eigen::VectorXd LeverageFactors(int num_regions, int num_items, std::span<const int> region,
                                 std::span<const int> item, const Eigen::VectorXd& weight) {
   BlockSolve solve;
-  SolveBlocks(num_regions, num_items, region, item, {}, weight, &solve);
+  BlockWorkspace workspace;
+  SolveBlocks(num_regions, num_items, region, item, {}, weight, &workspace, &solve);
   return std::move(solve.leverage);
 }
 
@@ -304,12 +361,14 @@ ScreenFit FitScreen(const CpdData& data, const OutlierOptions& options) {
   fit.residual = std::move(result.residual);
   // Effects of the latest reweighted fit (compressed numbering); empty while
   // the least-squares start stands.
-  BlockSolve latest;
+  BlockSolve latest, refit;
+  BlockWorkspace workspace;
+  ScaleScratch scratch;
   while (!fit.converged && fit.num_iterations < options.max_iterations) {
     // The scale is re-estimated from the current residuals at every step,
     // so it is not fixed by a least-squares fit that the errors dragged.
-    const double scale = RobustScale(fit.residual, fit.weight.cwiseProduct(fit.leverage), fit.link,
-                                     &fit.num_scale_cells);
+    const double scale =
+        RobustScale(fit.residual, fit.weight, fit.leverage, fit.link, &scratch, &fit.num_scale_cells);
     if (!(scale > 0.0)) break;  // too few cells, or an exact fit: least squares it is
     Eigen::VectorXd next = HuberWeights(fit.residual, options.huber_constant * scale);
     const double change = (next - fit.weight).cwiseAbs().maxCoeff();
@@ -317,13 +376,12 @@ ScreenFit FitScreen(const CpdData& data, const OutlierOptions& options) {
       fit.converged = true;
       break;
     }
-    BlockSolve refit;
-    if (!SolveBlocks(c.num_regions, c.num_items, c.region, c.item, data.log_price, next, &refit)) {
+    if (!SolveBlocks(c.num_regions, c.num_items, c.region, c.item, data.log_price, next, &workspace, &refit)) {
       break;  // cannot happen with positive weights; keep the last fit
     }
     fit.weight = std::move(next);
-    fit.leverage = std::move(refit.leverage);
-    latest = std::move(refit);
+    fit.leverage.swap(refit.leverage);
+    std::swap(latest, refit);
     ++fit.num_iterations;
     // Residuals at the level the parities are reported at (below).
     const double shift = latest.region_effect.mean();
@@ -343,7 +401,7 @@ ScreenFit FitScreen(const CpdData& data, const OutlierOptions& options) {
     for (int r = 0; r < c.num_regions; ++r) fit.log_parity[c.region_of[r]] = latest.region_effect[r];
     for (int i = 0; i < c.num_items; ++i) fit.item_effect[c.item_of[i]] = latest.item_effect[i];
   }
-  fit.scale = RobustScale(fit.residual, fit.weight.cwiseProduct(fit.leverage), fit.link, &fit.num_scale_cells);
+  fit.scale = RobustScale(fit.residual, fit.weight, fit.leverage, fit.link, &scratch, &fit.num_scale_cells);
   return fit;
 }
 
