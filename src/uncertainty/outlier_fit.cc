@@ -1,7 +1,7 @@
-// The screen's fit reuses FitCpd for every weighted solve, so the robust fit
-// is no new solver; what it adds is what a screen needs and a parity does
-// not: hat values (from the same block structure FitCpd exploits) and the
-// cells that alone link part of a heading, whose residual says nothing.
+// The screen's fit solves the CPD normal equations by the block elimination
+// FitCpd uses, with one factorisation per weighted fit serving both the fit
+// and what a screen needs and a parity does not: hat values. It also finds
+// the cells that alone link part of a heading, whose residual says nothing.
 #include "uncertainty/outlier_fit.h"
 
 #include <Eigen/Cholesky>
@@ -338,32 +338,47 @@ void FindCuttingCells(int num_regions, int num_items, std::span<const int> regio
 
 ScreenFit FitScreen(const CpdData& data, const OutlierOptions& options) {
   ScreenFit fit;
-  CpdOptions cpd;
-  cpd.compute_standard_errors = false;
-  // The least-squares start: FitCpd also says whether the regions are
-  // linked and why not.
-  CpdResult result = FitCpd(data, cpd);
-  if (!result.identified) {
-    fit.message = result.message;
+  const int num_cells = static_cast<int>(data.region.size());
+  if (num_cells == 0 || LinkedRegionGroups(data.num_regions, data.num_items, data.region, data.item).size() != 1) {
+    // No parities: FitCpd says why, in the words of the elementary stage.
+    CpdOptions cpd;
+    cpd.compute_standard_errors = false;
+    fit.message = FitCpd(data, cpd).message;
     return fit;
   }
   const Compressed c = Compress(data);
-  const int num_cells = static_cast<int>(data.region.size());
   FindCuttingCells(c.num_regions, c.num_items, c.region, c.item, &fit.link, &fit.region_side);
   for (auto& [cell, regions] : fit.region_side) {
     for (int& r : regions) r = c.region_of[r];
   }
   fit.item_num_cells.assign(data.num_items, 0);
   for (int k = 0; k < num_cells; ++k) ++fit.item_num_cells[data.item[k]];
-  fit.weight = Eigen::VectorXd::Ones(num_cells);
-  fit.leverage = LeverageFactors(c.num_regions, c.num_items, c.region, c.item, fit.weight);
-  fit.converged = options.fit == OutlierFit::kLeastSquares;
-  fit.residual = std::move(result.residual);
-  // Effects of the latest reweighted fit (compressed numbering); empty while
-  // the least-squares start stands.
+  // The least-squares start, then the reweighted fits; `latest` holds the
+  // effects of the last one (compressed numbering).
   BlockSolve latest, refit;
   BlockWorkspace workspace;
   ScaleScratch scratch;
+  fit.weight = Eigen::VectorXd::Ones(num_cells);
+  if (!SolveBlocks(c.num_regions, c.num_items, c.region, c.item, data.log_price, fit.weight, &workspace, &latest)) {
+    fit.message = "the CPD normal equations are numerically singular";
+    return fit;
+  }
+  fit.residual.resize(num_cells);
+  // Effects with mean 0 over the regions present (as FitCpd reports them)
+  // and the residuals at that level.
+  auto adopt = [&](BlockSolve* solve) {
+    fit.leverage.swap(solve->leverage);
+    std::swap(latest, *solve);
+    const double shift = latest.region_effect.mean();
+    latest.region_effect.array() -= shift;
+    latest.item_effect.array() += shift;
+    for (int k = 0; k < num_cells; ++k) {
+      fit.residual[k] = data.log_price[k] - (latest.region_effect[c.region[k]] + latest.item_effect[c.item[k]]);
+    }
+  };
+  refit = std::move(latest);
+  adopt(&refit);
+  fit.converged = options.fit == OutlierFit::kLeastSquares;
   while (!fit.converged && fit.num_iterations < options.max_iterations) {
     // The scale is re-estimated from the current residuals at every step,
     // so it is not fixed by a least-squares fit that the errors dragged.
@@ -380,27 +395,16 @@ ScreenFit FitScreen(const CpdData& data, const OutlierOptions& options) {
       break;  // cannot happen with positive weights; keep the last fit
     }
     fit.weight = std::move(next);
-    fit.leverage.swap(refit.leverage);
-    std::swap(latest, refit);
+    adopt(&refit);
     ++fit.num_iterations;
-    // Residuals at the level the parities are reported at (below).
-    const double shift = latest.region_effect.mean();
-    latest.region_effect.array() -= shift;
-    latest.item_effect.array() += shift;
-    for (int k = 0; k < num_cells; ++k) {
-      fit.residual[k] = data.log_price[k] - (latest.region_effect[c.region[k]] + latest.item_effect[c.item[k]]);
-    }
   }
   if (!fit.converged && fit.num_iterations == 0) fit.converged = true;  // nothing to reweight
   fit.identified = true;
-  fit.degrees_of_freedom = result.degrees_of_freedom;
-  fit.log_parity = std::move(result.log_parity);
-  fit.item_effect = std::move(result.item_effect);
-  if (latest.region_effect.size() > 0) {
-    // ln parities with mean 0 over the regions present, as FitCpd gives them.
-    for (int r = 0; r < c.num_regions; ++r) fit.log_parity[c.region_of[r]] = latest.region_effect[r];
-    for (int i = 0; i < c.num_items; ++i) fit.item_effect[c.item_of[i]] = latest.item_effect[i];
-  }
+  fit.degrees_of_freedom = num_cells - c.num_regions - c.num_items + 1;
+  fit.log_parity = Eigen::VectorXd::Constant(data.num_regions, kNaN);
+  fit.item_effect = Eigen::VectorXd::Constant(data.num_items, kNaN);
+  for (int r = 0; r < c.num_regions; ++r) fit.log_parity[c.region_of[r]] = latest.region_effect[r];
+  for (int i = 0; i < c.num_items; ++i) fit.item_effect[c.item_of[i]] = latest.item_effect[i];
   fit.scale = RobustScale(fit.residual, fit.weight, fit.leverage, fit.link, &scratch, &fit.num_scale_cells);
   return fit;
 }
