@@ -178,6 +178,7 @@ class ChunkParser {
     if (has_weight_) out->quotes.weight.reserve(expected_rows);
     out->quotes.row_hash.reserve(expected_rows);
     out->quotes.line.reserve(expected_rows);
+    local_of_known_.assign(state.items.size(), -1);
   }
 
   void Run() {
@@ -318,31 +319,51 @@ class ChunkParser {
       item_local_ = guess;
     } else {
       const std::string_view code = Trim(item);
-      if (std::string problem = CheckCode(code, "item"); !problem.empty()) {
-        Reject(columns_.item + 1, problem);
+      // A code known before this block (items.csv, or an earlier block) is
+      // one lookup in the survey's table, read-only while the chunks are
+      // parsed and valid by construction; the chunk's own table interns
+      // only the codes it has not seen before.
+      const int known = state_.items.empty() ? -1 : state_.items.Find(code);
+      int index = known >= 0 ? local_of_known_[known] : -1;
+      if (index < 0) index = InternItem(code, known);
+      if (index < 0) {
         item_local_ = -1;
         return false;
-      }
-      const int index = out_->items.Intern(code);
-      if (index == static_cast<int>(out_->item_info.size())) {
-        // An item known before this block counts only once its heading is known.
-        int global = state_.items.Find(code);
-        if (global >= 0 && state_.item_heading[global] < 0) global = -1;
-        int rejected = -1;
-        if (global < 0 && !state_.rejected_item_index.empty()) {
-          const auto found = state_.rejected_item_index.find(std::string(code));
-          if (found != state_.rejected_item_index.end()) rejected = found->second;
-        }
-        LocalItem info{global, -1, 0, rejected};
-        if (global >= 0) info.reference_quantity = state_.item_reference_quantity[global];
-        out_->item_info.push_back(info);
-        successor_.push_back(-1);
       }
       if (previous >= 0) successor_[previous] = index;
       item_local_ = index;
     }
     last_item_ = item;
     return true;
+  }
+
+  // Returns the chunk-local index of item `code` (`known`: its index in the
+  // survey's table, or -1), adding it at its first row in the chunk; -1
+  // after rejecting the row for an invalid code.
+  int InternItem(std::string_view code, int known) {
+    if (known < 0) {
+      if (std::string problem = CheckCode(code, "item"); !problem.empty()) {
+        Reject(columns_.item + 1, problem);
+        return -1;
+      }
+    }
+    const int index = out_->items.Intern(code);
+    if (index == static_cast<int>(out_->item_info.size())) {
+      // An item known before this block counts only once its heading is known.
+      int global = known;
+      if (global >= 0 && state_.item_heading[global] < 0) global = -1;
+      int rejected = -1;
+      if (global < 0 && !state_.rejected_item_index.empty()) {
+        const auto found = state_.rejected_item_index.find(std::string(code));
+        if (found != state_.rejected_item_index.end()) rejected = found->second;
+      }
+      LocalItem info{global, -1, 0, rejected};
+      if (global >= 0) info.reference_quantity = state_.item_reference_quantity[global];
+      out_->item_info.push_back(info);
+      successor_.push_back(-1);
+    }
+    if (known >= 0) local_of_known_[known] = index;
+    return index;
   }
 
   // Checks the row's heading against what is known of the item; sets
@@ -496,6 +517,8 @@ class ChunkParser {
   int region_local_ = -1, item_local_ = -1;
   // Per local item, the local item that followed it last (-1: none yet).
   std::vector<int> successor_;
+  // Per item of the survey's table, its local index (-1: not seen yet).
+  std::vector<int> local_of_known_;
 };
 
 void ParsePriceChunk(std::string_view data, int64_t first_line, const PriceColumns& columns,

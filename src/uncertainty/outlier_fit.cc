@@ -1,13 +1,15 @@
-// The screen's fit reuses FitCpd for every weighted solve, so the robust fit
-// is no new solver; what it adds is what a screen needs and a parity does
-// not: hat values (from the same block structure FitCpd exploits) and the
-// cells that alone link part of a heading, whose residual says nothing.
+// The screen's fit solves the CPD normal equations by the block elimination
+// FitCpd uses, with one factorisation per weighted fit serving both the fit
+// and what a screen needs and a parity does not: hat values. It also finds
+// the cells that alone link part of a heading, whose residual says nothing.
 #include "uncertainty/outlier_fit.h"
 
 #include <Eigen/Cholesky>
 #include <algorithm>
+#include <bit>
 #include <cmath>
 #include <limits>
+#include <utility>
 #include <vector>
 
 namespace paritas::internal {
@@ -21,12 +23,47 @@ constexpr double kMadToSigma = 1.4826;
 // exact 1s are found on the graph.
 constexpr double kHatOne = 1e-9;
 
-double Median(std::vector<double> values) {
-  const size_t mid = values.size() / 2;
-  std::nth_element(values.begin(), values.begin() + mid, values.end());
-  double median = values[mid];
-  if (values.size() % 2 == 0) median = 0.5 * (median + *std::max_element(values.begin(), values.begin() + mid));
-  return median;
+// Median of the non-negative finite numbers whose bit patterns are `bits`
+// (non-empty; `candidates` is workspace): the middle value, or the mean
+// of the two middle values for an even count, exactly as sorting gives it.
+// A non-negative double orders as its bit pattern, so the middle value is
+// found by radix selection, one byte at a time from the top: each pass
+// counts the candidates per byte value and keeps those in the byte bucket
+// holding the rank sought (no comparisons that depend on the data).
+double MedianOfNonNegative(const std::vector<uint64_t>& bits, std::vector<uint64_t>* candidates) {
+  const size_t n = bits.size();
+  const size_t mid = n / 2;
+  size_t rank = mid;  // rank sought among the candidates left
+  std::span<const uint64_t> left(bits);
+  for (int shift = 56; shift >= 0 && left.size() > 1; shift -= 8) {
+    size_t count[256] = {};
+    for (uint64_t x : left) ++count[(x >> shift) & 255];
+    int digit = 0;
+    while (rank >= count[digit]) rank -= count[digit++];
+    if (count[digit] == left.size()) continue;  // all share this byte
+    candidates->resize(left.size());  // never grows beyond n
+    uint64_t* out = candidates->data();
+    size_t kept = 0;
+    for (uint64_t x : left) {
+      out[kept] = x;
+      kept += ((x >> shift) & 255) == static_cast<uint64_t>(digit) ? 1 : 0;
+    }
+    left = std::span<const uint64_t>(out, kept);
+  }
+  const uint64_t middle = left[0];
+  const double upper = std::bit_cast<double>(middle);
+  if (n % 2 == 1) return upper;
+  // The value just below the middle in sorted order: the middle value
+  // itself when it also fills rank mid - 1, else the largest value below it.
+  size_t below = 0;
+  uint64_t largest_below = 0;
+  for (uint64_t x : bits) {
+    const bool less = x < middle;
+    below += less ? 1 : 0;
+    largest_below = less && x > largest_below ? x : largest_below;
+  }
+  const double lower = below < mid ? upper : std::bit_cast<double>(largest_below);
+  return 0.5 * (upper + lower);
 }
 
 // Cells grouped by one index (counting sort): cells of group g are
@@ -95,59 +132,129 @@ Eigen::VectorXd HuberWeights(const Eigen::VectorXd& residual, double cutoff) {
 
 }  // namespace
 
-double RobustScale(const Eigen::VectorXd& residual, const Eigen::VectorXd& hat,
-                   const std::vector<CellLink>& link, int* num_cells) {
-  std::vector<double> standardised;
+double RobustScale(const Eigen::VectorXd& residual, const Eigen::VectorXd& weight,
+                   const Eigen::VectorXd& leverage, const std::vector<CellLink>& link,
+                   ScaleScratch* scratch, int* num_cells) {
+  std::vector<uint64_t>& standardised = scratch->terms;
+  standardised.clear();
+  standardised.reserve(residual.size());
+  double sum = 0.0;  // for the fallback below, in cell order
   for (int64_t k = 0; k < residual.size(); ++k) {
-    if (link[k] != CellLink::kNone || !(hat[k] < 1.0 - kHatOne)) continue;
-    standardised.push_back(std::abs(residual[k]) / std::sqrt(1.0 - hat[k]));
+    const double hat = weight[k] * leverage[k];
+    if (link[k] != CellLink::kNone || !(hat < 1.0 - kHatOne)) continue;
+    const double v = std::abs(residual[k]) / std::sqrt(1.0 - hat);
+    standardised.push_back(std::bit_cast<uint64_t>(v));
+    sum += v * v;
   }
   *num_cells = static_cast<int>(standardised.size());
   if (*num_cells < kMinScaleCells) return kNaN;
-  const double scale = kMadToSigma * Median(standardised);
+  const double scale = kMadToSigma * MedianOfNonNegative(standardised, &scratch->candidates);
   if (scale > 0.0) return scale;
   // More than half the cells fit exactly (identical prices, e.g. a national
   // tariff): the root mean square still measures the few that do not.
-  double sum = 0.0;
-  for (double v : standardised) sum += v * v;
   return std::sqrt(sum / *num_cells);
 }
 
-Eigen::VectorXd LeverageFactors(int num_regions, int num_items, std::span<const int> region,
-                                std::span<const int> item, const Eigen::VectorXd& weight) {
-  // Side A (the smaller) stays dense; side B is eliminated:
-  // S = D_A - C D_B^-1 C', and for cell (a, b) with u = e_a - c_b / d_b,
-  // q = 1 / d_b + u' S^+ u = 1 / d_b + G_aa - 2 (G C)_ab / d_b +
-  // (C' G C)_bb / d_b^2. G = (S + 11'/m)^-1 equals S^+ on the vectors u (they
-  // sum to 0; S + 11'/m is invertible on a linked design). Both products are
-  // dense matrix products, like FitCpd's Schur complement.
+namespace {
+
+// One weighted solve of a heading's CPD normal equations X'WX [a; b] = X'Wy
+// by block elimination: side A (the smaller of regions and items) stays
+// dense, side B is eliminated, leaving the Schur complement
+// S = D_A - C D_B^-1 C' (C the A x B weight sums, D the weight sums of each
+// region and item). S 1 = 0, so S + 11'/m (m = |A|) is factorised instead:
+// it is invertible on a linked design, and its inverse G equals S^+ on the
+// vectors that sum to 0, which are all the solve and the leverage meet.
+//   Fit: a = G (r_A - C D_B^-1 r_B), b = D_B^-1 (r_B - C' a), r = X'Wy; the
+//   right-hand side sums to 0, so 1'a = 0 (any solution gives the same
+//   fitted values a_r + b_i; the caller fixes the level).
+//   Leverage: for cell (a, b) with u = e_a - c_b / d_b,
+//   q = x'(X'WX)^+ x = 1 / d_b + u'G u
+//     = 1 / d_b + G_aa - 2 (G C)_ab / d_b + (C'G C)_bb / d_b^2.
+// One factorisation serves both, so each iteration of the robust fit forms
+// one Schur complement and scatters the cells once.
+struct BlockSolve {
+  Eigen::VectorXd region_effect;  // per compressed region (1'a = 0 on side A)
+  Eigen::VectorXd item_effect;    // per compressed item
+  Eigen::VectorXd residual;       // per cell: y - a_r - b_i (empty without y)
+  Eigen::VectorXd leverage;       // per cell: q (NaN when S is singular)
+};
+
+// Arrays of SolveBlocks kept between the iterations of a fit, so that the
+// large ones are allocated (and their pages first touched) once.
+struct BlockWorkspace {
+  Eigen::MatrixXd c, scaled, s, g, gc;
+  Eigen::VectorXd d_a, d_b, r_a, r_b, inverse_d_b, cgc;
+};
+
+// Returns false (leverage NaN) when S + 11'/m is not positive definite.
+// `log_price` may be empty: then only the leverage is formed.
+bool SolveBlocks(int num_regions, int num_items, std::span<const int> region, std::span<const int> item,
+                 std::span<const double> log_price, const Eigen::VectorXd& weight, BlockWorkspace* ws,
+                 BlockSolve* out) {
   const bool regions_dense = num_regions <= num_items;
   const int m = regions_dense ? num_regions : num_items;
   const int num_b = regions_dense ? num_items : num_regions;
   const std::span<const int> a_of = regions_dense ? region : item;
   const std::span<const int> b_of = regions_dense ? item : region;
-  Eigen::MatrixXd c = Eigen::MatrixXd::Zero(m, num_b);
-  Eigen::VectorXd d_a = Eigen::VectorXd::Zero(m), d_b = Eigen::VectorXd::Zero(num_b);
-  for (size_t k = 0; k < a_of.size(); ++k) {
-    c(a_of[k], b_of[k]) += weight[k];
-    d_a[a_of[k]] += weight[k];
-    d_b[b_of[k]] += weight[k];
-  }
-  const Eigen::VectorXd inverse_d_b = d_b.cwiseInverse();
-  Eigen::MatrixXd s = -(c * inverse_d_b.asDiagonal()) * c.transpose();
-  s.diagonal() += d_a;
-  s.array() += 1.0 / m;
-  Eigen::VectorXd q = Eigen::VectorXd::Constant(static_cast<int64_t>(a_of.size()), kNaN);
-  const Eigen::LLT<Eigen::MatrixXd> llt(s);
-  if (llt.info() != Eigen::Success) return q;
-  const Eigen::MatrixXd g = llt.solve(Eigen::MatrixXd::Identity(m, m));
-  const Eigen::MatrixXd gc = g * c;
-  const Eigen::VectorXd cgc = (c.array() * gc.array()).colwise().sum().transpose();
-  for (size_t k = 0; k < a_of.size(); ++k) {
+  const bool fit = !log_price.empty();
+  const int64_t num_cells = static_cast<int64_t>(a_of.size());
+  Eigen::MatrixXd& c = ws->c;
+  c.setZero(m, num_b);
+  ws->d_a.setZero(m);
+  ws->d_b.setZero(num_b);
+  ws->r_a.setZero(m);
+  ws->r_b.setZero(num_b);
+  for (int64_t k = 0; k < num_cells; ++k) {
     const int a = a_of[k], b = b_of[k];
-    q[k] = inverse_d_b[b] + g(a, a) - 2.0 * gc(a, b) * inverse_d_b[b] + cgc[b] * inverse_d_b[b] * inverse_d_b[b];
+    const double w = weight[k];
+    c(a, b) += w;
+    ws->d_a[a] += w;
+    ws->d_b[b] += w;
+    if (fit) {
+      ws->r_a[a] += w * log_price[k];
+      ws->r_b[b] += w * log_price[k];
+    }
   }
-  return q;
+  const Eigen::VectorXd& inverse_d_b = ws->inverse_d_b = ws->d_b.cwiseInverse();
+  // Lower triangle of S + 11'/m, as one symmetric rank update.
+  ws->scaled.noalias() = c * inverse_d_b.cwiseSqrt().asDiagonal();
+  ws->s.setConstant(m, m, 1.0 / m);
+  ws->s.selfadjointView<Eigen::Lower>().rankUpdate(ws->scaled, -1.0);
+  ws->s.diagonal() += ws->d_a;
+  out->leverage.setConstant(num_cells, kNaN);
+  const Eigen::LLT<Eigen::MatrixXd> llt(ws->s);
+  if (llt.info() != Eigen::Success) return false;
+  if (fit) {
+    const Eigen::VectorXd effect_a = llt.solve(ws->r_a - c * inverse_d_b.cwiseProduct(ws->r_b));
+    Eigen::VectorXd effect_b = ws->r_b;
+    effect_b.noalias() -= c.transpose() * effect_a;
+    effect_b = effect_b.cwiseProduct(inverse_d_b);
+    out->region_effect = regions_dense ? effect_a : effect_b;
+    out->item_effect = regions_dense ? effect_b : effect_a;
+  }
+  ws->g.setIdentity(m, m);
+  llt.solveInPlace(ws->g);
+  ws->gc.noalias() = ws->g * c;
+  ws->cgc = (c.array() * ws->gc.array()).colwise().sum().transpose();
+  const Eigen::MatrixXd& g = ws->g;
+  const Eigen::MatrixXd& gc = ws->gc;
+  const Eigen::VectorXd& cgc = ws->cgc;
+  for (int64_t k = 0; k < num_cells; ++k) {
+    const int a = a_of[k], b = b_of[k];
+    out->leverage[k] =
+        inverse_d_b[b] + g(a, a) - 2.0 * gc(a, b) * inverse_d_b[b] + cgc[b] * inverse_d_b[b] * inverse_d_b[b];
+  }
+  return true;
+}
+
+}  // namespace
+
+Eigen::VectorXd LeverageFactors(int num_regions, int num_items, std::span<const int> region,
+                                std::span<const int> item, const Eigen::VectorXd& weight) {
+  BlockSolve solve;
+  BlockWorkspace workspace;
+  SolveBlocks(num_regions, num_items, region, item, {}, weight, &workspace, &solve);
+  return std::move(solve.leverage);
 }
 
 void FindCuttingCells(int num_regions, int num_items, std::span<const int> region,
@@ -231,54 +338,74 @@ void FindCuttingCells(int num_regions, int num_items, std::span<const int> regio
 
 ScreenFit FitScreen(const CpdData& data, const OutlierOptions& options) {
   ScreenFit fit;
-  CpdOptions cpd;
-  cpd.compute_standard_errors = false;
-  CpdResult result = FitCpd(data, cpd);
-  if (!result.identified) {
-    fit.message = result.message;
+  const int num_cells = static_cast<int>(data.region.size());
+  if (num_cells == 0 || LinkedRegionGroups(data.num_regions, data.num_items, data.region, data.item).size() != 1) {
+    // No parities: FitCpd says why, in the words of the elementary stage.
+    CpdOptions cpd;
+    cpd.compute_standard_errors = false;
+    fit.message = FitCpd(data, cpd).message;
     return fit;
   }
   const Compressed c = Compress(data);
-  const int num_cells = static_cast<int>(data.region.size());
   FindCuttingCells(c.num_regions, c.num_items, c.region, c.item, &fit.link, &fit.region_side);
   for (auto& [cell, regions] : fit.region_side) {
     for (int& r : regions) r = c.region_of[r];
   }
   fit.item_num_cells.assign(data.num_items, 0);
   for (int k = 0; k < num_cells; ++k) ++fit.item_num_cells[data.item[k]];
+  // The least-squares start, then the reweighted fits; `latest` holds the
+  // effects of the last one (compressed numbering).
+  BlockSolve latest, refit;
+  BlockWorkspace workspace;
+  ScaleScratch scratch;
   fit.weight = Eigen::VectorXd::Ones(num_cells);
-  fit.leverage = LeverageFactors(c.num_regions, c.num_items, c.region, c.item, fit.weight);
+  if (!SolveBlocks(c.num_regions, c.num_items, c.region, c.item, data.log_price, fit.weight, &workspace, &latest)) {
+    fit.message = "the CPD normal equations are numerically singular";
+    return fit;
+  }
+  fit.residual.resize(num_cells);
+  // Effects with mean 0 over the regions present (as FitCpd reports them)
+  // and the residuals at that level.
+  auto adopt = [&](BlockSolve* solve) {
+    fit.leverage.swap(solve->leverage);
+    std::swap(latest, *solve);
+    const double shift = latest.region_effect.mean();
+    latest.region_effect.array() -= shift;
+    latest.item_effect.array() += shift;
+    for (int k = 0; k < num_cells; ++k) {
+      fit.residual[k] = data.log_price[k] - (latest.region_effect[c.region[k]] + latest.item_effect[c.item[k]]);
+    }
+  };
+  refit = std::move(latest);
+  adopt(&refit);
   fit.converged = options.fit == OutlierFit::kLeastSquares;
-  std::vector<double> weight(num_cells, 1.0);
-  CpdData weighted = data;
   while (!fit.converged && fit.num_iterations < options.max_iterations) {
     // The scale is re-estimated from the current residuals at every step,
     // so it is not fixed by a least-squares fit that the errors dragged.
-    const double scale = RobustScale(result.residual, fit.weight.cwiseProduct(fit.leverage), fit.link,
-                                     &fit.num_scale_cells);
+    const double scale =
+        RobustScale(fit.residual, fit.weight, fit.leverage, fit.link, &scratch, &fit.num_scale_cells);
     if (!(scale > 0.0)) break;  // too few cells, or an exact fit: least squares it is
-    const Eigen::VectorXd next = HuberWeights(result.residual, options.huber_constant * scale);
+    Eigen::VectorXd next = HuberWeights(fit.residual, options.huber_constant * scale);
     const double change = (next - fit.weight).cwiseAbs().maxCoeff();
     if (change <= options.weight_tolerance) {
       fit.converged = true;
       break;
     }
-    for (int k = 0; k < num_cells; ++k) weight[k] = next[k];
-    weighted.weight = weight;
-    CpdResult refit = FitCpd(weighted, cpd);
-    if (!refit.identified) break;  // cannot happen with positive weights; keep the last fit
-    fit.weight = next;
-    fit.leverage = LeverageFactors(c.num_regions, c.num_items, c.region, c.item, fit.weight);
-    result = std::move(refit);
+    if (!SolveBlocks(c.num_regions, c.num_items, c.region, c.item, data.log_price, next, &workspace, &refit)) {
+      break;  // cannot happen with positive weights; keep the last fit
+    }
+    fit.weight = std::move(next);
+    adopt(&refit);
     ++fit.num_iterations;
   }
   if (!fit.converged && fit.num_iterations == 0) fit.converged = true;  // nothing to reweight
   fit.identified = true;
-  fit.degrees_of_freedom = result.degrees_of_freedom;
-  fit.log_parity = result.log_parity;
-  fit.item_effect = result.item_effect;
-  fit.residual = result.residual;
-  fit.scale = RobustScale(fit.residual, fit.weight.cwiseProduct(fit.leverage), fit.link, &fit.num_scale_cells);
+  fit.degrees_of_freedom = num_cells - c.num_regions - c.num_items + 1;
+  fit.log_parity = Eigen::VectorXd::Constant(data.num_regions, kNaN);
+  fit.item_effect = Eigen::VectorXd::Constant(data.num_items, kNaN);
+  for (int r = 0; r < c.num_regions; ++r) fit.log_parity[c.region_of[r]] = latest.region_effect[r];
+  for (int i = 0; i < c.num_items; ++i) fit.item_effect[c.item_of[i]] = latest.item_effect[i];
+  fit.scale = RobustScale(fit.residual, fit.weight, fit.leverage, fit.link, &scratch, &fit.num_scale_cells);
   return fit;
 }
 

@@ -76,8 +76,14 @@ ScreenFit FitScreen(const CpdData& data, const OutlierOptions& options);
 // residual); the root mean square of those terms when the median is 0; NaN
 // with fewer than kMinScaleCells such cells. Sets `num_cells` to their
 // number.
-double RobustScale(const Eigen::VectorXd& residual, const Eigen::VectorXd& hat,
-                   const std::vector<CellLink>& link, int* num_cells);
+// The hat value of cell k is weight[k] x leverage[k].
+struct ScaleScratch {  // reused between calls, contents overwritten
+  std::vector<uint64_t> terms;       // bit patterns of the terms
+  std::vector<uint64_t> candidates;  // of the median's selection
+};
+double RobustScale(const Eigen::VectorXd& residual, const Eigen::VectorXd& weight,
+                   const Eigen::VectorXd& leverage, const std::vector<CellLink>& link,
+                   ScaleScratch* scratch, int* num_cells);
 
 // Returns q_k = x_k' (X'WX)^+ x_k for every cell of a linked CPD design
 // (regions 0..num_regions-1 and items 0..num_items-1 all present), with

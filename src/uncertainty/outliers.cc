@@ -299,6 +299,17 @@ double Standardised(double log_observed, double sd, const Prediction& p) {
   return sd > 0.0 ? NormalEquivalent(d / sd, p.dof) : 0.0;
 }
 
+// Whether |Standardised| exceeds `threshold`, setting *z when it does. The
+// normal deviate is never larger than the ratio it maps (Student's t has
+// the heavier tails; in Wallace's formula ln(1 + x) <= x and
+// (8 dof + 1) / (8 dof + 3) < 1), so a ratio within the threshold is not
+// mapped: most cells cost no logarithm.
+bool Beyond(double log_observed, double sd, const Prediction& p, double threshold, double* z) {
+  if (!(sd > 0.0) || !(std::abs((log_observed - p.log_predicted) / sd) > threshold)) return false;
+  *z = Standardised(log_observed, sd, p);
+  return std::abs(*z) > threshold;
+}
+
 // Lists the lowest and highest quote of cell c when it is far from the
 // prediction and also from the mean of the cell's other quotes: one bad
 // quote among good ones, not a cell whose quotes all share one error (that
@@ -315,8 +326,8 @@ void ScreenQuotes(const Survey& survey, int h, int64_t c, const Prediction& p, d
     const double mates = (n * survey.cells.log_price[c] - x) / (n - 1);
     const double gap = std::abs(x - mates);
     const bool apart = mate_sd > 0.0 ? gap / mate_sd > threshold : gap > 0.0;
-    const double z = Standardised(x, quote_sd, p);
-    if (!apart || !(std::abs(z) > threshold)) continue;
+    double z = 0.0;
+    if (!apart || !Beyond(x, quote_sd, p, threshold, &z)) continue;
     Outlier quote = MakeRow(survey, h, c, p);
     quote.kind = kind;
     quote.observed = std::exp(x);
@@ -343,8 +354,8 @@ HeadingRows ScreenHeading(const Survey& survey, int h, const ScreenFit& fit, con
       continue;
     }
     (p.how == ScreenedBy::kFit ? rows.num_by_fit : rows.num_leave_one_out) += 1;
-    const double z = Standardised(survey.cells.log_price[c], p.sd, p);
-    if (std::abs(z) > options.threshold) {
+    double z = 0.0;
+    if (Beyond(survey.cells.log_price[c], p.sd, p, options.threshold, &z)) {
       rows.flagged.push_back(MakeRow(survey, h, c, p));
       rows.flagged.back().standardised_residual = z;
       ++rows.num_flagged_by_region[survey.cells.region[c]];
