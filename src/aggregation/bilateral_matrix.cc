@@ -12,10 +12,10 @@
 #include <cmath>
 #include <limits>
 
+#include "base/not_a_number.h"
+
 namespace paritas {
 namespace {
-
-constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 
 // Subtracts from each column of `log_price` the mean over its masked
 // entries; masked-out entries stay 0.

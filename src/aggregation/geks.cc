@@ -13,10 +13,11 @@
 #include <utility>
 #include <vector>
 
+#include "base/not_a_number.h"
+
 namespace paritas {
 namespace {
 
-constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 // Side of the square tiles in which the pairs are walked.
 constexpr int kTile = 64;
 

@@ -10,10 +10,10 @@
 #include <cstddef>
 #include <limits>
 
+#include "base/not_a_number.h"
+
 namespace paritas {
 namespace {
-
-constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 
 // Returns sum_i x_i y_i.
 double Dot(std::span<const double> x, std::span<const double> y) {

@@ -7,13 +7,12 @@
 #include <cmath>
 #include <limits>
 
+#include "base/not_a_number.h"
 #include "paritas/aggregation/aggregation.h"
 #include "paritas/base/text.h"
 
 namespace paritas {
 namespace {
-
-constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 
 bool Spends(double e) { return std::isfinite(e) && e > 0; }
 

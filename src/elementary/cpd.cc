@@ -15,13 +15,13 @@
 #include <utility>
 #include <vector>
 
+#include "base/not_a_number.h"
 #include "paritas/base/text.h"
 #include "elementary/robust_cpd.h"
 
 namespace paritas {
 namespace {
 
-constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 // Contrasts solved together when computing standard errors: bounds the
 // (R + I) x chunk workspace.
 constexpr int kContrastChunk = 256;

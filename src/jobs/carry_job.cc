@@ -14,6 +14,7 @@
 
 #include <nlohmann/json.hpp>
 
+#include "base/not_a_number.h"
 #include "base/sha256.h"
 #include "paritas/aggregation/normalisation.h"
 #include "paritas/base/csv.h"
@@ -32,7 +33,6 @@ namespace {
 
 namespace fs = std::filesystem;
 using Json = nlohmann::json;
-constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 
 // What the benchmark run folder holds.
 struct Benchmark {

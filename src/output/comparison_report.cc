@@ -152,9 +152,9 @@ std::string ChangeTable(const RunComparison& cmp, const std::vector<const Parity
            NumCell(c->parity_new, Num(c->parity_new, 2)) +
            NumCell(c->percent_change, Signed(c->percent_change, 2)) +
            NumCell(c->log_change, Signed(c->log_change, 4)) +
-           NumCell(c->rank_old > 0 ? c->rank_old : internal::report::kNaN,
+           NumCell(c->rank_old > 0 ? c->rank_old : kNaN,
                    c->rank_old > 0 ? std::to_string(c->rank_old) : "\xE2\x80\x93") +
-           NumCell(c->rank_new > 0 ? c->rank_new : internal::report::kNaN,
+           NumCell(c->rank_new > 0 ? c->rank_new : kNaN,
                    c->rank_new > 0 ? std::to_string(c->rank_new) : "\xE2\x80\x93");
     if (cmp.has_uncertainty) {
       out += NumCell(c->threshold, Num(c->threshold, 4)) + "<td>" +

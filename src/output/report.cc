@@ -19,7 +19,6 @@ namespace paritas {
 namespace {
 
 using internal::report::Context;
-using internal::report::kNaN;
 
 // The document head, the style sheet and the page's title bar.
 std::string PageTop(const ReportInputs& inputs, bool usable, const std::string& root_code) {

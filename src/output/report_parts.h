@@ -18,12 +18,12 @@
 #include <vector>
 
 #include "paritas/aggregation/bilateral_matrix.h"
+#include "base/not_a_number.h"
 #include "paritas/output/output_writers.h"
 #include "paritas/output/report.h"
 
 namespace paritas::internal::report {
 
-inline constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 // Width of every chart in SVG units; charts scale down with the page.
 inline constexpr double kChartWidth = 1000.0;
 

@@ -10,13 +10,12 @@
 #include <string>
 #include <vector>
 
+#include "base/not_a_number.h"
 #include "paritas/base/csv.h"
 #include "paritas/base/text.h"
 
 namespace paritas {
 namespace {
-
-constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 
 double Median(std::vector<double> values) {
   if (values.empty()) return kNaN;

@@ -12,10 +12,11 @@
 #include <utility>
 #include <vector>
 
+#include "base/not_a_number.h"
+
 namespace paritas::internal {
 namespace {
 
-constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 // 1 / Phi^-1(3/4): makes the median absolute deviation a consistent estimate
 // of a normal standard deviation (Hampel 1974).
 constexpr double kMadToSigma = 1.4826;

@@ -14,6 +14,7 @@
 #include <utility>
 #include <vector>
 
+#include "base/not_a_number.h"
 #include "base/eigen_threads.h"
 #include "paritas/base/csv.h"
 #include "paritas/base/text.h"
@@ -26,7 +27,6 @@ namespace {
 using internal::CellLink;
 using internal::ScreenFit;
 
-constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 constexpr double kMadToSigma = 1.4826;
 // Above this hat value a cell's residual holds less than half of its
 // deviation; it is reported as screened by leave-one-out (the statistic is

@@ -12,11 +12,10 @@
 #include <Eigen/Core>
 
 #include "paritas/compute/compute.h"
+#include "base/not_a_number.h"
 #include "paritas/survey/survey.h"
 
 namespace paritas::internal {
-
-inline constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 
 // Tags separating the random streams of the parts (high bits of the stream
 // number), so the coverage draws never repeat the bootstrap's.

@@ -8,13 +8,12 @@
 #include <map>
 #include <tuple>
 
+#include "base/not_a_number.h"
 #include "paritas/base/text.h"
 #include "use/run_tables.h"
 
 namespace paritas {
 namespace {
-
-constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 
 // One row of the chosen period, by classification node.
 struct IndexRow {

@@ -22,6 +22,7 @@
 #include <system_error>
 #include <unordered_map>
 
+#include "base/not_a_number.h"
 #include "paritas/base/code_table.h"
 #include "paritas/base/csv.h"
 #include "paritas/base/text.h"
@@ -40,7 +41,6 @@ using internal::SensitivityAdvice;
 using internal::TableRow;
 
 constexpr std::string_view kUtf8Bom = "\xEF\xBB\xBF";
-constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 // Output and rejected text is handed to the file once this much has built up.
 constexpr size_t kFlushBytes = 1 << 20;
 

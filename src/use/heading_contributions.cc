@@ -12,14 +12,13 @@
 #include <cmath>
 #include <limits>
 
+#include "base/not_a_number.h"
 #include "paritas/aggregation/aggregation_method.h"
 #include "paritas/base/csv.h"
 #include "paritas/base/text.h"
 
 namespace paritas {
 namespace {
-
-constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 
 // A node's inputs as the split needs them: ln heading parities, and each
 // region's shares over the headings it can be compared on.

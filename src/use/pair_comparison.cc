@@ -8,6 +8,7 @@
 #include <limits>
 #include <numeric>
 
+#include "base/not_a_number.h"
 #include "paritas/base/csv.h"
 #include "paritas/compute/imputation.h"
 #include "paritas/aggregation/aggregation_method.h"
@@ -18,7 +19,6 @@
 namespace paritas {
 namespace {
 
-constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 constexpr int kDecimals = 6;
 
 bool Positive(double x) { return std::isfinite(x) && x > 0; }

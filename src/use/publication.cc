@@ -13,6 +13,7 @@
 #include <nlohmann/json.hpp>
 #include <system_error>
 
+#include "base/not_a_number.h"
 #include "base/sha256.h"
 #include "paritas/aggregation/normalisation.h"
 #include "paritas/base/csv.h"
@@ -31,7 +32,6 @@ using internal::ParseParity;
 using internal::ReadTable;
 using internal::TableRow;
 
-constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 constexpr int kMaxDecimals = 6;
 
 struct PublicationOrderName {

@@ -14,6 +14,7 @@
 #include <set>
 #include <utility>
 
+#include "base/not_a_number.h"
 #include "paritas/base/csv.h"
 #include "paritas/base/read_limits.h"
 #include "paritas/base/text.h"
@@ -27,7 +28,6 @@ namespace {
 using internal::TableRow;
 
 namespace fs = std::filesystem;
-constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 using Key = std::pair<std::string, std::string>;  // node, region
 
 struct Cell {

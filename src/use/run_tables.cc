@@ -6,13 +6,13 @@
 #include <filesystem>
 #include <limits>
 
+#include "base/not_a_number.h"
 #include "paritas/base/csv.h"
 #include "paritas/base/text.h"
 #include "paritas/output/run_record.h"
 
 namespace paritas::internal {
 namespace {
-constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 }  // namespace
 
 // Lists header names for a message: a header of garbage can hold millions,

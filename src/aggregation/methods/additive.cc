@@ -12,10 +12,10 @@
 #include <string>
 #include <vector>
 
+#include "base/not_a_number.h"
+
 namespace paritas::internal {
 namespace {
-
-constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 
 // Regions linked through shared headings, largest group first, members
 // ascending; regions that take no part are in no group.

@@ -12,10 +12,11 @@
 
 #include "paritas/aggregation/aggregation.h"
 
+#include "base/not_a_number.h"
+
 namespace paritas {
 namespace {
 
-constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 constexpr double kInf = std::numeric_limits<double>::infinity();
 
 // An edge's place in the strict total order the tree minimises.

@@ -9,12 +9,11 @@
 #include <vector>
 
 #include "paritas/aggregation/aggregation.h"
+#include "base/not_a_number.h"
 #include "paritas/elementary/cpd.h"
 
 namespace paritas {
 namespace {
-
-constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 
 bool UsableCell(const NodeArrays& arrays, int r, int h) {
   const double p = arrays.price(r, h), e = arrays.expenditure(r, h);

@@ -16,10 +16,10 @@
 
 #include "elementary/methods/cpd_heading.h"
 
+#include "base/not_a_number.h"
+
 namespace paritas::internal {
 namespace {
-
-constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 
 // Sum of w x y x z over the cells (w = 1 when unweighted).
 double WeightedDot(const CellBuffers& cells, const Eigen::VectorXd& y, const Eigen::VectorXd& z) {
