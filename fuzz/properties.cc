@@ -1068,7 +1068,7 @@ std::string CheckPriceIndices(std::string_view data, const std::string& work_dir
   }
   if (!ok) {
     if (message.rfind(path, 0) != 0) return "message does not start with the path: " + message;
-    if (table.periods.size() < 2 || message.find(" periods (") == std::string::npos) return "";
+    if (message.rfind(path + " holds ", 0) != 0) return "";
     // Refused for holding several periods: each must read on its own.
     for (const std::string& period : std::vector<std::string>(table.periods)) {
       PriceIndexTable one;
