@@ -397,7 +397,12 @@ ReportSensitivity ToReportSensitivity(const SensitivityResult& result,
       out.parity_lower.push_back(result.boot_lower(0, r));
       out.parity_upper.push_back(result.boot_upper(0, r));
     }
-    out.interval_label = FormatFixed(100.0 * options.level, 0) + " % interval over item resamples";
+    // The kind is named, since the expanded interval is wider than the
+    // percentiles at the level would be.
+    out.interval_label = FormatFixed(100.0 * options.level, 0) + " % " +
+                         (options.interval == IntervalKind::kExpanded ? "expanded percentile"
+                                                                      : "percentile") +
+                         " interval over item resamples";
   }
   out.pair_charts = ToReportPairCharts(result);
   out.pair_level_label = FormatFixed(100.0 * options.level, 0) + " %";

@@ -314,7 +314,13 @@ std::string IntervalNote(const std::string& run_dir) {
       record.value("sensitivity", Json::object()).value("settings", Json::object());
   const double level = settings.value("level", 0.0);
   const int replicates = settings.value("replicates", 0);
-  return FormatFixed(100.0 * level, 0) + " % bootstrap interval over item resamples (" +
+  // "expanded" or "percentile"; runs from before the choice existed have none.
+  const std::string kind = settings.value("interval", "");
+  const std::string kind_words = kind == "expanded"     ? "expanded percentile "
+                                 : kind == "percentile" ? "percentile "
+                                                        : "";
+  return FormatFixed(100.0 * level, 0) + " % " + kind_words +
+         "bootstrap interval over item resamples (" +
          std::to_string(replicates) + " replicates), sensitivity run " + id;
 }
 

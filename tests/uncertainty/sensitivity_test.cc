@@ -876,6 +876,9 @@ TEST(SensitivityCommand, RunsAndPrintsTheRootTable) {
   EXPECT_NE(out.find(" of 45 pairs\n"), std::string::npos) << out;
   EXPECT_EQ(CountOf(ReadTextFile(folder + "/out/sensitivity/pair_ratios.csv"), "\n"), 1u + 3 * 45);
   EXPECT_NE(report.find("id=\"pairs-all\""), std::string::npos);
+  // The legend names the interval's kind (expanded by default).
+  EXPECT_NE(report.find("90 % expanded percentile interval over item resamples"),
+            std::string::npos);
   // Many pairs at one level: the report says no correction is made.
   EXPECT_NE(report.find("with no correction for the number of comparisons"), std::string::npos);
   EXPECT_NE(ReadTextFile(folder + "/out/sensitivity/run.json")

@@ -187,6 +187,15 @@ TEST(Publication, AddsIntervalColumnsFromAMatchingSensitivityRun) {
   EXPECT_EQ(summary.notes.interval,
             "90 % bootstrap interval over item resamples (200 replicates), sensitivity run "
             "sensitivity-run");
+  // A run that records its interval's kind has it named in the note.
+  WriteTextFile(dir + "/run/sensitivity/run.json",
+                RunJson(dir, "sensitivity", "mean",
+                        ", \"sensitivity\": {\"settings\": {\"level\": 0.9, \"replicates\": "
+                        "200, \"interval\": \"expanded\"}}"));
+  ASSERT_TRUE(Publish(options, &summary)) << summary.message;
+  EXPECT_EQ(summary.notes.interval,
+            "90 % expanded percentile bootstrap interval over item resamples (200 replicates), "
+            "sensitivity run sensitivity-run");
   // Without intervals the same run publishes the levels alone.
   options.intervals = false;
   ASSERT_TRUE(Publish(options, &summary)) << summary.message;
