@@ -7,11 +7,14 @@
 // products (Törnqvist, Jevons) from losing digits to the price level.
 #include "paritas/aggregation/bilateral_matrix.h"
 
+#include <omp.h>
+
 #include <algorithm>
 #include <cassert>
 #include <cmath>
 #include <limits>
 
+#include "base/eigen_threads.h"
 #include "base/not_a_number.h"
 
 namespace paritas {
@@ -298,6 +301,179 @@ Eigen::MatrixXd AllPairsJevonsRepresentative(const Eigen::MatrixXd& log_price,
     *num_matched = (rep * mask.transpose()).array().round().cast<int>().matrix();
   }
   return jevons;
+}
+
+}  // namespace paritas
+
+namespace paritas {
+namespace {
+
+// Orders pairs widest first, ties by (a, b): a total order, so the widest
+// pairs do not depend on how the rows were split.
+bool WiderPair(const SpreadPairIndices& x, const SpreadPairIndices& y) {
+  return x.spread > y.spread || (x.spread == y.spread && (x.a < y.a || (x.a == y.a && x.b < y.b)));
+}
+
+// One row block's share of AllPairsSpreads.
+struct SpreadBlock {
+  std::vector<double> pair_spreads;
+  std::vector<SpreadPairIndices> widest;
+};
+
+// Median and largest of `values` as RegionSpreads computes them (reorders
+// `values`); `partner` the first index reaching the largest.
+RegionSpread SummariseRow(std::vector<double>* values, double largest, int partner) {
+  RegionSpread out;
+  if (values->empty()) {
+    out.median = out.max = kNaN;
+    return out;
+  }
+  out.max = largest;
+  out.worst_partner = partner;
+  const size_t mid = values->size() / 2;
+  std::nth_element(values->begin(), values->begin() + mid, values->end());
+  out.median = (*values)[mid];
+  if (values->size() % 2 == 0) {
+    out.median = 0.5 * (out.median + *std::max_element(values->begin(), values->begin() + mid));
+  }
+  return out;
+}
+
+// Rows [a0, a1) of the spreads: the sums of FillValueIndices for the block
+// (value_a and value_b_basket_a at (a, b) and at (b, a)), then each row
+// reduced as RegionSpreads, the large-spread check and the report do.
+void SpreadRows(const MaskedArrays& m, Eigen::Index a0, Eigen::Index a1, const SpreadOptions& options,
+                SpreadSummary* out, SpreadBlock* block) {
+  const Eigen::Index n = m.mask.rows(), rows = a1 - a0;
+  // The transposed sums come from the same products as in the full matrix
+  // (all regions as rows, the block as columns): the kernels' summation order
+  // depends on an entry's place in the product, and with blocks starting at
+  // multiples of 4 every entry keeps its place's order (tested).
+  Eigen::MatrixXd value_ab(rows, n), value_ba(n, rows), basket_ab(rows, n), basket_ba(n, rows);
+  value_ab.noalias() = m.expenditure.middleRows(a0, rows) * m.mask.transpose();
+  value_ba.noalias() = m.expenditure * m.mask.middleRows(a0, rows).transpose();
+  basket_ab.noalias() = m.quantity.middleRows(a0, rows) * m.price.transpose();
+  basket_ba.noalias() = m.quantity * m.price.middleRows(a0, rows).transpose();
+  // The ratio L / P of a row, padded to an even length so that Eigen's
+  // vectorised logarithm takes every entry, as it does over a whole matrix.
+  Eigen::ArrayXd ratio(n + n % 2), laspeyres(n), paasche(n);
+  std::vector<double> values;
+  for (Eigen::Index i = 0; i < rows; ++i) {
+    const Eigen::Index a = a0 + i;
+    ratio.setOnes();
+    for (Eigen::Index b = 0; b < n; ++b) {
+      double l = kNaN, p = kNaN;
+      if (a == b && value_ab(i, a) > 0.0) {
+        l = p = 1.0;
+      } else if (value_ab(i, b) > 0.0 && value_ba(b, i) > 0.0) {
+        l = basket_ab(i, b) / value_ab(i, b);
+        p = value_ba(b, i) / basket_ba(b, i);
+      }
+      laspeyres(b) = l, paasche(b) = p, ratio(b) = l / p;
+    }
+    const Eigen::ArrayXd spread = ratio.log().abs();
+    values.clear();
+    double largest = 0.0, worst = 0.0;
+    int partner = -1, check_partner = -1;
+    for (Eigen::Index b = 0; b < n; ++b) {
+      if (b != a && std::isfinite(spread(b))) {
+        values.push_back(spread(b));
+        if (spread(b) > largest || partner < 0) largest = spread(b), partner = static_cast<int>(b);
+      }
+      const double s = std::abs(std::log(laspeyres(b) / paasche(b)));
+      if (b != a && std::isfinite(100.0 * s) && 100.0 * s > worst) {
+        worst = 100.0 * s, check_partner = static_cast<int>(b);
+      }
+      if (b <= a || !std::isfinite(s)) continue;
+      if (options.keep_pair_spreads) block->pair_spreads.push_back(s);
+      if (options.num_widest == 0) continue;
+      SpreadPairIndices pair;
+      pair.a = static_cast<int>(a), pair.b = static_cast<int>(b), pair.spread = s;
+      pair.laspeyres = laspeyres(b), pair.paasche = paasche(b);
+      pair.fisher = std::sqrt(pair.laspeyres * pair.paasche);
+      const size_t k = static_cast<size_t>(options.num_widest);
+      if (block->widest.size() == k && !WiderPair(pair, block->widest.front())) continue;
+      block->widest.push_back(pair);
+      std::push_heap(block->widest.begin(), block->widest.end(), WiderPair);
+      if (block->widest.size() > k) {
+        std::pop_heap(block->widest.begin(), block->widest.end(), WiderPair);
+        block->widest.pop_back();
+      }
+    }
+    out->regions[a] = SummariseRow(&values, largest, partner);
+    out->check_percent[a] = worst;
+    out->check_partner[a] = check_partner;
+  }
+}
+
+// Törnqvist and the matched count of one pair, by the sums of Tornqvist
+// over the centred log prices `log_price` (CentreColumns of the masked
+// log prices).
+void CompletePair(const MaskedArrays& m, const Eigen::MatrixXd& log_price, SpreadPairIndices* pair) {
+  const int a = pair->a, b = pair->b;
+  double half_ab = 0.0, weighted_ab = 0.0, half_ba = 0.0, weighted_ba = 0.0;
+  double value_ab = 0.0, value_ba = 0.0, count = 0.0;
+  for (Eigen::Index h = 0; h < m.mask.cols(); ++h) {
+    count += m.mask(a, h) * m.mask(b, h);
+    value_ab += m.expenditure(a, h) * m.mask(b, h);
+    value_ba += m.expenditure(b, h) * m.mask(a, h);
+    half_ab += m.expenditure(a, h) * log_price(b, h);
+    weighted_ab += log_price(a, h) * m.expenditure(a, h) * m.mask(b, h);
+    half_ba += m.expenditure(b, h) * log_price(a, h);
+    weighted_ba += log_price(b, h) * m.expenditure(b, h) * m.mask(a, h);
+  }
+  const double log_ab = (half_ab - weighted_ab) / value_ab;
+  const double log_ba = (half_ba - weighted_ba) / value_ba;
+  pair->tornqvist = std::exp(0.5 * (log_ab - log_ba));
+  pair->num_matched = static_cast<int>(std::lround(count));
+}
+
+}  // namespace
+
+bool SpreadOptions::IsValid(std::string* error) const {
+  std::string message;
+  if (num_widest < 0) message = "num_widest must be >= 0, found " + std::to_string(num_widest);
+  if (block_rows < 4 || block_rows % 4 != 0) {
+    message = "block_rows must be a multiple of 4, found " + std::to_string(block_rows);
+  }
+  if (num_threads < 0) message = "num_threads must be >= 0, found " + std::to_string(num_threads);
+  if (error != nullptr) *error = message;
+  return message.empty();
+}
+
+SpreadSummary AllPairsSpreads(const Eigen::MatrixXd& price, const Eigen::MatrixXd& expenditure,
+                              const SpreadOptions& options) {
+  assert(price.rows() == expenditure.rows() && price.cols() == expenditure.cols());
+  assert(options.IsValid(nullptr));
+  const Eigen::Index n = price.rows();
+  MaskedArrays m = MaskInputs(price, expenditure, true, options.num_widest > 0);
+  SpreadSummary out;
+  out.regions.resize(n);
+  out.check_percent.assign(n, 0.0);
+  out.check_partner.assign(n, -1);
+  const Eigen::Index step = options.block_rows;
+  const int num_blocks = static_cast<int>((n + step - 1) / step);
+  std::vector<SpreadBlock> blocks(num_blocks);
+  // Each block writes its own rows and its own lists; the lists are joined
+  // in block order below, so the thread count changes nothing.
+  const int threads = options.num_threads > 0 ? options.num_threads : omp_get_max_threads();
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads) if (num_blocks > 1)
+  for (int k = 0; k < num_blocks; ++k) {
+    internal::KeepEigenOnThisThread();  // each block's products on its own thread
+    SpreadRows(m, k * step, std::min(n, (k + 1) * step), options, &out, &blocks[k]);
+  }
+  for (SpreadBlock& block : blocks) {
+    out.pair_spreads.insert(out.pair_spreads.end(), block.pair_spreads.begin(),
+                            block.pair_spreads.end());
+    out.widest.insert(out.widest.end(), block.widest.begin(), block.widest.end());
+    block = SpreadBlock();
+  }
+  const size_t k = std::min(out.widest.size(), static_cast<size_t>(options.num_widest));
+  std::partial_sort(out.widest.begin(), out.widest.begin() + k, out.widest.end(), WiderPair);
+  out.widest.resize(k);
+  if (k > 0) CentreColumns(m.mask, &m.log_price);
+  for (SpreadPairIndices& pair : out.widest) CompletePair(m, m.log_price, &pair);
+  return out;
 }
 
 }  // namespace paritas

@@ -425,7 +425,7 @@ std::vector<AggregateParities> AggregateStage(const Survey& survey, const Comput
   const int num_nodes = static_cast<int>(tree.nodes().size());
   result->bilaterals.resize(num_nodes);
   std::vector<bool> keep(num_nodes, false);
-  keep[0] = true;
+  keep[0] = options.keep_root_bilaterals;
   for (int node : options.keep_bilaterals) {
     if (node >= 0 && node < num_nodes) keep[node] = true;
   }
@@ -455,6 +455,14 @@ std::vector<AggregateParities> AggregateStage(const Survey& survey, const Comput
         NodeBilaterals(arrays, keep[index] ? BilateralOptions() : method.BilateralsNeeded());
     aggregate_of[index] = AggregateFromBilaterals(arrays, bilaterals, method);
     if (keep[index]) result->bilaterals[index] = std::move(bilaterals);
+  }
+  if (!keep[0] && !tree.nodes().front().is_leaf) {
+    // The root's spreads row block by row block, both cores on the blocks.
+    const NodeArrays arrays = NodeInputArrays(survey, *result, 0);
+    SpreadOptions spread_options;
+    spread_options.keep_pair_spreads = options.keep_pair_spreads;
+    spread_options.num_threads = threads;
+    result->root_spreads = AllPairsSpreads(arrays.price, arrays.expenditure, spread_options);
   }
   return aggregate_of;
 }

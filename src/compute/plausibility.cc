@@ -303,6 +303,12 @@ class Checker {
 
   // Per region of each node whose bilaterals were kept: its largest spread.
   void CheckSpreads() {
+    // The root's spreads computed without its matrices, when it has none.
+    const SpreadSummary& root = result_.root_spreads;
+    for (size_t a = 0; a < root.check_partner.size(); ++a) {
+      if (!result_.bilaterals.empty() && result_.bilaterals.front().laspeyres.rows() > 0) break;
+      AddSpread(0, static_cast<int>(a), root.check_percent[a], root.check_partner[a]);
+    }
     for (size_t n = 0; n < result_.bilaterals.size(); ++n) {
       const BilateralMatrices& b = result_.bilaterals[n];
       const int size = static_cast<int>(b.laspeyres.rows());
@@ -314,15 +320,20 @@ class Checker {
           const double spread = 100.0 * std::abs(std::log(b.laspeyres(a, c) / b.paasche(a, c)));
           if (c != a && std::isfinite(spread) && spread > worst) worst = spread, partner = c;
         }
-        if (partner < 0 || worst <= checks_.max_spread_percent) continue;
-        Add("large-spread", static_cast<int>(n), a,
-            NodeNamed(static_cast<int>(n)) + ", region '" + RegionCode(a) +
-                "': Paasche-Laspeyres spread " + Fixed(worst, 1) + " % against '" +
-                RegionCode(partner) + "' (checks.max_spread_percent " +
-                Fixed(checks_.max_spread_percent, 1) +
-                "); its parity depends on the index formula");
+        AddSpread(static_cast<int>(n), a, worst, partner);
       }
     }
+  }
+
+  // A large-spread warning for region a of node n when its largest spread
+  // (`worst`, percent, against `partner`) is above the threshold.
+  void AddSpread(int n, int a, double worst, int partner) {
+    if (partner < 0 || worst <= checks_.max_spread_percent) return;
+    Add("large-spread", n, a,
+        NodeNamed(n) + ", region '" + RegionCode(a) + "': Paasche-Laspeyres spread " +
+            Fixed(worst, 1) + " % against '" + RegionCode(partner) +
+            "' (checks.max_spread_percent " + Fixed(checks_.max_spread_percent, 1) +
+            "); its parity depends on the index formula");
   }
 
  public:

@@ -406,6 +406,9 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary,
   }
   ComputeOptions options = ComputeOptions::FromConfig(config);
   options.keep_bilaterals = matrix_nodes;
+  // Beyond matrices_up_to_regions the root's spreads come by row blocks.
+  options.keep_root_bilaterals = !summary->matrices_left_out;
+  options.keep_pair_spreads = config.report;
   if (!ComputeParities(survey, options, &summary->result, &summary->compute)) {
     const int code = summary->compute.outcome == ComputeOutcome::kComputationFailed ? kExitComputationFailed
                                                                                     : kExitInvalidInput;
@@ -436,6 +439,8 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary,
   // digested and in the staging folder.
   if (!result.bilaterals.empty() && result.bilaterals.front().laspeyres.rows() > 0) {
     summary->root_spreads = RegionSpreads(result.bilaterals.front());
+  } else {
+    summary->root_spreads = result.root_spreads.regions;
   }
   std::vector<OutputFile> files = ComputeOutputFiles(config, matrix_nodes, contributions, summary);
   for (const OutputFile& file : files) summary->outputs.push_back(file.relative_path);

@@ -84,9 +84,14 @@ std::string Navigation(bool has_bilaterals, bool has_tree, bool has_outliers, bo
 std::string Sections(const Context& ctx) {
   namespace report = internal::report;
   const ParityResult& result = ctx.result;
-  const bool has_bilaterals =
+  const bool has_matrices =
       !result.bilaterals.empty() &&
       result.bilaterals.front().laspeyres.rows() == ctx.survey.num_regions();
+  // Without the matrices, the spreads computed by row blocks stand in.
+  const bool has_summary =
+      !has_matrices &&
+      result.root_spreads.regions.size() == static_cast<size_t>(ctx.survey.num_regions());
+  const bool has_bilaterals = has_matrices || has_summary;
   const bool has_groups = ctx.survey.classification.num_tree_nodes() <
                           static_cast<int>(ctx.survey.classification.nodes().size());
   const bool has_contributions = ctx.in.contributions != nullptr && !ctx.order.empty();
@@ -102,7 +107,8 @@ std::string Sections(const Context& ctx) {
     const std::vector<RegionSpread>* given = ctx.in.root_spreads;
     spreads = given != nullptr && given->size() == static_cast<size_t>(ctx.survey.num_regions())
                   ? *given
-                  : RegionSpreads(result.bilaterals.front());
+              : has_summary ? result.root_spreads.regions
+                            : RegionSpreads(result.bilaterals.front());
   }
   if (!ctx.order.empty()) {
     out += report::PriceLevelSection(ctx, spreads);
@@ -112,7 +118,8 @@ std::string Sections(const Context& ctx) {
     out += report::MatrixSection(ctx);
   }
   out += report::CoverageSection(ctx);
-  if (has_bilaterals) out += report::SpreadSection(ctx, result.bilaterals.front());
+  if (has_matrices) out += report::SpreadSection(ctx, result.bilaterals.front());
+  if (has_summary) out += report::SpreadSection(ctx, result.root_spreads);
   if (!ctx.root.tree.empty()) out += report::TreeSection(ctx);
   if (ctx.in.outliers != nullptr) out += report::OutlierSection(ctx, *ctx.in.outliers);
   if (ctx.in.sensitivity != nullptr) out += report::SensitivitySection(ctx, *ctx.in.sensitivity);

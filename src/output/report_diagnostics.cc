@@ -146,17 +146,9 @@ std::string SpreadHistogram(const std::vector<double>& values, double largest) {
   return out;
 }
 
-// The pairs with the widest spread, with every index formula (sorts the
-// first rows of `pairs` into place).
-std::string WorstPairsTable(const Context& ctx, const BilateralMatrices& b,
-                            std::vector<SpreadPair>* pairs) {
-  constexpr size_t kWorstPairs = 12;
-  const size_t k = std::min(kWorstPairs, pairs->size());
-  std::partial_sort(pairs->begin(), pairs->begin() + k, pairs->end(),
-                    [](const SpreadPair& x, const SpreadPair& y) {
-                      return x.spread > y.spread ||
-                             (x.spread == y.spread && (x.a < y.a || (x.a == y.a && x.b < y.b)));
-                    });
+// The pairs with the widest spread (widest first), with every index formula.
+std::string WorstPairsTable(const Context& ctx, const std::vector<SpreadPairIndices>& widest,
+                            bool has_num_matched) {
   std::string out =
       "<h3>Pairs with the widest spread</h3><div class=\"table-scroll\"><table class=\"data\" "
       "id=\"worst-pairs\"><thead><tr>"
@@ -164,16 +156,14 @@ std::string WorstPairsTable(const Context& ctx, const BilateralMatrices& b,
       "class=\"num\">Paasche</th><th class=\"num\">Fisher</th><th "
       "class=\"num\">T\xC3\xB6rnqvist</th><th class=\"num\">P\xE2\x80\x93L spread, %</th><th "
       "class=\"num\">headings matched</th></tr></thead><tbody>";
-  for (size_t i = 0; i < k; ++i) {
-    const SpreadPair& p = (*pairs)[i];
+  for (const SpreadPairIndices& p : widest) {
     out += "<tr><td>" + HtmlEscape(ctx.Label(p.a)) + "</td><td>" + HtmlEscape(ctx.Label(p.b)) +
-           "</td><td class=\"num\">" + Num(100.0 * b.laspeyres(p.a, p.b), kTableParityDecimals) +
-           "</td><td class=\"num\">" + Num(100.0 * b.paasche(p.a, p.b), kTableParityDecimals) +
-           "</td><td class=\"num\">" + Num(100.0 * b.fisher(p.a, p.b), kTableParityDecimals) +
-           "</td><td class=\"num\">" + Num(100.0 * b.tornqvist(p.a, p.b), kTableParityDecimals) +
+           "</td><td class=\"num\">" + Num(100.0 * p.laspeyres, kTableParityDecimals) +
+           "</td><td class=\"num\">" + Num(100.0 * p.paasche, kTableParityDecimals) +
+           "</td><td class=\"num\">" + Num(100.0 * p.fisher, kTableParityDecimals) +
+           "</td><td class=\"num\">" + Num(100.0 * p.tornqvist, kTableParityDecimals) +
            "</td><td class=\"num\">" + Num(100.0 * p.spread, 2) + "</td><td class=\"num\">" +
-           (b.num_matched.size() > 0 ? FormatCount(b.num_matched(p.a, p.b))
-                                     : std::string("\xE2\x80\x93")) +
+           (has_num_matched ? FormatCount(p.num_matched) : std::string("\xE2\x80\x93")) +
            "</td></tr>";
   }
   out +=
@@ -183,28 +173,56 @@ std::string WorstPairsTable(const Context& ctx, const BilateralMatrices& b,
   return out;
 }
 
-}  // namespace
-
-std::string SpreadSection(const Context& ctx, const BilateralMatrices& b) {
-  std::vector<SpreadPair> pairs = SpreadPairs(b);
+// The section from the spreads in percent (`values`, any order; reordered)
+// and the widest pairs.
+std::string SpreadSectionOf(const Context& ctx, std::vector<double>* values,
+                            const std::vector<SpreadPairIndices>& widest, bool has_num_matched) {
   std::string out = OpenSection("spread", "Spread of the bilateral comparisons");
   out +=
       "<p>For each pair of regions the Laspeyres index (basket of the first) and the Paasche index "
       "(basket of the second) bound the comparison; their gap, 100 \xC3\x97 |ln(L / P)|, shows how "
       "much the answer depends on whose basket is priced. Large gaps mean the two regions buy "
       "differently and price differently, and the choice of index formula matters for them.</p>\n";
-  if (pairs.empty()) return out + "<p>No pair of regions shares a heading.</p></section>\n";
+  if (values->empty()) return out + "<p>No pair of regions shares a heading.</p></section>\n";
+  const double largest = *std::max_element(values->begin(), values->end());
+  // Drawn before the cards reorder the values (its counts do not depend
+  // on their order anyway).
+  const std::string histogram = SpreadHistogram(*values, largest);
+  out += SpreadCards(values, largest);
+  out += histogram;
+  out += WorstPairsTable(ctx, widest, has_num_matched);
+  return out + "</section>\n";
+}
+
+}  // namespace
+
+std::string SpreadSection(const Context& ctx, const BilateralMatrices& b) {
+  std::vector<SpreadPair> pairs = SpreadPairs(b);
   std::vector<double> values;
   values.reserve(pairs.size());
   for (const SpreadPair& p : pairs) values.push_back(100.0 * p.spread);
-  const double largest = *std::max_element(values.begin(), values.end());
-  // Drawn before the cards reorder the values (its counts do not depend
-  // on their order anyway).
-  const std::string histogram = SpreadHistogram(values, largest);
-  out += SpreadCards(&values, largest);
-  out += histogram;
-  out += WorstPairsTable(ctx, b, &pairs);
-  return out + "</section>\n";
+  constexpr size_t kWorstPairs = 12;
+  const size_t k = std::min(kWorstPairs, pairs.size());
+  std::partial_sort(pairs.begin(), pairs.begin() + k, pairs.end(),
+                    [](const SpreadPair& x, const SpreadPair& y) {
+                      return x.spread > y.spread ||
+                             (x.spread == y.spread && (x.a < y.a || (x.a == y.a && x.b < y.b)));
+                    });
+  std::vector<SpreadPairIndices> widest(k);
+  for (size_t i = 0; i < k; ++i) {
+    const SpreadPair& p = pairs[i];
+    widest[i] = {p.a, p.b, p.spread, b.laspeyres(p.a, p.b), b.paasche(p.a, p.b),
+                 b.fisher(p.a, p.b), b.tornqvist(p.a, p.b),
+                 b.num_matched.size() > 0 ? b.num_matched(p.a, p.b) : 0};
+  }
+  return SpreadSectionOf(ctx, &values, widest, b.num_matched.size() > 0);
+}
+
+std::string SpreadSection(const Context& ctx, const SpreadSummary& summary) {
+  std::vector<double> values;
+  values.reserve(summary.pair_spreads.size());
+  for (double s : summary.pair_spreads) values.push_back(100.0 * s);
+  return SpreadSectionOf(ctx, &values, summary.widest, true);
 }
 
 std::string OutlierSection(const Context& ctx, const std::vector<ReportOutlier>& outliers) {

@@ -226,7 +226,9 @@ std::string GroupSection(const Context& ctx);
 std::string MatrixSection(const Context& ctx);
 std::string CoverageSection(const Context& ctx);
 // report_diagnostics.cc
+// From the root's full matrices, or from the spreads computed without them.
 std::string SpreadSection(const Context& ctx, const BilateralMatrices& b);
+std::string SpreadSection(const Context& ctx, const SpreadSummary& summary);
 std::string OutlierSection(const Context& ctx, const std::vector<ReportOutlier>& outliers);
 std::string SensitivitySection(const Context& ctx, const ReportSensitivity& s);
 // report_contributions.cc: "Why regions are dear" (empty without root rows).

@@ -2,6 +2,7 @@
 // entry by entry, against the scalar formulas on incomplete random data.
 #include "paritas/aggregation/bilateral_matrix.h"
 
+#include <algorithm>
 #include <cmath>
 #include <cstdint>
 #include <fstream>
@@ -15,6 +16,7 @@
 #include <gtest/gtest.h>
 
 #include "paritas/aggregation/index_formulas.h"
+#include "paritas/output/output_writers.h"
 #include "test_util.h"
 
 namespace paritas {
@@ -407,6 +409,98 @@ TEST(AllPairsJevons, PresentButNonFiniteLogPriceCountsAsAbsent) {
   const Eigen::MatrixXd jevons = AllPairsJevons(log_price, present, nullptr);
   PARITAS_EXPECT_CLOSE(jevons(0, 1), 4.0, 1e-15);  // sqrt(2 * 8).
   EXPECT_EQ(jevons(1, 1), 1.0);
+}
+
+// The spread summaries by row blocks against the same summaries taken from
+// the full matrices (computed here): per region as RegionSpreads, the
+// large-spread check's largest spread and partner, every pair's spread in
+// row order, and the widest pairs with their indices. Block sizes and
+// thread counts must not change a bit.
+TEST(AllPairsSpreads, EqualTheSummariesOfTheFullMatrices) {
+  const int num_regions = 163;  // 40 blocks of 4 and 3 rows left
+  const int num_headings = 23;
+  Eigen::MatrixXd price, expenditure;
+  MakeIncompleteData(num_regions, num_headings, 20261202, &price, &expenditure);
+  const BilateralMatrices full = AllPairsWeighted(price, expenditure);
+  const std::vector<RegionSpread> regions = RegionSpreads(full);
+  std::vector<double> check_percent(num_regions, 0.0), pair_spreads;
+  std::vector<int> check_partner(num_regions, -1);
+  std::vector<SpreadPairIndices> pairs;
+  for (int a = 0; a < num_regions; ++a) {
+    for (int b = 0; b < num_regions; ++b) {
+      const double s = std::abs(std::log(full.laspeyres(a, b) / full.paasche(a, b)));
+      if (b != a && std::isfinite(100.0 * s) && 100.0 * s > check_percent[a]) {
+        check_percent[a] = 100.0 * s, check_partner[a] = b;
+      }
+      if (b <= a || !std::isfinite(s)) continue;
+      pair_spreads.push_back(s);
+      pairs.push_back({a, b, s, full.laspeyres(a, b), full.paasche(a, b), full.fisher(a, b),
+                       full.tornqvist(a, b), full.num_matched(a, b)});
+    }
+  }
+  std::sort(pairs.begin(), pairs.end(), [](const SpreadPairIndices& x, const SpreadPairIndices& y) {
+    return x.spread > y.spread || (x.spread == y.spread && (x.a < y.a || (x.a == y.a && x.b < y.b)));
+  });
+  ASSERT_GT(pairs.size(), 12u);
+  for (int block_rows : {4, 12, 64, 128, 512}) {
+    for (int threads : {1, 2}) {
+      SCOPED_TRACE("block_rows " + std::to_string(block_rows) + ", threads " +
+                   std::to_string(threads));
+      SpreadOptions options;
+      options.block_rows = block_rows;
+      options.num_threads = threads;
+      const SpreadSummary summary = AllPairsSpreads(price, expenditure, options);
+      ASSERT_EQ(summary.regions.size(), regions.size());
+      for (int a = 0; a < num_regions; ++a) {
+        // Bit for bit (NaN for a region without any partner).
+        EXPECT_TRUE(summary.regions[a].median == regions[a].median ||
+                    (std::isnan(summary.regions[a].median) && std::isnan(regions[a].median)))
+            << "region " << a;
+        EXPECT_TRUE(summary.regions[a].max == regions[a].max ||
+                    (std::isnan(summary.regions[a].max) && std::isnan(regions[a].max)))
+            << "region " << a;
+        EXPECT_EQ(summary.regions[a].worst_partner, regions[a].worst_partner) << "region " << a;
+      }
+      EXPECT_EQ(summary.check_percent, check_percent);
+      EXPECT_EQ(summary.check_partner, check_partner);
+      EXPECT_EQ(summary.pair_spreads, pair_spreads);
+      ASSERT_EQ(summary.widest.size(), 12u);
+      for (size_t i = 0; i < 12; ++i) {
+        const SpreadPairIndices& got = summary.widest[i];
+        const SpreadPairIndices& want = pairs[i];
+        EXPECT_EQ(got.a, want.a);
+        EXPECT_EQ(got.b, want.b);
+        EXPECT_EQ(got.spread, want.spread);
+        EXPECT_EQ(got.laspeyres, want.laspeyres);
+        EXPECT_EQ(got.paasche, want.paasche);
+        EXPECT_EQ(got.fisher, want.fisher);
+        // Törnqvist from the pair's own sums, not the matrix products.
+        EXPECT_NEAR(got.tornqvist, want.tornqvist, 1e-14 * want.tornqvist);
+        EXPECT_EQ(got.num_matched, want.num_matched);
+      }
+    }
+  }
+  // Regions 0 and 1 share no heading: neither is the other's partner.
+  EXPECT_NE(regions[0].worst_partner, 1);
+  SpreadOptions no_pairs;
+  no_pairs.keep_pair_spreads = false;
+  no_pairs.num_widest = 0;
+  const SpreadSummary lean = AllPairsSpreads(price, expenditure, no_pairs);
+  EXPECT_TRUE(lean.pair_spreads.empty() && lean.widest.empty());
+  EXPECT_EQ(lean.check_partner, check_partner);
+}
+
+TEST(AllPairsSpreads, OptionsOutOfRangeAreNamed) {
+  SpreadOptions options;
+  std::string error;
+  EXPECT_TRUE(options.IsValid(&error));
+  options.block_rows = 6;
+  EXPECT_FALSE(options.IsValid(&error));
+  EXPECT_EQ(error, "block_rows must be a multiple of 4, found 6");
+  options.block_rows = 4;
+  options.num_widest = -1;
+  EXPECT_FALSE(options.IsValid(&error));
+  EXPECT_EQ(error, "num_widest must be >= 0, found -1");
 }
 
 }  // namespace

@@ -9,6 +9,7 @@
 #define PARITAS_AGGREGATION_BILATERAL_MATRIX_H_
 
 #include <string>
+#include <vector>
 
 #include <Eigen/Core>
 
@@ -118,6 +119,76 @@ Eigen::MatrixXd AllPairsJevonsRepresentative(const Eigen::MatrixXd& log_price,
                                              const Eigen::MatrixXd& representative,
                                              const Eigen::VectorXd& item_weight,
                                              Eigen::MatrixXi* num_matched);
+
+// Paasche-Laspeyres spread statistics of one region against all others, as
+// |ln(Laspeyres / Paasche)| (shown x100 as "P-L spread, %" on the terminal
+// and in the report).
+struct RegionSpread {
+  // Median over the partners with a finite spread (mean of the two middle
+  // values of an even count); NaN when there is none.
+  double median = 0.0;
+  // Largest of them (NaN when there is none) and its partner (the first
+  // region index reaching it; -1 when none).
+  double max = 0.0;
+  int worst_partner = -1;
+};
+
+// A pair of regions (a < b) with its spread |ln(L / P)| and its indices
+// (entry (a, b) of each matrix of BilateralMatrices).
+struct SpreadPairIndices {
+  int a = -1, b = -1;
+  double spread = 0.0;
+  double laspeyres = 0.0, paasche = 0.0, fisher = 0.0, tornqvist = 0.0;
+  int num_matched = 0;
+};
+
+// What the terminal, the large-spread warnings and the report need of the
+// spreads between every pair of regions, without the region x region
+// matrices (AllPairsSpreads).
+struct SpreadSummary {
+  // Per region, as computed from the full matrices with the elementwise
+  // (vectorised) logarithm of the matrix expression: RegionSpreads.
+  std::vector<RegionSpread> regions;
+  // Per region, with std::log and the first partner whose 100 |ln(L / P)|
+  // is strictly above all before it and above 0 (the large-spread check):
+  // the value in percent (0 when none) and the partner (-1 when none).
+  std::vector<double> check_percent;
+  std::vector<int> check_partner;
+  // Finite spreads (std::log) of the pairs a < b, row by row: filled only
+  // when SpreadOptions::keep_pair_spreads (the report's cards and histogram).
+  std::vector<double> pair_spreads;
+  // The widest pairs (a < b), widest first, ties by (a, b).
+  std::vector<SpreadPairIndices> widest;
+};
+
+struct SpreadOptions {
+  // Keeps every pair's spread in SpreadSummary::pair_spreads (8 bytes a
+  // pair: 36 MB at 3,000 regions). Default true.
+  bool keep_pair_spreads = true;
+  // Number of widest pairs kept, >= 0. Default 12 (the report's table).
+  int num_widest = 12;
+  // Regions per row block, a positive multiple of 4 (blocks then start
+  // where the matrix products' column panels do, so every entry is summed
+  // in the same order as in the full matrices); memory is about
+  // 4 x block x regions doubles per thread. The results do not depend on
+  // it. Default 128.
+  int block_rows = 128;
+  // Threads over the blocks, >= 0; 0 = OpenMP's default. Default 0.
+  int num_threads = 0;
+  // Returns false (and says why in `error`) when a field is out of range.
+  bool IsValid(std::string* error) const;
+};
+
+// Computes the spread summary of AllPairsWeighted(price, expenditure)
+// without forming its region x region matrices: the sums behind Laspeyres
+// and Paasche are formed for a block of rows (and the transposed block) at a
+// time, reduced and dropped. Time grows as regions^2 x columns, memory as
+// block_rows x regions (plus pair_spreads when kept). Runs over blocks in
+// parallel when called outside a parallel region; the result does not
+// depend on the thread count. Entries equal those of the full matrices
+// (tested: BilateralMatrix.SpreadSummaryEqualsFullMatrices).
+SpreadSummary AllPairsSpreads(const Eigen::MatrixXd& price, const Eigen::MatrixXd& expenditure,
+                              const SpreadOptions& options = SpreadOptions());
 
 }  // namespace paritas
 

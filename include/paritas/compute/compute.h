@@ -25,8 +25,18 @@ struct ComputeOptions {
   // Worker threads for headings; 0 = all cores.
   int num_threads = 0;
   // Aggregate nodes whose bilateral matrices are kept in the result (for
-  // bilateral tables and spreads); the root's are always kept.
+  // bilateral tables and spreads); the root's too unless
+  // keep_root_bilaterals is false.
   std::vector<int> keep_bilaterals;
+  // Keeps the root's full bilateral matrices. When false (and the root is
+  // not in keep_bilaterals) the root computes only what its method needs and
+  // ParityResult::root_spreads holds the spread summaries instead, computed
+  // by row blocks (AllPairsSpreads): no region x region matrix beyond the
+  // method's own. Default true.
+  bool keep_root_bilaterals = true;
+  // With keep_root_bilaterals false: keep every pair's spread (the report's
+  // cards and histogram; SpreadOptions::keep_pair_spreads). Default true.
+  bool keep_pair_spreads = true;
   // Rules for regions that spend on a heading without a parity there
   // (compute/imputation.h); default: leave every one missing.
   MissingParitiesSettings missing_parities;
@@ -81,6 +91,9 @@ struct ParityResult {
   // Bilateral matrices per node: filled for the root and the nodes in
   // ComputeOptions::keep_bilaterals that are aggregates, empty otherwise.
   std::vector<BilateralMatrices> bilaterals;
+  // The root's spread summaries when its matrices were not kept
+  // (ComputeOptions::keep_root_bilaterals false); empty otherwise.
+  SpreadSummary root_spreads;
   // Where each heading parity came from, regions x headings (ParitySource
   // as int): priced, external (file), imputed (rule) or none.
   Eigen::MatrixXi heading_source;

@@ -100,14 +100,7 @@ std::string RepresentativityCsv(const Survey& survey, const ParityResult& result
 std::string RealByHeadingCsv(const Survey& survey, const ParityResult& result,
                              const AggregationMethod& method);
 
-// Paasche-Laspeyres spread statistics of one region against all others, as
-// |ln(Laspeyres / Paasche)| (shown x100 as "P-L spread, %" on the terminal
-// and in the report).
-struct RegionSpread {
-  double median = 0.0;
-  double max = 0.0;
-  int worst_partner = -1;
-};
+// RegionSpread (bilateral_matrix.h) of every region from the full matrices.
 std::vector<RegionSpread> RegionSpreads(const BilateralMatrices& bilaterals);
 
 // The terminal table of the root node: regions sorted dearest first (with
