@@ -15,6 +15,7 @@
 #include <limits>
 
 #include "base/eigen_threads.h"
+#include "base/median.h"
 #include "base/not_a_number.h"
 
 namespace paritas {
@@ -330,12 +331,7 @@ RegionSpread SummariseRow(std::vector<double>* values, double largest, int partn
   }
   out.max = largest;
   out.worst_partner = partner;
-  const size_t mid = values->size() / 2;
-  std::nth_element(values->begin(), values->begin() + mid, values->end());
-  out.median = (*values)[mid];
-  if (values->size() % 2 == 0) {
-    out.median = 0.5 * (out.median + *std::max_element(values->begin(), values->begin() + mid));
-  }
+  out.median = MedianInPlace(values);
   return out;
 }
 

@@ -17,6 +17,7 @@
 #include "paritas/aggregation/aggregation.h"
 #include "paritas/base/csv.h"
 #include "paritas/base/text.h"
+#include "base/median.h"
 #include "base/sha256.h"
 
 namespace paritas {
@@ -368,12 +369,7 @@ RegionSpread RowSpread(const Eigen::MatrixXd& spread, int a, std::vector<double>
     out.max = std::nan("");
     return out;
   }
-  const size_t mid = values->size() / 2;
-  std::nth_element(values->begin(), values->begin() + mid, values->end());
-  out.median = (*values)[mid];
-  if (values->size() % 2 == 0) {
-    out.median = 0.5 * (out.median + *std::max_element(values->begin(), values->begin() + mid));
-  }
+  out.median = MedianInPlace(values);
   return out;
 }
 
