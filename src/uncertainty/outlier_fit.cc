@@ -178,22 +178,27 @@ double RobustScale(const Eigen::VectorXd& residual, const Eigen::VectorXd& weigh
                    const Eigen::VectorXd& leverage, const std::vector<CellLink>& link,
                    ScaleScratch* scratch, int* num_cells) {
   std::vector<uint64_t>& standardised = scratch->terms;
-  standardised.clear();
-  standardised.reserve(residual.size());
-  double sum = 0.0;  // for the fallback below, in cell order
+  standardised.resize(residual.size());
+  uint64_t* out = standardised.data();
+  size_t n = 0;
   for (int64_t k = 0; k < residual.size(); ++k) {
     const double hat = weight[k] * leverage[k];
     if (link[k] != CellLink::kNone || !(hat < 1.0 - kHatOne)) continue;
-    const double v = std::abs(residual[k]) / std::sqrt(1.0 - hat);
-    standardised.push_back(std::bit_cast<uint64_t>(v));
-    sum += v * v;
+    out[n++] = std::bit_cast<uint64_t>(std::abs(residual[k]) / std::sqrt(1.0 - hat));
   }
-  *num_cells = static_cast<int>(standardised.size());
+  standardised.resize(n);
+  *num_cells = static_cast<int>(n);
   if (*num_cells < kMinScaleCells) return kNaN;
   const double scale = kMadToSigma * MedianOfNonNegative(standardised, scratch);
   if (scale > 0.0) return scale;
   // More than half the cells fit exactly (identical prices, e.g. a national
-  // tariff): the root mean square still measures the few that do not.
+  // tariff): the root mean square still measures the few that do not
+  // (summed in cell order).
+  double sum = 0.0;
+  for (uint64_t bits : standardised) {
+    const double v = std::bit_cast<double>(bits);
+    sum += v * v;
+  }
   return std::sqrt(sum / *num_cells);
 }
 
@@ -246,16 +251,33 @@ bool SolveBlocks(int num_regions, int num_items, std::span<const int> region, st
   ws->d_b.setZero(num_b);
   ws->r_a.setZero(m);
   ws->r_b.setZero(num_b);
+  // The sums of side A run in registers while its index stays the same (a
+  // heading's cells come by item, and the items are side A when fewer than
+  // the regions): the same additions in the same order as through memory,
+  // without each waiting on the store of the one before.
+  int run_a = num_cells > 0 ? a_of[0] : 0;
+  double d_a = 0.0, r_a = 0.0;
   for (int64_t k = 0; k < num_cells; ++k) {
     const int a = a_of[k], b = b_of[k];
+    if (a != run_a) {
+      ws->d_a[run_a] = d_a;
+      ws->r_a[run_a] = r_a;
+      run_a = a;
+      d_a = ws->d_a[a];
+      r_a = ws->r_a[a];
+    }
     const double w = weight[k];
     c(a, b) += w;
-    ws->d_a[a] += w;
+    d_a += w;
     ws->d_b[b] += w;
     if (fit) {
-      ws->r_a[a] += w * log_price[k];
+      r_a += w * log_price[k];
       ws->r_b[b] += w * log_price[k];
     }
+  }
+  if (num_cells > 0) {
+    ws->d_a[run_a] = d_a;
+    ws->r_a[run_a] = r_a;
   }
   const Eigen::VectorXd& inverse_d_b = ws->inverse_d_b = ws->d_b.cwiseInverse();
   // Lower triangle of S + 11'/m, as one symmetric rank update.
