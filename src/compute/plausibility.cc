@@ -268,26 +268,40 @@ class Checker {
 
   void CheckLevels() {
     const auto& nodes = survey_.classification.nodes();
-    for (int h = 0; h < survey_.num_headings(); ++h) {
+    // ln parity and spending of each heading, one column per region, each
+    // logarithm taken once (NaN where the parity is missing or not positive).
+    const int num_headings = survey_.num_headings(), num_regions = survey_.num_regions();
+    Eigen::MatrixXd log_parity(num_headings, num_regions), spending(num_headings, num_regions);
+    for (int h = 0; h < num_headings; ++h) {
+      for (int r = 0; r < num_regions; ++r) {
+        const double p = HeadingParity(h, r);
+        log_parity(h, r) = std::isfinite(p) && p > 0 ? std::log(p) : std::nan("");
+        spending(h, r) = Spending(r, h);
+      }
+    }
+    for (int h = 0; h < num_headings; ++h) {
       const int parent = nodes[HeadingNode(h)].parent;
       if (parent < 0 || nodes[parent].headings.size() < 2) continue;
-      for (int r = 0; r < survey_.num_regions(); ++r) CheckLevel(h, parent, r);
+      for (int r = 0; r < num_regions; ++r) {
+        CheckLevel(h, parent, r, log_parity.col(r).data(), spending.col(r).data());
+      }
     }
   }
 
   // The region's level in the parent's other headings: their parities'
   // geometric mean weighted by its spending (plain when it has none).
-  void CheckLevel(int h, int parent, int r) {
+  // `log_parity` and `spending` are the region's, per heading.
+  void CheckLevel(int h, int parent, int r, const double* log_parity, const double* spending) {
     const double parity = HeadingParity(h, r);
     if (!std::isfinite(parity)) return;
     double sum_w = 0.0, sum_wlog = 0.0, sum_log = 0.0;
     int count = 0;
     for (int other : survey_.classification.nodes()[parent].headings) {
-      const double p = HeadingParity(other, r);
-      if (other == h || !std::isfinite(p) || !(p > 0)) continue;
-      sum_w += Spending(r, other);
-      sum_wlog += Spending(r, other) * std::log(p);
-      sum_log += std::log(p);
+      const double log_p = log_parity[other];
+      if (other == h || std::isnan(log_p)) continue;
+      sum_w += spending[other];
+      sum_wlog += spending[other] * log_p;
+      sum_log += log_p;
       ++count;
     }
     if (count == 0) return;

@@ -2,8 +2,12 @@
 // the number of quotes, and a stable order that is the same on every run.
 #include "survey/cell_prices.h"
 
+#include <sys/mman.h>
+
 #include <algorithm>
+#include <bit>
 #include <cmath>
+#include <memory>
 #include <numeric>
 
 #include "paritas/elementary/cpd.h"
@@ -46,147 +50,236 @@ void AddQuote(const QuoteArrays& quotes, size_t q, CellMoments* moments) {
   }
 }
 
-// The cells of quotes already grouped by key (item-major, then region):
-// key k holds value[start[k] .. start[k + 1]), thread t takes the keys
-// [key_begin[t], key_begin[t + 1]) and writes its cells after those of the
-// threads before it, so the order does not depend on the thread count. `flag`
-// and `weight` are empty when the quotes have none.
-void WriteCells(const std::vector<uint32_t>& start, const std::vector<int64_t>& key_begin,
-                int threads, int num_regions, const std::vector<double>& value,
-                const std::vector<uint8_t>& flag, const std::vector<double>& weight,
-                CellPrices* cells) {
-  const bool flagged = !flag.empty();
-  const bool weighted = !weight.empty();
-  // Cells per key range, to know where each thread writes.
-  std::vector<int64_t> cell_begin(threads + 1, 0);
-#pragma omp parallel for schedule(static, 1) num_threads(threads)
-  for (int t = 0; t < threads; ++t) {
-    int64_t num_cells = 0;
-    for (int64_t k = key_begin[t]; k < key_begin[t + 1]; ++k) num_cells += start[k + 1] > start[k];
-    cell_begin[t + 1] = num_cells;
-  }
-  for (int t = 0; t < threads; ++t) cell_begin[t + 1] += cell_begin[t];
-  const size_t num_cells = static_cast<size_t>(cell_begin[threads]);
-  cells->region.resize(num_cells);
-  cells->item.resize(num_cells);
-  cells->log_price.resize(num_cells);
-  cells->log_sd.resize(num_cells);
-  cells->log_min.resize(num_cells);
-  cells->log_max.resize(num_cells);
-  cells->num_quotes.resize(num_cells);
-  cells->representative.resize(num_cells);
-  if (weighted) cells->weight.resize(num_cells);
-#pragma omp parallel for schedule(static, 1) num_threads(threads)
-  for (int t = 0; t < threads; ++t) {
-    int64_t c = cell_begin[t];
-    for (int64_t k = key_begin[t]; k < key_begin[t + 1]; ++k) {
-      if (start[k + 1] == start[k]) continue;
-      CellMoments moments;
-      for (uint32_t at = start[k]; at < start[k + 1]; ++at) {
-        if (weighted) {
-          moments.AddWeighted(value[at], flagged && flag[at] != 0, weight[at]);
-        } else {
-          moments.Add(value[at], flagged && flag[at] != 0);
-        }
-      }
-      cells->region[c] = static_cast<int32_t>(k % num_regions);
-      cells->item[c] = static_cast<int32_t>(k / num_regions);
-      cells->log_price[c] = moments.mean;
-      cells->log_sd[c] = moments.LogSd(weighted);
-      if (weighted) cells->weight[c] = moments.sum_weight;
-      cells->log_min[c] = moments.min;
-      cells->log_max[c] = moments.max;
-      cells->num_quotes[c] = moments.num_quotes;
-      cells->representative[c] = moments.representative;
-      ++c;
+// Asks the kernel to back [data, data + bytes) with huge pages where it
+// spans whole ones (fewer first-touch faults and TLB misses on the large
+// arrays written here in scattered order); a hint, without effect on results.
+void AdviseHugePages(const void* data, size_t bytes) {
+  constexpr uintptr_t kHuge = uintptr_t{2} << 20;
+  const uintptr_t begin = (reinterpret_cast<uintptr_t>(data) + kHuge - 1) & ~(kHuge - 1);
+  const uintptr_t end = (reinterpret_cast<uintptr_t>(data) + bytes) & ~(kHuge - 1);
+  if (end > begin) madvise(reinterpret_cast<void*>(begin), end - begin, MADV_HUGEPAGE);
+}
+
+// Allocates n elements without initialising them, advised as huge pages.
+template <typename T>
+std::unique_ptr<T[]> UninitialisedArray(int64_t n) {
+  std::unique_ptr<T[]> array(new T[n]);
+  AdviseHugePages(array.get(), n * sizeof(T));
+  return array;
+}
+
+// Resizes `v` to n value-initialised elements, advised as huge pages first.
+template <typename T>
+void ResizeAdvised(int64_t n, std::vector<T>* v) {
+  v->reserve(n);
+  AdviseHugePages(v->data(), n * sizeof(T));
+  v->resize(n);
+}
+
+// Calls fn(k) for each set bit k of `bits` in [begin, end), in order.
+template <typename Fn>
+void ForEachSetBit(const uint64_t* bits, int64_t begin, int64_t end, Fn fn) {
+  if (begin >= end) return;
+  const int64_t last_word = (end - 1) >> 6;
+  for (int64_t w = begin >> 6; w <= last_word; ++w) {
+    uint64_t word = bits[w];
+    if (w == begin >> 6) word &= ~uint64_t{0} << (begin & 63);
+    if (w == last_word && (end & 63) != 0) word &= ~(~uint64_t{0} << (end & 63));
+    while (word != 0) {
+      fn((w << 6) + std::countr_zero(word));
+      word &= word - 1;
     }
   }
 }
 
-// One counting sort on the dense cell key item x R + region: the quotes'
-// values are scattered straight into key order, so the cells are then read
-// off sequentially. Used when the key range is small enough to count.
-// Each thread counts and scatters its own contiguous range of quotes, with
-// its own offsets: within a key, thread t's quotes land after those of the
-// threads before it, so every cell sees its quotes in file order whatever
-// the number of threads, and no thread scans the quotes of another.
+// Set bits of `bits` before bit k, given word_rank[w] = set bits before word w.
+int64_t BitsBefore(const uint64_t* bits, const std::vector<int64_t>& word_rank, int64_t k) {
+  const uint64_t below = (k & 63) == 0 ? 0 : bits[k >> 6] & ~(~uint64_t{0} << (k & 63));
+  return word_rank[k >> 6] + std::popcount(below);
+}
+
+// The quotes of each item, in file order: region, ln price, flag, weight.
+struct ItemBuckets {
+  std::vector<int64_t> start;  // item i holds [start[i], start[i + 1])
+  std::unique_ptr<int32_t[]> region;
+  std::unique_ptr<double[]> value;
+  std::unique_ptr<uint8_t[]> flag;     // null without flags
+  std::unique_ptr<double[]> weight;    // null without weights
+};
+
+// Scratch of one thread for the cells of one item at a time: per region a
+// count, then where its next quote goes (all 0 between items).
+struct ItemScratch {
+  std::vector<int64_t> slot;
+  std::vector<int64_t> first;  // the item's cells' first quote (+ end)
+  std::vector<int32_t> region;
+  std::vector<double> value, weight;
+  std::vector<uint8_t> flag;
+};
+
+// Writes the cells of item `i` from its bucket to cells [c, ...): a stable
+// counting sort by region within the item (its quotes stay in file order),
+// then each cell's moments.
+void WriteItemCells(const ItemBuckets& buckets, const uint64_t* bits, int num_regions, int32_t i,
+                    int64_t c, ItemScratch* scratch, CellPrices* cells) {
+  const int64_t begin = buckets.start[i], end = buckets.start[i + 1];
+  if (begin == end) return;
+  const bool flagged = buckets.flag != nullptr, weighted = buckets.weight != nullptr;
+  int64_t* slot = scratch->slot.data();
+  for (int64_t a = begin; a < end; ++a) ++slot[buckets.region[a]];
+  scratch->region.clear();
+  scratch->first.clear();
+  int64_t running = 0;
+  const int64_t key0 = static_cast<int64_t>(i) * num_regions;
+  ForEachSetBit(bits, key0, key0 + num_regions, [&](int64_t key) {
+    const int32_t r = static_cast<int32_t>(key - key0);
+    scratch->region.push_back(r);
+    scratch->first.push_back(running);
+    running += slot[r];
+    slot[r] = scratch->first.back();
+  });
+  scratch->first.push_back(running);
+  const size_t n = static_cast<size_t>(end - begin);
+  if (scratch->value.size() < n) {
+    scratch->value.resize(n);
+    if (flagged) scratch->flag.resize(n);
+    if (weighted) scratch->weight.resize(n);
+  }
+  for (int64_t a = begin; a < end; ++a) {
+    const int64_t at = slot[buckets.region[a]]++;
+    scratch->value[at] = buckets.value[a];
+    if (flagged) scratch->flag[at] = buckets.flag[a];
+    if (weighted) scratch->weight[at] = buckets.weight[a];
+  }
+  for (size_t j = 0; j < scratch->region.size(); ++j, ++c) {
+    CellMoments moments;
+    for (int64_t at = scratch->first[j]; at < scratch->first[j + 1]; ++at) {
+      if (weighted) {
+        moments.AddWeighted(scratch->value[at], flagged && scratch->flag[at] != 0,
+                            scratch->weight[at]);
+      } else {
+        moments.Add(scratch->value[at], flagged && scratch->flag[at] != 0);
+      }
+    }
+    const int32_t r = scratch->region[j];
+    slot[r] = 0;
+    cells->region[c] = r;
+    cells->item[c] = i;
+    cells->log_price[c] = moments.mean;
+    cells->log_sd[c] = moments.LogSd(weighted);
+    if (weighted) cells->weight[c] = moments.sum_weight;
+    cells->log_min[c] = moments.min;
+    cells->log_max[c] = moments.max;
+    cells->num_quotes[c] = moments.num_quotes;
+    cells->representative[c] = moments.representative;
+  }
+}
+
+// Cells by the dense key item x R + region, in two cache-friendly steps
+// instead of one counting sort over all keys: the quotes are first put
+// into one bucket per item (each thread counts and scatters its own
+// contiguous range of quotes, so within an item thread t's quotes follow
+// those of the threads before it: file order whatever the thread count),
+// and each item's few quotes are then sorted by region in a small scratch.
+// A bit per key, set while counting, says which cells exist, so every
+// item knows where its cells go before any is written.
 void CellsByDenseKey(const QuoteArrays& quotes, int num_regions, int num_items, int num_threads,
                      CellPrices* cells) {
   const int64_t n = static_cast<int64_t>(quotes.size());
   const int64_t num_keys = static_cast<int64_t>(num_regions) * num_items;
+  const int64_t num_words = (num_keys + 63) / 64;
   const int32_t* quote_region = quotes.region.data();
   const int32_t* quote_item = quotes.item.data();
-  auto key_of = [&](int64_t q) {
-    return static_cast<int64_t>(quote_item[q]) * num_regions + quote_region[q];
-  };
-  // A thread's count array costs more to clear and combine than its share
-  // of the counting saves on a small survey.
+  // Splitting the counts costs more than it saves on a small survey.
   const int threads = n < (int64_t{1} << 20) ? 1 : std::max(1, num_threads);
-  std::vector<int64_t> quote_begin(threads + 1), key_begin(threads + 1);
-  for (int t = 0; t <= threads; ++t) {
-    quote_begin[t] = n * t / threads;
-    key_begin[t] = num_keys * t / threads;
-  }
-  // offset[t][k]: quotes of key k in thread t's range, then where the next
-  // of them goes. Each array is first touched by the thread that fills it.
-  std::vector<std::vector<uint32_t>> offset(threads);
+  std::vector<int64_t> quote_begin(threads + 1);
+  for (int t = 0; t <= threads; ++t) quote_begin[t] = n * t / threads;
+  // count[t][i]: quotes of item i in thread t's range, then where the next
+  // of them goes; bits[t]: the keys seen in that range.
+  std::vector<std::vector<int64_t>> count(threads);
+  std::vector<std::vector<uint64_t>> bits(threads);
 #pragma omp parallel for schedule(static, 1) num_threads(threads)
   for (int t = 0; t < threads; ++t) {
-    offset[t].assign(num_keys, 0);
-    uint32_t* count = offset[t].data();
-    for (int64_t q = quote_begin[t]; q < quote_begin[t + 1]; ++q) ++count[key_of(q)];
-  }
-  // Exclusive prefix sums in key-major, thread-minor order, in two passes
-  // over key ranges: the quotes of each range, then the offsets within it.
-  std::vector<uint32_t> start(num_keys + 1, 0);
-  std::vector<uint64_t> range_quotes(threads + 1, 0);
-#pragma omp parallel for schedule(static, 1) num_threads(threads)
-  for (int r = 0; r < threads; ++r) {
-    uint64_t total = 0;
-    for (int64_t k = key_begin[r]; k < key_begin[r + 1]; ++k) {
-      for (int t = 0; t < threads; ++t) total += offset[t][k];
-    }
-    range_quotes[r + 1] = total;
-  }
-  for (int r = 0; r < threads; ++r) range_quotes[r + 1] += range_quotes[r];
-#pragma omp parallel for schedule(static, 1) num_threads(threads)
-  for (int r = 0; r < threads; ++r) {
-    uint32_t running = static_cast<uint32_t>(range_quotes[r]);
-    for (int64_t k = key_begin[r]; k < key_begin[r + 1]; ++k) {
-      start[k] = running;
-      for (int t = 0; t < threads; ++t) {
-        const uint32_t count = offset[t][k];
-        offset[t][k] = running;
-        running += count;
-      }
+    count[t].assign(num_items, 0);
+    bits[t].assign(num_words, 0);
+    int64_t* item_count = count[t].data();
+    uint64_t* seen = bits[t].data();
+    for (int64_t q = quote_begin[t]; q < quote_begin[t + 1]; ++q) {
+      const int32_t item = quote_item[q];
+      const int64_t key = static_cast<int64_t>(item) * num_regions + quote_region[q];
+      ++item_count[item];
+      seen[key >> 6] |= uint64_t{1} << (key & 63);
     }
   }
-  start[num_keys] = static_cast<uint32_t>(n);
-  // Key ranges for the moments, split by quotes.
-  if (threads > 1) {
-    for (int t = 1; t < threads; ++t) {
-      const uint32_t target = static_cast<uint32_t>(static_cast<uint64_t>(n) * t / threads);
-      key_begin[t] = std::lower_bound(start.begin(), start.end() - 1, target) - start.begin();
-      key_begin[t] = std::max(key_begin[t], key_begin[t - 1]);
+  ItemBuckets buckets;
+  buckets.start.assign(num_items + 1, 0);
+  int64_t running = 0;
+  for (int32_t i = 0; i < num_items; ++i) {
+    buckets.start[i] = running;
+    for (int t = 0; t < threads; ++t) {
+      const int64_t quotes_here = count[t][i];
+      count[t][i] = running;
+      running += quotes_here;
     }
   }
+  buckets.start[num_items] = running;
+  // All keys seen, and the cells before each word.
+  uint64_t* seen = bits[0].data();
+  for (int t = 1; t < threads; ++t) {
+    for (int64_t w = 0; w < num_words; ++w) seen[w] |= bits[t][w];
+  }
+  std::vector<int64_t> word_rank(num_words + 1, 0);
+  for (int64_t w = 0; w < num_words; ++w) word_rank[w + 1] = word_rank[w] + std::popcount(seen[w]);
   const bool flagged = !quotes.representative.empty();
   const bool weighted = !quotes.weight.empty();
-  std::vector<double> value(n);
-  std::vector<uint8_t> flag(flagged ? n : 0);
-  std::vector<double> weight(weighted ? n : 0);
+  // Not value-initialised: every element is written by the scatter below.
+  buckets.region = UninitialisedArray<int32_t>(n);
+  buckets.value = UninitialisedArray<double>(n);
+  if (flagged) buckets.flag = UninitialisedArray<uint8_t>(n);
+  if (weighted) buckets.weight = UninitialisedArray<double>(n);
 #pragma omp parallel for schedule(static, 1) num_threads(threads)
   for (int t = 0; t < threads; ++t) {
-    uint32_t* next = offset[t].data();
+    int64_t* next = count[t].data();
     for (int64_t q = quote_begin[t]; q < quote_begin[t + 1]; ++q) {
-      const uint32_t at = next[key_of(q)]++;
-      value[at] = quotes.log_price[q];
-      if (flagged) flag[at] = quotes.representative[q];
-      if (weighted) weight[at] = quotes.weight[q];
+      const int64_t at = next[quote_item[q]]++;
+      buckets.region[at] = quote_region[q];
+      buckets.value[at] = quotes.log_price[q];
+      if (flagged) buckets.flag[at] = quotes.representative[q];
+      if (weighted) buckets.weight[at] = quotes.weight[q];
     }
   }
-  offset = {};
-  WriteCells(start, key_begin, threads, num_regions, value, flag, weight, cells);
+  count = {};
+  const int64_t num_cells = word_rank[num_words];
+  ResizeAdvised(num_cells, &cells->region);
+  ResizeAdvised(num_cells, &cells->item);
+  ResizeAdvised(num_cells, &cells->log_price);
+  ResizeAdvised(num_cells, &cells->log_sd);
+  ResizeAdvised(num_cells, &cells->log_min);
+  ResizeAdvised(num_cells, &cells->log_max);
+  ResizeAdvised(num_cells, &cells->num_quotes);
+  ResizeAdvised(num_cells, &cells->representative);
+  if (weighted) ResizeAdvised(num_cells, &cells->weight);
+  // Item ranges of about equal quotes per thread.
+  std::vector<int32_t> item_begin(threads + 1, 0);
+  item_begin[threads] = num_items;
+  for (int t = 1; t < threads; ++t) {
+    const int64_t target = n * t / threads;
+    item_begin[t] = static_cast<int32_t>(
+        std::lower_bound(buckets.start.begin(), buckets.start.end() - 1, target) -
+        buckets.start.begin());
+    item_begin[t] = std::max(item_begin[t], item_begin[t - 1]);
+  }
+#pragma omp parallel for schedule(static, 1) num_threads(threads)
+  for (int t = 0; t < threads; ++t) {
+    ItemScratch scratch;
+    scratch.slot.assign(num_regions, 0);
+    scratch.region.reserve(num_regions);
+    scratch.first.reserve(num_regions + 1);
+    for (int32_t i = item_begin[t]; i < item_begin[t + 1]; ++i) {
+      const int64_t c = BitsBefore(seen, word_rank, static_cast<int64_t>(i) * num_regions);
+      WriteItemCells(buckets, seen, num_regions, i, c, &scratch, cells);
+    }
+  }
 }
 
 // Two stable counting sorts (by region, then by item) of quote positions,

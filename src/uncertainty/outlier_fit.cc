@@ -6,6 +6,7 @@
 
 #include <Eigen/Cholesky>
 #include <algorithm>
+#include <array>
 #include <bit>
 #include <cmath>
 #include <limits>
@@ -24,47 +25,87 @@ constexpr double kMadToSigma = 1.4826;
 // exact 1s are found on the graph.
 constexpr double kHatOne = 1e-9;
 
+// Digits of the radix selection below: 12 bits at a time from the top (the
+// exponent first), then the last 4.
+struct RadixDigit {
+  int shift, width;
+};
+constexpr RadixDigit kRadixDigits[] = {{52, 12}, {40, 12}, {28, 12}, {16, 12}, {4, 12}, {0, 4}};
+constexpr int kNumRadixDigits = static_cast<int>(std::size(kRadixDigits));
+constexpr int kRadixBuckets = 1 << 12;
+
+int RadixDigitOf(uint64_t x, int level) {
+  const RadixDigit& d = kRadixDigits[level];
+  return static_cast<int>((x >> d.shift) & ((uint64_t{1} << d.width) - 1));
+}
+
+// Counts `values` per digit of `level` into count[0 .. kRadixBuckets). Four
+// tallies take turns, so that values sharing a digit (most do, in the
+// exponent) do not wait on each other's increments.
+void CountRadixDigits(std::span<const uint64_t> values, int level, std::vector<uint32_t>* tallies,
+                      uint32_t* count) {
+  const size_t n = values.size();
+  const int ways = n >= 4 * kRadixBuckets ? 4 : 1;
+  tallies->assign(static_cast<size_t>(ways) * kRadixBuckets, 0u);
+  uint32_t* tally = tallies->data();
+  size_t k = 0;
+  if (ways == 4) {
+    for (; k + 4 <= n; k += 4) {
+      ++tally[RadixDigitOf(values[k], level)];
+      ++tally[kRadixBuckets + RadixDigitOf(values[k + 1], level)];
+      ++tally[2 * kRadixBuckets + RadixDigitOf(values[k + 2], level)];
+      ++tally[3 * kRadixBuckets + RadixDigitOf(values[k + 3], level)];
+    }
+  }
+  for (; k < n; ++k) ++tally[RadixDigitOf(values[k], level)];
+  for (int d = 0; d < kRadixBuckets; ++d) {
+    uint32_t sum = tally[d];
+    for (int w = 1; w < ways; ++w) sum += tally[w * kRadixBuckets + d];
+    count[d] = sum;
+  }
+}
+
 // Median of the non-negative finite numbers whose bit patterns are `bits`
-// (non-empty; `candidates` is workspace): the middle value, or the mean
-// of the two middle values for an even count, exactly as sorting gives it.
-// A non-negative double orders as its bit pattern, so the middle value is
-// found by radix selection, one byte at a time from the top: each pass
-// counts the candidates per byte value and keeps those in the byte bucket
-// holding the rank sought (no comparisons that depend on the data).
-double MedianOfNonNegative(const std::vector<uint64_t>& bits, std::vector<uint64_t>* candidates) {
+// (non-empty; `scratch` is workspace): the middle value, or the mean of the
+// two middle values for an even count, exactly as sorting gives it. A
+// non-negative double orders as its bit pattern, so the middle value is
+// found by radix selection: the candidates are counted per digit and those
+// in the digit bucket holding the rank sought are kept (a branch-free
+// compaction), digit by digit from the top; no comparison depends on the
+// data. For an even count, the value just below the middle is the middle's
+// bucket mate of one rank less or, when the middle is the lowest of its
+// bucket, the largest candidate of the buckets below it.
+double MedianOfNonNegative(const std::vector<uint64_t>& bits, ScaleScratch* scratch) {
   const size_t n = bits.size();
-  const size_t mid = n / 2;
-  size_t rank = mid;  // rank sought among the candidates left
+  size_t rank = n / 2;  // rank sought among the candidates left
+  bool find_lower = n % 2 == 0 && n > 1;
+  uint64_t lower = 0;
+  std::array<uint32_t, kRadixBuckets> count;
   std::span<const uint64_t> left(bits);
-  for (int shift = 56; shift >= 0 && left.size() > 1; shift -= 8) {
-    size_t count[256] = {};
-    for (uint64_t x : left) ++count[(x >> shift) & 255];
+  for (int level = 0; level < kNumRadixDigits && left.size() > 1; ++level) {
+    CountRadixDigits(left, level, &scratch->tallies, count.data());
     int digit = 0;
     while (rank >= count[digit]) rank -= count[digit++];
-    if (count[digit] == left.size()) continue;  // all share this byte
-    candidates->resize(left.size());  // never grows beyond n
-    uint64_t* out = candidates->data();
+    if (find_lower && rank == 0) {
+      // The value below is in the buckets below: their largest.
+      for (uint64_t x : left) lower = RadixDigitOf(x, level) < digit && x > lower ? x : lower;
+      find_lower = false;
+    }
+    if (count[digit] == left.size()) continue;  // all share this digit
+    scratch->candidates.resize(std::max(scratch->candidates.size(), left.size()));  // never beyond n
+    uint64_t* out = scratch->candidates.data();
     size_t kept = 0;
     for (uint64_t x : left) {
       out[kept] = x;
-      kept += ((x >> shift) & 255) == static_cast<uint64_t>(digit) ? 1 : 0;
+      kept += RadixDigitOf(x, level) == digit ? 1 : 0;
     }
     left = std::span<const uint64_t>(out, kept);
   }
-  const uint64_t middle = left[0];
-  const double upper = std::bit_cast<double>(middle);
+  // The candidates left all hold the middle value (or there is one).
+  const double upper = std::bit_cast<double>(left[0]);
   if (n % 2 == 1) return upper;
-  // The value just below the middle in sorted order: the middle value
-  // itself when it also fills rank mid - 1, else the largest value below it.
-  size_t below = 0;
-  uint64_t largest_below = 0;
-  for (uint64_t x : bits) {
-    const bool less = x < middle;
-    below += less ? 1 : 0;
-    largest_below = less && x > largest_below ? x : largest_below;
-  }
-  const double lower = below < mid ? upper : std::bit_cast<double>(largest_below);
-  return 0.5 * (upper + lower);
+  // Still to find: the middle value's mate of one rank less, equal to it.
+  return 0.5 * (upper + (find_lower ? upper : std::bit_cast<double>(lower)));
 }
 
 // Cells grouped by one index (counting sort): cells of group g are
@@ -137,22 +178,27 @@ double RobustScale(const Eigen::VectorXd& residual, const Eigen::VectorXd& weigh
                    const Eigen::VectorXd& leverage, const std::vector<CellLink>& link,
                    ScaleScratch* scratch, int* num_cells) {
   std::vector<uint64_t>& standardised = scratch->terms;
-  standardised.clear();
-  standardised.reserve(residual.size());
-  double sum = 0.0;  // for the fallback below, in cell order
+  standardised.resize(residual.size());
+  uint64_t* out = standardised.data();
+  size_t n = 0;
   for (int64_t k = 0; k < residual.size(); ++k) {
     const double hat = weight[k] * leverage[k];
     if (link[k] != CellLink::kNone || !(hat < 1.0 - kHatOne)) continue;
-    const double v = std::abs(residual[k]) / std::sqrt(1.0 - hat);
-    standardised.push_back(std::bit_cast<uint64_t>(v));
-    sum += v * v;
+    out[n++] = std::bit_cast<uint64_t>(std::abs(residual[k]) / std::sqrt(1.0 - hat));
   }
-  *num_cells = static_cast<int>(standardised.size());
+  standardised.resize(n);
+  *num_cells = static_cast<int>(n);
   if (*num_cells < kMinScaleCells) return kNaN;
-  const double scale = kMadToSigma * MedianOfNonNegative(standardised, &scratch->candidates);
+  const double scale = kMadToSigma * MedianOfNonNegative(standardised, scratch);
   if (scale > 0.0) return scale;
   // More than half the cells fit exactly (identical prices, e.g. a national
-  // tariff): the root mean square still measures the few that do not.
+  // tariff): the root mean square still measures the few that do not
+  // (summed in cell order).
+  double sum = 0.0;
+  for (uint64_t bits : standardised) {
+    const double v = std::bit_cast<double>(bits);
+    sum += v * v;
+  }
   return std::sqrt(sum / *num_cells);
 }
 
@@ -205,16 +251,33 @@ bool SolveBlocks(int num_regions, int num_items, std::span<const int> region, st
   ws->d_b.setZero(num_b);
   ws->r_a.setZero(m);
   ws->r_b.setZero(num_b);
+  // The sums of side A run in registers while its index stays the same (a
+  // heading's cells come by item, and the items are side A when fewer than
+  // the regions): the same additions in the same order as through memory,
+  // without each waiting on the store of the one before.
+  int run_a = num_cells > 0 ? a_of[0] : 0;
+  double d_a = 0.0, r_a = 0.0;
   for (int64_t k = 0; k < num_cells; ++k) {
     const int a = a_of[k], b = b_of[k];
+    if (a != run_a) {
+      ws->d_a[run_a] = d_a;
+      ws->r_a[run_a] = r_a;
+      run_a = a;
+      d_a = ws->d_a[a];
+      r_a = ws->r_a[a];
+    }
     const double w = weight[k];
     c(a, b) += w;
-    ws->d_a[a] += w;
+    d_a += w;
     ws->d_b[b] += w;
     if (fit) {
-      ws->r_a[a] += w * log_price[k];
+      r_a += w * log_price[k];
       ws->r_b[b] += w * log_price[k];
     }
+  }
+  if (num_cells > 0) {
+    ws->d_a[run_a] = d_a;
+    ws->r_a[run_a] = r_a;
   }
   const Eigen::VectorXd& inverse_d_b = ws->inverse_d_b = ws->d_b.cwiseInverse();
   // Lower triangle of S + 11'/m, as one symmetric rank update.

@@ -80,6 +80,7 @@ ScreenFit FitScreen(const CpdData& data, const OutlierOptions& options);
 struct ScaleScratch {  // reused between calls, contents overwritten
   std::vector<uint64_t> terms;       // bit patterns of the terms
   std::vector<uint64_t> candidates;  // of the median's selection
+  std::vector<uint32_t> tallies;     // the selection's digit counts
 };
 double RobustScale(const Eigen::VectorXd& residual, const Eigen::VectorXd& weight,
                    const Eigen::VectorXd& leverage, const std::vector<CellLink>& link,

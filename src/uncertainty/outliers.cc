@@ -9,6 +9,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <iterator>
 #include <limits>
 #include <string>
 #include <utility>
@@ -576,33 +577,36 @@ OutlierReport FindOutliers(const Survey& survey, const ParityResult& result,
   }
   const ScreenContext context = MakeContext(fits, levels, threads);
   std::vector<HeadingRows> rows(num_headings);
+  std::vector<std::vector<Dispersion>> dispersion(num_headings);
+  const int num_with_result = std::min(num_headings, static_cast<int>(result.headings.size()));
 #pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
   for (int h = 0; h < num_headings; ++h) {
     internal::KeepEigenOnThisThread();
     if (fits[h].identified) rows[h] = ScreenHeading(survey, h, fits[h], context, options);
+    // A heading whose parities came from the external file (num_cells 0 in
+    // the result) has no fit to measure its quotes' dispersion against.
+    if (h < num_with_result && result.headings[h].identified && result.headings[h].num_cells > 0 &&
+        survey.heading_range[h].num_cells() > 0) {
+      dispersion[h] = HeadingDispersion(survey, result.headings[h], rows[h].num_flagged_by_region);
+    }
   }
-  const int num_with_result = std::min(num_headings, static_cast<int>(result.headings.size()));
   for (int h = 0; h < num_headings; ++h) {
-    const HeadingRows& heading = rows[h];
+    HeadingRows& heading = rows[h];
     if (fits[h].identified) {
       report.residual_scale[h] = context.scale[h];
       report.num_iterations[h] = fits[h].num_iterations;
       report.converged[h] = fits[h].converged ? 1 : 0;
     }
     for (const Outlier& o : heading.flagged) report.num_flagged_cells[h] += o.kind == OutlierKind::kCell ? 1 : 0;
-    report.outliers.insert(report.outliers.end(), heading.flagged.begin(), heading.flagged.end());
-    report.not_screenable.insert(report.not_screenable.end(), heading.not_screenable.begin(),
-                                 heading.not_screenable.end());
     report.num_cells_by_fit += heading.num_by_fit;
     report.num_cells_leave_one_out += heading.num_leave_one_out;
     report.num_cells_not_screenable += static_cast<int64_t>(heading.not_screenable.size());
-    // A heading whose parities came from the external file (num_cells 0 in
-    // the result) has no fit to measure its quotes' dispersion against.
-    if (h < num_with_result && result.headings[h].identified && result.headings[h].num_cells > 0 &&
-        survey.heading_range[h].num_cells() > 0) {
-      const std::vector<Dispersion> d = HeadingDispersion(survey, result.headings[h], heading.num_flagged_by_region);
-      report.dispersion.insert(report.dispersion.end(), d.begin(), d.end());
-    }
+    report.outliers.insert(report.outliers.end(), std::make_move_iterator(heading.flagged.begin()),
+                           std::make_move_iterator(heading.flagged.end()));
+    report.not_screenable.insert(report.not_screenable.end(),
+                                 std::make_move_iterator(heading.not_screenable.begin()),
+                                 std::make_move_iterator(heading.not_screenable.end()));
+    report.dispersion.insert(report.dispersion.end(), dispersion[h].begin(), dispersion[h].end());
   }
   std::stable_sort(report.outliers.begin(), report.outliers.end(), [](const Outlier& a, const Outlier& b) {
     return std::abs(a.standardised_residual) > std::abs(b.standardised_residual);

@@ -6,6 +6,7 @@
 
 #include <sys/stat.h>
 
+#include <algorithm>
 #include <cmath>
 #include <cstdio>
 #include <filesystem>
@@ -14,6 +15,7 @@
 #include <thread>
 
 #include "base/sha256.h"
+#include "survey/cell_prices.h"
 #include "test_util.h"
 
 namespace paritas {
@@ -906,6 +908,118 @@ TEST(LoadSurvey, GivesTheSameCellsAndRejectionsForOneAndTwoThreads) {
   EXPECT_EQ(a.rejected_rows[0].reason, b.rejected_rows[0].reason);
   // The header, the rows, one quoted newline in rows 0, 7, 14, ..., then the bad row.
   EXPECT_EQ(a.rejected_rows[0].line, 1 + kNumLargeRows + (kNumLargeRows + 6) / 7 + 1);
+}
+
+// Quotes of `num_regions` x `num_items` possible cells in shuffled file
+// order: about 70 % of the cells priced, 1 to 3 quotes each, with flags and
+// quote weights; the last item and region get none.
+internal::QuoteArrays ShuffledQuotes(int num_regions, int num_items, uint64_t seed) {
+  std::mt19937_64 random(seed);
+  internal::QuoteArrays quotes;
+  for (int i = 0; i + 1 < num_items; ++i) {
+    for (int r = 0; r + 1 < num_regions; ++r) {
+      if (random() % 10 >= 7) continue;
+      for (int n = 1 + static_cast<int>(random() % 3); n > 0; --n) {
+        quotes.region.push_back(r);
+        quotes.item.push_back(i);
+        quotes.log_price.push_back(std::log(1.0 + static_cast<double>(random() % 100000) / 100.0));
+        quotes.representative.push_back(random() % 4 == 0 ? 1 : 0);
+        quotes.weight.push_back(0.5 + static_cast<double>(random() % 100) / 40.0);
+      }
+    }
+  }
+  std::vector<size_t> order(quotes.size());
+  for (size_t q = 0; q < order.size(); ++q) order[q] = q;
+  std::shuffle(order.begin(), order.end(), random);
+  internal::QuoteArrays shuffled;
+  for (size_t q : order) {
+    shuffled.region.push_back(quotes.region[q]);
+    shuffled.item.push_back(quotes.item[q]);
+    shuffled.log_price.push_back(quotes.log_price[q]);
+    shuffled.representative.push_back(quotes.representative[q]);
+    shuffled.weight.push_back(quotes.weight[q]);
+  }
+  return shuffled;
+}
+
+// The cells written out here: quotes grouped by (item, region), cells in
+// that order, each cell's moments by West's weighted update (D. H. D. West,
+// 1979, Comm. ACM 22(9), 532-535: W += w; mean += (w / W)(x - mean);
+// M2 += w (x - mean_old)(x - mean_new)) applied in file order, computed here.
+CellPrices CellsWrittenOut(const internal::QuoteArrays& quotes, int num_regions, int num_items) {
+  std::vector<std::vector<size_t>> by_key(static_cast<size_t>(num_regions) * num_items);
+  for (size_t q = 0; q < quotes.size(); ++q) {
+    by_key[static_cast<size_t>(quotes.item[q]) * num_regions + quotes.region[q]].push_back(q);
+  }
+  CellPrices cells;
+  for (size_t key = 0; key < by_key.size(); ++key) {
+    if (by_key[key].empty()) continue;
+    double sum_w = 0.0, sum_w2 = 0.0, mean = 0.0, m2 = 0.0;
+    double low = quotes.log_price[by_key[key][0]], high = low;
+    uint8_t flag = 0;
+    for (size_t q : by_key[key]) {
+      const double x = quotes.log_price[q], w = quotes.weight[q];
+      sum_w += w;
+      sum_w2 += w * w;
+      const double delta = x - mean;
+      mean += delta * (w / sum_w);
+      m2 += w * delta * (x - mean);
+      low = std::min(low, x);
+      high = std::max(high, x);
+      flag |= quotes.representative[q];
+    }
+    const size_t n = by_key[key].size();
+    cells.region.push_back(static_cast<int32_t>(key % num_regions));
+    cells.item.push_back(static_cast<int32_t>(key / num_regions));
+    cells.log_price.push_back(mean);
+    cells.log_sd.push_back(n < 2 ? 0.0 : std::sqrt(std::max(m2, 0.0) / (sum_w - sum_w2 / sum_w)));
+    cells.log_min.push_back(low);
+    cells.log_max.push_back(high);
+    cells.num_quotes.push_back(static_cast<int32_t>(n));
+    cells.representative.push_back(flag);
+    cells.weight.push_back(sum_w);
+  }
+  return cells;
+}
+
+void ExpectSameCellArrays(const CellPrices& got, const CellPrices& want) {
+  EXPECT_EQ(got.region, want.region);
+  EXPECT_EQ(got.item, want.item);
+  EXPECT_EQ(got.num_quotes, want.num_quotes);
+  EXPECT_EQ(got.representative, want.representative);
+  // The same additions in the same order: equal to the last bit.
+  EXPECT_EQ(got.log_price, want.log_price);
+  EXPECT_EQ(got.log_sd, want.log_sd);
+  EXPECT_EQ(got.log_min, want.log_min);
+  EXPECT_EQ(got.log_max, want.log_max);
+  EXPECT_EQ(got.weight, want.weight);
+}
+
+TEST(CellsFromQuotes, AccumulatesEachCellsQuotesInFileOrderForOneAndTwoThreads) {
+  // Over 2^20 quotes, so that two threads split the counting.
+  const int num_regions = 400, num_items = 2000;
+  const internal::QuoteArrays quotes = ShuffledQuotes(num_regions, num_items, 11);
+  ASSERT_GT(quotes.size(), size_t{1} << 20);
+  const CellPrices want = CellsWrittenOut(quotes, num_regions, num_items);
+  for (int threads : {1, 2}) {
+    SCOPED_TRACE(threads);
+    CellPrices got;
+    internal::CellsFromQuotes(quotes, num_regions, num_items, threads, &got);
+    ExpectSameCellArrays(got, want);
+  }
+}
+
+TEST(CellsFromQuotes, AccumulatesInFileOrderWhenTheCellKeysAreTooManyToCount) {
+  // 12 million possible cells for about 8,000 quotes: the sorted-positions path.
+  const int num_regions = 3000, num_items = 4000;
+  internal::QuoteArrays quotes = ShuffledQuotes(60, 80, 12);
+  for (size_t q = 0; q < quotes.size(); ++q) {
+    quotes.region[q] = quotes.region[q] * 50 + 7;
+    quotes.item[q] = quotes.item[q] * 50 + 3;
+  }
+  CellPrices got;
+  internal::CellsFromQuotes(quotes, num_regions, num_items, 2, &got);
+  ExpectSameCellArrays(got, CellsWrittenOut(quotes, num_regions, num_items));
 }
 
 TEST(LoadSurvey, ReportsTheFirstHeadingConflictInFileOrderAcrossChunks) {

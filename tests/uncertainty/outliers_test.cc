@@ -2,7 +2,11 @@
 #include "paritas/uncertainty/outliers.h"
 
 #include <Eigen/Dense>
+#include <algorithm>
 #include <cmath>
+#include <random>
+#include <string>
+#include <vector>
 
 #include "paritas/base/csv.h"
 #include "paritas/survey/config.h"
@@ -410,6 +414,49 @@ TEST(ScreenFit, RobustScaleReestimationConvergesToTheHandComputedFixedPoint) {
   const internal::ScreenFit plain = internal::FitScreen(data, WithFit(OutlierFit::kLeastSquares));
   PARITAS_EXPECT_CLOSE(plain.log_parity[0] - plain.log_parity[1], 2.0 / 6.0, 1e-12);
   EXPECT_EQ(plain.num_iterations, 0);
+}
+
+// The scale is 1.4826 x the median of |e| / sqrt(1 - w q) over the cells
+// that carry residual information, the median as sorting gives it (computed
+// here with std::sort); more than half exact fits give the root mean square
+// of those terms instead. Term counts above and below the selection's
+// four-tally threshold (16,384), odd and even, with many terms sharing their
+// exponent, tied values, exact zeros and cells left out (a link, w q = 1).
+TEST(ScreenFit, RobustScaleIsTheSortedMedianOfTheStandardisedResiduals) {
+  std::mt19937_64 random(5);
+  for (int n : {9, 10, 2001, 2002, 40001, 40002}) {
+    for (int kind = 0; kind < 3; ++kind) {
+      SCOPED_TRACE(std::to_string(n) + " cells, kind " + std::to_string(kind));
+      Eigen::VectorXd residual(n), weight(n), leverage(n);
+      std::vector<internal::CellLink> link(n, internal::CellLink::kNone);
+      std::vector<double> terms;
+      for (int k = 0; k < n; ++k) {
+        const double e = kind == 0   ? 0.01 * std::ldexp(1.0 + static_cast<double>(random() % 1000) / 1000.0,
+                                                         -static_cast<int>(random() % 3))
+                         : kind == 1 ? static_cast<double>(random() % 7) * 0.125
+                                     : (random() % 3 == 0 ? 0.02 : 0.0);
+        residual[k] = random() % 2 == 0 ? e : -e;
+        weight[k] = k % 5 == 0 ? 0.5 : 1.0;
+        leverage[k] = k % 11 == 0 ? 2.0 : 0.3;  // w q = 1 for k = 0, 55, ...
+        if (k % 13 == 1) link[k] = internal::CellLink::kCutsHeading;
+        const double hat = weight[k] * leverage[k];
+        if (link[k] == internal::CellLink::kNone && hat < 1.0 - 1e-9) {
+          terms.push_back(std::abs(residual[k]) / std::sqrt(1.0 - hat));
+        }
+      }
+      std::vector<double> sorted = terms;
+      std::sort(sorted.begin(), sorted.end());
+      const size_t m = sorted.size();
+      const double median = m % 2 == 1 ? sorted[m / 2] : 0.5 * (sorted[m / 2 - 1] + sorted[m / 2]);
+      double sum = 0.0;
+      for (double v : terms) sum += v * v;
+      const double want = median > 0.0 ? 1.4826 * median : std::sqrt(sum / static_cast<double>(m));
+      internal::ScaleScratch scratch;
+      int num_cells = 0;
+      EXPECT_EQ(internal::RobustScale(residual, weight, leverage, link, &scratch, &num_cells), want);
+      EXPECT_EQ(num_cells, static_cast<int>(m));
+    }
+  }
 }
 
 // x'(X'WX)^+ x by the block formula against a dense pseudo-inverse.
