@@ -4,6 +4,7 @@
 #include "paritas/aggregation/aggregation.h"
 
 #include <cmath>
+#include <utility>
 
 namespace paritas {
 
@@ -17,6 +18,22 @@ AggregateParities GeksOverIndex(const Eigen::MatrixXd& index) {
   out.log_parity = geks.log_parity;
   out.identified = geks.identified;
   out.groups = geks.groups;
+  out.complete = geks.complete;
+  out.rms_log_residual = geks.rms_log_residual;
+  return out;
+}
+
+AggregateParities GeksFisher(const NodeArrays& arrays, const BilateralMatrices& bilaterals) {
+  if (bilaterals.fisher.size() > 0) return GeksOverIndex(bilaterals.fisher);
+  GeksResult geks;
+  if (!GeksFisherByRowBlocks(arrays.price, arrays.expenditure, GeksBlockOptions(), &geks)) {
+    return GeksOverIndex(AllPairsWeighted(arrays.price, arrays.expenditure,
+                                          BilateralOptions::OnlyFisher()).fisher);
+  }
+  AggregateParities out;
+  out.log_parity = std::move(geks.log_parity);
+  out.identified = geks.identified;
+  out.groups = std::move(geks.groups);
   out.complete = geks.complete;
   out.rms_log_residual = geks.rms_log_residual;
   return out;

@@ -13,10 +13,14 @@
 #include <cassert>
 #include <cmath>
 #include <limits>
+#include <string>
+#include <utility>
+#include <vector>
 
 #include "base/eigen_threads.h"
 #include "base/median.h"
 #include "base/not_a_number.h"
+#include "paritas/aggregation/geks.h"
 
 namespace paritas {
 namespace {
@@ -182,6 +186,12 @@ BilateralOptions BilateralOptions::OnlyTornqvist() {
   options.laspeyres_paasche = false;
   options.fisher = false;
   options.num_matched = false;
+  return options;
+}
+
+BilateralOptions BilateralOptions::None() {
+  BilateralOptions options = OnlyFisher();
+  options.fisher = false;
   return options;
 }
 
@@ -470,6 +480,161 @@ SpreadSummary AllPairsSpreads(const Eigen::MatrixXd& price, const Eigen::MatrixX
   if (k > 0) CentreColumns(m.mask, &m.log_price);
   for (SpreadPairIndices& pair : out.widest) CompletePair(m, m.log_price, &pair);
   return out;
+}
+
+}  // namespace paritas
+
+namespace paritas {
+namespace {
+
+// d_ab of Geks for the pair's log Fisher indices `ab` = ln F(a, b) and `ba`
+// = ln F(b, a): both finite, the mean of the two directions; one, that one,
+// signed; none, 0 (and *linked false).
+double AntisymmetricLog(double ab, double ba, bool* linked) {
+  const bool has_ab = std::isfinite(ab), has_ba = std::isfinite(ba);
+  *linked = has_ab || has_ba;
+  if (!*linked) return 0.0;
+  return has_ab && has_ba ? 0.5 * (ab - ba) : (has_ab ? ab : -ba);
+}
+
+// The upper triangle of Geks's d (d_ab for a < b), column by column: column
+// b starts at b (b - 1) / 2.
+inline size_t PackedColumn(Eigen::Index b) { return static_cast<size_t>(b) * (b - 1) / 2; }
+
+// Rows [b0, b1) of the upper triangle: for each region b taking part
+// (`member`) and each c > b, F(b, c) and F(c, b) as FillValueIndices forms
+// them (from block products laid out as AllPairsSpreads's, over the regions
+// from b0 on), their logarithms as Geks takes them (Eigen's vectorised log,
+// as over the whole matrix; segments padded to a multiple of 4 so that every
+// entry gets it), and d_bc into `packed`. Returns false when two members
+// have no index.
+bool GeksFisherRows(const MaskedArrays& m, const std::vector<char>& member, Eigen::Index b0,
+                    Eigen::Index b1, double* packed) {
+  const Eigen::Index n = m.mask.rows(), rows = b1 - b0, cols = n - b0;
+  // value(b, c), value(c, b), basket(b, c), basket(c, b) for b in the block,
+  // c from b0 on; the (b, c) ones transposed so that a row's partners are
+  // contiguous.
+  Eigen::MatrixXd value_cb(cols, rows), basket_cb(cols, rows), product(rows, cols);
+  product.noalias() = m.expenditure.middleRows(b0, rows) * m.mask.middleRows(b0, cols).transpose();
+  const Eigen::MatrixXd value_bc = product.transpose();
+  product.noalias() = m.quantity.middleRows(b0, rows) * m.price.middleRows(b0, cols).transpose();
+  const Eigen::MatrixXd basket_bc = product.transpose();
+  value_cb.noalias() = m.expenditure.middleRows(b0, cols) * m.mask.middleRows(b0, rows).transpose();
+  basket_cb.noalias() = m.quantity.middleRows(b0, cols) * m.price.middleRows(b0, rows).transpose();
+  const Eigen::Index padded = (cols + 3) / 4 * 4;
+  Eigen::ArrayXd fisher_bc(padded), fisher_cb(padded), log_bc(padded), log_cb(padded);
+  for (Eigen::Index i = 0; i < rows; ++i) {
+    const Eigen::Index b = b0 + i, len = cols - i - 1;
+    if (!member[b] || len == 0) continue;
+    const auto vb = value_bc.col(i).segment(i + 1, len).array();
+    const auto vc = value_cb.col(i).segment(i + 1, len).array();
+    const auto kb = basket_bc.col(i).segment(i + 1, len).array();
+    const auto kc = basket_cb.col(i).segment(i + 1, len).array();
+    // Laspeyres times Paasche at (b, c) and at (c, b), each quotient first.
+    const auto valid = vb > 0.0 && vc > 0.0;
+    fisher_bc.setOnes();
+    fisher_cb.setOnes();
+    fisher_bc.head(len) = valid.select(((kb / vb) * (vc / kc)).sqrt(), kNaN);
+    fisher_cb.head(len) = valid.select(((kc / vc) * (vb / kb)).sqrt(), kNaN);
+    log_bc = fisher_bc.log();
+    log_cb = fisher_cb.log();
+    for (Eigen::Index t = 0; t < len; ++t) {
+      const Eigen::Index c = b + 1 + t;
+      bool linked;
+      packed[PackedColumn(c) + b] = AntisymmetricLog(log_bc(t), log_cb(t), &linked);
+      if (!linked && member[c]) return false;
+    }
+  }
+  return true;
+}
+
+// Sum over the members c, ascending, of d_cb (d_cb = -d_bc below the
+// diagonal, 0 on it) for the members b of `tile`, as Eigen sums a column of
+// d(g, g) in Geks: from the first term on, one after the other.
+void GeksColumnSums(const std::vector<int>& members, const double* packed, const int* tile,
+                    int tile_size, double* sums) {
+  for (size_t k = 0; k < members.size(); ++k) {
+    const Eigen::Index c = members[k];
+    for (int s = 0; s < tile_size; ++s) {
+      const Eigen::Index b = tile[s];
+      const double d = c < b ? packed[PackedColumn(b) + c] : (c > b ? -packed[PackedColumn(c) + b] : 0.0);
+      sums[s] = k == 0 ? d : sums[s] + d;
+    }
+  }
+}
+
+}  // namespace
+
+bool GeksBlockOptions::IsValid(std::string* error) const {
+  std::string message;
+  if (block_rows < 4 || block_rows % 4 != 0) {
+    message = "block_rows must be a multiple of 4, found " + std::to_string(block_rows);
+  }
+  if (num_threads < 0) message = "num_threads must be >= 0, found " + std::to_string(num_threads);
+  if (error != nullptr) *error = message;
+  return message.empty();
+}
+
+bool GeksFisherByRowBlocks(const Eigen::MatrixXd& price, const Eigen::MatrixXd& expenditure,
+                           const GeksBlockOptions& options, GeksResult* result) {
+  assert(price.rows() == expenditure.rows() && price.cols() == expenditure.cols());
+  assert(options.IsValid(nullptr));
+  const Eigen::Index n = price.rows();
+  const MaskedArrays m = MaskInputs(price, expenditure, true, false);
+  // A region takes part (its diagonal F(b, b) = 1 is finite) exactly when
+  // it spends on one of its valid headings; any pair needs that of both.
+  std::vector<char> member(n, 0);
+  std::vector<int> members;
+  for (Eigen::Index b = 0; b < n; ++b) {
+    member[b] = (m.expenditure.row(b).array() > 0.0).any() ? 1 : 0;
+    if (member[b]) members.push_back(static_cast<int>(b));
+  }
+  const int size = static_cast<int>(members.size());
+  if (size < 2) return false;
+  std::vector<double> packed(PackedColumn(n), 0.0);
+  const int threads = options.num_threads > 0 ? options.num_threads : omp_get_max_threads();
+  const Eigen::Index step = options.block_rows;
+  const int num_blocks = static_cast<int>((n + step - 1) / step);
+  std::vector<char> block_linked(num_blocks, 1);
+  // Each block writes its own entries of the triangle; the sums below run
+  // in a fixed order, so the thread count changes nothing.
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads) if (num_blocks > 1)
+  for (int k = 0; k < num_blocks; ++k) {
+    internal::KeepEigenOnThisThread();
+    block_linked[k] = GeksFisherRows(m, member, k * step, std::min(n, (k + 1) * step), packed.data());
+  }
+  if (std::find(block_linked.begin(), block_linked.end(), 0) != block_linked.end()) return false;
+  constexpr int kTile = 64;
+  const int num_tiles = (size + kTile - 1) / kTile;
+  std::vector<double> column_sum(size);
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads) if (num_tiles > 1)
+  for (int k = 0; k < num_tiles; ++k) {
+    const int first = k * kTile;
+    GeksColumnSums(members, packed.data(), members.data() + first, std::min(kTile, size - first),
+                   column_sum.data() + first);
+  }
+
+  // Geks's closed form and residual, on the same numbers in the same order.
+  GeksResult out;
+  out.log_parity = Eigen::VectorXd::Constant(n, kNaN);
+  out.identified = true;
+  out.complete = true;
+  Eigen::VectorXd x = Eigen::Map<const Eigen::VectorXd>(column_sum.data(), size) / size;
+  x.array() -= x.mean();
+  for (int j = 0; j < size; ++j) out.log_parity[members[j]] = x[j];
+  double sum_sq = 0.0;
+  for (int j = 1; j < size; ++j) {
+    const double* column = packed.data() + PackedColumn(members[j]);
+    for (int i = 0; i < j; ++i) {
+      const double e = column[members[i]] - (x[j] - x[i]);
+      sum_sq += e * e;
+    }
+  }
+  const long long num_pairs = static_cast<long long>(size) * (size - 1) / 2;
+  out.rms_log_residual = std::sqrt(sum_sq / static_cast<double>(num_pairs));
+  out.groups.push_back(std::move(members));
+  *result = std::move(out);
+  return true;
 }
 
 }  // namespace paritas
