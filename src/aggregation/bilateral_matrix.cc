@@ -13,6 +13,7 @@
 #include <cassert>
 #include <cmath>
 #include <limits>
+#include <memory>
 #include <string>
 #include <utility>
 #include <vector>
@@ -497,9 +498,26 @@ double AntisymmetricLog(double ab, double ba, bool* linked) {
   return has_ab && has_ba ? 0.5 * (ab - ba) : (has_ab ? ab : -ba);
 }
 
-// The upper triangle of Geks's d (d_ab for a < b), column by column: column
-// b starts at b (b - 1) / 2.
-inline size_t PackedColumn(Eigen::Index b) { return static_cast<size_t>(b) * (b - 1) / 2; }
+// The upper triangle of Geks's d (d_bc for b < c) of n regions, row by
+// row: row b holds c = b + 1 .. n - 1 and starts at b (2n - b - 1) / 2.
+inline size_t PackedRow(Eigen::Index n, Eigen::Index b) {
+  return static_cast<size_t>(b) * (2 * n - b - 1) / 2;
+}
+
+// Copies the transpose of `in` into `out` (already of the transposed
+// shape) by square tiles, so that both sides stay in cache.
+void TransposeInTiles(const Eigen::MatrixXd& in, Eigen::MatrixXd* out) {
+  constexpr Eigen::Index kSide = 32;
+  for (Eigen::Index c0 = 0; c0 < in.cols(); c0 += kSide) {
+    const Eigen::Index c1 = std::min(in.cols(), c0 + kSide);
+    for (Eigen::Index r0 = 0; r0 < in.rows(); r0 += kSide) {
+      const Eigen::Index r1 = std::min(in.rows(), r0 + kSide);
+      for (Eigen::Index r = r0; r < r1; ++r) {
+        for (Eigen::Index c = c0; c < c1; ++c) (*out)(c, r) = in(r, c);
+      }
+    }
+  }
+}
 
 // Rows [b0, b1) of the upper triangle: for each region b taking part
 // (`member`) and each c > b, F(b, c) and F(c, b) as FillValueIndices forms
@@ -515,10 +533,11 @@ bool GeksFisherRows(const MaskedArrays& m, const std::vector<char>& member, Eige
   // c from b0 on; the (b, c) ones transposed so that a row's partners are
   // contiguous.
   Eigen::MatrixXd value_cb(cols, rows), basket_cb(cols, rows), product(rows, cols);
+  Eigen::MatrixXd value_bc(cols, rows), basket_bc(cols, rows);
   product.noalias() = m.expenditure.middleRows(b0, rows) * m.mask.middleRows(b0, cols).transpose();
-  const Eigen::MatrixXd value_bc = product.transpose();
+  TransposeInTiles(product, &value_bc);
   product.noalias() = m.quantity.middleRows(b0, rows) * m.price.middleRows(b0, cols).transpose();
-  const Eigen::MatrixXd basket_bc = product.transpose();
+  TransposeInTiles(product, &basket_bc);
   value_cb.noalias() = m.expenditure.middleRows(b0, cols) * m.mask.middleRows(b0, rows).transpose();
   basket_cb.noalias() = m.quantity.middleRows(b0, cols) * m.price.middleRows(b0, rows).transpose();
   const Eigen::Index padded = (cols + 3) / 4 * 4;
@@ -530,19 +549,24 @@ bool GeksFisherRows(const MaskedArrays& m, const std::vector<char>& member, Eige
     const auto vc = value_cb.col(i).segment(i + 1, len).array();
     const auto kb = basket_bc.col(i).segment(i + 1, len).array();
     const auto kc = basket_cb.col(i).segment(i + 1, len).array();
-    // Laspeyres times Paasche at (b, c) and at (c, b), each quotient first.
-    const auto valid = vb > 0.0 && vc > 0.0;
+    // Laspeyres times Paasche at (b, c) and at (c, b), each quotient first,
+    // vectorised over the partners (IEEE quotients and roots: the same bits
+    // as one at a time); NaN where either side spends nothing on the
+    // matched headings.
     fisher_bc.setOnes();
     fisher_cb.setOnes();
-    fisher_bc.head(len) = valid.select(((kb / vb) * (vc / kc)).sqrt(), kNaN);
-    fisher_cb.head(len) = valid.select(((kc / vc) * (vb / kb)).sqrt(), kNaN);
+    fisher_bc.head(len) = ((kb / vb) * (vc / kc)).sqrt();
+    fisher_cb.head(len) = ((kc / vc) * (vb / kb)).sqrt();
+    for (Eigen::Index t = 0; t < len; ++t) {
+      if (!(vb(t) > 0.0 && vc(t) > 0.0)) fisher_bc(t) = fisher_cb(t) = kNaN;
+    }
     log_bc = fisher_bc.log();
     log_cb = fisher_cb.log();
+    double* row = packed + PackedRow(n, b);
     for (Eigen::Index t = 0; t < len; ++t) {
-      const Eigen::Index c = b + 1 + t;
       bool linked;
-      packed[PackedColumn(c) + b] = AntisymmetricLog(log_bc(t), log_cb(t), &linked);
-      if (!linked && member[c]) return false;
+      row[t] = AntisymmetricLog(log_bc(t), log_cb(t), &linked);
+      if (!linked && member[b + 1 + t]) return false;
     }
   }
   return true;
@@ -551,13 +575,15 @@ bool GeksFisherRows(const MaskedArrays& m, const std::vector<char>& member, Eige
 // Sum over the members c, ascending, of d_cb (d_cb = -d_bc below the
 // diagonal, 0 on it) for the members b of `tile`, as Eigen sums a column of
 // d(g, g) in Geks: from the first term on, one after the other.
-void GeksColumnSums(const std::vector<int>& members, const double* packed, const int* tile,
-                    int tile_size, double* sums) {
+void GeksColumnSums(Eigen::Index n, const std::vector<int>& members, const double* packed,
+                    const int* tile, int tile_size, double* sums) {
   for (size_t k = 0; k < members.size(); ++k) {
     const Eigen::Index c = members[k];
     for (int s = 0; s < tile_size; ++s) {
       const Eigen::Index b = tile[s];
-      const double d = c < b ? packed[PackedColumn(b) + c] : (c > b ? -packed[PackedColumn(c) + b] : 0.0);
+      double d = 0.0;
+      if (c < b) d = packed[PackedRow(n, c) + (b - c - 1)];
+      if (c > b) d = -packed[PackedRow(n, b) + (c - b - 1)];
       sums[s] = k == 0 ? d : sums[s] + d;
     }
   }
@@ -591,7 +617,9 @@ bool GeksFisherByRowBlocks(const Eigen::MatrixXd& price, const Eigen::MatrixXd& 
   }
   const int size = static_cast<int>(members.size());
   if (size < 2) return false;
-  std::vector<double> packed(PackedColumn(n), 0.0);
+  // Not zeroed: every entry read below (a pair of members) is written first.
+  const std::unique_ptr<double[]> packed_storage(new double[PackedRow(n, n)]);
+  double* const packed = packed_storage.get();
   const int threads = options.num_threads > 0 ? options.num_threads : omp_get_max_threads();
   const Eigen::Index step = options.block_rows;
   const int num_blocks = static_cast<int>((n + step - 1) / step);
@@ -601,7 +629,7 @@ bool GeksFisherByRowBlocks(const Eigen::MatrixXd& price, const Eigen::MatrixXd& 
 #pragma omp parallel for schedule(dynamic, 1) num_threads(threads) if (num_blocks > 1)
   for (int k = 0; k < num_blocks; ++k) {
     internal::KeepEigenOnThisThread();
-    block_linked[k] = GeksFisherRows(m, member, k * step, std::min(n, (k + 1) * step), packed.data());
+    block_linked[k] = GeksFisherRows(m, member, k * step, std::min(n, (k + 1) * step), packed);
   }
   if (std::find(block_linked.begin(), block_linked.end(), 0) != block_linked.end()) return false;
   constexpr int kTile = 64;
@@ -610,7 +638,7 @@ bool GeksFisherByRowBlocks(const Eigen::MatrixXd& price, const Eigen::MatrixXd& 
 #pragma omp parallel for schedule(dynamic, 1) num_threads(threads) if (num_tiles > 1)
   for (int k = 0; k < num_tiles; ++k) {
     const int first = k * kTile;
-    GeksColumnSums(members, packed.data(), members.data() + first, std::min(kTile, size - first),
+    GeksColumnSums(n, members, packed, members.data() + first, std::min(kTile, size - first),
                    column_sum.data() + first);
   }
 
@@ -624,9 +652,10 @@ bool GeksFisherByRowBlocks(const Eigen::MatrixXd& price, const Eigen::MatrixXd& 
   for (int j = 0; j < size; ++j) out.log_parity[members[j]] = x[j];
   double sum_sq = 0.0;
   for (int j = 1; j < size; ++j) {
-    const double* column = packed.data() + PackedColumn(members[j]);
+    const Eigen::Index b = members[j];
     for (int i = 0; i < j; ++i) {
-      const double e = column[members[i]] - (x[j] - x[i]);
+      const Eigen::Index a = members[i];
+      const double e = packed[PackedRow(n, a) + (b - a - 1)] - (x[j] - x[i]);
       sum_sq += e * e;
     }
   }
