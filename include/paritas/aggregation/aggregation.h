@@ -33,10 +33,10 @@ AggregateParities AggregateFromBilaterals(const NodeArrays& arrays,
 AggregateParities GeksOverIndex(const Eigen::MatrixXd& index);
 
 // GEKS over bilateral Fisher indices (the geks-fisher method): over
-// `bilaterals.fisher` when it is filled, else by row blocks from the node's
-// arrays (GeksFisherByRowBlocks: no region x region matrix) when every pair
-// has an index, else over the Fisher matrix computed here. The three give
-// the same bits.
+// `bilaterals.fisher` when it is filled, else, from 400 regions on, by row
+// blocks from the node's arrays (GeksFisherByRowBlocks: no region x region
+// matrix) when every pair has an index, else over the Fisher matrix
+// computed here. The three give the same bits.
 AggregateParities GeksFisher(const NodeArrays& arrays, const BilateralMatrices& bilaterals);
 
 // Returns each region's expenditure share of each heading, s_rh = e_rh /
