@@ -206,9 +206,10 @@ BilateralMatrices AllPairsWeighted(const Eigen::MatrixXd& price, const Eigen::Ma
   assert(price.rows() == expenditure.rows() && price.cols() == expenditure.cols());
   const Eigen::Index num_regions = price.rows();
   const bool need_value = options.laspeyres_paasche || options.fisher;
+  BilateralMatrices result;
+  if (!need_value && !options.tornqvist && !options.num_matched) return result;
   MaskedArrays m = MaskInputs(price, expenditure, need_value, options.tornqvist);
 
-  BilateralMatrices result;
   // (a, b): sum over matched headings of e_a = p_a q_a. A pair has indices
   // exactly where both value_a(a, b) and value_a(b, a) are > 0 (each region
   // spends on some matched heading), so these stand in for the count when
