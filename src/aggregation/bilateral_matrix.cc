@@ -520,49 +520,120 @@ void TransposeInTiles(const Eigen::MatrixXd& in, Eigen::MatrixXd* out) {
   }
 }
 
+// The sums of a row block b in [b0, b0 + rows) against the partners c from
+// b0 on, each as partners x block rows: (c, i) holds the sum at (b0 + i, c)
+// in the *_bc matrices and at (c, b0 + i) in the *_cb ones. `value` is the
+// expenditure sum (value_a of AllPairsWeighted); `x` and `y` are the
+// index's own: for Fisher the basket sum sum p_c q_b (y unused), for
+// Törnqvist sum e_b y_c and sum e_b y_b m_c over the centred log prices y.
+struct BlockSums {
+  Eigen::MatrixXd value_bc, value_cb, x_bc, x_cb, y_bc, y_cb;
+};
+
+// One pair of products of masked arrays: `bc` the transposed block rows of
+// left * rightᵀ, `cb` its block columns (blocks laid out as AllPairsSpreads's,
+// so every entry is summed as in the full product).
+void BlockProduct(const Eigen::MatrixXd& left, const Eigen::MatrixXd& right, Eigen::Index b0,
+                  Eigen::Index rows, Eigen::MatrixXd* scratch, Eigen::MatrixXd* bc,
+                  Eigen::MatrixXd* cb) {
+  const Eigen::Index cols = left.rows() - b0;
+  scratch->resize(rows, cols);
+  scratch->noalias() = left.middleRows(b0, rows) * right.middleRows(b0, cols).transpose();
+  bc->resize(cols, rows);
+  TransposeInTiles(*scratch, bc);
+  cb->resize(cols, rows);
+  cb->noalias() = left.middleRows(b0, cols) * right.middleRows(b0, rows).transpose();
+}
+
+// The arrays a GEKS index is formed from, and which index.
+struct GeksInputs {
+  GeksIndex index = GeksIndex::kFisher;
+  Eigen::MatrixXd mask, expenditure;
+  // Fisher: quantity and price. Törnqvist: the centred log prices y and
+  // e ∘ y.
+  Eigen::MatrixXd first, second;
+};
+
+// The masked arrays `index` needs, as AllPairsWeighted prepares them.
+GeksInputs MakeGeksInputs(GeksIndex index, const Eigen::MatrixXd& price,
+                          const Eigen::MatrixXd& expenditure) {
+  const bool fisher = index == GeksIndex::kFisher;
+  MaskedArrays m = MaskInputs(price, expenditure, fisher, !fisher);
+  GeksInputs in;
+  in.index = index;
+  if (fisher) {
+    in.first = std::move(m.quantity);
+    in.second = std::move(m.price);
+  } else {
+    // As Tornqvist: centred log prices, then weighted by expenditure.
+    CentreColumns(m.mask, &m.log_price);
+    in.second = m.log_price.cwiseProduct(m.expenditure);
+    in.first = std::move(m.log_price);
+  }
+  in.mask = std::move(m.mask);
+  in.expenditure = std::move(m.expenditure);
+  return in;
+}
+
+// Fills entries [0, len) of index_bc and index_cb with the index at (b, c)
+// and at (c, b) for the partners c = b + 1 + t from column i of `sums`, as
+// AllPairsWeighted forms them entry by entry (vectorised quotients and roots
+// are IEEE and give the same bits as one at a time), NaN where either side
+// spends nothing on the matched headings.
+void PairIndices(GeksIndex index, const BlockSums& sums, Eigen::Index i, Eigen::Index len,
+                 Eigen::ArrayXd* index_bc, Eigen::ArrayXd* index_cb) {
+  const auto vb = sums.value_bc.col(i).segment(i + 1, len).array();
+  const auto vc = sums.value_cb.col(i).segment(i + 1, len).array();
+  const auto xb = sums.x_bc.col(i).segment(i + 1, len).array();
+  const auto xc = sums.x_cb.col(i).segment(i + 1, len).array();
+  if (index == GeksIndex::kFisher) {
+    // Laspeyres times Paasche, each quotient first.
+    index_bc->head(len) = ((xb / vb) * (vc / xc)).sqrt();
+    index_cb->head(len) = ((xc / vc) * (vb / xb)).sqrt();
+  } else {
+    // exp(½ (X_bc - X_cb)) as Tornqvist forms it, with std::exp: its
+    // whole-matrix expression mixes storage orders, so Eigen takes it
+    // entry by entry.
+    const auto yb = sums.y_bc.col(i).segment(i + 1, len).array();
+    const auto yc = sums.y_cb.col(i).segment(i + 1, len).array();
+    for (Eigen::Index t = 0; t < len; ++t) {
+      const double half_bc = (xb(t) - yb(t)) / vb(t), half_cb = (xc(t) - yc(t)) / vc(t);
+      (*index_bc)(t) = std::exp(0.5 * (half_bc - half_cb));
+      (*index_cb)(t) = std::exp(0.5 * (half_cb - half_bc));
+    }
+  }
+  for (Eigen::Index t = 0; t < len; ++t) {
+    if (!(vb(t) > 0.0 && vc(t) > 0.0)) (*index_bc)(t) = (*index_cb)(t) = kNaN;
+  }
+}
+
 // Rows [b0, b1) of the upper triangle: for each region b taking part
-// (`member`) and each c > b, F(b, c) and F(c, b) as FillValueIndices forms
-// them (from block products laid out as AllPairsSpreads's, over the regions
-// from b0 on), their logarithms as Geks takes them (Eigen's vectorised log,
-// as over the whole matrix; segments padded to a multiple of 4 so that every
-// entry gets it), and d_bc into `packed`. Returns false when two members
-// have no index.
-bool GeksFisherRows(const MaskedArrays& m, const std::vector<char>& member, Eigen::Index b0,
-                    Eigen::Index b1, double* packed) {
-  const Eigen::Index n = m.mask.rows(), rows = b1 - b0, cols = n - b0;
-  // value(b, c), value(c, b), basket(b, c), basket(c, b) for b in the block,
-  // c from b0 on; the (b, c) ones transposed so that a row's partners are
-  // contiguous.
-  Eigen::MatrixXd value_cb(cols, rows), basket_cb(cols, rows), product(rows, cols);
-  Eigen::MatrixXd value_bc(cols, rows), basket_bc(cols, rows);
-  product.noalias() = m.expenditure.middleRows(b0, rows) * m.mask.middleRows(b0, cols).transpose();
-  TransposeInTiles(product, &value_bc);
-  product.noalias() = m.quantity.middleRows(b0, rows) * m.price.middleRows(b0, cols).transpose();
-  TransposeInTiles(product, &basket_bc);
-  value_cb.noalias() = m.expenditure.middleRows(b0, cols) * m.mask.middleRows(b0, rows).transpose();
-  basket_cb.noalias() = m.quantity.middleRows(b0, cols) * m.price.middleRows(b0, rows).transpose();
+// (`member`) and each c > b, the index at (b, c) and at (c, b), their
+// logarithms as Geks takes them (Eigen's vectorised log, as over the whole
+// matrix; segments padded to a multiple of 4 so that every entry gets it),
+// and d_bc into `packed`. Returns false when two members have no index.
+bool GeksRows(const GeksInputs& in, const std::vector<char>& member, Eigen::Index b0,
+              Eigen::Index b1, double* packed) {
+  const Eigen::Index n = in.mask.rows(), rows = b1 - b0, cols = n - b0;
+  BlockSums sums;
+  Eigen::MatrixXd scratch;
+  BlockProduct(in.expenditure, in.mask, b0, rows, &scratch, &sums.value_bc, &sums.value_cb);
+  if (in.index == GeksIndex::kFisher) {
+    BlockProduct(in.first, in.second, b0, rows, &scratch, &sums.x_bc, &sums.x_cb);
+  } else {
+    BlockProduct(in.expenditure, in.first, b0, rows, &scratch, &sums.x_bc, &sums.x_cb);
+    BlockProduct(in.second, in.mask, b0, rows, &scratch, &sums.y_bc, &sums.y_cb);
+  }
   const Eigen::Index padded = (cols + 3) / 4 * 4;
-  Eigen::ArrayXd fisher_bc(padded), fisher_cb(padded), log_bc(padded), log_cb(padded);
+  Eigen::ArrayXd index_bc(padded), index_cb(padded), log_bc(padded), log_cb(padded);
   for (Eigen::Index i = 0; i < rows; ++i) {
     const Eigen::Index b = b0 + i, len = cols - i - 1;
     if (!member[b] || len == 0) continue;
-    const auto vb = value_bc.col(i).segment(i + 1, len).array();
-    const auto vc = value_cb.col(i).segment(i + 1, len).array();
-    const auto kb = basket_bc.col(i).segment(i + 1, len).array();
-    const auto kc = basket_cb.col(i).segment(i + 1, len).array();
-    // Laspeyres times Paasche at (b, c) and at (c, b), each quotient first,
-    // vectorised over the partners (IEEE quotients and roots: the same bits
-    // as one at a time); NaN where either side spends nothing on the
-    // matched headings.
-    fisher_bc.setOnes();
-    fisher_cb.setOnes();
-    fisher_bc.head(len) = ((kb / vb) * (vc / kc)).sqrt();
-    fisher_cb.head(len) = ((kc / vc) * (vb / kb)).sqrt();
-    for (Eigen::Index t = 0; t < len; ++t) {
-      if (!(vb(t) > 0.0 && vc(t) > 0.0)) fisher_bc(t) = fisher_cb(t) = kNaN;
-    }
-    log_bc = fisher_bc.log();
-    log_cb = fisher_cb.log();
+    index_bc.setOnes();
+    index_cb.setOnes();
+    PairIndices(in.index, sums, i, len, &index_bc, &index_cb);
+    log_bc = index_bc.log();
+    log_cb = index_cb.log();
     double* row = packed + PackedRow(n, b);
     for (Eigen::Index t = 0; t < len; ++t) {
       bool linked;
@@ -602,18 +673,19 @@ bool GeksBlockOptions::IsValid(std::string* error) const {
   return message.empty();
 }
 
-bool GeksFisherByRowBlocks(const Eigen::MatrixXd& price, const Eigen::MatrixXd& expenditure,
-                           const GeksBlockOptions& options, GeksResult* result) {
+bool GeksByRowBlocks(GeksIndex index, const Eigen::MatrixXd& price,
+                     const Eigen::MatrixXd& expenditure, const GeksBlockOptions& options,
+                     GeksResult* result) {
   assert(price.rows() == expenditure.rows() && price.cols() == expenditure.cols());
   assert(options.IsValid(nullptr));
   const Eigen::Index n = price.rows();
-  const MaskedArrays m = MaskInputs(price, expenditure, true, false);
+  const GeksInputs in = MakeGeksInputs(index, price, expenditure);
   // A region takes part (its diagonal F(b, b) = 1 is finite) exactly when
   // it spends on one of its valid headings; any pair needs that of both.
   std::vector<char> member(n, 0);
   std::vector<int> members;
   for (Eigen::Index b = 0; b < n; ++b) {
-    member[b] = (m.expenditure.row(b).array() > 0.0).any() ? 1 : 0;
+    member[b] = (in.expenditure.row(b).array() > 0.0).any() ? 1 : 0;
     if (member[b]) members.push_back(static_cast<int>(b));
   }
   const int size = static_cast<int>(members.size());
@@ -630,7 +702,7 @@ bool GeksFisherByRowBlocks(const Eigen::MatrixXd& price, const Eigen::MatrixXd& 
 #pragma omp parallel for schedule(dynamic, 1) num_threads(threads) if (num_blocks > 1)
   for (int k = 0; k < num_blocks; ++k) {
     internal::KeepEigenOnThisThread();
-    block_linked[k] = GeksFisherRows(m, member, k * step, std::min(n, (k + 1) * step), packed);
+    block_linked[k] = GeksRows(in, member, k * step, std::min(n, (k + 1) * step), packed);
   }
   if (std::find(block_linked.begin(), block_linked.end(), 0) != block_linked.end()) return false;
   constexpr int kTile = 64;

@@ -521,8 +521,8 @@ void ExpectSameBits(const GeksResult& got, const AggregateParities& want) {
 
 // The row blocks take every entry and every sum in the full matrix's order,
 // so a survey with missing headings, zero spending and a region without any
-// spending gives the same bits as GEKS over the Fisher matrix.
-TEST(GeksFisherByRowBlocks, EqualsGeksOverTheFisherMatrixBitForBit) {
+// spending gives the same bits as GEKS over the Fisher (Törnqvist) matrix.
+TEST(GeksByRowBlocks, EqualsGeksOverTheIndexMatrixBitForBit) {
   const int num_regions = 163;  // 40 blocks of 4 and 3 rows left
   const int num_headings = 23;
   Eigen::MatrixXd price, expenditure;
@@ -531,48 +531,56 @@ TEST(GeksFisherByRowBlocks, EqualsGeksOverTheFisherMatrixBitForBit) {
   // spends nothing, so it takes no part.
   price(0, 0) = 2.0, price(1, 0) = 3.0, expenditure(0, 0) = 10.0, expenditure(1, 0) = 20.0;
   expenditure.row(7).setZero();
-  const AggregateParities want =
-      GeksOverIndex(AllPairsWeighted(price, expenditure, BilateralOptions::OnlyFisher()).fisher);
-  ASSERT_TRUE(want.complete);
-  ASSERT_TRUE(std::isnan(want.log_parity[7]));
-  for (int block_rows : {4, 12, 128, 512}) {
-    for (int threads : {1, 2}) {
-      SCOPED_TRACE("block_rows " + std::to_string(block_rows) + ", threads " +
-                   std::to_string(threads));
-      GeksBlockOptions options;
-      options.block_rows = block_rows;
-      options.num_threads = threads;
-      GeksResult got;
-      ASSERT_TRUE(GeksFisherByRowBlocks(price, expenditure, options, &got));
-      ExpectSameBits(got, want);
+  const BilateralMatrices full = AllPairsWeighted(price, expenditure);
+  for (GeksIndex index : {GeksIndex::kFisher, GeksIndex::kTornqvist}) {
+    const bool fisher = index == GeksIndex::kFisher;
+    const AggregateParities want = GeksOverIndex(fisher ? full.fisher : full.tornqvist);
+    ASSERT_TRUE(want.complete);
+    ASSERT_TRUE(std::isnan(want.log_parity[7]));
+    for (int block_rows : {4, 12, 128, 512}) {
+      for (int threads : {1, 2}) {
+        SCOPED_TRACE(std::string(fisher ? "fisher" : "tornqvist") + ", block_rows " +
+                     std::to_string(block_rows) + ", threads " + std::to_string(threads));
+        GeksBlockOptions options;
+        options.block_rows = block_rows;
+        options.num_threads = threads;
+        GeksResult got;
+        ASSERT_TRUE(GeksByRowBlocks(index, price, expenditure, options, &got));
+        ExpectSameBits(got, want);
+      }
     }
   }
 }
 
 // Regions 0 and 1 of MakeIncompleteData share no heading: the closed form
-// does not apply, the blocks say so, and GeksFisher solves the graph over
-// the matrix it then forms.
-TEST(GeksFisherByRowBlocks, LeavesAPairWithoutIndexToTheGraphSolve) {
+// does not apply, the blocks say so, and GeksFisher (GeksTornqvist) solves
+// the graph over the matrix it then forms.
+TEST(GeksByRowBlocks, LeavesAPairWithoutIndexToTheGraphSolve) {
   NodeArrays arrays;
   MakeIncompleteData(41, 9, 20261204, &arrays.price, &arrays.expenditure);
-  const AggregateParities want = GeksOverIndex(
-      AllPairsWeighted(arrays.price, arrays.expenditure, BilateralOptions::OnlyFisher()).fisher);
-  ASSERT_FALSE(want.complete);
-  GeksResult got;
-  got.rms_log_residual = -1.0;
-  EXPECT_FALSE(GeksFisherByRowBlocks(arrays.price, arrays.expenditure, GeksBlockOptions(), &got));
-  EXPECT_EQ(got.rms_log_residual, -1.0);  // untouched
-  const AggregateParities fallback = GeksFisher(arrays, BilateralMatrices());
-  GeksResult as_geks;
-  as_geks.log_parity = fallback.log_parity;
-  as_geks.identified = fallback.identified;
-  as_geks.complete = fallback.complete;
-  as_geks.groups = fallback.groups;
-  as_geks.rms_log_residual = fallback.rms_log_residual;
-  ExpectSameBits(as_geks, want);
+  const BilateralMatrices full = AllPairsWeighted(arrays.price, arrays.expenditure);
+  for (GeksIndex index : {GeksIndex::kFisher, GeksIndex::kTornqvist}) {
+    const bool fisher = index == GeksIndex::kFisher;
+    const AggregateParities want = GeksOverIndex(fisher ? full.fisher : full.tornqvist);
+    ASSERT_FALSE(want.complete);
+    GeksResult got;
+    got.rms_log_residual = -1.0;
+    EXPECT_FALSE(
+        GeksByRowBlocks(index, arrays.price, arrays.expenditure, GeksBlockOptions(), &got));
+    EXPECT_EQ(got.rms_log_residual, -1.0);  // untouched
+    const AggregateParities fallback = fisher ? GeksFisher(arrays, BilateralMatrices())
+                                              : GeksTornqvist(arrays, BilateralMatrices());
+    GeksResult as_geks;
+    as_geks.log_parity = fallback.log_parity;
+    as_geks.identified = fallback.identified;
+    as_geks.complete = fallback.complete;
+    as_geks.groups = fallback.groups;
+    as_geks.rms_log_residual = fallback.rms_log_residual;
+    ExpectSameBits(as_geks, want);
+  }
 }
 
-TEST(GeksFisherByRowBlocks, OptionsOutOfRangeAreNamed) {
+TEST(GeksByRowBlocks, OptionsOutOfRangeAreNamed) {
   GeksBlockOptions options;
   std::string error;
   EXPECT_TRUE(options.IsValid(&error));

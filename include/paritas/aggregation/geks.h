@@ -49,7 +49,7 @@ struct GeksResult {
 // Cost: O(n^2) for a full matrix; O(n^2 + sum over groups of g^3) otherwise.
 GeksResult Geks(const Eigen::MatrixXd& log_bilateral);
 
-// How GeksFisherByRowBlocks splits its work.
+// How GeksByRowBlocks splits its work.
 struct GeksBlockOptions {
   // Regions per row block, a positive multiple of 4 (blocks then start where
   // the matrix products' column panels do, so every sum is formed in the
@@ -64,21 +64,26 @@ struct GeksBlockOptions {
   bool IsValid(std::string* error) const;
 };
 
-// Computes Geks(ln F) for F = AllPairsWeighted(price, expenditure).fisher
-// without forming F or any other region x region matrix, when the closed
-// form applies: at least two regions take part and every pair of them has a
-// Fisher index. Then ln P_b = (1/n) sum_a d_ab needs only the column sums of
-// d, which are reduced a block of rows at a time from the sums behind
-// Laspeyres and Paasche (as AllPairsSpreads forms them) and dropped; only
-// d_ab for a < b is kept (packed, n (n - 1) / 2 doubles) for the residual.
-// Every entry and every sum is formed in the same order as Geks over the
-// full matrix, so the result is bit for bit the same (tested:
-// Geks.FisherByRowBlocksEqualsGeksOverTheFisherMatrix), for any block size
-// and thread count. Returns false and leaves `result` untouched when the
-// closed form does not apply (a pair without an index: the caller solves
-// the comparison graph over the full matrix).
-bool GeksFisherByRowBlocks(const Eigen::MatrixXd& price, const Eigen::MatrixXd& expenditure,
-                           const GeksBlockOptions& options, GeksResult* result);
+// The bilateral index GeksByRowBlocks runs on (a method's choice, not an
+// option of its own).
+enum class GeksIndex { kFisher, kTornqvist };
+
+// Computes Geks(ln B) for B = AllPairsWeighted(price, expenditure).fisher
+// (kFisher) or .tornqvist (kTornqvist) without forming B or any other
+// region x region matrix, when the closed form applies: at least two
+// regions take part and every pair of them has an index. Then ln P_b =
+// (1/n) sum_a d_ab needs only the column sums of d, reduced from the
+// sums behind the index (as AllPairsSpreads forms them) a block of rows
+// at a time; only d_bc for b < c is kept (packed, n (n - 1) / 2 doubles)
+// for the column sums and the residual. Every entry and every sum is formed
+// in the same order as Geks over the full matrix, so the result is bit for
+// bit the same (tested: GeksByRowBlocks.EqualsGeksOverTheIndexMatrixBitForBit),
+// for any block size and thread count. Returns false and leaves `result`
+// untouched when the closed form does not apply (a pair without an index:
+// the caller solves the comparison graph over the full matrix).
+bool GeksByRowBlocks(GeksIndex index, const Eigen::MatrixXd& price,
+                     const Eigen::MatrixXd& expenditure, const GeksBlockOptions& options,
+                     GeksResult* result);
 
 }  // namespace paritas
 
