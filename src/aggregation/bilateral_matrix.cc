@@ -680,8 +680,8 @@ bool GeksByRowBlocks(GeksIndex index, const Eigen::MatrixXd& price,
   assert(options.IsValid(nullptr));
   const Eigen::Index n = price.rows();
   const GeksInputs in = MakeGeksInputs(index, price, expenditure);
-  // A region takes part (its diagonal F(b, b) = 1 is finite) exactly when
-  // it spends on one of its valid headings; any pair needs that of both.
+  // A region takes part (its diagonal index is 1, finite) exactly when it
+  // spends on one of its valid headings; any pair needs that of both.
   std::vector<char> member(n, 0);
   std::vector<int> members;
   for (Eigen::Index b = 0; b < n; ++b) {
