@@ -3,12 +3,18 @@
 // method itself, each the fastest of several runs on one thread, so the
 // figures compare methods rather than the machine's load.
 // Usage: aggregation_bench CONFIG [REPETITIONS].
+// Or: aggregation_bench --geks-fisher|--geks-tornqvist REGIONS HEADINGS
+// [REPETITIONS [THREADS]] times that GEKS on random arrays (every 10th entry
+// missing) over the full index matrix and by row blocks, and checks that
+// both give the same bits.
 #include <omp.h>
 
 #include <algorithm>
 #include <chrono>
 #include <cstdio>
 #include <cstdlib>
+#include <cstring>
+#include <random>
 #include <string>
 
 #include "paritas/aggregation/aggregation.h"
@@ -22,9 +28,78 @@ double Seconds(std::chrono::steady_clock::time_point start) {
   return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
 }
 
+// GEKS over `index` on REGIONS x HEADINGS random arrays: the full-matrix
+// path against the row blocks, fastest of `repetitions` each.
+int GeksPaths(paritas::GeksIndex index, int argc, char** argv) {
+  if (argc < 4) {
+    std::fprintf(stderr, "usage: aggregation_bench --geks-fisher|--geks-tornqvist REGIONS HEADINGS "
+                 "[REPS [THREADS]]\n");
+    return 1;
+  }
+  const int regions = std::atoi(argv[2]), headings = std::atoi(argv[3]);
+  const int repetitions = argc > 4 ? std::max(1, std::atoi(argv[4])) : 3;
+  const int threads = argc > 5 ? std::max(1, std::atoi(argv[5])) : 1;
+  omp_set_num_threads(threads);
+  std::mt19937_64 random(20261202);
+  std::normal_distribution<double> log_price(0.0, 0.2);
+  std::uniform_real_distribution<double> spending(1.0, 100.0);
+  paritas::NodeArrays arrays;
+  arrays.price.resize(regions, headings);
+  arrays.expenditure.resize(regions, headings);
+  for (int h = 0; h < headings; ++h) {
+    for (int r = 0; r < regions; ++r) {
+      const bool missing = (r * 7 + h * 3) % 10 == 0;
+      arrays.price(r, h) = missing ? std::nan("") : std::exp(log_price(random));
+      arrays.expenditure(r, h) = spending(random);
+    }
+  }
+  double matrix_seconds = 1e300, block_seconds = 1e300;
+  paritas::AggregateParities by_matrix, by_blocks;
+  for (int k = 0; k < repetitions; ++k) {
+    auto start = std::chrono::steady_clock::now();
+    const bool fisher = index == paritas::GeksIndex::kFisher;
+    const paritas::BilateralMatrices formed = paritas::NodeBilaterals(
+        arrays, fisher ? paritas::BilateralOptions::OnlyFisher()
+                       : paritas::BilateralOptions::OnlyTornqvist());
+    by_matrix = paritas::GeksOverIndex(fisher ? formed.fisher : formed.tornqvist);
+    matrix_seconds = std::min(matrix_seconds, Seconds(start));
+    start = std::chrono::steady_clock::now();
+    paritas::GeksResult geks;
+    if (!paritas::GeksByRowBlocks(index, arrays.price, arrays.expenditure,
+                                  paritas::GeksBlockOptions(), &geks)) {
+      std::fprintf(stderr, "aggregation_bench: a pair without an index\n");
+      return 1;
+    }
+    by_blocks.log_parity = geks.log_parity;
+    by_blocks.rms_log_residual = geks.rms_log_residual;
+    block_seconds = std::min(block_seconds, Seconds(start));
+  }
+  const bool same =
+      std::memcmp(by_matrix.log_parity.data(), by_blocks.log_parity.data(),
+                  sizeof(double) * regions) == 0 &&
+      by_matrix.rms_log_residual == by_blocks.rms_log_residual;
+  // Floating-point operations of the products: two R x H x R for Fisher's
+  // matrix (three for Törnqvist's); twice as many over the upper triangle
+  // for the blocks, as many in all.
+  const double num_products = index == paritas::GeksIndex::kFisher ? 2.0 : 3.0;
+  const double gflop = num_products * 2.0 * regions * static_cast<double>(headings) * regions * 1e-9;
+  std::printf("%s %d x %d, %d threads, fastest of %d: matrix %.4f s (%.1f GFLOP/s of "
+              "products), blocks %.4f s (%.1f GFLOP/s); same bits: %s\n",
+              argv[1] + 2, regions, headings, threads, repetitions, matrix_seconds,
+              gflop / matrix_seconds, block_seconds, gflop / block_seconds,
+              same ? "yes" : "NO");
+  return same ? 0 : 2;
+}
+
 }  // namespace
 
 int main(int argc, char** argv) {
+  if (argc > 1 && std::strcmp(argv[1], "--geks-fisher") == 0) {
+    return GeksPaths(paritas::GeksIndex::kFisher, argc, argv);
+  }
+  if (argc > 1 && std::strcmp(argv[1], "--geks-tornqvist") == 0) {
+    return GeksPaths(paritas::GeksIndex::kTornqvist, argc, argv);
+  }
   if (argc < 2) {
     std::fprintf(stderr, "usage: aggregation_bench CONFIG [REPETITIONS]\n");
     return 1;

@@ -13,10 +13,15 @@
 #include <cassert>
 #include <cmath>
 #include <limits>
+#include <memory>
+#include <string>
+#include <utility>
+#include <vector>
 
 #include "base/eigen_threads.h"
 #include "base/median.h"
 #include "base/not_a_number.h"
+#include "paritas/aggregation/geks.h"
 
 namespace paritas {
 namespace {
@@ -185,6 +190,12 @@ BilateralOptions BilateralOptions::OnlyTornqvist() {
   return options;
 }
 
+BilateralOptions BilateralOptions::None() {
+  BilateralOptions options = OnlyFisher();
+  options.fisher = false;
+  return options;
+}
+
 bool BilateralOptions::IsValid(std::string* error) const {
   if (error != nullptr) error->clear();
   return true;
@@ -195,9 +206,10 @@ BilateralMatrices AllPairsWeighted(const Eigen::MatrixXd& price, const Eigen::Ma
   assert(price.rows() == expenditure.rows() && price.cols() == expenditure.cols());
   const Eigen::Index num_regions = price.rows();
   const bool need_value = options.laspeyres_paasche || options.fisher;
+  BilateralMatrices result;
+  if (!need_value && !options.tornqvist && !options.num_matched) return result;
   MaskedArrays m = MaskInputs(price, expenditure, need_value, options.tornqvist);
 
-  BilateralMatrices result;
   // (a, b): sum over matched headings of e_a = p_a q_a. A pair has indices
   // exactly where both value_a(a, b) and value_a(b, a) are > 0 (each region
   // spends on some matched heading), so these stand in for the count when
@@ -470,6 +482,261 @@ SpreadSummary AllPairsSpreads(const Eigen::MatrixXd& price, const Eigen::MatrixX
   if (k > 0) CentreColumns(m.mask, &m.log_price);
   for (SpreadPairIndices& pair : out.widest) CompletePair(m, m.log_price, &pair);
   return out;
+}
+
+}  // namespace paritas
+
+namespace paritas {
+namespace {
+
+// d_ab of Geks for the pair's log Fisher indices `ab` = ln F(a, b) and `ba`
+// = ln F(b, a): both finite, the mean of the two directions; one, that one,
+// signed; none, 0 (and *linked false).
+double AntisymmetricLog(double ab, double ba, bool* linked) {
+  const bool has_ab = std::isfinite(ab), has_ba = std::isfinite(ba);
+  *linked = has_ab || has_ba;
+  if (!*linked) return 0.0;
+  return has_ab && has_ba ? 0.5 * (ab - ba) : (has_ab ? ab : -ba);
+}
+
+// The upper triangle of Geks's d (d_bc for b < c) of n regions, row by
+// row: row b holds c = b + 1 .. n - 1 and starts at b (2n - b - 1) / 2.
+inline size_t PackedRow(Eigen::Index n, Eigen::Index b) {
+  return static_cast<size_t>(b) * (2 * n - b - 1) / 2;
+}
+
+// Copies the transpose of `in` into `out` (already of the transposed
+// shape) by square tiles, so that both sides stay in cache.
+void TransposeInTiles(const Eigen::MatrixXd& in, Eigen::MatrixXd* out) {
+  constexpr Eigen::Index kSide = 32;
+  for (Eigen::Index c0 = 0; c0 < in.cols(); c0 += kSide) {
+    const Eigen::Index c1 = std::min(in.cols(), c0 + kSide);
+    for (Eigen::Index r0 = 0; r0 < in.rows(); r0 += kSide) {
+      const Eigen::Index r1 = std::min(in.rows(), r0 + kSide);
+      for (Eigen::Index r = r0; r < r1; ++r) {
+        for (Eigen::Index c = c0; c < c1; ++c) (*out)(c, r) = in(r, c);
+      }
+    }
+  }
+}
+
+// The sums of a row block b in [b0, b0 + rows) against the partners c from
+// b0 on, each as partners x block rows: (c, i) holds the sum at (b0 + i, c)
+// in the *_bc matrices and at (c, b0 + i) in the *_cb ones. `value` is the
+// expenditure sum (value_a of AllPairsWeighted); `x` and `y` are the
+// index's own: for Fisher the basket sum sum p_c q_b (y unused), for
+// Törnqvist sum e_b y_c and sum e_b y_b m_c over the centred log prices y.
+struct BlockSums {
+  Eigen::MatrixXd value_bc, value_cb, x_bc, x_cb, y_bc, y_cb;
+};
+
+// One pair of products of masked arrays: `bc` the transposed block rows of
+// left * rightᵀ, `cb` its block columns (blocks laid out as AllPairsSpreads's,
+// so every entry is summed as in the full product).
+void BlockProduct(const Eigen::MatrixXd& left, const Eigen::MatrixXd& right, Eigen::Index b0,
+                  Eigen::Index rows, Eigen::MatrixXd* scratch, Eigen::MatrixXd* bc,
+                  Eigen::MatrixXd* cb) {
+  const Eigen::Index cols = left.rows() - b0;
+  scratch->resize(rows, cols);
+  scratch->noalias() = left.middleRows(b0, rows) * right.middleRows(b0, cols).transpose();
+  bc->resize(cols, rows);
+  TransposeInTiles(*scratch, bc);
+  cb->resize(cols, rows);
+  cb->noalias() = left.middleRows(b0, cols) * right.middleRows(b0, rows).transpose();
+}
+
+// The arrays a GEKS index is formed from, and which index.
+struct GeksInputs {
+  GeksIndex index = GeksIndex::kFisher;
+  Eigen::MatrixXd mask, expenditure;
+  // Fisher: quantity and price. Törnqvist: the centred log prices y and
+  // e ∘ y.
+  Eigen::MatrixXd first, second;
+};
+
+// The masked arrays `index` needs, as AllPairsWeighted prepares them.
+GeksInputs MakeGeksInputs(GeksIndex index, const Eigen::MatrixXd& price,
+                          const Eigen::MatrixXd& expenditure) {
+  const bool fisher = index == GeksIndex::kFisher;
+  MaskedArrays m = MaskInputs(price, expenditure, fisher, !fisher);
+  GeksInputs in;
+  in.index = index;
+  if (fisher) {
+    in.first = std::move(m.quantity);
+    in.second = std::move(m.price);
+  } else {
+    // As Tornqvist: centred log prices, then weighted by expenditure.
+    CentreColumns(m.mask, &m.log_price);
+    in.second = m.log_price.cwiseProduct(m.expenditure);
+    in.first = std::move(m.log_price);
+  }
+  in.mask = std::move(m.mask);
+  in.expenditure = std::move(m.expenditure);
+  return in;
+}
+
+// Fills entries [0, len) of index_bc and index_cb with the index at (b, c)
+// and at (c, b) for the partners c = b + 1 + t from column i of `sums`, as
+// AllPairsWeighted forms them entry by entry (vectorised quotients and roots
+// are IEEE and give the same bits as one at a time), NaN where either side
+// spends nothing on the matched headings.
+void PairIndices(GeksIndex index, const BlockSums& sums, Eigen::Index i, Eigen::Index len,
+                 Eigen::ArrayXd* index_bc, Eigen::ArrayXd* index_cb) {
+  const auto vb = sums.value_bc.col(i).segment(i + 1, len).array();
+  const auto vc = sums.value_cb.col(i).segment(i + 1, len).array();
+  const auto xb = sums.x_bc.col(i).segment(i + 1, len).array();
+  const auto xc = sums.x_cb.col(i).segment(i + 1, len).array();
+  if (index == GeksIndex::kFisher) {
+    // Laspeyres times Paasche, each quotient first.
+    index_bc->head(len) = ((xb / vb) * (vc / xc)).sqrt();
+    index_cb->head(len) = ((xc / vc) * (vb / xb)).sqrt();
+  } else {
+    // exp(½ (X_bc - X_cb)) as Tornqvist forms it, with std::exp: its
+    // whole-matrix expression mixes storage orders, so Eigen takes it
+    // entry by entry.
+    const auto yb = sums.y_bc.col(i).segment(i + 1, len).array();
+    const auto yc = sums.y_cb.col(i).segment(i + 1, len).array();
+    for (Eigen::Index t = 0; t < len; ++t) {
+      const double half_bc = (xb(t) - yb(t)) / vb(t), half_cb = (xc(t) - yc(t)) / vc(t);
+      (*index_bc)(t) = std::exp(0.5 * (half_bc - half_cb));
+      (*index_cb)(t) = std::exp(0.5 * (half_cb - half_bc));
+    }
+  }
+  for (Eigen::Index t = 0; t < len; ++t) {
+    if (!(vb(t) > 0.0 && vc(t) > 0.0)) (*index_bc)(t) = (*index_cb)(t) = kNaN;
+  }
+}
+
+// Rows [b0, b1) of the upper triangle: for each region b taking part
+// (`member`) and each c > b, the index at (b, c) and at (c, b), their
+// logarithms as Geks takes them (Eigen's vectorised log, as over the whole
+// matrix; segments padded to a multiple of 4 so that every entry gets it),
+// and d_bc into `packed`. Returns false when two members have no index.
+bool GeksRows(const GeksInputs& in, const std::vector<char>& member, Eigen::Index b0,
+              Eigen::Index b1, double* packed) {
+  const Eigen::Index n = in.mask.rows(), rows = b1 - b0, cols = n - b0;
+  BlockSums sums;
+  Eigen::MatrixXd scratch;
+  BlockProduct(in.expenditure, in.mask, b0, rows, &scratch, &sums.value_bc, &sums.value_cb);
+  if (in.index == GeksIndex::kFisher) {
+    BlockProduct(in.first, in.second, b0, rows, &scratch, &sums.x_bc, &sums.x_cb);
+  } else {
+    BlockProduct(in.expenditure, in.first, b0, rows, &scratch, &sums.x_bc, &sums.x_cb);
+    BlockProduct(in.second, in.mask, b0, rows, &scratch, &sums.y_bc, &sums.y_cb);
+  }
+  const Eigen::Index padded = (cols + 3) / 4 * 4;
+  Eigen::ArrayXd index_bc(padded), index_cb(padded), log_bc(padded), log_cb(padded);
+  for (Eigen::Index i = 0; i < rows; ++i) {
+    const Eigen::Index b = b0 + i, len = cols - i - 1;
+    if (!member[b] || len == 0) continue;
+    index_bc.setOnes();
+    index_cb.setOnes();
+    PairIndices(in.index, sums, i, len, &index_bc, &index_cb);
+    log_bc = index_bc.log();
+    log_cb = index_cb.log();
+    double* row = packed + PackedRow(n, b);
+    for (Eigen::Index t = 0; t < len; ++t) {
+      bool linked;
+      row[t] = AntisymmetricLog(log_bc(t), log_cb(t), &linked);
+      if (!linked && member[b + 1 + t]) return false;
+    }
+  }
+  return true;
+}
+
+// Sum over the members c, ascending, of d_cb (d_cb = -d_bc below the
+// diagonal, 0 on it) for the members b of `tile`, as Eigen sums a column of
+// d(g, g) in Geks: from the first term on, one after the other.
+void GeksColumnSums(Eigen::Index n, const std::vector<int>& members, const double* packed,
+                    const int* tile, int tile_size, double* sums) {
+  for (size_t k = 0; k < members.size(); ++k) {
+    const Eigen::Index c = members[k];
+    for (int s = 0; s < tile_size; ++s) {
+      const Eigen::Index b = tile[s];
+      double d = 0.0;
+      if (c < b) d = packed[PackedRow(n, c) + (b - c - 1)];
+      if (c > b) d = -packed[PackedRow(n, b) + (c - b - 1)];
+      sums[s] = k == 0 ? d : sums[s] + d;
+    }
+  }
+}
+
+}  // namespace
+
+bool GeksBlockOptions::IsValid(std::string* error) const {
+  std::string message;
+  if (block_rows < 4 || block_rows % 4 != 0) {
+    message = "block_rows must be a multiple of 4, found " + std::to_string(block_rows);
+  }
+  if (num_threads < 0) message = "num_threads must be >= 0, found " + std::to_string(num_threads);
+  if (error != nullptr) *error = message;
+  return message.empty();
+}
+
+bool GeksByRowBlocks(GeksIndex index, const Eigen::MatrixXd& price,
+                     const Eigen::MatrixXd& expenditure, const GeksBlockOptions& options,
+                     GeksResult* result) {
+  assert(price.rows() == expenditure.rows() && price.cols() == expenditure.cols());
+  assert(options.IsValid(nullptr));
+  const Eigen::Index n = price.rows();
+  const GeksInputs in = MakeGeksInputs(index, price, expenditure);
+  // A region takes part (its diagonal index is 1, finite) exactly when it
+  // spends on one of its valid headings; any pair needs that of both.
+  std::vector<char> member(n, 0);
+  std::vector<int> members;
+  for (Eigen::Index b = 0; b < n; ++b) {
+    member[b] = (in.expenditure.row(b).array() > 0.0).any() ? 1 : 0;
+    if (member[b]) members.push_back(static_cast<int>(b));
+  }
+  const int size = static_cast<int>(members.size());
+  if (size < 2) return false;
+  // Not zeroed: every entry read below (a pair of members) is written first.
+  const std::unique_ptr<double[]> packed_storage(new double[PackedRow(n, n)]);
+  double* const packed = packed_storage.get();
+  const int threads = options.num_threads > 0 ? options.num_threads : omp_get_max_threads();
+  const Eigen::Index step = options.block_rows;
+  const int num_blocks = static_cast<int>((n + step - 1) / step);
+  std::vector<char> block_linked(num_blocks, 1);
+  // Each block writes its own entries of the triangle; the sums below run
+  // in a fixed order, so the thread count changes nothing.
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads) if (num_blocks > 1)
+  for (int k = 0; k < num_blocks; ++k) {
+    internal::KeepEigenOnThisThread();
+    block_linked[k] = GeksRows(in, member, k * step, std::min(n, (k + 1) * step), packed);
+  }
+  if (std::find(block_linked.begin(), block_linked.end(), 0) != block_linked.end()) return false;
+  constexpr int kTile = 64;
+  const int num_tiles = (size + kTile - 1) / kTile;
+  std::vector<double> column_sum(size);
+#pragma omp parallel for schedule(dynamic, 1) num_threads(threads) if (num_tiles > 1)
+  for (int k = 0; k < num_tiles; ++k) {
+    const int first = k * kTile;
+    GeksColumnSums(n, members, packed, members.data() + first, std::min(kTile, size - first),
+                   column_sum.data() + first);
+  }
+
+  // Geks's closed form and residual, on the same numbers in the same order.
+  GeksResult out;
+  out.log_parity = Eigen::VectorXd::Constant(n, kNaN);
+  out.identified = true;
+  out.complete = true;
+  Eigen::VectorXd x = Eigen::Map<const Eigen::VectorXd>(column_sum.data(), size) / size;
+  x.array() -= x.mean();
+  for (int j = 0; j < size; ++j) out.log_parity[members[j]] = x[j];
+  double sum_sq = 0.0;
+  for (int j = 1; j < size; ++j) {
+    const Eigen::Index b = members[j];
+    for (int i = 0; i < j; ++i) {
+      const Eigen::Index a = members[i];
+      const double e = packed[PackedRow(n, a) + (b - a - 1)] - (x[j] - x[i]);
+      sum_sq += e * e;
+    }
+  }
+  const long long num_pairs = static_cast<long long>(size) * (size - 1) / 2;
+  out.rms_log_residual = std::sqrt(sum_sq / static_cast<double>(num_pairs));
+  out.groups.push_back(std::move(members));
+  *result = std::move(out);
+  return true;
 }
 
 }  // namespace paritas

@@ -15,6 +15,8 @@
 
 #include <gtest/gtest.h>
 
+#include "paritas/aggregation/aggregation.h"
+#include "paritas/aggregation/geks.h"
 #include "paritas/aggregation/index_formulas.h"
 #include "paritas/output/output_writers.h"
 #include "test_util.h"
@@ -501,6 +503,94 @@ TEST(AllPairsSpreads, OptionsOutOfRangeAreNamed) {
   options.num_widest = -1;
   EXPECT_FALSE(options.IsValid(&error));
   EXPECT_EQ(error, "num_widest must be >= 0, found -1");
+}
+
+// Bit for bit, NaN where the other is NaN.
+void ExpectSameBits(const GeksResult& got, const AggregateParities& want) {
+  ASSERT_EQ(got.log_parity.size(), want.log_parity.size());
+  for (Eigen::Index r = 0; r < want.log_parity.size(); ++r) {
+    EXPECT_TRUE(got.log_parity[r] == want.log_parity[r] ||
+                (std::isnan(got.log_parity[r]) && std::isnan(want.log_parity[r])))
+        << "region " << r;
+  }
+  EXPECT_EQ(got.identified, want.identified);
+  EXPECT_EQ(got.complete, want.complete);
+  EXPECT_EQ(got.groups, want.groups);
+  EXPECT_EQ(got.rms_log_residual, want.rms_log_residual);
+}
+
+// The row blocks take every entry and every sum in the full matrix's order,
+// so a survey with missing headings, zero spending and a region without any
+// spending gives the same bits as GEKS over the Fisher (Törnqvist) matrix.
+TEST(GeksByRowBlocks, EqualsGeksOverTheIndexMatrixBitForBit) {
+  const int num_regions = 163;  // 40 blocks of 4 and 3 rows left
+  const int num_headings = 23;
+  Eigen::MatrixXd price, expenditure;
+  MakeIncompleteData(num_regions, num_headings, 20261203, &price, &expenditure);
+  // Regions 0 and 1 share heading 0 (else they share none); region 7
+  // spends nothing, so it takes no part.
+  price(0, 0) = 2.0, price(1, 0) = 3.0, expenditure(0, 0) = 10.0, expenditure(1, 0) = 20.0;
+  expenditure.row(7).setZero();
+  const BilateralMatrices full = AllPairsWeighted(price, expenditure);
+  for (GeksIndex index : {GeksIndex::kFisher, GeksIndex::kTornqvist}) {
+    const bool fisher = index == GeksIndex::kFisher;
+    const AggregateParities want = GeksOverIndex(fisher ? full.fisher : full.tornqvist);
+    ASSERT_TRUE(want.complete);
+    ASSERT_TRUE(std::isnan(want.log_parity[7]));
+    for (int block_rows : {4, 12, 128, 512}) {
+      for (int threads : {1, 2}) {
+        SCOPED_TRACE(std::string(fisher ? "fisher" : "tornqvist") + ", block_rows " +
+                     std::to_string(block_rows) + ", threads " + std::to_string(threads));
+        GeksBlockOptions options;
+        options.block_rows = block_rows;
+        options.num_threads = threads;
+        GeksResult got;
+        ASSERT_TRUE(GeksByRowBlocks(index, price, expenditure, options, &got));
+        ExpectSameBits(got, want);
+      }
+    }
+  }
+}
+
+// Regions 0 and 1 of MakeIncompleteData share no heading: the closed form
+// does not apply, the blocks say so, and GeksFisher (GeksTornqvist) solves
+// the graph over the matrix it then forms.
+TEST(GeksByRowBlocks, LeavesAPairWithoutIndexToTheGraphSolve) {
+  NodeArrays arrays;
+  MakeIncompleteData(41, 9, 20261204, &arrays.price, &arrays.expenditure);
+  const BilateralMatrices full = AllPairsWeighted(arrays.price, arrays.expenditure);
+  for (GeksIndex index : {GeksIndex::kFisher, GeksIndex::kTornqvist}) {
+    const bool fisher = index == GeksIndex::kFisher;
+    const AggregateParities want = GeksOverIndex(fisher ? full.fisher : full.tornqvist);
+    ASSERT_FALSE(want.complete);
+    GeksResult got;
+    got.rms_log_residual = -1.0;
+    EXPECT_FALSE(
+        GeksByRowBlocks(index, arrays.price, arrays.expenditure, GeksBlockOptions(), &got));
+    EXPECT_EQ(got.rms_log_residual, -1.0);  // untouched
+    const AggregateParities fallback = fisher ? GeksFisher(arrays, BilateralMatrices())
+                                              : GeksTornqvist(arrays, BilateralMatrices());
+    GeksResult as_geks;
+    as_geks.log_parity = fallback.log_parity;
+    as_geks.identified = fallback.identified;
+    as_geks.complete = fallback.complete;
+    as_geks.groups = fallback.groups;
+    as_geks.rms_log_residual = fallback.rms_log_residual;
+    ExpectSameBits(as_geks, want);
+  }
+}
+
+TEST(GeksByRowBlocks, OptionsOutOfRangeAreNamed) {
+  GeksBlockOptions options;
+  std::string error;
+  EXPECT_TRUE(options.IsValid(&error));
+  options.block_rows = 6;
+  EXPECT_FALSE(options.IsValid(&error));
+  EXPECT_EQ(error, "block_rows must be a multiple of 4, found 6");
+  options.block_rows = 4;
+  options.num_threads = -1;
+  EXPECT_FALSE(options.IsValid(&error));
+  EXPECT_EQ(error, "num_threads must be >= 0, found -1");
 }
 
 }  // namespace

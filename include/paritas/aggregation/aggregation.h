@@ -32,6 +32,15 @@ AggregateParities AggregateFromBilaterals(const NodeArrays& arrays,
 // core of the geks-* methods.
 AggregateParities GeksOverIndex(const Eigen::MatrixXd& index);
 
+// GEKS over bilateral Fisher indices (the geks-fisher method) and over
+// Törnqvist indices (geks-tornqvist): over `bilaterals.fisher` (or
+// `.tornqvist`) when it is filled, else, from 400 regions on, by row blocks
+// from the node's arrays (GeksByRowBlocks: no region x region matrix) when
+// every pair has an index, else over the index matrix computed here. The
+// three give the same bits.
+AggregateParities GeksFisher(const NodeArrays& arrays, const BilateralMatrices& bilaterals);
+AggregateParities GeksTornqvist(const NodeArrays& arrays, const BilateralMatrices& bilaterals);
+
 // Returns each region's expenditure share of each heading, s_rh = e_rh /
 // sum_h' e_rh' over the headings the region has (finite parity > 0 and
 // expenditure > 0); NaN elsewhere. Rows of shares sum to 1.

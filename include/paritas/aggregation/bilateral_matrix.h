@@ -54,6 +54,8 @@ struct BilateralOptions {
   // `tornqvist`.
   static BilateralOptions OnlyFisher();
   static BilateralOptions OnlyTornqvist();
+  // Returns the options that fill nothing.
+  static BilateralOptions None();
   // Returns true; every combination is allowed (all false computes nothing).
   bool IsValid(std::string* error) const;
 };

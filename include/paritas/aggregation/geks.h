@@ -49,6 +49,42 @@ struct GeksResult {
 // Cost: O(n^2) for a full matrix; O(n^2 + sum over groups of g^3) otherwise.
 GeksResult Geks(const Eigen::MatrixXd& log_bilateral);
 
+// How GeksByRowBlocks splits its work.
+struct GeksBlockOptions {
+  // Regions per row block, a positive multiple of 4 (blocks then start where
+  // the matrix products' column panels do, so every sum is formed in the
+  // same order as in the full matrices, as for SpreadOptions); memory is
+  // about 4 x block x regions doubles per thread. The result does not depend
+  // on it. Default 128.
+  int block_rows = 128;
+  // Threads over the blocks, >= 0; 0 = OpenMP's default. Inside a parallel
+  // region the blocks run on the calling thread. Default 0.
+  int num_threads = 0;
+  // Returns false (and says why in `error`) when a field is out of range.
+  bool IsValid(std::string* error) const;
+};
+
+// The bilateral index GeksByRowBlocks runs on (a method's choice, not an
+// option of its own).
+enum class GeksIndex { kFisher, kTornqvist };
+
+// Computes Geks(ln B) for B = AllPairsWeighted(price, expenditure).fisher
+// (kFisher) or .tornqvist (kTornqvist) without forming B or any other
+// region x region matrix, when the closed form applies: at least two
+// regions take part and every pair of them has an index. Then ln P_b =
+// (1/n) sum_a d_ab needs only the column sums of d, reduced from the
+// sums behind the index (as AllPairsSpreads forms them) a block of rows
+// at a time; only d_bc for b < c is kept (packed, n (n - 1) / 2 doubles)
+// for the column sums and the residual. Every entry and every sum is formed
+// in the same order as Geks over the full matrix, so the result is bit for
+// bit the same (tested: GeksByRowBlocks.EqualsGeksOverTheIndexMatrixBitForBit),
+// for any block size and thread count. Returns false and leaves `result`
+// untouched when the closed form does not apply (a pair without an index:
+// the caller solves the comparison graph over the full matrix).
+bool GeksByRowBlocks(GeksIndex index, const Eigen::MatrixXd& price,
+                     const Eigen::MatrixXd& expenditure, const GeksBlockOptions& options,
+                     GeksResult* result);
+
 }  // namespace paritas
 
 #endif  // PARITAS_AGGREGATION_GEKS_H_

@@ -13,9 +13,11 @@ class GeksFisher final : public AggregationMethod {
   std::string_view ReportTitle() const override { return "GEKS over Fisher indices"; }
   std::string_view ReportHtml() const override { return kGeksReportHtml; }
   AggregationProperties Properties() const override { return {}; }
-  BilateralOptions BilateralsNeeded() const override { return BilateralOptions::OnlyFisher(); }
-  AggregateParities Aggregate(const NodeArrays&, const BilateralMatrices& bilaterals) const override {
-    return GeksOverIndex(bilaterals.fisher);
+  // None: without the Fisher matrix, GEKS runs by row blocks (GeksFisher).
+  BilateralOptions BilateralsNeeded() const override { return BilateralOptions::None(); }
+  AggregateParities Aggregate(const NodeArrays& arrays,
+                              const BilateralMatrices& bilaterals) const override {
+    return paritas::GeksFisher(arrays, bilaterals);
   }
 };
 

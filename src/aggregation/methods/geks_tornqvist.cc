@@ -13,9 +13,11 @@ class GeksTornqvist final : public AggregationMethod {
   std::string_view ReportTitle() const override { return "GEKS over T\xC3\xB6rnqvist indices"; }
   std::string_view ReportHtml() const override { return kGeksReportHtml; }
   AggregationProperties Properties() const override { return {}; }
-  BilateralOptions BilateralsNeeded() const override { return BilateralOptions::OnlyTornqvist(); }
-  AggregateParities Aggregate(const NodeArrays&, const BilateralMatrices& bilaterals) const override {
-    return GeksOverIndex(bilaterals.tornqvist);
+  // None: without the Törnqvist matrix, GEKS runs by row blocks (GeksTornqvist).
+  BilateralOptions BilateralsNeeded() const override { return BilateralOptions::None(); }
+  AggregateParities Aggregate(const NodeArrays& arrays,
+                              const BilateralMatrices& bilaterals) const override {
+    return paritas::GeksTornqvist(arrays, bilaterals);
   }
 };
 
