@@ -129,21 +129,26 @@ uint64_t Fnv1a(std::string_view text, uint64_t h = 14695981039346656037ull) {
   return h;
 }
 
-// FNV-1a over every field with its column's name and its length, in the
+// Hashes every field with its column's name and its length, in the
 // columns' hash order, so rows equal field for field (and only those, up to
-// a 2^-64 chance) hash alike, in one file or across files.
+// a 2^-64 chance) hash alike, in one file or across files. A field is read
+// 8 bytes at a time, each word mixed in by one multiply-fold (a byte-wise
+// hash cost a multiplication per byte, most of the row's parse).
 uint64_t HashFields(const CsvRecord& record, const PriceColumns& columns) {
-  uint64_t h = 14695981039346656037ull;
-  auto mix = [&h](uint64_t word) {
-    for (size_t k = 0; k < sizeof(word); ++k) {
-      h = (h ^ static_cast<unsigned char>(word >> (8 * k))) * 1099511628211ull;
-    }
-  };
+  constexpr uint64_t kOdd = 0x9e3779b97f4a7c15ULL;
+  uint64_t h = 0x243f6a8885a308d3ULL;
   for (size_t k = 0; k < columns.hash_order.size(); ++k) {
     const std::string_view field = record.fields[columns.hash_order[k]];
-    mix(columns.hash_name[k]);
-    mix(field.size());
-    h = Fnv1a(field, h);
+    const size_t n = field.size();
+    // Name and length in one word: names hash apart, lengths are small.
+    h = MultiplyFold(h ^ (columns.hash_name[k] + n), kOdd);
+    size_t i = 0;
+    for (; i + 8 <= n; i += 8) {
+      uint64_t word;
+      std::memcpy(&word, field.data() + i, 8);
+      h = MultiplyFold(h ^ word, kOdd);
+    }
+    if (i < n) h = MultiplyFold(h ^ ShortWord(field.data() + i, n - i), kOdd);
   }
   return h;
 }
@@ -156,7 +161,8 @@ class ChunkParser {
   ChunkParser(std::string_view data, int64_t first_line, const PriceColumns& columns,
               const std::string& path, const LoadState& state, bool keep_all_rejected,
               size_t max_rejected, ChunkResult* out)
-      : reader_(data, first_line, /*skip_bom=*/false),
+      : data_(data),
+        reader_(data, first_line, /*skip_bom=*/false),
         columns_(columns),
         path_(path),
         state_(state),
@@ -275,7 +281,7 @@ class ChunkParser {
 
   bool ReadRegion() {
     const std::string_view region = record_.fields[columns_.region];
-    if (region_local_ >= 0 && EqualBytes(region, last_region_)) return true;
+    if (region_cached_ && EqualBytes(region, last_region_)) return true;
     const std::string_view code = Trim(region);
     // With regions.csv every region is known before the first block, and the
     // global table is only read while chunks are parsed: one lookup gives
@@ -283,7 +289,7 @@ class ChunkParser {
     if (state_.regions_fixed) {
       if (const int global = state_.regions.Find(code); global >= 0) {
         region_local_ = global;
-        last_region_ = region;
+        region_cached_ = Remember(region, &last_region_);
         return true;
       }
     }
@@ -302,13 +308,13 @@ class ChunkParser {
       return false;
     }
     region_local_ = out_->regions.Intern(code);
-    last_region_ = region;
+    region_cached_ = Remember(region, &last_region_);
     return true;
   }
 
   bool ReadItem() {
     const std::string_view item = record_.fields[columns_.item];
-    if (item_local_ >= 0 && EqualBytes(item, last_item_)) return true;
+    if (item_cached_ && EqualBytes(item, last_item_)) return true;
     // Rows run through the items in much the same order in every region,
     // so the item that followed this one last time is tried before the
     // table: a byte comparison instead of a hash and a probe. A code in
@@ -328,12 +334,24 @@ class ChunkParser {
       if (index < 0) index = InternItem(code, known);
       if (index < 0) {
         item_local_ = -1;
+        item_cached_ = false;
         return false;
       }
       if (previous >= 0) successor_[previous] = index;
       item_local_ = index;
     }
-    last_item_ = item;
+    item_cached_ = Remember(item, &last_item_);
+    return true;
+  }
+
+  // Keeps a view of `field` in *last when it points into the chunk's text,
+  // which outlives the record (a field unescaped into the record's scratch
+  // does not); returns whether it did.
+  bool Remember(std::string_view field, std::string_view* last) const {
+    const auto at = reinterpret_cast<uintptr_t>(field.data());
+    const auto begin = reinterpret_cast<uintptr_t>(data_.data());
+    if (at < begin || at + field.size() > begin + data_.size()) return false;
+    *last = field;
     return true;
   }
 
@@ -499,6 +517,7 @@ class ChunkParser {
     return true;
   }
 
+  const std::string_view data_;
   CsvReader reader_;
   CsvRecord record_;
   const PriceColumns& columns_;
@@ -511,9 +530,10 @@ class ChunkParser {
   const bool has_flag_;
   const bool has_weight_;
   const bool has_quantity_;
-  // Copies, not views: a field unescaped into record.scratch is overwritten
-  // (or freed) by the next record.
-  std::string last_region_, last_item_;
+  // The last region and item fields read, when they are views into the
+  // chunk's text (see Remember), and their indices.
+  std::string_view last_region_, last_item_;
+  bool region_cached_ = false, item_cached_ = false;
   int region_local_ = -1, item_local_ = -1;
   // Per local item, the local item that followed it last (-1: none yet).
   std::vector<int> successor_;
