@@ -9,10 +9,12 @@
 
 #include <algorithm>
 #include <cstdint>
+#include <memory>
 #include <string>
 #include <utility>
 #include <vector>
 
+#include "base/huge_pages.h"
 #include "paritas/base/text.h"
 #include "survey/loader_state.h"
 
@@ -42,7 +44,12 @@ void CompactQuotes(const std::vector<char>& keep, QuoteArrays* quotes) {
 
 constexpr uint32_t kNone = UINT32_MAX;
 
-using HashedQuote = std::pair<uint64_t, uint32_t>;  // (row hash, quote index)
+// A row hash and its quote; no initialiser, so an array of them is not
+// zero-filled (its pages are first touched by the threads that fill it).
+struct HashedQuote {
+  uint64_t first;    // row hash
+  uint32_t second;   // quote index
+};
 
 // Marks each quote of a bucket (`order`, in quote order) that repeats an
 // earlier one: among the quotes of equal hash, in quote order, a quote
@@ -77,9 +84,10 @@ void MarkRepeats(const QuoteArrays& quotes, const HashedQuote* order, size_t n,
 }
 
 // Returns per quote the earlier quote it repeats, or kNone.
-std::vector<uint32_t> FindRepeats(const QuoteArrays& quotes, int num_threads) {
+std::unique_ptr<uint32_t[]> FindRepeats(const QuoteArrays& quotes, int num_threads) {
   const size_t n = quotes.size();
-  std::vector<uint32_t> repeats(n, kNone);
+  // Set to kNone below by the threads, each its own range.
+  auto repeats = std::make_unique_for_overwrite<uint32_t[]>(n);
   const std::vector<uint64_t>& hash = quotes.row_hash;
   // Buckets of about 2,000 pairs (32 KB), at most 2^16 of them.
   int bits = 0;
@@ -89,7 +97,9 @@ std::vector<uint32_t> FindRepeats(const QuoteArrays& quotes, int num_threads) {
   num_threads = std::max(1, std::min(num_threads, static_cast<int>(n / 65536) + 1));
   // counts[t][b]: pairs of thread t's quotes in bucket b, then where they go.
   std::vector<std::vector<size_t>> counts(num_threads, std::vector<size_t>(num_buckets, 0));
-  std::vector<HashedQuote> order(n);
+  const auto order = std::make_unique_for_overwrite<HashedQuote[]>(n);
+  AdviseHugePages(order.get(), n * sizeof(HashedQuote));
+  AdviseHugePages(repeats.get(), n * sizeof(uint32_t));
   std::vector<size_t> bucket_begin(num_buckets + 1, 0);
 #pragma omp parallel num_threads(num_threads)
   {
@@ -98,6 +108,7 @@ std::vector<uint32_t> FindRepeats(const QuoteArrays& quotes, int num_threads) {
     // quote order (a stable distribution).
     const size_t from = n * t / num_threads, to = n * (t + 1) / num_threads;
     std::vector<size_t>& mine = counts[t];
+    std::fill(repeats.get() + from, repeats.get() + to, kNone);
     for (size_t q = from; q < to; ++q) ++mine[bucket_of(hash[q])];
 #pragma omp barrier
 #pragma omp single
@@ -121,8 +132,8 @@ std::vector<uint32_t> FindRepeats(const QuoteArrays& quotes, int num_threads) {
     std::vector<HashedQuote> table;
 #pragma omp for schedule(dynamic, 64)
     for (size_t b = 0; b < num_buckets; ++b) {
-      MarkRepeats(quotes, order.data() + bucket_begin[b], bucket_begin[b + 1] - bucket_begin[b],
-                  &table, repeats.data());
+      MarkRepeats(quotes, order.get() + bucket_begin[b], bucket_begin[b + 1] - bucket_begin[b],
+                  &table, repeats.get());
     }
   }
   return repeats;
@@ -142,7 +153,7 @@ void HandleDuplicateQuotes(DuplicateQuotePolicy policy, int num_threads, LoadSta
   };
   summary->duplicate_policy = policy;
   const size_t n = quotes.size();
-  const std::vector<uint32_t> repeats = FindRepeats(quotes, num_threads);
+  const std::unique_ptr<uint32_t[]> repeats = FindRepeats(quotes, num_threads);
   std::vector<char> keep(n, 1);
   for (size_t q = 0; q < n; ++q) {
     if (repeats[q] == kNone) continue;

@@ -1,8 +1,9 @@
 // Reads prices.csv, which can hold tens of millions of quotes, in blocks
 // that are split at record boundaries into fixed-size chunks parsed in
-// parallel. Each chunk interns codes and keeps its quotes locally; chunks
-// are merged in file order, so the result does not depend on the number of
-// threads, and the text of at most one block is held at once.
+// parallel while the next block is read. Each chunk interns codes and keeps
+// its quotes locally; chunks are merged in file order (their quotes copied
+// in parallel), so the result does not depend on the number of threads, and
+// the text of at most two blocks is held at once.
 #include <omp.h>
 
 #include <algorithm>
@@ -10,12 +11,14 @@
 #include <cmath>
 #include <cstring>
 #include <filesystem>
+#include <functional>
 #include <limits>
 #include <string>
 #include <unordered_map>
 #include <vector>
 
 #include "base/equal_bytes.h"
+#include "base/huge_pages.h"
 #include "base/sha256.h"
 #include "paritas/base/csv.h"
 #include "paritas/base/text.h"
@@ -71,6 +74,9 @@ struct ChunkResult {
   std::vector<LocalItem> item_info;
   // Quotes used, with chunk-local region and item indices.
   QuoteArrays quotes;
+  // Local index -> the survey's, set when the chunk is merged (regions:
+  // empty when the chunk holds the survey's indices already).
+  std::vector<int> region_map, item_map;
 
   // Empties the result, keeping the capacity of its arrays.
   void Reset() {
@@ -85,6 +91,8 @@ struct ChunkResult {
     quotes.weight.clear();
     quotes.row_hash.clear();
     quotes.line.clear();
+    region_map.clear();
+    item_map.clear();
     rejected.clear();
     num_rejected_not_kept = 0;
     rows_read = 0;
@@ -593,21 +601,25 @@ class PriceReader {
     CsvBlockReader blocks(path_, std::max<int64_t>(options_.block_bytes, 1 << 16), limits_,
                           format_.delimiter);
     if (!blocks.Open(error)) return false;
-    const bool ok = ReadBlocks(&blocks, error);
-    file_->size_bytes = blocks.num_bytes_read();
+    std::string read_error;
+    const bool ok = ReadBlocks(&blocks, &read_error, error);
+    // After a failed parse, the bytes up to the block that failed (a block
+    // read ahead of it does not count).
+    file_->size_bytes = ok || !read_error.empty() ? blocks.num_bytes_read() : bytes_seen_;
     file_->sha256 = digest_.HexDigest();
     return ok;
   }
 
  private:
-  // The blocks hold whole records, at most one block and one record of
-  // text at a time (CsvBlockReader); the first holds the header whole.
-  bool ReadBlocks(CsvBlockReader* blocks, std::string* error) {
+  // The blocks hold whole records (CsvBlockReader); the first holds the
+  // header whole. The next block is read while this one is parsed; a
+  // failure to read it (*read_error) counts once this one is done.
+  bool ReadBlocks(CsvBlockReader* blocks, std::string* read_error, std::string* error) {
     bool header_done = false;
-    CsvBlock block;
-    std::string read_error;
-    while (blocks->Next(&block, &read_error)) {
-      bytes_seen_ = blocks->num_bytes_read();
+    CsvBlock block, next;
+    bool has_block = blocks->Next(&block, read_error);
+    while (has_block) {
+      bytes_seen_ += static_cast<int64_t>(block.fresh.size());
       std::string_view data = block.records;
       int64_t line = block.first_line;
       if (!header_done && !data.empty()) {
@@ -620,10 +632,14 @@ class PriceReader {
         header_done = true;
       }
       // The new bytes are hashed alongside the parse of their block.
-      if (!ParseBlock(data, line, block.fresh, error)) return false;
+      bool has_next = false;
+      const auto read_next = [&] { has_next = blocks->Next(&next, read_error); };
+      if (!ParseBlock(data, line, block.fresh, read_next, error)) return false;
+      std::swap(block, next);
+      has_block = has_next;
     }
-    if (!read_error.empty()) {
-      *error = read_error;
+    if (!read_error->empty()) {
+      *error = *read_error;
       return false;
     }
     if (!header_done) {
@@ -687,11 +703,14 @@ class PriceReader {
     }
   }
 
-  // Parses one block of whole records starting at line `first_line`.
+  // Parses one block of whole records starting at line `first_line`,
+  // hashing `to_hash` and calling `read_next` (which reads the next block)
+  // alongside.
   bool ParseBlock(std::string_view data, int64_t first_line, std::string_view to_hash,
-                  std::string* error) {
+                  const std::function<void()>& read_next, std::string* error) {
     if (data.empty()) {
       digest_.Update(to_hash.data(), to_hash.size());
+      read_next();
       return true;
     }
     std::vector<size_t> starts = ChunkStarts(data);
@@ -713,14 +732,20 @@ class PriceReader {
     const bool keep_all = options_.invalid_rows == InvalidRowPolicy::kSkip;
     const size_t max_rejected = static_cast<size_t>(std::max(options_.max_reported_rows, 0));
     const int num_chunks = static_cast<int>(starts.size());
-    // One more task than chunks: it hashes the block's new bytes while the
-    // chunks are parsed (blocks are hashed in order: one block at a time).
-#pragma omp parallel for schedule(dynamic, 1) num_threads(NumThreads(num_chunks + 1))
-    for (int c = 0; c <= num_chunks; ++c) {
-      if (c == num_chunks) {
+    // Two more tasks than chunks, first in line: one reads the next block,
+    // one hashes this block's new bytes (blocks are hashed in order: one
+    // block at a time), while the chunks are parsed.
+#pragma omp parallel for schedule(dynamic, 1) num_threads(NumThreads(num_chunks + 2))
+    for (int task = 0; task < num_chunks + 2; ++task) {
+      if (task == 0) {
+        read_next();
+        continue;
+      }
+      if (task == 1) {
         digest_.Update(to_hash.data(), to_hash.size());
         continue;
       }
+      const int c = task - 2;
       const size_t end = c + 1 < num_chunks ? starts[c + 1] : data.size();
       ParsePriceChunk(data.substr(starts[c], end - starts[c]), lines[c], columns_, path_, *state_,
                       keep_all, max_rejected, &results[c]);
@@ -742,16 +767,21 @@ class PriceReader {
       block_rows_used += result.rows_used;
     }
     ReserveQuotes(block_rows_read, block_rows_used);
-    for (ChunkResult& result : results) {
-      // The rows before a malformed record count as read whatever the block
-      // size, so the summary of a failed load does not depend on it.
+    // Merged in file order up to a malformed record: the rows before it
+    // count as read whatever the block size, so the summary of a failed
+    // load does not depend on it.
+    size_t num_merged = 0;
+    bool malformed = false;
+    while (num_merged < results.size() && !malformed) {
+      ChunkResult& result = results[num_merged++];
       Merge(&result);
       if (!result.fatal.empty()) {
         *error = result.fatal;
-        return false;
+        malformed = true;
       }
     }
-    return true;
+    AppendQuotes(results, num_merged);
+    return !malformed;
   }
 
   // At the first block, sizes the survey's quote arrays for the whole file
@@ -777,6 +807,13 @@ class PriceReader {
     if (columns_.weight >= 0) quotes.weight.reserve(total);
     quotes.row_hash.reserve(total);
     quotes.line.reserve(total);
+    AdviseHugePages(quotes.region);
+    AdviseHugePages(quotes.item);
+    AdviseHugePages(quotes.log_price);
+    AdviseHugePages(quotes.representative);
+    AdviseHugePages(quotes.weight);
+    AdviseHugePages(quotes.row_hash);
+    AdviseHugePages(quotes.line);
   }
 
   // Adds a chunk's rows for one item and heading to the item's conflict.
@@ -796,20 +833,6 @@ class PriceReader {
       }
     }
     others.push_back({conflict.heading, conflict.num_rows, conflict.first_line, path_});
-  }
-
-  // Appends `local` (or n times `fill` when empty) to `global`, which holds
-  // `before` values or none yet: an array stays empty until a file has it.
-  template <typename T>
-  static void AppendOrFill(const std::vector<T>& local, T fill, size_t n, std::vector<T>* global,
-                           size_t before) {
-    if (local.empty() && global->empty()) return;
-    if (global->empty()) global->assign(before, fill);
-    if (local.empty()) {
-      global->insert(global->end(), n, fill);
-    } else {
-      global->insert(global->end(), local.begin(), local.end());
-    }
   }
 
   int NumThreads(int num_chunks) const {
@@ -848,11 +871,13 @@ class PriceReader {
     for (const ConflictCount& conflict : result->conflicts) MergeConflict(conflict);
     // With regions.csv the chunks hold the survey's region indices already.
     const bool regions_global = state_->regions_fixed;
-    std::vector<int> region_map(regions_global ? 0 : result->regions.size());
+    std::vector<int>& region_map = result->region_map;
+    region_map.resize(regions_global ? 0 : result->regions.size());
     for (int r = 0; r < static_cast<int>(region_map.size()); ++r) {
       region_map[r] = state_->regions.Intern(result->regions.Code(r));
     }
-    std::vector<int> item_map(result->items.size());
+    std::vector<int>& item_map = result->item_map;
+    item_map.resize(result->items.size());
     for (int i = 0; i < result->items.size(); ++i) {
       const LocalItem& info = result->item_info[i];
       const std::string_view code = result->items.Code(i);
@@ -878,23 +903,61 @@ class PriceReader {
       }
     }
     state_->num_quotes += result->rows_used;
-    const QuoteArrays& local = result->quotes;
+  }
+
+  // Appends the quotes of the first `num_chunks` merged chunks to the
+  // survey's, in file order: the arrays are sized once, then each chunk's
+  // quotes are copied (and their indices mapped) in parallel.
+  void AppendQuotes(const std::vector<ChunkResult>& results, size_t num_chunks) {
     QuoteArrays& global = state_->quotes;
-    if (regions_global) {
-      global.region.insert(global.region.end(), local.region.begin(), local.region.end());
-    } else {
-      for (size_t q = 0; q < local.size(); ++q) global.region.push_back(region_map[local.region[q]]);
+    const size_t before = global.size();
+    std::vector<size_t> offset(num_chunks + 1, before);
+    bool has_flag = !global.representative.empty(), has_weight = !global.weight.empty();
+    for (size_t c = 0; c < num_chunks; ++c) {
+      offset[c + 1] = offset[c] + results[c].quotes.size();
+      has_flag = has_flag || !results[c].quotes.representative.empty();
+      has_weight = has_weight || !results[c].quotes.weight.empty();
     }
-    for (size_t q = 0; q < local.size(); ++q) global.item.push_back(item_map[local.item[q]]);
-    global.log_price.insert(global.log_price.end(), local.log_price.begin(), local.log_price.end());
-    // A flag or weight column of some files only: the quotes of the others
-    // are not representative and weigh 1.
-    AppendOrFill(local.representative, uint8_t{0}, local.size(), &global.representative,
-                 global.item.size() - local.size());
-    AppendOrFill(local.weight, 1.0, local.size(), &global.weight,
-                 global.item.size() - local.size());
-    global.row_hash.insert(global.row_hash.end(), local.row_hash.begin(), local.row_hash.end());
-    global.line.insert(global.line.end(), local.line.begin(), local.line.end());
+    const size_t total = offset[num_chunks];
+    if (total == before) return;
+    // An array stays empty until a file has its column; the quotes of the
+    // other files are not representative (0) and weigh 1.
+    if (has_flag && global.representative.empty()) global.representative.assign(before, 0);
+    if (has_weight && global.weight.empty()) global.weight.assign(before, 1.0);
+    const int num_threads = NumThreads(static_cast<int>(num_chunks));
+    // Each array is grown by one thread (growing fills it).
+#pragma omp parallel for schedule(dynamic, 1) num_threads(num_threads)
+    for (int a = 0; a < 7; ++a) {
+      switch (a) {
+        case 0: global.region.resize(total); break;
+        case 1: global.item.resize(total); break;
+        case 2: global.log_price.resize(total); break;
+        case 3: global.row_hash.resize(total); break;
+        case 4: global.line.resize(total); break;
+        case 5: if (has_flag) global.representative.resize(total, 0); break;
+        default: if (has_weight) global.weight.resize(total, 1.0); break;
+      }
+    }
+#pragma omp parallel for schedule(dynamic, 1) num_threads(num_threads)
+    for (size_t c = 0; c < num_chunks; ++c) {
+      const QuoteArrays& local = results[c].quotes;
+      const size_t at = offset[c], n = local.size();
+      const std::vector<int>& region_map = results[c].region_map;
+      const std::vector<int>& item_map = results[c].item_map;
+      if (region_map.empty()) {
+        std::copy_n(local.region.begin(), n, global.region.begin() + at);
+      } else {
+        for (size_t q = 0; q < n; ++q) global.region[at + q] = region_map[local.region[q]];
+      }
+      for (size_t q = 0; q < n; ++q) global.item[at + q] = item_map[local.item[q]];
+      std::copy_n(local.log_price.begin(), n, global.log_price.begin() + at);
+      if (!local.representative.empty()) {
+        std::copy_n(local.representative.begin(), n, global.representative.begin() + at);
+      }
+      if (!local.weight.empty()) std::copy_n(local.weight.begin(), n, global.weight.begin() + at);
+      std::copy_n(local.row_hash.begin(), n, global.row_hash.begin() + at);
+      std::copy_n(local.line.begin(), n, global.line.begin() + at);
+    }
   }
 
  private:
