@@ -38,30 +38,33 @@ constexpr std::string_view kUtf8Bom = "\xEF\xBB\xBF";
 
 // Returns the first byte in [p, end) that is the delimiter, '"', LF or CR,
 // or `end`. Loads only whole 16-byte blocks inside the range, so it never
-// reads past it. Sets *non_ascii when a byte it looked at (every byte before
-// the one returned, and some after) has its high bit set: the same pass
-// tells most records to be ASCII, so they need no UTF-8 check.
+// reads past it. Sets *non_ascii when a byte before the one returned has
+// its high bit set: the same pass tells most records to be ASCII, so they
+// need no UTF-8 check.
 inline const char* FindSpecial(const char* p, const char* end, char delimiter, bool* non_ascii) {
 #if defined(__SSE2__)
   const __m128i comma = _mm_set1_epi8(delimiter);
   const __m128i quote = _mm_set1_epi8('"');
   const __m128i lf = _mm_set1_epi8('\n');
   const __m128i cr = _mm_set1_epi8('\r');
-  __m128i seen = _mm_setzero_si128();
+  unsigned high = 0;  // bytes with the high bit set
   while (end - p >= 16) {
     const __m128i block = _mm_loadu_si128(reinterpret_cast<const __m128i*>(p));
-    seen = _mm_or_si128(seen, block);
     const __m128i hits =
         _mm_or_si128(_mm_or_si128(_mm_cmpeq_epi8(block, comma), _mm_cmpeq_epi8(block, quote)),
                      _mm_or_si128(_mm_cmpeq_epi8(block, lf), _mm_cmpeq_epi8(block, cr)));
-    const int mask = _mm_movemask_epi8(hits);
+    const unsigned mask = static_cast<unsigned>(_mm_movemask_epi8(hits));
+    const unsigned block_high = static_cast<unsigned>(_mm_movemask_epi8(block));
     if (mask != 0) {
-      if (_mm_movemask_epi8(seen) != 0) *non_ascii = true;
-      return p + __builtin_ctz(static_cast<unsigned>(mask));
+      const int at = __builtin_ctz(mask);
+      // Only the bytes before the special one belong to the field.
+      if ((high | (block_high & ((1u << at) - 1))) != 0) *non_ascii = true;
+      return p + at;
     }
+    high |= block_high;
     p += 16;
   }
-  if (_mm_movemask_epi8(seen) != 0) *non_ascii = true;
+  if (high != 0) *non_ascii = true;
 #endif
   while (p < end && *p != delimiter && *p != '"' && *p != '\n' && *p != '\r') {
     if (static_cast<unsigned char>(*p) >= 0x80) *non_ascii = true;
