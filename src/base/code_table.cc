@@ -1,4 +1,4 @@
-// Linear probing with a power-of-two table kept at most half full; a slot
+// Linear probing with a power-of-two table kept at most 3/4 full; a slot
 // of 16 bytes settles a code of up to 8 bytes without reading the arena.
 #include "paritas/base/code_table.h"
 
@@ -42,7 +42,7 @@ int CodeTable::Find(std::string_view code) const {
 }
 
 int CodeTable::Intern(std::string_view code) {
-  if (2 * (size() + 1) > static_cast<int>(slots_.size())) Grow();
+  if (4 * (size() + 1) > 3 * static_cast<int64_t>(slots_.size())) Grow();
   const uint64_t word = Word(code);
   const size_t mask = slots_.size() - 1;
   size_t slot = HashOf(code, word) & mask;

@@ -47,14 +47,13 @@ struct PriceColumns {
   std::vector<uint64_t> hash_name;
 };
 
-// What a chunk knows about an item it has seen.
+// What a chunk knows about an item it has seen: 16 bytes, read at every row
+// (rows in random order visit thousands of items, and these entries must
+// stay in the cache beside the code tables).
 struct LocalItem {
   int global = -1;         // index in LoadState::items when known before the block
   int local_heading = -1;  // local heading index when first stated in this chunk
-  int64_t line = 0;        // line of that first statement
   int rejected = -1;       // index in LoadState::rejected_codes when items.csv rejected it
-  // reference_quantity of items.csv; NaN when not given.
-  double reference_quantity = std::numeric_limits<double>::quiet_NaN();
   // True once a used row gave a quantity for the item without a reference.
   bool quantity_without_reference = false;
 };
@@ -72,6 +71,8 @@ struct ChunkResult {
   CodeTable items;
   CodeTable headings;
   std::vector<LocalItem> item_info;
+  // Per local item, the line of the row that first stated its heading here.
+  std::vector<int64_t> item_line;
   // Quotes used, with chunk-local region and item indices.
   QuoteArrays quotes;
   // Local index -> the survey's, set when the chunk is merged (regions:
@@ -84,6 +85,7 @@ struct ChunkResult {
     items = CodeTable();
     headings = CodeTable();
     item_info.clear();
+    item_line.clear();
     quotes.region.clear();
     quotes.item.clear();
     quotes.log_price.clear();
@@ -229,7 +231,7 @@ class ChunkParser {
       }
       if (new_heading >= 0) {
         info.local_heading = new_heading;
-        info.line = record_.line;
+        out_->item_line[item_local_] = record_.line;
       }
       out_->quotes.region.push_back(region_local_);
       out_->quotes.item.push_back(item_local_);
@@ -323,31 +325,22 @@ class ChunkParser {
   bool ReadItem() {
     const std::string_view item = record_.fields[columns_.item];
     if (item_cached_ && EqualBytes(item, last_item_)) return true;
-    // Rows run through the items in much the same order in every region,
-    // so the item that followed this one last time is tried before the
-    // table: a byte comparison instead of a hash and a probe. A code in
-    // the table is trimmed and valid, so a match needs no further check.
-    const int previous = item_local_;
-    const int guess = previous >= 0 ? successor_[previous] : -1;
-    if (guess >= 0 && EqualBytes(out_->items.Code(guess), item)) {
-      item_local_ = guess;
-    } else {
-      const std::string_view code = Trim(item);
-      // A code known before this block (items.csv, or an earlier block) is
-      // one lookup in the survey's table, read-only while the chunks are
-      // parsed and valid by construction; the chunk's own table interns
-      // only the codes it has not seen before.
-      const int known = state_.items.empty() ? -1 : state_.items.Find(code);
-      int index = known >= 0 ? local_of_known_[known] : -1;
-      if (index < 0) index = InternItem(code, known);
-      if (index < 0) {
-        item_local_ = -1;
-        item_cached_ = false;
-        return false;
-      }
-      if (previous >= 0) successor_[previous] = index;
-      item_local_ = index;
+    // A code known before this block (items.csv, or an earlier block) is
+    // one lookup in the survey's table, read-only while the chunks are
+    // parsed and valid by construction; the chunk's own table interns only
+    // the codes it has not seen before. (Guessing the item that followed
+    // this one last time saved nothing once a table slot settles a short
+    // code in one read, and rows in random order defeat it.)
+    const std::string_view code = Trim(item);
+    const int known = state_.items.empty() ? -1 : state_.items.Find(code);
+    int index = known >= 0 ? local_of_known_[known] : -1;
+    if (index < 0) index = InternItem(code, known);
+    if (index < 0) {
+      item_local_ = -1;
+      item_cached_ = false;
+      return false;
     }
+    item_local_ = index;
     item_cached_ = Remember(item, &last_item_);
     return true;
   }
@@ -383,10 +376,8 @@ class ChunkParser {
         const auto found = state_.rejected_item_index.find(std::string(code));
         if (found != state_.rejected_item_index.end()) rejected = found->second;
       }
-      LocalItem info{global, -1, 0, rejected};
-      if (global >= 0) info.reference_quantity = state_.item_reference_quantity[global];
-      out_->item_info.push_back(info);
-      successor_.push_back(-1);
+      out_->item_info.push_back({global, -1, rejected, false});
+      out_->item_line.push_back(0);
     }
     if (known >= 0) local_of_known_[known] = index;
     return index;
@@ -400,7 +391,7 @@ class ChunkParser {
     const std::string_view item_code = out_->items.Code(item_local_);
     if (info.global >= 0) {
       const std::string_view known = state_.headings.Code(state_.item_heading[info.global]);
-      if (!heading.empty() && heading != known) {
+      if (!heading.empty() && !EqualBytes(heading, known)) {
         // An invalid heading is reported as such, as for an item first seen
         // here, so the reason does not depend on where a block ends.
         std::string problem = CheckCode(heading, "heading");
@@ -432,9 +423,9 @@ class ChunkParser {
     }
     if (info.local_heading < 0) {
       *new_heading = out_->headings.Intern(heading);
-    } else if (out_->headings.Code(info.local_heading) != heading) {
+    } else if (!EqualBytes(out_->headings.Code(info.local_heading), heading)) {
       RejectConflict(item_code, heading, out_->headings.Code(info.local_heading),
-                     "line " + std::to_string(info.line));
+                     "line " + std::to_string(out_->item_line[item_local_]));
       return false;
     }
     return true;
@@ -507,8 +498,12 @@ class ChunkParser {
     if (!has_quantity_) return true;
     double quantity = 0.0;
     if (!ReadPositive(columns_.quantity, "quantity", &quantity)) return false;
-    const bool without_reference = std::isnan(info->reference_quantity);
-    const double reference = without_reference ? 1.0 : info->reference_quantity;
+    // reference_quantity of items.csv; NaN when not given.
+    const double reference_quantity = info->global >= 0
+                                          ? state_.item_reference_quantity[info->global]
+                                          : std::numeric_limits<double>::quiet_NaN();
+    const bool without_reference = std::isnan(reference_quantity);
+    const double reference = without_reference ? 1.0 : reference_quantity;
     const double converted = *price * reference / quantity;
     if (!(converted > 0) || !std::isfinite(converted)) {
       Reject(columns_.quantity + 1,
@@ -543,8 +538,6 @@ class ChunkParser {
   std::string_view last_region_, last_item_;
   bool region_cached_ = false, item_cached_ = false;
   int region_local_ = -1, item_local_ = -1;
-  // Per local item, the local item that followed it last (-1: none yet).
-  std::vector<int> successor_;
   // Per item of the survey's table, its local index (-1: not seen yet).
   std::vector<int> local_of_known_;
 };
@@ -898,8 +891,8 @@ class PriceReader {
             state_->headings.Intern(result->headings.Code(info.local_heading));
         // With several price files the origin names its file.
         state_->item_origin[global] = state_->config->survey.prices.size() == 1
-                                          ? "line " + std::to_string(info.line)
-                                          : path_ + ":" + std::to_string(info.line);
+                                          ? "line " + std::to_string(result->item_line[i])
+                                          : path_ + ":" + std::to_string(result->item_line[i]);
       }
     }
     state_->num_quotes += result->rows_used;
