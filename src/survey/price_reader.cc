@@ -163,6 +163,16 @@ uint64_t HashFields(const CsvRecord& record, const PriceColumns& columns) {
   return h;
 }
 
+// Where an item's heading was first stated, at `line` of the price file
+// `path`: "line 40" when the survey has one price file, "rent.csv:40" when
+// it has several. The same text whether the statement was merged from an
+// earlier chunk or block or is in the chunk at hand, so a message does not
+// depend on where blocks end.
+std::string ItemOrigin(const LoadState& state, const std::string& path, int64_t line) {
+  return state.config->survey.prices.size() == 1 ? "line " + std::to_string(line)
+                                                 : path + ":" + std::to_string(line);
+}
+
 // Parses one chunk of prices.csv against the state as it was before the
 // block. The row is read field by field; each step returns false once it has
 // rejected the row.
@@ -425,7 +435,7 @@ class ChunkParser {
       *new_heading = out_->headings.Intern(heading);
     } else if (!EqualBytes(out_->headings.Code(info.local_heading), heading)) {
       RejectConflict(item_code, heading, out_->headings.Code(info.local_heading),
-                     "line " + std::to_string(out_->item_line[item_local_]));
+                     ItemOrigin(state_, path_, out_->item_line[item_local_]));
       return false;
     }
     return true;
@@ -890,9 +900,7 @@ class PriceReader {
         state_->item_heading[global] =
             state_->headings.Intern(result->headings.Code(info.local_heading));
         // With several price files the origin names its file.
-        state_->item_origin[global] = state_->config->survey.prices.size() == 1
-                                          ? "line " + std::to_string(result->item_line[i])
-                                          : path_ + ":" + std::to_string(result->item_line[i]);
+        state_->item_origin[global] = ItemOrigin(*state_, path_, result->item_line[i]);
       }
     }
     state_->num_quotes += result->rows_used;

@@ -200,6 +200,19 @@ TEST(PriceSources, AnItemFiledUnderAnotherHeadingInALaterFileNamesTheFirstFile) 
                                    s.path(0) + ":6");
 }
 
+// Both statements in one chunk of the second file: the first is named by
+// file and line, as when an earlier block stated it (found by fuzzing).
+TEST(PriceSources, AConflictWithinOneOfSeveralFilesNamesThatFileAndLine) {
+  const Sources s = MakeSources("conflict_in_second_file",
+                                {{"main.csv", kWhole},
+                                 {"extra.csv",
+                                  "region,item,price,heading\n"
+                                  "north,fish,4.0,food\n"
+                                  "south,fish,4.5,drink\n"}});
+  EXPECT_EQ(FirstRejection(s), s.path(1) + ":3:4: item 'fish' is filed under heading 'drink' but " +
+                                   "under 'food' at " + s.path(1) + ":2");
+}
+
 TEST(PriceSources, ARowRepeatedInALaterFileIsADuplicateWhateverTheColumnOrder) {
   Sources s = MakeSources("duplicates", {{"main.csv", kWhole},
                                          {"rent.csv",
