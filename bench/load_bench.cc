@@ -1,6 +1,6 @@
 // Loads a survey (written by paritas_synth) and reports seconds, MB/s and
 // peak memory: the figures behind "loading 10 million quotes is fast and lean".
-// Usage: load_bench CONFIG [THREADS]. Run in a fresh process per measurement
+// Usage: load_bench CONFIG [THREADS [BLOCK_MIB]]. Run in a fresh process per measurement
 // so that the peak memory is the load's own.
 #include <sys/resource.h>
 
@@ -14,7 +14,7 @@
 
 int main(int argc, char** argv) {
   if (argc < 2) {
-    std::fprintf(stderr, "usage: load_bench CONFIG [THREADS]\n");
+    std::fprintf(stderr, "usage: load_bench CONFIG [THREADS [BLOCK_MIB]]\n");
     return 1;
   }
   paritas::RunConfig config;
@@ -25,6 +25,7 @@ int main(int argc, char** argv) {
   }
   paritas::LoadOptions options;
   options.num_threads = argc > 2 ? std::atoi(argv[2]) : 0;
+  if (argc > 3) options.block_bytes = static_cast<int64_t>(std::atoi(argv[3])) << 20;
   paritas::Survey survey;
   paritas::LoadSummary summary;
   const auto start = std::chrono::steady_clock::now();

@@ -20,9 +20,11 @@
 #include <cstdint>
 #include <cstring>
 #include <system_error>
+#include <memory>
 #include <unordered_set>
 #include <utility>
 
+#include "base/huge_pages.h"
 #include "paritas/base/text.h"
 
 #if defined(__SSE2__)
@@ -36,24 +38,38 @@ constexpr std::string_view kUtf8Bom = "\xEF\xBB\xBF";
 
 // Returns the first byte in [p, end) that is the delimiter, '"', LF or CR,
 // or `end`. Loads only whole 16-byte blocks inside the range, so it never
-// reads past it.
-inline const char* FindSpecial(const char* p, const char* end, char delimiter) {
+// reads past it. Sets *non_ascii when a byte before the one returned has
+// its high bit set: the same pass tells most records to be ASCII, so they
+// need no UTF-8 check.
+inline const char* FindSpecial(const char* p, const char* end, char delimiter, bool* non_ascii) {
 #if defined(__SSE2__)
   const __m128i comma = _mm_set1_epi8(delimiter);
   const __m128i quote = _mm_set1_epi8('"');
   const __m128i lf = _mm_set1_epi8('\n');
   const __m128i cr = _mm_set1_epi8('\r');
+  unsigned high = 0;  // bytes with the high bit set
   while (end - p >= 16) {
     const __m128i block = _mm_loadu_si128(reinterpret_cast<const __m128i*>(p));
     const __m128i hits =
         _mm_or_si128(_mm_or_si128(_mm_cmpeq_epi8(block, comma), _mm_cmpeq_epi8(block, quote)),
                      _mm_or_si128(_mm_cmpeq_epi8(block, lf), _mm_cmpeq_epi8(block, cr)));
-    const int mask = _mm_movemask_epi8(hits);
-    if (mask != 0) return p + __builtin_ctz(static_cast<unsigned>(mask));
+    const unsigned mask = static_cast<unsigned>(_mm_movemask_epi8(hits));
+    const unsigned block_high = static_cast<unsigned>(_mm_movemask_epi8(block));
+    if (mask != 0) {
+      const int at = __builtin_ctz(mask);
+      // Only the bytes before the special one belong to the field.
+      if ((high | (block_high & ((1u << at) - 1))) != 0) *non_ascii = true;
+      return p + at;
+    }
+    high |= block_high;
     p += 16;
   }
+  if (high != 0) *non_ascii = true;
 #endif
-  while (p < end && *p != delimiter && *p != '"' && *p != '\n' && *p != '\r') ++p;
+  while (p < end && *p != delimiter && *p != '"' && *p != '\n' && *p != '\r') {
+    if (static_cast<unsigned char>(*p) >= 0x80) *non_ascii = true;
+    ++p;
+  }
   return p;
 }
 
@@ -155,12 +171,10 @@ bool CsvReader::Fail(int64_t line, int64_t field_number, const std::string& what
   return false;
 }
 
-bool CsvReader::WithinLimits(const char* record_begin, const char* field_begin,
-                             const char* field_end, const char* record_end, int64_t field_line,
-                             int64_t field_number, bool quoted, CsvRecord* record) {
+bool CsvReader::BeyondLimits(const char* record_begin, const char* field_begin,
+                             const char* field_end, int64_t field_line, int64_t field_number,
+                             bool quoted, CsvRecord* record) {
   const size_t field_bytes = static_cast<size_t>(field_end - field_begin);
-  const size_t record_bytes = static_cast<size_t>(record_end - record_begin);
-  if (field_bytes <= max_field_bytes_ && record_bytes <= max_record_bytes_) return true;
   // Whichever limit is crossed at the earlier byte of the record is named.
   const size_t field_offset = static_cast<size_t>(field_begin - record_begin);
   if (field_bytes > max_field_bytes_ && field_offset + max_field_bytes_ <= max_record_bytes_) {
@@ -180,6 +194,7 @@ bool CsvReader::WithinLimits(const char* record_begin, const char* field_begin,
 bool CsvReader::Next(CsvRecord* record) {
   record->fields.clear();
   record->raw = {};
+  record->ascii = false;
   if (!error_.empty()) return false;
   const char* const begin = data_.data();
   const char* const end = begin + data_.size();
@@ -193,12 +208,15 @@ bool CsvReader::Next(CsvRecord* record) {
   record->line = line_;
   record->offset = record_begin - begin;
   bool has_doubled_quotes = false;
+  // Quoted fields are not looked at byte by byte: a record with one is not
+  // known to be ASCII.
+  bool maybe_non_ascii = false;
   int64_t field_number = 1;
   const char* record_end = end;  // First byte of the line terminator.
   const char* next = end;        // First byte after it.
   for (;;) {
     if (*p != '"') {
-      const char* stop = FindSpecial(p, end, delimiter_);
+      const char* stop = FindSpecial(p, end, delimiter_, &maybe_non_ascii);
       if (!WithinLimits(record_begin, p, stop, stop, line_, field_number, false, record)) {
         return false;
       }
@@ -206,6 +224,7 @@ bool CsvReader::Next(CsvRecord* record) {
       p = stop;
     } else {
       const int64_t open_line = line_;
+      maybe_non_ascii = true;
       const char* const content = p + 1;
       const char* const quote = FindClosingQuote(content, end, &line_, &has_doubled_quotes);
       if (quote == nullptr) {
@@ -263,12 +282,14 @@ bool CsvReader::Next(CsvRecord* record) {
   }
 
   record->raw = std::string_view(record_begin, record_end - record_begin);
+  record->ascii = !maybe_non_ascii;
   pos_ = next - begin;
   if (has_doubled_quotes) CollapseDoubledQuotes(record);
   return true;
 }
 
 bool FindInvalidUtf8(const CsvRecord& record, char delimiter, int64_t* line, int* field) {
+  if (record.ascii) return false;
   const size_t bad = FindInvalidUtf8(record.raw);
   if (bad == std::string_view::npos) return false;
   // The raw text up to the byte, read as the reader does: delimiters outside
@@ -557,9 +578,20 @@ bool CsvBlockReader::Open(std::string* error) {
 }
 
 bool CsvBlockReader::Fill(std::string* error) {
-  if (buffer_.size() < size_ + block_bytes_) buffer_.resize(size_ + block_bytes_);
+  Buffer& buffer = buffers_[current_];
+  if (buffer.capacity < size_ + block_bytes_) {
+    // Room for the block and a record carried over from the one before, not
+    // zero-filled: the file's bytes are read straight into it.
+    const size_t capacity = std::max(size_ + block_bytes_ + (size_t{1} << 20), 2 * buffer.capacity);
+    auto grown = std::make_unique_for_overwrite<char[]>(capacity);
+    internal::AdviseHugePages(grown.get(), capacity);
+    if (size_ > 0) std::memcpy(grown.get(), buffer.bytes.get(), size_);
+    buffer.bytes = std::move(grown);
+    buffer.capacity = capacity;
+  }
   size_t num_read = 0;
-  const int read_errno = ReadFully(fd_, buffer_.data() + size_, block_bytes_, &num_read, &at_eof_);
+  const int read_errno =
+      ReadFully(fd_, buffer.bytes.get() + size_, block_bytes_, &num_read, &at_eof_);
   size_ += num_read;
   num_bytes_read_ += static_cast<int64_t>(num_read);
   if (read_errno != 0) {
@@ -603,9 +635,19 @@ std::string CsvBlockReader::BeyondLimitError(std::string_view pending) const {
 
 bool CsvBlockReader::Next(CsvBlock* block, std::string* error) {
   if (done_) return false;
-  if (consumed_ > 0) {
-    std::memmove(buffer_.data(), buffer_.data() + consumed_, size_ - consumed_);
-    size_ -= consumed_;
+  {
+    // The records not yet handed out move to the other buffer, which the
+    // block before the last one used: the last block's text stays as it is.
+    const Buffer& last = buffers_[current_];
+    current_ = 1 - current_;
+    Buffer& buffer = buffers_[current_];
+    const size_t carried = size_ - consumed_;
+    if (buffer.capacity < carried) {
+      buffer.bytes = std::make_unique_for_overwrite<char[]>(carried);
+      buffer.capacity = carried;
+    }
+    if (carried > 0) std::memcpy(buffer.bytes.get(), last.bytes.get() + consumed_, carried);
+    size_ = carried;
     consumed_ = 0;
   }
   const size_t fresh_begin = size_;
@@ -614,7 +656,7 @@ bool CsvBlockReader::Next(CsvBlock* block, std::string* error) {
       done_ = true;
       return false;
     }
-    const std::string_view data(buffer_.data(), size_);
+    const std::string_view data(buffers_[current_].bytes.get(), size_);
     int64_t skipped_lines = 0;
     const size_t start = started_ ? 0 : SkipLeadingBlankLines(data, &skipped_lines);
     const std::string_view pending = data.substr(start);

@@ -39,6 +39,30 @@ inline bool EqualBytes(std::string_view a, std::string_view b) {
   return true;
 }
 
+// Returns the bytes of a string of `n` <= 8 bytes as one word, read with at
+// most two loads and never outside [p, p + n). Two strings of the same length
+// give the same word exactly when they hold the same bytes (from 4 bytes on
+// the two loads overlap; below, every byte lands in its own lane).
+inline uint64_t ShortWord(const char* p, size_t n) {
+  if (n >= 4) {
+    uint32_t lo, hi;
+    std::memcpy(&lo, p, 4);
+    std::memcpy(&hi, p + n - 4, 4);
+    return lo | (uint64_t{hi} << 32);
+  }
+  if (n == 0) return 0;
+  const auto byte = [p](size_t i) { return uint64_t{static_cast<unsigned char>(p[i])}; };
+  return byte(0) | (byte(n >> 1) << 8) | (byte(n - 1) << 16);
+}
+
+// Mixes two words into one: the high and low halves of their 128-bit
+// product, xored (a "multiply-fold"; one multiplication).
+inline uint64_t MultiplyFold(uint64_t a, uint64_t b) {
+  __extension__ typedef unsigned __int128 Wide;  // GCC and Clang; quiet under -Wpedantic.
+  const Wide product = static_cast<Wide>(a) * b;
+  return static_cast<uint64_t>(product) ^ static_cast<uint64_t>(product >> 64);
+}
+
 }  // namespace paritas::internal
 
 #endif  // PARITAS_INTERNAL_BASE_EQUAL_BYTES_H_

@@ -1,12 +1,20 @@
-// Repeated quote rows are found by sorting (row hash, file position) pairs:
-// O(n log n) once per load, and the earliest row of each run is the one kept,
-// whatever the order the file was parsed in.
+// Repeated quote rows are found among quotes of equal row hash, taken in
+// file order, so the earliest row of each run is the one kept whatever the
+// order the file was parsed in. The (hash, position) pairs are first
+// distributed by the top bits of the hash (a stable counting pass, in
+// parallel over the quotes); each bucket, a few thousand pairs in file
+// order, is then settled with a hash table that fits the cache: linear time,
+// and the same repeats as scanning all pairs sorted by (hash, position).
+#include <omp.h>
+
 #include <algorithm>
 #include <cstdint>
+#include <memory>
 #include <string>
 #include <utility>
 #include <vector>
 
+#include "base/huge_pages.h"
 #include "paritas/base/text.h"
 #include "survey/loader_state.h"
 
@@ -34,10 +42,108 @@ void CompactQuotes(const std::vector<char>& keep, QuoteArrays* quotes) {
   if (weighted) quotes->weight.resize(out);
 }
 
+constexpr uint32_t kNone = UINT32_MAX;
+
+// A row hash and its quote; no initialiser, so an array of them is not
+// zero-filled (its pages are first touched by the threads that fill it).
+struct HashedQuote {
+  uint64_t first;    // row hash
+  uint32_t second;   // quote index
+};
+
+// Marks each quote of a bucket (`order`, in quote order) that repeats an
+// earlier one: among the quotes of equal hash, in quote order, a quote
+// repeats the first of the run before it (that quote's own original when it
+// is a repeat, else that quote) when region, item and ln price are equal too.
+// This is the scan of all pairs sorted by (hash, index), found through a
+// small hash table of each hash's latest quote instead of a sort.
+// repeats[q] = the quote q repeats; `table` is scratch.
+void MarkRepeats(const QuoteArrays& quotes, const HashedQuote* order, size_t n,
+                 std::vector<HashedQuote>* table, uint32_t* repeats) {
+  size_t slots = 16;
+  while (slots < 2 * n) slots *= 2;
+  table->assign(slots, {0, kNone});
+  const size_t mask = slots - 1;
+  for (size_t k = 0; k < n; ++k) {
+    const auto [hash, q] = order[k];
+    size_t slot = hash & mask;
+    while ((*table)[slot].second != kNone && (*table)[slot].first != hash) {
+      slot = (slot + 1) & mask;
+    }
+    HashedQuote& latest = (*table)[slot];
+    if (latest.second != kNone) {
+      const uint32_t previous = latest.second;
+      const uint32_t first = repeats[previous] != kNone ? repeats[previous] : previous;
+      if (quotes.region[q] == quotes.region[first] && quotes.item[q] == quotes.item[first] &&
+          quotes.log_price[q] == quotes.log_price[first]) {
+        repeats[q] = first;
+      }
+    }
+    latest = {hash, q};
+  }
+}
+
+// Returns per quote the earlier quote it repeats, or kNone.
+std::unique_ptr<uint32_t[]> FindRepeats(const QuoteArrays& quotes, int num_threads) {
+  const size_t n = quotes.size();
+  // Set to kNone below by the threads, each its own range.
+  auto repeats = std::make_unique_for_overwrite<uint32_t[]>(n);
+  const std::vector<uint64_t>& hash = quotes.row_hash;
+  // Buckets of about 2,000 pairs (32 KB), at most 2^16 of them.
+  int bits = 0;
+  while (bits < 16 && (n >> bits) > 2048) ++bits;
+  const size_t num_buckets = size_t{1} << bits;
+  const auto bucket_of = [bits](uint64_t h) { return bits == 0 ? 0 : h >> (64 - bits); };
+  num_threads = std::max(1, std::min(num_threads, static_cast<int>(n / 65536) + 1));
+  // counts[t][b]: pairs of thread t's quotes in bucket b, then where they go.
+  std::vector<std::vector<size_t>> counts(num_threads, std::vector<size_t>(num_buckets, 0));
+  const auto order = std::make_unique_for_overwrite<HashedQuote[]>(n);
+  AdviseHugePages(order.get(), n * sizeof(HashedQuote));
+  AdviseHugePages(repeats.get(), n * sizeof(uint32_t));
+  std::vector<size_t> bucket_begin(num_buckets + 1, 0);
+#pragma omp parallel num_threads(num_threads)
+  {
+    const int t = omp_get_thread_num();
+    // Contiguous ranges of quotes in thread order keep each bucket in
+    // quote order (a stable distribution).
+    const size_t from = n * t / num_threads, to = n * (t + 1) / num_threads;
+    std::vector<size_t>& mine = counts[t];
+    std::fill(repeats.get() + from, repeats.get() + to, kNone);
+    for (size_t q = from; q < to; ++q) ++mine[bucket_of(hash[q])];
+#pragma omp barrier
+#pragma omp single
+    {
+      size_t at = 0;
+      for (size_t b = 0; b < num_buckets; ++b) {
+        bucket_begin[b] = at;
+        for (int u = 0; u < num_threads; ++u) {
+          const size_t count = counts[u][b];
+          counts[u][b] = at;
+          at += count;
+        }
+      }
+      bucket_begin[num_buckets] = at;
+    }
+    for (size_t q = from; q < to; ++q) {
+      order[mine[bucket_of(hash[q])]++] = {hash[q], static_cast<uint32_t>(q)};
+    }
+#pragma omp barrier
+    // Equal hashes share a bucket, so each bucket is settled alone.
+    std::vector<HashedQuote> table;
+#pragma omp for schedule(dynamic, 64)
+    for (size_t b = 0; b < num_buckets; ++b) {
+      MarkRepeats(quotes, order.get() + bucket_begin[b], bucket_begin[b + 1] - bucket_begin[b],
+                  &table, repeats.get());
+    }
+  }
+  return repeats;
+}
+
 }  // namespace
 
-void HandleDuplicateQuotes(DuplicateQuotePolicy policy, LoadState* state, Rejections* rejections,
-                           const std::vector<InputFileSummary*>& files, LoadSummary* summary) {
+void HandleDuplicateQuotes(DuplicateQuotePolicy policy, int num_threads, LoadState* state,
+                           Rejections* rejections, const std::vector<InputFileSummary*>& files,
+                           LoadSummary* summary) {
   QuoteArrays& quotes = state->quotes;
   const std::vector<size_t>& begin = state->quote_file_begin;
   // The price file of quote q (quotes are in the order read).
@@ -47,24 +153,10 @@ void HandleDuplicateQuotes(DuplicateQuotePolicy policy, LoadState* state, Reject
   };
   summary->duplicate_policy = policy;
   const size_t n = quotes.size();
-  std::vector<std::pair<uint64_t, uint32_t>> order(n);
-  for (size_t q = 0; q < n; ++q) order[q] = {quotes.row_hash[q], static_cast<uint32_t>(q)};
-  std::sort(order.begin(), order.end());
-  // repeats[q] = the quote q repeats, or -1.
-  std::vector<int64_t> repeats(n, -1);
-  for (size_t k = 1; k < n; ++k) {
-    const uint32_t q = order[k].second;
-    const uint32_t first = order[k - 1].first == order[k].first && repeats[order[k - 1].second] >= 0
-                               ? static_cast<uint32_t>(repeats[order[k - 1].second])
-                               : order[k - 1].second;
-    if (order[k - 1].first == order[k].first && quotes.region[q] == quotes.region[first] &&
-        quotes.item[q] == quotes.item[first] && quotes.log_price[q] == quotes.log_price[first]) {
-      repeats[q] = first;
-    }
-  }
+  const std::unique_ptr<uint32_t[]> repeats = FindRepeats(quotes, num_threads);
   std::vector<char> keep(n, 1);
   for (size_t q = 0; q < n; ++q) {
-    if (repeats[q] < 0) continue;
+    if (repeats[q] == kNone) continue;
     const int64_t line = quotes.line[q], original = quotes.line[repeats[q]];
     const size_t k = file_of(q), first = file_of(static_cast<size_t>(repeats[q]));
     InputFileSummary* file = files[k];

@@ -197,9 +197,11 @@ bool ReadExternalParities(const std::string& path, LoadState* state, Rejections*
 // rejected rows of their file, not as invalid rows); reject rejects each
 // repeat as an invalid row naming the line it repeats. `files` are the price
 // files' summaries in the order read (state->quote_file_begin). Empties the
-// row hashes and lines of the quotes.
-void HandleDuplicateQuotes(DuplicateQuotePolicy policy, LoadState* state, Rejections* rejections,
-                           const std::vector<InputFileSummary*>& files, LoadSummary* summary);
+// row hashes and lines of the quotes. Uses up to `num_threads` (>= 1)
+// threads; the result does not depend on their number.
+void HandleDuplicateQuotes(DuplicateQuotePolicy policy, int num_threads, LoadState* state,
+                           Rejections* rejections, const std::vector<InputFileSummary*>& files,
+                           LoadSummary* summary);
 // Orders regions, headings and items, builds the cells from the quotes
 // (which it empties) and fills the expenditure table.
 void BuildSurvey(LoadState* state, int num_threads, Survey* survey);

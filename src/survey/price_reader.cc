@@ -1,8 +1,9 @@
 // Reads prices.csv, which can hold tens of millions of quotes, in blocks
 // that are split at record boundaries into fixed-size chunks parsed in
-// parallel. Each chunk interns codes and keeps its quotes locally; chunks
-// are merged in file order, so the result does not depend on the number of
-// threads, and the text of at most one block is held at once.
+// parallel while the next block is read. Each chunk interns codes and keeps
+// its quotes locally; chunks are merged in file order (their quotes copied
+// in parallel), so the result does not depend on the number of threads, and
+// the text of at most two blocks is held at once.
 #include <omp.h>
 
 #include <algorithm>
@@ -10,12 +11,14 @@
 #include <cmath>
 #include <cstring>
 #include <filesystem>
+#include <functional>
 #include <limits>
 #include <string>
 #include <unordered_map>
 #include <vector>
 
 #include "base/equal_bytes.h"
+#include "base/huge_pages.h"
 #include "base/sha256.h"
 #include "paritas/base/csv.h"
 #include "paritas/base/text.h"
@@ -44,14 +47,13 @@ struct PriceColumns {
   std::vector<uint64_t> hash_name;
 };
 
-// What a chunk knows about an item it has seen.
+// What a chunk knows about an item it has seen: 16 bytes, read at every row
+// (rows in random order visit thousands of items, and these entries must
+// stay in the cache beside the code tables).
 struct LocalItem {
   int global = -1;         // index in LoadState::items when known before the block
   int local_heading = -1;  // local heading index when first stated in this chunk
-  int64_t line = 0;        // line of that first statement
   int rejected = -1;       // index in LoadState::rejected_codes when items.csv rejected it
-  // reference_quantity of items.csv; NaN when not given.
-  double reference_quantity = std::numeric_limits<double>::quiet_NaN();
   // True once a used row gave a quantity for the item without a reference.
   bool quantity_without_reference = false;
 };
@@ -69,8 +71,13 @@ struct ChunkResult {
   CodeTable items;
   CodeTable headings;
   std::vector<LocalItem> item_info;
+  // Per local item, the line of the row that first stated its heading here.
+  std::vector<int64_t> item_line;
   // Quotes used, with chunk-local region and item indices.
   QuoteArrays quotes;
+  // Local index -> the survey's, set when the chunk is merged (regions:
+  // empty when the chunk holds the survey's indices already).
+  std::vector<int> region_map, item_map;
 
   // Empties the result, keeping the capacity of its arrays.
   void Reset() {
@@ -78,6 +85,7 @@ struct ChunkResult {
     items = CodeTable();
     headings = CodeTable();
     item_info.clear();
+    item_line.clear();
     quotes.region.clear();
     quotes.item.clear();
     quotes.log_price.clear();
@@ -85,6 +93,8 @@ struct ChunkResult {
     quotes.weight.clear();
     quotes.row_hash.clear();
     quotes.line.clear();
+    region_map.clear();
+    item_map.clear();
     rejected.clear();
     num_rejected_not_kept = 0;
     rows_read = 0;
@@ -129,23 +139,38 @@ uint64_t Fnv1a(std::string_view text, uint64_t h = 14695981039346656037ull) {
   return h;
 }
 
-// FNV-1a over every field with its column's name and its length, in the
+// Hashes every field with its column's name and its length, in the
 // columns' hash order, so rows equal field for field (and only those, up to
-// a 2^-64 chance) hash alike, in one file or across files.
+// a 2^-64 chance) hash alike, in one file or across files. A field is read
+// 8 bytes at a time, each word mixed in by one multiply-fold (a byte-wise
+// hash cost a multiplication per byte, most of the row's parse).
 uint64_t HashFields(const CsvRecord& record, const PriceColumns& columns) {
-  uint64_t h = 14695981039346656037ull;
-  auto mix = [&h](uint64_t word) {
-    for (size_t k = 0; k < sizeof(word); ++k) {
-      h = (h ^ static_cast<unsigned char>(word >> (8 * k))) * 1099511628211ull;
-    }
-  };
+  constexpr uint64_t kOdd = 0x9e3779b97f4a7c15ULL;
+  uint64_t h = 0x243f6a8885a308d3ULL;
   for (size_t k = 0; k < columns.hash_order.size(); ++k) {
     const std::string_view field = record.fields[columns.hash_order[k]];
-    mix(columns.hash_name[k]);
-    mix(field.size());
-    h = Fnv1a(field, h);
+    const size_t n = field.size();
+    // Name and length in one word: names hash apart, lengths are small.
+    h = MultiplyFold(h ^ (columns.hash_name[k] + n), kOdd);
+    size_t i = 0;
+    for (; i + 8 <= n; i += 8) {
+      uint64_t word;
+      std::memcpy(&word, field.data() + i, 8);
+      h = MultiplyFold(h ^ word, kOdd);
+    }
+    if (i < n) h = MultiplyFold(h ^ ShortWord(field.data() + i, n - i), kOdd);
   }
   return h;
+}
+
+// Where an item's heading was first stated, at `line` of the price file
+// `path`: "line 40" when the survey has one price file, "rent.csv:40" when
+// it has several. The same text whether the statement was merged from an
+// earlier chunk or block or is in the chunk at hand, so a message does not
+// depend on where blocks end.
+std::string ItemOrigin(const LoadState& state, const std::string& path, int64_t line) {
+  return state.config->survey.prices.size() == 1 ? "line " + std::to_string(line)
+                                                 : path + ":" + std::to_string(line);
 }
 
 // Parses one chunk of prices.csv against the state as it was before the
@@ -156,7 +181,8 @@ class ChunkParser {
   ChunkParser(std::string_view data, int64_t first_line, const PriceColumns& columns,
               const std::string& path, const LoadState& state, bool keep_all_rejected,
               size_t max_rejected, ChunkResult* out)
-      : reader_(data, first_line, /*skip_bom=*/false),
+      : data_(data),
+        reader_(data, first_line, /*skip_bom=*/false),
         columns_(columns),
         path_(path),
         state_(state),
@@ -215,7 +241,7 @@ class ChunkParser {
       }
       if (new_heading >= 0) {
         info.local_heading = new_heading;
-        info.line = record_.line;
+        out_->item_line[item_local_] = record_.line;
       }
       out_->quotes.region.push_back(region_local_);
       out_->quotes.item.push_back(item_local_);
@@ -275,7 +301,7 @@ class ChunkParser {
 
   bool ReadRegion() {
     const std::string_view region = record_.fields[columns_.region];
-    if (region_local_ >= 0 && EqualBytes(region, last_region_)) return true;
+    if (region_cached_ && EqualBytes(region, last_region_)) return true;
     const std::string_view code = Trim(region);
     // With regions.csv every region is known before the first block, and the
     // global table is only read while chunks are parsed: one lookup gives
@@ -283,7 +309,7 @@ class ChunkParser {
     if (state_.regions_fixed) {
       if (const int global = state_.regions.Find(code); global >= 0) {
         region_local_ = global;
-        last_region_ = region;
+        region_cached_ = Remember(region, &last_region_);
         return true;
       }
     }
@@ -302,38 +328,41 @@ class ChunkParser {
       return false;
     }
     region_local_ = out_->regions.Intern(code);
-    last_region_ = region;
+    region_cached_ = Remember(region, &last_region_);
     return true;
   }
 
   bool ReadItem() {
     const std::string_view item = record_.fields[columns_.item];
-    if (item_local_ >= 0 && EqualBytes(item, last_item_)) return true;
-    // Rows run through the items in much the same order in every region,
-    // so the item that followed this one last time is tried before the
-    // table: a byte comparison instead of a hash and a probe. A code in
-    // the table is trimmed and valid, so a match needs no further check.
-    const int previous = item_local_;
-    const int guess = previous >= 0 ? successor_[previous] : -1;
-    if (guess >= 0 && EqualBytes(out_->items.Code(guess), item)) {
-      item_local_ = guess;
-    } else {
-      const std::string_view code = Trim(item);
-      // A code known before this block (items.csv, or an earlier block) is
-      // one lookup in the survey's table, read-only while the chunks are
-      // parsed and valid by construction; the chunk's own table interns
-      // only the codes it has not seen before.
-      const int known = state_.items.empty() ? -1 : state_.items.Find(code);
-      int index = known >= 0 ? local_of_known_[known] : -1;
-      if (index < 0) index = InternItem(code, known);
-      if (index < 0) {
-        item_local_ = -1;
-        return false;
-      }
-      if (previous >= 0) successor_[previous] = index;
-      item_local_ = index;
+    if (item_cached_ && EqualBytes(item, last_item_)) return true;
+    // A code known before this block (items.csv, or an earlier block) is
+    // one lookup in the survey's table, read-only while the chunks are
+    // parsed and valid by construction; the chunk's own table interns only
+    // the codes it has not seen before. (Guessing the item that followed
+    // this one last time saved nothing once a table slot settles a short
+    // code in one read, and rows in random order defeat it.)
+    const std::string_view code = Trim(item);
+    const int known = state_.items.empty() ? -1 : state_.items.Find(code);
+    int index = known >= 0 ? local_of_known_[known] : -1;
+    if (index < 0) index = InternItem(code, known);
+    if (index < 0) {
+      item_local_ = -1;
+      item_cached_ = false;
+      return false;
     }
-    last_item_ = item;
+    item_local_ = index;
+    item_cached_ = Remember(item, &last_item_);
+    return true;
+  }
+
+  // Keeps a view of `field` in *last when it points into the chunk's text,
+  // which outlives the record (a field unescaped into the record's scratch
+  // does not); returns whether it did.
+  bool Remember(std::string_view field, std::string_view* last) const {
+    const auto at = reinterpret_cast<uintptr_t>(field.data());
+    const auto begin = reinterpret_cast<uintptr_t>(data_.data());
+    if (at < begin || at + field.size() > begin + data_.size()) return false;
+    *last = field;
     return true;
   }
 
@@ -357,10 +386,8 @@ class ChunkParser {
         const auto found = state_.rejected_item_index.find(std::string(code));
         if (found != state_.rejected_item_index.end()) rejected = found->second;
       }
-      LocalItem info{global, -1, 0, rejected};
-      if (global >= 0) info.reference_quantity = state_.item_reference_quantity[global];
-      out_->item_info.push_back(info);
-      successor_.push_back(-1);
+      out_->item_info.push_back({global, -1, rejected, false});
+      out_->item_line.push_back(0);
     }
     if (known >= 0) local_of_known_[known] = index;
     return index;
@@ -374,7 +401,7 @@ class ChunkParser {
     const std::string_view item_code = out_->items.Code(item_local_);
     if (info.global >= 0) {
       const std::string_view known = state_.headings.Code(state_.item_heading[info.global]);
-      if (!heading.empty() && heading != known) {
+      if (!heading.empty() && !EqualBytes(heading, known)) {
         // An invalid heading is reported as such, as for an item first seen
         // here, so the reason does not depend on where a block ends.
         std::string problem = CheckCode(heading, "heading");
@@ -406,9 +433,9 @@ class ChunkParser {
     }
     if (info.local_heading < 0) {
       *new_heading = out_->headings.Intern(heading);
-    } else if (out_->headings.Code(info.local_heading) != heading) {
+    } else if (!EqualBytes(out_->headings.Code(info.local_heading), heading)) {
       RejectConflict(item_code, heading, out_->headings.Code(info.local_heading),
-                     "line " + std::to_string(info.line));
+                     ItemOrigin(state_, path_, out_->item_line[item_local_]));
       return false;
     }
     return true;
@@ -481,8 +508,12 @@ class ChunkParser {
     if (!has_quantity_) return true;
     double quantity = 0.0;
     if (!ReadPositive(columns_.quantity, "quantity", &quantity)) return false;
-    const bool without_reference = std::isnan(info->reference_quantity);
-    const double reference = without_reference ? 1.0 : info->reference_quantity;
+    // reference_quantity of items.csv; NaN when not given.
+    const double reference_quantity = info->global >= 0
+                                          ? state_.item_reference_quantity[info->global]
+                                          : std::numeric_limits<double>::quiet_NaN();
+    const bool without_reference = std::isnan(reference_quantity);
+    const double reference = without_reference ? 1.0 : reference_quantity;
     const double converted = *price * reference / quantity;
     if (!(converted > 0) || !std::isfinite(converted)) {
       Reject(columns_.quantity + 1,
@@ -499,6 +530,7 @@ class ChunkParser {
     return true;
   }
 
+  const std::string_view data_;
   CsvReader reader_;
   CsvRecord record_;
   const PriceColumns& columns_;
@@ -511,12 +543,11 @@ class ChunkParser {
   const bool has_flag_;
   const bool has_weight_;
   const bool has_quantity_;
-  // Copies, not views: a field unescaped into record.scratch is overwritten
-  // (or freed) by the next record.
-  std::string last_region_, last_item_;
+  // The last region and item fields read, when they are views into the
+  // chunk's text (see Remember), and their indices.
+  std::string_view last_region_, last_item_;
+  bool region_cached_ = false, item_cached_ = false;
   int region_local_ = -1, item_local_ = -1;
-  // Per local item, the local item that followed it last (-1: none yet).
-  std::vector<int> successor_;
   // Per item of the survey's table, its local index (-1: not seen yet).
   std::vector<int> local_of_known_;
 };
@@ -573,21 +604,25 @@ class PriceReader {
     CsvBlockReader blocks(path_, std::max<int64_t>(options_.block_bytes, 1 << 16), limits_,
                           format_.delimiter);
     if (!blocks.Open(error)) return false;
-    const bool ok = ReadBlocks(&blocks, error);
-    file_->size_bytes = blocks.num_bytes_read();
+    std::string read_error;
+    const bool ok = ReadBlocks(&blocks, &read_error, error);
+    // After a failed parse, the bytes up to the block that failed (a block
+    // read ahead of it does not count).
+    file_->size_bytes = ok || !read_error.empty() ? blocks.num_bytes_read() : bytes_seen_;
     file_->sha256 = digest_.HexDigest();
     return ok;
   }
 
  private:
-  // The blocks hold whole records, at most one block and one record of
-  // text at a time (CsvBlockReader); the first holds the header whole.
-  bool ReadBlocks(CsvBlockReader* blocks, std::string* error) {
+  // The blocks hold whole records (CsvBlockReader); the first holds the
+  // header whole. The next block is read while this one is parsed; a
+  // failure to read it (*read_error) counts once this one is done.
+  bool ReadBlocks(CsvBlockReader* blocks, std::string* read_error, std::string* error) {
     bool header_done = false;
-    CsvBlock block;
-    std::string read_error;
-    while (blocks->Next(&block, &read_error)) {
-      bytes_seen_ = blocks->num_bytes_read();
+    CsvBlock block, next;
+    bool has_block = blocks->Next(&block, read_error);
+    while (has_block) {
+      bytes_seen_ += static_cast<int64_t>(block.fresh.size());
       std::string_view data = block.records;
       int64_t line = block.first_line;
       if (!header_done && !data.empty()) {
@@ -600,10 +635,14 @@ class PriceReader {
         header_done = true;
       }
       // The new bytes are hashed alongside the parse of their block.
-      if (!ParseBlock(data, line, block.fresh, error)) return false;
+      bool has_next = false;
+      const auto read_next = [&] { has_next = blocks->Next(&next, read_error); };
+      if (!ParseBlock(data, line, block.fresh, read_next, error)) return false;
+      std::swap(block, next);
+      has_block = has_next;
     }
-    if (!read_error.empty()) {
-      *error = read_error;
+    if (!read_error->empty()) {
+      *error = *read_error;
       return false;
     }
     if (!header_done) {
@@ -667,11 +706,14 @@ class PriceReader {
     }
   }
 
-  // Parses one block of whole records starting at line `first_line`.
+  // Parses one block of whole records starting at line `first_line`,
+  // hashing `to_hash` and calling `read_next` (which reads the next block)
+  // alongside.
   bool ParseBlock(std::string_view data, int64_t first_line, std::string_view to_hash,
-                  std::string* error) {
+                  const std::function<void()>& read_next, std::string* error) {
     if (data.empty()) {
       digest_.Update(to_hash.data(), to_hash.size());
+      read_next();
       return true;
     }
     std::vector<size_t> starts = ChunkStarts(data);
@@ -693,14 +735,20 @@ class PriceReader {
     const bool keep_all = options_.invalid_rows == InvalidRowPolicy::kSkip;
     const size_t max_rejected = static_cast<size_t>(std::max(options_.max_reported_rows, 0));
     const int num_chunks = static_cast<int>(starts.size());
-    // One more task than chunks: it hashes the block's new bytes while the
-    // chunks are parsed (blocks are hashed in order: one block at a time).
-#pragma omp parallel for schedule(dynamic, 1) num_threads(NumThreads(num_chunks + 1))
-    for (int c = 0; c <= num_chunks; ++c) {
-      if (c == num_chunks) {
+    // Two more tasks than chunks, first in line: one reads the next block,
+    // one hashes this block's new bytes (blocks are hashed in order: one
+    // block at a time), while the chunks are parsed.
+#pragma omp parallel for schedule(dynamic, 1) num_threads(NumThreads(num_chunks + 2))
+    for (int task = 0; task < num_chunks + 2; ++task) {
+      if (task == 0) {
+        read_next();
+        continue;
+      }
+      if (task == 1) {
         digest_.Update(to_hash.data(), to_hash.size());
         continue;
       }
+      const int c = task - 2;
       const size_t end = c + 1 < num_chunks ? starts[c + 1] : data.size();
       ParsePriceChunk(data.substr(starts[c], end - starts[c]), lines[c], columns_, path_, *state_,
                       keep_all, max_rejected, &results[c]);
@@ -722,16 +770,21 @@ class PriceReader {
       block_rows_used += result.rows_used;
     }
     ReserveQuotes(block_rows_read, block_rows_used);
-    for (ChunkResult& result : results) {
-      // The rows before a malformed record count as read whatever the block
-      // size, so the summary of a failed load does not depend on it.
+    // Merged in file order up to a malformed record: the rows before it
+    // count as read whatever the block size, so the summary of a failed
+    // load does not depend on it.
+    size_t num_merged = 0;
+    bool malformed = false;
+    while (num_merged < results.size() && !malformed) {
+      ChunkResult& result = results[num_merged++];
       Merge(&result);
       if (!result.fatal.empty()) {
         *error = result.fatal;
-        return false;
+        malformed = true;
       }
     }
-    return true;
+    AppendQuotes(results, num_merged);
+    return !malformed;
   }
 
   // At the first block, sizes the survey's quote arrays for the whole file
@@ -757,6 +810,13 @@ class PriceReader {
     if (columns_.weight >= 0) quotes.weight.reserve(total);
     quotes.row_hash.reserve(total);
     quotes.line.reserve(total);
+    AdviseHugePages(quotes.region);
+    AdviseHugePages(quotes.item);
+    AdviseHugePages(quotes.log_price);
+    AdviseHugePages(quotes.representative);
+    AdviseHugePages(quotes.weight);
+    AdviseHugePages(quotes.row_hash);
+    AdviseHugePages(quotes.line);
   }
 
   // Adds a chunk's rows for one item and heading to the item's conflict.
@@ -776,20 +836,6 @@ class PriceReader {
       }
     }
     others.push_back({conflict.heading, conflict.num_rows, conflict.first_line, path_});
-  }
-
-  // Appends `local` (or n times `fill` when empty) to `global`, which holds
-  // `before` values or none yet: an array stays empty until a file has it.
-  template <typename T>
-  static void AppendOrFill(const std::vector<T>& local, T fill, size_t n, std::vector<T>* global,
-                           size_t before) {
-    if (local.empty() && global->empty()) return;
-    if (global->empty()) global->assign(before, fill);
-    if (local.empty()) {
-      global->insert(global->end(), n, fill);
-    } else {
-      global->insert(global->end(), local.begin(), local.end());
-    }
   }
 
   int NumThreads(int num_chunks) const {
@@ -828,11 +874,13 @@ class PriceReader {
     for (const ConflictCount& conflict : result->conflicts) MergeConflict(conflict);
     // With regions.csv the chunks hold the survey's region indices already.
     const bool regions_global = state_->regions_fixed;
-    std::vector<int> region_map(regions_global ? 0 : result->regions.size());
+    std::vector<int>& region_map = result->region_map;
+    region_map.resize(regions_global ? 0 : result->regions.size());
     for (int r = 0; r < static_cast<int>(region_map.size()); ++r) {
       region_map[r] = state_->regions.Intern(result->regions.Code(r));
     }
-    std::vector<int> item_map(result->items.size());
+    std::vector<int>& item_map = result->item_map;
+    item_map.resize(result->items.size());
     for (int i = 0; i < result->items.size(); ++i) {
       const LocalItem& info = result->item_info[i];
       const std::string_view code = result->items.Code(i);
@@ -852,29 +900,65 @@ class PriceReader {
         state_->item_heading[global] =
             state_->headings.Intern(result->headings.Code(info.local_heading));
         // With several price files the origin names its file.
-        state_->item_origin[global] = state_->config->survey.prices.size() == 1
-                                          ? "line " + std::to_string(info.line)
-                                          : path_ + ":" + std::to_string(info.line);
+        state_->item_origin[global] = ItemOrigin(*state_, path_, result->item_line[i]);
       }
     }
     state_->num_quotes += result->rows_used;
-    const QuoteArrays& local = result->quotes;
+  }
+
+  // Appends the quotes of the first `num_chunks` merged chunks to the
+  // survey's, in file order: the arrays are sized once, then each chunk's
+  // quotes are copied (and their indices mapped) in parallel.
+  void AppendQuotes(const std::vector<ChunkResult>& results, size_t num_chunks) {
     QuoteArrays& global = state_->quotes;
-    if (regions_global) {
-      global.region.insert(global.region.end(), local.region.begin(), local.region.end());
-    } else {
-      for (size_t q = 0; q < local.size(); ++q) global.region.push_back(region_map[local.region[q]]);
+    const size_t before = global.size();
+    std::vector<size_t> offset(num_chunks + 1, before);
+    bool has_flag = !global.representative.empty(), has_weight = !global.weight.empty();
+    for (size_t c = 0; c < num_chunks; ++c) {
+      offset[c + 1] = offset[c] + results[c].quotes.size();
+      has_flag = has_flag || !results[c].quotes.representative.empty();
+      has_weight = has_weight || !results[c].quotes.weight.empty();
     }
-    for (size_t q = 0; q < local.size(); ++q) global.item.push_back(item_map[local.item[q]]);
-    global.log_price.insert(global.log_price.end(), local.log_price.begin(), local.log_price.end());
-    // A flag or weight column of some files only: the quotes of the others
-    // are not representative and weigh 1.
-    AppendOrFill(local.representative, uint8_t{0}, local.size(), &global.representative,
-                 global.item.size() - local.size());
-    AppendOrFill(local.weight, 1.0, local.size(), &global.weight,
-                 global.item.size() - local.size());
-    global.row_hash.insert(global.row_hash.end(), local.row_hash.begin(), local.row_hash.end());
-    global.line.insert(global.line.end(), local.line.begin(), local.line.end());
+    const size_t total = offset[num_chunks];
+    if (total == before) return;
+    // An array stays empty until a file has its column; the quotes of the
+    // other files are not representative (0) and weigh 1.
+    if (has_flag && global.representative.empty()) global.representative.assign(before, 0);
+    if (has_weight && global.weight.empty()) global.weight.assign(before, 1.0);
+    const int num_threads = NumThreads(static_cast<int>(num_chunks));
+    // Each array is grown by one thread (growing fills it).
+#pragma omp parallel for schedule(dynamic, 1) num_threads(num_threads)
+    for (int a = 0; a < 7; ++a) {
+      switch (a) {
+        case 0: global.region.resize(total); break;
+        case 1: global.item.resize(total); break;
+        case 2: global.log_price.resize(total); break;
+        case 3: global.row_hash.resize(total); break;
+        case 4: global.line.resize(total); break;
+        case 5: if (has_flag) global.representative.resize(total, 0); break;
+        default: if (has_weight) global.weight.resize(total, 1.0); break;
+      }
+    }
+#pragma omp parallel for schedule(dynamic, 1) num_threads(num_threads)
+    for (size_t c = 0; c < num_chunks; ++c) {
+      const QuoteArrays& local = results[c].quotes;
+      const size_t at = offset[c], n = local.size();
+      const std::vector<int>& region_map = results[c].region_map;
+      const std::vector<int>& item_map = results[c].item_map;
+      if (region_map.empty()) {
+        std::copy_n(local.region.begin(), n, global.region.begin() + at);
+      } else {
+        for (size_t q = 0; q < n; ++q) global.region[at + q] = region_map[local.region[q]];
+      }
+      for (size_t q = 0; q < n; ++q) global.item[at + q] = item_map[local.item[q]];
+      std::copy_n(local.log_price.begin(), n, global.log_price.begin() + at);
+      if (!local.representative.empty()) {
+        std::copy_n(local.representative.begin(), n, global.representative.begin() + at);
+      }
+      if (!local.weight.empty()) std::copy_n(local.weight.begin(), n, global.weight.begin() + at);
+      std::copy_n(local.row_hash.begin(), n, global.row_hash.begin() + at);
+      std::copy_n(local.line.begin(), n, global.line.begin() + at);
+    }
   }
 
  private:

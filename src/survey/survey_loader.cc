@@ -276,8 +276,9 @@ bool LoadSurvey(const RunConfig& config, const LoadOptions& options, Survey* sur
   if (!ReadPriceFiles(config, options, &state, &rejections, price_files, &error)) {
     return fail(error);
   }
-  internal::HandleDuplicateQuotes(config.duplicate_quotes, &state, &rejections, price_files,
-                                  summary);
+  const int num_threads = options.num_threads > 0 ? options.num_threads : omp_get_max_threads();
+  internal::HandleDuplicateQuotes(config.duplicate_quotes, num_threads, &state, &rejections,
+                                  price_files, summary);
   if (!internal::ReadExpenditure(expenditure_file.path, &state, &rejections, &expenditure_file,
                                  &error)) {
     return fail(error);
@@ -317,8 +318,7 @@ bool LoadSurvey(const RunConfig& config, const LoadOptions& options, Survey* sur
   // The cells stage runs from here to the end of the load, so the two
   // stages cover it whole.
   const auto cells_start = std::chrono::steady_clock::now();
-  internal::BuildSurvey(
-      &state, options.num_threads > 0 ? options.num_threads : omp_get_max_threads(), survey);
+  internal::BuildSurvey(&state, num_threads, survey);
   if (!files.external_parities.empty()) FillExternalParities(state, survey);
   const bool grouped = ApplyGroupsAndLabels(config, &survey->classification, &error);
   summary->cells_seconds = SecondsSince(cells_start);

@@ -18,6 +18,7 @@
 #include <thread>
 #include <vector>
 
+#include "paritas/base/code_table.h"
 #include "test_util.h"
 
 namespace paritas {
@@ -804,6 +805,78 @@ TEST(CsvBlockReader, YieldsTheRecordsOfOnePassWhateverTheBlockSize) {
     EXPECT_TRUE(read.has_bom);
     EXPECT_EQ(read.num_bytes_read, static_cast<int64_t>(data.size()));
   }
+}
+
+// A slot holds a code's length and first 8 bytes: codes sharing them, and
+// codes of every short length, must still be told apart.
+TEST(CodeTable, TellsApartCodesSharingTheirFirstBytesAndShortCodes) {
+  const std::vector<std::string> codes = {"",          "a",         "ab",        "abc",
+                                          "abcd",      "abcdefgh",  "abcdefgh1", "abcdefgh2",
+                                          "abcdefgh12345678x", "abcdefgh12345678y", "ba", "b a"};
+  CodeTable table;
+  for (size_t k = 0; k < codes.size(); ++k) EXPECT_EQ(table.Intern(codes[k]), static_cast<int>(k));
+  for (int round = 0; round < 300; ++round) table.Intern("x" + std::to_string(round));  // grows
+  for (size_t k = 0; k < codes.size(); ++k) {
+    EXPECT_EQ(table.Find(codes[k]), static_cast<int>(k)) << codes[k];
+    EXPECT_EQ(table.Intern(codes[k]), static_cast<int>(k)) << codes[k];
+    EXPECT_EQ(table.Code(static_cast<int>(k)), codes[k]);
+  }
+  EXPECT_EQ(table.Find("abcdefgh3"), -1);
+  EXPECT_EQ(table.Find("abcdefgh12345678z"), -1);
+  EXPECT_EQ(table.Find("aa"), -1);
+  EXPECT_EQ(table.size(), static_cast<int>(codes.size()) + 300);
+}
+
+// The price reader parses a block while the next one is read: the text of
+// the block handed out last must not move or change during that call.
+TEST(CsvBlockReader, KeepsTheLastBlockIntactWhileTheNextIsRead) {
+  std::string data = "region,value\n";
+  for (int row = 0; row < 2000; ++row) data += "r" + std::to_string(row) + "," + std::to_string(row % 97) + "\n";
+  const std::string path = MakeTempDir("csv_blocks_kept") + "/data.csv";
+  WriteTextFile(path, data);
+  CsvBlockReader blocks(path, 100, ReadLimits());
+  std::string error;
+  ASSERT_TRUE(blocks.Open(&error)) << error;
+  CsvBlock last, next;
+  ASSERT_TRUE(blocks.Next(&last, &error));
+  std::string joined;
+  int num_blocks = 1;
+  for (;;) {
+    const std::string copy(last.records);
+    const char* const where = last.records.data();
+    const bool more = blocks.Next(&next, &error);
+    // The view still points where it did, at the same text.
+    EXPECT_EQ(last.records.data(), where);
+    EXPECT_TRUE(last.records == copy) << "block " << num_blocks;
+    joined += copy;
+    if (!more) break;
+    last = next;
+    ++num_blocks;
+  }
+  EXPECT_EQ(error, "");
+  EXPECT_GT(num_blocks, 100);
+  EXPECT_TRUE(joined == data);
+}
+
+// Only records the field scan saw to be ASCII skip the UTF-8 check.
+TEST(CsvReader, MarksRecordsSeenToBeAsciiOnly) {
+  const std::string data =
+      "plain,ascii,row\n"
+      "z\xc3\xbcrich,ok\n"
+      "a longer field that takes more than sixteen bytes,\xff\n"
+      "\"quoted\",x\n";
+  CsvReader reader(data);
+  CsvRecord record;
+  std::vector<bool> ascii;
+  while (reader.Next(&record)) ascii.push_back(record.ascii);
+  EXPECT_EQ(ascii, (std::vector<bool>{true, false, false, false}));
+  int64_t line = 0;
+  int field = 0;
+  CsvReader again(data);
+  for (int k = 0; k < 3; ++k) again.Next(&record);
+  ASSERT_TRUE(FindInvalidUtf8(record, ',', &line, &field));
+  EXPECT_EQ(line, 3);
+  EXPECT_EQ(field, 2);
 }
 
 // Records beyond a limit are named by the limit crossed at the earlier

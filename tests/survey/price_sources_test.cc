@@ -4,6 +4,7 @@
 // computed by hand in the comment beside them or compared with the same
 // survey read from one file.
 #include <cmath>
+#include <map>
 #include <optional>
 #include <string>
 #include <vector>
@@ -199,6 +200,19 @@ TEST(PriceSources, AnItemFiledUnderAnotherHeadingInALaterFileNamesTheFirstFile) 
                                    s.path(0) + ":6");
 }
 
+// Both statements in one chunk of the second file: the first is named by
+// file and line, as when an earlier block stated it (found by fuzzing).
+TEST(PriceSources, AConflictWithinOneOfSeveralFilesNamesThatFileAndLine) {
+  const Sources s = MakeSources("conflict_in_second_file",
+                                {{"main.csv", kWhole},
+                                 {"extra.csv",
+                                  "region,item,price,heading\n"
+                                  "north,fish,4.0,food\n"
+                                  "south,fish,4.5,drink\n"}});
+  EXPECT_EQ(FirstRejection(s), s.path(1) + ":3:4: item 'fish' is filed under heading 'drink' but " +
+                                   "under 'food' at " + s.path(1) + ":2");
+}
+
 TEST(PriceSources, ARowRepeatedInALaterFileIsADuplicateWhateverTheColumnOrder) {
   Sources s = MakeSources("duplicates", {{"main.csv", kWhole},
                                          {"rent.csv",
@@ -215,6 +229,47 @@ TEST(PriceSources, ARowRepeatedInALaterFileIsADuplicateWhateverTheColumnOrder) {
                                                  ":7 field for field (duplicate_quotes: reject)");
   EXPECT_EQ(summary.files[3].rows_rejected, 1);
   EXPECT_EQ(summary.files[2].rows_rejected, 0);
+}
+
+// Enough quotes for the duplicate search to spread them over many hash
+// buckets and two threads: each repeat must still name the earliest row it
+// repeats (found here from a map of row text to its first line), in file
+// order, with a third copy naming the first, not the second.
+TEST(PriceSources, ManyRowsGiveEachRepeatTheEarliestRowItRepeats) {
+  const char* const kRegions[] = {"north", "south", "east"};
+  std::string text = "region,item,price,heading\n";
+  std::vector<std::string> rows;
+  for (int k = 0; k < 30000; ++k) {
+    rows.push_back(std::string(kRegions[k % 3]) + ",i" + std::to_string(k % 500) + "," +
+                   std::to_string(1 + k % 7919) + ".25,food");
+    if (k % 997 == 996) rows.push_back(rows[k / 2]);
+    if (k % 4999 == 4998) rows.push_back(rows[k / 2]);
+  }
+  std::map<std::string, int64_t> first_line;
+  std::vector<std::string> expected;
+  for (size_t k = 0; k < rows.size(); ++k) {
+    text += rows[k] + "\n";
+    const int64_t line = static_cast<int64_t>(k) + 2;
+    const auto [it, inserted] = first_line.emplace(rows[k], line);
+    if (!inserted) {
+      expected.push_back(":" + std::to_string(line) + ": the row repeats line " +
+                         std::to_string(it->second) + " field for field (duplicate_quotes: reject)");
+    }
+  }
+  Sources s = MakeSources("many_duplicates", {{"prices.csv", text}});
+  s.config.duplicate_quotes = DuplicateQuotePolicy::kReject;
+  LoadOptions options;
+  options.invalid_rows = InvalidRowPolicy::kSkip;
+  options.num_threads = 2;
+  Survey survey;
+  const LoadSummary summary = Load(s.config, &survey, options);
+  ASSERT_GT(expected.size(), 30u);
+  EXPECT_EQ(summary.num_duplicate_quotes, static_cast<int64_t>(expected.size()));
+  ASSERT_EQ(summary.rejected_rows.size(), expected.size());
+  for (size_t k = 0; k < expected.size(); ++k) {
+    EXPECT_EQ(summary.rejected_rows[k].reason, s.path(0) + expected[k]);
+  }
+  EXPECT_EQ(survey.num_quotes, static_cast<int64_t>(rows.size() - expected.size()));
 }
 
 TEST(PriceSources, ARowWithAnotherColumnIsNoDuplicate) {

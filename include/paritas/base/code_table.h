@@ -2,7 +2,9 @@
 //
 // An open-addressing table over one string arena: a lookup hashes the code
 // once and compares bytes, with no allocation, which keeps the survey reader
-// near the speed of a plain parse.
+// near the speed of a plain parse. Each slot holds the code's length and its
+// first bytes, so a lookup of a code of up to 8 bytes (most codes) reads one
+// slot and never the arena: rows in random order stay within a small table.
 #ifndef PARITAS_BASE_CODE_TABLE_H_
 #define PARITAS_BASE_CODE_TABLE_H_
 
@@ -37,12 +39,21 @@ class CodeTable {
   static uint64_t Hash(std::string_view code);
 
  private:
+  struct Slot {
+    // The code's bytes as internal::ShortWord gives them (its first 8
+    // bytes for a longer code).
+    uint64_t word = 0;
+    uint32_t index_plus_one = 0;  // 0 = empty
+    uint32_t size = 0;            // bytes of the code
+  };
+  // The code's word and hash.
+  static uint64_t Word(std::string_view code);
+  static uint64_t HashOf(std::string_view code, uint64_t word);
   void Grow();
 
   std::string arena_;
   std::vector<uint32_t> offsets_{0};
-  // Slot -> index + 1 (0 = empty).
-  std::vector<uint32_t> slots_;
+  std::vector<Slot> slots_;
 };
 
 }  // namespace paritas

@@ -8,6 +8,7 @@
 #define PARITAS_BASE_CSV_H_
 
 #include <cstdint>
+#include <memory>
 #include <string>
 #include <string_view>
 #include <unordered_map>
@@ -32,6 +33,10 @@ struct CsvRecord {
   std::string_view raw;
   // Storage for fields that needed unescaping ("" -> ").
   std::string scratch;
+  // True when the reader saw that every byte of the record is ASCII (so it
+  // is valid UTF-8); false when it holds other bytes or was not looked at
+  // byte by byte (a quoted field).
+  bool ascii = false;
 };
 
 // How a CSV input is written. The defaults are RFC 4180's comma and the
@@ -112,7 +117,17 @@ class CsvReader {
   // false when a limit is exceeded.
   bool WithinLimits(const char* record_begin, const char* field_begin, const char* field_end,
                     const char* record_end, int64_t field_line, int64_t field_number, bool quoted,
-                    CsvRecord* record);
+                    CsvRecord* record) {
+    if (static_cast<size_t>(field_end - field_begin) <= max_field_bytes_ &&
+        static_cast<size_t>(record_end - record_begin) <= max_record_bytes_) {
+      return true;
+    }
+    return BeyondLimits(record_begin, field_begin, field_end, field_line, field_number, quoted,
+                        record);
+  }
+  // Fails with the message for the limit a field or record crossed first.
+  bool BeyondLimits(const char* record_begin, const char* field_begin, const char* field_end,
+                    int64_t field_line, int64_t field_number, bool quoted, CsvRecord* record);
 
   std::string_view data_;
   size_t pos_ = 0;
@@ -163,7 +178,9 @@ size_t LastRecordEnd(std::string_view data);
 int64_t CountLineFeeds(std::string_view data);
 
 // A run of whole records handed out by CsvBlockReader. The views point into
-// the reader's buffer and stay valid until its next call of Next.
+// the reader's buffers and stay valid until its second call of Next after
+// the one that returned them, so one block can be parsed while the next one
+// is read.
 struct CsvBlock {
   // Whole records starting at a record boundary, to be read with
   // CsvReader(records, first_line, /*skip_bom=*/false). The first block
@@ -180,7 +197,8 @@ struct CsvBlock {
 };
 
 // Reads a file of any kind -- a regular file, a pipe, a FIFO, a device such
-// as /dev/zero -- in blocks of whole records, holding at most one block plus
+// as /dev/zero -- in blocks of whole records, holding at most two blocks
+// (the one handed out last and the one being read) plus
 // limits.max_record_bytes of text whatever the file is. The file's size as
 // reported by the system is only a hint for the first allocation. A record
 // that does not end within limits.max_record_bytes (a file without line
@@ -219,15 +237,24 @@ class CsvBlockReader {
   // already longer than the limit.
   std::string BeyondLimitError(std::string_view pending) const;
 
+  // A buffer of text, not zero-filled when allocated.
+  struct Buffer {
+    std::unique_ptr<char[]> bytes;
+    size_t capacity = 0;
+  };
+
   std::string path_;
   size_t block_bytes_;
   ReadLimits limits_;
   char delimiter_;
   int fd_ = -1;
-  std::string buffer_;
-  size_t size_ = 0;       // bytes of buffer_ holding file data
+  // Calls of Next alternate between the two, so the text of the block
+  // handed out last stays valid while the next one is read.
+  Buffer buffers_[2];
+  int current_ = 0;       // the buffer being filled or handed out
+  size_t size_ = 0;       // bytes of the current buffer holding file data
   size_t consumed_ = 0;   // bytes at the front handed out by the last call
-  int64_t line_ = 1;      // line number of buffer_[consumed_]
+  int64_t line_ = 1;      // line number of the current buffer's byte consumed_
   bool started_ = false;  // the first record has been found
   bool at_eof_ = false;
   bool done_ = false;
