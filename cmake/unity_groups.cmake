@@ -25,12 +25,12 @@ set_source_files_properties(
   src/aggregation/methods/additive.cc
   src/aggregation/methods/geary_khamis.cc
   src/aggregation/methods/ikle_dikhanov_balk.cc
-  src/aggregation/methods/geks_fisher.cc
+  src/aggregation/methods/spanning_tree.cc
   PROPERTIES UNITY_GROUP aggregation_1)
 set_source_files_properties(
   src/aggregation/bilateral_matrix.cc
+  src/aggregation/methods/geks_fisher.cc
   src/aggregation/methods/geks_tornqvist.cc
-  src/aggregation/methods/spanning_tree.cc
   src/aggregation/methods/weighted_cpd.cc
   src/aggregation/methods/registry.cc
   PROPERTIES UNITY_GROUP aggregation_2)
