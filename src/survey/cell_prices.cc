@@ -249,7 +249,7 @@ void CellsByDenseKey(QuoteArrays* quote_arrays, int num_regions, int num_items, 
       if (weighted) buckets.weight[at] = quotes.weight[q];
     }
   }
-  count = {};
+  std::vector<std::vector<int64_t>>().swap(count);
   // The buckets hold all the cells need: the quotes go before the cell
   // arrays are allocated, so the two are never held at once.
   *quote_arrays = QuoteArrays();
@@ -303,7 +303,7 @@ void CellsBySortedPositions(const QuoteArrays& quotes, int num_regions, int num_
     std::partial_sum(start.begin(), start.end(), start.begin());
     for (uint32_t q : by_region) order[start[quotes.item[q]]++] = q;
   }
-  by_region = {};
+  std::vector<uint32_t>().swap(by_region);  // released (`= {}` would keep it)
   size_t num_cells = 0;
   for (int64_t k = 0; k < n; ++k) {
     const uint32_t q = order[k], p = k > 0 ? order[k - 1] : 0;
