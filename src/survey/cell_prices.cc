@@ -183,8 +183,9 @@ void WriteItemCells(const ItemBuckets& buckets, const uint64_t* bits, int num_re
 // and each item's few quotes are then sorted by region in a small scratch.
 // A bit per key, set while counting, says which cells exist, so every
 // item knows where its cells go before any is written.
-void CellsByDenseKey(const QuoteArrays& quotes, int num_regions, int num_items, int num_threads,
+void CellsByDenseKey(QuoteArrays* quote_arrays, int num_regions, int num_items, int num_threads,
                      CellPrices* cells) {
+  const QuoteArrays& quotes = *quote_arrays;
   const int64_t n = static_cast<int64_t>(quotes.size());
   const int64_t num_keys = static_cast<int64_t>(num_regions) * num_items;
   const int64_t num_words = (num_keys + 63) / 64;
@@ -248,7 +249,10 @@ void CellsByDenseKey(const QuoteArrays& quotes, int num_regions, int num_items, 
       if (weighted) buckets.weight[at] = quotes.weight[q];
     }
   }
-  count = {};
+  std::vector<std::vector<int64_t>>().swap(count);
+  // The buckets hold all the cells need: the quotes go before the cell
+  // arrays are allocated, so the two are never held at once.
+  *quote_arrays = QuoteArrays();
   const int64_t num_cells = word_rank[num_words];
   ResizeAdvised(num_cells, &cells->region);
   ResizeAdvised(num_cells, &cells->item);
@@ -299,7 +303,7 @@ void CellsBySortedPositions(const QuoteArrays& quotes, int num_regions, int num_
     std::partial_sum(start.begin(), start.end(), start.begin());
     for (uint32_t q : by_region) order[start[quotes.item[q]]++] = q;
   }
-  by_region = {};
+  std::vector<uint32_t>().swap(by_region);  // released (`= {}` would keep it)
   size_t num_cells = 0;
   for (int64_t k = 0; k < n; ++k) {
     const uint32_t q = order[k], p = k > 0 ? order[k - 1] : 0;
@@ -324,17 +328,19 @@ void CellsBySortedPositions(const QuoteArrays& quotes, int num_regions, int num_
 
 }  // namespace
 
-void CellsFromQuotes(const QuoteArrays& quotes, int num_regions, int num_items, int num_threads,
+void CellsFromQuotes(QuoteArrays* quotes_in, int num_regions, int num_items, int num_threads,
                      CellPrices* cells) {
+  const QuoteArrays& quotes = *quotes_in;
   *cells = CellPrices();
   // A dense count array costs 4 bytes per possible cell: worth it up to a
   // few times the number of quotes.
   const int64_t num_keys = static_cast<int64_t>(num_regions) * num_items;
   if (num_keys <= std::max<int64_t>(4 * static_cast<int64_t>(quotes.size()), 1 << 20)) {
-    CellsByDenseKey(quotes, num_regions, num_items, num_threads, cells);
+    CellsByDenseKey(quotes_in, num_regions, num_items, num_threads, cells);
   } else {
     CellsBySortedPositions(quotes, num_regions, num_items, cells);
   }
+  *quotes_in = QuoteArrays();
 }
 
 void FillHeadingRanges(Survey* survey) {

@@ -86,8 +86,11 @@ struct QuoteArrays {
 // order, and each cell's moments are accumulated in that order, so cells do
 // not depend on how the file was split for parsing. Items must already be
 // ordered by heading. Linear in the number of quotes; `num_threads` (>= 1)
-// threads share the work without changing the result.
-void CellsFromQuotes(const QuoteArrays& quotes, int num_regions, int num_items, int num_threads,
+// threads share the work without changing the result. Empties `quotes`, as
+// soon as they are no longer needed (before the cell arrays are allocated
+// when the cells are counted densely), so that quotes and cells are not held
+// at once.
+void CellsFromQuotes(QuoteArrays* quotes, int num_regions, int num_items, int num_threads,
                      CellPrices* cells);
 
 // Fills survey->heading_range from the sorted cells and item_heading.

@@ -108,9 +108,8 @@ void BuildCells(const std::vector<int>& region_new, const std::vector<int>& item
     quote_region[q] = region_new[quote_region[q]];
     quote_item[q] = item_new[quote_item[q]];
   }
-  CellsFromQuotes(state->quotes, survey->num_regions(), survey->num_items(), num_threads,
-                  &survey->cells);
-  state->quotes = QuoteArrays();
+  CellsFromQuotes(&state->quotes, survey->num_regions(), survey->num_items(), num_threads,
+                  &survey->cells);  // empties the quotes
   FillHeadingRanges(survey);
   survey->num_quotes = state->num_quotes;
 }

@@ -4,9 +4,9 @@
 // computed by hand in the comment beside them or compared with the same
 // survey read from one file.
 #include <cmath>
-#include <map>
 #include <optional>
 #include <string>
+#include <unordered_map>
 #include <vector>
 
 #include "paritas/base/text.h"
@@ -235,17 +235,17 @@ TEST(PriceSources, ARowRepeatedInALaterFileIsADuplicateWhateverTheColumnOrder) {
 // buckets and two threads: each repeat must still name the earliest row it
 // repeats (found here from a map of row text to its first line), in file
 // order, with a third copy naming the first, not the second.
-TEST(PriceSources, ManyRowsGiveEachRepeatTheEarliestRowItRepeats) {
+void ExpectEachRepeatNamesTheEarliestRow(int num_rows, const std::string& name) {
   const char* const kRegions[] = {"north", "south", "east"};
   std::string text = "region,item,price,heading\n";
   std::vector<std::string> rows;
-  for (int k = 0; k < 30000; ++k) {
+  for (int k = 0; k < num_rows; ++k) {
     rows.push_back(std::string(kRegions[k % 3]) + ",i" + std::to_string(k % 500) + "," +
                    std::to_string(1 + k % 7919) + ".25,food");
     if (k % 997 == 996) rows.push_back(rows[k / 2]);
     if (k % 4999 == 4998) rows.push_back(rows[k / 2]);
   }
-  std::map<std::string, int64_t> first_line;
+  std::unordered_map<std::string, int64_t> first_line;
   std::vector<std::string> expected;
   for (size_t k = 0; k < rows.size(); ++k) {
     text += rows[k] + "\n";
@@ -256,7 +256,7 @@ TEST(PriceSources, ManyRowsGiveEachRepeatTheEarliestRowItRepeats) {
                          std::to_string(it->second) + " field for field (duplicate_quotes: reject)");
     }
   }
-  Sources s = MakeSources("many_duplicates", {{"prices.csv", text}});
+  Sources s = MakeSources(name, {{"prices.csv", text}});
   s.config.duplicate_quotes = DuplicateQuotePolicy::kReject;
   LoadOptions options;
   options.invalid_rows = InvalidRowPolicy::kSkip;
@@ -270,6 +270,15 @@ TEST(PriceSources, ManyRowsGiveEachRepeatTheEarliestRowItRepeats) {
     EXPECT_EQ(summary.rejected_rows[k].reason, s.path(0) + expected[k]);
   }
   EXPECT_EQ(survey.num_quotes, static_cast<int64_t>(rows.size() - expected.size()));
+}
+
+TEST(PriceSources, ManyRowsGiveEachRepeatTheEarliestRowItRepeats) {
+  ExpectEachRepeatNamesTheEarliestRow(30000, "many_duplicates");
+}
+
+TEST(PriceSources, OverAMillionRowsGiveEachRepeatTheEarliestRowItRepeats) {
+  // Over 2^20 quotes: the duplicate search takes its buckets in passes.
+  ExpectEachRepeatNamesTheEarliestRow(1100000, "million_duplicates");
 }
 
 TEST(PriceSources, ARowWithAnotherColumnIsNoDuplicate) {

@@ -1004,8 +1004,12 @@ TEST(CellsFromQuotes, AccumulatesEachCellsQuotesInFileOrderForOneAndTwoThreads) 
   for (int threads : {1, 2}) {
     SCOPED_TRACE(threads);
     CellPrices got;
-    internal::CellsFromQuotes(quotes, num_regions, num_items, threads, &got);
+    internal::QuoteArrays consumed = quotes;
+    internal::CellsFromQuotes(&consumed, num_regions, num_items, threads, &got);
     ExpectSameCellArrays(got, want);
+    // The quotes are released once the cells no longer need them.
+    EXPECT_EQ(consumed.size(), 0u);
+    EXPECT_EQ(consumed.log_price.capacity(), 0u);
   }
 }
 
@@ -1018,8 +1022,10 @@ TEST(CellsFromQuotes, AccumulatesInFileOrderWhenTheCellKeysAreTooManyToCount) {
     quotes.item[q] = quotes.item[q] * 50 + 3;
   }
   CellPrices got;
-  internal::CellsFromQuotes(quotes, num_regions, num_items, 2, &got);
+  internal::QuoteArrays consumed = quotes;
+  internal::CellsFromQuotes(&consumed, num_regions, num_items, 2, &got);
   ExpectSameCellArrays(got, CellsWrittenOut(quotes, num_regions, num_items));
+  EXPECT_EQ(consumed.size(), 0u);
 }
 
 TEST(LoadSurvey, ReportsTheFirstHeadingConflictInFileOrderAcrossChunks) {
