@@ -438,13 +438,24 @@ void CompletePair(const MaskedArrays& m, const Eigen::MatrixXd& log_price, Sprea
 
 }  // namespace
 
-bool SpreadOptions::IsValid(std::string* error) const {
-  std::string message;
-  if (num_widest < 0) message = "num_widest must be >= 0, found " + std::to_string(num_widest);
+namespace {
+
+// The message for the block size and thread count shared by the row-block
+// options (the last problem found wins), or `message` when both are valid.
+std::string RowBlockOptionsMessage(int block_rows, int num_threads, std::string message) {
   if (block_rows < 4 || block_rows % 4 != 0) {
     message = "block_rows must be a multiple of 4, found " + std::to_string(block_rows);
   }
   if (num_threads < 0) message = "num_threads must be >= 0, found " + std::to_string(num_threads);
+  return message;
+}
+
+}  // namespace
+
+bool SpreadOptions::IsValid(std::string* error) const {
+  std::string message;
+  if (num_widest < 0) message = "num_widest must be >= 0, found " + std::to_string(num_widest);
+  message = RowBlockOptionsMessage(block_rows, num_threads, message);
   if (error != nullptr) *error = message;
   return message.empty();
 }
@@ -664,11 +675,7 @@ void GeksColumnSums(Eigen::Index n, const std::vector<int>& members, const doubl
 }  // namespace
 
 bool GeksBlockOptions::IsValid(std::string* error) const {
-  std::string message;
-  if (block_rows < 4 || block_rows % 4 != 0) {
-    message = "block_rows must be a multiple of 4, found " + std::to_string(block_rows);
-  }
-  if (num_threads < 0) message = "num_threads must be >= 0, found " + std::to_string(num_threads);
+  const std::string message = RowBlockOptionsMessage(block_rows, num_threads, "");
   if (error != nullptr) *error = message;
   return message.empty();
 }
