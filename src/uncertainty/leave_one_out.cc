@@ -1,7 +1,9 @@
 // Leave one out: each item, then each heading, is dropped in turn. A thread
-// keeps the full-sample ln parities and recomputes only the heading and the
-// nodes the dropped unit touches, then puts them back; the changes are reduced
-// in item order afterwards, so ties and sums do not depend on the schedule.
+// keeps the full-sample ln parities and recomputes only the headings and the
+// nodes the dropped unit touches (a dropped item's heading goes through the
+// missing_parities rules again, as a run without the item would), then puts
+// them back; the changes are reduced in item order afterwards, so ties and
+// sums do not depend on the schedule.
 #include <algorithm>
 #include <cmath>
 #include <vector>
@@ -37,65 +39,118 @@ Units DroppedUnits(const FullSample& full) {
   return units;
 }
 
+// What dropping one unit changed: ln(without / with) of `nodes` (ascending),
+// node k's region r at change[k * num_regions + r].
+struct UnitChange {
+  std::vector<int> nodes;
+  std::vector<double> change;
+};
+
 // One thread's copy of the full-sample state, put back after every unit.
 struct Scratch {
   std::vector<double> weight;
+  Eigen::MatrixXd priced_lp;
   Eigen::MatrixXd heading_lp;
   Eigen::MatrixXd node_lp;
   std::vector<uint8_t> recompute;
+  std::vector<int> changed_headings;
 };
 
-// Returns ln(without / with) for the nodes of heading `h` (k-th node, region
-// r at k * num_regions + r) and restores the scratch to the full sample.
-std::vector<double> TakeChanges(const FullSample& full, int h, Scratch* s) {
-  const int num_regions = full.chain.num_regions;
-  std::vector<double> change;
-  change.reserve(full.chain.heading_nodes[h].size() * num_regions);
-  for (int n : full.chain.heading_nodes[h]) {
-    s->recompute[n] = 0;
-    for (int r = 0; r < num_regions; ++r) {
-      change.push_back(s->node_lp(n, r) - full.node_log_parity(n, r));
-    }
-    s->node_lp.row(n) = full.node_log_parity.row(n);
-  }
-  s->heading_lp.col(h) = full.heading_log_parity.col(h);
-  return change;
+// True when some heading's missing_parities rule is not `leave`, so that
+// dropping an item can change what a rule fills.
+bool RulesMayFill(const Chain& chain) {
+  return std::any_of(chain.rules.begin(), chain.rules.end(),
+                     [](const HeadingRule& rule) { return rule.rule != ImputationRule::kLeave; });
 }
 
-std::vector<double> DropItem(const FullSample& full, int i, Scratch* s) {
+bool SameValues(const Eigen::Ref<const Eigen::VectorXd>& a, const Eigen::Ref<const Eigen::VectorXd>& b) {
+  return ((a.array() == b.array()) || (a.array().isNaN() && b.array().isNaN())).all();
+}
+
+// Recomputes the nodes of the headings in s->changed_headings (their columns
+// of s->heading_lp already changed) and returns ln(without / with) of those
+// nodes and of `always` (the dropped unit's own nodes); puts the scratch back
+// to the full sample.
+UnitChange TakeChanges(const FullSample& full, const std::vector<int>& always, bool leaves, Scratch* s) {
+  const Chain& chain = full.chain;
+  const auto& nodes = full.survey->classification.nodes();
+  UnitChange unit;
+  unit.nodes = always;
+  for (int g : s->changed_headings) {
+    for (int n : chain.heading_nodes[g]) {
+      s->recompute[n] = leaves || !nodes[n].is_leaf;
+      unit.nodes.push_back(n);
+    }
+  }
+  std::sort(unit.nodes.begin(), unit.nodes.end());
+  unit.nodes.erase(std::unique(unit.nodes.begin(), unit.nodes.end()), unit.nodes.end());
+  ComputeNodes(chain, full.node_expenditure, s->heading_lp, s->recompute, &s->node_lp);
+  const int num_regions = chain.num_regions;
+  unit.change.reserve(unit.nodes.size() * num_regions);
+  for (int n : unit.nodes) {
+    s->recompute[n] = 0;
+    for (int r = 0; r < num_regions; ++r) unit.change.push_back(s->node_lp(n, r) - full.node_log_parity(n, r));
+    s->node_lp.row(n) = full.node_log_parity.row(n);
+  }
+  for (int g : s->changed_headings) s->heading_lp.col(g) = full.heading_log_parity.col(g);
+  s->changed_headings.clear();
+  return unit;
+}
+
+// Heading h's parities from the quotes without one item (`priced`) go
+// through the missing_parities rules again when a rule may fill a parity and
+// either some parity was filled in the full sample or a region lost its
+// parity: a filled parity is linked over the regions the heading prices, and
+// may rest on h's parities (rule like:<h>, or h inside the parent's aggregate).
+bool NeedsCompletion(const FullSample& full, bool rules_may_fill, int h, const Eigen::VectorXd& priced) {
+  if (!rules_may_fill) return false;
+  if (full.num_imputed > 0) return true;
+  for (Eigen::Index r = 0; r < priced.size(); ++r) {
+    if (std::isfinite(full.priced_log_parity(r, h)) && !std::isfinite(priced[r])) return true;
+  }
+  return false;
+}
+
+// As ReplicateParities with item i's weight 0: heading h from the quotes
+// without it, the missing_parities rules applied again, then the nodes.
+UnitChange DropItem(const FullSample& full, bool rules_may_fill, int i, Scratch* s) {
   const Chain& chain = full.chain;
   const int h = full.survey->item_heading[i];
   // A heading whose parities come from the external file does not move
   // when one of its (ignored) items is dropped.
-  if (HeadingFromFile(chain, h)) return TakeChanges(full, h, s);
+  if (HeadingFromFile(chain, h)) return TakeChanges(full, chain.heading_nodes[h], true, s);
   s->weight[i] = 0.0;
   bool unlinked = false;
-  s->heading_lp.col(h) = HeadingLogParity(chain, h, s->weight, &unlinked);
+  const Eigen::VectorXd priced = HeadingLogParity(chain, h, s->weight, &unlinked);
   s->weight[i] = 1.0;
-  // Regions whose parity a missing_parities rule filled keep the full
-  // sample's value (the rule is not re-applied per dropped item).
-  for (int r = 0; r < chain.num_regions; ++r) {
-    if (!std::isfinite(s->heading_lp(r, h))) s->heading_lp(r, h) = full.heading_log_parity(r, h);
+  if (!NeedsCompletion(full, rules_may_fill, h, priced)) {
+    // Nothing to fill: a region that lost its parity has none, as in compute.
+    s->heading_lp.col(h) = priced;
+    s->changed_headings.push_back(h);
+    return TakeChanges(full, chain.heading_nodes[h], true, s);
   }
-  for (int n : chain.heading_nodes[h]) s->recompute[n] = 1;
-  ComputeNodes(chain, full.node_expenditure, s->heading_lp, s->recompute, &s->node_lp);
-  return TakeChanges(full, h, s);
+  s->priced_lp.col(h) = priced;
+  Eigen::MatrixXd completed = s->priced_lp;
+  s->priced_lp.col(h) = full.priced_log_parity.col(h);
+  CompleteHeadings(chain, nullptr, &completed);
+  for (int g = 0; g < chain.num_headings; ++g) {
+    if (SameValues(completed.col(g), full.heading_log_parity.col(g))) continue;
+    s->heading_lp.col(g) = completed.col(g);
+    s->changed_headings.push_back(g);
+  }
+  return TakeChanges(full, chain.heading_nodes[h], true, s);
 }
 
-std::vector<double> DropHeading(const FullSample& full, int h, Scratch* s) {
-  const Chain& chain = full.chain;
+UnitChange DropHeading(const FullSample& full, int h, Scratch* s) {
   s->heading_lp.col(h).setConstant(kNaN);
-  for (int n : chain.heading_nodes[h]) {
-    s->recompute[n] = !full.survey->classification.nodes()[n].is_leaf;
-  }
-  ComputeNodes(chain, full.node_expenditure, s->heading_lp, s->recompute, &s->node_lp);
-  return TakeChanges(full, h, s);
+  s->changed_headings.push_back(h);
+  return TakeChanges(full, full.chain.heading_nodes[h], false, s);
 }
 
 // Changes of every dropped unit, in unit order.
 struct Changes {
-  std::vector<std::vector<double>> item;
-  std::vector<std::vector<double>> heading;
+  std::vector<UnitChange> item;
+  std::vector<UnitChange> heading;
 };
 
 Changes DropEachUnit(const FullSample& full, const Units& units,
@@ -106,14 +161,16 @@ Changes DropEachUnit(const FullSample& full, const Units& units,
   changes.item.resize(num_drop_items);
   changes.heading.resize(num_drop_headings);
   Progress progress{&options, "leave-one-out", num_drop_items + num_drop_headings};
+  const bool rules_may_fill = RulesMayFill(full.chain);
 #pragma omp parallel num_threads(full.num_threads)
   {
     KeepChainOnThisThread();
-    Scratch scratch{std::vector<double>(full.survey->num_items(), 1.0), full.heading_log_parity,
-                    full.node_log_parity, std::vector<uint8_t>(full.chain.num_nodes, 0)};
+    Scratch scratch{std::vector<double>(full.survey->num_items(), 1.0), full.priced_log_parity,
+                    full.heading_log_parity, full.node_log_parity,
+                    std::vector<uint8_t>(full.chain.num_nodes, 0), {}};
 #pragma omp for schedule(dynamic, 4)
     for (int u = 0; u < num_drop_items; ++u) {
-      changes.item[u] = DropItem(full, units.items[u], &scratch);
+      changes.item[u] = DropItem(full, rules_may_fill, units.items[u], &scratch);
       progress.Step();
     }
 #pragma omp for schedule(dynamic, 1)
@@ -138,23 +195,32 @@ void KeepLargest(int n, int r, double d, int unit, Eigen::MatrixXd* largest,
 }
 
 // Adds the items of heading `h` (units first_unit, first_unit + 1, ...) to
-// the largest item changes and to the stratified jackknife variance.
+// the largest item changes and to the stratified jackknife variance, over
+// the nodes any of them changed (a node a drop left alone changed by 0).
 void AddHeadingItems(const FullSample& full, int h, int first_unit, const Units& units,
                      const Changes& changes, Eigen::MatrixXd* variance, Eigen::MatrixXi* strata,
                      SensitivityResult* result) {
   const int num_regions = full.chain.num_regions;
   const int num_h = static_cast<int>(full.chain.heading_items[h].size());
-  const std::vector<int>& touched = full.chain.heading_nodes[h];
+  std::vector<int> touched = full.chain.heading_nodes[h];
+  for (int u = first_unit; u < first_unit + num_h; ++u) {
+    touched.insert(touched.end(), changes.item[u].nodes.begin(), changes.item[u].nodes.end());
+  }
+  std::sort(touched.begin(), touched.end());
+  touched.erase(std::unique(touched.begin(), touched.end()), touched.end());
   Eigen::MatrixXd sum = Eigen::MatrixXd::Zero(touched.size(), num_regions);
   Eigen::MatrixXd sum_sq = sum;
   Eigen::MatrixXi count = Eigen::MatrixXi::Zero(touched.size(), num_regions);
   for (int u = first_unit; u < first_unit + num_h; ++u) {
-    const std::vector<double>& change = changes.item[u];
+    const UnitChange& unit = changes.item[u];
     for (size_t k = 0; k < touched.size(); ++k) {
       const int n = touched[k];
+      const auto at = std::lower_bound(unit.nodes.begin(), unit.nodes.end(), n);
+      const bool listed = at != unit.nodes.end() && *at == n;
+      const double* change = listed ? unit.change.data() + (at - unit.nodes.begin()) * num_regions : nullptr;
       for (int r = 0; r < num_regions; ++r) {
         if (!std::isfinite(full.node_log_parity(n, r))) continue;
-        const double d = change[k * num_regions + r];
+        const double d = listed ? change[r] : 0.0;
         if (!std::isfinite(d)) {
           ++result->loo_num_items_lost(n, r);
           continue;
@@ -201,9 +267,10 @@ void HeadingResults(const FullSample& full, const Units& units, const Changes& c
   const int num_regions = full.chain.num_regions;
   for (size_t v = 0; v < units.headings.size(); ++v) {
     const int h = units.headings[v];
-    const std::vector<double>& change = changes.heading[v];
-    for (size_t k = 0; k < full.chain.heading_nodes[h].size(); ++k) {
-      const int n = full.chain.heading_nodes[h][k];
+    const std::vector<double>& change = changes.heading[v].change;
+    const std::vector<int>& nodes = changes.heading[v].nodes;
+    for (size_t k = 0; k < nodes.size(); ++k) {
+      const int n = nodes[k];
       if (full.survey->classification.nodes()[n].headings.size() < 2) continue;
       for (int r = 0; r < num_regions; ++r) {
         const double d = change[k * num_regions + r];

@@ -221,7 +221,7 @@ int ComputeNodes(const Chain& chain, const Eigen::MatrixXd& node_expenditure,
 ReplicateOutcome RunChain(const Chain& chain, const Eigen::MatrixXd& node_expenditure,
                           const std::vector<double>& item_weight,
                           Eigen::MatrixXd* heading_log_parity, Eigen::MatrixXd* node_log_parity,
-                          Stream* draw) {
+                          Stream* draw, Eigen::MatrixXd* priced_log_parity) {
   ReplicateOutcome outcome;
   heading_log_parity->resize(chain.num_regions, chain.num_headings);
   node_log_parity->resize(chain.num_nodes, chain.num_regions);
@@ -230,6 +230,7 @@ ReplicateOutcome RunChain(const Chain& chain, const Eigen::MatrixXd& node_expend
     heading_log_parity->col(h) = HeadingLogParity(chain, h, item_weight, &unlinked);
     outcome.num_unlinked += unlinked ? 1 : 0;
   }
+  if (priced_log_parity != nullptr) *priced_log_parity = *heading_log_parity;
   outcome.num_imputed = CompleteHeadings(chain, draw, heading_log_parity);
   outcome.num_unlinked +=
       ComputeNodes(chain, node_expenditure, *heading_log_parity, {}, node_log_parity);

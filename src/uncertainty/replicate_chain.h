@@ -127,10 +127,13 @@ int CompleteHeadings(const Chain& chain, Stream* draw, Eigen::MatrixXd* heading_
 // parities (regions x headings) and normalised node ln parities (nodes x
 // regions).
 // `draw`, when given, draws the external parities (CompleteHeadings).
+// `priced_log_parity`, when given, receives the heading ln parities as the
+// quotes alone give them, before CompleteHeadings (leave-one-out completes
+// them again after each dropped item).
 ReplicateOutcome RunChain(const Chain& chain, const Eigen::MatrixXd& node_expenditure,
                           const std::vector<double>& item_weight,
                           Eigen::MatrixXd* heading_log_parity, Eigen::MatrixXd* node_log_parity,
-                          Stream* draw = nullptr);
+                          Stream* draw = nullptr, Eigen::MatrixXd* priced_log_parity = nullptr);
 
 // Ranks (1 = dearest) within each node of a replicate; 0 where no parity.
 void RankRows(const Eigen::MatrixXd& node_log_parity, Eigen::MatrixXi* rank);

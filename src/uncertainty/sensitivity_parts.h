@@ -63,6 +63,9 @@ struct FullSample {
   // The chain's own full-sample run: changes are measured against it so an
   // unchanged region shows exactly 0 rather than rounding noise.
   Eigen::MatrixXd heading_log_parity;  // regions x headings
+  // The same before the external file and the missing_parities rules
+  // (CompleteHeadings) were applied: what the quotes alone give.
+  Eigen::MatrixXd priced_log_parity;  // regions x headings
   // Heading parities the missing_parities rules filled in the full sample.
   int num_imputed = 0;
   Eigen::MatrixXd node_log_parity;     // nodes x regions

@@ -391,6 +391,89 @@ TEST(LeaveOneOut, LargestChangeIsTheLargestOverItemsDroppedOneByOne) {
   EXPECT_EQ(summary.num_headings_dropped, survey.num_headings());
 }
 
+// Leave-one-out is defined as the run without the item (ReplicateParities
+// with its weight 0, the route DroppingAnItemEqualsRecomputingWithoutIt ties
+// to compute): the same missing_parities rule applies when a region loses
+// its only item of a heading. The stratified delete-one jackknife variance
+// is sum over headings of (m - 1)/m sum_i (d_i - mean d)^2 (Efron and
+// Tibshirani 1993, eq. 11.5, within each heading), computed here from the
+// runs without each item.
+class LeaveOneOutRules : public ::testing::TestWithParam<std::string> {};
+
+TEST_P(LeaveOneOutRules, ChangesAndJackknifeEqualRunsWithoutEachItem) {
+  synthetic::SyntheticOptions options = SmallOptions(11);
+  options.num_regions = 12;
+  options.items_per_heading = 5;
+  options.coverage = 0.35;  // many regions price one or two items of a heading
+  const Survey survey = LoadSynthetic(options, "loo-rules");
+  ComputeOptions compute;
+  compute.missing_parities.default_rule = GetParam();
+  SensitivityResult result;
+  SensitivitySummary summary;
+  ASSERT_TRUE(RunSensitivity(survey, compute, OnlyParts(false, true, false, false), &result, &summary))
+      << summary.message;
+  std::vector<double> weight(survey.num_items(), 1.0);
+  Eigen::MatrixXd base, without;
+  std::string error;
+  ASSERT_TRUE(ReplicateParities(survey, compute, weight, &base, nullptr, &error)) << error;
+  const Eigen::Index num_nodes = base.rows(), num_regions = base.cols();
+  std::vector<int> item_num_cells(survey.num_items(), 0);
+  for (int32_t i : survey.cells.item) ++item_num_cells[i];
+  Eigen::MatrixXd largest = Eigen::MatrixXd::Constant(num_nodes, num_regions, std::numeric_limits<double>::quiet_NaN());
+  Eigen::MatrixXd variance = Eigen::MatrixXd::Zero(num_nodes, num_regions);
+  int parities_lost = 0;
+  for (int h = 0; h < survey.num_headings(); ++h) {
+    Eigen::MatrixXd sum = Eigen::MatrixXd::Zero(num_nodes, num_regions), sum_sq = sum;
+    Eigen::MatrixXi count = Eigen::MatrixXi::Zero(num_nodes, num_regions);
+    for (int i = survey.heading_range[h].item_begin; i < survey.heading_range[h].item_end; ++i) {
+      if (item_num_cells[i] == 0) continue;
+      weight[i] = 0.0;
+      ASSERT_TRUE(ReplicateParities(survey, compute, weight, &without, nullptr, &error)) << error;
+      weight[i] = 1.0;
+      for (Eigen::Index n = 0; n < num_nodes; ++n) {
+        for (Eigen::Index r = 0; r < num_regions; ++r) {
+          if (!std::isfinite(base(n, r))) continue;
+          const double d = without(n, r) - base(n, r);
+          if (!std::isfinite(d)) {
+            ++parities_lost;
+            continue;
+          }
+          if (std::isnan(largest(n, r)) || std::abs(d) > std::abs(largest(n, r))) largest(n, r) = d;
+          sum(n, r) += d;
+          sum_sq(n, r) += d * d;
+          ++count(n, r);
+        }
+      }
+    }
+    for (Eigen::Index n = 0; n < num_nodes; ++n) {
+      for (Eigen::Index r = 0; r < num_regions; ++r) {
+        const int m = count(n, r);
+        if (m >= 2) variance(n, r) += (m - 1.0) / m * (sum_sq(n, r) - sum(n, r) * sum(n, r) / m);
+      }
+    }
+  }
+  int compared = 0;
+  for (Eigen::Index n = 0; n < num_nodes; ++n) {
+    for (Eigen::Index r = 0; r < num_regions; ++r) {
+      if (!std::isfinite(base(n, r))) continue;
+      PARITAS_EXPECT_CLOSE(result.loo_item_log_change(n, r), largest(n, r), 1e-9) << n << " " << r;
+      PARITAS_EXPECT_CLOSE(result.jackknife_log_se(n, r), std::sqrt(std::max(0.0, variance(n, r))), 1e-9)
+          << n << " " << r;
+      ++compared;
+    }
+  }
+  EXPECT_GT(compared, 0);
+  // The survey must put the rule to work: with `leave` some heading parity
+  // is lost when an item goes, with `parent` the rule fills it instead.
+  if (GetParam() == "leave") {
+    EXPECT_GT(parities_lost, 0);
+  } else {
+    EXPECT_EQ(parities_lost, 0);
+  }
+}
+
+INSTANTIATE_TEST_SUITE_P(Rules, LeaveOneOutRules, ::testing::Values("leave", "parent"));
+
 TEST(LeaveOneOut, JackknifeOfACompleteHeadingIsTheStandardErrorOfAMean) {
   // On a complete table CPD gives a_r = mean_i (y_ri - mean_s y_si), a mean
   // over items; the delete-one jackknife of a mean equals s / sqrt(n)
