@@ -128,6 +128,7 @@ double ReplicateLogSe(const double* first, int num_b) {
 
 void ExpansionOfCells(const Classification& classification, const Eigen::MatrixXd& expenditure,
                       const std::vector<int>& heading_num_items,
+                      const Eigen::MatrixXi& region_num_items,
                       const std::vector<uint8_t>& heading_external, BootstrapKind bootstrap,
                       const Eigen::MatrixXd& log_se, Eigen::MatrixXd* df, Eigen::MatrixXd* scale) {
   const auto& nodes = classification.nodes();
@@ -140,19 +141,22 @@ void ExpansionOfCells(const Classification& classification, const Eigen::MatrixX
   for (int n = 0; n < num_nodes; ++n) {
     if (nodes[n].is_leaf) leaf_of[nodes[n].headings.front()] = n;
   }
-  // Degrees of freedom of heading h's variance: none (0) for one item,
-  // infinite for a heading drawn from a normal.
-  auto heading_df = [&](int h) {
+  // Degrees of freedom of region r's variance in heading h: m - 1 for the
+  // m items it priced (its parity and the spread of its replicates rest on
+  // them; at most the heading's n), none (0) for one item, infinite for a
+  // heading drawn from a normal.
+  auto heading_df = [&](int h, int r) {
     if (!heading_external.empty() && heading_external[h]) {
       return std::numeric_limits<double>::infinity();
     }
-    return heading_num_items[h] >= 2 ? heading_num_items[h] - 1.0 : 0.0;
+    const int m = std::min(heading_num_items[h], region_num_items(r, h));
+    return m >= 2 ? m - 1.0 : 0.0;
   };
   for (int n = 0; n < num_nodes; ++n) {
     for (int r = 0; r < num_regions; ++r) {
       if (!std::isfinite(log_se(n, r))) continue;  // no interval to expand
       if (nodes[n].is_leaf) {
-        const double nu = heading_df(nodes[n].headings.front());
+        const double nu = heading_df(nodes[n].headings.front(), r);
         if (!std::isfinite(nu) || nu < 1.0) continue;
         (*df)(n, r) = nu < kIntervalDfCap ? nu : kNaN;
         if (plain) (*scale)(n, r) = std::sqrt((nu + 1.0) / nu);
@@ -166,7 +170,7 @@ void ExpansionOfCells(const Classification& classification, const Eigen::MatrixX
       std::vector<double> terms, dfs;
       double raw = 0.0;
       for (int h : nodes[n].headings) {
-        const double nu = heading_df(h);
+        const double nu = heading_df(h, r);
         const double se = leaf_of[h] >= 0 ? log_se(leaf_of[h], r) : kNaN;
         if (!std::isfinite(expenditure(r, h)) || !(expenditure(r, h) > 0) || !(nu > 0.0) ||
             !std::isfinite(se) || !(se > 0.0)) {
@@ -212,7 +216,8 @@ void Summarise(const Replicates& replicates, const FullSample& full,
   }
   if (options.interval == IntervalKind::kExpanded) {
     ExpansionOfCells(full.survey->classification, full.survey->expenditure,
-                     result->heading_num_items, result->heading_external, options.bootstrap,
+                     result->heading_num_items, result->region_num_items, result->heading_external,
+                     options.bootstrap,
                      result->boot_log_se, &result->boot_interval_df,
                      &result->boot_interval_scale);
   } else {

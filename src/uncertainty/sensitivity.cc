@@ -195,6 +195,10 @@ bool RunFullSample(const Survey& survey, const ComputeOptions& compute,
     result->heading_num_items.push_back(static_cast<int>(full->chain.heading_items[h].size()));
     result->heading_external.push_back(internal::HeadingFromFile(full->chain, h) ? 1 : 0);
   }
+  result->region_num_items = Eigen::MatrixXi::Zero(survey.num_regions(), survey.num_headings());
+  for (size_t k = 0; k < survey.cells.size(); ++k) {
+    ++result->region_num_items(survey.cells.region[k], survey.item_heading[survey.cells.item[k]]);
+  }
   summary->full_sample_seconds = internal::SecondsSince(start);
   return true;
 }

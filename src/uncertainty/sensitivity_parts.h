@@ -91,9 +91,11 @@ void RunMethodSpread(const FullSample& full, const SensitivityOptions& options,
 // Degrees of freedom and scale of the expanded interval of every node and
 // region (SensitivityResult::boot_interval_df and boot_interval_scale say
 // how), from the bootstrap standard errors `log_se` (nodes x regions), the
-// survey's expenditure (regions x headings) and the headings' items.
+// survey's expenditure (regions x headings), the headings' items and the
+// items each region priced (regions x headings).
 void ExpansionOfCells(const Classification& classification, const Eigen::MatrixXd& expenditure,
                       const std::vector<int>& heading_num_items,
+                      const Eigen::MatrixXi& region_num_items,
                       const std::vector<uint8_t>& heading_external, BootstrapKind bootstrap,
                       const Eigen::MatrixXd& log_se, Eigen::MatrixXd* df, Eigen::MatrixXd* scale);
 

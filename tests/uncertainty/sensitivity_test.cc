@@ -618,14 +618,28 @@ TEST(Bootstrap, RescaledMatchesTheJackknifeAndPlainIsLowByNMinusOneOverN) {
   EXPECT_NEAR(plain / rescaled, 0.875, 0.04);
 }
 
-// The expanded interval on a run: a heading's nu is n_h - 1 and its
-// interval the type-7 percentiles of its replicates at Phi(-t_(nu, 0.975))
-// and 1 minus it; an aggregate's nu is the Satterthwaite sum written out
-// here over its headings (w_h the region's expenditure share within the
-// node, v_h the heading's bootstrap variance); the plain bootstrap scales
-// by sqrt(n / (n - 1)); the percentile interval expands nothing.
-TEST(Bootstrap, ExpandedIntervalUsesTheHeadingItemsAndSatterthwaiteDegreesOfFreedom) {
+// The expanded interval on a run: a heading's nu for a region is m - 1, m
+// the items of the heading the region priced (counted here from the
+// survey's cells), and its interval the type-7 percentiles of its
+// replicates at Phi(-t_(nu, 0.975)) and 1 minus it; an aggregate's nu is
+// the Satterthwaite sum written out here over its headings (w_h the
+// region's expenditure share within the node, v_h the heading's bootstrap
+// variance); the plain bootstrap scales by sqrt(m / (m - 1)); the
+// percentile interval expands nothing.
+TEST(Bootstrap, ExpandedIntervalUsesTheRegionsItemsAndSatterthwaiteDegreesOfFreedom) {
   const Survey survey = LoadSynthetic(SmallOptions(41), "boot-expanded");
+  Eigen::MatrixXi priced = Eigen::MatrixXi::Zero(survey.num_regions(), survey.num_headings());
+  for (size_t k = 0; k < survey.cells.size(); ++k) {
+    ++priced(survey.cells.region[k], survey.item_heading[survey.cells.item[k]]);
+  }
+  // Every region prices two items or more of each heading (nu >= 1), and
+  // some price fewer than all, so that m and n_h differ.
+  ASSERT_GE(priced.minCoeff(), 2);
+  int fewer = 0;
+  for (int h = 0; h < survey.num_headings(); ++h) {
+    fewer += (priced.col(h).array() < survey.heading_range[h].num_items()).count();
+  }
+  ASSERT_GT(fewer, 0);
   SensitivityOptions options = OnlyParts(true, false, false, false);
   options.replicates = 60;
   options.write_replicates = true;
@@ -639,7 +653,7 @@ TEST(Bootstrap, ExpandedIntervalUsesTheHeadingItemsAndSatterthwaiteDegreesOfFree
     for (int r = 0; r < num_regions; ++r) {
       double nu = std::nan("");
       if (nodes[n].is_leaf) {
-        nu = result.heading_num_items[nodes[n].headings.front()] - 1.0;
+        nu = priced(r, nodes[n].headings.front()) - 1.0;
       } else {
         double total = 0.0, sum = 0.0, denominator = 0.0;
         for (int h : nodes[n].headings) total += survey.expenditure(r, h);
@@ -649,7 +663,7 @@ TEST(Bootstrap, ExpandedIntervalUsesTheHeadingItemsAndSatterthwaiteDegreesOfFree
           const double se = result.boot_log_se(leaf, r);
           const double term = w * w * se * se;
           sum += term;
-          denominator += term * term / (result.heading_num_items[h] - 1.0);
+          denominator += term * term / (priced(r, h) - 1.0);
         }
         nu = sum * sum / denominator;
         ++aggregates_checked;
@@ -674,8 +688,8 @@ TEST(Bootstrap, ExpandedIntervalUsesTheHeadingItemsAndSatterthwaiteDegreesOfFree
   SensitivityResult plain;
   ASSERT_TRUE(RunSensitivity(survey, ComputeOptions(), options, &plain, &summary));
   const int leaf = survey.classification.FindNode(survey.heading_codes[0]);
-  const double n_h = plain.heading_num_items[0];
-  EXPECT_DOUBLE_EQ(plain.boot_interval_scale(leaf, 0), std::sqrt(n_h / (n_h - 1)));
+  const double m = priced(0, 0);
+  EXPECT_DOUBLE_EQ(plain.boot_interval_scale(leaf, 0), std::sqrt(m / (m - 1)));
   EXPECT_GT(plain.boot_interval_scale(0, 0), 1.0);
   options.interval = IntervalKind::kPercentile;
   SensitivityResult percentile;

@@ -72,11 +72,11 @@ struct SensitivityOptions {
   // Which interval the bootstrap reports (default expanded; see
   // IntervalKind). Expanded: percentiles at p = Phi(-k t_(nu, (1 + level) /
   // 2)) and 1 - p (Hesterberg 2015), with nu the degrees of freedom of the
-  // parity's standard error: n_h - 1 for a heading of n_h items (none for
-  // an external heading or one item), the Welch-Satterthwaite nu of its
-  // headings for an aggregate or group (SensitivityResult::boot_interval_df);
-  // k = 1 for the rescaled bootstrap, sqrt(n / (n - 1)) for the plain one
-  // (SensitivityResult::boot_interval_scale). Percentile: (1 - level) / 2
+  // parity's standard error: m - 1 for a region that priced m of a
+  // heading's items (none for an external heading or one item), the
+  // Welch-Satterthwaite nu of its headings for an aggregate or group
+  // (SensitivityResult::boot_interval_df); k = 1 for the rescaled bootstrap,
+  // sqrt(m / (m - 1)) for the plain one (SensitivityResult::boot_interval_scale). Percentile: (1 - level) / 2
   // and (1 + level) / 2. Rank intervals stay at the percentile levels.
   IntervalKind interval = IntervalKind::kExpanded;
   // Shares of each heading's items kept in the coverage curve, each in
@@ -162,6 +162,9 @@ struct SensitivityResult {
   // 1 for headings taken from the external parities file; per heading.
   std::vector<int> heading_num_items;
   std::vector<uint8_t> heading_external;
+  // Items each region priced in each heading (regions x headings; 0 where
+  // none): the m that bounds the expanded interval's degrees of freedom.
+  Eigen::MatrixXi region_num_items;
 
   // Full-sample parity (reference = 100) and rank (1 = dearest, 0 = none).
   Eigen::MatrixXd parity;
@@ -185,16 +188,19 @@ struct SensitivityResult {
   // percentiles at ExpandedLowerLevel(level, nu, k) and 1 minus it. nu is NaN
   // where there is no t expansion (percentile interval, external heading,
   // one item, nu >= kIntervalDfCap); k is 1 unless the plain bootstrap's
-  // variance is corrected. For a heading h with n_h >= 2 items (not
-  // external): nu = n_h - 1, k = sqrt(n_h / (n_h - 1)) under the plain
-  // bootstrap. For an aggregate or group and region r, with w_h r's
-  // expenditure share of heading h within the node, v_h the bootstrap
-  // variance of h's ln parity for r (boot_log_se^2 of h's leaf) and c_h =
-  // n_h / (n_h - 1) under the plain bootstrap (else 1):
-  //   nu = (sum_h w_h^2 c_h v_h)^2 / sum_h (w_h^2 c_h v_h)^2 / (n_h - 1)
+  // variance is corrected. For a heading h and a region r that priced
+  // m_rh >= 2 of its items (m = min(m_rh, n_h), not external): nu = m - 1,
+  // k = sqrt(m / (m - 1)) under the plain bootstrap; the region's parity and
+  // the spread of its replicates rest on its own m items, so the standard
+  // error has about m - 1 degrees of freedom (n_h - 1 when it priced all).
+  // For an aggregate or group and region r, with w_h r's expenditure share
+  // of heading h within the node, v_h the bootstrap variance of h's ln
+  // parity for r (boot_log_se^2 of h's leaf), nu_h = m - 1 as above and
+  // c_h = m / (m - 1) under the plain bootstrap (else 1):
+  //   nu = (sum_h w_h^2 c_h v_h)^2 / sum_h (w_h^2 c_h v_h)^2 / nu_h
   // (Satterthwaite 1946; SatterthwaiteDf), headings drawn from a normal
   // (external with log_se) counting with infinite df, headings with v_h = 0
-  // or n_h = 1 adding nothing; k = sqrt(sum_h w_h^2 c_h v_h / sum_h w_h^2 v_h).
+  // or m = 1 adding nothing; k = sqrt(sum_h w_h^2 c_h v_h / sum_h w_h^2 v_h).
   Eigen::MatrixXd boot_interval_df;
   Eigen::MatrixXd boot_interval_scale;
   // Every replicate's ln parity (normalised like the full sample; NaN where
