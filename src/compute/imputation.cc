@@ -4,7 +4,9 @@
 // the same rule to the same inputs.
 #include "paritas/compute/imputation.h"
 
+#include <algorithm>
 #include <cmath>
+#include <functional>
 #include <limits>
 
 #include "base/not_a_number.h"
@@ -44,22 +46,24 @@ Eigen::VectorXd AggregateOver(const ImputationInput& input, const std::vector<in
   return out;
 }
 
-// Per ancestor of heading h (parent first, root last), the ln parities of
-// the ancestor without h; ancestors holding h alone are skipped.
-std::vector<Eigen::VectorXd> AncestorsWithout(const ImputationInput& input,
-                                              const Classification& tree, int h,
-                                              const AggregationMethod& method) {
-  std::vector<Eigen::VectorXd> levels;
-  int node = tree.nodes()[tree.headings()[h]].parent;
-  for (; node >= 0; node = tree.nodes()[node].parent) {
-    std::vector<int> others;
-    for (int g : tree.nodes()[node].headings) {
-      if (g != h) others.push_back(g);
-    }
-    if (others.empty()) continue;
-    levels.push_back(AggregateOver(input, others, method));
+// The ancestors of heading h whose aggregate without h can serve as its
+// proxy (parent first, root last; ancestors holding h alone are skipped).
+std::vector<int> AncestorsWithOthers(const Classification& tree, int h) {
+  std::vector<int> ancestors;
+  for (int node = tree.nodes()[tree.headings()[h]].parent; node >= 0; node = tree.nodes()[node].parent) {
+    if (tree.nodes()[node].headings.size() >= 2) ancestors.push_back(node);
   }
-  return levels;
+  return ancestors;
+}
+
+// The ln parities of ancestor `node` without heading h.
+Eigen::VectorXd AncestorWithout(const ImputationInput& input, const Classification& tree, int node,
+                                int h, const AggregationMethod& method) {
+  std::vector<int> others;
+  for (int g : tree.nodes()[node].headings) {
+    if (g != h) others.push_back(g);
+  }
+  return AggregateOver(input, others, method);
 }
 
 // The linking offset: mean over regions with both an own parity of h and a
@@ -77,25 +81,47 @@ double LinkOffset(const ImputationInput& input, int h, const Eigen::VectorXd& pr
   return count > 0 ? sum / count : 0.0;
 }
 
-// Fills the missing entries of heading h from `proxies` in order (the first
-// with a finite value for the region wins), each linked on its own.
-void FillFromProxies(const ImputationInput& input, int h, const std::vector<Eigen::VectorXd>& proxies,
-                     ParitySource source, ImputationResult* result) {
-  std::vector<double> offsets;
-  for (const Eigen::VectorXd& proxy : proxies) offsets.push_back(LinkOffset(input, h, proxy));
+// The proxies of one heading in the order they are tried, each made (with
+// its linking offset) only when a region reaches it: most fills need the
+// first alone, and an aggregate is costly.
+struct ProxyLevels {
+  std::function<Eigen::VectorXd(int)> make;  // level k's proxy
+  std::vector<int> node;                     // level k's classification node (-1: none)
+  std::vector<Eigen::VectorXd> proxy;        // made so far
+  std::vector<double> offset;
+
+  const Eigen::VectorXd& Get(const ImputationInput& input, int h, int k) {
+    while (static_cast<int>(proxy.size()) <= k) {
+      proxy.push_back(make(static_cast<int>(proxy.size())));
+      offset.push_back(LinkOffset(input, h, proxy.back()));
+    }
+    return proxy[k];
+  }
+};
+
+// Fills the missing entries of heading h from the proxies of `levels` in
+// order (the first with a finite value for the region wins), each linked on
+// its own.
+void FillFromProxies(const ImputationInput& input, int h, ProxyLevels* levels, ParitySource source,
+                     ImputationResult* result) {
+  const int num_levels = static_cast<int>(levels->node.size());
+  int highest = -1;
   for (int r = 0; r < input.log_parity.rows(); ++r) {
     if (std::isfinite(input.log_parity(r, h)) || !Spends(input.expenditure(r, h))) continue;
     bool filled = false;
-    for (size_t k = 0; k < proxies.size() && !filled; ++k) {
-      if (!std::isfinite(proxies[k](r))) continue;
-      result->log_parity(r, h) = proxies[k](r) + offsets[k];
+    for (int k = 0; k < num_levels && !filled; ++k) {
+      const Eigen::VectorXd& proxy = levels->Get(input, h, k);
+      if (!std::isfinite(proxy(r))) continue;
+      result->log_parity(r, h) = proxy(r) + levels->offset[k];
       result->source(r, h) = static_cast<int>(source);
       result->imputed[h].push_back(r);
       ++result->num_imputed;
+      highest = std::max(highest, k);
       filled = true;
     }
     if (!filled) result->left_missing[h].push_back(r);
   }
+  if (highest >= 0) result->highest_proxy_node[h] = levels->node[highest];
 }
 
 }  // namespace
@@ -178,6 +204,7 @@ bool ImputeMissingHeadingParities(const ImputationInput& input, const Classifica
   result->source = input.source;
   result->left_missing.assign(num_headings, {});
   result->imputed.assign(num_headings, {});
+  result->highest_proxy_node.assign(num_headings, -1);
   for (int h = 0; h < num_headings; ++h) {
     const HeadingRule& rule = input.rules[h];
     const std::string& code = tree.nodes()[tree.headings()[h]].code;
@@ -188,13 +215,14 @@ bool ImputeMissingHeadingParities(const ImputationInput& input, const Classifica
       needed = !std::isfinite(input.log_parity(r, h)) && Spends(input.expenditure(r, h));
     }
     if (!needed && rule.rule != ImputationRule::kLike) continue;
-    std::vector<Eigen::VectorXd> proxies;
+    ProxyLevels levels;
     ParitySource source = ParitySource::kImputed;
     switch (rule.rule) {
       case ImputationRule::kLeave:
         break;
       case ImputationRule::kParent:
-        proxies = AncestorsWithout(input, tree, h, method);
+        levels.node = AncestorsWithOthers(tree, h);
+        levels.make = [&](int k) { return AncestorWithout(input, tree, levels.node[k], h, method); };
         break;
       case ImputationRule::kLike: {
         const int g = tree.FindHeading(rule.like);
@@ -206,17 +234,19 @@ bool ImputeMissingHeadingParities(const ImputationInput& input, const Classifica
           if (g < 0 && !nearest.empty()) *error += "; did you mean '" + nearest + "'?";
           return false;
         }
-        proxies.push_back(input.log_parity.col(g));
+        levels.node = {-1};
+        levels.make = [&input, g](int) { return Eigen::VectorXd(input.log_parity.col(g)); };
         break;
       }
       case ImputationRule::kExternal:
         if (input.external_log_parity.cols() == num_headings) {
-          proxies.push_back(input.external_log_parity.col(h));
+          levels.node = {-1};
+          levels.make = [&input, h](int) { return Eigen::VectorXd(input.external_log_parity.col(h)); };
         }
         source = ParitySource::kExternal;
         break;
     }
-    FillFromProxies(input, h, proxies, source, result);
+    FillFromProxies(input, h, &levels, source, result);
   }
   return true;
 }

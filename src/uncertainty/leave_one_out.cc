@@ -56,11 +56,38 @@ struct Scratch {
   std::vector<int> changed_headings;
 };
 
-// True when some heading's missing_parities rule is not `leave`, so that
-// dropping an item can change what a rule fills.
-bool RulesMayFill(const Chain& chain) {
-  return std::any_of(chain.rules.begin(), chain.rules.end(),
-                     [](const HeadingRule& rule) { return rule.rule != ImputationRule::kLeave; });
+// What the missing_parities rules fill and what each fill rests on, for
+// redoing only the fills a dropped item can move.
+struct RuleLinks {
+  bool may_fill = false;          // some heading's rule is not `leave`
+  std::vector<int> like_heading;  // per heading: the heading its like: rule names, or -1
+};
+
+RuleLinks MakeRuleLinks(const Chain& chain) {
+  RuleLinks links;
+  links.like_heading.assign(chain.num_headings, -1);
+  for (size_t g = 0; g < chain.rules.size(); ++g) {
+    const HeadingRule& rule = chain.rules[g];
+    links.may_fill = links.may_fill || rule.rule != ImputationRule::kLeave;
+    if (rule.rule == ImputationRule::kLike) {
+      links.like_heading[g] = chain.survey->classification.FindHeading(rule.like);
+    }
+  }
+  return links;
+}
+
+// True when heading g's filled parities may move when heading h's parities
+// do (g's own priced parities staying as they are): g fills like:h, or from
+// an aggregate that holds h (the highest one a fill of g used holds every
+// lower one). A fill from the external file, or from an aggregate without h,
+// is linked over g's own parities and stays.
+bool FillRestsOn(const FullSample& full, const RuleLinks& links, int g, int h) {
+  if (g >= static_cast<int>(full.heading_filled.size()) || !full.heading_filled[g]) return false;
+  if (links.like_heading[g] == h) return true;
+  const int node = full.highest_proxy_node[g];
+  if (node < 0) return false;
+  const std::vector<int>& nodes_of_h = full.chain.heading_nodes[h];
+  return std::find(nodes_of_h.begin(), nodes_of_h.end(), node) != nodes_of_h.end();
 }
 
 bool SameValues(const Eigen::Ref<const Eigen::VectorXd>& a, const Eigen::Ref<const Eigen::VectorXd>& b) {
@@ -102,8 +129,8 @@ UnitChange TakeChanges(const FullSample& full, const std::vector<int>& always, b
 // either some parity was filled in the full sample or a region lost its
 // parity: a filled parity is linked over the regions the heading prices, and
 // may rest on h's parities (rule like:<h>, or h inside the parent's aggregate).
-bool NeedsCompletion(const FullSample& full, bool rules_may_fill, int h, const Eigen::VectorXd& priced) {
-  if (!rules_may_fill) return false;
+bool NeedsCompletion(const FullSample& full, const RuleLinks& links, int h, const Eigen::VectorXd& priced) {
+  if (!links.may_fill) return false;
   if (full.num_imputed > 0) return true;
   for (Eigen::Index r = 0; r < priced.size(); ++r) {
     if (std::isfinite(full.priced_log_parity(r, h)) && !std::isfinite(priced[r])) return true;
@@ -111,9 +138,30 @@ bool NeedsCompletion(const FullSample& full, bool rules_may_fill, int h, const E
   return false;
 }
 
+// Completes the headings with heading h's column of s->priced_lp changed:
+// the rules run again for h and for the headings whose fills rest on h
+// (FillRestsOn); every other heading keeps the full sample's column. Lists
+// the headings whose column changed in s->changed_headings.
+void CompleteAgain(const FullSample& full, const RuleLinks& links, int h, Scratch* s) {
+  const Chain& chain = full.chain;
+  std::vector<HeadingRule> rules = chain.rules;
+  std::vector<uint8_t> redo(chain.num_headings, 0);
+  for (int g = 0; g < chain.num_headings; ++g) {
+    redo[g] = g == h || FillRestsOn(full, links, g, h);
+    if (!redo[g]) rules[g] = HeadingRule();  // leave: kept from the full sample below
+  }
+  Eigen::MatrixXd completed = s->priced_lp;
+  CompleteHeadings(chain, nullptr, &completed, &rules);
+  for (int g = 0; g < chain.num_headings; ++g) {
+    if (!redo[g] || SameValues(completed.col(g), full.heading_log_parity.col(g))) continue;
+    s->heading_lp.col(g) = completed.col(g);
+    s->changed_headings.push_back(g);
+  }
+}
+
 // As ReplicateParities with item i's weight 0: heading h from the quotes
 // without it, the missing_parities rules applied again, then the nodes.
-UnitChange DropItem(const FullSample& full, bool rules_may_fill, int i, Scratch* s) {
+UnitChange DropItem(const FullSample& full, const RuleLinks& links, int i, Scratch* s) {
   const Chain& chain = full.chain;
   const int h = full.survey->item_heading[i];
   // A heading whose parities come from the external file does not move
@@ -123,21 +171,15 @@ UnitChange DropItem(const FullSample& full, bool rules_may_fill, int i, Scratch*
   bool unlinked = false;
   const Eigen::VectorXd priced = HeadingLogParity(chain, h, s->weight, &unlinked);
   s->weight[i] = 1.0;
-  if (!NeedsCompletion(full, rules_may_fill, h, priced)) {
+  if (!NeedsCompletion(full, links, h, priced)) {
     // Nothing to fill: a region that lost its parity has none, as in compute.
     s->heading_lp.col(h) = priced;
     s->changed_headings.push_back(h);
     return TakeChanges(full, chain.heading_nodes[h], true, s);
   }
   s->priced_lp.col(h) = priced;
-  Eigen::MatrixXd completed = s->priced_lp;
+  CompleteAgain(full, links, h, s);
   s->priced_lp.col(h) = full.priced_log_parity.col(h);
-  CompleteHeadings(chain, nullptr, &completed);
-  for (int g = 0; g < chain.num_headings; ++g) {
-    if (SameValues(completed.col(g), full.heading_log_parity.col(g))) continue;
-    s->heading_lp.col(g) = completed.col(g);
-    s->changed_headings.push_back(g);
-  }
   return TakeChanges(full, chain.heading_nodes[h], true, s);
 }
 
@@ -161,7 +203,7 @@ Changes DropEachUnit(const FullSample& full, const Units& units,
   changes.item.resize(num_drop_items);
   changes.heading.resize(num_drop_headings);
   Progress progress{&options, "leave-one-out", num_drop_items + num_drop_headings};
-  const bool rules_may_fill = RulesMayFill(full.chain);
+  const RuleLinks links = MakeRuleLinks(full.chain);
 #pragma omp parallel num_threads(full.num_threads)
   {
     KeepChainOnThisThread();
@@ -170,7 +212,7 @@ Changes DropEachUnit(const FullSample& full, const Units& units,
                     std::vector<uint8_t>(full.chain.num_nodes, 0), {}};
 #pragma omp for schedule(dynamic, 4)
     for (int u = 0; u < num_drop_items; ++u) {
-      changes.item[u] = DropItem(full, rules_may_fill, units.items[u], &scratch);
+      changes.item[u] = DropItem(full, links, units.items[u], &scratch);
       progress.Step();
     }
 #pragma omp for schedule(dynamic, 1)

@@ -121,7 +121,8 @@ bool HeadingFromFile(const Chain& chain, int h) {
          survey.external_log_parity.col(h).array().isFinite().any();
 }
 
-int CompleteHeadings(const Chain& chain, Stream* draw, Eigen::MatrixXd* heading_log_parity) {
+int CompleteHeadings(const Chain& chain, Stream* draw, Eigen::MatrixXd* heading_log_parity,
+                     const std::vector<HeadingRule>* rules, ImputationResult* details) {
   const Survey& survey = *chain.survey;
   if (static_cast<int>(chain.rules.size()) != chain.num_headings) return 0;
   ImputationInput input;
@@ -165,7 +166,7 @@ int CompleteHeadings(const Chain& chain, Stream* draw, Eigen::MatrixXd* heading_
       }
     }
   }
-  input.rules = chain.rules;
+  input.rules = rules != nullptr ? *rules : chain.rules;
   ImputationResult result;
   std::string error;
   if (!ImputeMissingHeadingParities(input, survey.classification,
@@ -173,8 +174,10 @@ int CompleteHeadings(const Chain& chain, Stream* draw, Eigen::MatrixXd* heading_
                                     &error)) {
     return 0;  // a bad like: rule; the compute stage reports it
   }
+  const int num_imputed = result.num_imputed;
   *heading_log_parity = std::move(result.log_parity);
-  return result.num_imputed;
+  if (details != nullptr) *details = std::move(result);
+  return num_imputed;
 }
 
 Eigen::VectorXd HeadingLogParity(const Chain& chain, int h, const std::vector<double>& item_weight,
@@ -221,7 +224,8 @@ int ComputeNodes(const Chain& chain, const Eigen::MatrixXd& node_expenditure,
 ReplicateOutcome RunChain(const Chain& chain, const Eigen::MatrixXd& node_expenditure,
                           const std::vector<double>& item_weight,
                           Eigen::MatrixXd* heading_log_parity, Eigen::MatrixXd* node_log_parity,
-                          Stream* draw, Eigen::MatrixXd* priced_log_parity) {
+                          Stream* draw, Eigen::MatrixXd* priced_log_parity,
+                          ImputationResult* imputation) {
   ReplicateOutcome outcome;
   heading_log_parity->resize(chain.num_regions, chain.num_headings);
   node_log_parity->resize(chain.num_nodes, chain.num_regions);
@@ -231,7 +235,7 @@ ReplicateOutcome RunChain(const Chain& chain, const Eigen::MatrixXd& node_expend
     outcome.num_unlinked += unlinked ? 1 : 0;
   }
   if (priced_log_parity != nullptr) *priced_log_parity = *heading_log_parity;
-  outcome.num_imputed = CompleteHeadings(chain, draw, heading_log_parity);
+  outcome.num_imputed = CompleteHeadings(chain, draw, heading_log_parity, nullptr, imputation);
   outcome.num_unlinked +=
       ComputeNodes(chain, node_expenditure, *heading_log_parity, {}, node_log_parity);
   return outcome;

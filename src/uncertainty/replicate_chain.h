@@ -120,20 +120,26 @@ bool HeadingFromFile(const Chain& chain, int h);
 // has a log_se), then the missing ones are filled by each heading's rule
 // (compute/imputation.h), the file's parities of headings with rule
 // `external` drawn likewise before they fill. Returns the number of entries
-// imputed.
-int CompleteHeadings(const Chain& chain, Stream* draw, Eigen::MatrixXd* heading_log_parity);
+// imputed. `rules`, when given, replaces chain.rules (a heading under
+// `leave` is left as it is); `details`, when given, receives the rest of
+// the ImputationResult (its log_parity is moved into heading_log_parity).
+int CompleteHeadings(const Chain& chain, Stream* draw, Eigen::MatrixXd* heading_log_parity,
+                     const std::vector<HeadingRule>* rules = nullptr,
+                     ImputationResult* details = nullptr);
 
 // Runs every heading and every node with `item_weight`; fills heading ln
 // parities (regions x headings) and normalised node ln parities (nodes x
 // regions).
 // `draw`, when given, draws the external parities (CompleteHeadings).
 // `priced_log_parity`, when given, receives the heading ln parities as the
-// quotes alone give them, before CompleteHeadings (leave-one-out completes
-// them again after each dropped item).
+// quotes alone give them, before CompleteHeadings, and `imputation` what
+// CompleteHeadings filled (leave-one-out completes them again after each
+// dropped item).
 ReplicateOutcome RunChain(const Chain& chain, const Eigen::MatrixXd& node_expenditure,
                           const std::vector<double>& item_weight,
                           Eigen::MatrixXd* heading_log_parity, Eigen::MatrixXd* node_log_parity,
-                          Stream* draw = nullptr, Eigen::MatrixXd* priced_log_parity = nullptr);
+                          Stream* draw = nullptr, Eigen::MatrixXd* priced_log_parity = nullptr,
+                          ImputationResult* imputation = nullptr);
 
 // Ranks (1 = dearest) within each node of a replicate; 0 where no parity.
 void RankRows(const Eigen::MatrixXd& node_log_parity, Eigen::MatrixXi* rank);

@@ -186,10 +186,15 @@ bool RunFullSample(const Survey& survey, const ComputeOptions& compute,
   full->chain = internal::MakeChain(survey, compute);
   full->node_expenditure = internal::NodeExpenditures(survey);
   const std::vector<double> ones(survey.num_items(), 1.0);
+  ImputationResult imputation;
   full->num_imputed =
       internal::RunChain(full->chain, full->node_expenditure, ones, &full->heading_log_parity,
-                         &full->node_log_parity, nullptr, &full->priced_log_parity)
+                         &full->node_log_parity, nullptr, &full->priced_log_parity, &imputation)
           .num_imputed;
+  full->highest_proxy_node = imputation.highest_proxy_node;
+  for (const std::vector<int>& regions : imputation.imputed) {
+    full->heading_filled.push_back(regions.empty() ? 0 : 1);
+  }
   full->num_threads = internal::ThreadsFor(options.num_threads);
   for (int h = 0; h < full->chain.num_headings; ++h) {
     result->heading_num_items.push_back(static_cast<int>(full->chain.heading_items[h].size()));

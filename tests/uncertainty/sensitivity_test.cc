@@ -11,6 +11,7 @@
 #include <cstdio>
 #include <filesystem>
 #include <limits>
+#include <set>
 #include <sstream>
 
 #include <gtest/gtest.h>
@@ -405,9 +406,44 @@ TEST_P(LeaveOneOutRules, ChangesAndJackknifeEqualRunsWithoutEachItem) {
   options.num_regions = 12;
   options.items_per_heading = 5;
   options.coverage = 0.35;  // many regions price one or two items of a heading
-  const Survey survey = LoadSynthetic(options, "loo-rules");
+  synthetic::SyntheticSurvey truth = synthetic::Generate(options);
+  // Region 1 prices nothing in heading 0 and region 2 nothing in heading 2
+  // (headings 0 and 1 form one group, 2 and 3 the other), so that the full
+  // sample has parities a rule fills, resting on other headings' items.
+  synthetic::SyntheticSurvey holed = truth;
+  holed.quote_region.clear(), holed.quote_item.clear(), holed.quote_price.clear();
+  holed.quote_representative.clear();
+  for (size_t q = 0; q < truth.quote_region.size(); ++q) {
+    const int r = truth.quote_region[q], h = truth.item_heading[truth.quote_item[q]];
+    if ((r == 1 && h == 0) || (r == 2 && h == 2)) continue;
+    holed.quote_region.push_back(r);
+    holed.quote_item.push_back(truth.quote_item[q]);
+    holed.quote_price.push_back(truth.quote_price[q]);
+    holed.quote_representative.push_back(truth.quote_representative[q]);
+  }
+  const Survey survey = LoadFolder(WriteSynthetic(holed, "loo-rules"));
+  // Under like:, heading 0 rests on the heading of the other group where
+  // region 1 prices more items (a region pricing only the anchor keeps its
+  // parity whatever item goes, and so would its fill).
+  auto items_of_region_1 = [&](int h) {
+    std::set<int> items;
+    for (size_t q = 0; q < holed.quote_region.size(); ++q) {
+      if (holed.quote_region[q] == 1 && truth.item_heading[holed.quote_item[q]] == h) {
+        items.insert(holed.quote_item[q]);
+      }
+    }
+    return static_cast<int>(items.size());
+  };
+  const int like_source = items_of_region_1(2) >= items_of_region_1(3) ? 2 : 3;
+  ASSERT_GE(items_of_region_1(like_source), 2);
   ComputeOptions compute;
-  compute.missing_parities.default_rule = GetParam();
+  if (GetParam() == "like") {
+    // Each filled heading rests on a heading of the other group.
+    compute.missing_parities.headings = {{truth.headings[0], "like:" + truth.headings[like_source]},
+                                         {truth.headings[2], "like:" + truth.headings[1]}};
+  } else {
+    compute.missing_parities.default_rule = GetParam();
+  }
   SensitivityResult result;
   SensitivitySummary summary;
   ASSERT_TRUE(RunSensitivity(survey, compute, OnlyParts(false, true, false, false), &result, &summary))
@@ -467,12 +503,26 @@ TEST_P(LeaveOneOutRules, ChangesAndJackknifeEqualRunsWithoutEachItem) {
   // is lost when an item goes, with `parent` the rule fills it instead.
   if (GetParam() == "leave") {
     EXPECT_GT(parities_lost, 0);
-  } else {
+  } else if (GetParam() == "parent") {
     EXPECT_EQ(parities_lost, 0);
+  }
+  if (GetParam() != "leave") {
+    // The fill of region 1 in heading 0 moves when an item of the heading
+    // it rests on (1 under parent, like_source under like) is dropped.
+    const int leaf = survey.classification.FindNode(truth.headings[0]);
+    const int source = GetParam() == "parent" ? 1 : like_source;
+    double moved = 0.0;
+    for (int i = survey.heading_range[source].item_begin; i < survey.heading_range[source].item_end; ++i) {
+      weight[i] = 0.0;
+      ASSERT_TRUE(ReplicateParities(survey, compute, weight, &without, nullptr, &error)) << error;
+      weight[i] = 1.0;
+      moved = std::max(moved, std::abs(without(leaf, 1) - base(leaf, 1)));
+    }
+    EXPECT_GT(moved, 1e-6);
   }
 }
 
-INSTANTIATE_TEST_SUITE_P(Rules, LeaveOneOutRules, ::testing::Values("leave", "parent"));
+INSTANTIATE_TEST_SUITE_P(Rules, LeaveOneOutRules, ::testing::Values("leave", "parent", "like"));
 
 TEST(LeaveOneOut, JackknifeOfACompleteHeadingIsTheStandardErrorOfAMean) {
   // On a complete table CPD gives a_r = mean_i (y_ri - mean_s y_si), a mean

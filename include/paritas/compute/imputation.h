@@ -95,6 +95,11 @@ struct ImputationResult {
   std::vector<std::vector<int>> left_missing;
   // Per heading, the regions imputed.
   std::vector<std::vector<int>> imputed;
+  // Per heading, the highest ancestor (classification node) whose aggregate
+  // without the heading supplied a filled parity under rule parent; -1 when
+  // no fill rests on an aggregate. A fill then depends on the parities of
+  // that node's other headings (and of the heading itself, by the linking).
+  std::vector<int> highest_proxy_node;
   // Entries imputed in all (imputed or external by rule).
   int num_imputed = 0;
 };
