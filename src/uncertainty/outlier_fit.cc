@@ -162,14 +162,18 @@ Compressed Compress(const CpdData& data) {
   return c;
 }
 
-// Huber weight of each cell: min(1, c s / |e|) (Huber 1981).
-Eigen::VectorXd HuberWeights(const Eigen::VectorXd& residual, double cutoff) {
-  Eigen::VectorXd weight(residual.size());
-  for (int64_t k = 0; k < residual.size(); ++k) {
-    const double magnitude = std::abs(residual[k]);
-    weight[k] = magnitude > cutoff ? cutoff / magnitude : 1.0;
-  }
-  return weight;
+// Sets the Huber weight of each cell, min(1, c s / |e|) (Huber 1981), and
+// returns the largest change from `previous`. The quotient is formed for
+// every cell and then chosen, in two loops that each run on vectors.
+double HuberWeights(const Eigen::VectorXd& residual, double cutoff, const Eigen::VectorXd& previous,
+                    Eigen::VectorXd* weight) {
+  const int64_t n = residual.size();
+  weight->resize(n);
+  const double* e = residual.data();
+  double* w = weight->data();
+  for (int64_t k = 0; k < n; ++k) w[k] = cutoff / std::abs(e[k]);
+  for (int64_t k = 0; k < n; ++k) w[k] = std::abs(e[k]) > cutoff ? w[k] : 1.0;
+  return (*weight - previous).cwiseAbs().maxCoeff();
 }
 
 }  // namespace
@@ -178,13 +182,21 @@ double RobustScale(const Eigen::VectorXd& residual, const Eigen::VectorXd& weigh
                    const Eigen::VectorXd& leverage, const std::vector<CellLink>& link,
                    ScaleScratch* scratch, int* num_cells) {
   std::vector<uint64_t>& standardised = scratch->terms;
-  standardised.resize(residual.size());
+  const int64_t num_all = residual.size();
+  standardised.resize(num_all);
   uint64_t* out = standardised.data();
+  const double* w = weight.data();
+  const double* q = leverage.data();
+  // Every cell's term first, as an Eigen array expression so that square
+  // roots and quotients run on vectors (each correctly rounded, so the same
+  // bits as one at a time; NaN or infinity where h >= 1, not kept), then
+  // the cells kept, in order, by a branch-free compaction.
+  Eigen::ArrayXd& term = scratch->values;
+  term = residual.array().abs() / (1.0 - weight.array() * leverage.array()).sqrt();
   size_t n = 0;
-  for (int64_t k = 0; k < residual.size(); ++k) {
-    const double hat = weight[k] * leverage[k];
-    if (link[k] != CellLink::kNone || !(hat < 1.0 - kHatOne)) continue;
-    out[n++] = std::bit_cast<uint64_t>(std::abs(residual[k]) / std::sqrt(1.0 - hat));
+  for (int64_t k = 0; k < num_all; ++k) {
+    out[n] = std::bit_cast<uint64_t>(term[k]);
+    n += link[k] == CellLink::kNone && w[k] * q[k] < 1.0 - kHatOne ? 1 : 0;
   }
   standardised.resize(n);
   *num_cells = static_cast<int>(n);
@@ -226,31 +238,17 @@ struct BlockSolve {
   Eigen::VectorXd leverage;       // per cell: q (NaN when S is singular)
 };
 
-// Arrays of SolveBlocks kept between the iterations of a fit, so that the
-// large ones are allocated (and their pages first touched) once.
-struct BlockWorkspace {
-  Eigen::MatrixXd c, scaled, s, g, gc;
-  Eigen::VectorXd d_a, d_b, r_a, r_b, inverse_d_b, cgc;
-};
-
-// Returns false (leverage NaN) when S + 11'/m is not positive definite.
-// `log_price` may be empty: then only the leverage is formed.
-bool SolveBlocks(int num_regions, int num_items, std::span<const int> region, std::span<const int> item,
-                 std::span<const double> log_price, const Eigen::VectorXd& weight, BlockWorkspace* ws,
-                 BlockSolve* out) {
-  const bool regions_dense = num_regions <= num_items;
-  const int m = regions_dense ? num_regions : num_items;
-  const int num_b = regions_dense ? num_items : num_regions;
-  const std::span<const int> a_of = regions_dense ? region : item;
-  const std::span<const int> b_of = regions_dense ? item : region;
-  const bool fit = !log_price.empty();
+// Adds the cells' weights into D and X'Wy (`fit`: with the ln prices) and,
+// unless kSparse, into C (cleared by the caller); returns whether the cells
+// proved distinct with positive weights (each entry of C found 0 before
+// its addition). kSparse: C already holds zeros off the cells, no two cells
+// sharing an entry; the caller writes the cells' entries (0 + w is w).
+template <bool kSparse>
+bool ScatterCells(std::span<const int> a_of, std::span<const int> b_of, std::span<const double> log_price,
+                  const Eigen::VectorXd& weight, bool fit, FitWorkspace* ws) {
   const int64_t num_cells = static_cast<int64_t>(a_of.size());
   Eigen::MatrixXd& c = ws->c;
-  c.setZero(m, num_b);
-  ws->d_a.setZero(m);
-  ws->d_b.setZero(num_b);
-  ws->r_a.setZero(m);
-  ws->r_b.setZero(num_b);
+  bool distinct = true;
   // The sums of side A run in registers while its index stays the same (a
   // heading's cells come by item, and the items are side A when fewer than
   // the regions): the same additions in the same order as through memory,
@@ -267,7 +265,10 @@ bool SolveBlocks(int num_regions, int num_items, std::span<const int> region, st
       r_a = ws->r_a[a];
     }
     const double w = weight[k];
-    c(a, b) += w;
+    if constexpr (!kSparse) {
+      distinct &= c(a, b) == 0.0 && w > 0.0;
+      c(a, b) += w;
+    }
     d_a += w;
     ws->d_b[b] += w;
     if (fit) {
@@ -279,9 +280,65 @@ bool SolveBlocks(int num_regions, int num_items, std::span<const int> region, st
     ws->d_a[run_a] = d_a;
     ws->r_a[run_a] = r_a;
   }
+  return distinct;
+}
+
+// Returns false (leverage NaN) when S + 11'/m is not positive definite.
+// `log_price` may be empty: then only the leverage is formed. Successive
+// calls with one workspace and ws->zeros_off_cells set must pass the same
+// cells (only the weights may change).
+bool SolveBlocks(int num_regions, int num_items, std::span<const int> region, std::span<const int> item,
+                 std::span<const double> log_price, const Eigen::VectorXd& weight, FitWorkspace* ws,
+                 BlockSolve* out) {
+  const bool regions_dense = num_regions <= num_items;
+  const int m = regions_dense ? num_regions : num_items;
+  const int num_b = regions_dense ? num_items : num_regions;
+  const std::span<const int> a_of = regions_dense ? region : item;
+  const std::span<const int> b_of = regions_dense ? item : region;
+  const bool fit = !log_price.empty();
+  const int64_t num_cells = static_cast<int64_t>(a_of.size());
+  Eigen::MatrixXd& c = ws->c;
+  const bool sparse = ws->zeros_off_cells && c.rows() == m && c.cols() == num_b;
+  if (!sparse) c.setZero(m, num_b);
+  ws->d_a.setZero(m);
+  ws->d_b.setZero(num_b);
+  ws->r_a.setZero(m);
+  ws->r_b.setZero(num_b);
+  const bool distinct = sparse ? ScatterCells<true>(a_of, b_of, log_price, weight, fit, ws)
+                               : ScatterCells<false>(a_of, b_of, log_price, weight, fit, ws);
   const Eigen::VectorXd& inverse_d_b = ws->inverse_d_b = ws->d_b.cwiseInverse();
+  const Eigen::VectorXd& root_inverse_d_b = ws->root_inverse_d_b = inverse_d_b.cwiseSqrt();
+  // C D_B^-1/2, entry by entry as the dense product c * diag forms it; off
+  // the cells it is 0 like C (when 1 / d_b is finite). The cells' entries
+  // are written column by column (a heading's cells come by item, a row of
+  // C when items are side A): stores to neighbouring addresses.
+  if (distinct && root_inverse_d_b.allFinite()) {
+    if (!sparse) {
+      ws->scaled.setZero(m, num_b);
+      const Groups by_b = GroupBy(b_of, num_b);
+      ws->cell_by_entry = by_b.order;
+      ws->column_start = by_b.start;
+      ws->row.resize(num_cells);
+      for (int64_t j = 0; j < num_cells; ++j) ws->row[j] = a_of[by_b.order[j]];
+    }
+    const int* cell = ws->cell_by_entry.data();
+    const int* row = ws->row.data();
+    for (int b = 0; b < num_b; ++b) {
+      double* c_column = &c(0, b);
+      double* scaled_column = &ws->scaled(0, b);
+      const double root = root_inverse_d_b[b];
+      for (int j = ws->column_start[b]; j < ws->column_start[b + 1]; ++j) {
+        const double w = weight[cell[j]];
+        c_column[row[j]] = w;
+        scaled_column[row[j]] = w * root;
+      }
+    }
+    ws->zeros_off_cells = true;
+  } else {
+    ws->scaled.noalias() = c * root_inverse_d_b.asDiagonal();
+    ws->zeros_off_cells = false;
+  }
   // Lower triangle of S + 11'/m, as one symmetric rank update.
-  ws->scaled.noalias() = c * inverse_d_b.cwiseSqrt().asDiagonal();
   ws->s.setConstant(m, m, 1.0 / m);
   ws->s.selfadjointView<Eigen::Lower>().rankUpdate(ws->scaled, -1.0);
   ws->s.diagonal() += ws->d_a;
@@ -316,7 +373,7 @@ bool SolveBlocks(int num_regions, int num_items, std::span<const int> region, st
 Eigen::VectorXd LeverageFactors(int num_regions, int num_items, std::span<const int> region,
                                 std::span<const int> item, const Eigen::VectorXd& weight) {
   BlockSolve solve;
-  BlockWorkspace workspace;
+  FitWorkspace workspace;
   SolveBlocks(num_regions, num_items, region, item, {}, weight, &workspace, &solve);
   return std::move(solve.leverage);
 }
@@ -400,8 +457,11 @@ void FindCuttingCells(int num_regions, int num_items, std::span<const int> regio
   }
 }
 
-ScreenFit FitScreen(const CpdData& data, const OutlierOptions& options) {
+ScreenFit FitScreen(const CpdData& data, const OutlierOptions& options, FitWorkspace* workspace) {
   ScreenFit fit;
+  FitWorkspace local;
+  FitWorkspace& ws = workspace != nullptr ? *workspace : local;
+  ws.zeros_off_cells = false;  // a new design
   const int num_cells = static_cast<int>(data.region.size());
   if (num_cells == 0 || LinkedRegionGroups(data.num_regions, data.num_items, data.region, data.item).size() != 1) {
     // No parities: FitCpd says why, in the words of the elementary stage.
@@ -420,10 +480,9 @@ ScreenFit FitScreen(const CpdData& data, const OutlierOptions& options) {
   // The least-squares start, then the reweighted fits; `latest` holds the
   // effects of the last one (compressed numbering).
   BlockSolve latest, refit;
-  BlockWorkspace workspace;
-  ScaleScratch scratch;
+  ScaleScratch& scratch = ws.scale;
   fit.weight = Eigen::VectorXd::Ones(num_cells);
-  if (!SolveBlocks(c.num_regions, c.num_items, c.region, c.item, data.log_price, fit.weight, &workspace, &latest)) {
+  if (!SolveBlocks(c.num_regions, c.num_items, c.region, c.item, data.log_price, fit.weight, &ws, &latest)) {
     fit.message = "the CPD normal equations are numerically singular";
     return fit;
   }
@@ -449,16 +508,16 @@ ScreenFit FitScreen(const CpdData& data, const OutlierOptions& options) {
     const double scale =
         RobustScale(fit.residual, fit.weight, fit.leverage, fit.link, &scratch, &fit.num_scale_cells);
     if (!(scale > 0.0)) break;  // too few cells, or an exact fit: least squares it is
-    Eigen::VectorXd next = HuberWeights(fit.residual, options.huber_constant * scale);
-    const double change = (next - fit.weight).cwiseAbs().maxCoeff();
+    Eigen::VectorXd& next = ws.next_weight;
+    const double change = HuberWeights(fit.residual, options.huber_constant * scale, fit.weight, &next);
     if (change <= options.weight_tolerance) {
       fit.converged = true;
       break;
     }
-    if (!SolveBlocks(c.num_regions, c.num_items, c.region, c.item, data.log_price, next, &workspace, &refit)) {
+    if (!SolveBlocks(c.num_regions, c.num_items, c.region, c.item, data.log_price, next, &ws, &refit)) {
       break;  // cannot happen with positive weights; keep the last fit
     }
-    fit.weight = std::move(next);
+    fit.weight.swap(next);
     adopt(&refit);
     ++fit.num_iterations;
   }

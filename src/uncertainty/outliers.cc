@@ -73,7 +73,8 @@ double FiniteMedian(const std::vector<double>& values) {
   return Median(std::move(finite));
 }
 
-ScreenFit FitHeading(const Survey& survey, int h, const OutlierOptions& options) {
+ScreenFit FitHeading(const Survey& survey, int h, const OutlierOptions& options,
+                     internal::FitWorkspace* workspace) {
   const HeadingRange& range = survey.heading_range[h];
   std::vector<int> region, item;
   std::vector<double> log_price;
@@ -88,7 +89,7 @@ ScreenFit FitHeading(const Survey& survey, int h, const OutlierOptions& options)
   data.region = region;
   data.item = item;
   data.log_price = log_price;
-  return internal::FitScreen(data, options);
+  return internal::FitScreen(data, options, workspace);
 }
 
 // Median of sorted `values` without the one at position `skip`.
@@ -320,7 +321,7 @@ void ScreenQuotes(const Survey& survey, int h, int64_t c, const Prediction& p, d
                   double threshold, std::vector<Outlier>* flagged) {
   const int n = survey.cells.num_quotes[c];
   if (n < 2) return;
-  const double quote_sd = std::hypot(p.sd, within_sd);
+  double quote_sd = kNaN;  // formed when first needed: most cells' quotes are not apart
   const double mate_sd = within_sd * std::sqrt(1.0 + 1.0 / (n - 1));
   for (OutlierKind kind : {OutlierKind::kLowestQuote, OutlierKind::kHighestQuote}) {
     const double x = kind == OutlierKind::kLowestQuote ? survey.cells.log_min[c] : survey.cells.log_max[c];
@@ -328,7 +329,9 @@ void ScreenQuotes(const Survey& survey, int h, int64_t c, const Prediction& p, d
     const double gap = std::abs(x - mates);
     const bool apart = mate_sd > 0.0 ? gap / mate_sd > threshold : gap > 0.0;
     double z = 0.0;
-    if (!apart || !Beyond(x, quote_sd, p, threshold, &z)) continue;
+    if (!apart) continue;
+    if (std::isnan(quote_sd)) quote_sd = std::hypot(p.sd, within_sd);
+    if (!Beyond(x, quote_sd, p, threshold, &z)) continue;
     Outlier quote = MakeRow(survey, h, c, p);
     quote.kind = kind;
     quote.observed = std::exp(x);
@@ -566,10 +569,14 @@ OutlierReport FindOutliers(const Survey& survey, const ParityResult& result,
   // threads.
   std::vector<ScreenFit> fits(num_headings);
   const int threads = options.num_threads > 0 ? options.num_threads : omp_get_max_threads();
+  // One workspace per thread, reused from heading to heading.
+  std::vector<internal::FitWorkspace> workspaces(threads);
 #pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
   for (int h = 0; h < num_headings; ++h) {
     internal::KeepEigenOnThisThread();
-    if (survey.heading_range[h].num_cells() > 0) fits[h] = FitHeading(survey, h, options);
+    if (survey.heading_range[h].num_cells() > 0) {
+      fits[h] = FitHeading(survey, h, options, &workspaces[omp_get_thread_num()]);
+    }
   }
   Eigen::MatrixXd levels = Eigen::MatrixXd::Constant(survey.num_regions(), num_headings, kNaN);
   for (int h = 0; h < num_headings; ++h) {
