@@ -342,9 +342,12 @@ bool SolveBlocks(int num_regions, int num_items, std::span<const int> region, st
   ws->s.setConstant(m, m, 1.0 / m);
   ws->s.selfadjointView<Eigen::Lower>().rankUpdate(ws->scaled, -1.0);
   ws->s.diagonal() += ws->d_a;
-  out->leverage.setConstant(num_cells, kNaN);
   const Eigen::LLT<Eigen::MatrixXd> llt(ws->s);
-  if (llt.info() != Eigen::Success) return false;
+  if (llt.info() != Eigen::Success) {
+    out->leverage.setConstant(num_cells, kNaN);
+    return false;
+  }
+  out->leverage.resize(num_cells);  // every cell's set below
   if (fit) {
     const Eigen::VectorXd effect_a = llt.solve(ws->r_a - c * inverse_d_b.cwiseProduct(ws->r_b));
     Eigen::VectorXd effect_b = ws->r_b;

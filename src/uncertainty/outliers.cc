@@ -8,6 +8,7 @@
 #include "paritas/uncertainty/outliers.h"
 
 #include <algorithm>
+#include <array>
 #include <cmath>
 #include <iterator>
 #include <limits>
@@ -270,13 +271,28 @@ struct HeadingRows {
 // term has median sigma (a plain median of sd_k would be 0.67 sigma for two
 // quotes). m(1) = 0.6745^2 exactly; otherwise k (1 - 2 / (9k))^3 (Wilson and
 // Hilferty 1931).
+double MedianChiSquare(int dof) { return dof == 1 ? 0.454936 : dof * std::pow(1.0 - 2.0 / (9.0 * dof), 3); }
+
+// sqrt(m(dof) / dof) for the few degrees of freedom most cells have, formed
+// once.
+constexpr int kNumTabledDof = 32;
+const std::array<double, kNumTabledDof>& RootMedianChiSquareShares() {
+  static const std::array<double, kNumTabledDof> table = [] {
+    std::array<double, kNumTabledDof> t{};
+    for (int dof = 1; dof < kNumTabledDof; ++dof) t[dof] = std::sqrt(MedianChiSquare(dof) / dof);
+    return t;
+  }();
+  return table;
+}
+
 double WithinCellSd(const Survey& survey, int h) {
+  const std::array<double, kNumTabledDof>& tabled = RootMedianChiSquareShares();
   std::vector<double> within;
   for (int64_t c = survey.heading_range[h].cell_begin; c < survey.heading_range[h].cell_end; ++c) {
     const int dof = survey.cells.num_quotes[c] - 1;
     if (dof < 1) continue;
-    const double median_chi2 = dof == 1 ? 0.454936 : dof * std::pow(1.0 - 2.0 / (9.0 * dof), 3);
-    within.push_back(survey.cells.log_sd[c] / std::sqrt(median_chi2 / dof));
+    const double root_share = dof < kNumTabledDof ? tabled[dof] : std::sqrt(MedianChiSquare(dof) / dof);
+    within.push_back(survey.cells.log_sd[c] / root_share);
   }
   return within.empty() ? 0.0 : Median(std::move(within));
 }
