@@ -155,9 +155,11 @@ Compressed Compress(const CpdData& data) {
   }
   c.num_regions = static_cast<int>(c.region_of.size());
   c.num_items = static_cast<int>(c.item_of.size());
+  c.region.resize(data.region.size());
+  c.item.resize(data.item.size());
   for (size_t k = 0; k < data.region.size(); ++k) {
-    c.region.push_back(region_index[data.region[k]]);
-    c.item.push_back(item_index[data.item[k]]);
+    c.region[k] = region_index[data.region[k]];
+    c.item[k] = item_index[data.item[k]];
   }
   return c;
 }
@@ -232,9 +234,11 @@ namespace {
 // One factorisation serves both, so each iteration of the robust fit forms
 // one Schur complement and scatters the cells once.
 struct BlockSolve {
-  Eigen::VectorXd region_effect;  // per compressed region (1'a = 0 on side A)
-  Eigen::VectorXd item_effect;    // per compressed item
-  Eigen::VectorXd residual;       // per cell: y - a_r - b_i (empty without y)
+  // Per compressed region and item, shifted so that the region effects
+  // have mean 0 (as FitCpd reports them).
+  Eigen::VectorXd region_effect;
+  Eigen::VectorXd item_effect;
+  Eigen::VectorXd residual;       // per cell: y - (a_r + b_i) (empty without y)
   Eigen::VectorXd leverage;       // per cell: q (NaN when S is singular)
 };
 
@@ -355,6 +359,9 @@ bool SolveBlocks(int num_regions, int num_items, std::span<const int> region, st
     effect_b = effect_b.cwiseProduct(inverse_d_b);
     out->region_effect = regions_dense ? effect_a : effect_b;
     out->item_effect = regions_dense ? effect_b : effect_a;
+    const double shift = out->region_effect.mean();
+    out->region_effect.array() -= shift;
+    out->item_effect.array() += shift;
   }
   ws->g.setIdentity(m, m);
   llt.solveInPlace(ws->g);
@@ -363,10 +370,22 @@ bool SolveBlocks(int num_regions, int num_items, std::span<const int> region, st
   const Eigen::MatrixXd& g = ws->g;
   const Eigen::MatrixXd& gc = ws->gc;
   const Eigen::VectorXd& cgc = ws->cgc;
+  auto leverage = [&](int a, int b) {
+    return inverse_d_b[b] + g(a, a) - 2.0 * gc(a, b) * inverse_d_b[b] + cgc[b] * inverse_d_b[b] * inverse_d_b[b];
+  };
+  if (!fit) {
+    for (int64_t k = 0; k < num_cells; ++k) out->leverage[k] = leverage(a_of[k], b_of[k]);
+    return true;
+  }
+  // The residuals in the same pass (a_r + b_i in either order: the sum of
+  // two numbers does not depend on their order).
+  const Eigen::VectorXd& effect_a = regions_dense ? out->region_effect : out->item_effect;
+  const Eigen::VectorXd& effect_b = regions_dense ? out->item_effect : out->region_effect;
+  out->residual.resize(num_cells);
   for (int64_t k = 0; k < num_cells; ++k) {
     const int a = a_of[k], b = b_of[k];
-    out->leverage[k] =
-        inverse_d_b[b] + g(a, a) - 2.0 * gc(a, b) * inverse_d_b[b] + cgc[b] * inverse_d_b[b] * inverse_d_b[b];
+    out->leverage[k] = leverage(a, b);
+    out->residual[k] = log_price[k] - (effect_a[a] + effect_b[b]);
   }
   return true;
 }
@@ -489,18 +508,12 @@ ScreenFit FitScreen(const CpdData& data, const OutlierOptions& options, FitWorks
     fit.message = "the CPD normal equations are numerically singular";
     return fit;
   }
-  fit.residual.resize(num_cells);
-  // Effects with mean 0 over the regions present (as FitCpd reports them)
-  // and the residuals at that level.
+  // Takes a solve's leverages, residuals and effects (swapped, so the
+  // arrays are reused by the next solve).
   auto adopt = [&](BlockSolve* solve) {
     fit.leverage.swap(solve->leverage);
+    fit.residual.swap(solve->residual);
     std::swap(latest, *solve);
-    const double shift = latest.region_effect.mean();
-    latest.region_effect.array() -= shift;
-    latest.item_effect.array() += shift;
-    for (int k = 0; k < num_cells; ++k) {
-      fit.residual[k] = data.log_price[k] - (latest.region_effect[c.region[k]] + latest.item_effect[c.item[k]]);
-    }
   };
   refit = std::move(latest);
   adopt(&refit);

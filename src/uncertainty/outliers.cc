@@ -12,6 +12,8 @@
 #include <cmath>
 #include <iterator>
 #include <limits>
+#include <numeric>
+#include <span>
 #include <string>
 #include <utility>
 #include <vector>
@@ -77,19 +79,15 @@ double FiniteMedian(const std::vector<double>& values) {
 ScreenFit FitHeading(const Survey& survey, int h, const OutlierOptions& options,
                      internal::FitWorkspace* workspace) {
   const HeadingRange& range = survey.heading_range[h];
-  std::vector<int> region, item;
-  std::vector<double> log_price;
-  for (int64_t c = range.cell_begin; c < range.cell_end; ++c) {
-    region.push_back(survey.cells.region[c]);
-    item.push_back(survey.cells.item[c] - range.item_begin);
-    log_price.push_back(survey.cells.log_price[c]);
-  }
+  const size_t begin = static_cast<size_t>(range.cell_begin), n = static_cast<size_t>(range.num_cells());
+  std::vector<int> item(n);  // numbered within the heading
+  for (size_t k = 0; k < n; ++k) item[k] = survey.cells.item[begin + k] - range.item_begin;
   CpdData data;
   data.num_regions = survey.num_regions();
   data.num_items = range.num_items();
-  data.region = region;
+  data.region = std::span<const int>(survey.cells.region).subspan(begin, n);
   data.item = item;
-  data.log_price = log_price;
+  data.log_price = std::span<const double>(survey.cells.log_price).subspan(begin, n);
   return internal::FitScreen(data, options, workspace);
 }
 
@@ -585,11 +583,18 @@ OutlierReport FindOutliers(const Survey& survey, const ParityResult& result,
   // threads.
   std::vector<ScreenFit> fits(num_headings);
   const int threads = options.num_threads > 0 ? options.num_threads : omp_get_max_threads();
-  // One workspace per thread, reused from heading to heading.
+  // One workspace per thread, reused from heading to heading; the biggest
+  // headings first, so that no thread is left with a big one at the end.
   std::vector<internal::FitWorkspace> workspaces(threads);
+  std::vector<int> by_size(num_headings);
+  std::iota(by_size.begin(), by_size.end(), 0);
+  std::stable_sort(by_size.begin(), by_size.end(), [&](int a, int b) {
+    return survey.heading_range[a].num_cells() > survey.heading_range[b].num_cells();
+  });
 #pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
-  for (int h = 0; h < num_headings; ++h) {
+  for (int j = 0; j < num_headings; ++j) {
     internal::KeepEigenOnThisThread();
+    const int h = by_size[j];
     if (survey.heading_range[h].num_cells() > 0) {
       fits[h] = FitHeading(survey, h, options, &workspaces[omp_get_thread_num()]);
     }
