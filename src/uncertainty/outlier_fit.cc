@@ -287,6 +287,48 @@ bool ScatterCells(std::span<const int> a_of, std::span<const int> b_of, std::spa
   return distinct;
 }
 
+// Sets ws->scaled = C D_B^-1/2, entry by entry as the dense product c * diag
+// forms it, and finishes C where ScatterCells<true> left it: off the cells
+// both are 0 (when 1 / d_b is finite). The cells' entries are written column
+// by column (a heading's cells come by item, a row of C when items are side
+// A): stores to neighbouring addresses. `sparse` and `distinct` as in
+// SolveBlocks.
+void ScaleColumns(std::span<const int> a_of, std::span<const int> b_of, const Eigen::VectorXd& weight, int m,
+                  int num_b, bool sparse, bool distinct, FitWorkspace* ws) {
+  const int64_t num_cells = static_cast<int64_t>(a_of.size());
+  Eigen::MatrixXd& c = ws->c;
+  const Eigen::VectorXd& root_inverse_d_b = ws->root_inverse_d_b;
+  if (distinct && root_inverse_d_b.allFinite()) {
+    if (!sparse) {
+      ws->scaled.setZero(m, num_b);
+      const Groups by_b = GroupBy(b_of, num_b);
+      ws->cell_by_entry = by_b.order;
+      ws->column_start = by_b.start;
+      ws->row.resize(num_cells);
+      for (int64_t j = 0; j < num_cells; ++j) ws->row[j] = a_of[by_b.order[j]];
+    }
+    const int* cell = ws->cell_by_entry.data();
+    const int* row = ws->row.data();
+    for (int b = 0; b < num_b; ++b) {
+      double* c_column = &c(0, b);
+      double* scaled_column = &ws->scaled(0, b);
+      const double root = root_inverse_d_b[b];
+      for (int j = ws->column_start[b]; j < ws->column_start[b + 1]; ++j) {
+        const double w = weight[cell[j]];
+        c_column[row[j]] = w;
+        scaled_column[row[j]] = w * root;
+      }
+    }
+    ws->zeros_off_cells = true;
+  } else {
+    if (sparse) {  // a 1 / d_b not finite (all of b's weights 0): C still needs the cells' weights
+      for (int64_t k = 0; k < num_cells; ++k) c(a_of[k], b_of[k]) = weight[k];
+    }
+    ws->scaled.noalias() = c * root_inverse_d_b.asDiagonal();
+    ws->zeros_off_cells = false;
+  }
+}
+
 // Returns false (leverage NaN) when S + 11'/m is not positive definite.
 // `log_price` may be empty: then only the leverage is formed. Successive
 // calls with one workspace and ws->zeros_off_cells set must pass the same
@@ -311,37 +353,8 @@ bool SolveBlocks(int num_regions, int num_items, std::span<const int> region, st
   const bool distinct = sparse ? ScatterCells<true>(a_of, b_of, log_price, weight, fit, ws)
                                : ScatterCells<false>(a_of, b_of, log_price, weight, fit, ws);
   const Eigen::VectorXd& inverse_d_b = ws->inverse_d_b = ws->d_b.cwiseInverse();
-  const Eigen::VectorXd& root_inverse_d_b = ws->root_inverse_d_b = inverse_d_b.cwiseSqrt();
-  // C D_B^-1/2, entry by entry as the dense product c * diag forms it; off
-  // the cells it is 0 like C (when 1 / d_b is finite). The cells' entries
-  // are written column by column (a heading's cells come by item, a row of
-  // C when items are side A): stores to neighbouring addresses.
-  if (distinct && root_inverse_d_b.allFinite()) {
-    if (!sparse) {
-      ws->scaled.setZero(m, num_b);
-      const Groups by_b = GroupBy(b_of, num_b);
-      ws->cell_by_entry = by_b.order;
-      ws->column_start = by_b.start;
-      ws->row.resize(num_cells);
-      for (int64_t j = 0; j < num_cells; ++j) ws->row[j] = a_of[by_b.order[j]];
-    }
-    const int* cell = ws->cell_by_entry.data();
-    const int* row = ws->row.data();
-    for (int b = 0; b < num_b; ++b) {
-      double* c_column = &c(0, b);
-      double* scaled_column = &ws->scaled(0, b);
-      const double root = root_inverse_d_b[b];
-      for (int j = ws->column_start[b]; j < ws->column_start[b + 1]; ++j) {
-        const double w = weight[cell[j]];
-        c_column[row[j]] = w;
-        scaled_column[row[j]] = w * root;
-      }
-    }
-    ws->zeros_off_cells = true;
-  } else {
-    ws->scaled.noalias() = c * root_inverse_d_b.asDiagonal();
-    ws->zeros_off_cells = false;
-  }
+  ws->root_inverse_d_b = inverse_d_b.cwiseSqrt();
+  ScaleColumns(a_of, b_of, weight, m, num_b, sparse, distinct, ws);
   // Lower triangle of S + 11'/m, as one symmetric rank update.
   ws->s.setConstant(m, m, 1.0 / m);
   ws->s.selfadjointView<Eigen::Lower>().rankUpdate(ws->scaled, -1.0);
