@@ -599,6 +599,7 @@ OutlierReport FindOutliers(const Survey& survey, const ParityResult& result,
       fits[h] = FitHeading(survey, h, options, &workspaces[omp_get_thread_num()]);
     }
   }
+  std::vector<internal::FitWorkspace>().swap(workspaces);  // released before the screen proper
   Eigen::MatrixXd levels = Eigen::MatrixXd::Constant(survey.num_regions(), num_headings, kNaN);
   for (int h = 0; h < num_headings; ++h) {
     if (fits[h].identified) levels.col(h) = fits[h].log_parity;
