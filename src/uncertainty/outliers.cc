@@ -263,33 +263,31 @@ struct HeadingRows {
   int64_t num_leave_one_out = 0;
 };
 
+// m(dof), the median of chi-square on dof degrees of freedom (see below).
+double MedianChiSquare(int dof) { return dof == 1 ? 0.454936 : dof * std::pow(1.0 - 2.0 / (9.0 * dof), 3); }
+
 // The typical scatter of one quote around its cell's mean: the median over
 // the heading's cells with several quotes of sd_k / sqrt(m(n_k - 1) /
 // (n_k - 1)), m(k) the median of chi-square on k degrees of freedom, so each
 // term has median sigma (a plain median of sd_k would be 0.67 sigma for two
 // quotes). m(1) = 0.6745^2 exactly; otherwise k (1 - 2 / (9k))^3 (Wilson and
 // Hilferty 1931).
-double MedianChiSquare(int dof) { return dof == 1 ? 0.454936 : dof * std::pow(1.0 - 2.0 / (9.0 * dof), 3); }
-
-// sqrt(m(dof) / dof) for the few degrees of freedom most cells have, formed
-// once.
-constexpr int kNumTabledDof = 32;
-const std::array<double, kNumTabledDof>& RootMedianChiSquareShares() {
-  static const std::array<double, kNumTabledDof> table = [] {
-    std::array<double, kNumTabledDof> t{};
-    for (int dof = 1; dof < kNumTabledDof; ++dof) t[dof] = std::sqrt(MedianChiSquare(dof) / dof);
-    return t;
-  }();
-  return table;
-}
-
 double WithinCellSd(const Survey& survey, int h) {
-  const std::array<double, kNumTabledDof>& tabled = RootMedianChiSquareShares();
+  // sqrt(m(dof) / dof) of the few degrees of freedom most cells have,
+  // formed at a heading's first cell with each (at run time, as before:
+  // a value folded by the compiler could differ from the library's pow in
+  // its last digit); 0 until then.
+  constexpr int kNumKept = 32;
+  std::array<double, kNumKept> kept{};
   std::vector<double> within;
   for (int64_t c = survey.heading_range[h].cell_begin; c < survey.heading_range[h].cell_end; ++c) {
     const int dof = survey.cells.num_quotes[c] - 1;
     if (dof < 1) continue;
-    const double root_share = dof < kNumTabledDof ? tabled[dof] : std::sqrt(MedianChiSquare(dof) / dof);
+    double root_share = dof < kNumKept ? kept[dof] : 0.0;
+    if (root_share == 0.0) {
+      root_share = std::sqrt(MedianChiSquare(dof) / dof);
+      if (dof < kNumKept) kept[dof] = root_share;
+    }
     within.push_back(survey.cells.log_sd[c] / root_share);
   }
   return within.empty() ? 0.0 : Median(std::move(within));
