@@ -227,7 +227,8 @@ namespace {
 // vectors that sum to 0, which are all the solve and the leverage meet.
 //   Fit: a = G (r_A - C D_B^-1 r_B), b = D_B^-1 (r_B - C' a), r = X'Wy; the
 //   right-hand side sums to 0, so 1'a = 0 (any solution gives the same
-//   fitted values a_r + b_i; the caller fixes the level).
+//   fitted values a_r + b_i; the solve then shifts them so that the region
+//   effects have mean 0).
 //   Leverage: for cell (a, b) with u = e_a - c_b / d_b,
 //   q = x'(X'WX)^+ x = 1 / d_b + u'G u
 //     = 1 / d_b + G_aa - 2 (G C)_ab / d_b + (C'G C)_bb / d_b^2.
@@ -238,8 +239,8 @@ struct BlockSolve {
   // have mean 0 (as FitCpd reports them).
   Eigen::VectorXd region_effect;
   Eigen::VectorXd item_effect;
-  Eigen::VectorXd residual;       // per cell: y - (a_r + b_i) (empty without y)
-  Eigen::VectorXd leverage;       // per cell: q (NaN when S is singular)
+  Eigen::VectorXd residual;  // per cell: y - (a_r + b_i) (empty without y)
+  Eigen::VectorXd leverage;  // per cell: q (NaN when S is singular)
 };
 
 // Adds the cells' weights into D and X'Wy (`fit`: with the ln prices) and,
