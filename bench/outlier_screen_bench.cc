@@ -8,7 +8,14 @@
 // pairs with several items, and one quote of a cell. The same surveys without
 // the planted errors give the clean false-flag rate.
 // Usage: outlier_screen_bench [trials=20] [seed=20260301] [noise_sd=0.05]
+//    or: outlier_screen_bench --time CONFIG [runs=3] [threads=0]
+// The second form times the screen alone (FindOutliers) on a survey from its
+// config, after loading it and computing its parities once: wall and CPU
+// seconds per run, and a digest of outliers.csv and dispersion.csv (FNV-1a)
+// so that two builds can be checked to give the same screen.
+#include <chrono>
 #include <cmath>
+#include <ctime>
 #include <cstdio>
 #include <cstdlib>
 #include <filesystem>
@@ -234,7 +241,49 @@ void Print(const Tally tallies[2], int trials, const paritas::synthetic::Synthet
 
 }  // namespace
 
+uint64_t Fnv1a(const std::string& text, uint64_t hash = 14695981039346656037ull) {
+  for (unsigned char ch : text) hash = (hash ^ ch) * 1099511628211ull;
+  return hash;
+}
+
+int TimeScreen(const std::string& config_path, int runs, int threads) {
+  std::string error;
+  paritas::RunConfig config;
+  paritas::LoadSummary load;
+  paritas::ComputeSummary compute;
+  paritas::Survey survey;
+  paritas::ParityResult result;
+  if (!paritas::LoadRunConfig(config_path, &config, &error)) {
+    std::fprintf(stderr, "%s\n", error.c_str());
+    return 1;
+  }
+  config.threads = threads;
+  if (!paritas::LoadSurvey(config, paritas::LoadOptions(), &survey, &load) ||
+      !paritas::ComputeParities(survey, paritas::ComputeOptions::FromConfig(config), &result, &compute)) {
+    std::fprintf(stderr, "%s%s\n", load.message.c_str(), compute.message.c_str());
+    return 1;
+  }
+  const paritas::OutlierOptions options = paritas::OutlierOptions::FromConfig(config);
+  for (int run = 0; run < runs; ++run) {
+    const auto wall0 = std::chrono::steady_clock::now();
+    const std::clock_t cpu0 = std::clock();
+    const paritas::OutlierReport report = paritas::FindOutliers(survey, result, options);
+    const double cpu = static_cast<double>(std::clock() - cpu0) / CLOCKS_PER_SEC;
+    const double wall = std::chrono::duration<double>(std::chrono::steady_clock::now() - wall0).count();
+    int64_t iterations = 0;
+    for (int n : report.num_iterations) iterations += n;
+    const uint64_t digest = Fnv1a(paritas::DispersionCsv(survey, report), Fnv1a(paritas::OutliersCsv(survey, report)));
+    std::printf("run %d: %.3f s wall, %.3f CPU-s; %zu flagged, %lld iterations, digest %016llx\n", run + 1, wall,
+                cpu, report.outliers.size(), static_cast<long long>(iterations),
+                static_cast<unsigned long long>(digest));
+  }
+  return 0;
+}
+
 int main(int argc, char** argv) {
+  if (argc > 2 && std::string(argv[1]) == "--time") {
+    return TimeScreen(argv[2], argc > 3 ? std::atoi(argv[3]) : 3, argc > 4 ? std::atoi(argv[4]) : 0);
+  }
   const int trials = argc > 1 ? std::atoi(argv[1]) : 20;
   const uint64_t seed = argc > 2 ? std::strtoull(argv[2], nullptr, 10) : 20260301;
   const double noise_sd = argc > 3 ? std::atof(argv[3]) : 0.05;

@@ -155,21 +155,27 @@ Compressed Compress(const CpdData& data) {
   }
   c.num_regions = static_cast<int>(c.region_of.size());
   c.num_items = static_cast<int>(c.item_of.size());
+  c.region.resize(data.region.size());
+  c.item.resize(data.item.size());
   for (size_t k = 0; k < data.region.size(); ++k) {
-    c.region.push_back(region_index[data.region[k]]);
-    c.item.push_back(item_index[data.item[k]]);
+    c.region[k] = region_index[data.region[k]];
+    c.item[k] = item_index[data.item[k]];
   }
   return c;
 }
 
-// Huber weight of each cell: min(1, c s / |e|) (Huber 1981).
-Eigen::VectorXd HuberWeights(const Eigen::VectorXd& residual, double cutoff) {
-  Eigen::VectorXd weight(residual.size());
-  for (int64_t k = 0; k < residual.size(); ++k) {
-    const double magnitude = std::abs(residual[k]);
-    weight[k] = magnitude > cutoff ? cutoff / magnitude : 1.0;
-  }
-  return weight;
+// Sets the Huber weight of each cell, min(1, c s / |e|) (Huber 1981), and
+// returns the largest change from `previous`. The quotient is formed for
+// every cell and then chosen, in two loops that each run on vectors.
+double HuberWeights(const Eigen::VectorXd& residual, double cutoff, const Eigen::VectorXd& previous,
+                    Eigen::VectorXd* weight) {
+  const int64_t n = residual.size();
+  weight->resize(n);
+  const double* e = residual.data();
+  double* w = weight->data();
+  for (int64_t k = 0; k < n; ++k) w[k] = cutoff / std::abs(e[k]);
+  for (int64_t k = 0; k < n; ++k) w[k] = std::abs(e[k]) > cutoff ? w[k] : 1.0;
+  return (*weight - previous).cwiseAbs().maxCoeff();
 }
 
 }  // namespace
@@ -178,13 +184,21 @@ double RobustScale(const Eigen::VectorXd& residual, const Eigen::VectorXd& weigh
                    const Eigen::VectorXd& leverage, const std::vector<CellLink>& link,
                    ScaleScratch* scratch, int* num_cells) {
   std::vector<uint64_t>& standardised = scratch->terms;
-  standardised.resize(residual.size());
+  const int64_t num_all = residual.size();
+  standardised.resize(num_all);
   uint64_t* out = standardised.data();
+  const double* w = weight.data();
+  const double* q = leverage.data();
+  // Every cell's term first, as an Eigen array expression so that square
+  // roots and quotients run on vectors (each correctly rounded, so the same
+  // bits as one at a time; NaN or infinity where h >= 1, not kept), then
+  // the cells kept, in order, by a branch-free compaction.
+  Eigen::ArrayXd& term = scratch->values;
+  term = residual.array().abs() / (1.0 - weight.array() * leverage.array()).sqrt();
   size_t n = 0;
-  for (int64_t k = 0; k < residual.size(); ++k) {
-    const double hat = weight[k] * leverage[k];
-    if (link[k] != CellLink::kNone || !(hat < 1.0 - kHatOne)) continue;
-    out[n++] = std::bit_cast<uint64_t>(std::abs(residual[k]) / std::sqrt(1.0 - hat));
+  for (int64_t k = 0; k < num_all; ++k) {
+    out[n] = std::bit_cast<uint64_t>(term[k]);
+    n += link[k] == CellLink::kNone && w[k] * q[k] < 1.0 - kHatOne ? 1 : 0;
   }
   standardised.resize(n);
   *num_cells = static_cast<int>(n);
@@ -213,44 +227,33 @@ namespace {
 // vectors that sum to 0, which are all the solve and the leverage meet.
 //   Fit: a = G (r_A - C D_B^-1 r_B), b = D_B^-1 (r_B - C' a), r = X'Wy; the
 //   right-hand side sums to 0, so 1'a = 0 (any solution gives the same
-//   fitted values a_r + b_i; the caller fixes the level).
+//   fitted values a_r + b_i; the solve then shifts them so that the region
+//   effects have mean 0).
 //   Leverage: for cell (a, b) with u = e_a - c_b / d_b,
 //   q = x'(X'WX)^+ x = 1 / d_b + u'G u
 //     = 1 / d_b + G_aa - 2 (G C)_ab / d_b + (C'G C)_bb / d_b^2.
 // One factorisation serves both, so each iteration of the robust fit forms
 // one Schur complement and scatters the cells once.
 struct BlockSolve {
-  Eigen::VectorXd region_effect;  // per compressed region (1'a = 0 on side A)
-  Eigen::VectorXd item_effect;    // per compressed item
-  Eigen::VectorXd residual;       // per cell: y - a_r - b_i (empty without y)
-  Eigen::VectorXd leverage;       // per cell: q (NaN when S is singular)
+  // Per compressed region and item, shifted so that the region effects
+  // have mean 0 (as FitCpd reports them).
+  Eigen::VectorXd region_effect;
+  Eigen::VectorXd item_effect;
+  Eigen::VectorXd residual;  // per cell: y - (a_r + b_i) (empty without y)
+  Eigen::VectorXd leverage;  // per cell: q (NaN when S is singular)
 };
 
-// Arrays of SolveBlocks kept between the iterations of a fit, so that the
-// large ones are allocated (and their pages first touched) once.
-struct BlockWorkspace {
-  Eigen::MatrixXd c, scaled, s, g, gc;
-  Eigen::VectorXd d_a, d_b, r_a, r_b, inverse_d_b, cgc;
-};
-
-// Returns false (leverage NaN) when S + 11'/m is not positive definite.
-// `log_price` may be empty: then only the leverage is formed.
-bool SolveBlocks(int num_regions, int num_items, std::span<const int> region, std::span<const int> item,
-                 std::span<const double> log_price, const Eigen::VectorXd& weight, BlockWorkspace* ws,
-                 BlockSolve* out) {
-  const bool regions_dense = num_regions <= num_items;
-  const int m = regions_dense ? num_regions : num_items;
-  const int num_b = regions_dense ? num_items : num_regions;
-  const std::span<const int> a_of = regions_dense ? region : item;
-  const std::span<const int> b_of = regions_dense ? item : region;
-  const bool fit = !log_price.empty();
+// Adds the cells' weights into D and X'Wy (`fit`: with the ln prices) and,
+// unless kSparse, into C (cleared by the caller); returns whether the cells
+// proved distinct with positive weights (each entry of C found 0 before
+// its addition). kSparse: C already holds zeros off the cells, no two cells
+// sharing an entry; the caller writes the cells' entries (0 + w is w).
+template <bool kSparse>
+bool ScatterCells(std::span<const int> a_of, std::span<const int> b_of, std::span<const double> log_price,
+                  const Eigen::VectorXd& weight, bool fit, FitWorkspace* ws) {
   const int64_t num_cells = static_cast<int64_t>(a_of.size());
   Eigen::MatrixXd& c = ws->c;
-  c.setZero(m, num_b);
-  ws->d_a.setZero(m);
-  ws->d_b.setZero(num_b);
-  ws->r_a.setZero(m);
-  ws->r_b.setZero(num_b);
+  bool distinct = true;
   // The sums of side A run in registers while its index stays the same (a
   // heading's cells come by item, and the items are side A when fewer than
   // the regions): the same additions in the same order as through memory,
@@ -267,7 +270,10 @@ bool SolveBlocks(int num_regions, int num_items, std::span<const int> region, st
       r_a = ws->r_a[a];
     }
     const double w = weight[k];
-    c(a, b) += w;
+    if constexpr (!kSparse) {
+      distinct &= c(a, b) == 0.0 && w > 0.0;
+      c(a, b) += w;
+    }
     d_a += w;
     ws->d_b[b] += w;
     if (fit) {
@@ -279,15 +285,87 @@ bool SolveBlocks(int num_regions, int num_items, std::span<const int> region, st
     ws->d_a[run_a] = d_a;
     ws->r_a[run_a] = r_a;
   }
+  return distinct;
+}
+
+// Sets ws->scaled = C D_B^-1/2, entry by entry as the dense product c * diag
+// forms it, and finishes C where ScatterCells<true> left it: off the cells
+// both are 0 (when 1 / d_b is finite). The cells' entries are written column
+// by column (a heading's cells come by item, a row of C when items are side
+// A): stores to neighbouring addresses. `sparse` and `distinct` as in
+// SolveBlocks.
+void ScaleColumns(std::span<const int> a_of, std::span<const int> b_of, const Eigen::VectorXd& weight, int m,
+                  int num_b, bool sparse, bool distinct, FitWorkspace* ws) {
+  const int64_t num_cells = static_cast<int64_t>(a_of.size());
+  Eigen::MatrixXd& c = ws->c;
+  const Eigen::VectorXd& root_inverse_d_b = ws->root_inverse_d_b;
+  if (distinct && root_inverse_d_b.allFinite()) {
+    if (!sparse) {
+      ws->scaled.setZero(m, num_b);
+      const Groups by_b = GroupBy(b_of, num_b);
+      ws->cell_by_entry = by_b.order;
+      ws->column_start = by_b.start;
+      ws->row.resize(num_cells);
+      for (int64_t j = 0; j < num_cells; ++j) ws->row[j] = a_of[by_b.order[j]];
+    }
+    const int* cell = ws->cell_by_entry.data();
+    const int* row = ws->row.data();
+    for (int b = 0; b < num_b; ++b) {
+      double* c_column = &c(0, b);
+      double* scaled_column = &ws->scaled(0, b);
+      const double root = root_inverse_d_b[b];
+      for (int j = ws->column_start[b]; j < ws->column_start[b + 1]; ++j) {
+        const double w = weight[cell[j]];
+        c_column[row[j]] = w;
+        scaled_column[row[j]] = w * root;
+      }
+    }
+    ws->zeros_off_cells = true;
+  } else {
+    if (sparse) {  // a 1 / d_b not finite (all of b's weights 0): C still needs the cells' weights
+      for (int64_t k = 0; k < num_cells; ++k) c(a_of[k], b_of[k]) = weight[k];
+    }
+    ws->scaled.noalias() = c * root_inverse_d_b.asDiagonal();
+    ws->zeros_off_cells = false;
+  }
+}
+
+// Returns false (leverage NaN) when S + 11'/m is not positive definite.
+// `log_price` may be empty: then only the leverage is formed. Successive
+// calls with one workspace and ws->zeros_off_cells set must pass the same
+// cells (only the weights may change).
+bool SolveBlocks(int num_regions, int num_items, std::span<const int> region, std::span<const int> item,
+                 std::span<const double> log_price, const Eigen::VectorXd& weight, FitWorkspace* ws,
+                 BlockSolve* out) {
+  const bool regions_dense = num_regions <= num_items;
+  const int m = regions_dense ? num_regions : num_items;
+  const int num_b = regions_dense ? num_items : num_regions;
+  const std::span<const int> a_of = regions_dense ? region : item;
+  const std::span<const int> b_of = regions_dense ? item : region;
+  const bool fit = !log_price.empty();
+  const int64_t num_cells = static_cast<int64_t>(a_of.size());
+  Eigen::MatrixXd& c = ws->c;
+  const bool sparse = ws->zeros_off_cells && c.rows() == m && c.cols() == num_b;
+  if (!sparse) c.setZero(m, num_b);
+  ws->d_a.setZero(m);
+  ws->d_b.setZero(num_b);
+  ws->r_a.setZero(m);
+  ws->r_b.setZero(num_b);
+  const bool distinct = sparse ? ScatterCells<true>(a_of, b_of, log_price, weight, fit, ws)
+                               : ScatterCells<false>(a_of, b_of, log_price, weight, fit, ws);
   const Eigen::VectorXd& inverse_d_b = ws->inverse_d_b = ws->d_b.cwiseInverse();
+  ws->root_inverse_d_b = inverse_d_b.cwiseSqrt();
+  ScaleColumns(a_of, b_of, weight, m, num_b, sparse, distinct, ws);
   // Lower triangle of S + 11'/m, as one symmetric rank update.
-  ws->scaled.noalias() = c * inverse_d_b.cwiseSqrt().asDiagonal();
   ws->s.setConstant(m, m, 1.0 / m);
   ws->s.selfadjointView<Eigen::Lower>().rankUpdate(ws->scaled, -1.0);
   ws->s.diagonal() += ws->d_a;
-  out->leverage.setConstant(num_cells, kNaN);
   const Eigen::LLT<Eigen::MatrixXd> llt(ws->s);
-  if (llt.info() != Eigen::Success) return false;
+  if (llt.info() != Eigen::Success) {
+    out->leverage.setConstant(num_cells, kNaN);
+    return false;
+  }
+  out->leverage.resize(num_cells);  // every cell's set below
   if (fit) {
     const Eigen::VectorXd effect_a = llt.solve(ws->r_a - c * inverse_d_b.cwiseProduct(ws->r_b));
     Eigen::VectorXd effect_b = ws->r_b;
@@ -295,6 +373,9 @@ bool SolveBlocks(int num_regions, int num_items, std::span<const int> region, st
     effect_b = effect_b.cwiseProduct(inverse_d_b);
     out->region_effect = regions_dense ? effect_a : effect_b;
     out->item_effect = regions_dense ? effect_b : effect_a;
+    const double shift = out->region_effect.mean();
+    out->region_effect.array() -= shift;
+    out->item_effect.array() += shift;
   }
   ws->g.setIdentity(m, m);
   llt.solveInPlace(ws->g);
@@ -303,10 +384,22 @@ bool SolveBlocks(int num_regions, int num_items, std::span<const int> region, st
   const Eigen::MatrixXd& g = ws->g;
   const Eigen::MatrixXd& gc = ws->gc;
   const Eigen::VectorXd& cgc = ws->cgc;
+  auto leverage = [&](int a, int b) {
+    return inverse_d_b[b] + g(a, a) - 2.0 * gc(a, b) * inverse_d_b[b] + cgc[b] * inverse_d_b[b] * inverse_d_b[b];
+  };
+  if (!fit) {
+    for (int64_t k = 0; k < num_cells; ++k) out->leverage[k] = leverage(a_of[k], b_of[k]);
+    return true;
+  }
+  // The residuals in the same pass (a_r + b_i in either order: the sum of
+  // two numbers does not depend on their order).
+  const Eigen::VectorXd& effect_a = regions_dense ? out->region_effect : out->item_effect;
+  const Eigen::VectorXd& effect_b = regions_dense ? out->item_effect : out->region_effect;
+  out->residual.resize(num_cells);
   for (int64_t k = 0; k < num_cells; ++k) {
     const int a = a_of[k], b = b_of[k];
-    out->leverage[k] =
-        inverse_d_b[b] + g(a, a) - 2.0 * gc(a, b) * inverse_d_b[b] + cgc[b] * inverse_d_b[b] * inverse_d_b[b];
+    out->leverage[k] = leverage(a, b);
+    out->residual[k] = log_price[k] - (effect_a[a] + effect_b[b]);
   }
   return true;
 }
@@ -316,7 +409,7 @@ bool SolveBlocks(int num_regions, int num_items, std::span<const int> region, st
 Eigen::VectorXd LeverageFactors(int num_regions, int num_items, std::span<const int> region,
                                 std::span<const int> item, const Eigen::VectorXd& weight) {
   BlockSolve solve;
-  BlockWorkspace workspace;
+  FitWorkspace workspace;
   SolveBlocks(num_regions, num_items, region, item, {}, weight, &workspace, &solve);
   return std::move(solve.leverage);
 }
@@ -400,8 +493,11 @@ void FindCuttingCells(int num_regions, int num_items, std::span<const int> regio
   }
 }
 
-ScreenFit FitScreen(const CpdData& data, const OutlierOptions& options) {
+ScreenFit FitScreen(const CpdData& data, const OutlierOptions& options, FitWorkspace* workspace) {
   ScreenFit fit;
+  FitWorkspace local;
+  FitWorkspace& ws = workspace != nullptr ? *workspace : local;
+  ws.zeros_off_cells = false;  // a new design
   const int num_cells = static_cast<int>(data.region.size());
   if (num_cells == 0 || LinkedRegionGroups(data.num_regions, data.num_items, data.region, data.item).size() != 1) {
     // No parities: FitCpd says why, in the words of the elementary stage.
@@ -420,25 +516,18 @@ ScreenFit FitScreen(const CpdData& data, const OutlierOptions& options) {
   // The least-squares start, then the reweighted fits; `latest` holds the
   // effects of the last one (compressed numbering).
   BlockSolve latest, refit;
-  BlockWorkspace workspace;
-  ScaleScratch scratch;
+  ScaleScratch& scratch = ws.scale;
   fit.weight = Eigen::VectorXd::Ones(num_cells);
-  if (!SolveBlocks(c.num_regions, c.num_items, c.region, c.item, data.log_price, fit.weight, &workspace, &latest)) {
+  if (!SolveBlocks(c.num_regions, c.num_items, c.region, c.item, data.log_price, fit.weight, &ws, &latest)) {
     fit.message = "the CPD normal equations are numerically singular";
     return fit;
   }
-  fit.residual.resize(num_cells);
-  // Effects with mean 0 over the regions present (as FitCpd reports them)
-  // and the residuals at that level.
+  // Takes a solve's leverages, residuals and effects (swapped, so the
+  // arrays are reused by the next solve).
   auto adopt = [&](BlockSolve* solve) {
     fit.leverage.swap(solve->leverage);
+    fit.residual.swap(solve->residual);
     std::swap(latest, *solve);
-    const double shift = latest.region_effect.mean();
-    latest.region_effect.array() -= shift;
-    latest.item_effect.array() += shift;
-    for (int k = 0; k < num_cells; ++k) {
-      fit.residual[k] = data.log_price[k] - (latest.region_effect[c.region[k]] + latest.item_effect[c.item[k]]);
-    }
   };
   refit = std::move(latest);
   adopt(&refit);
@@ -449,16 +538,16 @@ ScreenFit FitScreen(const CpdData& data, const OutlierOptions& options) {
     const double scale =
         RobustScale(fit.residual, fit.weight, fit.leverage, fit.link, &scratch, &fit.num_scale_cells);
     if (!(scale > 0.0)) break;  // too few cells, or an exact fit: least squares it is
-    Eigen::VectorXd next = HuberWeights(fit.residual, options.huber_constant * scale);
-    const double change = (next - fit.weight).cwiseAbs().maxCoeff();
+    Eigen::VectorXd& next = ws.next_weight;
+    const double change = HuberWeights(fit.residual, options.huber_constant * scale, fit.weight, &next);
     if (change <= options.weight_tolerance) {
       fit.converged = true;
       break;
     }
-    if (!SolveBlocks(c.num_regions, c.num_items, c.region, c.item, data.log_price, next, &workspace, &refit)) {
+    if (!SolveBlocks(c.num_regions, c.num_items, c.region, c.item, data.log_price, next, &ws, &refit)) {
       break;  // cannot happen with positive weights; keep the last fit
     }
-    fit.weight = std::move(next);
+    fit.weight.swap(next);
     adopt(&refit);
     ++fit.num_iterations;
   }

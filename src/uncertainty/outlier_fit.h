@@ -66,9 +66,40 @@ struct ScreenFit {
 // Cells needed to estimate a heading's scale; below it the caller pools.
 inline constexpr int kMinScaleCells = 3;
 
+// Workspace of RobustScale, reused between calls, contents overwritten.
+struct ScaleScratch {
+  Eigen::ArrayXd values;             // every cell's term
+  std::vector<uint64_t> terms;       // bit patterns of the terms kept
+  std::vector<uint64_t> candidates;  // of the median's selection
+  std::vector<uint32_t> tallies;     // the selection's digit counts
+};
+
+// Arrays of the block solve (see outlier_fit.cc) kept between the
+// iterations of a fit and between the headings one thread fits, so that the
+// large ones are allocated, and their pages first touched, once per thread.
+// Contents are overwritten; FitScreen resets `zeros_off_cells` per heading.
+struct FitWorkspace {
+  // C (A x B weight sums), C with column b scaled by 1 / sqrt(d_b), the
+  // Schur complement S + 11'/m, G = its inverse, and G C.
+  Eigen::MatrixXd c, scaled, s, g, gc;
+  Eigen::VectorXd d_a, d_b, r_a, r_b, inverse_d_b, root_inverse_d_b, cgc;
+  // True once a solve of the current design has left c and scaled zero off
+  // its cells, no two cells sharing an entry: later solves of the same
+  // design (same cells, new weights) then write only the cells' entries.
+  bool zeros_off_cells = false;
+  // The cells by column b of C (cell_by_entry[column_start[b] ..
+  // column_start[b + 1])) and the row a of each in that order; set with
+  // zeros_off_cells.
+  std::vector<int> cell_by_entry, column_start, row;
+  Eigen::VectorXd next_weight;  // FitScreen's Huber weights being formed
+  ScaleScratch scale;
+};
+
 // Fits the heading's cells (data.weight must be empty: the screen weighs
 // every cell 1 before the Huber weights) with the fit `options` asks for.
-ScreenFit FitScreen(const CpdData& data, const OutlierOptions& options);
+// `workspace` may be null (a local one is used) or one the caller reuses
+// across headings on the same thread; the result does not depend on it.
+ScreenFit FitScreen(const CpdData& data, const OutlierOptions& options, FitWorkspace* workspace = nullptr);
 
 // Returns 1.4826 x median over the cells with link kNone and hat value
 // h = w q < 1 of |e| / sqrt(1 - h) (for a cell of weight 1 the term has
@@ -77,11 +108,6 @@ ScreenFit FitScreen(const CpdData& data, const OutlierOptions& options);
 // with fewer than kMinScaleCells such cells. Sets `num_cells` to their
 // number.
 // The hat value of cell k is weight[k] x leverage[k].
-struct ScaleScratch {  // reused between calls, contents overwritten
-  std::vector<uint64_t> terms;       // bit patterns of the terms
-  std::vector<uint64_t> candidates;  // of the median's selection
-  std::vector<uint32_t> tallies;     // the selection's digit counts
-};
 double RobustScale(const Eigen::VectorXd& residual, const Eigen::VectorXd& weight,
                    const Eigen::VectorXd& leverage, const std::vector<CellLink>& link,
                    ScaleScratch* scratch, int* num_cells);

@@ -8,9 +8,12 @@
 #include "paritas/uncertainty/outliers.h"
 
 #include <algorithm>
+#include <array>
 #include <cmath>
 #include <iterator>
 #include <limits>
+#include <numeric>
+#include <span>
 #include <string>
 #include <utility>
 #include <vector>
@@ -73,22 +76,19 @@ double FiniteMedian(const std::vector<double>& values) {
   return Median(std::move(finite));
 }
 
-ScreenFit FitHeading(const Survey& survey, int h, const OutlierOptions& options) {
+ScreenFit FitHeading(const Survey& survey, int h, const OutlierOptions& options,
+                     internal::FitWorkspace* workspace) {
   const HeadingRange& range = survey.heading_range[h];
-  std::vector<int> region, item;
-  std::vector<double> log_price;
-  for (int64_t c = range.cell_begin; c < range.cell_end; ++c) {
-    region.push_back(survey.cells.region[c]);
-    item.push_back(survey.cells.item[c] - range.item_begin);
-    log_price.push_back(survey.cells.log_price[c]);
-  }
+  const size_t begin = static_cast<size_t>(range.cell_begin), n = static_cast<size_t>(range.num_cells());
+  std::vector<int> item(n);  // numbered within the heading
+  for (size_t k = 0; k < n; ++k) item[k] = survey.cells.item[begin + k] - range.item_begin;
   CpdData data;
   data.num_regions = survey.num_regions();
   data.num_items = range.num_items();
-  data.region = region;
+  data.region = std::span<const int>(survey.cells.region).subspan(begin, n);
   data.item = item;
-  data.log_price = log_price;
-  return internal::FitScreen(data, options);
+  data.log_price = std::span<const double>(survey.cells.log_price).subspan(begin, n);
+  return internal::FitScreen(data, options, workspace);
 }
 
 // Median of sorted `values` without the one at position `skip`.
@@ -263,6 +263,9 @@ struct HeadingRows {
   int64_t num_leave_one_out = 0;
 };
 
+// m(dof), the median of chi-square on dof degrees of freedom (see below).
+double MedianChiSquare(int dof) { return dof == 1 ? 0.454936 : dof * std::pow(1.0 - 2.0 / (9.0 * dof), 3); }
+
 // The typical scatter of one quote around its cell's mean: the median over
 // the heading's cells with several quotes of sd_k / sqrt(m(n_k - 1) /
 // (n_k - 1)), m(k) the median of chi-square on k degrees of freedom, so each
@@ -270,12 +273,22 @@ struct HeadingRows {
 // quotes). m(1) = 0.6745^2 exactly; otherwise k (1 - 2 / (9k))^3 (Wilson and
 // Hilferty 1931).
 double WithinCellSd(const Survey& survey, int h) {
+  // sqrt(m(dof) / dof) of the few degrees of freedom most cells have,
+  // formed at a heading's first cell with each (at run time, as before:
+  // a value folded by the compiler could differ from the library's pow in
+  // its last digit); 0 until then.
+  constexpr int kNumKept = 32;
+  std::array<double, kNumKept> kept{};
   std::vector<double> within;
   for (int64_t c = survey.heading_range[h].cell_begin; c < survey.heading_range[h].cell_end; ++c) {
     const int dof = survey.cells.num_quotes[c] - 1;
     if (dof < 1) continue;
-    const double median_chi2 = dof == 1 ? 0.454936 : dof * std::pow(1.0 - 2.0 / (9.0 * dof), 3);
-    within.push_back(survey.cells.log_sd[c] / std::sqrt(median_chi2 / dof));
+    double root_share = dof < kNumKept ? kept[dof] : 0.0;
+    if (root_share == 0.0) {
+      root_share = std::sqrt(MedianChiSquare(dof) / dof);
+      if (dof < kNumKept) kept[dof] = root_share;
+    }
+    within.push_back(survey.cells.log_sd[c] / root_share);
   }
   return within.empty() ? 0.0 : Median(std::move(within));
 }
@@ -320,7 +333,7 @@ void ScreenQuotes(const Survey& survey, int h, int64_t c, const Prediction& p, d
                   double threshold, std::vector<Outlier>* flagged) {
   const int n = survey.cells.num_quotes[c];
   if (n < 2) return;
-  const double quote_sd = std::hypot(p.sd, within_sd);
+  double quote_sd = kNaN;  // formed when first needed: most cells' quotes are not apart
   const double mate_sd = within_sd * std::sqrt(1.0 + 1.0 / (n - 1));
   for (OutlierKind kind : {OutlierKind::kLowestQuote, OutlierKind::kHighestQuote}) {
     const double x = kind == OutlierKind::kLowestQuote ? survey.cells.log_min[c] : survey.cells.log_max[c];
@@ -328,7 +341,9 @@ void ScreenQuotes(const Survey& survey, int h, int64_t c, const Prediction& p, d
     const double gap = std::abs(x - mates);
     const bool apart = mate_sd > 0.0 ? gap / mate_sd > threshold : gap > 0.0;
     double z = 0.0;
-    if (!apart || !Beyond(x, quote_sd, p, threshold, &z)) continue;
+    if (!apart) continue;
+    if (std::isnan(quote_sd)) quote_sd = std::hypot(p.sd, within_sd);
+    if (!Beyond(x, quote_sd, p, threshold, &z)) continue;
     Outlier quote = MakeRow(survey, h, c, p);
     quote.kind = kind;
     quote.observed = std::exp(x);
@@ -566,11 +581,23 @@ OutlierReport FindOutliers(const Survey& survey, const ParityResult& result,
   // threads.
   std::vector<ScreenFit> fits(num_headings);
   const int threads = options.num_threads > 0 ? options.num_threads : omp_get_max_threads();
+  // One workspace per thread, reused from heading to heading; the biggest
+  // headings first, so that no thread is left with a big one at the end.
+  std::vector<internal::FitWorkspace> workspaces(threads);
+  std::vector<int> by_size(num_headings);
+  std::iota(by_size.begin(), by_size.end(), 0);
+  std::stable_sort(by_size.begin(), by_size.end(), [&](int a, int b) {
+    return survey.heading_range[a].num_cells() > survey.heading_range[b].num_cells();
+  });
 #pragma omp parallel for schedule(dynamic, 1) num_threads(threads)
-  for (int h = 0; h < num_headings; ++h) {
+  for (int j = 0; j < num_headings; ++j) {
     internal::KeepEigenOnThisThread();
-    if (survey.heading_range[h].num_cells() > 0) fits[h] = FitHeading(survey, h, options);
+    const int h = by_size[j];
+    if (survey.heading_range[h].num_cells() > 0) {
+      fits[h] = FitHeading(survey, h, options, &workspaces[omp_get_thread_num()]);
+    }
   }
+  std::vector<internal::FitWorkspace>().swap(workspaces);  // released before the screen proper
   Eigen::MatrixXd levels = Eigen::MatrixXd::Constant(survey.num_regions(), num_headings, kNaN);
   for (int h = 0; h < num_headings; ++h) {
     if (fits[h].identified) levels.col(h) = fits[h].log_parity;

@@ -476,6 +476,70 @@ TEST(ScreenFit, LeverageFactorsMatchADensePseudoInverse) {
   }
 }
 
+// Cells repeated (two cells of one region and item) add their weights in
+// X'WX: the block formula still matches the dense pseudo-inverse.
+TEST(ScreenFit, LeverageFactorsCountRepeatedCellsInTheNormalEquations) {
+  const std::vector<int> region = {0, 1, 2, 0, 1, 2, 0, 2, 1};
+  const std::vector<int> item = {0, 0, 0, 1, 1, 1, 0, 2, 2};  // cell 6 repeats cell 0
+  Eigen::VectorXd weight(9);
+  weight << 1, 0.5, 2, 1, 1, 0.3, 0.8, 1, 1;
+  Eigen::MatrixXd x = Eigen::MatrixXd::Zero(9, 3 + 3);
+  for (int k = 0; k < 9; ++k) x(k, region[k]) = x(k, 3 + item[k]) = 1.0;
+  const Eigen::MatrixXd pinv =
+      (x.transpose() * weight.asDiagonal() * x).completeOrthogonalDecomposition().pseudoInverse();
+  const Eigen::VectorXd q = internal::LeverageFactors(3, 3, region, item, weight);
+  for (int k = 0; k < 9; ++k) PARITAS_EXPECT_CLOSE(q[k], x.row(k) * pinv * x.row(k).transpose(), 1e-10);
+}
+
+// One workspace carried from heading to heading (as each thread of
+// FindOutliers does) leaves no trace in the fits: headings of the same or
+// other shapes in between, regions or items on the dense side, give the
+// same bits as a fresh workspace.
+TEST(ScreenFit, AWorkspaceReusedAcrossHeadingsGivesTheSameBits) {
+  std::mt19937_64 random(11);
+  auto heading = [&](int num_regions, int num_items, double coverage, CpdData* data, std::vector<int>* region,
+                     std::vector<int>* item, std::vector<double>* log_price) {
+    for (int i = 0; i < num_items; ++i) {
+      for (int r = 0; r < num_regions; ++r) {
+        if (r > 1 && i > 1 && static_cast<double>(random() % 1000) >= 1000.0 * coverage) continue;
+        region->push_back(r);
+        item->push_back(i);
+        const double noise = static_cast<double>(random() % 2001) / 1000.0 - 1.0;
+        log_price->push_back(0.01 * r + 0.1 * i + 0.05 * noise + (random() % 37 == 0 ? 1.5 : 0.0));
+      }
+    }
+    data->num_regions = num_regions;
+    data->num_items = num_items;
+    data->region = *region;
+    data->item = *item;
+    data->log_price = *log_price;
+  };
+  std::vector<int> region[4], item[4];
+  std::vector<double> log_price[4];
+  CpdData data[4];
+  heading(40, 6, 0.7, &data[0], &region[0], &item[0], &log_price[0]);  // items dense
+  heading(5, 30, 0.8, &data[1], &region[1], &item[1], &log_price[1]);  // regions dense
+  heading(60, 9, 0.5, &data[2], &region[2], &item[2], &log_price[2]);
+  heading(40, 6, 0.5, &data[3], &region[3], &item[3], &log_price[3]);  // heading 0's shape, other cells
+  const OutlierOptions options;
+  internal::FitWorkspace workspace;
+  for (int h : {0, 3, 1, 0, 2, 2, 1, 3}) {
+    SCOPED_TRACE("heading " + std::to_string(h));
+    const internal::ScreenFit fresh = internal::FitScreen(data[h], options);
+    const internal::ScreenFit reused = internal::FitScreen(data[h], options, &workspace);
+    ASSERT_TRUE(fresh.identified);
+    EXPECT_GT(fresh.num_iterations, 1);
+    EXPECT_EQ(reused.num_iterations, fresh.num_iterations);
+    EXPECT_EQ(reused.scale, fresh.scale);
+    for (int64_t k = 0; k < fresh.residual.size(); ++k) {
+      EXPECT_EQ(reused.residual[k], fresh.residual[k]) << k;
+      EXPECT_EQ(reused.weight[k], fresh.weight[k]) << k;
+      EXPECT_EQ(reused.leverage[k], fresh.leverage[k]) << k;
+    }
+    for (int r = 0; r < data[h].num_regions; ++r) EXPECT_EQ(reused.log_parity[r], fresh.log_parity[r]) << r;
+  }
+}
+
 // Regions 0-2 share items 0 and 1; region 3's only cell is item 0; item 2 is
 // priced only by region 2; regions 4 and 5 share item 3, and region 5 alone
 // links the pair to the rest, through item 1: every cell of the chain
