@@ -566,7 +566,8 @@ struct BlockSums {
 // reused by every later block of the same thread: fresh matrices per block
 // cost a page fault per 4 KiB of them each time.
 struct GeksWorkspace {
-  std::vector<double> storage;
+  std::unique_ptr<double[]> storage;  // not zeroed: every entry is written before it is read
+  size_t capacity = 0;
   Eigen::ArrayXd index_bc, index_cb, log_bc, log_cb;
   // The spreads (GeksFisherAndSpreadsByRowBlocks): L / P from b's and from
   // c's side and their vectorised |ln|.
@@ -744,13 +745,14 @@ bool GeksRows(const GeksInputs& in, const std::vector<char>& member, Eigen::Inde
   const Eigen::Index n = in.mask.rows(), rows = b1 - b0, cols = n - b0;
   const bool fisher = in.index == GeksIndex::kFisher;
   const Eigen::Index num_matrices = fisher ? 5 : 7;
-  if (work->storage.empty()) {
-    // The first block a thread takes is its widest (blocks go in order).
-    work->storage.resize(static_cast<size_t>(num_matrices * rows * cols));
-    internal::AdviseHugePages(work->storage);
+  const size_t needed = static_cast<size_t>(num_matrices * rows * cols);
+  if (work->capacity < needed) {
+    // Once per thread: its first block is its widest (blocks go in order).
+    work->storage.reset(new double[needed]);
+    work->capacity = needed;
+    internal::AdviseHugePages(work->storage.get(), needed * sizeof(double));
   }
-  assert(work->storage.size() >= static_cast<size_t>(num_matrices * rows * cols));
-  double* cursor = work->storage.data();
+  double* cursor = work->storage.get();
   MatrixMap scratch(nullptr, 0, 0);
   TakeMatrix(rows, cols, &cursor, &scratch);
   BlockSums sums;
