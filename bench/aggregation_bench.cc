@@ -6,7 +6,9 @@
 // Or: aggregation_bench --geks-fisher|--geks-tornqvist REGIONS HEADINGS
 // [REPETITIONS [THREADS]] times that GEKS on random arrays (every 10th entry
 // missing) over the full index matrix and by row blocks, and checks that
-// both give the same bits.
+// both give the same bits. Or: aggregation_bench --geks-fisher-spreads
+// REGIONS HEADINGS [REPETITIONS [THREADS]] times GEKS-Fisher by row blocks
+// and the root's spread summary apart and together (same bits checked).
 #include <omp.h>
 
 #include <algorithm>
@@ -28,18 +30,8 @@ double Seconds(std::chrono::steady_clock::time_point start) {
   return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
 }
 
-// GEKS over `index` on REGIONS x HEADINGS random arrays: the full-matrix
-// path against the row blocks, fastest of `repetitions` each.
-int GeksPaths(paritas::GeksIndex index, int argc, char** argv) {
-  if (argc < 4) {
-    std::fprintf(stderr, "usage: aggregation_bench --geks-fisher|--geks-tornqvist REGIONS HEADINGS "
-                 "[REPS [THREADS]]\n");
-    return 1;
-  }
-  const int regions = std::atoi(argv[2]), headings = std::atoi(argv[3]);
-  const int repetitions = argc > 4 ? std::max(1, std::atoi(argv[4])) : 3;
-  const int threads = argc > 5 ? std::max(1, std::atoi(argv[5])) : 1;
-  omp_set_num_threads(threads);
+// REGIONS x HEADINGS random prices and spending, every 10th price missing.
+paritas::NodeArrays RandomArrays(int regions, int headings) {
   std::mt19937_64 random(20261202);
   std::normal_distribution<double> log_price(0.0, 0.2);
   std::uniform_real_distribution<double> spending(1.0, 100.0);
@@ -53,6 +45,22 @@ int GeksPaths(paritas::GeksIndex index, int argc, char** argv) {
       arrays.expenditure(r, h) = spending(random);
     }
   }
+  return arrays;
+}
+
+// GEKS over `index` on REGIONS x HEADINGS random arrays: the full-matrix
+// path against the row blocks, fastest of `repetitions` each.
+int GeksPaths(paritas::GeksIndex index, int argc, char** argv) {
+  if (argc < 4) {
+    std::fprintf(stderr, "usage: aggregation_bench --geks-fisher|--geks-tornqvist REGIONS HEADINGS "
+                 "[REPS [THREADS]]\n");
+    return 1;
+  }
+  const int regions = std::atoi(argv[2]), headings = std::atoi(argv[3]);
+  const int repetitions = argc > 4 ? std::max(1, std::atoi(argv[4])) : 3;
+  const int threads = argc > 5 ? std::max(1, std::atoi(argv[5])) : 1;
+  omp_set_num_threads(threads);
+  const paritas::NodeArrays arrays = RandomArrays(regions, headings);
   double matrix_seconds = 1e300, block_seconds = 1e300;
   paritas::AggregateParities by_matrix, by_blocks;
   for (int k = 0; k < repetitions; ++k) {
@@ -91,11 +99,71 @@ int GeksPaths(paritas::GeksIndex index, int argc, char** argv) {
   return same ? 0 : 2;
 }
 
+
+// GEKS-Fisher by row blocks and the spread summary (pairs kept, as with the
+// report) on REGIONS x HEADINGS random arrays: apart (GeksByRowBlocks, then
+// AllPairsSpreads) against together (GeksFisherAndSpreadsByRowBlocks),
+// fastest of `repetitions` each; checks that both give the same bits.
+int GeksWithSpreads(int argc, char** argv) {
+  if (argc < 4) {
+    std::fprintf(stderr, "usage: aggregation_bench --geks-fisher-spreads REGIONS HEADINGS "
+                 "[REPS [THREADS]]\n");
+    return 1;
+  }
+  const int regions = std::atoi(argv[2]), headings = std::atoi(argv[3]);
+  const int repetitions = argc > 4 ? std::max(1, std::atoi(argv[4])) : 3;
+  const int threads = argc > 5 ? std::max(1, std::atoi(argv[5])) : 1;
+  omp_set_num_threads(threads);
+  const paritas::NodeArrays arrays = RandomArrays(regions, headings);
+  paritas::GeksBlockOptions options;
+  options.num_threads = threads;
+  paritas::SpreadOptions spread_options;
+  spread_options.num_threads = threads;
+  double apart_seconds = 1e300, together_seconds = 1e300;
+  paritas::GeksResult geks_apart, geks_together;
+  paritas::SpreadSummary spreads_apart, spreads_together;
+  for (int k = 0; k < repetitions; ++k) {
+    auto start = std::chrono::steady_clock::now();
+    const bool linked = paritas::GeksByRowBlocks(paritas::GeksIndex::kFisher, arrays.price,
+                                                 arrays.expenditure, options, &geks_apart);
+    spreads_apart = paritas::AllPairsSpreads(arrays.price, arrays.expenditure, spread_options);
+    apart_seconds = std::min(apart_seconds, Seconds(start));
+    start = std::chrono::steady_clock::now();
+    if (!linked || !paritas::GeksFisherAndSpreadsByRowBlocks(arrays.price, arrays.expenditure,
+                                                             options, spread_options,
+                                                             &geks_together, &spreads_together)) {
+      std::fprintf(stderr, "aggregation_bench: a pair without an index\n");
+      return 1;
+    }
+    together_seconds = std::min(together_seconds, Seconds(start));
+  }
+  bool same = std::memcmp(geks_apart.log_parity.data(), geks_together.log_parity.data(),
+                          sizeof(double) * regions) == 0 &&
+              geks_apart.rms_log_residual == geks_together.rms_log_residual &&
+              spreads_apart.pair_spreads == spreads_together.pair_spreads &&
+              spreads_apart.check_percent == spreads_together.check_percent &&
+              spreads_apart.check_partner == spreads_together.check_partner &&
+              spreads_apart.widest.size() == spreads_together.widest.size();
+  for (int r = 0; same && r < regions; ++r) {
+    const paritas::RegionSpread &x = spreads_apart.regions[r], &y = spreads_together.regions[r];
+    same = std::memcmp(&x.median, &y.median, sizeof(double)) == 0 &&
+           std::memcmp(&x.max, &y.max, sizeof(double)) == 0 && x.worst_partner == y.worst_partner;
+  }
+  std::printf("geks-fisher with spreads %d x %d, %d threads, fastest of %d: apart %.4f s, "
+              "together %.4f s; same bits: %s\n",
+              regions, headings, threads, repetitions, apart_seconds, together_seconds,
+              same ? "yes" : "NO");
+  return same ? 0 : 2;
+}
+
 }  // namespace
 
 int main(int argc, char** argv) {
   if (argc > 1 && std::strcmp(argv[1], "--geks-fisher") == 0) {
     return GeksPaths(paritas::GeksIndex::kFisher, argc, argv);
+  }
+  if (argc > 1 && std::strcmp(argv[1], "--geks-fisher-spreads") == 0) {
+    return GeksWithSpreads(argc, argv);
   }
   if (argc > 1 && std::strcmp(argv[1], "--geks-tornqvist") == 0) {
     return GeksPaths(paritas::GeksIndex::kTornqvist, argc, argv);

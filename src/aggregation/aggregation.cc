@@ -25,6 +25,23 @@ AggregateParities GeksOverIndex(const Eigen::MatrixXd& index) {
 
 namespace {
 
+// Below a few hundred regions the matrices fit in cache and the blocks'
+// products cost more than they save (aggregation_bench --geks-fisher, one
+// thread: 200 x 100 took 1.9 ms by matrix and 3.1 ms by blocks, 400 x 100
+// 13.3 and 13.6 ms, 500 x 100 14.1 and 12.9 ms).
+constexpr Eigen::Index kMinRegionsForBlocks = 400;
+
+// An aggregate's parities from GEKS's result.
+AggregateParities FromGeks(GeksResult geks) {
+  AggregateParities out;
+  out.log_parity = std::move(geks.log_parity);
+  out.identified = geks.identified;
+  out.groups = std::move(geks.groups);
+  out.complete = geks.complete;
+  out.rms_log_residual = geks.rms_log_residual;
+  return out;
+}
+
 // GEKS over `index` (B, filled in `bilaterals` or not): over the matrix
 // when it is there; else by row blocks from 400 regions on when every pair
 // has an index; else over the matrix formed here.
@@ -33,11 +50,6 @@ AggregateParities GeksOverArrays(GeksIndex index, const NodeArrays& arrays,
   const bool fisher = index == GeksIndex::kFisher;
   const Eigen::MatrixXd& given = fisher ? bilaterals.fisher : bilaterals.tornqvist;
   if (given.size() > 0) return GeksOverIndex(given);
-  // Below a few hundred regions the matrices fit in cache and the blocks'
-  // products cost more than they save (aggregation_bench --geks-fisher, one
-  // thread: 200 x 100 took 1.9 ms by matrix and 3.1 ms by blocks, 400 x 100
-  // 13.3 and 13.6 ms, 500 x 100 14.1 and 12.9 ms).
-  constexpr Eigen::Index kMinRegionsForBlocks = 400;
   GeksResult geks;
   if (arrays.price.rows() < kMinRegionsForBlocks ||
       !GeksByRowBlocks(index, arrays.price, arrays.expenditure, GeksBlockOptions(), &geks)) {
@@ -46,13 +58,19 @@ AggregateParities GeksOverArrays(GeksIndex index, const NodeArrays& arrays,
                          fisher ? BilateralOptions::OnlyFisher() : BilateralOptions::OnlyTornqvist());
     return GeksOverIndex(fisher ? formed.fisher : formed.tornqvist);
   }
-  AggregateParities out;
-  out.log_parity = std::move(geks.log_parity);
-  out.identified = geks.identified;
-  out.groups = std::move(geks.groups);
-  out.complete = geks.complete;
-  out.rms_log_residual = geks.rms_log_residual;
-  return out;
+  return FromGeks(std::move(geks));
+}
+
+// Counts the headings each region has (parity and positive expenditure).
+void CountHeadings(const NodeArrays& arrays, AggregateParities* out) {
+  const int num_regions = static_cast<int>(arrays.price.rows());
+  out->num_headings = Eigen::VectorXi::Zero(num_regions);
+  for (int r = 0; r < num_regions; ++r) {
+    for (int h = 0; h < arrays.price.cols(); ++h) {
+      const double p = arrays.price(r, h), e = arrays.expenditure(r, h);
+      if (std::isfinite(p) && p > 0 && std::isfinite(e) && e > 0) ++out->num_headings(r);
+    }
+  }
 }
 
 }  // namespace
@@ -69,15 +87,24 @@ AggregateParities AggregateFromBilaterals(const NodeArrays& arrays,
                                           const BilateralMatrices& bilaterals,
                                           const AggregationMethod& method) {
   AggregateParities out = method.Aggregate(arrays, bilaterals);
-  const int num_regions = static_cast<int>(arrays.price.rows());
-  out.num_headings = Eigen::VectorXi::Zero(num_regions);
-  for (int r = 0; r < num_regions; ++r) {
-    for (int h = 0; h < arrays.price.cols(); ++h) {
-      const double p = arrays.price(r, h), e = arrays.expenditure(r, h);
-      if (std::isfinite(p) && p > 0 && std::isfinite(e) && e > 0) ++out.num_headings(r);
-    }
-  }
+  CountHeadings(arrays, &out);
   return out;
+}
+
+bool GeksFisherWithSpreads(const NodeArrays& arrays, const SpreadOptions& spread_options,
+                           AggregateParities* aggregate, SpreadSummary* spreads) {
+  // As GeksOverArrays: by row blocks from a few hundred regions on.
+  if (arrays.price.rows() < kMinRegionsForBlocks) return false;
+  GeksResult geks;
+  SpreadSummary summary;
+  if (!GeksFisherAndSpreadsByRowBlocks(arrays.price, arrays.expenditure, GeksBlockOptions(),
+                                       spread_options, &geks, &summary)) {
+    return false;
+  }
+  *aggregate = FromGeks(std::move(geks));
+  CountHeadings(arrays, aggregate);
+  *spreads = std::move(summary);
+  return true;
 }
 
 Eigen::MatrixXd RealByHeading(const NodeArrays& arrays, const Eigen::VectorXd& log_parity,

@@ -19,6 +19,7 @@
 #include <vector>
 
 #include "base/eigen_threads.h"
+#include "base/huge_pages.h"
 #include "base/median.h"
 #include "base/not_a_number.h"
 #include "paritas/aggregation/geks.h"
@@ -436,6 +437,25 @@ void CompletePair(const MaskedArrays& m, const Eigen::MatrixXd& log_price, Sprea
   pair->num_matched = static_cast<int>(std::lround(count));
 }
 
+// Keeps the options.num_widest widest of out->widest, widest first, and
+// completes them (Törnqvist, matched count) from `m` (masked with log
+// prices, which this centres).
+void FinishWidest(MaskedArrays* m, const SpreadOptions& options, SpreadSummary* out) {
+  const size_t k = std::min(out->widest.size(), static_cast<size_t>(options.num_widest));
+  std::partial_sort(out->widest.begin(), out->widest.begin() + k, out->widest.end(), WiderPair);
+  out->widest.resize(k);
+  if (k > 0) CentreColumns(m->mask, &m->log_price);
+  for (SpreadPairIndices& pair : out->widest) CompletePair(*m, m->log_price, &pair);
+}
+
+// The same from the node's arrays.
+void FinishWidest(const Eigen::MatrixXd& price, const Eigen::MatrixXd& expenditure,
+                  const SpreadOptions& options, SpreadSummary* out) {
+  if (out->widest.empty()) return;
+  MaskedArrays m = MaskInputs(price, expenditure, false, options.num_widest > 0);
+  FinishWidest(&m, options, out);
+}
+
 }  // namespace
 
 namespace {
@@ -487,11 +507,7 @@ SpreadSummary AllPairsSpreads(const Eigen::MatrixXd& price, const Eigen::MatrixX
     out.widest.insert(out.widest.end(), block.widest.begin(), block.widest.end());
     block = SpreadBlock();
   }
-  const size_t k = std::min(out.widest.size(), static_cast<size_t>(options.num_widest));
-  std::partial_sort(out.widest.begin(), out.widest.begin() + k, out.widest.end(), WiderPair);
-  out.widest.resize(k);
-  if (k > 0) CentreColumns(m.mask, &m.log_price);
-  for (SpreadPairIndices& pair : out.widest) CompletePair(m, m.log_price, &pair);
+  FinishWidest(&m, options, &out);
   return out;
 }
 
@@ -518,7 +534,8 @@ inline size_t PackedRow(Eigen::Index n, Eigen::Index b) {
 
 // Copies the transpose of `in` into `out` (already of the transposed
 // shape) by square tiles, so that both sides stay in cache.
-void TransposeInTiles(const Eigen::MatrixXd& in, Eigen::MatrixXd* out) {
+template <typename In, typename Out>
+void TransposeInTiles(const In& in, Out* out) {
   constexpr Eigen::Index kSide = 32;
   for (Eigen::Index c0 = 0; c0 < in.cols(); c0 += kSide) {
     const Eigen::Index c1 = std::min(in.cols(), c0 + kSide);
@@ -531,28 +548,46 @@ void TransposeInTiles(const Eigen::MatrixXd& in, Eigen::MatrixXd* out) {
   }
 }
 
+using MatrixMap = Eigen::Map<Eigen::MatrixXd>;
+
 // The sums of a row block b in [b0, b0 + rows) against the partners c from
 // b0 on, each as partners x block rows: (c, i) holds the sum at (b0 + i, c)
 // in the *_bc matrices and at (c, b0 + i) in the *_cb ones. `value` is the
 // expenditure sum (value_a of AllPairsWeighted); `x` and `y` are the
 // index's own: for Fisher the basket sum sum p_c q_b (y unused), for
 // Törnqvist sum e_b y_c and sum e_b y_b m_c over the centred log prices y.
+// They view the buffers of a GeksWorkspace.
 struct BlockSums {
-  Eigen::MatrixXd value_bc, value_cb, x_bc, x_cb, y_bc, y_cb;
+  MatrixMap value_bc{nullptr, 0, 0}, value_cb{nullptr, 0, 0}, x_bc{nullptr, 0, 0},
+      x_cb{nullptr, 0, 0}, y_bc{nullptr, 0, 0}, y_cb{nullptr, 0, 0};
 };
+
+// The buffers of GeksRows, sized once by the first (widest) block and
+// reused by every later block of the same thread: fresh matrices per block
+// cost a page fault per 4 KiB of them each time.
+struct GeksWorkspace {
+  std::unique_ptr<double[]> storage;  // not zeroed: every entry is written before it is read
+  size_t capacity = 0;
+  Eigen::ArrayXd index_bc, index_cb, log_bc, log_cb;
+  // The spreads (GeksFisherAndSpreadsByRowBlocks): L / P from b's and from
+  // c's side and their vectorised |ln|.
+  Eigen::ArrayXd ratio_b, ratio_c, spread_b, spread_c;
+};
+
+// Points `map` at the next rows x cols doubles of `*cursor`.
+void TakeMatrix(Eigen::Index rows, Eigen::Index cols, double** cursor, MatrixMap* map) {
+  new (map) MatrixMap(*cursor, rows, cols);
+  *cursor += rows * cols;
+}
 
 // One pair of products of masked arrays: `bc` the transposed block rows of
 // left * rightᵀ, `cb` its block columns (blocks laid out as AllPairsSpreads's,
 // so every entry is summed as in the full product).
 void BlockProduct(const Eigen::MatrixXd& left, const Eigen::MatrixXd& right, Eigen::Index b0,
-                  Eigen::Index rows, Eigen::MatrixXd* scratch, Eigen::MatrixXd* bc,
-                  Eigen::MatrixXd* cb) {
+                  Eigen::Index rows, MatrixMap* scratch, MatrixMap* bc, MatrixMap* cb) {
   const Eigen::Index cols = left.rows() - b0;
-  scratch->resize(rows, cols);
   scratch->noalias() = left.middleRows(b0, rows) * right.middleRows(b0, cols).transpose();
-  bc->resize(cols, rows);
   TransposeInTiles(*scratch, bc);
-  cb->resize(cols, rows);
   cb->noalias() = left.middleRows(b0, cols) * right.middleRows(b0, rows).transpose();
 }
 
@@ -618,39 +653,142 @@ void PairIndices(GeksIndex index, const BlockSums& sums, Eigen::Index i, Eigen::
   }
 }
 
+// What a row block gives the spread summary besides the two triangles of
+// spreads: its pairs (SpreadBlock) and, for each row a >= b0, the largest
+// 100 |ln(L / P)| (std::log) over the partners this block meets, the first
+// partner reaching it (as SpreadRows's check), or 0 and -1.
+struct SpreadBlockOfGeks {
+  SpreadBlock pairs;
+  std::vector<double> check_percent;
+  std::vector<int> check_partner;
+};
+
+// Where the spreads of GeksFisherAndSpreadsByRowBlocks go: the vectorised
+// |ln(L / P)| of each pair b < c seen from b (`from_b`) and from c
+// (`from_c`), packed as Geks's d; the options; this block's other parts.
+struct SpreadTarget {
+  double* from_b = nullptr;
+  double* from_c = nullptr;
+  const SpreadOptions* options = nullptr;
+  SpreadBlockOfGeks* block = nullptr;
+};
+
+// Offers `percent` of partner `partner` to a row's check as SpreadRows's
+// loop does (finite and strictly above the best so far, which starts at 0).
+inline void OfferCheck(double percent, int partner, double* best, int* best_partner) {
+  if (std::isfinite(percent) && percent > *best) *best = percent, *best_partner = partner;
+}
+
+// The spreads of row b = b0 + i against c = b + 1 + t, t < len, from both
+// sides, as SpreadRows forms them from the same sums: L = x_bc / v_bc and
+// P = v_cb / x_cb seen from b, L = x_cb / v_cb and P = v_bc / x_bc seen
+// from c, NaN where either side spends nothing on the matched headings.
+void SpreadPairsOfRow(const BlockSums& sums, Eigen::Index n, Eigen::Index b0, Eigen::Index i,
+                      Eigen::Index len, GeksWorkspace* work, const SpreadTarget& target) {
+  const Eigen::Index b = b0 + i;
+  const auto vb = sums.value_bc.col(i).segment(i + 1, len).array();
+  const auto vc = sums.value_cb.col(i).segment(i + 1, len).array();
+  const auto xb = sums.x_bc.col(i).segment(i + 1, len).array();
+  const auto xc = sums.x_cb.col(i).segment(i + 1, len).array();
+  // The tail past len stays 1 so that Eigen's vectorised log takes every
+  // entry, as it does over SpreadRows's whole row.
+  work->ratio_b.setOnes();
+  work->ratio_c.setOnes();
+  work->ratio_b.head(len) = (xb / vb) / (vc / xc);
+  work->ratio_c.head(len) = (xc / vc) / (vb / xb);
+  for (Eigen::Index t = 0; t < len; ++t) {
+    if (!(vb(t) > 0.0 && vc(t) > 0.0)) work->ratio_b(t) = work->ratio_c(t) = kNaN;
+  }
+  work->spread_b = work->ratio_b.log().abs();
+  work->spread_c = work->ratio_c.log().abs();
+  const size_t row = PackedRow(n, b);
+  std::copy_n(work->spread_b.data(), len, target.from_b + row);
+  std::copy_n(work->spread_c.data(), len, target.from_c + row);
+  const SpreadOptions& options = *target.options;
+  SpreadBlock& pairs = target.block->pairs;
+  // The block's checks, indexed by region - b0.
+  double* best = target.block->check_percent.data();
+  int* best_partner = target.block->check_partner.data();
+  const size_t k = static_cast<size_t>(options.num_widest);
+  for (Eigen::Index t = 0; t < len; ++t) {
+    const Eigen::Index c = b + 1 + t;
+    const double s_b = std::abs(std::log(work->ratio_b(t)));
+    const double s_c = std::abs(std::log(work->ratio_c(t)));
+    OfferCheck(100.0 * s_b, static_cast<int>(c), &best[i], &best_partner[i]);
+    OfferCheck(100.0 * s_c, static_cast<int>(b), &best[c - b0], &best_partner[c - b0]);
+    if (!std::isfinite(s_b)) continue;
+    if (options.keep_pair_spreads) pairs.pair_spreads.push_back(s_b);
+    if (k == 0) continue;
+    SpreadPairIndices pair;
+    pair.a = static_cast<int>(b), pair.b = static_cast<int>(c), pair.spread = s_b;
+    pair.laspeyres = xb(t) / vb(t), pair.paasche = vc(t) / xc(t);
+    pair.fisher = std::sqrt(pair.laspeyres * pair.paasche);
+    if (pairs.widest.size() == k && !WiderPair(pair, pairs.widest.front())) continue;
+    pairs.widest.push_back(pair);
+    std::push_heap(pairs.widest.begin(), pairs.widest.end(), WiderPair);
+    if (pairs.widest.size() > k) {
+      std::pop_heap(pairs.widest.begin(), pairs.widest.end(), WiderPair);
+      pairs.widest.pop_back();
+    }
+  }
+}
+
 // Rows [b0, b1) of the upper triangle: for each region b taking part
 // (`member`) and each c > b, the index at (b, c) and at (c, b), their
 // logarithms as Geks takes them (Eigen's vectorised log, as over the whole
 // matrix; segments padded to a multiple of 4 so that every entry gets it),
-// and d_bc into `packed`. Returns false when two members have no index.
+// and d_bc into `packed`; with a `spreads` target, the spreads of the same
+// pairs too. Returns false when two members have no index.
 bool GeksRows(const GeksInputs& in, const std::vector<char>& member, Eigen::Index b0,
-              Eigen::Index b1, double* packed) {
+              Eigen::Index b1, double* packed, GeksWorkspace* work,
+              const SpreadTarget* spreads = nullptr) {
   const Eigen::Index n = in.mask.rows(), rows = b1 - b0, cols = n - b0;
+  const bool fisher = in.index == GeksIndex::kFisher;
+  const Eigen::Index num_matrices = fisher ? 5 : 7;
+  const size_t needed = static_cast<size_t>(num_matrices * rows * cols);
+  if (work->capacity < needed) {
+    // Once per thread: its first block is its widest (blocks go in order).
+    work->storage.reset(new double[needed]);
+    work->capacity = needed;
+    internal::AdviseHugePages(work->storage.get(), needed * sizeof(double));
+  }
+  double* cursor = work->storage.get();
+  MatrixMap scratch(nullptr, 0, 0);
+  TakeMatrix(rows, cols, &cursor, &scratch);
   BlockSums sums;
-  Eigen::MatrixXd scratch;
+  TakeMatrix(cols, rows, &cursor, &sums.value_bc);
+  TakeMatrix(cols, rows, &cursor, &sums.value_cb);
+  TakeMatrix(cols, rows, &cursor, &sums.x_bc);
+  TakeMatrix(cols, rows, &cursor, &sums.x_cb);
   BlockProduct(in.expenditure, in.mask, b0, rows, &scratch, &sums.value_bc, &sums.value_cb);
-  if (in.index == GeksIndex::kFisher) {
+  if (fisher) {
     BlockProduct(in.first, in.second, b0, rows, &scratch, &sums.x_bc, &sums.x_cb);
   } else {
+    TakeMatrix(cols, rows, &cursor, &sums.y_bc);
+    TakeMatrix(cols, rows, &cursor, &sums.y_cb);
     BlockProduct(in.expenditure, in.first, b0, rows, &scratch, &sums.x_bc, &sums.x_cb);
     BlockProduct(in.second, in.mask, b0, rows, &scratch, &sums.y_bc, &sums.y_cb);
   }
   const Eigen::Index padded = (cols + 3) / 4 * 4;
-  Eigen::ArrayXd index_bc(padded), index_cb(padded), log_bc(padded), log_cb(padded);
+  for (Eigen::ArrayXd* a : {&work->index_bc, &work->index_cb, &work->log_bc, &work->log_cb,
+                            &work->ratio_b, &work->ratio_c, &work->spread_b, &work->spread_c}) {
+    a->resize(padded);
+  }
   for (Eigen::Index i = 0; i < rows; ++i) {
     const Eigen::Index b = b0 + i, len = cols - i - 1;
     if (!member[b] || len == 0) continue;
-    index_bc.setOnes();
-    index_cb.setOnes();
-    PairIndices(in.index, sums, i, len, &index_bc, &index_cb);
-    log_bc = index_bc.log();
-    log_cb = index_cb.log();
+    work->index_bc.setOnes();
+    work->index_cb.setOnes();
+    PairIndices(in.index, sums, i, len, &work->index_bc, &work->index_cb);
+    work->log_bc = work->index_bc.log();
+    work->log_cb = work->index_cb.log();
     double* row = packed + PackedRow(n, b);
     for (Eigen::Index t = 0; t < len; ++t) {
       bool linked;
-      row[t] = AntisymmetricLog(log_bc(t), log_cb(t), &linked);
+      row[t] = AntisymmetricLog(work->log_bc(t), work->log_cb(t), &linked);
       if (!linked && member[b + 1 + t]) return false;
     }
+    if (spreads != nullptr) SpreadPairsOfRow(sums, n, b0, i, len, work, *spreads);
   }
   return true;
 }
@@ -672,6 +810,113 @@ void GeksColumnSums(Eigen::Index n, const std::vector<int>& members, const doubl
   }
 }
 
+// Geks's sum of squared residuals: over the members j = 1, 2, ... and, for
+// each, i = 0 .. j - 1, (d_ab - (x_j - x_i))^2 for a = members[i], b =
+// members[j], added one after the other in that order. The terms of 64
+// columns j at a time are formed along the rows of the triangle (its
+// columns lie a row apart) and then added in that order.
+double ResidualSumOfSquares(Eigen::Index n, const std::vector<int>& members,
+                            const double* packed, const Eigen::VectorXd& x) {
+  constexpr int kColumns = 64;
+  const int size = static_cast<int>(members.size());
+  std::vector<double> terms(static_cast<size_t>(size) * kColumns);  // (i, j - j0)
+  double sum_sq = 0.0;
+  for (int j0 = 1; j0 < size; j0 += kColumns) {
+    const int j1 = std::min(size, j0 + kColumns);
+    for (int i = 0; i < j1 - 1; ++i) {
+      const Eigen::Index a = members[i];
+      const size_t row = PackedRow(n, a);
+      double* term = terms.data() + static_cast<size_t>(i) * kColumns;
+      for (int j = std::max(j0, i + 1); j < j1; ++j) {
+        const double e = packed[row + (members[j] - a - 1)] - (x[j] - x[i]);
+        term[j - j0] = e * e;
+      }
+    }
+    for (int j = j0; j < j1; ++j) {
+      for (int i = 0; i < j; ++i) sum_sq += terms[static_cast<size_t>(i) * kColumns + (j - j0)];
+    }
+  }
+  return sum_sq;
+}
+
+// Row a's spreads from the triangles, partners ascending: b < a from c's
+// side (column a of `from_c`), then c > a from b's side (row a of
+// `from_b`); regions that take no part have no spread with anyone. Rows
+// [a0, a1) at a time, so that the column reads go along rows; `values`
+// holds a buffer per row.
+void SummariseSpreadRows(Eigen::Index n, Eigen::Index a0, Eigen::Index a1,
+                         const std::vector<char>& member, const double* from_b,
+                         const double* from_c, std::vector<std::vector<double>>* values,
+                         SpreadSummary* out) {
+  const Eigen::Index rows = a1 - a0;
+  std::vector<double> largest(rows, 0.0);
+  std::vector<int> partner(rows, -1);
+  auto visit = [&](Eigen::Index r, Eigen::Index with, double spread) {
+    if (!std::isfinite(spread)) return;
+    (*values)[r].push_back(spread);
+    if (spread > largest[r] || partner[r] < 0) largest[r] = spread, partner[r] = static_cast<int>(with);
+  };
+  for (Eigen::Index r = 0; r < rows; ++r) (*values)[r].clear();
+  for (Eigen::Index b = 0; b + 1 < a1; ++b) {
+    if (!member[b]) continue;
+    const size_t row = PackedRow(n, b);
+    for (Eigen::Index a = std::max(a0, b + 1); a < a1; ++a) {
+      if (member[a]) visit(a - a0, b, from_c[row + (a - b - 1)]);
+    }
+  }
+  for (Eigen::Index a = a0; a < a1; ++a) {
+    if (!member[a]) continue;
+    const size_t row = PackedRow(n, a);
+    for (Eigen::Index c = a + 1; c < n; ++c) {
+      if (member[c]) visit(a - a0, c, from_b[row + (c - a - 1)]);
+    }
+  }
+  for (Eigen::Index r = 0; r < rows; ++r) {
+    out->regions[a0 + r] = SummariseRow(&(*values)[r], largest[r], partner[r]);
+  }
+}
+
+// The spread summary of GeksFisherAndSpreadsByRowBlocks from the triangles
+// and the blocks' parts, as AllPairsSpreads gives it.
+SpreadSummary SummariseSpreads(const Eigen::MatrixXd& price, const Eigen::MatrixXd& expenditure,
+                               const SpreadOptions& options, const std::vector<char>& member,
+                               const double* from_b, const double* from_c, int threads,
+                               std::vector<SpreadBlockOfGeks>* blocks) {
+  const Eigen::Index n = price.rows();
+  SpreadSummary out;
+  out.regions.resize(n);
+  out.check_percent.assign(n, 0.0);
+  out.check_partner.assign(n, -1);
+  constexpr Eigen::Index kRows = 64;
+  const int num_tiles = static_cast<int>((n + kRows - 1) / kRows);
+#pragma omp parallel num_threads(threads) if (num_tiles > 1)
+  {
+    std::vector<std::vector<double>> values(kRows);
+#pragma omp for schedule(dynamic, 1)
+    for (int k = 0; k < num_tiles; ++k) {
+      SummariseSpreadRows(n, k * kRows, std::min(n, (k + 1) * kRows), member, from_b, from_c,
+                          &values, &out);
+    }
+  }
+  // A block's partners all come before the next block's, so taking the
+  // blocks in order with "strictly above" keeps the first partner; pairs are
+  // joined in block order, as AllPairsSpreads joins them.
+  for (SpreadBlockOfGeks& block : *blocks) {
+    const Eigen::Index b0 = n - static_cast<Eigen::Index>(block.check_partner.size());
+    for (size_t r = 0; r < block.check_partner.size(); ++r) {
+      if (block.check_partner[r] < 0) continue;
+      OfferCheck(block.check_percent[r], block.check_partner[r], &out.check_percent[b0 + r],
+                 &out.check_partner[b0 + r]);
+    }
+    out.pair_spreads.insert(out.pair_spreads.end(), block.pairs.pair_spreads.begin(),
+                            block.pairs.pair_spreads.end());
+    out.widest.insert(out.widest.end(), block.pairs.widest.begin(), block.pairs.widest.end());
+    block = SpreadBlockOfGeks();
+  }
+  FinishWidest(price, expenditure, options, &out);
+  return out;
+}
+
 }  // namespace
 
 bool GeksBlockOptions::IsValid(std::string* error) const {
@@ -680,9 +925,14 @@ bool GeksBlockOptions::IsValid(std::string* error) const {
   return message.empty();
 }
 
-bool GeksByRowBlocks(GeksIndex index, const Eigen::MatrixXd& price,
-                     const Eigen::MatrixXd& expenditure, const GeksBlockOptions& options,
-                     GeksResult* result) {
+namespace {
+
+// GeksByRowBlocks, and with `spread_options` the spreads of the same pairs
+// into `spreads` (GeksFisherAndSpreadsByRowBlocks).
+bool GeksByRowBlocksImpl(GeksIndex index, const Eigen::MatrixXd& price,
+                         const Eigen::MatrixXd& expenditure, const GeksBlockOptions& options,
+                         const SpreadOptions* spread_options, GeksResult* result,
+                         SpreadSummary* spreads) {
   assert(price.rows() == expenditure.rows() && price.cols() == expenditure.cols());
   assert(options.IsValid(nullptr));
   const Eigen::Index n = price.rows();
@@ -698,18 +948,43 @@ bool GeksByRowBlocks(GeksIndex index, const Eigen::MatrixXd& price,
   const int size = static_cast<int>(members.size());
   if (size < 2) return false;
   // Not zeroed: every entry read below (a pair of members) is written first.
-  const std::unique_ptr<double[]> packed_storage(new double[PackedRow(n, n)]);
+  const size_t triangle = PackedRow(n, n);
+  const std::unique_ptr<double[]> packed_storage(new double[triangle]);
   double* const packed = packed_storage.get();
+  internal::AdviseHugePages(packed, triangle * sizeof(double));
   const int threads = options.num_threads > 0 ? options.num_threads : omp_get_max_threads();
   const Eigen::Index step = options.block_rows;
   const int num_blocks = static_cast<int>((n + step - 1) / step);
   std::vector<char> block_linked(num_blocks, 1);
-  // Each block writes its own entries of the triangle; the sums below run
+  // The spreads seen from each side of each pair, and each block's part.
+  std::unique_ptr<double[]> from_b, from_c;
+  std::vector<SpreadBlockOfGeks> spread_blocks;
+  if (spread_options != nullptr) {
+    from_b.reset(new double[triangle]);
+    from_c.reset(new double[triangle]);
+    internal::AdviseHugePages(from_b.get(), triangle * sizeof(double));
+    internal::AdviseHugePages(from_c.get(), triangle * sizeof(double));
+    spread_blocks.resize(num_blocks);
+  }
+  // Each block writes its own entries of the triangles; the sums below run
   // in a fixed order, so the thread count changes nothing.
-#pragma omp parallel for schedule(dynamic, 1) num_threads(threads) if (num_blocks > 1)
-  for (int k = 0; k < num_blocks; ++k) {
+#pragma omp parallel num_threads(threads) if (num_blocks > 1)
+  {
     internal::KeepEigenOnThisThread();
-    block_linked[k] = GeksRows(in, member, k * step, std::min(n, (k + 1) * step), packed);
+    GeksWorkspace work;
+#pragma omp for schedule(dynamic, 1)
+    for (int k = 0; k < num_blocks; ++k) {
+      const Eigen::Index b0 = k * step;
+      SpreadTarget target;
+      if (spread_options != nullptr) {
+        SpreadBlockOfGeks& block = spread_blocks[k];
+        block.check_percent.assign(n - b0, 0.0);
+        block.check_partner.assign(n - b0, -1);
+        target = {from_b.get(), from_c.get(), spread_options, &block};
+      }
+      block_linked[k] = GeksRows(in, member, b0, std::min(n, b0 + step), packed, &work,
+                                 spread_options != nullptr ? &target : nullptr);
+    }
   }
   if (std::find(block_linked.begin(), block_linked.end(), 0) != block_linked.end()) return false;
   constexpr int kTile = 64;
@@ -730,20 +1005,34 @@ bool GeksByRowBlocks(GeksIndex index, const Eigen::MatrixXd& price,
   Eigen::VectorXd x = Eigen::Map<const Eigen::VectorXd>(column_sum.data(), size) / size;
   x.array() -= x.mean();
   for (int j = 0; j < size; ++j) out.log_parity[members[j]] = x[j];
-  double sum_sq = 0.0;
-  for (int j = 1; j < size; ++j) {
-    const Eigen::Index b = members[j];
-    for (int i = 0; i < j; ++i) {
-      const Eigen::Index a = members[i];
-      const double e = packed[PackedRow(n, a) + (b - a - 1)] - (x[j] - x[i]);
-      sum_sq += e * e;
-    }
-  }
+  const double sum_sq = ResidualSumOfSquares(n, members, packed, x);
   const long long num_pairs = static_cast<long long>(size) * (size - 1) / 2;
   out.rms_log_residual = std::sqrt(sum_sq / static_cast<double>(num_pairs));
   out.groups.push_back(std::move(members));
   *result = std::move(out);
+  if (spread_options != nullptr) {
+    *spreads = SummariseSpreads(price, expenditure, *spread_options, member, from_b.get(),
+                                from_c.get(), threads, &spread_blocks);
+  }
   return true;
+}
+
+}  // namespace
+
+bool GeksByRowBlocks(GeksIndex index, const Eigen::MatrixXd& price,
+                     const Eigen::MatrixXd& expenditure, const GeksBlockOptions& options,
+                     GeksResult* result) {
+  return GeksByRowBlocksImpl(index, price, expenditure, options, nullptr, result, nullptr);
+}
+
+bool GeksFisherAndSpreadsByRowBlocks(const Eigen::MatrixXd& price,
+                                     const Eigen::MatrixXd& expenditure,
+                                     const GeksBlockOptions& options,
+                                     const SpreadOptions& spread_options, GeksResult* result,
+                                     SpreadSummary* spreads) {
+  assert(spread_options.IsValid(nullptr));
+  return GeksByRowBlocksImpl(GeksIndex::kFisher, price, expenditure, options, &spread_options,
+                             result, spreads);
 }
 
 }  // namespace paritas

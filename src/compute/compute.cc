@@ -446,22 +446,32 @@ std::vector<AggregateParities> AggregateStage(const Survey& survey, const Comput
   std::vector<AggregateParities> aggregate_of(num_nodes);
   const AggregationMethod& method = *FindAggregationMethod(options.aggregation);
   const int num_aggregates = static_cast<int>(aggregates.size());
+  // Without its matrices the root needs its spreads by row blocks; under
+  // GEKS-Fisher they come from the products its parities are formed from.
+  const bool root_spreads = !keep[0] && !tree.nodes().front().is_leaf;
+  SpreadOptions spread_options;
+  spread_options.keep_pair_spreads = options.keep_pair_spreads;
+  spread_options.num_threads = threads;
+  const bool spreads_with_root = root_spreads && method.Name() == "geks-fisher";
+  bool spreads_done = false;
 #pragma omp parallel for schedule(dynamic, 1) num_threads(threads) if (num_aggregates > 1)
   for (int k = 0; k < num_aggregates; ++k) {
     internal::KeepEigenOnThisThread();
     const int index = aggregates[k];
     const NodeArrays arrays = NodeInputArrays(survey, *result, index);
+    if (index == 0 && spreads_with_root &&
+        GeksFisherWithSpreads(arrays, spread_options, &aggregate_of[0], &result->root_spreads)) {
+      spreads_done = true;
+      continue;
+    }
     BilateralMatrices bilaterals =
         NodeBilaterals(arrays, keep[index] ? BilateralOptions() : method.BilateralsNeeded());
     aggregate_of[index] = AggregateFromBilaterals(arrays, bilaterals, method);
     if (keep[index]) result->bilaterals[index] = std::move(bilaterals);
   }
-  if (!keep[0] && !tree.nodes().front().is_leaf) {
+  if (root_spreads && !spreads_done) {
     // The root's spreads row block by row block, both cores on the blocks.
     const NodeArrays arrays = NodeInputArrays(survey, *result, 0);
-    SpreadOptions spread_options;
-    spread_options.keep_pair_spreads = options.keep_pair_spreads;
-    spread_options.num_threads = threads;
     result->root_spreads = AllPairsSpreads(arrays.price, arrays.expenditure, spread_options);
   }
   return aggregate_of;

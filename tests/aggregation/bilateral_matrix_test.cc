@@ -552,6 +552,120 @@ TEST(GeksByRowBlocks, EqualsGeksOverTheIndexMatrixBitForBit) {
   }
 }
 
+// The bits of two spread summaries, NaN where the other is NaN.
+void ExpectSameSpreads(const SpreadSummary& got, const SpreadSummary& want) {
+  ASSERT_EQ(got.regions.size(), want.regions.size());
+  for (size_t a = 0; a < want.regions.size(); ++a) {
+    const RegionSpread &x = got.regions[a], &y = want.regions[a];
+    EXPECT_TRUE(x.median == y.median || (std::isnan(x.median) && std::isnan(y.median))) << a;
+    EXPECT_TRUE(x.max == y.max || (std::isnan(x.max) && std::isnan(y.max))) << a;
+    EXPECT_EQ(x.worst_partner, y.worst_partner) << "region " << a;
+  }
+  EXPECT_EQ(got.check_percent, want.check_percent);
+  EXPECT_EQ(got.check_partner, want.check_partner);
+  EXPECT_EQ(got.pair_spreads, want.pair_spreads);
+  ASSERT_EQ(got.widest.size(), want.widest.size());
+  for (size_t i = 0; i < want.widest.size(); ++i) {
+    const SpreadPairIndices &x = got.widest[i], &y = want.widest[i];
+    EXPECT_EQ(x.a, y.a);
+    EXPECT_EQ(x.b, y.b);
+    EXPECT_EQ(x.spread, y.spread);
+    EXPECT_EQ(x.laspeyres, y.laspeyres);
+    EXPECT_EQ(x.paasche, y.paasche);
+    EXPECT_EQ(x.fisher, y.fisher);
+    EXPECT_EQ(x.tornqvist, y.tornqvist);
+    EXPECT_EQ(x.num_matched, y.num_matched);
+  }
+}
+
+// GEKS-Fisher and the spreads from the same row-block products give the
+// bits of GeksByRowBlocks and of AllPairsSpreads apart (each tested against
+// the full matrices above), with a region that spends nothing (no spread
+// with anyone), for any block size and thread count, with and without the
+// pairs kept.
+TEST(GeksByRowBlocks, SpreadsEqualAllPairsSpreads) {
+  const int num_regions = 163;  // 40 blocks of 4 and 3 rows left
+  Eigen::MatrixXd price, expenditure;
+  MakeIncompleteData(num_regions, 23, 20261205, &price, &expenditure);
+  // Every pair shares a heading (else GEKS leaves the closed form).
+  price(0, 0) = 2.0, price(1, 0) = 3.0, expenditure(0, 0) = 10.0, expenditure(1, 0) = 20.0;
+  expenditure.row(7).setZero();
+  for (bool keep_pairs : {true, false}) {
+    SpreadOptions spread_options;
+    spread_options.keep_pair_spreads = keep_pairs;
+    spread_options.num_widest = keep_pairs ? 12 : 0;
+    const SpreadSummary want = AllPairsSpreads(price, expenditure, spread_options);
+    ASSERT_TRUE(std::isnan(want.regions[7].median));
+    ASSERT_EQ(want.widest.size(), keep_pairs ? 12u : 0u);
+    for (int block_rows : {4, 12, 128, 512}) {
+      for (int threads : {1, 2}) {
+        SCOPED_TRACE("block_rows " + std::to_string(block_rows) + ", threads " +
+                     std::to_string(threads) + (keep_pairs ? ", pairs kept" : ""));
+        GeksBlockOptions options;
+        options.block_rows = block_rows;
+        options.num_threads = threads;
+        GeksResult geks, geks_alone;
+        SpreadSummary spreads;
+        ASSERT_TRUE(GeksFisherAndSpreadsByRowBlocks(price, expenditure, options, spread_options,
+                                                    &geks, &spreads));
+        ASSERT_TRUE(GeksByRowBlocks(GeksIndex::kFisher, price, expenditure, options, &geks_alone));
+        AggregateParities alone;
+        alone.log_parity = geks_alone.log_parity;
+        alone.identified = geks_alone.identified;
+        alone.complete = geks_alone.complete;
+        alone.groups = geks_alone.groups;
+        alone.rms_log_residual = geks_alone.rms_log_residual;
+        ExpectSameBits(geks, alone);
+        ExpectSameSpreads(spreads, want);
+      }
+    }
+  }
+  // A pair without an index: false, both untouched.
+  Eigen::MatrixXd unlinked_price, unlinked_expenditure;
+  MakeIncompleteData(41, 9, 20261204, &unlinked_price, &unlinked_expenditure);
+  GeksResult geks;
+  geks.rms_log_residual = -1.0;
+  SpreadSummary spreads;
+  spreads.check_percent = {-1.0};
+  EXPECT_FALSE(GeksFisherAndSpreadsByRowBlocks(unlinked_price, unlinked_expenditure,
+                                               GeksBlockOptions(), SpreadOptions(), &geks,
+                                               &spreads));
+  EXPECT_EQ(geks.rms_log_residual, -1.0);
+  EXPECT_EQ(spreads.check_percent, std::vector<double>{-1.0});
+}
+
+// The node-level call the compute stage makes for the root: from 400
+// regions on, the geks-fisher method's parities (with the heading counts)
+// and the spreads apart, bit for bit; below, false.
+TEST(GeksFisherWithSpreads, EqualsTheMethodAndTheSpreadsApart) {
+  NodeArrays arrays;
+  MakeIncompleteData(401, 6, 20261206, &arrays.price, &arrays.expenditure);
+  arrays.price.col(0).setConstant(1.5);  // every pair shares heading 0
+  arrays.expenditure.col(0).setConstant(4.0);
+  const AggregationMethod& method = *FindAggregationMethod("geks-fisher");
+  const AggregateParities want =
+      AggregateFromBilaterals(arrays, NodeBilaterals(arrays, method.BilateralsNeeded()), method);
+  SpreadOptions spread_options;
+  spread_options.num_threads = 2;
+  const SpreadSummary want_spreads = AllPairsSpreads(arrays.price, arrays.expenditure, spread_options);
+  AggregateParities got;
+  SpreadSummary spreads;
+  ASSERT_TRUE(GeksFisherWithSpreads(arrays, spread_options, &got, &spreads));
+  GeksResult got_geks;
+  got_geks.log_parity = got.log_parity;
+  got_geks.identified = got.identified;
+  got_geks.complete = got.complete;
+  got_geks.groups = got.groups;
+  got_geks.rms_log_residual = got.rms_log_residual;
+  ExpectSameBits(got_geks, want);
+  EXPECT_EQ(got.num_headings, want.num_headings);
+  ExpectSameSpreads(spreads, want_spreads);
+  NodeArrays small;
+  small.price = arrays.price.topRows(399);
+  small.expenditure = arrays.expenditure.topRows(399);
+  EXPECT_FALSE(GeksFisherWithSpreads(small, spread_options, &got, &spreads));
+}
+
 // Regions 0 and 1 of MakeIncompleteData share no heading: the closed form
 // does not apply, the blocks say so, and GeksFisher (GeksTornqvist) solves
 // the graph over the matrix it then forms.

@@ -41,6 +41,15 @@ AggregateParities GeksOverIndex(const Eigen::MatrixXd& index);
 AggregateParities GeksFisher(const NodeArrays& arrays, const BilateralMatrices& bilaterals);
 AggregateParities GeksTornqvist(const NodeArrays& arrays, const BilateralMatrices& bilaterals);
 
+// AggregateFromBilaterals(arrays, {}, the geks-fisher method) together with
+// the node's spread summary AllPairsSpreads(arrays.price,
+// arrays.expenditure, spread_options), both from the same row-block
+// products (GeksFisherAndSpreadsByRowBlocks), when GeksFisher runs by row
+// blocks (from 400 regions on, every pair with an index); the same bits as
+// the two apart. Returns false, leaving both untouched, otherwise.
+bool GeksFisherWithSpreads(const NodeArrays& arrays, const SpreadOptions& spread_options,
+                           AggregateParities* aggregate, SpreadSummary* spreads);
+
 // Returns each region's expenditure share of each heading, s_rh = e_rh /
 // sum_h' e_rh' over the headings the region has (finite parity > 0 and
 // expenditure > 0); NaN elsewhere. Rows of shares sum to 1.
