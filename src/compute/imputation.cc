@@ -119,7 +119,12 @@ void FillFromProxies(const ImputationInput& input, int h, ProxyLevels* levels, P
       highest = std::max(highest, k);
       filled = true;
     }
-    if (!filled) result->left_missing[h].push_back(r);
+    if (!filled) {
+      // Every level was tried and had no value for r (an aggregate may keep
+      // only its largest linked group): the last one counts as consulted.
+      result->left_missing[h].push_back(r);
+      highest = std::max(highest, num_levels - 1);
+    }
   }
   if (highest >= 0) result->highest_proxy_node[h] = levels->node[highest];
 }

@@ -143,14 +143,19 @@ void ExpansionOfCells(const Classification& classification, const Eigen::MatrixX
   }
   // Degrees of freedom of region r's variance in heading h: m - 1 for the
   // m items it priced (its parity and the spread of its replicates rest on
-  // them; at most the heading's n), none (0) for one item, infinite for a
-  // heading drawn from a normal.
+  // them; at most the heading's n - 1); 1 for one item (as for two: its
+  // standard error rests on no spread of its own, so the widest expansion);
+  // the heading's n - 1 for a parity a rule filled (m = 0: the linking rests
+  // on the heading's items); none (0) for a heading of one item; infinite
+  // for a heading drawn from a normal.
   auto heading_df = [&](int h, int r) {
     if (!heading_external.empty() && heading_external[h]) {
       return std::numeric_limits<double>::infinity();
     }
-    const int m = std::min(heading_num_items[h], region_num_items(r, h));
-    return m >= 2 ? m - 1.0 : 0.0;
+    const int n_h = heading_num_items[h], m = region_num_items(r, h);
+    if (n_h < 2) return 0.0;
+    if (m == 0) return n_h - 1.0;
+    return std::max(1.0, std::min(m, n_h) - 1.0);
   };
   for (int n = 0; n < num_nodes; ++n) {
     for (int r = 0; r < num_regions; ++r) {

@@ -76,13 +76,15 @@ RuleLinks MakeRuleLinks(const Chain& chain) {
   return links;
 }
 
-// True when heading g's filled parities may move when heading h's parities
-// do (g's own priced parities staying as they are): g fills like:h, or from
-// an aggregate that holds h (the highest one a fill of g used holds every
-// lower one). A fill from the external file, or from an aggregate without h,
-// is linked over g's own parities and stays.
+// True when heading g's fills may move when heading h's parities do (g's
+// own priced parities staying as they are): g has a region to fill and
+// fills it like:h, or from an aggregate that holds h (the highest one its
+// rule consulted holds every lower one; dropping an item can change which
+// linked group an aggregate keeps, so a region left unfilled counts too).
+// A fill from the external file, or from aggregates without h, is linked
+// over g's own parities and stays.
 bool FillRestsOn(const FullSample& full, const RuleLinks& links, int g, int h) {
-  if (g >= static_cast<int>(full.heading_filled.size()) || !full.heading_filled[g]) return false;
+  if (g >= static_cast<int>(full.heading_to_fill.size()) || !full.heading_to_fill[g]) return false;
   if (links.like_heading[g] == h) return true;
   const int node = full.highest_proxy_node[g];
   if (node < 0) return false;
@@ -126,12 +128,15 @@ UnitChange TakeChanges(const FullSample& full, const std::vector<int>& always, b
 
 // Heading h's parities from the quotes without one item (`priced`) go
 // through the missing_parities rules again when a rule may fill a parity and
-// either some parity was filled in the full sample or a region lost its
-// parity: a filled parity is linked over the regions the heading prices, and
-// may rest on h's parities (rule like:<h>, or h inside the parent's aggregate).
+// either some heading had a region to fill in the full sample or a region
+// lost its parity: a filled parity is linked over the regions the heading
+// prices, and may rest on h's parities (rule like:<h>, or h inside the
+// parent's aggregate).
 bool NeedsCompletion(const FullSample& full, const RuleLinks& links, int h, const Eigen::VectorXd& priced) {
   if (!links.may_fill) return false;
-  if (full.num_imputed > 0) return true;
+  for (uint8_t to_fill : full.heading_to_fill) {
+    if (to_fill) return true;
+  }
   for (Eigen::Index r = 0; r < priced.size(); ++r) {
     if (std::isfinite(full.priced_log_parity(r, h)) && !std::isfinite(priced[r])) return true;
   }

@@ -192,8 +192,10 @@ bool RunFullSample(const Survey& survey, const ComputeOptions& compute,
                          &full->node_log_parity, nullptr, &full->priced_log_parity, &imputation)
           .num_imputed;
   full->highest_proxy_node = imputation.highest_proxy_node;
-  for (const std::vector<int>& regions : imputation.imputed) {
-    full->heading_filled.push_back(regions.empty() ? 0 : 1);
+  for (size_t h = 0; h < imputation.imputed.size(); ++h) {
+    const bool rule_fills = h < full->chain.rules.size() && full->chain.rules[h].rule != ImputationRule::kLeave;
+    const bool to_fill = !imputation.imputed[h].empty() || !imputation.left_missing[h].empty();
+    full->heading_to_fill.push_back(rule_fills && to_fill ? 1 : 0);
   }
   full->num_threads = internal::ThreadsFor(options.num_threads);
   for (int h = 0; h < full->chain.num_headings; ++h) {

@@ -67,10 +67,11 @@ struct FullSample {
   // (CompleteHeadings) were applied: what the quotes alone give.
   Eigen::MatrixXd priced_log_parity;  // regions x headings
   // Heading parities the missing_parities rules filled in the full sample,
-  // and per heading whether it has one and the highest node whose aggregate
-  // supplied one (ImputationResult::highest_proxy_node).
+  // and per heading whether it has a region to fill (filled or left
+  // missing) and the highest node whose aggregate its rule consulted
+  // (ImputationResult::highest_proxy_node).
   int num_imputed = 0;
-  std::vector<uint8_t> heading_filled;
+  std::vector<uint8_t> heading_to_fill;
   std::vector<int> highest_proxy_node;
   Eigen::MatrixXd node_log_parity;     // nodes x regions
   int num_threads = 1;                 // worker threads over replicates

@@ -21,6 +21,7 @@
 #include "paritas/survey/config.h"
 #include "paritas/survey/survey_loader.h"
 #include "synthetic_survey.h"
+#include "uncertainty/sensitivity_parts.h"
 #include "test_util.h"
 
 namespace paritas {
@@ -398,7 +399,75 @@ TEST(LeaveOneOut, LargestChangeIsTheLargestOverItemsDroppedOneByOne) {
 // its only item of a heading. The stratified delete-one jackknife variance
 // is sum over headings of (m - 1)/m sum_i (d_i - mean d)^2 (Efron and
 // Tibshirani 1993, eq. 11.5, within each heading), computed here from the
-// runs without each item.
+// runs without each item; a heading counts for a node that holds it or that
+// one of its items moved, and the error is NaN where no such heading has
+// two changes.
+void ExpectLeaveOneOutEqualsRunsWithoutEachItem(const Survey& survey, const ComputeOptions& compute,
+                                                int* compared, int* parities_lost) {
+  SensitivityResult result;
+  SensitivitySummary summary;
+  ASSERT_TRUE(RunSensitivity(survey, compute, OnlyParts(false, true, false, false), &result, &summary))
+      << summary.message;
+  std::vector<double> weight(survey.num_items(), 1.0);
+  Eigen::MatrixXd base, without;
+  std::string error;
+  ASSERT_TRUE(ReplicateParities(survey, compute, weight, &base, nullptr, &error)) << error;
+  const Eigen::Index num_nodes = base.rows(), num_regions = base.cols();
+  std::vector<int> item_num_cells(survey.num_items(), 0);
+  for (int32_t i : survey.cells.item) ++item_num_cells[i];
+  const double nan = std::numeric_limits<double>::quiet_NaN();
+  Eigen::MatrixXd largest = Eigen::MatrixXd::Constant(num_nodes, num_regions, nan);
+  Eigen::MatrixXd variance = Eigen::MatrixXd::Constant(num_nodes, num_regions, nan);
+  const auto& nodes = survey.classification.nodes();
+  for (int h = 0; h < survey.num_headings(); ++h) {
+    Eigen::MatrixXd sum = Eigen::MatrixXd::Zero(num_nodes, num_regions), sum_sq = sum;
+    Eigen::MatrixXi count = Eigen::MatrixXi::Zero(num_nodes, num_regions);
+    std::vector<uint8_t> counts_for(num_nodes, 0);
+    for (Eigen::Index n = 0; n < num_nodes; ++n) {
+      counts_for[n] = std::count(nodes[n].headings.begin(), nodes[n].headings.end(), h) > 0;
+    }
+    for (int i = survey.heading_range[h].item_begin; i < survey.heading_range[h].item_end; ++i) {
+      if (item_num_cells[i] == 0) continue;
+      weight[i] = 0.0;
+      ASSERT_TRUE(ReplicateParities(survey, compute, weight, &without, nullptr, &error)) << error;
+      weight[i] = 1.0;
+      for (Eigen::Index n = 0; n < num_nodes; ++n) {
+        for (Eigen::Index r = 0; r < num_regions; ++r) {
+          if (!std::isfinite(base(n, r))) continue;
+          const double d = without(n, r) - base(n, r);
+          if (!std::isfinite(d)) {
+            ++*parities_lost;
+            continue;
+          }
+          if (std::isnan(largest(n, r)) || std::abs(d) > std::abs(largest(n, r))) largest(n, r) = d;
+          sum(n, r) += d;
+          sum_sq(n, r) += d * d;
+          ++count(n, r);
+          counts_for[n] = counts_for[n] || d != 0.0;
+        }
+      }
+    }
+    for (Eigen::Index n = 0; n < num_nodes; ++n) {
+      for (Eigen::Index r = 0; r < num_regions; ++r) {
+        const int m = count(n, r);
+        if (m < 2 || !counts_for[n]) continue;
+        if (std::isnan(variance(n, r))) variance(n, r) = 0.0;
+        variance(n, r) += (m - 1.0) / m * std::max(0.0, sum_sq(n, r) - sum(n, r) * sum(n, r) / m);
+      }
+    }
+  }
+  for (Eigen::Index n = 0; n < num_nodes; ++n) {
+    for (Eigen::Index r = 0; r < num_regions; ++r) {
+      if (!std::isfinite(base(n, r))) continue;
+      const std::string where = survey.classification.nodes()[n].code + " region " + std::to_string(r);
+      PARITAS_EXPECT_CLOSE(result.loo_item_log_change(n, r), largest(n, r), 1e-9) << where;
+      PARITAS_EXPECT_CLOSE(result.jackknife_log_se(n, r), std::sqrt(variance(n, r)), 1e-9) << where;
+      ++*compared;
+    }
+  }
+}
+
+// Under each rule, with parities the full sample fills.
 class LeaveOneOutRules : public ::testing::TestWithParam<std::string> {};
 
 TEST_P(LeaveOneOutRules, ChangesAndJackknifeEqualRunsWithoutEachItem) {
@@ -444,60 +513,12 @@ TEST_P(LeaveOneOutRules, ChangesAndJackknifeEqualRunsWithoutEachItem) {
   } else {
     compute.missing_parities.default_rule = GetParam();
   }
-  SensitivityResult result;
-  SensitivitySummary summary;
-  ASSERT_TRUE(RunSensitivity(survey, compute, OnlyParts(false, true, false, false), &result, &summary))
-      << summary.message;
+  int compared = 0, parities_lost = 0;
+  ExpectLeaveOneOutEqualsRunsWithoutEachItem(survey, compute, &compared, &parities_lost);
   std::vector<double> weight(survey.num_items(), 1.0);
   Eigen::MatrixXd base, without;
   std::string error;
   ASSERT_TRUE(ReplicateParities(survey, compute, weight, &base, nullptr, &error)) << error;
-  const Eigen::Index num_nodes = base.rows(), num_regions = base.cols();
-  std::vector<int> item_num_cells(survey.num_items(), 0);
-  for (int32_t i : survey.cells.item) ++item_num_cells[i];
-  Eigen::MatrixXd largest = Eigen::MatrixXd::Constant(num_nodes, num_regions, std::numeric_limits<double>::quiet_NaN());
-  Eigen::MatrixXd variance = Eigen::MatrixXd::Zero(num_nodes, num_regions);
-  int parities_lost = 0;
-  for (int h = 0; h < survey.num_headings(); ++h) {
-    Eigen::MatrixXd sum = Eigen::MatrixXd::Zero(num_nodes, num_regions), sum_sq = sum;
-    Eigen::MatrixXi count = Eigen::MatrixXi::Zero(num_nodes, num_regions);
-    for (int i = survey.heading_range[h].item_begin; i < survey.heading_range[h].item_end; ++i) {
-      if (item_num_cells[i] == 0) continue;
-      weight[i] = 0.0;
-      ASSERT_TRUE(ReplicateParities(survey, compute, weight, &without, nullptr, &error)) << error;
-      weight[i] = 1.0;
-      for (Eigen::Index n = 0; n < num_nodes; ++n) {
-        for (Eigen::Index r = 0; r < num_regions; ++r) {
-          if (!std::isfinite(base(n, r))) continue;
-          const double d = without(n, r) - base(n, r);
-          if (!std::isfinite(d)) {
-            ++parities_lost;
-            continue;
-          }
-          if (std::isnan(largest(n, r)) || std::abs(d) > std::abs(largest(n, r))) largest(n, r) = d;
-          sum(n, r) += d;
-          sum_sq(n, r) += d * d;
-          ++count(n, r);
-        }
-      }
-    }
-    for (Eigen::Index n = 0; n < num_nodes; ++n) {
-      for (Eigen::Index r = 0; r < num_regions; ++r) {
-        const int m = count(n, r);
-        if (m >= 2) variance(n, r) += (m - 1.0) / m * (sum_sq(n, r) - sum(n, r) * sum(n, r) / m);
-      }
-    }
-  }
-  int compared = 0;
-  for (Eigen::Index n = 0; n < num_nodes; ++n) {
-    for (Eigen::Index r = 0; r < num_regions; ++r) {
-      if (!std::isfinite(base(n, r))) continue;
-      PARITAS_EXPECT_CLOSE(result.loo_item_log_change(n, r), largest(n, r), 1e-9) << n << " " << r;
-      PARITAS_EXPECT_CLOSE(result.jackknife_log_se(n, r), std::sqrt(std::max(0.0, variance(n, r))), 1e-9)
-          << n << " " << r;
-      ++compared;
-    }
-  }
   EXPECT_GT(compared, 0);
   // The survey must put the rule to work: with `leave` some heading parity
   // is lost when an item goes, with `parent` the rule fills it instead.
@@ -523,6 +544,51 @@ TEST_P(LeaveOneOutRules, ChangesAndJackknifeEqualRunsWithoutEachItem) {
 }
 
 INSTANTIATE_TEST_SUITE_P(Rules, LeaveOneOutRules, ::testing::Values("leave", "parent", "like"));
+
+TEST(LeaveOneOut, ARegionTheParentRuleCouldNotFillGetsAFillWhenAnItemSplitsTheAggregate) {
+  // One group of three headings A, B, C with two items each. Region 3
+  // spends on A but prices none of it (rule parent). The aggregate of B and
+  // C, A's proxy, splits into {0, 1, 2, 6} and {3, 4, 5} (B's items price
+  // regions 3-5, C's first 0-2 and 6, its second 0 and 1) and keeps the
+  // larger, so region 3 gets no fill. Without C's first item the larger
+  // group is {3, 4, 5} and region 3 is filled: leave-one-out must redo A's
+  // fill as the run without the item does.
+  synthetic::SyntheticOptions options = SmallOptions(3);
+  options.num_regions = 7;
+  options.num_headings = 3;
+  options.num_groups = 1;
+  options.items_per_heading = 2;
+  options.coverage = 1.0;
+  const synthetic::SyntheticSurvey truth = synthetic::Generate(options);
+  synthetic::SyntheticSurvey cut = truth;
+  cut.quote_region.clear(), cut.quote_item.clear(), cut.quote_price.clear();
+  cut.quote_representative.clear();
+  const std::vector<std::set<int>> item_regions = {{0, 1, 2, 4, 5, 6}, {0, 1, 2, 4, 5, 6}, {3, 4, 5},
+                                                   {3, 4, 5},          {0, 1, 2, 6},       {0, 1}};
+  for (size_t q = 0; q < truth.quote_region.size(); ++q) {
+    const int r = truth.quote_region[q], i = truth.quote_item[q];
+    if (!item_regions[i].count(r)) continue;
+    cut.quote_region.push_back(r);
+    cut.quote_item.push_back(i);
+    cut.quote_price.push_back(truth.quote_price[q]);
+    cut.quote_representative.push_back(truth.quote_representative[q]);
+  }
+  const Survey survey = LoadFolder(WriteSynthetic(cut, "loo-proxy-switch"));
+  ComputeOptions compute;
+  compute.missing_parities.headings = {{truth.headings[0], "parent"}};
+  std::vector<double> weight(survey.num_items(), 1.0);
+  Eigen::MatrixXd base, without;
+  std::string error;
+  ASSERT_TRUE(ReplicateParities(survey, compute, weight, &base, nullptr, &error)) << error;
+  weight[survey.items.Find(truth.items[4])] = 0.0;
+  ASSERT_TRUE(ReplicateParities(survey, compute, weight, &without, nullptr, &error)) << error;
+  const int leaf_a = survey.classification.FindNode(truth.headings[0]);
+  ASSERT_FALSE(std::isfinite(base(leaf_a, 3)));  // the premise: no fill in the full sample
+  ASSERT_TRUE(std::isfinite(without(leaf_a, 3)));  // and one without the item
+  int compared = 0, parities_lost = 0;
+  ExpectLeaveOneOutEqualsRunsWithoutEachItem(survey, compute, &compared, &parities_lost);
+  EXPECT_GT(compared, 0);
+}
 
 TEST(LeaveOneOut, JackknifeOfACompleteHeadingIsTheStandardErrorOfAMean) {
   // On a complete table CPD gives a_r = mean_i (y_ri - mean_s y_si), a mean
@@ -749,6 +815,50 @@ TEST(Bootstrap, ExpandedIntervalUsesTheRegionsItemsAndSatterthwaiteDegreesOfFree
   // Wider than the percentile interval of the same replicates.
   EXPECT_LT(plain.boot_lower(leaf, 0), percentile.boot_lower(leaf, 0));
   EXPECT_GT(plain.boot_upper(leaf, 0), percentile.boot_upper(leaf, 0));
+}
+
+// nu and k of the expansion from the items a region priced (written out
+// here): m - 1 for m >= 2 items, 1 for a single item (as for two: its
+// standard error rests on no spread of its own), the heading's n - 1 for a
+// parity a rule filled (m = 0); under the plain bootstrap k = sqrt(c) with
+// c = (nu + 1) / nu; an aggregate takes the Satterthwaite nu of its
+// headings with those nu_h and c_h.
+TEST(Bootstrap, ExpansionOfOneItemIsTheWidestAndOfAFilledParityTheHeadings) {
+  const Survey survey = LoadSynthetic(SmallOptions(5), "expansion-m");
+  const auto& nodes = survey.classification.nodes();
+  const int num_nodes = static_cast<int>(nodes.size());
+  const int num_regions = survey.num_regions(), num_headings = survey.num_headings();
+  const std::vector<int> heading_num_items(num_headings, 6);
+  Eigen::MatrixXi priced = Eigen::MatrixXi::Constant(num_regions, num_headings, 6);
+  priced(0, 0) = 1;
+  priced(0, 1) = 0;
+  priced(0, 2) = 3;
+  Eigen::MatrixXd log_se = Eigen::MatrixXd::Constant(num_nodes, num_regions, 0.02);
+  std::vector<int> leaf(num_headings);
+  for (int h = 0; h < num_headings; ++h) leaf[h] = survey.classification.FindNode(survey.heading_codes[h]);
+  log_se(leaf[1], 0) = 0.05;
+  Eigen::MatrixXd df, scale;
+  internal::ExpansionOfCells(survey.classification, survey.expenditure, heading_num_items, priced, {},
+                             BootstrapKind::kPlain, log_se, &df, &scale);
+  const double expected_nu[] = {1.0, 5.0, 2.0, 5.0};
+  for (int h = 0; h < num_headings; ++h) {
+    EXPECT_EQ(df(leaf[h], 0), expected_nu[h]) << h;
+    EXPECT_DOUBLE_EQ(scale(leaf[h], 0), std::sqrt((expected_nu[h] + 1) / expected_nu[h])) << h;
+  }
+  const int group = nodes[leaf[0]].parent;
+  ASSERT_EQ(nodes[leaf[1]].parent, group);
+  ASSERT_EQ(nodes[group].headings.size(), 2u);
+  const double total = survey.expenditure(0, 0) + survey.expenditure(0, 1);
+  double sum = 0.0, raw = 0.0, denominator = 0.0;
+  for (int h = 0; h < 2; ++h) {
+    const double w = survey.expenditure(0, h) / total, v = log_se(leaf[h], 0) * log_se(leaf[h], 0);
+    const double c = (expected_nu[h] + 1) / expected_nu[h];
+    sum += w * w * c * v;
+    raw += w * w * v;
+    denominator += (w * w * c * v) * (w * w * c * v) / expected_nu[h];
+  }
+  PARITAS_EXPECT_CLOSE(df(group, 0), sum * sum / denominator, 1e-12);
+  PARITAS_EXPECT_CLOSE(scale(group, 0), std::sqrt(sum / raw), 1e-12);
 }
 
 TEST(BootstrapKind, NamesReadBackCaseInsensitively) {

@@ -96,9 +96,11 @@ struct ImputationResult {
   // Per heading, the regions imputed.
   std::vector<std::vector<int>> imputed;
   // Per heading, the highest ancestor (classification node) whose aggregate
-  // without the heading supplied a filled parity under rule parent; -1 when
-  // no fill rests on an aggregate. A fill then depends on the parities of
-  // that node's other headings (and of the heading itself, by the linking).
+  // without the heading was consulted under rule parent: the one that
+  // supplied a filled parity, or, for a region left unfilled, the last one
+  // tried; -1 when no aggregate was consulted. The heading's fills (and
+  // which regions get one) depend on the parities of that node's other
+  // headings and of the heading itself (by the linking).
   std::vector<int> highest_proxy_node;
   // Entries imputed in all (imputed or external by rule).
   int num_imputed = 0;

@@ -72,11 +72,12 @@ struct SensitivityOptions {
   // Which interval the bootstrap reports (default expanded; see
   // IntervalKind). Expanded: percentiles at p = Phi(-k t_(nu, (1 + level) /
   // 2)) and 1 - p (Hesterberg 2015), with nu the degrees of freedom of the
-  // parity's standard error: m - 1 for a region that priced m of a
-  // heading's items (none for an external heading or one item), the
+  // parity's standard error: m - 1 for a region that priced m >= 2 of a
+  // heading's items, 1 for one item, the heading's n_h - 1 for a parity a
+  // rule filled (none for an external heading or a heading of one item), the
   // Welch-Satterthwaite nu of its headings for an aggregate or group
   // (SensitivityResult::boot_interval_df); k = 1 for the rescaled bootstrap,
-  // sqrt(m / (m - 1)) for the plain one (SensitivityResult::boot_interval_scale). Percentile: (1 - level) / 2
+  // sqrt((nu + 1) / nu) for the plain one (SensitivityResult::boot_interval_scale). Percentile: (1 - level) / 2
   // and (1 + level) / 2. Rank intervals stay at the percentile levels.
   IntervalKind interval = IntervalKind::kExpanded;
   // Shares of each heading's items kept in the coverage curve, each in
@@ -187,20 +188,23 @@ struct SensitivityResult {
   // SensitivityOptions::interval); boot_lower and boot_upper are the type-7
   // percentiles at ExpandedLowerLevel(level, nu, k) and 1 minus it. nu is NaN
   // where there is no t expansion (percentile interval, external heading,
-  // one item, nu >= kIntervalDfCap); k is 1 unless the plain bootstrap's
-  // variance is corrected. For a heading h and a region r that priced
-  // m_rh >= 2 of its items (m = min(m_rh, n_h), not external): nu = m - 1,
-  // k = sqrt(m / (m - 1)) under the plain bootstrap; the region's parity and
-  // the spread of its replicates rest on its own m items, so the standard
-  // error has about m - 1 degrees of freedom (n_h - 1 when it priced all).
+  // a heading of one item, nu >= kIntervalDfCap); k is 1 unless the plain
+  // bootstrap's variance is corrected. For a heading h and a region r that
+  // priced m_rh >= 2 of its items (m = min(m_rh, n_h), not external):
+  // nu = m - 1; the region's parity and the spread of its replicates rest on
+  // its own m items, so the standard error has about m - 1 degrees of
+  // freedom (n_h - 1 when it priced all). One item: nu = 1 (as for two, the
+  // widest expansion: its standard error rests on no spread of its own); a
+  // parity a rule filled (m_rh = 0): nu = n_h - 1. k = sqrt((nu + 1) / nu)
+  // under the plain bootstrap.
   // For an aggregate or group and region r, with w_h r's expenditure share
   // of heading h within the node, v_h the bootstrap variance of h's ln
-  // parity for r (boot_log_se^2 of h's leaf), nu_h = m - 1 as above and
-  // c_h = m / (m - 1) under the plain bootstrap (else 1):
+  // parity for r (boot_log_se^2 of h's leaf), nu_h as above and
+  // c_h = (nu_h + 1) / nu_h under the plain bootstrap (else 1):
   //   nu = (sum_h w_h^2 c_h v_h)^2 / sum_h (w_h^2 c_h v_h)^2 / nu_h
   // (Satterthwaite 1946; SatterthwaiteDf), headings drawn from a normal
   // (external with log_se) counting with infinite df, headings with v_h = 0
-  // or m = 1 adding nothing; k = sqrt(sum_h w_h^2 c_h v_h / sum_h w_h^2 v_h).
+  // adding nothing; k = sqrt(sum_h w_h^2 c_h v_h / sum_h w_h^2 v_h).
   Eigen::MatrixXd boot_interval_df;
   Eigen::MatrixXd boot_interval_scale;
   // Every replicate's ln parity (normalised like the full sample; NaN where
