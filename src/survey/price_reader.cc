@@ -66,6 +66,91 @@ struct ConflictCount {
   int64_t first_line = 0;
 };
 
+// The codes known before a block, for a lookup in one slot read: the
+// survey's regions (when regions.csv fixed them) and its items that have a
+// heading, each code of 1 to 8 bytes (a longer code, or an item whose
+// heading is longer, is looked up the general way). An item's slot holds
+// its heading too, so a row restating the known heading is settled by the
+// same read. Built by the reader before each block; only read while the
+// chunks are parsed.
+class KnownCodes {
+ public:
+  struct Slot {
+    uint64_t word = 0;          // the code as ShortWord gives it
+    uint64_t heading_word = 0;  // items: the heading's code, the same way
+    int32_t index = -1;         // the survey's index; -1: empty slot
+    uint8_t size = 0;           // bytes of the code
+    uint8_t heading_size = 0;   // bytes of the heading's code
+  };
+
+  // Holds the regions of `regions` when `with_regions`, and the items of
+  // `items` whose item_heading is set.
+  void Build(bool with_regions, const CodeTable& regions, const CodeTable& items,
+             const std::vector<int>& item_heading, const CodeTable& headings) {
+    region_slots_.clear();
+    item_slots_.clear();
+    if (with_regions) {
+      Prepare(regions.size(), &region_slots_, &region_shift_);
+      for (int r = 0; r < regions.size(); ++r) Insert(regions.Code(r), r, {}, &region_slots_,
+                                                      region_shift_);
+    }
+    Prepare(items.size(), &item_slots_, &item_shift_);
+    for (int i = 0; i < items.size(); ++i) {
+      if (item_heading[i] < 0) continue;
+      const std::string_view heading = headings.Code(item_heading[i]);
+      if (heading.size() > 8) continue;
+      Insert(items.Code(i), i, heading, &item_slots_, item_shift_);
+    }
+  }
+
+  // The slot of region or item `code` (1 to 8 bytes, trimmed), or nullptr.
+  const Slot* FindRegion(std::string_view code) const {
+    return Find(code, region_slots_, region_shift_);
+  }
+  const Slot* FindItem(std::string_view code) const {
+    return Find(code, item_slots_, item_shift_);
+  }
+
+ private:
+  static size_t SlotOf(uint64_t word, size_t size, int shift) {
+    return static_cast<size_t>(((word ^ (uint64_t{size} << 59)) * 0x9e3779b97f4a7c15ULL) >>
+                               shift);
+  }
+
+  // At most half full, at least 16 slots.
+  static void Prepare(int num_codes, std::vector<Slot>* slots, int* shift) {
+    int bits = 4;
+    while ((size_t{1} << bits) < 2 * static_cast<size_t>(num_codes)) ++bits;
+    slots->assign(size_t{1} << bits, Slot());
+    *shift = 64 - bits;
+  }
+
+  static void Insert(std::string_view code, int index, std::string_view heading,
+                     std::vector<Slot>* slots, int shift) {
+    if (code.empty() || code.size() > 8) return;
+    const uint64_t word = ShortWord(code.data(), code.size());
+    const size_t mask = slots->size() - 1;
+    size_t at = SlotOf(word, code.size(), shift);
+    while ((*slots)[at].index >= 0) at = (at + 1) & mask;
+    (*slots)[at] = {word, ShortWord(heading.data(), heading.size()), index,
+                    static_cast<uint8_t>(code.size()), static_cast<uint8_t>(heading.size())};
+  }
+
+  static const Slot* Find(std::string_view code, const std::vector<Slot>& slots, int shift) {
+    if (slots.empty() || code.empty() || code.size() > 8) return nullptr;
+    const uint64_t word = ShortWord(code.data(), code.size());
+    const size_t mask = slots.size() - 1;
+    for (size_t at = SlotOf(word, code.size(), shift);; at = (at + 1) & mask) {
+      const Slot& slot = slots[at];
+      if (slot.index < 0) return nullptr;
+      if (slot.word == word && slot.size == code.size()) return &slot;
+    }
+  }
+
+  std::vector<Slot> region_slots_, item_slots_;
+  int region_shift_ = 64, item_shift_ = 64;
+};
+
 struct ChunkResult {
   CodeTable regions;
   CodeTable items;
@@ -78,6 +163,9 @@ struct ChunkResult {
   // Local index -> the survey's, set when the chunk is merged (regions:
   // empty when the chunk holds the survey's indices already).
   std::vector<int> region_map, item_map;
+  // Items in `quotes`: below item_base the survey's index of an item known
+  // before the block (with its heading), else item_base + the local index.
+  int item_base = 0;
 
   // Empties the result, keeping the capacity of its arrays.
   void Reset() {
@@ -179,13 +267,14 @@ std::string ItemOrigin(const LoadState& state, const std::string& path, int64_t 
 class ChunkParser {
  public:
   ChunkParser(std::string_view data, int64_t first_line, const PriceColumns& columns,
-              const std::string& path, const LoadState& state, bool keep_all_rejected,
-              size_t max_rejected, ChunkResult* out)
+              const std::string& path, const LoadState& state, const KnownCodes& known,
+              bool keep_all_rejected, size_t max_rejected, ChunkResult* out)
       : data_(data),
         reader_(data, first_line, /*skip_bom=*/false),
         columns_(columns),
         path_(path),
         state_(state),
+        known_(known),
         keep_all_rejected_(keep_all_rejected),
         max_rejected_(max_rejected),
         out_(out),
@@ -205,6 +294,8 @@ class ChunkParser {
     out->quotes.row_hash.reserve(expected_rows);
     out->quotes.line.reserve(expected_rows);
     local_of_known_.assign(state.items.size(), -1);
+    out->item_base = state.items.size();
+    fast_items_ = !has_quantity_;
   }
 
   void Run() {
@@ -223,28 +314,40 @@ class ChunkParser {
                FieldCountProblem(record_.fields.size(), columns_.num_fields));
         continue;
       }
-      if (!ReadRegion() || !ReadItem()) continue;
-      LocalItem& info = out_->item_info[item_local_];
-      if (info.rejected >= 0) {
-        RejectCascade(columns_.item + 1, info.rejected);
-        continue;
-      }
-      // A heading first stated by this row counts only once the row is used,
-      // so a rejected row never files an item.
-      int new_heading = -1;
-      if ((info.global < 0 || has_heading_) && !ReadHeading(info, &new_heading)) continue;
+      if (!ReadRegion()) continue;
+      // An item known before the block with the row's heading (or none) is
+      // settled by one lookup; the rest take the general way.
+      int item = KnownItem();
       double price = 0.0, weight = 1.0;
       bool representative = false;
-      if (!ReadPrice(&price) || !ReadFlag(&representative) ||
-          !ReadPositive(columns_.weight, "weight", &weight) || !ConvertPrice(&info, &price)) {
-        continue;
-      }
-      if (new_heading >= 0) {
-        info.local_heading = new_heading;
-        out_->item_line[item_local_] = record_.line;
+      if (item >= 0) {
+        if (!ReadPrice(&price) || !ReadFlag(&representative) ||
+            !ReadPositive(columns_.weight, "weight", &weight)) {
+          continue;
+        }
+      } else {
+        if (!ReadItem()) continue;
+        LocalItem& info = out_->item_info[item_local_];
+        if (info.rejected >= 0) {
+          RejectCascade(columns_.item + 1, info.rejected);
+          continue;
+        }
+        // A heading first stated by this row counts only once the row is
+        // used, so a rejected row never files an item.
+        int new_heading = -1;
+        if ((info.global < 0 || has_heading_) && !ReadHeading(info, &new_heading)) continue;
+        if (!ReadPrice(&price) || !ReadFlag(&representative) ||
+            !ReadPositive(columns_.weight, "weight", &weight) || !ConvertPrice(&info, &price)) {
+          continue;
+        }
+        if (new_heading >= 0) {
+          info.local_heading = new_heading;
+          out_->item_line[item_local_] = record_.line;
+        }
+        item = out_->item_base + item_local_;
       }
       out_->quotes.region.push_back(region_local_);
-      out_->quotes.item.push_back(item_local_);
+      out_->quotes.item.push_back(item);
       out_->quotes.log_price.push_back(std::log(price));
       if (has_flag_) out_->quotes.representative.push_back(representative ? 1 : 0);
       if (has_weight_) out_->quotes.weight.push_back(weight);
@@ -299,8 +402,35 @@ class ChunkParser {
            0, RejectionCause::kHeadingConflict);
   }
 
+  // The survey's index of the row's item when it was known before the
+  // block with a heading, and the row's heading is empty or that one (the
+  // general way would accept the item as it stands); else -1.
+  int KnownItem() const {
+    if (!fast_items_) return -1;
+    const std::string_view code = record_.fields[columns_.item];
+    if (code.empty() || IsBlank(code.front()) || IsBlank(code.back())) return -1;
+    const KnownCodes::Slot* slot = known_.FindItem(code);
+    if (slot == nullptr) return -1;
+    if (has_heading_) {
+      const std::string_view heading = record_.fields[columns_.heading];
+      if (!heading.empty() && (heading.size() != slot->heading_size ||
+                               ShortWord(heading.data(), heading.size()) != slot->heading_word)) {
+        return -1;
+      }
+    }
+    return slot->index;
+  }
+
+  static bool IsBlank(char c) { return c == ' ' || c == '\t'; }
+
   bool ReadRegion() {
     const std::string_view region = record_.fields[columns_.region];
+    if (!region.empty() && !IsBlank(region.front()) && !IsBlank(region.back())) {
+      if (const KnownCodes::Slot* slot = known_.FindRegion(region); slot != nullptr) {
+        region_local_ = slot->index;
+        return true;
+      }
+    }
     if (region_cached_ && EqualBytes(region, last_region_)) return true;
     const std::string_view code = Trim(region);
     // With regions.csv every region is known before the first block, and the
@@ -536,6 +666,7 @@ class ChunkParser {
   const PriceColumns& columns_;
   const std::string& path_;
   const LoadState& state_;
+  const KnownCodes& known_;
   const bool keep_all_rejected_;
   const size_t max_rejected_;
   ChunkResult* out_;
@@ -543,6 +674,9 @@ class ChunkParser {
   const bool has_flag_;
   const bool has_weight_;
   const bool has_quantity_;
+  // Whether KnownItem may settle a row (not with a quantity column, whose
+  // conversion notes per item whether it had a reference quantity).
+  bool fast_items_ = false;
   // The last region and item fields read, when they are views into the
   // chunk's text (see Remember), and their indices.
   std::string_view last_region_, last_item_;
@@ -553,9 +687,10 @@ class ChunkParser {
 };
 
 void ParsePriceChunk(std::string_view data, int64_t first_line, const PriceColumns& columns,
-                     const std::string& path, const LoadState& state, bool keep_all_rejected,
-                     size_t max_rejected, ChunkResult* out) {
-  ChunkParser(data, first_line, columns, path, state, keep_all_rejected, max_rejected, out).Run();
+                     const std::string& path, const LoadState& state, const KnownCodes& known,
+                     bool keep_all_rejected, size_t max_rejected, ChunkResult* out) {
+  ChunkParser(data, first_line, columns, path, state, known, keep_all_rejected, max_rejected, out)
+      .Run();
 }
 
 // Chunk start offsets at record boundaries, about kChunkBytes apart.
@@ -729,6 +864,8 @@ class PriceReader {
     for (size_t c = 1; c < lines.size(); ++c) lines[c] += lines[c - 1];
     // Chunk results are kept between blocks so their arrays keep their
     // capacity instead of being allocated (and page-faulted) again.
+    known_.Build(state_->regions_fixed, state_->regions, state_->items, state_->item_heading,
+                 state_->headings);
     std::vector<ChunkResult>& results = results_;
     results.resize(starts.size());
     for (ChunkResult& result : results) result.Reset();
@@ -751,7 +888,7 @@ class PriceReader {
       const int c = task - 2;
       const size_t end = c + 1 < num_chunks ? starts[c + 1] : data.size();
       ParsePriceChunk(data.substr(starts[c], end - starts[c]), lines[c], columns_, path_, *state_,
-                      keep_all, max_rejected, &results[c]);
+                      known_, keep_all, max_rejected, &results[c]);
     }
     if (HasCrossChunkConflict(results)) {
       // Two chunks state different headings for a new item, or a chunk
@@ -759,7 +896,7 @@ class PriceReader {
       // can tell which statement comes first.
       results.resize(1);
       results[0].Reset();
-      ParsePriceChunk(data, first_line, columns_, path_, *state_, keep_all, max_rejected,
+      ParsePriceChunk(data, first_line, columns_, path_, *state_, known_, keep_all, max_rejected,
                       &results[0]);
     }
     // Sized before the first block is merged, so the first block's quotes
@@ -950,7 +1087,11 @@ class PriceReader {
       } else {
         for (size_t q = 0; q < n; ++q) global.region[at + q] = region_map[local.region[q]];
       }
-      for (size_t q = 0; q < n; ++q) global.item[at + q] = item_map[local.item[q]];
+      const int32_t base = results[c].item_base;
+      for (size_t q = 0; q < n; ++q) {
+        const int32_t item = local.item[q];
+        global.item[at + q] = item < base ? item : item_map[item - base];
+      }
       std::copy_n(local.log_price.begin(), n, global.log_price.begin() + at);
       if (!local.representative.empty()) {
         std::copy_n(local.representative.begin(), n, global.representative.begin() + at);
@@ -972,6 +1113,7 @@ class PriceReader {
   InputFileSummary* file_;
   PriceColumns columns_;
   Sha256 digest_;
+  KnownCodes known_;
   std::vector<ChunkResult> results_;
   int64_t bytes_seen_ = 0;
   bool reserved_ = false;
