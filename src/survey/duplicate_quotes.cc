@@ -198,7 +198,8 @@ void HandleDuplicateQuotes(DuplicateQuotePolicy policy, int num_threads, LoadSta
   std::vector<char> keep(n, 1);
   for (size_t q = 0; q < n; ++q) {
     if (repeats[q] == kNone) continue;
-    const int64_t line = quotes.line[q], original = quotes.line[repeats[q]];
+    const int64_t line = state->quote_lines.Of(q);
+    const int64_t original = state->quote_lines.Of(repeats[q]);
     const size_t k = file_of(q), first = file_of(static_cast<size_t>(repeats[q]));
     InputFileSummary* file = files[k];
     const std::string& path = file->path;
@@ -231,7 +232,7 @@ void HandleDuplicateQuotes(DuplicateQuotePolicy policy, int num_threads, LoadSta
   // and keep the 16 bytes per quote allocated (and resident) until the
   // cells are built.
   std::vector<uint64_t>().swap(quotes.row_hash);
-  std::vector<int64_t>().swap(quotes.line);
+  state->quote_lines = QuoteLines();
 }
 
 }  // namespace paritas::internal

@@ -13,6 +13,7 @@
 #include <filesystem>
 #include <functional>
 #include <limits>
+#include <ranges>
 #include <string>
 #include <unordered_map>
 #include <vector>
@@ -158,8 +159,9 @@ struct ChunkResult {
   std::vector<LocalItem> item_info;
   // Per local item, the line of the row that first stated its heading here.
   std::vector<int64_t> item_line;
-  // Quotes used, with chunk-local region and item indices.
+  // Quotes used, with chunk-local region and item indices, and their lines.
   QuoteArrays quotes;
+  QuoteLines lines;
   // Local index -> the survey's, set when the chunk is merged (regions:
   // empty when the chunk holds the survey's indices already).
   std::vector<int> region_map, item_map;
@@ -180,7 +182,7 @@ struct ChunkResult {
     quotes.representative.clear();
     quotes.weight.clear();
     quotes.row_hash.clear();
-    quotes.line.clear();
+    lines.Clear();
     region_map.clear();
     item_map.clear();
     rejected.clear();
@@ -292,7 +294,6 @@ class ChunkParser {
     if (has_flag_) out->quotes.representative.reserve(expected_rows);
     if (has_weight_) out->quotes.weight.reserve(expected_rows);
     out->quotes.row_hash.reserve(expected_rows);
-    out->quotes.line.reserve(expected_rows);
     local_of_known_.assign(state.items.size(), -1);
     out->item_base = state.items.size();
     fast_items_ = !has_quantity_;
@@ -352,7 +353,7 @@ class ChunkParser {
       if (has_flag_) out_->quotes.representative.push_back(representative ? 1 : 0);
       if (has_weight_) out_->quotes.weight.push_back(weight);
       out_->quotes.row_hash.push_back(HashFields(record_, columns_));
-      out_->quotes.line.push_back(record_.line);
+      out_->lines.Add(out_->quotes.row_hash.size() - 1, record_.line);
       ++out_->rows_used;
     }
     if (!reader_.error().empty()) out_->fatal = path_ + ":" + reader_.error();
@@ -946,14 +947,12 @@ class PriceReader {
     if (columns_.representative >= 0) quotes.representative.reserve(total);
     if (columns_.weight >= 0) quotes.weight.reserve(total);
     quotes.row_hash.reserve(total);
-    quotes.line.reserve(total);
     AdviseHugePages(quotes.region);
     AdviseHugePages(quotes.item);
     AdviseHugePages(quotes.log_price);
     AdviseHugePages(quotes.representative);
     AdviseHugePages(quotes.weight);
     AdviseHugePages(quotes.row_hash);
-    AdviseHugePages(quotes.line);
   }
 
   // Adds a chunk's rows for one item and heading to the item's conflict.
@@ -1056,50 +1055,72 @@ class PriceReader {
       has_flag = has_flag || !results[c].quotes.representative.empty();
       has_weight = has_weight || !results[c].quotes.weight.empty();
     }
-    const size_t total = offset[num_chunks];
-    if (total == before) return;
+    if (offset[num_chunks] == before) return;
     // An array stays empty until a file has its column; the quotes of the
     // other files are not representative (0) and weigh 1.
     if (has_flag && global.representative.empty()) global.representative.assign(before, 0);
     if (has_weight && global.weight.empty()) global.weight.assign(before, 1.0);
+    for (size_t c = 0; c < num_chunks; ++c) state_->quote_lines.Append(results[c].lines, offset[c]);
     const int num_threads = NumThreads(static_cast<int>(num_chunks));
-    // Each array is grown by one thread (growing fills it).
+    // Each array is appended to by one thread, chunk after chunk, each
+    // element written once (the capacity is reserved: no filling first).
 #pragma omp parallel for schedule(dynamic, 1) num_threads(num_threads)
-    for (int a = 0; a < 7; ++a) {
-      switch (a) {
-        case 0: global.region.resize(total); break;
-        case 1: global.item.resize(total); break;
-        case 2: global.log_price.resize(total); break;
-        case 3: global.row_hash.resize(total); break;
-        case 4: global.line.resize(total); break;
-        case 5: if (has_flag) global.representative.resize(total, 0); break;
-        default: if (has_weight) global.weight.resize(total, 1.0); break;
+    for (int a = 0; a < 6; ++a) {
+      for (size_t c = 0; c < num_chunks; ++c) {
+        const QuoteArrays& local = results[c].quotes;
+        const size_t n = local.size();
+        switch (a) {
+          case 0: AppendRegions(results[c], &global.region); break;
+          case 1: AppendItems(results[c], &global.item); break;
+          case 2: Append(local.log_price, &global.log_price); break;
+          case 3: Append(local.row_hash, &global.row_hash); break;
+          case 4:
+            if (!has_flag) break;
+            if (local.representative.empty()) {
+              global.representative.insert(global.representative.end(), n, 0);
+            } else {
+              Append(local.representative, &global.representative);
+            }
+            break;
+          default:
+            if (!has_weight) break;
+            if (local.weight.empty()) {
+              global.weight.insert(global.weight.end(), n, 1.0);
+            } else {
+              Append(local.weight, &global.weight);
+            }
+            break;
+        }
       }
     }
-#pragma omp parallel for schedule(dynamic, 1) num_threads(num_threads)
-    for (size_t c = 0; c < num_chunks; ++c) {
-      const QuoteArrays& local = results[c].quotes;
-      const size_t at = offset[c], n = local.size();
-      const std::vector<int>& region_map = results[c].region_map;
-      const std::vector<int>& item_map = results[c].item_map;
-      if (region_map.empty()) {
-        std::copy_n(local.region.begin(), n, global.region.begin() + at);
-      } else {
-        for (size_t q = 0; q < n; ++q) global.region[at + q] = region_map[local.region[q]];
-      }
-      const int32_t base = results[c].item_base;
-      for (size_t q = 0; q < n; ++q) {
-        const int32_t item = local.item[q];
-        global.item[at + q] = item < base ? item : item_map[item - base];
-      }
-      std::copy_n(local.log_price.begin(), n, global.log_price.begin() + at);
-      if (!local.representative.empty()) {
-        std::copy_n(local.representative.begin(), n, global.representative.begin() + at);
-      }
-      if (!local.weight.empty()) std::copy_n(local.weight.begin(), n, global.weight.begin() + at);
-      std::copy_n(local.row_hash.begin(), n, global.row_hash.begin() + at);
-      std::copy_n(local.line.begin(), n, global.line.begin() + at);
+  }
+
+  template <typename T>
+  static void Append(const std::vector<T>& from, std::vector<T>* to) {
+    to->insert(to->end(), from.begin(), from.end());
+  }
+
+  // The chunk's regions as the survey's indices.
+  static void AppendRegions(const ChunkResult& result, std::vector<int32_t>* to) {
+    const std::vector<int>& map = result.region_map;
+    if (map.empty()) {
+      Append(result.quotes.region, to);
+      return;
     }
+    const auto mapped = result.quotes.region |
+                        std::views::transform([&map](int32_t r) { return int32_t{map[r]}; });
+    to->insert(to->end(), mapped.begin(), mapped.end());
+  }
+
+  // The chunk's items as the survey's indices (see ChunkResult::item_base).
+  static void AppendItems(const ChunkResult& result, std::vector<int32_t>* to) {
+    const std::vector<int>& map = result.item_map;
+    const int32_t base = result.item_base;
+    const auto mapped =
+        result.quotes.item | std::views::transform([&map, base](int32_t item) {
+          return item < base ? item : int32_t{map[item - base]};
+        });
+    to->insert(to->end(), mapped.begin(), mapped.end());
   }
 
  private:
