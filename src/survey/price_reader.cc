@@ -76,12 +76,13 @@ struct ConflictCount {
 // chunks are parsed.
 class KnownCodes {
  public:
+  // 16 bytes, so that the tables of a survey's codes stay in the cache.
   struct Slot {
     uint64_t word = 0;          // the code as ShortWord gives it
-    uint64_t heading_word = 0;  // items: the heading's code, the same way
     int32_t index = -1;         // the survey's index; -1: empty slot
     uint8_t size = 0;           // bytes of the code
-    uint8_t heading_size = 0;   // bytes of the heading's code
+    uint8_t heading_size = 0;   // items: bytes of the heading's code
+    uint16_t heading = 0;       // items: the heading's index in heading_words()
   };
 
   // Holds the regions of `regions` when `with_regions`, and the items of
@@ -90,19 +91,28 @@ class KnownCodes {
              const std::vector<int>& item_heading, const CodeTable& headings) {
     region_slots_.clear();
     item_slots_.clear();
+    heading_words_.clear();
     if (with_regions) {
       Prepare(regions.size(), &region_slots_, &region_shift_);
-      for (int r = 0; r < regions.size(); ++r) Insert(regions.Code(r), r, {}, &region_slots_,
-                                                      region_shift_);
+      for (int r = 0; r < regions.size(); ++r) {
+        Insert(regions.Code(r), r, {}, 0, &region_slots_, region_shift_);
+      }
+    }
+    const int num_headings = std::min(headings.size(), 1 << 16);
+    for (int h = 0; h < num_headings; ++h) {
+      const std::string_view heading = headings.Code(h);
+      heading_words_.push_back(ShortWord(heading.data(), std::min<size_t>(heading.size(), 8)));
     }
     Prepare(items.size(), &item_slots_, &item_shift_);
     for (int i = 0; i < items.size(); ++i) {
-      if (item_heading[i] < 0) continue;
-      const std::string_view heading = headings.Code(item_heading[i]);
-      if (heading.size() > 8) continue;
-      Insert(items.Code(i), i, heading, &item_slots_, item_shift_);
+      const int h = item_heading[i];
+      if (h < 0 || h >= num_headings || headings.Code(h).size() > 8) continue;
+      Insert(items.Code(i), i, headings.Code(h), h, &item_slots_, item_shift_);
     }
   }
+
+  // The headings' codes (up to their first 8 bytes) as ShortWord gives them.
+  uint64_t HeadingWord(const Slot& slot) const { return heading_words_[slot.heading]; }
 
   // The slot of region or item `code` (1 to 8 bytes, trimmed), or nullptr.
   const Slot* FindRegion(std::string_view code) const {
@@ -126,15 +136,15 @@ class KnownCodes {
     *shift = 64 - bits;
   }
 
-  static void Insert(std::string_view code, int index, std::string_view heading,
+  static void Insert(std::string_view code, int index, std::string_view heading, int heading_index,
                      std::vector<Slot>* slots, int shift) {
     if (code.empty() || code.size() > 8) return;
     const uint64_t word = ShortWord(code.data(), code.size());
     const size_t mask = slots->size() - 1;
     size_t at = SlotOf(word, code.size(), shift);
     while ((*slots)[at].index >= 0) at = (at + 1) & mask;
-    (*slots)[at] = {word, ShortWord(heading.data(), heading.size()), index,
-                    static_cast<uint8_t>(code.size()), static_cast<uint8_t>(heading.size())};
+    (*slots)[at] = {word, index, static_cast<uint8_t>(code.size()),
+                    static_cast<uint8_t>(heading.size()), static_cast<uint16_t>(heading_index)};
   }
 
   static const Slot* Find(std::string_view code, const std::vector<Slot>& slots, int shift) {
@@ -149,6 +159,7 @@ class KnownCodes {
   }
 
   std::vector<Slot> region_slots_, item_slots_;
+  std::vector<uint64_t> heading_words_;
   int region_shift_ = 64, item_shift_ = 64;
 };
 
@@ -415,7 +426,8 @@ class ChunkParser {
     if (has_heading_) {
       const std::string_view heading = record_.fields[columns_.heading];
       if (!heading.empty() && (heading.size() != slot->heading_size ||
-                               ShortWord(heading.data(), heading.size()) != slot->heading_word)) {
+                               ShortWord(heading.data(), heading.size()) !=
+                                   known_.HeadingWord(*slot))) {
         return -1;
       }
     }
