@@ -114,6 +114,13 @@ class KnownCodes {
   // The headings' codes (up to their first 8 bytes) as ShortWord gives them.
   uint64_t HeadingWord(const Slot& slot) const { return heading_words_[slot.heading]; }
 
+  // Starts loading the slots of `region` and `item` into the cache, so that
+  // their lookups, a little later, need not wait for memory.
+  void Prefetch(std::string_view region, std::string_view item) const {
+    Prefetch(region, region_slots_, region_shift_);
+    Prefetch(item, item_slots_, item_shift_);
+  }
+
   // The slot of region or item `code` (1 to 8 bytes, trimmed), or nullptr.
   const Slot* FindRegion(std::string_view code) const {
     return Find(code, region_slots_, region_shift_);
@@ -145,6 +152,11 @@ class KnownCodes {
     while ((*slots)[at].index >= 0) at = (at + 1) & mask;
     (*slots)[at] = {word, index, static_cast<uint8_t>(code.size()),
                     static_cast<uint8_t>(heading.size()), static_cast<uint16_t>(heading_index)};
+  }
+
+  static void Prefetch(std::string_view code, const std::vector<Slot>& slots, int shift) {
+    if (slots.empty() || code.empty() || code.size() > 8) return;
+    __builtin_prefetch(&slots[SlotOf(ShortWord(code.data(), code.size()), code.size(), shift)]);
   }
 
   static const Slot* Find(std::string_view code, const std::vector<Slot>& slots, int shift) {
@@ -326,6 +338,13 @@ class ChunkParser {
                FieldCountProblem(record_.fields.size(), columns_.num_fields));
         continue;
       }
+      // The codes' slots are loaded while the price is read and the row
+      // hashed (both pure, used once the row gets that far).
+      known_.Prefetch(record_.fields[columns_.region],
+                      fast_items_ ? record_.fields[columns_.item] : std::string_view());
+      price_status_ = ParseNumber(record_.fields[columns_.price], &price_value_,
+                                  columns_.format.decimal);
+      const uint64_t row_hash = HashFields(record_, columns_);
       if (!ReadRegion()) continue;
       // An item known before the block with the row's heading (or none) is
       // settled by one lookup; the rest take the general way.
@@ -363,7 +382,7 @@ class ChunkParser {
       out_->quotes.log_price.push_back(std::log(price));
       if (has_flag_) out_->quotes.representative.push_back(representative ? 1 : 0);
       if (has_weight_) out_->quotes.weight.push_back(weight);
-      out_->quotes.row_hash.push_back(HashFields(record_, columns_));
+      out_->quotes.row_hash.push_back(row_hash);
       out_->lines.Add(out_->quotes.row_hash.size() - 1, record_.line);
       ++out_->rows_used;
     }
@@ -600,9 +619,11 @@ class ChunkParser {
     Reject(has_heading_ ? columns_.heading + 1 : columns_.item + 1, what);
   }
 
+  // Checks the price Run read (price_status_, price_value_).
   bool ReadPrice(double* price) {
     const std::string_view price_text = record_.fields[columns_.price];
-    const NumberStatus status = ParseNumber(price_text, price, columns_.format.decimal);
+    const NumberStatus status = price_status_;
+    if (status == NumberStatus::kOk) *price = price_value_;
     if (status != NumberStatus::kOk) {
       Reject(columns_.price + 1,
              NumberProblem(status, "price", price_text, columns_.format.decimal, columns_.setting));
@@ -695,6 +716,9 @@ class ChunkParser {
   std::string_view last_region_, last_item_;
   bool region_cached_ = false, item_cached_ = false;
   int region_local_ = -1, item_local_ = -1;
+  // The row's price as ParseNumber read it.
+  NumberStatus price_status_ = NumberStatus::kOk;
+  double price_value_ = 0.0;
   // Per item of the survey's table, its local index (-1: not seen yet).
   std::vector<int> local_of_known_;
 };
