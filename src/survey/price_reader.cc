@@ -20,6 +20,7 @@
 
 #include "base/equal_bytes.h"
 #include "base/huge_pages.h"
+#include "base/plain_decimal.h"
 #include "base/sha256.h"
 #include "paritas/base/csv.h"
 #include "paritas/base/text.h"
@@ -342,8 +343,11 @@ class ChunkParser {
       // hashed (both pure, used once the row gets that far).
       known_.Prefetch(record_.fields[columns_.region],
                       fast_items_ ? record_.fields[columns_.item] : std::string_view());
-      price_status_ = ParseNumber(record_.fields[columns_.price], &price_value_,
-                                  columns_.format.decimal);
+      const std::string_view price_text = record_.fields[columns_.price];
+      price_status_ =
+          ParsePlainDecimal(price_text, columns_.format.decimal, &price_value_)
+              ? NumberStatus::kOk
+              : ParseNumber(price_text, &price_value_, columns_.format.decimal);
       const uint64_t row_hash = HashFields(record_, columns_);
       if (!ReadRegion()) continue;
       // An item known before the block with the row's heading (or none) is
