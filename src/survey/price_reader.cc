@@ -257,7 +257,8 @@ uint64_t Fnv1a(std::string_view text, uint64_t h = 14695981039346656037ull) {
 // columns' hash order, so rows equal field for field (and only those, up to
 // a 2^-64 chance) hash alike, in one file or across files. A field is read
 // 8 bytes at a time, each word mixed in by one multiply-fold (a byte-wise
-// hash cost a multiplication per byte, most of the row's parse).
+// hash cost a multiplication per byte, most of the row's parse); a field of
+// up to 8 bytes (most) takes one multiply-fold with its name and length.
 uint64_t HashFields(const CsvRecord& record, const PriceColumns& columns) {
   constexpr uint64_t kOdd = 0x9e3779b97f4a7c15ULL;
   uint64_t h = 0x243f6a8885a308d3ULL;
@@ -265,7 +266,12 @@ uint64_t HashFields(const CsvRecord& record, const PriceColumns& columns) {
     const std::string_view field = record.fields[columns.hash_order[k]];
     const size_t n = field.size();
     // Name and length in one word: names hash apart, lengths are small.
-    h = MultiplyFold(h ^ (columns.hash_name[k] + n), kOdd);
+    const uint64_t name = columns.hash_name[k] + n;
+    if (n <= 8) {
+      h = MultiplyFold(h ^ ShortWord(field.data(), n), name ^ kOdd);
+      continue;
+    }
+    h = MultiplyFold(h ^ name, kOdd);
     size_t i = 0;
     for (; i + 8 <= n; i += 8) {
       uint64_t word;
