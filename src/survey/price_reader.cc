@@ -767,6 +767,24 @@ std::vector<size_t> ChunkStarts(std::string_view data) {
   return starts;
 }
 
+// Where a block's chunks start and the line each starts on (then the line
+// after the block), found by the task that reads the block ahead, so the
+// parse of a block starts with no serial pass over its text.
+struct ChunkPlan {
+  std::vector<size_t> starts;
+  std::vector<int64_t> lines;
+
+  // Plans the chunks of `data` (whole records) starting at line `first_line`.
+  void Make(std::string_view data, int64_t first_line) {
+    starts = ChunkStarts(data);
+    lines.assign(starts.size() + 1, first_line);
+    for (size_t c = 0; c < starts.size(); ++c) {
+      const size_t end = c + 1 < starts.size() ? starts[c + 1] : data.size();
+      lines[c + 1] = lines[c] + CountLineFeeds(data.substr(starts[c], end - starts[c]));
+    }
+  }
+};
+
 class PriceReader {
  public:
   PriceReader(const PriceSource& source, const std::string& setting, const LoadOptions& options,
@@ -802,6 +820,7 @@ class PriceReader {
   bool ReadBlocks(CsvBlockReader* blocks, std::string* read_error, std::string* error) {
     bool header_done = false;
     CsvBlock block, next;
+    ChunkPlan plan, next_plan;
     bool has_block = blocks->Next(&block, read_error);
     while (has_block) {
       bytes_seen_ += static_cast<int64_t>(block.fresh.size());
@@ -815,12 +834,21 @@ class PriceReader {
         data.remove_prefix(reader.position());
         line = reader.line();
         header_done = true;
+        plan.Make(data, line);
+      } else if (!header_done) {
+        plan.Make(data, line);  // blank lines before the header
       }
-      // The new bytes are hashed alongside the parse of their block.
+      // The new bytes are hashed alongside the parse of their block; the
+      // next block is read and planned meanwhile (after the header, which
+      // the first block holds whole, every block is records only).
       bool has_next = false;
-      const auto read_next = [&] { has_next = blocks->Next(&next, read_error); };
-      if (!ParseBlock(data, line, block.fresh, read_next, error)) return false;
+      const auto read_next = [&] {
+        has_next = blocks->Next(&next, read_error);
+        if (has_next && header_done) next_plan.Make(next.records, next.first_line);
+      };
+      if (!ParseBlock(data, plan, block.fresh, read_next, error)) return false;
       std::swap(block, next);
+      std::swap(plan, next_plan);
       has_block = has_next;
     }
     if (!read_error->empty()) {
@@ -888,27 +916,19 @@ class PriceReader {
     }
   }
 
-  // Parses one block of whole records starting at line `first_line`,
-  // hashing `to_hash` and calling `read_next` (which reads the next block)
+  // Parses one block of whole records in the chunks of `plan`, hashing
+  // `to_hash` and calling `read_next` (which reads the next block)
   // alongside.
-  bool ParseBlock(std::string_view data, int64_t first_line, std::string_view to_hash,
+  bool ParseBlock(std::string_view data, const ChunkPlan& plan, std::string_view to_hash,
                   const std::function<void()>& read_next, std::string* error) {
     if (data.empty()) {
       digest_.Update(to_hash.data(), to_hash.size());
       read_next();
       return true;
     }
-    std::vector<size_t> starts = ChunkStarts(data);
-    // Newlines per chunk, counted in parallel, give each chunk's first line.
-    const int num_starts = static_cast<int>(starts.size());
-    std::vector<int64_t> lines(starts.size() + 1, 0);
-#pragma omp parallel for schedule(static) num_threads(NumThreads(num_starts))
-    for (int c = 0; c < num_starts; ++c) {
-      const size_t end = c + 1 < num_starts ? starts[c + 1] : data.size();
-      lines[c + 1] = CountLineFeeds(data.substr(starts[c], end - starts[c]));
-    }
-    lines[0] = first_line;
-    for (size_t c = 1; c < lines.size(); ++c) lines[c] += lines[c - 1];
+    const std::vector<size_t>& starts = plan.starts;
+    const std::vector<int64_t>& lines = plan.lines;
+    const int64_t first_line = lines[0];
     // Chunk results are kept between blocks so their arrays keep their
     // capacity instead of being allocated (and page-faulted) again.
     known_.Build(state_->regions_fixed, state_->regions, state_->items, state_->item_heading,
