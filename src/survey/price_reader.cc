@@ -83,7 +83,7 @@ class KnownCodes {
     int32_t index = -1;         // the survey's index; -1: empty slot
     uint8_t size = 0;           // bytes of the code
     uint8_t heading_size = 0;   // items: bytes of the heading's code
-    uint16_t heading = 0;       // items: the heading's index in heading_words()
+    uint16_t heading = 0;       // items: the heading's index (see HeadingWord)
   };
 
   // Holds the regions of `regions` when `with_regions`, and the items of
@@ -112,7 +112,7 @@ class KnownCodes {
     }
   }
 
-  // The headings' codes (up to their first 8 bytes) as ShortWord gives them.
+  // The code of the slot's heading (up to its first 8 bytes) as ShortWord gives it.
   uint64_t HeadingWord(const Slot& slot) const { return heading_words_[slot.heading]; }
 
   // Starts loading the slots of `region` and `item` into the cache, so that
