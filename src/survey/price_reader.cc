@@ -13,7 +13,6 @@
 #include <filesystem>
 #include <functional>
 #include <limits>
-#include <ranges>
 #include <string>
 #include <unordered_map>
 #include <vector>
@@ -1128,8 +1127,9 @@ class PriceReader {
     if (has_weight && global.weight.empty()) global.weight.assign(before, 1.0);
     for (size_t c = 0; c < num_chunks; ++c) state_->quote_lines.Append(results[c].lines, offset[c]);
     const int num_threads = NumThreads(static_cast<int>(num_chunks));
-    // Each array is appended to by one thread, chunk after chunk, each
-    // element written once (the capacity is reserved: no filling first).
+    // Each array is appended to by one thread, chunk after chunk, into
+    // capacity reserved before (no zero-filling first; region and item
+    // indices are mapped in place just after their copy).
 #pragma omp parallel for schedule(dynamic, 1) num_threads(num_threads)
     for (int a = 0; a < 6; ++a) {
       for (size_t c = 0; c < num_chunks; ++c) {
@@ -1173,20 +1173,21 @@ class PriceReader {
       Append(result.quotes.region, to);
       return;
     }
-    const auto mapped = result.quotes.region |
-                        std::views::transform([&map](int32_t r) { return int32_t{map[r]}; });
-    to->insert(to->end(), mapped.begin(), mapped.end());
+    const size_t at = to->size();
+    Append(result.quotes.region, to);
+    std::transform(to->begin() + at, to->end(), to->begin() + at,
+                   [&map](int32_t r) { return int32_t{map[r]}; });
   }
 
   // The chunk's items as the survey's indices (see ChunkResult::item_base).
   static void AppendItems(const ChunkResult& result, std::vector<int32_t>* to) {
     const std::vector<int>& map = result.item_map;
     const int32_t base = result.item_base;
-    const auto mapped =
-        result.quotes.item | std::views::transform([&map, base](int32_t item) {
-          return item < base ? item : int32_t{map[item - base]};
-        });
-    to->insert(to->end(), mapped.begin(), mapped.end());
+    const size_t at = to->size();
+    Append(result.quotes.item, to);
+    std::transform(to->begin() + at, to->end(), to->begin() + at, [&map, base](int32_t item) {
+      return item < base ? item : int32_t{map[item - base]};
+    });
   }
 
  private:
