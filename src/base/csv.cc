@@ -204,6 +204,8 @@ bool CsvReader::Next(CsvRecord* record) {
     return false;
   }
 
+  if (NextSimple(p, end, record)) return true;
+
   const char* const record_begin = p;
   record->line = line_;
   record->offset = record_begin - begin;
@@ -286,6 +288,61 @@ bool CsvReader::Next(CsvRecord* record) {
   pos_ = next - begin;
   if (has_doubled_quotes) CollapseDoubledQuotes(record);
   return true;
+}
+
+bool CsvReader::NextSimple(const char* p, const char* end, CsvRecord* record) {
+#if defined(__SSE2__)
+  // At most this many bytes before the line end; both limits hold for any
+  // field of such a record.
+  const size_t most = std::min<size_t>({kSimpleRecordBytes, max_field_bytes_, max_record_bytes_});
+  const __m128i comma = _mm_set1_epi8(delimiter_);
+  const __m128i quote = _mm_set1_epi8('"');
+  const __m128i lf = _mm_set1_epi8('\n');
+  const __m128i cr = _mm_set1_epi8('\r');
+  const char* const record_begin = p;
+  const char* field = p;
+  std::vector<std::string_view>& fields = record->fields;
+  for (const char* block = p; end - block >= 16; block += 16) {
+    const __m128i bytes = _mm_loadu_si128(reinterpret_cast<const __m128i*>(block));
+    unsigned mask = static_cast<unsigned>(_mm_movemask_epi8(
+        _mm_or_si128(_mm_or_si128(_mm_cmpeq_epi8(bytes, comma), _mm_cmpeq_epi8(bytes, quote)),
+                     _mm_or_si128(_mm_cmpeq_epi8(bytes, lf), _mm_cmpeq_epi8(bytes, cr)))));
+    const unsigned high = static_cast<unsigned>(_mm_movemask_epi8(bytes));
+    while (mask != 0) {
+      const int at = __builtin_ctz(mask);
+      const char* const stop = block + at;
+      const char c = *stop;
+      if (c == delimiter_) {
+        fields.emplace_back(field, stop - field);
+        field = stop + 1;
+        mask &= mask - 1;
+        continue;
+      }
+      // A quote or a carriage return, a byte that is not ASCII, or a long
+      // record: the general path reads it (or words its error).
+      if (c != '\n' || (high & ((1u << at) - 1)) != 0 ||
+          static_cast<size_t>(stop - record_begin) > most) {
+        fields.clear();
+        return false;
+      }
+      fields.emplace_back(field, stop - field);
+      record->line = line_;
+      record->offset = record_begin - data_.data();
+      record->raw = std::string_view(record_begin, stop - record_begin);
+      record->ascii = true;
+      ++line_;
+      pos_ = static_cast<size_t>(stop + 1 - data_.data());
+      return true;
+    }
+    if (high != 0 || static_cast<size_t>(block + 16 - record_begin) > most) break;
+  }
+  fields.clear();
+#else
+  (void)p;
+  (void)end;
+  (void)record;
+#endif
+  return false;
 }
 
 bool FindInvalidUtf8(const CsvRecord& record, char delimiter, int64_t* line, int* field) {

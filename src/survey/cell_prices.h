@@ -73,10 +73,10 @@ struct QuoteArrays {
   // Quote weights (> 0); empty when no price file has a weight column (a
   // quote of a file without one weighs 1).
   std::vector<double> weight;
-  // Hash of the row's fields (all columns) and its line, for finding rows
-  // repeated field for field; emptied once duplicates are handled.
+  // Hash of the row's fields (all columns), for finding rows repeated field
+  // for field (the rows' lines are kept apart, in runs: LoadState::
+  // quote_lines); emptied once duplicates are handled.
   std::vector<uint64_t> row_hash;
-  std::vector<int64_t> line;
 
   size_t size() const { return region.size(); }
 };

@@ -4,9 +4,10 @@
 // distributed by the top bits of the hash (a stable counting pass, in
 // parallel over the quotes); each bucket, a few thousand pairs in file
 // order, is then settled with a hash table that fits the cache: linear time,
-// and the same repeats as scanning all pairs sorted by (hash, position). On
-// a large survey the buckets are taken in four passes, so only a quarter of
-// the pairs is held at once.
+// and the same repeats as scanning all pairs sorted by (hash, position). A
+// pair holds the quote and the low half of its hash (8 bytes, the whole
+// hash read only when two halves match); on a large survey the buckets are
+// taken in two passes, so only half of the pairs is held at once.
 #include <omp.h>
 
 #include <algorithm>
@@ -23,65 +24,82 @@
 namespace paritas::internal {
 namespace {
 
-// Keeps the quotes whose `keep` flag is set, in order.
-void CompactQuotes(const std::vector<char>& keep, QuoteArrays* quotes) {
-  size_t out = 0;
-  const bool flagged = !quotes->representative.empty();
-  const bool weighted = !quotes->weight.empty();
-  for (size_t q = 0; q < keep.size(); ++q) {
-    if (!keep[q]) continue;
-    quotes->region[out] = quotes->region[q];
-    quotes->item[out] = quotes->item[q];
-    quotes->log_price[out] = quotes->log_price[q];
-    if (flagged) quotes->representative[out] = quotes->representative[q];
-    if (weighted) quotes->weight[out] = quotes->weight[q];
-    ++out;
-  }
-  quotes->region.resize(out);
-  quotes->item.resize(out);
-  quotes->log_price.resize(out);
-  if (flagged) quotes->representative.resize(out);
-  if (weighted) quotes->weight.resize(out);
-}
-
 constexpr uint32_t kNone = UINT32_MAX;
 
-// A row hash and its quote; no initialiser, so an array of them is not
-// zero-filled (its pages are first touched by the threads that fill it).
+// A quote that repeats an earlier one, its original.
+using Repeat = std::pair<uint32_t, uint32_t>;
+
+// Leaves out the quotes `repeats` names first (in quote order), keeping the
+// others in order: the runs between them are moved down.
+void CompactQuotes(const std::vector<Repeat>& repeats, QuoteArrays* quotes) {
+  const size_t n = quotes->size();
+  const auto compact = [&repeats, n](auto& array) {
+    if (array.empty()) return;
+    size_t out = repeats.front().first;
+    for (size_t k = 0; k < repeats.size(); ++k) {
+      const size_t from = repeats[k].first + 1;
+      const size_t to = k + 1 < repeats.size() ? repeats[k + 1].first : n;
+      std::copy(array.begin() + from, array.begin() + to, array.begin() + out);
+      out += to - from;
+    }
+    array.resize(out);
+  };
+  compact(quotes->region);
+  compact(quotes->item);
+  compact(quotes->log_price);
+  compact(quotes->representative);
+  compact(quotes->weight);
+}
+
+// A quote and the low 32 bits of its row hash (its bucket stands for the
+// top bits); no initialiser, so an array of them is not zero-filled (its
+// pages are first touched by the threads that fill it). Quotes whose keys
+// are equal are told apart by their whole hashes, read only then.
 struct HashedQuote {
-  uint64_t first;    // row hash
-  uint32_t second;   // quote index
+  uint32_t key;    // low 32 bits of the row hash
+  uint32_t quote;  // quote index
 };
 
-// Marks each quote of a bucket (`order`, in quote order) that repeats an
-// earlier one: among the quotes of equal hash, in quote order, a quote
-// repeats the first of the run before it (that quote's own original when it
-// is a repeat, else that quote) when region, item and ln price are equal too.
-// This is the scan of all pairs sorted by (hash, index), found through a
-// small hash table of each hash's latest quote instead of a sort.
-// repeats[q] = the quote q repeats; `table` is scratch.
+// A slot of MarkRepeats' table: a hash's latest quote and that quote's
+// original (itself when it repeats none).
+struct LatestQuote {
+  uint32_t key;
+  uint32_t quote;
+  uint32_t original;
+};
+
+// Adds to *repeats each quote of a bucket (`order`, in quote order) that
+// repeats an earlier one: among the quotes of equal hash, in quote order, a
+// quote repeats the original of the one before it (that quote's own
+// original when it is a repeat, else that quote) when region, item and ln
+// price are equal too. This is the scan of all pairs sorted by (hash,
+// index), found through a small hash table of each hash's latest quote
+// instead of a sort. `table` is scratch.
 void MarkRepeats(const QuoteArrays& quotes, const HashedQuote* order, size_t n,
-                 std::vector<HashedQuote>* table, uint32_t* repeats) {
+                 std::vector<LatestQuote>* table, std::vector<Repeat>* repeats) {
   size_t slots = 16;
   while (slots < 2 * n) slots *= 2;
-  table->assign(slots, {0, kNone});
+  table->assign(slots, {0, kNone, kNone});
   const size_t mask = slots - 1;
+  const std::vector<uint64_t>& hash = quotes.row_hash;
   for (size_t k = 0; k < n; ++k) {
-    const auto [hash, q] = order[k];
-    size_t slot = hash & mask;
-    while ((*table)[slot].second != kNone && (*table)[slot].first != hash) {
-      slot = (slot + 1) & mask;
+    const auto [key, q] = order[k];
+    size_t slot = key & mask;
+    for (;; slot = (slot + 1) & mask) {
+      const LatestQuote& entry = (*table)[slot];
+      if (entry.quote == kNone || (entry.key == key && hash[entry.quote] == hash[q])) break;
     }
-    HashedQuote& latest = (*table)[slot];
-    if (latest.second != kNone) {
-      const uint32_t previous = latest.second;
-      const uint32_t first = repeats[previous] != kNone ? repeats[previous] : previous;
+    LatestQuote& latest = (*table)[slot];
+    uint32_t original = q;
+    if (latest.quote != kNone) {
+      const uint32_t first = latest.original;
       if (quotes.region[q] == quotes.region[first] && quotes.item[q] == quotes.item[first] &&
           quotes.log_price[q] == quotes.log_price[first]) {
-        repeats[q] = first;
+        repeats->emplace_back(q, first);
+        original = first;
       }
     }
-    latest = {hash, q};
+    latest = {key, q, original};
   }
 }
 
@@ -102,15 +120,14 @@ std::vector<size_t> PassBoundaries(const std::vector<size_t>& bucket_begin, int 
   return first;
 }
 
-// Returns per quote the earlier quote it repeats, or kNone. The pairs are
+// Returns the quotes that repeat an earlier one with their originals, in
+// quote order. The pairs are
 // distributed and settled in passes over ranges of buckets (each pass scans
-// all the hashes and takes the pairs of its buckets), so that only a
-// quarter of them is held at once on a large survey: 28 MB instead of 112
-// for 7 million quotes.
-std::unique_ptr<uint32_t[]> FindRepeats(const QuoteArrays& quotes, int num_threads) {
+// all the hashes and takes the pairs of its buckets), so that only half of
+// them is held at once on a large survey: 28 MB of 8-byte pairs instead of
+// 56 for 7 million quotes.
+std::vector<Repeat> FindRepeats(const QuoteArrays& quotes, int num_threads) {
   const size_t n = quotes.size();
-  // Set to kNone below by the threads, each its own range.
-  auto repeats = std::make_unique_for_overwrite<uint32_t[]>(n);
   const std::vector<uint64_t>& hash = quotes.row_hash;
   // Buckets of about 2,000 pairs (32 KB), at most 2^16 of them.
   int bits = 0;
@@ -118,12 +135,12 @@ std::unique_ptr<uint32_t[]> FindRepeats(const QuoteArrays& quotes, int num_threa
   const size_t num_buckets = size_t{1} << bits;
   const auto bucket_of = [bits](uint64_t h) { return bits == 0 ? 0 : h >> (64 - bits); };
   num_threads = std::max(1, std::min(num_threads, static_cast<int>(n / 65536) + 1));
-  const int max_passes = n >= (size_t{1} << 20) ? 4 : 1;
+  const int max_passes = n >= (size_t{1} << 20) ? 2 : 1;
   // counts[t][b]: pairs of thread t's quotes in bucket b, then where they go
   // (counted from the first pair of the bucket's pass).
   std::vector<std::vector<size_t>> counts(num_threads, std::vector<size_t>(num_buckets, 0));
   std::unique_ptr<HashedQuote[]> order;
-  AdviseHugePages(repeats.get(), n * sizeof(uint32_t));
+  std::vector<std::vector<Repeat>> found(num_threads);
   std::vector<size_t> bucket_begin(num_buckets + 1, 0);
   std::vector<size_t> pass_first;  // first bucket of each pass, then num_buckets
 #pragma omp parallel num_threads(num_threads)
@@ -133,7 +150,6 @@ std::unique_ptr<uint32_t[]> FindRepeats(const QuoteArrays& quotes, int num_threa
     // quote order (a stable distribution).
     const size_t from = n * t / num_threads, to = n * (t + 1) / num_threads;
     std::vector<size_t>& mine = counts[t];
-    std::fill(repeats.get() + from, repeats.get() + to, kNone);
     for (size_t q = from; q < to; ++q) ++mine[bucket_of(hash[q])];
 #pragma omp barrier
 #pragma omp single
@@ -157,26 +173,29 @@ std::unique_ptr<uint32_t[]> FindRepeats(const QuoteArrays& quotes, int num_threa
       AdviseHugePages(order.get(), largest * sizeof(HashedQuote));
     }
     // Equal hashes share a bucket, so each bucket is settled alone.
-    std::vector<HashedQuote> table;
+    std::vector<LatestQuote> table;
     for (size_t p = 0; p + 1 < pass_first.size(); ++p) {
       const size_t first = pass_first[p], last = pass_first[p + 1];
       const size_t base = bucket_begin[first];
       for (size_t q = from; q < to; ++q) {
         const size_t b = bucket_of(hash[q]);
         if (b >= first && b < last) {
-          order[mine[b]++ - base] = {hash[q], static_cast<uint32_t>(q)};
+          order[mine[b]++ - base] = {static_cast<uint32_t>(hash[q]), static_cast<uint32_t>(q)};
         }
       }
 #pragma omp barrier
 #pragma omp for schedule(dynamic, 64)
       for (size_t b = first; b < last; ++b) {
         MarkRepeats(quotes, order.get() + (bucket_begin[b] - base),
-                    bucket_begin[b + 1] - bucket_begin[b], &table, repeats.get());
+                    bucket_begin[b + 1] - bucket_begin[b], &table, &found[t]);
       }
       // The implicit barrier of the loop: the pass's pairs are settled
       // before the next pass overwrites them.
     }
   }
+  std::vector<Repeat> repeats;
+  for (std::vector<Repeat>& part : found) repeats.insert(repeats.end(), part.begin(), part.end());
+  std::sort(repeats.begin(), repeats.end());
   return repeats;
 }
 
@@ -193,13 +212,11 @@ void HandleDuplicateQuotes(DuplicateQuotePolicy policy, int num_threads, LoadSta
            1;
   };
   summary->duplicate_policy = policy;
-  const size_t n = quotes.size();
-  const std::unique_ptr<uint32_t[]> repeats = FindRepeats(quotes, num_threads);
-  std::vector<char> keep(n, 1);
-  for (size_t q = 0; q < n; ++q) {
-    if (repeats[q] == kNone) continue;
-    const int64_t line = quotes.line[q], original = quotes.line[repeats[q]];
-    const size_t k = file_of(q), first = file_of(static_cast<size_t>(repeats[q]));
+  const std::vector<Repeat> repeats = FindRepeats(quotes, num_threads);
+  for (const auto& [q, repeated_quote] : repeats) {
+    const int64_t line = state->quote_lines.Of(q);
+    const int64_t original = state->quote_lines.Of(repeated_quote);
+    const size_t k = file_of(q), first = file_of(repeated_quote);
     InputFileSummary* file = files[k];
     const std::string& path = file->path;
     // "line 12" in the same file, "prices.csv:12" in an earlier one.
@@ -210,7 +227,6 @@ void HandleDuplicateQuotes(DuplicateQuotePolicy policy, int num_threads, LoadSta
     }
     ++summary->num_duplicate_quotes;
     if (policy == DuplicateQuotePolicy::kKeep) continue;
-    keep[q] = 0;
     --file->rows_used;
     --state->num_quotes;
     if (policy == DuplicateQuotePolicy::kDrop) {
@@ -225,13 +241,13 @@ void HandleDuplicateQuotes(DuplicateQuotePolicy policy, int num_threads, LoadSta
     }
   }
   if (policy != DuplicateQuotePolicy::kKeep && summary->num_duplicate_quotes > 0) {
-    CompactQuotes(keep, &quotes);
+    CompactQuotes(repeats, &quotes);
   }
   // Released, not just emptied: `vector = {}` would assign an empty list
   // and keep the 16 bytes per quote allocated (and resident) until the
   // cells are built.
   std::vector<uint64_t>().swap(quotes.row_hash);
-  std::vector<int64_t>().swap(quotes.line);
+  state->quote_lines = QuoteLines();
 }
 
 }  // namespace paritas::internal

@@ -5,6 +5,7 @@
 #ifndef PARITAS_INTERNAL_SURVEY_LOADER_STATE_H_
 #define PARITAS_INTERNAL_SURVEY_LOADER_STATE_H_
 
+#include <algorithm>
 #include <cstddef>
 #include <cstdint>
 #include <string>
@@ -91,6 +92,41 @@ std::string FieldCountProblem(size_t found, int expected);
 // the first one too many.
 int FieldCountColumn(size_t found, int expected);
 
+// The lines of quotes taken in order, kept as runs of quotes on
+// consecutive lines: quote q lies on run_line[k] + (q - run_quote[k]) for
+// the last run k with run_quote[k] <= q. A file of one-line records with no
+// rows rejected is one run per chunk, instead of 8 bytes per quote.
+struct QuoteLines {
+  std::vector<size_t> run_quote;
+  std::vector<int64_t> run_line;
+
+  // Notes that quote q (the next after the ones added) lies on `line`.
+  void Add(size_t q, int64_t line) {
+    if (!run_quote.empty() &&
+        line == run_line.back() + static_cast<int64_t>(q - run_quote.back())) {
+      return;
+    }
+    run_quote.push_back(q);
+    run_line.push_back(line);
+  }
+  // Adds the runs of `other`, whose quote 0 is quote `offset` here.
+  void Append(const QuoteLines& other, size_t offset) {
+    for (size_t k = 0; k < other.run_quote.size(); ++k) {
+      Add(offset + other.run_quote[k], other.run_line[k]);
+    }
+  }
+  // The line of quote q (one that was added).
+  int64_t Of(size_t q) const {
+    const size_t k = static_cast<size_t>(
+        std::upper_bound(run_quote.begin(), run_quote.end(), q) - run_quote.begin() - 1);
+    return run_line[k] + static_cast<int64_t>(q - run_quote[k]);
+  }
+  void Clear() {
+    run_quote.clear();
+    run_line.clear();
+  }
+};
+
 // ---------------------------------------------------------------------------
 // Shared state while loading.
 
@@ -113,8 +149,10 @@ struct LoadState {
   // reference_quantity of items.csv; NaN when not given.
   std::vector<double> item_reference_quantity;
   bool has_catalog = false;
-  // Quotes used, in file order, with state indices of region and item.
+  // Quotes used, in file order, with state indices of region and item, and
+  // their lines (until duplicates are handled).
   QuoteArrays quotes;
+  QuoteLines quote_lines;
   int64_t num_quotes = 0;
   // Index of the first quote of each price file, in the order read.
   std::vector<size_t> quote_file_begin;

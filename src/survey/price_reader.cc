@@ -19,6 +19,7 @@
 
 #include "base/equal_bytes.h"
 #include "base/huge_pages.h"
+#include "base/plain_decimal.h"
 #include "base/sha256.h"
 #include "paritas/base/csv.h"
 #include "paritas/base/text.h"
@@ -66,6 +67,114 @@ struct ConflictCount {
   int64_t first_line = 0;
 };
 
+// The codes known before a block, for a lookup in one slot read: the
+// survey's regions (when regions.csv fixed them) and its items that have a
+// heading, each code of 1 to 8 bytes (a longer code, or an item whose
+// heading is longer, is looked up the general way). An item's slot holds
+// its heading too, so a row restating the known heading is settled by the
+// same read. Built by the reader before each block; only read while the
+// chunks are parsed.
+class KnownCodes {
+ public:
+  // 16 bytes, so that the tables of a survey's codes stay in the cache.
+  struct Slot {
+    uint64_t word = 0;          // the code as ShortWord gives it
+    int32_t index = -1;         // the survey's index; -1: empty slot
+    uint8_t size = 0;           // bytes of the code
+    uint8_t heading_size = 0;   // items: bytes of the heading's code
+    uint16_t heading = 0;       // items: the heading's index (see HeadingWord)
+  };
+
+  // Holds the regions of `regions` when `with_regions`, and the items of
+  // `items` whose item_heading is set.
+  void Build(bool with_regions, const CodeTable& regions, const CodeTable& items,
+             const std::vector<int>& item_heading, const CodeTable& headings) {
+    region_slots_.clear();
+    item_slots_.clear();
+    heading_words_.clear();
+    if (with_regions) {
+      Prepare(regions.size(), &region_slots_, &region_shift_);
+      for (int r = 0; r < regions.size(); ++r) {
+        Insert(regions.Code(r), r, {}, 0, &region_slots_, region_shift_);
+      }
+    }
+    const int num_headings = std::min(headings.size(), 1 << 16);
+    for (int h = 0; h < num_headings; ++h) {
+      const std::string_view heading = headings.Code(h);
+      heading_words_.push_back(ShortWord(heading.data(), std::min<size_t>(heading.size(), 8)));
+    }
+    Prepare(items.size(), &item_slots_, &item_shift_);
+    for (int i = 0; i < items.size(); ++i) {
+      const int h = item_heading[i];
+      if (h < 0 || h >= num_headings || headings.Code(h).size() > 8) continue;
+      Insert(items.Code(i), i, headings.Code(h), h, &item_slots_, item_shift_);
+    }
+  }
+
+  // The code of the slot's heading (up to its first 8 bytes) as ShortWord gives it.
+  uint64_t HeadingWord(const Slot& slot) const { return heading_words_[slot.heading]; }
+
+  // Starts loading the slots of `region` and `item` into the cache, so that
+  // their lookups, a little later, need not wait for memory.
+  void Prefetch(std::string_view region, std::string_view item) const {
+    Prefetch(region, region_slots_, region_shift_);
+    Prefetch(item, item_slots_, item_shift_);
+  }
+
+  // The slot of region or item `code` (1 to 8 bytes, trimmed), or nullptr.
+  const Slot* FindRegion(std::string_view code) const {
+    return Find(code, region_slots_, region_shift_);
+  }
+  const Slot* FindItem(std::string_view code) const {
+    return Find(code, item_slots_, item_shift_);
+  }
+
+ private:
+  static size_t SlotOf(uint64_t word, size_t size, int shift) {
+    return static_cast<size_t>(((word ^ (uint64_t{size} << 59)) * 0x9e3779b97f4a7c15ULL) >>
+                               shift);
+  }
+
+  // At most half full, at least 16 slots.
+  static void Prepare(int num_codes, std::vector<Slot>* slots, int* shift) {
+    int bits = 4;
+    while ((size_t{1} << bits) < 2 * static_cast<size_t>(num_codes)) ++bits;
+    slots->assign(size_t{1} << bits, Slot());
+    *shift = 64 - bits;
+  }
+
+  static void Insert(std::string_view code, int index, std::string_view heading, int heading_index,
+                     std::vector<Slot>* slots, int shift) {
+    if (code.empty() || code.size() > 8) return;
+    const uint64_t word = ShortWord(code.data(), code.size());
+    const size_t mask = slots->size() - 1;
+    size_t at = SlotOf(word, code.size(), shift);
+    while ((*slots)[at].index >= 0) at = (at + 1) & mask;
+    (*slots)[at] = {word, index, static_cast<uint8_t>(code.size()),
+                    static_cast<uint8_t>(heading.size()), static_cast<uint16_t>(heading_index)};
+  }
+
+  static void Prefetch(std::string_view code, const std::vector<Slot>& slots, int shift) {
+    if (slots.empty() || code.empty() || code.size() > 8) return;
+    __builtin_prefetch(&slots[SlotOf(ShortWord(code.data(), code.size()), code.size(), shift)]);
+  }
+
+  static const Slot* Find(std::string_view code, const std::vector<Slot>& slots, int shift) {
+    if (slots.empty() || code.empty() || code.size() > 8) return nullptr;
+    const uint64_t word = ShortWord(code.data(), code.size());
+    const size_t mask = slots.size() - 1;
+    for (size_t at = SlotOf(word, code.size(), shift);; at = (at + 1) & mask) {
+      const Slot& slot = slots[at];
+      if (slot.index < 0) return nullptr;
+      if (slot.word == word && slot.size == code.size()) return &slot;
+    }
+  }
+
+  std::vector<Slot> region_slots_, item_slots_;
+  std::vector<uint64_t> heading_words_;
+  int region_shift_ = 64, item_shift_ = 64;
+};
+
 struct ChunkResult {
   CodeTable regions;
   CodeTable items;
@@ -73,11 +182,15 @@ struct ChunkResult {
   std::vector<LocalItem> item_info;
   // Per local item, the line of the row that first stated its heading here.
   std::vector<int64_t> item_line;
-  // Quotes used, with chunk-local region and item indices.
+  // Quotes used, with chunk-local region and item indices, and their lines.
   QuoteArrays quotes;
+  QuoteLines lines;
   // Local index -> the survey's, set when the chunk is merged (regions:
   // empty when the chunk holds the survey's indices already).
   std::vector<int> region_map, item_map;
+  // Items in `quotes`: below item_base the survey's index of an item known
+  // before the block (with its heading), else item_base + the local index.
+  int item_base = 0;
 
   // Empties the result, keeping the capacity of its arrays.
   void Reset() {
@@ -92,7 +205,7 @@ struct ChunkResult {
     quotes.representative.clear();
     quotes.weight.clear();
     quotes.row_hash.clear();
-    quotes.line.clear();
+    lines.Clear();
     region_map.clear();
     item_map.clear();
     rejected.clear();
@@ -143,7 +256,8 @@ uint64_t Fnv1a(std::string_view text, uint64_t h = 14695981039346656037ull) {
 // columns' hash order, so rows equal field for field (and only those, up to
 // a 2^-64 chance) hash alike, in one file or across files. A field is read
 // 8 bytes at a time, each word mixed in by one multiply-fold (a byte-wise
-// hash cost a multiplication per byte, most of the row's parse).
+// hash cost a multiplication per byte, most of the row's parse); a field of
+// up to 8 bytes (most) takes one multiply-fold with its name and length.
 uint64_t HashFields(const CsvRecord& record, const PriceColumns& columns) {
   constexpr uint64_t kOdd = 0x9e3779b97f4a7c15ULL;
   uint64_t h = 0x243f6a8885a308d3ULL;
@@ -151,7 +265,12 @@ uint64_t HashFields(const CsvRecord& record, const PriceColumns& columns) {
     const std::string_view field = record.fields[columns.hash_order[k]];
     const size_t n = field.size();
     // Name and length in one word: names hash apart, lengths are small.
-    h = MultiplyFold(h ^ (columns.hash_name[k] + n), kOdd);
+    const uint64_t name = columns.hash_name[k] + n;
+    if (n <= 8) {
+      h = MultiplyFold(h ^ ShortWord(field.data(), n), name ^ kOdd);
+      continue;
+    }
+    h = MultiplyFold(h ^ name, kOdd);
     size_t i = 0;
     for (; i + 8 <= n; i += 8) {
       uint64_t word;
@@ -179,13 +298,14 @@ std::string ItemOrigin(const LoadState& state, const std::string& path, int64_t 
 class ChunkParser {
  public:
   ChunkParser(std::string_view data, int64_t first_line, const PriceColumns& columns,
-              const std::string& path, const LoadState& state, bool keep_all_rejected,
-              size_t max_rejected, ChunkResult* out)
+              const std::string& path, const LoadState& state, const KnownCodes& known,
+              bool keep_all_rejected, size_t max_rejected, ChunkResult* out)
       : data_(data),
         reader_(data, first_line, /*skip_bom=*/false),
         columns_(columns),
         path_(path),
         state_(state),
+        known_(known),
         keep_all_rejected_(keep_all_rejected),
         max_rejected_(max_rejected),
         out_(out),
@@ -203,8 +323,9 @@ class ChunkParser {
     if (has_flag_) out->quotes.representative.reserve(expected_rows);
     if (has_weight_) out->quotes.weight.reserve(expected_rows);
     out->quotes.row_hash.reserve(expected_rows);
-    out->quotes.line.reserve(expected_rows);
     local_of_known_.assign(state.items.size(), -1);
+    out->item_base = state.items.size();
+    fast_items_ = !has_quantity_;
   }
 
   void Run() {
@@ -223,33 +344,55 @@ class ChunkParser {
                FieldCountProblem(record_.fields.size(), columns_.num_fields));
         continue;
       }
-      if (!ReadRegion() || !ReadItem()) continue;
-      LocalItem& info = out_->item_info[item_local_];
-      if (info.rejected >= 0) {
-        RejectCascade(columns_.item + 1, info.rejected);
-        continue;
-      }
-      // A heading first stated by this row counts only once the row is used,
-      // so a rejected row never files an item.
-      int new_heading = -1;
-      if ((info.global < 0 || has_heading_) && !ReadHeading(info, &new_heading)) continue;
+      // The codes' slots are loaded while the price is read and the row
+      // hashed (both pure, used once the row gets that far).
+      known_.Prefetch(record_.fields[columns_.region],
+                      fast_items_ ? record_.fields[columns_.item] : std::string_view());
+      const std::string_view price_text = record_.fields[columns_.price];
+      price_status_ =
+          ParsePlainDecimal(price_text, columns_.format.decimal, &price_value_)
+              ? NumberStatus::kOk
+              : ParseNumber(price_text, &price_value_, columns_.format.decimal);
+      const uint64_t row_hash = HashFields(record_, columns_);
+      if (!ReadRegion()) continue;
+      // An item known before the block with the row's heading (or none) is
+      // settled by one lookup; the rest take the general way.
+      int item = KnownItem();
       double price = 0.0, weight = 1.0;
       bool representative = false;
-      if (!ReadPrice(&price) || !ReadFlag(&representative) ||
-          !ReadPositive(columns_.weight, "weight", &weight) || !ConvertPrice(&info, &price)) {
-        continue;
-      }
-      if (new_heading >= 0) {
-        info.local_heading = new_heading;
-        out_->item_line[item_local_] = record_.line;
+      if (item >= 0) {
+        if (!ReadPrice(&price) || !ReadFlag(&representative) ||
+            !ReadPositive(columns_.weight, "weight", &weight)) {
+          continue;
+        }
+      } else {
+        if (!ReadItem()) continue;
+        LocalItem& info = out_->item_info[item_local_];
+        if (info.rejected >= 0) {
+          RejectCascade(columns_.item + 1, info.rejected);
+          continue;
+        }
+        // A heading first stated by this row counts only once the row is
+        // used, so a rejected row never files an item.
+        int new_heading = -1;
+        if ((info.global < 0 || has_heading_) && !ReadHeading(info, &new_heading)) continue;
+        if (!ReadPrice(&price) || !ReadFlag(&representative) ||
+            !ReadPositive(columns_.weight, "weight", &weight) || !ConvertPrice(&info, &price)) {
+          continue;
+        }
+        if (new_heading >= 0) {
+          info.local_heading = new_heading;
+          out_->item_line[item_local_] = record_.line;
+        }
+        item = out_->item_base + item_local_;
       }
       out_->quotes.region.push_back(region_local_);
-      out_->quotes.item.push_back(item_local_);
+      out_->quotes.item.push_back(item);
       out_->quotes.log_price.push_back(std::log(price));
       if (has_flag_) out_->quotes.representative.push_back(representative ? 1 : 0);
       if (has_weight_) out_->quotes.weight.push_back(weight);
-      out_->quotes.row_hash.push_back(HashFields(record_, columns_));
-      out_->quotes.line.push_back(record_.line);
+      out_->quotes.row_hash.push_back(row_hash);
+      out_->lines.Add(out_->quotes.row_hash.size() - 1, record_.line);
       ++out_->rows_used;
     }
     if (!reader_.error().empty()) out_->fatal = path_ + ":" + reader_.error();
@@ -299,8 +442,36 @@ class ChunkParser {
            0, RejectionCause::kHeadingConflict);
   }
 
+  // The survey's index of the row's item when it was known before the
+  // block with a heading, and the row's heading is empty or that one (the
+  // general way would accept the item as it stands); else -1.
+  int KnownItem() const {
+    if (!fast_items_) return -1;
+    const std::string_view code = record_.fields[columns_.item];
+    if (code.empty() || IsBlank(code.front()) || IsBlank(code.back())) return -1;
+    const KnownCodes::Slot* slot = known_.FindItem(code);
+    if (slot == nullptr) return -1;
+    if (has_heading_) {
+      const std::string_view heading = record_.fields[columns_.heading];
+      if (!heading.empty() && (heading.size() != slot->heading_size ||
+                               ShortWord(heading.data(), heading.size()) !=
+                                   known_.HeadingWord(*slot))) {
+        return -1;
+      }
+    }
+    return slot->index;
+  }
+
+  static bool IsBlank(char c) { return c == ' ' || c == '\t'; }
+
   bool ReadRegion() {
     const std::string_view region = record_.fields[columns_.region];
+    if (!region.empty() && !IsBlank(region.front()) && !IsBlank(region.back())) {
+      if (const KnownCodes::Slot* slot = known_.FindRegion(region); slot != nullptr) {
+        region_local_ = slot->index;
+        return true;
+      }
+    }
     if (region_cached_ && EqualBytes(region, last_region_)) return true;
     const std::string_view code = Trim(region);
     // With regions.csv every region is known before the first block, and the
@@ -457,9 +628,11 @@ class ChunkParser {
     Reject(has_heading_ ? columns_.heading + 1 : columns_.item + 1, what);
   }
 
+  // Checks the price Run read (price_status_, price_value_).
   bool ReadPrice(double* price) {
     const std::string_view price_text = record_.fields[columns_.price];
-    const NumberStatus status = ParseNumber(price_text, price, columns_.format.decimal);
+    const NumberStatus status = price_status_;
+    if (status == NumberStatus::kOk) *price = price_value_;
     if (status != NumberStatus::kOk) {
       Reject(columns_.price + 1,
              NumberProblem(status, "price", price_text, columns_.format.decimal, columns_.setting));
@@ -536,6 +709,7 @@ class ChunkParser {
   const PriceColumns& columns_;
   const std::string& path_;
   const LoadState& state_;
+  const KnownCodes& known_;
   const bool keep_all_rejected_;
   const size_t max_rejected_;
   ChunkResult* out_;
@@ -543,19 +717,26 @@ class ChunkParser {
   const bool has_flag_;
   const bool has_weight_;
   const bool has_quantity_;
+  // Whether KnownItem may settle a row (not with a quantity column, whose
+  // conversion notes per item whether it had a reference quantity).
+  bool fast_items_ = false;
   // The last region and item fields read, when they are views into the
   // chunk's text (see Remember), and their indices.
   std::string_view last_region_, last_item_;
   bool region_cached_ = false, item_cached_ = false;
   int region_local_ = -1, item_local_ = -1;
+  // The row's price as ParseNumber read it.
+  NumberStatus price_status_ = NumberStatus::kOk;
+  double price_value_ = 0.0;
   // Per item of the survey's table, its local index (-1: not seen yet).
   std::vector<int> local_of_known_;
 };
 
 void ParsePriceChunk(std::string_view data, int64_t first_line, const PriceColumns& columns,
-                     const std::string& path, const LoadState& state, bool keep_all_rejected,
-                     size_t max_rejected, ChunkResult* out) {
-  ChunkParser(data, first_line, columns, path, state, keep_all_rejected, max_rejected, out).Run();
+                     const std::string& path, const LoadState& state, const KnownCodes& known,
+                     bool keep_all_rejected, size_t max_rejected, ChunkResult* out) {
+  ChunkParser(data, first_line, columns, path, state, known, keep_all_rejected, max_rejected, out)
+      .Run();
 }
 
 // Chunk start offsets at record boundaries, about kChunkBytes apart.
@@ -584,6 +765,24 @@ std::vector<size_t> ChunkStarts(std::string_view data) {
   }
   return starts;
 }
+
+// Where a block's chunks start and the line each starts on (then the line
+// after the block), found by the task that reads the block ahead, so the
+// parse of a block starts with no serial pass over its text.
+struct ChunkPlan {
+  std::vector<size_t> starts;
+  std::vector<int64_t> lines;
+
+  // Plans the chunks of `data` (whole records) starting at line `first_line`.
+  void Make(std::string_view data, int64_t first_line) {
+    starts = ChunkStarts(data);
+    lines.assign(starts.size() + 1, first_line);
+    for (size_t c = 0; c < starts.size(); ++c) {
+      const size_t end = c + 1 < starts.size() ? starts[c + 1] : data.size();
+      lines[c + 1] = lines[c] + CountLineFeeds(data.substr(starts[c], end - starts[c]));
+    }
+  }
+};
 
 class PriceReader {
  public:
@@ -620,6 +819,7 @@ class PriceReader {
   bool ReadBlocks(CsvBlockReader* blocks, std::string* read_error, std::string* error) {
     bool header_done = false;
     CsvBlock block, next;
+    ChunkPlan plan, next_plan;
     bool has_block = blocks->Next(&block, read_error);
     while (has_block) {
       bytes_seen_ += static_cast<int64_t>(block.fresh.size());
@@ -633,12 +833,21 @@ class PriceReader {
         data.remove_prefix(reader.position());
         line = reader.line();
         header_done = true;
+        plan.Make(data, line);
+      } else if (!header_done) {
+        plan.Make(data, line);  // blank lines before the header
       }
-      // The new bytes are hashed alongside the parse of their block.
+      // The new bytes are hashed alongside the parse of their block; the
+      // next block is read and planned meanwhile (after the header, which
+      // the first block holds whole, every block is records only).
       bool has_next = false;
-      const auto read_next = [&] { has_next = blocks->Next(&next, read_error); };
-      if (!ParseBlock(data, line, block.fresh, read_next, error)) return false;
+      const auto read_next = [&] {
+        has_next = blocks->Next(&next, read_error);
+        if (has_next && header_done) next_plan.Make(next.records, next.first_line);
+      };
+      if (!ParseBlock(data, plan, block.fresh, read_next, error)) return false;
       std::swap(block, next);
+      std::swap(plan, next_plan);
       has_block = has_next;
     }
     if (!read_error->empty()) {
@@ -706,29 +915,23 @@ class PriceReader {
     }
   }
 
-  // Parses one block of whole records starting at line `first_line`,
-  // hashing `to_hash` and calling `read_next` (which reads the next block)
+  // Parses one block of whole records in the chunks of `plan`, hashing
+  // `to_hash` and calling `read_next` (which reads the next block)
   // alongside.
-  bool ParseBlock(std::string_view data, int64_t first_line, std::string_view to_hash,
+  bool ParseBlock(std::string_view data, const ChunkPlan& plan, std::string_view to_hash,
                   const std::function<void()>& read_next, std::string* error) {
     if (data.empty()) {
       digest_.Update(to_hash.data(), to_hash.size());
       read_next();
       return true;
     }
-    std::vector<size_t> starts = ChunkStarts(data);
-    // Newlines per chunk, counted in parallel, give each chunk's first line.
-    const int num_starts = static_cast<int>(starts.size());
-    std::vector<int64_t> lines(starts.size() + 1, 0);
-#pragma omp parallel for schedule(static) num_threads(NumThreads(num_starts))
-    for (int c = 0; c < num_starts; ++c) {
-      const size_t end = c + 1 < num_starts ? starts[c + 1] : data.size();
-      lines[c + 1] = CountLineFeeds(data.substr(starts[c], end - starts[c]));
-    }
-    lines[0] = first_line;
-    for (size_t c = 1; c < lines.size(); ++c) lines[c] += lines[c - 1];
+    const std::vector<size_t>& starts = plan.starts;
+    const std::vector<int64_t>& lines = plan.lines;
+    const int64_t first_line = lines[0];
     // Chunk results are kept between blocks so their arrays keep their
     // capacity instead of being allocated (and page-faulted) again.
+    known_.Build(state_->regions_fixed, state_->regions, state_->items, state_->item_heading,
+                 state_->headings);
     std::vector<ChunkResult>& results = results_;
     results.resize(starts.size());
     for (ChunkResult& result : results) result.Reset();
@@ -751,7 +954,7 @@ class PriceReader {
       const int c = task - 2;
       const size_t end = c + 1 < num_chunks ? starts[c + 1] : data.size();
       ParsePriceChunk(data.substr(starts[c], end - starts[c]), lines[c], columns_, path_, *state_,
-                      keep_all, max_rejected, &results[c]);
+                      known_, keep_all, max_rejected, &results[c]);
     }
     if (HasCrossChunkConflict(results)) {
       // Two chunks state different headings for a new item, or a chunk
@@ -759,7 +962,7 @@ class PriceReader {
       // can tell which statement comes first.
       results.resize(1);
       results[0].Reset();
-      ParsePriceChunk(data, first_line, columns_, path_, *state_, keep_all, max_rejected,
+      ParsePriceChunk(data, first_line, columns_, path_, *state_, known_, keep_all, max_rejected,
                       &results[0]);
     }
     // Sized before the first block is merged, so the first block's quotes
@@ -809,14 +1012,12 @@ class PriceReader {
     if (columns_.representative >= 0) quotes.representative.reserve(total);
     if (columns_.weight >= 0) quotes.weight.reserve(total);
     quotes.row_hash.reserve(total);
-    quotes.line.reserve(total);
     AdviseHugePages(quotes.region);
     AdviseHugePages(quotes.item);
     AdviseHugePages(quotes.log_price);
     AdviseHugePages(quotes.representative);
     AdviseHugePages(quotes.weight);
     AdviseHugePages(quotes.row_hash);
-    AdviseHugePages(quotes.line);
   }
 
   // Adds a chunk's rows for one item and heading to the item's conflict.
@@ -919,46 +1120,74 @@ class PriceReader {
       has_flag = has_flag || !results[c].quotes.representative.empty();
       has_weight = has_weight || !results[c].quotes.weight.empty();
     }
-    const size_t total = offset[num_chunks];
-    if (total == before) return;
+    if (offset[num_chunks] == before) return;
     // An array stays empty until a file has its column; the quotes of the
     // other files are not representative (0) and weigh 1.
     if (has_flag && global.representative.empty()) global.representative.assign(before, 0);
     if (has_weight && global.weight.empty()) global.weight.assign(before, 1.0);
+    for (size_t c = 0; c < num_chunks; ++c) state_->quote_lines.Append(results[c].lines, offset[c]);
     const int num_threads = NumThreads(static_cast<int>(num_chunks));
-    // Each array is grown by one thread (growing fills it).
+    // Each array is appended to by one thread, chunk after chunk, into
+    // capacity reserved before (no zero-filling first; region and item
+    // indices are mapped in place just after their copy).
 #pragma omp parallel for schedule(dynamic, 1) num_threads(num_threads)
-    for (int a = 0; a < 7; ++a) {
-      switch (a) {
-        case 0: global.region.resize(total); break;
-        case 1: global.item.resize(total); break;
-        case 2: global.log_price.resize(total); break;
-        case 3: global.row_hash.resize(total); break;
-        case 4: global.line.resize(total); break;
-        case 5: if (has_flag) global.representative.resize(total, 0); break;
-        default: if (has_weight) global.weight.resize(total, 1.0); break;
+    for (int a = 0; a < 6; ++a) {
+      for (size_t c = 0; c < num_chunks; ++c) {
+        const QuoteArrays& local = results[c].quotes;
+        const size_t n = local.size();
+        switch (a) {
+          case 0: AppendRegions(results[c], &global.region); break;
+          case 1: AppendItems(results[c], &global.item); break;
+          case 2: Append(local.log_price, &global.log_price); break;
+          case 3: Append(local.row_hash, &global.row_hash); break;
+          case 4:
+            if (!has_flag) break;
+            if (local.representative.empty()) {
+              global.representative.insert(global.representative.end(), n, 0);
+            } else {
+              Append(local.representative, &global.representative);
+            }
+            break;
+          default:
+            if (!has_weight) break;
+            if (local.weight.empty()) {
+              global.weight.insert(global.weight.end(), n, 1.0);
+            } else {
+              Append(local.weight, &global.weight);
+            }
+            break;
+        }
       }
     }
-#pragma omp parallel for schedule(dynamic, 1) num_threads(num_threads)
-    for (size_t c = 0; c < num_chunks; ++c) {
-      const QuoteArrays& local = results[c].quotes;
-      const size_t at = offset[c], n = local.size();
-      const std::vector<int>& region_map = results[c].region_map;
-      const std::vector<int>& item_map = results[c].item_map;
-      if (region_map.empty()) {
-        std::copy_n(local.region.begin(), n, global.region.begin() + at);
-      } else {
-        for (size_t q = 0; q < n; ++q) global.region[at + q] = region_map[local.region[q]];
-      }
-      for (size_t q = 0; q < n; ++q) global.item[at + q] = item_map[local.item[q]];
-      std::copy_n(local.log_price.begin(), n, global.log_price.begin() + at);
-      if (!local.representative.empty()) {
-        std::copy_n(local.representative.begin(), n, global.representative.begin() + at);
-      }
-      if (!local.weight.empty()) std::copy_n(local.weight.begin(), n, global.weight.begin() + at);
-      std::copy_n(local.row_hash.begin(), n, global.row_hash.begin() + at);
-      std::copy_n(local.line.begin(), n, global.line.begin() + at);
+  }
+
+  template <typename T>
+  static void Append(const std::vector<T>& from, std::vector<T>* to) {
+    to->insert(to->end(), from.begin(), from.end());
+  }
+
+  // The chunk's regions as the survey's indices.
+  static void AppendRegions(const ChunkResult& result, std::vector<int32_t>* to) {
+    const std::vector<int>& map = result.region_map;
+    if (map.empty()) {
+      Append(result.quotes.region, to);
+      return;
     }
+    const size_t at = to->size();
+    Append(result.quotes.region, to);
+    std::transform(to->begin() + at, to->end(), to->begin() + at,
+                   [&map](int32_t r) { return int32_t{map[r]}; });
+  }
+
+  // The chunk's items as the survey's indices (see ChunkResult::item_base).
+  static void AppendItems(const ChunkResult& result, std::vector<int32_t>* to) {
+    const std::vector<int>& map = result.item_map;
+    const int32_t base = result.item_base;
+    const size_t at = to->size();
+    Append(result.quotes.item, to);
+    std::transform(to->begin() + at, to->end(), to->begin() + at, [&map, base](int32_t item) {
+      return item < base ? item : int32_t{map[item - base]};
+    });
   }
 
  private:
@@ -972,6 +1201,7 @@ class PriceReader {
   InputFileSummary* file_;
   PriceColumns columns_;
   Sha256 digest_;
+  KnownCodes known_;
   std::vector<ChunkResult> results_;
   int64_t bytes_seen_ = 0;
   bool reserved_ = false;

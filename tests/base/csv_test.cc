@@ -859,6 +859,57 @@ TEST(CsvBlockReader, KeepsTheLastBlockIntactWhileTheNextIsRead) {
 }
 
 // Only records the field scan saw to be ASCII skip the UTF-8 check.
+// Records followed by at least 16 bytes are split from whole 16-byte blocks
+// when plain (unquoted ASCII fields, LF end); every other kind of record in
+// the same data, and the limits, must come out as byte-by-byte reading gives
+// them.
+TEST(CsvReader, ReadsPlainAndOtherRecordsAlikeWhenBlocksFollow) {
+  const std::string padding = "pad,pad,pad,pad,pad,pad\n";
+  const std::string long_field(300, 'L');
+  const std::string data = "a,,c\n"                 // plain, an empty field
+                           "r\xc3\xa9gion,9\n"      // not ASCII
+                           "\n\n"                   // blank lines, counted
+                           "cr,line\r\n"            // CRLF
+                           "\"q,1\",2\n"             // quoted
+                           "x," + long_field + "\n"  // longer than 256 bytes
+                           "last,one,\n" + padding + padding;
+  const ReadResult result = ReadAll(data);
+  ASSERT_EQ(result.error, "");
+  ASSERT_EQ(result.records.size(), 8u);
+  const std::vector<std::vector<std::string>> fields = FieldsOf(result);
+  EXPECT_EQ(fields[0], (std::vector<std::string>{"a", "", "c"}));
+  EXPECT_EQ(fields[1], (std::vector<std::string>{"r\xc3\xa9gion", "9"}));
+  EXPECT_EQ(fields[2], (std::vector<std::string>{"cr", "line"}));
+  EXPECT_EQ(fields[3], (std::vector<std::string>{"q,1", "2"}));
+  EXPECT_EQ(fields[4], (std::vector<std::string>{"x", long_field}));
+  EXPECT_EQ(fields[5], (std::vector<std::string>{"last", "one", ""}));
+  // Lines: the blank lines 3 and 4 are skipped.
+  const std::vector<int64_t> lines = {1, 2, 5, 6, 7, 8, 9, 10};
+  for (size_t k = 0; k < lines.size(); ++k) EXPECT_EQ(result.records[k].line, lines[k]) << k;
+  EXPECT_EQ(result.records[2].raw, "cr,line");
+  EXPECT_EQ(result.records[5].raw, "last,one,");
+  EXPECT_EQ(result.records[5].offset, static_cast<int64_t>(data.find("last")));
+  CsvReader reader(data);
+  CsvRecord record;
+  std::vector<bool> ascii;
+  while (reader.Next(&record)) ascii.push_back(record.ascii);
+  EXPECT_EQ(ascii, (std::vector<bool>{true, false, true, false, true, true, true, true}));
+  // The limits hold for records split from blocks: the same messages as
+  // for the records at the end of the data above.
+  EXPECT_EQ(ReadAll("ab,abcd\nab,cdefg\n" + padding, 1, true, 0, SmallLimits(4, 100)).error,
+            "2:2: a field longer than 4 bytes (limits.max_field_bytes); raise the limit if the "
+            "file is right");
+  EXPECT_EQ(ReadAll("abc,defghij\n" + padding, 1, true, 0, SmallLimits(5, 8)).error,
+            "1: a record longer than 8 bytes (limits.max_record_bytes); raise the limit if the "
+            "file is right");
+  const ReadResult exact = ReadAll("abcde,ghij\nab\n" + padding, 1, true, 0, SmallLimits(100, 10));
+  // 10 bytes, line end aside, are within the limit; the padding row (23) is not.
+  EXPECT_EQ(exact.records.size(), 2u);
+  EXPECT_EQ(exact.error,
+            "3: a record longer than 10 bytes (limits.max_record_bytes); raise the limit if the "
+            "file is right");
+}
+
 TEST(CsvReader, MarksRecordsSeenToBeAsciiOnly) {
   const std::string data =
       "plain,ascii,row\n"

@@ -889,6 +889,56 @@ TEST(LoadSurvey, GivesTheSameCellsForSmallBlocksAsForOneBlock) {
   EXPECT_EQ(FileOf(whole, "prices").ignored_columns, std::vector<std::string>{"description"});
 }
 
+// Once a block is merged, its regions and items are known to the next
+// blocks, which settle a row restating them by one lookup: rows that restate
+// them with spaces, no heading or another heading must come out as in one
+// block, where the item was first seen in the same chunk.
+TEST(LoadSurvey, ReadsKnownCodesInLaterBlocksAsInTheBlockThatStatedThem) {
+  std::string prices = "region,item,price,heading\nr0,apple,2.5,h1\nr1,pear,3,h2\n";
+  for (int k = 0; k < 600; ++k) {
+    prices += "r" + std::to_string(k % 3) + (k % 2 == 0 ? ",apple,2." : ",pear,3.") +
+              std::to_string(k) + (k % 2 == 0 ? ",h1\n" : ",h2\n");
+  }
+  ASSERT_GT(prices.size(), 2u * 4096);  // The rows below are in a later block.
+  prices +=
+      "r1,apple,7,h1\n"       // settled by the lookup
+      " r1 ,apple,7.5, h1 \n"  // spaces around codes: the general way, accepted
+      "r2, apple,8,\n"         // no heading: accepted
+      "r2,apple,9,h2\n"        // another heading: a conflict
+      "r9,apple,9,h1\n"        // not in regions.csv
+      "r0,apple,x,h1\n"        // a bad price
+      "r0,apple,-1,h1\n";      // not positive
+  const SurveyDir files =
+      MakeSurvey("known_codes", prices,
+                 "region,heading,expenditure\nr0,h1,1\nr1,h1,1\nr2,h1,1\nr0,h2,1\nr1,h2,1\n"
+                 "r2,h2,1\n",
+                 std::nullopt, "region,name\nr0,Zero\nr1,One\nr2,Two\n");
+  LoadOptions options;
+  options.invalid_rows = InvalidRowPolicy::kSkip;
+  Survey one_block, small_blocks;
+  const LoadSummary whole = Load(files.config, &one_block, options);
+  options.block_bytes = 4096;
+  const LoadSummary blocked = Load(files.config, &small_blocks, options);
+  ASSERT_EQ(whole.outcome, LoadOutcome::kOk) << whole.message;
+  ASSERT_EQ(blocked.outcome, LoadOutcome::kOk) << blocked.message;
+  ExpectSameCells(one_block, small_blocks);
+  EXPECT_EQ(one_block.num_quotes, 2 + 600 + 3);
+  const int64_t first = 2 + 2 + 600;  // the line of "r1,apple,7,h1"
+  const std::vector<std::string> expected = {
+      files.prices() + ":" + std::to_string(first + 3) +
+          ":4: item 'apple' is filed under heading 'h2' but under 'h1' at line 2",
+      files.prices() + ":" + std::to_string(first + 4) + ":1: region 'r9' is not in " +
+          files.regions(),
+      files.prices() + ":" + std::to_string(first + 5) + ":3: price 'x' is not a number",
+      files.prices() + ":" + std::to_string(first + 6) + ":3: price '-1' is not a positive number"};
+  for (const LoadSummary* summary : {&whole, &blocked}) {
+    ASSERT_EQ(summary->rejected_rows.size(), expected.size());
+    for (size_t k = 0; k < expected.size(); ++k) {
+      EXPECT_EQ(summary->rejected_rows[k].reason, expected[k]);
+    }
+  }
+}
+
 TEST(LoadSurvey, GivesTheSameCellsAndRejectionsForOneAndTwoThreads) {
   std::string prices = LargePrices();
   prices += "r1,item1,x,-2,h1,0\n";
