@@ -48,18 +48,32 @@ paritas::NodeArrays RandomArrays(int regions, int headings) {
   return arrays;
 }
 
+// REGIONS HEADINGS [REPS [THREADS]] after the mode's flag (REPS default 3,
+// THREADS 1); sets OpenMP's thread count. False (usage printed) when short.
+struct Shape {
+  int regions = 0, headings = 0, repetitions = 3, threads = 1;
+};
+
+bool ReadShape(int argc, char** argv, const char* mode, Shape* shape) {
+  if (argc < 4) {
+    std::fprintf(stderr, "usage: aggregation_bench %s REGIONS HEADINGS [REPS [THREADS]]\n", mode);
+    return false;
+  }
+  shape->regions = std::atoi(argv[2]);
+  shape->headings = std::atoi(argv[3]);
+  shape->repetitions = argc > 4 ? std::max(1, std::atoi(argv[4])) : 3;
+  shape->threads = argc > 5 ? std::max(1, std::atoi(argv[5])) : 1;
+  omp_set_num_threads(shape->threads);
+  return true;
+}
+
 // GEKS over `index` on REGIONS x HEADINGS random arrays: the full-matrix
 // path against the row blocks, fastest of `repetitions` each.
 int GeksPaths(paritas::GeksIndex index, int argc, char** argv) {
-  if (argc < 4) {
-    std::fprintf(stderr, "usage: aggregation_bench --geks-fisher|--geks-tornqvist REGIONS HEADINGS "
-                 "[REPS [THREADS]]\n");
-    return 1;
-  }
-  const int regions = std::atoi(argv[2]), headings = std::atoi(argv[3]);
-  const int repetitions = argc > 4 ? std::max(1, std::atoi(argv[4])) : 3;
-  const int threads = argc > 5 ? std::max(1, std::atoi(argv[5])) : 1;
-  omp_set_num_threads(threads);
+  Shape shape;
+  if (!ReadShape(argc, argv, "--geks-fisher|--geks-tornqvist", &shape)) return 1;
+  const int regions = shape.regions, headings = shape.headings;
+  const int repetitions = shape.repetitions, threads = shape.threads;
   const paritas::NodeArrays arrays = RandomArrays(regions, headings);
   double matrix_seconds = 1e300, block_seconds = 1e300;
   paritas::AggregateParities by_matrix, by_blocks;
@@ -105,15 +119,10 @@ int GeksPaths(paritas::GeksIndex index, int argc, char** argv) {
 // AllPairsSpreads) against together (GeksFisherAndSpreadsByRowBlocks),
 // fastest of `repetitions` each; checks that both give the same bits.
 int GeksWithSpreads(int argc, char** argv) {
-  if (argc < 4) {
-    std::fprintf(stderr, "usage: aggregation_bench --geks-fisher-spreads REGIONS HEADINGS "
-                 "[REPS [THREADS]]\n");
-    return 1;
-  }
-  const int regions = std::atoi(argv[2]), headings = std::atoi(argv[3]);
-  const int repetitions = argc > 4 ? std::max(1, std::atoi(argv[4])) : 3;
-  const int threads = argc > 5 ? std::max(1, std::atoi(argv[5])) : 1;
-  omp_set_num_threads(threads);
+  Shape shape;
+  if (!ReadShape(argc, argv, "--geks-fisher-spreads", &shape)) return 1;
+  const int regions = shape.regions, headings = shape.headings;
+  const int repetitions = shape.repetitions, threads = shape.threads;
   const paritas::NodeArrays arrays = RandomArrays(regions, headings);
   paritas::GeksBlockOptions options;
   options.num_threads = threads;

@@ -393,6 +393,22 @@ TEST(LeaveOneOut, LargestChangeIsTheLargestOverItemsDroppedOneByOne) {
   EXPECT_EQ(summary.num_headings_dropped, survey.num_headings());
 }
 
+// The survey with only the quotes of (region, item) for which `keep` holds.
+template <typename Keep>
+synthetic::SyntheticSurvey KeepQuotes(const synthetic::SyntheticSurvey& truth, Keep keep) {
+  synthetic::SyntheticSurvey kept = truth;
+  kept.quote_region.clear(), kept.quote_item.clear(), kept.quote_price.clear();
+  kept.quote_representative.clear();
+  for (size_t q = 0; q < truth.quote_region.size(); ++q) {
+    if (!keep(truth.quote_region[q], truth.quote_item[q])) continue;
+    kept.quote_region.push_back(truth.quote_region[q]);
+    kept.quote_item.push_back(truth.quote_item[q]);
+    kept.quote_price.push_back(truth.quote_price[q]);
+    kept.quote_representative.push_back(truth.quote_representative[q]);
+  }
+  return kept;
+}
+
 // Leave-one-out is defined as the run without the item (ReplicateParities
 // with its weight 0, the route DroppingAnItemEqualsRecomputingWithoutIt ties
 // to compute): the same missing_parities rule applies when a region loses
@@ -479,17 +495,10 @@ TEST_P(LeaveOneOutRules, ChangesAndJackknifeEqualRunsWithoutEachItem) {
   // Region 1 prices nothing in heading 0 and region 2 nothing in heading 2
   // (headings 0 and 1 form one group, 2 and 3 the other), so that the full
   // sample has parities a rule fills, resting on other headings' items.
-  synthetic::SyntheticSurvey holed = truth;
-  holed.quote_region.clear(), holed.quote_item.clear(), holed.quote_price.clear();
-  holed.quote_representative.clear();
-  for (size_t q = 0; q < truth.quote_region.size(); ++q) {
-    const int r = truth.quote_region[q], h = truth.item_heading[truth.quote_item[q]];
-    if ((r == 1 && h == 0) || (r == 2 && h == 2)) continue;
-    holed.quote_region.push_back(r);
-    holed.quote_item.push_back(truth.quote_item[q]);
-    holed.quote_price.push_back(truth.quote_price[q]);
-    holed.quote_representative.push_back(truth.quote_representative[q]);
-  }
+  const synthetic::SyntheticSurvey holed = KeepQuotes(truth, [&](int r, int i) {
+    const int h = truth.item_heading[i];
+    return !((r == 1 && h == 0) || (r == 2 && h == 2));
+  });
   const Survey survey = LoadFolder(WriteSynthetic(holed, "loo-rules"));
   // Under like:, heading 0 rests on the heading of the other group where
   // region 1 prices more items (a region pricing only the anchor keeps its
@@ -560,19 +569,10 @@ TEST(LeaveOneOut, ARegionTheParentRuleCouldNotFillGetsAFillWhenAnItemSplitsTheAg
   options.items_per_heading = 2;
   options.coverage = 1.0;
   const synthetic::SyntheticSurvey truth = synthetic::Generate(options);
-  synthetic::SyntheticSurvey cut = truth;
-  cut.quote_region.clear(), cut.quote_item.clear(), cut.quote_price.clear();
-  cut.quote_representative.clear();
   const std::vector<std::set<int>> item_regions = {{0, 1, 2, 4, 5, 6}, {0, 1, 2, 4, 5, 6}, {3, 4, 5},
                                                    {3, 4, 5},          {0, 1, 2, 6},       {0, 1}};
-  for (size_t q = 0; q < truth.quote_region.size(); ++q) {
-    const int r = truth.quote_region[q], i = truth.quote_item[q];
-    if (!item_regions[i].count(r)) continue;
-    cut.quote_region.push_back(r);
-    cut.quote_item.push_back(i);
-    cut.quote_price.push_back(truth.quote_price[q]);
-    cut.quote_representative.push_back(truth.quote_representative[q]);
-  }
+  const synthetic::SyntheticSurvey cut =
+      KeepQuotes(truth, [&](int r, int i) { return item_regions[i].count(r) > 0; });
   const Survey survey = LoadFolder(WriteSynthetic(cut, "loo-proxy-switch"));
   ComputeOptions compute;
   compute.missing_parities.headings = {{truth.headings[0], "parent"}};
