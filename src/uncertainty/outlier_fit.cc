@@ -33,6 +33,9 @@ struct RadixDigit {
 constexpr RadixDigit kRadixDigits[] = {{52, 12}, {40, 12}, {28, 12}, {16, 12}, {4, 12}, {0, 4}};
 constexpr int kNumRadixDigits = static_cast<int>(std::size(kRadixDigits));
 constexpr int kRadixBuckets = 1 << 12;
+// Candidates few enough to be sorted rather than counted by a further digit
+// (a digit's pass clears and sums 4,096 tallies whatever the candidates).
+constexpr size_t kSortedCandidates = 32;
 
 int RadixDigitOf(uint64_t x, int level) {
   const RadixDigit& d = kRadixDigits[level];
@@ -82,7 +85,7 @@ double MedianOfNonNegative(const std::vector<uint64_t>& bits, ScaleScratch* scra
   uint64_t lower = 0;
   std::array<uint32_t, kRadixBuckets> count;
   std::span<const uint64_t> left(bits);
-  for (int level = 0; level < kNumRadixDigits && left.size() > 1; ++level) {
+  for (int level = 0; level < kNumRadixDigits && left.size() > kSortedCandidates; ++level) {
     CountRadixDigits(left, level, &scratch->tallies, count.data());
     int digit = 0;
     while (rank >= count[digit]) rank -= count[digit++];
@@ -101,11 +104,18 @@ double MedianOfNonNegative(const std::vector<uint64_t>& bits, ScaleScratch* scra
     }
     left = std::span<const uint64_t>(out, kept);
   }
-  // The candidates left all hold the middle value (or there is one).
-  const double upper = std::bit_cast<double>(left[0]);
+  // The few candidates left (or, after the last digit, copies of the middle
+  // value) are sorted; the middle value has rank `rank` among them and, when
+  // still to find, its mate of one rank less is the one before it (rank >= 1
+  // then: a rank of 0 sends the search for the mate to the buckets below).
+  std::array<uint64_t, kSortedCandidates> sorted;
+  const size_t num_left = std::min(left.size(), sorted.size());
+  std::copy(left.begin(), left.begin() + static_cast<std::ptrdiff_t>(num_left), sorted.begin());
+  std::sort(sorted.begin(), sorted.begin() + static_cast<std::ptrdiff_t>(num_left));
+  const size_t at = std::min(rank, num_left - 1);
+  const double upper = std::bit_cast<double>(sorted[at]);
   if (n % 2 == 1) return upper;
-  // Still to find: the middle value's mate of one rank less, equal to it.
-  return 0.5 * (upper + (find_lower ? upper : std::bit_cast<double>(lower)));
+  return 0.5 * (upper + std::bit_cast<double>(find_lower ? sorted[at - 1] : lower));
 }
 
 // Cells grouped by one index (counting sort): cells of group g are
@@ -330,6 +340,40 @@ void ScaleColumns(std::span<const int> a_of, std::span<const int> b_of, const Ei
   }
 }
 
+// Sets every cell's q = 1/d_b + G_aa - 2 (GC)_ab / d_b + (C'GC)_bb / d_b^2
+// (leverage has its size). With the cells listed by column of C
+// (ws.zeros_off_cells), column by column: G C is read down its contiguous
+// columns, where cell order (by item, the rows of C when items are side A)
+// would touch a cache line per cell, and a column's last term is formed once.
+// The same expression in the same order either way, so the same bits.
+void HatFactors(std::span<const int> a_of, std::span<const int> b_of, const FitWorkspace& ws,
+                Eigen::VectorXd* leverage) {
+  const Eigen::VectorXd& inverse_d_b = ws.inverse_d_b;
+  const Eigen::MatrixXd& g = ws.g;
+  const Eigen::MatrixXd& gc = ws.gc;
+  const Eigen::VectorXd& cgc = ws.cgc;
+  double* q = leverage->data();
+  if (!ws.zeros_off_cells) {
+    for (size_t k = 0; k < a_of.size(); ++k) {
+      const int a = a_of[k], b = b_of[k];
+      q[k] = inverse_d_b[b] + g(a, a) - 2.0 * gc(a, b) * inverse_d_b[b] + cgc[b] * inverse_d_b[b] * inverse_d_b[b];
+    }
+    return;
+  }
+  const int* cell = ws.cell_by_entry.data();
+  const int* row = ws.row.data();
+  const int num_b = static_cast<int>(inverse_d_b.size());
+  for (int b = 0; b < num_b; ++b) {
+    const double inverse = inverse_d_b[b];
+    const double last = cgc[b] * inverse * inverse;
+    const double* gc_column = &gc(0, b);
+    for (int j = ws.column_start[b]; j < ws.column_start[b + 1]; ++j) {
+      const int a = row[j];
+      q[cell[j]] = inverse + g(a, a) - 2.0 * gc_column[a] * inverse + last;
+    }
+  }
+}
+
 // Returns false (leverage NaN) when S + 11'/m is not positive definite.
 // `log_price` may be empty: then only the leverage is formed. Successive
 // calls with one workspace and ws->zeros_off_cells set must pass the same
@@ -381,25 +425,15 @@ bool SolveBlocks(int num_regions, int num_items, std::span<const int> region, st
   llt.solveInPlace(ws->g);
   ws->gc.noalias() = ws->g * c;
   ws->cgc = (c.array() * ws->gc.array()).colwise().sum().transpose();
-  const Eigen::MatrixXd& g = ws->g;
-  const Eigen::MatrixXd& gc = ws->gc;
-  const Eigen::VectorXd& cgc = ws->cgc;
-  auto leverage = [&](int a, int b) {
-    return inverse_d_b[b] + g(a, a) - 2.0 * gc(a, b) * inverse_d_b[b] + cgc[b] * inverse_d_b[b] * inverse_d_b[b];
-  };
-  if (!fit) {
-    for (int64_t k = 0; k < num_cells; ++k) out->leverage[k] = leverage(a_of[k], b_of[k]);
-    return true;
-  }
-  // The residuals in the same pass (a_r + b_i in either order: the sum of
-  // two numbers does not depend on their order).
+  HatFactors(a_of, b_of, *ws, &out->leverage);
+  if (!fit) return true;
+  // a_r + b_i in either order: the sum of two numbers does not depend on
+  // their order.
   const Eigen::VectorXd& effect_a = regions_dense ? out->region_effect : out->item_effect;
   const Eigen::VectorXd& effect_b = regions_dense ? out->item_effect : out->region_effect;
   out->residual.resize(num_cells);
   for (int64_t k = 0; k < num_cells; ++k) {
-    const int a = a_of[k], b = b_of[k];
-    out->leverage[k] = leverage(a, b);
-    out->residual[k] = log_price[k] - (effect_a[a] + effect_b[b]);
+    out->residual[k] = log_price[k] - (effect_a[a_of[k]] + effect_b[b_of[k]]);
   }
   return true;
 }
