@@ -74,10 +74,11 @@ void CountRadixDigits(std::span<const uint64_t> values, int level, std::vector<u
 // non-negative double orders as its bit pattern, so the middle value is
 // found by radix selection: the candidates are counted per digit and those
 // in the digit bucket holding the rank sought are kept (a branch-free
-// compaction), digit by digit from the top; no comparison depends on the
-// data. For an even count, the value just below the middle is the middle's
-// bucket mate of one rank less or, when the middle is the lowest of its
-// bucket, the largest candidate of the buckets below it.
+// compaction), digit by digit from the top, until at most 32 are left,
+// which are sorted; no other comparison depends on the data. For an even
+// count, the value just below the middle is the middle's bucket mate of one
+// rank less or, when the middle is the lowest of its bucket, the largest
+// candidate of the buckets below it.
 double MedianOfNonNegative(const std::vector<uint64_t>& bits, ScaleScratch* scratch) {
   const size_t n = bits.size();
   size_t rank = n / 2;  // rank sought among the candidates left
@@ -340,40 +341,6 @@ void ScaleColumns(std::span<const int> a_of, std::span<const int> b_of, const Ei
   }
 }
 
-// Sets every cell's q = 1/d_b + G_aa - 2 (GC)_ab / d_b + (C'GC)_bb / d_b^2
-// (leverage has its size). With the cells listed by column of C
-// (ws.zeros_off_cells), column by column: G C is read down its contiguous
-// columns, where cell order (by item, the rows of C when items are side A)
-// would touch a cache line per cell, and a column's last term is formed once.
-// The same expression in the same order either way, so the same bits.
-void HatFactors(std::span<const int> a_of, std::span<const int> b_of, const FitWorkspace& ws,
-                Eigen::VectorXd* leverage) {
-  const Eigen::VectorXd& inverse_d_b = ws.inverse_d_b;
-  const Eigen::MatrixXd& g = ws.g;
-  const Eigen::MatrixXd& gc = ws.gc;
-  const Eigen::VectorXd& cgc = ws.cgc;
-  double* q = leverage->data();
-  if (!ws.zeros_off_cells) {
-    for (size_t k = 0; k < a_of.size(); ++k) {
-      const int a = a_of[k], b = b_of[k];
-      q[k] = inverse_d_b[b] + g(a, a) - 2.0 * gc(a, b) * inverse_d_b[b] + cgc[b] * inverse_d_b[b] * inverse_d_b[b];
-    }
-    return;
-  }
-  const int* cell = ws.cell_by_entry.data();
-  const int* row = ws.row.data();
-  const int num_b = static_cast<int>(inverse_d_b.size());
-  for (int b = 0; b < num_b; ++b) {
-    const double inverse = inverse_d_b[b];
-    const double last = cgc[b] * inverse * inverse;
-    const double* gc_column = &gc(0, b);
-    for (int j = ws.column_start[b]; j < ws.column_start[b + 1]; ++j) {
-      const int a = row[j];
-      q[cell[j]] = inverse + g(a, a) - 2.0 * gc_column[a] * inverse + last;
-    }
-  }
-}
-
 // Returns false (leverage NaN) when S + 11'/m is not positive definite.
 // `log_price` may be empty: then only the leverage is formed. Successive
 // calls with one workspace and ws->zeros_off_cells set must pass the same
@@ -425,15 +392,25 @@ bool SolveBlocks(int num_regions, int num_items, std::span<const int> region, st
   llt.solveInPlace(ws->g);
   ws->gc.noalias() = ws->g * c;
   ws->cgc = (c.array() * ws->gc.array()).colwise().sum().transpose();
-  HatFactors(a_of, b_of, *ws, &out->leverage);
-  if (!fit) return true;
-  // a_r + b_i in either order: the sum of two numbers does not depend on
-  // their order.
+  const Eigen::MatrixXd& g = ws->g;
+  const Eigen::MatrixXd& gc = ws->gc;
+  const Eigen::VectorXd& cgc = ws->cgc;
+  auto leverage = [&](int a, int b) {
+    return inverse_d_b[b] + g(a, a) - 2.0 * gc(a, b) * inverse_d_b[b] + cgc[b] * inverse_d_b[b] * inverse_d_b[b];
+  };
+  if (!fit) {
+    for (int64_t k = 0; k < num_cells; ++k) out->leverage[k] = leverage(a_of[k], b_of[k]);
+    return true;
+  }
+  // The residuals in the same pass (a_r + b_i in either order: the sum of
+  // two numbers does not depend on their order).
   const Eigen::VectorXd& effect_a = regions_dense ? out->region_effect : out->item_effect;
   const Eigen::VectorXd& effect_b = regions_dense ? out->item_effect : out->region_effect;
   out->residual.resize(num_cells);
   for (int64_t k = 0; k < num_cells; ++k) {
-    out->residual[k] = log_price[k] - (effect_a[a_of[k]] + effect_b[b_of[k]]);
+    const int a = a_of[k], b = b_of[k];
+    out->leverage[k] = leverage(a, b);
+    out->residual[k] = log_price[k] - (effect_a[a] + effect_b[b]);
   }
   return true;
 }

@@ -324,34 +324,17 @@ bool Beyond(double log_observed, double sd, const Prediction& p, double threshol
   return std::abs(*z) > threshold;
 }
 
-// sqrt(1 + 1 / (n - 1)), the standard deviation of a quote's gap to the
-// mean of its n - 1 cell mates in units of one quote's, formed once per
-// count of quotes that most cells have rather than once per cell (the same
-// operations, so the same bits).
-class MateFactors {
- public:
-  MateFactors() {
-    for (int n = 2; n < kNumKept; ++n) kept_[n] = Form(n);
-  }
-  double Of(int n) const { return n < kNumKept ? kept_[n] : Form(n); }
-
- private:
-  static constexpr int kNumKept = 32;
-  static double Form(int n) { return std::sqrt(1.0 + 1.0 / (n - 1)); }
-  std::array<double, kNumKept> kept_{};
-};
-
 // Lists the lowest and highest quote of cell c when it is far from the
 // prediction and also from the mean of the cell's other quotes: one bad
 // quote among good ones, not a cell whose quotes all share one error (that
 // is the cell's row). The second test needs no model, so a prediction that
 // is off cannot make a cell's quotes look wrong.
 void ScreenQuotes(const Survey& survey, int h, int64_t c, const Prediction& p, double within_sd,
-                  const MateFactors& mate_factors, double threshold, std::vector<Outlier>* flagged) {
+                  double threshold, std::vector<Outlier>* flagged) {
   const int n = survey.cells.num_quotes[c];
   if (n < 2) return;
   double quote_sd = kNaN;  // formed when first needed: most cells' quotes are not apart
-  const double mate_sd = within_sd * mate_factors.Of(n);
+  const double mate_sd = within_sd * std::sqrt(1.0 + 1.0 / (n - 1));
   for (OutlierKind kind : {OutlierKind::kLowestQuote, OutlierKind::kHighestQuote}) {
     const double x = kind == OutlierKind::kLowestQuote ? survey.cells.log_min[c] : survey.cells.log_max[c];
     const double mates = (n * survey.cells.log_price[c] - x) / (n - 1);
@@ -378,7 +361,6 @@ HeadingRows ScreenHeading(const Survey& survey, int h, const ScreenFit& fit, con
   int num_regions_present = 0;
   for (int r = 0; r < survey.num_regions(); ++r) num_regions_present += std::isfinite(fit.log_parity[r]) ? 1 : 0;
   const double within_sd = WithinCellSd(survey, h);
-  const MateFactors mate_factors;
   for (int64_t k = 0; k < range.num_cells(); ++k) {
     const int64_t c = range.cell_begin + k;
     const Prediction p = PredictCell(survey, h, k, fit, context, num_regions_present);
@@ -394,7 +376,7 @@ HeadingRows ScreenHeading(const Survey& survey, int h, const ScreenFit& fit, con
       rows.flagged.back().standardised_residual = z;
       ++rows.num_flagged_by_region[survey.cells.region[c]];
     }
-    ScreenQuotes(survey, h, c, p, within_sd, mate_factors, options.threshold, &rows.flagged);
+    ScreenQuotes(survey, h, c, p, within_sd, options.threshold, &rows.flagged);
   }
   return rows;
 }

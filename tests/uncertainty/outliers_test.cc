@@ -491,40 +491,6 @@ TEST(ScreenFit, LeverageFactorsCountRepeatedCellsInTheNormalEquations) {
   for (int k = 0; k < 9; ++k) PARITAS_EXPECT_CLOSE(q[k], x.row(k) * pinv * x.row(k).transpose(), 1e-10);
 }
 
-// A cell of weight 0 changes no sum of X'WX, but its entry of C is then no
-// longer the cells' alone, so the hat factors are formed cell by cell
-// instead of column by column of C: the other cells get the same bits.
-TEST(ScreenFit, LeverageFactorsHaveTheSameBitsCellByCellAndColumnByColumn) {
-  std::mt19937_64 random(3);
-  for (bool regions_dense : {false, true}) {
-    const int num_a = 7, num_b = 40;  // side A (dense) and side B
-    std::vector<int> a, b;
-    std::vector<double> weights;
-    for (int i = 0; i < num_a; ++i) {
-      for (int j = 0; j < num_b; ++j) {
-        if (i > 0 && j > 0 && random() % 3 == 0) continue;
-        a.push_back(i);
-        b.push_back(j);
-        weights.push_back(0.05 + static_cast<double>(random() % 1000) / 1000.0);
-      }
-    }
-    const int n = static_cast<int>(a.size());
-    Eigen::VectorXd weight = Eigen::Map<Eigen::VectorXd>(weights.data(), n);
-    const std::vector<int>& region = regions_dense ? a : b;
-    const std::vector<int>& item = regions_dense ? b : a;
-    const int num_regions = regions_dense ? num_a : num_b, num_items = regions_dense ? num_b : num_a;
-    const Eigen::VectorXd by_column = internal::LeverageFactors(num_regions, num_items, region, item, weight);
-    std::vector<int> region_plus = region, item_plus = item;
-    region_plus.push_back(region[1]);  // a second cell at cell 1's entry, weight 0
-    item_plus.push_back(item[1]);
-    Eigen::VectorXd weight_plus(n + 1);
-    weight_plus << weight, 0.0;
-    const Eigen::VectorXd by_cell =
-        internal::LeverageFactors(num_regions, num_items, region_plus, item_plus, weight_plus);
-    for (int k = 0; k < n; ++k) EXPECT_EQ(by_cell[k], by_column[k]) << k;
-  }
-}
-
 // One workspace carried from heading to heading (as each thread of
 // FindOutliers does) leaves no trace in the fits: headings of the same or
 // other shapes in between, regions or items on the dense side, give the
