@@ -33,6 +33,9 @@ struct RadixDigit {
 constexpr RadixDigit kRadixDigits[] = {{52, 12}, {40, 12}, {28, 12}, {16, 12}, {4, 12}, {0, 4}};
 constexpr int kNumRadixDigits = static_cast<int>(std::size(kRadixDigits));
 constexpr int kRadixBuckets = 1 << 12;
+// Candidates few enough to be sorted rather than counted by a further digit
+// (a digit's pass clears and sums 4,096 tallies whatever the candidates).
+constexpr size_t kSortedCandidates = 32;
 
 int RadixDigitOf(uint64_t x, int level) {
   const RadixDigit& d = kRadixDigits[level];
@@ -71,10 +74,11 @@ void CountRadixDigits(std::span<const uint64_t> values, int level, std::vector<u
 // non-negative double orders as its bit pattern, so the middle value is
 // found by radix selection: the candidates are counted per digit and those
 // in the digit bucket holding the rank sought are kept (a branch-free
-// compaction), digit by digit from the top; no comparison depends on the
-// data. For an even count, the value just below the middle is the middle's
-// bucket mate of one rank less or, when the middle is the lowest of its
-// bucket, the largest candidate of the buckets below it.
+// compaction), digit by digit from the top, until at most 32 are left,
+// which are sorted; no other comparison depends on the data. For an even
+// count, the value just below the middle is the middle's bucket mate of one
+// rank less or, when the middle is the lowest of its bucket, the largest
+// candidate of the buckets below it.
 double MedianOfNonNegative(const std::vector<uint64_t>& bits, ScaleScratch* scratch) {
   const size_t n = bits.size();
   size_t rank = n / 2;  // rank sought among the candidates left
@@ -82,7 +86,7 @@ double MedianOfNonNegative(const std::vector<uint64_t>& bits, ScaleScratch* scra
   uint64_t lower = 0;
   std::array<uint32_t, kRadixBuckets> count;
   std::span<const uint64_t> left(bits);
-  for (int level = 0; level < kNumRadixDigits && left.size() > 1; ++level) {
+  for (int level = 0; level < kNumRadixDigits && left.size() > kSortedCandidates; ++level) {
     CountRadixDigits(left, level, &scratch->tallies, count.data());
     int digit = 0;
     while (rank >= count[digit]) rank -= count[digit++];
@@ -101,11 +105,18 @@ double MedianOfNonNegative(const std::vector<uint64_t>& bits, ScaleScratch* scra
     }
     left = std::span<const uint64_t>(out, kept);
   }
-  // The candidates left all hold the middle value (or there is one).
-  const double upper = std::bit_cast<double>(left[0]);
+  // The few candidates left (or, after the last digit, copies of the middle
+  // value) are sorted; the middle value has rank `rank` among them and, when
+  // still to find, its mate of one rank less is the one before it (rank >= 1
+  // then: a rank of 0 sends the search for the mate to the buckets below).
+  std::array<uint64_t, kSortedCandidates> sorted;
+  const size_t num_left = std::min(left.size(), sorted.size());
+  std::copy(left.begin(), left.begin() + static_cast<std::ptrdiff_t>(num_left), sorted.begin());
+  std::sort(sorted.begin(), sorted.begin() + static_cast<std::ptrdiff_t>(num_left));
+  const size_t at = std::min(rank, num_left - 1);
+  const double upper = std::bit_cast<double>(sorted[at]);
   if (n % 2 == 1) return upper;
-  // Still to find: the middle value's mate of one rank less, equal to it.
-  return 0.5 * (upper + (find_lower ? upper : std::bit_cast<double>(lower)));
+  return 0.5 * (upper + std::bit_cast<double>(find_lower ? sorted[at - 1] : lower));
 }
 
 // Cells grouped by one index (counting sort): cells of group g are
