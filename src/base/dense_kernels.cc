@@ -49,9 +49,9 @@ struct TileOperands {
   const double* b;
   int64_t b_step;
   int64_t b_column_step;
-  int depth;         // steps p = 0 .. depth - 1
-  int num_columns;   // 1 to 4; missing columns repeat the last one (not stored)
-  int last_rows;     // rows in the last vector, 1 to 4
+  int depth;        // steps p = 0 .. depth - 1
+  int num_columns;  // 1 to 4; missing columns repeat the last one (not stored)
+  int last_rows;    // rows in the last vector, 1 to 4
 };
 
 // acc[v][c] = sum over p in order of a(rows 4v .. 4v + 3, p) b(p, c), one
@@ -106,8 +106,8 @@ PARITAS_AVX2_FMA void ComputeTile(int num_vectors, const TileOperands& t,
 
 }  // namespace
 
-PARITAS_AVX2_FMA void SubtractGramLowerAvx2Fma(int m, int n, const double* x, int64_t ld_x, double* s,
-                                               int64_t ld_s) {
+PARITAS_AVX2_FMA void SubtractGramLowerAvx2Fma(int m, int n, const double* x, int64_t ld_x,
+                                               double* s, int64_t ld_s) {
   constexpr int kTileRows = kLanes * kMaxVectors;
   __m256d acc[kMaxVectors][kTileColumns];
   alignas(32) double sums[kMaxVectors * kLanes * kTileColumns];
@@ -118,22 +118,30 @@ PARITAS_AVX2_FMA void SubtractGramLowerAvx2Fma(int m, int n, const double* x, in
     for (int i0 = j0; i0 < m; i0 += kTileRows) {
       const int rows = m - i0 < kTileRows ? m - i0 : kTileRows;
       const int num_vectors = (rows + kLanes - 1) / kLanes;
-      const TileOperands t{x + i0, ld_x, x + j0, ld_x, 1, n, num_columns,
-                           rows - kLanes * (num_vectors - 1)};
+      const TileOperands t{.a = x + i0,
+                           .ld_a = ld_x,
+                           .b = x + j0,
+                           .b_step = ld_x,
+                           .b_column_step = 1,
+                           .depth = n,
+                           .num_columns = num_columns,
+                           .last_rows = rows - kLanes * (num_vectors - 1)};
       ComputeTile(num_vectors, t, acc);
       for (int v = 0; v < num_vectors; ++v) {
-        for (int c = 0; c < kTileColumns; ++c) _mm256_store_pd(sums + (c * kMaxVectors + v) * kLanes, acc[v][c]);
+        for (int c = 0; c < kTileColumns; ++c)
+          _mm256_store_pd(sums + (c * kMaxVectors + v) * kLanes, acc[v][c]);
       }
       for (int c = 0; c < num_columns; ++c) {
         const int j = j0 + c;
-        for (int r = j > i0 ? j - i0 : 0; r < rows; ++r) s[i0 + r + j * ld_s] -= sums[c * kTileRows + r];
+        for (int r = j > i0 ? j - i0 : 0; r < rows; ++r)
+          s[i0 + r + j * ld_s] -= sums[c * kTileRows + r];
       }
     }
   }
 }
 
-PARITAS_AVX2_FMA void MultiplyAvx2Fma(int m, int n, int k, const double* a, int64_t ld_a, const double* b,
-                                      int64_t ld_b, double* out, int64_t ld_out) {
+PARITAS_AVX2_FMA void MultiplyAvx2Fma(int m, int n, int k, const double* a, int64_t ld_a,
+                                      const double* b, int64_t ld_b, double* out, int64_t ld_out) {
   constexpr int kTileRows = kLanes * kMaxVectors;
   __m256d acc[kMaxVectors][kTileColumns];
   // Column blocks outside: a block's columns of b stay in the L1 cache while
@@ -144,13 +152,21 @@ PARITAS_AVX2_FMA void MultiplyAvx2Fma(int m, int n, int k, const double* a, int6
       const int rows = m - i0 < kTileRows ? m - i0 : kTileRows;
       const int num_vectors = (rows + kLanes - 1) / kLanes;
       const int last_rows = rows - kLanes * (num_vectors - 1);
-      const TileOperands t{a + i0, ld_a, b + j0 * ld_b, 1, ld_b, k, num_columns, last_rows};
+      const TileOperands t{.a = a + i0,
+                           .ld_a = ld_a,
+                           .b = b + j0 * ld_b,
+                           .b_step = 1,
+                           .b_column_step = ld_b,
+                           .depth = k,
+                           .num_columns = num_columns,
+                           .last_rows = last_rows};
       ComputeTile(num_vectors, t, acc);
       const __m256i last_mask = FirstLanes(last_rows);
       for (int c = 0; c < num_columns; ++c) {
         double* column = out + i0 + (j0 + c) * ld_out;
         for (int v = 0; v + 1 < num_vectors; ++v) _mm256_storeu_pd(column + kLanes * v, acc[v][c]);
-        _mm256_maskstore_pd(column + kLanes * (num_vectors - 1), last_mask, acc[num_vectors - 1][c]);
+        _mm256_maskstore_pd(column + kLanes * (num_vectors - 1), last_mask,
+                            acc[num_vectors - 1][c]);
       }
     }
   }
@@ -164,7 +180,8 @@ bool CpuHasAvx2Fma() { return false; }
 
 void SubtractGramLowerAvx2Fma(int, int, const double*, int64_t, double*, int64_t) { std::abort(); }
 
-void MultiplyAvx2Fma(int, int, int, const double*, int64_t, const double*, int64_t, double*, int64_t) {
+void MultiplyAvx2Fma(int, int, int, const double*, int64_t, const double*, int64_t, double*,
+                     int64_t) {
   std::abort();
 }
 
@@ -173,7 +190,8 @@ void MultiplyAvx2Fma(int, int, int, const double*, int64_t, const double*, int64
 DenseKernels ActiveDenseKernels() {
   static const DenseKernels active = [] {
     const char* portable = std::getenv(kPortableKernelsVariable);
-    const bool forced = portable != nullptr && portable[0] != '\0' && std::strcmp(portable, "0") != 0;
+    const bool forced =
+        portable != nullptr && portable[0] != '\0' && std::strcmp(portable, "0") != 0;
     return !forced && CpuHasAvx2Fma() ? DenseKernels::kAvx2Fma : DenseKernels::kPortable;
   }();
   return active;

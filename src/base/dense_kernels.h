@@ -52,8 +52,8 @@ void SubtractGramLowerAvx2Fma(int m, int n, const double* x, int64_t ld_x, doubl
 
 // Sets out = a b: a is m x k, b is k x n, out is m x n (not overlapping a or
 // b). k may be 0 (out = 0).
-void MultiplyAvx2Fma(int m, int n, int k, const double* a, int64_t ld_a, const double* b, int64_t ld_b,
-                     double* out, int64_t ld_out);
+void MultiplyAvx2Fma(int m, int n, int k, const double* a, int64_t ld_a, const double* b,
+                     int64_t ld_b, double* out, int64_t ld_out);
 
 }  // namespace paritas::internal
 

@@ -15,8 +15,8 @@ namespace paritas::internal {
 // x.rows()); the strict upper triangle is left as it was.
 inline void SubtractGramLower(const Eigen::MatrixXd& x, Eigen::MatrixXd* s) {
   if (ActiveDenseKernels() == DenseKernels::kAvx2Fma) {
-    SubtractGramLowerAvx2Fma(static_cast<int>(x.rows()), static_cast<int>(x.cols()), x.data(), x.rows(),
-                             s->data(), s->rows());
+    SubtractGramLowerAvx2Fma(static_cast<int>(x.rows()), static_cast<int>(x.cols()), x.data(),
+                             x.rows(), s->data(), s->rows());
   } else {
     s->selfadjointView<Eigen::Lower>().rankUpdate(x, -1.0);
   }
@@ -26,8 +26,9 @@ inline void SubtractGramLower(const Eigen::MatrixXd& x, Eigen::MatrixXd* s) {
 inline void SetProduct(const Eigen::MatrixXd& a, const Eigen::MatrixXd& b, Eigen::MatrixXd* out) {
   if (ActiveDenseKernels() == DenseKernels::kAvx2Fma) {
     out->resize(a.rows(), b.cols());
-    MultiplyAvx2Fma(static_cast<int>(a.rows()), static_cast<int>(b.cols()), static_cast<int>(a.cols()),
-                    a.data(), a.rows(), b.data(), b.rows(), out->data(), out->rows());
+    MultiplyAvx2Fma(static_cast<int>(a.rows()), static_cast<int>(b.cols()),
+                    static_cast<int>(a.cols()), a.data(), a.rows(), b.data(), b.rows(), out->data(),
+                    out->rows());
   } else {
     out->noalias() = a * b;
   }

@@ -23,9 +23,9 @@ struct Shape {
 // Row counts around the vector width (4) and the tile height (12), column
 // counts around the tile width (4), and 0.
 const std::vector<Shape>& Shapes() {
-  static const std::vector<Shape> shapes = {{1, 0},  {1, 1},  {1, 7},  {2, 3},   {3, 4},    {4, 5},
-                                            {5, 1},  {7, 9},  {8, 0},  {11, 13}, {12, 12},  {13, 4},
-                                            {17, 6}, {24, 3}, {25, 8}, {50, 999}, {49, 1000}, {64, 31}};
+  static const std::vector<Shape> shapes = {
+      {1, 0},   {1, 1},   {1, 7},  {2, 3},  {3, 4},  {4, 5},  {5, 1},    {7, 9},     {8, 0},
+      {11, 13}, {12, 12}, {13, 4}, {17, 6}, {24, 3}, {25, 8}, {50, 999}, {49, 1000}, {64, 31}};
   return shapes;
 }
 
@@ -65,7 +65,8 @@ TEST_F(DenseKernelsTest, GramUpdateFollowsTheFusedOrderAndLeavesTheUpperTriangle
     SubtractGramLowerAvx2Fma(m, n, x.data(), m, s.data(), m);
     for (int j = 0; j < m; ++j) {
       for (int i = 0; i < m; ++i) {
-        const double expected = i >= j ? before(i, j) - FusedDot(n, &x(i, 0), m, &x(j, 0), m) : before(i, j);
+        const double expected =
+            i >= j ? before(i, j) - FusedDot(n, &x(i, 0), m, &x(j, 0), m) : before(i, j);
         ASSERT_EQ(s(i, j), expected) << m << " x " << n << " at (" << i << ", " << j << ")";
       }
     }
@@ -83,12 +84,12 @@ TEST_F(DenseKernelsTest, GramUpdateAgreesWithEigenToRoundingAndExactlyOnWholeNum
       eigen.selfadjointView<Eigen::Lower>().rankUpdate(x, -1.0);
       SubtractGramLowerAvx2Fma(m, n, x.data(), m, ours.data(), m);
       // Error bound of a sum: relative to the sum of the terms' magnitudes.
-      const Eigen::MatrixXd magnitude =
-          before.cwiseAbs() + x.cwiseAbs() * x.cwiseAbs().transpose();
+      const Eigen::MatrixXd magnitude = before.cwiseAbs() + x.cwiseAbs() * x.cwiseAbs().transpose();
       for (int j = 0; j < m; ++j) {
         for (int i = j; i < m; ++i) {
           if (whole) {
-            ASSERT_EQ(ours(i, j), eigen(i, j)) << m << " x " << n << " at (" << i << ", " << j << ")";
+            ASSERT_EQ(ours(i, j), eigen(i, j))
+                << m << " x " << n << " at (" << i << ", " << j << ")";
           } else {
             ASSERT_LE(std::abs(ours(i, j) - eigen(i, j)), 1e-13 * magnitude(i, j))
                 << m << " x " << n << " at (" << i << ", " << j << ")";
@@ -106,12 +107,14 @@ TEST_F(DenseKernelsTest, ProductFollowsTheFusedOrder) {
       const int m = shape.rows, n = shape.cols;
       const Eigen::MatrixXd a = Random(m, depth, false, &random);
       const Eigen::MatrixXd b = Random(depth, n, false, &random);
-      Eigen::MatrixXd out = Eigen::MatrixXd::Constant(m, n, 7.0);  // every entry must be overwritten
+      Eigen::MatrixXd out =
+          Eigen::MatrixXd::Constant(m, n, 7.0);  // every entry must be overwritten
       MultiplyAvx2Fma(m, n, depth, a.data(), m, b.data(), depth, out.data(), m);
       for (int j = 0; j < n; ++j) {
         for (int i = 0; i < m; ++i) {
           const double expected = depth == 0 ? 0.0 : FusedDot(depth, &a(i, 0), m, &b(0, j), 1);
-          ASSERT_EQ(out(i, j), expected) << m << " x " << depth << " x " << n << " at (" << i << ", " << j << ")";
+          ASSERT_EQ(out(i, j), expected)
+              << m << " x " << depth << " x " << n << " at (" << i << ", " << j << ")";
         }
       }
     }
@@ -132,7 +135,8 @@ TEST_F(DenseKernelsTest, ProductAgreesWithEigenToRoundingAndExactlyOnWholeNumber
       for (int j = 0; j < n; ++j) {
         for (int i = 0; i < m; ++i) {
           if (whole) {
-            ASSERT_EQ(ours(i, j), eigen(i, j)) << m << " x " << n << " at (" << i << ", " << j << ")";
+            ASSERT_EQ(ours(i, j), eigen(i, j))
+                << m << " x " << n << " at (" << i << ", " << j << ")";
           } else {
             ASSERT_LE(std::abs(ours(i, j) - eigen(i, j)), 1e-13 * magnitude(i, j))
                 << m << " x " << n << " at (" << i << ", " << j << ")";
