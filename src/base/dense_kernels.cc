@@ -55,7 +55,8 @@ struct TileOperands {
 };
 
 // acc[v][c] = sum over p in order of a(rows 4v .. 4v + 3, p) b(p, c), one
-// fused multiply-add per term. kVectors is a constant at every call, so
+// fused multiply-add per term. num_vectors is a constant at every call
+// (ComputeTile), so
 // the accumulators stay in registers.
 PARITAS_AVX2_FMA inline __attribute__((always_inline)) void AccumulateTile(
     int num_vectors, const TileOperands& t, __m256d acc[kMaxVectors][kTileColumns]) {

@@ -41,9 +41,9 @@ const char* ToString(DenseKernels kernels);
 bool CpuHasAvx2Fma();
 
 // The AVX2 + FMA kernels; call them only when CpuHasAvx2Fma(). Matrices are
-// column-major: entry (i, j) of x is x[i + j * ld_x]. Entry (i, j) of a
-// result is acc - ... with acc = 0 and then acc = fma(x_ik, y_kj, acc) for
-// k = 0, 1, ... in order.
+// column-major: entry (i, j) of x is x[i + j * ld_x]. Each sum over k below
+// is formed as acc = 0, then acc = fma(x_ik, y_kj, acc) for k = 0, 1, ... in
+// order (one rounding per term), whatever the shape.
 
 // Subtracts x x' from the lower triangle of s (m x m): s(i, j) -= sum_k
 // x(i, k) x(j, k) for i >= j; x is m x n. The strict upper triangle of s is
