@@ -13,13 +13,15 @@ namespace paritas::internal {
 
 // Which code the dense products run.
 enum class DenseKernels {
-  // Eigen's products as the build compiled them (SSE2 on x86-64): the same
-  // bits on every x86-64 machine.
+  // Eigen's products as the build compiled them (SSE2 on x86-64). Eigen
+  // blocks long sums by the cache sizes it reads from the CPU, so CPUs with
+  // other caches (an L1 of 64 KiB against 32 or 48) may differ in the last
+  // digits even here.
   kPortable,
   // The AVX2 + FMA kernels below: each entry a sum over k in order, one
-  // fused multiply-add per term, so the same bits whatever the shape's
-  // tiling, but not the bits of the portable products (the last digits of
-  // a result may differ).
+  // fused multiply-add per term; no machine parameter enters, so every CPU
+  // with AVX2 + FMA gives the same bits, but not the portable products'
+  // (the last digits of a result may differ).
   kAvx2Fma,
 };
 
