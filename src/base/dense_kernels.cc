@@ -109,6 +109,7 @@ PARITAS_AVX2_FMA void ComputeTile(int num_vectors, const TileOperands& t,
 
 PARITAS_AVX2_FMA void SubtractGramLowerAvx2Fma(int m, int n, const double* x, int64_t ld_x,
                                                double* s, int64_t ld_s) {
+  if (n == 0) return;  // s - 0 is s, -0 included; x may then be null
   constexpr int kTileRows = kLanes * kMaxVectors;
   __m256d acc[kMaxVectors][kTileColumns];
   alignas(32) double sums[kMaxVectors * kLanes * kTileColumns];
@@ -143,6 +144,12 @@ PARITAS_AVX2_FMA void SubtractGramLowerAvx2Fma(int m, int n, const double* x, in
 
 PARITAS_AVX2_FMA void MultiplyAvx2Fma(int m, int n, int k, const double* a, int64_t ld_a,
                                       const double* b, int64_t ld_b, double* out, int64_t ld_out) {
+  if (k == 0) {  // a and b may then be null
+    for (int j = 0; j < n; ++j) {
+      for (int i = 0; i < m; ++i) out[i + j * ld_out] = 0.0;
+    }
+    return;
+  }
   constexpr int kTileRows = kLanes * kMaxVectors;
   __m256d acc[kMaxVectors][kTileColumns];
   // Column blocks outside: a block's columns of b stay in the L1 cache while
