@@ -13,6 +13,11 @@
 // config, after loading it and computing its parities once: wall and CPU
 // seconds per run, and a digest of outliers.csv and dispersion.csv (FNV-1a)
 // so that two builds can be checked to give the same screen.
+//    or: outlier_screen_bench --kernels [m=50] [n=1000] [repeats=2000]
+// The third form times the screen's two dense products alone at its shape
+// (m items, n regions): the rank update S -= X X' (X m x n) and G C (m x m
+// times m x n), Eigen's against the AVX2 + FMA kernels, in GFLOP/s
+// (counting m (m + 1) n and 2 m^2 n).
 #include <chrono>
 #include <cmath>
 #include <ctime>
@@ -25,6 +30,9 @@
 #include <unistd.h>
 #include <vector>
 
+#include <Eigen/Core>
+
+#include "base/dense_kernels.h"
 #include "paritas/compute/compute.h"
 #include "paritas/survey/config.h"
 #include "paritas/survey/survey_loader.h"
@@ -280,7 +288,47 @@ int TimeScreen(const std::string& config_path, int runs, int threads) {
   return 0;
 }
 
+// Returns GFLOP/s of `product` run `repeats` times (flop per run given).
+template <typename Product>
+double GigaflopsPerSecond(int repeats, double flop, Product product) {
+  const auto start = std::chrono::steady_clock::now();
+  for (int r = 0; r < repeats; ++r) product();
+  const double seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+  return repeats * flop / seconds * 1e-9;
+}
+
+int TimeKernels(int m, int n, int repeats) {
+  Eigen::MatrixXd x = Eigen::MatrixXd::Random(m, n), g = Eigen::MatrixXd::Random(m, m);
+  Eigen::MatrixXd s = Eigen::MatrixXd::Zero(m, m), gc(m, n);
+  const double gram_flop = static_cast<double>(m) * (m + 1) * n, product_flop = 2.0 * m * m * n;
+  const bool vector = paritas::internal::CpuHasAvx2Fma();
+  std::printf("m = %d, n = %d, %d repeats; GFLOP/s, Eigen (as built) against AVX2 + FMA\n", m, n, repeats);
+  for (int round = 0; round < 2; ++round) {  // A B A B
+    const double eigen_gram = GigaflopsPerSecond(repeats, gram_flop, [&] {
+      s.selfadjointView<Eigen::Lower>().rankUpdate(x, -1.0);
+    });
+    const double eigen_product = GigaflopsPerSecond(repeats, product_flop, [&] { gc.noalias() = g * x; });
+    double ours_gram = 0.0, ours_product = 0.0;
+    if (vector) {
+      ours_gram = GigaflopsPerSecond(repeats, gram_flop, [&] {
+        paritas::internal::SubtractGramLowerAvx2Fma(m, n, x.data(), m, s.data(), m);
+      });
+      ours_product = GigaflopsPerSecond(repeats, product_flop, [&] {
+        paritas::internal::MultiplyAvx2Fma(m, n, m, g.data(), m, x.data(), m, gc.data(), m);
+      });
+    }
+    std::printf("round %d: S -= X X' %.1f -> %.1f; G C %.1f -> %.1f%s\n", round + 1, eigen_gram, ours_gram,
+                eigen_product, ours_product, vector ? "" : " (no AVX2 + FMA here)");
+  }
+  std::printf("(checksum %g)\n", s.sum() + gc.sum());
+  return 0;
+}
+
 int main(int argc, char** argv) {
+  if (argc > 1 && std::string(argv[1]) == "--kernels") {
+    return TimeKernels(argc > 2 ? std::atoi(argv[2]) : 50, argc > 3 ? std::atoi(argv[3]) : 1000,
+                       argc > 4 ? std::atoi(argv[4]) : 2000);
+  }
   if (argc > 2 && std::string(argv[1]) == "--time") {
     return TimeScreen(argv[2], argc > 3 ? std::atoi(argv[3]) : 3, argc > 4 ? std::atoi(argv[4]) : 0);
   }

@@ -5,6 +5,7 @@ set_source_files_properties(
   src/base/csv.cc
   src/base/read_limits.cc
   src/base/code_table.cc
+  src/base/dense_kernels.cc
   src/base/sha256.cc
   PROPERTIES UNITY_GROUP base_1)
 set_source_files_properties(

@@ -6,6 +6,7 @@
 #include <map>
 #include <nlohmann/json.hpp>
 
+#include "base/dense_kernels.h"
 #include "base/sha256.h"
 #include "paritas/base/csv.h"
 #include "paritas/base/read_limits.h"
@@ -132,7 +133,11 @@ std::string MissingParitiesRecordJson(const Survey& survey, const ParityResult& 
 std::string RunRecordJson(const RunRecord& record) {
   Json out;
   out["schema_version"] = kRunRecordSchemaVersion;
-  out["tool"] = {{"name", "paritas"}, {"version", PARITAS_VERSION}};
+  // The kernels of the dense products: runs on CPUs with and without AVX2 +
+  // FMA may differ in the last digits of the outlier screen's figures.
+  out["tool"] = {{"name", "paritas"},
+                 {"version", PARITAS_VERSION},
+                 {"dense_kernels", internal::ToString(internal::ActiveDenseKernels())}};
   if (!record.run_id.empty()) out["run_id"] = record.run_id;
   out["command"] = record.command;
   out["outcome"] = record.outcome;

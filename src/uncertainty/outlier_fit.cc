@@ -13,6 +13,7 @@
 #include <utility>
 #include <vector>
 
+#include "base/dense_products.h"
 #include "base/not_a_number.h"
 
 namespace paritas::internal {
@@ -369,7 +370,7 @@ bool SolveBlocks(int num_regions, int num_items, std::span<const int> region, st
   ScaleColumns(a_of, b_of, weight, m, num_b, sparse, distinct, ws);
   // Lower triangle of S + 11'/m, as one symmetric rank update.
   ws->s.setConstant(m, m, 1.0 / m);
-  ws->s.selfadjointView<Eigen::Lower>().rankUpdate(ws->scaled, -1.0);
+  SubtractGramLower(ws->scaled, &ws->s);
   ws->s.diagonal() += ws->d_a;
   const Eigen::LLT<Eigen::MatrixXd> llt(ws->s);
   if (llt.info() != Eigen::Success) {
@@ -390,7 +391,7 @@ bool SolveBlocks(int num_regions, int num_items, std::span<const int> region, st
   }
   ws->g.setIdentity(m, m);
   llt.solveInPlace(ws->g);
-  ws->gc.noalias() = ws->g * c;
+  SetProduct(ws->g, c, &ws->gc);
   ws->cgc = (c.array() * ws->gc.array()).colwise().sum().transpose();
   const Eigen::MatrixXd& g = ws->g;
   const Eigen::MatrixXd& gc = ws->gc;

@@ -1,0 +1,208 @@
+// AVX2 + FMA kernels for the screen's and CPD's dense products. Only the
+// functions marked kAvx2Fma below are compiled for AVX2; the file is built
+// with the project's flags like every other, includes no Eigen and calls no
+// template, so nothing here can replace another translation unit's copy of
+// an inline function (see DEVELOPERS.md, "Vector kernels"). Every entry is
+// one in-order chain of fused multiply-adds, so the tiling (which rows and
+// columns share registers) never changes a bit.
+#include "base/dense_kernels.h"
+
+#include <cstdlib>
+#include <cstring>
+
+#if defined(__x86_64__)
+#include <immintrin.h>
+#endif
+
+namespace paritas::internal {
+
+const char* ToString(DenseKernels kernels) {
+  return kernels == DenseKernels::kAvx2Fma ? "avx2-fma" : "portable";
+}
+
+#if defined(__x86_64__)
+
+bool CpuHasAvx2Fma() {
+  // libgcc's and compiler-rt's checks include the OS saving the YMM state.
+  return __builtin_cpu_supports("avx2") && __builtin_cpu_supports("fma");
+}
+
+namespace {
+
+#define PARITAS_AVX2_FMA __attribute__((target("avx2,fma")))
+
+constexpr int kLanes = 4;        // doubles per vector
+constexpr int kMaxVectors = 3;   // a tile is up to 12 rows ...
+constexpr int kTileColumns = 4;  // ... by 4 columns: 12 accumulators
+
+// Lanes below `rows` (1 to 4) on.
+PARITAS_AVX2_FMA inline __m256i FirstLanes(int rows) {
+  return _mm256_cmpgt_epi64(_mm256_set1_epi64x(rows), _mm256_setr_epi64x(0, 1, 2, 3));
+}
+
+// Where one tile's products come from: row i of the left factor at step p is
+// a[i + p * ld_a]; column c of the right factor at step p is
+// b[p * b_step + c * b_column_step].
+struct TileOperands {
+  const double* a;
+  int64_t ld_a;
+  const double* b;
+  int64_t b_step;
+  int64_t b_column_step;
+  int depth;        // steps p = 0 .. depth - 1
+  int num_columns;  // 1 to 4; missing columns repeat the last one (not stored)
+  int last_rows;    // rows in the last vector, 1 to 4
+};
+
+// acc[v][c] = sum over p in order of a(rows 4v .. 4v + 3, p) b(p, c), one
+// fused multiply-add per term. num_vectors is a constant at every call
+// (ComputeTile), so
+// the accumulators stay in registers.
+PARITAS_AVX2_FMA inline __attribute__((always_inline)) void AccumulateTile(
+    int num_vectors, const TileOperands& t, __m256d acc[kMaxVectors][kTileColumns]) {
+  const __m256i last_mask = FirstLanes(t.last_rows);
+  const double* b_column[kTileColumns];
+  for (int c = 0; c < kTileColumns; ++c) {
+    b_column[c] = t.b + (c < t.num_columns ? c : t.num_columns - 1) * t.b_column_step;
+  }
+  // Local sums, copied out once: stores through `acc` inside the loop would
+  // not be sunk out of it.
+  __m256d sum[kMaxVectors][kTileColumns];
+  for (int v = 0; v < kMaxVectors; ++v) {
+    for (int c = 0; c < kTileColumns; ++c) sum[v][c] = _mm256_setzero_pd();
+  }
+  for (int p = 0; p < t.depth; ++p) {
+    const double* a_p = t.a + p * t.ld_a;
+    __m256d a_v[kMaxVectors];
+    for (int v = 0; v < num_vectors; ++v) {
+      a_v[v] = v + 1 < num_vectors ? _mm256_loadu_pd(a_p + kLanes * v)
+                                   : _mm256_maskload_pd(a_p + kLanes * v, last_mask);
+    }
+    const int64_t b_offset = p * t.b_step;
+    for (int c = 0; c < kTileColumns; ++c) {
+      const __m256d b_pc = _mm256_broadcast_sd(b_column[c] + b_offset);
+      for (int v = 0; v < num_vectors; ++v) sum[v][c] = _mm256_fmadd_pd(a_v[v], b_pc, sum[v][c]);
+    }
+  }
+  for (int v = 0; v < kMaxVectors; ++v) {
+    for (int c = 0; c < kTileColumns; ++c) acc[v][c] = sum[v][c];
+  }
+}
+
+// AccumulateTile with the number of vectors as a constant.
+PARITAS_AVX2_FMA void ComputeTile(int num_vectors, const TileOperands& t,
+                                  __m256d acc[kMaxVectors][kTileColumns]) {
+  switch (num_vectors) {
+    case 1:
+      AccumulateTile(1, t, acc);
+      break;
+    case 2:
+      AccumulateTile(2, t, acc);
+      break;
+    default:
+      AccumulateTile(3, t, acc);
+      break;
+  }
+}
+
+}  // namespace
+
+PARITAS_AVX2_FMA void SubtractGramLowerAvx2Fma(int m, int n, const double* x, int64_t ld_x,
+                                               double* s, int64_t ld_s) {
+  if (n == 0) return;  // s - 0 is s, -0 included; x may then be null
+  constexpr int kTileRows = kLanes * kMaxVectors;
+  __m256d acc[kMaxVectors][kTileColumns];
+  alignas(32) double sums[kMaxVectors * kLanes * kTileColumns];
+  for (int j0 = 0; j0 < m; j0 += kTileColumns) {
+    const int num_columns = m - j0 < kTileColumns ? m - j0 : kTileColumns;
+    // Row tiles start on the diagonal; the tile's entries above it are
+    // computed and dropped.
+    for (int i0 = j0; i0 < m; i0 += kTileRows) {
+      const int rows = m - i0 < kTileRows ? m - i0 : kTileRows;
+      const int num_vectors = (rows + kLanes - 1) / kLanes;
+      const TileOperands t{.a = x + i0,
+                           .ld_a = ld_x,
+                           .b = x + j0,
+                           .b_step = ld_x,
+                           .b_column_step = 1,
+                           .depth = n,
+                           .num_columns = num_columns,
+                           .last_rows = rows - kLanes * (num_vectors - 1)};
+      ComputeTile(num_vectors, t, acc);
+      for (int v = 0; v < num_vectors; ++v) {
+        for (int c = 0; c < kTileColumns; ++c)
+          _mm256_store_pd(sums + (c * kMaxVectors + v) * kLanes, acc[v][c]);
+      }
+      for (int c = 0; c < num_columns; ++c) {
+        const int j = j0 + c;
+        for (int r = j > i0 ? j - i0 : 0; r < rows; ++r)
+          s[i0 + r + j * ld_s] -= sums[c * kTileRows + r];
+      }
+    }
+  }
+}
+
+PARITAS_AVX2_FMA void MultiplyAvx2Fma(int m, int n, int k, const double* a, int64_t ld_a,
+                                      const double* b, int64_t ld_b, double* out, int64_t ld_out) {
+  if (k == 0) {  // a and b may then be null
+    for (int j = 0; j < n; ++j) {
+      for (int i = 0; i < m; ++i) out[i + j * ld_out] = 0.0;
+    }
+    return;
+  }
+  constexpr int kTileRows = kLanes * kMaxVectors;
+  __m256d acc[kMaxVectors][kTileColumns];
+  // Column blocks outside: a block's columns of b stay in the L1 cache while
+  // every row tile of a passes over them.
+  for (int j0 = 0; j0 < n; j0 += kTileColumns) {
+    const int num_columns = n - j0 < kTileColumns ? n - j0 : kTileColumns;
+    for (int i0 = 0; i0 < m; i0 += kTileRows) {
+      const int rows = m - i0 < kTileRows ? m - i0 : kTileRows;
+      const int num_vectors = (rows + kLanes - 1) / kLanes;
+      const int last_rows = rows - kLanes * (num_vectors - 1);
+      const TileOperands t{.a = a + i0,
+                           .ld_a = ld_a,
+                           .b = b + j0 * ld_b,
+                           .b_step = 1,
+                           .b_column_step = ld_b,
+                           .depth = k,
+                           .num_columns = num_columns,
+                           .last_rows = last_rows};
+      ComputeTile(num_vectors, t, acc);
+      const __m256i last_mask = FirstLanes(last_rows);
+      for (int c = 0; c < num_columns; ++c) {
+        double* column = out + i0 + (j0 + c) * ld_out;
+        for (int v = 0; v + 1 < num_vectors; ++v) _mm256_storeu_pd(column + kLanes * v, acc[v][c]);
+        _mm256_maskstore_pd(column + kLanes * (num_vectors - 1), last_mask,
+                            acc[num_vectors - 1][c]);
+      }
+    }
+  }
+}
+
+#undef PARITAS_AVX2_FMA
+
+#else  // not x86-64: the portable products only
+
+bool CpuHasAvx2Fma() { return false; }
+
+void SubtractGramLowerAvx2Fma(int, int, const double*, int64_t, double*, int64_t) { std::abort(); }
+
+void MultiplyAvx2Fma(int, int, int, const double*, int64_t, const double*, int64_t, double*,
+                     int64_t) {
+  std::abort();
+}
+
+#endif
+
+DenseKernels ActiveDenseKernels() {
+  static const DenseKernels active = [] {
+    const char* portable = std::getenv(kPortableKernelsVariable);
+    const bool forced =
+        portable != nullptr && portable[0] != '\0' && std::strcmp(portable, "0") != 0;
+    return !forced && CpuHasAvx2Fma() ? DenseKernels::kAvx2Fma : DenseKernels::kPortable;
+  }();
+  return active;
+}
+
+}  // namespace paritas::internal

@@ -1,0 +1,178 @@
+// The AVX2 + FMA kernels against Eigen's products and against the order of
+// operations their header promises (an in-order chain of fused
+// multiply-adds per entry), on shapes that are and are not multiples of the
+// tiles, including one row and no columns.
+#include "base/dense_kernels.h"
+
+#include <gtest/gtest.h>
+
+#include <Eigen/Core>
+#include <cmath>
+#include <cstdint>
+#include <random>
+#include <vector>
+
+namespace paritas::internal {
+namespace {
+
+struct Shape {
+  int rows;
+  int cols;
+};
+
+// Row counts around the vector width (4) and the tile height (12), column
+// counts around the tile width (4), and 0.
+const std::vector<Shape>& Shapes() {
+  static const std::vector<Shape> shapes = {
+      {1, 0},   {1, 1},   {1, 7},  {2, 3},  {3, 4},  {4, 5},  {5, 1},    {7, 9},     {8, 0},
+      {11, 13}, {12, 12}, {13, 4}, {17, 6}, {24, 3}, {25, 8}, {50, 999}, {49, 1000}, {64, 31}};
+  return shapes;
+}
+
+// Entries uniform in [-1, 1), or whole numbers in [-3, 3] (all products and
+// sums of a few thousand of them exact, so every order gives the same bits).
+Eigen::MatrixXd Random(int rows, int cols, bool whole, std::mt19937_64* random) {
+  std::uniform_real_distribution<double> uniform(-1.0, 1.0);
+  std::uniform_int_distribution<int> small(-3, 3);
+  Eigen::MatrixXd x(rows, cols);
+  for (int j = 0; j < cols; ++j) {
+    for (int i = 0; i < rows; ++i) x(i, j) = whole ? small(*random) : uniform(*random);
+  }
+  return x;
+}
+
+// The order the header documents: acc = fma(x_ik, y_kj, acc) for k in order.
+double FusedDot(int depth, const double* x, int64_t x_step, const double* y, int64_t y_step) {
+  double acc = 0.0;
+  for (int k = 0; k < depth; ++k) acc = std::fma(x[k * x_step], y[k * y_step], acc);
+  return acc;
+}
+
+class DenseKernelsTest : public ::testing::Test {
+ protected:
+  void SetUp() override {
+    if (!CpuHasAvx2Fma()) GTEST_SKIP() << "this CPU has no AVX2 and FMA";
+  }
+};
+
+TEST_F(DenseKernelsTest, GramUpdateFollowsTheFusedOrderAndLeavesTheUpperTriangle) {
+  std::mt19937_64 random(11);
+  for (const Shape& shape : Shapes()) {
+    const int m = shape.rows, n = shape.cols;
+    const Eigen::MatrixXd x = Random(m, n, false, &random);
+    const Eigen::MatrixXd before = Random(m, m, false, &random);
+    Eigen::MatrixXd s = before;
+    SubtractGramLowerAvx2Fma(m, n, x.data(), m, s.data(), m);
+    for (int j = 0; j < m; ++j) {
+      for (int i = 0; i < m; ++i) {
+        const double expected = i >= j && n > 0
+                                    ? before(i, j) - FusedDot(n, x.data() + i, m, x.data() + j, m)
+                                    : before(i, j);
+        ASSERT_EQ(s(i, j), expected) << m << " x " << n << " at (" << i << ", " << j << ")";
+      }
+    }
+  }
+}
+
+TEST_F(DenseKernelsTest, GramUpdateAgreesWithEigenToRoundingAndExactlyOnWholeNumbers) {
+  std::mt19937_64 random(12);
+  for (const bool whole : {false, true}) {
+    for (const Shape& shape : Shapes()) {
+      const int m = shape.rows, n = shape.cols;
+      const Eigen::MatrixXd x = Random(m, n, whole, &random);
+      const Eigen::MatrixXd before = Random(m, m, whole, &random);
+      Eigen::MatrixXd eigen = before, ours = before;
+      eigen.selfadjointView<Eigen::Lower>().rankUpdate(x, -1.0);
+      SubtractGramLowerAvx2Fma(m, n, x.data(), m, ours.data(), m);
+      // Error bound of a sum: relative to the sum of the terms' magnitudes.
+      const Eigen::MatrixXd magnitude = before.cwiseAbs() + x.cwiseAbs() * x.cwiseAbs().transpose();
+      for (int j = 0; j < m; ++j) {
+        for (int i = j; i < m; ++i) {
+          if (whole) {
+            ASSERT_EQ(ours(i, j), eigen(i, j))
+                << m << " x " << n << " at (" << i << ", " << j << ")";
+          } else {
+            ASSERT_LE(std::abs(ours(i, j) - eigen(i, j)), 1e-13 * magnitude(i, j))
+                << m << " x " << n << " at (" << i << ", " << j << ")";
+          }
+        }
+      }
+    }
+  }
+}
+
+TEST_F(DenseKernelsTest, ProductFollowsTheFusedOrder) {
+  std::mt19937_64 random(13);
+  for (const Shape& shape : Shapes()) {
+    for (const int depth : {0, 1, 5, shape.rows, 50}) {
+      const int m = shape.rows, n = shape.cols;
+      const Eigen::MatrixXd a = Random(m, depth, false, &random);
+      const Eigen::MatrixXd b = Random(depth, n, false, &random);
+      Eigen::MatrixXd out =
+          Eigen::MatrixXd::Constant(m, n, 7.0);  // every entry must be overwritten
+      MultiplyAvx2Fma(m, n, depth, a.data(), m, b.data(), depth, out.data(), m);
+      for (int j = 0; j < n; ++j) {
+        for (int i = 0; i < m; ++i) {
+          const double expected =
+              depth == 0 ? 0.0 : FusedDot(depth, a.data() + i, m, b.data() + j * depth, 1);
+          ASSERT_EQ(out(i, j), expected)
+              << m << " x " << depth << " x " << n << " at (" << i << ", " << j << ")";
+        }
+      }
+    }
+  }
+}
+
+TEST_F(DenseKernelsTest, ProductAgreesWithEigenToRoundingAndExactlyOnWholeNumbers) {
+  std::mt19937_64 random(14);
+  for (const bool whole : {false, true}) {
+    for (const Shape& shape : Shapes()) {
+      const int m = shape.rows, n = shape.cols, depth = shape.rows + 3;
+      const Eigen::MatrixXd a = Random(m, depth, whole, &random);
+      const Eigen::MatrixXd b = Random(depth, n, whole, &random);
+      const Eigen::MatrixXd eigen = a * b;
+      Eigen::MatrixXd ours(m, n);
+      MultiplyAvx2Fma(m, n, depth, a.data(), m, b.data(), depth, ours.data(), m);
+      const Eigen::MatrixXd magnitude = a.cwiseAbs() * b.cwiseAbs();
+      for (int j = 0; j < n; ++j) {
+        for (int i = 0; i < m; ++i) {
+          if (whole) {
+            ASSERT_EQ(ours(i, j), eigen(i, j))
+                << m << " x " << n << " at (" << i << ", " << j << ")";
+          } else {
+            ASSERT_LE(std::abs(ours(i, j) - eigen(i, j)), 1e-13 * magnitude(i, j))
+                << m << " x " << n << " at (" << i << ", " << j << ")";
+          }
+        }
+      }
+    }
+  }
+}
+
+TEST_F(DenseKernelsTest, ProductReadsAndWritesThroughLeadingDimensions) {
+  // Blocks of larger matrices: entries outside the blocks must not be read
+  // into the result nor written.
+  std::mt19937_64 random(15);
+  const Eigen::MatrixXd a = Random(9, 6, false, &random), b = Random(8, 7, false, &random);
+  Eigen::MatrixXd out = Eigen::MatrixXd::Constant(10, 9, 5.0);
+  MultiplyAvx2Fma(7, 5, 6, &a(1, 0), 9, &b(2, 1), 8, &out(2, 3), 10);
+  const Eigen::MatrixXd expected = a.block(1, 0, 7, 6) * b.block(2, 1, 6, 5);
+  for (int j = 0; j < 9; ++j) {
+    for (int i = 0; i < 10; ++i) {
+      const bool inside = i >= 2 && i < 9 && j >= 3 && j < 8;
+      if (!inside) {
+        ASSERT_EQ(out(i, j), 5.0) << i << ", " << j;
+      } else {
+        ASSERT_NEAR(out(i, j), expected(i - 2, j - 3), 1e-14) << i << ", " << j;
+      }
+    }
+  }
+}
+
+TEST(DenseKernels, AreNamedAsTheRunRecordWritesThem) {
+  EXPECT_STREQ(ToString(DenseKernels::kPortable), "portable");
+  EXPECT_STREQ(ToString(DenseKernels::kAvx2Fma), "avx2-fma");
+}
+
+}  // namespace
+}  // namespace paritas::internal
