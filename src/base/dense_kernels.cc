@@ -1,4 +1,4 @@
-// AVX2 + FMA kernels for the screen's and CPD's dense products. Only the
+// AVX2 + FMA kernels for the outlier screen's dense products. Only the
 // functions marked kAvx2Fma below are compiled for AVX2; the file is built
 // with the project's flags like every other, includes no Eigen and calls no
 // template, so nothing here can replace another translation unit's copy of

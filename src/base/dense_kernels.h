@@ -49,7 +49,7 @@ bool CpuHasAvx2Fma();
 
 // Subtracts x x' from the lower triangle of s (m x m): s(i, j) -= sum_k
 // x(i, k) x(j, k) for i >= j; x is m x n. The strict upper triangle of s is
-// not touched. n may be 0 (s unchanged).
+// not touched. n may be 0 (s unchanged). x and s must not overlap.
 void SubtractGramLowerAvx2Fma(int m, int n, const double* x, int64_t ld_x, double* s, int64_t ld_s);
 
 // Sets out = a b: a is m x k, b is k x n, out is m x n (not overlapping a or

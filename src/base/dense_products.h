@@ -1,4 +1,4 @@
-// The dense products that dominate the outlier screen and the CPD fit, on
+// The dense products that dominate the outlier screen's fit, on
 // Eigen matrices: each runs the AVX2 + FMA kernel of dense_kernels.h when
 // ActiveDenseKernels() says so and Eigen's product otherwise. Compiled with
 // the project's flags like their callers (no AVX2 code here).
@@ -14,6 +14,7 @@ namespace paritas::internal {
 // Subtracts x x' from the lower triangle of the square s (s.rows() ==
 // x.rows()); the strict upper triangle is left as it was.
 inline void SubtractGramLower(const Eigen::MatrixXd& x, Eigen::MatrixXd* s) {
+  eigen_assert(s->rows() == x.rows() && s->cols() == x.rows());
   if (ActiveDenseKernels() == DenseKernels::kAvx2Fma) {
     SubtractGramLowerAvx2Fma(static_cast<int>(x.rows()), static_cast<int>(x.cols()), x.data(),
                              x.rows(), s->data(), s->rows());
@@ -24,6 +25,7 @@ inline void SubtractGramLower(const Eigen::MatrixXd& x, Eigen::MatrixXd* s) {
 
 // Sets *out = a b (out not a or b).
 inline void SetProduct(const Eigen::MatrixXd& a, const Eigen::MatrixXd& b, Eigen::MatrixXd* out) {
+  eigen_assert(a.cols() == b.rows() && out != &a && out != &b);
   if (ActiveDenseKernels() == DenseKernels::kAvx2Fma) {
     out->resize(a.rows(), b.cols());
     MultiplyAvx2Fma(static_cast<int>(a.rows()), static_cast<int>(b.cols()),

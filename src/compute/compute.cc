@@ -625,6 +625,7 @@ bool ComputeParities(const Survey& survey, const ComputeOptions& options, Parity
   *summary = ComputeSummary();
   *result = ParityResult();
   if (!CheckInputs(survey, options, summary)) return false;
+  internal::FixEigenBlockSizes();
   summary->num_headings_given = survey.num_headings();
   const int threads = options.num_threads > 0 ? options.num_threads : omp_get_max_threads();
 

@@ -568,6 +568,7 @@ std::string ToString(ScreenedBy how, OutlierFit fit) {
 OutlierReport FindOutliers(const Survey& survey, const ParityResult& result,
                            const OutlierOptions& options) {
   OutlierReport report;
+  internal::FixEigenBlockSizes();
   report.fit = options.fit;
   const int num_headings = survey.num_headings();
   report.num_flagged_cells.assign(num_headings, 0);

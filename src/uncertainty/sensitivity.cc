@@ -217,6 +217,7 @@ bool RunSensitivity(const Survey& survey, const ComputeOptions& compute,
                     SensitivitySummary* summary) {
   *summary = SensitivitySummary();
   *result = SensitivityResult();
+  internal::FixEigenBlockSizes();
   std::string error;
   if (!options.IsValid(&error)) {
     summary->outcome = SensitivityOutcome::kInvalidOptions;

@@ -169,6 +169,28 @@ TEST_F(DenseKernelsTest, ProductReadsAndWritesThroughLeadingDimensions) {
   }
 }
 
+TEST_F(DenseKernelsTest, RankUpdateReadsAndWritesThroughLeadingDimensions) {
+  // A 13 x 7 block of a larger x updates a 13 x 13 block of a larger s:
+  // nothing outside the block's lower triangle may change, and the block's
+  // entries must come from the block of x alone.
+  std::mt19937_64 random(16);
+  const Eigen::MatrixXd x = Random(20, 9, false, &random);
+  Eigen::MatrixXd s = Eigen::MatrixXd::Constant(19, 19, 5.0);
+  SubtractGramLowerAvx2Fma(13, 7, &x(2, 1), 20, &s(3, 4), 19);
+  const Eigen::MatrixXd block = x.block(2, 1, 13, 7);
+  const Eigen::MatrixXd expected = Eigen::MatrixXd::Constant(13, 13, 5.0) - block * block.transpose();
+  for (int j = 0; j < 19; ++j) {
+    for (int i = 0; i < 19; ++i) {
+      const bool inside = i >= 3 && i < 16 && j >= 4 && j < 17 && i - 3 >= j - 4;
+      if (!inside) {
+        ASSERT_EQ(s(i, j), 5.0) << i << ", " << j;
+      } else {
+        ASSERT_NEAR(s(i, j), expected(i - 3, j - 4), 1e-13) << i << ", " << j;
+      }
+    }
+  }
+}
+
 TEST(DenseKernels, AreNamedAsTheRunRecordWritesThem) {
   EXPECT_STREQ(ToString(DenseKernels::kPortable), "portable");
   EXPECT_STREQ(ToString(DenseKernels::kAvx2Fma), "avx2-fma");
