@@ -412,19 +412,28 @@ std::string FormatCharName(char c) {
 }
 
 int64_t CountLineFeeds(std::string_view data) {
-  // Per 4 KiB a 32-bit count, which the compiler keeps in vector lanes, is
-  // several times faster than std::count's 64-bit one.
   const char* p = data.data();
   size_t left = data.size();
   int64_t total = 0;
-  while (left > 0) {
-    const size_t n = std::min<size_t>(left, 4096);
-    uint32_t count = 0;
-    for (size_t i = 0; i < n; ++i) count += p[i] == '\n';
-    total += count;
-    p += n;
-    left -= n;
+#if defined(__SSE2__)
+  // Byte lanes count the line feeds of up to 255 blocks of 16 bytes (a
+  // comparison gives -1 per match, subtracted), then one sum of absolute
+  // differences adds them up: about 2 instructions per 16 bytes.
+  const __m128i lf = _mm_set1_epi8('\n');
+  while (left >= 16) {
+    const size_t blocks = std::min<size_t>(left / 16, 255);
+    __m128i counts = _mm_setzero_si128();
+    for (size_t b = 0; b < blocks; ++b) {
+      const __m128i bytes = _mm_loadu_si128(reinterpret_cast<const __m128i*>(p + 16 * b));
+      counts = _mm_sub_epi8(counts, _mm_cmpeq_epi8(bytes, lf));
+    }
+    const __m128i sums = _mm_sad_epu8(counts, _mm_setzero_si128());
+    total += _mm_cvtsi128_si64(sums) + _mm_cvtsi128_si64(_mm_unpackhi_epi64(sums, sums));
+    p += 16 * blocks;
+    left -= 16 * blocks;
   }
+#endif
+  for (size_t i = 0; i < left; ++i) total += p[i] == '\n';
   return total;
 }
 

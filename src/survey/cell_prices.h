@@ -7,6 +7,7 @@
 #include <cstdint>
 #include <vector>
 
+#include "base/uninitialised_vector.h"
 #include "paritas/survey/survey.h"
 
 namespace paritas::internal {
@@ -65,18 +66,20 @@ struct CellMoments {
 
 // Quotes as read, in file order (region and item indices of the table being
 // built: chunk-local while parsing, final survey indices for CellsFromQuotes).
+// The arrays are sized before the chunks of a block write their rows into
+// them, so resize(n) leaves the new elements unwritten (no zero-fill).
 struct QuoteArrays {
-  std::vector<int32_t> region;
-  std::vector<int32_t> item;
-  std::vector<double> log_price;
-  std::vector<uint8_t> representative;  // empty when no price file has a flag column
+  UninitialisedVector<int32_t> region;
+  UninitialisedVector<int32_t> item;
+  UninitialisedVector<double> log_price;
+  UninitialisedVector<uint8_t> representative;  // empty when no price file has a flag column
   // Quote weights (> 0); empty when no price file has a weight column (a
   // quote of a file without one weighs 1).
-  std::vector<double> weight;
+  UninitialisedVector<double> weight;
   // Hash of the row's fields (all columns), for finding rows repeated field
   // for field (the rows' lines are kept apart, in runs: LoadState::
   // quote_lines); emptied once duplicates are handled.
-  std::vector<uint64_t> row_hash;
+  UninitialisedVector<uint64_t> row_hash;
 
   size_t size() const { return region.size(); }
 };

@@ -81,7 +81,7 @@ void MarkRepeats(const QuoteArrays& quotes, const HashedQuote* order, size_t n,
   while (slots < 2 * n) slots *= 2;
   table->assign(slots, {0, kNone, kNone});
   const size_t mask = slots - 1;
-  const std::vector<uint64_t>& hash = quotes.row_hash;
+  const UninitialisedVector<uint64_t>& hash = quotes.row_hash;
   for (size_t k = 0; k < n; ++k) {
     const auto [key, q] = order[k];
     size_t slot = key & mask;
@@ -128,7 +128,7 @@ std::vector<size_t> PassBoundaries(const std::vector<size_t>& bucket_begin, int 
 // 56 for 7 million quotes.
 std::vector<Repeat> FindRepeats(const QuoteArrays& quotes, int num_threads) {
   const size_t n = quotes.size();
-  const std::vector<uint64_t>& hash = quotes.row_hash;
+  const UninitialisedVector<uint64_t>& hash = quotes.row_hash;
   // Buckets of about 2,000 pairs (32 KB), at most 2^16 of them.
   int bits = 0;
   while (bits < 16 && (n >> bits) > 2048) ++bits;
@@ -246,7 +246,7 @@ void HandleDuplicateQuotes(DuplicateQuotePolicy policy, int num_threads, LoadSta
   // Released, not just emptied: `vector = {}` would assign an empty list
   // and keep the 16 bytes per quote allocated (and resident) until the
   // cells are built.
-  std::vector<uint64_t>().swap(quotes.row_hash);
+  UninitialisedVector<uint64_t>().swap(quotes.row_hash);
   state->quote_lines = QuoteLines();
 }
 

@@ -1,14 +1,17 @@
 // Reads prices.csv, which can hold tens of millions of quotes, in blocks
 // that are split at record boundaries into fixed-size chunks parsed in
-// parallel while the next block is read. Each chunk interns codes and keeps
-// its quotes locally; chunks are merged in file order (their quotes copied
-// in parallel), so the result does not depend on the number of threads, and
-// the text of at most two blocks is held at once.
+// parallel while the next block is read. Each chunk interns codes locally
+// and writes its quotes straight into its own slice of the survey's arrays
+// (room for one quote per record, so a slice is known before the parse);
+// chunks are merged in file order and the gaps left by rejected rows closed,
+// so the result does not depend on the number of threads, and the text of
+// at most two blocks is held at once.
 #include <omp.h>
 
 #include <algorithm>
 #include <cerrno>
 #include <cmath>
+#include <cstdlib>
 #include <cstring>
 #include <filesystem>
 #include <functional>
@@ -175,6 +178,19 @@ class KnownCodes {
   int region_shift_ = 64, item_shift_ = 64;
 };
 
+// Where a chunk writes its quotes: its slice of the survey's arrays, with
+// room for `capacity` rows (its records, bounded by its line feeds); a
+// column the file lacks is nullptr.
+struct QuoteSlice {
+  int32_t* region = nullptr;
+  int32_t* item = nullptr;
+  double* log_price = nullptr;
+  uint8_t* representative = nullptr;
+  double* weight = nullptr;
+  uint64_t* row_hash = nullptr;
+  size_t capacity = 0;
+};
+
 struct ChunkResult {
   CodeTable regions;
   CodeTable items;
@@ -182,13 +198,16 @@ struct ChunkResult {
   std::vector<LocalItem> item_info;
   // Per local item, the line of the row that first stated its heading here.
   std::vector<int64_t> item_line;
-  // Quotes used, with chunk-local region and item indices, and their lines.
-  QuoteArrays quotes;
+  // Quotes used (rows_used of them), written straight into the slice of
+  // the survey's arrays from quote `first_quote` on, with chunk-local region
+  // and item indices until the chunk is merged; their lines.
+  QuoteSlice slice;
+  size_t first_quote = 0;
   QuoteLines lines;
   // Local index -> the survey's, set when the chunk is merged (regions:
   // empty when the chunk holds the survey's indices already).
   std::vector<int> region_map, item_map;
-  // Items in `quotes`: below item_base the survey's index of an item known
+  // Items in the slice: below item_base the survey's index of an item known
   // before the block (with its heading), else item_base + the local index.
   int item_base = 0;
 
@@ -199,12 +218,8 @@ struct ChunkResult {
     headings = CodeTable();
     item_info.clear();
     item_line.clear();
-    quotes.region.clear();
-    quotes.item.clear();
-    quotes.log_price.clear();
-    quotes.representative.clear();
-    quotes.weight.clear();
-    quotes.row_hash.clear();
+    slice = QuoteSlice();
+    first_quote = 0;
     lines.Clear();
     region_map.clear();
     item_map.clear();
@@ -315,14 +330,6 @@ class ChunkParser {
         has_quantity_(columns.quantity >= 0) {
     reader_.set_limits(state.config->limits);
     reader_.set_delimiter(columns.format.delimiter);
-    // A quote row takes at least about a dozen bytes.
-    const size_t expected_rows = data.size() / 12 + 16;
-    out->quotes.region.reserve(expected_rows);
-    out->quotes.item.reserve(expected_rows);
-    out->quotes.log_price.reserve(expected_rows);
-    if (has_flag_) out->quotes.representative.reserve(expected_rows);
-    if (has_weight_) out->quotes.weight.reserve(expected_rows);
-    out->quotes.row_hash.reserve(expected_rows);
     local_of_known_.assign(state.items.size(), -1);
     out->item_base = state.items.size();
     fast_items_ = !has_quantity_;
@@ -386,14 +393,18 @@ class ChunkParser {
         }
         item = out_->item_base + item_local_;
       }
-      out_->quotes.region.push_back(region_local_);
-      out_->quotes.item.push_back(item);
-      out_->quotes.log_price.push_back(std::log(price));
-      if (has_flag_) out_->quotes.representative.push_back(representative ? 1 : 0);
-      if (has_weight_) out_->quotes.weight.push_back(weight);
-      out_->quotes.row_hash.push_back(row_hash);
-      out_->lines.Add(out_->quotes.row_hash.size() - 1, record_.line);
-      ++out_->rows_used;
+      // Every used row is a record, and the slice has room for them all;
+      // checked in every build, as a write past it would corrupt the next.
+      const size_t q = static_cast<size_t>(out_->rows_used++);
+      if (q >= out_->slice.capacity) std::abort();
+      QuoteSlice& slice = out_->slice;
+      slice.region[q] = region_local_;
+      slice.item[q] = item;
+      slice.log_price[q] = std::log(price);
+      if (has_flag_) slice.representative[q] = representative ? 1 : 0;
+      if (has_weight_) slice.weight[q] = weight;
+      slice.row_hash[q] = row_hash;
+      out_->lines.Add(q, record_.line);
     }
     if (!reader_.error().empty()) out_->fatal = path_ + ":" + reader_.error();
   }
@@ -917,7 +928,8 @@ class PriceReader {
 
   // Parses one block of whole records in the chunks of `plan`, hashing
   // `to_hash` and calling `read_next` (which reads the next block)
-  // alongside.
+  // alongside. Each chunk writes its quotes straight into its slice of the
+  // survey's arrays (no chunk arrays to copy from, no second write).
   bool ParseBlock(std::string_view data, const ChunkPlan& plan, std::string_view to_hash,
                   const std::function<void()>& read_next, std::string* error) {
     if (data.empty()) {
@@ -928,16 +940,29 @@ class PriceReader {
     const std::vector<size_t>& starts = plan.starts;
     const std::vector<int64_t>& lines = plan.lines;
     const int64_t first_line = lines[0];
-    // Chunk results are kept between blocks so their arrays keep their
+    const int num_chunks = static_cast<int>(starts.size());
+    // Chunk c's slice begins at quote slot_begin[c]: room for one row per
+    // record, and a record ends at a line feed or at the end of the chunk.
+    std::vector<size_t> slot_begin(num_chunks + 1, state_->quotes.size());
+    for (int c = 0; c < num_chunks; ++c) {
+      const size_t end = c + 1 < num_chunks ? starts[c + 1] : data.size();
+      const bool open_end = end > starts[c] && data[end - 1] != '\n';
+      slot_begin[c + 1] = slot_begin[c] + static_cast<size_t>(lines[c + 1] - lines[c]) + open_end;
+    }
+    ReserveQuotes(slot_begin[num_chunks] - slot_begin[0]);
+    const NewColumns new_columns = GrowQuotes(slot_begin[num_chunks]);
+    // Chunk results are kept between blocks so their tables keep their
     // capacity instead of being allocated (and page-faulted) again.
     known_.Build(state_->regions_fixed, state_->regions, state_->items, state_->item_heading,
                  state_->headings);
     std::vector<ChunkResult>& results = results_;
     results.resize(starts.size());
-    for (ChunkResult& result : results) result.Reset();
+    for (int c = 0; c < num_chunks; ++c) {
+      results[c].Reset();
+      SetSlice(slot_begin[c], slot_begin[c + 1], &results[c]);
+    }
     const bool keep_all = options_.invalid_rows == InvalidRowPolicy::kSkip;
     const size_t max_rejected = static_cast<size_t>(std::max(options_.max_reported_rows, 0));
-    const int num_chunks = static_cast<int>(starts.size());
     // Two more tasks than chunks, first in line: one reads the next block,
     // one hashes this block's new bytes (blocks are hashed in order: one
     // block at a time), while the chunks are parsed.
@@ -959,20 +984,13 @@ class PriceReader {
     if (HasCrossChunkConflict(results)) {
       // Two chunks state different headings for a new item, or a chunk
       // lacks a heading an earlier chunk stated: only a pass in file order
-      // can tell which statement comes first.
+      // can tell which statement comes first. It writes over the slices.
       results.resize(1);
       results[0].Reset();
+      SetSlice(slot_begin[0], slot_begin[num_chunks], &results[0]);
       ParsePriceChunk(data, first_line, columns_, path_, *state_, known_, keep_all, max_rejected,
                       &results[0]);
     }
-    // Sized before the first block is merged, so the first block's quotes
-    // are not copied (and their pages touched) twice.
-    int64_t block_rows_read = 0, block_rows_used = 0;
-    for (const ChunkResult& result : results) {
-      block_rows_read += result.rows_read;
-      block_rows_used += result.rows_used;
-    }
-    ReserveQuotes(block_rows_read, block_rows_used);
     // Merged in file order up to a malformed record: the rows before it
     // count as read whatever the block size, so the summary of a failed
     // load does not depend on it.
@@ -986,23 +1004,24 @@ class PriceReader {
         malformed = true;
       }
     }
-    AppendQuotes(results, num_merged);
+    FinishQuotes(results, num_merged, slot_begin[0], new_columns);
     return !malformed;
   }
 
-  // At the first block, sizes the survey's quote arrays for the whole file
-  // from the bytes per row seen so far, so they are not copied as they grow.
-  void ReserveQuotes(int64_t block_rows_read, int64_t block_rows_used) {
-    if (reserved_ || file_->rows_read + block_rows_read == 0) return;
+  // At the first block, reserves the survey's quote arrays for the whole
+  // file from the records per byte of that block, so they are not copied
+  // as they grow.
+  void ReserveQuotes(size_t block_records) {
+    if (reserved_ || block_records == 0) return;
     reserved_ = true;
     std::error_code ec;
     const double file_bytes = static_cast<double>(std::filesystem::file_size(path_, ec));
     if (ec || bytes_seen_ == 0) return;
-    const double rows_used = static_cast<double>(file_->rows_used + block_rows_used);
-    const double rows = 1.05 * rows_used * file_bytes / static_cast<double>(bytes_seen_);
+    const double records = static_cast<double>(block_records);
+    const double rows = 1.05 * records * file_bytes / static_cast<double>(bytes_seen_);
     // The size the system reports is a hint, not a promise (a file can be
-    // sparse or still growing): at most 16 times the rows read so far.
-    const size_t n = static_cast<size_t>(std::min({rows, 16.0 * rows_used + 1024.0, 4e9}));
+    // sparse or still growing): at most 16 times the records read so far.
+    const size_t n = static_cast<size_t>(std::min({rows, 16.0 * records + 1024.0, 4e9}));
     // Beyond the quotes of the files read before.
     QuoteArrays& quotes = state_->quotes;
     const size_t total = quotes.size() + n;
@@ -1018,6 +1037,47 @@ class PriceReader {
     AdviseHugePages(quotes.representative);
     AdviseHugePages(quotes.weight);
     AdviseHugePages(quotes.row_hash);
+  }
+
+  // Whether the block's quotes are the first to fill the flag or weight
+  // array (which stays empty until a quote of a file with the column is used).
+  struct NewColumns {
+    bool flags = false;
+    bool weights = false;
+  };
+
+  // Sizes the survey's arrays of the file's columns to `size` quotes,
+  // leaving the new ones unwritten.
+  NewColumns GrowQuotes(size_t size) {
+    QuoteArrays& quotes = state_->quotes;
+    NewColumns new_columns;
+    quotes.region.resize(size);
+    quotes.item.resize(size);
+    quotes.log_price.resize(size);
+    quotes.row_hash.resize(size);
+    if (columns_.representative >= 0) {
+      new_columns.flags = quotes.representative.empty();
+      quotes.representative.resize(size);
+    }
+    if (columns_.weight >= 0) {
+      new_columns.weights = quotes.weight.empty();
+      quotes.weight.resize(size);
+    }
+    return new_columns;
+  }
+
+  // Points `result` at quotes [begin, end) of the survey's arrays.
+  void SetSlice(size_t begin, size_t end, ChunkResult* result) {
+    QuoteArrays& quotes = state_->quotes;
+    QuoteSlice& slice = result->slice;
+    slice.region = quotes.region.data() + begin;
+    slice.item = quotes.item.data() + begin;
+    slice.log_price = quotes.log_price.data() + begin;
+    slice.row_hash = quotes.row_hash.data() + begin;
+    if (columns_.representative >= 0) slice.representative = quotes.representative.data() + begin;
+    if (columns_.weight >= 0) slice.weight = quotes.weight.data() + begin;
+    slice.capacity = end - begin;
+    result->first_quote = begin;
   }
 
   // Adds a chunk's rows for one item and heading to the item's conflict.
@@ -1107,87 +1167,84 @@ class PriceReader {
     state_->num_quotes += result->rows_used;
   }
 
-  // Appends the quotes of the first `num_chunks` merged chunks to the
-  // survey's, in file order: the arrays are sized once, then each chunk's
-  // quotes are copied (and their indices mapped) in parallel.
-  void AppendQuotes(const std::vector<ChunkResult>& results, size_t num_chunks) {
-    QuoteArrays& global = state_->quotes;
-    const size_t before = global.size();
-    std::vector<size_t> offset(num_chunks + 1, before);
-    bool has_flag = !global.representative.empty(), has_weight = !global.weight.empty();
-    for (size_t c = 0; c < num_chunks; ++c) {
-      offset[c + 1] = offset[c] + results[c].quotes.size();
-      has_flag = has_flag || !results[c].quotes.representative.empty();
-      has_weight = has_weight || !results[c].quotes.weight.empty();
-    }
-    if (offset[num_chunks] == before) return;
-    // An array stays empty until a file has its column; the quotes of the
-    // other files are not representative (0) and weigh 1.
-    if (has_flag && global.representative.empty()) global.representative.assign(before, 0);
-    if (has_weight && global.weight.empty()) global.weight.assign(before, 1.0);
-    for (size_t c = 0; c < num_chunks; ++c) state_->quote_lines.Append(results[c].lines, offset[c]);
+  // Settles the quotes of the first `num_chunks` merged chunks, which
+  // follow quote `block_begin`, in file order: their indices are mapped to
+  // the survey's in place (chunks in parallel), the gaps that rejected rows
+  // left at the ends of their slices are closed, and the arrays are cut to
+  // the quotes used (dropping the slices of chunks after a malformed record).
+  void FinishQuotes(const std::vector<ChunkResult>& results, size_t num_chunks,
+                    size_t block_begin, NewColumns new_columns) {
     const int num_threads = NumThreads(static_cast<int>(num_chunks));
-    // Each array is appended to by one thread, chunk after chunk, into
-    // capacity reserved before (no zero-filling first; region and item
-    // indices are mapped in place just after their copy).
 #pragma omp parallel for schedule(dynamic, 1) num_threads(num_threads)
-    for (int a = 0; a < 6; ++a) {
-      for (size_t c = 0; c < num_chunks; ++c) {
-        const QuoteArrays& local = results[c].quotes;
-        const size_t n = local.size();
-        switch (a) {
-          case 0: AppendRegions(results[c], &global.region); break;
-          case 1: AppendItems(results[c], &global.item); break;
-          case 2: Append(local.log_price, &global.log_price); break;
-          case 3: Append(local.row_hash, &global.row_hash); break;
-          case 4:
-            if (!has_flag) break;
-            if (local.representative.empty()) {
-              global.representative.insert(global.representative.end(), n, 0);
-            } else {
-              Append(local.representative, &global.representative);
-            }
-            break;
-          default:
-            if (!has_weight) break;
-            if (local.weight.empty()) {
-              global.weight.insert(global.weight.end(), n, 1.0);
-            } else {
-              Append(local.weight, &global.weight);
-            }
-            break;
+    for (int c = 0; c < static_cast<int>(num_chunks); ++c) MapIndices(results[c]);
+    QuoteArrays& quotes = state_->quotes;
+    size_t end = block_begin;
+    for (size_t c = 0; c < num_chunks; ++c) {
+      const ChunkResult& result = results[c];
+      const size_t n = static_cast<size_t>(result.rows_used);
+      if (result.first_quote != end) {
+        MoveDown(result.first_quote, n, end, &quotes.region);
+        MoveDown(result.first_quote, n, end, &quotes.item);
+        MoveDown(result.first_quote, n, end, &quotes.log_price);
+        MoveDown(result.first_quote, n, end, &quotes.row_hash);
+        if (columns_.representative >= 0) {
+          MoveDown(result.first_quote, n, end, &quotes.representative);
         }
+        if (columns_.weight >= 0) MoveDown(result.first_quote, n, end, &quotes.weight);
       }
+      state_->quote_lines.Append(result.lines, end);
+      end += n;
     }
+    quotes.region.resize(end);
+    quotes.item.resize(end);
+    quotes.log_price.resize(end);
+    quotes.row_hash.resize(end);
+    // An array stays empty until a quote of a file with its column is
+    // used; the quotes of the other files are not representative (0) and
+    // weigh 1.
+    SettleColumn(block_begin, end, new_columns.flags, uint8_t{0}, &quotes.representative);
+    SettleColumn(block_begin, end, new_columns.weights, 1.0, &quotes.weight);
   }
 
-  template <typename T>
-  static void Append(const std::vector<T>& from, std::vector<T>* to) {
-    to->insert(to->end(), from.begin(), from.end());
-  }
-
-  // The chunk's regions as the survey's indices.
-  static void AppendRegions(const ChunkResult& result, std::vector<int32_t>* to) {
-    const std::vector<int>& map = result.region_map;
-    if (map.empty()) {
-      Append(result.quotes.region, to);
+  // Cuts the flag or weight array to `end` quotes, giving the quotes of
+  // files without the column `value`; an array the block was first to fill
+  // is emptied again when the block used no quote, else its quotes before
+  // `block_begin` get `value`.
+  template <typename T, typename Vector>
+  static void SettleColumn(size_t block_begin, size_t end, bool new_column, T value,
+                           Vector* array) {
+    if (new_column && end == block_begin) {
+      array->clear();
       return;
     }
-    const size_t at = to->size();
-    Append(result.quotes.region, to);
-    std::transform(to->begin() + at, to->end(), to->begin() + at,
-                   [&map](int32_t r) { return int32_t{map[r]}; });
+    if (new_column) std::fill(array->begin(), array->begin() + block_begin, value);
+    if (!array->empty()) array->resize(end, value);
   }
 
-  // The chunk's items as the survey's indices (see ChunkResult::item_base).
-  static void AppendItems(const ChunkResult& result, std::vector<int32_t>* to) {
-    const std::vector<int>& map = result.item_map;
-    const int32_t base = result.item_base;
-    const size_t at = to->size();
-    Append(result.quotes.item, to);
-    std::transform(to->begin() + at, to->end(), to->begin() + at, [&map, base](int32_t item) {
-      return item < base ? item : int32_t{map[item - base]};
-    });
+  // Moves quotes [from, from + n) of `array` down to `to` (<= from).
+  template <typename Vector>
+  static void MoveDown(size_t from, size_t n, size_t to, Vector* array) {
+    std::memmove(array->data() + to, array->data() + from, n * sizeof(*array->data()));
+  }
+
+  // Maps the chunk's region and item indices to the survey's in its slice
+  // (regions: not when they are the survey's already; items: only those
+  // at or past ChunkResult::item_base).
+  static void MapIndices(const ChunkResult& result) {
+    const size_t n = static_cast<size_t>(result.rows_used);
+    const std::vector<int>& region_map = result.region_map;
+    if (!region_map.empty()) {
+      int32_t* region = result.slice.region;
+      for (size_t q = 0; q < n; ++q) region[q] = region_map[region[q]];
+    }
+    const std::vector<int>& item_map = result.item_map;
+    if (!item_map.empty()) {
+      int32_t* item = result.slice.item;
+      const int32_t base = result.item_base;
+      for (size_t q = 0; q < n; ++q) {
+        if (item[q] >= base) item[q] = item_map[item[q] - base];
+      }
+    }
   }
 
  private:

@@ -1134,6 +1134,27 @@ TEST(CsvReader, MeasuresThroughputOnATypicalPriceFile) {
               num_megabytes / std::max(wall_seconds, 1e-9));
 }
 
+// Lengths around the 16-byte blocks and past the 255 blocks a byte lane
+// counts before it is summed; all line feeds fill every lane to 255.
+TEST(CountLineFeeds, MatchesAByteCountAtEveryLengthAndDensity) {
+  std::mt19937 random(5);
+  for (const double density : {0.0, 0.03, 0.5, 1.0}) {
+    std::bernoulli_distribution is_line_feed(density);
+    std::string data;
+    for (size_t n = 0; n < 9000; ++n) {
+      const std::string_view head(data.data(), n);
+      if (n < 100 || n % 61 == 0 || (n >= 4070 && n <= 4100)) {
+        EXPECT_EQ(CountLineFeeds(head), std::count(head.begin(), head.end(), '\n'))
+            << "length " << n << ", density " << density;
+      }
+      data.push_back(is_line_feed(random) ? '\n' : static_cast<char>('a' + n % 26));
+    }
+    // From an odd offset, so no load is aligned.
+    const std::string_view tail = std::string_view(data).substr(3);
+    EXPECT_EQ(CountLineFeeds(tail), std::count(tail.begin(), tail.end(), '\n'));
+  }
+}
+
 TEST(CsvReader, SplitsOnASemicolonAndKeepsQuotedSemicolonsAndCommas) {
   CsvReader reader("region;price;note\nAAR;11,77;\"a;b\"\n");
   reader.set_delimiter(';');

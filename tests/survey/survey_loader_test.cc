@@ -960,6 +960,43 @@ TEST(LoadSurvey, GivesTheSameCellsAndRejectionsForOneAndTwoThreads) {
   EXPECT_EQ(a.rejected_rows[0].line, 1 + kNumLargeRows + (kNumLargeRows + 6) / 7 + 1);
 }
 
+// Each chunk of a block writes its quotes into room for one quote per line
+// feed: rows rejected and records spanning two lines leave gaps that must be
+// closed in file order. One chunk per block (4 KiB blocks) leaves none
+// between chunks, and the file without its rejected rows none at all.
+TEST(LoadSurvey, ClosesTheGapsLeftByRejectedRowsBetweenTheChunksOfABlock) {
+  std::string prices = "region,item,description,price,heading\n";
+  std::string clean = prices;
+  std::mt19937 random(11);
+  for (int row = 0; row < kNumLargeRows; ++row) {
+    const int item = static_cast<int>(random() % 90);
+    std::string text = "r" + std::to_string(random() % 12) + ",item" + std::to_string(item);
+    text += row % 7 == 0 ? ",\"line one\nline, two\"" : ",plain";
+    const bool bad = row % 53 == 0 && row > 0;
+    text += bad ? ",x" : "," + std::to_string(1.0 + static_cast<double>(random() % 10000) / 100.0);
+    text += ",h" + std::to_string(item % 9) + "\n";
+    prices += text;
+    if (!bad) clean += text;
+  }
+  const SurveyDir files = MakeSurvey("gaps", prices);
+  const SurveyDir clean_files = MakeSurvey("gaps_clean", clean);
+  LoadOptions options;
+  options.invalid_rows = InvalidRowPolicy::kSkip;
+  Survey without_bad_rows;
+  ASSERT_EQ(Load(clean_files.config, &without_bad_rows, options).outcome, LoadOutcome::kOk);
+  for (const int num_threads : {1, 2}) {
+    for (const int64_t block_bytes : {int64_t{16} << 20, int64_t{4096}}) {
+      options.num_threads = num_threads;
+      options.block_bytes = block_bytes;
+      Survey survey;
+      const LoadSummary summary = Load(files.config, &survey, options);
+      ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
+      EXPECT_EQ(summary.rejected_rows.size(), static_cast<size_t>((kNumLargeRows - 1) / 53));
+      ExpectSameCells(survey, without_bad_rows);
+    }
+  }
+}
+
 // Quotes of `num_regions` x `num_items` possible cells in shuffled file
 // order: about 70 % of the cells priced, 1 to 3 quotes each, with flags and
 // quote weights; the last item and region get none.
