@@ -74,6 +74,25 @@ TEST_F(DenseKernelsTest, GramUpdateFollowsTheFusedOrderAndLeavesTheUpperTriangle
   }
 }
 
+// Whether `ours` equals `eigen` exactly (whole numbers: every partial sum
+// is exact in either order) or within 1e-13 of each entry's terms'
+// magnitudes (the error bound of a sum), over the lower triangle only when
+// asked.
+::testing::AssertionResult AgreesWithEigen(const Eigen::MatrixXd& ours, const Eigen::MatrixXd& eigen,
+                                           const Eigen::MatrixXd& magnitude, bool whole, bool lower_only) {
+  for (Eigen::Index j = 0; j < ours.cols(); ++j) {
+    for (Eigen::Index i = lower_only ? j : 0; i < ours.rows(); ++i) {
+      const bool agrees = whole ? ours(i, j) == eigen(i, j)
+                                : std::abs(ours(i, j) - eigen(i, j)) <= 1e-13 * magnitude(i, j);
+      if (!agrees) {
+        return ::testing::AssertionFailure()
+               << "at (" << i << ", " << j << "): " << ours(i, j) << " against Eigen's " << eigen(i, j);
+      }
+    }
+  }
+  return ::testing::AssertionSuccess();
+}
+
 TEST_F(DenseKernelsTest, GramUpdateAgreesWithEigenToRoundingAndExactlyOnWholeNumbers) {
   std::mt19937_64 random(12);
   for (const bool whole : {false, true}) {
@@ -86,17 +105,7 @@ TEST_F(DenseKernelsTest, GramUpdateAgreesWithEigenToRoundingAndExactlyOnWholeNum
       SubtractGramLowerAvx2Fma(m, n, x.data(), m, ours.data(), m);
       // Error bound of a sum: relative to the sum of the terms' magnitudes.
       const Eigen::MatrixXd magnitude = before.cwiseAbs() + x.cwiseAbs() * x.cwiseAbs().transpose();
-      for (int j = 0; j < m; ++j) {
-        for (int i = j; i < m; ++i) {
-          if (whole) {
-            ASSERT_EQ(ours(i, j), eigen(i, j))
-                << m << " x " << n << " at (" << i << ", " << j << ")";
-          } else {
-            ASSERT_LE(std::abs(ours(i, j) - eigen(i, j)), 1e-13 * magnitude(i, j))
-                << m << " x " << n << " at (" << i << ", " << j << ")";
-          }
-        }
-      }
+      ASSERT_TRUE(AgreesWithEigen(ours, eigen, magnitude, whole, /*lower_only=*/true)) << m << " x " << n;
     }
   }
 }
@@ -134,17 +143,7 @@ TEST_F(DenseKernelsTest, ProductAgreesWithEigenToRoundingAndExactlyOnWholeNumber
       Eigen::MatrixXd ours(m, n);
       MultiplyAvx2Fma(m, n, depth, a.data(), m, b.data(), depth, ours.data(), m);
       const Eigen::MatrixXd magnitude = a.cwiseAbs() * b.cwiseAbs();
-      for (int j = 0; j < n; ++j) {
-        for (int i = 0; i < m; ++i) {
-          if (whole) {
-            ASSERT_EQ(ours(i, j), eigen(i, j))
-                << m << " x " << n << " at (" << i << ", " << j << ")";
-          } else {
-            ASSERT_LE(std::abs(ours(i, j) - eigen(i, j)), 1e-13 * magnitude(i, j))
-                << m << " x " << n << " at (" << i << ", " << j << ")";
-          }
-        }
-      }
+      ASSERT_TRUE(AgreesWithEigen(ours, eigen, magnitude, whole, /*lower_only=*/false)) << m << " x " << n;
     }
   }
 }
