@@ -8,6 +8,7 @@
 #include <optional>
 #include <string>
 
+#include "base/memory_reuse.h"
 #include "cli/commands.h"
 #include "paritas/base/text.h"
 #include "paritas/jobs/jobs.h"
@@ -216,6 +217,7 @@ void AddCarryOptions(CLI::App* carry, paritas::cli::CarryArguments* arguments) {
 }  // namespace
 
 int main(int argc, char** argv) {
+  paritas::internal::KeepFreedMemoryForReuse();
   CLI::App app{"paritas: regional price parities (PPPs) from a regional price survey", "paritas"};
   app.require_subcommand(1);
   app.set_version_flag("--version", std::string("paritas ") + PARITAS_VERSION);
