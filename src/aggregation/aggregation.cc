@@ -97,8 +97,13 @@ bool GeksFisherWithSpreads(const NodeArrays& arrays, const SpreadOptions& spread
   if (arrays.price.rows() < kMinRegionsForBlocks) return false;
   GeksResult geks;
   SpreadSummary summary;
-  if (!GeksFisherAndSpreadsByRowBlocks(arrays.price, arrays.expenditure, GeksBlockOptions(),
-                                       spread_options, &geks, &summary)) {
+  // The caller's thread count, not OpenMP's default: a node loop of one
+  // aggregate has set that to 1 (KeepEigenOnThisThread), which would leave
+  // the root's blocks, most of the stage, on one core.
+  GeksBlockOptions blocks;
+  blocks.num_threads = spread_options.num_threads;
+  if (!GeksFisherAndSpreadsByRowBlocks(arrays.price, arrays.expenditure, blocks, spread_options,
+                                       &geks, &summary)) {
     return false;
   }
   *aggregate = FromGeks(std::move(geks));

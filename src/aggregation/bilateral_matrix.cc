@@ -398,10 +398,10 @@ void SpreadRows(const MaskedArrays& m, Eigen::Index a0, Eigen::Index a1, const S
       if (options.num_widest == 0) continue;
       SpreadPairIndices pair;
       pair.a = static_cast<int>(a), pair.b = static_cast<int>(b), pair.spread = s;
-      pair.laspeyres = laspeyres(b), pair.paasche = paasche(b);
-      pair.fisher = std::sqrt(pair.laspeyres * pair.paasche);
       const size_t k = static_cast<size_t>(options.num_widest);
       if (block->widest.size() == k && !WiderPair(pair, block->widest.front())) continue;
+      pair.laspeyres = laspeyres(b), pair.paasche = paasche(b);
+      pair.fisher = std::sqrt(pair.laspeyres * pair.paasche);
       block->widest.push_back(pair);
       std::push_heap(block->widest.begin(), block->widest.end(), WiderPair);
       if (block->widest.size() > k) {
@@ -721,9 +721,10 @@ void SpreadPairsOfRow(const BlockSums& sums, Eigen::Index n, Eigen::Index b0, Ei
     if (k == 0) continue;
     SpreadPairIndices pair;
     pair.a = static_cast<int>(b), pair.b = static_cast<int>(c), pair.spread = s_b;
+    // The order reads only the spread and the regions: most pairs stop here.
+    if (pairs.widest.size() == k && !WiderPair(pair, pairs.widest.front())) continue;
     pair.laspeyres = xb(t) / vb(t), pair.paasche = vc(t) / xc(t);
     pair.fisher = std::sqrt(pair.laspeyres * pair.paasche);
-    if (pairs.widest.size() == k && !WiderPair(pair, pairs.widest.front())) continue;
     pairs.widest.push_back(pair);
     std::push_heap(pairs.widest.begin(), pairs.widest.end(), WiderPair);
     if (pairs.widest.size() > k) {

@@ -119,8 +119,12 @@ class NormalEquations {
 
   // Returns l_r'(X'WX)^- l_r for every contrast l_r = e_r - reference
   // (gauge invariant, as the entries of l_r sum to 0), without forming any
-  // R x R matrix when regions are eliminated: cost min(R, I)^2 x R.
-  Eigen::VectorXd ContrastQuadraticForms(const Eigen::VectorXd& reference) const {
+  // R x R matrix when regions are eliminated: cost min(R, I)^2 x R. With
+  // regions eliminated and `region_solution` given, also hands back S^-1 v (the
+  // reduced item system's solution for every contrast, (I - 1) x R), which
+  // SandwichQuadraticForms would otherwise solve again.
+  Eigen::VectorXd ContrastQuadraticForms(const Eigen::VectorXd& reference,
+                                         Eigen::MatrixXd* region_solution = nullptr) const {
     Eigen::VectorXd quad = Eigen::VectorXd::Zero(num_regions_);
     if (eliminate_items_) {
       // l_red' S^-1 l_red on the reduced region system, in chunks.
@@ -145,8 +149,9 @@ class NormalEquations {
         const Eigen::MatrixXd m_red = inv_d.asDiagonal() * c_.rightCols(n);
         const Eigen::VectorXd z = m_red.transpose() * reference;
         const Eigen::MatrixXd v = m_red.transpose() - z * Eigen::RowVectorXd::Ones(num_regions_);
-        const Eigen::MatrixXd y = llt_.solve(v);
+        Eigen::MatrixXd y = llt_.solve(v);
         quad += v.cwiseProduct(y).colwise().sum().transpose();
+        if (region_solution != nullptr) *region_solution = std::move(y);
       }
     }
     return quad;
@@ -159,11 +164,15 @@ class NormalEquations {
   // q_r are solved in chunks (cost R^2 I, R the smaller side). With regions
   // eliminated q_r = (v_r - u - M y_r, y_r) with M = D_r^-1 C, u = D_r^-1
   // reference, v_r = e_r / d_r and y_r = -G (M(r, :)' - M' reference), so the
-  // forms reduce to I x I products: cost R I^2 instead of R^2 I.
+  // forms reduce to I x I products: cost R I^2 instead of R^2 I. Without
+  // item 0's row, -y_r is exactly the solution ContrastQuadraticForms forms
+  // (the same right-hand side, built by the same operations), so
+  // `contrast_solution`, when not empty, is used instead of solving again.
   Eigen::VectorXd SandwichQuadraticForms(const Eigen::VectorXd& reference,
                                          const Eigen::VectorXd& meat_region,
                                          const Eigen::VectorXd& meat_item,
-                                         const Eigen::MatrixXd& meat_cross) const {
+                                         const Eigen::MatrixXd& meat_cross,
+                                         const Eigen::MatrixXd& contrast_solution) const {
     Eigen::VectorXd quad(num_regions_);
     if (eliminate_items_) {
       const Eigen::MatrixXd no_item_rhs;
@@ -188,7 +197,9 @@ class NormalEquations {
     const Eigen::VectorXd mu = m_mat.transpose() * reference;
     // Y = -G (M' - mu 1'), I x R, G the gauge-fixed inverse (item 0 held).
     Eigen::MatrixXd y = Eigen::MatrixXd::Zero(num_items_, num_regions_);
-    if (n > 0) {
+    if (n > 0 && contrast_solution.size() > 0) {
+      y.bottomRows(n) = -contrast_solution;
+    } else if (n > 0) {
       const Eigen::MatrixXd rhs =
           m_mat.rightCols(n).transpose() - mu.tail(n) * Eigen::RowVectorXd::Ones(num_regions_);
       y.bottomRows(n) = -llt_.solve(rhs);
@@ -290,8 +301,11 @@ void StandardErrors(const NormalEquations& normal, const internal::CompressedCel
   const bool classic_defined = classic && std::isfinite(sigma2);
   const bool robust = kind != RobustErrors::kOff;
   if (!classic_defined && !robust) return;
+  // The contrasts' solution, shared by the classic and the sandwich forms.
+  Eigen::MatrixXd contrast_solution;
   if (classic_defined) {
-    const Eigen::VectorXd quad = normal.ContrastQuadraticForms(reference);
+    const Eigen::VectorXd quad =
+        normal.ContrastQuadraticForms(reference, robust ? &contrast_solution : nullptr);
     for (int r = 0; r < num_regions; ++r) (*se)[r] = std::sqrt(std::max(0.0, sigma2 * quad[r]));
   }
   if (!robust) return;
@@ -310,8 +324,8 @@ void StandardErrors(const NormalEquations& normal, const internal::CompressedCel
     meat_item[cells.item[k]] += score_weight[k];
     meat_cross(cells.region[k], cells.item[k]) += score_weight[k];
   }
-  const Eigen::VectorXd quad =
-      normal.SandwichQuadraticForms(reference, meat_region, meat_item, meat_cross);
+  const Eigen::VectorXd quad = normal.SandwichQuadraticForms(reference, meat_region, meat_item,
+                                                             meat_cross, contrast_solution);
   for (int r = 0; r < num_regions; ++r) (*se_robust)[r] = std::sqrt(std::max(0.0, quad[r]));
 }
 

@@ -353,6 +353,30 @@ TEST(Cpd, ResultDoesNotDependOnWhichBlockIsEliminated) {
   PARITAS_EXPECT_CLOSE(fit.sigma2, swapped.sigma2, 1e-12);
 }
 
+TEST(CpdSandwich, ErrorsHaveTheSameBitsWithAndWithoutTheClassicOnes) {
+  // With regions eliminated the sandwich reuses the classic errors' solve;
+  // without classic errors it solves on its own. Both must give the same bits.
+  for (const auto& [num_regions, num_items] : {std::make_pair(40, 7), std::make_pair(7, 40)}) {
+    const Synthetic s = MakeSynthetic(num_regions, num_items, 0.6, 0.05, true, 21);
+    for (RobustErrors kind : {RobustErrors::kHc0, RobustErrors::kHc1, RobustErrors::kHc3}) {
+      CpdOptions options;
+      options.robust_errors = kind;
+      options.reference_weights.assign(num_regions, 1.0);
+      options.reference_weights[1] = 3.0;
+      const CpdResult with_classic = FitCpd(s.heading.Data(), options);
+      options.compute_standard_errors = false;
+      const CpdResult without = FitCpd(s.heading.Data(), options);
+      ASSERT_TRUE(with_classic.identified && without.identified);
+      EXPECT_TRUE(with_classic.log_se.array().isFinite().all());
+      EXPECT_TRUE(without.log_se.array().isNaN().all());
+      for (int r = 0; r < num_regions; ++r) {
+        EXPECT_EQ(with_classic.log_se_robust[r], without.log_se_robust[r])
+            << num_regions << " regions, " << ToString(kind) << ", region " << r;
+      }
+    }
+  }
+}
+
 TEST(Cpd, ReferenceWeightsAreRenormalisedOverRegionsPresent) {
   // Region 3 has no cells: its weight is ignored and its parity is NaN.
   Synthetic s = MakeSynthetic(4, 8, 1.0, 0.05, false, 2);

@@ -46,7 +46,9 @@ AggregateParities GeksTornqvist(const NodeArrays& arrays, const BilateralMatrice
 // arrays.expenditure, spread_options), both from the same row-block
 // products (GeksFisherAndSpreadsByRowBlocks), when GeksFisher runs by row
 // blocks (from 400 regions on, every pair with an index); the same bits as
-// the two apart. Returns false, leaving both untouched, otherwise.
+// the two apart. The blocks run on spread_options.num_threads threads (0 =
+// OpenMP's default; on the calling thread inside an active parallel
+// region). Returns false, leaving both untouched, otherwise.
 bool GeksFisherWithSpreads(const NodeArrays& arrays, const SpreadOptions& spread_options,
                            AggregateParities* aggregate, SpreadSummary* spreads);
 
