@@ -31,8 +31,10 @@
 namespace paritas::internal {
 namespace {
 
-// Chunk size for parallel parsing: boundaries depend on the data only.
-constexpr size_t kChunkBytes = 1 << 21;
+// Chunk size for parallel parsing: boundaries depend on the data only. A
+// block's threads wait for its last chunk, half a chunk's parse on average:
+// 1 MiB chunks halve that wait of 2 MiB ones.
+constexpr size_t kChunkBytes = 1 << 20;
 
 struct PriceColumns {
   int region = -1, item = -1, price = -1, heading = -1, representative = -1;
@@ -341,8 +343,9 @@ class ChunkParser {
       int64_t line = 0;
       int column = 0;
       std::string problem;
-      if (RowUtf8Problem(record_, columns_.format.delimiter, columns_.names, &line, &column,
-                         &problem)) {
+      // A record the reader found all ASCII needs no UTF-8 check (and no call).
+      if (!record_.ascii && RowUtf8Problem(record_, columns_.format.delimiter, columns_.names,
+                                           &line, &column, &problem)) {
         Reject(column, problem, line);
         continue;
       }
