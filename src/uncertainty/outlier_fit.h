@@ -68,10 +68,12 @@ inline constexpr int kMinScaleCells = 3;
 
 // Workspace of RobustScale, reused between calls, contents overwritten.
 struct ScaleScratch {
-  Eigen::ArrayXd values;             // every cell's term
   std::vector<uint64_t> terms;       // bit patterns of the terms kept
   std::vector<uint64_t> candidates;  // of the median's selection
   std::vector<uint32_t> tallies;     // the selection's digit counts
+  // The last median found (0: none), where the next call looks first; it
+  // decides only how fast the median is found, never its value.
+  double median_guess = 0.0;
 };
 
 // Arrays of the block solve (see outlier_fit.cc) kept between the
