@@ -69,56 +69,6 @@ void CountRadixDigits(std::span<const uint64_t> values, int level, std::vector<u
   }
 }
 
-// Median of the non-negative finite numbers whose bit patterns are `bits`
-// (non-empty; `scratch` is workspace): the middle value, or the mean of the
-// two middle values for an even count, exactly as sorting gives it. A
-// non-negative double orders as its bit pattern, so the middle value is
-// found by radix selection: the candidates are counted per digit and those
-// in the digit bucket holding the rank sought are kept (a branch-free
-// compaction), digit by digit from the top, until at most 32 are left,
-// which are sorted; no other comparison depends on the data. For an even
-// count, the value just below the middle is the middle's bucket mate of one
-// rank less or, when the middle is the lowest of its bucket, the largest
-// candidate of the buckets below it.
-double MedianOfNonNegative(const std::vector<uint64_t>& bits, ScaleScratch* scratch) {
-  const size_t n = bits.size();
-  size_t rank = n / 2;  // rank sought among the candidates left
-  bool find_lower = n % 2 == 0 && n > 1;
-  uint64_t lower = 0;
-  std::array<uint32_t, kRadixBuckets> count;
-  std::span<const uint64_t> left(bits);
-  for (int level = 0; level < kNumRadixDigits && left.size() > kSortedCandidates; ++level) {
-    CountRadixDigits(left, level, &scratch->tallies, count.data());
-    int digit = 0;
-    while (rank >= count[digit]) rank -= count[digit++];
-    if (find_lower && rank == 0) {
-      // The value below is in the buckets below: their largest.
-      for (uint64_t x : left) lower = RadixDigitOf(x, level) < digit && x > lower ? x : lower;
-      find_lower = false;
-    }
-    if (count[digit] == left.size()) continue;  // all share this digit
-    scratch->candidates.resize(std::max(scratch->candidates.size(), left.size()));  // never beyond n
-    uint64_t* out = scratch->candidates.data();
-    size_t kept = 0;
-    for (uint64_t x : left) {
-      out[kept] = x;
-      kept += RadixDigitOf(x, level) == digit ? 1 : 0;
-    }
-    left = std::span<const uint64_t>(out, kept);
-  }
-  // The few candidates left (or, after the last digit, copies of the middle
-  // value) are sorted; the middle value has rank `rank` among them and, when
-  // still to find, its mate of one rank less is the one before it (rank >= 1
-  // then: a rank of 0 sends the search for the mate to the buckets below).
-  std::array<uint64_t, kSortedCandidates> sorted;
-  const size_t num_left = std::min(left.size(), sorted.size());
-  std::copy(left.begin(), left.begin() + static_cast<std::ptrdiff_t>(num_left), sorted.begin());
-  std::sort(sorted.begin(), sorted.begin() + static_cast<std::ptrdiff_t>(num_left));
-  const size_t at = std::min(rank, num_left - 1);
-  const double upper = std::bit_cast<double>(sorted[at]);
-  if (n % 2 == 1) return upper;
-  return 0.5 * (upper + std::bit_cast<double>(find_lower ? sorted[at - 1] : lower));
-}
 
 // Cells grouped by one index (counting sort): cells of group g are
 // order[start[g] .. start[g + 1]).
@@ -300,6 +250,54 @@ double MedianInWindow(size_t num_terms, const WindowTally& window, uint64_t* nea
 }
 
 }  // namespace
+
+// A non-negative double orders as its bit pattern, so the middle value is
+// found by radix selection: the candidates are counted per digit and those
+// in the digit bucket holding the rank sought are kept (a branch-free
+// compaction), digit by digit from the top, until at most 32 are left,
+// which are sorted; no other comparison depends on the data. For an even
+// count, the value just below the middle is the middle's bucket mate of one
+// rank less or, when the middle is the lowest of its bucket, the largest
+// candidate of the buckets below it.
+double MedianOfNonNegative(const std::vector<uint64_t>& bits, ScaleScratch* scratch) {
+  const size_t n = bits.size();
+  size_t rank = n / 2;  // rank sought among the candidates left
+  bool find_lower = n % 2 == 0 && n > 1;
+  uint64_t lower = 0;
+  std::array<uint32_t, kRadixBuckets> count;
+  std::span<const uint64_t> left(bits);
+  for (int level = 0; level < kNumRadixDigits && left.size() > kSortedCandidates; ++level) {
+    CountRadixDigits(left, level, &scratch->tallies, count.data());
+    int digit = 0;
+    while (rank >= count[digit]) rank -= count[digit++];
+    if (find_lower && rank == 0) {
+      // The value below is in the buckets below: their largest.
+      for (uint64_t x : left) lower = RadixDigitOf(x, level) < digit && x > lower ? x : lower;
+      find_lower = false;
+    }
+    if (count[digit] == left.size()) continue;  // all share this digit
+    scratch->candidates.resize(std::max(scratch->candidates.size(), left.size()));  // never beyond n
+    uint64_t* out = scratch->candidates.data();
+    size_t kept = 0;
+    for (uint64_t x : left) {
+      out[kept] = x;
+      kept += RadixDigitOf(x, level) == digit ? 1 : 0;
+    }
+    left = std::span<const uint64_t>(out, kept);
+  }
+  // The few candidates left (or, after the last digit, copies of the middle
+  // value) are sorted; the middle value has rank `rank` among them and, when
+  // still to find, its mate of one rank less is the one before it (rank >= 1
+  // then: a rank of 0 sends the search for the mate to the buckets below).
+  std::array<uint64_t, kSortedCandidates> sorted;
+  const size_t num_left = std::min(left.size(), sorted.size());
+  std::copy(left.begin(), left.begin() + static_cast<std::ptrdiff_t>(num_left), sorted.begin());
+  std::sort(sorted.begin(), sorted.begin() + static_cast<std::ptrdiff_t>(num_left));
+  const size_t at = std::min(rank, num_left - 1);
+  const double upper = std::bit_cast<double>(sorted[at]);
+  if (n % 2 == 1) return upper;
+  return 0.5 * (upper + std::bit_cast<double>(find_lower ? sorted[at - 1] : lower));
+}
 
 double RobustScale(const Eigen::VectorXd& residual, const Eigen::VectorXd& weight,
                    const Eigen::VectorXd& leverage, const std::vector<CellLink>& link,

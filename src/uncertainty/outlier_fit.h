@@ -114,6 +114,12 @@ double RobustScale(const Eigen::VectorXd& residual, const Eigen::VectorXd& weigh
                    const Eigen::VectorXd& leverage, const std::vector<CellLink>& link,
                    ScaleScratch* scratch, int* num_cells);
 
+// Returns the median of the non-negative finite numbers whose bit patterns
+// are `bits` (non-empty; `scratch` is workspace): the middle value, or the
+// mean of the two middle values for an even count, exactly as sorting
+// gives it (the middle value first in the sum).
+double MedianOfNonNegative(const std::vector<uint64_t>& bits, ScaleScratch* scratch);
+
 // Returns q_k = x_k' (X'WX)^+ x_k for every cell of a linked CPD design
 // (regions 0..num_regions-1 and items 0..num_items-1 all present), with
 // x_k the indicator of the cell's region and item. Forms the Schur
