@@ -373,7 +373,8 @@ void ScreenQuotes(const Survey& survey, int h, int64_t c, const Prediction& p, d
 // (a few units of 1e-16, relative to the log prices, which the per-heading
 // bounds keep small against the margin).
 struct QuietTest {
-  bool usable = false;
+  bool usable = false;          // for the cells (then also for cells of one quote)
+  bool quotes_usable = false;   // for cells of several quotes
   double threshold_scale_square = 0.0;   // (threshold s)^2 (1 - 4e-4)^2
   double threshold_within_square = 0.0;  // (threshold within_sd)^2 (1 - 4e-4)^2
   double log_price_limit = 0.0;          // |ln p| of the cells tested stays below
@@ -387,9 +388,9 @@ QuietTest MakeQuietTest(double scale, double within_sd, double threshold) {
   // The roundings of the exact tests are below 20 units of 2^-53 of the
   // largest |ln p| involved; the limit keeps them below a tenth of the margin.
   const double unit = std::numeric_limits<double>::epsilon() / 2.0;
-  test.log_price_limit = 0.1 * kQuietMargin * std::min(t_s, t_within) / (20.0 * unit);
-  test.usable = std::isfinite(t_s) && std::isfinite(t_within) && t_s > 1e-100 && t_within > 1e-100 &&
-                t_s < 1e100 && t_within < 1e100;
+  test.usable = std::isfinite(t_s) && t_s > 1e-100 && t_s < 1e100;
+  test.quotes_usable = test.usable && std::isfinite(t_within) && t_within > 1e-100 && t_within < 1e100;
+  test.log_price_limit = 0.1 * kQuietMargin * (test.quotes_usable ? std::min(t_s, t_within) : t_s) / (20.0 * unit);
   test.threshold_scale_square = t_s * t_s * shrink;
   test.threshold_within_square = t_within * t_within * shrink;
   return test;
@@ -416,6 +417,7 @@ bool SurelyQuiet(const Survey& survey, int64_t k, int64_t c, const ScreenFit& fi
   if (!(e * e < test.threshold_scale_square * one_less * (one_less + q))) return false;
   const int n = survey.cells.num_quotes[c];
   if (n < 2) return true;
+  if (!test.quotes_usable) return false;
   const double low = survey.cells.log_min[c], high = survey.cells.log_max[c];
   if (!(std::abs(low) < test.log_price_limit) || !(std::abs(high) < test.log_price_limit)) return false;
   const double bound = test.threshold_within_square * (n - 1);
