@@ -69,56 +69,6 @@ void CountRadixDigits(std::span<const uint64_t> values, int level, std::vector<u
   }
 }
 
-// Median of the non-negative finite numbers whose bit patterns are `bits`
-// (non-empty; `scratch` is workspace): the middle value, or the mean of the
-// two middle values for an even count, exactly as sorting gives it. A
-// non-negative double orders as its bit pattern, so the middle value is
-// found by radix selection: the candidates are counted per digit and those
-// in the digit bucket holding the rank sought are kept (a branch-free
-// compaction), digit by digit from the top, until at most 32 are left,
-// which are sorted; no other comparison depends on the data. For an even
-// count, the value just below the middle is the middle's bucket mate of one
-// rank less or, when the middle is the lowest of its bucket, the largest
-// candidate of the buckets below it.
-double MedianOfNonNegative(const std::vector<uint64_t>& bits, ScaleScratch* scratch) {
-  const size_t n = bits.size();
-  size_t rank = n / 2;  // rank sought among the candidates left
-  bool find_lower = n % 2 == 0 && n > 1;
-  uint64_t lower = 0;
-  std::array<uint32_t, kRadixBuckets> count;
-  std::span<const uint64_t> left(bits);
-  for (int level = 0; level < kNumRadixDigits && left.size() > kSortedCandidates; ++level) {
-    CountRadixDigits(left, level, &scratch->tallies, count.data());
-    int digit = 0;
-    while (rank >= count[digit]) rank -= count[digit++];
-    if (find_lower && rank == 0) {
-      // The value below is in the buckets below: their largest.
-      for (uint64_t x : left) lower = RadixDigitOf(x, level) < digit && x > lower ? x : lower;
-      find_lower = false;
-    }
-    if (count[digit] == left.size()) continue;  // all share this digit
-    scratch->candidates.resize(std::max(scratch->candidates.size(), left.size()));  // never beyond n
-    uint64_t* out = scratch->candidates.data();
-    size_t kept = 0;
-    for (uint64_t x : left) {
-      out[kept] = x;
-      kept += RadixDigitOf(x, level) == digit ? 1 : 0;
-    }
-    left = std::span<const uint64_t>(out, kept);
-  }
-  // The few candidates left (or, after the last digit, copies of the middle
-  // value) are sorted; the middle value has rank `rank` among them and, when
-  // still to find, its mate of one rank less is the one before it (rank >= 1
-  // then: a rank of 0 sends the search for the mate to the buckets below).
-  std::array<uint64_t, kSortedCandidates> sorted;
-  const size_t num_left = std::min(left.size(), sorted.size());
-  std::copy(left.begin(), left.begin() + static_cast<std::ptrdiff_t>(num_left), sorted.begin());
-  std::sort(sorted.begin(), sorted.begin() + static_cast<std::ptrdiff_t>(num_left));
-  const size_t at = std::min(rank, num_left - 1);
-  const double upper = std::bit_cast<double>(sorted[at]);
-  if (n % 2 == 1) return upper;
-  return 0.5 * (upper + std::bit_cast<double>(find_lower ? sorted[at - 1] : lower));
-}
 
 // Cells grouped by one index (counting sort): cells of group g are
 // order[start[g] .. start[g + 1]).
@@ -177,45 +127,210 @@ Compressed Compress(const CpdData& data) {
 }
 
 // Sets the Huber weight of each cell, min(1, c s / |e|) (Huber 1981), and
-// returns the largest change from `previous`. The quotient is formed for
-// every cell and then chosen, in two loops that each run on vectors.
+// returns the largest change from `previous`. A block of cells at a time
+// (kHuberBlock, in the L1 cache for the three loops over it): the quotient
+// is formed for every cell and then chosen, in loops that each run on
+// vectors.
 double HuberWeights(const Eigen::VectorXd& residual, double cutoff, const Eigen::VectorXd& previous,
                     Eigen::VectorXd* weight) {
+  constexpr int64_t kHuberBlock = 512;
   const int64_t n = residual.size();
   weight->resize(n);
+  double change = 0.0;
+  for (int64_t begin = 0; begin < n; begin += kHuberBlock) {
+    const int64_t size = std::min(kHuberBlock, n - begin);
+    const double* e = residual.data() + begin;
+    double* w = weight->data() + begin;
+    for (int64_t k = 0; k < size; ++k) w[k] = cutoff / std::abs(e[k]);
+    for (int64_t k = 0; k < size; ++k) w[k] = std::abs(e[k]) > cutoff ? w[k] : 1.0;
+    change = std::max(change, (weight->segment(begin, size) - previous.segment(begin, size)).cwiseAbs().maxCoeff());
+  }
+  return change;
+}
+
+// Cells of RobustScale's terms formed at a time, as one Eigen array
+// expression (square roots and quotients on vectors) into a buffer that
+// stays in the L1 cache while the cells kept are picked from it.
+constexpr int64_t kTermBlock = 512;
+// Half-width of the window around the previous median, relative to it.
+constexpr double kGuessWindow = 1.0 / 64.0;
+// How much wider than the window the test without square roots looks
+// (relative): far beyond its roundings (a few units of 1e-16).
+constexpr double kSureMargin = 1e-6;
+// Windows beyond these bounds are not used (the squares below could
+// leave the normal range of doubles).
+constexpr double kSmallestGuess = 1e-100, kLargestGuess = 1e100;
+
+// Sets the terms |e| / sqrt(1 - w q) of the cells kept (link kNone, w q
+// below 1 - kHatOne) into `kept` (sized for every cell), in cell order, and
+// returns their number.
+size_t KeepTerms(const Eigen::VectorXd& residual, const Eigen::VectorXd& weight, const Eigen::VectorXd& leverage,
+                 const std::vector<CellLink>& link, uint64_t* kept) {
+  const int64_t num_all = residual.size();
+  const double* w = weight.data();
+  const double* q = leverage.data();
+  Eigen::Array<double, kTermBlock, 1> block;
+  size_t n = 0;
+  for (int64_t begin = 0; begin < num_all; begin += kTermBlock) {
+    const int64_t size = std::min(kTermBlock, num_all - begin);
+    // Each quotient and root correctly rounded, so the same bits as one at
+    // a time; NaN or infinity where h >= 1, not kept.
+    block.head(size) = residual.segment(begin, size).array().abs() /
+                       (1.0 - weight.segment(begin, size).array() * leverage.segment(begin, size).array()).sqrt();
+    for (int64_t j = 0; j < size; ++j) {
+      const int64_t k = begin + j;
+      kept[n] = std::bit_cast<uint64_t>(block[j]);
+      n += link[k] == CellLink::kNone && w[k] * q[k] < 1.0 - kHatOne ? 1 : 0;
+    }
+  }
+  return n;
+}
+
+// Where the terms lie against a window [lo, hi] of bit patterns: how many
+// are below it, and those inside it.
+struct WindowTally {
+  uint64_t lo = 0, hi = 0;
+  size_t num_below = 0;
+  size_t num_near = 0;  // their bit patterns in the caller's buffer
+};
+
+// Tallies the terms of the cells kept (as KeepTerms) against `window`,
+// setting those inside it into `near` (sized for every cell), and returns
+// the number of cells kept. Most terms are placed without being formed: a
+// term t = |e| / sqrt(d), d = 1 - w q, lies below lo when e^2 < d lo^2 and
+// above hi when e^2 > d hi^2, each bound moved outwards by kSureMargin so
+// that no rounding can reverse the answer; the few terms in between are
+// formed as KeepTerms forms them and placed exactly.
+size_t TallyAgainstWindow(const Eigen::VectorXd& residual, const Eigen::VectorXd& weight,
+                          const Eigen::VectorXd& leverage, const std::vector<CellLink>& link, uint64_t* near,
+                          WindowTally* window) {
+  const int64_t num_all = residual.size();
   const double* e = residual.data();
-  double* w = weight->data();
-  for (int64_t k = 0; k < n; ++k) w[k] = cutoff / std::abs(e[k]);
-  for (int64_t k = 0; k < n; ++k) w[k] = std::abs(e[k]) > cutoff ? w[k] : 1.0;
-  return (*weight - previous).cwiseAbs().maxCoeff();
+  const double* w = weight.data();
+  const double* q = leverage.data();
+  const double sure_below = std::bit_cast<double>(window->lo) * (1.0 - kSureMargin);
+  const double sure_above = std::bit_cast<double>(window->hi) * (1.0 + kSureMargin);
+  const double below_square = sure_below * sure_below, above_square = sure_above * sure_above;
+  size_t n = 0, num_below = 0, num_near = 0;
+  // The tests combine as integers, so that the only branch is the rare one.
+  for (int64_t k = 0; k < num_all; ++k) {
+    const double h = w[k] * q[k];
+    const double d = 1.0 - h;
+    const double square = e[k] * e[k];
+    const size_t keep = static_cast<size_t>(link[k] == CellLink::kNone) & static_cast<size_t>(h < 1.0 - kHatOne);
+    const size_t below = static_cast<size_t>(square < d * below_square);
+    const size_t above = static_cast<size_t>(square > d * above_square);
+    n += keep;
+    num_below += keep & below;
+    if ((keep & ~below & ~above) != 0) [[unlikely]] {
+      const uint64_t x = std::bit_cast<uint64_t>(std::abs(e[k]) / std::sqrt(d));
+      num_below += x < window->lo ? 1 : 0;
+      near[num_near] = x;
+      num_near += x >= window->lo && x <= window->hi ? 1 : 0;
+    }
+  }
+  window->num_below = num_below;
+  window->num_near = num_near;
+  return n;
+}
+
+// The median of `num_terms` terms from the window's tally when the middle
+// term (and for an even count the one below it) lies inside the window:
+// the same value as sorting gives, the middle term or the mean of the two
+// middle terms. NaN otherwise.
+double MedianInWindow(size_t num_terms, const WindowTally& window, uint64_t* near) {
+  const size_t rank = num_terms / 2;
+  const size_t first = num_terms % 2 == 0 ? rank - 1 : rank;  // lowest rank needed
+  if (rank >= num_terms || first < window.num_below || rank - window.num_below >= window.num_near) return kNaN;
+  const size_t at = rank - window.num_below;
+  std::nth_element(near, near + at, near + window.num_near);
+  const double upper = std::bit_cast<double>(near[at]);
+  if (num_terms % 2 == 1) return upper;
+  return 0.5 * (upper + std::bit_cast<double>(*std::max_element(near, near + at)));
 }
 
 }  // namespace
 
+// A non-negative double orders as its bit pattern, so the middle value is
+// found by radix selection: the candidates are counted per digit and those
+// in the digit bucket holding the rank sought are kept (a branch-free
+// compaction), digit by digit from the top, until at most 32 are left,
+// which are sorted; no other comparison depends on the data. For an even
+// count, the value just below the middle is the middle's bucket mate of one
+// rank less or, when the middle is the lowest of its bucket, the largest
+// candidate of the buckets below it.
+double MedianOfNonNegative(const std::vector<uint64_t>& bits, ScaleScratch* scratch) {
+  const size_t n = bits.size();
+  size_t rank = n / 2;  // rank sought among the candidates left
+  bool find_lower = n % 2 == 0 && n > 1;
+  uint64_t lower = 0;
+  std::array<uint32_t, kRadixBuckets> count;
+  std::span<const uint64_t> left(bits);
+  for (int level = 0; level < kNumRadixDigits && left.size() > kSortedCandidates; ++level) {
+    CountRadixDigits(left, level, &scratch->tallies, count.data());
+    int digit = 0;
+    while (rank >= count[digit]) rank -= count[digit++];
+    if (find_lower && rank == 0) {
+      // The value below is in the buckets below: their largest.
+      for (uint64_t x : left) lower = RadixDigitOf(x, level) < digit && x > lower ? x : lower;
+      find_lower = false;
+    }
+    if (count[digit] == left.size()) continue;  // all share this digit
+    scratch->candidates.resize(std::max(scratch->candidates.size(), left.size()));  // never beyond n
+    uint64_t* out = scratch->candidates.data();
+    size_t kept = 0;
+    for (uint64_t x : left) {
+      out[kept] = x;
+      kept += RadixDigitOf(x, level) == digit ? 1 : 0;
+    }
+    left = std::span<const uint64_t>(out, kept);
+  }
+  // The few candidates left (or, after the last digit, copies of the middle
+  // value) are sorted; the middle value has rank `rank` among them and, when
+  // still to find, its mate of one rank less is the one before it (rank >= 1
+  // then: a rank of 0 sends the search for the mate to the buckets below).
+  std::array<uint64_t, kSortedCandidates> sorted;
+  const size_t num_left = std::min(left.size(), sorted.size());
+  std::copy(left.begin(), left.begin() + static_cast<std::ptrdiff_t>(num_left), sorted.begin());
+  std::sort(sorted.begin(), sorted.begin() + static_cast<std::ptrdiff_t>(num_left));
+  const size_t at = std::min(rank, num_left - 1);
+  const double upper = std::bit_cast<double>(sorted[at]);
+  if (n % 2 == 1) return upper;
+  return 0.5 * (upper + std::bit_cast<double>(find_lower ? sorted[at - 1] : lower));
+}
+
 double RobustScale(const Eigen::VectorXd& residual, const Eigen::VectorXd& weight,
                    const Eigen::VectorXd& leverage, const std::vector<CellLink>& link,
                    ScaleScratch* scratch, int* num_cells) {
-  std::vector<uint64_t>& standardised = scratch->terms;
-  const int64_t num_all = residual.size();
-  standardised.resize(num_all);
-  uint64_t* out = standardised.data();
-  const double* w = weight.data();
-  const double* q = leverage.data();
-  // Every cell's term first, as an Eigen array expression so that square
-  // roots and quotients run on vectors (each correctly rounded, so the same
-  // bits as one at a time; NaN or infinity where h >= 1, not kept), then
-  // the cells kept, in order, by a branch-free compaction.
-  Eigen::ArrayXd& term = scratch->values;
-  term = residual.array().abs() / (1.0 - weight.array() * leverage.array()).sqrt();
-  size_t n = 0;
-  for (int64_t k = 0; k < num_all; ++k) {
-    out[n] = std::bit_cast<uint64_t>(term[k]);
-    n += link[k] == CellLink::kNone && w[k] * q[k] < 1.0 - kHatOne ? 1 : 0;
+  // With a guess (the previous median of the same fit, which moves little
+  // from one reweighting to the next), the terms are first tallied against
+  // a window around it; when the middle lies inside, it is selected among
+  // the few there.
+  const double guess = scratch->median_guess;
+  if (guess >= kSmallestGuess && guess <= kLargestGuess) {
+    WindowTally window;
+    window.lo = std::bit_cast<uint64_t>(guess * (1.0 - kGuessWindow));
+    window.hi = std::bit_cast<uint64_t>(guess * (1.0 + kGuessWindow));
+    scratch->candidates.resize(std::max(scratch->candidates.size(), static_cast<size_t>(residual.size())));
+    const size_t n = TallyAgainstWindow(residual, weight, leverage, link, scratch->candidates.data(), &window);
+    *num_cells = static_cast<int>(n);
+    if (*num_cells < kMinScaleCells) return kNaN;
+    const double median = MedianInWindow(n, window, scratch->candidates.data());
+    if (!std::isnan(median)) {
+      scratch->median_guess = median;
+      return kMadToSigma * median;  // positive: the window lies above 0
+    }
   }
+  // Every term of the cells kept, in order, by a branch-free compaction.
+  std::vector<uint64_t>& standardised = scratch->terms;
+  standardised.resize(residual.size());
+  const size_t n = KeepTerms(residual, weight, leverage, link, standardised.data());
   standardised.resize(n);
   *num_cells = static_cast<int>(n);
   if (*num_cells < kMinScaleCells) return kNaN;
-  const double scale = kMadToSigma * MedianOfNonNegative(standardised, scratch);
+  const double median = MedianOfNonNegative(standardised, scratch);
+  scratch->median_guess = median;
+  const double scale = kMadToSigma * median;
   if (scale > 0.0) return scale;
   // More than half the cells fit exactly (identical prices, e.g. a national
   // tariff): the root mean square still measures the few that do not
@@ -529,6 +644,7 @@ ScreenFit FitScreen(const CpdData& data, const OutlierOptions& options, FitWorks
   // effects of the last one (compressed numbering).
   BlockSolve latest, refit;
   ScaleScratch& scratch = ws.scale;
+  scratch.median_guess = 0.0;  // a new heading's scale
   fit.weight = Eigen::VectorXd::Ones(num_cells);
   if (!SolveBlocks(c.num_regions, c.num_items, c.region, c.item, data.log_price, fit.weight, &ws, &latest)) {
     fit.message = "the CPD normal equations are numerically singular";
@@ -544,11 +660,15 @@ ScreenFit FitScreen(const CpdData& data, const OutlierOptions& options, FitWorks
   refit = std::move(latest);
   adopt(&refit);
   fit.converged = options.fit == OutlierFit::kLeastSquares;
+  // Whether fit.scale is that of the current residuals, weights and
+  // leverages (the loop stops after forming it, unless out of iterations).
+  bool scale_current = false;
   while (!fit.converged && fit.num_iterations < options.max_iterations) {
     // The scale is re-estimated from the current residuals at every step,
     // so it is not fixed by a least-squares fit that the errors dragged.
-    const double scale =
+    const double scale = fit.scale =
         RobustScale(fit.residual, fit.weight, fit.leverage, fit.link, &scratch, &fit.num_scale_cells);
+    scale_current = true;
     if (!(scale > 0.0)) break;  // too few cells, or an exact fit: least squares it is
     Eigen::VectorXd& next = ws.next_weight;
     const double change = HuberWeights(fit.residual, options.huber_constant * scale, fit.weight, &next);
@@ -561,6 +681,7 @@ ScreenFit FitScreen(const CpdData& data, const OutlierOptions& options, FitWorks
     }
     fit.weight.swap(next);
     adopt(&refit);
+    scale_current = false;
     ++fit.num_iterations;
   }
   if (!fit.converged && fit.num_iterations == 0) fit.converged = true;  // nothing to reweight
@@ -570,7 +691,9 @@ ScreenFit FitScreen(const CpdData& data, const OutlierOptions& options, FitWorks
   fit.item_effect = Eigen::VectorXd::Constant(data.num_items, kNaN);
   for (int r = 0; r < c.num_regions; ++r) fit.log_parity[c.region_of[r]] = latest.region_effect[r];
   for (int i = 0; i < c.num_items; ++i) fit.item_effect[c.item_of[i]] = latest.item_effect[i];
-  fit.scale = RobustScale(fit.residual, fit.weight, fit.leverage, fit.link, &scratch, &fit.num_scale_cells);
+  if (!scale_current) {
+    fit.scale = RobustScale(fit.residual, fit.weight, fit.leverage, fit.link, &scratch, &fit.num_scale_cells);
+  }
   return fit;
 }
 

@@ -68,10 +68,12 @@ inline constexpr int kMinScaleCells = 3;
 
 // Workspace of RobustScale, reused between calls, contents overwritten.
 struct ScaleScratch {
-  Eigen::ArrayXd values;             // every cell's term
   std::vector<uint64_t> terms;       // bit patterns of the terms kept
   std::vector<uint64_t> candidates;  // of the median's selection
   std::vector<uint32_t> tallies;     // the selection's digit counts
+  // The last median found (0: none), where the next call looks first; it
+  // decides only how fast the median is found, never its value.
+  double median_guess = 0.0;
 };
 
 // Arrays of the block solve (see outlier_fit.cc) kept between the
@@ -111,6 +113,12 @@ ScreenFit FitScreen(const CpdData& data, const OutlierOptions& options, FitWorks
 double RobustScale(const Eigen::VectorXd& residual, const Eigen::VectorXd& weight,
                    const Eigen::VectorXd& leverage, const std::vector<CellLink>& link,
                    ScaleScratch* scratch, int* num_cells);
+
+// Returns the median of the non-negative finite numbers whose bit patterns
+// are `bits` (non-empty; `scratch` is workspace): the middle value, or the
+// mean of the two middle values for an even count, exactly as sorting
+// gives it (the middle value first in the sum).
+double MedianOfNonNegative(const std::vector<uint64_t>& bits, ScaleScratch* scratch);
 
 // Returns q_k = x_k' (X'WX)^+ x_k for every cell of a linked CPD design
 // (regions 0..num_regions-1 and items 0..num_items-1 all present), with

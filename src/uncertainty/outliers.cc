@@ -9,6 +9,7 @@
 
 #include <algorithm>
 #include <array>
+#include <bit>
 #include <cmath>
 #include <iterator>
 #include <limits>
@@ -279,7 +280,10 @@ double WithinCellSd(const Survey& survey, int h) {
   // its last digit); 0 until then.
   constexpr int kNumKept = 32;
   std::array<double, kNumKept> kept{};
-  std::vector<double> within;
+  // The terms' bit patterns: when all are non-negative and finite (as sds
+  // are), the median is selected by radix (the same value as Median gives).
+  std::vector<uint64_t> within;
+  uint64_t largest = 0;
   for (int64_t c = survey.heading_range[h].cell_begin; c < survey.heading_range[h].cell_end; ++c) {
     const int dof = survey.cells.num_quotes[c] - 1;
     if (dof < 1) continue;
@@ -288,9 +292,17 @@ double WithinCellSd(const Survey& survey, int h) {
       root_share = std::sqrt(MedianChiSquare(dof) / dof);
       if (dof < kNumKept) kept[dof] = root_share;
     }
-    within.push_back(survey.cells.log_sd[c] / root_share);
+    within.push_back(std::bit_cast<uint64_t>(survey.cells.log_sd[c] / root_share));
+    largest = std::max(largest, within.back());
   }
-  return within.empty() ? 0.0 : Median(std::move(within));
+  if (within.empty()) return 0.0;
+  if (largest < std::bit_cast<uint64_t>(std::numeric_limits<double>::infinity())) {
+    internal::ScaleScratch scratch;
+    return internal::MedianOfNonNegative(within, &scratch);
+  }
+  std::vector<double> values(within.size());
+  std::transform(within.begin(), within.end(), values.begin(), [](uint64_t x) { return std::bit_cast<double>(x); });
+  return Median(std::move(values));
 }
 
 Outlier MakeRow(const Survey& survey, int h, int64_t c, const Prediction& p) {
@@ -352,6 +364,66 @@ void ScreenQuotes(const Survey& survey, int h, int64_t c, const Prediction& p, d
   }
 }
 
+// A test that most cells of a heading pass with products alone: a cell
+// passing it is neither flagged nor has a quote apart from its mates, so
+// PredictCell and ScreenQuotes need not run (their quotients and roots are
+// most of the screen proper's time). It asks, in squares, for the cell's
+// error and each extreme quote's gap to stay below the threshold by the
+// relative margin kQuietMargin, far beyond the roundings of the exact test
+// (a few units of 1e-16, relative to the log prices, which the per-heading
+// bounds keep small against the margin).
+struct QuietTest {
+  bool usable = false;          // for the cells (then also for cells of one quote)
+  bool quotes_usable = false;   // for cells of several quotes
+  double threshold_scale_square = 0.0;   // (threshold s)^2 (1 - 4e-4)^2
+  double threshold_within_square = 0.0;  // (threshold within_sd)^2 (1 - 4e-4)^2
+  double log_price_limit = 0.0;          // |ln p| of the cells tested stays below
+};
+constexpr double kQuietMargin = 4e-4;
+
+QuietTest MakeQuietTest(double scale, double within_sd, double threshold) {
+  QuietTest test;
+  const double t_s = threshold * scale, t_within = threshold * within_sd;
+  const double shrink = (1.0 - kQuietMargin) * (1.0 - kQuietMargin);
+  // The roundings of the exact tests are below 20 units of 2^-53 of the
+  // largest |ln p| involved; the limit keeps them below a tenth of the margin.
+  const double unit = std::numeric_limits<double>::epsilon() / 2.0;
+  test.usable = std::isfinite(t_s) && t_s > 1e-100 && t_s < 1e100;
+  test.quotes_usable = test.usable && std::isfinite(t_within) && t_within > 1e-100 && t_within < 1e100;
+  test.log_price_limit = 0.1 * kQuietMargin * (test.quotes_usable ? std::min(t_s, t_within) : t_s) / (20.0 * unit);
+  test.threshold_scale_square = t_s * t_s * shrink;
+  test.threshold_within_square = t_within * t_within * shrink;
+  return test;
+}
+
+// Whether cell k (c in the survey) passes `test` as a cell screened by the
+// fit's own residual (link kNone, hat value w q in [0, 1)), setting *hat.
+// |d| / sd < threshold, d = e / (1 - h) and sd = s sqrt((1 - h + q) /
+// (1 - h)), in squares: e^2 < (threshold s)^2 (1 - h) (1 - h + q). Each
+// extreme quote x of n: |x - mates| / mate_sd < threshold, mates = (n ln p -
+// x) / (n - 1) and mate_sd = within sqrt(n / (n - 1)): (x - ln p)^2 n <
+// (threshold within)^2 (n - 1).
+bool SurelyQuiet(const Survey& survey, int64_t k, int64_t c, const ScreenFit& fit, const QuietTest& test,
+                 double* hat) {
+  const double q = fit.leverage[k];
+  const double h = std::min(1.0, fit.weight[k] * q);
+  *hat = h;
+  const double log_price = survey.cells.log_price[c];
+  if (fit.link[k] != CellLink::kNone || !(q >= 0.0) || !(h < 1.0) || !(std::abs(log_price) < test.log_price_limit)) {
+    return false;
+  }
+  const double e = fit.residual[k];
+  const double one_less = 1.0 - h;
+  if (!(e * e < test.threshold_scale_square * one_less * (one_less + q))) return false;
+  const int n = survey.cells.num_quotes[c];
+  if (n < 2) return true;
+  if (!test.quotes_usable) return false;
+  const double low = survey.cells.log_min[c], high = survey.cells.log_max[c];
+  if (!(std::abs(low) < test.log_price_limit) || !(std::abs(high) < test.log_price_limit)) return false;
+  const double bound = test.threshold_within_square * (n - 1);
+  return (low - log_price) * (low - log_price) * n < bound && (high - log_price) * (high - log_price) * n < bound;
+}
+
 // Screens the cells of heading h and the extreme quotes of each.
 HeadingRows ScreenHeading(const Survey& survey, int h, const ScreenFit& fit, const ScreenContext& context,
                           const OutlierOptions& options) {
@@ -361,8 +433,15 @@ HeadingRows ScreenHeading(const Survey& survey, int h, const ScreenFit& fit, con
   int num_regions_present = 0;
   for (int r = 0; r < survey.num_regions(); ++r) num_regions_present += std::isfinite(fit.log_parity[r]) ? 1 : 0;
   const double within_sd = WithinCellSd(survey, h);
+  const QuietTest quiet = MakeQuietTest(context.scale[h], within_sd, options.threshold);
+  const bool try_quiet = quiet.usable && num_regions_present >= 2;
   for (int64_t k = 0; k < range.num_cells(); ++k) {
     const int64_t c = range.cell_begin + k;
+    double hat = 0.0;
+    if (try_quiet && SurelyQuiet(survey, k, c, fit, quiet, &hat)) {
+      (hat > kLeaveOneOutHat ? rows.num_leave_one_out : rows.num_by_fit) += 1;
+      continue;
+    }
     const Prediction p = PredictCell(survey, h, k, fit, context, num_regions_present);
     if (p.how == ScreenedBy::kNotScreenable) {
       rows.not_screenable.push_back(MakeRow(survey, h, c, p));

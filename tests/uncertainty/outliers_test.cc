@@ -459,6 +459,56 @@ TEST(ScreenFit, RobustScaleIsTheSortedMedianOfTheStandardisedResiduals) {
   }
 }
 
+// The scale's median is looked for first near the last median the
+// workspace found (a guess that decides only the speed): whatever the guess,
+// far off, just inside or just outside the window around it on either side,
+// on odd and even counts, with the middle terms tied or apart, the scale is
+// the one sorting gives.
+TEST(ScreenFit, RobustScaleDoesNotDependOnTheMedianGuessed) {
+  std::mt19937_64 random(11);
+  for (int n : {9, 10, 501, 502, 5001, 5002}) {
+    for (int kind = 0; kind < 2; ++kind) {
+      SCOPED_TRACE(std::to_string(n) + " cells, kind " + std::to_string(kind));
+      Eigen::VectorXd residual(n), weight(n), leverage(n);
+      std::vector<internal::CellLink> link(n, internal::CellLink::kNone);
+      std::vector<double> terms;
+      for (int k = 0; k < n; ++k) {
+        const double e = kind == 0 ? 0.01 * (1.0 + static_cast<double>(random() % 100000) / 1000.0)
+                                   : 0.125 * static_cast<double>(1 + random() % 5);
+        residual[k] = random() % 2 == 0 ? e : -e;
+        weight[k] = k % 5 == 0 ? 0.5 : 1.0;
+        leverage[k] = k % 11 == 0 ? 2.0 : 0.3 + 0.001 * static_cast<double>(k % 7);
+        if (k % 13 == 1) link[k] = internal::CellLink::kCutsHeading;
+        const double hat = weight[k] * leverage[k];
+        if (link[k] == internal::CellLink::kNone && hat < 1.0 - 1e-9) {
+          terms.push_back(std::abs(residual[k]) / std::sqrt(1.0 - hat));
+        }
+      }
+      std::vector<double> sorted = terms;
+      std::sort(sorted.begin(), sorted.end());
+      const size_t m = sorted.size();
+      const double want = 1.4826 * (m % 2 == 1 ? sorted[m / 2] : 0.5 * (sorted[m / 2 - 1] + sorted[m / 2]));
+      // Guesses that put the window's edges on, just above and just below
+      // the middle terms and their neighbours, and guesses far off.
+      std::vector<double> guesses = {0.0, 1e-3 * sorted[m / 2], 1e3 * sorted[m / 2], sorted.front(), sorted.back()};
+      for (size_t r = m / 2 - 2; r <= m / 2 + 2; ++r) {
+        for (double edge : {1.0 - 1.0 / 64.0, 1.0, 1.0 + 1.0 / 64.0}) {
+          const double guess = sorted[r] / edge;
+          guesses.insert(guesses.end(), {guess, std::nextafter(guess, 0.0), std::nextafter(guess, 1.0)});
+        }
+      }
+      internal::ScaleScratch scratch;
+      for (double guess : guesses) {
+        scratch.median_guess = guess;
+        int num_cells = 0;
+        EXPECT_EQ(internal::RobustScale(residual, weight, leverage, link, &scratch, &num_cells), want) << guess;
+        EXPECT_EQ(num_cells, static_cast<int>(m));
+        EXPECT_EQ(scratch.median_guess * 1.4826, want);  // the next call's guess: this median
+      }
+    }
+  }
+}
+
 // x'(X'WX)^+ x by the block formula against a dense pseudo-inverse.
 TEST(ScreenFit, LeverageFactorsMatchADensePseudoInverse) {
   const std::vector<int> region = {0, 1, 2, 3, 0, 1, 2, 0, 3, 1, 2, 3, 0};
