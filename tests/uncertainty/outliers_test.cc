@@ -4,6 +4,7 @@
 #include <Eigen/Dense>
 #include <algorithm>
 #include <cmath>
+#include <limits>
 #include <random>
 #include <string>
 #include <vector>
@@ -505,6 +506,56 @@ TEST(ScreenFit, RobustScaleDoesNotDependOnTheMedianGuessed) {
         EXPECT_EQ(num_cells, static_cast<int>(m));
         EXPECT_EQ(scratch.median_guess * 1.4826, want);  // the next call's guess: this median
       }
+    }
+  }
+}
+
+// The same with terms the window's tally places without forming them next
+// to terms it must form: zero, infinite and NaN residuals, hat values at
+// the edge of the cells kept, slightly negative leverages, cells that cut
+// the heading, and guesses that put the window's edges, and the bounds its
+// squares are compared with, on a term (and one unit either side of it).
+TEST(ScreenFit, RobustScaleDoesNotDependOnTheGuessWithNonFiniteOrEdgeTerms) {
+  std::mt19937_64 random(7);
+  std::uniform_real_distribution<double> uniform(0.0, 1.0);
+  const double nan = std::numeric_limits<double>::quiet_NaN(), inf = std::numeric_limits<double>::infinity();
+  for (int trial = 0; trial < 300; ++trial) {
+    const int n = 3 + static_cast<int>(random() % 40);
+    Eigen::VectorXd residual(n), weight(n), leverage(n);
+    std::vector<internal::CellLink> link(n, internal::CellLink::kNone);
+    const double size = std::pow(10.0, -90.0 + 180.0 * uniform(random));
+    for (int k = 0; k < n; ++k) {
+      const int kind = static_cast<int>(random() % 12);
+      weight[k] = kind == 0 ? 1e-12 : 0.2 + 0.8 * uniform(random);
+      leverage[k] = kind == 1 ? -1e-17 : kind == 2 ? (1.0 - 2e-9) / weight[k] : kind == 3 ? 1.0 / weight[k] : uniform(random);
+      const double term = kind == 4 ? size : size * (0.5 + uniform(random));  // kind 4: ties
+      residual[k] = (random() % 2 == 0 ? 1.0 : -1.0) * term * std::sqrt(std::max(0.0, 1.0 - weight[k] * leverage[k]));
+      if (kind == 5) residual[k] = random() % 2 == 0 ? nan : -nan;
+      if (kind == 6) residual[k] = random() % 2 == 0 ? inf : -inf;
+      if (kind == 7) residual[k] = 0.0;
+      if (kind == 8) link[k] = internal::CellLink::kCutsHeading;
+    }
+    internal::ScaleScratch without_guess;
+    int want_cells = 0;
+    const double want = internal::RobustScale(residual, weight, leverage, link, &without_guess, &want_cells);
+    std::vector<double> guesses = {without_guess.median_guess, 1.01 * without_guess.median_guess};
+    for (int k = 0; k < n; ++k) {
+      const double term = std::abs(residual[k]) / std::sqrt(1.0 - weight[k] * leverage[k]);
+      if (!std::isfinite(term)) continue;
+      for (double edge : {1.0 - 1.0 / 64.0, 1.0 + 1.0 / 64.0}) {
+        for (double margin : {1.0, 1.0 - 1e-6, 1.0 + 1e-6}) {
+          const double guess = term / edge / margin;
+          guesses.insert(guesses.end(), {guess, std::nextafter(guess, 0.0), std::nextafter(guess, inf)});
+        }
+      }
+    }
+    for (double guess : guesses) {
+      internal::ScaleScratch scratch;
+      scratch.median_guess = guess;
+      int num_cells = 0;
+      const double got = internal::RobustScale(residual, weight, leverage, link, &scratch, &num_cells);
+      EXPECT_TRUE(got == want || (std::isnan(got) && std::isnan(want))) << trial << " " << guess << ": " << got << " " << want;
+      EXPECT_EQ(num_cells, want_cells);
     }
   }
 }
