@@ -220,6 +220,10 @@ Prediction PredictFromOtherHeadings(const Survey& survey, int h, int64_t k, cons
   return p;
 }
 
+// SurelyQuiet below repeats this function's rules for which cells can be
+// screened (two regions or more, an ordinary link, finite s and q, hat < 1)
+// and its split between the fit and leave-one-out: a case added here must
+// be added there, or a quiet cell would skip it.
 Prediction PredictCell(const Survey& survey, int h, int64_t k, const ScreenFit& fit,
                        const ScreenContext& context, int num_regions_present) {
   Prediction p;
