@@ -417,6 +417,42 @@ TEST(ScreenFit, RobustScaleReestimationConvergesToTheHandComputedFixedPoint) {
   EXPECT_EQ(plain.num_iterations, 0);
 }
 
+// Cells for RobustScale: residual +-e(k) (e drawn first, then the sign),
+// weight 0.5 for every fifth cell and 1 otherwise, leverage q(k), every
+// 13th cell cutting its heading; `terms` holds |e| / sqrt(1 - w q) of the
+// cells the scale is taken over (in cell order), `sorted` the same sorted,
+// and `median` their median.
+struct ScaleCells {
+  Eigen::VectorXd residual, weight, leverage;
+  std::vector<internal::CellLink> link;
+  std::vector<double> terms, sorted;
+  double median = 0.0;
+};
+
+template <typename ResidualFn, typename LeverageFn>
+ScaleCells MakeScaleCells(int n, std::mt19937_64* random, ResidualFn e_of, LeverageFn q_of) {
+  ScaleCells cells;
+  cells.residual.resize(n), cells.weight.resize(n), cells.leverage.resize(n);
+  cells.link.assign(n, internal::CellLink::kNone);
+  for (int k = 0; k < n; ++k) {
+    const double e = e_of(k);
+    cells.residual[k] = (*random)() % 2 == 0 ? e : -e;
+    cells.weight[k] = k % 5 == 0 ? 0.5 : 1.0;
+    cells.leverage[k] = q_of(k);
+    if (k % 13 == 1) cells.link[k] = internal::CellLink::kCutsHeading;
+    const double hat = cells.weight[k] * cells.leverage[k];
+    if (cells.link[k] == internal::CellLink::kNone && hat < 1.0 - 1e-9) {
+      cells.terms.push_back(std::abs(cells.residual[k]) / std::sqrt(1.0 - hat));
+    }
+  }
+  std::vector<double>& sorted = cells.sorted;
+  sorted = cells.terms;
+  std::sort(sorted.begin(), sorted.end());
+  const size_t m = sorted.size();
+  cells.median = m % 2 == 1 ? sorted[m / 2] : 0.5 * (sorted[m / 2 - 1] + sorted[m / 2]);
+  return cells;
+}
+
 // The scale is 1.4826 x the median of |e| / sqrt(1 - w q) over the cells
 // that carry residual information, the median as sorting gives it (computed
 // here with std::sort); more than half exact fits give the root mean square
@@ -428,33 +464,25 @@ TEST(ScreenFit, RobustScaleIsTheSortedMedianOfTheStandardisedResiduals) {
   for (int n : {9, 10, 2001, 2002, 40001, 40002}) {
     for (int kind = 0; kind < 3; ++kind) {
       SCOPED_TRACE(std::to_string(n) + " cells, kind " + std::to_string(kind));
-      Eigen::VectorXd residual(n), weight(n), leverage(n);
-      std::vector<internal::CellLink> link(n, internal::CellLink::kNone);
-      std::vector<double> terms;
-      for (int k = 0; k < n; ++k) {
-        const double e = kind == 0   ? 0.01 * std::ldexp(1.0 + static_cast<double>(random() % 1000) / 1000.0,
-                                                         -static_cast<int>(random() % 3))
-                         : kind == 1 ? static_cast<double>(random() % 7) * 0.125
-                                     : (random() % 3 == 0 ? 0.02 : 0.0);
-        residual[k] = random() % 2 == 0 ? e : -e;
-        weight[k] = k % 5 == 0 ? 0.5 : 1.0;
-        leverage[k] = k % 11 == 0 ? 2.0 : 0.3;  // w q = 1 for k = 0, 55, ...
-        if (k % 13 == 1) link[k] = internal::CellLink::kCutsHeading;
-        const double hat = weight[k] * leverage[k];
-        if (link[k] == internal::CellLink::kNone && hat < 1.0 - 1e-9) {
-          terms.push_back(std::abs(residual[k]) / std::sqrt(1.0 - hat));
-        }
-      }
-      std::vector<double> sorted = terms;
-      std::sort(sorted.begin(), sorted.end());
-      const size_t m = sorted.size();
-      const double median = m % 2 == 1 ? sorted[m / 2] : 0.5 * (sorted[m / 2 - 1] + sorted[m / 2]);
+      const ScaleCells cells = MakeScaleCells(
+          n, &random,
+          [&](int) {
+            return kind == 0   ? 0.01 * std::ldexp(1.0 + static_cast<double>(random() % 1000) / 1000.0,
+                                                   -static_cast<int>(random() % 3))
+                   : kind == 1 ? static_cast<double>(random() % 7) * 0.125
+                               : (random() % 3 == 0 ? 0.02 : 0.0);
+          },
+          [](int k) { return k % 11 == 0 ? 2.0 : 0.3; });  // w q = 1 for k = 0, 55, ...
+      const size_t m = cells.terms.size();
       double sum = 0.0;
-      for (double v : terms) sum += v * v;
-      const double want = median > 0.0 ? 1.4826 * median : std::sqrt(sum / static_cast<double>(m));
+      for (double v : cells.terms) sum += v * v;
+      const double want =
+          cells.median > 0.0 ? 1.4826 * cells.median : std::sqrt(sum / static_cast<double>(m));
       internal::ScaleScratch scratch;
       int num_cells = 0;
-      EXPECT_EQ(internal::RobustScale(residual, weight, leverage, link, &scratch, &num_cells), want);
+      EXPECT_EQ(internal::RobustScale(cells.residual, cells.weight, cells.leverage, cells.link,
+                                      &scratch, &num_cells),
+                want);
       EXPECT_EQ(num_cells, static_cast<int>(m));
     }
   }
@@ -470,25 +498,16 @@ TEST(ScreenFit, RobustScaleDoesNotDependOnTheMedianGuessed) {
   for (int n : {9, 10, 501, 502, 5001, 5002}) {
     for (int kind = 0; kind < 2; ++kind) {
       SCOPED_TRACE(std::to_string(n) + " cells, kind " + std::to_string(kind));
-      Eigen::VectorXd residual(n), weight(n), leverage(n);
-      std::vector<internal::CellLink> link(n, internal::CellLink::kNone);
-      std::vector<double> terms;
-      for (int k = 0; k < n; ++k) {
-        const double e = kind == 0 ? 0.01 * (1.0 + static_cast<double>(random() % 100000) / 1000.0)
-                                   : 0.125 * static_cast<double>(1 + random() % 5);
-        residual[k] = random() % 2 == 0 ? e : -e;
-        weight[k] = k % 5 == 0 ? 0.5 : 1.0;
-        leverage[k] = k % 11 == 0 ? 2.0 : 0.3 + 0.001 * static_cast<double>(k % 7);
-        if (k % 13 == 1) link[k] = internal::CellLink::kCutsHeading;
-        const double hat = weight[k] * leverage[k];
-        if (link[k] == internal::CellLink::kNone && hat < 1.0 - 1e-9) {
-          terms.push_back(std::abs(residual[k]) / std::sqrt(1.0 - hat));
-        }
-      }
-      std::vector<double> sorted = terms;
-      std::sort(sorted.begin(), sorted.end());
+      const ScaleCells cells = MakeScaleCells(
+          n, &random,
+          [&](int) {
+            return kind == 0 ? 0.01 * (1.0 + static_cast<double>(random() % 100000) / 1000.0)
+                             : 0.125 * static_cast<double>(1 + random() % 5);
+          },
+          [](int k) { return k % 11 == 0 ? 2.0 : 0.3 + 0.001 * static_cast<double>(k % 7); });
+      const std::vector<double>& sorted = cells.sorted;
       const size_t m = sorted.size();
-      const double want = 1.4826 * (m % 2 == 1 ? sorted[m / 2] : 0.5 * (sorted[m / 2 - 1] + sorted[m / 2]));
+      const double want = 1.4826 * cells.median;
       // Guesses that put the window's edges on, just above and just below
       // the middle terms and their neighbours, and guesses far off.
       std::vector<double> guesses = {0.0, 1e-3 * sorted[m / 2], 1e3 * sorted[m / 2], sorted.front(), sorted.back()};
@@ -502,7 +521,10 @@ TEST(ScreenFit, RobustScaleDoesNotDependOnTheMedianGuessed) {
       for (double guess : guesses) {
         scratch.median_guess = guess;
         int num_cells = 0;
-        EXPECT_EQ(internal::RobustScale(residual, weight, leverage, link, &scratch, &num_cells), want) << guess;
+        EXPECT_EQ(internal::RobustScale(cells.residual, cells.weight, cells.leverage, cells.link,
+                                        &scratch, &num_cells),
+                  want)
+            << guess;
         EXPECT_EQ(num_cells, static_cast<int>(m));
         EXPECT_EQ(scratch.median_guess * 1.4826, want);  // the next call's guess: this median
       }
