@@ -136,6 +136,13 @@ void FindCuttingCells(int num_regions, int num_items, std::span<const int> regio
                       std::span<const int> item, std::vector<CellLink>* link,
                       std::map<int, std::vector<int>>* region_side);
 
+// Whether the screen lets a cell that surely passes (its residual and
+// extreme quotes well inside the threshold, tested in squares with a margin)
+// skip the full prediction (default true). The screen's rows must not depend
+// on it; tests turn it off to check that they do not.
+void EnableQuietPretest(bool enabled);
+bool QuietPretestEnabled();
+
 }  // namespace paritas::internal
 
 #endif  // PARITAS_UNCERTAINTY_OUTLIER_FIT_H_

@@ -9,6 +9,7 @@
 
 #include <algorithm>
 #include <array>
+#include <atomic>
 #include <bit>
 #include <cmath>
 #include <iterator>
@@ -438,7 +439,7 @@ HeadingRows ScreenHeading(const Survey& survey, int h, const ScreenFit& fit, con
   for (int r = 0; r < survey.num_regions(); ++r) num_regions_present += std::isfinite(fit.log_parity[r]) ? 1 : 0;
   const double within_sd = WithinCellSd(survey, h);
   const QuietTest quiet = MakeQuietTest(context.scale[h], within_sd, options.threshold);
-  const bool try_quiet = quiet.usable && num_regions_present >= 2;
+  const bool try_quiet = quiet.usable && num_regions_present >= 2 && internal::QuietPretestEnabled();
   for (int64_t k = 0; k < range.num_cells(); ++k) {
     const int64_t c = range.cell_begin + k;
     double hat = 0.0;
@@ -573,7 +574,14 @@ ScreenContext MakeContext(const std::vector<ScreenFit>& fits, const Eigen::Matri
   return context;
 }
 
+std::atomic<bool> quiet_pretest_enabled{true};
+
 }  // namespace
+
+namespace internal {
+void EnableQuietPretest(bool enabled) { quiet_pretest_enabled.store(enabled, std::memory_order_relaxed); }
+bool QuietPretestEnabled() { return quiet_pretest_enabled.load(std::memory_order_relaxed); }
+}  // namespace internal
 
 OutlierOptions OutlierOptions::FromConfig(const RunConfig& config) {
   OutlierOptions options;

@@ -307,6 +307,40 @@ TEST(FindOutliers, ListsABadQuoteButNotTheQuotesOfACellWhollyWrong) {
   EXPECT_GT(std::abs(report.outliers[1].standardised_residual), 10.0);
 }
 
+// The screen lets cells well inside the threshold skip the full prediction
+// (a test in squares with a margin). Low thresholds put many cells and
+// quotes near the boundary; every row and count must be what the full
+// screen gives.
+TEST(FindOutliers, GivesTheSameRowsWithAndWithoutTheQuietPretest) {
+  synthetic::SyntheticOptions options = SmallOptions();
+  options.num_regions = 40;
+  options.num_headings = 4;
+  options.items_per_heading = 15;
+  options.quotes_per_cell = 3;
+  options.noise_sd = 0.08;
+  synthetic::SyntheticSurvey truth = synthetic::Generate(options);
+  synthetic::ScaleQuotes(3, synthetic::ItemsPriced(truth, 3, 0)[0], 1.6, 1, &truth);
+  const Survey survey = LoadSynthetic(truth, "outlier_quiet_pretest");
+  const ParityResult parities = ComputeWith(survey, "cpd");
+  for (const OutlierFit fit : {OutlierFit::kRobust, OutlierFit::kLeastSquares}) {
+    for (const double threshold : {0.8, 1.2, 1.7, 2.3, 3.5}) {
+      OutlierOptions screen = WithFit(fit);
+      screen.threshold = threshold;
+      const OutlierReport with = FindOutliers(survey, parities, screen);
+      internal::EnableQuietPretest(false);
+      const OutlierReport without = FindOutliers(survey, parities, screen);
+      internal::EnableQuietPretest(true);
+      SCOPED_TRACE(threshold);
+      EXPECT_GT(without.outliers.size(), 0u);
+      EXPECT_EQ(OutliersCsv(survey, with), OutliersCsv(survey, without));
+      EXPECT_EQ(DispersionCsv(survey, with), DispersionCsv(survey, without));
+      EXPECT_EQ(with.num_cells_by_fit, without.num_cells_by_fit);
+      EXPECT_EQ(with.num_cells_leave_one_out, without.num_cells_leave_one_out);
+      EXPECT_EQ(with.num_cells_not_screenable, without.num_cells_not_screenable);
+    }
+  }
+}
+
 // Flagged cells per 1,000 screened on a clean survey of the given shape.
 double FalseFlagsPerThousand(int num_regions, int num_headings, int items_per_heading, const std::string& name) {
   synthetic::SyntheticOptions options;
