@@ -97,17 +97,18 @@ bool SameValues(const Eigen::Ref<const Eigen::VectorXd>& a, const Eigen::Ref<con
 }
 
 // Recomputes the nodes of the headings in s->changed_headings (their columns
-// of s->heading_lp already changed) and returns ln(without / with) of those
-// nodes and of `always` (the dropped unit's own nodes); puts the scratch back
-// to the full sample.
-UnitChange TakeChanges(const FullSample& full, const std::vector<int>& always, bool leaves, Scratch* s) {
+// of s->heading_lp already changed; the leaf of `dropped_heading`, -1 when
+// none, is not: the heading has no parities left) and returns ln(without /
+// with) of those nodes and of `always` (the dropped unit's own nodes); puts
+// the scratch back to the full sample.
+UnitChange TakeChanges(const FullSample& full, const std::vector<int>& always, int dropped_heading, Scratch* s) {
   const Chain& chain = full.chain;
   const auto& nodes = full.survey->classification.nodes();
   UnitChange unit;
   unit.nodes = always;
   for (int g : s->changed_headings) {
     for (int n : chain.heading_nodes[g]) {
-      s->recompute[n] = leaves || !nodes[n].is_leaf;
+      s->recompute[n] = g != dropped_heading || !nodes[n].is_leaf;
       unit.nodes.push_back(n);
     }
   }
@@ -144,15 +145,16 @@ bool NeedsCompletion(const FullSample& full, const RuleLinks& links, int h, cons
 }
 
 // Completes the headings with heading h's column of s->priced_lp changed:
-// the rules run again for h and for the headings whose fills rest on h
-// (FillRestsOn); every other heading keeps the full sample's column. Lists
-// the headings whose column changed in s->changed_headings.
-void CompleteAgain(const FullSample& full, const RuleLinks& links, int h, Scratch* s) {
+// the rules run again for the headings whose fills rest on h (FillRestsOn)
+// and, unless h is dropped whole (`h_dropped`: it stays unfilled), for h;
+// every other heading keeps the full sample's column. Lists the headings
+// whose column changed in s->changed_headings.
+void CompleteAgain(const FullSample& full, const RuleLinks& links, int h, bool h_dropped, Scratch* s) {
   const Chain& chain = full.chain;
   std::vector<HeadingRule> rules = chain.rules;
   std::vector<uint8_t> redo(chain.num_headings, 0);
   for (int g = 0; g < chain.num_headings; ++g) {
-    redo[g] = g == h || FillRestsOn(full, links, g, h);
+    redo[g] = g == h ? !h_dropped : FillRestsOn(full, links, g, h);
     if (!redo[g]) rules[g] = HeadingRule();  // leave: kept from the full sample below
   }
   Eigen::MatrixXd completed = s->priced_lp;
@@ -171,7 +173,7 @@ UnitChange DropItem(const FullSample& full, const RuleLinks& links, int i, Scrat
   const int h = full.survey->item_heading[i];
   // A heading whose parities come from the external file does not move
   // when one of its (ignored) items is dropped.
-  if (HeadingFromFile(chain, h)) return TakeChanges(full, chain.heading_nodes[h], true, s);
+  if (HeadingFromFile(chain, h)) return TakeChanges(full, chain.heading_nodes[h], -1, s);
   s->weight[i] = 0.0;
   bool unlinked = false;
   const Eigen::VectorXd priced = HeadingLogParity(chain, h, s->weight, &unlinked);
@@ -180,18 +182,29 @@ UnitChange DropItem(const FullSample& full, const RuleLinks& links, int i, Scrat
     // Nothing to fill: a region that lost its parity has none, as in compute.
     s->heading_lp.col(h) = priced;
     s->changed_headings.push_back(h);
-    return TakeChanges(full, chain.heading_nodes[h], true, s);
+    return TakeChanges(full, chain.heading_nodes[h], -1, s);
   }
   s->priced_lp.col(h) = priced;
-  CompleteAgain(full, links, h, s);
+  CompleteAgain(full, links, h, /*h_dropped=*/false, s);
   s->priced_lp.col(h) = full.priced_log_parity.col(h);
-  return TakeChanges(full, chain.heading_nodes[h], true, s);
+  return TakeChanges(full, chain.heading_nodes[h], -1, s);
 }
 
-UnitChange DropHeading(const FullSample& full, int h, Scratch* s) {
+// As a run without heading h: it leaves its aggregates unfilled, and the
+// fills of other headings that rest on it are made again without it.
+UnitChange DropHeading(const FullSample& full, const RuleLinks& links, int h, Scratch* s) {
+  bool fills_rest_on_h = false;
+  for (int g = 0; g < full.chain.num_headings && !fills_rest_on_h; ++g) {
+    fills_rest_on_h = g != h && FillRestsOn(full, links, g, h);
+  }
+  if (fills_rest_on_h) {
+    s->priced_lp.col(h).setConstant(kNaN);
+    CompleteAgain(full, links, h, /*h_dropped=*/true, s);
+    s->priced_lp.col(h) = full.priced_log_parity.col(h);
+  }
   s->heading_lp.col(h).setConstant(kNaN);
   s->changed_headings.push_back(h);
-  return TakeChanges(full, full.chain.heading_nodes[h], false, s);
+  return TakeChanges(full, full.chain.heading_nodes[h], h, s);
 }
 
 // Changes of every dropped unit, in unit order.
@@ -222,7 +235,7 @@ Changes DropEachUnit(const FullSample& full, const Units& units,
     }
 #pragma omp for schedule(dynamic, 1)
     for (int u = 0; u < num_drop_headings; ++u) {
-      changes.heading[u] = DropHeading(full, units.headings[u], &scratch);
+      changes.heading[u] = DropHeading(full, links, units.headings[u], &scratch);
       progress.Step();
     }
   }

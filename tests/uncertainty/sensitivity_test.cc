@@ -483,10 +483,64 @@ void ExpectLeaveOneOutEqualsRunsWithoutEachItem(const Survey& survey, const Comp
   }
 }
 
+// Dropping a heading is defined as the run without it: its items weigh 0
+// and its own rule is `leave` (a dropped heading is not filled), so the
+// headings whose fills rest on it (like:, or a parent aggregate holding it)
+// are filled again without it. Compares the largest change over the
+// dropped headings, aggregates of two or more headings only.
+void ExpectHeadingDropsEqualRunsWithoutEachHeading(const Survey& survey, const ComputeOptions& compute,
+                                                   int* compared) {
+  SensitivityResult result;
+  SensitivitySummary summary;
+  ASSERT_TRUE(RunSensitivity(survey, compute, OnlyParts(false, true, false, false), &result, &summary))
+      << summary.message;
+  std::vector<double> weight(survey.num_items(), 1.0);
+  Eigen::MatrixXd base, without;
+  std::string error;
+  ASSERT_TRUE(ReplicateParities(survey, compute, weight, &base, nullptr, &error)) << error;
+  const auto& nodes = survey.classification.nodes();
+  const Eigen::Index num_nodes = base.rows(), num_regions = base.cols();
+  const double nan = std::numeric_limits<double>::quiet_NaN();
+  Eigen::MatrixXd largest = Eigen::MatrixXd::Constant(num_nodes, num_regions, nan);
+  for (int h = 0; h < survey.num_headings(); ++h) {
+    const int leaf = survey.classification.FindNode(survey.heading_codes[h]);
+    bool in_aggregate = false;
+    for (Eigen::Index n = 0; n < num_nodes; ++n) {
+      const auto& held = nodes[n].headings;
+      in_aggregate = in_aggregate || (held.size() >= 2 && std::count(held.begin(), held.end(), h) > 0);
+    }
+    if (!in_aggregate || !base.row(leaf).array().isFinite().any()) continue;
+    ComputeOptions dropped = compute;
+    auto& rules = dropped.missing_parities.headings;
+    std::erase_if(rules, [&](const auto& rule) { return rule.first == survey.heading_codes[h]; });
+    rules.emplace_back(survey.heading_codes[h], "leave");
+    for (int i = survey.heading_range[h].item_begin; i < survey.heading_range[h].item_end; ++i) weight[i] = 0.0;
+    ASSERT_TRUE(ReplicateParities(survey, dropped, weight, &without, nullptr, &error)) << error;
+    for (int i = survey.heading_range[h].item_begin; i < survey.heading_range[h].item_end; ++i) weight[i] = 1.0;
+    for (Eigen::Index n = 0; n < num_nodes; ++n) {
+      if (nodes[n].headings.size() < 2) continue;
+      for (Eigen::Index r = 0; r < num_regions; ++r) {
+        const double d = without(n, r) - base(n, r);
+        if (!std::isfinite(base(n, r)) || !std::isfinite(d)) continue;
+        if (std::isnan(largest(n, r)) || std::abs(d) > std::abs(largest(n, r))) largest(n, r) = d;
+      }
+    }
+  }
+  for (Eigen::Index n = 0; n < num_nodes; ++n) {
+    if (nodes[n].headings.size() < 2) continue;
+    for (Eigen::Index r = 0; r < num_regions; ++r) {
+      if (!std::isfinite(largest(n, r))) continue;
+      const std::string where = nodes[n].code + " region " + std::to_string(r);
+      PARITAS_EXPECT_CLOSE(result.loo_heading_log_change(n, r), largest(n, r), 1e-9) << where;
+      ++*compared;
+    }
+  }
+}
+
 // Under each rule, with parities the full sample fills.
 class LeaveOneOutRules : public ::testing::TestWithParam<std::string> {};
 
-TEST_P(LeaveOneOutRules, ChangesAndJackknifeEqualRunsWithoutEachItem) {
+TEST_P(LeaveOneOutRules, ChangesAndJackknifeEqualRunsWithoutEachItemOrHeading) {
   synthetic::SyntheticOptions options = SmallOptions(11);
   options.num_regions = 12;
   options.items_per_heading = 5;
@@ -522,8 +576,10 @@ TEST_P(LeaveOneOutRules, ChangesAndJackknifeEqualRunsWithoutEachItem) {
   } else {
     compute.missing_parities.default_rule = GetParam();
   }
-  int compared = 0, parities_lost = 0;
+  int compared = 0, parities_lost = 0, headings_compared = 0;
   ExpectLeaveOneOutEqualsRunsWithoutEachItem(survey, compute, &compared, &parities_lost);
+  ExpectHeadingDropsEqualRunsWithoutEachHeading(survey, compute, &headings_compared);
+  EXPECT_GT(headings_compared, 0);
   std::vector<double> weight(survey.num_items(), 1.0);
   Eigen::MatrixXd base, without;
   std::string error;
@@ -585,8 +641,10 @@ TEST(LeaveOneOut, ARegionTheParentRuleCouldNotFillGetsAFillWhenAnItemSplitsTheAg
   const int leaf_a = survey.classification.FindNode(truth.headings[0]);
   ASSERT_FALSE(std::isfinite(base(leaf_a, 3)));  // the premise: no fill in the full sample
   ASSERT_TRUE(std::isfinite(without(leaf_a, 3)));  // and one without the item
-  int compared = 0, parities_lost = 0;
+  int compared = 0, parities_lost = 0, headings_compared = 0;
   ExpectLeaveOneOutEqualsRunsWithoutEachItem(survey, compute, &compared, &parities_lost);
+  ExpectHeadingDropsEqualRunsWithoutEachHeading(survey, compute, &headings_compared);
+  EXPECT_GT(headings_compared, 0);
   EXPECT_GT(compared, 0);
 }
 
