@@ -409,6 +409,18 @@ synthetic::SyntheticSurvey KeepQuotes(const synthetic::SyntheticSurvey& truth, K
   return kept;
 }
 
+// The leave-one-out part alone, and the full sample's parities by
+// ReplicateParities (every item weighing 1).
+void RunLeaveOneOutAndFullSample(const Survey& survey, const ComputeOptions& compute, SensitivityResult* result,
+                                 Eigen::MatrixXd* base) {
+  SensitivitySummary summary;
+  ASSERT_TRUE(RunSensitivity(survey, compute, OnlyParts(false, true, false, false), result, &summary))
+      << summary.message;
+  const std::vector<double> weight(survey.num_items(), 1.0);
+  std::string error;
+  ASSERT_TRUE(ReplicateParities(survey, compute, weight, base, nullptr, &error)) << error;
+}
+
 // Leave-one-out is defined as the run without the item (ReplicateParities
 // with its weight 0, the route DroppingAnItemEqualsRecomputingWithoutIt ties
 // to compute): the same missing_parities rule applies when a region loses
@@ -421,13 +433,10 @@ synthetic::SyntheticSurvey KeepQuotes(const synthetic::SyntheticSurvey& truth, K
 void ExpectLeaveOneOutEqualsRunsWithoutEachItem(const Survey& survey, const ComputeOptions& compute,
                                                 int* compared, int* parities_lost) {
   SensitivityResult result;
-  SensitivitySummary summary;
-  ASSERT_TRUE(RunSensitivity(survey, compute, OnlyParts(false, true, false, false), &result, &summary))
-      << summary.message;
-  std::vector<double> weight(survey.num_items(), 1.0);
   Eigen::MatrixXd base, without;
+  RunLeaveOneOutAndFullSample(survey, compute, &result, &base);
+  std::vector<double> weight(survey.num_items(), 1.0);
   std::string error;
-  ASSERT_TRUE(ReplicateParities(survey, compute, weight, &base, nullptr, &error)) << error;
   const Eigen::Index num_nodes = base.rows(), num_regions = base.cols();
   std::vector<int> item_num_cells(survey.num_items(), 0);
   for (int32_t i : survey.cells.item) ++item_num_cells[i];
@@ -491,13 +500,10 @@ void ExpectLeaveOneOutEqualsRunsWithoutEachItem(const Survey& survey, const Comp
 void ExpectHeadingDropsEqualRunsWithoutEachHeading(const Survey& survey, const ComputeOptions& compute,
                                                    int* compared) {
   SensitivityResult result;
-  SensitivitySummary summary;
-  ASSERT_TRUE(RunSensitivity(survey, compute, OnlyParts(false, true, false, false), &result, &summary))
-      << summary.message;
-  std::vector<double> weight(survey.num_items(), 1.0);
   Eigen::MatrixXd base, without;
+  RunLeaveOneOutAndFullSample(survey, compute, &result, &base);
+  std::vector<double> weight(survey.num_items(), 1.0);
   std::string error;
-  ASSERT_TRUE(ReplicateParities(survey, compute, weight, &base, nullptr, &error)) << error;
   const auto& nodes = survey.classification.nodes();
   const Eigen::Index num_nodes = base.rows(), num_regions = base.cols();
   const double nan = std::numeric_limits<double>::quiet_NaN();
