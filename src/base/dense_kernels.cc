@@ -180,29 +180,38 @@ PARITAS_AVX2_FMA void MultiplyTiles(int m, int n, int k, const double* a, int64_
   }
   constexpr int kTileRows = kLanes * kMaxVectors;
   __m256d acc[kMaxVectors][kTileColumns];
-  // Column blocks outside: a block's columns of b stay in the L1 cache while
-  // every row tile of a passes over them.
-  for (int j0 = 0; j0 < n; j0 += kTileColumns) {
-    const int num_columns = n - j0 < kTileColumns ? n - j0 : kTileColumns;
+  // Panels of b's columns (about kPanelBytes of b) outside, row tiles of a
+  // inside them: a panel stays in the L2 cache while each row tile of a (in
+  // the L1 cache) passes over all of its columns, so large products (3,000
+  // x 100 x 3,000) do not stream a from memory once per 4 columns.
+  constexpr int64_t kPanelBytes = int64_t{192} << 10;
+  const int64_t fit = kPanelBytes / (static_cast<int64_t>(k) * sizeof(double));
+  const int widest = static_cast<int>(fit < n ? fit : n) / kTileColumns * kTileColumns;
+  const int panel = widest < kTileColumns ? kTileColumns : widest;
+  for (int p0 = 0; p0 < n; p0 += panel) {
+    const int p1 = n - p0 < panel ? n : p0 + panel;
     for (int i0 = 0; i0 < m; i0 += kTileRows) {
       const int rows = m - i0 < kTileRows ? m - i0 : kTileRows;
       const int num_vectors = (rows + kLanes - 1) / kLanes;
       const int last_rows = rows - kLanes * (num_vectors - 1);
-      const TileOperands t{.a = a + i0,
-                           .ld_a = ld_a,
-                           .b = b + j0 * b_column_step,
-                           .b_step = b_step,
-                           .b_column_step = b_column_step,
-                           .depth = k,
-                           .num_columns = num_columns,
-                           .last_rows = last_rows};
-      ComputeTile(num_vectors, t, acc);
       const __m256i last_mask = FirstLanes(last_rows);
-      for (int c = 0; c < num_columns; ++c) {
-        double* column = out + i0 + (j0 + c) * ld_out;
-        for (int v = 0; v + 1 < num_vectors; ++v) _mm256_storeu_pd(column + kLanes * v, acc[v][c]);
-        _mm256_maskstore_pd(column + kLanes * (num_vectors - 1), last_mask,
-                            acc[num_vectors - 1][c]);
+      for (int j0 = p0; j0 < p1; j0 += kTileColumns) {
+        const int num_columns = p1 - j0 < kTileColumns ? p1 - j0 : kTileColumns;
+        const TileOperands t{.a = a + i0,
+                             .ld_a = ld_a,
+                             .b = b + j0 * b_column_step,
+                             .b_step = b_step,
+                             .b_column_step = b_column_step,
+                             .depth = k,
+                             .num_columns = num_columns,
+                             .last_rows = last_rows};
+        ComputeTile(num_vectors, t, acc);
+        for (int c = 0; c < num_columns; ++c) {
+          double* column = out + i0 + (j0 + c) * ld_out;
+          for (int v = 0; v + 1 < num_vectors; ++v) _mm256_storeu_pd(column + kLanes * v, acc[v][c]);
+          _mm256_maskstore_pd(column + kLanes * (num_vectors - 1), last_mask,
+                              acc[num_vectors - 1][c]);
+        }
       }
     }
   }
