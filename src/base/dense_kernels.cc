@@ -169,41 +169,69 @@ PARITAS_AVX2_FMA void ComputeTile(int num_vectors, const TileOperands& t,
   }
 }
 
-// out = a b with b(p, c) at b[p * b_step + c * b_column_step]: b itself
-// (b_step 1) or the transpose of a stored matrix (b_column_step 1).
-PARITAS_AVX2_FMA void MultiplyTiles(int m, int n, int k, const double* a, int64_t ld_a,
-                                    const double* b, int64_t b_step, int64_t b_column_step,
-                                    double* out, int64_t ld_out) {
-  if (k == 0) {  // a and b may then be null
-    ClearColumns(m, n, out, ld_out);
-    return;
-  }
-  constexpr int kTileRows = kLanes * kMaxVectors;
-  __m256d acc[kMaxVectors][kTileColumns];
-  // Panels of b's columns (about kPanelBytes of b) outside, row tiles of a
-  // inside them: a panel stays in the L2 cache while each row tile of a (in
-  // the L1 cache) passes over all of its columns, so large products (3,000
-  // x 100 x 3,000) do not stream a from memory once per 4 columns.
-  constexpr int64_t kPanelBytes = int64_t{192} << 10;
-  const int64_t fit = kPanelBytes / (static_cast<int64_t>(k) * sizeof(double));
+// Where the operands of one product are: a is m x k, b(p, c) is at
+// b[p * b_step + c * b_column_step] (b itself with b_step 1, the transpose
+// of a stored matrix with b_column_step 1).
+struct ProductOperands {
+  int m, n, k;
+  const double* a;
+  int64_t ld_a;
+  const double* b;
+  int64_t b_step, b_column_step;
+};
+
+// Columns of b per panel: about kPanelBytes of b, a multiple of the tile's
+// columns.
+constexpr int64_t kPanelBytes = int64_t{192} << 10;
+int PanelColumns(int n, int k) {
+  const int64_t fit = kPanelBytes / (static_cast<int64_t>(k) * 8);
   const int widest = static_cast<int>(fit < n ? fit : n) / kTileColumns * kTileColumns;
-  const int panel = widest < kTileColumns ? kTileColumns : widest;
+  return widest < kTileColumns ? kTileColumns : widest;
+}
+
+// out = a b. Both operands are copied into contiguous tiles first (b by
+// panels of PanelColumns columns, held in the L2 cache; a by tiles of 12
+// rows, in the L1 cache, each passing over a whole panel): strided operands
+// (3,000 regions apart) would otherwise touch a page per step of the sum.
+// Copies change no value, and each entry is still one chain in order.
+// `packed` holds PanelColumns(n, k) * k + kTileRows * k doubles.
+PARITAS_AVX2_FMA void MultiplyTiles(const ProductOperands& x, double* packed, double* out,
+                                    int64_t ld_out) {
+  constexpr int kTileRows = kLanes * kMaxVectors;
+  const int m = x.m, n = x.n, k = x.k;
+  const int panel = PanelColumns(n, k);
+  double* packed_a = packed + static_cast<int64_t>(panel) * k;
+  __m256d acc[kMaxVectors][kTileColumns];
   for (int p0 = 0; p0 < n; p0 += panel) {
     const int p1 = n - p0 < panel ? n : p0 + panel;
+    // Column group g of the panel at packed + g * 4k, step p at [4p + c];
+    // a missing last column repeats the one before (never stored).
+    for (int j0 = p0; j0 < p1; j0 += kTileColumns) {
+      double* group = packed + static_cast<int64_t>(j0 - p0) * k;
+      for (int c = 0; c < kTileColumns; ++c) {
+        const int j = j0 + c < p1 ? j0 + c : p1 - 1;
+        const double* column = x.b + j * x.b_column_step;
+        for (int p = 0; p < k; ++p) group[kTileColumns * p + c] = column[p * x.b_step];
+      }
+    }
     for (int i0 = 0; i0 < m; i0 += kTileRows) {
       const int rows = m - i0 < kTileRows ? m - i0 : kTileRows;
       const int num_vectors = (rows + kLanes - 1) / kLanes;
       const int last_rows = rows - kLanes * (num_vectors - 1);
       const __m256i last_mask = FirstLanes(last_rows);
+      for (int p = 0; p < k; ++p) {
+        const double* source = x.a + i0 + p * x.ld_a;
+        for (int r = 0; r < kTileRows; ++r) packed_a[kTileRows * p + r] = r < rows ? source[r] : 0.0;
+      }
       for (int j0 = p0; j0 < p1; j0 += kTileColumns) {
         const int num_columns = p1 - j0 < kTileColumns ? p1 - j0 : kTileColumns;
-        const TileOperands t{.a = a + i0,
-                             .ld_a = ld_a,
-                             .b = b + j0 * b_column_step,
-                             .b_step = b_step,
-                             .b_column_step = b_column_step,
+        const TileOperands t{.a = packed_a,
+                             .ld_a = kTileRows,
+                             .b = packed + static_cast<int64_t>(j0 - p0) * k,
+                             .b_step = kTileColumns,
+                             .b_column_step = 1,
                              .depth = k,
-                             .num_columns = num_columns,
+                             .num_columns = kTileColumns,
                              .last_rows = last_rows};
         ComputeTile(num_vectors, t, acc);
         for (int c = 0; c < num_columns; ++c) {
@@ -215,6 +243,19 @@ PARITAS_AVX2_FMA void MultiplyTiles(int m, int n, int k, const double* a, int64_
       }
     }
   }
+}
+
+// MultiplyTiles with its buffer (compiled for the build's target: it calls
+// the standard library).
+void Multiply(const ProductOperands& x, double* out, int64_t ld_out) {
+  if (x.k == 0) {  // a and b may then be null
+    ClearColumns(x.m, x.n, out, ld_out);
+    return;
+  }
+  if (x.m == 0 || x.n == 0) return;
+  std::vector<double> packed(static_cast<size_t>(PanelColumns(x.n, x.k) + kLanes * kMaxVectors) *
+                             x.k);
+  MultiplyTiles(x, packed.data(), out, ld_out);
 }
 
 }  // namespace
@@ -254,15 +295,14 @@ PARITAS_AVX2_FMA void SubtractGramLowerAvx2Fma(int m, int n, const double* x, in
   }
 }
 
-PARITAS_AVX2_FMA void MultiplyAvx2Fma(int m, int n, int k, const double* a, int64_t ld_a,
-                                      const double* b, int64_t ld_b, double* out, int64_t ld_out) {
-  MultiplyTiles(m, n, k, a, ld_a, b, 1, ld_b, out, ld_out);
+void MultiplyAvx2Fma(int m, int n, int k, const double* a, int64_t ld_a, const double* b,
+                     int64_t ld_b, double* out, int64_t ld_out) {
+  Multiply({m, n, k, a, ld_a, b, 1, ld_b}, out, ld_out);
 }
 
-PARITAS_AVX2_FMA void MultiplyTransposedAvx2Fma(int m, int n, int k, const double* a,
-                                                int64_t ld_a, const double* b, int64_t ld_b,
-                                                double* out, int64_t ld_out) {
-  MultiplyTiles(m, n, k, a, ld_a, b, ld_b, 1, out, ld_out);
+void MultiplyTransposedAvx2Fma(int m, int n, int k, const double* a, int64_t ld_a,
+                               const double* b, int64_t ld_b, double* out, int64_t ld_out) {
+  Multiply({m, n, k, a, ld_a, b, ld_b, 1}, out, ld_out);
 }
 
 #undef PARITAS_AVX2_FMA
