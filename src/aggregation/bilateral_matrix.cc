@@ -18,6 +18,7 @@
 #include <utility>
 #include <vector>
 
+#include "base/dense_products.h"
 #include "base/eigen_threads.h"
 #include "base/huge_pages.h"
 #include "base/median.h"
@@ -119,7 +120,7 @@ void FillValueIndices(const MaskedArrays& m, const Eigen::MatrixXd& value_a,
   const Eigen::Index num_regions = value_a.rows();
   // (a, b): sum over matched headings of p_b q_a.
   Eigen::MatrixXd value_b_basket_a(num_regions, num_regions);
-  value_b_basket_a.noalias() = m.quantity * m.price.transpose();
+  internal::SetProductTransposed(m.quantity, m.price, value_b_basket_a);
   if (options.laspeyres_paasche) {
     result->laspeyres.resize(num_regions, num_regions);
     result->paasche.resize(num_regions, num_regions);
@@ -155,10 +156,10 @@ Eigen::MatrixXd Tornqvist(const Eigen::MatrixXd& value_a, MaskedArrays* m) {
   // and the half weighted by region b's shares is -X_ba, so
   // ln T = ½ (X - Xᵀ), antisymmetric by construction.
   Eigen::MatrixXd half_log(num_regions, num_regions);
-  half_log.noalias() = m->expenditure * m->log_price.transpose();
+  internal::SetProductTransposed(m->expenditure, m->log_price, half_log);
   Eigen::MatrixXd weighted_log_a(num_regions, num_regions);
   m->log_price.array() *= m->expenditure.array();
-  weighted_log_a.noalias() = m->log_price * m->mask.transpose();
+  internal::SetProductTransposed(m->log_price, m->mask, weighted_log_a);
   half_log = (half_log - weighted_log_a).cwiseQuotient(value_a);
   // The exponential stays one whole-matrix expression so that every entry
   // goes through the same exp as before the stages were fused.
@@ -216,10 +217,10 @@ BilateralMatrices AllPairsWeighted(const Eigen::MatrixXd& price, const Eigen::Ma
   // spends on some matched heading), so these stand in for the count when
   // marking empty pairs.
   Eigen::MatrixXd value_a(num_regions, num_regions);
-  value_a.noalias() = m.expenditure * m.mask.transpose();
+  internal::SetProductTransposed(m.expenditure, m.mask, value_a);
   if (options.num_matched) {
     Eigen::MatrixXd count(num_regions, num_regions);
-    count.noalias() = m.mask * m.mask.transpose();
+    internal::SetProductTransposed(m.mask, m.mask, count);
     result.num_matched = ToCounts(count);
   }
   if (need_value) FillValueIndices(m, value_a, options, &result);
@@ -354,15 +355,13 @@ RegionSpread SummariseRow(std::vector<double>* values, double largest, int partn
 void SpreadRows(const MaskedArrays& m, Eigen::Index a0, Eigen::Index a1, const SpreadOptions& options,
                 SpreadSummary* out, SpreadBlock* block) {
   const Eigen::Index n = m.mask.rows(), rows = a1 - a0;
-  // The transposed sums come from the same products as in the full matrix
-  // (all regions as rows, the block as columns): the kernels' summation order
-  // depends on an entry's place in the product, and with blocks starting at
-  // multiples of 4 every entry keeps its place's order (tested).
+  // Every entry of the dense kernels' products is one in-order chain over
+  // the headings, so the block's sums have the full matrix's bits.
   Eigen::MatrixXd value_ab(rows, n), value_ba(n, rows), basket_ab(rows, n), basket_ba(n, rows);
-  value_ab.noalias() = m.expenditure.middleRows(a0, rows) * m.mask.transpose();
-  value_ba.noalias() = m.expenditure * m.mask.middleRows(a0, rows).transpose();
-  basket_ab.noalias() = m.quantity.middleRows(a0, rows) * m.price.transpose();
-  basket_ba.noalias() = m.quantity * m.price.middleRows(a0, rows).transpose();
+  internal::SetProductTransposed(m.expenditure.middleRows(a0, rows), m.mask, value_ab);
+  internal::SetProductTransposed(m.expenditure, m.mask.middleRows(a0, rows), value_ba);
+  internal::SetProductTransposed(m.quantity.middleRows(a0, rows), m.price, basket_ab);
+  internal::SetProductTransposed(m.quantity, m.price.middleRows(a0, rows), basket_ba);
   // The ratio L / P of a row, padded to an even length so that Eigen's
   // vectorised logarithm takes every entry, as it does over a whole matrix.
   Eigen::ArrayXd ratio(n + n % 2), laspeyres(n), paasche(n);
@@ -532,22 +531,6 @@ inline size_t PackedRow(Eigen::Index n, Eigen::Index b) {
   return static_cast<size_t>(b) * (2 * n - b - 1) / 2;
 }
 
-// Copies the transpose of `in` into `out` (already of the transposed
-// shape) by square tiles, so that both sides stay in cache.
-template <typename In, typename Out>
-void TransposeInTiles(const In& in, Out* out) {
-  constexpr Eigen::Index kSide = 32;
-  for (Eigen::Index c0 = 0; c0 < in.cols(); c0 += kSide) {
-    const Eigen::Index c1 = std::min(in.cols(), c0 + kSide);
-    for (Eigen::Index r0 = 0; r0 < in.rows(); r0 += kSide) {
-      const Eigen::Index r1 = std::min(in.rows(), r0 + kSide);
-      for (Eigen::Index r = r0; r < r1; ++r) {
-        for (Eigen::Index c = c0; c < c1; ++c) (*out)(c, r) = in(r, c);
-      }
-    }
-  }
-}
-
 using MatrixMap = Eigen::Map<Eigen::MatrixXd>;
 
 // The sums of a row block b in [b0, b0 + rows) against the partners c from
@@ -581,14 +564,14 @@ void TakeMatrix(Eigen::Index rows, Eigen::Index cols, double** cursor, MatrixMap
 }
 
 // One pair of products of masked arrays: `bc` the transposed block rows of
-// left * rightᵀ, `cb` its block columns (blocks laid out as AllPairsSpreads's,
-// so every entry is summed as in the full product).
+// left * rightᵀ, `cb` its block columns. Every entry is the full product's
+// chain over the headings (bc's with the factors of each term swapped,
+// which rounds the same), so it has the full product's bits.
 void BlockProduct(const Eigen::MatrixXd& left, const Eigen::MatrixXd& right, Eigen::Index b0,
-                  Eigen::Index rows, MatrixMap* scratch, MatrixMap* bc, MatrixMap* cb) {
+                  Eigen::Index rows, MatrixMap* bc, MatrixMap* cb) {
   const Eigen::Index cols = left.rows() - b0;
-  scratch->noalias() = left.middleRows(b0, rows) * right.middleRows(b0, cols).transpose();
-  TransposeInTiles(*scratch, bc);
-  cb->noalias() = left.middleRows(b0, cols) * right.middleRows(b0, rows).transpose();
+  internal::SetProductTransposed(right.middleRows(b0, cols), left.middleRows(b0, rows), *bc);
+  internal::SetProductTransposed(left.middleRows(b0, cols), right.middleRows(b0, rows), *cb);
 }
 
 // The arrays a GEKS index is formed from, and which index.
@@ -745,7 +728,7 @@ bool GeksRows(const GeksInputs& in, const std::vector<char>& member, Eigen::Inde
               const SpreadTarget* spreads = nullptr) {
   const Eigen::Index n = in.mask.rows(), rows = b1 - b0, cols = n - b0;
   const bool fisher = in.index == GeksIndex::kFisher;
-  const Eigen::Index num_matrices = fisher ? 5 : 7;
+  const Eigen::Index num_matrices = fisher ? 4 : 6;
   const size_t needed = static_cast<size_t>(num_matrices * rows * cols);
   if (work->capacity < needed) {
     // Once per thread: its first block is its widest (blocks go in order).
@@ -754,21 +737,19 @@ bool GeksRows(const GeksInputs& in, const std::vector<char>& member, Eigen::Inde
     internal::AdviseHugePages(work->storage.get(), needed * sizeof(double));
   }
   double* cursor = work->storage.get();
-  MatrixMap scratch(nullptr, 0, 0);
-  TakeMatrix(rows, cols, &cursor, &scratch);
   BlockSums sums;
   TakeMatrix(cols, rows, &cursor, &sums.value_bc);
   TakeMatrix(cols, rows, &cursor, &sums.value_cb);
   TakeMatrix(cols, rows, &cursor, &sums.x_bc);
   TakeMatrix(cols, rows, &cursor, &sums.x_cb);
-  BlockProduct(in.expenditure, in.mask, b0, rows, &scratch, &sums.value_bc, &sums.value_cb);
+  BlockProduct(in.expenditure, in.mask, b0, rows, &sums.value_bc, &sums.value_cb);
   if (fisher) {
-    BlockProduct(in.first, in.second, b0, rows, &scratch, &sums.x_bc, &sums.x_cb);
+    BlockProduct(in.first, in.second, b0, rows, &sums.x_bc, &sums.x_cb);
   } else {
     TakeMatrix(cols, rows, &cursor, &sums.y_bc);
     TakeMatrix(cols, rows, &cursor, &sums.y_cb);
-    BlockProduct(in.expenditure, in.first, b0, rows, &scratch, &sums.x_bc, &sums.x_cb);
-    BlockProduct(in.second, in.mask, b0, rows, &scratch, &sums.y_bc, &sums.y_cb);
+    BlockProduct(in.expenditure, in.first, b0, rows, &sums.x_bc, &sums.x_cb);
+    BlockProduct(in.second, in.mask, b0, rows, &sums.y_bc, &sums.y_cb);
   }
   const Eigen::Index padded = (cols + 3) / 4 * 4;
   for (Eigen::ArrayXd* a : {&work->index_bc, &work->index_cb, &work->log_bc, &work->log_cb,

@@ -1,14 +1,26 @@
-// AVX2 + FMA kernels for the outlier screen's dense products. Only the
-// functions marked kAvx2Fma below are compiled for AVX2; the file is built
-// with the project's flags like every other, includes no Eigen and calls no
-// template, so nothing here can replace another translation unit's copy of
-// an inline function (see DEVELOPERS.md, "Vector kernels"). Every entry is
-// one in-order chain of fused multiply-adds, so the tiling (which rows and
-// columns share registers) never changes a bit.
+// The dense products' kernels: AVX2 + FMA ones and portable ones that give
+// the same bits. Only the functions marked PARITAS_AVX2_FMA are compiled for
+// AVX2; the file is built with the project's flags like every other, and
+// those functions include no Eigen and call no template, so nothing here can
+// replace another translation unit's copy of an inline function (see
+// DEVELOPERS.md, "Vector kernels"). Every entry is one in-order chain of
+// fused multiply-adds, so neither the tiling (which rows and columns share
+// registers) nor the path taken changes a bit.
 #include "base/dense_kernels.h"
 
+#include <algorithm>
+#include <cmath>
 #include <cstdlib>
 #include <cstring>
+#include <vector>
+
+// Every sum below must be the chain its header documents: no contraction
+// into other fused operations (there is no a * b + c to contract: each term
+// is an explicit std::fma) and no reassociation, which only -ffast-math or
+// -fassociative-math would allow.
+#if defined(__FAST_MATH__) || defined(__ASSOCIATIVE_MATH__)
+#error "dense_kernels.cc must not be compiled with -ffast-math or -fassociative-math"
+#endif
 
 #if defined(__x86_64__)
 #include <immintrin.h>
@@ -18,6 +30,58 @@ namespace paritas::internal {
 
 const char* ToString(DenseKernels kernels) {
   return kernels == DenseKernels::kAvx2Fma ? "avx2-fma" : "portable";
+}
+
+namespace {
+
+// Sets the m x n block at out to +0 (the value of an empty sum).
+void ClearColumns(int m, int n, double* out, int64_t ld_out) {
+  for (int j = 0; j < n; ++j) {
+    for (int i = 0; i < m; ++i) out[i + j * ld_out] = 0.0;
+  }
+}
+
+// out = a b as in MultiplyTiles below, one entry's chain at a time in a
+// column of accumulators (out itself): std::fma rounds once, as the vector
+// instruction does, so each entry gets the same bits.
+void MultiplyPortable(int m, int n, int k, const double* a, int64_t ld_a, const double* b,
+                      int64_t b_step, int64_t b_column_step, double* out, int64_t ld_out) {
+  ClearColumns(m, n, out, ld_out);
+  for (int j = 0; j < n; ++j) {
+    double* column = out + j * ld_out;
+    for (int p = 0; p < k; ++p) {
+      const double b_pj = b[p * b_step + j * b_column_step];
+      const double* a_p = a + p * ld_a;
+      for (int i = 0; i < m; ++i) column[i] = std::fma(a_p[i], b_pj, column[i]);
+    }
+  }
+}
+
+}  // namespace
+
+void SubtractGramLowerPortable(int m, int n, const double* x, int64_t ld_x, double* s,
+                               int64_t ld_s) {
+  if (n == 0) return;  // as the vector kernel: s - 0 is s, -0 included
+  std::vector<double> sums(static_cast<size_t>(m));
+  for (int j = 0; j < m; ++j) {
+    std::fill(sums.begin() + j, sums.end(), 0.0);
+    for (int p = 0; p < n; ++p) {
+      const double* x_p = x + p * ld_x;
+      const double x_jp = x_p[j];
+      for (int i = j; i < m; ++i) sums[i] = std::fma(x_p[i], x_jp, sums[i]);
+    }
+    for (int i = j; i < m; ++i) s[i + j * ld_s] -= sums[i];
+  }
+}
+
+void MultiplyPortable(int m, int n, int k, const double* a, int64_t ld_a, const double* b,
+                      int64_t ld_b, double* out, int64_t ld_out) {
+  MultiplyPortable(m, n, k, a, ld_a, b, 1, ld_b, out, ld_out);
+}
+
+void MultiplyTransposedPortable(int m, int n, int k, const double* a, int64_t ld_a,
+                                const double* b, int64_t ld_b, double* out, int64_t ld_out) {
+  MultiplyPortable(m, n, k, a, ld_a, b, ld_b, 1, out, ld_out);
 }
 
 #if defined(__x86_64__)
@@ -105,6 +169,95 @@ PARITAS_AVX2_FMA void ComputeTile(int num_vectors, const TileOperands& t,
   }
 }
 
+// Where the operands of one product are: a is m x k, b(p, c) is at
+// b[p * b_step + c * b_column_step] (b itself with b_step 1, the transpose
+// of a stored matrix with b_column_step 1).
+struct ProductOperands {
+  int m, n, k;
+  const double* a;
+  int64_t ld_a;
+  const double* b;
+  int64_t b_step, b_column_step;
+};
+
+// Columns of b per panel: about kPanelBytes of b, a multiple of the tile's
+// columns.
+constexpr int64_t kPanelBytes = int64_t{192} << 10;
+int PanelColumns(int n, int k) {
+  const int64_t fit = kPanelBytes / (static_cast<int64_t>(k) * 8);
+  const int widest = static_cast<int>(fit < n ? fit : n) / kTileColumns * kTileColumns;
+  return widest < kTileColumns ? kTileColumns : widest;
+}
+
+// out = a b. Both operands are copied into contiguous tiles first (b by
+// panels of PanelColumns columns, held in the L2 cache; a by tiles of 12
+// rows, in the L1 cache, each passing over a whole panel): strided operands
+// (3,000 regions apart) would otherwise touch a page per step of the sum.
+// Copies change no value, and each entry is still one chain in order.
+// `packed` holds PanelColumns(n, k) * k + kTileRows * k doubles.
+PARITAS_AVX2_FMA void MultiplyTiles(const ProductOperands& x, double* packed, double* out,
+                                    int64_t ld_out) {
+  constexpr int kTileRows = kLanes * kMaxVectors;
+  const int m = x.m, n = x.n, k = x.k;
+  const int panel = PanelColumns(n, k);
+  double* packed_a = packed + static_cast<int64_t>(panel) * k;
+  __m256d acc[kMaxVectors][kTileColumns];
+  for (int p0 = 0; p0 < n; p0 += panel) {
+    const int p1 = n - p0 < panel ? n : p0 + panel;
+    // Column group g of the panel at packed + g * 4k, step p at [4p + c];
+    // a missing last column repeats the one before (never stored).
+    for (int j0 = p0; j0 < p1; j0 += kTileColumns) {
+      double* group = packed + static_cast<int64_t>(j0 - p0) * k;
+      for (int c = 0; c < kTileColumns; ++c) {
+        const int j = j0 + c < p1 ? j0 + c : p1 - 1;
+        const double* column = x.b + j * x.b_column_step;
+        for (int p = 0; p < k; ++p) group[kTileColumns * p + c] = column[p * x.b_step];
+      }
+    }
+    for (int i0 = 0; i0 < m; i0 += kTileRows) {
+      const int rows = m - i0 < kTileRows ? m - i0 : kTileRows;
+      const int num_vectors = (rows + kLanes - 1) / kLanes;
+      const int last_rows = rows - kLanes * (num_vectors - 1);
+      const __m256i last_mask = FirstLanes(last_rows);
+      for (int p = 0; p < k; ++p) {
+        const double* source = x.a + i0 + p * x.ld_a;
+        for (int r = 0; r < kTileRows; ++r) packed_a[kTileRows * p + r] = r < rows ? source[r] : 0.0;
+      }
+      for (int j0 = p0; j0 < p1; j0 += kTileColumns) {
+        const int num_columns = p1 - j0 < kTileColumns ? p1 - j0 : kTileColumns;
+        const TileOperands t{.a = packed_a,
+                             .ld_a = kTileRows,
+                             .b = packed + static_cast<int64_t>(j0 - p0) * k,
+                             .b_step = kTileColumns,
+                             .b_column_step = 1,
+                             .depth = k,
+                             .num_columns = kTileColumns,
+                             .last_rows = last_rows};
+        ComputeTile(num_vectors, t, acc);
+        for (int c = 0; c < num_columns; ++c) {
+          double* column = out + i0 + (j0 + c) * ld_out;
+          for (int v = 0; v + 1 < num_vectors; ++v) _mm256_storeu_pd(column + kLanes * v, acc[v][c]);
+          _mm256_maskstore_pd(column + kLanes * (num_vectors - 1), last_mask,
+                              acc[num_vectors - 1][c]);
+        }
+      }
+    }
+  }
+}
+
+// MultiplyTiles with its buffer (compiled for the build's target: it calls
+// the standard library).
+void Multiply(const ProductOperands& x, double* out, int64_t ld_out) {
+  if (x.k == 0) {  // a and b may then be null
+    ClearColumns(x.m, x.n, out, ld_out);
+    return;
+  }
+  if (x.m == 0 || x.n == 0) return;
+  std::vector<double> packed(static_cast<size_t>(PanelColumns(x.n, x.k) + kLanes * kMaxVectors) *
+                             x.k);
+  MultiplyTiles(x, packed.data(), out, ld_out);
+}
+
 }  // namespace
 
 PARITAS_AVX2_FMA void SubtractGramLowerAvx2Fma(int m, int n, const double* x, int64_t ld_x,
@@ -142,47 +295,19 @@ PARITAS_AVX2_FMA void SubtractGramLowerAvx2Fma(int m, int n, const double* x, in
   }
 }
 
-PARITAS_AVX2_FMA void MultiplyAvx2Fma(int m, int n, int k, const double* a, int64_t ld_a,
-                                      const double* b, int64_t ld_b, double* out, int64_t ld_out) {
-  if (k == 0) {  // a and b may then be null
-    for (int j = 0; j < n; ++j) {
-      for (int i = 0; i < m; ++i) out[i + j * ld_out] = 0.0;
-    }
-    return;
-  }
-  constexpr int kTileRows = kLanes * kMaxVectors;
-  __m256d acc[kMaxVectors][kTileColumns];
-  // Column blocks outside: a block's columns of b stay in the L1 cache while
-  // every row tile of a passes over them.
-  for (int j0 = 0; j0 < n; j0 += kTileColumns) {
-    const int num_columns = n - j0 < kTileColumns ? n - j0 : kTileColumns;
-    for (int i0 = 0; i0 < m; i0 += kTileRows) {
-      const int rows = m - i0 < kTileRows ? m - i0 : kTileRows;
-      const int num_vectors = (rows + kLanes - 1) / kLanes;
-      const int last_rows = rows - kLanes * (num_vectors - 1);
-      const TileOperands t{.a = a + i0,
-                           .ld_a = ld_a,
-                           .b = b + j0 * ld_b,
-                           .b_step = 1,
-                           .b_column_step = ld_b,
-                           .depth = k,
-                           .num_columns = num_columns,
-                           .last_rows = last_rows};
-      ComputeTile(num_vectors, t, acc);
-      const __m256i last_mask = FirstLanes(last_rows);
-      for (int c = 0; c < num_columns; ++c) {
-        double* column = out + i0 + (j0 + c) * ld_out;
-        for (int v = 0; v + 1 < num_vectors; ++v) _mm256_storeu_pd(column + kLanes * v, acc[v][c]);
-        _mm256_maskstore_pd(column + kLanes * (num_vectors - 1), last_mask,
-                            acc[num_vectors - 1][c]);
-      }
-    }
-  }
+void MultiplyAvx2Fma(int m, int n, int k, const double* a, int64_t ld_a, const double* b,
+                     int64_t ld_b, double* out, int64_t ld_out) {
+  Multiply({m, n, k, a, ld_a, b, 1, ld_b}, out, ld_out);
+}
+
+void MultiplyTransposedAvx2Fma(int m, int n, int k, const double* a, int64_t ld_a,
+                               const double* b, int64_t ld_b, double* out, int64_t ld_out) {
+  Multiply({m, n, k, a, ld_a, b, ld_b, 1}, out, ld_out);
 }
 
 #undef PARITAS_AVX2_FMA
 
-#else  // not x86-64: the portable products only
+#else  // not x86-64: the portable kernels only
 
 bool CpuHasAvx2Fma() { return false; }
 
@@ -190,6 +315,11 @@ void SubtractGramLowerAvx2Fma(int, int, const double*, int64_t, double*, int64_t
 
 void MultiplyAvx2Fma(int, int, int, const double*, int64_t, const double*, int64_t, double*,
                      int64_t) {
+  std::abort();
+}
+
+void MultiplyTransposedAvx2Fma(int, int, int, const double*, int64_t, const double*, int64_t,
+                               double*, int64_t) {
   std::abort();
 }
 

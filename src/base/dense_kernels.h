@@ -1,4 +1,5 @@
-// Dense products written for the machine's vector units, chosen at run time.
+// Dense products written for the machine's vector units, chosen at run
+// time, and portable ones with the same bits.
 // The kernels take plain pointers and leading dimensions (column-major, as
 // Eigen stores a MatrixXd) and instantiate no shared template, so the one
 // translation unit that holds AVX2 code (dense_kernels.cc) cannot hand the
@@ -11,23 +12,20 @@
 
 namespace paritas::internal {
 
-// Which code the dense products run.
+// Which code the dense products run. Both give the same bits: each entry a
+// sum over k in order, one fused (correctly rounded) multiply-add per term,
+// so no machine parameter, tiling or thread count enters.
 enum class DenseKernels {
-  // Eigen's products as the build compiled them (SSE2 on x86-64). Eigen
-  // blocks long sums by the cache sizes it reads from the CPU, so CPUs with
-  // other caches (an L1 of 64 KiB against 32 or 48) may differ in the last
-  // digits even here.
+  // Scalar loops of std::fma (the CPU's instruction where it has one, the C
+  // library's exact emulation otherwise, which is slow).
   kPortable,
-  // The AVX2 + FMA kernels below: each entry a sum over k in order, one
-  // fused multiply-add per term; no machine parameter enters, so every CPU
-  // with AVX2 + FMA gives the same bits, but not the portable products'
-  // (the last digits of a result may differ).
+  // The AVX2 + FMA kernels below.
   kAvx2Fma,
 };
 
 // Environment variable that, set to anything but "" or "0", makes the
-// products take the portable path on any CPU (to reproduce another
-// machine's run bit for bit).
+// products take the portable path on any CPU (to check that both paths
+// agree, or to time the path of a CPU without AVX2 + FMA).
 inline constexpr char kPortableKernelsVariable[] = "PARITAS_PORTABLE_KERNELS";
 
 // Returns the kernels this process uses: kAvx2Fma when the CPU has AVX2 and
@@ -42,20 +40,33 @@ const char* ToString(DenseKernels kernels);
 // Whether this CPU can run the kAvx2Fma kernels (whatever the variable says).
 bool CpuHasAvx2Fma();
 
-// The AVX2 + FMA kernels; call them only when CpuHasAvx2Fma(). Matrices are
-// column-major: entry (i, j) of x is x[i + j * ld_x]. Each sum over k below
-// is formed as acc = 0, then acc = fma(x_ik, y_kj, acc) for k = 0, 1, ... in
-// order (one rounding per term), whatever the shape.
+// The kernels. Matrices are column-major: entry (i, j) of x is
+// x[i + j * ld_x]. Each sum over k below is formed as acc = 0, then
+// acc = fma(x_ik, y_kj, acc) for k = 0, 1, ... in order (one rounding per
+// term), whatever the shape; the *Avx2Fma and *Portable versions of a kernel
+// give the same bits. Call the *Avx2Fma ones only when CpuHasAvx2Fma().
 
 // Subtracts x x' from the lower triangle of s (m x m): s(i, j) -= sum_k
 // x(i, k) x(j, k) for i >= j; x is m x n. The strict upper triangle of s is
 // not touched. n may be 0 (s unchanged). x and s must not overlap.
 void SubtractGramLowerAvx2Fma(int m, int n, const double* x, int64_t ld_x, double* s, int64_t ld_s);
+void SubtractGramLowerPortable(int m, int n, const double* x, int64_t ld_x, double* s,
+                               int64_t ld_s);
 
 // Sets out = a b: a is m x k, b is k x n, out is m x n (not overlapping a or
 // b). k may be 0 (out = 0).
 void MultiplyAvx2Fma(int m, int n, int k, const double* a, int64_t ld_a, const double* b,
                      int64_t ld_b, double* out, int64_t ld_out);
+void MultiplyPortable(int m, int n, int k, const double* a, int64_t ld_a, const double* b,
+                      int64_t ld_b, double* out, int64_t ld_out);
+
+// Sets out = a b': a is m x k, b is n x k (stored, not transposed), out is
+// m x n (not overlapping a or b); out(i, j) = sum_k a(i, k) b(j, k). k may
+// be 0 (out = 0).
+void MultiplyTransposedAvx2Fma(int m, int n, int k, const double* a, int64_t ld_a,
+                               const double* b, int64_t ld_b, double* out, int64_t ld_out);
+void MultiplyTransposedPortable(int m, int n, int k, const double* a, int64_t ld_a,
+                                const double* b, int64_t ld_b, double* out, int64_t ld_out);
 
 }  // namespace paritas::internal
 

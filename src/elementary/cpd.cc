@@ -15,6 +15,7 @@
 #include <utility>
 #include <vector>
 
+#include "base/dense_products.h"
 #include "base/not_a_number.h"
 #include "paritas/base/text.h"
 #include "elementary/robust_cpd.h"
@@ -71,17 +72,19 @@ class NormalEquations {
       const Eigen::MatrixXd scaled =
           c_.bottomRows(n) * d_item_.cwiseSqrt().cwiseInverse().asDiagonal();
       Eigen::MatrixXd s = Eigen::MatrixXd::Zero(n, n);
-      s.selfadjointView<Eigen::Lower>().rankUpdate(scaled, -1.0);
+      internal::SubtractGramLower(scaled, &s);
       s.diagonal() += d_region_.tail(n);
       llt_.compute(s);
     } else {
       const int n = num_items_ - 1;
       if (n == 0) return true;
-      // S = D_i - C' D_r^-1 C, without the gauge row and column.
-      const Eigen::MatrixXd scaled =
-          d_region_.cwiseSqrt().cwiseInverse().asDiagonal() * c_.rightCols(n);
+      // S = D_i - C' D_r^-1 C, without the gauge row and column; the
+      // kernel wants the factor's rows contiguous, so it is stored
+      // transposed (n x R).
+      const Eigen::MatrixXd scaled_transposed =
+          (d_region_.cwiseSqrt().cwiseInverse().asDiagonal() * c_.rightCols(n)).transpose();
       Eigen::MatrixXd s = Eigen::MatrixXd::Zero(n, n);
-      s.selfadjointView<Eigen::Lower>().rankUpdate(scaled.transpose(), -1.0);
+      internal::SubtractGramLower(scaled_transposed, &s);
       s.diagonal() += d_item_.tail(n);
       llt_.compute(s);
     }
@@ -149,7 +152,7 @@ class NormalEquations {
         const Eigen::MatrixXd m_red = inv_d.asDiagonal() * c_.rightCols(n);
         const Eigen::VectorXd z = m_red.transpose() * reference;
         const Eigen::MatrixXd v = m_red.transpose() - z * Eigen::RowVectorXd::Ones(num_regions_);
-        Eigen::MatrixXd y = llt_.solve(v);
+        Eigen::MatrixXd y = SolveMany(v);
         quad += v.cwiseProduct(y).colwise().sum().transpose();
         if (region_solution != nullptr) *region_solution = std::move(y);
       }
@@ -182,7 +185,8 @@ class NormalEquations {
         for (int j = 0; j < m; ++j) contrast(first + j, j) += 1.0;
         Eigen::MatrixXd a, b;
         Solve(contrast, no_item_rhs, &a, &b);
-        const Eigen::MatrixXd cross = meat_cross * b;
+        Eigen::MatrixXd cross;
+        internal::SetProduct(meat_cross, b, &cross);
         quad.segment(first, m) = (meat_region.transpose() * a.cwiseAbs2() +
                                   meat_item.transpose() * b.cwiseAbs2() +
                                   2.0 * a.cwiseProduct(cross).colwise().sum())
@@ -202,11 +206,14 @@ class NormalEquations {
     } else if (n > 0) {
       const Eigen::MatrixXd rhs =
           m_mat.rightCols(n).transpose() - mu.tail(n) * Eigen::RowVectorXd::Ones(num_regions_);
-      y.bottomRows(n) = -llt_.solve(rhs);
+      y.bottomRows(n) = -SolveMany(rhs);
     }
     const Eigen::MatrixXd weighted_m = meat_region.asDiagonal() * m_mat;
-    const Eigen::MatrixXd p1 = m_mat.transpose() * weighted_m;  // M' D M
-    const Eigen::MatrixXd p2 = m_mat.transpose() * meat_cross;  // M' C
+    // M' stored, so that the kernels read its rows contiguously.
+    const Eigen::MatrixXd m_transposed = m_mat.transpose();
+    Eigen::MatrixXd p1, p2;
+    internal::SetProduct(m_transposed, weighted_m, &p1);  // M' D M
+    internal::SetProduct(m_transposed, meat_cross, &p2);  // M' C
     Eigen::MatrixXd p = p1 - 2.0 * p2;
     p.diagonal() += meat_item;
     const Eigen::VectorXd w = 2.0 * (weighted_m.transpose() * u - meat_cross.transpose() * u);
@@ -214,7 +221,9 @@ class NormalEquations {
     // Row r of M times y_r, and of the cross block times y_r.
     const Eigen::VectorXd my = m_mat.cwiseProduct(y.transpose()).rowwise().sum();
     const Eigen::VectorXd cy = meat_cross.cwiseProduct(y.transpose()).rowwise().sum();
-    const Eigen::VectorXd ypy = y.cwiseProduct(p * y).colwise().sum().transpose();
+    Eigen::MatrixXd py;
+    internal::SetProduct(p, y, &py);
+    const Eigen::VectorXd ypy = y.cwiseProduct(py).colwise().sum().transpose();
     const Eigen::VectorXd wy = (w.transpose() * y).transpose();
     for (int r = 0; r < num_regions_; ++r) {
       const double dr = meat_region[r] * inv_d[r];
@@ -222,6 +231,17 @@ class NormalEquations {
                 wy[r] + ypy[r];
     }
     return quad;
+  }
+
+  // Returns S^-1 rhs for the reduced system's right-hand sides (columns),
+  // as G rhs with G = S^-1 (n^3 work, n the reduced system's size): for the
+  // n x R right-hand sides of the standard errors (R >> n) that is as many
+  // operations as the factor's two triangular solves, on the dense kernels.
+  Eigen::MatrixXd SolveMany(const Eigen::MatrixXd& rhs) const {
+    const Eigen::MatrixXd g = llt_.solve(Eigen::MatrixXd::Identity(rhs.rows(), rhs.rows()));
+    Eigen::MatrixXd solution;
+    internal::SetProduct(g, rhs, &solution);
+    return solution;
   }
 
   // Returns q_k = x_k'(X'WX)^- x_k of every cell (the hat value is w_k q_k).
@@ -236,7 +256,8 @@ class NormalEquations {
     const Eigen::VectorXd inverse_d_b = (eliminate_items_ ? d_item_ : d_region_).cwiseInverse();
     Eigen::MatrixXd g = Eigen::MatrixXd::Zero(m, m);
     if (m > 1) g.bottomRightCorner(m - 1, m - 1) = llt_.solve(Eigen::MatrixXd::Identity(m - 1, m - 1));
-    const Eigen::MatrixXd gc = g * c;
+    Eigen::MatrixXd gc;
+    internal::SetProduct(g, c, &gc);
     const Eigen::VectorXd cgc = (c.array() * gc.array()).colwise().sum().transpose();
     Eigen::VectorXd q(static_cast<Eigen::Index>(cells.region.size()));
     for (size_t k = 0; k < cells.region.size(); ++k) {

@@ -1,16 +1,20 @@
-// The AVX2 + FMA kernels against Eigen's products and against the order of
+// The dense kernels, AVX2 + FMA and portable, against the order of
 // operations their header promises (an in-order chain of fused
-// multiply-adds per entry), on shapes that are and are not multiples of the
-// tiles, including one row and no columns.
+// multiply-adds per entry), against each other bit for bit and against
+// Eigen's products, on shapes that are and are not multiples of the tiles,
+// including one row and no columns.
 #include "base/dense_kernels.h"
 
 #include <gtest/gtest.h>
+#include <omp.h>
 
 #include <Eigen/Core>
 #include <cmath>
 #include <cstdint>
 #include <random>
 #include <vector>
+
+#include "base/dense_products.h"
 
 namespace paritas::internal {
 namespace {
@@ -188,6 +192,112 @@ TEST_F(DenseKernelsTest, RankUpdateReadsAndWritesThroughLeadingDimensions) {
       }
     }
   }
+}
+
+// A leading x cols matrix (a rows x cols block and the rows beyond it)
+// whose entries have both signs and magnitudes spanning 2^-30 .. 2^30, so
+// that products and partial sums round in every way and any difference in
+// the order of operations or the number of roundings shows in the last bits.
+Eigen::MatrixXd Awkward(int64_t leading, int cols, std::mt19937_64* random) {
+  std::uniform_real_distribution<double> mantissa(-1.0, 1.0);
+  std::uniform_int_distribution<int> exponent(-30, 30);
+  Eigen::MatrixXd x(leading, cols);
+  for (int j = 0; j < cols; ++j) {
+    for (int i = 0; i < leading; ++i) x(i, j) = std::ldexp(mantissa(*random), exponent(*random));
+  }
+  return x;
+}
+
+TEST(DenseKernels, PortableKernelsFollowTheFusedOrder) {
+  // The same reference loop as the vector kernels' tests, on every CPU.
+  std::mt19937_64 random(17);
+  for (const Shape& shape : Shapes()) {
+    const int m = shape.rows, n = shape.cols;
+    const Eigen::MatrixXd x = Random(m, n, false, &random);
+    const Eigen::MatrixXd before = Random(m, m, false, &random);
+    Eigen::MatrixXd s = before;
+    SubtractGramLowerPortable(m, n, x.data(), m, s.data(), m);
+    const Eigen::MatrixXd b = Random(n, m, false, &random);  // for a b' and a b
+    Eigen::MatrixXd product(m, m), transposed(m, m);
+    MultiplyPortable(m, m, n, x.data(), m, b.data(), n, product.data(), m);
+    MultiplyTransposedPortable(m, m, n, x.data(), m, x.data(), m, transposed.data(), m);
+    for (int j = 0; j < m; ++j) {
+      for (int i = 0; i < m; ++i) {
+        const double gram = FusedDot(n, x.data() + i, m, x.data() + j, m);
+        ASSERT_EQ(s(i, j), i >= j && n > 0 ? before(i, j) - gram : before(i, j)) << m << " x " << n;
+        ASSERT_EQ(product(i, j), FusedDot(n, x.data() + i, m, b.data() + j * n, 1)) << m << " x " << n;
+        ASSERT_EQ(transposed(i, j), gram) << m << " x " << n;
+      }
+    }
+  }
+}
+
+TEST_F(DenseKernelsTest, TransposedProductFollowsTheFusedOrder) {
+  std::mt19937_64 random(18);
+  for (const Shape& shape : Shapes()) {
+    for (const int depth : {0, 1, 5, 100}) {
+      const int m = shape.rows, n = shape.cols;
+      const Eigen::MatrixXd a = Random(m, depth, false, &random);
+      const Eigen::MatrixXd b = Random(n, depth, false, &random);
+      Eigen::MatrixXd out = Eigen::MatrixXd::Constant(m, n, 7.0);
+      MultiplyTransposedAvx2Fma(m, n, depth, a.data(), m, b.data(), n, out.data(), m);
+      for (int j = 0; j < n; ++j) {
+        for (int i = 0; i < m; ++i) {
+          const double expected = depth == 0 ? 0.0 : FusedDot(depth, a.data() + i, m, b.data() + j, n);
+          ASSERT_EQ(out(i, j), expected) << m << " x " << depth << " x " << n;
+        }
+      }
+    }
+  }
+}
+
+// The vector and portable kernels on blocks of larger matrices (leading
+// dimensions beyond the rows) with awkward entries: every bit the same.
+TEST_F(DenseKernelsTest, VectorAndPortableKernelsGiveTheSameBits) {
+  std::mt19937_64 random(19);
+  for (const Shape& shape : Shapes()) {
+    for (const int depth : {1, 3, 13, 257}) {
+      const int m = shape.rows, n = shape.cols;
+      const int64_t ld = m + 3, ld_b = n + 5, ld_out = m + 2;
+      const Eigen::MatrixXd a = Awkward(ld, depth, &random);
+      const Eigen::MatrixXd b = Awkward(depth + 1, n, &random);
+      const Eigen::MatrixXd bt = Awkward(ld_b, depth, &random);
+      Eigen::MatrixXd vector_out = Eigen::MatrixXd::Zero(ld_out, n), portable_out = vector_out;
+      MultiplyAvx2Fma(m, n, depth, a.data(), ld, b.data(), depth + 1, vector_out.data(), ld_out);
+      MultiplyPortable(m, n, depth, a.data(), ld, b.data(), depth + 1, portable_out.data(), ld_out);
+      ASSERT_TRUE(vector_out == portable_out) << "a b, " << m << " x " << depth << " x " << n;
+      MultiplyTransposedAvx2Fma(m, n, depth, a.data(), ld, bt.data(), ld_b, vector_out.data(), ld_out);
+      MultiplyTransposedPortable(m, n, depth, a.data(), ld, bt.data(), ld_b, portable_out.data(),
+                                 ld_out);
+      ASSERT_TRUE(vector_out == portable_out) << "a b', " << m << " x " << depth << " x " << n;
+      Eigen::MatrixXd vector_s = Awkward(ld_out, m, &random), portable_s = vector_s;
+      SubtractGramLowerAvx2Fma(m, depth, a.data(), ld, vector_s.data(), ld_out);
+      SubtractGramLowerPortable(m, depth, a.data(), ld, portable_s.data(), ld_out);
+      ASSERT_TRUE(vector_s == portable_s) << "s - a a', " << m << " x " << depth;
+    }
+  }
+}
+
+TEST(DenseProducts, SplitOverThreadsKeepsEveryBit) {
+  // Large enough (2^24 terms and more) for the wrappers to split the
+  // columns over two threads; the single-thread run is the reference.
+  std::mt19937_64 random(20);
+  const Eigen::MatrixXd a = Awkward(600, 60, &random), b = Awkward(500, 60, &random);
+  Eigen::MatrixXd one(600, 500), two(600, 500), product_one, product_two;
+  const Eigen::MatrixXd bt = b.transpose();
+  const int threads = omp_get_max_threads();
+  omp_set_num_threads(1);
+  SetProductTransposed(a, b, one);
+  SetProduct(a, bt, &product_one);
+  omp_set_num_threads(2);
+  SetProductTransposed(a, b, two);
+  SetProduct(a, bt, &product_two);
+  omp_set_num_threads(threads);
+  EXPECT_TRUE(one == two);
+  EXPECT_TRUE(product_one == product_two);
+  EXPECT_TRUE(one == product_one);  // a b' formed either way
+  EXPECT_LE((one - a * b.transpose()).cwiseAbs().maxCoeff(),
+            1e-13 * (a.cwiseAbs() * b.cwiseAbs().transpose()).maxCoeff());
 }
 
 TEST(DenseKernels, AreNamedAsTheRunRecordWritesThem) {

@@ -171,9 +171,9 @@ struct SpreadOptions {
   bool keep_pair_spreads = true;
   // Number of widest pairs kept, >= 0. Default 12 (the report's table).
   int num_widest = 12;
-  // Regions per row block, a positive multiple of 4 (blocks then start
-  // where the matrix products' column panels do, so every entry is summed
-  // in the same order as in the full matrices); memory is about
+  // Regions per row block, a positive multiple of 4 (a rule kept from
+  // when the products' summation order depended on an entry's place; every
+  // sum is now the same chain in any block); memory is about
   // 4 x block x regions doubles per thread. The results do not depend on
   // it. Default 128.
   int block_rows = 128;

@@ -51,9 +51,8 @@ GeksResult Geks(const Eigen::MatrixXd& log_bilateral);
 
 // How GeksByRowBlocks splits its work.
 struct GeksBlockOptions {
-  // Regions per row block, a positive multiple of 4 (blocks then start where
-  // the matrix products' column panels do, so every sum is formed in the
-  // same order as in the full matrices, as for SpreadOptions); memory is
+  // Regions per row block, a positive multiple of 4 (as for SpreadOptions;
+  // every sum is the same chain as in the full matrices); memory is
   // about 4 x block x regions doubles per thread. The result does not depend
   // on it. Default 128.
   int block_rows = 128;
