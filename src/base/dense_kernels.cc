@@ -29,7 +29,25 @@
 namespace paritas::internal {
 
 const char* ToString(DenseKernels kernels) {
-  return kernels == DenseKernels::kAvx2Fma ? "avx2-fma" : "portable";
+  switch (kernels) {
+    case DenseKernels::kAvx2Fma:
+      return "avx2-fma";
+    case DenseKernels::kUnfused:
+      return "unfused";
+    case DenseKernels::kPortable:
+      break;
+  }
+  return "portable";
+}
+
+bool CpuHasFma() {
+#if defined(__FP_FAST_FMA)
+  return true;
+#elif defined(__x86_64__)
+  return __builtin_cpu_supports("fma");
+#else
+  return false;
+#endif
 }
 
 namespace {
@@ -327,10 +345,13 @@ void MultiplyTransposedAvx2Fma(int, int, int, const double*, int64_t, const doub
 
 DenseKernels ActiveDenseKernels() {
   static const DenseKernels active = [] {
-    const char* portable = std::getenv(kPortableKernelsVariable);
-    const bool forced =
-        portable != nullptr && portable[0] != '\0' && std::strcmp(portable, "0") != 0;
-    return !forced && CpuHasAvx2Fma() ? DenseKernels::kAvx2Fma : DenseKernels::kPortable;
+    const char* forced = std::getenv(kPortableKernelsVariable);
+    if (forced != nullptr && std::strcmp(forced, "unfused") == 0) return DenseKernels::kUnfused;
+    if (forced != nullptr && forced[0] != '\0' && std::strcmp(forced, "0") != 0) {
+      return DenseKernels::kPortable;
+    }
+    if (CpuHasAvx2Fma()) return DenseKernels::kAvx2Fma;
+    return CpuHasFma() ? DenseKernels::kPortable : DenseKernels::kUnfused;
   }();
   return active;
 }

@@ -21,24 +21,35 @@ enum class DenseKernels {
   kPortable,
   // The AVX2 + FMA kernels below.
   kAvx2Fma,
+  // Eigen's products (SSE2 on x86-64, with the block sizes FixEigenBlockSizes
+  // sets), not fused: for a CPU without FMA, where std::fma is emulated in
+  // software (about 100 times slower than these). The last digits of a
+  // result may differ from those of the two fused paths.
+  kUnfused,
 };
 
-// Environment variable that, set to anything but "" or "0", makes the
-// products take the portable path on any CPU (to check that both paths
-// agree, or to time the path of a CPU without AVX2 + FMA).
+// Environment variable that, set to anything but "", "0" or "unfused",
+// makes the products take the portable path on any CPU (to check that both
+// fused paths agree, or to time the path of a CPU without AVX2 + FMA);
+// "unfused" makes them take kUnfused (to reproduce a run of a CPU without
+// FMA, or to time it).
 inline constexpr char kPortableKernelsVariable[] = "PARITAS_PORTABLE_KERNELS";
 
-// Returns the kernels this process uses: kAvx2Fma when the CPU has AVX2 and
-// FMA and kPortableKernelsVariable is not set, kPortable otherwise. Decided
-// once per process (never by thread count), so runs on one machine give the
-// same bits for any number of threads.
+// Returns the kernels this process uses: the one kPortableKernelsVariable
+// names when set; otherwise kAvx2Fma when the CPU has AVX2 and FMA,
+// kPortable when it has FMA alone, kUnfused when it has no FMA. Decided once
+// per process (never by thread count), so runs on one machine give the same
+// bits for any number of threads.
 DenseKernels ActiveDenseKernels();
 
-// "portable" or "avx2-fma" (as run.json records it).
+// "portable", "avx2-fma" or "unfused" (as run.json records it).
 const char* ToString(DenseKernels kernels);
 
 // Whether this CPU can run the kAvx2Fma kernels (whatever the variable says).
 bool CpuHasAvx2Fma();
+// Whether std::fma is the CPU's own instruction here (x86-64: the CPU has
+// FMA; elsewhere: the compiler says fma is fast, as on 64-bit ARM).
+bool CpuHasFma();
 
 // The kernels. Matrices are column-major: entry (i, j) of x is
 // x[i + j * ld_x]. Each sum over k below is formed as acc = 0, then

@@ -2,7 +2,7 @@
 // all-pairs sums, on Eigen matrices: each runs the AVX2 + FMA kernel of
 // dense_kernels.h when ActiveDenseKernels() says so and the portable kernel
 // otherwise, which give the same bits (every entry one in-order chain of
-// fused multiply-adds). Compiled with the project's flags like their callers
+// fused multiply-adds); on a CPU without FMA, Eigen's own product (kUnfused). Compiled with the project's flags like their callers
 // (no AVX2 code here).
 #ifndef PARITAS_INTERNAL_BASE_DENSE_PRODUCTS_H_
 #define PARITAS_INTERNAL_BASE_DENSE_PRODUCTS_H_
@@ -45,7 +45,9 @@ void InColumnBlocks(Eigen::Index m, Eigen::Index n, Eigen::Index k, const Run& r
 inline void SubtractGramLower(const ConstMatrixRef& x, Eigen::MatrixXd* s) {
   eigen_assert(s->rows() == x.rows() && s->cols() == x.rows());
   const int m = static_cast<int>(x.rows()), n = static_cast<int>(x.cols());
-  if (ActiveDenseKernels() == DenseKernels::kAvx2Fma) {
+  if (ActiveDenseKernels() == DenseKernels::kUnfused) {
+    s->selfadjointView<Eigen::Lower>().rankUpdate(x, -1.0);
+  } else if (ActiveDenseKernels() == DenseKernels::kAvx2Fma) {
     SubtractGramLowerAvx2Fma(m, n, x.data(), x.outerStride(), s->data(), s->rows());
   } else {
     SubtractGramLowerPortable(m, n, x.data(), x.outerStride(), s->data(), s->rows());
@@ -55,6 +57,10 @@ inline void SubtractGramLower(const ConstMatrixRef& x, Eigen::MatrixXd* s) {
 // Sets *out = a b (out not overlapping a or b).
 inline void SetProduct(const ConstMatrixRef& a, const ConstMatrixRef& b, Eigen::MatrixXd* out) {
   eigen_assert(a.cols() == b.rows() && out->data() != a.data() && out->data() != b.data());
+  if (ActiveDenseKernels() == DenseKernels::kUnfused) {
+    out->noalias() = a * b;
+    return;
+  }
   out->resize(a.rows(), b.cols());
   const bool avx2 = ActiveDenseKernels() == DenseKernels::kAvx2Fma;
   const int m = static_cast<int>(a.rows()), k = static_cast<int>(a.cols());
@@ -73,6 +79,10 @@ inline void SetProduct(const ConstMatrixRef& a, const ConstMatrixRef& b, Eigen::
 inline void SetProductTransposed(const ConstMatrixRef& a, const ConstMatrixRef& b,
                                  Eigen::Ref<Eigen::MatrixXd> out) {
   eigen_assert(a.cols() == b.cols() && out.rows() == a.rows() && out.cols() == b.rows());
+  if (ActiveDenseKernels() == DenseKernels::kUnfused) {
+    out.noalias() = a * b.transpose();
+    return;
+  }
   const bool avx2 = ActiveDenseKernels() == DenseKernels::kAvx2Fma;
   const int m = static_cast<int>(a.rows()), k = static_cast<int>(a.cols());
   InColumnBlocks(m, b.rows(), k, [&](Eigen::Index j0, Eigen::Index cols) {

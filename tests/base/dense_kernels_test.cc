@@ -303,6 +303,7 @@ TEST(DenseProducts, SplitOverThreadsKeepsEveryBit) {
 TEST(DenseKernels, AreNamedAsTheRunRecordWritesThem) {
   EXPECT_STREQ(ToString(DenseKernels::kPortable), "portable");
   EXPECT_STREQ(ToString(DenseKernels::kAvx2Fma), "avx2-fma");
+  EXPECT_STREQ(ToString(DenseKernels::kUnfused), "unfused");
 }
 
 }  // namespace

@@ -3,6 +3,7 @@
 #include <cmath>
 #include <cstdlib>
 #include <filesystem>
+#include <iostream>
 #include <map>
 #include <nlohmann/json.hpp>
 #include <regex>
@@ -257,6 +258,45 @@ TEST(ComputeCommand, RecordsTheDenseKernelsAndTheirVariableForcesThePortableOnes
     ++compared;
   }
   EXPECT_GE(compared, 9);
+}
+
+// A CPU without FMA runs Eigen's unfused products (the exact emulation of
+// fma is about 100 times slower): the variable's "unfused" forces them here.
+// Every text field is the same and every number agrees to about 1e-10 of
+// its size (their sums are rounded differently, not formed differently).
+TEST(ComputeCommand, UnfusedKernelsGiveTheSameRowsToTheLastDigits) {
+  const std::string unfused = MakeTempDir("cli_demo_unfused");
+  std::string out, err;
+  ::setenv(internal::kPortableKernelsVariable, "unfused", 1);
+  const int code = RunCli("compute " + Demo() + " --output " + unfused, &out, &err);
+  ::unsetenv(internal::kPortableKernelsVariable);
+  ASSERT_EQ(code, 0) << err;
+  EXPECT_EQ(nlohmann::json::parse(ReadTextFile(unfused + "/run.json"))["tool"]["dense_kernels"], "unfused");
+  int64_t numbers = 0, differ = 0;
+  for (const std::string name : {"parities.csv", "contributions.csv", "outliers.csv", "dispersion.csv"}) {
+    const auto fused_rows = ReadRows(ReadTextFile(DemoOutput() + "/" + name));
+    const auto unfused_rows = ReadRows(ReadTextFile(unfused + "/" + name));
+    ASSERT_EQ(fused_rows.size(), unfused_rows.size()) << name;
+    for (size_t r = 0; r < fused_rows.size(); ++r) {
+      ASSERT_EQ(fused_rows[r].size(), unfused_rows[r].size()) << name << " row " << r;
+      for (size_t c = 0; c < fused_rows[r].size(); ++c) {
+        const std::string& a = fused_rows[r][c];
+        const std::string& b = unfused_rows[r][c];
+        char* end_a = nullptr;
+        char* end_b = nullptr;
+        const double x = std::strtod(a.c_str(), &end_a), y = std::strtod(b.c_str(), &end_b);
+        if (a.empty() || *end_a != '\0' || b.empty() || *end_b != '\0') {
+          EXPECT_EQ(a, b) << name << " row " << r << " column " << c;
+          continue;
+        }
+        ++numbers;
+        differ += a != b;
+        EXPECT_LE(std::abs(x - y), 1e-10 * std::max(1.0, std::abs(x))) << name << " row " << r << " column " << c;
+      }
+    }
+  }
+  EXPECT_GT(numbers, 1000);
+  std::cout << differ << " of " << numbers << " numbers differ in their last digits\n";
 }
 
 TEST(ComputeCommand, CommandLineOverridesTheReference) {
