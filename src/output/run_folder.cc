@@ -10,10 +10,16 @@
 
 #include <cerrno>
 #include <chrono>
+#include <condition_variable>
 #include <cstring>
+#include <deque>
 #include <filesystem>
+#include <mutex>
 #include <random>
 #include <set>
+#include <thread>
+
+#include "base/sha256.h"
 
 namespace paritas {
 namespace {
@@ -73,24 +79,35 @@ bool CheckReplaceable(const fs::path& target, std::string* error) {
   return false;
 }
 
-bool WriteOneFile(const fs::path& path, const std::string& contents, std::string* error) {
+// Creates the file at `path` (and its folders); -1 with a reason if not.
+int CreateFile(const fs::path& path, std::string* error) {
   std::error_code ec;
   fs::create_directories(path.parent_path(), ec);
   const int fd = ec ? -1 : ::open(path.c_str(), O_WRONLY | O_CREAT | O_EXCL | O_CLOEXEC, 0644);
-  if (fd < 0) {
-    *error = ec ? ec.message() : ErrnoText(errno);
-    return false;
-  }
+  if (fd < 0) *error = ec ? ec.message() : ErrnoText(errno);
+  return fd;
+}
+
+bool WriteAll(int fd, std::string_view text, std::string* error) {
   size_t done = 0;
-  while (done < contents.size()) {
-    const ssize_t n = ::write(fd, contents.data() + done, contents.size() - done);
+  while (done < text.size()) {
+    const ssize_t n = ::write(fd, text.data() + done, text.size() - done);
     if (n < 0 && errno == EINTR) continue;
     if (n <= 0) {
       *error = ErrnoText(errno);
-      ::close(fd);
       return false;
     }
     done += static_cast<size_t>(n);
+  }
+  return true;
+}
+
+bool WriteOneFile(const fs::path& path, const std::string& contents, std::string* error) {
+  const int fd = CreateFile(path, error);
+  if (fd < 0) return false;
+  if (!WriteAll(fd, contents, error)) {
+    ::close(fd);
+    return false;
   }
   if (::close(fd) != 0) {
     *error = ErrnoText(errno);
@@ -238,6 +255,159 @@ bool WriteRunFolder(const std::string& folder, const std::vector<OutputFile>& fi
                     std::string* error) {
   *summary = RunFolderSummary();
   if (!CheckFiles(files, error)) return false;
+  RunFolderWriter writer;
+  if (!writer.Open(folder, /*digest=*/false, error)) return false;
+  for (const OutputFile& file : files) {
+    if (!writer.BeginFile(file.relative_path, error)) return false;
+    writer.AppendUnowned(file.contents);
+  }
+  if (!writer.Finish(nullptr, error)) return false;
+  if (!make_last) return writer.Commit(nullptr, summary, error);
+  const OutputFile last = make_last();
+  return writer.Commit(&last, summary, error);
+}
+
+// ---------------------------------------------------------------------------
+// RunFolderWriter
+
+struct RunFolderWriter::State {
+  // One piece of work for the writing thread, taken in order.
+  enum class Kind { kBegin, kBlock, kEnd };
+  struct Piece {
+    Kind kind = Kind::kBlock;
+    std::string owned;          // the bytes (or the path) when the writer owns them
+    std::string_view unowned;   // the caller's bytes otherwise
+    std::string_view Text() const { return owned.empty() ? unowned : std::string_view(owned); }
+  };
+
+  fs::path target, staging;
+  bool digest = false;
+  bool refused = false;    // a BeginFile failed: nothing more is accepted
+  bool finished = false;   // Finish returned true
+  bool committed = false;  // the staging folder is in place
+  int num_leftovers_removed = 0;
+  std::set<std::string> paths_begun;
+  bool file_open = false;  // a file was begun and not yet ended (caller's view)
+
+  std::mutex mutex;
+  std::condition_variable changed;
+  // Guarded by `mutex`.
+  std::deque<Piece> queue;
+  size_t queued_bytes = 0;
+  int64_t num_pending = 0;  // pieces queued or being written
+  bool stopping = false;
+  std::string failure;
+
+  // The writing thread's own (read by others once num_pending is 0).
+  std::vector<OutputDigest> digests;
+  std::unique_ptr<internal::Sha256> hasher;
+  int fd = -1;
+  int num_files = 0;
+  int64_t num_bytes = 0;
+  std::thread thread;
+
+  void Push(Piece piece);
+  void Loop();
+  // Writes one piece; false with a message on failure.
+  bool Write(Piece& piece, std::string* why);
+  // Stops the thread (after the pieces queued) and closes a file left open.
+  void Stop();
+};
+
+void RunFolderWriter::State::Push(Piece piece) {
+  std::unique_lock<std::mutex> lock(mutex);
+  changed.wait(lock, [&] { return queued_bytes <= kMaxQueuedBytes || !failure.empty(); });
+  if (!failure.empty()) return;  // nothing more is written
+  queued_bytes += piece.owned.size();
+  ++num_pending;
+  queue.push_back(std::move(piece));
+  changed.notify_all();
+}
+
+void RunFolderWriter::State::Loop() {
+  for (;;) {
+    Piece piece;
+    {
+      std::unique_lock<std::mutex> lock(mutex);
+      changed.wait(lock, [&] { return !queue.empty() || stopping; });
+      if (queue.empty()) return;
+      piece = std::move(queue.front());
+      queue.pop_front();
+    }
+    std::string why;
+    const bool ok = Write(piece, &why);
+    std::lock_guard<std::mutex> lock(mutex);
+    queued_bytes -= piece.owned.size();
+    --num_pending;
+    if (!ok && failure.empty()) {
+      failure = (target / digests.back().path).string() + ": cannot write file: " + why;
+    }
+    changed.notify_all();
+  }
+}
+
+bool RunFolderWriter::State::Write(Piece& piece, std::string* why) {
+  {
+    std::lock_guard<std::mutex> lock(mutex);
+    if (!failure.empty()) return true;  // the first failure is the one told
+  }
+  const std::string_view text = piece.Text();
+  switch (piece.kind) {
+    case Kind::kBegin:
+      digests.push_back({std::string(text), 0, ""});
+      if (digest) hasher = std::make_unique<internal::Sha256>();
+      fd = CreateFile(staging / digests.back().path, why);
+      return fd >= 0;
+    case Kind::kBlock:
+      if (!WriteAll(fd, text, why)) return false;
+      if (hasher) hasher->Update(text.data(), text.size());
+      digests.back().bytes += static_cast<int64_t>(text.size());
+      num_bytes += static_cast<int64_t>(text.size());
+      return true;
+    case Kind::kEnd: {
+      const int closing = fd;
+      fd = -1;
+      if (hasher) digests.back().sha256 = hasher->HexDigest();
+      hasher.reset();
+      ++num_files;
+      if (::close(closing) == 0) return true;
+      *why = ErrnoText(errno);
+      return false;
+    }
+  }
+  return true;
+}
+
+void RunFolderWriter::State::Stop() {
+  if (!thread.joinable()) return;
+  {
+    std::lock_guard<std::mutex> lock(mutex);
+    stopping = true;
+    changed.notify_all();
+  }
+  thread.join();
+  if (fd >= 0) ::close(fd);
+  fd = -1;
+}
+
+RunFolderWriter::RunFolderWriter() : state_(std::make_unique<State>()) {}
+
+RunFolderWriter::~RunFolderWriter() {
+  {
+    // Abandoned before Finish: the blocks still queued may point into text
+    // that is gone, so they are dropped unwritten.
+    std::lock_guard<std::mutex> lock(state_->mutex);
+    if (state_->failure.empty()) state_->failure = "abandoned";
+  }
+  state_->Stop();
+  if (!state_->committed && !state_->staging.empty()) {
+    std::error_code ignored;
+    fs::remove_all(state_->staging, ignored);
+  }
+}
+
+bool RunFolderWriter::Open(const std::string& folder, bool digest, std::string* error) {
+  State& s = *state_;
   const fs::path target = fs::absolute(fs::path(folder)).lexically_normal();
   if (!CheckReplaceable(target, error)) return false;
   std::error_code ec;
@@ -246,44 +416,101 @@ bool WriteRunFolder(const std::string& folder, const std::vector<OutputFile>& fi
     *error = target.parent_path().string() + ": cannot create folder: " + ec.message();
     return false;
   }
-  summary->num_leftovers_removed = RemoveRunLeftovers(target.string());
+  s.num_leftovers_removed = RemoveRunLeftovers(target.string());
   const fs::path staging = target.parent_path() / (StagingPrefix(target) + std::to_string(::getpid()) + "-" +
                                                    NewRunId().substr(0, 8));
   if (!fs::create_directory(staging, ec) || ec) {
     *error = staging.string() + ": cannot create staging folder: " + (ec ? ec.message() : "exists");
     return false;
   }
-  auto fail = [&](const std::string& message) {
-    *error = message;
-    std::error_code ignored;
-    fs::remove_all(staging, ignored);
+  s.target = target;
+  s.staging = staging;
+  s.digest = digest;
+  s.thread = std::thread([&s] { s.Loop(); });
+  return true;
+}
+
+bool RunFolderWriter::BeginFile(const std::string& relative_path, std::string* error) {
+  State& s = *state_;
+  if (!CheckFiles({OutputFile{relative_path, ""}}, error)) {
+    s.refused = true;
     return false;
-  };
-  auto write = [&](const OutputFile& file, std::string* why) {
-    if (!WriteOneFile(staging / file.relative_path, file.contents, why)) {
-      *why = (target / file.relative_path).string() + ": cannot write file: " + *why;
+  }
+  if (!s.paths_begun.insert(relative_path).second) {
+    *error = "two outputs of this run would share the file '" + relative_path + "'";
+    s.refused = true;
+    return false;
+  }
+  if (s.file_open) s.Push({State::Kind::kEnd, "", ""});
+  s.Push({State::Kind::kBegin, relative_path, ""});
+  s.file_open = true;
+  return true;
+}
+
+void RunFolderWriter::Append(std::string block) {
+  if (block.empty() || !state_->file_open) return;
+  state_->Push({State::Kind::kBlock, std::move(block), ""});
+}
+
+void RunFolderWriter::AppendUnowned(std::string_view text) {
+  if (text.empty() || !state_->file_open) return;
+  state_->Push({State::Kind::kBlock, "", text});
+}
+
+bool RunFolderWriter::Finish(std::vector<OutputDigest>* digests, std::string* error) {
+  State& s = *state_;
+  if (s.file_open) s.Push({State::Kind::kEnd, "", ""});
+  s.file_open = false;
+  {
+    std::unique_lock<std::mutex> lock(s.mutex);
+    s.changed.wait(lock, [&] { return s.num_pending == 0 || !s.failure.empty(); });
+  }
+  s.Stop();
+  if (!s.failure.empty()) {
+    *error = s.failure;
+    return false;
+  }
+  if (s.refused || s.staging.empty()) {
+    *error = "the run folder was not opened or a file was refused";
+    return false;
+  }
+  if (digests != nullptr) *digests = s.digests;
+  s.finished = true;
+  return true;
+}
+
+bool RunFolderWriter::Commit(const OutputFile* last, RunFolderSummary* summary, std::string* error) {
+  State& s = *state_;
+  *summary = RunFolderSummary();
+  summary->num_leftovers_removed = s.num_leftovers_removed;
+  if (!s.finished) {
+    *error = "the run folder's files were not all written";
+    return false;
+  }
+  summary->num_files = s.num_files;
+  summary->num_bytes = s.num_bytes;
+  if (last != nullptr) {
+    if (!CheckFiles({OutputFile{last->relative_path, ""}}, error)) return false;
+    if (s.paths_begun.count(last->relative_path) > 0) {
+      *error = "two outputs of this run would share the file '" + last->relative_path + "'";
+      return false;
+    }
+    std::string why;
+    if (!WriteOneFile(s.staging / last->relative_path, last->contents, &why)) {
+      *error = (s.target / last->relative_path).string() + ": cannot write file: " + why;
       return false;
     }
     ++summary->num_files;
-    summary->num_bytes += static_cast<int64_t>(file.contents.size());
-    return true;
-  };
+    summary->num_bytes += static_cast<int64_t>(last->contents.size());
+  }
   std::string why;
-  for (const OutputFile& file : files) {
-    if (!write(file, &why)) return fail(why);
+  if (!SwapIntoPlace(s.staging, s.target, summary, &why)) {
+    *error = why;
+    return false;
   }
-  if (make_last) {
-    const OutputFile last = make_last();
-    if (!CheckFiles({OutputFile{last.relative_path, ""}}, &why)) return fail(why);
-    for (const OutputFile& file : files) {
-      if (file.relative_path == last.relative_path) {
-        return fail("two outputs of this run would share the file '" + last.relative_path + "'");
-      }
-    }
-    if (!write(last, &why)) return fail(why);
-  }
-  if (!SwapIntoPlace(staging, target, summary, &why)) return fail(why);
-  fs::remove_all(staging, ec);  // the old run, if there was one
+  s.committed = true;
+  std::error_code ignored;
+  fs::remove_all(s.staging, ignored);  // the old run, if there was one
   return true;
 }
 
