@@ -271,7 +271,8 @@ bool WriteRunFolder(const std::string& folder, const std::vector<OutputFile>& fi
 // RunFolderWriter
 
 struct RunFolderWriter::State {
-  // One piece of work for the writing thread, taken in order.
+  // One piece of work, taken in order by the writing thread and, when
+  // digests are asked for, by the hashing thread.
   enum class Kind { kBegin, kBlock, kEnd };
   struct Piece {
     Kind kind = Kind::kBlock;
@@ -291,26 +292,36 @@ struct RunFolderWriter::State {
 
   std::mutex mutex;
   std::condition_variable changed;
-  // Guarded by `mutex`.
+  // Guarded by `mutex`. Pieces are numbered from 0 in order; `queue` holds
+  // those from `first` on, until both threads are past them (a deque keeps
+  // its elements in place as it grows, so a thread reads its piece unlocked).
   std::deque<Piece> queue;
+  int64_t first = 0;
+  int64_t next_written = 0;  // the writing thread's next piece
+  int64_t next_hashed = 0;   // the hashing thread's (unused without digests)
   size_t queued_bytes = 0;
-  int64_t num_pending = 0;  // pieces queued or being written
   bool stopping = false;
   std::string failure;
 
-  // The writing thread's own (read by others once num_pending is 0).
-  std::vector<OutputDigest> digests;
-  std::unique_ptr<internal::Sha256> hasher;
+  // The writing thread's own (read by others once it has stopped).
+  std::vector<OutputDigest> digests;  // path and bytes
   int fd = -1;
   int num_files = 0;
   int64_t num_bytes = 0;
-  std::thread thread;
+  // The hashing thread's own.
+  std::vector<std::string> hashes;
+  std::unique_ptr<internal::Sha256> hasher;
+  std::thread writing, hashing;
 
+  int64_t End() const { return first + static_cast<int64_t>(queue.size()); }
   void Push(Piece piece);
-  void Loop();
-  // Writes one piece; false with a message on failure.
-  bool Write(Piece& piece, std::string* why);
-  // Stops the thread (after the pieces queued) and closes a file left open.
+  // Takes pieces in order for one thread (`next` its cursor) until stopped.
+  void Loop(int64_t State::*next, bool (State::*handle)(const Piece&, std::string*));
+  bool Write(const Piece& piece, std::string* why);
+  bool Hash(const Piece& piece, std::string* why);
+  // Waits until both threads are past every piece queued.
+  void WaitUntilDone();
+  // Stops the threads (after the pieces queued) and closes a file left open.
   void Stop();
 };
 
@@ -319,56 +330,53 @@ void RunFolderWriter::State::Push(Piece piece) {
   changed.wait(lock, [&] { return queued_bytes <= kMaxQueuedBytes || !failure.empty(); });
   if (!failure.empty()) return;  // nothing more is written
   queued_bytes += piece.owned.size();
-  ++num_pending;
   queue.push_back(std::move(piece));
   changed.notify_all();
 }
 
-void RunFolderWriter::State::Loop() {
+void RunFolderWriter::State::Loop(int64_t State::*next,
+                                  bool (State::*handle)(const Piece&, std::string*)) {
   for (;;) {
-    Piece piece;
+    const Piece* piece = nullptr;
     {
       std::unique_lock<std::mutex> lock(mutex);
-      changed.wait(lock, [&] { return !queue.empty() || stopping; });
-      if (queue.empty()) return;
-      piece = std::move(queue.front());
-      queue.pop_front();
+      changed.wait(lock, [&] { return this->*next < End() || stopping; });
+      if (this->*next >= End()) return;
+      piece = &queue[static_cast<size_t>(this->*next - first)];
+      if (!failure.empty()) piece = nullptr;  // the first failure is the one told
     }
     std::string why;
-    const bool ok = Write(piece, &why);
+    const bool ok = piece == nullptr || (this->*handle)(*piece, &why);
     std::lock_guard<std::mutex> lock(mutex);
-    queued_bytes -= piece.owned.size();
-    --num_pending;
     if (!ok && failure.empty()) {
       failure = (target / digests.back().path).string() + ": cannot write file: " + why;
+    }
+    ++(this->*next);
+    const int64_t done = digest ? std::min(next_written, next_hashed) : next_written;
+    while (first < done) {
+      queued_bytes -= queue.front().owned.size();
+      queue.pop_front();
+      ++first;
     }
     changed.notify_all();
   }
 }
 
-bool RunFolderWriter::State::Write(Piece& piece, std::string* why) {
-  {
-    std::lock_guard<std::mutex> lock(mutex);
-    if (!failure.empty()) return true;  // the first failure is the one told
-  }
+bool RunFolderWriter::State::Write(const Piece& piece, std::string* why) {
   const std::string_view text = piece.Text();
   switch (piece.kind) {
     case Kind::kBegin:
       digests.push_back({std::string(text), 0, ""});
-      if (digest) hasher = std::make_unique<internal::Sha256>();
       fd = CreateFile(staging / digests.back().path, why);
       return fd >= 0;
     case Kind::kBlock:
       if (!WriteAll(fd, text, why)) return false;
-      if (hasher) hasher->Update(text.data(), text.size());
       digests.back().bytes += static_cast<int64_t>(text.size());
       num_bytes += static_cast<int64_t>(text.size());
       return true;
     case Kind::kEnd: {
       const int closing = fd;
       fd = -1;
-      if (hasher) digests.back().sha256 = hasher->HexDigest();
-      hasher.reset();
       ++num_files;
       if (::close(closing) == 0) return true;
       *why = ErrnoText(errno);
@@ -378,14 +386,38 @@ bool RunFolderWriter::State::Write(Piece& piece, std::string* why) {
   return true;
 }
 
+bool RunFolderWriter::State::Hash(const Piece& piece, std::string* /*why*/) {
+  const std::string_view text = piece.Text();
+  switch (piece.kind) {
+    case Kind::kBegin:
+      hasher = std::make_unique<internal::Sha256>();
+      break;
+    case Kind::kBlock:
+      hasher->Update(text.data(), text.size());
+      break;
+    case Kind::kEnd:
+      hashes.push_back(hasher->HexDigest());
+      hasher.reset();
+      break;
+  }
+  return true;
+}
+
+void RunFolderWriter::State::WaitUntilDone() {
+  std::unique_lock<std::mutex> lock(mutex);
+  changed.wait(lock, [&] {
+    return !failure.empty() || (next_written == End() && (!digest || next_hashed == End()));
+  });
+}
+
 void RunFolderWriter::State::Stop() {
-  if (!thread.joinable()) return;
   {
     std::lock_guard<std::mutex> lock(mutex);
     stopping = true;
     changed.notify_all();
   }
-  thread.join();
+  if (writing.joinable()) writing.join();
+  if (hashing.joinable()) hashing.join();
   if (fd >= 0) ::close(fd);
   fd = -1;
 }
@@ -426,7 +458,8 @@ bool RunFolderWriter::Open(const std::string& folder, bool digest, std::string* 
   s.target = target;
   s.staging = staging;
   s.digest = digest;
-  s.thread = std::thread([&s] { s.Loop(); });
+  s.writing = std::thread([&s] { s.Loop(&State::next_written, &State::Write); });
+  if (digest) s.hashing = std::thread([&s] { s.Loop(&State::next_hashed, &State::Hash); });
   return true;
 }
 
@@ -461,10 +494,7 @@ bool RunFolderWriter::Finish(std::vector<OutputDigest>* digests, std::string* er
   State& s = *state_;
   if (s.file_open) s.Push({State::Kind::kEnd, "", ""});
   s.file_open = false;
-  {
-    std::unique_lock<std::mutex> lock(s.mutex);
-    s.changed.wait(lock, [&] { return s.num_pending == 0 || !s.failure.empty(); });
-  }
+  s.WaitUntilDone();
   s.Stop();
   if (!s.failure.empty()) {
     *error = s.failure;
@@ -474,7 +504,10 @@ bool RunFolderWriter::Finish(std::vector<OutputDigest>* digests, std::string* er
     *error = "the run folder was not opened or a file was refused";
     return false;
   }
-  if (digests != nullptr) *digests = s.digests;
+  if (digests != nullptr) {
+    *digests = s.digests;
+    for (size_t k = 0; k < digests->size() && k < s.hashes.size(); ++k) (*digests)[k].sha256 = s.hashes[k];
+  }
   s.finished = true;
   return true;
 }
