@@ -84,8 +84,8 @@ bool WriteRunFolder(const std::string& folder, const std::vector<OutputFile>& fi
 // Writes a run folder as its files are made, with the same checks and the
 // same whole-or-nothing swap as WriteRunFolder: Open makes the staging
 // folder; each file's text is handed over in blocks, in order, and written
-// (and digested) on a thread of its own while the caller makes the next
-// blocks, so the kernel's copy into the page cache overlaps the formatting;
+// on a thread of its own (and digested on another) while the caller makes
+// the next blocks, so the kernel's copy into the page cache overlaps the formatting;
 // Finish waits for them; Commit writes the last file (run.json) and swaps
 // the folder into place. A writer destroyed without a successful Commit
 // removes its staging folder, and a killed process leaves only a staging
