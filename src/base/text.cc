@@ -126,6 +126,12 @@ void AppendShortest(double value, std::string* out) {
   out->append(buffer, end - buffer);
 }
 
+void AppendInteger(int64_t value, std::string* out) {
+  char buffer[24];
+  const auto result = std::to_chars(buffer, buffer + sizeof(buffer), value);
+  out->append(buffer, result.ptr - buffer);
+}
+
 std::string FormatFixed(double value, int decimals) {
   std::string out;
   AppendFixed(value, decimals, &out);

@@ -105,7 +105,9 @@ int RunComputeCommand(const std::string& config_path, const Overrides& overrides
   RunConfig config;
   if (!LoadConfigWithOverrides(config_path, overrides, &config)) return kExitInvalidInput;
   ComputeJobSummary summary;
-  const int code = RunCompute(config, &summary);
+  JobOutputOptions output;
+  output.keep_texts = false;  // the files are on disk; nothing here reads their text
+  const int code = RunCompute(config, &summary, output);
   if (code != kExitOk && code != kExitStrictWarnings) {
     if (summary.load.outcome != LoadOutcome::kOk) {
       PrintLoadFailure(summary.load);

@@ -8,13 +8,16 @@
 #include <chrono>
 #include <cmath>
 #include <filesystem>
+#include <deque>
 #include <future>
+#include <optional>
 
 #include "paritas/aggregation/bilateral_matrix.h"
 #include "paritas/aggregation/normalisation.h"
 #include "paritas/elementary/elementary.h"
 #include "paritas/output/output_writers.h"
 #include "paritas/output/report.h"
+#include "output/format_rows.h"
 #include "paritas/use/heading_contributions.h"
 #include "paritas/base/text.h"
 
@@ -307,55 +310,120 @@ std::string ComputeRunJson(const RunConfig& config, const ComputeJobSummary& sum
   return RunRecordJson(record);
 }
 
-// Every file of a compute run but run.json, in the order they are listed.
-std::vector<OutputFile> ComputeOutputFiles(const RunConfig& config,
-                                           const std::vector<int>& matrix_nodes,
-                                           const ContributionTable& contributions,
-                                           ComputeJobSummary* summary) {
-  const Survey& survey = summary->survey;
-  const ParityResult& result = summary->result;
-  std::vector<OutputFile> files;
-  files.push_back({"parities.csv", ParitiesCsv(survey, result, &summary->plausibility)});
-  files.push_back({"contributions.csv", ContributionsCsv(survey, contributions)});
-  files.push_back({"warnings.csv", WarningsCsv(summary->warnings)});
+// Where the files of a compute run go as they are made: block by block into
+// the run folder's writer (null: nothing is written), and whole into the
+// list handed back when the texts are kept.
+class ComputeFileSink {
+ public:
+  ComputeFileSink(RunFolderWriter* writer, bool keep_texts) : writer_(writer), keep_texts_(keep_texts || !writer) {}
+
+  // A file whose text is made whole.
+  void Add(const std::string& path, std::string text) {
+    files_.push_back({path, keep_texts_ ? std::move(text) : std::string()});
+    if (!Begin(path)) return;
+    if (keep_texts_) {
+      writer_->AppendUnowned(files_.back().contents);  // the deque keeps it in place
+    } else {
+      writer_->Append(std::move(text));
+    }
+  }
+  // A file made block by block: `make(emit)` hands the blocks to `emit`.
+  void AddBlocks(const std::string& path, const std::function<void(const TextBlocks&)>& make) {
+    if (keep_texts_) {
+      internal::JoinedText text;
+      make(text.Sink());
+      Add(path, text.Take());
+      return;
+    }
+    files_.push_back({path, std::string()});
+    if (!Begin(path)) return;
+    make([this](std::string block) { writer_->Append(std::move(block)); });
+  }
+  // The first path the run folder refused ("" when none).
+  const std::string& error() const { return error_; }
+  // Every file added, in order; call once the writer has finished.
+  std::vector<OutputFile> TakeFiles() {
+    return std::vector<OutputFile>(std::make_move_iterator(files_.begin()),
+                                   std::make_move_iterator(files_.end()));
+  }
+
+ private:
+  bool Begin(const std::string& path) {
+    if (writer_ == nullptr || !error_.empty()) return false;
+    return writer_->BeginFile(path, &error_);
+  }
+
+  RunFolderWriter* writer_;
+  bool keep_texts_;
+  std::deque<OutputFile> files_;
+  std::string error_;
+};
+
+ReportInputs ComputeReportInputs(const RunConfig& config, const ContributionTable& contributions,
+                                 const std::vector<ReportOutlier>& report_outliers,
+                                 const ComputeJobSummary& summary) {
+  ReportInputs report;
+  report.outliers = &report_outliers;
+  report.num_cells_not_screenable = summary.outliers.num_cells_not_screenable;
+  report.config = &config;
+  report.survey = &summary.survey;
+  report.load = &summary.load;
+  report.result = &summary.result;
+  report.compute = &summary.compute;
+  report.warnings = summary.warnings;
+  report.plausibility = &summary.plausibility;
+  report.contributions = &contributions;
+  report.explain_region = config.report_region;
+  report.root_spreads = &summary.root_spreads;
+  report.pair_tables_written = !summary.matrices_left_out;
+  return report;
+}
+
+// Makes every file of a compute run but run.json, in the order they are
+// listed, into `sink`. The report is built on a thread of its own beside the
+// tables (it only reads what they read).
+void MakeComputeOutputFiles(const RunConfig& config, const std::vector<int>& matrix_nodes,
+                            const ContributionTable& contributions, const ComputeJobSummary& summary,
+                            ComputeFileSink* sink) {
+  const Survey& survey = summary.survey;
+  const ParityResult& result = summary.result;
+  const std::vector<ReportOutlier> report_outliers = ToReportOutliers(survey, summary.outliers);
+  std::future<std::string> report;
+  if (config.report) {
+    report = std::async(std::launch::async, [&]() {
+      return ReportHtml(ComputeReportInputs(config, contributions, report_outliers, summary));
+    });
+  }
+  sink->AddBlocks("parities.csv", [&](const TextBlocks& emit) {
+    ParitiesCsvBlocks(survey, result, &summary.plausibility, "", emit);
+  });
+  sink->AddBlocks("contributions.csv",
+                  [&](const TextBlocks& emit) { ContributionsCsvBlocks(survey, contributions, emit); });
+  sink->Add("warnings.csv", WarningsCsv(summary.warnings));
   if (const AggregationMethod* method = FindAggregationMethod(config.aggregation);
       method != nullptr && method->Properties().additive) {
-    files.push_back({"real_by_heading.csv", RealByHeadingCsv(survey, result, *method)});
+    sink->Add("real_by_heading.csv", RealByHeadingCsv(survey, result, *method));
   }
   if (const ElementaryMethod* method = FindElementaryMethod(config.elementary);
       method != nullptr && method->Properties().gives_representativity_effect) {
-    files.push_back({"representativity.csv", RepresentativityCsv(survey, result)});
+    sink->Add("representativity.csv", RepresentativityCsv(survey, result));
   }
-  AddMatrixFiles(survey, result, matrix_nodes, &files);
+  std::vector<OutputFile> matrix_files;
+  AddMatrixFiles(survey, result, matrix_nodes, &matrix_files);
+  for (OutputFile& file : matrix_files) sink->Add(file.relative_path, std::move(file.contents));
   for (const NodeResult& n : result.nodes) {  // spanning-tree: every aggregate's tree
     if (n.tree.empty()) continue;
     const std::string& code = survey.classification.nodes()[n.node].code;
-    files.push_back({"tree/" + NodeFileName(code) + ".csv", TreeCsv(survey, n)});
+    sink->Add("tree/" + NodeFileName(code) + ".csv", TreeCsv(survey, n));
   }
-  files.push_back({"outliers.csv", OutliersCsv(survey, summary->outliers)});
-  files.push_back({"dispersion.csv", DispersionCsv(survey, summary->outliers)});
+  sink->AddBlocks("outliers.csv",
+                  [&](const TextBlocks& emit) { OutliersCsvBlocks(survey, summary.outliers, emit); });
+  sink->AddBlocks("dispersion.csv",
+                  [&](const TextBlocks& emit) { DispersionCsvBlocks(survey, summary.outliers, emit); });
   if (config.invalid_rows == InvalidRowPolicy::kSkip) {
-    files.push_back({"rejected.csv", RejectedRowsCsv(summary->load.rejected_rows)});
+    sink->Add("rejected.csv", RejectedRowsCsv(summary.load.rejected_rows));
   }
-  const std::vector<ReportOutlier> report_outliers = ToReportOutliers(survey, summary->outliers);
-  if (config.report) {
-    ReportInputs report;
-    report.outliers = &report_outliers;
-    report.num_cells_not_screenable = summary->outliers.num_cells_not_screenable;
-    report.config = &config;
-    report.survey = &survey;
-    report.load = &summary->load;
-    report.result = &result;
-    report.compute = &summary->compute;
-    report.warnings = summary->warnings;
-    report.plausibility = &summary->plausibility;
-    report.contributions = &contributions;
-    report.explain_region = config.report_region;
-    report.root_spreads = &summary->root_spreads;
-    report.pair_tables_written = !summary->matrices_left_out;
-    files.push_back({"report.html", ReportHtml(report)});
-  }
-  return files;
+  if (config.report) sink->Add("report.html", report.get());
 }
 
 }  // namespace
@@ -443,36 +511,37 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary,
   } else {
     summary->root_spreads = result.root_spreads.regions;
   }
-  std::vector<OutputFile> files = ComputeOutputFiles(config, matrix_nodes, contributions, summary);
-  for (const OutputFile& file : files) summary->outputs.push_back(file.relative_path);
-  summary->outputs.push_back("run.json");
-
   // The exit code is settled before run.json, which records it.
   const bool strict_fails =
       config.strict && (!summary->warnings.empty() || summary->num_gross_outliers > 0);
   summary->exit_code = strict_fails ? kExitStrictWarnings : kExitOk;
   summary->message = strict_fails ? StrictModeMessage(summary->warnings) : "ok";
   summary->run_id = NewRunId();
-  // The files are digested while they are written (the writes copy into
-  // the page cache on one core); the record waits for the digests.
-  std::future<std::vector<OutputDigest>> digesting =
-      std::async(std::launch::async, [&files]() { return DigestOutputs(files); });
-  auto run_record = [&]() {
-    const std::vector<OutputDigest> digests = digesting.get();
-    summary->stages.push_back({"write", lap()});
-    return OutputFile{"run.json", ComputeRunJson(config, *summary, digests)};
-  };
-  RunFolderSummary written;
-  OutputFile record;
-  auto make_record = [&]() {
-    record = run_record();
-    return record;
-  };
-  if (!output.write_files) {
-    make_record();
-  } else if (!WriteRunFolder(config.output, files, make_record, &written, &error)) {
-    return fail(kExitInvalidInput, error);
+
+  // Each file goes to the run folder's writer as it is made (block by block
+  // for the large tables), so the copies into the page cache and the digests
+  // run beside the formatting of what follows.
+  std::optional<RunFolderWriter> writer;
+  if (output.write_files) {
+    writer.emplace();
+    if (!writer->Open(config.output, /*digest=*/true, &error)) return fail(kExitInvalidInput, error);
   }
+  ComputeFileSink sink(writer ? &*writer : nullptr, output.keep_texts);
+  MakeComputeOutputFiles(config, matrix_nodes, contributions, *summary, &sink);
+  if (!sink.error().empty()) {
+    writer.reset();  // stops its thread before the sink's texts go
+    return fail(kExitInvalidInput, sink.error());
+  }
+  std::vector<OutputDigest> digests;
+  if (writer && !writer->Finish(&digests, &error)) return fail(kExitInvalidInput, error);
+  std::vector<OutputFile> files = sink.TakeFiles();
+  if (!writer) digests = DigestOutputs(files);
+  for (const OutputFile& file : files) summary->outputs.push_back(file.relative_path);
+  summary->outputs.push_back("run.json");
+  summary->stages.push_back({"write", lap()});
+  OutputFile record{"run.json", ComputeRunJson(config, *summary, digests)};
+  RunFolderSummary written;
+  if (writer && !writer->Commit(&record, &written, &error)) return fail(kExitInvalidInput, error);
   files.push_back(std::move(record));
   summary->files = std::move(files);
   return summary->exit_code;

@@ -19,33 +19,15 @@
 #include "paritas/base/text.h"
 #include "base/median.h"
 #include "base/sha256.h"
+#include "output/format_rows.h"
 
 namespace paritas {
 namespace {
 
 namespace fs = std::filesystem;
 
-// Formats rows [0, num_rows) with `format_row(row, out)` in parallel blocks
-// of `rows_per_block` rows; each block reserves `bytes_per_row_hint` bytes a
-// row up front so that it rarely grows (a hint only: the text is the same).
-template <typename FormatRow>
-std::string FormatRows(int64_t num_rows, int64_t rows_per_block, size_t bytes_per_row_hint,
-                       const FormatRow& format_row, std::string header) {
-  const int64_t num_blocks = (num_rows + rows_per_block - 1) / rows_per_block;
-  std::vector<std::string> blocks(num_blocks);
-#pragma omp parallel for schedule(dynamic, 4) if (num_blocks > 4)
-  for (int64_t b = 0; b < num_blocks; ++b) {
-    std::string& text = blocks[b];
-    const int64_t end = std::min(num_rows, (b + 1) * rows_per_block);
-    text.reserve(static_cast<size_t>(end - b * rows_per_block) * bytes_per_row_hint);
-    for (int64_t row = b * rows_per_block; row < end; ++row) format_row(row, &text);
-  }
-  size_t total = header.size();
-  for (const auto& block : blocks) total += block.size();
-  header.reserve(total);
-  for (const auto& block : blocks) header += block;
-  return header;
-}
+using internal::FormatRowBlocks;
+using internal::FormatRows;
 
 constexpr int64_t kRowsPerBlock = 4096;
 
@@ -58,13 +40,6 @@ std::vector<int> RegionsWithParity(const NodeResult& node) {
 }
 
 void AppendCode(std::string_view code, std::string* out) { AppendCsvField(code, out); }
-
-// As std::to_string, without its temporary string.
-void AppendInt(int64_t value, std::string* out) {
-  char buffer[24];
-  const auto result = std::to_chars(buffer, buffer + sizeof(buffer), value);
-  out->append(buffer, result.ptr - buffer);
-}
 
 // CSV fields of the region codes, escaped once rather than once per row.
 std::vector<std::string> RegionFields(const Survey& survey) {
@@ -106,6 +81,14 @@ std::string NodeTitle(const Classification& classification, int node) {
 std::string ParitiesCsv(const Survey& survey, const ParityResult& result,
                         const PlausibilityResult* plausibility,
                         const std::string& extrapolated_to) {
+  internal::JoinedText text;
+  ParitiesCsvBlocks(survey, result, plausibility, extrapolated_to, text.Sink());
+  return text.Take();
+}
+
+void ParitiesCsvBlocks(const Survey& survey, const ParityResult& result,
+                       const PlausibilityResult* plausibility, const std::string& extrapolated_to,
+                       const TextBlocks& emit) {
   const int num_regions = survey.num_regions();
   const int64_t num_rows = static_cast<int64_t>(result.nodes.size()) * num_regions;
   const auto& tree = survey.classification.nodes();
@@ -134,7 +117,7 @@ std::string ParitiesCsv(const Survey& survey, const ParityResult& result,
   }
   std::string extrapolated_field;
   AppendCsvField(extrapolated_to, &extrapolated_field);
-  return FormatRows(
+  FormatRowBlocks(
       num_rows, kRowsPerBlock, 160,
       [&](int64_t row, std::string* out) {
         const NodeResult& node = result.nodes[row / num_regions];
@@ -154,13 +137,13 @@ std::string ParitiesCsv(const Survey& survey, const ParityResult& result,
         *out += ',';
         AppendShortest(node.log_se_robust(r), out);
         *out += ',';
-        if (node.rank(r) > 0) AppendInt(node.rank(r), out);
+        if (node.rank(r) > 0) AppendInteger(node.rank(r), out);
         *out += ',';
-        AppendInt(node.num_items(r), out);
+        AppendInteger(node.num_items(r), out);
         *out += ',';
-        AppendInt(node.num_quotes(r), out);
+        AppendInteger(node.num_quotes(r), out);
         *out += ',';
-        AppendInt(node.num_headings(r), out);
+        AppendInteger(node.num_headings(r), out);
         const Eigen::Vector4d shares =
             SourceShares(survey.classification, node.node, r, survey.expenditure, source);
         *out += ',';
@@ -187,7 +170,8 @@ std::string ParitiesCsv(const Survey& survey, const ParityResult& result,
                   "log_se,log_se_robust,rank,num_items,num_quotes,num_headings,source,"
                   "share_priced,share_imputed,share_external,label") +
           (plausibility != nullptr ? ",basket_share,warnings" : "") +
-          (extrapolated_to.empty() ? "\n" : ",extrapolated_to\n"));
+          (extrapolated_to.empty() ? "\n" : ",extrapolated_to\n"),
+      emit);
 }
 
 std::string ParityMatrixCsv(const Survey& survey, const NodeResult& node) {
@@ -248,7 +232,7 @@ std::string AggregateBilateralCsv(const Survey& survey, const NodeResult& node,
           AppendShortest(value, out);
         }
         *out += ',';
-        AppendInt(bilaterals.num_matched(a, b), out);
+        AppendInteger(bilaterals.num_matched(a, b), out);
         *out += '\n';
       },
       "from,to,laspeyres,paasche,fisher,tornqvist,spread,num_headings\n");
@@ -285,7 +269,7 @@ std::string HeadingBilateralCsv(const Survey& survey, const NodeResult& node,
         *out += ',';
         AppendShortest(jevons(a, b), out);
         *out += ',';
-        AppendInt(num_items(a, b), out);
+        AppendInteger(num_items(a, b), out);
         *out += '\n';
       },
       "from,to,jevons,num_items\n");
@@ -341,9 +325,9 @@ std::string RepresentativityCsv(const Survey& survey, const ParityResult& result
     out += ',';
     if (std::isfinite(h.representativity_se)) AppendShortest(h.representativity_se, &out);
     out += ',';
-    AppendInt(h.num_cells, &out);
+    AppendInteger(h.num_cells, &out);
     out += ',';
-    AppendInt(h.num_cells_representative, &out);
+    AppendInteger(h.num_cells_representative, &out);
     out += '\n';
   }
   return out;

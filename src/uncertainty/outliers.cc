@@ -22,6 +22,7 @@
 
 #include "base/not_a_number.h"
 #include "base/eigen_threads.h"
+#include "output/format_rows.h"
 #include "paritas/base/csv.h"
 #include "paritas/base/text.h"
 #include "paritas/output/output_writers.h"
@@ -734,46 +735,74 @@ OutlierReport FindOutliers(const Survey& survey, const ParityResult& result,
 }
 
 std::string OutliersCsv(const Survey& survey, const OutlierReport& report) {
-  std::string out =
-      "heading,region,item,kind,observed,predicted,ratio,standardised_residual,num_quotes,how,leverage,note\n";
-  for (const std::vector<Outlier>* list : {&report.outliers, &report.not_screenable}) {
-    for (const Outlier& o : *list) {
-      AppendCsvField(survey.heading_codes[o.heading], &out);
-      out += ',';
-      AppendCsvField(survey.regions.Code(o.region), &out);
-      out += ',';
-      AppendCsvField(survey.items.Code(o.item), &out);
-      out += ',' + ToString(o.kind) + ',';
-      AppendShortest(o.observed, &out);
-      out += ',';
-      AppendShortest(o.predicted, &out);
-      out += ',';
-      AppendShortest(o.observed / o.predicted, &out);
-      out += ',';
-      AppendShortest(o.standardised_residual, &out);
-      out += ',' + std::to_string(o.num_quotes) + ',' + ToString(o.how, report.fit) + ',';
-      AppendShortest(o.leverage, &out);
-      out += ',';
-      AppendCsvField(o.note, &out);
-      out += '\n';
-    }
-  }
-  return out;
+  internal::JoinedText text;
+  OutliersCsvBlocks(survey, report, text.Sink());
+  return text.Take();
+}
+
+void OutliersCsvBlocks(const Survey& survey, const OutlierReport& report, const TextBlocks& emit) {
+  const int64_t num_flagged = static_cast<int64_t>(report.outliers.size());
+  const int64_t num_rows = num_flagged + static_cast<int64_t>(report.not_screenable.size());
+  constexpr int64_t kRowsPerBlock = 8192;
+  internal::FormatRowBlocks(
+      num_rows, kRowsPerBlock, 120,
+      [&](int64_t row, std::string* out) {
+        const Outlier& o = row < num_flagged ? report.outliers[row] : report.not_screenable[row - num_flagged];
+        AppendCsvField(survey.heading_codes[o.heading], out);
+        *out += ',';
+        AppendCsvField(survey.regions.Code(o.region), out);
+        *out += ',';
+        AppendCsvField(survey.items.Code(o.item), out);
+        *out += ',';
+        *out += ToString(o.kind);
+        *out += ',';
+        AppendShortest(o.observed, out);
+        *out += ',';
+        AppendShortest(o.predicted, out);
+        *out += ',';
+        AppendShortest(o.observed / o.predicted, out);
+        *out += ',';
+        AppendShortest(o.standardised_residual, out);
+        *out += ',';
+        AppendInteger(o.num_quotes, out);
+        *out += ',';
+        *out += ToString(o.how, report.fit);
+        *out += ',';
+        AppendShortest(o.leverage, out);
+        *out += ',';
+        AppendCsvField(o.note, out);
+        *out += '\n';
+      },
+      "heading,region,item,kind,observed,predicted,ratio,standardised_residual,num_quotes,how,leverage,note\n",
+      emit);
 }
 
 std::string DispersionCsv(const Survey& survey, const OutlierReport& report) {
-  std::string out = "heading,region,num_items,rms_log_residual,max_abs_log_residual,num_flagged\n";
-  for (const Dispersion& d : report.dispersion) {
-    AppendCsvField(survey.heading_codes[d.heading], &out);
-    out += ',';
-    AppendCsvField(survey.regions.Code(d.region), &out);
-    out += ',' + std::to_string(d.num_items) + ',';
-    AppendShortest(d.rms_log_residual, &out);
-    out += ',';
-    AppendShortest(d.max_abs_log_residual, &out);
-    out += ',' + std::to_string(d.num_flagged) + '\n';
-  }
-  return out;
+  internal::JoinedText text;
+  DispersionCsvBlocks(survey, report, text.Sink());
+  return text.Take();
+}
+
+void DispersionCsvBlocks(const Survey& survey, const OutlierReport& report, const TextBlocks& emit) {
+  constexpr int64_t kRowsPerBlock = 16384;
+  internal::FormatRowBlocks(
+      static_cast<int64_t>(report.dispersion.size()), kRowsPerBlock, 64,
+      [&](int64_t row, std::string* out) {
+        const Dispersion& d = report.dispersion[row];
+        AppendCsvField(survey.heading_codes[d.heading], out);
+        *out += ',';
+        AppendCsvField(survey.regions.Code(d.region), out);
+        *out += ',';
+        AppendInteger(d.num_items, out);
+        *out += ',';
+        AppendShortest(d.rms_log_residual, out);
+        *out += ',';
+        AppendShortest(d.max_abs_log_residual, out);
+        *out += ',';
+        AppendInteger(d.num_flagged, out);
+        *out += '\n';
+      },
+      "heading,region,num_items,rms_log_residual,max_abs_log_residual,num_flagged\n", emit);
 }
 
 }  // namespace paritas

@@ -13,6 +13,7 @@
 #include <limits>
 
 #include "base/not_a_number.h"
+#include "output/format_rows.h"
 #include "paritas/aggregation/aggregation_method.h"
 #include "paritas/base/csv.h"
 #include "paritas/base/text.h"
@@ -277,42 +278,39 @@ ContributionTable HeadingContributions(const Survey& survey, const ParityResult&
 }
 
 std::string ContributionsCsv(const Survey& survey, const ContributionTable& table) {
+  internal::JoinedText text;
+  ContributionsCsvBlocks(survey, table, text.Sink());
+  return text.Take();
+}
+
+void ContributionsCsvBlocks(const Survey& survey, const ContributionTable& table,
+                            const TextBlocks& emit) {
   const auto& nodes = survey.classification.nodes();
-  const int64_t num_rows = static_cast<int64_t>(table.rows.size());
-  // Rows formatted in parallel blocks and joined in order: the text is the
-  // same for any number of threads.
+  // A row of the table is a region's rows, one per heading.
   constexpr int64_t kRowsPerBlock = 256;
-  const int64_t num_blocks = (num_rows + kRowsPerBlock - 1) / kRowsPerBlock;
-  std::vector<std::string> blocks(num_blocks);
-#pragma omp parallel for schedule(dynamic, 4) if (num_blocks > 4)
-  for (int64_t b = 0; b < num_blocks; ++b) {
-    std::string& out = blocks[b];
-    for (int64_t i = b * kRowsPerBlock; i < std::min(num_rows, (b + 1) * kRowsPerBlock); ++i) {
-      const RegionContributions& row = table.rows[i];
-      std::string prefix;
-      AppendCsvField(nodes[row.node].code, &prefix);
-      prefix += ',';
-      AppendCsvField(survey.regions.Code(row.region), &prefix);
-      prefix += ',';
-      for (const HeadingContribution& c : row.headings) {
-        out += prefix;
-        AppendCsvField(survey.heading_codes[c.heading], &out);
-        for (double v : {c.share, c.weight, c.heading_parity, c.price_part, c.adjustment,
-                         c.log_contribution}) {
-          out += ',';
-          AppendShortest(v, &out);
+  const size_t bytes_per_row_hint = table.rows.empty() ? 0 : 120 * table.rows.front().headings.size();
+  internal::FormatRowBlocks(
+      static_cast<int64_t>(table.rows.size()), kRowsPerBlock, bytes_per_row_hint,
+      [&](int64_t i, std::string* out) {
+        const RegionContributions& row = table.rows[i];
+        std::string prefix;
+        AppendCsvField(nodes[row.node].code, &prefix);
+        prefix += ',';
+        AppendCsvField(survey.regions.Code(row.region), &prefix);
+        prefix += ',';
+        for (const HeadingContribution& c : row.headings) {
+          *out += prefix;
+          AppendCsvField(survey.heading_codes[c.heading], out);
+          for (double v : {c.share, c.weight, c.heading_parity, c.price_part, c.adjustment,
+                           c.log_contribution}) {
+            *out += ',';
+            AppendShortest(v, out);
+          }
+          *out += '\n';
         }
-        out += '\n';
-      }
-    }
-  }
-  std::string out =
-      "node,region,heading,share,weight,heading_parity,price_part,adjustment,log_contribution\n";
-  size_t total = out.size();
-  for (const std::string& block : blocks) total += block.size();
-  out.reserve(total);
-  for (const std::string& block : blocks) out += block;
-  return out;
+      },
+      "node,region,heading,share,weight,heading_parity,price_part,adjustment,log_contribution\n",
+      emit);
 }
 
 }  // namespace paritas

@@ -3,16 +3,22 @@
 #include "paritas/output/run_folder.h"
 
 #include <gtest/gtest.h>
+#include <omp.h>
 #include <unistd.h>
 
+#include <chrono>
 #include <filesystem>
+#include <mutex>
 #include <random>
 #include <set>
 #include <string>
+#include <thread>
 
 #include "paritas/jobs/jobs.h"
 #include "paritas/output/output_writers.h"
 #include "paritas/output/run_record.h"
+#include "base/sha256.h"
+#include "output/format_rows.h"
 #include "test_util.h"
 
 namespace paritas {
@@ -67,6 +73,128 @@ TEST(WriteRunFolder, RefusesTwoFilesOfOneNameBeforeWritingAnything) {
   EXPECT_FALSE(fs::exists(folder));
   EXPECT_FALSE(Write(folder, {{"../escape.csv", "1"}}, &error));
   EXPECT_EQ(error, "output file name '../escape.csv' is not a plain path inside the output folder");
+}
+
+// Entries of `folder`'s parent (the folder itself and anything beside it).
+int EntriesBeside(const std::string& folder) {
+  int entries = 0;
+  for (const auto& entry : fs::directory_iterator(fs::path(folder).parent_path())) {
+    (void)entry;
+    ++entries;
+  }
+  return entries;
+}
+
+TEST(RunFolderWriter, WritesTheBlocksOfEachFileInOrderWithTheirDigests) {
+  const std::string folder = MakeTempDir("writer_blocks") + "/out";
+  std::string error;
+  RunFolderWriter writer;
+  ASSERT_TRUE(writer.Open(folder, /*digest=*/true, &error)) << error;
+  const std::string kept = "kept by the caller\n";
+  std::string big;
+  ASSERT_TRUE(writer.BeginFile("parities.csv", &error)) << error;
+  for (int k = 0; k < 300; ++k) {
+    std::string block = "row " + std::to_string(k) + std::string(10000, 'x') + "\n";
+    big += block;
+    writer.Append(std::move(block));
+  }
+  ASSERT_TRUE(writer.BeginFile("matrix/food.csv", &error)) << error;
+  writer.AppendUnowned(kept);
+  ASSERT_TRUE(writer.BeginFile("empty.csv", &error)) << error;
+  std::vector<OutputDigest> digests;
+  ASSERT_TRUE(writer.Finish(&digests, &error)) << error;
+  ASSERT_EQ(digests.size(), 3u);
+  EXPECT_EQ(digests[0].path, "parities.csv");
+  EXPECT_EQ(digests[0].bytes, static_cast<int64_t>(big.size()));
+  EXPECT_EQ(digests[0].sha256, internal::Sha256Hex(big));
+  EXPECT_EQ(digests[1].path, "matrix/food.csv");
+  EXPECT_EQ(digests[1].sha256, internal::Sha256Hex(kept));
+  EXPECT_EQ(digests[2].bytes, 0);
+  EXPECT_EQ(digests[2].sha256, internal::Sha256Hex(""));
+  EXPECT_FALSE(fs::exists(folder));  // nothing in place before Commit
+  RunFolderSummary summary;
+  const OutputFile record{"run.json", "{}"};
+  ASSERT_TRUE(writer.Commit(&record, &summary, &error)) << error;
+  EXPECT_EQ(ReadTextFile(folder + "/parities.csv"), big);
+  EXPECT_EQ(ReadTextFile(folder + "/matrix/food.csv"), kept);
+  EXPECT_EQ(ReadTextFile(folder + "/empty.csv"), "");
+  EXPECT_EQ(ReadTextFile(folder + "/run.json"), "{}");
+  EXPECT_EQ(summary.num_files, 4);
+  EXPECT_EQ(summary.num_bytes, static_cast<int64_t>(big.size() + kept.size() + 2));
+  EXPECT_EQ(EntriesBeside(folder), 1);
+}
+
+TEST(RunFolderWriter, LeavesThePreviousRunWhenDroppedBeforeCommit) {
+  const std::string folder = MakeTempDir("writer_dropped") + "/out";
+  std::string error;
+  ASSERT_TRUE(Write(folder, {{"run.json", "old"}}, &error)) << error;
+  {
+    RunFolderWriter writer;
+    ASSERT_TRUE(writer.Open(folder, /*digest=*/true, &error)) << error;
+    ASSERT_TRUE(writer.BeginFile("parities.csv", &error)) << error;
+    for (int k = 0; k < 100; ++k) writer.Append(std::string(100000, 'y'));
+  }
+  EXPECT_EQ(ReadTextFile(folder + "/run.json"), "old");
+  EXPECT_FALSE(fs::exists(folder + "/parities.csv"));
+  EXPECT_EQ(EntriesBeside(folder), 1);  // the staging folder is gone
+}
+
+TEST(RunFolderWriter, RefusesARepeatedFileAndCommitsNothing) {
+  const std::string folder = MakeTempDir("writer_repeat") + "/out";
+  std::string error;
+  {
+    RunFolderWriter writer;
+    ASSERT_TRUE(writer.Open(folder, /*digest=*/false, &error)) << error;
+    ASSERT_TRUE(writer.BeginFile("matrix/a.csv", &error)) << error;
+    EXPECT_FALSE(writer.BeginFile("matrix/a.csv", &error));
+    EXPECT_EQ(error, "two outputs of this run would share the file 'matrix/a.csv'");
+    EXPECT_FALSE(writer.BeginFile("../a.csv", &error));
+    EXPECT_EQ(error, "output file name '../a.csv' is not a plain path inside the output folder");
+    EXPECT_FALSE(writer.Finish(nullptr, &error));
+    RunFolderSummary summary;
+    EXPECT_FALSE(writer.Commit(nullptr, &summary, &error));
+  }
+  EXPECT_FALSE(fs::exists(folder));
+  EXPECT_EQ(EntriesBeside(folder), 0);
+}
+
+TEST(RunFolderWriter, NamesTheFileItCannotWrite) {
+  const std::string parent = MakeTempDir("writer_blocked");
+  const std::string folder = parent + "/out";
+  std::string error;
+  RunFolderWriter writer;
+  ASSERT_TRUE(writer.Open(folder, /*digest=*/true, &error)) << error;
+  // A file where the next file's folder must go.
+  ASSERT_TRUE(writer.BeginFile("matrix", &error)) << error;
+  writer.Append("x");
+  ASSERT_TRUE(writer.BeginFile("matrix/food.csv", &error)) << error;
+  writer.Append("y");
+  EXPECT_FALSE(writer.Finish(nullptr, &error));
+  EXPECT_EQ(error.rfind(fs::absolute(folder).lexically_normal().string() + "/matrix/food.csv: cannot write file: ", 0), 0u)
+      << error;
+}
+
+TEST(FormatRowBlocks, HandsOverTheSameBlocksInRowOrderForAnyNumberOfThreads) {
+  auto format = [](int64_t row, std::string* out) { *out += std::to_string(row * 7) + "\n"; };
+  std::vector<std::string> one, many;
+  const int threads = omp_get_max_threads();
+  omp_set_num_threads(1);
+  internal::FormatRowBlocks(100000, 97, 8, format, "header\n",
+                            [&one](std::string block) { one.push_back(std::move(block)); });
+  omp_set_num_threads(4);
+  // A slow taker, so that blocks are often finished while another is taken.
+  std::mutex taking;
+  internal::FormatRowBlocks(100000, 97, 8, format, "header\n", [&](std::string block) {
+    std::lock_guard<std::mutex> lock(taking);
+    std::this_thread::sleep_for(std::chrono::microseconds(20));
+    many.push_back(std::move(block));
+  });
+  omp_set_num_threads(threads);
+  ASSERT_EQ(one.size(), 1 + (100000 + 96) / 97u);
+  EXPECT_EQ(many, one);
+  EXPECT_EQ(one[0], "header\n");
+  EXPECT_EQ(one[1].substr(0, 9), "0\n7\n14\n21");
+  EXPECT_EQ(internal::FormatRows(100000, 97, 8, format, "header\n"), internal::JoinBlocks(one));
 }
 
 TEST(RemoveRunLeftovers, RemovesStagingOfDeadRunsAndKeepsLiveOnes) {
@@ -205,6 +333,39 @@ TEST(RunCompute, WithoutWritingHandsBackTheFilesItWouldWrite) {
     EXPECT_EQ(kept.files[i].contents, ReadTextFile(config.output + "/" + kept.files[i].relative_path))
         << kept.files[i].relative_path;
   }
+}
+
+// The command line's way: the tables are streamed into the run folder and
+// their texts are not kept; the files and run.json's digests are the same.
+TEST(RunCompute, StreamsTheSameFilesWhenTheTextsAreNotKept) {
+  RunConfig config;
+  std::string error;
+  ASSERT_TRUE(LoadRunConfig(std::string(PARITAS_SOURCE_DIR) + "/config/demo.yaml", &config, &error))
+      << error;
+  const std::string parent = MakeTempDir("compute_streamed");
+  config.output = parent + "/kept";
+  ComputeJobSummary kept;
+  ASSERT_EQ(RunCompute(config, &kept), kExitOk) << kept.message;
+  config.output = parent + "/streamed";
+  ComputeJobSummary streamed;
+  JobOutputOptions output;
+  output.keep_texts = false;
+  ASSERT_EQ(RunCompute(config, &streamed, output), kExitOk) << streamed.message;
+  ASSERT_EQ(streamed.files.size(), kept.files.size());
+  for (size_t i = 0; i + 1 < kept.files.size(); ++i) {
+    EXPECT_EQ(streamed.files[i].relative_path, kept.files[i].relative_path);
+    EXPECT_TRUE(streamed.files[i].contents.empty()) << streamed.files[i].relative_path;
+    EXPECT_EQ(ReadTextFile(config.output + "/" + kept.files[i].relative_path), kept.files[i].contents)
+        << kept.files[i].relative_path;
+  }
+  const std::string kept_json = ReadTextFile(parent + "/kept/run.json");
+  const std::string streamed_json = ReadTextFile(parent + "/streamed/run.json");
+  const auto outputs = [](const std::string& json) {
+    const size_t begin = json.find("\"outputs\"");
+    return json.substr(begin, json.find(']', begin) - begin);
+  };
+  EXPECT_NE(outputs(kept_json).find("\"sha256\""), std::string::npos) << kept_json;
+  EXPECT_EQ(outputs(streamed_json), outputs(kept_json));
 }
 
 }  // namespace

@@ -45,6 +45,8 @@ void AppendFixed(double value, int decimals, std::string* out);
 // Appends the shortest text that reads back as exactly `value`; NaN appends
 // nothing.
 void AppendShortest(double value, std::string* out);
+// Appends `value` in decimal, as std::to_string does, without a temporary.
+void AppendInteger(int64_t value, std::string* out);
 // Returns AppendFixed as a string.
 std::string FormatFixed(double value, int decimals);
 

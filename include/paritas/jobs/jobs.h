@@ -100,7 +100,8 @@ struct ComputeJobSummary {
   // Every warning of the run, in listing order (also in warnings.csv).
   std::vector<RunWarning> warnings;
   // Every output file with its text, run.json last, whether written or not
-  // (JobOutputOptions::write_files); empty when the run failed.
+  // (JobOutputOptions::write_files; the texts of written files are empty
+  // when JobOutputOptions::keep_texts is false); empty when the run failed.
   std::vector<OutputFile> files;
 
   // What `paritas compute` prints on standard output: counts, the root

@@ -54,6 +54,10 @@ std::string NodeTitle(const Classification& classification, int node);
 std::string ParitiesCsv(const Survey& survey, const ParityResult& result,
                         const PlausibilityResult* plausibility = nullptr,
                         const std::string& extrapolated_to = "");
+// As ParitiesCsv, handed to `emit` in blocks as they are formatted.
+void ParitiesCsvBlocks(const Survey& survey, const ParityResult& result,
+                       const PlausibilityResult* plausibility, const std::string& extrapolated_to,
+                       const TextBlocks& emit);
 
 // matrix/<node>.csv: header `region,` then the region codes (regions with a
 // parity); cell (a, b) = 100 x parity(b) / parity(a).

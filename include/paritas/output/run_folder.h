@@ -11,7 +11,9 @@
 
 #include <cstdint>
 #include <functional>
+#include <memory>
 #include <string>
+#include <string_view>
 #include <vector>
 
 namespace paritas {
@@ -23,6 +25,17 @@ struct OutputFile {
   std::string contents;
 };
 
+// Takes a file's text block by block, in order (the blocks joined are the
+// file), e.g. into RunFolderWriter::Append.
+using TextBlocks = std::function<void(std::string block)>;
+
+// A file of a run with its size and SHA-256, for the run record.
+struct OutputDigest {
+  std::string path;  // relative to the output folder
+  int64_t bytes = 0;
+  std::string sha256;  // 64 lowercase hex digits
+};
+
 // How a job hands over its output files.
 struct JobOutputOptions {
   // Writes the run folder (default true, as the command line does). False
@@ -30,6 +43,12 @@ struct JobOutputOptions {
   // handed back in the job's summary only (`files`), as the Python module
   // takes them.
   bool write_files = true;
+  // Keeps every file's text in the job's summary (`files`) besides writing
+  // it (default true, as the Python module takes them). False (the command
+  // line) streams the large tables into the run folder block by block and
+  // keeps only the paths: no file is ever held whole, which lowers the peak.
+  // Without write_files the texts are always kept.
+  bool keep_texts = true;
 };
 
 // What a swap did, for the run record and the terminal.
@@ -61,6 +80,51 @@ bool WriteRunFolder(const std::string& folder, const std::vector<OutputFile>& fi
 bool WriteRunFolder(const std::string& folder, const std::vector<OutputFile>& files,
                     const std::function<OutputFile()>& make_last, RunFolderSummary* summary,
                     std::string* error);
+
+// Writes a run folder as its files are made, with the same checks and the
+// same whole-or-nothing swap as WriteRunFolder: Open makes the staging
+// folder; each file's text is handed over in blocks, in order, and written
+// on a thread of its own (and digested on another) while the caller makes
+// the next blocks, so the kernel's copy into the page cache overlaps the formatting;
+// Finish waits for them; Commit writes the last file (run.json) and swaps
+// the folder into place. A writer destroyed without a successful Commit
+// removes its staging folder, and a killed process leaves only a staging
+// folder that the next run removes: the previous run stays as it was.
+class RunFolderWriter {
+ public:
+  RunFolderWriter();
+  ~RunFolderWriter();
+  RunFolderWriter(const RunFolderWriter&) = delete;
+  RunFolderWriter& operator=(const RunFolderWriter&) = delete;
+
+  // Checks `folder` as WriteRunFolder does, removes staging folders of
+  // killed runs and makes this run's. `digest` asks for each file's SHA-256
+  // (Finish). False with a message when the folder may not be written.
+  bool Open(const std::string& folder, bool digest, std::string* error);
+  // Starts the file `relative_path` (the one before it ends). False with a
+  // message, and nothing more accepted, for an unsafe path or a repeat.
+  bool BeginFile(const std::string& relative_path, std::string* error);
+  // Appends a block to the file begun last. Waits while more than
+  // kMaxQueuedBytes of blocks are waiting to be written.
+  void Append(std::string block);
+  // As Append, for text the caller keeps unchanged until Finish returns.
+  void AppendUnowned(std::string_view text);
+  // Waits until every file begun is written. Returns false with the first
+  // failure ("<path>: cannot write file: <reason>"); else the digests (when
+  // asked for in Open) in the order the files were begun.
+  bool Finish(std::vector<OutputDigest>* digests, std::string* error);
+  // After a successful Finish: writes `last` when given (its path must be
+  // new) and swaps the staging folder into place.
+  bool Commit(const OutputFile* last, RunFolderSummary* summary, std::string* error);
+
+  // Blocks waiting to be written hold at most this many bytes (owned ones).
+  static constexpr size_t kMaxQueuedBytes = size_t{64} << 20;
+
+ private:
+  // The staging folder, the queue and the writing thread (run_folder.cc).
+  struct State;
+  std::unique_ptr<State> state_;
+};
 
 // Removes staging folders of runs of `folder` whose process no longer runs.
 // Returns how many were removed.

@@ -25,13 +25,6 @@ struct StageTiming {
   double seconds = 0.0;
 };
 
-// A file written by the run, so that every file can be traced to it.
-struct OutputDigest {
-  std::string path;  // relative to the output folder
-  int64_t bytes = 0;
-  std::string sha256;  // 64 lowercase hex digits
-};
-
 // Digests of the files of a run, in the order given.
 std::vector<OutputDigest> DigestOutputs(const std::vector<OutputFile>& files);
 

@@ -11,6 +11,7 @@
 #include <vector>
 
 #include "paritas/compute/compute.h"
+#include "paritas/output/run_folder.h"
 #include "paritas/survey/config.h"
 #include "paritas/survey/survey.h"
 
@@ -186,9 +187,13 @@ OutlierReport FindOutliers(const Survey& survey, const ParityResult& result,
 // first; then one row per cell that is not screenable, with predicted, ratio
 // and standardised_residual empty.
 std::string OutliersCsv(const Survey& survey, const OutlierReport& report);
+// As OutliersCsv, handed to `emit` in blocks as they are formatted.
+void OutliersCsvBlocks(const Survey& survey, const OutlierReport& report, const TextBlocks& emit);
 // dispersion.csv: heading,region,num_items,rms_log_residual,
 // max_abs_log_residual,num_flagged.
 std::string DispersionCsv(const Survey& survey, const OutlierReport& report);
+// As DispersionCsv, handed to `emit` in blocks as they are formatted.
+void DispersionCsvBlocks(const Survey& survey, const OutlierReport& report, const TextBlocks& emit);
 
 }  // namespace paritas
 

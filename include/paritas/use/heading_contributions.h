@@ -41,6 +41,7 @@
 #include <vector>
 
 #include "paritas/compute/compute.h"
+#include "paritas/output/run_folder.h"
 #include "paritas/survey/config.h"
 #include "paritas/survey/survey.h"
 
@@ -101,6 +102,9 @@ ContributionTable HeadingContributions(const Survey& survey, const ParityResult&
 // rows for a region sum (log_contribution) to ln(parity / 100) in
 // parities.csv. Numbers in shortest exact form.
 std::string ContributionsCsv(const Survey& survey, const ContributionTable& table);
+// As ContributionsCsv, handed to `emit` in blocks as they are formatted.
+void ContributionsCsvBlocks(const Survey& survey, const ContributionTable& table,
+                            const TextBlocks& emit);
 
 }  // namespace paritas
 
