@@ -1,8 +1,5 @@
 // Cells are built by counting sort of the quotes on dense indices: linear in
 // the number of quotes, and a stable order that is the same on every run.
-// Repeated rows are found there too, among the quotes of each cell (a
-// separate search over all the quotes, scattering (hash, quote) pairs into
-// buckets, took 4 % of a run's CPU and 8 bytes per quote of fresh memory).
 #include "survey/cell_prices.h"
 
 #include <sys/mman.h>
@@ -17,54 +14,6 @@
 
 namespace paritas::internal {
 namespace {
-
-// What the cells stage needs to find repeated rows: each quote's row hash
-// (null: no search) and whether the repeats are left out of the cells.
-struct RepeatContext {
-  const uint64_t* hash = nullptr;
-  bool leave_out = false;
-};
-
-// Finds the repeats among the k >= 2 quotes of one cell, quote[j] in file
-// order with ln price value[j]: a quote repeats the first earlier one of
-// equal ln price and row hash (which repeats none: equality is
-// transitive). Sets (*repeat)[j] for each, and appends them with their
-// originals to *found. A few quotes are compared pair by pair, hashes read
-// only for equal prices; a large cell is sorted instead.
-void FindCellRepeats(const uint32_t* quote, const double* value, size_t k, const uint64_t* hash,
-                     std::vector<uint8_t>* repeat, std::vector<RepeatedQuote>* found) {
-  repeat->assign(k, 0);
-  constexpr size_t kPairwise = 32;
-  if (k <= kPairwise) {
-    for (size_t j = 1; j < k; ++j) {
-      for (size_t i = 0; i < j; ++i) {
-        if ((*repeat)[i] == 0 && value[i] == value[j] && hash[quote[i]] == hash[quote[j]]) {
-          (*repeat)[j] = 1;
-          found->emplace_back(quote[j], quote[i]);
-          break;
-        }
-      }
-    }
-    return;
-  }
-  std::vector<uint32_t> order(k);
-  std::iota(order.begin(), order.end(), 0u);
-  const auto before = [&](uint32_t a, uint32_t b) {
-    if (value[a] != value[b]) return value[a] < value[b];
-    if (hash[quote[a]] != hash[quote[b]]) return hash[quote[a]] < hash[quote[b]];
-    return a < b;
-  };
-  std::sort(order.begin(), order.end(), before);
-  for (size_t at = 1, first = 0; at < k; ++at) {
-    const uint32_t a = order[first], b = order[at];
-    if (value[a] == value[b] && hash[quote[a]] == hash[quote[b]]) {
-      (*repeat)[b] = 1;
-      found->emplace_back(quote[b], quote[a]);
-    } else {
-      first = at;
-    }
-  }
-}
 
 // Appends one cell to the arrays.
 void AppendCell(int32_t region, int32_t item, const CellMoments& moments, bool weighted,
@@ -149,11 +98,9 @@ int64_t BitsBefore(const uint64_t* bits, const std::vector<int64_t>& word_rank, 
   return word_rank[k >> 6] + std::popcount(below);
 }
 
-// The quotes of each item, in file order: region, ln price, flag, weight,
-// quote index.
+// The quotes of each item, in file order: region, ln price, flag, weight.
 struct ItemBuckets {
   std::vector<int64_t> start;  // item i holds [start[i], start[i + 1])
-  std::unique_ptr<uint32_t[]> quote;  // null without a search for repeats
   std::unique_ptr<int32_t[]> region;
   std::unique_ptr<double[]> value;
   std::unique_ptr<uint8_t[]> flag;     // null without flags
@@ -168,21 +115,16 @@ struct ItemScratch {
   std::vector<int32_t> region;
   std::vector<double> value, weight;
   std::vector<uint8_t> flag;
-  std::vector<uint32_t> quote;  // searching for repeats only
-  std::vector<uint8_t> repeat;  // per quote of a cell: a repeat
-  std::vector<RepeatedQuote> found;
 };
 
 // Writes the cells of item `i` from its bucket to cells [c, ...): a stable
 // counting sort by region within the item (its quotes stay in file order),
-// then each cell's repeats and moments.
+// then each cell's moments.
 void WriteItemCells(const ItemBuckets& buckets, const uint64_t* bits, int num_regions, int32_t i,
-                    int64_t c, const RepeatContext& repeats, ItemScratch* scratch,
-                    CellPrices* cells) {
+                    int64_t c, ItemScratch* scratch, CellPrices* cells) {
   const int64_t begin = buckets.start[i], end = buckets.start[i + 1];
   if (begin == end) return;
   const bool flagged = buckets.flag != nullptr, weighted = buckets.weight != nullptr;
-  const bool search = repeats.hash != nullptr;
   int64_t* slot = scratch->slot.data();
   for (int64_t a = begin; a < end; ++a) ++slot[buckets.region[a]];
   scratch->region.clear();
@@ -202,26 +144,16 @@ void WriteItemCells(const ItemBuckets& buckets, const uint64_t* bits, int num_re
     scratch->value.resize(n);
     if (flagged) scratch->flag.resize(n);
     if (weighted) scratch->weight.resize(n);
-    if (search) scratch->quote.resize(n);
   }
   for (int64_t a = begin; a < end; ++a) {
     const int64_t at = slot[buckets.region[a]]++;
     scratch->value[at] = buckets.value[a];
     if (flagged) scratch->flag[at] = buckets.flag[a];
     if (weighted) scratch->weight[at] = buckets.weight[a];
-    if (search) scratch->quote[at] = buckets.quote[a];
   }
   for (size_t j = 0; j < scratch->region.size(); ++j, ++c) {
-    const int64_t first = scratch->first[j], k = scratch->first[j + 1] - first;
-    const bool has_repeats = search && k >= 2;
-    if (has_repeats) {
-      FindCellRepeats(scratch->quote.data() + first, scratch->value.data() + first,
-                      static_cast<size_t>(k), repeats.hash, &scratch->repeat, &scratch->found);
-    }
-    const bool skip = has_repeats && repeats.leave_out;
     CellMoments moments;
-    for (int64_t at = first; at < first + k; ++at) {
-      if (skip && scratch->repeat[at - first] != 0) continue;
+    for (int64_t at = scratch->first[j]; at < scratch->first[j + 1]; ++at) {
       if (weighted) {
         moments.AddWeighted(scratch->value[at], flagged && scratch->flag[at] != 0,
                             scratch->weight[at]);
@@ -252,8 +184,7 @@ void WriteItemCells(const ItemBuckets& buckets, const uint64_t* bits, int num_re
 // A bit per key, set while counting, says which cells exist, so every
 // item knows where its cells go before any is written.
 void CellsByDenseKey(QuoteArrays* quote_arrays, int num_regions, int num_items, int num_threads,
-                     const RepeatContext& repeats, CellPrices* cells,
-                     std::vector<RepeatedQuote>* found) {
+                     CellPrices* cells) {
   const QuoteArrays& quotes = *quote_arrays;
   const int64_t n = static_cast<int64_t>(quotes.size());
   const int64_t num_keys = static_cast<int64_t>(num_regions) * num_items;
@@ -307,13 +238,11 @@ void CellsByDenseKey(QuoteArrays* quote_arrays, int num_regions, int num_items, 
   buckets.value = UninitialisedArray<double>(n);
   if (flagged) buckets.flag = UninitialisedArray<uint8_t>(n);
   if (weighted) buckets.weight = UninitialisedArray<double>(n);
-  if (repeats.hash != nullptr) buckets.quote = UninitialisedArray<uint32_t>(n);
 #pragma omp parallel for schedule(static, 1) num_threads(threads)
   for (int t = 0; t < threads; ++t) {
     int64_t* next = count[t].data();
     for (int64_t q = quote_begin[t]; q < quote_begin[t + 1]; ++q) {
       const int64_t at = next[quote_item[q]]++;
-      if (buckets.quote != nullptr) buckets.quote[at] = static_cast<uint32_t>(q);
       buckets.region[at] = quote_region[q];
       buckets.value[at] = quotes.log_price[q];
       if (flagged) buckets.flag[at] = quotes.representative[q];
@@ -344,7 +273,6 @@ void CellsByDenseKey(QuoteArrays* quote_arrays, int num_regions, int num_items, 
         buckets.start.begin());
     item_begin[t] = std::max(item_begin[t], item_begin[t - 1]);
   }
-  std::vector<std::vector<RepeatedQuote>> found_by(threads);
 #pragma omp parallel for schedule(static, 1) num_threads(threads)
   for (int t = 0; t < threads; ++t) {
     ItemScratch scratch;
@@ -353,20 +281,14 @@ void CellsByDenseKey(QuoteArrays* quote_arrays, int num_regions, int num_items, 
     scratch.first.reserve(num_regions + 1);
     for (int32_t i = item_begin[t]; i < item_begin[t + 1]; ++i) {
       const int64_t c = BitsBefore(seen, word_rank, static_cast<int64_t>(i) * num_regions);
-      WriteItemCells(buckets, seen, num_regions, i, c, repeats, &scratch, cells);
+      WriteItemCells(buckets, seen, num_regions, i, c, &scratch, cells);
     }
-    found_by[t] = std::move(scratch.found);
-  }
-  for (const std::vector<RepeatedQuote>& part : found_by) {
-    found->insert(found->end(), part.begin(), part.end());
   }
 }
 
 // Two stable counting sorts (by region, then by item) of quote positions,
 // for key ranges too large to count densely.
-void CellsBySortedPositions(const QuoteArrays& quotes, int num_regions, int num_items,
-                            const RepeatContext& repeats, CellPrices* cells,
-                            std::vector<RepeatedQuote>* found) {
+void CellsBySortedPositions(const QuoteArrays& quotes, int num_regions, int num_items, CellPrices* cells) {
   const int64_t n = static_cast<int64_t>(quotes.size());
   std::vector<uint32_t> by_region(n), order(n);
   {
@@ -390,58 +312,35 @@ void CellsBySortedPositions(const QuoteArrays& quotes, int num_regions, int num_
   ReserveCells(num_cells, cells);
   const bool weighted = !quotes.weight.empty();
   if (weighted) cells->weight.reserve(num_cells);
-  std::vector<double> value;
-  std::vector<uint8_t> repeat;
-  for (int64_t begin = 0, end = 0; begin < n; begin = end) {
-    const uint32_t q0 = order[begin];
-    const int32_t region = quotes.region[q0], item = quotes.item[q0];
-    end = begin + 1;
-    while (end < n && quotes.region[order[end]] == region && quotes.item[order[end]] == item) ++end;
-    const size_t k = static_cast<size_t>(end - begin);
-    const bool has_repeats = repeats.hash != nullptr && k >= 2;
-    if (has_repeats) {
-      value.resize(k);
-      for (size_t j = 0; j < k; ++j) value[j] = quotes.log_price[order[begin + j]];
-      FindCellRepeats(order.data() + begin, value.data(), k, repeats.hash, &repeat, found);
+  CellMoments moments;
+  int32_t region = -1, item = -1;
+  for (uint32_t q : order) {
+    if (quotes.region[q] != region || quotes.item[q] != item) {
+      if (moments.num_quotes > 0) AppendCell(region, item, moments, weighted, cells);
+      moments = CellMoments();
+      region = quotes.region[q];
+      item = quotes.item[q];
     }
-    CellMoments moments;
-    for (size_t j = 0; j < k; ++j) {
-      if (has_repeats && repeats.leave_out && repeat[j] != 0) continue;
-      AddQuote(quotes, order[begin + j], &moments);
-    }
-    AppendCell(region, item, moments, weighted, cells);
+    AddQuote(quotes, q, &moments);
   }
+  if (moments.num_quotes > 0) AppendCell(region, item, moments, weighted, cells);
 }
 
 }  // namespace
 
 void CellsFromQuotes(QuoteArrays* quotes_in, int num_regions, int num_items, int num_threads,
-                     CellPrices* cells, RepeatSearch* search) {
+                     CellPrices* cells) {
   const QuoteArrays& quotes = *quotes_in;
   *cells = CellPrices();
-  // The row hashes are read until the cells are written, after the other
-  // quote arrays are gone.
-  UninitialisedVector<uint64_t> hash;
-  RepeatContext repeats;
-  std::vector<RepeatedQuote> found;
-  if (search != nullptr) {
-    hash.swap(quotes_in->row_hash);
-    repeats.hash = hash.data();
-    repeats.leave_out = search->leave_out;
-  }
   // A dense count array costs 4 bytes per possible cell: worth it up to a
   // few times the number of quotes.
   const int64_t num_keys = static_cast<int64_t>(num_regions) * num_items;
   if (num_keys <= std::max<int64_t>(4 * static_cast<int64_t>(quotes.size()), 1 << 20)) {
-    CellsByDenseKey(quotes_in, num_regions, num_items, num_threads, repeats, cells, &found);
+    CellsByDenseKey(quotes_in, num_regions, num_items, num_threads, cells);
   } else {
-    CellsBySortedPositions(quotes, num_regions, num_items, repeats, cells, &found);
+    CellsBySortedPositions(quotes, num_regions, num_items, cells);
   }
   *quotes_in = QuoteArrays();
-  if (search != nullptr) {
-    std::sort(found.begin(), found.end());
-    search->repeats = std::move(found);
-  }
 }
 
 void FillHeadingRanges(Survey* survey) {

@@ -5,7 +5,6 @@
 #include <algorithm>
 #include <cmath>
 #include <cstdint>
-#include <utility>
 #include <vector>
 
 #include "base/uninitialised_vector.h"
@@ -78,26 +77,11 @@ struct QuoteArrays {
   // quote of a file without one weighs 1).
   UninitialisedVector<double> weight;
   // Hash of the row's fields (all columns), for finding rows repeated field
-  // for field as the cells are built (the rows' lines are kept apart, in
-  // runs: LoadState::quote_lines).
+  // for field (the rows' lines are kept apart, in runs: LoadState::
+  // quote_lines); emptied once duplicates are handled.
   UninitialisedVector<uint64_t> row_hash;
 
   size_t size() const { return region.size(); }
-};
-
-// A quote that repeats an earlier quote row field for field, and that
-// row's quote (the first of the rows equal to it): quote indices in file order.
-using RepeatedQuote = std::pair<uint32_t, uint32_t>;
-
-// The search for repeated rows done while the cells are built: rows equal
-// field for field share a cell (region and item) and ln price, so they are
-// found among the quotes of each cell, which the cells stage has in file
-// order anyway. Within a cell, a quote repeats the first earlier one of
-// equal ln price and row hash.
-struct RepeatSearch {
-  bool leave_out = false;  // true: the repeats are left out of the cells
-  // Filled: the repeats with the quotes they repeat, in quote order.
-  std::vector<RepeatedQuote> repeats;
 };
 
 // Builds the survey's cell arrays from the quotes: a stable counting sort on
@@ -105,13 +89,12 @@ struct RepeatSearch {
 // order, and each cell's moments are accumulated in that order, so cells do
 // not depend on how the file was split for parsing. Items must already be
 // ordered by heading. Linear in the number of quotes; `num_threads` (>= 1)
-// threads share the work without changing the result. With `search` (which
-// needs quotes->row_hash), finds the repeated rows as well. Empties
-// `quotes`, as soon as they are no longer needed (before the cell arrays are
-// allocated when the cells are counted densely), so that quotes and cells
-// are not held at once.
+// threads share the work without changing the result. Empties `quotes`, as
+// soon as they are no longer needed (before the cell arrays are allocated
+// when the cells are counted densely), so that quotes and cells are not held
+// at once.
 void CellsFromQuotes(QuoteArrays* quotes, int num_regions, int num_items, int num_threads,
-                     CellPrices* cells, RepeatSearch* search = nullptr);
+                     CellPrices* cells);
 
 // Fills survey->heading_range from the sorted cells and item_heading.
 void FillHeadingRanges(Survey* survey);

@@ -1,22 +1,210 @@
-// What becomes of repeated quote rows under the chosen policy. The rows are
-// found as the cells are built (cell_prices.cc): rows equal field for field
-// share a cell, whose quotes that stage has together in file order, so the
-// earliest row of each run is the one kept whatever the order the file was
-// parsed in, and the repeats are left out of the cells there.
+// Repeated quote rows are found among quotes of equal row hash, taken in
+// file order, so the earliest row of each run is the one kept whatever the
+// order the file was parsed in. The (hash, position) pairs are first
+// distributed by the top bits of the hash (a stable counting pass, in
+// parallel over the quotes); each bucket, a few thousand pairs in file
+// order, is then settled with a hash table that fits the cache: linear time,
+// and the same repeats as scanning all pairs sorted by (hash, position). A
+// pair holds the quote and the low half of its hash (8 bytes, the whole
+// hash read only when two halves match); on a large survey the buckets are
+// taken in two passes, so only half of the pairs is held at once.
+#include <omp.h>
+
 #include <algorithm>
 #include <cstdint>
+#include <memory>
 #include <string>
 #include <utility>
 #include <vector>
 
+#include "base/huge_pages.h"
 #include "paritas/base/text.h"
 #include "survey/loader_state.h"
 
 namespace paritas::internal {
+namespace {
 
-void HandleDuplicateQuotes(DuplicateQuotePolicy policy, const std::vector<RepeatedQuote>& repeats,
-                           size_t price_rows_kept, LoadState* state, Rejections* rejections,
-                           const std::vector<InputFileSummary*>& files, LoadSummary* summary) {
+constexpr uint32_t kNone = UINT32_MAX;
+
+// A quote that repeats an earlier one, its original.
+using Repeat = std::pair<uint32_t, uint32_t>;
+
+// Leaves out the quotes `repeats` names first (in quote order), keeping the
+// others in order: the runs between them are moved down.
+void CompactQuotes(const std::vector<Repeat>& repeats, QuoteArrays* quotes) {
+  const size_t n = quotes->size();
+  const auto compact = [&repeats, n](auto& array) {
+    if (array.empty()) return;
+    size_t out = repeats.front().first;
+    for (size_t k = 0; k < repeats.size(); ++k) {
+      const size_t from = repeats[k].first + 1;
+      const size_t to = k + 1 < repeats.size() ? repeats[k + 1].first : n;
+      std::copy(array.begin() + from, array.begin() + to, array.begin() + out);
+      out += to - from;
+    }
+    array.resize(out);
+  };
+  compact(quotes->region);
+  compact(quotes->item);
+  compact(quotes->log_price);
+  compact(quotes->representative);
+  compact(quotes->weight);
+}
+
+// A quote and the low 32 bits of its row hash (its bucket stands for the
+// top bits); no initialiser, so an array of them is not zero-filled (its
+// pages are first touched by the threads that fill it). Quotes whose keys
+// are equal are told apart by their whole hashes, read only then.
+struct HashedQuote {
+  uint32_t key;    // low 32 bits of the row hash
+  uint32_t quote;  // quote index
+};
+
+// A slot of MarkRepeats' table: a hash's latest quote and that quote's
+// original (itself when it repeats none).
+struct LatestQuote {
+  uint32_t key;
+  uint32_t quote;
+  uint32_t original;
+};
+
+// Adds to *repeats each quote of a bucket (`order`, in quote order) that
+// repeats an earlier one: among the quotes of equal hash, in quote order, a
+// quote repeats the original of the one before it (that quote's own
+// original when it is a repeat, else that quote) when region, item and ln
+// price are equal too. This is the scan of all pairs sorted by (hash,
+// index), found through a small hash table of each hash's latest quote
+// instead of a sort. `table` is scratch.
+void MarkRepeats(const QuoteArrays& quotes, const HashedQuote* order, size_t n,
+                 std::vector<LatestQuote>* table, std::vector<Repeat>* repeats) {
+  size_t slots = 16;
+  while (slots < 2 * n) slots *= 2;
+  table->assign(slots, {0, kNone, kNone});
+  const size_t mask = slots - 1;
+  const UninitialisedVector<uint64_t>& hash = quotes.row_hash;
+  for (size_t k = 0; k < n; ++k) {
+    const auto [key, q] = order[k];
+    size_t slot = key & mask;
+    for (;; slot = (slot + 1) & mask) {
+      const LatestQuote& entry = (*table)[slot];
+      if (entry.quote == kNone || (entry.key == key && hash[entry.quote] == hash[q])) break;
+    }
+    LatestQuote& latest = (*table)[slot];
+    uint32_t original = q;
+    if (latest.quote != kNone) {
+      const uint32_t first = latest.original;
+      if (quotes.region[q] == quotes.region[first] && quotes.item[q] == quotes.item[first] &&
+          quotes.log_price[q] == quotes.log_price[first]) {
+        repeats->emplace_back(q, first);
+        original = first;
+      }
+    }
+    latest = {key, q, original};
+  }
+}
+
+// Splits the buckets into at most `max_passes` consecutive ranges of about
+// equal pairs (whole buckets each); returns the first bucket of each range
+// and, last, the number of buckets.
+std::vector<size_t> PassBoundaries(const std::vector<size_t>& bucket_begin, int max_passes) {
+  const size_t num_buckets = bucket_begin.size() - 1, n = bucket_begin[num_buckets];
+  std::vector<size_t> first = {0};
+  for (int p = 1; p < max_passes; ++p) {
+    const size_t target = n * p / max_passes;
+    size_t b = static_cast<size_t>(
+        std::lower_bound(bucket_begin.begin(), bucket_begin.end() - 1, target) -
+        bucket_begin.begin());
+    if (b > first.back() && b < num_buckets) first.push_back(b);
+  }
+  first.push_back(num_buckets);
+  return first;
+}
+
+// Returns the quotes that repeat an earlier one with their originals, in
+// quote order. The pairs are
+// distributed and settled in passes over ranges of buckets (each pass scans
+// all the hashes and takes the pairs of its buckets), so that only half of
+// them is held at once on a large survey: 28 MB of 8-byte pairs instead of
+// 56 for 7 million quotes.
+std::vector<Repeat> FindRepeats(const QuoteArrays& quotes, int num_threads) {
+  const size_t n = quotes.size();
+  const UninitialisedVector<uint64_t>& hash = quotes.row_hash;
+  // Buckets of about 2,000 pairs (32 KB), at most 2^16 of them.
+  int bits = 0;
+  while (bits < 16 && (n >> bits) > 2048) ++bits;
+  const size_t num_buckets = size_t{1} << bits;
+  const auto bucket_of = [bits](uint64_t h) { return bits == 0 ? 0 : h >> (64 - bits); };
+  num_threads = std::max(1, std::min(num_threads, static_cast<int>(n / 65536) + 1));
+  const int max_passes = n >= (size_t{1} << 20) ? 2 : 1;
+  // counts[t][b]: pairs of thread t's quotes in bucket b, then where they go
+  // (counted from the first pair of the bucket's pass).
+  std::vector<std::vector<size_t>> counts(num_threads, std::vector<size_t>(num_buckets, 0));
+  std::unique_ptr<HashedQuote[]> order;
+  std::vector<std::vector<Repeat>> found(num_threads);
+  std::vector<size_t> bucket_begin(num_buckets + 1, 0);
+  std::vector<size_t> pass_first;  // first bucket of each pass, then num_buckets
+#pragma omp parallel num_threads(num_threads)
+  {
+    const int t = omp_get_thread_num();
+    // Contiguous ranges of quotes in thread order keep each bucket in
+    // quote order (a stable distribution).
+    const size_t from = n * t / num_threads, to = n * (t + 1) / num_threads;
+    std::vector<size_t>& mine = counts[t];
+    for (size_t q = from; q < to; ++q) ++mine[bucket_of(hash[q])];
+#pragma omp barrier
+#pragma omp single
+    {
+      size_t at = 0;
+      for (size_t b = 0; b < num_buckets; ++b) {
+        bucket_begin[b] = at;
+        for (int u = 0; u < num_threads; ++u) {
+          const size_t count = counts[u][b];
+          counts[u][b] = at;
+          at += count;
+        }
+      }
+      bucket_begin[num_buckets] = at;
+      pass_first = PassBoundaries(bucket_begin, max_passes);
+      size_t largest = 0;
+      for (size_t p = 0; p + 1 < pass_first.size(); ++p) {
+        largest = std::max(largest, bucket_begin[pass_first[p + 1]] - bucket_begin[pass_first[p]]);
+      }
+      order = std::make_unique_for_overwrite<HashedQuote[]>(largest);
+      AdviseHugePages(order.get(), largest * sizeof(HashedQuote));
+    }
+    // Equal hashes share a bucket, so each bucket is settled alone.
+    std::vector<LatestQuote> table;
+    for (size_t p = 0; p + 1 < pass_first.size(); ++p) {
+      const size_t first = pass_first[p], last = pass_first[p + 1];
+      const size_t base = bucket_begin[first];
+      for (size_t q = from; q < to; ++q) {
+        const size_t b = bucket_of(hash[q]);
+        if (b >= first && b < last) {
+          order[mine[b]++ - base] = {static_cast<uint32_t>(hash[q]), static_cast<uint32_t>(q)};
+        }
+      }
+#pragma omp barrier
+#pragma omp for schedule(dynamic, 64)
+      for (size_t b = first; b < last; ++b) {
+        MarkRepeats(quotes, order.get() + (bucket_begin[b] - base),
+                    bucket_begin[b + 1] - bucket_begin[b], &table, &found[t]);
+      }
+      // The implicit barrier of the loop: the pass's pairs are settled
+      // before the next pass overwrites them.
+    }
+  }
+  std::vector<Repeat> repeats;
+  for (std::vector<Repeat>& part : found) repeats.insert(repeats.end(), part.begin(), part.end());
+  std::sort(repeats.begin(), repeats.end());
+  return repeats;
+}
+
+}  // namespace
+
+void HandleDuplicateQuotes(DuplicateQuotePolicy policy, int num_threads, LoadState* state,
+                           Rejections* rejections, const std::vector<InputFileSummary*>& files,
+                           LoadSummary* summary) {
+  QuoteArrays& quotes = state->quotes;
   const std::vector<size_t>& begin = state->quote_file_begin;
   // The price file of quote q (quotes are in the order read).
   auto file_of = [&begin](size_t q) {
@@ -24,7 +212,7 @@ void HandleDuplicateQuotes(DuplicateQuotePolicy policy, const std::vector<Repeat
            1;
   };
   summary->duplicate_policy = policy;
-  std::vector<RejectedRow> rejected;
+  const std::vector<Repeat> repeats = FindRepeats(quotes, num_threads);
   for (const auto& [q, repeated_quote] : repeats) {
     const int64_t line = state->quote_lines.Of(q);
     const int64_t original = state->quote_lines.Of(repeated_quote);
@@ -44,17 +232,21 @@ void HandleDuplicateQuotes(DuplicateQuotePolicy policy, const std::vector<Repeat
     if (policy == DuplicateQuotePolicy::kDrop) {
       ++file->rows_rejected;
     } else {
-      rejections->Count(1, file);
-      if (rejections->KeepsRow(RejectionCause::kRow, price_rows_kept + rejected.size())) {
-        rejected.push_back({path, line,
-                            LocatedMessage(path, line, 0,
-                                           "the row repeats " + repeated +
-                                               " field for field (duplicate_quotes: reject)"),
-                            ""});
-      }
+      rejections->Add({path, line,
+                       LocatedMessage(path, line, 0,
+                                      "the row repeats " + repeated +
+                                          " field for field (duplicate_quotes: reject)"),
+                       ""},
+                      file);
     }
   }
-  rejections->InsertCounted(price_rows_kept, std::move(rejected));
+  if (policy != DuplicateQuotePolicy::kKeep && summary->num_duplicate_quotes > 0) {
+    CompactQuotes(repeats, &quotes);
+  }
+  // Released, not just emptied: `vector = {}` would assign an empty list
+  // and keep the 16 bytes per quote allocated (and resident) until the
+  // cells are built.
+  UninitialisedVector<uint64_t>().swap(quotes.row_hash);
   state->quote_lines = QuoteLines();
 }
 

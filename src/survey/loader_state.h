@@ -8,7 +8,6 @@
 #include <algorithm>
 #include <cstddef>
 #include <cstdint>
-#include <iterator>
 #include <string>
 #include <set>
 #include <string_view>
@@ -48,20 +47,6 @@ class Rejections {
     Count(1, file, row.cause);
     if (KeepsRow(row.cause, summary_->rejected_rows.size())) {
       summary_->rejected_rows.push_back(std::move(row));
-    }
-  }
-
-  // Adds rows counted already (with Count) to the kept rows at position
-  // `at`, where they would have been kept had they been added when `at`
-  // rows were kept: under kStop the first max_reported_rows stay in all.
-  // The rows are not of rejected codes.
-  void InsertCounted(size_t at, std::vector<RejectedRow> rows) {
-    std::vector<RejectedRow>& kept = summary_->rejected_rows;
-    kept.insert(kept.begin() + static_cast<std::ptrdiff_t>(at),
-                std::make_move_iterator(rows.begin()), std::make_move_iterator(rows.end()));
-    if (options_.invalid_rows != InvalidRowPolicy::kSkip) {
-      const size_t most = static_cast<size_t>(std::max(options_.max_reported_rows, 0));
-      if (kept.size() > most) kept.resize(most);
     }
   }
 
@@ -165,7 +150,7 @@ struct LoadState {
   std::vector<double> item_reference_quantity;
   bool has_catalog = false;
   // Quotes used, in file order, with state indices of region and item, and
-  // their lines (until repeated rows are handled).
+  // their lines (until duplicates are handled).
   QuoteArrays quotes;
   QuoteLines quote_lines;
   int64_t num_quotes = 0;
@@ -244,22 +229,20 @@ bool ReadExpenditure(const std::string& path, LoadState* state, Rejections* reje
 // regions and headings must be known from the files read before it.
 bool ReadExternalParities(const std::string& path, LoadState* state, Rejections* rejections,
                           InputFileSummary* file, std::string* error);
-// Applies `policy` to the quote rows that repeat an earlier row field for
-// field, in the same price file or an earlier one (columns matched by name),
-// found as the cells were built (`repeats`, in quote order; empty when no
-// cells were built): keep counts them; drop leaves the repeats out (counted
-// as rejected rows of their file, not as invalid rows); reject rejects each
-// repeat as an invalid row naming the line it repeats, listed after the
-// rejected rows of the price files (the first `price_rows_kept` rows kept).
-// `files` are the price files' summaries in the order read
-// (state->quote_file_begin). Empties the quotes' lines.
-void HandleDuplicateQuotes(DuplicateQuotePolicy policy, const std::vector<RepeatedQuote>& repeats,
-                           size_t price_rows_kept, LoadState* state, Rejections* rejections,
-                           const std::vector<InputFileSummary*>& files, LoadSummary* summary);
+// Finds quote rows repeating an earlier row field for field, in the same
+// price file or an earlier one (columns matched by name), and applies
+// `policy`: keep counts them; drop leaves the repeats out (counted as
+// rejected rows of their file, not as invalid rows); reject rejects each
+// repeat as an invalid row naming the line it repeats. `files` are the price
+// files' summaries in the order read (state->quote_file_begin). Empties the
+// row hashes and lines of the quotes. Uses up to `num_threads` (>= 1)
+// threads; the result does not depend on their number.
+void HandleDuplicateQuotes(DuplicateQuotePolicy policy, int num_threads, LoadState* state,
+                           Rejections* rejections, const std::vector<InputFileSummary*>& files,
+                           LoadSummary* summary);
 // Orders regions, headings and items, builds the cells from the quotes
-// (which it empties; finding repeated rows with `search` when given, which
-// needs the quotes' row hashes) and fills the expenditure table.
-void BuildSurvey(LoadState* state, int num_threads, Survey* survey, RepeatSearch* search);
+// (which it empties) and fills the expenditure table.
+void BuildSurvey(LoadState* state, int num_threads, Survey* survey);
 
 }  // namespace paritas::internal
 

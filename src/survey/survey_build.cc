@@ -97,10 +97,9 @@ std::vector<int> OrderItems(const LoadState& state, const std::vector<int>& head
 }
 
 // Renumbers the quotes to the survey's regions and items and builds the
-// cells from them (finding repeated rows with `search`); the quotes are
-// released.
+// cells from them; the quotes are released.
 void BuildCells(const std::vector<int>& region_new, const std::vector<int>& item_new,
-                int num_threads, LoadState* state, Survey* survey, RepeatSearch* search) {
+                int num_threads, LoadState* state, Survey* survey) {
   const int64_t num_quotes = static_cast<int64_t>(state->quotes.size());
   int32_t* quote_region = state->quotes.region.data();
   int32_t* quote_item = state->quotes.item.data();
@@ -110,17 +109,18 @@ void BuildCells(const std::vector<int>& region_new, const std::vector<int>& item
     quote_item[q] = item_new[quote_item[q]];
   }
   CellsFromQuotes(&state->quotes, survey->num_regions(), survey->num_items(), num_threads,
-                  &survey->cells, search);  // empties the quotes
+                  &survey->cells);  // empties the quotes
   FillHeadingRanges(survey);
+  survey->num_quotes = state->num_quotes;
 }
 
 }  // namespace
 
-void BuildSurvey(LoadState* state, int num_threads, Survey* survey, RepeatSearch* search) {
+void BuildSurvey(LoadState* state, int num_threads, Survey* survey) {
   const std::vector<int> region_new = OrderRegions(*state, survey);
   const std::vector<int> heading_new = OrderHeadings(*state, survey);
   const std::vector<int> item_new = OrderItems(*state, heading_new, survey);
-  BuildCells(region_new, item_new, num_threads, state, survey, search);
+  BuildCells(region_new, item_new, num_threads, state, survey);
   survey->expenditure =
       Eigen::MatrixXd::Constant(survey->num_regions(), survey->num_headings(), std::nan(""));
   survey->national_weights = state->national_weights;

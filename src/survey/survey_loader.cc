@@ -39,23 +39,16 @@ int64_t ConflictRows(const std::vector<HeadingConflict>& conflicts) {
 }
 
 // Moves the rejected codes that left rows out, and the heading conflicts
-// with what was used (the quotes of `survey`'s cells; none when no cells
-// were built, `survey` null), from the state to the summary.
-void SummariseRejections(const std::string& prices_path, const Survey* survey, LoadState* state,
-                         LoadSummary* summary) {
+// with what was used, from the state to the summary.
+void SummariseRejections(const std::string& prices_path, LoadState* state, LoadSummary* summary) {
   for (RejectedCode& code : state->rejected_codes) {
     if (code.num_price_rows + code.num_expenditure_rows > 0) {
       summary->rejected_codes.push_back(std::move(code));
     }
   }
   if (state->heading_conflicts.empty()) return;
-  // Quotes used per item of the survey.
-  std::vector<int64_t> rows_per_item(survey != nullptr ? survey->num_items() : 0, 0);
-  if (survey != nullptr) {
-    for (size_t c = 0; c < survey->cells.size(); ++c) {
-      rows_per_item[survey->cells.item[c]] += survey->cells.num_quotes[c];
-    }
-  }
+  std::vector<int64_t> rows_per_item(state->items.size(), 0);
+  for (int32_t item : state->quotes.item) ++rows_per_item[item];
   for (HeadingConflict& conflict : state->heading_conflicts) {
     const int item = state->items.Find(conflict.item);
     if (item < 0 || state->item_heading[item] < 0) continue;  // never stated: nothing used
@@ -63,8 +56,7 @@ void SummariseRejections(const std::string& prices_path, const Survey* survey, L
     const std::string& origin = state->item_origin[item];
     conflict.origin_used =
         origin.rfind("line ", 0) == 0 ? prices_path + ":" + origin.substr(5) : origin;
-    const int used = survey != nullptr ? survey->items.Find(conflict.item) : -1;
-    conflict.num_rows_used = used >= 0 ? rows_per_item[used] : 0;
+    conflict.num_rows_used = rows_per_item[item];
     summary->heading_conflicts.push_back(std::move(conflict));
   }
 }
@@ -284,8 +276,9 @@ bool LoadSurvey(const RunConfig& config, const LoadOptions& options, Survey* sur
   if (!ReadPriceFiles(config, options, &state, &rejections, price_files, &error)) {
     return fail(error);
   }
-  // Rows of the price files kept: the repeats rejected are listed after them.
-  const size_t price_rows_kept = summary->rejected_rows.size();
+  const int num_threads = options.num_threads > 0 ? options.num_threads : omp_get_max_threads();
+  internal::HandleDuplicateQuotes(config.duplicate_quotes, num_threads, &state, &rejections,
+                                  price_files, summary);
   if (!internal::ReadExpenditure(expenditure_file.path, &state, &rejections, &expenditure_file,
                                  &error)) {
     return fail(error);
@@ -302,30 +295,18 @@ bool LoadSurvey(const RunConfig& config, const LoadOptions& options, Survey* sur
     }
   }
   summary->read_seconds = SecondsSince(start);
-  int64_t rows_read = 0, rows_used = 0;
-  for (const InputFileSummary* file : price_files) {
-    rows_read += file->rows_read;
-    rows_used += file->rows_used;
-  }
-  // The cells stage runs from here to the end of the load, so the two
-  // stages cover it whole. Repeated rows are found as the cells are built,
-  // so the cells come before the decision on the rejected rows they add to
-  // (a load that stops has built them in vain).
-  const auto cells_start = std::chrono::steady_clock::now();
-  const int num_threads = options.num_threads > 0 ? options.num_threads : omp_get_max_threads();
-  internal::RepeatSearch search;
-  search.leave_out = config.duplicate_quotes != DuplicateQuotePolicy::kKeep;
-  if (rows_used > 0) internal::BuildSurvey(&state, num_threads, survey, &search);
-  internal::HandleDuplicateQuotes(config.duplicate_quotes, search.repeats, price_rows_kept, &state,
-                                  &rejections, price_files, summary);
-  survey->num_quotes = state.num_quotes;
-  SummariseRejections(price_files[0]->path, rows_used > 0 ? survey : nullptr, &state, summary);
+  SummariseRejections(price_files[0]->path, &state, summary);
   if (!state.items_without_reference.empty()) {
     summary->warnings.push_back(WithoutReferenceWarning(state));
   }
 
   if (summary->num_rows_rejected > 0 && options.invalid_rows == InvalidRowPolicy::kStop) {
     return fail(StopMessage(*summary));
+  }
+  int64_t rows_read = 0, rows_used = 0;
+  for (const InputFileSummary* file : price_files) {
+    rows_read += file->rows_read;
+    rows_used += file->rows_used;
   }
   if (rows_used == 0) {
     return fail((price_files.size() == 1 ? price_files[0]->path
@@ -334,6 +315,10 @@ bool LoadSurvey(const RunConfig& config, const LoadOptions& options, Survey* sur
                 ": no usable price quotes (all " + std::to_string(rows_read) + " rows rejected)");
   }
 
+  // The cells stage runs from here to the end of the load, so the two
+  // stages cover it whole.
+  const auto cells_start = std::chrono::steady_clock::now();
+  internal::BuildSurvey(&state, num_threads, survey);
   if (!files.external_parities.empty()) FillExternalParities(state, survey);
   const bool grouped = ApplyGroupsAndLabels(config, &survey->classification, &error);
   summary->cells_seconds = SecondsSince(cells_start);

@@ -10,9 +10,7 @@
 #include <cmath>
 #include <cstdio>
 #include <filesystem>
-#include <map>
 #include <optional>
-#include <tuple>
 #include <random>
 #include <thread>
 
@@ -1115,104 +1113,6 @@ TEST(CellsFromQuotes, AccumulatesInFileOrderWhenTheCellKeysAreTooManyToCount) {
   internal::CellsFromQuotes(&consumed, num_regions, num_items, 2, &got);
   ExpectSameCellArrays(got, CellsWrittenOut(quotes, num_regions, num_items));
   EXPECT_EQ(consumed.size(), 0u);
-}
-
-// `quotes` with row hashes, and quotes appended that repeat some of them
-// (one in 40, a few twice), that share a quote's cell and ln price but not
-// its hash or its hash but not its price (not repeats), and a cell of 100
-// quotes of 2 prices and 3 hashes (large enough to be sorted).
-internal::QuoteArrays WithRepeats(internal::QuoteArrays quotes, uint64_t seed) {
-  std::mt19937_64 random(seed);
-  const size_t n = quotes.size();
-  quotes.row_hash.resize(n);
-  for (size_t q = 0; q < n; ++q) quotes.row_hash[q] = random();
-  const auto append = [&quotes](size_t q, double log_price, uint64_t hash) {
-    quotes.region.push_back(quotes.region[q]);
-    quotes.item.push_back(quotes.item[q]);
-    quotes.log_price.push_back(log_price);
-    quotes.representative.push_back(quotes.representative[q]);
-    quotes.weight.push_back(quotes.weight[q]);
-    quotes.row_hash.push_back(hash);
-  };
-  for (size_t q = 0; q < n; ++q) {
-    const uint64_t choice = random() % 160;
-    if (choice < 4) append(q, quotes.log_price[q], quotes.row_hash[q]);
-    if (choice == 0) append(q, quotes.log_price[q], quotes.row_hash[q]);
-    if (choice == 4) append(q, quotes.log_price[q], random());
-    if (choice == 5) append(q, quotes.log_price[q] + 0.5, quotes.row_hash[q]);
-  }
-  for (int k = 0; k < 100; ++k) append(0, std::log(2.0 + random() % 2), random() % 3);
-  return quotes;
-}
-
-// The repeats of `quotes` by brute force: a quote repeats the first one of
-// equal region, item, ln price and row hash.
-std::vector<internal::RepeatedQuote> RepeatsOf(const internal::QuoteArrays& quotes) {
-  std::map<std::tuple<int32_t, int32_t, double, uint64_t>, uint32_t> first;
-  std::vector<internal::RepeatedQuote> repeats;
-  for (uint32_t q = 0; q < quotes.size(); ++q) {
-    const auto [at, inserted] = first.emplace(
-        std::make_tuple(quotes.region[q], quotes.item[q], quotes.log_price[q], quotes.row_hash[q]),
-        q);
-    if (!inserted) repeats.emplace_back(q, at->second);
-  }
-  return repeats;
-}
-
-// `quotes` without the repeats named.
-internal::QuoteArrays Without(const internal::QuoteArrays& quotes,
-                              const std::vector<internal::RepeatedQuote>& repeats) {
-  std::vector<char> left_out(quotes.size(), 0);
-  for (const auto& repeat : repeats) left_out[repeat.first] = 1;
-  internal::QuoteArrays kept;
-  for (size_t q = 0; q < quotes.size(); ++q) {
-    if (left_out[q] != 0) continue;
-    kept.region.push_back(quotes.region[q]);
-    kept.item.push_back(quotes.item[q]);
-    kept.log_price.push_back(quotes.log_price[q]);
-    kept.representative.push_back(quotes.representative[q]);
-    kept.weight.push_back(quotes.weight[q]);
-  }
-  return kept;
-}
-
-// Builds the cells of `quotes` with `threads` and a search for repeats that
-// leaves them out or not, and checks the repeats found and the cells.
-void ExpectRepeatsFound(const internal::QuoteArrays& quotes, int num_regions, int num_items,
-                        const std::vector<int>& threads) {
-  const std::vector<internal::RepeatedQuote> want = RepeatsOf(quotes);
-  ASSERT_GT(want.size(), 100u);
-  const CellPrices all = CellsWrittenOut(quotes, num_regions, num_items);
-  const CellPrices kept = CellsWrittenOut(Without(quotes, want), num_regions, num_items);
-  for (int num_threads : threads) {
-    for (bool leave_out : {false, true}) {
-      SCOPED_TRACE(std::to_string(num_threads) + (leave_out ? " threads, left out" : " threads"));
-      internal::RepeatSearch search;
-      search.leave_out = leave_out;
-      CellPrices got;
-      internal::QuoteArrays consumed = quotes;
-      internal::CellsFromQuotes(&consumed, num_regions, num_items, num_threads, &got, &search);
-      EXPECT_EQ(search.repeats, want);
-      ExpectSameCellArrays(got, leave_out ? kept : all);
-      EXPECT_EQ(consumed.row_hash.capacity(), 0u);
-    }
-  }
-}
-
-TEST(CellsFromQuotes, FindsTheRowsRepeatingAnEarlierOneForOneAndTwoThreads) {
-  const int num_regions = 400, num_items = 2000;
-  const internal::QuoteArrays quotes = WithRepeats(ShuffledQuotes(num_regions, num_items, 13), 14);
-  ASSERT_GT(quotes.size(), size_t{1} << 20);
-  ExpectRepeatsFound(quotes, num_regions, num_items, {1, 2});
-}
-
-TEST(CellsFromQuotes, FindsTheRowsRepeatingAnEarlierOneWhenTheCellKeysAreTooManyToCount) {
-  internal::QuoteArrays quotes = ShuffledQuotes(60, 80, 15);
-  for (size_t q = 0; q < quotes.size(); ++q) {
-    quotes.region[q] = quotes.region[q] * 50 + 7;
-    quotes.item[q] = quotes.item[q] * 50 + 3;
-  }
-  ExpectRepeatsFound(WithRepeats(std::move(quotes), 16), 3000, 4000, {2});
 }
 
 TEST(LoadSurvey, ReportsTheFirstHeadingConflictInFileOrderAcrossChunks) {
