@@ -68,12 +68,48 @@ std::unique_ptr<T[]> UninitialisedArray(int64_t n) {
   return array;
 }
 
-// Resizes `v` to n value-initialised elements, advised as huge pages first.
+// Reserves n elements of `v`, advised as huge pages.
 template <typename T>
-void ResizeAdvised(int64_t n, std::vector<T>* v) {
+void ReserveAdvised(int64_t n, std::vector<T>* v) {
   v->reserve(n);
   AdviseHugePages(v->data(), n * sizeof(T));
-  v->resize(n);
+}
+
+// Sizes the cell arrays to n value-initialised cells. Value-initialising
+// writes every byte once (and, on fresh memory, faults every page in): done
+// by up to two threads, each a half of the bytes. The arrays are reserved
+// first, by this thread, so the memory comes from the allocator's arena
+// that holds what earlier stages freed; resizing within the capacity
+// allocates nothing.
+void SizeCells(int64_t n, bool weighted, int num_threads, CellPrices* cells) {
+  ReserveAdvised(n, &cells->region);
+  ReserveAdvised(n, &cells->item);
+  ReserveAdvised(n, &cells->log_price);
+  ReserveAdvised(n, &cells->log_sd);
+  ReserveAdvised(n, &cells->log_min);
+  ReserveAdvised(n, &cells->log_max);
+  ReserveAdvised(n, &cells->num_quotes);
+  ReserveAdvised(n, &cells->representative);
+  if (weighted) ReserveAdvised(n, &cells->weight);
+  // 21 (29 weighted) and 24 bytes per cell.
+#pragma omp parallel sections num_threads(std::min(num_threads, 2))
+  {
+#pragma omp section
+    {
+      cells->log_price.resize(n);
+      cells->log_sd.resize(n);
+      cells->region.resize(n);
+      cells->representative.resize(n);
+      if (weighted) cells->weight.resize(n);
+    }
+#pragma omp section
+    {
+      cells->log_min.resize(n);
+      cells->log_max.resize(n);
+      cells->item.resize(n);
+      cells->num_quotes.resize(n);
+    }
+  }
 }
 
 // Calls fn(k) for each set bit k of `bits` in [begin, end), in order.
@@ -254,15 +290,7 @@ void CellsByDenseKey(QuoteArrays* quote_arrays, int num_regions, int num_items, 
   // arrays are allocated, so the two are never held at once.
   *quote_arrays = QuoteArrays();
   const int64_t num_cells = word_rank[num_words];
-  ResizeAdvised(num_cells, &cells->region);
-  ResizeAdvised(num_cells, &cells->item);
-  ResizeAdvised(num_cells, &cells->log_price);
-  ResizeAdvised(num_cells, &cells->log_sd);
-  ResizeAdvised(num_cells, &cells->log_min);
-  ResizeAdvised(num_cells, &cells->log_max);
-  ResizeAdvised(num_cells, &cells->num_quotes);
-  ResizeAdvised(num_cells, &cells->representative);
-  if (weighted) ResizeAdvised(num_cells, &cells->weight);
+  SizeCells(num_cells, weighted, threads, cells);
   // Item ranges of about equal quotes per thread.
   std::vector<int32_t> item_begin(threads + 1, 0);
   item_begin[threads] = num_items;
