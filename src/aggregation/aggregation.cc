@@ -51,8 +51,10 @@ AggregateParities GeksOverArrays(GeksIndex index, const NodeArrays& arrays,
   const Eigen::MatrixXd& given = fisher ? bilaterals.fisher : bilaterals.tornqvist;
   if (given.size() > 0) return GeksOverIndex(given);
   GeksResult geks;
+  GeksBlockOptions blocks;
+  blocks.num_threads = arrays.num_threads;
   if (arrays.price.rows() < kMinRegionsForBlocks ||
-      !GeksByRowBlocks(index, arrays.price, arrays.expenditure, GeksBlockOptions(), &geks)) {
+      !GeksByRowBlocks(index, arrays.price, arrays.expenditure, blocks, &geks)) {
     const BilateralMatrices formed =
         AllPairsWeighted(arrays.price, arrays.expenditure,
                          fisher ? BilateralOptions::OnlyFisher() : BilateralOptions::OnlyTornqvist());

@@ -458,7 +458,11 @@ std::vector<AggregateParities> AggregateStage(const Survey& survey, const Comput
   for (int k = 0; k < num_aggregates; ++k) {
     internal::KeepEigenOnThisThread();
     const int index = aggregates[k];
-    const NodeArrays arrays = NodeInputArrays(survey, *result, index);
+    NodeArrays arrays = NodeInputArrays(survey, *result, index);
+    // The compute's count, not OpenMP's (1 here): an aggregate alone, as the
+    // root of L or T, spreads its row blocks over every thread; inside an
+    // active team the blocks run on this thread anyway.
+    arrays.num_threads = threads;
     if (index == 0 && spreads_with_root &&
         GeksFisherWithSpreads(arrays, spread_options, &aggregate_of[0], &result->root_spreads)) {
       spreads_done = true;

@@ -634,6 +634,17 @@ TEST(GeksByRowBlocks, SpreadsEqualAllPairsSpreads) {
   EXPECT_EQ(spreads.check_percent, std::vector<double>{-1.0});
 }
 
+// A node's aggregate as the GEKS result it was made from.
+GeksResult AsGeksResult(const AggregateParities& aggregate) {
+  GeksResult geks;
+  geks.log_parity = aggregate.log_parity;
+  geks.identified = aggregate.identified;
+  geks.complete = aggregate.complete;
+  geks.groups = aggregate.groups;
+  geks.rms_log_residual = aggregate.rms_log_residual;
+  return geks;
+}
+
 // The node-level call the compute stage makes for the root: from 400
 // regions on, the geks-fisher method's parities (with the heading counts)
 // and the spreads apart, bit for bit; below, false.
@@ -651,19 +662,35 @@ TEST(GeksFisherWithSpreads, EqualsTheMethodAndTheSpreadsApart) {
   AggregateParities got;
   SpreadSummary spreads;
   ASSERT_TRUE(GeksFisherWithSpreads(arrays, spread_options, &got, &spreads));
-  GeksResult got_geks;
-  got_geks.log_parity = got.log_parity;
-  got_geks.identified = got.identified;
-  got_geks.complete = got.complete;
-  got_geks.groups = got.groups;
-  got_geks.rms_log_residual = got.rms_log_residual;
-  ExpectSameBits(got_geks, want);
+  ExpectSameBits(AsGeksResult(got), want);
   EXPECT_EQ(got.num_headings, want.num_headings);
   ExpectSameSpreads(spreads, want_spreads);
   NodeArrays small;
   small.price = arrays.price.topRows(399);
   small.expenditure = arrays.expenditure.topRows(399);
   EXPECT_FALSE(GeksFisherWithSpreads(small, spread_options, &got, &spreads));
+}
+
+// A node's arrays carry the thread count its row blocks may use (the root
+// of a survey of one aggregate runs alone): from 400 regions on, GEKS over
+// Fisher and over Törnqvist by row blocks on 2 threads gives the bits of 1
+// thread and of the full matrix.
+TEST(GeksOverArrays, GivesTheSameBitsOnOneThreadOrTwo) {
+  NodeArrays arrays;
+  MakeIncompleteData(403, 7, 20261207, &arrays.price, &arrays.expenditure);
+  arrays.price.col(0).setConstant(0.8);  // every pair shares heading 0
+  arrays.expenditure.col(0).setConstant(2.5);
+  const BilateralMatrices full = AllPairsWeighted(arrays.price, arrays.expenditure);
+  for (const bool fisher : {true, false}) {
+    const AggregateParities want = GeksOverIndex(fisher ? full.fisher : full.tornqvist);
+    for (const int threads : {1, 2}) {
+      arrays.num_threads = threads;
+      const AggregateParities got = fisher ? GeksFisher(arrays, BilateralMatrices())
+                                           : GeksTornqvist(arrays, BilateralMatrices());
+      SCOPED_TRACE(std::string(fisher ? "fisher" : "tornqvist") + ", threads " + std::to_string(threads));
+      ExpectSameBits(AsGeksResult(got), want);
+    }
+  }
 }
 
 // Regions 0 and 1 of MakeIncompleteData share no heading: the closed form

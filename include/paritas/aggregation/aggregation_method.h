@@ -23,6 +23,11 @@ namespace paritas {
 struct NodeArrays {
   Eigen::MatrixXd price;
   Eigen::MatrixXd expenditure;
+  // Threads a method may spread its row blocks over (as
+  // GeksBlockOptions::num_threads; the result does not depend on it); 0 =
+  // OpenMP's count, which a node loop running each aggregate on one thread
+  // has set to 1. Default 0.
+  int num_threads = 0;
 };
 
 // One edge of a spanning tree: region `to` joined the tree through `from`.
