@@ -40,11 +40,9 @@ const char* ToString(DenseKernels kernels) {
   return "portable";
 }
 
-bool CpuHasFma() {
+bool StdFmaIsOneInstruction() {
 #if defined(__FP_FAST_FMA)
   return true;
-#elif defined(__x86_64__)
-  return __builtin_cpu_supports("fma");
 #else
   return false;
 #endif
@@ -351,7 +349,7 @@ DenseKernels ActiveDenseKernels() {
       return DenseKernels::kPortable;
     }
     if (CpuHasAvx2Fma()) return DenseKernels::kAvx2Fma;
-    return CpuHasFma() ? DenseKernels::kPortable : DenseKernels::kUnfused;
+    return StdFmaIsOneInstruction() ? DenseKernels::kPortable : DenseKernels::kUnfused;
   }();
   return active;
 }

@@ -22,9 +22,10 @@ enum class DenseKernels {
   // The AVX2 + FMA kernels below.
   kAvx2Fma,
   // Eigen's products (SSE2 on x86-64, with the block sizes FixEigenBlockSizes
-  // sets), not fused: for a CPU without FMA, where std::fma is emulated in
-  // software (about 100 times slower than these). The last digits of a
-  // result may differ from those of the two fused paths.
+  // sets), not fused: for an x86-64 CPU without AVX2 + FMA, where the
+  // portable kernels' std::fma is a call into the C library (emulated in
+  // software without FMA: about 100 times slower than these). The last
+  // digits of a result may differ from those of the two fused paths.
   kUnfused,
 };
 
@@ -37,9 +38,12 @@ inline constexpr char kPortableKernelsVariable[] = "PARITAS_PORTABLE_KERNELS";
 
 // Returns the kernels this process uses: the one kPortableKernelsVariable
 // names when set; otherwise kAvx2Fma when the CPU has AVX2 and FMA,
-// kPortable when it has FMA alone, kUnfused when it has no FMA. Decided once
-// per process (never by thread count), so runs on one machine give the same
-// bits for any number of threads.
+// kPortable where std::fma is compiled to one instruction (64-bit ARM),
+// kUnfused elsewhere (an x86-64 CPU without AVX2 + FMA, where each std::fma
+// would be a call into the C library: 6 times slower with the CPU's FMA,
+// about 100 times without). Decided once per process (never by thread
+// count), so runs on one machine give the same bits for any number of
+// threads.
 DenseKernels ActiveDenseKernels();
 
 // "portable", "avx2-fma" or "unfused" (as run.json records it).
@@ -47,9 +51,9 @@ const char* ToString(DenseKernels kernels);
 
 // Whether this CPU can run the kAvx2Fma kernels (whatever the variable says).
 bool CpuHasAvx2Fma();
-// Whether std::fma is the CPU's own instruction here (x86-64: the CPU has
-// FMA; elsewhere: the compiler says fma is fast, as on 64-bit ARM).
-bool CpuHasFma();
+// Whether the compiler makes each std::fma one instruction of the CPU
+// (__FP_FAST_FMA: 64-bit ARM; not x86-64 builds for every CPU).
+bool StdFmaIsOneInstruction();
 
 // The kernels. Matrices are column-major: entry (i, j) of x is
 // x[i + j * ld_x]. Each sum over k below is formed as acc = 0, then
