@@ -339,7 +339,9 @@ PARITAS_AVX2_FMA void SubtractGramLowerTiles(int m, int n, const double* x, int6
         const int rows = m - i0 < kTileRows ? m - i0 : kTileRows;
         const int num_vectors = (rows + kLanes - 1) / kLanes;
         const int last_rows = rows - kLanes * (num_vectors - 1);
-        double* tile_partial = partial + i0 + static_cast<int64_t>(j0) * m;
+        // Only sums longer than one block have a buffer (partial may be null).
+        double* tile_partial =
+            n > kDepthBlock ? partial + i0 + static_cast<int64_t>(j0) * m : nullptr;
         const TileOperands t{.a = x + i0 + k0 * ld_x,
                              .ld_a = ld_x,
                              .b = x + j0 + k0 * ld_x,
