@@ -132,6 +132,12 @@ struct TileOperands {
   int depth;        // steps p = 0 .. depth - 1
   int num_columns;  // 1 to 4; missing columns repeat the last one (not stored)
   int last_rows;    // rows in the last vector, 1 to 4
+  // The sums so far, when the steps continue an earlier block of them: row
+  // i of column c at start[i + c * ld_start], columns below start_columns
+  // (later ones repeat the last); null when the sums start at 0.
+  const double* start = nullptr;
+  int64_t ld_start = 0;
+  int start_columns = 0;
 };
 
 // acc[v][c] = sum over p in order of a(rows 4v .. 4v + 3, p) b(p, c), one
@@ -146,10 +152,21 @@ PARITAS_AVX2_FMA inline __attribute__((always_inline)) void AccumulateTile(
     b_column[c] = t.b + (c < t.num_columns ? c : t.num_columns - 1) * t.b_column_step;
   }
   // Local sums, copied out once: stores through `acc` inside the loop would
-  // not be sunk out of it.
+  // not be sunk out of it. A chain continued from stored sums goes on from
+  // the same doubles, so blocks of steps give the bits of one pass.
   __m256d sum[kMaxVectors][kTileColumns];
   for (int v = 0; v < kMaxVectors; ++v) {
     for (int c = 0; c < kTileColumns; ++c) sum[v][c] = _mm256_setzero_pd();
+  }
+  if (t.start != nullptr) {
+    for (int c = 0; c < kTileColumns; ++c) {
+      const double* column =
+          t.start + (c < t.start_columns ? c : t.start_columns - 1) * t.ld_start;
+      for (int v = 0; v < num_vectors; ++v) {
+        sum[v][c] = v + 1 < num_vectors ? _mm256_loadu_pd(column + kLanes * v)
+                                        : _mm256_maskload_pd(column + kLanes * v, last_mask);
+      }
+    }
   }
   for (int p = 0; p < t.depth; ++p) {
     const double* a_p = t.a + p * t.ld_a;
@@ -196,119 +213,184 @@ struct ProductOperands {
   int64_t b_step, b_column_step;
 };
 
+// Steps of the sums per block: a 12-row tile of a (24 KiB) stays in the L1
+// cache and a panel of b in the L2 cache however long the sums are; the
+// sums of one block go on from those of the last (see TileOperands::start).
+constexpr int kDepthBlock = 256;
 // Columns of b per panel: about kPanelBytes of b, a multiple of the tile's
 // columns.
 constexpr int64_t kPanelBytes = int64_t{192} << 10;
 int PanelColumns(int n, int k) {
-  const int64_t fit = kPanelBytes / (static_cast<int64_t>(k) * 8);
+  const int depth = k < kDepthBlock ? k : kDepthBlock;
+  const int64_t fit = kPanelBytes / (static_cast<int64_t>(depth) * 8);
   const int widest = static_cast<int>(fit < n ? fit : n) / kTileColumns * kTileColumns;
   return widest < kTileColumns ? kTileColumns : widest;
 }
 
+// Doubles MultiplyTiles' `packed` holds for a product of depth k and n columns.
+size_t PackedSize(int n, int k) {
+  const int depth = k < kDepthBlock ? k : kDepthBlock;
+  return static_cast<size_t>(PanelColumns(n, k) + kLanes * kMaxVectors) * depth;
+}
+
 // out = a b. Both operands are copied into contiguous tiles first (b by
 // panels of PanelColumns columns, held in the L2 cache; a by tiles of 12
-// rows, in the L1 cache, each passing over a whole panel): strided operands
-// (3,000 regions apart) would otherwise touch a page per step of the sum.
-// Copies change no value, and each entry is still one chain in order.
-// `packed` holds PanelColumns(n, k) * k + kTileRows * k doubles.
+// rows, in the L1 cache, each passing over a whole panel), a block of
+// kDepthBlock steps at a time: strided operands (3,000 regions apart) would
+// otherwise touch a page per step of the sum, and long sums would not stay
+// in the caches. Copies change no value, and each entry is still one chain
+// in order (a block goes on from the sums the last one stored in out).
+// `packed` holds PackedSize(n, k) doubles.
 PARITAS_AVX2_FMA void MultiplyTiles(const ProductOperands& x, double* packed, double* out,
                                     int64_t ld_out) {
   constexpr int kTileRows = kLanes * kMaxVectors;
   const int m = x.m, n = x.n, k = x.k;
   const int panel = PanelColumns(n, k);
-  double* packed_a = packed + static_cast<int64_t>(panel) * k;
   __m256d acc[kMaxVectors][kTileColumns];
-  for (int p0 = 0; p0 < n; p0 += panel) {
-    const int p1 = n - p0 < panel ? n : p0 + panel;
-    // Column group g of the panel at packed + g * 4k, step p at [4p + c];
-    // a missing last column repeats the one before (never stored).
-    for (int j0 = p0; j0 < p1; j0 += kTileColumns) {
-      double* group = packed + static_cast<int64_t>(j0 - p0) * k;
-      for (int c = 0; c < kTileColumns; ++c) {
-        const int j = j0 + c < p1 ? j0 + c : p1 - 1;
-        const double* column = x.b + j * x.b_column_step;
-        for (int p = 0; p < k; ++p) group[kTileColumns * p + c] = column[p * x.b_step];
-      }
-    }
-    for (int i0 = 0; i0 < m; i0 += kTileRows) {
-      const int rows = m - i0 < kTileRows ? m - i0 : kTileRows;
-      const int num_vectors = (rows + kLanes - 1) / kLanes;
-      const int last_rows = rows - kLanes * (num_vectors - 1);
-      const __m256i last_mask = FirstLanes(last_rows);
-      for (int p = 0; p < k; ++p) {
-        const double* source = x.a + i0 + p * x.ld_a;
-        for (int r = 0; r < kTileRows; ++r) packed_a[kTileRows * p + r] = r < rows ? source[r] : 0.0;
-      }
+  for (int k0 = 0; k0 < k; k0 += kDepthBlock) {
+    const int depth = k - k0 < kDepthBlock ? k - k0 : kDepthBlock;
+    double* packed_a = packed + static_cast<int64_t>(panel) * depth;
+    for (int p0 = 0; p0 < n; p0 += panel) {
+      const int p1 = n - p0 < panel ? n : p0 + panel;
+      // Column group g of the panel at packed + g * 4 depth, step p at
+      // [4p + c]; a missing last column repeats the one before (never stored).
       for (int j0 = p0; j0 < p1; j0 += kTileColumns) {
-        const int num_columns = p1 - j0 < kTileColumns ? p1 - j0 : kTileColumns;
-        const TileOperands t{.a = packed_a,
-                             .ld_a = kTileRows,
-                             .b = packed + static_cast<int64_t>(j0 - p0) * k,
-                             .b_step = kTileColumns,
-                             .b_column_step = 1,
-                             .depth = k,
-                             .num_columns = kTileColumns,
-                             .last_rows = last_rows};
-        ComputeTile(num_vectors, t, acc);
-        for (int c = 0; c < num_columns; ++c) {
-          double* column = out + i0 + (j0 + c) * ld_out;
-          for (int v = 0; v + 1 < num_vectors; ++v) _mm256_storeu_pd(column + kLanes * v, acc[v][c]);
-          _mm256_maskstore_pd(column + kLanes * (num_vectors - 1), last_mask,
-                              acc[num_vectors - 1][c]);
+        double* group = packed + static_cast<int64_t>(j0 - p0) * depth;
+        for (int c = 0; c < kTileColumns; ++c) {
+          const int j = j0 + c < p1 ? j0 + c : p1 - 1;
+          const double* column = x.b + j * x.b_column_step + k0 * x.b_step;
+          for (int p = 0; p < depth; ++p) group[kTileColumns * p + c] = column[p * x.b_step];
+        }
+      }
+      for (int i0 = 0; i0 < m; i0 += kTileRows) {
+        const int rows = m - i0 < kTileRows ? m - i0 : kTileRows;
+        const int num_vectors = (rows + kLanes - 1) / kLanes;
+        const int last_rows = rows - kLanes * (num_vectors - 1);
+        const __m256i last_mask = FirstLanes(last_rows);
+        for (int p = 0; p < depth; ++p) {
+          const double* source = x.a + i0 + (k0 + p) * x.ld_a;
+          for (int r = 0; r < kTileRows; ++r) {
+            packed_a[kTileRows * p + r] = r < rows ? source[r] : 0.0;
+          }
+        }
+        for (int j0 = p0; j0 < p1; j0 += kTileColumns) {
+          const int num_columns = p1 - j0 < kTileColumns ? p1 - j0 : kTileColumns;
+          double* tile_out = out + i0 + j0 * ld_out;
+          const TileOperands t{.a = packed_a,
+                               .ld_a = kTileRows,
+                               .b = packed + static_cast<int64_t>(j0 - p0) * depth,
+                               .b_step = kTileColumns,
+                               .b_column_step = 1,
+                               .depth = depth,
+                               .num_columns = kTileColumns,
+                               .last_rows = last_rows,
+                               .start = k0 > 0 ? tile_out : nullptr,
+                               .ld_start = ld_out,
+                               .start_columns = num_columns};
+          ComputeTile(num_vectors, t, acc);
+          for (int c = 0; c < num_columns; ++c) {
+            double* column = tile_out + c * ld_out;
+            for (int v = 0; v + 1 < num_vectors; ++v) {
+              _mm256_storeu_pd(column + kLanes * v, acc[v][c]);
+            }
+            _mm256_maskstore_pd(column + kLanes * (num_vectors - 1), last_mask,
+                                acc[num_vectors - 1][c]);
+          }
         }
       }
     }
   }
 }
 
-// MultiplyTiles with its buffer (compiled for the build's target: it calls
-// the standard library).
+// MultiplyTiles with its buffer, kept by the thread between calls (at most
+// about 220 KiB: the blocks bound it), so the CPD's products per heading
+// allocate nothing. Compiled for the build's target: it calls the standard
+// library.
 void Multiply(const ProductOperands& x, double* out, int64_t ld_out) {
   if (x.k == 0) {  // a and b may then be null
     ClearColumns(x.m, x.n, out, ld_out);
     return;
   }
   if (x.m == 0 || x.n == 0) return;
-  std::vector<double> packed(static_cast<size_t>(PanelColumns(x.n, x.k) + kLanes * kMaxVectors) *
-                             x.k);
+  thread_local std::vector<double> packed;
+  const size_t size = PackedSize(x.n, x.k);
+  if (packed.size() < size) packed.resize(size);
   MultiplyTiles(x, packed.data(), out, ld_out);
+}
+
+// SubtractGramLowerAvx2Fma a block of kDepthBlock steps at a time, so the
+// columns of x a tile passes over stay in the L2 cache however long the
+// sums are. The sums of the blocks before the last are kept in `partial`
+// (m x m, the lower triangle's tiles), the last block's go on from them and
+// are subtracted from s: the same chains as in one pass.
+PARITAS_AVX2_FMA void SubtractGramLowerTiles(int m, int n, const double* x, int64_t ld_x,
+                                             double* partial, double* s, int64_t ld_s) {
+  constexpr int kTileRows = kLanes * kMaxVectors;
+  __m256d acc[kMaxVectors][kTileColumns];
+  alignas(32) double sums[kMaxVectors * kLanes * kTileColumns];
+  for (int k0 = 0; k0 < n; k0 += kDepthBlock) {
+    const int depth = n - k0 < kDepthBlock ? n - k0 : kDepthBlock;
+    const bool last_block = k0 + depth == n;
+    for (int j0 = 0; j0 < m; j0 += kTileColumns) {
+      const int num_columns = m - j0 < kTileColumns ? m - j0 : kTileColumns;
+      // Row tiles start on the diagonal; the tile's entries above it are
+      // computed and dropped.
+      for (int i0 = j0; i0 < m; i0 += kTileRows) {
+        const int rows = m - i0 < kTileRows ? m - i0 : kTileRows;
+        const int num_vectors = (rows + kLanes - 1) / kLanes;
+        const int last_rows = rows - kLanes * (num_vectors - 1);
+        // Only sums longer than one block have a buffer (partial may be null).
+        double* tile_partial =
+            n > kDepthBlock ? partial + i0 + static_cast<int64_t>(j0) * m : nullptr;
+        const TileOperands t{.a = x + i0 + k0 * ld_x,
+                             .ld_a = ld_x,
+                             .b = x + j0 + k0 * ld_x,
+                             .b_step = ld_x,
+                             .b_column_step = 1,
+                             .depth = depth,
+                             .num_columns = num_columns,
+                             .last_rows = last_rows,
+                             .start = k0 > 0 ? tile_partial : nullptr,
+                             .ld_start = m,
+                             .start_columns = num_columns};
+        ComputeTile(num_vectors, t, acc);
+        if (!last_block) {
+          const __m256i last_mask = FirstLanes(last_rows);
+          for (int c = 0; c < num_columns; ++c) {
+            double* column = tile_partial + static_cast<int64_t>(c) * m;
+            for (int v = 0; v + 1 < num_vectors; ++v) {
+              _mm256_storeu_pd(column + kLanes * v, acc[v][c]);
+            }
+            _mm256_maskstore_pd(column + kLanes * (num_vectors - 1), last_mask,
+                                acc[num_vectors - 1][c]);
+          }
+          continue;
+        }
+        for (int v = 0; v < num_vectors; ++v) {
+          for (int c = 0; c < kTileColumns; ++c)
+            _mm256_store_pd(sums + (c * kMaxVectors + v) * kLanes, acc[v][c]);
+        }
+        for (int c = 0; c < num_columns; ++c) {
+          const int j = j0 + c;
+          for (int r = j > i0 ? j - i0 : 0; r < rows; ++r)
+            s[i0 + r + j * ld_s] -= sums[c * kTileRows + r];
+        }
+      }
+    }
+  }
 }
 
 }  // namespace
 
-PARITAS_AVX2_FMA void SubtractGramLowerAvx2Fma(int m, int n, const double* x, int64_t ld_x,
-                                               double* s, int64_t ld_s) {
+void SubtractGramLowerAvx2Fma(int m, int n, const double* x, int64_t ld_x, double* s,
+                              int64_t ld_s) {
   if (n == 0) return;  // s - 0 is s, -0 included; x may then be null
-  constexpr int kTileRows = kLanes * kMaxVectors;
-  __m256d acc[kMaxVectors][kTileColumns];
-  alignas(32) double sums[kMaxVectors * kLanes * kTileColumns];
-  for (int j0 = 0; j0 < m; j0 += kTileColumns) {
-    const int num_columns = m - j0 < kTileColumns ? m - j0 : kTileColumns;
-    // Row tiles start on the diagonal; the tile's entries above it are
-    // computed and dropped.
-    for (int i0 = j0; i0 < m; i0 += kTileRows) {
-      const int rows = m - i0 < kTileRows ? m - i0 : kTileRows;
-      const int num_vectors = (rows + kLanes - 1) / kLanes;
-      const TileOperands t{.a = x + i0,
-                           .ld_a = ld_x,
-                           .b = x + j0,
-                           .b_step = ld_x,
-                           .b_column_step = 1,
-                           .depth = n,
-                           .num_columns = num_columns,
-                           .last_rows = rows - kLanes * (num_vectors - 1)};
-      ComputeTile(num_vectors, t, acc);
-      for (int v = 0; v < num_vectors; ++v) {
-        for (int c = 0; c < kTileColumns; ++c)
-          _mm256_store_pd(sums + (c * kMaxVectors + v) * kLanes, acc[v][c]);
-      }
-      for (int c = 0; c < num_columns; ++c) {
-        const int j = j0 + c;
-        for (int r = j > i0 ? j - i0 : 0; r < rows; ++r)
-          s[i0 + r + j * ld_s] -= sums[c * kTileRows + r];
-      }
-    }
+  // The partial sums, kept by the thread between calls (m x m).
+  thread_local std::vector<double> partial;
+  if (n > kDepthBlock && partial.size() < static_cast<size_t>(m) * m) {
+    partial.resize(static_cast<size_t>(m) * m);
   }
+  SubtractGramLowerTiles(m, n, x, ld_x, partial.data(), s, ld_s);
 }
 
 void MultiplyAvx2Fma(int m, int n, int k, const double* a, int64_t ld_a, const double* b,

@@ -513,10 +513,11 @@ void FillAggregateNode(const ClassificationNode& n, const AggregateParities& agg
 }
 
 // Normalises a node to the reference (warning when it falls back to the
-// plain mean) and derives parity, real expenditure and rank.
-void NormaliseAndFinish(const Survey& survey, const ComputeOptions& options,
-                        const std::string& code, Eigen::VectorXd log_parity, NodeResult* node,
-                        ComputeSummary* summary) {
+// plain mean); its parity, real expenditure and rank are derived later
+// (FinishNode), from the normalised log parity left in `*finish`.
+void Normalise(const Survey& survey, const ComputeOptions& options, const std::string& code,
+               Eigen::VectorXd log_parity, NodeResult* node, Eigen::VectorXd* finish,
+               ComputeSummary* summary) {
   node->reference_used =
       NormaliseToReference(options.reference, survey.regions.Find(options.reference.region),
                            node->expenditure, &log_parity);
@@ -524,7 +525,7 @@ void NormaliseAndFinish(const Survey& survey, const ComputeOptions& options,
       options.reference.kind != ReferenceKind::kMean && log_parity.array().isFinite().any()) {
     summary->warnings.push_back("node '" + code + "': normalised to the " + node->reference_used);
   }
-  FinishNode(survey, log_parity, node);
+  *finish = std::move(log_parity);
 }
 
 // "aggregate 'x'" or, for an analytic group, "group 'x'".
@@ -554,15 +555,20 @@ std::string UnpricedAggregate(const Survey& survey, const ParityResult& result,
 }
 
 // Stage 2b: every node in classification order; returns false with the
-// summary set when some aggregate's regions are not linked.
+// summary set when some aggregate's regions are not linked. The nodes'
+// parities, real expenditure and ranks are derived after the loop, node by
+// node on `threads` threads (each node's own arrays: no order enters).
 bool FinishNodes(const Survey& survey, const ComputeOptions& options,
-                 const std::vector<AggregateParities>& aggregate_of, ParityResult* result,
-                 ComputeSummary* summary) {
+                 const std::vector<AggregateParities>& aggregate_of, int threads,
+                 ParityResult* result, ComputeSummary* summary) {
   const Classification& tree = survey.classification;
   const int num_regions = survey.num_regions();
-  result->nodes.resize(tree.nodes().size());
+  const int num_nodes = static_cast<int>(tree.nodes().size());
+  result->nodes.resize(num_nodes);
+  // The normalised log parity of each node to finish (empty: none).
+  std::vector<Eigen::VectorXd> finish(num_nodes);
   std::vector<std::string> failures;
-  for (int index = 0; index < static_cast<int>(tree.nodes().size()); ++index) {
+  for (int index = 0; index < num_nodes; ++index) {
     const ClassificationNode& n = tree.nodes()[index];
     NodeResult& node = result->nodes[index];
     node.node = index;
@@ -575,8 +581,8 @@ bool FinishNodes(const Survey& survey, const ComputeOptions& options,
     node.num_headings = Eigen::VectorXi::Zero(num_regions);
     if (n.is_leaf) {
       const int h = n.headings.front();
-      NormaliseAndFinish(survey, options, n.code, FillLeafNode(result->headings[h], h, &node),
-                         &node, summary);
+      Normalise(survey, options, n.code, FillLeafNode(result->headings[h], h, &node), &node,
+                &finish[index], summary);
       continue;
     }
     ++(n.is_group ? summary->num_groups : summary->num_aggregates);
@@ -597,7 +603,11 @@ bool FinishNodes(const Survey& survey, const ComputeOptions& options,
           " groups with no heading in common: " + DescribeGroups(survey, aggregate.groups));
       continue;
     }
-    NormaliseAndFinish(survey, options, n.code, aggregate.log_parity, &node, summary);
+    Normalise(survey, options, n.code, aggregate.log_parity, &node, &finish[index], summary);
+  }
+#pragma omp parallel for schedule(dynamic, 4) num_threads(threads)
+  for (int index = 0; index < num_nodes; ++index) {
+    if (finish[index].size() > 0) FinishNode(survey, finish[index], &result->nodes[index]);
   }
   if (failures.empty()) return true;
   summary->outcome = ComputeOutcome::kComputationFailed;
@@ -643,7 +653,7 @@ bool ComputeParities(const Survey& survey, const ComputeOptions& options, Parity
   start = std::chrono::steady_clock::now();
   const std::vector<AggregateParities> aggregate_of =
       AggregateStage(survey, options, threads, result);
-  const bool linked = FinishNodes(survey, options, aggregate_of, result, summary);
+  const bool linked = FinishNodes(survey, options, aggregate_of, threads, result, summary);
   if (linked) WarnMissingRegions(survey, *result, summary);
   summary->aggregation_seconds = SecondsSince(start);
   if (!linked) return false;

@@ -3,6 +3,8 @@
 // change a number: they add warnings and the basket_share column.
 #include "paritas/compute/plausibility.h"
 
+#include <omp.h>
+
 #include <algorithm>
 #include <cmath>
 #include <utility>
@@ -51,7 +53,11 @@ class Checker {
  public:
   Checker(const Survey& survey, const ParityResult& result, const RunConfig& config,
           PlausibilityResult* out)
-      : survey_(survey), result_(result), checks_(config.checks), out_(out) {
+      : survey_(survey),
+        result_(result),
+        checks_(config.checks),
+        out_(out),
+        threads_(config.threads > 0 ? config.threads : omp_get_max_threads()) {
     const int num_nodes = static_cast<int>(survey.classification.nodes().size());
     out_->basket_share.setConstant(num_nodes, survey.num_regions(), std::nan(""));
     out_->node_region_kinds.assign(num_nodes, std::vector<std::string>(survey.num_regions()));
@@ -266,6 +272,9 @@ class Checker {
            s == static_cast<int>(ParitySource::kImputed);
   }
 
+  // The levels are formed region by region on the run's threads (each
+  // from the same sums in the same order as on one thread); the warnings
+  // are then added in heading, region order.
   void CheckLevels() {
     const auto& nodes = survey_.classification.nodes();
     // ln parity and spending of each heading, one column per region, each
@@ -279,21 +288,33 @@ class Checker {
         spending(h, r) = Spending(r, h);
       }
     }
+    std::vector<int> parent_of(num_headings, -1);
     for (int h = 0; h < num_headings; ++h) {
       const int parent = nodes[HeadingNode(h)].parent;
-      if (parent < 0 || nodes[parent].headings.size() < 2) continue;
+      if (parent >= 0 && nodes[parent].headings.size() >= 2) parent_of[h] = parent;
+    }
+    // Level of each heading and region; NaN where no warning can arise.
+    Eigen::MatrixXd level = Eigen::MatrixXd::Constant(num_headings, num_regions, std::nan(""));
+#pragma omp parallel for schedule(static) num_threads(threads_)
+    for (int r = 0; r < num_regions; ++r) {
+      for (int h = 0; h < num_headings; ++h) {
+        if (parent_of[h] < 0) continue;
+        level(h, r) = Level(h, parent_of[h], r, log_parity.col(r).data(), spending.col(r).data());
+      }
+    }
+    for (int h = 0; h < num_headings; ++h) {
       for (int r = 0; r < num_regions; ++r) {
-        CheckLevel(h, parent, r, log_parity.col(r).data(), spending.col(r).data());
+        if (!std::isnan(level(h, r))) CheckLevel(h, parent_of[h], r, level(h, r));
       }
     }
   }
 
   // The region's level in the parent's other headings: their parities'
-  // geometric mean weighted by its spending (plain when it has none).
-  // `log_parity` and `spending` are the region's, per heading.
-  void CheckLevel(int h, int parent, int r, const double* log_parity, const double* spending) {
-    const double parity = HeadingParity(h, r);
-    if (!std::isfinite(parity)) return;
+  // geometric mean weighted by its spending (plain when it has none); NaN
+  // when the heading has no parity there or the parent no other heading
+  // with one. `log_parity` and `spending` are the region's, per heading.
+  double Level(int h, int parent, int r, const double* log_parity, const double* spending) const {
+    if (!std::isfinite(HeadingParity(h, r))) return std::nan("");
     double sum_w = 0.0, sum_wlog = 0.0, sum_log = 0.0;
     int count = 0;
     for (int other : survey_.classification.nodes()[parent].headings) {
@@ -304,8 +325,13 @@ class Checker {
       sum_log += log_p;
       ++count;
     }
-    if (count == 0) return;
-    const double level = std::exp(sum_w > 0 ? sum_wlog / sum_w : sum_log / count);
+    if (count == 0) return std::nan("");
+    return std::exp(sum_w > 0 ? sum_wlog / sum_w : sum_log / count);
+  }
+
+  // Warns when the heading's parity in region r is too far from its level.
+  void CheckLevel(int h, int parent, int r, double level) {
+    const double parity = HeadingParity(h, r);
     const double ratio = parity / level;
     if (ratio <= checks_.max_level_ratio && ratio >= 1.0 / checks_.max_level_ratio) return;
     Add("implausible-level", HeadingNode(h), r,
@@ -367,6 +393,7 @@ class Checker {
   const ParityResult& result_;
   const CheckThresholds& checks_;
   PlausibilityResult* out_;
+  int threads_;  // the run's threads (RunConfig::threads resolved)
   int reference_region_ = -1;
 };
 

@@ -10,6 +10,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <iterator>
 #include <limits>
 
 #include "base/not_a_number.h"
@@ -257,22 +258,41 @@ ContributionTable HeadingContributions(const Survey& survey, const ParityResult&
   table.against_region = reference_region >= 0;
   table.base = table.against_region ? "region '" + reference.region + "'" : "the average region";
   const int num_nodes = static_cast<int>(result.nodes.size());
-  for (int node = 0; node < num_nodes; ++node) {
+  const std::vector<int>& heading_nodes = survey.classification.headings();
+  // Each node's rows on their own, joined in node order below.
+  std::vector<std::vector<RegionContributions>> rows_of(num_nodes);
+  auto split = [&](int node) {
     const NodeResult& n = result.nodes[node];
     const NodeInputs in = Inputs(survey, result, node);
+    std::vector<RegionContributions>& rows = rows_of[node];
     // A node normalised to the mean because the reference region has no
     // parity there is split against the average region too.
     if (reference_region >= 0 && in.usable[reference_region]) {
-      AgainstRegion(survey, in, n, node, reference_region, &table.rows);
+      AgainstRegion(survey, in, n, node, reference_region, &rows);
     } else {
-      AgainstAverage(survey, in, n, node, &table.rows);
+      AgainstAverage(survey, in, n, node, &rows);
     }
+    for (RegionContributions& row : rows) {
+      for (HeadingContribution& c : row.headings) {
+        c.heading_parity = result.nodes[heading_nodes[c.heading]].parity(row.region);
+      }
+    }
+  };
+  // Basic headings, many small splits with no pairs to visit, share the
+  // threads node by node; an aggregate spreads its own regions over them.
+  std::vector<int> headings, aggregates;
+  for (int node = 0; node < num_nodes; ++node) {
+    (result.nodes[node].is_heading ? headings : aggregates).push_back(node);
   }
-  const std::vector<int>& heading_nodes = survey.classification.headings();
-  for (RegionContributions& row : table.rows) {
-    for (HeadingContribution& c : row.headings) {
-      c.heading_parity = result.nodes[heading_nodes[c.heading]].parity(row.region);
-    }
+  const int num_heading_nodes = static_cast<int>(headings.size());
+#pragma omp parallel for schedule(dynamic, 4)
+  for (int k = 0; k < num_heading_nodes; ++k) split(headings[k]);
+  for (int node : aggregates) split(node);
+  size_t total = 0;
+  for (const auto& rows : rows_of) total += rows.size();
+  table.rows.reserve(total);
+  for (auto& rows : rows_of) {
+    std::move(rows.begin(), rows.end(), std::back_inserter(table.rows));
   }
   return table;
 }

@@ -117,7 +117,8 @@ TEST_F(DenseKernelsTest, GramUpdateAgreesWithEigenToRoundingAndExactlyOnWholeNum
 TEST_F(DenseKernelsTest, ProductFollowsTheFusedOrder) {
   std::mt19937_64 random(13);
   for (const Shape& shape : Shapes()) {
-    for (const int depth : {0, 1, 5, shape.rows, 50}) {
+    // 600: sums over three blocks of steps, the last one short.
+    for (const int depth : {0, 1, 5, shape.rows, 50, 600}) {
       const int m = shape.rows, n = shape.cols;
       const Eigen::MatrixXd a = Random(m, depth, false, &random);
       const Eigen::MatrixXd b = Random(depth, n, false, &random);
@@ -235,7 +236,7 @@ TEST(DenseKernels, PortableKernelsFollowTheFusedOrder) {
 TEST_F(DenseKernelsTest, TransposedProductFollowsTheFusedOrder) {
   std::mt19937_64 random(18);
   for (const Shape& shape : Shapes()) {
-    for (const int depth : {0, 1, 5, 100}) {
+    for (const int depth : {0, 1, 5, 100, 600}) {
       const int m = shape.rows, n = shape.cols;
       const Eigen::MatrixXd a = Random(m, depth, false, &random);
       const Eigen::MatrixXd b = Random(n, depth, false, &random);

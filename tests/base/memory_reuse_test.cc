@@ -7,6 +7,7 @@
 
 #include <cstdlib>
 #include <cstring>
+#include <thread>
 
 namespace paritas::internal {
 namespace {
@@ -16,9 +17,9 @@ namespace {
 constexpr size_t kLarge = size_t{64} << 20;
 
 // Allocates and writes a large block; returns it.
-char* TouchedBlock() {
-  char* block = static_cast<char*>(std::malloc(kLarge));
-  std::memset(block, 1, kLarge);
+char* TouchedBlock(size_t size = kLarge) {
+  char* block = static_cast<char*>(std::malloc(size));
+  std::memset(block, 1, size);
   return block;
 }
 
@@ -35,6 +36,10 @@ TEST(KeepFreedMemoryForReuse, ServesLargeBlocksFromTheHeapAndKeepsThemWhenFreed)
   block = TouchedBlock();
   EXPECT_EQ(mallinfo2().arena, heap_before);  // served from the kept bytes
   std::free(block);
+  // Another thread's block (8 MiB: one that fits an arena of its own) comes
+  // from the same kept bytes, not from an arena of that thread's own.
+  std::thread([] { std::free(TouchedBlock(kLarge / 8)); }).join();
+  EXPECT_EQ(mallinfo2().arena, heap_before);
 }
 #endif
 

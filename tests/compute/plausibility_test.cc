@@ -54,7 +54,7 @@ void DropQuotes(synthetic::SyntheticSurvey* s, Drop drop) {
 
 // Writes the survey, runs the compute job and returns its summary.
 ComputeJobSummary RunJob(const synthetic::SyntheticSurvey& survey, const std::string& name,
-                      std::string* folder = nullptr) {
+                      std::string* folder = nullptr, int threads = 0) {
   const std::string dir = MakeTempDir(name);
   std::string error;
   EXPECT_TRUE(synthetic::WriteSurvey(survey, dir, &error)) << error;
@@ -62,6 +62,7 @@ ComputeJobSummary RunJob(const synthetic::SyntheticSurvey& survey, const std::st
   EXPECT_TRUE(LoadRunConfig(dir + "/config.yaml", &config, &error)) << error;
   config.output = dir + "/out";
   config.report = false;
+  config.threads = threads;
   ComputeJobSummary summary;
   EXPECT_EQ(RunCompute(config, &summary), kExitOk) << summary.message;
   if (folder != nullptr) *folder = dir;
@@ -128,6 +129,27 @@ TEST(Plausibility, RegionWithoutADearHeadingGetsAPartialBasketWarning) {
   EXPECT_NEAR(std::stod(row.at("basket_share")), 0.6, 1e-8);
   EXPECT_EQ(row.at("warnings"), "partial-basket");
   EXPECT_EQ(ParityRow(dir, "g02", truth.regions[region]).at("basket_share"), "1");
+}
+
+// The levels are formed on the run's threads: one thread or two give the
+// same warnings in the same order (heading by heading, region by region).
+TEST(Plausibility, LevelWarningsAreTheSameOnOneThreadOrTwo) {
+  synthetic::SyntheticSurvey truth = synthetic::Generate(Options());
+  for (size_t q = 0; q < truth.quote_price.size(); ++q) {
+    const int r = truth.quote_region[q], h = truth.item_heading[truth.quote_item[q]];
+    if ((h == 1 || h == 4) && (r == 2 || r == 5 || r == 6)) truth.quote_price[q] *= 10;
+  }
+  const ComputeJobSummary one = RunJob(truth, "plaus_levels_one", nullptr, 1);
+  const ComputeJobSummary two = RunJob(truth, "plaus_levels_two", nullptr, 2);
+  const std::vector<RunWarning> levels = OfKind(one, "implausible-level");
+  ASSERT_GE(levels.size(), 4u) << WarningsText(one.warnings);
+  for (size_t k = 1; k < levels.size(); ++k) {
+    EXPECT_LE(levels[k - 1].node, levels[k].node);
+    if (levels[k - 1].node == levels[k].node) {
+      EXPECT_LT(levels[k - 1].region, levels[k].region);
+    }
+  }
+  EXPECT_EQ(WarningsText(one.warnings), WarningsText(two.warnings));
 }
 
 // A tenfold keying error in a region's only item of a heading moved a food

@@ -7,6 +7,7 @@
 #include "paritas/use/heading_contributions.h"
 
 #include <gtest/gtest.h>
+#include <omp.h>
 
 #include <cmath>
 #include <fstream>
@@ -102,6 +103,24 @@ INSTANTIATE_TEST_SUITE_P(
       for (char& ch : name) ch = std::isalnum(static_cast<unsigned char>(ch)) ? ch : '_';
       return name;
     });
+
+// Nodes are split on several threads and joined in node order: one thread
+// or two give the same table, rows in node order.
+TEST(HeadingContributions, OneThreadOrTwoGiveTheSameRowsInNodeOrder) {
+  Computed c;
+  LoadAndCompute(SourcePath("config/demo.yaml"), "geks-fisher", "mean", &c);
+  const int threads = omp_get_max_threads();
+  omp_set_num_threads(1);
+  const ContributionTable one = HeadingContributions(c.survey, c.result, c.config.reference);
+  omp_set_num_threads(2);
+  const ContributionTable two = HeadingContributions(c.survey, c.result, c.config.reference);
+  omp_set_num_threads(threads);
+  ASSERT_GT(one.rows.size(), static_cast<size_t>(c.survey.num_regions()));
+  for (size_t k = 1; k < one.rows.size(); ++k) {
+    ASSERT_LE(one.rows[k - 1].node, one.rows[k].node) << k;
+  }
+  EXPECT_EQ(ContributionsCsv(c.survey, one), ContributionsCsv(c.survey, two));
+}
 
 TEST(HeadingContributions, GeksTornqvistOnCompleteDataNeedsNoAdjustmentAgainstTheMean) {
   Computed c;

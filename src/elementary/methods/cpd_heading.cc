@@ -1,6 +1,7 @@
 #include "elementary/methods/cpd_heading.h"
 
 #include <cmath>
+#include <span>
 #include <vector>
 
 namespace paritas::internal {
@@ -42,6 +43,23 @@ void CollectCells(const HeadingInput& input, bool copies_for_multiplicity, CellB
   const bool weighted =
       !input.item_weight.empty() || representative_weight != 1.0 || by_quote_weights;
   cells->Clear();
+  if (input.item_weight.empty() && !weighted) {
+    // Every cell once with weight 1 (the usual case): straight copies.
+    const auto first = static_cast<size_t>(range.cell_begin);
+    const auto last = static_cast<size_t>(range.cell_end);
+    const std::span<const int> region(survey.cells.region);
+    const std::span<const int> item(survey.cells.item);
+    const std::span<const double> log_price(survey.cells.log_price);
+    cells->region.assign(region.begin() + first, region.begin() + last);
+    cells->item.resize(last - first);
+    cells->representative.resize(last - first);
+    for (size_t k = first; k < last; ++k) {
+      cells->item[k - first] = item[k] - range.item_begin;
+      cells->representative[k - first] = survey.cells.representative[k] ? 1.0 : 0.0;
+    }
+    cells->log_price.assign(log_price.begin() + first, log_price.begin() + last);
+    return;
+  }
   for (int64_t k = range.cell_begin; k < range.cell_end; ++k) {
     const double m = input.item_weight.empty() ? 1.0 : input.item_weight[survey.cells.item[k]];
     if (!(m > 0.0)) continue;
