@@ -388,13 +388,15 @@ void FillHeadingRanges(Survey* survey) {
     range.item_end = first_item[h] < 0 ? next_item : end_item[h];
     next_item = range.item_end;
   }
-  const CellPrices& cells = survey->cells;
-  int64_t k = 0;
+  // The cells are in item order: each heading's end is found by a binary
+  // search (a scan of the cells took a serial pass over millions of them).
+  const std::vector<int32_t>& cell_item = survey->cells.item;
+  auto k = cell_item.begin();
   for (int h = 0; h < num_headings; ++h) {
     HeadingRange& range = survey->heading_range[h];
-    range.cell_begin = k;
-    while (k < static_cast<int64_t>(cells.size()) && cells.item[k] < range.item_end) ++k;
-    range.cell_end = k;
+    range.cell_begin = k - cell_item.begin();
+    k = std::lower_bound(k, cell_item.end(), range.item_end);
+    range.cell_end = k - cell_item.begin();
   }
 }
 

@@ -231,6 +231,7 @@ struct ChunkResult {
     rows_used = 0;
     num_rows_without_reference = 0;
     items_without_heading.clear();
+    items_with_local_origin.clear();
     fatal.clear();
     cascade_rows.clear();
     num_cascade_not_kept = 0;
@@ -247,6 +248,9 @@ struct ChunkResult {
   // Local items rejected for an empty heading before this chunk stated one;
   // an earlier chunk may have stated it, which only a pass in order sees.
   std::vector<int> items_without_heading;
+  // Local items whose heading conflict named the line of this chunk that
+  // first stated their heading; an earlier chunk may have stated it first.
+  std::vector<int> items_with_local_origin;
   std::string fatal;  // malformed CSV
   // Rows left out per rejected code (index in LoadState::rejected_codes),
   // and how many of them were not kept.
@@ -619,6 +623,7 @@ class ChunkParser {
     if (info.local_heading < 0) {
       *new_heading = out_->headings.Intern(heading);
     } else if (!EqualBytes(out_->headings.Code(info.local_heading), heading)) {
+      out_->items_with_local_origin.push_back(item_local_);
       RejectConflict(item_code, heading, out_->headings.Code(info.local_heading),
                      ItemOrigin(state_, path_, out_->item_line[item_local_]));
       return false;
@@ -753,28 +758,36 @@ void ParsePriceChunk(std::string_view data, int64_t first_line, const PriceColum
       .Run();
 }
 
-// Chunk start offsets at record boundaries, about kChunkBytes apart.
+// The bytes of the chunk that starts at `start` of a block of `size` bytes:
+// kChunkBytes, but a quarter of that in the block's last two chunks' worth,
+// so that the threads, which all wait for the block's last chunk, wait for
+// a short one.
+size_t ChunkBytesAt(size_t start, size_t size) {
+  return size - start > 2 * kChunkBytes ? kChunkBytes : kChunkBytes / 4;
+}
+
+// Chunk start offsets at record boundaries, ChunkBytesAt apart or a little more.
 std::vector<size_t> ChunkStarts(std::string_view data) {
   std::vector<size_t> starts = {0};
   const bool has_quotes = std::memchr(data.data(), '"', data.size()) != nullptr;
   if (!has_quotes) {
-    size_t next = kChunkBytes;
+    size_t next = ChunkBytesAt(0, data.size());
     while (next < data.size()) {
       const size_t newline = data.find('\n', next);
       if (newline == std::string_view::npos || newline + 1 >= data.size()) break;
       starts.push_back(newline + 1);
-      next = newline + 1 + kChunkBytes;
+      next = newline + 1 + ChunkBytesAt(newline + 1, data.size());
     }
     return starts;
   }
   bool quoted = false;
-  size_t next = kChunkBytes;
+  size_t next = ChunkBytesAt(0, data.size());
   for (size_t i = 0; i + 1 < data.size(); ++i) {
     const char c = data[i];
     if (c == '"') quoted = !quoted;
     if (c == '\n' && !quoted && i + 1 >= next) {
       starts.push_back(i + 1);
-      next = i + 1 + kChunkBytes;
+      next = i + 1 + ChunkBytesAt(i + 1, data.size());
     }
   }
   return starts;
@@ -986,8 +999,9 @@ class PriceReader {
     }
     if (HasCrossChunkConflict(results)) {
       // Two chunks state different headings for a new item, or a chunk
-      // lacks a heading an earlier chunk stated: only a pass in file order
-      // can tell which statement comes first. It writes over the slices.
+      // lacks a heading or names the first statement of one an earlier
+      // chunk stated: only a pass in file order can tell which statement
+      // comes first. It writes over the slices.
       results.resize(1);
       results[0].Reset();
       SetSlice(slot_begin[0], slot_begin[num_chunks], &results[0]);
@@ -1112,6 +1126,10 @@ class PriceReader {
     std::unordered_map<std::string_view, std::string_view> stated;
     for (const ChunkResult& result : results) {
       for (int i : result.items_without_heading) {
+        if (stated.count(result.items.Code(i)) > 0) return true;
+      }
+      // A conflict must name the block's first statement, not the chunk's.
+      for (int i : result.items_with_local_origin) {
         if (stated.count(result.items.Code(i)) > 0) return true;
       }
       for (int i = 0; i < result.items.size(); ++i) {

@@ -1127,6 +1127,20 @@ TEST(LoadSurvey, ReportsTheFirstHeadingConflictInFileOrderAcrossChunks) {
                                                     "but under 'first' at line 120002");
 }
 
+TEST(LoadSurvey, NamesTheFirstStatementOfAHeadingRestatedInALaterChunk) {
+  // A new item's heading is stated at line 2, stated again more than a
+  // chunk later, and contradicted after that: the message names line 2
+  // (the first statement in the file), wherever the chunks end.
+  std::string prices = "region,item,price,heading\nr1,late,2,first\n";
+  for (int row = 0; row < 150000; ++row) prices += "r" + std::to_string(row % 5) + ",filler,1.5,h\n";
+  prices += "r1,late,2,first\n";
+  for (int row = 0; row < 1000; ++row) prices += "r" + std::to_string(row % 5) + ",filler,1.5,h\n";
+  prices += "r2,late,2,second\n";
+  const SurveyDir files = MakeSurvey("restated_heading", prices);
+  EXPECT_EQ(FirstRejection(files), files.prices() + ":151004:4: item 'late' is filed under heading "
+                                                    "'second' but under 'first' at line 2");
+}
+
 TEST(LoadSurvey, DoesNotMixUpCodesWrittenWithDoubledQuotes) {
   const SurveyDir files = MakeSurvey("doubled_quotes",
                                         "region,item,price,heading\n"
