@@ -186,6 +186,19 @@ PARITAS_AVX2_FMA inline __attribute__((always_inline)) void AccumulateTile(
   }
 }
 
+// Stores a tile's first `num_columns` columns to `out` (column stride
+// ld_out): each column's vectors whole but the last, masked to the tile's
+// rows (`last_mask`).
+PARITAS_AVX2_FMA inline __attribute__((always_inline)) void StoreTile(
+    const __m256d acc[kMaxVectors][kTileColumns], int num_vectors, int num_columns,
+    __m256i last_mask, double* out, int64_t ld_out) {
+  for (int c = 0; c < num_columns; ++c) {
+    double* column = out + c * ld_out;
+    for (int v = 0; v + 1 < num_vectors; ++v) _mm256_storeu_pd(column + kLanes * v, acc[v][c]);
+    _mm256_maskstore_pd(column + kLanes * (num_vectors - 1), last_mask, acc[num_vectors - 1][c]);
+  }
+}
+
 // AccumulateTile with the number of vectors as a constant.
 PARITAS_AVX2_FMA void ComputeTile(int num_vectors, const TileOperands& t,
                                   __m256d acc[kMaxVectors][kTileColumns]) {
@@ -288,14 +301,7 @@ PARITAS_AVX2_FMA void MultiplyTiles(const ProductOperands& x, double* packed, do
                                .ld_start = ld_out,
                                .start_columns = num_columns};
           ComputeTile(num_vectors, t, acc);
-          for (int c = 0; c < num_columns; ++c) {
-            double* column = tile_out + c * ld_out;
-            for (int v = 0; v + 1 < num_vectors; ++v) {
-              _mm256_storeu_pd(column + kLanes * v, acc[v][c]);
-            }
-            _mm256_maskstore_pd(column + kLanes * (num_vectors - 1), last_mask,
-                                acc[num_vectors - 1][c]);
-          }
+          StoreTile(acc, num_vectors, num_columns, last_mask, tile_out, ld_out);
         }
       }
     }
@@ -355,15 +361,7 @@ PARITAS_AVX2_FMA void SubtractGramLowerTiles(int m, int n, const double* x, int6
                              .start_columns = num_columns};
         ComputeTile(num_vectors, t, acc);
         if (!last_block) {
-          const __m256i last_mask = FirstLanes(last_rows);
-          for (int c = 0; c < num_columns; ++c) {
-            double* column = tile_partial + static_cast<int64_t>(c) * m;
-            for (int v = 0; v + 1 < num_vectors; ++v) {
-              _mm256_storeu_pd(column + kLanes * v, acc[v][c]);
-            }
-            _mm256_maskstore_pd(column + kLanes * (num_vectors - 1), last_mask,
-                                acc[num_vectors - 1][c]);
-          }
+          StoreTile(acc, num_vectors, num_columns, FirstLanes(last_rows), tile_partial, m);
           continue;
         }
         for (int v = 0; v < num_vectors; ++v) {
