@@ -383,11 +383,17 @@ PARITAS_AVX2_FMA void SubtractGramLowerTiles(int m, int n, const double* x, int6
 void SubtractGramLowerAvx2Fma(int m, int n, const double* x, int64_t ld_x, double* s,
                               int64_t ld_s) {
   if (n == 0) return;  // s - 0 is s, -0 included; x may then be null
-  // The partial sums, kept by the thread between calls (m x m).
-  thread_local std::vector<double> partial;
-  if (n > kDepthBlock && partial.size() < static_cast<size_t>(m) * m) {
-    partial.resize(static_cast<size_t>(m) * m);
-  }
+  // The partial sums (m x m): kept by the thread between calls up to
+  // kKeptPartialDoubles (the CPD's and the screen's m is the smaller side of
+  // a heading, 50 on the benchmark surveys), freed after the call beyond it
+  // (a heading of thousands of regions and items would otherwise leave each
+  // thread tens of megabytes).
+  constexpr size_t kKeptPartialDoubles = size_t{1} << 17;  // 1 MiB
+  const size_t size = n > kDepthBlock ? static_cast<size_t>(m) * m : 0;
+  thread_local std::vector<double> kept;
+  std::vector<double> large;
+  std::vector<double>& partial = size <= kKeptPartialDoubles ? kept : large;
+  if (partial.size() < size) partial.resize(size);
   SubtractGramLowerTiles(m, n, x, ld_x, partial.data(), s, ld_s);
 }
 
