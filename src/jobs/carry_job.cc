@@ -302,7 +302,8 @@ std::vector<OutputFile> CarryFiles(const CarryOptions& options, const RunConfig&
   const Survey& survey = summary->survey;
   const ParityResult& result = summary->result;
   const ContributionTable contributions =
-      HeadingContributions(survey, result, ComputeOptions::FromConfig(config).reference);
+      HeadingContributions(survey, result, ComputeOptions::FromConfig(config).reference,
+                           config.threads);
   std::vector<OutputFile> files;
   files.push_back(
       {"parities.csv", ParitiesCsv(survey, result, &summary->plausibility, summary->period)});

@@ -500,7 +500,7 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary,
 
   // Each heading's part in each region's ln parity (contributions.csv, report).
   const ContributionTable contributions =
-      HeadingContributions(survey, result, options.reference);
+      HeadingContributions(survey, result, options.reference, options.num_threads);
   summary->stages.push_back({"contributions", lap()});
 
   // Outputs, written whole or not at all. The write stage runs from here to

@@ -8,6 +8,8 @@
 // heading (regions x headings when every region has every heading).
 #include "paritas/use/heading_contributions.h"
 
+#include <omp.h>
+
 #include <algorithm>
 #include <cmath>
 #include <iterator>
@@ -217,7 +219,7 @@ RegionContributions AgainstAverageRow(const Survey& survey, const NodeInputs& in
 // Against the average region, every region; regions in parallel (each
 // region's row is its own, so the result does not depend on the threads).
 void AgainstAverage(const Survey& survey, const NodeInputs& in, const NodeResult& n, int node,
-                    std::vector<RegionContributions>* rows) {
+                    int num_threads, std::vector<RegionContributions>* rows) {
   const int num_headings = static_cast<int>(in.share.cols());
   const int num_regions = static_cast<int>(in.usable.size());
   std::vector<double> mean_share(num_headings, 0.0), count(num_headings, 0.0);
@@ -239,7 +241,7 @@ void AgainstAverage(const Survey& survey, const NodeInputs& in, const NodeResult
   // long.
   const double pair_work =
       static_cast<double>(sums.not_full.size()) * num_regions * std::max(num_headings, 1);
-#pragma omp parallel for schedule(dynamic, 4) if (pair_work > 4e6)
+#pragma omp parallel for schedule(dynamic, 4) if (pair_work > 4e6) num_threads(num_threads)
   for (int r = 0; r < num_regions; ++r) {
     if (in.usable[r]) by_region[r] = AgainstAverageRow(survey, in, n, node, r, mean_share, sums);
   }
@@ -251,7 +253,8 @@ void AgainstAverage(const Survey& survey, const NodeInputs& in, const NodeResult
 }  // namespace
 
 ContributionTable HeadingContributions(const Survey& survey, const ParityResult& result,
-                                       const Reference& reference) {
+                                       const Reference& reference, int num_threads) {
+  const int threads = num_threads > 0 ? num_threads : omp_get_max_threads();
   ContributionTable table;
   const int reference_region =
       reference.kind == ReferenceKind::kRegion ? survey.regions.Find(reference.region) : -1;
@@ -270,7 +273,7 @@ ContributionTable HeadingContributions(const Survey& survey, const ParityResult&
     if (reference_region >= 0 && in.usable[reference_region]) {
       AgainstRegion(survey, in, n, node, reference_region, &rows);
     } else {
-      AgainstAverage(survey, in, n, node, &rows);
+      AgainstAverage(survey, in, n, node, threads, &rows);
     }
     for (RegionContributions& row : rows) {
       for (HeadingContribution& c : row.headings) {
@@ -285,7 +288,7 @@ ContributionTable HeadingContributions(const Survey& survey, const ParityResult&
     (result.nodes[node].is_heading ? headings : aggregates).push_back(node);
   }
   const int num_heading_nodes = static_cast<int>(headings.size());
-#pragma omp parallel for schedule(dynamic, 4)
+#pragma omp parallel for schedule(dynamic, 4) num_threads(threads)
   for (int k = 0; k < num_heading_nodes; ++k) split(headings[k]);
   for (int node : aggregates) split(node);
   size_t total = 0;

@@ -22,7 +22,8 @@ struct ComputeOptions {
   // Registry name of the aggregation method (aggregation_method.h).
   std::string aggregation = "geks-fisher";
   Reference reference;
-  // Worker threads for headings; 0 = all cores.
+  // Worker threads for the headings, the aggregates and the nodes' finish;
+  // 0 = all cores.
   int num_threads = 0;
   // Aggregate nodes whose bilateral matrices are kept in the result (for
   // bilateral tables and spreads); the root's too unless

@@ -93,8 +93,10 @@ struct ContributionTable {
 // when many miss one (their pairs are visited one by one). `reference` is the run's
 // (ComputeOptions::reference); a node whose reference region has no parity there (reference_used
 // "mean (reference region absent)") is split against the average region.
+// `num_threads`: worker threads (0 = all cores, OpenMP's default); the rows
+// do not depend on it.
 ContributionTable HeadingContributions(const Survey& survey, const ParityResult& result,
-                                       const Reference& reference);
+                                       const Reference& reference, int num_threads = 0);
 
 // contributions.csv: node,region,heading,share,weight,heading_parity,
 // price_part,adjustment,log_contribution; one row per node x region with a
