@@ -906,6 +906,21 @@ std::string CheckSurveyLoader(std::string_view data, const std::string& work_dir
       return "small blocks against one block: " + d;
     }
   }
+  // Chunk-size equivalence: chunks of a few records each cross a chunk
+  // boundary at almost every row (a heading restated or contradicted in a
+  // later chunk, codes new to the block in several chunks).
+  Survey small_chunks;
+  LoadSummary small_chunks_summary;
+  options.chunk_bytes = 64;
+  LoadSurvey(config, options, &small_chunks, &small_chunks_summary);
+  if (std::string d = SummaryDifference(one_block_summary, small_chunks_summary); !d.empty()) {
+    return "small chunks against one block: " + d;
+  }
+  if (one_block_summary.outcome == LoadOutcome::kOk) {
+    if (std::string d = SurveyDifference(one_block, small_chunks); !d.empty()) {
+      return "small chunks against one block: " + d;
+    }
+  }
   return "";
 }
 

@@ -31,10 +31,6 @@
 namespace paritas::internal {
 namespace {
 
-// Chunk size for parallel parsing: boundaries depend on the data only. 1 MiB
-// chunks, which halve a block's wait for its last chunk, read L more slowly
-// (0.436 against 0.484 s on two threads, medians of 5; bench/HISTORY.md).
-constexpr size_t kChunkBytes = 1 << 21;
 
 struct PriceColumns {
   int region = -1, item = -1, price = -1, heading = -1, representative = -1;
@@ -759,35 +755,35 @@ void ParsePriceChunk(std::string_view data, int64_t first_line, const PriceColum
 }
 
 // The bytes of the chunk that starts at `start` of a block of `size` bytes:
-// kChunkBytes, but a quarter of that in the block's last two chunks' worth,
-// so that the threads, which all wait for the block's last chunk, wait for
-// a short one.
-size_t ChunkBytesAt(size_t start, size_t size) {
-  return size - start > 2 * kChunkBytes ? kChunkBytes : kChunkBytes / 4;
+// `chunk` (LoadOptions::chunk_bytes), but a quarter of that in the block's
+// last two chunks' worth, so that the threads, which all wait for the
+// block's last chunk, wait for a short one.
+size_t ChunkBytesAt(size_t start, size_t size, size_t chunk) {
+  return size - start > 2 * chunk ? chunk : std::max<size_t>(chunk / 4, 1);
 }
 
 // Chunk start offsets at record boundaries, ChunkBytesAt apart or a little more.
-std::vector<size_t> ChunkStarts(std::string_view data) {
+std::vector<size_t> ChunkStarts(std::string_view data, size_t chunk) {
   std::vector<size_t> starts = {0};
   const bool has_quotes = std::memchr(data.data(), '"', data.size()) != nullptr;
   if (!has_quotes) {
-    size_t next = ChunkBytesAt(0, data.size());
+    size_t next = ChunkBytesAt(0, data.size(), chunk);
     while (next < data.size()) {
       const size_t newline = data.find('\n', next);
       if (newline == std::string_view::npos || newline + 1 >= data.size()) break;
       starts.push_back(newline + 1);
-      next = newline + 1 + ChunkBytesAt(newline + 1, data.size());
+      next = newline + 1 + ChunkBytesAt(newline + 1, data.size(), chunk);
     }
     return starts;
   }
   bool quoted = false;
-  size_t next = ChunkBytesAt(0, data.size());
+  size_t next = ChunkBytesAt(0, data.size(), chunk);
   for (size_t i = 0; i + 1 < data.size(); ++i) {
     const char c = data[i];
     if (c == '"') quoted = !quoted;
     if (c == '\n' && !quoted && i + 1 >= next) {
       starts.push_back(i + 1);
-      next = i + 1 + ChunkBytesAt(i + 1, data.size());
+      next = i + 1 + ChunkBytesAt(i + 1, data.size(), chunk);
     }
   }
   return starts;
@@ -800,9 +796,10 @@ struct ChunkPlan {
   std::vector<size_t> starts;
   std::vector<int64_t> lines;
 
-  // Plans the chunks of `data` (whole records) starting at line `first_line`.
-  void Make(std::string_view data, int64_t first_line) {
-    starts = ChunkStarts(data);
+  // Plans the chunks of `data` (whole records) starting at line
+  // `first_line`, about `chunk` bytes each.
+  void Make(std::string_view data, int64_t first_line, size_t chunk) {
+    starts = ChunkStarts(data, chunk);
     lines.assign(starts.size() + 1, first_line);
     for (size_t c = 0; c < starts.size(); ++c) {
       const size_t end = c + 1 < starts.size() ? starts[c + 1] : data.size();
@@ -840,6 +837,8 @@ class PriceReader {
   }
 
  private:
+  size_t ChunkBytes() const { return static_cast<size_t>(options_.chunk_bytes); }
+
   // The blocks hold whole records (CsvBlockReader); the first holds the
   // header whole. The next block is read while this one is parsed; a
   // failure to read it (*read_error) counts once this one is done.
@@ -860,9 +859,9 @@ class PriceReader {
         data.remove_prefix(reader.position());
         line = reader.line();
         header_done = true;
-        plan.Make(data, line);
+        plan.Make(data, line, ChunkBytes());
       } else if (!header_done) {
-        plan.Make(data, line);  // blank lines before the header
+        plan.Make(data, line, ChunkBytes());  // blank lines before the header
       }
       // The new bytes are hashed alongside the parse of their block; the
       // next block is read and planned meanwhile (after the header, which
@@ -870,7 +869,7 @@ class PriceReader {
       bool has_next = false;
       const auto read_next = [&] {
         has_next = blocks->Next(&next, read_error);
-        if (has_next && header_done) next_plan.Make(next.records, next.first_line);
+        if (has_next && header_done) next_plan.Make(next.records, next.first_line, ChunkBytes());
       };
       if (!ParseBlock(data, plan, block.fresh, read_next, error)) return false;
       std::swap(block, next);

@@ -183,6 +183,10 @@ bool LoadOptions::IsValid(std::string* error) const {
     *error = "block_bytes must be positive";
     return false;
   }
+  if (chunk_bytes < 1) {
+    *error = "chunk_bytes must be positive";
+    return false;
+  }
   return true;
 }
 

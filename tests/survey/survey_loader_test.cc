@@ -159,6 +159,10 @@ TEST(LoadOptions, DefaultsAreValid) {
   options.block_bytes = 0;
   EXPECT_FALSE(options.IsValid(&error));
   EXPECT_EQ(error, "block_bytes must be positive");
+  options = LoadOptions();
+  options.chunk_bytes = 0;
+  EXPECT_FALSE(options.IsValid(&error));
+  EXPECT_EQ(error, "chunk_bytes must be positive");
 }
 
 TEST(LoadSurvey, ComputesGeometricMeanCountSdMinAndMaxPerCell) {
@@ -963,7 +967,8 @@ TEST(LoadSurvey, GivesTheSameCellsAndRejectionsForOneAndTwoThreads) {
 // Each chunk of a block writes its quotes into room for one quote per line
 // feed: rows rejected and records spanning two lines leave gaps that must be
 // closed in file order. One chunk per block (4 KiB blocks) leaves none
-// between chunks, and the file without its rejected rows none at all.
+// between chunks, chunks of 100 bytes leave them at almost every chunk's
+// end, and the file without its rejected rows none at all.
 TEST(LoadSurvey, ClosesTheGapsLeftByRejectedRowsBetweenTheChunksOfABlock) {
   std::string prices = "region,item,description,price,heading\n";
   std::string clean = prices;
@@ -986,13 +991,16 @@ TEST(LoadSurvey, ClosesTheGapsLeftByRejectedRowsBetweenTheChunksOfABlock) {
   ASSERT_EQ(Load(clean_files.config, &without_bad_rows, options).outcome, LoadOutcome::kOk);
   for (const int num_threads : {1, 2}) {
     for (const int64_t block_bytes : {int64_t{16} << 20, int64_t{4096}}) {
-      options.num_threads = num_threads;
-      options.block_bytes = block_bytes;
-      Survey survey;
-      const LoadSummary summary = Load(files.config, &survey, options);
-      ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
-      EXPECT_EQ(summary.rejected_rows.size(), static_cast<size_t>((kNumLargeRows - 1) / 53));
-      ExpectSameCells(survey, without_bad_rows);
+      for (const int64_t chunk_bytes : {int64_t{2} << 20, int64_t{100}}) {
+        options.num_threads = num_threads;
+        options.block_bytes = block_bytes;
+        options.chunk_bytes = chunk_bytes;
+        Survey survey;
+        const LoadSummary summary = Load(files.config, &survey, options);
+        ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
+        EXPECT_EQ(summary.rejected_rows.size(), static_cast<size_t>((kNumLargeRows - 1) / 53));
+        ExpectSameCells(survey, without_bad_rows);
+      }
     }
   }
 }
