@@ -18,6 +18,7 @@
 #include <limits>
 #include <string>
 #include <unordered_map>
+#include <utility>
 #include <vector>
 
 #include "base/equal_bytes.h"
@@ -228,6 +229,7 @@ struct ChunkResult {
     num_rows_without_reference = 0;
     items_without_heading.clear();
     items_with_local_origin.clear();
+    rejected_first_statements.clear();
     fatal.clear();
     cascade_rows.clear();
     num_cascade_not_kept = 0;
@@ -247,6 +249,11 @@ struct ChunkResult {
   // Local items whose heading conflict named the line of this chunk that
   // first stated their heading; an earlier chunk may have stated it first.
   std::vector<int> items_with_local_origin;
+  // (local item, local heading) of rows that were the chunk's first to state
+  // a new item's heading and were rejected for a later field (the price,
+  // say): had an earlier chunk stated another heading, a pass in order
+  // would have rejected them for the conflict instead.
+  std::vector<std::pair<int, int>> rejected_first_statements;
   std::string fatal;  // malformed CSV
   // Rows left out per rejected code (index in LoadState::rejected_codes),
   // and how many of them were not kept.
@@ -388,6 +395,7 @@ class ChunkParser {
         if ((info.global < 0 || has_heading_) && !ReadHeading(info, &new_heading)) continue;
         if (!ReadPrice(&price) || !ReadFlag(&representative) ||
             !ReadPositive(columns_.weight, "weight", &weight) || !ConvertPrice(&info, &price)) {
+          if (new_heading >= 0) out_->rejected_first_statements.emplace_back(item_local_, new_heading);
           continue;
         }
         if (new_heading >= 0) {
@@ -1130,6 +1138,12 @@ class PriceReader {
       // A conflict must name the block's first statement, not the chunk's.
       for (int i : result.items_with_local_origin) {
         if (stated.count(result.items.Code(i)) > 0) return true;
+      }
+      // A row rejected for its price after stating a heading an earlier
+      // chunk contradicts is, in file order, rejected for the conflict.
+      for (const auto& [i, h] : result.rejected_first_statements) {
+        const auto it = stated.find(result.items.Code(i));
+        if (it != stated.end() && it->second != result.headings.Code(h)) return true;
       }
       for (int i = 0; i < result.items.size(); ++i) {
         const LocalItem& info = result.item_info[i];
