@@ -31,6 +31,7 @@
 #include <string_view>
 #include <vector>
 
+#include "base/median.h"
 #include "base/plain_decimal.h"
 #include "base/sha256.h"
 #include "paritas/base/code_table.h"
@@ -110,12 +111,6 @@ PartResult ReadPart(const char* begin, const char* end, const Columns& columns, 
   return result;
 }
 
-double Median(std::vector<double> values) {
-  std::sort(values.begin(), values.end());
-  const size_t n = values.size();
-  return n % 2 == 1 ? values[n / 2] : 0.5 * (values[n / 2 - 1] + values[n / 2]);
-}
-
 // Median seconds of `runs` calls of `work`.
 double TimeRuns(int runs, const std::function<void()>& work) {
   std::vector<double> seconds;
@@ -124,7 +119,7 @@ double TimeRuns(int runs, const std::function<void()>& work) {
     work();
     seconds.push_back(std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count());
   }
-  return Median(seconds);
+  return paritas::MedianInPlace(&seconds);
 }
 
 }  // namespace
