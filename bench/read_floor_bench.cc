@@ -181,6 +181,10 @@ int main(int argc, char** argv) {
     });
     rows = 0;
     for (const PartResult& part : parts) rows += part.rows;
+    if (rows == 0) {
+      std::fprintf(stderr, "read_floor_bench: %s has no rows below its header\n", argv[1]);
+      return 1;
+    }
     report(step == Step::kSplit ? "split" : step == Step::kParseAndIntern ? "parse and intern" : "+ log", seconds,
            threads);
     if (step == Step::kParseInternAndLog) floor_seconds = seconds;
