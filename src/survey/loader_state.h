@@ -156,6 +156,8 @@ struct LoadState {
   int64_t num_quotes = 0;
   // Index of the first quote of each price file, in the order read.
   std::vector<size_t> quote_file_begin;
+  // LoadSummary::num_quote_array_moves.
+  int num_quote_array_moves = 0;
   // Items whose quotes gave a quantity without the item having a
   // reference_quantity (taken as 1), and those quotes.
   std::set<int> items_without_reference;

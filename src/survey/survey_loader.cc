@@ -299,6 +299,7 @@ bool LoadSurvey(const RunConfig& config, const LoadOptions& options, Survey* sur
     }
   }
   summary->read_seconds = SecondsSince(start);
+  summary->num_quote_array_moves = state.num_quote_array_moves;
   SummariseRejections(price_files[0]->path, &state, summary);
   if (!state.items_without_reference.empty()) {
     summary->warnings.push_back(WithoutReferenceWarning(state));

@@ -943,6 +943,53 @@ TEST(LoadSurvey, ReadsKnownCodesInLaterBlocksAsInTheBlockThatStatedThem) {
   }
 }
 
+// The quote arrays are reserved for the whole file from its size and the
+// first block's rows per byte: a file of 40 blocks (more than the 16 times
+// the first block's rows the reservation was once held to) is read without
+// moving them.
+TEST(LoadSurvey, ReservesTheQuotesOfAFileOfManyBlocksOnce) {
+  std::string prices = "region,item,price,heading\n";
+  for (int row = 0; prices.size() < 40 << 16; ++row) {
+    prices += "r" + std::to_string(row % 3) + ",item" + std::to_string(row % 50) + "," +
+              std::to_string(10 + row % 89) + ",h1\n";
+  }
+  const SurveyDir files = MakeSurvey("many_blocks", prices, "region,heading,expenditure\nr0,h1,1\nr1,h1,1\nr2,h1,1\n");
+  LoadOptions options;
+  options.block_bytes = 1 << 16;  // the smallest block
+  Survey survey;
+  const LoadSummary summary = Load(files.config, &survey, options);
+  ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
+  EXPECT_EQ(survey.num_quotes, std::count(prices.begin(), prices.end(), '\n') - 1);
+  EXPECT_EQ(summary.num_quote_array_moves, 0);
+}
+
+// Rows that get shorter after the first block outgrow the reservation: the
+// arrays are reserved again from the rows per byte seen by then, and every
+// quote is kept.
+TEST(LoadSurvey, ReservesTheQuotesAgainWhenLaterBlocksHoldMoreRows) {
+  std::string prices = "region,item,price,heading,note\n";
+  const std::string long_note(200, 'x');
+  int32_t rows_of[2] = {0, 0};
+  while (prices.size() < 1 << 16) {
+    prices += "r0,bread,2.5,h1," + long_note + "\n";
+    ++rows_of[0];
+  }
+  for (int row = 0; prices.size() < 20 << 16; ++row) {
+    prices += "r" + std::to_string(row % 2) + ",bread,3,h1,\n";
+    ++rows_of[row % 2];
+  }
+  const int num_rows = rows_of[0] + rows_of[1];
+  const SurveyDir files = MakeSurvey("shorter_rows", prices, "region,heading,expenditure\nr0,h1,1\nr1,h1,1\n");
+  LoadOptions options;
+  options.block_bytes = 1 << 16;  // the smallest block
+  Survey survey;
+  const LoadSummary summary = Load(files.config, &survey, options);
+  ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
+  EXPECT_EQ(survey.num_quotes, num_rows);
+  EXPECT_GE(summary.num_quote_array_moves, 1);
+  EXPECT_EQ(survey.cells.num_quotes, (std::vector<int32_t>{rows_of[0], rows_of[1]}));
+}
+
 TEST(LoadSurvey, GivesTheSameCellsAndRejectionsForOneAndTwoThreads) {
   std::string prices = LargePrices();
   prices += "r1,item1,x,-2,h1,0\n";

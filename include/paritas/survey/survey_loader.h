@@ -156,6 +156,10 @@ struct LoadSummary {
   // table, external parities, groups): the two cover the load whole.
   double read_seconds = 0.0;
   double cells_seconds = 0.0;
+  // Times a price file's quotes outgrew the room reserved for them (from
+  // the file's size and the records per byte of its blocks so far) and were
+  // moved to a larger reservation: 0 when the first estimate held.
+  int num_quote_array_moves = 0;
 
   // One line: "read 12,345 quotes for 16 regions, 200 items, 30 headings; 0 rows rejected".
   std::string BriefReport() const;
