@@ -24,7 +24,6 @@
 #include <vector>
 
 #include "base/equal_bytes.h"
-#include "base/huge_pages.h"
 #include "base/plain_decimal.h"
 #include "base/sha256.h"
 #include "paritas/base/csv.h"
@@ -1076,14 +1075,11 @@ class PriceReader {
       if (columns_.weight >= 0) quotes.weight.reserve(total);
       quotes.row_hash.reserve(total);
     } catch (const std::bad_alloc&) {
-      return;  // GrowQuotes sizes them as it can
+      // GrowQuotes sizes them as it can.
     }
-    AdviseHugePages(quotes.region);
-    AdviseHugePages(quotes.item);
-    AdviseHugePages(quotes.log_price);
-    AdviseHugePages(quotes.representative);
-    AdviseHugePages(quotes.weight);
-    AdviseHugePages(quotes.row_hash);
+    // No huge pages: written once, in file order, by the parsing threads,
+    // these arrays took longer to read into with them (README, "Measuring
+    // on this machine": a huge page's first write waits for 2 MiB at once).
   }
 
   // Bytes of the survey's arrays per quote of this file.
