@@ -990,6 +990,37 @@ TEST(LoadSurvey, ReservesTheQuotesAgainWhenLaterBlocksHoldMoreRows) {
   EXPECT_EQ(survey.cells.num_quotes, (std::vector<int32_t>{rows_of[0], rows_of[1]}));
 }
 
+// A pipe has no size to reserve by: the quote arrays then grow by at least
+// half at each renewal (a few renewals over 40 blocks, not one per block),
+// and every quote is kept.
+TEST(LoadSurvey, GrowsTheQuotesOfAPipeGeometrically) {
+  std::string prices = "region,item,price,heading\n";
+  for (int row = 0; prices.size() < 40 << 16; ++row) {
+    prices += "r" + std::to_string(row % 3) + ",item" + std::to_string(row % 50) + "," +
+              std::to_string(10 + row % 89) + ",h1\n";
+  }
+  SurveyDir files = MakeSurvey("many_blocks_fifo", std::nullopt,
+                               "region,heading,expenditure\nr0,h1,1\nr1,h1,1\nr2,h1,1\n");
+  const std::string fifo = files.dir + "/prices.fifo";
+  ASSERT_EQ(::mkfifo(fifo.c_str(), 0600), 0);
+  files.config.survey.prices = {PriceSource{fifo, CsvFormat(), {}}};
+  std::thread writer([&fifo, &prices] {
+    std::FILE* out = std::fopen(fifo.c_str(), "wb");
+    if (out == nullptr) return;
+    std::fwrite(prices.data(), 1, prices.size(), out);
+    std::fclose(out);
+  });
+  LoadOptions options;
+  options.block_bytes = 1 << 16;
+  Survey survey;
+  const LoadSummary summary = Load(files.config, &survey, options);
+  writer.join();
+  ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
+  EXPECT_EQ(survey.num_quotes, std::count(prices.begin(), prices.end(), '\n') - 1);
+  EXPECT_GE(summary.num_quote_array_moves, 1);
+  EXPECT_LE(summary.num_quote_array_moves, 12);  // 1.5^9 > 39
+}
+
 TEST(LoadSurvey, GivesTheSameCellsAndRejectionsForOneAndTwoThreads) {
   std::string prices = LargePrices();
   prices += "r1,item1,x,-2,h1,0\n";
