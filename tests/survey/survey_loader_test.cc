@@ -943,21 +943,35 @@ TEST(LoadSurvey, ReadsKnownCodesInLaterBlocksAsInTheBlockThatStatedThem) {
   }
 }
 
+// At least `bytes` of quote rows for three regions and 50 items of one
+// heading (kThreeRegionsSpending), one line each.
+std::string UniformPrices(size_t bytes) {
+  std::string prices = "region,item,price,heading\n";
+  for (int row = 0; prices.size() < bytes; ++row) {
+    prices += "r" + std::to_string(row % 3) + ",item" + std::to_string(row % 50) + "," +
+              std::to_string(10 + row % 89) + ",h1\n";
+  }
+  return prices;
+}
+constexpr char kThreeRegionsSpending[] = "region,heading,expenditure\nr0,h1,1\nr1,h1,1\nr2,h1,1\n";
+
+// Loads in the smallest blocks (64 KiB), so that a file of a few MB is read
+// in tens of them.
+LoadSummary LoadInSmallestBlocks(const RunConfig& config, Survey* survey) {
+  LoadOptions options;
+  options.block_bytes = 1 << 16;
+  return Load(config, survey, options);
+}
+
 // The quote arrays are reserved for the whole file from its size and the
 // first block's rows per byte: a file of 40 blocks (more than the 16 times
 // the first block's rows the reservation was once held to) is read without
 // moving them.
 TEST(LoadSurvey, ReservesTheQuotesOfAFileOfManyBlocksOnce) {
-  std::string prices = "region,item,price,heading\n";
-  for (int row = 0; prices.size() < 40 << 16; ++row) {
-    prices += "r" + std::to_string(row % 3) + ",item" + std::to_string(row % 50) + "," +
-              std::to_string(10 + row % 89) + ",h1\n";
-  }
-  const SurveyDir files = MakeSurvey("many_blocks", prices, "region,heading,expenditure\nr0,h1,1\nr1,h1,1\nr2,h1,1\n");
-  LoadOptions options;
-  options.block_bytes = 1 << 16;  // the smallest block
+  const std::string prices = UniformPrices(40 << 16);
+  const SurveyDir files = MakeSurvey("many_blocks", prices, kThreeRegionsSpending);
   Survey survey;
-  const LoadSummary summary = Load(files.config, &survey, options);
+  const LoadSummary summary = LoadInSmallestBlocks(files.config, &survey);
   ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
   EXPECT_EQ(survey.num_quotes, std::count(prices.begin(), prices.end(), '\n') - 1);
   EXPECT_EQ(summary.num_quote_array_moves, 0);
@@ -978,14 +992,11 @@ TEST(LoadSurvey, ReservesTheQuotesAgainWhenLaterBlocksHoldMoreRows) {
     prices += "r" + std::to_string(row % 2) + ",bread,3,h1,\n";
     ++rows_of[row % 2];
   }
-  const int num_rows = rows_of[0] + rows_of[1];
   const SurveyDir files = MakeSurvey("shorter_rows", prices, "region,heading,expenditure\nr0,h1,1\nr1,h1,1\n");
-  LoadOptions options;
-  options.block_bytes = 1 << 16;  // the smallest block
   Survey survey;
-  const LoadSummary summary = Load(files.config, &survey, options);
+  const LoadSummary summary = LoadInSmallestBlocks(files.config, &survey);
   ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
-  EXPECT_EQ(survey.num_quotes, num_rows);
+  EXPECT_EQ(survey.num_quotes, rows_of[0] + rows_of[1]);
   EXPECT_GE(summary.num_quote_array_moves, 1);
   EXPECT_EQ(survey.cells.num_quotes, (std::vector<int32_t>{rows_of[0], rows_of[1]}));
 }
@@ -994,13 +1005,8 @@ TEST(LoadSurvey, ReservesTheQuotesAgainWhenLaterBlocksHoldMoreRows) {
 // half at each renewal (a few renewals over 40 blocks, not one per block),
 // and every quote is kept.
 TEST(LoadSurvey, GrowsTheQuotesOfAPipeGeometrically) {
-  std::string prices = "region,item,price,heading\n";
-  for (int row = 0; prices.size() < 40 << 16; ++row) {
-    prices += "r" + std::to_string(row % 3) + ",item" + std::to_string(row % 50) + "," +
-              std::to_string(10 + row % 89) + ",h1\n";
-  }
-  SurveyDir files = MakeSurvey("many_blocks_fifo", std::nullopt,
-                               "region,heading,expenditure\nr0,h1,1\nr1,h1,1\nr2,h1,1\n");
+  const std::string prices = UniformPrices(40 << 16);
+  SurveyDir files = MakeSurvey("many_blocks_fifo", std::nullopt, kThreeRegionsSpending);
   const std::string fifo = files.dir + "/prices.fifo";
   ASSERT_EQ(::mkfifo(fifo.c_str(), 0600), 0);
   files.config.survey.prices = {PriceSource{fifo, CsvFormat(), {}}};
@@ -1010,10 +1016,8 @@ TEST(LoadSurvey, GrowsTheQuotesOfAPipeGeometrically) {
     std::fwrite(prices.data(), 1, prices.size(), out);
     std::fclose(out);
   });
-  LoadOptions options;
-  options.block_bytes = 1 << 16;
   Survey survey;
-  const LoadSummary summary = Load(files.config, &survey, options);
+  const LoadSummary summary = LoadInSmallestBlocks(files.config, &survey);
   writer.join();
   ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
   EXPECT_EQ(survey.num_quotes, std::count(prices.begin(), prices.end(), '\n') - 1);
