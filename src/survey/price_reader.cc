@@ -10,6 +10,7 @@
 #include <unistd.h>
 
 #include <algorithm>
+#include <array>
 #include <cerrno>
 #include <cmath>
 #include <cstdlib>
@@ -828,7 +829,8 @@ class PriceReader {
         format_(source.format),
         state_(state),
         rejections_(rejections),
-        file_(file) {
+        file_(file),
+        first_quote_(state->quotes.size()) {
     columns_.setting = setting;
   }
 
@@ -973,6 +975,8 @@ class PriceReader {
       const bool open_end = end > starts[c] && data[end - 1] != '\n';
       slot_begin[c + 1] = slot_begin[c] + static_cast<size_t>(lines[c + 1] - lines[c]) + open_end;
     }
+    const bool first_block = !reserved_;
+    const QuotePlaces before = PlacesOfQuotes();
     ReserveQuotes(slot_begin[num_chunks]);
     const NewColumns new_columns = GrowQuotes(slot_begin[num_chunks]);
     // Chunk results are kept between blocks so their tables keep their
@@ -1030,62 +1034,76 @@ class PriceReader {
       }
     }
     FinishQuotes(results, num_merged, slot_begin[0], new_columns);
+    if (!first_block && Moved(before, PlacesOfQuotes())) ++state_->num_quote_array_moves;
     return !malformed;
   }
 
   // Before a block's quotes are placed: makes room in the survey's quote
-  // arrays for `needed` quotes (those placed so far and the block's slots)
-  // without their being moved as they grow. At the first block, and at any
-  // block that would not fit, they are reserved for the whole file as
-  // estimated from its slots per byte so far (5 % over). A vector that
-  // outgrows its capacity moves to one twice as large: on a 565 MB file,
-  // whose first block once set the reservation at 16 times its records,
-  // that was two moves, 0.7 GB copied and the load's heap at 1.22 GB instead
-  // of 0.78. The file's size is a hint (a file can be sparse or still
-  // growing), so the estimate is held to half the machine's memory (address
-  // space only until quotes are written); a reservation that cannot be had
-  // leaves the arrays to grow as they need.
+  // arrays for `needed` quotes (those kept so far and the block's slots), so
+  // that they do not move as they grow (a vector outgrowing its capacity is
+  // copied whole into one twice as large; bench/HISTORY.md, "Eleventh
+  // round"). At the file's first block, and at any block that would not fit,
+  // they are reserved for the whole file as estimated from the file's size
+  // and its quotes and slots per byte so far, 5 % over, and by at least half
+  // as much again at a renewal, so that a file without a size (a pipe) or
+  // one growing as it is read is still read in linear time. The file's size
+  // is a hint (a file can be sparse), so the estimate is held to half the
+  // machine's memory: address space only until quotes are written. A
+  // reservation that cannot be had leaves the arrays to grow as they need.
   void ReserveQuotes(size_t needed) {
     QuoteArrays& quotes = state_->quotes;
-    if (reserved_ && needed <= quotes.region.capacity()) return;
+    const size_t capacity = QuoteCapacity();
+    if (reserved_ && needed <= capacity) return;
+    if (!reserved_ && needed <= first_quote_) return;  // no rows yet to estimate from
     const bool first = !reserved_;
     reserved_ = true;
-    const size_t file_begin = state_->quote_file_begin.empty() ? 0 : state_->quote_file_begin.back();
     std::error_code ec;
     const double file_bytes = static_cast<double>(std::filesystem::file_size(path_, ec));
     double estimate = static_cast<double>(needed);
-    if (!ec && bytes_seen_ > 0 && needed > file_begin) {
-      estimate = static_cast<double>(file_begin) + 1.05 * static_cast<double>(needed - file_begin) *
-                                                       std::max(file_bytes, static_cast<double>(bytes_seen_)) /
-                                                       static_cast<double>(bytes_seen_);
+    if (!ec && bytes_seen_ > 0 && needed > first_quote_) {
+      estimate = static_cast<double>(first_quote_) +
+                 1.05 * static_cast<double>(needed - first_quote_) *
+                     std::max(file_bytes, static_cast<double>(bytes_seen_)) / static_cast<double>(bytes_seen_);
     }
     const double limit = HalfTheMemory() / static_cast<double>(BytesPerQuote());
     size_t total = std::max(needed, static_cast<size_t>(std::min(estimate, limit)));
-    const size_t capacity = quotes.region.capacity();
-    // Half as much again at least, as a vector grows: a file without a
-    // size, or one growing as it is read, is still read in linear time.
     if (!first) total = std::max(total, capacity + capacity / 2);
     if (total <= capacity) return;
-    if (!first) ++state_->num_quote_array_moves;
     try {
       quotes.region.reserve(total);
       quotes.item.reserve(total);
       quotes.log_price.reserve(total);
-      if (columns_.representative >= 0) quotes.representative.reserve(total);
-      if (columns_.weight >= 0) quotes.weight.reserve(total);
       quotes.row_hash.reserve(total);
+      if (UsesFlags()) quotes.representative.reserve(total);
+      if (UsesWeights()) quotes.weight.reserve(total);
     } catch (const std::bad_alloc&) {
       // GrowQuotes sizes them as it can.
     }
     // No huge pages: written once, in file order, by the parsing threads,
-    // these arrays took longer to read into with them (README, "Measuring
-    // on this machine": a huge page's first write waits for 2 MiB at once).
+    // these arrays were slower to write into with them on the benchmark
+    // machine (bench/HISTORY.md, "Eleventh round").
   }
 
-  // Bytes of the survey's arrays per quote of this file.
+  // Whether the survey's flag and weight arrays are filled for this file's
+  // quotes: the file has the column, or an earlier file had it (its quotes
+  // then get 0 or 1; SettleColumn).
+  bool UsesFlags() const { return columns_.representative >= 0 || !state_->quotes.representative.empty(); }
+  bool UsesWeights() const { return columns_.weight >= 0 || !state_->quotes.weight.empty(); }
+
+  // The quotes the survey's arrays in use hold without moving.
+  size_t QuoteCapacity() const {
+    const QuoteArrays& quotes = state_->quotes;
+    size_t capacity = std::min({quotes.region.capacity(), quotes.item.capacity(), quotes.log_price.capacity(),
+                                quotes.row_hash.capacity()});
+    if (UsesFlags()) capacity = std::min(capacity, quotes.representative.capacity());
+    if (UsesWeights()) capacity = std::min(capacity, quotes.weight.capacity());
+    return capacity;
+  }
+
+  // Bytes of the survey's arrays in use per quote.
   size_t BytesPerQuote() const {
-    return 2 * sizeof(int32_t) + sizeof(double) + sizeof(uint64_t) +
-           (columns_.representative >= 0 ? sizeof(uint8_t) : 0) + (columns_.weight >= 0 ? sizeof(double) : 0);
+    return 2 * sizeof(int32_t) + sizeof(double) + sizeof(uint64_t) + (UsesFlags() ? sizeof(uint8_t) : 0) +
+           (UsesWeights() ? sizeof(double) : 0);
   }
 
   // Half the machine's physical memory in bytes (16 GiB when unknown).
@@ -1093,6 +1111,22 @@ class PriceReader {
     const long pages = sysconf(_SC_PHYS_PAGES), page_bytes = sysconf(_SC_PAGESIZE);
     if (pages <= 0 || page_bytes <= 0) return 16.0 * (1 << 30);
     return 0.5 * static_cast<double>(pages) * static_cast<double>(page_bytes);
+  }
+
+  // Where each of the survey's quote arrays starts (null when empty).
+  using QuotePlaces = std::array<const void*, 6>;
+  QuotePlaces PlacesOfQuotes() const {
+    const QuoteArrays& quotes = state_->quotes;
+    const auto at = [](const auto& array) -> const void* { return array.empty() ? nullptr : array.data(); };
+    return {at(quotes.region),   at(quotes.item),           at(quotes.log_price),
+            at(quotes.row_hash), at(quotes.representative), at(quotes.weight)};
+  }
+  // Whether an array that held quotes `before` holds them elsewhere `after`.
+  static bool Moved(const QuotePlaces& before, const QuotePlaces& after) {
+    for (size_t k = 0; k < before.size(); ++k) {
+      if (before[k] != nullptr && after[k] != nullptr && after[k] != before[k]) return true;
+    }
+    return false;
   }
 
   // Whether the block's quotes are the first to fill the flag or weight
@@ -1328,6 +1362,8 @@ class PriceReader {
   std::vector<ChunkResult> results_;
   int64_t bytes_seen_ = 0;
   bool reserved_ = false;
+  // The survey's quotes before this file's (ReserveQuotes's estimate).
+  size_t first_quote_ = 0;
 };
 
 }  // namespace

@@ -598,5 +598,33 @@ TEST(PriceSourcesConfig, CpdCellWeightsNamesReadBackCaseInsensitively) {
   EXPECT_FALSE(FromString("sum", &value));
 }
 
+// A later file that brings a weight column finds its array reserved with
+// the others: a first file of 40 blocks leaves room for the second's few
+// rows, and the weights (one per quote of both files) do not move as the
+// second file's blocks come (num_quote_array_moves counts moved arrays).
+TEST(PriceSources, ReservesTheWeightsOfALaterFileWithTheQuotes) {
+  const char* regions[] = {"north", "south", "east"};
+  std::string plain = "region,item,price,heading\n";
+  int64_t num_rows = 0;
+  for (; plain.size() < 40 << 16; ++num_rows) {
+    plain += std::string(regions[num_rows % 3]) + ",item" + std::to_string(num_rows % 40) + "," +
+             std::to_string(10 + num_rows % 89) + ",food\n";
+  }
+  std::string weighted = "region,item,price,heading,weight\n";
+  for (int row = 0; weighted.size() < 3 << 15; ++row, ++num_rows) {
+    weighted += std::string(regions[row % 3]) + ",item" + std::to_string(row % 40) + ",12.5,food," +
+                std::to_string(1 + row % 7) + "\n";
+  }
+  const Sources s = MakeSources("later_weights", {{"prices.csv", plain}, {"weighted.csv", weighted}});
+  LoadOptions options;
+  options.block_bytes = 1 << 16;  // the smallest block: the second file is two
+  Survey survey;
+  const LoadSummary summary = Load(s.config, &survey, options);
+  ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
+  EXPECT_EQ(survey.num_quotes, num_rows);
+  EXPECT_FALSE(survey.cells.weight.empty());
+  EXPECT_EQ(summary.num_quote_array_moves, 0);
+}
+
 }  // namespace
 }  // namespace paritas

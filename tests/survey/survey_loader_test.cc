@@ -4,10 +4,12 @@
 // table does not depend on how prices.csv is cut into blocks and chunks.
 #include "paritas/survey/survey_loader.h"
 
+#include <pthread.h>
 #include <sys/stat.h>
 
 #include <algorithm>
 #include <cmath>
+#include <csignal>
 #include <cstdio>
 #include <filesystem>
 #include <optional>
@@ -997,7 +999,9 @@ TEST(LoadSurvey, ReservesTheQuotesAgainWhenLaterBlocksHoldMoreRows) {
   const LoadSummary summary = LoadInSmallestBlocks(files.config, &survey);
   ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
   EXPECT_EQ(survey.num_quotes, rows_of[0] + rows_of[1]);
+  // From the rows per byte seen: 2 renewals; growing by half each time, 7.
   EXPECT_GE(summary.num_quote_array_moves, 1);
+  EXPECT_LE(summary.num_quote_array_moves, 3);
   EXPECT_EQ(survey.cells.num_quotes, (std::vector<int32_t>{rows_of[0], rows_of[1]}));
 }
 
@@ -1011,6 +1015,11 @@ TEST(LoadSurvey, GrowsTheQuotesOfAPipeGeometrically) {
   ASSERT_EQ(::mkfifo(fifo.c_str(), 0600), 0);
   files.config.survey.prices = {PriceSource{fifo, CsvFormat(), {}}};
   std::thread writer([&fifo, &prices] {
+    // A reader that stops early fails the test, not the process.
+    sigset_t pipe_signal;
+    sigemptyset(&pipe_signal);
+    sigaddset(&pipe_signal, SIGPIPE);
+    pthread_sigmask(SIG_BLOCK, &pipe_signal, nullptr);
     std::FILE* out = std::fopen(fifo.c_str(), "wb");
     if (out == nullptr) return;
     std::fwrite(prices.data(), 1, prices.size(), out);
@@ -1022,7 +1031,7 @@ TEST(LoadSurvey, GrowsTheQuotesOfAPipeGeometrically) {
   ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
   EXPECT_EQ(survey.num_quotes, std::count(prices.begin(), prices.end(), '\n') - 1);
   EXPECT_GE(summary.num_quote_array_moves, 1);
-  EXPECT_LE(summary.num_quote_array_moves, 12);  // 1.5^9 > 39
+  EXPECT_LE(summary.num_quote_array_moves, 10);  // 1.5^10 > 40 blocks
 }
 
 TEST(LoadSurvey, GivesTheSameCellsAndRejectionsForOneAndTwoThreads) {

@@ -156,9 +156,11 @@ struct LoadSummary {
   // table, external parities, groups): the two cover the load whole.
   double read_seconds = 0.0;
   double cells_seconds = 0.0;
-  // Times a price file's quotes outgrew the room reserved for them (from
-  // the file's size and the records per byte of its blocks so far) and were
-  // moved to a larger reservation: 0 when the first estimate held.
+  // Times a block of a price file did not fit the room reserved for the
+  // quotes at the file's first block (from the file's size and its quotes
+  // and slots per byte) and the quotes so far moved to a larger reservation:
+  // 0 when the first estimate held. (A later price file's first reservation
+  // moves the earlier files' quotes too; that is not counted.)
   int num_quote_array_moves = 0;
 
   // One line: "read 12,345 quotes for 16 regions, 200 items, 30 headings; 0 rows rejected".
