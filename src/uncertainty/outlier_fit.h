@@ -61,6 +61,15 @@ struct ScreenFit {
   int degrees_of_freedom = 0;
   int num_iterations = 0;  // reweighted fits after the least-squares start
   bool converged = false;
+  // Set by the outlier screen's first pass (outliers.cc) when it has found
+  // the heading's surely quiet cells: the per-cell entries above (residual,
+  // weight, leverage, link) are then kept only for the other cells, listed
+  // in `open` (cell indices, ascending; entry j is cell open[j]'s), and the
+  // quiet ones are counted by how they were screened.
+  bool prescreened = false;
+  std::vector<int> open;
+  int64_t num_quiet_by_fit = 0;
+  int64_t num_quiet_leave_one_out = 0;
 };
 
 // Cells needed to estimate a heading's scale; below it the caller pools.
