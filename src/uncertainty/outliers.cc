@@ -223,6 +223,8 @@ Prediction PredictFromOtherHeadings(const Survey& survey, int h, int64_t k, cons
   return p;
 }
 
+// Predicts cell k of heading h, whose entries in the fit are at `slot` (k,
+// or its place in ScreenFit::open once the fit is prescreened).
 // SurelyQuiet below repeats this function's rules for which cells can be
 // screened (two regions or more, an ordinary link, finite s and q, hat < 1)
 // and its split between the fit and leave-one-out: a case added here must
@@ -431,12 +433,16 @@ bool SurelyQuiet(const Survey& survey, int64_t k, int64_t c, const ScreenFit& fi
   return (low - log_price) * (low - log_price) * n < bound && (high - log_price) * (high - log_price) * n < bound;
 }
 
-// Screens the cells of heading h and the extreme quotes of each.
 // The number of regions with a parity in the heading's fit.
 int NumRegionsPresent(const Survey& survey, const ScreenFit& fit) {
   int num_regions_present = 0;
   for (int r = 0; r < survey.num_regions(); ++r) num_regions_present += std::isfinite(fit.log_parity[r]) ? 1 : 0;
   return num_regions_present;
+}
+
+// Whether the quiet pretest (SurelyQuiet with `quiet`) may settle cells.
+bool PretestApplies(const QuietTest& quiet, int num_regions_present) {
+  return quiet.usable && num_regions_present >= 2 && internal::QuietPretestEnabled();
 }
 
 // When the heading's own scale is finite (the screen then uses it, whatever
@@ -448,7 +454,7 @@ int NumRegionsPresent(const Survey& survey, const ScreenFit& fit) {
 void PrescreenQuietCells(const Survey& survey, int h, const OutlierOptions& options, ScreenFit* fit) {
   if (!fit->identified || !std::isfinite(fit->scale)) return;
   const QuietTest quiet = MakeQuietTest(fit->scale, WithinCellSd(survey, h), options.threshold);
-  if (!quiet.usable || NumRegionsPresent(survey, *fit) < 2 || !internal::QuietPretestEnabled()) return;
+  if (!PretestApplies(quiet, NumRegionsPresent(survey, *fit))) return;
   const HeadingRange& range = survey.heading_range[h];
   for (int64_t k = 0; k < range.num_cells(); ++k) {
     double hat = 0.0;
@@ -492,6 +498,7 @@ void ScreenCell(const Survey& survey, int h, int64_t k, int64_t slot, const Scre
   ScreenQuotes(survey, h, c, p, within_sd, options.threshold, &rows->flagged);
 }
 
+// Screens the cells of heading h and the extreme quotes of each.
 HeadingRows ScreenHeading(const Survey& survey, int h, const ScreenFit& fit, const ScreenContext& context,
                           const OutlierOptions& options) {
   HeadingRows rows;
@@ -509,7 +516,7 @@ HeadingRows ScreenHeading(const Survey& survey, int h, const ScreenFit& fit, con
     return rows;
   }
   const QuietTest quiet = MakeQuietTest(context.scale[h], within_sd, options.threshold);
-  const bool try_quiet = quiet.usable && num_regions_present >= 2 && internal::QuietPretestEnabled();
+  const bool try_quiet = PretestApplies(quiet, num_regions_present);
   for (int64_t k = 0; k < range.num_cells(); ++k) {
     double hat = 0.0;
     if (try_quiet && SurelyQuiet(survey, k, range.cell_begin + k, fit, quiet, &hat)) {
