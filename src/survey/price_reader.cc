@@ -975,7 +975,6 @@ class PriceReader {
       const bool open_end = end > starts[c] && data[end - 1] != '\n';
       slot_begin[c + 1] = slot_begin[c] + static_cast<size_t>(lines[c + 1] - lines[c]) + open_end;
     }
-    const bool first_block = !reserved_;
     const QuotePlaces before = PlacesOfQuotes();
     ReserveQuotes(slot_begin[num_chunks]);
     const NewColumns new_columns = GrowQuotes(slot_begin[num_chunks]);
@@ -1034,7 +1033,7 @@ class PriceReader {
       }
     }
     FinishQuotes(results, num_merged, slot_begin[0], new_columns);
-    if (!first_block && Moved(before, PlacesOfQuotes())) ++state_->num_quote_array_moves;
+    if (Moved(before, PlacesOfQuotes())) ++state_->num_quote_array_moves;
     return !malformed;
   }
 
@@ -1043,13 +1042,14 @@ class PriceReader {
   // that they do not move as they grow (a vector outgrowing its capacity is
   // copied whole into one twice as large; bench/HISTORY.md, "Eleventh
   // round"). At the file's first block, and at any block that would not fit,
-  // they are reserved for the whole file as estimated from the file's size
-  // and its quotes and slots per byte so far, 5 % over, and by at least half
-  // as much again at a renewal, so that a file without a size (a pipe) or
-  // one growing as it is read is still read in linear time. The file's size
-  // is a hint (a file can be sparse), so the estimate is held to half the
-  // machine's memory: address space only until quotes are written. A
-  // reservation that cannot be had leaves the arrays to grow as they need.
+  // they are reserved for this file and the price files after it as
+  // estimated from their sizes and this file's quotes and slots per byte so
+  // far, 5 % over, and by at least half as much again at a renewal, so that
+  // a file without a size (a pipe) or one growing as it is read is still
+  // read in linear time. A file's size is a hint (a file can be sparse), so
+  // the estimate is held to half the machine's memory: address space only
+  // until quotes are written. A reservation that cannot be had leaves the
+  // arrays to grow as they need.
   void ReserveQuotes(size_t needed) {
     QuoteArrays& quotes = state_->quotes;
     const size_t capacity = QuoteCapacity();
@@ -1061,9 +1061,9 @@ class PriceReader {
     const double file_bytes = static_cast<double>(std::filesystem::file_size(path_, ec));
     double estimate = static_cast<double>(needed);
     if (!ec && bytes_seen_ > 0 && needed > first_quote_) {
-      estimate = static_cast<double>(first_quote_) +
-                 1.05 * static_cast<double>(needed - first_quote_) *
-                     std::max(file_bytes, static_cast<double>(bytes_seen_)) / static_cast<double>(bytes_seen_);
+      const double bytes_to_read = std::max(file_bytes, static_cast<double>(bytes_seen_)) + LaterFilesBytes();
+      estimate = static_cast<double>(first_quote_) + 1.05 * static_cast<double>(needed - first_quote_) *
+                                                         bytes_to_read / static_cast<double>(bytes_seen_);
     }
     const double limit = HalfTheMemory() / static_cast<double>(BytesPerQuote());
     size_t total = std::max(needed, static_cast<size_t>(std::min(estimate, limit)));
@@ -1111,6 +1111,22 @@ class PriceReader {
     const long pages = sysconf(_SC_PHYS_PAGES), page_bytes = sysconf(_SC_PAGESIZE);
     if (pages <= 0 || page_bytes <= 0) return 16.0 * (1 << 30);
     return 0.5 * static_cast<double>(pages) * static_cast<double>(page_bytes);
+  }
+
+  // Bytes of the price files to be read after this one (those whose size
+  // can be had), so that the first file's reservation holds their quotes too
+  // and a later file, often a small one of rents or tariffs, does not move
+  // the quotes of all the files before it.
+  double LaterFilesBytes() const {
+    const std::vector<PriceSource>& sources = state_->config->survey.prices;
+    const size_t this_file = state_->quote_file_begin.empty() ? sources.size() : state_->quote_file_begin.size() - 1;
+    double bytes = 0.0;
+    for (size_t k = this_file + 1; k < sources.size(); ++k) {
+      std::error_code ec;
+      const uintmax_t size = std::filesystem::file_size(sources[k].path, ec);
+      if (!ec) bytes += static_cast<double>(size);
+    }
+    return bytes;
   }
 
   // Where each of the survey's quote arrays starts (null when empty).

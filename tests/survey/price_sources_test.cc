@@ -598,31 +598,76 @@ TEST(PriceSourcesConfig, CpdCellWeightsNamesReadBackCaseInsensitively) {
   EXPECT_FALSE(FromString("sum", &value));
 }
 
+// At least `bytes` of quote rows of the three regions of kExpenditure, one
+// line each, with a header; adds their number to *num_rows.
+std::string PlainPrices(size_t bytes, int64_t* num_rows) {
+  const char* regions[] = {"north", "south", "east"};
+  std::string plain = "region,item,price,heading\n";
+  for (int row = 0; plain.size() < bytes; ++row, ++*num_rows) {
+    plain += std::string(regions[row % 3]) + ",item" + std::to_string(row % 40) + "," +
+             std::to_string(10 + row % 89) + ",food\n";
+  }
+  return plain;
+}
+
+// Loads in the smallest blocks (64 KiB), so that a file of a few MB is read
+// in tens of them.
+LoadSummary LoadInSmallestBlocks(const RunConfig& config, Survey* survey) {
+  LoadOptions options;
+  options.block_bytes = 1 << 16;
+  return Load(config, survey, options);
+}
+
 // A later file that brings a weight column finds its array reserved with
 // the others: a first file of 40 blocks leaves room for the second's few
 // rows, and the weights (one per quote of both files) do not move as the
 // second file's blocks come (num_quote_array_moves counts moved arrays).
 TEST(PriceSources, ReservesTheWeightsOfALaterFileWithTheQuotes) {
   const char* regions[] = {"north", "south", "east"};
-  std::string plain = "region,item,price,heading\n";
   int64_t num_rows = 0;
-  for (; plain.size() < 40 << 16; ++num_rows) {
-    plain += std::string(regions[num_rows % 3]) + ",item" + std::to_string(num_rows % 40) + "," +
-             std::to_string(10 + num_rows % 89) + ",food\n";
-  }
+  const std::string plain = PlainPrices(40 << 16, &num_rows);
   std::string weighted = "region,item,price,heading,weight\n";
   for (int row = 0; weighted.size() < 3 << 15; ++row, ++num_rows) {
     weighted += std::string(regions[row % 3]) + ",item" + std::to_string(row % 40) + ",12.5,food," +
                 std::to_string(1 + row % 7) + "\n";
   }
   const Sources s = MakeSources("later_weights", {{"prices.csv", plain}, {"weighted.csv", weighted}});
-  LoadOptions options;
-  options.block_bytes = 1 << 16;  // the smallest block: the second file is two
   Survey survey;
-  const LoadSummary summary = Load(s.config, &survey, options);
+  const LoadSummary summary = LoadInSmallestBlocks(s.config, &survey);  // the second file is two blocks
   ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
   EXPECT_EQ(survey.num_quotes, num_rows);
   EXPECT_FALSE(survey.cells.weight.empty());
+  EXPECT_EQ(summary.num_quote_array_moves, 0);
+}
+
+// The first file's reservation holds the later files' quotes too (from
+// their sizes), so a second file of a tenth as many rows, beyond the 5 %
+// the estimate leaves over, does not move the quotes of the first. Before,
+// its first block moved them once.
+TEST(PriceSources, ReservesTheQuotesOfTheLaterFilesAtTheFirst) {
+  int64_t num_rows = 0;
+  const std::string main = PlainPrices(40 << 16, &num_rows);
+  const std::string rents = PlainPrices(4 << 16, &num_rows);
+  const Sources s = MakeSources("later_files", {{"prices.csv", main}, {"rents.csv", rents}});
+  Survey survey;
+  const LoadSummary summary = LoadInSmallestBlocks(s.config, &survey);
+  ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
+  EXPECT_EQ(survey.num_quotes, num_rows);
+  EXPECT_EQ(summary.num_quote_array_moves, 0);
+}
+
+// A small first file reserves for a large second one: the second's 40
+// blocks come without a move (before, the second file's first block moved
+// the first file's quotes).
+TEST(PriceSources, ReservesForALargeLaterFileAtASmallFirstOne) {
+  int64_t num_rows = 0;
+  const std::string first = PlainPrices(1 << 15, &num_rows);
+  const std::string second = PlainPrices(40 << 16, &num_rows);
+  const Sources s = MakeSources("large_later", {{"prices.csv", first}, {"more.csv", second}});
+  Survey survey;
+  const LoadSummary summary = LoadInSmallestBlocks(s.config, &survey);
+  ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
+  EXPECT_EQ(survey.num_quotes, num_rows);
   EXPECT_EQ(summary.num_quote_array_moves, 0);
 }
 

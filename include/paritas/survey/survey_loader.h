@@ -157,10 +157,9 @@ struct LoadSummary {
   double read_seconds = 0.0;
   double cells_seconds = 0.0;
   // Times a block of a price file did not fit the room reserved for the
-  // quotes at the file's first block (from the file's size and its quotes
-  // and slots per byte) and the quotes so far moved to a larger reservation:
-  // 0 when the first estimate held. (A later price file's first reservation
-  // moves the earlier files' quotes too; that is not counted.)
+  // quotes (at the first file's first block, from the sizes of all the price
+  // files and that file's quotes and slots per byte) and the quotes so far
+  // moved to a larger reservation: 0 when the first estimate held.
   int num_quote_array_moves = 0;
 
   // One line: "read 12,345 quotes for 16 regions, 200 items, 30 headings; 0 rows rejected".
