@@ -266,26 +266,6 @@ std::string CheckSummary::FullReport() const {
 
 namespace {
 
-// The parity matrix and bilateral table of each node asked for.
-void AddMatrixFiles(const Survey& survey, const ParityResult& result,
-                    const std::vector<int>& matrix_nodes, std::vector<OutputFile>* files) {
-  for (int node : matrix_nodes) {
-    const NodeResult& n = result.nodes[node];
-    const std::string name = NodeFileName(survey.classification.nodes()[node].code) + ".csv";
-    files->push_back({"matrix/" + name, ParityMatrixCsv(survey, n)});
-    if (n.is_heading) {
-      Eigen::MatrixXd log_price, present;
-      HeadingPriceArrays(survey, n.heading, &log_price, &present);
-      Eigen::MatrixXi num_items;
-      const Eigen::MatrixXd jevons = AllPairsJevons(log_price, present, &num_items);
-      files->push_back({"bilateral/" + name, HeadingBilateralCsv(survey, n, jevons, num_items)});
-    } else {
-      files->push_back(
-          {"bilateral/" + name, AggregateBilateralCsv(survey, n, result.bilaterals[node])});
-    }
-  }
-}
-
 // The run record of a successful compute, with the digest of every file
 // written before it.
 std::string ComputeRunJson(const RunConfig& config, const ComputeJobSummary& summary,
@@ -359,6 +339,31 @@ class ComputeFileSink {
   std::string error_;
 };
 
+// The parity matrix and bilateral table of each node asked for, one file
+// at a time, each handed to the sink block by block: on a survey of 1,000
+// regions a heading's two files are about 50 MB of text, and holding every
+// node's at once grew the run's peak by that much per node. A heading's
+// all-pairs Jevons matrix lives while its table is written.
+void AddMatrixFiles(const Survey& survey, const ParityResult& result, const std::vector<int>& matrix_nodes,
+                    ComputeFileSink* sink) {
+  for (int node : matrix_nodes) {
+    const NodeResult& n = result.nodes[node];
+    const std::string name = NodeFileName(survey.classification.nodes()[node].code) + ".csv";
+    sink->AddBlocks("matrix/" + name, [&](const TextBlocks& emit) { ParityMatrixCsvBlocks(survey, n, emit); });
+    sink->AddBlocks("bilateral/" + name, [&](const TextBlocks& emit) {
+      if (!n.is_heading) {
+        AggregateBilateralCsvBlocks(survey, n, result.bilaterals[node], emit);
+        return;
+      }
+      Eigen::MatrixXd log_price, present;
+      HeadingPriceArrays(survey, n.heading, &log_price, &present);
+      Eigen::MatrixXi num_items;
+      const Eigen::MatrixXd jevons = AllPairsJevons(log_price, present, &num_items);
+      HeadingBilateralCsvBlocks(survey, n, jevons, num_items, emit);
+    });
+  }
+}
+
 ReportInputs ComputeReportInputs(const RunConfig& config, const ContributionTable& contributions,
                                  const std::vector<ReportOutlier>& report_outliers,
                                  const ComputeJobSummary& summary) {
@@ -408,9 +413,7 @@ void MakeComputeOutputFiles(const RunConfig& config, const std::vector<int>& mat
       method != nullptr && method->Properties().gives_representativity_effect) {
     sink->Add("representativity.csv", RepresentativityCsv(survey, result));
   }
-  std::vector<OutputFile> matrix_files;
-  AddMatrixFiles(survey, result, matrix_nodes, &matrix_files);
-  for (OutputFile& file : matrix_files) sink->Add(file.relative_path, std::move(file.contents));
+  AddMatrixFiles(survey, result, matrix_nodes, sink);
   for (const NodeResult& n : result.nodes) {  // spanning-tree: every aggregate's tree
     if (n.tree.empty()) continue;
     const std::string& code = survey.classification.nodes()[n.node].code;

@@ -175,6 +175,12 @@ void ParitiesCsvBlocks(const Survey& survey, const ParityResult& result,
 }
 
 std::string ParityMatrixCsv(const Survey& survey, const NodeResult& node) {
+  internal::JoinedText text;
+  ParityMatrixCsvBlocks(survey, node, text.Sink());
+  return text.Take();
+}
+
+void ParityMatrixCsvBlocks(const Survey& survey, const NodeResult& node, const TextBlocks& emit) {
   const std::vector<int> regions = RegionsWithParity(node);
   std::string header = "region";
   for (int r : regions) {
@@ -185,7 +191,7 @@ std::string ParityMatrixCsv(const Survey& survey, const NodeResult& node) {
   const std::vector<std::string> region_fields = RegionFields(survey);
   // Rows are long (one cell per region), so blocks are a few rows each.
   constexpr int64_t kMatrixRowsPerBlock = 8;
-  return FormatRows(
+  FormatRowBlocks(
       static_cast<int64_t>(regions.size()), kMatrixRowsPerBlock, 12 * (regions.size() + 1),
       [&](int64_t row, std::string* out) {
         const int a = regions[row];
@@ -196,7 +202,7 @@ std::string ParityMatrixCsv(const Survey& survey, const NodeResult& node) {
         }
         *out += '\n';
       },
-      header);
+      header, emit);
 }
 
 Eigen::MatrixXd ParityMatrix(const NodeResult& node, std::vector<int>* regions) {
@@ -214,10 +220,17 @@ Eigen::MatrixXd ParityMatrix(const NodeResult& node, std::vector<int>* regions) 
 
 std::string AggregateBilateralCsv(const Survey& survey, const NodeResult& node,
                                   const BilateralMatrices& bilaterals) {
+  internal::JoinedText text;
+  AggregateBilateralCsvBlocks(survey, node, bilaterals, text.Sink());
+  return text.Take();
+}
+
+void AggregateBilateralCsvBlocks(const Survey& survey, const NodeResult& node,
+                                 const BilateralMatrices& bilaterals, const TextBlocks& emit) {
   const std::vector<int> regions = RegionsWithParity(node);
   const int64_t n = static_cast<int64_t>(regions.size());
   const std::vector<std::string> region_fields = RegionFields(survey);
-  return FormatRows(
+  FormatRowBlocks(
       n * n, kRowsPerBlock, 80,
       [&](int64_t row, std::string* out) {
         const int a = regions[row / n], b = regions[row % n];
@@ -235,7 +248,7 @@ std::string AggregateBilateralCsv(const Survey& survey, const NodeResult& node,
         AppendInteger(bilaterals.num_matched(a, b), out);
         *out += '\n';
       },
-      "from,to,laspeyres,paasche,fisher,tornqvist,spread,num_headings\n");
+      "from,to,laspeyres,paasche,fisher,tornqvist,spread,num_headings\n", emit);
 }
 
 std::string TreeCsv(const Survey& survey, const NodeResult& node) {
@@ -255,10 +268,17 @@ std::string TreeCsv(const Survey& survey, const NodeResult& node) {
 
 std::string HeadingBilateralCsv(const Survey& survey, const NodeResult& node,
                                 const Eigen::MatrixXd& jevons, const Eigen::MatrixXi& num_items) {
+  internal::JoinedText text;
+  HeadingBilateralCsvBlocks(survey, node, jevons, num_items, text.Sink());
+  return text.Take();
+}
+
+void HeadingBilateralCsvBlocks(const Survey& survey, const NodeResult& node, const Eigen::MatrixXd& jevons,
+                               const Eigen::MatrixXi& num_items, const TextBlocks& emit) {
   const std::vector<int> regions = RegionsWithParity(node);
   const int64_t n = static_cast<int64_t>(regions.size());
   const std::vector<std::string> region_fields = RegionFields(survey);
-  return FormatRows(
+  FormatRowBlocks(
       n * n, kRowsPerBlock, 40,
       [&](int64_t row, std::string* out) {
         const int a = regions[row / n], b = regions[row % n];
@@ -272,7 +292,7 @@ std::string HeadingBilateralCsv(const Survey& survey, const NodeResult& node,
         AppendInteger(num_items(a, b), out);
         *out += '\n';
       },
-      "from,to,jevons,num_items\n");
+      "from,to,jevons,num_items\n", emit);
 }
 
 std::string RealByHeadingCsv(const Survey& survey, const ParityResult& result,

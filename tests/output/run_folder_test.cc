@@ -6,6 +6,7 @@
 #include <omp.h>
 #include <unistd.h>
 
+#include <atomic>
 #include <chrono>
 #include <filesystem>
 #include <mutex>
@@ -195,6 +196,42 @@ TEST(FormatRowBlocks, HandsOverTheSameBlocksInRowOrderForAnyNumberOfThreads) {
   EXPECT_EQ(one[0], "header\n");
   EXPECT_EQ(one[1].substr(0, 9), "0\n7\n14\n21");
   EXPECT_EQ(internal::FormatRows(100000, 97, 8, format, "header\n"), internal::JoinBlocks(one));
+}
+
+// A taker slower than the formatting (a file writer with a full queue)
+// holds the formatting threads back: no block is started
+// kBlocksAheadPerThread x threads or more beyond the first not yet handed
+// over, so the text waiting stays a few blocks. Before the bound, the other
+// threads formatted the rest of the file ahead of the taker.
+TEST(FormatRowBlocks, FormatsAFewBlocksAheadOfASlowTaker) {
+  constexpr int kThreads = 4;
+  constexpr int64_t kRowsPerBlock = 10, kNumBlocks = 400;
+  std::atomic<int64_t> highest_started{-1};
+  auto format = [&](int64_t row, std::string* out) {
+    if (row % kRowsPerBlock == 0) {
+      int64_t seen = highest_started.load();
+      const int64_t block = row / kRowsPerBlock;
+      while (block > seen && !highest_started.compare_exchange_weak(seen, block)) {
+      }
+    }
+    *out += std::to_string(row) + "\n";
+  };
+  int64_t taken = -1;  // the header, then blocks 0, 1, ...
+  int64_t most_ahead = 0;
+  std::string text;
+  const int threads = omp_get_max_threads();
+  omp_set_num_threads(kThreads);
+  internal::FormatRowBlocks(kNumBlocks * kRowsPerBlock, kRowsPerBlock, 8, format, "", [&](std::string block) {
+    std::this_thread::sleep_for(std::chrono::microseconds(200));
+    if (taken >= 0) most_ahead = std::max(most_ahead, highest_started.load() - taken);
+    ++taken;
+    text += block;
+  });
+  omp_set_num_threads(threads);
+  EXPECT_EQ(taken, kNumBlocks);
+  EXPECT_EQ(text, internal::FormatRows(kNumBlocks * kRowsPerBlock, kRowsPerBlock, 8, format, ""));
+  EXPECT_GE(most_ahead, 1);  // the threads did run ahead
+  EXPECT_LE(most_ahead, internal::kBlocksAheadPerThread * kThreads);
 }
 
 TEST(RemoveRunLeftovers, RemovesStagingOfDeadRunsAndKeepsLiveOnes) {

@@ -62,6 +62,8 @@ void ParitiesCsvBlocks(const Survey& survey, const ParityResult& result,
 // matrix/<node>.csv: header `region,` then the region codes (regions with a
 // parity); cell (a, b) = 100 x parity(b) / parity(a).
 std::string ParityMatrixCsv(const Survey& survey, const NodeResult& node);
+// As ParityMatrixCsv, handed to `emit` in blocks as they are formatted.
+void ParityMatrixCsvBlocks(const Survey& survey, const NodeResult& node, const TextBlocks& emit);
 
 // Returns the numbers of matrix/<node>.csv as a matrix, rows and columns in
 // the order of `*regions` (filled with the regions that have a parity, survey
@@ -74,6 +76,9 @@ Eigen::MatrixXd ParityMatrix(const NodeResult& node, std::vector<int>* regions);
 // parity; spread = |ln(Laspeyres / Paasche)|.
 std::string AggregateBilateralCsv(const Survey& survey, const NodeResult& node,
                                   const BilateralMatrices& bilaterals);
+// As AggregateBilateralCsv, handed to `emit` in blocks as they are formatted.
+void AggregateBilateralCsvBlocks(const Survey& survey, const NodeResult& node,
+                                 const BilateralMatrices& bilaterals, const TextBlocks& emit);
 
 // tree/<aggregate>.csv (spanning-tree only): one row per edge of the node's
 // minimum spanning tree, from,to,spread_percent,fisher, in the order regions
@@ -84,6 +89,9 @@ std::string TreeCsv(const Survey& survey, const NodeResult& node);
 // bilateral/<heading>.csv: from,to,jevons,num_items.
 std::string HeadingBilateralCsv(const Survey& survey, const NodeResult& node,
                                 const Eigen::MatrixXd& jevons, const Eigen::MatrixXi& num_items);
+// As HeadingBilateralCsv, handed to `emit` in blocks as they are formatted.
+void HeadingBilateralCsvBlocks(const Survey& survey, const NodeResult& node, const Eigen::MatrixXd& jevons,
+                               const Eigen::MatrixXi& num_items, const TextBlocks& emit);
 
 // representativity.csv, written under the cprd elementary method: one row
 // per heading with parities. Columns: heading, effect (the representativity
