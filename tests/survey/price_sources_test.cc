@@ -640,35 +640,28 @@ TEST(PriceSources, ReservesTheWeightsOfALaterFileWithTheQuotes) {
   EXPECT_EQ(summary.num_quote_array_moves, 0);
 }
 
-// The first file's reservation holds the later files' quotes too (from
-// their sizes), so a second file of a tenth as many rows, beyond the 5 %
-// the estimate leaves over, does not move the quotes of the first. Before,
-// its first block moved them once.
-TEST(PriceSources, ReservesTheQuotesOfTheLaterFilesAtTheFirst) {
+// Reads two price files of plain rows, of at least `first_bytes` and
+// `second_bytes`, in the smallest blocks; returns how often the quote
+// arrays moved (-1 when the load failed or lost rows).
+int MovesReadingTwoFiles(const std::string& name, size_t first_bytes, size_t second_bytes) {
   int64_t num_rows = 0;
-  const std::string main = PlainPrices(40 << 16, &num_rows);
-  const std::string rents = PlainPrices(4 << 16, &num_rows);
-  const Sources s = MakeSources("later_files", {{"prices.csv", main}, {"rents.csv", rents}});
+  const std::string first = PlainPrices(first_bytes, &num_rows);
+  const std::string second = PlainPrices(second_bytes, &num_rows);
+  const Sources s = MakeSources(name, {{"prices.csv", first}, {"more.csv", second}});
   Survey survey;
   const LoadSummary summary = LoadInSmallestBlocks(s.config, &survey);
-  ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
-  EXPECT_EQ(survey.num_quotes, num_rows);
-  EXPECT_EQ(summary.num_quote_array_moves, 0);
+  if (summary.outcome != LoadOutcome::kOk || survey.num_quotes != num_rows) return -1;
+  return summary.num_quote_array_moves;
 }
 
-// A small first file reserves for a large second one: the second's 40
-// blocks come without a move (before, the second file's first block moved
-// the first file's quotes).
-TEST(PriceSources, ReservesForALargeLaterFileAtASmallFirstOne) {
-  int64_t num_rows = 0;
-  const std::string first = PlainPrices(1 << 15, &num_rows);
-  const std::string second = PlainPrices(40 << 16, &num_rows);
-  const Sources s = MakeSources("large_later", {{"prices.csv", first}, {"more.csv", second}});
-  Survey survey;
-  const LoadSummary summary = LoadInSmallestBlocks(s.config, &survey);
-  ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
-  EXPECT_EQ(survey.num_quotes, num_rows);
-  EXPECT_EQ(summary.num_quote_array_moves, 0);
+// The first file's reservation holds the later files' quotes too (from
+// their sizes), so a second file of a tenth as many rows, beyond the 5 %
+// the estimate leaves over, does not move the quotes of the first; nor
+// does a large second file after a small first one (40 blocks after half
+// a block). Before, each second file's first block moved them once.
+TEST(PriceSources, ReservesTheQuotesOfTheLaterFilesAtTheFirst) {
+  EXPECT_EQ(MovesReadingTwoFiles("later_small", 40 << 16, 4 << 16), 0);
+  EXPECT_EQ(MovesReadingTwoFiles("later_large", 1 << 15, 40 << 16), 0);
 }
 
 }  // namespace
