@@ -20,7 +20,8 @@ namespace paritas::internal {
 
 // Blocks FormatRowBlocks formats ahead of the first one not yet emitted,
 // per thread: the text held while `emit` waits (for a file writer's full
-// queue) stays a few blocks instead of growing to the rest of the file.
+// queue) is at most this many blocks a thread (a few MB on two threads; it
+// grows with the threads), not the rest of the file.
 constexpr int64_t kBlocksAheadPerThread = 4;
 
 // Emits `header`, then rows [0, num_rows) formatted by `format_row(row, out)`

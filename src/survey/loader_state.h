@@ -221,9 +221,11 @@ bool ReadRegions(const std::string& path, LoadState* state, Rejections* rejectio
 bool ReadItems(const std::string& path, LoadState* state, Rejections* rejections,
                InputFileSummary* file, std::string* error);
 // Reads one price file; `setting` names it in messages ("survey.prices" or
-// "survey.prices[1]"). Quotes are appended to the state's.
+// "survey.prices[1]"). Quotes are appended to the state's. `later_bytes`:
+// the size of the price files to be read after this one (0 when none), for
+// which the quote arrays' first reservation makes room too.
 bool ReadPrices(const PriceSource& source, const std::string& setting, const LoadOptions& options,
-                LoadState* state, Rejections* rejections, InputFileSummary* file,
+                double later_bytes, LoadState* state, Rejections* rejections, InputFileSummary* file,
                 std::string* error);
 bool ReadExpenditure(const std::string& path, LoadState* state, Rejections* rejections,
                      InputFileSummary* file, std::string* error);

@@ -821,8 +821,9 @@ struct ChunkPlan {
 class PriceReader {
  public:
   PriceReader(const PriceSource& source, const std::string& setting, const LoadOptions& options,
-              LoadState* state, Rejections* rejections, InputFileSummary* file)
-      : path_(source.path),
+              double later_bytes, LoadState* state, Rejections* rejections, InputFileSummary* file)
+      : later_bytes_(later_bytes),
+        path_(source.path),
         source_(source),
         options_(options),
         limits_(state->config->limits),
@@ -1043,13 +1044,13 @@ class PriceReader {
   // copied whole into one twice as large; bench/HISTORY.md, "Eleventh
   // round"). At the file's first block, and at any block that would not fit,
   // they are reserved for this file and the price files after it as
-  // estimated from their sizes and this file's quotes and slots per byte so
-  // far, 5 % over, and by at least half as much again at a renewal, so that
-  // a file without a size (a pipe) or one growing as it is read is still
-  // read in linear time. A file's size is a hint (a file can be sparse), so
-  // the estimate is held to half the machine's memory: address space only
-  // until quotes are written. A reservation that cannot be had leaves the
-  // arrays to grow as they need.
+  // estimated from their sizes (the bytes seen so far for a file without a
+  // size, a pipe) and this file's quotes and slots per byte so far, 5 % over,
+  // and by at least half as much again at a renewal, so that a pipe or a file
+  // growing as it is read is still read in linear time. A file's size is a
+  // hint (a file can be sparse), so the estimate is held to half the
+  // machine's memory: address space only until quotes are written. A
+  // reservation that cannot be had leaves the arrays to grow as they need.
   void ReserveQuotes(size_t needed) {
     QuoteArrays& quotes = state_->quotes;
     const size_t capacity = QuoteCapacity();
@@ -1060,10 +1061,11 @@ class PriceReader {
     std::error_code ec;
     const double file_bytes = static_cast<double>(std::filesystem::file_size(path_, ec));
     double estimate = static_cast<double>(needed);
-    if (!ec && bytes_seen_ > 0 && needed > first_quote_) {
-      const double bytes_to_read = std::max(file_bytes, static_cast<double>(bytes_seen_)) + LaterFilesBytes();
-      estimate = static_cast<double>(first_quote_) + 1.05 * static_cast<double>(needed - first_quote_) *
-                                                         bytes_to_read / static_cast<double>(bytes_seen_);
+    if (bytes_seen_ > 0 && needed > first_quote_) {
+      const double seen = static_cast<double>(bytes_seen_);
+      const double bytes_to_read = (ec ? seen : std::max(file_bytes, seen)) + later_bytes_;
+      estimate = static_cast<double>(first_quote_) +
+                 1.05 * static_cast<double>(needed - first_quote_) * bytes_to_read / seen;
     }
     const double limit = HalfTheMemory() / static_cast<double>(BytesPerQuote());
     size_t total = std::max(needed, static_cast<size_t>(std::min(estimate, limit)));
@@ -1111,22 +1113,6 @@ class PriceReader {
     const long pages = sysconf(_SC_PHYS_PAGES), page_bytes = sysconf(_SC_PAGESIZE);
     if (pages <= 0 || page_bytes <= 0) return 16.0 * (1 << 30);
     return 0.5 * static_cast<double>(pages) * static_cast<double>(page_bytes);
-  }
-
-  // Bytes of the price files to be read after this one (those whose size
-  // can be had), so that the first file's reservation holds their quotes too
-  // and a later file, often a small one of rents or tariffs, does not move
-  // the quotes of all the files before it.
-  double LaterFilesBytes() const {
-    const std::vector<PriceSource>& sources = state_->config->survey.prices;
-    const size_t this_file = state_->quote_file_begin.empty() ? sources.size() : state_->quote_file_begin.size() - 1;
-    double bytes = 0.0;
-    for (size_t k = this_file + 1; k < sources.size(); ++k) {
-      std::error_code ec;
-      const uintmax_t size = std::filesystem::file_size(sources[k].path, ec);
-      if (!ec) bytes += static_cast<double>(size);
-    }
-    return bytes;
   }
 
   // Where each of the survey's quote arrays starts (null when empty).
@@ -1364,6 +1350,8 @@ class PriceReader {
   }
 
  private:
+  // Bytes of the price files read after this one (ReserveQuotes).
+  double later_bytes_;
   std::string path_;
   const PriceSource& source_;
   const LoadOptions& options_;
@@ -1385,9 +1373,9 @@ class PriceReader {
 }  // namespace
 
 bool ReadPrices(const PriceSource& source, const std::string& setting, const LoadOptions& options,
-                LoadState* state, Rejections* rejections, InputFileSummary* file,
+                double later_bytes, LoadState* state, Rejections* rejections, InputFileSummary* file,
                 std::string* error) {
-  PriceReader prices(source, setting, options, state, rejections, file);
+  PriceReader prices(source, setting, options, later_bytes, state, rejections, file);
   return prices.Read(error);
 }
 

@@ -8,7 +8,9 @@
 
 #include <chrono>
 #include <cmath>
+#include <filesystem>
 #include <string>
+#include <system_error>
 #include <vector>
 
 #include "paritas/base/csv.h"
@@ -74,6 +76,18 @@ std::string StopMessage(const LoadSummary& summary) {
   return message + "; fix them, or set invalid_rows: skip to leave them out";
 }
 
+// Bytes of the price files from the `first` on, of those whose size can be
+// had (a pipe or a missing file counts 0: its reading says what is wrong).
+double PriceFileBytesFrom(const std::vector<PriceSource>& sources, size_t first) {
+  double bytes = 0.0;
+  for (size_t k = first; k < sources.size(); ++k) {
+    std::error_code ec;
+    const uintmax_t size = std::filesystem::file_size(sources[k].path, ec);
+    if (!ec) bytes += static_cast<double>(size);
+  }
+  return bytes;
+}
+
 // Reads the price files in the order given, each of which must hold a data row.
 bool ReadPriceFiles(const RunConfig& config, const LoadOptions& options, LoadState* state,
                     Rejections* rejections, const std::vector<InputFileSummary*>& files,
@@ -83,7 +97,8 @@ bool ReadPriceFiles(const RunConfig& config, const LoadOptions& options, LoadSta
     const std::string setting =
         sources.size() == 1 ? "survey.prices" : "survey.prices[" + std::to_string(k) + "]";
     state->quote_file_begin.push_back(state->quotes.size());
-    if (!internal::ReadPrices(sources[k], setting, options, state, rejections, files[k], error)) {
+    const double later_bytes = PriceFileBytesFrom(sources, k + 1);
+    if (!internal::ReadPrices(sources[k], setting, options, later_bytes, state, rejections, files[k], error)) {
       return false;
     }
     if (files[k]->rows_read == 0) {

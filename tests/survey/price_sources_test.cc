@@ -603,10 +603,12 @@ TEST(PriceSourcesConfig, CpdCellWeightsNamesReadBackCaseInsensitively) {
 std::string PlainPrices(size_t bytes, int64_t* num_rows) {
   const char* regions[] = {"north", "south", "east"};
   std::string plain = "region,item,price,heading\n";
-  for (int row = 0; plain.size() < bytes; ++row, ++*num_rows) {
+  int row = 0;
+  for (; plain.size() < bytes; ++row) {
     plain += std::string(regions[row % 3]) + ",item" + std::to_string(row % 40) + "," +
              std::to_string(10 + row % 89) + ",food\n";
   }
+  *num_rows += row;
   return plain;
 }
 
