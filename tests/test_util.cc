@@ -9,6 +9,9 @@
 #include <unistd.h>
 
 #include <cstdlib>
+#include <mutex>
+#include <system_error>
+#include <vector>
 
 namespace paritas::testing {
 
@@ -75,13 +78,42 @@ std::string WriteSixCommoditySurvey(const std::string& name, const std::string& 
   return dir + "/run.yaml";
 }
 
+namespace {
+
+// The folders MakeTempDir made, removed when the process ends: a full test
+// run makes about a thousand (some of hundreds of MB), which otherwise pile
+// up in the temporary folder run after run.
+class TempDirs {
+ public:
+  void Add(const std::string& dir) {
+    std::lock_guard<std::mutex> lock(mutex_);
+    dirs_.push_back(dir);
+  }
+  ~TempDirs() {
+    const char* keep = std::getenv("PARITAS_KEEP_TEST_FILES");
+    if (keep != nullptr && keep[0] != '\0' && std::string(keep) != "0") return;
+    for (const std::string& dir : dirs_) {
+      std::error_code ec;
+      std::filesystem::remove_all(dir, ec);
+    }
+  }
+
+ private:
+  std::mutex mutex_;
+  std::vector<std::string> dirs_;
+};
+
+}  // namespace
+
 std::string MakeTempDir(const std::string& name) {
   namespace fs = std::filesystem;
+  static TempDirs made;
   // The process id keeps tests that ctest runs in parallel out of each
   // other's folders.
   fs::path dir = fs::temp_directory_path() / ("paritas_test_" + std::to_string(::getpid()) + "_" + name);
   fs::remove_all(dir);
   fs::create_directories(dir);
+  made.Add(dir.string());
   return dir.string();
 }
 

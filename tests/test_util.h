@@ -19,7 +19,9 @@ namespace paritas::testing {
 std::string TestDataPath(const std::string& relative);
 // Path of a file under the source tree.
 std::string SourcePath(const std::string& relative);
-// A fresh empty temporary folder for one test.
+// A fresh empty temporary folder for one test, removed with what it holds
+// when the test process ends normally (a crash keeps it), unless
+// PARITAS_KEEP_TEST_FILES is set to anything but "" or "0".
 std::string MakeTempDir(const std::string& name);
 // Writes `contents` to `path`, creating folders.
 void WriteTextFile(const std::string& path, const std::string& contents);
