@@ -95,6 +95,29 @@ bool ReadSmallTable(const std::string& path, const ReadLimits& limits, const Csv
   return true;
 }
 
+// Spending and population enter sums over every region and heading, and
+// ratios with parities: a figure beyond 1e100, or positive but nearer 0
+// than 1e-100, would overflow those sums (an expenditure of 1e307 in each
+// of 29 headings sums to infinity) or lose digits, so it is taken for a
+// units mistake and reported. Only ratios of these figures enter the
+// parities and per-head indices, so other units leave them as they are.
+constexpr double kLargestMagnitude = 1e100;
+constexpr double kSmallestMagnitude = 1e-100;
+
+// The problem with a non-negative figure's size, or empty when it has none.
+std::string MagnitudeProblem(const char* what, std::string_view text, double value) {
+  if (value > kLargestMagnitude) {
+    return std::string(what) + " " + QuoteValue(Trim(text)) +
+           " is beyond 1e100, where sums of such figures overflow; state it in larger units";
+  }
+  if (value > 0 && value < kSmallestMagnitude) {
+    return std::string(what) + " " + QuoteValue(Trim(text)) +
+           " is positive but nearer 0 than 1e-100, where ratios of such figures lose digits; state "
+           "it in smaller units";
+  }
+  return {};
+}
+
 }  // namespace
 
 // Reads the header row, checks required and duplicated columns, and records
@@ -250,6 +273,9 @@ bool ReadRegions(const std::string& path, LoadState* state, Rejections* rejectio
       if (population < 0) {
         return {kPopulation + 1, "population " + QuoteValue(value) + " is negative"};
       }
+      if (std::string problem = MagnitudeProblem("population", value, population); !problem.empty()) {
+        return {kPopulation + 1, problem};
+      }
     }
     auto [it, inserted] = first_line.emplace(std::string(code), record.line);
     if (!inserted) {
@@ -394,6 +420,9 @@ bool ReadExpenditure(const std::string& path, LoadState* state, Rejections* reje
     }
     if (value < 0) {
       return {kValue + 1, "expenditure " + QuoteValue(value_text) + " is negative"};
+    }
+    if (std::string problem = MagnitudeProblem("expenditure", value_text, value); !problem.empty()) {
+      return {kValue + 1, problem};
     }
     const int region_index = kRegion < 0 ? -1 : state->regions.Intern(region);
     const int heading_index = state->headings.Intern(heading);

@@ -567,6 +567,31 @@ class Deflater {
     return true;
   }
 
+  // Checks that every real value the record gives (and its interval's
+  // bounds) is a finite number: a value near the largest a double holds,
+  // divided by a parity below 100, overflows. Returns false after
+  // rejecting the record.
+  bool RealValuesAreFinite(const CsvRecord& record, size_t cell, double parity) {
+    for (size_t k = 0; k < value_columns_.size(); ++k) {
+      bool finite = std::isfinite(values_[k] / (parity / 100.0));
+      if (options_.include_interval) {
+        for (const double bound : {table_.lower[cell], table_.upper[cell]}) {
+          finite = finite && (!std::isfinite(bound) || std::isfinite(values_[k] / (bound / 100.0)));
+        }
+      }
+      if (finite) continue;
+      std::string shown;
+      AppendShortest(parity, &shown);
+      Reject(record, value_columns_[k] + 1,
+             options_.value_columns[k] + " " + QuoteValue(Trim(record.fields[value_columns_[k]])) +
+                 " in reference prices (at parity " + shown +
+                 (options_.include_interval ? " or its interval's bounds" : "") +
+                 ") is beyond the largest number a double holds (about 1.8e308)");
+      return false;
+    }
+    return true;
+  }
+
   // Appends the record with its real values (and parity and interval) and
   // `terminator`, or the default one when the record has none.
   void AppendRow(const CsvRecord& record, size_t cell, double parity, std::string_view terminator) {
@@ -619,7 +644,7 @@ class Deflater {
       size_t cell = 0;
       double parity = kNaN;
       if (!RowParity(record, &cell, &parity)) continue;
-      if (!ParseValues(record) || !writing_) continue;
+      if (!ParseValues(record) || !RealValuesAreFinite(record, cell, parity) || !writing_) continue;
       const size_t raw_end = record.offset + record.raw.size();
       AppendRow(record, cell, parity, data.substr(raw_end, reader.position() - raw_end));
       ++summary_->num_rows_written;

@@ -426,6 +426,34 @@ TEST(LoadSurvey, RejectsANegativeOrBadExpenditure) {
   EXPECT_EQ(FirstRejection(inf), inf.expenditure() + ":4:3: expenditure 'inf' is not a finite number");
 }
 
+// An expenditure of 1e307 in each of two headings sums to infinity (beyond
+// the largest double, about 1.797e308, IEEE 754): the run used to stop with
+// "not linked", or overflow sums of spending later. Such figures, and
+// positive ones too small to divide without losing digits, are refused.
+TEST(LoadSurvey, RejectsExpenditureAndPopulationBeyondWhatSumsHold) {
+  const SurveyDir large = MakeSurvey("large_expenditure", kPrices, std::string(kExpenditure) + "east,food,1e307\n");
+  EXPECT_EQ(FirstRejection(large),
+            large.expenditure() +
+                ":4:3: expenditure '1e307' is beyond 1e100, where sums of such figures overflow; state it in "
+                "larger units");
+  const SurveyDir tiny = MakeSurvey("tiny_expenditure", kPrices, std::string(kExpenditure) + "east,food,1e-101\n");
+  EXPECT_EQ(FirstRejection(tiny),
+            tiny.expenditure() +
+                ":4:3: expenditure '1e-101' is positive but nearer 0 than 1e-100, where ratios of such "
+                "figures lose digits; state it in smaller units");
+  const SurveyDir edge = MakeSurvey("edge_expenditure", kPrices,
+                                    "region,heading,expenditure\nnorth,food,1e100\nsouth,food,1e-100\n");
+  Survey survey;
+  ASSERT_EQ(Load(edge.config, &survey).outcome, LoadOutcome::kOk);
+  EXPECT_EQ(survey.expenditure(0, 0), 1e100);
+  const SurveyDir population = MakeSurvey("large_population", kPrices, kExpenditure, std::nullopt,
+                                          "region,population\nnorth,1e308\nsouth,6\n");
+  EXPECT_EQ(FirstRejection(population),
+            population.regions() +
+                ":2:2: population '1e308' is beyond 1e100, where sums of such figures overflow; state it in "
+                "larger units");
+}
+
 TEST(LoadSurvey, AcceptsZeroExpenditure) {
   const SurveyDir files = MakeSurvey("zero_expenditure", kPrices, "region,heading,expenditure\nnorth,food,0\n");
   Survey survey;

@@ -253,6 +253,26 @@ TEST(Deflate, AcceptsNegativeValuesWhenAllowed) {
   EXPECT_EQ(ReadTextFile(options.output_path), "region,income,income_real\na,-1200,-1000.0\n");
 }
 
+// 1.7e308 at parity 90 is 1.9e308 in reference prices, beyond the largest
+// double (about 1.797e308, IEEE 754): it used to be written as "inf". The
+// real values written are Python's float division of the same numbers.
+TEST(Deflate, RejectsAValueWhoseRealValueOverflows) {
+  const std::string dir = MakeTempDir("deflate_overflow");
+  DeflateOptions options = Options(dir, "region,income\na,1.7e308\nb,1.7e308\nb,1e308\n");
+  options.invalid_rows = InvalidRowPolicy::kSkip;
+  DeflateSummary summary;
+  ASSERT_TRUE(Deflate(options, &summary)) << summary.message;
+  EXPECT_EQ(summary.num_rows_written, 2);
+  ASSERT_EQ(summary.rejected_rows.size(), 1u);
+  EXPECT_EQ(summary.rejected_rows[0].reason,
+            options.input_path +
+                ":3:2: income '1.7e308' in reference prices (at parity 90) is beyond the largest "
+                "number a double holds (about 1.8e308)");
+  EXPECT_EQ(ReadTextFile(options.output_path),
+            "region,income,income_real\na,1.7e308,1.4166666666666667e+308\nb,1e308,"
+            "1.1111111111111112e+308\n");
+}
+
 TEST(Deflate, AddsRealValuesAtTheBoundsOfTheParityInterval) {
   const std::string dir = MakeTempDir("deflate_interval");
   DeflateOptions options = Options(dir, "region,income,other\na,12000,3\nb,9000,-1\n");
