@@ -567,18 +567,27 @@ class Deflater {
     return true;
   }
 
-  // Checks that every real value the record gives (and its interval's
-  // bounds) is a finite number: a value near the largest a double holds,
-  // divided by a parity below 100, overflows. Returns false after
-  // rejecting the record.
-  bool RealValuesAreFinite(const CsvRecord& record, size_t cell, double parity) {
-    for (size_t k = 0; k < value_columns_.size(); ++k) {
-      bool finite = std::isfinite(values_[k] / (parity / 100.0));
-      if (options_.include_interval) {
-        for (const double bound : {table_.lower[cell], table_.upper[cell]}) {
-          finite = finite && (!std::isfinite(bound) || std::isfinite(values_[k] / (bound / 100.0)));
-        }
-      }
+  // Sets real_ to the record's real values (and, with intervals, their
+  // bounds: real_[3k] the value, real_[3k + 1] and real_[3k + 2] the lower
+  // and upper bound, NaN where the region has no interval). Rejects the
+  // record when one of them is not a finite number (a value near the
+  // largest a double holds, at a parity below 100, overflows) and returns
+  // false.
+  bool RealValues(const CsvRecord& record, size_t cell, double parity) {
+    const size_t num_values = value_columns_.size();
+    real_.resize(3 * num_values);
+    const double lower = options_.include_interval ? table_.lower[cell] : kNaN;
+    const double upper = options_.include_interval ? table_.upper[cell] : kNaN;
+    for (size_t k = 0; k < num_values; ++k) {
+      const double value = values_[k];
+      // A dearer bound gives the smaller real value; for a negative value
+      // the order flips.
+      const double a = value / (upper / 100.0), b = value / (lower / 100.0);
+      real_[3 * k] = value / (parity / 100.0);
+      real_[3 * k + 1] = std::min(a, b);
+      real_[3 * k + 2] = std::max(a, b);
+      const bool finite = std::isfinite(real_[3 * k]) && (std::isnan(upper) || std::isfinite(a)) &&
+                          (std::isnan(lower) || std::isfinite(b));
       if (finite) continue;
       std::string shown;
       AppendShortest(parity, &shown);
@@ -592,30 +601,25 @@ class Deflater {
     return true;
   }
 
-  // Appends the record with its real values (and parity and interval) and
-  // `terminator`, or the default one when the record has none.
-  void AppendRow(const CsvRecord& record, size_t cell, double parity, std::string_view terminator) {
+  // Appends the record with its real values (real_; and parity and
+  // interval) and `terminator`, or the default one when the record has none.
+  void AppendRow(const CsvRecord& record, double parity, std::string_view terminator) {
     const size_t num_values = value_columns_.size();
     out_.append(record.raw);
     for (size_t k = 0; k < num_values; ++k) {
       out_ += ',';
-      AppendAmount(values_[k] / (parity / 100.0), options_.decimals, &out_);
+      AppendAmount(real_[3 * k], options_.decimals, &out_);
     }
     if (options_.include_parity) {
       out_ += ',';
       AppendShortest(parity, &out_);
     }
     if (options_.include_interval) {
-      const double lower = table_.lower[cell];
-      const double upper = table_.upper[cell];
       for (size_t k = 0; k < num_values; ++k) {
-        // A dearer bound gives the smaller real value; for a negative value
-        // the order flips.
-        const double a = values_[k] / (upper / 100.0), b = values_[k] / (lower / 100.0);
         out_ += ',';
-        AppendAmount(std::min(a, b), options_.decimals, &out_);
+        AppendAmount(real_[3 * k + 1], options_.decimals, &out_);
         out_ += ',';
-        AppendAmount(std::max(a, b), options_.decimals, &out_);
+        AppendAmount(real_[3 * k + 2], options_.decimals, &out_);
       }
     }
     if (terminator.empty()) {
@@ -644,9 +648,9 @@ class Deflater {
       size_t cell = 0;
       double parity = kNaN;
       if (!RowParity(record, &cell, &parity)) continue;
-      if (!ParseValues(record) || !RealValuesAreFinite(record, cell, parity) || !writing_) continue;
+      if (!ParseValues(record) || !RealValues(record, cell, parity) || !writing_) continue;
       const size_t raw_end = record.offset + record.raw.size();
-      AppendRow(record, cell, parity, data.substr(raw_end, reader.position() - raw_end));
+      AppendRow(record, parity, data.substr(raw_end, reader.position() - raw_end));
       ++summary_->num_rows_written;
       if (out_.size() >= kFlushBytes && !output_.Write(&out_, error)) return false;
       if (rejected_text_.size() >= kFlushBytes && !rejected_file_.Write(&rejected_text_, error))
@@ -680,6 +684,7 @@ class Deflater {
   int node_column_ = -1;
   std::vector<int> value_columns_;
   std::vector<double> values_;
+  std::vector<double> real_;  // RealValues'
   LastCode last_region_;
   LastCode last_node_;
 };
