@@ -388,6 +388,7 @@ bool ImputationStage(const Survey& survey, const ComputeOptions& options, Parity
 // with the summary set when some heading's regions are not linked.
 bool CheckHeadings(const Survey& survey, const ParityResult& result, ComputeSummary* summary) {
   std::vector<std::string> failures;
+  bool any_unlinked = false;
   for (int h = 0; h < survey.num_headings(); ++h) {
     const HeadingParities& heading = result.headings[h];
     if (heading.num_cells == 0) {
@@ -399,20 +400,28 @@ bool CheckHeadings(const Survey& survey, const ParityResult& result, ComputeSumm
                                   "' has no price quotes: left out of every aggregate");
       continue;
     }
-    if (!heading.identified) {
+    if (!heading.identified && heading.groups.size() > 1) {
+      any_unlinked = true;
       failures.push_back("heading '" + survey.heading_codes[h] +
                          "' is not linked: its regions fall into " +
                          std::to_string(heading.groups.size()) +
                          " groups that share no item: " + DescribeGroups(survey, heading.groups));
       continue;
     }
+    if (!heading.identified) {  // linked, but the fit failed (e.g. weights many powers of 10 apart)
+      failures.push_back("heading '" + survey.heading_codes[h] + "' has no parities: " + heading.message);
+      continue;
+    }
     ++summary->num_headings_used;
   }
   if (failures.empty()) return true;
   summary->outcome = ComputeOutcome::kComputationFailed;
-  summary->message = JoinNames(failures, "\n") +
-                     "\nparities between unlinked groups are not identified; price an item "
-                     "common to the groups, or leave the isolated regions out of the heading";
+  summary->message = JoinNames(failures, "\n");
+  if (any_unlinked) {
+    summary->message +=
+        "\nparities between unlinked groups are not identified; price an item common to the "
+        "groups, or leave the isolated regions out of the heading";
+  }
   return false;
 }
 

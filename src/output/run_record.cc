@@ -177,7 +177,8 @@ std::string RunRecordJson(const RunRecord& record) {
                        {"line", code.line},
                        {"reason", ValidUtf8(code.reason)},
                        {"price_rows", code.num_price_rows},
-                       {"expenditure_rows", code.num_expenditure_rows}});
+                       {"expenditure_rows", code.num_expenditure_rows},
+                       {"external_parity_rows", code.num_external_parity_rows}});
     }
     out["rejected_codes"] = codes;
   }

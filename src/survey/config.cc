@@ -36,6 +36,11 @@ constexpr EnumName<InvalidRowPolicy> kPolicyNames[] = {
     {InvalidRowPolicy::kSkip, "skip"},
 };
 
+// Beyond a factor of 1000 either way the other cells have almost no say in
+// the CPD, and its normal equations lose digits (a weight of 1e-300 gave
+// standard errors of 1e147).
+bool RepresentativeWeightInRange(double weight) { return weight >= 1e-3 && weight <= 1e3; }
+
 std::string ShortestText(double value) {
   std::string text;
   AppendShortest(value, &text);
@@ -670,6 +675,11 @@ class ConfigParser {
       if (!Positive(node, "representative_weight", &config_->representative_weight, error)) {
         return false;
       }
+      if (!RepresentativeWeightInRange(config_->representative_weight)) {
+        *error = Where(node) + "representative_weight must be a number from 0.001 to 1000, found '" +
+                 node.Scalar() + "'";
+        return false;
+      }
     }
     if (const YAML::Node node = root["cpd_cell_weights"]) {
       if (!EnumValue(node, "cpd_cell_weights", &config_->cpd_cell_weights, CpdCellWeightsNames(),
@@ -1060,8 +1070,9 @@ bool RunConfig::IsValid(std::string* error) const {
     *error = NotOneOf("aggregation", aggregation, AggregationMethodNames());
     return false;
   }
-  if (!(representative_weight > 0) || !std::isfinite(representative_weight)) {
-    *error = "representative_weight must be a positive number";
+  if (!RepresentativeWeightInRange(representative_weight)) {
+    *error = "representative_weight must be a number from 0.001 to 1000, found " +
+             ShortestText(representative_weight);
     return false;
   }
   if (!(outlier_threshold > 0) || !std::isfinite(outlier_threshold)) {

@@ -25,6 +25,7 @@
 #include <vector>
 
 #include "base/equal_bytes.h"
+#include "base/magnitude.h"
 #include "base/plain_decimal.h"
 #include "base/sha256.h"
 #include "paritas/base/csv.h"
@@ -663,11 +664,13 @@ class ChunkParser {
              NumberProblem(status, "price", price_text, columns_.format.decimal, columns_.setting));
       return false;
     }
+    if (WithinInputRange(*price)) return true;
     if (!(*price > 0)) {
       Reject(columns_.price + 1, "price " + QuoteValue(price_text) + " is not a positive number");
-      return false;
+    } else {
+      Reject(columns_.price + 1, MagnitudeProblem("price", price_text, *price));
     }
-    return true;
+    return false;
   }
 
   bool ReadFlag(bool* representative) {
@@ -692,11 +695,13 @@ class ChunkParser {
                                        columns_.setting));
       return false;
     }
+    if (WithinInputRange(*value)) return true;
     if (!(*value > 0)) {
       Reject(column + 1, std::string(what) + " " + QuoteValue(text) + " is not a positive number");
-      return false;
+    } else {
+      Reject(column + 1, MagnitudeProblem(what, text, *value));
     }
-    return true;
+    return false;
   }
 
   // Converts *price, observed for the row's quantity, to the item's
@@ -713,11 +718,12 @@ class ChunkParser {
     const bool without_reference = std::isnan(reference_quantity);
     const double reference = without_reference ? 1.0 : reference_quantity;
     const double converted = *price * reference / quantity;
-    if (!(converted > 0) || !std::isfinite(converted)) {
+    if (!WithinInputRange(converted)) {
       Reject(columns_.quantity + 1,
              "price " + QuoteValue(Trim(record_.fields[columns_.price])) + " for quantity " +
                  QuoteValue(Trim(record_.fields[columns_.quantity])) +
-                 " is out of range at the reference quantity (found " + Shortest(converted) + ")");
+                 " is out of range at the reference quantity (found " + Shortest(converted) +
+                 ", outside 1e-100 to 1e100)");
       return false;
     }
     if (without_reference) {

@@ -10,6 +10,7 @@
 #include <unordered_set>
 #include <vector>
 
+#include "base/magnitude.h"
 #include "base/sha256.h"
 #include "paritas/base/csv.h"
 #include "paritas/base/text.h"
@@ -93,29 +94,6 @@ bool ReadSmallTable(const std::string& path, const ReadLimits& limits, const Csv
     return false;
   }
   return true;
-}
-
-// Spending and population enter sums over every region and heading, and
-// ratios with parities: a figure beyond 1e100, or positive but nearer 0
-// than 1e-100, would overflow those sums (an expenditure of 1e307 in each
-// of 29 headings sums to infinity) or lose digits, so it is taken for a
-// units mistake and reported. Only ratios of these figures enter the
-// parities and per-head indices, so other units leave them as they are.
-constexpr double kLargestMagnitude = 1e100;
-constexpr double kSmallestMagnitude = 1e-100;
-
-// The problem with a non-negative figure's size, or empty when it has none.
-std::string MagnitudeProblem(const char* what, std::string_view text, double value) {
-  if (value > kLargestMagnitude) {
-    return std::string(what) + " " + QuoteValue(Trim(text)) +
-           " is beyond 1e100, where sums of such figures overflow; state it in larger units";
-  }
-  if (value > 0 && value < kSmallestMagnitude) {
-    return std::string(what) + " " + QuoteValue(Trim(text)) +
-           " is positive but nearer 0 than 1e-100, where ratios of such figures lose digits; state "
-           "it in smaller units";
-  }
-  return {};
 }
 
 }  // namespace
@@ -335,6 +313,10 @@ bool ReadItems(const std::string& path, LoadState* state, Rejections* rejections
         return {kReference + 1,
                 "reference_quantity " + QuoteValue(text) + " is not a positive number"};
       }
+      if (std::string problem = MagnitudeProblem("reference_quantity", text, reference);
+          !problem.empty()) {
+        return {kReference + 1, problem};
+      }
     }
     const int existing = state->items.Find(item);
     if (existing >= 0) {
@@ -458,6 +440,12 @@ bool ReadExpenditure(const std::string& path, LoadState* state, Rejections* reje
   return true;
 }
 
+// The largest standard error of ln parity an external parity may carry.
+constexpr double kLargestLogSe = 1.0;
+// What to do with a heading's external parities out of range.
+constexpr std::string_view kRescaleParities =
+    "a heading's parities may be on any scale, so rescale them";
+
 bool ReadExternalParities(const std::string& path, LoadState* state, Rejections* rejections,
                           InputFileSummary* file, std::string* error) {
   std::unordered_map<uint64_t, int64_t> first_line;
@@ -481,6 +469,14 @@ bool ReadExternalParities(const std::string& path, LoadState* state, Rejections*
       return {kRegion + 1, problem};
     }
     const int region_index = state->regions.Find(region);
+    if (region_index < 0 && state->regions_fixed) {
+      const auto rejected = state->rejected_region_index.find(std::string(region));
+      if (rejected != state->rejected_region_index.end()) {
+        RejectedCode& code = state->rejected_codes[rejected->second];
+        ++code.num_external_parity_rows;
+        return {kRegion + 1, RejectedCodeReason(code), RejectionCause::kRejectedCode};
+      }
+    }
     if (region_index < 0) {
       return {kRegion + 1, "region " + QuoteValue(region) +
                                (state->regions_fixed ? " is not in " + state->config->survey.regions
@@ -495,6 +491,9 @@ bool ReadExternalParities(const std::string& path, LoadState* state, Rejections*
     if (!(parity > 0)) {
       return {kParity + 1, "parity " + QuoteValue(parity_text) + " is not positive"};
     }
+    if (std::string problem = MagnitudeProblem("parity", parity_text, parity, kRescaleParities); !problem.empty()) {
+      return {kParity + 1, problem};
+    }
     double log_se = std::nan("");
     if (kLogSe >= 0 && !Trim(record.fields[kLogSe]).empty()) {
       const std::string_view se_text = record.fields[kLogSe];
@@ -503,6 +502,15 @@ bool ReadExternalParities(const std::string& path, LoadState* state, Rejections*
         return {kLogSe + 1, NumberProblem(se_status, "log_se", se_text, decimal, setting)};
       }
       if (log_se < 0) return {kLogSe + 1, "log_se " + QuoteValue(se_text) + " is negative"};
+      // ln parity's standard error: 0.05 is about 5 %. Above 1 the parity's
+      // 95 % interval spans a factor of 50, and the bootstrap's draws of
+      // exp(N(0, log_se^2)) overflow from about 300; most likely a
+      // percentage.
+      if (log_se > kLargestLogSe) {
+        return {kLogSe + 1, "log_se " + QuoteValue(Trim(se_text)) +
+                                " is above 1 (a standard error of ln parity; 0.05 is about 5 %): is "
+                                "it a percentage?"};
+      }
     }
     const uint64_t key =
         (static_cast<uint64_t>(region_index) << 32) | static_cast<uint32_t>(heading_index);

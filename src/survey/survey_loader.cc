@@ -44,7 +44,7 @@ int64_t ConflictRows(const std::vector<HeadingConflict>& conflicts) {
 // with what was used, from the state to the summary.
 void SummariseRejections(const std::string& prices_path, LoadState* state, LoadSummary* summary) {
   for (RejectedCode& code : state->rejected_codes) {
-    if (code.num_price_rows + code.num_expenditure_rows > 0) {
+    if (code.num_price_rows + code.num_expenditure_rows + code.num_external_parity_rows > 0) {
       summary->rejected_codes.push_back(std::move(code));
     }
   }
@@ -139,9 +139,18 @@ std::string RejectedCode::Describe() const {
   std::vector<std::string> left_out;
   if (num_price_rows > 0) left_out.push_back(Rows(num_price_rows, "price"));
   if (num_expenditure_rows > 0) left_out.push_back(Rows(num_expenditure_rows, "expenditure"));
-  const bool one = num_price_rows + num_expenditure_rows == 1;
+  if (num_external_parity_rows > 0) {
+    left_out.push_back(Rows(num_external_parity_rows, "external parity"));
+  }
+  const bool one = num_price_rows + num_expenditure_rows + num_external_parity_rows == 1;
+  // "A and B", "A, B and C".
+  std::string listed = left_out.empty() ? std::string() : left_out.back();
+  if (left_out.size() >= 2) {
+    left_out.pop_back();
+    listed = JoinNames(left_out, ", ") + " and " + listed;
+  }
   return kind + " " + QuoteValue(code) + " was rejected at " + file + ":" + std::to_string(line) +
-         " (" + reason + "), so its " + JoinNames(left_out, " and ") + (one ? " is" : " are") +
+         " (" + reason + "), so its " + listed + (one ? " is" : " are") +
          " left out";
 }
 

@@ -6,6 +6,7 @@
 #include <filesystem>
 #include <limits>
 
+#include "base/magnitude.h"
 #include "base/not_a_number.h"
 #include "paritas/base/csv.h"
 #include "paritas/base/text.h"
@@ -111,6 +112,10 @@ bool ParseParity(const std::string& path, int64_t line, int column, const char* 
   if (!(parsed > 0)) {
     *error = LocatedMessage(path, line, column,
                             std::string(what) + " " + QuoteValue(text) + " is not positive");
+    return false;
+  }
+  if (std::string problem = MagnitudeProblem(what, text, parsed, "only ratios between regions matter, so rescale them"); !problem.empty()) {
+    *error = LocatedMessage(path, line, column, problem);
     return false;
   }
   *value = parsed;

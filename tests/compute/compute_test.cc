@@ -385,6 +385,28 @@ TEST(ComputeParities, UnlinkedHeadingFailsAndNamesTheGroups) {
             "{east, west} and {north, south}");
 }
 
+// A linked heading whose fit failed was reported as "not linked: its
+// regions fall into 1 groups": the message now says what failed.
+TEST(ComputeParities, LinkedHeadingWhoseFitFailsSaysWhy) {
+  const std::string folder = MakeTempDir("singular");
+  WriteTextFile(folder + "/prices.csv",
+                "region,item,price,heading,weight\n"
+                "north,a,1.73,bread,1\nnorth,b,1.17,bread,1e17\nsouth,a,2.56,bread,1\n"
+                "south,b,1.74,bread,1e20\neast,a,1.94,bread,1\neast,b,2.41,bread,1e17\n");
+  WriteTextFile(folder + "/expenditure.csv",
+                "region,heading,expenditure\nnorth,bread,1\nsouth,bread,1\neast,bread,1\n");
+  const Survey survey = LoadFrom(folder, "survey:\n  prices: prices.csv\n  expenditure: expenditure.csv\n");
+  ComputeOptions options;
+  options.elementary.quote_weighted_cells = true;
+  ParityResult result;
+  ComputeSummary summary;
+  EXPECT_FALSE(ComputeParities(survey, options, &result, &summary));
+  EXPECT_EQ(summary.outcome, ComputeOutcome::kComputationFailed);
+  EXPECT_EQ(summary.message,
+            "heading 'bread' has no parities: the CPD normal equations are numerically singular; "
+            "check for weights spanning many orders of magnitude");
+}
+
 TEST(ComputeParities, AggregateWithoutPricedHeadingsFailsNamingItsHeadings) {
   // Before, the message read "... fall into 0 groups with no heading in common: ".
   const std::string folder = MakeTempDir("unpriced_aggregate");

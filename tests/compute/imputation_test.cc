@@ -449,7 +449,8 @@ TEST(ExternalParities, BadRowsAreRejectedWithTheirPlace) {
   WriteSurvey(folder);
   WriteTextFile(folder + "/rents.csv",
                 "heading,region,parity,log_se\nrent,A,-1,\nrent,Z,1.0,\nrents,B,1.0,\n"
-                "rent,C,abc,\nrent,D,1.1,-0.2\nrent,B,1.2,\nrent,B,1.3,\n");
+                "rent,C,abc,\nrent,D,1.1,-0.2\nrent,B,1.2,\nrent,B,1.3,\nrent,C,1e101,\n"
+                "rent,C,1e-101,\nrent,D,1.1,2.26\n");
   RunConfig config;
   Survey survey;
   LoadSummary load;
@@ -466,6 +467,17 @@ TEST(ExternalParities, BadRowsAreRejectedWithTheirPlace) {
                          file + ":6:4: log_se '-0.2' is negative",
                          file + ":8:1: duplicate row for heading 'rent' and region 'B' (first at "
                                 "line 7)",
+                         // Beyond what sums and ratios of them hold (src/base/magnitude.h).
+                         file + ":9:3: parity '1e101' is beyond 1e100, where sums and ratios of "
+                                "such figures overflow; a heading's parities may be on any scale, "
+                                "so rescale them",
+                         file + ":10:3: parity '1e-101' is positive but nearer 0 than 1e-100, "
+                                "where ratios of such figures overflow or lose digits; a heading's "
+                                "parities may be on any scale, so rescale them",
+                         // A log_se of 1000 made the bootstrap's draws overflow; 2.26 is
+                         // most likely 2.26 %.
+                         file + ":11:4: log_se '2.26' is above 1 (a standard error of ln parity; "
+                                "0.05 is about 5 %): is it a percentage?",
                      }));
 }
 

@@ -214,6 +214,9 @@ TEST(RunConfig, RejectsBadNumbersAndFlags) {
             "/cfg/run.yaml:4:24: 'representative_weight' must be a number, found 'heavy'");
   EXPECT_EQ(ParseError(std::string(kSurvey) + "representative_weight: -1\n"),
             "/cfg/run.yaml:4:24: representative_weight must be positive, found '-1'");
+  EXPECT_EQ(ParseError(std::string(kSurvey) + "representative_weight: 1e-300\n"),
+            "/cfg/run.yaml:4:24: representative_weight must be a number from 0.001 to 1000, found "
+            "'1e-300'");
   EXPECT_EQ(ParseError(std::string(kSurvey) + "outlier_threshold: 0\n"),
             "/cfg/run.yaml:4:20: outlier_threshold must be positive, found '0'");
   EXPECT_EQ(ParseError(std::string(kSurvey) + "report: maybe\n"),

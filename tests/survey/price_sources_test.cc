@@ -474,11 +474,13 @@ TEST(Quantities, AMissingOrZeroQuantityIsARowError) {
   EXPECT_EQ(FirstRejection(empty), empty.path(0) + ":3:5: quantity is empty");
   const Sources text = BadRow("quantity_text", header, "south,bread,3,food,750g", kItems);
   EXPECT_EQ(FirstRejection(text), text.path(0) + ":3:5: quantity '750g' is not a number");
-  const Sources range = BadRow("quantity_range", header, "south,bread,1e300,food,1e-300", kItems);
+  // Each figure within 1e-100 to 1e100, the price at the reference quantity
+  // (1000) not: 1e80 x 1000 / 1e-30 = 1e113 (Python's float arithmetic).
+  const Sources range = BadRow("quantity_range", header, "south,bread,1e80,food,1e-30", kItems);
   EXPECT_EQ(FirstRejection(range),
             range.path(0) +
-                ":3:5: price '1e300' for quantity '1e-300' is out of range at the reference "
-                "quantity (found inf)");
+                ":3:5: price '1e80' for quantity '1e-30' is out of range at the reference "
+                "quantity (found 1e+113, outside 1e-100 to 1e100)");
 }
 
 TEST(Quantities, AnItemWithoutReferenceQuantityIsPricedPerUnitWithAWarning) {

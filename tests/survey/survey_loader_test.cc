@@ -430,28 +430,49 @@ TEST(LoadSurvey, RejectsANegativeOrBadExpenditure) {
 // the largest double, about 1.797e308, IEEE 754): the run used to stop with
 // "not linked", or overflow sums of spending later. Such figures, and
 // positive ones too small to divide without losing digits, are refused.
-TEST(LoadSurvey, RejectsExpenditureAndPopulationBeyondWhatSumsHold) {
+TEST(LoadSurvey, RejectsFiguresBeyondWhatSumsAndRatiosHold) {
   const SurveyDir large = MakeSurvey("large_expenditure", kPrices, std::string(kExpenditure) + "east,food,1e307\n");
   EXPECT_EQ(FirstRejection(large),
             large.expenditure() +
-                ":4:3: expenditure '1e307' is beyond 1e100, where sums of such figures overflow; state it in "
-                "larger units");
+                ":4:3: expenditure '1e307' is beyond 1e100, where sums and ratios of such figures overflow; "
+                "state it in larger units");
   const SurveyDir tiny = MakeSurvey("tiny_expenditure", kPrices, std::string(kExpenditure) + "east,food,1e-101\n");
   EXPECT_EQ(FirstRejection(tiny),
             tiny.expenditure() +
                 ":4:3: expenditure '1e-101' is positive but nearer 0 than 1e-100, where ratios of such "
-                "figures lose digits; state it in smaller units");
+                "figures overflow or lose digits; state it in smaller units");
   const SurveyDir edge = MakeSurvey("edge_expenditure", kPrices,
                                     "region,heading,expenditure\nnorth,food,1e100\nsouth,food,1e-100\n");
   Survey survey;
   ASSERT_EQ(Load(edge.config, &survey).outcome, LoadOutcome::kOk);
   EXPECT_EQ(survey.expenditure(0, 0), 1e100);
+  // Prices, quote weights and reference quantities alike (a price of 1e-300
+  // times 1e10 made a ratio of inf in outliers.csv).
+  const SurveyDir price = MakeSurvey("large_price", std::string(kPrices) + "south,tea,1e101,food\n");
+  EXPECT_EQ(FirstRejection(price),
+            price.prices() +
+                ":6:3: price '1e101' is beyond 1e100, where sums and ratios of such figures overflow; "
+                "state it in larger units");
+  const SurveyDir weight = MakeSurvey("tiny_weight",
+                                      "region,item,price,heading,weight\nnorth,bread,2.0,food,1\n"
+                                      "south,bread,3.0,food,1e-300\n");
+  EXPECT_EQ(FirstRejection(weight),
+            weight.prices() +
+                ":3:5: weight '1e-300' is positive but nearer 0 than 1e-100, where ratios of such "
+                "figures overflow or lose digits; state it in smaller units");
+  const SurveyDir quantity = MakeSurvey("tiny_reference_quantity", kPrices, kExpenditure,
+                                        "item,heading,reference_quantity\nbread,food,4.9e-324\n"
+                                        "milk,food,1\n");
+  EXPECT_EQ(FirstRejection(quantity),
+            quantity.items() +
+                ":2:3: reference_quantity '4.9e-324' is positive but nearer 0 than 1e-100, where "
+                "ratios of such figures overflow or lose digits; state it in smaller units");
   const SurveyDir population = MakeSurvey("large_population", kPrices, kExpenditure, std::nullopt,
                                           "region,population\nnorth,1e308\nsouth,6\n");
   EXPECT_EQ(FirstRejection(population),
             population.regions() +
-                ":2:2: population '1e308' is beyond 1e100, where sums of such figures overflow; state it in "
-                "larger units");
+                ":2:2: population '1e308' is beyond 1e100, where sums and ratios of such figures overflow; "
+                "state it in larger units");
 }
 
 TEST(LoadSurvey, AcceptsZeroExpenditure) {
@@ -1426,6 +1447,30 @@ TEST(LoadSurvey, CountsRowsOfARejectedRegionApartAndDescribesThemOnce) {
                 files.prices() + ":6:1: region 'east' is not in " + files.regions() + "\n" +
                 files.expenditure() + ":4:1: region 'west' is not in " + files.regions() + "\n" +
                 rejected_region + "\n");
+}
+
+// An external parity of a rejected region used to be blamed on regions.csv
+// ("region 'south' is not in regions.csv"), where the region is listed.
+TEST(LoadSurvey, LeavesOutTheExternalParitiesOfARejectedRegion) {
+  SurveyDir files = RejectedRegionSurvey("cascade_external");
+  files.config.survey.external_parities = files.dir + "/rents.csv";
+  WriteTextFile(files.config.survey.external_parities,
+                "heading,region,parity\nfood,north,1.0\nfood,south,1.2\n");
+  Survey survey;
+  LoadOptions options;
+  options.invalid_rows = InvalidRowPolicy::kSkip;
+  const LoadSummary summary = Load(files.config, &survey, options);
+  ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
+  EXPECT_EQ(FileOf(summary, "external_parities").rows_rejected, 1);
+  EXPECT_EQ(FileOf(summary, "external_parities").rows_rejected_by_cascade, 1);
+  ASSERT_EQ(summary.rejected_codes.size(), 1u);
+  EXPECT_EQ(summary.rejected_codes[0].num_external_parity_rows, 1);
+  EXPECT_EQ(summary.rejected_codes[0].Describe(),
+            "region 'south' was rejected at " + files.regions() + ":3 (name 'S\\xfcd' is not valid " +
+                "UTF-8 " + kUtf8Advice +
+                "), so its 2 price rows, 1 expenditure row and 1 external parity row are left out");
+  EXPECT_EQ(summary.rejected_rows.back().reason,
+            files.dir + "/rents.csv:3:2: region 'south' was rejected at " + files.regions() + ":3");
 }
 
 TEST(LoadSurvey, StopCountsRowsOfARejectedRegionApartInItsMessage) {

@@ -44,10 +44,11 @@ struct RejectedCode {
   std::string reason;  // that row's problem, without its location
   int64_t num_price_rows = 0;
   int64_t num_expenditure_rows = 0;  // always 0 for an item
+  int64_t num_external_parity_rows = 0;  // always 0 for an item
 
   // "region 'NRD' was rejected at regions.csv:5 (population '1,200,000' is
   // not a number; ...), so its 57 price rows and 8 expenditure rows are left
-  // out".
+  // out" (and its external parity rows, when it has some).
   std::string Describe() const;
 };
 
