@@ -138,6 +138,17 @@ std::string FormatFixed(double value, int decimals) {
   return out;
 }
 
+std::string FormatReadable(double value, int decimals) {
+  const double size = std::fabs(value);
+  if (!std::isfinite(value) || value == 0 ||
+      (size >= 10 * std::pow(10.0, -decimals) && size < 1e9)) {
+    return FormatFixed(value, decimals);
+  }
+  char buffer[32];
+  std::snprintf(buffer, sizeof(buffer), "%.3g", value);
+  return buffer;
+}
+
 std::string FormatCount(int64_t value) {
   const std::string digits = std::to_string(value < 0 ? -value : value);
   std::string out;

@@ -448,8 +448,8 @@ int64_t AddGrossOutlierWarnings(const Survey& survey, const OutlierReport& outli
         {"gross-outlier", survey.heading_codes[o.heading], region,
          "heading '" + survey.heading_codes[o.heading] + "', region '" + region + "', item '" +
              std::string(survey.items.Code(o.item)) + "': " + (cell ? "cell price " : "a quote of ") +
-             FormatFixed(o.observed, 2) + " is " + FormatFixed(ratio, 3) +
-             " times the predicted " + FormatFixed(o.predicted, 2) + " (checks.gross_outlier_ratio " +
+             FormatReadable(o.observed, 2) + " is " + FormatReadable(ratio, 3) +
+             " times the predicted " + FormatReadable(o.predicted, 2) + " (checks.gross_outlier_ratio " +
              FormatFixed(checks.gross_outlier_ratio, 2) + "); see outliers.csv"});
     if (plausibility->node_region_kinds.size() > static_cast<size_t>(node)) {
       Checker::MarkKind("gross-outlier", node, o.region, plausibility);

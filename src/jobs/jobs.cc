@@ -621,7 +621,7 @@ std::string ComputeJobSummary::FullReport() const {
            FormatCount(static_cast<int64_t>(outliers.outliers.size()) - cells) +
            " quotes far from the fit (listed in outliers.csv); the worst: " + survey.heading_codes[worst.heading] +
            ", " + std::string(survey.regions.Code(worst.region)) + ", " + std::string(survey.items.Code(worst.item)) +
-           " at " + FormatFixed(worst.observed / worst.predicted, 3) + " times the predicted price\n";
+           " at " + FormatReadable(worst.observed / worst.predicted, 3) + " times the predicted price\n";
   }
   if (outliers.num_cells_not_screenable > 0) {
     out += "not screened: " + FormatCount(outliers.num_cells_not_screenable) +

@@ -148,6 +148,20 @@ TEST(FormatFixed, RoundsToTheGivenDecimals) {
   EXPECT_EQ(FormatFixed(7.0, 0), "7");
 }
 
+// A price per gram of 0.00413 read "0.00" in a warning, and an absurd quote
+// printed 80 digits. Expected texts are C's printf %.3g (ISO C 7.21.6.1).
+TEST(FormatReadable, KeepsTwoSignificantDigitsAndNoLongRuns) {
+  EXPECT_EQ(FormatReadable(2.345678, 2), "2.35");
+  EXPECT_EQ(FormatReadable(0.1, 2), "0.10");
+  EXPECT_EQ(FormatReadable(0.089, 3), "0.089");
+  EXPECT_EQ(FormatReadable(0.00413, 2), "0.00413");
+  EXPECT_EQ(FormatReadable(2.46e-50, 2), "2.46e-50");
+  EXPECT_EQ(FormatReadable(123456789.0, 2), "123456789.00");
+  EXPECT_EQ(FormatReadable(1.5e12, 2), "1.5e+12");
+  EXPECT_EQ(FormatReadable(-0.004, 3), "-0.004");
+  EXPECT_EQ(FormatReadable(0.0, 2), "0.00");
+}
+
 TEST(FormatFixed, PrintsNegativeZeroAndTinyNegativesWithoutSign) {
   EXPECT_EQ(FormatFixed(-0.0, 2), "0.00");
   EXPECT_EQ(FormatFixed(-0.0004, 3), "0.000");

@@ -49,6 +49,11 @@ void AppendShortest(double value, std::string* out);
 void AppendInteger(int64_t value, std::string* out);
 // Returns AppendFixed as a string.
 std::string FormatFixed(double value, int decimals);
+// Returns FormatFixed(value, decimals) when that shows at least two
+// significant digits and at most 9 before the point; otherwise three
+// significant digits ("0.00413", "1.5e+12"), as printf's %.3g. For
+// messages about figures of any size (a price per gram, an absurd quote).
+std::string FormatReadable(double value, int decimals);
 
 // Returns a whole number with thousands separated by commas: "12,345".
 std::string FormatCount(int64_t value);
