@@ -108,7 +108,11 @@ bool SimulateItemsNeeded(const ItemsNeededSimOptions& options, ItemsNeededSimRes
   const double root_se = ItemsNeeded(survey, analysed, 1.0).front().log_se_median;
   result->target_log_se = options.target_share * root_se;
   const std::vector<ItemsNeededRow> plan = ItemsNeeded(survey, analysed, result->target_log_se);
-  result->items_priced = plan.front().items_for_median;
+  if (!plan.front().items_for_median) {
+    *error = "the plan asks for over 10^12 items per heading";
+    return false;
+  }
+  result->items_priced = static_cast<int>(*plan.front().items_for_median);
 
   // The pool, priced `samples` times with items_priced items per heading.
   Survey pool;

@@ -86,9 +86,10 @@ bool ParseArguments(const SensitivityArguments& arguments, SensitivityOptions* o
   }
   if (arguments.target_se) {
     if (ParseNumber(*arguments.target_se, &value) != NumberStatus::kOk ||
-        !(value > 0.0 && value < 1.0)) {
-      PrintError("--target-se must be a standard error of ln parity above 0 and below 1 (e.g. "
-                 "0.01), found '" + *arguments.target_se + "'");
+        !(value >= kMinTargetLogSe && value < 1.0)) {
+      PrintError("--target-se must be a standard error of ln parity of at least " +
+                 FormatFixed(kMinTargetLogSe, 6) + " and below 1 (e.g. 0.01), found '" +
+                 *arguments.target_se + "'");
       return false;
     }
     options->target_log_se = value;

@@ -7,6 +7,7 @@
 #include <cassert>
 #include <cmath>
 #include <limits>
+#include <optional>
 #include <string>
 #include <vector>
 
@@ -23,11 +24,21 @@ double Median(std::vector<double> values) {
   return PercentileType7(values, 0.5);
 }
 
-// ceil(factor x items_now), at least 2 (one item gives no standard error).
-int ItemsFor(double factor, double items_now) {
-  if (!std::isfinite(factor) || !(items_now > 0.0)) return 0;
-  // The small tolerance keeps an exact product from rounding up past itself.
-  return std::max(2, static_cast<int>(std::ceil(factor * items_now - 1e-9)));
+// ceil(factor x items_now), at least 2 (one item gives no standard error);
+// 0 without a factor or items, empty above kMaxItemsPlanned (or infinite).
+std::optional<int64_t> ItemsFor(double factor, double items_now) {
+  if (std::isnan(factor) || !(items_now > 0.0)) return 0;
+  const double product = factor * items_now;
+  if (!(product <= static_cast<double>(kMaxItemsPlanned))) return std::nullopt;
+  // Rounding in c and the product can lift a whole number by a few units in
+  // the last place; the tolerance keeps that from counting one item more.
+  const double tolerance = std::max(1e-9, 1e-15 * product);
+  return std::max<int64_t>(2, static_cast<int64_t>(std::ceil(product - tolerance)));
+}
+
+// The count, or an empty field / "over 10^12" for a count left out.
+std::string CountText(const std::optional<int64_t>& count, const char* beyond) {
+  return count ? std::to_string(*count) : beyond;
 }
 
 // (n/m - 1) of each coverage level for the node, averaged over its headings:
@@ -155,7 +166,7 @@ std::string ItemsNeededCsv(const Survey& survey, const std::vector<ItemsNeededRo
                      row.curve_ratio_median, target_log_se, row.factor_median, row.factor_all}) {
       AppendValue(v, &out);
     }
-    out += ',' + std::to_string(row.items_for_median) + ',' + std::to_string(row.items_for_all) +
+    out += ',' + CountText(row.items_for_median, "") + ',' + CountText(row.items_for_all, "") +
            ',' + std::to_string(row.num_regions_at_target) + '\n';
   }
   return out;
@@ -164,14 +175,20 @@ std::string ItemsNeededCsv(const Survey& survey, const std::vector<ItemsNeededRo
 std::string ItemsNeededSummary(const Survey& survey, const std::vector<ItemsNeededRow>& rows,
                                double target_log_se) {
   if (rows.empty()) return "";
-  std::string out = "items per heading for a standard error of ln parity of " +
-                    FormatFixed(target_log_se, 4) +
-                    " (our own estimate under the 1/n law; items_needed.csv):\n";
+  std::string out = "items per heading for a standard error of ln parity of ";
+  // Four places, unless they would show a target below 0.0001 as 0.
+  if (target_log_se < 1e-4) {
+    AppendShortest(target_log_se, &out);
+  } else {
+    out += FormatFixed(target_log_se, 4);
+  }
+  out += " (our own estimate under the 1/n law; items_needed.csv):\n";
   auto line = [&](const ItemsNeededRow& row) {
     out += "  " + survey.classification.nodes()[row.node].code + ": " +
            FormatFixed(row.items_now, 1) + " items now, se " + FormatFixed(row.log_se_median, 4) +
-           " (median region) -> " + std::to_string(row.items_for_median) + " for the median region, " +
-           std::to_string(row.items_for_all) + " for every region\n";
+           " (median region) -> " + CountText(row.items_for_median, "over 10^12") +
+           " for the median region, " + CountText(row.items_for_all, "over 10^12") +
+           " for every region\n";
   };
   std::vector<const ItemsNeededRow*> headings;
   for (const ItemsNeededRow& row : rows) {
@@ -192,6 +209,14 @@ std::string ItemsNeededSummary(const Survey& survey, const std::vector<ItemsNeed
   for (size_t k = 0; k < std::min<size_t>(3, headings.size()); ++k) {
     out += "  ";
     line(*headings[k]);
+  }
+  const auto num_beyond = std::count_if(rows.begin(), rows.end(), [](const ItemsNeededRow& row) {
+    return !row.items_for_median || !row.items_for_all;
+  });
+  if (num_beyond > 0) {
+    out += "  " + std::to_string(num_beyond) + (num_beyond == 1 ? " node needs" : " nodes need") +
+           " over 10^12 items per heading, more than any heading has: items_needed.csv leaves "
+           "those counts empty (factor_median and factor_all give the scale)\n";
   }
   return out;
 }

@@ -89,9 +89,10 @@ bool SensitivityOptions::IsValid(std::string* error) const {
         "no part to run; parts must name at least one of: " + JoinNames(SensitivityPartNames());
     return false;
   }
-  if (!(target_log_se > 0.0 && target_log_se < 1.0)) {
-    *error = "target standard error must be above 0 and below 1 (log points, e.g. 0.01), found " +
-             FormatFixed(target_log_se, 6);
+  if (!(target_log_se >= kMinTargetLogSe && target_log_se < 1.0)) {
+    *error = "target standard error must be at least " + FormatFixed(kMinTargetLogSe, 6) +
+             " and below 1 (log points, e.g. 0.01), found ";
+    AppendShortest(target_log_se, error);
     return false;
   }
   if (num_threads < 0) {

@@ -4,7 +4,9 @@
 #include "paritas/uncertainty/items_needed.h"
 
 #include <cmath>
+#include <cstdint>
 #include <string>
+#include <utility>
 
 #include <gtest/gtest.h>
 
@@ -105,14 +107,73 @@ TEST(ItemsNeeded, FactorsItemsAndCurveFollowTheHandComputation) {
   EXPECT_NE(csv.find("\nh002,heading,1,0,4,2,0.03,0.04,"), std::string::npos) << csv;
 }
 
+// Standard errors 0, se and 2 se in every node of TwoHeadingSurvey (no
+// coverage curve): median 1.5 se, worst 2 se.
+SensitivityResult HandMadeStandardErrors(const Survey& survey, double se) {
+  SensitivityResult result;
+  result.heading_num_items = {8, 4};
+  result.heading_external = {0, 0};
+  result.boot_log_se.resize(static_cast<int>(survey.classification.nodes().size()), 3);
+  for (int n = 0; n < result.boot_log_se.rows(); ++n) result.boot_log_se.row(n) << 0.0, se, 2 * se;
+  return result;
+}
+
+// Median 0.03 and worst 0.04 against 1e-6 give c = 9e8 and 1.6e9: h001's 8
+// items become 7.2e9 and 1.28e10, past the 2^31 an int holds.
+TEST(ItemsNeeded, CountsPastTheRangeOfAnIntAreExact) {
+  const Survey survey = TwoHeadingSurvey();
+  const std::vector<ItemsNeededRow> rows =
+      ItemsNeeded(survey, HandMadeStandardErrors(survey, 0.02), 1e-6);
+  const ItemsNeededRow* h001 = Row(survey, rows, "h001");
+  ASSERT_NE(h001, nullptr);
+  EXPECT_EQ(h001->items_for_median, int64_t{7'200'000'000});
+  EXPECT_EQ(h001->items_for_all, int64_t{12'800'000'000});
+  EXPECT_EQ(Row(survey, rows, "all")->items_for_median, int64_t{5'400'000'000});
+}
+
+// Median 0.3 and worst 0.4 against 1e-6: c = 9e10 and 1.6e11, so h001 and
+// g01 (8 items) need 7.2e11 for the median region but 1.28e12 for every
+// region, past the ceiling of 10^12; g02 (4 items) stays below it.
+TEST(ItemsNeeded, CountsPastTheCeilingAreLeftEmptyAndSaidOnTheTerminal) {
+  const Survey survey = TwoHeadingSurvey();
+  const std::vector<ItemsNeededRow> rows =
+      ItemsNeeded(survey, HandMadeStandardErrors(survey, 0.2), 1e-6);
+  const std::string csv = ItemsNeededCsv(survey, rows, 1e-6);
+  const size_t h001 = csv.find("\nh001,");
+  ASSERT_NE(h001, std::string::npos) << csv;
+  const std::string line = csv.substr(h001 + 1, csv.find('\n', h001 + 1) - h001 - 1);
+  EXPECT_EQ(line.substr(line.rfind(",720000000000,")), ",720000000000,,0") << line;
+  EXPECT_NE(csv.find(",360000000000,640000000000,0\n"), std::string::npos) << csv;
+  const std::string summary = ItemsNeededSummary(survey, rows, 1e-6);
+  EXPECT_EQ(summary.substr(0, summary.find(" (")),
+            "items per heading for a standard error of ln parity of 1e-06");
+  EXPECT_NE(summary.find("  h001: 8.0 items now, se 0.3000 (median region) -> 720000000000 for "
+                         "the median region, over 10^12 for every region\n"),
+            std::string::npos)
+      << summary;
+  EXPECT_NE(summary.find("  2 nodes need over 10^12 items per heading, more than any heading "
+                         "has: items_needed.csv leaves those counts empty (factor_median and "
+                         "factor_all give the scale)\n"),
+            std::string::npos)
+      << summary;
+}
+
+// Below 1e-6 the factor (SE / target)^2 could overflow; 1e-300 made it inf.
 TEST(ItemsNeeded, TargetOutOfRangeIsRejected) {
-  SensitivityOptions options;
-  options.target_log_se = 0.0;
+  for (const auto& [target, found] : {std::pair{0.0, "0"}, {1e-7, "1e-07"}, {1e-300, "1e-300"},
+                                      {1.0, "1"}}) {
+    SensitivityOptions options;
+    options.target_log_se = target;
+    std::string error;
+    EXPECT_FALSE(options.IsValid(&error)) << found;
+    EXPECT_EQ(error, std::string("target standard error must be at least 0.000001 and below 1 (log "
+                                 "points, e.g. 0.01), found ") +
+                         found);
+  }
+  SensitivityOptions smallest;
+  smallest.target_log_se = kMinTargetLogSe;
   std::string error;
-  EXPECT_FALSE(options.IsValid(&error));
-  EXPECT_EQ(error,
-            "target standard error must be above 0 and below 1 (log points, e.g. 0.01), found "
-            "0.000000");
+  EXPECT_TRUE(smallest.IsValid(&error)) << error;
 }
 
 // The check the table exists for: a 30-region survey with 8 items per

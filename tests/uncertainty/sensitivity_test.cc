@@ -1139,11 +1139,14 @@ TEST(SensitivityCommand, BadOptionValuesExitWithOneAndAClearMessage) {
       {"--interval wide",
        "paritas: error: --interval must be one of: expanded, percentile; found 'wide'\n"},
       {"--target-se 0",
-       "paritas: error: --target-se must be a standard error of ln parity above 0 and below 1 "
-       "(e.g. 0.01), found '0'\n"},
+       "paritas: error: --target-se must be a standard error of ln parity of at least 0.000001 "
+       "and below 1 (e.g. 0.01), found '0'\n"},
       {"--target-se 1%",
-       "paritas: error: --target-se must be a standard error of ln parity above 0 and below 1 "
-       "(e.g. 0.01), found '1%'\n"},
+       "paritas: error: --target-se must be a standard error of ln parity of at least 0.000001 "
+       "and below 1 (e.g. 0.01), found '1%'\n"},
+      {"--target-se 1e-8",
+       "paritas: error: --target-se must be a standard error of ln parity of at least 0.000001 "
+       "and below 1 (e.g. 0.01), found '1e-8'\n"},
       {"--parts leave-one-out --write-replicates",
        "paritas: error: --write-replicates needs the bootstrap part (--parts without bootstrap)\n"},
       {"--reference Weighted_Mean",

@@ -24,6 +24,8 @@
 #ifndef PARITAS_UNCERTAINTY_ITEMS_NEEDED_H_
 #define PARITAS_UNCERTAINTY_ITEMS_NEEDED_H_
 
+#include <cstdint>
+#include <optional>
 #include <string>
 #include <vector>
 
@@ -31,6 +33,12 @@
 #include "paritas/uncertainty/sensitivity.h"
 
 namespace paritas {
+
+// Largest count of items per heading the table states (10^12). A plan
+// beyond it asks for more items than any heading has; its count is left
+// out (factor_median and factor_all still give the scale) rather than
+// printed with digits that carry no meaning.
+inline constexpr int64_t kMaxItemsPlanned = 1'000'000'000'000;
 
 // One node of the items-needed table. Regions counted are those whose
 // bootstrap standard error is finite and above 0 (the reference region of a
@@ -64,10 +72,11 @@ struct ItemsNeededRow {
   double factor_all = 0.0;
   // Items per heading for the median region and for every region to reach
   // the target: ceil(c x items_now), at least 2; 0 when no region has a
-  // standard error or no item is priced. Below items_now when the survey is more precise than
+  // standard error or no item is priced; empty when the count would exceed
+  // kMaxItemsPlanned. Below items_now when the survey is more precise than
   // the target.
-  int items_for_median = 0;
-  int items_for_all = 0;
+  std::optional<int64_t> items_for_median = 0;
+  std::optional<int64_t> items_for_all = 0;
   // Regions whose standard error is already at or below the target.
   int num_regions_at_target = 0;
 };
@@ -83,12 +92,13 @@ std::vector<ItemsNeededRow> ItemsNeeded(const Survey& survey, const SensitivityR
 // items_now,num_regions,log_se_median,log_se_max,curve_log_se_median,
 // curve_ratio_median,target_log_se,factor_median,factor_all,items_for_median,
 // items_for_all,num_regions_at_target. kind is "root", "aggregate" or
-// "heading".
+// "heading". A count above kMaxItemsPlanned is an empty field.
 std::string ItemsNeededCsv(const Survey& survey, const std::vector<ItemsNeededRow>& rows,
                            double target_log_se);
 
 // A few lines for the terminal: the root and the top aggregates, and the
-// headings needing the most items.
+// headings needing the most items; "over 10^12" for a count left out, and a
+// line saying how many nodes have one.
 std::string ItemsNeededSummary(const Survey& survey, const std::vector<ItemsNeededRow>& rows,
                                double target_log_se);
 

@@ -49,6 +49,12 @@ std::string ToString(BootstrapKind kind);
 // Case-insensitive; returns false for unknown names.
 bool FromString(const std::string& text, BootstrapKind* kind);
 
+// Smallest target standard error of ln parity (1e-6 log points, 0.0001 %).
+// The items-needed factor (SE / target)^2 stays finite below it for any
+// standard error a ln parity of doubles can have (under 1,500 log points),
+// where 1e-300 made it infinite; and no price survey plans for a finer one.
+inline constexpr double kMinTargetLogSe = 1e-6;
+
 struct SensitivityOptions {
   // Bootstrap replicates B, a whole number from 2 to 100,000 (default 500).
   int replicates = 500;
@@ -86,8 +92,9 @@ struct SensitivityOptions {
   // Random subsamples per coverage level, 2 to 10,000 (default 20).
   int coverage_repetitions = 20;
   // Target standard error of ln parity for the items-needed table
-  // (items_needed.h), in log points (0.01 is about 1 %); above 0 and below 1
-  // (default 0.01). Used only when the bootstrap runs.
+  // (items_needed.h), in log points (0.01 is about 1 %); from
+  // kMinTargetLogSe up to below 1 (default 0.01). Used only when the
+  // bootstrap runs.
   double target_log_se = 0.01;
   // Parts to run (all by default); at least one must be on.
   bool run_bootstrap = true;
