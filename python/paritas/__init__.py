@@ -644,7 +644,7 @@ def sensitivity(config: Union[str, os.PathLike, None] = None, *, prices: Union[p
         prices, expenditure, ...: the survey as frames, as for compute().
         replicates: bootstrap replicates, 2 to 100,000.
         seed: seed of the resampling.
-        level: interval level in percent (95) or as a share (0.95).
+        level: interval level in percent (95) or as a share (0.95), at most 99.9 %.
         coverage: percentages of each heading's items kept in the coverage curve.
         repetitions: random subsamples per coverage level.
         parts: among "bootstrap", "leave-one-out", "coverage", "methods"

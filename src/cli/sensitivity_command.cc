@@ -44,10 +44,14 @@ bool ParseArguments(const SensitivityArguments& arguments, SensitivityOptions* o
   }
   if (arguments.level) {
     // 95 and 0.95 both mean a 95 % interval.
-    if (ParseNumber(*arguments.level, &value) != NumberStatus::kOk || !(value > 0.0 && value < 100.0) ||
-        value == 1.0) {
-      PrintError("--level must be a percentage above 0 and below 100 (e.g. 95) or a share below 1 (e.g. "
-                 "0.95), found '" + *arguments.level + "'");
+    const bool read = ParseNumber(*arguments.level, &value) == NumberStatus::kOk;
+    const bool share = value > 0.0 && value <= kMaxIntervalLevel;
+    const bool percentage = value > 1.0 && value <= 100.0 * kMaxIntervalLevel;
+    if (!read || !(share || percentage)) {
+      PrintError("--level must be a percentage above 0 and at most " +
+                 FormatFixed(100.0 * kMaxIntervalLevel, 1) + " (e.g. 95) or a share up to " +
+                 FormatFixed(kMaxIntervalLevel, 3) + " (e.g. 0.95), found '" + *arguments.level +
+                 "'");
       return false;
     }
     options->level = value > 1.0 ? value / 100.0 : value;

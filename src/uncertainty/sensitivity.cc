@@ -54,9 +54,11 @@ bool SensitivityOptions::IsValid(std::string* error) const {
         "replicates must be a whole number from 2 to 100000, found " + std::to_string(replicates);
     return false;
   }
-  if (!(level > 0.0 && level < 1.0)) {
-    *error = "level must be a share between 0 and 1 (exclusive), e.g. 0.95, found " +
-             FormatFixed(level, 6);
+  // The slack lets 99.9 / 100, one unit in the last place above 0.999, pass.
+  if (!(level > 0.0 && level <= kMaxIntervalLevel + 1e-15)) {
+    *error = "level must be a share above 0 and at most " + FormatFixed(kMaxIntervalLevel, 3) +
+             ", e.g. 0.95, found ";
+    AppendShortest(level, error);
     return false;
   }
   if (coverage_levels.empty() && run_coverage) {

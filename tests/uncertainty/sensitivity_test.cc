@@ -13,6 +13,7 @@
 #include <limits>
 #include <set>
 #include <sstream>
+#include <utility>
 
 #include <gtest/gtest.h>
 
@@ -94,7 +95,7 @@ TEST(SensitivityOptions, BadValuesGetClearMessages) {
   EXPECT_EQ(message([](SensitivityOptions* o) { o->replicates = 0; }),
             "replicates must be a whole number from 2 to 100000, found 0");
   EXPECT_EQ(message([](SensitivityOptions* o) { o->level = 1.0; }),
-            "level must be a share between 0 and 1 (exclusive), e.g. 0.95, found 1.000000");
+            "level must be a share above 0 and at most 0.999, e.g. 0.95, found 1");
   EXPECT_EQ(message([](SensitivityOptions* o) { o->coverage_levels = {0.5, 1.5}; }),
             "coverage levels must be shares of items in (0, 1], i.e. percentages above 0 and up to 100, "
             "found 150.0000 %");
@@ -108,6 +109,31 @@ TEST(SensitivityOptions, BadValuesGetClearMessages) {
               o->run_bootstrap = o->run_leave_one_out = o->run_coverage = o->run_methods = false;
             }),
             "no part to run; parts must name at least one of: bootstrap, leave-one-out, coverage, methods");
+}
+
+// At 1 - 2^-53 the upper level (1 + level) / 2 rounded to 1 and both ends
+// of every interval became the largest replicate; 99.9 % is the limit.
+TEST(SensitivityOptions, LevelAbove99Point9PercentIsRejected) {
+  for (const auto& [level, found] : {std::pair{0.9999999999999999, "0.9999999999999999"},
+                                     {0.9995, "0.9995"}, {0.0, "0"}}) {
+    SensitivityOptions options;
+    options.level = level;
+    std::string error;
+    EXPECT_FALSE(options.IsValid(&error)) << found;
+    EXPECT_EQ(error, std::string("level must be a share above 0 and at most 0.999, e.g. 0.95, "
+                                 "found ") +
+                         found);
+  }
+  // 99.9 / 100 lands one unit in the last place above 0.999 and is valid;
+  // there the expanded interval's levels are still numbers.
+  SensitivityOptions widest;
+  widest.level = 99.9 / 100.0;
+  std::string error;
+  EXPECT_TRUE(widest.IsValid(&error)) << error;
+  for (double df : {1.0, 2.0, 30.0, std::nan("")}) {
+    const double p = ExpandedLowerLevel(widest.level, df, std::sqrt(2.0));
+    EXPECT_TRUE(p >= 0.0 && p <= 0.0005) << df << ": " << p;
+  }
 }
 
 TEST(SensitivityOptions, UnknownPartIsNamedWithASuggestion) {
@@ -1115,9 +1141,17 @@ TEST(SensitivityCommand, BadOptionValuesExitWithOneAndAClearMessage) {
        "paritas: error: --threads must be a whole number from 0 (all cores) to 1024, found "
        "'abc'\n"},
       {"--level 100",
-       "paritas: error: --level must be a percentage above 0 and below 100 (e.g. 95) or a share "
-       "below 1 (e.g. "
-       "0.95), found '100'\n"},
+       "paritas: error: --level must be a percentage above 0 and at most 99.9 (e.g. 95) or a "
+       "share up to 0.999 (e.g. 0.95), found '100'\n"},
+      {"--level 99.99999999999999",
+       "paritas: error: --level must be a percentage above 0 and at most 99.9 (e.g. 95) or a "
+       "share up to 0.999 (e.g. 0.95), found '99.99999999999999'\n"},
+      {"--level 0.9999999999999999",
+       "paritas: error: --level must be a percentage above 0 and at most 99.9 (e.g. 95) or a "
+       "share up to 0.999 (e.g. 0.95), found '0.9999999999999999'\n"},
+      {"--level 1",
+       "paritas: error: --level must be a percentage above 0 and at most 99.9 (e.g. 95) or a "
+       "share up to 0.999 (e.g. 0.95), found '1'\n"},
       {"--coverage 90,abc",
        "paritas: error: --coverage must list percentages of items kept, each above 0 and at most "
        "100 (e.g. "

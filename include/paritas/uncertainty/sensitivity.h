@@ -49,6 +49,13 @@ std::string ToString(BootstrapKind kind);
 // Case-insensitive; returns false for unknown names.
 bool FromString(const std::string& text, BootstrapKind* kind);
 
+// Largest interval level (99.9 %). The ends are read from the replicates'
+// tails: beyond 99.9 % even 100,000 replicates put fewer than 50 in each.
+// Near 1 the levels themselves fail: at 1 - 2^-53 the upper quantile level
+// (1 + level) / 2 rounds to 1 and the interval collapsed onto the largest
+// replicate.
+inline constexpr double kMaxIntervalLevel = 0.999;
+
 // Smallest target standard error of ln parity (1e-6 log points, 0.0001 %).
 // The items-needed factor (SE / target)^2 stays finite below it for any
 // standard error a ln parity of doubles can have (under 1,500 log points),
@@ -73,7 +80,8 @@ struct SensitivityOptions {
   // there only neighbours in rank are computed by default, as R regions
   // make R (R - 1) / 2 pairs per node. Default false.
   bool all_pairs = false;
-  // Level of the percentile intervals, in (0, 1) exclusive (default 0.95).
+  // Level of the percentile intervals, above 0 and at most
+  // kMaxIntervalLevel (default 0.95).
   double level = 0.95;
   // Which interval the bootstrap reports (default expanded; see
   // IntervalKind). Expanded: percentiles at p = Phi(-k t_(nu, (1 + level) /
