@@ -99,7 +99,8 @@ void AddSensitivityOptions(CLI::App* command, paritas::cli::Overrides* overrides
                       "bootstrap interval: expanded (percentiles widened for the items' degrees "
                       "of freedom; default) or percentile");
   command->add_option("--target-se", arguments->target_se,
-                      "standard error of ln parity that items_needed.csv plans for (default 0.01)");
+                      "standard error of ln parity that items_needed.csv plans for, at least 0.000001 and "
+                      "below 1 (default 0.01)");
   command->add_flag("--write-replicates", arguments->write_replicates,
                     "also write every replicate's ln parities (sensitivity/replicates.bin and "
                     "replicates_key.csv)");
