@@ -384,6 +384,35 @@ bool ImputationStage(const Survey& survey, const ComputeOptions& options, Parity
   return true;
 }
 
+// Quote weights many powers of ten apart (a weight keyed with extra zeros)
+// leave the CPD's normal equations short of digits well before they fail:
+// from a span of about 1e12 a heading's parities moved in the third digit
+// without a word.
+constexpr double kWidestCellWeightSpan = 1e8;
+
+// Warns of each heading whose cells' quote weights span more than
+// kWidestCellWeightSpan, when the method weighs cells by them.
+void WarnOfWideCellWeights(const Survey& survey, const ComputeOptions& options, ComputeSummary* summary) {
+  const ElementaryMethod* method = FindElementaryMethod(options.elementary.method);
+  if (!options.elementary.quote_weighted_cells || survey.cells.weight.empty() || method == nullptr ||
+      !method->Properties().weighs_cells) {
+    return;
+  }
+  const std::vector<double>& weight = survey.cells.weight;
+  for (int h = 0; h < survey.num_headings(); ++h) {
+    const HeadingRange& range = survey.heading_range[h];
+    if (range.cell_end <= range.cell_begin) continue;
+    const auto [lowest, highest] =
+        std::minmax_element(weight.begin() + range.cell_begin, weight.begin() + range.cell_end);
+    if (!(*highest > kWidestCellWeightSpan * *lowest)) continue;
+    summary->warnings.push_back("heading '" + survey.heading_codes[h] + "': its cells' quote weights span a factor of " +
+                                FormatReadable(*highest / *lowest, 0) + " (from " + FormatReadable(*lowest, 2) +
+                                " to " + FormatReadable(*highest, 2) +
+                                "; cpd_cell_weights: quote-weights); beyond 1e8 the CPD loses digits and its "
+                                "parities may be off; check the weight column");
+  }
+}
+
 // Warns of headings without quotes, counts the headings used; returns false
 // with the summary set when some heading's regions are not linked.
 bool CheckHeadings(const Survey& survey, const ParityResult& result, ComputeSummary* summary) {
@@ -655,6 +684,7 @@ bool ComputeParities(const Survey& survey, const ComputeOptions& options, Parity
   // The two stage timers run back to back, so they cover the call whole.
   ElementaryStage(survey, options, threads, result);
   if (!ImputationStage(survey, options, result, summary)) return false;
+  WarnOfWideCellWeights(survey, options, summary);
   const bool headings_ok = CheckHeadings(survey, *result, summary);
   summary->elementary_seconds = SecondsSince(start);
   if (!headings_ok) return false;

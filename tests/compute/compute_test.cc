@@ -407,6 +407,37 @@ TEST(ComputeParities, LinkedHeadingWhoseFitFailsSaysWhy) {
             "check for weights spanning many orders of magnitude");
 }
 
+// Below the failure the fit loses digits silently: a quote weight keyed
+// with ten extra zeros is named, a spread of 1e7 is not.
+TEST(ComputeParities, WarnsOfQuoteWeightsManyPowersOfTenApart) {
+  const std::string folder = MakeTempDir("wide_weights");
+  auto warnings = [&](const std::string& heavy) {
+    WriteTextFile(folder + "/prices.csv",
+                  "region,item,price,heading,weight\n"
+                  "north,a,1.73,bread,1\nnorth,b,1.17,bread," + heavy + "\nsouth,a,2.56,bread,1\n"
+                  "south,b,1.74,bread,1\neast,a,1.94,bread,1\neast,b,2.41,bread,1\n");
+    WriteTextFile(folder + "/expenditure.csv",
+                  "region,heading,expenditure\nnorth,bread,1\nsouth,bread,1\neast,bread,1\n");
+    const Survey survey = LoadFrom(folder, "survey:\n  prices: prices.csv\n  expenditure: expenditure.csv\n");
+    ComputeOptions options;
+    options.elementary.quote_weighted_cells = true;
+    ParityResult result;
+    ComputeSummary summary;
+    EXPECT_TRUE(ComputeParities(survey, options, &result, &summary)) << summary.message;
+    options.elementary.method = "jevons-geks";  // weighs no cell: nothing to say
+    ComputeSummary unweighted;
+    EXPECT_TRUE(ComputeParities(survey, options, &result, &unweighted)) << unweighted.message;
+    EXPECT_EQ(unweighted.warnings, std::vector<std::string>());
+    return summary.warnings;
+  };
+  EXPECT_EQ(warnings("1e10"),
+            std::vector<std::string>{
+                "heading 'bread': its cells' quote weights span a factor of 1e+10 (from 1.00 to "
+                "1e+10; cpd_cell_weights: quote-weights); beyond 1e8 the CPD loses digits and its "
+                "parities may be off; check the weight column"});
+  EXPECT_EQ(warnings("1e7"), std::vector<std::string>());
+}
+
 TEST(ComputeParities, AggregateWithoutPricedHeadingsFailsNamingItsHeadings) {
   // Before, the message read "... fall into 0 groups with no heading in common: ".
   const std::string folder = MakeTempDir("unpriced_aggregate");

@@ -110,6 +110,8 @@ struct ElementaryProperties {
   bool gives_standard_errors = false;  // fills log_se (log_se_robust on request)
   bool gives_cell_residuals = false;   // fills cell_fitted and cell_residual
   bool transitive_by_construction = true;
+  // Weighs cells in its fit (representative_weight, quote weights).
+  bool weighs_cells = false;
   // Fills representativity_effect and _se (representativity.csv is written).
   bool gives_representativity_effect = false;
 };

@@ -18,7 +18,10 @@ class Cpd final : public ElementaryMethod {
            "Income and Wealth</i> 19(1).";
   }
   ElementaryProperties Properties() const override {
-    return {.uses_representativity = true, .gives_standard_errors = true, .gives_cell_residuals = true};
+    return {.uses_representativity = true,
+            .gives_standard_errors = true,
+            .gives_cell_residuals = true,
+            .weighs_cells = true};
   }
   void Compute(const HeadingInput& input, HeadingParities* out) const override {
     FitHeadingCpd(input, CpdLoss::kLeastSquares, out);

@@ -95,6 +95,7 @@ class Cprd final : public ElementaryMethod {
     return {.uses_representativity = true,
             .gives_standard_errors = true,
             .gives_cell_residuals = true,
+            .weighs_cells = true,
             .gives_representativity_effect = true};
   }
   void Compute(const HeadingInput& input, HeadingParities* out) const override;

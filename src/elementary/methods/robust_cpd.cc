@@ -18,7 +18,10 @@ class RobustCpd final : public ElementaryMethod {
            "parameter\xE2\x80\x9D, <i>Annals of Mathematical Statistics</i> 35(1).";
   }
   ElementaryProperties Properties() const override {
-    return {.uses_representativity = true, .gives_standard_errors = true, .gives_cell_residuals = true};
+    return {.uses_representativity = true,
+            .gives_standard_errors = true,
+            .gives_cell_residuals = true,
+            .weighs_cells = true};
   }
   void Compute(const HeadingInput& input, HeadingParities* out) const override {
     FitHeadingCpd(input, input.options->robust_loss, out);
