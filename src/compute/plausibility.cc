@@ -38,7 +38,9 @@ constexpr KindLabel kKinds[] = {
     {"extrapolated", "extrapolated parities"},
 };
 
-std::string Fixed(double value, int decimals) { return FormatFixed(value, decimals); }
+// Fixed decimals, or three significant digits for a figure that fixed
+// decimals would show as 0.00 or with dozens of digits.
+std::string Fixed(double value, int decimals) { return FormatReadable(value, decimals); }
 std::string Percent(double share) { return FormatFixed(100.0 * share, 1) + " %"; }
 
 int KindOrder(const std::string& kind) {

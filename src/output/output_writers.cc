@@ -437,11 +437,11 @@ std::string RootTable(const Survey& survey, const ParityResult& result,
     std::string code(survey.regions.Code(r).substr(0, width));
     out += pad(code, width, false) + "  " + (name_width > 0 ? pad_name(names[r]) : "") +
            pad(std::to_string(root.rank(r)), 4, true) + "  " +
-           pad(FormatFixed(root.parity(r), 2), 9, true);
-    if (per_capita) out += "  " + pad(FormatFixed(root.real_per_capita_index(r), 1), 9, true);
+           pad(FormatReadable(root.parity(r), 2), 9, true);
+    if (per_capita) out += "  " + pad(FormatReadable(root.real_per_capita_index(r), 1), 9, true);
     std::string spread = "", partner = "";
     if (r < static_cast<int>(spreads.size()) && std::isfinite(spreads[r].max)) {
-      spread = FormatFixed(100.0 * spreads[r].max, 2);  // the report's unit
+      spread = FormatReadable(100.0 * spreads[r].max, 2);  // the report's unit
       partner = std::string(survey.regions.Code(spreads[r].worst_partner));
     }
     out += "  " + pad(spread, 13, true) + "  " + partner + "\n";

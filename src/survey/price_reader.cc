@@ -664,7 +664,7 @@ class ChunkParser {
              NumberProblem(status, "price", price_text, columns_.format.decimal, columns_.setting));
       return false;
     }
-    if (WithinInputRange(*price)) return true;
+    if (WithinRange(*price)) return true;
     if (!(*price > 0)) {
       Reject(columns_.price + 1, "price " + QuoteValue(price_text) + " is not a positive number");
     } else {
@@ -695,7 +695,7 @@ class ChunkParser {
                                        columns_.setting));
       return false;
     }
-    if (WithinInputRange(*value)) return true;
+    if (WithinRange(*value)) return true;
     if (!(*value > 0)) {
       Reject(column + 1, std::string(what) + " " + QuoteValue(text) + " is not a positive number");
     } else {
@@ -718,12 +718,12 @@ class ChunkParser {
     const bool without_reference = std::isnan(reference_quantity);
     const double reference = without_reference ? 1.0 : reference_quantity;
     const double converted = *price * reference / quantity;
-    if (!WithinInputRange(converted)) {
+    if (!WithinRange(converted)) {
       Reject(columns_.quantity + 1,
              "price " + QuoteValue(Trim(record_.fields[columns_.price])) + " for quantity " +
                  QuoteValue(Trim(record_.fields[columns_.quantity])) +
                  " is out of range at the reference quantity (found " + Shortest(converted) +
-                 ", outside 1e-100 to 1e100)");
+                 ", outside " + kInputRange.smallest_text + " to " + kInputRange.largest_text + ")");
       return false;
     }
     if (without_reference) {

@@ -109,7 +109,7 @@ bool ReadPriceIndices(const std::string& path, const ReadLimits& limits,
       return false;
     }
     if (!internal::ParseParity(path, row.line, row.columns[3], "index", row.fields[3], &index,
-                               message)) {
+                               message, internal::kInputRange)) {
       return false;
     }
     const auto [at, inserted] = seen.emplace(std::make_tuple(r->second, n, when), row.line);

@@ -180,7 +180,7 @@ std::string Pad(const std::string& text, size_t width, bool right = false) {
 }
 
 std::string Number(double value) {
-  return std::isnan(value) ? std::string("-") : FormatFixed(value, kDecimals);
+  return std::isnan(value) ? std::string("-") : FormatReadable(value, kDecimals);
 }
 
 bool ExcludesOne(const PairComparison& c) { return c.ratio_lower > 1.0 || c.ratio_upper < 1.0; }

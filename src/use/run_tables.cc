@@ -100,7 +100,7 @@ bool ReadTable(const std::string& path, const ReadLimits& limits,
 
 // Parses an optional positive number of a parities table: empty = NaN.
 bool ParseParity(const std::string& path, int64_t line, int column, const char* what,
-                 std::string_view text, double* value, std::string* error) {
+                 std::string_view text, double* value, std::string* error, const FigureRange& range) {
   *value = kNaN;
   if (text.empty()) return true;
   double parsed = 0.0;
@@ -114,7 +114,10 @@ bool ParseParity(const std::string& path, int64_t line, int column, const char* 
                             std::string(what) + " " + QuoteValue(text) + " is not positive");
     return false;
   }
-  if (std::string problem = MagnitudeProblem(what, text, parsed, "only ratios between regions matter, so rescale them"); !problem.empty()) {
+  const bool input = range.largest == kInputRange.largest;
+  const std::string_view advice = input ? "only ratios between regions matter, so rescale them"
+                                        : "compute writes none beyond it; is the file as it wrote it?";
+  if (std::string problem = MagnitudeProblem(what, text, parsed, advice, range); !problem.empty()) {
     *error = LocatedMessage(path, line, column, problem);
     return false;
   }

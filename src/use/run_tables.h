@@ -10,6 +10,7 @@
 #include <string_view>
 #include <vector>
 
+#include "base/magnitude.h"
 #include "paritas/base/read_limits.h"
 
 namespace paritas::internal {
@@ -36,9 +37,11 @@ bool ReadTable(const std::string& path, const ReadLimits& limits,
                std::string* error);
 
 // Parses an optional positive number of a parities table: empty = NaN.
-// `what` names the column in the message ("parity", "lower").
+// `what` names the column in the message ("parity", "lower"); `range` is
+// kResultRange for parities a run wrote, kInputRange for price indices.
 bool ParseParity(const std::string& path, int64_t line, int column, const char* what,
-                 std::string_view text, double* value, std::string* error);
+                 std::string_view text, double* value, std::string* error,
+                 const FigureRange& range = kResultRange);
 
 // The command that writes the intervals of a run folder: "run 'paritas
 // sensitivity CONFIG --output DIR' with the configuration and options of the

@@ -468,12 +468,12 @@ TEST(ExternalParities, BadRowsAreRejectedWithTheirPlace) {
                          file + ":8:1: duplicate row for heading 'rent' and region 'B' (first at "
                                 "line 7)",
                          // Beyond what sums and ratios of them hold (src/base/magnitude.h).
-                         file + ":9:3: parity '1e101' is beyond 1e100, where sums and ratios of "
-                                "such figures overflow; a heading's parities may be on any scale, "
-                                "so rescale them",
-                         file + ":10:3: parity '1e-101' is positive but nearer 0 than 1e-100, "
-                                "where ratios of such figures overflow or lose digits; a heading's "
+                         file + ":9:3: parity '1e101' is beyond 1e30, where ratios between "
+                                "regions and their products overflow or lose digits; a heading's "
                                 "parities may be on any scale, so rescale them",
+                         file + ":10:3: parity '1e-101' is positive but nearer 0 than 1e-30, "
+                                "where ratios between regions and their products overflow or lose "
+                                "digits; a heading's parities may be on any scale, so rescale them",
                          // A log_se of 1000 made the bootstrap's draws overflow; 2.26 is
                          // most likely 2.26 %.
                          file + ":11:4: log_se '2.26' is above 1 (a standard error of ln parity; "

@@ -474,13 +474,13 @@ TEST(Quantities, AMissingOrZeroQuantityIsARowError) {
   EXPECT_EQ(FirstRejection(empty), empty.path(0) + ":3:5: quantity is empty");
   const Sources text = BadRow("quantity_text", header, "south,bread,3,food,750g", kItems);
   EXPECT_EQ(FirstRejection(text), text.path(0) + ":3:5: quantity '750g' is not a number");
-  // Each figure within 1e-100 to 1e100, the price at the reference quantity
-  // (1000) not: 1e80 x 1000 / 1e-30 = 1e113 (Python's float arithmetic).
-  const Sources range = BadRow("quantity_range", header, "south,bread,1e80,food,1e-30", kItems);
+  // Each figure within 1e-30 to 1e30, the price at the reference quantity
+  // (1000) not: 1e20 x 1000 / 1e-15 = 9.999999999999998e+37 (Python's float arithmetic).
+  const Sources range = BadRow("quantity_range", header, "south,bread,1e20,food,1e-15", kItems);
   EXPECT_EQ(FirstRejection(range),
             range.path(0) +
-                ":3:5: price '1e80' for quantity '1e-30' is out of range at the reference "
-                "quantity (found 1e+113, outside 1e-100 to 1e100)");
+                ":3:5: price '1e20' for quantity '1e-15' is out of range at the reference "
+                "quantity (found 9.999999999999998e+37, outside 1e-30 to 1e30)");
 }
 
 TEST(Quantities, AnItemWithoutReferenceQuantityIsPricedPerUnitWithAWarning) {

@@ -434,45 +434,45 @@ TEST(LoadSurvey, RejectsFiguresBeyondWhatSumsAndRatiosHold) {
   const SurveyDir large = MakeSurvey("large_expenditure", kPrices, std::string(kExpenditure) + "east,food,1e307\n");
   EXPECT_EQ(FirstRejection(large),
             large.expenditure() +
-                ":4:3: expenditure '1e307' is beyond 1e100, where sums and ratios of such figures overflow; "
-                "state it in larger units");
+                ":4:3: expenditure '1e307' is beyond 1e30, "
+                "where ratios between regions and their products overflow or lose digits; state it in larger units");
   const SurveyDir tiny = MakeSurvey("tiny_expenditure", kPrices, std::string(kExpenditure) + "east,food,1e-101\n");
   EXPECT_EQ(FirstRejection(tiny),
             tiny.expenditure() +
-                ":4:3: expenditure '1e-101' is positive but nearer 0 than 1e-100, where ratios of such "
-                "figures overflow or lose digits; state it in smaller units");
+                ":4:3: expenditure '1e-101' is positive but nearer 0 than 1e-30, "
+                "where ratios between regions and their products overflow or lose digits; state it in smaller units");
   const SurveyDir edge = MakeSurvey("edge_expenditure", kPrices,
-                                    "region,heading,expenditure\nnorth,food,1e100\nsouth,food,1e-100\n");
+                                    "region,heading,expenditure\nnorth,food,1e30\nsouth,food,1e-30\n");
   Survey survey;
   ASSERT_EQ(Load(edge.config, &survey).outcome, LoadOutcome::kOk);
-  EXPECT_EQ(survey.expenditure(0, 0), 1e100);
+  EXPECT_EQ(survey.expenditure(0, 0), 1e30);
   // Prices, quote weights and reference quantities alike (a price of 1e-300
   // times 1e10 made a ratio of inf in outliers.csv).
   const SurveyDir price = MakeSurvey("large_price", std::string(kPrices) + "south,tea,1e101,food\n");
   EXPECT_EQ(FirstRejection(price),
             price.prices() +
-                ":6:3: price '1e101' is beyond 1e100, where sums and ratios of such figures overflow; "
-                "state it in larger units");
+                ":6:3: price '1e101' is beyond 1e30, "
+                "where ratios between regions and their products overflow or lose digits; state it in larger units");
   const SurveyDir weight = MakeSurvey("tiny_weight",
                                       "region,item,price,heading,weight\nnorth,bread,2.0,food,1\n"
                                       "south,bread,3.0,food,1e-300\n");
   EXPECT_EQ(FirstRejection(weight),
             weight.prices() +
-                ":3:5: weight '1e-300' is positive but nearer 0 than 1e-100, where ratios of such "
-                "figures overflow or lose digits; state it in smaller units");
+                ":3:5: weight '1e-300' is positive but nearer 0 than 1e-30, "
+                "where ratios between regions and their products overflow or lose digits; state it in smaller units");
   const SurveyDir quantity = MakeSurvey("tiny_reference_quantity", kPrices, kExpenditure,
                                         "item,heading,reference_quantity\nbread,food,4.9e-324\n"
                                         "milk,food,1\n");
   EXPECT_EQ(FirstRejection(quantity),
             quantity.items() +
-                ":2:3: reference_quantity '4.9e-324' is positive but nearer 0 than 1e-100, where "
-                "ratios of such figures overflow or lose digits; state it in smaller units");
+                ":2:3: reference_quantity '4.9e-324' is positive but nearer 0 than 1e-30, "
+                "where ratios between regions and their products overflow or lose digits; state it in smaller units");
   const SurveyDir population = MakeSurvey("large_population", kPrices, kExpenditure, std::nullopt,
                                           "region,population\nnorth,1e308\nsouth,6\n");
   EXPECT_EQ(FirstRejection(population),
             population.regions() +
-                ":2:2: population '1e308' is beyond 1e100, where sums and ratios of such figures overflow; "
-                "state it in larger units");
+                ":2:2: population '1e308' is beyond 1e30, "
+                "where ratios between regions and their products overflow or lose digits; state it in larger units");
 }
 
 TEST(LoadSurvey, AcceptsZeroExpenditure) {

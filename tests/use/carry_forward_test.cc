@@ -70,8 +70,8 @@ TEST(PriceIndices, BadFilesAreRefusedWithFileLineAndColumn) {
       // An index of 1e200 was taken and made the run stop with a wrong
       // "not linked" message.
       {"region,node,period,index\nnor,food,2026,1e200\n", "",
-       ":2:4: index '1e200' is beyond 1e100, where sums and ratios of such figures overflow; only "
-       "ratios between regions matter, so rescale them"},
+       ":2:4: index '1e200' is beyond 1e30, where ratios between regions and their products overflow or lose digits; only ratios "
+       "between regions matter, so rescale them"},
       {"region,node,period,index\nnor,food,2026,abc\n", "",
        ":2:4: index 'abc' is not a number"},
       {"region,node,period,index\nnor,food,2026,\n", "", ":2:4: index is empty"},

@@ -362,6 +362,15 @@ TEST(Deflate, RefusesDuplicatedAndMalformedRowsOfParitiesCsv) {
   WriteTextFile(parities, "node,kind,region,parity\nall,aggregate,a\n");
   EXPECT_FALSE(Deflate(options, &summary));
   EXPECT_EQ(summary.message, parities + ":2:4: row has 3 fields, the header has 4");
+  // Beyond what compute can write from inputs within 1e-30 to 1e30 (a
+  // parity of 1e-310 made every row's real value overflow).
+  WriteTextFile(parities, "node,kind,region,parity\nall,aggregate,a,1e-310\n");
+  EXPECT_FALSE(Deflate(options, &summary));
+  EXPECT_EQ(summary.message,
+            parities +
+                ":2:4: parity '1e-310' is positive but nearer 0 than 1e-200, where ratios between "
+                "regions and their products overflow or lose digits; compute writes none beyond it; "
+                "is the file as it wrote it?");
   // A code written with doubled quotes is read like any other.
   WriteTextFile(parities, "node,kind,region,parity\n\"a\"\"ll\",aggregate,a,50\n");
   WriteTextFile(options.input_path, "region,income\na,1\n");
