@@ -9,11 +9,13 @@
 #include <cstring>
 #include <thread>
 
+#include "sanitizers.h"
+
 namespace paritas::internal {
 namespace {
 
 // AddressSanitizer brings its own malloc, which has no such settings.
-#if defined(__GLIBC__) && !defined(__SANITIZE_ADDRESS__)
+#if defined(__GLIBC__) && !defined(PARITAS_TEST_ADDRESS_SANITIZER)
 constexpr size_t kLarge = size_t{64} << 20;
 
 // Allocates and writes a large block; returns it.

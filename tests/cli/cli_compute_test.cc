@@ -17,6 +17,7 @@
 #include "base/dense_kernels.h"
 #include "paritas/base/csv.h"
 #include "paritas/base/text.h"
+#include "sanitizers.h"
 #include "synthetic_survey.h"
 #include "test_util.h"
 
@@ -490,7 +491,7 @@ int RunCliForPeakMemory(const std::vector<std::string>& arguments, long* peak_kb
 // stays far below what it writes. Before, every node's two files were made
 // whole and held until the last was made (the peak above the total written).
 TEST(ComputeCommand, WritesEveryMatrixWithoutHoldingThemAll) {
-#if defined(__SANITIZE_ADDRESS__) || defined(__SANITIZE_THREAD__)
+#if defined(PARITAS_TEST_ADDRESS_SANITIZER) || defined(PARITAS_TEST_THREAD_SANITIZER)
   // A sanitizer holds freed memory back (AddressSanitizer's quarantine) and
   // keeps shadow memory: the peak would be its own, not the program's.
   GTEST_SKIP() << "peak memory is not the program's under a sanitizer";

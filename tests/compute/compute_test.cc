@@ -173,6 +173,39 @@ TEST(ComputeParities, ChangingTheReferenceChangesNoRatioBetweenRegions) {
   EXPECT_TRUE(IsClose(root.parity.array().log().mean(), std::log(100.0), 1e-12));
 }
 
+// Proportionality in one region's prices (Diewert 1999, "Axiomatic and
+// economic approaches to international comparisons", the tests of
+// multilateral indices; from memory): a region's prices in another unit
+// move its own parities by the factor and no ratio between other regions.
+// Checked at the edge of the range read (src/base/magnitude.h), one region
+// at 1e26 times its prices and one at 1e-26, a ratio of 1e52: with one at
+// 1e90 and one at 1e-90 Fisher indices were inf and 0, and a spanning tree
+// lost a region's parity.
+TEST(ComputeParities, RegionsPricedInOtherUnitsAtTheEdgeOfTheRangeMoveNoOtherRatio) {
+  const synthetic::SyntheticSurvey truth = MakeSynthetic(0.8, 0.05, 9);
+  synthetic::SyntheticSurvey scaled = truth;
+  for (size_t q = 0; q < scaled.quote_price.size(); ++q) {
+    if (scaled.quote_region[q] == 1) scaled.quote_price[q] *= 1e26;
+    if (scaled.quote_region[q] == 2) scaled.quote_price[q] *= 1e-26;
+  }
+  const Survey plain = LoadSynthetic(truth, "units_plain");
+  const Survey shifted = LoadSynthetic(scaled, "units_shifted");
+  for (const char* method : {"geks-fisher", "geks-tornqvist", "weighted-cpd", "spanning-tree"}) {
+    SCOPED_TRACE(method);
+    ComputeOptions options;
+    options.aggregation = method;
+    const ParityResult a = Compute(plain, options), b = Compute(shifted, options);
+    for (size_t n = 0; n < a.nodes.size(); ++n) {
+      for (int r = 4; r < plain.num_regions(); ++r) {
+        EXPECT_TRUE(IsClose(Ratio(a.nodes[n], 3, r), Ratio(b.nodes[n], 3, r), 1e-12)) << n << " " << r;
+      }
+      EXPECT_TRUE(IsClose(Ratio(b.nodes[n], 3, 1) / Ratio(a.nodes[n], 3, 1), 1e26, 1e-12)) << n;
+      EXPECT_TRUE(IsClose(Ratio(b.nodes[n], 3, 2) / Ratio(a.nodes[n], 3, 2), 1e-26, 1e-12)) << n;
+      EXPECT_TRUE(b.nodes[n].real_expenditure.array().isFinite().all()) << n;
+    }
+  }
+}
+
 TEST(ComputeParities, WeightedMeanReferenceMakesTheExpenditureWeightedGeometricMean100) {
   const Survey survey = LoadSynthetic(MakeSynthetic(0.7, 0.05, 5), "weighted");
   ComputeOptions options;
