@@ -7,10 +7,12 @@
 #include "paritas/uncertainty/sensitivity.h"
 
 #include <atomic>
+#include <cctype>
 #include <cmath>
 #include <cstdio>
 #include <filesystem>
 #include <limits>
+#include <map>
 #include <set>
 #include <sstream>
 #include <utility>
@@ -1141,17 +1143,17 @@ TEST(SensitivityCommand, BadOptionValuesExitWithOneAndAClearMessage) {
        "paritas: error: --threads must be a whole number from 0 (all cores) to 1024, found "
        "'abc'\n"},
       {"--level 100",
-       "paritas: error: --level must be a percentage above 0 and at most 99.9 (e.g. 95) or a "
-       "share up to 0.999 (e.g. 0.95), found '100'\n"},
+       "paritas: error: --level must be a percentage above 1 and at most 99.9 (e.g. 95) or a "
+       "share above 0 and up to 0.999 (e.g. 0.95), found '100'\n"},
       {"--level 99.99999999999999",
-       "paritas: error: --level must be a percentage above 0 and at most 99.9 (e.g. 95) or a "
-       "share up to 0.999 (e.g. 0.95), found '99.99999999999999'\n"},
+       "paritas: error: --level must be a percentage above 1 and at most 99.9 (e.g. 95) or a "
+       "share above 0 and up to 0.999 (e.g. 0.95), found '99.99999999999999'\n"},
       {"--level 0.9999999999999999",
-       "paritas: error: --level must be a percentage above 0 and at most 99.9 (e.g. 95) or a "
-       "share up to 0.999 (e.g. 0.95), found '0.9999999999999999'\n"},
+       "paritas: error: --level must be a percentage above 1 and at most 99.9 (e.g. 95) or a "
+       "share above 0 and up to 0.999 (e.g. 0.95), found '0.9999999999999999'\n"},
       {"--level 1",
-       "paritas: error: --level must be a percentage above 0 and at most 99.9 (e.g. 95) or a "
-       "share up to 0.999 (e.g. 0.95), found '1'\n"},
+       "paritas: error: --level must be a percentage above 1 and at most 99.9 (e.g. 95) or a "
+       "share above 0 and up to 0.999 (e.g. 0.95), found '1'\n"},
       {"--coverage 90,abc",
        "paritas: error: --coverage must list percentages of items kept, each above 0 and at most "
        "100 (e.g. "
@@ -1192,6 +1194,29 @@ TEST(SensitivityCommand, BadOptionValuesExitWithOneAndAClearMessage) {
     EXPECT_EQ(RunCli("sensitivity " + config + " " + arguments, &out, &err), 1) << arguments;
     EXPECT_EQ(err, message) << arguments;
   }
+}
+
+// 99.9 and 0.999 are one level: the percentage is read with its decimal point
+// moved, not divided by 100 (99.9 / 100 is the next double above 0.999).
+TEST(SensitivityCommand, APercentageAndItsShareWriteTheSameFiles) {
+  const std::string folder = WriteSynthetic(synthetic::Generate(SmallOptions(31)), "cli-level");
+  std::map<std::string, std::string> written;
+  for (const std::string level : {"99.9", "0.999"}) {
+    const std::string out_folder = folder + "/out-" + level;
+    std::string out, err;
+    ASSERT_EQ(RunCli("sensitivity " + folder + "/config.yaml --output " + out_folder +
+                         " --parts bootstrap --replicates 20 --seed 4 --level " + level,
+                     &out, &err),
+              0)
+        << err;
+    written[level] = ReadTextFile(out_folder + "/sensitivity/pair_ratios.csv") +
+                     ReadTextFile(out_folder + "/sensitivity/bootstrap.csv");
+    const std::string record = ReadTextFile(out_folder + "/sensitivity/run.json");
+    const size_t at = record.find("\"level\": 0.999");
+    ASSERT_NE(at, std::string::npos) << record;
+    EXPECT_FALSE(std::isdigit(static_cast<unsigned char>(record[at + 14]))) << level;
+  }
+  EXPECT_EQ(written["99.9"], written["0.999"]);
 }
 
 // Strict mode: the same run with a warning exits 3 after writing
