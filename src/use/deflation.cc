@@ -580,14 +580,16 @@ class Deflater {
     const double upper = options_.include_interval ? table_.upper[cell] : kNaN;
     for (size_t k = 0; k < num_values; ++k) {
       const double value = values_[k];
-      // A dearer bound gives the smaller real value; for a negative value
-      // the order flips.
-      const double a = value / (upper / 100.0), b = value / (lower / 100.0);
       real_[3 * k] = value / (parity / 100.0);
-      real_[3 * k + 1] = std::min(a, b);
-      real_[3 * k + 2] = std::max(a, b);
-      const bool finite = std::isfinite(real_[3 * k]) && (std::isnan(upper) || std::isfinite(a)) &&
-                          (std::isnan(lower) || std::isfinite(b));
+      bool finite = std::isfinite(real_[3 * k]);
+      if (options_.include_interval) {  // the bounds' divisions only when written
+        // A dearer bound gives the smaller real value; for a negative value
+        // the order flips.
+        const double a = value / (upper / 100.0), b = value / (lower / 100.0);
+        real_[3 * k + 1] = std::min(a, b);
+        real_[3 * k + 2] = std::max(a, b);
+        finite = finite && (std::isnan(upper) || std::isfinite(a)) && (std::isnan(lower) || std::isfinite(b));
+      }
       if (finite) continue;
       std::string shown;
       AppendShortest(parity, &shown);
