@@ -85,10 +85,11 @@ void FinishRow(RegionContributions* row) {
 void AgainstRegion(const Survey& survey, const NodeInputs& in, const NodeResult& n, int node, int b,
                    std::vector<RegionContributions>* rows) {
   const std::vector<int>& headings = survey.classification.nodes()[node].headings;
+  std::vector<int> matched;
   for (int r = 0; r < static_cast<int>(in.usable.size()); ++r) {
     if (!in.usable[r]) continue;
     double total_r = 0.0, total_b = 0.0;
-    std::vector<int> matched;
+    matched.clear();
     for (int k = 0; k < static_cast<int>(headings.size()); ++k) {
       if (std::isnan(in.log_price(r, k)) || std::isnan(in.log_price(b, k))) continue;
       matched.push_back(k);
@@ -101,6 +102,7 @@ void AgainstRegion(const Survey& survey, const NodeInputs& in, const NodeResult&
     row.region = r;
     row.log_parity = std::log(n.parity(r) / 100.0);
     const double m = static_cast<double>(matched.size());
+    row.headings.reserve(matched.size());
     for (int k : matched) {
       HeadingContribution c;
       c.heading = headings[k];
@@ -177,19 +179,22 @@ void AddPair(const NodeInputs& in, int r, int s, std::vector<int>* matched,
 // shares renormalised to the headings each pair has, averaged over those
 // regions. This is heading k's term in the GEKS-Törnqvist parity, ln P_r =
 // mean_s ln T(s, r). Pairs of full regions come from the sums.
+// `price` and `matched` are the caller's scratch (a thread's, reused row
+// after row: the allocations, not the sums, dominated this split).
 RegionContributions AgainstAverageRow(const Survey& survey, const NodeInputs& in,
                                       const NodeResult& n, int node, int r,
-                                      const std::vector<double>& mean_share, const FullSums& sums) {
+                                      const std::vector<double>& mean_share, const FullSums& sums,
+                                      std::vector<double>* price_scratch, std::vector<int>* matched) {
   const std::vector<int>& headings = survey.classification.nodes()[node].headings;
   const int num_headings = static_cast<int>(headings.size());
-  std::vector<double> price(num_headings, 0.0);
-  std::vector<int> matched;
+  std::vector<double>& price = *price_scratch;
+  price.assign(num_headings, 0.0);
   const double num_regions = sums.num_usable;
   if (sums.full[r]) {
-    for (int s : sums.not_full) AddPair(in, r, s, &matched, &price);
+    for (int s : sums.not_full) AddPair(in, r, s, matched, &price);
   } else {
     for (int s = 0; s < static_cast<int>(in.usable.size()); ++s) {
-      if (in.usable[s] && s != r) AddPair(in, r, s, &matched, &price);
+      if (in.usable[s] && s != r) AddPair(in, r, s, matched, &price);
     }
   }
   if (sums.full[r]) {
@@ -203,6 +208,8 @@ RegionContributions AgainstAverageRow(const Survey& survey, const NodeInputs& in
   row.node = node;
   row.region = r;
   row.log_parity = std::log(n.parity(r) / 100.0);
+  const auto l = in.log_price.row(r).array();
+  row.headings.reserve(static_cast<size_t>((l == l).count()));  // the headings not NaN
   for (int k = 0; k < num_headings; ++k) {
     if (std::isnan(in.log_price(r, k))) continue;
     HeadingContribution c;
@@ -241,9 +248,16 @@ void AgainstAverage(const Survey& survey, const NodeInputs& in, const NodeResult
   // long.
   const double pair_work =
       static_cast<double>(sums.not_full.size()) * num_regions * std::max(num_headings, 1);
-#pragma omp parallel for schedule(dynamic, 4) if (pair_work > 4e6) num_threads(num_threads)
-  for (int r = 0; r < num_regions; ++r) {
-    if (in.usable[r]) by_region[r] = AgainstAverageRow(survey, in, n, node, r, mean_share, sums);
+#pragma omp parallel if (pair_work > 4e6) num_threads(num_threads)
+  {
+    std::vector<double> price;
+    std::vector<int> matched;
+#pragma omp for schedule(dynamic, 4)
+    for (int r = 0; r < num_regions; ++r) {
+      if (in.usable[r]) {
+        by_region[r] = AgainstAverageRow(survey, in, n, node, r, mean_share, sums, &price, &matched);
+      }
+    }
   }
   for (RegionContributions& row : by_region) {
     if (!row.headings.empty()) rows->push_back(std::move(row));
