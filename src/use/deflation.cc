@@ -591,16 +591,22 @@ class Deflater {
         finite = finite && (std::isnan(upper) || std::isfinite(a)) && (std::isnan(lower) || std::isfinite(b));
       }
       if (finite) continue;
-      std::string shown;
-      AppendShortest(parity, &shown);
-      Reject(record, value_columns_[k] + 1,
-             options_.value_columns[k] + " " + QuoteValue(Trim(record.fields[value_columns_[k]])) +
-                 " in reference prices (at parity " + shown +
-                 (options_.include_interval ? " or its interval's bounds" : "") +
-                 ") is beyond the largest number a double holds (about 1.8e308)");
+      RejectBeyondDouble(record, k, parity);
       return false;
     }
     return true;
+  }
+
+  // Rejects the record whose k-th value overflows in reference prices. Out
+  // of line: the row loop stays as lean as before the check.
+  [[gnu::noinline, gnu::cold]] void RejectBeyondDouble(const CsvRecord& record, size_t k, double parity) {
+    std::string shown;
+    AppendShortest(parity, &shown);
+    Reject(record, value_columns_[k] + 1,
+           options_.value_columns[k] + " " + QuoteValue(Trim(record.fields[value_columns_[k]])) +
+               " in reference prices (at parity " + shown +
+               (options_.include_interval ? " or its interval's bounds" : "") +
+               ") is beyond the largest number a double holds (about 1.8e308)");
   }
 
   // Appends the record with its real values (real_; and parity and
