@@ -3,6 +3,7 @@
 // known truth from synthetic surveys.
 #include "paritas/compute/compute.h"
 
+#include <array>
 #include <cmath>
 #include <cstring>
 #include <fstream>
@@ -420,15 +421,21 @@ TEST(ComputeParities, UnlinkedHeadingFailsAndNamesTheGroups) {
 
 // A linked heading whose fit failed was reported as "not linked: its
 // regions fall into 1 groups": the message now says what failed.
-TEST(ComputeParities, LinkedHeadingWhoseFitFailsSaysWhy) {
-  const std::string folder = MakeTempDir("singular");
+// Three regions pricing items a and b of 'bread'; the quote weights of the
+// b quotes (north, south, east) as given, those of a 1.
+Survey BreadWithWeights(const std::string& folder, const std::array<std::string, 3>& b_weights) {
   WriteTextFile(folder + "/prices.csv",
                 "region,item,price,heading,weight\n"
-                "north,a,1.73,bread,1\nnorth,b,1.17,bread,1e17\nsouth,a,2.56,bread,1\n"
-                "south,b,1.74,bread,1e20\neast,a,1.94,bread,1\neast,b,2.41,bread,1e17\n");
+                "north,a,1.73,bread,1\nnorth,b,1.17,bread," + b_weights[0] + "\nsouth,a,2.56,bread,1\n"
+                "south,b,1.74,bread," + b_weights[1] + "\neast,a,1.94,bread,1\neast,b,2.41,bread," +
+                    b_weights[2] + "\n");
   WriteTextFile(folder + "/expenditure.csv",
                 "region,heading,expenditure\nnorth,bread,1\nsouth,bread,1\neast,bread,1\n");
-  const Survey survey = LoadFrom(folder, "survey:\n  prices: prices.csv\n  expenditure: expenditure.csv\n");
+  return LoadFrom(folder, "survey:\n  prices: prices.csv\n  expenditure: expenditure.csv\n");
+}
+
+TEST(ComputeParities, LinkedHeadingWhoseFitFailsSaysWhy) {
+  const Survey survey = BreadWithWeights(MakeTempDir("singular"), {"1e17", "1e20", "1e17"});
   ComputeOptions options;
   options.elementary.quote_weighted_cells = true;
   ParityResult result;
@@ -445,13 +452,7 @@ TEST(ComputeParities, LinkedHeadingWhoseFitFailsSaysWhy) {
 TEST(ComputeParities, WarnsOfQuoteWeightsManyPowersOfTenApart) {
   const std::string folder = MakeTempDir("wide_weights");
   auto warnings = [&](const std::string& heavy) {
-    WriteTextFile(folder + "/prices.csv",
-                  "region,item,price,heading,weight\n"
-                  "north,a,1.73,bread,1\nnorth,b,1.17,bread," + heavy + "\nsouth,a,2.56,bread,1\n"
-                  "south,b,1.74,bread,1\neast,a,1.94,bread,1\neast,b,2.41,bread,1\n");
-    WriteTextFile(folder + "/expenditure.csv",
-                  "region,heading,expenditure\nnorth,bread,1\nsouth,bread,1\neast,bread,1\n");
-    const Survey survey = LoadFrom(folder, "survey:\n  prices: prices.csv\n  expenditure: expenditure.csv\n");
+    const Survey survey = BreadWithWeights(folder, {heavy, "1", "1"});
     ComputeOptions options;
     options.elementary.quote_weighted_cells = true;
     ParityResult result;

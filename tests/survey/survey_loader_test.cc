@@ -95,6 +95,13 @@ LoadSummary Load(const RunConfig& config, Survey* survey, LoadOptions options = 
   return summary;
 }
 
+// Loads with invalid rows skipped (and counted) rather than stopping the load.
+LoadSummary LoadSkipping(const RunConfig& config, Survey* survey) {
+  LoadOptions options;
+  options.invalid_rows = InvalidRowPolicy::kSkip;
+  return Load(config, survey, options);
+}
+
 // Loads under `invalid_rows: stop` and returns the one message the user sees
 // for a single bad row: the row's reason.
 std::string FirstRejection(const SurveyDir& files) {
@@ -605,9 +612,7 @@ TEST(LoadSurvey, SkipGoesOnWithoutBadRowsAndKeepsEveryOne) {
   const SurveyDir files = MakeSurvey("skip_25", PricesWithBadRows(25),
                                         std::string(kExpenditure) + "east,food,-1\n");
   Survey survey;
-  LoadOptions options;
-  options.invalid_rows = InvalidRowPolicy::kSkip;
-  const LoadSummary summary = Load(files.config, &survey, options);
+  const LoadSummary summary = LoadSkipping(files.config, &survey);
   ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
   EXPECT_EQ(summary.num_rows_rejected, 26);
   EXPECT_EQ(summary.rejected_rows.size(), 26u);
@@ -623,9 +628,7 @@ TEST(LoadSurvey, SkipDoesNotLetARejectedRowFileAnItemUnderItsHeading) {
   const SurveyDir files = MakeSurvey("skip_no_filing",
                                         std::string(kPrices) + "south,eggs,-1,dairy\nsouth,eggs,2,food\n");
   Survey survey;
-  LoadOptions options;
-  options.invalid_rows = InvalidRowPolicy::kSkip;
-  const LoadSummary summary = Load(files.config, &survey, options);
+  const LoadSummary summary = LoadSkipping(files.config, &survey);
   ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
   ASSERT_EQ(summary.rejected_rows.size(), 1u);
   EXPECT_EQ(summary.rejected_rows[0].reason, files.prices() + ":6:3: price '-1' is not a positive number");
@@ -636,9 +639,7 @@ TEST(LoadSurvey, SkipDoesNotLetARejectedRowFileAnItemUnderItsHeading) {
 TEST(RejectedRowsCsv, ListsFileLineReasonAndRawText) {
   const SurveyDir files = MakeSurvey("rejected_csv", std::string(kPrices) + "south,\"eggs, large\",-4.10,food\n");
   Survey survey;
-  LoadOptions options;
-  options.invalid_rows = InvalidRowPolicy::kSkip;
-  const LoadSummary summary = Load(files.config, &survey, options);
+  const LoadSummary summary = LoadSkipping(files.config, &survey);
   ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
   ASSERT_EQ(summary.rejected_rows.size(), 1u);
   EXPECT_EQ(RejectedRowsCsv(summary.rejected_rows),
@@ -649,9 +650,7 @@ TEST(RejectedRowsCsv, ListsFileLineReasonAndRawText) {
 TEST(LoadSurvey, SkipFailsWhenEveryQuoteIsRejected) {
   const SurveyDir files = MakeSurvey("skip_all", "region,item,price,heading\nnorth,bread,-1,food\n");
   Survey survey;
-  LoadOptions options;
-  options.invalid_rows = InvalidRowPolicy::kSkip;
-  const LoadSummary summary = Load(files.config, &survey, options);
+  const LoadSummary summary = LoadSkipping(files.config, &survey);
   EXPECT_EQ(summary.outcome, LoadOutcome::kInvalidInput);
   EXPECT_EQ(summary.message, files.prices() + ": no usable price quotes (all 1 rows rejected)");
 }
@@ -862,9 +861,7 @@ TEST(LoadSurvey, ReadsAHeaderWithAMillionColumns) {
                              "\nsouth,milk,3,food\n";
   const SurveyDir files = MakeSurvey("million_columns", prices);
   Survey survey;
-  LoadOptions options;
-  options.invalid_rows = InvalidRowPolicy::kSkip;
-  const LoadSummary summary = Load(files.config, &survey, options);
+  const LoadSummary summary = LoadSkipping(files.config, &survey);
   ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message.substr(0, 300);
   EXPECT_EQ(FileOf(summary, "prices").ignored_columns.size(), static_cast<size_t>(kNumColumns - 4));
   EXPECT_EQ(FileOf(summary, "prices").rows_used, 2);
@@ -1366,9 +1363,7 @@ TEST(LoadSurvey, CountsALatin1RowAsRejectedUnderSkip) {
   const SurveyDir files =
       MakeSurvey("latin1_skip", std::string(kPrices) + "south,m\xfcsli,4,food\n");
   Survey survey;
-  LoadOptions options;
-  options.invalid_rows = InvalidRowPolicy::kSkip;
-  const LoadSummary summary = Load(files.config, &survey, options);
+  const LoadSummary summary = LoadSkipping(files.config, &survey);
   ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
   EXPECT_EQ(FileOf(summary, "prices").rows_read, 5);
   EXPECT_EQ(FileOf(summary, "prices").rows_rejected, 1);
@@ -1421,9 +1416,7 @@ SurveyDir RejectedRegionSurvey(const std::string& name) {
 TEST(LoadSurvey, CountsRowsOfARejectedRegionApartAndDescribesThemOnce) {
   const SurveyDir files = RejectedRegionSurvey("cascade_region");
   Survey survey;
-  LoadOptions options;
-  options.invalid_rows = InvalidRowPolicy::kSkip;
-  const LoadSummary summary = Load(files.config, &survey, options);
+  const LoadSummary summary = LoadSkipping(files.config, &survey);
   ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
   // prices: 2 rows of south (cascade) and east (not in regions.csv).
   EXPECT_EQ(FileOf(summary, "prices").rows_rejected, 3);
@@ -1457,9 +1450,7 @@ TEST(LoadSurvey, LeavesOutTheExternalParitiesOfARejectedRegion) {
   WriteTextFile(files.config.survey.external_parities,
                 "heading,region,parity\nfood,north,1.0\nfood,south,1.2\n");
   Survey survey;
-  LoadOptions options;
-  options.invalid_rows = InvalidRowPolicy::kSkip;
-  const LoadSummary summary = Load(files.config, &survey, options);
+  const LoadSummary summary = LoadSkipping(files.config, &survey);
   ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
   EXPECT_EQ(FileOf(summary, "external_parities").rows_rejected, 1);
   EXPECT_EQ(FileOf(summary, "external_parities").rows_rejected_by_cascade, 1);
@@ -1488,9 +1479,7 @@ TEST(LoadSurvey, LeavesOutThePriceRowsOfARejectedItem) {
       MakeSurvey("cascade_item", kPrices, kExpenditure, "item,heading\nbread,food\nmilk,dairy\n");
   UseClassification("all: [food, drink]\n", &files.config);
   Survey survey;
-  LoadOptions options;
-  options.invalid_rows = InvalidRowPolicy::kSkip;
-  const LoadSummary summary = Load(files.config, &survey, options);
+  const LoadSummary summary = LoadSkipping(files.config, &survey);
   ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
   ASSERT_EQ(summary.rejected_codes.size(), 1u);
   EXPECT_EQ(summary.rejected_codes[0].Describe(),
@@ -1508,9 +1497,7 @@ TEST(LoadSurvey, ReportsAnItemFiledUnderTwoHeadingsOnceWithTheRowsPerHeading) {
                                      "north,bread,2.1,bakery\nsouth,bread,3.1,bakery\n"
                                      "north,bread,2.2,snacks\nsouth,bread,3.2,bakery\n");
   Survey survey;
-  LoadOptions options;
-  options.invalid_rows = InvalidRowPolicy::kSkip;
-  const LoadSummary summary = Load(files.config, &survey, options);
+  const LoadSummary summary = LoadSkipping(files.config, &survey);
   ASSERT_EQ(summary.outcome, LoadOutcome::kOk) << summary.message;
   ASSERT_EQ(summary.heading_conflicts.size(), 1u);
   const std::string conflict =
