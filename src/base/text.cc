@@ -149,6 +149,23 @@ std::string FormatReadable(double value, int decimals) {
   return buffer;
 }
 
+std::string FormatShareAsPercent(double share) {
+  std::string text = FormatFixed(100.0 * share, 4);
+  if (text.find('.') == std::string::npos) return text;
+  while (text.back() == '0') text.pop_back();
+  if (text.back() == '.') text.pop_back();
+  return text;
+}
+
+double PercentToShare(double percent) {
+  std::string text;
+  AppendShortest(percent, &text);
+  text += "e-2";
+  double share = 0.0;
+  const auto [end, ec] = std::from_chars(text.data(), text.data() + text.size(), share);
+  return ec == std::errc() && end == text.data() + text.size() ? share : percent / 100.0;
+}
+
 std::string FormatCount(int64_t value) {
   const std::string digits = std::to_string(value < 0 ? -value : value);
   std::string out;

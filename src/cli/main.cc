@@ -80,7 +80,7 @@ void AddSensitivityOptions(CLI::App* command, paritas::cli::Overrides* overrides
       ->type_name("INT");
   command->add_option("--seed", arguments->seed, "seed of the resampling (default 1)")
       ->type_name("INT");
-  command->add_option("--level", arguments->level, "interval level: a percentage above 1 and at most 99.9, or a share above 0 and up to 0.999 (default 95)")
+  command->add_option("--level", arguments->level, "interval level: a percentage above 1 and at most 99.9, or a share from 0.01 to 0.999 (default 95)")
       ->type_name("NUMBER");
   command->add_option("--coverage", arguments->coverage,
                       "percentages of items kept (default 90,75,50,25)");

@@ -31,14 +31,6 @@ std::vector<std::string> SplitList(const std::string& text) {
   return parts;
 }
 
-// The share a percentage stands for, read from its text with the decimal point
-// moved, so that 99.9 gives the same double as 0.999 (99.9 / 100 does not).
-double PercentageAsShare(const std::string& text, double percentage) {
-  double share = 0.0;
-  if (ParseNumber(std::string(Trim(text)) + "e-2", &share) == NumberStatus::kOk) return share;
-  return percentage / 100.0;  // a text with an exponent of its own
-}
-
 bool ParseArguments(const SensitivityArguments& arguments, SensitivityOptions* options) {
   double value = 0.0;
   if (arguments.replicates) {
@@ -53,17 +45,17 @@ bool ParseArguments(const SensitivityArguments& arguments, SensitivityOptions* o
   if (arguments.level) {
     // 95 and 0.95 both mean a 95 % interval.
     const bool read = ParseNumber(*arguments.level, &value) == NumberStatus::kOk;
-    const bool share = value > 0.0 && value <= kMaxIntervalLevel;
+    const bool share = value >= kMinIntervalLevel && value <= kMaxIntervalLevel;
     const bool percentage = value > 1.0 && value <= 100.0 * kMaxIntervalLevel;
     if (!read || !(share || percentage)) {
       // 1 is neither: a share of 1 is no interval, and a 1 % one is written 0.01.
       PrintError("--level must be a percentage above 1 and at most " +
-                 FormatFixed(100.0 * kMaxIntervalLevel, 1) + " (e.g. 95) or a share above 0 and up to " +
-                 FormatFixed(kMaxIntervalLevel, 3) + " (e.g. 0.95), found '" + *arguments.level +
-                 "'");
+                 FormatShareAsPercent(kMaxIntervalLevel) + " (e.g. 95) or a share from " +
+                 FormatFixed(kMinIntervalLevel, 2) + " to " + FormatFixed(kMaxIntervalLevel, 3) +
+                 " (e.g. 0.95), found '" + *arguments.level + "'");
       return false;
     }
-    options->level = value > 1.0 ? PercentageAsShare(*arguments.level, value) : value;
+    options->level = value > 1.0 ? PercentToShare(value) : value;
   }
   if (arguments.coverage) {
     options->coverage_levels.clear();

@@ -531,7 +531,7 @@ py::dict Sensitivity(const std::string& config_path, const py::dict& options,
     else if (name == "level") {
       const double level = py::cast<double>(value);
       // 95 and 0.95 both mean a 95 % interval, as on the command line.
-      run.level = level > 1.0 ? level / 100.0 : level;
+      run.level = level > 1.0 ? PercentToShare(level) : level;
     } else if (name == "coverage") {
       run.coverage_levels.clear();
       for (double c : py::cast<std::vector<double>>(value)) run.coverage_levels.push_back(c / 100.0);

@@ -54,10 +54,9 @@ bool SensitivityOptions::IsValid(std::string* error) const {
         "replicates must be a whole number from 2 to 100000, found " + std::to_string(replicates);
     return false;
   }
-  // The slack lets 99.9 / 100, one unit in the last place above 0.999, pass.
-  if (!(level > 0.0 && level <= kMaxIntervalLevel + 1e-15)) {
-    *error = "level must be a share above 0 and at most " + FormatFixed(kMaxIntervalLevel, 3) +
-             ", e.g. 0.95, found ";
+  if (!(level >= kMinIntervalLevel && level <= kMaxIntervalLevel)) {
+    *error = "level must be a share from " + FormatFixed(kMinIntervalLevel, 2) + " to " +
+             FormatFixed(kMaxIntervalLevel, 3) + ", e.g. 0.95, found ";
     AppendShortest(level, error);
     return false;
   }

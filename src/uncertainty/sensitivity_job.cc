@@ -399,13 +399,13 @@ ReportSensitivity ToReportSensitivity(const SensitivityResult& result,
     }
     // The kind is named, since the expanded interval is wider than the
     // percentiles at the level would be.
-    out.interval_label = FormatFixed(100.0 * options.level, 0) + " % " +
+    out.interval_label = FormatShareAsPercent(options.level) + " % " +
                          (options.interval == IntervalKind::kExpanded ? "expanded percentile"
                                                                       : "percentile") +
                          " interval over item resamples";
   }
   out.pair_charts = ToReportPairCharts(result);
-  out.pair_level_label = FormatFixed(100.0 * options.level, 0) + " %";
+  out.pair_level_label = FormatShareAsPercent(options.level) + " %";
   for (const CoverageLevel& level : result.coverage) {
     const std::vector<double> changes = SortedFiniteRoot(level.median_abs_log_change);
     if (changes.empty()) continue;

@@ -188,7 +188,7 @@ std::string SensitivityTable(const Survey& survey, const SensitivityResult& resu
   for (int r = 0; r < survey.num_regions(); ++r)
     width = std::max(width, survey.regions.Code(r).size());
   std::string out = "  " + pad("region", width, false) + pad("parity", 10, true);
-  const std::string level = FormatFixed(100.0 * options.level, 0) + " % interval";
+  const std::string level = FormatShareAsPercent(options.level) + " % interval";
   if (boot) out += pad(level, 20, true) + pad("ranks", 9, true) + pad("boot se", 9, true);
   if (loo)
     out += pad("jk se", 9, true) + pad("largest change", 16, true) + "  " + pad("cause", 18, false);

@@ -192,7 +192,7 @@ std::string RatioIntervalLines(const PairComparison& c) {
     const std::string verdict = c.ratio_lower > 1.0   ? "'" + c.to + "' is dearer than '" + c.from + "'"
                                 : c.ratio_upper < 1.0 ? "'" + c.to + "' is cheaper than '" + c.from + "'"
                                                       : "the two cannot be told apart";
-    return "\n  " + FormatFixed(100.0 * c.ratio_level, 0) + " % interval of the transitive ratio: " +
+    return "\n  " + FormatShareAsPercent(c.ratio_level) + " % interval of the transitive ratio: " +
            Number(c.ratio_lower) + " - " + Number(c.ratio_upper) + "\n  excludes 1: " +
            (ExcludesOne(c) ? "yes" : "no") + " (" + verdict + ")\n  (from the " +
            std::to_string(c.ratio_num_replicates) + " bootstrap replicates of sensitivity run " +

@@ -20,6 +20,7 @@
 #include <gtest/gtest.h>
 
 #include "paritas/aggregation/bilateral_matrix.h"
+#include "paritas/base/text.h"
 #include "paritas/compute/compute.h"
 #include "paritas/survey/config.h"
 #include "paritas/survey/survey_loader.h"
@@ -97,7 +98,7 @@ TEST(SensitivityOptions, BadValuesGetClearMessages) {
   EXPECT_EQ(message([](SensitivityOptions* o) { o->replicates = 0; }),
             "replicates must be a whole number from 2 to 100000, found 0");
   EXPECT_EQ(message([](SensitivityOptions* o) { o->level = 1.0; }),
-            "level must be a share above 0 and at most 0.999, e.g. 0.95, found 1");
+            "level must be a share from 0.01 to 0.999, e.g. 0.95, found 1");
   EXPECT_EQ(message([](SensitivityOptions* o) { o->coverage_levels = {0.5, 1.5}; }),
             "coverage levels must be shares of items in (0, 1], i.e. percentages above 0 and up to 100, "
             "found 150.0000 %");
@@ -117,19 +118,28 @@ TEST(SensitivityOptions, BadValuesGetClearMessages) {
 // of every interval became the largest replicate; 99.9 % is the limit.
 TEST(SensitivityOptions, LevelAbove99Point9PercentIsRejected) {
   for (const auto& [level, found] : {std::pair{0.9999999999999999, "0.9999999999999999"},
-                                     {0.9995, "0.9995"}, {0.0, "0"}}) {
+                                     {0.9995, "0.9995"}, {0.9990000000000001, "0.9990000000000001"},
+                                     {0.0, "0"}, {0.009, "0.009"}, {1e-320, "1e-320"}}) {
     SensitivityOptions options;
     options.level = level;
     std::string error;
     EXPECT_FALSE(options.IsValid(&error)) << found;
-    EXPECT_EQ(error, std::string("level must be a share above 0 and at most 0.999, e.g. 0.95, "
-                                 "found ") +
+    EXPECT_EQ(error, std::string("level must be a share from 0.01 to 0.999, e.g. 0.95, found ") +
                          found);
   }
-  // 99.9 / 100 lands one unit in the last place above 0.999 and is valid;
-  // there the expanded interval's levels are still numbers.
+  // 99.9 % is read as exactly 0.999 (99.9 / 100 lands one unit in the
+  // last place above it); there the expanded interval's levels are still
+  // numbers.
   SensitivityOptions widest;
-  widest.level = 99.9 / 100.0;
+  widest.level = PercentToShare(99.9);
+  EXPECT_EQ(widest.level, 0.999);
+  EXPECT_EQ(PercentToShare(95.0), 0.95);
+  EXPECT_EQ(PercentToShare(1.5), 0.015);
+  // Labels print the level as given, where a whole-number format showed
+  // 99.9 % as "100 %".
+  EXPECT_EQ(FormatShareAsPercent(0.999), "99.9");
+  EXPECT_EQ(FormatShareAsPercent(0.95), "95");
+  EXPECT_EQ(FormatShareAsPercent(0.015), "1.5");
   std::string error;
   EXPECT_TRUE(widest.IsValid(&error)) << error;
   for (double df : {1.0, 2.0, 30.0, std::nan("")}) {
@@ -1144,16 +1154,19 @@ TEST(SensitivityCommand, BadOptionValuesExitWithOneAndAClearMessage) {
        "'abc'\n"},
       {"--level 100",
        "paritas: error: --level must be a percentage above 1 and at most 99.9 (e.g. 95) or a "
-       "share above 0 and up to 0.999 (e.g. 0.95), found '100'\n"},
+       "share from 0.01 to 0.999 (e.g. 0.95), found '100'\n"},
       {"--level 99.99999999999999",
        "paritas: error: --level must be a percentage above 1 and at most 99.9 (e.g. 95) or a "
-       "share above 0 and up to 0.999 (e.g. 0.95), found '99.99999999999999'\n"},
+       "share from 0.01 to 0.999 (e.g. 0.95), found '99.99999999999999'\n"},
       {"--level 0.9999999999999999",
        "paritas: error: --level must be a percentage above 1 and at most 99.9 (e.g. 95) or a "
-       "share above 0 and up to 0.999 (e.g. 0.95), found '0.9999999999999999'\n"},
+       "share from 0.01 to 0.999 (e.g. 0.95), found '0.9999999999999999'\n"},
+      {"--level 0.005",
+       "paritas: error: --level must be a percentage above 1 and at most 99.9 (e.g. 95) or a "
+       "share from 0.01 to 0.999 (e.g. 0.95), found '0.005'\n"},
       {"--level 1",
        "paritas: error: --level must be a percentage above 1 and at most 99.9 (e.g. 95) or a "
-       "share above 0 and up to 0.999 (e.g. 0.95), found '1'\n"},
+       "share from 0.01 to 0.999 (e.g. 0.95), found '1'\n"},
       {"--coverage 90,abc",
        "paritas: error: --coverage must list percentages of items kept, each above 0 and at most "
        "100 (e.g. "
@@ -1209,6 +1222,7 @@ TEST(SensitivityCommand, APercentageAndItsShareWriteTheSameFiles) {
                      &out, &err),
               0)
         << err;
+    EXPECT_NE(out.find("99.9 % interval"), std::string::npos) << out;
     written[level] = ReadTextFile(out_folder + "/sensitivity/pair_ratios.csv") +
                      ReadTextFile(out_folder + "/sensitivity/bootstrap.csv");
     const std::string record = ReadTextFile(out_folder + "/sensitivity/run.json");

@@ -55,6 +55,16 @@ std::string FormatFixed(double value, int decimals);
 // messages about figures of any size (a price per gram, an absurd quote).
 std::string FormatReadable(double value, int decimals);
 
+// Returns a share as a percentage with at most 4 decimals, trailing zeros
+// dropped: 0.95 -> "95", 0.999 -> "99.9", 0.015 -> "1.5". For interval
+// levels, which a whole-number format showed as "100" for 99.9 %.
+std::string FormatShareAsPercent(double share);
+
+// Returns the share a percentage stands for, read from the percentage's
+// shortest decimal text with the point moved two places, so that 99.9
+// gives exactly the double of 0.999 (99.9 / 100 gives the next one up).
+double PercentToShare(double percent);
+
 // Returns a whole number with thousands separated by commas: "12,345".
 std::string FormatCount(int64_t value);
 

@@ -55,6 +55,9 @@ bool FromString(const std::string& text, BootstrapKind* kind);
 // (1 + level) / 2 rounds to 1 and the interval collapsed onto the largest
 // replicate.
 inline constexpr double kMaxIntervalLevel = 0.999;
+// Smallest interval level (1 %): below it a level is more likely a slip
+// (a share typed for a percentage) than an interval anyone wants.
+inline constexpr double kMinIntervalLevel = 0.01;
 
 // Smallest target standard error of ln parity (1e-6 log points, 0.0001 %).
 // The items-needed factor (SE / target)^2 stays finite below it for any
