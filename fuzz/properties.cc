@@ -530,7 +530,7 @@ constexpr std::string_view kIntervals =
     "node,region,lower,upper\n"
     "all,r1,110,130\n"
     "all,r2,85,95\n"
-    "food,r1,100,\n"
+    "food,r1,,\n"
     "bread,r2,900,1100\n";
 
 std::string ShowDeflate(const DeflateSummary& summary) {

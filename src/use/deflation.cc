@@ -178,6 +178,18 @@ bool ReadIntervals(const DeflateOptions& options, ParityTable* table, std::strin
                      message)) {
       return false;
     }
+    // Sensitivity writes both bounds or neither, the lower not above the
+    // upper; one alone gave a real interval not holding the real value.
+    if (std::isnan(lower) != std::isnan(upper) || lower > upper) {
+      const bool one = std::isnan(lower) != std::isnan(upper);
+      *message = LocatedMessage(table->interval_path, row.line, row.columns[2],
+                                one ? "one bound of the interval is empty (lower " + QuoteValue(row.fields[2]) +
+                                          ", upper " + QuoteValue(row.fields[3]) + ")"
+                                    : "lower " + QuoteValue(row.fields[2]) + " is above upper " +
+                                          QuoteValue(row.fields[3]));
+      *message += "; is the file as sensitivity wrote it?";
+      return false;
+    }
     // Intervals of pairs without parities cannot be used.
     const int node = table->nodes.Find(row.fields[0]);
     const int region = table->regions.Find(row.fields[1]);
@@ -591,7 +603,7 @@ class Deflater {
         finite = finite && (std::isnan(upper) || std::isfinite(a)) && (std::isnan(lower) || std::isfinite(b));
       }
       if (finite) continue;
-      RejectBeyondDouble(record, k, parity);
+      RejectBeyondDouble(record, k, parity, std::isfinite(real_[3 * k]));
       return false;
     }
     return true;
@@ -599,14 +611,15 @@ class Deflater {
 
   // Rejects the record whose k-th value overflows in reference prices. Out
   // of line: the row loop stays as lean as before the check.
-  [[gnu::noinline, gnu::cold]] void RejectBeyondDouble(const CsvRecord& record, size_t k, double parity) {
+  // `at_bound`: the value at the parity is finite, at a bound it is not.
+  [[gnu::noinline, gnu::cold]] void RejectBeyondDouble(const CsvRecord& record, size_t k, double parity,
+                                                       bool at_bound) {
     std::string shown;
     AppendShortest(parity, &shown);
     Reject(record, value_columns_[k] + 1,
            options_.value_columns[k] + " " + QuoteValue(Trim(record.fields[value_columns_[k]])) +
-               " in reference prices (at parity " + shown +
-               (options_.include_interval ? " or its interval's bounds" : "") +
-               ") is beyond the largest number a double holds (about 1.8e308)");
+               " in reference prices (at " + (at_bound ? "a bound of the interval of parity " : "parity ") +
+               shown + ") is beyond the largest number a double holds (about 1.8e308)");
   }
 
   // Appends the record with its real values (real_; and parity and

@@ -31,15 +31,25 @@ using Json = nlohmann::json;
 bool FromPairTable(const std::string& path, const std::string& node, const std::string& to,
                    const std::string& from, PairComparison* c, bool* found, std::string* error) {
   *found = false;
-  auto handle = [&](const internal::TableRow& row, std::string*) {
+  auto handle = [&](const internal::TableRow& row, std::string* message) {
     if (row.fields[0] != node) return true;
     const bool direct = row.fields[1] == to && row.fields[2] == from;
     const bool swapped = row.fields[1] == from && row.fields[2] == to;
     if (!direct && !swapped) return true;
+    // The bounds as sensitivity writes them: positive ratios within the
+    // range of results, or empty; anything else is not its file.
     double lower = NAN, upper = NAN, count = 0;
-    if (ParseNumber(row.fields[3], &lower) != NumberStatus::kOk ||
-        ParseNumber(row.fields[4], &upper) != NumberStatus::kOk ||
-        ParseNumber(row.fields[5], &count) != NumberStatus::kOk) {
+    if (!internal::ParseParity(path, row.line, row.columns[3], "lower", row.fields[3], &lower, message) ||
+        !internal::ParseParity(path, row.line, row.columns[4], "upper", row.fields[4], &upper, message)) {
+      return false;
+    }
+    if (lower > upper) {
+      *message = LocatedMessage(path, row.line, row.columns[3],
+                                "lower " + QuoteValue(row.fields[3]) + " is above upper " +
+                                    QuoteValue(row.fields[4]) + "; is the file as sensitivity wrote it?");
+      return false;
+    }
+    if (std::isnan(lower) || std::isnan(upper) || ParseNumber(row.fields[5], &count) != NumberStatus::kOk) {
       return true;  // no interval in this row (too few replicates): not found
     }
     c->ratio_lower = direct ? lower : 1.0 / upper;

@@ -13,6 +13,7 @@
 #include <nlohmann/json.hpp>
 #include <system_error>
 
+#include "base/magnitude.h"
 #include "base/not_a_number.h"
 #include "base/sha256.h"
 #include "paritas/aggregation/normalisation.h"
@@ -68,15 +69,27 @@ int IndexOf(std::vector<std::string>* list, std::string_view code) {
   return static_cast<int>(list->size()) - 1;
 }
 
-// Parses an optional number that may be of any sign (an index): empty = NaN.
-bool ParseOptional(const std::string& path, const TableRow& row, int k, const char* what,
-                   double* value, std::string* error) {
+// Parses an optional index of real expenditure per head as compute writes
+// it: empty = NaN, else 0 (no spending) or positive within the range of
+// results.
+bool ParseOptionalIndex(const std::string& path, const TableRow& row, int k, const char* what,
+                        double* value, std::string* error) {
   *value = kNaN;
   if (row.fields[k].empty()) return true;
   const NumberStatus status = ParseNumber(row.fields[k], value);
-  if (status == NumberStatus::kOk) return true;
-  *error =
-      LocatedMessage(path, row.line, row.columns[k], NumberProblem(status, what, row.fields[k]));
+  std::string problem;
+  if (status != NumberStatus::kOk) {
+    problem = NumberProblem(status, what, row.fields[k]);
+  } else if (*value < 0) {
+    problem = std::string(what) + " " + QuoteValue(row.fields[k]) + " is negative";
+  } else {
+    problem = internal::MagnitudeProblem(what, row.fields[k], *value,
+                                         "compute writes none beyond it; is the file as it wrote it?",
+                                         internal::kResultRange);
+  }
+  if (problem.empty()) return true;
+  *value = kNaN;
+  *error = LocatedMessage(path, row.line, row.columns[k], problem);
   return false;
 }
 
@@ -88,7 +101,7 @@ bool ReadParitiesCsv(const PublishOptions& options, RunFigures* figures, std::st
     const int region = IndexOf(&figures->regions, row.fields[1]);
     double level = kNaN, per_head = kNaN;
     if (!ParseParity(path, row.line, row.columns[2], "parity", row.fields[2], &level, message) ||
-        !ParseOptional(path, row, 3, "real_per_capita_index", &per_head, message)) {
+        !ParseOptionalIndex(path, row, 3, "real_per_capita_index", &per_head, message)) {
       return false;
     }
     if (!figures->level.emplace(std::make_pair(node, region), level).second) {

@@ -204,6 +204,29 @@ TEST(CarryCommand, RefusesWhatItCannotCarryWithExactMessages) {
       << err;
   EXPECT_NE(err.find("now); carry needs the benchmark's own survey\n"), std::string::npos) << err;
   WriteTextFile(dir + "/prices.csv", prices);
+  // The benchmark's spending is read as compute wrote it: a figure beyond
+  // the survey's range summed to infinity and carried every parity as NaN.
+  const std::string parities = ReadTextFile(bench + "/parities.csv");
+  const size_t row = parities.find("\nh1,heading,a,") + 1;
+  size_t field = row;
+  for (int k = 0; k < 4; ++k) field = parities.find(',', field) + 1;
+  const int line = 1 + static_cast<int>(std::count(parities.begin(), parities.begin() + row, '\n'));
+  for (const auto& [figure, problem] :
+       {std::pair<std::string, std::string>{"1e308", "is beyond 1e30, where ratios between regions "
+                                                      "and their products overflow or lose digits; "
+                                                      "compute writes none beyond it; is the file as "
+                                                      "it wrote it?"},
+        {"-5", "is negative"}}) {
+    WriteTextFile(bench + "/parities.csv", parities.substr(0, field) + figure +
+                                               parities.substr(parities.find(',', field)));
+    EXPECT_EQ(RunCli("carry " + bench + " --indices " + dir + "/partial.csv --missing-index country "
+                         "--output " + dir + "/f",
+                     &out, &err),
+              1);
+    EXPECT_EQ(err, "paritas: error: " + bench + "/parities.csv:" + std::to_string(line) +
+                       ":5: expenditure '" + figure + "' " + problem + "\n");
+  }
+  WriteTextFile(bench + "/parities.csv", parities);
     // A carried run is not a benchmark.
   EXPECT_EQ(RunCli("carry " + dir + "/c --indices " + dir + "/partial.csv --output " + dir + "/d",
                    &out, &err),

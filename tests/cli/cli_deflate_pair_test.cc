@@ -4,7 +4,10 @@
 
 #include <cmath>
 #include <filesystem>
+#include <sstream>
 #include <string>
+#include <utility>
+#include <vector>
 
 #include "paritas/aggregation/aggregation_method.h"
 #include "paritas/elementary/elementary_method.h"
@@ -331,6 +334,53 @@ TEST(PairCommand, PrintsTheRatioIntervalOfTheSameRunAndRefusesAnotherRuns) {
                      "; its intervals are not used; run 'paritas sensitivity' again with this "
                      "configuration\n");
   EXPECT_EQ(out.find("95 % interval of the transitive ratio"), std::string::npos) << out;
+}
+
+// A bound of 0 printed the ratio's interval as "0.88 - inf"; bounds are read
+// back as sensitivity writes them (positive, within the range of results,
+// lower not above upper), and anything else is named and not used.
+TEST(PairCommand, RefusesIntervalBoundsSensitivityCannotHaveWritten) {
+  const std::string dir = WriteTwoSituationSurvey();
+  const std::string config = dir + "/run.yaml";
+  std::string out, err;
+  ASSERT_EQ(RunCli("compute " + config + " --output " + dir + "/one --no-report", &out, &err), 0)
+      << err;
+  ASSERT_EQ(RunCli("sensitivity " + config + " --output " + dir +
+                       "/one --parts bootstrap --replicates 40",
+                   &out, &err),
+            0)
+      << err;
+  const std::string table = dir + "/one/sensitivity/pair_ratios.csv";
+  const std::string written = ReadTextFile(table);
+  // Row 2's fields: node, region_a, region_b, ratio, lower, upper, ...
+  auto with_bounds = [&](const std::string& lower, const std::string& upper) {
+    std::vector<std::string> fields;
+    const size_t row = written.find('\n') + 1, end = written.find('\n', row);
+    std::stringstream line(written.substr(row, end - row));
+    for (std::string field; std::getline(line, field, ',');) fields.push_back(field);
+    fields[4] = lower;
+    fields[5] = upper;
+    std::string joined;
+    for (const std::string& field : fields) joined += (joined.empty() ? "" : ",") + field;
+    WriteTextFile(table, written.substr(0, row) + joined + written.substr(end));
+  };
+  const std::pair<std::pair<std::string, std::string>, std::string> cases[] = {
+      {{"0", "1.5"}, table + ":2:5: lower '0' is not positive"},
+      {{"1.2", "1e300"},
+       table + ":2:6: upper '1e300' is beyond 1e200, where ratios between regions and their "
+               "products overflow or lose digits; compute writes none beyond it; is the file as "
+               "it wrote it?"},
+      {{"1.5", "1.2"},
+       table + ":2:5: lower '1.5' is above upper '1.2'; is the file as sensitivity wrote it?"},
+  };
+  for (const auto& [bounds, message] : cases) {
+    with_bounds(bounds.first, bounds.second);
+    ASSERT_EQ(RunCli("pair " + config + " --from s1 --to s2 --output " + dir + "/one", &out, &err), 0)
+        << err;
+    EXPECT_EQ(err, "paritas: warning: " + message + "\n");
+    EXPECT_NE(out.find("interval of the transitive ratio: not shown: " + message), std::string::npos)
+        << out;
+  }
 }
 
 TEST(PairCommand, RefusesUnknownRegionsAndMissingOptions) {

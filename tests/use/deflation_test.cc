@@ -323,6 +323,20 @@ TEST(Deflate, AddsRealValuesAtTheBoundsOfTheParityInterval) {
             "other_real_lower,other_real_upper\n"
             "a,12000,3,10000.0000,2.5000,8000.0000,12000.0000,2.0000,3.0000\n"
             "b,9000,-1,10000.0000,-1.1111,,,,\n");
+  // One bound alone gave a real interval without the real value in it
+  // (min and max of a number and NaN return the first); a reversed pair is
+  // not sensitivity's either. Both are refused, located.
+  const std::string bootstrap = options.parities_dir + "/sensitivity/bootstrap.csv";
+  const std::pair<std::string, std::string> cases[] = {
+      {"all,b,90,90,,95\n", ":3:5: one bound of the interval is empty (lower '', upper '95')"},
+      {"all,b,90,90,80,\n", ":3:5: one bound of the interval is empty (lower '80', upper '')"},
+      {"all,b,90,90,95,85\n", ":3:5: lower '95' is above upper '85'"},
+  };
+  for (const auto& [row, message] : cases) {
+    WriteTextFile(bootstrap, "node,region,parity,median,lower,upper\nall,a,120,120,100,150\n" + row);
+    EXPECT_FALSE(Deflate(options, &summary)) << row;
+    EXPECT_EQ(summary.message, bootstrap + message + "; is the file as sensitivity wrote it?");
+  }
 }
 
 // 100,000 node/region pairs with distinct nodes and regions: a dense

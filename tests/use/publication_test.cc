@@ -247,6 +247,28 @@ TEST(Publication, RefusesANodeOutsideTheClassification) {
                                  "/run.yaml; give the configuration of this run with --config");
 }
 
+// The index of real expenditure per head was read at any sign and size and
+// published as it stood; it is read as compute writes it.
+TEST(Publication, RefusesARealPerHeadIndexComputeCannotHaveWritten) {
+  const std::string dir = MakeRun("publish_bad_index");
+  const std::string path = dir + "/run/parities.csv";
+  const std::string written = ReadTextFile(path);
+  const std::pair<std::string, std::string> cases[] = {
+      {"-3", "real_per_capita_index '-3' is negative"},
+      {"1e250",
+       "real_per_capita_index '1e250' is beyond 1e200, where ratios between regions and their "
+       "products overflow or lose digits; compute writes none beyond it; is the file as it wrote it?"},
+  };
+  for (const auto& [figure, problem] : cases) {
+    std::string text = written;
+    text.replace(text.find(",110.04\n"), 8, "," + figure + "\n");
+    WriteTextFile(path, text);
+    PublishSummary summary;
+    EXPECT_FALSE(Publish(OptionsFor(dir), &summary)) << figure;
+    EXPECT_EQ(summary.message, path + ":2:5: " + problem);
+  }
+}
+
 TEST(Publication, RefusesOutputsInsideTheRunFolderOrOverAnInput) {
   const std::string dir = MakeRun("publish_paths");
   PublishOptions options = OptionsFor(dir);
