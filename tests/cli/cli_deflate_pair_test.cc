@@ -271,17 +271,22 @@ std::string RunIdOf(const std::string& folder) {
   return json.substr(begin, json.find('"', begin) - begin);
 }
 
+// Computes `config` into `folder` and adds the bootstrap's intervals there.
+void ComputeWithIntervals(const std::string& config, const std::string& folder) {
+  std::string out, err;
+  ASSERT_EQ(RunCli("compute " + config + " --output " + folder + " --no-report", &out, &err), 0)
+      << err;
+  ASSERT_EQ(RunCli("sensitivity " + config + " --output " + folder + " --parts bootstrap --replicates 40",
+                   &out, &err),
+            0)
+      << err;
+}
+
 TEST(PairCommand, PrintsTheRatioIntervalOfTheSameRunAndRefusesAnotherRuns) {
   const std::string dir = WriteTwoSituationSurvey();
   const std::string config = dir + "/run.yaml";
   std::string out, err;
-  ASSERT_EQ(RunCli("compute " + config + " --output " + dir + "/one --no-report", &out, &err), 0)
-      << err;
-  ASSERT_EQ(RunCli("sensitivity " + config + " --output " + dir +
-                       "/one --parts bootstrap --replicates 40",
-                   &out, &err),
-            0)
-      << err;
+  ComputeWithIntervals(config, dir + "/one");
   const std::string pair = "pair " + config + " --from s1 --to s2 --output ";
   // Same run: the interval is shown, read from pair_ratios.csv (the root),
   // and written to the CSV. Every heading of this survey has one item, which
@@ -343,13 +348,7 @@ TEST(PairCommand, RefusesIntervalBoundsSensitivityCannotHaveWritten) {
   const std::string dir = WriteTwoSituationSurvey();
   const std::string config = dir + "/run.yaml";
   std::string out, err;
-  ASSERT_EQ(RunCli("compute " + config + " --output " + dir + "/one --no-report", &out, &err), 0)
-      << err;
-  ASSERT_EQ(RunCli("sensitivity " + config + " --output " + dir +
-                       "/one --parts bootstrap --replicates 40",
-                   &out, &err),
-            0)
-      << err;
+  ComputeWithIntervals(config, dir + "/one");
   const std::string table = dir + "/one/sensitivity/pair_ratios.csv";
   const std::string written = ReadTextFile(table);
   // Row 2's fields: node, region_a, region_b, ratio, lower, upper, ...
