@@ -390,13 +390,15 @@ bool ImputationStage(const Survey& survey, const ComputeOptions& options, Parity
 // without a word.
 constexpr double kWidestCellWeightSpan = 1e8;
 
-// Warns of each heading whose cells' quote weights span more than
+// Per heading, what is wrong with its cells' quote weights ("its cells'
+// quote weights span a factor of ..."), or empty: a span beyond
 // kWidestCellWeightSpan, when the method weighs cells by them.
-void WarnOfWideCellWeights(const Survey& survey, const ComputeOptions& options, ComputeSummary* summary) {
+std::vector<std::string> WideCellWeightSpans(const Survey& survey, const ComputeOptions& options) {
+  std::vector<std::string> spans(survey.num_headings());
   const ElementaryMethod* method = FindElementaryMethod(options.elementary.method);
   if (!options.elementary.quote_weighted_cells || survey.cells.weight.empty() || method == nullptr ||
       !method->Properties().weighs_cells) {
-    return;
+    return spans;
   }
   const std::vector<double>& weight = survey.cells.weight;
   for (int h = 0; h < survey.num_headings(); ++h) {
@@ -405,17 +407,19 @@ void WarnOfWideCellWeights(const Survey& survey, const ComputeOptions& options, 
     const auto [lowest, highest] =
         std::minmax_element(weight.begin() + range.cell_begin, weight.begin() + range.cell_end);
     if (!(*highest > kWidestCellWeightSpan * *lowest)) continue;
-    summary->warnings.push_back("heading '" + survey.heading_codes[h] + "': its cells' quote weights span a factor of " +
-                                FormatReadable(*highest / *lowest, 0) + " (from " + FormatReadable(*lowest, 2) +
-                                " to " + FormatReadable(*highest, 2) +
-                                "; cpd_cell_weights: quote-weights); beyond 1e8 the CPD loses digits and its "
-                                "parities may be off; check the weight column");
+    spans[h] = "its cells' quote weights span a factor of " + FormatReadable(*highest / *lowest, 0) + " (from " +
+               FormatReadable(*lowest, 2) + " to " + FormatReadable(*highest, 2) +
+               "; cpd_cell_weights: quote-weights)";
   }
+  return spans;
 }
 
 // Warns of headings without quotes, counts the headings used; returns false
 // with the summary set when some heading's regions are not linked.
-bool CheckHeadings(const Survey& survey, const ParityResult& result, ComputeSummary* summary) {
+// A heading whose fit failed names its weights' span too (`spans`, from
+// WideCellWeightSpans): the failure's message stands alone in the output.
+bool CheckHeadings(const Survey& survey, const ParityResult& result, const std::vector<std::string>& spans,
+                   ComputeSummary* summary) {
   std::vector<std::string> failures;
   bool any_unlinked = false;
   for (int h = 0; h < survey.num_headings(); ++h) {
@@ -438,7 +442,8 @@ bool CheckHeadings(const Survey& survey, const ParityResult& result, ComputeSumm
       continue;
     }
     if (!heading.identified) {  // linked, but the fit failed (e.g. weights many powers of 10 apart)
-      failures.push_back("heading '" + survey.heading_codes[h] + "' has no parities: " + heading.message);
+      failures.push_back("heading '" + survey.heading_codes[h] + "' has no parities: " + heading.message +
+                         (spans[h].empty() ? "" : "; " + spans[h]));
       continue;
     }
     ++summary->num_headings_used;
@@ -684,8 +689,14 @@ bool ComputeParities(const Survey& survey, const ComputeOptions& options, Parity
   // The two stage timers run back to back, so they cover the call whole.
   ElementaryStage(survey, options, threads, result);
   if (!ImputationStage(survey, options, result, summary)) return false;
-  WarnOfWideCellWeights(survey, options, summary);
-  const bool headings_ok = CheckHeadings(survey, *result, summary);
+  const std::vector<std::string> spans = WideCellWeightSpans(survey, options);
+  for (int h = 0; h < survey.num_headings(); ++h) {
+    if (spans[h].empty()) continue;
+    summary->warnings.push_back("heading '" + survey.heading_codes[h] + "': " + spans[h] +
+                                "; beyond 1e8 the CPD loses digits and its parities may be off; check the "
+                                "weight column");
+  }
+  const bool headings_ok = CheckHeadings(survey, *result, spans, summary);
   summary->elementary_seconds = SecondsSince(start);
   if (!headings_ok) return false;
 

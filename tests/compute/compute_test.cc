@@ -444,7 +444,8 @@ TEST(ComputeParities, LinkedHeadingWhoseFitFailsSaysWhy) {
   EXPECT_EQ(summary.outcome, ComputeOutcome::kComputationFailed);
   EXPECT_EQ(summary.message,
             "heading 'bread' has no parities: the CPD normal equations are numerically singular; "
-            "check for weights spanning many orders of magnitude");
+            "check for weights spanning many orders of magnitude; its cells' quote weights span a "
+            "factor of 1e+20 (from 1.00 to 1e+20; cpd_cell_weights: quote-weights)");
 }
 
 // Below the failure the fit loses digits silently: a quote weight keyed
