@@ -14,7 +14,6 @@
 
 #include <nlohmann/json.hpp>
 
-#include "base/magnitude.h"
 #include "base/not_a_number.h"
 #include "base/sha256.h"
 #include "paritas/aggregation/normalisation.h"
@@ -155,21 +154,10 @@ bool ReadBenchmarkHeadings(const std::string& dir, const Survey& survey, const R
                                message)) {
       return false;
     }
-    if (!row.fields[4].empty()) {
-      // As compute wrote it: spending read within the survey's range, or 0.
-      std::string problem;
-      if (ParseNumber(row.fields[4], &expenditure) != NumberStatus::kOk) {
-        problem = "expenditure " + QuoteValue(row.fields[4]) + " is not a number";
-      } else if (expenditure < 0) {
-        problem = "expenditure " + QuoteValue(row.fields[4]) + " is negative";
-      } else {
-        problem = internal::MagnitudeProblem("expenditure", row.fields[4], expenditure,
-                                   "compute writes none beyond it; is the file as it wrote it?");
-      }
-      if (!problem.empty()) {
-        *message = LocatedMessage(path, row.line, row.columns[4], problem);
-        return false;
-      }
+    // As compute wrote it: spending read within the survey's range, or 0.
+    if (!internal::ParseNonNegative(path, row.line, row.columns[4], "expenditure", row.fields[4], &expenditure,
+                                    message, internal::kInputRange)) {
+      return false;
     }
     benchmark->parity(r, h) = parity;
     benchmark->log_parity(r, h) = std::log(parity);

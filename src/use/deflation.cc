@@ -34,6 +34,7 @@ namespace paritas {
 namespace {
 
 using internal::ListedNames;
+using internal::ParseIntervalBounds;
 using internal::ParseParity;
 using internal::ReadTable;
 using internal::SameRunSettings;
@@ -172,24 +173,7 @@ bool ReadIntervals(const DeflateOptions& options, ParityTable* table, std::strin
   table->upper.assign(table->parity.size(), kNaN);
   const auto handle = [table](const TableRow& row, std::string* message) {
     double lower = kNaN, upper = kNaN;
-    if (!ParseParity(table->interval_path, row.line, row.columns[2], "lower", row.fields[2], &lower,
-                     message) ||
-        !ParseParity(table->interval_path, row.line, row.columns[3], "upper", row.fields[3], &upper,
-                     message)) {
-      return false;
-    }
-    // Sensitivity writes both bounds or neither, the lower not above the
-    // upper; one alone gave a real interval not holding the real value.
-    if (std::isnan(lower) != std::isnan(upper) || lower > upper) {
-      const bool one = std::isnan(lower) != std::isnan(upper);
-      *message = LocatedMessage(table->interval_path, row.line, row.columns[2],
-                                one ? "one bound of the interval is empty (lower " + QuoteValue(row.fields[2]) +
-                                          ", upper " + QuoteValue(row.fields[3]) + ")"
-                                    : "lower " + QuoteValue(row.fields[2]) + " is above upper " +
-                                          QuoteValue(row.fields[3]));
-      *message += "; is the file as sensitivity wrote it?";
-      return false;
-    }
+    if (!ParseIntervalBounds(table->interval_path, row, 2, 3, &lower, &upper, message)) return false;
     // Intervals of pairs without parities cannot be used.
     const int node = table->nodes.Find(row.fields[0]);
     const int region = table->regions.Find(row.fields[1]);
@@ -600,7 +584,8 @@ class Deflater {
         const double a = value / (upper / 100.0), b = value / (lower / 100.0);
         real_[3 * k + 1] = std::min(a, b);
         real_[3 * k + 2] = std::max(a, b);
-        finite = finite && (std::isnan(upper) || std::isfinite(a)) && (std::isnan(lower) || std::isfinite(b));
+        // Both bounds or neither (ParseIntervalBounds).
+        finite = finite && (std::isnan(upper) || (std::isfinite(a) && std::isfinite(b)));
       }
       if (finite) continue;
       RejectBeyondDouble(record, k, parity, std::isfinite(real_[3 * k]));

@@ -36,19 +36,8 @@ bool FromPairTable(const std::string& path, const std::string& node, const std::
     const bool direct = row.fields[1] == to && row.fields[2] == from;
     const bool swapped = row.fields[1] == from && row.fields[2] == to;
     if (!direct && !swapped) return true;
-    // The bounds as sensitivity writes them: positive ratios within the
-    // range of results, or empty; anything else is not its file.
     double lower = NAN, upper = NAN, count = 0;
-    if (!internal::ParseParity(path, row.line, row.columns[3], "lower", row.fields[3], &lower, message) ||
-        !internal::ParseParity(path, row.line, row.columns[4], "upper", row.fields[4], &upper, message)) {
-      return false;
-    }
-    if (lower > upper) {
-      *message = LocatedMessage(path, row.line, row.columns[3],
-                                "lower " + QuoteValue(row.fields[3]) + " is above upper " +
-                                    QuoteValue(row.fields[4]) + "; is the file as sensitivity wrote it?");
-      return false;
-    }
+    if (!internal::ParseIntervalBounds(path, row, 3, 4, &lower, &upper, message)) return false;
     if (std::isnan(lower) || std::isnan(upper) || ParseNumber(row.fields[5], &count) != NumberStatus::kOk) {
       return true;  // no interval in this row (too few replicates): not found
     }

@@ -13,7 +13,6 @@
 #include <nlohmann/json.hpp>
 #include <system_error>
 
-#include "base/magnitude.h"
 #include "base/not_a_number.h"
 #include "base/sha256.h"
 #include "paritas/aggregation/normalisation.h"
@@ -29,6 +28,8 @@ namespace {
 
 namespace fs = std::filesystem;
 using Json = nlohmann::json;
+using internal::ParseIntervalBounds;
+using internal::ParseNonNegative;
 using internal::ParseParity;
 using internal::ReadTable;
 using internal::TableRow;
@@ -69,30 +70,6 @@ int IndexOf(std::vector<std::string>* list, std::string_view code) {
   return static_cast<int>(list->size()) - 1;
 }
 
-// Parses an optional index of real expenditure per head as compute writes
-// it: empty = NaN, else 0 (no spending) or positive within the range of
-// results.
-bool ParseOptionalIndex(const std::string& path, const TableRow& row, int k, const char* what,
-                        double* value, std::string* error) {
-  *value = kNaN;
-  if (row.fields[k].empty()) return true;
-  const NumberStatus status = ParseNumber(row.fields[k], value);
-  std::string problem;
-  if (status != NumberStatus::kOk) {
-    problem = NumberProblem(status, what, row.fields[k]);
-  } else if (*value < 0) {
-    problem = std::string(what) + " " + QuoteValue(row.fields[k]) + " is negative";
-  } else {
-    problem = internal::MagnitudeProblem(what, row.fields[k], *value,
-                                         "compute writes none beyond it; is the file as it wrote it?",
-                                         internal::kResultRange);
-  }
-  if (problem.empty()) return true;
-  *value = kNaN;
-  *error = LocatedMessage(path, row.line, row.columns[k], problem);
-  return false;
-}
-
 bool ReadParitiesCsv(const PublishOptions& options, RunFigures* figures, std::string* error) {
   const std::string path = (fs::path(options.run_dir) / "parities.csv").string();
   int64_t num_rows = 0;
@@ -101,7 +78,8 @@ bool ReadParitiesCsv(const PublishOptions& options, RunFigures* figures, std::st
     const int region = IndexOf(&figures->regions, row.fields[1]);
     double level = kNaN, per_head = kNaN;
     if (!ParseParity(path, row.line, row.columns[2], "parity", row.fields[2], &level, message) ||
-        !ParseOptionalIndex(path, row, 3, "real_per_capita_index", &per_head, message)) {
+        !ParseNonNegative(path, row.line, row.columns[3], "real_per_capita_index", row.fields[3], &per_head,
+                          message)) {
       return false;
     }
     if (!figures->level.emplace(std::make_pair(node, region), level).second) {
@@ -134,10 +112,7 @@ bool ReadBootstrapCsv(const PublishOptions& options, const std::string& path, Ru
   }
   const auto handle = [&](const TableRow& row, std::string* message) {
     double lower = kNaN, upper = kNaN;
-    if (!ParseParity(path, row.line, row.columns[2], "lower", row.fields[2], &lower, message) ||
-        !ParseParity(path, row.line, row.columns[3], "upper", row.fields[3], &upper, message)) {
-      return false;
-    }
+    if (!ParseIntervalBounds(path, row, 2, 3, &lower, &upper, message)) return false;
     const auto node = std::find(figures->nodes.begin(), figures->nodes.end(), row.fields[0]);
     const auto region = std::find(figures->regions.begin(), figures->regions.end(), row.fields[1]);
     // Intervals of pairs the parities do not hold cannot be shown.
@@ -332,7 +307,7 @@ std::string IntervalNote(const std::string& run_dir) {
   const std::string kind_words = kind == "expanded"     ? "expanded percentile "
                                  : kind == "percentile" ? "percentile "
                                                         : "";
-  return FormatFixed(100.0 * level, 0) + " % " + kind_words +
+  return FormatShareAsPercent(level) + " % " + kind_words +
          "bootstrap interval over item resamples (" +
          std::to_string(replicates) + " replicates), sensitivity run " + id;
 }

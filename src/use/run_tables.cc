@@ -98,6 +98,19 @@ bool ReadTable(const std::string& path, const ReadLimits& limits,
   return true;
 }
 
+namespace {
+
+constexpr std::string_view kWrittenByCompute = "compute writes none beyond it; is the file as it wrote it?";
+
+// What to do with a figure out of `range`: input figures (price indices)
+// are rescaled; figures a run wrote are not beyond what it writes.
+std::string_view AdviceFor(const FigureRange& range) {
+  return range.largest == kInputRange.largest ? "only ratios between regions matter, so rescale them"
+                                              : kWrittenByCompute;
+}
+
+}  // namespace
+
 // Parses an optional positive number of a parities table: empty = NaN.
 bool ParseParity(const std::string& path, int64_t line, int column, const char* what,
                  std::string_view text, double* value, std::string* error, const FigureRange& range) {
@@ -114,15 +127,53 @@ bool ParseParity(const std::string& path, int64_t line, int column, const char* 
                             std::string(what) + " " + QuoteValue(text) + " is not positive");
     return false;
   }
-  const bool input = range.largest == kInputRange.largest;
-  const std::string_view advice = input ? "only ratios between regions matter, so rescale them"
-                                        : "compute writes none beyond it; is the file as it wrote it?";
-  if (std::string problem = MagnitudeProblem(what, text, parsed, advice, range); !problem.empty()) {
+  if (std::string problem = MagnitudeProblem(what, text, parsed, AdviceFor(range), range); !problem.empty()) {
     *error = LocatedMessage(path, line, column, problem);
     return false;
   }
   *value = parsed;
   return true;
+}
+
+bool ParseNonNegative(const std::string& path, int64_t line, int column, const char* what,
+                      std::string_view text, double* value, std::string* error, const FigureRange& range) {
+  *value = kNaN;
+  if (text.empty()) return true;
+  double parsed = 0.0;
+  const NumberStatus status = ParseNumber(text, &parsed);
+  std::string problem;
+  if (status != NumberStatus::kOk) {
+    problem = NumberProblem(status, what, text);
+  } else if (parsed < 0) {
+    problem = std::string(what) + " " + QuoteValue(text) + " is negative";
+  } else {
+    problem = MagnitudeProblem(what, text, parsed, kWrittenByCompute, range);
+  }
+  if (!problem.empty()) {
+    *error = LocatedMessage(path, line, column, problem);
+    return false;
+  }
+  *value = parsed;
+  return true;
+}
+
+bool ParseIntervalBounds(const std::string& path, const TableRow& row, int lower, int upper,
+                         double* lower_value, double* upper_value, std::string* error) {
+  const std::string_view lower_text = row.fields[lower], upper_text = row.fields[upper];
+  if (!ParseParity(path, row.line, row.columns[lower], "lower", lower_text, lower_value, error) ||
+      !ParseParity(path, row.line, row.columns[upper], "upper", upper_text, upper_value, error)) {
+    return false;
+  }
+  // One bound alone gave a real interval not holding the real value (min
+  // and max of a number and NaN return the first).
+  const bool one = std::isnan(*lower_value) != std::isnan(*upper_value);
+  if (!one && !(*lower_value > *upper_value)) return true;
+  *error = LocatedMessage(path, row.line, row.columns[lower],
+                          (one ? "one bound of the interval is empty (lower " + QuoteValue(lower_text) +
+                                     ", upper " + QuoteValue(upper_text) + ")"
+                               : "lower " + QuoteValue(lower_text) + " is above upper " + QuoteValue(upper_text)) +
+                              "; is the file as sensitivity wrote it?");
+  return false;
 }
 
 // The command that writes the intervals deflate reads: sensitivity writes

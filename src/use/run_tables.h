@@ -43,6 +43,19 @@ bool ParseParity(const std::string& path, int64_t line, int column, const char* 
                  std::string_view text, double* value, std::string* error,
                  const FigureRange& range = kResultRange);
 
+// Parses an optional non-negative figure a run wrote (spending, an index of
+// real spending per head): empty = NaN; 0, or positive within `range` (the
+// run's input range for the spending it read).
+bool ParseNonNegative(const std::string& path, int64_t line, int column, const char* what,
+                      std::string_view text, double* value, std::string* error,
+                      const FigureRange& range = kResultRange);
+
+// Parses the interval bounds of fields `lower` and `upper` of `row` as
+// sensitivity writes them: both empty (NaN, no interval), or both parities
+// (ParseParity) with the lower not above the upper.
+bool ParseIntervalBounds(const std::string& path, const TableRow& row, int lower, int upper,
+                         double* lower_value, double* upper_value, std::string* error);
+
 // The command that writes the intervals of a run folder: "run 'paritas
 // sensitivity CONFIG --output DIR' with the configuration and options of the
 // compute run" (CONFIG from run.json when it names one).

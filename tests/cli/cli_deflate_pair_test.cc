@@ -369,6 +369,9 @@ TEST(PairCommand, RefusesIntervalBoundsSensitivityCannotHaveWritten) {
        table + ":2:6: upper '1e300' is beyond 1e200, where ratios between regions and their "
                "products overflow or lose digits; compute writes none beyond it; is the file as "
                "it wrote it?"},
+      {{"", "1.5"},
+       table + ":2:5: one bound of the interval is empty (lower '', upper '1.5'); is the file as "
+               "sensitivity wrote it?"},
       {{"1.5", "1.2"},
        table + ":2:5: lower '1.5' is above upper '1.2'; is the file as sensitivity wrote it?"},
   };

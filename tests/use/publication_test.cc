@@ -196,6 +196,22 @@ TEST(Publication, AddsIntervalColumnsFromAMatchingSensitivityRun) {
   EXPECT_EQ(summary.notes.interval,
             "90 % expanded percentile bootstrap interval over item resamples (200 replicates), "
             "sensitivity run sensitivity-run");
+  // The level as recorded: 99.9 % was shown as "100 %".
+  WriteTextFile(dir + "/run/sensitivity/run.json",
+                RunJson(dir, "sensitivity", "mean",
+                        ", \"sensitivity\": {\"settings\": {\"level\": 0.999, \"replicates\": "
+                        "200, \"interval\": \"expanded\"}}"));
+  ASSERT_TRUE(Publish(options, &summary)) << summary.message;
+  EXPECT_EQ(summary.notes.interval.rfind("99.9 % expanded percentile bootstrap interval", 0), 0u)
+      << summary.notes.interval;
+  // An interval with one bound is not sensitivity's: refused, located.
+  const std::string bootstrap = dir + "/run/sensitivity/bootstrap.csv";
+  const std::string bounds = ReadTextFile(bootstrap);
+  WriteTextFile(bootstrap, "node,region,lower,upper\nall,nor,95.04,\n");
+  EXPECT_FALSE(Publish(options, &summary));
+  EXPECT_EQ(summary.message, bootstrap + ":2:3: one bound of the interval is empty (lower '95.04', "
+                                         "upper ''); is the file as sensitivity wrote it?");
+  WriteTextFile(bootstrap, bounds);
   // Without intervals the same run publishes the levels alone.
   options.intervals = false;
   ASSERT_TRUE(Publish(options, &summary)) << summary.message;
