@@ -31,6 +31,31 @@ inline void AdviseHugePages(const void* data, size_t bytes) {
 #endif
 }
 
+// Maps the whole 4 KiB pages inside [data, data + bytes) for writing, in
+// one call, before they are written: what a first write would do page by
+// page, one page fault each (on the benchmark machine, a virtual one, 168 MB
+// took 0.42 s to fault page by page and 0.20 s after this call, of which
+// the call 0.02 s; bench/HISTORY.md, "Fourteenth round"). Only a hint
+// (MADV_POPULATE_WRITE, Linux 5.14): the contents are left as they are and
+// the pages at either end are left to fault. Returns whether the kernel
+// mapped them; one without the call (or with larger pages) refuses it,
+// which is otherwise ignored. For memory about to be written whole: the
+// pages stay in memory until freed. Ranges under 64 KiB are left alone.
+inline bool MapForWriting(const void* data, size_t bytes) {
+#if defined(__linux__) && defined(MADV_POPULATE_WRITE)
+  constexpr uintptr_t kPage = uintptr_t{1} << 12;
+  constexpr size_t kWorthACall = 16 * kPage;
+  if (data == nullptr || bytes < kWorthACall) return false;
+  const uintptr_t begin = (reinterpret_cast<uintptr_t>(data) + kPage - 1) & ~(kPage - 1);
+  const uintptr_t end = (reinterpret_cast<uintptr_t>(data) + bytes) & ~(kPage - 1);
+  return end > begin && ::madvise(reinterpret_cast<void*>(begin), end - begin, MADV_POPULATE_WRITE) == 0;
+#else
+  (void)data;
+  (void)bytes;
+  return false;
+#endif
+}
+
 // The same for the capacity of a vector.
 template <typename Vector>
 void AdviseHugePages(const Vector& vector) {

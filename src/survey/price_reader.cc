@@ -25,6 +25,7 @@
 #include <vector>
 
 #include "base/equal_bytes.h"
+#include "base/huge_pages.h"
 #include "base/magnitude.h"
 #include "base/plain_decimal.h"
 #include "base/sha256.h"
@@ -191,6 +192,19 @@ struct QuoteSlice {
   double* weight = nullptr;
   uint64_t* row_hash = nullptr;
   size_t capacity = 0;
+
+  // Maps the slice's pages in one call per array, by the thread that is
+  // about to fill them (a page fault per 4 KiB cost the parse a fifth of
+  // its time on the benchmark machine).
+  void MapForWriting() const {
+    const auto map = [this](const auto* array) { internal::MapForWriting(array, capacity * sizeof(*array)); };
+    map(region);
+    map(item);
+    map(log_price);
+    map(representative);
+    map(weight);
+    map(row_hash);
+  }
 };
 
 struct ChunkResult {
@@ -1012,6 +1026,7 @@ class PriceReader {
       }
       const int c = task - 2;
       const size_t end = c + 1 < num_chunks ? starts[c + 1] : data.size();
+      results[c].slice.MapForWriting();
       ParsePriceChunk(data.substr(starts[c], end - starts[c]), lines[c], columns_, path_, *state_,
                       known_, keep_all, max_rejected, &results[c]);
     }
