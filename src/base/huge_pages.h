@@ -35,7 +35,8 @@ inline void AdviseHugePages(const void* data, size_t bytes) {
 // one call, before they are written: what a first write would do page by
 // page, one page fault each (on the benchmark machine, a virtual one, 168 MB
 // took 0.42 s to fault page by page and 0.20 s after this call, of which
-// the call 0.02 s; bench/HISTORY.md, "Fourteenth round"). Only a hint
+// the call 0.02 s; bench/HISTORY.md, "Fourteenth round"); memory advised
+// as huge pages is mapped in huge pages where the kernel has them. Only a hint
 // (MADV_POPULATE_WRITE, Linux 5.14): the contents are left as they are and
 // the pages at either end are left to fault. Returns whether the kernel
 // mapped them; one without the call (or with larger pages) refuses it,

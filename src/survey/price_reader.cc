@@ -194,8 +194,8 @@ struct QuoteSlice {
   size_t capacity = 0;
 
   // Maps the slice's pages in one call per array, by the thread that is
-  // about to fill them (a page fault per 4 KiB cost the parse a fifth of
-  // its time on the benchmark machine).
+  // about to fill them (a page fault per 4 KiB as the rows were written cost
+  // the parse a fifth of its time on the benchmark machine).
   void MapForWriting() const {
     const auto map = [this](const auto* array) { internal::MapForWriting(array, capacity * sizeof(*array)); };
     map(region);
@@ -999,6 +999,7 @@ class PriceReader {
     const QuotePlaces before = PlacesOfQuotes();
     ReserveQuotes(slot_begin[num_chunks]);
     const NewColumns new_columns = GrowQuotes(slot_begin[num_chunks]);
+    AdviseQuotePages();
     // Chunk results are kept between blocks so their tables keep their
     // capacity instead of being allocated (and page-faulted) again.
     known_.Build(state_->regions_fixed, state_->regions, state_->items, state_->item_heading,
@@ -1102,9 +1103,24 @@ class PriceReader {
     } catch (const std::bad_alloc&) {
       // GrowQuotes sizes them as it can.
     }
-    // No huge pages: written once, in file order, by the parsing threads,
-    // these arrays were slower to write into with them on the benchmark
-    // machine (bench/HISTORY.md, "Eleventh round").
+  }
+
+  // Asks for huge pages for the whole room of the survey's quote arrays
+  // (again at each block: an array that grew has moved, and the advice
+  // stays with the old place). Each chunk's task then maps its slice in one
+  // call before it writes (QuoteSlice::MapForWriting): on the benchmark
+  // machine T took 3.3-3.7 s with both against 4.0-4.4 s on 4 KiB pages
+  // mapped the same way, and equal times as the first run after a minute of
+  // idle (bench/HISTORY.md, "Fourteenth round"). Huge pages faulted in by
+  // the parsing threads as they wrote had been slower ("Eleventh round").
+  void AdviseQuotePages() const {
+    const QuoteArrays& quotes = state_->quotes;
+    AdviseHugePages(quotes.region);
+    AdviseHugePages(quotes.item);
+    AdviseHugePages(quotes.log_price);
+    AdviseHugePages(quotes.row_hash);
+    AdviseHugePages(quotes.representative);
+    AdviseHugePages(quotes.weight);
   }
 
   // Whether the survey's flag and weight arrays are filled for this file's
