@@ -6,6 +6,7 @@
 #include <algorithm>
 #include <cassert>
 #include <cmath>
+#include <cstdlib>
 #include <limits>
 #include <optional>
 #include <string>
@@ -176,11 +177,14 @@ std::string ItemsNeededSummary(const Survey& survey, const std::vector<ItemsNeed
                                double target_log_se) {
   if (rows.empty()) return "";
   std::string out = "items per heading for a standard error of ln parity of ";
-  // Four places, unless they would show a target below 0.0001 as 0.
-  if (target_log_se < 1e-4) {
-    AppendShortest(target_log_se, &out);
+  // Four places when they show the target as given (0.05 as 0.0500); else
+  // its shortest digits, so that 0.99999 is not shown as 1.0000, nor
+  // 0.00001 as 0.0000.
+  const std::string four_places = FormatFixed(target_log_se, 4);
+  if (std::strtod(four_places.c_str(), nullptr) == target_log_se) {
+    out += four_places;
   } else {
-    out += FormatFixed(target_log_se, 4);
+    AppendShortest(target_log_se, &out);
   }
   out += " (our own estimate under the 1/n law; items_needed.csv):\n";
   auto line = [&](const ItemsNeededRow& row) {

@@ -132,6 +132,23 @@ TEST(ItemsNeeded, CountsPastTheRangeOfAnIntAreExact) {
   EXPECT_EQ(Row(survey, rows, "all")->items_for_median, int64_t{5'400'000'000});
 }
 
+// The target as given: four places when they show it exactly, else its
+// shortest digits (0.99999 was shown as 1.0000).
+TEST(ItemsNeeded, TheSummaryShowsTheTargetAsGiven) {
+  const Survey survey = TwoHeadingSurvey();
+  const auto shown = [&](double target) {
+    const std::string summary =
+        ItemsNeededSummary(survey, ItemsNeeded(survey, HandMadeStandardErrors(survey, 0.2), target), target);
+    const std::string prefix = "items per heading for a standard error of ln parity of ";
+    EXPECT_EQ(summary.substr(0, prefix.size()), prefix);
+    return summary.substr(prefix.size(), summary.find(" (") - prefix.size());
+  };
+  EXPECT_EQ(shown(0.05), "0.0500");
+  EXPECT_EQ(shown(0.99999), "0.99999");
+  EXPECT_EQ(shown(0.12345), "0.12345");
+  EXPECT_EQ(shown(0.00002), "2e-05");
+}
+
 // Median 0.3 and worst 0.4 against 1e-6: c = 9e10 and 1.6e11, so h001 and
 // g01 (8 items) need 7.2e11 for the median region but 1.28e12 for every
 // region, past the ceiling of 10^12; g02 (4 items) stays below it.
