@@ -8,6 +8,7 @@
 #include <map>
 #include <tuple>
 
+#include "base/magnitude.h"
 #include "base/not_a_number.h"
 #include "paritas/base/text.h"
 #include "use/run_tables.h"
@@ -40,6 +41,21 @@ void Resolve(const Classification& tree, const std::map<std::pair<int, int>, dou
       }
     }
   }
+}
+
+// Why a carried parity beyond kCarriedRange stops the run: its figures, and
+// where to look.
+std::string CarriedOutOfRange(const std::string& region, const std::string& heading, double parity,
+                              double benchmark, double index, double country_index) {
+  const internal::FigureRange& range = internal::kCarriedRange;
+  return "region '" + region + "', heading '" + heading + "': the carried parity " +
+         FormatReadable(parity, 2) + " (the benchmark's " + FormatReadable(benchmark, 2) +
+         " times the index " + FormatReadable(index, 2) + " over the country's " +
+         FormatReadable(country_index, 2) + ") is " +
+         (parity > range.largest ? std::string("beyond ") + range.largest_text
+                                 : std::string("nearer 0 than ") + range.smallest_text) +
+         ", where ratios between regions overflow in the aggregation; check the benchmark's "
+         "parities.csv and the units of the index file";
 }
 
 }  // namespace
@@ -223,6 +239,12 @@ bool CarryHeadingParities(const Eigen::MatrixXd& benchmark_log_parity,
       const double log_index = has_index ? std::log(index(r, h)) : log_country;
       carried->index_used(r, h) = has_index ? index(r, h) : carried->country_index(h);
       carried->log_parity(r, h) = benchmark_log_parity(r, h) + log_index - log_country;
+      const double parity = std::exp(carried->log_parity(r, h));
+      if (!internal::WithinRange(parity, internal::kCarriedRange)) {
+        *error = CarriedOutOfRange(regions[r], headings[h], parity, std::exp(benchmark_log_parity(r, h)),
+                                   carried->index_used(r, h), carried->country_index(h));
+        return false;
+      }
     }
   }
   return true;

@@ -226,6 +226,25 @@ TEST(CarryCommand, RefusesWhatItCannotCarryWithExactMessages) {
     EXPECT_EQ(err, "paritas: error: " + bench + "/parities.csv:" + std::to_string(line) +
                        ":5: expenditure '" + figure + "' " + problem + "\n");
   }
+  // Heading parities within the range read back (1e-200 to 1e200) but so
+  // far apart that the aggregation's ratios overflow: stopped with the
+  // figures (it said the regions were "not linked").
+  std::string apart = parities;
+  for (const auto& [key, figure] : {std::pair<std::string, std::string>{"\nh1,heading,a,", "1e-199"},
+                                    {"\nh1,heading,b,", "1e199"}}) {
+    const size_t at = apart.find(key) + key.size();
+    apart.replace(at, apart.find(',', at) - at, figure);
+  }
+  WriteTextFile(bench + "/parities.csv", apart);
+  EXPECT_EQ(RunCli("carry " + bench + " --indices " + dir + "/indices.csv --period 2026 --output " +
+                       dir + "/g",
+                   &out, &err),
+            1);
+  EXPECT_EQ(err.rfind("paritas: error: region 'a', heading 'h1': the carried parity 9.58e-200 (the "
+                      "benchmark's 1e-199 times the index 110.00 over the country's ",
+                      0),
+            0u)
+      << err;
   WriteTextFile(bench + "/parities.csv", parities);
     // A carried run is not a benchmark.
   EXPECT_EQ(RunCli("carry " + dir + "/c --indices " + dir + "/partial.csv --output " + dir + "/d",

@@ -107,7 +107,9 @@ struct CarriedHeadings {
 // region with an index has a positive weight in a heading, the regions with
 // an index weigh alike there. Returns false with a message naming the first
 // region and heading without an index under rule stop (and how many there
-// are), or a heading where nobody has an index under rule country.
+// are), a heading where nobody has an index under rule country, or the
+// first carried parity beyond 1e-100 to 1e100 (the aggregation's ratios
+// between regions would overflow; kCarriedRange in base/magnitude.h).
 bool CarryHeadingParities(const Eigen::MatrixXd& benchmark_log_parity,
                           const Eigen::MatrixXd& index, const Eigen::MatrixXd& weights,
                           MissingIndexRule rule, const std::vector<std::string>& regions,
