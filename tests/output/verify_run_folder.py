@@ -3,15 +3,36 @@
 
 Every file listed in run.json's "outputs" must exist with the listed size and
 SHA-256, and no other file may be there; a sensitivity/ subfolder is a run of
-its own and is checked the same way. Prints the run id and exits 0, or prints
-what is wrong and exits 1. Standard library only.
+its own and is checked the same way. A staging folder a killed run left
+(".NAME.paritas-staging-PID-...", its process gone) is not part of the run:
+`sensitivity` stages beside its target, inside the folder, and the next run
+removes it (README, "One run, one folder"); one of a live process is
+reported. Prints the run id and exits 0, or prints what is wrong and exits 1.
+Standard library only.
 
 Usage: verify_run_folder.py FOLDER
 """
 import hashlib
 import json
 import os
+import re
 import sys
+
+STAGING = re.compile(r"^\..+\.paritas-staging-(\d+)-")
+
+
+def left_by_a_killed_run(name):
+    """Whether `name` is a staging folder whose process no longer runs."""
+    match = STAGING.match(name)
+    if not match:
+        return False
+    try:
+        os.kill(int(match.group(1)), 0)
+    except ProcessLookupError:
+        return True
+    except PermissionError:
+        return False  # a process of another user has that id
+    return False
 
 
 def check(folder, problems):
@@ -41,6 +62,7 @@ def check(folder, problems):
         if len(data) != entry["bytes"] or hashlib.sha256(data).hexdigest() != entry["sha256"]:
             problems.append(f"{full}: differs from run.json (another run's file)")
     for root, dirs, files in os.walk(folder):
+        dirs[:] = [d for d in dirs if not left_by_a_killed_run(d)]
         rel_root = os.path.relpath(root, folder)
         if rel_root == "sensitivity" or rel_root.startswith("sensitivity" + os.sep):
             continue
