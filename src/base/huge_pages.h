@@ -3,7 +3,7 @@
 // 55,000 faults for 7 million quotes. Where the kernel leaves huge pages to
 // the program's choice (transparent_hugepage "madvise"), asking for them
 // makes that one fault per 2 MiB; mapping the pages in one call before
-// they are written (MapForWriting) takes no fault at all.
+// they are written (MapForWriting) takes one call instead of those faults.
 #ifndef PARITAS_INTERNAL_BASE_HUGE_PAGES_H_
 #define PARITAS_INTERNAL_BASE_HUGE_PAGES_H_
 
@@ -12,6 +12,7 @@
 
 #if defined(__linux__)
 #include <sys/mman.h>
+#include <unistd.h>
 #endif
 
 namespace paritas::internal {
@@ -32,24 +33,26 @@ inline void AdviseHugePages(const void* data, size_t bytes) {
 #endif
 }
 
-// Maps the whole 4 KiB pages inside [data, data + bytes) for writing, in
-// one call, before they are written: what a first write would do page by
-// page, one page fault each (on the benchmark machine, a virtual one, 168 MB
-// took 0.42 s to fault page by page and 0.20 s after this call, of which
-// the call 0.02 s; bench/HISTORY.md, "Fourteenth round"); memory advised
-// as huge pages is mapped in huge pages where the kernel has them. Only a hint
+// Maps the whole pages inside [data, data + bytes) for writing, in one
+// call, before they are written: what a first write would do page by page,
+// one page fault each (on the benchmark machine, a virtual one, 168 MB took
+// 0.42 s to fault page by page and 0.20 s after this call, of which the
+// call 0.02 s; bench/HISTORY.md, "Fourteenth round"); memory advised as huge
+// pages is mapped in huge pages where the kernel has them. Only a hint
 // (MADV_POPULATE_WRITE, Linux 5.14): the contents are left as they are and
 // the pages at either end are left to fault. Returns whether the kernel
-// mapped them; one without the call (or with larger pages) refuses it,
-// which is otherwise ignored. For memory about to be written whole: the
-// pages stay in memory until freed. Ranges under 64 KiB are left alone.
+// mapped them; one without the call refuses it, which is otherwise ignored.
+// For memory about to be written whole: the pages stay in memory until
+// freed. Ranges under 16 pages are left alone.
 inline bool MapForWriting(const void* data, size_t bytes) {
 #if defined(__linux__) && defined(MADV_POPULATE_WRITE)
-  constexpr uintptr_t kPage = uintptr_t{1} << 12;
-  constexpr size_t kWorthACall = 16 * kPage;
-  if (data == nullptr || bytes < kWorthACall) return false;
-  const uintptr_t begin = (reinterpret_cast<uintptr_t>(data) + kPage - 1) & ~(kPage - 1);
-  const uintptr_t end = (reinterpret_cast<uintptr_t>(data) + bytes) & ~(kPage - 1);
+  static const uintptr_t page = [] {
+    const long size = ::sysconf(_SC_PAGESIZE);
+    return static_cast<uintptr_t>(size > 0 ? size : 4096);
+  }();
+  if (data == nullptr || bytes < 16 * page) return false;
+  const uintptr_t begin = (reinterpret_cast<uintptr_t>(data) + page - 1) & ~(page - 1);
+  const uintptr_t end = (reinterpret_cast<uintptr_t>(data) + bytes) & ~(page - 1);
   return end > begin && ::madvise(reinterpret_cast<void*>(begin), end - begin, MADV_POPULATE_WRITE) == 0;
 #else
   (void)data;

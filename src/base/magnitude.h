@@ -35,11 +35,14 @@ inline constexpr FigureRange kInputRange{1e-30, 1e30, "1e-30", "1e30"};
 // two input figures, times an index ratio under carry) with room to spare.
 inline constexpr FigureRange kResultRange{1e-200, 1e200, "1e-200", "1e200"};
 // Heading parities carried to a later period (a benchmark's, moved by index
-// ratios) before they are aggregated: ratios between two regions then stay
-// within 1e200, which the aggregation holds (on a two-region test survey,
-// parities of 1e-150 and 1e150 aggregated to finite figures; 1e-199 and
-// 1e199 overflowed to a "not linked" error).
-inline constexpr FigureRange kCarriedRange{1e-100, 1e100, "1e-100", "1e100"};
+// ratios) before they are aggregated: what a run computes from figures within
+// kInputRange (ratios of two), so that a ratio between two regions stays
+// within 1e120 and a product of two such ratios within 1e240. On a
+// two-region survey with opposite extremes in two headings every aggregation
+// method held parities of 1e-77 and 1e77; at 1e78 the Paasche-Laspeyres
+// ratio overflowed (its spread warning was lost) and the spanning tree
+// reported the regions "not linked".
+inline constexpr FigureRange kCarriedRange{1e-60, 1e60, "1e-60", "1e60"};
 
 // True when a figure lies in the range (NaN and 0 do not).
 inline bool WithinRange(double value, const FigureRange& range = kInputRange) {

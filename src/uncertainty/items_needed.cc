@@ -5,8 +5,8 @@
 
 #include <algorithm>
 #include <cassert>
+#include <charconv>
 #include <cmath>
-#include <cstdlib>
 #include <limits>
 #include <optional>
 #include <string>
@@ -181,7 +181,9 @@ std::string ItemsNeededSummary(const Survey& survey, const std::vector<ItemsNeed
   // its shortest digits, so that 0.99999 is not shown as 1.0000, nor
   // 0.00001 as 0.0000.
   const std::string four_places = FormatFixed(target_log_se, 4);
-  if (std::strtod(four_places.c_str(), nullptr) == target_log_se) {
+  double shown = 0.0;  // read back whatever the locale (from_chars, not strtod)
+  std::from_chars(four_places.data(), four_places.data() + four_places.size(), shown);
+  if (shown == target_log_se) {
     out += four_places;
   } else {
     AppendShortest(target_log_se, &out);

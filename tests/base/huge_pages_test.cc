@@ -49,7 +49,7 @@ TEST_F(FreshMapping, PagesMappedAheadTakeNoFaultWhenWritten) {
   GTEST_SKIP() << "a sanitizer's shadow memory faults as the pages are written";
 #endif
   // The range starts and ends inside a page: those two are left to fault.
-  if (!MapForWriting(data_ + 100, kBytes - 200)) GTEST_SKIP() << "the kernel has no MADV_POPULATE_WRITE";
+  if (!MapForWriting(data_ + 100, kBytes - 200)) GTEST_SKIP() << "MADV_POPULATE_WRITE is not available here (kernel or headers)";
   const long before = MinorFaults();
   for (size_t at = 0; at < kBytes; at += kPage) data_[at] = 1;
   // Without the call: 8,192 faults (one per page written).
@@ -60,7 +60,7 @@ TEST_F(FreshMapping, PagesMappedAheadKeepWhatWasWritten) {
   std::vector<char> pattern(kBytes);
   for (size_t k = 0; k < kBytes; ++k) pattern[k] = static_cast<char>(k * 7 + k / 4099);
   std::memcpy(data_, pattern.data(), kBytes / 2);  // half written first
-  if (!MapForWriting(data_, kBytes)) GTEST_SKIP() << "the kernel has no MADV_POPULATE_WRITE";
+  if (!MapForWriting(data_, kBytes)) GTEST_SKIP() << "MADV_POPULATE_WRITE is not available here (kernel or headers)";
   EXPECT_EQ(std::memcmp(data_, pattern.data(), kBytes / 2), 0);
   const std::vector<char> zeros(kBytes / 2, 0);
   EXPECT_EQ(std::memcmp(data_ + kBytes / 2, zeros.data(), kBytes / 2), 0);  // fresh pages read 0

@@ -228,7 +228,7 @@ TEST(CarryCommand, RefusesWhatItCannotCarryWithExactMessages) {
   }
   // Heading parities within the range read back (1e-200 to 1e200) but so
   // far apart that the aggregation's ratios overflow: stopped with the
-  // figures (it said the regions were "not linked").
+  // figures (it said the regions were "not linked"; below, the range's edge).
   std::string apart = parities;
   for (const auto& [key, figure] : {std::pair<std::string, std::string>{"\nh1,heading,a,", "1e-199"},
                                     {"\nh1,heading,b,", "1e199"}}) {
@@ -240,11 +240,11 @@ TEST(CarryCommand, RefusesWhatItCannotCarryWithExactMessages) {
                        dir + "/g",
                    &out, &err),
             1);
-  EXPECT_EQ(err.rfind("paritas: error: region 'a', heading 'h1': the carried parity 9.58e-200 (the "
-                      "benchmark's 1e-199 times the index 110.00 over the country's ",
-                      0),
-            0u)
-      << err;
+  EXPECT_EQ(err,
+            "paritas: error: region 'a', heading 'h1': the carried parity 9.58e-200 (the "
+            "benchmark's 1e-199 times the index 110.00 over the country's 114.87) is nearer 0 "
+            "than 1e-60, where ratios between regions overflow in the aggregation; check the "
+            "benchmark's parities.csv and the units of the index file\n");
   WriteTextFile(bench + "/parities.csv", parities);
     // A carried run is not a benchmark.
   EXPECT_EQ(RunCli("carry " + dir + "/c --indices " + dir + "/partial.csv --output " + dir + "/d",
@@ -254,6 +254,44 @@ TEST(CarryCommand, RefusesWhatItCannotCarryWithExactMessages) {
                      "/c/run.json: a record of 'carry', not of compute; carry from the "
                      "benchmark's own output folder of 'paritas compute' (indices from its period "
                      "to the later one)\n");
+}
+
+// Carried parities near the edge of the range carry (1e-60 to 1e60), a and b
+// at opposite extremes in both headings, under every aggregation method: the
+// run finishes and its Paasche-Laspeyres spreads are finite (the spread
+// warning is there). At 1e78 the spreads overflowed and were lost without a
+// word, and the spanning tree stopped as "not linked"; the range keeps such
+// parities out.
+TEST(CarryCommand, EveryMethodAggregatesParitiesAtTheEdgeOfTheCarriedRange) {
+  const std::string dir = MakeTempDir("cli_carry_edge");
+  const std::string bench = WriteHandSurvey(dir);
+  const std::string config = ReadTextFile(dir + "/config.yaml");
+  for (const std::string method : {"geks-fisher", "geks-tornqvist", "weighted-cpd", "spanning-tree",
+                                   "geary-khamis", "ikle-dikhanov-balk"}) {
+    const std::string yaml = dir + "/" + method + ".yaml";
+    const std::string with_method = config.substr(0, config.find("aggregation: ")) +
+                                    "aggregation: " + method + "\n";
+    WriteTextFile(yaml, with_method);
+    std::string out, err;
+    ASSERT_EQ(RunCli("compute " + yaml + " --no-report --output " + dir + "/b-" + method, &out, &err),
+              0)
+        << err;
+    std::string parities = ReadTextFile(dir + "/b-" + method + "/parities.csv");
+    for (const auto& [key, figure] :
+         {std::pair<std::string, std::string>{"\nh1,heading,a,", "1e-59"}, {"\nh1,heading,b,", "1e59"},
+          {"\nh2,heading,a,", "1e59"}, {"\nh2,heading,b,", "1e-59"}}) {
+      const size_t at = parities.find(key) + key.size();
+      parities.replace(at, parities.find(',', at) - at, figure);
+    }
+    WriteTextFile(dir + "/b-" + method + "/parities.csv", parities);
+    EXPECT_EQ(RunCli("carry " + dir + "/b-" + method + " --indices " + dir +
+                         "/indices.csv --period 2026 --no-report --output " + dir + "/c-" + method,
+                     &out, &err),
+              0)
+        << method << ": " << err;
+    EXPECT_NE(err.find("aggregate 'all', region 'a': Paasche-Laspeyres spread "), std::string::npos)
+        << method << ": " << err;
+  }
 }
 
 // Identity: every region's index equal (one row on the root per region)

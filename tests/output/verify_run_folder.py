@@ -3,11 +3,11 @@
 
 Every file listed in run.json's "outputs" must exist with the listed size and
 SHA-256, and no other file may be there; a sensitivity/ subfolder is a run of
-its own and is checked the same way. A staging folder a killed run left
-(".NAME.paritas-staging-PID-...", its process gone) is not part of the run:
-`sensitivity` stages beside its target, inside the folder, and the next run
-removes it (README, "One run, one folder"); one of a live process is
-reported. Prints the run id and exits 0, or prints what is wrong and exits 1.
+its own and is checked the same way. The staging folder a killed
+`sensitivity` left (".sensitivity.paritas-staging-PID-..." at the top, its
+process gone) is not part of the run: `sensitivity` stages beside its target,
+inside the folder, and the next run removes it (README, "One run, one
+folder"); any other, or one of a live process, is reported. Prints the run id and exits 0, or prints what is wrong and exits 1.
 Standard library only.
 
 Usage: verify_run_folder.py FOLDER
@@ -18,17 +18,23 @@ import os
 import re
 import sys
 
-STAGING = re.compile(r"^\..+\.paritas-staging-(\d+)-")
+# The staging folder of `sensitivity`, which sits beside its sensitivity/
+# target, inside the run folder.
+SENSITIVITY_STAGING = re.compile(r"^\.sensitivity\.paritas-staging-(\d+)-")
 
 
 def left_by_a_killed_run(name):
-    """Whether `name` is a staging folder whose process no longer runs."""
-    match = STAGING.match(name)
+    """Whether `name` is sensitivity's staging folder and its process no longer
+    runs (as the program judges it: an id of 0 or one no process can have)."""
+    match = SENSITIVITY_STAGING.match(name)
     if not match:
         return False
+    pid = int(match.group(1))
+    if pid <= 0:
+        return True
     try:
-        os.kill(int(match.group(1)), 0)
-    except ProcessLookupError:
+        os.kill(pid, 0)
+    except (ProcessLookupError, OverflowError, ValueError):
         return True
     except PermissionError:
         return False  # a process of another user has that id
@@ -62,8 +68,9 @@ def check(folder, problems):
         if len(data) != entry["bytes"] or hashlib.sha256(data).hexdigest() != entry["sha256"]:
             problems.append(f"{full}: differs from run.json (another run's file)")
     for root, dirs, files in os.walk(folder):
-        dirs[:] = [d for d in dirs if not left_by_a_killed_run(d)]
         rel_root = os.path.relpath(root, folder)
+        if rel_root == ".":
+            dirs[:] = [d for d in dirs if not left_by_a_killed_run(d)]
         if rel_root == "sensitivity" or rel_root.startswith("sensitivity" + os.sep):
             continue
         for name in files:

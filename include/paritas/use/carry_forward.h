@@ -108,8 +108,8 @@ struct CarriedHeadings {
 // an index weigh alike there. Returns false with a message naming the first
 // region and heading without an index under rule stop (and how many there
 // are), a heading where nobody has an index under rule country, or the
-// first carried parity beyond 1e-100 to 1e100 (the aggregation's ratios
-// between regions would overflow; kCarriedRange in base/magnitude.h).
+// first carried parity beyond 1e-60 to 1e60 (the aggregation's products of
+// ratios between regions could overflow; kCarriedRange in base/magnitude.h).
 bool CarryHeadingParities(const Eigen::MatrixXd& benchmark_log_parity,
                           const Eigen::MatrixXd& index, const Eigen::MatrixXd& weights,
                           MissingIndexRule rule, const std::vector<std::string>& regions,
