@@ -120,6 +120,33 @@ bool ResolveMatrixNodes(const Classification& tree, const std::vector<std::strin
   return true;
 }
 
+namespace {
+
+// What compute computes with: the nodes whose tables it writes and whose
+// bilaterals it keeps (their spreads are checked), none beyond
+// matrices_up_to_regions unless asked for, where the root's spreads come by
+// row blocks (no region x region matrix). Check computes the same way, so
+// that it warns as compute would. Fails only on an unknown node in matrices.
+struct ComputePlan {
+  std::vector<int> matrix_nodes;
+  bool matrices_left_out = false;
+  ComputeOptions options;
+};
+
+bool PlanCompute(const RunConfig& config, const Survey& survey, ComputePlan* plan, std::string* error) {
+  if (!ResolveMatrixNodes(survey.classification, config.matrices, &plan->matrix_nodes, error)) return false;
+  if (config.matrices.empty() && survey.num_regions() > config.matrices_up_to_regions) {
+    plan->matrix_nodes.clear();  // the root's spreads are still computed (plausibility, report)
+    plan->matrices_left_out = true;
+  }
+  plan->options = ComputeOptions::FromConfig(config);
+  plan->options.keep_bilaterals = plan->matrix_nodes;
+  plan->options.keep_root_bilaterals = !plan->matrices_left_out;
+  return true;
+}
+
+}  // namespace
+
 // ---------------------------------------------------------------------------
 // check
 
@@ -166,11 +193,10 @@ int RunCheck(const RunConfig& config, CheckSummary* summary) {
     // Outlier screening needs the parities; they are cheap next to reading.
     ParityResult result;
     ComputeSummary compute;
-    std::vector<int> matrix_nodes;
-    const bool computed =
-        ResolveMatrixNodes(survey.classification, config.matrices, &matrix_nodes,
-                           &compute_problem) &&
-        ComputeParities(survey, ComputeOptions::FromConfig(config), &result, &compute);
+    ComputePlan plan;
+    const bool planned = PlanCompute(config, survey, &plan, &compute_problem);
+    plan.options.keep_pair_spreads = false;  // for the report, which check does not write
+    const bool computed = planned && ComputeParities(survey, plan.options, &result, &compute);
     if (!computed && compute_problem.empty()) compute_problem = compute.message;
     if (computed) {
       const OutlierOptions outlier_options = OutlierOptions::FromConfig(config);
@@ -461,12 +487,10 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary,
   summary->stages.push_back({"cells", summary->load.cells_seconds});
   const Survey& survey = summary->survey;
 
-  std::vector<int> matrix_nodes;
-  if (!ResolveMatrixNodes(survey.classification, config.matrices, &matrix_nodes, &error)) {
-    return fail(kExitInvalidInput, error);
-  }
-  if (config.matrices.empty() && survey.num_regions() > config.matrices_up_to_regions) {
-    matrix_nodes.clear();  // the root's bilaterals are still kept (plausibility, report)
+  ComputePlan plan;
+  if (!PlanCompute(config, survey, &plan, &error)) return fail(kExitInvalidInput, error);
+  const std::vector<int>& matrix_nodes = plan.matrix_nodes;
+  if (plan.matrices_left_out) {
     summary->matrices_left_out = true;
     summary->matrices_up_to_regions = config.matrices_up_to_regions;
   }
@@ -476,10 +500,7 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary,
     if (!nearest.empty()) message += "; did you mean '" + nearest + "'?";
     return fail(kExitInvalidInput, message);
   }
-  ComputeOptions options = ComputeOptions::FromConfig(config);
-  options.keep_bilaterals = matrix_nodes;
-  // Beyond matrices_up_to_regions the root's spreads come by row blocks.
-  options.keep_root_bilaterals = !summary->matrices_left_out;
+  ComputeOptions& options = plan.options;
   options.keep_pair_spreads = config.report;
   if (!ComputeParities(survey, options, &summary->result, &summary->compute)) {
     const int code = summary->compute.outcome == ComputeOutcome::kComputationFailed ? kExitComputationFailed
