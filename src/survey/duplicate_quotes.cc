@@ -6,8 +6,11 @@
 // order, is then settled with a hash table that fits the cache: linear time,
 // and the same repeats as scanning all pairs sorted by (hash, position). A
 // pair holds the quote and the low half of its hash (8 bytes, the whole
-// hash read only when two halves match); on a large survey the buckets are
-// taken in two passes, so only half of the pairs is held at once.
+// hash read only when two halves match), all of them at once: 56 MB for 7
+// million quotes (taken in two passes over the hashes, half of that, the
+// search took 0.06-0.08 s instead of 0.04-0.05 on L and 0.16-0.22 s instead
+// of 0.11 on T, for 11 MB less at T's peak; bench/HISTORY.md, "Fifteenth
+// round").
 #include <omp.h>
 
 #include <algorithm>
@@ -103,29 +106,8 @@ void MarkRepeats(const QuoteArrays& quotes, const HashedQuote* order, size_t n,
   }
 }
 
-// Splits the buckets into at most `max_passes` consecutive ranges of about
-// equal pairs (whole buckets each); returns the first bucket of each range
-// and, last, the number of buckets.
-std::vector<size_t> PassBoundaries(const std::vector<size_t>& bucket_begin, int max_passes) {
-  const size_t num_buckets = bucket_begin.size() - 1, n = bucket_begin[num_buckets];
-  std::vector<size_t> first = {0};
-  for (int p = 1; p < max_passes; ++p) {
-    const size_t target = n * p / max_passes;
-    size_t b = static_cast<size_t>(
-        std::lower_bound(bucket_begin.begin(), bucket_begin.end() - 1, target) -
-        bucket_begin.begin());
-    if (b > first.back() && b < num_buckets) first.push_back(b);
-  }
-  first.push_back(num_buckets);
-  return first;
-}
-
 // Returns the quotes that repeat an earlier one with their originals, in
-// quote order. The pairs are
-// distributed and settled in passes over ranges of buckets (each pass scans
-// all the hashes and takes the pairs of its buckets), so that only half of
-// them is held at once on a large survey: 28 MB of 8-byte pairs instead of
-// 56 for 7 million quotes.
+// quote order.
 std::vector<Repeat> FindRepeats(const QuoteArrays& quotes, int num_threads) {
   const size_t n = quotes.size();
   const UninitialisedVector<uint64_t>& hash = quotes.row_hash;
@@ -135,14 +117,12 @@ std::vector<Repeat> FindRepeats(const QuoteArrays& quotes, int num_threads) {
   const size_t num_buckets = size_t{1} << bits;
   const auto bucket_of = [bits](uint64_t h) { return bits == 0 ? 0 : h >> (64 - bits); };
   num_threads = std::max(1, std::min(num_threads, static_cast<int>(n / 65536) + 1));
-  const int max_passes = n >= (size_t{1} << 20) ? 2 : 1;
-  // counts[t][b]: pairs of thread t's quotes in bucket b, then where they go
-  // (counted from the first pair of the bucket's pass).
+  // counts[t][b]: pairs of thread t's quotes in bucket b, then where they go.
   std::vector<std::vector<size_t>> counts(num_threads, std::vector<size_t>(num_buckets, 0));
-  std::unique_ptr<HashedQuote[]> order;
+  std::unique_ptr<HashedQuote[]> order = std::make_unique_for_overwrite<HashedQuote[]>(n);
+  AdviseHugePages(order.get(), n * sizeof(HashedQuote));
   std::vector<std::vector<Repeat>> found(num_threads);
   std::vector<size_t> bucket_begin(num_buckets + 1, 0);
-  std::vector<size_t> pass_first;  // first bucket of each pass, then num_buckets
 #pragma omp parallel num_threads(num_threads)
   {
     const int t = omp_get_thread_num();
@@ -164,33 +144,17 @@ std::vector<Repeat> FindRepeats(const QuoteArrays& quotes, int num_threads) {
         }
       }
       bucket_begin[num_buckets] = at;
-      pass_first = PassBoundaries(bucket_begin, max_passes);
-      size_t largest = 0;
-      for (size_t p = 0; p + 1 < pass_first.size(); ++p) {
-        largest = std::max(largest, bucket_begin[pass_first[p + 1]] - bucket_begin[pass_first[p]]);
-      }
-      order = std::make_unique_for_overwrite<HashedQuote[]>(largest);
-      AdviseHugePages(order.get(), largest * sizeof(HashedQuote));
     }
+    for (size_t q = from; q < to; ++q) {
+      order[mine[bucket_of(hash[q])]++] = {static_cast<uint32_t>(hash[q]), static_cast<uint32_t>(q)};
+    }
+#pragma omp barrier
     // Equal hashes share a bucket, so each bucket is settled alone.
     std::vector<LatestQuote> table;
-    for (size_t p = 0; p + 1 < pass_first.size(); ++p) {
-      const size_t first = pass_first[p], last = pass_first[p + 1];
-      const size_t base = bucket_begin[first];
-      for (size_t q = from; q < to; ++q) {
-        const size_t b = bucket_of(hash[q]);
-        if (b >= first && b < last) {
-          order[mine[b]++ - base] = {static_cast<uint32_t>(hash[q]), static_cast<uint32_t>(q)};
-        }
-      }
-#pragma omp barrier
 #pragma omp for schedule(dynamic, 64)
-      for (size_t b = first; b < last; ++b) {
-        MarkRepeats(quotes, order.get() + (bucket_begin[b] - base),
-                    bucket_begin[b + 1] - bucket_begin[b], &table, &found[t]);
-      }
-      // The implicit barrier of the loop: the pass's pairs are settled
-      // before the next pass overwrites them.
+    for (size_t b = 0; b < num_buckets; ++b) {
+      MarkRepeats(quotes, order.get() + bucket_begin[b], bucket_begin[b + 1] - bucket_begin[b], &table,
+                  &found[t]);
     }
   }
   std::vector<Repeat> repeats;

@@ -284,7 +284,7 @@ TEST(PriceSources, ManyRowsGiveEachRepeatTheEarliestRowItRepeats) {
 }
 
 TEST(PriceSources, OverAMillionRowsGiveEachRepeatTheEarliestRowItRepeats) {
-  // Over 2^20 quotes: the duplicate search takes its buckets in passes.
+  // Over 2^20 quotes: 1,024 buckets, each filled from both threads' ranges.
   ExpectEachRepeatNamesTheEarliestRow(1100000, "million_duplicates");
 }
 
