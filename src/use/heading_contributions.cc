@@ -295,16 +295,14 @@ ContributionTable HeadingContributions(const Survey& survey, const ParityResult&
       }
     }
   };
-  // Basic headings, many small splits with no pairs to visit, share the
-  // threads node by node; an aggregate spreads its own regions over them.
-  std::vector<int> headings, aggregates;
-  for (int node = 0; node < num_nodes; ++node) {
-    (result.nodes[node].is_heading ? headings : aggregates).push_back(node);
-  }
-  const int num_heading_nodes = static_cast<int>(headings.size());
-#pragma omp parallel for schedule(dynamic, 4) num_threads(threads)
-  for (int k = 0; k < num_heading_nodes; ++k) split(headings[k]);
-  for (int node : aggregates) split(node);
+  // Node by node on this thread: a basic heading's split (one heading, no
+  // pairs to visit) is little more than one allocation per region, and
+  // under the process's single malloc arena (KeepFreedMemoryForReuse) two
+  // threads making them contend for its lock: on T (3,000 regions, 100
+  // headings) the stage took 0.18-0.20 s on two threads against 0.03 s on
+  // one (bench/HISTORY.md, "Fifteenth round"). An aggregate with pairs to
+  // visit spreads its own regions over the threads (AgainstAverage).
+  for (int node = 0; node < num_nodes; ++node) split(node);
   size_t total = 0;
   for (const auto& rows : rows_of) total += rows.size();
   table.rows.reserve(total);
