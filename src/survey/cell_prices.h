@@ -82,6 +82,17 @@ struct QuoteArrays {
   UninitialisedVector<uint64_t> row_hash;
 
   size_t size() const { return region.size(); }
+  // Calls f on each array above, in that order (for what is done to all
+  // of them alike: their pages' advice, where they lie).
+  template <typename F>
+  void ForEachArray(F&& f) const {
+    f(region);
+    f(item);
+    f(log_price);
+    f(representative);
+    f(weight);
+    f(row_hash);
+  }
 };
 
 // Builds the survey's cell arrays from the quotes: a stable counting sort on

@@ -197,13 +197,18 @@ struct QuoteSlice {
   // about to fill them (a page fault per 4 KiB as the rows were written cost
   // the parse a fifth of its time on the benchmark machine).
   void MapForWriting() const {
-    const auto map = [this](const auto* array) { internal::MapForWriting(array, capacity * sizeof(*array)); };
-    map(region);
-    map(item);
-    map(log_price);
-    map(representative);
-    map(weight);
-    map(row_hash);
+    ForEachArray([this](const auto* array) { internal::MapForWriting(array, capacity * sizeof(*array)); });
+  }
+
+  // Calls f on each array's pointer, in QuoteArrays' order.
+  template <typename F>
+  void ForEachArray(F&& f) const {
+    f(region);
+    f(item);
+    f(log_price);
+    f(representative);
+    f(weight);
+    f(row_hash);
   }
 };
 
@@ -1114,13 +1119,7 @@ class PriceReader {
   // idle (bench/HISTORY.md, "Fourteenth round"). Huge pages faulted in by
   // the parsing threads as they wrote had been slower ("Eleventh round").
   void AdviseQuotePages() const {
-    const QuoteArrays& quotes = state_->quotes;
-    AdviseHugePages(quotes.region);
-    AdviseHugePages(quotes.item);
-    AdviseHugePages(quotes.log_price);
-    AdviseHugePages(quotes.row_hash);
-    AdviseHugePages(quotes.representative);
-    AdviseHugePages(quotes.weight);
+    state_->quotes.ForEachArray([](const auto& array) { AdviseHugePages(array); });
   }
 
   // Whether the survey's flag and weight arrays are filled for this file's
@@ -1155,10 +1154,11 @@ class PriceReader {
   // Where each of the survey's quote arrays starts (null when empty).
   using QuotePlaces = std::array<const void*, 6>;
   QuotePlaces PlacesOfQuotes() const {
-    const QuoteArrays& quotes = state_->quotes;
-    const auto at = [](const auto& array) -> const void* { return array.empty() ? nullptr : array.data(); };
-    return {at(quotes.region),   at(quotes.item),           at(quotes.log_price),
-            at(quotes.row_hash), at(quotes.representative), at(quotes.weight)};
+    QuotePlaces places;
+    size_t k = 0;
+    state_->quotes.ForEachArray(
+        [&](const auto& array) { places[k++] = array.empty() ? nullptr : array.data(); });
+    return places;
   }
   // Whether an array that held quotes `before` holds them elsewhere `after`.
   static bool Moved(const QuotePlaces& before, const QuotePlaces& after) {
