@@ -7,6 +7,7 @@
 #define PARITAS_UNCERTAINTY_OUTLIER_FIT_H_
 
 #include <cstdint>
+#include <limits>
 #include <map>
 #include <span>
 #include <string>
@@ -70,6 +71,10 @@ struct ScreenFit {
   std::vector<int> open;
   int64_t num_quiet_by_fit = 0;
   int64_t num_quiet_leave_one_out = 0;
+  // The typical scatter of one quote around its cell's mean (outliers.cc,
+  // WithinCellSd), set by the screen's first pass for both of its passes;
+  // NaN until then.
+  double within_sd = std::numeric_limits<double>::quiet_NaN();
 };
 
 // Cells needed to estimate a heading's scale; below it the caller pools.

@@ -453,7 +453,7 @@ bool PretestApplies(const QuietTest& quiet, int num_regions_present) {
 // quotes the entries took 25 bytes for each of 10.5 million cells).
 void PrescreenQuietCells(const Survey& survey, int h, const OutlierOptions& options, ScreenFit* fit) {
   if (!fit->identified || !std::isfinite(fit->scale)) return;
-  const QuietTest quiet = MakeQuietTest(fit->scale, WithinCellSd(survey, h), options.threshold);
+  const QuietTest quiet = MakeQuietTest(fit->scale, fit->within_sd, options.threshold);
   if (!PretestApplies(quiet, NumRegionsPresent(survey, *fit))) return;
   const HeadingRange& range = survey.heading_range[h];
   for (int64_t k = 0; k < range.num_cells(); ++k) {
@@ -505,7 +505,7 @@ HeadingRows ScreenHeading(const Survey& survey, int h, const ScreenFit& fit, con
   rows.num_flagged_by_region.assign(survey.num_regions(), 0);
   const HeadingRange& range = survey.heading_range[h];
   const int num_regions_present = NumRegionsPresent(survey, fit);
-  const double within_sd = WithinCellSd(survey, h);
+  const double within_sd = fit.within_sd;
   if (fit.prescreened) {
     rows.num_by_fit = fit.num_quiet_by_fit;
     rows.num_leave_one_out = fit.num_quiet_leave_one_out;
@@ -750,6 +750,8 @@ OutlierReport FindOutliers(const Survey& survey, const ParityResult& result,
     const int h = by_size[j];
     if (survey.heading_range[h].num_cells() > 0) {
       fits[h] = FitHeading(survey, h, options, &workspaces[omp_get_thread_num()]);
+      // Once for both passes (it was formed in each: 1.6 % of T's samples).
+      if (fits[h].identified) fits[h].within_sd = WithinCellSd(survey, h);
       PrescreenQuietCells(survey, h, options, &fits[h]);
     }
   }
