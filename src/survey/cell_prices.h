@@ -82,18 +82,21 @@ struct QuoteArrays {
   UninitialisedVector<uint64_t> row_hash;
 
   size_t size() const { return region.size(); }
-  // Calls f on each array above, in that order (for what is done to all
-  // of them alike: their pages' advice, where they lie).
-  template <typename F>
-  void ForEachArray(F&& f) const {
-    f(region);
-    f(item);
-    f(log_price);
-    f(representative);
-    f(weight);
-    f(row_hash);
-  }
 };
+
+// Calls f on each of the six quote arrays of `quotes` (QuoteArrays, or any
+// struct with members of those names, such as the reader's slices of them),
+// in QuoteArrays' order: for what is done to all of them alike (their pages'
+// advice and mapping, where they lie).
+template <typename Quotes, typename F>
+void ForEachQuoteArray(Quotes& quotes, F&& f) {
+  f(quotes.region);
+  f(quotes.item);
+  f(quotes.log_price);
+  f(quotes.representative);
+  f(quotes.weight);
+  f(quotes.row_hash);
+}
 
 // Builds the survey's cell arrays from the quotes: a stable counting sort on
 // the cell key (item, region) puts the quotes of each cell together in file

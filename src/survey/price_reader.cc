@@ -197,18 +197,9 @@ struct QuoteSlice {
   // about to fill them (a page fault per 4 KiB as the rows were written cost
   // the parse a fifth of its time on the benchmark machine).
   void MapForWriting() const {
-    ForEachArray([this](const auto* array) { internal::MapForWriting(array, capacity * sizeof(*array)); });
-  }
-
-  // Calls f on each array's pointer, in QuoteArrays' order.
-  template <typename F>
-  void ForEachArray(F&& f) const {
-    f(region);
-    f(item);
-    f(log_price);
-    f(representative);
-    f(weight);
-    f(row_hash);
+    ForEachQuoteArray(*this, [this](const auto* array) {
+      internal::MapForWriting(array, capacity * sizeof(*array));
+    });
   }
 };
 
@@ -1119,7 +1110,7 @@ class PriceReader {
   // idle (bench/HISTORY.md, "Fourteenth round"). Huge pages faulted in by
   // the parsing threads as they wrote had been slower ("Eleventh round").
   void AdviseQuotePages() const {
-    state_->quotes.ForEachArray([](const auto& array) { AdviseHugePages(array); });
+    ForEachQuoteArray(state_->quotes, [](const auto& array) { AdviseHugePages(array); });
   }
 
   // Whether the survey's flag and weight arrays are filled for this file's
@@ -1156,8 +1147,8 @@ class PriceReader {
   QuotePlaces PlacesOfQuotes() const {
     QuotePlaces places;
     size_t k = 0;
-    state_->quotes.ForEachArray(
-        [&](const auto& array) { places[k++] = array.empty() ? nullptr : array.data(); });
+    ForEachQuoteArray(std::as_const(state_->quotes),
+                      [&](const auto& array) { places[k++] = array.empty() ? nullptr : array.data(); });
     return places;
   }
   // Whether an array that held quotes `before` holds them elsewhere `after`.
