@@ -7,10 +7,10 @@
 // and the same repeats as scanning all pairs sorted by (hash, position). A
 // pair holds the quote and the low half of its hash (8 bytes, the whole
 // hash read only when two halves match), all of them at once: 56 MB for 7
-// million quotes (taken in two passes over the hashes, half of that, the
-// search took 0.06-0.08 s instead of 0.04-0.05 on L and 0.16-0.22 s instead
-// of 0.11 on T, for 11 MB less at T's peak; bench/HISTORY.md, "Fifteenth
-// round").
+// million quotes. Two passes over the hashes, each keeping half of the
+// buckets' pairs, held half of that, but the search then took 0.06-0.08 s
+// instead of 0.04-0.05 on L and 0.16-0.22 s instead of 0.11 on T, for 11 MB
+// less at T's peak (bench/HISTORY.md, "Fifteenth round").
 #include <omp.h>
 
 #include <algorithm>
