@@ -16,7 +16,7 @@
 //    or: outlier_screen_bench --kernels [m=50] [n=1000] [repeats=2000]
 // The third form times the screen's two dense products alone at its shape
 // (m items, n regions): the rank update S -= X X' (X m x n) and G C (m x m
-// times m x n), Eigen's against the AVX2 + FMA kernels, in GFLOP/s
+// times m x n), Eigen's, the AVX2 + FMA and the AVX-512 kernels, in GFLOP/s
 // (counting m (m + 1) n and 2 m^2 n).
 #include <chrono>
 #include <cmath>
@@ -298,27 +298,35 @@ double GigaflopsPerSecond(int repeats, double flop, Product product) {
 }
 
 int TimeKernels(int m, int n, int repeats) {
+  namespace pi = paritas::internal;
   Eigen::MatrixXd x = Eigen::MatrixXd::Random(m, n), g = Eigen::MatrixXd::Random(m, m);
   Eigen::MatrixXd s = Eigen::MatrixXd::Zero(m, m), gc(m, n);
   const double gram_flop = static_cast<double>(m) * (m + 1) * n, product_flop = 2.0 * m * m * n;
-  const bool vector = paritas::internal::CpuHasAvx2Fma();
-  std::printf("m = %d, n = %d, %d repeats; GFLOP/s, Eigen (as built) against AVX2 + FMA\n", m, n, repeats);
-  for (int round = 0; round < 2; ++round) {  // A B A B
+  struct Path {
+    const char* name;
+    bool here;
+    decltype(&pi::SubtractGramLowerAvx2Fma) gram;
+    decltype(&pi::MultiplyAvx2Fma) product;
+  };
+  const Path paths[] = {{"AVX2 + FMA", pi::CpuHasAvx2Fma(), pi::SubtractGramLowerAvx2Fma, pi::MultiplyAvx2Fma},
+                        {"AVX-512", pi::CpuHasAvx512(), pi::SubtractGramLowerAvx512, pi::MultiplyAvx512}};
+  std::printf("m = %d, n = %d, %d repeats; GFLOP/s, Eigen (as built), AVX2 + FMA, AVX-512 (0: not on this CPU)\n", m,
+              n, repeats);
+  for (int round = 0; round < 2; ++round) {  // A B C A B C
     const double eigen_gram = GigaflopsPerSecond(repeats, gram_flop, [&] {
       s.selfadjointView<Eigen::Lower>().rankUpdate(x, -1.0);
     });
     const double eigen_product = GigaflopsPerSecond(repeats, product_flop, [&] { gc.noalias() = g * x; });
-    double ours_gram = 0.0, ours_product = 0.0;
-    if (vector) {
-      ours_gram = GigaflopsPerSecond(repeats, gram_flop, [&] {
-        paritas::internal::SubtractGramLowerAvx2Fma(m, n, x.data(), m, s.data(), m);
-      });
-      ours_product = GigaflopsPerSecond(repeats, product_flop, [&] {
-        paritas::internal::MultiplyAvx2Fma(m, n, m, g.data(), m, x.data(), m, gc.data(), m);
+    double gram[2] = {0.0, 0.0}, product[2] = {0.0, 0.0};
+    for (int p = 0; p < 2; ++p) {
+      if (!paths[p].here) continue;
+      gram[p] = GigaflopsPerSecond(repeats, gram_flop, [&] { paths[p].gram(m, n, x.data(), m, s.data(), m); });
+      product[p] = GigaflopsPerSecond(repeats, product_flop, [&] {
+        paths[p].product(m, n, m, g.data(), m, x.data(), m, gc.data(), m);
       });
     }
-    std::printf("round %d: S -= X X' %.1f -> %.1f; G C %.1f -> %.1f%s\n", round + 1, eigen_gram, ours_gram,
-                eigen_product, ours_product, vector ? "" : " (no AVX2 + FMA here)");
+    std::printf("round %d: S -= X X' %.1f, %.1f, %.1f; G C %.1f, %.1f, %.1f\n", round + 1, eigen_gram, gram[0],
+                gram[1], eigen_product, product[0], product[1]);
   }
   std::printf("(checksum %g)\n", s.sum() + gc.sum());
   return 0;

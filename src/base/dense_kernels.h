@@ -2,8 +2,8 @@
 // time, and portable ones with the same bits.
 // The kernels take plain pointers and leading dimensions (column-major, as
 // Eigen stores a MatrixXd) and instantiate no shared template, so the one
-// translation unit that holds AVX2 code (dense_kernels.cc) cannot hand the
-// linker an AVX2 copy of an inline function the rest of the program uses.
+// translation unit that holds vector code (dense_kernels.cc) cannot hand the
+// linker an AVX2 or AVX-512 copy of an inline function the rest of the program uses.
 // The Eigen-facing wrappers are in dense_products.h.
 #ifndef PARITAS_INTERNAL_BASE_DENSE_KERNELS_H_
 #define PARITAS_INTERNAL_BASE_DENSE_KERNELS_H_
@@ -12,7 +12,7 @@
 
 namespace paritas::internal {
 
-// Which code the dense products run. Both give the same bits: each entry a
+// Which code the dense products run. The fused ones give the same bits: each entry a
 // sum over k in order, one fused (correctly rounded) multiply-add per term,
 // so no machine parameter, tiling or thread count enters.
 enum class DenseKernels {
@@ -21,6 +21,10 @@ enum class DenseKernels {
   kPortable,
   // The AVX2 + FMA kernels below.
   kAvx2Fma,
+  // The AVX-512 kernels below (the same tiles on vectors of 8 doubles: about
+  // twice the AVX2 kernels' speed where the CPU executes 512-bit
+  // instructions at full width).
+  kAvx512,
   // Eigen's products (SSE2 on x86-64, with the block sizes FixEigenBlockSizes
   // sets), not fused: for an x86-64 CPU without AVX2 + FMA, where the
   // portable kernels' std::fma is a call into the C library (emulated in
@@ -29,15 +33,18 @@ enum class DenseKernels {
   kUnfused,
 };
 
-// Environment variable that, set to anything but "", "0" or "unfused",
-// makes the products take the portable path on any CPU (to check that both
-// fused paths agree, or to time the path of a CPU without AVX2 + FMA);
-// "unfused" makes them take kUnfused (to reproduce a run of a CPU without
-// FMA, or to time it).
+// Environment variable that, set to anything but "", "0", "unfused" or
+// "avx2-fma", makes the products take the portable path on any CPU (to check
+// that the fused paths agree, or to time the path of a CPU without AVX2 +
+// FMA); "unfused" makes them take kUnfused (to reproduce a run of a CPU
+// without FMA, or to time it); "avx2-fma" makes a CPU with AVX-512 take the
+// AVX2 + FMA kernels (to check them against the AVX-512 ones, or to time
+// them).
 inline constexpr char kPortableKernelsVariable[] = "PARITAS_PORTABLE_KERNELS";
 
 // Returns the kernels this process uses: the one kPortableKernelsVariable
-// names when set; otherwise kAvx2Fma when the CPU has AVX2 and FMA,
+// names when set; otherwise kAvx512 when the CPU has AVX-512 (AVX512F),
+// kAvx2Fma when it has AVX2 and FMA,
 // kPortable where std::fma is compiled to one instruction (64-bit ARM),
 // kUnfused elsewhere (an x86-64 CPU without AVX2 + FMA, where each std::fma
 // would be a call into the C library: 6 times slower with the CPU's FMA,
@@ -46,11 +53,14 @@ inline constexpr char kPortableKernelsVariable[] = "PARITAS_PORTABLE_KERNELS";
 // threads.
 DenseKernels ActiveDenseKernels();
 
-// "portable", "avx2-fma" or "unfused" (as run.json records it).
+// "portable", "avx2-fma", "avx512" or "unfused" (as run.json records it).
 const char* ToString(DenseKernels kernels);
 
 // Whether this CPU can run the kAvx2Fma kernels (whatever the variable says).
 bool CpuHasAvx2Fma();
+// Whether this CPU can run the kAvx512 kernels (AVX512F, with the OS saving
+// its registers; whatever the variable says).
+bool CpuHasAvx512();
 // Whether the compiler makes each std::fma one instruction of the CPU
 // (__FP_FAST_FMA: 64-bit ARM; not x86-64 builds for every CPU).
 bool StdFmaIsOneInstruction();
@@ -58,13 +68,15 @@ bool StdFmaIsOneInstruction();
 // The kernels. Matrices are column-major: entry (i, j) of x is
 // x[i + j * ld_x]. Each sum over k below is formed as acc = 0, then
 // acc = fma(x_ik, y_kj, acc) for k = 0, 1, ... in order (one rounding per
-// term), whatever the shape; the *Avx2Fma and *Portable versions of a kernel
-// give the same bits. Call the *Avx2Fma ones only when CpuHasAvx2Fma().
+// term), whatever the shape; the *Avx512, *Avx2Fma and *Portable versions of
+// a kernel give the same bits. Call the *Avx2Fma ones only when
+// CpuHasAvx2Fma(), the *Avx512 ones only when CpuHasAvx512().
 
 // Subtracts x x' from the lower triangle of s (m x m): s(i, j) -= sum_k
 // x(i, k) x(j, k) for i >= j; x is m x n. The strict upper triangle of s is
 // not touched. n may be 0 (s unchanged). x and s must not overlap.
 void SubtractGramLowerAvx2Fma(int m, int n, const double* x, int64_t ld_x, double* s, int64_t ld_s);
+void SubtractGramLowerAvx512(int m, int n, const double* x, int64_t ld_x, double* s, int64_t ld_s);
 void SubtractGramLowerPortable(int m, int n, const double* x, int64_t ld_x, double* s,
                                int64_t ld_s);
 
@@ -72,6 +84,8 @@ void SubtractGramLowerPortable(int m, int n, const double* x, int64_t ld_x, doub
 // b). k may be 0 (out = 0).
 void MultiplyAvx2Fma(int m, int n, int k, const double* a, int64_t ld_a, const double* b,
                      int64_t ld_b, double* out, int64_t ld_out);
+void MultiplyAvx512(int m, int n, int k, const double* a, int64_t ld_a, const double* b,
+                    int64_t ld_b, double* out, int64_t ld_out);
 void MultiplyPortable(int m, int n, int k, const double* a, int64_t ld_a, const double* b,
                       int64_t ld_b, double* out, int64_t ld_out);
 
@@ -80,6 +94,8 @@ void MultiplyPortable(int m, int n, int k, const double* a, int64_t ld_a, const 
 // be 0 (out = 0).
 void MultiplyTransposedAvx2Fma(int m, int n, int k, const double* a, int64_t ld_a,
                                const double* b, int64_t ld_b, double* out, int64_t ld_out);
+void MultiplyTransposedAvx512(int m, int n, int k, const double* a, int64_t ld_a,
+                              const double* b, int64_t ld_b, double* out, int64_t ld_out);
 void MultiplyTransposedPortable(int m, int n, int k, const double* a, int64_t ld_a,
                                 const double* b, int64_t ld_b, double* out, int64_t ld_out);
 

@@ -1,9 +1,9 @@
 // The dense products of the outlier screen, the CPD and the aggregation's
-// all-pairs sums, on Eigen matrices: each runs the AVX2 + FMA kernel of
-// dense_kernels.h when ActiveDenseKernels() says so and the portable kernel
-// otherwise, which give the same bits (every entry one in-order chain of
+// all-pairs sums, on Eigen matrices: each runs the AVX-512 or AVX2 + FMA
+// kernel of dense_kernels.h when ActiveDenseKernels() says so and the
+// portable kernel otherwise, which give the same bits (every entry one in-order chain of
 // fused multiply-adds); on a CPU without FMA, Eigen's own product (kUnfused). Compiled with the project's flags like their callers
-// (no AVX2 code here).
+// (no vector code here).
 #ifndef PARITAS_INTERNAL_BASE_DENSE_PRODUCTS_H_
 #define PARITAS_INTERNAL_BASE_DENSE_PRODUCTS_H_
 
@@ -17,6 +17,30 @@
 namespace paritas::internal {
 
 using ConstMatrixRef = Eigen::Ref<const Eigen::MatrixXd>;
+
+// The fused kernels of one path (dense_kernels.h), all with the same bits.
+struct FusedKernels {
+  decltype(&MultiplyPortable) multiply;
+  decltype(&MultiplyTransposedPortable) multiply_transposed;
+  decltype(&SubtractGramLowerPortable) subtract_gram_lower;
+};
+
+// The fused kernels ActiveDenseKernels() names (the portable ones for
+// kPortable; never asked for under kUnfused).
+inline const FusedKernels& ActiveFusedKernels() {
+  static const FusedKernels avx512{MultiplyAvx512, MultiplyTransposedAvx512, SubtractGramLowerAvx512};
+  static const FusedKernels avx2{MultiplyAvx2Fma, MultiplyTransposedAvx2Fma, SubtractGramLowerAvx2Fma};
+  static const FusedKernels portable{MultiplyPortable, MultiplyTransposedPortable,
+                                     SubtractGramLowerPortable};
+  switch (ActiveDenseKernels()) {
+    case DenseKernels::kAvx512:
+      return avx512;
+    case DenseKernels::kAvx2Fma:
+      return avx2;
+    default:
+      return portable;
+  }
+}
 
 // Runs run(j0, cols) over blocks of the n output columns: on OpenMP's
 // threads when the product has at least 2^24 terms and the caller is not in
@@ -47,10 +71,8 @@ inline void SubtractGramLower(const ConstMatrixRef& x, Eigen::MatrixXd* s) {
   const int m = static_cast<int>(x.rows()), n = static_cast<int>(x.cols());
   if (ActiveDenseKernels() == DenseKernels::kUnfused) {
     s->selfadjointView<Eigen::Lower>().rankUpdate(x, -1.0);
-  } else if (ActiveDenseKernels() == DenseKernels::kAvx2Fma) {
-    SubtractGramLowerAvx2Fma(m, n, x.data(), x.outerStride(), s->data(), s->rows());
   } else {
-    SubtractGramLowerPortable(m, n, x.data(), x.outerStride(), s->data(), s->rows());
+    ActiveFusedKernels().subtract_gram_lower(m, n, x.data(), x.outerStride(), s->data(), s->rows());
   }
 }
 
@@ -62,14 +84,13 @@ inline void SetProduct(const ConstMatrixRef& a, const ConstMatrixRef& b, Eigen::
     return;
   }
   out->resize(a.rows(), b.cols());
-  const bool avx2 = ActiveDenseKernels() == DenseKernels::kAvx2Fma;
+  const auto multiply = ActiveFusedKernels().multiply;
   const int m = static_cast<int>(a.rows()), k = static_cast<int>(a.cols());
   InColumnBlocks(m, b.cols(), k, [&](Eigen::Index j0, Eigen::Index cols) {
     const double* b_block = b.data() + j0 * b.outerStride();
     double* out_block = out->data() + j0 * out->rows();
-    (avx2 ? MultiplyAvx2Fma : MultiplyPortable)(m, static_cast<int>(cols), k, a.data(),
-                                                a.outerStride(), b_block, b.outerStride(),
-                                                out_block, out->rows());
+    multiply(m, static_cast<int>(cols), k, a.data(), a.outerStride(), b_block, b.outerStride(),
+             out_block, out->rows());
   });
 }
 
@@ -83,14 +104,13 @@ inline void SetProductTransposed(const ConstMatrixRef& a, const ConstMatrixRef& 
     out.noalias() = a * b.transpose();
     return;
   }
-  const bool avx2 = ActiveDenseKernels() == DenseKernels::kAvx2Fma;
+  const auto multiply_transposed = ActiveFusedKernels().multiply_transposed;
   const int m = static_cast<int>(a.rows()), k = static_cast<int>(a.cols());
   InColumnBlocks(m, b.rows(), k, [&](Eigen::Index j0, Eigen::Index cols) {
     const double* b_block = b.data() + j0;  // rows j0 .. of b
     double* out_block = out.data() + j0 * out.outerStride();
-    (avx2 ? MultiplyTransposedAvx2Fma : MultiplyTransposedPortable)(
-        m, static_cast<int>(cols), k, a.data(), a.outerStride(), b_block, b.outerStride(),
-        out_block, out.outerStride());
+    multiply_transposed(m, static_cast<int>(cols), k, a.data(), a.outerStride(), b_block,
+                        b.outerStride(), out_block, out.outerStride());
   });
 }
 

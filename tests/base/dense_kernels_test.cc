@@ -1,4 +1,4 @@
-// The dense kernels, AVX2 + FMA and portable, against the order of
+// The dense kernels, AVX-512, AVX2 + FMA and portable, against the order of
 // operations their header promises (an in-order chain of fused
 // multiply-adds per entry), against each other bit for bit and against
 // Eigen's products, on shapes that are and are not multiples of the tiles,
@@ -11,7 +11,9 @@
 #include <Eigen/Core>
 #include <cmath>
 #include <cstdint>
+#include <ostream>
 #include <random>
+#include <string>
 #include <vector>
 
 #include "base/dense_products.h"
@@ -24,12 +26,13 @@ struct Shape {
   int cols;
 };
 
-// Row counts around the vector width (4) and the tile height (12), column
-// counts around the tile width (4), and 0.
+// Row counts around the vector widths (4, 8) and the tile heights (12, 24),
+// column counts around the tile width (4), and 0.
 const std::vector<Shape>& Shapes() {
   static const std::vector<Shape> shapes = {
       {1, 0},   {1, 1},   {1, 7},  {2, 3},  {3, 4},  {4, 5},  {5, 1},    {7, 9},     {8, 0},
-      {11, 13}, {12, 12}, {13, 4}, {17, 6}, {24, 3}, {25, 8}, {50, 999}, {49, 1000}, {64, 31}};
+      {9, 2},   {11, 13}, {12, 12}, {13, 4}, {16, 5},   {17, 6},    {23, 7},
+      {24, 3},  {25, 8},  {33, 5}, {50, 999}, {49, 1000}, {64, 31}};
   return shapes;
 }
 
@@ -52,21 +55,42 @@ double FusedDot(int depth, const double* x, int64_t x_step, const double* y, int
   return acc;
 }
 
-class DenseKernelsTest : public ::testing::Test {
+// One instruction set's vector kernels.
+struct VectorKernels {
+  const char* name;
+  bool (*here)();  // whether this CPU runs them
+  decltype(&MultiplyAvx2Fma) multiply;
+  decltype(&MultiplyTransposedAvx2Fma) multiply_transposed;
+  decltype(&SubtractGramLowerAvx2Fma) subtract_gram_lower;
+};
+
+// Names the set in the test's listing (instead of the struct's bytes).
+void PrintTo(const VectorKernels& set, std::ostream* out) { *out << set.name; }
+
+// The tests below run once per instruction set, skipped on a CPU without it.
+class DenseKernelsTest : public ::testing::TestWithParam<VectorKernels> {
  protected:
   void SetUp() override {
-    if (!CpuHasAvx2Fma()) GTEST_SKIP() << "this CPU has no AVX2 and FMA";
+    if (!GetParam().here()) GTEST_SKIP() << "this CPU has no " << GetParam().name;
   }
 };
 
-TEST_F(DenseKernelsTest, GramUpdateFollowsTheFusedOrderAndLeavesTheUpperTriangle) {
+INSTANTIATE_TEST_SUITE_P(
+    VectorSets, DenseKernelsTest,
+    ::testing::Values(VectorKernels{"Avx2Fma", CpuHasAvx2Fma, MultiplyAvx2Fma, MultiplyTransposedAvx2Fma,
+                                    SubtractGramLowerAvx2Fma},
+                      VectorKernels{"Avx512", CpuHasAvx512, MultiplyAvx512, MultiplyTransposedAvx512,
+                                    SubtractGramLowerAvx512}),
+    [](const ::testing::TestParamInfo<VectorKernels>& set) { return std::string(set.param.name); });
+
+TEST_P(DenseKernelsTest, GramUpdateFollowsTheFusedOrderAndLeavesTheUpperTriangle) {
   std::mt19937_64 random(11);
   for (const Shape& shape : Shapes()) {
     const int m = shape.rows, n = shape.cols;
     const Eigen::MatrixXd x = Random(m, n, false, &random);
     const Eigen::MatrixXd before = Random(m, m, false, &random);
     Eigen::MatrixXd s = before;
-    SubtractGramLowerAvx2Fma(m, n, x.data(), m, s.data(), m);
+    GetParam().subtract_gram_lower(m, n, x.data(), m, s.data(), m);
     for (int j = 0; j < m; ++j) {
       for (int i = 0; i < m; ++i) {
         const double expected = i >= j && n > 0
@@ -97,7 +121,7 @@ TEST_F(DenseKernelsTest, GramUpdateFollowsTheFusedOrderAndLeavesTheUpperTriangle
   return ::testing::AssertionSuccess();
 }
 
-TEST_F(DenseKernelsTest, GramUpdateAgreesWithEigenToRoundingAndExactlyOnWholeNumbers) {
+TEST_P(DenseKernelsTest, GramUpdateAgreesWithEigenToRoundingAndExactlyOnWholeNumbers) {
   std::mt19937_64 random(12);
   for (const bool whole : {false, true}) {
     for (const Shape& shape : Shapes()) {
@@ -106,7 +130,7 @@ TEST_F(DenseKernelsTest, GramUpdateAgreesWithEigenToRoundingAndExactlyOnWholeNum
       const Eigen::MatrixXd before = Random(m, m, whole, &random);
       Eigen::MatrixXd eigen = before, ours = before;
       eigen.selfadjointView<Eigen::Lower>().rankUpdate(x, -1.0);
-      SubtractGramLowerAvx2Fma(m, n, x.data(), m, ours.data(), m);
+      GetParam().subtract_gram_lower(m, n, x.data(), m, ours.data(), m);
       // Error bound of a sum: relative to the sum of the terms' magnitudes.
       const Eigen::MatrixXd magnitude = before.cwiseAbs() + x.cwiseAbs() * x.cwiseAbs().transpose();
       ASSERT_TRUE(AgreesWithEigen(ours, eigen, magnitude, whole, /*lower_only=*/true)) << m << " x " << n;
@@ -114,7 +138,7 @@ TEST_F(DenseKernelsTest, GramUpdateAgreesWithEigenToRoundingAndExactlyOnWholeNum
   }
 }
 
-TEST_F(DenseKernelsTest, ProductFollowsTheFusedOrder) {
+TEST_P(DenseKernelsTest, ProductFollowsTheFusedOrder) {
   std::mt19937_64 random(13);
   for (const Shape& shape : Shapes()) {
     // 600: sums over three blocks of steps, the last one short.
@@ -124,7 +148,7 @@ TEST_F(DenseKernelsTest, ProductFollowsTheFusedOrder) {
       const Eigen::MatrixXd b = Random(depth, n, false, &random);
       Eigen::MatrixXd out =
           Eigen::MatrixXd::Constant(m, n, 7.0);  // every entry must be overwritten
-      MultiplyAvx2Fma(m, n, depth, a.data(), m, b.data(), depth, out.data(), m);
+      GetParam().multiply(m, n, depth, a.data(), m, b.data(), depth, out.data(), m);
       for (int j = 0; j < n; ++j) {
         for (int i = 0; i < m; ++i) {
           const double expected =
@@ -137,7 +161,7 @@ TEST_F(DenseKernelsTest, ProductFollowsTheFusedOrder) {
   }
 }
 
-TEST_F(DenseKernelsTest, ProductAgreesWithEigenToRoundingAndExactlyOnWholeNumbers) {
+TEST_P(DenseKernelsTest, ProductAgreesWithEigenToRoundingAndExactlyOnWholeNumbers) {
   std::mt19937_64 random(14);
   for (const bool whole : {false, true}) {
     for (const Shape& shape : Shapes()) {
@@ -146,20 +170,20 @@ TEST_F(DenseKernelsTest, ProductAgreesWithEigenToRoundingAndExactlyOnWholeNumber
       const Eigen::MatrixXd b = Random(depth, n, whole, &random);
       const Eigen::MatrixXd eigen = a * b;
       Eigen::MatrixXd ours(m, n);
-      MultiplyAvx2Fma(m, n, depth, a.data(), m, b.data(), depth, ours.data(), m);
+      GetParam().multiply(m, n, depth, a.data(), m, b.data(), depth, ours.data(), m);
       const Eigen::MatrixXd magnitude = a.cwiseAbs() * b.cwiseAbs();
       ASSERT_TRUE(AgreesWithEigen(ours, eigen, magnitude, whole, /*lower_only=*/false)) << m << " x " << n;
     }
   }
 }
 
-TEST_F(DenseKernelsTest, ProductReadsAndWritesThroughLeadingDimensions) {
+TEST_P(DenseKernelsTest, ProductReadsAndWritesThroughLeadingDimensions) {
   // Blocks of larger matrices: entries outside the blocks must not be read
   // into the result nor written.
   std::mt19937_64 random(15);
   const Eigen::MatrixXd a = Random(9, 6, false, &random), b = Random(8, 7, false, &random);
   Eigen::MatrixXd out = Eigen::MatrixXd::Constant(10, 9, 5.0);
-  MultiplyAvx2Fma(7, 5, 6, &a(1, 0), 9, &b(2, 1), 8, &out(2, 3), 10);
+  GetParam().multiply(7, 5, 6, &a(1, 0), 9, &b(2, 1), 8, &out(2, 3), 10);
   const Eigen::MatrixXd expected = a.block(1, 0, 7, 6) * b.block(2, 1, 6, 5);
   for (int j = 0; j < 9; ++j) {
     for (int i = 0; i < 10; ++i) {
@@ -173,14 +197,14 @@ TEST_F(DenseKernelsTest, ProductReadsAndWritesThroughLeadingDimensions) {
   }
 }
 
-TEST_F(DenseKernelsTest, RankUpdateReadsAndWritesThroughLeadingDimensions) {
+TEST_P(DenseKernelsTest, RankUpdateReadsAndWritesThroughLeadingDimensions) {
   // A 13 x 7 block of a larger x updates a 13 x 13 block of a larger s:
   // nothing outside the block's lower triangle may change, and the block's
   // entries must come from the block of x alone.
   std::mt19937_64 random(16);
   const Eigen::MatrixXd x = Random(20, 9, false, &random);
   Eigen::MatrixXd s = Eigen::MatrixXd::Constant(19, 19, 5.0);
-  SubtractGramLowerAvx2Fma(13, 7, &x(2, 1), 20, &s(3, 4), 19);
+  GetParam().subtract_gram_lower(13, 7, &x(2, 1), 20, &s(3, 4), 19);
   const Eigen::MatrixXd block = x.block(2, 1, 13, 7);
   const Eigen::MatrixXd expected = Eigen::MatrixXd::Constant(13, 13, 5.0) - block * block.transpose();
   for (int j = 0; j < 19; ++j) {
@@ -233,7 +257,7 @@ TEST(DenseKernels, PortableKernelsFollowTheFusedOrder) {
   }
 }
 
-TEST_F(DenseKernelsTest, TransposedProductFollowsTheFusedOrder) {
+TEST_P(DenseKernelsTest, TransposedProductFollowsTheFusedOrder) {
   std::mt19937_64 random(18);
   for (const Shape& shape : Shapes()) {
     for (const int depth : {0, 1, 5, 100, 600}) {
@@ -241,7 +265,7 @@ TEST_F(DenseKernelsTest, TransposedProductFollowsTheFusedOrder) {
       const Eigen::MatrixXd a = Random(m, depth, false, &random);
       const Eigen::MatrixXd b = Random(n, depth, false, &random);
       Eigen::MatrixXd out = Eigen::MatrixXd::Constant(m, n, 7.0);
-      MultiplyTransposedAvx2Fma(m, n, depth, a.data(), m, b.data(), n, out.data(), m);
+      GetParam().multiply_transposed(m, n, depth, a.data(), m, b.data(), n, out.data(), m);
       for (int j = 0; j < n; ++j) {
         for (int i = 0; i < m; ++i) {
           const double expected = depth == 0 ? 0.0 : FusedDot(depth, a.data() + i, m, b.data() + j, n);
@@ -254,7 +278,7 @@ TEST_F(DenseKernelsTest, TransposedProductFollowsTheFusedOrder) {
 
 // The vector and portable kernels on blocks of larger matrices (leading
 // dimensions beyond the rows) with awkward entries: every bit the same.
-TEST_F(DenseKernelsTest, VectorAndPortableKernelsGiveTheSameBits) {
+TEST_P(DenseKernelsTest, VectorAndPortableKernelsGiveTheSameBits) {
   std::mt19937_64 random(19);
   for (const Shape& shape : Shapes()) {
     for (const int depth : {1, 3, 13, 257}) {
@@ -264,15 +288,15 @@ TEST_F(DenseKernelsTest, VectorAndPortableKernelsGiveTheSameBits) {
       const Eigen::MatrixXd b = Awkward(depth + 1, n, &random);
       const Eigen::MatrixXd bt = Awkward(ld_b, depth, &random);
       Eigen::MatrixXd vector_out = Eigen::MatrixXd::Zero(ld_out, n), portable_out = vector_out;
-      MultiplyAvx2Fma(m, n, depth, a.data(), ld, b.data(), depth + 1, vector_out.data(), ld_out);
+      GetParam().multiply(m, n, depth, a.data(), ld, b.data(), depth + 1, vector_out.data(), ld_out);
       MultiplyPortable(m, n, depth, a.data(), ld, b.data(), depth + 1, portable_out.data(), ld_out);
       ASSERT_TRUE(vector_out == portable_out) << "a b, " << m << " x " << depth << " x " << n;
-      MultiplyTransposedAvx2Fma(m, n, depth, a.data(), ld, bt.data(), ld_b, vector_out.data(), ld_out);
+      GetParam().multiply_transposed(m, n, depth, a.data(), ld, bt.data(), ld_b, vector_out.data(), ld_out);
       MultiplyTransposedPortable(m, n, depth, a.data(), ld, bt.data(), ld_b, portable_out.data(),
                                  ld_out);
       ASSERT_TRUE(vector_out == portable_out) << "a b', " << m << " x " << depth << " x " << n;
       Eigen::MatrixXd vector_s = Awkward(ld_out, m, &random), portable_s = vector_s;
-      SubtractGramLowerAvx2Fma(m, depth, a.data(), ld, vector_s.data(), ld_out);
+      GetParam().subtract_gram_lower(m, depth, a.data(), ld, vector_s.data(), ld_out);
       SubtractGramLowerPortable(m, depth, a.data(), ld, portable_s.data(), ld_out);
       ASSERT_TRUE(vector_s == portable_s) << "s - a a', " << m << " x " << depth;
     }
@@ -304,6 +328,7 @@ TEST(DenseProducts, SplitOverThreadsKeepsEveryBit) {
 TEST(DenseKernels, AreNamedAsTheRunRecordWritesThem) {
   EXPECT_STREQ(ToString(DenseKernels::kPortable), "portable");
   EXPECT_STREQ(ToString(DenseKernels::kAvx2Fma), "avx2-fma");
+  EXPECT_STREQ(ToString(DenseKernels::kAvx512), "avx512");
   EXPECT_STREQ(ToString(DenseKernels::kUnfused), "unfused");
 }
 

@@ -239,32 +239,47 @@ TEST(ComputeCommand, ASecondRunIsByteIdenticalExceptForTimings) {
   EXPECT_GE(compared, 9);
 }
 
-// The vector and portable kernels give the same bits, so with the portable
-// ones forced every file but run.json keeps its bytes (outliers.csv, the
-// parities and their standard errors and the all-pairs matrices included).
-// Without AVX2 + FMA both runs are portable and equal.
-TEST(ComputeCommand, RecordsTheDenseKernelsAndTheirVariableForcesThePortableOnes) {
-  const std::string portable = MakeTempDir("cli_demo_portable");
+// The demo run with kPortableKernelsVariable set to `value` (and
+// --matrices all, as DemoOutput's run): returns the kernels its run.json
+// records, after checking that every other file has DemoOutput()'s bytes.
+std::string DemoKernelsWhenForced(const std::string& value, const std::string& folder_name) {
+  const std::string forced = MakeTempDir(folder_name);
   std::string out, err;
-  ::setenv(internal::kPortableKernelsVariable, "1", 1);
-  const int code = RunCli("compute " + Demo() + " --output " + portable + " --matrices all", &out, &err);
+  ::setenv(internal::kPortableKernelsVariable, value.c_str(), 1);
+  const int code = RunCli("compute " + Demo() + " --output " + forced + " --matrices all", &out, &err);
   ::unsetenv(internal::kPortableKernelsVariable);
-  ASSERT_EQ(code, 0) << err;
-  const auto kernels = [](const std::string& folder) {
-    return nlohmann::json::parse(ReadTextFile(folder + "/run.json"))["tool"]["dense_kernels"].get<std::string>();
-  };
-  EXPECT_EQ(kernels(portable), "portable");
-  // The demo run inherits this process's environment, which may force the
-  // portable kernels itself.
-  EXPECT_EQ(kernels(DemoOutput()), internal::ToString(internal::ActiveDenseKernels()));
+  EXPECT_EQ(code, 0) << err;
   int compared = 0;
-  for (const auto& entry : fs::recursive_directory_iterator(portable)) {
-    const std::string relative = fs::relative(entry.path(), portable).string();
+  for (const auto& entry : fs::recursive_directory_iterator(forced)) {
+    const std::string relative = fs::relative(entry.path(), forced).string();
     if (!entry.is_regular_file() || relative == "run.json") continue;
     EXPECT_EQ(ReadTextFile(DemoOutput() + "/" + relative), ReadTextFile(entry.path().string())) << relative;
     ++compared;
   }
   EXPECT_GE(compared, 9);
+  return nlohmann::json::parse(ReadTextFile(forced + "/run.json"))["tool"]["dense_kernels"].get<std::string>();
+}
+
+// The vector and portable kernels give the same bits, so with the portable
+// ones forced every file but run.json keeps its bytes (outliers.csv, the
+// parities and their standard errors and the all-pairs matrices included).
+// Without AVX2 + FMA both runs are portable and equal.
+TEST(ComputeCommand, RecordsTheDenseKernelsAndTheirVariableForcesThePortableOnes) {
+  EXPECT_EQ(DemoKernelsWhenForced("1", "cli_demo_portable"), "portable");
+  // The demo run inherits this process's environment, which may force the
+  // portable kernels itself.
+  EXPECT_EQ(nlohmann::json::parse(ReadTextFile(DemoOutput() + "/run.json"))["tool"]["dense_kernels"],
+            internal::ToString(internal::ActiveDenseKernels()));
+}
+
+// On a CPU with AVX-512 the variable's "avx2-fma" makes the run take the
+// AVX2 + FMA kernels, with every file but run.json the same bytes; on one
+// without AVX2 + FMA it is ignored (the CPU's own choice).
+TEST(ComputeCommand, AvxTwoKernelsForcedGiveTheSameBytesAsTheAvx512Ones) {
+  const std::string expected = internal::CpuHasAvx2Fma()
+                                   ? "avx2-fma"
+                                   : internal::ToString(internal::ActiveDenseKernels());
+  EXPECT_EQ(DemoKernelsWhenForced("avx2-fma", "cli_demo_avx2"), expected);
 }
 
 // A CPU without FMA runs Eigen's unfused products (the exact emulation of
