@@ -115,6 +115,14 @@ bool CpuHasAvx512() {
   return __builtin_cpu_supports("avx512f");
 }
 
+bool CpuPrefersAvx512() {
+  // AVX512-IFMA marks the CPUs from Intel's Ice Lake and AMD's Zen 4 on,
+  // whose 512-bit instructions do not lower the core's clock much; the
+  // Skylake-era Xeons before them (AVX512F without IFMA) slow the whole
+  // core down for them, so they keep the AVX2 kernels.
+  return CpuHasAvx512() && __builtin_cpu_supports("avx512ifma");
+}
+
 namespace {
 
 // The tile shape of both instruction sets: up to kMaxVectors vectors of rows
@@ -250,6 +258,8 @@ void MultiplyTransposedAvx2Fma(int, int, int, const double*, int64_t, const doub
 
 bool CpuHasAvx512() { return false; }
 
+bool CpuPrefersAvx512() { return false; }
+
 void SubtractGramLowerAvx512(int, int, const double*, int64_t, double*, int64_t) { std::abort(); }
 
 void MultiplyAvx512(int, int, int, const double*, int64_t, const double*, int64_t, double*,
@@ -268,12 +278,17 @@ DenseKernels ActiveDenseKernels() {
   static const DenseKernels active = [] {
     const char* forced = std::getenv(kPortableKernelsVariable);
     if (forced != nullptr && std::strcmp(forced, "unfused") == 0) return DenseKernels::kUnfused;
+    // A vector path asked for by name is taken where the CPU has it and
+    // ignored elsewhere (the CPU's own choice below).
     const bool avx2_asked = forced != nullptr && std::strcmp(forced, "avx2-fma") == 0;
+    const bool avx512_asked = forced != nullptr && std::strcmp(forced, "avx512") == 0;
     if (avx2_asked && CpuHasAvx2Fma()) return DenseKernels::kAvx2Fma;
-    if (!avx2_asked && forced != nullptr && forced[0] != '\0' && std::strcmp(forced, "0") != 0) {
+    if (avx512_asked && CpuHasAvx512()) return DenseKernels::kAvx512;
+    if (!avx2_asked && !avx512_asked && forced != nullptr && forced[0] != '\0' &&
+        std::strcmp(forced, "0") != 0) {
       return DenseKernels::kPortable;
     }
-    if (CpuHasAvx512() && !avx2_asked) return DenseKernels::kAvx512;
+    if (CpuPrefersAvx512() && !avx2_asked) return DenseKernels::kAvx512;
     if (CpuHasAvx2Fma()) return DenseKernels::kAvx2Fma;
     return StdFmaIsOneInstruction() ? DenseKernels::kPortable : DenseKernels::kUnfused;
   }();

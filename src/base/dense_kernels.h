@@ -33,17 +33,17 @@ enum class DenseKernels {
   kUnfused,
 };
 
-// Environment variable that, set to anything but "", "0", "unfused" or
-// "avx2-fma", makes the products take the portable path on any CPU (to check
-// that the fused paths agree, or to time the path of a CPU without AVX2 +
-// FMA); "unfused" makes them take kUnfused (to reproduce a run of a CPU
-// without FMA, or to time it); "avx2-fma" makes a CPU with AVX-512 take the
-// AVX2 + FMA kernels (to check them against the AVX-512 ones, or to time
-// them).
+// Environment variable that, set to anything but "", "0", "unfused",
+// "avx2-fma" or "avx512", makes the products take the portable path on any
+// CPU (to check that the fused paths agree, or to time the path of a CPU
+// without AVX2 + FMA); "unfused" makes them take kUnfused (to reproduce a
+// run of a CPU without FMA, or to time it); "avx2-fma" and "avx512" make a
+// CPU that has those instructions take those kernels (to check them against
+// each other, or to time them) and are ignored on one that has not.
 inline constexpr char kPortableKernelsVariable[] = "PARITAS_PORTABLE_KERNELS";
 
 // Returns the kernels this process uses: the one kPortableKernelsVariable
-// names when set; otherwise kAvx512 when the CPU has AVX-512 (AVX512F),
+// names when set; otherwise kAvx512 when CpuPrefersAvx512(),
 // kAvx2Fma when it has AVX2 and FMA,
 // kPortable where std::fma is compiled to one instruction (64-bit ARM),
 // kUnfused elsewhere (an x86-64 CPU without AVX2 + FMA, where each std::fma
@@ -61,6 +61,11 @@ bool CpuHasAvx2Fma();
 // Whether this CPU can run the kAvx512 kernels (AVX512F, with the OS saving
 // its registers; whatever the variable says).
 bool CpuHasAvx512();
+// Whether ActiveDenseKernels() takes them there: when the CPU also has
+// AVX512-IFMA (Intel from Ice Lake on, AMD from Zen 4 on), not on the
+// Skylake-era Xeons whose clock drops under 512-bit instructions (the bits
+// are the same either way; only the speed differs).
+bool CpuPrefersAvx512();
 // Whether the compiler makes each std::fma one instruction of the CPU
 // (__FP_FAST_FMA: 64-bit ARM; not x86-64 builds for every CPU).
 bool StdFmaIsOneInstruction();
