@@ -526,7 +526,7 @@ TEST(ScreenFit, RobustScaleIsTheSortedMedianOfTheStandardisedResiduals) {
 // workspace found (a guess that decides only the speed): whatever the guess,
 // far off, just inside or just outside the window around it on either side,
 // on odd and even counts, with the middle terms tied or apart, the scale is
-// the one sorting gives.
+// the one sorting gives, with either tally of the terms against the window.
 TEST(ScreenFit, RobustScaleDoesNotDependOnTheMedianGuessed) {
   std::mt19937_64 random(11);
   for (int n : {9, 10, 501, 502, 5001, 5002}) {
@@ -552,16 +552,20 @@ TEST(ScreenFit, RobustScaleDoesNotDependOnTheMedianGuessed) {
         }
       }
       internal::ScaleScratch scratch;
-      for (double guess : guesses) {
-        scratch.median_guess = guess;
-        int num_cells = 0;
-        EXPECT_EQ(internal::RobustScale(cells.residual, cells.weight, cells.leverage, cells.link,
-                                        &scratch, &num_cells),
-                  want)
-            << guess;
-        EXPECT_EQ(num_cells, static_cast<int>(m));
-        EXPECT_EQ(scratch.median_guess * 1.4826, want);  // the next call's guess: this median
+      for (const bool vector_tally : {true, false}) {
+        internal::EnableVectorScaleTally(vector_tally);
+        for (double guess : guesses) {
+          scratch.median_guess = guess;
+          int num_cells = 0;
+          EXPECT_EQ(internal::RobustScale(cells.residual, cells.weight, cells.leverage, cells.link,
+                                          &scratch, &num_cells),
+                    want)
+              << guess << (vector_tally ? ", vector tally" : ", scalar tally");
+          EXPECT_EQ(num_cells, static_cast<int>(m));
+          EXPECT_EQ(scratch.median_guess * 1.4826, want);  // the next call's guess: this median
+        }
       }
+      internal::EnableVectorScaleTally(true);
     }
   }
 }
@@ -571,6 +575,9 @@ TEST(ScreenFit, RobustScaleDoesNotDependOnTheMedianGuessed) {
 // the edge of the cells kept, slightly negative leverages, cells that cut
 // the heading, and guesses that put the window's edges, and the bounds its
 // squares are compared with, on a term (and one unit either side of it).
+// Both tallies: on vectors of 8 cells (where the dense products run on
+// AVX-512) and one cell at a time; 3 to 42 cells, so the vector loop's
+// last cells go one by one too.
 TEST(ScreenFit, RobustScaleDoesNotDependOnTheGuessWithNonFiniteOrEdgeTerms) {
   std::mt19937_64 random(7);
   std::uniform_real_distribution<double> uniform(0.0, 1.0);
@@ -605,14 +612,19 @@ TEST(ScreenFit, RobustScaleDoesNotDependOnTheGuessWithNonFiniteOrEdgeTerms) {
         }
       }
     }
-    for (double guess : guesses) {
-      internal::ScaleScratch scratch;
-      scratch.median_guess = guess;
-      int num_cells = 0;
-      const double got = internal::RobustScale(residual, weight, leverage, link, &scratch, &num_cells);
-      EXPECT_TRUE(got == want || (std::isnan(got) && std::isnan(want))) << trial << " " << guess << ": " << got << " " << want;
-      EXPECT_EQ(num_cells, want_cells);
+    for (const bool vector_tally : {true, false}) {
+      internal::EnableVectorScaleTally(vector_tally);
+      for (double guess : guesses) {
+        internal::ScaleScratch scratch;
+        scratch.median_guess = guess;
+        int num_cells = 0;
+        const double got = internal::RobustScale(residual, weight, leverage, link, &scratch, &num_cells);
+        EXPECT_TRUE(got == want || (std::isnan(got) && std::isnan(want)))
+            << trial << " " << guess << ": " << got << " " << want << (vector_tally ? ", vector tally" : "");
+        EXPECT_EQ(num_cells, want_cells);
+      }
     }
+    internal::EnableVectorScaleTally(true);
   }
 }
 
