@@ -224,8 +224,10 @@ struct TallyInput {
 };
 
 // TallyAgainstWindow's loop over cells [begin, num_all), adding to the
-// counts; returns the number of cells kept.
-size_t TallyCells(const TallyInput& in, int64_t begin, uint64_t* near, WindowTally* window, size_t* num_below,
+// counts; returns the number of cells kept. Never inlined: inside
+// TallyCellsAvx512 (its last cells) it would be compiled for a CPU with FMA,
+// where 1 - w q may be contracted into one fused multiply-add.
+__attribute__((noinline)) size_t TallyCells(const TallyInput& in, int64_t begin, uint64_t* near, WindowTally* window, size_t* num_below,
                   size_t* num_near) {
   size_t n = 0;
   // The tests combine as integers, so that the only branch is the rare one.
