@@ -22,8 +22,8 @@ enum class DenseKernels {
   // The AVX2 + FMA kernels below.
   kAvx2Fma,
   // The AVX-512 kernels below (the same tiles on vectors of 8 doubles: about
-  // twice the AVX2 kernels' speed where the CPU executes 512-bit
-  // instructions at full width).
+  // 1.5 times the AVX2 kernels' speed on a CPU that executes 512-bit
+  // instructions at full width, outlier_screen_bench --kernels).
   kAvx512,
   // Eigen's products (SSE2 on x86-64, with the block sizes FixEigenBlockSizes
   // sets), not fused: for an x86-64 CPU without AVX2 + FMA, where the
