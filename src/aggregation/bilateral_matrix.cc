@@ -335,9 +335,10 @@ struct SpreadBlock {
   std::vector<SpreadPairIndices> widest;
 };
 
-// Median and largest of `values` as RegionSpreads computes them (reorders
-// `values`); `partner` the first index reaching the largest.
-RegionSpread SummariseRow(std::vector<double>* values, double largest, int partner) {
+// Median (unless `median` is false: NaN) and largest of `values` as
+// RegionSpreads computes them (reorders `values`); `partner` the first index
+// reaching the largest.
+RegionSpread SummariseRow(std::vector<double>* values, double largest, int partner, bool median = true) {
   RegionSpread out;
   if (values->empty()) {
     out.median = out.max = kNaN;
@@ -345,8 +346,29 @@ RegionSpread SummariseRow(std::vector<double>* values, double largest, int partn
   }
   out.max = largest;
   out.worst_partner = partner;
-  out.median = MedianInPlace(values);
+  out.median = median ? MedianInPlace(values) : kNaN;
   return out;
+}
+
+// The same without the median, from the largest and its partner alone
+// (partner -1: no finite spread).
+RegionSpread LargestOfRow(double largest, int partner) {
+  RegionSpread out;
+  out.median = kNaN;
+  if (partner < 0) {
+    out.max = kNaN;
+    return out;
+  }
+  out.max = largest;
+  out.worst_partner = partner;
+  return out;
+}
+
+// Offers a spread of a row's partner to the row's largest as RegionSpreads
+// takes it: finite, and strictly above the largest so far or the first.
+inline void OfferLargest(double spread, int with, double* largest, int* partner) {
+  if (!std::isfinite(spread)) return;
+  if (spread > *largest || *partner < 0) *largest = spread, *partner = with;
 }
 
 // Rows [a0, a1) of the spreads: the sums of FillValueIndices for the block
@@ -408,7 +430,7 @@ void SpreadRows(const MaskedArrays& m, Eigen::Index a0, Eigen::Index a1, const S
         block->widest.pop_back();
       }
     }
-    out->regions[a] = SummariseRow(&values, largest, partner);
+    out->regions[a] = SummariseRow(&values, largest, partner, options.region_medians);
     out->check_percent[a] = worst;
     out->check_partner[a] = check_partner;
   }
@@ -644,15 +666,23 @@ struct SpreadBlockOfGeks {
   SpreadBlock pairs;
   std::vector<double> check_percent;
   std::vector<int> check_partner;
+  // Without the medians (SpreadOptions::region_medians false), for each row
+  // a >= b0: the largest vectorised spread over the partners this block
+  // meets and the first partner reaching it (OfferLargest), or 0 and -1.
+  std::vector<double> largest;
+  std::vector<int> largest_partner;
 };
 
 // Where the spreads of GeksFisherAndSpreadsByRowBlocks go: the vectorised
 // |ln(L / P)| of each pair b < c seen from b (`from_b`) and from c
-// (`from_c`), packed as Geks's d; the options; this block's other parts.
+// (`from_c`), packed as Geks's d (with the medians; else null, and each
+// row's largest goes to the block); the options; the regions taking part;
+// this block's other parts.
 struct SpreadTarget {
   double* from_b = nullptr;
   double* from_c = nullptr;
   const SpreadOptions* options = nullptr;
+  const std::vector<char>* member = nullptr;
   SpreadBlockOfGeks* block = nullptr;
 };
 
@@ -684,9 +714,24 @@ void SpreadPairsOfRow(const BlockSums& sums, Eigen::Index n, Eigen::Index b0, Ei
   }
   work->spread_b = work->ratio_b.log().abs();
   work->spread_c = work->ratio_c.log().abs();
-  const size_t row = PackedRow(n, b);
-  std::copy_n(work->spread_b.data(), len, target.from_b + row);
-  std::copy_n(work->spread_c.data(), len, target.from_c + row);
+  if (target.from_b != nullptr) {
+    const size_t row = PackedRow(n, b);
+    std::copy_n(work->spread_b.data(), len, target.from_b + row);
+    std::copy_n(work->spread_c.data(), len, target.from_c + row);
+  } else {
+    // Row b meets its partners c ascending; each c meets b after the
+    // partners of rows before b, and before its own row: the order in which
+    // SummariseSpreadRows visits them.
+    const std::vector<char>& member = *target.member;
+    double* largest = target.block->largest.data();
+    int* partner = target.block->largest_partner.data();
+    for (Eigen::Index t = 0; t < len; ++t) {
+      const Eigen::Index c = b + 1 + t;
+      if (!member[c]) continue;
+      OfferLargest(work->spread_b(t), static_cast<int>(c), &largest[i], &partner[i]);
+      OfferLargest(work->spread_c(t), static_cast<int>(b), &largest[c - b0], &partner[c - b0]);
+    }
+  }
   const SpreadOptions& options = *target.options;
   SpreadBlock& pairs = target.block->pairs;
   // The block's checks, indexed by region - b0.
@@ -870,7 +915,7 @@ SpreadSummary SummariseSpreads(const Eigen::MatrixXd& price, const Eigen::Matrix
   out.check_percent.assign(n, 0.0);
   out.check_partner.assign(n, -1);
   constexpr Eigen::Index kRows = 64;
-  const int num_tiles = static_cast<int>((n + kRows - 1) / kRows);
+  const int num_tiles = options.region_medians ? static_cast<int>((n + kRows - 1) / kRows) : 0;
 #pragma omp parallel num_threads(threads) if (num_tiles > 1)
   {
     std::vector<std::vector<double>> values(kRows);
@@ -883,6 +928,8 @@ SpreadSummary SummariseSpreads(const Eigen::MatrixXd& price, const Eigen::Matrix
   // A block's partners all come before the next block's, so taking the
   // blocks in order with "strictly above" keeps the first partner; pairs are
   // joined in block order, as AllPairsSpreads joins them.
+  std::vector<double> largest(options.region_medians ? 0 : n, 0.0);
+  std::vector<int> largest_partner(options.region_medians ? 0 : n, -1);
   for (SpreadBlockOfGeks& block : *blocks) {
     const Eigen::Index b0 = n - static_cast<Eigen::Index>(block.check_partner.size());
     for (size_t r = 0; r < block.check_partner.size(); ++r) {
@@ -890,10 +937,17 @@ SpreadSummary SummariseSpreads(const Eigen::MatrixXd& price, const Eigen::Matrix
       OfferCheck(block.check_percent[r], block.check_partner[r], &out.check_percent[b0 + r],
                  &out.check_partner[b0 + r]);
     }
+    for (size_t r = 0; r < block.largest_partner.size(); ++r) {
+      if (block.largest_partner[r] < 0) continue;
+      OfferLargest(block.largest[r], block.largest_partner[r], &largest[b0 + r], &largest_partner[b0 + r]);
+    }
     out.pair_spreads.insert(out.pair_spreads.end(), block.pairs.pair_spreads.begin(),
                             block.pairs.pair_spreads.end());
     out.widest.insert(out.widest.end(), block.pairs.widest.begin(), block.pairs.widest.end());
     block = SpreadBlockOfGeks();
+  }
+  if (!options.region_medians) {
+    for (Eigen::Index a = 0; a < n; ++a) out.regions[a] = LargestOfRow(largest[a], largest_partner[a]);
   }
   FinishWidest(price, expenditure, options, &out);
   return out;
@@ -941,13 +995,13 @@ bool GeksByRowBlocksImpl(GeksIndex index, const Eigen::MatrixXd& price,
   // The spreads seen from each side of each pair, and each block's part.
   std::unique_ptr<double[]> from_b, from_c;
   std::vector<SpreadBlockOfGeks> spread_blocks;
-  if (spread_options != nullptr) {
+  if (spread_options != nullptr && spread_options->region_medians) {
     from_b.reset(new double[triangle]);
     from_c.reset(new double[triangle]);
     internal::AdviseHugePages(from_b.get(), triangle * sizeof(double));
     internal::AdviseHugePages(from_c.get(), triangle * sizeof(double));
-    spread_blocks.resize(num_blocks);
   }
+  if (spread_options != nullptr) spread_blocks.resize(num_blocks);
   // Each block writes its own entries of the triangles; the sums below run
   // in a fixed order, so the thread count changes nothing.
 #pragma omp parallel num_threads(threads) if (num_blocks > 1)
@@ -962,7 +1016,11 @@ bool GeksByRowBlocksImpl(GeksIndex index, const Eigen::MatrixXd& price,
         SpreadBlockOfGeks& block = spread_blocks[k];
         block.check_percent.assign(n - b0, 0.0);
         block.check_partner.assign(n - b0, -1);
-        target = {from_b.get(), from_c.get(), spread_options, &block};
+        if (!spread_options->region_medians) {
+          block.largest.assign(n - b0, 0.0);
+          block.largest_partner.assign(n - b0, -1);
+        }
+        target = {from_b.get(), from_c.get(), spread_options, &member, &block};
       }
       block_linked[k] = GeksRows(in, member, b0, std::min(n, b0 + step), packed, &work,
                                  spread_options != nullptr ? &target : nullptr);

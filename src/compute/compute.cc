@@ -494,6 +494,7 @@ std::vector<AggregateParities> AggregateStage(const Survey& survey, const Comput
   const bool root_spreads = !keep[0] && !tree.nodes().front().is_leaf;
   SpreadOptions spread_options;
   spread_options.keep_pair_spreads = options.keep_pair_spreads;
+  spread_options.region_medians = options.spread_medians;
   spread_options.num_threads = threads;
   const bool spreads_with_root = root_spreads && method.Name() == "geks-fisher";
   bool spreads_done = false;

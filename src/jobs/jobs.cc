@@ -140,6 +140,7 @@ bool PlanCompute(const RunConfig& config, const Survey& survey, ComputePlan* pla
     plan->matrices_left_out = true;
   }
   plan->options = ComputeOptions::FromConfig(config);
+  plan->options.elementary.keep_cell_fitted = false;  // no file reads it
   plan->options.keep_bilaterals = plan->matrix_nodes;
   plan->options.keep_root_bilaterals = !plan->matrices_left_out;
   return true;
@@ -196,6 +197,7 @@ int RunCheck(const RunConfig& config, CheckSummary* summary) {
     ComputePlan plan;
     const bool planned = PlanCompute(config, survey, &plan, &compute_problem);
     plan.options.keep_pair_spreads = false;  // for the report, which check does not write
+    plan.options.spread_medians = false;
     const bool computed = planned && ComputeParities(survey, plan.options, &result, &compute);
     if (!computed && compute_problem.empty()) compute_problem = compute.message;
     if (computed) {
@@ -502,6 +504,7 @@ int RunCompute(const RunConfig& config, ComputeJobSummary* summary,
   }
   ComputeOptions& options = plan.options;
   options.keep_pair_spreads = config.report;
+  options.spread_medians = config.report;
   if (!ComputeParities(survey, options, &summary->result, &summary->compute)) {
     const int code = summary->compute.outcome == ComputeOutcome::kComputationFailed ? kExitComputationFailed
                                                                                     : kExitInvalidInput;

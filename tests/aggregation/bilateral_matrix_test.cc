@@ -634,6 +634,65 @@ TEST(GeksByRowBlocks, SpreadsEqualAllPairsSpreads) {
   EXPECT_EQ(spreads.check_percent, std::vector<double>{-1.0});
 }
 
+// Without the medians (SpreadOptions::region_medians false, as compute runs
+// without the report) the row blocks hold no spread past their block, yet
+// every region's largest spread and its first partner keep their bits, and
+// so do the check, the pairs and the widest; only the median is NaN. Six
+// regions priced alike make ties, so the first partner must be the one kept.
+TEST(GeksByRowBlocks, WithoutMediansTheLargestSpreadsKeepTheirBits) {
+  const int num_regions = 163;
+  Eigen::MatrixXd price, expenditure;
+  MakeIncompleteData(num_regions, 23, 20261208, &price, &expenditure);
+  price(0, 0) = 2.0, price(1, 0) = 3.0, expenditure(0, 0) = 10.0, expenditure(1, 0) = 20.0;
+  expenditure.row(7).setZero();
+  // Regions 40 to 45 alike, their prices 10,000 times dearer on the headings
+  // where they spend most and as much cheaper elsewhere: wide spreads with
+  // many regions, and six equal partners for each of those.
+  for (int h = 0; h < 23; ++h) {
+    price(40, h) = 1.0 + h;
+    expenditure(40, h) = h % 2 == 0 ? 900.0 : 10.0;
+    price(40, h) *= h % 2 == 0 ? 1e4 : 1e-4;
+  }
+  for (int copy = 41; copy <= 45; ++copy) {
+    price.row(copy) = price.row(40);
+    expenditure.row(copy) = expenditure.row(40);
+  }
+  SpreadOptions with_medians;
+  const SpreadSummary want = AllPairsSpreads(price, expenditure, with_medians);
+  int ties_to_first = 0;
+  for (int a = 0; a < num_regions; ++a) ties_to_first += want.regions[a].worst_partner == 40 ? 1 : 0;
+  ASSERT_GT(ties_to_first, 10);  // ties with 41 to 45 met and settled
+  SpreadOptions without = with_medians;
+  without.region_medians = false;
+  SpreadSummary want_lean = want;
+  for (RegionSpread& region : want_lean.regions) region.median = kNaN;
+  ExpectSameSpreads(AllPairsSpreads(price, expenditure, without), want_lean);
+  for (int block_rows : {4, 12, 128, 512}) {
+    for (int threads : {1, 2}) {
+      SCOPED_TRACE("block_rows " + std::to_string(block_rows) + ", threads " + std::to_string(threads));
+      GeksBlockOptions options;
+      options.block_rows = block_rows;
+      options.num_threads = threads;
+      GeksResult geks, geks_with_medians;
+      SpreadSummary spreads, spreads_with_medians;
+      ASSERT_TRUE(GeksFisherAndSpreadsByRowBlocks(price, expenditure, options, without, &geks, &spreads));
+      ASSERT_TRUE(GeksFisherAndSpreadsByRowBlocks(price, expenditure, options, with_medians,
+                                                  &geks_with_medians, &spreads_with_medians));
+      AggregateParities other;
+      other.log_parity = geks_with_medians.log_parity;
+      other.identified = geks_with_medians.identified;
+      other.complete = geks_with_medians.complete;
+      other.groups = geks_with_medians.groups;
+      other.rms_log_residual = geks_with_medians.rms_log_residual;
+      ExpectSameBits(geks, other);
+      ExpectSameSpreads(spreads_with_medians, want);
+      ExpectSameSpreads(spreads, want_lean);
+      EXPECT_TRUE(std::isnan(spreads.regions[7].max));
+      EXPECT_EQ(spreads.regions[7].worst_partner, -1);
+    }
+  }
+}
+
 // A node's aggregate as the GEKS result it was made from.
 GeksResult AsGeksResult(const AggregateParities& aggregate) {
   GeksResult geks;

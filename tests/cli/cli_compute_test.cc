@@ -540,5 +540,47 @@ TEST(ComputeCommand, WritesEveryMatrixWithoutHoldingThemAll) {
       << "peak " << peak_kb << " KiB against " << written << " bytes of matrices";
 }
 
+// Without the report the root's spreads are summarised without medians
+// (which only the report shows) and no cell's fitted value is kept: on a
+// survey past matrices_up_to_regions (520 regions, so the root's GEKS and
+// spreads come by row blocks), every file but run.json and report.html, and
+// the terminal's table of largest spreads, are byte for byte those of the
+// run with the report.
+TEST(ComputeCommand, WithoutTheReportAWideSurveyGivesTheSameFilesAndSpreads) {
+  const std::string dir = MakeTempDir("cli_wide_no_report");
+  synthetic::SyntheticOptions options;
+  options.num_regions = 520;
+  options.num_headings = 6;
+  options.items_per_heading = 4;
+  options.quotes_per_cell = 1;
+  options.num_groups = 3;
+  std::string error;
+  ASSERT_TRUE(synthetic::WriteSurvey(synthetic::Generate(options), dir + "/survey", &error)) << error;
+  const std::string run = "compute " + dir + "/survey/config.yaml --threads 2 --output " + dir;
+  std::string with_out, without_out, err;
+  ASSERT_EQ(RunCli(run + "/with", &with_out, &err), 0) << err;
+  ASSERT_EQ(RunCli(run + "/without --no-report", &without_out, &err), 0) << err;
+  ASSERT_TRUE(fs::exists(dir + "/with/report.html"));
+  ASSERT_FALSE(fs::exists(dir + "/with/bilateral"));  // the root's spreads came by row blocks
+  int compared = 0;
+  for (const auto& entry : fs::recursive_directory_iterator(dir + "/with")) {
+    if (!entry.is_regular_file()) continue;
+    const std::string name = fs::relative(entry.path(), dir + "/with").string();
+    if (name == "run.json" || name == "report.html") continue;
+    EXPECT_EQ(ReadTextFile(entry.path().string()), ReadTextFile(dir + "/without/" + name)) << name;
+    ++compared;
+  }
+  EXPECT_GE(compared, 4);
+  // The table from its header to the line after its last region.
+  const auto table = [](const std::string& out) {
+    const size_t begin = out.find("\nregion ");
+    if (begin == std::string::npos) return std::string();
+    return out.substr(begin, out.find("\n(P-L spread", begin) - begin);
+  };
+  ASSERT_FALSE(table(with_out).empty()) << with_out;
+  EXPECT_GT(std::count(with_out.begin(), with_out.end(), '\n'), 520);
+  EXPECT_EQ(table(without_out), table(with_out));
+}
+
 }  // namespace
 }  // namespace paritas

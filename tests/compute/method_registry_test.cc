@@ -2,7 +2,9 @@
 // every registered method is reachable by name and runs through the whole
 // chain, and that the parts which list methods (configuration messages,
 // method spread) follow the registries.
+#include <bit>
 #include <cmath>
+#include <cstdint>
 #include <set>
 #include <string>
 
@@ -20,6 +22,9 @@
 
 namespace paritas {
 namespace {
+
+// Equal bits (NaN included).
+bool SameBits(double x, double y) { return std::bit_cast<uint64_t>(x) == std::bit_cast<uint64_t>(y); }
 
 Survey SmallSurvey(const std::string& name) {
   synthetic::SyntheticOptions options;
@@ -89,6 +94,47 @@ TEST(MethodRegistry, EveryCombinationGivesEveryRegionAParityAtTheRoot) {
       EXPECT_NEAR(root.array().log().mean(), std::log(100.0), 1e-12);
     }
   }
+}
+
+// ElementaryOptions::keep_cell_fitted false (as compute and check run)
+// leaves cell_fitted empty and changes no other bit; kept, the fitted values
+// and the residuals add up to the cells' ln prices (the definition of a
+// residual, e = ln p - fitted; common practice).
+TEST(ElementaryRegistry, CellFittedIsKeptOnlyWhenAskedAndNothingElseChanges) {
+  const Survey survey = SmallSurvey("registry_fitted");
+  int num_methods_with_residuals = 0;
+  for (const ElementaryMethod* method : ElementaryMethods()) {
+    const std::string name(method->Name());
+    ComputeOptions options;
+    options.elementary.method = name;
+    ParityResult kept, left;
+    ComputeSummary summary;
+    ASSERT_TRUE(ComputeParities(survey, options, &kept, &summary)) << name;
+    options.elementary.keep_cell_fitted = false;
+    ASSERT_TRUE(ComputeParities(survey, options, &left, &summary)) << name;
+    const bool gives = method->Properties().gives_cell_residuals;
+    num_methods_with_residuals += gives ? 1 : 0;
+    ASSERT_EQ(kept.headings.size(), left.headings.size());
+    for (size_t h = 0; h < kept.headings.size(); ++h) {
+      const HeadingParities &a = kept.headings[h], &b = left.headings[h];
+      SCOPED_TRACE(name + ", heading " + std::to_string(h));
+      EXPECT_EQ(a.cell_fitted.size(), gives ? a.cell_residual.size() : 0);
+      EXPECT_EQ(b.cell_fitted.size(), 0);
+      EXPECT_TRUE(a.cell_residual == b.cell_residual);
+      for (Eigen::Index r = 0; r < a.log_parity.size(); ++r) {
+        EXPECT_TRUE(SameBits(a.log_parity[r], b.log_parity[r])) << "region " << r;
+      }
+      const HeadingRange& range = survey.heading_range[a.heading];
+      for (Eigen::Index k = 0; k < a.cell_fitted.size(); ++k) {
+        const double log_price = survey.cells.log_price[range.cell_begin + k];
+        EXPECT_NEAR(a.cell_fitted[k] + a.cell_residual[k], log_price, 1e-12);
+      }
+    }
+    for (int r = 0; r < survey.num_regions(); ++r) {
+      EXPECT_TRUE(SameBits(kept.nodes.front().parity(r), left.nodes.front().parity(r))) << name;
+    }
+  }
+  EXPECT_GE(num_methods_with_residuals, 2);  // cpd, robust-cpd, cprd
 }
 
 TEST(MethodRegistry, UnknownNamesAreRefusedWithTheRegisteredNames) {

@@ -129,7 +129,8 @@ Eigen::MatrixXd AllPairsJevonsRepresentative(const Eigen::MatrixXd& log_price,
 // and in the report).
 struct RegionSpread {
   // Median over the partners with a finite spread (mean of the two middle
-  // values of an even count); NaN when there is none.
+  // values of an even count); NaN when there is none, or when not asked
+  // for (SpreadOptions::region_medians).
   double median = 0.0;
   // Largest of them (NaN when there is none) and its partner (the first
   // region index reaching it; -1 when none).
@@ -169,6 +170,13 @@ struct SpreadOptions {
   // Keeps every pair's spread in SpreadSummary::pair_spreads (8 bytes a
   // pair: 36 MB at 3,000 regions). Default true.
   bool keep_pair_spreads = true;
+  // Forms each region's median spread (RegionSpread::median, the report's
+  // table); false leaves it NaN, and the row blocks of
+  // GeksFisherAndSpreadsByRowBlocks then hold no spread of any pair past
+  // its block (the medians need them all at once: two triangles of
+  // regions x (regions - 1) / 2 doubles, 72 MB at 3,000 regions). The
+  // largest spread and its partner are the same either way. Default true.
+  bool region_medians = true;
   // Number of widest pairs kept, >= 0. Default 12 (the report's table).
   int num_widest = 12;
   // Regions per row block, a positive multiple of 4 (a rule kept from

@@ -38,6 +38,9 @@ struct ComputeOptions {
   // With keep_root_bilaterals false: keep every pair's spread (the report's
   // cards and histogram; SpreadOptions::keep_pair_spreads). Default true.
   bool keep_pair_spreads = true;
+  // With keep_root_bilaterals false: form each region's median spread (the
+  // report's table; SpreadOptions::region_medians). Default true.
+  bool spread_medians = true;
   // Rules for regions that spend on a heading without a parity there
   // (compute/imputation.h); default: leave every one missing.
   MissingParitiesSettings missing_parities;

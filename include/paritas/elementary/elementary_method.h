@@ -40,6 +40,11 @@ struct ElementaryOptions {
   // RunConfig::robust_errors says why; see RobustErrors in cpd.h).
   bool compute_standard_errors = true;
   RobustErrors robust_errors = RobustErrors::kHc1;
+  // CPD methods: keep each cell's fitted ln price (HeadingParities::
+  // cell_fitted; 8 bytes a cell, held to the end of a run: 84 MB on 10.5
+  // million cells). No file of `compute` or `check` reads it, and those
+  // turn it off. Default true.
+  bool keep_cell_fitted = true;
 
   // False, with a message, for an unknown method or a weight that is not a
   // positive number.
@@ -68,8 +73,9 @@ struct HeadingParities {
   // True when the regions were unlinked and HeadingInput::keep_largest_group
   // asked for the largest group's parities (the others are NaN).
   bool kept_largest_group = false;
-  // CPD: fitted ln price and residual of every cell of the heading, in the
-  // survey's cell order; residual variance. Empty for jevons-geks.
+  // CPD: fitted ln price (unless ElementaryOptions::keep_cell_fitted is
+  // false) and residual of every cell of the heading, in the survey's cell
+  // order; residual variance. Empty for jevons-geks.
   Eigen::VectorXd cell_fitted;
   Eigen::VectorXd cell_residual;
   double sigma2 = 0.0;

@@ -2,6 +2,7 @@
 
 #include <cmath>
 #include <span>
+#include <utility>
 #include <vector>
 
 namespace paritas::internal {
@@ -115,17 +116,17 @@ void FitHeadingCpd(const HeadingInput& input, CpdLoss loss, HeadingParities* out
     return;
   }
   if (!fit.identified) return;
-  out->log_parity = fit.log_parity;
-  out->log_se = fit.log_se;
-  out->log_se_robust = fit.log_se_robust;
+  out->log_parity = std::move(fit.log_parity);
+  out->log_se = std::move(fit.log_se);
+  out->log_se_robust = std::move(fit.log_se_robust);
   out->sigma2 = fit.sigma2;
   out->degrees_of_freedom = fit.degrees_of_freedom;
   out->robust_scale_used = fit.robust_scale_used;
   // Residuals line up with the survey's cells only when every cell was fitted once.
   const bool every_cell_once = input.item_weight.empty() && !out->kept_largest_group;
   if (every_cell_once) {
-    out->cell_fitted = fit.fitted;
-    out->cell_residual = fit.residual;
+    if (input.options->keep_cell_fitted) out->cell_fitted = std::move(fit.fitted);
+    out->cell_residual = std::move(fit.residual);
   }
 }
 

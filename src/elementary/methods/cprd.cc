@@ -70,9 +70,11 @@ bool FitWithDummy(const HeadingInput& input, CellBuffers* cells, const CpdResult
   }
   // Fitted values of the full model: ln p - e.
   out->cell_residual = fit.residual;
-  out->cell_fitted = fit.fitted;
-  for (Eigen::Index k = 0; k < out->cell_fitted.size(); ++k) {
-    out->cell_fitted[k] += g * cells->representative[k];
+  if (input.options->keep_cell_fitted) {
+    out->cell_fitted = fit.fitted;
+    for (Eigen::Index k = 0; k < out->cell_fitted.size(); ++k) {
+      out->cell_fitted[k] += g * cells->representative[k];
+    }
   }
   return true;
 }
@@ -135,7 +137,7 @@ void Cprd::Compute(const HeadingInput& input, HeadingParities* out) const {
     out->log_se_robust = plain.log_se_robust;
     out->sigma2 = plain.sigma2;
     out->degrees_of_freedom = plain.degrees_of_freedom;
-    out->cell_fitted = plain.fitted;
+    if (input.options->keep_cell_fitted) out->cell_fitted = plain.fitted;
     out->cell_residual = plain.residual;
   }
   if (!input.item_weight.empty() || out->kept_largest_group) {
