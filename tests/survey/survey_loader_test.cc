@@ -1260,6 +1260,25 @@ TEST(CellsFromQuotes, AccumulatesInFileOrderWhenTheCellKeysAreTooManyToCount) {
   EXPECT_EQ(consumed.size(), 0u);
 }
 
+TEST(CellsFromQuotes, KeepsEveryRegionIndexEitherSideOfSixteenBits) {
+  // The item buckets hold regions in 16 bits up to 65,536 regions, in 32
+  // bits beyond: the top index of each side, counted densely (10 items).
+  for (const int num_regions : {65536, 65537}) {
+    SCOPED_TRACE(num_regions);
+    const int num_items = 10;
+    internal::QuoteArrays quotes = ShuffledQuotes(60, num_items + 1, 13);
+    for (size_t q = 0; q < quotes.size(); ++q) {
+      const int r = quotes.region[q];
+      quotes.region[q] = r == 58 ? num_regions - 1 : r * 1100 + 5;
+    }
+    ASSERT_NE(std::find(quotes.region.begin(), quotes.region.end(), num_regions - 1), quotes.region.end());
+    CellPrices got;
+    internal::QuoteArrays consumed = quotes;
+    internal::CellsFromQuotes(&consumed, num_regions, num_items, 2, &got);
+    ExpectSameCellArrays(got, CellsWrittenOut(quotes, num_regions, num_items));
+  }
+}
+
 TEST(LoadSurvey, ReportsTheFirstHeadingConflictInFileOrderAcrossChunks) {
   // The same new item is stated under two headings in different chunks.
   std::string prices = "region,item,price,heading\n";
