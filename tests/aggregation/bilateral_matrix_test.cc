@@ -552,6 +552,22 @@ TEST(GeksByRowBlocks, EqualsGeksOverTheIndexMatrixBitForBit) {
   }
 }
 
+// The parities, flags, groups and residual of a GEKS result as an
+// aggregate's (AsAggregate), or of an aggregate as the GEKS result it was
+// made from (AsGeksResult): the two structs name these fields alike.
+template <typename To, typename From>
+To WithGeksFields(const From& from) {
+  To to;
+  to.log_parity = from.log_parity;
+  to.identified = from.identified;
+  to.complete = from.complete;
+  to.groups = from.groups;
+  to.rms_log_residual = from.rms_log_residual;
+  return to;
+}
+AggregateParities AsAggregate(const GeksResult& geks) { return WithGeksFields<AggregateParities>(geks); }
+GeksResult AsGeksResult(const AggregateParities& aggregate) { return WithGeksFields<GeksResult>(aggregate); }
+
 // The bits of two spread summaries, NaN where the other is NaN.
 void ExpectSameSpreads(const SpreadSummary& got, const SpreadSummary& want) {
   ASSERT_EQ(got.regions.size(), want.regions.size());
@@ -609,13 +625,7 @@ TEST(GeksByRowBlocks, SpreadsEqualAllPairsSpreads) {
         ASSERT_TRUE(GeksFisherAndSpreadsByRowBlocks(price, expenditure, options, spread_options,
                                                     &geks, &spreads));
         ASSERT_TRUE(GeksByRowBlocks(GeksIndex::kFisher, price, expenditure, options, &geks_alone));
-        AggregateParities alone;
-        alone.log_parity = geks_alone.log_parity;
-        alone.identified = geks_alone.identified;
-        alone.complete = geks_alone.complete;
-        alone.groups = geks_alone.groups;
-        alone.rms_log_residual = geks_alone.rms_log_residual;
-        ExpectSameBits(geks, alone);
+        ExpectSameBits(geks, AsAggregate(geks_alone));
         ExpectSameSpreads(spreads, want);
       }
     }
@@ -678,30 +688,13 @@ TEST(GeksByRowBlocks, WithoutMediansTheLargestSpreadsKeepTheirBits) {
       ASSERT_TRUE(GeksFisherAndSpreadsByRowBlocks(price, expenditure, options, without, &geks, &spreads));
       ASSERT_TRUE(GeksFisherAndSpreadsByRowBlocks(price, expenditure, options, with_medians,
                                                   &geks_with_medians, &spreads_with_medians));
-      AggregateParities other;
-      other.log_parity = geks_with_medians.log_parity;
-      other.identified = geks_with_medians.identified;
-      other.complete = geks_with_medians.complete;
-      other.groups = geks_with_medians.groups;
-      other.rms_log_residual = geks_with_medians.rms_log_residual;
-      ExpectSameBits(geks, other);
+      ExpectSameBits(geks, AsAggregate(geks_with_medians));
       ExpectSameSpreads(spreads_with_medians, want);
       ExpectSameSpreads(spreads, want_lean);
       EXPECT_TRUE(std::isnan(spreads.regions[7].max));
       EXPECT_EQ(spreads.regions[7].worst_partner, -1);
     }
   }
-}
-
-// A node's aggregate as the GEKS result it was made from.
-GeksResult AsGeksResult(const AggregateParities& aggregate) {
-  GeksResult geks;
-  geks.log_parity = aggregate.log_parity;
-  geks.identified = aggregate.identified;
-  geks.complete = aggregate.complete;
-  geks.groups = aggregate.groups;
-  geks.rms_log_residual = aggregate.rms_log_residual;
-  return geks;
 }
 
 // The node-level call the compute stage makes for the root: from 400
@@ -770,13 +763,7 @@ TEST(GeksByRowBlocks, LeavesAPairWithoutIndexToTheGraphSolve) {
     EXPECT_EQ(got.rms_log_residual, -1.0);  // untouched
     const AggregateParities fallback = fisher ? GeksFisher(arrays, BilateralMatrices())
                                               : GeksTornqvist(arrays, BilateralMatrices());
-    GeksResult as_geks;
-    as_geks.log_parity = fallback.log_parity;
-    as_geks.identified = fallback.identified;
-    as_geks.complete = fallback.complete;
-    as_geks.groups = fallback.groups;
-    as_geks.rms_log_residual = fallback.rms_log_residual;
-    ExpectSameBits(as_geks, want);
+    ExpectSameBits(AsGeksResult(fallback), want);
   }
 }
 

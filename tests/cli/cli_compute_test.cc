@@ -500,6 +500,21 @@ int RunCliForPeakMemory(const std::vector<std::string>& arguments, long* peak_kb
   return WIFEXITED(status) ? WEXITSTATUS(status) : -1;
 }
 
+// Writes a generated survey of many regions, 4 items a heading and one
+// quote a cell into `folder`; false (and a test failure) if it cannot.
+bool WriteWideSurvey(int num_regions, int num_headings, int num_groups, const std::string& folder) {
+  synthetic::SyntheticOptions options;
+  options.num_regions = num_regions;
+  options.num_headings = num_headings;
+  options.items_per_heading = 4;
+  options.quotes_per_cell = 1;
+  options.num_groups = num_groups;
+  std::string error;
+  const bool written = synthetic::WriteSurvey(synthetic::Generate(options), folder, &error);
+  EXPECT_TRUE(written) << error;
+  return written;
+}
+
 // Every node's matrix and bilateral table, asked for on a survey of 600
 // regions, is about 0.4 GB of text. Each file goes to the writer block by
 // block as it is formatted, one file after the other, so the run's peak
@@ -516,14 +531,7 @@ TEST(ComputeCommand, WritesEveryMatrixWithoutHoldingThemAll) {
     std::string dir;
     ~RemoveOnExit() { fs::remove_all(dir); }  // 0.4 GB of tables
   } remove_on_exit{dir};
-  synthetic::SyntheticOptions options;
-  options.num_regions = 600;
-  options.num_headings = 10;
-  options.items_per_heading = 4;
-  options.quotes_per_cell = 1;
-  options.num_groups = 4;
-  std::string error;
-  ASSERT_TRUE(synthetic::WriteSurvey(synthetic::Generate(options), dir + "/survey", &error)) << error;
+  ASSERT_TRUE(WriteWideSurvey(600, 10, 4, dir + "/survey"));
   long peak_kb = -1;
   // Two threads, as on the benchmark machine: each thread may format a few
   // blocks ahead of the writer, so the peak grows with the threads.
@@ -548,14 +556,7 @@ TEST(ComputeCommand, WritesEveryMatrixWithoutHoldingThemAll) {
 // run with the report.
 TEST(ComputeCommand, WithoutTheReportAWideSurveyGivesTheSameFilesAndSpreads) {
   const std::string dir = MakeTempDir("cli_wide_no_report");
-  synthetic::SyntheticOptions options;
-  options.num_regions = 520;
-  options.num_headings = 6;
-  options.items_per_heading = 4;
-  options.quotes_per_cell = 1;
-  options.num_groups = 3;
-  std::string error;
-  ASSERT_TRUE(synthetic::WriteSurvey(synthetic::Generate(options), dir + "/survey", &error)) << error;
+  ASSERT_TRUE(WriteWideSurvey(520, 6, 3, dir + "/survey"));
   const std::string run = "compute " + dir + "/survey/config.yaml --threads 2 --output " + dir;
   std::string with_out, without_out, err;
   ASSERT_EQ(RunCli(run + "/with", &with_out, &err), 0) << err;
