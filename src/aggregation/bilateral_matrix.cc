@@ -338,7 +338,8 @@ struct SpreadBlock {
 // Median (unless `median` is false: NaN) and largest of `values` as
 // RegionSpreads computes them (reorders `values`); `partner` the first index
 // reaching the largest.
-RegionSpread SummariseRow(std::vector<double>* values, double largest, int partner, bool median = true) {
+RegionSpread SummariseRow(std::vector<double>* values, double largest, int partner,
+                          bool median = true) {
   RegionSpread out;
   if (values->empty()) {
     out.median = out.max = kNaN;
@@ -939,7 +940,8 @@ SpreadSummary SummariseSpreads(const Eigen::MatrixXd& price, const Eigen::Matrix
     }
     for (size_t r = 0; r < block.largest_partner.size(); ++r) {
       if (block.largest_partner[r] < 0) continue;
-      OfferLargest(block.largest[r], block.largest_partner[r], &largest[b0 + r], &largest_partner[b0 + r]);
+      OfferLargest(block.largest[r], block.largest_partner[r], &largest[b0 + r],
+                   &largest_partner[b0 + r]);
     }
     out.pair_spreads.insert(out.pair_spreads.end(), block.pairs.pair_spreads.begin(),
                             block.pairs.pair_spreads.end());
@@ -947,7 +949,9 @@ SpreadSummary SummariseSpreads(const Eigen::MatrixXd& price, const Eigen::Matrix
     block = SpreadBlockOfGeks();
   }
   if (!options.region_medians) {
-    for (Eigen::Index a = 0; a < n; ++a) out.regions[a] = LargestOfRow(largest[a], largest_partner[a]);
+    for (Eigen::Index a = 0; a < n; ++a) {
+      out.regions[a] = LargestOfRow(largest[a], largest_partner[a]);
+    }
   }
   FinishWidest(price, expenditure, options, &out);
   return out;

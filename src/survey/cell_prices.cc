@@ -161,8 +161,8 @@ struct ItemScratch {
 // counting sort by region within the item (its quotes stay in file order),
 // then each cell's moments.
 template <typename RegionIndex>
-void WriteItemCells(const ItemBuckets<RegionIndex>& buckets, const uint64_t* bits, int num_regions, int32_t i,
-                    int64_t c, ItemScratch* scratch, CellPrices* cells) {
+void WriteItemCells(const ItemBuckets<RegionIndex>& buckets, const uint64_t* bits, int num_regions,
+                    int32_t i, int64_t c, ItemScratch* scratch, CellPrices* cells) {
   const int64_t begin = buckets.start[i], end = buckets.start[i + 1];
   if (begin == end) return;
   const bool flagged = buckets.flag != nullptr, weighted = buckets.weight != nullptr;

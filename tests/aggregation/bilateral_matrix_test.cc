@@ -565,8 +565,12 @@ To WithGeksFields(const From& from) {
   to.rms_log_residual = from.rms_log_residual;
   return to;
 }
-AggregateParities AsAggregate(const GeksResult& geks) { return WithGeksFields<AggregateParities>(geks); }
-GeksResult AsGeksResult(const AggregateParities& aggregate) { return WithGeksFields<GeksResult>(aggregate); }
+AggregateParities AsAggregate(const GeksResult& geks) {
+  return WithGeksFields<AggregateParities>(geks);
+}
+GeksResult AsGeksResult(const AggregateParities& aggregate) {
+  return WithGeksFields<GeksResult>(aggregate);
+}
 
 // The bits of two spread summaries, NaN where the other is NaN.
 void ExpectSameSpreads(const SpreadSummary& got, const SpreadSummary& want) {
@@ -670,7 +674,8 @@ TEST(GeksByRowBlocks, WithoutMediansTheLargestSpreadsKeepTheirBits) {
   SpreadOptions with_medians;
   const SpreadSummary want = AllPairsSpreads(price, expenditure, with_medians);
   int ties_to_first = 0;
-  for (int a = 0; a < num_regions; ++a) ties_to_first += want.regions[a].worst_partner == 40 ? 1 : 0;
+  for (int a = 0; a < num_regions; ++a)
+    ties_to_first += want.regions[a].worst_partner == 40 ? 1 : 0;
   ASSERT_GT(ties_to_first, 10);  // ties with 41 to 45 met and settled
   SpreadOptions without = with_medians;
   without.region_medians = false;
@@ -679,13 +684,15 @@ TEST(GeksByRowBlocks, WithoutMediansTheLargestSpreadsKeepTheirBits) {
   ExpectSameSpreads(AllPairsSpreads(price, expenditure, without), want_lean);
   for (int block_rows : {4, 12, 128, 512}) {
     for (int threads : {1, 2}) {
-      SCOPED_TRACE("block_rows " + std::to_string(block_rows) + ", threads " + std::to_string(threads));
+      SCOPED_TRACE("block_rows " + std::to_string(block_rows) + ", threads " +
+                   std::to_string(threads));
       GeksBlockOptions options;
       options.block_rows = block_rows;
       options.num_threads = threads;
       GeksResult geks, geks_with_medians;
       SpreadSummary spreads, spreads_with_medians;
-      ASSERT_TRUE(GeksFisherAndSpreadsByRowBlocks(price, expenditure, options, without, &geks, &spreads));
+      ASSERT_TRUE(
+          GeksFisherAndSpreadsByRowBlocks(price, expenditure, options, without, &geks, &spreads));
       ASSERT_TRUE(GeksFisherAndSpreadsByRowBlocks(price, expenditure, options, with_medians,
                                                   &geks_with_medians, &spreads_with_medians));
       ExpectSameBits(geks, AsAggregate(geks_with_medians));

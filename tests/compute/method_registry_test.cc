@@ -24,7 +24,9 @@ namespace paritas {
 namespace {
 
 // Equal bits (NaN included).
-bool SameBits(double x, double y) { return std::bit_cast<uint64_t>(x) == std::bit_cast<uint64_t>(y); }
+bool SameBits(double x, double y) {
+  return std::bit_cast<uint64_t>(x) == std::bit_cast<uint64_t>(y);
+}
 
 Survey SmallSurvey(const std::string& name) {
   synthetic::SyntheticOptions options;

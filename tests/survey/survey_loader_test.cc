@@ -1271,7 +1271,8 @@ TEST(CellsFromQuotes, KeepsEveryRegionIndexEitherSideOfSixteenBits) {
       const int r = quotes.region[q];
       quotes.region[q] = r == 58 ? num_regions - 1 : r * 1100 + 5;
     }
-    ASSERT_NE(std::find(quotes.region.begin(), quotes.region.end(), num_regions - 1), quotes.region.end());
+    ASSERT_NE(std::find(quotes.region.begin(), quotes.region.end(), num_regions - 1),
+              quotes.region.end());
     CellPrices got;
     internal::QuoteArrays consumed = quotes;
     internal::CellsFromQuotes(&consumed, num_regions, num_items, 2, &got);
