@@ -409,7 +409,7 @@ void SpreadRows(const MaskedArrays& m, Eigen::Index a0, Eigen::Index a1, const S
     for (Eigen::Index b = 0; b < n; ++b) {
       if (b != a && std::isfinite(spread(b))) {
         values.push_back(spread(b));
-        if (spread(b) > largest || partner < 0) largest = spread(b), partner = static_cast<int>(b);
+        OfferLargest(spread(b), static_cast<int>(b), &largest, &partner);
       }
       const double s = std::abs(std::log(laspeyres(b) / paasche(b)));
       if (b != a && std::isfinite(100.0 * s) && 100.0 * s > worst) {
@@ -882,7 +882,7 @@ void SummariseSpreadRows(Eigen::Index n, Eigen::Index a0, Eigen::Index a1,
   auto visit = [&](Eigen::Index r, Eigen::Index with, double spread) {
     if (!std::isfinite(spread)) return;
     (*values)[r].push_back(spread);
-    if (spread > largest[r] || partner[r] < 0) largest[r] = spread, partner[r] = static_cast<int>(with);
+    OfferLargest(spread, static_cast<int>(with), &largest[r], &partner[r]);
   };
   for (Eigen::Index r = 0; r < rows; ++r) (*values)[r].clear();
   for (Eigen::Index b = 0; b + 1 < a1; ++b) {
