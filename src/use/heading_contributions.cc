@@ -321,9 +321,16 @@ std::string ContributionsCsv(const Survey& survey, const ContributionTable& tabl
 void ContributionsCsvBlocks(const Survey& survey, const ContributionTable& table,
                             const TextBlocks& emit) {
   const auto& nodes = survey.classification.nodes();
-  // A row of the table is a region's rows, one per heading.
+  // A row of the table is a region's rows, one per heading: the root's
+  // rows hold every heading, a heading node's rows one. Each block reserves
+  // for the mean row (the first row's count made a block of heading nodes
+  // reserve 100 times what it wrote: gigabytes of address space on 3,000
+  // regions, which strict overcommit would refuse).
   constexpr int64_t kRowsPerBlock = 256;
-  const size_t bytes_per_row_hint = table.rows.empty() ? 0 : 120 * table.rows.front().headings.size();
+  size_t num_lines = 0;
+  for (const RegionContributions& row : table.rows) num_lines += row.headings.size();
+  const size_t bytes_per_row_hint =
+      table.rows.empty() ? 0 : 120 * ((num_lines + table.rows.size() - 1) / table.rows.size());
   internal::FormatRowBlocks(
       static_cast<int64_t>(table.rows.size()), kRowsPerBlock, bytes_per_row_hint,
       [&](int64_t i, std::string* out) {

@@ -122,6 +122,32 @@ TEST(HeadingContributions, OneThreadOrTwoGiveTheSameRowsInNodeOrder) {
   EXPECT_EQ(ContributionsCsv(c.survey, one), ContributionsCsv(c.survey, two));
 }
 
+// The file's blocks reserve about what they hold: the root's rows hold a
+// line per heading, a heading node's one, and a block of heading nodes'
+// rows used to reserve for the root's (as many times too much as there are
+// headings). The text is the same either way.
+TEST(ContributionsCsv, BlocksReserveAboutWhatTheyHold) {
+  Computed c;
+  LoadAndCompute(SourcePath("config/demo.yaml"), "geks-fisher", "mean", &c);
+  const ContributionTable table = HeadingContributions(c.survey, c.result, c.config.reference);
+  ASSERT_GT(table.rows.front().headings.size(), 4u);
+  std::string joined;
+  size_t largest_ratio_block = 0;
+  double largest_ratio = 0.0;
+  size_t num_blocks = 0;
+  ContributionsCsvBlocks(c.survey, table, [&](std::string block) {
+    if (num_blocks > 0 && !block.empty()) {  // the first is the header
+      const double ratio = static_cast<double>(block.capacity()) / static_cast<double>(block.size());
+      if (ratio > largest_ratio) largest_ratio = ratio, largest_ratio_block = num_blocks;
+    }
+    ++num_blocks;
+    joined += block;
+  });
+  EXPECT_GT(num_blocks, 3u);
+  EXPECT_LT(largest_ratio, 4.0) << "block " << largest_ratio_block;
+  EXPECT_EQ(joined, ContributionsCsv(c.survey, table));
+}
+
 TEST(HeadingContributions, GeksTornqvistOnCompleteDataNeedsNoAdjustmentAgainstTheMean) {
   Computed c;
   LoadAndCompute(WriteSixCommoditySurvey(), "geks-tornqvist", "mean", &c);
