@@ -137,7 +137,8 @@ TEST(ContributionsCsv, BlocksReserveAboutWhatTheyHold) {
   size_t num_blocks = 0;
   ContributionsCsvBlocks(c.survey, table, [&](std::string block) {
     if (num_blocks > 0 && !block.empty()) {  // the first is the header
-      const double ratio = static_cast<double>(block.capacity()) / static_cast<double>(block.size());
+      const double ratio =
+          static_cast<double>(block.capacity()) / static_cast<double>(block.size());
       if (ratio > largest_ratio) largest_ratio = ratio, largest_ratio_block = num_blocks;
     }
     ++num_blocks;
