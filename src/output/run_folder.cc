@@ -8,6 +8,7 @@
 #include <stdio.h>
 #include <unistd.h>
 
+#include <algorithm>
 #include <cerrno>
 #include <chrono>
 #include <condition_variable>
@@ -278,6 +279,9 @@ struct RunFolderWriter::State {
     Kind kind = Kind::kBlock;
     std::string owned;          // the bytes (or the path) when the writer owns them
     std::string_view unowned;   // the caller's bytes otherwise
+    // The memory `owned` holds while queued: its capacity, which can be
+    // well above its size (a block reserved for more rows than it got).
+    size_t held = 0;
     std::string_view Text() const { return owned.empty() ? unowned : std::string_view(owned); }
   };
 
@@ -299,7 +303,8 @@ struct RunFolderWriter::State {
   int64_t first = 0;
   int64_t next_written = 0;  // the writing thread's next piece
   int64_t next_hashed = 0;   // the hashing thread's (unused without digests)
-  size_t queued_bytes = 0;
+  size_t queued_bytes = 0;   // the queued pieces' `held`
+  size_t peak_queued_bytes = 0;  // the most queued_bytes reached
   bool stopping = false;
   std::string failure;
 
@@ -329,7 +334,9 @@ void RunFolderWriter::State::Push(Piece piece) {
   std::unique_lock<std::mutex> lock(mutex);
   changed.wait(lock, [&] { return queued_bytes <= kMaxQueuedBytes || !failure.empty(); });
   if (!failure.empty()) return;  // nothing more is written
-  queued_bytes += piece.owned.size();
+  piece.held = piece.owned.empty() ? 0 : piece.owned.capacity();
+  queued_bytes += piece.held;
+  peak_queued_bytes = std::max(peak_queued_bytes, queued_bytes);
   queue.push_back(std::move(piece));
   changed.notify_all();
 }
@@ -354,7 +361,7 @@ void RunFolderWriter::State::Loop(int64_t State::*next,
     ++(this->*next);
     const int64_t done = digest ? std::min(next_written, next_hashed) : next_written;
     while (first < done) {
-      queued_bytes -= queue.front().owned.size();
+      queued_bytes -= queue.front().held;
       queue.pop_front();
       ++first;
     }
@@ -510,6 +517,11 @@ bool RunFolderWriter::Finish(std::vector<OutputDigest>* digests, std::string* er
   }
   s.finished = true;
   return true;
+}
+
+size_t RunFolderWriter::PeakQueuedBytes() const {
+  std::lock_guard<std::mutex> lock(state_->mutex);
+  return state_->peak_queued_bytes;
 }
 
 bool RunFolderWriter::Commit(const OutputFile* last, RunFolderSummary* summary, std::string* error) {

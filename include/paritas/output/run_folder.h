@@ -117,7 +117,13 @@ class RunFolderWriter {
   // new) and swaps the staging folder into place.
   bool Commit(const OutputFile* last, RunFolderSummary* summary, std::string* error);
 
-  // Blocks waiting to be written hold at most this many bytes (owned ones).
+  // The most memory the blocks waiting to be written held at once (the
+  // capacity of each owned block, not only its text): at most
+  // kMaxQueuedBytes plus the block that went over it. A diagnostic.
+  size_t PeakQueuedBytes() const;
+
+  // Blocks waiting to be written hold at most this many bytes (owned ones,
+  // counted by the memory they reserved), plus the one that goes over.
   static constexpr size_t kMaxQueuedBytes = size_t{64} << 20;
 
  private:
