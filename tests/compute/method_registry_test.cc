@@ -122,6 +122,7 @@ TEST(ElementaryRegistry, CellFittedIsKeptOnlyWhenAskedAndNothingElseChanges) {
       SCOPED_TRACE(name + ", heading " + std::to_string(h));
       EXPECT_EQ(a.cell_fitted.size(), gives ? a.cell_residual.size() : 0);
       EXPECT_EQ(b.cell_fitted.size(), 0);
+      ASSERT_EQ(a.cell_residual.size(), b.cell_residual.size());
       EXPECT_TRUE(a.cell_residual == b.cell_residual);
       for (Eigen::Index r = 0; r < a.log_parity.size(); ++r) {
         EXPECT_TRUE(SameBits(a.log_parity[r], b.log_parity[r])) << "region " << r;

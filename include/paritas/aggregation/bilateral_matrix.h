@@ -152,7 +152,9 @@ struct SpreadPairIndices {
 // matrices (AllPairsSpreads).
 struct SpreadSummary {
   // Per region, as computed from the full matrices with the elementwise
-  // (vectorised) logarithm of the matrix expression: RegionSpreads.
+  // (vectorised) logarithm of the matrix expression: RegionSpreads (with
+  // SpreadOptions::region_medians false, the medians are NaN and the rest
+  // the same bits).
   std::vector<RegionSpread> regions;
   // Per region, with std::log and the first partner whose 100 |ln(L / P)|
   // is strictly above all before it and above 0 (the large-spread check):
@@ -209,8 +211,9 @@ SpreadSummary AllPairsSpreads(const Eigen::MatrixXd& price, const Eigen::MatrixX
 // at 3,000 regions x 100 headings). Both results are bit for bit those of
 // the two functions (tested: GeksByRowBlocks.SpreadsEqualAllPairsSpreads),
 // for any block size and thread count; spread_options.block_rows and
-// num_threads are not used (`options`' are). Memory: the spreads of every
-// pair seen from each side, n (n - 1) doubles, besides GeksByRowBlocks's.
+// num_threads are not used (`options`' are). Memory, with region_medians
+// (the default): the spreads of every pair seen from each side, n (n - 1)
+// doubles, besides GeksByRowBlocks's; without it, a few doubles a region.
 // Returns false, leaving both untouched, when GeksByRowBlocks would.
 bool GeksFisherAndSpreadsByRowBlocks(const Eigen::MatrixXd& price,
                                      const Eigen::MatrixXd& expenditure,

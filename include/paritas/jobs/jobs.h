@@ -87,6 +87,9 @@ struct ComputeJobSummary {
   std::vector<StageTiming> stages;
   // The root's spread per region (RegionSpreads), computed once for the
   // terminal table and the report; empty when the root has no bilaterals.
+  // Without the report (`report` false) and above matrices_up_to_regions,
+  // the medians are NaN (SpreadOptions::region_medians); the largest
+  // spreads and their partners are the same either way.
   std::vector<RegionSpread> root_spreads;
   // True when matrix/ and bilateral/ were left out: `matrices` was not given
   // and the survey has more regions than matrices_up_to_regions (copied
