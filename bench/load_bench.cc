@@ -41,10 +41,12 @@ int main(int argc, char** argv) {
   getrusage(RUSAGE_SELF, &usage);
   const double cell_mb = static_cast<double>(survey.cells.size()) *
                          (2 * sizeof(int32_t) + 4 * sizeof(double) + sizeof(int32_t) + 1) / 1e6;
-  std::printf("threads %d: %lld quotes, %zu cells, %.1f MB read in %.3f s = %.0f MB/s "
-              "(read %.3f s, cells %.3f s); peak memory %.0f MB (cell table %.0f MB)\n",
-              options.num_threads, static_cast<long long>(survey.num_quotes), survey.cells.size(),
-              bytes / 1e6, seconds, bytes / 1e6 / seconds, summary.read_seconds, summary.cells_seconds,
-              usage.ru_maxrss / 1024.0, cell_mb);
+  std::printf(
+      "threads %d: %lld quotes, %zu cells, %.1f MB read in %.3f s = %.0f MB/s "
+      "(read %.3f s, cells %.3f s); peak memory %.0f MB (cell table %.0f MB); "
+      "quote arrays moved %d times\n",
+      options.num_threads, static_cast<long long>(survey.num_quotes), survey.cells.size(),
+      bytes / 1e6, seconds, bytes / 1e6 / seconds, summary.read_seconds, summary.cells_seconds,
+      usage.ru_maxrss / 1024.0, cell_mb, summary.num_quote_array_moves);
   return 0;
 }

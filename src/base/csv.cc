@@ -620,8 +620,13 @@ CsvBlockReader::CsvBlockReader(std::string path, int64_t block_bytes, const Read
                                char delimiter)
     : path_(std::move(path)),
       block_bytes_(static_cast<size_t>(std::max<int64_t>(block_bytes, 64))),
+      step_bytes_(block_bytes_),
       limits_(limits),
       delimiter_(delimiter) {}
+
+void CsvBlockReader::set_first_block_bytes(int64_t bytes) {
+  step_bytes_ = std::min(static_cast<size_t>(std::max<int64_t>(bytes, 64)), block_bytes_);
+}
 
 CsvBlockReader::~CsvBlockReader() {
   if (fd_ >= 0) ::close(fd_);
@@ -639,6 +644,7 @@ bool CsvBlockReader::Open(std::string* error) {
   if (::fstat(fd_, &status) == 0 && S_ISREG(status.st_mode) && status.st_size >= 0) {
     const size_t file_bytes = static_cast<size_t>(status.st_size);
     if (file_bytes + 1 < block_bytes_) block_bytes_ = std::max<size_t>(file_bytes + 1, 1 << 16);
+    step_bytes_ = std::min(step_bytes_, block_bytes_);
   }
   return true;
 }
@@ -657,7 +663,8 @@ bool CsvBlockReader::Fill(std::string* error) {
   }
   size_t num_read = 0;
   const int read_errno =
-      ReadFully(fd_, buffer.bytes.get() + size_, block_bytes_, &num_read, &at_eof_);
+      ReadFully(fd_, buffer.bytes.get() + size_, step_bytes_, &num_read, &at_eof_);
+  step_bytes_ = std::min(2 * step_bytes_, block_bytes_);
   size_ += num_read;
   num_bytes_read_ += static_cast<int64_t>(num_read);
   if (read_errno != 0) {

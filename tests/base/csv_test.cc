@@ -757,13 +757,16 @@ struct BlockRead {
   int64_t num_bytes_read = 0;
 };
 BlockRead ReadInBlocks(const std::string& path, int64_t block_bytes,
-                       const ReadLimits& limits = ReadLimits()) {
+                       const ReadLimits& limits = ReadLimits(), int64_t first_block_bytes = 0,
+                       std::vector<size_t>* fresh_sizes = nullptr) {
   BlockRead out;
   CsvBlockReader blocks(path, block_bytes, limits);
+  if (first_block_bytes > 0) blocks.set_first_block_bytes(first_block_bytes);
   if (!blocks.Open(&out.error)) return out;
   CsvBlock block;
   while (blocks.Next(&block, &out.error)) {
     out.fresh.append(block.fresh);
+    if (fresh_sizes != nullptr) fresh_sizes->push_back(block.fresh.size());
     const ReadResult part = ReadAll(block.records, block.first_line, false, 0, limits);
     for (const OwnedRecord& record : part.records) {
       OwnedRecord copy = record;
@@ -805,6 +808,32 @@ TEST(CsvBlockReader, YieldsTheRecordsOfOnePassWhateverTheBlockSize) {
     EXPECT_TRUE(read.has_bom);
     EXPECT_EQ(read.num_bytes_read, static_cast<int64_t>(data.size()));
   }
+}
+
+// A small first block, each next one twice as large up to the block size:
+// the same records and bytes as fixed blocks.
+TEST(CsvBlockReader, GrowsFromASmallFirstBlockToTheBlockSizeWithTheSameRecords) {
+  std::string data = "region,item,price\n";
+  for (int row = 0; row < 2000; ++row) {
+    data += "r" + std::to_string(row % 37) + ",i" + std::to_string(row % 11) + "," +
+            std::to_string(row) + (row % 5 == 0 ? "\r\n" : "\n");
+  }
+  const std::string path = MakeTempDir("csv_block_ramp") + "/data.csv";
+  WriteTextFile(path, data);
+  ReadResult whole = ReadAll(data);
+  for (OwnedRecord& record : whole.records) record.offset = 0;
+  std::vector<size_t> sizes;
+  const BlockRead read = ReadInBlocks(path, 4096, ReadLimits(), 256, &sizes);
+  EXPECT_EQ(read.error, "");
+  EXPECT_EQ(read.result.records, whole.records);
+  EXPECT_TRUE(read.fresh == data);
+  ASSERT_GE(sizes.size(), 7u);
+  const std::vector<size_t> first = {256, 512, 1024, 2048, 4096, 4096};
+  EXPECT_EQ(std::vector<size_t>(sizes.begin(), sizes.begin() + 6), first);
+  // A first block above the block size is the block size.
+  sizes.clear();
+  EXPECT_EQ(ReadInBlocks(path, 4096, ReadLimits(), 1 << 20, &sizes).result.records, whole.records);
+  EXPECT_EQ(sizes.front(), 4096u);
 }
 
 // A slot holds a code's length and first 8 bytes: codes sharing them, and

@@ -222,6 +222,12 @@ class CsvBlockReader {
   CsvBlockReader(const CsvBlockReader&) = delete;
   CsvBlockReader& operator=(const CsvBlockReader&) = delete;
 
+  // Makes the first step read `bytes` (at least 64) and each step after it
+  // twice as many as the one before, up to `block_bytes`: a small first
+  // block can be handed out, and worked on, while the larger ones after it
+  // are read. Call before the first Next. Blocks still hold whole records
+  // (a record longer than a step takes several steps, as it would anyway).
+  void set_first_block_bytes(int64_t bytes);
   // Opens the file; returns false with "path: cannot open file: reason".
   bool Open(std::string* error);
   // Reads the next block. Returns false at the end of the file (error left
@@ -252,6 +258,7 @@ class CsvBlockReader {
 
   std::string path_;
   size_t block_bytes_;
+  size_t step_bytes_;  // bytes the next Fill reads (up to block_bytes_)
   ReadLimits limits_;
   char delimiter_;
   int fd_ = -1;
