@@ -86,7 +86,6 @@ set_source_files_properties(
   src/use/deflation.cc
   src/use/pair_comparison.cc
   src/use/pair_interval.cc
-  src/use/run_tables.cc
   src/use/publication_workbook.cc
   src/use/heading_contributions.cc
   src/use/carry_forward.cc

@@ -13,6 +13,10 @@
 #include <system_error>
 #include <vector>
 
+#include <nlohmann/json.hpp>
+
+#include "base/sha256.h"
+
 namespace paritas::testing {
 
 ::testing::AssertionResult IsClose(double actual, double expected, double rel_tol) {
@@ -122,6 +126,19 @@ void WriteTextFile(const std::string& path, const std::string& contents) {
   if (p.has_parent_path()) std::filesystem::create_directories(p.parent_path());
   std::ofstream out(path, std::ios::binary);
   out << contents;
+}
+
+void WriteRunFile(const std::string& dir, const std::string& relative,
+                  const std::string& contents) {
+  WriteTextFile(dir + "/" + relative, contents);
+  nlohmann::json record = nlohmann::json::parse(ReadTextFile(dir + "/run.json"));
+  for (nlohmann::json& file : record["outputs"]) {
+    if (file["path"] == relative) {
+      file["bytes"] = contents.size();
+      file["sha256"] = internal::Sha256Hex(contents);
+    }
+  }
+  WriteTextFile(dir + "/run.json", record.dump(1));
 }
 
 std::string ReadTextFile(const std::string& path) {

@@ -27,6 +27,12 @@ std::string MakeTempDir(const std::string& name);
 void WriteTextFile(const std::string& path, const std::string& contents);
 // Reads a whole file; empty when missing.
 std::string ReadTextFile(const std::string& path);
+// Writes `contents` as the file `relative` of the run folder `dir` and
+// records its size and SHA-256 in the folder's run.json, as if the run had
+// written it: for tests of what a reader does with figures a run could not
+// have written (a file changed after the run is refused before its rows
+// are read).
+void WriteRunFile(const std::string& dir, const std::string& relative, const std::string& contents);
 
 // Runs the paritas command line with `arguments` (shell words), no standard
 // input; captures stdout and stderr. Returns the exit code.

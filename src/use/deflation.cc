@@ -36,6 +36,7 @@ namespace {
 using internal::ListedNames;
 using internal::ParseIntervalBounds;
 using internal::ParseParity;
+using internal::ReadRunTable;
 using internal::ReadTable;
 using internal::SameRunSettings;
 using internal::SensitivityAdvice;
@@ -144,8 +145,8 @@ bool ReadParityValues(const DeflateOptions& options, ParityTable* table, std::st
     return ParseParity(table->path, row.line, row.columns[2], "parity", row.fields[2],
                        &table->parity[cell], message);
   };
-  if (!ReadTable(table->path, options.limits, {"node", "region", "parity"}, {true, true, true},
-                 handle, error)) {
+  if (!ReadRunTable(options.parities_dir, "parities.csv", options.limits,
+                    {"node", "region", "parity"}, {true, true, true}, handle, error)) {
     return false;
   }
   if (table->parity.empty()) {
@@ -184,8 +185,9 @@ bool ReadIntervals(const DeflateOptions& options, ParityTable* table, std::strin
     }
     return true;
   };
-  return ReadTable(table->interval_path, options.limits, {"node", "region", "lower", "upper"},
-                   {true, true, true, true}, handle, error);
+  return ReadRunTable((fs::path(options.parities_dir) / "sensitivity").string(), "bootstrap.csv",
+                      options.limits, {"node", "region", "lower", "upper"},
+                      {true, true, true, true}, handle, error);
 }
 
 bool ReadParities(const DeflateOptions& options, ParityTable* table, std::string* error) {

@@ -48,9 +48,11 @@ bool FromPairTable(const std::string& path, const std::string& node, const std::
     return false;
   };
   std::string message;
-  const bool ok = internal::ReadTable(
-      path, ReadLimits(), {"node", "region_a", "region_b", "lower", "upper", "num_replicates"},
-      {true, true, true, true, true, true}, handle, &message);
+  const fs::path file(path);
+  const bool ok =
+      internal::ReadRunTable(file.parent_path().string(), file.filename().string(), ReadLimits(),
+                             {"node", "region_a", "region_b", "lower", "upper", "num_replicates"},
+                             {true, true, true, true, true, true}, handle, &message);
   if (!ok && !*found) {
     *error = message;
     return false;
@@ -93,8 +95,10 @@ bool ExpansionFromTable(const std::string& path, const std::string& node, const 
     (row.fields[1] == a ? scale_a : scale_b) = row_scale;
     return true;
   };
-  if (!internal::ReadTable(path, ReadLimits(), {"node", "region", "interval_df", "interval_scale"},
-                           {true, true, false, false}, handle, error)) {
+  const fs::path file(path);
+  if (!internal::ReadRunTable(file.parent_path().string(), file.filename().string(), ReadLimits(),
+                              {"node", "region", "interval_df", "interval_scale"},
+                              {true, true, false, false}, handle, error)) {
     return false;
   }
   PairExpansion(df_a, scale_a, df_b, scale_b, df, scale);

@@ -31,6 +31,7 @@ using Json = nlohmann::json;
 using internal::ParseIntervalBounds;
 using internal::ParseNonNegative;
 using internal::ParseParity;
+using internal::ReadRunTable;
 using internal::ReadTable;
 using internal::TableRow;
 
@@ -93,8 +94,9 @@ bool ReadParitiesCsv(const PublishOptions& options, RunFigures* figures, std::st
     ++num_rows;
     return true;
   };
-  if (!ReadTable(path, options.limits, {"node", "region", "parity", "real_per_capita_index"},
-                 {true, true, true, false}, handle, error)) {
+  if (!ReadRunTable(options.run_dir, "parities.csv", options.limits,
+                    {"node", "region", "parity", "real_per_capita_index"},
+                    {true, true, true, false}, handle, error)) {
     return false;
   }
   if (num_rows == 0) {
@@ -123,8 +125,10 @@ bool ReadBootstrapCsv(const PublishOptions& options, const std::string& path, Ru
     figures->upper[key] = upper;
     return true;
   };
-  return ReadTable(path, options.limits, {"node", "region", "lower", "upper"},
-                   {true, true, true, true}, handle, error);
+  const fs::path file(path);
+  return ReadRunTable(file.parent_path().string(), file.filename().string(), options.limits,
+                      {"node", "region", "lower", "upper"}, {true, true, true, true}, handle,
+                      error);
 }
 
 // The SHA-256 of the input of `role` recorded in run.json, or "".

@@ -57,13 +57,15 @@ struct RunData {
   std::map<Key, std::vector<ContributionRow>> contributions;
 };
 
-// Reads a table of a run folder with every wanted column required
-// (run_tables.h, shared with deflate and publish).
+// Reads a table of a run folder (`path` = the folder / the file) with every
+// wanted column required, as its run wrote it (run_tables.h, shared with
+// deflate and publish).
 bool ReadTable(const std::string& path, const std::vector<std::string>& wanted,
                const std::function<bool(const TableRow&, std::string*)>& handle,
                std::string* error) {
-  return internal::ReadTable(path, ReadLimits(), wanted, std::vector<bool>(wanted.size(), true),
-                             handle, error);
+  const fs::path file(path);
+  return internal::ReadRunTable(file.parent_path().string(), file.filename().string(), ReadLimits(),
+                                wanted, std::vector<bool>(wanted.size(), true), handle, error);
 }
 
 // Parses field k of a row as a number: empty = NaN when `optional`; with

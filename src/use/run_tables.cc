@@ -5,15 +5,26 @@
 #include <algorithm>
 #include <filesystem>
 #include <limits>
+#include <nlohmann/json.hpp>
 
 #include "base/magnitude.h"
 #include "base/not_a_number.h"
+#include "base/sha256.h"
 #include "paritas/base/csv.h"
 #include "paritas/base/text.h"
 #include "paritas/output/run_record.h"
 
 namespace paritas::internal {
 namespace {
+
+using Json = nlohmann::json;
+
+// Parses a table already read whole from `path` (ReadTable's rows).
+bool ParseTable(const std::string& path, const std::string& contents, const ReadLimits& limits,
+                const std::vector<std::string>& wanted, const std::vector<bool>& required,
+                const std::function<bool(const TableRow&, std::string*)>& handle,
+                std::string* error);
+
 }  // namespace
 
 // Lists header names for a message: a header of garbage can hold millions,
@@ -33,10 +44,63 @@ bool ReadTable(const std::string& path, const ReadLimits& limits,
                const std::function<bool(const TableRow&, std::string*)>& handle,
                std::string* error) {
   std::string contents;
-  if (!ReadWholeFile(path, limits.max_file_bytes, LimitAdvice("limits.max_file_bytes"), &contents,
-                     error)) {
+  return ReadWholeFile(path, limits.max_file_bytes, LimitAdvice("limits.max_file_bytes"), &contents,
+                       error) &&
+         ParseTable(path, contents, limits, wanted, required, handle, error);
+}
+
+bool ReadRunTable(const std::string& dir, const std::string& relative, const ReadLimits& limits,
+                  const std::vector<std::string>& wanted, const std::vector<bool>& required,
+                  const std::function<bool(const TableRow&, std::string*)>& handle,
+                  std::string* error) {
+  const std::string path = (std::filesystem::path(dir) / relative).string();
+  std::string contents;
+  return ReadWholeFile(path, limits.max_file_bytes, LimitAdvice("limits.max_file_bytes"), &contents,
+                       error) &&
+         MatchesRunRecord(dir, relative, contents, error) &&
+         ParseTable(path, contents, limits, wanted, required, handle, error);
+}
+
+bool MatchesRunRecord(const std::string& dir, const std::string& relative,
+                      std::string_view contents, std::string* error) {
+  namespace fs = std::filesystem;
+  const fs::path record_path = fs::path(dir) / "run.json";
+  std::error_code ec;
+  if (!fs::exists(record_path, ec)) return true;  // a folder made by hand
+  const std::string file_path = (fs::path(dir) / relative).string();
+  std::string run_id, json;
+  if (!ReadRunRecord(dir, &run_id, &json, error)) {
+    *error = "cannot check " + file_path + " against its run's record: " + *error;
     return false;
   }
+  const Json record = Json::parse(json, nullptr, /*allow_exceptions=*/false);
+  const Json outputs = record.value("outputs", Json::array());
+  if (!outputs.is_array() || outputs.empty()) return true;  // a record listing no files
+  std::string recorded;
+  for (const Json& file : outputs) {
+    if (file.is_object() && file.value("path", "") == relative) recorded = file.value("sha256", "");
+  }
+  if (recorded.empty()) {
+    *error = file_path + ": not among the files " + record_path.string() +
+             " records, so not a file of that run; a run folder holds only what its run wrote";
+    return false;
+  }
+  const std::string now = Sha256Hex(contents);
+  if (now == recorded) return true;
+  *error = file_path + ": not the file its run wrote (" + record_path.string() +
+           " records SHA-256 " + recorded.substr(0, 12) + "..., the file has " + now.substr(0, 12) +
+           "...): it was changed or replaced after the run, so its figures "
+           "are not that run's; run the command that wrote the folder again, or restore the "
+           "folder whole";
+  return false;
+}
+
+namespace {
+
+bool ParseTable(const std::string& path, const std::string& contents, const ReadLimits& limits,
+                const std::vector<std::string>& wanted, const std::vector<bool>& required,
+                const std::function<bool(const TableRow&, std::string*)>& handle,
+                std::string* error) {
   CsvReader reader(contents);
   reader.set_limits(limits);
   CsvRecord record;
@@ -97,8 +161,6 @@ bool ReadTable(const std::string& path, const ReadLimits& limits,
   }
   return true;
 }
-
-namespace {
 
 constexpr std::string_view kWrittenByCompute = "compute writes none beyond it; is the file as it wrote it?";
 

@@ -23,6 +23,7 @@ using testing::MakeTempDir;
 using testing::ReadTextFile;
 using testing::RunCli;
 using testing::SourcePath;
+using testing::WriteRunFile;
 using testing::WriteTextFile;
 
 using Table = std::map<std::pair<std::string, std::string>, double>;
@@ -217,8 +218,8 @@ TEST(CarryCommand, RefusesWhatItCannotCarryWithExactMessages) {
                                                       "compute writes none beyond it; is the file as "
                                                       "it wrote it?"},
         {"-5", "is negative"}}) {
-    WriteTextFile(bench + "/parities.csv", parities.substr(0, field) + figure +
-                                               parities.substr(parities.find(',', field)));
+    WriteRunFile(bench, "parities.csv",
+                 parities.substr(0, field) + figure + parities.substr(parities.find(',', field)));
     EXPECT_EQ(RunCli("carry " + bench + " --indices " + dir + "/partial.csv --missing-index country "
                          "--output " + dir + "/f",
                      &out, &err),
@@ -235,7 +236,7 @@ TEST(CarryCommand, RefusesWhatItCannotCarryWithExactMessages) {
     const size_t at = apart.find(key) + key.size();
     apart.replace(at, apart.find(',', at) - at, figure);
   }
-  WriteTextFile(bench + "/parities.csv", apart);
+  WriteRunFile(bench, "parities.csv", apart);
   EXPECT_EQ(RunCli("carry " + bench + " --indices " + dir + "/indices.csv --period 2026 --output " +
                        dir + "/g",
                    &out, &err),
@@ -245,8 +246,26 @@ TEST(CarryCommand, RefusesWhatItCannotCarryWithExactMessages) {
             "benchmark's 1e-199 times the index 110.00 over the country's 114.87) is nearer 0 "
             "than 1e-60, where ratios between regions overflow in the aggregation; check the "
             "benchmark's parities.csv and the units of the index file\n");
-  WriteTextFile(bench + "/parities.csv", parities);
-    // A carried run is not a benchmark.
+  WriteRunFile(bench, "parities.csv", parities);
+  // A parities.csv changed after the benchmark run (the record not updated)
+  // is refused before a row is read.
+  WriteTextFile(bench + "/parities.csv", apart);
+  EXPECT_EQ(RunCli("carry " + bench + " --indices " + dir + "/indices.csv --period 2026 --output " +
+                       dir + "/g",
+                   &out, &err),
+            1);
+  EXPECT_EQ(err.rfind("paritas: error: " + bench + "/parities.csv: not the file its run wrote (" +
+                          bench + "/run.json records SHA-256 ",
+                      0),
+            0u)
+      << err;
+  EXPECT_NE(err.find("...): it was changed or replaced after the run, so its figures are not "
+                     "that run's; run the command that wrote the folder again, or restore the "
+                     "folder whole\n"),
+            std::string::npos)
+      << err;
+  WriteRunFile(bench, "parities.csv", parities);
+  // A carried run is not a benchmark.
   EXPECT_EQ(RunCli("carry " + dir + "/c --indices " + dir + "/partial.csv --output " + dir + "/d",
                    &out, &err),
             1);
@@ -283,7 +302,7 @@ TEST(CarryCommand, EveryMethodAggregatesParitiesAtTheEdgeOfTheCarriedRange) {
       const size_t at = parities.find(key) + key.size();
       parities.replace(at, parities.find(',', at) - at, figure);
     }
-    WriteTextFile(dir + "/b-" + method + "/parities.csv", parities);
+    WriteRunFile(dir + "/b-" + method, "parities.csv", parities);
     EXPECT_EQ(RunCli("carry " + dir + "/b-" + method + " --indices " + dir +
                          "/indices.csv --period 2026 --no-report --output " + dir + "/c-" + method,
                      &out, &err),

@@ -21,6 +21,7 @@ using testing::MakeTempDir;
 using testing::ReadTextFile;
 using testing::RunCli;
 using testing::SourcePath;
+using testing::WriteRunFile;
 using testing::WriteTextFile;
 
 // A parities folder with the BEA technical note's two regions (parities 120
@@ -361,7 +362,8 @@ TEST(PairCommand, RefusesIntervalBoundsSensitivityCannotHaveWritten) {
     fields[5] = upper;
     std::string joined;
     for (const std::string& field : fields) joined += (joined.empty() ? "" : ",") + field;
-    WriteTextFile(table, written.substr(0, row) + joined + written.substr(end));
+    WriteRunFile(dir + "/one/sensitivity", "pair_ratios.csv",
+                 written.substr(0, row) + joined + written.substr(end));
   };
   const std::pair<std::pair<std::string, std::string>, std::string> cases[] = {
       {{"0", "1.5"}, table + ":2:5: lower '0' is not positive"},
@@ -383,6 +385,18 @@ TEST(PairCommand, RefusesIntervalBoundsSensitivityCannotHaveWritten) {
     EXPECT_NE(out.find("interval of the transitive ratio: not shown: " + message), std::string::npos)
         << out;
   }
+  // Bounds the run wrote, but the file changed after it: not read at all.
+  with_bounds("1.2", "1.5");
+  const std::string recorded = ReadTextFile(table);
+  WriteTextFile(table, recorded.substr(0, recorded.size() - 2) + "9\n");
+  ASSERT_EQ(RunCli("pair " + config + " --from s1 --to s2 --output " + dir + "/one", &out, &err), 0)
+      << err;
+  EXPECT_EQ(err.rfind("paritas: warning: " + table + ": not the file its run wrote (", 0), 0u)
+      << err;
+  EXPECT_NE(out.find("interval of the transitive ratio: not shown: " + table +
+                     ": not the file its run wrote ("),
+            std::string::npos)
+      << out;
 }
 
 TEST(PairCommand, RefusesUnknownRegionsAndMissingOptions) {

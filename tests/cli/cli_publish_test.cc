@@ -15,6 +15,7 @@ using testing::MakeTempDir;
 using testing::ReadTextFile;
 using testing::RunCli;
 using testing::SourcePath;
+using testing::WriteTextFile;
 
 TEST(PublishCommand, PublishesTheDemoRunAsCsvTables) {
   const std::string dir = MakeTempDir("cli_publish_demo");
@@ -40,6 +41,34 @@ TEST(PublishCommand, PublishesTheDemoRunAsCsvTables) {
             "region,name,all,food,clothing,housing,utilities,health,transport,communication,"
             "recreation,restaurants_hotels,all_but_housing,energy");
   EXPECT_EQ(CountOf(levels, "\n"), 17u);
+}
+
+// A publication carries its run's provenance (run id, input digests), so
+// it must hold that run's figures: a parities.csv changed after the run is
+// refused, and nothing is written; the same folder restored publishes.
+TEST(PublishCommand, RefusesParitiesChangedAfterTheRun) {
+  const std::string dir = MakeTempDir("cli_publish_changed");
+  std::string out, err;
+  ASSERT_EQ(
+      RunCli("compute " + SourcePath("config/demo.yaml") + " --output " + dir + "/run --no-report",
+             &out, &err),
+      0)
+      << err;
+  const std::string parities = ReadTextFile(dir + "/run/parities.csv");
+  const size_t at = parities.find("\nall,aggregate,har,");
+  ASSERT_NE(at, std::string::npos);
+  std::string edited = parities;
+  edited.insert(at + 19, "1");  // a leading digit added to har's parity
+  WriteTextFile(dir + "/run/parities.csv", edited);
+  EXPECT_EQ(RunCli("publish " + dir + "/run --csv " + dir + "/levels.csv", &out, &err), 1);
+  EXPECT_EQ(err.rfind("paritas: error: " + dir + "/run/parities.csv: not the file its run wrote (" +
+                          dir + "/run/run.json records SHA-256 ",
+                      0),
+            0u)
+      << err;
+  EXPECT_FALSE(std::filesystem::exists(dir + "/levels.csv"));
+  WriteTextFile(dir + "/run/parities.csv", parities);
+  EXPECT_EQ(RunCli("publish " + dir + "/run --csv " + dir + "/levels.csv", &out, &err), 0) << err;
 }
 
 TEST(PublishCommand, RefusesBadArgumentsWithExitCodeOne) {
