@@ -165,9 +165,9 @@ bool ReadBenchmarkHeadings(const std::string& dir, const Survey& survey, const R
     benchmark->source(r, h) = static_cast<int>(SourceFromText(row.fields[5]));
     return true;
   };
-  return internal::ReadRunTable(dir, "parities.csv", limits,
-                                {"node", "kind", "region", "parity", "expenditure", "source"},
-                                {true, true, true, true, true, false}, handle, error);
+  return internal::ReadRunTable(
+      dir, "parities.csv", limits, {"node", "kind", "region", "parity", "expenditure", "source"},
+      {true, true, true, true, true, false}, handle, error, benchmark->run_id);
 }
 
 // An input file that is not a survey file, for run.json's inputs.

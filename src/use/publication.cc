@@ -71,7 +71,10 @@ int IndexOf(std::vector<std::string>* list, std::string_view code) {
   return static_cast<int>(list->size()) - 1;
 }
 
-bool ReadParitiesCsv(const PublishOptions& options, RunFigures* figures, std::string* error) {
+// Reads parities.csv of the run `run_id` (read from run.json before: a
+// folder replaced meanwhile is refused).
+bool ReadParitiesCsv(const PublishOptions& options, const std::string& run_id, RunFigures* figures,
+                     std::string* error) {
   const std::string path = (fs::path(options.run_dir) / "parities.csv").string();
   int64_t num_rows = 0;
   const auto handle = [&](const TableRow& row, std::string* message) {
@@ -96,7 +99,7 @@ bool ReadParitiesCsv(const PublishOptions& options, RunFigures* figures, std::st
   };
   if (!ReadRunTable(options.run_dir, "parities.csv", options.limits,
                     {"node", "region", "parity", "real_per_capita_index"},
-                    {true, true, true, false}, handle, error)) {
+                    {true, true, true, false}, handle, error, run_id)) {
     return false;
   }
   if (num_rows == 0) {
@@ -497,7 +500,7 @@ bool Publish(const PublishOptions& options, PublishSummary* summary) {
   std::map<std::string, std::string> names;
   if (!ReadRegionNames(config, record, options.limits, &names, &error)) return fail(error);
   RunFigures figures;
-  if (!ReadParitiesCsv(options, &figures, &error)) return fail(error);
+  if (!ReadParitiesCsv(options, summary->run_id, &figures, &error)) return fail(error);
   // Without a classification compute put every heading under one root, the
   // first node of parities.csv.
   if (!config.has_classification) {

@@ -5,6 +5,7 @@
 #include <algorithm>
 #include <filesystem>
 #include <limits>
+#include <map>
 #include <nlohmann/json.hpp>
 
 #include "base/magnitude.h"
@@ -52,43 +53,83 @@ bool ReadTable(const std::string& path, const ReadLimits& limits,
 bool ReadRunTable(const std::string& dir, const std::string& relative, const ReadLimits& limits,
                   const std::vector<std::string>& wanted, const std::vector<bool>& required,
                   const std::function<bool(const TableRow&, std::string*)>& handle,
-                  std::string* error) {
+                  std::string* error, const std::string& expected_run_id) {
   const std::string path = (std::filesystem::path(dir) / relative).string();
   std::string contents;
   return ReadWholeFile(path, limits.max_file_bytes, LimitAdvice("limits.max_file_bytes"), &contents,
                        error) &&
-         MatchesRunRecord(dir, relative, contents, error) &&
+         MatchesRunRecord(dir, relative, contents, error, expected_run_id) &&
          ParseTable(path, contents, limits, wanted, required, handle, error);
 }
 
+namespace {
+
+// The SHA-256 run.json's "outputs" records per path (entries of a path and
+// its digest, as compute writes them since schema 2; run.json's own entry
+// has no digest); empty when the record has none (a record of schema 1
+// lists names only). False with `problem` for an entry that is neither a
+// name nor a path with an optional digest.
+bool RecordedDigests(const Json& outputs, std::map<std::string, std::string>* digests,
+                     std::string* problem) {
+  if (!outputs.is_array()) return true;
+  for (size_t k = 0; k < outputs.size(); ++k) {
+    const Json& file = outputs[k];
+    if (file.is_string()) continue;  // a name without a digest
+    const Json path = file.is_object() ? file.value("path", Json()) : Json();
+    const Json sha256 = file.is_object() ? file.value("sha256", Json("")) : Json();
+    if (!path.is_string() || !sha256.is_string()) {
+      *problem =
+          "its \"outputs\" entry " + std::to_string(k + 1) + " is not a file's path and SHA-256";
+      return false;
+    }
+    if (!sha256.get<std::string>().empty()) {
+      (*digests)[path.get<std::string>()] = sha256.get<std::string>();
+    }
+  }
+  return true;
+}
+
+}  // namespace
+
 bool MatchesRunRecord(const std::string& dir, const std::string& relative,
-                      std::string_view contents, std::string* error) {
+                      std::string_view contents, std::string* error,
+                      const std::string& expected_run_id) {
   namespace fs = std::filesystem;
   const fs::path record_path = fs::path(dir) / "run.json";
   std::error_code ec;
   if (!fs::exists(record_path, ec)) return true;  // a folder made by hand
   const std::string file_path = (fs::path(dir) / relative).string();
-  std::string run_id, json;
+  std::string run_id, json, problem;
   if (!ReadRunRecord(dir, &run_id, &json, error)) {
     *error = "cannot check " + file_path + " against its run's record: " + *error;
     return false;
   }
-  const Json record = Json::parse(json, nullptr, /*allow_exceptions=*/false);
-  const Json outputs = record.value("outputs", Json::array());
-  if (!outputs.is_array() || outputs.empty()) return true;  // a record listing no files
-  std::string recorded;
-  for (const Json& file : outputs) {
-    if (file.is_object() && file.value("path", "") == relative) recorded = file.value("sha256", "");
+  if (!expected_run_id.empty() && run_id != expected_run_id) {
+    *error = file_path + ": the run folder was replaced while it was read (" +
+             record_path.string() + " now records run " + QuoteValue(run_id) + ", not " +
+             QuoteValue(expected_run_id) + "); read it again";
+    return false;
   }
-  if (recorded.empty()) {
+  std::map<std::string, std::string> digests;
+  const Json record = Json::parse(json, nullptr, /*allow_exceptions=*/false);
+  if (!RecordedDigests(record.value("outputs", Json::array()), &digests, &problem)) {
+    *error = "cannot check " + file_path + " against its run's record: " + record_path.string() +
+             ": " + problem;
+    return false;
+  }
+  if (digests.empty()) return true;  // a record without digests: read as it is
+  const auto recorded = digests.find(relative);
+  if (recorded == digests.end()) {
     *error = file_path + ": not among the files " + record_path.string() +
-             " records, so not a file of that run; a run folder holds only what its run wrote";
+             " records, so not a file of that run; a run folder holds only what its run wrote: "
+             "run the command that wrote the folder again, or restore the folder whole";
     return false;
   }
   const std::string now = Sha256Hex(contents);
-  if (now == recorded) return true;
+  if (now == recorded->second) return true;
   *error = file_path + ": not the file its run wrote (" + record_path.string() +
-           " records SHA-256 " + recorded.substr(0, 12) + "..., the file has " + now.substr(0, 12) +
+           " records SHA-256 " + recorded->second.substr(0, 12) + "..., the file has " +
+           now.substr(0, 12) +
            "...): it was changed or replaced after the run, so its figures "
            "are not that run's; run the command that wrote the folder again, or restore the "
            "folder whole";

@@ -39,20 +39,24 @@ bool ReadTable(const std::string& path, const ReadLimits& limits,
 // Whether `contents` is the file `relative` (e.g. "parities.csv") of the
 // run folder `dir` as the run that wrote it recorded it: run.json's
 // "outputs" lists every file the run wrote with its SHA-256. True when the
-// digest matches, and when `dir` holds no run.json, or a record that lists
-// no files (a folder made by hand, e.g. parities from elsewhere for
-// deflate); false with a message when the file changed after the run, or
-// is not among the files the record lists, so that figures are never read
-// under the provenance of a run that did not write them.
+// digest matches, and when `dir` holds no run.json, or a record with no
+// digests (a folder made by hand, e.g. parities from elsewhere for deflate,
+// or a record of schema 1, which lists names only); false with a message
+// when the file changed after the run, is not among the files the record
+// lists, or the record cannot be read, so that figures are never read under
+// the provenance of a run that did not write them. With `expected_run_id`
+// (the run id the caller read from run.json before), also false when the
+// record now holds another run (the folder was replaced meanwhile).
 bool MatchesRunRecord(const std::string& dir, const std::string& relative,
-                      std::string_view contents, std::string* error);
+                      std::string_view contents, std::string* error,
+                      const std::string& expected_run_id = "");
 
 // ReadTable for the file `relative` of the run folder `dir`, checked with
 // MatchesRunRecord before a row is read.
 bool ReadRunTable(const std::string& dir, const std::string& relative, const ReadLimits& limits,
                   const std::vector<std::string>& wanted, const std::vector<bool>& required,
                   const std::function<bool(const TableRow&, std::string*)>& handle,
-                  std::string* error);
+                  std::string* error, const std::string& expected_run_id = "");
 
 // Parses an optional positive number of a parities table: empty = NaN.
 // `what` names the column in the message ("parity", "lower"); `range` is

@@ -4,6 +4,7 @@
 #include <gtest/gtest.h>
 
 #include <cmath>
+#include <filesystem>
 #include <map>
 #include <string>
 
@@ -116,6 +117,24 @@ TEST(CompareCommand, UsesTheStandardErrorsOfRealSensitivityRuns) {
     ++tested;
   }
   EXPECT_EQ(tested, 16);
+}
+
+// The drivers are read from each run's contributions.csv: one changed
+// after its run is refused, and no comparison folder is written.
+TEST(CompareCommand, RefusesATableChangedAfterItsRun) {
+  const std::string dir = MakeTempDir("cli_compare_changed");
+  ComputeTwice(dir);
+  const std::string table = dir + "/new/contributions.csv";
+  testing::WriteTextFile(table, ReadTextFile(table) + "\n");
+  std::string out, err;
+  EXPECT_EQ(RunCli("compare " + dir + "/old " + dir + "/new --output " + dir + "/cmp", &out, &err),
+            1);
+  EXPECT_EQ(err.rfind("paritas: error: " + table + ": not the file its run wrote (" + dir +
+                          "/new/run.json records SHA-256 ",
+                      0),
+            0u)
+      << err;
+  EXPECT_FALSE(std::filesystem::exists(dir + "/cmp"));
 }
 
 TEST(CompareCommand, RefusesAMissingFolderAndBadOptions) {

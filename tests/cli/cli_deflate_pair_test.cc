@@ -156,6 +156,20 @@ TEST(DeflateCommand, DeflatesTheDemoWages) {
             "record_id,region,occupation,hourly_wage,annual_earnings,hourly_wage_real,annual_"
             "earnings_real");
   EXPECT_NE(out.find("3,000 written, 0 rejected"), std::string::npos) << out;
+  // Parities changed after the run are not that run's: refused, nothing written.
+  const std::string parities = ReadTextFile(dir + "/out/parities.csv");
+  WriteTextFile(dir + "/out/parities.csv", parities + "\n");
+  EXPECT_EQ(
+      RunCli("deflate --parities " + dir + "/out --input " + SourcePath("data/demo/wages.csv") +
+                 " --output " + dir + "/changed.csv --value-column hourly_wage",
+             &out, &err),
+      1);
+  EXPECT_EQ(
+      err.rfind("paritas: error: " + dir + "/out/parities.csv: not the file its run wrote (", 0),
+      0u)
+      << err;
+  EXPECT_FALSE(std::filesystem::exists(dir + "/changed.csv"));
+  WriteTextFile(dir + "/out/parities.csv", parities);
   // --interval without a sensitivity run names the command that makes the
   // intervals where deflate looks for them (it once named compute).
   EXPECT_EQ(

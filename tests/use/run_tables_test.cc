@@ -22,12 +22,12 @@ constexpr char kParities[] = "node,region,parity\nall,a,100\nall,b,120\n";
 
 // A run record listing `path` with the SHA-256 of `contents` (the digest as
 // compute records it: internal::Sha256Hex, tested on the FIPS 180-4 vectors
-// in sha256_test).
+// in sha256_test), and run.json itself without one, as compute lists it.
 std::string RecordListing(const std::string& path, const std::string& contents) {
   return "{\"schema_version\": 2, \"tool\": {\"name\": \"paritas\"}, \"command\": \"compute\", "
          "\"outputs\": [{\"path\": \"" +
          path + "\", \"bytes\": " + std::to_string(contents.size()) + ", \"sha256\": \"" +
-         internal::Sha256Hex(contents) + "\"}]}";
+         internal::Sha256Hex(contents) + "\"}, {\"path\": \"run.json\"}]}";
 }
 
 // The parities of `dir`/parities.csv as ReadRunTable reads them, or the
@@ -82,7 +82,8 @@ TEST(ReadRunTable, RefusesAFileItsRunDidNotWrite) {
   EXPECT_TRUE(ReadParities(dir, &error).empty());
   EXPECT_EQ(error, dir + "/parities.csv: not among the files " + dir +
                        "/run.json records, so not a file of that run; a run folder holds only "
-                       "what its run wrote");
+                       "what its run wrote: run the command that wrote the folder again, or "
+                       "restore the folder whole");
 }
 
 // Parities made elsewhere (deflate takes a folder holding only parities.csv)
@@ -99,6 +100,48 @@ TEST(ReadRunTable, ReadsAFolderWithoutARecordOfFiles) {
   EXPECT_TRUE(ReadParities(dir, &error).empty());
   EXPECT_EQ(error, "cannot check " + dir + "/parities.csv against its run's record: " + dir +
                        "/run.json: not a run record of paritas");
+}
+
+// A record of schema 1 lists the files' names without digests: nothing to
+// check against, so the folder is read as it is. An entry that is neither a
+// name nor a path with its digest is refused (it once ended the process).
+TEST(ReadRunTable, ReadsARecordOfNamesOnlyAndRefusesAMalformedOne) {
+  const std::string dir = MakeTempDir("run_table_schema");
+  WriteTextFile(dir + "/parities.csv", kParities);
+  WriteTextFile(dir + "/run.json",
+                "{\"schema_version\": 1, \"tool\": {\"name\": \"paritas\"}, "
+                "\"outputs\": [\"parities.csv\", \"run.json\"]}");
+  std::string error;
+  EXPECT_EQ(ReadParities(dir, &error).size(), 2u) << error;
+  for (const std::string entry : {"{\"path\": null, \"sha256\": \"ab\"}",
+                                  "{\"path\": \"parities.csv\", \"sha256\": 3}", "7"}) {
+    WriteTextFile(dir + "/run.json",
+                  "{\"tool\": {\"name\": \"paritas\"}, \"outputs\": [\"x.csv\", " + entry + "]}");
+    EXPECT_TRUE(ReadParities(dir, &error).empty()) << entry;
+    EXPECT_EQ(error, "cannot check " + dir + "/parities.csv against its run's record: " + dir +
+                         "/run.json: its \"outputs\" entry 2 is not a file's path and SHA-256")
+        << entry;
+  }
+}
+
+// A caller that read run.json before the table (publish, carry: the run id
+// goes into what they write) is refused when the folder now holds another
+// run, even one whose files match its own record.
+TEST(ReadRunTable, RefusesAFolderReplacedSinceItsRecordWasRead) {
+  const std::string dir = MakeTempDir("run_table_replaced");
+  WriteTextFile(dir + "/parities.csv", kParities);
+  std::string record = RecordListing("parities.csv", kParities);
+  record.insert(1, "\"run_id\": \"second\", ");
+  WriteTextFile(dir + "/run.json", record);
+  std::string error;
+  const auto handle = [](const internal::TableRow&, std::string*) { return true; };
+  EXPECT_TRUE(internal::ReadRunTable(dir, "parities.csv", ReadLimits(), {"parity"}, {true}, handle,
+                                     &error, "second"))
+      << error;
+  EXPECT_FALSE(internal::ReadRunTable(dir, "parities.csv", ReadLimits(), {"parity"}, {true}, handle,
+                                      &error, "first"));
+  EXPECT_EQ(error, dir + "/parities.csv: the run folder was replaced while it was read (" + dir +
+                       "/run.json now records run 'second', not 'first'); read it again");
 }
 
 }  // namespace
