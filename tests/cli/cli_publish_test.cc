@@ -17,14 +17,20 @@ using testing::RunCli;
 using testing::SourcePath;
 using testing::WriteTextFile;
 
-TEST(PublishCommand, PublishesTheDemoRunAsCsvTables) {
-  const std::string dir = MakeTempDir("cli_publish_demo");
+// The demo computed into `run_dir` (no report).
+void ComputeDemo(const std::string& run_dir) {
   std::string out, err;
   ASSERT_EQ(
-      RunCli("compute " + SourcePath("config/demo.yaml") + " --output " + dir + "/run --no-report",
+      RunCli("compute " + SourcePath("config/demo.yaml") + " --output " + run_dir + " --no-report",
              &out, &err),
       0)
       << err;
+}
+
+TEST(PublishCommand, PublishesTheDemoRunAsCsvTables) {
+  const std::string dir = MakeTempDir("cli_publish_demo");
+  ComputeDemo(dir + "/run");
+  std::string out, err;
   ASSERT_EQ(RunCli("publish " + dir + "/run --csv " + dir + "/levels.csv --depth 1 --sort LEVEL",
                    &out, &err),
             0)
@@ -48,12 +54,8 @@ TEST(PublishCommand, PublishesTheDemoRunAsCsvTables) {
 // refused, and nothing is written; the same folder restored publishes.
 TEST(PublishCommand, RefusesParitiesChangedAfterTheRun) {
   const std::string dir = MakeTempDir("cli_publish_changed");
+  ComputeDemo(dir + "/run");
   std::string out, err;
-  ASSERT_EQ(
-      RunCli("compute " + SourcePath("config/demo.yaml") + " --output " + dir + "/run --no-report",
-             &out, &err),
-      0)
-      << err;
   const std::string parities = ReadTextFile(dir + "/run/parities.csv");
   const size_t at = parities.find("\nall,aggregate,har,");
   ASSERT_NE(at, std::string::npos);
