@@ -37,7 +37,7 @@ using internal::ListedNames;
 using internal::ParseIntervalBounds;
 using internal::ParseParity;
 using internal::ReadRunTable;
-using internal::ReadTable;
+using internal::ReadRunTableAt;
 using internal::SameRunSettings;
 using internal::SensitivityAdvice;
 using internal::TableRow;
@@ -185,9 +185,8 @@ bool ReadIntervals(const DeflateOptions& options, ParityTable* table, std::strin
     }
     return true;
   };
-  return ReadRunTable((fs::path(options.parities_dir) / "sensitivity").string(), "bootstrap.csv",
-                      options.limits, {"node", "region", "lower", "upper"},
-                      {true, true, true, true}, handle, error);
+  return ReadRunTableAt(table->interval_path, options.limits, {"node", "region", "lower", "upper"},
+                        {true, true, true, true}, handle, error);
 }
 
 bool ReadParities(const DeflateOptions& options, ParityTable* table, std::string* error) {

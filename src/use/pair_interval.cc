@@ -48,11 +48,9 @@ bool FromPairTable(const std::string& path, const std::string& node, const std::
     return false;
   };
   std::string message;
-  const fs::path file(path);
-  const bool ok =
-      internal::ReadRunTable(file.parent_path().string(), file.filename().string(), ReadLimits(),
-                             {"node", "region_a", "region_b", "lower", "upper", "num_replicates"},
-                             {true, true, true, true, true, true}, handle, &message);
+  const bool ok = internal::ReadRunTableAt(
+      path, ReadLimits(), {"node", "region_a", "region_b", "lower", "upper", "num_replicates"},
+      {true, true, true, true, true, true}, handle, &message);
   if (!ok && !*found) {
     *error = message;
     return false;
@@ -95,10 +93,9 @@ bool ExpansionFromTable(const std::string& path, const std::string& node, const 
     (row.fields[1] == a ? scale_a : scale_b) = row_scale;
     return true;
   };
-  const fs::path file(path);
-  if (!internal::ReadRunTable(file.parent_path().string(), file.filename().string(), ReadLimits(),
-                              {"node", "region", "interval_df", "interval_scale"},
-                              {true, true, false, false}, handle, error)) {
+  if (!internal::ReadRunTableAt(path, ReadLimits(),
+                                {"node", "region", "interval_df", "interval_scale"},
+                                {true, true, false, false}, handle, error)) {
     return false;
   }
   PairExpansion(df_a, scale_a, df_b, scale_b, df, scale);

@@ -32,7 +32,7 @@ using internal::ParseIntervalBounds;
 using internal::ParseNonNegative;
 using internal::ParseParity;
 using internal::ReadRunTable;
-using internal::ReadTable;
+using internal::ReadRunTableAt;
 using internal::TableRow;
 
 constexpr int kMaxDecimals = 6;
@@ -128,10 +128,8 @@ bool ReadBootstrapCsv(const PublishOptions& options, const std::string& path, Ru
     figures->upper[key] = upper;
     return true;
   };
-  const fs::path file(path);
-  return ReadRunTable(file.parent_path().string(), file.filename().string(), options.limits,
-                      {"node", "region", "lower", "upper"}, {true, true, true, true}, handle,
-                      error);
+  return ReadRunTableAt(path, options.limits, {"node", "region", "lower", "upper"},
+                        {true, true, true, true}, handle, error);
 }
 
 // The SHA-256 of the input of `role` recorded in run.json, or "".

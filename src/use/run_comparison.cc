@@ -63,9 +63,8 @@ struct RunData {
 bool ReadTable(const std::string& path, const std::vector<std::string>& wanted,
                const std::function<bool(const TableRow&, std::string*)>& handle,
                std::string* error) {
-  const fs::path file(path);
-  return internal::ReadRunTable(file.parent_path().string(), file.filename().string(), ReadLimits(),
-                                wanted, std::vector<bool>(wanted.size(), true), handle, error);
+  return internal::ReadRunTableAt(path, ReadLimits(), wanted,
+                                  std::vector<bool>(wanted.size(), true), handle, error);
 }
 
 // Parses field k of a row as a number: empty = NaN when `optional`; with

@@ -91,6 +91,15 @@ bool RecordedDigests(const Json& outputs, std::map<std::string, std::string>* di
 
 }  // namespace
 
+bool ReadRunTableAt(const std::string& path, const ReadLimits& limits,
+                    const std::vector<std::string>& wanted, const std::vector<bool>& required,
+                    const std::function<bool(const TableRow&, std::string*)>& handle,
+                    std::string* error) {
+  const std::filesystem::path file(path);
+  return ReadRunTable(file.parent_path().string(), file.filename().string(), limits, wanted,
+                      required, handle, error);
+}
+
 bool MatchesRunRecord(const std::string& dir, const std::string& relative,
                       std::string_view contents, std::string* error,
                       const std::string& expected_run_id) {

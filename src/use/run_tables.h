@@ -57,6 +57,11 @@ bool ReadRunTable(const std::string& dir, const std::string& relative, const Rea
                   const std::vector<std::string>& wanted, const std::vector<bool>& required,
                   const std::function<bool(const TableRow&, std::string*)>& handle,
                   std::string* error, const std::string& expected_run_id = "");
+// The same for the file at `path`, in the run folder that holds it.
+bool ReadRunTableAt(const std::string& path, const ReadLimits& limits,
+                    const std::vector<std::string>& wanted, const std::vector<bool>& required,
+                    const std::function<bool(const TableRow&, std::string*)>& handle,
+                    std::string* error);
 
 // Parses an optional positive number of a parities table: empty = NaN.
 // `what` names the column in the message ("parity", "lower"); `range` is
