@@ -133,17 +133,17 @@ Compressed Compress(const CpdData& data) {
 }
 
 // Sets the Huber weight of each cell, min(1, c s / |e|) (Huber 1981), and
-// returns the largest change from `previous`. A block of cells at a time
+// returns the largest change from `previous`, from cell `begin` on (the
+// weights before it are set by the caller). A block of cells at a time
 // (kHuberBlock, in the L1 cache for the three loops over it): the quotient
 // is formed for every cell and then chosen, in loops that each run on
 // vectors.
-double HuberWeights(const Eigen::VectorXd& residual, double cutoff, const Eigen::VectorXd& previous,
-                    Eigen::VectorXd* weight) {
+double HuberWeightsFrom(const Eigen::VectorXd& residual, double cutoff, const Eigen::VectorXd& previous,
+                        int64_t begin_at, Eigen::VectorXd* weight) {
   constexpr int64_t kHuberBlock = 512;
   const int64_t n = residual.size();
-  weight->resize(n);
   double change = 0.0;
-  for (int64_t begin = 0; begin < n; begin += kHuberBlock) {
+  for (int64_t begin = begin_at; begin < n; begin += kHuberBlock) {
     const int64_t size = std::min(kHuberBlock, n - begin);
     const double* e = residual.data() + begin;
     double* w = weight->data() + begin;
@@ -152,6 +152,70 @@ double HuberWeights(const Eigen::VectorXd& residual, double cutoff, const Eigen:
     change = std::max(change, (weight->segment(begin, size) - previous.segment(begin, size)).cwiseAbs().maxCoeff());
   }
   return change;
+}
+
+#if defined(__x86_64__)
+#if defined(__GNUC__) && !defined(__clang__)
+#pragma GCC diagnostic push
+#pragma GCC diagnostic ignored "-Wmaybe-uninitialized"
+#endif
+// HuberWeightsFrom on the cells of whole vectors of 8, where the dense
+// products run on AVX-512: the weights of cells [0, n - n % 8) of `e`
+// (residuals) into `w`, their largest change from `before` into *change;
+// the same correctly rounded quotients, the same choice (a NaN residual
+// gets weight 1 either way), and a largest change that does not depend on
+// the order its candidates are compared in (all finite). Returns the number
+// of cells done.
+__attribute__((target("avx512f,avx2,fma"))) int64_t HuberWeightsAvx512(const double* e, const double* before,
+                                                                       int64_t n, double cutoff, double* w,
+                                                                       double* change) {
+  const __m512d limit = _mm512_set1_pd(cutoff), one = _mm512_set1_pd(1.0);
+  __m512d largest = _mm512_setzero_pd();
+  int64_t k = 0;
+  for (; k + 8 <= n; k += 8) {
+    const __m512d size = _mm512_abs_pd(_mm512_loadu_pd(e + k));
+    const __m512d quotient = _mm512_div_round_pd(limit, size, _MM_FROUND_CUR_DIRECTION);
+    const __m512d chosen = _mm512_mask_blend_pd(_mm512_cmp_pd_mask(size, limit, _CMP_GT_OQ), one, quotient);
+    _mm512_storeu_pd(w + k, chosen);
+    const __m512d step =
+        _mm512_abs_pd(_mm512_sub_round_pd(chosen, _mm512_loadu_pd(before + k), _MM_FROUND_CUR_DIRECTION));
+    largest = _mm512_max_pd(largest, step);
+  }
+  alignas(64) double lanes[8];
+  _mm512_store_pd(lanes, largest);
+  // The registers' upper halves cleared before the scalar code that
+  // follows (the compiler clears them on its own paths out, but once left
+  // them set on a path through a call, and the screen's scalar code after
+  // it ran a third slower; see DEVELOPERS.md).
+  _mm256_zeroupper();
+  double most = lanes[0];
+  for (int j = 1; j < 8; ++j) most = lanes[j] > most ? lanes[j] : most;
+  *change = most;
+  return k;
+}
+#if defined(__GNUC__) && !defined(__clang__)
+#pragma GCC diagnostic pop
+#endif
+#endif
+
+// Whether the screen's per-cell passes run on vectors (EnableVectorCellPasses).
+std::atomic<bool> vector_cell_passes{true};
+
+// Sets the Huber weights into `weight` and returns the largest change (see
+// HuberWeightsFrom), on vectors of 8 cells where the dense products run on
+// AVX-512.
+double HuberWeights(const Eigen::VectorXd& residual, double cutoff, const Eigen::VectorXd& previous,
+                    Eigen::VectorXd* weight) {
+  const int64_t n = residual.size();
+  weight->resize(n);
+  int64_t done = 0;
+  double change = 0.0;
+#if defined(__x86_64__)
+  if (ActiveDenseKernels() == DenseKernels::kAvx512 && vector_cell_passes.load(std::memory_order_relaxed)) {
+    done = HuberWeightsAvx512(residual.data(), previous.data(), n, cutoff, weight->data(), &change);
+  }
+#endif
+  return done < n ? std::max(change, HuberWeightsFrom(residual, cutoff, previous, done, weight)) : change;
 }
 
 // Cells of RobustScale's terms formed at a time, as one Eigen array
@@ -299,7 +363,6 @@ __attribute__((target("avx512f,avx2,fma"))) size_t TallyCellsAvx512(const TallyI
 #endif
 #endif
 
-std::atomic<bool> vector_tally_enabled{true};
 
 // Tallies the terms of the cells kept (as KeepTerms) against `window`,
 // setting those inside it into `near` (sized for every cell), and returns
@@ -320,7 +383,7 @@ size_t TallyAgainstWindow(const Eigen::VectorXd& residual, const Eigen::VectorXd
                       sure_above * sure_above};
   size_t num_below = 0, num_near = 0, n = 0;
 #if defined(__x86_64__)
-  if (ActiveDenseKernels() == DenseKernels::kAvx512 && vector_tally_enabled.load(std::memory_order_relaxed)) {
+  if (ActiveDenseKernels() == DenseKernels::kAvx512 && vector_cell_passes.load(std::memory_order_relaxed)) {
     n = TallyCellsAvx512(in, near, window, &num_below, &num_near);
   } else {
     n = TallyCells(in, 0, near, window, &num_below, &num_near);
@@ -350,7 +413,7 @@ double MedianInWindow(size_t num_terms, const WindowTally& window, uint64_t* nea
 
 }  // namespace
 
-void EnableVectorScaleTally(bool enabled) { vector_tally_enabled.store(enabled, std::memory_order_relaxed); }
+void EnableVectorCellPasses(bool enabled) { vector_cell_passes.store(enabled, std::memory_order_relaxed); }
 
 // A non-negative double orders as its bit pattern, so the middle value is
 // found by radix selection: the candidates are counted per digit and those

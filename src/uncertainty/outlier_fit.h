@@ -150,11 +150,12 @@ void FindCuttingCells(int num_regions, int num_items, std::span<const int> regio
                       std::span<const int> item, std::vector<CellLink>* link,
                       std::map<int, std::vector<int>>* region_side);
 
-// Whether RobustScale's tally of the terms against its window runs on
-// vectors of 8 cells where the dense products run on AVX-512
-// (ActiveDenseKernels() is kAvx512; default true). The scale must not
-// depend on it; tests turn it off to check that it does not.
-void EnableVectorScaleTally(bool enabled);
+// Whether the screen's per-cell passes that run on vectors of 8 cells
+// where the dense products run on AVX-512 (ActiveDenseKernels() is
+// kAvx512) do so: the Huber weights of each reweighting and RobustScale's
+// tally of the terms against its window (default true). No result may
+// depend on it; tests turn it off to check that none does.
+void EnableVectorCellPasses(bool enabled);
 
 // Whether the screen lets a cell that surely passes (its residual and
 // extreme quotes well inside the threshold, tested in squares with a margin)

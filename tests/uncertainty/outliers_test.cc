@@ -7,6 +7,7 @@
 #include <limits>
 #include <random>
 #include <string>
+#include <tuple>
 #include <vector>
 
 #include "paritas/base/csv.h"
@@ -553,7 +554,7 @@ TEST(ScreenFit, RobustScaleDoesNotDependOnTheMedianGuessed) {
       }
       internal::ScaleScratch scratch;
       for (const bool vector_tally : {true, false}) {
-        internal::EnableVectorScaleTally(vector_tally);
+        internal::EnableVectorCellPasses(vector_tally);
         for (double guess : guesses) {
           scratch.median_guess = guess;
           int num_cells = 0;
@@ -565,7 +566,7 @@ TEST(ScreenFit, RobustScaleDoesNotDependOnTheMedianGuessed) {
           EXPECT_EQ(scratch.median_guess * 1.4826, want);  // the next call's guess: this median
         }
       }
-      internal::EnableVectorScaleTally(true);
+      internal::EnableVectorCellPasses(true);
     }
   }
 }
@@ -613,7 +614,7 @@ TEST(ScreenFit, RobustScaleDoesNotDependOnTheGuessWithNonFiniteOrEdgeTerms) {
       }
     }
     for (const bool vector_tally : {true, false}) {
-      internal::EnableVectorScaleTally(vector_tally);
+      internal::EnableVectorCellPasses(vector_tally);
       for (double guess : guesses) {
         internal::ScaleScratch scratch;
         scratch.median_guess = guess;
@@ -624,7 +625,7 @@ TEST(ScreenFit, RobustScaleDoesNotDependOnTheGuessWithNonFiniteOrEdgeTerms) {
         EXPECT_EQ(num_cells, want_cells);
       }
     }
-    internal::EnableVectorScaleTally(true);
+    internal::EnableVectorCellPasses(true);
   }
 }
 
@@ -660,52 +661,81 @@ TEST(ScreenFit, LeverageFactorsCountRepeatedCellsInTheNormalEquations) {
   for (int k = 0; k < 9; ++k) PARITAS_EXPECT_CLOSE(q[k], x.row(k) * pinv * x.row(k).transpose(), 1e-10);
 }
 
+// A heading's cells for the bit-for-bit tests below: regions 0-1 and items
+// 0-1 complete, the other cells at `coverage`, about one in 37 with a gross
+// error (Huber weights below 1).
+struct RandomHeading {
+  std::vector<int> region, item;
+  std::vector<double> log_price;
+  CpdData data;
+
+  RandomHeading(int num_regions, int num_items, double coverage, std::mt19937_64* random) {
+    for (int i = 0; i < num_items; ++i) {
+      for (int r = 0; r < num_regions; ++r) {
+        if (r > 1 && i > 1 && static_cast<double>((*random)() % 1000) >= 1000.0 * coverage) continue;
+        region.push_back(r);
+        item.push_back(i);
+        const double noise = static_cast<double>((*random)() % 2001) / 1000.0 - 1.0;
+        log_price.push_back(0.01 * r + 0.1 * i + 0.05 * noise + ((*random)() % 37 == 0 ? 1.5 : 0.0));
+      }
+    }
+    data.num_regions = num_regions;
+    data.num_items = num_items;
+    data.region = region;
+    data.item = item;
+    data.log_price = log_price;
+  }
+};
+
+// Every bit of two fits of one heading.
+void ExpectSameFit(const internal::ScreenFit& got, const internal::ScreenFit& want, int num_regions) {
+  ASSERT_TRUE(want.identified);
+  EXPECT_GT(want.num_iterations, 1);
+  EXPECT_EQ(got.num_iterations, want.num_iterations);
+  EXPECT_EQ(got.scale, want.scale);
+  for (int64_t k = 0; k < want.residual.size(); ++k) {
+    EXPECT_EQ(got.residual[k], want.residual[k]) << k;
+    EXPECT_EQ(got.weight[k], want.weight[k]) << k;
+    EXPECT_EQ(got.leverage[k], want.leverage[k]) << k;
+  }
+  for (int r = 0; r < num_regions; ++r) EXPECT_EQ(got.log_parity[r], want.log_parity[r]) << r;
+}
+
 // One workspace carried from heading to heading (as each thread of
 // FindOutliers does) leaves no trace in the fits: headings of the same or
 // other shapes in between, regions or items on the dense side, give the
 // same bits as a fresh workspace.
 TEST(ScreenFit, AWorkspaceReusedAcrossHeadingsGivesTheSameBits) {
   std::mt19937_64 random(11);
-  auto heading = [&](int num_regions, int num_items, double coverage, CpdData* data, std::vector<int>* region,
-                     std::vector<int>* item, std::vector<double>* log_price) {
-    for (int i = 0; i < num_items; ++i) {
-      for (int r = 0; r < num_regions; ++r) {
-        if (r > 1 && i > 1 && static_cast<double>(random() % 1000) >= 1000.0 * coverage) continue;
-        region->push_back(r);
-        item->push_back(i);
-        const double noise = static_cast<double>(random() % 2001) / 1000.0 - 1.0;
-        log_price->push_back(0.01 * r + 0.1 * i + 0.05 * noise + (random() % 37 == 0 ? 1.5 : 0.0));
-      }
-    }
-    data->num_regions = num_regions;
-    data->num_items = num_items;
-    data->region = *region;
-    data->item = *item;
-    data->log_price = *log_price;
-  };
-  std::vector<int> region[4], item[4];
-  std::vector<double> log_price[4];
-  CpdData data[4];
-  heading(40, 6, 0.7, &data[0], &region[0], &item[0], &log_price[0]);  // items dense
-  heading(5, 30, 0.8, &data[1], &region[1], &item[1], &log_price[1]);  // regions dense
-  heading(60, 9, 0.5, &data[2], &region[2], &item[2], &log_price[2]);
-  heading(40, 6, 0.5, &data[3], &region[3], &item[3], &log_price[3]);  // heading 0's shape, other cells
+  const RandomHeading headings[4] = {RandomHeading(40, 6, 0.7, &random),   // items dense
+                                     RandomHeading(5, 30, 0.8, &random),   // regions dense
+                                     RandomHeading(60, 9, 0.5, &random),
+                                     RandomHeading(40, 6, 0.5, &random)};  // heading 0's shape, other cells
   const OutlierOptions options;
   internal::FitWorkspace workspace;
   for (int h : {0, 3, 1, 0, 2, 2, 1, 3}) {
     SCOPED_TRACE("heading " + std::to_string(h));
-    const internal::ScreenFit fresh = internal::FitScreen(data[h], options);
-    const internal::ScreenFit reused = internal::FitScreen(data[h], options, &workspace);
-    ASSERT_TRUE(fresh.identified);
-    EXPECT_GT(fresh.num_iterations, 1);
-    EXPECT_EQ(reused.num_iterations, fresh.num_iterations);
-    EXPECT_EQ(reused.scale, fresh.scale);
-    for (int64_t k = 0; k < fresh.residual.size(); ++k) {
-      EXPECT_EQ(reused.residual[k], fresh.residual[k]) << k;
-      EXPECT_EQ(reused.weight[k], fresh.weight[k]) << k;
-      EXPECT_EQ(reused.leverage[k], fresh.leverage[k]) << k;
-    }
-    for (int r = 0; r < data[h].num_regions; ++r) EXPECT_EQ(reused.log_parity[r], fresh.log_parity[r]) << r;
+    const internal::ScreenFit fresh = internal::FitScreen(headings[h].data, options);
+    ExpectSameFit(internal::FitScreen(headings[h].data, options, &workspace), fresh, headings[h].data.num_regions);
+  }
+}
+
+// The per-cell passes on vectors of 8 cells (where the dense products run
+// on AVX-512) give the bits of the scalar loops: the Huber weights (with
+// cells beyond the cutoff in every heading) and the scale's tally, on
+// headings of 60 to about 600 cells, so the vectors' last cells go one by one
+// too. On a CPU without AVX-512 both runs take the scalar loops.
+TEST(ScreenFit, VectorCellPassesGiveTheBitsOfTheScalarLoops) {
+  std::mt19937_64 random(23);
+  const OutlierOptions options;
+  for (const auto& [num_regions, num_items, coverage] :
+       {std::tuple{20, 3, 1.0}, {40, 6, 0.7}, {5, 30, 0.8}, {61, 9, 0.5}, {101, 7, 0.9}}) {
+    const RandomHeading heading(num_regions, num_items, coverage, &random);
+    SCOPED_TRACE(std::to_string(heading.region.size()) + " cells");
+    internal::EnableVectorCellPasses(false);
+    const internal::ScreenFit scalar = internal::FitScreen(heading.data, options);
+    internal::EnableVectorCellPasses(true);
+    ExpectSameFit(internal::FitScreen(heading.data, options), scalar, num_regions);
   }
 }
 
