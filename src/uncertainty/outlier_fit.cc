@@ -231,17 +231,15 @@ constexpr double kSureMargin = 1e-6;
 // leave the normal range of doubles).
 constexpr double kSmallestGuess = 1e-100, kLargestGuess = 1e100;
 
-// Sets the terms |e| / sqrt(1 - w q) of the cells kept (link kNone, w q
-// below 1 - kHatOne) into `kept` (sized for every cell), in cell order, and
-// returns their number.
-size_t KeepTerms(const Eigen::VectorXd& residual, const Eigen::VectorXd& weight, const Eigen::VectorXd& leverage,
-                 const std::vector<CellLink>& link, uint64_t* kept) {
+// KeepTerms from cell `begin_at` on, the first `n` cells kept already in
+// `kept`; returns the number kept in all.
+size_t KeepTermsFrom(const Eigen::VectorXd& residual, const Eigen::VectorXd& weight, const Eigen::VectorXd& leverage,
+                     const std::vector<CellLink>& link, int64_t begin_at, size_t n, uint64_t* kept) {
   const int64_t num_all = residual.size();
   const double* w = weight.data();
   const double* q = leverage.data();
   Eigen::Array<double, kTermBlock, 1> block;
-  size_t n = 0;
-  for (int64_t begin = 0; begin < num_all; begin += kTermBlock) {
+  for (int64_t begin = begin_at; begin < num_all; begin += kTermBlock) {
     const int64_t size = std::min(kTermBlock, num_all - begin);
     // Each quotient and root correctly rounded, so the same bits as one at
     // a time; NaN or infinity where h >= 1, not kept.
@@ -254,6 +252,61 @@ size_t KeepTerms(const Eigen::VectorXd& residual, const Eigen::VectorXd& weight,
     }
   }
   return n;
+}
+
+#if defined(__x86_64__)
+#if defined(__GNUC__) && !defined(__clang__)
+#pragma GCC diagnostic push
+#pragma GCC diagnostic ignored "-Wmaybe-uninitialized"
+#endif
+// KeepTermsFrom on the cells of whole vectors of 8 (of `num_all`), where the
+// dense products run on AVX-512: the same products, differences, roots and
+// quotients, each correctly rounded (explicitly rounded intrinsics), and
+// the terms of the cells kept packed in cell order. Sets *n to the cells
+// kept and returns the number of cells done. `kept` has room for every
+// cell: the 8 lanes stored at kept + *n never pass cell k + 8.
+__attribute__((target("avx512f,avx2,fma"))) int64_t KeepTermsAvx512(int64_t num_all, const double* e, const double* w,
+                                                                    const double* q, const uint8_t* link,
+                                                                    uint64_t* kept, size_t* n) {
+  constexpr int kRound = _MM_FROUND_CUR_DIRECTION;
+  const __m512d one = _mm512_set1_pd(1.0), hat_limit = _mm512_set1_pd(1.0 - kHatOne);
+  size_t num_kept = 0;
+  int64_t k = 0;
+  for (; k + 8 <= num_all; k += 8) {
+    const __m512d h = _mm512_mul_round_pd(_mm512_loadu_pd(w + k), _mm512_loadu_pd(q + k), kRound);
+    const __m512d root = _mm512_sqrt_round_pd(_mm512_sub_round_pd(one, h, kRound), kRound);
+    const __m512d term = _mm512_div_round_pd(_mm512_abs_pd(_mm512_loadu_pd(e + k)), root, kRound);
+    const __m512i links = _mm512_cvtepu8_epi64(_mm_loadl_epi64(reinterpret_cast<const __m128i*>(link + k)));
+    const __mmask8 keep = static_cast<__mmask8>(_mm512_cmpeq_epi64_mask(links, _mm512_setzero_si512()) &
+                                                _mm512_cmp_pd_mask(h, hat_limit, _CMP_LT_OQ));
+    _mm512_storeu_si512(kept + num_kept, _mm512_maskz_compress_epi64(keep, _mm512_castpd_si512(term)));
+    num_kept += static_cast<size_t>(__builtin_popcount(keep));
+  }
+  _mm256_zeroupper();  // before the scalar code that follows (see HuberWeightsAvx512)
+  *n = num_kept;
+  return k;
+}
+#if defined(__GNUC__) && !defined(__clang__)
+#pragma GCC diagnostic pop
+#endif
+#endif
+
+// Sets the terms |e| / sqrt(1 - w q) of the cells kept (link kNone, w q
+// below 1 - kHatOne) into `kept` (sized for every cell), in cell order, and
+// returns their number; on vectors of 8 cells where the dense products run
+// on AVX-512 (the same terms).
+size_t KeepTerms(const Eigen::VectorXd& residual, const Eigen::VectorXd& weight, const Eigen::VectorXd& leverage,
+                 const std::vector<CellLink>& link, uint64_t* kept) {
+  static_assert(sizeof(CellLink) == 1 && static_cast<int>(CellLink::kNone) == 0);
+  int64_t done = 0;
+  size_t n = 0;
+#if defined(__x86_64__)
+  if (ActiveDenseKernels() == DenseKernels::kAvx512 && vector_cell_passes.load(std::memory_order_relaxed)) {
+    done = KeepTermsAvx512(residual.size(), residual.data(), weight.data(), leverage.data(),
+                           reinterpret_cast<const uint8_t*>(link.data()), kept, &n);
+  }
+#endif
+  return KeepTermsFrom(residual, weight, leverage, link, done, n, kept);
 }
 
 // Where the terms lie against a window [lo, hi] of bit patterns: how many
