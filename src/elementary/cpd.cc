@@ -42,6 +42,30 @@ std::string Number(double value) {
   return out;
 }
 
+// Adds each cell's value[k] to its region's sum, its item's sum and its
+// (region, item) entry. An item's sum runs in a register while its cells
+// follow one another (a heading's cells come by item): the same additions
+// in the same order as through memory, without each waiting on the store
+// of the one before.
+void AddCellSums(const internal::CompressedCells& cells, std::span<const double> value, Eigen::VectorXd* by_region,
+                 Eigen::VectorXd* by_item, Eigen::MatrixXd* by_pair) {
+  const size_t num_cells = cells.region.size();
+  int run_item = num_cells > 0 ? cells.item[0] : 0;
+  double item_sum = num_cells > 0 ? (*by_item)[run_item] : 0.0;
+  for (size_t k = 0; k < num_cells; ++k) {
+    const int r = cells.region[k], i = cells.item[k];
+    if (i != run_item) {
+      (*by_item)[run_item] = item_sum;
+      run_item = i;
+      item_sum = (*by_item)[i];
+    }
+    (*by_region)[r] += value[k];
+    item_sum += value[k];
+    (*by_pair)(r, i) += value[k];
+  }
+  if (num_cells > 0) (*by_item)[run_item] = item_sum;
+}
+
 // The gauge-fixed normal equations of the CPD model on compressed cells.
 // Eliminates items when num_regions <= num_items (the region effect 0 is held
 // at 0), regions otherwise (the item effect 0 is held at 0).
@@ -54,11 +78,7 @@ class NormalEquations {
         d_region_(Eigen::VectorXd::Zero(cells.num_regions)),
         d_item_(Eigen::VectorXd::Zero(cells.num_items)),
         c_(Eigen::MatrixXd::Zero(cells.num_regions, cells.num_items)) {
-    for (size_t k = 0; k < cells.region.size(); ++k) {
-      d_region_[cells.region[k]] += weight[k];
-      d_item_[cells.item[k]] += weight[k];
-      c_(cells.region[k], cells.item[k]) += weight[k];
-    }
+    AddCellSums(cells, weight, &d_region_, &d_item_, &c_);
   }
 
   // Forms and factorises the reduced Schur complement; false when it is not
@@ -69,8 +89,10 @@ class NormalEquations {
       const int n = num_regions_ - 1;
       if (n == 0) return true;
       // S = D_r - C D_i^-1 C', without the gauge row and column.
-      const Eigen::MatrixXd scaled =
-          c_.bottomRows(n) * d_item_.cwiseSqrt().cwiseInverse().asDiagonal();
+      // The scales formed once (in the product, Eigen's diagonal would form
+      // each entry's root and quotient anew: the same values).
+      const Eigen::VectorXd item_scale = d_item_.cwiseSqrt().cwiseInverse();
+      const Eigen::MatrixXd scaled = c_.bottomRows(n) * item_scale.asDiagonal();
       Eigen::MatrixXd s = Eigen::MatrixXd::Zero(n, n);
       internal::SubtractGramLower(scaled, &s);
       s.diagonal() += d_region_.tail(n);
@@ -81,8 +103,8 @@ class NormalEquations {
       // S = D_i - C' D_r^-1 C, without the gauge row and column; the
       // kernel wants the factor's rows contiguous, so it is stored
       // transposed (n x R).
-      const Eigen::MatrixXd scaled_transposed =
-          (d_region_.cwiseSqrt().cwiseInverse().asDiagonal() * c_.rightCols(n)).transpose();
+      const Eigen::VectorXd region_scale = d_region_.cwiseSqrt().cwiseInverse();
+      const Eigen::MatrixXd scaled_transposed = (region_scale.asDiagonal() * c_.rightCols(n)).transpose();
       Eigen::MatrixXd s = Eigen::MatrixXd::Zero(n, n);
       internal::SubtractGramLower(scaled_transposed, &s);
       s.diagonal() += d_item_.tail(n);
@@ -340,11 +362,8 @@ void StandardErrors(const NormalEquations& normal, const internal::CompressedCel
   Eigen::VectorXd meat_region = Eigen::VectorXd::Zero(num_regions);
   Eigen::VectorXd meat_item = Eigen::VectorXd::Zero(num_items);
   Eigen::MatrixXd meat_cross = Eigen::MatrixXd::Zero(num_regions, num_items);
-  for (size_t k = 0; k < cells.region.size(); ++k) {
-    meat_region[cells.region[k]] += score_weight[k];
-    meat_item[cells.item[k]] += score_weight[k];
-    meat_cross(cells.region[k], cells.item[k]) += score_weight[k];
-  }
+  AddCellSums(cells, std::span<const double>(score_weight.data(), static_cast<size_t>(score_weight.size())),
+              &meat_region, &meat_item, &meat_cross);
   const Eigen::VectorXd quad = normal.SandwichQuadraticForms(reference, meat_region, meat_item,
                                                              meat_cross, contrast_solution);
   for (int r = 0; r < num_regions; ++r) (*se_robust)[r] = std::sqrt(std::max(0.0, quad[r]));
