@@ -143,10 +143,13 @@ double MedianOfNonNegative(const std::vector<uint64_t>& bits, ScaleScratch* scra
 Eigen::VectorXd LeverageFactors(int num_regions, int num_items, std::span<const int> region,
                                 std::span<const int> item, const Eigen::VectorXd& weight);
 
-// Classifies the cells of a linked design (indices as LeverageFactors) by
-// bridges of the bipartite region-item graph (Tarjan 1974, iterative), and
-// lists the regions on the region side of each bridge with several there.
-void FindCuttingCells(int num_regions, int num_items, std::span<const int> region,
+// Classifies the cells of a design (indices as LeverageFactors; every
+// region and item with a cell) by bridges of the bipartite region-item
+// graph (Tarjan 1974, iterative), and lists the regions on the region side
+// of each bridge with several there. Returns the number of the graph's
+// connected parts, each a group of linked regions: the design is linked
+// when it is 1 (the classification is meant for that case).
+int FindCuttingCells(int num_regions, int num_items, std::span<const int> region,
                       std::span<const int> item, std::vector<CellLink>* link,
                       std::map<int, std::vector<int>>* region_side);
 

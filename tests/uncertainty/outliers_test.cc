@@ -748,7 +748,7 @@ TEST(ScreenFit, FindsTheCellsWhoseHatValueIsOne) {
   const std::vector<int> item = {0, 0, 0, 1, 1, 1, 0, 2, 3, 3, 1};
   std::vector<internal::CellLink> link;
   std::map<int, std::vector<int>> side;
-  internal::FindCuttingCells(6, 4, region, item, &link, &side);
+  EXPECT_EQ(internal::FindCuttingCells(6, 4, region, item, &link, &side), 1);
   using internal::CellLink;
   std::vector<CellLink> expected(11, CellLink::kNone);
   expected[6] = expected[8] = expected[9] = expected[10] = CellLink::kCutsHeading;
@@ -759,6 +759,20 @@ TEST(ScreenFit, FindsTheCellsWhoseHatValueIsOne) {
   ASSERT_EQ(side.size(), 2u);
   EXPECT_EQ(side.at(9), (std::vector<int>{0, 1, 2, 3, 5}));
   EXPECT_EQ(side.at(10), (std::vector<int>{4, 5}));
+}
+
+// The graph search counts the groups of linked regions: regions 0-1 share
+// item 0, regions 2-3 item 1, region 4 alone prices item 2; a cell joining
+// region 1 to item 1 links the first two groups.
+TEST(ScreenFit, CountsTheGroupsOfLinkedRegions) {
+  std::vector<int> region = {0, 1, 2, 3, 4}, item = {0, 0, 1, 1, 2};
+  std::vector<internal::CellLink> link;
+  std::map<int, std::vector<int>> side;
+  EXPECT_EQ(internal::FindCuttingCells(5, 3, region, item, &link, &side), 3);
+  region.push_back(1);
+  item.push_back(1);
+  EXPECT_EQ(internal::FindCuttingCells(5, 3, region, item, &link, &side), 2);
+  EXPECT_EQ(internal::FindCuttingCells(1, 1, std::vector<int>{0}, std::vector<int>{0}, &link, &side), 1);
 }
 
 TEST(OutlierOptions, DefaultsAreValidAndOutOfRangeFieldsAreNamed) {
