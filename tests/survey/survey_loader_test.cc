@@ -498,6 +498,19 @@ TEST(LoadSurvey, RejectsDuplicatedExpenditureRows) {
                 ":4:1: duplicate row for region 'north' and heading 'food' (first at line 2)");
 }
 
+// Pairs of a region or heading first named in expenditure.csv (kept apart
+// from the pairs known when the file is opened) are checked the same way.
+TEST(LoadSurvey, RejectsDuplicatedExpenditureRowsOfCodesFirstNamedThere) {
+  const SurveyDir heading = MakeSurvey("duplicate_new_heading", kPrices,
+                                       std::string(kExpenditure) + "north,rent,7\nnorth,rent,8\n");
+  EXPECT_EQ(FirstRejection(heading),
+            heading.expenditure() + ":5:1: duplicate row for region 'north' and heading 'rent' (first at line 4)");
+  const SurveyDir region = MakeSurvey("duplicate_new_region", kPrices,
+                                      std::string(kExpenditure) + "east,food,7\neast,food,8\n");
+  EXPECT_EQ(FirstRejection(region),
+            region.expenditure() + ":5:1: duplicate row for region 'east' and heading 'food' (first at line 4)");
+}
+
 TEST(LoadSurvey, RejectsAnItemFiledUnderTwoHeadingsInItemsCsv) {
   const SurveyDir files = MakeSurvey("items_two_headings", "region,item,price\nnorth,bread,2\nsouth,bread,3\n",
                                         kExpenditure, "item,heading\nbread,food\nmilk,food\nbread,bakery\n");
