@@ -43,9 +43,6 @@ std::string_view ValidCodeField(const CsvRecord& record, int column) {
   return code;
 }
 
-// Reads a small table whole: checks its header, then hands every data row
-// with the header's number of fields to `handle`, counting rows read, used
-// and rejected.
 // The first line of each (region, heading) pair of expenditure.csv. The
 // pairs of the regions and headings known when the file is opened (all of
 // them, usually: the prices come first) are kept in a dense grid, which a
@@ -87,6 +84,9 @@ class FirstLines {
   std::unordered_map<uint64_t, int64_t> others_;
 };
 
+// Reads a small table whole: checks its header, then hands every data row
+// with the header's number of fields to `handle`, counting rows read, used
+// and rejected.
 bool ReadSmallTable(const std::string& path, const ReadLimits& limits, const CsvFormat& format,
                     const std::vector<std::string>& wanted, const std::vector<bool>& required,
                     Rejections* rejections, InputFileSummary* file,

@@ -416,7 +416,6 @@ __attribute__((target("avx512f,avx2,fma"))) size_t TallyCellsAvx512(const TallyI
 #endif
 #endif
 
-
 // Tallies the terms of the cells kept (as KeepTerms) against `window`,
 // setting those inside it into `near` (sized for every cell), and returns
 // the number of cells kept. Most terms are placed without being formed: a

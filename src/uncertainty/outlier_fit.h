@@ -155,9 +155,10 @@ int FindCuttingCells(int num_regions, int num_items, std::span<const int> region
 
 // Whether the screen's per-cell passes that run on vectors of 8 cells
 // where the dense products run on AVX-512 (ActiveDenseKernels() is
-// kAvx512) do so: the Huber weights of each reweighting and RobustScale's
-// tally of the terms against its window (default true). No result may
-// depend on it; tests turn it off to check that none does.
+// kAvx512) do so: the Huber weights of each reweighting, and RobustScale's
+// terms when it forms them all and its tally of them against its window
+// (default true). No result may depend on it; tests turn it off to check
+// that none does.
 void EnableVectorCellPasses(bool enabled);
 
 // Whether the screen lets a cell that surely passes (its residual and
