@@ -43,9 +43,10 @@ std::string_view ValidCodeField(const CsvRecord& record, int column) {
   return code;
 }
 
-// The first line of each (region, heading) pair of expenditure.csv. The
-// pairs of the regions and headings known when the file is opened (all of
-// them, usually: the prices come first) are kept in a dense grid, which a
+// The first line of each (region, heading) pair of expenditure.csv or the
+// external parities. The pairs of the regions and headings known when the
+// file is opened (all of them, usually: the prices come first) are kept in
+// a dense grid, which a
 // file in any order touches within a few hundred kilobytes; others in a
 // map. A node-based map of every pair took most of the file's 18 ms for
 // 100,000 rows on one core, the other idle, and an open-addressed one 14 ms
@@ -490,7 +491,7 @@ constexpr std::string_view kRescaleParities =
 
 bool ReadExternalParities(const std::string& path, LoadState* state, Rejections* rejections,
                           InputFileSummary* file, std::string* error) {
-  std::unordered_map<uint64_t, int64_t> first_line;
+  FirstLines first_line(state->regions.size(), state->headings.size());
   const char decimal = state->config->survey.external_parities_format.decimal;
   const char* const setting = "survey.external_parities";
   auto handle = [&](const CsvRecord& record, const Columns& columns) -> RowVerdict {
@@ -554,13 +555,10 @@ bool ReadExternalParities(const std::string& path, LoadState* state, Rejections*
                                 "it a percentage?"};
       }
     }
-    const uint64_t key =
-        (static_cast<uint64_t>(region_index) << 32) | static_cast<uint32_t>(heading_index);
-    auto [it, inserted] = first_line.emplace(key, record.line);
+    const auto [first, inserted] = first_line.Add(region_index, heading_index, record.line);
     if (!inserted) {
       return {kHeading + 1, "duplicate row for heading " + QuoteValue(heading) + " and region " +
-                                QuoteValue(region) + " (first at line " +
-                                std::to_string(it->second) + ")"};
+                                QuoteValue(region) + " (first at line " + std::to_string(first) + ")"};
     }
     state->external.push_back({region_index, heading_index, std::log(parity), log_se});
     return {};

@@ -201,6 +201,14 @@ __attribute__((target("avx512f,avx2,fma"))) int64_t HuberWeightsAvx512(const dou
 // Whether the screen's per-cell passes run on vectors (EnableVectorCellPasses).
 std::atomic<bool> vector_cell_passes{true};
 
+#if defined(__x86_64__)
+// Whether they do now: where the dense products run on AVX-512, unless a
+// test turned them off.
+bool UseVectorCellPasses() {
+  return ActiveDenseKernels() == DenseKernels::kAvx512 && vector_cell_passes.load(std::memory_order_relaxed);
+}
+#endif
+
 // Sets the Huber weights into `weight` and returns the largest change (see
 // HuberWeightsFrom), on vectors of 8 cells where the dense products run on
 // AVX-512.
@@ -211,7 +219,7 @@ double HuberWeights(const Eigen::VectorXd& residual, double cutoff, const Eigen:
   int64_t done = 0;
   double change = 0.0;
 #if defined(__x86_64__)
-  if (ActiveDenseKernels() == DenseKernels::kAvx512 && vector_cell_passes.load(std::memory_order_relaxed)) {
+  if (UseVectorCellPasses()) {
     done = HuberWeightsAvx512(residual.data(), previous.data(), n, cutoff, weight->data(), &change);
   }
 #endif
@@ -301,7 +309,7 @@ size_t KeepTerms(const Eigen::VectorXd& residual, const Eigen::VectorXd& weight,
   int64_t done = 0;
   size_t n = 0;
 #if defined(__x86_64__)
-  if (ActiveDenseKernels() == DenseKernels::kAvx512 && vector_cell_passes.load(std::memory_order_relaxed)) {
+  if (UseVectorCellPasses()) {
     done = KeepTermsAvx512(residual.size(), residual.data(), weight.data(), leverage.data(),
                            reinterpret_cast<const uint8_t*>(link.data()), kept, &n);
   }
@@ -435,7 +443,7 @@ size_t TallyAgainstWindow(const Eigen::VectorXd& residual, const Eigen::VectorXd
                       sure_above * sure_above};
   size_t num_below = 0, num_near = 0, n = 0;
 #if defined(__x86_64__)
-  if (ActiveDenseKernels() == DenseKernels::kAvx512 && vector_cell_passes.load(std::memory_order_relaxed)) {
+  if (UseVectorCellPasses()) {
     n = TallyCellsAvx512(in, near, window, &num_below, &num_near);
   } else {
     n = TallyCells(in, 0, near, window, &num_below, &num_near);
