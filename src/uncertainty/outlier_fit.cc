@@ -133,7 +133,7 @@ Compressed Compress(const CpdData& data) {
 }
 
 // Sets the Huber weight of each cell, min(1, c s / |e|) (Huber 1981), and
-// returns the largest change from `previous`, from cell `begin` on (the
+// returns the largest change from `previous`, from cell `begin_at` on (the
 // weights before it are set by the caller). A block of cells at a time
 // (kHuberBlock, in the L1 cache for the three loops over it): the quotient
 // is formed for every cell and then chosen, in loops that each run on
